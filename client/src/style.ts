@@ -1,0 +1,121 @@
+import type { StyleSpecification, ExpressionSpecification } from 'maplibre-gl';
+import { EMBER, ZONE_COLORS, FAULT_STYLE, rampStops } from '../../shared/grid/ramps.ts';
+import type { AppConfig } from './api.ts';
+
+/** The heat-flow range the site colours span, mW/m². */
+export const HEAT_FLOW_RANGE: [number, number] = [35, 125];
+
+export function heatFlowColor(): ExpressionSpecification {
+  const stops = rampStops(EMBER, HEAT_FLOW_RANGE[0], HEAT_FLOW_RANGE[1]).flat();
+  return ['interpolate', ['linear'], ['get', 'heatFlowMWm2'], ...stops] as unknown as ExpressionSpecification;
+}
+
+function zoneColor(): ExpressionSpecification {
+  const pairs = Object.entries(ZONE_COLORS).flat();
+  return ['match', ['get', 'zone'], ...pairs, '#ffffff'] as unknown as ExpressionSpecification;
+}
+
+function faultProp<K extends 'color' | 'width'>(key: K, fallback: string | number): ExpressionSpecification {
+  const pairs = Object.entries(FAULT_STYLE).flatMap(([kind, s]) => [kind, s[key]]);
+  return ['match', ['get', 'kind'], ...pairs, fallback] as unknown as ExpressionSpecification;
+}
+
+/**
+ * The map's own style: no outside sources, no glyph server (labels use the browser's fonts), terrain as raster-dem
+ * tiles from our server.
+ */
+export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
+  const ds = cfg.demo.datasets;
+  const url = (id: string) => `${origin}/api/datasets/${encodeURIComponent(id)}`;
+  const style: StyleSpecification = {
+    version: 8,
+    name: 'subtherm',
+    sources: {
+      outline: { type: 'geojson', data: url(ds.regions) },
+      'sea-mask': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
+      faults: { type: 'geojson', data: url(ds.faults) },
+      samples: { type: 'geojson', data: url(ds.samples) },
+      sites: { type: 'geojson', data: url(ds.sites) },
+    },
+    layers: [
+      { id: 'sea', type: 'background', paint: { 'background-color': '#dfe6ea' } },
+      { id: 'land', type: 'fill', source: 'outline', paint: { 'fill-color': '#f1ede4' } },
+    ],
+  };
+  if (cfg.terrain) {
+    style.sources.terrain = {
+      type: 'raster-dem',
+      tiles: [origin + cfg.terrain.tiles],
+      tileSize: cfg.terrain.tileSize,
+      bounds: cfg.terrain.bounds,
+      minzoom: cfg.terrain.minzoom,
+      maxzoom: cfg.terrain.maxzoom,
+      encoding: cfg.terrain.encoding,
+    };
+    style.layers.push({
+      id: 'hillshade',
+      type: 'hillshade',
+      source: 'terrain',
+      paint: { 'hillshade-exaggeration': 0.85, 'hillshade-shadow-color': '#4a4540', 'hillshade-highlight-color': '#ffffff', 'hillshade-accent-color': '#8a8276' },
+    });
+  }
+  style.layers.push(
+    // The sea is drawn over the relief so the shaded sea floor never shows through.
+    { id: 'sea-mask', type: 'fill', source: 'sea-mask', paint: { 'fill-color': '#dfe6ea' } },
+    { id: 'coast', type: 'line', source: 'outline', paint: { 'line-color': '#6c7f8c', 'line-width': 1.2 } },
+    {
+      id: 'faults',
+      type: 'line',
+      source: 'faults',
+      layout: { 'line-cap': 'round', 'line-join': 'round' },
+      paint: { 'line-color': faultProp('color', '#555555'), 'line-width': faultProp('width', 1.5) },
+    },
+    {
+      id: 'fault-labels',
+      type: 'symbol',
+      source: 'faults',
+      layout: {
+        'symbol-placement': 'line',
+        'text-field': ['get', 'name'],
+        'text-font': ['DejaVu Sans', 'sans-serif'],
+        'text-size': 11,
+        'text-offset': [0, -0.8],
+      },
+      paint: { 'text-color': '#3b3530', 'text-halo-color': '#f6f3ec', 'text-halo-width': 1.4 },
+    },
+    {
+      id: 'samples',
+      type: 'circle',
+      source: 'samples',
+      paint: {
+        'circle-radius': 4,
+        'circle-color': zoneColor(),
+        'circle-stroke-color': '#2b2b2b',
+        'circle-stroke-width': 0.8,
+      },
+    },
+    {
+      id: 'sites',
+      type: 'circle',
+      source: 'sites',
+      paint: {
+        'circle-radius': ['match', ['get', 'quality'], 'high', 6.5, 'medium', 5, 4],
+        'circle-color': heatFlowColor(),
+        'circle-stroke-color': '#ffffff',
+        'circle-stroke-width': ['match', ['get', 'quality'], 'high', 1.8, 'medium', 1.2, 0.8],
+      },
+    },
+  );
+  return style;
+}
+
+/** A polygon covering the map view except the region outlines: the world ring with each outline as a hole. */
+export function seaMask(outline: { features: { geometry: { type: string; coordinates: unknown } }[] }): GeoJSON.FeatureCollection {
+  const holes: number[][][] = [];
+  for (const f of outline.features) {
+    if (f.geometry.type === 'Polygon') holes.push((f.geometry.coordinates as number[][][])[0]);
+    else if (f.geometry.type === 'MultiPolygon') for (const p of f.geometry.coordinates as number[][][][]) holes.push(p[0]);
+  }
+  const world = [[-180, -85], [180, -85], [180, 85], [-180, 85], [-180, -85]];
+  return { type: 'FeatureCollection', features: [{ type: 'Feature', properties: {}, geometry: { type: 'Polygon', coordinates: [world, ...holes] } }] };
+}

@@ -1,0 +1,85 @@
+import { readFile } from 'node:fs/promises';
+import { fromArrayBuffer } from 'geotiff';
+import type { Grid } from '../shared/grid/grid.ts';
+import { gridBbox } from '../shared/grid/grid.ts';
+import { encodeTerrainRgb } from '../shared/grid/terrain-rgb.ts';
+import { lngFromTileX, latFromTileY, tileIntersectsBbox } from '../shared/grid/webmercator.ts';
+import { encodePng } from './io/png.ts';
+
+export const TILE_SIZE = 256;
+export const TERRAIN_MIN_ZOOM = 4;
+export const TERRAIN_MAX_ZOOM = 13;
+
+/** Reads a single-band lon/lat DEM GeoTIFF (EPSG:4326, metres) into a Grid. */
+export async function loadDem(path: string): Promise<Grid<Float32Array>> {
+  const buf = await readFile(path);
+  const tiff = await fromArrayBuffer(buf.buffer.slice(buf.byteOffset, buf.byteOffset + buf.byteLength));
+  const image = await tiff.getImage();
+  const [west, , , north] = image.getBoundingBox();
+  const [dx, dy] = image.getResolution();
+  const raster = (await image.readRasters({ interleave: true })) as unknown as ArrayLike<number>;
+  const values = new Float32Array(raster.length);
+  const noData = image.getGDALNoData();
+  for (let i = 0; i < values.length; i++) values[i] = noData !== null && raster[i] === noData ? NaN : raster[i];
+  return { width: image.getWidth(), height: image.getHeight(), values, west, north, dx: Math.abs(dx), dy: Math.abs(dy), crs: 'EPSG:4326', units: 'm' };
+}
+
+/**
+ * Renders raster-dem tiles (256 px, the encoding of shared/grid/terrain-rgb.ts) from a lon/lat DEM by bilinear
+ * sampling at each pixel centre; pixels beyond the DEM take the nearest edge value so hillshade shows no seam.
+ * Tiles are cached (least recently used first out).
+ */
+export class TerrainTiles {
+  readonly bbox: [number, number, number, number];
+  private readonly cache = new Map<string, Buffer>();
+  private readonly colX = new Float64Array(TILE_SIZE);
+  private readonly rowY = new Float64Array(TILE_SIZE);
+  private readonly rgb = new Uint8Array(TILE_SIZE * TILE_SIZE * 3);
+
+  constructor(private readonly dem: Grid<Float32Array>, private readonly cacheSize = 512) {
+    this.bbox = gridBbox(dem);
+  }
+
+  /** The PNG of tile z/x/y, or null when the tile lies outside the DEM or the zoom range. */
+  tile(z: number, x: number, y: number): Buffer | null {
+    if (!(z >= TERRAIN_MIN_ZOOM && z <= TERRAIN_MAX_ZOOM) || x < 0 || y < 0 || x >= 2 ** z || y >= 2 ** z) return null;
+    if (!tileIntersectsBbox(z, x, y, this.bbox)) return null;
+    const key = `${z}/${x}/${y}`;
+    const hit = this.cache.get(key);
+    if (hit) {
+      this.cache.delete(key);
+      this.cache.set(key, hit);
+      return hit;
+    }
+    const png = this.render(z, x, y);
+    this.cache.set(key, png);
+    if (this.cache.size > this.cacheSize) this.cache.delete(this.cache.keys().next().value as string);
+    return png;
+  }
+
+  private render(z: number, x: number, y: number): Buffer {
+    const d = this.dem;
+    const maxC = d.width - 1, maxR = d.height - 1;
+    // Fractional DEM column/row of each pixel centre, computed once per tile axis.
+    for (let i = 0; i < TILE_SIZE; i++) {
+      const lng = lngFromTileX(x + (i + 0.5) / TILE_SIZE, z);
+      const lat = latFromTileY(y + (i + 0.5) / TILE_SIZE, z);
+      this.colX[i] = Math.min(maxC, Math.max(0, (lng - d.west) / d.dx - 0.5));
+      this.rowY[i] = Math.min(maxR, Math.max(0, (d.north - lat) / d.dy - 0.5));
+    }
+    const v = d.values;
+    for (let py = 0; py < TILE_SIZE; py++) {
+      const fr = this.rowY[py];
+      const r0 = Math.floor(fr), r1 = Math.min(maxR, r0 + 1), ty = fr - r0;
+      for (let px = 0; px < TILE_SIZE; px++) {
+        const fc = this.colX[px];
+        const c0 = Math.floor(fc), c1 = Math.min(maxC, c0 + 1), tx = fc - c0;
+        const a = v[r0 * d.width + c0], b = v[r0 * d.width + c1], c = v[r1 * d.width + c0], e = v[r1 * d.width + c1];
+        let h = (a * (1 - tx) + b * tx) * (1 - ty) + (c * (1 - tx) + e * tx) * ty;
+        if (!Number.isFinite(h)) h = 0;
+        encodeTerrainRgb(h, this.rgb, (py * TILE_SIZE + px) * 3);
+      }
+    }
+    return encodePng(this.rgb, TILE_SIZE, TILE_SIZE, 3);
+  }
+}

@@ -1,0 +1,55 @@
+import { InputError } from '../errors.ts';
+
+/**
+ * Parses RFC 4180 CSV (quoted fields, doubled quotes, CRLF or LF line ends) into a header and rows of strings.
+ * Lines that start with `#` before the header are comments (our own exports begin with a caution comment).
+ */
+export function parseCsv(text: string): { header: string[]; rows: string[][] } {
+  const records: string[][] = [];
+  let field = '';
+  let record: string[] = [];
+  let inQuotes = false;
+  let i = 0;
+  const n = text.length;
+  if (text.charCodeAt(0) === 0xfeff) i = 1; // byte-order mark
+  while (i < n) {
+    const ch = text[i];
+    if (inQuotes) {
+      if (ch === '"') {
+        if (text[i + 1] === '"') { field += '"'; i += 2; continue; }
+        inQuotes = false; i++; continue;
+      }
+      field += ch; i++; continue;
+    }
+    if (ch === '"' && field.length === 0) { inQuotes = true; i++; continue; }
+    if (ch === ',') { record.push(field); field = ''; i++; continue; }
+    if (ch === '\r' || ch === '\n') {
+      record.push(field); field = '';
+      records.push(record); record = [];
+      if (ch === '\r' && text[i + 1] === '\n') i++;
+      i++; continue;
+    }
+    field += ch; i++;
+  }
+  if (inQuotes) throw new InputError('CSV has an unterminated quoted field', [{ problem: 'a field opened with " is never closed' }], 'bad_csv');
+  if (field.length > 0 || record.length > 0) { record.push(field); records.push(record); }
+  const useful = records.filter((r) => !(r.length === 1 && r[0].trim() === ''));
+  let start = 0;
+  while (start < useful.length && useful[start][0]?.trimStart().startsWith('#')) start++;
+  if (start >= useful.length) throw new InputError('CSV has no header row', [{ problem: 'expected a header row such as longitude,latitude,...' }], 'bad_csv');
+  const header = useful[start].map((h) => h.trim());
+  const rows = useful.slice(start + 1);
+  rows.forEach((r, k) => {
+    if (r.length !== header.length) {
+      throw new InputError(`CSV row ${k + 1} has ${r.length} fields, the header has ${header.length}`, [{ feature: k, problem: `expected ${header.length} fields, got ${r.length}` }], 'bad_csv');
+    }
+  });
+  return { header, rows };
+}
+
+/** Formats one CSV field, quoting when needed. */
+export function csvField(v: unknown): string {
+  if (v === null || v === undefined) return '';
+  const s = typeof v === 'number' ? (Number.isFinite(v) ? String(v) : '') : String(v);
+  return /[",\r\n]/.test(s) ? '"' + s.replace(/"/g, '""') + '"' : s;
+}

@@ -1,0 +1,89 @@
+// Real-browser test support: Debian's chromium driven by playwright-core, and a real server process.
+import { chromium, type Browser, type Page } from 'playwright-core';
+import { spawn, type ChildProcess } from 'node:child_process';
+import { existsSync, mkdirSync, mkdtempSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+
+export const ROOT = new URL('../..', import.meta.url).pathname;
+export const SCREENSHOT_DIR = join(ROOT, 'tests', 'screenshots');
+export const CHROMIUM = process.env.CHROMIUM_PATH ?? '/usr/bin/chromium';
+
+/** Flags that give WebGL2 in software (SwiftShader through ANGLE) with no network chatter. */
+export const CHROMIUM_ARGS = [
+  '--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
+  '--disable-background-networking', '--disable-component-update', '--disable-sync',
+  '--use-angle=swiftshader', '--enable-unsafe-swiftshader',
+];
+
+export function requireChromium(): void {
+  if (!existsSync(CHROMIUM)) {
+    throw new Error(`chromium not found at ${CHROMIUM}: install it with "apt-get install -y chromium" (bash .ci/run does this)`);
+  }
+}
+
+export async function launchBrowser(): Promise<Browser> {
+  requireChromium();
+  return chromium.launch({ executablePath: CHROMIUM, args: CHROMIUM_ARGS });
+}
+
+export interface RunningServer {
+  url: string;
+  port: number;
+  process: ChildProcess;
+  dbPath: string;
+  stop(signal?: NodeJS.Signals): Promise<void>;
+}
+
+/** Starts `subtherm serve` as a real process on a free port with a fresh database; resolves once it listens. */
+export async function startServerProcess(opts: { dbPath?: string; env?: Record<string, string> } = {}): Promise<RunningServer> {
+  mkdirSync(join(ROOT, '.tmp'), { recursive: true });
+  const dbPath = opts.dbPath ?? join(mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-db-')), 'test.sqlite');
+  const child = spawn(process.execPath, [join(ROOT, 'bin', 'subtherm.mjs'), 'serve', '--port', '0', '--host', '127.0.0.1', '--db', dbPath], {
+    cwd: ROOT,
+    env: { ...process.env, ...opts.env },
+    stdio: ['ignore', 'pipe', 'pipe'],
+  });
+  let log = '';
+  const port = await new Promise<number>((resolve, reject) => {
+    const timer = setTimeout(() => reject(new Error(`server did not start in 120 s:\n${log}`)), 120_000);
+    child.stdout!.on('data', (d: Buffer) => {
+      log += d.toString();
+      const m = /listening on http:\/\/localhost:(\d+)/.exec(log);
+      if (m) {
+        clearTimeout(timer);
+        resolve(Number(m[1]));
+      }
+    });
+    child.stderr!.on('data', (d: Buffer) => (log += d.toString()));
+    child.on('exit', (code) => {
+      clearTimeout(timer);
+      reject(new Error(`server exited with code ${code}:\n${log}`));
+    });
+  });
+  return {
+    url: `http://localhost:${port}`,
+    port,
+    process: child,
+    dbPath,
+    stop: (signal: NodeJS.Signals = 'SIGTERM') =>
+      new Promise<void>((resolve) => {
+        if (child.exitCode !== null || child.signalCode !== null) return resolve();
+        child.once('exit', () => resolve());
+        child.kill(signal);
+      }),
+  };
+}
+
+/** Waits until the page's map has loaded its style, its sources and tiles, and stopped moving (polled, so an
+ * idle event that fired before the call is never missed). */
+export async function waitForMapIdle(page: Page, timeoutMs = 60_000): Promise<void> {
+  await page.waitForFunction(
+    () => {
+      const map = window.subtherm?.map;
+      return Boolean(map && map.isStyleLoaded() && map.loaded() && map.areTilesLoaded() && !map.isMoving());
+    },
+    undefined,
+    { timeout: timeoutMs, polling: 100 },
+  );
+}

@@ -1,0 +1,45 @@
+// The whole test suite: type check, then every unit, API and browser test under Vitest.
+// Ends with the plain line `N passed, N failed` that CI reads.
+import { spawnSync } from 'node:child_process';
+import { mkdirSync, readFileSync, existsSync } from 'node:fs';
+import { join } from 'node:path';
+
+const root = new URL('..', import.meta.url).pathname;
+const tmp = join(root, '.tmp');
+mkdirSync(tmp, { recursive: true });
+const env = { ...process.env, TMPDIR: tmp };
+const extra = process.argv.slice(2);
+
+function run(cmd: string, args: string[]): number {
+  const r = spawnSync(cmd, args, { cwd: root, stdio: 'inherit', env });
+  return r.status ?? 1;
+}
+
+const bin = (name: string) => join(root, 'node_modules', '.bin', name);
+let typeFailed = 0;
+if (extra.length === 0) {
+  process.stdout.write('type check: tsc --noEmit\n');
+  typeFailed = run(bin('tsc'), ['--noEmit', '-p', '.']) === 0 ? 0 : 1;
+}
+
+const report = join(tmp, 'vitest-report.json');
+const code = run(bin('vitest'), ['run', '--reporter=default', '--reporter=json', `--outputFile.json=${report}`, ...extra]);
+let passed = 0;
+let failed = 0;
+if (existsSync(report)) {
+  const r = JSON.parse(readFileSync(report, 'utf8')) as { numPassedTests: number; numFailedTests: number; numFailedTestSuites?: number };
+  passed = r.numPassedTests;
+  failed = r.numFailedTests;
+  // A file that fails to load has no failed test of its own: count it once.
+  if (code !== 0 && failed === 0) failed = Math.max(1, r.numFailedTestSuites ?? 0);
+} else if (code !== 0) {
+  failed = 1;
+}
+if (typeFailed) {
+  failed += 1;
+  process.stdout.write('type check failed\n');
+} else if (extra.length === 0) {
+  passed += 1;
+}
+process.stdout.write(`${passed} passed, ${failed} failed\n`);
+process.exit(code !== 0 || typeFailed || failed > 0 ? 1 : 0);

@@ -1,0 +1,96 @@
+import { describe, expect, it } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+import { encodePng } from '../../server/io/png.ts';
+import { encodeTerrainRgb, decodeTerrainRgb } from '../../shared/grid/terrain-rgb.ts';
+import { latFromTileY, lngFromTileX, tileXFromLng, tileYFromLat } from '../../shared/grid/webmercator.ts';
+import { cellIndexFromXY, xFromCol, yFromRow, colFromX, rowFromY, sampleBilinear, gridBbox, type Grid } from '../../shared/grid/grid.ts';
+import { loadDem, TerrainTiles } from '../../server/terrain.ts';
+import { DEMO_TERRAIN } from '../../server/demo.ts';
+
+const tmp = () => mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-'));
+
+describe('web mercator tiles', () => {
+  it('match the standard tiling: z0 spans ±180°, ±85.0511287798° (EPSG:3857 limit, common practice)', () => {
+    expect(lngFromTileX(0, 0)).toBe(-180);
+    expect(lngFromTileX(1, 0)).toBe(180);
+    expect(latFromTileY(0, 0)).toBeCloseTo(85.0511287798, 9);
+    expect(latFromTileY(1, 1)).toBeCloseTo(0, 12);
+    expect(tileXFromLng(lngFromTileX(123.4, 9), 9)).toBeCloseTo(123.4, 9);
+    expect(tileYFromLat(latFromTileY(313.7, 9), 9)).toBeCloseTo(313.7, 9);
+  });
+});
+
+describe('terrain RGB encoding', () => {
+  it('round-trips to 0.05 m with MapLibre\'s "mapbox" decode (R·6553.6 + G·25.6 + B·0.1 − 10000)', () => {
+    const px = new Uint8Array(3);
+    for (const h of [-9999.9, -1196.7, 0, 0.05, 313.17, 1998.4, 8848.86]) {
+      encodeTerrainRgb(h, px, 0);
+      // The decode formula as MapLibre's raster-dem "mapbox" encoding defines it.
+      const maplibre = px[0] * 6553.6 + px[1] * 25.6 + px[2] * 0.1 - 10000;
+      expect(Math.abs(maplibre - h)).toBeLessThanOrEqual(0.05 + 1e-9);
+      expect(decodeTerrainRgb(px[0], px[1], px[2])).toBeCloseTo(maplibre, 9);
+    }
+  });
+});
+
+describe('PNG encoder', () => {
+  it('writes files GDAL reads back pixel for pixel (GDAL as the reference decoder)', () => {
+    const w = 7, h = 5;
+    const rgb = new Uint8Array(w * h * 3);
+    for (let i = 0; i < rgb.length; i++) rgb[i] = (i * 37) % 256;
+    const dir = tmp();
+    const file = join(dir, 't.png');
+    writeFileSync(file, encodePng(rgb, w, h, 3, { Comment: 'test' }));
+    for (const [x, y] of [[0, 0], [6, 4], [3, 2]]) {
+      const r = spawnSync('gdallocationinfo', ['-valonly', file, String(x), String(y)], { encoding: 'utf8' });
+      if (r.error) throw new Error('gdallocationinfo not found: install gdal-bin');
+      const bands = r.stdout.trim().split(/\s+/).map(Number);
+      const o = (y * w + x) * 3;
+      expect(bands).toEqual([rgb[o], rgb[o + 1], rgb[o + 2]]);
+    }
+  });
+});
+
+describe('grid converters', () => {
+  const g: Grid = { width: 4, height: 3, values: new Float32Array([0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11]), west: 10, north: 50, dx: 0.5, dy: 0.25, crs: 'EPSG:4326', units: 'x' };
+  it('map index ↔ world coordinates by cell centres, rows southwards', () => {
+    expect(xFromCol(g, 0)).toBe(10.25);
+    expect(yFromRow(g, 0)).toBe(49.875);
+    expect(colFromX(g, xFromCol(g, 3))).toBeCloseTo(3, 12);
+    expect(rowFromY(g, yFromRow(g, 2))).toBeCloseTo(2, 12);
+    expect(cellIndexFromXY(g, 10.01, 49.99)).toBe(0);
+    expect(cellIndexFromXY(g, 11.99, 49.26)).toBe(11);
+    expect(cellIndexFromXY(g, 9.99, 49.5)).toBe(-1);
+    expect(gridBbox(g)).toEqual([10, 49.25, 12, 50]);
+  });
+  it('samples bilinearly between centres', () => {
+    expect(sampleBilinear(g, xFromCol(g, 1), yFromRow(g, 1))).toBe(5);
+    expect(sampleBilinear(g, (xFromCol(g, 1) + xFromCol(g, 2)) / 2, (yFromRow(g, 0) + yFromRow(g, 1)) / 2)).toBeCloseTo(3.5, 6);
+  });
+});
+
+describe('terrain tiles', () => {
+  it('encode the DEM: a tile pixel decodes to the DEM value at that place within the bilinear error', async () => {
+    const dem = await loadDem(DEMO_TERRAIN);
+    const tiles = new TerrainTiles(dem);
+    // Zoom 12: pixels (~30 m) much smaller than DEM cells (~500 m), so the pixel value is the DEM's bilinear value.
+    const z = 12;
+    const lng = -127.9, lat = -37.95;
+    const tx = tileXFromLng(lng, z), ty = tileYFromLat(lat, z);
+    const png = tiles.tile(z, Math.floor(tx), Math.floor(ty));
+    expect(png).not.toBeNull();
+    const dir = tmp();
+    const file = join(dir, 'tile.png');
+    writeFileSync(file, png!);
+    const px = Math.floor((tx % 1) * 256), py = Math.floor((ty % 1) * 256);
+    const r = spawnSync('gdallocationinfo', ['-valonly', file, String(px), String(py)], { encoding: 'utf8' });
+    const [R, G, B] = r.stdout.trim().split(/\s+/).map(Number);
+    const pxLng = lngFromTileX(Math.floor(tx) + (px + 0.5) / 256, z), pxLat = latFromTileY(Math.floor(ty) + (py + 0.5) / 256, z);
+    expect(decodeTerrainRgb(R, G, B)).toBeCloseTo(sampleBilinear(dem, pxLng, pxLat), 0);
+    expect(tiles.tile(3, 0, 0)).toBeNull(); // below the zoom range
+    expect(tiles.tile(12, 0, 0)).toBeNull(); // far outside the DEM
+  });
+});
