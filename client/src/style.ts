@@ -110,7 +110,7 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
 }
 
 /** A polygon covering the map view except the region outlines: the world ring with each outline as a hole. */
-export function seaMask(outline: { features: { geometry: { type: string; coordinates: unknown } }[] }): GeoJSON.FeatureCollection {
+export function seaMask(outline: { features: { geometry: { type: string; coordinates: unknown } }[] }): { type: 'FeatureCollection'; features: { type: 'Feature'; properties: Record<string, never>; geometry: { type: 'Polygon'; coordinates: number[][][] } }[] } {
   const holes: number[][][] = [];
   for (const f of outline.features) {
     if (f.geometry.type === 'Polygon') holes.push((f.geometry.coordinates as number[][][])[0]);

@@ -1,0 +1,15 @@
+// Petrology: index-mineral zones, facies, aluminosilicates, solidus curves, peak P–T (re-exports only).
+export { INDEX_MINERAL_ZONES, ZONE_NAMES, zoneRank, zoneByName, compareZones, suggestZoneName, isogradTemperatureC, type IndexMineralZone } from './zones.ts';
+export { editDistance, nearestName, normalizeName } from './edit-distance.ts';
+export { FACIES_FIELDS, FACIES_NAMES, FACIES_DIAGRAM_LIMITS, FACIES_BOUNDARY_WIDTH, classifyFacies, type FaciesName, type FaciesField, type FaciesResult } from './facies.ts';
+export {
+  ALUMINOSILICATE_TRIPLE_POINTS,
+  ALUMINOSILICATE_SLOPES_KBAR_PER_C,
+  aluminosilicateLines,
+  stableAluminosilicate,
+  type Aluminosilicate,
+  type AluminosilicateCalibration,
+  type AluminosilicateResult,
+} from './aluminosilicate.ts';
+export { dryPeridotiteSolidusC, wetGraniteSolidusC, isWetGraniteSolidusApproximate, WET_GRANITE_SOLIDUS_NODES } from './solidus.ts';
+export { depthFromPressureKbar, peakConditions, type PeakConditions, type PeakConditionsOptions } from './peak.ts';

@@ -1,0 +1,55 @@
+/**
+ * The Barrovian index-mineral zones of pelitic rocks in order of increasing grade: chlorite < biotite < garnet <
+ * staurolite < kyanite < sillimanite (order: standard; e.g. Yardley 1989). Isograd temperatures are approximate
+ * values at about 6–8 kbar, from memory (not checked against one text), and vary with bulk composition and pressure.
+ */
+import { nearestName, normalizeName } from './edit-distance.ts';
+
+export interface IndexMineralZone {
+  name: 'chlorite' | 'biotite' | 'garnet' | 'staurolite' | 'kyanite' | 'sillimanite';
+  /** 0 (lowest grade) … 5. */
+  rank: number;
+  /** Approximate temperature range of the isograd that opens this zone, °C; null for the lowest (chlorite) zone. */
+  isogradTemperatureC: { min: number; max: number } | null;
+}
+
+export const INDEX_MINERAL_ZONES: readonly IndexMineralZone[] = Object.freeze([
+  { name: 'chlorite', rank: 0, isogradTemperatureC: null },
+  { name: 'biotite', rank: 1, isogradTemperatureC: { min: 400, max: 450 } },
+  { name: 'garnet', rank: 2, isogradTemperatureC: { min: 480, max: 520 } },
+  { name: 'staurolite', rank: 3, isogradTemperatureC: { min: 550, max: 600 } },
+  { name: 'kyanite', rank: 4, isogradTemperatureC: { min: 600, max: 650 } },
+  { name: 'sillimanite', rank: 5, isogradTemperatureC: { min: 650, max: 700 } },
+]);
+
+export const ZONE_NAMES: readonly IndexMineralZone['name'][] = INDEX_MINERAL_ZONES.map((z) => z.name);
+
+/** Rank (0–5) of a zone name (case- and space-insensitive; "garnet zone" accepted), or −1 when unknown. */
+export function zoneRank(name: string): number {
+  const n = normalizeName(name).replace(/-zone$/, '');
+  return ZONE_NAMES.indexOf(n as IndexMineralZone['name']);
+}
+
+/** The zone of a name, or null. */
+export function zoneByName(name: string): IndexMineralZone | null {
+  const r = zoneRank(name);
+  return r < 0 ? null : INDEX_MINERAL_ZONES[r];
+}
+
+/** Compares two zones by grade: negative when a is lower grade than b. Throws on unknown names. */
+export function compareZones(a: string, b: string): number {
+  const ra = zoneRank(a), rb = zoneRank(b);
+  if (ra < 0 || rb < 0) throw new RangeError(`unknown zone "${ra < 0 ? a : b}"`);
+  return ra - rb;
+}
+
+/** The valid zone name nearest to an unknown one (edit distance), e.g. "staurolit" → "staurolite"; null if none close. */
+export function suggestZoneName(name: string): string | null {
+  return nearestName(name.replace(/\s*zone$/i, ''), ZONE_NAMES);
+}
+
+/** Approximate midpoint temperature (°C) of the isograd opening a zone; null for chlorite or unknown names. */
+export function isogradTemperatureC(name: string): number | null {
+  const z = zoneByName(name);
+  return z?.isogradTemperatureC ? (z.isogradTemperatureC.min + z.isogradTemperatureC.max) / 2 : null;
+}

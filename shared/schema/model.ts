@@ -1,0 +1,158 @@
+/**
+ * The thermal-model JSON contract (DESIGN.md §3): surface temperature, surface heat flow, and a stack of layers.
+ * Any numeric parameter except the layer bottoms may be a distribution for Monte Carlo runs.
+ * `parseThermalModel` validates at the boundary and throws an InputError naming the layer and the field.
+ */
+import { z } from 'zod';
+import { InputError, type InputProblem } from '../errors.ts';
+
+const finite = z.number({ error: 'expected a finite number' });
+
+export const distributionSchema = z.discriminatedUnion('dist', [
+  z.object({ dist: z.literal('normal'), mean: finite, sd: finite.min(0, 'sd must be ≥ 0') }).strict(),
+  z
+    .object({ dist: z.literal('truncnormal'), mean: finite, sd: finite.min(0, 'sd must be ≥ 0'), min: finite, max: finite })
+    .strict()
+    .refine((d) => d.min <= d.max, { message: 'truncnormal needs min ≤ max' }),
+  z.object({ dist: z.literal('uniform'), min: finite, max: finite }).strict().refine((d) => d.min <= d.max, { message: 'uniform needs min ≤ max' }),
+  z
+    .object({ dist: z.literal('triangular'), min: finite, mode: finite, max: finite })
+    .strict()
+    .refine((d) => d.min <= d.mode && d.mode <= d.max, { message: 'triangular needs min ≤ mode ≤ max' }),
+]);
+
+/** A number, or a distribution of it. */
+export const uncertainNumberSchema = z.union([finite, distributionSchema], { error: 'expected a finite number or a distribution { dist: normal|truncnormal|uniform|triangular, … }' });
+
+export type UncertainNumber = z.infer<typeof uncertainNumberSchema>;
+
+export const thermalLayerSchema = z
+  .object({
+    name: z.string().optional(),
+    /** Bottom of the layer, km below the surface; strictly increasing down the stack. */
+    bottomKm: finite.gt(0, 'bottomKm must be > 0'),
+    /** k0 in k(T) = k0/(1 + bT), W/m/K. */
+    conductivityWmK: uncertainNumberSchema,
+    /** b in k(T) = k0/(1 + bT), 1/K (absent = 0). */
+    conductivityTempCoeffPerK: uncertainNumberSchema.optional(),
+    /** Heat production at the layer top, µW/m³. */
+    heatProductionUWm3: uncertainNumberSchema.optional(),
+    /** Radioelement contents (Rybach 1976), instead of heatProductionUWm3. */
+    uraniumPpm: uncertainNumberSchema.optional(),
+    thoriumPpm: uncertainNumberSchema.optional(),
+    potassiumPct: uncertainNumberSchema.optional(),
+    /** e-folding depth D of A(z) = A_top·exp(−(z − z_top)/D), km (absent = constant in the layer). */
+    heatProductionDecayKm: uncertainNumberSchema.optional(),
+    /** Density, kg/m³ (absent = 2700 with a warning). */
+    densityKgM3: uncertainNumberSchema.optional(),
+  })
+  .strict();
+
+export const thermalModelSchema = z
+  .object({
+    /** A label for the model (shown in reports and provenance). */
+    name: z.string().max(200).optional(),
+    description: z.string().max(2000).optional(),
+    surfaceTemperatureC: uncertainNumberSchema,
+    surfaceHeatFlowMWm2: uncertainNumberSchema.optional(),
+    layers: z.array(thermalLayerSchema).min(1, 'at least one layer is needed'),
+  })
+  .strict();
+
+export type ThermalLayerInput = z.infer<typeof thermalLayerSchema>;
+export type ThermalModelInput = z.infer<typeof thermalModelSchema>;
+
+type Num = UncertainNumber | undefined;
+
+/** Smallest and largest value a parameter can take (normal: ±∞ unless sd = 0). */
+function support(v: Num): [number, number] | null {
+  if (v === undefined) return null;
+  if (typeof v === 'number') return [v, v];
+  switch (v.dist) {
+    case 'normal':
+      return v.sd === 0 ? [v.mean, v.mean] : [-Infinity, Infinity];
+    case 'truncnormal':
+    case 'uniform':
+    case 'triangular':
+      return [v.min, v.max];
+  }
+}
+
+/** Checks the physical ranges zod's shapes cannot express; returns problems (empty = fine). */
+export function checkThermalModel(m: ThermalModelInput): InputProblem[] {
+  const out: InputProblem[] = [];
+  const where = (i: number) => (m.layers[i].name !== undefined ? `layers[${i}] (${m.layers[i].name})` : `layers[${i}]`);
+  // Bounded parameters must be possible everywhere in their support; a normal may stray (draws outside the
+  // physical range are rejected per realization and counted), but its mean must be valid.
+  const positive = (i: number | null, field: string, v: Num, allowZero: boolean) => {
+    const s = support(v);
+    if (s === null) return;
+    const centre = typeof v === 'number' ? v : v !== undefined && 'mean' in v ? v.mean : s[0];
+    const lo = Number.isFinite(s[0]) ? s[0] : centre;
+    const ok = allowZero ? lo >= 0 : lo > 0;
+    if (!ok) out.push({ feature: i === null ? 'model' : where(i), field, problem: `must be ${allowZero ? '≥ 0' : '> 0'}, got ${lo}` });
+  };
+  if (m.surfaceHeatFlowMWm2 !== undefined) positive(null, 'surfaceHeatFlowMWm2', m.surfaceHeatFlowMWm2, false);
+  let prev = 0;
+  m.layers.forEach((l, i) => {
+    if (!(l.bottomKm > prev)) out.push({ feature: where(i), field: 'bottomKm', problem: `must be greater than the layer above's bottom (${prev} km), got ${l.bottomKm}` });
+    prev = Math.max(prev, l.bottomKm);
+    positive(i, 'conductivityWmK', l.conductivityWmK, false);
+    positive(i, 'heatProductionUWm3', l.heatProductionUWm3, true);
+    positive(i, 'uraniumPpm', l.uraniumPpm, true);
+    positive(i, 'thoriumPpm', l.thoriumPpm, true);
+    positive(i, 'potassiumPct', l.potassiumPct, true);
+    positive(i, 'heatProductionDecayKm', l.heatProductionDecayKm, false);
+    positive(i, 'densityKgM3', l.densityKgM3, false);
+    const radio = l.uraniumPpm !== undefined || l.thoriumPpm !== undefined || l.potassiumPct !== undefined;
+    const allRadio = l.uraniumPpm !== undefined && l.thoriumPpm !== undefined && l.potassiumPct !== undefined;
+    if (l.heatProductionUWm3 === undefined && !radio) out.push({ feature: where(i), field: 'heatProductionUWm3', problem: 'missing: give heatProductionUWm3, or uraniumPpm + thoriumPpm + potassiumPct' });
+    if (l.heatProductionUWm3 !== undefined && radio) out.push({ feature: where(i), field: 'heatProductionUWm3', problem: 'give either heatProductionUWm3 or radioelement contents, not both' });
+    if (l.heatProductionUWm3 === undefined && radio && !allRadio) {
+      const missing = (['uraniumPpm', 'thoriumPpm', 'potassiumPct'] as const).filter((f) => l[f] === undefined);
+      out.push({ feature: where(i), field: missing.join(', '), problem: 'missing: radioelement heat production needs all of uraniumPpm, thoriumPpm, potassiumPct' });
+    }
+    // 1 + bT must stay > 0 at the surface temperature already (deeper layers are checked once T is known).
+    const b = support(l.conductivityTempCoeffPerK);
+    const t0 = support(m.surfaceTemperatureC);
+    if (b && t0) {
+      for (const bv of b) for (const tv of t0) {
+        if (Number.isFinite(bv) && Number.isFinite(tv) && !(1 + bv * tv > 0)) {
+          out.push({ feature: where(i), field: 'conductivityTempCoeffPerK', problem: `1 + b·T ≤ 0 at T = ${tv} °C with b = ${bv}: k(T) = k0/(1 + bT) undefined` });
+        }
+      }
+    }
+  });
+  return out;
+}
+
+function featureOf(m: unknown, path: PropertyKey[]): { feature?: string; field: string } {
+  if (path[0] === 'layers' && typeof path[1] === 'number') {
+    const i = path[1];
+    const layers = (m as { layers?: unknown } | null)?.layers;
+    const name = Array.isArray(layers) ? (layers[i] as { name?: unknown } | undefined)?.name : undefined;
+    return { feature: typeof name === 'string' ? `layers[${i}] (${name})` : `layers[${i}]`, field: path.slice(2).map(String).join('.') || 'layer' };
+  }
+  return { feature: 'model', field: path.map(String).join('.') || '(root)' };
+}
+
+/**
+ * Validates a thermal model read from JSON. Throws InputError (code `invalid_model`) whose details name the layer
+ * (`layers[1] (lower crust)`), the field and the problem.
+ * @param source a file name or label to put in the message
+ */
+export function parseThermalModel(raw: unknown, source = 'model'): ThermalModelInput {
+  const r = thermalModelSchema.safeParse(raw);
+  if (!r.success) {
+    const details: InputProblem[] = r.error.issues.map((iss) => {
+      const f = featureOf(raw, iss.path);
+      return { feature: f.feature, field: f.field, problem: iss.message };
+    });
+    throw new InputError(`${source}: invalid thermal model: ${details.map((d) => `${d.feature} ${d.field}: ${d.problem}`).join('; ')}`, details, 'invalid_model');
+  }
+  const problems = checkThermalModel(r.data);
+  if (problems.length > 0) {
+    throw new InputError(`${source}: invalid thermal model: ${problems.map((d) => `${d.feature} ${d.field}: ${d.problem}`).join('; ')}`, problems, 'invalid_model');
+  }
+  return r.data;
+}

@@ -1,0 +1,297 @@
+/**
+ * Monte Carlo over the thermal model's parameter distributions (DESIGN.md §3). Each realization r draws every
+ * uncertain parameter once from its own stream createStream(seed, r), so results never depend on how the work is
+ * split (workers, tiles, blocks). Summaries: P10/P50/P90 (Hyndman & Fan type 7), mean, sd and the standard error
+ * of the P50 (see quantiles.ts). An isotherm (or solidus) not reached above the maximum depth counts as deeper than
+ * any depth (+∞); a realization whose column is not valid there (heat flow exhausted before reaching it, k(T)
+ * undefined, a physically impossible draw) is left out and counted.
+ */
+import { createStream, hashUniform, type RandomStream } from '../random/prng.ts';
+import { drawFrom, type Distribution } from '../random/distributions.ts';
+import type { ThermalModelInput } from '../schema/model.ts';
+import { compileModel, type CompiledModel, type CompileOptions } from './compile.ts';
+import {
+  COLUMN_BAD_INPUT,
+  COLUMN_CONDUCTIVITY_UNDEFINED,
+  COLUMN_FLOW_EXHAUSTED,
+  ColumnState,
+  columnIsothermDepth,
+  columnTemperature,
+  solveColumn,
+} from './column.ts';
+import { summarizeSorted, type Summary } from './quantiles.ts';
+import { realizationProblem, realizeModel } from './realize.ts';
+import { DRY_PERIDOTITE_SOLIDUS_MPA, WET_GRANITE_SOLIDUS_MPA, solidusCrossingDepth } from './solidus-crossing.ts';
+
+type Floats = Float32Array | Float64Array;
+
+const emptySummary = (): Summary => ({ p10: NaN, p50: NaN, p90: NaN, mean: NaN, sd: NaN, stderrP50: NaN, n: 0, finite: 0 });
+
+/** Value of one isotherm in one realization: depth, +∞ when not reached in a valid column, NaN when invalid. */
+function isothermValue(cm: CompiledModel, st: ColumnState, tIso: number, zMax: number): number {
+  if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED)) return NaN;
+  const z = columnIsothermDepth(cm, st, tIso, zMax);
+  if (z === z) return z;
+  // Not reached: a valid verdict only if the column is valid down to the search limit.
+  return st.status & COLUMN_FLOW_EXHAUSTED && st.validToKm < zMax ? NaN : Infinity;
+}
+
+function sortedSummary(values: Float64Array): Summary {
+  const a = values.slice().sort(); // NaN sort last
+  let n = a.length;
+  while (n > 0 && a[n - 1] !== a[n - 1]) n--;
+  return summarizeSorted(a, 0, n, emptySummary());
+}
+
+export interface ColumnMonteCarloOptions {
+  realizations: number;
+  seed: number;
+  isothermsC: number[];
+  depthsKm: number[];
+  /** Isotherm and solidus searches stop here, km. */
+  maxDepthKm: number;
+  /** Overrides the model's surface heat flow (a number, or a distribution drawn after the model's parameters). */
+  heatFlowMWm2?: number | Distribution;
+  /** Overrides the model's surface temperature, °C. */
+  surfaceTemperatureC?: number;
+  /** Also summarise the solidus crossings (default true). */
+  solidus?: boolean;
+  /** Scan step for the solidus crossings, km (default 0.1). */
+  stepKm?: number;
+  gravityMS2?: number;
+}
+
+export interface ColumnMonteCarloResult {
+  realizations: number;
+  /** Realizations with a physically impossible draw (k0 ≤ 0, …), left out of every summary. */
+  rejected: number;
+  /** Realizations whose column was flagged (heat flow exhausted, k(T) undefined). */
+  inconsistent: number;
+  isothermDepthsKm: Summary[];
+  temperatureAtDepthsC: Summary[];
+  basalHeatFlowMWm2: Summary;
+  reducedHeatFlowMWm2: Summary;
+  solidusCrossingKm: { wetGranite: Summary; dryPeridotite: Summary } | null;
+  /** First reason a realization was rejected, for the warning. */
+  firstRejection: string | null;
+}
+
+/** Monte Carlo of one column: N realizations of the model, summarised per isotherm and per depth. */
+export function monteCarloColumn(model: ThermalModelInput, o: ColumnMonteCarloOptions): ColumnMonteCarloResult {
+  const N = o.realizations;
+  if (!(Number.isInteger(N) && N >= 1)) throw new RangeError(`realizations must be a positive integer, got ${N}`);
+  const nIso = o.isothermsC.length, nDep = o.depthsKm.length;
+  const iso = o.isothermsC.map(() => new Float64Array(N));
+  const dep = o.depthsKm.map(() => new Float64Array(N));
+  const basal = new Float64Array(N), reduced = new Float64Array(N), wet = new Float64Array(N), dry = new Float64Array(N);
+  const doSolidus = o.solidus ?? true;
+  const copt: CompileOptions = { maxDepthKm: o.maxDepthKm, gravityMS2: o.gravityMS2 };
+  let rejected = 0, inconsistent = 0;
+  let firstRejection: string | null = null;
+  let st: ColumnState | null = null;
+  const rng: RandomStream = createStream(o.seed, 0);
+  for (let r = 0; r < N; r++) {
+    rng.reset(o.seed, r);
+    const m = realizeModel(model, rng);
+    const q0 = o.heatFlowMWm2 === undefined ? m.surfaceHeatFlowMWm2 : typeof o.heatFlowMWm2 === 'number' ? o.heatFlowMWm2 : drawFrom(rng, o.heatFlowMWm2);
+    if (q0 === undefined) throw new RangeError('no surface heat flow: give heatFlowMWm2 or put surfaceHeatFlowMWm2 in the model');
+    const problem = realizationProblem(m) ?? (q0 > 0 ? null : `surface heat flow ${q0} ≤ 0`);
+    if (problem !== null) {
+      rejected++;
+      firstRejection ??= problem;
+      for (let k = 0; k < nIso; k++) iso[k][r] = NaN;
+      for (let k = 0; k < nDep; k++) dep[k][r] = NaN;
+      basal[r] = reduced[r] = wet[r] = dry[r] = NaN;
+      continue;
+    }
+    const cm = compileModel(m, copt);
+    st ??= new ColumnState(cm.nLayers);
+    solveColumn(cm, q0, o.surfaceTemperatureC ?? cm.surfaceTemperatureC, st);
+    if (st.status !== 0) inconsistent++;
+    for (let k = 0; k < nIso; k++) iso[k][r] = isothermValue(cm, st, o.isothermsC[k], o.maxDepthKm);
+    for (let k = 0; k < nDep; k++) dep[k][r] = columnTemperature(cm, st, o.depthsKm[k]);
+    basal[r] = q0 - cm.totalHeatProductionMWm2;
+    reduced[r] = q0 - cm.reducedHeatFlowOffsetMWm2;
+    if (doSolidus) {
+      const sw = solidusCrossingDepth(cm, st, WET_GRANITE_SOLIDUS_MPA, o.maxDepthKm, o.stepKm ?? 0.1);
+      const sd = solidusCrossingDepth(cm, st, DRY_PERIDOTITE_SOLIDUS_MPA, o.maxDepthKm, o.stepKm ?? 0.1);
+      const notReached = st.status === 0 || st.validToKm >= o.maxDepthKm ? Infinity : NaN;
+      wet[r] = sw === sw ? sw : notReached;
+      dry[r] = sd === sd ? sd : notReached;
+    }
+  }
+  return {
+    realizations: N,
+    rejected,
+    inconsistent,
+    isothermDepthsKm: iso.map(sortedSummary),
+    temperatureAtDepthsC: dep.map(sortedSummary),
+    basalHeatFlowMWm2: sortedSummary(basal),
+    reducedHeatFlowMWm2: sortedSummary(reduced),
+    solidusCrossingKm: doSolidus ? { wetGranite: sortedSummary(wet), dryPeridotite: sortedSummary(dry) } : null,
+    firstRejection,
+  };
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Grid Monte Carlo
+
+export interface GridMonteCarloSpec {
+  /** One model (or one per zone) with distributions; its surfaceHeatFlowMWm2 is ignored (the grid gives q0). */
+  models: ThermalModelInput[];
+  /** Per-cell index into models (default all 0). */
+  zones?: Uint8Array | Uint16Array | Uint32Array;
+  /** Surface heat flow per cell, mW/m² (NaN = no data). */
+  heatFlowMWm2: Floats;
+  /** Standard deviation of each cell's heat flow, mW/m² (e.g. the kriging sd; default none). */
+  heatFlowSdMWm2?: Floats;
+  /** "full": one standard normal per realization for all cells (default, conservative); "independent": one per cell. */
+  heatFlowErrorCorrelation?: 'full' | 'independent';
+  /** Per-cell surface temperature, °C (default each realization's model value). */
+  surfaceTemperatureC?: Floats;
+  isothermsC: number[];
+  depthsKm: number[];
+  maxDepthKm: number;
+  realizations: number;
+  seed: number;
+  gravityMS2?: number;
+}
+
+/** Output buffers of one summarised quantity, indexed by absolute cell index; NaN = null. */
+export interface GridSummaryBuffers {
+  p10: Floats;
+  p50: Floats;
+  p90: Floats;
+  mean?: Floats;
+  sd?: Floats;
+  stderrP50?: Floats;
+  /** Fraction of the valid realizations in which the value was finite (an isotherm reached). */
+  finiteFraction?: Floats;
+}
+
+export interface GridMonteCarloOutput {
+  isotherms: GridSummaryBuffers[];
+  temperatures: GridSummaryBuffers[];
+  /** Fraction of realizations left out for the cell (invalid column or impossible draw). */
+  invalidFraction?: Floats;
+}
+
+/** Realized, compiled models per realization (null = rejected draw) and the full-correlation normals. */
+export interface PreparedGridMonteCarlo {
+  spec: GridMonteCarloSpec;
+  compiled: (CompiledModel | null)[][];
+  fullNormal: Float64Array;
+}
+
+/**
+ * Draws and compiles every realization's models once (cheap: realizations × zones small objects). Deterministic in
+ * (spec, seed): each worker may call it for itself.
+ */
+export function prepareGridMonteCarlo(spec: GridMonteCarloSpec): PreparedGridMonteCarlo {
+  const N = spec.realizations;
+  if (!(Number.isInteger(N) && N >= 1)) throw new RangeError(`realizations must be a positive integer, got ${N}`);
+  if (spec.models.length === 0) throw new RangeError('at least one model is needed');
+  const compiled: (CompiledModel | null)[][] = [];
+  const fullNormal = new Float64Array(N);
+  const rng = createStream(spec.seed, 0);
+  for (let r = 0; r < N; r++) {
+    rng.reset(spec.seed, r);
+    const row: (CompiledModel | null)[] = [];
+    for (const m of spec.models) {
+      const real = realizeModel(m, rng);
+      delete real.surfaceHeatFlowMWm2; // the grid gives q0; the draw above keeps the stream order fixed
+      row.push(realizationProblem(real) === null ? compileModel(real, { maxDepthKm: spec.maxDepthKm, gravityMS2: spec.gravityMS2 }) : null);
+    }
+    compiled.push(row);
+    fullNormal[r] = rng.normal();
+  }
+  return { spec, compiled, fullNormal };
+}
+
+/** Standard normal for (seed, realization, cell) from two keyed uniforms (Box–Muller); independent of tiling. */
+function cellNormal(seed: number, r: number, c: number): number {
+  const u1 = hashUniform(seed, r, c, 1);
+  const u2 = hashUniform(seed, r, c, 2);
+  return Math.sqrt(-2 * Math.log(u1)) * Math.cos(2 * Math.PI * u2);
+}
+
+/**
+ * Processes cells [start, end) of a grid Monte Carlo, writing summaries into `out` at the absolute cell indices.
+ * Streaming: cells go in blocks of blockCells with one (N × blockCells) buffer per quantity, then each cell's N
+ * values are gathered and sorted (exact percentiles; no N × cells array). Results are identical for any split of the range.
+ */
+export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number, end: number, out: GridMonteCarloOutput, blockCells = 512): void {
+  const spec = prep.spec;
+  const N = spec.realizations;
+  const q = spec.heatFlowMWm2, sdq = spec.heatFlowSdMWm2, zones = spec.zones, t0s = spec.surfaceTemperatureC;
+  const independent = spec.heatFlowErrorCorrelation === 'independent';
+  if (!(start >= 0 && end <= q.length && start <= end)) throw new RangeError(`bad cell range [${start}, ${end}) for ${q.length} cells`);
+  const nIso = spec.isothermsC.length, nDep = spec.depthsKm.length, nQ = nIso + nDep;
+  if (out.isotherms.length !== nIso || out.temperatures.length !== nDep) throw new RangeError('one output set per isotherm and per depth is needed');
+  const B = Math.max(1, Math.min(blockCells, end - start));
+  // Realization-major block buffers (r·B + cell): the inner loop over cells writes contiguously.
+  const bufs = Array.from({ length: nQ }, () => new Float64Array(B * N));
+  const scratch = new Float64Array(N);
+  const invalid = new Uint32Array(B);
+  const states = spec.models.map((m) => new ColumnState(m.layers.length));
+  const isos = Float64Array.from(spec.isothermsC), deps = Float64Array.from(spec.depthsKm);
+  const zMax = spec.maxDepthKm;
+  const sum = emptySummary();
+  const targets = [...out.isotherms, ...out.temperatures];
+  for (let b0 = start; b0 < end; b0 += B) {
+    const b1 = Math.min(end, b0 + B);
+    invalid.fill(0);
+    for (let r = 0; r < N; r++) {
+      const row = prep.compiled[r];
+      const zr = prep.fullNormal[r];
+      for (let c = b0; c < b1; c++) {
+        const j = r * B + (c - b0);
+        const zi = zones === undefined ? 0 : zones[c];
+        const cm = row[zi];
+        if (cm === undefined) throw new RangeError(`cell ${c}: zone ${zi} has no model`);
+        let q0 = q[c];
+        if (sdq !== undefined) {
+          const s = sdq[c];
+          if (s > 0) q0 += s * (independent ? cellNormal(spec.seed, r, c) : zr);
+        }
+        if (cm === null || !(q0 === q0)) {
+          for (let k = 0; k < nQ; k++) bufs[k][j] = NaN;
+          invalid[c - b0]++;
+          continue;
+        }
+        const st = states[zi];
+        solveColumn(cm, q0, t0s === undefined ? cm.surfaceTemperatureC : t0s[c], st);
+        if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED)) invalid[c - b0]++;
+        for (let k = 0; k < nIso; k++) bufs[k][j] = isothermValue(cm, st, isos[k], zMax);
+        for (let k = 0; k < nDep; k++) bufs[nIso + k][j] = columnTemperature(cm, st, deps[k]);
+      }
+    }
+    for (let c = b0; c < b1; c++) {
+      const off = c - b0;
+      for (let k = 0; k < nQ; k++) {
+        const buf = bufs[k];
+        for (let r = 0; r < N; r++) scratch[r] = buf[r * B + off];
+        scratch.sort(); // NaN last, +∞ before it
+        let n = N;
+        while (n > 0 && scratch[n - 1] !== scratch[n - 1]) n--;
+        summarizeSorted(scratch, 0, n, sum);
+        const t = targets[k];
+        t.p10[c] = sum.p10;
+        t.p50[c] = sum.p50;
+        t.p90[c] = sum.p90;
+        if (t.mean) t.mean[c] = sum.mean;
+        if (t.sd) t.sd[c] = sum.sd;
+        if (t.stderrP50) t.stderrP50[c] = sum.stderrP50;
+        if (t.finiteFraction) t.finiteFraction[c] = n > 0 ? sum.finite / n : NaN;
+      }
+      if (out.invalidFraction) out.invalidFraction[c] = invalid[c - b0] / N;
+    }
+  }
+}
+
+/** Allocates Float32 output buffers for a whole grid (p10/p50/p90/mean/sd/stderrP50/finiteFraction). */
+export function allocateGridMonteCarloOutput(cells: number, nIso: number, nDep: number, shared = false): GridMonteCarloOutput {
+  const f = () => (shared ? new Float32Array(new SharedArrayBuffer(cells * 4)) : new Float32Array(cells)).fill(NaN);
+  const set = (): GridSummaryBuffers => ({ p10: f(), p50: f(), p90: f(), mean: f(), sd: f(), stderrP50: f(), finiteFraction: f() });
+  return { isotherms: Array.from({ length: nIso }, set), temperatures: Array.from({ length: nDep }, set), invalidFraction: f() };
+}

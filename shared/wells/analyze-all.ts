@@ -1,0 +1,28 @@
+import { analyzeWell, type WellAnalysisOptions, type WellReport } from './analyze.ts';
+import type { WellInput } from './checks.ts';
+import { wellSites, type WellSiteProperties } from './sites.ts';
+import type { FeatureCollection, PointGeometry } from '../schema/geojson.ts';
+
+export interface WellsAnalysis {
+  reports: WellReport[];
+  sites: FeatureCollection<PointGeometry, WellSiteProperties>;
+  /** One line per well without a heat flow, and per well-level flag worth a user's attention. */
+  warnings: string[];
+}
+
+/** Flags that only describe how a value was made (shown in the report, not repeated as warnings). */
+const QUIET = new Set(['duplicate-depth']);
+
+/**
+ * Analyses every well (analyzeWell) and turns the ones with a heat flow into heat-flow sites (wellSites).
+ * Warnings name the well: why it gave no heat flow, and each of its flags.
+ */
+export function analyzeWells(wells: WellInput[], opts: WellAnalysisOptions = {}): WellsAnalysis {
+  const reports = wells.map((w) => analyzeWell(w, opts));
+  const warnings: string[] = [];
+  for (const r of reports) {
+    if (r.status !== 'ok') warnings.push(`well ${r.id}: no heat flow: ${r.reason ?? r.status}`);
+    for (const f of r.flags) if (!QUIET.has(f.code) && f.message !== r.reason) warnings.push(`well ${r.id}: ${f.message}`);
+  }
+  return { reports, sites: wellSites(reports), warnings };
+}
