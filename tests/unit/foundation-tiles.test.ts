@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import { encodePng } from '../../server/io/png.ts';
@@ -92,5 +92,52 @@ describe('terrain tiles', () => {
     expect(decodeTerrainRgb(R, G, B)).toBeCloseTo(sampleBilinear(dem, pxLng, pxLat), 0);
     expect(tiles.tile(3, 0, 0)).toBeNull(); // below the zoom range
     expect(tiles.tile(12, 0, 0)).toBeNull(); // far outside the DEM
+  });
+});
+
+import { encodingForUnits, encodeRgb, decodeRgb, maplibreEncoding } from '../../shared/grid/terrain-rgb.ts';
+import { GridTiles } from '../../server/terrain.ts';
+
+describe('scalar-layer tile encodings', () => {
+  it('keep the precision each quantity needs and reserve code 0 for no data (DESIGN.md §7 precision hints)', () => {
+    const px = new Uint8Array(3);
+    for (const [units, step, values] of [['km', 0.001, [0.5, 6.767, 59.999]], ['mW/m²', 0.01, [35.12, 130.07]], ['°C', 0.01, [12, 1200.5]]] as const) {
+      const enc = encodingForUnits(units, values[0]);
+      expect(enc.step).toBe(step);
+      for (const v of values) {
+        encodeRgb(enc, v, px, 0);
+        expect(Math.abs(decodeRgb(enc, px[0], px[1], px[2]) - v)).toBeLessThanOrEqual(step / 2 + 1e-9);
+        // MapLibre's custom encoding: R·redFactor + G·greenFactor + B·blueFactor + baseShift.
+        const m = maplibreEncoding(enc);
+        expect(px[0] * m.redFactor + px[1] * m.greenFactor + px[2] * m.blueFactor + m.baseShift).toBeCloseTo(decodeRgb(enc, px[0], px[1], px[2]), 6);
+      }
+      encodeRgb(enc, NaN, px, 0);
+      expect([...px]).toEqual([0, 0, 0]);
+      expect(decodeRgb(enc, 0, 0, 0)).toBeNaN();
+    }
+  });
+
+  it('render no data as code 0 and never blend it into neighbours', () => {
+    // A 4 × 4 lon/lat grid with one no-data cell; a tile at zoom 13 inside it.
+    const values = new Float32Array(16).fill(10);
+    values[5] = NaN;
+    const g = { width: 4, height: 4, values, west: -128.04, north: -37.96, dx: 0.02, dy: 0.02, crs: 'EPSG:4326', units: 'km' };
+    const tiles = new GridTiles(g, encodingForUnits('km', 10), { edge: 'nodata', minZoom: 4, maxZoom: 13 });
+    const dir = tmp();
+    const z = 10;
+    const tx = Math.floor(tileXFromLng(-128.0, z)), ty = Math.floor(tileYFromLat(-38.0, z));
+    const png = tiles.tile(z, tx, ty)!;
+    const file = join(dir, 'g.png');
+    writeFileSync(file, png);
+    // Decode every pixel with GDAL: values are exactly 10 or no data, nothing in between.
+    const r = spawnSync('gdal_translate', ['-q', '-of', 'AAIGrid', '-b', '3', file, join(dir, 'b.asc')], { encoding: 'utf8' });
+    expect(r.status).toBe(0);
+    const blue = readFileSync(join(dir, 'b.asc'), 'utf8').split('\n').slice(6).join(' ').trim().split(/\s+/).map(Number);
+    const enc = encodingForUnits('km', 10);
+    const codes = new Set(blue);
+    const ten = Math.round((10 - enc.baseShift) / enc.step) & 0xff;
+    for (const c of codes) expect([0, ten]).toContain(c);
+    expect(codes.has(0)).toBe(true);
+    expect(codes.has(ten)).toBe(true);
   });
 });

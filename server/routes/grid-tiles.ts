@@ -1,0 +1,83 @@
+import { Hono } from 'hono';
+import { InputError } from '../../shared/errors.ts';
+import type { Grid } from '../../shared/grid/grid.ts';
+import { gridStats } from '../../shared/grid/grid.ts';
+import { encodingForUnits, maplibreEncoding } from '../../shared/grid/terrain-rgb.ts';
+import { GridTiles } from '../terrain.ts';
+
+/** Zoom range of run-layer tiles: whole regions at 4, about 20 m pixels at 13. */
+const MIN_ZOOM = 4;
+const MAX_ZOOM = 13;
+
+export interface GridTileDeps {
+  /** The full-resolution lon/lat grid of one run layer, or null when the run or layer does not exist. */
+  loadLayerGrid(runId: string, layer: string): Promise<Grid<Float32Array> | null>;
+}
+
+/**
+ * Raster-dem tiles of a run's scalar layers, so the map colours them on the GPU (color-relief) and a change of
+ * ramp or range needs no new tiles. Routes (mounted under /api):
+ *   GET /runs/:id/tiles/:layer.json           → { tiles, bounds, minzoom, maxzoom, encoding: 'custom', redFactor,
+ *                                                greenFactor, blueFactor, baseShift, noDataBelow, units, step }
+ *   GET /runs/:id/tiles/:layer/:z/:x/:y.png   → a 256-px tile
+ * The encoding's code 0 decodes to `baseShift`, one step below the layer's minimum: no data.
+ */
+export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number } = {}): Hono {
+  const app = new Hono();
+  const cache = new Map<string, GridTiles>();
+  const maxLayers = opts.cacheLayers ?? 16;
+
+  async function tilesFor(runId: string, layer: string): Promise<{ tiles: GridTiles; units: string }> {
+    // Names come from the URL: a strict alphabet keeps them out of any path or query.
+    if (!/^[A-Za-z0-9_.-]{1,100}$/.test(runId) || !/^[A-Za-z0-9_.-]{1,100}$/.test(layer)) {
+      throw new InputError('bad run or layer name', [{ field: 'path', problem: 'letters, digits, _ . - only' }], 'bad_request', 400);
+    }
+    const key = `${runId}/${layer}`;
+    const hit = cache.get(key);
+    if (hit) {
+      cache.delete(key);
+      cache.set(key, hit);
+      return { tiles: hit, units: hit.units };
+    }
+    const grid = await deps.loadLayerGrid(runId, layer);
+    if (!grid) throw new InputError(`no raster layer "${layer}" in run "${runId}"`, [{ field: 'layer', problem: 'not found' }], 'not_found', 404);
+    if (grid.crs !== 'EPSG:4326') {
+      throw new InputError(`layer "${layer}" is on a projected grid (${grid.crs}); map tiles need a lon/lat grid`, [{ field: 'layer', problem: 'download it as GeoTIFF instead' }], 'projected_layer', 422);
+    }
+    const stats = gridStats(grid.values);
+    const tiles = new GridTiles(grid, encodingForUnits(grid.units, stats.min ?? 0), { edge: 'nodata', minZoom: MIN_ZOOM, maxZoom: MAX_ZOOM, cacheSize: 256 });
+    cache.set(key, tiles);
+    if (cache.size > maxLayers) cache.delete(cache.keys().next().value as string);
+    return { tiles, units: grid.units };
+  }
+
+  app.get('/runs/:id/tiles/:file', async (c) => {
+    const m = /^(.+)\.json$/.exec(c.req.param('file'));
+    if (!m) throw new InputError('expected /api/runs/:id/tiles/:layer.json', [{ field: 'path', problem: c.req.param('file') }], 'not_found', 404);
+    const { tiles, units } = await tilesFor(c.req.param('id'), m[1]);
+    const origin = new URL(c.req.url).origin;
+    return c.json({
+      tiles: [`${origin}/api/runs/${encodeURIComponent(c.req.param('id'))}/tiles/${encodeURIComponent(m[1])}/{z}/{x}/{y}.png`],
+      bounds: tiles.bbox,
+      minzoom: MIN_ZOOM,
+      maxzoom: MAX_ZOOM,
+      tileSize: 256,
+      ...maplibreEncoding(tiles.encoding),
+      noDataBelow: tiles.encoding.baseShift + tiles.encoding.step / 2,
+      step: tiles.encoding.step,
+      units,
+    });
+  });
+
+  app.get('/runs/:id/tiles/:layer/:z/:x/:y', async (c) => {
+    const { id, layer, z, x, y } = c.req.param();
+    const m = /^(\d+)\.png$/.exec(y);
+    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) throw new InputError('tiles are …/{z}/{x}/{y}.png with integers', [{ field: 'path', problem: `${z}/${x}/${y}` }], 'bad_tile', 400);
+    const { tiles } = await tilesFor(id, layer);
+    const png = tiles.tile(Number(z), Number(x), Number(m[1]));
+    if (!png) throw new InputError(`no tile ${z}/${x}/${m[1]} in layer "${layer}"`, [{ field: 'tile', problem: `outside the layer or zoom ${MIN_ZOOM}–${MAX_ZOOM}` }], 'tile_not_found', 404);
+    return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'public, max-age=86400, immutable' });
+  });
+
+  return app;
+}
