@@ -30,6 +30,9 @@ export const siteProperties = z.looseObject({
   gradientCPerKm: z.number().optional(),
   conductivityWmK: z.number().gt(0, 'conductivity must be > 0 (W/m/K)').optional(),
   heatProductionUWm3: z.number().min(0, 'heat production must be ≥ 0 (µW/m³)').optional(),
+  /** For sites derived from wells: the source well and the method that gave the heat flow. */
+  sourceWellId: z.string().max(200).optional(),
+  heatFlowMethod: z.string().max(200).optional(),
 });
 export type SiteProperties = z.infer<typeof siteProperties>;
 
@@ -78,7 +81,9 @@ export const wellMeasurement = z
   })
   .superRefine((m, ctx) => {
     if (m.depthM === undefined && m.depthFt === undefined) ctx.addIssue({ code: 'custom', path: ['depthM'], message: 'a measurement needs depthM or depthFt' });
+    if (m.depthM !== undefined && m.depthFt !== undefined) ctx.addIssue({ code: 'custom', path: ['depthFt'], message: 'give depthM or depthFt, not both' });
     if (m.temperatureC === undefined && m.temperatureF === undefined) ctx.addIssue({ code: 'custom', path: ['temperatureC'], message: 'a measurement needs temperatureC or temperatureF' });
+    if (m.temperatureC !== undefined && m.temperatureF !== undefined) ctx.addIssue({ code: 'custom', path: ['temperatureF'], message: 'give temperatureC or temperatureF, not both' });
   })
   .transform((m) => {
     const { depthFt, temperatureF, ...rest } = m;

@@ -78,3 +78,11 @@ describe('CSV', () => {
     expect(r.collection.features.map((f) => (f.properties as { measurements: unknown[] }).measurements.length)).toEqual([2, 1]);
   });
 });
+
+describe('well measurement units', () => {
+  it('refuse a depth or temperature given twice in different units', () => {
+    const w = (m: Record<string, unknown>) => fc(site([0, 0], { id: 'w', measurements: [{ kind: 'log', ...m }] }));
+    expect(problemsOf(() => parseFeatureCollection('wells', w({ depthM: 100, depthFt: 328, temperatureC: 20 })))[0].field).toContain('depthFt');
+    expect(problemsOf(() => parseFeatureCollection('wells', w({ depthM: 100, temperatureC: 20, temperatureF: 68 })))[0].field).toContain('temperatureF');
+  });
+});
