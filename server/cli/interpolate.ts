@@ -1,0 +1,285 @@
+import { readFile, writeFile } from 'node:fs/promises';
+import { createHash } from 'node:crypto';
+import { InputError } from '../../shared/errors.ts';
+import { VERSION, TOOL_NAME } from '../../shared/version.ts';
+import { CAUTION } from '../../shared/caution.ts';
+import { parseFeatureCollection } from '../../shared/schema/features.ts';
+import { pointsFromGeoJson, pointsFromCsv, parseVariogramOption, parseAnisotropyOption, targetsFromGeoJson } from '../../shared/schema/interp.ts';
+import { loadCrsDefinition, converter, WGS84_DEF } from '../../shared/interp/projection.ts';
+import { prepareInterpolation, finishGrid, predictAtPoints, gridSummary, type InterpolationOptions, type PointData, type InterpolationResult } from '../../shared/interp/interpolate.ts';
+import { createGridRuntime, computeRows } from '../../shared/interp/gridKernel.ts';
+import { writeGeoTiff } from '../io/geotiff.ts';
+import { parseVerbArgs, numberOption, numberListOption } from './args.ts';
+
+const OPTIONS = {
+  points: { type: 'string' },
+  field: { type: 'string', default: 'heatFlowMWm2' },
+  method: { type: 'string' },
+  'cell-km': { type: 'string' },
+  size: { type: 'string' },
+  bbox: { type: 'string' },
+  crs: { type: 'string' },
+  'points-crs': { type: 'string' },
+  neighbors: { type: 'string' },
+  'radius-km': { type: 'string' },
+  power: { type: 'string' },
+  'use-quality': { type: 'boolean', default: false },
+  'quality-weights': { type: 'string' },
+  variogram: { type: 'string' },
+  'lag-km': { type: 'string' },
+  'max-lag-km': { type: 'string' },
+  anisotropy: { type: 'string' },
+  'measurement-error': { type: 'boolean', default: false },
+  faults: { type: 'string' },
+  region: { type: 'string' },
+  'max-distance-km': { type: 'string' },
+  sd: { type: 'string', default: 'grid' },
+  cv: { type: 'string', default: 'on' },
+  residuals: { type: 'boolean', default: false },
+  at: { type: 'string' },
+  out: { type: 'string' },
+  'skip-missing': { type: 'boolean', default: false },
+  'max-cells': { type: 'string' },
+  workers: { type: 'string' },
+} as const;
+
+const HELP = `subtherm interpolate: grid a point field by IDW or ordinary kriging
+
+  --points P.geojson|P.csv   points (GeoJSON, or CSV with longitude,latitude or x,y + --points-crs)
+  --field NAME               numeric property to interpolate (default heatFlowMWm2)
+  --method idw|kriging
+  --cell-km KM | --size NXxNY   cell size (km, converted to degrees at the centre latitude) or grid size
+  --bbox=W,S,E,N             degrees (default: data envelope padded by 5%); write it with '=' when W < 0
+  --crs EPSG:nnnn            projected output grid (default EPSG:4326)
+  --points-crs EPSG:nnnn     CRS of CSV x,y columns (default: --crs)
+  --neighbors K|all          nearest points per cell (IDW 12, kriging 16)
+  --radius-km KM             search radius
+  --power P                  IDW power (default 2)
+  --use-quality              IDW weights multiplied by quality (--quality-weights high=1,medium=0.5,low=0.25)
+  --variogram auto|spherical|exponential|gaussian|MODEL:NUGGET,PARTIAL_SILL,RANGE_KM
+  --lag-km KM --max-lag-km KM   empirical semivariogram lags
+  --anisotropy ANGLE_DEG,RATIO  geometric anisotropy (major-axis azimuth, minor/major range ratio)
+  --measurement-error        add each point's uncertainty² as an extra nugget
+  --faults F.geojson         fault traces: barriers between points and cells
+  --region R.geojson         cells outside the polygons are no data
+  --max-distance-km KM       cells farther from every point are no data
+  --sd grid|none             kriging standard-deviation grid (default grid)
+  --cv on|off                leave-one-out cross-validation (default on); --residuals lists each point
+  --at T.geojson             predict at these points only
+  --out G.tif                write G.tif (and G.sd.tif)
+  --skip-missing             leave out features without the field (warning) instead of failing
+  --max-cells N              grid size limit (default 25000000)
+  --workers N                worker threads for the grid pass (default 1: this thread)
+  --json                     print one JSON object
+`;
+
+async function readText(path: string, what: string): Promise<string> {
+  try {
+    return await readFile(path, 'utf8');
+  } catch (e) {
+    throw new InputError(`cannot read ${what} file ${path}`, [{ field: what, problem: (e as NodeJS.ErrnoException).code ?? String(e) }], 'file_not_found');
+  }
+}
+
+function parseJson(text: string, path: string): unknown {
+  try {
+    return JSON.parse(text);
+  } catch (e) {
+    throw new InputError(`${path} is not valid JSON`, [{ problem: e instanceof Error ? e.message : String(e) }], 'bad_json');
+  }
+}
+
+const sha256 = (s: string) => createHash('sha256').update(s).digest('hex');
+
+export async function interpolate(argv: string[]): Promise<number> {
+  const t0 = performance.now();
+  const { values: a } = parseVerbArgs('interpolate', argv, OPTIONS);
+  if (a.help) { process.stdout.write(HELP); return 0; }
+  if (a.points === undefined) throw new InputError('--points is required', [{ field: 'points', problem: 'missing' }], 'bad_option');
+  if (a.method !== 'idw' && a.method !== 'kriging') throw new InputError(`--method must be idw or kriging, got ${a.method ?? '(missing)'}`, [{ field: 'method', problem: 'expected idw or kriging' }], 'bad_option');
+  if (a.sd !== 'grid' && a.sd !== 'none') throw new InputError(`--sd must be grid or none, got ${a.sd}`, [{ field: 'sd', problem: 'expected grid or none' }], 'bad_option');
+  if (a.cv !== 'on' && a.cv !== 'off') throw new InputError(`--cv must be on or off, got ${a.cv}`, [{ field: 'cv', problem: 'expected on or off' }], 'bad_option');
+  if (a['cell-km'] !== undefined && a.size !== undefined) throw new InputError('give --cell-km or --size, not both', [{ field: 'size', problem: 'conflicts with --cell-km' }], 'bad_option');
+  const field = a.field;
+  const warnings: string[] = [];
+
+  // Inputs.
+  const pointsText = await readText(a.points, 'points');
+  const hashes: Record<string, string> = { points: sha256(pointsText) };
+  const crs = a.crs ?? 'EPSG:4326';
+  const crsDef = await loadCrsDefinition(crs);
+  let points: PointData;
+  if (/\.csv$/i.test(a.points)) {
+    const pcrs = a['points-crs'] ?? a.crs;
+    let toLonLat: ((x: number, y: number) => [number, number]) | undefined;
+    if (pcrs !== undefined) {
+      const def = await loadCrsDefinition(pcrs);
+      const c = converter(def, WGS84_DEF);
+      toLonLat = (x, y) => c.forward([x, y]);
+    }
+    const r = pointsFromCsv(pointsText, field, { skipMissing: a['skip-missing'], source: a.points, toLonLat });
+    points = r.points; warnings.push(...r.warnings);
+  } else {
+    const r = pointsFromGeoJson(parseJson(pointsText, a.points), field, { skipMissing: a['skip-missing'], source: a.points });
+    points = r.points; warnings.push(...r.warnings);
+  }
+  let faults: number[][][] | null = null;
+  if (a.faults !== undefined) {
+    const txt = await readText(a.faults, 'faults');
+    hashes.faults = sha256(txt);
+    const ds = parseFeatureCollection('faults', parseJson(txt, a.faults));
+    warnings.push(...ds.warnings);
+    faults = [];
+    for (const f of ds.collection.features) {
+      const g = f.geometry as { type: string; coordinates: number[][] | number[][][] };
+      if (g.type === 'LineString') faults.push(g.coordinates as number[][]);
+      else faults.push(...(g.coordinates as number[][][]));
+    }
+  }
+  let region: number[][][] | null = null;
+  if (a.region !== undefined) {
+    const txt = await readText(a.region, 'region');
+    hashes.region = sha256(txt);
+    const ds = parseFeatureCollection('regions', parseJson(txt, a.region));
+    region = [];
+    for (const f of ds.collection.features) {
+      const g = f.geometry as { type: string; coordinates: number[][][] | number[][][][] };
+      if (g.type === 'Polygon') region.push(...(g.coordinates as number[][][]));
+      else for (const poly of g.coordinates as number[][][][]) region.push(...poly);
+    }
+  }
+
+  // Options.
+  let size: [number, number] | undefined;
+  if (a.size !== undefined) {
+    const m = /^(\d+)x(\d+)$/i.exec(a.size.trim());
+    if (!m) throw new InputError(`--size must be NXxNY, got "${a.size}"`, [{ field: 'size', problem: 'expected e.g. 400x300' }], 'bad_option');
+    size = [Number(m[1]), Number(m[2])];
+  }
+  let bbox: [number, number, number, number] | undefined;
+  if (a.bbox !== undefined) {
+    const b = numberListOption('bbox', a.bbox, []);
+    if (b.length !== 4) throw new InputError(`--bbox needs 4 numbers W,S,E,N, got ${b.length}`, [{ field: 'bbox', problem: 'expected west,south,east,north in degrees' }], 'bad_option');
+    bbox = b as [number, number, number, number];
+  }
+  let neighbors: number | 'all' | undefined;
+  if (a.neighbors !== undefined) {
+    if (a.neighbors === 'all') neighbors = 'all';
+    else {
+      neighbors = numberOption('neighbors', a.neighbors);
+      if (!(Number.isInteger(neighbors) && neighbors >= 1)) throw new InputError(`--neighbors must be a positive integer or "all", got ${a.neighbors}`, [{ field: 'neighbors', problem: 'expected ≥ 1' }], 'bad_option');
+    }
+  }
+  let qualityWeights: Record<string, number> | undefined;
+  if (a['quality-weights'] !== undefined) {
+    qualityWeights = {};
+    for (const part of a['quality-weights'].split(',')) {
+      const [k, v] = part.split('=').map((s) => s.trim());
+      if (!['high', 'medium', 'low'].includes(k) || v === undefined) throw new InputError(`--quality-weights: expected high=W,medium=W,low=W, got "${part}"`, [{ field: 'quality-weights', problem: 'e.g. high=1,medium=0.5,low=0.25' }], 'bad_option');
+      qualityWeights[k] = numberOption('quality-weights', v);
+    }
+  }
+  const opt = (name: keyof typeof a) => (a[name] === undefined ? undefined : numberOption(String(name), a[name] as string));
+  const options: InterpolationOptions = {
+    method: a.method,
+    neighbors,
+    radiusKm: opt('radius-km'),
+    power: opt('power'),
+    useQuality: a['use-quality'],
+    qualityWeights,
+    variogram: parseVariogramOption(a.variogram),
+    lagKm: opt('lag-km'),
+    maxLagKm: opt('max-lag-km'),
+    anisotropy: parseAnisotropyOption(a.anisotropy),
+    measurementError: a['measurement-error'],
+    faults,
+    region,
+    maxDistanceKm: opt('max-distance-km') ?? null,
+    grid: { bbox, cellKm: opt('cell-km'), size, crs: crsDef === WGS84_DEF ? 'EPSG:4326' : crs, crsDef },
+    sd: a.sd === 'grid',
+    crossValidation: a.cv === 'on',
+    maxCells: opt('max-cells'),
+    units: field === 'heatFlowMWm2' ? 'mW/m²' : '',
+  };
+  const readMs = performance.now() - t0;
+
+  // Point predictions only.
+  if (a.at !== undefined) {
+    const txt = await readText(a.at, 'at');
+    const targets = targetsFromGeoJson(parseJson(txt, a.at), a.at);
+    const r = predictAtPoints(points, options, targets);
+    const body = { predictions: r.predictions, units: options.units, variogram: r.variogram, crossValidation: cvOut(r.crossValidation, a.residuals), warnings: [...warnings, ...r.warnings], timingsMs: { read: readMs, ...r.timingsMs } };
+    if (a.json) process.stdout.write(JSON.stringify(body) + '\n');
+    else for (const p of r.predictions) process.stdout.write(`${p.id}\t${p.value ?? 'no data'}\t${p.sd ?? ''}\n`);
+    return 0;
+  }
+
+  // Grid.
+  const prep = prepareInterpolation(points, options);
+  const tg = performance.now();
+  let result: InterpolationResult;
+  const workers = a.workers === undefined ? 1 : numberOption('workers', a.workers);
+  if (!(Number.isInteger(workers) && workers >= 1 && workers <= 64)) throw new InputError(`--workers must be an integer 1..64, got ${a.workers}`, [{ field: 'workers', problem: 'expected 1..64' }], 'bad_option');
+  if (workers > 1) {
+    const { createInterpPool, computeGridParallel } = await import('../workers/interp-worker.ts');
+    const pool = createInterpPool(workers);
+    try {
+      const r = await computeGridParallel(pool, prep.plan);
+      result = finishGrid(prep, r.values, r.sd, r.stats, performance.now() - tg);
+    } finally {
+      await pool.destroy();
+    }
+  } else {
+    const g = prep.plan.grid;
+    const values = new Float32Array(g.width * g.height);
+    const sd = prep.plan.withSd ? new Float32Array(g.width * g.height) : null;
+    const stats = computeRows(createGridRuntime(prep.plan), 0, g.height, values, sd);
+    result = finishGrid(prep, values, sd, stats, performance.now() - tg);
+  }
+
+  const files: string[] = [];
+  const tw = performance.now();
+  if (a.out !== undefined) {
+    const provenance = {
+      tool: TOOL_NAME, version: VERSION, verb: 'interpolate', method: a.method, field, units: options.units,
+      variogram: result.variogram === null ? null : { model: result.variogram.model, nugget: result.variogram.nugget, partialSill: result.variogram.partialSill, rangeKm: result.variogram.rangeKm, anisotropy: result.variogram.anisotropy },
+      neighbors: neighbors ?? (a.method === 'idw' ? 12 : 16), power: a.method === 'idw' ? (options.power ?? 2) : undefined,
+      inputSha256: hashes, created: new Date().toISOString(),
+    };
+    const name = a.out;
+    await writeFile(name, Buffer.from(writeGeoTiff(result.grid, { description: `${field} (${options.units || 'value'}), ${a.method === 'idw' ? 'inverse-distance weighting' : 'ordinary kriging'}`, metadata: provenance })));
+    files.push(name);
+    if (result.sd !== undefined) {
+      const sdName = name.replace(/\.tiff?$/i, '') + '.sd.tif';
+      await writeFile(sdName, Buffer.from(writeGeoTiff(result.sd, { description: `${field} kriging standard deviation (${options.units || 'value units'})`, metadata: provenance })));
+      files.push(sdName);
+    }
+  }
+  const body = {
+    grid: { ...gridSummary(result.grid, result.cellKm), units: options.units },
+    sd: result.sd !== undefined ? (({ min, max, mean }) => ({ min, max, mean }))(gridSummary(result.sd, result.cellKm)) : null,
+    variogram: result.variogram,
+    crossValidation: cvOut(result.crossValidation, a.residuals),
+    files,
+    caution: CAUTION,
+    warnings: [...warnings, ...result.warnings],
+    timingsMs: { read: readMs, ...result.timingsMs, write: performance.now() - tw, total: performance.now() - t0 },
+  };
+  if (a.json) process.stdout.write(JSON.stringify(body) + '\n');
+  else {
+    const g = body.grid;
+    process.stdout.write(`grid ${g.nx} × ${g.ny} (${g.cellKm.toFixed(3)} km cells, ${g.crs}); ${field} min ${g.min} max ${g.max} mean ${g.mean}; ${g.noData} no-data cells\n`);
+    if (body.variogram) process.stdout.write(`variogram ${body.variogram.model}: nugget ${body.variogram.nugget}, partial sill ${body.variogram.partialSill}, range ${body.variogram.rangeKm} km\n`);
+    if (body.crossValidation) process.stdout.write(`cross-validation: RMSE ${body.crossValidation.rmse}, mean error ${body.crossValidation.meanError}, MSDR ${body.crossValidation.meanSquaredDeviationRatio ?? '-'}\n`);
+    for (const f of files) process.stdout.write(`wrote ${f}\n`);
+    for (const w of body.warnings) process.stdout.write(`warning: ${w}\n`);
+    process.stdout.write(CAUTION + '\n');
+  }
+  return 0;
+}
+
+/** Cross-validation for output: the residual list only with --residuals (it can be long). */
+function cvOut(cv: InterpolationResult['crossValidation'], residuals: boolean) {
+  if (cv === null) return null;
+  return residuals ? cv : { ...cv, residuals: undefined, residualsOmitted: cv.residuals.length };
+}

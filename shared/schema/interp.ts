@@ -1,0 +1,209 @@
+import { z } from 'zod';
+import { InputError, type InputProblem } from '../errors.ts';
+import { parseCsv } from '../io/csv.ts';
+import { parseFeatureCollection } from './features.ts';
+import { pointGeometry, lonLat } from './geojson.ts';
+import { VARIOGRAM_MODELS, type VariogramModel, type VariogramModelName } from '../interp/variogram.ts';
+import type { PointData } from '../interp/interpolate.ts';
+
+/** Contracts of the interpolation engine's inputs (CLI and HTTP validate with these). */
+
+export const variogramModelSchema = z.object({
+  model: z.enum(VARIOGRAM_MODELS),
+  nugget: z.number().finite().min(0, 'nugget must be ≥ 0'),
+  partialSill: z.number().finite().gt(0, 'partial sill must be > 0'),
+  rangeKm: z.number().finite().gt(0, 'range must be > 0 km'),
+});
+
+export const anisotropySchema = z.object({
+  angleDeg: z.number().finite(),
+  ratio: z.number().gt(0, 'ratio must be in (0, 1]').max(1, 'ratio must be in (0, 1]'),
+});
+
+/** Options of an interpolation request (HTTP body / library call), units in the names. */
+export const interpolationOptionsSchema = z.object({
+  method: z.enum(['idw', 'kriging']),
+  field: z.string().min(1).max(100).default('heatFlowMWm2'),
+  neighbors: z.union([z.number().int().min(1), z.literal('all')]).optional(),
+  radiusKm: z.number().gt(0).optional(),
+  power: z.number().gt(0).max(20).optional(),
+  useQuality: z.boolean().optional(),
+  qualityWeights: z.object({ high: z.number().min(0), medium: z.number().min(0), low: z.number().min(0) }).partial().optional(),
+  variogram: z.union([z.literal('auto'), z.enum(VARIOGRAM_MODELS), variogramModelSchema]).optional(),
+  lagKm: z.number().gt(0).optional(),
+  maxLagKm: z.number().gt(0).optional(),
+  anisotropy: anisotropySchema.nullable().optional(),
+  measurementError: z.boolean().optional(),
+  maxDistanceKm: z.number().gt(0).nullable().optional(),
+  bbox: z.tuple([z.number(), z.number(), z.number(), z.number()]).optional(),
+  cellKm: z.number().gt(0).optional(),
+  size: z.tuple([z.number().int().min(1), z.number().int().min(1)]).optional(),
+  crs: z.string().min(1).max(2000).optional(),
+  sd: z.boolean().optional(),
+  crossValidation: z.boolean().optional(),
+});
+export type InterpolationRequest = z.infer<typeof interpolationOptionsSchema>;
+
+/**
+ * Parses `--variogram`: `auto`, a model name (fitted), or `MODEL:NUGGET,PARTIAL_SILL,RANGE_KM` (fixed), e.g.
+ * `exponential:0,10,10`.
+ */
+export function parseVariogramOption(raw: string | undefined): 'auto' | VariogramModelName | VariogramModel {
+  if (raw === undefined || raw === 'auto') return 'auto';
+  const m = /^([a-z]+)(?::(.*))?$/i.exec(raw.trim());
+  const name = m?.[1]?.toLowerCase();
+  if (!m || !(VARIOGRAM_MODELS as readonly string[]).includes(name ?? '')) {
+    throw new InputError(`--variogram: unknown model in "${raw}"`, [{ field: 'variogram', problem: `expected auto, ${VARIOGRAM_MODELS.join(', ')}, or MODEL:NUGGET,PARTIAL_SILL,RANGE_KM` }], 'bad_option');
+  }
+  if (m[2] === undefined) return name as VariogramModelName;
+  const parts = m[2].split(',').map((s) => Number(s.trim()));
+  const r = variogramModelSchema.safeParse({ model: name, nugget: parts[0], partialSill: parts[1], rangeKm: parts[2] });
+  if (parts.length !== 3 || !r.success) {
+    throw new InputError(`--variogram: expected MODEL:NUGGET,PARTIAL_SILL,RANGE_KM, got "${raw}"`, [{ field: 'variogram', problem: r.success ? 'expected three numbers' : r.error.issues.map((i) => i.message).join('; ') }], 'bad_option');
+  }
+  return r.data;
+}
+
+/** Parses `--anisotropy ANGLE_DEG,RATIO`. */
+export function parseAnisotropyOption(raw: string | undefined): { angleDeg: number; ratio: number } | null {
+  if (raw === undefined) return null;
+  const p = raw.split(',').map((s) => Number(s.trim()));
+  const r = anisotropySchema.safeParse({ angleDeg: p[0], ratio: p[1] });
+  if (p.length !== 2 || !r.success) throw new InputError(`--anisotropy: expected ANGLE_DEG,RATIO with ratio in (0, 1], got "${raw}"`, [{ field: 'anisotropy', problem: 'e.g. 30,0.5 (major axis azimuth 30°, minor range half the major)' }], 'bad_option');
+  return r.data;
+}
+
+const genericProps = z.looseObject({ id: z.union([z.string().min(1).max(200), z.number().finite()]).transform(String).optional() });
+
+/**
+ * Interpolation points from a parsed GeoJSON object. For `heatFlowMWm2` the features are validated as heat-flow
+ * sites (shared/schema/features.ts); for any other numeric property, generically: Point geometry, an id, and the
+ * field as a finite number. Features missing the field are an error naming them, or, with `skipMissing`, a
+ * warning naming them (an error if none is left).
+ */
+export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMissing?: boolean; source?: string } = {}): { points: PointData; warnings: string[] } {
+  const src = opts.source ?? 'points';
+  if (field === 'heatFlowMWm2') {
+    const ds = parseFeatureCollection('sites', input);
+    const f = ds.collection.features as { geometry: { coordinates: number[] }; properties: Record<string, unknown> }[];
+    return {
+      points: {
+        ids: f.map((x) => String(x.properties.id)),
+        lon: Float64Array.from(f, (x) => x.geometry.coordinates[0]),
+        lat: Float64Array.from(f, (x) => x.geometry.coordinates[1]),
+        values: Float64Array.from(f, (x) => x.properties.heatFlowMWm2 as number),
+        quality: f.map((x) => x.properties.quality as string | undefined),
+        errorSd: Float64Array.from(f, (x) => (typeof x.properties.uncertaintyMWm2 === 'number' ? x.properties.uncertaintyMWm2 : NaN)),
+      },
+      warnings: ds.warnings,
+    };
+  }
+  if (input === null || typeof input !== 'object' || (input as { type?: unknown }).type !== 'FeatureCollection' || !Array.isArray((input as { features?: unknown }).features)) {
+    throw new InputError(`${src}: expected a GeoJSON FeatureCollection`, [{ field: 'type', problem: 'expected "FeatureCollection" with a features array' }], 'bad_geojson');
+  }
+  const feats = (input as { features: unknown[] }).features;
+  if (feats.length === 0) throw new InputError(`${src}: the collection is empty`, [{ field: 'features', problem: 'expected at least one feature' }], 'empty_dataset');
+  const problems: InputProblem[] = [];
+  const missing: string[] = [];
+  const ids: string[] = [], lon: number[] = [], lat: number[] = [], values: number[] = [], quality: (string | undefined)[] = [], errSd: number[] = [];
+  const seen = new Set<string>();
+  const errField = `${field}Sd`;
+  feats.forEach((f, i) => {
+    if (problems.length >= 50) return;
+    const feat = (f ?? {}) as { type?: unknown; id?: unknown; geometry?: unknown; properties?: unknown };
+    const props = (feat.properties && typeof feat.properties === 'object' ? feat.properties : {}) as Record<string, unknown>;
+    const pr = genericProps.safeParse(props);
+    const id = pr.success && pr.data.id !== undefined ? pr.data.id : typeof feat.id === 'string' || typeof feat.id === 'number' ? String(feat.id) : `point-${i + 1}`;
+    const label = `${i} (${id})`;
+    if (feat.type !== 'Feature') { problems.push({ feature: i, field: 'type', problem: 'expected a GeoJSON Feature' }); return; }
+    const g = pointGeometry.safeParse(feat.geometry);
+    if (!g.success) { problems.push(...g.error.issues.map((e) => ({ feature: label, field: ['geometry', ...e.path.map(String)].join('.'), problem: e.message }))); return; }
+    if (seen.has(id)) { problems.push({ feature: label, field: 'properties.id', problem: `duplicate id "${id}"` }); return; }
+    seen.add(id);
+    const v = props[field];
+    if (v === undefined || v === null || v === '') { missing.push(id); return; }
+    if (typeof v !== 'number' || !Number.isFinite(v)) { problems.push({ feature: label, field: `properties.${field}`, problem: `expected a finite number, got ${JSON.stringify(v)}` }); return; }
+    const e = props[errField];
+    if (e !== undefined && !(typeof e === 'number' && e >= 0 && Number.isFinite(e))) { problems.push({ feature: label, field: `properties.${errField}`, problem: 'expected a finite number ≥ 0' }); return; }
+    ids.push(id); lon.push(g.data.coordinates[0]); lat.push(g.data.coordinates[1]); values.push(v);
+    quality.push(typeof props.quality === 'string' ? props.quality : undefined);
+    errSd.push(typeof e === 'number' ? e : NaN);
+  });
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${src}`, problems, 'invalid_features', 422);
+  const warnings: string[] = [];
+  if (missing.length > 0) {
+    const names = `${missing.slice(0, 20).join(', ')}${missing.length > 20 ? `, ... (${missing.length} in all)` : ''}`;
+    if (!opts.skipMissing) {
+      throw new InputError(`${missing.length} feature(s) in ${src} have no "${field}": ${names}`, missing.slice(0, 50).map((m) => ({ feature: m, field: `properties.${field}`, problem: 'missing (pass --skip-missing to leave such features out)' })), 'missing_field');
+    }
+    if (ids.length === 0) throw new InputError(`no feature in ${src} has a "${field}" value`, [{ field: `properties.${field}`, problem: 'missing on every feature' }], 'missing_field');
+    warnings.push(`${missing.length} feature(s) without "${field}" were left out: ${names}`);
+  }
+  return { points: { ids, lon: Float64Array.from(lon), lat: Float64Array.from(lat), values: Float64Array.from(values), quality, errorSd: Float64Array.from(errSd) }, warnings };
+}
+
+/**
+ * Points from CSV: a header with `longitude,latitude` (or `lon,lat`), or with projected `x,y` (or
+ * `easting,northing`) converted to lon/lat by `toLonLat` (the caller builds it from `--points-crs`); the field and
+ * the known numeric columns as numbers (an unparsable number is an error naming row and column).
+ */
+export function pointsFromCsv(text: string, field: string, opts: { skipMissing?: boolean; source?: string; toLonLat?: (x: number, y: number) => [number, number] } = {}): { points: PointData; warnings: string[]; projectedColumns: boolean } {
+  const src = opts.source ?? 'points';
+  const { header, rows } = parseCsv(text);
+  let xc = header.findIndex((h) => /^(longitude|lon|lng)$/i.test(h));
+  let yc = header.findIndex((h) => /^(latitude|lat)$/i.test(h));
+  let projected = false;
+  if (xc < 0 || yc < 0) {
+    xc = header.findIndex((h) => /^(x|easting)$/i.test(h));
+    yc = header.findIndex((h) => /^(y|northing)$/i.test(h));
+    projected = xc >= 0 && yc >= 0;
+    if (!projected) throw new InputError(`${src}: CSV header needs longitude,latitude (or lon,lat), or x,y with --points-crs`, [{ field: 'header', problem: `header is: ${header.join(',')}` }], 'bad_csv');
+    if (opts.toLonLat === undefined) throw new InputError(`${src}: CSV has projected x,y columns: give their CRS with --points-crs EPSG:nnnn`, [{ field: 'points-crs', problem: 'missing' }], 'bad_option');
+  }
+  const numeric = new Set([field, 'heatFlowMWm2', 'uncertaintyMWm2', `${field}Sd`, 'gradientCPerKm', 'conductivityWmK', 'heatProductionUWm3']);
+  const problems: InputProblem[] = [];
+  const features = rows.map((r, k) => {
+    const props: Record<string, unknown> = {};
+    header.forEach((h, c) => {
+      if (c === xc || c === yc) return;
+      const cell = r[c].trim();
+      if (cell === '') return;
+      if (numeric.has(h)) {
+        const v = Number(cell);
+        if (!Number.isFinite(v)) problems.push({ feature: k + 1, field: h, problem: `expected a finite number, got "${cell}"` });
+        props[h] = v;
+      } else props[h] = cell;
+    });
+    const a = Number(r[xc]), b = Number(r[yc]);
+    if (r[xc].trim() === '' || !Number.isFinite(a) || r[yc].trim() === '' || !Number.isFinite(b)) {
+      problems.push({ feature: k + 1, field: projected ? 'x,y' : 'longitude,latitude', problem: `expected two numbers, got "${r[xc]}", "${r[yc]}"` });
+    }
+    const p = projected ? opts.toLonLat!(a, b) : [a, b];
+    if (projected && !lonLat.safeParse(p).success) problems.push({ feature: k + 1, field: 'x,y', problem: `outside the CRS's valid area (gives ${p[0]}, ${p[1]})` });
+    return { type: 'Feature', geometry: { type: 'Point', coordinates: p }, properties: props };
+  });
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${src} (CSV rows numbered from 1 after the header)`, problems.slice(0, 50), 'invalid_features', 422);
+  const r = pointsFromGeoJson({ type: 'FeatureCollection', features }, field, opts);
+  return { ...r, projectedColumns: projected };
+}
+
+/** Target points for `--at`: any Point features; id from properties.id, the feature id, or the position. */
+export function targetsFromGeoJson(input: unknown, source = 'targets'): { ids: string[]; lon: number[]; lat: number[] } {
+  if (input === null || typeof input !== 'object' || (input as { type?: unknown }).type !== 'FeatureCollection' || !Array.isArray((input as { features?: unknown }).features)) {
+    throw new InputError(`${source}: expected a GeoJSON FeatureCollection of points`, [{ field: 'type', problem: 'expected "FeatureCollection"' }], 'bad_geojson');
+  }
+  const feats = (input as { features: unknown[] }).features;
+  if (feats.length === 0) throw new InputError(`${source}: no target points`, [{ field: 'features', problem: 'expected at least one Point' }], 'empty_dataset');
+  const ids: string[] = [], lon: number[] = [], lat: number[] = [];
+  const problems: InputProblem[] = [];
+  feats.forEach((f, i) => {
+    const feat = (f ?? {}) as { id?: unknown; geometry?: unknown; properties?: Record<string, unknown> | null };
+    const g = pointGeometry.safeParse(feat.geometry);
+    if (!g.success) { problems.push({ feature: i, field: 'geometry', problem: g.error.issues.map((e) => e.message).join('; ') }); return; }
+    const pid = feat.properties?.id;
+    ids.push(typeof pid === 'string' || typeof pid === 'number' ? String(pid) : typeof feat.id === 'string' || typeof feat.id === 'number' ? String(feat.id) : `target-${i + 1}`);
+    lon.push(g.data.coordinates[0]); lat.push(g.data.coordinates[1]);
+  });
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${source}`, problems.slice(0, 50), 'invalid_features', 422);
+  return { ids, lon, lat };
+}

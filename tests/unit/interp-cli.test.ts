@@ -1,0 +1,121 @@
+import { describe, it, expect, vi, afterEach, beforeAll, afterAll } from 'vitest';
+import { mkdtempSync, writeFileSync, existsSync, rmSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+import { main } from '../../server/cli/main.ts';
+import { readGeoTiff } from '../../server/io/geotiff.ts';
+
+let dir = '';
+const bytes = (p: string) => { const b = readFileSync(p); return b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer; };
+const file = (name: string, body: unknown) => { const p = join(dir, name); writeFileSync(p, typeof body === 'string' ? body : JSON.stringify(body)); return p; };
+const site = (id: string, lon: number, lat: number, props: Record<string, unknown>) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [lon, lat] }, properties: { id, ...props } });
+
+/** Runs the CLI in-process; returns exit code and the parsed JSON line. */
+async function run(args: string[]): Promise<{ code: number; json: Record<string, any> }> {
+  let out = '';
+  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => { out += String(s); return true; });
+  const err = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
+  try {
+    const code = await main(['interpolate', ...args, '--json']);
+    return { code, json: JSON.parse(out.trim().split('\n').pop() as string) };
+  } finally {
+    spy.mockRestore();
+    err.mockRestore();
+  }
+}
+
+const sites: unknown[] = [];
+beforeAll(() => {
+  dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'interp-cli-'));
+  for (let i = 0; i < 8; i++) for (let j = 0; j < 8; j++) {
+    sites.push(site(`s${i}-${j}`, -128 + i * 0.05, -38 + j * 0.05, { heatFlowMWm2: 50 + 3 * i + 2 * j + ((i * j) % 3), uncertaintyMWm2: 2, quality: (i + j) % 2 ? 'high' : 'low', depthToBaseKm: i + j }));
+  }
+});
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+afterEach(() => vi.restoreAllMocks());
+
+describe('subtherm interpolate', () => {
+  it('kriging to a GeoTIFF pair: summary, variogram, cross-validation, files', async () => {
+    const pts = file('p.geojson', { type: 'FeatureCollection', features: sites });
+    const out = join(dir, 'hf.tif');
+    const { code, json } = await run(['--points', pts, '--method', 'kriging', '--cell-km', '1', '--out', out, '--variogram', 'exponential:0,40,30']);
+    expect(code).toBe(0);
+    expect(json.grid.nx).toBeGreaterThan(30);
+    expect(json.grid.noData).toBe(0);
+    expect(json.variogram).toMatchObject({ model: 'exponential', nugget: 0, partialSill: 40, rangeKm: 30, source: 'fixed' });
+    expect(json.crossValidation.n).toBe(64);
+    expect(json.files).toEqual([out, join(dir, 'hf.sd.tif')]);
+    expect(existsSync(join(dir, 'hf.sd.tif'))).toBe(true);
+    const r = await readGeoTiff(bytes(out));
+    expect(r.grid.width).toBe(json.grid.nx);
+    expect(r.metadata.method).toBe('kriging');
+    expect(r.caution).toContain('Screening estimates only');
+  });
+
+  it('--at predicts at target points only, exact at a data point', async () => {
+    const pts = file('p2.geojson', { type: 'FeatureCollection', features: sites });
+    const at = file('t.geojson', { type: 'FeatureCollection', features: [site('on-site', -128, -38, {}), site('between', -127.975, -37.975, {})] });
+    const { code, json } = await run(['--points', pts, '--method', 'kriging', '--at', at, '--variogram', 'spherical:0,40,30']);
+    expect(code).toBe(0);
+    expect(json.predictions[0].id).toBe('on-site');
+    expect(json.predictions[0].value).toBeCloseTo(50, 8);
+    expect(json.predictions[1].sd).toBeGreaterThan(0);
+    expect(json.grid).toBeUndefined();
+  });
+
+  it('any numeric field: features missing it are an error naming them, or skipped with --skip-missing', async () => {
+    const feats = [...sites.slice(0, 20), site('no-depth', -127.9, -37.9, { heatFlowMWm2: 60 })];
+    const pts = file('p3.geojson', { type: 'FeatureCollection', features: feats });
+    const bad = await run(['--points', pts, '--field', 'depthToBaseKm', '--method', 'idw', '--size', '20x20']);
+    expect(bad.code).toBe(2);
+    expect(bad.json.error.message).toContain('no-depth');
+    const ok = await run(['--points', pts, '--field', 'depthToBaseKm', '--method', 'idw', '--size', '20x20', '--skip-missing']);
+    expect(ok.code).toBe(0);
+    expect(ok.json.warnings.join(' ')).toContain('no-depth');
+  });
+
+  it('bad input exits 2 with a clear message, never a NaN grid', async () => {
+    const two = file('two.geojson', { type: 'FeatureCollection', features: sites.slice(0, 2) });
+    expect((await run(['--points', two, '--method', 'kriging'])).json.error.code).toBe('too_few_points');
+    const flat = file('flat.geojson', { type: 'FeatureCollection', features: (sites as { properties: object }[]).slice(0, 10).map((s) => ({ ...s, properties: { ...s.properties, heatFlowMWm2: 60 } })) });
+    const f = await run(['--points', flat, '--method', 'kriging']);
+    expect(f.code).toBe(2);
+    expect(f.json.error.code).toBe('degenerate_variogram');
+    const pts = file('p4.geojson', { type: 'FeatureCollection', features: sites });
+    const big = await run(['--points', pts, '--method', 'idw', '--size', '6000x5000']);
+    expect(big.code).toBe(2);
+    expect(big.json.error.code).toBe('grid_too_large');
+    const csv = file('nan.csv', 'id,lon,lat,heatFlowMWm2\na,-128,-38,60\nb,-128.1,-38,NaN\nc,-128,-38.1,61\n');
+    const n = await run(['--points', csv, '--method', 'idw']);
+    expect(n.code).toBe(2);
+    expect(JSON.stringify(n.json.error.details)).toContain('heatFlowMWm2');
+    const out = file('range.csv', 'id,lon,lat,depthKm\na,-128,-38,6\nb,-200,-38,5\nc,-128,-38.1,4\n');
+    expect((await run(['--points', out, '--field', 'depthKm', '--method', 'idw'])).code).toBe(2);
+    expect((await run(['--points', pts, '--method', 'kriging', '--variogram', 'exponential:0,-1,10'])).json.error.code).toBe('bad_option');
+  });
+
+  it('projected CSV input (--points-crs) and projected output grid (--crs)', async () => {
+    const csv = file('utm.csv', 'id,x,y,heatFlowMWm2\n' + Array.from({ length: 30 }, (_, i) => `u${i},${500000 + (i % 6) * 3000},${5800000 + Math.floor(i / 6) * 3000},${50 + i}`).join('\n'));
+    const out = join(dir, 'utm.tif');
+    const { code, json } = await run(['--points', csv, '--points-crs', 'EPSG:32709', '--crs', 'EPSG:32709', '--method', 'idw', '--cell-km', '1', '--out', out]);
+    expect(code).toBe(0);
+    expect(json.grid.crs).toBe('EPSG:32709');
+    expect(json.grid.bbox[0]).toBeGreaterThan(499000);
+    expect(json.grid.bbox[0]).toBeLessThan(500000);
+    const r = await readGeoTiff(bytes(out));
+    expect(r.grid.crs).toBe('EPSG:32709');
+    expect(r.grid.dx).toBeCloseTo(1000, 6);
+  });
+
+  it('--region and --max-distance-km mask cells as no data', async () => {
+    const pts = file('p5.geojson', { type: 'FeatureCollection', features: sites });
+    const region = file('r.geojson', { type: 'FeatureCollection', features: [{ type: 'Feature', geometry: { type: 'Polygon', coordinates: [[[-128, -38], [-127.8, -38], [-127.8, -37.8], [-128, -37.8], [-128, -38]]] }, properties: { id: 'r' } }] });
+    const a = await run(['--points', pts, '--method', 'idw', '--size', '40x40', '--region', region]);
+    expect(a.json.error).toBeUndefined();
+    expect(a.code).toBe(0);
+    expect(a.json.grid.noData).toBeGreaterThan(0);
+    expect(a.json.grid.noData).toBeLessThan(1600);
+    const b = await run(['--points', pts, '--method', 'idw', '--size', '40x40', '--bbox=-128.5,-38.5,-127.4,-37.4', '--max-distance-km', '5']);
+    expect(b.json.grid.noData).toBeGreaterThan(0);
+  });
+});

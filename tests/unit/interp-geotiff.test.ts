@@ -1,0 +1,72 @@
+import { describe, it, expect } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, writeFileSync, rmSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+import { writeGeoTiff, readGeoTiff } from '../../server/io/geotiff.ts';
+import { CAUTION } from '../../shared/caution.ts';
+import type { Grid } from '../../shared/grid/grid.ts';
+
+function grid(crs: string, west: number, north: number, dx: number, dy: number): Grid<Float32Array> {
+  const values = new Float32Array(7 * 5).map((_, i) => 40 + i * 0.5);
+  values[3] = NaN;
+  return { width: 7, height: 5, values, west, north, dx, dy, crs, units: 'mW/m²' };
+}
+
+const hasGdal = spawnSync('gdalinfo', ['--version']).status === 0;
+
+describe('GeoTIFF codec', () => {
+  it('round trip keeps values, NoData, georeferencing, caution and provenance', async () => {
+    const g = grid('EPSG:4326', -128.5, -37.5, 0.025, 0.02);
+    const buf = writeGeoTiff(g, { description: 'heat flow (mW/m²)', metadata: { tool: 'subtherm', inputSha256: { points: 'ab'.repeat(32) } } });
+    const r = await readGeoTiff(buf);
+    expect(r.grid.width).toBe(7);
+    expect(r.grid.height).toBe(5);
+    expect(r.grid.west).toBeCloseTo(-128.5, 12);
+    expect(r.grid.north).toBeCloseTo(-37.5, 12);
+    expect(r.grid.dx).toBeCloseTo(0.025, 12);
+    expect(r.grid.dy).toBeCloseTo(0.02, 12);
+    expect(r.grid.crs).toBe('EPSG:4326');
+    expect(r.grid.units).toBe('mW/m²');
+    expect(Number.isNaN(r.grid.values[3])).toBe(true);
+    for (let i = 0; i < g.values.length; i++) if (i !== 3) expect(r.grid.values[i]).toBe(g.values[i]);
+    expect(r.caution).toBe(CAUTION);
+    expect(r.description).toBe('heat flow (mW/m²)');
+    expect((r.metadata.inputSha256 as { points: string }).points).toBe('ab'.repeat(32));
+  });
+
+  it('projected CRS round trip (EPSG:32709)', async () => {
+    const r = await readGeoTiff(writeGeoTiff(grid('EPSG:32709', 500000, 5800000, 2000, 2000)));
+    expect(r.grid.crs).toBe('EPSG:32709');
+    expect(r.grid.west).toBe(500000);
+    expect(r.grid.north).toBe(5800000);
+  });
+
+  it.skipIf(!hasGdal)('gdalinfo reads size, CRS, origin, pixel size and NoData (GDAL as the reference reader)', () => {
+    const dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'interp-tif-'));
+    try {
+      const f = join(dir, 'g.tif');
+      writeFileSync(f, Buffer.from(writeGeoTiff(grid('EPSG:4326', -128.5, -37.5, 0.025, 0.02), { description: 'test', metadata: { a: 1 } })));
+      const info = JSON.parse(spawnSync('gdalinfo', ['-json', f], { encoding: 'utf8' }).stdout);
+      expect(info.size).toEqual([7, 5]);
+      expect(info.coordinateSystem.wkt).toContain('ID["EPSG",4326]');
+      expect(info.geoTransform[0]).toBeCloseTo(-128.5, 12);
+      expect(info.geoTransform[3]).toBeCloseTo(-37.5, 12);
+      expect(info.geoTransform[1]).toBeCloseTo(0.025, 12);
+      expect(info.geoTransform[5]).toBeCloseTo(-0.02, 12);
+      expect(info.bands[0].noDataValue).toBe(-9999);
+      expect(info.bands[0].type).toBe('Float32');
+      expect(JSON.stringify(info.metadata)).toContain('Screening estimates only');
+      const p = JSON.parse(spawnSync('gdalinfo', ['-json', f], { encoding: 'utf8' }).stdout);
+      expect(p.stderr ?? '').toBe('');
+      const f2 = join(dir, 'p.tif');
+      writeFileSync(f2, Buffer.from(writeGeoTiff(grid('EPSG:32709', 500000, 5800000, 2000, 2000))));
+      const info2 = JSON.parse(spawnSync('gdalinfo', ['-json', f2], { encoding: 'utf8' }).stdout);
+      expect(info2.coordinateSystem.wkt).toContain('ID["EPSG",32709]');
+      expect(info2.geoTransform[0]).toBe(500000);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
+  });
+  if (!hasGdal) it('gdalinfo check skipped: gdalinfo is not installed (apt-get install gdal-bin)', () => expect(hasGdal).toBe(false));
+});
