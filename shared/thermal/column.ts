@@ -60,8 +60,15 @@ export function layerTemperature(cm: CompiledModel, i: number, tTop: number, qTo
 /**
  * Solves one column: layer-top temperatures and heat flows, the depth to which it is valid, and status bits.
  * q0 in mW/m², t0 in °C. Nothing allocated.
+ *
+ * Grid kernels that only ask for isotherms up to `needTempC` and temperatures down to `needDepthKm` may pass them:
+ * layer temperatures are then computed only down to the first layer whose bottom is at least that hot and that
+ * deep (the costly exponentials); deeper layer tops get +∞ (hotter than anything asked), so searches and queries
+ * within those bounds are unchanged. Heat flow, and so the flow-exhaustion check and `validToKm`, is always
+ * computed for the whole stack (it needs no temperatures). A k(T) that becomes undefined (b < 0) below the solved
+ * layers is not detected; it cannot affect the queried range.
  */
-export function solveColumn(cm: CompiledModel, q0: number, t0: number, st: ColumnState): number {
+export function solveColumn(cm: CompiledModel, q0: number, t0: number, st: ColumnState, needTempC = Infinity, needDepthKm = Infinity): number {
   const n = cm.nLayers;
   const tT = st.tTopC, qT = st.qTopMWm2;
   st.surfaceHeatFlowMWm2 = q0;
@@ -113,8 +120,34 @@ export function solveColumn(cm: CompiledModel, q0: number, t0: number, st: Colum
     q = qb;
     tT[i + 1] = t;
     qT[i + 1] = q;
+    if (t >= needTempC && cm.bottomKm[i] >= needDepthKm && i + 1 < n) {
+      status |= finishFlowOnly(cm, q0, i + 1, st);
+      break;
+    }
   }
   st.status = status;
+  return status;
+}
+
+/** Fills layer tops from `from` down with +∞ temperatures and their heat flow; detects exhaustion from q alone. */
+function finishFlowOnly(cm: CompiledModel, q0: number, from: number, st: ColumnState): number {
+  const n = cm.nLayers;
+  const tT = st.tTopC, qT = st.qTopMWm2;
+  let status = 0;
+  for (let j = from; j < n; j++) {
+    const q = qT[j];
+    tT[j + 1] = Infinity;
+    qT[j + 1] = q - cm.i1[j];
+    if (qT[j + 1] <= 0 && status === 0) {
+      const a = cm.aTop[j], d = cm.decayKm[j];
+      const dz = d > 0 ? -d * Math.log1p(-q / (a * d)) : q / a;
+      status = COLUMN_FLOW_EXHAUSTED;
+      st.exhaustedLayer = j;
+      st.validToKm = cm.topKm[j] + (dz >= 0 && dz <= cm.thicknessKm[j] ? dz : cm.thicknessKm[j]);
+      for (let k = j + 1; k <= n; k++) qT[k] = q0 - (k < n ? cm.heatAboveMWm2[k] : cm.totalHeatProductionMWm2);
+      break;
+    }
+  }
   return status;
 }
 

@@ -59,13 +59,17 @@ export function geothermGrid(models: CompiledModel | CompiledModel[], heatFlowMW
   const isos = Float64Array.from(query.isothermsC as ArrayLike<number>);
   const deps = Float64Array.from(query.depthsKm as ArrayLike<number>);
   const status = out.status, basal = out.basalHeatFlowMWm2;
+  // Layer temperatures are needed only down to the hottest isotherm and the deepest depth asked for.
+  let needT = -Infinity, needZ = 0;
+  for (let k = 0; k < nIso; k++) needT = Math.max(needT, isos[k]);
+  for (let k = 0; k < nDep; k++) needZ = Math.max(needZ, deps[k]);
   for (let c = start; c < end; c++) {
     const zi = zones === undefined ? 0 : zones[c];
     const cm = list[zi];
     if (cm === undefined) throw new RangeError(`cell ${c}: zone ${zi} has no model (${list.length} given)`);
     const st = states[zi];
     const q0 = heatFlowMWm2[c];
-    solveColumn(cm, q0, t0s === undefined ? cm.surfaceTemperatureC : t0s[c], st);
+    solveColumn(cm, q0, t0s === undefined ? cm.surfaceTemperatureC : t0s[c], st, needT, needZ);
     if (status !== undefined) status[c] = st.status;
     if (basal !== undefined) basal[c] = st.status & COLUMN_BAD_INPUT ? NaN : q0 - cm.totalHeatProductionMWm2;
     const zMax = query.maxDepthKm ?? cm.maxDepthKm;

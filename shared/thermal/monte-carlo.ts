@@ -238,6 +238,9 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
   const zMax = spec.maxDepthKm;
   const sum = emptySummary();
   const targets = [...out.isotherms, ...out.temperatures];
+  let needT = -Infinity, needZ = 0;
+  for (let k = 0; k < nIso; k++) needT = Math.max(needT, isos[k]);
+  for (let k = 0; k < nDep; k++) needZ = Math.max(needZ, deps[k]);
   for (let b0 = start; b0 < end; b0 += B) {
     const b1 = Math.min(end, b0 + B);
     invalid.fill(0);
@@ -260,7 +263,7 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
           continue;
         }
         const st = states[zi];
-        solveColumn(cm, q0, t0s === undefined ? cm.surfaceTemperatureC : t0s[c], st);
+        solveColumn(cm, q0, t0s === undefined ? cm.surfaceTemperatureC : t0s[c], st, needT, needZ);
         if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED)) invalid[c - b0]++;
         for (let k = 0; k < nIso; k++) bufs[k][j] = isothermValue(cm, st, isos[k], zMax);
         for (let k = 0; k < nDep; k++) bufs[nIso + k][j] = columnTemperature(cm, st, deps[k]);
