@@ -5,3 +5,4 @@ registerVerb('serve', 'start the web map and API server', async () => (await imp
 registerVerb('wells', 'well temperatures → corrected temperatures, gradients and heat-flow sites', async () => (await import('./wells.ts')).wells);
 registerVerb('geotherm', 'steady-state conductive geotherm of one column (isotherms, temperatures, profile)', async () => (await import('./geotherm.ts')).geotherm);
 registerVerb('interpolate', 'grid a point field by IDW or ordinary kriging (with variogram, sd and cross-validation)', async () => (await import('./interpolate.ts')).interpolate);
+registerVerb('isotherms', 'heat-flow grid + thermal model → isotherm depths, temperatures, facies, solidus, percentiles and contours', async () => (await import('./isotherms.ts')).isotherms);

@@ -36,6 +36,8 @@ export const runRequestSchema = z.object({
   heatFlowContourIntervalMWm2: z.number().gt(0).max(1000).optional(),
   grid: runGridSchema.default({}),
   realizations: z.number().int().min(0).max(5000).optional(),
+  /** How a cell's heat-flow error is drawn across cells in each realization (DESIGN.md §3): "full" (default) or "independent". */
+  heatFlowErrorCorrelation: z.enum(['full', 'independent']).optional(),
   seed: z.number().int().min(0).max(2 ** 32 - 1).optional(),
 });
 export type RunRequest = z.infer<typeof runRequestSchema>;

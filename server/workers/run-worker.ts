@@ -1,0 +1,26 @@
+/**
+ * Worker side of an analysis run: a thin wrapper over runPipeline (server/runs/pipeline.ts). Progress goes out on
+ * `port` as `{ type: 'progress', fraction, message }`; a `{ type: 'cancel' }` message on the same port stops the
+ * run between tiles (the result is then an AbortError).
+ */
+import type { MessagePort } from 'node:worker_threads';
+import type { RunRequest } from '../../shared/schema/run.ts';
+import { runPipeline, type RunResult, type StoredDataset } from '../runs/pipeline.ts';
+
+export type { RunResult } from '../runs/pipeline.ts';
+
+export default async function runWorker({ request, datasets, port }: { request: RunRequest; datasets: Record<string, StoredDataset>; port: MessagePort }): Promise<RunResult> {
+  const controller = new AbortController();
+  const onMessage = (m: unknown) => {
+    if (m !== null && typeof m === 'object' && (m as { type?: unknown }).type === 'cancel') controller.abort();
+  };
+  port.on('message', onMessage);
+  try {
+    return await runPipeline(request, datasets, {
+      signal: controller.signal,
+      progress: (p) => port.postMessage({ type: 'progress', fraction: p.fraction, message: p.message }),
+    });
+  } finally {
+    port.off('message', onMessage);
+  }
+}

@@ -1,0 +1,18 @@
+/**
+ * File and layer names of the grid products: `depth-300C`, `temperature-5km`, `facies-10km`, `base-heat-flow`,
+ * `solidus-depth`, `inconsistent`, and `depth-300C.p10` etc. for percentiles. Numbers are written in plain decimal
+ * without trailing zeros (2.5 → "2.5", 300 → "300"); a minus sign stays ("-10C").
+ */
+
+function num(v: number): string {
+  if (!Number.isFinite(v)) throw new RangeError(`a product name needs a finite number, got ${v}`);
+  return String(+v.toPrecision(12));
+}
+
+export const depthProductName = (isothermC: number) => `depth-${num(isothermC)}C`;
+export const temperatureProductName = (depthKm: number) => `temperature-${num(depthKm)}km`;
+export const faciesProductName = (depthKm: number) => `facies-${num(depthKm)}km`;
+export const percentileProductName = (isothermC: number, p: 'p10' | 'p50' | 'p90') => `${depthProductName(isothermC)}.${p}`;
+export const BASE_HEAT_FLOW = 'base-heat-flow';
+export const SOLIDUS_DEPTH = 'solidus-depth';
+export const INCONSISTENT = 'inconsistent';
