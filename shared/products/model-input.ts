@@ -1,14 +1,14 @@
 /**
- * Reading a thermal-model document for the grid products. The model contract (shared/schema/model.ts) is strict;
- * a document may carry descriptive top-level members (e.g. `"name"`, `"description"`) that are not part of it.
- * Those are set aside here — reported, never silently dropped — and the rest is validated by parseThermalModel.
+ * Reading a thermal-model document for the grid products. The model contract (shared/schema/model.ts) is strict
+ * but for its descriptive `name` and `description`; any other top-level member a document carries is set aside
+ * here — reported, never silently dropped — and the rest is validated by parseThermalModel.
  * Layer-level members are not touched: a misspelt layer field stays an error.
  */
 import { InputError } from '../errors.ts';
 import { parseThermalModel, type ThermalModelInput } from '../schema/model.ts';
 
 /** The top-level members of the model contract. */
-export const MODEL_TOP_LEVEL_KEYS = ['surfaceTemperatureC', 'surfaceHeatFlowMWm2', 'layers'] as const;
+export const MODEL_TOP_LEVEL_KEYS = ['name', 'description', 'surfaceTemperatureC', 'surfaceHeatFlowMWm2', 'layers'] as const;
 
 export interface ModelDocument {
   model: ThermalModelInput;

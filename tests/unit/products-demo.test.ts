@@ -120,11 +120,11 @@ describe('the run pipeline on the demo data', () => {
     const tif = await readGeoTiff(byName['depth-300C'].files[0].bytes.slice().buffer as ArrayBuffer);
     expect(tif.caution).toBe(CAUTION);
     expect((tif.metadata.provenance as { contentHash: string }).contentHash).toMatch(/^[0-9a-f]{64}$/);
-    // The serialized heat-flow grid and the validated model (its "name" set aside).
+    // The serialized heat-flow grid and the validated model (its descriptive "name" kept).
     expect(res.grids.heatFlow.values.length).toBe(res.grids.heatFlow.width * res.grids.heatFlow.height);
     expect(res.grids.heatFlowSd).toBeDefined();
-    expect((res.model as Record<string, unknown>).name).toBeUndefined();
-    expect(res.warnings.some((w) => w.includes('"name"'))).toBe(true);
+    expect((res.model as Record<string, unknown>).name).toContain('Orrindel');
+    expect(res.warnings.some((w) => w.includes('"name"'))).toBe(false);
     expect(res.summary.overrides).toEqual(['regions[1] (basin)']);
   });
 

@@ -22,11 +22,13 @@ function heatFlowGrid(width: number, height: number, f: (c: number, r: number) =
 }
 
 describe('model documents', () => {
-  it('sets aside the demo model\'s top-level "name" and says so (the model schema is strict)', () => {
-    expect(demo.ignoredKeys).toEqual(['name']);
+  it('keeps the demo model\'s descriptive "name" and sets other unknown top-level members aside, saying so', () => {
+    expect(demo.ignoredKeys).toEqual([]);
     expect(demo.name).toContain('Orrindel');
-    expect(demo.warnings[0]).toContain('"name"');
     expect(demo.model.layers).toHaveLength(4);
+    const extra = parseModelText(JSON.stringify({ surfaceTemperatureC: 10, colour: 'red', layers: [{ bottomKm: 30, conductivityWmK: 2.5 }] }), 'm.json');
+    expect(extra.ignoredKeys).toEqual(['colour']);
+    expect(extra.warnings[0]).toContain('"colour"');
   });
   it('still rejects a misspelt layer field', () => {
     const bad = JSON.stringify({ surfaceTemperatureC: 10, layers: [{ bottomKm: 30, conductivityWmK: 2.5, heatProductionUWm: 1 }] });
