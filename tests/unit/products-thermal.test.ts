@@ -26,7 +26,7 @@ describe('model documents', () => {
     expect(demo.ignoredKeys).toEqual([]);
     expect(demo.name).toContain('Orrindel');
     expect(demo.model.layers).toHaveLength(4);
-    const extra = parseModelText(JSON.stringify({ surfaceTemperatureC: 10, colour: 'red', layers: [{ bottomKm: 30, conductivityWmK: 2.5 }] }), 'm.json');
+    const extra = parseModelText(JSON.stringify({ surfaceTemperatureC: 10, colour: 'red', layers: [{ bottomKm: 30, conductivityWmK: 2.5, heatProductionUWm3: 1 }] }), 'm.json');
     expect(extra.ignoredKeys).toEqual(['colour']);
     expect(extra.warnings[0]).toContain('"colour"');
   });
