@@ -6,3 +6,4 @@ registerVerb('wells', 'well temperatures → corrected temperatures, gradients a
 registerVerb('geotherm', 'steady-state conductive geotherm of one column (isotherms, temperatures, profile)', async () => (await import('./geotherm.ts')).geotherm);
 registerVerb('interpolate', 'grid a point field by IDW or ordinary kriging (with variogram, sd and cross-validation)', async () => (await import('./interpolate.ts')).interpolate);
 registerVerb('isotherms', 'heat-flow grid + thermal model → isotherm depths, temperatures, facies, solidus, percentiles and contours', async () => (await import('./isotherms.ts')).isotherms);
+registerVerb('isograds', 'isograds from grade samples, with misfits, fault offsets and paleo-gradients', async () => (await import('./isograds.ts')).isograds);

@@ -1,0 +1,156 @@
+/**
+ * `subtherm isograds`: isograd lines from graded samples (indicator surfaces honouring fault barriers), the fault
+ * report (grade jump, missing and repeated zones, apparent separations), misfits and paleo-gradients
+ * (DESIGN.md §4). Writes the lines as GeoJSON with the caution and provenance (tool version, method, input sha256).
+ */
+import { readFile, writeFile } from 'node:fs/promises';
+import { createHash } from 'node:crypto';
+import { InputError } from '../../shared/errors.ts';
+import { parseFeatureCollection, type FaultCollection, type SampleCollection } from '../../shared/schema/features.ts';
+import { parseThermalModel } from '../../shared/schema/model.ts';
+import { compileModel, nominalModel, type CompiledModel } from '../../shared/thermal/index.ts';
+import { isogradLayer, DEFAULT_PALEO_DENSITY_KG_M3 } from '../../shared/structure/index.ts';
+import { numberOption, parseVerbArgs } from './args.ts';
+
+const HELP = `subtherm isograds --samples S.geojson [options] --out I.geojson [--json]
+
+Isograds from grade samples (zone, facies or peak P–T), with a fault report (screening estimate).
+  --samples FILE            grade samples, GeoJSON Points (required)
+  --faults FILE             fault traces, GeoJSON LineStrings: barriers, and one report per fault
+  --model FILE              thermal model JSON: today's geotherm for the paleo-gradient comparison
+  --heat-flow Q             surface heat flow for that geotherm, mW/m² (default: the model's)
+  --fault-distance-km D     samples within D km of a fault count for its report (default 10)
+  --cell-km C               indicator grid cell, km (default 1)
+  --support-km S            draw lines only within S km of a sample (default 2.5 × median sample spacing)
+  --neighbors K             nearest samples per estimate (default 12)
+  --power P                 inverse-distance power (default 2)
+  --density-kg-m3 RHO       overburden density for depth from peak pressure (default ${DEFAULT_PALEO_DENSITY_KG_M3})
+  --out FILE                write the isograd lines (GeoJSON) here
+  --json                    print one JSON object
+`;
+
+const sha256 = (b: Buffer) => createHash('sha256').update(b).digest('hex');
+
+async function readJson(path: string, field: string): Promise<{ raw: unknown; hash: string }> {
+  let b: Buffer;
+  try {
+    b = await readFile(path);
+  } catch (e) {
+    throw new InputError(`cannot read ${field} file ${path}: ${(e as Error).message}`, [{ field, problem: `file ${path} cannot be read` }], 'bad_file');
+  }
+  try {
+    return { raw: JSON.parse(b.toString('utf8')), hash: sha256(b) };
+  } catch (e) {
+    throw new InputError(`${path}: not valid JSON: ${(e as Error).message}`, [{ field, problem: 'not valid JSON' }], 'bad_file');
+  }
+}
+
+/** Re-throws an InputError with the file name in front of its message. */
+function inFile<T>(path: string, f: () => T): T {
+  try {
+    return f();
+  } catch (e) {
+    if (e instanceof InputError) throw new InputError(`${path}: ${e.message}`, e.details, e.code, e.status);
+    throw e;
+  }
+}
+
+const r3 = (v: number | null) => (v === null || !Number.isFinite(v) ? null : Math.round(v * 1000) / 1000);
+
+export async function isograds(argv: string[]): Promise<number> {
+  const { values: v } = parseVerbArgs('isograds', argv, {
+    samples: { type: 'string' },
+    faults: { type: 'string' },
+    model: { type: 'string' },
+    'heat-flow': { type: 'string' },
+    'fault-distance-km': { type: 'string' },
+    'cell-km': { type: 'string' },
+    'support-km': { type: 'string' },
+    neighbors: { type: 'string' },
+    power: { type: 'string' },
+    'density-kg-m3': { type: 'string' },
+    out: { type: 'string' },
+  });
+  if (v.help) {
+    process.stdout.write(HELP);
+    return 0;
+  }
+  const bad = (field: string, problem: string) => new InputError(`--${field}: ${problem}`, [{ field, problem }], 'bad_option');
+  if (v.samples === undefined) throw bad('samples', 'missing: give --samples S.geojson');
+  const faultDistanceKm = numberOption('fault-distance-km', v['fault-distance-km'] as string | undefined, 10);
+  if (!(faultDistanceKm > 0)) throw bad('fault-distance-km', `must be > 0 km, got ${faultDistanceKm}`);
+  const cellKm = numberOption('cell-km', v['cell-km'] as string | undefined, 1);
+  if (!(cellKm > 0)) throw bad('cell-km', `must be > 0 km, got ${cellKm}`);
+  const supportKm = v['support-km'] === undefined ? undefined : numberOption('support-km', v['support-km'] as string);
+  if (supportKm !== undefined && !(supportKm > 0)) throw bad('support-km', `must be > 0 km, got ${supportKm}`);
+  const neighbors = numberOption('neighbors', v.neighbors as string | undefined, 12);
+  if (!(Number.isInteger(neighbors) && neighbors >= 1 && neighbors <= 1000)) throw bad('neighbors', `must be an integer from 1 to 1000, got ${neighbors}`);
+  const power = numberOption('power', v.power as string | undefined, 2);
+  if (!(power > 0 && power <= 10)) throw bad('power', `must be in (0, 10], got ${power}`);
+  const density = numberOption('density-kg-m3', v['density-kg-m3'] as string | undefined, DEFAULT_PALEO_DENSITY_KG_M3);
+  if (!(density >= 1000 && density <= 4000)) throw bad('density-kg-m3', `must be within 1000–4000 kg/m³, got ${density}`);
+  const heatFlow = v['heat-flow'] === undefined ? undefined : numberOption('heat-flow', v['heat-flow'] as string);
+  if (heatFlow !== undefined && !(heatFlow > 0)) throw bad('heat-flow', `must be > 0 mW/m², got ${heatFlow}`);
+
+  const samplesPath = v.samples as string;
+  const s = await readJson(samplesPath, 'samples');
+  const hashes: Record<string, string> = { samples: s.hash };
+  const warnings: string[] = [];
+  const sp = inFile(samplesPath, () => parseFeatureCollection('samples', s.raw));
+  warnings.push(...sp.warnings.map((w) => `${samplesPath}: ${w}`));
+  let faults: FaultCollection | null = null;
+  if (v.faults !== undefined) {
+    const f = await readJson(v.faults as string, 'faults');
+    hashes.faults = f.hash;
+    const fp = inFile(v.faults as string, () => parseFeatureCollection('faults', f.raw));
+    warnings.push(...fp.warnings.map((w) => `${v.faults}: ${w}`));
+    faults = fp.collection as FaultCollection;
+  }
+  let model: CompiledModel | null = null;
+  if (v.model !== undefined) {
+    const m = await readJson(v.model as string, 'model');
+    hashes.model = m.hash;
+    const parsed = parseThermalModel(m.raw, v.model as string);
+    const nominal = nominalModel(parsed);
+    const q0 = heatFlow ?? nominal.surfaceHeatFlowMWm2;
+    if (q0 === undefined) throw new InputError(`${v.model}: no surface heat flow`, [{ feature: 'model', field: 'surfaceHeatFlowMWm2', problem: 'missing: put it in the model or give --heat-flow' }], 'invalid_model');
+    model = compileModel(nominal, { maxDepthKm: 100 });
+  } else if (heatFlow !== undefined) warnings.push('--heat-flow has no effect without --model');
+
+  const layer = inFile(samplesPath, () => isogradLayer(sp.collection as SampleCollection, faults, {
+    cellKm, supportKm, neighbors, power, faultDistanceKm, model, heatFlowMWm2: heatFlow, paleo: { densityKgM3: density },
+  }));
+  const rep = layer.report;
+  warnings.push(...rep.warnings);
+  const files: string[] = [];
+  if (v.out !== undefined) {
+    const out = { ...layer.lines, provenance: { ...layer.lines.provenance, inputs: hashes, faultDistanceKm, densityKgM3: density, createdBy: 'isograds' } };
+    await writeFile(v.out as string, JSON.stringify(out) + '\n');
+    files.push(v.out as string);
+  }
+  const result = {
+    isograds: rep.isograds,
+    faults: rep.faults.map((f) => ({
+      id: f.id, name: f.name, kind: f.kind, gradeJump: f.gradeJump, missingZones: f.missingZones, higherSide: f.higherSide,
+      higherWall: f.higherWall, hangingWall: f.hangingWall, repeatedZones: f.repeatedZones,
+      separations: f.separations.map((q) => ({ isograd: q.isograd, separationKm: r3(q.separationKm), leftAlongKm: r3(q.leftAlongKm), rightAlongKm: r3(q.rightAlongKm) })),
+      traceJump: { median: f.traceJump.median, mean: r3(f.traceJump.mean), stations: f.traceJump.stations },
+      sides: f.sides, missingZoneDetails: f.missingZoneDetails, lengthKm: r3(f.lengthKm), strikeDeg: r3(f.strikeDeg),
+    })),
+    misfits: rep.misfits.map((m) => ({ ...m, distanceKm: r3(m.distanceKm) })),
+    paleoGradients: rep.paleoGradients.map((p) => ({ ...p, depthKm: r3(p.depthKm), apparentGradientCPerKm: r3(p.apparentGradientCPerKm), modelDepthKm: r3(p.modelDepthKm), todayDepthKm: r3(p.todayDepthKm) })),
+    method: rep.method, samples: rep.samples, droppedLoops: rep.droppedLoops, inputs: hashes, files, warnings,
+    caution: layer.lines.caution,
+  };
+  if (v.json) process.stdout.write(JSON.stringify(result) + '\n');
+  else {
+    const lines = [`isograds: ${rep.isograds.map((i) => `${i.isograd} ${i.lines} line(s), ${i.lengthKm} km`).join('; ')}`];
+    for (const f of result.faults) lines.push(`fault ${f.id}: jump ${f.gradeJump ?? '–'} (higher: ${f.higherSide ?? '–'}), missing: ${f.missingZones.join(', ') || 'none'}, separations: ${f.separations.map((q) => `${q.isograd} ${q.separationKm} km`).join(', ') || 'none'}`);
+    lines.push(`misfits: ${result.misfits.length}; paleo-gradients: ${result.paleoGradients.length}`);
+    for (const w of warnings) lines.push(`warning: ${w}`);
+    if (files.length > 0) lines.push(`wrote ${files.join(', ')}`);
+    lines.push(layer.lines.caution);
+    process.stdout.write(lines.join('\n') + '\n');
+  }
+  return 0;
+}

@@ -1,0 +1,218 @@
+/**
+ * Isograds from graded samples in the local km frame: the five indicator surfaces (indicator.ts) on a grid, each
+ * surface's 0.5 contour traced into oriented lines (isolines.ts; higher grade on the right), clipped to where
+ * samples support them (cells farther than `supportKm` from the nearest visible sample are no data) and cut
+ * where the grid edge between two cell centres crosses a fault (no line is drawn across or along a fault).
+ * Closed loops around one or two samples that their neighbours contradict (leave-one-out misfits, misfits.ts)
+ * are dropped as single-sample artefacts of an exact interpolator and reported instead.
+ */
+import { InputError } from '../errors.ts';
+import { ZONE_NAMES } from '../petrology/index.ts';
+import { BOUNDARY_COUNT, IndicatorField, type LocalGrid } from './indicator.ts';
+import { traceIsolines } from './isolines.ts';
+import { leaveOneOut, type LeaveOneOut } from './misfits.ts';
+import type { SampleGrade } from './grade.ts';
+
+export interface IsogradGridOptions {
+  /** Grid cell, km (default 1). */
+  cellKm?: number;
+  /** Grid size [columns, rows] instead of the data envelope (the cell is kept). */
+  gridSize?: [number, number];
+  /** IDW power (default 2) and neighbours (default 12). */
+  power?: number;
+  neighbors?: number;
+  /** Lines are drawn only where the nearest visible sample is within this distance, km (default: see `defaultSupportKm`). */
+  supportKm?: number;
+  /** Radius for the support counts on each line, km (default 5). */
+  supportRadiusKm?: number;
+  /** Drop closed loops around one or two contradicted samples (default true). */
+  dropIsolatedLoops?: boolean;
+  /** Largest grid, cells (default 4,000,000). */
+  maxCells?: number;
+}
+
+export interface IsogradLineKm {
+  /** Rank of the zone the isograd opens (1 = biotite … 5 = sillimanite). */
+  rank: number;
+  mineral: string;
+  /** e.g. "garnet-in". */
+  isograd: string;
+  /** Vertices, flat [x, y, ...] local km; the higher grade is on the right. */
+  coords: Float64Array;
+  closed: boolean;
+  lengthKm: number;
+  support: { radiusKm: number; samplesNearMidpoint: number; meanSamplesPerVertex: number; minSamplesPerVertex: number };
+}
+
+export interface IsogradResultKm {
+  grid: LocalGrid;
+  field: IndicatorField;
+  /** Indicator grids, boundary-major (see IndicatorField.grid), unsupported cells NaN. */
+  indicators: Float32Array;
+  nearestKm: Float32Array;
+  supportKm: number;
+  lines: IsogradLineKm[];
+  loo: LeaveOneOut;
+  droppedLoops: { isograd: string; samples: string[] }[];
+  warnings: string[];
+  timingsMs: Record<string, number>;
+}
+
+/** Name of the isograd opening rank j ("garnet-in"). */
+export function isogradName(rank: number): string {
+  return `${ZONE_NAMES[rank]}-in`;
+}
+
+/** Median distance (km) from each point to its nearest other point. */
+export function medianSpacingKm(field: IndicatorField): number {
+  const n = field.count;
+  if (n < 2) return NaN;
+  const ids = new Int32Array(2), d2 = new Float64Array(2);
+  const d = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const m = field.index.nearest(field.x[i], field.y[i], 1, Infinity, ids, d2, null, i);
+    d[i] = m > 0 ? Math.sqrt(d2[0]) : NaN;
+  }
+  d.sort();
+  return d[Math.floor((n - 1) / 2)];
+}
+
+/**
+ * Default support distance (km): 2.5 × the median nearest-neighbour spacing of the samples, at least two cells —
+ * a project choice: far enough to join samples along a traverse, near enough not to draw lines into empty ground.
+ */
+export function defaultSupportKm(field: IndicatorField, cellKm: number): number {
+  const s = medianSpacingKm(field);
+  return Math.max(2 * cellKm, Number.isFinite(s) ? 2.5 * s : 0);
+}
+
+const now = () => (typeof performance !== 'undefined' ? performance.now() : Date.now());
+
+function pointInRing(c: Float64Array, x: number, y: number): boolean {
+  let inside = false;
+  const n = c.length / 2;
+  for (let i = 0, j = n - 1; i < n; j = i++) {
+    const xi = c[2 * i], yi = c[2 * i + 1], xj = c[2 * j], yj = c[2 * j + 1];
+    if (yi > y !== yj > y && x < ((xj - xi) * (y - yi)) / (yj - yi) + xi) inside = !inside;
+  }
+  return inside;
+}
+
+function lineLength(c: Float64Array): number {
+  let s = 0;
+  for (let i = 2; i < c.length; i += 2) s += Math.hypot(c[i] - c[i - 2], c[i + 1] - c[i - 1]);
+  return s;
+}
+
+/** Point at half the length of a polyline. */
+function midpoint(c: Float64Array): [number, number] {
+  const half = lineLength(c) / 2;
+  let s = 0;
+  for (let i = 2; i < c.length; i += 2) {
+    const l = Math.hypot(c[i] - c[i - 2], c[i + 1] - c[i - 1]);
+    if (s + l >= half && l > 0) { const u = (half - s) / l; return [c[i - 2] + u * (c[i] - c[i - 2]), c[i - 1] + u * (c[i + 1] - c[i - 1])]; }
+    s += l;
+  }
+  return [c[0], c[1]];
+}
+
+/**
+ * Isograds of graded samples at local km positions (x, y), with fault pieces (x1, y1, x2, y2 km) as barriers.
+ * Returns the lines in local km plus the grids, the indicator field and the leave-one-out predictions.
+ */
+export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: readonly SampleGrade[], faults: Float64Array | null, opts: IsogradGridOptions = {}): IsogradResultKm {
+  const t0 = now();
+  const warnings: string[] = [];
+  const cellKm = opts.cellKm ?? 1;
+  if (!(cellKm > 0 && Number.isFinite(cellKm))) throw new InputError(`cell size must be > 0 km, got ${cellKm}`, [{ field: 'cell-km', problem: 'expected a positive number of km' }], 'bad_option');
+  const lo = Int8Array.from(grades, (g) => g.lo), hi = Int8Array.from(grades, (g) => g.hi);
+  const field = new IndicatorField(x, y, lo, hi, { power: opts.power, neighbors: opts.neighbors, faults });
+  if (field.count < 2) throw new InputError(`isograds need at least two samples with zone information, got ${field.count}`, [{ field: 'samples', problem: 'give samples with a zone, a facies on the Barrovian sequence, or peak P–T' }], 'too_few_points');
+  const supportKm = opts.supportKm ?? defaultSupportKm(field, cellKm);
+  if (!(supportKm > 0)) throw new InputError(`support distance must be > 0 km, got ${supportKm}`, [{ field: 'support-km', problem: 'expected > 0' }], 'bad_option');
+
+  // Grid over the samples' envelope padded by the support distance.
+  let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
+  for (let i = 0; i < field.count; i++) { x0 = Math.min(x0, field.x[i]); x1 = Math.max(x1, field.x[i]); y0 = Math.min(y0, field.y[i]); y1 = Math.max(y1, field.y[i]); }
+  let width: number, height: number;
+  if (opts.gridSize !== undefined) {
+    [width, height] = opts.gridSize;
+    const cx = (x0 + x1) / 2, cy = (y0 + y1) / 2;
+    x0 = cx - ((width - 1) * cellKm) / 2; y0 = cy - ((height - 1) * cellKm) / 2;
+  } else {
+    x0 -= supportKm; y0 -= supportKm; x1 += supportKm; y1 += supportKm;
+    width = Math.max(2, Math.ceil((x1 - x0) / cellKm) + 1);
+    height = Math.max(2, Math.ceil((y1 - y0) / cellKm) + 1);
+  }
+  const maxCells = opts.maxCells ?? 4_000_000;
+  if (!(Number.isInteger(width) && width >= 2 && Number.isInteger(height) && height >= 2)) throw new InputError(`grid size must be whole numbers ≥ 2, got ${width} × ${height}`, [{ field: 'grid-size', problem: 'expected e.g. 500x500' }], 'bad_option');
+  if (width * height > maxCells) throw new InputError(`the isograd grid would have ${(width * height).toLocaleString('en')} cells (${width} × ${height}), above the limit of ${maxCells.toLocaleString('en')}`, [{ field: 'cell-km', problem: 'use a larger cell' }], 'grid_too_large');
+  const grid: LocalGrid = { x0, y0, cellKm, width, height };
+  const N = width * height;
+
+  const indicators = new Float32Array(BOUNDARY_COUNT * N);
+  const nearestKm = new Float32Array(N);
+  let faultDist: Float32Array | undefined;
+  if (field.barrier !== null) { faultDist = new Float32Array(N); field.faultDistanceGrid(grid, field.faultCapKm(grid), faultDist); }
+  const t1 = now();
+  field.grid(grid, indicators, nearestKm, faultDist);
+  const t2 = now();
+
+  // Edges crossing a fault (only near one: within 1.5 cells).
+  let blocked: Uint8Array | null = null;
+  if (field.barrier !== null && faultDist !== undefined) {
+    blocked = new Uint8Array(2 * N);
+    const b = field.barrier;
+    for (let r = 0; r < height; r++) {
+      for (let c = 0; c < width; c++) {
+        const i = r * width + c;
+        if (!(faultDist[i] <= 1.5 * cellKm)) continue;
+        const px = x0 + c * cellKm, py = y0 + r * cellKm;
+        if (c + 1 < width && b.blocks(px, py, px + cellKm, py)) blocked[2 * i] = 1;
+        if (r + 1 < height && b.blocks(px, py, px, py + cellKm)) blocked[2 * i + 1] = 1;
+      }
+    }
+  }
+  // Unsupported cells are no data.
+  for (let i = 0; i < N; i++) if (!(nearestKm[i] <= supportKm)) for (let j = 0; j < BOUNDARY_COUNT; j++) indicators[j * N + i] = NaN;
+
+  const loo = leaveOneOut(field);
+  const t3 = now();
+  const radiusKm = opts.supportRadiusKm ?? 5;
+  const found: number[] = [];
+  const countNear = (px: number, py: number) => { found.length = 0; return field.index.within(px, py, radiusKm, found); };
+  const lines: IsogradLineKm[] = [];
+  const droppedLoops: { isograd: string; samples: string[] }[] = [];
+  const dropLoops = opts.dropIsolatedLoops ?? true;
+  for (let j = 1; j <= BOUNDARY_COUNT; j++) {
+    const iso = traceIsolines(indicators, grid, 0.5, blocked, (j - 1) * N);
+    for (const l of iso) {
+      if (l.closed && dropLoops) {
+        // Samples inside the loop (bounding box first).
+        let bx0 = Infinity, bx1 = -Infinity, by0 = Infinity, by1 = -Infinity;
+        for (let t = 0; t < l.coords.length; t += 2) { bx0 = Math.min(bx0, l.coords[t]); bx1 = Math.max(bx1, l.coords[t]); by0 = Math.min(by0, l.coords[t + 1]); by1 = Math.max(by1, l.coords[t + 1]); }
+        const inside: number[] = [];
+        for (let i = 0; i < field.count && inside.length <= 2; i++) {
+          const px = field.x[i], py = field.y[i];
+          if (px >= bx0 && px <= bx1 && py >= by0 && py <= by1 && pointInRing(l.coords, px, py)) inside.push(i);
+        }
+        if (inside.length >= 1 && inside.length <= 2 && inside.every((i) => loo.contradicts(i, j))) {
+          droppedLoops.push({ isograd: isogradName(j), samples: inside.map((i) => grades[field.source[i]].id) });
+          continue;
+        }
+      }
+      const c = l.coords;
+      const [mx, my] = midpoint(c);
+      let sum = 0, min = Infinity, nv = 0;
+      const step = Math.max(1, Math.round(2 / cellKm)); // a vertex about every 2 km
+      for (let t = 0; t < c.length / 2; t += step) { const k = countNear(c[2 * t], c[2 * t + 1]); sum += k; min = Math.min(min, k); nv++; }
+      lines.push({
+        rank: j, mineral: ZONE_NAMES[j], isograd: isogradName(j), coords: c, closed: l.closed, lengthKm: lineLength(c),
+        support: { radiusKm, samplesNearMidpoint: countNear(mx, my), meanSamplesPerVertex: nv > 0 ? sum / nv : 0, minSamplesPerVertex: nv > 0 ? min : 0 },
+      });
+    }
+  }
+  if (droppedLoops.length > 0) warnings.push(`${droppedLoops.length} closed loop(s) around single contradicted samples were not drawn (the samples are listed as misfits)`);
+  const t4 = now();
+  return { grid, field, indicators, nearestKm, supportKm, lines, loo, droppedLoops, warnings, timingsMs: { setup: t1 - t0, indicatorGrids: t2 - t1, leaveOneOut: t3 - t2, lines: t4 - t3 } };
+}

@@ -1,0 +1,182 @@
+/**
+ * The isograd layer: validated grade samples and fault traces (GeoJSON, WGS84 lon/lat) in, isograd lines
+ * (GeoJSON LineStrings, higher grade on the right of each line) and the report (isograds, fault report,
+ * misfits, paleo-gradients) out. All work happens in the interpolation engine's local transverse Mercator frame
+ * centred on the samples (shared/interp/projection.ts); distances are km.
+ */
+import { CAUTION } from '../caution.ts';
+import { InputError, type InputProblem } from '../errors.ts';
+import { ZONE_NAMES } from '../petrology/index.ts';
+import type { FaultCollection, SampleCollection } from '../schema/features.ts';
+import type { CompiledModel } from '../thermal/index.ts';
+import { TOOL_NAME, VERSION } from '../version.ts';
+import { converter, localProjectionFor, lonLatToLocalKm, WGS84_DEF } from '../interp/projection.ts';
+import { sampleGrades, type SampleGrade } from './grade.ts';
+import { BOUNDARY_COUNT } from './indicator.ts';
+import { computeIsogradsKm, type IsogradGridOptions } from './isograds.ts';
+import { findMisfits, type Misfit } from './misfits.ts';
+import { faultReport, type FaultReport } from './fault-report.ts';
+import { buildTrace, tracePieces, type Trace } from './trace.ts';
+import { paleoGradients, type PaleoGradient, type PaleoOptions } from './paleo.ts';
+
+export interface IsogradLayerOptions extends IsogradGridOptions {
+  /** Samples within this distance of a fault count for its report, km (default 10). */
+  faultDistanceKm?: number;
+  /** Station spacing along fault traces, km (default: half the cell, at most 0.5). */
+  stationKm?: number;
+  maxSeparationKm?: number;
+  /** Support distance for stations along fault traces, km (default: the larger of supportKm and 1.5 × faultDistanceKm). */
+  stationSupportKm?: number;
+  /** A sample is a misfit when its own zone's leave-one-out probability is below this (default 0.3). */
+  misfitProbability?: number;
+  /** Paleo-gradient options (density, model, heat flow). */
+  paleo?: PaleoOptions;
+  /** Thermal model for today's geotherm (compiled); same as paleo.model. */
+  model?: CompiledModel | null;
+  heatFlowMWm2?: number;
+}
+
+export interface IsogradSummary {
+  isograd: string;
+  mineral: string;
+  rank: number;
+  lines: number;
+  lengthKm: number;
+  /** Samples decided at or above / below this isograd. */
+  samplesAbove: number;
+  samplesBelow: number;
+}
+
+export interface IsogradReport {
+  isograds: IsogradSummary[];
+  faults: FaultReport[];
+  misfits: Misfit[];
+  paleoGradients: PaleoGradient[];
+  method: {
+    indicator: string;
+    power: number;
+    neighbors: number;
+    cellKm: number;
+    grid: { width: number; height: number };
+    supportKm: number;
+    faultBarriers: boolean;
+    projection: string;
+    highSide: 'right';
+    gradeRules: string;
+  };
+  samples: { total: number; zone: number; facies: number; peak: number; none: number };
+  droppedLoops: { isograd: string; samples: string[] }[];
+  warnings: string[];
+  timingsMs: Record<string, number>;
+}
+
+export interface IsogradLayer {
+  lines: { type: 'FeatureCollection'; caution: string; provenance: Record<string, unknown>; features: { type: 'Feature'; geometry: { type: 'LineString'; coordinates: number[][] }; properties: Record<string, unknown> }[] };
+  report: IsogradReport;
+}
+
+const r6 = (v: number) => Math.round(v * 1e6) / 1e6;
+const r3 = (v: number) => Math.round(v * 1e3) / 1e3;
+
+/** Fault traces of a fault collection in the local frame; problems (zero length, bad vertices) are an InputError. */
+export function faultTraces(faults: FaultCollection, toLocal: (p: [number, number]) => [number, number], warnings: string[]): { traces: Trace[]; info: FaultCollection['features'] } {
+  const problems: InputProblem[] = [];
+  const traces: Trace[] = [];
+  faults.features.forEach((f, i) => {
+    const id = String(f.properties.id ?? f.id ?? `faults-${i + 1}`);
+    const label = `${i} (${id})`;
+    const g = f.geometry as { type: string; coordinates: number[][] | number[][][] };
+    const parts = g.type === 'LineString' ? [g.coordinates as number[][]] : (g.coordinates as number[][][]);
+    if (!Array.isArray(parts) || parts.some((p) => !Array.isArray(p) || p.length < 2)) {
+      problems.push({ feature: label, field: 'geometry.coordinates', problem: 'a fault trace needs at least two vertices' });
+      return;
+    }
+    const local = parts.map((p) => p.map((q) => toLocal([q[0], q[1]])));
+    const b = buildTrace(id, local);
+    for (const p of b.problems) problems.push({ feature: label, field: 'geometry.coordinates', problem: p });
+    for (const w of b.warnings) warnings.push(`fault ${label}: ${w}`);
+    if (b.problems.length === 0) traces.push(b.trace);
+  });
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in the faults; first: fault ${problems[0].feature}: ${problems[0].problem}`, problems, 'invalid_features', 422);
+  return { traces, info: faults.features };
+}
+
+/**
+ * Isograd lines and the structural report from grade samples and (optionally) fault traces. Samples and faults
+ * must be validated collections (parseFeatureCollection 'samples' / 'faults'); unknown zone or facies names throw
+ * an InputError with the nearest valid name.
+ */
+export function isogradLayer(samples: SampleCollection, faults: FaultCollection | null, opts: IsogradLayerOptions = {}): IsogradLayer {
+  const warnings: string[] = [];
+  const feats = samples.features;
+  const n = feats.length;
+  const lon = new Float64Array(n), lat = new Float64Array(n);
+  feats.forEach((f, i) => { lon[i] = f.geometry.coordinates[0]; lat[i] = f.geometry.coordinates[1]; });
+  const props = feats.map((f, i) => ({ ...f.properties, id: String(f.properties.id ?? f.id ?? `samples-${i + 1}`) }));
+  const grades: SampleGrade[] = sampleGrades(props, warnings);
+  const proj = localProjectionFor(lon, lat);
+  const x = new Float64Array(n), y = new Float64Array(n);
+  lonLatToLocalKm(proj, lon, lat, x, y);
+  const conv = converter(WGS84_DEF, proj.def);
+
+  let traces: Trace[] = [];
+  let info: FaultCollection['features'] = [];
+  if (faults !== null && faults.features.length > 0) ({ traces, info } = faultTraces(faults, (p) => conv.forward(p), warnings));
+  const pieces = traces.length > 0 ? tracePieces(traces) : null;
+
+  const res = computeIsogradsKm(x, y, grades, pieces, opts);
+  warnings.push(...res.warnings);
+  const misfits = findMisfits(res.field, res.loo, grades, res.lines, opts.misfitProbability);
+
+  const stationKm = opts.stationKm ?? Math.min(0.5, res.grid.cellKm / 2);
+  const reports: FaultReport[] = traces.map((t, k) => {
+    const p = info[k].properties;
+    const r = faultReport({ trace: t, name: p.name, kind: p.kind, dipDeg: p.dipDeg, dipDirectionDeg: p.dipDirectionDeg }, res.field, {
+      faultDistanceKm: opts.faultDistanceKm, stationKm, supportKm: res.supportKm, maxSeparationKm: opts.maxSeparationKm, stationSupportKm: opts.stationSupportKm,
+    });
+    for (const w of r.warnings) warnings.push(`fault ${t.id}: ${w}`);
+    return r;
+  });
+
+  const paleo = paleoGradients(props, { ...(opts.paleo ?? {}), model: opts.model ?? opts.paleo?.model ?? null, heatFlowMWm2: opts.heatFlowMWm2 ?? opts.paleo?.heatFlowMWm2 });
+
+  const features: IsogradLayer['lines']['features'] = res.lines.map((l) => {
+    const coordinates: number[][] = [];
+    for (let i = 0; i < l.coords.length; i += 2) {
+      const q = conv.inverse([l.coords[i], l.coords[i + 1]]);
+      coordinates.push([r6(q[0]), r6(q[1])]);
+    }
+    return {
+      type: 'Feature',
+      geometry: { type: 'LineString', coordinates },
+      properties: {
+        isograd: l.isograd, mineral: l.mineral, rank: l.rank, highSide: 'right', closed: l.closed, lengthKm: r3(l.lengthKm),
+        supportRadiusKm: l.support.radiusKm, samplesNearMidpoint: l.support.samplesNearMidpoint,
+        meanSamplesPerVertex: r3(l.support.meanSamplesPerVertex), minSamplesPerVertex: l.support.minSamplesPerVertex,
+      },
+    };
+  });
+
+  const isograds: IsogradSummary[] = [];
+  for (let j = 1; j <= BOUNDARY_COUNT; j++) {
+    const ls = res.lines.filter((l) => l.rank === j);
+    let above = 0, below = 0;
+    for (const g of grades) { if (g.lo < 0) continue; if (g.lo >= j) above++; else if (g.hi < j) below++; }
+    isograds.push({ isograd: `${ZONE_NAMES[j]}-in`, mineral: ZONE_NAMES[j], rank: j, lines: ls.length, lengthKm: r3(ls.reduce((s, l) => s + l.lengthKm, 0)), samplesAbove: above, samplesBelow: below });
+  }
+  const count = (s: string) => grades.filter((g) => g.source === s).length;
+  const power = opts.power ?? 2, neighbors = opts.neighbors ?? 12;
+  const report: IsogradReport = {
+    isograds, faults: reports, misfits, paleoGradients: paleo,
+    method: {
+      indicator: `indicator inverse-distance weighting (Shepard 1968), power ${power}, ${neighbors} nearest visible samples; isograd = 0.5 contour (marching squares)`,
+      power, neighbors, cellKm: res.grid.cellKm, grid: { width: res.grid.width, height: res.grid.height }, supportKm: r3(res.supportKm),
+      faultBarriers: pieces !== null, projection: proj.def, highSide: 'right',
+      gradeRules: 'zone → its rank; facies only → ranks whose isograd midpoint temperature lies in the facies field\'s span; peak T–P only → ranks between the isograd temperature ranges certainly and possibly crossed; partial samples inform only the isograds they decide',
+    },
+    samples: { total: n, zone: count('zone'), facies: count('facies'), peak: count('peak'), none: count('none') },
+    droppedLoops: res.droppedLoops, warnings, timingsMs: res.timingsMs,
+  };
+  const provenance = { tool: TOOL_NAME, version: VERSION, method: report.method.indicator, highSide: 'right', cellKm: res.grid.cellKm, supportKm: r3(res.supportKm) };
+  return { lines: { type: 'FeatureCollection', caution: CAUTION, provenance, features }, report };
+}

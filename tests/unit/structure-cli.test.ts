@@ -1,0 +1,57 @@
+import { describe, it, expect, beforeAll, afterAll } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { createHash } from 'node:crypto';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+
+let dir = '';
+beforeAll(() => { dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'structure-cli-')); });
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+const run = (args: string[]) => spawnSync(process.execPath, ['bin/subtherm.mjs', 'isograds', ...args], { encoding: 'utf8', timeout: 60_000 });
+
+describe('subtherm isograds (child process)', () => {
+  it('writes the lines with caution and provenance and prints the report', () => {
+    const out = join(dir, 'i.geojson');
+    const r = run(['--samples', 'fixtures/demo/samples.geojson', '--faults', 'fixtures/demo/faults.geojson', '--model', 'fixtures/demo/model.json', '--out', out, '--json']);
+    expect(r.status, r.stderr).toBe(0);
+    const lines = r.stdout.trim().split('\n');
+    expect(lines.length).toBe(1);
+    const j = JSON.parse(lines[0]);
+    expect(j.isograds.map((i: { isograd: string }) => i.isograd)).toEqual(['biotite-in', 'garnet-in', 'staurolite-in', 'kyanite-in', 'sillimanite-in']);
+    const f1 = j.faults.find((f: { id: string }) => f.id === 'F1');
+    expect(Object.keys(f1)).toEqual(expect.arrayContaining(['id', 'gradeJump', 'missingZones', 'higherSide', 'separations']));
+    expect(f1.missingZones).toContain('sillimanite');
+    expect(Array.isArray(j.misfits) && Array.isArray(j.paleoGradients)).toBe(true);
+    // With the demo model: today's depth to each sample's peak temperature is given.
+    expect(j.paleoGradients.some((p: { todayDepthKm: number | null }) => p.todayDepthKm !== null)).toBe(true);
+    const geo = JSON.parse(readFileSync(out, 'utf8'));
+    expect(geo.type).toBe('FeatureCollection');
+    expect(geo.caution).toMatch(/Screening estimates only/);
+    expect(geo.provenance.version).toMatch(/^\d+\.\d+\.\d+$/);
+    expect(geo.provenance.method).toMatch(/inverse-distance/);
+    const sha = createHash('sha256').update(readFileSync('fixtures/demo/samples.geojson')).digest('hex');
+    expect(geo.provenance.inputs.samples).toBe(sha);
+    expect(geo.features.length).toBeGreaterThan(10);
+  });
+
+  it('an unknown zone name exits 2 with the suggestion, no stack trace', () => {
+    const bad = join(dir, 'bad.geojson');
+    writeFileSync(bad, JSON.stringify({ type: 'FeatureCollection', features: [
+      { type: 'Feature', geometry: { type: 'Point', coordinates: [-128, -38] }, properties: { id: 'G1', zone: 'biotite' } },
+      { type: 'Feature', geometry: { type: 'Point', coordinates: [-127.9, -38] }, properties: { id: 'G2', zone: 'garnett' } },
+    ] }));
+    const r = run(['--samples', bad, '--out', join(dir, 'x.geojson')]);
+    expect(r.status).toBe(2);
+    expect(r.stderr).toContain("unknown zone 'garnett' (did you mean 'garnet'?)");
+    expect(r.stderr).toContain('1 (G2)');
+    expect(r.stderr).not.toMatch(/at .*\.ts:\d+/);
+  });
+
+  it('a bad option exits 2 naming it', () => {
+    const r = run(['--samples', 'fixtures/demo/samples.geojson', '--cell-km', '0']);
+    expect(r.status).toBe(2);
+    expect(r.stderr).toContain('--cell-km');
+  });
+});

@@ -1,0 +1,117 @@
+import { describe, it, expect, beforeAll } from 'vitest';
+import { readFileSync } from 'node:fs';
+import { parseFeatureCollection, type SampleCollection, type FaultCollection } from '../../shared/schema/features.ts';
+import { isogradLayer, type IsogradLayer } from '../../shared/structure/index.ts';
+import { DOME, ZONE_IN_C, kmFromLonLat, truePeakTemperatureC } from '../../fixtures/field.ts';
+
+// The demo region's truth (fixtures/truth.json, fixtures/field.ts: invented data). About 217 samples over an
+// 85-km dome, four traverses plus scattered samples: the tolerances below are what the method achieves there.
+const truth = JSON.parse(readFileSync('fixtures/truth.json', 'utf8'));
+let L: IsogradLayer;
+beforeAll(() => {
+  const s = parseFeatureCollection('samples', JSON.parse(readFileSync('fixtures/demo/samples.geojson', 'utf8'))).collection as SampleCollection;
+  const f = parseFeatureCollection('faults', JSON.parse(readFileSync('fixtures/demo/faults.geojson', 'utf8'))).collection as FaultCollection;
+  L = isogradLayer(s, f, {});
+});
+
+describe('demo region: isograd positions', () => {
+  it('each isograd lies within a few km of the truth (median error per isograd)', () => {
+    // Error of a vertex, km: |T_true − T_isograd| / (5 °C/km), the dome's radial fall of peak temperature. Away from
+    // the faults this is the radial distance to the truth circle (fixtures/truth.json dome.isogradRadiiKm); it also
+    // follows the faults' built-in shifts (F1 hanging wall 6 km inwards, the F2 sheet 12 km outwards).
+    const limits: Record<string, number> = { 'biotite-in': 2.5, 'garnet-in': 2.5, 'staurolite-in': 2, 'kyanite-in': 1.5, 'sillimanite-in': 1.5 };
+    for (const [name, limit] of Object.entries(limits)) {
+      const rank = ['biotite-in', 'garnet-in', 'staurolite-in', 'kyanite-in', 'sillimanite-in'].indexOf(name) + 1;
+      const e: number[] = [];
+      for (const ft of L.lines.features.filter((q) => q.properties.isograd === name)) {
+        for (const [lon, lat] of ft.geometry.coordinates) { const [x, y] = kmFromLonLat(lon, lat); e.push(Math.abs(truePeakTemperatureC(x, y) - ZONE_IN_C[rank]) / DOME.fallCPerKm); }
+      }
+      e.sort((a, b) => a - b);
+      expect(e.length).toBeGreaterThan(20);
+      expect(e[e.length >> 1], name).toBeLessThan(limit);
+    }
+    // The sillimanite-in isograd away from the faults: its mean radius from the dome centre against truth (10 km).
+    const r: number[] = [];
+    for (const ft of L.lines.features.filter((q) => q.properties.isograd === 'sillimanite-in')) for (const [lon, lat] of ft.geometry.coordinates) { const [x, y] = kmFromLonLat(lon, lat); r.push(Math.hypot(x - DOME.xKm, y - DOME.yKm)); }
+    const mean = r.reduce((a, b) => a + b, 0) / r.length;
+    expect(Math.abs(mean - truth.dome.isogradRadiiKm['sillimanite-in'])).toBeLessThan(2.5);
+  });
+
+  it('lines carry mineral, rank, high side, support, and the export carries the caution', () => {
+    expect(L.lines.caution).toMatch(/Screening estimates only/);
+    for (const f of L.lines.features) {
+      expect(f.properties.highSide).toBe('right');
+      expect(Number.isInteger(f.properties.rank)).toBe(true);
+      expect(f.properties.samplesNearMidpoint).toBeGreaterThanOrEqual(0);
+    }
+    // High side check on a sillimanite-in line: a point 1 km to the right of a segment is nearer the dome centre.
+    const line = L.lines.features.filter((q) => q.properties.isograd === 'sillimanite-in').sort((a, b) => b.geometry.coordinates.length - a.geometry.coordinates.length)[0];
+    const c = line.geometry.coordinates.map(([lon, lat]) => kmFromLonLat(lon, lat));
+    let inwards = 0, total = 0;
+    for (let i = 1; i < c.length; i++) {
+      const dx = c[i][0] - c[i - 1][0], dy = c[i][1] - c[i - 1][1], len = Math.hypot(dx, dy);
+      if (len === 0) continue;
+      const mx = (c[i][0] + c[i - 1][0]) / 2 + dy / len, my = (c[i][1] + c[i - 1][1]) / 2 - dx / len;
+      const r0 = Math.hypot((c[i][0] + c[i - 1][0]) / 2 - DOME.xKm, (c[i][1] + c[i - 1][1]) / 2 - DOME.yKm);
+      if (Math.hypot(mx - DOME.xKm, my - DOME.yKm) < r0) inwards++;
+      total++;
+    }
+    expect(inwards / total).toBeGreaterThan(0.9);
+  });
+
+  it('catches the deliberately mislabelled samples (at least 5 of 6) without flagging most others', () => {
+    const ids = new Set(L.report.misfits.map((m) => m.id));
+    const caught = (truth.dome.mislabelledSamples as string[]).filter((id) => ids.has(id));
+    expect(caught.length).toBeGreaterThanOrEqual(5);
+    expect(L.report.misfits.length).toBeLessThanOrEqual(25); // of 217 samples; the others sit next to an isograd or a fault
+    for (const m of L.report.misfits) expect(m.isograds.length).toBeGreaterThan(0);
+  });
+});
+
+describe('demo region: faults', () => {
+  const fault = (id: string) => L.report.faults.find((f) => f.id === id)!;
+  it('F1 (normal): footwall higher, sillimanite missing on the hanging wall', () => {
+    const f1 = fault('F1');
+    expect(f1.hangingWall).toBe('right');
+    expect(f1.higherWall).toBe('footwall');
+    expect(f1.missingZoneDetails).toContainEqual({ zone: 'sillimanite', missingOn: f1.hangingWall, basis: 'samples' });
+    expect(f1.gradeJump).toBeGreaterThan(0);
+  });
+
+  it('F1 apparent separations: paired for at least three isograds; median within 5 km of the truth (6.0–6.4 km)', () => {
+    const f1 = fault('F1');
+    const isograds = new Set(f1.separations.map((s) => s.isograd));
+    expect(isograds.size).toBeGreaterThanOrEqual(3);
+    const seps = f1.separations.map((s) => s.separationKm).sort((a, b) => a - b);
+    const med = seps.length % 2 ? seps[seps.length >> 1] : (seps[seps.length / 2 - 1] + seps[seps.length / 2]) / 2;
+    const truthSeps = (truth.isogradSeparations as { fault: string; separationKm?: number[] }[]).filter((s) => s.fault === 'F1' && s.separationKm).map((s) => s.separationKm![0]);
+    const truthMed = truthSeps.sort((a, b) => a - b)[truthSeps.length >> 1];
+    expect(Math.abs(med - truthMed)).toBeLessThan(5);
+  });
+
+  it('F2 (thrust): hanging wall higher next to the trace; biotite-in separation within 3 km of 17.2 km', () => {
+    const f2 = fault('F2');
+    expect(f2.hangingWall).toBe('left');
+    expect(f2.higherWall).toBe('hanging wall');
+    const bt = f2.separations.filter((s) => s.isograd === 'biotite-in').map((s) => Math.abs(s.separationKm - 17.247));
+    expect(bt.length).toBeGreaterThan(0);
+    expect(Math.min(...bt)).toBeLessThan(3);
+  });
+
+  it('faults without samples on one side report no jump rather than a guess', () => {
+    for (const id of ['F3', 'F5', 'F6']) {
+      expect(fault(id).gradeJump).toBeNull();
+      expect(fault(id).separations).toEqual([]);
+    }
+  });
+});
+
+describe('demo region: paleo-gradients', () => {
+  it('apparent gradients of the P–T samples centre on the generator\'s 25 °C/km', () => {
+    // The demo's P–T were made with a 25 °C/km paleo-gradient and ρ = 2750 kg/m³ (fixtures/generate.ts); we use
+    // ρ = 2700, which deepens z by 1.9 % and lowers the gradient by as much; plus ±15 °C and ±0.4 kbar noise.
+    const g = L.report.paleoGradients.map((p) => p.apparentGradientCPerKm).sort((a, b) => a - b);
+    expect(g.length).toBeGreaterThanOrEqual(5);
+    expect(Math.abs(g[g.length >> 1] - 25)).toBeLessThan(3);
+  });
+});
