@@ -7,3 +7,4 @@ registerVerb('geotherm', 'steady-state conductive geotherm of one column (isothe
 registerVerb('interpolate', 'grid a point field by IDW or ordinary kriging (with variogram, sd and cross-validation)', async () => (await import('./interpolate.ts')).interpolate);
 registerVerb('isotherms', 'heat-flow grid + thermal model → isotherm depths, temperatures, facies, solidus, percentiles and contours', async () => (await import('./isotherms.ts')).isotherms);
 registerVerb('isograds', 'isograds from grade samples, with misfits, fault offsets and paleo-gradients', async () => (await import('./isograds.ts')).isograds);
+registerVerb('heat-in-place', 'volumetric heat in place, recoverable heat and electric power of a heat-flow grid or polygon', async () => (await import('./heat-in-place.ts')).heatInPlace);

@@ -1,0 +1,56 @@
+/**
+ * Exact area of a latitude/longitude cell on the WGS84 ellipsoid, bounded by two meridians and two parallels.
+ *
+ * The area between the equator and the parallel φ over one radian of longitude is (Snyder 1987, "Map projections —
+ * a working manual", USGS PP 1395, eq. 3-12 for the authalic function q):
+ *   S(φ) = (a²(1 − e²)/2)·q(φ),  q(φ) = sin φ/(1 − e² sin² φ) + atanh(e sin φ)/e,
+ * so a cell spanning Δλ radians between φ1 and φ2 has area (a²(1 − e²)/2)·Δλ·(q(φ2) − q(φ1)). For the whole
+ * ellipsoid this gives 2π·a²(1 − e²)·q(90°), the authalic sphere's area. A spherical formula (e.g. @turf/area, on
+ * a sphere of radius 6371008.8 m) differs from this by up to about 1 % (the sphere's cell is about 0.45 % larger at the
+ * equator and about 0.9 % smaller near the poles, from the radii of curvature M·N against R²).
+ */
+import { WGS84_A_M, WGS84_E, WGS84_E2 } from './ellipsoid.ts';
+
+const DEG = Math.PI / 180;
+
+/** Authalic function q(φ) of Snyder (1987) eq. 3-12, without the (1 − e²) factor (dimensionless). */
+export function authalicQ(latDeg: number): number {
+  const s = Math.sin(latDeg * DEG);
+  return s / (1 - WGS84_E2 * s * s) + Math.atanh(WGS84_E * s) / WGS84_E;
+}
+
+/**
+ * Area (m²) of the WGS84 cell between latitudes latSouthDeg and latNorthDeg (degrees, −90 … 90) spanning
+ * dLonDeg degrees of longitude (> 0, ≤ 360).
+ */
+export function lonLatCellAreaM2(latSouthDeg: number, latNorthDeg: number, dLonDeg: number): number {
+  if (!(latSouthDeg >= -90 && latNorthDeg <= 90 && latSouthDeg <= latNorthDeg)) throw new RangeError(`bad latitudes ${latSouthDeg}, ${latNorthDeg}`);
+  if (!(dLonDeg > 0 && dLonDeg <= 360)) throw new RangeError(`bad longitude span ${dLonDeg}`);
+  const k = 0.5 * WGS84_A_M * WGS84_A_M * (1 - WGS84_E2);
+  return k * dLonDeg * DEG * (authalicQ(latNorthDeg) - authalicQ(latSouthDeg));
+}
+
+/** True when a CRS string names geographic WGS84 longitude/latitude (EPSG:4326, CRS:84, OGC:CRS84, WGS84). */
+export function isLonLatCrs(crs: string): boolean {
+  return /^(EPSG:4326|WGS84|CRS:84|OGC:CRS84)$/i.test(crs.trim());
+}
+
+/**
+ * Area of one cell of each row of a grid, m² (length = height). Longitude/latitude grids: the exact ellipsoidal
+ * cell area above (it varies with latitude only). Projected grids: dx·dy in square metres (metresPerUnit converts
+ * the CRS unit); this is the area in the projection's plane, which differs from the ground area by the projection's
+ * areal scale factor (e.g. about k² for a transverse Mercator or UTM grid, k ≈ 0.9996–1.001).
+ */
+export function gridRowAreasM2(grid: { height: number; north: number; dx: number; dy: number; crs: string }, metresPerUnit = 1): { rowAreaM2: Float64Array; method: 'ellipsoidal' | 'planar' } {
+  const out = new Float64Array(grid.height);
+  if (isLonLatCrs(grid.crs)) {
+    for (let r = 0; r < grid.height; r++) {
+      const n = Math.min(90, grid.north - r * grid.dy), s = Math.max(-90, grid.north - (r + 1) * grid.dy);
+      out[r] = n > s ? lonLatCellAreaM2(s, n, Math.min(360, grid.dx)) : 0;
+    }
+    return { rowAreaM2: out, method: 'ellipsoidal' };
+  }
+  if (!(metresPerUnit > 0)) throw new RangeError(`metresPerUnit must be > 0, got ${metresPerUnit}`);
+  out.fill(grid.dx * grid.dy * metresPerUnit * metresPerUnit);
+  return { rowAreaM2: out, method: 'planar' };
+}

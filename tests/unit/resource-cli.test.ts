@@ -1,0 +1,139 @@
+import { afterAll, describe, expect, it } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { kmFromLonLat, trueHeatFlowMWm2 } from '../../fixtures/field.ts';
+import { writeGeoTiff } from '../../server/io/geotiff.ts';
+import { heatInPlace } from '../../server/cli/heat-in-place.ts';
+import { InputError } from '../../shared/errors.ts';
+import { encodeRequest, resourceRoutes } from '../../server/routes/resource.ts';
+import { CAUTION } from '../../shared/caution.ts';
+import type { Grid } from '../../shared/grid/grid.ts';
+
+const root = new URL('../..', import.meta.url).pathname;
+mkdirSync(join(root, '.tmp'), { recursive: true });
+const dir = mkdtempSync(join(root, '.tmp', 'heat-in-place-cli-'));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+// Heat flow of the invented demo region (fixtures/field.ts) on a small lon/lat grid, and a constant sd.
+const W = 40, H = 32, west = -129, north = -37.2, dx = 2 / W, dy = 1.6 / H;
+const base = { width: W, height: H, west, north, dx, dy, crs: 'EPSG:4326' };
+const hfValues = new Float32Array(W * H);
+for (let r = 0; r < H; r++) for (let c = 0; c < W; c++) {
+  const [x, y] = kmFromLonLat(west + (c + 0.5) * dx, north - (r + 0.5) * dy);
+  hfValues[r * W + c] = trueHeatFlowMWm2(x, y);
+}
+const hf: Grid = { ...base, values: hfValues, units: 'mW/m²' };
+const sd: Grid = { ...base, values: new Float32Array(W * H).fill(6), units: 'mW/m²' };
+const hfPath = join(dir, 'hf.tif'), sdPath = join(dir, 'hf.sd.tif'), polyPath = join(dir, 'area.geojson'), offPath = join(dir, 'off.geojson');
+writeFileSync(hfPath, Buffer.from(writeGeoTiff(hf)));
+writeFileSync(sdPath, Buffer.from(writeGeoTiff(sd)));
+const polygon = { type: 'Feature', properties: { name: '<b>Rift</b> & "block"' }, geometry: { type: 'Polygon', coordinates: [[[-128.8, -37.4], [-128.0, -37.4], [-128.0, -38.2], [-128.8, -38.2], [-128.8, -37.4]]] } };
+writeFileSync(polyPath, JSON.stringify(polygon));
+writeFileSync(offPath, JSON.stringify({ type: 'Polygon', coordinates: [[[10, 10], [11, 10], [11, 11], [10, 10]]] }));
+const modelPath = join(root, 'fixtures/demo/model-uncertain.json');
+
+function run(args: string[]) {
+  const r = spawnSync(process.execPath, ['bin/subtherm.mjs', 'heat-in-place', ...args], { cwd: root, encoding: 'utf8' });
+  return { code: r.status, out: r.stdout, err: r.stderr };
+}
+
+describe('subtherm heat-in-place', () => {
+  it('prints the report JSON and writes CSV and HTML', () => {
+    const csv = join(dir, 'r.csv'), html = join(dir, 'r.html');
+    const r = run(['--heat-flow', hfPath, '--heat-flow-sd', sdPath, '--model', modelPath, '--polygon', polyPath, '--realizations', '40', '--seed', '5', '--out-csv', csv, '--out-html', html, '--json']);
+    expect(r.err).toBe('');
+    expect(r.code).toBe(0);
+    const j = JSON.parse(r.out);
+    expect(j.area).toBe('polygon');
+    expect(j.cells).toBeGreaterThan(100);
+    expect(j.areaKm2).toBeGreaterThan(1000);
+    expect((j.heatInPlaceEJ.p50 * 1e18) / j.heatInPlaceJ.p50).toBeCloseTo(1, 12);
+    expect(j.electricMWe.p10).toBeLessThanOrEqual(j.electricMWe.p50);
+    expect(j.electricMWe.p50).toBeLessThanOrEqual(j.electricMWe.p90);
+    expect(j.method.route).toBe('exergy');
+    expect(j.method.routeLabel).toMatch(/W\/Q = 1 − T0·ln\(TR\/T0\)/);
+    expect(j.caution).toBe(CAUTION);
+    expect(j.provenance.inputs.heatFlow).toMatch(/^[0-9a-f]{64}$/);
+    expect(j.monteCarlo.realizations).toBe(40);
+    const text = readFileSync(csv, 'utf8');
+    expect(text.split('\n')[0]).toBe(`# caution: ${CAUTION}`);
+    expect(text).toMatch(/^area,quantity,units,cells,area_km2,nominal,p10,p50,p90,mean$/m);
+    const page = readFileSync(html, 'utf8');
+    expect(page).toContain('data:image/png;base64,');
+    expect(page).toContain('&lt;b&gt;Rift&lt;/b&gt; &amp; &quot;block&quot;');
+    expect(page).not.toContain('<b>Rift</b>');
+    expect(page).toContain('"P90"'.replace(/"/g, '&quot;'));
+  });
+
+  it('gives nominal values and null percentiles without realizations', () => {
+    const r = run(['--heat-flow', hfPath, '--model', modelPath, '--json']);
+    expect(r.code).toBe(0);
+    const j = JSON.parse(r.out);
+    expect(j.area).toBe('grid');
+    expect(j.electricMWe.p50).toBeNull();
+    expect(j.electricMWe.nominal).toBeGreaterThan(0);
+    expect(j.cells).toBe(W * H);
+  });
+
+  const bad: [string, string[], RegExp][] = [
+    ['bottom ≤ top', ['--top-km', '5', '--bottom-km', '4'], /--bottom-km/],
+    ['recovery outside (0, 1]', ['--recovery', '0'], /--recovery/],
+    ['efficiency above 1', ['--efficiency', '1.2'], /--efficiency/],
+    ['polygon off the grid', ['--polygon', offPath], /does not overlap/],
+    ['Tmin below Tref', ['--min-temp-c', '10'], /--min-temp-c/],
+    ['bad correlation', ['--correlation', 'some'], /--correlation/],
+    ['missing model file', ['--model', join(dir, 'none.json')], /cannot read/],
+  ];
+  for (const [name, args, msg] of bad) {
+    it(`rejects with a clear InputError: ${name}`, async () => {
+      const hasModel = args.includes('--model');
+      const p = heatInPlace(['--heat-flow', hfPath, ...(hasModel ? [] : ['--model', modelPath]), ...args, '--json']);
+      await expect(p).rejects.toBeInstanceOf(InputError);
+      await expect(p).rejects.toThrow(msg);
+    });
+  }
+
+  it('exits 2 with one JSON error object and no stack trace', () => {
+    const r = run(['--heat-flow', hfPath, '--model', modelPath, '--top-km', '5', '--bottom-km', '4', '--json']);
+    expect(r.code).toBe(2);
+    expect(JSON.parse(r.out).error.code).toBe('bad_option');
+    expect(r.err).not.toMatch(/at .*\.ts:\d+/);
+  });
+});
+
+describe('heat-in-place routes', () => {
+  const model = JSON.parse(readFileSync(modelPath, 'utf8'));
+  const app = resourceRoutes({ loadRunGrids: async (id) => (id === 'run-1' ? { heatFlow: hf, heatFlowSd: sd, model } : null) });
+
+  it('POST returns the report with links that reproduce it', async () => {
+    const body = { polygon, options: { realizations: 20, seed: 2 } };
+    const res = await app.request('/runs/run-1/heat-in-place', { method: 'POST', body: JSON.stringify(body), headers: { 'content-type': 'application/json' } });
+    expect(res.status).toBe(200);
+    const j = await res.json();
+    expect(j.links.html).toBe(`/api/runs/run-1/heat-in-place.html?request=${encodeRequest(body)}`);
+    const again = await app.request(j.links.json.replace('/api', ''));
+    const k = await again.json();
+    expect(k.electricMWe).toEqual(j.electricMWe);
+    const page = await app.request(j.links.html.replace('/api', ''));
+    expect(page.headers.get('content-type')).toMatch(/text\/html/);
+    expect(await page.text()).toContain('&lt;b&gt;Rift&lt;/b&gt;');
+    const csv = await app.request(j.links.csv.replace('/api', ''));
+    expect((await csv.text()).startsWith('# caution: ')).toBe(true);
+  });
+
+  it('answers 4xx JSON errors for bad input and unknown runs', async () => {
+    const post = (id: string, body: unknown) => app.request(`/runs/${id}/heat-in-place`, { method: 'POST', body: JSON.stringify(body), headers: { 'content-type': 'application/json' } });
+    const a = await post('run-1', { options: { recoveryFactor: 2 } });
+    expect(a.status).toBe(400);
+    expect((await a.json()).error.details[0].field).toBe('recoveryFactor');
+    const b = await post('nope', {});
+    expect(b.status).toBe(404);
+    const c = await post('run-1', { polygon: { type: 'Point', coordinates: [0, 0] } });
+    expect(c.status).toBe(400);
+    const d = await post('run-1', { options: { realizations: 5000 } });
+    expect(d.status).toBe(422);
+    const e = await app.request('/runs/run-1/heat-in-place.html?request=%%%');
+    expect(e.status).toBe(400);
+  });
+});
