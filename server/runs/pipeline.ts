@@ -97,6 +97,8 @@ export interface PipelineContext {
   /** Grid CRS → lon/lat. */
   toLonLat: (x: number, y: number) => [number, number];
   warnings: string[];
+  /** A stage's report for the run summary, under the stage's name (e.g. the isograd and fault report). */
+  summary: Record<string, unknown>;
   signal?: AbortSignal;
 }
 
@@ -631,10 +633,11 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
   tracker.finish('encode', `${layers.length} layers encoded`);
 
   // Later stages (hook).
+  const stageSummaries: Record<string, unknown> = {};
   for (const s of extra) {
     checkAbort(signal);
     const key = `extra:${s.name}`;
-    const ctx: PipelineContext = { request: req, datasets, heatFlow, heatFlowSd, model: doc.model, provenance, toLonLat, warnings, signal };
+    const ctx: PipelineContext = { request: req, datasets, heatFlow, heatFlowSd, model: doc.model, provenance, toLonLat, warnings, summary: stageSummaries, signal };
     const more = await s.run(ctx, (f, m) => tracker.report(key, f, m));
     layers.push(...more);
     tracker.finish(key, `${s.name} done`);
@@ -648,6 +651,7 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
     overrides: regions.map((r) => r.label),
     inconsistent: products.counts,
     monteCarlo: products.monteCarlo,
+    ...stageSummaries,
     layers: Object.fromEntries(layers.map((l) => [l.info.name, l.info.stats ?? null])),
     provenance: { tool: provenance.tool, version: provenance.version, contentHash: provenance.contentHash, inputs: provenance.inputs },
     timingsMs: { ...timingsMs, total: now() - tStart },

@@ -6,6 +6,7 @@
 import type { MessagePort } from 'node:worker_threads';
 import type { RunRequest } from '../../shared/schema/run.ts';
 import { runPipeline, type RunResult, type StoredDataset } from '../runs/pipeline.ts';
+import { isogradStage } from '../runs/isograd-stage.ts';
 
 export type { RunResult } from '../runs/pipeline.ts';
 
@@ -18,6 +19,7 @@ export default async function runWorker({ request, datasets, port }: { request: 
   try {
     return await runPipeline(request, datasets, {
       signal: controller.signal,
+      extraLayers: [isogradStage],
       progress: (p) => port.postMessage({ type: 'progress', fraction: p.fraction, message: p.message }),
     });
   } finally {

@@ -1,0 +1,43 @@
+import { describe, expect, it } from 'vitest';
+import { readFileSync } from 'node:fs';
+import { runPipeline, type StoredDataset } from '../../server/runs/pipeline.ts';
+import { isogradStage } from '../../server/runs/isograd-stage.ts';
+import { CAUTION } from '../../shared/caution.ts';
+import { check } from '@placemarkio/check-geojson';
+
+const read = (f: string) => readFileSync(new URL(`../../fixtures/demo/${f}`, import.meta.url), 'utf8');
+const truth = JSON.parse(readFileSync(new URL('../../fixtures/truth.json', import.meta.url), 'utf8'));
+
+describe('the isograd stage of a run', () => {
+  const datasets: Record<string, StoredDataset> = {
+    'demo-sites': { kind: 'sites', body: read('sites.geojson') },
+    'demo-samples': { kind: 'samples', body: read('samples.geojson') },
+    'demo-faults': { kind: 'faults', body: read('faults.geojson') },
+    'demo-model': { kind: 'model', body: read('model.json') },
+  };
+
+  it('adds the isograds layer and the structure report when the run names samples', async () => {
+    const res = await runPipeline(
+      { sites: 'demo-sites', samples: 'demo-samples', faults: 'demo-faults', model: 'demo-model', isothermsC: [300], depthsKm: [5], grid: { cellKm: 5 } },
+      datasets,
+      { extraLayers: [isogradStage] },
+    );
+    const layer = res.layers.find((l) => l.info.name === 'isograds');
+    expect(layer?.info.kind).toBe('vector');
+    const text = new TextDecoder().decode(layer!.files[0].bytes);
+    check(text); // RFC 7946 validity (@placemarkio/check-geojson)
+    const gj = JSON.parse(text);
+    expect(gj.caution).toBe(CAUTION);
+    expect(new Set(gj.features.map((f: { properties: { mineral: string } }) => f.properties.mineral))).toEqual(new Set(['biotite', 'garnet', 'staurolite', 'kyanite', 'sillimanite']));
+    const structure = res.summary.structure as { faults: { id: string; higherSide: string; missingZones: unknown }[] };
+    // F1's footwall is the higher-grade side (fixtures/truth.json: builtInOffset.higherGradeSide).
+    expect(truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.higherGradeSide).toContain('footwall');
+    expect(structure.faults.map((f) => f.id)).toEqual(expect.arrayContaining(['F1', 'F2']));
+  });
+
+  it('adds nothing when the run has no samples', async () => {
+    const res = await runPipeline({ sites: 'demo-sites', model: 'demo-model', isothermsC: [300], depthsKm: [], grid: { cellKm: 8 } }, datasets, { extraLayers: [isogradStage] });
+    expect(res.layers.some((l) => l.info.name === 'isograds')).toBe(false);
+    expect(res.summary.structure).toBeUndefined();
+  });
+});
