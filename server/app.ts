@@ -1,19 +1,44 @@
 import { Hono } from 'hono';
+import { bodyLimit } from 'hono/body-limit';
 import { existsSync, readFileSync, statSync } from 'node:fs';
 import { extname, join, normalize } from 'node:path';
+import { fileURLToPath } from 'node:url';
 import { InputError } from '../shared/errors.ts';
 import { VERSION } from '../shared/version.ts';
 import { CAUTION } from '../shared/caution.ts';
 import type { Store } from './store/types.ts';
 import { TerrainTiles, TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from './terrain.ts';
 import { DEMO_DATASETS } from './demo.ts';
+import { resolveLimits, type Limits } from './limits.ts';
+import { securityHeaders } from './security.ts';
+import { RunJobs } from './runs/jobs.ts';
+import { RunGridCache } from './runs/grids.ts';
+import { errorBody, type AppContext } from './routes/context.ts';
+import { datasetRoutes } from './routes/datasets.ts';
+import { runRoutes } from './routes/runs.ts';
+import { inspectRoutes } from './routes/inspect.ts';
+import { projectRoutes } from './routes/projects.ts';
+import { openApiRoutes } from './routes/openapi.ts';
+import { gridTileRoutes } from './routes/grid-tiles.ts';
+import { resourceRoutes } from './routes/resource.ts';
+import { readGeoTiff } from './io/geotiff.ts';
+import type { Grid } from '../shared/grid/grid.ts';
 
 export interface AppOptions {
   store: Store;
   terrain: TerrainTiles | null;
   /** Folder of the built client (index.html and assets); null serves a notice page. */
   clientDir: string | null;
+  /** Limits (each also settable by environment variable: see limits.ts). */
+  limits?: Partial<Limits>;
+  /** Module of the run worker (default server/workers/run-worker.ts). */
+  runWorkerFile?: string;
+  /** One line per request (method, path without query, status, ms); default off, or on with SUBTHERM_ACCESS_LOG=1. */
+  accessLog?: ((line: string) => void) | null;
 }
+
+/** The default run worker module. */
+export const RUN_WORKER_FILE = fileURLToPath(new URL('./workers/run-worker.ts', import.meta.url));
 
 const CONTENT_TYPES: Record<string, string> = {
   '.html': 'text/html; charset=utf-8',
@@ -27,22 +52,44 @@ const CONTENT_TYPES: Record<string, string> = {
   '.map': 'application/json',
 };
 
-/** Errors under /api/ are always `{ error: { code, message, details } }`. */
-function errorBody(code: string, message: string, details: unknown[] = []) {
-  return { error: { code, message, details } };
-}
-
-/** Builds the Hono app (testable in-process with `app.request`). */
-export function createApp(opts: AppOptions): Hono {
+/**
+ * Builds the Hono app (testable in-process with `app.request`). The returned app carries its run job system
+ * (`app.jobs`): call `app.jobs.close()` to stop the worker pool.
+ */
+export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Limits } {
   const app = new Hono();
+  const limits = resolveLimits(opts.limits);
+  const workerFile = opts.runWorkerFile ?? RUN_WORKER_FILE;
+  const jobs = new RunJobs({ store: opts.store, workerFile, concurrency: limits.runConcurrency, maxQueuedPerClient: limits.maxQueuedRunsPerClient });
+  const ctx: AppContext = { store: opts.store, limits, jobs, grids: new RunGridCache(opts.store), workerFile };
+  const accessLog = opts.accessLog !== undefined ? opts.accessLog : process.env.SUBTHERM_ACCESS_LOG === '1' ? (l: string) => process.stdout.write(l + '\n') : null;
 
   app.onError((err, c) => {
     if (err instanceof InputError) {
-      return c.json(errorBody(err.code, err.message, err.details), err.status as 400);
+      const headers: Record<string, string> = err.status === 401 ? { 'www-authenticate': 'Bearer realm="subtherm project"' } : {};
+      return c.json(errorBody(err.code, err.message, err.details), err.status as 400, headers);
     }
     console.error(`[${new Date().toISOString()}] ${c.req.method} ${new URL(c.req.url).pathname}: ${err.stack ?? err.message}`);
     return c.json(errorBody('internal', 'internal server error'), 500);
   });
+
+  if (accessLog) {
+    app.use('*', async (c, next) => {
+      const t0 = performance.now();
+      await next();
+      // The path only: no query string, no headers, no body (edit tokens never reach the log).
+      accessLog(`${new Date().toISOString()} ${c.req.method} ${new URL(c.req.url).pathname} ${c.res.status} ${(performance.now() - t0).toFixed(1)}ms`);
+    });
+  }
+  app.use('*', securityHeaders());
+  app.use(
+    '/api/*',
+    bodyLimit({
+      maxSize: limits.maxBodyBytes,
+      onError: (c) =>
+        c.json(errorBody('body_too_large', `the request body is larger than ${limits.maxBodyBytes} bytes (${(limits.maxBodyBytes / 1048576).toFixed(0)} MB), the server's limit`, [{ field: '(body)', problem: `at most ${limits.maxBodyBytes} bytes` }]), 413),
+    }),
+  );
 
   app.get('/api/health', (c) => c.json({ ok: true, version: VERSION }));
 
@@ -61,7 +108,10 @@ export function createApp(opts: AppOptions): Hono {
     }),
   );
 
+  openApiRoutes(app);
+
   app.get('/api/datasets', (c) => c.json({ datasets: opts.store.listDatasets() }));
+  datasetRoutes(app, ctx);
 
   app.get('/api/datasets/:id', (c) => {
     const rec = opts.store.getDataset(c.req.param('id'));
@@ -83,6 +133,36 @@ export function createApp(opts: AppOptions): Hono {
     return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'public, max-age=3600' });
   });
 
+  runRoutes(app, ctx);
+  inspectRoutes(app, ctx);
+  projectRoutes(app, ctx);
+  // Raster-dem tiles of a run's raster layers, decoded from the layer's stored GeoTIFF (the full-resolution grid).
+  app.route(
+    '/api',
+    gridTileRoutes({
+      loadLayerGrid: async (runId, layer) => {
+        const file = opts.store.getRunFile(runId, layer, 'tif');
+        if (!file) return null;
+        return (await readGeoTiff(file.bytes.slice().buffer as ArrayBuffer, { source: `run ${runId} layer ${layer}` })).grid;
+      },
+    }),
+  );
+  // Heat in place over a finished run's grids and model.
+  app.route(
+    '/api',
+    resourceRoutes({
+      loadRunGrids: async (runId) => {
+        const run = /^[A-Za-z0-9_-]{1,100}$/.test(runId) ? opts.store.getRun(runId) : null;
+        if (!run || run.status !== 'done') return null;
+        const heat = await ctx.grids.get(runId, 'heatFlow');
+        if (!heat) return null;
+        const sd = await ctx.grids.get(runId, 'heatFlowSd');
+        const model = run.model ?? null;
+        return { heatFlow: heat.grid as Grid<Float32Array>, heatFlowSd: sd?.grid, model };
+      },
+    }),
+  );
+
   app.all('/api/*', (c) => c.json(errorBody('not_found', `no such API route: ${c.req.method} ${new URL(c.req.url).pathname}`), 404));
 
   // Every other path serves the client: a built asset when it exists, else the map page (so links open the map).
@@ -101,5 +181,5 @@ export function createApp(opts: AppOptions): Hono {
     return c.body(readFileSync(join(opts.clientDir, 'index.html')), 200, { 'content-type': CONTENT_TYPES['.html'], 'cache-control': 'no-cache' });
   });
 
-  return app;
+  return Object.assign(app, { jobs, limits });
 }

@@ -2,6 +2,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { parseFeatureCollection, type DatasetKind } from '../shared/schema/features.ts';
 import type { Store } from './store/types.ts';
+import { modelFromJson } from './runs/model-input.ts';
 
 export const FIXTURES_DIR = new URL('../fixtures/', import.meta.url).pathname;
 export const DEMO_DIR = join(FIXTURES_DIR, 'demo');
@@ -25,8 +26,9 @@ export function loadDemo(store: Store): void {
     const text = readFileSync(join(DEMO_DIR, d.file), 'utf8');
     const json = JSON.parse(text) as unknown;
     if (d.kind === 'model') {
-      const layers = (json as { layers?: unknown[] }).layers;
-      store.putDataset({ id: d.id, kind: 'model', body: text, featureCount: Array.isArray(layers) ? layers.length : 0, title: d.title });
+      // Validated like an uploaded model; its top-level `name` is a label, kept as the title.
+      const { model, name } = modelFromJson(json, d.file);
+      store.putDataset({ id: d.id, kind: 'model', body: JSON.stringify(model), featureCount: model.layers.length, title: name ?? d.title });
       continue;
     }
     const parsed = parseFeatureCollection(d.kind, json);

@@ -19,7 +19,11 @@ export async function serve(argv: string[]): Promise<number> {
   const dbPath = values.db ?? process.env.SUBTHERM_DB ?? join(process.cwd(), 'data', 'subtherm.sqlite');
   const srv = await startServer({ port, dbPath, host: values.host, buildClient: true });
   const stop = () => {
-    void srv.close().then(() => process.exit(0));
+    // Cancel queued and running runs (their worker threads stop), then close the listener and the database.
+    void srv.app.jobs
+      .close()
+      .then(() => srv.close())
+      .then(() => process.exit(0));
   };
   process.once('SIGINT', stop);
   process.once('SIGTERM', stop);

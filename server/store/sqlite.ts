@@ -2,7 +2,7 @@ import Database from 'better-sqlite3';
 import { createHash, randomBytes } from 'node:crypto';
 import { mkdirSync } from 'node:fs';
 import { dirname } from 'node:path';
-import type { DatasetRecord, Store } from './types.ts';
+import type { DatasetRecord, ProjectRecord, RevisionInfo, RunRecord, RunStatus, Store, StoredGridMeta } from './types.ts';
 
 /** Schema migrations, applied in order; `PRAGMA user_version` records how many have run. */
 const MIGRATIONS: string[] = [
@@ -16,6 +16,62 @@ const MIGRATIONS: string[] = [
      created_at TEXT NOT NULL
    );
    CREATE INDEX datasets_hash ON datasets(content_hash);`,
+  // Projects: the row holds only what never changes; every save is a new revision row (append-only).
+  `CREATE TABLE projects (
+     id TEXT PRIMARY KEY,
+     token_hash TEXT NOT NULL,
+     created_at TEXT NOT NULL
+   );
+   CREATE TABLE project_revisions (
+     project_id TEXT NOT NULL REFERENCES projects(id),
+     revision INTEGER NOT NULL,
+     title TEXT NOT NULL,
+     state TEXT NOT NULL,
+     created_at TEXT NOT NULL,
+     UNIQUE (project_id, revision)
+   );
+   CREATE TRIGGER project_revisions_no_update BEFORE UPDATE ON project_revisions
+     BEGIN SELECT RAISE(ABORT, 'project revisions are append-only'); END;
+   CREATE TRIGGER project_revisions_no_delete BEFORE DELETE ON project_revisions
+     BEGIN SELECT RAISE(ABORT, 'project revisions are append-only'); END;
+   CREATE TABLE blobs (
+     hash TEXT PRIMARY KEY,
+     size INTEGER NOT NULL,
+     bytes BLOB NOT NULL
+   );
+   CREATE TABLE runs (
+     id TEXT PRIMARY KEY,
+     cache_key TEXT NOT NULL,
+     request TEXT NOT NULL,
+     status TEXT NOT NULL,
+     progress REAL NOT NULL,
+     message TEXT NOT NULL,
+     layers TEXT NOT NULL,
+     summary TEXT,
+     warnings TEXT NOT NULL,
+     model TEXT,
+     grids TEXT NOT NULL,
+     client TEXT NOT NULL,
+     created_at TEXT NOT NULL,
+     updated_at TEXT NOT NULL
+   );
+   CREATE INDEX runs_cache_key ON runs(cache_key, created_at);
+   CREATE INDEX runs_status ON runs(status);
+   CREATE TABLE run_files (
+     run_id TEXT NOT NULL REFERENCES runs(id),
+     name TEXT NOT NULL,
+     ext TEXT NOT NULL,
+     blob_hash TEXT NOT NULL REFERENCES blobs(hash),
+     content_type TEXT NOT NULL,
+     PRIMARY KEY (run_id, name, ext)
+   );
+   CREATE TABLE run_grids (
+     run_id TEXT NOT NULL REFERENCES runs(id),
+     name TEXT NOT NULL,
+     meta TEXT NOT NULL,
+     blob_hash TEXT NOT NULL REFERENCES blobs(hash),
+     PRIMARY KEY (run_id, name)
+   );`,
 ];
 
 /** A new random id: 16 bytes from the CSPRNG, base64url (22 characters). */
@@ -35,7 +91,8 @@ export class SqliteStore implements Store {
     if (path !== ':memory:') mkdirSync(dirname(path), { recursive: true });
     this.db = new Database(path);
     this.db.pragma('journal_mode = WAL');
-    this.db.pragma('synchronous = NORMAL');
+    // FULL: a save acknowledged to a client is on disk even after a power cut, not only after a process kill.
+    this.db.pragma('synchronous = FULL');
     this.db.pragma('foreign_keys = ON');
     this.db.pragma('busy_timeout = 5000');
     this.migrate();
@@ -86,9 +143,179 @@ export class SqliteStore implements Store {
     return rows.map((r) => ({ id: r.id, kind: r.kind, featureCount: r.feature_count, contentHash: r.content_hash, title: r.title, createdAt: r.created_at }));
   }
 
+  createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): ProjectRecord {
+    const now = new Date().toISOString();
+    this.db.transaction(() => {
+      this.db.prepare('INSERT INTO projects (id, token_hash, created_at) VALUES (?, ?, ?)').run(input.id, input.tokenHash, now);
+      this.db.prepare('INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES (?, 1, ?, ?, ?)').run(input.id, input.title, input.stateJson, now);
+    })();
+    return { id: input.id, title: input.title, state: JSON.parse(input.stateJson), revision: 1, updatedAt: now, createdAt: now };
+  }
+
+  getProject(id: string, revision?: number): ProjectRecord | null {
+    const row = (
+      revision === undefined
+        ? this.db.prepare('SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = ? ORDER BY r.revision DESC LIMIT 1').get(id)
+        : this.db.prepare('SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = ? AND r.revision = ?').get(id, revision)
+    ) as { revision: number; title: string; state: string; created_at: string; p_created: string } | undefined;
+    if (!row) return null;
+    return { id, title: row.title, state: JSON.parse(row.state), revision: row.revision, updatedAt: row.created_at, createdAt: row.p_created };
+  }
+
+  getProjectTokenHash(id: string): string | null {
+    const row = this.db.prepare('SELECT token_hash FROM projects WHERE id = ?').get(id) as { token_hash: string } | undefined;
+    return row?.token_hash ?? null;
+  }
+
+  appendRevision(id: string, input: { title?: string; stateJson: string }): number {
+    // IMMEDIATE takes the write lock before reading the head, so two saves never compute the same number.
+    return this.db
+      .transaction(() => {
+        const head = this.db.prepare('SELECT revision, title FROM project_revisions WHERE project_id = ? ORDER BY revision DESC LIMIT 1').get(id) as
+          | { revision: number; title: string }
+          | undefined;
+        if (!head) throw new Error(`no project ${id}`);
+        const next = head.revision + 1;
+        this.db
+          .prepare('INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES (?, ?, ?, ?, ?)')
+          .run(id, next, input.title ?? head.title, input.stateJson, new Date().toISOString());
+        return next;
+      })
+      .immediate();
+  }
+
+  listRevisions(id: string): RevisionInfo[] | null {
+    if (this.getProjectTokenHash(id) === null) return null;
+    const rows = this.db.prepare('SELECT revision, title, created_at, length(state) AS n FROM project_revisions WHERE project_id = ? ORDER BY revision').all(id) as {
+      revision: number; title: string; created_at: string; n: number;
+    }[];
+    return rows.map((r) => ({ revision: r.revision, title: r.title, createdAt: r.created_at, stateBytes: r.n }));
+  }
+
+  putRun(run: RunRecord): void {
+    this.db
+      .prepare(
+        `INSERT INTO runs (id, cache_key, request, status, progress, message, layers, summary, warnings, model, grids, client, created_at, updated_at)
+         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+      )
+      .run(
+        run.id, run.cacheKey, JSON.stringify(run.request), run.status, run.progress, run.message, JSON.stringify(run.layers),
+        run.summary === null ? null : JSON.stringify(run.summary), JSON.stringify(run.warnings), run.model === null || run.model === undefined ? null : JSON.stringify(run.model),
+        JSON.stringify(run.grids), run.client, run.createdAt, run.updatedAt,
+      );
+  }
+
+  updateRun(id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): void {
+    const sets: string[] = [];
+    const vals: unknown[] = [];
+    const json = new Set(['layers', 'summary', 'warnings', 'model', 'grids']);
+    for (const [k, v] of Object.entries(patch)) {
+      if (v === undefined) continue;
+      sets.push(`${k} = ?`);
+      vals.push(json.has(k) ? (v === null ? null : JSON.stringify(v)) : v);
+    }
+    sets.push('updated_at = ?');
+    vals.push(new Date().toISOString());
+    this.db.prepare(`UPDATE runs SET ${sets.join(', ')} WHERE id = ?`).run(...vals, id);
+  }
+
+  getRun(id: string): RunRecord | null {
+    const row = this.db.prepare('SELECT * FROM runs WHERE id = ?').get(id) as RunRow | undefined;
+    return row ? runFromRow(row) : null;
+  }
+
+  findRunByCacheKey(cacheKey: string, statuses: RunStatus[]): RunRecord | null {
+    if (statuses.length === 0) return null;
+    const row = this.db
+      .prepare(`SELECT * FROM runs WHERE cache_key = ? AND status IN (${statuses.map(() => '?').join(', ')}) ORDER BY created_at DESC LIMIT 1`)
+      .get(cacheKey, ...statuses) as RunRow | undefined;
+    return row ? runFromRow(row) : null;
+  }
+
+  failInterruptedRuns(message: string): number {
+    return this.db.prepare("UPDATE runs SET status = 'failed', message = ?, updated_at = ? WHERE status IN ('queued', 'running')").run(message, new Date().toISOString()).changes;
+  }
+
+  putBlob(bytes: Uint8Array): string {
+    const hash = sha256Hex(bytes);
+    this.db.prepare('INSERT OR IGNORE INTO blobs (hash, size, bytes) VALUES (?, ?, ?)').run(hash, bytes.byteLength, Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+    return hash;
+  }
+
+  getBlob(hash: string): Uint8Array | null {
+    const row = this.db.prepare('SELECT bytes FROM blobs WHERE hash = ?').get(hash) as { bytes: Buffer } | undefined;
+    return row ? new Uint8Array(row.bytes.buffer, row.bytes.byteOffset, row.bytes.byteLength) : null;
+  }
+
+  putRunFile(runId: string, name: string, ext: string, hash: string, contentType: string): void {
+    this.db.prepare('INSERT OR REPLACE INTO run_files (run_id, name, ext, blob_hash, content_type) VALUES (?, ?, ?, ?, ?)').run(runId, name, ext, hash, contentType);
+  }
+
+  getRunFile(runId: string, name: string, ext: string): { bytes: Uint8Array; contentType: string; hash: string } | null {
+    const row = this.db
+      .prepare('SELECT f.content_type, f.blob_hash, b.bytes FROM run_files f JOIN blobs b ON b.hash = f.blob_hash WHERE f.run_id = ? AND f.name = ? AND f.ext = ?')
+      .get(runId, name, ext) as { content_type: string; blob_hash: string; bytes: Buffer } | undefined;
+    if (!row) return null;
+    return { bytes: new Uint8Array(row.bytes.buffer, row.bytes.byteOffset, row.bytes.byteLength), contentType: row.content_type, hash: row.blob_hash };
+  }
+
+  putRunGrid(runId: string, name: string, meta: StoredGridMeta, hash: string): void {
+    this.db.prepare('INSERT OR REPLACE INTO run_grids (run_id, name, meta, blob_hash) VALUES (?, ?, ?, ?)').run(runId, name, JSON.stringify(meta), hash);
+  }
+
+  getRunGrid(runId: string, name: string): { meta: StoredGridMeta; values: Float32Array } | null {
+    const row = this.db.prepare('SELECT g.meta, b.bytes FROM run_grids g JOIN blobs b ON b.hash = g.blob_hash WHERE g.run_id = ? AND g.name = ?').get(runId, name) as
+      | { meta: string; bytes: Buffer }
+      | undefined;
+    if (!row) return null;
+    // Copy into an aligned buffer: a Buffer's offset inside its pool need not be a multiple of 4.
+    const values = new Float32Array(row.bytes.byteLength / 4);
+    new Uint8Array(values.buffer).set(row.bytes);
+    return { meta: JSON.parse(row.meta) as StoredGridMeta, values };
+  }
+
+  storeRunResult(runId: string, result: {
+    files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
+    grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
+    record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
+  }): void {
+    this.db.transaction(() => {
+      for (const f of result.files) this.putRunFile(runId, f.name, f.ext, this.putBlob(f.bytes), f.contentType);
+      for (const g of result.grids) {
+        const bytes = new Uint8Array(g.values.buffer, g.values.byteOffset, g.values.byteLength);
+        this.putRunGrid(runId, g.name, g.meta, this.putBlob(bytes));
+      }
+      this.updateRun(runId, result.record);
+    })();
+  }
+
   close(): void {
     this.db.close();
   }
+}
+
+interface RunRow {
+  id: string; cache_key: string; request: string; status: RunStatus; progress: number; message: string; layers: string;
+  summary: string | null; warnings: string; model: string | null; grids: string; client: string; created_at: string; updated_at: string;
+}
+
+function runFromRow(r: RunRow): RunRecord {
+  return {
+    id: r.id,
+    cacheKey: r.cache_key,
+    request: JSON.parse(r.request),
+    status: r.status,
+    progress: r.progress,
+    message: r.message,
+    layers: JSON.parse(r.layers) as unknown[],
+    summary: r.summary === null ? null : (JSON.parse(r.summary) as Record<string, unknown>),
+    warnings: JSON.parse(r.warnings) as string[],
+    model: r.model === null ? null : JSON.parse(r.model),
+    grids: JSON.parse(r.grids) as string[],
+    client: r.client,
+    createdAt: r.created_at,
+    updatedAt: r.updated_at,
+  };
 }
 
 function strip(r: DatasetRecord & { body?: string }): DatasetRecord {

@@ -1,0 +1,82 @@
+/** What every route module is given, and the small request functions they share. */
+import type { Context } from 'hono';
+import type { IncomingMessage } from 'node:http';
+import { InputError } from '../../shared/errors.ts';
+import type { Limits } from '../limits.ts';
+import type { RunJobs } from '../runs/jobs.ts';
+import type { RunGridCache } from '../runs/grids.ts';
+import type { Store } from '../store/types.ts';
+import { jsonDepthExceeds } from './schemas.ts';
+
+export interface AppContext {
+  store: Store;
+  limits: Limits;
+  jobs: RunJobs;
+  grids: RunGridCache;
+  /** Absolute path of the run worker module. */
+  workerFile: string;
+}
+
+/** Errors under /api/ are always `{ error: { code, message, details } }`. */
+export function errorBody(code: string, message: string, details: unknown[] = []) {
+  return { error: { code, message, details } };
+}
+
+/** The request body as text (UTF-8; invalid sequences become U+FFFD, then fail validation). */
+export async function bodyText(c: Context): Promise<string> {
+  return await c.req.text();
+}
+
+/** Deepest nesting any JSON body may have (a MultiPolygon FeatureCollection needs 8; saved states get 64). */
+export const MAX_BODY_JSON_DEPTH = 100;
+
+/**
+ * Parses JSON text; malformed JSON is a 400 that says where it broke, and nesting deeper than
+ * MAX_BODY_JSON_DEPTH a 422 (deeper values would overflow the stack of every recursive step after parsing).
+ */
+export function parseJsonText(text: string): unknown {
+  let v: unknown;
+  try {
+    v = JSON.parse(text) as unknown;
+  } catch (e) {
+    throw new InputError(`the request body is not valid JSON: ${(e as Error).message}`, [{ field: '(body)', problem: 'malformed JSON' }], 'bad_json', 400);
+  }
+  if (jsonDepthExceeds(v, MAX_BODY_JSON_DEPTH)) {
+    throw new InputError(`the JSON body is nested deeper than ${MAX_BODY_JSON_DEPTH} levels`, [{ field: '(body)', problem: `at most ${MAX_BODY_JSON_DEPTH} levels of nesting` }], 'too_deep', 422);
+  }
+  return v;
+}
+
+/** Parses the body as JSON (see parseJsonText); an empty body is a 400. */
+export async function jsonBody(c: Context): Promise<unknown> {
+  const text = await bodyText(c);
+  if (text.trim() === '') throw new InputError('the request body is empty: send a JSON object', [{ field: '(body)', problem: 'empty' }], 'empty_body', 400);
+  return parseJsonText(text);
+}
+
+/** Requires a JSON media type (or none) on a JSON route. */
+export function requireJsonType(c: Context): void {
+  const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
+  if (type !== '' && type !== 'application/json' && !type.endsWith('+json')) {
+    throw new InputError(`expected a JSON body (content-type application/json), got ${type}`, [{ field: 'content-type', problem: `unsupported: ${type}` }], 'unsupported_media_type', 415);
+  }
+}
+
+/** The client's address for per-client limits: the socket's peer (proxy headers are not trusted). */
+export function clientAddress(c: Context): string {
+  const incoming = (c.env as { incoming?: IncomingMessage } | undefined)?.incoming;
+  return incoming?.socket?.remoteAddress ?? 'local';
+}
+
+export function notFound(what: string, id: string, code: string): InputError {
+  return new InputError(`no ${what} with id "${id}"`, [{ field: 'id', problem: 'not found' }], code, 404);
+}
+
+/** The query parameters, each given at most once (a repeated one is ambiguous: 400). */
+export function singleQuery(c: Context): Record<string, string> {
+  const all = c.req.queries();
+  for (const [k, v] of Object.entries(all)) {
+    if (v.length > 1) throw new InputError(`query parameter "${k}" is given ${v.length} times; give it once`, [{ field: k, problem: 'repeated' }], 'bad_query', 400);
+  }
+  return c.req.query();
+}

@@ -1,0 +1,134 @@
+/** POST /api/column (the map inspector's click) and POST /api/section (a vertical section along a line). */
+import type { Hono } from 'hono';
+import { InputError } from '../../shared/errors.ts';
+import type { ThermalModelInput } from '../../shared/schema/model.ts';
+import type { RunRequest } from '../../shared/schema/run.ts';
+import { computeColumn } from '../runs/column.ts';
+import { sampleAtLonLat, type RunGrid } from '../runs/grids.ts';
+import { modelFromJson } from '../runs/model-input.ts';
+import { computeSection, linesOf, type LineFeature } from '../runs/section.ts';
+import type { RunRecord } from '../store/types.ts';
+import { jsonBody, notFound, requireJsonType, type AppContext } from './context.ts';
+import { columnAtRunSchema, columnOfModelSchema, parseWith, sectionSchema } from './schemas.ts';
+
+/** Realizations of the column band for a run with realizations (seeded by the run's seed). */
+export const COLUMN_BAND_REALIZATIONS = 200;
+
+export function inspectRoutes(app: Hono, ctx: AppContext): void {
+  const doneRun = async (runId: string): Promise<{ run: RunRecord; heat: RunGrid; sd: RunGrid | null }> => {
+    const run = ctx.store.getRun(runId);
+    if (!run) throw notFound('run', runId, 'run_not_found');
+    if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}: columns and sections need a finished run`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done', 409);
+    const heat = await ctx.grids.get(runId, 'heatFlow');
+    if (!heat) throw new InputError(`run ${runId} stored no heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid', 409);
+    return { run, heat, sd: await ctx.grids.get(runId, 'heatFlowSd') };
+  };
+  const runModel = (run: RunRecord): ThermalModelInput => {
+    if (run.model !== null && run.model !== undefined) return modelFromJson(run.model, `run ${run.id} model`).model;
+    const m = (run.request as RunRequest).model;
+    if (typeof m !== 'string') return modelFromJson(m, 'model').model;
+    const rec = ctx.store.getDataset(m);
+    if (!rec) throw new InputError(`the model data set ${m} of run ${run.id} is gone`, [{ field: 'model', problem: 'not found' }], 'dataset_not_found', 404);
+    return modelFromJson(JSON.parse(rec.body), `model ${m}`).model;
+  };
+
+  app.post('/api/column', async (c) => {
+    requireJsonType(c);
+    const body = await jsonBody(c);
+    const hasRun = body !== null && typeof body === 'object' && !Array.isArray(body) && 'runId' in body;
+    if (hasRun) {
+      const q = parseWith(columnAtRunSchema, body, 'column request', 'invalid_column');
+      checkSamples(q.maxDepthKm, q.stepKm);
+      const { run, heat, sd } = await doneRun(q.runId);
+      const req = run.request as RunRequest;
+      const q0 = sampleAtLonLat(heat, q.lon, q.lat);
+      if (!Number.isFinite(q0)) {
+        throw new InputError(`no heat-flow value at ${q.lon}, ${q.lat}: outside the run's grid or in a no-data cell`, [{ field: 'lon,lat', problem: 'no data at this point' }], 'no_data_here', 422);
+      }
+      const s = sd ? sampleAtLonLat(sd, q.lon, q.lat) : NaN;
+      const realizations = (req.realizations ?? 0) > 0 ? COLUMN_BAND_REALIZATIONS : 0;
+      const out = computeColumn({
+        model: runModel(run),
+        heatFlowMWm2: q0,
+        heatFlowSdMWm2: Number.isFinite(s) ? s : undefined,
+        isothermsC: q.isothermsC ?? req.isothermsC ?? [300, 500],
+        depthsKm: q.depthsKm ?? req.depthsKm ?? [5, 10],
+        maxDepthKm: q.maxDepthKm,
+        stepKm: q.stepKm,
+        realizations,
+        seed: req.seed ?? 0, // the pipeline's default seed
+      });
+      return c.json({ runId: run.id, lon: q.lon, lat: q.lat, ...out });
+    }
+    const q = parseWith(columnOfModelSchema, body, 'column request', 'invalid_column');
+    checkSamples(q.maxDepthKm, q.stepKm);
+    let model: ThermalModelInput;
+    if (typeof q.model === 'string') {
+      const rec = ctx.store.getDataset(q.model);
+      if (!rec) throw notFound('data set', q.model, 'dataset_not_found');
+      if (rec.kind !== 'model') throw new InputError(`data set ${q.model} holds ${rec.kind}, not a model`, [{ field: 'model', problem: `expected a model, got ${rec.kind}` }], 'wrong_dataset_kind', 422);
+      model = modelFromJson(JSON.parse(rec.body), `model ${q.model}`).model;
+    } else {
+      model = modelFromJson(q.model, 'model').model;
+    }
+    const out = computeColumn({
+      model,
+      heatFlowMWm2: q.heatFlowMWm2,
+      heatFlowSdMWm2: q.heatFlowSdMWm2,
+      isothermsC: q.isothermsC ?? [300, 500],
+      depthsKm: q.depthsKm ?? [5, 10],
+      maxDepthKm: q.maxDepthKm,
+      stepKm: q.stepKm,
+      realizations: q.realizations,
+      seed: q.seed,
+    });
+    return c.json(out);
+  });
+
+  app.post('/api/section', async (c) => {
+    requireJsonType(c);
+    const q = parseWith(sectionSchema, await jsonBody(c), 'section request', 'invalid_section');
+    const { run, heat } = await doneRun(q.runId);
+    const req = run.request as RunRequest;
+    const faults: LineFeature[] = [];
+    if (req.faults !== undefined) {
+      const rec = ctx.store.getDataset(req.faults);
+      if (rec) for (const f of (JSON.parse(rec.body) as { features: { id?: string; geometry: unknown; properties: Record<string, unknown> }[] }).features) {
+        faults.push({ id: f.id ?? (f.properties.id as string | undefined), properties: pick(f.properties, ['id', 'name', 'kind', 'dipDeg', 'dipDirectionDeg']), lines: linesOf(f.geometry) });
+      }
+    }
+    const isograds: LineFeature[] = [];
+    const iso = ctx.store.getRunFile(run.id, 'isograds', 'geojson');
+    if (iso) {
+      try {
+        const fc = JSON.parse(new TextDecoder().decode(iso.bytes)) as { features?: { id?: string; geometry: unknown; properties?: Record<string, unknown> }[] };
+        for (const f of fc.features ?? []) isograds.push({ id: f.id, properties: f.properties ?? {}, lines: linesOf(f.geometry) });
+      } catch {
+        // A run's own layer that does not parse is a server fault; the section is still useful without it.
+        console.error(`[${new Date().toISOString()}] run ${run.id}: isograds layer is not valid GeoJSON`);
+      }
+    }
+    const out = computeSection({
+      heatFlow: heat,
+      model: runModel(run),
+      line: q.line,
+      maxDepthKm: q.maxDepthKm,
+      samples: q.samples,
+      depthSamples: q.depthSamples,
+      isothermsC: req.isothermsC ?? [300, 500],
+      faults,
+      isograds,
+    });
+    return c.json({ runId: run.id, ...out });
+  });
+}
+
+function checkSamples(maxDepthKm: number, stepKm: number): void {
+  if (maxDepthKm / stepKm > 3000) {
+    throw new InputError(`too many depth samples: maxDepthKm / stepKm = ${Math.ceil(maxDepthKm / stepKm)} (limit 3000)`, [{ field: 'stepKm', problem: 'use a larger step' }], 'invalid_column', 422);
+  }
+}
+
+function pick(o: Record<string, unknown>, keys: string[]): Record<string, unknown> {
+  return Object.fromEntries(keys.filter((k) => o[k] !== undefined).map((k) => [k, o[k]]));
+}

@@ -1,0 +1,94 @@
+/** GET /api/openapi.json: an OpenAPI 3.1 description of the API, its request bodies generated from the zod schemas. */
+import type { Hono } from 'hono';
+import { z } from 'zod';
+import { runRequestSchema } from '../../shared/schema/run.ts';
+import { thermalModelSchema } from '../../shared/schema/model.ts';
+import { VERSION } from '../../shared/version.ts';
+import { columnAtRunSchema, columnOfModelSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
+
+const json = (schema: z.ZodType) => z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any', target: 'draft-2020-12' });
+
+const errorSchema = {
+  type: 'object',
+  required: ['error'],
+  properties: {
+    error: {
+      type: 'object',
+      required: ['code', 'message', 'details'],
+      properties: {
+        code: { type: 'string' },
+        message: { type: 'string' },
+        details: { type: 'array', items: { type: 'object', properties: { feature: { type: ['string', 'number'] }, field: { type: 'string' }, problem: { type: 'string' } } } },
+      },
+    },
+  },
+};
+
+function op(summary: string, opts: { body?: Record<string, unknown>; bodyType?: string; ok?: string; okType?: string; errors?: number[]; params?: string[]; query?: Record<string, string>; auth?: boolean } = {}) {
+  const o: Record<string, unknown> = { summary };
+  const params: unknown[] = (opts.params ?? []).map((name) => ({ name, in: 'path', required: true, schema: { type: 'string' } }));
+  for (const [name, description] of Object.entries(opts.query ?? {})) params.push({ name, in: 'query', required: false, description, schema: { type: 'string' } });
+  if (params.length) o.parameters = params;
+  if (opts.body) o.requestBody = { required: true, content: { [opts.bodyType ?? 'application/json']: { schema: opts.body } } };
+  if (opts.auth) o.security = [{ editToken: [] }];
+  const responses: Record<string, unknown> = { [opts.ok ?? '200']: { description: 'success', content: { [opts.okType ?? 'application/json']: {} } } };
+  for (const e of opts.errors ?? []) responses[String(e)] = { description: 'error', content: { 'application/json': { schema: { $ref: '#/components/schemas/Error' } } } };
+  o.responses = responses;
+  return o;
+}
+
+let cached: unknown = null;
+
+/** The OpenAPI document (built once). */
+export function openApiDocument(): unknown {
+  cached ??= {
+    openapi: '3.1.0',
+    info: { title: 'subtherm HTTP API', version: VERSION, description: 'Screening estimates from steady-state conduction; see the caution in GET /api/config.' },
+    components: {
+      schemas: { Error: errorSchema },
+      securitySchemes: { editToken: { type: 'http', scheme: 'bearer', description: 'the editToken returned by POST /api/projects' } },
+    },
+    paths: {
+      '/api/health': { get: op('server health and version') },
+      '/api/config': { get: op('caution text, demo data set ids, terrain tile source') },
+      '/api/openapi.json': { get: op('this document') },
+      '/api/datasets': {
+        get: op('list stored data sets'),
+        post: op('store a data set (GeoJSON, point CSV or a thermal model)', {
+          query: { kind: 'sites | samples | faults | wells | regions | model', title: 'optional title' },
+          body: { type: 'object', description: 'GeoJSON FeatureCollection (application/geo+json), CSV (text/csv) or, for kind=model, the model JSON' },
+          ok: '201',
+          errors: [400, 413, 415, 422],
+        }),
+      },
+      '/api/datasets/{id}': { get: op('a stored data set', { params: ['id'], okType: 'application/geo+json', errors: [404] }) },
+      '/api/runs': { post: op('queue a run (202), or get the cached run with the same inputs (200)', { body: json(runRequestSchema), ok: '202', errors: [400, 404, 413, 415, 422, 429, 503] }) },
+      '/api/runs/{id}': {
+        get: op('a run: status, progress, message, layers with URLs, summary', { params: ['id'], errors: [404] }),
+        delete: op('cancel a queued or running run', { params: ['id'], errors: [404, 409] }),
+      },
+      '/api/runs/{id}/events': { get: op('progress as Server-Sent Events (event: progress, then end)', { params: ['id'], okType: 'text/event-stream', errors: [404] }) },
+      '/api/runs/{id}/layers/{file}': { get: op('a layer file: <name>.tif | .png | .geojson | .csv', { params: ['id', 'file'], okType: 'application/octet-stream', errors: [400, 404] }) },
+      '/api/runs/{id}/tiles/{layer}.json': { get: op('raster-dem source description of a raster layer', { params: ['id', 'layer'], errors: [400, 404, 422] }) },
+      '/api/runs/{id}/tiles/{layer}/{z}/{x}/{y}.png': { get: op('raster-dem tile of a raster layer', { params: ['id', 'layer', 'z', 'x', 'y'], okType: 'image/png', errors: [400, 404] }) },
+      '/api/runs/{id}/heat-in-place': { post: op('heat-in-place report over a finished run', { params: ['id'], body: { type: 'object', properties: { polygon: {}, zones: {}, zoneProperty: { type: 'string' }, options: { type: 'object' } } }, errors: [400, 404, 422] }) },
+      '/api/column': {
+        post: op('geotherm column at a point of a run, or of a model at a heat flow', { body: { oneOf: [json(columnAtRunSchema), json(columnOfModelSchema)] }, errors: [400, 404, 409, 415, 422] }),
+      },
+      '/api/section': { post: op('vertical temperature section along a line through a run', { body: json(sectionSchema), errors: [400, 404, 409, 415, 422] }) },
+      '/api/projects': { post: op('create a shared project; returns its edit token once', { body: json(projectCreateSchema), ok: '201', errors: [400, 413, 415, 422] }) },
+      '/api/projects/{id}': {
+        get: op('a project (latest revision, or ?revision=N)', { params: ['id'], query: { revision: 'revision number' }, errors: [400, 404] }),
+        put: op('save a new revision (Authorization: Bearer <editToken>)', { params: ['id'], body: json(projectUpdateSchema), auth: true, errors: [400, 401, 403, 404, 413, 415, 422] }),
+      },
+      '/api/projects/{id}/revisions': { get: op('list revisions', { params: ['id'], errors: [404] }) },
+      '/api/terrain/{z}/{x}/{y}.png': { get: op('terrain raster-dem tile', { params: ['z', 'x', 'y'], okType: 'image/png', errors: [400, 404] }) },
+    },
+    'x-thermal-model': json(thermalModelSchema),
+  };
+  return cached;
+}
+
+export function openApiRoutes(app: Hono): void {
+  app.get('/api/openapi.json', (c) => c.json(openApiDocument()));
+}

@@ -1,0 +1,208 @@
+/**
+ * Runs: POST /api/runs queues a run (or returns the cached one), GET /api/runs/:id reports it, GET …/events
+ * streams its progress (Server-Sent Events), DELETE cancels it, GET …/layers/:name.:ext serves its files.
+ */
+import type { Hono } from 'hono';
+import { streamSSE } from 'hono/streaming';
+import { existsSync } from 'node:fs';
+import { InputError } from '../../shared/errors.ts';
+import { kmPerDegree } from '../../shared/interp/projection.ts';
+import { runRequestSchema, type RunLayerInfo, type RunRequest } from '../../shared/schema/run.ts';
+import { interpolationOptionsSchema } from '../../shared/schema/interp.ts';
+import { VERSION } from '../../shared/version.ts';
+import { isTerminal, type RunSnapshot } from '../runs/jobs.ts';
+import { modelFromJson } from '../runs/model-input.ts';
+import { LAYER_EXTS, type LayerExt } from '../runs/types.ts';
+import { sha256Hex } from '../store/sqlite.ts';
+import type { DatasetRecord, RunRecord } from '../store/types.ts';
+import { clientAddress, jsonBody, notFound, requireJsonType, type AppContext } from './context.ts';
+import { idSchema, parseWith } from './schemas.ts';
+
+/** JSON with object keys sorted at every level: the canonical form hashed for the run cache. */
+export function canonicalJson(v: unknown): string {
+  if (v === null || typeof v !== 'object') return JSON.stringify(v) ?? 'null';
+  if (Array.isArray(v)) return `[${v.map(canonicalJson).join(',')}]`;
+  const o = v as Record<string, unknown>;
+  return `{${Object.keys(o)
+    .filter((k) => o[k] !== undefined)
+    .sort()
+    .map((k) => `${JSON.stringify(k)}:${canonicalJson(o[k])}`)
+    .join(',')}}`;
+}
+
+const ROLE_KINDS = { sites: 'sites', samples: 'samples', faults: 'faults', regions: 'regions' } as const;
+
+/** Layer description with the URL of each of its formats. */
+export function withUrls(runId: string, info: RunLayerInfo): RunLayerInfo & { urls: Record<string, string> } {
+  const base = `/api/runs/${encodeURIComponent(runId)}/layers/${encodeURIComponent(info.name)}`;
+  return { ...info, urls: Object.fromEntries((info.formats ?? []).map((f) => [f, `${base}.${f}`])) };
+}
+
+/** GET /api/runs/:id body. */
+export function runView(rec: RunRecord, live: RunSnapshot | null) {
+  const s = live ?? { status: rec.status, progress: rec.progress, message: rec.message };
+  return {
+    id: rec.id,
+    status: s.status,
+    progress: s.progress,
+    message: s.message,
+    layers: (rec.layers as RunLayerInfo[]).map((l) => withUrls(rec.id, l)),
+    summary: rec.summary,
+    warnings: rec.warnings,
+    request: rec.request,
+    createdAt: rec.createdAt,
+    updatedAt: rec.updatedAt,
+  };
+}
+
+/** Number of output cells the request asks for (from size, or bbox/sites extent and cellKm); null if unknown. */
+export function requestedCells(req: RunRequest, sitesBody: string): number | null {
+  const ip = req.interpolation as { size?: [number, number]; cellKm?: number; bbox?: [number, number, number, number] };
+  const size = req.grid.size ?? ip.size;
+  const cellKm = req.grid.cellKm ?? ip.cellKm;
+  if (size) return size[0] * size[1];
+  if (cellKm === undefined) return null;
+  let bbox = req.grid.bbox ?? ip.bbox;
+  if (!bbox) {
+    const fc = JSON.parse(sitesBody) as { features: { geometry: { coordinates: number[] } }[] };
+    let w = Infinity, s = Infinity, e = -Infinity, n = -Infinity;
+    for (const f of fc.features) {
+      const [x, y] = f.geometry.coordinates;
+      w = Math.min(w, x); e = Math.max(e, x); s = Math.min(s, y); n = Math.max(n, y);
+    }
+    if (!(e >= w && n >= s)) return null;
+    bbox = [w, s, e, n];
+  }
+  const k = kmPerDegree((bbox[1] + bbox[3]) / 2);
+  const nx = Math.max(1, Math.ceil((Math.abs(bbox[2] - bbox[0]) * k.lon) / cellKm));
+  const ny = Math.max(1, Math.ceil((Math.abs(bbox[3] - bbox[1]) * k.lat) / cellKm));
+  return nx * ny;
+}
+
+export function runRoutes(app: Hono, ctx: AppContext): void {
+  app.post('/api/runs', async (c) => {
+    requireJsonType(c);
+    const request = parseWith(runRequestSchema, await jsonBody(c), 'run request', 'invalid_run');
+    // The engines' own options are validated here too, so a mistake is a 422 now rather than a failed run later.
+    parseWith(interpolationOptionsSchema, request.interpolation, 'interpolation options', 'invalid_run');
+    if (request.maskToRegion && request.regions === undefined) {
+      throw new InputError('maskToRegion needs a regions data set', [{ field: 'regions', problem: 'missing (maskToRegion is set)' }], 'invalid_run', 422);
+    }
+    const crs = request.grid.crs ?? (request.interpolation as { crs?: string }).crs;
+    if (crs !== undefined && !/^EPSG:\d{4,6}$/i.test(crs)) {
+      throw new InputError(`grid.crs must be EPSG:nnnn, got "${crs}"`, [{ field: 'grid.crs', problem: 'expected EPSG:4326 or EPSG:nnnn' }], 'invalid_run', 422);
+    }
+    const datasets: Record<string, { kind: string; body: string }> = {};
+    const hashes: Record<string, string> = {};
+    const need = (role: string, id: string, kind: string): DatasetRecord & { body: string } => {
+      const rec = ctx.store.getDataset(id);
+      if (!rec) throw new InputError(`${role}: no data set with id "${id}"`, [{ field: role, problem: `data set ${id} not found` }], 'dataset_not_found', 404);
+      if (rec.kind !== kind) throw new InputError(`${role}: data set "${id}" holds ${rec.kind}, not ${kind}`, [{ field: role, problem: `expected a ${kind} data set, got ${rec.kind}` }], 'wrong_dataset_kind', 422);
+      return rec;
+    };
+    for (const [role, kind] of Object.entries(ROLE_KINDS)) {
+      const id = request[role as keyof typeof ROLE_KINDS];
+      if (id === undefined) continue;
+      const rec = need(role, id, kind);
+      datasets[id] = { kind: rec.kind, body: rec.body };
+      hashes[role] = rec.contentHash;
+    }
+    // The model: a data set id or inline JSON, validated here so a bad model never reaches a worker.
+    if (typeof request.model === 'string') {
+      const rec = need('model', request.model, 'model');
+      const { model } = modelFromJson(JSON.parse(rec.body), `model ${request.model}`);
+      datasets[request.model] = { kind: 'model', body: JSON.stringify(model) };
+      hashes.model = rec.contentHash;
+    } else {
+      request.model = modelFromJson(request.model, 'model').model as unknown as Record<string, unknown>;
+    }
+    const cells = requestedCells(request, datasets[request.sites].body);
+    if (cells !== null && cells > ctx.limits.maxGridCells) {
+      throw new InputError(
+        `the output grid would have ${cells.toLocaleString('en')} cells (limit ${ctx.limits.maxGridCells.toLocaleString('en')}): use a larger cellKm, a smaller bbox or size`,
+        [{ field: 'grid', problem: `at most ${ctx.limits.maxGridCells} cells per grid` }],
+        'grid_too_large',
+        422,
+      );
+    }
+    if (!existsSync(ctx.workerFile)) {
+      throw new InputError('runs are not available on this server: the run worker is not installed', [], 'runs_unavailable', 503);
+    }
+    const cacheKey = sha256Hex(canonicalJson({ version: VERSION, request, inputs: hashes }));
+    const { id, cached } = ctx.jobs.submit({ request, datasets, cacheKey, client: clientAddress(c) });
+    const snap = ctx.jobs.snapshot(id);
+    return c.json({ id, status: snap?.status ?? 'queued', cached, url: `/api/runs/${id}`, events: `/api/runs/${id}/events` }, cached ? 200 : 202);
+  });
+
+  const getRun = (raw: string): RunRecord => {
+    const id = idSchema.safeParse(raw);
+    const rec = id.success ? ctx.store.getRun(id.data) : null;
+    if (!rec) throw notFound('run', raw, 'run_not_found');
+    return rec;
+  };
+
+  app.get('/api/runs/:id', (c) => {
+    const rec = getRun(c.req.param('id'));
+    return c.json(runView(rec, ctx.jobs.live(rec.id)));
+  });
+
+  app.delete('/api/runs/:id', (c) => {
+    const rec = getRun(c.req.param('id'));
+    const live = ctx.jobs.live(rec.id);
+    if (!live) {
+      throw new InputError(`run ${rec.id} has already ended (${rec.status}); nothing to cancel`, [{ field: 'status', problem: rec.status }], 'run_finished', 409);
+    }
+    const after = ctx.jobs.cancel(rec.id);
+    return c.json({ id: rec.id, status: after?.status ?? 'cancelled' });
+  });
+
+  app.get('/api/runs/:id/events', (c) => {
+    const rec = getRun(c.req.param('id'));
+    return streamSSE(c, async (stream) => {
+      let seq = 0;
+      const send = (s: RunSnapshot) => stream.writeSSE({ event: isTerminal(s.status) ? 'end' : 'progress', id: String(seq++), data: JSON.stringify(s) });
+      const first = ctx.jobs.snapshot(rec.id)!;
+      await send(first);
+      if (isTerminal(first.status)) return;
+      await new Promise<void>((resolve) => {
+        let done = false;
+        const stop = () => {
+          if (done) return;
+          done = true;
+          unsubscribe();
+          clearInterval(keepAlive);
+          resolve();
+        };
+        const unsubscribe = ctx.jobs.subscribe(rec.id, (s) => {
+          void send(s).then(() => {
+            if (isTerminal(s.status)) stop();
+          });
+        });
+        // A comment line now and then keeps proxies from closing a quiet stream.
+        const keepAlive = setInterval(() => void stream.write(': keep-alive\n\n'), 15_000);
+        stream.onAbort(stop);
+        // The run may have ended between the first snapshot and the subscription.
+        const now = ctx.jobs.snapshot(rec.id);
+        if (now && isTerminal(now.status)) void send(now).then(stop);
+      });
+    });
+  });
+
+  app.get('/api/runs/:id/layers/:file', (c) => {
+    const rec = getRun(c.req.param('id'));
+    const file = c.req.param('file');
+    const m = /^(.+)\.([a-z]+)$/.exec(file);
+    if (!m || !LAYER_EXTS.includes(m[2] as LayerExt)) {
+      throw new InputError(`layer files are <name>.tif, .png, .geojson or .csv, got "${file}"`, [{ field: 'file', problem: 'unknown format' }], 'bad_layer_format', 400);
+    }
+    const stored = ctx.store.getRunFile(rec.id, m[1], m[2]);
+    if (!stored) {
+      const why = rec.status === 'done' ? `the run has no layer file ${file}` : `the run is ${rec.status}; layers appear when it is done`;
+      throw new InputError(why, [{ field: 'file', problem: 'not found' }], 'layer_not_found', 404);
+    }
+    const etag = `"${stored.hash}"`;
+    const headers = { 'content-type': stored.contentType, etag, 'cache-control': 'private, max-age=3600', 'content-disposition': `inline; filename="${m[1]}.${m[2]}"` };
+    if (c.req.header('if-none-match') === etag) return c.body(null, 304, headers);
+    return c.body(new Uint8Array(stored.bytes), 200, headers);
+  });
+}

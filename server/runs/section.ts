@@ -1,0 +1,196 @@
+/**
+ * A vertical temperature section along a polyline (POST /api/section): the line is sampled at equal geodesic
+ * distances on the WGS84 ellipsoid (Karney 2013, geographiclib-geodesic), each sample's surface heat flow is read
+ * bilinearly from the run's heat-flow grid, and the thermal engine solves that column (shared/thermal) on a depth
+ * axis. Facies per cell from shared/petrology at (T, lithostatic P). Faults and isograds that cross the line are
+ * located by segment intersection in longitude/latitude (adequate for the short segments of a drawn line; the
+ * distance to the crossing is then measured geodesically).
+ */
+import geodesic from 'geographiclib-geodesic';
+import { CAUTION } from '../../shared/caution.ts';
+import { InputError } from '../../shared/errors.ts';
+import { FACIES_FIELDS, FACIES_DIAGRAM_LIMITS, FACIES_NAMES } from '../../shared/petrology/index.ts';
+import type { ThermalModelInput } from '../../shared/schema/model.ts';
+import {
+  ColumnState,
+  columnIsothermDepth,
+  columnTemperature,
+  compileModel,
+  lithostaticPressureMPa,
+  nominalModel,
+  solveColumn,
+} from '../../shared/thermal/index.ts';
+import { sampleAtLonLat, type RunGrid } from './grids.ts';
+
+const WGS84 = geodesic.Geodesic.WGS84;
+
+export interface SectionQuery {
+  heatFlow: RunGrid;
+  model: ThermalModelInput;
+  line: [number, number][];
+  maxDepthKm: number;
+  /** Samples along the line (columns of the section). */
+  samples: number;
+  /** Samples with depth, from 0 to maxDepthKm (rows). */
+  depthSamples: number;
+  isothermsC: number[];
+  /** Fault features (LineString / MultiLineString) and isograd features; may be empty. */
+  faults: LineFeature[];
+  isograds: LineFeature[];
+}
+
+export interface LineFeature {
+  id?: string | number;
+  properties: Record<string, unknown>;
+  lines: number[][][];
+}
+
+const r3 = (v: number) => Math.round(v * 1e3) / 1e3;
+const r2 = (v: number) => Math.round(v * 1e2) / 1e2;
+const fin = (v: number, r: (x: number) => number): number | null => (Number.isFinite(v) ? r(v) : null);
+
+const FIELD_RINGS = FACIES_FIELDS.map((f) => Float64Array.from(f.polygon.flat()));
+
+/**
+ * Index into FACIES_NAMES of the field containing (temperatureC °C, pressureKbar kbar), or −1 outside the diagram:
+ * the same rule as classifyFacies in shared/petrology/facies.ts (first listed field whose ring contains the point or
+ * has it on an edge) without its boundary-distance search, which a 20,000-cell section cannot afford per cell.
+ */
+export function faciesIndexAt(t: number, p: number): number {
+  const L = FACIES_DIAGRAM_LIMITS;
+  if (!(t >= L.minTemperatureC && t <= L.maxTemperatureC && p >= L.minPressureKbar && p <= L.maxPressureKbar)) return -1;
+  for (let f = 0; f < FIELD_RINGS.length; f++) {
+    const r = FIELD_RINGS[f];
+    const n = r.length / 2;
+    let inside = false;
+    for (let i = 0, j = n - 1; i < n; j = i++) {
+      const ti = r[2 * i], pi = r[2 * i + 1], tj = r[2 * j], pj = r[2 * j + 1];
+      // On the edge (within 1e-9 in T/P units, as classifyFacies): the boundary belongs to the first field listed.
+      const dt = ti - tj, dp = pi - pj, l2 = dt * dt + dp * dp;
+      let u = l2 > 0 ? ((t - tj) * dt + (p - pj) * dp) / l2 : 0;
+      u = u < 0 ? 0 : u > 1 ? 1 : u;
+      const et = tj + u * dt - t, ep = pj + u * dp - p;
+      if (et * et + ep * ep < 1e-18) return FACIES_NAMES.indexOf(FACIES_FIELDS[f].name);
+      if (pi > p !== pj > p && t < ((tj - ti) * (p - pi)) / (pj - pi) + ti) inside = !inside;
+    }
+    if (inside) return FACIES_NAMES.indexOf(FACIES_FIELDS[f].name);
+  }
+  return -1;
+}
+
+/** Lines of a GeoJSON LineString or MultiLineString geometry (others give none). */
+export function linesOf(geometry: unknown): number[][][] {
+  const g = geometry as { type?: string; coordinates?: unknown } | null;
+  if (g?.type === 'LineString' && Array.isArray(g.coordinates)) return [g.coordinates as number[][]];
+  if (g?.type === 'MultiLineString' && Array.isArray(g.coordinates)) return g.coordinates as number[][][];
+  return [];
+}
+
+/** Parameter t ∈ [0, 1] along p→q where it crosses a→b (planar, lon/lat), or null when they do not cross. */
+function crossing(p: number[], q: number[], a: number[], b: number[]): { t: number; lon: number; lat: number } | null {
+  const rx = q[0] - p[0], ry = q[1] - p[1], sx = b[0] - a[0], sy = b[1] - a[1];
+  const den = rx * sy - ry * sx;
+  if (den === 0) return null; // parallel or degenerate: no single crossing point
+  const t = ((a[0] - p[0]) * sy - (a[1] - p[1]) * sx) / den;
+  const u = ((a[0] - p[0]) * ry - (a[1] - p[1]) * rx) / den;
+  if (t < 0 || t > 1 || u < 0 || u > 1) return null;
+  return { t, lon: p[0] + t * rx, lat: p[1] + t * ry };
+}
+
+/** Computes the section; see the module comment for the methods. */
+export function computeSection(q: SectionQuery): Record<string, unknown> {
+  const line = q.line;
+  // Cumulative geodesic distance at each vertex, km.
+  const cum = [0];
+  const segLines = [] as ReturnType<typeof WGS84.InverseLine>[];
+  for (let i = 1; i < line.length; i++) {
+    const gl = WGS84.InverseLine(line[i - 1][1], line[i - 1][0], line[i][1], line[i][0]);
+    segLines.push(gl);
+    cum.push(cum[i - 1] + gl.s13 / 1000);
+  }
+  const totalKm = cum[cum.length - 1];
+  if (!(totalKm > 1e-6)) {
+    throw new InputError('the section line has zero length: give at least two distinct vertices', [{ field: 'line', problem: 'all vertices coincide' }], 'invalid_section', 422);
+  }
+  const n = q.samples, nz = q.depthSamples;
+  const distanceKm = new Float64Array(n), lon = new Float64Array(n), lat = new Float64Array(n), heat = new Float64Array(n);
+  let seg = 0;
+  for (let j = 0; j < n; j++) {
+    const d = n === 1 ? 0 : (totalKm * j) / (n - 1);
+    while (seg < segLines.length - 1 && d > cum[seg + 1]) seg++;
+    const pos = segLines[seg].Position(Math.max(0, d - cum[seg]) * 1000);
+    distanceKm[j] = d;
+    lon[j] = pos.lon2 as number;
+    lat[j] = pos.lat2 as number;
+    heat[j] = sampleAtLonLat(q.heatFlow, lon[j], lat[j]);
+  }
+
+  const cm = compileModel(nominalModel(q.model), { maxDepthKm: q.maxDepthKm });
+  const depthKm = new Float64Array(nz);
+  const pressureKbar = new Float64Array(nz);
+  for (let k = 0; k < nz; k++) {
+    depthKm[k] = nz === 1 ? 0 : (q.maxDepthKm * k) / (nz - 1);
+    pressureKbar[k] = lithostaticPressureMPa(cm, depthKm[k]) / 100; // 1 kbar = 100 MPa
+  }
+  // Row-major, row 0 at the surface: value index = depthRow·samples + column.
+  const temperature: (number | null)[] = new Array(n * nz).fill(null);
+  const facies = new Int8Array(n * nz).fill(-1);
+  const isoCurves = q.isothermsC.map(() => new Array<number | null>(n).fill(null));
+  const st = new ColumnState(cm.nLayers);
+  let noData = 0;
+  for (let j = 0; j < n; j++) {
+    const q0 = heat[j];
+    if (!(q0 > 0)) {
+      noData++;
+      continue;
+    }
+    solveColumn(cm, q0, cm.surfaceTemperatureC, st);
+    for (let k = 0; k < nz; k++) {
+      const t = columnTemperature(cm, st, depthKm[k]);
+      if (!Number.isFinite(t)) continue;
+      temperature[k * n + j] = r2(t);
+      facies[k * n + j] = faciesIndexAt(t, pressureKbar[k]);
+    }
+    q.isothermsC.forEach((tc, i) => {
+      isoCurves[i][j] = fin(columnIsothermDepth(cm, st, tc, q.maxDepthKm), r3);
+    });
+  }
+
+  const crossings = (features: LineFeature[]) => {
+    const out: { id: string | number | null; distanceKm: number; lon: number; lat: number; properties: Record<string, unknown> }[] = [];
+    for (const f of features) {
+      for (const fl of f.lines) {
+        for (let a = 1; a < fl.length; a++) {
+          for (let i = 1; i < line.length; i++) {
+            const c = crossing(line[i - 1], line[i], fl[a - 1], fl[a]);
+            if (c === null) continue;
+            const along = WGS84.Inverse(line[i - 1][1], line[i - 1][0], c.lat, c.lon).s12 as number;
+            out.push({ id: f.id ?? (f.properties.id as string | undefined) ?? null, distanceKm: r3(cum[i - 1] + along / 1000), lon: c.lon, lat: c.lat, properties: f.properties });
+          }
+        }
+      }
+    }
+    return out.sort((x, y) => x.distanceKm - y.distanceKm);
+  };
+
+  const warnings: string[] = [...cm.warnings];
+  if (noData > 0) warnings.push(`${noData} of ${n} samples along the line have no heat-flow value (outside the run's grid or no data): their columns are empty`);
+  return {
+    lengthKm: r3(totalKm),
+    width: n,
+    height: nz,
+    distanceKm: Array.from(distanceKm, r3),
+    depthKm: Array.from(depthKm, r3),
+    positions: Array.from(lon, (x, j) => [x, lat[j]]),
+    heatFlowMWm2: Array.from(heat, (v) => fin(v, r2)),
+    temperatureC: temperature,
+    faciesNames: FACIES_NAMES,
+    faciesClass: Array.from(facies),
+    isotherms: q.isothermsC.map((t, i) => ({ temperatureC: t, depthKm: isoCurves[i] })),
+    faultCrossings: crossings(q.faults),
+    isogradCrossings: crossings(q.isograds),
+    method: 'steady-state conduction per column (no lateral heat flow); geodesic distances on WGS84',
+    warnings,
+    caution: CAUTION,
+  };
+}

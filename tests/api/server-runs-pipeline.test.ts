@@ -1,0 +1,132 @@
+// Runs through the real run worker (server/workers/run-worker.ts and the pipeline), in-process: queue → worker
+// thread → stored layers and grids → column and section read from the stored grids; real progress, cancel of a
+// real run, and the cache.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { mkdtempSync, rmSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+import { createApp } from '../../server/app.ts';
+import { SqliteStore } from '../../server/store/sqlite.ts';
+import { loadDemo } from '../../server/demo.ts';
+
+let dir: string;
+let store: SqliteStore;
+let app: ReturnType<typeof createApp>;
+let runId: string;
+const REQUEST = { sites: 'demo-sites', faults: 'demo-faults', model: 'demo-model', realizations: 20, seed: 5, grid: { cellKm: 8 } };
+const post = (path: string, body: unknown) => app.request(path, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body) });
+
+async function waitEnd(id: string): Promise<{ status: string; progress: number; message: string; layers: { name: string; formats: string[]; urls: Record<string, string> }[] }> {
+  for (let i = 0; i < 3000; i++) {
+    const r = (await (await app.request(`/api/runs/${id}`)).json()) as { status: string; progress: number; message: string; layers: { name: string; formats: string[]; urls: Record<string, string> }[] };
+    if (['done', 'failed', 'cancelled'].includes(r.status)) return r;
+    await new Promise((res) => setTimeout(res, 20));
+  }
+  throw new Error('run did not end');
+}
+
+beforeAll(() => {
+  dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-pipeline-'));
+  store = new SqliteStore(join(dir, 'db.sqlite'));
+  loadDemo(store);
+  app = createApp({ store, terrain: null, clientDir: null });
+});
+afterAll(async () => {
+  await app.jobs.close();
+  store.close();
+  rmSync(dir, { recursive: true, force: true });
+});
+
+describe('runs with the real pipeline', () => {
+  it('runs the demo, streaming real progress, and stores its layers and grids', async () => {
+    const res = await post('/api/runs', REQUEST);
+    expect(res.status).toBe(202);
+    runId = ((await res.json()) as { id: string }).id;
+    const sse = await (await app.request(`/api/runs/${runId}/events`)).text();
+    const messages = new Set([...sse.matchAll(/"message":"([^"]*)"/g)].map((m) => m[1]));
+    expect(messages.size).toBeGreaterThan(3); // the pipeline's own stage messages, not only queued/done
+    expect(sse).toMatch(/event: end\ndata: \{[^}]*"status":"done"/);
+    const run = await waitEnd(runId);
+    expect(run.status).toBe('done');
+    const hf = run.layers.find((l) => l.name === 'heat-flow')!;
+    expect(hf.formats).toContain('tif');
+    const tif = await app.request(hf.urls.tif);
+    expect(tif.headers.get('content-type')).toBe('image/tiff');
+    expect((await tif.arrayBuffer()).byteLength).toBeGreaterThan(1000);
+    expect(store.getRunGrid(runId, 'heatFlow')).not.toBeNull();
+  }, 60_000);
+
+  it('serves raster-dem tiles of a run layer and a heat-in-place report over the run (mounted sub-apps)', async () => {
+    const info = await app.request(`/api/runs/${runId}/tiles/heat-flow.json`);
+    expect(info.status).toBe(200);
+    const t = (await info.json()) as { tiles: string[]; bounds: number[]; minzoom: number; encoding: string };
+    expect(t.encoding).toBe('custom');
+    expect(t.tiles[0]).toContain(`/api/runs/${runId}/tiles/heat-flow/{z}/{x}/{y}.png`);
+    // The tile under the grid's centre at the minimum zoom (Web Mercator tile scheme, OSM slippy-map formulas).
+    const g = store.getRunGrid(runId, 'heatFlow')!.meta;
+    const lon = g.west + (g.width * g.dx) / 2, lat = g.north - (g.height * g.dy) / 2, z = t.minzoom;
+    const x = Math.floor(((lon + 180) / 360) * 2 ** z);
+    const y = Math.floor(((1 - Math.log(Math.tan((lat * Math.PI) / 180) + 1 / Math.cos((lat * Math.PI) / 180)) / Math.PI) / 2) * 2 ** z);
+    const tile = await app.request(`/api/runs/${runId}/tiles/heat-flow/${z}/${x}/${y}.png`);
+    expect(tile.status).toBe(200);
+    expect(tile.headers.get('content-type')).toBe('image/png');
+    expect((await app.request(`/api/runs/${runId}/tiles/no-such-layer.json`)).status).toBe(404);
+    const hip = await post(`/api/runs/${runId}/heat-in-place`, { options: { realizations: 0 } });
+    expect(hip.status).toBe(200);
+    expect((await post('/api/runs/run_nope/heat-in-place', {})).status).toBe(404);
+  });
+
+  it('returns the cached run for the same request', async () => {
+    const again = await post('/api/runs', { ...REQUEST, grid: { cellKm: 8 } });
+    expect(again.status).toBe(200);
+    expect(((await again.json()) as { id: string }).id).toBe(runId);
+  });
+
+  it('answers a column at a cell centre with that cell\'s heat flow, and a P10–P90 band', async () => {
+    const g = store.getRunGrid(runId, 'heatFlow')!;
+    const sd = store.getRunGrid(runId, 'heatFlowSd');
+    let col = -1, row = -1;
+    for (let k = 0; k < g.values.length && col < 0; k++) if (Number.isFinite(g.values[k]) && k % g.meta.width > 2 && k > 2 * g.meta.width) { col = k % g.meta.width; row = Math.floor(k / g.meta.width); }
+    const lon = g.meta.west + (col + 0.5) * g.meta.dx, lat = g.meta.north - (row + 0.5) * g.meta.dy;
+    const res = await post('/api/column', { runId, lon, lat });
+    expect(res.status).toBe(200);
+    const b = (await res.json()) as { surfaceHeatFlowMWm2: number; heatFlowSdMWm2: number | null; band: { temperatureC: { p10: number[]; p90: number[] } } | null };
+    expect(b.surfaceHeatFlowMWm2).toBeCloseTo(g.values[row * g.meta.width + col], 3);
+    if (sd) expect(b.heatFlowSdMWm2).toBeCloseTo(sd.values[row * g.meta.width + col], 3);
+    expect(b.band).not.toBeNull();
+    expect(b.band!.temperatureC.p10[20]).toBeLessThan(b.band!.temperatureC.p90[20]);
+    const sec = await post('/api/section', { runId, line: [[lon, lat], [lon + 5 * g.meta.dx, lat - 3 * g.meta.dy]], samples: 50, depthSamples: 40 });
+    expect(sec.status).toBe(200);
+    const s = (await sec.json()) as { temperatureC: (number | null)[]; heatFlowMWm2: (number | null)[] };
+    expect(s.heatFlowMWm2[0]).toBeCloseTo(b.surfaceHeatFlowMWm2, 1);
+    expect(s.temperatureC.filter((t) => t !== null).length).toBeGreaterThan(0);
+  });
+
+  it('cancels a real run in progress; the next run still completes', async () => {
+    const big = await post('/api/runs', { ...REQUEST, realizations: 2000, seed: 6, grid: { cellKm: 2 } });
+    const id = ((await big.json()) as { id: string }).id;
+    for (let i = 0; i < 1500; i++) {
+      const s = (await (await app.request(`/api/runs/${id}`)).json()) as { status: string; progress: number };
+      if (s.status === 'running' && s.progress > 0.05) break;
+      await new Promise((res) => setTimeout(res, 20));
+    }
+    expect((await app.request(`/api/runs/${id}`, { method: 'DELETE' })).status).toBe(200);
+    const end = await waitEnd(id);
+    expect(end.status).toBe('cancelled');
+    expect(end.progress).toBeLessThan(1);
+    const next = await post('/api/runs', { ...REQUEST, seed: 8 });
+    expect((await waitEnd(((await next.json()) as { id: string }).id)).status).toBe('done');
+  }, 90_000);
+
+  it('fails a run the pipeline rejects, with its message, without affecting the server', async () => {
+    const bad = await post('/api/runs', { ...REQUEST, seed: 9, maskToRegion: true }); // caught at the boundary
+    expect(bad.status).toBe(422);
+    // The pipeline grids heat flow only: another field passes the request schema but fails in the worker.
+    const res = await post('/api/runs', { ...REQUEST, seed: 9, interpolation: { method: 'idw', field: 'uncertaintyMWm2' } });
+    const id = ((await res.json()) as { id: string }).id;
+    const end = await waitEnd(id);
+    expect(end.status).toBe('failed');
+    expect(end.message).toContain('heatFlowMWm2');
+    expect((await app.request('/api/health')).status).toBe(200);
+  }, 60_000);
+});
