@@ -108,7 +108,7 @@ describe('data sets', () => {
     const rec = store.listDatasets().find((d) => d.id === id)!;
     expect(rec.title).toBe(demo.name);
     const body = (await (await app.request(`/api/datasets/${id}`)).json()) as Record<string, unknown>;
-    expect(body.name).toBeUndefined();
+    expect(body.name).toBe(demo.name); // the stored model keeps its descriptive name
     expect((body.layers as unknown[]).length).toBe(4);
   });
 
