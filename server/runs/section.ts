@@ -9,7 +9,7 @@
 import geodesic from 'geographiclib-geodesic';
 import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
-import { FACIES_FIELDS, FACIES_DIAGRAM_LIMITS, FACIES_NAMES } from '../../shared/petrology/index.ts';
+import { FACIES_NAMES, faciesIndexAt } from '../../shared/petrology/index.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
 import {
   ColumnState,
@@ -48,35 +48,6 @@ export interface LineFeature {
 const r3 = (v: number) => Math.round(v * 1e3) / 1e3;
 const r2 = (v: number) => Math.round(v * 1e2) / 1e2;
 const fin = (v: number, r: (x: number) => number): number | null => (Number.isFinite(v) ? r(v) : null);
-
-const FIELD_RINGS = FACIES_FIELDS.map((f) => Float64Array.from(f.polygon.flat()));
-
-/**
- * Index into FACIES_NAMES of the field containing (temperatureC °C, pressureKbar kbar), or −1 outside the diagram:
- * the same rule as classifyFacies in shared/petrology/facies.ts (first listed field whose ring contains the point or
- * has it on an edge) without its boundary-distance search, which a 20,000-cell section cannot afford per cell.
- */
-export function faciesIndexAt(t: number, p: number): number {
-  const L = FACIES_DIAGRAM_LIMITS;
-  if (!(t >= L.minTemperatureC && t <= L.maxTemperatureC && p >= L.minPressureKbar && p <= L.maxPressureKbar)) return -1;
-  for (let f = 0; f < FIELD_RINGS.length; f++) {
-    const r = FIELD_RINGS[f];
-    const n = r.length / 2;
-    let inside = false;
-    for (let i = 0, j = n - 1; i < n; j = i++) {
-      const ti = r[2 * i], pi = r[2 * i + 1], tj = r[2 * j], pj = r[2 * j + 1];
-      // On the edge (within 1e-9 in T/P units, as classifyFacies): the boundary belongs to the first field listed.
-      const dt = ti - tj, dp = pi - pj, l2 = dt * dt + dp * dp;
-      let u = l2 > 0 ? ((t - tj) * dt + (p - pj) * dp) / l2 : 0;
-      u = u < 0 ? 0 : u > 1 ? 1 : u;
-      const et = tj + u * dt - t, ep = pj + u * dp - p;
-      if (et * et + ep * ep < 1e-18) return FACIES_NAMES.indexOf(FACIES_FIELDS[f].name);
-      if (pi > p !== pj > p && t < ((tj - ti) * (p - pi)) / (pj - pi) + ti) inside = !inside;
-    }
-    if (inside) return FACIES_NAMES.indexOf(FACIES_FIELDS[f].name);
-  }
-  return -1;
-}
 
 /** Lines of a GeoJSON LineString or MultiLineString geometry (others give none). */
 export function linesOf(geometry: unknown): number[][][] {

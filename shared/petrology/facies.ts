@@ -50,66 +50,89 @@ export interface FaciesResult {
   nearestOther: FaciesName | null;
 }
 
-function inside(poly: [number, number][], t: number, p: number): boolean {
-  let c = false;
-  for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
-    const [ti, pi] = poly[i], [tj, pj] = poly[j];
-    if (pi > p !== pj > p && t < ((tj - ti) * (p - pi)) / (pj - pi) + ti) c = !c;
-  }
-  return c;
-}
-
-function onEdge(poly: [number, number][], t: number, p: number): boolean {
-  for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
-    if (segDist(poly[j], poly[i], t, p, 1, 1) < 1e-9) return true;
-  }
-  return false;
-}
-
-/** Distance from (t, p) to segment a–b in scaled units (T/ts, P/ps). */
-function segDist(a: [number, number], b: [number, number], t: number, p: number, ts: number, ps: number): number {
-  const ax = a[0] / ts, ay = a[1] / ps, bx = b[0] / ts, by = b[1] / ps, x = t / ts, y = p / ps;
-  const dx = bx - ax, dy = by - ay;
-  const l2 = dx * dx + dy * dy;
-  let u = l2 > 0 ? ((x - ax) * dx + (y - ay) * dy) / l2 : 0;
-  u = u < 0 ? 0 : u > 1 ? 1 : u;
-  const ex = ax + u * dx - x, ey = ay + u * dy - y;
-  return Math.sqrt(ex * ex + ey * ey);
-}
+export const FACIES_NAMES: readonly FaciesName[] = FACIES_FIELDS.map((f) => f.name);
 
 const L = FACIES_DIAGRAM_LIMITS;
+
+// Flat copies of the rings (T, P interleaved) and, per field, its boundary segments with other fields (the
+// diagram's outer edges left out) in boundary-width units — built once, so a classification allocates nothing.
+const RINGS = FACIES_FIELDS.map((f) => Float64Array.from(f.polygon.flat()));
+const BOUNDARY_SEGMENTS = FACIES_FIELDS.map((f) => {
+  const out: number[] = [];
+  const poly = f.polygon;
+  const ts = FACIES_BOUNDARY_WIDTH.temperatureC, ps = FACIES_BOUNDARY_WIDTH.pressureKbar;
+  for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
+    if (onDiagramEdge(poly[j], poly[i])) continue;
+    out.push(poly[j][0] / ts, poly[j][1] / ps, poly[i][0] / ts, poly[i][1] / ps);
+  }
+  return Float64Array.from(out);
+});
 
 function onDiagramEdge(a: [number, number], b: [number, number]): boolean {
   const same = (k: 0 | 1, v: number) => a[k] === v && b[k] === v;
   return same(0, L.minTemperatureC) || same(0, L.maxTemperatureC) || same(1, L.minPressureKbar) || same(1, L.maxPressureKbar);
 }
 
+/** Squared distance from (x, y) to segment (ax, ay)–(bx, by). */
+function segDist2(ax: number, ay: number, bx: number, by: number, x: number, y: number): number {
+  const dx = bx - ax, dy = by - ay;
+  const l2 = dx * dx + dy * dy;
+  let u = l2 > 0 ? ((x - ax) * dx + (y - ay) * dy) / l2 : 0;
+  u = u < 0 ? 0 : u > 1 ? 1 : u;
+  const ex = ax + u * dx - x, ey = ay + u * dy - y;
+  return ex * ex + ey * ey;
+}
+
+/**
+ * Index into FACIES_NAMES of the field containing (temperatureC °C, pressureKbar kbar), or −1 outside the diagram.
+ * A point on a shared edge (within 1e-9 °C/kbar) belongs to the first field listed. No allocation: for grids.
+ */
+export function faciesIndexAt(temperatureC: number, pressureKbar: number): number {
+  const t = temperatureC, p = pressureKbar;
+  if (!(t >= L.minTemperatureC && t <= L.maxTemperatureC && p >= L.minPressureKbar && p <= L.maxPressureKbar)) return -1;
+  for (let f = 0; f < RINGS.length; f++) {
+    const r = RINGS[f];
+    const n = r.length / 2;
+    let inside = false;
+    for (let i = 0, j = n - 1; i < n; j = i++) {
+      const ti = r[2 * i], pi = r[2 * i + 1], tj = r[2 * j], pj = r[2 * j + 1];
+      if (segDist2(tj, pj, ti, pi, t, p) < 1e-18) return f;
+      if (pi > p !== pj > p && t < ((tj - ti) * (p - pi)) / (pj - pi) + ti) inside = !inside;
+    }
+    if (inside) return f;
+  }
+  return -1;
+}
+
+/**
+ * Distance (in boundary widths, √((ΔT/50)² + (ΔP/1.5)²)) from a point to the nearest boundary of a field other than
+ * `fieldIndex`, and that field's index. Writes [distance, index] into `out`.
+ */
+export function faciesBoundaryDistance(fieldIndex: number, temperatureC: number, pressureKbar: number, out: Float64Array | number[]): void {
+  const x = temperatureC / FACIES_BOUNDARY_WIDTH.temperatureC, y = pressureKbar / FACIES_BOUNDARY_WIDTH.pressureKbar;
+  let best = Infinity, other = -1;
+  for (let f = 0; f < BOUNDARY_SEGMENTS.length; f++) {
+    if (f === fieldIndex) continue;
+    const s = BOUNDARY_SEGMENTS[f];
+    for (let k = 0; k < s.length; k += 4) {
+      const d = segDist2(s[k], s[k + 1], s[k + 2], s[k + 3], x, y);
+      if (d < best) { best = d; other = f; }
+    }
+  }
+  out[0] = Math.sqrt(best);
+  out[1] = other;
+}
+
+const scratch = new Float64Array(2);
+
 /**
  * Classifies a point (temperatureC °C, pressureKbar kbar) into a metamorphic facies of FACIES_FIELDS, with the
  * distance to the nearest boundary with another field; `approximate` when closer than one boundary width.
  */
 export function classifyFacies(temperatureC: number, pressureKbar: number): FaciesResult {
-  const t = temperatureC, p = pressureKbar;
-  if (!(t >= L.minTemperatureC && t <= L.maxTemperatureC && p >= L.minPressureKbar && p <= L.maxPressureKbar)) {
-    return { facies: null, approximate: false, boundaryDistance: NaN, nearestOther: null };
-  }
-  let found: FaciesField | null = null;
-  for (const f of FACIES_FIELDS) if (onEdge(f.polygon, t, p) || inside(f.polygon, t, p)) { found = f; break; }
-  if (found === null) return { facies: null, approximate: false, boundaryDistance: NaN, nearestOther: null };
-  let best = Infinity, other: FaciesName | null = null;
-  for (const f of FACIES_FIELDS) {
-    if (f === found) continue;
-    const poly = f.polygon;
-    for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
-      if (onDiagramEdge(poly[j], poly[i])) continue;
-      const d = segDist(poly[j], poly[i], t, p, FACIES_BOUNDARY_WIDTH.temperatureC, FACIES_BOUNDARY_WIDTH.pressureKbar);
-      if (d < best) {
-        best = d;
-        other = f.name;
-      }
-    }
-  }
-  return { facies: found.name, approximate: best < 1, boundaryDistance: best, nearestOther: other };
+  const f = faciesIndexAt(temperatureC, pressureKbar);
+  if (f < 0) return { facies: null, approximate: false, boundaryDistance: NaN, nearestOther: null };
+  faciesBoundaryDistance(f, temperatureC, pressureKbar, scratch);
+  const best = scratch[0];
+  return { facies: FACIES_NAMES[f], approximate: best < 1, boundaryDistance: best, nearestOther: scratch[1] >= 0 ? FACIES_NAMES[scratch[1]] : null };
 }
-
-export const FACIES_NAMES: readonly FaciesName[] = FACIES_FIELDS.map((f) => f.name);

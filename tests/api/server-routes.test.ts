@@ -9,7 +9,6 @@ import { fileURLToPath } from 'node:url';
 import { createApp } from '../../server/app.ts';
 import { SqliteStore } from '../../server/store/sqlite.ts';
 import { loadDemo, DEMO_DIR } from '../../server/demo.ts';
-import { faciesIndexAt } from '../../server/runs/section.ts';
 import { classifyFacies, FACIES_NAMES } from '../../shared/petrology/index.ts';
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import proj4 from 'proj4';
@@ -404,14 +403,6 @@ describe('section', () => {
     const failed = ((await (await post('/api/runs', { title: 'fail', sites: 'demo-sites', model: 'demo-model', seed: 401 })).json()) as { id: string }).id;
     await waitDone(app, failed);
     await errorOf(await post('/api/section', { runId: failed, line: [[0, 0], [1, 0]] }), 409, 'run_not_done');
-  });
-
-  it('classifies facies exactly as shared/petrology classifyFacies does', () => {
-    for (let t = 0; t <= 1100; t += 12.5) for (let p = 0; p <= 25; p += 0.25) {
-      const f = classifyFacies(t, p).facies;
-      expect(faciesIndexAt(t, p), `${t} °C ${p} kbar`).toBe(f === null ? -1 : FACIES_NAMES.indexOf(f));
-    }
-    expect(faciesIndexAt(-1, 1)).toBe(-1);
   });
 });
 

@@ -1,7 +1,8 @@
 // Server benchmark (fixed sizes, seeded PRNG; figures only, never a pass/fail on time), in-process:
 //  1. POST /api/column for a model (no band) and for a run cell with the 200-realization band; GET /api/projects/:id.
 //  2. POST /api/section, 200 × 100 cells.
-//  3. the section's facies lookup (faciesIndexAt) beside shared/petrology classifyFacies on the same points, as a ratio.
+//  3. the facies membership lookup (faciesIndexAt, used per cell by sections and grids) beside the full
+//     classifyFacies (membership + distance to the nearest boundary) on the same points, as a ratio.
 //  4. project saves (PUT, one SQLite transaction each) with synchronous = FULL (the server's setting) and NORMAL.
 import { mkdtempSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
@@ -9,7 +10,7 @@ import { tmpdir } from 'node:os';
 import { createApp } from '../../server/app.ts';
 import { SqliteStore } from '../../server/store/sqlite.ts';
 import { loadDemo } from '../../server/demo.ts';
-import { faciesIndexAt } from '../../server/runs/section.ts';
+import { faciesIndexAt } from '../../shared/petrology/index.ts';
 import { classifyFacies } from '../../shared/petrology/index.ts';
 import { createStream } from '../../shared/random/index.ts';
 import { runRequestSchema } from '../../shared/schema/run.ts';
