@@ -36,17 +36,8 @@ import { geojsonText, geotiffBytes, pngBytes, sha256Hex, sha256Json } from '../i
 // ---------------------------------------------------------------------------------------------------------------
 // Contract with the job queue (kept exactly).
 
-export interface SerializedGrid {
-  width: number;
-  height: number;
-  west: number;
-  north: number;
-  dx: number;
-  dy: number;
-  crs: string;
-  units: string;
-  values: Float32Array;
-}
+/** A grid as it crosses the thread boundary: the project's Grid with Float32 values (structured-cloneable). */
+export type SerializedGrid = Grid<Float32Array>;
 
 export interface RunFile {
   ext: 'tif' | 'png' | 'geojson' | 'csv';

@@ -3,7 +3,7 @@
  * what the worker posts while it works, and what it returns.
  */
 import type { MessagePort } from 'node:worker_threads';
-import type { RunLayerInfo, RunRequest } from '../../shared/schema/run.ts';
+import type { RunRequest } from '../../shared/schema/run.ts';
 
 export type LayerExt = 'tif' | 'png' | 'geojson' | 'csv';
 export const LAYER_EXTS: readonly LayerExt[] = ['tif', 'png', 'geojson', 'csv'];
@@ -15,18 +15,8 @@ export const LAYER_CONTENT_TYPES: Record<LayerExt, string> = {
   csv: 'text/csv; charset=utf-8',
 };
 
-/** A grid as it crosses the thread boundary (see shared/grid/grid.ts for the georeferencing convention). */
-export interface SerializedGrid {
-  width: number;
-  height: number;
-  west: number;
-  north: number;
-  dx: number;
-  dy: number;
-  crs: string;
-  units: string;
-  values: Float32Array;
-}
+// The worker's result and its grids are defined once, by the pipeline.
+export type { RunResult, SerializedGrid } from './pipeline.ts';
 
 export interface RunTask {
   request: RunRequest;
@@ -44,11 +34,3 @@ export interface RunProgressMessage {
   message: string;
 }
 
-export interface RunResult {
-  layers: { info: RunLayerInfo; files: { ext: LayerExt; bytes: Uint8Array }[] }[];
-  summary: Record<string, unknown>;
-  grids: { heatFlow: SerializedGrid; heatFlowSd?: SerializedGrid };
-  /** The validated model JSON the run used. */
-  model: unknown;
-  warnings: string[];
-}

@@ -1,3 +1,5 @@
+import type { GridSpec } from '../../shared/grid/grid.ts';
+
 /**
  * Storage behind an interface, so the embedded SQLite default can be joined by a server database for larger teams.
  * Everything stored is content-addressed by the SHA-256 of its canonical bytes where that makes sense: data set
@@ -56,17 +58,8 @@ export interface RunRecord {
   updatedAt: string;
 }
 
-/** Grid metadata as stored beside its Float32 values (a blob). */
-export interface StoredGridMeta {
-  width: number;
-  height: number;
-  west: number;
-  north: number;
-  dx: number;
-  dy: number;
-  crs: string;
-  units: string;
-}
+/** Grid metadata as stored beside its Float32 values (a blob): the grid's spec and units. */
+export type StoredGridMeta = GridSpec & { units: string };
 
 export interface Store {
   /** Stores a data set; with `id` given (the demo's stable ids) an existing record of that id is kept. */
