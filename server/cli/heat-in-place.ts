@@ -10,12 +10,9 @@ import { createHash } from 'node:crypto';
 import { readFile, writeFile } from 'node:fs/promises';
 import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
-import { isLonLatCrs } from '../../shared/geodesy/cell-area.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
-import { converter, loadCrsDefinition, metresPerUnit, WGS84_DEF } from '../../shared/interp/projection.ts';
 import {
   assessHeatInPlace,
-  gridCentresLonLat,
   parseAreaPolygon,
   parseHeatInPlaceOptions,
   parseZonePolygons,
@@ -25,13 +22,12 @@ import {
   zonesFromPolygons,
   type AreaGeometry,
   type HeatInPlaceReport,
-  type HeatInPlaceResult,
   type ZoneLabels,
 } from '../../shared/resource/index.ts';
 import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
 import { readGeoTiff } from '../io/geotiff.ts';
-import { densityPng, renderReportHtml } from '../io/report-html.ts';
 import { numberOption, parseVerbArgs } from './args.ts';
+import { gridGeometry, outlineInGrid, resultHtml } from '../io/resource-output.ts';
 
 const HELP = `subtherm heat-in-place --heat-flow G.tif --model M.json [options] [--json]
 
@@ -100,37 +96,6 @@ function uncertainOption(name: string, raw: string | undefined): unknown {
     }
   }
   return numberOption(name, raw);
-}
-
-/** Everything the assessment needs beyond the grids and options: projected-grid centres and units. */
-export async function gridGeometry(grid: Grid<Float32Array | Float64Array>, needCentres: boolean): Promise<{ centresLonLat?: { lon: Float64Array; lat: Float64Array }; metresPerUnit: number; toGrid?: (lon: number, lat: number) => [number, number] }> {
-  if (isLonLatCrs(grid.crs)) return { metresPerUnit: 1 };
-  const def = await loadCrsDefinition(grid.crs);
-  const conv = converter(def, WGS84_DEF);
-  const p: [number, number] = [0, 0];
-  return {
-    metresPerUnit: metresPerUnit(def),
-    centresLonLat: needCentres ? gridCentresLonLat(grid, (x, y) => conv.forward([x, y])) : undefined,
-    toGrid: (lon, lat) => {
-      p[0] = lon;
-      p[1] = lat;
-      return conv.inverse(p);
-    },
-  };
-}
-
-/** The polygon's rings in the grid's CRS, for the outline on the map excerpt. */
-export function outlineInGrid(polygon: AreaGeometry | undefined, toGrid: ((lon: number, lat: number) => [number, number]) | undefined): number[][][] | undefined {
-  if (polygon === undefined) return undefined;
-  return polygonsOf(polygon).flatMap((rings) => rings.map((ring) => ring.map((v) => (toGrid ? toGrid(v[0], v[1]) : [v[0], v[1]]))));
-}
-
-/** The HTML page of a result (map excerpt of the P50 density with realizations, else the nominal one). */
-export function resultHtml(res: HeatInPlaceResult, outline: number[][][] | undefined): string {
-  const mc = res.report.monteCarlo !== null;
-  const values = mc ? res.output.heatPJkm2!.p50 : res.output.nominalHeatPJkm2;
-  const map = densityPng(values, res.layout.width, res.layout.height);
-  return renderReportHtml(res.report, { map, grid: res.layout, outline, mapLabel: mc ? 'P50 of the realizations' : 'nominal' });
 }
 
 export async function heatInPlace(argv: string[]): Promise<number> {

@@ -26,7 +26,7 @@ import {
   type HeatInPlaceResult,
 } from '../../shared/resource/index.ts';
 import { parseThermalModel } from '../../shared/schema/model.ts';
-import { gridGeometry, outlineInGrid, resultHtml } from '../cli/heat-in-place.ts';
+import { gridGeometry, outlineInGrid, resultHtml } from '../io/resource-output.ts';
 
 type AnyGrid = Grid<Float32Array | Float64Array>;
 
