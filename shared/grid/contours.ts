@@ -1,17 +1,10 @@
 /**
- * Isolines of a continuous grid as open GeoJSON LineStrings in lon/lat (RFC 7946), from d3-contour's marching
- * squares (linear interpolation along cell edges).
- *
- * d3-contour returns, per threshold, the polygons of the region ≥ threshold in index space, where the sample of
- * cell (col, row) sits at (col + 0.5, row + 0.5); values outside the grid and NaN count as below every threshold.
- * So each ring is made of true isoline pieces plus pieces that only trace the grid border or a NoData edge. Every
- * ring segment lies inside one marching square whose corners are four samples; a segment is kept only when all
- * four are inside the grid and finite (a segment that lies exactly on a square's side, where a sample equals the
- * threshold, is checked against both squares). The kept runs of each ring become LineStrings (a ring with no cut
- * stays closed). Coordinates are mapped to the grid CRS once at the end (x = west + ix·dx, y = north − iy·dy) and
- * then to lon/lat by `toLonLat` (needed for a projected grid).
+ * Isolines of a continuous grid as open GeoJSON LineStrings in lon/lat (RFC 7946), by marching squares with linear
+ * interpolation along square sides (the method of d3-contour, which the tests use as the reference), traced as
+ * open lines directly: squares with a no-data corner draw nothing, so no line runs along no data or the border.
+ * Coordinates are mapped to the grid CRS once at the end (x = west + ix·dx, y = north − iy·dy) and then to lon/lat
+ * by `toLonLat` (needed for a projected grid).
  */
-import { contours as d3contours } from 'd3-contour';
 import type { Grid } from './grid.ts';
 
 export interface ContourOptions {
@@ -71,63 +64,131 @@ export function niceContourInterval(min: number, max: number, target = 12): numb
 }
 
 /**
- * Isolines of one level in index space: d3-contour's rings with the border and NoData segments removed.
- * `values` is row-major width × height (NaN = no data).
+ * Isolines of one level in index space. Equal to `isolinesIndexLevels(values, width, height, [level])[0]`.
  */
-export function isolinesIndex(values: ArrayLike<number>, width: number, height: number, level: number, generator = d3contours().size([width, height])): IndexLine[] {
-  const mp = generator.contour(values as number[], level);
-  const out: IndexLine[] = [];
-  const push = (line: IndexLine) => {
-    for (let i = 1; i < line.length; i++) if (line[i][0] !== line[0][0] || line[i][1] !== line[0][1]) { out.push(line); return; }
-  };
-  const finiteAt = (c: number, r: number) => {
-    if (c < 0 || r < 0 || c >= width || r >= height) return false;
-    const v = values[r * width + c];
-    return v === v && v !== Infinity && v !== -Infinity;
-  };
-  // The marching square holding a segment: corners (c, r), (c+1, r), (c, r+1), (c+1, r+1), c = ⌊mx − 0.5⌋.
-  // A midpoint exactly on a square's side belongs to both neighbours; both must be clean.
-  const squareOk = (mx: number, my: number) => {
-    const fx = mx - 0.5, fy = my - 0.5;
-    const c = Math.floor(fx), r = Math.floor(fy);
-    const c0 = fx === c ? c - 1 : c, r0 = fy === r ? r - 1 : r;
-    for (let rr = r0; rr <= r + 1; rr++) for (let cc = c0; cc <= c + 1; cc++) if (!finiteAt(cc, rr)) return false;
-    return true;
-  };
-  for (const polygon of mp.coordinates) {
-    for (const ring of polygon) {
-      const n = ring.length - 1; // closed: ring[n] equals ring[0]
-      if (n < 2) continue;
-      const good = new Uint8Array(n);
-      let nGood = 0;
-      for (let i = 0; i < n; i++) {
-        const a = ring[i], b = ring[i + 1];
-        // Zero-length (a sample equal to the level collapses two ends onto it): neutral, never a cut.
-        if ((a[0] === b[0] && a[1] === b[1]) || squareOk((a[0] + b[0]) / 2, (a[1] + b[1]) / 2)) { good[i] = 1; nGood++; }
+export function isolinesIndex(values: ArrayLike<number>, width: number, height: number, level: number): IndexLine[] {
+  return isolinesIndexLevels(values, width, height, [level])[0];
+}
+
+// Segment table of marching squares. Corner bits: top-left 8, top-right 4, bottom-right 2, bottom-left 1 (bit set
+// = sample ≥ level). Square edges: 0 top, 1 right, 2 bottom, 3 left. Each entry lists edge pairs; the two saddle
+// cases (5, 10) are resolved by the square's mean (the "asymptotic" centre value of the four samples).
+const SEGMENTS: number[][] = [
+  [], [3, 2], [2, 1], [3, 1], [0, 1], [], [0, 2], [3, 0],
+  [3, 0], [0, 2], [], [0, 1], [3, 1], [2, 1], [3, 2], [],
+];
+const SADDLE_5_CENTRE_ABOVE = [3, 0, 2, 1]; // tr and bl joined through the centre: cut off tl and br
+const SADDLE_5_CENTRE_BELOW = [3, 2, 0, 1]; // tr and bl isolated
+const SADDLE_10_CENTRE_ABOVE = [0, 1, 3, 2]; // tl and br joined: cut off tr and bl
+const SADDLE_10_CENTRE_BELOW = [3, 0, 2, 1]; // tl and br isolated
+
+/**
+ * Isolines of several levels in one pass (marching squares with linear interpolation along square sides, the
+ * method d3-contour uses; here written to give open lines directly). Each square is the one between four cell
+ * centres (col, row) … (col + 1, row + 1), whose samples sit at index coordinates (col + 0.5, row + 0.5); a square
+ * with a NaN or infinite corner draws nothing, so no line ever runs along no data or the grid border. Each square
+ * is visited once, and only the levels within its corners' range are traced: the cost is cells + segments, not
+ * cells × levels. Pieces are joined into polylines through their shared side crossings; a chain that meets itself
+ * is closed (first point = last). A sample exactly equal to a level counts as above it (≥), as in d3-contour.
+ * Returns one list of index-space lines per level, in the order of `levels`.
+ */
+export function isolinesIndexLevels(values: ArrayLike<number>, width: number, height: number, levels: readonly number[]): IndexLine[][] {
+  const nL = levels.length;
+  const order = levels.map((_, i) => i).sort((i, j) => levels[i] - levels[j]);
+  const sorted = order.map((i) => levels[i]);
+  // Per level: the crossing points' side ids, two per segment. Side id of the horizontal side from sample (c, r) to
+  // (c + 1, r): 2·(r·width + c); of the vertical side from (c, r) to (c, r + 1): 2·(r·width + c) + 1.
+  const segs: number[][] = sorted.map(() => []);
+  const fin = (v: number) => v === v && v !== Infinity && v !== -Infinity;
+  for (let r = 0; r + 1 < height; r++) {
+    for (let c = 0; c + 1 < width; c++) {
+      const i = r * width + c;
+      const tl = values[i], tr = values[i + 1], bl = values[i + width], br = values[i + width + 1];
+      if (!(fin(tl) && fin(tr) && fin(bl) && fin(br))) continue;
+      const lo = Math.min(tl, tr, bl, br), hi = Math.max(tl, tr, bl, br);
+      // Levels L with lo < L ≤ hi cross this square: first index with sorted[k] > lo.
+      let k0 = 0, k1 = sorted.length;
+      while (k0 < k1) {
+        const m = (k0 + k1) >> 1;
+        if (sorted[m] > lo) k1 = m;
+        else k0 = m + 1;
       }
-      if (nGood === 0) continue;
-      if (nGood === n) {
-        push(ring.map((p) => [p[0], p[1]] as [number, number]));
-        continue;
-      }
-      // Start just after a cut segment so no run wraps around the ring's start.
-      let s = 0;
-      while (good[s]) s++;
-      let line: IndexLine | null = null;
-      for (let k = 1; k <= n; k++) {
-        const i = (s + k) % n;
-        if (good[i]) {
-          if (line === null) line = [[ring[i][0], ring[i][1]]];
-          line.push([ring[i + 1][0], ring[i + 1][1]]);
-        } else if (line !== null) {
-          push(line);
-          line = null;
+      const side = [2 * i, 2 * (i + 1) + 1, 2 * (i + width), 2 * i + 1]; // top, right, bottom, left
+      for (let k = k0; k < sorted.length && sorted[k] <= hi; k++) {
+        const L = sorted[k];
+        const code = (tl >= L ? 8 : 0) | (tr >= L ? 4 : 0) | (br >= L ? 2 : 0) | (bl >= L ? 1 : 0);
+        let pairs = SEGMENTS[code];
+        if (code === 5 || code === 10) {
+          const above = (tl + tr + bl + br) / 4 >= L;
+          pairs = code === 5 ? (above ? SADDLE_5_CENTRE_ABOVE : SADDLE_5_CENTRE_BELOW) : above ? SADDLE_10_CENTRE_ABOVE : SADDLE_10_CENTRE_BELOW;
         }
+        const out = segs[k];
+        for (let p = 0; p < pairs.length; p += 2) out.push(side[pairs[p]], side[pairs[p + 1]]);
       }
-      if (line !== null) push(line);
     }
   }
-  return out;
+  // The index-space point where a level crosses a side (linear interpolation between its two samples).
+  const point = (id: number, L: number): [number, number] => {
+    const cell = id >> 1;
+    const r = Math.floor(cell / width), c = cell - r * width;
+    const v0 = values[cell];
+    if ((id & 1) === 0) {
+      const v1 = values[cell + 1];
+      return [c + 0.5 + (L - v0) / (v1 - v0), r + 0.5];
+    }
+    const v1 = values[cell + width];
+    return [c + 0.5, r + 0.5 + (L - v0) / (v1 - v0)];
+  };
+  const result: IndexLine[][] = new Array(nL);
+  for (let k = 0; k < sorted.length; k++) {
+    const L = sorted[k];
+    const s = segs[k];
+    // Each side crossing joins at most two segments (its two squares); link them.
+    const first = new Map<number, number>(), second = new Map<number, number>();
+    for (let j = 0; j < s.length; j++) {
+      if (first.has(s[j])) second.set(s[j], j);
+      else first.set(s[j], j);
+    }
+    const used = new Uint8Array(s.length >> 1);
+    const lines: IndexLine[] = [];
+    const other = (id: number, j: number) => {
+      const a = first.get(id)!, b = second.get(id);
+      const n = a === j ? b : a;
+      return n === undefined || n === j ? -1 : n;
+    };
+    const trace = (j0: number, startEnd: number) => {
+      // Walk from segment j0, entering at its end `startEnd` (0 or 1), until the chain ends or closes.
+      const ids: number[] = [];
+      let j = j0, e = startEnd;
+      ids.push(s[2 * j + e]);
+      for (;;) {
+        used[j] = 1;
+        const exit = s[2 * j + (1 - e)];
+        ids.push(exit);
+        const n = other(exit, 2 * j + (1 - e));
+        if (n < 0) break;
+        const nj = n >> 1;
+        if (used[nj]) break;
+        j = nj;
+        e = n & 1;
+      }
+      const line: IndexLine = [];
+      for (const id of ids) {
+        const p = point(id, L);
+        const last = line[line.length - 1];
+        if (last === undefined || last[0] !== p[0] || last[1] !== p[1]) line.push(p);
+      }
+      if (line.length >= 2) lines.push(line);
+    };
+    // Open chains first, from an end whose side crossing has no second segment; then the closed loops.
+    for (let j = 0; j < s.length; j++) {
+      if (used[j >> 1] || second.has(s[j])) continue;
+      trace(j >> 1, j & 1);
+    }
+    for (let j = 0; j < used.length; j++) if (!used[j]) trace(j, 0);
+    result[order[k]] = lines;
+  }
+  return result;
 }
 
 /**
@@ -143,10 +204,11 @@ export function contourGrid(grid: Grid<Float32Array | Float64Array>, opts: Conto
   const round = (v: number) => Math.round(v * f) / f;
   const toLonLat = opts.toLonLat;
   if (toLonLat === undefined && !/^EPSG:4326$/i.test(grid.crs)) throw new RangeError(`contours of a ${grid.crs} grid need a toLonLat converter`);
-  const gen = d3contours().size([grid.width, grid.height]);
   const features: ContourFeature[] = [];
-  for (const level of levels) {
-    for (const line of isolinesIndex(grid.values, grid.width, grid.height, level, gen)) {
+  const perLevel = isolinesIndexLevels(grid.values, grid.width, grid.height, levels);
+  for (let li = 0; li < levels.length; li++) {
+    const level = levels[li];
+    for (const line of perLevel[li]) {
       const coords: [number, number][] = [];
       for (const [ix, iy] of line) {
         const x = grid.west + ix * grid.dx, y = grid.north - iy * grid.dy;
