@@ -1,4 +1,6 @@
-/** Thin typed access to the server's JSON API. Errors carry the server's own message. */
+/** Thin typed access to the server's JSON API. Errors carry the server's own message and details. */
+import type { Legend, RunLayerInfo } from '../../shared/schema/run.ts';
+
 export interface AppConfig {
   version: string;
   caution: string;
@@ -6,15 +8,121 @@ export interface AppConfig {
   terrain: { tiles: string; bounds: [number, number, number, number]; minzoom: number; maxzoom: number; encoding: 'mapbox'; tileSize: number } | null;
 }
 
+/** One problem of a server validation report: which feature, which field, what is wrong. */
+export interface Problem {
+  feature?: number | string;
+  field?: string;
+  problem: string;
+}
+
 export class ApiError extends Error {
-  constructor(message: string, readonly status: number, readonly details: unknown[] = []) {
+  constructor(
+    message: string,
+    readonly status: number,
+    readonly details: Problem[] = [],
+    readonly code = '',
+  ) {
     super(message);
   }
 }
 
-export async function getJson<T>(path: string): Promise<T> {
-  const res = await fetch(path, { headers: { accept: 'application/json' } });
-  const body = (await res.json().catch(() => null)) as { error?: { message: string; details?: unknown[] } } | null;
-  if (!res.ok) throw new ApiError(body?.error?.message ?? `${res.status} ${res.statusText}`, res.status, body?.error?.details ?? []);
+type ErrorBody = { error?: { code?: string; message?: string; details?: Problem[] } } | null;
+
+async function handle<T>(res: Response): Promise<T> {
+  const text = await res.text();
+  let body: unknown = null;
+  try {
+    body = text === '' ? null : JSON.parse(text);
+  } catch {
+    body = null;
+  }
+  if (!res.ok) {
+    const e = (body as ErrorBody)?.error;
+    const details = Array.isArray(e?.details) ? e.details : [];
+    throw new ApiError(e?.message ?? `${res.status} ${res.statusText}${text && body === null ? `: ${text.slice(0, 200)}` : ''}`, res.status, details, e?.code ?? '');
+  }
   return body as T;
+}
+
+export async function getJson<T>(path: string): Promise<T> {
+  return handle<T>(await fetch(path, { headers: { accept: 'application/json' } }));
+}
+
+export async function sendJson<T>(method: 'POST' | 'PUT' | 'DELETE', path: string, body?: unknown, headers: Record<string, string> = {}): Promise<T> {
+  const init: RequestInit = { method, headers: { accept: 'application/json', ...headers } };
+  if (body !== undefined) {
+    init.body = JSON.stringify(body);
+    (init.headers as Record<string, string>)['content-type'] = 'application/json';
+  }
+  return handle<T>(await fetch(path, init));
+}
+
+/** Uploads a file's text as a data set of `kind`; CSV goes as text/csv, everything else as GeoJSON. */
+export async function uploadDataset(kind: string, name: string, text: string): Promise<DatasetCreated> {
+  const csv = /\.(csv|txt)$/i.test(name);
+  const res = await fetch(`/api/datasets?kind=${encodeURIComponent(kind)}&title=${encodeURIComponent(name.slice(0, 200))}`, {
+    method: 'POST',
+    headers: { accept: 'application/json', 'content-type': csv ? 'text/csv' : 'application/geo+json' },
+    body: text,
+  });
+  return handle<DatasetCreated>(res);
+}
+
+export interface DatasetCreated {
+  id: string;
+  kind: string;
+  featureCount: number;
+  warnings: (string | Problem)[];
+}
+
+export type { Legend, RunLayerInfo };
+
+/** Tile description of a raster run layer (raster-dem, MapLibre `custom` encoding). */
+export interface TileInfo {
+  tiles: string[];
+  bounds?: [number, number, number, number];
+  minzoom?: number;
+  maxzoom?: number;
+  tileSize?: number;
+  encoding: 'custom' | 'mapbox' | 'terrarium';
+  redFactor: number;
+  greenFactor: number;
+  blueFactor: number;
+  /** MapLibre's convention: value = R·redFactor + G·greenFactor + B·blueFactor − baseShift. */
+  baseShift: number;
+  /** The value the no-data code (0) decodes to, one step below every real value. */
+  noDataValue: number;
+  noDataBelow?: number;
+}
+
+/** A run layer as GET /api/runs/:id lists it, with whatever URLs the server adds. */
+export type RunLayer = RunLayerInfo & { urls?: Record<string, string>; tiles?: TileInfo | string[]; contourOf?: RunLayer } & Partial<Omit<TileInfo, 'tiles'>>;
+
+export interface Variogram {
+  model: string;
+  nugget: number;
+  partialSill: number;
+  rangeKm: number;
+  empirical?: { lagKm: number; gamma: number; pairs: number }[];
+}
+
+export interface CrossValidation {
+  meanError?: number;
+  rmse?: number;
+  meanStandardizedError?: number;
+  msdr?: number;
+  meanSquaredDeviationRatio?: number;
+  n?: number;
+  residuals?: unknown;
+}
+
+export interface RunState {
+  id: string;
+  status: 'queued' | 'running' | 'done' | 'failed' | 'cancelled';
+  progress: number;
+  message: string;
+  layers?: RunLayer[];
+  summary?: Record<string, unknown> & { variogram?: Variogram | null; crossValidation?: CrossValidation | null };
+  warnings?: string[];
+  request?: Record<string, unknown>;
 }

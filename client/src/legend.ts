@@ -1,29 +1,49 @@
 import { EMBER, ZONE_COLORS, FAULT_STYLE } from '../../shared/grid/ramps.ts';
+import type { Legend } from '../../shared/schema/run.ts';
+import { el } from './dom.ts';
 import { HEAT_FLOW_RANGE } from './style.ts';
+import type { LayerEntry } from './layers.ts';
 
-/** Creates an element with text content only: user strings never become HTML. */
-export function el<K extends keyof HTMLElementTagNameMap>(tag: K, attrs: Record<string, string> = {}, ...children: (Node | string)[]): HTMLElementTagNameMap[K] {
-  const e = document.createElement(tag);
-  for (const [k, v] of Object.entries(attrs)) e.setAttribute(k, v);
-  for (const c of children) e.append(typeof c === 'string' ? document.createTextNode(c) : c);
-  return e;
+export { el } from './dom.ts';
+
+/** A short number for legend ticks (no trailing zeros; 0 stays 0). */
+export function tick(v: number): string {
+  if (!Number.isFinite(v)) return '—';
+  const a = Math.abs(v);
+  return String(a >= 100 ? Math.round(v) : a >= 10 ? Math.round(v * 10) / 10 : Math.round(v * 100) / 100);
 }
 
-function gradientBar(colors: string[], min: number, max: number, units: string): HTMLElement {
+export function gradientBar(colors: string[], min: number, max: number, units: string): HTMLElement {
   const bar = el('div', { class: 'ramp', style: `background: linear-gradient(to right, ${colors.join(', ')})` });
   const mid = (min + max) / 2;
-  const ticks = el('div', { class: 'ramp-ticks' }, el('span', {}, String(min)), el('span', {}, String(mid)), el('span', {}, `${max} ${units}`));
+  const ticks = el('div', { class: 'ramp-ticks' }, el('span', {}, tick(min)), el('span', {}, tick(mid)), el('span', {}, `${tick(max)} ${units}`));
   return el('div', { class: 'ramp-wrap' }, bar, ticks);
 }
 
-export interface LayerToggle {
-  id: string;
-  label: string;
-  layers: string[];
-  legend: HTMLElement;
+/** The legend of a run layer from the server's description (a ramp or classes, with units). */
+export function legendFromSpec(legend: Legend | null, units: string, range?: [number, number]): HTMLElement {
+  if (legend === null) return el('p', { class: 'note' }, units ? `Units: ${units}` : 'No legend');
+  if (legend.type === 'ramp') {
+    const [min, max] = range ?? [legend.min, legend.max];
+    return gradientBar(legend.colors, min, max, legend.units || units);
+  }
+  return el(
+    'ul',
+    { class: 'swatches' },
+    ...legend.classes.map((k) => el('li', {}, el('i', { class: 'swatch', style: `background:${k.color}` }), k.label)),
+    legend.units ? el('li', { class: 'muted' }, legend.units) : null,
+  );
 }
 
-export function legendEntries(): LayerToggle[] {
+/** One line of text for a legend (the PNG export's legend strip). */
+export function legendLine(label: string, legend: Legend | null, units: string): string {
+  if (legend === null) return label;
+  if (legend.type === 'ramp') return `${label}: ${tick(legend.min)}–${tick(legend.max)} ${legend.units || units}`;
+  return `${label}: ${legend.classes.map((k) => k.label).join(', ')}`;
+}
+
+/** The entries of the demo's data layers and the terrain. */
+export function legendEntries(): LayerEntry[] {
   const sites = el(
     'div',
     {},
@@ -45,9 +65,9 @@ export function legendEntries(): LayerToggle[] {
   );
   const terrain = el('p', { class: 'note' }, 'Shaded relief of the ground surface (m above sea level).');
   return [
-    { id: 'sites', label: 'Heat-flow sites', layers: ['sites'], legend: sites },
-    { id: 'samples', label: 'Grade samples (index-mineral zone)', layers: ['samples'], legend: zones },
-    { id: 'faults', label: 'Faults', layers: ['faults', 'fault-labels'], legend: faults },
-    { id: 'terrain', label: 'Terrain', layers: ['hillshade'], legend: terrain },
+    { id: 'sites', label: 'Heat-flow sites (by quality)', layers: ['sites'], legend: sites, group: 'data' },
+    { id: 'samples', label: 'Grade samples (index-mineral zone)', layers: ['samples', 'sample-highlight'], legend: zones, group: 'data' },
+    { id: 'faults', label: 'Faults (by kind)', layers: ['faults', 'fault-labels', 'fault-highlight'], legend: faults, group: 'data' },
+    { id: 'terrain', label: 'Terrain (hillshade)', layers: ['hillshade'], legend: terrain, group: 'base' },
   ];
 }

@@ -1,6 +1,7 @@
 import type { StyleSpecification, ExpressionSpecification } from 'maplibre-gl';
 import { EMBER, ZONE_COLORS, FAULT_STYLE, rampStops } from '../../shared/grid/ramps.ts';
-import type { AppConfig } from './api.ts';
+import type { AppConfig, TileInfo } from './api.ts';
+import type { Legend } from '../../shared/schema/run.ts';
 
 /** The heat-flow range the site colours span, mW/m². */
 export const HEAT_FLOW_RANGE: [number, number] = [35, 125];
@@ -36,6 +37,7 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
       faults: { type: 'geojson', data: url(ds.faults) },
       samples: { type: 'geojson', data: url(ds.samples) },
       sites: { type: 'geojson', data: url(ds.sites) },
+      'section-line': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
     },
     layers: [
       { id: 'sea', type: 'background', paint: { 'background-color': '#dfe6ea' } },
@@ -63,6 +65,15 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
     // The sea is drawn over the relief so the shaded sea floor never shows through.
     { id: 'sea-mask', type: 'fill', source: 'sea-mask', paint: { 'fill-color': '#dfe6ea' } },
     { id: 'coast', type: 'line', source: 'outline', paint: { 'line-color': '#6c7f8c', 'line-width': 1.2 } },
+    {
+      id: 'fault-highlight',
+      type: 'line',
+      source: 'faults',
+      filter: ['==', ['get', 'id'], '\u0000none'],
+      layout: { 'line-cap': 'round', 'line-join': 'round' },
+      metadata: { baseOpacity: { 'line-opacity': 0.75 } },
+      paint: { 'line-color': '#f2c14e', 'line-width': 9, 'line-opacity': 0.75 },
+    },
     {
       id: 'faults',
       type: 'line',
@@ -95,6 +106,13 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
       },
     },
     {
+      id: 'sample-highlight',
+      type: 'circle',
+      source: 'samples',
+      filter: ['in', ['get', 'id'], ['literal', []]],
+      paint: { 'circle-radius': 7.5, 'circle-color': 'rgba(0,0,0,0)', 'circle-stroke-color': '#d4462c', 'circle-stroke-width': 2.2 },
+    },
+    {
       id: 'sites',
       type: 'circle',
       source: 'sites',
@@ -104,6 +122,20 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
         'circle-stroke-color': '#ffffff',
         'circle-stroke-width': ['match', ['get', 'quality'], 'high', 1.8, 'medium', 1.2, 0.8],
       },
+    },
+    {
+      id: 'section-line',
+      type: 'line',
+      source: 'section-line',
+      filter: ['==', ['geometry-type'], 'LineString'],
+      paint: { 'line-color': '#111111', 'line-width': 2.5, 'line-dasharray': [3, 1.5] },
+    },
+    {
+      id: 'section-points',
+      type: 'circle',
+      source: 'section-line',
+      filter: ['==', ['geometry-type'], 'Point'],
+      paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': '#111111', 'circle-stroke-width': 2 },
     },
   );
   return style;
@@ -119,3 +151,49 @@ export function seaMask(outline: { features: { geometry: { type: string; coordin
   const world = [[-180, -85], [180, -85], [180, 85], [-180, 85], [-180, -85]];
   return { type: 'FeatureCollection', features: [{ type: 'Feature', properties: {}, geometry: { type: 'Polygon', coordinates: [world, ...holes] } }] };
 }
+
+// ---- Run layers --------------------------------------------------------------------------------------------------
+
+
+const TRANSPARENT = 'rgba(0,0,0,0)';
+
+/** The smallest value step the tile encoding can express (the first real value sits one step above no data). */
+function encodingStep(t: TileInfo): number {
+  const f = [t.redFactor, t.greenFactor, t.blueFactor].map(Math.abs).filter((x) => x > 0);
+  return f.length > 0 ? Math.min(...f) : 1;
+}
+
+/**
+ * A `color-relief-color` expression from a legend. MapLibre turns the stops of an `interpolate` on ["elevation"]
+ * into a lookup texture (only `interpolate` is read, so classes become flat plateaus between close stops), and
+ * packs each stop into the tile encoding: stops closer than one encoding step would share a code (and divide by
+ * zero in the shader), so every stop sits at least one step above the last. The no-data code decodes to
+ * noDataValue, one step below every real value: that code is transparent, the next one already coloured.
+ */
+export function colorReliefExpression(legend: Legend, tile: TileInfo, range?: [number, number]): ExpressionSpecification {
+  const step = encodingStep(tile);
+  const first = tile.noDataValue + step;
+  const stops: [number, string][] = [[tile.noDataValue, TRANSPARENT]];
+  const push = (v: number, c: string) => {
+    // Tolerance of a millionth of a step: (noDataValue + step) − noDataValue is not exactly step in binary.
+    if (v - stops[stops.length - 1][0] >= step * (1 - 1e-6)) stops.push([v, c]);
+  };
+  if (legend.type === 'ramp') {
+    const [min, max] = range ?? [legend.min, legend.max];
+    const n = legend.colors.length - 1;
+    push(first, legend.colors[0]);
+    legend.colors.forEach((c, i) => push(min + ((max - min) * i) / Math.max(1, n), c));
+  } else {
+    const classes = [...legend.classes].sort((a, b) => a.value - b.value);
+    classes.forEach((k, i) => {
+      const prev = classes[i - 1]?.value ?? k.value - 1;
+      const next = classes[i + 1]?.value ?? k.value + 1;
+      push(Math.max(first, k.value - (k.value - prev) * 0.49), k.color);
+      push(k.value + (next - k.value) * 0.49, k.color);
+    });
+  }
+  return ['interpolate', ['linear'], ['elevation'], ...stops.flat()] as unknown as ExpressionSpecification;
+}
+
+/** The diverging colours of cross-validation residuals (observed − predicted): indigo below, rust above. */
+export const RESIDUAL_COLORS = { negative: '#33407a', zero: '#f7f7f4', positive: '#c0573e' } as const;

@@ -18,9 +18,11 @@ export interface GridTileDeps {
  * Raster-dem tiles of a run's scalar layers, so the map colours them on the GPU (color-relief) and a change of
  * ramp or range needs no new tiles. Routes (mounted under /api):
  *   GET /runs/:id/tiles/:layer.json           → { tiles, bounds, minzoom, maxzoom, encoding: 'custom', redFactor,
- *                                                greenFactor, blueFactor, baseShift, noDataBelow, units, step }
+ *                                                greenFactor, blueFactor, baseShift, noDataValue, noDataBelow,
+ *                                                units, step }
  *   GET /runs/:id/tiles/:layer/:z/:x/:y.png   → a 256-px tile
- * The encoding's code 0 decodes to `baseShift`, one step below the layer's minimum: no data.
+ * The encoding fields go to a MapLibre raster-dem source as they are (MapLibre subtracts baseShift). Code 0
+ * decodes to `noDataValue`, one step below the layer's minimum: no data; every real value is above `noDataBelow`.
  */
 export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number } = {}): Hono {
   const app = new Hono();
@@ -63,6 +65,7 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
       maxzoom: MAX_ZOOM,
       tileSize: 256,
       ...maplibreEncoding(tiles.encoding),
+      noDataValue: tiles.encoding.baseShift,
       noDataBelow: tiles.encoding.baseShift + tiles.encoding.step / 2,
       step: tiles.encoding.step,
       units,

@@ -51,9 +51,13 @@ export function decodeRgb(enc: RgbEncoding, r: number, g: number, b: number): nu
   return enc.baseShift + n * enc.step;
 }
 
-/** MapLibre raster-dem source fields for an encoding. */
+/**
+ * MapLibre raster-dem source fields for an encoding. MapLibre decodes value = R·redFactor + G·greenFactor +
+ * B·blueFactor − baseShift (its "mapbox" preset is 6553.6, 25.6, 0.1, 10000), so its baseShift is the negative of
+ * this module's (the value of code 0).
+ */
 export function maplibreEncoding(enc: RgbEncoding): { encoding: 'custom'; redFactor: number; greenFactor: number; blueFactor: number; baseShift: number } {
-  return { encoding: 'custom', redFactor: 65536 * enc.step, greenFactor: 256 * enc.step, blueFactor: enc.step, baseShift: enc.baseShift };
+  return { encoding: 'custom', redFactor: 65536 * enc.step, greenFactor: 256 * enc.step, blueFactor: enc.step, baseShift: -enc.baseShift };
 }
 
 /** Terrain shorthands. */

@@ -95,7 +95,7 @@ describe('terrain tiles', () => {
   });
 });
 
-import { encodingForUnits, encodeRgb, decodeRgb, maplibreEncoding } from '../../shared/grid/terrain-rgb.ts';
+import { encodingForUnits, encodeRgb, decodeRgb, maplibreEncoding, TERRAIN_RGB } from '../../shared/grid/terrain-rgb.ts';
 import { GridTiles } from '../../server/terrain.ts';
 
 describe('scalar-layer tile encodings', () => {
@@ -107,14 +107,22 @@ describe('scalar-layer tile encodings', () => {
       for (const v of values) {
         encodeRgb(enc, v, px, 0);
         expect(Math.abs(decodeRgb(enc, px[0], px[1], px[2]) - v)).toBeLessThanOrEqual(step / 2 + 1e-9);
-        // MapLibre's custom encoding: R·redFactor + G·greenFactor + B·blueFactor + baseShift.
+        // MapLibre's custom decoding (its DEMData unpack): R·redFactor + G·greenFactor + B·blueFactor − baseShift.
         const m = maplibreEncoding(enc);
-        expect(px[0] * m.redFactor + px[1] * m.greenFactor + px[2] * m.blueFactor + m.baseShift).toBeCloseTo(decodeRgb(enc, px[0], px[1], px[2]), 6);
+        expect(px[0] * m.redFactor + px[1] * m.greenFactor + px[2] * m.blueFactor - m.baseShift).toBeCloseTo(decodeRgb(enc, px[0], px[1], px[2]), 6);
       }
       encodeRgb(enc, NaN, px, 0);
       expect([...px]).toEqual([0, 0, 0]);
       expect(decodeRgb(enc, 0, 0, 0)).toBeNaN();
     }
+  });
+
+  it('write the terrain encoding as MapLibre\'s own "mapbox" preset (6553.6, 25.6, 0.1, baseShift 10000; maplibre-gl DEMData)', () => {
+    const m = maplibreEncoding(TERRAIN_RGB);
+    expect(m.redFactor).toBeCloseTo(6553.6, 9);
+    expect(m.greenFactor).toBeCloseTo(25.6, 9);
+    expect(m.blueFactor).toBeCloseTo(0.1, 12);
+    expect(m.baseShift).toBe(10000);
   });
 
   it('render no data as code 0 and never blend it into neighbours', () => {

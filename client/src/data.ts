@@ -1,0 +1,83 @@
+/**
+ * Data upload: a file picker and a drop zone for GeoJSON and CSV (sites, samples, faults). The server validates
+ * the file; its report (which feature, which field, what is wrong) is shown as a table in the page.
+ */
+import { ApiError, uploadDataset, type DatasetCreated } from './api.ts';
+import { el, errorBox, problemTable, replace } from './dom.ts';
+
+export interface UploadPanel {
+  root: HTMLElement;
+  setEnabled(on: boolean): void;
+}
+
+/** Builds the upload panel; `onUploaded` receives the new data set (the caller shows it and uses it in runs). */
+export function uploadPanel(onUploaded: (d: DatasetCreated, fileName: string) => void): UploadPanel {
+  const kind = el('select', { id: 'upload-kind' }, el('option', { value: 'sites' }, 'heat-flow sites'), el('option', { value: 'samples' }, 'grade samples'), el('option', { value: 'faults' }, 'faults'));
+  const input = el('input', { type: 'file', id: 'upload-file', accept: '.geojson,.json,.csv,.txt,application/geo+json,application/json,text/csv' });
+  const drop = el('div', { class: 'dropzone', id: 'dropzone', tabindex: '0', role: 'button', 'aria-label': 'Drop a GeoJSON or CSV file here, or press Enter to choose one' }, 'Drop a GeoJSON or CSV file here, or ', el('span', { class: 'linkish' }, 'choose a file'));
+  const report = el('div', { id: 'upload-report', 'aria-live': 'polite' });
+  let enabled = true;
+
+  const send = async (file: File) => {
+    if (!enabled) return;
+    replace(report, el('p', { class: 'loading' }, `Uploading ${file.name} as ${kind.value}…`));
+    try {
+      const text = await file.text();
+      const d = await uploadDataset(kind.value, file.name, text);
+      const warnings = d.warnings ?? [];
+      replace(
+        report,
+        el('div', { class: 'ok', role: 'status' }, `${file.name}: ${d.featureCount} ${d.kind} accepted as data set ${d.id}.`),
+        warnings.length > 0 ? el('p', { class: 'note' }, `${warnings.length} warning${warnings.length === 1 ? '' : 's'}:`) : null,
+        warnings.length > 0 ? problemTable(warnings.map((w) => (typeof w === 'string' ? { problem: w } : w))) : null,
+      );
+      onUploaded(d, file.name);
+    } catch (e) {
+      if (e instanceof ApiError) replace(report, errorBox(`${file.name}: ${e.message}`, e.details));
+      else replace(report, errorBox(`${file.name}: ${e instanceof Error ? e.message : String(e)}`));
+    }
+  };
+
+  input.addEventListener('change', () => {
+    const f = input.files?.[0];
+    if (f) void send(f);
+    input.value = '';
+  });
+  drop.addEventListener('click', () => input.click());
+  drop.addEventListener('keydown', (ev) => {
+    if (ev.key === 'Enter' || ev.key === ' ') {
+      ev.preventDefault();
+      input.click();
+    }
+  });
+  drop.addEventListener('dragover', (ev) => {
+    ev.preventDefault();
+    drop.classList.add('over');
+  });
+  drop.addEventListener('dragleave', () => drop.classList.remove('over'));
+  drop.addEventListener('drop', (ev) => {
+    ev.preventDefault();
+    drop.classList.remove('over');
+    const f = ev.dataTransfer?.files?.[0];
+    if (f) void send(f);
+  });
+
+  const root = el(
+    'div',
+    { class: 'upload' },
+    el('div', { class: 'field-row' }, el('label', { for: 'upload-kind' }, 'Kind'), kind),
+    drop,
+    el('div', { class: 'field-row' }, el('label', { for: 'upload-file' }, 'File'), input),
+    el('p', { class: 'note' }, 'CSV: a header row with longitude,latitude (or lon,lat) and the same property names as the GeoJSON (e.g. heatFlowMWm2, quality; zone; kind).'),
+    report,
+  );
+  return {
+    root,
+    setEnabled(on: boolean) {
+      enabled = on;
+      for (const c of [kind, input]) c.disabled = !on;
+      drop.setAttribute('aria-disabled', String(!on));
+      drop.classList.toggle('disabled', !on);
+    },
+  };
+}

@@ -1,0 +1,153 @@
+/**
+ * The layer panel: each entry has a visibility switch, an opacity slider and a legend with units. An entry may
+ * stand for several MapLibre layers (a line and its labels) and may carry an extra control (the depth chooser).
+ */
+import type { Map as MapLibreMap } from 'maplibre-gl';
+import { el } from './dom.ts';
+import type { LayerState } from './state.ts';
+
+export interface LayerEntry {
+  id: string;
+  label: string;
+  /** MapLibre layer ids drawn by this entry. */
+  layers: string[];
+  legend: HTMLElement;
+  /** Optional control shown under the label (e.g. a depth select). */
+  control?: HTMLElement;
+  /** Download links etc. */
+  extra?: HTMLElement;
+  defaultVisible?: boolean;
+  /** Starting opacity, 0–1 (default 1). */
+  defaultOpacity?: number;
+  group: 'data' | 'run' | 'base';
+}
+
+/** Paint properties that carry a layer type's opacity (hillshade has none: its exaggeration is scaled instead). */
+const OPACITY_PROPS: Record<string, string[]> = {
+  circle: ['circle-opacity', 'circle-stroke-opacity'],
+  line: ['line-opacity'],
+  fill: ['fill-opacity'],
+  symbol: ['text-opacity', 'icon-opacity'],
+  'color-relief': ['color-relief-opacity'],
+  raster: ['raster-opacity'],
+};
+const HILLSHADE_EXAGGERATION = 0.85;
+
+export class LayerPanel {
+  private readonly entries = new Map<string, { entry: LayerEntry; section: HTMLElement; box: HTMLInputElement; slider: HTMLInputElement }>();
+  private readonly lists: Record<LayerEntry['group'], HTMLElement>;
+
+  constructor(
+    private readonly map: MapLibreMap,
+    root: HTMLElement,
+    private readonly state: Record<string, LayerState>,
+    private readonly onChange: () => void,
+  ) {
+    this.lists = {
+      run: el('div', { class: 'layer-group', id: 'run-layers' }, el('p', { class: 'empty', id: 'run-layers-empty' }, 'No run yet: computed layers (heat-flow surface, isotherm depths, temperature and facies at depth, contours, isograds, residuals) appear here after a run.')),
+      data: el('div', { class: 'layer-group', id: 'data-layers' }),
+      base: el('div', { class: 'layer-group', id: 'base-layers' }),
+    };
+    root.append(el('h2', {}, 'Computed layers'), this.lists.run, el('h2', {}, 'Data'), this.lists.data, el('h2', {}, 'Base'), this.lists.base);
+  }
+
+  has(id: string): boolean {
+    return this.entries.has(id);
+  }
+
+  /** Adds (or replaces) an entry and applies its saved state to the map. */
+  add(entry: LayerEntry): void {
+    this.remove(entry.id);
+    const st = (this.state[entry.id] ??= { visible: entry.defaultVisible ?? true, opacity: entry.defaultOpacity ?? 1 });
+    const boxId = `toggle-${entry.id}`;
+    const box = el('input', { type: 'checkbox', id: boxId });
+    box.checked = st.visible;
+    const slider = el('input', { type: 'range', min: '0', max: '100', step: '5', id: `opacity-${entry.id}`, 'aria-label': `${entry.label} opacity`, class: 'opacity' });
+    slider.value = String(Math.round(st.opacity * 100));
+    const pct = el('output', { for: slider.id, class: 'pct' }, `${slider.value}%`);
+    box.addEventListener('change', () => {
+      st.visible = box.checked;
+      this.apply(entry.id);
+      this.onChange();
+    });
+    slider.addEventListener('input', () => {
+      st.opacity = Number(slider.value) / 100;
+      pct.textContent = `${slider.value}%`;
+      this.apply(entry.id);
+      this.onChange();
+    });
+    const section = el(
+      'section',
+      { class: 'layer', 'data-layer': entry.id },
+      el('div', { class: 'layer-head' }, el('label', { for: boxId }, box, entry.label)),
+      el('div', { class: 'opacity-row' }, el('span', { class: 'muted' }, 'opacity'), slider, pct),
+      entry.control ?? null,
+      entry.legend,
+      entry.extra ?? null,
+    );
+    this.lists[entry.group].append(section);
+    if (entry.group === 'run') document.getElementById('run-layers-empty')?.remove();
+    this.entries.set(entry.id, { entry, section, box, slider });
+    this.apply(entry.id);
+  }
+
+  remove(id: string): void {
+    const e = this.entries.get(id);
+    if (!e) return;
+    e.section.remove();
+    this.entries.delete(id);
+  }
+
+  /** Removes every run entry (a new run replaces the old one's layers). */
+  clearRun(): void {
+    for (const [id, e] of this.entries) if (e.entry.group === 'run') this.remove(id);
+  }
+
+  /** Pushes an entry's visibility and opacity to its map layers. */
+  apply(id: string): void {
+    const e = this.entries.get(id);
+    const st = this.state[id];
+    if (!e || !st) return;
+    for (const layerId of e.entry.layers) {
+      const layer = this.map.getLayer(layerId);
+      if (!layer) continue;
+      // Only real changes reach the map: any layout change makes MapLibre reload the layer's source (tiles are
+      // fetched and prepared again), so an unchanged visibility is not set again.
+      const visibility = st.visible ? 'visible' : 'none';
+      if ((this.map.getLayoutProperty(layerId, 'visibility') ?? 'visible') !== visibility) this.map.setLayoutProperty(layerId, 'visibility', visibility);
+      const paint = (prop: string, v: number) => {
+        if (this.map.getPaintProperty(layerId, prop as 'line-opacity') !== v) this.map.setPaintProperty(layerId, prop as 'line-opacity', v);
+      };
+      if (layer.type === 'hillshade') paint('hillshade-exaggeration', HILLSHADE_EXAGGERATION * st.opacity);
+      for (const prop of OPACITY_PROPS[layer.type] ?? []) {
+        // Highlight layers keep their own opacity relation: scale the layer's base value.
+        const base = (layer.metadata as { baseOpacity?: Record<string, number> } | undefined)?.baseOpacity?.[prop] ?? 1;
+        if (prop === 'icon-opacity') continue; // no icons are drawn (no sprite)
+        paint(prop, base * st.opacity);
+      }
+    }
+  }
+
+  /** Re-reads the state (after a restore) into the controls and the map. */
+  sync(): void {
+    for (const [id, e] of this.entries) {
+      const st = this.state[id];
+      if (!st) continue;
+      e.box.checked = st.visible;
+      e.slider.value = String(Math.round(st.opacity * 100));
+      const out = e.section.querySelector('output.pct');
+      if (out) out.textContent = `${e.slider.value}%`;
+      this.apply(id);
+    }
+  }
+
+  /** Entries currently visible, in panel order (for the PNG export's legend line). */
+  visibleEntries(): LayerEntry[] {
+    return [...this.entries.values()].filter((e) => this.state[e.entry.id]?.visible).map((e) => e.entry);
+  }
+
+  /** The entry with this id, if present. */
+  entry(id: string): LayerEntry | undefined {
+    return this.entries.get(id)?.entry;
+  }
+}

@@ -1,0 +1,336 @@
+/**
+ * A finished run's layers on the map. Scalar and class grids arrive as raster-dem tiles in MapLibre's `custom`
+ * encoding and are coloured on the GPU by a `color-relief` layer built from the layer's legend; vector layers
+ * (contours, isograds, cross-validation residuals) are GeoJSON sources from the run's .geojson files.
+ * Layers that exist at several depths (temperature-5km, facies-10km, …) share one panel entry with a depth chooser.
+ */
+import type { ExpressionSpecification, LayerSpecification, Map as MapLibreMap } from 'maplibre-gl';
+import { ApiError, getJson, type RunLayer, type RunState, type TileInfo } from './api.ts';
+import { el } from './dom.ts';
+import type { LayerEntry, LayerPanel } from './layers.ts';
+import { legendFromSpec } from './legend.ts';
+import { colorReliefExpression, RESIDUAL_COLORS } from './style.ts';
+import { ZONE_COLORS } from '../../shared/grid/ramps.ts';
+
+const FONT = ['DejaVu Sans', 'sans-serif'];
+/**
+ * Draw order: run rasters under the run's contours, both under the sea mask (grids and their contours may extend
+ * offshore); isograds and residual symbols above the data outlines.
+ */
+function rasterBefore(map: MapLibreMap): string | undefined {
+  const first = map.getStyle().layers.find((l) => l.id.startsWith('run-') && l.type !== 'color-relief' && l.type !== 'raster');
+  return first?.id ?? (map.getLayer('sea-mask') ? 'sea-mask' : undefined);
+}
+function vectorBefore(map: MapLibreMap, layer: RunLayer): string | undefined {
+  const under = layer.contourOf !== undefined ? 'sea-mask' : 'fault-highlight';
+  return map.getLayer(under) ? under : undefined;
+}
+
+export interface RunLayerGroup {
+  key: string;
+  title: string;
+  /** By depth (km) when the group is depth-indexed, else one layer under NaN. */
+  layers: { depthKm: number | null; layer: RunLayer }[];
+}
+
+const DEPTH_NAME = /^(.+?)-(\d+(?:\.\d+)?)km$/;
+
+/** Groups a run's layers: names like `temperature-5km` group by prefix with their depths; others stand alone. */
+export function groupRunLayers(input: RunLayer[]): RunLayerGroup[] {
+  const groups = new Map<string, RunLayerGroup>();
+  // A raster's .geojson file holds its contours (computed by the server from the full grid): isotherm-depth and
+  // heat-flow contours get their own entries, labelled along the line with their units.
+  const layers: RunLayer[] = [...input];
+  for (const l of input) {
+    if (l.kind === 'raster' && l.formats.includes('geojson') && (/^depth-[\d.]+C$/.test(l.name) || /^heat-?flow$/.test(l.name))) {
+      layers.push({ ...l, name: `${l.name}.contours`, kind: 'vector', title: `Contours: ${l.title.charAt(0).toLowerCase()}${l.title.slice(1)}`, legend: null, formats: ['geojson'], contourOf: l });
+    }
+  }
+  for (const layer of layers) {
+    const m = DEPTH_NAME.exec(layer.name);
+    if (m && layer.kind === 'raster') {
+      const key = m[1];
+      const g = groups.get(key) ?? { key, title: layer.title.replace(/\s*(at\s*)?\d+(\.\d+)?\s*km\b/i, '').trim() || key, layers: [] };
+      g.layers.push({ depthKm: Number(m[2]), layer });
+      groups.set(key, g);
+    } else {
+      groups.set(layer.name, { key: layer.name, title: layer.title, layers: [{ depthKm: null, layer }] });
+    }
+  }
+  for (const g of groups.values()) g.layers.sort((a, b) => (a.depthKm ?? 0) - (b.depthKm ?? 0));
+  const rank = (g: RunLayerGroup) => {
+    const k = g.key;
+    if (/^heat-?flow$/i.test(k)) return 0;
+    if (/sd|std|uncert/i.test(k) && /heat/i.test(k)) return 1;
+    if (/^depth-[\d.]+C$/.test(k)) return 2;
+    if (/^depth-/.test(k) && !/contour/.test(k)) return 2.5;
+    if (/^temperature/.test(k)) return 3;
+    if (/^facies/.test(k)) return 4;
+    if (/contour/.test(k)) return 1.5;
+    if (/isograd/.test(k)) return 6;
+    if (/resid|cv/.test(k)) return 7;
+    return 8;
+  };
+  return [...groups.values()].sort((a, b) => rank(a) - rank(b) || a.key.localeCompare(b.key, 'en', { numeric: true }));
+}
+
+export function layerUrl(runId: string, layer: RunLayer, ext: string): string {
+  if (layer.contourOf) return layerUrl(runId, layer.contourOf, ext);
+  return layer.urls?.[ext] ?? `/api/runs/${encodeURIComponent(runId)}/layers/${encodeURIComponent(layer.name)}.${ext}`;
+}
+
+/** The tile description of a raster layer: from the layer info when it carries one, else from tiles/:layer.json. */
+export async function tileInfo(runId: string, layer: RunLayer): Promise<TileInfo> {
+  const t = layer.tiles;
+  // Not through URL(): it would percent-encode the {z}/{x}/{y} placeholders of a tile template.
+  const abs = (u: string) => (/^https?:\/\//.test(u) ? u : `${window.location.origin}${u.startsWith('/') ? '' : '/'}${u}`);
+  if (t && !Array.isArray(t) && Array.isArray(t.tiles)) return { ...t, tiles: t.tiles.map(abs) };
+  if (Array.isArray(t) && typeof layer.baseShift === 'number' && typeof layer.noDataValue === 'number') {
+    return { ...(layer as unknown as TileInfo), tiles: t.map(abs) };
+  }
+  const info = await getJson<TileInfo>(`/api/runs/${encodeURIComponent(runId)}/tiles/${encodeURIComponent(layer.name)}.json`);
+  return { ...info, tiles: info.tiles.map(abs) };
+}
+
+function downloads(runId: string, layer: RunLayer): HTMLElement {
+  const label: Record<string, string> = { tif: 'GeoTIFF', geojson: 'GeoJSON', csv: 'CSV', png: 'PNG' };
+  return el(
+    'p',
+    { class: 'downloads' },
+    el('span', { class: 'muted' }, 'download '),
+    ...layer.formats.map((ext) => el('a', { href: layerUrl(runId, layer, ext), download: `${layer.name}.${ext}`, class: 'dl', 'data-format': ext }, label[ext] ?? ext)),
+  );
+}
+
+/** A contour label: the level rounded to 0.1 and its units (the feature's own `units`, else the layer's). */
+function numberLabel(units: string): ExpressionSpecification {
+  const v = ['coalesce', ['get', 'value'], ['get', 'depthKm'], ['get', 'level'], 0];
+  return ['concat', ['to-string', ['/', ['round', ['*', v, 10]], 10]], ' ', ['coalesce', ['get', 'units'], units]] as unknown as ExpressionSpecification;
+}
+
+/** MapLibre layers for one vector run layer, chosen by what it holds. */
+function vectorLayers(id: string, source: string, layer: RunLayer): LayerSpecification[] {
+  const name = layer.name.toLowerCase();
+  if (name.includes('isograd')) {
+    const zoneColor = ['match', ['get', 'mineral'], ...Object.entries(ZONE_COLORS).flat(), '#888888'] as unknown as ExpressionSpecification;
+    return [
+      { id: `${id}-casing`, type: 'line', source, layout: { 'line-join': 'round' }, paint: { 'line-color': '#2b2b2b', 'line-width': 4 } },
+      { id, type: 'line', source, layout: { 'line-join': 'round' }, paint: { 'line-color': zoneColor, 'line-width': 2.2 } },
+      // Ticks on the high-grade side: a dashed line offset to that side (positive offset = right of the direction).
+      {
+        id: `${id}-ticks`,
+        type: 'line',
+        source,
+        paint: {
+          'line-color': '#2b2b2b',
+          'line-width': 5,
+          'line-dasharray': [0.35, 2.2],
+          'line-offset': ['match', ['get', 'highSide'], 'left', -4.5, 'right', 4.5, 0] as unknown as ExpressionSpecification,
+        },
+      },
+      {
+        id: `${id}-labels`,
+        type: 'symbol',
+        source,
+        layout: { 'symbol-placement': 'line', 'text-field': ['concat', ['to-string', ['coalesce', ['get', 'mineral'], ['get', 'zone'], '']], ' in'] as unknown as ExpressionSpecification, 'text-font': FONT, 'text-size': 11, 'text-offset': [0, -1] },
+        paint: { 'text-color': '#3a1c4a', 'text-halo-color': '#ffffff', 'text-halo-width': 1.4 },
+      },
+    ];
+  }
+  if (name.includes('contour')) {
+    const km = /depth/.test(name) || layer.units === 'km';
+    return [
+      { id, type: 'line', source, paint: { 'line-color': '#1b1b1b', 'line-width': 0.9 } },
+      {
+        id: `${id}-labels`,
+        type: 'symbol',
+        source,
+        layout: { 'symbol-placement': 'line', 'symbol-spacing': 220, 'text-field': numberLabel(km ? 'km' : layer.units), 'text-font': FONT, 'text-size': 10.5 },
+        paint: { 'text-color': '#1b1b1b', 'text-halo-color': '#ffffff', 'text-halo-width': 1.3 },
+      },
+    ];
+  }
+  if (name.includes('resid') || name.startsWith('cv')) {
+    const r = ['coalesce', ['get', 'residual'], ['get', 'residualMWm2'], ['get', 'error'], 0];
+    return [
+      {
+        id,
+        type: 'circle',
+        source,
+        paint: {
+          'circle-color': ['interpolate', ['linear'], r, -20, RESIDUAL_COLORS.negative, 0, RESIDUAL_COLORS.zero, 20, RESIDUAL_COLORS.positive] as unknown as ExpressionSpecification,
+          'circle-radius': ['interpolate', ['linear'], ['abs', r], 0, 3, 30, 10] as unknown as ExpressionSpecification,
+          'circle-stroke-color': '#222222',
+          'circle-stroke-width': 0.8,
+        },
+      },
+    ];
+  }
+  return [
+    { id, type: 'line', source, filter: ['in', ['geometry-type'], ['literal', ['LineString', 'MultiLineString']]], paint: { 'line-color': '#222222', 'line-width': 1.2 } },
+    { id: `${id}-points`, type: 'circle', source, filter: ['==', ['geometry-type'], 'Point'], paint: { 'circle-color': '#222222', 'circle-radius': 3 } },
+  ];
+}
+
+function residualLegend(units: string): HTMLElement {
+  return el(
+    'div',
+    {},
+    el('div', { class: 'ramp-wrap' }, el('div', { class: 'ramp', style: `background: linear-gradient(to right, ${RESIDUAL_COLORS.negative}, ${RESIDUAL_COLORS.zero}, ${RESIDUAL_COLORS.positive})` }), el('div', { class: 'ramp-ticks' }, el('span', {}, '−20'), el('span', {}, '0'), el('span', {}, `+20 ${units || 'mW/m²'}`))),
+    el('p', { class: 'note' }, 'Leave-one-out residual, observed − predicted; symbol size grows with its size.'),
+  );
+}
+
+function isogradLegend(): HTMLElement {
+  return el(
+    'div',
+    {},
+    el('ul', { class: 'swatches' }, ...Object.entries(ZONE_COLORS).slice(1).map(([z, c]) => el('li', {}, el('i', { class: 'line', style: `border-top: 3px solid ${c}; box-shadow: 0 0 0 1px #2b2b2b` }), `${z}-in`))),
+    el('p', { class: 'note' }, 'Ticks mark the high-grade side of each line.'),
+  );
+}
+
+/** Two number fields that restretch a ramp over [min, max] (reset to the layer's own range when emptied). */
+function rangeControl(id: string, legend: Extract<RunLayer['legend'], { type: 'ramp' }>, units: string, apply: (range: [number, number]) => void): HTMLElement {
+  const round = (v: number) => String(Math.round(v * 100) / 100);
+  const lo = el('input', { type: 'number', id: `range-min-${id}`, class: 'range-input', step: 'any', 'aria-label': `colour range minimum (${units})` });
+  const hi = el('input', { type: 'number', id: `range-max-${id}`, class: 'range-input', step: 'any', 'aria-label': `colour range maximum (${units})` });
+  lo.value = round(legend.min);
+  hi.value = round(legend.max);
+  const msg = el('span', { class: 'field-error', 'aria-live': 'polite' });
+  const change = () => {
+    const a = lo.value.trim() === '' ? legend.min : Number(lo.value);
+    const b = hi.value.trim() === '' ? legend.max : Number(hi.value);
+    if (!(Number.isFinite(a) && Number.isFinite(b) && b > a)) {
+      msg.textContent = 'the maximum must be above the minimum';
+      return;
+    }
+    msg.textContent = '';
+    apply([a, b]);
+  };
+  lo.addEventListener('change', change);
+  hi.addEventListener('change', change);
+  return el('div', { class: 'range-row' }, el('span', { class: 'muted' }, 'colours from'), lo, el('span', { class: 'muted' }, 'to'), hi, el('span', { class: 'muted' }, units), msg);
+}
+
+function removeMapLayers(map: MapLibreMap, prefix: string): void {
+  for (const l of map.getStyle().layers) if (l.id === prefix || l.id.startsWith(`${prefix}-`)) map.removeLayer(l.id);
+  for (const s of Object.keys(map.getStyle().sources)) if (s === `${prefix}-src` || s.startsWith(`${prefix}-src-`)) map.removeSource(s);
+}
+
+export interface ShownRun {
+  run: RunState;
+  groups: RunLayerGroup[];
+  /** Depths offered by the depth-indexed groups. */
+  depthsKm: number[];
+}
+
+/**
+ * Puts a run's layers on the map and in the panel. `depthKm` picks the depth of depth-indexed groups (the nearest
+ * available). Returns what it showed; raster tile descriptions that fail are reported through onError.
+ */
+export async function showRunLayers(map: MapLibreMap, panel: LayerPanel, run: RunState, opts: { depthKm: number | null; onDepth: (d: number) => void; onError: (msg: string) => void }): Promise<ShownRun> {
+  for (const l of map.getStyle().layers) if (l.id.startsWith('run-')) map.removeLayer(l.id);
+  for (const s of Object.keys(map.getStyle().sources)) if (s.startsWith('run-')) map.removeSource(s);
+  panel.clearRun();
+  const groups = groupRunLayers(run.layers ?? []);
+  const depths = [...new Set(groups.flatMap((g) => g.layers.map((l) => l.depthKm)).filter((d): d is number => d !== null))].sort((a, b) => a - b);
+  const firstDepthContour = groups.find((g) => /^depth-[\d.]+C\.contours$/.test(g.key))?.key;
+  for (const g of groups) {
+    const id = `run-${g.key.replace(/[^A-Za-z0-9_-]/g, '_')}`;
+    const first = g.layers[0].layer;
+    const depthIndexed = g.layers[0].depthKm !== null;
+    const pick = () => {
+      if (!depthIndexed) return g.layers[0];
+      const want = opts.depthKm ?? g.layers[0].depthKm!;
+      return g.layers.reduce((best, l) => (Math.abs(l.depthKm! - want) < Math.abs(best.depthKm! - want) ? l : best));
+    };
+    const legendBox = el('div', { class: 'legend-box' });
+    const extraBox = el('div', {});
+    const entry: LayerEntry = { id, label: g.title, layers: [], legend: legendBox, extra: extraBox, group: 'run', defaultOpacity: first.kind === 'raster' ? 0.85 : 1, defaultVisible: /^heat-?flow$/i.test(g.key) || g.key === firstDepthContour || /isograd/.test(g.key) };
+    const draw = async (choice: { depthKm: number | null; layer: RunLayer }) => {
+      const layer = choice.layer;
+      removeMapLayers(map, id);
+      const source = `${id}-src`;
+      if (layer.kind === 'raster') {
+        let t: TileInfo;
+        try {
+          t = await tileInfo(run.id, layer);
+        } catch (e) {
+          const grid = run.summary?.grid as { west: number; north: number; dx: number; dy: number; width: number; height: number; crs: string } | undefined;
+          if (!(e instanceof ApiError && e.status === 404 && layer.formats.includes('png') && grid?.crs === 'EPSG:4326')) throw e;
+          // No tile service for run layers on this server: place the run's own coloured PNG of the whole grid by
+          // its corners. MapLibre interpolates an image linearly in Web Mercator, so a lon/lat grid is placed
+          // within a fraction of a cell over a region of a few degrees; colours are the server's legend.
+          const e0 = grid.west + grid.dx * grid.width, s0 = grid.north - grid.dy * grid.height;
+          map.addSource(source, { type: 'image', url: new URL(layerUrl(run.id, layer, 'png'), window.location.origin).href, coordinates: [[grid.west, grid.north], [e0, grid.north], [e0, s0], [grid.west, s0]] });
+          map.addLayer({ id, type: 'raster', source, metadata: { runLayer: layer.name, fallback: 'png' }, paint: { 'raster-resampling': 'nearest', 'raster-fade-duration': 0 } }, rasterBefore(map));
+          entry.layers = [id];
+          legendBox.replaceChildren(legendFromSpec(layer.legend, layer.units));
+          extraBox.replaceChildren(downloads(run.id, layer));
+          panel.apply(id);
+          return;
+        }
+        map.addSource(source, {
+          type: 'raster-dem',
+          tiles: t.tiles,
+          bounds: t.bounds,
+          minzoom: t.minzoom ?? 0,
+          maxzoom: t.maxzoom ?? 12,
+          tileSize: t.tileSize ?? 256,
+          encoding: 'custom',
+          redFactor: t.redFactor,
+          greenFactor: t.greenFactor,
+          blueFactor: t.blueFactor,
+          baseShift: t.baseShift,
+        });
+        const legend = layer.legend;
+        map.addLayer(
+          {
+            id,
+            type: 'color-relief',
+            source,
+            metadata: { runLayer: layer.name },
+            paint: { 'color-relief-color': legend ? colorReliefExpression(legend, t) : (['interpolate', ['linear'], ['elevation'], t.noDataValue, 'rgba(0,0,0,0)', t.noDataValue + Math.abs(t.blueFactor || 1), '#888888'] as unknown as ExpressionSpecification) },
+          },
+          rasterBefore(map),
+        );
+        entry.layers = [id];
+        legendBox.replaceChildren(legendFromSpec(legend, layer.units));
+        if (legend?.type === 'ramp') legendBox.append(rangeControl(id, legend, layer.units, (range) => {
+          // A new range is a new colour expression over the same tiles: nothing is fetched again.
+          map.setPaintProperty(id, 'color-relief-color', colorReliefExpression(legend, t, range));
+          legendBox.firstElementChild?.replaceWith(legendFromSpec(legend, layer.units, range));
+        }));
+      } else {
+        map.addSource(source, { type: 'geojson', data: new URL(layerUrl(run.id, layer, 'geojson'), window.location.origin).href });
+        const specs = vectorLayers(id, source, layer);
+        for (const s of specs) map.addLayer({ ...s, metadata: { runLayer: layer.name } } as LayerSpecification, vectorBefore(map, layer));
+        entry.layers = specs.map((s) => s.id);
+        const name = layer.name.toLowerCase();
+        legendBox.replaceChildren(name.includes('isograd') ? isogradLegend() : name.includes('resid') || name.startsWith('cv') ? residualLegend(layer.units) : layer.legend ? legendFromSpec(layer.legend, layer.units) : el('p', { class: 'note' }, layer.units ? `Labels in ${/contour/.test(name) && /depth/.test(name) ? 'km' : layer.units}` : ''));
+      }
+      extraBox.replaceChildren(downloads(run.id, layer));
+      panel.apply(id);
+    };
+    if (depthIndexed) {
+      const sel = el('select', { id: `depth-${id}`, 'aria-label': `${g.title}: depth`, class: 'depth-select' }, ...g.layers.map((l) => el('option', { value: String(l.depthKm) }, `${l.depthKm} km`)));
+      sel.value = String(pick().depthKm);
+      sel.addEventListener('change', () => {
+        const d = Number(sel.value);
+        opts.onDepth(d);
+        const c = g.layers.find((l) => l.depthKm === d);
+        if (c) draw(c).catch((e: unknown) => opts.onError(e instanceof Error ? e.message : String(e)));
+      });
+      entry.control = el('div', { class: 'depth-row' }, el('label', { for: sel.id, class: 'muted' }, 'depth'), sel);
+    }
+    entry.label = depthIndexed ? g.title : first.title;
+    panel.add(entry);
+    try {
+      await draw(pick());
+    } catch (e) {
+      opts.onError(`${g.title}: ${e instanceof Error ? e.message : String(e)}`);
+    }
+  }
+  return { run, groups, depthsKm: depths };
+}

@@ -1,0 +1,167 @@
+/**
+ * The structure report beside the map: faults (from the fault data set, with the run's fault report when it has
+ * one) and isograds (from the run's isograd layer). Selecting a fault highlights it and its samples: those the
+ * report assigns to it, else the samples within a distance of its trace.
+ */
+import type { Map as MapLibreMap } from 'maplibre-gl';
+import { el, fmt, replace } from './dom.ts';
+
+type Feature = { type: 'Feature'; id?: string | number; properties: Record<string, unknown> | null; geometry: { type: string; coordinates: unknown } | null };
+export type FeatureCollection = { type: 'FeatureCollection'; features: Feature[] };
+
+/** Samples within this distance of a fault trace count as "its samples" when the run gives no assignment, km. */
+export const FAULT_SAMPLE_DISTANCE_KM = 3;
+const KM_PER_DEG = 111.195; // mean Earth radius 6371.0088 km × π/180
+
+function lines(g: Feature['geometry']): number[][][] {
+  if (g?.type === 'LineString') return [g.coordinates as number[][]];
+  if (g?.type === 'MultiLineString') return g.coordinates as number[][][];
+  return [];
+}
+
+/** Distance from a point to a polyline, km, in a local equirectangular frame (adequate over a few km). */
+export function distanceToLineKm(p: number[], line: number[][]): number {
+  const kx = KM_PER_DEG * Math.cos((p[1] * Math.PI) / 180), ky = KM_PER_DEG;
+  let best = Infinity;
+  for (let i = 1; i < line.length; i++) {
+    const ax = (line[i - 1][0] - p[0]) * kx, ay = (line[i - 1][1] - p[1]) * ky;
+    const bx = (line[i][0] - p[0]) * kx, by = (line[i][1] - p[1]) * ky;
+    const dx = bx - ax, dy = by - ay;
+    const l2 = dx * dx + dy * dy;
+    const t = l2 > 0 ? Math.max(0, Math.min(1, -(ax * dx + ay * dy) / l2)) : 0;
+    best = Math.min(best, Math.hypot(ax + t * dx, ay + t * dy));
+  }
+  return best;
+}
+
+function lengthKm(ls: number[][][]): number {
+  let s = 0;
+  for (const l of ls) for (let i = 1; i < l.length; i++) {
+    const kx = KM_PER_DEG * Math.cos((l[i][1] * Math.PI) / 180);
+    s += Math.hypot((l[i][0] - l[i - 1][0]) * kx, (l[i][1] - l[i - 1][1]) * KM_PER_DEG);
+  }
+  return s;
+}
+
+export interface FaultReportRow {
+  id: string;
+  [k: string]: unknown;
+}
+
+/** The fault report rows of a run summary, whatever the key it travels under. */
+export function faultReportOf(summary: Record<string, unknown> | undefined): FaultReportRow[] {
+  if (!summary) return [];
+  for (const key of ['faultReport', 'faults', 'structure']) {
+    const v = summary[key];
+    if (Array.isArray(v)) return v as FaultReportRow[];
+    if (v && typeof v === 'object' && Array.isArray((v as { faults?: unknown }).faults)) return (v as { faults: FaultReportRow[] }).faults;
+  }
+  return [];
+}
+
+export class StructurePanel {
+  readonly root = el('div', { id: 'structure' });
+  private faults: FeatureCollection = { type: 'FeatureCollection', features: [] };
+  private samples: FeatureCollection = { type: 'FeatureCollection', features: [] };
+  private isograds: FeatureCollection | null = null;
+  private report: FaultReportRow[] = [];
+  private isogradSummary: Record<string, unknown>[] = [];
+  private selected: string | null = null;
+
+  constructor(private readonly map: MapLibreMap) {}
+
+  setData(faults: FeatureCollection, samples: FeatureCollection): void {
+    this.faults = faults;
+    this.samples = samples;
+    this.render();
+  }
+
+  setRun(report: FaultReportRow[], isograds: FeatureCollection | null, isogradSummary: Record<string, unknown>[] = []): void {
+    this.report = report;
+    this.isogradSummary = isogradSummary;
+    this.isograds = isograds;
+    this.render();
+  }
+
+  private samplesOf(id: string): string[] {
+    const row = this.report.find((r) => String(r.id) === id || String(r.faultId) === id);
+    const listed = row?.sampleIds ?? row?.samples;
+    if (Array.isArray(listed)) return listed.map(String);
+    const f = this.faults.features.find((x) => String(x.properties?.id ?? x.id) === id);
+    if (!f) return [];
+    const ls = lines(f.geometry);
+    return this.samples.features
+      .filter((s) => s.geometry?.type === 'Point' && ls.some((l) => distanceToLineKm(s.geometry!.coordinates as number[], l) <= FAULT_SAMPLE_DISTANCE_KM))
+      .map((s) => String(s.properties?.id ?? s.id));
+  }
+
+  select(id: string | null): void {
+    this.selected = id;
+    const sampleIds = id === null ? [] : this.samplesOf(id);
+    if (this.map.getLayer('fault-highlight')) this.map.setFilter('fault-highlight', ['==', ['to-string', ['get', 'id']], id ?? '\u0000none']);
+    if (this.map.getLayer('sample-highlight')) this.map.setFilter('sample-highlight', ['in', ['to-string', ['get', 'id']], ['literal', sampleIds]]);
+    for (const tr of this.root.querySelectorAll('tr[data-fault]')) {
+      const on = tr.getAttribute('data-fault') === id;
+      tr.classList.toggle('selected', on);
+      tr.querySelector('button')?.setAttribute('aria-pressed', String(on));
+    }
+    const info = this.root.querySelector('#fault-selection');
+    if (info) info.textContent = id === null ? '' : `Fault ${id}: ${sampleIds.length} sample${sampleIds.length === 1 ? '' : 's'} highlighted${this.report.length > 0 ? '' : ` (within ${FAULT_SAMPLE_DISTANCE_KM} km of the trace)`}.`;
+  }
+
+  private render(): void {
+    // The run's fault report columns (shared/structure/fault-report.ts): the grade jump across the fault, the
+    // higher-grade side, zones missing on one side, and isograd separations along the trace.
+    const reportCols: { label: string; value: (r: FaultReportRow) => unknown }[] = this.report.length === 0 ? [] : [
+      { label: 'Grade jump (zones)', value: (r) => r.gradeJump },
+      { label: 'Higher grade', value: (r) => r.higherWall ?? r.higherSide },
+      { label: 'Missing zones', value: (r) => r.missingZones },
+      { label: 'Isograd separation (km)', value: (r) => (Array.isArray(r.separations) && r.separations.length > 0 ? (r.separations as { isograd: string; separationKm: number }[]).map((x) => `${x.isograd} ${Math.round(x.separationKm * 10) / 10}`) : null) },
+    ];
+    const faultRows = this.faults.features.map((f) => {
+      const p = f.properties ?? {};
+      const id = String(p.id ?? f.id ?? '');
+      const r = this.report.find((x) => String(x.id) === id || String(x.faultId) === id);
+      const btn = el('button', { type: 'button', class: 'rowbtn', 'aria-pressed': 'false' }, String(p.name ?? id));
+      btn.addEventListener('click', () => this.select(this.selected === id ? null : id));
+      return el(
+        'tr',
+        { 'data-fault': id },
+        el('td', {}, btn),
+        el('td', {}, String(p.kind ?? 'unknown')),
+        el('td', { class: 'num' }, typeof p.dipDeg === 'number' ? `${p.dipDeg}°` : '—'),
+        el('td', { class: 'num' }, fmt(lengthKm(lines(f.geometry)), 1)),
+        ...reportCols.map((c) => el('td', {}, r ? formatCell(c.value(r)) : '—')),
+      );
+    });
+    const faultTable = el(
+      'table',
+      { class: 'report', id: 'fault-table' },
+      el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Fault'), el('th', { scope: 'col' }, 'Kind'), el('th', { scope: 'col' }, 'Dip'), el('th', { scope: 'col' }, 'Length (km)'), ...reportCols.map((c) => el('th', { scope: 'col' }, c.label)))),
+      el('tbody', {}, ...faultRows),
+    );
+    const parts: (HTMLElement | null)[] = [el('h3', {}, 'Faults'), faultRows.length > 0 ? el('div', { class: 'table-scroll' }, faultTable) : el('p', { class: 'empty' }, 'No faults in the data.'), el('p', { class: 'note', id: 'fault-selection', 'aria-live': 'polite' })];
+    parts.push(el('h3', {}, 'Isograds'));
+    if (this.isogradSummary.length > 0) {
+      const rows = this.isogradSummary.map((r) => el('tr', {}, el('td', {}, `${String(r.mineral ?? r.isograd ?? '—')}-in`), el('td', { class: 'num' }, formatCell(r.lines)), el('td', { class: 'num' }, formatCell(r.lengthKm)), el('td', { class: 'num' }, formatCell(r.samplesAbove)), el('td', { class: 'num' }, formatCell(r.samplesBelow))));
+      parts.push(el('table', { class: 'report', id: 'isograd-table' }, el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Isograd'), el('th', { scope: 'col' }, 'Lines'), el('th', { scope: 'col' }, 'Length (km)'), el('th', { scope: 'col' }, 'Samples above'), el('th', { scope: 'col' }, 'Samples below'))), el('tbody', {}, ...rows)));
+    } else if (this.isograds === null) parts.push(el('p', { class: 'empty' }, 'Isograds are drawn from the samples by a run: none yet.'));
+    else {
+      const rows = this.isograds.features.map((f) => {
+        const p = f.properties ?? {};
+        return el('tr', {}, el('td', {}, String(p.mineral ?? p.zone ?? '—')), el('td', { class: 'num' }, formatCell(p.rank)), el('td', {}, String(p.highSide ?? '—')), el('td', { class: 'num' }, fmt(lengthKm(lines(f.geometry)), 1)));
+      });
+      parts.push(el('table', { class: 'report', id: 'isograd-table' }, el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Mineral in'), el('th', { scope: 'col' }, 'Rank'), el('th', { scope: 'col' }, 'High side'), el('th', { scope: 'col' }, 'Length (km)'))), el('tbody', {}, ...rows)));
+    }
+    replace(this.root, ...parts);
+    if (this.selected !== null) this.select(this.selected);
+  }
+}
+
+function formatCell(v: unknown): string {
+  if (v === null || v === undefined) return '—';
+  if (typeof v === 'number') return Number.isFinite(v) ? String(Math.round(v * 100) / 100) : '—';
+  if (typeof v === 'string' || typeof v === 'boolean') return String(v);
+  if (Array.isArray(v)) return v.map(formatCell).join(', ');
+  return JSON.stringify(v);
+}
