@@ -636,8 +636,8 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
 
   const summary: Record<string, unknown> = {
     grid: { width: g.width, height: g.height, cells, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs, cellKm: interp.cellKm },
-    interpolation: { method: iopt.method, variogram: interp.variogram ? { model: interp.variogram.model, nugget: interp.variogram.nugget, partialSill: interp.variogram.partialSill, rangeKm: interp.variogram.rangeKm, source: interp.variogram.source } : null },
-    crossValidation: prep.crossValidation ? { n: prep.crossValidation.n, rmse: prep.crossValidation.rmse, meanError: prep.crossValidation.meanError, meanSquaredDeviationRatio: prep.crossValidation.meanSquaredDeviationRatio } : null,
+    interpolation: { method: iopt.method, variogram: interp.variogram ? { model: interp.variogram.model, nugget: interp.variogram.nugget, partialSill: interp.variogram.partialSill, rangeKm: interp.variogram.rangeKm, source: interp.variogram.source, empirical: interp.variogram.empirical } : null },
+    crossValidation: prep.crossValidation ? { n: prep.crossValidation.n, rmse: prep.crossValidation.rmse, meanError: prep.crossValidation.meanError, meanStandardizedError: prep.crossValidation.meanStandardizedError, meanSquaredDeviationRatio: prep.crossValidation.meanSquaredDeviationRatio } : null,
     isothermsC, depthsKm, faciesDepthKm, maxDepthKm: products.maxDepthKm,
     overrides: regions.map((r) => r.label),
     inconsistent: products.counts,

@@ -33,6 +33,13 @@ describe('the isograd stage of a run', () => {
     // F1's footwall is the higher-grade side (fixtures/truth.json: builtInOffset.higherGradeSide).
     expect(truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.higherGradeSide).toContain('footwall');
     expect(structure.faults.map((f) => f.id)).toEqual(expect.arrayContaining(['F1', 'F2']));
+    // The summary carries what the client plots: the empirical semivariogram beside the fitted model, and the
+    // cross-validation scores.
+    const interp = res.summary.interpolation as { variogram: { empirical: { lagKm: number; gamma: number; pairs: number }[] } };
+    expect(interp.variogram.empirical.length).toBeGreaterThan(5);
+    for (const e of interp.variogram.empirical) expect(e.pairs).toBeGreaterThan(0);
+    const cv = res.summary.crossValidation as { rmse: number; meanStandardizedError: number };
+    expect(Number.isFinite(cv.meanStandardizedError)).toBe(true);
   });
 
   it('adds nothing when the run has no samples', async () => {
