@@ -290,8 +290,12 @@ export function variogramModel(v: Variogram, h: number): number {
 export function variogramPlot(v: Variogram): HTMLElement {
   const W = 340, H = 220, M = { l: 48, r: 12, t: 14, b: 36 };
   const emp = v.empirical ?? [];
-  const hMax = Math.max(v.rangeKm * 1.3, ...emp.map((e) => e.lagKm)) || 1;
-  const gMax = Math.max(v.nugget + v.partialSill, ...emp.map((e) => e.gamma)) * 1.1 || 1;
+  // The lag axis spans the empirical lags (the fit's evidence) with a margin; without them, 1.3 × the range. A range
+  // far beyond the lags (a trend in the data) then runs off the plot instead of squeezing the points into a corner.
+  const maxLag = emp.length > 0 ? Math.max(...emp.map((e) => e.lagKm)) : 0;
+  const hMax = (maxLag > 0 ? maxLag * 1.15 : v.rangeKm * 1.3) || 1;
+  const gAtMax = variogramModel(v, hMax);
+  const gMax = Math.max(Number.isFinite(gAtMax) ? gAtMax : v.nugget + v.partialSill, ...emp.map((e) => e.gamma)) * 1.1 || 1;
   const x = (h: number) => M.l + (h / hMax) * (W - M.l - M.r);
   const y = (g: number) => H - M.b - (g / gMax) * (H - M.t - M.b);
   const root = svg('svg', { viewBox: `0 0 ${W} ${H}`, width: W, height: H, class: 'variogram-plot', role: 'img', 'aria-label': `variogram: ${v.model} model, nugget ${fmt(v.nugget, 2)}, partial sill ${fmt(v.partialSill, 2)}, range ${fmt(v.rangeKm, 1)} km` });
