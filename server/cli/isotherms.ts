@@ -21,7 +21,7 @@ const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a ther
   --band N                    band of a multi-band GeoTIFF (1-based; required when it has several)
   --heat-flow-sd G.sd.tif     standard deviation of the heat flow (same grid), for the Monte Carlo
   --model M.json              thermal model (layers; parameters may be distributions)
-  --isotherms 300,500         isotherms (°C) → depth-<T>C.tif and .contours.geojson
+  --isotherms 300,500         isotherms (°C, default 300,500) → depth-<T>C.tif and .contours.geojson
   --depths-km 3,5             depths (km) → temperature-<d>km.tif and .contours.geojson
   --facies-depth-km D         facies at this depth → facies-<D>km.tif (default: the deepest of --depths-km, else 10)
   --max-depth-km Z            isotherm and solidus searches stop here (default: the model's bottom)
@@ -110,8 +110,8 @@ export async function isotherms(argv: string[]): Promise<number> {
     return v;
   };
   const hfPath = need('heat-flow'), modelPath = need('model'), outDir = need('out-dir');
-  if (a.isotherms === undefined) throw new InputError('--isotherms is required (e.g. --isotherms 300,500)', [{ field: 'isotherms', problem: 'missing' }], 'bad_option');
-  const isothermsC = numberListOption('isotherms', a.isotherms, []);
+  // 300 and 500 °C unless asked otherwise, as in every other verb and the map.
+  const isothermsC = numberListOption('isotherms', a.isotherms, [300, 500]);
   const depthsKm = numberListOption('depths-km', a['depths-km'], []);
   for (const d of depthsKm) if (!(d > 0)) throw new InputError(`--depths-km must be > 0, got ${d}`, [{ field: 'depths-km', problem: 'expected depths > 0 km' }], 'bad_option');
   const faciesDepthKm = a['facies-depth-km'] !== undefined ? numberOption('facies-depth-km', a['facies-depth-km']) : depthsKm.length > 0 ? Math.max(...depthsKm) : 10;
