@@ -212,9 +212,19 @@ export function columnIsothermDepth(cm: CompiledModel, st: ColumnState, tIso: nu
     const disc = q * q - 2 * a * c;
     x = (2 * c) / (q + Math.sqrt(disc > 0 ? disc : 0));
   } else {
-    let lo = c / q, hi = hLim;
+    // Bracket: the root with A = 0 (c/q) is a lower bound; the root with A held at A_top (the quadratic) an upper
+    // bound, since the decaying A(z) ≤ A_top adds less curvature. Start from the quadratic with the mean A over
+    // [0, c/q], which is within a small fraction of a percent of the root for crustal parameters.
+    const xLin = c / q;
+    let lo = xLin, hi = hLim;
+    const discTop = q * q - 2 * a * c;
+    if (discTop > 0) hi = Math.min(hi, (2 * c) / (q + Math.sqrt(discTop)));
     if (lo > hi) lo = hi;
-    x = lo;
+    const aMean = xLin > 0 ? (a * d * -Math.expm1(-xLin / d)) / xLin : a;
+    const discMean = q * q - 2 * aMean * c;
+    x = discMean > 0 ? (2 * c) / (q + Math.sqrt(discMean)) : 0.5 * (lo + hi);
+    if (!(x >= lo && x <= hi)) x = 0.5 * (lo + hi);
+    const d2 = d * d;
     for (let it = 0; it < 60; it++) {
       const e = Math.expm1(-x / d); // e^(−x/D) − 1
       const g = q * x - a * d * (x + d * e) - c;
@@ -226,7 +236,9 @@ export function columnIsothermDepth(cm: CompiledModel, st: ColumnState, tIso: nu
       if (!(xn > lo && xn < hi)) xn = 0.5 * (lo + hi);
       const dx = Math.abs(xn - x);
       x = xn;
-      if (dx < ROOT_TOL_KM * 1e-3 || hi - lo < ROOT_TOL_KM * 1e-3) break;
+      // Halley converges cubically: the error left after a step of dx is about K·dx³ with K ~ 1/D² for this
+      // exponential (the derivatives' scale is D), so dx³/D² < 1e-9 km leaves well under the 1 mm promised.
+      if ((dx * dx * dx) / d2 < ROOT_TOL_KM * 1e-3 || hi - lo < ROOT_TOL_KM * 1e-3) break;
     }
   }
   if (x > hLim) x = hLim;
