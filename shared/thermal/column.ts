@@ -224,7 +224,10 @@ export function columnIsothermDepth(cm: CompiledModel, st: ColumnState, tIso: nu
     const discMean = q * q - 2 * aMean * c;
     x = discMean > 0 ? (2 * c) / (q + Math.sqrt(discMean)) : 0.5 * (lo + hi);
     if (!(x >= lo && x <= hi)) x = 0.5 * (lo + hi);
-    const d2 = d * d;
+    // Scale of the error left after a Halley step of dx: about K·dx³ with K ~ (g''/g')² + g'''/g' for this
+    // function (g' = q(x), g'' = −A(x), g''' = A(x)/D), bounded by (A_top/q_top)² + A_top/(q_top·D) + 1/D²; 1e-9 km
+    // of error (well under the 1 mm promised) then needs dx³·K < 1e-9.
+    const kHalley = (a / q) * (a / q) + a / (q * d) + 1 / (d * d);
     for (let it = 0; it < 60; it++) {
       const e = Math.expm1(-x / d); // e^(−x/D) − 1
       const g = q * x - a * d * (x + d * e) - c;
@@ -236,9 +239,7 @@ export function columnIsothermDepth(cm: CompiledModel, st: ColumnState, tIso: nu
       if (!(xn > lo && xn < hi)) xn = 0.5 * (lo + hi);
       const dx = Math.abs(xn - x);
       x = xn;
-      // Halley converges cubically: the error left after a step of dx is about K·dx³ with K ~ 1/D² for this
-      // exponential (the derivatives' scale is D), so dx³/D² < 1e-9 km leaves well under the 1 mm promised.
-      if ((dx * dx * dx) / d2 < ROOT_TOL_KM * 1e-3 || hi - lo < ROOT_TOL_KM * 1e-3) break;
+      if (dx * dx * dx * kHalley < ROOT_TOL_KM * 1e-3 || hi - lo < ROOT_TOL_KM * 1e-3) break;
     }
   }
   if (x > hLim) x = hLim;

@@ -23,7 +23,9 @@ describe('isotherm depth root', () => {
         for (const T of [100, 150, 300, 500]) {
           const z = columnIsothermDepth(cm, st, T, 40);
           if (!Number.isFinite(z)) continue;
-          let lo = 0, hi = 40;
+          // Bisect over the valid part of the column only: where q reaches 0 (strong, slowly decaying heat
+          // production) the temperature peaks and the closed form would fall below it.
+          let lo = 0, hi = st.validToKm;
           for (let i = 0; i < 200; i++) {
             const m = (lo + hi) / 2;
             if (temperature(m, q) < T) lo = m;
