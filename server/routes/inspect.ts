@@ -10,6 +10,8 @@ import { computeSection, linesOf, type LineFeature } from '../runs/section.ts';
 import type { RunRecord } from '../store/types.ts';
 import { jsonBody, notFound, requireJsonType, type AppContext } from './context.ts';
 import { columnAtRunSchema, columnOfModelSchema, parseWith, sectionSchema } from './schemas.ts';
+import { parseFeatureCollection } from '../../shared/schema/features.ts';
+import { applyLayerOverride, overrideRegionAt, overrideRegions } from '../../shared/products/overrides.ts';
 
 /** Realizations of the column band for a run with realizations (seeded by the run's seed). */
 export const COLUMN_BAND_REALIZATIONS = 200;
@@ -32,6 +34,28 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
     return modelFromJson(JSON.parse(rec.body), `model ${m}`).model;
   };
 
+  /**
+   * The model of a run at a point: the run's model, or inside one of its regions with `layers` the overridden model
+   * (the later region wins where they overlap, as in the run's grids), keyed by the region's label.
+   */
+  const runZones = (run: RunRecord): ((lon: number, lat: number) => { key: string; model: ThermalModelInput; region: string | null }) => {
+    const base = runModel(run);
+    const regionsId = (run.request as RunRequest).regions;
+    const baseZone = { key: 'model', model: base, region: null };
+    if (regionsId === undefined) return () => baseZone;
+    const rec = ctx.store.getDataset(regionsId);
+    if (!rec) throw new InputError(`the regions data set ${regionsId} of run ${run.id} is gone`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found', 404);
+    const { regions } = overrideRegions(parseFeatureCollection('regions', JSON.parse(rec.body)).collection.features as { geometry: unknown; properties?: Record<string, unknown> }[]);
+    const models = new Map<number, ThermalModelInput>();
+    return (lon, lat) => {
+      const k = overrideRegionAt(regions, lon, lat);
+      if (k < 0) return baseZone;
+      let m = models.get(k);
+      if (!m) models.set(k, (m = applyLayerOverride(base, regions[k].override)));
+      return { key: regions[k].label, model: m, region: regions[k].label };
+    };
+  };
+
   app.post('/api/column', async (c) => {
     requireJsonType(c);
     const body = await jsonBody(c);
@@ -47,8 +71,9 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
       }
       const s = sd ? sampleAtLonLat(sd, q.lon, q.lat) : NaN;
       const realizations = (req.realizations ?? 0) > 0 ? COLUMN_BAND_REALIZATIONS : 0;
+      const here = runZones(run)(q.lon, q.lat);
       const out = computeColumn({
-        model: runModel(run),
+        model: here.model,
         heatFlowMWm2: q0,
         heatFlowSdMWm2: Number.isFinite(s) ? s : undefined,
         isothermsC: q.isothermsC ?? req.isothermsC ?? [300, 500],
@@ -58,7 +83,7 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
         realizations,
         seed: req.seed ?? 0, // the pipeline's default seed
       });
-      return c.json({ runId: run.id, lon: q.lon, lat: q.lat, ...out });
+      return c.json({ runId: run.id, lon: q.lon, lat: q.lat, modelRegion: here.region, ...out });
     }
     const q = parseWith(columnOfModelSchema, body, 'column request', 'invalid_column');
     checkSamples(q.maxDepthKm, q.stepKm);
@@ -108,9 +133,11 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
         console.error(`[${new Date().toISOString()}] run ${run.id}: isograds layer is not valid GeoJSON`);
       }
     }
+    const modelAt = runZones(run);
     const out = computeSection({
       heatFlow: heat,
       model: runModel(run),
+      modelAt: (run.request as RunRequest).regions !== undefined ? modelAt : undefined,
       line: q.line,
       maxDepthKm: q.maxDepthKm,
       samples: q.samples,

@@ -14,7 +14,7 @@ import type { Grid, GridSpec } from '../../shared/grid/grid.ts';
 import { contourGrid, niceContourInterval, type ContourCollection } from '../../shared/grid/contours.ts';
 import { rampLegend } from '../../shared/grid/colorize.ts';
 import { DEPTH, EMBER, HAZE, type Ramp } from '../../shared/grid/ramps.ts';
-import { rasterizeZones, ringsOfGeometry, type Rings } from '../../shared/grid/polygon-cells.ts';
+import { rasterizeZones, type Rings } from '../../shared/grid/polygon-cells.ts';
 import { runRequestSchema, type Legend, type RunLayerInfo, type RunRequest } from '../../shared/schema/run.ts';
 import { interpolationOptionsSchema, pointsFromGeoJson } from '../../shared/schema/interp.ts';
 import { parseFeatureCollection } from '../../shared/schema/features.ts';
@@ -24,7 +24,7 @@ import { createGridRuntime, computeRows, addStats, type RowStats } from '../../s
 import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
 import { compileModel, isUncertainModel, nominalModel, type CompiledModel } from '../../shared/thermal/index.ts';
 import { parseModelDocument, parseModelText, type ModelDocument } from '../../shared/products/model-input.ts';
-import { applyLayerOverride, overrideFromProperties, type LayerOverride } from '../../shared/products/overrides.ts';
+import { applyLayerOverride, overrideRegions, type OverrideRegion } from '../../shared/products/overrides.ts';
 import { allocateThermalGridBuffers, computeThermalGridRows, inconsistencyCounts, planThermalGrids, productGrid } from '../../shared/products/thermal-grids.ts';
 import { allocateUncertaintyOutput, computeUncertaintyRows, prepareUncertainty, uncertaintyResult } from '../../shared/products/uncertainty.ts';
 import { faciesLegend } from '../../shared/products/facies-grid.ts';
@@ -173,12 +173,7 @@ export interface ProductOptions {
   tileRows?: number;
 }
 
-export interface OverrideRegion {
-  label: string;
-  override: LayerOverride;
-  /** Polygon rings in lon/lat. */
-  ringsLonLat: Rings;
-}
+export type { OverrideRegion } from '../../shared/products/overrides.ts';
 
 export interface ThermalProductsResult {
   layers: ProductLayer[];
@@ -487,14 +482,9 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
     const rd = dataset(datasets, req.regions, 'regions');
     const ds = parseFeatureCollection('regions', parseJsonBody(rd, req.regions, 'regions'));
     warnings.push(...ds.warnings);
-    ds.collection.features.forEach((f, i) => {
-      const props = (f.properties ?? {}) as Record<string, unknown>;
-      const label = `regions[${i}]${props.id !== undefined ? ` (${String(props.id)})` : ''}`;
-      const o = overrideFromProperties(props, label);
-      const rings = ringsOfGeometry(f.geometry as { type: string; coordinates: unknown });
-      if (o !== null) regions.push({ label, override: o, ringsLonLat: rings });
-      else if (req.maskToRegion && mask === null) mask = rings;
-    });
+    const found = overrideRegions(ds.collection.features as { geometry: unknown; properties?: Record<string, unknown> }[]);
+    regions.push(...found.regions);
+    if (req.maskToRegion && found.plain.length > 0) mask = found.plain[0];
     if (req.maskToRegion && mask === null) throw new InputError('maskToRegion is set but the regions data set has no feature without "layers" to serve as the mask', [{ field: 'maskToRegion', problem: 'add a polygon without layers, or unset maskToRegion' }], 'invalid_request');
     hashes.regions = sha256Hex(rd.body);
   } else if (req.maskToRegion) {

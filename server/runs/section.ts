@@ -27,6 +27,8 @@ const WGS84 = geodesic.Geodesic.WGS84;
 export interface SectionQuery {
   heatFlow: RunGrid;
   model: ThermalModelInput;
+  /** The model at a point when it varies (override regions): a key naming the zone and its model; default `model`. */
+  modelAt?: (lon: number, lat: number) => { key: string; model: ThermalModelInput };
   line: [number, number][];
   maxDepthKm: number;
   /** Samples along the line (columns of the section). */
@@ -96,18 +98,27 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
     heat[j] = sampleAtLonLat(q.heatFlow, lon[j], lat[j]);
   }
 
-  const cm = compileModel(nominalModel(q.model), { maxDepthKm: q.maxDepthKm });
   const depthKm = new Float64Array(nz);
-  const pressureKbar = new Float64Array(nz);
-  for (let k = 0; k < nz; k++) {
-    depthKm[k] = nz === 1 ? 0 : (q.maxDepthKm * k) / (nz - 1);
-    pressureKbar[k] = lithostaticPressureMPa(cm, depthKm[k]) / 100; // 1 kbar = 100 MPa
-  }
+  for (let k = 0; k < nz; k++) depthKm[k] = nz === 1 ? 0 : (q.maxDepthKm * k) / (nz - 1);
+  // One compiled model (and its lithostatic pressure at each section depth) per zone met along the line.
+  const zones = new Map<string, { cm: ReturnType<typeof compileModel>; pressureKbar: Float64Array; st: ColumnState }>();
+  const zoneOf = (key: string, model: ThermalModelInput) => {
+    let z = zones.get(key);
+    if (!z) {
+      const cm = compileModel(nominalModel(model), { maxDepthKm: q.maxDepthKm });
+      const pressureKbar = new Float64Array(nz);
+      for (let k = 0; k < nz; k++) pressureKbar[k] = lithostaticPressureMPa(cm, depthKm[k]) / 100; // 1 kbar = 100 MPa
+      z = { cm, pressureKbar, st: new ColumnState(cm.nLayers) };
+      zones.set(key, z);
+    }
+    return z;
+  };
+  const base = zoneOf('model', q.model);
+  const zoneKey: string[] = new Array(n).fill('model');
   // Row-major, row 0 at the surface: value index = depthRow·samples + column.
   const temperature: (number | null)[] = new Array(n * nz).fill(null);
   const facies = new Int8Array(n * nz).fill(-1);
   const isoCurves = q.isothermsC.map(() => new Array<number | null>(n).fill(null));
-  const st = new ColumnState(cm.nLayers);
   let noData = 0;
   for (let j = 0; j < n; j++) {
     const q0 = heat[j];
@@ -115,6 +126,9 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
       noData++;
       continue;
     }
+    const here = q.modelAt ? q.modelAt(lon[j], lat[j]) : null;
+    const { cm, pressureKbar, st } = here ? zoneOf(here.key, here.model) : base;
+    if (here) zoneKey[j] = here.key;
     solveColumn(cm, q0, cm.surfaceTemperatureC, st);
     for (let k = 0; k < nz; k++) {
       const t = columnTemperature(cm, st, depthKm[k]);
@@ -144,7 +158,7 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
     return out.sort((x, y) => x.distanceKm - y.distanceKm);
   };
 
-  const warnings: string[] = [...cm.warnings];
+  const warnings: string[] = [...new Set([...zones.values()].flatMap((z) => z.cm.warnings))];
   if (noData > 0) warnings.push(`${noData} of ${n} samples along the line have no heat-flow value (outside the run's grid or no data): their columns are empty`);
   return {
     lengthKm: r3(totalKm),
@@ -157,6 +171,7 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
     temperatureC: temperature,
     faciesNames: FACIES_NAMES,
     faciesClass: Array.from(facies),
+    ...(q.modelAt ? { modelZone: zoneKey.map((k) => (k === 'model' ? null : k)) } : {}),
     isotherms: q.isothermsC.map((t, i) => ({ temperatureC: t, depthKm: isoCurves[i] })),
     faultCrossings: crossings(q.faults),
     isogradCrossings: crossings(q.isograds),

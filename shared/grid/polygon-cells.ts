@@ -89,3 +89,19 @@ export function ringsOfGeometry(geometry: { type: string; coordinates: unknown }
   if (geometry.type === 'MultiPolygon') return (geometry.coordinates as number[][][][]).flatMap((poly) => poly.map(map));
   throw new RangeError(`expected a Polygon or MultiPolygon, got ${geometry.type}`);
 }
+
+/**
+ * Whether (x, y) lies inside a ring set by the even–odd rule, with the same half-open edge rule as the rasteriser
+ * (so a point and the cell centre at the same place always agree).
+ */
+export function pointInRings(rings: Rings, x: number, y: number): boolean {
+  let inside = false;
+  for (const r of rings) {
+    const n = r.length;
+    for (let i = 0, j = n - 1; i < n; j = i++) {
+      const xi = r[i][0], yi = r[i][1], xj = r[j][0], yj = r[j][1];
+      if (yi > y !== yj > y && x < ((xj - xi) * (y - yi)) / (yj - yi) + xi) inside = !inside;
+    }
+  }
+  return inside;
+}

@@ -17,6 +17,7 @@
  */
 import { InputError, type InputProblem } from '../errors.ts';
 import { parseThermalModel, type ThermalModelInput } from '../schema/model.ts';
+import { pointInRings, ringsOfGeometry, type Rings } from '../grid/polygon-cells.ts';
 
 export interface LayerOverride {
   /** Region label for messages, e.g. `regions[2] (basin)`. */
@@ -98,4 +99,38 @@ export function applyLayerOverride(base: ThermalModelInput, o: LayerOverride): T
 function stripNulls(l: Record<string, unknown>): Record<string, unknown> {
   for (const k of Object.keys(l)) if (l[k] === null) delete l[k];
   return l;
+}
+
+/** An override region of a regions data set: its label, its override and its rings in lon/lat. */
+export interface OverrideRegion {
+  label: string;
+  override: LayerOverride;
+  ringsLonLat: Rings;
+}
+
+/**
+ * The override regions of a validated regions collection, in order, with their labels (`regions[i] (id)`); the
+ * features without `layers` are returned apart (a mask candidate).
+ */
+export function overrideRegions(features: { geometry: unknown; properties?: Record<string, unknown> | null }[]): { regions: OverrideRegion[]; plain: Rings[] } {
+  const regions: OverrideRegion[] = [];
+  const plain: Rings[] = [];
+  features.forEach((f, i) => {
+    const props = (f.properties ?? {}) as Record<string, unknown>;
+    const label = `regions[${i}]${props.id !== undefined ? ` (${String(props.id)})` : ''}`;
+    const o = overrideFromProperties(props, label);
+    const rings = ringsOfGeometry(f.geometry as { type: string; coordinates: unknown });
+    if (o !== null) regions.push({ label, override: o, ringsLonLat: rings });
+    else plain.push(rings);
+  });
+  return { regions, plain };
+}
+
+/**
+ * Index of the override region containing a lon/lat point, or −1: where regions overlap the later one wins, as in
+ * the zone raster of the grids (shared/grid/polygon-cells.ts rasterizeZones), so a column and its grid cell agree.
+ */
+export function overrideRegionAt(regions: readonly OverrideRegion[], lon: number, lat: number): number {
+  for (let k = regions.length - 1; k >= 0; k--) if (pointInRings(regions[k].ringsLonLat, lon, lat)) return k;
+  return -1;
 }
