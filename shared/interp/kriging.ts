@@ -186,6 +186,15 @@ export class KrigingPredictor {
     }
     const c0 = this.c0;
     if (this.failed) return this.fallback(qx, qy, n, out);
+    if (!withSd && this.keyLen === n && n === this.x.length && this.global && exclude < 0) {
+      // Global estimate only (the dual form): one fused pass over the data, no covariance vector stored.
+      const cw = this.globalEstimateSums(qx, qy, n);
+      if (cw !== null) {
+        out[0] = cw;
+        out[1] = NaN;
+        return n;
+      }
+    }
     this.covariances(qx, qy, n);
     const b = this.b, w = this.w;
     let cb = 0, cw = 0;
@@ -203,6 +212,38 @@ export class KrigingPredictor {
     } else out[1] = NaN;
     if (!Number.isFinite(out[0])) return this.fallback(qx, qy, n, out);
     return n;
+  }
+
+  /**
+   * The global ordinary-kriging estimate at (qx, qy) in one pass: Σ c₀ᵢ·wᵢ − μ·bz with μ = (Σ c₀ᵢ·bᵢ − 1)/s, where
+   * c₀ᵢ = C(|xᵢ − q|) over every point in index order (the identity neighbour set). The same sums as `predict`'s,
+   * without storing c₀. Returns null for a model other than exponential or Gaussian (the general path serves it).
+   */
+  private globalEstimateSums(qx: number, qy: number, n: number): number | null {
+    const { x, y, b, w, psill, sill } = this;
+    let cb = 0, cw = 0;
+    if (this.code === 1) {
+      const f = -3 / this.range;
+      for (let i = 0; i < n; i++) {
+        const dx = x[i] - qx, dy = y[i] - qy;
+        const h = Math.sqrt(dx * dx + dy * dy);
+        const c = h > 0 ? psill * Math.exp(f * h) : sill;
+        cb += c * b[i];
+        cw += c * w[i];
+      }
+    } else if (this.code === 2) {
+      const f = -3 / (this.range * this.range);
+      for (let i = 0; i < n; i++) {
+        const dx = x[i] - qx, dy = y[i] - qy;
+        const h2 = dx * dx + dy * dy;
+        const c = h2 > 0 ? psill * Math.exp(f * h2) : sill;
+        cb += c * b[i];
+        cw += c * w[i];
+      }
+    } else return null;
+    const mu = (cb - 1) / this.s;
+    const v = cw - mu * this.bz;
+    return Number.isFinite(v) ? v : null;
   }
 
   /** c₀[i] = C(|xᵢ − q|) for the current set, one loop per model (no per-point branch on the model). */
