@@ -104,6 +104,10 @@ describe('ordinary kriging agrees with a dense solve of the full system (ml-matr
         const d = denseOk(x, y, z, all, m, qx, qy);
         expect(Math.abs(out[0] - d.est) / Math.abs(d.est)).toBeLessThan(1e-9);
         expect(Math.abs(out[1] ** 2 - d.variance) / d.variance).toBeLessThan(1e-9);
+        // The estimate-only path (one fused pass, no variance) gives the same estimate.
+        k.predict(qx, qy, out, false);
+        expect(Math.abs(out[0] - d.est) / Math.abs(d.est)).toBeLessThan(1e-9);
+        expect(out[1]).toBeNaN();
       }
     });
 
