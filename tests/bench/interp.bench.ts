@@ -5,17 +5,8 @@ import kriging from '@sakitam-gis/kriging';
 import { interpolateGrid, prepareInterpolation, finishGrid, type PointData } from '../../shared/interp/interpolate.ts';
 import { createInterpPool, computeGridParallel } from '../../server/workers/interp-worker.ts';
 import { kmPerDegree } from '../../shared/interp/projection.ts';
+import { prng } from '../helpers/prng.ts';
 
-function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 /** n invented sites in a 1° square at 38° S (about 88 × 111 km), a smooth field plus noise. */
 function sites(n: number, seed: number): PointData {

@@ -3,17 +3,8 @@ import turfInterpolate from '@turf/interpolate';
 import { IdwPredictor } from '../../shared/interp/idw.ts';
 import { NeighbourIndex } from '../../shared/interp/neighbours.ts';
 import { interpolateGrid, DEFAULT_QUALITY_WEIGHTS } from '../../shared/interp/interpolate.ts';
+import { prng } from '../helpers/prng.ts';
 
-function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 describe('IDW agrees with @turf/interpolate (all points) on the same points and cells', () => {
   // turf measures great-circle (haversine) distance on a sphere of radius 6371.0088 km. Near the equator, over

@@ -4,6 +4,7 @@ import { KrigingPredictor } from '../../shared/interp/kriging.ts';
 import { IdwPredictor } from '../../shared/interp/idw.ts';
 import { covariance, type VariogramModel } from '../../shared/interp/variogram.ts';
 import { crossValidateKriging, dubrule } from '../../shared/interp/crossValidation.ts';
+import { prng } from '../helpers/prng.ts';
 
 // Isaaks & Srivastava (1989), An Introduction to Applied Geostatistics, ch. 12: seven samples (x, y, value),
 // target (65, 137), covariance C(h) = 10·e^(−0.3h) [checked, ../shared/SOURCES.md].
@@ -14,17 +15,6 @@ const isY = Float64Array.from(IS, (p) => p[1]);
 const isZ = Float64Array.from(IS, (p) => p[2]);
 const IS_MODEL: VariogramModel = { model: 'exponential', nugget: 0, partialSill: 10, rangeKm: 10 };
 
-/** Mulberry32, a small seeded PRNG (test data only). */
-function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 function randomPoints(n: number, seed: number, sizeKm = 50) {
   const r = prng(seed);

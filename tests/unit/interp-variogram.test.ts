@@ -1,17 +1,8 @@
 import { describe, it, expect } from 'vitest';
 import { semivariance, covariance, empiricalVariogram, fitVariogram, anisotropyMatrix, type VariogramModel } from '../../shared/interp/variogram.ts';
 import { choleskyInPlace } from '../../shared/interp/linalg.ts';
+import { prng } from '../helpers/prng.ts';
 
-function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 describe('semivariogram models (practical-range convention, ../shared/DESIGN.md §3)', () => {
   const c0 = 2, c = 10, a = 30;
