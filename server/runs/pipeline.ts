@@ -187,7 +187,7 @@ export interface ThermalProductsResult {
 
 const now = () => performance.now();
 
-function gridToLonLat(spec: GridSpec, crsDef: string): (x: number, y: number) => [number, number] {
+function gridToLonLat(crsDef: string): (x: number, y: number) => [number, number] {
   if (crsDef === WGS84_DEF) return (x, y) => [x, y];
   const c = converter(crsDef, WGS84_DEF);
   return (x, y) => c.forward([x, y]);
@@ -317,7 +317,7 @@ export async function computeThermalProducts(
   }
 
   const t3 = now();
-  const toLonLat = gridToLonLat(heatFlow, crsDef);
+  const toLonLat = gridToLonLat(crsDef);
   const contourJobs = o.isothermsC.length + o.depthsKm.length;
   let contoursDone = 0;
   const contourStep = async (message: string) => {
@@ -570,7 +570,7 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
   warnings.push(...products.warnings);
 
   // Heat-flow layers.
-  const toLonLat = gridToLonLat(heatFlow, crsDef);
+  const toLonLat = gridToLonLat(crsDef);
   const hfStats = layerStats(heatFlow.values);
   const hfInterval = req.heatFlowContourIntervalMWm2 ?? (hfStats.min !== null && hfStats.max !== null ? niceContourInterval(hfStats.min, hfStats.max) : 5);
   const interpMethod = iopt.method === 'kriging'

@@ -215,7 +215,7 @@ export function nelderMead(f: (p: number[]) => number, x0: number[], maxIter: nu
   }
   let vals = pts.map(f);
   for (let it = 0; it < maxIter; it++) {
-    const order = vals.map((v, i) => i).sort((a, b) => vals[a] - vals[b]);
+    const order = vals.map((_, i) => i).sort((a, b) => vals[a] - vals[b]);
     const sp = order.map((i) => pts[i]);
     vals = order.map((i) => vals[i]);
     for (let i = 0; i <= n; i++) pts[i] = sp[i];

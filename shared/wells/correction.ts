@@ -96,7 +96,7 @@ export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOpti
   if (dups.length > 0) flags.push({ code: 'duplicate-row', message: `measurement${dups.length === 1 ? '' : 's'} ${dups.join(', ')} repeat an earlier row exactly and are left out of the fit` });
 
   // BHT depth groups (duplicates excluded).
-  const bhts = ms.map((m, i) => i).filter((i) => ms[i].kind === 'bht' && duplicateOf[i] < 0).sort((a, b) => ms[a].depthM - ms[b].depthM);
+  const bhts = ms.map((_, i) => i).filter((i) => ms[i].kind === 'bht' && duplicateOf[i] < 0).sort((a, b) => ms[a].depthM - ms[b].depthM);
   const groups: number[][] = [];
   for (const i of bhts) {
     const g = groups[groups.length - 1];
