@@ -1,31 +1,20 @@
 // Columns and sections inside a region whose `layers` override the model use the overridden model, as the run's
 // grids do, so the inspector and the map agree.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { tmpdir } from 'node:os';
-import { createApp } from '../../server/app.ts';
-import { SqliteStore } from '../../server/store/sqlite.ts';
-import { loadDemo, DEMO_DIR } from '../../server/demo.ts';
+import { DEMO_DIR } from '../../server/demo.ts';
 import { readGeoTiff } from '../../server/io/geotiff.ts';
 import { cellIndexFromXY, xFromCol, yFromRow } from '../../shared/grid/grid.ts';
+import { startTestApp, type TestApp } from '../helpers/app.ts';
 
-let dir: string;
-let store: SqliteStore;
-let app: ReturnType<typeof createApp>;
-const post = (path: string, body: unknown, type = 'application/json') => app.request(path, { method: 'POST', headers: { 'content-type': type }, body: typeof body === 'string' ? body : JSON.stringify(body) });
+let t: TestApp;
+const post = (path: string, body: unknown) => t.post(path, body);
 
 beforeAll(() => {
-  dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-overrides-'));
-  store = new SqliteStore(join(dir, 'db.sqlite'));
-  loadDemo(store);
-  app = createApp({ store, terrain: null, clientDir: null });
+  t = startTestApp('overrides');
 });
-afterAll(async () => {
-  await app.jobs.close();
-  store.close();
-  rmSync(dir, { recursive: true, force: true });
-});
+afterAll(() => t.close());
 
 describe('model overrides in columns and sections', () => {
   it('a column inside an override region uses its model and matches the run grid cell', async () => {
@@ -40,13 +29,8 @@ describe('model overrides in columns and sections', () => {
     const regionsId = ((await up.json()) as { id: string }).id;
     const res = await post('/api/runs', { sites: 'demo-sites', model: 'demo-model', regions: regionsId, isothermsC: [300], depthsKm: [5], grid: { cellKm: 6 } });
     const id = ((await res.json()) as { id: string }).id;
-    for (let i = 0; i < 3000; i++) {
-      const s = (await (await app.request(`/api/runs/${id}`)).json()) as { status: string };
-      if (s.status === 'done') break;
-      if (s.status === 'failed') throw new Error('run failed');
-      await new Promise((r) => setTimeout(r, 20));
-    }
-    const tif = (await readGeoTiff(await (await app.request(`/api/runs/${id}/layers/depth-300C.tif`)).arrayBuffer())).grid;
+    expect((await t.waitEnd(id)).status).toBe('done');
+    const tif = (await readGeoTiff(await (await t.app.request(`/api/runs/${id}/layers/depth-300C.tif`)).arrayBuffer())).grid;
     // A cell centre inside the basin and one outside: the column at each equals the grid's value there.
     for (const [lon, lat, inside] of [[-127.3, -38.35, true], [-128.4, -37.6, false]] as const) {
       const k = cellIndexFromXY(tif, lon, lat);

@@ -2,40 +2,21 @@
 // thread → stored layers and grids → column and section read from the stored grids; real progress, cancel of a
 // real run, and the cache.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { mkdtempSync, rmSync } from 'node:fs';
-import { join } from 'node:path';
-import { tmpdir } from 'node:os';
-import { createApp } from '../../server/app.ts';
-import { SqliteStore } from '../../server/store/sqlite.ts';
-import { loadDemo } from '../../server/demo.ts';
+import { startTestApp, type TestApp } from '../helpers/app.ts';
 
-let dir: string;
-let store: SqliteStore;
-let app: ReturnType<typeof createApp>;
+let t: TestApp;
+let store: TestApp['store'];
+let app: TestApp['app'];
 let runId: string;
 const REQUEST = { sites: 'demo-sites', faults: 'demo-faults', model: 'demo-model', realizations: 20, seed: 5, grid: { cellKm: 8 } };
-const post = (path: string, body: unknown) => app.request(path, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body) });
-
-async function waitEnd(id: string): Promise<{ status: string; progress: number; message: string; layers: { name: string; formats: string[]; urls: Record<string, string> }[] }> {
-  for (let i = 0; i < 3000; i++) {
-    const r = (await (await app.request(`/api/runs/${id}`)).json()) as { status: string; progress: number; message: string; layers: { name: string; formats: string[]; urls: Record<string, string> }[] };
-    if (['done', 'failed', 'cancelled'].includes(r.status)) return r;
-    await new Promise((res) => setTimeout(res, 20));
-  }
-  throw new Error('run did not end');
-}
+const post = (path: string, body: unknown) => t.post(path, body);
+const waitEnd = (id: string) => t.waitEnd(id);
 
 beforeAll(() => {
-  dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-pipeline-'));
-  store = new SqliteStore(join(dir, 'db.sqlite'));
-  loadDemo(store);
-  app = createApp({ store, terrain: null, clientDir: null });
+  t = startTestApp('pipeline');
+  ({ store, app } = t);
 });
-afterAll(async () => {
-  await app.jobs.close();
-  store.close();
-  rmSync(dir, { recursive: true, force: true });
-});
+afterAll(() => t.close());
 
 describe('runs with the real pipeline', () => {
   it('runs the demo, streaming real progress, and stores its layers and grids', async () => {

@@ -132,6 +132,19 @@ describe('contours of analytic fields', () => {
 import { contours as d3contours } from 'd3-contour';
 import { isolinesIndexLevels } from '../../shared/grid/contours.ts';
 
+/** Whether (x, y) lies on a side of any of the polylines (within 1e-9 index units). */
+function onSomeLine(lines: number[][][], x: number, y: number): boolean {
+  return lines.some((line) =>
+    line.some((p, i) => {
+      if (i === 0) return false;
+      const [ax, ay] = line[i - 1], [bx, by] = p;
+      const dx = bx - ax, dy = by - ay, l2 = dx * dx + dy * dy;
+      const u = l2 > 0 ? Math.max(0, Math.min(1, ((x - ax) * dx + (y - ay) * dy) / l2)) : 0;
+      return Math.hypot(ax + u * dx - x, ay + u * dy - y) < 1e-9;
+    }),
+  );
+}
+
 describe('isolines against d3-contour (general-purpose reference)', () => {
   it('every vertex lies on a side of one of d3-contour\'s rings at the same level, and every ring side inside the data is covered', () => {
     // A bumpy field with saddles, plateaus at exact level values and a NoData hole. Our vertices may differ from
@@ -145,14 +158,7 @@ describe('isolines against d3-contour (general-purpose reference)', () => {
     const gen = d3contours().size([w, h]);
     levels.forEach((L, k) => {
       const rings = gen.contour(Array.from(values, (v) => (Number.isNaN(v) ? NaN : v)), L).coordinates.flat();
-      const onRing = (x: number, y: number) =>
-        rings.some((ring) => ring.some((p, i) => {
-          if (i === 0) return false;
-          const [ax, ay] = ring[i - 1], [bx, by] = p;
-          const dx = bx - ax, dy = by - ay, l2 = dx * dx + dy * dy;
-          const u = l2 > 0 ? Math.max(0, Math.min(1, ((x - ax) * dx + (y - ay) * dy) / l2)) : 0;
-          return Math.hypot(ax + u * dx - x, ay + u * dy - y) < 1e-9;
-        }));
+      const onRing = (x: number, y: number) => onSomeLine(rings, x, y);
       let vertices = 0;
       for (const line of ours[k]) for (const [x, y] of line) {
         expect(onRing(x, y), `level ${L} vertex ${x},${y}`).toBe(true);
@@ -160,14 +166,7 @@ describe('isolines against d3-contour (general-purpose reference)', () => {
       }
       expect(vertices).toBeGreaterThan(10);
       // Coverage: each d3 ring side inside a square with four finite corners is part of one of our lines.
-      const onOurs = (x: number, y: number) =>
-        ours[k].some((line) => line.some((p, i) => {
-          if (i === 0) return false;
-          const [ax, ay] = line[i - 1], [bx, by] = p;
-          const dx = bx - ax, dy = by - ay, l2 = dx * dx + dy * dy;
-          const u = l2 > 0 ? Math.max(0, Math.min(1, ((x - ax) * dx + (y - ay) * dy) / l2)) : 0;
-          return Math.hypot(ax + u * dx - x, ay + u * dy - y) < 1e-9;
-        }));
+      const onOurs = (x: number, y: number) => onSomeLine(ours[k], x, y);
       let covered = 0;
       for (const ring of rings) for (let i = 1; i < ring.length; i++) {
         const mx = (ring[i - 1][0] + ring[i][0]) / 2, my = (ring[i - 1][1] + ring[i][1]) / 2;
