@@ -1,3 +1,4 @@
+import { expNonPositive } from './fast-exp.ts';
 import { NeighbourIndex, type VisibilityTest } from './neighbours.ts';
 import { choleskyInPlace, forwardSubstitute, choleskySolve, dot } from './linalg.ts';
 import { correlation, modelCode, checkVariogram, type VariogramModel } from './variogram.ts';
@@ -217,7 +218,7 @@ export class KrigingPredictor {
   /**
    * The global ordinary-kriging estimate at (qx, qy) in one pass: Σ c₀ᵢ·wᵢ − μ·bz with μ = (Σ c₀ᵢ·bᵢ − 1)/s, where
    * c₀ᵢ = C(|xᵢ − q|) over every point in index order (the identity neighbour set). The same sums as `predict`'s,
-   * without storing c₀. Returns null for a model other than exponential or Gaussian (the general path serves it).
+   * without storing c₀, and with e^t from a table (fast-exp.ts, relative error < 1e-12). Returns null for a model other than exponential or Gaussian (the general path serves it).
    */
   private globalEstimateSums(qx: number, qy: number, n: number): number | null {
     const { x, y, b, w, psill, sill } = this;
@@ -227,7 +228,7 @@ export class KrigingPredictor {
       for (let i = 0; i < n; i++) {
         const dx = x[i] - qx, dy = y[i] - qy;
         const h = Math.sqrt(dx * dx + dy * dy);
-        const c = h > 0 ? psill * Math.exp(f * h) : sill;
+        const c = h > 0 ? psill * expNonPositive(f * h) : sill;
         cb += c * b[i];
         cw += c * w[i];
       }
@@ -236,7 +237,7 @@ export class KrigingPredictor {
       for (let i = 0; i < n; i++) {
         const dx = x[i] - qx, dy = y[i] - qy;
         const h2 = dx * dx + dy * dy;
-        const c = h2 > 0 ? psill * Math.exp(f * h2) : sill;
+        const c = h2 > 0 ? psill * expNonPositive(f * h2) : sill;
         cb += c * b[i];
         cw += c * w[i];
       }
