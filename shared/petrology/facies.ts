@@ -6,6 +6,8 @@
  * shared vertices, so a point belongs to exactly one field (boundaries go to the first field listed).
  */
 
+import { pointSegmentDistance2 } from '../grid/segment.ts';
+
 export type FaciesName =
   | 'zeolite'
   | 'prehnite-pumpellyite'
@@ -73,15 +75,6 @@ function onDiagramEdge(a: [number, number], b: [number, number]): boolean {
   return same(0, L.minTemperatureC) || same(0, L.maxTemperatureC) || same(1, L.minPressureKbar) || same(1, L.maxPressureKbar);
 }
 
-/** Squared distance from (x, y) to segment (ax, ay)–(bx, by). */
-function segDist2(ax: number, ay: number, bx: number, by: number, x: number, y: number): number {
-  const dx = bx - ax, dy = by - ay;
-  const l2 = dx * dx + dy * dy;
-  let u = l2 > 0 ? ((x - ax) * dx + (y - ay) * dy) / l2 : 0;
-  u = u < 0 ? 0 : u > 1 ? 1 : u;
-  const ex = ax + u * dx - x, ey = ay + u * dy - y;
-  return ex * ex + ey * ey;
-}
 
 /**
  * Index into FACIES_NAMES of the field containing (temperatureC °C, pressureKbar kbar), or −1 outside the diagram.
@@ -96,7 +89,7 @@ export function faciesIndexAt(temperatureC: number, pressureKbar: number): numbe
     let inside = false;
     for (let i = 0, j = n - 1; i < n; j = i++) {
       const ti = r[2 * i], pi = r[2 * i + 1], tj = r[2 * j], pj = r[2 * j + 1];
-      if (segDist2(tj, pj, ti, pi, t, p) < 1e-18) return f;
+      if (pointSegmentDistance2(t, p, tj, pj, ti, pi) < 1e-18) return f;
       if (pi > p !== pj > p && t < ((tj - ti) * (p - pi)) / (pj - pi) + ti) inside = !inside;
     }
     if (inside) return f;
@@ -115,7 +108,7 @@ export function faciesBoundaryDistance(fieldIndex: number, temperatureC: number,
     if (f === fieldIndex) continue;
     const s = BOUNDARY_SEGMENTS[f];
     for (let k = 0; k < s.length; k += 4) {
-      const d = segDist2(s[k], s[k + 1], s[k + 2], s[k + 3], x, y);
+      const d = pointSegmentDistance2(x, y, s[k], s[k + 1], s[k + 2], s[k + 3]);
       if (d < best) { best = d; other = f; }
     }
   }

@@ -14,6 +14,7 @@
  * Grids here are in the local km frame: cell (c, r) has its centre at (x0 + c·cellKm, y0 + r·cellKm), row 0 at
  * the south, index r·width + c.
  */
+import { pointSegmentDistance2 } from '../grid/segment.ts';
 import { NeighbourIndex } from '../interp/neighbours.ts';
 import { FaultBarrier } from '../interp/barriers.ts';
 import { EXACT_KM } from '../interp/idw.ts';
@@ -44,15 +45,7 @@ export interface IndicatorOptions {
 
 const EXACT_D2 = EXACT_KM * EXACT_KM;
 
-/** Squared distance (km²) from (px, py) to segment a–b. */
-export function pointSegmentDistance2(px: number, py: number, ax: number, ay: number, bx: number, by: number): number {
-  const dx = bx - ax, dy = by - ay;
-  const l2 = dx * dx + dy * dy;
-  let t = l2 > 0 ? ((px - ax) * dx + (py - ay) * dy) / l2 : 0;
-  t = t < 0 ? 0 : t > 1 ? 1 : t;
-  const ex = ax + t * dx - px, ey = ay + t * dy - py;
-  return ex * ex + ey * ey;
-}
+export { pointSegmentDistance2 } from '../grid/segment.ts';
 
 /** The indicator field of a set of graded samples (local km), ready to evaluate at points or on a grid. */
 export class IndicatorField {
