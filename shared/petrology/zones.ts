@@ -45,11 +45,49 @@ export function compareZones(a: string, b: string): number {
 
 /** The valid zone name nearest to an unknown one (edit distance), e.g. "staurolit" → "staurolite"; null if none close. */
 export function suggestZoneName(name: string): string | null {
-  return nearestName(name.replace(/\s*zone$/i, ''), ZONE_NAMES);
+  return nearestName(name.replace(/\s*zone$/i, ''), ALL_ZONE_NAMES);
 }
 
 /** Approximate midpoint temperature (°C) of the isograd opening a zone; null for chlorite or unknown names. */
 export function isogradTemperatureC(name: string): number | null {
   const z = zoneByName(name);
   return z?.isogradTemperatureC ? (z.isogradTemperatureC.min + z.isogradTemperatureC.max) / 2 : null;
+}
+
+/**
+ * The andalusite-bearing low-pressure series (aluminosilicate path below the triple point), on its own scale:
+ * chlorite < biotite < cordierite < andalusite < sillimanite (order: standard for low-pressure pelites, e.g. Yardley
+ * 1989 ch. 3; zone temperatures at about 2–3.5 kbar are approximate values from memory). Sillimanite on this scale
+ * is decided by the andalusite = sillimanite line, not by a temperature.
+ */
+export interface LowPressureZone {
+  name: 'chlorite' | 'biotite' | 'cordierite' | 'andalusite' | 'sillimanite';
+  rank: number;
+  isogradTemperatureC: { min: number; max: number } | null;
+}
+
+export const LOW_PRESSURE_ZONES: readonly LowPressureZone[] = Object.freeze([
+  { name: 'chlorite', rank: 0, isogradTemperatureC: null },
+  { name: 'biotite', rank: 1, isogradTemperatureC: { min: 400, max: 450 } },
+  { name: 'cordierite', rank: 2, isogradTemperatureC: { min: 480, max: 530 } },
+  { name: 'andalusite', rank: 3, isogradTemperatureC: { min: 530, max: 580 } },
+  { name: 'sillimanite', rank: 4, isogradTemperatureC: null },
+]);
+
+export const LOW_PRESSURE_ZONE_NAMES: readonly LowPressureZone['name'][] = LOW_PRESSURE_ZONES.map((z) => z.name);
+
+/** Rank (0–4) of a zone name on the low-pressure scale, or −1. */
+export function lowPressureZoneRank(name: string): number {
+  const n = normalizeName(name).replace(/-zone$/, '');
+  return LOW_PRESSURE_ZONE_NAMES.indexOf(n as LowPressureZone['name']);
+}
+
+/** Every zone name the program accepts (both scales), for suggestions. */
+export const ALL_ZONE_NAMES: readonly string[] = [...new Set([...ZONE_NAMES, ...LOW_PRESSURE_ZONE_NAMES])];
+
+/** Checks a zone name against both scales: null when valid, else the problem text with the nearest valid name. */
+export function zoneNameProblem(zone: string): string | null {
+  if (zoneRank(zone) >= 0 || lowPressureZoneRank(zone) >= 0) return null;
+  const hint = suggestZoneName(zone);
+  return `unknown zone '${zone}'${hint !== null ? ` (did you mean '${hint}'?)` : ''}; expected one of ${ALL_ZONE_NAMES.join(', ')}`;
 }

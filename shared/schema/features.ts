@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { InputError, type InputProblem } from '../errors.ts';
 import { parseCsv } from '../io/csv.ts';
+import { zoneNameProblem } from '../petrology/zones.ts';
 import {
   pointGeometry,
   lineStringGeometry,
@@ -55,6 +56,9 @@ export const sampleProperties = z
     if ((p.peakTemperatureC === undefined) !== (p.peakPressureKbar === undefined)) {
       ctx.addIssue({ code: 'custom', path: [p.peakTemperatureC === undefined ? 'peakTemperatureC' : 'peakPressureKbar'], message: 'peak temperature and peak pressure go together' });
     }
+    // Zone names are checked at upload, with the nearest valid name (both the Barrovian and low-pressure scales).
+    const zoneProblem = p.zone === undefined ? null : zoneNameProblem(p.zone);
+    if (zoneProblem !== null) ctx.addIssue({ code: 'custom', path: ['zone'], message: zoneProblem });
   });
 export type SampleProperties = z.infer<typeof sampleProperties>;
 

@@ -1,5 +1,5 @@
 // Structure: isograds from graded samples, misfits, fault offsets and paleo-gradients (re-exports only).
-export { sampleGrades, faciesRankInterval, peakRankInterval, MAX_RANK, OFF_SCALE_FACIES, type SampleGrade, type GradeInput, type GradeSource } from './grade.ts';
+export { sampleGrades, faciesRankInterval, peakRankInterval, peakGrade, MAX_RANK, OFF_SCALE_FACIES, type SampleGrade, type GradeInput, type GradeSource, type GradeSeries, type PeakGrade } from './grade.ts';
 export { IndicatorField, rankFromIndicators, pointSegmentDistance2, BOUNDARY_COUNT, type LocalGrid, type IndicatorOptions } from './indicator.ts';
 export { traceIsolines, type Isoline } from './isolines.ts';
 export { computeIsogradsKm, isogradName, defaultSupportKm, medianSpacingKm, type IsogradGridOptions, type IsogradLineKm, type IsogradResultKm } from './isograds.ts';
@@ -8,3 +8,4 @@ export { buildTrace, locateOnTrace, pointAlongTrace, selfIntersects, traceAzimut
 export { faultReport, type FaultReport, type FaultInfo, type FaultReportOptions, type Meeting, type Separation, type SideStats, type Side } from './fault-report.ts';
 export { paleoGradients, DEFAULT_PALEO_DENSITY_KG_M3, type PaleoGradient, type PaleoOptions } from './paleo.ts';
 export { isogradLayer, faultTraces, type IsogradLayer, type IsogradLayerOptions, type IsogradReport, type IsogradSummary } from './layer.ts';
+export { zoneNameProblem } from '../petrology/zones.ts';

@@ -64,7 +64,7 @@ export interface IsogradReport {
     highSide: 'right';
     gradeRules: string;
   };
-  samples: { total: number; zone: number; facies: number; peak: number; none: number };
+  samples: { total: number; zone: number; facies: number; peakPt: number; none: number };
   droppedLoops: { isograd: string; samples: string[] }[];
   warnings: string[];
   timingsMs: Record<string, number>;
@@ -174,7 +174,7 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
       faultBarriers: pieces !== null, projection: proj.def, highSide: 'right',
       gradeRules: 'zone → its rank; facies only → ranks whose isograd midpoint temperature lies in the facies field\'s span; peak T–P only → ranks between the isograd temperature ranges certainly and possibly crossed; partial samples inform only the isograds they decide',
     },
-    samples: { total: n, zone: count('zone'), facies: count('facies'), peak: count('peak'), none: count('none') },
+    samples: { total: n, zone: count('zone'), facies: count('facies'), peakPt: count('peak-pt'), none: count('none') },
     droppedLoops: res.droppedLoops, warnings, timingsMs: res.timingsMs,
   };
   const provenance = { tool: TOOL_NAME, version: VERSION, method: report.method.indicator, highSide: 'right', cellKm: res.grid.cellKm, supportKm: r3(res.supportKm) };

@@ -18,7 +18,7 @@ for (let i = 0; i < N; i++) {
   x[i] = SIZE * rng.uniform(); y[i] = SIZE * rng.uniform();
   const r = Math.hypot(x[i] - 250, y[i] - 250);
   const rank = Math.max(0, Math.min(5, Math.floor(5.99 - r / 40)));
-  grades.push({ id: `b${i}`, lo: rank, hi: rank, source: 'zone', zone: null });
+  grades.push({ id: `b${i}`, lo: rank, hi: rank, source: 'zone', zone: null, series: 'barrovian', label: null });
 }
 const traces = [0, 1, 2, 3, 4].map((k) => {
   const pts: number[][] = [];

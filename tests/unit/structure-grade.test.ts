@@ -51,7 +51,7 @@ describe('grade of a sample', () => {
     expect(peakRankInterval(380)).toEqual([0, 0]);
     expect(peakRankInterval(720)).toEqual([5, 5]);
     const g = sampleGrades([{ id: 'p', peakTemperatureC: 560, peakPressureKbar: 6 }]);
-    expect(g[0]).toMatchObject({ lo: 2, hi: 3, source: 'peak', zone: null });
+    expect(g[0]).toMatchObject({ lo: 2, hi: 3, source: 'peak-pt', zone: null, series: 'barrovian', label: 'garnet–staurolite' });
   });
 
   it('warns when a zone disagrees with the sample\'s own facies', () => {

@@ -6,7 +6,7 @@ import {
   IndicatorField, computeIsogradsKm, traceIsolines, buildTrace, tracePieces, faultReport, locateOnTrace, type SampleGrade,
 } from '../../shared/structure/index.ts';
 
-const grade = (id: string, r: number): SampleGrade => ({ id, lo: r, hi: r, source: 'zone', zone: null });
+const grade = (id: string, r: number): SampleGrade => ({ id, lo: r, hi: r, source: 'zone', zone: null, series: 'barrovian', label: null });
 
 /** Samples on a jittered square lattice (spacing km, seeded), ranks from rankAt(x, y). */
 function lattice(x0: number, x1: number, y0: number, y1: number, spacing: number, rankAt: (x: number, y: number) => number, skip?: (x: number) => boolean) {
