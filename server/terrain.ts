@@ -1,27 +1,20 @@
 import { readFile } from 'node:fs/promises';
-import { fromArrayBuffer } from 'geotiff';
 import type { Grid } from '../shared/grid/grid.ts';
 import { gridBbox } from '../shared/grid/grid.ts';
 import { encodeRgb, TERRAIN_RGB, type RgbEncoding } from '../shared/grid/terrain-rgb.ts';
 import { lngFromTileX, latFromTileY, tileIntersectsBbox } from '../shared/grid/webmercator.ts';
 import { encodePng } from './io/png.ts';
+import { readGeoTiff } from './io/geotiff.ts';
 
 export const TILE_SIZE = 256;
 export const TERRAIN_MIN_ZOOM = 4;
 export const TERRAIN_MAX_ZOOM = 13;
 
-/** Reads a single-band lon/lat DEM GeoTIFF (EPSG:4326, metres) into a Grid. */
+/** Reads a lon/lat DEM GeoTIFF (EPSG:4326, metres; band 1) into a Grid through the project's one GeoTIFF reader. */
 export async function loadDem(path: string): Promise<Grid<Float32Array>> {
-  const buf = await readFile(path);
-  const tiff = await fromArrayBuffer(buf.buffer.slice(buf.byteOffset, buf.byteOffset + buf.byteLength));
-  const image = await tiff.getImage();
-  const [west, , , north] = image.getBoundingBox();
-  const [dx, dy] = image.getResolution();
-  const raster = (await image.readRasters({ interleave: true })) as unknown as ArrayLike<number>;
-  const values = new Float32Array(raster.length);
-  const noData = image.getGDALNoData();
-  for (let i = 0; i < values.length; i++) values[i] = noData !== null && raster[i] === noData ? NaN : raster[i];
-  return { width: image.getWidth(), height: image.getHeight(), values, west, north, dx: Math.abs(dx), dy: Math.abs(dy), crs: 'EPSG:4326', units: 'm' };
+  const r = await readGeoTiff(await readFile(path), { source: path });
+  if (r.grid.crs !== 'EPSG:4326') throw new RangeError(`${path}: a terrain DEM must be in EPSG:4326, got ${r.grid.crs}`);
+  return { ...r.grid, units: 'm' };
 }
 
 /**

@@ -1,4 +1,4 @@
-import { readFile, writeFile } from 'node:fs/promises';
+import { readFile } from 'node:fs/promises';
 import { createHash } from 'node:crypto';
 import { InputError } from '../../shared/errors.ts';
 import { VERSION, TOOL_NAME } from '../../shared/version.ts';
@@ -8,7 +8,7 @@ import { pointsFromGeoJson, pointsFromCsv, parseVariogramOption, parseAnisotropy
 import { loadCrsDefinition, converter, WGS84_DEF } from '../../shared/interp/projection.ts';
 import { prepareInterpolation, finishGrid, predictAtPoints, gridSummary, type InterpolationOptions, type PointData, type InterpolationResult } from '../../shared/interp/interpolate.ts';
 import { createGridRuntime, computeRows } from '../../shared/interp/gridKernel.ts';
-import { writeGeoTiff } from '../io/geotiff.ts';
+import { writeGeoTiffFile } from '../io/geotiff.ts';
 import { parseVerbArgs, numberOption, numberListOption } from './args.ts';
 
 const OPTIONS = {
@@ -247,11 +247,11 @@ export async function interpolate(argv: string[]): Promise<number> {
       inputSha256: hashes, created: new Date().toISOString(),
     };
     const name = a.out;
-    await writeFile(name, Buffer.from(writeGeoTiff(result.grid, { description: `${field} (${options.units || 'value'}), ${a.method === 'idw' ? 'inverse-distance weighting' : 'ordinary kriging'}`, metadata: provenance })));
+    await writeGeoTiffFile(name, result.grid, { description: `${field} (${options.units || 'value'}), ${a.method === 'idw' ? 'inverse-distance weighting' : 'ordinary kriging'}`, metadata: provenance });
     files.push(name);
     if (result.sd !== undefined) {
       const sdName = name.replace(/\.tiff?$/i, '') + '.sd.tif';
-      await writeFile(sdName, Buffer.from(writeGeoTiff(result.sd, { description: `${field} kriging standard deviation (${options.units || 'value units'})`, metadata: provenance })));
+      await writeGeoTiffFile(sdName, result.sd, { description: `${field} kriging standard deviation (${options.units || 'value units'})`, metadata: provenance });
       files.push(sdName);
     }
   }

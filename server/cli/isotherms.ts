@@ -1,6 +1,5 @@
 import { readFile, writeFile, mkdir } from 'node:fs/promises';
 import { join } from 'node:path';
-import { fromArrayBuffer } from 'geotiff';
 import { InputError } from '../../shared/errors.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
 import { ringsOfGeometry } from '../../shared/grid/polygon-cells.ts';
@@ -10,8 +9,8 @@ import { parseModelText } from '../../shared/products/model-input.ts';
 import { overrideFromProperties } from '../../shared/products/overrides.ts';
 import { buildProvenance, withMethod } from '../../shared/products/provenance.ts';
 import { CAUTION } from '../../shared/caution.ts';
-import { readGeoTiff } from '../io/geotiff.ts';
-import { geojsonText, geotiffBytes, sha256Hex } from '../io/export.ts';
+import { readGeoTiff, writeGeoTiffFile } from '../io/geotiff.ts';
+import { geojsonText, sha256Hex } from '../io/export.ts';
 import { computeThermalProducts, type OverrideRegion } from '../runs/pipeline.ts';
 import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
 
@@ -49,25 +48,8 @@ async function readBytes(path: string, what: string): Promise<Buffer> {
  * range, no EPSG code, or an EPSG code with no offline definition. `band` is 1-based (GDAL's numbering).
  */
 export async function readGridGeoTiff(bytes: Uint8Array, source: string, band?: number): Promise<{ grid: Grid<Float32Array>; crsDef: string; metadata: Record<string, unknown> }> {
-  const buf = bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer;
-  let bands: number;
-  let hasGeoref: boolean;
-  try {
-    const tiff = await fromArrayBuffer(buf);
-    const image = await tiff.getImage(0);
-    bands = image.getSamplesPerPixel();
-    const fd = image.fileDirectory as unknown as { hasTag?: (k: string) => boolean; ModelTiepoint?: unknown; ModelTransformation?: unknown; ModelPixelScale?: unknown };
-    hasGeoref = typeof fd.hasTag === 'function'
-      ? fd.hasTag('ModelTransformation') || (fd.hasTag('ModelTiepoint') && fd.hasTag('ModelPixelScale'))
-      : fd.ModelTransformation !== undefined || (fd.ModelTiepoint !== undefined && fd.ModelPixelScale !== undefined);
-  } catch (e) {
-    throw new InputError(`${source} is not a readable GeoTIFF`, [{ feature: source, problem: e instanceof Error ? e.message : String(e) }], 'bad_geotiff');
-  }
-  if (!hasGeoref) throw new InputError(`${source} has no georeferencing`, [{ feature: source, field: 'ModelTiepoint/ModelPixelScale', problem: 'expected a georeferenced GeoTIFF (tie point and pixel scale, or a transformation)' }], 'bad_geotiff');
-  if (band === undefined && bands > 1) throw new InputError(`${source} has ${bands} bands: choose one with --band N (1 to ${bands})`, [{ feature: source, field: 'band', problem: `expected --band 1..${bands}` }], 'bad_geotiff');
-  const b = band ?? 1;
-  if (!(Number.isInteger(b) && b >= 1 && b <= bands)) throw new InputError(`${source}: --band ${b} is out of range (the file has ${bands} band(s))`, [{ feature: source, field: 'band', problem: `expected 1..${bands}` }], 'bad_option');
-  const r = await readGeoTiff(buf, { band: b - 1, source });
+  if (band !== undefined && !(Number.isInteger(band) && band >= 1)) throw new InputError(`${source}: --band ${band} is out of range`, [{ feature: source, field: 'band', problem: 'expected a band number from 1' }], 'bad_option');
+  const r = await readGeoTiff(bytes, { band: band === undefined ? undefined : band - 1, source, chooseBand: true });
   let crsDef: string;
   try {
     crsDef = await loadCrsDefinition(r.grid.crs);
@@ -189,7 +171,7 @@ export async function isotherms(argv: string[]): Promise<number> {
   for (const l of products.layers) {
     const p = withMethod(provenance, l.method);
     const tif = join(outDir, `${l.name}.tif`);
-    await writeFile(tif, geotiffBytes(l.grid, `${l.title} (${l.units})`, p));
+    await writeGeoTiffFile(tif, l.grid, { description: `${l.title} (${l.units})`, metadata: { provenance: p }, classes: l.legend.type === 'classes' });
     files.push(tif);
     if (l.contours) {
       const gj = join(outDir, `${l.name}.contours.geojson`);

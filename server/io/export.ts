@@ -1,8 +1,8 @@
 /**
  * Export writers of the grid products. Every file carries the caution (shared/caution.ts) and its provenance
  * (tool version, method, model, SHA-256 content hash of the inputs):
- * - GeoTIFF: single band Float32 with GeoKeys and NoData through server/io/geotiff.ts; caution and provenance in
- *   the ImageDescription tag.
+ * - GeoTIFF: Cloud-Optimized, single band Float32 with GeoKeys and NoData through server/io/geotiff.ts; caution and
+ *   provenance in GDAL's metadata tag (items CAUTION, TITLE, UNITS, METADATA).
  * - PNG: RGBA through a ramp or class table (NoData transparent); tEXt chunks `Caution`, `Legend` (value → colour,
  *   units, in words), `LegendJSON` and `Provenance`.
  * - GeoJSON (RFC 7946): a FeatureCollection with top-level foreign members `caution` and `provenance`.
@@ -32,9 +32,10 @@ export function sha256Json(value: unknown): string {
   return sha256Hex(canonicalJson(value));
 }
 
-/** GeoTIFF bytes of a product grid with its description and provenance. */
-export function geotiffBytes(grid: Grid<Float32Array | Float64Array>, description: string, provenance: Provenance): Uint8Array {
-  return new Uint8Array(writeGeoTiff(grid, { description, metadata: { provenance } }));
+/** Cloud-Optimized GeoTIFF bytes of a product grid with its description and provenance; class grids (codes) take
+ * nearest-neighbour overviews. */
+export function geotiffBytes(grid: Grid<Float32Array | Float64Array>, description: string, provenance: Provenance, opts: { classes?: boolean } = {}): Uint8Array {
+  return writeGeoTiff(grid, { description, metadata: { provenance }, classes: opts.classes });
 }
 
 /** ASCII-safe JSON (PNG tEXt is Latin-1): characters above U+007E \u-escaped. */

@@ -1,15 +1,21 @@
-import { writeArrayBuffer, fromArrayBuffer } from 'geotiff';
+import { fromArrayBuffer, fromFile } from 'geotiff';
 import type { Grid } from '../../shared/grid/grid.ts';
 import { checkSpec } from '../../shared/grid/grid.ts';
 import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
+import { encodeCog, writeCogFile, type CogOptions } from './cog.ts';
 
 /**
- * GeoTIFF (OGC GeoTIFF 1.1) codec for the project's Grid: single band Float32, NoData −9999 (GDAL_NODATA tag),
- * GeoKeys for EPSG:4326 (GTModelType 2, geographic) or a projected EPSG code (GTModelType 1), raster type
- * PixelIsArea with the tie point at the grid's north-west corner. The caution and the provenance travel in the
- * ImageDescription tag as one ASCII JSON object `{ caution, description, metadata }` (non-ASCII characters
- * \u-escaped, since TIFF ASCII is 7-bit); GDAL shows it as TIFFTAG_IMAGEDESCRIPTION.
+ * The project's one GeoTIFF codec (OGC GeoTIFF 1.1).
+ *
+ * Writing: Cloud-Optimized GeoTIFF (server/io/cog.ts) — single band Float32, 512 × 512 DEFLATE tiles with the
+ * floating-point predictor, internal overviews (averages, or nearest neighbour for class grids), NoData −9999
+ * (GDAL_NODATA), GeoKeys for EPSG:4326 or a projected EPSG code, PixelIsArea with the tie point at the north-west
+ * corner. The caution, title, units and provenance travel in GDAL's metadata tag as items `CAUTION`, `TITLE`, `UNITS`
+ * and `METADATA` (JSON), and as the band's description and unit type, so `gdalinfo` shows them.
+ *
+ * Reading: any GeoTIFF geotiff.js decodes — striped or tiled, uncompressed, DEFLATE, LZW or PackBits, with or
+ * without a predictor (horizontal or floating point), any sample type — one band to a Float32 grid with NoData → NaN.
  */
 
 export const NODATA = -9999;
@@ -19,6 +25,8 @@ export interface GeoTiffWriteOptions {
   description?: string;
   /** Provenance (tool version, method, model, input hashes) and anything else worth keeping. */
   metadata?: Record<string, unknown>;
+  /** Class grids (integer codes) take nearest-neighbour overviews; continuous grids averages. */
+  classes?: boolean;
 }
 
 function epsgCode(crs: string): number {
@@ -27,67 +35,52 @@ function epsgCode(crs: string): number {
   return Number(m[1]);
 }
 
-function asciiJson(v: unknown): string {
-  return JSON.stringify(v).replace(/[\u007f-\uffff]/g, (c) => '\\u' + c.charCodeAt(0).toString(16).padStart(4, '0'));
+function xmlText(s: string): string {
+  return s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 }
 
-/** Writes a grid as a GeoTIFF; NaN cells become −9999. Returns the file's bytes. */
-export function writeGeoTiff(grid: Grid<Float32Array | Float64Array>, opts: GeoTiffWriteOptions = {}): ArrayBuffer {
+function xmlUnescape(s: string): string {
+  return s
+    .replace(/&#x([0-9a-f]+);/gi, (_, h: string) => String.fromCodePoint(parseInt(h, 16)))
+    .replace(/&#(\d+);/g, (_, d: string) => String.fromCodePoint(Number(d)))
+    .replace(/&lt;/g, '<').replace(/&gt;/g, '>').replace(/&quot;/g, '"').replace(/&apos;/g, "'").replace(/&amp;/g, '&');
+}
+
+/** GDAL's metadata XML (as GDAL writes it in tag 42112): dataset items and the band's description and unit type. */
+function gdalMetadataXml(grid: Grid<Float32Array | Float64Array>, opts: GeoTiffWriteOptions): string {
+  const items: string[] = [
+    `  <Item name="CAUTION">${xmlText(CAUTION)}</Item>`,
+    `  <Item name="TITLE">${xmlText(opts.description ?? '')}</Item>`,
+    `  <Item name="UNITS">${xmlText(grid.units)}</Item>`,
+    `  <Item name="METADATA">${xmlText(JSON.stringify(opts.metadata ?? {}))}</Item>`,
+    `  <Item name="DESCRIPTION" sample="0" role="description">${xmlText(opts.description ?? '')}</Item>`,
+    `  <Item name="UNITTYPE" sample="0" role="unittype">${xmlText(grid.units)}</Item>`,
+  ];
+  return `<GDALMetadata>\n${items.join('\n')}\n</GDALMetadata>\n`;
+}
+
+function cogOptions(grid: Grid<Float32Array | Float64Array>, opts: GeoTiffWriteOptions): CogOptions {
   checkSpec(grid);
   if (grid.values.length !== grid.width * grid.height) throw new RangeError(`grid has ${grid.values.length} values for ${grid.width} × ${grid.height} cells`);
-  const code = epsgCode(grid.crs);
-  const values = new Float32Array(grid.values.length);
-  for (let i = 0; i < values.length; i++) {
-    const v = grid.values[i];
-    values[i] = Number.isFinite(v) ? v : NODATA;
-  }
-  const description = asciiJson({ caution: CAUTION, description: opts.description ?? '', units: grid.units, metadata: opts.metadata ?? {} });
-  const meta: Record<string, unknown> = {
-    width: grid.width,
-    height: grid.height,
-    ModelPixelScale: [grid.dx, grid.dy, 0],
-    ModelTiepoint: [0, 0, 0, grid.west, grid.north, 0],
-    GTRasterTypeGeoKey: 1,
-    GDAL_NODATA: String(NODATA),
-    // A placeholder: geotiff's writer keeps all tag values in a fixed 1000-byte header, too small for the caution
-    // and provenance, so the real text is appended after the pixels and the tag re-pointed (see withDescription).
-    ImageDescription: 'subtherm',
+  return {
+    geo: { west: grid.west, north: grid.north, dx: grid.dx, dy: grid.dy, epsg: epsgCode(grid.crs) },
+    nodata: NODATA,
+    resampling: opts.classes === true ? 'nearest' : 'average',
+    gdalMetadataXml: gdalMetadataXml(grid, opts),
   };
-  if (code === 4326) {
-    meta.GTModelTypeGeoKey = 2;
-    meta.GeographicTypeGeoKey = 4326;
-  } else {
-    meta.GTModelTypeGeoKey = 1;
-    meta.ProjectedCSTypeGeoKey = code;
-  }
-  return withDescription(writeArrayBuffer(values, meta as never) as ArrayBuffer, description);
+}
+
+/** Writes a grid as a Cloud-Optimized GeoTIFF, compressing on this thread; NaN cells become −9999. */
+export function writeGeoTiff(grid: Grid<Float32Array | Float64Array>, opts: GeoTiffWriteOptions = {}): Uint8Array {
+  return encodeCog(grid.values, grid.width, grid.height, cogOptions(grid, opts));
 }
 
 /**
- * Replaces the ImageDescription (tag 270) value of a big-endian classic TIFF written by geotiff with `text`,
- * appended (NUL-terminated, word aligned) at the end of the file; the IFD entry's count and offset are rewritten.
- * TIFF 6.0 §2 allows a tag value anywhere in the file.
+ * Writes a grid as a Cloud-Optimized GeoTIFF file, compressing tiles on worker threads (server/io/cog.ts); the file
+ * appears at `path` only when complete.
  */
-function withDescription(buf: ArrayBuffer, text: string): ArrayBuffer {
-  const src = new DataView(buf);
-  if (src.getUint16(0) !== 0x4d4d || src.getUint16(2) !== 42) throw new Error('unexpected TIFF layout from the geotiff writer');
-  const bytes = new TextEncoder().encode(text + '\0');
-  const start = buf.byteLength + (buf.byteLength & 1);
-  const out = new Uint8Array(start + bytes.length);
-  out.set(new Uint8Array(buf), 0);
-  out.set(bytes, start);
-  const dv = new DataView(out.buffer);
-  const ifd = dv.getUint32(4);
-  const n = dv.getUint16(ifd);
-  for (let e = 0; e < n; e++) {
-    const at = ifd + 2 + 12 * e;
-    if (dv.getUint16(at) === 270) {
-      dv.setUint32(at + 4, bytes.length);
-      dv.setUint32(at + 8, start);
-      return out.buffer;
-    }
-  }
-  throw new Error('ImageDescription tag not found in the written TIFF');
+export async function writeGeoTiffFile(path: string, grid: Grid<Float32Array | Float64Array>, opts: GeoTiffWriteOptions & { threads?: number } = {}): Promise<{ bytes: number }> {
+  return writeCogFile(path, grid.values, grid.width, grid.height, { ...cogOptions(grid, opts), threads: opts.threads });
 }
 
 export interface GeoTiffRead {
@@ -95,56 +88,149 @@ export interface GeoTiffRead {
   description: string;
   caution: string | null;
   metadata: Record<string, unknown>;
+  /** Bands in the file. */
+  bands: number;
 }
 
-/** Reads one band (default 0) of a GeoTIFF into a Grid (NoData → NaN), with the description written above. */
-export async function readGeoTiff(buffer: ArrayBuffer, opts: { band?: number; source?: string } = {}): Promise<GeoTiffRead> {
-  const src = opts.source ?? 'GeoTIFF';
-  let tiff;
+type Tiff = Awaited<ReturnType<typeof fromArrayBuffer>>;
+type Image = Awaited<ReturnType<Tiff['getImage']>>;
+interface Dir { loadValue?: (k: string) => Promise<unknown>; hasTag?: (k: string) => boolean }
+
+interface Header {
+  spec: { width: number; height: number; west: number; north: number; dx: number; dy: number; crs: string };
+  bands: number;
+  description: string;
+  caution: string | null;
+  metadata: Record<string, unknown>;
+  units: string;
+}
+
+async function tagText(image: Image, tag: string): Promise<string> {
+  const dir = image.fileDirectory as unknown as Dir;
+  if (typeof dir.hasTag === 'function' && !dir.hasTag(tag)) return '';
   try {
-    tiff = await fromArrayBuffer(buffer);
-  } catch (e) {
-    throw new InputError(`${src} is not a readable GeoTIFF`, [{ problem: e instanceof Error ? e.message : String(e) }], 'bad_geotiff');
+    const v = typeof dir.loadValue === 'function' ? await dir.loadValue(tag) : undefined;
+    return typeof v === 'string' ? v.replace(/\0+$/, '') : '';
+  } catch {
+    return '';
   }
-  const image = await tiff.getImage(0);
-  const band = opts.band ?? 0;
-  const bands = image.getSamplesPerPixel();
-  if (!(Number.isInteger(band) && band >= 0 && band < bands)) throw new InputError(`${src} has ${bands} band(s); band ${band} asked for`, [{ field: 'band', problem: `expected 0..${bands - 1}` }], 'bad_geotiff');
+}
+
+/** Georeferencing, CRS, band count and the project's metadata (GDAL metadata items, or the older JSON description). */
+async function readHeader(image: Image, src: string): Promise<Header> {
   const width = image.getWidth(), height = image.getHeight();
   let origin: number[], res: number[];
   try {
     origin = image.getOrigin();
     res = image.getResolution();
   } catch {
-    throw new InputError(`${src} has no georeferencing`, [{ problem: 'expected ModelTiepoint and ModelPixelScale (or a ModelTransformation)' }], 'bad_geotiff');
+    throw new InputError(`${src} has no georeferencing`, [{ feature: src, field: 'ModelTiepoint/ModelPixelScale', problem: 'expected a georeferenced GeoTIFF (tie point and pixel scale, or a transformation)' }], 'bad_geotiff');
   }
   const keys = (image.getGeoKeys() ?? {}) as Record<string, unknown>;
   const code = keys.ProjectedCSTypeGeoKey ?? keys.GeographicTypeGeoKey;
-  if (typeof code !== 'number' || code === 32767) throw new InputError(`${src} has no EPSG coordinate system`, [{ problem: 'expected ProjectedCSTypeGeoKey or GeographicTypeGeoKey' }], 'bad_geotiff');
-  const rasters = (await image.readRasters({ samples: [band], interleave: false })) as unknown as ArrayLike<number>[];
+  if (typeof code !== 'number' || code === 32767) throw new InputError(`${src} has no EPSG coordinate system`, [{ feature: src, field: 'GeoKeys', problem: 'expected ProjectedCSTypeGeoKey or GeographicTypeGeoKey with an EPSG code' }], 'bad_geotiff');
+  let description = '', caution: string | null = null, metadata: Record<string, unknown> = {}, units = '';
+  const xml = await tagText(image, 'GDAL_METADATA');
+  const items = new Map<string, string>();
+  for (const m of xml.matchAll(/<Item\s+name="([^"]*)"([^>]*)>([\s\S]*?)<\/Item>/g)) {
+    const band = /sample="(\d+)"/.exec(m[2]);
+    items.set(band ? `${m[1]}#${band[1]}` : m[1], xmlUnescape(m[3]));
+  }
+  if (items.has('CAUTION') || items.has('METADATA')) {
+    caution = items.get('CAUTION') ?? null;
+    description = items.get('TITLE') ?? items.get('DESCRIPTION#0') ?? '';
+    units = items.get('UNITS') ?? items.get('UNITTYPE#0') ?? '';
+    try {
+      metadata = JSON.parse(items.get('METADATA') ?? '{}') as Record<string, unknown>;
+    } catch { /* kept empty: not the project's */ }
+  } else {
+    // Files written before the COG writer kept one JSON object in ImageDescription; foreign text is kept as is.
+    const text = await tagText(image, 'ImageDescription');
+    description = text;
+    try {
+      const j = JSON.parse(text) as { caution?: string; description?: string; units?: string; metadata?: Record<string, unknown> };
+      description = j.description ?? '';
+      caution = j.caution ?? null;
+      metadata = j.metadata ?? {};
+      units = j.units ?? '';
+    } catch { /* a foreign description */ }
+    units ||= items.get('UNITTYPE#0') ?? '';
+  }
+  return {
+    spec: { width, height, west: origin[0], north: origin[1], dx: Math.abs(res[0]), dy: Math.abs(res[1]), crs: `EPSG:${code}` },
+    bands: image.getSamplesPerPixel(),
+    description, caution, metadata, units,
+  };
+}
+
+function checkBand(band: number, bands: number, src: string): void {
+  if (!(Number.isInteger(band) && band >= 0 && band < bands)) throw new InputError(`${src}: band ${band + 1} is out of range (the file has ${bands} band(s))`, [{ feature: src, field: 'band', problem: `expected 1..${bands}` }], 'bad_geotiff');
+}
+
+/** One band of a window [col0, col1) × [row0, row1) as Float32 with NoData → NaN. */
+async function readBand(image: Image, band: number, window: [number, number, number, number] | undefined): Promise<Float32Array> {
+  const rasters = (await image.readRasters({ samples: [band], interleave: false, ...(window ? { window } : {}) })) as unknown as ArrayLike<number>[];
   const raw = rasters[0];
   const nodata = image.getGDALNoData();
-  const values = new Float32Array(width * height);
+  const values = new Float32Array(raw.length);
   for (let i = 0; i < values.length; i++) {
     const v = raw[i];
     values[i] = (nodata !== null && v === nodata) || !Number.isFinite(v) ? NaN : v;
   }
-  const dir = image.fileDirectory as unknown as { loadValue?: (k: string) => Promise<unknown>; hasTag?: (k: string) => boolean };
-  let d: unknown;
+  return values;
+}
+
+async function openBuffer(buffer: ArrayBuffer | Uint8Array, src: string): Promise<Image> {
+  const ab = buffer instanceof Uint8Array ? (buffer.buffer.slice(buffer.byteOffset, buffer.byteOffset + buffer.byteLength) as ArrayBuffer) : buffer;
   try {
-    d = typeof dir.loadValue === 'function' ? await dir.loadValue('ImageDescription') : undefined;
-  } catch {
-    d = undefined; // no description tag
+    const tiff = await fromArrayBuffer(ab);
+    return await tiff.getImage(0);
+  } catch (e) {
+    throw new InputError(`${src} is not a readable GeoTIFF`, [{ feature: src, problem: e instanceof Error ? e.message : String(e) }], 'bad_geotiff');
   }
-  const text = typeof d === 'string' ? d.replace(/\0+$/, '') : '';
-  let description = text, caution: string | null = null, metadata: Record<string, unknown> = {}, units = '';
+}
+
+/**
+ * Reads one band of a GeoTIFF into a Grid (NoData → NaN) with the project's metadata. `band` is 0-based (default 0);
+ * with `chooseBand`, a file of several bands and no band given is refused with a message asking for one.
+ */
+export async function readGeoTiff(buffer: ArrayBuffer | Uint8Array, opts: { band?: number; source?: string; chooseBand?: boolean } = {}): Promise<GeoTiffRead> {
+  const src = opts.source ?? 'GeoTIFF';
+  const image = await openBuffer(buffer, src);
+  const h = await readHeader(image, src);
+  if (opts.band === undefined && opts.chooseBand === true && h.bands > 1) throw new InputError(`${src} has ${h.bands} bands: choose one with --band N (1 to ${h.bands})`, [{ feature: src, field: 'band', problem: `expected --band 1..${h.bands}` }], 'bad_geotiff');
+  const band = opts.band ?? 0;
+  checkBand(band, h.bands, src);
+  let values: Float32Array;
   try {
-    const j = JSON.parse(text) as { caution?: string; description?: string; units?: string; metadata?: Record<string, unknown> };
-    description = j.description ?? '';
-    caution = j.caution ?? null;
-    metadata = j.metadata ?? {};
-    units = j.units ?? '';
-  } catch { /* a foreign description: kept as text */ }
-  const grid: Grid<Float32Array> = { width, height, values, west: origin[0], north: origin[1], dx: Math.abs(res[0]), dy: Math.abs(res[1]), crs: `EPSG:${code}`, units };
-  return { grid, description, caution, metadata };
+    values = await readBand(image, band, undefined);
+  } catch (e) {
+    throw new InputError(`${src}: its pixels cannot be decoded`, [{ feature: src, problem: e instanceof Error ? e.message : String(e) }], 'bad_geotiff');
+  }
+  return { grid: { ...h.spec, values, units: h.units }, description: h.description, caution: h.caution, metadata: h.metadata, bands: h.bands };
+}
+
+/**
+ * A GeoTIFF file read window by window (only the tiles or strips a window touches are read from disk): for grids too
+ * large to hold, such as continental runs served as map tiles.
+ */
+export class GeoTiffFile {
+  private constructor(private readonly image: Image, readonly header: Header, private readonly band: number) {}
+
+  static async open(path: string, opts: { band?: number } = {}): Promise<GeoTiffFile> {
+    let image: Image;
+    try {
+      image = await (await fromFile(path)).getImage(0);
+    } catch (e) {
+      throw new InputError(`${path} is not a readable GeoTIFF`, [{ feature: path, problem: e instanceof Error ? e.message : String(e) }], 'bad_geotiff');
+    }
+    const h = await readHeader(image, path);
+    checkBand(opts.band ?? 0, h.bands, path);
+    return new GeoTiffFile(image, h, opts.band ?? 0);
+  }
+
+  /** Cells [col0, col1) × [row0, row1), row-major, NaN = no data. */
+  async window(col0: number, row0: number, col1: number, row1: number): Promise<Float32Array> {
+    return readBand(this.image, this.band, [col0, row0, col1, row1]);
+  }
 }

@@ -398,7 +398,7 @@ function layerInfo(l: ProductLayer): RunLayerInfo {
 export function encodeProductLayer(l: ProductLayer, provenance: Provenance): RunLayer {
   const p = withMethod(provenance, l.method);
   const files: RunFile[] = [
-    { ext: 'tif', bytes: geotiffBytes(l.grid, `${l.title} (${l.units})`, p) },
+    { ext: 'tif', bytes: geotiffBytes(l.grid, `${l.title} (${l.units})`, p, { classes: l.legend.type === 'classes' }) },
     { ext: 'png', bytes: pngBytes(l.grid, l.legend, l.ramp, p, l.title) },
   ];
   if (l.contours) files.push({ ext: 'geojson', bytes: new TextEncoder().encode(geojsonText(l.contours, withMethod(p, `contours of: ${l.method}`))) });

@@ -71,9 +71,9 @@ describe('GeoTIFF export and import', () => {
     expect(info.bands[0].noDataValue).toBe(-9999);
     expect(info.bands[0].type).toBe('Float32');
     expect(info.bands[0].computedMin).toBeCloseTo(40, 4);
-    const desc = JSON.parse(info.metadata[''].TIFFTAG_IMAGEDESCRIPTION);
-    expect(desc.caution).toBe(CAUTION);
-    expect(desc.metadata.provenance.version).toBe(VERSION);
+    // GDAL metadata items (GDAL GeoTIFF driver: tag 42112).
+    expect(info.metadata[''].CAUTION).toBe(CAUTION);
+    expect(JSON.parse(info.metadata[''].METADATA).provenance.version).toBe(VERSION);
     const back = await readGridGeoTiff(bytes, 'hf.tif');
     expect(back.grid.width).toBe(37);
     expect(back.grid.west).toBeCloseTo(-128.75, 9);
