@@ -8,7 +8,8 @@ import { VERSION } from '../shared/version.ts';
 import { CAUTION } from '../shared/caution.ts';
 import type { Store } from './store/types.ts';
 import { TerrainTiles, TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from './terrain.ts';
-import { DEMO_DATASETS } from './demo.ts';
+import { DEMO_DATASETS, DEMO_PROJECT_ID } from './demo.ts';
+import { startDemoRun } from './demo-run.ts';
 import { resolveLimits, type Limits } from './limits.ts';
 import { securityHeaders } from './security.ts';
 import { RunJobs } from './runs/jobs.ts';
@@ -18,6 +19,7 @@ import { datasetRoutes } from './routes/datasets.ts';
 import { runRoutes } from './routes/runs.ts';
 import { inspectRoutes } from './routes/inspect.ts';
 import { projectRoutes } from './routes/projects.ts';
+import { projectDatasetRoutes } from './routes/project-datasets.ts';
 import { openApiRoutes } from './routes/openapi.ts';
 import { gridTileRoutes } from './routes/grid-tiles.ts';
 import { resourceRoutes } from './routes/resource.ts';
@@ -35,6 +37,8 @@ export interface AppOptions {
   runWorkerFile?: string;
   /** One line per request (method, path without query, status, ms); default off, or on with SUBTHERM_ACCESS_LOG=1. */
   accessLog?: ((line: string) => void) | null;
+  /** Start the demo project's default run in the background (what `subtherm serve` does unless SUBTHERM_DEMO_RUN=0). */
+  demoRun?: boolean;
 }
 
 /** The default run worker module. */
@@ -100,6 +104,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
       demo: {
         name: 'Orrindel Massif',
         invented: true,
+        projectId: DEMO_PROJECT_ID,
         datasets: Object.fromEntries(DEMO_DATASETS.map((d) => [d.kind, d.id])),
       },
       terrain: opts.terrain
@@ -110,7 +115,10 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
 
   openApiRoutes(app);
 
-  app.get('/api/datasets', (c) => c.json({ datasets: opts.store.listDatasets() }));
+  // Data sets are listed through the project that holds them.
+  app.get('/api/datasets', (c) =>
+    c.json(errorBody('listed_per_project', 'data sets are listed per project: GET /api/projects/{id}/datasets', [{ field: 'path', problem: 'use /api/projects/{id}/datasets' }]), 410),
+  );
   datasetRoutes(app, ctx);
 
   app.get('/api/datasets/:id', (c) => {
@@ -136,6 +144,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   runRoutes(app, ctx);
   inspectRoutes(app, ctx);
   projectRoutes(app, ctx);
+  projectDatasetRoutes(app, ctx);
   // Raster-dem tiles of a run's raster layers, decoded from the layer's stored GeoTIFF (the full-resolution grid).
   app.route(
     '/api',
@@ -180,6 +189,8 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     }
     return c.body(readFileSync(join(opts.clientDir, 'index.html')), 200, { 'content-type': CONTENT_TYPES['.html'], 'cache-control': 'no-cache' });
   });
+
+  if (opts.demoRun) startDemoRun(ctx);
 
   return Object.assign(app, { jobs, limits });
 }

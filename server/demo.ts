@@ -3,19 +3,43 @@ import { join } from 'node:path';
 import { parseFeatureCollection, type DatasetKind } from '../shared/schema/features.ts';
 import type { Store } from './store/types.ts';
 import { modelFromJson } from './runs/model-input.ts';
+import { hashToken, newEditToken } from './security.ts';
 
 export const FIXTURES_DIR = new URL('../fixtures/', import.meta.url).pathname;
 export const DEMO_DIR = join(FIXTURES_DIR, 'demo');
 
 /** The demo region's data sets and their stable ids (DESIGN.md §5). */
 export const DEMO_DATASETS: { id: string; kind: DatasetKind | 'model'; file: string; title: string }[] = [
-  { id: 'demo-sites', kind: 'sites', file: 'sites.geojson', title: 'Orrindel Massif heat-flow sites (invented)' },
-  { id: 'demo-samples', kind: 'samples', file: 'samples.geojson', title: 'Orrindel Massif grade samples (invented)' },
-  { id: 'demo-faults', kind: 'faults', file: 'faults.geojson', title: 'Orrindel Massif faults (invented)' },
-  { id: 'demo-wells', kind: 'wells', file: 'wells.geojson', title: 'Orrindel Massif wells (invented)' },
-  { id: 'demo-outline', kind: 'regions', file: 'outline.geojson', title: 'Orrindel Massif coastline (invented)' },
-  { id: 'demo-model', kind: 'model', file: 'model.json', title: 'Orrindel Massif crustal model (invented)' },
+  { id: 'demo-sites', kind: 'sites', file: 'sites.geojson', title: 'Orrindel heat-flow sites' },
+  { id: 'demo-samples', kind: 'samples', file: 'samples.geojson', title: 'Orrindel grade samples' },
+  { id: 'demo-faults', kind: 'faults', file: 'faults.geojson', title: 'Orrindel faults' },
+  { id: 'demo-wells', kind: 'wells', file: 'wells.geojson', title: 'Orrindel wells' },
+  { id: 'demo-outline', kind: 'regions', file: 'outline.geojson', title: 'Orrindel coastline' },
+  { id: 'demo-model', kind: 'model', file: 'model.json', title: 'Orrindel crustal model' },
 ];
+
+/** The demo project: one project among others, created on first start, read-only (its edit token is not kept). */
+export const DEMO_PROJECT_ID = 'demo';
+export const DEMO_PROJECT_TITLE = 'Orrindel Massif (invented demo region)';
+
+/**
+ * The demo project's default run, started in the background on first start (SUBTHERM_DEMO_RUN=0 turns it off):
+ * kriging of the sites with the faults as barriers, depth to 300 and 500 °C with P10/P50/P90 from 100
+ * realizations, temperature at 5 and 10 km, isograds from the grade samples. Every data set is named.
+ */
+export const DEMO_RUN_REQUEST = {
+  title: 'Demo: kriging, 300/500 °C, isograds',
+  sites: 'demo-sites',
+  samples: 'demo-samples',
+  faults: 'demo-faults',
+  model: 'demo-model',
+  interpolation: { method: 'kriging' },
+  isothermsC: [300, 500],
+  depthsKm: [5, 10],
+  grid: { cellKm: 2 },
+  realizations: 100,
+  seed: 1,
+} as const;
 
 export const DEMO_TERRAIN = join(DEMO_DIR, 'terrain.tif');
 
@@ -27,12 +51,25 @@ export function loadDemo(store: Store): void {
     const json = JSON.parse(text) as unknown;
     if (d.kind === 'model') {
       // Validated like an uploaded model; its top-level `name` is a label, kept as the title.
-      const { model, name } = modelFromJson(json, d.file);
-      store.putDataset({ id: d.id, kind: 'model', body: JSON.stringify(model), featureCount: model.layers.length, title: name ?? d.title });
+      // Its name is the data set's name in the demo project, not part of the stored content.
+      const { model } = modelFromJson(json, d.file);
+      const { name: _name, ...content } = model as typeof model & { name?: unknown };
+      store.putDataset({ id: d.id, kind: 'model', body: JSON.stringify(content), featureCount: model.layers.length, title: d.title });
       continue;
     }
     const parsed = parseFeatureCollection(d.kind, json);
     const body = JSON.stringify({ ...parsed.collection, description: (json as { description?: string }).description });
     store.putDataset({ id: d.id, kind: d.kind, body, featureCount: parsed.collection.features.length, title: d.title });
   }
+  loadDemoProject(store);
+}
+
+/** Creates the demo project holding the demo data sets under their names (kept if already there). */
+export function loadDemoProject(store: Store): void {
+  if (store.getProjectTokenHash(DEMO_PROJECT_ID) === null) {
+    const state = { datasets: Object.fromEntries(DEMO_DATASETS.filter((d) => d.kind !== 'wells').map((d) => [d.kind, d.id])), demo: true };
+    store.createProject({ id: DEMO_PROJECT_ID, title: DEMO_PROJECT_TITLE, stateJson: JSON.stringify(state), tokenHash: hashToken(newEditToken()) });
+  }
+  const held = new Set(store.listProjectDatasets(DEMO_PROJECT_ID).map((d) => d.id));
+  for (const d of DEMO_DATASETS) if (!held.has(d.id)) store.attachDataset(DEMO_PROJECT_ID, d.id, d.title);
 }

@@ -17,6 +17,10 @@ export interface Limits {
   maxProjectStateBytes: number;
   /** Deepest nesting of a saved project state (422 beyond it). */
   maxJsonDepth: number;
+  /** Bytes one project may hold: its data sets and its terrain (413 above it). */
+  maxProjectStorageBytes: number;
+  /** Largest terrain GeoTIFF upload, bytes (413 above it). */
+  maxTerrainBytes: number;
 }
 
 export const DEFAULT_LIMITS: Readonly<Limits> = Object.freeze({
@@ -27,6 +31,8 @@ export const DEFAULT_LIMITS: Readonly<Limits> = Object.freeze({
   runConcurrency: 1,
   maxProjectStateBytes: 2 * 1024 * 1024,
   maxJsonDepth: 64,
+  maxProjectStorageBytes: 200 * 1024 * 1024,
+  maxTerrainBytes: 40 * 1024 * 1024,
 });
 
 /** Environment variable of each limit. */
@@ -38,6 +44,8 @@ export const LIMIT_ENV: Record<keyof Limits, string> = {
   runConcurrency: 'SUBTHERM_RUN_CONCURRENCY',
   maxProjectStateBytes: 'SUBTHERM_MAX_PROJECT_BYTES',
   maxJsonDepth: 'SUBTHERM_MAX_JSON_DEPTH',
+  maxProjectStorageBytes: 'SUBTHERM_MAX_PROJECT_STORAGE_BYTES',
+  maxTerrainBytes: 'SUBTHERM_MAX_TERRAIN_BYTES',
 };
 
 /**

@@ -17,6 +17,8 @@ export interface ServerOptions {
   /** Build the client when client/dist is missing (what `npm start` does). */
   buildClient?: boolean;
   log?: (line: string) => void;
+  /** Run the demo project's default run on start (default: unless SUBTHERM_DEMO_RUN=0). */
+  demoRun?: boolean;
 }
 
 /** Builds the web client with Vite (client/vite.config.ts) into client/dist. */
@@ -33,7 +35,9 @@ export async function startServer(opts: ServerOptions) {
   const store = new SqliteStore(opts.dbPath);
   loadDemo(store);
   const terrain = new TerrainTiles(await loadDem(DEMO_TERRAIN));
-  const app = createApp({ store, terrain, clientDir: existsSync(join(CLIENT_DIST, 'index.html')) ? CLIENT_DIST : null });
+  // The demo project's default run starts in the background unless SUBTHERM_DEMO_RUN=0.
+  const demoRun = opts.demoRun ?? process.env.SUBTHERM_DEMO_RUN !== '0';
+  const app = createApp({ store, terrain, clientDir: existsSync(join(CLIENT_DIST, 'index.html')) ? CLIENT_DIST : null, demoRun });
   const server = await new Promise<ReturnType<typeof serve>>((resolve) => {
     const s = serve({ fetch: app.fetch, port: opts.port, hostname: opts.host ?? '0.0.0.0' }, () => resolve(s));
   });

@@ -4,7 +4,7 @@ import { z } from 'zod';
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import { thermalModelSchema } from '../../shared/schema/model.ts';
 import { VERSION } from '../../shared/version.ts';
-import { columnAtRunSchema, columnOfModelSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
+import { columnAtRunSchema, columnOfModelSchema, datasetPatchSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
 
 const json = (schema: z.ZodType) => z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any', target: 'draft-2020-12' });
 
@@ -53,8 +53,8 @@ export function openApiDocument(): unknown {
       '/api/config': { get: op('caution text, demo data set ids, terrain tile source') },
       '/api/openapi.json': { get: op('this document') },
       '/api/datasets': {
-        get: op('list stored data sets'),
-        post: op('store a data set (GeoJSON, point CSV or a thermal model)', {
+        get: op('gone: data sets are listed per project (GET /api/projects/{id}/datasets)', { ok: '410' }),
+        post: op('store a data set outside any project (GeoJSON, point CSV or a thermal model); 200 with the existing id when the same content is stored', {
           query: { kind: 'sites | samples | faults | wells | regions | model', title: 'optional title' },
           body: { type: 'object', description: 'GeoJSON FeatureCollection (application/geo+json), CSV (text/csv) or, for kind=model, the model JSON' },
           ok: '201',
@@ -82,6 +82,29 @@ export function openApiDocument(): unknown {
         put: op('save a new revision (Authorization: Bearer <editToken>)', { params: ['id'], body: json(projectUpdateSchema), auth: true, errors: [400, 401, 403, 404, 413, 415, 422] }),
       },
       '/api/projects/{id}/revisions': { get: op('list revisions', { params: ['id'], errors: [404] }) },
+      '/api/projects/{id}/datasets': {
+        get: op('the project\'s data sets: { id, datasets: [{ id, kind, name, featureCount, bbox [W,S,E,N] | null, bytes, contentHash, uploadedAt, url }], terrain, storage: { bytes, limitBytes } }', { params: ['id'], errors: [404] }),
+        post: op('upload a data set into the project (edit token); 201 new, 200 when the project already holds the same content (deduplicated: true)', {
+          params: ['id'],
+          query: { kind: 'sites | samples | faults | wells | regions | model', name: 'the data set\'s name in the project (default: the model\'s own name, or the kind)' },
+          body: { type: 'object', description: 'GeoJSON FeatureCollection (application/geo+json), point CSV (text/csv; header line 1) or, for kind=model, the model JSON' },
+          ok: '201',
+          auth: true,
+          errors: [400, 401, 403, 404, 413, 415, 422],
+        }),
+      },
+      '/api/projects/{id}/datasets/{dsId}': {
+        get: op('download a data set of the project (GeoJSON, or the model JSON under the project\'s name for it)', { params: ['id', 'dsId'], okType: 'application/geo+json', errors: [404] }),
+        patch: op('rename a data set in the project (edit token)', { params: ['id', 'dsId'], body: json(datasetPatchSchema), auth: true, errors: [400, 401, 403, 404, 409, 415, 422] }),
+        delete: op('detach a data set from the project (edit token) → { id, detached, contentKept }; the content stays while a project, run or revision names it', { params: ['id', 'dsId'], auth: true, errors: [401, 403, 404] }),
+      },
+      '/api/projects/{id}/runs': {
+        get: op('the project\'s runs: { id, runs: [{ id, status, title, createdAt, url }] }', { params: ['id'], errors: [404] }),
+        post: op('start a run of the project (edit token): the run request names every data set id, each one the project holds; 202 { id, status, cached, url, events, datasets, warnings }', { params: ['id'], body: json(runRequestSchema), ok: '202', auth: true, errors: [400, 401, 403, 404, 415, 422, 429, 503] }),
+      },
+      '/api/projects/{id}/runs/check': {
+        post: op('the checks of a run without starting it: 422 run_needs_input saying what to add, or { ok, datasets, warnings } (data sets far apart)', { params: ['id'], body: json(runRequestSchema), errors: [400, 404, 415, 422] }),
+      },
       '/api/terrain/{z}/{x}/{y}.png': { get: op('terrain raster-dem tile', { params: ['z', 'x', 'y'], okType: 'image/png', errors: [400, 404] }) },
     },
     'x-thermal-model': json(thermalModelSchema),

@@ -10,6 +10,26 @@ import { newId } from '../store/sqlite.ts';
 import { jsonBody, notFound, requireJsonType, singleQuery, type AppContext } from './context.ts';
 import { idSchema, jsonDepthExceeds, parseWith, projectCreateSchema, projectUpdateSchema, revisionQuerySchema } from './schemas.ts';
 
+/** The project id of the path (404 when there is no such project). */
+export function projectIdOf(c: Context, ctx: AppContext): string {
+  const raw = c.req.param('id') ?? '';
+  const id = idSchema.safeParse(raw);
+  if (!id.success || ctx.store.getProjectTokenHash(id.data) === null) throw notFound('project', raw, 'project_not_found');
+  return id.data;
+}
+
+/** Requires the project's edit token (401 without one, 403 with another project's or a wrong one). */
+export function requireEditToken(c: Context, ctx: AppContext, id: string): void {
+  const token = bearerToken(c.req.header('authorization'));
+  if (token === null) {
+    c.header('www-authenticate', 'Bearer realm="subtherm project"');
+    throw new InputError('changing a project needs its edit token: Authorization: Bearer <editToken> (from the edit link)', [{ field: 'authorization', problem: 'missing' }], 'unauthorized', 401);
+  }
+  if (!tokenMatches(token, ctx.store.getProjectTokenHash(id)!)) {
+    throw new InputError('this token cannot edit this project (a view link is read-only)', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden', 403);
+  }
+}
+
 export function projectRoutes(app: Hono, ctx: AppContext): void {
   const stateJson = (state: Record<string, unknown>): string => {
     if (jsonDepthExceeds(state, ctx.limits.maxJsonDepth)) {
@@ -22,12 +42,7 @@ export function projectRoutes(app: Hono, ctx: AppContext): void {
     }
     return text;
   };
-  const projectId = (c: Context): string => {
-    const raw = c.req.param('id') ?? '';
-    const id = idSchema.safeParse(raw);
-    if (!id.success || ctx.store.getProjectTokenHash(id.data) === null) throw notFound('project', raw, 'project_not_found');
-    return id.data;
-  };
+  const projectId = (c: Context): string => projectIdOf(c, ctx);
 
   app.post('/api/projects', async (c) => {
     requireJsonType(c);
@@ -54,14 +69,7 @@ export function projectRoutes(app: Hono, ctx: AppContext): void {
 
   app.put('/api/projects/:id', async (c) => {
     const id = projectId(c);
-    const token = bearerToken(c.req.header('authorization'));
-    if (token === null) {
-      c.header('www-authenticate', 'Bearer realm="subtherm project"');
-      throw new InputError('saving needs the edit token: Authorization: Bearer <editToken> (from the edit link)', [{ field: 'authorization', problem: 'missing' }], 'unauthorized', 401);
-    }
-    if (!tokenMatches(token, ctx.store.getProjectTokenHash(id)!)) {
-      throw new InputError('this token cannot edit this project (a view link is read-only)', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden', 403);
-    }
+    requireEditToken(c, ctx, id);
     requireJsonType(c);
     const body = await jsonBody(c);
     const q = parseWith(projectUpdateSchema, body, 'project', 'invalid_project');

@@ -79,59 +79,151 @@ export function requestedCells(req: RunRequest, sitesBody: string): number | nul
   return nx * ny;
 }
 
+/**
+ * Validates a run request and queues it (or finds the cached run). The request names every data set it uses by
+ * id: nothing is filled in from the demo or anywhere else. With `projectId`, each data set must be one the project
+ * holds, the model's name is the project's name for it, and the run is listed under the project. Data sets that
+ * lie far apart are reported in `warnings` (also by POST …/runs/check before starting).
+ */
+export function submitRun(ctx: AppContext, body: unknown, client: string, projectId?: string): { status: 200 | 202; body: Record<string, unknown> } {
+  requireRunInputs(body);
+  const request = parseWith(runRequestSchema, body, 'run request', 'invalid_run');
+  // The engines' own options are validated here too, so a mistake is a 422 now rather than a failed run later.
+  parseWith(interpolationOptionsSchema, request.interpolation, 'interpolation options', 'invalid_run');
+  if (request.maskToRegion && request.regions === undefined) {
+    throw new InputError('maskToRegion needs a regions data set', [{ field: 'regions', problem: 'missing (maskToRegion is set)' }], 'invalid_run', 422);
+  }
+  const crs = request.grid.crs ?? (request.interpolation as { crs?: string }).crs;
+  if (crs !== undefined && !/^EPSG:\d{4,6}$/i.test(crs)) {
+    throw new InputError(`grid.crs must be EPSG:nnnn, got "${crs}"`, [{ field: 'grid.crs', problem: 'expected EPSG:4326 or EPSG:nnnn' }], 'invalid_run', 422);
+  }
+  const { datasets, hashes, names, bboxes } = resolveRunDatasets(ctx, request, projectId);
+  const warnings = farApartWarnings(bboxes);
+  const cells = requestedCells(request, datasets[request.sites].body);
+  if (cells !== null && cells > ctx.limits.maxGridCells) {
+    throw new InputError(
+      `the output grid would have ${cells.toLocaleString('en')} cells (limit ${ctx.limits.maxGridCells.toLocaleString('en')}): use a larger cellKm, a smaller bbox or size`,
+      [{ field: 'grid', problem: `at most ${ctx.limits.maxGridCells} cells per grid` }],
+      'grid_too_large',
+      422,
+    );
+  }
+  if (!existsSync(ctx.workerFile)) {
+    throw new InputError('runs are not available on this server: the run worker is not installed', [], 'runs_unavailable', 503);
+  }
+  const cacheKey = sha256Hex(canonicalJson({ version: VERSION, request, inputs: hashes }));
+  const { id, cached } = ctx.jobs.submit({ request, datasets, cacheKey, client });
+  ctx.store.linkRunDatasets(id, Object.keys(datasets));
+  if (projectId !== undefined) ctx.store.linkProjectRun(projectId, id);
+  const snap = ctx.jobs.snapshot(id);
+  return {
+    status: cached ? 200 : 202,
+    body: { id, status: snap?.status ?? 'queued', cached, url: `/api/runs/${id}`, events: `/api/runs/${id}/events`, datasets: names, warnings },
+  };
+}
+
+/** What a run needs before anything else: a sites data set and a model, each named (422 saying what to add). */
+export function requireRunInputs(body: unknown): void {
+  const o = body !== null && typeof body === 'object' && !Array.isArray(body) ? (body as Record<string, unknown>) : {};
+  const missing: { field: string; problem: string }[] = [];
+  if (o.sites === undefined || o.sites === null || o.sites === '') {
+    missing.push({ field: 'sites', problem: 'add heat-flow sites: upload a sites data set (CSV with longitude,latitude,heatFlowMWm2 or GeoJSON points) and name its id in "sites"' });
+  }
+  if (o.model === undefined || o.model === null || o.model === '') {
+    missing.push({ field: 'model', problem: 'add a thermal model: upload a model data set (JSON) and name its id in "model", or give the model inline' });
+  }
+  if (missing.length > 0) {
+    throw new InputError(`this run cannot start: ${missing.map((m) => m.problem).join('; ')}`, missing, 'run_needs_input', 422);
+  }
+}
+
+/** The data sets a validated request names, checked (exist, kind, in the project), with their hashes and bboxes. */
+export function resolveRunDatasets(ctx: AppContext, request: RunRequest, projectId?: string) {
+  const datasets: Record<string, { kind: string; body: string }> = {};
+  const hashes: Record<string, string> = {};
+  const names: Record<string, { id: string; name: string | null }> = {};
+  const bboxes: { role: string; id: string; name: string | null; bbox: [number, number, number, number] }[] = [];
+  const need = (role: string, id: string, kind: string): DatasetRecord & { body: string; name: string | null } => {
+    const rec = ctx.store.getDataset(id);
+    if (!rec) throw new InputError(`${role}: no data set with id "${id}"`, [{ field: role, problem: `data set ${id} not found` }], 'dataset_not_found', 404);
+    if (rec.kind !== kind) throw new InputError(`${role}: data set "${id}" holds ${rec.kind}, not ${kind}`, [{ field: role, problem: `expected a ${kind} data set, got ${rec.kind}` }], 'wrong_dataset_kind', 422);
+    let name = rec.title;
+    if (projectId !== undefined) {
+      const held = ctx.store.getProjectDataset(projectId, id);
+      if (!held) {
+        throw new InputError(`${role}: data set "${id}" is not one of this project's data sets: upload it into the project (or choose one it holds)`, [{ field: role, problem: `data set ${id} is not in project ${projectId}` }], 'dataset_not_in_project', 422);
+      }
+      name = held.name;
+    }
+    names[role] = { id, name };
+    if (rec.bbox !== null) bboxes.push({ role, id, name, bbox: rec.bbox });
+    return { ...rec, name };
+  };
+  for (const [role, kind] of Object.entries(ROLE_KINDS)) {
+    const id = request[role as keyof typeof ROLE_KINDS];
+    if (id === undefined) continue;
+    const rec = need(role, id, kind);
+    datasets[id] = { kind: rec.kind, body: rec.body };
+    hashes[role] = rec.contentHash;
+  }
+  // The model: a data set id or inline JSON, validated here so a bad model never reaches a worker. A stored
+  // model's name is its data set's name (the project's), so exports carry the name the user gave it.
+  if (typeof request.model === 'string') {
+    const rec = need('model', request.model, 'model');
+    const { model } = modelFromJson(JSON.parse(rec.body), `model ${request.model}`);
+    const { name: _own, ...content } = model as typeof model & { name?: unknown };
+    datasets[request.model] = { kind: 'model', body: JSON.stringify(rec.name === null ? content : { name: rec.name, ...content }) };
+    hashes.model = rec.contentHash;
+    if (rec.name !== null) hashes.modelName = sha256Hex(rec.name);
+  } else {
+    request.model = modelFromJson(request.model, 'model').model as unknown as Record<string, unknown>;
+  }
+  return { datasets, hashes, names, bboxes };
+}
+
+/** Great-circle distance between the nearest points of two lon/lat boxes, km (0 when they overlap); spherical Earth. */
+export function bboxGapKm(a: [number, number, number, number], b: [number, number, number, number]): number {
+  const lon = (x: [number, number, number, number]) => ({ w: x[0], e: x[2] });
+  const clamp = (v: number, lo: number, hi: number) => Math.min(hi, Math.max(lo, v));
+  // Nearest latitudes; nearest longitudes allowing for the antimeridian (the smaller of the two ways round).
+  const latA = clamp((b[1] + b[3]) / 2, a[1], a[3]);
+  const latB = clamp(latA, b[1], b[3]);
+  const la = lon(a), lb = lon(b);
+  let dLon = 0;
+  if (lb.w > la.e) dLon = Math.min(lb.w - la.e, 360 - (lb.e - la.w));
+  else if (la.w > lb.e) dLon = Math.min(la.w - lb.e, 360 - (la.e - lb.w));
+  const toRad = Math.PI / 180;
+  const p1 = latA * toRad, p2 = latB * toRad, dl = Math.max(0, dLon) * toRad;
+  const h = Math.sin((p2 - p1) / 2) ** 2 + Math.cos(p1) * Math.cos(p2) * Math.sin(dl / 2) ** 2;
+  return 2 * MEAN_EARTH_RADIUS_KM * Math.asin(Math.min(1, Math.sqrt(h)));
+}
+
+/** IUGG mean Earth radius R1 (Moritz 2000, Geodetic Reference System 1980), km. */
+const MEAN_EARTH_RADIUS_KM = 6371.0088;
+/** Data sets farther than this from the sites are reported: beyond any one regional study's reach, km. */
+export const FAR_APART_KM = 300;
+
+/** A warning for each data set that lies more than FAR_APART_KM from the sites. */
+export function farApartWarnings(bboxes: { role: string; id: string; name: string | null; bbox: [number, number, number, number] }[]): string[] {
+  const sites = bboxes.find((b) => b.role === 'sites');
+  if (!sites) return [];
+  const out: string[] = [];
+  for (const b of bboxes) {
+    if (b.role === 'sites') continue;
+    const gap = bboxGapKm(sites.bbox, b.bbox);
+    if (gap > FAR_APART_KM) {
+      const label = (x: typeof b) => `${x.role} "${x.name ?? x.id}"`;
+      out.push(`${label(b)} lie ${Math.round(gap).toLocaleString('en')} km from the ${label(sites)}: check that both describe the same region before relying on this run`);
+    }
+  }
+  return out;
+}
+
 export function runRoutes(app: Hono, ctx: AppContext): void {
   app.post('/api/runs', async (c) => {
     requireJsonType(c);
-    const request = parseWith(runRequestSchema, await jsonBody(c), 'run request', 'invalid_run');
-    // The engines' own options are validated here too, so a mistake is a 422 now rather than a failed run later.
-    parseWith(interpolationOptionsSchema, request.interpolation, 'interpolation options', 'invalid_run');
-    if (request.maskToRegion && request.regions === undefined) {
-      throw new InputError('maskToRegion needs a regions data set', [{ field: 'regions', problem: 'missing (maskToRegion is set)' }], 'invalid_run', 422);
-    }
-    const crs = request.grid.crs ?? (request.interpolation as { crs?: string }).crs;
-    if (crs !== undefined && !/^EPSG:\d{4,6}$/i.test(crs)) {
-      throw new InputError(`grid.crs must be EPSG:nnnn, got "${crs}"`, [{ field: 'grid.crs', problem: 'expected EPSG:4326 or EPSG:nnnn' }], 'invalid_run', 422);
-    }
-    const datasets: Record<string, { kind: string; body: string }> = {};
-    const hashes: Record<string, string> = {};
-    const need = (role: string, id: string, kind: string): DatasetRecord & { body: string } => {
-      const rec = ctx.store.getDataset(id);
-      if (!rec) throw new InputError(`${role}: no data set with id "${id}"`, [{ field: role, problem: `data set ${id} not found` }], 'dataset_not_found', 404);
-      if (rec.kind !== kind) throw new InputError(`${role}: data set "${id}" holds ${rec.kind}, not ${kind}`, [{ field: role, problem: `expected a ${kind} data set, got ${rec.kind}` }], 'wrong_dataset_kind', 422);
-      return rec;
-    };
-    for (const [role, kind] of Object.entries(ROLE_KINDS)) {
-      const id = request[role as keyof typeof ROLE_KINDS];
-      if (id === undefined) continue;
-      const rec = need(role, id, kind);
-      datasets[id] = { kind: rec.kind, body: rec.body };
-      hashes[role] = rec.contentHash;
-    }
-    // The model: a data set id or inline JSON, validated here so a bad model never reaches a worker.
-    if (typeof request.model === 'string') {
-      const rec = need('model', request.model, 'model');
-      const { model } = modelFromJson(JSON.parse(rec.body), `model ${request.model}`);
-      datasets[request.model] = { kind: 'model', body: JSON.stringify(model) };
-      hashes.model = rec.contentHash;
-    } else {
-      request.model = modelFromJson(request.model, 'model').model as unknown as Record<string, unknown>;
-    }
-    const cells = requestedCells(request, datasets[request.sites].body);
-    if (cells !== null && cells > ctx.limits.maxGridCells) {
-      throw new InputError(
-        `the output grid would have ${cells.toLocaleString('en')} cells (limit ${ctx.limits.maxGridCells.toLocaleString('en')}): use a larger cellKm, a smaller bbox or size`,
-        [{ field: 'grid', problem: `at most ${ctx.limits.maxGridCells} cells per grid` }],
-        'grid_too_large',
-        422,
-      );
-    }
-    if (!existsSync(ctx.workerFile)) {
-      throw new InputError('runs are not available on this server: the run worker is not installed', [], 'runs_unavailable', 503);
-    }
-    const cacheKey = sha256Hex(canonicalJson({ version: VERSION, request, inputs: hashes }));
-    const { id, cached } = ctx.jobs.submit({ request, datasets, cacheKey, client: clientAddress(c) });
-    const snap = ctx.jobs.snapshot(id);
-    return c.json({ id, status: snap?.status ?? 'queued', cached, url: `/api/runs/${id}`, events: `/api/runs/${id}/events` }, cached ? 200 : 202);
+    const out = submitRun(ctx, await jsonBody(c), clientAddress(c));
+    return c.json(out.body, out.status);
   });
 
   const getRun = (raw: string): RunRecord => {

@@ -54,7 +54,8 @@ const stateSchema = z.record(z.string(), z.unknown());
 
 export const projectCreateSchema = z.strictObject({
   title: z.string().trim().min(1, 'a project needs a title').max(200),
-  state: stateSchema,
+  /** A new project starts empty: no data sets, no runs, an empty state unless one is given. */
+  state: stateSchema.default({}),
 });
 
 export const projectUpdateSchema = z.strictObject({
@@ -70,6 +71,18 @@ export const datasetQuerySchema = z.object({
   kind: z.enum(['sites', 'samples', 'faults', 'wells', 'regions', 'model'], { error: 'kind must be one of sites, samples, faults, wells, regions, model' }),
   title: z.string().max(200).optional(),
 });
+
+/** A data set's name inside its project (what the page shows; ids stay opaque). */
+export const datasetNameSchema = z.string().trim().min(1, 'a data set needs a name').max(200, 'a data set name has at most 200 characters');
+
+/** POST /api/projects/:id/datasets query. */
+export const projectDatasetQuerySchema = z.object({
+  kind: z.enum(['sites', 'samples', 'faults', 'wells', 'regions', 'model'], { error: 'kind must be one of sites, samples, faults, wells, regions, model' }),
+  name: datasetNameSchema.optional(),
+});
+
+/** PATCH /api/projects/:id/datasets/:dsId body. */
+export const datasetPatchSchema = z.strictObject({ name: datasetNameSchema });
 
 /** zod issues as the API's problem list. */
 export function zodProblems(error: z.ZodError): InputProblem[] {

@@ -2,7 +2,8 @@ import Database from 'better-sqlite3';
 import { createHash, randomBytes } from 'node:crypto';
 import { mkdirSync } from 'node:fs';
 import { dirname } from 'node:path';
-import type { DatasetRecord, ProjectRecord, RevisionInfo, RunRecord, RunStatus, Store, StoredGridMeta } from './types.ts';
+import type { DatasetRecord, ProjectDatasetRecord, ProjectRecord, ProjectRunInfo, ProjectTerrainRecord, RevisionInfo, RunRecord, RunStatus, Store, StoredGridMeta } from './types.ts';
+import { bodyBbox } from './bbox.ts';
 
 /** Schema migrations, applied in order; `PRAGMA user_version` records how many have run. */
 const MIGRATIONS: string[] = [
@@ -72,6 +73,38 @@ const MIGRATIONS: string[] = [
      blob_hash TEXT NOT NULL REFERENCES blobs(hash),
      PRIMARY KEY (run_id, name)
    );`,
+  // Projects own named data sets (an attachment: the content row stays shared and content-addressed), their runs
+  // and an optional terrain. A detached data set keeps its row here (detached_at set), so the list of what a
+  // project once held survives; its content stays while any revision, run or project refers to it.
+  `ALTER TABLE datasets ADD COLUMN bbox TEXT;
+   CREATE INDEX datasets_kind_hash ON datasets(kind, content_hash);
+   CREATE TABLE project_datasets (
+     project_id TEXT NOT NULL REFERENCES projects(id),
+     dataset_id TEXT NOT NULL REFERENCES datasets(id),
+     name TEXT NOT NULL,
+     attached_at TEXT NOT NULL,
+     detached_at TEXT,
+     PRIMARY KEY (project_id, dataset_id)
+   );
+   CREATE INDEX project_datasets_dataset ON project_datasets(dataset_id);
+   CREATE TABLE run_datasets (
+     run_id TEXT NOT NULL REFERENCES runs(id),
+     dataset_id TEXT NOT NULL,
+     PRIMARY KEY (run_id, dataset_id)
+   );
+   CREATE INDEX run_datasets_dataset ON run_datasets(dataset_id);
+   CREATE TABLE project_runs (
+     project_id TEXT NOT NULL REFERENCES projects(id),
+     run_id TEXT NOT NULL REFERENCES runs(id),
+     created_at TEXT NOT NULL,
+     PRIMARY KEY (project_id, run_id)
+   );
+   CREATE TABLE project_terrain (
+     project_id TEXT PRIMARY KEY REFERENCES projects(id),
+     blob_hash TEXT NOT NULL REFERENCES blobs(hash),
+     meta TEXT NOT NULL,
+     created_at TEXT NOT NULL
+   );`,
 ];
 
 /** A new random id: 16 bytes from the CSPRNG, base64url (22 characters). */
@@ -114,6 +147,7 @@ export class SqliteStore implements Store {
       const existing = this.getDataset(input.id);
       if (existing) return strip(existing);
     }
+    const bbox = input.kind === 'model' ? null : bodyBbox(input.body);
     const rec: DatasetRecord = {
       id: input.id ?? newId('ds_'),
       kind: input.kind,
@@ -121,26 +155,142 @@ export class SqliteStore implements Store {
       contentHash,
       createdAt: new Date().toISOString(),
       title: input.title ?? null,
+      bbox,
+      bytes: Buffer.byteLength(input.body, 'utf8'),
     };
     this.db
-      .prepare('INSERT INTO datasets (id, kind, feature_count, content_hash, title, body, created_at) VALUES (?, ?, ?, ?, ?, ?, ?)')
-      .run(rec.id, rec.kind, rec.featureCount, rec.contentHash, rec.title, input.body, rec.createdAt);
+      .prepare('INSERT INTO datasets (id, kind, feature_count, content_hash, title, body, created_at, bbox) VALUES (?, ?, ?, ?, ?, ?, ?, ?)')
+      .run(rec.id, rec.kind, rec.featureCount, rec.contentHash, rec.title, input.body, rec.createdAt, bbox === null ? null : JSON.stringify(bbox));
     return rec;
   }
 
   getDataset(id: string): (DatasetRecord & { body: string }) | null {
-    const row = this.db.prepare('SELECT id, kind, feature_count, content_hash, title, body, created_at FROM datasets WHERE id = ?').get(id) as
-      | { id: string; kind: string; feature_count: number; content_hash: string; title: string | null; body: string; created_at: string }
+    const row = this.db.prepare(`SELECT ${DATASET_COLUMNS}, body FROM datasets WHERE id = ?`).get(id) as
+      | (DatasetRow & { body: string })
       | undefined;
     if (!row) return null;
-    return { id: row.id, kind: row.kind, featureCount: row.feature_count, contentHash: row.content_hash, title: row.title, body: row.body, createdAt: row.created_at };
+    return { ...this.datasetFromRow(row), body: row.body };
   }
 
   listDatasets(): DatasetRecord[] {
-    const rows = this.db.prepare('SELECT id, kind, feature_count, content_hash, title, created_at FROM datasets ORDER BY created_at, id').all() as {
-      id: string; kind: string; feature_count: number; content_hash: string; title: string | null; created_at: string;
-    }[];
-    return rows.map((r) => ({ id: r.id, kind: r.kind, featureCount: r.feature_count, contentHash: r.content_hash, title: r.title, createdAt: r.created_at }));
+    const rows = this.db.prepare(`SELECT ${DATASET_COLUMNS} FROM datasets ORDER BY created_at, id`).all() as DatasetRow[];
+    return rows.map((r) => this.datasetFromRow(r));
+  }
+
+  findDatasetByContent(kind: string, contentHash: string): DatasetRecord | null {
+    const row = this.db.prepare(`SELECT ${DATASET_COLUMNS} FROM datasets WHERE kind = ? AND content_hash = ? ORDER BY created_at LIMIT 1`).get(kind, contentHash) as DatasetRow | undefined;
+    return row ? this.datasetFromRow(row) : null;
+  }
+
+  /** A record from its row; a bbox missing from a row stored before bboxes were kept is computed once and saved. */
+  private datasetFromRow(r: DatasetRow): DatasetRecord {
+    let bbox: DatasetRecord['bbox'] = r.bbox === null ? null : (JSON.parse(r.bbox) as [number, number, number, number]);
+    if (r.bbox === null && r.kind !== 'model') {
+      const body = (this.db.prepare('SELECT body FROM datasets WHERE id = ?').get(r.id) as { body: string }).body;
+      bbox = bodyBbox(body);
+      if (bbox !== null) this.db.prepare('UPDATE datasets SET bbox = ? WHERE id = ?').run(JSON.stringify(bbox), r.id);
+    }
+    return { id: r.id, kind: r.kind, featureCount: r.feature_count, contentHash: r.content_hash, title: r.title, createdAt: r.created_at, bbox, bytes: r.bytes };
+  }
+
+  attachDataset(projectId: string, datasetId: string, name: string): ProjectDatasetRecord {
+    const now = new Date().toISOString();
+    this.db
+      .prepare(
+        `INSERT INTO project_datasets (project_id, dataset_id, name, attached_at, detached_at) VALUES (?, ?, ?, ?, NULL)
+         ON CONFLICT (project_id, dataset_id) DO UPDATE SET name = excluded.name, attached_at = excluded.attached_at, detached_at = NULL`,
+      )
+      .run(projectId, datasetId, name, now);
+    return this.getProjectDataset(projectId, datasetId)!;
+  }
+
+  listProjectDatasets(projectId: string): ProjectDatasetRecord[] {
+    const rows = this.db
+      .prepare(`SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.detached_at IS NULL ORDER BY p.attached_at, d.id`)
+      .all(projectId) as (DatasetRow & { name: string; attached_at: string })[];
+    return rows.map((r) => projectDataset(this.datasetFromRow(r), r.name, r.attached_at));
+  }
+
+  getProjectDataset(projectId: string, datasetId: string): ProjectDatasetRecord | null {
+    const r = this.db
+      .prepare(`SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.dataset_id = ? AND p.detached_at IS NULL`)
+      .get(projectId, datasetId) as (DatasetRow & { name: string; attached_at: string }) | undefined;
+    return r ? projectDataset(this.datasetFromRow(r), r.name, r.attached_at) : null;
+  }
+
+  renameProjectDataset(projectId: string, datasetId: string, name: string): boolean {
+    return this.db.prepare('UPDATE project_datasets SET name = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL').run(name, projectId, datasetId).changes > 0;
+  }
+
+  detachProjectDataset(projectId: string, datasetId: string): boolean {
+    return this.db.prepare('UPDATE project_datasets SET detached_at = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL').run(new Date().toISOString(), projectId, datasetId).changes > 0;
+  }
+
+  pruneDataset(datasetId: string): boolean {
+    return this.db
+      .transaction(() => {
+        const attached = this.db.prepare('SELECT 1 FROM project_datasets WHERE dataset_id = ? AND detached_at IS NULL LIMIT 1').get(datasetId);
+        const byRun = this.db.prepare('SELECT 1 FROM run_datasets WHERE dataset_id = ? LIMIT 1').get(datasetId);
+        // A saved state (any revision of any project) that names the id keeps the content: revisions are append-only.
+        const byRevision = this.db.prepare('SELECT 1 FROM project_revisions WHERE instr(state, ?) > 0 LIMIT 1').get(JSON.stringify(datasetId));
+        if (attached || byRun || byRevision) return false;
+        this.db.prepare('DELETE FROM project_datasets WHERE dataset_id = ?').run(datasetId);
+        return this.db.prepare('DELETE FROM datasets WHERE id = ?').run(datasetId).changes > 0;
+      })
+      .immediate();
+  }
+
+  projectStorageBytes(projectId: string): number {
+    const ds = this.db
+      .prepare('SELECT COALESCE(SUM(length(CAST(d.body AS BLOB))), 0) AS n FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.detached_at IS NULL')
+      .get(projectId) as { n: number };
+    const t = this.db.prepare('SELECT COALESCE(SUM(b.size), 0) AS n FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = ?').get(projectId) as { n: number };
+    return ds.n + t.n;
+  }
+
+  linkRunDatasets(runId: string, datasetIds: string[]): void {
+    const ins = this.db.prepare('INSERT OR IGNORE INTO run_datasets (run_id, dataset_id) VALUES (?, ?)');
+    this.db.transaction(() => {
+      for (const id of datasetIds) ins.run(runId, id);
+    })();
+  }
+
+  linkProjectRun(projectId: string, runId: string): void {
+    this.db.prepare('INSERT OR IGNORE INTO project_runs (project_id, run_id, created_at) VALUES (?, ?, ?)').run(projectId, runId, new Date().toISOString());
+  }
+
+  listProjectRuns(projectId: string): ProjectRunInfo[] {
+    const rows = this.db
+      .prepare('SELECT r.id, r.status, r.request, p.created_at FROM project_runs p JOIN runs r ON r.id = p.run_id WHERE p.project_id = ? ORDER BY p.created_at, r.id')
+      .all(projectId) as { id: string; status: RunStatus; request: string; created_at: string }[];
+    return rows.map((r) => {
+      const title = (JSON.parse(r.request) as { title?: unknown }).title;
+      return { id: r.id, status: r.status, title: typeof title === 'string' ? title : null, createdAt: r.created_at };
+    });
+  }
+
+  runProjects(runId: string): string[] {
+    return (this.db.prepare('SELECT project_id FROM project_runs WHERE run_id = ? ORDER BY created_at').all(runId) as { project_id: string }[]).map((r) => r.project_id);
+  }
+
+  putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): ProjectTerrainRecord {
+    const createdAt = new Date().toISOString();
+    const blobHash = this.db.transaction(() => {
+      const hash = this.putBlob(new Uint8Array(values.buffer, values.byteOffset, values.byteLength));
+      this.db.prepare('INSERT OR REPLACE INTO project_terrain (project_id, blob_hash, meta, created_at) VALUES (?, ?, ?, ?)').run(projectId, hash, JSON.stringify(meta), createdAt);
+      return hash;
+    })();
+    return { blobHash, meta, createdAt };
+  }
+
+  getProjectTerrain(projectId: string): (ProjectTerrainRecord & { values: Float32Array }) | null {
+    const row = this.db.prepare('SELECT t.blob_hash, t.meta, t.created_at, b.bytes FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = ?').get(projectId) as
+      | { blob_hash: string; meta: string; created_at: string; bytes: Buffer }
+      | undefined;
+    if (!row) return null;
+    const values = new Float32Array(row.bytes.byteLength / 4);
+    new Uint8Array(values.buffer).set(row.bytes);
+    return { blobHash: row.blob_hash, meta: JSON.parse(row.meta) as ProjectTerrainRecord['meta'], createdAt: row.created_at, values };
   }
 
   createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): ProjectRecord {
@@ -292,6 +442,17 @@ export class SqliteStore implements Store {
   close(): void {
     this.db.close();
   }
+}
+
+const DATASET_COLUMNS = 'id, kind, feature_count, content_hash, title, created_at, bbox, length(CAST(body AS BLOB)) AS bytes';
+const DATASET_COLUMNS_D = 'd.id, d.kind, d.feature_count, d.content_hash, d.title, d.created_at, d.bbox, length(CAST(d.body AS BLOB)) AS bytes';
+
+interface DatasetRow {
+  id: string; kind: string; feature_count: number; content_hash: string; title: string | null; created_at: string; bbox: string | null; bytes: number;
+}
+
+function projectDataset(d: DatasetRecord, name: string, attachedAt: string): ProjectDatasetRecord {
+  return { id: d.id, kind: d.kind, name, featureCount: d.featureCount, contentHash: d.contentHash, bbox: d.bbox, bytes: d.bytes, uploadedAt: attachedAt };
 }
 
 interface RunRow {

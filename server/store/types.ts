@@ -13,6 +13,39 @@ export interface DatasetRecord {
   contentHash: string;
   createdAt: string;
   title: string | null;
+  /** [west, south, east, north] of the geometry, degrees; null for a model. */
+  bbox: [number, number, number, number] | null;
+  /** Bytes of the stored body. */
+  bytes: number;
+}
+
+/** A data set as one project holds it: the shared content plus the project's own name for it. */
+export interface ProjectDatasetRecord {
+  /** The content's id (what a run request names). */
+  id: string;
+  kind: string;
+  name: string;
+  featureCount: number;
+  contentHash: string;
+  bbox: [number, number, number, number] | null;
+  bytes: number;
+  /** When it was attached to this project (ISO 8601). */
+  uploadedAt: string;
+}
+
+/** A run as its project lists it. */
+export interface ProjectRunInfo {
+  id: string;
+  status: RunStatus;
+  title: string | null;
+  createdAt: string;
+}
+
+/** A project's terrain: the DEM reprojected to EPSG:4326 (Float32 values in a blob) and its description. */
+export interface ProjectTerrainRecord {
+  blobHash: string;
+  meta: StoredGridMeta & { sourceCrs: string; sourceBytes: number; name: string };
+  createdAt: string;
 }
 
 /** A shared map state; revisions are append-only (revision 1 is the creation). */
@@ -66,6 +99,33 @@ export interface Store {
   putDataset(input: { id?: string; kind: string; body: string; featureCount: number; title?: string }): DatasetRecord;
   getDataset(id: string): (DatasetRecord & { body: string }) | null;
   listDatasets(): DatasetRecord[];
+  /** The data set of this kind whose content hash is `contentHash` (uploads are de-duplicated by content). */
+  findDatasetByContent(kind: string, contentHash: string): DatasetRecord | null;
+
+  /** Attaches a data set to a project under `name` (again, when it was detached); returns the attachment. */
+  attachDataset(projectId: string, datasetId: string, name: string): ProjectDatasetRecord;
+  /** The data sets attached to a project, in upload order. */
+  listProjectDatasets(projectId: string): ProjectDatasetRecord[];
+  /** One attached data set of a project, or null. */
+  getProjectDataset(projectId: string, datasetId: string): ProjectDatasetRecord | null;
+  renameProjectDataset(projectId: string, datasetId: string, name: string): boolean;
+  /** Detaches a data set from a project; false when it was not attached. */
+  detachProjectDataset(projectId: string, datasetId: string): boolean;
+  /** Deletes a data set's content when no project, run or project revision refers to it any more; true if deleted. */
+  pruneDataset(datasetId: string): boolean;
+  /** Bytes a project holds: its attached data sets' bodies and its terrain. */
+  projectStorageBytes(projectId: string): number;
+
+  /** Records the data sets a run reads (so their content outlives a detach). */
+  linkRunDatasets(runId: string, datasetIds: string[]): void;
+  /** Lists a run under a project (idempotent). */
+  linkProjectRun(projectId: string, runId: string): void;
+  listProjectRuns(projectId: string): ProjectRunInfo[];
+  /** The projects a run is listed under. */
+  runProjects(runId: string): string[];
+
+  putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): ProjectTerrainRecord;
+  getProjectTerrain(projectId: string): (ProjectTerrainRecord & { values: Float32Array }) | null;
 
   /** Creates a project with its first revision, atomically. */
   createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): ProjectRecord;

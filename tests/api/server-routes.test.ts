@@ -99,16 +99,21 @@ describe('data sets', () => {
     expect(b.warnings.join(' ')).toContain('no id');
   });
 
-  it('stores a thermal model, taking its top-level name as the title', async () => {
-    const demo = JSON.parse(readFileSync(join(DEMO_DIR, 'model.json'), 'utf8')) as { name: string };
-    const res = await post('/api/datasets?kind=model', demo);
+  it('stores a thermal model without its name (a name is the data set\'s), de-duplicated by content', async () => {
+    const demo = JSON.parse(readFileSync(join(DEMO_DIR, 'model.json'), 'utf8')) as { name: string; surfaceTemperatureC: number };
+    const other = { ...demo, name: 'another name', surfaceTemperatureC: demo.surfaceTemperatureC + 1 };
+    const res = await post('/api/datasets?kind=model', other);
     expect(res.status).toBe(201);
     const { id } = (await res.json()) as { id: string };
     const rec = store.listDatasets().find((d) => d.id === id)!;
-    expect(rec.title).toBe(demo.name);
+    expect(rec.title).toBe('another name');
     const body = (await (await app.request(`/api/datasets/${id}`)).json()) as Record<string, unknown>;
-    expect(body.name).toBe(demo.name); // the stored model keeps its descriptive name
+    expect(body.name).toBeUndefined();
     expect((body.layers as unknown[]).length).toBe(4);
+    // The demo model's own content under another name is the demo model, not a second copy.
+    const again = await post('/api/datasets?kind=model', { ...demo, name: 'renamed' });
+    expect(again.status).toBe(200);
+    expect(((await again.json()) as { id: string; deduplicated: boolean })).toMatchObject({ id: 'demo-model', deduplicated: true });
   });
 
   it('names the feature, field and problem of rejected input (422)', async () => {
@@ -243,7 +248,8 @@ describe('runs', () => {
   });
 
   it('rejects bad run requests: 422 invalid, 404 missing data set, 422 wrong kind or bad model, 422 grid too large, 415', async () => {
-    await errorOf(await post('/api/runs', { model: 'demo-model' }), 422, 'invalid_run');
+    await errorOf(await post('/api/runs', { model: 'demo-model' }), 422, 'run_needs_input');
+    await errorOf(await post('/api/runs', { sites: 7, model: 'demo-model' }), 422, 'invalid_run');
     await errorOf(await post('/api/runs', { sites: 'nope', model: 'demo-model' }), 404, 'dataset_not_found');
     await errorOf(await post('/api/runs', { sites: 'demo-faults', model: 'demo-model' }), 422, 'wrong_dataset_kind');
     await errorOf(await post('/api/runs', { sites: 'demo-sites', model: 'demo-sites' }), 422, 'wrong_dataset_kind');

@@ -41,7 +41,8 @@ export async function startServerProcess(opts: { dbPath?: string; env?: Record<s
   const dbPath = opts.dbPath ?? join(mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-db-')), 'test.sqlite');
   const child = spawn(process.execPath, [join(ROOT, 'bin', 'subtherm.mjs'), 'serve', '--port', '0', '--host', '127.0.0.1', '--db', dbPath], {
     cwd: ROOT,
-    env: { ...process.env, ...opts.env },
+    // The demo's default run stays off unless a test asks for it (SUBTHERM_DEMO_RUN=1): it would compete for the CPU.
+    env: { ...process.env, SUBTHERM_DEMO_RUN: '0', ...opts.env },
     stdio: ['ignore', 'pipe', 'pipe'],
   });
   let log = '';

@@ -1,0 +1,181 @@
+/**
+ * What a project owns: its named data sets (GET/POST /api/projects/:id/datasets, GET/PATCH/DELETE …/datasets/:dsId)
+ * and its runs (GET/POST /api/projects/:id/runs, POST …/runs/check). Changes need the project's edit token.
+ * Uploads are de-duplicated by content (kind + SHA-256 of the validated body): the same content uploaded twice is
+ * one stored data set. A project holds at most `maxProjectStorageBytes` (413 naming the limit). Detaching a data
+ * set removes it from the project's list; its content stays while any project, run or saved revision names it.
+ */
+import type { Context, Hono } from 'hono';
+import { InputError } from '../../shared/errors.ts';
+import type { DatasetKind } from '../../shared/schema/features.ts';
+import { runRequestSchema } from '../../shared/schema/run.ts';
+import { sha256Hex } from '../store/sqlite.ts';
+import type { ProjectDatasetRecord } from '../store/types.ts';
+import { clientAddress, jsonBody, requireJsonType, singleQuery, type AppContext } from './context.ts';
+import { parseUpload, type ParsedUpload } from './datasets.ts';
+import { projectIdOf, requireEditToken } from './projects.ts';
+import { farApartWarnings, requireRunInputs, resolveRunDatasets, submitRun } from './runs.ts';
+import { datasetPatchSchema, idSchema, parseWith, projectDatasetQuerySchema } from './schemas.ts';
+
+/** Default names of uploads that come without one, by kind. */
+const KIND_NAMES: Record<string, string> = {
+  sites: 'Heat-flow sites',
+  samples: 'Grade samples',
+  faults: 'Faults',
+  wells: 'Wells',
+  regions: 'Regions',
+  model: 'Thermal model',
+};
+
+/** A data set as the API lists it. */
+export function datasetView(projectId: string, d: ProjectDatasetRecord) {
+  return {
+    id: d.id,
+    kind: d.kind,
+    name: d.name,
+    featureCount: d.featureCount,
+    bbox: d.bbox,
+    bytes: d.bytes,
+    contentHash: d.contentHash,
+    uploadedAt: d.uploadedAt,
+    url: `/api/projects/${projectId}/datasets/${d.id}`,
+  };
+}
+
+/** 413 when adding `bytes` would take the project over its storage quota. */
+export function checkQuota(ctx: AppContext, projectId: string, bytes: number, what: string): void {
+  const used = ctx.store.projectStorageBytes(projectId);
+  const limit = ctx.limits.maxProjectStorageBytes;
+  if (used + bytes > limit) {
+    const mb = (n: number) => `${(n / 1048576).toFixed(1)} MB`;
+    throw new InputError(
+      `${what} (${mb(bytes)}) would take this project to ${mb(used + bytes)}, over its storage limit of ${mb(limit)} (${limit} bytes): remove data sets the project no longer needs`,
+      [{ field: '(body)', problem: `a project holds at most ${limit} bytes (SUBTHERM_MAX_PROJECT_STORAGE_BYTES); it holds ${used}` }],
+      'project_quota_exceeded',
+      413,
+    );
+  }
+}
+
+/** A name not yet used by another data set of the project: "Faults", "Faults (2)", … */
+function freeName(existing: ProjectDatasetRecord[], wanted: string, except?: string): string {
+  const taken = new Set(existing.filter((d) => d.id !== except).map((d) => d.name));
+  if (!taken.has(wanted)) return wanted;
+  for (let k = 2; ; k++) if (!taken.has(`${wanted} (${k})`)) return `${wanted} (${k})`;
+}
+
+/** Attaches an upload to a project (de-duplicated by content; quota checked for content new to the project). */
+export function addToProject(ctx: AppContext, projectId: string, up: ParsedUpload, name: string | undefined): { dataset: ProjectDatasetRecord; status: 'created' | 'existing' | 'attached' } {
+  const hash = sha256Hex(up.body);
+  const found = ctx.store.findDatasetByContent(up.kind, hash);
+  const held = found ? ctx.store.getProjectDataset(projectId, found.id) : null;
+  if (held) {
+    // Already in the project: nothing stored twice; a new name given with the upload renames it.
+    if (name !== undefined && name !== held.name) ctx.store.renameProjectDataset(projectId, held.id, freeName(ctx.store.listProjectDatasets(projectId), name, held.id));
+    return { dataset: ctx.store.getProjectDataset(projectId, held.id)!, status: 'existing' };
+  }
+  checkQuota(ctx, projectId, Buffer.byteLength(up.body, 'utf8'), `this ${up.kind} data set`);
+  const rec = found ?? ctx.store.putDataset({ kind: up.kind, body: up.body, featureCount: up.featureCount });
+  const finalName = freeName(ctx.store.listProjectDatasets(projectId), name ?? up.suggestedName ?? KIND_NAMES[up.kind] ?? up.kind);
+  return { dataset: ctx.store.attachDataset(projectId, rec.id, finalName), status: found ? 'attached' : 'created' };
+}
+
+export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
+  const dsIdOf = (c: Context, projectId: string): ProjectDatasetRecord => {
+    const raw = c.req.param('dsId') ?? '';
+    const id = idSchema.safeParse(raw);
+    const rec = id.success ? ctx.store.getProjectDataset(projectId, id.data) : null;
+    if (!rec) throw new InputError(`project ${projectId} holds no data set with id "${raw}"`, [{ field: 'dsId', problem: 'not found in this project' }], 'dataset_not_found', 404);
+    return rec;
+  };
+
+  app.get('/api/projects/:id/datasets', (c) => {
+    const id = projectIdOf(c, ctx);
+    const datasets = ctx.store.listProjectDatasets(id).map((d) => datasetView(id, d));
+    const terrain = ctx.store.getProjectTerrain(id);
+    return c.json(
+      {
+        id,
+        datasets,
+        terrain: terrain ? { name: terrain.meta.name, bbox: [terrain.meta.west, terrain.meta.north - terrain.meta.dy * terrain.meta.height, terrain.meta.west + terrain.meta.dx * terrain.meta.width, terrain.meta.north], sourceCrs: terrain.meta.sourceCrs, uploadedAt: terrain.createdAt, tiles: `/api/projects/${id}/terrain/{z}/{x}/{y}.png` } : null,
+        storage: { bytes: ctx.store.projectStorageBytes(id), limitBytes: ctx.limits.maxProjectStorageBytes },
+      },
+      200,
+      { 'cache-control': 'no-store' },
+    );
+  });
+
+  app.post('/api/projects/:id/datasets', async (c) => {
+    const id = projectIdOf(c, ctx);
+    requireEditToken(c, ctx, id);
+    const q = parseWith(projectDatasetQuerySchema, singleQuery(c), 'query', 'bad_query', 400);
+    const up = await parseUpload(c, ctx, q.kind as DatasetKind | 'model');
+    const { dataset, status } = addToProject(ctx, id, up, q.name);
+    return c.json({ ...datasetView(id, dataset), deduplicated: status !== 'created', warnings: up.warnings }, status === 'existing' ? 200 : 201);
+  });
+
+  app.get('/api/projects/:id/datasets/:dsId', (c) => {
+    const id = projectIdOf(c, ctx);
+    const held = dsIdOf(c, id);
+    const rec = ctx.store.getDataset(held.id)!;
+    const isModel = rec.kind === 'model';
+    // A model downloads under its project name; every download carries a file name made of that name.
+    const body = isModel ? JSON.stringify({ name: held.name, ...(JSON.parse(rec.body) as Record<string, unknown>) }, null, 2) : rec.body;
+    const file = `${held.name.replace(/[^A-Za-z0-9._-]+/g, '-').replace(/^-+|-+$/g, '') || held.id}.${isModel ? 'json' : 'geojson'}`;
+    return c.body(body, 200, {
+      'content-type': isModel ? 'application/json' : 'application/geo+json',
+      etag: `"${rec.contentHash}"`,
+      'content-disposition': `attachment; filename="${file}"`,
+    });
+  });
+
+  app.patch('/api/projects/:id/datasets/:dsId', async (c) => {
+    const id = projectIdOf(c, ctx);
+    requireEditToken(c, ctx, id);
+    const held = dsIdOf(c, id);
+    requireJsonType(c);
+    const { name } = parseWith(datasetPatchSchema, await jsonBody(c), 'data set change', 'invalid_dataset_change');
+    const clash = ctx.store.listProjectDatasets(id).find((d) => d.id !== held.id && d.name === name);
+    if (clash) throw new InputError(`another data set of this project is already named "${name}"`, [{ field: 'name', problem: `used by data set ${clash.id}` }], 'name_taken', 409);
+    ctx.store.renameProjectDataset(id, held.id, name);
+    return c.json(datasetView(id, ctx.store.getProjectDataset(id, held.id)!));
+  });
+
+  app.delete('/api/projects/:id/datasets/:dsId', (c) => {
+    const id = projectIdOf(c, ctx);
+    requireEditToken(c, ctx, id);
+    const held = dsIdOf(c, id);
+    ctx.store.detachProjectDataset(id, held.id);
+    const contentDeleted = ctx.store.pruneDataset(held.id);
+    return c.json({ id: held.id, detached: true, contentKept: !contentDeleted });
+  });
+
+  app.get('/api/projects/:id/runs', (c) => {
+    const id = projectIdOf(c, ctx);
+    const runs = ctx.store.listProjectRuns(id).map((r) => {
+      const live = ctx.jobs.live(r.id);
+      return { ...r, status: live?.status ?? r.status, url: `/api/runs/${r.id}` };
+    });
+    return c.json({ id, runs }, 200, { 'cache-control': 'no-store' });
+  });
+
+  app.post('/api/projects/:id/runs', async (c) => {
+    const id = projectIdOf(c, ctx);
+    requireEditToken(c, ctx, id);
+    requireJsonType(c);
+    const out = submitRun(ctx, await jsonBody(c), clientAddress(c), id);
+    return c.json(out.body, out.status);
+  });
+
+  // The checks a run makes before it starts, without starting it: what is missing, and data sets far apart.
+  app.post('/api/projects/:id/runs/check', async (c) => {
+    const id = projectIdOf(c, ctx);
+    requireJsonType(c);
+    const body = await jsonBody(c);
+    requireRunInputs(body);
+    const request = parseWith(runRequestSchema, body, 'run request', 'invalid_run');
+    const { names, bboxes } = resolveRunDatasets(ctx, request, id);
+    const warnings = farApartWarnings(bboxes);
+    return c.json({ ok: true, datasets: names, warnings });
+  });
+}
