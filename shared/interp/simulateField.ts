@@ -1,0 +1,209 @@
+import { InputError } from '../errors.ts';
+import type { GridSpec } from '../grid/grid.ts';
+import { quantileSorted } from '../thermal/quantiles.ts';
+import { converter, lonLatToLocalKm, rowCentresLocalKm, type OutputGridOptions } from './projection.ts';
+import { prepareInterpolation, type PointData, type VariogramReport, type PreparedInterpolation } from './interpolate.ts';
+import type { CrossValidation } from './crossValidation.ts';
+import { NormalScoreTransform } from './normalScore.ts';
+import { createConditionalSimulator, type ConditionalSimulator } from './simulation.ts';
+import type { Anisotropy, VariogramModel, VariogramModelName } from './variogram.ts';
+
+/**
+ * Conditional simulation of a point field, the library entry points behind `subtherm simulate`: the values are
+ * normal-score transformed (optional), the variogram of the (transformed) values is fitted or given, the
+ * realizations are simulated in Gaussian space (simulation.ts) and back-transformed. Targets are points (lon/lat)
+ * or the cells of an output grid. Realizations are stored realization-major as Float32 (R × targets).
+ */
+
+export interface SimulationOptions {
+  /** Number of realizations (1 .. 10,000). */
+  realizations: number;
+  /** Integer seed; realization r draws from stream (seed, r). */
+  seed: number;
+  variogram?: 'auto' | VariogramModelName | VariogramModel;
+  anisotropy?: Anisotropy | null;
+  /** 'normal-score' (default) or 'none' (simulate the values as Gaussian). */
+  transform?: 'normal-score' | 'none';
+  /** Conditioning neighbours per target, or 'all'. Default 16. */
+  neighbors?: number | 'all';
+  lagKm?: number;
+  maxLagKm?: number;
+  grid?: OutputGridOptions;
+  /** Largest realizations × targets held in memory (Float32 values). Default 150,000,000 (600 MB). */
+  maxValues?: number;
+  maxCells?: number;
+  /** Leave-one-out cross-validation of the Gaussian-space kriging (default true). */
+  crossValidation?: boolean;
+  /** Unconditional sampler; default: exact for points (up to 3000 sites), lattice for grids. */
+  sampler?: 'auto' | 'cholesky' | 'lattice';
+  units?: string;
+}
+
+export interface TransformReport {
+  kind: 'normal-score' | 'none';
+  /** Data values (after merging coincident points) and their scores: the back-transform table. */
+  points?: number;
+  lowTail?: number;
+  highTail?: number;
+  method?: string;
+}
+
+export interface SimulationResult {
+  /** Realization-major values, realizations × targets (NaN: no data). */
+  values: Float32Array;
+  realizations: number;
+  targets: number;
+  variogram: VariogramReport;
+  transform: TransformReport;
+  sampler: { kind: 'cholesky' | 'lattice'; method: string } & Record<string, unknown>;
+  crossValidation: CrossValidation | null;
+  /** Kriging weights shared by all realizations. */
+  conditioning: { neighbors: number | 'all'; weights: number };
+  warnings: string[];
+  timingsMs: Record<string, number>;
+  units: string;
+}
+
+export const MAX_REALIZATIONS = 10_000;
+const now = () => (typeof performance !== 'undefined' ? performance.now() : Date.now());
+
+const SAMPLER_METHODS = {
+  cholesky: 'LU (Cholesky) unconditional simulation (Davis 1987), conditioned by ordinary kriging of the residuals (Journel & Huijbregts 1978)',
+  lattice: 'circulant-embedding FFT unconditional simulation (Wood & Chan 1994; Dietrich & Newsam 1997), conditioned by ordinary kriging of the residuals (Journel & Huijbregts 1978)',
+} as const;
+
+function checkCounts(opts: SimulationOptions): void {
+  const R = opts.realizations;
+  if (!(Number.isInteger(R) && R >= 1 && R <= MAX_REALIZATIONS)) throw new InputError(`--realizations must be an integer 1..${MAX_REALIZATIONS}, got ${R}`, [{ field: 'realizations', problem: `expected 1..${MAX_REALIZATIONS}` }], 'bad_option');
+  if (!(Number.isSafeInteger(opts.seed) && opts.seed >= 0)) throw new InputError(`--seed must be a non-negative integer, got ${opts.seed}`, [{ field: 'seed', problem: 'expected an integer ≥ 0' }], 'bad_option');
+  const t = opts.transform ?? 'normal-score';
+  if (t !== 'normal-score' && t !== 'none') throw new InputError(`--transform must be normal-score or none, got ${String(t)}`, [{ field: 'transform', problem: 'expected normal-score or none' }], 'bad_option');
+}
+
+/** Transform and prepare (variogram of the Gaussian values, cross-validation, plan). */
+function prepare(points: PointData, opts: SimulationOptions, needGrid: boolean): { prep: PreparedInterpolation; ns: NormalScoreTransform | null; report: TransformReport } {
+  checkCounts(opts);
+  let ns: NormalScoreTransform | null = null;
+  let gaussPoints = points;
+  let report: TransformReport = { kind: 'none' };
+  if ((opts.transform ?? 'normal-score') === 'normal-score') {
+    const v = points.values;
+    for (let i = 0; i < v.length; i++) if (!Number.isFinite(v[i])) throw new InputError(`point ${points.ids[i]} has a value that is not a finite number`, [{ feature: points.ids[i], field: 'value', problem: `must be a finite number, got ${v[i]}` }], 'invalid_points');
+    try {
+      ns = new NormalScoreTransform(v);
+    } catch (e) {
+      throw new InputError(`normal-score transform: ${(e as Error).message}`, [{ field: 'values', problem: 'need at least two distinct values; or use --transform none' }], 'degenerate_values');
+    }
+    const scores = Float64Array.from(v, (x) => ns!.forward(x));
+    gaussPoints = { ...points, values: scores };
+    report = { kind: 'normal-score', points: ns.values.length, lowTail: ns.lowTail, highTail: ns.highTail, method: 'normal scores at mid-rank probabilities, linear back-transform with linear tails in probability to the data range ± 10 % (Deutsch & Journel 1998, GSLIB nscore/backtr)' };
+  }
+  const prep = prepareInterpolation(gaussPoints, {
+    method: 'kriging', neighbors: opts.neighbors ?? 16, variogram: opts.variogram ?? 'auto', anisotropy: opts.anisotropy ?? null,
+    lagKm: opts.lagKm, maxLagKm: opts.maxLagKm, grid: opts.grid, sd: false, crossValidation: opts.crossValidation ?? true,
+    maxCells: opts.maxCells, units: ns === null ? opts.units : 'normal score',
+  }, needGrid);
+  return { prep, ns, report };
+}
+
+function runAll(prep: PreparedInterpolation, ns: NormalScoreTransform | null, opts: SimulationOptions, tx: Float64Array, ty: Float64Array, sampler: 'auto' | 'cholesky' | 'lattice', latticeKm: number | undefined, report: TransformReport): SimulationResult {
+  const R = opts.realizations, T = tx.length;
+  const maxValues = opts.maxValues ?? 150_000_000;
+  if (R * T > maxValues) {
+    throw new InputError(`${R} realizations × ${T.toLocaleString('en')} targets = ${(R * T).toLocaleString('en')} values, above the memory budget of ${maxValues.toLocaleString('en')} values (${Math.round((maxValues * 4) / 2 ** 20)} MiB)`, [{ field: 'realizations', problem: 'use fewer realizations, a coarser grid or a smaller bbox' }], 'too_many_values');
+  }
+  const plan = prep.plan;
+  const t0 = now();
+  let sim: ConditionalSimulator;
+  try {
+    sim = createConditionalSimulator({ x: plan.x, y: plan.y, z: plan.z, tx, ty, model: plan.variogram!, anisotropy: plan.anisotropy, neighbors: plan.neighbors, maxGlobal: plan.maxGlobal, sampler, latticeKm });
+  } catch (e) {
+    if (e instanceof RangeError) throw new InputError(`simulation cannot be set up: ${e.message}`, [{ field: 'variogram', problem: e.message }], 'simulation_setup');
+    throw e;
+  }
+  const tSetup = now() - t0;
+  const values = new Float32Array(R * T);
+  const t1 = now();
+  sim.run(opts.seed, 0, R, (r, v) => {
+    const base = r * T;
+    if (ns === null) for (let t = 0; t < T; t++) values[base + t] = v[t];
+    else for (let t = 0; t < T; t++) { const g = v[t]; values[base + t] = g === g ? ns.backward(g) : NaN; }
+  });
+  const neighbors = plan.neighbors === Infinity ? 'all' : plan.neighbors;
+  return {
+    values, realizations: R, targets: T, variogram: prep.variogram!, transform: report,
+    sampler: { kind: sim.sampler, method: SAMPLER_METHODS[sim.sampler], ...sim.samplerInfo },
+    crossValidation: prep.crossValidation,
+    conditioning: { neighbors, weights: sim.weights.ids.length },
+    warnings: [...prep.warnings, ...sim.warnings],
+    timingsMs: { ...prep.timingsMs, setup: tSetup, realizations: now() - t1 },
+    units: opts.units ?? '',
+  };
+}
+
+/** Conditional realizations at target points (lon/lat degrees). */
+export function simulateAtPoints(points: PointData, opts: SimulationOptions, targets: { ids: string[]; lon: ArrayLike<number>; lat: ArrayLike<number> }): SimulationResult {
+  for (let i = 0; i < targets.ids.length; i++) {
+    const lon = targets.lon[i], lat = targets.lat[i];
+    if (!(lon >= -180 && lon <= 180 && lat >= -90 && lat <= 90)) throw new InputError(`target ${targets.ids[i]} has coordinates out of range`, [{ feature: targets.ids[i], field: 'geometry', problem: 'expected lon in [-180, 180], lat in [-90, 90]' }], 'invalid_points');
+  }
+  const { prep, ns, report } = prepare(points, opts, false);
+  const T = targets.ids.length;
+  const tx = new Float64Array(T), ty = new Float64Array(T);
+  lonLatToLocalKm(prep.plan.projection, targets.lon, targets.lat, tx, ty);
+  return runAll(prep, ns, opts, tx, ty, opts.sampler ?? 'auto', undefined, report);
+}
+
+/** Conditional realizations on the cells of an output grid (row-major, north row first). */
+export function simulateGrid(points: PointData, opts: SimulationOptions): SimulationResult & { grid: GridSpec; cellKm: number } {
+  const { prep, ns, report } = prepare(points, opts, true);
+  const g = prep.plan.grid;
+  const W = g.width, H = g.height, T = W * H;
+  if (opts.realizations * T > (opts.maxValues ?? 150_000_000)) runAll(prep, ns, opts, new Float64Array(T), new Float64Array(T), 'lattice', 1, report); // throws the budget error
+  const tx = new Float64Array(T), ty = new Float64Array(T);
+  const toLocal = converter(prep.plan.gridCrsDef, prep.plan.projection.def);
+  const rx = new Float64Array(W), ry = new Float64Array(W);
+  for (let r = 0; r < H; r++) {
+    rowCentresLocalKm(g, toLocal, r, rx, ry);
+    tx.set(rx, r * W); ty.set(ry, r * W);
+  }
+  // Lattice spacing: the smallest distance between neighbouring cell centres at the grid's centre (km).
+  const rc = Math.floor(H / 2), cc = Math.floor(W / 2), i0 = rc * W + cc;
+  const sx = W > 1 ? Math.hypot(tx[i0 + (cc + 1 < W ? 1 : -1)] - tx[i0], ty[i0 + (cc + 1 < W ? 1 : -1)] - ty[i0]) : Infinity;
+  const sy = H > 1 ? Math.hypot(tx[i0 + (rc + 1 < H ? W : -W)] - tx[i0], ty[i0 + (rc + 1 < H ? W : -W)] - ty[i0]) : Infinity;
+  const h = Math.min(sx, sy, prep.cellKm > 0 ? prep.cellKm : Infinity);
+  const res = runAll(prep, ns, opts, tx, ty, opts.sampler ?? 'lattice', Number.isFinite(h) ? h : undefined, report);
+  return { ...res, grid: g, cellKm: prep.cellKm };
+}
+
+export interface TargetSummaries {
+  mean: Float32Array;
+  sd: Float32Array;
+  p10: Float32Array;
+  p50: Float32Array;
+  p90: Float32Array;
+}
+
+/**
+ * Per-target mean, sample standard deviation (n − 1) and P10/P50/P90 (Hyndman & Fan 1996 type 7) over the
+ * realizations; NaN where any realization is NaN.
+ */
+export function summarizeTargets(values: Float32Array, R: number, T: number): TargetSummaries {
+  const out: TargetSummaries = { mean: new Float32Array(T), sd: new Float32Array(T), p10: new Float32Array(T), p50: new Float32Array(T), p90: new Float32Array(T) };
+  const buf = new Float64Array(R);
+  for (let t = 0; t < T; t++) {
+    let s = 0, bad = false;
+    for (let r = 0; r < R; r++) { const v = values[r * T + t]; if (v !== v) { bad = true; break; } buf[r] = v; s += v; }
+    if (bad) { out.mean[t] = out.sd[t] = out.p10[t] = out.p50[t] = out.p90[t] = NaN; continue; }
+    const mean = s / R;
+    let ss = 0;
+    for (let r = 0; r < R; r++) ss += (buf[r] - mean) ** 2;
+    buf.sort();
+    out.mean[t] = mean;
+    out.sd[t] = R > 1 ? Math.sqrt(ss / (R - 1)) : NaN;
+    out.p10[t] = quantileSorted(buf, 0, R, 0.1);
+    out.p50[t] = quantileSorted(buf, 0, R, 0.5);
+    out.p90[t] = quantileSorted(buf, 0, R, 0.9);
+  }
+  return out;
+}
