@@ -10,11 +10,14 @@ import type { Store } from './store/types.ts';
 import { TerrainTiles, TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from './terrain.ts';
 import { DEMO_DATASETS, DEMO_PROJECT_ID } from './demo.ts';
 import { startDemoRun } from './demo-run.ts';
-import { resolveLimits, type Limits } from './limits.ts';
+import { limitsView, resolveLimits, type Limits } from './limits.ts';
+import { monitorEventLoopDelay } from 'node:perf_hooks';
+import { ComputePool } from './runs/compute.ts';
+import { HeatJobs } from './runs/heat-jobs.ts';
 import { securityHeaders } from './security.ts';
 import { RunJobs } from './runs/jobs.ts';
 import { RunGridCache } from './runs/grids.ts';
-import { errorBody, type AppContext } from './routes/context.ts';
+import { errorBody, parseTrustedProxies, type AppContext } from './routes/context.ts';
 import { datasetRoutes } from './routes/datasets.ts';
 import { runRoutes } from './routes/runs.ts';
 import { inspectRoutes } from './routes/inspect.ts';
@@ -24,7 +27,6 @@ import { openApiRoutes } from './routes/openapi.ts';
 import { gridTileRoutes } from './routes/grid-tiles.ts';
 import { resourceRoutes } from './routes/resource.ts';
 import { readGeoTiff } from './io/geotiff.ts';
-import type { Grid } from '../shared/grid/grid.ts';
 
 export interface AppOptions {
   store: Store;
@@ -39,6 +41,20 @@ export interface AppOptions {
   accessLog?: ((line: string) => void) | null;
   /** Start the demo project's default run in the background (what `subtherm serve` does unless SUBTHERM_DEMO_RUN=0). */
   demoRun?: boolean;
+  /**
+   * The URL the server is reached at from outside (e.g. https://maps.example.org/subtherm), used where a response
+   * must carry an absolute URL (tile templates). Default SUBTHERM_PUBLIC_URL, else URLs stay relative to the page.
+   * Never taken from the request's Host header.
+   */
+  publicBaseUrl?: string | null;
+  /** Reverse proxies whose X-Forwarded-For is believed (default SUBTHERM_TRUSTED_PROXIES, comma-separated). */
+  trustedProxies?: string[];
+}
+
+/** True for SQLite's "database or disk is full" (SQLITE_FULL) and the file system's "no space left" (ENOSPC). */
+export function isStorageFull(err: unknown): boolean {
+  const e = err as { code?: unknown; message?: unknown } | null;
+  return e !== null && typeof e === 'object' && (e.code === 'SQLITE_FULL' || e.code === 'ENOSPC' || (typeof e.message === 'string' && /database or disk is full/.test(e.message)));
 }
 
 /** The default run worker module. */
@@ -60,15 +76,45 @@ const CONTENT_TYPES: Record<string, string> = {
  * Builds the Hono app (testable in-process with `app.request`). The returned app carries its run job system
  * (`app.jobs`): call `app.jobs.close()` to stop the worker pool.
  */
-export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Limits } {
+export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Limits; close: () => Promise<void> } {
   const app = new Hono();
   const limits = resolveLimits(opts.limits);
   const workerFile = opts.runWorkerFile ?? RUN_WORKER_FILE;
   const jobs = new RunJobs({ store: opts.store, workerFile, concurrency: limits.runConcurrency, maxQueuedPerClient: limits.maxQueuedRunsPerClient });
-  const ctx: AppContext = { store: opts.store, limits, jobs, grids: new RunGridCache(opts.store), workerFile };
+  const compute = {
+    interactive: new ComputePool({ name: 'column and section', threads: 1, maxQueue: limits.maxComputeQueue, deadlineLimit: 'computeDeadlineSeconds' }),
+    jobs: new ComputePool({ name: 'heat-in-place', threads: 1, maxQueue: limits.maxHeatInPlaceJobsServer, deadlineLimit: 'heatInPlaceDeadlineSeconds' }),
+  };
+  const heatJobs = new HeatJobs({
+    pool: compute.jobs,
+    concurrency: 1,
+    deadlineMs: limits.heatInPlaceDeadlineSeconds * 1000,
+    maxPerClient: limits.maxHeatInPlaceJobsPerClient,
+    maxServer: limits.maxHeatInPlaceJobsServer,
+  });
+  const trustedProxies = parseTrustedProxies((opts.trustedProxies ?? []).join(',') || process.env.SUBTHERM_TRUSTED_PROXIES);
+  const ctx: AppContext = { store: opts.store, limits, jobs, grids: new RunGridCache(opts.store), workerFile, compute, heatJobs, trustedProxies };
+  const publicBase = (opts.publicBaseUrl !== undefined ? opts.publicBaseUrl : process.env.SUBTHERM_PUBLIC_URL ?? null)?.replace(/\/+$/, '') ?? null;
+  if (publicBase !== null && !/^https?:\/\/[^/?#\s]+(\/[^?#\s]*)?$/.test(publicBase)) throw new RangeError(`the public base URL must be http(s)://host[/path], got ${publicBase}`);
+  // Event-loop delay (Node's histogram, 10 ms resolution), reported by /api/health over a rolling window.
+  const loopDelay = monitorEventLoopDelay({ resolution: 10 });
+  loopDelay.enable();
+  let loopWindowStart = Date.now();
+  let lastWindow: { p50: number; p99: number; max: number } | null = null;
+  const loopTimer = setInterval(() => {
+    lastWindow = { p50: loopDelay.percentile(50) / 1e6, p99: loopDelay.percentile(99) / 1e6, max: loopDelay.max / 1e6 };
+    loopDelay.reset();
+    loopWindowStart = Date.now();
+  }, 60_000);
+  loopTimer.unref();
   const accessLog = opts.accessLog !== undefined ? opts.accessLog : process.env.SUBTHERM_ACCESS_LOG === '1' ? (l: string) => process.stdout.write(l + '\n') : null;
 
   app.onError((err, c) => {
+    if (isStorageFull(err)) {
+      // Each write is one transaction, so nothing was half written; reads go on being served.
+      console.error(`[${new Date().toISOString()}] ${c.req.method} ${new URL(c.req.url).pathname}: storage full (${(err as Error).message})`);
+      return c.json(errorBody('insufficient_storage', 'the server has no room left to store this (its disk or database is full); nothing was saved. Reading works as before; tell the operator.'), 507);
+    }
     if (err instanceof InputError) {
       const headers: Record<string, string> = err.status === 401 ? { 'www-authenticate': 'Bearer realm="subtherm project"' } : {};
       return c.json(errorBody(err.code, err.message, err.details), err.status as 400, headers);
@@ -86,6 +132,17 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     });
   }
   app.use('*', securityHeaders());
+  // A path with malformed percent-encoding (e.g. /%E0%A4%A) cannot name anything: 400 before any route sees it.
+  app.use('*', async (c, next) => {
+    const raw = c.req.url;
+    const path = raw.slice(raw.indexOf('/', raw.indexOf('//') + 2)).split('?')[0];
+    try {
+      decodeURIComponent(path);
+    } catch {
+      return c.json(errorBody('bad_url', 'the URL has malformed percent-encoding', [{ field: 'path', problem: 'each % must be followed by two hex digits forming valid UTF-8' }]), 400);
+    }
+    await next();
+  });
   app.use(
     '/api/*',
     bodyLimit({
@@ -95,7 +152,20 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     }),
   );
 
-  app.get('/api/health', (c) => c.json({ ok: true, version: VERSION }));
+  app.get('/api/health', (c) => {
+    const ms = (ns: number) => Math.round((ns / 1e6) * 100) / 100;
+    const current = { p50: ms(loopDelay.percentile(50)), p99: ms(loopDelay.percentile(99)), max: ms(loopDelay.max) };
+    return c.json({
+      ok: true,
+      version: VERSION,
+      // Delay of the request thread's event loop since the window began (the previous full minute beside it).
+      eventLoopDelayMs: { ...current, windowStartedAt: new Date(loopWindowStart).toISOString(), previousMinute: lastWindow },
+      runs: jobs.counts(),
+      computeTasks: { interactive: compute.interactive.load(), heatInPlace: heatJobs.inFlight() },
+    });
+  });
+
+  app.get('/api/limits', (c) => c.json(limitsView(limits)));
 
   app.get('/api/config', (c) =>
     c.json({
@@ -149,6 +219,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   app.route(
     '/api',
     gridTileRoutes({
+      publicBaseUrl: publicBase,
       loadLayerGrid: async (runId, layer) => {
         const file = opts.store.getRunFile(runId, layer, 'tif');
         if (!file) return null;
@@ -156,21 +227,8 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
       },
     }),
   );
-  // Heat in place over a finished run's grids and model.
-  app.route(
-    '/api',
-    resourceRoutes({
-      loadRunGrids: async (runId) => {
-        const run = /^[A-Za-z0-9_-]{1,100}$/.test(runId) ? opts.store.getRun(runId) : null;
-        if (!run || run.status !== 'done') return null;
-        const heat = await ctx.grids.get(runId, 'heatFlow');
-        if (!heat) return null;
-        const sd = await ctx.grids.get(runId, 'heatFlowSd');
-        const model = run.model ?? null;
-        return { heatFlow: heat.grid as Grid<Float32Array>, heatFlowSd: sd?.grid, model };
-      },
-    }),
-  );
+  // Heat in place over a finished run: jobs on the worker pool.
+  resourceRoutes(app, ctx);
 
   app.all('/api/*', (c) => c.json(errorBody('not_found', `no such API route: ${c.req.method} ${new URL(c.req.url).pathname}`), 404));
 
@@ -192,5 +250,11 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
 
   if (opts.demoRun) startDemoRun(ctx);
 
-  return Object.assign(app, { jobs, limits });
+  /** Stops the run pool, the compute pools and the event-loop monitor. */
+  const close = async () => {
+    clearInterval(loopTimer);
+    loopDelay.disable();
+    await Promise.all([jobs.close(), compute.interactive.close(), compute.jobs.close()]);
+  };
+  return Object.assign(app, { jobs, limits, close });
 }

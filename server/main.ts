@@ -4,6 +4,7 @@ import { join } from 'node:path';
 import type { AddressInfo } from 'node:net';
 import { createApp } from './app.ts';
 import { SqliteStore } from './store/sqlite.ts';
+import { InputError } from '../shared/errors.ts';
 import { DEMO_TERRAIN, loadDemo } from './demo.ts';
 import { loadDem, TerrainTiles } from './terrain.ts';
 
@@ -19,6 +20,38 @@ export interface ServerOptions {
   log?: (line: string) => void;
   /** Run the demo project's default run on start (default: unless SUBTHERM_DEMO_RUN=0). */
   demoRun?: boolean;
+  /** Public base URL for absolute URLs in responses (default SUBTHERM_PUBLIC_URL; see AppOptions). */
+  publicBaseUrl?: string;
+}
+
+/**
+ * Opens the database, turning the faults an operator can fix (a read-only file or folder, a path that cannot be
+ * created, a full disk) into a plain message naming the path and what to do, instead of an internal error.
+ */
+export function openStore(dbPath: string): SqliteStore {
+  let store: SqliteStore | null = null;
+  try {
+    store = new SqliteStore(dbPath);
+    // A read-only file opens fine and fails on the first write: write once now (loading the demo on first start).
+    store.db.exec('CREATE TABLE IF NOT EXISTS startup_probe (x INTEGER); DROP TABLE startup_probe;');
+    loadDemo(store);
+    return store;
+  } catch (e) {
+    store?.close();
+    const code = (e as { code?: string }).code ?? '';
+    const msg = (e as Error).message ?? String(e);
+    if (/READONLY|CANTOPEN|PERM|AUTH/.test(code) || /EACCES|EROFS|EPERM/.test(code) || /readonly|read-only|unable to open/i.test(msg)) {
+      throw new InputError(
+        `cannot write the database ${dbPath} (${msg}). The server needs to create and write this file and its folder (it keeps -wal and -shm files beside it): make them writable by this user, or give another path with --db or SUBTHERM_DB.`,
+        [{ field: 'db', problem: `${dbPath} is not writable` }],
+        'database_read_only',
+      );
+    }
+    if (/FULL/.test(code) || /ENOSPC/.test(code)) {
+      throw new InputError(`the disk holding the database ${dbPath} is full: free some space, or give another path with --db or SUBTHERM_DB.`, [{ field: 'db', problem: 'disk full' }], 'database_disk_full');
+    }
+    throw e;
+  }
 }
 
 /** Builds the web client with Vite (client/vite.config.ts) into client/dist. */
@@ -32,23 +65,22 @@ export async function buildClient(log: (line: string) => void = () => {}): Promi
 export async function startServer(opts: ServerOptions) {
   const log = opts.log ?? ((l: string) => process.stdout.write(l + '\n'));
   if (opts.buildClient && !existsSync(join(CLIENT_DIST, 'index.html'))) await buildClient(log);
-  const store = new SqliteStore(opts.dbPath);
-  loadDemo(store);
+  const store = openStore(opts.dbPath);
   const terrain = new TerrainTiles(await loadDem(DEMO_TERRAIN));
   // The demo project's default run starts in the background unless SUBTHERM_DEMO_RUN=0.
   const demoRun = opts.demoRun ?? process.env.SUBTHERM_DEMO_RUN !== '0';
-  const app = createApp({ store, terrain, clientDir: existsSync(join(CLIENT_DIST, 'index.html')) ? CLIENT_DIST : null, demoRun });
+  const app = createApp({ store, terrain, clientDir: existsSync(join(CLIENT_DIST, 'index.html')) ? CLIENT_DIST : null, demoRun, publicBaseUrl: opts.publicBaseUrl });
+  const host = opts.host ?? '127.0.0.1';
   const server = await new Promise<ReturnType<typeof serve>>((resolve) => {
-    const s = serve({ fetch: app.fetch, port: opts.port, hostname: opts.host ?? '0.0.0.0' }, () => resolve(s));
+    const s = serve({ fetch: app.fetch, port: opts.port, hostname: host }, () => resolve(s));
   });
   const port = (server.address() as AddressInfo).port;
-  log(`subtherm listening on http://localhost:${port} (database ${opts.dbPath})`);
-  const close = () =>
-    new Promise<void>((resolve) => {
-      server.close(() => {
-        store.close();
-        resolve();
-      });
-    });
+  const shown = host === '0.0.0.0' || host === '::' ? 'localhost' : host.includes(':') ? `[${host}]` : host;
+  log(`subtherm listening on http://${shown}:${port} (database ${opts.dbPath})${host === '127.0.0.1' || host === 'localhost' || host === '::1' ? '; this machine only (--host 0.0.0.0 serves the network)' : ''}`);
+  const close = async () => {
+    await app.close();
+    await new Promise<void>((resolve) => server.close(() => resolve()));
+    store.close();
+  };
   return { app, port, close, store };
 }

@@ -5,6 +5,8 @@ import { InputError } from '../../shared/errors.ts';
 import type { Limits } from '../limits.ts';
 import type { RunJobs } from '../runs/jobs.ts';
 import type { RunGridCache } from '../runs/grids.ts';
+import type { ComputePool } from '../runs/compute.ts';
+import type { HeatJobs } from '../runs/heat-jobs.ts';
 import type { Store } from '../store/types.ts';
 import { jsonDepthExceeds } from './schemas.ts';
 
@@ -15,6 +17,11 @@ export interface AppContext {
   grids: RunGridCache;
   /** Absolute path of the run worker module. */
   workerFile: string;
+  /** Worker pools: `interactive` for column bands and sections, `jobs` for heat-in-place jobs. */
+  compute: { interactive: ComputePool; jobs: ComputePool };
+  heatJobs: HeatJobs;
+  /** Peer addresses of reverse proxies whose X-Forwarded-For is believed (empty: none). */
+  trustedProxies: ReadonlySet<string>;
 }
 
 /** Errors under /api/ are always `{ error: { code, message, details } }`. */
@@ -54,18 +61,39 @@ export async function jsonBody(c: Context): Promise<unknown> {
   return parseJsonText(text);
 }
 
-/** Requires a JSON media type (or none) on a JSON route. */
+/**
+ * Requires a JSON media type on a mutating or heavy JSON route. A missing type is refused too: a page on another
+ * site can send text/plain, form types or no type at all without asking, but never application/json.
+ */
 export function requireJsonType(c: Context): void {
   const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
-  if (type !== '' && type !== 'application/json' && !type.endsWith('+json')) {
-    throw new InputError(`expected a JSON body (content-type application/json), got ${type}`, [{ field: 'content-type', problem: `unsupported: ${type}` }], 'unsupported_media_type', 415);
+  if (type !== 'application/json' && !(type.startsWith('application/') && type.endsWith('+json'))) {
+    const got = type === '' ? 'no content-type' : type;
+    throw new InputError(`expected a JSON body (content-type application/json), got ${got}`, [{ field: 'content-type', problem: `unsupported: ${got}; send application/json` }], 'unsupported_media_type', 415);
   }
 }
 
-/** The client's address for per-client limits: the socket's peer (proxy headers are not trusted). */
-export function clientAddress(c: Context): string {
+/**
+ * The client's address for per-client limits and fairness: the socket's peer, or, when the peer is one of the
+ * operator's listed proxies, the nearest X-Forwarded-For address that is not itself a listed proxy.
+ */
+export function clientAddress(c: Context, trustedProxies: ReadonlySet<string> = new Set()): string {
   const incoming = (c.env as { incoming?: IncomingMessage } | undefined)?.incoming;
-  return incoming?.socket?.remoteAddress ?? 'local';
+  const peer = incoming?.socket?.remoteAddress ?? 'local';
+  if (!trustedProxies.has(peer)) return peer;
+  const chain = (c.req.header('x-forwarded-for') ?? '').split(',').map((s) => s.trim()).filter((s) => s !== '');
+  for (let i = chain.length - 1; i >= 0; i--) if (!trustedProxies.has(chain[i])) return chain[i].slice(0, 100);
+  return peer;
+}
+
+/** Proxy addresses from SUBTHERM_TRUSTED_PROXIES (comma-separated; IPv4 also matched in its ::ffff: form). */
+export function parseTrustedProxies(raw: string | undefined): Set<string> {
+  const out = new Set<string>();
+  for (const a of (raw ?? '').split(',').map((s) => s.trim()).filter((s) => s !== '')) {
+    out.add(a);
+    if (/^\d+\.\d+\.\d+\.\d+$/.test(a)) out.add(`::ffff:${a}`);
+  }
+  return out;
 }
 
 export function notFound(what: string, id: string, code: string): InputError {

@@ -12,6 +12,8 @@ const MAX_ZOOM = 13;
 export interface GridTileDeps {
   /** The full-resolution lon/lat grid of one run layer, or null when the run or layer does not exist. */
   loadLayerGrid(runId: string, layer: string): Promise<Grid<Float32Array> | null>;
+  /** The operator's public base URL (no trailing slash); null keeps tile URLs relative to the page. */
+  publicBaseUrl?: string | null;
 }
 
 /**
@@ -57,7 +59,8 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
     const m = /^(.+)\.json$/.exec(c.req.param('file'));
     if (!m) throw new InputError('expected /api/runs/:id/tiles/:layer.json', [{ field: 'path', problem: c.req.param('file') }], 'not_found', 404);
     const { tiles, units } = await tilesFor(c.req.param('id'), m[1]);
-    const origin = new URL(c.req.url).origin;
+    // Absolute only from the operator's public base URL; otherwise relative to the page (never the Host header).
+    const origin = deps.publicBaseUrl ?? '';
     return c.json({
       tiles: [`${origin}/api/runs/${encodeURIComponent(c.req.param('id'))}/tiles/${encodeURIComponent(m[1])}/{z}/{x}/{y}.png`],
       bounds: tiles.bbox,

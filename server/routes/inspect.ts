@@ -3,15 +3,13 @@ import type { Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
 import type { RunRequest } from '../../shared/schema/run.ts';
-import { computeColumn } from '../runs/column.ts';
+import { computeColumn, type ColumnQuery } from '../runs/column.ts';
 import { sampleAtLonLat, type RunGrid } from '../runs/grids.ts';
 import { modelFromJson } from '../runs/model-input.ts';
-import { computeSection, linesOf, type LineFeature } from '../runs/section.ts';
 import type { RunRecord } from '../store/types.ts';
 import { jsonBody, notFound, requireJsonType, type AppContext } from './context.ts';
 import { columnAtRunSchema, columnOfModelSchema, parseWith, sectionSchema } from './schemas.ts';
-import { parseFeatureCollection } from '../../shared/schema/features.ts';
-import { applyLayerOverride, overrideRegionAt, overrideRegions } from '../../shared/products/overrides.ts';
+import { modelZones, type ModelAt } from '../runs/zones.ts';
 
 /** Realizations of the column band for a run with realizations (seeded by the run's seed). */
 export const COLUMN_BAND_REALIZATIONS = 200;
@@ -35,26 +33,26 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
   };
 
   /**
-   * The model of a run at a point: the run's model, or inside one of its regions with `layers` the overridden model
-   * (the later region wins where they overlap, as in the run's grids), keyed by the region's label.
+   * The model of a run at a point (server/runs/zones.ts). The parsed regions are kept per run and regions content
+   * hash, so a click does not parse the run's regions again (a large region set took seconds each time).
    */
-  const runZones = (run: RunRecord): ((lon: number, lat: number) => { key: string; model: ThermalModelInput; region: string | null }) => {
-    const base = runModel(run);
+  const zoneCache = new Map<string, ModelAt>();
+  const runZones = (run: RunRecord): ModelAt => {
     const regionsId = (run.request as RunRequest).regions;
-    const baseZone = { key: 'model', model: base, region: null };
-    if (regionsId === undefined) return () => baseZone;
-    const rec = ctx.store.getDataset(regionsId);
-    if (!rec) throw new InputError(`the regions data set ${regionsId} of run ${run.id} is gone`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found', 404);
-    const { regions } = overrideRegions(parseFeatureCollection('regions', JSON.parse(rec.body)).collection.features as { geometry: unknown; properties?: Record<string, unknown> }[]);
-    const models = new Map<number, ThermalModelInput>();
-    return (lon, lat) => {
-      const k = overrideRegionAt(regions, lon, lat);
-      if (k < 0) return baseZone;
-      let m = models.get(k);
-      if (!m) models.set(k, (m = applyLayerOverride(base, regions[k].override)));
-      return { key: regions[k].label, model: m, region: regions[k].label };
-    };
+    const rec = regionsId === undefined ? null : ctx.store.getDataset(regionsId);
+    if (regionsId !== undefined && !rec) throw new InputError(`the regions data set ${regionsId} of run ${run.id} is gone`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found', 404);
+    const key = `${run.id}\u0000${rec?.contentHash ?? ''}`;
+    const hit = zoneCache.get(key);
+    if (hit) return hit;
+    const at = modelZones(runModel(run), rec?.body ?? null);
+    zoneCache.set(key, at);
+    while (zoneCache.size > 16) zoneCache.delete(zoneCache.keys().next().value as string);
+    return at;
   };
+  const deadlineMs = ctx.limits.computeDeadlineSeconds * 1000;
+  /** A column with a Monte Carlo band goes to the worker pool; a plain one (bounded layers and samples) is cheap. */
+  const column = async (query: ColumnQuery): Promise<Record<string, unknown>> =>
+    query.realizations > 0 ? await ctx.compute.interactive.run<Record<string, unknown>>({ kind: 'column', query }, deadlineMs) : computeColumn(query);
 
   app.post('/api/column', async (c) => {
     requireJsonType(c);
@@ -72,7 +70,7 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
       const s = sd ? sampleAtLonLat(sd, q.lon, q.lat) : NaN;
       const realizations = (req.realizations ?? 0) > 0 ? COLUMN_BAND_REALIZATIONS : 0;
       const here = runZones(run)(q.lon, q.lat);
-      const out = computeColumn({
+      const out = await column({
         model: here.model,
         heatFlowMWm2: q0,
         heatFlowSdMWm2: Number.isFinite(s) ? s : undefined,
@@ -96,7 +94,7 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
     } else {
       model = modelFromJson(q.model, 'model').model;
     }
-    const out = computeColumn({
+    const out = await column({
       model,
       heatFlowMWm2: q.heatFlowMWm2,
       heatFlowSdMWm2: q.heatFlowSdMWm2,
@@ -115,37 +113,25 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
     const q = parseWith(sectionSchema, await jsonBody(c), 'section request', 'invalid_section');
     const { run, heat } = await doneRun(q.runId);
     const req = run.request as RunRequest;
-    const faults: LineFeature[] = [];
-    if (req.faults !== undefined) {
-      const rec = ctx.store.getDataset(req.faults);
-      if (rec) for (const f of (JSON.parse(rec.body) as { features: { id?: string; geometry: unknown; properties: Record<string, unknown> }[] }).features) {
-        faults.push({ id: f.id ?? (f.properties.id as string | undefined), properties: pick(f.properties, ['id', 'name', 'kind', 'dipDeg', 'dipDirectionDeg']), lines: linesOf(f.geometry) });
-      }
-    }
-    const isograds: LineFeature[] = [];
+    const faultsRec = req.faults !== undefined ? ctx.store.getDataset(req.faults) : null;
     const iso = ctx.store.getRunFile(run.id, 'isograds', 'geojson');
-    if (iso) {
-      try {
-        const fc = JSON.parse(new TextDecoder().decode(iso.bytes)) as { features?: { id?: string; geometry: unknown; properties?: Record<string, unknown> }[] };
-        for (const f of fc.features ?? []) isograds.push({ id: f.id, properties: f.properties ?? {}, lines: linesOf(f.geometry) });
-      } catch {
-        // A run's own layer that does not parse is a server fault; the section is still useful without it.
-        console.error(`[${new Date().toISOString()}] run ${run.id}: isograds layer is not valid GeoJSON`);
-      }
-    }
-    const modelAt = runZones(run);
-    const out = computeSection({
-      heatFlow: heat,
-      model: runModel(run),
-      modelAt: (run.request as RunRequest).regions !== undefined ? modelAt : undefined,
-      line: q.line,
-      maxDepthKm: q.maxDepthKm,
-      samples: q.samples,
-      depthSamples: q.depthSamples,
-      isothermsC: req.isothermsC ?? [300, 500],
-      faults,
-      isograds,
-    });
+    const regionsRec = req.regions !== undefined ? ctx.store.getDataset(req.regions) : null;
+    const out = await ctx.compute.interactive.run<Record<string, unknown>>(
+      {
+        kind: 'section',
+        heatFlow: heat.grid,
+        model: runModel(run),
+        regionsBody: regionsRec?.body ?? null,
+        faultsBody: faultsRec?.body ?? null,
+        isogradsText: iso ? new TextDecoder().decode(iso.bytes) : null,
+        line: q.line,
+        maxDepthKm: q.maxDepthKm,
+        samples: q.samples,
+        depthSamples: q.depthSamples,
+        isothermsC: req.isothermsC ?? [300, 500],
+      },
+      deadlineMs,
+    );
     return c.json({ runId: run.id, ...out });
   });
 }
@@ -154,8 +140,4 @@ function checkSamples(maxDepthKm: number, stepKm: number): void {
   if (maxDepthKm / stepKm > 3000) {
     throw new InputError(`too many depth samples: maxDepthKm / stepKm = ${Math.ceil(maxDepthKm / stepKm)} (limit 3000)`, [{ field: 'stepKm', problem: 'use a larger step' }], 'invalid_column', 422);
   }
-}
-
-function pick(o: Record<string, unknown>, keys: string[]): Record<string, unknown> {
-  return Object.fromEntries(keys.filter((k) => o[k] !== undefined).map((k) => [k, o[k]]));
 }

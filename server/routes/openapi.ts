@@ -49,7 +49,8 @@ export function openApiDocument(): unknown {
       securitySchemes: { editToken: { type: 'http', scheme: 'bearer', description: 'the editToken returned by POST /api/projects' } },
     },
     paths: {
-      '/api/health': { get: op('server health and version') },
+      '/api/health': { get: op('server health and version; eventLoopDelayMs { p50, p99, max } of the request thread (Node event-loop delay histogram, current window), runs and compute tasks in flight') },
+      '/api/limits': { get: op('every server limit { name, value, units, env } and the thermal-model bounds (layers, name length, plausible ranges with their sources)') },
       '/api/config': { get: op('caution text, demo data set ids, terrain tile source') },
       '/api/openapi.json': { get: op('this document') },
       '/api/datasets': {
@@ -71,7 +72,17 @@ export function openApiDocument(): unknown {
       '/api/runs/{id}/layers/{file}': { get: op('a layer file: <name>.tif | .png | .geojson | .csv', { params: ['id', 'file'], okType: 'application/octet-stream', errors: [400, 404] }) },
       '/api/runs/{id}/tiles/{layer}.json': { get: op('raster-dem source description of a raster layer', { params: ['id', 'layer'], errors: [400, 404, 422] }) },
       '/api/runs/{id}/tiles/{layer}/{z}/{x}/{y}.png': { get: op('raster-dem tile of a raster layer', { params: ['id', 'layer', 'z', 'x', 'y'], okType: 'image/png', errors: [400, 404] }) },
-      '/api/runs/{id}/heat-in-place': { post: op('heat-in-place report over a finished run', { params: ['id'], body: { type: 'object', properties: { polygon: {}, zones: {}, zoneProperty: { type: 'string' }, options: { type: 'object' } } }, errors: [400, 404, 422] }) },
+      '/api/runs/{id}/heat-in-place': {
+        post: op('queue a heat-in-place job over a finished run (application/json only) → 202 { jobId, runId, status, position, url, links: { json, html, csv } }', {
+          params: ['id'],
+          body: { type: 'object', additionalProperties: false, properties: { polygon: { description: 'GeoJSON Polygon/MultiPolygon, Feature or FeatureCollection' }, zones: { description: 'FeatureCollection of region polygons' }, zoneProperty: { type: 'string' }, options: { type: 'object', description: 'depth window, minimum temperature, recovery, efficiencies (numbers or distributions), realizations, seed: as the CLI takes' } } },
+          ok: '202',
+          errors: [400, 404, 409, 415, 422, 429, 503],
+        }),
+      },
+      '/api/runs/{id}/heat-in-place/{jobId}': { get: op('the job: 202 { jobId, status: queued|running, position } until done, then the report (the CLI heat-in-place --json object); a failed job answers its error (422 deadline_exceeded names heatInPlaceDeadlineSeconds)', { params: ['id', 'jobId'], errors: [400, 404, 422, 500] }) },
+      '/api/runs/{id}/heat-in-place/{jobId}.html': { get: op('the job\'s printable HTML report (rendered once, when the job ran)', { params: ['id', 'jobId'], okType: 'text/html', errors: [404, 422] }) },
+      '/api/runs/{id}/heat-in-place/{jobId}.csv': { get: op('the job\'s CSV totals, leading # caution line', { params: ['id', 'jobId'], okType: 'text/csv', errors: [404, 422] }) },
       '/api/column': {
         post: op('geotherm column at a point of a run, or of a model at a heat flow', { body: { oneOf: [json(columnAtRunSchema), json(columnOfModelSchema)] }, errors: [400, 404, 409, 415, 422] }),
       },

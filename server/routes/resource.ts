@@ -1,43 +1,23 @@
 /**
- * HTTP routes of the heat-in-place assessment, as a Hono sub-app to mount at /api:
- *   POST /runs/:runId/heat-in-place            body { polygon?, zones?, zoneProperty?, options? } → the JSON report
- *                                              (shared/resource/assess.ts) plus `links` to the exports below
- *   GET  /runs/:runId/heat-in-place.html?request=…   the printable HTML report
- *   GET  /runs/:runId/heat-in-place.csv?request=…    the CSV totals (leading `# caution` line)
- *   GET  /runs/:runId/heat-in-place.json?request=…   the JSON report
- * `request` is the POST body as base64url JSON, so a link reproduces the same seeded result on any later visit.
- * polygon: a GeoJSON Polygon/MultiPolygon, Feature or FeatureCollection (drawn on the map or uploaded); zones: a
- * FeatureCollection of region polygons named by `zoneProperty`; options: shared/resource/schema.ts (defaults of
- * SOURCES.md). Errors are `{ error: { code, message, details } }`, 4xx for the caller's fault.
+ * Heat in place over a finished run, as a job on the worker pool (never on the request thread):
+ *   POST /api/runs/:runId/heat-in-place            JSON body { polygon?, zones?, zoneProperty?, options? }
+ *                                                   → 202 { jobId, status, position, url, links }
+ *   GET  /api/runs/:runId/heat-in-place/:jobId       the report (the CLI's `heat-in-place --json` object) once done;
+ *                                                   202 with the job's status while queued or running
+ *   GET  /api/runs/:runId/heat-in-place/:jobId.html  the printable HTML report
+ *   GET  /api/runs/:runId/heat-in-place/:jobId.csv   the CSV totals (leading `# caution` line)
+ * The three exports are rendered once, when the job runs, and served as kept. polygon: a GeoJSON Polygon or
+ * MultiPolygon, Feature or FeatureCollection; zones: a FeatureCollection of region polygons named by
+ * `zoneProperty`; options: shared/resource/schema.ts (numbers or distributions, as the CLI takes). Every bound
+ * (vertices, realizations, cells × realizations, jobs in flight) is checked before the job is queued.
  */
-import { Hono } from 'hono';
+import type { Hono } from 'hono';
 import { z } from 'zod';
 import { InputError } from '../../shared/errors.ts';
-import type { Grid } from '../../shared/grid/grid.ts';
-import {
-  assessHeatInPlace,
-  parseAreaPolygon,
-  parseHeatInPlaceOptions,
-  parseZonePolygons,
-  polygonsOf,
-  reportCsv,
-  zonesFromPolygons,
-  type AreaGeometry,
-  type HeatInPlaceResult,
-} from '../../shared/resource/index.ts';
-import { parseThermalModel } from '../../shared/schema/model.ts';
-import { gridGeometry, outlineInGrid, resultHtml } from '../io/resource-output.ts';
-
-type AnyGrid = Grid<Float32Array | Float64Array>;
-
-export interface ResourceRouteDeps {
-  /** The grids and the validated model JSON of a finished run, or null when there is no such run. */
-  loadRunGrids(runId: string): Promise<{ heatFlow: AnyGrid; heatFlowSd?: AnyGrid; model: unknown } | null>;
-  /** Most realizations one request may ask for (default 2000): the work runs on the request's thread. */
-  maxRealizations?: number;
-  /** Most cells × realizations one request may ask for (default 2×10⁸). */
-  maxCellRealizations?: number;
-}
+import { parseAreaPolygon, parseHeatInPlaceOptions, parseZonePolygons } from '../../shared/resource/index.ts';
+import type { HeatJob } from '../runs/heat-jobs.ts';
+import { clientAddress, errorBody, jsonBody, requireJsonType, type AppContext } from './context.ts';
+import { idSchema } from './schemas.ts';
 
 const bodySchema = z
   .object({
@@ -48,100 +28,119 @@ const bodySchema = z
   })
   .strict();
 
-type Body = z.infer<typeof bodySchema>;
-
-function parseBody(raw: unknown): Body {
-  const r = bodySchema.safeParse(raw);
-  if (!r.success) {
-    const details = r.error.issues.map((i) => ({ field: i.path.map(String).join('.') || '(body)', problem: i.message }));
-    throw new InputError(`bad heat-in-place request: ${details.map((d) => `${d.field}: ${d.problem}`).join('; ')}`, details, 'invalid_request');
-  }
-  return r.data;
-}
-
-/** base64url of a JSON value (RFC 4648 §5), and back. */
-export function encodeRequest(body: unknown): string {
-  return Buffer.from(JSON.stringify(body), 'utf8').toString('base64url');
-}
-
-function decodeRequest(s: string | undefined): unknown {
-  if (s === undefined || s === '') return {};
-  try {
-    return JSON.parse(Buffer.from(s, 'base64url').toString('utf8'));
-  } catch {
-    throw new InputError('the request parameter is not base64url JSON', [{ field: 'request', problem: 'expected the POST body as base64url-encoded JSON' }], 'invalid_request');
-  }
-}
-
-/** Builds the sub-app; mount it with `app.route('/api', resourceRoutes(deps))`. */
-export function resourceRoutes(deps: ResourceRouteDeps): Hono {
-  const app = new Hono();
-  const maxR = deps.maxRealizations ?? 2000;
-  const maxWork = deps.maxCellRealizations ?? 2e8;
-
-  app.onError((err, c) => {
-    if (err instanceof InputError) return c.json({ error: { code: err.code, message: err.message, details: err.details } }, err.status as 400);
-    console.error(`[${new Date().toISOString()}] ${c.req.method} ${new URL(c.req.url).pathname}: ${err.stack ?? err.message}`);
-    return c.json({ error: { code: 'internal', message: 'internal server error', details: [] } }, 500);
-  });
-
-  async function run(runId: string, body: Body): Promise<{ res: HeatInPlaceResult; polygon?: AreaGeometry; toGrid?: (lon: number, lat: number) => [number, number] }> {
-    const grids = await deps.loadRunGrids(runId);
-    if (grids === null) throw new InputError(`no finished run with id "${runId}"`, [{ field: 'runId', problem: 'not found, or the run has not finished' }], 'not_found', 404);
-    const options = parseHeatInPlaceOptions(body.options ?? {}, 'options');
-    if (options.realizations > maxR) throw new InputError(`at most ${maxR} realizations per request`, [{ field: 'options.realizations', problem: `got ${options.realizations}; use the CLI for larger runs` }], 'over_limit', 422);
-    const cells = grids.heatFlow.width * grids.heatFlow.height;
-    if (cells * Math.max(1, options.realizations) > maxWork) throw new InputError('the run is too large for one request', [{ field: 'options.realizations', problem: `${cells} cells × ${options.realizations} realizations exceeds ${maxWork}` }], 'over_limit', 422);
-    const model = parseThermalModel(grids.model, 'run model');
-    const polygon = body.polygon !== undefined ? parseAreaPolygon(body.polygon, 'polygon') : undefined;
-    const regions = body.zones !== undefined ? parseZonePolygons(body.zones, body.zoneProperty, 'zones') : undefined;
-    const geo = await gridGeometry(grids.heatFlow, polygon !== undefined || regions !== undefined);
-    const zones = regions !== undefined ? { ...zonesFromPolygons(grids.heatFlow, regions.map((r) => ({ name: r.name, polygons: polygonsOf(r.geometry) })), geo.centresLonLat), source: 'polygons' } : undefined;
-    const label = (body.polygon as { properties?: { name?: unknown } } | undefined)?.properties?.name;
-    const res = assessHeatInPlace({
-      heatFlow: grids.heatFlow,
-      heatFlowSd: grids.heatFlowSd,
-      model,
-      polygon,
-      polygonLabel: typeof label === 'string' ? label : undefined,
-      zones,
-      centresLonLat: geo.centresLonLat,
-      metresPerUnit: geo.metresPerUnit,
-      options,
-      inputHashes: { run: runId },
-    });
-    return { res, polygon, toGrid: geo.toGrid };
-  }
-
-  app.post('/runs/:runId/heat-in-place', async (c) => {
-    let raw: unknown;
-    try {
-      raw = await c.req.json();
-    } catch {
-      throw new InputError('the request body is not JSON', [{ field: '(body)', problem: 'expected a JSON object' }], 'invalid_request');
+/** Number of coordinate pairs anywhere inside a GeoJSON value (counted without building anything). */
+export function countVertices(v: unknown, stopAt = Infinity): number {
+  let n = 0;
+  const walk = (x: unknown): void => {
+    if (n > stopAt || x === null || typeof x !== 'object') return;
+    if (Array.isArray(x)) {
+      if (x.length >= 2 && typeof x[0] === 'number' && typeof x[1] === 'number') {
+        n++;
+        return;
+      }
+      for (const e of x) walk(e);
+      return;
     }
-    const body = parseBody(raw);
+    for (const e of Object.values(x)) walk(e);
+  };
+  walk(v);
+  return n;
+}
+
+function jobView(runId: string, job: HeatJob, position: number) {
+  const url = `/api/runs/${encodeURIComponent(runId)}/heat-in-place/${job.id}`;
+  return {
+    jobId: job.id,
+    runId,
+    status: job.status,
+    position,
+    createdAt: job.createdAt,
+    finishedAt: job.finishedAt,
+    url,
+    links: { json: url, html: `${url}.html`, csv: `${url}.csv` },
+  };
+}
+
+export function resourceRoutes(app: Hono, ctx: AppContext): void {
+  const L = ctx.limits;
+
+  app.post('/api/runs/:runId/heat-in-place', async (c) => {
+    requireJsonType(c);
+    const raw = await jsonBody(c);
+    const parsed = bodySchema.safeParse(raw);
+    if (!parsed.success) {
+      const details = parsed.error.issues.map((i) => ({ field: i.path.map(String).join('.') || '(body)', problem: i.message }));
+      throw new InputError(`bad heat-in-place request: ${details.map((d) => `${d.field}: ${d.problem}`).join('; ')}`, details, 'invalid_request', 422);
+    }
+    const body = parsed.data;
+    const vertices = countVertices(body.polygon, L.maxPolygonVertices) + countVertices(body.zones, L.maxPolygonVertices);
+    if (vertices > L.maxPolygonVertices) {
+      throw new InputError(
+        `the polygons have more than ${L.maxPolygonVertices} vertices (limit maxPolygonVertices): simplify them first`,
+        [{ field: body.polygon !== undefined ? 'polygon' : 'zones', problem: `more than ${L.maxPolygonVertices} vertices (limit maxPolygonVertices = ${L.maxPolygonVertices})` }],
+        'over_limit',
+        422,
+      );
+    }
     const runId = c.req.param('runId');
-    const { res } = await run(runId, body);
-    const q = encodeRequest(body);
-    const base = `/api/runs/${encodeURIComponent(runId)}/heat-in-place`;
-    return c.json({ ...res.report, links: { html: `${base}.html?request=${q}`, csv: `${base}.csv?request=${q}`, json: `${base}.json?request=${q}` } });
+    const id = idSchema.safeParse(runId);
+    const run = id.success ? ctx.store.getRun(id.data) : null;
+    if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found', 404);
+    if (run.status !== 'done') throw new InputError(`run ${run.id} is ${run.status}: heat in place needs a finished run`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done', 409);
+    // Everything the caller can get wrong is checked now (bounded above, so cheap), not in the job.
+    const options = parseHeatInPlaceOptions(body.options ?? {}, 'options');
+    if (body.polygon !== undefined) parseAreaPolygon(body.polygon, 'polygon');
+    if (body.zones !== undefined) parseZonePolygons(body.zones, body.zoneProperty, 'zones');
+    if (options.realizations > L.maxHeatInPlaceRealizations) {
+      throw new InputError(
+        `at most ${L.maxHeatInPlaceRealizations} realizations per heat-in-place job (limit maxHeatInPlaceRealizations), got ${options.realizations}`,
+        [{ field: 'options.realizations', problem: `${options.realizations} > maxHeatInPlaceRealizations = ${L.maxHeatInPlaceRealizations}; use the CLI for larger runs` }],
+        'over_limit',
+        422,
+      );
+    }
+    const heat = await ctx.grids.get(run.id, 'heatFlow');
+    if (!heat) throw new InputError(`run ${run.id} stored no heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid', 409);
+    const sd = await ctx.grids.get(run.id, 'heatFlowSd');
+    const cells = heat.grid.width * heat.grid.height;
+    const work = cells * Math.max(1, options.realizations);
+    if (work > L.maxHeatInPlaceCellRealizations) {
+      throw new InputError(
+        `${cells} cells × ${options.realizations} realizations = ${work} is over the limit maxHeatInPlaceCellRealizations = ${L.maxHeatInPlaceCellRealizations}: ask for fewer realizations`,
+        [{ field: 'options.realizations', problem: `cells × realizations = ${work} > maxHeatInPlaceCellRealizations = ${L.maxHeatInPlaceCellRealizations}` }],
+        'over_limit',
+        422,
+      );
+    }
+    const job = ctx.heatJobs.submit({
+      runId: run.id,
+      client: clientAddress(c, ctx.trustedProxies),
+      work,
+      task: { kind: 'heat-in-place', runId: run.id, heatFlow: heat.grid, heatFlowSd: sd?.grid ?? null, model: run.model, body },
+    });
+    return c.json(jobView(run.id, job, ctx.heatJobs.position(job)), 202, { location: `/api/runs/${encodeURIComponent(run.id)}/heat-in-place/${job.id}` });
   });
 
-  app.get('/runs/:runId/heat-in-place.html', async (c) => {
-    const { res, polygon, toGrid } = await run(c.req.param('runId'), parseBody(decodeRequest(c.req.query('request'))));
-    return c.body(resultHtml(res, outlineInGrid(polygon, toGrid)), 200, { 'content-type': 'text/html; charset=utf-8' });
+  app.get('/api/runs/:runId/heat-in-place/:file', (c) => {
+    const runId = c.req.param('runId');
+    const m = /^(hip_[A-Za-z0-9_-]{1,64})(?:\.(html|csv|json))?$/.exec(c.req.param('file'));
+    const job = m ? ctx.heatJobs.get(runId, m[1]) : null;
+    if (!m || !job) {
+      throw new InputError(
+        `no heat-in-place job "${c.req.param('file')}" for run "${runId}" (jobs are kept for a day, and not across a server restart: POST again, the result is seeded)`,
+        [{ field: 'jobId', problem: 'not found' }],
+        'job_not_found',
+        404,
+      );
+    }
+    if (job.status === 'queued' || job.status === 'running') return c.json(jobView(runId, job, ctx.heatJobs.position(job)), 202, { 'retry-after': '1' });
+    if (job.status === 'failed' || job.output === null) {
+      const e = job.error ?? { code: 'internal', message: 'the job failed', details: [], status: 500 };
+      return c.json({ ...errorBody(e.code, e.message, e.details), job: jobView(runId, job, 0) }, e.status as 400);
+    }
+    const out = job.output;
+    if (m[2] === 'html') return c.body(out.html, 200, { 'content-type': 'text/html; charset=utf-8', 'cache-control': 'private, max-age=86400' });
+    if (m[2] === 'csv') return c.body(out.csv, 200, { 'content-type': 'text/csv; charset=utf-8', 'content-disposition': `attachment; filename="heat-in-place-${job.id}.csv"`, 'cache-control': 'private, max-age=86400' });
+    return c.json(out.report as Record<string, unknown>, 200, { 'cache-control': 'private, max-age=86400' });
   });
-
-  app.get('/runs/:runId/heat-in-place.csv', async (c) => {
-    const { res } = await run(c.req.param('runId'), parseBody(decodeRequest(c.req.query('request'))));
-    return c.body(reportCsv(res.report), 200, { 'content-type': 'text/csv; charset=utf-8', 'content-disposition': 'attachment; filename="heat-in-place.csv"' });
-  });
-
-  app.get('/runs/:runId/heat-in-place.json', async (c) => {
-    const { res } = await run(c.req.param('runId'), parseBody(decodeRequest(c.req.query('request'))));
-    return c.json(res.report);
-  });
-
-  return app;
 }

@@ -33,19 +33,26 @@ export class RunGridCache {
     const stored = this.store.getRunGrid(runId, name);
     let out: RunGrid | null = null;
     if (stored) {
-      const grid: Grid<Float32Array> = { ...stored.meta, values: stored.values };
-      let fromLonLat: RunGrid['fromLonLat'] = (lon, lat) => [lon, lat];
-      if (!WGS84.test(grid.crs.trim())) {
-        const conv = proj4('EPSG:4326', await loadCrsDefinition(grid.crs));
-        fromLonLat = (lon, lat) => conv.forward([lon, lat]) as [number, number];
-      }
-      out = { grid, fromLonLat };
+      // Values live in shared memory, so handing a grid to a worker thread (sections, heat in place) copies nothing.
+      const values = new Float32Array(new SharedArrayBuffer(stored.values.byteLength));
+      values.set(stored.values);
+      out = await runGridOf({ ...stored.meta, values });
     }
     if (out === null) return null; // not cached: the run may still be storing its grids
     this.cache.set(key, out);
     while (this.cache.size > this.capacity) this.cache.delete(this.cache.keys().next().value as string);
     return out;
   }
+}
+
+/** A grid with its WGS84 → grid-CRS converter (the CRS definition comes from the offline EPSG index). */
+export async function runGridOf(grid: Grid<Float32Array>): Promise<RunGrid> {
+  let fromLonLat: RunGrid['fromLonLat'] = (lon, lat) => [lon, lat];
+  if (!WGS84.test(grid.crs.trim())) {
+    const conv = proj4('EPSG:4326', await loadCrsDefinition(grid.crs));
+    fromLonLat = (lon, lat) => conv.forward([lon, lat]) as [number, number];
+  }
+  return { grid, fromLonLat };
 }
 
 /** Bilinear value of a run grid at WGS84 lon/lat (NaN outside the grid or next to no-data cells). */

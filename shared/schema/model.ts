@@ -8,6 +8,33 @@ import { InputError, type InputProblem } from '../errors.ts';
 
 const finite = z.number({ error: 'expected a finite number' });
 
+/**
+ * Bounds of a thermal model: sizes that keep one column's work small, and the plausible range of each physical
+ * parameter (a value outside is a mistake of units or a typo, e.g. conductivity 1e-308 or a bottom at 1e308 km).
+ * A fixed value and the whole support of a bounded distribution must lie inside; a normal distribution's mean
+ * must (its tails are cut per realization by the physical checks of the Monte Carlo).
+ */
+export const MODEL_BOUNDS = {
+  /** Layers in one model (a column's work grows with the square of the layer count). */
+  maxLayers: 100,
+  /** Characters in a model or layer name. */
+  maxNameChars: 200,
+  ranges: {
+    conductivityWmK: { min: 0.1, max: 10, units: 'W/m/K', source: 'Clauser & Huenges (1995), Thermal conductivity of rocks and minerals (AGU Reference Shelf 3): rocks and rock-forming minerals lie within about 0.1–10 W/m/K (from memory)' },
+    heatProductionUWm3: { min: 0, max: 100, units: 'µW/m³', source: 'Rybach (1976); common practice: crustal rocks 0–10 µW/m³, the most radioactive granites some tens' },
+    densityKgM3: { min: 1000, max: 4000, units: 'kg/m³', source: 'common practice: water-saturated sediment (about 1500) to eclogite and mantle rock (about 3300–3600)' },
+    bottomKm: { min: 0, max: 700, units: 'km', source: 'common practice: the model ends above the base of the upper mantle (the 660 km discontinuity)' },
+    heatProductionDecayKm: { min: 0, max: 1000, units: 'km', source: 'Lachenbruch (1970): D about 10 km; larger values are nearly constant heat production' },
+    surfaceTemperatureC: { min: -60, max: 60, units: '°C', source: 'common practice: mean annual ground-surface temperatures on Earth' },
+    surfaceHeatFlowMWm2: { min: 0, max: 2000, units: 'mW/m²', source: 'common practice: continental mean about 65 mW/m²; active hydrothermal areas reach several hundred' },
+    uraniumPpm: { min: 0, max: 1000, units: 'ppm', source: 'common practice: crustal rocks 0.1–20 ppm, uranium-rich granites up to hundreds' },
+    thoriumPpm: { min: 0, max: 2000, units: 'ppm', source: 'common practice: crustal rocks 0.5–80 ppm' },
+    potassiumPct: { min: 0, max: 20, units: '%', source: 'common practice: crustal rocks 0–8 % K, K-feldspar about 14 %' },
+  },
+} as const;
+
+type RangedField = keyof typeof MODEL_BOUNDS.ranges;
+
 export const distributionSchema = z.discriminatedUnion('dist', [
   z.object({ dist: z.literal('normal'), mean: finite, sd: finite.min(0, 'sd must be ≥ 0') }).strict(),
   z
@@ -28,7 +55,7 @@ export type UncertainNumber = z.infer<typeof uncertainNumberSchema>;
 
 export const thermalLayerSchema = z
   .object({
-    name: z.string().optional(),
+    name: z.string().max(MODEL_BOUNDS.maxNameChars, `a layer name has at most ${MODEL_BOUNDS.maxNameChars} characters`).optional(),
     /** Bottom of the layer, km below the surface; strictly increasing down the stack. */
     bottomKm: finite.gt(0, 'bottomKm must be > 0'),
     /** k0 in k(T) = k0/(1 + bT), W/m/K. */
@@ -51,11 +78,14 @@ export const thermalLayerSchema = z
 export const thermalModelSchema = z
   .object({
     /** A label for the model (shown in reports and provenance). */
-    name: z.string().max(200).optional(),
+    name: z.string().max(MODEL_BOUNDS.maxNameChars, `a model name has at most ${MODEL_BOUNDS.maxNameChars} characters`).optional(),
     description: z.string().max(2000).optional(),
     surfaceTemperatureC: uncertainNumberSchema,
     surfaceHeatFlowMWm2: uncertainNumberSchema.optional(),
-    layers: z.array(thermalLayerSchema).min(1, 'at least one layer is needed'),
+    layers: z
+      .array(thermalLayerSchema)
+      .min(1, 'at least one layer is needed')
+      .max(MODEL_BOUNDS.maxLayers, `at most ${MODEL_BOUNDS.maxLayers} layers per model (limit maxLayers)`),
   })
   .strict();
 
@@ -92,6 +122,29 @@ export function checkThermalModel(m: ThermalModelInput): InputProblem[] {
     const ok = allowZero ? lo >= 0 : lo > 0;
     if (!ok) out.push({ feature: i === null ? 'model' : where(i), field, problem: `must be ${allowZero ? '≥ 0' : '> 0'}, got ${lo}` });
   };
+  // Plausible physical ranges (MODEL_BOUNDS.ranges, each with its source).
+  const inRange = (i: number | null, field: RangedField, v: Num) => {
+    const s = support(v);
+    if (s === null || v === undefined) return;
+    const r = MODEL_BOUNDS.ranges[field];
+    const [lo, hi] = typeof v !== 'number' && v.dist === 'normal' ? [v.mean, v.mean] : s;
+    if (lo < r.min || hi > r.max) {
+      const got = lo === hi ? String(lo) : `${lo}…${hi}`;
+      out.push({ feature: i === null ? 'model' : where(i), field, problem: `outside the plausible range ${r.min}–${r.max} ${r.units} (${r.source}), got ${got}` });
+    }
+  };
+  inRange(null, 'surfaceTemperatureC', m.surfaceTemperatureC);
+  inRange(null, 'surfaceHeatFlowMWm2', m.surfaceHeatFlowMWm2);
+  m.layers.forEach((l, i) => {
+    inRange(i, 'bottomKm', l.bottomKm);
+    inRange(i, 'conductivityWmK', l.conductivityWmK);
+    inRange(i, 'heatProductionUWm3', l.heatProductionUWm3);
+    inRange(i, 'densityKgM3', l.densityKgM3);
+    inRange(i, 'heatProductionDecayKm', l.heatProductionDecayKm);
+    inRange(i, 'uraniumPpm', l.uraniumPpm);
+    inRange(i, 'thoriumPpm', l.thoriumPpm);
+    inRange(i, 'potassiumPct', l.potassiumPct);
+  });
   if (m.surfaceHeatFlowMWm2 !== undefined) positive(null, 'surfaceHeatFlowMWm2', m.surfaceHeatFlowMWm2, false);
   let prev = 0;
   m.layers.forEach((l, i) => {

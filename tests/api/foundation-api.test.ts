@@ -29,7 +29,11 @@ describe('foundation API', () => {
   it('reports health with the package version', async () => {
     const res = await app.request('/api/health');
     expect(res.status).toBe(200);
-    expect(await res.json()).toEqual({ ok: true, version: VERSION });
+    const h = (await res.json()) as { ok: boolean; version: string; eventLoopDelayMs: { p50: number; p99: number; max: number } };
+    expect(h).toMatchObject({ ok: true, version: VERSION });
+    // Event-loop delay from Node's histogram, in ms: p50 ≤ p99 ≤ max, all finite and ≥ 0.
+    const d = h.eventLoopDelayMs;
+    expect(d.p50 >= 0 && d.p50 <= d.p99 && d.p99 <= d.max + 1e-9 && Number.isFinite(d.max)).toBe(true);
     expect(VERSION).toBe(pkg.version);
   });
 

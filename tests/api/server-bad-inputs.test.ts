@@ -204,7 +204,7 @@ beforeAll(async () => {
   ({ id: projectId, editToken: token } = (await res.json()) as { id: string; editToken: string });
 });
 afterAll(async () => {
-  await app.jobs.close();
+  await app.close();
   store.close();
   rmSync(dir, { recursive: true, force: true });
 });

@@ -75,7 +75,7 @@ beforeAll(async () => {
 }, 60_000);
 
 afterAll(async () => {
-  await app.jobs.close();
+  await app.close();
   store.close();
   rmSync(dir, { recursive: true, force: true });
 });
@@ -139,7 +139,7 @@ describe('data sets', () => {
     const big = { ...EQ_SITES, padding: 'x'.repeat(3000) };
     const e = await errorOf(await small.request('/api/datasets?kind=sites', json(big)), 413, 'body_too_large');
     expect(e.message).toContain('2000 bytes');
-    await small.jobs.close();
+    await small.close();
   });
 });
 
@@ -263,7 +263,7 @@ describe('runs', () => {
   it('answers 503 when the server has no run worker', async () => {
     const none = createApp({ store, terrain: null, clientDir: null, runWorkerFile: join(dir, 'missing-worker.ts') });
     await errorOf(await none.request('/api/runs', json({ sites: 'demo-sites', model: 'demo-model', seed: 999 })), 503, 'runs_unavailable');
-    await none.jobs.close();
+    await none.close();
   });
 });
 
@@ -347,7 +347,7 @@ describe('runs stored by another server', () => {
     const r = (await (await restarted.request('/api/runs/run_orphan')).json()) as { status: string; message: string };
     expect(r.status).toBe('failed');
     expect(r.message).toContain('server stopped');
-    await restarted.jobs.close();
+    await restarted.close();
     // A closed job system takes no more runs.
     await errorOf(await restarted.request('/api/runs', json({ sites: 'demo-sites', model: 'demo-model', seed: 77 })), 503, 'shutting_down');
   });

@@ -53,7 +53,15 @@ describe('runs with the real pipeline', () => {
     expect(tile.headers.get('content-type')).toBe('image/png');
     expect((await app.request(`/api/runs/${runId}/tiles/no-such-layer.json`)).status).toBe(404);
     const hip = await post(`/api/runs/${runId}/heat-in-place`, { options: { realizations: 0 } });
-    expect(hip.status).toBe(200);
+    expect(hip.status).toBe(202);
+    const { url } = (await hip.json()) as { url: string };
+    let report: Response = await app.request(url);
+    for (let i = 0; i < 1500 && report.status === 202; i++) {
+      await new Promise((res) => setTimeout(res, 20));
+      report = await app.request(url);
+    }
+    expect(report.status).toBe(200);
+    expect(((await report.json()) as { area: string }).area).toBe('grid');
     expect((await post('/api/runs/run_nope/heat-in-place', {})).status).toBe(404);
   });
 

@@ -27,7 +27,7 @@ describe('the demo project on first start', () => {
   it('finds the finished run again on the next start instead of recomputing it', async () => {
     const { startDemoRun } = await import('../../server/demo-run.ts');
     const before = ((await (await t.app.request('/api/projects/demo')).json()) as { state: { runId: string }; revision: number });
-    const ctx = { store: t.store, limits: t.app.limits, jobs: t.app.jobs, grids: null as never, workerFile: (await import('../../server/app.ts')).RUN_WORKER_FILE };
+    const ctx = { store: t.store, limits: t.app.limits, jobs: t.app.jobs, grids: null as never, compute: null as never, heatJobs: null as never, trustedProxies: new Set<string>(), workerFile: (await import('../../server/app.ts')).RUN_WORKER_FILE };
     expect(startDemoRun(ctx)).toBe(before.state.runId);
     const after = ((await (await t.app.request('/api/projects/demo')).json()) as { revision: number });
     expect(after.revision).toBe(before.revision);

@@ -70,6 +70,6 @@ const full = await timeIt('project save (PUT), synchronous = FULL', 300, put);
 store.db.pragma('synchronous = NORMAL');
 const normal = await timeIt('project save (PUT), synchronous = NORMAL', 300, put);
 console.log(`save cost of FULL over NORMAL: ${(full / normal).toFixed(2)}×`);
-await app.jobs.close();
+await app.close();
 store.close();
 rmSync(dir, { recursive: true, force: true });

@@ -36,7 +36,7 @@ export function startTestApp(prefix: string, opts: Partial<AppOptions> = {}): Te
     post,
     waitEnd,
     close: async () => {
-      await app.jobs.close();
+      await app.close();
       store.close();
       rmSync(dir, { recursive: true, force: true });
     },

@@ -1,4 +1,4 @@
-import { afterAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
 import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -6,7 +6,7 @@ import { kmFromLonLat, trueHeatFlowMWm2 } from '../../fixtures/field.ts';
 import { writeGeoTiff } from '../../server/io/geotiff.ts';
 import { heatInPlace } from '../../server/cli/heat-in-place.ts';
 import { InputError } from '../../shared/errors.ts';
-import { encodeRequest, resourceRoutes } from '../../server/routes/resource.ts';
+import { startTestApp, type TestApp } from '../helpers/app.ts';
 import { CAUTION } from '../../shared/caution.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
 
@@ -102,38 +102,63 @@ describe('subtherm heat-in-place', () => {
   });
 });
 
-describe('heat-in-place routes', () => {
+describe('heat-in-place job routes', () => {
   const model = JSON.parse(readFileSync(modelPath, 'utf8'));
-  const app = resourceRoutes({ loadRunGrids: async (id) => (id === 'run-1' ? { heatFlow: hf, heatFlowSd: sd, model } : null) });
+  let t: TestApp;
+  beforeAll(() => {
+    t = startTestApp('hip');
+    // A finished run holding the same grids and model the CLI reads from files.
+    const now = new Date().toISOString();
+    t.store.putRun({ id: 'run_hip', cacheKey: 'hip', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model, grids: [], client: 'test', createdAt: now, updatedAt: now });
+    const meta = (g: Grid) => ({ width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: 'mW/m²' });
+    t.store.storeRunResult('run_hip', { files: [], grids: [{ name: 'heatFlow', meta: meta(hf), values: hf.values as Float32Array }, { name: 'heatFlowSd', meta: meta(sd), values: sd.values as Float32Array }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
+  });
+  afterAll(async () => await t?.close());
+  const waitJob = async (url: string): Promise<Response> => {
+    for (let i = 0; i < 1500; i++) {
+      const r = await t.app.request(url);
+      if (r.status !== 202) return r;
+      await new Promise((res) => setTimeout(res, 20));
+    }
+    throw new Error(`job ${url} did not finish`);
+  };
 
-  it('POST returns the report with links that reproduce it', async () => {
-    const body = { polygon, options: { realizations: 20, seed: 2 } };
-    const res = await app.request('/runs/run-1/heat-in-place', { method: 'POST', body: JSON.stringify(body), headers: { 'content-type': 'application/json' } });
-    expect(res.status).toBe(200);
-    const j = await res.json();
-    expect(j.links.html).toBe(`/api/runs/run-1/heat-in-place.html?request=${encodeRequest(body)}`);
-    const again = await app.request(j.links.json.replace('/api', ''));
-    const k = await again.json();
-    expect(k.electricMWe).toEqual(j.electricMWe);
-    const page = await app.request(j.links.html.replace('/api', ''));
+  it('POST queues a job (202); its JSON equals the CLI on the same inputs and seed; HTML and CSV come from the same job', async () => {
+    const body = { polygon, options: { realizations: 40, seed: 5 } };
+    const res = await t.post('/api/runs/run_hip/heat-in-place', body);
+    expect(res.status).toBe(202);
+    const j = (await res.json()) as { jobId: string; status: string; url: string; links: Record<string, string> };
+    expect(j.jobId).toMatch(/^hip_/);
+    expect(j.links).toEqual({ json: j.url, html: `${j.url}.html`, csv: `${j.url}.csv` });
+    // The links never repeat the request.
+    expect(JSON.stringify(j).length).toBeLessThan(600);
+    const done = await waitJob(j.url);
+    expect(done.status).toBe(200);
+    const report = (await done.json()) as Record<string, unknown>;
+    // Reference: the CLI (`subtherm heat-in-place --json`) on the same grids, model, polygon and seed.
+    const cli = run(['--heat-flow', hfPath, '--heat-flow-sd', sdPath, '--model', modelPath, '--polygon', polyPath, '--realizations', '40', '--seed', '5', '--json']);
+    expect(cli.code).toBe(0);
+    const ref = JSON.parse(cli.out) as Record<string, unknown>;
+    for (const k of ['cells', 'areaKm2', 'heatInPlaceJ', 'electricMWe', 'monteCarlo', 'method']) expect(report[k]).toEqual(ref[k]);
+    const page = await t.app.request(j.links.html);
     expect(page.headers.get('content-type')).toMatch(/text\/html/);
     expect(await page.text()).toContain('&lt;b&gt;Rift&lt;/b&gt;');
-    const csv = await app.request(j.links.csv.replace('/api', ''));
+    const csv = await t.app.request(j.links.csv);
     expect((await csv.text()).startsWith('# caution: ')).toBe(true);
-  });
+  }, 60_000);
 
-  it('answers 4xx JSON errors for bad input and unknown runs', async () => {
-    const post = (id: string, body: unknown) => app.request(`/runs/${id}/heat-in-place`, { method: 'POST', body: JSON.stringify(body), headers: { 'content-type': 'application/json' } });
-    const a = await post('run-1', { options: { recoveryFactor: 2 } });
+  it('answers 4xx JSON errors before queuing: bad options, polygons, unknown runs and jobs, and non-JSON bodies', async () => {
+    const a = await t.post('/api/runs/run_hip/heat-in-place', { options: { recoveryFactor: 2 } });
     expect(a.status).toBe(400);
-    expect((await a.json()).error.details[0].field).toBe('recoveryFactor');
-    const b = await post('nope', {});
-    expect(b.status).toBe(404);
-    const c = await post('run-1', { polygon: { type: 'Point', coordinates: [0, 0] } });
-    expect(c.status).toBe(400);
-    const d = await post('run-1', { options: { realizations: 5000 } });
-    expect(d.status).toBe(422);
-    const e = await app.request('/runs/run-1/heat-in-place.html?request=%%%');
-    expect(e.status).toBe(400);
+    expect(((await a.json()) as { error: { details: { field: string }[] } }).error.details[0].field).toBe('recoveryFactor');
+    expect((await t.post('/api/runs/nope/heat-in-place', {})).status).toBe(404);
+    expect((await t.post('/api/runs/run_hip/heat-in-place', { polygon: { type: 'Point', coordinates: [0, 0] } })).status).toBe(400);
+    expect((await t.app.request('/api/runs/run_hip/heat-in-place/hip_unknown')).status).toBe(404);
+    // A page on another site can send text/plain or a form without asking: refused.
+    const plain = await t.app.request('/api/runs/run_hip/heat-in-place', { method: 'POST', headers: { 'content-type': 'text/plain' }, body: '{}' });
+    expect(plain.status).toBe(415);
+    expect((await t.app.request('/api/runs/run_hip/heat-in-place', { method: 'POST', body: '{}' })).status).toBe(415);
+    // No GET form of the computation.
+    expect((await t.app.request('/api/runs/run_hip/heat-in-place.html?request=e30')).status).toBe(404);
   });
 });

@@ -1,0 +1,140 @@
+/**
+ * Worker side of the compute pools (server/runs/compute.ts): one function per kind of task. Grids arrive with
+ * their values in shared memory (no copy); bodies of data sets arrive as text and are parsed here, off the request
+ * thread. An InputError becomes `{ ok: false, error }` so its code, status and details survive the thread boundary.
+ */
+import { InputError, type InputProblem } from '../../shared/errors.ts';
+import type { Grid } from '../../shared/grid/grid.ts';
+import {
+  assessHeatInPlace,
+  parseAreaPolygon,
+  parseHeatInPlaceOptions,
+  parseZonePolygons,
+  polygonsOf,
+  reportCsv,
+  zonesFromPolygons,
+} from '../../shared/resource/index.ts';
+import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
+import { gridGeometry, outlineInGrid, resultHtml } from '../io/resource-output.ts';
+import { computeColumn, type ColumnQuery } from '../runs/column.ts';
+import { runGridOf } from '../runs/grids.ts';
+import { computeSection, linesOf, type LineFeature } from '../runs/section.ts';
+import { modelZones } from '../runs/zones.ts';
+
+export interface SectionTask {
+  kind: 'section';
+  heatFlow: Grid<Float32Array>;
+  model: ThermalModelInput;
+  /** The run's regions data set (GeoJSON text) when it has one. */
+  regionsBody: string | null;
+  faultsBody: string | null;
+  isogradsText: string | null;
+  line: [number, number][];
+  maxDepthKm: number;
+  samples: number;
+  depthSamples: number;
+  isothermsC: number[];
+}
+
+export interface HeatInPlaceBody {
+  polygon?: unknown;
+  zones?: unknown;
+  zoneProperty?: string;
+  options?: Record<string, unknown>;
+}
+
+export interface HeatInPlaceTask {
+  kind: 'heat-in-place';
+  runId: string;
+  heatFlow: Grid<Float32Array>;
+  heatFlowSd: Grid<Float32Array> | null;
+  model: unknown;
+  body: HeatInPlaceBody;
+}
+
+export type ComputeTask = { kind: 'column'; query: ColumnQuery } | SectionTask | HeatInPlaceTask;
+
+export type ComputeReply = { ok: true; value: unknown } | { ok: false; error: { code: string; message: string; details: InputProblem[]; status: number } };
+
+/** What a heat-in-place job keeps: the CLI's JSON report and both exports, rendered once. */
+export interface HeatInPlaceOutput {
+  report: unknown;
+  html: string;
+  csv: string;
+}
+
+export default async function compute(task: ComputeTask): Promise<ComputeReply> {
+  try {
+    switch (task.kind) {
+      case 'column':
+        return { ok: true, value: computeColumn(task.query) };
+      case 'section':
+        return { ok: true, value: await section(task) };
+      case 'heat-in-place':
+        return { ok: true, value: await heatInPlace(task) };
+    }
+  } catch (e) {
+    if (e instanceof InputError) return { ok: false, error: { code: e.code, message: e.message, details: e.details, status: e.status } };
+    throw e;
+  }
+}
+
+function pick(o: Record<string, unknown>, keys: string[]): Record<string, unknown> {
+  return Object.fromEntries(keys.filter((k) => o[k] !== undefined).map((k) => [k, o[k]]));
+}
+
+async function section(t: SectionTask): Promise<Record<string, unknown>> {
+  const faults: LineFeature[] = [];
+  if (t.faultsBody !== null) {
+    for (const f of (JSON.parse(t.faultsBody) as { features: { id?: string; geometry: unknown; properties: Record<string, unknown> }[] }).features) {
+      faults.push({ id: f.id ?? (f.properties.id as string | undefined), properties: pick(f.properties, ['id', 'name', 'kind', 'dipDeg', 'dipDirectionDeg']), lines: linesOf(f.geometry) });
+    }
+  }
+  const isograds: LineFeature[] = [];
+  if (t.isogradsText !== null) {
+    try {
+      const fc = JSON.parse(t.isogradsText) as { features?: { id?: string; geometry: unknown; properties?: Record<string, unknown> }[] };
+      for (const f of fc.features ?? []) isograds.push({ id: f.id, properties: f.properties ?? {}, lines: linesOf(f.geometry) });
+    } catch {
+      // A run's own layer that does not parse is a server fault; the section is still useful without it.
+      console.error(`[${new Date().toISOString()}] a run's isograds layer is not valid GeoJSON`);
+    }
+  }
+  return computeSection({
+    heatFlow: await runGridOf(t.heatFlow),
+    model: t.model,
+    modelAt: t.regionsBody !== null ? modelZones(t.model, t.regionsBody) : undefined,
+    line: t.line,
+    maxDepthKm: t.maxDepthKm,
+    samples: t.samples,
+    depthSamples: t.depthSamples,
+    isothermsC: t.isothermsC,
+    faults,
+    isograds,
+  });
+}
+
+async function heatInPlace(t: HeatInPlaceTask): Promise<HeatInPlaceOutput> {
+  const body = t.body;
+  const options = parseHeatInPlaceOptions(body.options ?? {}, 'options');
+  const model = parseThermalModel(t.model, 'run model');
+  const polygon = body.polygon !== undefined ? parseAreaPolygon(body.polygon, 'polygon') : undefined;
+  const regions = body.zones !== undefined ? parseZonePolygons(body.zones, body.zoneProperty, 'zones') : undefined;
+  const geo = await gridGeometry(t.heatFlow, polygon !== undefined || regions !== undefined);
+  const zones = regions !== undefined ? { ...zonesFromPolygons(t.heatFlow, regions.map((r) => ({ name: r.name, polygons: polygonsOf(r.geometry) })), geo.centresLonLat), source: 'polygons' } : undefined;
+  const label = (body.polygon as { properties?: { name?: unknown } } | undefined)?.properties?.name;
+  const res = assessHeatInPlace({
+    heatFlow: t.heatFlow,
+    heatFlowSd: t.heatFlowSd ?? undefined,
+    model,
+    modelLabel: model.name,
+    polygon,
+    polygonLabel: typeof label === 'string' ? label : undefined,
+    zones,
+    centresLonLat: geo.centresLonLat,
+    metresPerUnit: geo.metresPerUnit,
+    options,
+    inputHashes: { run: t.runId },
+  });
+  return { report: res.report, html: resultHtml(res, outlineInGrid(polygon, geo.toGrid)), csv: reportCsv(res.report) };
+}
