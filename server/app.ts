@@ -23,6 +23,7 @@ import { runRoutes } from './routes/runs.ts';
 import { inspectRoutes } from './routes/inspect.ts';
 import { projectRoutes } from './routes/projects.ts';
 import { projectDatasetRoutes } from './routes/project-datasets.ts';
+import { uncertaintyRoutes } from './routes/uncertainty.ts';
 import { openApiRoutes } from './routes/openapi.ts';
 import { gridTileRoutes } from './routes/grid-tiles.ts';
 import { resourceRoutes } from './routes/resource.ts';
@@ -215,6 +216,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   inspectRoutes(app, ctx);
   projectRoutes(app, ctx);
   projectDatasetRoutes(app, ctx);
+  uncertaintyRoutes(app, ctx);
   // Raster-dem tiles of a run's raster layers, decoded from the layer's stored GeoTIFF (the full-resolution grid).
   app.route(
     '/api',

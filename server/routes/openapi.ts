@@ -83,6 +83,16 @@ export function openApiDocument(): unknown {
       '/api/runs/{id}/heat-in-place/{jobId}': { get: op('the job: 202 { jobId, status: queued|running, position } until done, then the report (the CLI heat-in-place --json object); a failed job answers its error (422 deadline_exceeded names heatInPlaceDeadlineSeconds)', { params: ['id', 'jobId'], errors: [400, 404, 422, 500] }) },
       '/api/runs/{id}/heat-in-place/{jobId}.html': { get: op('the job\'s printable HTML report (rendered once, when the job ran)', { params: ['id', 'jobId'], okType: 'text/html', errors: [404, 422] }) },
       '/api/runs/{id}/heat-in-place/{jobId}.csv': { get: op('the job\'s CSV totals, leading # caution line', { params: ['id', 'jobId'], okType: 'text/csv', errors: [404, 422] }) },
+      '/api/runs/{id}/spread': {
+        get: op('spread (P90 − P10, km) of the depth to an isotherm over the run\'s realizations: the layer with urls and tiles', { params: ['id'], query: { isothermC: 'isotherm, °C (required)' }, errors: [400, 404, 409] }),
+      },
+      '/api/runs/{id}/probability': {
+        get: op('probability layer (0–1) from the run\'s realizations: isothermC + shallowerThanKm (depth to the isotherm shallower than that depth), or depthKm + exceedsC (temperature at the depth above that value)', {
+          params: ['id'],
+          query: { isothermC: 'isotherm, °C', shallowerThanKm: 'depth, km (with isothermC)', depthKm: 'depth, km (with exceedsC)', exceedsC: 'temperature, °C (with depthKm)' },
+          errors: [400, 404, 409],
+        }),
+      },
       '/api/column': {
         post: op('geotherm column at a point of a run, or of a model at a heat flow', { body: { oneOf: [json(columnAtRunSchema), json(columnOfModelSchema)] }, errors: [400, 404, 409, 415, 422] }),
       },

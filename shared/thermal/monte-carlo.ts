@@ -209,7 +209,7 @@ export function prepareGridMonteCarlo(spec: GridMonteCarloSpec): PreparedGridMon
 }
 
 /** Standard normal for (seed, realization, cell) from two keyed uniforms (Box–Muller); independent of tiling. */
-function cellNormal(seed: number, r: number, c: number): number {
+export function cellNormal(seed: number, r: number, c: number): number {
   const u1 = hashUniform(seed, r, c, 1);
   const u2 = hashUniform(seed, r, c, 2);
   return Math.sqrt(-2 * Math.log(u1)) * Math.cos(2 * Math.PI * u2);

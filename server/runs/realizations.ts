@@ -1,0 +1,158 @@
+/**
+ * A run's realizations: the one interface through which everything that needs the run's uncertainty reads it (the
+ * spread and exceedance-probability layers, heat in place from a run). Realization r is the pair the run's own
+ * P10/P50/P90 maps were computed from (shared/products/uncertainty.ts → prepareGridMonteCarlo): the model
+ * parameters drawn from stream (seed, r), one draw per zone model in zone order, and the heat-flow field
+ * q + sd·z with z the stream's next standard normal ("full" correlation) or a normal keyed by (seed, r, cell)
+ * ("independent"). Reading them here reproduces the run's percentile maps exactly.
+ *
+ * `loadRunRealizations` reads the run's stored grids and model; `realizationsFromGrids` builds the same from grids
+ * in memory. A later source (e.g. conditional simulation of the heat-flow field) replaces `heatFlowAt` and the
+ * `source` text behind the same interface; callers do not change.
+ */
+import { InputError } from '../../shared/errors.ts';
+import type { Grid, GridSpec } from '../../shared/grid/grid.ts';
+import { rasterizeZones } from '../../shared/grid/polygon-cells.ts';
+import { parseFeatureCollection } from '../../shared/schema/features.ts';
+import type { ThermalModelInput } from '../../shared/schema/model.ts';
+import { applyLayerOverride, overrideRegions } from '../../shared/products/overrides.ts';
+import { createStream } from '../../shared/random/prng.ts';
+import { isUncertainModel, realizeModel, type CompiledModel, type ThermalModel } from '../../shared/thermal/index.ts';
+import { cellNormal, prepareGridMonteCarlo, type PreparedGridMonteCarlo } from '../../shared/thermal/monte-carlo.ts';
+import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
+import type { Store } from '../store/types.ts';
+
+export interface RunRealizations {
+  /** Number of realizations. */
+  count: number;
+  seed: number;
+  heatFlowErrorCorrelation: 'full' | 'independent';
+  /** The grid every realization lives on (the run's heat-flow grid). */
+  grid: GridSpec;
+  /** Zone index per cell (0 = the base model, k = region k's override); undefined when there are no regions. */
+  zones: Uint16Array | undefined;
+  /** The zone models as given (with their distributions), zone 0 the base model. */
+  zoneModels: ThermalModelInput[];
+  /** Isotherm and solidus searches stop here, km. */
+  maxDepthKm: number;
+  /** Where the draws come from, in words (for provenance and reports). */
+  source: string;
+  /** Surface heat flow of realization r at cell c, mW/m² (NaN = no data). */
+  heatFlowAt(r: number, c: number): number;
+  /** The compiled model of realization r for zone `zone`; null when that draw was physically impossible. */
+  compiledModel(r: number, zone: number): CompiledModel | null;
+  /** The drawn model (numbers only) of realization r for zone `zone`, from the same stream. */
+  modelDraw(r: number, zone: number): ThermalModel;
+}
+
+/** The realizations of heat-flow grids and zone models (the run's streams for this seed and correlation). */
+export function realizationsFromGrids(input: {
+  heatFlow: Grid<Float32Array | Float64Array>;
+  heatFlowSd: Grid<Float32Array | Float64Array> | null;
+  zoneModels: ThermalModelInput[];
+  zones?: Uint16Array;
+  maxDepthKm: number;
+  realizations: number;
+  seed: number;
+  heatFlowErrorCorrelation?: 'full' | 'independent';
+}): RunRealizations {
+  const N = input.realizations;
+  if (!(Number.isInteger(N) && N >= 1)) throw new RangeError(`realizations must be a positive integer, got ${N}`);
+  const corr = input.heatFlowErrorCorrelation ?? 'full';
+  // The run's own preparation: the same draws, in the same order, compiled the same way.
+  const prep: PreparedGridMonteCarlo = prepareGridMonteCarlo({
+    models: input.zoneModels,
+    zones: input.zones,
+    heatFlowMWm2: input.heatFlow.values,
+    heatFlowSdMWm2: input.heatFlowSd?.values,
+    heatFlowErrorCorrelation: corr,
+    isothermsC: [],
+    depthsKm: [],
+    maxDepthKm: input.maxDepthKm,
+    realizations: N,
+    seed: input.seed,
+  });
+  const q = input.heatFlow.values;
+  const sd = input.heatFlowSd?.values;
+  const seed = input.seed;
+  const { width, height, west, north, dx, dy, crs } = input.heatFlow;
+  const withSd = sd !== undefined;
+  const sources = [
+    withSd ? `heat flow = kriged value + kriging sd × a standard normal (${corr === 'full' ? 'one per realization for all cells' : 'one per cell'})` : 'heat flow = the interpolated value (no standard deviation grid)',
+    input.zoneModels.some(isUncertainModel) ? 'model parameters drawn from their distributions once per realization' : 'model parameters fixed',
+  ];
+  return {
+    count: N,
+    seed,
+    heatFlowErrorCorrelation: corr,
+    grid: { width, height, west, north, dx, dy, crs },
+    zones: input.zones,
+    zoneModels: input.zoneModels,
+    maxDepthKm: input.maxDepthKm,
+    source: `Monte Carlo, ${N} realizations, seed ${seed}, streams (seed, realization): ${sources.join('; ')}`,
+    heatFlowAt(r, c) {
+      const s = withSd ? sd[c] : 0;
+      return s > 0 ? q[c] + s * (corr === 'independent' ? cellNormal(seed, r, c) : prep.fullNormal[r]) : q[c];
+    },
+    compiledModel(r, zone) {
+      const m = prep.compiled[r]?.[zone];
+      if (m === undefined) throw new RangeError(`no realization ${r} of zone ${zone}`);
+      return m;
+    },
+    modelDraw(r, zone) {
+      if (!(r >= 0 && r < N && zone >= 0 && zone < input.zoneModels.length)) throw new RangeError(`no realization ${r} of zone ${zone}`);
+      const rng = createStream(seed, 0);
+      rng.reset(seed, r);
+      let draw: ThermalModel | null = null;
+      for (let k = 0; k <= zone; k++) draw = realizeModel(input.zoneModels[k], rng);
+      delete draw!.surfaceHeatFlowMWm2; // the grid gives q0
+      return draw!;
+    },
+  };
+}
+
+/**
+ * The realizations of a finished run, from its stored grids, model and request. `realizations` overrides the
+ * run's count (e.g. for a run made without Monte Carlo); otherwise a run with none is a 409.
+ */
+export async function loadRunRealizations(store: Store, runId: string, opts: { realizations?: number } = {}): Promise<RunRealizations> {
+  const run = store.getRun(runId);
+  if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found', 404);
+  if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}; its realizations exist when it is done`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done', 409);
+  const request = run.request as { regions?: string; realizations?: number; seed?: number; heatFlowErrorCorrelation?: 'full' | 'independent'; maxDepthKm?: number };
+  const summary = (run.summary ?? {}) as { maxDepthKm?: number; monteCarlo?: { realizations?: number; seed?: number; heatFlowErrorCorrelation?: 'full' | 'independent' } | null };
+  const N = opts.realizations ?? summary.monteCarlo?.realizations ?? request.realizations ?? 0;
+  if (!(Number.isInteger(N) && N >= 1)) {
+    throw new InputError(`run ${runId} was made without realizations: start a run with "realizations" (e.g. 100) for spread and probability`, [{ field: 'realizations', problem: 'the run has none' }], 'run_without_realizations', 409);
+  }
+  const heat = store.getRunGrid(runId, 'heatFlow');
+  if (!heat) throw new InputError(`run ${runId} has no stored heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid', 409);
+  const sdRec = store.getRunGrid(runId, 'heatFlowSd');
+  const heatFlow: Grid<Float32Array> = { ...heat.meta, values: heat.values };
+  const heatFlowSd: Grid<Float32Array> | null = sdRec ? { ...sdRec.meta, values: sdRec.values } : null;
+  const base = run.model as ThermalModelInput;
+  const zoneModels: ThermalModelInput[] = [base];
+  let zones: Uint16Array | undefined;
+  if (request.regions !== undefined) {
+    const ds = store.getDataset(request.regions);
+    if (!ds) throw new InputError(`the regions data set "${request.regions}" of run ${runId} is no longer stored`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found', 404);
+    const found = overrideRegions(parseFeatureCollection('regions', JSON.parse(ds.body)).collection.features as { geometry: unknown; properties?: Record<string, unknown> }[]);
+    if (found.regions.length > 0) {
+      zoneModels.push(...found.regions.map((r) => applyLayerOverride(base, r.override)));
+      const crsDef = heatFlow.crs === 'EPSG:4326' ? WGS84_DEF : await loadCrsDefinition(heatFlow.crs);
+      const fromLonLat = crsDef === WGS84_DEF ? undefined : ((c) => (x: number, y: number) => c.forward([x, y]) as [number, number])(converter(WGS84_DEF, crsDef));
+      zones = rasterizeZones(heatFlow, found.regions.map((r) => (fromLonLat === undefined ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => fromLonLat(p[0], p[1]))))));
+    }
+  }
+  const deepest = Math.max(...zoneModels.map((m) => m.layers[m.layers.length - 1].bottomKm));
+  return realizationsFromGrids({
+    heatFlow,
+    heatFlowSd,
+    zoneModels,
+    zones,
+    maxDepthKm: summary.maxDepthKm ?? request.maxDepthKm ?? deepest,
+    realizations: N,
+    seed: summary.monteCarlo?.seed ?? request.seed ?? 0,
+    heatFlowErrorCorrelation: summary.monteCarlo?.heatFlowErrorCorrelation ?? request.heatFlowErrorCorrelation ?? 'full',
+  });
+}
