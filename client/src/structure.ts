@@ -115,8 +115,8 @@ export class StructurePanel {
     const reportCols: { label: string; value: (r: FaultReportRow) => unknown }[] = this.report.length === 0 ? [] : [
       { label: 'Grade jump (zones)', value: (r) => r.gradeJump },
       { label: 'Higher grade', value: (r) => r.higherWall ?? r.higherSide },
-      { label: 'Missing zones', value: (r) => r.missingZones },
-      { label: 'Isograd separation (km)', value: (r) => (Array.isArray(r.separations) && r.separations.length > 0 ? (r.separations as { isograd: string; separationKm: number }[]).map((x) => `${x.isograd} ${Math.round(x.separationKm * 10) / 10}`) : null) },
+      { label: 'Zones', value: (r) => zoneStatements(r) },
+      { label: 'Isograd separation (km)', value: (r) => (Array.isArray(r.separations) && r.separations.length > 0 ? (r.separations as { isograd: string; end: string; separationKm: { value: number; low: number; high: number } }[]).map((x) => `${x.isograd} ${x.end} ${fmt(x.separationKm.value, 1)} (${fmt(x.separationKm.low, 1)}–${fmt(x.separationKm.high, 1)})`) : null) },
     ];
     const faultRows = this.faults.features.map((f) => {
       const p = f.properties ?? {};
@@ -156,6 +156,18 @@ export class StructurePanel {
     replace(this.root, ...parts);
     if (this.selected !== null) this.select(this.selected);
   }
+}
+
+/** The fault's zone statements in words: repeated, missing, not reached, offset only. */
+function zoneStatements(r: FaultReportRow): string {
+  const zones = (v: unknown) => (Array.isArray(v) ? (v as { zone: string }[]).map((z) => z.zone) : []);
+  const out: string[] = [];
+  const rep = zones(r.repeatedZones), mis = zones(r.missingZones);
+  if (rep.length > 0) out.push(`repeated: ${rep.join(', ')}`);
+  if (mis.length > 0) out.push(`missing: ${mis.join(', ')}`);
+  if (Array.isArray(r.notReached)) for (const n of r.notReached as { isograd: string; sideName: string }[]) out.push(`${n.isograd} not reached (${n.sideName})`);
+  if (r.offsetOnly === true) out.push('offset only');
+  return out.length > 0 ? out.join('; ') : '—';
 }
 
 function formatCell(v: unknown): string {

@@ -130,22 +130,26 @@ export async function isograds(argv: string[]): Promise<number> {
   }
   const result = {
     isograds: rep.isograds,
-    faults: rep.faults.map((f) => ({
-      id: f.id, name: f.name, kind: f.kind, gradeJump: f.gradeJump, missingZones: f.missingZones, higherSide: f.higherSide,
-      higherWall: f.higherWall, hangingWall: f.hangingWall, repeatedZones: f.repeatedZones,
-      separations: f.separations.map((q) => ({ isograd: q.isograd, separationKm: r3(q.separationKm), leftAlongKm: r3(q.leftAlongKm), rightAlongKm: r3(q.rightAlongKm) })),
-      traceJump: { median: f.traceJump.median, mean: r3(f.traceJump.mean), stations: f.traceJump.stations },
-      sides: f.sides, missingZoneDetails: f.missingZoneDetails, lengthKm: r3(f.lengthKm), strikeDeg: r3(f.strikeDeg),
-    })),
+    faults: rep.faults,
+    samples: rep.samples,
     misfits: rep.misfits.map((m) => ({ ...m, distanceKm: r3(m.distanceKm) })),
     paleoGradients: rep.paleoGradients.map((p) => ({ ...p, depthKm: r3(p.depthKm), apparentGradientCPerKm: r3(p.apparentGradientCPerKm), modelDepthKm: r3(p.modelDepthKm), todayDepthKm: r3(p.todayDepthKm) })),
-    method: rep.method, samples: rep.samples, droppedLoops: rep.droppedLoops, inputs: hashes, files, warnings,
+    method: rep.method, sampleCounts: rep.sampleCounts, droppedLoops: rep.droppedLoops, inputs: hashes, files, warnings,
     caution: layer.lines.caution,
   };
   if (v.json) process.stdout.write(JSON.stringify(result) + '\n');
   else {
     const lines = [`isograds: ${rep.isograds.map((i) => `${i.isograd} ${i.lines} line(s), ${i.lengthKm} km`).join('; ')}`];
-    for (const f of result.faults) lines.push(`fault ${f.id}: jump ${f.gradeJump ?? '–'} (higher: ${f.higherSide ?? '–'}), missing: ${f.missingZones.join(', ') || 'none'}, separations: ${f.separations.map((q) => `${q.isograd} ${q.separationKm} km`).join(', ') || 'none'}`);
+    for (const f of result.faults) {
+      const st = [
+        f.repeatedZones.length > 0 ? `repeated: ${f.repeatedZones.map((z) => z.zone).join(', ')}` : '',
+        f.missingZones.length > 0 ? `missing: ${f.missingZones.map((z) => z.zone).join(', ')}` : '',
+        f.notReached.length > 0 ? `not reached: ${f.notReached.map((z) => `${z.isograd} (${z.sideName})`).join(', ')}` : '',
+        f.offsetOnly ? 'offset only' : '',
+      ].filter((x) => x !== '');
+      lines.push(`fault ${f.id}: ${st.join('; ') || 'no statement'}`);
+      for (const q of f.separations) lines.push(`  ${q.isograd} at the ${q.end} end: separation ${q.separationKm.value} km (${q.separationKm.low}–${q.separationKm.high}), ${q.sense}${q.dipSlipKm !== undefined ? `, dip slip ${q.dipSlipKm.value} km (${q.dipSlipKm.low}–${q.dipSlipKm.high}) ${q.slipSense}` : ''}`);
+    }
     lines.push(`misfits: ${result.misfits.length}; paleo-gradients: ${result.paleoGradients.length}`);
     for (const w of warnings) lines.push(`warning: ${w}`);
     if (files.length > 0) lines.push(`wrote ${files.join(', ')}`);

@@ -1,24 +1,33 @@
 /**
  * Fault report: how the metamorphic zones meet each fault. Per fault, from its trace (sides LEFT/RIGHT of the
- * vertex order; the hanging wall is the side the dip direction points to):
+ * vertex order, each also named by compass direction; the hanging wall is the side the dip direction points to):
  * - the samples within `faultDistanceKm` on each side (beside the trace, not beyond its ends) and their zones;
- * - the grade jump across the fault: the difference in median rank between the two sides' samples, restricted to
- *   the stretch of trace where both sides have samples (so the comparison is of like with like); the higher side
- *   is the one with the higher median, or with equal medians the one higher at the trace on average;
- * - at stations along the trace, the zone just left and just right of it, from the barrier-honouring indicator
- *   surfaces (each side then sees only its own samples near the trace): the jump at the trace;
- * - zones missing across it: present among one side's samples (at least two) while all of the other side's samples
- *   (same stretch, at least three) lie above or all below that zone, or skipped at the trace (a jump of two or more ranks in the direction of the regional grade change);
- * - zones repeated across it: where the jump at the trace goes against the grade change on both sides (as a thrust
- *   sheet stacks higher-grade rock on lower), the zones above the lower side's zone up to the higher side's;
- * - where one isograd meets the trace on both sides, the distance along the trace between the two meeting points:
- *   the apparent (strike) separation, `separationKm`. A meeting point is first found where the side's indicator
- *   profile along the trace crosses 0.5, then refined by a local logistic regression (Cox 1958) of that side's
- *   sample indicators on position (along the trace and off it) within a window around it: the fitted 0.5 line is
- *   the side's local isograd, and its intersection with the trace is the meeting point. The fit accounts for an
- *   isograd that meets the trace obliquely, which smooth interpolation smears along the trace. A left and a right
- *   meeting point pair up when each is the other's nearest with the same
- *   sense (grade rising the same way along the trace) within `maxSeparationKm`.
+ * - the grade jump across the fault: the difference in median rank between the two sides' samples over the stretch
+ *   of trace where both sides have samples;
+ * - zone statements from the decided samples in windows along that stretch (each carries its samples):
+ *   · MISSING zone Z: in a window, one side has only zones below Z, the other only zones above Z, and Z is on
+ *     neither (at least two samples a side);
+ *   · REPEATED zone Z: in a window, both sides show the grade changing the same way across the fault (a least-squares
+ *     plane of rank on along- and across-trace position per side, the across slope at least half a rank over the
+ *     band), the grade jumps back against that change at the trace, and Z is found on both sides: walking across,
+ *     the same zone sequence occurs twice in map order (as a thrust sheet stacks higher-grade rock on lower). Any
+ *     fault may repeat; a repeat on a normal fault is flagged as a conflict with its kind;
+ *   · NOT REACHED: an isograd that meets the trace on one side only (the top or bottom zone simply does not reach
+ *     the other side), or on neither (with samples near the trace);
+ *   · OFFSET ONLY: no zone missing or repeated, the isograds simply offset.
+ * - where one isograd meets the trace on both sides, the apparent (strike) separation between the two meeting
+ *   points, at each end where it does (named by the compass direction of that end). A meeting point is where the
+ *   side's indicator profile along the trace (evaluated just off the trace) crosses 0.5, refined by a local logistic
+ *   regression (Cox 1958) of that side's sample indicators on position; its range is where the same profile lies
+ *   between 0.1 and 0.9 (the isograd's probability band). The separation's range is the least and greatest distance
+ *   between the two sides' ranges. Sense: apparent dextral or sinistral, and which side shows the isograd displaced
+ *   towards higher grade.
+ * - with the fault's dip and dip direction and an isograd dip (given, the surface dipping towards lower grade), the
+ *   dip-slip component for pure dip slip, d = s·tan r, r the pitch of the isograd's cutoff line on the fault plane
+ *   (the cutoff line is the intersection of the two planes; the strike separation s of a planar marker under pure
+ *   dip slip d follows from the right triangle in the fault plane: Ragan 2009, "Structural Geology: An Introduction
+ *   to Geometrical Techniques", 4th ed., ch. on fault separation and slip [from memory]), and its sense (normal or
+ *   reverse) from which way the hanging-wall cutoff moved.
  */
 import { MAX_RANK } from './grade.ts';
 import { ZONE_NAMES } from '../petrology/index.ts';
@@ -50,6 +59,10 @@ export interface FaultReportOptions {
   fitWindowKm?: number;
   /** Largest separation paired, km (default 40). */
   maxSeparationKm?: number;
+  /** Sample ids by the caller's index (IndicatorField.source); default "#i". */
+  sampleIds?: readonly string[];
+  /** Dip of the isograd surfaces, degrees (0–90), dipping towards lower grade: enables the dip-slip component. */
+  isogradDipDeg?: number;
 }
 
 export interface SideStats {
@@ -69,18 +82,35 @@ export interface Meeting {
   isograd: string;
   side: Side;
   alongKm: number;
+  /** Where the side's profile lies between 0.1 and 0.9 around this meeting, km along the trace. */
+  bandAlongKm: [number, number];
   /** 'fit': refined by the local logistic fit; 'profile': the 0.5 crossing of the indicator profile. */
   basis: 'fit' | 'profile';
   /** +1 when the grade rises with distance along the trace there, −1 when it falls. */
   sense: 1 | -1;
 }
 
+export interface Range { value: number; low: number; high: number }
+
 export interface Separation {
   isograd: string;
-  separationKm: number;
+  /** Compass direction of the end of the trace where the isograd meets it (e.g. "NNE"). */
+  end: string;
+  separationKm: Range;
+  /** Apparent lateral sense of the separation. */
+  sense: 'dextral' | 'sinistral';
+  /** The side whose isograd is displaced towards higher grade (along the trace), named by compass and wall. */
+  displacedTowardHigherGrade: string;
   leftAlongKm: number;
   rightAlongKm: number;
+  /** Dip-slip component for pure dip slip, d = s·tan r (fault dip and isograd dip given). */
+  dipSlipKm?: Range;
+  slipSense?: 'normal' | 'reverse';
+  /** Pitch of the isograd's cutoff line on the fault plane, degrees. */
+  cutoffPitchDeg?: number;
 }
+
+export interface ZoneStatement { zone: string; sampleIds: string[] }
 
 export interface FaultReport {
   id: string;
@@ -89,22 +119,31 @@ export interface FaultReport {
   lengthKm: number;
   strikeDeg: number;
   hangingWall: Side | null;
+  /** Compass names of the sides, e.g. { left: "WNW side (footwall)", right: "ESE side (hanging wall)" }. */
+  sideNames: { left: string; right: string };
   sides: { left: SideStats; right: SideStats };
   /** Difference in median rank between the higher and the lower side (≥ 0; null without samples on both sides). */
   gradeJump: number | null;
   higherSide: Side | null;
   /** 'footwall' or 'hanging wall' for higherSide when the dip direction is known. */
   higherWall: 'footwall' | 'hanging wall' | null;
-  /** Median over stations of (rank just right − rank just left) at the trace; stations with both sides supported. */
-  traceJump: { median: number | null; mean: number | null; stations: number };
-  missingZones: string[];
-  missingZoneDetails: { zone: string; missingOn: Side | 'both'; basis: 'samples' | 'trace' }[];
-  repeatedZones: string[];
+  repeatedZones: ZoneStatement[];
+  missingZones: (ZoneStatement & { side: 'across'; between: [string, string] })[];
+  notReached: { isograd: string; side: Side | 'both'; sideName: string }[];
+  offsetOnly: boolean;
   meetings: Meeting[];
   separations: Separation[];
   /** The stretch of trace (km along it) where both sides have samples within faultDistanceKm. */
   overlapAlongKm: [number, number] | null;
   warnings: string[];
+}
+
+const COMPASS = ['N', 'NNE', 'NE', 'ENE', 'E', 'ESE', 'SE', 'SSE', 'S', 'SSW', 'SW', 'WSW', 'W', 'WNW', 'NW', 'NNW'];
+
+/** 16-point compass name of an azimuth (degrees clockwise from north). */
+export function compassName(azimuthDeg: number): string {
+  const a = ((azimuthDeg % 360) + 360) % 360;
+  return COMPASS[Math.round(a / 22.5) % 16];
 }
 
 function median(v: number[]): number | null {
@@ -190,6 +229,42 @@ function solve3(A: number[][], r: number[]): number[] | null {
   return out;
 }
 
+interface NearSample { s: number; u: number; side: Side; lo: number; hi: number; id: string }
+
+/** Profile crossings of `level` around station k0 (where it crosses 0.5): the band [low, high] in km along. */
+function bandAround(prof: Float64Array, ok: Uint8Array, along: Float64Array, j: number, k0: number, s0: number, stride: number): [number, number] {
+  const v = (k: number) => prof[k * stride + j - 1];
+  // Walk each way from the 0.5 crossing until the profile leaves [0.1, 0.9] or support ends.
+  const walk = (dir: 1 | -1): number => {
+    let k = dir > 0 ? k0 : k0 - 1;
+    let last = s0;
+    while (k >= 0 && k < along.length && ok[k] === 1 && !Number.isNaN(v(k))) {
+      const x = v(k);
+      if (x < 0.1 || x > 0.9) {
+        const prevK = k - dir;
+        const px = prevK >= 0 && prevK < along.length && ok[prevK] === 1 ? v(prevK) : NaN;
+        if (!Number.isFinite(px)) return along[k];
+        const lev = x < 0.1 ? 0.1 : 0.9;
+        const u = (lev - px) / (x - px);
+        return along[prevK] + u * (along[k] - along[prevK]);
+      }
+      last = along[k];
+      k += dir;
+    }
+    return last;
+  };
+  const a = walk(-1), b = walk(1);
+  return [Math.min(a, b, s0), Math.max(a, b, s0)];
+}
+
+const DEG = Math.PI / 180;
+
+/** Unit normal of a plane of dip dipDeg towards azimuth dipDirDeg, in (x east, y north, z down). */
+function planeNormal(dipDeg: number, dipDirDeg: number): [number, number, number] {
+  const d = dipDeg * DEG, a = dipDirDeg * DEG;
+  return [Math.sin(a) * Math.sin(d), Math.cos(a) * Math.sin(d), -Math.cos(d)];
+}
+
 /** The report of one fault against the (barrier-honouring) indicator field of all samples. */
 export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportOptions): FaultReport {
   const t = f.trace;
@@ -208,13 +283,19 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
     hangingWall = diff < 90 ? 'right' : diff > 90 ? 'left' : null;
     if (diff === 90) warnings.push('the dip direction is parallel to the trace: hanging wall undetermined');
   }
+  const wallOf = (side: Side) => (hangingWall === null ? null : side === hangingWall ? 'hanging wall' : 'footwall');
+  const sideNames = {
+    left: `${compassName(strikeDeg - 90)} side${wallOf('left') !== null ? ` (${wallOf('left')})` : ''}`,
+    right: `${compassName(strikeDeg + 90)} side${wallOf('right') !== null ? ` (${wallOf('right')})` : ''}`,
+  };
+  const idOf = (i: number) => o.sampleIds?.[field.source[i]] ?? `#${field.source[i]}`;
 
   // Samples beside the trace.
-  const near: { s: number; u: number; side: Side; lo: number; hi: number }[] = [];
+  const near: NearSample[] = [];
   for (let i = 0; i < field.count; i++) {
     const p = locateOnTrace(t, field.x[i], field.y[i]);
     if (p.beyondEnd || !(Math.abs(p.offsetKm) <= D) || p.offsetKm === 0) continue;
-    near.push({ s: p.alongKm, u: p.offsetKm, side: p.offsetKm > 0 ? 'right' : 'left', lo: field.lo[i], hi: field.hi[i] });
+    near.push({ s: p.alongKm, u: p.offsetKm, side: p.offsetKm > 0 ? 'right' : 'left', lo: field.lo[i], hi: field.hi[i], id: idOf(i) });
   }
   const L = near.filter((q) => q.side === 'left'), R = near.filter((q) => q.side === 'right');
   let overlap: [number, number] | null = null;
@@ -229,14 +310,40 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
   const Lo = L.filter(inOverlap), Ro = R.filter(inOverlap);
   const lov = sideStats(Lo.map((q) => q.lo), Lo.map((q) => q.hi));
   const rov = sideStats(Ro.map((q) => q.lo), Ro.map((q) => q.hi));
-  if (L.length === 0 || R.length === 0) warnings.push(`no samples within ${D} km on the ${L.length === 0 ? 'left' : 'right'} side of the trace`);
+  if (L.length === 0 || R.length === 0) warnings.push(`no samples within ${D} km on the ${L.length === 0 ? sideNames.left : sideNames.right} of the trace`);
 
-  // Stations along the trace: zones just off it on each side and half-way across the band.
+  // Windows along the shared stretch: missing and repeated zones from the decided samples.
+  const missing = new Map<number, { ids: Set<string>; between: [number, number] }>();
+  if (overlap !== null) {
+    const W = Math.max(2 * D, 4 * step);
+    const decided = (q: NearSample) => q.lo === q.hi;
+    for (let w0 = overlap[0] - W / 2; w0 < overlap[1]; w0 += W / 2) {
+      const inW = (q: NearSample) => q.s >= w0 && q.s <= w0 + W && decided(q);
+      const lw = L.filter(inW), rw = R.filter(inW);
+      if (lw.length < 2 || rw.length < 2) continue;
+      const lr = lw.map((q) => q.lo), rr = rw.map((q) => q.lo);
+      const lmin = Math.min(...lr), lmax = Math.max(...lr), rmin = Math.min(...rr), rmax = Math.max(...rr);
+      // Missing: one side wholly below Z, the other wholly above, Z on neither.
+      for (let z = 1; z < MAX_RANK; z++) {
+        const gap = (lmax < z && rmin > z) || (rmax < z && lmin > z);
+        if (!gap) continue;
+        const m = missing.get(z) ?? { ids: new Set<string>(), between: [lmax < z ? lmax : rmax, lmax < z ? rmin : lmin] as [number, number] };
+        // Supporting samples: those of each side nearest in grade to Z.
+        const lowSide = lmax < z ? lw : rw, highSide = lmax < z ? rw : lw;
+        const lowTop = Math.max(...lowSide.map((q) => q.lo)), highBottom = Math.min(...highSide.map((q) => q.lo));
+        for (const q of lowSide) if (q.lo === lowTop) m.ids.add(q.id);
+        for (const q of highSide) if (q.lo === highBottom) m.ids.add(q.id);
+        missing.set(z, m);
+      }
+    }
+  }
+  const missingZones: FaultReport['missingZones'] = [...missing.entries()].sort((a, b) => a[0] - b[0]).map(([z, m]) => ({ zone: ZONE_NAMES[z], side: 'across', between: [ZONE_NAMES[m.between[0]], ZONE_NAMES[m.between[1]]], sampleIds: [...m.ids].sort() }));
+  if (missingZones.length > 0 && (f.kind === 'thrust' || f.kind === 'reverse')) warnings.push(`zones missing across a fault recorded as ${f.kind} (${missingZones.map((z) => z.zone).join(', ')}): a ${f.kind} fault usually repeats section; check the fault's kind or the samples`);
+
+  // Stations along the trace: indicator profiles just off it on each side.
   const nSt = Math.floor(t.lengthKm / step) + 1;
   const P = { left: new Float64Array(nSt * BOUNDARY_COUNT), right: new Float64Array(nSt * BOUNDARY_COUNT) };
   const ok = { left: new Uint8Array(nSt), right: new Uint8Array(nSt) };
-  const nearRank = { left: new Int8Array(nSt).fill(-1), right: new Int8Array(nSt).fill(-1) };
-  const bandRank = { left: new Int8Array(nSt).fill(-1), right: new Int8Array(nSt).fill(-1) };
   const buf = new Float64Array(BOUNDARY_COUNT);
   const along = new Float64Array(nSt);
   for (let k = 0; k < nSt; k++) {
@@ -252,58 +359,44 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
       if (d <= stSupport) {
         ok[side][k] = 1;
         P[side].set(buf, k * BOUNDARY_COUNT);
-        nearRank[side][k] = rankFromIndicators(buf);
       }
-      const d2 = field.predict(q.x + (D / 2) * nx, q.y + (D / 2) * ny, buf);
-      if (d2 <= stSupport) bandRank[side][k] = rankFromIndicators(buf);
     }
   }
 
-  // Jump at the trace; repeated and skipped zones.
-  const jumps: number[] = [];
-  const repeatVotes = new Int32Array(MAX_RANK + 1), skipVotes = new Int32Array(MAX_RANK + 1);
-  let both = 0, trended = 0;
-  for (let k = 0; k < nSt; k++) {
-    const rl = nearRank.left[k], rr = nearRank.right[k];
-    if (rl < 0 || rr < 0) continue;
-    both++;
-    jumps.push(rr - rl);
-    const bl = bandRank.left[k], br = bandRank.right[k];
-    if (bl < 0 || br < 0) continue;
-    // Grade change walking from left to right: across the left band, then the right band.
-    const gl = Math.sign(rl - bl), gr = Math.sign(br - rr);
-    if (gl === 0 || gl !== gr) continue;
-    trended++;
-    const J = rr - rl;
-    if (Math.sign(J) === -gl) {
-      // Against the trend: zones above the lower near-trace zone up to the higher one are met twice.
-      for (let z = Math.min(rl, rr) + 1; z <= Math.max(rl, rr); z++) repeatVotes[z]++;
-    } else if (Math.abs(J) >= 2) {
-      for (let z = Math.min(rl, rr) + 1; z < Math.max(rl, rr); z++) skipVotes[z]++;
+  // Repeated zones along transects at right angles to the trace, from the barrier-honouring surfaces (so each side
+  // sees only its own samples and a grade change along the trace does not enter): at a station, one side (A) falls in
+  // grade away from the trace (rank just off it above the rank at D), the other (B) rises away from it, and A's rank
+  // at the trace is above B's. Walking from A to B the grade then rises, drops back at the trace and rises again:
+  // the zones from B's rank at the trace up to A's are met twice. A zone counts when it is so at two stations or more
+  // and decided samples of it lie on both sides within D of the trace and D along it (they are its support).
+  const repeatVotes = new Map<number, number>();
+  const every = Math.max(1, Math.round(1 / step)); // a transect about every km
+  for (let k = 0; k < nSt; k += every) {
+    if (ok.left[k] === 0 || ok.right[k] === 0) continue;
+    const q = pointAlongTrace(t, along[k]);
+    if (q === null) continue;
+    const rankAt = (sg: number, u: number) => {
+      const d = field.predict(q.x + sg * u * q.ty, q.y - sg * u * q.tx, buf);
+      return d <= o.supportKm ? rankFromIndicators(buf) : -1;
+    };
+    const nearL = rankAt(-1, Math.max(delta, 0.5)), farL = rankAt(-1, D), nearR = rankAt(1, Math.max(delta, 0.5)), farR = rankAt(1, D);
+    if (nearL < 0 || farL < 0 || nearR < 0 || farR < 0) continue;
+    for (const [an, af, bn, bf] of [[nearL, farL, nearR, farR], [nearR, farR, nearL, farL]]) {
+      if (!(af < an && bn < bf && an > bn)) continue;
+      for (let z = Math.max(af, bn); z <= Math.min(an, bf); z++) repeatVotes.set(z, (repeatVotes.get(z) ?? 0) + 1);
+      // Zones between B's rank at the trace and A's: both sequences hold them.
     }
   }
-  const voteMin = Math.max(2, Math.ceil(0.2 * trended));
-  const repeatedZones = ZONE_NAMES.filter((_, z) => repeatVotes[z] >= voteMin);
-  const traceMedian = median(jumps);
-
-  // Missing zones by presence (same stretch of trace), then by skipping at the trace.
-  const details: FaultReport['missingZoneDetails'] = [];
-  // A zone is missing on side B when side A holds at least two samples of it and B's (at least three) decided
-  // samples all lie above it or all below it: the zone is beyond the grades B shows, not a gap in B's sampling.
-  const missingOn = (a: SideStats, bSide: typeof Lo, z: number): boolean => {
-    if (a.zoneCounts[ZONE_NAMES[z]] < 2) return false;
-    const ranks = bSide.filter((q) => q.lo === q.hi).map((q) => q.lo);
-    if (ranks.length < 3) return false;
-    if (bSide.some((q) => q.lo !== q.hi && q.lo <= z && q.hi >= z)) return false;
-    return ranks.every((r) => r < z) || ranks.every((r) => r > z);
-  };
-  if (Lo.length > 0 && Ro.length > 0) {
-    ZONE_NAMES.forEach((z, r) => {
-      if (missingOn(lov, Ro, r)) details.push({ zone: z, missingOn: 'right', basis: 'samples' });
-      if (missingOn(rov, Lo, r)) details.push({ zone: z, missingOn: 'left', basis: 'samples' });
-    });
+  const repeated = new Map<number, string[]>();
+  for (const [z, votes] of repeatVotes) {
+    if (votes < 2) continue;
+    const stationsWith = (side: NearSample[]) => side.filter((p) => p.lo === p.hi && p.lo === z);
+    const a = stationsWith(L), b = stationsWith(R);
+    if (a.length === 0 || b.length === 0) continue;
+    repeated.set(z, [...a, ...b].map((p) => p.id));
   }
-  ZONE_NAMES.forEach((z, r) => { if (skipVotes[r] >= voteMin && !details.some((d) => d.zone === z)) details.push({ zone: z, missingOn: 'both', basis: 'trace' }); });
+  const repeatedZones: ZoneStatement[] = [...repeated.entries()].sort((a, b) => a[0] - b[0]).map(([z, ids]) => ({ zone: ZONE_NAMES[z], sampleIds: [...ids].sort() }));
+  if (repeatedZones.length > 0 && f.kind === 'normal') warnings.push(`zones repeated across a fault recorded as normal (${repeatedZones.map((z) => z.zone).join(', ')}): a normal fault omits section; check the fault's kind or the samples`);
 
   // Grade jump (median ranks over the shared stretch) and the higher side.
   let gradeJump: number | null = null, higherSide: Side | null = null;
@@ -311,15 +404,22 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
     const d = rov.medianRank - lov.medianRank;
     gradeJump = Math.abs(d);
     higherSide = d > 0 ? 'right' : d < 0 ? 'left' : null;
-    // Equal medians: the side that is higher at the trace on average, when it is clearly so (mean jump ≥ 0.1 rank).
-    if (higherSide === null && jumps.length > 0) {
-      const mean = jumps.reduce((a, b) => a + b, 0) / jumps.length;
+    if (higherSide === null) {
+      // Equal medians: the side that is higher at the trace on average (rank from the profiles), when clearly so.
+      let sum = 0, n = 0;
+      for (let k = 0; k < nSt; k++) {
+        if (ok.left[k] === 0 || ok.right[k] === 0) continue;
+        const rl = rankFromIndicators(P.left, k * BOUNDARY_COUNT), rr = rankFromIndicators(P.right, k * BOUNDARY_COUNT);
+        if (rl < 0 || rr < 0) continue;
+        sum += rr - rl; n++;
+      }
+      const mean = n > 0 ? sum / n : 0;
       higherSide = mean >= 0.1 ? 'right' : mean <= -0.1 ? 'left' : null;
     }
   }
-  const higherWall = higherSide === null || hangingWall === null ? null : higherSide === hangingWall ? 'hanging wall' : 'footwall';
+  const higherWall = higherSide === null ? null : wallOf(higherSide);
 
-  // Meeting points and separations.
+  // Meeting points with their probability bands.
   const meetings: Meeting[] = [];
   const windowKm = o.fitWindowKm ?? Math.max(15, 1.5 * D);
   for (const side of ['left', 'right'] as const) {
@@ -335,41 +435,126 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
         const s0 = along[k - 1] + u * (along[k] - along[k - 1]);
         const sense: 1 | -1 = b > a ? 1 : -1;
         const fit = fitMeeting(pool, j, s0, sense, windowKm, D);
-        const m: Meeting = { isograd: `${ZONE_NAMES[j]}-in`, side, alongKm: fit ?? s0, basis: fit === null ? 'profile' : 'fit', sense };
+        const band = bandAround(P[side], ok[side], along, j, k, s0, BOUNDARY_COUNT);
+        const at = fit ?? s0;
+        const m: Meeting = { isograd: `${ZONE_NAMES[j]}-in`, side, alongKm: at, bandAlongKm: [Math.min(band[0], at), Math.max(band[1], at)], basis: fit === null ? 'profile' : 'fit', sense };
         // Crossings of one isograd a few km apart with the same sense are one meeting (noise in the profile).
         const dup = found.find((q) => q.sense === m.sense && Math.abs(q.alongKm - m.alongKm) < 2);
         if (dup === undefined) found.push(m);
+        else { dup.bandAlongKm = [Math.min(dup.bandAlongKm[0], m.bandAlongKm[0]), Math.max(dup.bandAlongKm[1], m.bandAlongKm[1])]; }
       }
       meetings.push(...found);
     }
   }
+
+  // Separations: pair the two sides' meetings, name the end, range, sense and dip slip.
   const separations: Separation[] = [];
+  const notReached: FaultReport['notReached'] = [];
+  const supported = { left: ok.left.some((v) => v === 1), right: ok.right.some((v) => v === 1) };
+  const fn = f.dipDeg !== undefined && f.dipDirectionDeg !== undefined && Number.isFinite(f.dipDeg) && Number.isFinite(f.dipDirectionDeg) && hangingWall !== null ? planeNormal(f.dipDeg, f.dipDirectionDeg) : null;
+  const isoDip = o.isogradDipDeg;
   for (let j = 1; j <= BOUNDARY_COUNT; j++) {
     const name = `${ZONE_NAMES[j]}-in`;
     const ml = meetings.filter((m) => m.isograd === name && m.side === 'left');
     const mr = meetings.filter((m) => m.isograd === name && m.side === 'right');
+    if (ml.length === 0 && mr.length === 0) {
+      if (supported.left && supported.right) notReached.push({ isograd: name, side: 'both', sideName: 'either side' });
+      continue;
+    }
+    if (ml.length === 0 && supported.left) notReached.push({ isograd: name, side: 'left', sideName: sideNames.left });
+    if (mr.length === 0 && supported.right) notReached.push({ isograd: name, side: 'right', sideName: sideNames.right });
     const nearestOf = (m: Meeting, pool: Meeting[]) => {
       let best: Meeting | null = null;
       for (const q of pool) if (q.sense === m.sense && (best === null || Math.abs(q.alongKm - m.alongKm) < Math.abs(best.alongKm - m.alongKm))) best = q;
       return best;
     };
+    const pairs: [Meeting, Meeting][] = [];
     for (const a of ml) {
       const b = nearestOf(a, mr);
       if (b === null || nearestOf(b, ml) !== a) continue;
-      const sep = Math.abs(a.alongKm - b.alongKm);
-      if (sep > maxSep) continue;
-      separations.push({ isograd: name, separationKm: sep, leftAlongKm: a.alongKm, rightAlongKm: b.alongKm });
+      if (Math.abs(a.alongKm - b.alongKm) > maxSep) continue;
+      pairs.push([a, b]);
+    }
+    const all = [...ml, ...mr];
+    const centre = pairs.length >= 2 ? all.reduce((acc, m) => acc + m.alongKm, 0) / all.length : t.lengthKm / 2;
+    for (const [a, b] of pairs) {
+      const sl = a.alongKm, sr = b.alongKm;
+      const mid = (sl + sr) / 2;
+      const q = pointAlongTrace(t, Math.min(t.lengthKm, Math.max(0, mid)));
+      const fwdAz = q === null ? strikeDeg : (Math.atan2(q.tx, q.ty) / DEG + 360) % 360;
+      const end = compassName(mid >= centre ? fwdAz : fwdAz + 180);
+      const value = Math.abs(sl - sr);
+      const lowKm = Math.max(0, a.bandAlongKm[0] - b.bandAlongKm[1], b.bandAlongKm[0] - a.bandAlongKm[1]);
+      const highKm = Math.max(a.bandAlongKm[1] - b.bandAlongKm[0], b.bandAlongKm[1] - a.bandAlongKm[0]);
+      // Grade rises with s (sense +1): the side whose isograd lies further along is lower at the trace between them,
+      // i.e. its isograd is displaced towards higher grade.
+      const upSide: Side = a.sense > 0 ? (sr > sl ? 'right' : 'left') : (sr < sl ? 'right' : 'left');
+      const sep: Separation = {
+        isograd: name, end, separationKm: { value, low: Math.min(lowKm, value), high: Math.max(highKm, value) },
+        sense: sr < sl ? 'dextral' : 'sinistral', displacedTowardHigherGrade: sideNames[upSide], leftAlongKm: sl, rightAlongKm: sr,
+      };
+      if (fn !== null && isoDip !== undefined && q !== null && hangingWall !== null) {
+        const g = gradeDirection(field, j, t, sl, sr, D);
+        if (g !== null) {
+          // The isograd surface dips towards lower grade (−g).
+          const ni = planeNormal(isoDip, (Math.atan2(-g[0], -g[1]) / DEG + 360) % 360);
+          const l: [number, number, number] = [fn[1] * ni[2] - fn[2] * ni[1], fn[2] * ni[0] - fn[0] * ni[2], fn[0] * ni[1] - fn[1] * ni[0]];
+          const ln = Math.hypot(l[0], l[1], l[2]);
+          if (ln > 1e-9) {
+            if (l[2] < 0) { l[0] = -l[0]; l[1] = -l[1]; l[2] = -l[2]; }
+            const fdd = (f.dipDirectionDeg as number) * DEG;
+            const strikeVec = [-Math.cos(fdd), Math.sin(fdd)];
+            const cosR = Math.min(1, Math.abs(l[0] * strikeVec[0] + l[1] * strikeVec[1]) / ln);
+            const r = Math.acos(cosR);
+            if (r > 1e-6 && r < 89.9 * DEG) {
+              const tanR = Math.tan(r);
+              sep.dipSlipKm = { value: value * tanR, low: sep.separationKm.low * tanR, high: sep.separationKm.high * tanR };
+              sep.cutoffPitchDeg = r / DEG;
+              // Under normal slip the hanging-wall cutoff moves along the trace by −d·sinδ·(l·ŝ)/l_z (ŝ: trace direction).
+              const ls = l[0] * q.tx + l[1] * q.ty;
+              const dHW = hangingWall === 'left' ? sl - sr : sr - sl;
+              sep.slipSense = Math.sign(dHW) === -Math.sign(ls) ? 'normal' : 'reverse';
+            }
+          }
+        }
+      }
+      separations.push(sep);
     }
   }
+  const kindSense = f.kind === 'normal' ? 'normal' : f.kind === 'thrust' || f.kind === 'reverse' ? 'reverse' : null;
+  const conflicting = separations.filter((s) => s.slipSense !== undefined && kindSense !== null && s.slipSense !== kindSense);
+  if (conflicting.length > 0) warnings.push(`the dip-slip sense of ${conflicting.map((s) => `${s.isograd} (${s.end})`).join(', ')} is ${conflicting[0].slipSense}, against the fault's kind (${f.kind})`);
+  if (fn !== null && isoDip === undefined && separations.length > 0) warnings.push('no isograd dip given: the dip-slip component is not computed');
 
   return {
-    id: t.id, name: f.name ?? null, kind: f.kind ?? null, lengthKm: t.lengthKm, strikeDeg, hangingWall,
+    id: t.id, name: f.name ?? null, kind: f.kind ?? null, lengthKm: t.lengthKm, strikeDeg, hangingWall, sideNames,
     sides: { left, right },
     gradeJump, higherSide, higherWall,
-    traceJump: { median: traceMedian, mean: jumps.length > 0 ? jumps.reduce((a, b) => a + b, 0) / jumps.length : null, stations: both },
-    missingZones: [...new Set(details.map((d) => d.zone))],
-    missingZoneDetails: details,
-    repeatedZones,
+    repeatedZones, missingZones, notReached,
+    offsetOnly: repeatedZones.length === 0 && missingZones.length === 0 && separations.length > 0,
     meetings, separations, overlapAlongKm: overlap, warnings,
   };
+}
+
+/**
+ * Map direction of increasing grade (unit [gx, gy]) of isograd j near its meeting points: the finite-difference
+ * gradient of the indicator surface 1.5 km into each side (1 km steps), averaged over the sides; null when flat.
+ */
+function gradeDirection(field: IndicatorField, j: number, t: Trace, sl: number, sr: number, D: number): [number, number] | null {
+  const buf = new Float64Array(BOUNDARY_COUNT);
+  const at = (x: number, y: number) => { field.predict(x, y, buf); return buf[j - 1]; };
+  let gx = 0, gy = 0;
+  for (const [s, sg] of [[sl, -1], [sr, 1]] as const) {
+    const q = pointAlongTrace(t, Math.min(t.lengthKm, Math.max(0, s)));
+    if (q === null) continue;
+    const nx = sg * q.ty, ny = -sg * q.tx;
+    const off = Math.min(1.5, D / 2), h = 1;
+    const cx = q.x + off * nx, cy = q.y + off * ny;
+    const dx = (at(cx + h, cy) - at(cx - h, cy)) / (2 * h), dy = (at(cx, cy + h) - at(cx, cy - h)) / (2 * h);
+    const len = Math.hypot(dx, dy);
+    if (!(len > 0)) continue;
+    gx += dx / len; gy += dy / len;
+  }
+  const len = Math.hypot(gx, gy);
+  return len > 0 ? [gx / len, gy / len] : null;
 }

@@ -15,7 +15,7 @@ import { sampleGrades, type SampleGrade } from './grade.ts';
 import { BOUNDARY_COUNT } from './indicator.ts';
 import { computeIsogradsKm, type IsogradGridOptions } from './isograds.ts';
 import { findMisfits, type Misfit } from './misfits.ts';
-import { faultReport, type FaultReport } from './fault-report.ts';
+import { faultReport, type FaultReport, type Range } from './fault-report.ts';
 import { buildTrace, tracePieces, type Trace } from './trace.ts';
 import { paleoGradients, type PaleoGradient, type PaleoOptions } from './paleo.ts';
 
@@ -29,6 +29,8 @@ export interface IsogradLayerOptions extends IsogradGridOptions {
   stationSupportKm?: number;
   /** A sample is a misfit when its own zone's leave-one-out probability is below this (default 0.3). */
   misfitProbability?: number;
+  /** Dip of the isograd surfaces, degrees, towards lower grade: enables the dip-slip component of separations. */
+  isogradDipDeg?: number;
   /** Paleo-gradient options (density, model, heat flow). */
   paleo?: PaleoOptions;
   /** Thermal model for today's geotherm (compiled); same as paleo.model. */
@@ -47,9 +49,31 @@ export interface IsogradSummary {
   samplesBelow: number;
 }
 
+const rr = (v: number) => Math.round(v * 100) / 100;
+const rng = (r: Range) => ({ value: rr(r.value), low: rr(r.low), high: rr(r.high) });
+
+/** A fault's report as exported (CLI --json, run summary, web panel): the statements, rounded to 10 m. */
+export function faultSummary(f: FaultReport) {
+  return {
+    id: f.id, name: f.name, kind: f.kind, lengthKm: rr(f.lengthKm), strikeDeg: rr(f.strikeDeg), hangingWall: f.hangingWall, sideNames: f.sideNames,
+    gradeJump: f.gradeJump, higherSide: f.higherSide, higherWall: f.higherWall,
+    repeatedZones: f.repeatedZones, missingZones: f.missingZones, notReached: f.notReached, offsetOnly: f.offsetOnly,
+    separations: f.separations.map((s) => {
+      const o: Record<string, unknown> = { isograd: s.isograd, end: s.end, separationKm: rng(s.separationKm), sense: s.sense, displacedTowardHigherGrade: s.displacedTowardHigherGrade, leftAlongKm: rr(s.leftAlongKm), rightAlongKm: rr(s.rightAlongKm) };
+      if (s.dipSlipKm !== undefined) { o.dipSlipKm = rng(s.dipSlipKm); o.slipSense = s.slipSense; o.cutoffPitchDeg = rr(s.cutoffPitchDeg as number); }
+      return o as { isograd: string; end: string; separationKm: { value: number; low: number; high: number }; sense: string; displacedTowardHigherGrade: string; leftAlongKm: number; rightAlongKm: number; dipSlipKm?: { value: number; low: number; high: number }; slipSense?: string; cutoffPitchDeg?: number };
+    }),
+    sides: f.sides, overlapAlongKm: f.overlapAlongKm === null ? null : [rr(f.overlapAlongKm[0]), rr(f.overlapAlongKm[1])],
+    warnings: f.warnings,
+  };
+}
+export type FaultSummary = ReturnType<typeof faultSummary>;
+
 export interface IsogradReport {
   isograds: IsogradSummary[];
-  faults: FaultReport[];
+  faults: FaultSummary[];
+  /** Each sample's derived grade. */
+  samples: { id: string; zone: string | null; source: 'zone' | 'facies' | 'peak-pt' | 'none'; series: string | null; aluminosilicate?: string }[];
   misfits: Misfit[];
   paleoGradients: PaleoGradient[];
   method: {
@@ -64,7 +88,7 @@ export interface IsogradReport {
     highSide: 'right';
     gradeRules: string;
   };
-  samples: { total: number; zone: number; facies: number; peakPt: number; none: number };
+  sampleCounts: { total: number; zone: number; facies: number; peakPt: number; none: number };
   droppedLoops: { isograd: string; samples: string[] }[];
   warnings: string[];
   timingsMs: Record<string, number>;
@@ -133,6 +157,7 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
     const p = info[k].properties;
     const r = faultReport({ trace: t, name: p.name, kind: p.kind, dipDeg: p.dipDeg, dipDirectionDeg: p.dipDirectionDeg }, res.field, {
       faultDistanceKm: opts.faultDistanceKm, stationKm, supportKm: res.supportKm, maxSeparationKm: opts.maxSeparationKm, stationSupportKm: opts.stationSupportKm,
+      sampleIds: props.map((q) => q.id), isogradDipDeg: opts.isogradDipDeg,
     });
     for (const w of r.warnings) warnings.push(`fault ${t.id}: ${w}`);
     return r;
@@ -167,14 +192,15 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
   const count = (s: string) => grades.filter((g) => g.source === s).length;
   const power = opts.power ?? 2, neighbors = opts.neighbors ?? 12;
   const report: IsogradReport = {
-    isograds, faults: reports, misfits, paleoGradients: paleo,
+    isograds, faults: reports.map(faultSummary), misfits, paleoGradients: paleo,
+    samples: grades.map((g) => { const o: IsogradReport['samples'][number] = { id: g.id, zone: g.label, source: g.source, series: g.series }; if (g.aluminosilicate !== undefined) o.aluminosilicate = g.aluminosilicate; return o; }),
     method: {
       indicator: `indicator inverse-distance weighting (Shepard 1968), power ${power}, ${neighbors} nearest visible samples; isograd = 0.5 contour (marching squares)`,
       power, neighbors, cellKm: res.grid.cellKm, grid: { width: res.grid.width, height: res.grid.height }, supportKm: r3(res.supportKm),
       faultBarriers: pieces !== null, projection: proj.def, highSide: 'right',
       gradeRules: 'zone → its rank; facies only → ranks whose isograd midpoint temperature lies in the facies field\'s span; peak T–P only → ranks between the isograd temperature ranges certainly and possibly crossed; partial samples inform only the isograds they decide',
     },
-    samples: { total: n, zone: count('zone'), facies: count('facies'), peakPt: count('peak-pt'), none: count('none') },
+    sampleCounts: { total: n, zone: count('zone'), facies: count('facies'), peakPt: count('peak-pt'), none: count('none') },
     droppedLoops: res.droppedLoops, warnings, timingsMs: res.timingsMs,
   };
   const provenance = { tool: TOOL_NAME, version: VERSION, method: report.method.indicator, highSide: 'right', cellKm: res.grid.cellKm, supportKm: r3(res.supportKm) };

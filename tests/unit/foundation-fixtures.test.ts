@@ -24,7 +24,7 @@ describe('demo region fixtures', () => {
     expect(sites.length).toBeGreaterThanOrEqual(150);
     expect(sites.length).toBeLessThanOrEqual(400);
     expect(samples.length).toBeGreaterThanOrEqual(150);
-    expect(samples.length).toBeLessThanOrEqual(300);
+    expect(samples.length).toBeLessThanOrEqual(450); // with the traverses along F1 and across F2
     expect(faults.length).toBeGreaterThanOrEqual(6);
     expect(faults.map((f) => f.properties.kind)).toEqual(expect.arrayContaining(['normal', 'thrust']));
     expect(wells.length).toBeGreaterThanOrEqual(3);
@@ -89,7 +89,9 @@ describe('demo region fixtures', () => {
     // F1 moves every isograd 6 km inwards on its hanging wall; along the trace that is 6.0–6.5 km (chord geometry).
     for (const s of f1.filter((s: { separationKm?: number[] }) => s.separationKm)) for (const d of s.separationKm) expect(d).toBeGreaterThan(6.0), expect(d).toBeLessThan(6.5);
     expect(truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.isogradShiftKm).toBeCloseTo(6, 9);
-    expect(truth.faults.find((f: { id: string }) => f.id === 'F2').builtInOffset.repeatedZones).toEqual(['garnet']);
+    expect(truth.faults.find((f: { id: string }) => f.id === 'F2').builtInOffset.repeatedZones).toEqual(['chlorite', 'biotite', 'garnet']);
+    // Pure dip slip on F1: d = throw / sin(dip) = 1.2 km / sin 60° (right-triangle geometry).
+    expect(truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.dipSlipKm).toBeCloseTo(1.2 / Math.sin(Math.PI / 3), 9);
   });
 
   it('ship a terrain GeoTIFF that GDAL reads as 4326, at least 400 × 400, with NoData', () => {

@@ -21,8 +21,15 @@ describe('subtherm isograds (child process)', () => {
     const j = JSON.parse(lines[0]);
     expect(j.isograds.map((i: { isograd: string }) => i.isograd)).toEqual(['biotite-in', 'garnet-in', 'staurolite-in', 'kyanite-in', 'sillimanite-in']);
     const f1 = j.faults.find((f: { id: string }) => f.id === 'F1');
-    expect(Object.keys(f1)).toEqual(expect.arrayContaining(['id', 'gradeJump', 'missingZones', 'higherSide', 'separations']));
-    expect(f1.missingZones).toContain('sillimanite');
+    expect(Object.keys(f1)).toEqual(expect.arrayContaining(['id', 'repeatedZones', 'missingZones', 'notReached', 'offsetOnly', 'separations']));
+    expect(f1.notReached).toContainEqual({ isograd: 'sillimanite-in', side: 'right', sideName: 'ESE side (hanging wall)' });
+    for (const s of f1.separations) {
+      expect(Object.keys(s)).toEqual(expect.arrayContaining(['isograd', 'end', 'separationKm', 'sense']));
+      expect(s.separationKm.low).toBeLessThanOrEqual(s.separationKm.value);
+      expect(s.separationKm.high).toBeGreaterThanOrEqual(s.separationKm.value);
+    }
+    expect(j.samples.length).toBe(402);
+    expect(j.samples[0]).toEqual(expect.objectContaining({ id: expect.any(String), source: expect.stringMatching(/^(zone|facies|peak-pt|none)$/) }));
     expect(Array.isArray(j.misfits) && Array.isArray(j.paleoGradients)).toBe(true);
     // With the demo model: today's depth to each sample's peak temperature is given.
     expect(j.paleoGradients.some((p: { todayDepthKm: number | null }) => p.todayDepthKm !== null)).toBe(true);

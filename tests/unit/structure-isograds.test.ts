@@ -136,7 +136,14 @@ describe('isograds on constructed cases', () => {
     const rep = faultReport({ trace, kind: 'normal', dipDirectionDeg: 90 }, r.field, { supportKm: r.supportKm, faultDistanceKm: 10 });
     const sep = rep.separations.filter((s) => s.isograd === 'garnet-in');
     expect(sep.length).toBe(1);
-    expect(Math.abs(sep[0].separationKm - 8)).toBeLessThan(1.5);
+    expect(Math.abs(sep[0].separationKm.value - 8)).toBeLessThan(1.5);
+    expect(sep[0].separationKm.low).toBeLessThanOrEqual(8);
+    expect(sep[0].separationKm.high).toBeGreaterThanOrEqual(8);
+    expect(sep[0].end).toBe('N'); // a single meeting named from the trace's middle: it lies north of it
+    // The east side's isograd lies 8 km further north: seen across the fault the far block moved left (sinistral);
+    // grade rises northwards, so the east side's isograd is displaced towards higher grade.
+    expect(sep[0].sense).toBe('sinistral');
+    expect(sep[0].displacedTowardHigherGrade).toBe('E side (hanging wall)');
     expect(Math.abs(sep[0].leftAlongKm - 40)).toBeLessThan(1.5); // trace length 80 km, y = 0 at 40 km along
     expect(rep.hangingWall).toBe('right');
     expect(rep.higherSide).toBe('left');
@@ -148,14 +155,28 @@ describe('isograds on constructed cases', () => {
     }
   });
 
-  it('detects a zone missing across a fault (kyanite on the left only; garnet on the right only)', () => {
-    // Left (west): staurolite south, kyanite north; right (east): garnet south, staurolite north.
+  it('a zone missing across a fault: one side only below it, the other only above, on neither', () => {
+    // Left (west): biotite south, garnet north; right (east): kyanite south, sillimanite north → staurolite is cut out.
+    const d = lattice(-24, 24, -30, 30, 2, (px, py) => (px < 0 ? (py >= 0 ? 2 : 1) : (py >= 0 ? 5 : 4)), (px) => Math.abs(px) < 0.3);
+    const r = computeIsogradsKm(d.x, d.y, d.g, tracePieces([trace]), { cellKm: 0.5 });
+    const rep = faultReport({ trace }, r.field, { supportKm: r.supportKm, sampleIds: d.g.map((g) => g.id) });
+    // South of y = 0 biotite faces kyanite (garnet and staurolite cut out), north garnet faces sillimanite
+    // (staurolite and kyanite cut out).
+    expect(rep.missingZones.map((z) => z.zone)).toEqual(['garnet', 'staurolite', 'kyanite']);
+    for (const z of rep.missingZones) expect(z.sampleIds.length).toBeGreaterThan(2);
+    expect(rep.repeatedZones).toEqual([]);
+    expect(rep.offsetOnly).toBe(false);
+    expect(rep.higherSide).toBe('right');
+  });
+
+  it('a top or bottom zone that does not reach one side is "not reached", not missing', () => {
+    // Left: staurolite south, kyanite north; right: garnet south, staurolite north (the old "missing" case).
     const d = lattice(-24, 24, -30, 30, 2, (px, py) => (px < 0 ? (py >= 0 ? 4 : 3) : (py >= 0 ? 3 : 2)), (px) => Math.abs(px) < 0.3);
     const r = computeIsogradsKm(d.x, d.y, d.g, tracePieces([trace]), { cellKm: 0.5 });
     const rep = faultReport({ trace }, r.field, { supportKm: r.supportKm });
-    expect(rep.missingZoneDetails).toContainEqual({ zone: 'kyanite', missingOn: 'right', basis: 'samples' });
-    expect(rep.missingZoneDetails).toContainEqual({ zone: 'garnet', missingOn: 'left', basis: 'samples' });
-    expect(rep.missingZones).not.toContain('staurolite');
+    expect(rep.missingZones).toEqual([]);
+    expect(rep.notReached).toContainEqual({ isograd: 'kyanite-in', side: 'right', sideName: 'E side' });
+    expect(rep.notReached).toContainEqual({ isograd: 'staurolite-in', side: 'left', sideName: 'W side' });
     expect(rep.gradeJump).toBe(1);
     expect(rep.higherSide).toBe('left');
   });

@@ -1,0 +1,85 @@
+import { describe, it, expect } from 'vitest';
+import { prng } from '../helpers/prng.ts';
+import { computeIsogradsKm, buildTrace, tracePieces, faultReport, type SampleGrade } from '../../shared/structure/index.ts';
+
+// Constructed domes cut by faults, in local km. A dome's surface peak temperature falls 5 °C/km from its centre and
+// rises 25 °C/km with depth, so each isograd surface is a cone dipping outwards at atan(5/25) = 11.31°. Zones open at
+// 420, 500, 560, 620 and 670 °C (biotite … sillimanite; the demo's values, invented).
+const ZONE_IN_C = [420, 500, 560, 620, 670];
+const rankOf = (tC: number) => ZONE_IN_C.filter((t) => tC >= t).length;
+const FALL = 5, GRADIENT = 25, DEG = Math.PI / 180;
+
+function lattice(half: number, spacing: number, tempAt: (x: number, y: number) => number, skip: (x: number) => boolean) {
+  const rnd = prng(11);
+  const xs: number[] = [], ys: number[] = [], g: SampleGrade[] = [];
+  for (let x = -half; x <= half; x += spacing) for (let y = -half; y <= half; y += spacing) {
+    const px = x + 0.3 * spacing * (rnd() - 0.5), py = y + 0.3 * spacing * (rnd() - 0.5);
+    if (skip(px)) continue;
+    const r = rankOf(tempAt(px, py));
+    xs.push(px); ys.push(py); g.push({ id: `s${g.length}`, lo: r, hi: r, source: 'zone', zone: null, series: 'barrovian', label: null });
+  }
+  return { x: Float64Array.from(xs), y: Float64Array.from(ys), g };
+}
+
+describe('constructed dome cut by a normal fault with known throw and dips', () => {
+  // Fault trace x = 8 km drawn south → north (east is its right side), dipping 60° east: the hanging wall is east.
+  // Throw 1.5 km, pure dip slip d = 1.5 / sin 60° = 1.732 km (right triangle in the vertical plane of the dip). The
+  // hanging-wall rock now at (x, y) sat at (x − d·cos 60°, y), 1.5 km higher, before the slip.
+  const dipDeg = 60, throwKm = 1.5, dKm = throwKm / Math.sin(dipDeg * DEG);
+  const temp = (x: number, y: number) => (x < 8 ? 700 - FALL * Math.hypot(x, y) : 700 - FALL * Math.hypot(x - dKm * Math.cos(dipDeg * DEG), y) - GRADIENT * throwKm);
+  const d = lattice(60, 2, temp, (x) => Math.abs(x - 8) < 0.3);
+  const trace = buildTrace('N1', [[[8, -60], [8, 60]]]).trace;
+  const r = computeIsogradsKm(d.x, d.y, d.g, tracePieces([trace]), { cellKm: 0.5 });
+  const isogradDipDeg = Math.atan(FALL / GRADIENT) / DEG;
+  const rep = faultReport({ trace, kind: 'normal', dipDeg, dipDirectionDeg: 90 }, r.field, { supportKm: r.supportKm, isogradDipDeg, sampleIds: d.g.map((q) => q.id) });
+
+  it('the dip-slip range of each isograd end covers the constructed 1.73 km, with normal sense', () => {
+    expect(rep.separations.length).toBeGreaterThanOrEqual(6);
+    for (const s of rep.separations) {
+      expect(s.slipSense, `${s.isograd} ${s.end}`).toBe('normal');
+      expect(s.dipSlipKm, `${s.isograd} ${s.end}`).toBeDefined();
+      expect(dKm, `${s.isograd} ${s.end}`).toBeGreaterThanOrEqual(s.dipSlipKm!.low);
+      expect(dKm, `${s.isograd} ${s.end}`).toBeLessThanOrEqual(s.dipSlipKm!.high);
+      expect(['N', 'S']).toContain(s.end);
+      expect(s.displacedTowardHigherGrade).toBe('E side (hanging wall)');
+    }
+    expect(rep.missingZones, JSON.stringify(rep.missingZones)).toEqual([]);
+    expect(rep.repeatedZones).toEqual([]);
+    expect(rep.offsetOnly).toBe(true);
+  });
+
+  it('the separations themselves bracket the constructed ones (chord geometry of the offset cones)', () => {
+    // Footwall meeting of isograd T: y² = R² − 8², R = (700 − T)/5; hanging wall: y² = R'² − (8 − 0.866)², R' = (662.5 − T)/5.
+    for (const s of rep.separations) {
+      const T = ZONE_IN_C[['biotite-in', 'garnet-in', 'staurolite-in', 'kyanite-in', 'sillimanite-in'].indexOf(s.isograd)];
+      const R = (700 - T) / FALL, R2 = (700 - GRADIENT * throwKm - T) / FALL, x2 = 8 - dKm * Math.cos(dipDeg * DEG);
+      const truth = Math.sqrt(R * R - 64) - Math.sqrt(R2 * R2 - x2 * x2);
+      expect(truth).toBeGreaterThanOrEqual(s.separationKm.low);
+      expect(truth).toBeLessThanOrEqual(s.separationKm.high);
+    }
+  });
+});
+
+describe('constructed dome cut by a thrust that repeats zones', () => {
+  // Thrust trace x = −30 km drawn north → south (so west is its right side... drawn south → north: west is left),
+  // dipping 30° west: the western sheet is carried from 12 km further in, so walking east the grade rises, drops at
+  // the trace and rises again: garnet and staurolite occur on both sides.
+  const temp = (x: number, y: number) => (x < -30 ? 700 - FALL * (Math.hypot(x, y) - 12) : 700 - FALL * Math.hypot(x, y));
+  const d = lattice(60, 2, temp, (x) => Math.abs(x + 30) < 0.3);
+  const trace = buildTrace('T1', [[[-30, -40], [-30, 40]]]).trace;
+  const r = computeIsogradsKm(d.x, d.y, d.g, tracePieces([trace]), { cellKm: 0.5 });
+
+  it('reports the zones as repeated (with their samples), none missing', () => {
+    const rep = faultReport({ trace, kind: 'thrust', dipDeg: 30, dipDirectionDeg: 270 }, r.field, { supportKm: r.supportKm, sampleIds: d.g.map((q) => q.id) });
+    expect(rep.repeatedZones.map((z) => z.zone)).toEqual(expect.arrayContaining(['garnet', 'staurolite']));
+    for (const z of rep.repeatedZones) expect(z.sampleIds.length).toBeGreaterThanOrEqual(2);
+    expect(rep.missingZones).toEqual([]);
+    expect(rep.warnings.join()).not.toMatch(/against the fault's kind/);
+  });
+
+  it('the same repetition on a fault recorded as normal is flagged as a conflict with its kind', () => {
+    const rep = faultReport({ trace, kind: 'normal' }, r.field, { supportKm: r.supportKm });
+    expect(rep.repeatedZones.length).toBeGreaterThan(0);
+    expect(rep.warnings.join()).toMatch(/repeated across a fault recorded as normal/);
+  });
+});
