@@ -75,7 +75,8 @@ export async function startServer(opts: ServerOptions) {
     const s = serve({ fetch: app.fetch, port: opts.port, hostname: host }, () => resolve(s));
   });
   const port = (server.address() as AddressInfo).port;
-  const shown = host === '0.0.0.0' || host === '::' ? 'localhost' : host.includes(':') ? `[${host}]` : host;
+  // Loopback and all-interfaces binds are reached at localhost from this machine (scripts read this line).
+  const shown = ['0.0.0.0', '::', '127.0.0.1', '::1', 'localhost'].includes(host) ? 'localhost' : host.includes(':') ? `[${host}]` : host;
   log(`subtherm listening on http://${shown}:${port} (database ${opts.dbPath})${host === '127.0.0.1' || host === 'localhost' || host === '::1' ? '; this machine only (--host 0.0.0.0 serves the network)' : ''}`);
   const close = async () => {
     await app.close();
