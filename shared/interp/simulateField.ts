@@ -1,6 +1,5 @@
 import { InputError } from '../errors.ts';
 import type { GridSpec } from '../grid/grid.ts';
-import { quantileSorted } from '../thermal/quantiles.ts';
 import { converter, lonLatToLocalKm, rowCentresLocalKm, type OutputGridOptions } from './projection.ts';
 import { prepareInterpolation, type PointData, type VariogramReport, type PreparedInterpolation } from './interpolate.ts';
 import type { CrossValidation } from './crossValidation.ts';
@@ -176,6 +175,29 @@ export function simulateGrid(points: PointData, opts: SimulationOptions): Simula
   return { ...res, grid: g, cellKm: prep.cellKm };
 }
 
+const PROBS = [0.1, 0.5, 0.9];
+
+/** Hoare's selection (Floyd–Rivest-free quickselect, median-of-three pivot): puts order statistic k of a[lo..hi] at k. */
+function select(a: Float64Array, lo: number, hi: number, k: number): void {
+  while (hi > lo) {
+    const mid = (lo + hi) >> 1;
+    // Median of three as the pivot.
+    if (a[mid] < a[lo]) { const t = a[mid]; a[mid] = a[lo]; a[lo] = t; }
+    if (a[hi] < a[lo]) { const t = a[hi]; a[hi] = a[lo]; a[lo] = t; }
+    if (a[hi] < a[mid]) { const t = a[hi]; a[hi] = a[mid]; a[mid] = t; }
+    const pivot = a[mid];
+    let i = lo, j = hi;
+    while (i <= j) {
+      while (a[i] < pivot) i++;
+      while (a[j] > pivot) j--;
+      if (i <= j) { const t = a[i]; a[i] = a[j]; a[j] = t; i++; j--; }
+    }
+    if (k <= j) hi = j;
+    else if (k >= i) lo = i;
+    else return;
+  }
+}
+
 export interface TargetSummaries {
   mean: Float32Array;
   sd: Float32Array;
@@ -185,25 +207,49 @@ export interface TargetSummaries {
 }
 
 /**
- * Per-target mean, sample standard deviation (n − 1) and P10/P50/P90 (Hyndman & Fan 1996 type 7) over the
- * realizations; NaN where any realization is NaN.
+ * Per-target mean, sample standard deviation (n − 1) and P10/P50/P90 (Hyndman & Fan 1996 type 7, linear between
+ * order statistics found by selection, Hoare 1961) over the realizations; NaN where any realization is NaN.
  */
 export function summarizeTargets(values: Float32Array, R: number, T: number): TargetSummaries {
   const out: TargetSummaries = { mean: new Float32Array(T), sd: new Float32Array(T), p10: new Float32Array(T), p50: new Float32Array(T), p90: new Float32Array(T) };
-  const buf = new Float64Array(R);
-  for (let t = 0; t < T; t++) {
-    let s = 0, bad = false;
-    for (let r = 0; r < R; r++) { const v = values[r * T + t]; if (v !== v) { bad = true; break; } buf[r] = v; s += v; }
-    if (bad) { out.mean[t] = out.sd[t] = out.p10[t] = out.p50[t] = out.p90[t] = NaN; continue; }
-    const mean = s / R;
-    let ss = 0;
-    for (let r = 0; r < R; r++) ss += (buf[r] - mean) ** 2;
-    buf.sort();
-    out.mean[t] = mean;
-    out.sd[t] = R > 1 ? Math.sqrt(ss / (R - 1)) : NaN;
-    out.p10[t] = quantileSorted(buf, 0, R, 0.1);
-    out.p50[t] = quantileSorted(buf, 0, R, 0.5);
-    out.p90[t] = quantileSorted(buf, 0, R, 0.9);
+  // Cells in blocks: the block's values are gathered realization by realization (contiguous reads), then each
+  // cell's R values are sorted.
+  const BLOCK = 512;
+  const blk = new Float64Array(R * BLOCK);
+  for (let t0 = 0; t0 < T; t0 += BLOCK) {
+    const nb = Math.min(BLOCK, T - t0);
+    for (let r = 0; r < R; r++) {
+      const base = r * T + t0;
+      for (let j = 0; j < nb; j++) blk[j * R + r] = values[base + j];
+    }
+    for (let j = 0; j < nb; j++) {
+      const t = t0 + j;
+      const buf = blk.subarray(j * R, j * R + R);
+      let s = 0, bad = false;
+      for (let r = 0; r < R; r++) { const v = buf[r]; if (v !== v) { bad = true; break; } s += v; }
+      if (bad) { out.mean[t] = out.sd[t] = out.p10[t] = out.p50[t] = out.p90[t] = NaN; continue; }
+      const mean = s / R;
+      let ss = 0;
+      for (let r = 0; r < R; r++) ss += (buf[r] - mean) ** 2;
+      out.mean[t] = mean;
+      out.sd[t] = R > 1 ? Math.sqrt(ss / (R - 1)) : NaN;
+      // Ascending selections: after placing order statistic k, everything right of it is ≥, so the next quantile
+      // selects within the right part only.
+      let from = 0;
+      for (let q = 0; q < 3; q++) {
+        const h = (R - 1) * PROBS[q];
+        const k = Math.floor(h), f = h - k;
+        select(buf, from, R - 1, k);
+        let v = buf[k];
+        if (f > 0 && k + 1 < R) {
+          let m = Infinity;
+          for (let i = k + 1; i < R; i++) if (buf[i] < m) m = buf[i];
+          v += f * (m - v);
+        }
+        (q === 0 ? out.p10 : q === 1 ? out.p50 : out.p90)[t] = v;
+        from = k;
+      }
+    }
   }
   return out;
 }

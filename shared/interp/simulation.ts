@@ -1,5 +1,5 @@
 import { createStream, type RandomStream } from '../random/prng.ts';
-import { Fft, fft2d, nextPow2 } from './fft.ts';
+import { Fft, fft2d, nextFftSize } from './fft.ts';
 import { KrigingPredictor } from './kriging.ts';
 import { choleskyInPlace } from './linalg.ts';
 import { anisotropyMatrix, correlation, modelCode, checkVariogram, type Anisotropy, type VariogramModel } from './variogram.ts';
@@ -17,7 +17,7 @@ import { anisotropyMatrix, correlation, modelCode, checkVariogram, type Anisotro
  * - `cholesky` (the LU method, Davis 1987): the joint covariance matrix of all distinct sites is factored once,
  *   C = L·Lᵀ, and each realization is L·ε; exact, for up to `MAX_CHOLESKY_SITES` sites;
  * - `lattice` (circulant embedding, Wood & Chan 1994; Dietrich & Newsam 1997): a regular lattice of spacing h km
- *   is embedded in a periodic torus of power-of-two sides whose covariance matrix is circulant, so its
+ *   is embedded in a periodic torus (sides 2^a·3^b·5^c) whose covariance matrix is circulant, so its
  *   eigenvalues are the FFT of its first row; Y = FFT(√(λ/M)·(ε₁ + iε₂)) then gives two independent realizations
  *   (real and imaginary parts). Data and targets take the value of their nearest lattice node (an approximation
  *   of at most h/√2 km in position); the nugget is added as independent white noise per distinct site.
@@ -84,6 +84,32 @@ function buildSites(x: Float64Array, y: Float64Array, tx: Float64Array, ty: Floa
   return { sx: Float64Array.from(sx), sy: Float64Array.from(sy), dataSite, targetSite };
 }
 
+/**
+ * Standard normal draws by Marsaglia's polar method (Marsaglia & Bray 1964): pairs (u, v) uniform in the square
+ * from one 32-bit output each, kept when s = u² + v² ∈ (0, 1), giving u·√(−2 ln s / s) and v·√(−2 ln s / s);
+ * one logarithm per two draws and no trigonometry. Multiplies draw k by `scale[k]` (or 1) and adds it to out[k]
+ * when `add`, else stores it.
+ */
+export function fillNormals(rng: RandomStream, out: Float64Array, scale: Float64Array | null, scalar: number, add: boolean): void {
+  const n = out.length;
+  const K = 2 / 4294967296;
+  for (let k = 0; k < n; k += 2) {
+    let u: number, v: number, q: number;
+    do {
+      u = rng.nextUint32() * K - 1;
+      v = rng.nextUint32() * K - 1;
+      q = u * u + v * v;
+    } while (q >= 1 || q === 0);
+    const f = Math.sqrt((-2 * Math.log(q)) / q) * scalar;
+    const a = u * f, b = v * f;
+    if (scale !== null) {
+      if (add) { out[k] += a * scale[k]; if (k + 1 < n) out[k + 1] += b * scale[k + 1]; }
+      else { out[k] = a * scale[k]; if (k + 1 < n) out[k + 1] = b * scale[k + 1]; }
+    } else if (add) { out[k] += a; if (k + 1 < n) out[k + 1] += b; }
+    else { out[k] = a; if (k + 1 < n) out[k + 1] = b; }
+  }
+}
+
 /** Samples unconditional values at the distinct sites: realization r into `out`. */
 interface Sampler {
   readonly kind: 'cholesky' | 'lattice';
@@ -139,8 +165,7 @@ class CholeskySampler implements Sampler {
 
   sample(seed: number, r: number, out: Float64Array): void {
     const { L, n, eps } = this;
-    const rng = this.rng.reset(seed, r);
-    for (let i = 0; i < n; i++) eps[i] = rng.normal();
+    fillNormals(this.rng.reset(seed, r), eps, null, 1, false);
     for (let i = 0; i < n; i++) {
       const ri = i * n;
       let s = 0;
@@ -180,7 +205,7 @@ class LatticeSampler implements Sampler {
     // Start from the smaller of "lattice + correlation length" and twice the lattice (enough when the covariance
     // is smooth at the lattice's scale, Dietrich & Newsam 1997); grow while eigenvalues come out negative.
     const pad = Math.ceil(reach / h);
-    let mx = nextPow2(Math.max(2, Math.min(nx + pad, 2 * nx))), my = nextPow2(Math.max(2, Math.min(ny + pad, 2 * ny)));
+    let mx = nextFftSize(Math.max(2, Math.min(nx + pad, 2 * nx))), my = nextFftSize(Math.max(2, Math.min(ny + pad, 2 * ny)));
     let lam: Float64Array | null = null;
     let negMass = 0, total = 0;
     for (let attempt = 0; attempt < 3; attempt++) {
@@ -197,7 +222,7 @@ class LatticeSampler implements Sampler {
           re[j * mx + i] = cov(sx * dx, sy * dy);
         }
       }
-      fft2d(re, im, mx, my, new Fft(mx), new Fft(my));
+      fft2d(re, im, mx, my, new Fft(mx), new Fft(my, mx));
       negMass = 0; total = 0;
       for (let k = 0; k < re.length; k++) {
         const v = re[k];
@@ -216,7 +241,7 @@ class LatticeSampler implements Sampler {
     for (let k = 0; k < M; k++) this.sqrtLam[k] = lam![k] > 0 ? Math.sqrt(lam![k] / M) : 0;
     this.mx = mx; this.my = my;
     this.re = new Float64Array(M); this.im = new Float64Array(M);
-    this.fx = new Fft(mx); this.fy = new Fft(my);
+    this.fx = new Fft(mx); this.fy = new Fft(my, mx);
     this.node = new Int32Array(s.sx.length);
     for (let i = 0; i < s.sx.length; i++) {
       const c = Math.round((s.sx[i] - x0) / h), r = Math.round((s.sy[i] - y0) / h);
@@ -228,22 +253,15 @@ class LatticeSampler implements Sampler {
 
   sample(seed: number, r: number, outA: Float64Array, outB: Float64Array | null): void {
     const { re, im, sqrtLam, node } = this;
-    const M = re.length;
-    const ra = this.rng.reset(seed, r);
-    for (let k = 0; k < M; k++) re[k] = sqrtLam[k] * ra.normal();
-    const rb = this.rng.reset(seed, r + 1);
-    for (let k = 0; k < M; k++) im[k] = sqrtLam[k] * rb.normal();
+    fillNormals(this.rng.reset(seed, r), re, sqrtLam, 1, false);
+    fillNormals(this.rng.reset(seed, r + 1), im, sqrtLam, 1, false);
     fft2d(re, im, this.mx, this.my, this.fx, this.fy);
     const ns = node.length;
     for (let i = 0; i < ns; i++) outA[i] = re[node[i]];
     if (outB !== null) for (let i = 0; i < ns; i++) outB[i] = im[node[i]];
     if (this.nuggetSd > 0) {
-      const na = this.rng.reset(seed, r, 1);
-      for (let i = 0; i < ns; i++) outA[i] += this.nuggetSd * na.normal();
-      if (outB !== null) {
-        const nb = this.rng.reset(seed, r + 1, 1);
-        for (let i = 0; i < ns; i++) outB[i] += this.nuggetSd * nb.normal();
-      }
+      fillNormals(this.rng.reset(seed, r, 1), outA, null, this.nuggetSd, true);
+      if (outB !== null) fillNormals(this.rng.reset(seed, r + 1, 1), outB, null, this.nuggetSd, true);
     }
   }
 }

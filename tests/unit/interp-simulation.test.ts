@@ -184,3 +184,26 @@ describe('unconditional simulation: variogram and histogram reproduction', () =>
     expect(ns.forward(sorted[0])).toBeCloseTo(-2.935, 2); // Φ⁻¹(0.5/300), standard normal table
   });
 });
+
+describe('per-target summaries of realizations', () => {
+  it('P10/P50/P90 equal d3-array quantile (type 7) and mean/sd the plain formulas, with ties and odd counts', async () => {
+    const { quantile } = await import('d3-array');
+    const { summarizeTargets } = await import('../../shared/interp/simulateField.ts');
+    const r = prng(4);
+    for (const R of [1, 2, 7, 200, 201]) {
+      const T = 600;
+      const v = new Float32Array(R * T);
+      for (let i = 0; i < v.length; i++) v[i] = Math.round(r() * 40) / 4;
+      const s = summarizeTargets(v, R, T);
+      for (let t = 0; t < T; t += 37) {
+        const a = Array.from({ length: R }, (_, k) => v[k * T + t]);
+        expect(s.p10[t]).toBeCloseTo(quantile(a, 0.1)!, 5);
+        expect(s.p50[t]).toBeCloseTo(quantile(a, 0.5)!, 5);
+        expect(s.p90[t]).toBeCloseTo(quantile(a, 0.9)!, 5);
+        const mean = a.reduce((x, y) => x + y, 0) / R;
+        expect(s.mean[t]).toBeCloseTo(mean, 4);
+        if (R > 1) expect(s.sd[t]).toBeCloseTo(Math.sqrt(a.reduce((x, y) => x + (y - mean) ** 2, 0) / (R - 1)), 4);
+      }
+    }
+  });
+});
