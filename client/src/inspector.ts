@@ -23,7 +23,10 @@ export interface ColumnAnswer {
   isothermDepthsKm: Record<string, number | null | { p10: number | null; p50: number | null; p90: number | null }>;
   basalHeatFlowMWm2?: number | null;
   reducedHeatFlowMWm2?: number | null;
-  solidusCrossingKm?: { wetGranite: number | null; dryPeridotite: number | null };
+  solidusCrossingKm?: { wetSolidus: number | null; meltOnset: number | null };
+  meltOnset?: { layer: string; label: string } | null;
+  wetSolidus?: { layer: string; label: string } | null;
+  lithosphereBaseKm?: number | null;
   profile: ColumnPoint[];
   band?: {
     depthKm: number[];
@@ -248,8 +251,11 @@ export function columnSummary(c: ColumnAnswer, heatFlowSource: string): HTMLElem
     rows.push([`Depth to ${t} °C (P10 / P50 / P90)`, `${f(v.p10)} / ${f(v.p50)} / ${f(v.p90)}`, 'km']);
   }
   if (c.solidusCrossingKm) {
-    rows.push(['Wet granite solidus reached at', c.solidusCrossingKm.wetGranite === null ? 'not reached' : fmt(c.solidusCrossingKm.wetGranite, 1), c.solidusCrossingKm.wetGranite === null ? '' : 'km']);
-    rows.push(['Dry peridotite solidus reached at', c.solidusCrossingKm.dryPeridotite === null ? 'not reached' : fmt(c.solidusCrossingKm.dryPeridotite, 1), c.solidusCrossingKm.dryPeridotite === null ? '' : 'km']);
+    // Rock-aware crossings: no temperature is shown below the melt onset.
+    const w = c.solidusCrossingKm.wetSolidus, m = c.solidusCrossingKm.meltOnset;
+    rows.push([`Water-saturated solidus reached at${c.wetSolidus ? ` (${c.wetSolidus.label}, ${c.wetSolidus.layer})` : ''}`, w === null ? 'not reached' : fmt(w, 1), w === null ? '' : 'km']);
+    rows.push([`Melt onset, no temperature below${c.meltOnset ? ` (${c.meltOnset.label}, ${c.meltOnset.layer})` : ''}`, m === null ? 'not reached' : fmt(m, 1), m === null ? '' : 'km']);
+    if (c.lithosphereBaseKm !== undefined) rows.push(['Lithosphere base (mantle adiabat below)', c.lithosphereBaseKm === null ? 'not reached' : fmt(c.lithosphereBaseKm, 1), c.lithosphereBaseKm === null ? '' : 'km']);
   }
   const table = el('table', { class: 'kv', id: 'column-summary' }, el('tbody', {}, ...rows.map(([k, v, u]) => el('tr', {}, el('th', { scope: 'row' }, k), el('td', { class: 'num' }, v), el('td', { class: 'unit' }, u)))));
   const src = el('p', { class: 'note', id: 'column-source' }, `Heat flow from: ${heatFlowSource}`);

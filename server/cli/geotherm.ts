@@ -12,15 +12,19 @@ import {
   COLUMN_CONDUCTIVITY_UNDEFINED,
   COLUMN_FLOW_EXHAUSTED,
   STDERR_P50_METHOD,
-  columnIsothermDepth,
   columnProfile,
-  columnTemperature,
   compileModel,
   isUncertainModel,
   layerAt,
   monteCarloColumn,
   nominalModel,
-  solidusCrossings,
+  describePorePressure,
+  limitedIsothermDepth,
+  limitedTemperature,
+  limitsToJson,
+  parsePorePressureMode,
+  porePressureAt,
+  sampleFlag,
   summaryToJson,
   type CompiledModel,
 } from '../../shared/thermal/index.ts';
@@ -39,6 +43,13 @@ Steady-state conductive geotherm of one column (screening estimate).
   --surface-temp-c T      surface temperature, °C (overrides the model)
   --realizations N        Monte Carlo realizations over the model's distributions
   --seed S                seed of the Monte Carlo (integer, default 1)
+  --pore-pressure MODE    hydrostatic (default) or lambda:λ (pore pressure = λ × lithostatic, e.g. lambda:0.7)
+  --fluid-density-kg-m3 R pore-fluid density for hydrostatic pressure, kg/m³ (default 1000)
+
+Each layer's rock (sediment, felsic-crust (default), mafic-crust, mantle) chooses its solidus curves: reaching the
+water-saturated one is a warning; reaching the fluid-absent/dry one is the melt onset, below which no temperature is
+given. In mantle layers the temperature follows the conductive geotherm down to the mantle adiabat
+(mantlePotentialTemperatureC, default 1330 °C) and the adiabat below.
   --json                  print one JSON object
 `;
 
@@ -80,6 +91,8 @@ export async function geotherm(argv: string[]): Promise<number> {
     'surface-temp-c': { type: 'string' },
     realizations: { type: 'string' },
     seed: { type: 'string' },
+    'pore-pressure': { type: 'string' },
+    'fluid-density-kg-m3': { type: 'string' },
   });
   if (v.help) {
     process.stdout.write(HELP);
@@ -103,6 +116,14 @@ export async function geotherm(argv: string[]): Promise<number> {
   const seed = numberOption('seed', v.seed as string | undefined, 1);
   if (!Number.isSafeInteger(seed)) throw bad('seed', `must be an integer, got ${seed}`);
 
+  const fluidDensity = numberOption('fluid-density-kg-m3', v['fluid-density-kg-m3'] as string | undefined, 1000);
+  let pore;
+  try {
+    pore = parsePorePressureMode(v['pore-pressure'] as string | undefined, fluidDensity);
+  } catch (e) {
+    throw bad(v['pore-pressure'] === undefined ? 'fluid-density-kg-m3' : 'pore-pressure', (e as Error).message);
+  }
+
   const model = await readModel(v.model as string);
   const nominal = nominalModel(model);
   if (surfaceT !== undefined) nominal.surfaceTemperatureC = surfaceT;
@@ -122,27 +143,47 @@ export async function geotherm(argv: string[]): Promise<number> {
     );
   }
   const warnings = [...prof.warnings];
-  const crossings = solidusCrossings(cm, st, maxDepthKm, Math.min(stepKm, 0.1));
+  const lim = prof.limits;
+  const poreInfo = describePorePressure(pore);
+  if (poreInfo.warning !== null) warnings.push(poreInfo.warning);
 
   // Key order of DESIGN.md §4 first; the Monte Carlo branch below replaces the values in place.
   const out: Record<string, unknown> = { isothermDepthsKm: null, temperatureAtDepthsC: null };
   if (realizations === undefined) {
-    out.isothermDepthsKm = Object.fromEntries(isotherms.map((t) => [key(t), num(columnIsothermDepth(cm, st, t, maxDepthKm))]));
-    out.temperatureAtDepthsC = Object.fromEntries(depthsKm.map((z) => [key(z), num(columnTemperature(cm, st, z))]));
+    out.isothermDepthsKm = Object.fromEntries(isotherms.map((t) => [key(t), num(limitedIsothermDepth(cm, st, lim, t, maxDepthKm))]));
+    out.temperatureAtDepthsC = Object.fromEntries(depthsKm.map((z) => [key(z), num(limitedTemperature(cm, st, lim, z))]));
+    const below = isotherms.filter((t) => !(limitedIsothermDepth(cm, st, lim, t, maxDepthKm) >= 0) && lim.endReason !== null);
+    if (below.length > 0) warnings.push(`isotherms ${below.join(', ')} °C: not reached above ${r6(lim.validToKm)} km, where the column ends (${lim.endReason}); null`);
+    const deep = depthsKm.filter((z) => z > lim.validToKm);
+    if (deep.length > 0) warnings.push(`temperatures at ${deep.join(', ')} km: below ${r6(lim.validToKm)} km, where the column ends (${lim.endReason}); null`);
   }
   out.profile = Array.from(prof.depthKm, (z, j) => {
     const t = prof.temperatureC[j], p = prof.pressureMPa[j];
     const f = Number.isFinite(t) ? classifyFacies(t, p / 100) : null;
-    return { depthKm: r6(z), temperatureC: num(t), heatFlowMWm2: num(prof.heatFlowMWm2[j]), pressureMPa: num(p), facies: f?.facies ?? null };
+    const pp = porePressureAt(pore, z, p, cm.gravityMS2);
+    return {
+      depthKm: r6(z),
+      temperatureC: num(t),
+      heatFlowMWm2: num(prof.heatFlowMWm2[j]),
+      pressureMPa: num(p),
+      porePressureMPa: num(pp.porePressureMPa),
+      poreFluidFactor: num(pp.poreFluidFactor),
+      effectivePressureMPa: num(pp.effectivePressureMPa),
+      facies: f?.facies ?? null,
+      regime: Number.isFinite(t) ? (prof.adiabatic[j] ? 'adiabat' : 'conductive') : null,
+      flag: sampleFlag(lim, z),
+    };
   });
   out.basalHeatFlowMWm2 = num(prof.basalHeatFlowMWm2);
   out.reducedHeatFlowMWm2 = num(prof.reducedHeatFlowMWm2);
-  out.reducedHeatFlowMethod = cm.reducedHeatFlowMethod === 'exponential' ? 'q0 − A0·D (exponential top layer)' : 'q0 − A0·H (flow below the constant top layer)';
-  out.solidusCrossingKm = { wetGranite: num(crossings.wetGranite), dryPeridotite: num(crossings.dryPeridotite) };
+  out.reducedHeatFlowMethod = reducedMethod(cm);
+  out.solidusCrossingKm = { wetSolidus: num(lim.wetSolidusKm), meltOnset: num(lim.meltOnsetKm) };
+  Object.assign(out, limitsToJson(cm, lim));
+  out.porePressure = { mode: pore.kind === 'hydrostatic' ? 'hydrostatic' : `lambda:${pore.lambda}`, method: poreInfo.method };
   out.surfaceHeatFlowMWm2 = q0;
   out.surfaceTemperatureC = cm.surfaceTemperatureC;
-  out.inconsistent = (st.status & COLUMN_FLOW_EXHAUSTED) !== 0;
-  out.validToKm = num(st.validToKm);
+  // Not valid throughout: heat flow exhausted, k(T) undefined, or melt onset above the maximum depth.
+  out.inconsistent = (st.status & COLUMN_FLOW_EXHAUSTED) !== 0 || lim.endReason !== null;
 
   if (realizations !== undefined) {
     if (!isUncertainModel(model)) warnings.push('the model has no distributions: every realization is the same');
@@ -159,7 +200,7 @@ export async function geotherm(argv: string[]): Promise<number> {
     out.isothermDepthsKm = Object.fromEntries(isotherms.map((t, k) => [key(t), sj(mc.isothermDepthsKm[k])]));
     out.temperatureAtDepthsC = Object.fromEntries(depthsKm.map((z, k) => [key(z), sj(mc.temperatureAtDepthsC[k])]));
     const sc = mc.solidusCrossingKm!;
-    out.solidusCrossingKm = { wetGranite: sj(sc.wetGranite), dryPeridotite: sj(sc.dryPeridotite) };
+    out.solidusCrossingKm = { wetSolidus: sj(sc.wetSolidus), meltOnset: sj(sc.meltOnset), lithosphereBase: sj(sc.lithosphereBase) };
     out.monteCarlo = {
       realizations,
       seed,
@@ -173,7 +214,7 @@ export async function geotherm(argv: string[]): Promise<number> {
     };
     warnings.push('profile, basal and reduced heat flow are for the nominal model (distribution means/modes); percentiles come from the realizations');
     if (mc.rejected > 0) warnings.push(`${mc.rejected} of ${realizations} realizations had physically impossible draws and were left out (first: ${mc.firstRejection})`);
-    if (mc.inconsistent > 0) warnings.push(`${mc.inconsistent} of ${realizations} realizations had a column that is not valid throughout (heat flow exhausted or k(T) undefined); values below that depth are left out`);
+    if (mc.inconsistent > 0) warnings.push(`${mc.inconsistent} of ${realizations} realizations had a column that is not valid throughout (melt onset, heat flow exhausted or k(T) undefined); values below that depth are left out`);
   }
   out.warnings = warnings;
   out.caution = CAUTION;
@@ -185,6 +226,14 @@ export async function geotherm(argv: string[]): Promise<number> {
   }
   process.stdout.write(renderTable(out, isotherms, depthsKm, realizations !== undefined));
   return 0;
+}
+
+/** How the reduced heat flow was defined, in words. */
+function reducedMethod(cm: CompiledModel): string {
+  const i = cm.reducedHeatFlowLayer;
+  if (i < 0) return 'not applicable: no layer is marked heatProducingUpperCrust';
+  const above = i > 0 ? ' minus the heat produced above it' : '';
+  return cm.reducedHeatFlowMethod === 'exponential' ? `q0 − A0·D of ${cm.names[i]} (exponential; Birch/Lachenbruch q0 = qr + D·A0)${above}` : `flow below ${cm.names[i]} (constant heat production): q0 − ∫A dz to its base`;
 }
 
 function fmt(v: unknown, digits = 2): string {
@@ -205,10 +254,14 @@ function renderTable(out: Record<string, unknown>, isotherms: number[], depthsKm
   lines.push('', mc ? 'Temperature at depth (°C), Monte Carlo' : 'Depth        temperature (°C)');
   for (const z of depthsKm) lines.push(`  ${(key(z) + ' km').padEnd(10)} ${fmt(dep[key(z)], 1)}`);
   const sc = out.solidusCrossingKm as Record<string, unknown>;
-  lines.push('', `Solidus crossing (km): wet granite ${fmt(sc.wetGranite, 2)};  dry peridotite ${fmt(sc.dryPeridotite, 2)}`);
-  lines.push('', '  depth (km)   T (°C)   q (mW/m²)   P (MPa)   facies');
-  for (const r of out.profile as { depthKm: number; temperatureC: number | null; heatFlowMWm2: number | null; pressureMPa: number | null; facies: string | null }[]) {
-    lines.push(`  ${r.depthKm.toFixed(2).padStart(9)}  ${fmt(r.temperatureC, 1).padStart(8)}  ${fmt(r.heatFlowMWm2, 2).padStart(10)}  ${fmt(r.pressureMPa, 1).padStart(8)}   ${r.facies ?? '—'}`);
+  lines.push('', `Water-saturated solidus reached (km): ${fmt(sc.wetSolidus, 2)};  melt onset (fluid-absent/dry solidus, km): ${fmt(sc.meltOnset, 2)}`);
+  lines.push(`Lithosphere base (conductive geotherm meets the ${String(out.mantlePotentialTemperatureC)} °C mantle adiabat, km): ${fmt(out.lithosphereBaseKm, 2)}`);
+  lines.push(`Pore pressure: ${(out.porePressure as { method: string }).method}`);
+  lines.push('', '  depth (km)   T (°C)   q (mW/m²)   P (MPa)  Pf (MPa)      λ   Peff (MPa)   facies / flag');
+  for (const r of out.profile as { depthKm: number; temperatureC: number | null; heatFlowMWm2: number | null; pressureMPa: number | null; porePressureMPa: number | null; poreFluidFactor: number | null; effectivePressureMPa: number | null; facies: string | null; flag: string | null }[]) {
+    lines.push(
+      `  ${r.depthKm.toFixed(2).padStart(9)}  ${fmt(r.temperatureC, 1).padStart(8)}  ${fmt(r.heatFlowMWm2, 2).padStart(10)}  ${fmt(r.pressureMPa, 1).padStart(8)}  ${fmt(r.porePressureMPa, 1).padStart(8)}  ${fmt(r.poreFluidFactor, 3).padStart(6)}  ${fmt(r.effectivePressureMPa, 1).padStart(10)}   ${r.flag ?? r.facies ?? '—'}`,
+    );
   }
   const w = out.warnings as string[];
   if (w.length) lines.push('', 'Warnings:', ...w.map((s) => `  - ${s}`));

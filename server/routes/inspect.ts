@@ -80,6 +80,8 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
         stepKm: q.stepKm,
         realizations,
         seed: req.seed ?? 0, // the pipeline's default seed
+        porePressure: q.porePressure,
+        fluidDensityKgM3: q.fluidDensityKgM3,
       });
       return c.json({ runId: run.id, lon: q.lon, lat: q.lat, modelRegion: here.region, ...out });
     }
@@ -104,6 +106,8 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
       stepKm: q.stepKm,
       realizations: q.realizations,
       seed: q.seed,
+      porePressure: q.porePressure,
+      fluidDensityKgM3: q.fluidDensityKgM3,
     });
     return c.json(out);
   });

@@ -18,6 +18,10 @@ const columnAxis = {
   stepKm: z.number().gt(0).max(100).default(0.5),
   isothermsC: isotherms.optional(),
   depthsKm: depths.optional(),
+  /** Pore pressure: `hydrostatic` (default) or `lambda:λ` (λ × lithostatic). */
+  porePressure: z.string().regex(/^(hydrostatic|lambda:\d+(\.\d+)?)$/, 'expected hydrostatic or lambda:λ, e.g. lambda:0.7').optional(),
+  /** Pore-fluid density for hydrostatic pressure, kg/m³ (default 1000). */
+  fluidDensityKgM3: z.number().gt(0).lt(5000).optional(),
 };
 
 /** POST /api/column at a point of a run's heat-flow grid. */

@@ -11,13 +11,17 @@ import type { Distribution } from '../../shared/random/distributions.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
 import {
   COLUMN_FLOW_EXHAUSTED,
-  columnIsothermDepth,
   columnProfile,
-  columnTemperature,
   compileModel,
+  describePorePressure,
+  limitedIsothermDepth,
+  limitedTemperature,
+  limitsToJson,
   monteCarloColumn,
   nominalModel,
-  solidusCrossings,
+  parsePorePressureMode,
+  porePressureAt,
+  sampleFlag,
   summaryToJson,
   STDERR_P50_METHOD,
 } from '../../shared/thermal/index.ts';
@@ -35,6 +39,10 @@ export interface ColumnQuery {
   /** Monte Carlo realizations for the P10–P90 band (0 = none). */
   realizations: number;
   seed: number;
+  /** `hydrostatic` (default) or `lambda:λ`. */
+  porePressure?: string;
+  /** Pore-fluid density for hydrostatic pressure, kg/m³ (default 1000). */
+  fluidDensityKgM3?: number;
 }
 
 const r4 = (v: number) => Math.round(v * 1e4) / 1e4;
@@ -51,24 +59,49 @@ export function computeColumn(q: ColumnQuery): Record<string, unknown> {
   const cm = compileModel(nominal, { maxDepthKm: q.maxDepthKm });
   const prof = columnProfile(cm, { heatFlowMWm2: q0, stepKm: q.stepKm, maxDepthKm: q.maxDepthKm });
   const st = prof.state;
-  const crossings = solidusCrossings(cm, st, q.maxDepthKm, Math.min(q.stepKm, 0.1));
+  const lim = prof.limits;
+  let pore;
+  try {
+    pore = parsePorePressureMode(q.porePressure, q.fluidDensityKgM3);
+  } catch (e) {
+    throw new InputError((e as Error).message, [{ field: 'porePressure', problem: (e as Error).message }], 'invalid_column', 422);
+  }
+  const poreInfo = describePorePressure(pore);
   const profile = Array.from(prof.depthKm, (z, j) => {
     const t = prof.temperatureC[j], p = prof.pressureMPa[j];
+    // Facies only where the column gives a temperature (the readout stops at the melt onset).
     const f = Number.isFinite(t) ? classifyFacies(t, p / 100) : null; // 1 kbar = 100 MPa
-    return { depthKm: r4(z), temperatureC: num(t), heatFlowMWm2: num(prof.heatFlowMWm2[j]), pressureMPa: num(p), facies: f?.facies ?? null, faciesApproximate: f?.approximate ?? false };
+    const pp = porePressureAt(pore, z, p, cm.gravityMS2);
+    return {
+      depthKm: r4(z),
+      temperatureC: num(t),
+      heatFlowMWm2: num(prof.heatFlowMWm2[j]),
+      pressureMPa: num(p),
+      porePressureMPa: num(pp.porePressureMPa),
+      poreFluidFactor: num(pp.poreFluidFactor),
+      effectivePressureMPa: num(pp.effectivePressureMPa),
+      facies: f?.facies ?? null,
+      faciesApproximate: f?.approximate ?? false,
+      regime: Number.isFinite(t) ? (prof.adiabatic[j] ? 'adiabat' : 'conductive') : null,
+      flag: sampleFlag(lim, z),
+    };
   });
   const warnings = [...prof.warnings];
+  if (poreInfo.warning !== null) warnings.push(poreInfo.warning);
   const out: Record<string, unknown> = {
     surfaceHeatFlowMWm2: r4(q0),
     heatFlowSdMWm2: q.heatFlowSdMWm2 === undefined ? null : num(q.heatFlowSdMWm2),
     surfaceTemperatureC: cm.surfaceTemperatureC,
-    isothermDepthsKm: Object.fromEntries(q.isothermsC.map((t) => [String(t), num(columnIsothermDepth(cm, st, t, q.maxDepthKm))])),
-    temperatureAtDepthsC: Object.fromEntries(q.depthsKm.map((z) => [String(z), num(columnTemperature(cm, st, z))])),
+    isothermDepthsKm: Object.fromEntries(q.isothermsC.map((t) => [String(t), num(limitedIsothermDepth(cm, st, lim, t, q.maxDepthKm))])),
+    temperatureAtDepthsC: Object.fromEntries(q.depthsKm.map((z) => [String(z), num(limitedTemperature(cm, st, lim, z))])),
     basalHeatFlowMWm2: num(prof.basalHeatFlowMWm2),
     reducedHeatFlowMWm2: num(prof.reducedHeatFlowMWm2),
-    solidusCrossingKm: { wetGranite: num(crossings.wetGranite), dryPeridotite: num(crossings.dryPeridotite) },
-    inconsistent: (st.status & COLUMN_FLOW_EXHAUSTED) !== 0,
-    validToKm: num(st.validToKm),
+    reducedHeatFlowLayer: cm.reducedHeatFlowLayer >= 0 ? cm.names[cm.reducedHeatFlowLayer] : null,
+    solidusCrossingKm: { wetSolidus: num(lim.wetSolidusKm), meltOnset: num(lim.meltOnsetKm) },
+    ...limitsToJson(cm, lim),
+    porePressure: { mode: pore.kind === 'hydrostatic' ? 'hydrostatic' : `lambda:${pore.lambda}`, method: poreInfo.method },
+    // Not valid throughout: heat flow exhausted, k(T) undefined, or melt onset above the maximum depth.
+    inconsistent: (st.status & COLUMN_FLOW_EXHAUSTED) !== 0 || lim.endReason !== null,
     profile,
     band: null as unknown,
     warnings,

@@ -30,7 +30,7 @@ import { allocateUncertaintyOutput, computeUncertaintyRows, prepareUncertainty, 
 import { faciesLegend } from '../../shared/products/facies-grid.ts';
 import { layerStats, type LayerStats } from '../../shared/products/stats.ts';
 import { buildProvenance, withMethod, type Provenance } from '../../shared/products/provenance.ts';
-import { BASE_HEAT_FLOW, INCONSISTENT, SOLIDUS_DEPTH, depthProductName, faciesProductName, percentileProductName, temperatureProductName } from '../../shared/products/names.ts';
+import { BASE_HEAT_FLOW, INCONSISTENT, MELT_ONSET, SOLIDUS_DEPTH, depthProductName, faciesProductName, percentileProductName, temperatureProductName } from '../../shared/products/names.ts';
 import { geojsonText, geotiffBytes, pngBytes, sha256Hex, sha256Json } from '../io/export.ts';
 
 // ---------------------------------------------------------------------------------------------------------------
@@ -219,6 +219,7 @@ const INCONSISTENT_LEGEND: Legend = {
     { value: 1, label: 'heat flow reaches 0 in the model (surface heat flow too low for its heat production)', color: '#b3342b' },
     { value: 2, label: 'conductivity k(T) undefined (1 + bT ≤ 0)', color: '#6b3fa0' },
     { value: 4, label: 'surface heat flow ≤ 0', color: '#222222' },
+    { value: 8, label: 'melt onset above the maximum depth (no temperatures below it)', color: '#d9822b' },
   ],
 };
 
@@ -280,7 +281,7 @@ export async function computeThermalProducts(
   if (counts.inconsistent > 0) {
     warnings.push(
       `the model is inconsistent with the heat flow in ${counts.inconsistent} of ${W * H} cells (${counts.heatFlowExhausted} where the heat flow reaches 0 inside the model, ` +
-        `${counts.conductivityUndefined} with k(T) undefined, ${counts.nonPositiveHeatFlow} with heat flow ≤ 0): see the "${INCONSISTENT}" grid; below the failing depth those cells have no data`,
+        `${counts.conductivityUndefined} with k(T) undefined, ${counts.nonPositiveHeatFlow} with heat flow ≤ 0, ${counts.meltOnset} reaching the melt onset): see the "${INCONSISTENT}" and "${MELT_ONSET}" grids; below the failing depth those cells have no data`,
     );
   }
 
@@ -363,9 +364,12 @@ export async function computeThermalProducts(
   }
   add({ name: BASE_HEAT_FLOW, title: 'Heat flow at the base of the model', units: 'mW/m²', grid: sd(heatFlow, out.baseHeatFlowMWm2, 'mW/m²'), legend: sharedRampLegend(EMBER, 'mW/m²', [out.baseHeatFlowMWm2]), ramp: EMBER, method: `heat flow at ${maxDepthKm} km: surface heat flow − ∫A dz over the model (negative where the model is inconsistent), ${method}` });
   if (out.solidusDepthKm !== null) {
-    add({ name: SOLIDUS_DEPTH, title: 'Depth of the first solidus crossing', units: 'km', grid: sd(heatFlow, out.solidusDepthKm, 'km'), legend: sharedRampLegend(DEPTH, 'km', [out.solidusDepthKm]), ramp: DEPTH, method: `shallowest depth where the geotherm reaches the water-saturated granite solidus (Huang & Wyllie 1973; it lies below the dry peridotite solidus, Hirschmann 2000) at lithostatic pressure; NoData where not reached above ${maxDepthKm} km; ${method}` });
+    add({ name: SOLIDUS_DEPTH, title: 'Depth where the water-saturated solidus is reached', units: 'km', grid: sd(heatFlow, out.solidusDepthKm, 'km'), legend: sharedRampLegend(DEPTH, 'km', [out.solidusDepthKm]), ramp: DEPTH, method: `shallowest depth where the geotherm reaches the water-saturated solidus of the layer's rock (granite, Huang & Wyllie 1973, in sediment and felsic crust; basalt in mafic crust; peridotite in mantle) at lithostatic pressure: melting there if free water is present; NoData where not reached above ${maxDepthKm} km; ${method}` });
   }
-  add({ name: INCONSISTENT, title: 'Cells where the model is inconsistent with the heat flow', units: 'flag', grid: sd(heatFlow, out.inconsistent, 'flag'), legend: INCONSISTENT_LEGEND, ramp: null, method: `flag: 0 consistent, 1 heat flow reaches 0 inside the model, 2 k(T) undefined, 4 heat flow ≤ 0; ${method}` });
+  if (out.meltOnsetKm !== null) {
+    add({ name: MELT_ONSET, title: 'Melt onset (no temperatures below)', units: 'km', grid: sd(heatFlow, out.meltOnsetKm, 'km'), legend: sharedRampLegend(DEPTH, 'km', [out.meltOnsetKm]), ramp: DEPTH, method: `shallowest depth where the geotherm (the mantle adiabat below the lithosphere base) reaches the fluid-absent or dry solidus of the layer's rock (biotite dehydration melting, Le Breton & Thompson 1988, in sediment and felsic crust; dry basalt in mafic crust; dry peridotite, Hirschmann 2000, in mantle); the conductive column is not valid below it and the deeper grids have NoData there; NoData where not reached above ${maxDepthKm} km; ${method}` });
+  }
+  add({ name: INCONSISTENT, title: 'Cells where the model is inconsistent with the heat flow or melts', units: 'flag', grid: sd(heatFlow, out.inconsistent, 'flag'), legend: INCONSISTENT_LEGEND, ramp: null, method: `flag: 0 consistent, 1 heat flow reaches 0 inside the model, 2 k(T) undefined, 4 heat flow ≤ 0, 8 melt onset above ${maxDepthKm} km; ${method}` });
   return { layers, counts, zoneModels, maxDepthKm, warnings, timingsMs, monteCarlo: mc };
 }
 

@@ -13,9 +13,10 @@ import { FACIES_NAMES, faciesIndexAt } from '../../shared/petrology/index.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
 import {
   ColumnState,
-  columnIsothermDepth,
-  columnTemperature,
+  columnLimits,
   compileModel,
+  limitedIsothermDepth,
+  limitedTemperature,
   lithostaticPressureMPa,
   nominalModel,
   solveColumn,
@@ -119,7 +120,9 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
   const temperature: (number | null)[] = new Array(n * nz).fill(null);
   const facies = new Int8Array(n * nz).fill(-1);
   const isoCurves = q.isothermsC.map(() => new Array<number | null>(n).fill(null));
-  let noData = 0;
+  // Melt onset per column (km; null: not reached above the maximum depth): no temperature is given below it.
+  const meltOnset = new Array<number | null>(n).fill(null);
+  let noData = 0, melting = 0;
   for (let j = 0; j < n; j++) {
     const q0 = heat[j];
     if (!(q0 > 0)) {
@@ -130,14 +133,17 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
     const { cm, pressureKbar, st } = here ? zoneOf(here.key, here.model) : base;
     if (here) zoneKey[j] = here.key;
     solveColumn(cm, q0, cm.surfaceTemperatureC, st);
+    const lim = columnLimits(cm, st, q.maxDepthKm);
+    meltOnset[j] = fin(lim.meltOnsetKm, r3);
+    if (lim.endReason === 'melt-onset') melting++;
     for (let k = 0; k < nz; k++) {
-      const t = columnTemperature(cm, st, depthKm[k]);
+      const t = limitedTemperature(cm, st, lim, depthKm[k]);
       if (!Number.isFinite(t)) continue;
       temperature[k * n + j] = r2(t);
       facies[k * n + j] = faciesIndexAt(t, pressureKbar[k]);
     }
     q.isothermsC.forEach((tc, i) => {
-      isoCurves[i][j] = fin(columnIsothermDepth(cm, st, tc, q.maxDepthKm), r3);
+      isoCurves[i][j] = fin(limitedIsothermDepth(cm, st, lim, tc, q.maxDepthKm), r3);
     });
   }
 
@@ -159,6 +165,7 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
   };
 
   const warnings: string[] = [...new Set([...zones.values()].flatMap((z) => z.cm.warnings))];
+  if (melting > 0) warnings.push(`${melting} of ${n} columns along the line reach the melt onset (the fluid-absent or dry solidus of their rock) above ${q.maxDepthKm} km: no temperature is given below it (meltOnsetKm)`);
   if (noData > 0) warnings.push(`${noData} of ${n} samples along the line have no heat-flow value (outside the run's grid or no data): their columns are empty`);
   return {
     lengthKm: r3(totalKm),
@@ -173,6 +180,7 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
     faciesClass: Array.from(facies),
     ...(q.modelAt ? { modelZone: zoneKey.map((k) => (k === 'model' ? null : k)) } : {}),
     isotherms: q.isothermsC.map((t, i) => ({ temperatureC: t, depthKm: isoCurves[i] })),
+    meltOnsetKm: meltOnset,
     faultCrossings: crossings(q.faults),
     isogradCrossings: crossings(q.isograds),
     method: 'steady-state conduction per column (no lateral heat flow); geodesic distances on WGS84',

@@ -11,5 +11,18 @@ export {
   type AluminosilicateCalibration,
   type AluminosilicateResult,
 } from './aluminosilicate.ts';
-export { dryPeridotiteSolidusC, wetGraniteSolidusC, isWetGraniteSolidusApproximate, WET_GRANITE_SOLIDUS_NODES } from './solidus.ts';
+export {
+  dryPeridotiteSolidusC,
+  wetGraniteSolidusC,
+  isWetGraniteSolidusApproximate,
+  WET_GRANITE_SOLIDUS_NODES,
+  ROCK_SOLIDUS,
+  WET_GRANITE,
+  FLUID_ABSENT_FELSIC,
+  WET_BASALT,
+  DRY_BASALT,
+  WET_PERIDOTITE,
+  DRY_PERIDOTITE,
+  type SolidusCurve,
+} from './solidus.ts';
 export { depthFromPressureKbar, peakConditions, type PeakConditions, type PeakConditionsOptions } from './peak.ts';

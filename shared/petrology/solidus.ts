@@ -1,5 +1,7 @@
+import type { RockKind } from '../schema/model.ts';
+
 /**
- * Solidus curves, temperature (°C) as a function of pressure.
+ * Solidus curves, temperature (°C) as a function of pressure, and the pair of curves of each rock kind.
  *
  * Dry peridotite: Hirschmann (2000, Geochem. Geophys. Geosyst. 1), T = −5.104·P² + 132.899·P + 1120.661,
  * P in GPa, fitted for 0–10 GPa.
@@ -70,3 +72,113 @@ export function wetGraniteSolidusC(pressureKbar: number): number {
 export function isWetGraniteSolidusApproximate(pressureKbar: number): boolean {
   return !(pressureKbar >= 2 && pressureKbar <= 10);
 }
+
+/** Piecewise-linear curve through [pressure kbar, temperature °C] nodes; NaN below the first node, held above the last. */
+function linearNodes(nodes: readonly (readonly [number, number])[]): (pKbar: number) => number {
+  return (p) => {
+    if (!(p >= nodes[0][0])) return NaN;
+    const n = nodes.length;
+    if (p >= nodes[n - 1][0]) return nodes[n - 1][1];
+    let k = 0;
+    while (p > nodes[k + 1][0]) k++;
+    const [p0, t0] = nodes[k], [p1, t1] = nodes[k + 1];
+    return t0 + ((t1 - t0) * (p - p0)) / (p1 - p0);
+  };
+}
+
+/** One named solidus curve: temperature (°C) at lithostatic pressure (MPa), NaN where the curve is not defined. */
+export interface SolidusCurve {
+  id: string;
+  /** What crossing it means: `water-saturated` (melting if free water is present) or `fluid-absent` (dry). */
+  kind: 'water-saturated' | 'fluid-absent';
+  label: string;
+  /** The published source, and whether the values were checked against it or are from memory. */
+  source: string;
+  temperatureC: (pressureMPa: number) => number;
+}
+
+/** Water-saturated granite (Huang & Wyllie 1973; see wetGraniteSolidusC). */
+export const WET_GRANITE: SolidusCurve = {
+  id: 'wet-granite',
+  kind: 'water-saturated',
+  label: 'water-saturated granite',
+  source: 'Huang & Wyllie (1973): 680 °C at 2 kbar, 620 °C at 10 kbar [checked]; below 2 kbar approximate [from memory]',
+  temperatureC: (p) => wetGraniteSolidusC(p / 100),
+};
+
+/**
+ * Fluid-absent (dehydration) melting of biotite in metapelite and granitic gneiss: Le Breton & Thompson (1988)
+ * bracket its onset between 760 and 800 °C at 10 kbar and find a steep positive dP/dT up to 10 kbar [checked against
+ * the abstract]; the curve is held at the bracket's middle, 780 °C, at every pressure (this project's approximation
+ * of a near-vertical reaction line).
+ */
+export const FLUID_ABSENT_FELSIC: SolidusCurve = {
+  id: 'fluid-absent-felsic',
+  kind: 'fluid-absent',
+  label: 'fluid-absent (biotite dehydration) melting of felsic rock',
+  source: 'Le Breton & Thompson (1988): onset 760–800 °C at 10 kbar [checked, abstract]; held at 780 °C at all pressures (approximation)',
+  temperatureC: (p) => (p >= 0 ? 780 : NaN),
+};
+
+const WET_BASALT_KBAR = linearNodes([
+  [0.5, 800],
+  [2, 720],
+  [5, 680],
+  [10, 650],
+  [25, 640],
+]);
+
+/** Water-saturated basalt (gabbro) solidus after Lambert & Wyllie (1972); node values from memory. */
+export const WET_BASALT: SolidusCurve = {
+  id: 'wet-basalt',
+  kind: 'water-saturated',
+  label: 'water-saturated basalt',
+  source: 'after Lambert & Wyllie (1972) for gabbro: about 720 °C at 2 kbar falling to about 650 °C at 10 kbar [from memory]',
+  temperatureC: (p) => WET_BASALT_KBAR(p / 100),
+};
+
+/** Dry basalt (gabbro) solidus, about 1100 °C at low pressure rising about 10 °C/kbar (Yoder & Tilley 1962; from memory). */
+export const DRY_BASALT: SolidusCurve = {
+  id: 'dry-basalt',
+  kind: 'fluid-absent',
+  label: 'dry basalt',
+  source: 'after Yoder & Tilley (1962) and Lambert & Wyllie (1972): T = 1100 °C + 10 °C/kbar·P [from memory]',
+  temperatureC: (p) => (p >= 0 ? 1100 + 0.1 * p : NaN),
+};
+
+const WET_PERIDOTITE_GPA = linearNodes([
+  [0.5, 1050],
+  [1, 1000],
+  [2, 900],
+  [3.2, 810],
+]);
+
+/** Water-saturated peridotite solidus after Grove et al. (2006), about 810 °C at 3.2 GPa; node values from memory. */
+export const WET_PERIDOTITE: SolidusCurve = {
+  id: 'wet-peridotite',
+  kind: 'water-saturated',
+  label: 'water-saturated peridotite',
+  source: 'after Grove, Chatterjee, Parman & Médard (2006): about 1000 °C at 1 GPa, 810 °C at 3.2 GPa [from memory]',
+  temperatureC: (p) => WET_PERIDOTITE_GPA(p / 1000),
+};
+
+/** Dry peridotite (Hirschmann 2000; see dryPeridotiteSolidusC). */
+export const DRY_PERIDOTITE: SolidusCurve = {
+  id: 'dry-peridotite',
+  kind: 'fluid-absent',
+  label: 'dry peridotite',
+  source: 'Hirschmann (2000): T = −5.104·P² + 132.899·P + 1120.661, P in GPa (0–10) [checked]',
+  temperatureC: (p) => dryPeridotiteSolidusC(p / 1000),
+};
+
+/**
+ * The two solidus curves of each rock kind: `wet` (water-saturated: crossing it means melting if free water is
+ * present, a warning) and `dry` (fluid-absent or dry: crossing it ends the conductive column). Sediment is treated as
+ * metapelite, which melts with water near the granite minimum and without it by biotite dehydration.
+ */
+export const ROCK_SOLIDUS: Readonly<Record<RockKind, { wet: SolidusCurve; dry: SolidusCurve }>> = Object.freeze({
+  sediment: { wet: WET_GRANITE, dry: FLUID_ABSENT_FELSIC },
+  'felsic-crust': { wet: WET_GRANITE, dry: FLUID_ABSENT_FELSIC },
+  'mafic-crust': { wet: WET_BASALT, dry: DRY_BASALT },
+  mantle: { wet: WET_PERIDOTITE, dry: DRY_PERIDOTITE },
+});

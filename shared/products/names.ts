@@ -1,6 +1,6 @@
 /**
  * File and layer names of the grid products: `depth-300C`, `temperature-5km`, `facies-10km`, `base-heat-flow`,
- * `solidus-depth`, `inconsistent`, and `depth-300C.p10` etc. for percentiles. Numbers are written in plain decimal
+ * `solidus-depth`, `melt-onset`, `inconsistent`, and `depth-300C.p10` etc. for percentiles. Numbers are written in plain decimal
  * without trailing zeros (2.5 → "2.5", 300 → "300"); a minus sign stays ("-10C").
  */
 
@@ -16,3 +16,4 @@ export const percentileProductName = (isothermC: number, p: 'p10' | 'p50' | 'p90
 export const BASE_HEAT_FLOW = 'base-heat-flow';
 export const SOLIDUS_DEPTH = 'solidus-depth';
 export const INCONSISTENT = 'inconsistent';
+export const MELT_ONSET = 'melt-onset';

@@ -12,13 +12,15 @@
  *
  * Flag values (`inconsistent`): 0 consistent; otherwise the engine's status bits — 1 the heat flow reaches 0
  * inside the stack (the surface heat flow is too low for the model's heat production), 2 k(T) = k0/(1 + bT) is
- * undefined (1 + bT ≤ 0), 4 a surface heat flow ≤ 0; NaN where the heat flow is no data. Below the depth where the
- * heat flow is exhausted the engine gives no temperature, so those cells' deeper products are NoData, not guesses.
+ * undefined (1 + bT ≤ 0), 4 a surface heat flow ≤ 0, 8 the melt onset (the fluid-absent/dry solidus of the rock
+ * there, shared/thermal/limits.ts) lies above the maximum depth; NaN where the heat flow is no data. Below the depth
+ * where the column ends the engine gives no temperature, so those cells' deeper products are NoData, not guesses.
+ * In mantle layers below the lithosphere base temperatures follow the mantle adiabat (limits.ts).
  */
 import type { Grid, GridSpec } from '../grid/grid.ts';
-import { COLUMN_BAD_INPUT, ColumnState, geothermGrid, lithostaticPressureMPa, solveColumn, kbarFromMPa, type CompiledModel } from '../thermal/index.ts';
+import { ColumnState, geothermGrid, lithostaticPressureMPa, kbarFromMPa, type CompiledModel } from '../thermal/index.ts';
 import { faciesCode } from './facies-grid.ts';
-import { firstSolidusCrossingKm, prepareSolidusScan, type SolidusScan } from './solidus-grid.ts';
+import { prepareSolidusScan, type SolidusScan } from './solidus-grid.ts';
 
 export interface ThermalGridSpec {
   /** Surface heat flow per cell, mW/m² (NaN = no data); its georeferencing is that of every output. */
@@ -46,7 +48,10 @@ export interface ThermalGridBuffers {
   baseHeatFlowMWm2: Float32Array;
   inconsistent: Float32Array;
   status: Uint8Array;
+  /** Rock-aware water-saturated solidus crossing, km (NaN: not reached). */
   solidusDepthKm: Float32Array | null;
+  /** Melt onset (fluid-absent/dry solidus of the rock there), km (NaN: not reached). */
+  meltOnsetKm: Float32Array | null;
   facies: Float32Array | null;
   /** 1 where the facies point is within one boundary width of another field. */
   faciesApproximate: Uint8Array | null;
@@ -66,6 +71,7 @@ export function allocateThermalGridBuffers(spec: ThermalGridSpec): ThermalGridBu
     inconsistent: f(),
     status: new Uint8Array(cells),
     solidusDepthKm: spec.solidus ?? true ? f() : null,
+    meltOnsetKm: spec.solidus ?? true ? f() : null,
     facies: facies ? f() : null,
     faciesApproximate: facies ? new Uint8Array(cells) : null,
     faciesTemperatureC: facies ? f() : null,
@@ -119,6 +125,8 @@ export function computeThermalGridRows(plan: ThermalGridPlan, r0: number, r1: nu
       temperatureC: withFacies ? [...out.temperatureC, out.faciesTemperatureC!] : out.temperatureC,
       status: out.status,
       basalHeatFlowMWm2: out.baseHeatFlowMWm2,
+      ...(out.meltOnsetKm === null ? {} : { meltOnsetKm: out.meltOnsetKm }),
+      ...(out.solidusDepthKm === null ? {} : { wetSolidusKm: out.solidusDepthKm }),
     },
     { zones, start, end },
   );
@@ -133,15 +141,6 @@ export function computeThermalGridRows(plan: ThermalGridPlan, r0: number, r1: nu
       apx[c] = a.approximate && code === code ? 1 : 0;
     }
   }
-  const sol = out.solidusDepthKm;
-  if (sol !== null) {
-    for (let c = start; c < end; c++) {
-      const zi = zones === undefined ? 0 : zones[c];
-      const cm = spec.models[zi], st = plan.states[zi];
-      solveColumn(cm, q[c], cm.surfaceTemperatureC, st);
-      sol[c] = st.status & COLUMN_BAD_INPUT ? NaN : firstSolidusCrossingKm(cm, st, plan.scans[zi]);
-    }
-  }
 }
 
 /** Convenience: all rows at once. */
@@ -153,8 +152,8 @@ export function computeThermalGrids(spec: ThermalGridSpec): ThermalGridBuffers {
 }
 
 /** Counts of a finished flag grid: inconsistent cells by cause, and no-data cells. */
-export function inconsistencyCounts(flag: Float32Array): { inconsistent: number; heatFlowExhausted: number; conductivityUndefined: number; nonPositiveHeatFlow: number; noData: number } {
-  let inconsistent = 0, ex = 0, ku = 0, np = 0, nd = 0;
+export function inconsistencyCounts(flag: Float32Array): { inconsistent: number; heatFlowExhausted: number; conductivityUndefined: number; nonPositiveHeatFlow: number; meltOnset: number; noData: number } {
+  let inconsistent = 0, ex = 0, ku = 0, np = 0, mo = 0, nd = 0;
   for (let i = 0; i < flag.length; i++) {
     const v = flag[i];
     if (v !== v) { nd++; continue; }
@@ -163,8 +162,9 @@ export function inconsistencyCounts(flag: Float32Array): { inconsistent: number;
     if (v & 1) ex++;
     if (v & 2) ku++;
     if (v & 4) np++;
+    if (v & 8) mo++;
   }
-  return { inconsistent, heatFlowExhausted: ex, conductivityUndefined: ku, nonPositiveHeatFlow: np, noData: nd };
+  return { inconsistent, heatFlowExhausted: ex, conductivityUndefined: ku, nonPositiveHeatFlow: np, meltOnset: mo, noData: nd };
 }
 
 /** Wraps a buffer as a Grid with the heat-flow grid's georeferencing. */

@@ -6,6 +6,10 @@
 import { z } from 'zod';
 import { InputError, type InputProblem } from '../errors.ts';
 
+/** Rock kinds a layer may name (each has its own solidus curves). */
+export const ROCK_KINDS = ['sediment', 'felsic-crust', 'mafic-crust', 'mantle'] as const;
+export type RockKind = (typeof ROCK_KINDS)[number];
+
 const finite = z.number({ error: 'expected a finite number' });
 
 /**
@@ -30,6 +34,8 @@ export const MODEL_BOUNDS = {
     uraniumPpm: { min: 0, max: 1000, units: 'ppm', source: 'common practice: crustal rocks 0.1–20 ppm, uranium-rich granites up to hundreds' },
     thoriumPpm: { min: 0, max: 2000, units: 'ppm', source: 'common practice: crustal rocks 0.5–80 ppm' },
     potassiumPct: { min: 0, max: 20, units: '%', source: 'common practice: crustal rocks 0–8 % K, K-feldspar about 14 %' },
+    mantlePotentialTemperatureC: { min: 1100, max: 1700, units: '°C', source: 'McKenzie & Bickle (1988) about 1280 °C for ambient mantle; hot plume sources to about 1600 °C (from memory)' },
+    conductivityReferenceTempC: { min: -60, max: 1000, units: '°C', source: 'common practice: laboratory conductivities are reported from room temperature to several hundred °C' },
   },
 } as const;
 
@@ -72,6 +78,18 @@ export const thermalLayerSchema = z
     heatProductionDecayKm: uncertainNumberSchema.optional(),
     /** Density, kg/m³ (absent = 2700 with a warning). */
     densityKgM3: uncertainNumberSchema.optional(),
+    /**
+     * Rock kind, which chooses the layer's solidus curves (shared/petrology/solidus.ts) and, for `mantle`, the
+     * mantle adiabat below the conductive lid. Absent = `felsic-crust`.
+     */
+    rock: z.enum(ROCK_KINDS, { error: `expected one of ${ROCK_KINDS.join(', ')}` }).optional(),
+    /** Marks the layer whose heat production defines the reduced heat flow (q0 = qr + D·A0); at most one layer. */
+    heatProducingUpperCrust: z.boolean().optional(),
+    /**
+     * Temperature at which conductivityWmK was measured, °C (absent = 0 °C, i.e. conductivityWmK is k0). With b the
+     * stored k0 is k_ref·(1 + b·T_ref), so k(T_ref) equals the value given.
+     */
+    conductivityReferenceTempC: finite.optional(),
   })
   .strict();
 
@@ -82,6 +100,11 @@ export const thermalModelSchema = z
     description: z.string().max(2000).optional(),
     surfaceTemperatureC: uncertainNumberSchema,
     surfaceHeatFlowMWm2: uncertainNumberSchema.optional(),
+    /**
+     * Mantle potential temperature, °C (absent = 1330 °C, DEFAULT_MANTLE_POTENTIAL_TEMPERATURE_C): the adiabat that
+     * bounds temperatures in `mantle` layers below the conductive lid.
+     */
+    mantlePotentialTemperatureC: uncertainNumberSchema.optional(),
     layers: z
       .array(thermalLayerSchema)
       .min(1, 'at least one layer is needed')
@@ -144,8 +167,12 @@ export function checkThermalModel(m: ThermalModelInput): InputProblem[] {
     inRange(i, 'uraniumPpm', l.uraniumPpm);
     inRange(i, 'thoriumPpm', l.thoriumPpm);
     inRange(i, 'potassiumPct', l.potassiumPct);
+    inRange(i, 'conductivityReferenceTempC', l.conductivityReferenceTempC);
   });
   if (m.surfaceHeatFlowMWm2 !== undefined) positive(null, 'surfaceHeatFlowMWm2', m.surfaceHeatFlowMWm2, false);
+  inRange(null, 'mantlePotentialTemperatureC', m.mantlePotentialTemperatureC);
+  const marked = m.layers.map((l, i) => (l.heatProducingUpperCrust === true ? i : -1)).filter((i) => i >= 0);
+  if (marked.length > 1) out.push({ feature: where(marked[1]), field: 'heatProducingUpperCrust', problem: `only one layer may be marked; ${where(marked[0])} already is` });
   let prev = 0;
   m.layers.forEach((l, i) => {
     if (!(l.bottomKm > prev)) out.push({ feature: where(i), field: 'bottomKm', problem: `must be greater than the layer above's bottom (${prev} km), got ${l.bottomKm}` });

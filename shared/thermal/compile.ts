@@ -10,7 +10,8 @@
  * Lithostatic pressure: ρ [kg/m³] · g [m/s²] · z [km] · 10³ m/km = Pa, i.e. ρ·g·z·10⁻³ MPa.
  */
 import { heatProductionFromRadioelements } from './heat-production.ts';
-import { DEFAULT_DENSITY_KG_M3, DEFAULT_GRAVITY_MS2, type ThermalModel } from './model.ts';
+import { ROCK_KINDS, type RockKind } from '../schema/model.ts';
+import { DEFAULT_DENSITY_KG_M3, DEFAULT_GRAVITY_MS2, DEFAULT_MANTLE_POTENTIAL_TEMPERATURE_C, DEFAULT_ROCK, type ThermalModel } from './model.ts';
 
 export interface CompiledModel {
   nLayers: number;
@@ -46,9 +47,19 @@ export interface CompiledModel {
   gravityMS2: number;
   /** Total ∫A dz over the stack, mW/m² (q0 − q_base). */
   totalHeatProductionMWm2: number;
-  /** q0 − qr: A0·D for an exponential top layer, A0·H for a constant one (see reducedHeatFlowMethod). */
+  /**
+   * q0 − qr for the layer marked `heatProducingUpperCrust` (index reducedHeatFlowLayer): the heat produced above it
+   * plus A_top·D for an exponential layer (the Birch/Lachenbruch intercept q0 = qr + D·A0), or plus the layer's whole
+   * ∫A dz for a constant one (the flow entering its base). NaN when no layer is marked ('not-applicable').
+   */
   reducedHeatFlowOffsetMWm2: number;
-  reducedHeatFlowMethod: 'exponential' | 'constant-layer';
+  reducedHeatFlowMethod: 'exponential' | 'constant-layer' | 'not-applicable';
+  /** Index of the layer marked heatProducingUpperCrust, −1 when none. */
+  reducedHeatFlowLayer: number;
+  /** Rock kind per layer, as an index into ROCK_KINDS. */
+  rock: Uint8Array;
+  /** Mantle potential temperature, °C. */
+  mantlePotentialTemperatureC: number;
   warnings: string[];
 }
 
@@ -90,6 +101,8 @@ export function compileModel(model: ThermalModel, options: CompileOptions = {}):
   const f = () => new Float64Array(n);
   const topKm = f(), bottomKm = f(), thicknessKm = f(), k0 = f(), b = f(), aTop = f(), decayKm = f(), densityKgM3 = f();
   const i1 = f(), i2 = f(), heatAboveMWm2 = f(), pressureTopMPa = f();
+  const rock = new Uint8Array(n);
+  let reducedLayer = -1;
   let top = 0, heat = 0, p = 0;
   for (let i = 0; i < n; i++) {
     const L = layers[i];
@@ -97,10 +110,23 @@ export function compileModel(model: ThermalModel, options: CompileOptions = {}):
     names.push(L.name ?? `layer ${i + 1}`);
     const bottom = i === n - 1 ? stackBottomKm : L.bottomKm;
     if (!(bottom > top)) throw new RangeError(`${label}: bottomKm must exceed ${top} km, got ${L.bottomKm}`);
-    const k = L.conductivityWmK;
-    if (!(k > 0)) throw new RangeError(`${label}: conductivityWmK must be > 0, got ${k}`);
+    const kGiven = L.conductivityWmK;
+    if (!(kGiven > 0)) throw new RangeError(`${label}: conductivityWmK must be > 0, got ${kGiven}`);
     const bb = L.conductivityTempCoeffPerK ?? 0;
     if (!Number.isFinite(bb)) throw new RangeError(`${label}: conductivityTempCoeffPerK must be finite, got ${bb}`);
+    // A conductivity measured at T_ref: k(T_ref) = k0/(1 + b·T_ref), so k0 = k_ref·(1 + b·T_ref).
+    const tRef = L.conductivityReferenceTempC ?? 0;
+    if (!Number.isFinite(tRef)) throw new RangeError(`${label}: conductivityReferenceTempC must be finite, got ${tRef}`);
+    const k = kGiven * (1 + bb * tRef);
+    if (!(k > 0)) throw new RangeError(`${label}: 1 + b·T_ref ≤ 0 at conductivityReferenceTempC ${tRef} °C`);
+    const rk: RockKind = L.rock ?? DEFAULT_ROCK;
+    const rIdx = ROCK_KINDS.indexOf(rk);
+    if (rIdx < 0) throw new RangeError(`${label}: unknown rock ${String(rk)}`);
+    rock[i] = rIdx;
+    if (L.heatProducingUpperCrust === true) {
+      if (reducedLayer >= 0) throw new RangeError(`${label}: only one layer may be marked heatProducingUpperCrust`);
+      reducedLayer = i;
+    }
     if (bb < 0) warnings.push(`${label}: negative conductivityTempCoeffPerK: k(T) = k0/(1 + bT) grows without bound as T nears ${(-1 / bb).toFixed(1)} °C`);
     let rho = L.densityKgM3;
     if (rho === undefined) {
@@ -138,8 +164,11 @@ export function compileModel(model: ThermalModel, options: CompileOptions = {}):
   if (stackBottomKm > modelBottomKm) {
     warnings.push(`${names[n - 1]}: the last layer is extrapolated from ${modelBottomKm} km to ${stackBottomKm} km`);
   }
-  const topIsExp = decayKm[0] > 0;
+  const markedIsExp = reducedLayer >= 0 && decayKm[reducedLayer] > 0;
+  const reducedOffset = reducedLayer < 0 ? NaN : heatAboveMWm2[reducedLayer] + (markedIsExp ? aTop[reducedLayer] * decayKm[reducedLayer] : i1[reducedLayer]);
   const surfaceHeatFlowMWm2 = model.surfaceHeatFlowMWm2 ?? NaN;
+  const tp = model.mantlePotentialTemperatureC ?? DEFAULT_MANTLE_POTENTIAL_TEMPERATURE_C;
+  if (!(tp > -273.15)) throw new RangeError(`mantlePotentialTemperatureC must be above −273.15 °C, got ${tp}`);
   return {
     nLayers: n,
     names,
@@ -162,8 +191,11 @@ export function compileModel(model: ThermalModel, options: CompileOptions = {}):
     pressureTopMPa,
     gravityMS2: g,
     totalHeatProductionMWm2: heat,
-    reducedHeatFlowOffsetMWm2: topIsExp ? aTop[0] * decayKm[0] : i1[0],
-    reducedHeatFlowMethod: topIsExp ? 'exponential' : 'constant-layer',
+    reducedHeatFlowOffsetMWm2: reducedOffset,
+    reducedHeatFlowMethod: reducedLayer < 0 ? 'not-applicable' : markedIsExp ? 'exponential' : 'constant-layer',
+    reducedHeatFlowLayer: reducedLayer,
+    rock,
+    mantlePotentialTemperatureC: tp,
     warnings,
   };
 }

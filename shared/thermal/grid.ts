@@ -4,7 +4,19 @@
  * per compiled model is allocated per call; nothing per cell. Same closed form as the single column (column.ts).
  */
 import type { CompiledModel } from './compile.ts';
+import { adiabatTemperatureC } from './adiabat.ts';
 import { COLUMN_BAD_INPUT, ColumnState, columnHeatFlow, columnIsothermDepth, columnTemperature, solveColumn } from './column.ts';
+import { columnLimits, layerSolidus, limitedIsothermDepth, limitedTemperature } from './limits.ts';
+import { lithostaticPressureMPa } from './pressure.ts';
+import { ROCK_KINDS } from '../schema/model.ts';
+
+/** Status bit of a grid cell whose column reaches the melt onset (limits.ts) above the maximum depth. */
+export const COLUMN_MELT_ONSET = 8;
+
+/** Per model: the dry solidus at each layer top (its minimum over the layer: every dry curve rises with pressure or is flat). */
+function dryAtTops(cm: CompiledModel): Float64Array {
+  return Float64Array.from({ length: cm.nLayers }, (_, i) => layerSolidus(cm, i).dry.temperatureC(lithostaticPressureMPa(cm, cm.topKm[i])));
+}
 
 type Floats = Float32Array | Float64Array;
 
@@ -26,6 +38,10 @@ export interface GeothermGridOutput {
   status?: Uint8Array;
   /** Optional basal heat flow, mW/m². */
   basalHeatFlowMWm2?: Floats;
+  /** Optional melt-onset depth (km; NaN where not reached above the maximum depth); asks for full solves. */
+  meltOnsetKm?: Floats;
+  /** Optional depth where the water-saturated solidus of the rock there is reached (km; NaN: not above the maximum depth). */
+  wetSolidusKm?: Floats;
 }
 
 export interface GeothermGridOptions {
@@ -58,11 +74,16 @@ export function geothermGrid(models: CompiledModel | CompiledModel[], heatFlowMW
   const t0s = options.surfaceTemperatureC;
   const isos = Float64Array.from(query.isothermsC as ArrayLike<number>);
   const deps = Float64Array.from(query.depthsKm as ArrayLike<number>);
-  const status = out.status, basal = out.basalHeatFlowMWm2;
-  // Layer temperatures are needed only down to the hottest isotherm and the deepest depth asked for.
+  const status = out.status, basal = out.basalHeatFlowMWm2, melt = out.meltOnsetKm, wet = out.wetSolidusKm;
+  // Layer temperatures are needed only down to the hottest isotherm and the deepest depth asked for (all of them
+  // when the melt-onset depth is asked for).
   let needT = -Infinity, needZ = 0;
   for (let k = 0; k < nIso; k++) needT = Math.max(needT, isos[k]);
   for (let k = 0; k < nDep; k++) needZ = Math.max(needZ, deps[k]);
+  const full = melt !== undefined || wet !== undefined;
+  if (full) needT = Infinity;
+  const dryTop = list.map(dryAtTops);
+  const mantle = ROCK_KINDS.indexOf('mantle');
   for (let c = start; c < end; c++) {
     const zi = zones === undefined ? 0 : zones[c];
     const cm = list[zi];
@@ -70,11 +91,41 @@ export function geothermGrid(models: CompiledModel | CompiledModel[], heatFlowMW
     const st = states[zi];
     const q0 = heatFlowMWm2[c];
     solveColumn(cm, q0, t0s === undefined ? cm.surfaceTemperatureC : t0s[c], st, needT, needZ);
-    if (status !== undefined) status[c] = st.status;
     if (basal !== undefined) basal[c] = st.status & COLUMN_BAD_INPUT ? NaN : q0 - cm.totalHeatProductionMWm2;
     const zMax = query.maxDepthKm ?? cm.maxDepthKm;
-    for (let k = 0; k < nIso; k++) out.isothermDepthKm[k][c] = columnIsothermDepth(cm, st, isos[k], zMax);
-    for (let k = 0; k < nDep; k++) out.temperatureC[k][c] = columnTemperature(cm, st, deps[k]);
+    // Fast path: no solved layer gets as hot as its dry solidus at its top, nor (mantle) as the adiabat there, so the
+    // melt and mantle limits cannot act above the solved depth (layers left unsolved by the lazy solve lie below every
+    // answer asked for). Otherwise the full limits of limits.ts.
+    let hot = full && !(st.status & COLUMN_BAD_INPUT), zSolved = 0;
+    if (!hot && !(st.status & COLUMN_BAD_INPUT)) {
+      const dt = dryTop[zi], tT = st.tTopC;
+      for (let i = 0; i < cm.nLayers && cm.topKm[i] <= zMax; i++) {
+        const tb = tT[i + 1];
+        if (!Number.isFinite(tb)) break;
+        zSolved = cm.bottomKm[i];
+        if (tb >= dt[i] || (cm.rock[i] === mantle && tb >= adiabatTemperatureC(cm.mantlePotentialTemperatureC, cm.topKm[i], cm.gravityMS2))) {
+          hot = true;
+          break;
+        }
+      }
+    }
+    if (!hot) {
+      if (status !== undefined) status[c] = st.status;
+      if (melt !== undefined) melt[c] = NaN;
+      if (wet !== undefined) wet[c] = NaN;
+      for (let k = 0; k < nIso; k++) out.isothermDepthKm[k][c] = columnIsothermDepth(cm, st, isos[k], zMax);
+      for (let k = 0; k < nDep; k++) out.temperatureC[k][c] = columnTemperature(cm, st, deps[k]);
+      continue;
+    }
+    // Scan only the solved part (all of it when the melt depth is asked for: needT = ∞ solves every layer).
+    let zScan = zMax;
+    for (let i = 0; i < cm.nLayers; i++) if (!Number.isFinite(st.tTopC[i + 1])) { zScan = Math.min(zMax, Math.max(zSolved, cm.topKm[i])); break; }
+    const lim = columnLimits(cm, st, zScan);
+    if (status !== undefined) status[c] = st.status | (lim.endReason === 'melt-onset' ? COLUMN_MELT_ONSET : 0);
+    if (melt !== undefined) melt[c] = lim.meltOnsetKm;
+    if (wet !== undefined) wet[c] = lim.wetSolidusKm;
+    for (let k = 0; k < nIso; k++) out.isothermDepthKm[k][c] = limitedIsothermDepth(cm, st, lim, isos[k], zMax);
+    for (let k = 0; k < nDep; k++) out.temperatureC[k][c] = limitedTemperature(cm, st, lim, deps[k]);
   }
 }
 

@@ -1,6 +1,6 @@
 // The thermal engine's public API (re-exports only). See each file for the method and its source.
 export { compileModel, layerI1, layerI2, type CompiledModel, type CompileOptions } from './compile.ts';
-export { DEFAULT_DENSITY_KG_M3, DEFAULT_GRAVITY_MS2, type ThermalModel, type ThermalLayer } from './model.ts';
+export { DEFAULT_DENSITY_KG_M3, DEFAULT_GRAVITY_MS2, DEFAULT_MANTLE_POTENTIAL_TEMPERATURE_C, DEFAULT_ROCK, type ThermalModel, type ThermalLayer } from './model.ts';
 export { heatProductionFromRadioelements } from './heat-production.ts';
 export {
   ColumnState,
@@ -16,8 +16,8 @@ export {
   COLUMN_BAD_INPUT,
 } from './column.ts';
 export { solveModelColumn, temperatureAtDepth, heatFlowAtDepth, isothermDepth, reducedHeatFlow, basalHeatFlow, columnWarnings, type ColumnOptions } from './geotherm.ts';
-export { columnProfile, type ColumnProfile, type ProfileOptions } from './profile.ts';
-export { geothermGrid, type GeothermGridQuery, type GeothermGridOutput, type GeothermGridOptions } from './grid.ts';
+export { columnProfile, limitWarnings, type ColumnProfile, type ProfileOptions } from './profile.ts';
+export { geothermGrid, COLUMN_MELT_ONSET, type GeothermGridQuery, type GeothermGridOutput, type GeothermGridOptions } from './grid.ts';
 export {
   lithostaticPressureMPa,
   uniformLithostaticPressureMPa,
@@ -49,3 +49,6 @@ export {
   type GridSummaryBuffers,
   type PreparedGridMonteCarlo,
 } from './monte-carlo.ts';
+export { adiabatTemperatureC, adiabatDepthKm, adiabaticGradientKPerKm, MANTLE_EXPANSIVITY_PER_K, MANTLE_HEAT_CAPACITY_J_KG_K } from './adiabat.ts';
+export { columnLimits, limitedTemperature, limitedIsothermDepth, isAdiabatic, layerRock, layerSolidus, type ColumnLimits } from './limits.ts';
+export { limitsToJson, sampleFlag, parsePorePressureMode, porePressureAt, describePorePressure, type PorePressureMode } from './readout.ts';

@@ -21,7 +21,7 @@ import {
 } from './column.ts';
 import { summarizeSorted, type Summary } from './quantiles.ts';
 import { realizationProblem, realizeModel } from './realize.ts';
-import { DRY_PERIDOTITE_SOLIDUS_MPA, WET_GRANITE_SOLIDUS_MPA, solidusCrossingDepth } from './solidus-crossing.ts';
+import { columnLimits, limitedIsothermDepth, limitedTemperature, type ColumnLimits } from './limits.ts';
 
 type Floats = Float32Array | Float64Array;
 
@@ -34,6 +34,14 @@ function isothermValue(cm: CompiledModel, st: ColumnState, tIso: number, zMax: n
   if (z === z) return z;
   // Not reached: a valid verdict only if the column is valid down to the search limit.
   return st.status & COLUMN_FLOW_EXHAUSTED && st.validToKm < zMax ? NaN : Infinity;
+}
+
+/** Same under the melt and mantle limits (limits.ts): +∞ only when the column is valid down to zMax. */
+function limitedIsothermValue(cm: CompiledModel, st: ColumnState, lim: ColumnLimits, tIso: number, zMax: number): number {
+  if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED) && !(lim.validToKm >= zMax)) return NaN;
+  const z = limitedIsothermDepth(cm, st, lim, tIso, zMax);
+  if (z === z) return z;
+  return lim.validToKm < zMax ? NaN : Infinity;
 }
 
 function sortedSummary(values: Float64Array): Summary {
@@ -54,7 +62,7 @@ export interface ColumnMonteCarloOptions {
   heatFlowMWm2?: number | Distribution;
   /** Overrides the model's surface temperature, °C. */
   surfaceTemperatureC?: number;
-  /** Also summarise the solidus crossings (default true). */
+  /** Also summarise the wet-solidus crossing, the melt onset and the lithosphere base (default true). */
   solidus?: boolean;
   /** Scan step for the solidus crossings, km (default 0.1). */
   stepKm?: number;
@@ -65,13 +73,14 @@ export interface ColumnMonteCarloResult {
   realizations: number;
   /** Realizations with a physically impossible draw (k0 ≤ 0, …), left out of every summary. */
   rejected: number;
-  /** Realizations whose column was flagged (heat flow exhausted, k(T) undefined). */
+  /** Realizations whose column was flagged (heat flow exhausted, k(T) undefined, melt onset above the maximum depth). */
   inconsistent: number;
   isothermDepthsKm: Summary[];
   temperatureAtDepthsC: Summary[];
   basalHeatFlowMWm2: Summary;
   reducedHeatFlowMWm2: Summary;
-  solidusCrossingKm: { wetGranite: Summary; dryPeridotite: Summary } | null;
+  /** Rock-aware crossings (limits.ts): water-saturated solidus, melt onset (dry solidus), lithosphere base. */
+  solidusCrossingKm: { wetSolidus: Summary; meltOnset: Summary; lithosphereBase: Summary } | null;
   /** First reason a realization was rejected, for the warning. */
   firstRejection: string | null;
 }
@@ -83,7 +92,7 @@ export function monteCarloColumn(model: ThermalModelInput, o: ColumnMonteCarloOp
   const nIso = o.isothermsC.length, nDep = o.depthsKm.length;
   const iso = o.isothermsC.map(() => new Float64Array(N));
   const dep = o.depthsKm.map(() => new Float64Array(N));
-  const basal = new Float64Array(N), reduced = new Float64Array(N), wet = new Float64Array(N), dry = new Float64Array(N);
+  const basal = new Float64Array(N), reduced = new Float64Array(N), wet = new Float64Array(N), dry = new Float64Array(N), lith = new Float64Array(N);
   const doSolidus = o.solidus ?? true;
   const copt: CompileOptions = { maxDepthKm: o.maxDepthKm, gravityMS2: o.gravityMS2 };
   let rejected = 0, inconsistent = 0;
@@ -101,23 +110,25 @@ export function monteCarloColumn(model: ThermalModelInput, o: ColumnMonteCarloOp
       firstRejection ??= problem;
       for (let k = 0; k < nIso; k++) iso[k][r] = NaN;
       for (let k = 0; k < nDep; k++) dep[k][r] = NaN;
-      basal[r] = reduced[r] = wet[r] = dry[r] = NaN;
+      basal[r] = reduced[r] = wet[r] = dry[r] = lith[r] = NaN;
       continue;
     }
     const cm = compileModel(m, copt);
     st ??= new ColumnState(cm.nLayers);
     solveColumn(cm, q0, o.surfaceTemperatureC ?? cm.surfaceTemperatureC, st);
-    if (st.status !== 0) inconsistent++;
-    for (let k = 0; k < nIso; k++) iso[k][r] = isothermValue(cm, st, o.isothermsC[k], o.maxDepthKm);
-    for (let k = 0; k < nDep; k++) dep[k][r] = columnTemperature(cm, st, o.depthsKm[k]);
+    const maxZ = Math.max(o.maxDepthKm, ...o.depthsKm);
+    const lim = columnLimits(cm, st, maxZ, o.stepKm ?? 0.1);
+    if (lim.endReason !== null) inconsistent++;
+    for (let k = 0; k < nIso; k++) iso[k][r] = limitedIsothermValue(cm, st, lim, o.isothermsC[k], o.maxDepthKm);
+    for (let k = 0; k < nDep; k++) dep[k][r] = limitedTemperature(cm, st, lim, o.depthsKm[k]);
     basal[r] = q0 - cm.totalHeatProductionMWm2;
     reduced[r] = q0 - cm.reducedHeatFlowOffsetMWm2;
     if (doSolidus) {
-      const sw = solidusCrossingDepth(cm, st, WET_GRANITE_SOLIDUS_MPA, o.maxDepthKm, o.stepKm ?? 0.1);
-      const sd = solidusCrossingDepth(cm, st, DRY_PERIDOTITE_SOLIDUS_MPA, o.maxDepthKm, o.stepKm ?? 0.1);
-      const notReached = st.status === 0 || st.validToKm >= o.maxDepthKm ? Infinity : NaN;
-      wet[r] = sw === sw ? sw : notReached;
-      dry[r] = sd === sd ? sd : notReached;
+      // Not reached counts as deeper than any depth only where the column is valid that deep.
+      const notReached = lim.validToKm >= o.maxDepthKm || lim.endReason === 'melt-onset' ? Infinity : NaN;
+      wet[r] = lim.wetSolidusKm === lim.wetSolidusKm ? lim.wetSolidusKm : notReached;
+      dry[r] = lim.meltOnsetKm === lim.meltOnsetKm ? lim.meltOnsetKm : notReached;
+      lith[r] = lim.lithosphereBaseKm === lim.lithosphereBaseKm ? lim.lithosphereBaseKm : lim.validToKm >= o.maxDepthKm ? Infinity : NaN;
     }
   }
   return {
@@ -128,7 +139,7 @@ export function monteCarloColumn(model: ThermalModelInput, o: ColumnMonteCarloOp
     temperatureAtDepthsC: dep.map(sortedSummary),
     basalHeatFlowMWm2: sortedSummary(basal),
     reducedHeatFlowMWm2: sortedSummary(reduced),
-    solidusCrossingKm: doSolidus ? { wetGranite: sortedSummary(wet), dryPeridotite: sortedSummary(dry) } : null,
+    solidusCrossingKm: doSolidus ? { wetSolidus: sortedSummary(wet), meltOnset: sortedSummary(dry), lithosphereBase: sortedSummary(lith) } : null,
     firstRejection,
   };
 }

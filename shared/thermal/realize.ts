@@ -1,7 +1,7 @@
 /**
  * Turns a model with distributions into deterministic models: one realization per random stream (parameters drawn
  * once per realization, in a fixed order: surface heat flow, surface temperature, then per layer k0, b, A, U, Th,
- * K, D, ρ; constants draw nothing), or the nominal model (each distribution's central value).
+ * K, D, ρ, then the mantle potential temperature; constants draw nothing), or the nominal model (each distribution's central value).
  */
 import type { RandomStream } from '../random/prng.ts';
 import { drawFrom, nominalValue } from '../random/distributions.ts';
@@ -34,10 +34,16 @@ function mapModel(m: ThermalModelInput, f: (v: UncertainNumber | undefined) => n
     if (d !== undefined) out.heatProductionDecayKm = d;
     const rho = f(l.densityKgM3);
     if (rho !== undefined) out.densityKgM3 = rho;
+    if (l.rock !== undefined) out.rock = l.rock;
+    if (l.heatProducingUpperCrust !== undefined) out.heatProducingUpperCrust = l.heatProducingUpperCrust;
+    if (l.conductivityReferenceTempC !== undefined) out.conductivityReferenceTempC = l.conductivityReferenceTempC;
     return out;
   });
+  // Drawn after every layer parameter, so models without it keep their random streams.
+  const tp = f(m.mantlePotentialTemperatureC);
   const out: ThermalModel = { surfaceTemperatureC, layers };
   if (surfaceHeatFlowMWm2 !== undefined) out.surfaceHeatFlowMWm2 = surfaceHeatFlowMWm2;
+  if (tp !== undefined) out.mantlePotentialTemperatureC = tp;
   return out;
 }
 
@@ -58,6 +64,7 @@ export function isUncertainModel(m: ThermalModelInput): boolean {
   return (
     u(m.surfaceHeatFlowMWm2) ||
     u(m.surfaceTemperatureC) ||
+    u(m.mantlePotentialTemperatureC) ||
     m.layers.some((l) => [l.conductivityWmK, l.conductivityTempCoeffPerK, l.heatProductionUWm3, l.uraniumPpm, l.thoriumPpm, l.potassiumPct, l.heatProductionDecayKm, l.densityKgM3].some(u))
   );
 }

@@ -191,9 +191,10 @@ describe('the isotherms verb', () => {
     const r = await run(['--heat-flow', hfPath, '--model', model, '--isotherms', '300,500', '--depths-km', '3,5', '--facies-depth-km', '5', '--realizations', '20', '--seed', '4', '--out-dir', outDir, '--json']);
     expect(r.code).toBe(2);
     const s = JSON.parse(r.stdout);
-    expect(s.inconsistent.inconsistent).toBe(1);
+    expect(s.inconsistent.heatFlowExhausted).toBe(1);
+    expect(s.inconsistent.inconsistent).toBe(1 + s.inconsistent.meltOnset); // the others reach the melt onset (flag 8)
     expect(r.stderr).toContain('inconsistent');
-    for (const f of ['depth-300C.tif', 'depth-300C.contours.geojson', 'temperature-5km.tif', 'temperature-5km.contours.geojson', 'facies-5km.tif', 'base-heat-flow.tif', 'solidus-depth.tif', 'inconsistent.tif', 'depth-300C.p10.tif', 'depth-300C.p50.tif', 'depth-300C.p90.tif', 'summary.json']) {
+    for (const f of ['depth-300C.tif', 'depth-300C.contours.geojson', 'temperature-5km.tif', 'temperature-5km.contours.geojson', 'facies-5km.tif', 'base-heat-flow.tif', 'solidus-depth.tif', 'melt-onset.tif', 'inconsistent.tif', 'depth-300C.p10.tif', 'depth-300C.p50.tif', 'depth-300C.p90.tif', 'summary.json']) {
       expect(existsSync(join(outDir, f))).toBe(true);
     }
     const flag = await readGeoTiff(readFileSync(join(outDir, 'inconsistent.tif')).buffer as ArrayBuffer);

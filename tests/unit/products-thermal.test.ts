@@ -4,8 +4,8 @@ import type { Grid } from '../../shared/grid/grid.ts';
 import { rasterizeZones, cellsInsideRings } from '../../shared/grid/polygon-cells.ts';
 import { classifyFacies } from '../../shared/petrology/index.ts';
 import {
-  basalHeatFlow, compileModel, isothermDepth, lithostaticPressureMPa, nominalModel, solidusCrossingDepth, solveModelColumn, temperatureAtDepth,
-  WET_GRANITE_SOLIDUS_MPA, DRY_PERIDOTITE_SOLIDUS_MPA, type CompiledModel,
+  basalHeatFlow, columnLimits, compileModel, limitedIsothermDepth, limitedTemperature, lithostaticPressureMPa, nominalModel, solveModelColumn,
+  COLUMN_MELT_ONSET, type CompiledModel,
 } from '../../shared/thermal/index.ts';
 import { parseModelText } from '../../shared/products/model-input.ts';
 import { applyLayerOverride, overrideFromProperties } from '../../shared/products/overrides.ts';
@@ -96,8 +96,8 @@ describe('thermal grids equal the single-column engine cell by cell', () => {
   const spec = { heatFlow: q, models, zones, isothermsC: [150, 300, 500], depthsKm: [3, 5, 10], faciesDepthKm: 12, maxDepthKm: 60 };
   const out = computeThermalGrids(spec);
 
-  it('matches isothermDepth, temperatureAtDepth, basalHeatFlow, the solidus scan and the facies classifier', () => {
-    let zoneCells = 0, checked = 0;
+  it('matches the engine\'s limited column (isotherms, temperatures, melt onset, wet solidus), basal heat flow and the facies classifier', () => {
+    let zoneCells = 0, checked = 0, melting = 0;
     for (let i = 0; i < q.values.length; i += 3) {
       const q0 = q.values[i];
       const cm: CompiledModel = models[zones[i]];
@@ -107,32 +107,35 @@ describe('thermal grids equal the single-column engine cell by cell', () => {
         expect(out.inconsistent[i]).toBeNaN();
         continue;
       }
+      const st = solveModelColumn(cm, { heatFlowMWm2: q0 });
+      const lim = columnLimits(cm, st, 60);
       spec.isothermsC.forEach((T, k) => {
-        const d = isothermDepth(cm, T, { heatFlowMWm2: q0, maxDepthKm: 60 });
-        if (d === null) expect(out.isothermDepthKm[k][i]).toBeNaN();
+        const d = limitedIsothermDepth(cm, st, lim, T, 60);
+        if (Number.isNaN(d)) expect(out.isothermDepthKm[k][i]).toBeNaN();
         else expect(out.isothermDepthKm[k][i]).toBeCloseTo(d, 4);
       });
       spec.depthsKm.forEach((z, k) => {
-        const t = temperatureAtDepth(cm, z, { heatFlowMWm2: q0 });
+        const t = limitedTemperature(cm, st, lim, z);
         if (Number.isNaN(t)) expect(out.temperatureC[k][i]).toBeNaN();
         else expect(out.temperatureC[k][i]).toBeCloseTo(t, 3);
       });
       expect(out.baseHeatFlowMWm2[i]).toBeCloseTo(basalHeatFlow(cm, q0), 3);
-      const st = solveModelColumn(cm, { heatFlowMWm2: q0 });
-      const wet = solidusCrossingDepth(cm, st, WET_GRANITE_SOLIDUS_MPA, 60, 0.1);
-      const dry = solidusCrossingDepth(cm, st, DRY_PERIDOTITE_SOLIDUS_MPA, 60, 0.1);
-      if (Number.isNaN(wet)) expect(out.solidusDepthKm![i]).toBeNaN();
+      if (Number.isNaN(lim.wetSolidusKm)) expect(out.solidusDepthKm![i]).toBeNaN();
+      else expect(out.solidusDepthKm![i]).toBeCloseTo(lim.wetSolidusKm, 5);
+      if (Number.isNaN(lim.meltOnsetKm)) expect(out.meltOnsetKm![i]).toBeNaN();
       else {
-        expect(out.solidusDepthKm![i]).toBeCloseTo(wet, 5);
-        if (!Number.isNaN(dry)) expect(wet).toBeLessThanOrEqual(dry); // the wet-granite curve is met first
+        melting++;
+        expect(out.meltOnsetKm![i]).toBeCloseTo(lim.meltOnsetKm, 5);
+        expect(lim.wetSolidusKm).toBeLessThanOrEqual(lim.meltOnsetKm); // the water-saturated curve is met first
       }
-      const t12 = temperatureAtDepth(cm, 12, { heatFlowMWm2: q0 });
-      const f = classifyFacies(t12, lithostaticPressureMPa(cm, 12) / 100).facies;
-      expect(faciesNameOfCode(out.facies![i])).toBe(f);
-      expect(out.inconsistent[i]).toBe(st.status);
+      const t12 = limitedTemperature(cm, st, lim, 12);
+      if (Number.isNaN(t12)) expect(out.facies![i]).toBeNaN();
+      else expect(faciesNameOfCode(out.facies![i])).toBe(classifyFacies(t12, lithostaticPressureMPa(cm, 12) / 100).facies);
+      expect(out.inconsistent[i]).toBe(st.status | (lim.endReason === 'melt-onset' ? COLUMN_MELT_ONSET : 0));
       checked++;
     }
     expect(checked).toBeGreaterThan(100);
+    expect(melting).toBeGreaterThan(0);
     expect(zoneCells).toBeGreaterThan(5);
     expect(out.solidusDepthKm!.some((v) => Number.isFinite(v))).toBe(true);
     expect(out.facies!.some((v) => v === FACIES_CODES.greenschist || v === FACIES_CODES.amphibolite)).toBe(true);
@@ -143,8 +146,8 @@ describe('thermal grids equal the single-column engine cell by cell', () => {
     expect(out.baseHeatFlowMWm2[40]).toBeLessThan(0);
     expect(out.isothermDepthKm[2][40]).toBeNaN(); // 500 °C lies below the depth where the heat flow runs out
     const c = inconsistencyCounts(out.inconsistent);
-    expect(c.inconsistent).toBe(1);
     expect(c.heatFlowExhausted).toBe(1);
+    expect(c.inconsistent).toBe(1 + c.meltOnset); // the rest of the flagged cells melt (flag 8)
     expect(c.noData).toBe(1);
   });
 

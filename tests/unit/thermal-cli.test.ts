@@ -1,6 +1,6 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 
 const root = new URL('../..', import.meta.url).pathname;
@@ -16,7 +16,7 @@ function run(model: unknown, args: string[]) {
 }
 
 // Turcotte & Schubert (2002) §4-8 worked case of SOURCES.md: T0 10, q0 60, A0 2.5, hr 10, k 2.5.
-const GOOD = { surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ name: 'crust', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 }] };
+const GOOD = { surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ name: 'crust', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700, heatProducingUpperCrust: true }] };
 
 describe('subtherm geotherm', () => {
   it('prints the DESIGN.md §4 JSON for a good model', () => {
@@ -30,9 +30,14 @@ describe('subtherm geotherm', () => {
     expect(j.reducedHeatFlowMWm2).toBeCloseTo(35, 6);
     expect(j.basalHeatFlowMWm2).toBeCloseTo(60 - 25 * (1 - Math.exp(-4)), 5);
     expect(j.profile).toHaveLength(41);
-    expect(Object.keys(j.profile[10]).sort()).toEqual(['depthKm', 'facies', 'heatFlowMWm2', 'pressureMPa', 'temperatureC']);
+    expect(Object.keys(j.profile[10]).sort()).toEqual(['depthKm', 'effectivePressureMPa', 'facies', 'flag', 'heatFlowMWm2', 'poreFluidFactor', 'porePressureMPa', 'pressureMPa', 'regime', 'temperatureC']);
     expect(j.profile[10].pressureMPa).toBeCloseTo(264.87, 6); // ρgh, 2700 · 9.81 · 10 km
-    expect(j.solidusCrossingKm).toHaveProperty('wetGranite');
+    // Hydrostatic fresh water with the model's g = 9.81: 98.1 MPa at 10 km; λ = 98.1/264.87 (Hubbert & Rubey 1959).
+    expect(j.profile[10].porePressureMPa).toBeCloseTo(98.1, 6);
+    expect(j.profile[10].poreFluidFactor).toBeCloseTo(98.1 / 264.87, 6);
+    expect(j.profile[10].effectivePressureMPa).toBeCloseTo(264.87 - 98.1, 6);
+    expect(j.solidusCrossingKm).toHaveProperty('wetSolidus');
+    expect(j.solidusCrossingKm).toHaveProperty('meltOnset');
     expect(Array.isArray(j.warnings)).toBe(true);
   });
 
@@ -69,6 +74,47 @@ describe('subtherm geotherm', () => {
       expect(r.err).not.toMatch(/at .*\.ts:\d+/); // no stack trace
     });
   }
+
+  it('gives no temperature below the melt onset of the demo model at 110 mW/m², and says so', () => {
+    const demo = readFileSync(join(root, 'fixtures/demo/model.json'), 'utf8');
+    const r = run(demo, ['--heat-flow', '110', '--depths-km', '20,35,60', '--isotherms', '300,1500', '--json']);
+    expect(r.code).toBe(0);
+    const j = JSON.parse(r.out);
+    expect(j.meltOnsetKm).toBeLessThan(20);
+    expect(j.meltOnset.rock).toBe('felsic-crust');
+    expect(j.inconsistent).toBe(true);
+    expect(j.invalidBelow).toBe('melt-onset');
+    expect(j.temperatureAtDepthsC).toEqual({ '20': null, '35': null, '60': null });
+    expect(j.isothermDepthsKm['1500']).toBeNull();
+    const below = j.profile.filter((p: { depthKm: number }) => p.depthKm > j.meltOnsetKm);
+    expect(below.length).toBeGreaterThan(0);
+    for (const p of below) {
+      expect(p.temperatureC).toBeNull();
+      expect(p.facies).toBeNull(); // the facies readout stops at the melt onset
+      expect(p.flag).toBe('melt-onset');
+    }
+    expect(j.warnings.some((w: string) => w.startsWith('melt onset at'))).toBe(true);
+  });
+
+  it('gives lithostatic, pore and effective pressure (SOURCES.md example after Hubbert & Rubey 1959)', () => {
+    // 3 km, ρ 2500, g 9.81: Plith 73.575 MPa; hydrostatic fresh water 29.43 MPa; λ 0.400; effective 44.145 MPa.
+    const m = { surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ bottomKm: 10, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2500 }] };
+    const j = JSON.parse(run(m, ['--step-km', '1', '--max-depth-km', '10', '--fluid-density-kg-m3', '1000', '--json']).out);
+    const at3 = j.profile.find((p: { depthKm: number }) => p.depthKm === 3);
+    expect(at3.pressureMPa).toBeCloseTo(73.575, 6);
+    expect(at3.porePressureMPa).toBeCloseTo(29.43, 6);
+    expect(at3.poreFluidFactor).toBeCloseTo(0.4, 6);
+    expect(at3.effectivePressureMPa).toBeCloseTo(44.145, 6);
+    // A fixed λ = 0.7: Pf = 0.7 × 73.575 = 51.5025 MPa, effective 22.0725 MPa, and the hazard warning (λ ≥ 0.6).
+    const k = JSON.parse(run(m, ['--step-km', '1', '--max-depth-km', '10', '--pore-pressure', 'lambda:0.7', '--json']).out);
+    const k3 = k.profile.find((p: { depthKm: number }) => p.depthKm === 3);
+    expect(k3.porePressureMPa).toBeCloseTo(51.5025, 6);
+    expect(k3.poreFluidFactor).toBeCloseTo(0.7, 9);
+    expect(k3.effectivePressureMPa).toBeCloseTo(22.0725, 6);
+    expect(k.warnings.some((w: string) => w.includes('hydraulic-fracturing'))).toBe(true);
+    expect(run(m, ['--pore-pressure', 'lambda:x', '--json']).code).toBe(2);
+    expect(run(m, ['--fluid-density-kg-m3', '-5', '--json']).code).toBe(2);
+  });
 
   it('exits 2 on NaN options and unreadable JSON', () => {
     expect(run(GOOD, ['--heat-flow', 'NaN', '--json']).code).toBe(2);

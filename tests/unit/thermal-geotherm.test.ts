@@ -35,7 +35,7 @@ describe('exponential heat production (Turcotte & Schubert 2002, §4-8)', () => 
   // T(z) = T0 + qm·z/k + (A0·hr²/k)(1 − e^(−z/hr)), qm = q0 − A0·hr (Turcotte & Schubert 2002, §4-8).
   const T0 = 10, q0 = 60, A0 = 2.5, hr = 10, k = 2.5, qm = q0 - A0 * hr;
   const published = (z: number) => T0 + (qm * z) / k + ((A0 * hr * hr) / k) * (1 - Math.exp(-z / hr));
-  const cm = compileModel(one({ conductivityWmK: k, heatProductionUWm3: A0, heatProductionDecayKm: hr }, q0, T0));
+  const cm = compileModel(one({ conductivityWmK: k, heatProductionUWm3: A0, heatProductionDecayKm: hr, heatProducingUpperCrust: true }, q0, T0));
 
   it('matches the closed form and the SOURCES.md check values', () => {
     // Check values [derived] in SOURCES.md from the formula above: 119.347, 213.212, 376.466, 596.980 °C.
@@ -58,6 +58,32 @@ describe('exponential heat production (Turcotte & Schubert 2002, §4-8)', () => 
 
   it('reports qm as the reduced heat flow (q0 = qr + D·A0, Birch/Lachenbruch)', () => {
     expect(reducedHeatFlow(cm, q0)).toBeCloseTo(35, 12);
+  });
+
+  it('defines the reduced heat flow on the marked layer only, below any sediment above it', () => {
+    // q0 = qr + D·A0 holds for the heat-producing layer; sediment above it (2 km of 1.5 µW/m³ = 3 mW/m²) adds its
+    // own production: qr = 60 − 3 − 2.5·10 = 32 mW/m² (Turcotte & Schubert 2002, §4-8, applied below the sediment).
+    const sedModel: ThermalModel = {
+      surfaceTemperatureC: T0,
+      surfaceHeatFlowMWm2: q0,
+      layers: [
+        { name: 'sediment', rock: 'sediment', bottomKm: 2, conductivityWmK: 2, heatProductionUWm3: 1.5, densityKgM3: 2400 },
+        { name: 'upper crust', bottomKm: 40, conductivityWmK: k, heatProductionUWm3: A0, heatProductionDecayKm: hr, heatProducingUpperCrust: true, densityKgM3: 2700 },
+      ],
+    };
+    expect(reducedHeatFlow(compileModel(sedModel), q0)).toBeCloseTo(32, 12);
+    // No marked layer: not applicable (NaN), never the top layer by default.
+    const unmarked = { ...sedModel, layers: sedModel.layers.map((l) => ({ ...l, heatProducingUpperCrust: undefined })) };
+    expect(Number.isNaN(reducedHeatFlow(compileModel(unmarked), q0))).toBe(true);
+    expect(compileModel(unmarked).reducedHeatFlowMethod).toBe('not-applicable');
+  });
+
+  it('reads conductivityReferenceTempC as k(T_ref) = k0/(1 + b·T_ref)', () => {
+    // Chapman (1986) form k(T) = k0/(1 + bT): a value of 2.5 W/m/K measured at 25 °C with b = 1.5e-3 is k0 = 2.59375.
+    const ref = compileModel(one({ conductivityWmK: 2.5, conductivityTempCoeffPerK: 1.5e-3, conductivityReferenceTempC: 25 }));
+    expect(ref.k0[0]).toBeCloseTo(2.5 * (1 + 1.5e-3 * 25), 12);
+    const at0 = compileModel(one({ conductivityWmK: 2.5, conductivityTempCoeffPerK: 1.5e-3 }));
+    expect(at0.k0[0]).toBe(2.5);
   });
 });
 
@@ -186,7 +212,11 @@ describe('layered invariants', () => {
   });
   it('temperature increases with depth and isotherms invert it', () => {
     const p = columnProfile(cm, { stepKm: 0.5 });
-    for (let j = 1; j < p.temperatureC.length; j++) expect(p.temperatureC[j]).toBeGreaterThan(p.temperatureC[j - 1]);
+    // Felsic crust (the default rock) melts: temperatures stop at the melt onset, increasing above it.
+    for (let j = 1; j < p.temperatureC.length; j++) {
+      if (p.depthKm[j] <= p.limits.validToKm) expect(p.temperatureC[j]).toBeGreaterThan(p.temperatureC[j - 1]);
+      else expect(Number.isNaN(p.temperatureC[j])).toBe(true);
+    }
     for (const t of [100, 300, 500, 800]) {
       const z = isothermDepth(cm, t)!;
       expect(Math.abs(temperatureAtDepth(cm, z) - t)).toBeLessThan(1e-5);

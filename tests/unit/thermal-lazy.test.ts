@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { compileModel, ColumnState, solveColumn, columnIsothermDepth, columnTemperature, geothermGrid, COLUMN_FLOW_EXHAUSTED } from '../../shared/thermal/index.ts';
+import { compileModel, ColumnState, solveColumn, columnIsothermDepth, columnTemperature, geothermGrid, columnLimits, limitedIsothermDepth, limitedTemperature, COLUMN_FLOW_EXHAUSTED, COLUMN_MELT_ONSET } from '../../shared/thermal/index.ts';
 import type { ThermalModel } from '../../shared/thermal/index.ts';
 
 // A four-layer stack with k(T) and exponential heat production; high heat production at depth so that low surface
@@ -39,20 +39,31 @@ describe('lazy column solve (temperatures only as deep as the query needs)', () 
     expect(exhausted).toBeGreaterThan(0); // the sweep covers columns that are inconsistent deep in the stack
   });
 
-  it('the grid form equals cell-by-cell full solves', () => {
+  it('the grid form equals cell-by-cell full solves under the melt and mantle limits', () => {
     const cm = compileModel(MODEL, { maxDepthKm: 60 });
     const n = 400;
     const q = Float32Array.from({ length: n }, (_, i) => 35 + (i * 100) / n);
-    const out = { isothermDepthKm: [new Float64Array(n), new Float64Array(n)], temperatureC: [new Float64Array(n)], status: new Uint8Array(n) };
-    geothermGrid(cm, q, { isothermsC: [150, 300], depthsKm: [5] }, out);
+    const out = { isothermDepthKm: [new Float64Array(n), new Float64Array(n)], temperatureC: [new Float64Array(n)], status: new Uint8Array(n), meltOnsetKm: new Float64Array(n) };
+    geothermGrid(cm, q, { isothermsC: [150, 300], depthsKm: [5, 25] }, { ...out, temperatureC: [out.temperatureC[0], new Float64Array(n)] });
     const st = new ColumnState(cm.nLayers);
+    let melting = 0;
     for (let c = 0; c < n; c++) {
       solveColumn(cm, q[c], 10, st);
-      expect(out.status[c]).toBe(st.status);
-      const z = columnIsothermDepth(cm, st, 300, 60);
+      const lim = columnLimits(cm, st, 60);
+      if (lim.endReason === 'melt-onset') melting++;
+      expect(out.status[c]).toBe(st.status | (lim.endReason === 'melt-onset' ? COLUMN_MELT_ONSET : 0));
+      if (Number.isNaN(lim.meltOnsetKm)) expect(out.meltOnsetKm[c]).toBeNaN();
+      else expect(out.meltOnsetKm[c]).toBe(lim.meltOnsetKm);
+      const z = limitedIsothermDepth(cm, st, lim, 300, 60);
       if (Number.isNaN(z)) expect(out.isothermDepthKm[1][c]).toBeNaN();
       else expect(out.isothermDepthKm[1][c]).toBe(z);
-      expect(out.temperatureC[0][c]).toBe(columnTemperature(cm, st, 5));
+      const t = limitedTemperature(cm, st, lim, 5);
+      if (Number.isNaN(t)) expect(out.temperatureC[0][c]).toBeNaN();
+      else expect(out.temperatureC[0][c]).toBe(t);
+      // Below the limits nothing changes: the plain conductive answer.
+      if (lim.endReason === null && Number.isNaN(lim.lithosphereBaseKm)) expect(out.temperatureC[0][c]).toBe(columnTemperature(cm, st, 5));
+      if (lim.endReason === null && Number.isNaN(lim.lithosphereBaseKm) && Number.isFinite(z)) expect(z).toBe(columnIsothermDepth(cm, st, 300, 60));
     }
+    expect(melting).toBeGreaterThan(0); // the sweep reaches columns that melt
   });
 });
