@@ -10,6 +10,22 @@ import { modelFromJson } from '../runs/model-input.ts';
 import { sha256Hex } from '../store/sqlite.ts';
 import type { DatasetRecord } from '../store/types.ts';
 import { bodyText, parseJsonText, singleQuery, type AppContext } from './context.ts';
+import { z } from 'zod';
+import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
+import { formatFromMediaType, readVectorFile, VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
+
+/** Runs a validator on a converted file, naming the file and layer in its message. */
+function inLayer<T>(source: string, layer: string | null, f: () => T): T {
+  try {
+    return f();
+  } catch (e) {
+    if (e instanceof InputError) {
+      const where = `${source}${layer ? `, layer "${layer}"` : ''}`;
+      throw new InputError(`${where}: ${e.message}`, e.details.map((d) => ({ ...d, field: d.field ?? `layer ${layer ?? ''}`.trim() })), e.code, e.status);
+    }
+    throw e;
+  }
+}
 import { datasetQuerySchema, parseWith } from './schemas.ts';
 
 export interface ParsedUpload {
@@ -22,18 +38,46 @@ export interface ParsedUpload {
   suggestedName: string | null;
 }
 
-/** Reads, validates and canonicalizes an upload of `kind` from the request body (415/400/413/422 on bad input). */
+/**
+ * Query parameters every upload route reads besides its own: `crs` (EPSG:nnnn) of a CSV's x,y / easting,northing
+ * columns, `layer` (the GeoPackage table or the Shapefile in a zip, when there are several) and `filename` (named in
+ * error messages).
+ */
+export const uploadFormatQuery = z.object({
+  crs: z.string().trim().regex(/^EPSG:\d{4,6}$/i, 'crs must be EPSG:nnnn').optional(),
+  layer: z.string().trim().min(1).max(200).optional(),
+  filename: z.string().trim().min(1).max(200).optional(),
+});
+
+/**
+ * Reads, validates and canonicalizes an upload of `kind` from the request body (415/400/413/422 on bad input):
+ * GeoJSON, point CSV (lon/lat, or projected x,y with `crs`), a GeoPackage or a zipped Shapefile (reprojected to
+ * WGS 84 from the file's own CRS), or a thermal model JSON.
+ */
 export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind | 'model'): Promise<ParsedUpload> {
   const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
-  const isJson = type === 'application/json' || type === 'application/geo+json';
-  const isCsv = type === 'text/csv';
-  if (!isJson && !isCsv) {
+  const format = formatFromMediaType(type);
+  const isJson = format === 'geojson';
+  const isCsv = format === 'csv';
+  if (format === null) {
+    const all = Object.values(VECTOR_MEDIA_TYPES).flat().join(', ');
     throw new InputError(
-      `unsupported content-type "${type || '(none)'}": send application/geo+json, application/json or text/csv`,
-      [{ field: 'content-type', problem: 'expected application/geo+json, application/json or text/csv' }],
+      `unsupported content-type "${type || '(none)'}": send one of ${all}`,
+      [{ field: 'content-type', problem: `expected ${all}` }],
       'unsupported_media_type',
       415,
     );
+  }
+  const fq = parseWith(uploadFormatQuery, singleQuery(c), 'query', 'bad_query', 400);
+  const source = fq.filename ?? `the ${format === 'gpkg' ? 'GeoPackage' : format === 'shapefile' ? 'zipped Shapefile' : format === 'csv' ? 'CSV' : 'GeoJSON'} upload`;
+  if (format === 'gpkg' || format === 'shapefile') {
+    if (kind === 'model') throw new InputError('a thermal model is JSON: send it as application/json', [{ field: 'content-type', problem: 'expected application/json' }], 'unsupported_media_type', 415);
+    const bytes = new Uint8Array(await c.req.arrayBuffer());
+    if (bytes.length === 0) throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body', 400);
+    const r = await readVectorFile(bytes, { format, source, layer: fq.layer, maxBytes: ctx.limits.maxBodyBytes, maxFeatures: ctx.limits.maxFeatures });
+    const parsed = inLayer(source, r.layer, () => parseFeatureCollection(kind, r.collection, { maxFeatures: ctx.limits.maxFeatures }));
+    const warnings = r.sourceCrs === 'EPSG:4326' ? parsed.warnings : [`${source}${r.layer ? `, layer "${r.layer}"` : ''}: reprojected from ${r.sourceCrs} to WGS 84 longitude/latitude`, ...parsed.warnings];
+    return { kind, body: JSON.stringify(parsed.collection), featureCount: parsed.collection.features.length, warnings, suggestedName: r.layer };
   }
   const text = await bodyText(c);
   if (text.trim() === '') throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body', 400);
@@ -45,7 +89,12 @@ export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind
     const { name: _name, ...content } = model as typeof model & { name?: unknown };
     return { kind, body: JSON.stringify(content), featureCount: model.layers.length, warnings: [], suggestedName: name };
   }
-  const opts = { maxFeatures: ctx.limits.maxFeatures };
+  let toLonLat: ((x: number, y: number) => [number, number]) | undefined;
+  if (fq.crs !== undefined) {
+    const conv = converter(await loadCrsDefinition(fq.crs), WGS84_DEF);
+    toLonLat = (x, y) => conv.forward([x, y]);
+  }
+  const opts = { maxFeatures: ctx.limits.maxFeatures, toLonLat, crsHint: 'give their CRS with the query parameter crs=EPSG:nnnn' };
   const parsed = isCsv ? parsePointCsv(kind, text, opts) : parseFeatureCollection(kind, parseJsonText(text), opts);
   return { kind, body: JSON.stringify(parsed.collection), featureCount: parsed.collection.features.length, warnings: parsed.warnings, suggestedName: null };
 }

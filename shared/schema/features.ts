@@ -224,7 +224,8 @@ export function parseFeatureCollection(kind: DatasetKind, input: unknown, opts: 
   return { kind, collection: { type: 'FeatureCollection', features: out }, warnings };
 }
 
-const NUMERIC_FIELDS = new Set([
+/** Property names with numeric values (also used to restore names a dBASE table cut to 10 characters). */
+export const NUMERIC_FIELDS = new Set([
   'heatFlowMWm2', 'uncertaintyMWm2', 'gradientCPerKm', 'conductivityWmK', 'heatProductionUWm3',
   'peakTemperatureC', 'peakPressureKbar', 'dipDeg', 'dipDirectionDeg', 'elevationM',
   'depthM', 'depthFt', 'temperatureC', 'temperatureF', 'hoursSinceCirculation', 'circulationHours',
@@ -234,16 +235,38 @@ const NUMERIC_FIELDS = new Set([
  * Turns point CSV (header with `longitude,latitude` or `lon,lat`, then the property names) into a GeoJSON
  * FeatureCollection of Points, then validates it as `kind`. Numeric property columns are parsed as numbers; an
  * empty cell is a missing value. Wells use one row per measurement (see `wellsFromCsvRows`).
+ * Projected coordinates come as `x,y` or `easting,northing` columns with `toLonLat` (built by the caller from the
+ * CRS the user names); without it, such columns, or longitude/latitude columns whose numbers lie beyond ±180/±90,
+ * are refused with a message asking for the CRS (`crsHint` says how to give it).
  */
-export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFeatures?: number } = {}): ParsedDataset {
+export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFeatures?: number; toLonLat?: (x: number, y: number) => [number, number]; crsHint?: string } = {}): ParsedDataset {
   if (kind === 'faults' || kind === 'regions') {
     throw new InputError(`CSV holds points only; send ${kind} as GeoJSON`, [{ problem: `${kind} need line or polygon geometry` }], 'bad_csv', 415);
   }
+  const hint = opts.crsHint ?? 'give their CRS (EPSG:nnnn)';
   const { header, rows } = parseCsv(csvText);
-  const lonCol = header.findIndex((h) => /^(longitude|lon|lng)$/i.test(h));
-  const latCol = header.findIndex((h) => /^(latitude|lat)$/i.test(h));
+  let lonCol = header.findIndex((h) => /^(longitude|lon|lng)$/i.test(h));
+  let latCol = header.findIndex((h) => /^(latitude|lat)$/i.test(h));
+  let projected = false;
   if (lonCol < 0 || latCol < 0) {
-    throw new InputError('CSV header needs longitude,latitude (or lon,lat) columns', [{ field: lonCol < 0 ? 'longitude' : 'latitude', problem: `missing column; header is: ${header.join(',')}` }], 'bad_csv');
+    const xc = header.findIndex((h) => /^(x|easting)$/i.test(h));
+    const yc = header.findIndex((h) => /^(y|northing)$/i.test(h));
+    if (xc >= 0 && yc >= 0) {
+      if (opts.toLonLat === undefined) throw new InputError(`the CSV has projected ${header[xc]},${header[yc]} columns but no CRS: ${hint} (or give longitude,latitude columns in degrees)`, [{ field: 'crs', problem: 'missing: the CRS of the x,y (easting,northing) columns' }], 'missing_crs');
+      lonCol = xc;
+      latCol = yc;
+      projected = true;
+    }
+  }
+  if (lonCol < 0 || latCol < 0) {
+    throw new InputError('CSV header needs longitude,latitude (or lon,lat) columns, or x,y (easting,northing) with their CRS', [{ field: lonCol < 0 ? 'longitude' : 'latitude', problem: `missing column; header is: ${header.join(',')}` }], 'bad_csv');
+  }
+  if (!projected) {
+    // Eastings/northings in longitude/latitude columns: say so rather than "out of range" on every row.
+    const far = rows.filter((r) => Math.abs(Number(r[lonCol])) > 180 || Math.abs(Number(r[latCol])) > 90);
+    if (far.length > 0 && far.length >= rows.length / 2) {
+      throw new InputError(`the CSV's ${header[lonCol]},${header[latCol]} numbers look projected (${far.length} of ${rows.length} rows beyond ±180°/±90°, e.g. ${far[0][lonCol]}, ${far[0][latCol]}): name the columns x,y (or easting,northing) and ${hint}`, [{ field: 'crs', problem: 'coordinates look like eastings/northings in metres, not degrees' }], 'looks_projected');
+    }
   }
   const problems: InputProblem[] = [];
   const points = rows.map((r, k) => {
@@ -258,10 +281,11 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
         props[h] = v;
       } else props[h] = cell;
     });
-    const lon = Number(r[lonCol]);
-    const lat = Number(r[latCol]);
-    if (r[lonCol].trim() === '' || !Number.isFinite(lon)) problems.push({ feature: k, field: 'longitude', problem: `expected a number, got "${r[lonCol]}"` });
-    if (r[latCol].trim() === '' || !Number.isFinite(lat)) problems.push({ feature: k, field: 'latitude', problem: `expected a number, got "${r[latCol]}"` });
+    let lon = Number(r[lonCol]);
+    let lat = Number(r[latCol]);
+    if (r[lonCol].trim() === '' || !Number.isFinite(lon)) problems.push({ feature: k, field: header[lonCol], problem: `expected a number, got "${r[lonCol]}"` });
+    if (r[latCol].trim() === '' || !Number.isFinite(lat)) problems.push({ feature: k, field: header[latCol], problem: `expected a number, got "${r[latCol]}"` });
+    if (projected && Number.isFinite(lon) && Number.isFinite(lat)) [lon, lat] = opts.toLonLat!(lon, lat);
     return { lon, lat, props };
   });
   if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in the CSV`, problems.slice(0, 50), 'invalid_features', 422);
