@@ -119,6 +119,11 @@ export function openApiDocument(): unknown {
         patch: op('rename a data set in the project (edit token)', { params: ['id', 'dsId'], body: json(datasetPatchSchema), auth: true, errors: [400, 401, 403, 404, 409, 415, 422] }),
         delete: op('detach a data set from the project (edit token) → { id, detached, contentKept }; the content stays while a project, run or revision names it', { params: ['id', 'dsId'], auth: true, errors: [401, 403, 404] }),
       },
+      '/api/projects/{id}/terrain': {
+        post: op('upload the project\'s terrain (edit token): a one-band DEM GeoTIFF in metres, EPSG:4326 or a projected EPSG CRS; checked before decoding (415 not a TIFF, 413 too large, 422 truncated or no CRS)', { params: ['id'], query: { name: 'the terrain\'s name' }, body: { type: 'string', format: 'binary' }, bodyType: 'image/tiff', ok: '201', auth: true, errors: [400, 401, 403, 404, 413, 415, 422] }),
+        get: op('the terrain\'s description and MapLibre raster-dem source', { params: ['id'], errors: [404] }),
+      },
+      '/api/projects/{id}/terrain/{z}/{x}/{y}.png': { get: op('raster-dem tile of the project\'s terrain (mapbox encoding)', { params: ['id', 'z', 'x', 'y'], okType: 'image/png', errors: [400, 404] }) },
       '/api/projects/{id}/runs': {
         get: op('the project\'s runs: { id, runs: [{ id, status, title, createdAt, url }] }', { params: ['id'], errors: [404] }),
         post: op('start a run of the project (edit token): the run request names every data set id, each one the project holds; 202 { id, status, cached, url, events, datasets, warnings }', { params: ['id'], body: json(runRequestSchema), ok: '202', auth: true, errors: [400, 401, 403, 404, 415, 422, 429, 503] }),

@@ -15,7 +15,11 @@ import { clientAddress, jsonBody, requireJsonType, singleQuery, type AppContext 
 import { parseUpload, type ParsedUpload } from './datasets.ts';
 import { projectIdOf, requireEditToken } from './projects.ts';
 import { farApartWarnings, requireRunInputs, resolveRunDatasets, submitRun } from './runs.ts';
-import { datasetPatchSchema, idSchema, parseWith, projectDatasetQuerySchema } from './schemas.ts';
+import { datasetPatchSchema, datasetNameSchema, idSchema, parseWith, projectDatasetQuerySchema } from './schemas.ts';
+import { z } from 'zod';
+import { gridBbox } from '../../shared/grid/grid.ts';
+import { demFromUpload } from '../terrain-upload.ts';
+import { TerrainTiles, TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from '../terrain.ts';
 
 /** Default names of uploads that come without one, by kind. */
 const KIND_NAMES: Record<string, string> = {
@@ -80,7 +84,25 @@ export function addToProject(ctx: AppContext, projectId: string, up: ParsedUploa
   return { dataset: ctx.store.attachDataset(projectId, rec.id, finalName), status: found ? 'attached' : 'created' };
 }
 
+/** A project's terrain as the API describes it: a MapLibre raster-dem source plus where it came from. */
+function terrainView(projectId: string, meta: { name: string; width: number; height: number; west: number; north: number; dx: number; dy: number; sourceCrs: string; sourceBytes: number }, uploadedAt: string) {
+  const bbox = gridBbox({ ...meta, crs: 'EPSG:4326' });
+  return {
+    name: meta.name,
+    bbox,
+    width: meta.width,
+    height: meta.height,
+    sourceCrs: meta.sourceCrs,
+    sourceBytes: meta.sourceBytes,
+    uploadedAt,
+    source: { type: 'raster-dem', tiles: [`/api/projects/${projectId}/terrain/{z}/{x}/{y}.png`], bounds: bbox, minzoom: TERRAIN_MIN_ZOOM, maxzoom: TERRAIN_MAX_ZOOM, encoding: 'mapbox', tileSize: 256 },
+  };
+}
+
+const terrainQuerySchema = z.object({ name: datasetNameSchema.optional() });
+
 export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
+  const terrainTiles = new Map<string, { hash: string; tiles: TerrainTiles }>();
   const dsIdOf = (c: Context, projectId: string): ProjectDatasetRecord => {
     const raw = c.req.param('dsId') ?? '';
     const id = idSchema.safeParse(raw);
@@ -97,7 +119,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
       {
         id,
         datasets,
-        terrain: terrain ? { name: terrain.meta.name, bbox: [terrain.meta.west, terrain.meta.north - terrain.meta.dy * terrain.meta.height, terrain.meta.west + terrain.meta.dx * terrain.meta.width, terrain.meta.north], sourceCrs: terrain.meta.sourceCrs, uploadedAt: terrain.createdAt, tiles: `/api/projects/${id}/terrain/{z}/{x}/{y}.png` } : null,
+        terrain: terrain ? terrainView(id, terrain.meta, terrain.createdAt) : null,
         storage: { bytes: ctx.store.projectStorageBytes(id), limitBytes: ctx.limits.maxProjectStorageBytes },
       },
       200,
@@ -148,6 +170,51 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     ctx.store.detachProjectDataset(id, held.id);
     const contentDeleted = ctx.store.pruneDataset(held.id);
     return c.json({ id: held.id, detached: true, contentKept: !contentDeleted });
+  });
+
+  // Terrain: a DEM GeoTIFF, checked before any pixel is decoded (server/terrain-upload.ts); nothing of the project
+  // changes unless every check passes.
+  app.post('/api/projects/:id/terrain', async (c) => {
+    const id = projectIdOf(c, ctx);
+    requireEditToken(c, ctx, id);
+    const q = parseWith(terrainQuerySchema, singleQuery(c), 'query', 'bad_query', 400);
+    const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
+    if (type !== 'image/tiff' && type !== 'image/geotiff' && type !== 'application/octet-stream') {
+      throw new InputError(`a terrain is a GeoTIFF: send it as image/tiff, got "${type || '(none)'}"`, [{ field: 'content-type', problem: 'expected image/tiff' }], 'unsupported_media_type', 415);
+    }
+    const bytes = new Uint8Array(await c.req.arrayBuffer());
+    const { grid, sourceCrs } = await demFromUpload(bytes, ctx.limits.maxTerrainBytes);
+    const old = ctx.store.getProjectTerrain(id);
+    checkQuota(ctx, id, grid.values.byteLength - (old ? old.values.byteLength : 0), 'this terrain');
+    const meta = { width: grid.width, height: grid.height, west: grid.west, north: grid.north, dx: grid.dx, dy: grid.dy, crs: 'EPSG:4326', units: 'm', sourceCrs, sourceBytes: bytes.byteLength, name: q.name ?? 'Terrain' };
+    const rec = ctx.store.putProjectTerrain(id, grid.values, meta);
+    terrainTiles.delete(id);
+    return c.json(terrainView(id, meta, rec.createdAt), 201);
+  });
+
+  app.get('/api/projects/:id/terrain', (c) => {
+    const id = projectIdOf(c, ctx);
+    const t = ctx.store.getProjectTerrain(id);
+    if (!t) throw new InputError(`project ${id} has no terrain: upload a DEM GeoTIFF with POST /api/projects/${id}/terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found', 404);
+    return c.json(terrainView(id, t.meta, t.createdAt));
+  });
+
+  app.get('/api/projects/:id/terrain/:z/:x/:y', (c) => {
+    const id = projectIdOf(c, ctx);
+    const { z, x } = c.req.param();
+    const m = /^(\d+)\.png$/.exec(c.req.param('y'));
+    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) throw new InputError('terrain tiles are …/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: 'bad tile address' }], 'bad_tile', 400);
+    let entry = terrainTiles.get(id);
+    const t = entry ? null : ctx.store.getProjectTerrain(id);
+    if (!entry) {
+      if (!t) throw new InputError(`project ${id} has no terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found', 404);
+      entry = { hash: t.blobHash, tiles: new TerrainTiles({ ...t.meta, crs: 'EPSG:4326', values: t.values }) };
+      terrainTiles.set(id, entry);
+      if (terrainTiles.size > 8) terrainTiles.delete(terrainTiles.keys().next().value as string);
+    }
+    const png = entry.tiles.tile(Number(z), Number(x), Number(m[1]));
+    if (!png) throw new InputError(`no terrain tile ${z}/${x}/${m[1]}`, [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }], 'tile_not_found', 404);
+    return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'no-cache' });
   });
 
   app.get('/api/projects/:id/runs', (c) => {
