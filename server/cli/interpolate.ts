@@ -8,6 +8,7 @@ import { pointsFromGeoJson, pointsFromCsv, parseVariogramOption, parseAnisotropy
 import { loadCrsDefinition, converter, WGS84_DEF } from '../../shared/interp/projection.ts';
 import { prepareInterpolation, finishGrid, predictAtPoints, gridSummary, type InterpolationOptions, type PointData, type InterpolationResult } from '../../shared/interp/interpolate.ts';
 import { createGridRuntime, computeRows } from '../../shared/interp/gridKernel.ts';
+import { blockEstimates, type BlockPolygon } from '../../shared/interp/blockKriging.ts';
 import { writeGeoTiffFile } from '../io/geotiff.ts';
 import { parseVerbArgs, numberOption, numberListOption } from './args.ts';
 
@@ -37,6 +38,7 @@ const OPTIONS = {
   cv: { type: 'string', default: 'on' },
   residuals: { type: 'boolean', default: false },
   at: { type: 'string' },
+  block: { type: 'string' },
   out: { type: 'string' },
   'skip-missing': { type: 'boolean', default: false },
   'max-cells': { type: 'string' },
@@ -66,6 +68,7 @@ const HELP = `subtherm interpolate: grid a point field by IDW or ordinary krigin
   --sd grid|none             kriging standard-deviation grid (default grid)
   --cv on|off                leave-one-out cross-validation (default on); --residuals lists each point
   --at T.geojson             predict at these points only
+  --block R.geojson          block kriging of the mean over each polygon: blocks [{ id, value, sd, units }]
   --out G.tif                write G.tif (and G.sd.tif)
   --skip-missing             leave out features without the field (warning) instead of failing
   --max-cells N              grid size limit (default 25000000)
@@ -149,6 +152,13 @@ export async function interpolate(argv: string[]): Promise<number> {
     }
   }
 
+  let blocks: BlockPolygon[] | null = null;
+  if (a.block !== undefined) {
+    if (a.method !== 'kriging') throw new InputError('--block needs --method kriging', [{ field: 'block', problem: 'block estimates come from block kriging' }], 'bad_option');
+    const txt = await readText(a.block, 'block');
+    hashes.block = sha256(txt);
+    blocks = blockPolygonsFromGeoJson(parseJson(txt, a.block), a.block);
+  }
   // Options.
   let size: [number, number] | undefined;
   if (a.size !== undefined) {
@@ -208,7 +218,8 @@ export async function interpolate(argv: string[]): Promise<number> {
     const txt = await readText(a.at, 'at');
     const targets = targetsFromGeoJson(parseJson(txt, a.at), a.at);
     const r = predictAtPoints(points, options, targets);
-    const body = { predictions: r.predictions, units: options.units, variogram: r.variogram, crossValidation: cvOut(r.crossValidation, a.residuals), warnings: [...warnings, ...r.warnings], timingsMs: { read: readMs, ...r.timingsMs } };
+    const blockOut = blocks === null ? undefined : blockEstimates(prepareInterpolation(points, { ...options, region: null, crossValidation: false }, false), blocks);
+    const body = { predictions: r.predictions, blocks: blockOut, units: options.units, variogram: r.variogram, crossValidation: cvOut(r.crossValidation, a.residuals), warnings: [...warnings, ...r.warnings], timingsMs: { read: readMs, ...r.timingsMs } };
     if (a.json) process.stdout.write(JSON.stringify(body) + '\n');
     else for (const p of r.predictions) process.stdout.write(`${p.id}\t${p.value ?? 'no data'}\t${p.sd ?? ''}\n`);
     return 0;
@@ -260,6 +271,7 @@ export async function interpolate(argv: string[]): Promise<number> {
     sd: result.sd !== undefined ? (({ min, max, mean }) => ({ min, max, mean }))(gridSummary(result.sd, result.cellKm)) : null,
     variogram: result.variogram,
     crossValidation: cvOut(result.crossValidation, a.residuals),
+    blocks: blocks === null ? undefined : blockEstimates(prep, blocks),
     files,
     caution: CAUTION,
     warnings: [...warnings, ...result.warnings],
@@ -282,4 +294,21 @@ export async function interpolate(argv: string[]): Promise<number> {
 function cvOut(cv: InterpolationResult['crossValidation'], residuals: boolean) {
   if (cv === null) return null;
   return residuals ? cv : { ...cv, residuals: undefined, residualsOmitted: cv.residuals.length };
+}
+
+/** Block polygons: Polygon or MultiPolygon features; id from properties.id, the feature id, or the position. */
+function blockPolygonsFromGeoJson(input: unknown, source: string): BlockPolygon[] {
+  const fc = input as { type?: unknown; features?: unknown };
+  if (input === null || typeof input !== 'object' || fc.type !== 'FeatureCollection' || !Array.isArray(fc.features) || fc.features.length === 0) {
+    throw new InputError(`${source}: expected a GeoJSON FeatureCollection of polygons`, [{ field: 'features', problem: 'expected at least one Polygon or MultiPolygon' }], 'bad_geojson');
+  }
+  return (fc.features as { id?: unknown; geometry?: { type?: unknown; coordinates?: unknown } | null; properties?: Record<string, unknown> | null }[]).map((f, i) => {
+    const pid = f?.properties?.id;
+    const id = typeof pid === 'string' || typeof pid === 'number' ? String(pid) : typeof f?.id === 'string' || typeof f?.id === 'number' ? String(f.id) : `block-${i + 1}`;
+    const g = f?.geometry;
+    const ok = (rings: unknown): rings is number[][][] => Array.isArray(rings) && rings.length > 0 && rings.every((r) => Array.isArray(r) && r.length >= 4 && r.every((p) => Array.isArray(p) && p.length >= 2 && Number.isFinite(p[0]) && Number.isFinite(p[1]) && (p[0] as number) >= -180 && (p[0] as number) <= 180 && (p[1] as number) >= -90 && (p[1] as number) <= 90));
+    if (g?.type === 'Polygon' && ok(g.coordinates)) return { id, rings: g.coordinates };
+    if (g?.type === 'MultiPolygon' && Array.isArray(g.coordinates) && g.coordinates.every(ok)) return { id, rings: (g.coordinates as number[][][][]).flat() };
+    throw new InputError(`${source}: feature ${id} is not a valid Polygon or MultiPolygon in lon/lat degrees`, [{ feature: id, field: 'geometry', problem: 'expected Polygon or MultiPolygon rings of ≥ 4 [lon, lat] positions' }], 'invalid_features');
+  });
 }
