@@ -20,6 +20,7 @@ import type { Provenance } from '../../shared/products/provenance.ts';
 import { canonicalJson } from '../../shared/products/provenance.ts';
 import { InputError } from '../../shared/errors.ts';
 import { writeGeoTiff } from './geotiff.ts';
+import { writeGeoPackage, type GeoJsonCollection } from './geopackage.ts';
 import { encodePng } from './png.ts';
 
 /** SHA-256 hex digest (FIPS 180-4) of text (UTF-8) or bytes. */
@@ -36,6 +37,21 @@ export function sha256Json(value: unknown): string {
  * nearest-neighbour overviews. */
 export function geotiffBytes(grid: Grid<Float32Array | Float64Array>, description: string, provenance: Provenance, opts: { classes?: boolean } = {}): Uint8Array {
   return writeGeoTiff(grid, { description, metadata: { provenance }, classes: opts.classes });
+}
+
+/**
+ * One GeoPackage of a run's vector results: one table per GeoJSON layer (contours, isograds, cross-validation
+ * residuals, fault report…), each layer's provenance in its description, the caution and the run's provenance in
+ * the GeoPackage metadata.
+ */
+export function vectorsGeoPackage(layers: { name: string; title: string; geojson: string }[], runProvenance: unknown): Buffer {
+  return writeGeoPackage(
+    layers.map((l) => {
+      const fc = JSON.parse(l.geojson) as GeoJsonCollection & { provenance?: unknown };
+      return { name: l.name, title: l.title, description: fc.provenance === undefined ? l.title : `${l.title}; provenance ${JSON.stringify(fc.provenance)}`, collection: { type: 'FeatureCollection', features: fc.features } };
+    }),
+    { PROVENANCE: JSON.stringify(runProvenance ?? null) },
+  );
 }
 
 /** ASCII-safe JSON (PNG tEXt is Latin-1): characters above U+007E \u-escaped. */

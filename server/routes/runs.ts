@@ -14,6 +14,7 @@ import { isTerminal, type RunSnapshot } from '../runs/jobs.ts';
 import { modelFromJson } from '../runs/model-input.ts';
 import { LAYER_EXTS, type LayerExt } from '../runs/types.ts';
 import { sha256Hex } from '../store/sqlite.ts';
+import { vectorsGeoPackage } from '../io/export.ts';
 import type { DatasetRecord, RunRecord } from '../store/types.ts';
 import { clientAddress, jsonBody, notFound, requireJsonType, type AppContext } from './context.ts';
 import { idSchema, parseWith } from './schemas.ts';
@@ -278,6 +279,19 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
         if (now && isTerminal(now.status)) void send(now).then(stop);
       });
     });
+  });
+
+  // Every vector layer of a finished run in one GeoPackage (one table per layer).
+  app.get('/api/runs/:id/vectors.gpkg', (c) => {
+    const rec = getRun(c.req.param('id'));
+    if (rec.status !== 'done') throw new InputError(`the run is ${rec.status}; its GeoPackage appears when it is done`, [{ field: 'file', problem: 'not found' }], 'layer_not_found', 404);
+    const layers = (rec.layers as { name: string; title?: string; formats?: string[] }[])
+      .filter((l) => l.formats?.includes('geojson'))
+      .map((l) => ({ name: l.name, title: l.title ?? l.name, file: ctx.store.getRunFile(rec.id, l.name, 'geojson') }))
+      .filter((l) => l.file !== null)
+      .map((l) => ({ name: l.name, title: l.title, geojson: new TextDecoder().decode(l.file!.bytes) }));
+    const bytes = vectorsGeoPackage(layers, (rec.summary as { provenance?: unknown } | null)?.provenance);
+    return c.body(new Uint8Array(bytes), 200, { 'content-type': 'application/geopackage+sqlite3', 'cache-control': 'private, max-age=3600', 'content-disposition': `attachment; filename="run-${rec.id}.gpkg"` });
   });
 
   app.get('/api/runs/:id/layers/:file', (c) => {

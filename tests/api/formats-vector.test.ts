@@ -90,6 +90,29 @@ describe('GeoPackage out', () => {
     expect(md).toContain(CAUTION);
   });
 
+  it.skipIf(!hasGdal)("a run's vector results as one GeoPackage: one table per GeoJSON layer, ogrinfo with no warnings, the same features", async () => {
+    const res = await t.post('/api/runs', { sites: 'demo-sites', faults: 'demo-faults', model: 'demo-model', grid: { cellKm: 8 } });
+    const runId = ((await res.json()) as { id: string }).id;
+    const finished = await t.waitEnd(runId);
+    expect(finished.status).toBe('done');
+    const vector = finished.layers.filter((l) => l.formats.includes('geojson'));
+    expect(vector.length).toBeGreaterThan(1);
+    const r = await t.app.request(`/api/runs/${runId}/vectors.gpkg`);
+    expect(r.status).toBe(200);
+    expect(r.headers.get('content-type')).toBe('application/geopackage+sqlite3');
+    const f = join(dir, 'run.gpkg');
+    writeFileSync(f, new Uint8Array(await r.arrayBuffer()));
+    const info = run('ogrinfo', ['-ro', '-al', '-so', f]);
+    expect(info.stderr).toBe('');
+    for (const l of vector) {
+      const gj = (await (await t.app.request(`/api/runs/${runId}/layers/${l.name}.geojson`)).json()) as { features: unknown[] };
+      const table = l.name.replace(/[^A-Za-z0-9_]/g, '_');
+      expect(info.stdout).toContain(`Layer name: ${table}`);
+      const count = /Feature Count: (\d+)/.exec(info.stdout.slice(info.stdout.indexOf(`Layer name: ${table}\n`)))![1];
+      expect(Number(count)).toBe(gj.features.length);
+    }
+  });
+
   it('reads its own GeoPackage back with the same properties and coordinates', async () => {
     const r = await readGeoPackage(writeGeoPackage([{ name: 'faults', collection: faults as never }]));
     expect(r.layer).toBe('faults');
