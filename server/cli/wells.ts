@@ -35,6 +35,11 @@ const HELP = `subtherm wells: well temperatures → corrected temperatures, grad
   --outliers flag|exclude   keep flagged outliers in the fit (default) or refit without them
   --out S.geojson           write the derived heat-flow sites
   --json                    print one JSON object { sites, wells, files, warnings, provenance }
+
+Each site's heatFlowMWm2 is the surface heat flow q0: the interval heat flow (q at the fit's effective depth) plus
+the heat produced above that depth (from the well's heatProductionColumn or the model's layers), or, where the model
+also gives the conductivity, q0 fitted directly to the temperatures with the model's k(T) and A(z). The interval
+value, the correction and the method are in the site's properties.
 `;
 
 function readInput(path: string, what: string): Buffer {

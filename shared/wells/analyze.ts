@@ -5,6 +5,7 @@ import { correctMeasurements, type HornerGroup } from './correction.ts';
 import { fitGradient, type GradientFit } from './gradient.ts';
 import { modelGeotherm, modelResiduals, type ModelResiduals, type ModelTemperature } from './model-check.ts';
 import { heatFlowQuality, type ConductivitySource } from './quality.ts';
+import { columnHeatAboveMWm2, fitSurfaceHeatFlow, type ModelGeotherm, type SurfaceFit } from './surface-heat-flow.ts';
 import type { BhtCorrection, ConductivityInterval, CorrectedPoint, WellFlag } from './types.ts';
 
 /**
@@ -23,6 +24,10 @@ export interface WellModel {
   /** The model's own surface heat flow (mW/m²; NaN when it gives none). */
   surfaceHeatFlowMWm2: number;
   surfaceTemperatureC: number;
+  /** The model geotherm at any surface heat flow and surface temperature (for the direct fit of q0). */
+  geotherm: ModelGeotherm;
+  /** Heat produced between the surface and zKm, ∫₀^z A dz (mW/m²), from the model's layers. */
+  heatAboveMWm2: (zKm: number) => number;
 }
 
 export interface WellAnalysisOptions {
@@ -50,8 +55,24 @@ export type HeatFlowMethod = 'bullard' | 'gradient-conductivity';
 
 export interface WellHeatFlow {
   method: HeatFlowMethod;
+  /** Surface heat flow q0 (the site's value), mW/m²: see surfaceMethod. */
   heatFlowMWm2: number;
   uncertaintyMWm2: number;
+  /** Heat flow over the fitted interval (gradient × conductivity, or the Bullard slope): q at mid-interval, mW/m². */
+  intervalHeatFlowMWm2: number;
+  intervalUncertaintyMWm2: number;
+  /** Depth whose heat flow the interval value is (the fit's effective depth, effectiveDepthM), m. */
+  intervalMidDepthM: number;
+  /** ∫₀^z_mid A dz, mW/m² (0 when no heat production is known). */
+  heatProductionCorrectionMWm2: number;
+  /** Where A(z) came from. */
+  heatProductionSource: 'well-column' | 'model' | 'none';
+  /** q(z_mid) + ∫₀^z_mid A dz, mW/m². */
+  correctedIntervalMWm2: number;
+  /** q0 fitted directly to the temperatures with the model's k(T) and A(z) (when a model is given). */
+  modelFit?: SurfaceFit;
+  /** How heatFlowMWm2 was obtained. */
+  surfaceMethod: 'model-fit' | 'interval-plus-heat-production' | 'interval-uncorrected';
   /** Gradient × harmonic-mean conductivity (always computed when a conductivity exists), mW/m². */
   gradientMethodMWm2: number;
   gradientMethodUncertaintyMWm2: number;
@@ -131,6 +152,29 @@ export interface WellReport {
 const nullIfNaN = (v: number) => (Number.isFinite(v) ? v : null);
 
 /**
+ * Depth (m) whose gradient a weighted straight-line fit measures: for a profile T = a + b·z + c·z² (constant heat
+ * production, Turcotte & Schubert 2002 §4-6) the weighted least-squares slope is b + c·cov_w(z, z²)/var_w(z), which
+ * is the derivative 2c·z_ref + b at z_ref = cov_w(z, z²)/(2·var_w(z)) (the interval's middle for points symmetric
+ * about it). The surface anchor counts as a point at z = 0 with σ = anchorSdC. Falls back to `fallbackM`.
+ */
+export function effectiveDepthM(points: { depthM: number; sdC: number; used: boolean }[], anchorSdC: number | undefined, fallbackM: number): number {
+  let sw = 0, sz = 0, sz2 = 0, sz3 = 0;
+  const add = (z: number, w: number) => {
+    sw += w;
+    sz += w * z;
+    sz2 += w * z * z;
+    sz3 += w * z * z * z;
+  };
+  for (const p of points) if (p.used && p.sdC > 0 && Number.isFinite(p.depthM)) add(p.depthM, 1 / (p.sdC * p.sdC));
+  if (anchorSdC !== undefined && anchorSdC > 0) add(0, 1 / (anchorSdC * anchorSdC));
+  if (!(sw > 0)) return fallbackM;
+  const m1 = sz / sw, m2 = sz2 / sw, m3 = sz3 / sw;
+  const varZ = m2 - m1 * m1, cov = m3 - m1 * m2;
+  const z = varZ > 0 ? cov / (2 * varZ) : NaN;
+  return Number.isFinite(z) && z >= 0 ? z : fallbackM;
+}
+
+/**
  * Analyses one well, from raw temperatures to a heat flow:
  * 1. corrections (correctMeasurements: equilibrium, Horner, or the user's BHT correction, each with a σ);
  * 2. the weighted temperature–depth fit, anchored at the surface temperature when known (fitGradient);
@@ -140,7 +184,10 @@ const nullIfNaN = (v: number) => (Number.isFinite(v) ? v : null);
  *    is [0, deepest point] when anchored, else [shallowest, deepest];
  * 4. heat flow q = gradient × harmonic-mean k (°C/km × W/m/K = mW/m²), σ_q/q = √((σ_g/g)² + (σ_k/k)²); where the
  *    well has its own depth-resolved column (measured or lithology), also the Bullard slope, σ combined the same
- *    way, and the Bullard value becomes the site's heat flow;
+ *    way, and the Bullard value becomes the interval heat flow; this is q at mid-interval, and the surface heat
+ *    flow is q0 = q(z_mid) + ∫₀^z_mid A dz with A from the well's heatProductionColumn or the model
+ *    (surface-heat-flow.ts); with a model, q0 is also fitted directly to the temperatures, and that fit is the
+ *    site's value when the model also gives the conductivity;
  * 5. quality (heatFlowQuality) and, with a model, the model check at the check heat flow and at the well's own.
  * Never returns a heat flow from a non-positive gradient, a single point without anchor, or no conductivity.
  */
@@ -316,10 +363,44 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
   }
   const outliers = points.some((p) => p.flags.includes('outlier') || p.flags.includes('outlier-excluded'));
   const qual = heatFlowQuality({ methods: methods as CorrectedPoint['method'][], nPoints: grad.nPoints, conductivitySource: source, conductivityCoverage: hm.coverage, relativeUncertainty: sq / q, outliers });
+  // Surface heat flow: the interval value is q at the fit's effective depth; add the heat produced above it
+  // (q0 = q(z) + ∫₀^z A dz).
+  const zMidM = effectiveDepthM(points, grad.anchored ? grad.anchorSdC : undefined, (top + bottom) / 2);
+  let aSource: WellHeatFlow['heatProductionSource'] = 'none';
+  let correction = 0;
+  if (well.heatProductionColumn && well.heatProductionColumn.length > 0) {
+    const r = columnHeatAboveMWm2(well.heatProductionColumn, zMidM);
+    aSource = 'well-column';
+    correction = r.heatMWm2;
+    if (r.coveredM < zMidM - 1e-6) flags.push({ code: 'heat-production-partial', message: `the heatProductionColumn covers ${r.coveredM.toFixed(0)} of the ${zMidM.toFixed(0)} m above mid-interval; uncovered depths count as producing no heat` });
+  } else if (opts.model) {
+    aSource = 'model';
+    correction = opts.model.heatAboveMWm2(zMidM / 1000);
+  } else {
+    flags.push({ code: 'no-heat-production', message: 'no thermal model or heatProductionColumn: the surface heat flow is the interval value, not corrected for the heat produced above the interval' });
+  }
+  const corrected = q + correction;
+  let fit: SurfaceFit | null = null;
+  if (opts.model) {
+    fit = fitSurfaceHeatFlow(points, opts.model.geotherm, { q0: corrected, t0: grad.interceptC }, grad.anchored ? grad.anchorTemperatureC : undefined);
+    if (fit === null) flags.push({ code: 'model-fit-failed', message: 'the direct fit of q0 with the model geotherm did not converge or had too few points' });
+  }
+  // The direct fit is the site's value where the model also gives the conductivity (one consistent k(T) and A(z)).
+  const useFit = fit !== null && source === 'model' && fit.heatFlowMWm2 > 0;
+  const q0 = useFit ? fit!.heatFlowMWm2 : corrected;
+  const sq0 = useFit ? Math.hypot(fit!.seMWm2, q0 * conductivity.relativeSd) : sq;
   const heatFlow: WellHeatFlow = {
     method,
-    heatFlowMWm2: q,
-    uncertaintyMWm2: sq,
+    heatFlowMWm2: q0,
+    uncertaintyMWm2: sq0,
+    intervalHeatFlowMWm2: q,
+    intervalUncertaintyMWm2: sq,
+    intervalMidDepthM: zMidM,
+    heatProductionCorrectionMWm2: correction,
+    heatProductionSource: aSource,
+    correctedIntervalMWm2: corrected,
+    ...(fit === null ? {} : { modelFit: fit }),
+    surfaceMethod: useFit ? 'model-fit' : aSource === 'none' ? 'interval-uncorrected' : 'interval-plus-heat-production',
     gradientMethodMWm2: qg,
     gradientMethodUncertaintyMWm2: sqg,
     bullardMWm2: bq,
@@ -327,6 +408,6 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
     quality: qual.quality,
     qualityReasons: qual.reasons,
   };
-  const check = modelCheck(q);
+  const check = modelCheck(q0);
   return { ...base, status: 'ok', gradient, conductivity, bullard: bullardOut, heatFlow, plot, modelCheck: check, row: rowOf('ok', heatFlow, conductivity, check) };
 }

@@ -17,6 +17,8 @@ export interface WellInput {
   measurements: MeasurementInput[];
   conductivityColumn?: ConductivityInterval[];
   lithologyColumn?: LithologyInterval[];
+  /** Measured heat production down the well (µW/m³), for the surface heat-flow correction. */
+  heatProductionColumn?: { topM: number; bottomM: number; heatProductionUWm3: number }[];
   /** Input-level flags (e.g. a BHT with only one of its two times). */
   flags: WellFlag[];
 }
@@ -77,6 +79,23 @@ export function readWells(features: FeatureLike[]): WellInput[] {
         for (const q of columnProblems(lithologyColumn)) bad(`lithologyColumn[${q.index}]`, q.problem);
       }
     }
+    let heatProductionColumn: WellInput['heatProductionColumn'];
+    if (p.heatProductionColumn !== undefined) {
+      if (!Array.isArray(p.heatProductionColumn) || p.heatProductionColumn.length === 0) bad('heatProductionColumn', 'expected a non-empty array of { topM, bottomM, heatProductionUWm3 }');
+      else {
+        heatProductionColumn = [];
+        (p.heatProductionColumn as unknown[]).forEach((c, i) => {
+          const o = (c ?? {}) as Record<string, unknown>;
+          const a = o.heatProductionUWm3;
+          if (typeof o.topM !== 'number' || typeof o.bottomM !== 'number' || typeof a !== 'number' || !(a >= 0) || !(a <= 100)) {
+            bad(`heatProductionColumn[${i}]`, 'expected { topM: number, bottomM: number, heatProductionUWm3: 0–100 µW/m³ }');
+            return;
+          }
+          heatProductionColumn?.push({ topM: o.topM, bottomM: o.bottomM, heatProductionUWm3: a });
+        });
+        for (const q of columnProblems(heatProductionColumn)) bad(`heatProductionColumn[${q.index}]`, q.problem);
+      }
+    }
     if (conductivityColumn && lithologyColumn) flags.push({ code: 'two-columns', message: 'both conductivityColumn and lithologyColumn given: the measured conductivityColumn is used' });
     wells.push({
       id,
@@ -86,6 +105,7 @@ export function readWells(features: FeatureLike[]): WellInput[] {
       measurements: ms,
       conductivityColumn,
       lithologyColumn,
+      heatProductionColumn,
       flags,
     });
   });

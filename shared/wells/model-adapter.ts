@@ -1,4 +1,4 @@
-import { ColumnState, columnTemperature, solveColumn, type CompiledModel } from '../thermal/index.ts';
+import { ColumnState, columnHeatFlow, columnTemperature, solveColumn, type CompiledModel } from '../thermal/index.ts';
 import type { WellModel } from './analyze.ts';
 import type { ConductivityInterval } from './types.ts';
 
@@ -24,5 +24,12 @@ export function wellModelFromCompiled(cm: CompiledModel, surfaceTemperatureC?: n
     column,
     surfaceHeatFlowMWm2: cm.surfaceHeatFlowMWm2,
     surfaceTemperatureC: t0,
+    geotherm: (depthsKm, q, t, out) => {
+      solveColumn(cm, q, t, st);
+      for (let i = 0; i < depthsKm.length; i++) out[i] = columnTemperature(cm, st, depthsKm[i]);
+      return out;
+    },
+    // ∫₀^z A dz = q0 − q(z), independent of q0.
+    heatAboveMWm2: (zKm) => -columnHeatFlow(cm, 0, zKm),
   };
 }

@@ -17,8 +17,23 @@ export interface WellSiteProperties {
   nPoints: number;
   depthTopM: number;
   depthBottomM: number;
+  /** Heat flow over the fitted interval (q at mid-interval), mW/m². */
+  intervalHeatFlowMWm2: number;
+  /** ∫₀^z_mid A dz added to it, mW/m², and where A came from. */
+  heatProductionCorrectionMWm2: number;
+  heatProductionSource: string;
+  /** q0 fitted directly with the model geotherm (null without a model). */
+  modelFitHeatFlowMWm2: number | null;
+  /** How heatFlowMWm2 (the surface heat flow) was obtained. */
+  surfaceHeatFlowMethod: string;
   elevationM?: number;
 }
+
+const SURFACE_METHOD = {
+  'model-fit': 'q0 fitted to the temperatures with the model geotherm (its k(T) and A(z))',
+  'interval-plus-heat-production': 'q0 = interval heat flow + heat produced above mid-interval (Turcotte & Schubert 2002, §4-6)',
+  'interval-uncorrected': 'interval heat flow, not corrected for heat production (no model or heatProductionColumn)',
+} as const;
 
 /** Rounds to `d` decimals for export (values keep their full precision in the reports). */
 function round(v: number, d: number): number {
@@ -28,7 +43,8 @@ function round(v: number, d: number): number {
 
 /**
  * Heat-flow sites (GeoJSON Points at the wells) from the well reports with status 'ok', ready for the
- * interpolation engine: id = the well id, heatFlowMWm2 and uncertaintyMWm2 (0.01 mW/m²), quality,
+ * interpolation engine: id = the well id, heatFlowMWm2 (the surface heat flow q0) and uncertaintyMWm2 (0.01 mW/m²),
+ * the interval heat flow and the heat-production correction beside it, quality,
  * gradientCPerKm (0.001 °C/km), conductivityWmK (0.001 W/m/K, the harmonic mean), sourceWellId, and how the value
  * was made. Wells without a heat flow are not turned into sites (their reports say why).
  */
@@ -50,6 +66,11 @@ export function wellSites(reports: WellReport[]): FeatureCollection<PointGeometr
       nPoints: r.gradient.nPoints,
       depthTopM: r.gradient.topM,
       depthBottomM: r.gradient.bottomM,
+      intervalHeatFlowMWm2: round(r.heatFlow.intervalHeatFlowMWm2, 2),
+      heatProductionCorrectionMWm2: round(r.heatFlow.heatProductionCorrectionMWm2, 2),
+      heatProductionSource: r.heatFlow.heatProductionSource,
+      modelFitHeatFlowMWm2: r.heatFlow.modelFit ? round(r.heatFlow.modelFit.heatFlowMWm2, 2) : null,
+      surfaceHeatFlowMethod: SURFACE_METHOD[r.heatFlow.surfaceMethod],
     };
     if (r.name !== undefined) props.name = r.name;
     if (r.elevationM !== undefined) props.elevationM = r.elevationM;
