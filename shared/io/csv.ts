@@ -4,8 +4,12 @@ import { InputError } from '../errors.ts';
  * Parses RFC 4180 CSV (quoted fields, doubled quotes, CRLF or LF line ends) into a header and rows of strings.
  * Lines that start with `#` before the header are comments (our own exports begin with a caution comment).
  */
-export function parseCsv(text: string): { header: string[]; rows: string[][] } {
+export function parseCsv(text: string): { header: string[]; rows: string[][]; lines: number[]; headerLine: number } {
   const records: string[][] = [];
+  // The physical line (1-based, as a spreadsheet numbers its rows) on which each record starts.
+  const starts: number[] = [];
+  let line = 1;
+  let recordLine = 1;
   let field = '';
   let record: string[] = [];
   let inQuotes = false;
@@ -19,6 +23,7 @@ export function parseCsv(text: string): { header: string[]; rows: string[][] } {
         if (text[i + 1] === '"') { field += '"'; i += 2; continue; }
         inQuotes = false; i++; continue;
       }
+      if (ch === '\n' || (ch === '\r' && text[i + 1] !== '\n')) line++;
       field += ch; i++; continue;
     }
     if (ch === '"' && field.length === 0) { inQuotes = true; i++; continue; }
@@ -26,25 +31,29 @@ export function parseCsv(text: string): { header: string[]; rows: string[][] } {
     if (ch === '\r' || ch === '\n') {
       record.push(field); field = '';
       records.push(record); record = [];
+      starts.push(recordLine);
       if (ch === '\r' && text[i + 1] === '\n') i++;
-      i++; continue;
+      i++; line++; recordLine = line; continue;
     }
     field += ch; i++;
   }
   if (inQuotes) throw new InputError('CSV has an unterminated quoted field', [{ problem: 'a field opened with " is never closed' }], 'bad_csv');
-  if (field.length > 0 || record.length > 0) { record.push(field); records.push(record); }
-  const useful = records.filter((r) => !(r.length === 1 && r[0].trim() === ''));
+  if (field.length > 0 || record.length > 0) { record.push(field); records.push(record); starts.push(recordLine); }
+  const keep = records.map((_, k) => k).filter((k) => !(records[k].length === 1 && records[k][0].trim() === ''));
+  const useful = keep.map((k) => records[k]);
+  const usefulLines = keep.map((k) => starts[k]);
   let start = 0;
   while (start < useful.length && useful[start][0]?.trimStart().startsWith('#')) start++;
   if (start >= useful.length) throw new InputError('CSV has no header row', [{ problem: 'expected a header row such as longitude,latitude,...' }], 'bad_csv');
   const header = useful[start].map((h) => h.trim());
   const rows = useful.slice(start + 1);
+  const lines = usefulLines.slice(start + 1);
   rows.forEach((r, k) => {
     if (r.length !== header.length) {
-      throw new InputError(`CSV row ${k + 1} has ${r.length} fields, the header has ${header.length}`, [{ feature: k, problem: `expected ${header.length} fields, got ${r.length}` }], 'bad_csv');
+      throw new InputError(`CSV line ${lines[k]} has ${r.length} fields, the header (line ${usefulLines[start]}) has ${header.length}`, [{ feature: `line ${lines[k]}`, problem: `expected ${header.length} fields, got ${r.length}` }], 'bad_csv');
     }
   });
-  return { header, rows };
+  return { header, rows, lines, headerLine: usefulLines[start] };
 }
 
 /** Formats one CSV field, quoting when needed. */

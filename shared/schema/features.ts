@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { InputError, type InputProblem } from '../errors.ts';
 import { parseCsv } from '../io/csv.ts';
+import { swappedLonLatError } from './lonlat-order.ts';
 import { zoneNameProblem } from '../petrology/zones.ts';
 import {
   pointGeometry,
@@ -146,7 +147,22 @@ function issuesToProblems(feature: number | string, prefix: string, error: z.Zod
  * own `id`, else its index (with a warning). Duplicate ids are an error: every later link (fault report, share
  * link, well → site) relies on them.
  */
-export function parseFeatureCollection(kind: DatasetKind, input: unknown, opts: { maxFeatures?: number; maxProblems?: number } = {}): ParsedDataset {
+/** Every [lon, lat] position of the features' geometries, with the feature it belongs to (for swappedLonLatError). */
+function* positionsOf(features: unknown[], labels?: string[]): Generator<{ lon: number; lat: number; where: string }> {
+  for (let i = 0; i < features.length; i++) {
+    const g = (features[i] as { geometry?: { coordinates?: unknown } } | null)?.geometry;
+    const where = labels?.[i] ?? `feature ${i}`;
+    const stack: unknown[] = [g?.coordinates];
+    while (stack.length > 0) {
+      const x = stack.pop();
+      if (!Array.isArray(x)) continue;
+      if (x.length >= 2 && typeof x[0] === 'number' && typeof x[1] === 'number') yield { lon: x[0], lat: x[1], where };
+      else for (const c of x) stack.push(c);
+    }
+  }
+}
+
+export function parseFeatureCollection(kind: DatasetKind, input: unknown, opts: { maxFeatures?: number; maxProblems?: number; featureLabels?: string[] } = {}): ParsedDataset {
   const maxFeatures = opts.maxFeatures ?? 200_000;
   const maxProblems = opts.maxProblems ?? 50;
   const spec = KIND_SPECS[kind];
@@ -167,6 +183,11 @@ export function parseFeatureCollection(kind: DatasetKind, input: unknown, opts: 
   if (features.length > maxFeatures) {
     throw new InputError(`too many features: ${features.length} (limit ${maxFeatures})`, [{ field: 'features', problem: `at most ${maxFeatures} features per data set` }], 'too_many_features', 413);
   }
+  const swapped = swappedLonLatError(
+    positionsOf(features, opts.featureLabels),
+    opts.featureLabels !== undefined ? 'Check that the longitude column holds longitudes (east–west, -180 to 180) and the latitude column latitudes (north–south, -90 to 90).' : 'GeoJSON positions are [longitude, latitude] in that order (RFC 7946 §3.1.1).',
+  );
+  if (swapped) throw swapped;
   const problems: InputProblem[] = [];
   const warnings: string[] = [];
   const out: FeatureCollection['features'] = [];
@@ -184,7 +205,8 @@ export function parseFeatureCollection(kind: DatasetKind, input: unknown, opts: 
       if (typeof feat.id === 'string' || typeof feat.id === 'number') rawProps.id = feat.id;
       else if (kind !== 'regions') { rawProps.id = `${kind}-${index + 1}`; unnamed++; }
     }
-    const label = typeof rawProps.id === 'string' || typeof rawProps.id === 'number' ? `${index} (${rawProps.id})` : index;
+    const at = opts.featureLabels?.[index] ?? index;
+    const label = typeof rawProps.id === 'string' || typeof rawProps.id === 'number' ? `${at} (${rawProps.id})` : at;
     const gType = feat.geometry && typeof feat.geometry === 'object' ? (feat.geometry as { type?: unknown }).type : undefined;
     if (!(spec.types as readonly unknown[]).includes(gType)) {
       problems.push({ feature: label, field: 'geometry.type', problem: `${kind} need ${spec.types.join(' or ')} geometry, got ${gType === undefined ? 'none' : JSON.stringify(gType)}` });
@@ -244,7 +266,7 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
     throw new InputError(`CSV holds points only; send ${kind} as GeoJSON`, [{ problem: `${kind} need line or polygon geometry` }], 'bad_csv', 415);
   }
   const hint = opts.crsHint ?? 'give their CRS (EPSG:nnnn)';
-  const { header, rows } = parseCsv(csvText);
+  const { header, rows, lines, headerLine } = parseCsv(csvText);
   let lonCol = header.findIndex((h) => /^(longitude|lon|lng)$/i.test(h));
   let latCol = header.findIndex((h) => /^(latitude|lat)$/i.test(h));
   let projected = false;
@@ -262,6 +284,13 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
     throw new InputError('CSV header needs longitude,latitude (or lon,lat) columns, or x,y (easting,northing) with their CRS', [{ field: lonCol < 0 ? 'longitude' : 'latitude', problem: `missing column; header is: ${header.join(',')}` }], 'bad_csv');
   }
   if (!projected) {
+    // Longitude and latitude exchanged: one message with the first offending value, not one per row.
+    const swapped = swappedLonLatError(
+      rows.map((r, k) => ({ lon: Number(r[lonCol]), lat: Number(r[latCol]), where: `line ${lines[k]}` })),
+      `Check that the "${header[lonCol]}" column holds longitudes (east–west, -180 to 180) and "${header[latCol]}" latitudes (north–south, -90 to 90).`,
+      { lon: header[lonCol], lat: header[latCol] },
+    );
+    if (swapped) throw swapped;
     // Eastings/northings in longitude/latitude columns: say so rather than "out of range" on every row.
     const far = rows.filter((r) => Math.abs(Number(r[lonCol])) > 180 || Math.abs(Number(r[latCol])) > 90);
     if (far.length > 0 && far.length >= rows.length / 2) {
@@ -277,23 +306,30 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
       if (cell === '') return;
       if (NUMERIC_FIELDS.has(h)) {
         const v = Number(cell);
-        if (!Number.isFinite(v)) problems.push({ feature: k, field: h, problem: `expected a number, got "${cell}"` });
+        if (!Number.isFinite(v)) problems.push({ feature: `line ${lines[k]}`, field: h, problem: `expected a number, got "${cell}"` });
         props[h] = v;
       } else props[h] = cell;
     });
     let lon = Number(r[lonCol]);
     let lat = Number(r[latCol]);
-    if (r[lonCol].trim() === '' || !Number.isFinite(lon)) problems.push({ feature: k, field: header[lonCol], problem: `expected a number, got "${r[lonCol]}"` });
-    if (r[latCol].trim() === '' || !Number.isFinite(lat)) problems.push({ feature: k, field: header[latCol], problem: `expected a number, got "${r[latCol]}"` });
+    if (r[lonCol].trim() === '' || !Number.isFinite(lon)) problems.push({ feature: `line ${lines[k]}`, field: header[lonCol], problem: `expected a number, got "${r[lonCol]}"` });
+    if (r[latCol].trim() === '' || !Number.isFinite(lat)) problems.push({ feature: `line ${lines[k]}`, field: header[latCol], problem: `expected a number, got "${r[latCol]}"` });
     if (projected && Number.isFinite(lon) && Number.isFinite(lat)) [lon, lat] = opts.toLonLat!(lon, lat);
     return { lon, lat, props };
   });
-  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in the CSV`, problems.slice(0, 50), 'invalid_features', 422);
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in the CSV (lines as a spreadsheet numbers them, the header on line ${headerLine}): ${problems.slice(0, 3).map((p) => `${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems.slice(0, 50), 'invalid_features', 422);
   let features: unknown[];
+  // Each feature is labelled by its CSV line in later messages (a well by its first line).
+  let featureLabels: string[];
   if (kind === 'wells') {
     // One row per measurement, grouped by well id; location from the well's first row.
     const byId = new Map<string, { lon: number; lat: number; props: Record<string, unknown>; measurements: Record<string, unknown>[] }>();
     const measurementKeys = ['depthM', 'depthFt', 'temperatureC', 'temperatureF', 'kind', 'hoursSinceCirculation', 'circulationHours'];
+    const firstLine = new Map<string, number>();
+    points.forEach((p, k) => {
+      const id = String(p.props.id ?? p.props.wellId ?? '');
+      if (!firstLine.has(id)) firstLine.set(id, lines[k]);
+    });
     for (const p of points) {
       const id = String(p.props.id ?? p.props.wellId ?? '');
       const m: Record<string, unknown> = {};
@@ -304,8 +340,10 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
       byId.set(id, w);
     }
     features = [...byId.values()].map((w) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [w.lon, w.lat] }, properties: { ...w.props, measurements: w.measurements } }));
+    featureLabels = [...byId.keys()].map((id) => `line ${firstLine.get(id)}`);
   } else {
     features = points.map((p) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [p.lon, p.lat] }, properties: p.props }));
+    featureLabels = lines.map((l) => `line ${l}`);
   }
-  return parseFeatureCollection(kind, { type: 'FeatureCollection', features }, opts);
+  return parseFeatureCollection(kind, { type: 'FeatureCollection', features }, { ...opts, featureLabels });
 }

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { swappedLonLatError } from './lonlat-order.ts';
 import { InputError, type InputProblem } from '../errors.ts';
 import { parseCsv } from '../io/csv.ts';
 import { parseFeatureCollection } from './features.ts';
@@ -149,7 +150,7 @@ export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMis
  */
 export function pointsFromCsv(text: string, field: string, opts: { skipMissing?: boolean; source?: string; toLonLat?: (x: number, y: number) => [number, number] } = {}): { points: PointData; warnings: string[]; projectedColumns: boolean } {
   const src = opts.source ?? 'points';
-  const { header, rows } = parseCsv(text);
+  const { header, rows, lines } = parseCsv(text);
   let xc = header.findIndex((h) => /^(longitude|lon|lng)$/i.test(h));
   let yc = header.findIndex((h) => /^(latitude|lat)$/i.test(h));
   let projected = false;
@@ -159,6 +160,14 @@ export function pointsFromCsv(text: string, field: string, opts: { skipMissing?:
     projected = xc >= 0 && yc >= 0;
     if (!projected) throw new InputError(`${src}: CSV header needs longitude,latitude (or lon,lat), or x,y with --points-crs`, [{ field: 'header', problem: `header is: ${header.join(',')}` }], 'bad_csv');
     if (opts.toLonLat === undefined) throw new InputError(`${src}: CSV has projected x,y columns: give their CRS with --points-crs EPSG:nnnn`, [{ field: 'points-crs', problem: 'missing' }], 'bad_option');
+  }
+  if (!projected) {
+    const swapped = swappedLonLatError(
+      rows.map((r, k) => ({ lon: Number(r[xc]), lat: Number(r[yc]), where: `${src} line ${lines[k]}` })),
+      `Check that the "${header[xc]}" column holds longitudes (east–west, -180 to 180) and "${header[yc]}" latitudes (north–south, -90 to 90).`,
+      { lon: header[xc], lat: header[yc] },
+    );
+    if (swapped) throw swapped;
   }
   const numeric = new Set([field, 'heatFlowMWm2', 'uncertaintyMWm2', `${field}Sd`, 'gradientCPerKm', 'conductivityWmK', 'heatProductionUWm3']);
   const problems: InputProblem[] = [];
@@ -170,19 +179,19 @@ export function pointsFromCsv(text: string, field: string, opts: { skipMissing?:
       if (cell === '') return;
       if (numeric.has(h)) {
         const v = Number(cell);
-        if (!Number.isFinite(v)) problems.push({ feature: k + 1, field: h, problem: `expected a finite number, got "${cell}"` });
+        if (!Number.isFinite(v)) problems.push({ feature: `line ${lines[k]}`, field: h, problem: `expected a finite number, got "${cell}"` });
         props[h] = v;
       } else props[h] = cell;
     });
     const a = Number(r[xc]), b = Number(r[yc]);
     if (r[xc].trim() === '' || !Number.isFinite(a) || r[yc].trim() === '' || !Number.isFinite(b)) {
-      problems.push({ feature: k + 1, field: projected ? 'x,y' : 'longitude,latitude', problem: `expected two numbers, got "${r[xc]}", "${r[yc]}"` });
+      problems.push({ feature: `line ${lines[k]}`, field: projected ? 'x,y' : 'longitude,latitude', problem: `expected two numbers, got "${r[xc]}", "${r[yc]}"` });
     }
     const p = projected ? opts.toLonLat!(a, b) : [a, b];
-    if (projected && !lonLat.safeParse(p).success) problems.push({ feature: k + 1, field: 'x,y', problem: `outside the CRS's valid area (gives ${p[0]}, ${p[1]})` });
+    if (projected && !lonLat.safeParse(p).success) problems.push({ feature: `line ${lines[k]}`, field: 'x,y', problem: `outside the CRS's valid area (gives ${p[0]}, ${p[1]})` });
     return { type: 'Feature', geometry: { type: 'Point', coordinates: p }, properties: props };
   });
-  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${src} (CSV rows numbered from 1 after the header)`, problems.slice(0, 50), 'invalid_features', 422);
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${src} (CSV lines as a spreadsheet numbers them, the header is line 1 unless comment lines precede it): ${problems.slice(0, 3).map((p) => `${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems.slice(0, 50), 'invalid_features', 422);
   const r = pointsFromGeoJson({ type: 'FeatureCollection', features }, field, opts);
   return { ...r, projectedColumns: projected };
 }

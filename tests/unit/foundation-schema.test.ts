@@ -69,7 +69,7 @@ describe('CSV', () => {
   it('turns lon/lat rows into validated sites, and names bad cells', () => {
     const r = parsePointCsv('sites', 'lon,lat,id,heatFlowMWm2\n-128,-38,a,61.5\n');
     expect(r.collection.features[0].geometry).toEqual({ type: 'Point', coordinates: [-128, -38] });
-    expect(problemsOf(() => parsePointCsv('sites', 'lon,lat,id,heatFlowMWm2\n-128,-38,a,abc\n'))[0]).toMatchObject({ feature: 0, field: 'heatFlowMWm2' });
+    expect(problemsOf(() => parsePointCsv('sites', 'lon,lat,id,heatFlowMWm2\n-128,-38,a,abc\n'))[0]).toMatchObject({ feature: 'line 2', field: 'heatFlowMWm2' });
     expect(() => parsePointCsv('sites', 'x,y,heatFlowMWm2\n1,2,3\n')).toThrow(/longitude,latitude/);
   });
 
