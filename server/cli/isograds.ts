@@ -22,8 +22,11 @@ Isograds from grade samples (zone, facies or peak P–T), with a fault report (s
   --fault-distance-km D     samples within D km of a fault count for its report (default 10)
   --cell-km C               indicator grid cell, km (default 1)
   --support-km S            draw lines only within S km of a sample (default 2.5 × median sample spacing)
-  --neighbors K             nearest samples per estimate (default 12)
-  --power P                 inverse-distance power (default 2)
+  --method M                kriging (indicator kriging, default) or idw
+  --neighbors K             nearest samples per estimate (default 16 for kriging, 12 for idw)
+  --power P                 inverse-distance power for --method idw (default 2)
+  --isograd-dip-deg A       dip of the isograd surfaces towards lower grade, degrees: gives the dip-slip
+                            component of each separation on faults with dipDeg and dipDirectionDeg
   --density-kg-m3 RHO       overburden density for depth from peak pressure (default ${DEFAULT_PALEO_DENSITY_KG_M3})
   --out FILE                write the isograd lines (GeoJSON) here
   --json                    print one JSON object
@@ -67,6 +70,8 @@ export async function isograds(argv: string[]): Promise<number> {
     'cell-km': { type: 'string' },
     'support-km': { type: 'string' },
     neighbors: { type: 'string' },
+    method: { type: 'string' },
+    'isograd-dip-deg': { type: 'string' },
     power: { type: 'string' },
     'density-kg-m3': { type: 'string' },
     out: { type: 'string' },
@@ -83,7 +88,11 @@ export async function isograds(argv: string[]): Promise<number> {
   if (!(cellKm > 0)) throw bad('cell-km', `must be > 0 km, got ${cellKm}`);
   const supportKm = v['support-km'] === undefined ? undefined : numberOption('support-km', v['support-km'] as string);
   if (supportKm !== undefined && !(supportKm > 0)) throw bad('support-km', `must be > 0 km, got ${supportKm}`);
-  const neighbors = numberOption('neighbors', v.neighbors as string | undefined, 12);
+  const method = (v.method as string | undefined) ?? 'kriging';
+  if (method !== 'kriging' && method !== 'idw') throw bad('method', `expected kriging or idw, got '${method}'`);
+  const isogradDipDeg = v['isograd-dip-deg'] === undefined ? undefined : numberOption('isograd-dip-deg', v['isograd-dip-deg'] as string);
+  if (isogradDipDeg !== undefined && !(isogradDipDeg > 0 && isogradDipDeg < 90)) throw bad('isograd-dip-deg', `must be between 0 and 90 degrees (exclusive), got ${isogradDipDeg}`);
+  const neighbors = numberOption('neighbors', v.neighbors as string | undefined, method === 'kriging' ? 16 : 12);
   if (!(Number.isInteger(neighbors) && neighbors >= 1 && neighbors <= 1000)) throw bad('neighbors', `must be an integer from 1 to 1000, got ${neighbors}`);
   const power = numberOption('power', v.power as string | undefined, 2);
   if (!(power > 0 && power <= 10)) throw bad('power', `must be in (0, 10], got ${power}`);
@@ -118,7 +127,7 @@ export async function isograds(argv: string[]): Promise<number> {
   } else if (heatFlow !== undefined) warnings.push('--heat-flow has no effect without --model');
 
   const layer = inFile(samplesPath, () => isogradLayer(sp.collection as SampleCollection, faults, {
-    cellKm, supportKm, neighbors, power, faultDistanceKm, model, heatFlowMWm2: heatFlow, paleo: { densityKgM3: density },
+    cellKm, supportKm, neighbors, power, method, isogradDipDeg, faultDistanceKm, model, heatFlowMWm2: heatFlow, paleo: { densityKgM3: density },
   }));
   const rep = layer.report;
   warnings.push(...rep.warnings);

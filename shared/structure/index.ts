@@ -1,6 +1,6 @@
 // Structure: isograds from graded samples, misfits, fault offsets and paleo-gradients (re-exports only).
 export { sampleGrades, faciesRankInterval, peakRankInterval, peakGrade, MAX_RANK, OFF_SCALE_FACIES, type SampleGrade, type GradeInput, type GradeSource, type GradeSeries, type PeakGrade } from './grade.ts';
-export { IndicatorField, rankFromIndicators, pointSegmentDistance2, BOUNDARY_COUNT, type LocalGrid, type IndicatorOptions } from './indicator.ts';
+export { IndicatorField, rankFromIndicators, correctOrderRelations, pointSegmentDistance2, BOUNDARY_COUNT, MIN_FIT_SAMPLES, MIN_FIT_MINORITY, type IndicatorVariogram, type LocalGrid, type IndicatorOptions } from './indicator.ts';
 export { traceIsolines, type Isoline } from './isolines.ts';
 export { computeIsogradsKm, isogradName, defaultSupportKm, medianSpacingKm, type IsogradGridOptions, type IsogradLineKm, type IsogradResultKm } from './isograds.ts';
 export { leaveOneOut, findMisfits, distanceToPolyline, type LeaveOneOut, type Misfit } from './misfits.ts';

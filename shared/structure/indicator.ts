@@ -1,6 +1,19 @@
 /**
  * Indicator surfaces for isograds: for each zone boundary j (the isograd opening rank j = 1 … 5), the estimated
- * probability that the grade is at or above rank j, by inverse-distance weighting of the sample indicators
+ * probability that the grade is at or above rank j.
+ *
+ * Default method: indicator kriging (Journel 1983, "Nonparametric estimation of spatial distributions", Math. Geol.
+ * 15; Goovaerts 1997, "Geostatistics for Natural Resources Evaluation", §7.1–7.3): one indicator per boundary,
+ * Iⱼ(x) = 1 when the grade is at or above rank j, estimated by the engine's ordinary kriging
+ * (shared/interp/kriging.ts) of the samples decided for that boundary, with fault barriers (a sample informs a
+ * location only when no fault trace lies between them). Each boundary's indicator semivariogram is fitted
+ * (Matheron's estimator, Cressie's weighted least squares, spherical model: shared/interp/variogram.ts) when it has at
+ * least MIN_FIT_SAMPLES decided samples and MIN_FIT_MINORITY of each class; the others take the median-indicator
+ * variogram (the fit of the boundary whose proportion of ones is nearest 0.5; Goovaerts 1997 §7.3.1). Estimates are
+ * clipped to [0, 1] and made non-increasing in j by the average of the upward and downward corrections (order
+ * relations; Deutsch & Journel 1998, "GSLIB", 2nd ed., §IV.1.9).
+ *
+ * Alternative method 'idw': inverse-distance weighting of the sample indicators
  * (Shepard 1968: P̂ⱼ = Σ wᵢ Iᵢⱼ / Σ wᵢ, wᵢ = dᵢ^(−p)), with the interpolation engine's neighbour search
  * (shared/interp/neighbours.ts) and fault barriers (shared/interp/barriers.ts): a sample informs a location only
  * when the straight path between them crosses no fault trace. Indicator interpolation of an ordered categorical
@@ -19,6 +32,64 @@ import { NeighbourIndex } from '../interp/neighbours.ts';
 import { FaultBarrier } from '../interp/barriers.ts';
 import { EXACT_KM } from '../interp/idw.ts';
 import { MAX_RANK } from './grade.ts';
+import { KrigingPredictor } from '../interp/kriging.ts';
+import { empiricalVariogram, fitVariogram, type VariogramModel } from '../interp/variogram.ts';
+import type { VisibilityTest } from '../interp/neighbours.ts';
+
+/** Fewest decided samples, and fewest of the rarer class, for a boundary's own indicator variogram fit. */
+export const MIN_FIT_SAMPLES = 40;
+export const MIN_FIT_MINORITY = 8;
+
+/** A boundary's indicator variogram and where it came from. */
+export interface IndicatorVariogram {
+  isograd: number;
+  model: VariogramModel;
+  source: 'fitted' | 'median-indicator' | 'default';
+  samples: number;
+  proportionAbove: number;
+}
+
+/**
+ * The fault barrier of one boundary's points, answered from a memo shared by the five boundaries (their points are
+ * mostly the same samples, so each sample's visibility from a location is tested once), and switched off where no
+ * fault piece lies within the search disk (same result, cheaper).
+ */
+class SwitchedBarrier implements VisibilityTest {
+  on = true;
+  constructor(private readonly b: FaultBarrier, private readonly toField: Int32Array, private readonly memo: { stamp: number; seen: Int32Array; val: Uint8Array }) {}
+  visible(x: number, y: number, i: number): boolean {
+    if (!this.on) return true;
+    const g = this.toField[i], m = this.memo;
+    if (m.seen[g] === m.stamp) return m.val[g] === 1;
+    const v = this.b.visible(x, y, g);
+    m.seen[g] = m.stamp;
+    m.val[g] = v ? 1 : 0;
+    return v;
+  }
+}
+
+/**
+ * Order-relation correction of non-increasing exceedance probabilities p[0] ≥ … ≥ p[4] in [0, 1] (NaN entries kept
+ * and skipped): clip, then the mean of the upward pass (running minimum) and the downward pass (running maximum)
+ * (Deutsch & Journel 1998, §IV.1.9).
+ */
+export function correctOrderRelations(p: Float64Array | number[], n = BOUNDARY_COUNT): void {
+  const up = new Float64Array(n), down = new Float64Array(n);
+  let run = Infinity;
+  for (let j = 0; j < n; j++) {
+    if (Number.isNaN(p[j])) continue;
+    p[j] = Math.min(1, Math.max(0, p[j]));
+    run = Math.min(run, p[j]);
+    up[j] = run;
+  }
+  run = -Infinity;
+  for (let j = n - 1; j >= 0; j--) {
+    if (Number.isNaN(p[j])) continue;
+    run = Math.max(run, p[j]);
+    down[j] = run;
+  }
+  for (let j = 0; j < n; j++) if (!Number.isNaN(p[j])) p[j] = (up[j] + down[j]) / 2;
+}
 
 /** Number of zone boundaries (biotite-in … sillimanite-in). */
 export const BOUNDARY_COUNT = MAX_RANK;
@@ -33,9 +104,13 @@ export interface LocalGrid {
 }
 
 export interface IndicatorOptions {
+  /** 'kriging' (default) or 'idw'. */
+  method?: 'kriging' | 'idw';
+  /** Variogram for every boundary instead of fitting (kriging). */
+  variogram?: VariogramModel;
   /** IDW power p (default 2). */
   power?: number;
-  /** Nearest visible informative samples per location (default 12). */
+  /** Nearest visible informative samples per location (default 16 for kriging, 12 for IDW). */
   neighbors?: number;
   /** Only samples within this distance, km (default unlimited). */
   radiusKm?: number;
@@ -70,15 +145,29 @@ export class IndicatorField {
   private readonly exDen = new Float64Array(BOUNDARY_COUNT);
   /** Searches that needed the barrier test (diagnostics). */
   barrierSearches = 0;
+  readonly method: 'kriging' | 'idw';
+  /** Per boundary (index j − 1): the kriging predictor of its decided samples (null: none decided). */
+  private readonly kp: (KrigingPredictor | null)[] = [];
+  /** Per boundary: informative-sample index → the predictor's point index (−1: undecided for it). */
+  private readonly kIndex: Int32Array[] = [];
+  private readonly kVis: (SwitchedBarrier | null)[] = [];
+  readonly variograms: (IndicatorVariogram | null)[] = [];
+  private readonly kOut = new Float64Array(2);
+  private kIds = new Int32Array(0);
+  private kD2 = new Float64Array(0);
+  private readonly nearIds = new Int32Array(1);
+  private visMemo = { stamp: 0, seen: new Int32Array(0), val: new Uint8Array(0) };
+  private readonly nearD2 = new Float64Array(1);
 
   /**
    * @param x, y sample positions, local km
    * @param lo, hi rank intervals (−1 = no zone information: the sample is skipped)
    */
   constructor(x: ArrayLike<number>, y: ArrayLike<number>, lo: ArrayLike<number>, hi: ArrayLike<number>, opts: IndicatorOptions = {}) {
+    this.method = opts.method ?? 'kriging';
     this.power = opts.power ?? 2;
     if (!(this.power > 0 && Number.isFinite(this.power))) throw new RangeError(`IDW power must be a positive number, got ${this.power}`);
-    const k = opts.neighbors ?? 12;
+    const k = opts.neighbors ?? (this.method === 'kriging' ? 16 : 12);
     if (!(k >= 1)) throw new RangeError(`at least one neighbour is needed, got ${k}`);
     this.radiusKm = opts.radiusKm ?? Infinity;
     if (!(this.radiusKm > 0)) throw new RangeError(`search radius must be > 0 km, got ${this.radiusKm}`);
@@ -98,6 +187,100 @@ export class IndicatorField {
     this.barrier = this.faults !== null ? new FaultBarrier(this.faults, this.x, this.y) : null;
     this.ids = new Int32Array(this.k);
     this.d2 = new Float64Array(this.k);
+    if (this.method === 'kriging') this.setUpKriging(opts.variogram ?? null);
+  }
+
+  /** One ordinary-kriging predictor per boundary over its decided samples, with fitted or median-indicator variograms. */
+  private setUpKriging(given: VariogramModel | null): void {
+    const n = this.count;
+    const sets: { x: Float64Array; y: Float64Array; z: Float64Array; map: Int32Array }[] = [];
+    for (let j = 1; j <= BOUNDARY_COUNT; j++) {
+      const map = new Int32Array(n).fill(-1);
+      const xs: number[] = [], ys: number[] = [], zs: number[] = [];
+      for (let i = 0; i < n; i++) {
+        let v: number;
+        if (this.lo[i] >= j) v = 1; else if (this.hi[i] < j) v = 0; else continue;
+        map[i] = xs.length;
+        xs.push(this.x[i]); ys.push(this.y[i]); zs.push(v);
+      }
+      sets.push({ x: Float64Array.from(xs), y: Float64Array.from(ys), z: Float64Array.from(zs), map });
+    }
+    // Variograms: fitted where there are enough data of both classes, else the median-indicator one.
+    let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
+    for (let i = 0; i < n; i++) { x0 = Math.min(x0, this.x[i]); x1 = Math.max(x1, this.x[i]); y0 = Math.min(y0, this.y[i]); y1 = Math.max(y1, this.y[i]); }
+    const diag = Math.hypot(x1 - x0, y1 - y0);
+    const fit = (set: { x: Float64Array; y: Float64Array; z: Float64Array }): VariogramModel | null => {
+      if (!(diag > 0) || set.z.length < 10) return null;
+      try {
+        const e = empiricalVariogram(set.x, set.y, set.z, { maxLagKm: diag / 3 });
+        if (e.lags.length < 3) return null;
+        const m = fitVariogram('spherical', e.lags, { maxRangeKm: diag });
+        return m.partialSill > 0 && Number.isFinite(m.rangeKm) ? { model: m.model, nugget: m.nugget, partialSill: m.partialSill, rangeKm: m.rangeKm } : null;
+      } catch {
+        return null;
+      }
+    };
+    const stats = sets.map((q) => { let ones = 0; for (const v of q.z) ones += v; return { count: q.z.length, ones, p: q.z.length > 0 ? ones / q.z.length : NaN }; });
+    let median = -1;
+    for (let j = 0; j < BOUNDARY_COUNT; j++) {
+      if (!(stats[j].count >= 10)) continue;
+      if (median < 0 || Math.abs(stats[j].p - 0.5) < Math.abs(stats[median].p - 0.5)) median = j;
+    }
+    const medianModel = given ?? (median >= 0 ? fit(sets[median]) : null);
+    const fallback: VariogramModel = { model: 'spherical', nugget: 0, partialSill: 0.25, rangeKm: Math.max(diag / 3, 1e-3) };
+    this.visMemo = { stamp: 1, seen: new Int32Array(n), val: new Uint8Array(n) };
+    this.kIds = new Int32Array(this.k);
+    this.kD2 = new Float64Array(this.k);
+    for (let j = 0; j < BOUNDARY_COUNT; j++) {
+      const set = sets[j], st = stats[j];
+      this.kIndex.push(set.map);
+      if (st.count === 0) { this.kp.push(null); this.kVis.push(null); this.variograms.push(null); continue; }
+      let model: VariogramModel | null = null, source: IndicatorVariogram['source'] = 'fitted';
+      if (given !== undefined && given !== null) { model = given; source = 'median-indicator'; }
+      else if (st.count >= MIN_FIT_SAMPLES && Math.min(st.ones, st.count - st.ones) >= MIN_FIT_MINORITY) model = fit(set);
+      if (model === null) { model = medianModel; source = 'median-indicator'; }
+      if (model === null) { model = fallback; source = 'default'; }
+      const toField = new Int32Array(set.z.length);
+      for (let i = 0; i < n; i++) if (set.map[i] >= 0) toField[set.map[i]] = i;
+      const vis = this.barrier !== null ? new SwitchedBarrier(this.barrier, toField, this.visMemo) : null;
+      this.kVis.push(vis);
+      this.kp.push(new KrigingPredictor(set.x, set.y, set.z, model, { neighbors: this.k, visibility: vis, radiusKm: this.radiusKm }));
+      this.variograms.push({ isograd: j + 1, model, source, samples: st.count, proportionAbove: st.p });
+    }
+  }
+
+  /**
+   * Kriged, order-corrected P̂ⱼ at (qx, qy) into out[offset + j·stride]; `faultFarKm` (when known) is the distance to
+   * the nearest fault piece, so the barrier test is skipped when every neighbour lies nearer than that.
+   */
+  private krige(qx: number, qy: number, out: Float64Array | Float32Array, offset: number, stride: number, exclude: number, faultFarKm: number): void {
+    const p = this.num; // scratch
+    this.visMemo.stamp++; // a new location: forget the visibilities of the last one
+    for (let j = 0; j < BOUNDARY_COUNT; j++) {
+      const kp = this.kp[j];
+      if (kp === null) { p[j] = NaN; continue; }
+      const vis = this.kVis[j];
+      if (vis !== null) {
+        vis.on = true;
+        if (faultFarKm > 0 && exclude < 0) {
+          const m = kp.index.nearest(qx, qy, kp.k, this.radiusKm, this.kIds, this.kD2);
+          const disk = m === kp.k ? Math.sqrt(this.kD2[m - 1]) : this.radiusKm;
+          if (faultFarKm > disk) vis.on = false;
+        }
+      }
+      const ex = exclude >= 0 ? this.kIndex[j][exclude] : -1;
+      const m = kp.predict(qx, qy, this.kOut, false, ex);
+      p[j] = m > 0 ? this.kOut[0] : NaN;
+      if (vis !== null) vis.on = true;
+    }
+    correctOrderRelations(p);
+    for (let j = 0; j < BOUNDARY_COUNT; j++) out[offset + j * stride] = p[j];
+  }
+
+  /** Distance (km) to the nearest visible informative sample (barriers honoured), or Infinity. */
+  private nearestVisibleKm(qx: number, qy: number, exclude: number): number {
+    const m = this.index.nearest(qx, qy, 1, this.radiusKm, this.nearIds, this.nearD2, this.barrier, exclude);
+    return m > 0 ? Math.sqrt(this.nearD2[0]) : Infinity;
   }
 
   get count(): number {
@@ -140,6 +323,10 @@ export class IndicatorField {
    */
   predict(qx: number, qy: number, out: Float64Array, exclude = -1): number {
     if (this.count === 0) { out.fill(NaN, 0, BOUNDARY_COUNT); return Infinity; }
+    if (this.method === 'kriging') {
+      this.krige(qx, qy, out, 0, 1, exclude, 0);
+      return this.nearestVisibleKm(qx, qy, exclude);
+    }
     const n = this.index.nearest(qx, qy, this.k, this.radiusKm, this.ids, this.d2, this.barrier, exclude);
     return this.accumulate(n, out, 0, 1);
   }
@@ -199,6 +386,24 @@ export class IndicatorField {
       if (faultDistKm === undefined) this.faultDistanceGrid(g, this.faultCapKm(g), fd);
     }
     const { ids, d2, k, radiusKm } = this;
+    if (this.method === 'kriging') {
+      for (let r = 0; r < H; r++) {
+        const qy = g.y0 + r * g.cellKm;
+        for (let c = 0; c < W; c++) {
+          const qx = g.x0 + c * g.cellKm;
+          const cell = r * W + c;
+          const far = fd !== null ? fd[cell] : Infinity;
+          this.krige(qx, qy, out, cell, N, -1, far);
+          if (fd !== null && !(far > 0)) this.barrierSearches++;
+          // Nearest visible sample: without the barrier test when the nearest sample is nearer than any fault.
+          const m = this.index.nearest(qx, qy, 1, radiusKm, this.nearIds, this.nearD2);
+          if (m === 0) { nearestKm[cell] = Infinity; continue; }
+          const d = Math.sqrt(this.nearD2[0]);
+          nearestKm[cell] = fd === null || fd[cell] > d ? d : this.nearestVisibleKm(qx, qy, -1);
+        }
+      }
+      return;
+    }
     for (let r = 0; r < H; r++) {
       const qy = g.y0 + r * g.cellKm;
       for (let c = 0; c < W; c++) {

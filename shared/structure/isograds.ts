@@ -1,6 +1,7 @@
 /**
- * Isograds from graded samples in the local km frame: the five indicator surfaces (indicator.ts) on a grid, each
- * surface's 0.5 contour traced into oriented lines (isolines.ts; higher grade on the right), clipped to where
+ * Isograds from graded samples in the local km frame: the five indicator surfaces (indicator.ts: indicator kriging
+ * by default) on a grid, each surface's 0.5 contour (the isograd) and its 0.1 and 0.9 contours (the band where it may
+ * lie) traced into oriented lines (isolines.ts; higher grade on the right), clipped to where
  * samples support them (cells farther than `supportKm` from the nearest visible sample are no data) and cut
  * where the grid edge between two cell centres crosses a fault (no line is drawn across or along a fault).
  * Closed loops around one or two samples that their neighbours contradict (leave-one-out misfits, misfits.ts)
@@ -8,7 +9,7 @@
  */
 import { InputError } from '../errors.ts';
 import { ZONE_NAMES } from '../petrology/index.ts';
-import { BOUNDARY_COUNT, IndicatorField, type LocalGrid } from './indicator.ts';
+import { BOUNDARY_COUNT, IndicatorField, pointSegmentDistance2, type LocalGrid } from './indicator.ts';
 import { traceIsolines } from './isolines.ts';
 import { leaveOneOut, type LeaveOneOut } from './misfits.ts';
 import type { SampleGrade } from './grade.ts';
@@ -18,7 +19,9 @@ export interface IsogradGridOptions {
   cellKm?: number;
   /** Grid size [columns, rows] instead of the data envelope (the cell is kept). */
   gridSize?: [number, number];
-  /** IDW power (default 2) and neighbours (default 12). */
+  /** 'kriging' (default: indicator kriging) or 'idw'. */
+  method?: 'kriging' | 'idw';
+  /** IDW power (default 2); neighbours (default 16 for kriging, 12 for IDW). */
   power?: number;
   neighbors?: number;
   /** Lines are drawn only where the nearest visible sample is within this distance, km (default: see `defaultSupportKm`). */
@@ -31,9 +34,17 @@ export interface IsogradGridOptions {
   maxCells?: number;
 }
 
+/** Probability levels traced for each isograd: the band's edges and the isograd itself. */
+export const ISOGRAD_PROBABILITIES = [0.1, 0.5, 0.9] as const;
+
 export interface IsogradLineKm {
   /** Rank of the zone the isograd opens (1 = biotite … 5 = sillimanite). */
   rank: number;
+  /** Probability level of the line: 0.5 is the isograd; 0.1 and 0.9 bound the band where it may lie. */
+  probability: number;
+  /** For a 0.5 line: the band's width (distance to the nearest 0.1 line plus to the nearest 0.9 line of the same
+   * isograd), km, at points about every 2 km along it (null where an edge of the band is not drawn within reach). */
+  bandWidthKm?: { alongKm: number[]; widthKm: (number | null)[]; median: number | null; min: number | null; max: number | null };
   mineral: string;
   /** e.g. "garnet-in". */
   isograd: string;
@@ -54,6 +65,8 @@ export interface IsogradResultKm {
   lines: IsogradLineKm[];
   loo: LeaveOneOut;
   droppedLoops: { isograd: string; samples: string[] }[];
+  /** Per isograd: decided samples whose side disagrees with their leave-one-out probability of lying at or above it. */
+  disagreeing: { isograd: string; samples: { id: string; index: number; says: 'at or above' | 'below'; probability: number }[] }[];
   warnings: string[];
   timingsMs: Record<string, number>;
 }
@@ -126,7 +139,7 @@ export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: read
   const cellKm = opts.cellKm ?? 1;
   if (!(cellKm > 0 && Number.isFinite(cellKm))) throw new InputError(`cell size must be > 0 km, got ${cellKm}`, [{ field: 'cell-km', problem: 'expected a positive number of km' }], 'bad_option');
   const lo = Int8Array.from(grades, (g) => g.lo), hi = Int8Array.from(grades, (g) => g.hi);
-  const field = new IndicatorField(x, y, lo, hi, { power: opts.power, neighbors: opts.neighbors, faults });
+  const field = new IndicatorField(x, y, lo, hi, { method: opts.method, power: opts.power, neighbors: opts.neighbors, faults });
   if (field.count < 2) throw new InputError(`isograds need at least two samples with zone information, got ${field.count}`, [{ field: 'samples', problem: 'give samples with a zone, a facies on the Barrovian sequence, or peak P–T' }], 'too_few_points');
   const supportKm = opts.supportKm ?? defaultSupportKm(field, cellKm);
   if (!(supportKm > 0)) throw new InputError(`support distance must be > 0 km, got ${supportKm}`, [{ field: 'support-km', problem: 'expected > 0' }], 'bad_option');
@@ -184,8 +197,8 @@ export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: read
   const lines: IsogradLineKm[] = [];
   const droppedLoops: { isograd: string; samples: string[] }[] = [];
   const dropLoops = opts.dropIsolatedLoops ?? true;
-  for (let j = 1; j <= BOUNDARY_COUNT; j++) {
-    const iso = traceIsolines(indicators, grid, 0.5, blocked, (j - 1) * N);
+  for (let j = 1; j <= BOUNDARY_COUNT; j++) for (const level of ISOGRAD_PROBABILITIES) {
+    const iso = traceIsolines(indicators, grid, level, blocked, (j - 1) * N);
     for (const l of iso) {
       if (l.closed && dropLoops) {
         // Samples inside the loop (bounding box first).
@@ -197,7 +210,7 @@ export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: read
           if (px >= bx0 && px <= bx1 && py >= by0 && py <= by1 && pointInRing(l.coords, px, py)) inside.push(i);
         }
         if (inside.length >= 1 && inside.length <= 2 && inside.every((i) => loo.contradicts(i, j))) {
-          droppedLoops.push({ isograd: isogradName(j), samples: inside.map((i) => grades[field.source[i]].id) });
+          if (level === 0.5) droppedLoops.push({ isograd: isogradName(j), samples: inside.map((i) => grades[field.source[i]].id) });
           continue;
         }
       }
@@ -207,12 +220,49 @@ export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: read
       const step = Math.max(1, Math.round(2 / cellKm)); // a vertex about every 2 km
       for (let t = 0; t < c.length / 2; t += step) { const k = countNear(c[2 * t], c[2 * t + 1]); sum += k; min = Math.min(min, k); nv++; }
       lines.push({
-        rank: j, mineral: ZONE_NAMES[j], isograd: isogradName(j), coords: c, closed: l.closed, lengthKm: lineLength(c),
+        rank: j, probability: level, mineral: ZONE_NAMES[j], isograd: isogradName(j), coords: c, closed: l.closed, lengthKm: lineLength(c),
         support: { radiusKm, samplesNearMidpoint: countNear(mx, my), meanSamplesPerVertex: nv > 0 ? sum / nv : 0, minSamplesPerVertex: nv > 0 ? min : 0 },
       });
     }
   }
+  // Band width along each 0.5 line: distance to the nearest 0.1 line plus to the nearest 0.9 line of the isograd.
+  const reach = 3 * supportKm;
+  for (const l of lines) {
+    if (l.probability !== 0.5) continue;
+    const edges = (p: number) => lines.filter((q) => q.rank === l.rank && q.probability === p);
+    const lowEdge = edges(0.1), highEdge = edges(0.9);
+    const dist = (px: number, py: number, set: IsogradLineKm[]) => {
+      let best = Infinity;
+      for (const q of set) for (let t = 2; t < q.coords.length; t += 2) best = Math.min(best, pointSegmentDistance2(px, py, q.coords[t - 2], q.coords[t - 1], q.coords[t], q.coords[t + 1]));
+      return Math.sqrt(best);
+    };
+    const alongKm: number[] = [], widthKm: (number | null)[] = [];
+    const c = l.coords;
+    let s0 = 0, next = 0;
+    for (let t = 0; t < c.length; t += 2) {
+      if (t > 0) s0 += Math.hypot(c[t] - c[t - 2], c[t + 1] - c[t - 1]);
+      if (s0 < next && t + 2 < c.length) continue;
+      next = s0 + 2;
+      const a = dist(c[t], c[t + 1], lowEdge), b = dist(c[t], c[t + 1], highEdge);
+      alongKm.push(Math.round(s0 * 100) / 100);
+      widthKm.push(a <= reach && b <= reach ? Math.round((a + b) * 100) / 100 : null);
+    }
+    const w = widthKm.filter((v): v is number => v !== null).sort((x, y) => x - y);
+    l.bandWidthKm = { alongKm, widthKm, median: w.length > 0 ? w[w.length >> 1] : null, min: w.length > 0 ? w[0] : null, max: w.length > 0 ? w[w.length - 1] : null };
+  }
+  // Samples that disagree with their isograd: leave-one-out probability on the other side of 0.5 from what they say.
+  const disagreeing: IsogradResultKm['disagreeing'] = [];
+  for (let j = 1; j <= BOUNDARY_COUNT; j++) {
+    const list: IsogradResultKm['disagreeing'][number]['samples'] = [];
+    for (let i = 0; i < field.count; i++) {
+      const v = loo.p[i * BOUNDARY_COUNT + j - 1];
+      if (Number.isNaN(v)) continue;
+      if (field.lo[i] >= j && v < 0.5) list.push({ id: grades[field.source[i]].id, index: field.source[i], says: 'at or above', probability: Math.round(v * 1000) / 1000 });
+      else if (field.hi[i] < j && v >= 0.5) list.push({ id: grades[field.source[i]].id, index: field.source[i], says: 'below', probability: Math.round(v * 1000) / 1000 });
+    }
+    disagreeing.push({ isograd: isogradName(j), samples: list });
+  }
   if (droppedLoops.length > 0) warnings.push(`${droppedLoops.length} closed loop(s) around single contradicted samples were not drawn (the samples are listed as misfits)`);
   const t4 = now();
-  return { grid, field, indicators, nearestKm, supportKm, lines, loo, droppedLoops, warnings, timingsMs: { setup: t1 - t0, indicatorGrids: t2 - t1, leaveOneOut: t3 - t2, lines: t4 - t3 } };
+  return { grid, field, indicators, nearestKm, supportKm, lines, loo, droppedLoops, disagreeing, warnings, timingsMs: { setup: t1 - t0, indicatorGrids: t2 - t1, leaveOneOut: t3 - t2, lines: t4 - t3 } };
 }

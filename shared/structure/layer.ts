@@ -47,6 +47,12 @@ export interface IsogradSummary {
   /** Samples decided at or above / below this isograd. */
   samplesAbove: number;
   samplesBelow: number;
+  /** Width of the 0.1–0.9 probability band along the isograd, km (over points every ~2 km), null when not drawn. */
+  bandWidthKm: { median: number; p10: number; p90: number; max: number } | null;
+  /** The indicator variogram used (kriging), null for IDW. */
+  variogram: { source: string; model: string; nugget: number; partialSill: number; rangeKm: number; samples: number } | null;
+  /** Samples whose recorded side disagrees with the isograd, with their leave-one-out probability of lying at or above it. */
+  disagreeing: { id: string; says: 'at or above' | 'below'; probability: number }[];
 }
 
 const rr = (v: number) => Math.round(v * 100) / 100;
@@ -150,7 +156,8 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
 
   const res = computeIsogradsKm(x, y, grades, pieces, opts);
   warnings.push(...res.warnings);
-  const misfits = findMisfits(res.field, res.loo, grades, res.lines, opts.misfitProbability);
+  const isoLines = res.lines.filter((l) => l.probability === 0.5);
+  const misfits = findMisfits(res.field, res.loo, grades, isoLines, opts.misfitProbability);
 
   const stationKm = opts.stationKm ?? Math.min(0.5, res.grid.cellKm / 2);
   const reports: FaultReport[] = traces.map((t, k) => {
@@ -175,7 +182,8 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
       type: 'Feature',
       geometry: { type: 'LineString', coordinates },
       properties: {
-        isograd: l.isograd, mineral: l.mineral, rank: l.rank, highSide: 'right', closed: l.closed, lengthKm: r3(l.lengthKm),
+        isograd: l.isograd, probability: l.probability, mineral: l.mineral, rank: l.rank, highSide: 'right', closed: l.closed, lengthKm: r3(l.lengthKm),
+        ...(l.bandWidthKm !== undefined ? { bandWidthKm: l.bandWidthKm } : {}),
         supportRadiusKm: l.support.radiusKm, samplesNearMidpoint: l.support.samplesNearMidpoint,
         meanSamplesPerVertex: r3(l.support.meanSamplesPerVertex), minSamplesPerVertex: l.support.minSamplesPerVertex,
       },
@@ -184,18 +192,28 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
 
   const isograds: IsogradSummary[] = [];
   for (let j = 1; j <= BOUNDARY_COUNT; j++) {
-    const ls = res.lines.filter((l) => l.rank === j);
+    const ls = isoLines.filter((l) => l.rank === j);
     let above = 0, below = 0;
     for (const g of grades) { if (g.lo < 0) continue; if (g.lo >= j) above++; else if (g.hi < j) below++; }
-    isograds.push({ isograd: `${ZONE_NAMES[j]}-in`, mineral: ZONE_NAMES[j], rank: j, lines: ls.length, lengthKm: r3(ls.reduce((s, l) => s + l.lengthKm, 0)), samplesAbove: above, samplesBelow: below });
+    const widths = ls.flatMap((l) => l.bandWidthKm?.widthKm ?? []).filter((v): v is number => v !== null).sort((a, b) => a - b);
+    const v = res.field.variograms[j - 1];
+    isograds.push({
+      isograd: `${ZONE_NAMES[j]}-in`, mineral: ZONE_NAMES[j], rank: j, lines: ls.length, lengthKm: r3(ls.reduce((s, l) => s + l.lengthKm, 0)), samplesAbove: above, samplesBelow: below,
+      bandWidthKm: widths.length > 0 ? { median: widths[widths.length >> 1], p10: widths[Math.floor(0.1 * (widths.length - 1))], p90: widths[Math.ceil(0.9 * (widths.length - 1))], max: widths[widths.length - 1] } : null,
+      variogram: v === null || v === undefined ? null : { source: v.source, model: v.model.model, nugget: r3(v.model.nugget), partialSill: r3(v.model.partialSill), rangeKm: r3(v.model.rangeKm), samples: v.samples },
+      disagreeing: res.disagreeing[j - 1].samples.map((q) => ({ id: q.id, says: q.says, probability: q.probability })),
+    });
   }
   const count = (s: string) => grades.filter((g) => g.source === s).length;
-  const power = opts.power ?? 2, neighbors = opts.neighbors ?? 12;
+  const kriging = (opts.method ?? 'kriging') === 'kriging';
+  const power = opts.power ?? 2, neighbors = opts.neighbors ?? (kriging ? 16 : 12);
   const report: IsogradReport = {
     isograds, faults: reports.map(faultSummary), misfits, paleoGradients: paleo,
     samples: grades.map((g) => { const o: IsogradReport['samples'][number] = { id: g.id, zone: g.label, source: g.source, series: g.series }; if (g.aluminosilicate !== undefined) o.aluminosilicate = g.aluminosilicate; return o; }),
     method: {
-      indicator: `indicator inverse-distance weighting (Shepard 1968), power ${power}, ${neighbors} nearest visible samples; isograd = 0.5 contour (marching squares)`,
+      indicator: kriging
+        ? `indicator kriging (Journel 1983): ordinary kriging of each isograd's indicator, ${neighbors} nearest visible samples, fitted spherical indicator variograms or the median-indicator one, order relations corrected; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`
+        : `indicator inverse-distance weighting (Shepard 1968), power ${power}, ${neighbors} nearest visible samples; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`,
       power, neighbors, cellKm: res.grid.cellKm, grid: { width: res.grid.width, height: res.grid.height }, supportKm: r3(res.supportKm),
       faultBarriers: pieces !== null, projection: proj.def, highSide: 'right',
       gradeRules: 'zone → its rank; facies only → ranks whose isograd midpoint temperature lies in the facies field\'s span; peak T–P only → ranks between the isograd temperature ranges certainly and possibly crossed; partial samples inform only the isograds they decide',

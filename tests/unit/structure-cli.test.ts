@@ -37,7 +37,8 @@ describe('subtherm isograds (child process)', () => {
     expect(geo.type).toBe('FeatureCollection');
     expect(geo.caution).toMatch(/Screening estimates only/);
     expect(geo.provenance.version).toMatch(/^\d+\.\d+\.\d+$/);
-    expect(geo.provenance.method).toMatch(/inverse-distance/);
+    expect(geo.provenance.method).toMatch(/indicator kriging/);
+    for (const f of geo.features) expect([0.1, 0.5, 0.9]).toContain(f.properties.probability);
     const sha = createHash('sha256').update(readFileSync('fixtures/demo/samples.geojson')).digest('hex');
     expect(geo.provenance.inputs.samples).toBe(sha);
     expect(geo.features.length).toBeGreaterThan(10);

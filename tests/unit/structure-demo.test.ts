@@ -1,7 +1,7 @@
 import { describe, it, expect, beforeAll } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { parseFeatureCollection, type SampleCollection, type FaultCollection } from '../../shared/schema/features.ts';
-import { isogradLayer, type IsogradLayer } from '../../shared/structure/index.ts';
+import { isogradLayer, computeIsogradsKm, sampleGrades, buildTrace, tracePieces, type IsogradLayer } from '../../shared/structure/index.ts';
 import { DOME, ZONE_IN_C, kmFromLonLat, truePeakTemperatureC } from '../../fixtures/field.ts';
 
 // The demo region's truth (fixtures/truth.json, fixtures/field.ts: invented data). 402 samples over an 85-km dome:
@@ -13,8 +13,8 @@ let Lp: IsogradLayer;
 beforeAll(() => {
   const s = parseFeatureCollection('samples', JSON.parse(readFileSync('fixtures/demo/samples.geojson', 'utf8'))).collection as SampleCollection;
   const f = parseFeatureCollection('faults', JSON.parse(readFileSync('fixtures/demo/faults.geojson', 'utf8'))).collection as FaultCollection;
-  L = isogradLayer(s, f, {});
   Lp = isogradLayer(s, f, { isogradDipDeg: truth.faults.find((q: { id: string }) => q.id === 'F1').builtInOffset.isogradDipDeg });
+  L = Lp;
 });
 
 describe('demo region: isograd positions', () => {
@@ -26,7 +26,7 @@ describe('demo region: isograd positions', () => {
     for (const [name, limit] of Object.entries(limits)) {
       const rank = ['biotite-in', 'garnet-in', 'staurolite-in', 'kyanite-in', 'sillimanite-in'].indexOf(name) + 1;
       const e: number[] = [];
-      for (const ft of L.lines.features.filter((q) => q.properties.isograd === name)) {
+      for (const ft of L.lines.features.filter((q) => q.properties.isograd === name && q.properties.probability === 0.5)) {
         for (const [lon, lat] of ft.geometry.coordinates) { const [x, y] = kmFromLonLat(lon, lat); e.push(Math.abs(truePeakTemperatureC(x, y) - ZONE_IN_C[rank]) / DOME.fallCPerKm); }
       }
       e.sort((a, b) => a - b);
@@ -35,20 +35,22 @@ describe('demo region: isograd positions', () => {
     }
     // The sillimanite-in isograd away from the faults: its mean radius from the dome centre against truth (10 km).
     const r: number[] = [];
-    for (const ft of L.lines.features.filter((q) => q.properties.isograd === 'sillimanite-in')) for (const [lon, lat] of ft.geometry.coordinates) { const [x, y] = kmFromLonLat(lon, lat); r.push(Math.hypot(x - DOME.xKm, y - DOME.yKm)); }
+    for (const ft of L.lines.features.filter((q) => q.properties.isograd === 'sillimanite-in' && q.properties.probability === 0.5)) for (const [lon, lat] of ft.geometry.coordinates) { const [x, y] = kmFromLonLat(lon, lat); r.push(Math.hypot(x - DOME.xKm, y - DOME.yKm)); }
     const mean = r.reduce((a, b) => a + b, 0) / r.length;
     expect(Math.abs(mean - truth.dome.isogradRadiiKm['sillimanite-in'])).toBeLessThan(2.5);
   });
 
-  it('lines carry mineral, rank, high side, support, and the export carries the caution', () => {
+  it('lines carry isograd, probability (0.1, 0.5, 0.9), mineral, rank, high side, support; the export carries the caution', () => {
     expect(L.lines.caution).toMatch(/Screening estimates only/);
     for (const f of L.lines.features) {
+      expect([0.1, 0.5, 0.9]).toContain(f.properties.probability);
+      expect(f.properties.isograd).toMatch(/-in$/);
       expect(f.properties.highSide).toBe('right');
       expect(Number.isInteger(f.properties.rank)).toBe(true);
       expect(f.properties.samplesNearMidpoint).toBeGreaterThanOrEqual(0);
     }
     // High side check on a sillimanite-in line: a point 1 km to the right of a segment is nearer the dome centre.
-    const line = L.lines.features.filter((q) => q.properties.isograd === 'sillimanite-in').sort((a, b) => b.geometry.coordinates.length - a.geometry.coordinates.length)[0];
+    const line = L.lines.features.filter((q) => q.properties.isograd === 'sillimanite-in' && q.properties.probability === 0.5).sort((a, b) => b.geometry.coordinates.length - a.geometry.coordinates.length)[0];
     const c = line.geometry.coordinates.map(([lon, lat]) => kmFromLonLat(lon, lat));
     let inwards = 0, total = 0;
     for (let i = 1; i < c.length; i++) {
@@ -139,6 +141,50 @@ describe('demo region: faults', () => {
       expect(fault(id).gradeJump).toBeNull();
       expect(fault(id).separations).toEqual([]);
     }
+  });
+});
+
+describe('demo region: probability bands', () => {
+  it('the 0.1 and 0.9 lines bracket the true isograds for at least 80 % of their sampled length', () => {
+    // The truth: fixtures/field.ts truePeakTemperatureC against ZONE_IN_C (the dome with both faults' offsets). Points
+    // on each true isograd where a 0.25-km lattice edge crosses it, weighted by 1/(|nx| + |ny|) (n the isograd's unit
+    // normal) so that the weights follow length; kept where samples support a line (nearest visible sample within
+    // the support distance). Bracketed: the kriged probability of lying at or above the isograd is within [0.1, 0.9].
+    const s = JSON.parse(readFileSync('fixtures/demo/samples.geojson', 'utf8'));
+    const fj = JSON.parse(readFileSync('fixtures/demo/faults.geojson', 'utf8'));
+    const xy = s.features.map((q: { geometry: { coordinates: [number, number] } }) => kmFromLonLat(q.geometry.coordinates[0], q.geometry.coordinates[1]));
+    const grades = sampleGrades(s.features.map((q: { properties: Record<string, unknown> }) => q.properties as { id: string }));
+    const traces = fj.features.map((q: { properties: { id: string }; geometry: { coordinates: [number, number][] } }) => buildTrace(q.properties.id, [q.geometry.coordinates.map(([lon, lat]) => kmFromLonLat(lon, lat))]).trace);
+    const r = computeIsogradsKm(Float64Array.from(xy, (p: number[]) => p[0]), Float64Array.from(xy, (p: number[]) => p[1]), grades, tracePieces(traces), {});
+    const out = new Float64Array(5);
+    const h = 0.25;
+    const fractions: number[] = [];
+    let pooledIn = 0, pooledAll = 0;
+    for (let j = 1; j <= 5; j++) {
+      let inside = 0, total = 0;
+      for (let x = DOME.xKm - 90; x < DOME.xKm + 90; x += h) for (let y = DOME.yKm - 90; y < DOME.yKm + 90; y += h) {
+        const t0 = truePeakTemperatureC(x, y) - ZONE_IN_C[j];
+        for (const [dx, dy] of [[h, 0], [0, h]]) {
+          const t1 = truePeakTemperatureC(x + dx, y + dy) - ZONE_IN_C[j];
+          if ((t0 < 0) === (t1 < 0)) continue;
+          const u = t0 / (t0 - t1);
+          const px = x + u * dx, py = y + u * dy;
+          const gx = truePeakTemperatureC(px + 0.01, py) - truePeakTemperatureC(px - 0.01, py), gy = truePeakTemperatureC(px, py + 0.01) - truePeakTemperatureC(px, py - 0.01);
+          const gl = Math.hypot(gx, gy);
+          if (!(gl > 0) || Math.abs(t1 - t0) > 50) continue; // a fault between the two lattice points, not the isograd
+          const w = 1 / (Math.abs(gx / gl) + Math.abs(gy / gl));
+          if (!(r.field.predict(px, py, out) <= r.supportKm)) continue;
+          total += w;
+          if (out[j - 1] >= 0.1 && out[j - 1] <= 0.9) inside += w;
+        }
+      }
+      fractions.push(inside / total);
+      pooledIn += inside; pooledAll += total;
+    }
+    const all = pooledIn / pooledAll;
+    console.log(`demo: fraction of the true isograds' length bracketed by the 0.1/0.9 lines: ${fractions.map((f) => f.toFixed(3)).join(', ')} (biotite-in … sillimanite-in); all together ${all.toFixed(3)}`);
+    expect(all).toBeGreaterThanOrEqual(0.8);
+    for (const f of fractions) expect(f).toBeGreaterThanOrEqual(0.75);
   });
 });
 
