@@ -2,6 +2,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { parseFeatureCollection, type DatasetKind } from '../shared/schema/features.ts';
 import type { Store } from './store/types.ts';
+import type { Grid } from '../shared/grid/grid.ts';
 import { modelFromJson } from './runs/model-input.ts';
 import { hashToken, newEditToken } from './security.ts';
 
@@ -62,6 +63,13 @@ export function loadDemo(store: Store): void {
     store.putDataset({ id: d.id, kind: d.kind, body, featureCount: parsed.collection.features.length, title: d.title });
   }
   loadDemoProject(store);
+}
+
+/** The demo DEM as the demo project's terrain, like any project's (kept if already there). */
+export function loadDemoTerrain(store: Store, dem: Grid<Float32Array>): void {
+  if (store.getProjectTerrain(DEMO_PROJECT_ID) !== null) return;
+  const { values, ...spec } = dem;
+  store.putProjectTerrain(DEMO_PROJECT_ID, values, { ...spec, crs: 'EPSG:4326', units: 'm', sourceCrs: 'EPSG:4326', sourceBytes: values.byteLength, name: 'Orrindel terrain' });
 }
 
 /** Creates the demo project holding the demo data sets under their names (kept if already there). */

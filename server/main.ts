@@ -5,7 +5,7 @@ import type { AddressInfo } from 'node:net';
 import { createApp } from './app.ts';
 import { SqliteStore } from './store/sqlite.ts';
 import { InputError } from '../shared/errors.ts';
-import { DEMO_TERRAIN, loadDemo } from './demo.ts';
+import { DEMO_TERRAIN, loadDemo, loadDemoTerrain } from './demo.ts';
 import { loadDem, TerrainTiles } from './terrain.ts';
 
 export const ROOT_DIR = new URL('..', import.meta.url).pathname;
@@ -66,7 +66,9 @@ export async function startServer(opts: ServerOptions) {
   const log = opts.log ?? ((l: string) => process.stdout.write(l + '\n'));
   if (opts.buildClient && !existsSync(join(CLIENT_DIST, 'index.html'))) await buildClient(log);
   const store = openStore(opts.dbPath);
-  const terrain = new TerrainTiles(await loadDem(DEMO_TERRAIN));
+  const dem = await loadDem(DEMO_TERRAIN);
+  loadDemoTerrain(store, dem);
+  const terrain = new TerrainTiles(dem);
   // The demo project's default run starts in the background unless SUBTHERM_DEMO_RUN=0.
   const demoRun = opts.demoRun ?? process.env.SUBTHERM_DEMO_RUN !== '0';
   const app = createApp({ store, terrain, clientDir: existsSync(join(CLIENT_DIST, 'index.html')) ? CLIENT_DIST : null, demoRun, publicBaseUrl: opts.publicBaseUrl });
