@@ -1,9 +1,52 @@
 /**
- * Data upload: a file picker and a drop zone for GeoJSON and CSV (sites, samples, faults). The server validates
- * the file; its report (which feature, which field, what is wrong) is shown as a table in the page.
+ * The data panel: the data sets the page shows and runs on (sites, samples, faults), and their upload: a file
+ * picker and a drop zone for GeoJSON and CSV. The server validates the file; its report (which feature, which
+ * field, what is wrong) is shown as a table in the page.
  */
-import { ApiError, uploadDataset, type DatasetCreated } from './api.ts';
+import type { GeoJSONSource } from 'maplibre-gl';
+import { ApiError, getJson, uploadDataset, type DatasetCreated } from './api.ts';
+import type { AppContext } from './context.ts';
 import { el, errorBox, problemTable, replace } from './dom.ts';
+import type { FeatureCollection } from './structure.ts';
+
+export type PointKind = 'sites' | 'samples' | 'faults';
+const EMPTY: FeatureCollection = { type: 'FeatureCollection', features: [] };
+
+/** The features of the data sets in use, fetched once per id; listeners hear of every change. */
+export class DataSets {
+  readonly current: Record<PointKind, FeatureCollection> = { sites: EMPTY, samples: EMPTY, faults: EMPTY };
+  private readonly listeners: ((kind: PointKind) => void)[] = [];
+
+  constructor(private readonly ctx: AppContext) {}
+
+  onChange(fn: (kind: PointKind) => void): void {
+    this.listeners.push(fn);
+  }
+
+  /** Loads data set `id` as `kind`: the map source shows it and the listeners hear of it. */
+  async load(kind: PointKind, id: string | undefined): Promise<void> {
+    if (id === undefined) return;
+    const url = `/api/datasets/${encodeURIComponent(id)}`;
+    this.current[kind] = await getJson<FeatureCollection>(url).catch(() => EMPTY);
+    (this.ctx.map.getSource(kind) as GeoJSONSource | undefined)?.setData(this.current[kind] as unknown as Parameters<GeoJSONSource['setData']>[0]);
+    for (const fn of this.listeners) fn(kind);
+  }
+}
+
+/** The data panel: uploads that become the data set of their kind in the page's run parameters. */
+export function dataPanel(ctx: AppContext, data: DataSets, onParams: () => void): UploadPanel {
+  const upload = uploadPanel((d) => {
+    const kind = d.kind as PointKind;
+    if (kind !== 'sites' && kind !== 'samples' && kind !== 'faults') return;
+    ctx.state.params = { ...ctx.state.params, [kind]: d.id };
+    onParams();
+    void data.load(kind, d.id);
+    ctx.syncUrl();
+  });
+  upload.root.prepend(el('h3', {}, 'Add data'));
+  if (ctx.readOnly) upload.setEnabled(false);
+  return upload;
+}
 
 export interface UploadPanel {
   root: HTMLElement;

@@ -86,134 +86,171 @@ function isoValue(v: ColumnAnswer['isothermDepthsKm'][string]): number | null {
   return v.p50;
 }
 
-/** Builds the plot and its readout. */
-export function columnPlot(c: ColumnAnswer): { plot: SVGSVGElement; readout: HTMLElement } {
-  const prof = c.profile.filter((p) => p.temperatureC !== null);
-  const maxDepth = c.profile.length > 0 ? c.profile[c.profile.length - 1].depthKm : 1;
-  const p90 = c.band?.temperatureC.p90.filter((v): v is number => v !== null) ?? [];
-  // The axis reaches past the dry peridotite solidus near the surface (about 1120 °C), so both solidus curves
-  // are always in view beside the geotherm.
-  const tTop = Math.max(1200, ...prof.map((p) => p.temperatureC!), ...p90);
-  const tMax = Math.ceil((tTop * 1.05) / 100) * 100;
-  const pw = W - M.left - M.right, ph = H - M.top - M.bottom;
-  const x = (t: number) => M.left + (t / tMax) * pw;
-  const y = (z: number) => M.top + (z / maxDepth) * ph;
-  const root = svg('svg', { viewBox: `0 0 ${W} ${H}`, width: W, height: H, class: 'column-plot', role: 'img', tabindex: 0, 'aria-label': 'Temperature against depth; use the up and down arrow keys to move the cursor' });
-  const clipId = `clip-${Math.random().toString(36).slice(2, 8)}`;
-  root.append(svg('defs', {}, svg('clipPath', { id: clipId }, svg('rect', { x: M.left, y: M.top, width: pw, height: ph }))));
-  const plotArea = svg('g', { 'clip-path': `url(#${clipId})` });
-  root.append(plotArea);
+/** Approximate width of a label in px at the plot's small font sizes (about 0.56 em per character). */
+function labelWidth(text: string, fontPx: number): number {
+  return text.length * fontPx * 0.56;
+}
 
-  // Facies fields in T–depth, through the profile's own pressure–depth relation; edges subdivided because a
-  // straight edge in P–T is only nearly straight in depth.
+/** Moves labels (sorted by y) apart so that no two overlap vertically; returns the new y of each, same order. */
+export function spreadLabels(ys: number[], gapPx: number, top: number, bottom: number): number[] {
+  const order = ys.map((y, i) => ({ y, i })).sort((p, q) => p.y - q.y);
+  const out = new Array<number>(ys.length);
+  let last = -Infinity;
+  for (const o of order) {
+    const y = Math.max(o.y, last + gapPx, top);
+    out[o.i] = y;
+    last = y;
+  }
+  // Pushed past the bottom: shift the whole stack up, keeping the spacing.
+  const over = Math.max(0, ...out.map((y) => y - bottom));
+  return out.map((y) => y - over);
+}
+
+interface PlotFrame {
+  pw: number;
+  ph: number;
+  tMax: number;
+  zMax: number;
+  x(t: number): number;
+  y(z: number): number;
+}
+
+/**
+ * The plotted window: depth down to the valid part of the column (to the first solidus crossing, where conduction
+ * alone stops describing the rock) or a little past the deepest isotherm asked for, whichever is deeper; the
+ * temperature axis spans the temperatures in that window and the isotherms asked for.
+ */
+export function plotWindow(c: ColumnAnswer): { zMax: number; tMax: number } {
+  const prof = c.profile.filter((p) => p.temperatureC !== null);
+  const full = prof.length > 0 ? prof[prof.length - 1].depthKm : 1;
+  const isoDepths = Object.values(c.isothermDepthsKm).map(isoValue).filter((z): z is number => z !== null && Number.isFinite(z));
+  const bandIso = Object.values(c.band?.isothermDepthsKm ?? {}).map((v) => v.p90).filter((z): z is number => z !== null && Number.isFinite(z));
+  const melt = c.solidusCrossingKm?.wetSolidus ?? c.solidusCrossingKm?.meltOnset ?? null;
+  const wanted = Math.max(10, ...isoDepths.map((z) => z * 1.3), ...bandIso.map((z) => z * 1.1), melt ?? 0);
+  const zMax = Math.min(full, isoDepths.length > 0 || melt !== null ? wanted : full);
+  const inWindow = (z: number) => z <= zMax + 1e-9;
+  const temps = prof.filter((p) => inWindow(p.depthKm)).map((p) => p.temperatureC!);
+  const p90 = (c.band?.depthKm ?? []).flatMap((z, i) => (inWindow(z) ? [c.band!.temperatureC.p90[i]] : [])).filter((v): v is number => v !== null);
+  const isoT = Object.keys(c.isothermDepthsKm).map(Number).filter(Number.isFinite);
+  const tTop = Math.max(100, ...temps, ...p90, ...isoT);
+  return { zMax, tMax: Math.ceil((tTop * 1.05) / 50) * 50 };
+}
+
+/** Facies fields in T–depth, through the profile's own pressure–depth relation (edges subdivided: a straight edge
+ * in P–T is only nearly straight in depth), each labelled inside the plot at the centre of its visible part. */
+function faciesFields(c: ColumnAnswer, f: PlotFrame): SVGGElement {
   const fields = svg('g', { class: 'facies-fields' });
-  for (const f of FACIES_FIELDS) {
+  for (const fa of FACIES_FIELDS) {
     const pts: string[] = [];
-    let sx = 0, sy = 0, n = 0;
-    for (let i = 0; i < f.polygon.length; i++) {
-      const [t0, p0] = f.polygon[i];
-      const [t1, p1] = f.polygon[(i + 1) % f.polygon.length];
+    for (let i = 0; i < fa.polygon.length; i++) {
+      const [t0, p0] = fa.polygon[i];
+      const [t1, p1] = fa.polygon[(i + 1) % fa.polygon.length];
       for (let k = 0; k < 8; k++) {
-        const t = t0 + ((t1 - t0) * k) / 8, p = p0 + ((p1 - p0) * k) / 8;
-        const z = depthAtPressure(c.profile, p);
-        if (!Number.isFinite(z)) continue;
-        pts.push(`${x(t).toFixed(1)},${y(z).toFixed(1)}`);
+        const z = depthAtPressure(c.profile, p0 + ((p1 - p0) * k) / 8);
+        if (Number.isFinite(z)) pts.push(`${f.x(t0 + ((t1 - t0) * k) / 8).toFixed(1)},${f.y(z).toFixed(1)}`);
       }
     }
     if (pts.length < 3) continue;
-    fields.append(svg('polygon', { points: pts.join(' '), fill: FACIES_TINTS[f.name] ?? '#eeeeee', stroke: '#ffffff', 'stroke-width': 1, 'data-facies': f.name }));
-    // Label at the centre of the visible part of the field.
-    for (const [t, p] of f.polygon) {
-      const z = depthAtPressure(c.profile, p);
-      const tc = Math.min(t, tMax), zc = Math.min(Math.max(z, 0), maxDepth);
-      if (Number.isFinite(zc)) {
-        sx += tc;
-        sy += zc;
-        n++;
-      }
+    fields.append(svg('polygon', { points: pts.join(' '), fill: FACIES_TINTS[fa.name] ?? '#eeeeee', stroke: '#ffffff', 'stroke-width': 1, 'data-facies': fa.name }));
+    let sx = 0, sy = 0, n = 0;
+    for (const [t, p] of fa.polygon) {
+      const zc = Math.min(Math.max(depthAtPressure(c.profile, p), 0), f.zMax);
+      if (!Number.isFinite(zc)) continue;
+      sx += Math.min(t, f.tMax);
+      sy += zc;
+      n++;
     }
-    if (n > 0 && sx / n < tMax * 0.97 && sy / n < maxDepth * 0.97) {
-      fields.append(svg('text', { x: x(sx / n), y: y(sy / n), class: 'facies-label', 'text-anchor': 'middle' }, f.name));
-    }
+    if (n === 0 || sx / n >= f.tMax * 0.97 || sy / n >= f.zMax * 0.97) continue;
+    const half = labelWidth(fa.name, 9) / 2 + 2;
+    const lx = Math.min(Math.max(f.x(sx / n), M.left + half), M.left + f.pw - half);
+    fields.append(svg('text', { x: lx, y: Math.max(f.y(sy / n), M.top + 10), class: 'facies-label', 'text-anchor': 'middle' }, fa.name));
   }
-  plotArea.append(fields);
+  return fields;
+}
 
-  // Solidus curves, T at the lithostatic pressure of each depth.
+/** Solidus curves (T at the lithostatic pressure of each depth), the P10–P90 band and the geotherm. */
+function curves(c: ColumnAnswer, f: PlotFrame): SVGElement[] {
+  const out: SVGElement[] = [];
   const solidus = (fn: (p: ColumnPoint) => number, cls: string, label: string) => {
-    const pts = c.profile.map((p) => [fn(p), p.depthKm] as const).filter(([t]) => Number.isFinite(t) && t <= tMax);
+    const pts = c.profile.map((p) => [fn(p), p.depthKm] as const).filter(([t, z]) => Number.isFinite(t) && t <= f.tMax && z <= f.zMax);
     if (pts.length < 2) return;
-    plotArea.append(svg('polyline', { points: pts.map(([t, z]) => `${x(t).toFixed(1)},${y(z).toFixed(1)}`).join(' '), class: `solidus ${cls}` }));
-    const [lt, lz] = pts[Math.floor(pts.length * 0.15)];
-    plotArea.append(svg('text', { x: x(lt) - 4, y: y(lz), class: `solidus-label ${cls}`, 'text-anchor': 'end' }, label));
+    out.push(svg('polyline', { points: pts.map(([t, z]) => `${f.x(t).toFixed(1)},${f.y(z).toFixed(1)}`).join(' '), class: `solidus ${cls}` }));
+    const [lt, lz] = pts[Math.floor(pts.length * 0.5)];
+    out.push(svg('text', { x: Math.max(f.x(lt) - 4, M.left + labelWidth(label, 9)), y: f.y(lz), class: `solidus-label ${cls}`, 'text-anchor': 'end' }, label));
   };
   solidus((p) => (p.pressureMPa === null ? NaN : wetGraniteSolidusC(p.pressureMPa / 100)), 'wet-granite', 'wet granite solidus');
   solidus((p) => (p.pressureMPa === null ? NaN : dryPeridotiteSolidusC(p.pressureMPa / 1000)), 'dry-peridotite', 'dry peridotite solidus');
-
-  // P10–P90 band.
   if (c.band && c.band.depthKm.length > 1) {
     const lo: string[] = [], hi: string[] = [];
     c.band.depthKm.forEach((z, i) => {
       const a = c.band!.temperatureC.p10[i], b = c.band!.temperatureC.p90[i];
       if (a === null || b === null) return;
-      lo.push(`${x(a).toFixed(1)},${y(z).toFixed(1)}`);
-      hi.unshift(`${x(b).toFixed(1)},${y(z).toFixed(1)}`);
+      lo.push(`${f.x(a).toFixed(1)},${f.y(z).toFixed(1)}`);
+      hi.unshift(`${f.x(b).toFixed(1)},${f.y(z).toFixed(1)}`);
     });
-    if (lo.length > 1) plotArea.append(svg('polygon', { points: [...lo, ...hi].join(' '), class: 'band' }));
+    if (lo.length > 1) out.push(svg('polygon', { points: [...lo, ...hi].join(' '), class: 'band' }));
   }
+  const prof = c.profile.filter((p) => p.temperatureC !== null);
+  out.push(svg('polyline', { points: prof.map((p) => `${f.x(p.temperatureC!).toFixed(1)},${f.y(p.depthKm).toFixed(1)}`).join(' '), class: 'geotherm' }));
+  return out;
+}
 
-  // Geotherm.
-  plotArea.append(svg('polyline', { points: prof.map((p) => `${x(p.temperatureC!).toFixed(1)},${y(p.depthKm).toFixed(1)}`).join(' '), class: 'geotherm' }));
+/** Isotherm depths: a mark, a dot and a label each; labels spread apart so that none overlaps another. */
+function isothermMarks(c: ColumnAnswer, f: PlotFrame): SVGElement[] {
+  const marks = Object.entries(c.isothermDepthsKm)
+    .map(([tc, v]) => ({ tc, t: Number(tc), z: isoValue(v) }))
+    .filter((m): m is { tc: string; t: number; z: number } => m.z !== null && Number.isFinite(m.z) && m.z <= f.zMax);
+  const ys = spreadLabels(marks.map((m) => f.y(m.z) - 4), 12, M.top + 10, M.top + f.ph - 4);
+  return marks.flatMap((m, i) => {
+    const right = f.x(m.t) < M.left + f.pw * 0.55;
+    return [
+      svg('line', { x1: M.left, x2: f.x(m.t), y1: f.y(m.z), y2: f.y(m.z), class: 'isotherm-mark' }),
+      svg('circle', { cx: f.x(m.t), cy: f.y(m.z), r: 3.5, class: 'isotherm-dot' }),
+      svg('text', { x: f.x(m.t) + (right ? 6 : -6), y: ys[i], class: 'isotherm-label', 'text-anchor': right ? 'start' : 'end' }, `${m.tc} °C at ${fmt(m.z, 1)} km`),
+    ];
+  });
+}
 
-  // Isotherm depths.
-  for (const [tc, v] of Object.entries(c.isothermDepthsKm)) {
-    const z = isoValue(v);
-    const t = Number(tc);
-    if (z === null || !Number.isFinite(z)) continue;
-    plotArea.append(svg('line', { x1: M.left, x2: x(t), y1: y(z), y2: y(z), class: 'isotherm-mark' }));
-    plotArea.append(svg('circle', { cx: x(t), cy: y(z), r: 3.5, class: 'isotherm-dot' }));
-    const right = x(t) < M.left + pw * 0.55;
-    plotArea.append(svg('text', { x: x(t) + (right ? 6 : -6), y: y(z) - 4, class: 'isotherm-label', 'text-anchor': right ? 'start' : 'end' }, `${tc} °C at ${fmt(z, 1)} km`));
-  }
-
-  // Axes: temperature on top, depth on the left, pressure (kbar) on the right.
-  const axes = svg('g', { class: 'axes' });
-  axes.append(svg('rect', { x: M.left, y: M.top, width: pw, height: ph, class: 'frame' }));
-  for (const t of niceTicks(0, tMax, 5)) {
-    axes.append(svg('line', { x1: x(t), x2: x(t), y1: M.top, y2: M.top - 4 }), svg('text', { x: x(t), y: M.top - 7, 'text-anchor': 'middle' }, String(t)));
-  }
-  axes.append(svg('text', { x: M.left + pw / 2, y: 11, 'text-anchor': 'middle', class: 'axis-title' }, 'temperature (°C)'));
-  for (const z of niceTicks(0, maxDepth, 6)) {
-    axes.append(svg('line', { x1: M.left, x2: M.left - 4, y1: y(z), y2: y(z) }), svg('text', { x: M.left - 7, y: y(z) + 4, 'text-anchor': 'end' }, String(z)));
-  }
-  axes.append(svg('text', { x: 12, y: M.top + ph / 2, transform: `rotate(-90 12 ${M.top + ph / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'depth (km)'));
-  const pMax = (c.profile[c.profile.length - 1]?.pressureMPa ?? 0) / 100;
+/** Axes: temperature on top, depth on the left, lithostatic pressure (kbar) on the right. */
+function axes(c: ColumnAnswer, f: PlotFrame, full: number): SVGGElement {
+  const g = svg('g', { class: 'axes' });
+  g.append(svg('rect', { x: M.left, y: M.top, width: f.pw, height: f.ph, class: 'frame' }));
+  for (const t of niceTicks(0, f.tMax, 5)) g.append(svg('line', { x1: f.x(t), x2: f.x(t), y1: M.top, y2: M.top - 4 }), svg('text', { x: f.x(t), y: M.top - 7, 'text-anchor': 'middle' }, String(t)));
+  g.append(svg('text', { x: M.left + f.pw / 2, y: 11, 'text-anchor': 'middle', class: 'axis-title' }, 'temperature (°C)'));
+  for (const z of niceTicks(0, f.zMax, 6)) g.append(svg('line', { x1: M.left, x2: M.left - 4, y1: f.y(z), y2: f.y(z) }), svg('text', { x: M.left - 7, y: f.y(z) + 4, 'text-anchor': 'end' }, String(z)));
+  g.append(svg('text', { x: 12, y: M.top + f.ph / 2, transform: `rotate(-90 12 ${M.top + f.ph / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'depth (km)'));
+  const pMax = (profileAt(c.profile, f.zMax)?.pressureMPa ?? 0) / 100;
   for (const p of niceTicks(0, pMax, 6)) {
     const z = depthAtPressure(c.profile, p);
-    if (!Number.isFinite(z) || z > maxDepth) continue;
-    axes.append(svg('line', { x1: M.left + pw, x2: M.left + pw + 4, y1: y(z), y2: y(z) }), svg('text', { x: M.left + pw + 7, y: y(z) + 4 }, String(p)));
+    if (!Number.isFinite(z) || z > f.zMax) continue;
+    g.append(svg('line', { x1: M.left + f.pw, x2: M.left + f.pw + 4, y1: f.y(z), y2: f.y(z) }), svg('text', { x: M.left + f.pw + 7, y: f.y(z) + 4 }, String(p)));
   }
   const rx = W - 8;
-  axes.append(svg('text', { x: rx, y: M.top + ph / 2, transform: `rotate(90 ${rx} ${M.top + ph / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'lithostatic pressure (kbar)'));
-  axes.append(svg('text', { x: M.left + 4, y: H - 20, class: 'note-text' }, 'facies fields approximate (gradational ±50 °C, ±1.5 kbar)'));
-  root.append(axes);
+  g.append(svg('text', { x: rx, y: M.top + f.ph / 2, transform: `rotate(90 ${rx} ${M.top + f.ph / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'lithostatic pressure (kbar)'));
+  g.append(svg('text', { x: M.left + 4, y: H - 20, class: 'note-text' }, 'facies fields approximate (gradational ±50 °C, ±1.5 kbar)'));
+  if (f.zMax < full - 1e-9) g.append(svg('text', { x: M.left + 4, y: H - 8, class: 'note-text', id: 'column-window-note' }, `shown to ${fmt(f.zMax, 0)} km of the ${fmt(full, 0)} km column (readout and table cover all)`));
+  return g;
+}
 
-  // Cursor and readout.
+/** The cursor line and dot, and the readout they feed (pointer or ↑ ↓ keys). */
+function cursorReadout(root: SVGSVGElement, c: ColumnAnswer, f: PlotFrame): HTMLElement {
   const cursor = svg('g', { class: 'cursor', visibility: 'hidden' });
-  const hline = svg('line', { x1: M.left, x2: M.left + pw, class: 'cursor-line' });
+  const hline = svg('line', { x1: M.left, x2: M.left + f.pw, class: 'cursor-line' });
   const dot = svg('circle', { r: 4, class: 'cursor-dot' });
   cursor.append(hline, dot);
   root.append(cursor);
   const readout = el('p', { class: 'readout', 'aria-live': 'polite' }, 'Move the pointer over the plot (or focus it and use ↑ ↓) to read values.');
+  const maxDepth = c.profile.length > 0 ? c.profile[c.profile.length - 1].depthKm : 1;
   let cursorDepth = 0;
   const show = (z: number) => {
     cursorDepth = Math.max(0, Math.min(maxDepth, z));
     const p = profileAt(c.profile, cursorDepth);
     if (!p) return;
-    cursor.setAttribute('visibility', 'visible');
-    hline.setAttribute('y1', String(y(cursorDepth)));
-    hline.setAttribute('y2', String(y(cursorDepth)));
-    dot.setAttribute('cx', String(x(p.temperatureC ?? 0)));
-    dot.setAttribute('cy', String(y(cursorDepth)));
+    const visible = cursorDepth <= f.zMax;
+    cursor.setAttribute('visibility', visible ? 'visible' : 'hidden');
+    for (const [k, v] of [['y1', f.y(cursorDepth)], ['y2', f.y(cursorDepth)]] as const) hline.setAttribute(k, String(v));
+    dot.setAttribute('cx', String(f.x(p.temperatureC ?? 0)));
+    dot.setAttribute('cy', String(f.y(cursorDepth)));
     readout.textContent = `${fmt(cursorDepth, 1)} km · ${fmt(p.temperatureC, 0)} °C · ${fmt((p.pressureMPa ?? NaN) / 100, 2)} kbar · ${fmt(p.heatFlowMWm2, 1)} mW/m²${p.facies ? ` · ${p.facies} (approximate)` : ''}`;
     readout.dataset.depthKm = String(cursorDepth);
     readout.dataset.temperatureC = String(p.temperatureC ?? '');
@@ -221,17 +258,30 @@ export function columnPlot(c: ColumnAnswer): { plot: SVGSVGElement; readout: HTM
   root.addEventListener('mousemove', (ev) => {
     const r = root.getBoundingClientRect();
     const sy = ((ev.clientY - r.top) / r.height) * H;
-    if (sy < M.top || sy > M.top + ph) return;
-    show(((sy - M.top) / ph) * maxDepth);
+    if (sy >= M.top && sy <= M.top + f.ph) show(((sy - M.top) / f.ph) * f.zMax);
   });
   root.addEventListener('keydown', (ev) => {
     const step = ev.shiftKey ? 5 : 1;
-    if (ev.key === 'ArrowDown') show(cursorDepth + step);
-    else if (ev.key === 'ArrowUp') show(cursorDepth - step);
-    else return;
+    if (ev.key !== 'ArrowDown' && ev.key !== 'ArrowUp') return;
+    show(cursorDepth + (ev.key === 'ArrowDown' ? step : -step));
     ev.preventDefault();
   });
-  return { plot: root, readout };
+  return readout;
+}
+
+/** Builds the plot and its readout. */
+export function columnPlot(c: ColumnAnswer): { plot: SVGSVGElement; readout: HTMLElement } {
+  const { zMax, tMax } = plotWindow(c);
+  const full = c.profile.length > 0 ? c.profile[c.profile.length - 1].depthKm : 1;
+  const pw = W - M.left - M.right, ph = H - M.top - M.bottom;
+  const f: PlotFrame = { pw, ph, tMax, zMax, x: (t) => M.left + (t / tMax) * pw, y: (z) => M.top + (z / zMax) * ph };
+  const root = svg('svg', { viewBox: `0 0 ${W} ${H}`, width: W, height: H, class: 'column-plot', role: 'img', tabindex: 0, 'aria-label': 'Temperature against depth; use the up and down arrow keys to move the cursor' });
+  const clipId = `clip-${Math.random().toString(36).slice(2, 8)}`;
+  root.append(svg('defs', {}, svg('clipPath', { id: clipId }, svg('rect', { x: M.left, y: M.top, width: pw, height: ph }))));
+  const plotArea = svg('g', { 'clip-path': `url(#${clipId})` });
+  plotArea.append(faciesFields(c, f), ...curves(c, f), ...isothermMarks(c, f));
+  root.append(plotArea, axes(c, f, full));
+  return { plot: root, readout: cursorReadout(root, c, f) };
 }
 
 /** The summary table under the plot: heat flow at the surface and at the base, isotherm depths, solidus. */

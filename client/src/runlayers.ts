@@ -92,6 +92,19 @@ export async function tileInfo(runId: string, layer: RunLayer): Promise<TileInfo
   return { ...info, tiles: info.tiles.map(abs) };
 }
 
+/** Tile descriptions by run and layer: fetched once, all of a run's at once when it is shown. */
+const tileInfos = new Map<string, Promise<TileInfo>>();
+function cachedTileInfo(runId: string, layer: RunLayer): Promise<TileInfo> {
+  const key = `${runId}/${layer.name}`;
+  let p = tileInfos.get(key);
+  if (!p) {
+    p = tileInfo(runId, layer);
+    p.catch(() => tileInfos.delete(key));
+    tileInfos.set(key, p);
+  }
+  return p;
+}
+
 function downloads(runId: string, layer: RunLayer): HTMLElement {
   const label: Record<string, string> = { tif: 'GeoTIFF', geojson: 'GeoJSON', csv: 'CSV', png: 'PNG' };
   return el(
@@ -225,112 +238,110 @@ export interface ShownRun {
   depthsKm: number[];
 }
 
+type ShowOptions = { depthKm: number | null; onDepth: (d: number) => void; onError: (msg: string) => void };
+
+/** No tile service for run layers on this server: place the run's own coloured PNG of the whole grid by its
+ * corners. MapLibre interpolates an image linearly in Web Mercator, so a lon/lat grid is placed within a fraction
+ * of a cell over a region of a few degrees; colours are the server's legend. False when that is impossible. */
+function drawPngFallback(map: MapLibreMap, run: RunState, layer: RunLayer, id: string): boolean {
+  const grid = run.summary?.grid as { west: number; north: number; dx: number; dy: number; width: number; height: number; crs: string } | undefined;
+  if (!(layer.formats.includes('png') && grid?.crs === 'EPSG:4326')) return false;
+  const e0 = grid.west + grid.dx * grid.width, s0 = grid.north - grid.dy * grid.height;
+  map.addSource(`${id}-src`, { type: 'image', url: new URL(layerUrl(run.id, layer, 'png'), window.location.origin).href, coordinates: [[grid.west, grid.north], [e0, grid.north], [e0, s0], [grid.west, s0]] });
+  map.addLayer({ id, type: 'raster', source: `${id}-src`, metadata: { runLayer: layer.name, fallback: 'png' }, paint: { 'raster-resampling': 'nearest', 'raster-fade-duration': 0 } }, rasterBefore(map));
+  return true;
+}
+
+/** A raster run layer as raster-dem tiles coloured by a color-relief layer from its legend (or the PNG fallback). */
+async function drawRaster(map: MapLibreMap, run: RunState, layer: RunLayer, id: string, legendBox: HTMLElement): Promise<void> {
+  let t: TileInfo;
+  try {
+    t = await cachedTileInfo(run.id, layer);
+  } catch (e) {
+    if (!(e instanceof ApiError && e.status === 404) || !drawPngFallback(map, run, layer, id)) throw e;
+    legendBox.replaceChildren(legendFromSpec(layer.legend, layer.units));
+    return;
+  }
+  map.addSource(`${id}-src`, { type: 'raster-dem', tiles: t.tiles, bounds: t.bounds, minzoom: t.minzoom ?? 0, maxzoom: t.maxzoom ?? 12, tileSize: t.tileSize ?? 256, encoding: 'custom', redFactor: t.redFactor, greenFactor: t.greenFactor, blueFactor: t.blueFactor, baseShift: t.baseShift });
+  const legend = layer.legend;
+  const noLegend = ['interpolate', ['linear'], ['elevation'], t.noDataValue, 'rgba(0,0,0,0)', t.noDataValue + Math.abs(t.blueFactor || 1), '#888888'] as unknown as ExpressionSpecification;
+  map.addLayer({ id, type: 'color-relief', source: `${id}-src`, metadata: { runLayer: layer.name }, paint: { 'color-relief-color': legend ? colorReliefExpression(legend, t) : noLegend } }, rasterBefore(map));
+  legendBox.replaceChildren(legendFromSpec(legend, layer.units));
+  if (legend?.type === 'ramp') {
+    legendBox.append(
+      rangeControl(id, legend, layer.units, (range) => {
+        // A new range is a new colour expression over the same tiles: nothing is fetched again.
+        map.setPaintProperty(id, 'color-relief-color', colorReliefExpression(legend, t, range));
+        legendBox.firstElementChild?.replaceWith(legendFromSpec(legend, layer.units, range));
+      }),
+    );
+  }
+}
+
+/** A vector run layer from its .geojson file; returns the MapLibre layer ids it drew. */
+function drawVector(map: MapLibreMap, run: RunState, layer: RunLayer, id: string, legendBox: HTMLElement): string[] {
+  map.addSource(`${id}-src`, { type: 'geojson', data: new URL(layerUrl(run.id, layer, 'geojson'), window.location.origin).href });
+  const specs = vectorLayers(id, `${id}-src`, layer);
+  for (const s of specs) map.addLayer({ ...s, metadata: { runLayer: layer.name } } as LayerSpecification, vectorBefore(map, layer));
+  const name = layer.name.toLowerCase();
+  legendBox.replaceChildren(name.includes('isograd') ? isogradLegend() : name.includes('resid') || name.startsWith('cv') ? residualLegend(layer.units) : layer.legend ? legendFromSpec(layer.legend, layer.units) : el('p', { class: 'note' }, layer.units ? `Labels in ${/contour/.test(name) && /depth/.test(name) ? 'km' : layer.units}` : ''));
+  return specs.map((s) => s.id);
+}
+
+/** One group's panel entry (with its depth chooser when depth-indexed) and its layer on the map. */
+async function showGroup(map: MapLibreMap, panel: LayerPanel, run: RunState, g: RunLayerGroup, visible: boolean, opts: ShowOptions): Promise<void> {
+  const id = `run-${g.key.replace(/[^A-Za-z0-9_-]/g, '_')}`;
+  const first = g.layers[0].layer;
+  const depthIndexed = g.layers[0].depthKm !== null;
+  const pick = () => {
+    if (!depthIndexed) return g.layers[0];
+    const want = opts.depthKm ?? g.layers[0].depthKm!;
+    return g.layers.reduce((best, l) => (Math.abs(l.depthKm! - want) < Math.abs(best.depthKm! - want) ? l : best));
+  };
+  const legendBox = el('div', { class: 'legend-box' });
+  const extraBox = el('div', {});
+  const entry: LayerEntry = { id, label: depthIndexed ? g.title : first.title, layers: [], legend: legendBox, extra: extraBox, group: 'run', defaultOpacity: first.kind === 'raster' ? 0.85 : 1, defaultVisible: visible };
+  const draw = async (choice: { depthKm: number | null; layer: RunLayer }) => {
+    removeMapLayers(map, id);
+    if (choice.layer.kind === 'raster') {
+      await drawRaster(map, run, choice.layer, id, legendBox);
+      entry.layers = [id];
+    } else entry.layers = drawVector(map, run, choice.layer, id, legendBox);
+    extraBox.replaceChildren(downloads(run.id, choice.layer));
+    panel.apply(id);
+  };
+  if (depthIndexed) {
+    const sel = el('select', { id: `depth-${id}`, 'aria-label': `${g.title}: depth`, class: 'depth-select' }, ...g.layers.map((l) => el('option', { value: String(l.depthKm) }, `${l.depthKm} km`)));
+    sel.value = String(pick().depthKm);
+    sel.addEventListener('change', () => {
+      const d = Number(sel.value);
+      opts.onDepth(d);
+      const c = g.layers.find((l) => l.depthKm === d);
+      if (c) draw(c).catch((e: unknown) => opts.onError(e instanceof Error ? e.message : String(e)));
+    });
+    entry.control = el('div', { class: 'depth-row' }, el('label', { for: sel.id, class: 'muted' }, 'depth'), sel);
+  }
+  panel.add(entry);
+  try {
+    await draw(pick());
+  } catch (e) {
+    opts.onError(`${g.title}: ${e instanceof Error ? e.message : String(e)}`);
+  }
+}
+
 /**
  * Puts a run's layers on the map and in the panel. `depthKm` picks the depth of depth-indexed groups (the nearest
  * available). Returns what it showed; raster tile descriptions that fail are reported through onError.
  */
-export async function showRunLayers(map: MapLibreMap, panel: LayerPanel, run: RunState, opts: { depthKm: number | null; onDepth: (d: number) => void; onError: (msg: string) => void }): Promise<ShownRun> {
+export async function showRunLayers(map: MapLibreMap, panel: LayerPanel, run: RunState, opts: ShowOptions): Promise<ShownRun> {
   for (const l of map.getStyle().layers) if (l.id.startsWith('run-')) map.removeLayer(l.id);
   for (const s of Object.keys(map.getStyle().sources)) if (s.startsWith('run-')) map.removeSource(s);
   panel.clearRun();
   const groups = groupRunLayers(run.layers ?? []);
   const depths = [...new Set(groups.flatMap((g) => g.layers.map((l) => l.depthKm)).filter((d): d is number => d !== null))].sort((a, b) => a - b);
+  // Every raster's tile description is asked for at once; the groups then draw in order from the answers.
+  for (const l of run.layers ?? []) if (l.kind === 'raster') void cachedTileInfo(run.id, l).catch(() => undefined);
   const firstDepthContour = groups.find((g) => /^depth-[\d.]+C\.contours$/.test(g.key))?.key;
-  for (const g of groups) {
-    const id = `run-${g.key.replace(/[^A-Za-z0-9_-]/g, '_')}`;
-    const first = g.layers[0].layer;
-    const depthIndexed = g.layers[0].depthKm !== null;
-    const pick = () => {
-      if (!depthIndexed) return g.layers[0];
-      const want = opts.depthKm ?? g.layers[0].depthKm!;
-      return g.layers.reduce((best, l) => (Math.abs(l.depthKm! - want) < Math.abs(best.depthKm! - want) ? l : best));
-    };
-    const legendBox = el('div', { class: 'legend-box' });
-    const extraBox = el('div', {});
-    const entry: LayerEntry = { id, label: g.title, layers: [], legend: legendBox, extra: extraBox, group: 'run', defaultOpacity: first.kind === 'raster' ? 0.85 : 1, defaultVisible: /^heat-?flow$/i.test(g.key) || g.key === firstDepthContour || /isograd/.test(g.key) };
-    const draw = async (choice: { depthKm: number | null; layer: RunLayer }) => {
-      const layer = choice.layer;
-      removeMapLayers(map, id);
-      const source = `${id}-src`;
-      if (layer.kind === 'raster') {
-        let t: TileInfo;
-        try {
-          t = await tileInfo(run.id, layer);
-        } catch (e) {
-          const grid = run.summary?.grid as { west: number; north: number; dx: number; dy: number; width: number; height: number; crs: string } | undefined;
-          if (!(e instanceof ApiError && e.status === 404 && layer.formats.includes('png') && grid?.crs === 'EPSG:4326')) throw e;
-          // No tile service for run layers on this server: place the run's own coloured PNG of the whole grid by
-          // its corners. MapLibre interpolates an image linearly in Web Mercator, so a lon/lat grid is placed
-          // within a fraction of a cell over a region of a few degrees; colours are the server's legend.
-          const e0 = grid.west + grid.dx * grid.width, s0 = grid.north - grid.dy * grid.height;
-          map.addSource(source, { type: 'image', url: new URL(layerUrl(run.id, layer, 'png'), window.location.origin).href, coordinates: [[grid.west, grid.north], [e0, grid.north], [e0, s0], [grid.west, s0]] });
-          map.addLayer({ id, type: 'raster', source, metadata: { runLayer: layer.name, fallback: 'png' }, paint: { 'raster-resampling': 'nearest', 'raster-fade-duration': 0 } }, rasterBefore(map));
-          entry.layers = [id];
-          legendBox.replaceChildren(legendFromSpec(layer.legend, layer.units));
-          extraBox.replaceChildren(downloads(run.id, layer));
-          panel.apply(id);
-          return;
-        }
-        map.addSource(source, {
-          type: 'raster-dem',
-          tiles: t.tiles,
-          bounds: t.bounds,
-          minzoom: t.minzoom ?? 0,
-          maxzoom: t.maxzoom ?? 12,
-          tileSize: t.tileSize ?? 256,
-          encoding: 'custom',
-          redFactor: t.redFactor,
-          greenFactor: t.greenFactor,
-          blueFactor: t.blueFactor,
-          baseShift: t.baseShift,
-        });
-        const legend = layer.legend;
-        map.addLayer(
-          {
-            id,
-            type: 'color-relief',
-            source,
-            metadata: { runLayer: layer.name },
-            paint: { 'color-relief-color': legend ? colorReliefExpression(legend, t) : (['interpolate', ['linear'], ['elevation'], t.noDataValue, 'rgba(0,0,0,0)', t.noDataValue + Math.abs(t.blueFactor || 1), '#888888'] as unknown as ExpressionSpecification) },
-          },
-          rasterBefore(map),
-        );
-        entry.layers = [id];
-        legendBox.replaceChildren(legendFromSpec(legend, layer.units));
-        if (legend?.type === 'ramp') legendBox.append(rangeControl(id, legend, layer.units, (range) => {
-          // A new range is a new colour expression over the same tiles: nothing is fetched again.
-          map.setPaintProperty(id, 'color-relief-color', colorReliefExpression(legend, t, range));
-          legendBox.firstElementChild?.replaceWith(legendFromSpec(legend, layer.units, range));
-        }));
-      } else {
-        map.addSource(source, { type: 'geojson', data: new URL(layerUrl(run.id, layer, 'geojson'), window.location.origin).href });
-        const specs = vectorLayers(id, source, layer);
-        for (const s of specs) map.addLayer({ ...s, metadata: { runLayer: layer.name } } as LayerSpecification, vectorBefore(map, layer));
-        entry.layers = specs.map((s) => s.id);
-        const name = layer.name.toLowerCase();
-        legendBox.replaceChildren(name.includes('isograd') ? isogradLegend() : name.includes('resid') || name.startsWith('cv') ? residualLegend(layer.units) : layer.legend ? legendFromSpec(layer.legend, layer.units) : el('p', { class: 'note' }, layer.units ? `Labels in ${/contour/.test(name) && /depth/.test(name) ? 'km' : layer.units}` : ''));
-      }
-      extraBox.replaceChildren(downloads(run.id, layer));
-      panel.apply(id);
-    };
-    if (depthIndexed) {
-      const sel = el('select', { id: `depth-${id}`, 'aria-label': `${g.title}: depth`, class: 'depth-select' }, ...g.layers.map((l) => el('option', { value: String(l.depthKm) }, `${l.depthKm} km`)));
-      sel.value = String(pick().depthKm);
-      sel.addEventListener('change', () => {
-        const d = Number(sel.value);
-        opts.onDepth(d);
-        const c = g.layers.find((l) => l.depthKm === d);
-        if (c) draw(c).catch((e: unknown) => opts.onError(e instanceof Error ? e.message : String(e)));
-      });
-      entry.control = el('div', { class: 'depth-row' }, el('label', { for: sel.id, class: 'muted' }, 'depth'), sel);
-    }
-    entry.label = depthIndexed ? g.title : first.title;
-    panel.add(entry);
-    try {
-      await draw(pick());
-    } catch (e) {
-      opts.onError(`${g.title}: ${e instanceof Error ? e.message : String(e)}`);
-    }
-  }
+  for (const g of groups) await showGroup(map, panel, run, g, /^heat-?flow$/i.test(g.key) || g.key === firstDepthContour || /isograd/.test(g.key), opts);
   return { run, groups, depthsKm: depths };
 }

@@ -4,6 +4,7 @@
  * report assigns to it, else the samples within a distance of its trace.
  */
 import type { Map as MapLibreMap } from 'maplibre-gl';
+import { pointSegmentDistance2 } from '../../shared/grid/segment.ts';
 import { el, fmt, replace } from './dom.ts';
 
 type Feature = { type: 'Feature'; id?: string | number; properties: Record<string, unknown> | null; geometry: { type: string; coordinates: unknown } | null };
@@ -19,19 +20,15 @@ function lines(g: Feature['geometry']): number[][][] {
   return [];
 }
 
-/** Distance from a point to a polyline, km, in a local equirectangular frame (adequate over a few km). */
+/** Distance from a point to a polyline, km, in a local equirectangular frame (adequate over a few km); the segment
+ * distance is shared/grid/segment.ts's. */
 export function distanceToLineKm(p: number[], line: number[][]): number {
   const kx = KM_PER_DEG * Math.cos((p[1] * Math.PI) / 180), ky = KM_PER_DEG;
   let best = Infinity;
   for (let i = 1; i < line.length; i++) {
-    const ax = (line[i - 1][0] - p[0]) * kx, ay = (line[i - 1][1] - p[1]) * ky;
-    const bx = (line[i][0] - p[0]) * kx, by = (line[i][1] - p[1]) * ky;
-    const dx = bx - ax, dy = by - ay;
-    const l2 = dx * dx + dy * dy;
-    const t = l2 > 0 ? Math.max(0, Math.min(1, -(ax * dx + ay * dy) / l2)) : 0;
-    best = Math.min(best, Math.hypot(ax + t * dx, ay + t * dy));
+    best = Math.min(best, pointSegmentDistance2(0, 0, (line[i - 1][0] - p[0]) * kx, (line[i - 1][1] - p[1]) * ky, (line[i][0] - p[0]) * kx, (line[i][1] - p[1]) * ky));
   }
-  return best;
+  return Math.sqrt(best);
 }
 
 function lengthKm(ls: number[][][]): number {

@@ -1,4 +1,4 @@
-import type { StyleSpecification, ExpressionSpecification } from 'maplibre-gl';
+import type { StyleSpecification, ExpressionSpecification, LayerSpecification } from 'maplibre-gl';
 import { EMBER, ZONE_COLORS, FAULT_STYLE, rampStops } from '../../shared/grid/ramps.ts';
 import type { AppConfig, TileInfo } from './api.ts';
 import type { Legend } from '../../shared/schema/run.ts';
@@ -21,47 +21,9 @@ function faultProp<K extends 'color' | 'width'>(key: K, fallback: string | numbe
   return ['match', ['get', 'kind'], ...pairs, fallback] as unknown as ExpressionSpecification;
 }
 
-/**
- * The map's own style: no outside sources, no glyph server (labels use the browser's fonts), terrain as raster-dem
- * tiles from our server.
- */
-export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
-  const ds = cfg.demo.datasets;
-  const url = (id: string) => `${origin}/api/datasets/${encodeURIComponent(id)}`;
-  const style: StyleSpecification = {
-    version: 8,
-    name: 'subtherm',
-    sources: {
-      outline: { type: 'geojson', data: url(ds.regions) },
-      'sea-mask': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
-      faults: { type: 'geojson', data: url(ds.faults) },
-      samples: { type: 'geojson', data: url(ds.samples) },
-      sites: { type: 'geojson', data: url(ds.sites) },
-      'section-line': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
-    },
-    layers: [
-      { id: 'sea', type: 'background', paint: { 'background-color': '#dfe6ea' } },
-      { id: 'land', type: 'fill', source: 'outline', paint: { 'fill-color': '#f1ede4' } },
-    ],
-  };
-  if (cfg.terrain) {
-    style.sources.terrain = {
-      type: 'raster-dem',
-      tiles: [origin + cfg.terrain.tiles],
-      tileSize: cfg.terrain.tileSize,
-      bounds: cfg.terrain.bounds,
-      minzoom: cfg.terrain.minzoom,
-      maxzoom: cfg.terrain.maxzoom,
-      encoding: cfg.terrain.encoding,
-    };
-    style.layers.push({
-      id: 'hillshade',
-      type: 'hillshade',
-      source: 'terrain',
-      paint: { 'hillshade-exaggeration': 0.85, 'hillshade-shadow-color': '#4a4540', 'hillshade-highlight-color': '#ffffff', 'hillshade-accent-color': '#8a8276' },
-    });
-  }
-  style.layers.push(
+/** The layers over the base: the sea mask and coast, the data (faults, samples, sites) and the section line. */
+function overlayLayers(): LayerSpecification[] {
+  return [
     // The sea is drawn over the relief so the shaded sea floor never shows through.
     { id: 'sea-mask', type: 'fill', source: 'sea-mask', paint: { 'fill-color': '#dfe6ea' } },
     { id: 'coast', type: 'line', source: 'outline', paint: { 'line-color': '#6c7f8c', 'line-width': 1.2 } },
@@ -137,7 +99,50 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
       filter: ['==', ['geometry-type'], 'Point'],
       paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': '#111111', 'circle-stroke-width': 2 },
     },
-  );
+  ];
+}
+
+/**
+ * The map's own style: no outside sources, no glyph server (labels use the browser's fonts), terrain as raster-dem
+ * tiles from our server.
+ */
+export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
+  const ds = cfg.demo.datasets;
+  const url = (id: string) => `${origin}/api/datasets/${encodeURIComponent(id)}`;
+  const style: StyleSpecification = {
+    version: 8,
+    name: 'subtherm',
+    sources: {
+      outline: { type: 'geojson', data: url(ds.regions) },
+      'sea-mask': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
+      faults: { type: 'geojson', data: url(ds.faults) },
+      samples: { type: 'geojson', data: url(ds.samples) },
+      sites: { type: 'geojson', data: url(ds.sites) },
+      'section-line': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
+    },
+    layers: [
+      { id: 'sea', type: 'background', paint: { 'background-color': '#dfe6ea' } },
+      { id: 'land', type: 'fill', source: 'outline', paint: { 'fill-color': '#f1ede4' } },
+    ],
+  };
+  if (cfg.terrain) {
+    style.sources.terrain = {
+      type: 'raster-dem',
+      tiles: [origin + cfg.terrain.tiles],
+      tileSize: cfg.terrain.tileSize,
+      bounds: cfg.terrain.bounds,
+      minzoom: cfg.terrain.minzoom,
+      maxzoom: cfg.terrain.maxzoom,
+      encoding: cfg.terrain.encoding,
+    };
+    style.layers.push({
+      id: 'hillshade',
+      type: 'hillshade',
+      source: 'terrain',
+      paint: { 'hillshade-exaggeration': 0.85, 'hillshade-shadow-color': '#4a4540', 'hillshade-highlight-color': '#ffffff', 'hillshade-accent-color': '#8a8276' },
+    });
+  }
+  style.layers.push(...overlayLayers());
   return style;
 }
 

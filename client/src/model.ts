@@ -1,0 +1,224 @@
+/**
+ * The thermal-model editor: surface values and the layer table, units in the headers, validated as you type with
+ * the same schema the server uses (shared/schema/model.ts); each problem is shown beside its field.
+ * A cell takes a number, or a distribution as JSON (e.g. {"dist":"normal","mean":3,"sd":0.3}); empty = absent.
+ * The model's name is editable: it travels into the run's reports and exports.
+ */
+import { isInputError } from '../../shared/errors.ts';
+import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
+import { el, replace } from './dom.ts';
+
+const COLUMNS: { key: string; label: string; units: string; optional: boolean }[] = [
+  { key: 'name', label: 'Layer', units: '', optional: true },
+  { key: 'bottomKm', label: 'Bottom', units: 'km', optional: false },
+  { key: 'conductivityWmK', label: 'k₀', units: 'W/m/K', optional: false },
+  { key: 'conductivityTempCoeffPerK', label: 'b in k₀/(1+bT)', units: '1/K', optional: true },
+  { key: 'heatProductionUWm3', label: 'Heat production', units: 'µW/m³', optional: true },
+  { key: 'heatProductionDecayKm', label: 'Decay depth', units: 'km', optional: true },
+  { key: 'densityKgM3', label: 'Density', units: 'kg/m³', optional: true },
+];
+
+function toText(v: unknown): string {
+  if (v === undefined || v === null) return '';
+  if (typeof v === 'number' || typeof v === 'string') return String(v);
+  return JSON.stringify(v);
+}
+
+/** A cell's text as a model value: empty → absent, a number, a JSON distribution, or the raw text (then invalid). */
+function fromText(s: string, key: string): unknown {
+  const t = s.trim();
+  if (t === '') return undefined;
+  if (key === 'name') return s;
+  if (t.startsWith('{')) {
+    try {
+      return JSON.parse(t);
+    } catch {
+      return t;
+    }
+  }
+  const n = Number(t);
+  return t !== '' && Number.isFinite(n) ? n : t;
+}
+
+export interface ModelEditor {
+  root: HTMLElement;
+  /** The current model when valid, else null. */
+  value(): ThermalModelInput | null;
+  set(model: ThermalModelInput): void;
+  setEnabled(on: boolean): void;
+}
+
+interface Fields {
+  name: HTMLInputElement;
+  surfaceT: HTMLInputElement;
+  surfaceQ: HTMLInputElement;
+  errT: HTMLElement;
+  errQ: HTMLElement;
+  tbody: HTMLTableSectionElement;
+}
+
+function rowInputs(tbody: HTMLTableSectionElement): HTMLInputElement[][] {
+  return [...tbody.querySelectorAll('tr')].map((tr) => [...tr.querySelectorAll('input')] as HTMLInputElement[]);
+}
+
+/** The model the fields describe (unknown keys of the loaded model and its layers carried through). */
+function buildModel(f: Fields, top: Record<string, unknown>, extras: Record<string, unknown>[]): Record<string, unknown> {
+  const layers = rowInputs(f.tbody).map((inputs, i) => {
+    const l: Record<string, unknown> = { ...(extras[i] ?? {}) };
+    COLUMNS.forEach((c, j) => {
+      const v = fromText(inputs[j].value, c.key);
+      if (v === undefined) delete l[c.key];
+      else l[c.key] = v;
+    });
+    return l;
+  });
+  const m: Record<string, unknown> = { ...top, layers };
+  const put = (key: string, v: unknown) => {
+    if (v === undefined) delete m[key];
+    else m[key] = v;
+  };
+  put('name', f.name.value.trim() === '' ? undefined : f.name.value.trim());
+  put('surfaceTemperatureC', fromText(f.surfaceT.value, 'surfaceTemperatureC'));
+  put('surfaceHeatFlowMWm2', fromText(f.surfaceQ.value, 'surfaceHeatFlowMWm2'));
+  return m;
+}
+
+/** Marks each problem beside its field; returns how many had no field to sit beside. */
+function placeProblems(f: Fields, details: readonly { feature?: unknown; field?: unknown; problem: string }[]): number {
+  let unplaced = 0;
+  for (const d of details) {
+    const m = /^layers\[(\d+)\]/.exec(String(d.feature ?? ''));
+    const field = String(d.field ?? '').split(/[.,\s]/)[0];
+    let target: { input: HTMLInputElement; err: Element } | null = null;
+    if (m) {
+      const j = COLUMNS.findIndex((c) => c.key === field);
+      const inputs = rowInputs(f.tbody)[Number(m[1])];
+      if (inputs) {
+        const input = inputs[j >= 0 ? j : 0];
+        target = { input, err: input.parentElement!.querySelector('.field-error')! };
+      }
+    } else if (field === 'surfaceTemperatureC') target = { input: f.surfaceT, err: f.errT };
+    else if (field === 'surfaceHeatFlowMWm2') target = { input: f.surfaceQ, err: f.errQ };
+    if (target) {
+      target.input.setAttribute('aria-invalid', 'true');
+      target.err.textContent = target.err.textContent ? `${target.err.textContent}; ${d.problem}` : d.problem;
+    } else unplaced++;
+  }
+  return unplaced;
+}
+
+function layout(f: Fields, addBtn: HTMLButtonElement, status: HTMLElement): HTMLElement {
+  return el(
+    'div',
+    { id: 'model-editor' },
+    el('div', { class: 'field-row' }, el('label', { for: f.name.id }, 'Model name'), f.name),
+    el('div', { class: 'field-row' }, el('label', { for: f.surfaceT.id }, 'Surface temperature (°C)'), el('span', { class: 'cell' }, f.surfaceT, f.errT)),
+    el('div', { class: 'field-row' }, el('label', { for: f.surfaceQ.id }, 'Surface heat flow where no grid (mW/m²)'), el('span', { class: 'cell' }, f.surfaceQ, f.errQ)),
+    el(
+      'div',
+      { class: 'table-scroll' },
+      el(
+        'table',
+        { class: 'model-table' },
+        el('thead', {}, el('tr', {}, ...COLUMNS.map((c) => el('th', { scope: 'col' }, c.label, c.units ? el('br') : null, c.units ? el('span', { class: 'unit' }, `(${c.units})`) : null)), el('th', {}, ''))),
+        f.tbody,
+      ),
+    ),
+    el('div', { class: 'field-row' }, addBtn),
+    status,
+    el('p', { class: 'note' }, 'A cell takes a number or a distribution as JSON, e.g. {"dist":"normal","mean":3,"sd":0.3}. The name travels into reports and exports.'),
+  );
+}
+
+/** One editable row of the layer table. */
+function layerRow(layer: Record<string, unknown>, i: number, enabled: boolean, onInput: () => void, onRemove: () => void): HTMLTableRowElement {
+  const tr = el('tr', {});
+  COLUMNS.forEach((c) => {
+    const input = el('input', { class: c.key === 'name' ? 'text' : 'num', 'aria-label': `layer ${i + 1} ${c.label}${c.units ? ` (${c.units})` : ''}`, 'data-field': c.key });
+    input.value = toText(layer[c.key]);
+    input.disabled = !enabled;
+    input.addEventListener('input', onInput);
+    tr.append(el('td', {}, input, el('span', { class: 'field-error' })));
+  });
+  const del = el('button', { type: 'button', class: 'icon', 'aria-label': `remove layer ${i + 1}`, title: 'remove layer' }, '×');
+  del.disabled = !enabled;
+  del.addEventListener('click', onRemove);
+  tr.append(el('td', {}, del));
+  return tr;
+}
+
+export function modelEditor(initial: ThermalModelInput, onValid: (m: ThermalModelInput | null) => void): ModelEditor {
+  let extras: Record<string, unknown>[] = [];
+  let top: Record<string, unknown> = {};
+  let current: ThermalModelInput | null = null;
+  let enabled = true;
+  const f: Fields = {
+    name: el('input', { id: 'model-name', class: 'text', maxlength: '200' }),
+    surfaceT: el('input', { id: 'model-surfaceTemperatureC', class: 'num', inputmode: 'decimal', 'aria-describedby': 'err-model-surfaceTemperatureC' }),
+    surfaceQ: el('input', { id: 'model-surfaceHeatFlowMWm2', class: 'num', inputmode: 'decimal', 'aria-describedby': 'err-model-surfaceHeatFlowMWm2' }),
+    errT: el('span', { class: 'field-error', id: 'err-model-surfaceTemperatureC' }),
+    errQ: el('span', { class: 'field-error', id: 'err-model-surfaceHeatFlowMWm2' }),
+    tbody: el('tbody', {}),
+  };
+  const status = el('p', { class: 'model-status', id: 'model-status', 'aria-live': 'polite' });
+  const addBtn = el('button', { type: 'button', id: 'model-add-layer' }, 'Add layer');
+
+  const validate = () => {
+    for (const e of document.querySelectorAll('#model-editor .field-error')) e.textContent = '';
+    for (const i of document.querySelectorAll('#model-editor input[aria-invalid]')) i.removeAttribute('aria-invalid');
+    try {
+      current = parseThermalModel(buildModel(f, top, extras), 'model');
+      status.textContent = `Valid: ${current.layers.length} layer${current.layers.length === 1 ? '' : 's'} to ${current.layers[current.layers.length - 1].bottomKm} km.`;
+      status.className = 'model-status ok-text';
+    } catch (e) {
+      current = null;
+      if (!isInputError(e)) throw e;
+      const unplaced = placeProblems(f, e.details);
+      status.textContent = `${e.details.length} problem${e.details.length === 1 ? '' : 's'}${unplaced > 0 ? `: ${e.message}` : ' — see the marked fields.'}`;
+      status.className = 'model-status error-text';
+    }
+    onValid(current);
+  };
+
+  const addRow = (layer: Record<string, unknown>) => {
+    const tr = layerRow(layer, f.tbody.children.length, enabled, validate, () => {
+      extras.splice([...f.tbody.children].indexOf(tr), 1);
+      tr.remove();
+      validate();
+    });
+    f.tbody.append(tr);
+  };
+
+  const set = (model: ThermalModelInput) => {
+    const { layers, surfaceTemperatureC, surfaceHeatFlowMWm2, name, ...rest } = model as ThermalModelInput & Record<string, unknown>;
+    top = rest;
+    f.name.value = name ?? '';
+    f.surfaceT.value = toText(surfaceTemperatureC);
+    f.surfaceQ.value = toText(surfaceHeatFlowMWm2);
+    extras = layers.map((l) => Object.fromEntries(Object.entries(l).filter(([k]) => !COLUMNS.some((c) => c.key === k))));
+    replace(f.tbody);
+    for (const l of layers) addRow(l as Record<string, unknown>);
+    validate();
+  };
+
+  addBtn.addEventListener('click', () => {
+    const rows = rowInputs(f.tbody);
+    const last = rows.length > 0 ? Number(rows[rows.length - 1][1].value) : 0;
+    extras.push({});
+    addRow({ name: `layer ${rows.length + 1}`, bottomKm: Number.isFinite(last) ? last + 10 : 10, conductivityWmK: 2.5, heatProductionUWm3: 0.5, densityKgM3: 2900 });
+    validate();
+  });
+  for (const i of [f.name, f.surfaceT, f.surfaceQ]) i.addEventListener('input', validate);
+
+  const root = layout(f, addBtn, status);
+  set(initial);
+  return {
+    root,
+    value: () => current,
+    set,
+    setEnabled(on: boolean) {
+      enabled = on;
+      for (const i of root.querySelectorAll('input, button')) (i as HTMLInputElement).disabled = !on;
+    },
+  };
+}

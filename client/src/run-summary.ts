@@ -1,0 +1,68 @@
+/**
+ * What a finished run reports beside its layers: the fitted variogram with its empirical semivariances, and the
+ * leave-one-out cross-validation summary.
+ */
+import { semivariance, type VariogramModel } from '../../shared/interp/variogram.ts';
+import type { CrossValidation, RunState, Variogram } from './api.ts';
+import { el, fmt, niceTicks, svg } from './dom.ts';
+
+/** The variogram and cross-validation blocks of a run summary (whatever of them the run has). */
+export function runSummary(run: RunState): HTMLElement[] {
+  const out: HTMLElement[] = [];
+  const interp = run.summary?.interpolation as { variogram?: Variogram | null } | undefined;
+  const v = run.summary?.variogram ?? interp?.variogram ?? null;
+  if (v) out.push(el('h3', {}, 'Variogram'), variogramPlot(v));
+  const cv = run.summary?.crossValidation;
+  if (cv) out.push(el('h3', {}, 'Cross-validation (leave one out)'), cvTable(cv));
+  for (const w of run.warnings ?? []) out.push(el('p', { class: 'note warning' }, String(w)));
+  return out;
+}
+
+/** γ(h) of the fitted model (shared/interp/variogram.ts, practical-range convention, DESIGN.md §3); NaN for a
+ * model name the client does not know. */
+export function variogramModel(v: Variogram, h: number): number {
+  if (v.model !== 'exponential' && v.model !== 'gaussian' && v.model !== 'spherical') return NaN;
+  return semivariance(v as VariogramModel, h);
+}
+
+export function variogramPlot(v: Variogram): HTMLElement {
+  const W = 340, H = 220, M = { l: 48, r: 12, t: 14, b: 36 };
+  const emp = v.empirical ?? [];
+  // The lag axis spans the empirical lags (the fit's evidence) with a margin; without them, 1.3 × the range. A range
+  // far beyond the lags (a trend in the data) then runs off the plot instead of squeezing the points into a corner.
+  const maxLag = emp.length > 0 ? Math.max(...emp.map((e) => e.lagKm)) : 0;
+  const hMax = (maxLag > 0 ? maxLag * 1.15 : v.rangeKm * 1.3) || 1;
+  const gAtMax = variogramModel(v, hMax);
+  const gMax = Math.max(Number.isFinite(gAtMax) ? gAtMax : v.nugget + v.partialSill, ...emp.map((e) => e.gamma)) * 1.1 || 1;
+  const x = (h: number) => M.l + (h / hMax) * (W - M.l - M.r);
+  const y = (g: number) => H - M.b - (g / gMax) * (H - M.t - M.b);
+  const root = svg('svg', { viewBox: `0 0 ${W} ${H}`, width: W, height: H, class: 'variogram-plot', role: 'img', 'aria-label': `variogram: ${v.model} model, nugget ${fmt(v.nugget, 2)}, partial sill ${fmt(v.partialSill, 2)}, range ${fmt(v.rangeKm, 1)} km` });
+  root.append(svg('rect', { x: M.l, y: M.t, width: W - M.l - M.r, height: H - M.t - M.b, class: 'frame' }));
+  for (const h of niceTicks(0, hMax, 5)) root.append(svg('text', { x: x(h), y: H - M.b + 14, 'text-anchor': 'middle' }, String(h)));
+  for (const g of niceTicks(0, gMax, 4)) root.append(svg('text', { x: M.l - 5, y: y(g) + 4, 'text-anchor': 'end' }, String(g)));
+  root.append(svg('text', { x: M.l + (W - M.l - M.r) / 2, y: H - 6, 'text-anchor': 'middle', class: 'axis-title' }, 'lag (km)'));
+  root.append(svg('text', { x: 11, y: H / 2, transform: `rotate(-90 11 ${H / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'semivariance γ'));
+  const pts: string[] = [];
+  for (let i = 0; i <= 80; i++) {
+    const h = (hMax * i) / 80;
+    const g = variogramModel(v, h);
+    if (Number.isFinite(g)) pts.push(`${x(h).toFixed(1)},${y(g).toFixed(1)}`);
+  }
+  root.append(svg('polyline', { points: pts.join(' '), class: 'vg-model' }));
+  const maxPairs = Math.max(1, ...emp.map((e) => e.pairs));
+  for (const e of emp) root.append(svg('circle', { cx: x(e.lagKm), cy: y(e.gamma), r: 2 + 3 * Math.sqrt(e.pairs / maxPairs), class: 'vg-point' }, svg('title', {}, `${fmt(e.lagKm, 1)} km: γ ${fmt(e.gamma, 2)} (${e.pairs} pairs)`)));
+  const caption = el('p', { class: 'note' }, `${v.model} model: nugget ${fmt(v.nugget, 2)}, partial sill ${fmt(v.partialSill, 2)}, practical range ${fmt(v.rangeKm, 1)} km. ${emp.length > 0 ? 'Dots: empirical semivariance (size ∝ √pairs).' : 'The run reports no empirical semivariances: the fitted model only.'}`);
+  return el('figure', { class: 'variogram' }, root, caption);
+}
+
+function cvTable(cv: CrossValidation): HTMLElement {
+  const rows: [string, string][] = [
+    ['Mean error', fmt(cv.meanError, 2)],
+    ['RMSE', fmt(cv.rmse, 2)],
+    ['Mean standardized error', fmt(cv.meanStandardizedError, 3)],
+    ['Mean squared deviation ratio', fmt(cv.msdr ?? cv.meanSquaredDeviationRatio, 3)],
+  ];
+  if (typeof cv.n === 'number') rows.push(['Points', String(cv.n)]);
+  const filled = rows.filter(([, v]) => v !== '—');
+  return el('table', { class: 'kv', id: 'cv-summary' }, el('tbody', {}, ...filled.map(([k, v]) => el('tr', {}, el('th', { scope: 'row' }, k), el('td', { class: 'num' }, v)))));
+}
