@@ -171,7 +171,7 @@ describe('the map client: data, run, inspector, section', () => {
     const href = await page.locator('[data-layer="run-depth-300C"] a[data-format="tif"]').getAttribute('href');
     expect(href).toBe(`/api/runs/${run.id}/layers/depth-300C.tif`);
     await shot('3-run-done');
-  });
+  }, 240_000);
 
   it('the structure tab shows the run\'s isograd and fault report; isograds draw with high-side ticks', async () => {
     const run = await page.evaluate(() => window.subtherm!.run!.run);
