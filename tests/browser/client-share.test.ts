@@ -87,7 +87,7 @@ describe('the map client: sharing and export', () => {
     expect(before.heatFlow).toBe('none');
     expect(before.depth300).toBe('visible');
     await page.screenshot({ path: join(SCREENSHOT_DIR, 'client-share-1-saved.png') });
-  });
+  }, 240_000);
 
   it('the view link restores the same map in a fresh browser, read-only, with the title as text', async () => {
     const v = await open(viewUrl);
