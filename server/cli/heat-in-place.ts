@@ -210,6 +210,7 @@ export async function heatInPlace(argv: string[]): Promise<number> {
     zones,
     centresLonLat: geo.centresLonLat,
     metresPerUnit: geo.metresPerUnit,
+    toLonLat: geo.toLonLat,
     options,
     inputHashes: hashes,
   });

@@ -9,7 +9,7 @@ import { gridCentresLonLat, polygonsOf, type AreaGeometry, type HeatInPlaceResul
 import { densityPng, renderReportHtml } from './report-html.ts';
 
 /** Everything the assessment needs beyond the grids and options: projected-grid centres and units. */
-export async function gridGeometry(grid: Grid<Float32Array | Float64Array>, needCentres: boolean): Promise<{ centresLonLat?: { lon: Float64Array; lat: Float64Array }; metresPerUnit: number; toGrid?: (lon: number, lat: number) => [number, number] }> {
+export async function gridGeometry(grid: Grid<Float32Array | Float64Array>, needCentres: boolean): Promise<{ centresLonLat?: { lon: Float64Array; lat: Float64Array }; metresPerUnit: number; toGrid?: (lon: number, lat: number) => [number, number]; toLonLat?: (x: number, y: number) => [number, number] }> {
   if (isLonLatCrs(grid.crs)) return { metresPerUnit: 1 };
   const def = await loadCrsDefinition(grid.crs);
   const conv = converter(def, WGS84_DEF);
@@ -17,6 +17,7 @@ export async function gridGeometry(grid: Grid<Float32Array | Float64Array>, need
   return {
     metresPerUnit: metresPerUnit(def),
     centresLonLat: needCentres ? gridCentresLonLat(grid, (x, y) => conv.forward([x, y])) : undefined,
+    toLonLat: (x, y) => conv.forward([x, y]),
     toGrid: (lon, lat) => {
       p[0] = lon;
       p[1] = lat;

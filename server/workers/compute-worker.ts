@@ -133,6 +133,7 @@ async function heatInPlace(t: HeatInPlaceTask): Promise<HeatInPlaceOutput> {
     zones,
     centresLonLat: geo.centresLonLat,
     metresPerUnit: geo.metresPerUnit,
+    toLonLat: geo.toLonLat,
     options,
     inputHashes: { run: t.runId },
   });

@@ -1,6 +1,7 @@
 import proj4 from 'proj4';
 import { InputError } from '../errors.ts';
 import type { GridSpec } from '../grid/grid.ts';
+import { groundStepKm } from '../geodesy/cell-area.ts';
 
 /**
  * Coordinate work of the interpolation engine. Input is WGS84 longitude/latitude (degrees); every distance is
@@ -144,9 +145,10 @@ export interface OutputGridOptions {
  * The output grid (DESIGN.md §3): lon/lat by default with bbox W,S,E,N in degrees and `cellKm` converted to
  * degrees at the centre latitude (dx = cellKm / km-per-degree-longitude, dy = cellKm / km-per-degree-latitude);
  * with a projected CRS the bbox is the envelope of the lon/lat bbox's boundary in that CRS and `cellKm` is converted
- * to the CRS unit. The west and north edges are kept; the grid extends east and south to whole cells.
+ * to the CRS unit with the projection's ground scale at the grid's centre (so cells are cellKm across on the ground
+ * there); `groundCellKmRange` is the smallest and largest ground cell side over the grid's corners and centre. The west and north edges are kept; the grid extends east and south to whole cells.
  */
-export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<number>, opts: OutputGridOptions = {}): GridSpec & { cellKm: number } {
+export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<number>, opts: OutputGridOptions = {}): GridSpec & { cellKm: number; groundCellKmRange: [number, number] } {
   const crs = opts.crs ?? 'EPSG:4326';
   const def = opts.crsDef ?? WGS84_DEF;
   let bbox = opts.bbox;
@@ -166,6 +168,7 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
     throw new InputError(`bbox must be W,S,E,N in degrees with W < E and S < N, got ${bbox.join(',')}`, [{ field: 'bbox', problem: 'expected west,south,east,north within ±180/±90' }], 'bad_option');
   }
   const midLat = (S + N) / 2;
+  let groundRange: ((dxUnits: number, dyUnits: number) => [number, number]) | null = null;
   let west: number, north: number, spanX: number, spanY: number, kmPerUnitX: number, kmPerUnitY: number;
   if (def === WGS84_DEF) {
     west = W; north = N; spanX = E - W; spanY = N - S;
@@ -184,7 +187,22 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
       }
     }
     west = x0; north = y1; spanX = x1 - x0; spanY = y1 - y0;
-    kmPerUnitX = kmPerUnitY = metresPerUnit(def) / 1000;
+    // Ground km per CRS unit at the grid's centre (the projection's scale there, e.g. cos φ in Web Mercator), so a
+    // cell of cellKm is cellKm across on the ground at the centre.
+    const inv = (x: number, y: number): [number, number] => c.inverse([x, y]) as [number, number];
+    const h = 0.5 * (spanX + spanY) * 1e-4;
+    const g = groundStepKm(inv, (x0 + x1) / 2, (y0 + y1) / 2, h, h);
+    kmPerUnitX = g.xKm / h;
+    kmPerUnitY = g.yKm / h;
+    groundRange = (dxU, dyU) => {
+      let lo = Infinity, hi = -Infinity;
+      for (const [x, y] of [[x0, y0], [x0, y1], [x1, y0], [x1, y1], [(x0 + x1) / 2, (y0 + y1) / 2]]) {
+        const s = groundStepKm(inv, x, y, dxU, dyU);
+        lo = Math.min(lo, s.xKm, s.yKm);
+        hi = Math.max(hi, s.xKm, s.yKm);
+      }
+      return [lo, hi];
+    };
   }
   let width: number, height: number, dx: number, dy: number, cellKm: number;
   if (opts.size !== undefined) {
@@ -201,7 +219,16 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
     width = Math.max(1, Math.ceil(spanX / dx - 1e-9));
     height = Math.max(1, Math.ceil(spanY / dy - 1e-9));
   }
-  return { width, height, west, north, dx, dy, crs, cellKm };
+  // Ground cell size: exact at the centre by construction; its range over the grid's corners says where it varies.
+  let groundCellKmRange: [number, number];
+  if (groundRange !== null) {
+    groundCellKmRange = (groundRange as (a: number, b: number) => [number, number])(dx, dy);
+  } else {
+    const kN = kmPerDegree(N), kS = kmPerDegree(S), kM = kmPerDegree(midLat);
+    const xs = [kN.lon * dx, kS.lon * dx, kM.lon * dx], ys = [kN.lat * dy, kS.lat * dy, kM.lat * dy];
+    groundCellKmRange = [Math.min(...xs, ...ys), Math.max(...xs, ...ys)];
+  }
+  return { width, height, west, north, dx, dy, crs, cellKm, groundCellKmRange };
 }
 
 /**

@@ -6,7 +6,7 @@
  */
 import { CAUTION } from '../caution.ts';
 import { InputError } from '../errors.ts';
-import { gridRowAreasM2, isLonLatCrs } from '../geodesy/cell-area.ts';
+import { gridRowAreasM2, isLonLatCrs, projectedCellAreasM2, type ToLonLat } from '../geodesy/cell-area.ts';
 import { geodesicPolygonAreaM2 } from '../geodesy/polygon-area.ts';
 import type { Grid } from '../grid/grid.ts';
 import type { ThermalModelInput } from '../schema/model.ts';
@@ -35,6 +35,8 @@ export interface HeatInPlaceInput {
   centresLonLat?: { lon: ArrayLike<number>; lat: ArrayLike<number> };
   /** Metres per CRS unit of a projected grid (default 1). */
   metresPerUnit?: number;
+  /** Inverse projection of a projected grid (grid units → lon/lat): cell areas are then ground areas on the ellipsoid. */
+  toLonLat?: ToLonLat;
   options: HeatInPlaceOptions;
   /** Content hashes of the inputs, by role (provenance). */
   inputHashes?: Record<string, string>;
@@ -117,7 +119,11 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
     polygonAreaKm2 = geodesicPolygonAreaM2(input.polygon) / 1e6;
   }
   const areas = gridRowAreasM2(g, input.metresPerUnit ?? 1);
-  if (areas.method === 'planar') warnings.push(`cell areas are dx·dy in the plane of ${g.crs}; ground areas differ by the projection's areal scale factor (scale distortion), usually well under 1 % near the projection's centre`);
+  // Projected grids: each cell's ground area on the ellipsoid from the inverse projection (any CRS).
+  const cellAreaM2 = !lonLat && input.toLonLat !== undefined ? projectedCellAreasM2(g, input.toLonLat) : undefined;
+  if (areas.method === 'planar' && cellAreaM2 === undefined) {
+    warnings.push(`cell areas are dx·dy in the plane of ${g.crs}, not ground areas: the projection's areal scale factor is not corrected (it is far from 1 in some projections, e.g. 1/cos²φ in Web Mercator)`);
+  }
 
   const spec: ResourceSpec = {
     models: [input.model],
@@ -126,6 +132,7 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
     heatFlowErrorCorrelation: o.heatFlowErrorCorrelation,
     width: g.width,
     rowAreaM2: areas.rowAreaM2,
+    ...(cellAreaM2 === undefined ? {} : { cellAreaM2 }),
     polygonMask,
     zoneLabels: input.zones?.labels,
     zoneCount: input.zones?.names.length,
@@ -183,7 +190,12 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
     reservoirTemperature: 'each column\'s ρC-weighted mean temperature of the rock at or above Tmin (TR of W/Q); T0 of W/Q = Tref',
     quadrature: `Gauss–Legendre, ${DEFAULT_GL_ORDER} points on each piece between the Tmin isotherm and the layer boundaries (the only kinks of the geotherm); Monte Carlo cells by cubic interpolation in one heat-flow table per realization, split at the heat flows where the integrand's domain changes`,
     cellMembership: 'a cell belongs to the polygon (or a region) when its centre is inside; boundary cells count wholly or not at all',
-    cellArea: areas.method === 'ellipsoidal' ? 'exact area of each longitude/latitude cell on the WGS84 ellipsoid (authalic-latitude formula, Snyder 1987)' : `dx · dy in the plane of ${g.crs} (scale distortion not corrected)`,
+    cellArea:
+      areas.method === 'ellipsoidal'
+        ? 'exact area of each longitude/latitude cell on the WGS84 ellipsoid (authalic-latitude formula, Snyder 1987)'
+        : cellAreaM2 !== undefined
+          ? `ground area of each ${g.crs} cell on the WGS84 ellipsoid: ∬ M·N·cos φ·|∂(φ, λ)/∂(x, y)| over the cell (2 × 2 Gauss–Legendre, inverse projection by proj4)`
+          : `dx · dy in the plane of ${g.crs} (scale distortion not corrected)`,
     percentiles: PERCENTILE_CONVENTION,
     exceedance: EXCEEDANCE_READING,
     noRealizations: NO_REALIZATIONS_NOTE,

@@ -64,6 +64,8 @@ export interface ResourceSpec {
   width: number;
   /** Area of one cell of each row, m² (length = grid height). */
   rowAreaM2: Float64Array;
+  /** Per-cell ground areas, m² (projected grids, where areas vary along a row too); overrides rowAreaM2. */
+  cellAreaM2?: Float64Array;
   /** Cells (1) inside the assessed polygon; its totals are area set 1. */
   polygonMask?: Uint8Array;
   /** Per-cell zone label 0 … zoneCount − 1 (−1 = none) of a class layer; its totals follow the polygon's. */
@@ -132,7 +134,7 @@ export function prepareResource(spec: ResourceSpec): PreparedResource {
   const cells = spec.heatFlowMWm2.length;
   if (!(Number.isInteger(spec.width) && spec.width > 0 && cells % spec.width === 0)) throw new RangeError(`grid width ${spec.width} does not divide ${cells} cells`);
   if (spec.rowAreaM2.length !== cells / spec.width) throw new RangeError(`rowAreaM2 needs ${cells / spec.width} rows, got ${spec.rowAreaM2.length}`);
-  for (const b of [spec.heatFlowSdMWm2, spec.polygonMask, spec.zoneLabels, spec.modelZones]) if (b !== undefined && b.length !== cells) throw new RangeError(`per-cell arrays need ${cells} values, got ${b.length}`);
+  for (const b of [spec.heatFlowSdMWm2, spec.polygonMask, spec.zoneLabels, spec.modelZones, spec.cellAreaM2]) if (b !== undefined && b.length !== cells) throw new RangeError(`per-cell arrays need ${cells} values, got ${b.length}`);
   if (!(spec.parameters.lifeYears > 0)) throw new RangeError(`lifeYears must be > 0, got ${spec.parameters.lifeYears}`);
   const w = spec.window;
   const maxDepthKm = w.bottomKm;
@@ -312,7 +314,7 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
   const N = spec.realizations, NR = N + 1, S = prep.sets, K = SUM_QUANTITIES;
   const q = spec.heatFlowMWm2, sd = spec.heatFlowSdMWm2, zones = spec.modelZones;
   const mask = spec.polygonMask, labels = spec.zoneLabels;
-  const width = spec.width, rowArea = spec.rowAreaM2;
+  const width = spec.width, rowArea = spec.rowAreaM2, cellArea = spec.cellAreaM2;
   const independent = spec.heatFlowErrorCorrelation === 'independent';
   const w = spec.window;
   const sums = out.blockSums;
@@ -370,7 +372,7 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
       if (ch.truncated) truncated++;
       out.nominalHeatPJkm2[c] = nomHeatF * ch.heatKm;
       out.nominalElectricMWekm2[c] = nomElecF * ch.exergyKm;
-      add(blk, c, N, rowArea[Math.floor(c / width)], ch.heatKm, ch.exergyKm, ch.thicknessM);
+      add(blk, c, N, cellArea === undefined ? rowArea[Math.floor(c / width)] : cellArea[c], ch.heatKm, ch.exergyKm, ch.thicknessM);
     }
     out.blockTruncated[blk] = truncated;
     out.blockSdMissing[blk] = sdMissing;
@@ -378,7 +380,7 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
     // Realizations: table lookups (inlined: this loop runs cells × realizations times). Sums go to local
     // accumulators per realization (set 0, the polygon, the zones) and are written once per block.
     const nb = b1 - b0;
-    for (let c = b0; c < b1; c++) blockArea[c - b0] = rowArea[Math.floor(c / width)];
+    for (let c = b0; c < b1; c++) blockArea[c - b0] = cellArea === undefined ? rowArea[Math.floor(c / width)] : cellArea[c];
     for (let r = 0; r < N; r++) {
       const tabs = prep.tables[r];
       const rowOff = r * B;

@@ -58,7 +58,7 @@ export function setMembership(prep: PreparedResource): { cells: Float64Array; ce
   const q = spec.heatFlowMWm2, mask = spec.polygonMask, labels = spec.zoneLabels;
   for (let c = 0; c < prep.cells; c++) {
     const has = q[c] === q[c];
-    const a = spec.rowAreaM2[Math.floor(c / spec.width)];
+    const a = spec.cellAreaM2 === undefined ? spec.rowAreaM2[Math.floor(c / spec.width)] : spec.cellAreaM2[c];
     const put = (s: number) => {
       if (has) {
         cells[s]++;

@@ -104,7 +104,8 @@ describe('subtherm interpolate', () => {
     expect(json.grid.bbox[0]).toBeLessThan(500000);
     const r = await readGeoTiff(bytes(out));
     expect(r.grid.crs).toBe('EPSG:32709');
-    expect(r.grid.dx).toBeCloseTo(1000, 6);
+    // 1 km on the ground near the central meridian is k0 × 1000 m in UTM, k0 = 0.9996 (Snyder 1987, §8).
+    expect(Math.abs(r.grid.dx - 999.6)).toBeLessThan(0.01);
   });
 
   it('--region and --max-distance-km mask cells as no data', async () => {
