@@ -31,6 +31,7 @@ const OPTIONS = {
   'max-lag-km': { type: 'string' },
   anisotropy: { type: 'string' },
   'measurement-error': { type: 'boolean', default: false },
+  'error-field': { type: 'string' },
   faults: { type: 'string' },
   region: { type: 'string' },
   'max-distance-km': { type: 'string' },
@@ -61,7 +62,10 @@ const HELP = `subtherm interpolate: grid a point field by IDW or ordinary krigin
   --variogram auto|spherical|exponential|gaussian|MODEL:NUGGET,PARTIAL_SILL,RANGE_KM
   --lag-km KM --max-lag-km KM   empirical semivariogram lags
   --anisotropy ANGLE_DEG,RATIO  geometric anisotropy (major-axis azimuth, minor/major range ratio)
-  --measurement-error        add each point's uncertainty² as an extra nugget
+  --error-field FIELD        per-point measurement standard deviation (e.g. uncertaintyMWm2): its square goes on
+                             the kriging diagonal, the nugget is split into that known error and a micro-scale
+                             part, maps and sd are of the true field (error-filtered)
+  --measurement-error        deprecated spelling of --error-field uncertaintyMWm2 (or FIELDSd for other fields)
   --faults F.geojson         fault traces: barriers between points and cells
   --region R.geojson         cells outside the polygons are no data
   --max-distance-km KM       cells farther from every point are no data
@@ -105,6 +109,13 @@ export async function interpolate(argv: string[]): Promise<number> {
   if (a['cell-km'] !== undefined && a.size !== undefined) throw new InputError('give --cell-km or --size, not both', [{ field: 'size', problem: 'conflicts with --cell-km' }], 'bad_option');
   const field = a.field;
   const warnings: string[] = [];
+  let errorField = a['error-field'];
+  if (a['measurement-error']) {
+    const implied = field === 'heatFlowMWm2' ? 'uncertaintyMWm2' : `${field}Sd`;
+    warnings.push(`--measurement-error is deprecated: use --error-field ${errorField ?? implied}`);
+    errorField ??= implied;
+  }
+  if (errorField !== undefined && a.method !== 'kriging') throw new InputError('--error-field needs --method kriging', [{ field: 'error-field', problem: 'measurement errors enter the kriging system' }], 'bad_option');
 
   // Inputs.
   const pointsText = await readText(a.points, 'points');
@@ -120,10 +131,10 @@ export async function interpolate(argv: string[]): Promise<number> {
       const c = converter(def, WGS84_DEF);
       toLonLat = (x, y) => c.forward([x, y]);
     }
-    const r = pointsFromCsv(pointsText, field, { skipMissing: a['skip-missing'], source: a.points, toLonLat });
+    const r = pointsFromCsv(pointsText, field, { skipMissing: a['skip-missing'], source: a.points, toLonLat, errorField });
     points = r.points; warnings.push(...r.warnings);
   } else {
-    const r = pointsFromGeoJson(parseJson(pointsText, a.points), field, { skipMissing: a['skip-missing'], source: a.points });
+    const r = pointsFromGeoJson(parseJson(pointsText, a.points), field, { skipMissing: a['skip-missing'], source: a.points, errorField });
     points = r.points; warnings.push(...r.warnings);
   }
   let faults: number[][][] | null = null;
@@ -201,7 +212,7 @@ export async function interpolate(argv: string[]): Promise<number> {
     lagKm: opt('lag-km'),
     maxLagKm: opt('max-lag-km'),
     anisotropy: parseAnisotropyOption(a.anisotropy),
-    measurementError: a['measurement-error'],
+    measurementError: errorField !== undefined,
     faults,
     region,
     maxDistanceKm: opt('max-distance-km') ?? null,

@@ -45,7 +45,12 @@ export interface InterpolationOptions {
   lagKm?: number;
   maxLagKm?: number;
   anisotropy?: Anisotropy | null;
-  /** Add each point's errorSd² to the kriging diagonal. */
+  /**
+   * Measurement error done once: each point's errorSd² goes on the kriging diagonal, and the fitted (or given)
+   * nugget is split into the known error part (the mean error variance, capped at the nugget, with a warning when
+   * the cap binds) and the micro-scale part; estimates and sd are then of the true field (error-filtered), and
+   * cross-validation standardizes by the kriging variance plus the point's own error variance.
+   */
   measurementError?: boolean;
   /** Fault traces: polylines of [lon, lat]. */
   faults?: number[][][] | null;
@@ -79,6 +84,12 @@ export interface VariogramReport {
   /** Points used for the empirical semivariogram (a seeded subset above 4000). */
   empiricalPoints: number;
   empirical: EmpiricalLag[];
+  /**
+   * With measurement errors: the nugget split into the sites' mean error variance (value units², capped at the
+   * nugget) and the micro-scale remainder; the kriging uses the micro-scale nugget plus each site's own error
+   * variance on its diagonal.
+   */
+  nuggetSplit?: { measurementErrorVariance: number; microScale: number; meanClaimedErrorVariance: number; capped: boolean };
   /** With 'auto': each candidate and its leave-one-out RMSE. */
   candidates?: { model: VariogramModelName; nugget: number; partialSill: number; rangeKm: number; cvRmse: number }[];
 }
@@ -228,9 +239,14 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
   let report: VariogramReport;
   let cv: CrossValidation | null = null;
   const vg = opts.variogram ?? 'auto';
+  // Measurement error once: the known part of the nugget is the sites' mean error variance (capped at the nugget).
+  let meanEv = 0;
+  if (errorVariance !== null) { for (let i = 0; i < n; i++) meanEv += errorVariance[i]; meanEv /= n; }
+  const split = (model: VariogramModel): VariogramModel => (errorVariance === null ? model : { ...model, nugget: model.nugget - Math.min(meanEv, model.nugget) });
   const cvFor = (model: VariogramModel): CrossValidation => {
-    const rt: GridRuntime = createGridRuntime({ ...basePlan, variogram: model, grid: { ...gridSpec, width: 1, height: 1 }, region: null, maxDistanceKm: null });
-    return crossValidateKriging(ids, rt.tx, rt.ty, z, rt.kriging!, model, errorVariance, rt.hasBarrier, radiusKm);
+    const m = split(model);
+    const rt: GridRuntime = createGridRuntime({ ...basePlan, variogram: m, grid: { ...gridSpec, width: 1, height: 1 }, region: null, maxDistanceKm: null });
+    return crossValidateKriging(ids, rt.tx, rt.ty, z, rt.kriging!, m, errorVariance, rt.hasBarrier, radiusKm);
   };
   if (typeof vg === 'object') {
     try { checkVariogram(vg); } catch (e) { throw new InputError(`bad variogram: ${(e as Error).message}`, [{ field: 'variogram', problem: (e as Error).message }], 'bad_option'); }
@@ -278,7 +294,13 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
     timingsMs.variogram = now() - t2 - cvMs;
     timingsMs.crossValidation = cvMs;
   }
-  const plan: GridPlan = { ...basePlan, variogram: { model: report.model, nugget: report.nugget, partialSill: report.partialSill, rangeKm: report.rangeKm } };
+  const plan: GridPlan = { ...basePlan, variogram: split({ model: report.model, nugget: report.nugget, partialSill: report.partialSill, rangeKm: report.rangeKm }) };
+  if (errorVariance !== null) {
+    const known = Math.min(meanEv, report.nugget);
+    const capped = meanEv > report.nugget;
+    report.nuggetSplit = { measurementErrorVariance: known, microScale: report.nugget - known, meanClaimedErrorVariance: meanEv, capped };
+    if (capped) warnings.push(`the sites' mean error variance (${meanEv.toPrecision(4)}) exceeds the variogram's nugget (${report.nugget.toPrecision(4)}): the claimed errors are larger than the data allow; the error part of the nugget is capped at the nugget (no micro-scale part left)`);
+  }
   if (cv !== null && cv.unpredicted > 0) warnings.push(`cross-validation: ${cv.unpredicted} point(s) had no usable neighbour and were left out`);
   return { plan, cellKm, ids, variogram: report, crossValidation: cv, warnings, timingsMs, units };
 }

@@ -82,9 +82,9 @@ const genericProps = z.looseObject({ id: z.union([z.string().min(1).max(200), z.
  * field as a finite number. Features missing the field are an error naming them, or, with `skipMissing`, a
  * warning naming them (an error if none is left).
  */
-export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMissing?: boolean; source?: string } = {}): { points: PointData; warnings: string[] } {
+export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMissing?: boolean; source?: string; errorField?: string } = {}): { points: PointData; warnings: string[] } {
   const src = opts.source ?? 'points';
-  if (field === 'heatFlowMWm2') {
+  if (field === 'heatFlowMWm2' && (opts.errorField === undefined || opts.errorField === 'uncertaintyMWm2')) {
     const ds = parseFeatureCollection('sites', input);
     const f = ds.collection.features as { geometry: { coordinates: number[] }; properties: Record<string, unknown> }[];
     return {
@@ -108,7 +108,7 @@ export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMis
   const missing: string[] = [];
   const ids: string[] = [], lon: number[] = [], lat: number[] = [], values: number[] = [], quality: (string | undefined)[] = [], errSd: number[] = [];
   const seen = new Set<string>();
-  const errField = `${field}Sd`;
+  const errField = opts.errorField ?? `${field}Sd`;
   feats.forEach((f, i) => {
     if (problems.length >= 50) return;
     const feat = (f ?? {}) as { type?: unknown; id?: unknown; geometry?: unknown; properties?: unknown };
@@ -148,7 +148,7 @@ export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMis
  * `easting,northing`) converted to lon/lat by `toLonLat` (the caller builds it from `--points-crs`); the field and
  * the known numeric columns as numbers (an unparsable number is an error naming row and column).
  */
-export function pointsFromCsv(text: string, field: string, opts: { skipMissing?: boolean; source?: string; toLonLat?: (x: number, y: number) => [number, number] } = {}): { points: PointData; warnings: string[]; projectedColumns: boolean } {
+export function pointsFromCsv(text: string, field: string, opts: { skipMissing?: boolean; source?: string; errorField?: string; toLonLat?: (x: number, y: number) => [number, number] } = {}): { points: PointData; warnings: string[]; projectedColumns: boolean } {
   const src = opts.source ?? 'points';
   const { header, rows, lines } = parseCsv(text);
   let xc = header.findIndex((h) => /^(longitude|lon|lng)$/i.test(h));
@@ -169,7 +169,7 @@ export function pointsFromCsv(text: string, field: string, opts: { skipMissing?:
     );
     if (swapped) throw swapped;
   }
-  const numeric = new Set([field, 'heatFlowMWm2', 'uncertaintyMWm2', `${field}Sd`, 'gradientCPerKm', 'conductivityWmK', 'heatProductionUWm3']);
+  const numeric = new Set([field, 'heatFlowMWm2', 'uncertaintyMWm2', `${field}Sd`, ...(opts.errorField !== undefined ? [opts.errorField] : []), 'gradientCPerKm', 'conductivityWmK', 'heatProductionUWm3']);
   const problems: InputProblem[] = [];
   const features = rows.map((r, k) => {
     const props: Record<string, unknown> = {};
