@@ -81,7 +81,17 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   const app = new Hono();
   const limits = resolveLimits(opts.limits);
   const workerFile = opts.runWorkerFile ?? RUN_WORKER_FILE;
-  const jobs = new RunJobs({ store: opts.store, workerFile, concurrency: limits.runConcurrency, maxQueuedPerClient: limits.maxQueuedRunsPerClient });
+  const jobs = new RunJobs({
+    store: opts.store,
+    workerFile,
+    concurrency: limits.runConcurrency,
+    maxQueuedPerClient: limits.maxQueuedRunsPerClient,
+    maxQueuedServer: limits.maxQueuedRunsServer,
+    maxRunWork: limits.maxRunCellRealizations,
+    maxQueuedWorkPerClient: limits.maxQueuedWorkPerClient,
+    maxQueuedWorkServer: limits.maxQueuedWorkServer,
+    wallClockMs: limits.runWallClockSeconds * 1000,
+  });
   const compute = {
     interactive: new ComputePool({ name: 'column and section', threads: 1, maxQueue: limits.maxComputeQueue, deadlineLimit: 'computeDeadlineSeconds' }),
     jobs: new ComputePool({ name: 'heat-in-place', threads: 1, maxQueue: limits.maxHeatInPlaceJobsServer, deadlineLimit: 'heatInPlaceDeadlineSeconds' }),

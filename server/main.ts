@@ -40,7 +40,7 @@ export function openStore(dbPath: string): SqliteStore {
     store?.close();
     const code = (e as { code?: string }).code ?? '';
     const msg = (e as Error).message ?? String(e);
-    if (/READONLY|CANTOPEN|PERM|AUTH/.test(code) || /EACCES|EROFS|EPERM/.test(code) || /readonly|read-only|unable to open/i.test(msg)) {
+    if (/READONLY|CANTOPEN|PERM|AUTH/.test(code) || /EACCES|EROFS|EPERM|ENOENT|ENOTDIR|EEXIST/.test(code) || /readonly|read-only|unable to open/i.test(msg)) {
       throw new InputError(
         `cannot write the database ${dbPath} (${msg}). The server needs to create and write this file and its folder (it keeps -wal and -shm files beside it): make them writable by this user, or give another path with --db or SUBTHERM_DB.`,
         [{ field: 'db', problem: `${dbPath} is not writable` }],

@@ -197,6 +197,8 @@ class RunController {
   readonly errorArea = el('div', { id: 'run-error' });
   readonly dataLine = el('p', { class: 'note', id: 'run-data-line' });
   current: string | null = null;
+  /** Run token of the run this page started (cancelling needs it; a cached run comes without one). */
+  runToken: string | null = null;
   enabled = true;
   private readonly watcher: RunWatcher;
 
@@ -233,6 +235,7 @@ class RunController {
 
   follow(id: string): void {
     this.current = id;
+    this.runToken = null;
     this.cancelBtn.disabled = !this.enabled;
     this.runBtn.disabled = true;
     this.progress.set(0, 'queued');
@@ -267,8 +270,9 @@ class RunController {
     this.progress.set(0, 'submitting');
     replace(this.summary);
     try {
-      const { id } = await sendJson<{ id: string }>('POST', '/api/runs', runBody(p, model));
+      const { id, runToken } = await sendJson<{ id: string; runToken?: string }>('POST', '/api/runs', runBody(p, model));
       this.follow(id);
+      this.runToken = runToken ?? null;
     } catch (e) {
       this.runBtn.disabled = !this.enabled;
       this.progress.msg.textContent = 'The run was not accepted.';
@@ -280,7 +284,8 @@ class RunController {
     if (!this.current) return;
     this.cancelBtn.disabled = true;
     try {
-      await sendJson('DELETE', `/api/runs/${encodeURIComponent(this.current)}`);
+      const auth: Record<string, string> = this.runToken !== null ? { authorization: `Bearer ${this.runToken}` } : {};
+      await sendJson('DELETE', `/api/runs/${encodeURIComponent(this.current)}`, undefined, auth);
       this.progress.msg.textContent = 'Cancelling…';
     } catch (e) {
       replace(this.errorArea, errorBox(e instanceof Error ? e.message : String(e)));

@@ -230,7 +230,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     const id = projectIdOf(c, ctx);
     requireEditToken(c, ctx, id);
     requireJsonType(c);
-    const out = submitRun(ctx, await jsonBody(c), clientAddress(c), id);
+    const out = submitRun(ctx, await jsonBody(c), clientAddress(c, ctx.trustedProxies), id);
     return c.json(out.body, out.status);
   });
 

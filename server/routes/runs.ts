@@ -16,6 +16,7 @@ import { LAYER_EXTS, type LayerExt } from '../runs/types.ts';
 import { sha256Hex } from '../store/sqlite.ts';
 import { vectorsGeoPackage } from '../io/export.ts';
 import type { DatasetRecord, RunRecord } from '../store/types.ts';
+import { bearerToken } from '../security.ts';
 import { clientAddress, jsonBody, notFound, requireJsonType, type AppContext } from './context.ts';
 import { idSchema, parseWith } from './schemas.ts';
 
@@ -47,6 +48,9 @@ export function runView(rec: RunRecord, live: RunSnapshot | null) {
     status: s.status,
     progress: s.progress,
     message: s.message,
+    // While queued: the place in the fair start order; while queued or running: seconds to the end (null = unknown).
+    ...(live?.position !== undefined ? { position: live.position } : {}),
+    ...(live?.estimateSeconds !== undefined ? { estimateSeconds: live.estimateSeconds } : {}),
     layers: (rec.layers as RunLayerInfo[]).map((l) => withUrls(rec.id, l)),
     summary: rec.summary,
     warnings: rec.warnings,
@@ -113,13 +117,16 @@ export function submitRun(ctx: AppContext, body: unknown, client: string, projec
     throw new InputError('runs are not available on this server: the run worker is not installed', [], 'runs_unavailable', 503);
   }
   const cacheKey = sha256Hex(canonicalJson({ version: VERSION, request, inputs: hashes }));
-  const { id, cached } = ctx.jobs.submit({ request, datasets, cacheKey, client });
+  // "Client" for limits and fairness: the project a run is started through, else the remote address.
+  const owner = projectId !== undefined ? `project:${projectId}` : client;
+  const { id, cached, runToken } = ctx.jobs.submit({ request, datasets, cacheKey, client: owner, cells, projectId });
   ctx.store.linkRunDatasets(id, Object.keys(datasets));
   if (projectId !== undefined) ctx.store.linkProjectRun(projectId, id);
   const snap = ctx.jobs.snapshot(id);
   return {
     status: cached ? 200 : 202,
-    body: { id, status: snap?.status ?? 'queued', cached, url: `/api/runs/${id}`, events: `/api/runs/${id}/events`, datasets: names, warnings },
+    // The run token (only for a run this request started) is needed to cancel it: DELETE with Authorization: Bearer.
+    body: { id, status: snap?.status ?? 'queued', cached, ...(runToken !== undefined ? { runToken } : {}), url: `/api/runs/${id}`, events: `/api/runs/${id}/events`, datasets: names, warnings },
   };
 }
 
@@ -223,7 +230,7 @@ export function farApartWarnings(bboxes: { role: string; id: string; name: strin
 export function runRoutes(app: Hono, ctx: AppContext): void {
   app.post('/api/runs', async (c) => {
     requireJsonType(c);
-    const out = submitRun(ctx, await jsonBody(c), clientAddress(c));
+    const out = submitRun(ctx, await jsonBody(c), clientAddress(c, ctx.trustedProxies));
     return c.json(out.body, out.status);
   });
 
@@ -244,6 +251,14 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
     const live = ctx.jobs.live(rec.id);
     if (!live) {
       throw new InputError(`run ${rec.id} has already ended (${rec.status}); nothing to cancel`, [{ field: 'status', problem: rec.status }], 'run_finished', 409);
+    }
+    // The run token returned when the run started, or the edit token of the project it was started through.
+    const auth = ctx.jobs.authorizeCancel(rec.id, bearerToken(c.req.header('authorization')), (p) => ctx.store.getProjectTokenHash(p));
+    if (auth === 'missing') {
+      throw new InputError('cancelling a run needs its run token (returned when it started) or its project\'s edit token: send Authorization: Bearer <token>', [{ field: 'authorization', problem: 'missing' }], 'token_required', 401);
+    }
+    if (auth === 'wrong') {
+      throw new InputError('this token may not cancel this run: it is neither the run\'s token nor the edit token of the project that started it', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden', 403);
     }
     const after = ctx.jobs.cancel(rec.id);
     return c.json({ id: rec.id, status: after?.status ?? 'cancelled' });

@@ -1,8 +1,13 @@
 /**
- * The run job system: a FIFO queue in front of a piscina pool of run workers. At most `concurrency` runs execute
- * at once (one worker thread each); each run gets a MessagePort for its progress, an AbortSignal (piscina
- * terminates the thread on abort) and a shared cancel flag the pipeline checks between tiles. A run that throws,
- * or whose thread dies, fails alone: the pool replaces the thread and the queue goes on.
+ * The run job system: a fair queue in front of a piscina pool of run workers. Each client (a project, else a
+ * remote address) has its own FIFO and runs start in round-robin order across clients, so one client's backlog
+ * never holds back another client's first run. At most `concurrency` runs execute at once (one worker thread
+ * each); each run gets a MessagePort for its progress, an AbortSignal (piscina terminates the thread on abort), a
+ * shared cancel flag the pipeline checks between tiles, and a wall-clock limit after which it ends `failed` with
+ * the reason. A run that throws, or whose thread dies, fails alone: the pool replaces the thread and the queue goes
+ * on. Bounds (runs and cells × realizations, per client and for the server) are checked before a run is queued.
+ * Starting a run returns a run token (256 random bits, kept only as its SHA-256, compared in constant time) that
+ * cancelling requires; a run started through a project may also be cancelled with the project's edit token.
  */
 import { EventEmitter } from 'node:events';
 import { MessageChannel } from 'node:worker_threads';
@@ -11,6 +16,7 @@ import { InputError } from '../../shared/errors.ts';
 import type { RunRequest } from '../../shared/schema/run.ts';
 import type { RunRecord, RunStatus, Store } from '../store/types.ts';
 import { newId } from '../store/sqlite.ts';
+import { hashToken, newEditToken, tokenMatches } from '../security.ts';
 import { LAYER_CONTENT_TYPES, LAYER_EXTS, type LayerExt, type RunResult, type RunTask, type SerializedGrid } from './types.ts';
 
 export interface RunJobsOptions {
@@ -19,8 +25,17 @@ export interface RunJobsOptions {
   workerFile: string;
   /** Runs executing at once. */
   concurrency: number;
-  /** Runs queued or running per client address. */
+  /** Runs queued or running per client. */
   maxQueuedPerClient: number;
+  /** Runs queued or running on the server (default unbounded). */
+  maxQueuedServer?: number;
+  /** Cells × realizations of one run (default unbounded). */
+  maxRunWork?: number;
+  /** Cells × realizations queued or running per client, and for the server (default unbounded). */
+  maxQueuedWorkPerClient?: number;
+  maxQueuedWorkServer?: number;
+  /** Wall-clock limit of a started run, ms (default none). */
+  wallClockMs?: number;
   /** Server-fault log (never given tokens or request bodies). */
   log?: (line: string) => void;
 }
@@ -31,11 +46,26 @@ export interface RunSnapshot {
   status: RunStatus;
   progress: number;
   message: string;
+  /** While queued: 1-based place in the fair (round-robin) start order. */
+  position?: number;
+  /**
+   * While queued or running: seconds until the run should end, from the work ahead of it (cells × realizations)
+   * and the rate of runs finished by this server; null until a run has finished to measure the rate.
+   */
+  estimateSeconds?: number | null;
 }
 
 interface Job {
   id: string;
   client: string;
+  /** Project the run was started through (its edit token may cancel it). */
+  projectId: string | null;
+  /** SHA-256 of the run token. */
+  tokenHash: string;
+  /** Cells × realizations (at least the cells). */
+  work: number;
+  startedAt: number;
+  timedOut: boolean;
   request: RunRequest;
   datasets: Record<string, { kind: string; body: string }>;
   abort: AbortController;
@@ -55,10 +85,17 @@ export class RunJobs {
   private readonly concurrency: number;
   private readonly maxPerClient: number;
   private readonly log: (line: string) => void;
+  private readonly limits: Required<Pick<RunJobsOptions, 'maxQueuedServer' | 'maxRunWork' | 'maxQueuedWorkPerClient' | 'maxQueuedWorkServer' | 'wallClockMs'>>;
   private pool: Piscina | null = null;
-  private readonly queue: Job[] = [];
+  /** Queued runs: one FIFO per client, and the round-robin ring of clients that have queued runs. */
+  private readonly queues = new Map<string, Job[]>();
+  private order: string[] = [];
   private readonly running = new Map<string, Job>();
   private readonly perClient = new Map<string, number>();
+  private readonly workPerClient = new Map<string, number>();
+  private workTotal = 0;
+  /** Cells × realizations per second per worker thread, from runs finished here (exponentially weighted). */
+  private rate: number | null = null;
   /** Each running job's end of its MessagePort (progress in; the worker also takes `{ type: 'cancel' }`). */
   private readonly ports = new Map<string, import('node:worker_threads').MessagePort>();
   private readonly events = new EventEmitter();
@@ -69,6 +106,13 @@ export class RunJobs {
     this.workerFile = opts.workerFile;
     this.concurrency = opts.concurrency;
     this.maxPerClient = opts.maxQueuedPerClient;
+    this.limits = {
+      maxQueuedServer: opts.maxQueuedServer ?? Infinity,
+      maxRunWork: opts.maxRunWork ?? Infinity,
+      maxQueuedWorkPerClient: opts.maxQueuedWorkPerClient ?? Infinity,
+      maxQueuedWorkServer: opts.maxQueuedWorkServer ?? Infinity,
+      wallClockMs: opts.wallClockMs ?? Infinity,
+    };
     this.log = opts.log ?? ((l) => process.stderr.write(l + '\n'));
     this.events.setMaxListeners(0);
     // Runs left queued or running by a server that stopped can never finish: say so instead of leaving them.
@@ -95,24 +139,68 @@ export class RunJobs {
     return pool;
   }
 
+  /** Queued runs in start order (round-robin across clients). */
+  private queuedInOrder(): Job[] {
+    const qs = this.order.map((c) => this.queues.get(c) ?? []);
+    const out: Job[] = [];
+    for (let round = 0; ; round++) {
+      let any = false;
+      for (const q of qs) {
+        if (round < q.length) {
+          out.push(q[round]);
+          any = true;
+        }
+      }
+      if (!any) return out;
+    }
+  }
+
+  private get queuedCount(): number {
+    let n = 0;
+    for (const q of this.queues.values()) n += q.length;
+    return n;
+  }
+
   /**
    * Queues a run, or returns the existing run with the same cache key (queued, running or done): `cached` is true
-   * then. Throws InputError 429 when the client already has maxQueuedPerClient runs in flight.
+   * then, and no token is given (the run belongs to whoever started it). Bounds are checked first: the run's cells ×
+   * realizations (422), the client's runs and work in flight (429), the server's (503).
+   * @param cells output grid cells of the run (null when not known before it starts)
    */
-  submit(input: { request: RunRequest; datasets: Record<string, { kind: string; body: string }>; cacheKey: string; client: string }): { id: string; cached: boolean } {
+  submit(input: { request: RunRequest; datasets: Record<string, { kind: string; body: string }>; cacheKey: string; client: string; cells?: number | null; projectId?: string }): { id: string; cached: boolean; runToken?: string } {
     if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down', 503);
     const existing = this.store.findRunByCacheKey(input.cacheKey, ['queued', 'running', 'done']);
-    if (existing && (existing.status === 'done' || this.running.has(existing.id) || this.queue.some((j) => j.id === existing.id))) {
+    if (existing && (existing.status === 'done' || this.running.has(existing.id) || this.queuedInOrder().some((j) => j.id === existing.id))) {
       return { id: existing.id, cached: true };
+    }
+    const realizations = input.request.realizations ?? 0;
+    const cells = input.cells ?? 0;
+    const work = Math.max(1, cells) * Math.max(1, realizations);
+    const L = this.limits;
+    const over = (limit: string, value: number, max: number, message: string, status: number, code: string) =>
+      new InputError(message, [{ field: limit, problem: `${value.toLocaleString('en')} > ${limit} = ${max.toLocaleString('en')}` }], code, status);
+    if (work > L.maxRunWork) {
+      throw over('maxRunCellRealizations', work, L.maxRunWork, `the run asks for ${cells.toLocaleString('en')} cells × ${realizations} realizations = ${work.toLocaleString('en')} (limit maxRunCellRealizations = ${L.maxRunWork.toLocaleString('en')}): use fewer realizations, a larger cellKm or a smaller bbox`, 422, 'run_too_large');
     }
     const inFlight = this.perClient.get(input.client) ?? 0;
     if (inFlight >= this.maxPerClient) {
       throw new InputError(
-        `too many runs in flight: ${inFlight} queued or running for this client (limit ${this.maxPerClient}); wait for one to finish or cancel one`,
-        [{ field: 'runs', problem: `at most ${this.maxPerClient} queued or running runs per client` }],
+        `too many runs in flight: ${inFlight} queued or running for this client (limit maxQueuedRunsPerClient = ${this.maxPerClient}); wait for one to finish or cancel one`,
+        [{ field: 'maxQueuedRunsPerClient', problem: `at most ${this.maxPerClient} queued or running runs per client` }],
         'too_many_runs',
         429,
       );
+    }
+    const clientWork = this.workPerClient.get(input.client) ?? 0;
+    if (clientWork + work > L.maxQueuedWorkPerClient) {
+      throw over('maxQueuedWorkPerClient', clientWork + work, L.maxQueuedWorkPerClient, `this client's runs in flight would total ${(clientWork + work).toLocaleString('en')} cells × realizations (limit maxQueuedWorkPerClient = ${L.maxQueuedWorkPerClient.toLocaleString('en')}); wait for a run to finish`, 429, 'too_much_work');
+    }
+    const total = this.queuedCount + this.running.size;
+    if (total >= L.maxQueuedServer) {
+      throw new InputError(`the server has ${total} runs queued or running (limit maxQueuedRunsServer = ${L.maxQueuedServer}); try again later`, [{ field: 'maxQueuedRunsServer', problem: `at most ${L.maxQueuedServer} runs in flight on the server` }], 'server_busy', 503);
+    }
+    if (this.workTotal + work > L.maxQueuedWorkServer) {
+      throw over('maxQueuedWorkServer', this.workTotal + work, L.maxQueuedWorkServer, `the server's runs in flight would total ${(this.workTotal + work).toLocaleString('en')} cells × realizations (limit maxQueuedWorkServer = ${L.maxQueuedWorkServer.toLocaleString('en')}); try again later`, 503, 'server_busy');
     }
     const now = new Date().toISOString();
     const id = newId('run_');
@@ -121,21 +209,59 @@ export class RunJobs {
       layers: [], summary: null, warnings: [], model: null, grids: [], client: input.client, createdAt: now, updatedAt: now,
     };
     this.store.putRun(rec);
+    const runToken = newEditToken();
     const job: Job = {
-      id, client: input.client, request: input.request, datasets: input.datasets,
+      id, client: input.client, projectId: input.projectId ?? null, tokenHash: hashToken(runToken), work, startedAt: 0, timedOut: false,
+      request: input.request, datasets: input.datasets,
       abort: new AbortController(), cancelFlag: new SharedArrayBuffer(4),
       snapshot: { id, status: 'queued', progress: 0, message: 'queued' },
     };
     this.perClient.set(input.client, inFlight + 1);
-    this.queue.push(job);
+    this.workPerClient.set(input.client, clientWork + work);
+    this.workTotal += work;
+    const q = this.queues.get(input.client);
+    if (q) q.push(job);
+    else {
+      this.queues.set(input.client, [job]);
+      this.order.push(input.client);
+    }
     this.pump();
-    return { id, cached: false };
+    return { id, cached: false, runToken };
+  }
+
+  /**
+   * Whether `token` may cancel the live run `id`: its run token, or the edit token of the project it was started
+   * through (`projectTokenHash` looks that hash up). 'missing' without a token, 'wrong' for any other token, null
+   * when the run is not live.
+   */
+  authorizeCancel(id: string, token: string | null, projectTokenHash: (projectId: string) => string | null): 'ok' | 'missing' | 'wrong' | null {
+    const job = this.running.get(id) ?? this.queuedInOrder().find((j) => j.id === id);
+    if (!job) return null;
+    if (token === null) return 'missing';
+    if (tokenMatches(token, job.tokenHash)) return 'ok';
+    if (job.projectId !== null) {
+      const h = projectTokenHash(job.projectId);
+      if (h !== null && tokenMatches(token, h)) return 'ok';
+    }
+    return 'wrong';
   }
 
   /** The live state of a queued or running run (null once it has finished: read the store then). */
   live(id: string): RunSnapshot | null {
-    const j = this.running.get(id) ?? this.queue.find((q) => q.id === id);
-    return j ? { ...j.snapshot } : null;
+    const run = this.running.get(id);
+    if (run) return { ...run.snapshot, estimateSeconds: this.seconds(run.work * (1 - run.snapshot.progress)) };
+    const order = this.queuedInOrder();
+    const k = order.findIndex((q) => q.id === id);
+    if (k < 0) return null;
+    // Work ahead: what the running runs have left, the runs that start before this one, and its own.
+    let ahead = 0;
+    for (const r of this.running.values()) ahead += r.work * (1 - r.snapshot.progress);
+    for (let i = 0; i <= k; i++) ahead += order[i].work;
+    return { ...order[k].snapshot, position: k + 1, estimateSeconds: this.seconds(ahead / this.concurrency) };
+  }
+
+  private seconds(work: number): number | null {
+    return this.rate === null ? null : Math.round(work / this.rate);
   }
 
   /** Current state from memory or the store; null for an unknown id. */
@@ -157,9 +283,15 @@ export class RunJobs {
    * worker thread terminated. Returns the state after the call, or null for an unknown id.
    */
   cancel(id: string): RunSnapshot | null {
-    const qi = this.queue.findIndex((j) => j.id === id);
-    if (qi >= 0) {
-      const [job] = this.queue.splice(qi, 1);
+    const queued = this.queuedInOrder().find((j) => j.id === id);
+    if (queued) {
+      const q = this.queues.get(queued.client)!;
+      q.splice(q.indexOf(queued), 1);
+      if (q.length === 0) {
+        this.queues.delete(queued.client);
+        this.order = this.order.filter((c) => c !== queued.client);
+      }
+      const job = queued;
       this.finish(job, { status: 'cancelled', progress: job.snapshot.progress, message: 'cancelled before it started' });
       return { ...job.snapshot };
     }
@@ -181,18 +313,18 @@ export class RunJobs {
 
   /** Runs queued or running now. */
   counts(): { queued: number; running: number } {
-    return { queued: this.queue.length, running: this.running.size };
+    return { queued: this.queuedCount, running: this.running.size };
   }
 
   /** Resolves when no run is queued or running (for tests and shutdown). */
   async idle(): Promise<void> {
-    while (this.queue.length > 0 || this.running.size > 0) await new Promise((r) => setTimeout(r, 20));
+    while (this.queuedCount > 0 || this.running.size > 0) await new Promise((r) => setTimeout(r, 20));
   }
 
   /** Cancels everything and stops the pool. */
   async close(): Promise<void> {
     this.closed = true;
-    for (const j of [...this.queue]) this.cancel(j.id);
+    for (const j of this.queuedInOrder()) this.cancel(j.id);
     for (const id of [...this.running.keys()]) this.cancel(id);
     await this.idle();
     await this.pool?.destroy();
@@ -200,8 +332,13 @@ export class RunJobs {
   }
 
   private pump(): void {
-    while (this.running.size < this.concurrency && this.queue.length > 0) {
-      const job = this.queue.shift()!;
+    while (this.running.size < this.concurrency && this.order.length > 0) {
+      // Round-robin: the client at the head of the ring starts its oldest run and goes to the back of the ring.
+      const client = this.order.shift()!;
+      const q = this.queues.get(client)!;
+      const job = q.shift()!;
+      if (q.length > 0) this.order.push(client);
+      else this.queues.delete(client);
       this.start(job);
     }
   }
@@ -213,16 +350,34 @@ export class RunJobs {
   }
 
   private finish(job: Job, patch: Pick<RunSnapshot, 'status' | 'progress' | 'message'>): void {
-    this.running.delete(job.id);
+    const wasRunning = this.running.delete(job.id);
     const n = (this.perClient.get(job.client) ?? 1) - 1;
     if (n > 0) this.perClient.set(job.client, n);
     else this.perClient.delete(job.client);
+    const w = (this.workPerClient.get(job.client) ?? job.work) - job.work;
+    if (w > 0) this.workPerClient.set(job.client, w);
+    else this.workPerClient.delete(job.client);
+    this.workTotal = Math.max(0, this.workTotal - job.work);
+    if (wasRunning && patch.status === 'done') {
+      const seconds = Math.max(0.05, (Date.now() - job.startedAt) / 1000);
+      const r = job.work / seconds;
+      this.rate = this.rate === null ? r : 0.7 * this.rate + 0.3 * r;
+    }
     this.update(job, patch, true);
   }
 
   private start(job: Job): void {
     this.running.set(job.id, job);
+    job.startedAt = Date.now();
     this.update(job, { status: 'running', message: 'starting' }, true);
+    // The wall-clock limit: stop the thread and record why.
+    const wallClock = Number.isFinite(this.limits.wallClockMs)
+      ? setTimeout(() => {
+          job.timedOut = true;
+          Atomics.store(new Int32Array(job.cancelFlag), 0, 1);
+          job.abort.abort();
+        }, this.limits.wallClockMs)
+      : null;
     const { port1, port2 } = new MessageChannel();
     this.ports.set(job.id, port1);
     let lastWrite = 0;
@@ -254,6 +409,11 @@ export class RunJobs {
         this.storeResult(job, result as RunResult);
       })
       .catch((err: unknown) => {
+        if (job.timedOut) {
+          const s = this.limits.wallClockMs / 1000;
+          this.finish(job, { status: 'failed', progress: job.snapshot.progress, message: `the run took longer than the wall-clock limit (runWallClockSeconds = ${s} s) and was stopped; ask for fewer cells or realizations` });
+          return;
+        }
         if (job.abort.signal.aborted) {
           this.finish(job, { status: 'cancelled', progress: job.snapshot.progress, message: 'cancelled' });
           return;
@@ -267,6 +427,7 @@ export class RunJobs {
       // A store that cannot record the outcome (disk full, closed) is a server fault: log it, never crash.
       .catch((e: unknown) => this.log(`[${new Date().toISOString()}] run ${job.id}: could not record the outcome: ${(e as Error)?.stack ?? String(e)}`))
       .finally(() => {
+        if (wallClock !== null) clearTimeout(wallClock);
         this.ports.delete(job.id);
         port1.close();
         this.pump();

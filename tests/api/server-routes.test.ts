@@ -202,8 +202,10 @@ describe('runs', () => {
   });
 
   it('cancels a running run (its worker thread is stopped) and a queued one; a finished run answers 409', async () => {
-    const a = ((await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 21 })).json()) as { id: string }).id;
-    const b = ((await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 22 })).json()) as { id: string }).id;
+    const ra = (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 21 })).json()) as { id: string; runToken: string };
+    const rb = (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 22 })).json()) as { id: string; runToken: string };
+    const a = ra.id, b = rb.id;
+    const bearer = (t: string) => ({ authorization: `Bearer ${t}` });
     // Wait until a is running with some progress; b waits in the queue (one run at a time).
     for (let i = 0; i < 400; i++) {
       const s = (await (await app.request(`/api/runs/${a}`)).json()) as { status: string; progress: number };
@@ -211,8 +213,11 @@ describe('runs', () => {
       await new Promise((res) => setTimeout(res, 20));
     }
     expect(((await (await app.request(`/api/runs/${b}`)).json()) as { status: string }).status).toBe('queued');
-    expect(await (await app.request(`/api/runs/${b}`, { method: 'DELETE' })).json()).toMatchObject({ status: 'cancelled' });
-    expect(await (await app.request(`/api/runs/${a}`, { method: 'DELETE' })).json()).toMatchObject({ status: 'cancelled' });
+    // Without a token 401; with another run's token 403; with its own run token it is cancelled.
+    await errorOf(await app.request(`/api/runs/${b}`, { method: 'DELETE' }), 401, 'token_required');
+    await errorOf(await app.request(`/api/runs/${b}`, { method: 'DELETE', headers: bearer(ra.runToken) }), 403, 'forbidden');
+    expect(await (await app.request(`/api/runs/${b}`, { method: 'DELETE', headers: bearer(rb.runToken) })).json()).toMatchObject({ status: 'cancelled' });
+    expect(await (await app.request(`/api/runs/${a}`, { method: 'DELETE', headers: bearer(ra.runToken) })).json()).toMatchObject({ status: 'cancelled' });
     const fa = await waitDone(app, a);
     expect(fa.status).toBe('cancelled');
     expect(fa.progress as number).toBeLessThan(1);
@@ -222,7 +227,8 @@ describe('runs', () => {
     // A cancelled run is not a cache hit: the same request runs again.
     const again = await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 22 });
     expect(again.status).toBe(202);
-    await app.request(`/api/runs/${((await again.json()) as { id: string }).id}`, { method: 'DELETE' });
+    const ag = (await again.json()) as { id: string; runToken: string };
+    await app.request(`/api/runs/${ag.id}`, { method: 'DELETE', headers: bearer(ag.runToken) });
     await app.jobs.idle();
   });
 
@@ -239,11 +245,11 @@ describe('runs', () => {
   });
 
   it('limits runs in flight per client (429)', async () => {
-    const ids: string[] = [];
-    for (let k = 0; k < 3; k++) ids.push(((await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 100 + k })).json()) as { id: string }).id);
+    const ids: { id: string; runToken: string }[] = [];
+    for (let k = 0; k < 3; k++) ids.push((await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 100 + k })).json()) as { id: string; runToken: string });
     const e = await errorOf(await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 199 }), 429, 'too_many_runs');
-    expect(e.message).toContain('limit 3');
-    for (const id of ids) await app.request(`/api/runs/${id}`, { method: 'DELETE' });
+    expect(e.message).toContain('maxQueuedRunsPerClient = 3');
+    for (const r of ids) await app.request(`/api/runs/${r.id}`, { method: 'DELETE', headers: { authorization: `Bearer ${r.runToken}` } });
     await app.jobs.idle();
   });
 
@@ -306,9 +312,10 @@ describe('column', () => {
     await errorOf(await post('/api/column', { model: { ...SIMPLE_MODEL, surfaceHeatFlowMWm2: undefined } }), 422, 'invalid_column');
     await errorOf(await post('/api/column', { model: 'demo-model', heatFlowMWm2: 60, stepKm: 0.001 }), 422, 'invalid_column');
     await errorOf(await post('/api/column', { model: 'demo-model', heatFlowMWm2: 60, extra: 1 }), 422, 'invalid_column');
-    const slow = ((await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 301 })).json()) as { id: string }).id;
+    const slowRun = (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 301 })).json()) as { id: string; runToken: string };
+    const slow = slowRun.id;
     await errorOf(await post('/api/column', { runId: slow, lon: 0, lat: 0 }), 409, 'run_not_done');
-    await app.request(`/api/runs/${slow}`, { method: 'DELETE' });
+    await app.request(`/api/runs/${slow}`, { method: 'DELETE', headers: { authorization: `Bearer ${slowRun.runToken}` } });
     await app.jobs.idle();
   });
 });

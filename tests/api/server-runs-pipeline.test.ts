@@ -93,13 +93,13 @@ describe('runs with the real pipeline', () => {
 
   it('cancels a real run in progress; the next run still completes', async () => {
     const big = await post('/api/runs', { ...REQUEST, realizations: 2000, seed: 6, grid: { cellKm: 2 } });
-    const id = ((await big.json()) as { id: string }).id;
+    const { id, runToken } = (await big.json()) as { id: string; runToken: string };
     for (let i = 0; i < 1500; i++) {
       const s = (await (await app.request(`/api/runs/${id}`)).json()) as { status: string; progress: number };
       if (s.status === 'running' && s.progress > 0.05) break;
       await new Promise((res) => setTimeout(res, 20));
     }
-    expect((await app.request(`/api/runs/${id}`, { method: 'DELETE' })).status).toBe(200);
+    expect((await app.request(`/api/runs/${id}`, { method: 'DELETE', headers: { authorization: `Bearer ${runToken}` } })).status).toBe(200);
     const end = await waitEnd(id);
     expect(end.status).toBe('cancelled');
     expect(end.progress).toBeLessThan(1);
