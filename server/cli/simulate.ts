@@ -20,6 +20,7 @@ const OPTIONS = {
   'max-lag-km': { type: 'string' },
   anisotropy: { type: 'string' },
   trend: { type: 'string', default: 'none' },
+  'error-field': { type: 'string' },
   transform: { type: 'string', default: 'normal-score' },
   neighbors: { type: 'string' },
   realizations: { type: 'string' },
@@ -44,6 +45,7 @@ const HELP = `subtherm simulate: conditional simulation of a point field (realiz
   --anisotropy ANGLE_DEG,RATIO  geometric anisotropy (major-axis azimuth, minor/major range ratio)
   --trend none               no drift (the only value available)
   --transform normal-score|none   simulate normal scores and back-transform (default), or the values as Gaussian
+  --error-field FIELD        per-point measurement sd (e.g. uncertaintyMWm2): realizations are of the true field
   --neighbors K|all          data conditioning each target (default 16)
   --realizations N           number of realizations (1..10000), required
   --seed S                   integer seed, required: the same seed gives the same realizations
@@ -100,10 +102,10 @@ export async function simulate(argv: string[]): Promise<number> {
       const c = converter(await loadCrsDefinition(pcrs), WGS84_DEF);
       toLonLat = (x, y) => c.forward([x, y]);
     }
-    const r = pointsFromCsv(pointsText, field, { skipMissing: a['skip-missing'], source: a.points, toLonLat });
+    const r = pointsFromCsv(pointsText, field, { skipMissing: a['skip-missing'], source: a.points, toLonLat, errorField: a['error-field'] });
     points = r.points; warnings.push(...r.warnings);
   } else {
-    const r = pointsFromGeoJson(parseJson(pointsText, a.points), field, { skipMissing: a['skip-missing'], source: a.points });
+    const r = pointsFromGeoJson(parseJson(pointsText, a.points), field, { skipMissing: a['skip-missing'], source: a.points, errorField: a['error-field'] });
     points = r.points; warnings.push(...r.warnings);
   }
 
@@ -122,6 +124,7 @@ export async function simulate(argv: string[]): Promise<number> {
     variogram: parseVariogramOption(a.variogram),
     anisotropy: parseAnisotropyOption(a.anisotropy),
     transform: a.transform,
+    measurementError: a['error-field'] !== undefined,
     neighbors,
     lagKm: a['lag-km'] === undefined ? undefined : numberOption('lag-km', a['lag-km']),
     maxLagKm: a['max-lag-km'] === undefined ? undefined : numberOption('max-lag-km', a['max-lag-km']),

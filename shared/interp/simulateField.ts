@@ -33,6 +33,8 @@ export interface SimulationOptions {
   maxCells?: number;
   /** Leave-one-out cross-validation of the Gaussian-space kriging (default true). */
   crossValidation?: boolean;
+  /** Use the points' errorSd as measurement errors (realizations are of the true field). */
+  measurementError?: boolean;
   /** Unconditional sampler; default: exact for points (up to 3000 sites), lattice for grids. */
   sampler?: 'auto' | 'cholesky' | 'lattice';
   units?: string;
@@ -94,13 +96,16 @@ function prepare(points: PointData, opts: SimulationOptions, needGrid: boolean):
       throw new InputError(`normal-score transform: ${(e as Error).message}`, [{ field: 'values', problem: 'need at least two distinct values; or use --transform none' }], 'degenerate_values');
     }
     const scores = Float64Array.from(v, (x) => ns!.forward(x));
-    gaussPoints = { ...points, values: scores };
+    // Errors in score units through the transform's local slope: (score(v + e) − score(v − e)) / 2.
+    const es = points.errorSd;
+    const errorSd = es === undefined || es === null ? es : Float64Array.from(v, (x, i) => { const e = es[i]; return Number.isFinite(e) ? (ns!.forward(x + e) - ns!.forward(x - e)) / 2 : NaN; });
+    gaussPoints = { ...points, values: scores, errorSd };
     report = { kind: 'normal-score', points: ns.values.length, lowTail: ns.lowTail, highTail: ns.highTail, method: 'normal scores at mid-rank probabilities, linear back-transform with linear tails in probability to the data range ± 10 % (Deutsch & Journel 1998, GSLIB nscore/backtr)' };
   }
   const prep = prepareInterpolation(gaussPoints, {
     method: 'kriging', neighbors: opts.neighbors ?? 16, variogram: opts.variogram ?? 'auto', anisotropy: opts.anisotropy ?? null,
     lagKm: opts.lagKm, maxLagKm: opts.maxLagKm, grid: opts.grid, sd: false, crossValidation: opts.crossValidation ?? true,
-    maxCells: opts.maxCells, units: ns === null ? opts.units : 'normal score',
+    maxCells: opts.maxCells, units: ns === null ? opts.units : 'normal score', measurementError: opts.measurementError,
   }, needGrid);
   return { prep, ns, report };
 }
@@ -115,7 +120,7 @@ function runAll(prep: PreparedInterpolation, ns: NormalScoreTransform | null, op
   const t0 = now();
   let sim: ConditionalSimulator;
   try {
-    sim = createConditionalSimulator({ x: plan.x, y: plan.y, z: plan.z, tx, ty, model: plan.variogram!, anisotropy: plan.anisotropy, neighbors: plan.neighbors, maxGlobal: plan.maxGlobal, sampler, latticeKm });
+    sim = createConditionalSimulator({ x: plan.x, y: plan.y, z: plan.z, tx, ty, model: plan.variogram!, anisotropy: plan.anisotropy, neighbors: plan.neighbors, maxGlobal: plan.maxGlobal, sampler, latticeKm, errorVariance: plan.errorVariance });
   } catch (e) {
     if (e instanceof RangeError) throw new InputError(`simulation cannot be set up: ${e.message}`, [{ field: 'variogram', problem: e.message }], 'simulation_setup');
     throw e;

@@ -49,6 +49,11 @@ export interface SimulationSetup {
   sampler?: 'auto' | 'cholesky' | 'lattice';
   /** Lattice spacing (km) for the lattice sampler; default: the extent / 512. */
   latticeKm?: number;
+  /**
+   * Measurement-error variances of the data (simulated space, units²): on the conditioning kriging diagonal, and
+   * added as independent noise to the unconditional values at the data, so realizations are of the true field.
+   */
+  errorVariance?: Float64Array | null;
 }
 
 export interface ConditioningWeights {
@@ -327,7 +332,8 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
   const n = s.x.length;
   const dx = new Float64Array(n), dy = new Float64Array(n);
   for (let i = 0; i < n; i++) { dx[i] = m[0] * s.x[i] + m[1] * s.y[i]; dy[i] = m[2] * s.x[i] + m[3] * s.y[i]; }
-  const predictor = new KrigingPredictor(dx, dy, s.z, s.model, { neighbors: s.neighbors ?? 16, maxGlobal: s.maxGlobal });
+  const ev = s.errorVariance ?? null;
+  const predictor = new KrigingPredictor(dx, dy, s.z, s.model, { neighbors: s.neighbors ?? 16, maxGlobal: s.maxGlobal, errorVariance: ev });
   const weights = conditioningWeights(predictor, m, s.tx, s.ty);
   const warnings = [...sampler.warnings];
   if (predictor.counters.regularized > 0) warnings.push(`${predictor.counters.regularized} conditioning system(s) were ill-conditioned and solved with a small diagonal regularization`);
@@ -338,8 +344,14 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
   const resid = new Float64Array(n);
   const vals = new Float64Array(T);
   const { offsets, ids, lambda } = weights;
-  const condition = (u: Float64Array) => {
-    for (let i = 0; i < n; i++) resid[i] = s.z[i] - u[sites.dataSite[i]];
+  const errSd = ev === null ? null : Float64Array.from(ev, (v) => Math.sqrt(v));
+  const noise = new Float64Array(errSd === null ? 0 : n);
+  const noiseRng = createStream(0);
+  const condition = (u: Float64Array, seed: number, r: number) => {
+    if (errSd !== null) {
+      fillNormals(noiseRng.reset(seed, r, 2), noise, errSd, 1, false);
+      for (let i = 0; i < n; i++) resid[i] = s.z[i] - u[sites.dataSite[i]] - noise[i];
+    } else for (let i = 0; i < n; i++) resid[i] = s.z[i] - u[sites.dataSite[i]];
     for (let t = 0; t < T; t++) {
       const o0 = offsets[t], o1 = offsets[t + 1];
       if (o1 === o0) { vals[t] = NaN; continue; }
@@ -355,15 +367,15 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
     weights,
     run(seed, r0, r1, emit) {
       if (!sampler.pairs) {
-        for (let r = r0; r < r1; r++) { sampler.sample(seed, r, uA, null); condition(uA); emit(r, vals); }
+        for (let r = r0; r < r1; r++) { sampler.sample(seed, r, uA, null); condition(uA, seed, r); emit(r, vals); }
         return;
       }
       // Pairs start at even indices so a split of the realizations never changes a value.
       for (let p = r0 - (r0 % 2); p < r1; p += 2) {
         const wantB = p + 1 < r1;
         sampler.sample(seed, p, uA, wantB ? uB : null);
-        if (p >= r0) { condition(uA); emit(p, vals); }
-        if (wantB) { condition(uB); emit(p + 1, vals); }
+        if (p >= r0) { condition(uA, seed, p); emit(p, vals); }
+        if (wantB) { condition(uB, seed, p + 1); emit(p + 1, vals); }
       }
     },
   };

@@ -17,11 +17,11 @@ import { prng } from '../helpers/prng.ts';
 
 interface Dense { est: number[]; lambda: number[][]; variance: number[]; cov: number[][] }
 
-function denseOk(x: number[], y: number[], z: number[], tx: number[], ty: number[], m: VariogramModel): Dense {
+function denseOk(x: number[], y: number[], z: number[], tx: number[], ty: number[], m: VariogramModel, ev: number[] | null = null): Dense {
   const n = x.length;
   const K = Matrix.zeros(n + 1, n + 1);
   for (let i = 0; i < n; i++) {
-    for (let j = 0; j < n; j++) K.set(i, j, covariance(m, Math.hypot(x[i] - x[j], y[i] - y[j])));
+    for (let j = 0; j < n; j++) K.set(i, j, covariance(m, Math.hypot(x[i] - x[j], y[i] - y[j])) + (i === j && ev !== null ? ev[i] : 0));
     K.set(i, n, 1); K.set(n, i, 1);
   }
   const lambda: number[][] = [], est: number[] = [], variance: number[] = [], c0s: number[][] = [];
@@ -105,6 +105,25 @@ describe('conditional simulation reproduces the kriging moments (dense ml-matrix
   it('lattice sampler (circulant embedding) with data and targets on nodes', () => {
     const { real, z } = checkMoments('lattice', { model: 'spherical', nugget: 0, partialSill: 10, rangeKm: 25 }, 2000);
     for (const v of real) expect(v[3]).toBeCloseTo(z[3], 8);
+  });
+  it('measurement errors: realizations of the true field match the error-filtered kriging (dense system with eᵢ² on the diagonal)', () => {
+    const m: VariogramModel = { model: 'spherical', nugget: 1, partialSill: 10, rangeKm: 30 };
+    const { x, y, z } = dataSet(7, 25, false);
+    const ev = x.map((_, i) => 1 + (i % 4));
+    const tx = [12, 30, x[3]], ty = [40, 22, y[3]];
+    const ref = denseOk(x, y, z, tx, ty, m, ev);
+    const sim = createConditionalSimulator({ x: Float64Array.from(x), y: Float64Array.from(y), z: Float64Array.from(z), tx: Float64Array.from(tx), ty: Float64Array.from(ty), model: m, neighbors: Infinity, sampler: 'cholesky', errorVariance: Float64Array.from(ev) });
+    const R = 4000;
+    const real: Float64Array[] = [];
+    sim.run(31, 0, R, (_r, v) => real.push(Float64Array.from(v)));
+    const { mean, cov } = moments(real, 3);
+    for (let t = 0; t < 3; t++) {
+      const s2 = ref.variance[t];
+      expect(Math.abs(mean[t] - ref.est[t])).toBeLessThan(4 * Math.sqrt(s2 / R));
+      expect(Math.abs(cov[t][t] - s2)).toBeLessThan(4 * s2 * Math.sqrt(2 / (R - 1)));
+    }
+    // On a noisy datum the true field keeps a spread (the datum is not honoured exactly).
+    expect(ref.variance[2]).toBeGreaterThan(0.5);
   });
   it('same realizations whatever the split into batches (one stream per realization)', () => {
     const { x, y, z } = dataSet(3, 12, true);
