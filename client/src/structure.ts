@@ -78,6 +78,17 @@ export class StructurePanel {
     this.isogradSummary = isogradSummary;
     this.isograds = isograds;
     this.render();
+    this.styleBands();
+  }
+
+  /** The 0.1 and 0.9 lines of each isograd (its probability band) draw fainter than the isograd, without ticks. */
+  private styleBands(): void {
+    const apply = () => {
+      if (this.map.getLayer('run-isograds')) this.map.setPaintProperty('run-isograds', 'line-opacity', ['case', ['==', ['coalesce', ['get', 'probability'], 0.5], 0.5], 1, 0.4]);
+      if (this.map.getLayer('run-isograds-ticks')) this.map.setFilter('run-isograds-ticks', ['==', ['coalesce', ['get', 'probability'], 0.5], 0.5]);
+    };
+    apply();
+    this.map.once('idle', apply);
   }
 
   private samplesOf(id: string): string[] {
@@ -112,8 +123,6 @@ export class StructurePanel {
     const reportCols: { label: string; value: (r: FaultReportRow) => unknown }[] = this.report.length === 0 ? [] : [
       { label: 'Grade jump (zones)', value: (r) => r.gradeJump },
       { label: 'Higher grade', value: (r) => r.higherWall ?? r.higherSide },
-      { label: 'Zones', value: (r) => zoneStatements(r) },
-      { label: 'Isograd separation (km)', value: (r) => (Array.isArray(r.separations) && r.separations.length > 0 ? (r.separations as { isograd: string; end: string; separationKm: { value: number; low: number; high: number } }[]).map((x) => `${x.isograd} ${x.end} ${fmt(x.separationKm.value, 1)} (${fmt(x.separationKm.low, 1)}–${fmt(x.separationKm.high, 1)})`) : null) },
     ];
     const faultRows = this.faults.features.map((f) => {
       const p = f.properties ?? {};
@@ -138,10 +147,23 @@ export class StructurePanel {
       el('tbody', {}, ...faultRows),
     );
     const parts: (HTMLElement | null)[] = [el('h3', {}, 'Faults'), faultRows.length > 0 ? el('div', { class: 'table-scroll' }, faultTable) : el('p', { class: 'empty' }, 'No faults in the data.'), el('p', { class: 'note', id: 'fault-selection', 'aria-live': 'polite' })];
+    // Each reported fault: its zone statements (with the samples behind them) and its separations.
+    const details = this.report.filter((r) => Array.isArray(r.separations) || Array.isArray(r.repeatedZones)).map((r) => faultDetails(r));
+    if (details.length > 0) parts.push(el('div', { id: 'fault-details' }, ...details));
     parts.push(el('h3', {}, 'Isograds'));
     if (this.isogradSummary.length > 0) {
-      const rows = this.isogradSummary.map((r) => el('tr', {}, el('td', {}, `${String(r.mineral ?? r.isograd ?? '—')}-in`), el('td', { class: 'num' }, formatCell(r.lines)), el('td', { class: 'num' }, formatCell(r.lengthKm)), el('td', { class: 'num' }, formatCell(r.samplesAbove)), el('td', { class: 'num' }, formatCell(r.samplesBelow))));
-      parts.push(el('table', { class: 'report', id: 'isograd-table' }, el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Isograd'), el('th', { scope: 'col' }, 'Lines'), el('th', { scope: 'col' }, 'Length (km)'), el('th', { scope: 'col' }, 'Samples above'), el('th', { scope: 'col' }, 'Samples below'))), el('tbody', {}, ...rows)));
+      const band = (r: Record<string, unknown>) => {
+        const b = r.bandWidthKm as { median: number; p10: number; p90: number } | null | undefined;
+        return b ? `${fmt(b.median, 1)} (${fmt(b.p10, 1)}–${fmt(b.p90, 1)})` : '—';
+      };
+      const against = (r: Record<string, unknown>) => {
+        const d = r.disagreeing as { id: string; says: string; probability: number }[] | undefined;
+        if (!Array.isArray(d) || d.length === 0) return '—';
+        return d.slice(0, 8).map((q) => `${q.id} (${q.says}, P ${fmt(q.probability, 2)})`).join(', ') + (d.length > 8 ? `, … ${d.length - 8} more` : '');
+      };
+      const rows = this.isogradSummary.map((r) => el('tr', {}, el('td', {}, `${String(r.mineral ?? r.isograd ?? '—')}-in`), el('td', { class: 'num' }, formatCell(r.lengthKm)), el('td', { class: 'num' }, band(r)), el('td', { class: 'num' }, `${formatCell(r.samplesAbove)} / ${formatCell(r.samplesBelow)}`), el('td', { class: 'wrap' }, against(r))));
+      parts.push(el('div', { class: 'table-scroll' }, el('table', { class: 'report', id: 'isograd-table', style: 'table-layout:fixed;width:100%;overflow-wrap:anywhere' }, el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Isograd'), el('th', { scope: 'col' }, 'Length (km)'), el('th', { scope: 'col', title: 'Width of the 0.1–0.9 probability band along the isograd: median (10th–90th percentile)' }, 'Band width (km)'), el('th', { scope: 'col' }, 'Samples above / below'), el('th', { scope: 'col', title: 'Samples on the other side of the isograd from what they record, with their leave-one-out probability of lying at or above it' }, 'Disagreeing samples'))), el('tbody', {}, ...rows))));
+      parts.push(el('p', { class: 'note' }, 'Each isograd is drawn with fainter lines where the probability of lying at or above it is 0.1 and 0.9: the band where it may lie.'));
     } else if (this.isograds === null) parts.push(el('p', { class: 'empty' }, 'Isograds are drawn from the samples by a run: none yet.'));
     else {
       const rows = this.isograds.features.map((f) => {
@@ -155,16 +177,31 @@ export class StructurePanel {
   }
 }
 
-/** The fault's zone statements in words: repeated, missing, not reached, offset only. */
-function zoneStatements(r: FaultReportRow): string {
-  const zones = (v: unknown) => (Array.isArray(v) ? (v as { zone: string }[]).map((z) => z.zone) : []);
-  const out: string[] = [];
-  const rep = zones(r.repeatedZones), mis = zones(r.missingZones);
-  if (rep.length > 0) out.push(`repeated: ${rep.join(', ')}`);
-  if (mis.length > 0) out.push(`missing: ${mis.join(', ')}`);
-  if (Array.isArray(r.notReached)) for (const n of r.notReached as { isograd: string; sideName: string }[]) out.push(`${n.isograd} not reached (${n.sideName})`);
-  if (r.offsetOnly === true) out.push('offset only');
-  return out.length > 0 ? out.join('; ') : '—';
+type SepRow = { isograd: string; end: string; separationKm: { value: number; low: number; high: number }; sense: string; displacedTowardHigherGrade?: string; dipSlipKm?: { value: number; low: number; high: number }; slipSense?: string };
+
+/** One fault's statements and separations, laid out to fit the panel's width. */
+function faultDetails(r: FaultReportRow): HTMLElement {
+  const items: HTMLElement[] = [];
+  const samples = (ids: unknown) => (Array.isArray(ids) && ids.length > 0 ? ` — samples ${ids.slice(0, 6).join(', ')}${ids.length > 6 ? `, … ${ids.length - 6} more` : ''}` : '');
+  for (const z of (r.repeatedZones as { zone: string; sampleIds: string[] }[] | undefined) ?? []) items.push(el('li', {}, `Repeated: ${z.zone}${samples(z.sampleIds)}`));
+  for (const z of (r.missingZones as { zone: string; between?: string[]; sampleIds: string[] }[] | undefined) ?? []) items.push(el('li', {}, `Missing: ${z.zone}${z.between ? ` (${z.between[0]} faces ${z.between[1]})` : ''}${samples(z.sampleIds)}`));
+  for (const n of (r.notReached as { isograd: string; sideName: string }[] | undefined) ?? []) items.push(el('li', {}, `${n.isograd} does not reach ${n.sideName === 'either side' ? 'either side' : `the ${n.sideName}`}`));
+  if (r.offsetOnly === true) items.push(el('li', {}, 'Offset only: no zone missing or repeated'));
+  const seps = (r.separations as SepRow[] | undefined) ?? [];
+  const range = (x: { value: number; low: number; high: number }) => `${fmt(x.value, 1)} (${fmt(x.low, 1)}–${fmt(x.high, 1)})`;
+  const sepTable = seps.length === 0 ? el('p', { class: 'empty' }, 'No isograd meets this fault on both sides.') : el(
+    'table',
+    { class: 'report separations', style: 'table-layout:fixed;width:100%;overflow-wrap:anywhere' },
+    el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Isograd'), el('th', { scope: 'col' }, 'End'), el('th', { scope: 'col', title: 'Apparent separation along the trace, with the range from the isograd\'s 0.1–0.9 probability band' }, 'Separation (km)'), el('th', { scope: 'col' }, 'Sense'), el('th', { scope: 'col', title: 'Dip-slip component for pure dip slip, d = s·tan r (r: pitch of the isograd\'s cutoff on the fault plane)' }, 'Dip slip (km)'))),
+    el('tbody', {}, ...seps.map((x) => el('tr', {}, el('td', {}, x.isograd), el('td', {}, x.end), el('td', { class: 'num' }, range(x.separationKm)), el('td', {}, `${x.sense}${x.displacedTowardHigherGrade ? `; up-grade: ${x.displacedTowardHigherGrade}` : ''}`), el('td', { class: 'num' }, x.dipSlipKm ? `${range(x.dipSlipKm)} ${x.slipSense ?? ''}` : '—')))),
+  );
+  const warnings = Array.isArray(r.warnings) ? (r.warnings as string[]) : [];
+  return el('section', { class: 'fault-detail', 'data-fault-detail': String(r.id) },
+    el('h4', {}, `${String(r.name ?? r.id)}${r.kind ? ` (${String(r.kind)})` : ''}`),
+    items.length > 0 ? el('ul', {}, ...items) : el('p', { class: 'empty' }, 'No zone statement: too few samples beside the trace.'),
+    el('div', { class: 'table-scroll' }, sepTable),
+    ...warnings.map((w) => el('p', { class: 'note' }, w)),
+  );
 }
 
 function formatCell(v: unknown): string {

@@ -29,7 +29,7 @@ export const isogradStage: ExtraLayerStage = {
     const model = compileModel(nominalModel(ctx.model), { maxDepthKm: request.maxDepthKm ?? 60 });
     const layer = isogradLayer(samples, faults, { model, heatFlowMWm2: undefined });
     for (const w of layer.report.warnings) ctx.warnings.push(`isograds: ${w}`);
-    ctx.summary.structure = { isograds: layer.report.isograds, faults: layer.report.faults, misfits: layer.report.misfits, paleoGradients: layer.report.paleoGradients, method: layer.report.method };
+    ctx.summary.structure = { isograds: layer.report.isograds, faults: layer.report.faults, samples: layer.report.samples, misfits: layer.report.misfits, paleoGradients: layer.report.paleoGradients, method: layer.report.method };
     const provenance = withMethod(ctx.provenance, `isograds: ${layer.report.method.indicator}`);
     const text = geojsonText(layer.lines, provenance);
     progress(1, 'isograds done');
