@@ -4,7 +4,7 @@ import type { Legend, RunLayerInfo } from '../../shared/schema/run.ts';
 export interface AppConfig {
   version: string;
   caution: string;
-  demo: { name: string; invented: boolean; datasets: Record<string, string> };
+  demo: { name: string; invented: boolean; datasets: Record<string, string>; projectId?: string };
   terrain: { tiles: string; bounds: [number, number, number, number]; minzoom: number; maxzoom: number; encoding: 'mapbox'; tileSize: number } | null;
 }
 

@@ -5,9 +5,11 @@
  */
 import type { GeoJSONSource } from 'maplibre-gl';
 import { ApiError, getJson, uploadDataset, type DatasetCreated } from './api.ts';
+import { featuresBbox, fitBbox, type Bbox } from './basemap.ts';
 import type { AppContext } from './context.ts';
 import { el, errorBox, problemTable, replace } from './dom.ts';
 import type { FeatureCollection } from './structure.ts';
+import { ProjectDataTable, newProjectControl, uploadToProject } from './project-data.ts';
 
 export type PointKind = 'sites' | 'samples' | 'faults';
 const EMPTY: FeatureCollection = { type: 'FeatureCollection', features: [] };
@@ -23,9 +25,16 @@ export class DataSets {
     this.listeners.push(fn);
   }
 
+  /** Where the data sets in use lie, [west, south, east, north] (null when there are no features). */
+  bounds(kinds: PointKind[] = ['sites', 'samples', 'faults']): Bbox | null {
+    const boxes = kinds.map((k) => featuresBbox(this.current[k])).filter((b): b is Bbox => b !== null);
+    if (boxes.length === 0) return null;
+    return [Math.min(...boxes.map((b) => b[0])), Math.min(...boxes.map((b) => b[1])), Math.max(...boxes.map((b) => b[2])), Math.max(...boxes.map((b) => b[3]))];
+  }
+
   /** Loads data set `id` as `kind`: the map source shows it and the listeners hear of it. */
   async load(kind: PointKind, id: string | undefined): Promise<void> {
-    if (id === undefined) return;
+    if (id === undefined || id === '') return;
     const url = `/api/datasets/${encodeURIComponent(id)}`;
     this.current[kind] = await getJson<FeatureCollection>(url).catch(() => EMPTY);
     (this.ctx.map.getSource(kind) as GeoJSONSource | undefined)?.setData(this.current[kind] as unknown as Parameters<GeoJSONSource['setData']>[0]);
@@ -33,17 +42,38 @@ export class DataSets {
   }
 }
 
-/** The data panel: uploads that become the data set of their kind in the page's run parameters. */
+/**
+ * The data panel: in a project, the project's data sets and uploads into it (every kind); elsewhere "New project"
+ * and loose uploads. An upload of sites, samples or faults becomes the run's data set of its kind and the view
+ * fits it.
+ */
 export function dataPanel(ctx: AppContext, data: DataSets, onParams: () => void): UploadPanel {
-  const upload = uploadPanel((d) => {
-    const kind = d.kind as PointKind;
+  const inProject = ctx.projectId !== null && ctx.editToken !== null;
+  let table: ProjectDataTable | null = null;
+  const use = (id: string, k: string, fit: boolean) => {
+    const kind = k as PointKind;
     if (kind !== 'sites' && kind !== 'samples' && kind !== 'faults') return;
-    ctx.state.params = { ...ctx.state.params, [kind]: d.id };
+    ctx.state.params = { ...ctx.state.params, [kind]: id };
     onParams();
-    void data.load(kind, d.id);
+    void data.load(kind, id).then(() => {
+      const b = data.bounds([kind]);
+      if (fit && b) fitBbox(ctx.map, b);
+      void table?.refresh();
+    });
     ctx.syncUrl();
-  });
+  };
+  const send = inProject ? (kind: string, name: string, text: string) => uploadToProject(ctx, kind, name, text) : uploadDataset;
+  const upload = uploadPanel((d) => {
+    use(d.id, d.kind, true);
+    void table?.refresh();
+  }, send, inProject ? ['sites', 'samples', 'faults', 'wells', 'regions', 'model'] : ['sites', 'samples', 'faults']);
   upload.root.prepend(el('h3', {}, 'Add data'));
+  if (ctx.projectId !== null) {
+    table = new ProjectDataTable(ctx, (d) => use(d.id, d.kind, false));
+    upload.root.prepend(el('h3', {}, 'Data sets of this project'), table.root);
+    void table.refresh();
+  }
+  if (!inProject) upload.root.prepend(el('h3', {}, 'Your own region'), el('p', { class: 'note' }, 'A project owns its data sets, model and runs, and is shared by link. Start one, then upload your data into it.'), newProjectControl(ctx));
   if (ctx.readOnly) upload.setEnabled(false);
   return upload;
 }
@@ -54,8 +84,10 @@ export interface UploadPanel {
 }
 
 /** Builds the upload panel; `onUploaded` receives the new data set (the caller shows it and uses it in runs). */
-export function uploadPanel(onUploaded: (d: DatasetCreated, fileName: string) => void): UploadPanel {
-  const kind = el('select', { id: 'upload-kind' }, el('option', { value: 'sites' }, 'heat-flow sites'), el('option', { value: 'samples' }, 'grade samples'), el('option', { value: 'faults' }, 'faults'));
+const UPLOAD_LABELS: Record<string, string> = { sites: 'heat-flow sites', samples: 'grade samples', faults: 'faults', wells: 'wells', regions: 'regions (model overrides, mask)', model: 'thermal model (JSON)' };
+
+export function uploadPanel(onUploaded: (d: DatasetCreated, fileName: string) => void, upload: (kind: string, name: string, text: string) => Promise<DatasetCreated> = uploadDataset, kinds = ['sites', 'samples', 'faults']): UploadPanel {
+  const kind = el('select', { id: 'upload-kind' }, ...kinds.map((k) => el('option', { value: k }, UPLOAD_LABELS[k] ?? k)));
   const input = el('input', { type: 'file', id: 'upload-file', accept: '.geojson,.json,.csv,.txt,application/geo+json,application/json,text/csv' });
   const drop = el('div', { class: 'dropzone', id: 'dropzone', tabindex: '0', role: 'button', 'aria-label': 'Drop a GeoJSON or CSV file here, or press Enter to choose one' }, 'Drop a GeoJSON or CSV file here, or ', el('span', { class: 'linkish' }, 'choose a file'));
   const report = el('div', { id: 'upload-report', 'aria-live': 'polite' });
@@ -66,7 +98,7 @@ export function uploadPanel(onUploaded: (d: DatasetCreated, fileName: string) =>
     replace(report, el('p', { class: 'loading' }, `Uploading ${file.name} as ${kind.value}…`));
     try {
       const text = await file.text();
-      const d = await uploadDataset(kind.value, file.name, text);
+      const d = await upload(kind.value, file.name, text);
       const warnings = d.warnings ?? [];
       replace(
         report,

@@ -3,6 +3,7 @@
  * stand for several MapLibre layers (a line and its labels) and may carry an extra control (the depth chooser).
  */
 import type { Map as MapLibreMap } from 'maplibre-gl';
+import { fitBbox } from './basemap.ts';
 import { el } from './dom.ts';
 import type { LayerState } from './state.ts';
 
@@ -20,6 +21,8 @@ export interface LayerEntry {
   /** Starting opacity, 0–1 (default 1). */
   defaultOpacity?: number;
   group: 'data' | 'run' | 'base';
+  /** Where the entry's content lies ([west, south, east, north]): offers "zoom to" when given. */
+  bounds?: () => [number, number, number, number] | null;
 }
 
 /** Paint properties that carry a layer type's opacity (hillshade has none: its exaggeration is scaled instead). */
@@ -76,10 +79,15 @@ export class LayerPanel {
       this.apply(entry.id);
       this.onChange();
     });
+    const zoom = entry.bounds ? el('button', { type: 'button', class: 'zoom-to', id: `zoom-${entry.id}`, 'aria-label': `zoom to ${entry.label}` }, 'zoom to') : null;
+    zoom?.addEventListener('click', () => {
+      const b = entry.bounds?.();
+      if (b) fitBbox(this.map, b);
+    });
     const section = el(
       'section',
       { class: 'layer', 'data-layer': entry.id },
-      el('div', { class: 'layer-head' }, el('label', { for: boxId }, box, entry.label)),
+      el('div', { class: 'layer-head' }, el('label', { for: boxId }, box, entry.label), zoom),
       el('div', { class: 'opacity-row' }, el('span', { class: 'muted' }, 'opacity'), slider, pct),
       entry.control ?? null,
       entry.legend,

@@ -16,7 +16,9 @@ import { defaultParams, decodeState, encodeState, stateFromJson, type AppState }
 import { showRunLayers } from './runlayers.ts';
 import { message, showError, tabs, type AppContext, type AppHandle } from './context.ts';
 import { columnPanel } from './column.ts';
-import { DataSets, dataPanel } from './data.ts';
+import { DataSets, dataPanel, type PointKind } from './data.ts';
+import { fitBbox, goToBox, installWorldBase } from './basemap.ts';
+import { cursorReadout } from './readout.ts';
 import { modelEditor } from './model.ts';
 import { runPanel, type RunPanel } from './run.ts';
 import { StructurePanel, faultReportOf, type FeatureCollection } from './structure.ts';
@@ -55,8 +57,23 @@ async function loadPage(): Promise<PageStart> {
     } catch (e) {
       restoreError = `The link's map state could not be read (${message(e)}); showing the defaults.`;
     }
-  }
+  } else state = await demoStart(cfg, state);
   return { cfg, state, projectId, editToken, restoreError };
+}
+
+/**
+ * The first page opens the demo finished: the demo project's default run (started by the server on first start)
+ * with depth to the first isotherm and the isograds shown; its progress is followed until it is done.
+ */
+async function demoStart(cfg: AppConfig, state: AppState): Promise<AppState> {
+  if (!cfg.demo.projectId) return state;
+  const p = await getJson<{ state: unknown }>(`/api/projects/${encodeURIComponent(cfg.demo.projectId)}`).catch(() => null);
+  const out = p ? stateFromJson(p.state, state) : state;
+  out.view = null;
+  out.title = state.title;
+  const iso = out.params.isothermsC[0] ?? 300;
+  if (out.runId) out.layers = { [`run-depth-${iso}C`]: { visible: true, opacity: 0.85 }, 'run-heat-flow': { visible: false, opacity: 0.85 }, ...out.layers };
+  return out;
 }
 
 function createMap(cfg: AppConfig, state: AppState): MapLibreMap {
@@ -104,8 +121,8 @@ async function showRun(ctx: AppContext, run: RunState, panels: { runs: RunPanel;
   ctx.syncUrl();
 }
 
-/** Builds the tool tabs and connects the panels; returns how to show a run. */
-function buildTools(ctx: AppContext, data: DataSets, demoModel: ReturnType<typeof parseThermalModel>): (run: RunState) => Promise<void> {
+/** Builds the tool tabs and connects the panels; returns how to show a run, and how to follow one still running. */
+function buildTools(ctx: AppContext, data: DataSets, demoModel: ReturnType<typeof parseThermalModel>): { show: (run: RunState) => Promise<void>; follow: (id: string) => void } {
   const { state } = ctx;
   const editor = modelEditor(state.model ?? demoModel, (m) => {
     if (m) state.model = m;
@@ -114,7 +131,8 @@ function buildTools(ctx: AppContext, data: DataSets, demoModel: ReturnType<typeo
   const structure = new StructurePanel(ctx.map);
   const section = sectionPanel(ctx);
   let show: (run: RunState) => Promise<void> = async () => undefined;
-  const runs = runPanel({ params: state.params, model: () => editor.value(), onParams: (p) => ((state.params = p), ctx.syncUrl()), onDone: (run) => void show(run).catch((e: unknown) => ctx.showError(message(e))) });
+  const submitTo = (): { path: string; headers: Record<string, string> } => (ctx.projectId !== null && ctx.editToken !== null ? { path: `/api/projects/${encodeURIComponent(ctx.projectId)}/runs`, headers: { authorization: `Bearer ${decodeURIComponent(ctx.editToken)}` } } : { path: '/api/runs', headers: {} });
+  const runs = runPanel({ params: state.params, model: () => editor.value(), onParams: (p) => ((state.params = p), ctx.syncUrl()), onDone: (run) => void show(run).catch((e: unknown) => ctx.showError(message(e))), submitTo });
   show = (run) => showRun(ctx, run, { runs, structure, section });
   const column = columnPanel(ctx, { model: () => editor.value(), sites: () => data.current.sites });
   const upload = dataPanel(ctx, data, () => runs.setParams(state.params));
@@ -136,7 +154,7 @@ function buildTools(ctx: AppContext, data: DataSets, demoModel: ReturnType<typeo
     runs.setEnabled(false);
     for (const id of ['data', 'model', 'run']) document.getElementById(`tabpanel-${id}`)!.prepend(el('p', { class: 'note readonly-note' }, 'Read-only view: open the edit link to change this project.'));
   }
-  return show;
+  return { show, follow: (id) => runs.follow(id) };
 }
 
 async function start(): Promise<void> {
@@ -147,7 +165,7 @@ async function start(): Promise<void> {
   const demoModel = getJson<unknown>(`/api/datasets/${encodeURIComponent(ds.model)}`).then((m) => parseThermalModel(m, 'demo model'));
   const readOnly = projectId !== null && editToken === null;
   document.getElementById('caution')!.textContent = cfg.caution;
-  document.getElementById('region-name')!.textContent = `${cfg.demo.name} — invented demo region`;
+  document.getElementById('region-name')!.textContent = projectId !== null ? '' : `${cfg.demo.name} — invented demo region`;
   document.getElementById('readonly-badge')!.hidden = !readOnly;
   if (projectId !== null) document.getElementById('project-title')!.textContent = state.title;
   document.body.classList.toggle('read-only', readOnly);
@@ -163,16 +181,24 @@ async function start(): Promise<void> {
   if (restoreError) showError(restoreError);
   await new Promise<void>((r) => (map.isStyleLoaded() ? r() : map.once('load', () => r())));
   (map.getSource('sea-mask') as GeoJSONSource | undefined)?.setData(seaMask(await getJson<Parameters<typeof seaMask>[0]>(`/api/datasets/${encodeURIComponent(ds.regions)}`)));
-  for (const entry of legendEntries()) layerPanel.add(entry);
+  void installWorldBase(map).catch((e: unknown) => console.error(`world base: ${message(e)}`));
+  document.getElementById('map')!.append(cursorReadout(map));
+  document.querySelector('.topbar .spacer')!.before(goToBox(map));
   const data = new DataSets(ctx);
+  for (const entry of legendEntries()) layerPanel.add({ ...entry, ...(entry.id in data.current ? { bounds: () => data.bounds([entry.id as PointKind]) } : {}) });
   const show = buildTools(ctx, data, await demoModel);
-  await Promise.all([data.load('sites', state.params.sites), data.load('samples', state.params.samples ?? ds.samples), data.load('faults', state.params.faults ?? ds.faults)]);
+  const own = (k: 'samples' | 'faults') => state.params[k] ?? (projectId === null ? ds[k] : undefined);
+  await Promise.all([data.load('sites', state.params.sites), data.load('samples', own('samples')), data.load('faults', own('faults'))]);
+  // A project opened without a saved view fits its data.
+  const dataBox = data.bounds();
+  if (projectId !== null && state.view === null && dataBox) fitBbox(map, dataBox, false);
 
-  // A saved run comes back with the state.
+  // A saved run comes back with the state; one still running (the demo's first start) is followed until done.
   if (state.runId) {
     try {
       const run = await getJson<RunState>(`/api/runs/${encodeURIComponent(state.runId)}`);
-      if (run.status === 'done') await show(run);
+      if (run.status === 'done') await show.show(run);
+      else if (run.status === 'queued' || run.status === 'running') show.follow(run.id);
     } catch (e) {
       showError(`The saved run ${state.runId} could not be loaded: ${message(e)}`);
     }

@@ -184,6 +184,8 @@ interface RunOptions {
   model: () => unknown;
   onParams: (p: RunParams) => void;
   onDone: (run: RunState) => void;
+  /** Where runs go (a project's runs route with its edit token, else POST /api/runs). */
+  submitTo?: () => { path: string; headers: Record<string, string> };
 }
 
 /** The panel's behaviour: the form, the run it follows, its buttons. */
@@ -270,7 +272,8 @@ class RunController {
     this.progress.set(0, 'submitting');
     replace(this.summary);
     try {
-      const { id, runToken } = await sendJson<{ id: string; runToken?: string }>('POST', '/api/runs', runBody(p, model));
+      const to = this.opts.submitTo?.() ?? { path: '/api/runs', headers: {} };
+      const { id, runToken } = await sendJson<{ id: string; runToken?: string }>('POST', to.path, runBody(p, model), to.headers);
       this.follow(id);
       this.runToken = runToken ?? null;
     } catch (e) {

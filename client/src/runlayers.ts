@@ -9,21 +9,24 @@ import { ApiError, getJson, type RunLayer, type RunState, type TileInfo } from '
 import { el } from './dom.ts';
 import type { LayerEntry, LayerPanel } from './layers.ts';
 import { legendFromSpec } from './legend.ts';
-import { colorReliefExpression, RESIDUAL_COLORS } from './style.ts';
+import { readableRasters } from './readout.ts';
+import { BASE_TOP, colorReliefExpression, RESIDUAL_COLORS } from './style.ts';
 import { ZONE_COLORS } from '../../shared/grid/ramps.ts';
 
 const FONT = ['DejaVu Sans', 'sans-serif'];
 /**
- * Draw order: run rasters under the run's contours, both under the sea mask (grids and their contours may extend
- * offshore); isograds and residual symbols above the data outlines.
+ * Draw order: the whole base (land, sea mask, relief, coastlines, graticule) under every computed layer, so results
+ * show wherever they lie; run rasters under the run's contours, both under the data; isograds and residual symbols
+ * above the data outlines.
  */
 function rasterBefore(map: MapLibreMap): string | undefined {
   const first = map.getStyle().layers.find((l) => l.id.startsWith('run-') && l.type !== 'color-relief' && l.type !== 'raster');
-  return first?.id ?? (map.getLayer('sea-mask') ? 'sea-mask' : undefined);
+  return first?.id ?? (map.getLayer(BASE_TOP) ? BASE_TOP : undefined);
 }
 function vectorBefore(map: MapLibreMap, layer: RunLayer): string | undefined {
-  const under = layer.contourOf !== undefined ? 'sea-mask' : 'fault-highlight';
-  return map.getLayer(under) ? under : undefined;
+  if (layer.contourOf === undefined) return map.getLayer(BASE_TOP) ? BASE_TOP : undefined;
+  const firstVector = map.getStyle().layers.find((l) => l.id.startsWith('run-') && l.type !== 'color-relief' && l.type !== 'raster' && !/_contours/.test(l.id));
+  return firstVector?.id ?? (map.getLayer(BASE_TOP) ? BASE_TOP : undefined);
 }
 
 export interface RunLayerGroup {
@@ -238,6 +241,16 @@ export interface ShownRun {
   depthsKm: number[];
 }
 
+/** The run's grid extent, [west, south, east, north] (lon/lat grids), else its sites' extent when it reports one. */
+export function runBounds(run: RunState): [number, number, number, number] | null {
+  const g = run.summary?.grid as { west?: number; north?: number; dx?: number; dy?: number; width?: number; height?: number; crs?: string; bbox?: number[] } | undefined;
+  if (g && Array.isArray(g.bbox) && g.bbox.length === 4) return g.bbox as [number, number, number, number];
+  if (g && g.crs === 'EPSG:4326' && [g.west, g.north, g.dx, g.dy, g.width, g.height].every((v) => typeof v === 'number')) {
+    return [g.west!, g.north! - g.dy! * g.height!, g.west! + g.dx! * g.width!, g.north!];
+  }
+  return null;
+}
+
 type ShowOptions = { depthKm: number | null; onDepth: (d: number) => void; onError: (msg: string) => void };
 
 /** No tile service for run layers on this server: place the run's own coloured PNG of the whole grid by its
@@ -266,6 +279,7 @@ async function drawRaster(map: MapLibreMap, run: RunState, layer: RunLayer, id: 
   const legend = layer.legend;
   const noLegend = ['interpolate', ['linear'], ['elevation'], t.noDataValue, 'rgba(0,0,0,0)', t.noDataValue + Math.abs(t.blueFactor || 1), '#888888'] as unknown as ExpressionSpecification;
   map.addLayer({ id, type: 'color-relief', source: `${id}-src`, metadata: { runLayer: layer.name }, paint: { 'color-relief-color': legend ? colorReliefExpression(legend, t) : noLegend } }, rasterBefore(map));
+  readableRasters.set(id, { tile: t, units: legend?.units || layer.units, title: layer.title });
   legendBox.replaceChildren(legendFromSpec(legend, layer.units));
   if (legend?.type === 'ramp') {
     legendBox.append(
@@ -300,7 +314,7 @@ async function showGroup(map: MapLibreMap, panel: LayerPanel, run: RunState, g: 
   };
   const legendBox = el('div', { class: 'legend-box' });
   const extraBox = el('div', {});
-  const entry: LayerEntry = { id, label: depthIndexed ? g.title : first.title, layers: [], legend: legendBox, extra: extraBox, group: 'run', defaultOpacity: first.kind === 'raster' ? 0.85 : 1, defaultVisible: visible };
+  const entry: LayerEntry = { id, label: depthIndexed ? g.title : first.title, layers: [], legend: legendBox, extra: extraBox, group: 'run', defaultOpacity: first.kind === 'raster' ? 0.85 : 1, defaultVisible: visible, bounds: () => runBounds(run) };
   const draw = async (choice: { depthKm: number | null; layer: RunLayer }) => {
     removeMapLayers(map, id);
     if (choice.layer.kind === 'raster') {

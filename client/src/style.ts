@@ -3,6 +3,9 @@ import { EMBER, ZONE_COLORS, FAULT_STYLE, rampStops } from '../../shared/grid/ra
 import type { AppConfig, TileInfo } from './api.ts';
 import type { Legend } from '../../shared/schema/run.ts';
 
+/** The first layer above the base: computed layers are inserted below it, so they draw over land and sea alike. */
+export const BASE_TOP = 'fault-highlight';
+
 /** The heat-flow range the site colours span, mW/m². */
 export const HEAT_FLOW_RANGE: [number, number] = [35, 125];
 
@@ -24,9 +27,12 @@ function faultProp<K extends 'color' | 'width'>(key: K, fallback: string | numbe
 /** The layers over the base: the sea mask and coast, the data (faults, samples, sites) and the section line. */
 function overlayLayers(): LayerSpecification[] {
   return [
-    // The sea is drawn over the relief so the shaded sea floor never shows through.
+    // The sea is drawn over the demo's relief so the shaded sea floor never shows through: it masks the base only.
+    // Computed layers go above BASE_TOP (run rasters, then their contours), under the data.
     { id: 'sea-mask', type: 'fill', source: 'sea-mask', paint: { 'fill-color': '#dfe6ea' } },
+    { id: 'world-coast', type: 'line', source: 'world-land', paint: { 'line-color': '#7d8d97', 'line-width': 0.8 } },
     { id: 'coast', type: 'line', source: 'outline', paint: { 'line-color': '#6c7f8c', 'line-width': 1.2 } },
+    { id: 'graticule', type: 'line', source: 'graticule', paint: { 'line-color': '#8a97a0', 'line-width': 0.5, 'line-opacity': 0.6, 'line-dasharray': [4, 3] } },
     {
       id: 'fault-highlight',
       type: 'line',
@@ -85,6 +91,12 @@ function overlayLayers(): LayerSpecification[] {
         'circle-stroke-width': ['match', ['get', 'quality'], 'high', 1.8, 'medium', 1.2, 0.8],
       },
     },
+  ];
+}
+
+/** The topmost layers: the section line being drawn and the graticule's degree labels. */
+function topLayers(): LayerSpecification[] {
+  return [
     {
       id: 'section-line',
       type: 'line',
@@ -98,6 +110,13 @@ function overlayLayers(): LayerSpecification[] {
       source: 'section-line',
       filter: ['==', ['geometry-type'], 'Point'],
       paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': '#111111', 'circle-stroke-width': 2 },
+    },
+    {
+      id: 'graticule-labels',
+      type: 'symbol',
+      source: 'graticule',
+      layout: { 'symbol-placement': 'line', 'symbol-spacing': 420, 'text-field': ['get', 'label'], 'text-font': ['DejaVu Sans', 'sans-serif'], 'text-size': 10, 'text-keep-upright': true },
+      paint: { 'text-color': '#4d5a63', 'text-halo-color': '#f4f6f7', 'text-halo-width': 1.5 },
     },
   ];
 }
@@ -115,13 +134,17 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
     sources: {
       outline: { type: 'geojson', data: url(ds.regions) },
       'sea-mask': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
-      faults: { type: 'geojson', data: url(ds.faults) },
-      samples: { type: 'geojson', data: url(ds.samples) },
-      sites: { type: 'geojson', data: url(ds.sites) },
+      'world-land': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
+      graticule: { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
+      // The data sources start empty: the page fills them with the data sets the state names (a new project none).
+      faults: { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
+      samples: { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
+      sites: { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
       'section-line': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
     },
     layers: [
       { id: 'sea', type: 'background', paint: { 'background-color': '#dfe6ea' } },
+      { id: 'world-land', type: 'fill', source: 'world-land', paint: { 'fill-color': '#efebe2' } },
       { id: 'land', type: 'fill', source: 'outline', paint: { 'fill-color': '#f1ede4' } },
     ],
   };
@@ -142,7 +165,7 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
       paint: { 'hillshade-exaggeration': 0.85, 'hillshade-shadow-color': '#4a4540', 'hillshade-highlight-color': '#ffffff', 'hillshade-accent-color': '#8a8276' },
     });
   }
-  style.layers.push(...overlayLayers());
+  style.layers.push(...overlayLayers(), ...topLayers());
   return style;
 }
 

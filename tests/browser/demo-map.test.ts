@@ -16,6 +16,9 @@ beforeAll(async () => {
   page.on('request', (r) => requests.push(r.url()));
   await page.goto(server.url);
   await waitForMapIdle(page);
+  // The data sources are filled once the page has read its state: wait for that, then for the map again.
+  await page.evaluate(() => window.subtherm!.ready);
+  await waitForMapIdle(page);
 }, 180_000);
 
 afterAll(async () => {

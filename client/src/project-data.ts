@@ -1,0 +1,139 @@
+/**
+ * The data sets a project owns (GET /api/projects/:id/datasets): kind, name, feature count, extent and upload
+ * time, each with use-in-runs, zoom to, rename, remove and download; uploads of every kind go into the project.
+ * Changes carry the project's edit token; a read-only page lists and downloads only. "New project" starts an empty
+ * project and opens its edit link.
+ */
+import { ApiError, getJson, sendJson, type Problem } from './api.ts';
+import { fitBbox, type Bbox } from './basemap.ts';
+import { message, type AppContext } from './context.ts';
+import { el, errorBox, replace } from './dom.ts';
+import { defaultParams, stateToJson } from './state.ts';
+
+export interface ProjectDataset {
+  id: string;
+  kind: string;
+  name: string;
+  featureCount: number;
+  bbox: Bbox | null;
+  uploadedAt: string;
+  url: string;
+}
+
+const KIND_LABELS: Record<string, string> = { sites: 'heat-flow sites', samples: 'grade samples', faults: 'faults', wells: 'wells', regions: 'regions', model: 'thermal model' };
+
+function auth(ctx: AppContext): Record<string, string> {
+  return ctx.editToken ? { authorization: `Bearer ${decodeURIComponent(ctx.editToken)}` } : {};
+}
+
+/** Uploads a file's text into the project as `kind` (CSV as text/csv, JSON models as JSON, the rest as GeoJSON). */
+export async function uploadToProject(ctx: AppContext, kind: string, fileName: string, text: string): Promise<ProjectDataset & { warnings: (string | Problem)[] }> {
+  const csv = /\.(csv|txt)$/i.test(fileName);
+  const type = csv ? 'text/csv' : kind === 'model' ? 'application/json' : 'application/geo+json';
+  const name = fileName.replace(/\.[A-Za-z0-9]+$/, '').slice(0, 120) || fileName;
+  const res = await fetch(`/api/projects/${encodeURIComponent(ctx.projectId!)}/datasets?kind=${encodeURIComponent(kind)}&name=${encodeURIComponent(name)}`, { method: 'POST', headers: { accept: 'application/json', 'content-type': type, ...auth(ctx) }, body: text });
+  const body = (await res.json().catch(() => null)) as (ProjectDataset & { warnings: (string | Problem)[] }) | { error?: { message?: string; details?: [] } } | null;
+  if (!res.ok) {
+    const e = (body as { error?: { message?: string; details?: []; code?: string } } | null)?.error;
+    throw new ApiError(e?.message ?? `${res.status} ${res.statusText}`, res.status, e?.details ?? [], e?.code ?? '');
+  }
+  const d = body as ProjectDataset & { warnings?: (string | Problem)[] };
+  return { ...d, warnings: d.warnings ?? [] };
+}
+
+/** Starts an empty project (no data sets, the current model) and opens its edit link. */
+export async function newProject(ctx: AppContext, title: string): Promise<void> {
+  const state = { ...stateToJson(ctx.state), runId: null, view: null, layers: {}, title, params: { ...defaultParams({}), sites: '', samples: undefined, faults: undefined } };
+  const r = await sendJson<{ id: string; editUrl: string }>('POST', '/api/projects', { title, state });
+  window.location.assign(new URL(r.editUrl, window.location.origin).href);
+}
+
+function bboxText(b: Bbox | null): string {
+  if (!b) return '—';
+  const f = (v: number) => v.toFixed(2);
+  return `${f(b[0])}…${f(b[2])}°E, ${f(b[1])}…${f(b[3])}°N`;
+}
+
+/** The table of the project's data sets; `onUse` makes one the run's data set of its kind. */
+export class ProjectDataTable {
+  readonly root = el('div', { id: 'project-datasets' });
+  private list: ProjectDataset[] = [];
+
+  constructor(
+    private readonly ctx: AppContext,
+    private readonly onUse: (d: ProjectDataset) => void,
+  ) {}
+
+  datasets(): ProjectDataset[] {
+    return this.list;
+  }
+
+  async refresh(): Promise<void> {
+    if (this.ctx.projectId === null) return;
+    try {
+      const r = await getJson<{ datasets: ProjectDataset[] }>(`/api/projects/${encodeURIComponent(this.ctx.projectId)}/datasets`);
+      this.list = r.datasets;
+      this.render();
+    } catch (e) {
+      replace(this.root, errorBox(`Data sets: ${message(e)}`));
+    }
+  }
+
+  private async change(method: 'PATCH' | 'DELETE', d: ProjectDataset, body?: unknown): Promise<void> {
+    try {
+      const res = await fetch(d.url, { method, headers: { accept: 'application/json', ...(body ? { 'content-type': 'application/json' } : {}), ...auth(this.ctx) }, body: body ? JSON.stringify(body) : undefined });
+      if (!res.ok) throw new Error(((await res.json().catch(() => null)) as { error?: { message?: string } } | null)?.error?.message ?? `${res.status}`);
+      await this.refresh();
+    } catch (e) {
+      this.root.prepend(errorBox(`${d.name}: ${message(e)}`));
+    }
+  }
+
+  private row(d: ProjectDataset): HTMLElement {
+    const editable = this.ctx.editToken !== null;
+    const used = Object.values(this.ctx.state.params).includes(d.id);
+    const btn = (label: string, fn: () => void, cls = '') => {
+      const b = el('button', { type: 'button', class: `small ${cls}`, 'data-action': label }, label);
+      b.addEventListener('click', fn);
+      return b;
+    };
+    const actions = el('td', { class: 'actions' });
+    if (['sites', 'samples', 'faults'].includes(d.kind) && editable) actions.append(btn(used ? 'in use' : 'use', () => this.onUse(d)));
+    if (d.bbox) actions.append(btn('zoom to', () => fitBbox(this.ctx.map, d.bbox!)));
+    if (editable) {
+      actions.append(btn('rename', () => {
+        const name = window.prompt('New name for this data set', d.name);
+        if (name !== null && name.trim() !== '' && name !== d.name) void this.change('PATCH', d, { name: name.trim() });
+      }));
+      actions.append(btn('remove', () => {
+        if (window.confirm(`Remove "${d.name}" from this project? Runs that used it keep their copy.`)) void this.change('DELETE', d);
+      }));
+    }
+    actions.append(el('a', { href: d.url, download: '', class: 'dl' }, 'download'));
+    return el('tr', { 'data-dataset': d.id, 'data-kind': d.kind }, el('td', {}, KIND_LABELS[d.kind] ?? d.kind), el('td', { class: 'name' }, d.name, used ? el('span', { class: 'muted' }, ' (in the run)') : null), el('td', { class: 'num' }, String(d.featureCount)), el('td', { class: 'bbox' }, bboxText(d.bbox)), el('td', {}, new Date(d.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')), actions);
+  }
+
+  private render(): void {
+    if (this.list.length === 0) {
+      replace(this.root, el('p', { class: 'empty' }, 'This project holds no data sets yet: upload heat-flow sites below to begin.'));
+      return;
+    }
+    const head = el('tr', {}, ...['Kind', 'Name', 'Features', 'Extent', 'Uploaded (UTC)', ''].map((h) => el('th', { scope: 'col' }, h)));
+    replace(this.root, el('div', { class: 'table-scroll' }, el('table', { class: 'report datasets' }, el('thead', {}, head), el('tbody', {}, ...this.list.map((d) => this.row(d))))));
+  }
+}
+
+/** The "New project" control: a title and a button. */
+export function newProjectControl(ctx: AppContext): HTMLElement {
+  const title = el('input', { id: 'new-project-title', placeholder: 'Project title', maxlength: '200', value: 'My region' });
+  const btn = el('button', { type: 'button', id: 'new-project', class: 'primary' }, 'New project');
+  const out = el('div', { 'aria-live': 'polite' });
+  btn.addEventListener('click', () => {
+    btn.disabled = true;
+    newProject(ctx, title.value.trim() || 'Untitled project').catch((e: unknown) => {
+      btn.disabled = false;
+      replace(out, e instanceof ApiError ? errorBox(e.message, e.details) : errorBox(message(e)));
+    });
+  });
+  return el('div', { class: 'new-project' }, el('div', { class: 'field-row' }, el('label', { for: title.id }, 'Title'), title), el('div', { class: 'button-row' }, btn), out);
+}
