@@ -187,7 +187,8 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
     ],
     heatInPlace: 'volumetric method (Muffler & Cataldi 1978; Williams, Reed & Mariner 2008, USGS OFR 2008-1296): heat in place = ρC · ∫ (T(z) − Tref) dz · cell area, over the rock at or above Tmin between topKm and bottomKm, along each cell\'s steady-state conductive geotherm',
     recoverable: 'recoverable (wellhead) heat = recovery factor Rg × heat in place',
-    reservoirTemperature: 'each column\'s ρC-weighted mean temperature of the rock at or above Tmin (TR of W/Q); T0 of W/Q = Tref',
+    reservoirTemperature: 'each column\'s ρC-weighted mean temperature of the rock at or above Tmin (reported as TR); T0 = Tref',
+    availableWork: 'available work integrated over each column\'s temperature profile, ρC·∫[(T − T0) − T0·ln(T/T0)] dz (kelvin), not from its mean temperature',
     quadrature: `Gauss–Legendre, ${DEFAULT_GL_ORDER} points on each piece between the Tmin isotherm and the layer boundaries (the only kinks of the geotherm); Monte Carlo cells by cubic interpolation in one heat-flow table per realization, split at the heat flows where the integrand's domain changes`,
     cellMembership: 'a cell belongs to the polygon (or a region) when its centre is inside; boundary cells count wholly or not at all',
     cellArea:

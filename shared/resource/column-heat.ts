@@ -9,11 +9,13 @@
  * boundaries: exact for a constant-k layer with constant heat production (T quadratic), and converging
  * exponentially otherwise (the tests bound the error against a rule 256 times finer).
  *
- * Besides ∫(T − Tref) dz the kernel returns the hot thickness h and the available-work integral
- *   X = G − T0·h·ln(1 + G/(h·T0)),   G = ∫(T − Tref) dz,  T0 = Tref in kelvin,
- * which is h·[(TR − T0) − T0·ln(TR/T0)] for the column's mean reservoir temperature TR = Tref + G/h (the ρC-weighted
- * mean, ρC being constant): ρC·X is the column's available work (exergy) per unit area, so that
- * X/G = 1 − T0·ln(TR/T0)/(TR − T0), the W/Q of a constant-heat-capacity fluid (see exergy.ts).
+ * Besides ∫(T − Tref) dz the kernel returns the hot thickness h and the available-work integral, taken over the
+ * temperature profile itself (the same quadrature):
+ *   X = ∫ [(T − T0) − T0·ln(T/T0)] dz,   T0 = Tref in kelvin,
+ * the exergy per ρC of each slice of rock cooled reversibly to T0 (constant heat capacity; DiPippo 2008,
+ * "Geothermal Power Plants", §10 exergy of a body, from memory). ρC·X is the column's available work per unit
+ * area. Because (T − T0) − T0·ln(T/T0) is convex in T, X exceeds the value from the column's mean temperature,
+ * exergyIntegral(G, h, T0) = h·[(TR − T0) − T0·ln(TR/T0)], TR = Tref + G/h (kept for comparison).
  * Where the column is not valid below some depth (heat flow exhausted by the heat production), only its valid part
  * is counted and the caller is told.
  */
@@ -106,10 +108,10 @@ export function columnHeatSolved(cm: CompiledModel, st: ColumnState, w: HeatWind
   if (!(zIso === zIso)) return out; // Tmin not reached above zEnd
   const za = zIso > w.topKm ? zIso : w.topKm;
   if (!(zEnd > za)) return out;
-  const tRef = w.refTempC;
+  const tRef = w.refTempC, t0K = tRef + KELVIN_OFFSET;
   const { x, w: wt, n } = sc.rule;
   const pieces = sc.pieces;
-  let sum = 0;
+  let sum = 0, sumX = 0;
   let i = layerAt(cm, za);
   let a = za;
   while (a < zEnd) {
@@ -121,9 +123,15 @@ export function columnHeatSolved(cm: CompiledModel, st: ColumnState, w: HeatWind
       for (let p = 0; p < pieces; p++) {
         const lo = a + p * step;
         const half = 0.5 * step, mid = lo + half;
-        let s = 0;
-        for (let k = 0; k < n; k++) s += wt[k] * (layerTemperature(cm, i, tTop, qTop, mid + half * x[k] - top) - tRef);
+        let s = 0, sx = 0;
+        for (let k = 0; k < n; k++) {
+          const d = layerTemperature(cm, i, tTop, qTop, mid + half * x[k] - top) - tRef;
+          s += wt[k] * d;
+          // Available work of rock at T cooled to T0 per ρC: (T − T0) − T0·ln(T/T0), kelvin, cancellation-free.
+          sx += wt[k] * (d - t0K * Math.log1p(d / t0K));
+        }
         sum += s * half;
+        sumX += sx * half;
       }
     }
     a = b;
@@ -134,7 +142,7 @@ export function columnHeatSolved(cm: CompiledModel, st: ColumnState, w: HeatWind
   const h = (zEnd - za) * 1000;
   out.heatKm = g;
   out.thicknessM = h;
-  out.exergyKm = exergyIntegral(g, h, tRef + KELVIN_OFFSET);
+  out.exergyKm = sumX * 1000;
   return out;
 }
 

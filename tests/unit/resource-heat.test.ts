@@ -79,8 +79,13 @@ describe('column heat against closed forms', () => {
     expect(out.thicknessM).toBeCloseTo(3250, 9);
     // Mean reservoir temperature 208.5 °C, the mean of a linear profile from 150 to 267 °C.
     expect(15 + out.heatKm / out.thicknessM).toBeCloseTo(208.5, 9);
+    // Available work integrated over the profile: X = ∫[(T − T0) − T0·ln(T/T0)] dz (kelvin) = [F(Tb) − F(Ta)]/γ with
+    // F(u) = u²/2 − T0·u·ln(u/T0) (antiderivative in u), γ = 0.036 K/m, Ta = 150 °C, Tb = 267 °C.
     const t0 = 288.15, tr = 208.5 + 273.15;
-    expect(out.exergyKm).toBeCloseTo(3250 * (tr - t0 - t0 * Math.log(tr / t0)), 6);
+    const F = (u: number) => (u * u) / 2 - t0 * u * Math.log(u / t0);
+    expect(out.exergyKm).toBeCloseTo((F(267 + 273.15) - F(150 + 273.15)) / 0.036, 4);
+    // From the mean temperature instead the value is lower (the integrand is convex in T).
+    expect(out.exergyKm).toBeGreaterThan(3250 * (tr - t0 - t0 * Math.log(tr / t0)));
   });
 
   it('constant heat production, two layers: closed form per layer', () => {

@@ -105,6 +105,10 @@ describe('subtherm geotherm', () => {
     expect(at3.porePressureMPa).toBeCloseTo(29.43, 6);
     expect(at3.poreFluidFactor).toBeCloseTo(0.4, 6);
     expect(at3.effectivePressureMPa).toBeCloseTo(44.145, 6);
+  });
+
+  it('takes a fixed pore-fluid factor with --pore-pressure lambda:0.7 and refuses bad ones', () => {
+    const m = { surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ bottomKm: 10, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2500 }] };
     // A fixed λ = 0.7: Pf = 0.7 × 73.575 = 51.5025 MPa, effective 22.0725 MPa, and the hazard warning (λ ≥ 0.6).
     const k = JSON.parse(run(m, ['--step-km', '1', '--max-depth-km', '10', '--pore-pressure', 'lambda:0.7', '--json']).out);
     const k3 = k.profile.find((p: { depthKm: number }) => p.depthKm === 3);
@@ -113,7 +117,6 @@ describe('subtherm geotherm', () => {
     expect(k3.effectivePressureMPa).toBeCloseTo(22.0725, 6);
     expect(k.warnings.some((w: string) => w.includes('hydraulic-fracturing'))).toBe(true);
     expect(run(m, ['--pore-pressure', 'lambda:x', '--json']).code).toBe(2);
-    expect(run(m, ['--fluid-density-kg-m3', '-5', '--json']).code).toBe(2);
   });
 
   it('exits 2 on NaN options and unreadable JSON', () => {
