@@ -3,7 +3,7 @@
  * leave-one-out cross-validation summary.
  */
 import { semivariance, type VariogramModel } from '../../shared/interp/variogram.ts';
-import type { CrossValidation, RunState, Variogram } from './api.ts';
+import { getJson, type CrossValidation, type RunState, type Variogram } from './api.ts';
 import { el, fmt, niceTicks, svg } from './dom.ts';
 
 /** The variogram and cross-validation blocks of a run summary (whatever of them the run has). */
@@ -65,4 +65,38 @@ function cvTable(cv: CrossValidation): HTMLElement {
   if (typeof cv.n === 'number') rows.push(['Points', String(cv.n)]);
   const filled = rows.filter(([, v]) => v !== '—');
   return el('table', { class: 'kv', id: 'cv-summary' }, el('tbody', {}, ...filled.map(([k, v]) => el('tr', {}, el('th', { scope: 'row' }, k), el('td', { class: 'num' }, v)))));
+}
+
+/**
+ * Uncertainty from the run's realizations: the spread (P90 − P10, km) of the depth to an isotherm and the
+ * probability that the depth to an isotherm is shallower than a typed depth (GET /api/runs/:id/spread and
+ * …/probability). Each becomes one of the run's layers, with its legend and units; `onLayer` redraws the run.
+ */
+export function uncertaintyControls(run: RunState, onLayer: (run: RunState) => void): HTMLElement {
+  const iso = el('input', { id: 'unc-isotherm', type: 'number', step: 'any', value: String((run.request?.isothermsC as number[] | undefined)?.[0] ?? 300), class: 'num' });
+  const km = el('input', { id: 'unc-depth', type: 'number', step: 'any', min: '0', value: '5', class: 'num' });
+  const spreadBtn = el('button', { type: 'button', id: 'unc-spread' }, 'Spread layer');
+  const probBtn = el('button', { type: 'button', id: 'unc-probability' }, 'Probability layer');
+  const out = el('p', { class: 'note', id: 'unc-status', 'aria-live': 'polite' });
+  const ask = async (query: string, what: string) => {
+    out.textContent = `Computing the ${what} from the run's realizations…`;
+    try {
+      await getJson<unknown>(`/api/runs/${encodeURIComponent(run.id)}/${query}`);
+      onLayer(await getJson<RunState>(`/api/runs/${encodeURIComponent(run.id)}`));
+      out.textContent = `The ${what} is among the run's layers.`;
+    } catch (e) {
+      out.textContent = `${what}: ${e instanceof Error ? e.message : String(e)}`;
+    }
+  };
+  spreadBtn.addEventListener('click', () => void ask(`spread?isothermC=${encodeURIComponent(iso.value)}`, `spread (P90 − P10) of the depth to ${iso.value} °C`));
+  probBtn.addEventListener('click', () => void ask(`probability?isothermC=${encodeURIComponent(iso.value)}&shallowerThanKm=${encodeURIComponent(km.value)}`, `probability that ${iso.value} °C lies shallower than ${km.value} km`));
+  return el(
+    'div',
+    { id: 'uncertainty-controls' },
+    el('h3', {}, 'Uncertainty'),
+    el('div', { class: 'field-row' }, el('label', { for: iso.id }, 'Isotherm (°C)'), iso),
+    el('div', { class: 'field-row' }, el('label', { for: km.id }, 'Shallower than (km)'), km),
+    el('div', { class: 'button-row' }, spreadBtn, probBtn),
+    out,
+  );
 }

@@ -6,7 +6,7 @@
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import { ApiError, getJson, sendJson, type RunState } from './api.ts';
 import { el, errorBox, replace } from './dom.ts';
-import { runSummary } from './run-summary.ts';
+import { runSummary, uncertaintyControls } from './run-summary.ts';
 import type { RunParams } from './state.ts';
 
 function numberList(s: string): number[] | null {
@@ -315,7 +315,8 @@ export function runPanel(opts: RunOptions): RunPanel {
     showSummary(run: RunState) {
       c.current = run.id;
       c.progress.set(run.status === 'done' ? 1 : run.progress, run.status === 'done' ? `run ${run.id} done` : run.message);
-      replace(c.summary, ...runSummary(run));
+      const realized = typeof run.request?.realizations === 'number' && run.request.realizations > 0;
+      replace(c.summary, ...(realized && run.status === 'done' ? [uncertaintyControls(run, opts.onDone)] : []), ...runSummary(run));
     },
   };
 }
