@@ -69,7 +69,7 @@ export const DEFAULT_LIMITS: Readonly<Limits> = Object.freeze({
   heatInPlaceDeadlineSeconds: 120,
   maxHeatInPlaceJobsPerClient: 2,
   maxHeatInPlaceJobsServer: 8,
-  computeDeadlineSeconds: 30,
+  computeDeadlineSeconds: 120,
   maxComputeQueue: 256,
   maxProjectStateBytes: 2 * 1024 * 1024,
   maxJsonDepth: 64,

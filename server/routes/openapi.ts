@@ -66,7 +66,7 @@ export function openApiDocument(): unknown {
       '/api/runs': { post: op('queue a run (202), or get the cached run with the same inputs (200)', { body: json(runRequestSchema), ok: '202', errors: [400, 404, 413, 415, 422, 429, 503] }) },
       '/api/runs/{id}': {
         get: op('a run: status, progress, message, layers with URLs, summary', { params: ['id'], errors: [404] }),
-        delete: op('cancel a queued or running run', { params: ['id'], errors: [404, 409] }),
+        delete: op('cancel a queued or running run (Authorization: Bearer <runToken returned by POST /api/runs, or the editToken of the project that started it>)', { params: ['id'], auth: true, errors: [401, 403, 404, 409] }),
       },
       '/api/runs/{id}/events': { get: op('progress as Server-Sent Events (event: progress, then end)', { params: ['id'], okType: 'text/event-stream', errors: [404] }) },
       '/api/runs/{id}/layers/{file}': { get: op('a layer file: <name>.tif | .png | .geojson | .csv', { params: ['id', 'file'], okType: 'application/octet-stream', errors: [400, 404] }) },
