@@ -5,6 +5,7 @@ import { extname, join, normalize } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { InputError } from '../shared/errors.ts';
 import { VERSION } from '../shared/version.ts';
+import { httpStatusOf } from './http-status.ts';
 import { CAUTION } from '../shared/caution.ts';
 import type { Store } from './store/types.ts';
 import { TerrainTiles, TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from './terrain.ts';
@@ -127,8 +128,9 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
       return c.json(errorBody('insufficient_storage', 'the server has no room left to store this (its disk or database is full); nothing was saved. Reading works as before; tell the operator.'), 507);
     }
     if (err instanceof InputError) {
-      const headers: Record<string, string> = err.status === 401 ? { 'www-authenticate': 'Bearer realm="subtherm project"' } : {};
-      return c.json(errorBody(err.code, err.message, err.details), err.status as 400, headers);
+      const status = httpStatusOf(err.code);
+      const headers: Record<string, string> = status === 401 ? { 'www-authenticate': 'Bearer realm="subtherm project"' } : {};
+      return c.json(errorBody(err.code, err.message, err.details), status, headers);
     }
     console.error(`[${new Date().toISOString()}] ${c.req.method} ${new URL(c.req.url).pathname}: ${err.stack ?? err.message}`);
     return c.json(errorBody('internal', 'internal server error'), 500);
@@ -204,7 +206,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
 
   app.get('/api/datasets/:id', (c) => {
     const rec = opts.store.getDataset(c.req.param('id'));
-    if (!rec) throw new InputError(`no data set with id "${c.req.param('id')}"`, [{ field: 'id', problem: 'not found' }], 'not_found', 404);
+    if (!rec) throw new InputError(`no data set with id "${c.req.param('id')}"`, [{ field: 'id', problem: 'not found' }], 'not_found');
     const type = rec.kind === 'model' ? 'application/json' : 'application/geo+json';
     return c.body(rec.body, 200, { 'content-type': type, etag: `"${rec.contentHash}"` });
   });
@@ -215,10 +217,10 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     const m = /^(\d+)\.png$/.exec(yFile);
     const zi = Number(z), xi = Number(x);
     if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) {
-      throw new InputError('terrain tiles are /api/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: `got ${z}/${x}/${yFile}` }], 'bad_tile', 400);
+      throw new InputError('terrain tiles are /api/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: `got ${z}/${x}/${yFile}` }], 'bad_tile');
     }
     const png = opts.terrain?.tile(zi, xi, Number(m[1])) ?? null;
-    if (!png) throw new InputError(`no terrain tile ${z}/${x}/${m[1]}`, [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }], 'tile_not_found', 404);
+    if (!png) throw new InputError(`no terrain tile ${z}/${x}/${m[1]}`, [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }], 'tile_not_found');
     return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'public, max-age=3600' });
   });
 

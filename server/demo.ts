@@ -3,7 +3,7 @@ import { join } from 'node:path';
 import { parseFeatureCollection, type DatasetKind } from '../shared/schema/features.ts';
 import type { Store } from './store/types.ts';
 import type { Grid } from '../shared/grid/grid.ts';
-import { modelFromJson } from './runs/model-input.ts';
+import { parseModelDocument } from '../shared/products/model-input.ts';
 import { hashToken, newEditToken } from './security.ts';
 
 export const FIXTURES_DIR = new URL('../fixtures/', import.meta.url).pathname;
@@ -53,7 +53,7 @@ export function loadDemo(store: Store): void {
     if (d.kind === 'model') {
       // Validated like an uploaded model; its top-level `name` is a label, kept as the title.
       // Its name is the data set's name in the demo project, not part of the stored content.
-      const { model } = modelFromJson(json, d.file);
+      const { model } = parseModelDocument(json, d.file);
       const { name: _name, ...content } = model as typeof model & { name?: unknown };
       store.putDataset({ id: d.id, kind: 'model', body: JSON.stringify(content), featureCount: model.layers.length, title: d.title });
       continue;

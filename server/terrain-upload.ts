@@ -16,7 +16,7 @@ export const MAX_TERRAIN_CELLS = 40_000_000;
 
 interface Dir { loadValue(k: string): Promise<unknown>; hasTag(k: string): boolean }
 
-const bad = (message: string, problem: string, code = 'bad_geotiff', status = 422) => new InputError(message, [{ field: '(body)', problem }], code, status);
+const bad = (message: string, problem: string, code = 'bad_geotiff') => new InputError(message, [{ field: '(body)', problem }], code);
 
 /** The header facts a DEM upload is checked on (nothing of the pixels is decoded). */
 export interface DemHeader {
@@ -28,12 +28,12 @@ export interface DemHeader {
 /** Checks a DEM upload before decoding; throws InputError (413/415/422) naming what is wrong. */
 export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promise<DemHeader> {
   if (bytes.byteLength > maxBytes) {
-    throw bad(`the terrain is ${bytes.byteLength} bytes, over the limit of ${maxBytes} bytes (${(maxBytes / 1048576).toFixed(0)} MB)`, `at most ${maxBytes} bytes (SUBTHERM_MAX_TERRAIN_BYTES)`, 'terrain_too_large', 413);
+    throw bad(`the terrain is ${bytes.byteLength} bytes, over the limit of ${maxBytes} bytes (${(maxBytes / 1048576).toFixed(0)} MB)`, `at most ${maxBytes} bytes (SUBTHERM_MAX_TERRAIN_BYTES)`, 'terrain_too_large');
   }
   const sig = bytes.byteLength >= 4 ? (bytes[0] << 24) | (bytes[1] << 16) | (bytes[2] << 8) | bytes[3] : 0;
   // TIFF (TIFF 6.0 §2: "II*\0" or "MM\0*") and BigTIFF ("II+\0", "MM\0+").
   if (![0x49492a00, 0x4d4d002a, 0x49492b00, 0x4d4d002b].includes(sig >>> 0)) {
-    throw bad('the terrain is not a GeoTIFF: a TIFF file starts with II*\\0 or MM\\0*', 'expected a GeoTIFF (image/tiff)', 'not_geotiff', 415);
+    throw bad('the terrain is not a GeoTIFF: a TIFF file starts with II*\\0 or MM\\0*', 'expected a GeoTIFF (image/tiff)', 'not_geotiff');
   }
   let image;
   try {
@@ -45,7 +45,7 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
   const width = image.getWidth(), height = image.getHeight();
   if (!(width >= 2 && height >= 2)) throw bad(`the terrain has ${width} × ${height} pixels; a DEM needs at least 2 × 2`, 'at least 2 × 2 pixels');
   if (width * height > MAX_TERRAIN_CELLS) {
-    throw bad(`the terrain claims ${width} × ${height} = ${(width * height).toLocaleString('en')} pixels, over the limit of ${MAX_TERRAIN_CELLS.toLocaleString('en')}`, `at most ${MAX_TERRAIN_CELLS} pixels`, 'terrain_too_large', 413);
+    throw bad(`the terrain claims ${width} × ${height} = ${(width * height).toLocaleString('en')} pixels, over the limit of ${MAX_TERRAIN_CELLS.toLocaleString('en')}`, `at most ${MAX_TERRAIN_CELLS} pixels`, 'terrain_too_large');
   }
   const spp = image.getSamplesPerPixel();
   if (spp !== 1) throw bad(`the terrain has ${spp} bands; a DEM has one (elevation in metres)`, 'one band');
@@ -128,12 +128,12 @@ export function reprojectToLonLat(src: Grid<Float32Array>, srcDef: string): Grid
       if (Number.isFinite(lon) && Number.isFinite(lat)) { w = Math.min(w, lon); e = Math.max(e, lon); s = Math.min(s, lat); n = Math.max(n, lat); }
     }
   }
-  if (!(e > w && n > s)) throw new InputError('the terrain cannot be placed on the globe from its CRS', [{ field: 'crs', problem: 'its corners do not project to longitude/latitude' }], 'bad_crs', 422);
+  if (!(e > w && n > s)) throw new InputError('the terrain cannot be placed on the globe from its CRS', [{ field: 'crs', problem: 'its corners do not project to longitude/latitude' }], 'bad_crs');
   const mpu = metresPerUnit(srcDef);
   const k = kmPerDegree((s + n) / 2);
   const dx = (src.dx * mpu) / 1000 / k.lon, dy = (src.dy * mpu) / 1000 / k.lat;
   const width = Math.max(2, Math.ceil((e - w) / dx)), height = Math.max(2, Math.ceil((n - s) / dy));
-  if (width * height > MAX_TERRAIN_CELLS) throw bad(`the terrain would need ${width} × ${height} cells in longitude/latitude, over the limit of ${MAX_TERRAIN_CELLS}`, `at most ${MAX_TERRAIN_CELLS} cells`, 'terrain_too_large', 413);
+  if (width * height > MAX_TERRAIN_CELLS) throw bad(`the terrain would need ${width} × ${height} cells in longitude/latitude, over the limit of ${MAX_TERRAIN_CELLS}`, `at most ${MAX_TERRAIN_CELLS} cells`, 'terrain_too_large');
   const values = new Float32Array(width * height);
   for (let r = 0; r < height; r++) {
     const lat = n - (r + 0.5) * dy;

@@ -1,29 +1,29 @@
 /**
  * One error type for every mistake that is the caller's fault (bad input, bad option, bad file).
- * The CLI prints it and exits with code 2; the HTTP layer renders it as a 4xx JSON error.
- * `details` names where the problem is: the feature (index or id), the field, and what was expected.
+ * It says what went wrong and where, in the words of the data: a problem `code` (a stable snake_case name), a
+ * message, and `details` naming the feature (index or id), the field (a property or request member, never a
+ * command-line flag) and what was expected. How it is shown is the edge's business: the HTTP layer maps the code to
+ * a status (server/http-status.ts), the CLI maps field names to its flags and exits with code 2 (server/cli/main.ts).
  */
 export interface InputProblem {
   /** Feature index or id, or a layer index/name, when the problem belongs to one. */
   feature?: number | string;
-  /** Property or option name, e.g. `heatFlowMWm2` or `layers[1].bottomKm`. */
+  /** Property or request member, e.g. `heatFlowMWm2`, `layers[1].bottomKm` or `power`. */
   field?: string;
   /** What is wrong and what was expected. */
   problem: string;
 }
 
 export class InputError extends Error {
+  /** Stable problem code, e.g. `invalid_model`, `invalid_features`, `not_found`. */
   readonly code: string;
   readonly details: InputProblem[];
-  /** HTTP status when rendered by the server (4xx). */
-  readonly status: number;
 
-  constructor(message: string, details: InputProblem[] = [], code = 'invalid_input', status = 400) {
+  constructor(message: string, details: InputProblem[] = [], code = 'invalid_input') {
     super(message);
     this.name = 'InputError';
     this.code = code;
     this.details = details;
-    this.status = status;
   }
 }
 

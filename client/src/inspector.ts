@@ -21,9 +21,9 @@ export interface ColumnAnswer {
   heatFlowSdMWm2?: number | null;
   surfaceTemperatureC?: number;
   isothermDepthsKm: Record<string, number | null | { p10: number | null; p50: number | null; p90: number | null }>;
-  basalHeatFlowMWm2?: number | null;
-  reducedHeatFlowMWm2?: number | null;
-  solidusCrossingKm?: { wetSolidus: number | null; meltOnset: number | null };
+  basalHeatFlowMWm2?: unknown;
+  reducedHeatFlowMWm2?: unknown;
+  solidusCrossingKm?: { wetSolidus: unknown; meltOnset: unknown };
   meltOnset?: { layer: string; label: string } | null;
   wetSolidus?: { layer: string; label: string } | null;
   lithosphereBaseKm?: number | null;
@@ -80,6 +80,22 @@ export function profileAt(profile: ColumnPoint[], depthKm: number): ColumnPoint 
   return { depthKm, temperatureC: lerp(a.temperatureC, b.temperatureC), heatFlowMWm2: lerp(a.heatFlowMWm2, b.heatFlowMWm2), pressureMPa: lerp(a.pressureMPa, b.pressureMPa), facies: t < 0.5 ? a.facies : b.facies, faciesApproximate: t < 0.5 ? a.faciesApproximate : b.faciesApproximate };
 }
 
+type Band = NonNullable<ColumnAnswer['band']>;
+
+/** The P50 of an uncertain number `{ p10, p50, p90, … }`, or the number itself. */
+function mid(v: unknown): number | null {
+  if (v !== null && typeof v === 'object') return (v as { p50: number | null }).p50;
+  return typeof v === 'number' ? v : null;
+}
+
+/** The P10–P90 band along the profile from the column answer's Monte Carlo (shared/schema/column.ts), or null. */
+function bandOf(c: ColumnAnswer): Band | null {
+  const mc = c.monteCarlo as { realizations: number; profileTemperatureC: { p10: number | null; p50: number | null; p90: number | null }[] | null } | null | undefined;
+  if (!mc || !mc.profileTemperatureC) return null;
+  const t = mc.profileTemperatureC;
+  return { depthKm: c.profile.map((p) => p.depthKm), temperatureC: { p10: t.map((s) => s.p10), p50: t.map((s) => s.p50), p90: t.map((s) => s.p90) }, realizations: mc.realizations };
+}
+
 function isoValue(v: ColumnAnswer['isothermDepthsKm'][string]): number | null {
   if (v === null || v === undefined) return null;
   if (typeof v === 'number') return v;
@@ -124,13 +140,13 @@ export function plotWindow(c: ColumnAnswer): { zMax: number; tMax: number } {
   const prof = c.profile.filter((p) => p.temperatureC !== null);
   const full = prof.length > 0 ? prof[prof.length - 1].depthKm : 1;
   const isoDepths = Object.values(c.isothermDepthsKm).map(isoValue).filter((z): z is number => z !== null && Number.isFinite(z));
-  const bandIso = Object.values(c.band?.isothermDepthsKm ?? {}).map((v) => v.p90).filter((z): z is number => z !== null && Number.isFinite(z));
-  const melt = c.solidusCrossingKm?.wetSolidus ?? c.solidusCrossingKm?.meltOnset ?? null;
+  const bandIso = Object.values(bandOf(c)?.isothermDepthsKm ?? {}).map((v) => v.p90).filter((z): z is number => z !== null && Number.isFinite(z));
+  const melt = mid(c.solidusCrossingKm?.wetSolidus) ?? mid(c.solidusCrossingKm?.meltOnset) ?? null;
   const wanted = Math.max(10, ...isoDepths.map((z) => z * 1.3), ...bandIso.map((z) => z * 1.1), melt ?? 0);
   const zMax = Math.min(full, isoDepths.length > 0 || melt !== null ? wanted : full);
   const inWindow = (z: number) => z <= zMax + 1e-9;
   const temps = prof.filter((p) => inWindow(p.depthKm)).map((p) => p.temperatureC!);
-  const p90 = (c.band?.depthKm ?? []).flatMap((z, i) => (inWindow(z) ? [c.band!.temperatureC.p90[i]] : [])).filter((v): v is number => v !== null);
+  const p90 = (bandOf(c)?.depthKm ?? []).flatMap((z, i) => (inWindow(z) ? [bandOf(c)!.temperatureC.p90[i]] : [])).filter((v): v is number => v !== null);
   const isoT = Object.keys(c.isothermDepthsKm).map(Number).filter(Number.isFinite);
   const tTop = Math.max(100, ...temps, ...p90, ...isoT);
   return { zMax, tMax: Math.ceil((tTop * 1.05) / 50) * 50 };
@@ -180,10 +196,11 @@ function curves(c: ColumnAnswer, f: PlotFrame): SVGElement[] {
   };
   solidus((p) => (p.pressureMPa === null ? NaN : wetGraniteSolidusC(p.pressureMPa / 100)), 'wet-granite', 'wet granite solidus');
   solidus((p) => (p.pressureMPa === null ? NaN : dryPeridotiteSolidusC(p.pressureMPa / 1000)), 'dry-peridotite', 'dry peridotite solidus');
-  if (c.band && c.band.depthKm.length > 1) {
+  const band = bandOf(c);
+  if (band && band.depthKm.length > 1) {
     const lo: string[] = [], hi: string[] = [];
-    c.band.depthKm.forEach((z, i) => {
-      const a = c.band!.temperatureC.p10[i], b = c.band!.temperatureC.p90[i];
+    band.depthKm.forEach((z, i) => {
+      const a = band.temperatureC.p10[i], b = band.temperatureC.p90[i];
       if (a === null || b === null) return;
       lo.push(`${f.x(a).toFixed(1)},${f.y(z).toFixed(1)}`);
       hi.unshift(`${f.x(b).toFixed(1)},${f.y(z).toFixed(1)}`);
@@ -288,21 +305,21 @@ export function columnPlot(c: ColumnAnswer): { plot: SVGSVGElement; readout: HTM
 export function columnSummary(c: ColumnAnswer, heatFlowSource: string): HTMLElement {
   const rows: [string, string, string][] = [
     ['Surface heat flow', `${fmt(c.surfaceHeatFlowMWm2, 1)}${typeof c.heatFlowSdMWm2 === 'number' ? ` ± ${fmt(c.heatFlowSdMWm2, 1)}` : ''}`, 'mW/m²'],
-    ['Heat flow at the base', fmt(c.basalHeatFlowMWm2, 1), 'mW/m²'],
-    ['Reduced heat flow', fmt(c.reducedHeatFlowMWm2, 1), 'mW/m²'],
+    ['Heat flow at the base', fmt(mid(c.basalHeatFlowMWm2), 1), 'mW/m²'],
+    ['Reduced heat flow', fmt(mid(c.reducedHeatFlowMWm2), 1), 'mW/m²'],
   ];
   for (const [t, v] of Object.entries(c.isothermDepthsKm)) {
     if (v !== null && typeof v === 'object') rows.push([`Depth to ${t} °C (P10 / P50 / P90)`, `${fmt(v.p10, 2)} / ${fmt(v.p50, 2)} / ${fmt(v.p90, 2)}`, 'km']);
     else rows.push([`Depth to ${t} °C`, v === null ? 'not reached' : fmt(v, 2), v === null ? '' : 'km']);
   }
-  for (const [t, v] of Object.entries(c.band?.isothermDepthsKm ?? {})) {
+  for (const [t, v] of Object.entries(bandOf(c)?.isothermDepthsKm ?? {})) {
     // A null percentile: the isotherm is not reached above the model's base in that share of realizations.
     const f = (x: number | null) => (x === null ? 'deeper' : fmt(x, 2));
     rows.push([`Depth to ${t} °C (P10 / P50 / P90)`, `${f(v.p10)} / ${f(v.p50)} / ${f(v.p90)}`, 'km']);
   }
   if (c.solidusCrossingKm) {
     // Rock-aware crossings: no temperature is shown below the melt onset.
-    const w = c.solidusCrossingKm.wetSolidus, m = c.solidusCrossingKm.meltOnset;
+    const w = mid(c.solidusCrossingKm.wetSolidus), m = mid(c.solidusCrossingKm.meltOnset);
     rows.push([`Water-saturated solidus reached at${c.wetSolidus ? ` (${c.wetSolidus.label}, ${c.wetSolidus.layer})` : ''}`, w === null ? 'not reached' : fmt(w, 1), w === null ? '' : 'km']);
     rows.push([`Melt onset, no temperature below${c.meltOnset ? ` (${c.meltOnset.label}, ${c.meltOnset.layer})` : ''}`, m === null ? 'not reached' : fmt(m, 1), m === null ? '' : 'km']);
     if (c.lithosphereBaseKm !== undefined) rows.push(['Lithosphere base (mantle adiabat below)', c.lithosphereBaseKm === null ? 'not reached' : fmt(c.lithosphereBaseKm, 1), c.lithosphereBaseKm === null ? '' : 'km']);
@@ -310,6 +327,6 @@ export function columnSummary(c: ColumnAnswer, heatFlowSource: string): HTMLElem
   const table = el('table', { class: 'kv', id: 'column-summary' }, el('tbody', {}, ...rows.map(([k, v, u]) => el('tr', {}, el('th', { scope: 'row' }, k), el('td', { class: 'num' }, v), el('td', { class: 'unit' }, u)))));
   const src = el('p', { class: 'note', id: 'column-source' }, `Heat flow from: ${heatFlowSource}`);
   const warn = (c.warnings ?? []).length > 0 ? el('ul', { class: 'warnings' }, ...(c.warnings ?? []).map((w) => el('li', {}, String(w)))) : null;
-  const bandNote = c.band ? el('p', { class: 'note' }, `Shaded band: P10–P90 of ${c.band.realizations ?? 'the'} realizations.`) : el('p', { class: 'note' }, 'No uncertainty band: the run has no realizations.');
+  const bandNote = bandOf(c) ? el('p', { class: 'note' }, `Shaded band: P10–P90 of ${bandOf(c)?.realizations ?? 'the'} realizations.`) : el('p', { class: 'note' }, 'No uncertainty band: the run has no realizations.');
   return el('div', {}, src, table, bandNote, warn);
 }

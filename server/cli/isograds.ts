@@ -53,7 +53,7 @@ function inFile<T>(path: string, f: () => T): T {
   try {
     return f();
   } catch (e) {
-    if (e instanceof InputError) throw new InputError(`${path}: ${e.message}`, e.details, e.code, e.status);
+    if (e instanceof InputError) throw new InputError(`${path}: ${e.message}`, e.details, e.code);
     throw e;
   }
 }

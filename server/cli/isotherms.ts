@@ -189,7 +189,7 @@ export async function isotherms(argv: string[]): Promise<number> {
     monteCarlo: products.monteCarlo,
     overrides: regions.map((r) => r.label),
     files: [...files, join(outDir, 'summary.json')],
-    warnings: [...new Set([...doc.warnings, ...products.warnings])],
+    warnings: [...new Set(products.warnings)],
     provenance,
     timingsMs: { compute: computeMs, write: writeMs },
   };

@@ -1,16 +1,9 @@
-import { isInputError } from '../../shared/errors.ts';
+import { isInputError, type InputProblem } from '../../shared/errors.ts';
 import { VERSION } from '../../shared/version.ts';
+import { cliProblem } from './args.ts';
+import { VERBS } from './verbs.ts';
 
-/** A verb reads its arguments, does its work, prints, and returns the exit code. */
-export type Verb = (argv: string[]) => Promise<number>;
-
-/** Verbs load lazily so `subtherm geotherm` never pays for the server's imports. */
-const VERBS: Record<string, { summary: string; load: () => Promise<Verb> }> = {};
-
-/** Registers a verb; each verb file adds itself in `verbs.ts`. */
-export function registerVerb(name: string, summary: string, load: () => Promise<Verb>): void {
-  VERBS[name] = { summary, load };
-}
+export type { Verb } from './verbs.ts';
 
 function usage(): string {
   const rows = Object.entries(VERBS).map(([name, v]) => `  ${name.padEnd(14)} ${v.summary}`);
@@ -19,7 +12,6 @@ function usage(): string {
 
 /** Runs the CLI; returns the process exit code (0 ok, 2 bad input, 1 internal fault). */
 export async function main(argv: string[]): Promise<number> {
-  await import('./verbs.ts');
   const [name, ...rest] = argv;
   if (name === undefined || name === '--help' || name === '-h' || name === 'help') {
     process.stdout.write(usage() + '\n');
@@ -29,7 +21,7 @@ export async function main(argv: string[]): Promise<number> {
     process.stdout.write(VERSION + '\n');
     return 0;
   }
-  const entry = VERBS[name];
+  const entry = Object.hasOwn(VERBS, name) ? VERBS[name] : undefined;
   const json = rest.includes('--json');
   if (!entry) {
     return reportUserError(json, `unknown verb "${name}"`, [{ problem: `expected one of: ${Object.keys(VERBS).join(', ')}` }], 'unknown_verb');
@@ -38,19 +30,23 @@ export async function main(argv: string[]): Promise<number> {
     const verb = await entry.load();
     return await verb(rest);
   } catch (e) {
-    if (isInputError(e)) return reportUserError(json, e.message, e.details, e.code);
+    if (isInputError(e)) {
+      const { message, details } = cliProblem(e);
+      return reportUserError(json, message, details, e.code);
+    }
     const message = e instanceof Error ? (e.stack ?? e.message) : String(e);
     process.stderr.write(`subtherm ${name}: internal error (please report it):\n${message}\n`);
     return 1;
   }
 }
 
-function reportUserError(json: boolean, message: string, details: unknown[], code: string): number {
+function reportUserError(json: boolean, message: string, details: (InputProblem & { option?: string })[], code: string): number {
   if (json) process.stdout.write(JSON.stringify({ error: { code, message, details } }) + '\n');
   process.stderr.write(`error: ${message}\n`);
-  for (const d of details as { feature?: unknown; field?: unknown; problem?: unknown }[]) {
-    const where = [d.feature !== undefined ? `feature ${String(d.feature)}` : '', d.field !== undefined ? `field ${String(d.field)}` : ''].filter(Boolean).join(', ');
-    process.stderr.write(`  ${where ? where + ': ' : ''}${String(d.problem ?? '')}\n`);
+  for (const d of details) {
+    const field = d.option ?? d.field;
+    const where = [d.feature !== undefined ? `feature ${String(d.feature)}` : '', field !== undefined ? `field ${field}` : ''].filter(Boolean).join(', ');
+    process.stderr.write(`  ${where ? where + ': ' : ''}${d.problem}\n`);
   }
   return 2;
 }

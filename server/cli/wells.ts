@@ -151,7 +151,7 @@ export async function wells(argv: string[]): Promise<number> {
     try {
       return isCsv ? parsePointCsv('wells', wellBytes.toString('utf8')) : parseFeatureCollection('wells', parseJsonFile(wellBytes, o.wells));
     } catch (e) {
-      if (e instanceof InputError) throw new InputError(`${o.wells}: ${e.message}`, e.details, e.code, e.status);
+      if (e instanceof InputError) throw new InputError(`${o.wells}: ${e.message}`, e.details, e.code);
       throw e;
     }
   })();
@@ -160,7 +160,7 @@ export async function wells(argv: string[]): Promise<number> {
     try {
       return readWells(parsed.collection.features);
     } catch (e) {
-      if (e instanceof InputError) throw new InputError(`${o.wells}: ${e.message}`, e.details, e.code, e.status);
+      if (e instanceof InputError) throw new InputError(`${o.wells}: ${e.message}`, e.details, e.code);
       throw e;
     }
   })();

@@ -304,8 +304,8 @@ export interface VectorRead {
   layers: VectorLayerInfo[];
 }
 
-function fileError(source: string, message: string, problem: string, layer?: string, code = 'bad_geopackage', status = 422): InputError {
-  return new InputError(`${source}${layer ? `, layer "${layer}"` : ''}: ${message}`, [{ feature: source, ...(layer ? { field: `layer ${layer}` } : {}), problem }], code, status);
+function fileError(source: string, message: string, problem: string, layer?: string, code = 'bad_geopackage'): InputError {
+  return new InputError(`${source}${layer ? `, layer "${layer}"` : ''}: ${message}`, [{ feature: source, ...(layer ? { field: `layer ${layer}` } : {}), problem }], code);
 }
 
 /** A proj4 converter from a CRS (EPSG code or WKT) to WGS 84 lon/lat, or null when it is already lon/lat WGS 84. */
@@ -346,14 +346,14 @@ export async function readGeoPackage(bytes: Uint8Array, opts: { source?: string;
     let layer: VectorLayerInfo | undefined;
     if (opts.layer !== undefined) {
       layer = layers.find((l) => l.name === opts.layer);
-      if (!layer) throw fileError(source, `has no layer "${opts.layer}"`, `layers: ${layers.map((l) => l.name).join(', ')}`, undefined, 'unknown_layer', 422);
+      if (!layer) throw fileError(source, `has no layer "${opts.layer}"`, `layers: ${layers.map((l) => l.name).join(', ')}`, undefined, 'unknown_layer');
     } else if (layers.length > 1) {
-      throw fileError(source, `holds ${layers.length} layers: choose one (layer=NAME, --layer NAME)`, `layers: ${layers.map((l) => `${l.name} (${l.geometryType}, ${l.features} features)`).join(', ')}`, undefined, 'choose_layer', 422);
+      throw fileError(source, `holds ${layers.length} layers: choose one (layer=NAME, --layer NAME)`, `layers: ${layers.map((l) => `${l.name} (${l.geometryType}, ${l.features} features)`).join(', ')}`, undefined, 'choose_layer');
     } else {
       layer = layers[0];
     }
     const name = layer.name;
-    if (opts.maxFeatures !== undefined && layer.features > opts.maxFeatures) throw fileError(source, `has ${layer.features} features (limit ${opts.maxFeatures})`, `at most ${opts.maxFeatures} features`, name, 'too_many_features', 413);
+    if (opts.maxFeatures !== undefined && layer.features > opts.maxFeatures) throw fileError(source, `has ${layer.features} features (limit ${opts.maxFeatures})`, `at most ${opts.maxFeatures} features`, name, 'too_many_features');
     const srs = db.prepare('SELECT organization, organization_coordsys_id AS code, definition FROM gpkg_spatial_ref_sys WHERE srs_id = ?').get(layer.srsId) as { organization: string; code: number; definition: string } | undefined;
     if (!srs || layer.srsId === 0 || layer.srsId === -1 || /^undefined$/i.test(srs.definition.trim()) && !/^epsg$/i.test(srs.organization)) {
       throw fileError(source, 'has no coordinate reference system', `srs_id ${layer.srsId} is undefined: assign a CRS (e.g. EPSG code) in your GIS and export again`, name, 'no_crs');

@@ -61,8 +61,8 @@ export function zipEntryNames(bytes: Uint8Array): string[] {
   return names;
 }
 
-function shpError(source: string, message: string, problem: string, layer?: string, code = 'bad_shapefile', status = 422): InputError {
-  return new InputError(`${source}${layer ? `, layer "${layer}"` : ''}: ${message}`, [{ feature: source, ...(layer ? { field: `layer ${layer}` } : {}), problem }], code, status);
+function shpError(source: string, message: string, problem: string, layer?: string, code = 'bad_shapefile'): InputError {
+  return new InputError(`${source}${layer ? `, layer "${layer}"` : ''}: ${message}`, [{ feature: source, ...(layer ? { field: `layer ${layer}` } : {}), problem }], code);
 }
 
 /**
@@ -113,7 +113,7 @@ export async function readZippedShapefile(bytes: Uint8Array, opts: { source?: st
  */
 export async function readVectorFile(bytes: Uint8Array, opts: { format: Exclude<VectorFormat, 'csv'>; source: string; layer?: string; maxBytes?: number; maxFeatures?: number }): Promise<{ collection: unknown; layer: string | null; sourceCrs: string }> {
   if (opts.maxBytes !== undefined && bytes.length > opts.maxBytes) {
-    throw new InputError(`${opts.source} is ${bytes.length} bytes (limit ${opts.maxBytes})`, [{ feature: opts.source, problem: `at most ${opts.maxBytes} bytes` }], 'too_large', 413);
+    throw new InputError(`${opts.source} is ${bytes.length} bytes (limit ${opts.maxBytes})`, [{ feature: opts.source, problem: `at most ${opts.maxBytes} bytes` }], 'too_large');
   }
   if (opts.format === 'gpkg') {
     const r = await readGeoPackage(bytes, { source: opts.source, layer: opts.layer, maxFeatures: opts.maxFeatures });

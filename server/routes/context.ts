@@ -46,10 +46,10 @@ export function parseJsonText(text: string): unknown {
   try {
     v = JSON.parse(text) as unknown;
   } catch (e) {
-    throw new InputError(`the request body is not valid JSON: ${(e as Error).message}`, [{ field: '(body)', problem: 'malformed JSON' }], 'bad_json', 400);
+    throw new InputError(`the request body is not valid JSON: ${(e as Error).message}`, [{ field: '(body)', problem: 'malformed JSON' }], 'bad_json');
   }
   if (jsonDepthExceeds(v, MAX_BODY_JSON_DEPTH)) {
-    throw new InputError(`the JSON body is nested deeper than ${MAX_BODY_JSON_DEPTH} levels`, [{ field: '(body)', problem: `at most ${MAX_BODY_JSON_DEPTH} levels of nesting` }], 'too_deep', 422);
+    throw new InputError(`the JSON body is nested deeper than ${MAX_BODY_JSON_DEPTH} levels`, [{ field: '(body)', problem: `at most ${MAX_BODY_JSON_DEPTH} levels of nesting` }], 'too_deep');
   }
   return v;
 }
@@ -57,7 +57,7 @@ export function parseJsonText(text: string): unknown {
 /** Parses the body as JSON (see parseJsonText); an empty body is a 400. */
 export async function jsonBody(c: Context): Promise<unknown> {
   const text = await bodyText(c);
-  if (text.trim() === '') throw new InputError('the request body is empty: send a JSON object', [{ field: '(body)', problem: 'empty' }], 'empty_body', 400);
+  if (text.trim() === '') throw new InputError('the request body is empty: send a JSON object', [{ field: '(body)', problem: 'empty' }], 'empty_body');
   return parseJsonText(text);
 }
 
@@ -69,7 +69,7 @@ export function requireJsonType(c: Context): void {
   const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
   if (type !== 'application/json' && !(type.startsWith('application/') && type.endsWith('+json'))) {
     const got = type === '' ? 'no content-type' : type;
-    throw new InputError(`expected a JSON body (content-type application/json), got ${got}`, [{ field: 'content-type', problem: `unsupported: ${got}; send application/json` }], 'unsupported_media_type', 415);
+    throw new InputError(`expected a JSON body (content-type application/json), got ${got}`, [{ field: 'content-type', problem: `unsupported: ${got}; send application/json` }], 'unsupported_media_type');
   }
 }
 
@@ -97,14 +97,14 @@ export function parseTrustedProxies(raw: string | undefined): Set<string> {
 }
 
 export function notFound(what: string, id: string, code: string): InputError {
-  return new InputError(`no ${what} with id "${id}"`, [{ field: 'id', problem: 'not found' }], code, 404);
+  return new InputError(`no ${what} with id "${id}"`, [{ field: 'id', problem: 'not found' }], code);
 }
 
 /** The query parameters, each given at most once (a repeated one is ambiguous: 400). */
 export function singleQuery(c: Context): Record<string, string> {
   const all = c.req.queries();
   for (const [k, v] of Object.entries(all)) {
-    if (v.length > 1) throw new InputError(`query parameter "${k}" is given ${v.length} times; give it once`, [{ field: k, problem: 'repeated' }], 'bad_query', 400);
+    if (v.length > 1) throw new InputError(`query parameter "${k}" is given ${v.length} times; give it once`, [{ field: k, problem: 'repeated' }], 'bad_query');
   }
   return c.req.query();
 }

@@ -6,7 +6,7 @@
 import type { Context, Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
 import { parseFeatureCollection, parsePointCsv, type DatasetKind } from '../../shared/schema/features.ts';
-import { modelFromJson } from '../runs/model-input.ts';
+import { parseModelDocument } from '../../shared/products/model-input.ts';
 import { sha256Hex } from '../store/sqlite.ts';
 import type { DatasetRecord } from '../store/types.ts';
 import { bodyText, parseJsonText, singleQuery, type AppContext } from './context.ts';
@@ -21,7 +21,7 @@ function inLayer<T>(source: string, layer: string | null, f: () => T): T {
   } catch (e) {
     if (e instanceof InputError) {
       const where = `${source}${layer ? `, layer "${layer}"` : ''}`;
-      throw new InputError(`${where}: ${e.message}`, e.details.map((d) => ({ ...d, field: d.field ?? `layer ${layer ?? ''}`.trim() })), e.code, e.status);
+      throw new InputError(`${where}: ${e.message}`, e.details.map((d) => ({ ...d, field: d.field ?? `layer ${layer ?? ''}`.trim() })), e.code);
     }
     throw e;
   }
@@ -65,25 +65,24 @@ export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind
       `unsupported content-type "${type || '(none)'}": send one of ${all}`,
       [{ field: 'content-type', problem: `expected ${all}` }],
       'unsupported_media_type',
-      415,
     );
   }
-  const fq = parseWith(uploadFormatQuery, singleQuery(c), 'query', 'bad_query', 400);
+  const fq = parseWith(uploadFormatQuery, singleQuery(c), 'query', 'bad_query');
   const source = fq.filename ?? `the ${format === 'gpkg' ? 'GeoPackage' : format === 'shapefile' ? 'zipped Shapefile' : format === 'csv' ? 'CSV' : 'GeoJSON'} upload`;
   if (format === 'gpkg' || format === 'shapefile') {
-    if (kind === 'model') throw new InputError('a thermal model is JSON: send it as application/json', [{ field: 'content-type', problem: 'expected application/json' }], 'unsupported_media_type', 415);
+    if (kind === 'model') throw new InputError('a thermal model is JSON: send it as application/json', [{ field: 'content-type', problem: 'expected application/json' }], 'unsupported_media_type');
     const bytes = new Uint8Array(await c.req.arrayBuffer());
-    if (bytes.length === 0) throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body', 400);
+    if (bytes.length === 0) throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body');
     const r = await readVectorFile(bytes, { format, source, layer: fq.layer, maxBytes: ctx.limits.maxBodyBytes, maxFeatures: ctx.limits.maxFeatures });
     const parsed = inLayer(source, r.layer, () => parseFeatureCollection(kind, r.collection, { maxFeatures: ctx.limits.maxFeatures }));
     const warnings = r.sourceCrs === 'EPSG:4326' ? parsed.warnings : [`${source}${r.layer ? `, layer "${r.layer}"` : ''}: reprojected from ${r.sourceCrs} to WGS 84 longitude/latitude`, ...parsed.warnings];
     return { kind, body: JSON.stringify(parsed.collection), featureCount: parsed.collection.features.length, warnings, suggestedName: r.layer };
   }
   const text = await bodyText(c);
-  if (text.trim() === '') throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body', 400);
+  if (text.trim() === '') throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body');
   if (kind === 'model') {
-    if (!isJson) throw new InputError('a thermal model is JSON: send it as application/json', [{ field: 'content-type', problem: 'expected application/json' }], 'unsupported_media_type', 415);
-    const { model, name } = modelFromJson(parseJsonText(text), 'model');
+    if (!isJson) throw new InputError('a thermal model is JSON: send it as application/json', [{ field: 'content-type', problem: 'expected application/json' }], 'unsupported_media_type');
+    const { model, name } = parseModelDocument(parseJsonText(text), 'model');
     // The name is the data set's (editable per project), not part of the content: two uploads of the same layers
     // under different names are one stored model, and a renamed model never carries its old name into exports.
     const { name: _name, ...content } = model as typeof model & { name?: unknown };
@@ -108,7 +107,7 @@ export function storeUpload(ctx: AppContext, up: ParsedUpload, title?: string): 
 
 export function datasetRoutes(app: Hono, ctx: AppContext): void {
   app.post('/api/datasets', async (c) => {
-    const q = parseWith(datasetQuerySchema, singleQuery(c), 'query', 'bad_query', 400);
+    const q = parseWith(datasetQuerySchema, singleQuery(c), 'query', 'bad_query');
     const up = await parseUpload(c, ctx, q.kind);
     const { rec, existing } = storeUpload(ctx, up, q.title ?? up.suggestedName ?? undefined);
     return c.json({ id: rec.id, kind: rec.kind, featureCount: rec.featureCount, contentHash: rec.contentHash, bbox: rec.bbox, deduplicated: existing, warnings: up.warnings }, existing ? 200 : 201);

@@ -34,7 +34,7 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
   async function tilesFor(runId: string, layer: string): Promise<{ tiles: GridTiles; units: string }> {
     // Names come from the URL: a strict alphabet keeps them out of any path or query.
     if (!/^[A-Za-z0-9_.-]{1,100}$/.test(runId) || !/^[A-Za-z0-9_.-]{1,100}$/.test(layer)) {
-      throw new InputError('bad run or layer name', [{ field: 'path', problem: 'letters, digits, _ . - only' }], 'bad_request', 400);
+      throw new InputError('bad run or layer name', [{ field: 'path', problem: 'letters, digits, _ . - only' }], 'bad_request');
     }
     const key = `${runId}/${layer}`;
     const hit = cache.get(key);
@@ -44,9 +44,9 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
       return { tiles: hit, units: hit.units };
     }
     const grid = await deps.loadLayerGrid(runId, layer);
-    if (!grid) throw new InputError(`no raster layer "${layer}" in run "${runId}"`, [{ field: 'layer', problem: 'not found' }], 'not_found', 404);
+    if (!grid) throw new InputError(`no raster layer "${layer}" in run "${runId}"`, [{ field: 'layer', problem: 'not found' }], 'not_found');
     if (grid.crs !== 'EPSG:4326') {
-      throw new InputError(`layer "${layer}" is on a projected grid (${grid.crs}); map tiles need a lon/lat grid`, [{ field: 'layer', problem: 'download it as GeoTIFF instead' }], 'projected_layer', 422);
+      throw new InputError(`layer "${layer}" is on a projected grid (${grid.crs}); map tiles need a lon/lat grid`, [{ field: 'layer', problem: 'download it as GeoTIFF instead' }], 'projected_layer');
     }
     const stats = gridStats(grid.values);
     const tiles = new GridTiles(grid, encodingForUnits(grid.units, stats.min ?? 0), { edge: 'nodata', minZoom: MIN_ZOOM, maxZoom: MAX_ZOOM, cacheSize: 256 });
@@ -57,7 +57,7 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
 
   app.get('/runs/:id/tiles/:file', async (c) => {
     const m = /^(.+)\.json$/.exec(c.req.param('file'));
-    if (!m) throw new InputError('expected /api/runs/:id/tiles/:layer.json', [{ field: 'path', problem: c.req.param('file') }], 'not_found', 404);
+    if (!m) throw new InputError('expected /api/runs/:id/tiles/:layer.json', [{ field: 'path', problem: c.req.param('file') }], 'not_found');
     const { tiles, units } = await tilesFor(c.req.param('id'), m[1]);
     // Absolute only from the operator's public base URL; otherwise relative to the page (never the Host header).
     const origin = deps.publicBaseUrl ?? '';
@@ -78,10 +78,10 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
   app.get('/runs/:id/tiles/:layer/:z/:x/:y', async (c) => {
     const { id, layer, z, x, y } = c.req.param();
     const m = /^(\d+)\.png$/.exec(y);
-    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) throw new InputError('tiles are …/{z}/{x}/{y}.png with integers', [{ field: 'path', problem: `${z}/${x}/${y}` }], 'bad_tile', 400);
+    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) throw new InputError('tiles are …/{z}/{x}/{y}.png with integers', [{ field: 'path', problem: `${z}/${x}/${y}` }], 'bad_tile');
     const { tiles } = await tilesFor(id, layer);
     const png = tiles.tile(Number(z), Number(x), Number(m[1]));
-    if (!png) throw new InputError(`no tile ${z}/${x}/${m[1]} in layer "${layer}"`, [{ field: 'tile', problem: `outside the layer or zoom ${MIN_ZOOM}–${MAX_ZOOM}` }], 'tile_not_found', 404);
+    if (!png) throw new InputError(`no tile ${z}/${x}/${m[1]} in layer "${layer}"`, [{ field: 'tile', problem: `outside the layer or zoom ${MIN_ZOOM}–${MAX_ZOOM}` }], 'tile_not_found');
     return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'public, max-age=86400, immutable' });
   });
 

@@ -3,9 +3,10 @@ import type { Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
 import type { RunRequest } from '../../shared/schema/run.ts';
-import { computeColumn, type ColumnQuery } from '../runs/column.ts';
+import { computeColumn, type ColumnQuery } from '../../shared/products/column.ts';
+import type { ColumnAnswer } from '../../shared/schema/column.ts';
 import { sampleAtLonLat, type RunGrid } from '../runs/grids.ts';
-import { modelFromJson } from '../runs/model-input.ts';
+import { parseModelDocument } from '../../shared/products/model-input.ts';
 import type { RunRecord } from '../store/types.ts';
 import { jsonBody, notFound, requireJsonType, type AppContext } from './context.ts';
 import { columnAtRunSchema, columnOfModelSchema, parseWith, sectionSchema } from './schemas.ts';
@@ -18,18 +19,18 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
   const doneRun = async (runId: string): Promise<{ run: RunRecord; heat: RunGrid; sd: RunGrid | null }> => {
     const run = ctx.store.getRun(runId);
     if (!run) throw notFound('run', runId, 'run_not_found');
-    if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}: columns and sections need a finished run`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done', 409);
+    if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}: columns and sections need a finished run`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done');
     const heat = await ctx.grids.get(runId, 'heatFlow');
-    if (!heat) throw new InputError(`run ${runId} stored no heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid', 409);
+    if (!heat) throw new InputError(`run ${runId} stored no heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid');
     return { run, heat, sd: await ctx.grids.get(runId, 'heatFlowSd') };
   };
   const runModel = (run: RunRecord): ThermalModelInput => {
-    if (run.model !== null && run.model !== undefined) return modelFromJson(run.model, `run ${run.id} model`).model;
+    if (run.model !== null && run.model !== undefined) return parseModelDocument(run.model, `run ${run.id} model`).model;
     const m = (run.request as RunRequest).model;
-    if (typeof m !== 'string') return modelFromJson(m, 'model').model;
+    if (typeof m !== 'string') return parseModelDocument(m, 'model').model;
     const rec = ctx.store.getDataset(m);
-    if (!rec) throw new InputError(`the model data set ${m} of run ${run.id} is gone`, [{ field: 'model', problem: 'not found' }], 'dataset_not_found', 404);
-    return modelFromJson(JSON.parse(rec.body), `model ${m}`).model;
+    if (!rec) throw new InputError(`the model data set ${m} of run ${run.id} is gone`, [{ field: 'model', problem: 'not found' }], 'dataset_not_found');
+    return parseModelDocument(JSON.parse(rec.body), `model ${m}`).model;
   };
 
   /**
@@ -40,7 +41,7 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
   const runZones = (run: RunRecord): ModelAt => {
     const regionsId = (run.request as RunRequest).regions;
     const rec = regionsId === undefined ? null : ctx.store.getDataset(regionsId);
-    if (regionsId !== undefined && !rec) throw new InputError(`the regions data set ${regionsId} of run ${run.id} is gone`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found', 404);
+    if (regionsId !== undefined && !rec) throw new InputError(`the regions data set ${regionsId} of run ${run.id} is gone`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found');
     const key = `${run.id}\u0000${rec?.contentHash ?? ''}`;
     const hit = zoneCache.get(key);
     if (hit) return hit;
@@ -51,8 +52,10 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
   };
   const deadlineMs = ctx.limits.computeDeadlineSeconds * 1000;
   /** A column with a Monte Carlo band goes to the worker pool; a plain one (bounded layers and samples) is cheap. */
-  const column = async (query: ColumnQuery): Promise<Record<string, unknown>> =>
-    query.realizations > 0 ? await ctx.compute.interactive.run<Record<string, unknown>>({ kind: 'column', query }, deadlineMs) : computeColumn(query);
+  const column = async (query: ColumnQuery): Promise<ColumnAnswer> => {
+    const q: ColumnQuery = { ...query, profileBand: true };
+    return q.realizations > 0 ? await ctx.compute.interactive.run<ColumnAnswer>({ kind: 'column', query: q }, deadlineMs) : computeColumn(q);
+  };
 
   app.post('/api/column', async (c) => {
     requireJsonType(c);
@@ -65,7 +68,7 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
       const req = run.request as RunRequest;
       const q0 = sampleAtLonLat(heat, q.lon, q.lat);
       if (!Number.isFinite(q0)) {
-        throw new InputError(`no heat-flow value at ${q.lon}, ${q.lat}: outside the run's grid or in a no-data cell`, [{ field: 'lon,lat', problem: 'no data at this point' }], 'no_data_here', 422);
+        throw new InputError(`no heat-flow value at ${q.lon}, ${q.lat}: outside the run's grid or in a no-data cell`, [{ field: 'lon,lat', problem: 'no data at this point' }], 'no_data_here');
       }
       const s = sd ? sampleAtLonLat(sd, q.lon, q.lat) : NaN;
       const realizations = (req.realizations ?? 0) > 0 ? COLUMN_BAND_REALIZATIONS : 0;
@@ -91,10 +94,10 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
     if (typeof q.model === 'string') {
       const rec = ctx.store.getDataset(q.model);
       if (!rec) throw notFound('data set', q.model, 'dataset_not_found');
-      if (rec.kind !== 'model') throw new InputError(`data set ${q.model} holds ${rec.kind}, not a model`, [{ field: 'model', problem: `expected a model, got ${rec.kind}` }], 'wrong_dataset_kind', 422);
-      model = modelFromJson(JSON.parse(rec.body), `model ${q.model}`).model;
+      if (rec.kind !== 'model') throw new InputError(`data set ${q.model} holds ${rec.kind}, not a model`, [{ field: 'model', problem: `expected a model, got ${rec.kind}` }], 'wrong_dataset_kind');
+      model = parseModelDocument(JSON.parse(rec.body), `model ${q.model}`).model;
     } else {
-      model = modelFromJson(q.model, 'model').model;
+      model = parseModelDocument(q.model, 'model').model;
     }
     const out = await column({
       model,
@@ -142,6 +145,6 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
 
 function checkSamples(maxDepthKm: number, stepKm: number): void {
   if (maxDepthKm / stepKm > 3000) {
-    throw new InputError(`too many depth samples: maxDepthKm / stepKm = ${Math.ceil(maxDepthKm / stepKm)} (limit 3000)`, [{ field: 'stepKm', problem: 'use a larger step' }], 'invalid_column', 422);
+    throw new InputError(`too many depth samples: maxDepthKm / stepKm = ${Math.ceil(maxDepthKm / stepKm)} (limit 3000)`, [{ field: 'stepKm', problem: 'use a larger step' }], 'invalid_column');
   }
 }

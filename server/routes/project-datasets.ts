@@ -56,7 +56,6 @@ export function checkQuota(ctx: AppContext, projectId: string, bytes: number, wh
       `${what} (${mb(bytes)}) would take this project to ${mb(used + bytes)}, over its storage limit of ${mb(limit)} (${limit} bytes): remove data sets the project no longer needs`,
       [{ field: '(body)', problem: `a project holds at most ${limit} bytes (SUBTHERM_MAX_PROJECT_STORAGE_BYTES); it holds ${used}` }],
       'project_quota_exceeded',
-      413,
     );
   }
 }
@@ -107,7 +106,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     const raw = c.req.param('dsId') ?? '';
     const id = idSchema.safeParse(raw);
     const rec = id.success ? ctx.store.getProjectDataset(projectId, id.data) : null;
-    if (!rec) throw new InputError(`project ${projectId} holds no data set with id "${raw}"`, [{ field: 'dsId', problem: 'not found in this project' }], 'dataset_not_found', 404);
+    if (!rec) throw new InputError(`project ${projectId} holds no data set with id "${raw}"`, [{ field: 'dsId', problem: 'not found in this project' }], 'dataset_not_found');
     return rec;
   };
 
@@ -130,7 +129,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
   app.post('/api/projects/:id/datasets', async (c) => {
     const id = projectIdOf(c, ctx);
     requireEditToken(c, ctx, id);
-    const q = parseWith(projectDatasetQuerySchema, singleQuery(c), 'query', 'bad_query', 400);
+    const q = parseWith(projectDatasetQuerySchema, singleQuery(c), 'query', 'bad_query');
     const up = await parseUpload(c, ctx, q.kind as DatasetKind | 'model');
     const { dataset, status } = addToProject(ctx, id, up, q.name);
     return c.json({ ...datasetView(id, dataset), deduplicated: status !== 'created', warnings: up.warnings }, status === 'existing' ? 200 : 201);
@@ -158,7 +157,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     requireJsonType(c);
     const { name } = parseWith(datasetPatchSchema, await jsonBody(c), 'data set change', 'invalid_dataset_change');
     const clash = ctx.store.listProjectDatasets(id).find((d) => d.id !== held.id && d.name === name);
-    if (clash) throw new InputError(`another data set of this project is already named "${name}"`, [{ field: 'name', problem: `used by data set ${clash.id}` }], 'name_taken', 409);
+    if (clash) throw new InputError(`another data set of this project is already named "${name}"`, [{ field: 'name', problem: `used by data set ${clash.id}` }], 'name_taken');
     ctx.store.renameProjectDataset(id, held.id, name);
     return c.json(datasetView(id, ctx.store.getProjectDataset(id, held.id)!));
   });
@@ -177,10 +176,10 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
   app.post('/api/projects/:id/terrain', async (c) => {
     const id = projectIdOf(c, ctx);
     requireEditToken(c, ctx, id);
-    const q = parseWith(terrainQuerySchema, singleQuery(c), 'query', 'bad_query', 400);
+    const q = parseWith(terrainQuerySchema, singleQuery(c), 'query', 'bad_query');
     const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
     if (type !== 'image/tiff' && type !== 'image/geotiff' && type !== 'application/octet-stream') {
-      throw new InputError(`a terrain is a GeoTIFF: send it as image/tiff, got "${type || '(none)'}"`, [{ field: 'content-type', problem: 'expected image/tiff' }], 'unsupported_media_type', 415);
+      throw new InputError(`a terrain is a GeoTIFF: send it as image/tiff, got "${type || '(none)'}"`, [{ field: 'content-type', problem: 'expected image/tiff' }], 'unsupported_media_type');
     }
     const bytes = new Uint8Array(await c.req.arrayBuffer());
     const { grid, sourceCrs } = await demFromUpload(bytes, ctx.limits.maxTerrainBytes);
@@ -195,7 +194,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
   app.get('/api/projects/:id/terrain', (c) => {
     const id = projectIdOf(c, ctx);
     const t = ctx.store.getProjectTerrain(id);
-    if (!t) throw new InputError(`project ${id} has no terrain: upload a DEM GeoTIFF with POST /api/projects/${id}/terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found', 404);
+    if (!t) throw new InputError(`project ${id} has no terrain: upload a DEM GeoTIFF with POST /api/projects/${id}/terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found');
     return c.json(terrainView(id, t.meta, t.createdAt));
   });
 
@@ -203,17 +202,17 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     const id = projectIdOf(c, ctx);
     const { z, x } = c.req.param();
     const m = /^(\d+)\.png$/.exec(c.req.param('y'));
-    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) throw new InputError('terrain tiles are …/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: 'bad tile address' }], 'bad_tile', 400);
+    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) throw new InputError('terrain tiles are …/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: 'bad tile address' }], 'bad_tile');
     let entry = terrainTiles.get(id);
     const t = entry ? null : ctx.store.getProjectTerrain(id);
     if (!entry) {
-      if (!t) throw new InputError(`project ${id} has no terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found', 404);
+      if (!t) throw new InputError(`project ${id} has no terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found');
       entry = { hash: t.blobHash, tiles: new TerrainTiles({ ...t.meta, crs: 'EPSG:4326', values: t.values }) };
       terrainTiles.set(id, entry);
       if (terrainTiles.size > 8) terrainTiles.delete(terrainTiles.keys().next().value as string);
     }
     const png = entry.tiles.tile(Number(z), Number(x), Number(m[1]));
-    if (!png) throw new InputError(`no terrain tile ${z}/${x}/${m[1]}`, [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }], 'tile_not_found', 404);
+    if (!png) throw new InputError(`no terrain tile ${z}/${x}/${m[1]}`, [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }], 'tile_not_found');
     return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'no-cache' });
   });
 

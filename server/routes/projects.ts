@@ -23,22 +23,22 @@ export function requireEditToken(c: Context, ctx: AppContext, id: string): void 
   const token = bearerToken(c.req.header('authorization'));
   if (token === null) {
     c.header('www-authenticate', 'Bearer realm="subtherm project"');
-    throw new InputError('changing a project needs its edit token: Authorization: Bearer <editToken> (from the edit link)', [{ field: 'authorization', problem: 'missing' }], 'unauthorized', 401);
+    throw new InputError('changing a project needs its edit token: Authorization: Bearer <editToken> (from the edit link)', [{ field: 'authorization', problem: 'missing' }], 'unauthorized');
   }
   if (!tokenMatches(token, ctx.store.getProjectTokenHash(id)!)) {
-    throw new InputError('this token cannot edit this project (a view link is read-only)', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden', 403);
+    throw new InputError('this token cannot edit this project (a view link is read-only)', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden');
   }
 }
 
 export function projectRoutes(app: Hono, ctx: AppContext): void {
   const stateJson = (state: Record<string, unknown>): string => {
     if (jsonDepthExceeds(state, ctx.limits.maxJsonDepth)) {
-      throw new InputError(`the state is nested deeper than ${ctx.limits.maxJsonDepth} levels`, [{ field: 'state', problem: `at most ${ctx.limits.maxJsonDepth} levels of nesting` }], 'state_too_deep', 422);
+      throw new InputError(`the state is nested deeper than ${ctx.limits.maxJsonDepth} levels`, [{ field: 'state', problem: `at most ${ctx.limits.maxJsonDepth} levels of nesting` }], 'state_too_deep');
     }
     const text = JSON.stringify(state);
     const bytes = Buffer.byteLength(text, 'utf8');
     if (bytes > ctx.limits.maxProjectStateBytes) {
-      throw new InputError(`the state is ${bytes} bytes (limit ${ctx.limits.maxProjectStateBytes})`, [{ field: 'state', problem: `at most ${ctx.limits.maxProjectStateBytes} bytes of JSON` }], 'state_too_large', 413);
+      throw new InputError(`the state is ${bytes} bytes (limit ${ctx.limits.maxProjectStateBytes})`, [{ field: 'state', problem: `at most ${ctx.limits.maxProjectStateBytes} bytes of JSON` }], 'state_too_large');
     }
     return text;
   };
@@ -56,9 +56,9 @@ export function projectRoutes(app: Hono, ctx: AppContext): void {
 
   app.get('/api/projects/:id', (c) => {
     const id = projectId(c);
-    const { revision } = parseWith(revisionQuerySchema, singleQuery(c), 'query', 'bad_query', 400);
+    const { revision } = parseWith(revisionQuerySchema, singleQuery(c), 'query', 'bad_query');
     const rec = ctx.store.getProject(id, revision);
-    if (!rec) throw new InputError(`project ${id} has no revision ${revision}`, [{ field: 'revision', problem: 'not found' }], 'revision_not_found', 404);
+    if (!rec) throw new InputError(`project ${id} has no revision ${revision}`, [{ field: 'revision', problem: 'not found' }], 'revision_not_found');
     return c.json({ id: rec.id, title: rec.title, state: rec.state, revision: rec.revision, updatedAt: rec.updatedAt, createdAt: rec.createdAt }, 200, { 'cache-control': 'no-store' });
   });
 

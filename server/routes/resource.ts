@@ -70,7 +70,7 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
     const parsed = bodySchema.safeParse(raw);
     if (!parsed.success) {
       const details = parsed.error.issues.map((i) => ({ field: i.path.map(String).join('.') || '(body)', problem: i.message }));
-      throw new InputError(`bad heat-in-place request: ${details.map((d) => `${d.field}: ${d.problem}`).join('; ')}`, details, 'invalid_request', 422);
+      throw new InputError(`bad heat-in-place request: ${details.map((d) => `${d.field}: ${d.problem}`).join('; ')}`, details, 'invalid_request');
     }
     const body = parsed.data;
     const vertices = countVertices(body.polygon, L.maxPolygonVertices) + countVertices(body.zones, L.maxPolygonVertices);
@@ -79,14 +79,13 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
         `the polygons have more than ${L.maxPolygonVertices} vertices (limit maxPolygonVertices): simplify them first`,
         [{ field: body.polygon !== undefined ? 'polygon' : 'zones', problem: `more than ${L.maxPolygonVertices} vertices (limit maxPolygonVertices = ${L.maxPolygonVertices})` }],
         'over_limit',
-        422,
       );
     }
     const runId = c.req.param('runId');
     const id = idSchema.safeParse(runId);
     const run = id.success ? ctx.store.getRun(id.data) : null;
-    if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found', 404);
-    if (run.status !== 'done') throw new InputError(`run ${run.id} is ${run.status}: heat in place needs a finished run`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done', 409);
+    if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found');
+    if (run.status !== 'done') throw new InputError(`run ${run.id} is ${run.status}: heat in place needs a finished run`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done');
     // Everything the caller can get wrong is checked now (bounded above, so cheap), not in the job.
     const options = parseHeatInPlaceOptions(body.options ?? {}, 'options');
     if (body.polygon !== undefined) parseAreaPolygon(body.polygon, 'polygon');
@@ -96,11 +95,10 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
         `at most ${L.maxHeatInPlaceRealizations} realizations per heat-in-place job (limit maxHeatInPlaceRealizations), got ${options.realizations}`,
         [{ field: 'options.realizations', problem: `${options.realizations} > maxHeatInPlaceRealizations = ${L.maxHeatInPlaceRealizations}; use the CLI for larger runs` }],
         'over_limit',
-        422,
       );
     }
     const heat = await ctx.grids.get(run.id, 'heatFlow');
-    if (!heat) throw new InputError(`run ${run.id} stored no heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid', 409);
+    if (!heat) throw new InputError(`run ${run.id} stored no heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid');
     const sd = await ctx.grids.get(run.id, 'heatFlowSd');
     const cells = heat.grid.width * heat.grid.height;
     const work = cells * Math.max(1, options.realizations);
@@ -109,7 +107,6 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
         `${cells} cells × ${options.realizations} realizations = ${work} is over the limit maxHeatInPlaceCellRealizations = ${L.maxHeatInPlaceCellRealizations}: ask for fewer realizations`,
         [{ field: 'options.realizations', problem: `cells × realizations = ${work} > maxHeatInPlaceCellRealizations = ${L.maxHeatInPlaceCellRealizations}` }],
         'over_limit',
-        422,
       );
     }
     const job = ctx.heatJobs.submit({
@@ -130,7 +127,6 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
         `no heat-in-place job "${c.req.param('file')}" for run "${runId}" (jobs are kept for a day, and not across a server restart: POST again, the result is seeded)`,
         [{ field: 'jobId', problem: 'not found' }],
         'job_not_found',
-        404,
       );
     }
     if (job.status === 'queued' || job.status === 'running') return c.json(jobView(runId, job, ctx.heatJobs.position(job)), 202, { 'retry-after': '1' });

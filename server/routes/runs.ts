@@ -11,7 +11,7 @@ import { runRequestSchema, type RunLayerInfo, type RunRequest } from '../../shar
 import { interpolationOptionsSchema } from '../../shared/schema/interp.ts';
 import { VERSION } from '../../shared/version.ts';
 import { isTerminal, type RunSnapshot } from '../runs/jobs.ts';
-import { modelFromJson } from '../runs/model-input.ts';
+import { parseModelDocument } from '../../shared/products/model-input.ts';
 import { LAYER_EXTS, type LayerExt } from '../runs/types.ts';
 import { sha256Hex } from '../store/sqlite.ts';
 import { vectorsGeoPackage } from '../io/export.ts';
@@ -96,11 +96,11 @@ export function submitRun(ctx: AppContext, body: unknown, client: string, projec
   // The engines' own options are validated here too, so a mistake is a 422 now rather than a failed run later.
   parseWith(interpolationOptionsSchema, request.interpolation, 'interpolation options', 'invalid_run');
   if (request.maskToRegion && request.regions === undefined) {
-    throw new InputError('maskToRegion needs a regions data set', [{ field: 'regions', problem: 'missing (maskToRegion is set)' }], 'invalid_run', 422);
+    throw new InputError('maskToRegion needs a regions data set', [{ field: 'regions', problem: 'missing (maskToRegion is set)' }], 'invalid_run');
   }
   const crs = request.grid.crs ?? (request.interpolation as { crs?: string }).crs;
   if (crs !== undefined && !/^EPSG:\d{4,6}$/i.test(crs)) {
-    throw new InputError(`grid.crs must be EPSG:nnnn, got "${crs}"`, [{ field: 'grid.crs', problem: 'expected EPSG:4326 or EPSG:nnnn' }], 'invalid_run', 422);
+    throw new InputError(`grid.crs must be EPSG:nnnn, got "${crs}"`, [{ field: 'grid.crs', problem: 'expected EPSG:4326 or EPSG:nnnn' }], 'invalid_run');
   }
   const { datasets, hashes, names, bboxes } = resolveRunDatasets(ctx, request, projectId);
   const warnings = farApartWarnings(bboxes);
@@ -110,11 +110,10 @@ export function submitRun(ctx: AppContext, body: unknown, client: string, projec
       `the output grid would have ${cells.toLocaleString('en')} cells (limit ${ctx.limits.maxGridCells.toLocaleString('en')}): use a larger cellKm, a smaller bbox or size`,
       [{ field: 'grid', problem: `at most ${ctx.limits.maxGridCells} cells per grid` }],
       'grid_too_large',
-      422,
     );
   }
   if (!existsSync(ctx.workerFile)) {
-    throw new InputError('runs are not available on this server: the run worker is not installed', [], 'runs_unavailable', 503);
+    throw new InputError('runs are not available on this server: the run worker is not installed', [], 'runs_unavailable');
   }
   const cacheKey = sha256Hex(canonicalJson({ version: VERSION, request, inputs: hashes }));
   // "Client" for limits and fairness: the project a run is started through, else the remote address.
@@ -141,7 +140,7 @@ export function requireRunInputs(body: unknown): void {
     missing.push({ field: 'model', problem: 'add a thermal model: upload a model data set (JSON) and name its id in "model", or give the model inline' });
   }
   if (missing.length > 0) {
-    throw new InputError(`this run cannot start: ${missing.map((m) => m.problem).join('; ')}`, missing, 'run_needs_input', 422);
+    throw new InputError(`this run cannot start: ${missing.map((m) => m.problem).join('; ')}`, missing, 'run_needs_input');
   }
 }
 
@@ -153,13 +152,13 @@ export function resolveRunDatasets(ctx: AppContext, request: RunRequest, project
   const bboxes: { role: string; id: string; name: string | null; bbox: [number, number, number, number] }[] = [];
   const need = (role: string, id: string, kind: string): DatasetRecord & { body: string; name: string | null } => {
     const rec = ctx.store.getDataset(id);
-    if (!rec) throw new InputError(`${role}: no data set with id "${id}"`, [{ field: role, problem: `data set ${id} not found` }], 'dataset_not_found', 404);
-    if (rec.kind !== kind) throw new InputError(`${role}: data set "${id}" holds ${rec.kind}, not ${kind}`, [{ field: role, problem: `expected a ${kind} data set, got ${rec.kind}` }], 'wrong_dataset_kind', 422);
+    if (!rec) throw new InputError(`${role}: no data set with id "${id}"`, [{ field: role, problem: `data set ${id} not found` }], 'dataset_not_found');
+    if (rec.kind !== kind) throw new InputError(`${role}: data set "${id}" holds ${rec.kind}, not ${kind}`, [{ field: role, problem: `expected a ${kind} data set, got ${rec.kind}` }], 'wrong_dataset_kind');
     let name = rec.title;
     if (projectId !== undefined) {
       const held = ctx.store.getProjectDataset(projectId, id);
       if (!held) {
-        throw new InputError(`${role}: data set "${id}" is not one of this project's data sets: upload it into the project (or choose one it holds)`, [{ field: role, problem: `data set ${id} is not in project ${projectId}` }], 'dataset_not_in_project', 422);
+        throw new InputError(`${role}: data set "${id}" is not one of this project's data sets: upload it into the project (or choose one it holds)`, [{ field: role, problem: `data set ${id} is not in project ${projectId}` }], 'dataset_not_in_project');
       }
       name = held.name;
     }
@@ -178,13 +177,13 @@ export function resolveRunDatasets(ctx: AppContext, request: RunRequest, project
   // model's name is its data set's name (the project's), so exports carry the name the user gave it.
   if (typeof request.model === 'string') {
     const rec = need('model', request.model, 'model');
-    const { model } = modelFromJson(JSON.parse(rec.body), `model ${request.model}`);
+    const { model } = parseModelDocument(JSON.parse(rec.body), `model ${request.model}`);
     const { name: _own, ...content } = model as typeof model & { name?: unknown };
     datasets[request.model] = { kind: 'model', body: JSON.stringify(rec.name === null ? content : { name: rec.name, ...content }) };
     hashes.model = rec.contentHash;
     if (rec.name !== null) hashes.modelName = sha256Hex(rec.name);
   } else {
-    request.model = modelFromJson(request.model, 'model').model as unknown as Record<string, unknown>;
+    request.model = parseModelDocument(request.model, 'model').model as unknown as Record<string, unknown>;
   }
   return { datasets, hashes, names, bboxes };
 }
@@ -250,15 +249,15 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
     const rec = getRun(c.req.param('id'));
     const live = ctx.jobs.live(rec.id);
     if (!live) {
-      throw new InputError(`run ${rec.id} has already ended (${rec.status}); nothing to cancel`, [{ field: 'status', problem: rec.status }], 'run_finished', 409);
+      throw new InputError(`run ${rec.id} has already ended (${rec.status}); nothing to cancel`, [{ field: 'status', problem: rec.status }], 'run_finished');
     }
     // The run token returned when the run started, or the edit token of the project it was started through.
     const auth = ctx.jobs.authorizeCancel(rec.id, bearerToken(c.req.header('authorization')), (p) => ctx.store.getProjectTokenHash(p));
     if (auth === 'missing') {
-      throw new InputError('cancelling a run needs its run token (returned when it started) or its project\'s edit token: send Authorization: Bearer <token>', [{ field: 'authorization', problem: 'missing' }], 'token_required', 401);
+      throw new InputError('cancelling a run needs its run token (returned when it started) or its project\'s edit token: send Authorization: Bearer <token>', [{ field: 'authorization', problem: 'missing' }], 'token_required');
     }
     if (auth === 'wrong') {
-      throw new InputError('this token may not cancel this run: it is neither the run\'s token nor the edit token of the project that started it', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden', 403);
+      throw new InputError('this token may not cancel this run: it is neither the run\'s token nor the edit token of the project that started it', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden');
     }
     const after = ctx.jobs.cancel(rec.id);
     return c.json({ id: rec.id, status: after?.status ?? 'cancelled' });
@@ -299,7 +298,7 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
   // Every vector layer of a finished run in one GeoPackage (one table per layer).
   app.get('/api/runs/:id/vectors.gpkg', (c) => {
     const rec = getRun(c.req.param('id'));
-    if (rec.status !== 'done') throw new InputError(`the run is ${rec.status}; its GeoPackage appears when it is done`, [{ field: 'file', problem: 'not found' }], 'layer_not_found', 404);
+    if (rec.status !== 'done') throw new InputError(`the run is ${rec.status}; its GeoPackage appears when it is done`, [{ field: 'file', problem: 'not found' }], 'layer_not_found');
     const layers = (rec.layers as { name: string; title?: string; formats?: string[] }[])
       .filter((l) => l.formats?.includes('geojson'))
       .map((l) => ({ name: l.name, title: l.title ?? l.name, file: ctx.store.getRunFile(rec.id, l.name, 'geojson') }))
@@ -314,12 +313,12 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
     const file = c.req.param('file');
     const m = /^(.+)\.([a-z]+)$/.exec(file);
     if (!m || !LAYER_EXTS.includes(m[2] as LayerExt)) {
-      throw new InputError(`layer files are <name>.tif, .png, .geojson or .csv, got "${file}"`, [{ field: 'file', problem: 'unknown format' }], 'bad_layer_format', 400);
+      throw new InputError(`layer files are <name>.tif, .png, .geojson or .csv, got "${file}"`, [{ field: 'file', problem: 'unknown format' }], 'bad_layer_format');
     }
     const stored = ctx.store.getRunFile(rec.id, m[1], m[2]);
     if (!stored) {
       const why = rec.status === 'done' ? `the run has no layer file ${file}` : `the run is ${rec.status}; layers appear when it is done`;
-      throw new InputError(why, [{ field: 'file', problem: 'not found' }], 'layer_not_found', 404);
+      throw new InputError(why, [{ field: 'file', problem: 'not found' }], 'layer_not_found');
     }
     const etag = `"${stored.hash}"`;
     const headers = { 'content-type': stored.contentType, etag, 'cache-control': 'private, max-age=3600', 'content-disposition': `inline; filename="${m[1]}.${m[2]}"` };

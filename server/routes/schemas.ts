@@ -93,12 +93,12 @@ export function zodProblems(error: z.ZodError): InputProblem[] {
   return error.issues.slice(0, 50).map((i) => ({ field: i.path.map(String).join('.') || '(body)', problem: i.message }));
 }
 
-/** Parses `value` with `schema`, or throws InputError (`code`, 422 unless given) naming each field. */
-export function parseWith<S extends z.ZodType>(schema: S, value: unknown, what: string, code = 'invalid_request', status = 422): z.output<S> {
+/** Parses `value` with `schema`, or throws InputError (`code`) naming each field. */
+export function parseWith<S extends z.ZodType>(schema: S, value: unknown, what: string, code = 'invalid_request'): z.output<S> {
   const r = schema.safeParse(value);
   if (r.success) return r.data;
   const problems = zodProblems(r.error);
-  throw new InputError(`invalid ${what}: ${problems.map((p) => `${p.field}: ${p.problem}`).join('; ')}`, problems, code, status);
+  throw new InputError(`invalid ${what}: ${problems.map((p) => `${p.field}: ${p.problem}`).join('; ')}`, problems, code);
 }
 
 /**

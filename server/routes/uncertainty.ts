@@ -91,7 +91,7 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
     const id = idSchema.safeParse(raw);
     const run = id.success ? ctx.store.getRun(id.data) : null;
     if (!run) throw notFound('run', raw, 'run_not_found');
-    if (run.status !== 'done') throw new InputError(`run ${run.id} is ${run.status}; its uncertainty layers exist when it is done`, [{ field: 'id', problem: `status ${run.status}` }], 'run_not_done', 409);
+    if (run.status !== 'done') throw new InputError(`run ${run.id} is ${run.status}; its uncertainty layers exist when it is done`, [{ field: 'id', problem: `status ${run.status}` }], 'run_not_done');
     return run;
   };
 
@@ -103,7 +103,7 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
 
   app.get('/api/runs/:id/spread', async (c) => {
     const run = doneRun(c.req.param('id'));
-    const { isothermC } = parseWith(spreadQuery, singleQuery(c), 'query', 'bad_query', 400);
+    const { isothermC } = parseWith(spreadQuery, singleQuery(c), 'query', 'bad_query');
     const T = fmt(isothermC);
     const r = await derive(run.id, {
       name: `${depthProductName(isothermC)}.spread`,
@@ -119,7 +119,7 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
 
   app.get('/api/runs/:id/probability', async (c) => {
     const run = doneRun(c.req.param('id'));
-    const q = parseWith(probabilityQuery, singleQuery(c), 'query', 'bad_query', 400);
+    const q = parseWith(probabilityQuery, singleQuery(c), 'query', 'bad_query');
     let query: ProbabilityQuery, name: string, title: string;
     if ('isothermC' in q) {
       query = { kind: 'isotherm-shallower', isothermC: q.isothermC, depthKm: q.shallowerThanKm };

@@ -60,13 +60,12 @@ export class ComputePool {
    * InputError (4xx) when the input was at fault.
    */
   async run<T>(task: ComputeTask, deadlineMs: number, signal?: AbortSignal): Promise<T> {
-    if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down', 503);
+    if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down');
     if (this.inFlight >= this.opts.threads + this.opts.maxQueue) {
       throw new InputError(
         `the server is busy: ${this.inFlight - this.opts.threads} ${this.opts.name} tasks are waiting (limit ${this.opts.maxQueue}); try again in a few seconds`,
         [{ field: '(server)', problem: `at most ${this.opts.maxQueue} waiting ${this.opts.name} tasks` }],
         'server_busy',
-        503,
       );
     }
     const deadline = AbortSignal.timeout(deadlineMs);
@@ -74,7 +73,7 @@ export class ComputePool {
     this.inFlight++;
     try {
       const reply = (await this.getPool().run(task, { signal: both })) as ComputeReply;
-      if (!reply.ok) throw new InputError(reply.error.message, reply.error.details, reply.error.code, reply.error.status);
+      if (!reply.ok) throw new InputError(reply.error.message, reply.error.details, reply.error.code);
       return reply.value as T;
     } catch (e) {
       if (deadline.aborted) {
@@ -83,10 +82,9 @@ export class ComputePool {
           `the computation did not finish within ${s} s (limit ${this.opts.deadlineLimit} = ${s}); ask for less work (fewer realizations, a smaller area) or try again when the server is less busy`,
           [{ field: this.opts.deadlineLimit, problem: `at most ${s} s per task` }],
           'deadline_exceeded',
-          503,
         );
       }
-      if (signal?.aborted) throw new InputError('cancelled', [], 'cancelled', 409);
+      if (signal?.aborted) throw new InputError('cancelled', [], 'cancelled');
       throw e;
     } finally {
       this.inFlight--;

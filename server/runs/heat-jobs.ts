@@ -9,6 +9,7 @@
 import { InputError, type InputProblem } from '../../shared/errors.ts';
 import { newId } from '../store/sqlite.ts';
 import type { ComputePool } from './compute.ts';
+import { httpStatusOf } from '../http-status.ts';
 import type { HeatInPlaceOutput, HeatInPlaceTask } from '../workers/compute-worker.ts';
 
 export type HeatJobStatus = 'queued' | 'running' | 'done' | 'failed';
@@ -62,7 +63,6 @@ export class HeatJobs {
         `too many heat-in-place jobs in flight for this client: ${mine} (limit maxHeatInPlaceJobsPerClient = ${this.opts.maxPerClient}); wait for one to finish`,
         [{ field: 'maxHeatInPlaceJobsPerClient', problem: `${mine} in flight, at most ${this.opts.maxPerClient}` }],
         'too_many_jobs',
-        429,
       );
     }
     const all = this.inFlight();
@@ -71,7 +71,6 @@ export class HeatJobs {
         `the server has ${all} heat-in-place jobs in flight (limit maxHeatInPlaceJobsServer = ${this.opts.maxServer}); try again shortly`,
         [{ field: 'maxHeatInPlaceJobsServer', problem: `${all} in flight, at most ${this.opts.maxServer}` }],
         'too_many_jobs',
-        429,
       );
     }
     this.evict();
@@ -138,7 +137,7 @@ export class HeatJobs {
         job.status = 'failed';
         if (e instanceof InputError) {
           // A deadline reached is the job's size, not the server's fault: a 422 naming the limit.
-          const status = e.code === 'deadline_exceeded' ? 422 : e.status;
+          const status = e.code === 'deadline_exceeded' ? 422 : httpStatusOf(e.code);
           job.error = { code: e.code, message: e.message.replace('computeDeadlineSeconds', 'heatInPlaceDeadlineSeconds'), details: e.details, status };
         } else {
           process.stderr.write(`[${new Date().toISOString()}] heat-in-place job ${job.id} failed: ${(e as Error)?.stack ?? String(e)}\n`);

@@ -19,8 +19,8 @@ export const isogradStage: ExtraLayerStage = {
     const { request, datasets } = ctx;
     if (request.samples === undefined) return [];
     const samplesDs = datasets[request.samples];
-    if (!samplesDs) throw new InputError(`data set "${request.samples}" not found`, [{ field: 'samples', problem: 'not found' }], 'not_found', 404);
-    if (samplesDs.kind !== 'samples') throw new InputError(`data set "${request.samples}" holds ${samplesDs.kind}, not samples`, [{ field: 'samples', problem: `kind ${samplesDs.kind}` }], 'wrong_kind', 422);
+    if (!samplesDs) throw new InputError(`data set "${request.samples}" not found`, [{ field: 'samples', problem: 'not found' }], 'not_found');
+    if (samplesDs.kind !== 'samples') throw new InputError(`data set "${request.samples}" holds ${samplesDs.kind}, not samples`, [{ field: 'samples', problem: `kind ${samplesDs.kind}` }], 'wrong_kind');
     progress(0, 'isograds: reading the grade samples');
     const samples = parseFeatureCollection('samples', JSON.parse(samplesDs.body)).collection as SampleCollection;
     const faultsDs = request.faults !== undefined ? datasets[request.faults] : undefined;

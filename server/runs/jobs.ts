@@ -168,7 +168,7 @@ export class RunJobs {
    * @param cells output grid cells of the run (null when not known before it starts)
    */
   submit(input: { request: RunRequest; datasets: Record<string, { kind: string; body: string }>; cacheKey: string; client: string; cells?: number | null; projectId?: string }): { id: string; cached: boolean; runToken?: string } {
-    if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down', 503);
+    if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down');
     const existing = this.store.findRunByCacheKey(input.cacheKey, ['queued', 'running', 'done']);
     if (existing && (existing.status === 'done' || this.running.has(existing.id) || this.queuedInOrder().some((j) => j.id === existing.id))) {
       return { id: existing.id, cached: true };
@@ -177,8 +177,8 @@ export class RunJobs {
     const cells = input.cells ?? 0;
     const work = Math.max(1, cells) * Math.max(1, realizations);
     const L = this.limits;
-    const over = (limit: string, value: number, max: number, message: string, status: number, code: string) =>
-      new InputError(message, [{ field: limit, problem: `${value.toLocaleString('en')} > ${limit} = ${max.toLocaleString('en')}` }], code, status);
+    const over = (limit: string, value: number, max: number, message: string, _status: number, code: string) =>
+      new InputError(message, [{ field: limit, problem: `${value.toLocaleString('en')} > ${limit} = ${max.toLocaleString('en')}` }], code);
     if (work > L.maxRunWork) {
       throw over('maxRunCellRealizations', work, L.maxRunWork, `the run asks for ${cells.toLocaleString('en')} cells × ${realizations} realizations = ${work.toLocaleString('en')} (limit maxRunCellRealizations = ${L.maxRunWork.toLocaleString('en')}): use fewer realizations, a larger cellKm or a smaller bbox`, 422, 'run_too_large');
     }
@@ -188,7 +188,6 @@ export class RunJobs {
         `too many runs in flight: ${inFlight} queued or running for this client (limit maxQueuedRunsPerClient = ${this.maxPerClient}); wait for one to finish or cancel one`,
         [{ field: 'maxQueuedRunsPerClient', problem: `at most ${this.maxPerClient} queued or running runs per client` }],
         'too_many_runs',
-        429,
       );
     }
     const clientWork = this.workPerClient.get(input.client) ?? 0;
@@ -197,7 +196,7 @@ export class RunJobs {
     }
     const total = this.queuedCount + this.running.size;
     if (total >= L.maxQueuedServer) {
-      throw new InputError(`the server has ${total} runs queued or running (limit maxQueuedRunsServer = ${L.maxQueuedServer}); try again later`, [{ field: 'maxQueuedRunsServer', problem: `at most ${L.maxQueuedServer} runs in flight on the server` }], 'server_busy', 503);
+      throw new InputError(`the server has ${total} runs queued or running (limit maxQueuedRunsServer = ${L.maxQueuedServer}); try again later`, [{ field: 'maxQueuedRunsServer', problem: `at most ${L.maxQueuedServer} runs in flight on the server` }], 'server_busy');
     }
     if (this.workTotal + work > L.maxQueuedWorkServer) {
       throw over('maxQueuedWorkServer', this.workTotal + work, L.maxQueuedWorkServer, `the server's runs in flight would total ${(this.workTotal + work).toLocaleString('en')} cells × realizations (limit maxQueuedWorkServer = ${L.maxQueuedWorkServer.toLocaleString('en')}); try again later`, 503, 'server_busy');

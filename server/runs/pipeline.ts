@@ -378,7 +378,7 @@ export async function computeThermalProducts(
 
 function dataset(datasets: Record<string, StoredDataset>, id: string, field: string): StoredDataset {
   const d = datasets[id];
-  if (d === undefined) throw new InputError(`data set "${id}" (${field}) was not found`, [{ field, problem: `no data set with id "${id}"` }], 'unknown_dataset', 404);
+  if (d === undefined) throw new InputError(`data set "${id}" (${field}) was not found`, [{ field, problem: `no data set with id "${id}"` }], 'unknown_dataset');
   return d;
 }
 
@@ -464,7 +464,6 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
     doc = parseModelDocument(req.model, 'model');
     hashes.model = sha256Json(req.model);
   }
-  warnings.push(...doc.warnings);
 
   // Faults (barriers) and regions (overrides, mask).
   let faults: number[][][] | null = null;

@@ -117,16 +117,16 @@ export function realizationsFromGrids(input: {
  */
 export async function loadRunRealizations(store: Store, runId: string, opts: { realizations?: number } = {}): Promise<RunRealizations> {
   const run = store.getRun(runId);
-  if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found', 404);
-  if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}; its realizations exist when it is done`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done', 409);
+  if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found');
+  if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}; its realizations exist when it is done`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done');
   const request = run.request as { regions?: string; realizations?: number; seed?: number; heatFlowErrorCorrelation?: 'full' | 'independent'; maxDepthKm?: number };
   const summary = (run.summary ?? {}) as { maxDepthKm?: number; monteCarlo?: { realizations?: number; seed?: number; heatFlowErrorCorrelation?: 'full' | 'independent' } | null };
   const N = opts.realizations ?? summary.monteCarlo?.realizations ?? request.realizations ?? 0;
   if (!(Number.isInteger(N) && N >= 1)) {
-    throw new InputError(`run ${runId} was made without realizations: start a run with "realizations" (e.g. 100) for spread and probability`, [{ field: 'realizations', problem: 'the run has none' }], 'run_without_realizations', 409);
+    throw new InputError(`run ${runId} was made without realizations: start a run with "realizations" (e.g. 100) for spread and probability`, [{ field: 'realizations', problem: 'the run has none' }], 'run_without_realizations');
   }
   const heat = store.getRunGrid(runId, 'heatFlow');
-  if (!heat) throw new InputError(`run ${runId} has no stored heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid', 409);
+  if (!heat) throw new InputError(`run ${runId} has no stored heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid');
   const sdRec = store.getRunGrid(runId, 'heatFlowSd');
   const heatFlow: Grid<Float32Array> = { ...heat.meta, values: heat.values };
   const heatFlowSd: Grid<Float32Array> | null = sdRec ? { ...sdRec.meta, values: sdRec.values } : null;
@@ -135,7 +135,7 @@ export async function loadRunRealizations(store: Store, runId: string, opts: { r
   let zones: Uint16Array | undefined;
   if (request.regions !== undefined) {
     const ds = store.getDataset(request.regions);
-    if (!ds) throw new InputError(`the regions data set "${request.regions}" of run ${runId} is no longer stored`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found', 404);
+    if (!ds) throw new InputError(`the regions data set "${request.regions}" of run ${runId} is no longer stored`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found');
     const found = overrideRegions(parseFeatureCollection('regions', JSON.parse(ds.body)).collection.features as { geometry: unknown; properties?: Record<string, unknown> }[]);
     if (found.regions.length > 0) {
       zoneModels.push(...found.regions.map((r) => applyLayerOverride(base, r.override)));

@@ -84,7 +84,7 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
   }
   const totalKm = cum[cum.length - 1];
   if (!(totalKm > 1e-6)) {
-    throw new InputError('the section line has zero length: give at least two distinct vertices', [{ field: 'line', problem: 'all vertices coincide' }], 'invalid_section', 422);
+    throw new InputError('the section line has zero length: give at least two distinct vertices', [{ field: 'line', problem: 'all vertices coincide' }], 'invalid_section');
   }
   const n = q.samples, nz = q.depthSamples;
   const distanceKm = new Float64Array(n), lon = new Float64Array(n), lat = new Float64Array(n), heat = new Float64Array(n);

@@ -1,7 +1,7 @@
 /**
  * Worker side of the compute pools (server/runs/compute.ts): one function per kind of task. Grids arrive with
  * their values in shared memory (no copy); bodies of data sets arrive as text and are parsed here, off the request
- * thread. An InputError becomes `{ ok: false, error }` so its code, status and details survive the thread boundary.
+ * thread. An InputError becomes `{ ok: false, error }` so its code and details survive the thread boundary.
  */
 import { InputError, type InputProblem } from '../../shared/errors.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
@@ -16,7 +16,7 @@ import {
 } from '../../shared/resource/index.ts';
 import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
 import { gridGeometry, outlineInGrid, resultHtml } from '../io/resource-output.ts';
-import { computeColumn, type ColumnQuery } from '../runs/column.ts';
+import { computeColumn, type ColumnQuery } from '../../shared/products/column.ts';
 import { runGridOf } from '../runs/grids.ts';
 import { computeSection, linesOf, type LineFeature } from '../runs/section.ts';
 import { modelZones } from '../runs/zones.ts';
@@ -54,7 +54,7 @@ export interface HeatInPlaceTask {
 
 export type ComputeTask = { kind: 'column'; query: ColumnQuery } | SectionTask | HeatInPlaceTask;
 
-export type ComputeReply = { ok: true; value: unknown } | { ok: false; error: { code: string; message: string; details: InputProblem[]; status: number } };
+export type ComputeReply = { ok: true; value: unknown } | { ok: false; error: { code: string; message: string; details: InputProblem[] } };
 
 /** What a heat-in-place job keeps: the CLI's JSON report and both exports, rendered once. */
 export interface HeatInPlaceOutput {
@@ -74,7 +74,7 @@ export default async function compute(task: ComputeTask): Promise<ComputeReply> 
         return { ok: true, value: await heatInPlace(task) };
     }
   } catch (e) {
-    if (e instanceof InputError) return { ok: false, error: { code: e.code, message: e.message, details: e.details, status: e.status } };
+    if (e instanceof InputError) return { ok: false, error: { code: e.code, message: e.message, details: e.details } };
     throw e;
   }
 }

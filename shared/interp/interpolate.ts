@@ -136,7 +136,7 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
   // Merge coincident points (closer than 1 mm): mean value, mean of the error variances over m² (mean of m
   // independent measurements), the best quality's multiplier.
   const qw = { ...DEFAULT_QUALITY_WEIGHTS, ...(opts.qualityWeights ?? {}) };
-  for (const [k, v] of Object.entries(qw)) if (!(v >= 0 && Number.isFinite(v))) throw new InputError(`quality weight for ${k} must be ≥ 0, got ${v}`, [{ field: 'quality-weights', problem: 'expected a finite number ≥ 0' }], 'bad_option');
+  for (const [k, v] of Object.entries(qw)) if (!(v >= 0 && Number.isFinite(v))) throw new InputError(`quality weight for ${k} must be ≥ 0, got ${v}`, [{ field: 'qualityWeights', problem: 'expected a finite number ≥ 0' }], 'bad_option');
   const index = new NeighbourIndex(px, py);
   const group = new Int32Array(n0).fill(-1);
   const ids: string[] = [];
@@ -172,16 +172,16 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
   if (method === 'kriging' && opts.measurementError === true && !useEv) warnings.push('measurement error requested but no point carries an uncertainty: none used');
 
   const neighbors = opts.neighbors === 'all' ? Infinity : opts.neighbors ?? (method === 'idw' ? 12 : 16);
-  if (!(neighbors >= 1)) throw new InputError(`--neighbors must be a positive integer or "all", got ${String(opts.neighbors)}`, [{ field: 'neighbors', problem: 'expected ≥ 1' }], 'bad_option');
+  if (!(neighbors >= 1)) throw new InputError(`neighbors must be a positive integer or "all", got ${String(opts.neighbors)}`, [{ field: 'neighbors', problem: 'expected ≥ 1' }], 'bad_option');
   const radiusKm = opts.radiusKm ?? Infinity;
-  if (!(radiusKm > 0)) throw new InputError(`search radius must be > 0 km, got ${radiusKm}`, [{ field: 'radius-km', problem: 'expected > 0' }], 'bad_option');
+  if (!(radiusKm > 0)) throw new InputError(`search radius must be > 0 km, got ${radiusKm}`, [{ field: 'radiusKm', problem: 'expected > 0' }], 'bad_option');
   const power = opts.power ?? 2;
-  if (!(power > 0 && Number.isFinite(power))) throw new InputError(`--power must be > 0, got ${power}`, [{ field: 'power', problem: 'expected a positive number' }], 'bad_option');
+  if (!(power > 0 && Number.isFinite(power))) throw new InputError(`power must be > 0, got ${power}`, [{ field: 'power', problem: 'expected a positive number' }], 'bad_option');
   const maxGlobal = opts.maxGlobal ?? 5000;
   if (method === 'kriging' && neighbors >= n && n > maxGlobal) {
-    throw new InputError(`global kriging of ${n} points exceeds the limit of ${maxGlobal}`, [{ field: 'neighbors', problem: 'use a local neighbourhood, e.g. --neighbors 16' }], 'too_many_points');
+    throw new InputError(`global kriging of ${n} points exceeds the limit of ${maxGlobal}`, [{ field: 'neighbors', problem: 'use a local neighbourhood, e.g. 16 neighbors' }], 'too_many_points');
   }
-  if (opts.maxDistanceKm !== undefined && opts.maxDistanceKm !== null && !(opts.maxDistanceKm > 0)) throw new InputError(`--max-distance-km must be > 0, got ${opts.maxDistanceKm}`, [{ field: 'max-distance-km', problem: 'expected > 0' }], 'bad_option');
+  if (opts.maxDistanceKm !== undefined && opts.maxDistanceKm !== null && !(opts.maxDistanceKm > 0)) throw new InputError(`maxDistanceKm must be > 0, got ${opts.maxDistanceKm}`, [{ field: 'maxDistanceKm', problem: 'expected > 0' }], 'bad_option');
 
   // Faults to local km pieces.
   let faults: Float64Array | null = null;
@@ -203,7 +203,7 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
   const cells = spec.width * spec.height;
   const maxCells = opts.maxCells ?? 25_000_000;
   if (needGrid && cells > maxCells) {
-    throw new InputError(`the grid would have ${cells.toLocaleString('en')} cells (${spec.width} × ${spec.height}), above the limit of ${maxCells.toLocaleString('en')}`, [{ field: 'cell-km', problem: 'use a larger cell, a smaller bbox or --size' }], 'grid_too_large');
+    throw new InputError(`the grid would have ${cells.toLocaleString('en')} cells (${spec.width} × ${spec.height}), above the limit of ${maxCells.toLocaleString('en')}`, [{ field: 'cellKm', problem: 'use a larger cell, a smaller bbox or --size' }], 'grid_too_large');
   }
   const gridCrsDef = gopts.crsDef ?? WGS84_DEF;
   let region: number[][][] | null = null;
@@ -261,11 +261,11 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
     let zmin = Infinity, zmax = -Infinity;
     for (let i = 0; i < n; i++) { zmin = Math.min(zmin, z[i]); zmax = Math.max(zmax, z[i]); }
     if (!(zmax > zmin)) throw new InputError(`all ${n} values are equal (${zmin}): the semivariogram is flat and cannot be fitted`, [{ field: 'values', problem: 'kriging needs varying values, or give a fixed --variogram MODEL:NUGGET,PARTIAL_SILL,RANGE_KM' }], 'degenerate_variogram');
-    if (opts.lagKm !== undefined && !(opts.lagKm > 0)) throw new InputError(`--lag-km must be > 0, got ${opts.lagKm}`, [{ field: 'lag-km', problem: 'expected > 0' }], 'bad_option');
-    if (opts.maxLagKm !== undefined && !(opts.maxLagKm > 0)) throw new InputError(`--max-lag-km must be > 0, got ${opts.maxLagKm}`, [{ field: 'max-lag-km', problem: 'expected > 0' }], 'bad_option');
+    if (opts.lagKm !== undefined && !(opts.lagKm > 0)) throw new InputError(`lagKm must be > 0, got ${opts.lagKm}`, [{ field: 'lagKm', problem: 'expected > 0' }], 'bad_option');
+    if (opts.maxLagKm !== undefined && !(opts.maxLagKm > 0)) throw new InputError(`maxLagKm must be > 0, got ${opts.maxLagKm}`, [{ field: 'maxLagKm', problem: 'expected > 0' }], 'bad_option');
     const emp = empiricalVariogram(t.x, t.y, z, { lagKm: opts.lagKm, maxLagKm: opts.maxLagKm });
-    if (emp.lags.length < 2) throw new InputError(`the empirical semivariogram has ${emp.lags.length} non-empty lag(s); at least 2 are needed to fit a model`, [{ field: 'lag-km', problem: 'use a smaller --lag-km or a larger --max-lag-km, or give a fixed --variogram' }], 'degenerate_variogram');
-    if (!emp.lags.some((l) => l.gamma > 0)) throw new InputError('the empirical semivariogram is zero at every lag: nothing to fit', [{ field: 'values', problem: 'give a fixed --variogram' }], 'degenerate_variogram');
+    if (emp.lags.length < 2) throw new InputError(`the empirical semivariogram has ${emp.lags.length} non-empty lag(s); at least 2 are needed to fit a model`, [{ field: 'lagKm', problem: 'use a smaller --lag-km or a larger --max-lag-km, or give a fixed --variogram' }], 'degenerate_variogram');
+    if (!emp.lags.some((l) => l.gamma > 0)) throw new InputError('the empirical semivariogram is zero at every lag: nothing to fit', [{ field: 'values', problem: 'give a fixed variogram model' }], 'degenerate_variogram');
     const models: VariogramModelName[] = vg === 'auto' ? [...VARIOGRAM_MODELS] : [vg];
     const candidates: NonNullable<VariogramReport['candidates']> = [];
     let best: { m: VariogramModel; cv: CrossValidation | null; score: number } | null = null;

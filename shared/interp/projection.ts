@@ -208,13 +208,13 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
   if (opts.size !== undefined) {
     [width, height] = opts.size;
     if (!(Number.isInteger(width) && width > 0 && Number.isInteger(height) && height > 0)) {
-      throw new InputError(`--size must be NXxNY with positive integers, got ${opts.size.join('x')}`, [{ field: 'size', problem: 'expected e.g. 400x300' }], 'bad_option');
+      throw new InputError(`size must be NXxNY with positive integers, got ${opts.size.join('x')}`, [{ field: 'size', problem: 'expected e.g. 400x300' }], 'bad_option');
     }
     dx = spanX / width; dy = spanY / height;
     cellKm = Math.sqrt(dx * kmPerUnitX * dy * kmPerUnitY);
   } else {
     cellKm = opts.cellKm ?? Math.max(spanX * kmPerUnitX, spanY * kmPerUnitY) / (opts.defaultCells ?? 200);
-    if (!(cellKm > 0) || !Number.isFinite(cellKm)) throw new InputError(`--cell-km must be a positive number of km, got ${cellKm}`, [{ field: 'cell-km', problem: 'expected > 0' }], 'bad_option');
+    if (!(cellKm > 0) || !Number.isFinite(cellKm)) throw new InputError(`cellKm must be a positive number of km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected > 0' }], 'bad_option');
     dx = cellKm / kmPerUnitX; dy = cellKm / kmPerUnitY;
     width = Math.max(1, Math.ceil(spanX / dx - 1e-9));
     height = Math.max(1, Math.ceil(spanY / dy - 1e-9));

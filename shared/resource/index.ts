@@ -26,4 +26,4 @@ export { zonesFromClassGrid, zonesFromPolygons, type ZoneLabels } from './zones.
 export { heatInPlaceOptionsSchema, parseHeatInPlaceOptions, parseAreaPolygon, parseZonePolygons, checkHeatInPlaceOptions, type AreaGeometry, type HeatInPlaceOptions, type HeatInPlaceOptionsInput } from './schema.ts';
 export { EXCEEDANCE_READING, NO_REALIZATIONS_NOTE, PERCENTILE_CONVENTION, assessHeatInPlace, type HeatInPlaceInput, type HeatInPlaceReport, type HeatInPlaceResult } from './assess.ts';
 export { reportCsv, reportJson } from './report.ts';
-export { percentilesBySelection, selectInPlace } from './select.ts';
+export { percentilesBySelection, selectInPlace } from '../stats/quantile.ts';

@@ -21,7 +21,7 @@ import { nominalModel, realizationProblem, realizeModel } from '../thermal/reali
 import { ColumnHeatScratch, checkWindow, columnHeat, emptyColumnHeat, type HeatWindow } from './column-heat.ts';
 import { JULIAN_YEAR_S } from './exergy.ts';
 import { buildHeatTable, type HeatTable } from './heat-table.ts';
-import { percentilesBySelection } from './select.ts';
+import { percentilesBySelection } from '../stats/quantile.ts';
 
 const PCTS = [0.1, 0.5, 0.9];
 
@@ -304,7 +304,7 @@ export function cellNormal(seed: number, r: number, c: number): number {
 /**
  * Processes cells [start, end) (start a multiple of SUM_BLOCK; end a multiple of it or the last cell): per-cell
  * densities into the output at absolute cell indices, and the block sums. Each cell's N values give its percentiles
- * (Hyndman & Fan type 7, by selection: select.ts) from one (N × SUM_BLOCK) buffer per quantity.
+ * (Hyndman & Fan type 7, by selection: shared/stats/quantile.ts) from one (N × SUM_BLOCK) buffer per quantity.
  */
 export function resourceRange(prep: PreparedResource, start: number, end: number, out: ResourceOutput): void {
   const spec = prep.spec;

@@ -4,7 +4,7 @@
  * type 7 over the accepted realizations). A total's percentiles are those of its per-realization totals, never sums
  * of cell percentiles. The nominal value (nominal model, kriged heat flow, nominal parameters) is given beside them.
  */
-import { quantileSorted } from '../thermal/quantiles.ts';
+import { quantileSorted } from '../stats/quantile.ts';
 import type { PreparedResource, SetSums } from './monte-carlo.ts';
 
 /** A total: the nominal (deterministic) value and, with realizations, its percentiles and mean; null = not computed. */

@@ -181,7 +181,7 @@ export function parseFeatureCollection(kind: DatasetKind, input: unknown, opts: 
   }
   if (features.length === 0) throw new InputError(`the ${kind} collection is empty`, [{ field: 'features', problem: 'expected at least one feature' }], 'empty_dataset');
   if (features.length > maxFeatures) {
-    throw new InputError(`too many features: ${features.length} (limit ${maxFeatures})`, [{ field: 'features', problem: `at most ${maxFeatures} features per data set` }], 'too_many_features', 413);
+    throw new InputError(`too many features: ${features.length} (limit ${maxFeatures})`, [{ field: 'features', problem: `at most ${maxFeatures} features per data set` }], 'too_many_features');
   }
   const swapped = swappedLonLatError(
     positionsOf(features, opts.featureLabels),
@@ -240,7 +240,7 @@ export function parseFeatureCollection(kind: DatasetKind, input: unknown, opts: 
   });
   if (problems.length > 0) {
     const more = problems.length >= maxProblems ? ` (first ${maxProblems} shown)` : '';
-    throw new InputError(`${problems.length} problem${problems.length === 1 ? '' : 's'} in the ${kind} data${more}`, problems, 'invalid_features', 422);
+    throw new InputError(`${problems.length} problem${problems.length === 1 ? '' : 's'} in the ${kind} data${more}`, problems, 'invalid_features');
   }
   if (unnamed > 0) warnings.push(`${unnamed} feature${unnamed === 1 ? '' : 's'} had no id; ids were made from their position (${kind}-1, ${kind}-2, ...)`);
   return { kind, collection: { type: 'FeatureCollection', features: out }, warnings };
@@ -263,7 +263,7 @@ export const NUMERIC_FIELDS = new Set([
  */
 export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFeatures?: number; toLonLat?: (x: number, y: number) => [number, number]; crsHint?: string } = {}): ParsedDataset {
   if (kind === 'faults' || kind === 'regions') {
-    throw new InputError(`CSV holds points only; send ${kind} as GeoJSON`, [{ problem: `${kind} need line or polygon geometry` }], 'bad_csv', 415);
+    throw new InputError(`CSV holds points only; send ${kind} as GeoJSON`, [{ problem: `${kind} need line or polygon geometry` }], 'bad_csv');
   }
   const hint = opts.crsHint ?? 'give their CRS (EPSG:nnnn)';
   const { header, rows, lines, headerLine } = parseCsv(csvText);
@@ -281,7 +281,7 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
     }
   }
   if (lonCol < 0 || latCol < 0) {
-    throw new InputError('CSV header needs longitude,latitude (or lon,lat) columns, or x,y (easting,northing) with their CRS', [{ field: lonCol < 0 ? 'longitude' : 'latitude', problem: `missing column; header is: ${header.join(',')}` }], 'bad_csv');
+    throw new InputError('CSV header needs longitude,latitude (or lon,lat) columns, or x,y (easting,northing) with their CRS', [{ field: lonCol < 0 ? 'longitude' : 'latitude', problem: `missing column; header is: ${header.join(',')}` }], 'malformed_csv');
   }
   if (!projected) {
     // Longitude and latitude exchanged: one message with the first offending value, not one per row.
@@ -317,7 +317,7 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
     if (projected && Number.isFinite(lon) && Number.isFinite(lat)) [lon, lat] = opts.toLonLat!(lon, lat);
     return { lon, lat, props };
   });
-  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in the CSV (lines as a spreadsheet numbers them, the header on line ${headerLine}): ${problems.slice(0, 3).map((p) => `${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems.slice(0, 50), 'invalid_features', 422);
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in the CSV (lines as a spreadsheet numbers them, the header on line ${headerLine}): ${problems.slice(0, 3).map((p) => `${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems.slice(0, 50), 'invalid_features');
   let features: unknown[];
   // Each feature is labelled by its CSV line in later messages (a well by its first line).
   let featureLabels: string[];

@@ -54,13 +54,13 @@ export function parseVariogramOption(raw: string | undefined): 'auto' | Variogra
   const m = /^([a-z]+)(?::(.*))?$/i.exec(raw.trim());
   const name = m?.[1]?.toLowerCase();
   if (!m || !(VARIOGRAM_MODELS as readonly string[]).includes(name ?? '')) {
-    throw new InputError(`--variogram: unknown model in "${raw}"`, [{ field: 'variogram', problem: `expected auto, ${VARIOGRAM_MODELS.join(', ')}, or MODEL:NUGGET,PARTIAL_SILL,RANGE_KM` }], 'bad_option');
+    throw new InputError(`variogram: unknown model in "${raw}"`, [{ field: 'variogram', problem: `expected auto, ${VARIOGRAM_MODELS.join(', ')}, or MODEL:NUGGET,PARTIAL_SILL,RANGE_KM` }], 'bad_option');
   }
   if (m[2] === undefined) return name as VariogramModelName;
   const parts = m[2].split(',').map((s) => Number(s.trim()));
   const r = variogramModelSchema.safeParse({ model: name, nugget: parts[0], partialSill: parts[1], rangeKm: parts[2] });
   if (parts.length !== 3 || !r.success) {
-    throw new InputError(`--variogram: expected MODEL:NUGGET,PARTIAL_SILL,RANGE_KM, got "${raw}"`, [{ field: 'variogram', problem: r.success ? 'expected three numbers' : r.error.issues.map((i) => i.message).join('; ') }], 'bad_option');
+    throw new InputError(`variogram: expected MODEL:NUGGET,PARTIAL_SILL,RANGE_KM, got "${raw}"`, [{ field: 'variogram', problem: r.success ? 'expected three numbers' : r.error.issues.map((i) => i.message).join('; ') }], 'bad_option');
   }
   return r.data;
 }
@@ -70,7 +70,7 @@ export function parseAnisotropyOption(raw: string | undefined): { angleDeg: numb
   if (raw === undefined) return null;
   const p = raw.split(',').map((s) => Number(s.trim()));
   const r = anisotropySchema.safeParse({ angleDeg: p[0], ratio: p[1] });
-  if (p.length !== 2 || !r.success) throw new InputError(`--anisotropy: expected ANGLE_DEG,RATIO with ratio in (0, 1], got "${raw}"`, [{ field: 'anisotropy', problem: 'e.g. 30,0.5 (major axis azimuth 30°, minor range half the major)' }], 'bad_option');
+  if (p.length !== 2 || !r.success) throw new InputError(`anisotropy: expected ANGLE_DEG,RATIO with ratio in (0, 1], got "${raw}"`, [{ field: 'anisotropy', problem: 'e.g. 30,0.5 (major axis azimuth 30°, minor range half the major)' }], 'bad_option');
   return r.data;
 }
 
@@ -130,12 +130,12 @@ export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMis
     quality.push(typeof props.quality === 'string' ? props.quality : undefined);
     errSd.push(typeof e === 'number' ? e : NaN);
   });
-  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${src}`, problems, 'invalid_features', 422);
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${src}`, problems, 'invalid_features');
   const warnings: string[] = [];
   if (missing.length > 0) {
     const names = `${missing.slice(0, 20).join(', ')}${missing.length > 20 ? `, ... (${missing.length} in all)` : ''}`;
     if (!opts.skipMissing) {
-      throw new InputError(`${missing.length} feature(s) in ${src} have no "${field}": ${names}`, missing.slice(0, 50).map((m) => ({ feature: m, field: `properties.${field}`, problem: 'missing (pass --skip-missing to leave such features out)' })), 'missing_field');
+      throw new InputError(`${missing.length} feature(s) in ${src} have no "${field}": ${names}`, missing.slice(0, 50).map((m) => ({ feature: m, field: `properties.${field}`, problem: 'missing (skipMissing leaves such features out)' })), 'missing_field');
     }
     if (ids.length === 0) throw new InputError(`no feature in ${src} has a "${field}" value`, [{ field: `properties.${field}`, problem: 'missing on every feature' }], 'missing_field');
     warnings.push(`${missing.length} feature(s) without "${field}" were left out: ${names}`);
@@ -158,8 +158,8 @@ export function pointsFromCsv(text: string, field: string, opts: { skipMissing?:
     xc = header.findIndex((h) => /^(x|easting)$/i.test(h));
     yc = header.findIndex((h) => /^(y|northing)$/i.test(h));
     projected = xc >= 0 && yc >= 0;
-    if (!projected) throw new InputError(`${src}: CSV header needs longitude,latitude (or lon,lat), or x,y with --points-crs`, [{ field: 'header', problem: `header is: ${header.join(',')}` }], 'bad_csv');
-    if (opts.toLonLat === undefined) throw new InputError(`${src}: CSV has projected x,y columns: give their CRS with --points-crs EPSG:nnnn`, [{ field: 'points-crs', problem: 'missing' }], 'bad_option');
+    if (!projected) throw new InputError(`${src}: CSV header needs longitude,latitude (or lon,lat), or x,y with their CRS (pointsCrs)`, [{ field: 'header', problem: `header is: ${header.join(',')}` }], 'malformed_csv');
+    if (opts.toLonLat === undefined) throw new InputError(`${src}: CSV has projected x,y columns: give their CRS (pointsCrs, EPSG:nnnn)`, [{ field: 'pointsCrs', problem: 'missing' }], 'bad_option');
   }
   if (!projected) {
     const swapped = swappedLonLatError(
@@ -191,7 +191,7 @@ export function pointsFromCsv(text: string, field: string, opts: { skipMissing?:
     if (projected && !lonLat.safeParse(p).success) problems.push({ feature: `line ${lines[k]}`, field: 'x,y', problem: `outside the CRS's valid area (gives ${p[0]}, ${p[1]})` });
     return { type: 'Feature', geometry: { type: 'Point', coordinates: p }, properties: props };
   });
-  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${src} (CSV lines as a spreadsheet numbers them, the header is line 1 unless comment lines precede it): ${problems.slice(0, 3).map((p) => `${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems.slice(0, 50), 'invalid_features', 422);
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${src} (CSV lines as a spreadsheet numbers them, the header is line 1 unless comment lines precede it): ${problems.slice(0, 3).map((p) => `${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems.slice(0, 50), 'invalid_features');
   const r = pointsFromGeoJson({ type: 'FeatureCollection', features }, field, opts);
   return { ...r, projectedColumns: projected };
 }
@@ -213,6 +213,6 @@ export function targetsFromGeoJson(input: unknown, source = 'targets'): { ids: s
     ids.push(typeof pid === 'string' || typeof pid === 'number' ? String(pid) : typeof feat.id === 'string' || typeof feat.id === 'number' ? String(feat.id) : `target-${i + 1}`);
     lon.push(g.data.coordinates[0]); lat.push(g.data.coordinates[1]);
   });
-  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${source}`, problems.slice(0, 50), 'invalid_features', 422);
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${source}`, problems.slice(0, 50), 'invalid_features');
   return { ids, lon, lat };
 }

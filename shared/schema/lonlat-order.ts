@@ -24,6 +24,5 @@ export function swappedLonLatError(
     `${fields.lat} ${first.lat} at ${first.where} is outside [-90, 90] degrees${more}: longitude and latitude look swapped. ${hint}`,
     [{ feature: first.where, field: fields.lat, problem: `${first.lat} is outside [-90, 90] degrees; with ${fields.lon} and ${fields.lat} exchanged every position would be valid` }],
     'swapped_lon_lat',
-    422,
   );
 }

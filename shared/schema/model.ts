@@ -222,11 +222,17 @@ function featureOf(m: unknown, path: PropertyKey[]): { feature?: string; field: 
  * @param source a file name or label to put in the message
  */
 export function parseThermalModel(raw: unknown, source = 'model'): ThermalModelInput {
+  if (raw === null || typeof raw !== 'object' || Array.isArray(raw)) {
+    const got = Array.isArray(raw) ? 'an array' : raw === null ? 'null' : typeof raw;
+    throw new InputError(`${source}: a thermal model is a JSON object`, [{ feature: 'model', field: '(root)', problem: `expected an object with surfaceTemperatureC and layers, got ${got}` }], 'invalid_model');
+  }
   const r = thermalModelSchema.safeParse(raw);
   if (!r.success) {
-    const details: InputProblem[] = r.error.issues.map((iss) => {
-      const f = featureOf(raw, iss.path);
-      return { feature: f.feature, field: f.field, problem: iss.message };
+    // An unknown member is named by its own path (one problem each), so every way in reports the same field.
+    const details: InputProblem[] = r.error.issues.flatMap((iss) => {
+      const paths = iss.code === 'unrecognized_keys' ? iss.keys.map((k) => [...iss.path, k]) : [iss.path];
+      const problem = iss.code === 'unrecognized_keys' ? 'unknown member: not part of the thermal model (check the spelling)' : iss.message;
+      return paths.map((p) => ({ ...featureOf(raw, p), problem }));
     });
     throw new InputError(`${source}: invalid thermal model: ${details.map((d) => `${d.feature} ${d.field}: ${d.problem}`).join('; ')}`, details, 'invalid_model');
   }

@@ -248,7 +248,7 @@ export function sampleGrades(samples: readonly GradeInput[], warnings: string[] 
   if (problems.length > 0) {
     const first = problems[0];
     const msg = problems.length === 1 ? `sample ${first.feature}: ${first.problem}` : `${problems.length} problems in the samples; first: sample ${first.feature}: ${first.problem}`;
-    throw new InputError(msg, problems.slice(0, 50), 'invalid_features', 422);
+    throw new InputError(msg, problems.slice(0, 50), 'invalid_features');
   }
   if (off.length > 0) warnings.push(`${off.length} sample(s) have a facies off the Barrovian sequence (${OFF_SCALE_FACIES.join(', ')}) and no zone: they take no part in the isograds (${off.slice(0, 10).join(', ')}${off.length > 10 ? ', ...' : ''})`);
   if (lowSeries.length > 0) warnings.push(`${lowSeries.length} sample(s) belong to the andalusite-bearing low-pressure series: they are named on its own scale and inform only biotite-in among the Barrovian isograds (${lowSeries.slice(0, 10).join(', ')}${lowSeries.length > 10 ? ', ...' : ''})`);

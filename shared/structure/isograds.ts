@@ -137,12 +137,12 @@ export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: read
   const t0 = now();
   const warnings: string[] = [];
   const cellKm = opts.cellKm ?? 1;
-  if (!(cellKm > 0 && Number.isFinite(cellKm))) throw new InputError(`cell size must be > 0 km, got ${cellKm}`, [{ field: 'cell-km', problem: 'expected a positive number of km' }], 'bad_option');
+  if (!(cellKm > 0 && Number.isFinite(cellKm))) throw new InputError(`cell size must be > 0 km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected a positive number of km' }], 'bad_option');
   const lo = Int8Array.from(grades, (g) => g.lo), hi = Int8Array.from(grades, (g) => g.hi);
   const field = new IndicatorField(x, y, lo, hi, { method: opts.method, power: opts.power, neighbors: opts.neighbors, faults });
   if (field.count < 2) throw new InputError(`isograds need at least two samples with zone information, got ${field.count}`, [{ field: 'samples', problem: 'give samples with a zone, a facies on the Barrovian sequence, or peak P–T' }], 'too_few_points');
   const supportKm = opts.supportKm ?? defaultSupportKm(field, cellKm);
-  if (!(supportKm > 0)) throw new InputError(`support distance must be > 0 km, got ${supportKm}`, [{ field: 'support-km', problem: 'expected > 0' }], 'bad_option');
+  if (!(supportKm > 0)) throw new InputError(`support distance must be > 0 km, got ${supportKm}`, [{ field: 'supportKm', problem: 'expected > 0' }], 'bad_option');
 
   // Grid over the samples' envelope padded by the support distance.
   let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
@@ -158,8 +158,8 @@ export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: read
     height = Math.max(2, Math.ceil((y1 - y0) / cellKm) + 1);
   }
   const maxCells = opts.maxCells ?? 4_000_000;
-  if (!(Number.isInteger(width) && width >= 2 && Number.isInteger(height) && height >= 2)) throw new InputError(`grid size must be whole numbers ≥ 2, got ${width} × ${height}`, [{ field: 'grid-size', problem: 'expected e.g. 500x500' }], 'bad_option');
-  if (width * height > maxCells) throw new InputError(`the isograd grid would have ${(width * height).toLocaleString('en')} cells (${width} × ${height}), above the limit of ${maxCells.toLocaleString('en')}`, [{ field: 'cell-km', problem: 'use a larger cell' }], 'grid_too_large');
+  if (!(Number.isInteger(width) && width >= 2 && Number.isInteger(height) && height >= 2)) throw new InputError(`grid size must be whole numbers ≥ 2, got ${width} × ${height}`, [{ field: 'gridSize', problem: 'expected e.g. 500x500' }], 'bad_option');
+  if (width * height > maxCells) throw new InputError(`the isograd grid would have ${(width * height).toLocaleString('en')} cells (${width} × ${height}), above the limit of ${maxCells.toLocaleString('en')}`, [{ field: 'cellKm', problem: 'use a larger cell' }], 'grid_too_large');
   const grid: LocalGrid = { x0, y0, cellKm, width, height };
   const N = width * height;
 

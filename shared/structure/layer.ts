@@ -127,7 +127,7 @@ export function faultTraces(faults: FaultCollection, toLocal: (p: [number, numbe
     for (const w of b.warnings) warnings.push(`fault ${label}: ${w}`);
     if (b.problems.length === 0) traces.push(b.trace);
   });
-  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in the faults; first: fault ${problems[0].feature}: ${problems[0].problem}`, problems, 'invalid_features', 422);
+  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in the faults; first: fault ${problems[0].feature}: ${problems[0].problem}`, problems, 'invalid_features');
   return { traces, info: faults.features };
 }
 

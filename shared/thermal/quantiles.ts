@@ -8,21 +8,11 @@
  * median, [x(j), x(k)] with j = ⌊(n − 1.96√n)/2⌋, k = ⌈1 + (n + 1.96√n)/2⌉ (1-based; Conover 1999, §3.2), divided
  * by 2 × 1.96. Method name: "order-statistic binomial interval / 3.92".
  */
+import { quantileSorted } from '../stats/quantile.ts';
+
+export { quantileSorted };
 
 export const STDERR_P50_METHOD = 'order-statistic binomial 95% interval of the median / 3.92 (Conover 1999)';
-
-/** Type-7 quantile p ∈ [0, 1] of sorted values a[from .. from + n); NaN if it falls among +Infinity values. */
-export function quantileSorted(a: ArrayLike<number>, from: number, n: number, p: number): number {
-  if (n <= 0) return NaN;
-  const h = (n - 1) * p;
-  const lo = Math.floor(h);
-  const f = h - lo;
-  const x0 = a[from + lo];
-  if (f === 0 || lo + 1 >= n) return Number.isFinite(x0) ? x0 : NaN;
-  const x1 = a[from + lo + 1];
-  if (!Number.isFinite(x0) || !Number.isFinite(x1)) return NaN;
-  return x0 + f * (x1 - x0);
-}
 
 /** Summary of a set of realizations, NaN meaning null. */
 export interface Summary {

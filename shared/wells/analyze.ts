@@ -309,7 +309,7 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
   });
 
   if (source === undefined || column === undefined) {
-    const reason = 'no conductivity: the well has no column and neither a thermal model nor --conductivity-wmk was given';
+    const reason = 'no conductivity: the well has no column and neither a thermal model nor a conductivity (conductivityWmK) was given';
     flags.push({ code: 'no-conductivity', message: reason });
     const check = modelCheck();
     return { ...base, status: 'gradient-only', reason, gradient, plot, modelCheck: check, row: rowOf('gradient-only', undefined, undefined, check) };

@@ -110,7 +110,7 @@ export function readWells(features: FeatureLike[]): WellInput[] {
     });
   });
   if (problems.length > 0) {
-    throw new InputError(`${problems.length} problem${problems.length === 1 ? '' : 's'} in the wells: ${problems.slice(0, 3).map((d) => `well ${d.feature} ${d.field}: ${d.problem}`).join('; ')}${problems.length > 3 ? '; …' : ''}`, problems.slice(0, 50), 'invalid_wells', 422);
+    throw new InputError(`${problems.length} problem${problems.length === 1 ? '' : 's'} in the wells: ${problems.slice(0, 3).map((d) => `well ${d.feature} ${d.field}: ${d.problem}`).join('; ')}${problems.length > 3 ? '; …' : ''}`, problems.slice(0, 50), 'invalid_wells');
   }
   return wells;
 }

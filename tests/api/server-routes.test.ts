@@ -13,6 +13,7 @@ import { classifyFacies, FACIES_NAMES } from '../../shared/petrology/index.ts';
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import proj4 from 'proj4';
 import { DEFAULT_LIMITS, resolveLimits } from '../../server/limits.ts';
+import { columnAtRunAnswerSchema, type ColumnAnswer } from '../../shared/schema/column.ts';
 
 const DOUBLE = fileURLToPath(new URL('../helpers/run-worker-double.ts', import.meta.url));
 let dir: string;
@@ -292,13 +293,18 @@ describe('column', () => {
     const lon = grid.meta.west + grid.meta.dx * 5.5, lat = grid.meta.north - grid.meta.dy * 7.5; // a cell centre
     const res = await post('/api/column', { runId, lon, lat });
     expect(res.status).toBe(200);
-    const b = (await res.json()) as { surfaceHeatFlowMWm2: number; heatFlowSdMWm2: number; band: { realizations: number; temperatureC: { p10: number[]; p50: number[]; p90: number[] } } };
+    const b = (await res.json()) as ColumnAnswer;
     expect(b.surfaceHeatFlowMWm2).toBeCloseTo(grid.values[7 * grid.meta.width + 5], 3);
     expect(b.heatFlowSdMWm2).toBe(5);
-    expect(b.band.realizations).toBe(200);
+    expect(columnAtRunAnswerSchema.parse(b)).toEqual(b); // the typed contract, exactly
+    expect(b.monteCarlo!.realizations).toBe(200);
     const k = 20; // 10 km at the default 0.5-km step
-    expect(b.band.temperatureC.p10[k]).toBeLessThan(b.band.temperatureC.p50[k]);
-    expect(b.band.temperatureC.p50[k]).toBeLessThan(b.band.temperatureC.p90[k]);
+    const t = b.monteCarlo!.profileTemperatureC![k];
+    expect(b.profile[k].depthKm).toBe(10);
+    expect(t.p10!).toBeLessThan(t.p50!);
+    expect(t.p50!).toBeLessThan(t.p90!);
+    // Each uncertain number is { p10, p50, p90, mean, sd, stderrP50 } (DESIGN §4).
+    expect(Object.keys(b.isothermDepthsKm['300'] as object).sort()).toEqual(['mean', 'p10', 'p50', 'p90', 'sd', 'stderrP50']);
     // Same answer on a repeated click (seeded by the run's seed).
     expect(await (await post('/api/column', { runId, lon, lat })).json()).toEqual(b);
   });
@@ -309,7 +315,7 @@ describe('column', () => {
     await errorOf(await post('/api/column', { runId, lon: 200, lat: 0 }), 422, 'invalid_column');
     await errorOf(await post('/api/column', { model: 'nope', heatFlowMWm2: 60 }), 404, 'dataset_not_found');
     await errorOf(await post('/api/column', { model: 'demo-sites', heatFlowMWm2: 60 }), 422, 'wrong_dataset_kind');
-    await errorOf(await post('/api/column', { model: { ...SIMPLE_MODEL, surfaceHeatFlowMWm2: undefined } }), 422, 'invalid_column');
+    await errorOf(await post('/api/column', { model: { ...SIMPLE_MODEL, surfaceHeatFlowMWm2: undefined } }), 422, 'missing_heat_flow');
     await errorOf(await post('/api/column', { model: 'demo-model', heatFlowMWm2: 60, stepKm: 0.001 }), 422, 'invalid_column');
     await errorOf(await post('/api/column', { model: 'demo-model', heatFlowMWm2: 60, extra: 1 }), 422, 'invalid_column');
     const slowRun = (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 301 })).json()) as { id: string; runToken: string };
@@ -336,9 +342,9 @@ describe('runs stored by another server', () => {
     const values = Float32Array.from({ length: width * height }, (_, k) => 50 + k * 0.25);
     putDoneRun('run_mercator', ['heatFlow']);
     store.putRunGrid('run_mercator', 'heatFlow', { width, height, west: x - 4.5 * dx, north: y + 6.5 * dx, dx, dy: dx, crs: 'EPSG:3857', units: 'mW/m²' }, store.putBlob(new Uint8Array(values.buffer)));
-    const b = (await (await post('/api/column', { runId: 'run_mercator', lon: -128.2, lat: -38.0 })).json()) as { surfaceHeatFlowMWm2: number; band: unknown };
+    const b = (await (await post('/api/column', { runId: 'run_mercator', lon: -128.2, lat: -38.0 })).json()) as ColumnAnswer;
     expect(b.surfaceHeatFlowMWm2).toBeCloseTo(values[6 * width + 4], 3);
-    expect(b.band).toBeNull(); // the run asked for no realizations
+    expect(b.monteCarlo).toBeNull(); // the run asked for no realizations
   });
 
   it('answers 409 for a finished run without a heat-flow grid', async () => {

@@ -3,6 +3,7 @@
 // real run, and the cache.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
+import type { ColumnAnswer } from '../../shared/schema/column.ts';
 
 let t: TestApp;
 let store: TestApp['store'];
@@ -79,11 +80,11 @@ describe('runs with the real pipeline', () => {
     const lon = g.meta.west + (col + 0.5) * g.meta.dx, lat = g.meta.north - (row + 0.5) * g.meta.dy;
     const res = await post('/api/column', { runId, lon, lat });
     expect(res.status).toBe(200);
-    const b = (await res.json()) as { surfaceHeatFlowMWm2: number; heatFlowSdMWm2: number | null; band: { temperatureC: { p10: number[]; p90: number[] } } | null };
+    const b = (await res.json()) as ColumnAnswer;
     expect(b.surfaceHeatFlowMWm2).toBeCloseTo(g.values[row * g.meta.width + col], 3);
     if (sd) expect(b.heatFlowSdMWm2).toBeCloseTo(sd.values[row * g.meta.width + col], 3);
-    expect(b.band).not.toBeNull();
-    expect(b.band!.temperatureC.p10[20]).toBeLessThan(b.band!.temperatureC.p90[20]);
+    expect(b.monteCarlo).not.toBeNull();
+    expect(b.monteCarlo!.profileTemperatureC![20].p10!).toBeLessThan(b.monteCarlo!.profileTemperatureC![20].p90!);
     const sec = await post('/api/section', { runId, line: [[lon, lat], [lon + 5 * g.meta.dx, lat - 3 * g.meta.dy]], samples: 50, depthSamples: 40 });
     expect(sec.status).toBe(200);
     const s = (await sec.json()) as { temperatureC: (number | null)[]; heatFlowMWm2: (number | null)[] };

@@ -22,13 +22,19 @@ function heatFlowGrid(width: number, height: number, f: (c: number, r: number) =
 }
 
 describe('model documents', () => {
-  it('keeps the demo model\'s descriptive "name" and sets other unknown top-level members aside, saying so', () => {
-    expect(demo.ignoredKeys).toEqual([]);
+  it('keeps the demo model\'s descriptive "name" and refuses any other unknown top-level member, naming it', () => {
     expect(demo.name).toContain('Orrindel');
     expect(demo.model.layers).toHaveLength(4);
-    const extra = parseModelText(JSON.stringify({ surfaceTemperatureC: 10, colour: 'red', layers: [{ bottomKm: 30, conductivityWmK: 2.5, heatProductionUWm3: 1 }] }), 'm.json');
-    expect(extra.ignoredKeys).toEqual(['colour']);
-    expect(extra.warnings[0]).toContain('"colour"');
+    const extra = JSON.stringify({ surfaceTemperatureC: 10, colour: 'red', layers: [{ bottomKm: 30, conductivityWmK: 2.5, heatProductionUWm3: 1 }] });
+    let err: unknown;
+    try {
+      parseModelText(extra, 'm.json');
+    } catch (e) {
+      err = e;
+    }
+    expect(err).toBeInstanceOf(InputError);
+    expect((err as InputError).code).toBe('invalid_model');
+    expect((err as InputError).details).toEqual([expect.objectContaining({ feature: 'model', field: 'colour' })]);
   });
   it('still rejects a misspelt layer field', () => {
     const bad = JSON.stringify({ surfaceTemperatureC: 10, layers: [{ bottomKm: 30, conductivityWmK: 2.5, heatProductionUWm: 1 }] });

@@ -30,7 +30,7 @@ describe('subtherm geotherm', () => {
     expect(j.reducedHeatFlowMWm2).toBeCloseTo(35, 6);
     expect(j.basalHeatFlowMWm2).toBeCloseTo(60 - 25 * (1 - Math.exp(-4)), 5);
     expect(j.profile).toHaveLength(41);
-    expect(Object.keys(j.profile[10]).sort()).toEqual(['depthKm', 'effectivePressureMPa', 'facies', 'flag', 'heatFlowMWm2', 'poreFluidFactor', 'porePressureMPa', 'pressureMPa', 'regime', 'temperatureC']);
+    expect(Object.keys(j.profile[10]).sort()).toEqual(['depthKm', 'effectivePressureMPa', 'facies', 'faciesApproximate', 'flag', 'heatFlowMWm2', 'poreFluidFactor', 'porePressureMPa', 'pressureMPa', 'regime', 'temperatureC']);
     expect(j.profile[10].pressureMPa).toBeCloseTo(264.87, 6); // ρgh, 2700 · 9.81 · 10 km
     // Hydrostatic fresh water with the model's g = 9.81: 98.1 MPa at 10 km; λ = 98.1/264.87 (Hubbert & Rubey 1959).
     expect(j.profile[10].porePressureMPa).toBeCloseTo(98.1, 6);
