@@ -10,6 +10,7 @@ import { prepareInterpolation, finishGrid, predictAtPoints, gridSummary, type In
 import { createGridRuntime, computeRows } from '../../shared/interp/gridKernel.ts';
 import { blockEstimates, type BlockPolygon } from '../../shared/interp/blockKriging.ts';
 import { writeGeoTiffFile } from '../io/geotiff.ts';
+import { formatFromPath, inFileLayer, readVectorFile } from '../io/vector-input.ts';
 import { parseVerbArgs, numberOption, numberListOption } from './args.ts';
 
 const OPTIONS = {
@@ -21,6 +22,7 @@ const OPTIONS = {
   bbox: { type: 'string' },
   crs: { type: 'string' },
   'points-crs': { type: 'string' },
+  layer: { type: 'string' },
   neighbors: { type: 'string' },
   'radius-km': { type: 'string' },
   power: { type: 'string' },
@@ -48,7 +50,9 @@ const OPTIONS = {
 
 const HELP = `subtherm interpolate: grid a point field by IDW or ordinary kriging
 
-  --points P.geojson|P.csv   points (GeoJSON, or CSV with longitude,latitude or x,y + --points-crs)
+  --points P.geojson|P.csv   points (GeoJSON, GeoPackage .gpkg, zipped Shapefile .zip, or CSV with
+                             longitude,latitude or x,y / easting,northing + --points-crs)
+  --layer NAME               the layer of a GeoPackage or zipped Shapefile holding several
   --field NAME               numeric property to interpolate (default heatFlowMWm2)
   --method idw|kriging
   --cell-km KM | --size NXxNY   cell size (km, converted to degrees at the centre latitude) or grid size
@@ -118,8 +122,14 @@ export async function interpolate(argv: string[]): Promise<number> {
   if (errorField !== undefined && a.method !== 'kriging') throw new InputError('--error-field needs --method kriging', [{ field: 'error-field', problem: 'measurement errors enter the kriging system' }], 'bad_option');
 
   // Inputs.
-  const pointsText = await readText(a.points, 'points');
-  const hashes: Record<string, string> = { points: sha256(pointsText) };
+  const binary = /\.(gpkg|zip|shz)$/i.test(a.points);
+  const pointsBytes = binary
+    ? await readFile(a.points).catch((e: NodeJS.ErrnoException) => {
+      throw new InputError(`cannot read points file ${a.points}`, [{ field: 'points', problem: e.code ?? String(e) }], 'file_not_found');
+    })
+    : null;
+  const pointsText = binary ? '' : await readText(a.points, 'points');
+  const hashes: Record<string, string> = { points: pointsBytes ? createHash('sha256').update(pointsBytes).digest('hex') : sha256(pointsText) };
   const crs = a.crs ?? 'EPSG:4326';
   const crsDef = await loadCrsDefinition(crs);
   let points: PointData;
@@ -133,6 +143,11 @@ export async function interpolate(argv: string[]): Promise<number> {
     }
     const r = pointsFromCsv(pointsText, field, { skipMissing: a['skip-missing'], source: a.points, toLonLat, errorField });
     points = r.points; warnings.push(...r.warnings);
+  } else if (pointsBytes) {
+    const v = await readVectorFile(pointsBytes, { format: formatFromPath(a.points) as 'gpkg' | 'shapefile', source: a.points, layer: a.layer });
+    const r = inFileLayer(a.points, v.layer, () => pointsFromGeoJson(v.collection, field, { skipMissing: a['skip-missing'], source: a.points }));
+    points = r.points; warnings.push(...r.warnings);
+    if (v.sourceCrs !== 'EPSG:4326') warnings.push(`${a.points}${v.layer ? `, layer "${v.layer}"` : ''}: reprojected from ${v.sourceCrs} to WGS 84 longitude/latitude`);
   } else {
     const r = pointsFromGeoJson(parseJson(pointsText, a.points), field, { skipMissing: a['skip-missing'], source: a.points, errorField });
     points = r.points; warnings.push(...r.warnings);

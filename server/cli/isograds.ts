@@ -6,17 +6,23 @@
 import { readFile, writeFile } from 'node:fs/promises';
 import { createHash } from 'node:crypto';
 import { InputError } from '../../shared/errors.ts';
-import { parseFeatureCollection, type FaultCollection, type SampleCollection } from '../../shared/schema/features.ts';
+import { type FaultCollection, type SampleCollection } from '../../shared/schema/features.ts';
 import { parseThermalModel } from '../../shared/schema/model.ts';
 import { compileModel, nominalModel, type CompiledModel } from '../../shared/thermal/index.ts';
 import { isogradLayer, DEFAULT_PALEO_DENSITY_KG_M3 } from '../../shared/structure/index.ts';
 import { numberOption, parseVerbArgs } from './args.ts';
+import { readDatasetFile } from '../io/vector-input.ts';
 
 const HELP = `subtherm isograds --samples S.geojson [options] --out I.geojson [--json]
 
 Isograds from grade samples (zone, facies or peak P–T), with a fault report (screening estimate).
-  --samples FILE            grade samples, GeoJSON Points (required)
-  --faults FILE             fault traces, GeoJSON LineStrings: barriers, and one report per fault
+  --samples FILE            grade samples (required): GeoJSON Points, GeoPackage (.gpkg), zipped Shapefile (.zip)
+                            or CSV (longitude,latitude, or x,y / easting,northing with --points-crs)
+  --points-crs EPSG:nnnn    CRS of a CSV's x,y (easting,northing) columns
+  --layer NAME              the layer of a GeoPackage or zipped Shapefile holding several
+  --faults FILE             fault traces, GeoJSON LineStrings (or a .gpkg / .zip layer: --faults-layer NAME):
+                            barriers, and one report per fault
+  --faults-layer NAME       the layer of --faults to read
   --model FILE              thermal model JSON: today's geotherm for the paleo-gradient comparison
   --heat-flow Q             surface heat flow for that geotherm, mW/m² (default: the model's)
   --fault-distance-km D     samples within D km of a fault count for its report (default 10)
@@ -33,6 +39,14 @@ Isograds from grade samples (zone, facies or peak P–T), with a fault report (s
 `;
 
 const sha256 = (b: Buffer) => createHash('sha256').update(b).digest('hex');
+
+async function readBytes(path: string, field: string): Promise<Buffer> {
+  try {
+    return await readFile(path);
+  } catch (e) {
+    throw new InputError(`cannot read ${field} file ${path}: ${(e as Error).message}`, [{ field, problem: `file ${path} cannot be read` }], 'bad_file');
+  }
+}
 
 async function readJson(path: string, field: string): Promise<{ raw: unknown; hash: string }> {
   let b: Buffer;
@@ -63,6 +77,9 @@ const r3 = (v: number | null) => (v === null || !Number.isFinite(v) ? null : Mat
 export async function isograds(argv: string[]): Promise<number> {
   const { values: v } = parseVerbArgs('isograds', argv, {
     samples: { type: 'string' },
+    'points-crs': { type: 'string' },
+    layer: { type: 'string' },
+    'faults-layer': { type: 'string' },
     faults: { type: 'string' },
     model: { type: 'string' },
     'heat-flow': { type: 'string' },
@@ -102,16 +119,16 @@ export async function isograds(argv: string[]): Promise<number> {
   if (heatFlow !== undefined && !(heatFlow > 0)) throw bad('heat-flow', `must be > 0 mW/m², got ${heatFlow}`);
 
   const samplesPath = v.samples as string;
-  const s = await readJson(samplesPath, 'samples');
-  const hashes: Record<string, string> = { samples: s.hash };
+  const s = await readBytes(samplesPath, 'samples');
+  const hashes: Record<string, string> = { samples: sha256(s) };
   const warnings: string[] = [];
-  const sp = inFile(samplesPath, () => parseFeatureCollection('samples', s.raw));
+  const sp = await readDatasetFile(samplesPath, s, 'samples', { layer: v.layer as string | undefined, crs: v['points-crs'] as string | undefined });
   warnings.push(...sp.warnings.map((w) => `${samplesPath}: ${w}`));
   let faults: FaultCollection | null = null;
   if (v.faults !== undefined) {
-    const f = await readJson(v.faults as string, 'faults');
-    hashes.faults = f.hash;
-    const fp = inFile(v.faults as string, () => parseFeatureCollection('faults', f.raw));
+    const fb = await readBytes(v.faults as string, 'faults');
+    hashes.faults = sha256(fb);
+    const fp = await readDatasetFile(v.faults as string, fb, 'faults', { layer: v['faults-layer'] as string | undefined });
     warnings.push(...fp.warnings.map((w) => `${v.faults}: ${w}`));
     faults = fp.collection as FaultCollection;
   }

@@ -1,9 +1,9 @@
 import { createHash } from 'node:crypto';
 import { readFileSync, writeFileSync, mkdirSync } from 'node:fs';
-import { basename, dirname, extname } from 'node:path';
+import { basename, dirname } from 'node:path';
 import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
-import { parseFeatureCollection, parsePointCsv } from '../../shared/schema/features.ts';
+import { parseFeatureCollection } from '../../shared/schema/features.ts';
 import { parseThermalModel } from '../../shared/schema/model.ts';
 import { compileModel, isUncertainModel, nominalModel } from '../../shared/thermal/index.ts';
 import { TOOL_NAME, VERSION } from '../../shared/version.ts';
@@ -15,10 +15,14 @@ import { attachIntervals, parseIntervalsCsv } from '../../shared/wells/intervals
 import { wellModelFromCompiled } from '../../shared/wells/model-adapter.ts';
 import type { BhtCorrection } from '../../shared/wells/types.ts';
 import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
+import { readDatasetFile } from '../io/vector-input.ts';
 
 const HELP = `subtherm wells: well temperatures → corrected temperatures, gradients and heat-flow sites
 
-  --wells W.geojson|W.csv   wells (GeoJSON Points with measurements, or CSV with one row per measurement and an id)
+  --wells W.geojson|W.csv   wells (GeoJSON Points with measurements, or CSV with one row per measurement and an id;
+                            also a GeoPackage .gpkg or a zipped Shapefile .zip of points)
+  --points-crs EPSG:nnnn    CRS of a CSV's x,y (easting,northing) columns
+  --layer NAME              the layer of a GeoPackage or zipped Shapefile holding several
   --model M.json            thermal model: surface temperature, conductivity of its layers, model check
   --surface-temp-c T        mean surface temperature (°C); overrides the model's; anchors the fits
   --no-anchor               fit without the surface-temperature anchor
@@ -121,6 +125,8 @@ function table(reports: WellReport[]): string {
 export async function wells(argv: string[]): Promise<number> {
   const { values: o } = parseVerbArgs('wells', argv, {
     wells: { type: 'string' },
+    'points-crs': { type: 'string' },
+    layer: { type: 'string' },
     model: { type: 'string' },
     'surface-temp-c': { type: 'string' },
     'no-anchor': { type: 'boolean', default: false },
@@ -146,15 +152,7 @@ export async function wells(argv: string[]): Promise<number> {
 
   const wellBytes = readInput(o.wells, 'wells');
   inputs.push({ role: 'wells', file: basename(o.wells), sha256: sha256(wellBytes) });
-  const isCsv = extname(o.wells).toLowerCase() === '.csv';
-  const parsed = (() => {
-    try {
-      return isCsv ? parsePointCsv('wells', wellBytes.toString('utf8')) : parseFeatureCollection('wells', parseJsonFile(wellBytes, o.wells));
-    } catch (e) {
-      if (e instanceof InputError) throw new InputError(`${o.wells}: ${e.message}`, e.details, e.code);
-      throw e;
-    }
-  })();
+  const parsed = await readDatasetFile(o.wells, wellBytes, 'wells', { layer: o.layer, crs: o['points-crs'] });
   warnings.push(...parsed.warnings);
   const wellInputs = (() => {
     try {

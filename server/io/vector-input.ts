@@ -8,7 +8,8 @@
 import shp from 'shpjs';
 import { InputError } from '../../shared/errors.ts';
 import { readGeoPackage, type GeoJsonCollection } from './geopackage.ts';
-import { NUMERIC_FIELDS } from '../../shared/schema/features.ts';
+import { NUMERIC_FIELDS, parseFeatureCollection, parsePointCsv, type DatasetKind, type ParsedDataset } from '../../shared/schema/features.ts';
+import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
 
 /** dBASE III field names hold at most 10 characters: the project's longer property names, restored from their cut. */
 const DBF_CUT = new Map([...NUMERIC_FIELDS, 'dipDirectionDeg'].filter((n) => n.length > 10).map((n) => [n.slice(0, 10), n]));
@@ -130,4 +131,39 @@ export async function readVectorFile(bytes: Uint8Array, opts: { format: Exclude<
     throw new InputError(`${opts.source} is not valid JSON`, [{ feature: opts.source, problem: e instanceof Error ? e.message : String(e) }], 'bad_json');
   }
   return { collection: v, layer: null, sourceCrs: 'EPSG:4326' };
+}
+
+/** Runs a validator on a converted file, naming the file and layer in its message. */
+export function inFileLayer<T>(source: string, layer: string | null, f: () => T): T {
+  try {
+    return f();
+  } catch (e) {
+    if (e instanceof InputError) {
+      const where = `${source}${layer ? `, layer "${layer}"` : ''}`;
+      throw new InputError(`${where}: ${e.message}`, e.details.map((d) => ({ feature: d.feature ?? source, ...d })), e.code);
+    }
+    throw e;
+  }
+}
+
+/**
+ * A data set file named on the command line, by extension: GeoJSON, GeoPackage (.gpkg, `layer` to choose), zipped
+ * Shapefile (.zip), or point CSV (longitude,latitude; or x,y / easting,northing with `crs`, e.g. --points-crs), read
+ * and validated as `kind`, in WGS 84.
+ */
+export async function readDatasetFile(path: string, bytes: Uint8Array, kind: DatasetKind, opts: { layer?: string; crs?: string; maxFeatures?: number } = {}): Promise<ParsedDataset & { layer: string | null; sourceCrs: string }> {
+  const format = formatFromPath(path);
+  if (format === 'csv') {
+    let toLonLat: ((x: number, y: number) => [number, number]) | undefined;
+    if (opts.crs !== undefined) {
+      const conv = converter(await loadCrsDefinition(opts.crs), WGS84_DEF);
+      toLonLat = (x, y) => conv.forward([x, y]);
+    }
+    const text = new TextDecoder().decode(bytes);
+    const parsed = inFileLayer(path, null, () => parsePointCsv(kind, text, { maxFeatures: opts.maxFeatures, toLonLat, crsHint: 'give their CRS with --points-crs EPSG:nnnn' }));
+    return { ...parsed, layer: null, sourceCrs: opts.crs ?? 'EPSG:4326' };
+  }
+  const r = await readVectorFile(bytes, { format, source: path, layer: opts.layer, maxFeatures: opts.maxFeatures });
+  const parsed = inFileLayer(path, r.layer, () => parseFeatureCollection(kind, r.collection, { maxFeatures: opts.maxFeatures }));
+  return { ...parsed, layer: r.layer, sourceCrs: r.sourceCrs };
 }

@@ -12,20 +12,8 @@ import type { DatasetRecord } from '../store/types.ts';
 import { bodyText, parseJsonText, singleQuery, type AppContext } from './context.ts';
 import { z } from 'zod';
 import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
-import { formatFromMediaType, readVectorFile, VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
+import { formatFromMediaType, inFileLayer, readVectorFile, VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
 
-/** Runs a validator on a converted file, naming the file and layer in its message. */
-function inLayer<T>(source: string, layer: string | null, f: () => T): T {
-  try {
-    return f();
-  } catch (e) {
-    if (e instanceof InputError) {
-      const where = `${source}${layer ? `, layer "${layer}"` : ''}`;
-      throw new InputError(`${where}: ${e.message}`, e.details.map((d) => ({ ...d, field: d.field ?? `layer ${layer ?? ''}`.trim() })), e.code);
-    }
-    throw e;
-  }
-}
 import { datasetQuerySchema, parseWith } from './schemas.ts';
 
 export interface ParsedUpload {
@@ -74,7 +62,7 @@ export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind
     const bytes = new Uint8Array(await c.req.arrayBuffer());
     if (bytes.length === 0) throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body');
     const r = await readVectorFile(bytes, { format, source, layer: fq.layer, maxBytes: ctx.limits.maxBodyBytes, maxFeatures: ctx.limits.maxFeatures });
-    const parsed = inLayer(source, r.layer, () => parseFeatureCollection(kind, r.collection, { maxFeatures: ctx.limits.maxFeatures }));
+    const parsed = inFileLayer(source, r.layer, () => parseFeatureCollection(kind, r.collection, { maxFeatures: ctx.limits.maxFeatures }));
     const warnings = r.sourceCrs === 'EPSG:4326' ? parsed.warnings : [`${source}${r.layer ? `, layer "${r.layer}"` : ''}: reprojected from ${r.sourceCrs} to WGS 84 longitude/latitude`, ...parsed.warnings];
     return { kind, body: JSON.stringify(parsed.collection), featureCount: parsed.collection.features.length, warnings, suggestedName: r.layer };
   }

@@ -1,0 +1,70 @@
+// Command-line verbs reading points from GeoPackage, zipped Shapefile and projected CSV (files written by GDAL's
+// ogr2ogr at test time): the same results as from the GeoJSON they came from.
+import { describe, it, expect, beforeAll, afterAll, vi } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, rmSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+import { main } from '../../server/cli/main.ts';
+import { readGeoTiff } from '../../server/io/geotiff.ts';
+
+const hasGdal = spawnSync('ogr2ogr', ['--version']).status === 0;
+let dir = '';
+beforeAll(() => { dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'formats-cli-')); });
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+const fixture = (name: string) => new URL(`../../fixtures/demo/${name}`, import.meta.url).pathname;
+
+function ogr(args: string[]): void {
+  const r = spawnSync('ogr2ogr', args, { encoding: 'utf8' });
+  if (r.status !== 0) throw new Error(r.stderr);
+}
+
+async function cli(args: string[]): Promise<{ code: number; out: string; err: string }> {
+  let out = '', err = '';
+  const o = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => { out += String(s); return true; });
+  const e = vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => { err += String(s); return true; });
+  try {
+    return { code: await main(args), out, err };
+  } finally {
+    o.mockRestore();
+    e.mockRestore();
+  }
+}
+
+describe('verbs read GeoPackage, zipped Shapefile and projected CSV points', () => {
+  it.skipIf(!hasGdal)('interpolate: a GeoPackage in EPSG:32709 and a projected CSV give the grid the GeoJSON gives', async () => {
+    const gpkg = join(dir, 'sites.gpkg');
+    ogr(['-f', 'GPKG', '-t_srs', 'EPSG:32709', gpkg, fixture('sites.geojson'), '-nln', 'sites']);
+    const csv = join(dir, 'sites.csv');
+    ogr(['-f', 'CSV', '-t_srs', 'EPSG:32709', '-lco', 'GEOMETRY=AS_XY', csv, fixture('sites.geojson')]);
+    const common = ['--method', 'idw', '--size', '40x30', '--json'];
+    const outs = ['ref.tif', 'gpkg.tif', 'csv.tif'].map((n) => join(dir, n));
+    expect((await cli(['interpolate', '--points', fixture('sites.geojson'), '--out', outs[0], ...common])).code).toBe(0);
+    const g = await cli(['interpolate', '--points', gpkg, '--out', outs[1], ...common]);
+    expect(g.code).toBe(0);
+    expect(g.out).toContain('reprojected from EPSG:32709');
+    expect((await cli(['interpolate', '--points', csv, '--points-crs', 'EPSG:32709', '--out', outs[2], ...common])).code).toBe(0);
+    const [ref, a, b] = await Promise.all(outs.map(async (f) => (await readGeoTiff(readFileSync(f))).grid));
+    for (const g of [a, b]) for (const k of ['west', 'north', 'dx', 'dy'] as const) expect(g[k]).toBeCloseTo(ref[k], 9);
+    for (let i = 0; i < ref.values.length; i++) {
+      expect(a.values[i]).toBeCloseTo(ref.values[i], 3);
+      expect(b.values[i]).toBeCloseTo(ref.values[i], 3);
+    }
+  });
+
+  it.skipIf(!hasGdal)('isograds: samples from a two-layer GeoPackage need --layer; exit 2 names the file and the layers', async () => {
+    const gpkg = join(dir, 'field.gpkg');
+    ogr(['-f', 'GPKG', gpkg, fixture('samples.geojson'), '-nln', 'grade_samples']);
+    ogr(['-f', 'GPKG', '-update', gpkg, fixture('faults.geojson'), '-nln', 'fault_traces']);
+    const bad = await cli(['isograds', '--samples', gpkg, '--out', join(dir, 'i.geojson')]);
+    expect(bad.code).toBe(2);
+    expect(bad.err).toContain('field.gpkg');
+    expect(bad.err).toContain('grade_samples');
+    const ok = await cli(['isograds', '--samples', gpkg, '--layer', 'grade_samples', '--faults', gpkg, '--faults-layer', 'fault_traces', '--out', join(dir, 'i.geojson'), '--json']);
+    const ref = await cli(['isograds', '--samples', fixture('samples.geojson'), '--faults', fixture('faults.geojson'), '--out', join(dir, 'r.geojson'), '--json']);
+    expect(ok.code).toBe(ref.code);
+    const lines = (p: string) => (JSON.parse(readFileSync(p, 'utf8')) as { features: unknown[] }).features.length;
+    expect(lines(join(dir, 'i.geojson'))).toBe(lines(join(dir, 'r.geojson')));
+  });
+});
