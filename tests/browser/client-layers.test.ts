@@ -217,6 +217,8 @@ describe('the map client: layers', () => {
     const p = await ctx.newPage();
     const t0 = Date.now();
     await p.goto(server.url);
+    // The page's handle appears once its script has run; wait for it before reading it.
+    await p.waitForFunction(() => window.subtherm !== undefined, undefined, { timeout: 60_000, polling: 100 });
     await p.evaluate(() => window.subtherm!.ready);
     await waitForMapIdle(p);
     console.log(`first map of the demo in a fresh context (browser running): ${Date.now() - t0} ms`);
