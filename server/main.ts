@@ -1,5 +1,5 @@
 import { serve } from '@hono/node-server';
-import { existsSync } from 'node:fs';
+import { existsSync, readdirSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import type { AddressInfo } from 'node:net';
 import { createApp } from './app.ts';
@@ -15,7 +15,7 @@ export interface ServerOptions {
   port: number;
   host?: string;
   dbPath: string;
-  /** Build the client when client/dist is missing (what `npm start` does). */
+  /** Build the client when client/dist is missing or older than its sources (what `npm start` does). */
   buildClient?: boolean;
   log?: (line: string) => void;
   /** Run the demo project's default run on start (default: unless SUBTHERM_DEMO_RUN=0). */
@@ -54,9 +54,31 @@ export function openStore(dbPath: string): SqliteStore {
   }
 }
 
+/** Newest modification time (ms) of the files under `path` (a file or a folder, walked recursively); 0 if absent. */
+function newestMtimeMs(path: string): number {
+  if (!existsSync(path)) return 0;
+  const st = statSync(path);
+  if (!st.isDirectory()) return st.mtimeMs;
+  let newest = 0;
+  for (const e of readdirSync(path, { withFileTypes: true })) newest = Math.max(newest, newestMtimeMs(join(path, e.name)));
+  return newest;
+}
+
+/**
+ * True when the built client (`client/dist/index.html` under `rootDir`) is missing or older than any of its sources
+ * (`client/src`, `client/index.html`, `client/vite.config.ts` and `shared/`, which the client imports), so that a
+ * checkout updated in place never serves a stale page.
+ */
+export function clientBuildIsStale(rootDir: string = ROOT_DIR): boolean {
+  const built = join(rootDir, 'client', 'dist', 'index.html');
+  if (!existsSync(built)) return true;
+  const sources = ['client/src', 'client/index.html', 'client/vite.config.ts', 'shared'].map((p) => newestMtimeMs(join(rootDir, p)));
+  return Math.max(...sources) > statSync(built).mtimeMs;
+}
+
 /** Builds the web client with Vite (client/vite.config.ts) into client/dist. */
 export async function buildClient(log: (line: string) => void = () => {}): Promise<void> {
-  log('building the web client (first start only) ...');
+  log('building the web client (missing, or older than its sources) ...');
   const { build } = await import('vite');
   await build({ configFile: join(ROOT_DIR, 'client', 'vite.config.ts'), logLevel: 'warn' });
 }
@@ -64,7 +86,7 @@ export async function buildClient(log: (line: string) => void = () => {}): Promi
 /** Opens the store (loading the demo on first start), builds the client if asked, and listens. */
 export async function startServer(opts: ServerOptions) {
   const log = opts.log ?? ((l: string) => process.stdout.write(l + '\n'));
-  if (opts.buildClient && !existsSync(join(CLIENT_DIST, 'index.html'))) await buildClient(log);
+  if (opts.buildClient && clientBuildIsStale()) await buildClient(log);
   const store = openStore(opts.dbPath);
   const dem = await loadDem(DEMO_TERRAIN);
   loadDemoTerrain(store, dem);
