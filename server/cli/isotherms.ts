@@ -207,7 +207,7 @@ export async function isotherms(argv: string[]): Promise<number> {
   // Cells inconsistent with the model are a finding about the results, not bad input: every file is written, the
   // warning says where to look, and the verb succeeds (exit 0).
   if (products.counts.inconsistent > 0) {
-    process.stderr.write(`warning: the model is inconsistent with the heat flow in ${products.counts.inconsistent} cell(s); see ${join(outDir, 'inconsistent.tif')}\n`);
+    process.stderr.write(`warning: ${products.counts.inconsistent} cell(s) are flagged (inconsistent with the heat flow, or past the melt onset); see ${join(outDir, 'inconsistent.tif')}\n`);
   }
   return 0;
 }

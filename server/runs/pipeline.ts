@@ -278,10 +278,19 @@ export async function computeThermalProducts(
   }
   timingsMs.thermal = now() - t1;
   const counts = inconsistencyCounts(out.inconsistent);
-  if (counts.inconsistent > 0) {
+  // Melt onset is a physical limit of the conductive column, not a contradiction between model and heat flow:
+  // it is reported on its own, and the inconsistency warning counts only the true contradictions.
+  const contradictions = counts.heatFlowExhausted + counts.conductivityUndefined + counts.nonPositiveHeatFlow;
+  if (contradictions > 0) {
     warnings.push(
-      `the model is inconsistent with the heat flow in ${counts.inconsistent} of ${W * H} cells (${counts.heatFlowExhausted} where the heat flow reaches 0 inside the model, ` +
-        `${counts.conductivityUndefined} with k(T) undefined, ${counts.nonPositiveHeatFlow} with heat flow ≤ 0, ${counts.meltOnset} reaching the melt onset): see the "${INCONSISTENT}" and "${MELT_ONSET}" grids; below the failing depth those cells have no data`,
+      `the model is inconsistent with the heat flow in ${contradictions} of ${W * H} cells (${counts.heatFlowExhausted} where the heat flow reaches 0 inside the model, ` +
+        `${counts.conductivityUndefined} with k(T) undefined, ${counts.nonPositiveHeatFlow} with heat flow ≤ 0): see the "${INCONSISTENT}" grid; below the failing depth those cells have no data`,
+    );
+  }
+  if (counts.meltOnset > 0) {
+    warnings.push(
+      `in ${counts.meltOnset} of ${W * H} cells the conductive geotherm reaches the fluid-absent solidus of its rock (melt onset): see the "${MELT_ONSET}" grid; ` +
+        'below that depth a conductive temperature is not valid and those cells have no data',
     );
   }
 
