@@ -1,5 +1,5 @@
 /** Thin typed access to the server's JSON API. Errors carry the server's own message and details. */
-import type { Legend, RunLayerInfo } from '../../shared/schema/run.ts';
+import type { CrossValidationSummary, Legend, RunLayerInfo, RunSummary, VariogramSummary } from '../../shared/schema/run.ts';
 
 export interface AppConfig {
   version: string;
@@ -98,23 +98,9 @@ export interface TileInfo {
 /** A run layer as GET /api/runs/:id lists it, with whatever URLs the server adds. */
 export type RunLayer = RunLayerInfo & { urls?: Record<string, string>; tiles?: TileInfo | string[]; contourOf?: RunLayer } & Partial<Omit<TileInfo, 'tiles'>>;
 
-export interface Variogram {
-  model: string;
-  nugget: number;
-  partialSill: number;
-  rangeKm: number;
-  empirical?: { lagKm: number; gamma: number; pairs: number }[];
-}
-
-export interface CrossValidation {
-  meanError?: number;
-  rmse?: number;
-  meanStandardizedError?: number;
-  msdr?: number;
-  meanSquaredDeviationRatio?: number;
-  n?: number;
-  residuals?: unknown;
-}
+/** The run summary's variogram and cross-validation (the run contract, shared/schema/run.ts). */
+export type Variogram = VariogramSummary;
+export type CrossValidation = CrossValidationSummary;
 
 export interface RunState {
   id: string;
@@ -122,7 +108,8 @@ export interface RunState {
   progress: number;
   message: string;
   layers?: RunLayer[];
-  summary?: Record<string, unknown> & { variogram?: Variogram | null; crossValidation?: CrossValidation | null };
+  /** A finished run's summary (null until it is done). */
+  summary?: RunSummary | null;
   warnings?: string[];
   request?: Record<string, unknown>;
 }

@@ -71,7 +71,7 @@ export function columnPanel(ctx: AppContext, deps: { model: () => ThermalModelIn
     const run = ctx.app.run?.run;
     const axis: Record<string, unknown> = { isothermsC: ctx.state.params.isothermsC, depthsKm: ctx.state.params.depthsKm };
     if (run && run.status === 'done') {
-      const maxDepthKm = typeof run.summary?.maxDepthKm === 'number' ? run.summary.maxDepthKm : undefined;
+      const maxDepthKm = run.summary?.maxDepthKm;
       return { request: { lon, lat, runId: run.id, ...axis, ...(maxDepthKm !== undefined ? { maxDepthKm } : {}) }, source: `the run's heat-flow surface at this point (run ${run.id})` };
     }
     const model = deps.model();

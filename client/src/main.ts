@@ -21,7 +21,7 @@ import { fitBbox, goToBox, installWorldBase } from './basemap.ts';
 import { cursorReadout } from './readout.ts';
 import { modelEditor } from './model.ts';
 import { runPanel, type RunPanel } from './run.ts';
-import { StructurePanel, faultReportOf, type FeatureCollection } from './structure.ts';
+import { StructurePanel, type FeatureCollection } from './structure.ts';
 import { sectionPanel, type SectionPanel } from './section.ts';
 import { sharePanel } from './share.ts';
 
@@ -115,8 +115,8 @@ async function showRun(ctx: AppContext, run: RunState, panels: { runs: RunPanel;
   panels.runs.showSummary(run);
   const isoLayer = (run.layers ?? []).find((l) => /isograd/i.test(l.name) && l.kind === 'vector');
   const isograds = isoLayer ? await getJson<FeatureCollection>(`/api/runs/${encodeURIComponent(run.id)}/layers/${encodeURIComponent(isoLayer.name)}.geojson`).catch(() => null) : null;
-  const st = run.summary?.structure as { isograds?: Record<string, unknown>[] } | undefined;
-  panels.structure.setRun(faultReportOf(run.summary), isograds, Array.isArray(st?.isograds) ? st.isograds : []);
+  const st = run.summary?.structure;
+  panels.structure.setRun(st?.faults ?? [], isograds, st?.isograds ?? []);
   panels.section.setRunDone(run.status === 'done');
   ctx.syncUrl();
 }

@@ -2,15 +2,14 @@
  * What a finished run reports beside its layers: the fitted variogram with its empirical semivariances, and the
  * leave-one-out cross-validation summary.
  */
-import { semivariance, type VariogramModel } from '../../shared/interp/variogram.ts';
+import { semivariance } from '../../shared/interp/variogram.ts';
 import { getJson, type CrossValidation, type RunState, type Variogram } from './api.ts';
 import { el, fmt, niceTicks, svg } from './dom.ts';
 
 /** The variogram and cross-validation blocks of a run summary (whatever of them the run has). */
 export function runSummary(run: RunState): HTMLElement[] {
   const out: HTMLElement[] = [];
-  const interp = run.summary?.interpolation as { variogram?: Variogram | null } | undefined;
-  const v = run.summary?.variogram ?? interp?.variogram ?? null;
+  const v = run.summary?.interpolation.variogram ?? null;
   if (v) out.push(el('h3', {}, 'Variogram'), variogramPlot(v));
   const cv = run.summary?.crossValidation;
   if (cv) out.push(el('h3', {}, 'Cross-validation (leave one out)'), cvTable(cv));
@@ -18,16 +17,14 @@ export function runSummary(run: RunState): HTMLElement[] {
   return out;
 }
 
-/** γ(h) of the fitted model (shared/interp/variogram.ts, practical-range convention, DESIGN.md §3); NaN for a
- * model name the client does not know. */
+/** γ(h) of the fitted model (shared/interp/variogram.ts, practical-range convention, DESIGN.md §3). */
 export function variogramModel(v: Variogram, h: number): number {
-  if (v.model !== 'exponential' && v.model !== 'gaussian' && v.model !== 'spherical') return NaN;
-  return semivariance(v as VariogramModel, h);
+  return semivariance(v, h);
 }
 
 export function variogramPlot(v: Variogram): HTMLElement {
   const W = 340, H = 220, M = { l: 48, r: 12, t: 14, b: 36 };
-  const emp = v.empirical ?? [];
+  const emp = v.empirical;
   // The lag axis spans the empirical lags (the fit's evidence) with a margin; without them, 1.3 × the range. A range
   // far beyond the lags (a trend in the data) then runs off the plot instead of squeezing the points into a corner.
   const maxLag = emp.length > 0 ? Math.max(...emp.map((e) => e.lagKm)) : 0;
@@ -60,9 +57,9 @@ function cvTable(cv: CrossValidation): HTMLElement {
     ['Mean error', fmt(cv.meanError, 2)],
     ['RMSE', fmt(cv.rmse, 2)],
     ['Mean standardized error', fmt(cv.meanStandardizedError, 3)],
-    ['Mean squared deviation ratio', fmt(cv.msdr ?? cv.meanSquaredDeviationRatio, 3)],
+    ['Mean squared deviation ratio', fmt(cv.meanSquaredDeviationRatio, 3)],
+    ['Points', String(cv.n)],
   ];
-  if (typeof cv.n === 'number') rows.push(['Points', String(cv.n)]);
   const filled = rows.filter(([, v]) => v !== '—');
   return el('table', { class: 'kv', id: 'cv-summary' }, el('tbody', {}, ...filled.map(([k, v]) => el('tr', {}, el('th', { scope: 'row' }, k), el('td', { class: 'num' }, v)))));
 }

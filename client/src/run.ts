@@ -3,7 +3,7 @@
  * a progress bar fed by the run's Server-Sent Events (falling back to polling GET /api/runs/:id when the stream
  * fails), cancel, and after the run the variogram plot and the cross-validation summary.
  */
-import { runRequestSchema } from '../../shared/schema/run.ts';
+import { RUN_EVENTS, runRequestSchema } from '../../shared/schema/run.ts';
 import { ApiError, getJson, sendJson, type RunState } from './api.ts';
 import { el, errorBox, replace } from './dom.ts';
 import { runSummary, uncertaintyControls } from './run-summary.ts';
@@ -127,15 +127,19 @@ class RunWatcher {
       this.startPolling(id);
       return;
     }
-    const handler = (ev: MessageEvent) => {
-      try {
-        this.onSnapshot(id, JSON.parse(String(ev.data)) as Partial<RunState>);
-      } catch {
-        /* a keep-alive or non-JSON line: ignore */
-      }
-    };
-    this.source.onmessage = handler;
-    for (const name of ['progress', 'status', 'done', 'end', 'snapshot']) this.source.addEventListener(name, handler as EventListener);
+    // The server sends `progress` while the run is queued or running, then one `end` (shared/schema/run.ts).
+    for (const [name, schema] of Object.entries(RUN_EVENTS)) {
+      this.source.addEventListener(name, (ev: MessageEvent<string>) => {
+        let data: unknown;
+        try {
+          data = JSON.parse(ev.data);
+        } catch {
+          return;
+        }
+        const parsed = schema.safeParse(data);
+        if (parsed.success) this.onSnapshot(id, parsed.data);
+      });
+    }
     this.source.onerror = () => {
       // The stream closed or never opened: polling takes over until the run ends.
       this.source?.close();

@@ -243,12 +243,8 @@ export interface ShownRun {
 
 /** The run's grid extent, [west, south, east, north] (lon/lat grids), else its sites' extent when it reports one. */
 export function runBounds(run: RunState): [number, number, number, number] | null {
-  const g = run.summary?.grid as { west?: number; north?: number; dx?: number; dy?: number; width?: number; height?: number; crs?: string; bbox?: number[] } | undefined;
-  if (g && Array.isArray(g.bbox) && g.bbox.length === 4) return g.bbox as [number, number, number, number];
-  if (g && g.crs === 'EPSG:4326' && [g.west, g.north, g.dx, g.dy, g.width, g.height].every((v) => typeof v === 'number')) {
-    return [g.west!, g.north! - g.dy! * g.height!, g.west! + g.dx! * g.width!, g.north!];
-  }
-  return null;
+  const g = run.summary?.grid;
+  return g && g.crs === 'EPSG:4326' ? [g.west, g.north - g.dy * g.height, g.west + g.dx * g.width, g.north] : null;
 }
 
 type ShowOptions = { depthKm: number | null; onDepth: (d: number) => void; onError: (msg: string) => void };
@@ -257,7 +253,7 @@ type ShowOptions = { depthKm: number | null; onDepth: (d: number) => void; onErr
  * corners. MapLibre interpolates an image linearly in Web Mercator, so a lon/lat grid is placed within a fraction
  * of a cell over a region of a few degrees; colours are the server's legend. False when that is impossible. */
 function drawPngFallback(map: MapLibreMap, run: RunState, layer: RunLayer, id: string): boolean {
-  const grid = run.summary?.grid as { west: number; north: number; dx: number; dy: number; width: number; height: number; crs: string } | undefined;
+  const grid = run.summary?.grid;
   if (!(layer.formats.includes('png') && grid?.crs === 'EPSG:4326')) return false;
   const e0 = grid.west + grid.dx * grid.width, s0 = grid.north - grid.dy * grid.height;
   map.addSource(`${id}-src`, { type: 'image', url: new URL(layerUrl(run.id, layer, 'png'), window.location.origin).href, coordinates: [[grid.west, grid.north], [e0, grid.north], [e0, s0], [grid.west, s0]] });

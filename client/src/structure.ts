@@ -6,6 +6,7 @@
 import type { Map as MapLibreMap } from 'maplibre-gl';
 import { pointSegmentDistance2 } from '../../shared/grid/segment.ts';
 import { el, fmt, replace } from './dom.ts';
+import type { IsogradSummary } from '../../shared/structure/layer.ts';
 
 type Feature = { type: 'Feature'; id?: string | number; properties: Record<string, unknown> | null; geometry: { type: string; coordinates: unknown } | null };
 export type FeatureCollection = { type: 'FeatureCollection'; features: Feature[] };
@@ -40,20 +41,10 @@ function lengthKm(ls: number[][][]): number {
   return s;
 }
 
+/** A fault's row of the run's structural report (the run summary's `structure.faults`). */
 export interface FaultReportRow {
   id: string;
   [k: string]: unknown;
-}
-
-/** The fault report rows of a run summary, whatever the key it travels under. */
-export function faultReportOf(summary: Record<string, unknown> | undefined): FaultReportRow[] {
-  if (!summary) return [];
-  for (const key of ['faultReport', 'faults', 'structure']) {
-    const v = summary[key];
-    if (Array.isArray(v)) return v as FaultReportRow[];
-    if (v && typeof v === 'object' && Array.isArray((v as { faults?: unknown }).faults)) return (v as { faults: FaultReportRow[] }).faults;
-  }
-  return [];
 }
 
 export class StructurePanel {
@@ -62,7 +53,7 @@ export class StructurePanel {
   private samples: FeatureCollection = { type: 'FeatureCollection', features: [] };
   private isograds: FeatureCollection | null = null;
   private report: FaultReportRow[] = [];
-  private isogradSummary: Record<string, unknown>[] = [];
+  private isogradSummary: IsogradSummary[] = [];
   private selected: string | null = null;
 
   constructor(private readonly map: MapLibreMap) {}
@@ -73,7 +64,7 @@ export class StructurePanel {
     this.render();
   }
 
-  setRun(report: FaultReportRow[], isograds: FeatureCollection | null, isogradSummary: Record<string, unknown>[] = []): void {
+  setRun(report: FaultReportRow[], isograds: FeatureCollection | null, isogradSummary: IsogradSummary[] = []): void {
     this.report = report;
     this.isogradSummary = isogradSummary;
     this.isograds = isograds;
@@ -152,16 +143,16 @@ export class StructurePanel {
     if (details.length > 0) parts.push(el('div', { id: 'fault-details' }, ...details));
     parts.push(el('h3', {}, 'Isograds'));
     if (this.isogradSummary.length > 0) {
-      const band = (r: Record<string, unknown>) => {
-        const b = r.bandWidthKm as { median: number; p10: number; p90: number } | null | undefined;
+      const band = (r: IsogradSummary) => {
+        const b = r.bandWidthKm;
         return b ? `${fmt(b.median, 1)} (${fmt(b.p10, 1)}–${fmt(b.p90, 1)})` : '—';
       };
-      const against = (r: Record<string, unknown>) => {
-        const d = r.disagreeing as { id: string; says: string; probability: number }[] | undefined;
-        if (!Array.isArray(d) || d.length === 0) return '—';
+      const against = (r: IsogradSummary) => {
+        const d = r.disagreeing;
+        if (d.length === 0) return '—';
         return d.slice(0, 8).map((q) => `${q.id} (${q.says}, P ${fmt(q.probability, 2)})`).join(', ') + (d.length > 8 ? `, … ${d.length - 8} more` : '');
       };
-      const rows = this.isogradSummary.map((r) => el('tr', {}, el('td', {}, `${String(r.mineral ?? r.isograd ?? '—')}-in`), el('td', { class: 'num' }, formatCell(r.lengthKm)), el('td', { class: 'num' }, band(r)), el('td', { class: 'num' }, `${formatCell(r.samplesAbove)} / ${formatCell(r.samplesBelow)}`), el('td', { class: 'wrap' }, against(r))));
+      const rows = this.isogradSummary.map((r) => el('tr', {}, el('td', {}, `${r.mineral}-in`), el('td', { class: 'num' }, formatCell(r.lengthKm)), el('td', { class: 'num' }, band(r)), el('td', { class: 'num' }, `${formatCell(r.samplesAbove)} / ${formatCell(r.samplesBelow)}`), el('td', { class: 'wrap' }, against(r))));
       parts.push(el('div', { class: 'table-scroll' }, el('table', { class: 'report', id: 'isograd-table', style: 'table-layout:fixed;width:100%;overflow-wrap:anywhere' }, el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Isograd'), el('th', { scope: 'col' }, 'Length (km)'), el('th', { scope: 'col', title: 'Width of the 0.1–0.9 probability band along the isograd: median (10th–90th percentile)' }, 'Band width (km)'), el('th', { scope: 'col' }, 'Samples above / below'), el('th', { scope: 'col', title: 'Samples on the other side of the isograd from what they record, with their leave-one-out probability of lying at or above it' }, 'Disagreeing samples'))), el('tbody', {}, ...rows))));
       parts.push(el('p', { class: 'note' }, 'Each isograd is drawn with fainter lines where the probability of lying at or above it is 0.1 and 0.9: the band where it may lie.'));
     } else if (this.isograds === null) parts.push(el('p', { class: 'empty' }, 'Isograds are drawn from the samples by a run: none yet.'));

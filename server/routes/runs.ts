@@ -7,7 +7,7 @@ import { streamSSE } from 'hono/streaming';
 import { existsSync } from 'node:fs';
 import { InputError } from '../../shared/errors.ts';
 import { kmPerDegree } from '../../shared/interp/projection.ts';
-import { runRequestSchema, type RunLayerInfo, type RunRequest } from '../../shared/schema/run.ts';
+import { RUN_EVENTS, runRequestSchema, type RunLayerInfo, type RunRequest } from '../../shared/schema/run.ts';
 import { interpolationOptionsSchema } from '../../shared/schema/interp.ts';
 import { VERSION } from '../../shared/version.ts';
 import { isTerminal, type RunSnapshot } from '../runs/jobs.ts';
@@ -267,7 +267,11 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
     const rec = getRun(c.req.param('id'));
     return streamSSE(c, async (stream) => {
       let seq = 0;
-      const send = (s: RunSnapshot) => stream.writeSSE({ event: isTerminal(s.status) ? 'end' : 'progress', id: String(seq++), data: JSON.stringify(s) });
+      // Each event is checked against the run contract (shared/schema/run.ts) before it leaves.
+      const send = (s: RunSnapshot) => {
+        const event = isTerminal(s.status) ? 'end' : 'progress';
+        return stream.writeSSE({ event, id: String(seq++), data: JSON.stringify(RUN_EVENTS[event].parse(s)) });
+      };
       const first = ctx.jobs.snapshot(rec.id)!;
       await send(first);
       if (isTerminal(first.status)) return;

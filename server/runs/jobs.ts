@@ -2,8 +2,8 @@
  * The run job system: a fair queue in front of a piscina pool of run workers. Each client (a project, else a
  * remote address) has its own FIFO and runs start in round-robin order across clients, so one client's backlog
  * never holds back another client's first run. At most `concurrency` runs execute at once (one worker thread
- * each); each run gets a MessagePort for its progress, an AbortSignal (piscina terminates the thread on abort), a
- * shared cancel flag the pipeline checks between tiles, and a wall-clock limit after which it ends `failed` with
+ * each); each run gets a MessagePort for its progress and its cancel message (server/runs/types.ts: the pipeline
+ * stops between tiles), an AbortSignal (piscina terminates the thread on abort), and a wall-clock limit after which it ends `failed` with
  * the reason. A run that throws, or whose thread dies, fails alone: the pool replaces the thread and the queue goes
  * on. Bounds (runs and cells × realizations, per client and for the server) are checked before a run is queued.
  * Starting a run returns a run token (256 random bits, kept only as its SHA-256, compared in constant time) that
@@ -17,7 +17,7 @@ import type { RunRequest } from '../../shared/schema/run.ts';
 import type { RunRecord, RunStatus, Store } from '../store/types.ts';
 import { newId } from '../store/sqlite.ts';
 import { hashToken, newEditToken, tokenMatches } from '../security.ts';
-import { LAYER_CONTENT_TYPES, LAYER_EXTS, type LayerExt, type RunResult, type RunTask, type SerializedGrid } from './types.ts';
+import { CANCEL_MESSAGE, LAYER_CONTENT_TYPES, LAYER_EXTS, type LayerExt, type RunResult, type RunTask, type SerializedGrid } from './types.ts';
 
 export interface RunJobsOptions {
   store: Store;
@@ -69,7 +69,6 @@ interface Job {
   request: RunRequest;
   datasets: Record<string, { kind: string; body: string }>;
   abort: AbortController;
-  cancelFlag: SharedArrayBuffer;
   snapshot: RunSnapshot;
 }
 
@@ -212,7 +211,7 @@ export class RunJobs {
     const job: Job = {
       id, client: input.client, projectId: input.projectId ?? null, tokenHash: hashToken(runToken), work, startedAt: 0, timedOut: false,
       request: input.request, datasets: input.datasets,
-      abort: new AbortController(), cancelFlag: new SharedArrayBuffer(4),
+      abort: new AbortController(),
       snapshot: { id, status: 'queued', progress: 0, message: 'queued' },
     };
     this.perClient.set(input.client, inFlight + 1);
@@ -278,7 +277,7 @@ export class RunJobs {
   }
 
   /**
-   * Cancels a queued or running run: a queued one leaves the queue, a running one gets its cancel flag set and its
+   * Cancels a queued or running run: a queued one leaves the queue, a running one is sent the cancel message and its
    * worker thread terminated. Returns the state after the call, or null for an unknown id.
    */
   cancel(id: string): RunSnapshot | null {
@@ -296,18 +295,22 @@ export class RunJobs {
     }
     const job = this.running.get(id);
     if (job) {
-      // Ask the pipeline to stop between tiles (port message and shared flag), then stop the thread itself.
-      Atomics.store(new Int32Array(job.cancelFlag), 0, 1);
-      try {
-        this.ports.get(id)?.postMessage({ type: 'cancel' });
-      } catch {
-        // the port may already be closed: the abort below still ends the run
-      }
-      job.abort.abort();
+      // Ask the pipeline to stop between tiles, then stop the thread itself.
+      this.stopRunning(job);
       // The pool's rejection settles the job (see start); report the outcome now.
       return { ...job.snapshot, status: 'cancelled', message: 'cancelled' };
     }
     return this.snapshot(id);
+  }
+
+  /** The one way a running run is stopped: the cancel message on its port, then the end of its thread. */
+  private stopRunning(job: Job): void {
+    try {
+      this.ports.get(job.id)?.postMessage(CANCEL_MESSAGE);
+    } catch {
+      // the port may already be closed: the abort below still ends the run
+    }
+    job.abort.abort();
   }
 
   /** Runs queued or running now. */
@@ -373,8 +376,7 @@ export class RunJobs {
     const wallClock = Number.isFinite(this.limits.wallClockMs)
       ? setTimeout(() => {
           job.timedOut = true;
-          Atomics.store(new Int32Array(job.cancelFlag), 0, 1);
-          job.abort.abort();
+          this.stopRunning(job);
         }, this.limits.wallClockMs)
       : null;
     const { port1, port2 } = new MessageChannel();
@@ -395,7 +397,7 @@ export class RunJobs {
         this.log(`[${new Date().toISOString()}] run ${job.id}: could not record progress: ${(e as Error).message}`);
       }
     });
-    const task: RunTask = { request: job.request, datasets: job.datasets, port: port2, cancelFlag: job.cancelFlag };
+    const task: RunTask = { request: job.request, datasets: job.datasets, port: port2 };
     let settled: Promise<unknown>;
     try {
       settled = this.getPool().run(task, { signal: job.abort.signal, transferList: [port2] as unknown as NonNullable<Parameters<Piscina['run']>[1]>['transferList'] });

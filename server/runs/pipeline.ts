@@ -15,7 +15,7 @@ import { contourGrid, niceContourInterval, type ContourCollection } from '../../
 import { rampLegend } from '../../shared/grid/colorize.ts';
 import { DEPTH, EMBER, HAZE, type Ramp } from '../../shared/grid/ramps.ts';
 import { rasterizeZones, type Rings } from '../../shared/grid/polygon-cells.ts';
-import { runRequestSchema, type Legend, type RunLayerInfo, type RunRequest } from '../../shared/schema/run.ts';
+import { runRequestSchema, runSummarySchema, type Legend, type RunLayerInfo, type RunRequest, type RunSummary, type StructureSummary } from '../../shared/schema/run.ts';
 import { interpolationOptionsSchema, pointsFromGeoJson } from '../../shared/schema/interp.ts';
 import { parseFeatureCollection } from '../../shared/schema/features.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
@@ -51,7 +51,7 @@ export interface RunLayer {
 
 export interface RunResult {
   layers: RunLayer[];
-  summary: Record<string, unknown>;
+  summary: RunSummary;
   grids: { heatFlow: SerializedGrid; heatFlowSd?: SerializedGrid };
   /** The validated thermal model JSON (top-level descriptive members set aside). */
   model: unknown;
@@ -88,10 +88,13 @@ export interface PipelineContext {
   /** Grid CRS → lon/lat. */
   toLonLat: (x: number, y: number) => [number, number];
   warnings: string[];
-  /** A stage's report for the run summary, under the stage's name (e.g. the isograd and fault report). */
-  summary: Record<string, unknown>;
+  /** A stage's report for the run summary (the isograd stage's structural report). */
+  summary: StageSummaries;
   signal?: AbortSignal;
 }
+
+/** The members of the run summary that later stages write. */
+export type StageSummaries = { structure?: StructureSummary };
 
 export interface PipelineOptions {
   progress?: (p: Progress) => void;
@@ -399,6 +402,9 @@ function parseJsonBody(d: StoredDataset, id: string, field: string): unknown {
   }
 }
 
+/** JSON carries a non-finite number as null: the summary says so itself. */
+const finiteOrNull = (v: number | null) => (v !== null && Number.isFinite(v) ? v : null);
+
 function serialize(g: Grid<Float32Array>): SerializedGrid {
   return { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: g.units, values: g.values };
 }
@@ -626,7 +632,7 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
   tracker.finish('encode', `${layers.length} layers encoded`);
 
   // Later stages (hook).
-  const stageSummaries: Record<string, unknown> = {};
+  const stageSummaries: StageSummaries = {};
   for (const s of extra) {
     checkAbort(signal);
     const key = `extra:${s.name}`;
@@ -636,10 +642,11 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
     tracker.finish(key, `${s.name} done`);
   }
 
-  const summary: Record<string, unknown> = {
+  const cv = prep.crossValidation;
+  const summary: RunSummary = {
     grid: { width: g.width, height: g.height, cells, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs, cellKm: interp.cellKm },
     interpolation: { method: iopt.method, variogram: interp.variogram ? { model: interp.variogram.model, nugget: interp.variogram.nugget, partialSill: interp.variogram.partialSill, rangeKm: interp.variogram.rangeKm, source: interp.variogram.source, empirical: interp.variogram.empirical } : null },
-    crossValidation: prep.crossValidation ? { n: prep.crossValidation.n, rmse: prep.crossValidation.rmse, meanError: prep.crossValidation.meanError, meanStandardizedError: prep.crossValidation.meanStandardizedError, meanSquaredDeviationRatio: prep.crossValidation.meanSquaredDeviationRatio } : null,
+    crossValidation: cv ? { n: cv.n, rmse: finiteOrNull(cv.rmse), meanError: finiteOrNull(cv.meanError), meanStandardizedError: finiteOrNull(cv.meanStandardizedError), meanSquaredDeviationRatio: finiteOrNull(cv.meanSquaredDeviationRatio) } : null,
     isothermsC, depthsKm, faciesDepthKm, maxDepthKm: products.maxDepthKm,
     overrides: regions.map((r) => r.label),
     inconsistent: products.counts,
@@ -649,5 +656,7 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
     provenance: { tool: provenance.tool, version: provenance.version, contentHash: provenance.contentHash, inputs: provenance.inputs },
     timingsMs: { ...timingsMs, total: now() - tStart },
   };
+  // The run contract (shared/schema/run.ts): a summary that does not match it is a fault of this code, not of the input.
+  runSummarySchema.parse(summary);
   return { layers, summary, grids: heatFlowSd ? { heatFlow: serialize(heatFlow), heatFlowSd: serialize(heatFlowSd) } : { heatFlow: serialize(heatFlow) }, model: doc.model, warnings: [...new Set(warnings)] };
 }

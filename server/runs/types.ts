@@ -22,10 +22,24 @@ export interface RunTask {
   request: RunRequest;
   /** The data sets the request names, by id. */
   datasets: Record<string, { kind: string; body: string }>;
-  /** Posts `{ type: 'progress', fraction, message }`. */
+  /** The worker posts `{ type: 'progress', fraction, message }` on it; the job system posts `{ type: 'cancel' }`. */
   port: MessagePort;
-  /** Int32Array over this buffer: element 0 becomes 1 when the run is cancelled (checked between tiles). */
-  cancelFlag: SharedArrayBuffer;
+}
+
+/** What the job system posts on a task's port to stop the run between tiles (then it also ends the thread). */
+export const CANCEL_MESSAGE = { type: 'cancel' } as const;
+
+/**
+ * The worker side of cancelling: an AbortSignal that fires when `{ type: 'cancel' }` arrives on the task's port.
+ * `dispose` stops listening. The one cancel path of the real run worker and of any stand-in for it.
+ */
+export function cancelSignal(port: MessagePort): { signal: AbortSignal; dispose: () => void } {
+  const controller = new AbortController();
+  const onMessage = (m: unknown) => {
+    if (m !== null && typeof m === 'object' && (m as { type?: unknown }).type === CANCEL_MESSAGE.type) controller.abort();
+  };
+  port.on('message', onMessage);
+  return { signal: controller.signal, dispose: () => port.off('message', onMessage) };
 }
 
 export interface RunProgressMessage {

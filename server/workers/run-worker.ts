@@ -7,22 +7,19 @@ import type { MessagePort } from 'node:worker_threads';
 import type { RunRequest } from '../../shared/schema/run.ts';
 import { runPipeline, type RunResult, type StoredDataset } from '../runs/pipeline.ts';
 import { isogradStage } from '../runs/isograd-stage.ts';
+import { cancelSignal } from '../runs/types.ts';
 
 export type { RunResult } from '../runs/pipeline.ts';
 
 export default async function runWorker({ request, datasets, port }: { request: RunRequest; datasets: Record<string, StoredDataset>; port: MessagePort }): Promise<RunResult> {
-  const controller = new AbortController();
-  const onMessage = (m: unknown) => {
-    if (m !== null && typeof m === 'object' && (m as { type?: unknown }).type === 'cancel') controller.abort();
-  };
-  port.on('message', onMessage);
+  const cancel = cancelSignal(port);
   try {
     return await runPipeline(request, datasets, {
-      signal: controller.signal,
+      signal: cancel.signal,
       extraLayers: [isogradStage],
       progress: (p) => port.postMessage({ type: 'progress', fraction: p.fraction, message: p.message }),
     });
   } finally {
-    port.off('message', onMessage);
+    cancel.dispose();
   }
 }

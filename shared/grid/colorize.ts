@@ -4,7 +4,7 @@
  * cell costs one multiply and four byte copies (8-bit colour has no more levels to show anyway).
  */
 import { rampColor, type Ramp } from './ramps.ts';
-import type { Legend } from '../schema/run.ts';
+import type { Legend } from './legend.ts';
 
 function hexToRgb(hex: string): [number, number, number] {
   const n = parseInt(hex.slice(1), 16);

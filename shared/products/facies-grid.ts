@@ -6,7 +6,7 @@
  * within one boundary width of another field.
  */
 import { classifyFacies, FACIES_NAMES, type FaciesName } from '../petrology/index.ts';
-import type { Legend } from '../schema/run.ts';
+import type { Legend } from '../grid/legend.ts';
 
 /** Class code of each facies in the grid (1-based, in FACIES_NAMES order; NaN = none / no data). */
 export const FACIES_CODES: Readonly<Record<FaciesName, number>> = Object.freeze(Object.fromEntries(FACIES_NAMES.map((n, i) => [n, i + 1])) as Record<FaciesName, number>);

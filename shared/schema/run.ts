@@ -1,4 +1,10 @@
 import { z } from 'zod';
+import { legendSchema } from '../grid/legend.ts';
+import { VARIOGRAM_MODELS } from '../interp/variogram.ts';
+import { interpolationOptionsSchema } from './interp.ts';
+import type { IsogradReport } from '../structure/layer.ts';
+
+export type { Legend } from '../grid/legend.ts';
 
 /**
  * The request of a whole analysis run (POST /api/runs): data set ids, the engines' parameters, the output grid.
@@ -42,19 +48,165 @@ export const runRequestSchema = z.object({
 });
 export type RunRequest = z.infer<typeof runRequestSchema>;
 
-/** A legend a client can draw without knowing the product: continuous ramp or classes, with units. */
-export type Legend =
-  | { type: 'ramp'; units: string; min: number; max: number; colors: string[] }
-  | { type: 'classes'; units: string; classes: { value: number; label: string; color: string }[] };
+/** Layer statistics (shared/products/stats.ts): min, median and max of the finite values, and the no-data count. */
+export const layerStatsSchema = z.object({ min: z.number().nullable(), max: z.number().nullable(), median: z.number().nullable(), noData: z.number().int().min(0) });
 
 /** One output layer of a run, as GET /api/runs/:id lists it. */
-export interface RunLayerInfo {
-  name: string;
-  kind: 'raster' | 'vector';
-  units: string;
-  title: string;
-  legend: Legend | null;
+export const runLayerInfoSchema = z.object({
+  name: z.string(),
+  kind: z.enum(['raster', 'vector']),
+  units: z.string(),
+  title: z.string(),
+  legend: legendSchema.nullable(),
   /** Formats available at /api/runs/:id/layers/:name.<ext>. */
-  formats: ('tif' | 'png' | 'geojson' | 'csv')[];
-  stats?: { min: number | null; max: number | null; median: number | null; noData: number };
-}
+  formats: z.array(z.enum(['tif', 'png', 'geojson', 'csv'])),
+  stats: layerStatsSchema.optional(),
+});
+export type RunLayerInfo = z.infer<typeof runLayerInfoSchema>;
+
+// ---------------------------------------------------------------------------------------------------------------
+// The run summary: what a finished run reports beside its layers (GET /api/runs/:id → summary).
+
+/** A number that JSON carries as null when it is not finite (NaN, ±∞). */
+const finiteOrNull = z.number().nullable();
+
+/** The output grid: cell-centre georeferencing of the upper-left corner (west, north), cell sizes in CRS units. */
+export const runGridSummarySchema = z.strictObject({
+  width: z.number().int().min(1),
+  height: z.number().int().min(1),
+  cells: z.number().int().min(1),
+  west: z.number(),
+  north: z.number(),
+  dx: z.number().gt(0),
+  dy: z.number().gt(0),
+  crs: z.string(),
+  /** The cell size in km (at the centre latitude for a lon/lat grid). */
+  cellKm: z.number().gt(0),
+});
+
+/** The semivariogram the kriging used (practical-range convention, DESIGN.md §3), with its empirical lags. */
+export const variogramSummarySchema = z.strictObject({
+  model: z.enum(VARIOGRAM_MODELS),
+  /** value units² (mW/m²)² */
+  nugget: z.number().min(0),
+  partialSill: z.number().min(0),
+  rangeKm: z.number().gt(0),
+  /** 'fitted' (Cressie 1985 weighted least squares) or 'fixed' (given in the request). */
+  source: z.enum(['fitted', 'fixed']),
+  /** Matheron's estimator per lag: mean pair distance (km), γ̂ (value units²) and the pair count. */
+  empirical: z.array(z.strictObject({ lagKm: z.number(), gamma: z.number(), pairs: z.number().int().min(0) })),
+});
+export type VariogramSummary = z.infer<typeof variogramSummarySchema>;
+
+/** Leave-one-out cross-validation of the heat-flow interpolation (mW/m² for the errors; ratios unitless). */
+export const crossValidationSummarySchema = z.strictObject({
+  n: z.number().int().min(0),
+  rmse: finiteOrNull,
+  meanError: finiteOrNull,
+  /** Mean of residual / kriging sd (null without a standard deviation). */
+  meanStandardizedError: finiteOrNull,
+  /** Mean of (residual / kriging sd)²: near 1 when the kriging variance is right. */
+  meanSquaredDeviationRatio: finiteOrNull,
+});
+export type CrossValidationSummary = z.infer<typeof crossValidationSummarySchema>;
+
+/** Cells of the `inconsistent` grid per flag (shared/products/thermal-grids.ts: inconsistencyCounts). */
+export const inconsistencyCountsSchema = z.strictObject({
+  inconsistent: z.number().int().min(0),
+  heatFlowExhausted: z.number().int().min(0),
+  conductivityUndefined: z.number().int().min(0),
+  nonPositiveHeatFlow: z.number().int().min(0),
+  meltOnset: z.number().int().min(0),
+  noData: z.number().int().min(0),
+});
+
+/** The Monte Carlo percentile pass of a run (null when the run asked for no realizations). */
+export const monteCarloSummarySchema = z.strictObject({
+  realizations: z.number().int().min(1),
+  seed: z.number().int().min(0),
+  heatFlowErrorCorrelation: z.enum(['full', 'independent']),
+  /** Model draws that were physically impossible and left out of the percentiles. */
+  rejectedDraws: z.number().int().min(0),
+  withHeatFlowSd: z.boolean(),
+});
+
+/** A fault's row of the structural report (shared/structure/layer.ts: faultSummary); further members pass through. */
+export const faultReportRowSchema = z.looseObject({ id: z.string() });
+export type FaultReportRow = z.infer<typeof faultReportRowSchema>;
+
+/**
+ * The isograd stage's report (server/runs/isograd-stage.ts, from shared/structure/layer.ts): one summary per
+ * isograd, the fault report, each sample's grade, misfits, palaeo-gradients and the method. The members of each row
+ * are the structure engine's and pass through unchanged.
+ */
+export const structureSummarySchema = z.strictObject({
+  isograds: z.array(z.looseObject({})),
+  faults: z.array(faultReportRowSchema),
+  samples: z.array(z.looseObject({ id: z.string() })),
+  misfits: z.array(z.looseObject({})),
+  paleoGradients: z.array(z.looseObject({})),
+  method: z.looseObject({ indicator: z.string() }),
+});
+/** The structural report as the structure engine types it (the schema above checks its outline). */
+export type StructureSummary = Pick<IsogradReport, 'isograds' | 'faults' | 'samples' | 'misfits' | 'paleoGradients' | 'method'>;
+
+/** Where the run came from: the tool, its version, the SHA-256 of each input and of the whole computation. */
+export const runProvenanceSummarySchema = z.strictObject({
+  tool: z.string(),
+  version: z.string(),
+  contentHash: z.string(),
+  inputs: z.record(z.string(), z.string()),
+});
+
+export const runSummarySchema = z.strictObject({
+  grid: runGridSummarySchema,
+  interpolation: z.strictObject({ method: interpolationOptionsSchema.shape.method, variogram: variogramSummarySchema.nullable() }),
+  crossValidation: crossValidationSummarySchema.nullable(),
+  isothermsC: z.array(z.number()),
+  depthsKm: z.array(z.number()),
+  /** km below the surface */
+  faciesDepthKm: z.number(),
+  /** The depth the isotherm and solidus searches stop at, km. */
+  maxDepthKm: z.number(),
+  /** Labels of the regional model overrides that were applied. */
+  overrides: z.array(z.string()),
+  inconsistent: inconsistencyCountsSchema,
+  monteCarlo: monteCarloSummarySchema.nullable(),
+  /** Present when the run had grade samples. */
+  structure: structureSummarySchema.optional(),
+  /** Statistics per layer name (null for a layer without statistics). */
+  layers: z.record(z.string(), layerStatsSchema.nullable()),
+  provenance: runProvenanceSummarySchema,
+  /** Wall time per stage, ms (measurements, not results). */
+  timingsMs: z.record(z.string(), z.number()),
+});
+export type RunSummary = Omit<z.infer<typeof runSummarySchema>, 'structure'> & { structure?: StructureSummary };
+
+// ---------------------------------------------------------------------------------------------------------------
+// The run's event stream (GET /api/runs/:id/events, Server-Sent Events): `progress` while queued or running, then
+// one `end` when it is done, failed or cancelled. Each event's data is the run's state at that moment.
+
+export const RUN_STATUSES = ['queued', 'running', 'done', 'failed', 'cancelled'] as const;
+export type RunStatusName = (typeof RUN_STATUSES)[number];
+
+const runStateFields = {
+  id: z.string(),
+  /** 0..1, never decreasing during a run. */
+  progress: z.number().min(0).max(1),
+  message: z.string(),
+  /** While queued: 1-based place in the fair (round-robin) start order. */
+  position: z.number().int().min(1).optional(),
+  /** While queued or running: seconds until the run should end; null until the server has measured its rate. */
+  estimateSeconds: z.number().min(0).nullable().optional(),
+};
+
+/** `event: progress` */
+export const runProgressEventSchema = z.strictObject({ ...runStateFields, status: z.enum(['queued', 'running']) });
+/** `event: end` */
+export const runEndEventSchema = z.strictObject({ ...runStateFields, status: z.enum(['done', 'failed', 'cancelled']) });
+export type RunProgressEvent = z.infer<typeof runProgressEventSchema>;
+export type RunEndEvent = z.infer<typeof runEndEventSchema>;
+/** A run's state as the event stream and GET /api/runs/:id report it. */
+export type RunStateEvent = RunProgressEvent | RunEndEvent;
+/** The event names of the stream, by schema. */
+export const RUN_EVENTS = { progress: runProgressEventSchema, end: runEndEventSchema } as const;

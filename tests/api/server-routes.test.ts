@@ -10,7 +10,7 @@ import { createApp } from '../../server/app.ts';
 import { SqliteStore } from '../../server/store/sqlite.ts';
 import { loadDemo, DEMO_DIR } from '../../server/demo.ts';
 import { classifyFacies, FACIES_NAMES } from '../../shared/petrology/index.ts';
-import { runRequestSchema } from '../../shared/schema/run.ts';
+import { runRequestSchema, type RunSummary } from '../../shared/schema/run.ts';
 import proj4 from 'proj4';
 import { DEFAULT_LIMITS, resolveLimits } from '../../server/limits.ts';
 import { columnAtRunAnswerSchema, type ColumnAnswer } from '../../shared/schema/column.ts';
@@ -146,10 +146,10 @@ describe('data sets', () => {
 
 describe('runs', () => {
   it('reports a finished run with its layers and their URLs', async () => {
-    const r = (await (await app.request(`/api/runs/${runId}`)).json()) as { status: string; progress: number; layers: { name: string; urls: Record<string, string> }[]; summary: Record<string, unknown> };
+    const r = (await (await app.request(`/api/runs/${runId}`)).json()) as { status: string; progress: number; layers: { name: string; urls: Record<string, string> }[]; summary: RunSummary };
     expect(r.status).toBe('done');
     expect(r.progress).toBe(1);
-    expect(r.summary.sites).toBe(260);
+    expect(r.summary.provenance.inputs.sites).toBe('260 sites');
     const hf = r.layers.find((l) => l.name === 'heat-flow')!;
     expect(hf.urls.tif).toBe(`/api/runs/${runId}/layers/heat-flow.tif`);
   });

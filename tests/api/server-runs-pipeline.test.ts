@@ -4,6 +4,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
 import type { ColumnAnswer } from '../../shared/schema/column.ts';
+import { RUN_EVENTS, runSummarySchema } from '../../shared/schema/run.ts';
 
 let t: TestApp;
 let store: TestApp['store'];
@@ -28,8 +29,26 @@ describe('runs with the real pipeline', () => {
     const messages = new Set([...sse.matchAll(/"message":"([^"]*)"/g)].map((m) => m[1]));
     expect(messages.size).toBeGreaterThan(3); // the pipeline's own stage messages, not only queued/done
     expect(sse).toMatch(/event: end\ndata: \{[^}]*"status":"done"/);
+    // Every event follows the run contract (shared/schema/run.ts): progress events, then exactly one end event.
+    const events = [...sse.matchAll(/event: (\w+)\ndata: (.*)\n/g)].map((m) => ({ event: m[1], data: JSON.parse(m[2]) as unknown }));
+    expect(events.length).toBeGreaterThan(3);
+    for (const e of events) {
+      expect(Object.keys(RUN_EVENTS)).toContain(e.event);
+      expect(RUN_EVENTS[e.event as keyof typeof RUN_EVENTS].safeParse(e.data).error).toBeUndefined();
+    }
+    expect(events.filter((e) => e.event === 'end')).toHaveLength(1);
+    expect(events.at(-1)!.event).toBe('end');
     const run = await waitEnd(runId);
     expect(run.status).toBe('done');
+    // The stored summary of a real run (kriging with faults and 20 realizations) parses with the contract's schema.
+    const view = (await (await app.request(`/api/runs/${runId}`)).json()) as { summary: unknown };
+    const summary = runSummarySchema.safeParse(view.summary);
+    expect(summary.error).toBeUndefined();
+    expect(summary.data!.interpolation.method).toBe('kriging');
+    expect(summary.data!.interpolation.variogram!.empirical.length).toBeGreaterThan(0);
+    expect(summary.data!.crossValidation!.n).toBeGreaterThan(0);
+    expect(summary.data!.monteCarlo).toMatchObject({ realizations: 20, seed: 5 });
+    expect(Object.keys(summary.data!.layers)).toContain('heat-flow');
     const hf = run.layers.find((l) => l.name === 'heat-flow')!;
     expect(hf.formats).toContain('tif');
     const tif = await app.request(hf.urls.tif);

@@ -2,17 +2,19 @@
 // system's queue, progress, cancel and failure isolation with behaviours the real pipeline never shows on demand.
 // The request's `title` picks the behaviour:
 //   "fail"  → throws an Error (a failing run)         "crash" → the worker thread exits mid-run
-//   "slow"  → 40 progress steps of 50 ms, checking the cancel flag between steps ("tiles")
+//   "slow"  → 40 progress steps of 50 ms, stopping between steps ("tiles") once the cancel message arrives
 //   other   → a small heat-flow grid by inverse-distance weighting of the sites (Shepard 1968, power 2),
 //             a constant sd grid, a GeoJSON isograd line and a CSV, with progress posted along the way.
 import { writeGeoTiff } from '../../server/io/geotiff.ts';
-import type { RunResult, RunTask } from '../../server/runs/types.ts';
+import { cancelSignal, type RunResult, type RunTask } from '../../server/runs/types.ts';
+import { TOOL_NAME, VERSION } from '../../shared/version.ts';
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
 export default async function runDouble(task: RunTask): Promise<RunResult> {
   const { request, datasets, port } = task;
-  const cancelled = () => Atomics.load(new Int32Array(task.cancelFlag), 0) === 1;
+  const cancel = cancelSignal(port); // the real worker's cancel path
+  const cancelled = () => cancel.signal.aborted;
   const progress = (fraction: number, message: string) => port.postMessage({ type: 'progress', fraction, message });
   progress(0.05, 'reading data sets');
   if (request.title === 'fail') throw new Error('the test double was asked to fail');
@@ -61,7 +63,17 @@ export default async function runDouble(task: RunTask): Promise<RunResult> {
       { info: { name: 'heat-flow', kind: 'raster', units: 'mW/m²', title: 'Surface heat flow', legend: null, formats: ['tif', 'csv'] }, files: [{ ext: 'tif', bytes: tif }, { ext: 'csv', bytes: new TextEncoder().encode(csv) }] },
       { info: { name: 'isograds', kind: 'vector', units: '', title: 'Isograds', legend: null, formats: ['geojson'] }, files: [{ ext: 'geojson', bytes: new TextEncoder().encode(JSON.stringify(isograds)) }] },
     ],
-    summary: { cells: width * height, sites: xs.length },
+    summary: {
+      grid: { width, height, cells: width * height, west: w, north: n, dx, dy, crs: 'EPSG:4326', cellKm: dy * 111.195 },
+      interpolation: { method: 'idw', variogram: null },
+      crossValidation: null,
+      isothermsC: request.isothermsC, depthsKm: request.depthsKm, faciesDepthKm: 10, maxDepthKm: 60, overrides: [],
+      inconsistent: { inconsistent: 0, heatFlowExhausted: 0, conductivityUndefined: 0, nonPositiveHeatFlow: 0, meltOnset: 0, noData: 0 },
+      monteCarlo: null,
+      layers: { 'heat-flow': null, isograds: null },
+      provenance: { tool: TOOL_NAME, version: VERSION, contentHash: 'test-double', inputs: { sites: `${xs.length} sites` } },
+      timingsMs: {},
+    },
     grids: { heatFlow: grid, heatFlowSd: { ...grid, values: sd } },
     model: typeof request.model === 'string' ? JSON.parse(datasets[request.model].body) : request.model,
     warnings: [],
