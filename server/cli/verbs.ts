@@ -11,6 +11,7 @@ export interface VerbEntry {
 export const VERBS: Record<string, VerbEntry> = {
   serve: { summary: 'start the web map and API server', load: async () => (await import('./serve.ts')).serve },
   wells: { summary: 'well temperatures → corrected temperatures, gradients and heat-flow sites', load: async () => (await import('./wells.ts')).wells },
+  'correct-sites': { summary: 'paleoclimatic and topographic corrections of heat-flow sites, with a per-site report', load: async () => (await import('./correct-sites.ts')).correctSitesVerb },
   geotherm: { summary: 'steady-state conductive geotherm of one column (isotherms, temperatures, profile)', load: async () => (await import('./geotherm.ts')).geotherm },
   interpolate: { summary: 'grid a point field by IDW or ordinary kriging (with variogram, sd and cross-validation)', load: async () => (await import('./interpolate.ts')).interpolate },
   isotherms: { summary: 'heat-flow grid + thermal model → isotherm depths, temperatures, facies, solidus, percentiles and contours', load: async () => (await import('./isotherms.ts')).isotherms },

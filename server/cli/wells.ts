@@ -15,6 +15,9 @@ import { attachIntervals, parseIntervalsCsv } from '../../shared/wells/intervals
 import { wellModelFromCompiled } from '../../shared/wells/model-adapter.ts';
 import type { BhtCorrection } from '../../shared/wells/types.ts';
 import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
+import { CORRECTION_HELP, CORRECTION_OPTIONS, correctionOptions } from './heat-flow-options.ts';
+import { correctionTable, CORRECTION_UNITS, type SiteCorrectionReport } from '../../shared/heatflow/sites.ts';
+import { EMPIRICAL_BHT } from '../../shared/heatflow/bht-empirical.ts';
 import { readDatasetFile } from '../io/vector-input.ts';
 
 const HELP = `subtherm wells: well temperatures → corrected temperatures, gradients and heat-flow sites
@@ -28,7 +31,9 @@ const HELP = `subtherm wells: well temperatures → corrected temperatures, grad
   --no-anchor               fit without the surface-temperature anchor
   --anchor-sd-c S           σ of the anchor (°C, default 2)
   --correction C            BHTs without a Horner set: none (default) | offset:C (°C) | poly:a0,a1,a2
-                            (ΔT °C = a0 + a1·z + a2·z², z in km below ground)
+                            (ΔT °C = a0 + a1·z + a2·z², z in km below ground) | harrison1983 (by depth,
+                            Harrison et al. 1983) | waples2004 (by hours since circulation and depth, Waples,
+                            Pacheco & Vera 2004; needs hoursSinceCirculation and a surface temperature)
   --correction-source TEXT  where the offset or polynomial comes from (required with poly)
   --correction-sd-c S       σ of a corrected BHT (°C; default ${DEFAULT_SD_C.bhtOffset} with a correction, ${DEFAULT_SD_C.bhtNone} without)
   --horner-tolerance-m M    BHTs within M m count as one depth for Horner (default ${HORNER_DEPTH_TOLERANCE_M})
@@ -37,7 +42,7 @@ const HELP = `subtherm wells: well temperatures → corrected temperatures, grad
   --lithology-k MAP         conductivity of each lithology, e.g. shale=1.4,sandstone=2.8 (W/m/K)
   --heat-flow Q             heat flow (mW/m²) of the model check (default: the model's surfaceHeatFlowMWm2)
   --outliers flag|exclude   keep flagged outliers in the fit (default) or refit without them
-  --out S.geojson           write the derived heat-flow sites
+${CORRECTION_HELP}  --out S.geojson           write the derived heat-flow sites
   --json                    print one JSON object { sites, wells, files, warnings, provenance }
 
 Each site's heatFlowMWm2 is the surface heat flow q0: the interval heat flow (q at the fit's effective depth) plus
@@ -70,8 +75,9 @@ function correctionOption(raw: string | undefined, source: string | undefined, s
   const sdC = sdRaw === undefined ? undefined : numberOption('correction-sd-c', sdRaw);
   if (sdC !== undefined && !(sdC > 0)) throw new InputError('--correction-sd-c must be > 0 °C', [{ field: 'correction-sd-c', problem: `got ${sdRaw}` }], 'bad_option');
   if (raw === undefined || raw === 'none') return { method: 'none', sdC };
+  if (raw === 'harrison1983' || raw === 'waples2004') return { method: raw, sdC };
   const m = /^(offset|poly):(.+)$/.exec(raw);
-  if (!m) throw new InputError(`--correction must be none, offset:C or poly:a0,a1,a2, got "${raw}"`, [{ field: 'correction', problem: `got "${raw}"` }], 'bad_option');
+  if (!m) throw new InputError(`--correction must be none, offset:C, poly:a0,a1,a2, harrison1983 or waples2004, got "${raw}"`, [{ field: 'correction', problem: `got "${raw}"` }], 'bad_option');
   if (m[1] === 'offset') return { method: 'offset', offsetC: numberOption('correction', m[2]), sdC, source };
   const coefficients = numberListOption('correction', m[2], []);
   if (coefficients.length > 6) throw new InputError('--correction poly takes at most 6 coefficients', [{ field: 'correction', problem: `got ${coefficients.length}` }], 'bad_option');
@@ -141,6 +147,7 @@ export async function wells(argv: string[]): Promise<number> {
     'heat-flow': { type: 'string' },
     outliers: { type: 'string' },
     out: { type: 'string' },
+    ...CORRECTION_OPTIONS,
   });
   if (o.help) {
     process.stdout.write(HELP);
@@ -189,6 +196,7 @@ export async function wells(argv: string[]): Promise<number> {
     if (!(opts.anchorSdC > 0)) throw new InputError('--anchor-sd-c must be > 0 °C', [{ field: 'anchor-sd-c', problem: `got ${o['anchor-sd-c']}` }], 'bad_option');
   }
   opts.bht = correctionOption(o.correction, o['correction-source'], o['correction-sd-c']);
+  const c0 = opts.bht;
   if (o['horner-tolerance-m'] !== undefined) {
     opts.hornerToleranceM = numberOption('horner-tolerance-m', o['horner-tolerance-m']);
     if (!(opts.hornerToleranceM >= 0)) throw new InputError('--horner-tolerance-m must be ≥ 0 m', [{ field: 'horner-tolerance-m', problem: `got ${o['horner-tolerance-m']}` }], 'bad_option');
@@ -212,6 +220,12 @@ export async function wells(argv: string[]): Promise<number> {
     warnings.push('the model has no surfaceHeatFlowMWm2 and no --heat-flow was given: the model check runs at each well\'s own heat flow only');
   }
 
+  opts.heatFlowCorrections = await correctionOptions(o);
+  if (opts.heatFlowCorrections?.topography && o.terrain !== undefined) {
+    const b = readInput(o.terrain, 'terrain');
+    inputs.push({ role: 'terrain', file: basename(o.terrain), sha256: sha256(b) });
+  }
+  if (c0.method === 'waples2004' && opts.surfaceTemperatureC === undefined) warnings.push('--correction waples2004 needs a surface temperature (--surface-temp-c or a model); BHTs stay uncorrected');
   const result = analyzeWells(wellInputs, opts);
   warnings.push(...result.warnings);
   const c = opts.bht;
@@ -220,9 +234,11 @@ export async function wells(argv: string[]): Promise<number> {
     version: VERSION,
     method:
       'BHT: Horner extrapolation for ≥ 3 timed BHTs within ' + `${opts.hornerToleranceM ?? HORNER_DEPTH_TOLERANCE_M} m; otherwise ` +
-      (c.method === 'none' ? 'uncorrected' : c.method === 'offset' ? `offset ${c.offsetC} °C${c.source ? ` (${c.source})` : ''}` : `polynomial ΔT = Σ aᵢ·zKmⁱ, a = [${c.coefficients.join(', ')}] (${c.source})`) +
+      (c.method === 'none' ? 'uncorrected' : c.method === 'offset' ? `offset ${c.offsetC} °C${c.source ? ` (${c.source})` : ''}` : c.method === 'poly' ? `polynomial ΔT = Σ aᵢ·zKmⁱ, a = [${c.coefficients.join(', ')}] (${c.source})` : EMPIRICAL_BHT[c.method].source) +
       `; gradient: weighted least squares${opts.anchor && opts.surfaceTemperatureC !== undefined ? `, anchored at ${opts.surfaceTemperatureC} °C` : ''}` +
-      '; heat flow: Bullard slope where the well has a conductivity column, else gradient × harmonic-mean conductivity',
+      '; heat flow: Bullard slope where the well has a conductivity column, else gradient × harmonic-mean conductivity' +
+      (opts.heatFlowCorrections?.paleoclimate ? `; paleoclimatic correction: ΔT·erfc(z/2√(κt)) steps ${JSON.stringify(opts.heatFlowCorrections.paleoclimate.steps)}, κ = ${opts.heatFlowCorrections.paleoclimate.diffusivityM2s} m²/s` : '') +
+      (opts.heatFlowCorrections?.topography ? `; topographic correction: reference plane (Birch 1950), lapse rate ${opts.heatFlowCorrections.topography.lapseRateCPerKm} °C/km` : ''),
     model: modelLabel,
     inputs,
   };
@@ -235,10 +251,16 @@ export async function wells(argv: string[]): Promise<number> {
     writeFileSync(o.out, JSON.stringify(collection, null, 1) + '\n');
     files.push(o.out);
   }
+  const corrections: SiteCorrectionReport[] | undefined = opts.heatFlowCorrections
+    ? result.reports.filter((r) => r.heatFlow).map((r) => {
+        const h = r.heatFlow!;
+        return { id: r.id, source: 'well', status: h.corrections ? 'corrected' : 'not-applicable', ...(h.corrections ? {} : { reason: r.flags.find((f) => f.code === 'heat-flow-correction-failed')?.message ?? 'not corrected' }), rawHeatFlowMWm2: h.uncorrectedHeatFlowMWm2, correctedHeatFlowMWm2: h.heatFlowMWm2, interval: h.corrections, units: CORRECTION_UNITS };
+      })
+    : undefined;
   if (o.json) {
-    process.stdout.write(JSON.stringify({ sites: result.sites.features.length, wells: result.reports, files, warnings, provenance, caution: CAUTION }) + '\n');
+    process.stdout.write(JSON.stringify({ sites: result.sites.features.length, wells: result.reports, ...(corrections ? { corrections } : {}), files, warnings, provenance, caution: CAUTION }) + '\n');
   } else {
-    const lines = [table(result.reports), '', `${result.sites.features.length} heat-flow site${result.sites.features.length === 1 ? '' : 's'} from ${result.reports.length} well${result.reports.length === 1 ? '' : 's'}`];
+    const lines = [table(result.reports), ...(corrections ? ['', 'heat-flow corrections:', correctionTable(corrections)] : []), '', `${result.sites.features.length} heat-flow site${result.sites.features.length === 1 ? '' : 's'} from ${result.reports.length} well${result.reports.length === 1 ? '' : 's'}`];
     if (files.length > 0) lines.push(`wrote ${files.join(', ')}`);
     if (warnings.length > 0) lines.push('', 'warnings:', ...warnings.map((w) => `  ${w}`));
     lines.push('', CAUTION);

@@ -32,6 +32,9 @@ export const siteProperties = z.looseObject({
   gradientCPerKm: z.number().optional(),
   conductivityWmK: z.number().gt(0, 'conductivity must be > 0 (W/m/K)').optional(),
   heatProductionUWm3: z.number().min(0, 'heat production must be ≥ 0 (µW/m³)').optional(),
+  /** Depths (m below ground) of the interval the gradient was measured over, for the heat-flow corrections. */
+  intervalTopM: z.number().min(0, 'interval top must be ≥ 0 m below ground').optional(),
+  intervalBottomM: z.number().gt(0, 'interval bottom must be > 0 m below ground').optional(),
   /** For sites derived from wells: the source well and the method that gave the heat flow. */
   sourceWellId: z.string().max(200).optional(),
   heatFlowMethod: z.string().max(200).optional(),
@@ -251,6 +254,7 @@ export const NUMERIC_FIELDS = new Set([
   'heatFlowMWm2', 'uncertaintyMWm2', 'gradientCPerKm', 'conductivityWmK', 'heatProductionUWm3',
   'peakTemperatureC', 'peakPressureKbar', 'dipDeg', 'dipDirectionDeg', 'elevationM',
   'depthM', 'depthFt', 'temperatureC', 'temperatureF', 'hoursSinceCirculation', 'circulationHours',
+  'intervalTopM', 'intervalBottomM',
 ]);
 
 /**

@@ -7,6 +7,8 @@ import { modelGeotherm, modelResiduals, type ModelResiduals, type ModelTemperatu
 import { heatFlowQuality, type ConductivitySource } from './quality.ts';
 import { columnHeatAboveMWm2, fitSurfaceHeatFlow, type ModelGeotherm, type SurfaceFit } from './surface-heat-flow.ts';
 import type { BhtCorrection, ConductivityInterval, CorrectedPoint, WellFlag } from './types.ts';
+import type { HeatFlowCorrectionOptions, IntervalCorrection } from '../heatflow/corrections.ts';
+import { wellHeatFlowCorrections } from './heat-flow-corrections.ts';
 
 /**
  * Default relative one-sigma uncertainty of a well's conductivity, by source (this project's choice, from the
@@ -49,6 +51,8 @@ export interface WellAnalysisOptions {
   model?: WellModel;
   /** Heat flow for the model check (mW/m²); default the model's surfaceHeatFlowMWm2. */
   checkHeatFlowMWm2?: number;
+  /** Paleoclimatic and topographic corrections of the gradient (shared/heatflow), each optional. */
+  heatFlowCorrections?: HeatFlowCorrectionOptions;
 }
 
 export type HeatFlowMethod = 'bullard' | 'gradient-conductivity';
@@ -73,6 +77,10 @@ export interface WellHeatFlow {
   modelFit?: SurfaceFit;
   /** How heatFlowMWm2 was obtained. */
   surfaceMethod: 'model-fit' | 'interval-plus-heat-production' | 'interval-uncorrected';
+  /** Paleoclimatic and topographic corrections, when asked for: heatFlowMWm2 includes their total. */
+  corrections?: IntervalCorrection;
+  /** The surface heat flow before those corrections, mW/m². */
+  uncorrectedHeatFlowMWm2: number;
   /** Gradient × harmonic-mean conductivity (always computed when a conductivity exists), mW/m². */
   gradientMethodMWm2: number;
   gradientMethodUncertaintyMWm2: number;
@@ -194,7 +202,7 @@ export function effectiveDepthM(points: { depthM: number; sdC: number; used: boo
 export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): WellReport {
   const flags: WellFlag[] = [...well.flags];
   const bht = opts.bht ?? { method: 'none' as const };
-  const corr = correctMeasurements(well.measurements, { bht, hornerToleranceM: opts.hornerToleranceM });
+  const corr = correctMeasurements(well.measurements, { bht, hornerToleranceM: opts.hornerToleranceM, surfaceTemperatureC: opts.surfaceTemperatureC });
   flags.push(...corr.flags);
   const points = corr.points;
   const ts = opts.surfaceTemperatureC;
@@ -387,8 +395,10 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
   }
   // The direct fit is the site's value where the model also gives the conductivity (one consistent k(T) and A(z)).
   const useFit = fit !== null && source === 'model' && fit.heatFlowMWm2 > 0;
-  const q0 = useFit ? fit!.heatFlowMWm2 : corrected;
-  const sq0 = useFit ? Math.hypot(fit!.seMWm2, q0 * conductivity.relativeSd) : sq;
+  const q0Raw = useFit ? fit!.heatFlowMWm2 : corrected;
+  const sq0 = useFit ? Math.hypot(fit!.seMWm2, q0Raw * conductivity.relativeSd) : sq;
+  const hfc = wellHeatFlowCorrections(well.lonLat, top, bottom, grad.gradientCPerKm, q, opts.heatFlowCorrections, flags);
+  const q0 = q0Raw + (hfc?.totalHeatFlowChangeMWm2 ?? 0);
   const heatFlow: WellHeatFlow = {
     method,
     heatFlowMWm2: q0,
@@ -400,6 +410,8 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
     heatProductionSource: aSource,
     correctedIntervalMWm2: corrected,
     ...(fit === null ? {} : { modelFit: fit }),
+    ...(hfc === undefined ? {} : { corrections: hfc }),
+    uncorrectedHeatFlowMWm2: q0Raw,
     surfaceMethod: useFit ? 'model-fit' : aSource === 'none' ? 'interval-uncorrected' : 'interval-plus-heat-production',
     gradientMethodMWm2: qg,
     gradientMethodUncertaintyMWm2: sqg,

@@ -1,3 +1,4 @@
+import { EMPIRICAL_BHT, harrisonCorrectionC, waplesTemperatureC } from '../heatflow/bht-empirical.ts';
 import { hornerFit } from './horner.ts';
 import type { BhtCorrection, CorrectedPoint, MeasurementInput, WellFlag } from './types.ts';
 
@@ -7,7 +8,7 @@ import type { BhtCorrection, CorrectedPoint, MeasurementInput, WellFlag } from '
  * - `log`: an equilibrated temperature log, 0.5 °C;
  * - `test`: a flow- or drill-stem-test temperature, 1 °C;
  * - `bhtNone`: a BHT used as read, 10 °C (BHTs typically read 5–20 °C below the formation; from memory);
- * - `bhtOffset`, `bhtPoly`: a BHT with a user correction, 6 °C unless the user gives `sdC`;
+ * - `bhtOffset`, `bhtPoly`: a BHT with a user correction or a published empirical one, 6 °C unless the user gives `sdC`;
  * - `hornerFloor`: added in quadrature to the Horner intercept's standard error, 3 °C (the line-source model
  *   itself is approximate, and three points give one degree of freedom).
  */
@@ -44,20 +45,43 @@ export interface CorrectionOptions {
   bht: BhtCorrection;
   /** Depth tolerance (m) for grouping BHTs; default HORNER_DEPTH_TOLERANCE_M. */
   hornerToleranceM?: number;
+  /** Mean surface temperature (°C), needed by the waples2004 correction. */
+  surfaceTemperatureC?: number;
+}
+
+/** A corrected BHT: the value, its σ (°C), the method actually applied and measurement flags. */
+export interface CorrectedBht {
+  temperatureC: number;
+  sdC: number;
+  method: BhtCorrection['method'];
+  flags: string[];
 }
 
 /**
- * Applies the user's BHT correction to one BHT: none (T), a constant offset (T + C) or a depth polynomial
- * T + Σ aᵢ·zKm^i whose coefficients and source the user supplies. Returns the corrected value and its σ (°C).
+ * Applies the chosen BHT correction to one BHT: none (T), a constant offset (T + C), a depth polynomial
+ * T + Σ aᵢ·zKm^i whose coefficients and source the user supplies, or a published empirical correction
+ * (harrison1983 by depth; waples2004 by time since circulation and depth, which needs `hoursSinceCirculation` and
+ * the surface temperature, else the BHT stays uncorrected and is flagged `empirical-needs-time`). A BHT outside the
+ * empirical correction's calibrated depths is flagged `empirical-extrapolated`.
  */
-export function correctBht(depthM: number, temperatureC: number, c: BhtCorrection): { temperatureC: number; sdC: number } {
-  if (c.method === 'none') return { temperatureC, sdC: c.sdC ?? DEFAULT_SD_C.bhtNone };
-  if (c.method === 'offset') return { temperatureC: temperatureC + c.offsetC, sdC: c.sdC ?? DEFAULT_SD_C.bhtOffset };
-  const z = depthM / 1000;
-  // Horner's rule for Σ aᵢ zⁱ.
-  let d = 0;
-  for (let i = c.coefficients.length - 1; i >= 0; i--) d = d * z + c.coefficients[i];
-  return { temperatureC: temperatureC + d, sdC: c.sdC ?? DEFAULT_SD_C.bhtPoly };
+export function correctBht(depthM: number, temperatureC: number, c: BhtCorrection, ctx: { hoursSinceCirculation?: number; surfaceTemperatureC?: number } = {}): CorrectedBht {
+  if (c.method === 'none') return { temperatureC, sdC: c.sdC ?? DEFAULT_SD_C.bhtNone, method: 'none', flags: ['uncorrected-bht'] };
+  if (c.method === 'offset') return { temperatureC: temperatureC + c.offsetC, sdC: c.sdC ?? DEFAULT_SD_C.bhtOffset, method: 'offset', flags: [] };
+  if (c.method === 'poly') {
+    const z = depthM / 1000;
+    // Horner's rule for Σ aᵢ zⁱ.
+    let d = 0;
+    for (let i = c.coefficients.length - 1; i >= 0; i--) d = d * z + c.coefficients[i];
+    return { temperatureC: temperatureC + d, sdC: c.sdC ?? DEFAULT_SD_C.bhtPoly, method: 'poly', flags: [] };
+  }
+  const [lo, hi] = EMPIRICAL_BHT[c.method].calibratedDepthM;
+  const flags = depthM < lo || depthM > hi ? ['empirical-extrapolated'] : [];
+  if (c.method === 'harrison1983') return { temperatureC: temperatureC + harrisonCorrectionC(depthM), sdC: c.sdC ?? DEFAULT_SD_C.bhtPoly, method: c.method, flags };
+  const tsc = ctx.hoursSinceCirculation, ts = ctx.surfaceTemperatureC;
+  if (tsc === undefined || !Number.isFinite(tsc) || ts === undefined || !Number.isFinite(ts)) {
+    return { temperatureC, sdC: DEFAULT_SD_C.bhtNone, method: 'none', flags: ['uncorrected-bht', 'empirical-needs-time'] };
+  }
+  return { temperatureC: waplesTemperatureC(temperatureC, ts, tsc, depthM), sdC: c.sdC ?? DEFAULT_SD_C.bhtPoly, method: c.method, flags };
 }
 
 function hasTimes(m: MeasurementInput): boolean {
@@ -144,8 +168,8 @@ export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOpti
     if (handled.has(i)) return;
     const dup = duplicateOf[i] >= 0;
     if (m.kind === 'bht') {
-      const c = correctBht(m.depthM, m.temperatureC, opts.bht);
-      points.push({ sources: [i], depthM: m.depthM, rawTemperatureC: m.temperatureC, temperatureC: c.temperatureC, sdC: c.sdC, kind: 'bht', method: opts.bht.method, flags: dup ? ['duplicate-row'] : opts.bht.method === 'none' ? ['uncorrected-bht'] : [], used: !dup });
+      const c = correctBht(m.depthM, m.temperatureC, opts.bht, { hoursSinceCirculation: m.hoursSinceCirculation, surfaceTemperatureC: opts.surfaceTemperatureC });
+      points.push({ sources: [i], depthM: m.depthM, rawTemperatureC: m.temperatureC, temperatureC: c.temperatureC, sdC: c.sdC, kind: 'bht', method: c.method, flags: dup ? ['duplicate-row'] : c.flags, used: !dup });
     } else {
       points.push({ sources: [i], depthM: m.depthM, rawTemperatureC: m.temperatureC, temperatureC: m.temperatureC, sdC: m.kind === 'log' ? DEFAULT_SD_C.log : DEFAULT_SD_C.test, kind: m.kind, method: 'equilibrium', flags: dup ? ['duplicate-row'] : [], used: !dup });
     }

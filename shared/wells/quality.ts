@@ -47,7 +47,7 @@ export function heatFlowQuality(q: QualityInput): { quality: 'high' | 'medium' |
   if (!(q.relativeUncertainty <= R.lowMinRelativeUncertainty)) low.push(`relative uncertainty ${(q.relativeUncertainty * 100).toFixed(0)} %`);
   if (low.length > 0) return { quality: 'low', reasons: low };
   const med: string[] = [];
-  if (!q.methods.every((m) => m === 'equilibrium' || m === 'horner')) med.push('BHTs with a user correction');
+  if (!q.methods.every((m) => m === 'equilibrium' || m === 'horner')) med.push('BHTs with an empirical or user correction');
   if (q.nPoints < R.highMinPoints) med.push(`${q.nPoints} measured points (high needs ${R.highMinPoints})`);
   if (q.conductivitySource !== 'column') med.push(`conductivity from ${q.conductivitySource === 'lithology' ? 'a lithology map' : 'the thermal model'}`);
   if (q.conductivityCoverage < R.highMinCoverage) med.push(`conductivity covers ${(q.conductivityCoverage * 100).toFixed(0)} % of the interval`);

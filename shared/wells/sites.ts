@@ -1,8 +1,9 @@
 import type { FeatureCollection, PointGeometry } from '../schema/geojson.ts';
 import type { WellReport } from './analyze.ts';
+import { correctionProperties, type CorrectionProperties } from '../heatflow/sites.ts';
 
 /** Properties of a heat-flow site derived from a well (siteProperties of shared/schema/features.ts, plus extras). */
-export interface WellSiteProperties {
+export interface WellSiteProperties extends Partial<CorrectionProperties> {
   id: string;
   name?: string;
   heatFlowMWm2: number;
@@ -72,6 +73,7 @@ export function wellSites(reports: WellReport[]): FeatureCollection<PointGeometr
       modelFitHeatFlowMWm2: r.heatFlow.modelFit ? round(r.heatFlow.modelFit.heatFlowMWm2, 2) : null,
       surfaceHeatFlowMethod: SURFACE_METHOD[r.heatFlow.surfaceMethod],
     };
+    if (r.heatFlow.corrections) Object.assign(props, correctionProperties(r.heatFlow.uncorrectedHeatFlowMWm2, r.heatFlow.corrections));
     if (r.name !== undefined) props.name = r.name;
     if (r.elevationM !== undefined) props.elevationM = r.elevationM;
     features.push({ type: 'Feature', id: r.id, geometry: { type: 'Point', coordinates: [r.lonLat[0], r.lonLat[1]] }, properties: props });

@@ -33,14 +33,20 @@ export type CorrectionMethod =
   /** A BHT plus a constant offset. */
   | 'offset'
   /** A BHT plus a user-supplied depth polynomial. */
-  | 'poly';
+  | 'poly'
+  /** A BHT plus the depth correction of Harrison et al. (1983) (shared/heatflow/bht-empirical.ts). */
+  | 'harrison1983'
+  /** A BHT corrected by time since circulation and depth, Waples, Pacheco & Vera (2004). */
+  | 'waples2004';
 
 /** The user's choice for BHTs that cannot be Horner-corrected. */
 export type BhtCorrection =
   | { method: 'none'; sdC?: number }
   | { method: 'offset'; offsetC: number; sdC?: number; source?: string }
   /** ΔT (°C) = Σ coefficients[i]·zKm^i, z the depth below ground in km; `source` names where the coefficients come from. */
-  | { method: 'poly'; coefficients: number[]; source: string; sdC?: number };
+  | { method: 'poly'; coefficients: number[]; source: string; sdC?: number }
+  /** A published empirical correction (shared/heatflow/bht-empirical.ts); waples2004 needs hoursSinceCirculation and a surface temperature. */
+  | { method: 'harrison1983' | 'waples2004'; sdC?: number };
 
 /** A flag raised on a measurement or a well. Codes are stable (tests and the client read them). */
 export interface WellFlag {

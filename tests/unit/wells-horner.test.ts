@@ -122,7 +122,7 @@ describe('BHT corrections of a well', () => {
     expect(correctBht(2500, 90, c).temperatureC).toBeCloseTo(98.375, 12);
     expect(correctBht(2500, 90, c).sdC).toBe(DEFAULT_SD_C.bhtPoly);
     expect(correctBht(2500, 90, { ...c, sdC: 4 }).sdC).toBe(4);
-    expect(correctBht(0, 20, { method: 'none' })).toEqual({ temperatureC: 20, sdC: DEFAULT_SD_C.bhtNone });
+    expect(correctBht(0, 20, { method: 'none' })).toMatchObject({ temperatureC: 20, sdC: DEFAULT_SD_C.bhtNone, method: 'none' });
   });
 
   it('keeps exact duplicate rows out of the fit and flags repeated depths', () => {
