@@ -42,7 +42,10 @@ export function correctionProperties(raw: number, c: IntervalCorrection): Correc
 }
 
 type Props = Record<string, unknown>;
-const num = (p: Props, k: string): number | undefined => (typeof p[k] === 'number' && Number.isFinite(p[k]) ? (p[k] as number) : undefined);
+const num = (p: Props, k: string): number | undefined => {
+  const v = p[k];
+  return typeof v === 'number' && Number.isFinite(v) ? v : undefined;
+};
 
 /**
  * Corrects heat-flow sites that give the depth interval of their gradient (`intervalTopM`, `intervalBottomM`, m
@@ -57,7 +60,8 @@ export function correctSites<F extends { id?: string | number; geometry: { type:
   const reports: SiteCorrectionReport[] = [];
   const out = features.map((f, i) => {
     const p = f.properties;
-    const id = String(p.id ?? f.id ?? i);
+    const pid = p.id;
+    const id = typeof pid === 'string' || typeof pid === 'number' ? String(pid) : String(f.id ?? i);
     const q = num(p, 'heatFlowMWm2');
     const top = num(p, 'intervalTopM'), bottom = num(p, 'intervalBottomM');
     let g = num(p, 'gradientCPerKm'), k = num(p, 'conductivityWmK');
