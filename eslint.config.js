@@ -21,6 +21,10 @@ export default tseslint.config(
     },
     rules: {
       '@typescript-eslint/consistent-type-imports': 'error',
+      // Off on purpose: its 24 findings were all `String(x ?? '')` of ids and names read from parsed JSON or GeoJSON
+      // properties (type `unknown`, which `??` narrows to `{}`), where converting a string or number is intended;
+      // the rule cannot tell those from a real object.
+      '@typescript-eslint/no-base-to-string': 'off',
       // Same convention as tsc's noUnusedLocals/noUnusedParameters: a leading underscore marks a value left out on
       // purpose (e.g. `const { a: _a, ...rest } = x`).
       '@typescript-eslint/no-unused-vars': [
@@ -31,8 +35,9 @@ export default tseslint.config(
   },
   {
     // Tests read the JSON that the CLI and the HTTP API print (`JSON.parse` gives `any`) and then assert on its fields.
-    // The no-unsafe-* rules report about 400 such reads there; typing each one adds casts, not safety, because the
-    // assertions themselves fail on a wrong shape. They stay on for shared/, server/ and client/.
+    // The no-unsafe-* rules report about 400 such reads there (and no-explicit-any the helpers' `Record<string, any>`
+    // results); typing each one adds casts, not safety, because the assertions themselves fail on a wrong shape.
+    // They stay on for shared/, server/ and client/.
     files: ['tests/**/*.ts'],
     rules: {
       '@typescript-eslint/no-unsafe-member-access': 'off',
@@ -40,6 +45,7 @@ export default tseslint.config(
       '@typescript-eslint/no-unsafe-call': 'off',
       '@typescript-eslint/no-unsafe-argument': 'off',
       '@typescript-eslint/no-unsafe-return': 'off',
+      '@typescript-eslint/no-explicit-any': 'off',
     },
   },
   {

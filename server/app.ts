@@ -8,7 +8,8 @@ import { VERSION } from '../shared/version.ts';
 import { httpStatusOf } from './http-status.ts';
 import { CAUTION } from '../shared/caution.ts';
 import type { Store } from './store/types.ts';
-import { TerrainTiles, TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from './terrain.ts';
+import type { TerrainTiles} from './terrain.ts';
+import { TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from './terrain.ts';
 import { DEMO_DATASETS, DEMO_PROJECT_ID } from './demo.ts';
 import { startDemoRun } from './demo-run.ts';
 import { limitsView, resolveLimits, type Limits } from './limits.ts';
@@ -124,7 +125,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   app.onError((err, c) => {
     if (isStorageFull(err)) {
       // Each write is one transaction, so nothing was half written; reads go on being served.
-      console.error(`[${new Date().toISOString()}] ${c.req.method} ${new URL(c.req.url).pathname}: storage full (${(err as Error).message})`);
+      console.error(`[${new Date().toISOString()}] ${c.req.method} ${new URL(c.req.url).pathname}: storage full (${(err).message})`);
       return c.json(errorBody('insufficient_storage', 'the server has no room left to store this (its disk or database is full); nothing was saved. Reading works as before; tell the operator.'), 507);
     }
     if (err instanceof InputError) {
@@ -237,7 +238,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
       loadLayerGrid: async (runId, layer) => {
         const file = opts.store.getRunFile(runId, layer, 'tif');
         if (!file) return null;
-        return (await readGeoTiff(file.bytes.slice().buffer as ArrayBuffer, { source: `run ${runId} layer ${layer}` })).grid;
+        return (await readGeoTiff(file.bytes.slice().buffer, { source: `run ${runId} layer ${layer}` })).grid;
       },
     }),
   );

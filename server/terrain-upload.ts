@@ -55,7 +55,7 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
   const counts = (await dir.loadValue(tiled ? 'TileByteCounts' : 'StripByteCounts')) as ArrayLike<number> | undefined;
   if (!offsets || !counts || offsets.length !== counts.length) throw bad('the terrain GeoTIFF has no pixel data directory (strip or tile offsets and byte counts)', 'strip or tile offsets and byte counts');
   let expectedBlocks: number;
-  let rowsPerBlock = height, blockWidth = width;
+  let rowsPerBlock: number, blockWidth = width;
   if (tiled) {
     const tw = Number(await dir.loadValue('TileWidth')), th = Number(await dir.loadValue('TileLength'));
     expectedBlocks = Math.ceil(width / tw) * Math.ceil(height / th);

@@ -30,7 +30,7 @@ type ErrorBody = { error?: { code?: string; message?: string; details?: Problem[
 
 async function handle<T>(res: Response): Promise<T> {
   const text = await res.text();
-  let body: unknown = null;
+  let body: unknown;
   try {
     body = text === '' ? null : JSON.parse(text);
   } catch {

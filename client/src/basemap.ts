@@ -46,7 +46,7 @@ function updateGraticule(map: MapLibreMap): void {
   const degPerPx = (b.getEast() - b.getWest()) / Math.max(1, map.getContainer().clientWidth);
   const step = STEPS.find((_, i) => i === STEPS.length - 1 || STEPS[i + 1] / degPerPx < 90) ?? 1;
   const span = [Math.max(-540, b.getWest()), Math.max(-90, b.getSouth()), Math.min(540, b.getEast()), Math.min(90, b.getNorth())] as [number, number, number, number];
-  (map.getSource('graticule') as GeoJSONSource | undefined)?.setData(graticule(span, step));
+  void map.getSource<GeoJSONSource>('graticule')?.setData(graticule(span, step));
 }
 
 /** Loads the world land into its source and keeps the graticule fitted to the view. */
@@ -54,7 +54,7 @@ export async function installWorldBase(map: MapLibreMap): Promise<void> {
   updateGraticule(map);
   map.on('moveend', () => updateGraticule(map));
   const topo = (await (await fetch(landUrl)).json()) as Topology<{ land: GeometryCollection }>;
-  (map.getSource('world-land') as GeoJSONSource | undefined)?.setData(feature(topo, topo.objects.land) as unknown as Parameters<GeoJSONSource['setData']>[0]);
+  void map.getSource<GeoJSONSource>('world-land')?.setData(feature(topo, topo.objects.land));
 }
 
 /** Reads "lon, lat" (decimal degrees, or with N/S/E/W letters in either order) into [lon, lat]; null if it cannot. */

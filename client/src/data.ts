@@ -37,7 +37,7 @@ export class DataSets {
     if (id === undefined || id === '') return;
     const url = `/api/datasets/${encodeURIComponent(id)}`;
     this.current[kind] = await getJson<FeatureCollection>(url).catch(() => EMPTY);
-    (this.ctx.map.getSource(kind) as GeoJSONSource | undefined)?.setData(this.current[kind] as unknown as Parameters<GeoJSONSource['setData']>[0]);
+    void this.ctx.map.getSource<GeoJSONSource>(kind)?.setData(this.current[kind] as unknown as Parameters<GeoJSONSource['setData']>[0]);
     for (const fn of this.listeners) fn(kind);
   }
 }

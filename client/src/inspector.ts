@@ -71,7 +71,7 @@ function depthAtPressure(profile: ColumnPoint[], pKbar: number): number {
 /** Linear interpolation of a profile field at a depth. */
 export function profileAt(profile: ColumnPoint[], depthKm: number): ColumnPoint | null {
   if (profile.length === 0) return null;
-  let i = profile.findIndex((p) => p.depthKm >= depthKm);
+  const i = profile.findIndex((p) => p.depthKm >= depthKm);
   if (i < 0) return profile[profile.length - 1];
   if (i === 0) return profile[0];
   const a = profile[i - 1], b = profile[i];

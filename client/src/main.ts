@@ -130,7 +130,7 @@ function buildTools(ctx: AppContext, data: DataSets, demoModel: ReturnType<typeo
   });
   const structure = new StructurePanel(ctx.map);
   const section = sectionPanel(ctx);
-  let show: (run: RunState) => Promise<void> = async () => undefined;
+  let show: (run: RunState) => Promise<void> = () => Promise.resolve();
   const submitTo = (): { path: string; headers: Record<string, string> } => (ctx.projectId !== null && ctx.editToken !== null ? { path: `/api/projects/${encodeURIComponent(ctx.projectId)}/runs`, headers: { authorization: `Bearer ${decodeURIComponent(ctx.editToken)}` } } : { path: '/api/runs', headers: {} });
   const runs = runPanel({ params: state.params, model: () => editor.value(), onParams: (p) => ((state.params = p), ctx.syncUrl()), onDone: (run) => void show(run).catch((e: unknown) => ctx.showError(message(e))), submitTo });
   show = (run) => showRun(ctx, run, { runs, structure, section });
@@ -180,7 +180,7 @@ async function start(): Promise<void> {
   state.model ??= await demoModel;
   if (restoreError) showError(restoreError);
   await new Promise<void>((r) => (map.isStyleLoaded() ? r() : map.once('load', () => r())));
-  (map.getSource('sea-mask') as GeoJSONSource | undefined)?.setData(seaMask(await getJson<Parameters<typeof seaMask>[0]>(`/api/datasets/${encodeURIComponent(ds.regions)}`)));
+  void map.getSource<GeoJSONSource>('sea-mask')?.setData(seaMask(await getJson<Parameters<typeof seaMask>[0]>(`/api/datasets/${encodeURIComponent(ds.regions)}`)));
   void installWorldBase(map).catch((e: unknown) => console.error(`world base: ${message(e)}`));
   document.getElementById('map')!.append(cursorReadout(map));
   document.querySelector('.topbar .spacer')!.before(goToBox(map));

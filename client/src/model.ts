@@ -197,7 +197,7 @@ export function modelEditor(initial: ThermalModelInput, onValid: (m: ThermalMode
     f.surfaceQ.value = toText(surfaceHeatFlowMWm2);
     extras = layers.map((l) => Object.fromEntries(Object.entries(l).filter(([k]) => !COLUMNS.some((c) => c.key === k))));
     replace(f.tbody);
-    for (const l of layers) addRow(l as Record<string, unknown>);
+    for (const l of layers) addRow(l);
     validate();
   };
 

@@ -105,7 +105,7 @@ export class LineDrawer {
   private render(): void {
     const features: GeoJSON.Feature[] = this.points.map((p) => ({ type: 'Feature', properties: {}, geometry: { type: 'Point', coordinates: p } }));
     if (this.points.length >= 2) features.push({ type: 'Feature', properties: {}, geometry: { type: 'LineString', coordinates: this.points } });
-    (this.map.getSource('section-line') as GeoJSONSource | undefined)?.setData({ type: 'FeatureCollection', features });
+    void this.map.getSource<GeoJSONSource>('section-line')?.setData({ type: 'FeatureCollection', features });
     this.onState(this.active, this.points.length);
   }
 }
@@ -265,7 +265,7 @@ export function sectionPanel(ctx: AppContext): SectionPanel {
       replace(out, e instanceof ApiError ? errorBox(`Section: ${e.message}`, e.details) : errorBox(`Section: ${message(e)}`));
     }
   };
-  const lineDrawer = new LineDrawer(ctx.map, onLine, (drawing, n) => {
+  const lineDrawer = new LineDrawer(ctx.map, (line) => void onLine(line), (drawing, n) => {
     drawBtn.textContent = drawing ? 'Drawing… (Enter or double-click to finish, Escape to cancel)' : 'Draw a section line';
     drawBtn.setAttribute('aria-pressed', String(drawing));
     drawState.textContent = drawing ? `${n} point${n === 1 ? '' : 's'}` : '';

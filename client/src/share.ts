@@ -62,7 +62,7 @@ export function sharePanel(ctx: AppContext): SharePanel {
     ctx.syncUrl();
   });
   const shareBtn = el('button', { type: 'button', id: 'share-button', class: 'primary' }, ctx.projectId !== null && ctx.editToken !== null ? 'Save a new revision' : 'Save and share');
-  shareBtn.addEventListener('click', async () => {
+  const onShare = async (): Promise<void> => {
     const c = ctx.map.getCenter();
     ctx.state.view = { center: [c.lng, c.lat], zoom: ctx.map.getZoom() };
     replace(out, el('p', { class: 'loading' }, 'Saving…'));
@@ -71,7 +71,8 @@ export function sharePanel(ctx: AppContext): SharePanel {
     } catch (e) {
       replace(out, e instanceof ApiError ? errorBox(`Share: ${e.message}`, e.details) : errorBox(`Share: ${message(e)}`));
     }
-  });
+  };
+  shareBtn.addEventListener('click', () => void onShare());
   const pngBtn = el('button', { type: 'button', id: 'export-png' }, 'Map as PNG');
   pngBtn.addEventListener('click', () => {
     exportPng(ctx).catch((e: unknown) => ctx.showError(`PNG export: ${message(e)}`));

@@ -334,7 +334,7 @@ function blockPolygonsFromGeoJson(input: unknown, source: string): BlockPolygon[
     const g = f?.geometry;
     const ok = (rings: unknown): rings is number[][][] => Array.isArray(rings) && rings.length > 0 && rings.every((r) => Array.isArray(r) && r.length >= 4 && r.every((p) => Array.isArray(p) && p.length >= 2 && Number.isFinite(p[0]) && Number.isFinite(p[1]) && (p[0] as number) >= -180 && (p[0] as number) <= 180 && (p[1] as number) >= -90 && (p[1] as number) <= 90));
     if (g?.type === 'Polygon' && ok(g.coordinates)) return { id, rings: g.coordinates };
-    if (g?.type === 'MultiPolygon' && Array.isArray(g.coordinates) && g.coordinates.every(ok)) return { id, rings: (g.coordinates as number[][][][]).flat() };
+    if (g?.type === 'MultiPolygon' && Array.isArray(g.coordinates) && g.coordinates.every(ok)) return { id, rings: (g.coordinates).flat() };
     throw new InputError(`${source}: feature ${id} is not a valid Polygon or MultiPolygon in lon/lat degrees`, [{ feature: id, field: 'geometry', problem: 'expected Polygon or MultiPolygon rings of ≥ 4 [lon, lat] positions' }], 'invalid_features');
   });
 }

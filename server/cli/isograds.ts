@@ -99,44 +99,44 @@ export async function isograds(argv: string[]): Promise<number> {
   }
   const bad = (field: string, problem: string) => new InputError(`--${field}: ${problem}`, [{ field, problem }], 'bad_option');
   if (v.samples === undefined) throw bad('samples', 'missing: give --samples S.geojson');
-  const faultDistanceKm = numberOption('fault-distance-km', v['fault-distance-km'] as string | undefined, 10);
+  const faultDistanceKm = numberOption('fault-distance-km', v['fault-distance-km'], 10);
   if (!(faultDistanceKm > 0)) throw bad('fault-distance-km', `must be > 0 km, got ${faultDistanceKm}`);
-  const cellKm = numberOption('cell-km', v['cell-km'] as string | undefined, 1);
+  const cellKm = numberOption('cell-km', v['cell-km'], 1);
   if (!(cellKm > 0)) throw bad('cell-km', `must be > 0 km, got ${cellKm}`);
-  const supportKm = v['support-km'] === undefined ? undefined : numberOption('support-km', v['support-km'] as string);
+  const supportKm = v['support-km'] === undefined ? undefined : numberOption('support-km', v['support-km']);
   if (supportKm !== undefined && !(supportKm > 0)) throw bad('support-km', `must be > 0 km, got ${supportKm}`);
-  const method = (v.method as string | undefined) ?? 'kriging';
+  const method = (v.method) ?? 'kriging';
   if (method !== 'kriging' && method !== 'idw') throw bad('method', `expected kriging or idw, got '${method}'`);
-  const isogradDipDeg = v['isograd-dip-deg'] === undefined ? undefined : numberOption('isograd-dip-deg', v['isograd-dip-deg'] as string);
+  const isogradDipDeg = v['isograd-dip-deg'] === undefined ? undefined : numberOption('isograd-dip-deg', v['isograd-dip-deg']);
   if (isogradDipDeg !== undefined && !(isogradDipDeg > 0 && isogradDipDeg < 90)) throw bad('isograd-dip-deg', `must be between 0 and 90 degrees (exclusive), got ${isogradDipDeg}`);
-  const neighbors = numberOption('neighbors', v.neighbors as string | undefined, method === 'kriging' ? 16 : 12);
+  const neighbors = numberOption('neighbors', v.neighbors, method === 'kriging' ? 16 : 12);
   if (!(Number.isInteger(neighbors) && neighbors >= 1 && neighbors <= 1000)) throw bad('neighbors', `must be an integer from 1 to 1000, got ${neighbors}`);
-  const power = numberOption('power', v.power as string | undefined, 2);
+  const power = numberOption('power', v.power, 2);
   if (!(power > 0 && power <= 10)) throw bad('power', `must be in (0, 10], got ${power}`);
-  const density = numberOption('density-kg-m3', v['density-kg-m3'] as string | undefined, DEFAULT_PALEO_DENSITY_KG_M3);
+  const density = numberOption('density-kg-m3', v['density-kg-m3'], DEFAULT_PALEO_DENSITY_KG_M3);
   if (!(density >= 1000 && density <= 4000)) throw bad('density-kg-m3', `must be within 1000–4000 kg/m³, got ${density}`);
-  const heatFlow = v['heat-flow'] === undefined ? undefined : numberOption('heat-flow', v['heat-flow'] as string);
+  const heatFlow = v['heat-flow'] === undefined ? undefined : numberOption('heat-flow', v['heat-flow']);
   if (heatFlow !== undefined && !(heatFlow > 0)) throw bad('heat-flow', `must be > 0 mW/m², got ${heatFlow}`);
 
-  const samplesPath = v.samples as string;
+  const samplesPath = v.samples;
   const s = await readBytes(samplesPath, 'samples');
   const hashes: Record<string, string> = { samples: sha256(s) };
   const warnings: string[] = [];
-  const sp = await readDatasetFile(samplesPath, s, 'samples', { layer: v.layer as string | undefined, crs: v['points-crs'] as string | undefined });
+  const sp = await readDatasetFile(samplesPath, s, 'samples', { layer: v.layer, crs: v['points-crs'] });
   warnings.push(...sp.warnings.map((w) => `${samplesPath}: ${w}`));
   let faults: FaultCollection | null = null;
   if (v.faults !== undefined) {
-    const fb = await readBytes(v.faults as string, 'faults');
+    const fb = await readBytes(v.faults, 'faults');
     hashes.faults = sha256(fb);
-    const fp = await readDatasetFile(v.faults as string, fb, 'faults', { layer: v['faults-layer'] as string | undefined });
+    const fp = await readDatasetFile(v.faults, fb, 'faults', { layer: v['faults-layer'] });
     warnings.push(...fp.warnings.map((w) => `${v.faults}: ${w}`));
     faults = fp.collection as FaultCollection;
   }
   let model: CompiledModel | null = null;
   if (v.model !== undefined) {
-    const m = await readJson(v.model as string, 'model');
+    const m = await readJson(v.model, 'model');
     hashes.model = m.hash;
-    const parsed = parseThermalModel(m.raw, v.model as string);
+    const parsed = parseThermalModel(m.raw, v.model);
     const nominal = nominalModel(parsed);
     const q0 = heatFlow ?? nominal.surfaceHeatFlowMWm2;
     if (q0 === undefined) throw new InputError(`${v.model}: no surface heat flow`, [{ feature: 'model', field: 'surfaceHeatFlowMWm2', problem: 'missing: put it in the model or give --heat-flow' }], 'invalid_model');
@@ -151,8 +151,8 @@ export async function isograds(argv: string[]): Promise<number> {
   const files: string[] = [];
   if (v.out !== undefined) {
     const out = { ...layer.lines, provenance: { ...layer.lines.provenance, inputs: hashes, faultDistanceKm, densityKgM3: density, createdBy: 'isograds' } };
-    await writeFile(v.out as string, JSON.stringify(out) + '\n');
-    files.push(v.out as string);
+    await writeFile(v.out, JSON.stringify(out) + '\n');
+    files.push(v.out);
   }
   const result = {
     isograds: rep.isograds,

@@ -141,11 +141,11 @@ export async function isotherms(argv: string[]): Promise<number> {
     }
     const ds = parseFeatureCollection('regions', raw);
     ds.collection.features.forEach((f, i) => {
-      const props = (f.properties ?? {}) as Record<string, unknown>;
+      const props = (f.properties ?? {});
       const label = `${a.overrides}: feature ${i}${props.id !== undefined ? ` (${String(props.id)})` : ''}`;
       const o = overrideFromProperties(props, label);
       if (o === null) throw new InputError(`${label} has no "layers": every override polygon needs them`, [{ feature: i, field: 'properties.layers', problem: 'missing' }], 'invalid_override');
-      regions.push({ label, override: o, ringsLonLat: ringsOfGeometry(f.geometry as { type: string; coordinates: unknown }) });
+      regions.push({ label, override: o, ringsLonLat: ringsOfGeometry(f.geometry) });
     });
     inputs.overrides = sha256Hex(text);
   }

@@ -144,7 +144,7 @@ export async function simulate(argv: string[]): Promise<number> {
     const T = r.targets, R = r.realizations;
     const realizations: (number | null)[][] = [];
     for (let k = 0; k < R; k++) {
-      const row: (number | null)[] = new Array(T);
+      const row: (number | null)[] = new Array<number | null>(T);
       for (let t = 0; t < T; t++) { const v = r.values[k * T + t]; row[t] = Number.isFinite(v) ? v : null; }
       realizations.push(row);
     }

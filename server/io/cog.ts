@@ -417,7 +417,7 @@ export async function writeCogFile(path: string, values: Float32Array | Float64A
     await new Promise<void>((resolve, reject) => {
       let active = 0;
       const fail = (e: unknown) => {
-        if (failure === null) { failure = e; reject(e); }
+        if (failure === null) { failure = e; reject(e instanceof Error ? e : new Error(String(e))); }
       };
       const dispatch = (w: Worker) => {
         if (failure !== null) return;

@@ -129,7 +129,7 @@ async function readHeader(image: Image, src: string): Promise<Header> {
   const keys = (image.getGeoKeys() ?? {}) as Record<string, unknown>;
   const code = keys.ProjectedCSTypeGeoKey ?? keys.GeographicTypeGeoKey;
   if (typeof code !== 'number' || code === 32767) throw new InputError(`${src} has no EPSG coordinate system`, [{ feature: src, field: 'GeoKeys', problem: 'expected ProjectedCSTypeGeoKey or GeographicTypeGeoKey with an EPSG code' }], 'bad_geotiff');
-  let description = '', caution: string | null = null, metadata: Record<string, unknown> = {}, units = '';
+  let description: string, caution: string | null = null, metadata: Record<string, unknown> = {}, units = '';
   const xml = await tagText(image, 'GDAL_METADATA');
   const items = new Map<string, string>();
   for (const m of xml.matchAll(/<Item\s+name="([^"]*)"([^>]*)>([\s\S]*?)<\/Item>/g)) {

@@ -7,7 +7,6 @@
  */
 import type { Context, Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
-import type { DatasetKind } from '../../shared/schema/features.ts';
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import { sha256Hex } from '../store/sqlite.ts';
 import type { ProjectDatasetRecord } from '../store/types.ts';
@@ -130,7 +129,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     const id = projectIdOf(c, ctx);
     requireEditToken(c, ctx, id);
     const q = parseWith(projectDatasetQuerySchema, singleQuery(c), 'query', 'bad_query');
-    const up = await parseUpload(c, ctx, q.kind as DatasetKind | 'model');
+    const up = await parseUpload(c, ctx, q.kind);
     const { dataset, status } = addToProject(ctx, id, up, q.name);
     return c.json({ ...datasetView(id, dataset), deduplicated: status !== 'created', warnings: up.warnings }, status === 'existing' ? 200 : 201);
   });

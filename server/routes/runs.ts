@@ -183,7 +183,7 @@ export function resolveRunDatasets(ctx: AppContext, request: RunRequest, project
     hashes.model = rec.contentHash;
     if (rec.name !== null) hashes.modelName = sha256Hex(rec.name);
   } else {
-    request.model = parseModelDocument(request.model, 'model').model as unknown as Record<string, unknown>;
+    request.model = parseModelDocument(request.model, 'model').model;
   }
   return { datasets, hashes, names, bboxes };
 }

@@ -50,7 +50,7 @@ export async function runGridOf(grid: Grid<Float32Array>): Promise<RunGrid> {
   let fromLonLat: RunGrid['fromLonLat'] = (lon, lat) => [lon, lat];
   if (!WGS84.test(grid.crs.trim())) {
     const conv = proj4('EPSG:4326', await loadCrsDefinition(grid.crs));
-    fromLonLat = (lon, lat) => conv.forward([lon, lat]) as [number, number];
+    fromLonLat = (lon, lat) => conv.forward<[number, number]>([lon, lat]);
   }
   return { grid, fromLonLat };
 }

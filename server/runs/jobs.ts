@@ -10,14 +10,14 @@
  * cancelling requires; a run started through a project may also be cancelled with the project's edit token.
  */
 import { EventEmitter } from 'node:events';
-import { MessageChannel } from 'node:worker_threads';
+import { MessageChannel, type MessagePort } from 'node:worker_threads';
 import { Piscina } from 'piscina';
 import { InputError } from '../../shared/errors.ts';
 import type { RunRequest } from '../../shared/schema/run.ts';
 import type { RunRecord, RunStatus, Store } from '../store/types.ts';
 import { newId } from '../store/sqlite.ts';
 import { hashToken, newEditToken, tokenMatches } from '../security.ts';
-import { CANCEL_MESSAGE, LAYER_CONTENT_TYPES, LAYER_EXTS, type LayerExt, type RunResult, type RunTask, type SerializedGrid } from './types.ts';
+import { CANCEL_MESSAGE, LAYER_CONTENT_TYPES, LAYER_EXTS, type RunResult, type RunTask, type SerializedGrid } from './types.ts';
 
 export interface RunJobsOptions {
   store: Store;
@@ -96,7 +96,7 @@ export class RunJobs {
   /** Cells × realizations per second per worker thread, from runs finished here (exponentially weighted). */
   private rate: number | null = null;
   /** Each running job's end of its MessagePort (progress in; the worker also takes `{ type: 'cancel' }`). */
-  private readonly ports = new Map<string, import('node:worker_threads').MessagePort>();
+  private readonly ports = new Map<string, MessagePort>();
   private readonly events = new EventEmitter();
   private closed = false;
 
@@ -402,7 +402,7 @@ export class RunJobs {
     try {
       settled = this.getPool().run(task, { signal: job.abort.signal, transferList: [port2] as unknown as NonNullable<Parameters<Piscina['run']>[1]>['transferList'] });
     } catch (e) {
-      settled = Promise.reject(e);
+      settled = Promise.reject(e instanceof Error ? e : new Error(String(e)));
     }
     settled
       .then((result) => {
@@ -456,7 +456,7 @@ export class RunJobs {
       .filter((e): e is [string, SerializedGrid] => e[1] !== undefined)
       .map(([name, g]) => ({ name, meta: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: g.units }, values: g.values }));
     this.store.storeRunResult(job.id, {
-      files: result.layers.flatMap((l) => l.files.map((f) => ({ name: l.info.name, ext: f.ext, bytes: f.bytes, contentType: LAYER_CONTENT_TYPES[f.ext as LayerExt] }))),
+      files: result.layers.flatMap((l) => l.files.map((f) => ({ name: l.info.name, ext: f.ext, bytes: f.bytes, contentType: LAYER_CONTENT_TYPES[f.ext] }))),
       grids,
       record: {
         layers: result.layers.map((l) => l.info),

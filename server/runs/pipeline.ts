@@ -135,7 +135,7 @@ class ProgressTracker {
 
 function checkAbort(signal?: AbortSignal): void {
   if (signal?.aborted) {
-    const r = signal.reason;
+    const r: unknown = signal.reason;
     throw r instanceof Error ? r : Object.assign(new Error('the run was cancelled'), { name: 'AbortError' });
   }
 }
@@ -453,7 +453,7 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
   if (corrRaw !== undefined && corrRaw !== 'full' && corrRaw !== 'independent') {
     throw new InputError('heatFlowErrorCorrelation must be "full" or "independent"', [{ field: 'heatFlowErrorCorrelation', problem: `got ${JSON.stringify(corrRaw)}` }], 'invalid_request');
   }
-  const correlation: 'full' | 'independent' = (corrRaw as 'full' | 'independent' | undefined) ?? 'full';
+  const correlation: 'full' | 'independent' = (corrRaw) ?? 'full';
 
   // Sites and interpolation options.
   const ip = interpolationOptionsSchema.safeParse(req.interpolation);
@@ -488,7 +488,7 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
     warnings.push(...ds.warnings);
     faults = [];
     for (const f of ds.collection.features) {
-      const g = f.geometry as { type: string; coordinates: unknown };
+      const g = f.geometry;
       if (g.type === 'LineString') faults.push(g.coordinates as number[][]);
       else faults.push(...(g.coordinates as number[][][]));
     }
@@ -500,7 +500,7 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
     const rd = dataset(datasets, req.regions, 'regions');
     const ds = parseFeatureCollection('regions', parseJsonBody(rd, req.regions, 'regions'));
     warnings.push(...ds.warnings);
-    const found = overrideRegions(ds.collection.features as { geometry: unknown; properties?: Record<string, unknown> }[]);
+    const found = overrideRegions(ds.collection.features);
     regions.push(...found.regions);
     if (req.maskToRegion && found.plain.length > 0) mask = found.plain[0];
     if (req.maskToRegion && mask === null) throw new InputError('maskToRegion is set but the regions data set has no feature without "layers" to serve as the mask', [{ field: 'maskToRegion', problem: 'add a polygon without layers, or unset maskToRegion' }], 'invalid_request');

@@ -136,11 +136,11 @@ export async function loadRunRealizations(store: Store, runId: string, opts: { r
   if (request.regions !== undefined) {
     const ds = store.getDataset(request.regions);
     if (!ds) throw new InputError(`the regions data set "${request.regions}" of run ${runId} is no longer stored`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found');
-    const found = overrideRegions(parseFeatureCollection('regions', JSON.parse(ds.body)).collection.features as { geometry: unknown; properties?: Record<string, unknown> }[]);
+    const found = overrideRegions(parseFeatureCollection('regions', JSON.parse(ds.body)).collection.features);
     if (found.regions.length > 0) {
       zoneModels.push(...found.regions.map((r) => applyLayerOverride(base, r.override)));
       const crsDef = heatFlow.crs === 'EPSG:4326' ? WGS84_DEF : await loadCrsDefinition(heatFlow.crs);
-      const fromLonLat = crsDef === WGS84_DEF ? undefined : ((c) => (x: number, y: number) => c.forward([x, y]) as [number, number])(converter(WGS84_DEF, crsDef));
+      const fromLonLat = crsDef === WGS84_DEF ? undefined : ((c) => (x: number, y: number) => c.forward([x, y]))(converter(WGS84_DEF, crsDef));
       zones = rasterizeZones(heatFlow, found.regions.map((r) => (fromLonLat === undefined ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => fromLonLat(p[0], p[1]))))));
     }
   }

@@ -115,9 +115,9 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
     return z;
   };
   const base = zoneOf('model', q.model);
-  const zoneKey: string[] = new Array(n).fill('model');
+  const zoneKey: string[] = new Array<string>(n).fill('model');
   // Row-major, row 0 at the surface: value index = depthRow·samples + column.
-  const temperature: (number | null)[] = new Array(n * nz).fill(null);
+  const temperature: (number | null)[] = new Array<number | null>(n * nz).fill(null);
   const facies = new Int8Array(n * nz).fill(-1);
   const isoCurves = q.isothermsC.map(() => new Array<number | null>(n).fill(null));
   // Melt onset per column (km; null: not reached above the maximum depth): no temperature is given below it.

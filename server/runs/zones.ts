@@ -13,7 +13,7 @@ export type ModelAt = (lon: number, lat: number) => { key: string; model: Therma
 export function modelZones(base: ThermalModelInput, regionsBody: string | null): ModelAt {
   const baseZone = { key: 'model', model: base, region: null };
   if (regionsBody === null) return () => baseZone;
-  const { regions } = overrideRegions(parseFeatureCollection('regions', JSON.parse(regionsBody)).collection.features as { geometry: unknown; properties?: Record<string, unknown> }[]);
+  const { regions } = overrideRegions(parseFeatureCollection('regions', JSON.parse(regionsBody)).collection.features);
   const models = new Map<number, ThermalModelInput>();
   return (lon, lat) => {
     const k = overrideRegionAt(regions, lon, lat);

@@ -139,7 +139,7 @@ export function isolinesIndexLevels(values: ArrayLike<number>, width: number, he
     const v1 = values[cell + width];
     return [c + 0.5, r + 0.5 + (L - v0) / (v1 - v0)];
   };
-  const result: IndexLine[][] = new Array(nL);
+  const result: IndexLine[][] = new Array<IndexLine[]>(nL);
   for (let k = 0; k < sorted.length; k++) {
     const L = sorted[k];
     const s = segs[k];

@@ -1,5 +1,5 @@
-import { KrigingPredictor } from './kriging.ts';
-import { IdwPredictor } from './idw.ts';
+import type { KrigingPredictor } from './kriging.ts';
+import type { IdwPredictor } from './idw.ts';
 import { choleskyInPlace, choleskySolve, dot } from './linalg.ts';
 import { covariance, type VariogramModel } from './variogram.ts';
 

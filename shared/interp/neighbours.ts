@@ -45,7 +45,7 @@ export class NeighbourIndex {
     let worst = maxDistKm === Infinity ? Infinity : maxDistKm * maxDistKm;
     let count = 0;
     let si = this.stackI, sd = this.stackD;
-    let sp = 0;
+    let sp: number;
     si[0] = 0; si[1] = ids.length - 1; si[2] = 0; sd[0] = 0; sp = 1;
     while (sp > 0) {
       sp--;

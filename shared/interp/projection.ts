@@ -50,8 +50,8 @@ export interface Converter {
 export function converter(fromDef: string, toDef: string): Converter {
   const c = proj4(fromDef, toDef);
   return {
-    forward: (p) => c.forward(p) as [number, number],
-    inverse: (p) => c.inverse(p) as [number, number],
+    forward: (p) => c.forward<[number, number]>(p),
+    inverse: (p) => c.inverse<[number, number]>(p),
   };
 }
 
@@ -189,7 +189,7 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
     west = x0; north = y1; spanX = x1 - x0; spanY = y1 - y0;
     // Ground km per CRS unit at the grid's centre (the projection's scale there, e.g. cos φ in Web Mercator), so a
     // cell of cellKm is cellKm across on the ground at the centre.
-    const inv = (x: number, y: number): [number, number] => c.inverse([x, y]) as [number, number];
+    const inv = (x: number, y: number): [number, number] => c.inverse<[number, number]>([x, y]);
     const h = 0.5 * (spanX + spanY) * 1e-4;
     const g = groundStepKm(inv, (x0 + x1) / 2, (y0 + y1) / 2, h, h);
     kmPerUnitX = g.xKm / h;
@@ -222,7 +222,7 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
   // Ground cell size: exact at the centre by construction; its range over the grid's corners says where it varies.
   let groundCellKmRange: [number, number];
   if (groundRange !== null) {
-    groundCellKmRange = (groundRange as (a: number, b: number) => [number, number])(dx, dy);
+    groundCellKmRange = groundRange(dx, dy);
   } else {
     const kN = kmPerDegree(N), kS = kmPerDegree(S), kM = kmPerDegree(midLat);
     const xs = [kN.lon * dx, kS.lon * dx, kM.lon * dx], ys = [kN.lat * dy, kS.lat * dy, kM.lat * dy];

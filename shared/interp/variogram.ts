@@ -220,7 +220,7 @@ export function nelderMead(f: (p: number[]) => number, x0: number[], maxIter: nu
     vals = order.map((i) => vals[i]);
     for (let i = 0; i <= n; i++) pts[i] = sp[i];
     if (Math.abs(vals[n] - vals[0]) <= 1e-12 * (Math.abs(vals[0]) + 1e-300)) break;
-    const c = new Array(n).fill(0);
+    const c = new Array<number>(n).fill(0);
     for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) c[j] += pts[i][j] / n;
     const at = (t: number) => c.map((cj, j) => cj + t * (pts[n][j] - cj));
     const xr = at(-1), fr = f(xr);

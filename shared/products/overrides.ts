@@ -51,7 +51,7 @@ export function applyLayerOverride(base: ThermalModelInput, o: LayerOverride): T
   if (o.mode === 'replace') {
     layers = o.layers.map((l) => stripNulls({ ...l }));
   } else {
-    layers = base.layers.map((l) => ({ ...l }) as Record<string, unknown>);
+    layers = base.layers.map((l) => ({ ...l }));
     const problems: InputProblem[] = [];
     o.layers.forEach((ol, i) => {
       const name = ol.name;
@@ -116,7 +116,7 @@ export function overrideRegions(features: { geometry: unknown; properties?: Reco
   const regions: OverrideRegion[] = [];
   const plain: Rings[] = [];
   features.forEach((f, i) => {
-    const props = (f.properties ?? {}) as Record<string, unknown>;
+    const props = (f.properties ?? {});
     const label = `regions[${i}]${props.id !== undefined ? ` (${String(props.id)})` : ''}`;
     const o = overrideFromProperties(props, label);
     const rings = ringsOfGeometry(f.geometry as { type: string; coordinates: unknown });

@@ -20,7 +20,8 @@
  * is counted and the caller is told.
  */
 import type { CompiledModel } from '../thermal/compile.ts';
-import { COLUMN_BAD_INPUT, ColumnState, columnIsothermDepth, layerAt, layerTemperature, solveColumn } from '../thermal/column.ts';
+import type { ColumnState} from '../thermal/column.ts';
+import { COLUMN_BAD_INPUT, columnIsothermDepth, layerAt, layerTemperature, solveColumn } from '../thermal/column.ts';
 import { gaussLegendre, type GaussLegendreRule } from './gauss-legendre.ts';
 
 /** Depth window and temperature limits of the assessment. */

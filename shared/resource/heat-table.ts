@@ -11,8 +11,10 @@
  * interpolation error is O(h⁴) of a smooth function (the tests bound it against direct evaluation).
  */
 import type { CompiledModel } from '../thermal/compile.ts';
-import { ColumnState, columnHeatFlow, columnTemperature, solveColumn } from '../thermal/column.ts';
-import { ColumnHeatScratch, columnHeat, emptyColumnHeat, type HeatWindow } from './column-heat.ts';
+import type { ColumnState} from '../thermal/column.ts';
+import { columnHeatFlow, columnTemperature, solveColumn } from '../thermal/column.ts';
+import type { ColumnHeatScratch} from './column-heat.ts';
+import { columnHeat, emptyColumnHeat, type HeatWindow } from './column-heat.ts';
 
 export interface HeatTable {
   /** Covered heat-flow range, mW/m². */

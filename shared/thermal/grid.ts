@@ -72,8 +72,8 @@ export function geothermGrid(models: CompiledModel | CompiledModel[], heatFlowMW
   if (zones === undefined && list.length > 1) throw new RangeError('several models need a zones array');
   const states = list.map((m) => new ColumnState(m.nLayers));
   const t0s = options.surfaceTemperatureC;
-  const isos = Float64Array.from(query.isothermsC as ArrayLike<number>);
-  const deps = Float64Array.from(query.depthsKm as ArrayLike<number>);
+  const isos = Float64Array.from(query.isothermsC);
+  const deps = Float64Array.from(query.depthsKm);
   const status = out.status, basal = out.basalHeatFlowMWm2, melt = out.meltOnsetKm, wet = out.wetSolidusKm;
   // Layer temperatures are needed only down to the hottest isotherm and the deepest depth asked for (all of them
   // when the melt-onset depth is asked for).

@@ -19,7 +19,8 @@ import { ROCK_SOLIDUS, type SolidusCurve } from '../petrology/solidus.ts';
 import { ROCK_KINDS, type RockKind } from '../schema/model.ts';
 import { adiabatDepthKm, adiabatTemperatureC } from './adiabat.ts';
 import type { CompiledModel } from './compile.ts';
-import { COLUMN_BAD_INPUT, ColumnState, columnIsothermDepth, columnTemperature, layerAt } from './column.ts';
+import type { ColumnState} from './column.ts';
+import { COLUMN_BAD_INPUT, columnIsothermDepth, columnTemperature, layerAt } from './column.ts';
 import { lithostaticPressureMPa } from './pressure.ts';
 
 export interface ColumnLimits {

@@ -5,7 +5,8 @@
  */
 import { dryPeridotiteSolidusC, wetGraniteSolidusC } from '../petrology/solidus.ts';
 import type { CompiledModel } from './compile.ts';
-import { ColumnState, columnTemperature } from './column.ts';
+import type { ColumnState} from './column.ts';
+import { columnTemperature } from './column.ts';
 import { lithostaticPressureMPa } from './pressure.ts';
 
 /** Solidus temperature (°C) at lithostatic pressure (MPa). */

@@ -370,7 +370,7 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
     return { ...base, status: 'no-heat-flow', reason, gradient, conductivity, bullard: bullardOut, plot, modelCheck: check, row: rowOf('no-heat-flow', undefined, conductivity, check) };
   }
   const outliers = points.some((p) => p.flags.includes('outlier') || p.flags.includes('outlier-excluded'));
-  const qual = heatFlowQuality({ methods: methods as CorrectedPoint['method'][], nPoints: grad.nPoints, conductivitySource: source, conductivityCoverage: hm.coverage, relativeUncertainty: sq / q, outliers });
+  const qual = heatFlowQuality({ methods: methods, nPoints: grad.nPoints, conductivitySource: source, conductivityCoverage: hm.coverage, relativeUncertainty: sq / q, outliers });
   // Surface heat flow: the interval value is q at the fit's effective depth; add the heat produced above it
   // (q0 = q(z) + ∫₀^z A dz).
   const zMidM = effectiveDepthM(points, grad.anchored ? grad.anchorSdC : undefined, (top + bottom) / 2);

@@ -59,7 +59,7 @@ export function bullardFit(
   if (anchored) {
     const a = points.length;
     x[a] = 0;
-    y[a] = ts as number;
+    y[a] = ts;
     sd[a] = opts.anchorSdC ?? DEFAULT_ANCHOR_SD_C;
     include[a] = 1;
   }

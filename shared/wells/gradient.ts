@@ -74,7 +74,7 @@ export function fitGradient(points: CorrectedPoint[], opts: GradientOptions = {}
   const a = points.length;
   if (anchored) {
     x[a] = 0;
-    y[a] = ts as number;
+    y[a] = ts;
     sd[a] = anchorSd;
     include[a] = 1;
   }
@@ -131,7 +131,7 @@ export function fitGradient(points: CorrectedPoint[], opts: GradientOptions = {}
     interceptC: fit.intercept,
     seInterceptC: fit.seIntercept,
     anchored,
-    anchorTemperatureC: anchored ? (ts as number) : undefined,
+    anchorTemperatureC: anchored ? (ts) : undefined,
     anchorSdC: anchored ? anchorSd : undefined,
     nPoints,
     dof: fit.dof,

@@ -40,7 +40,7 @@ async function waitDone(a: typeof app, id: string, timeoutMs = 30_000): Promise<
   for (;;) {
     const r = (await (await a.request(`/api/runs/${id}`)).json()) as Record<string, unknown>;
     if (['done', 'failed', 'cancelled'].includes(r.status as string)) return r;
-    if (Date.now() - t0 > timeoutMs) throw new Error(`run ${id} still ${r.status}`);
+    if (Date.now() - t0 > timeoutMs) throw new Error(`run ${id} still ${String(r.status)}`);
     await new Promise((res) => setTimeout(res, 25));
   }
 }

@@ -8,7 +8,7 @@ import { readGeoTiff } from '../../server/io/geotiff.ts';
 let t: TestApp;
 let runId: string;
 
-const tif = async (url: string) => (await readGeoTiff((await (await t.app.request(url)).arrayBuffer()) as ArrayBuffer)).grid.values;
+const tif = async (url: string) => (await readGeoTiff((await (await t.app.request(url)).arrayBuffer()))).grid.values;
 
 beforeAll(async () => {
   t = startTestApp('uncertainty');

@@ -125,8 +125,8 @@ describe('the map client: sharing and export', () => {
   it('exports the map as a PNG with the legend line and the caution drawn beneath it', async () => {
     const [dl] = await Promise.all([page.waitForEvent('download'), page.locator('#export-png').click()]);
     const path = await dl.path();
-    const png = readFileSync(path!);
-    copyFileSync(path!, join(SCREENSHOT_DIR, 'client-share-4-exported-map.png'));
+    const png = readFileSync(path);
+    copyFileSync(path, join(SCREENSHOT_DIR, 'client-share-4-exported-map.png'));
     expect(png.subarray(1, 4).toString('latin1')).toBe('PNG');
     const width = png.readUInt32BE(16), height = png.readUInt32BE(20);
     const canvas = await page.evaluate(() => ({ w: window.subtherm!.map.getCanvas().width, h: window.subtherm!.map.getCanvas().height }));

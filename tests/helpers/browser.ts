@@ -48,7 +48,7 @@ export async function startServerProcess(opts: { dbPath?: string; env?: Record<s
   let log = '';
   const port = await new Promise<number>((resolve, reject) => {
     const timer = setTimeout(() => reject(new Error(`server did not start in 120 s:\n${log}`)), 120_000);
-    child.stdout!.on('data', (d: Buffer) => {
+    child.stdout.on('data', (d: Buffer) => {
       log += d.toString();
       const m = /listening on http:\/\/localhost:(\d+)/.exec(log);
       if (m) {
@@ -56,7 +56,7 @@ export async function startServerProcess(opts: { dbPath?: string; env?: Record<s
         resolve(Number(m[1]));
       }
     });
-    child.stderr!.on('data', (d: Buffer) => (log += d.toString()));
+    child.stderr.on('data', (d: Buffer) => (log += d.toString()));
     child.on('exit', (code) => {
       clearTimeout(timer);
       reject(new Error(`server exited with code ${code}:\n${log}`));

@@ -38,7 +38,7 @@ describe('ground cell areas on projected grids', () => {
       const side = def === MERC ? 2500 : 2000; // a few km on the ground
       const grid = { width: 3, height: 2, west: x, north: y, dx: side, dy: side };
       const conv = proj4(def, WGS84);
-      const inv = (a: number, b: number) => conv.forward([a, b]) as [number, number];
+      const inv = (a: number, b: number) => conv.forward<[number, number]>([a, b]);
       const areas = projectedCellAreasM2(grid, inv);
       for (let r = 0; r < 2; r++) for (let k = 0; k < 3; k++) {
         const x0 = x + k * side, y1 = y - r * side;
@@ -69,7 +69,7 @@ describe('heat in place on the same region in three CRSs (1 km cells)', () => {
     const spec = buildOutputGrid([], [], { bbox, cellKm: 1, crs, crsDef: def });
     const lonLat = crs === 'EPSG:4326';
     const conv = proj4(def, WGS84);
-    const inv = (x: number, y: number) => conv.forward([x, y]) as [number, number];
+    const inv = (x: number, y: number) => conv.forward<[number, number]>([x, y]);
     const centres = lonLat ? null : gridCentresLonLat(spec, inv);
     const values = new Float32Array(spec.width * spec.height);
     for (let r = 0; r < spec.height; r++) for (let c = 0; c < spec.width; c++) {

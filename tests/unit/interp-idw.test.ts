@@ -26,7 +26,7 @@ describe('IDW agrees with @turf/interpolate (all points) on the same points and 
       const idw = new IdwPredictor(x, y, z, { power, neighbors: Infinity });
       let compared = 0;
       for (const f of ref.features) {
-        const [qlon, qlat] = f.geometry.coordinates as number[];
+        const [qlon, qlat] = f.geometry.coordinates;
         const qx = (R * qlon * Math.PI) / 180, qy = (R * qlat * Math.PI) / 180;
         let dmin = Infinity;
         for (let i = 0; i < n; i++) dmin = Math.min(dmin, Math.hypot(x[i] - qx, y[i] - qy));

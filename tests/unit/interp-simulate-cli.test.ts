@@ -6,7 +6,7 @@ import { main } from '../../server/cli/main.ts';
 import { readGeoTiff } from '../../server/io/geotiff.ts';
 
 let dir = '';
-const bytes = (p: string) => { const b = readFileSync(p); return b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer; };
+const bytes = (p: string) => { const b = readFileSync(p); return b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength); };
 const file = (name: string, body: unknown) => { const p = join(dir, name); writeFileSync(p, JSON.stringify(body)); return p; };
 const pt = (id: string, lon: number, lat: number, props: Record<string, unknown> = {}) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [lon, lat] }, properties: { id, ...props } });
 

@@ -93,7 +93,7 @@ describe('contours of analytic fields', () => {
     const f = (x: number, y: number) => 1.234 + (x - spec.west) / 4000 + (spec.north - y) / 9000;
     const g = fieldGrid(50, 40, spec, f);
     const inv = proj4(def, 'WGS84');
-    const fc = contourGrid(g, { interval: 1, toLonLat: (x, y) => inv.forward([x, y]) as [number, number] });
+    const fc = contourGrid(g, { interval: 1, toLonLat: (x, y) => inv.forward<[number, number]>([x, y]) });
     expect(fc.features.length).toBeGreaterThan(5);
     for (const feat of fc.features) {
       for (const [lon, lat] of feat.geometry.coordinates) {

@@ -118,7 +118,7 @@ describe('the run pipeline on the demo data', () => {
     check(gj);
     expect(JSON.parse(gj).caution).toBe(CAUTION);
     check(new TextDecoder().decode(byName['cv-residuals'].files[0].bytes));
-    const tif = await readGeoTiff(byName['depth-300C'].files[0].bytes.slice().buffer as ArrayBuffer);
+    const tif = await readGeoTiff(byName['depth-300C'].files[0].bytes.slice().buffer);
     expect(tif.caution).toBe(CAUTION);
     expect((tif.metadata.provenance as { contentHash: string }).contentHash).toMatch(/^[0-9a-f]{64}$/);
     // The serialized heat-flow grid and the validated model (its descriptive "name" kept).

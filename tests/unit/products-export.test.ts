@@ -197,7 +197,7 @@ describe('the isotherms verb', () => {
     for (const f of ['depth-300C.tif', 'depth-300C.contours.geojson', 'temperature-5km.tif', 'temperature-5km.contours.geojson', 'facies-5km.tif', 'base-heat-flow.tif', 'solidus-depth.tif', 'melt-onset.tif', 'inconsistent.tif', 'depth-300C.p10.tif', 'depth-300C.p50.tif', 'depth-300C.p90.tif', 'summary.json']) {
       expect(existsSync(join(outDir, f))).toBe(true);
     }
-    const flag = await readGeoTiff(readFileSync(join(outDir, 'inconsistent.tif')).buffer as ArrayBuffer);
+    const flag = await readGeoTiff(readFileSync(join(outDir, 'inconsistent.tif')).buffer);
     expect(flag.grid.values[31]).toBe(1);
     expect(flag.caution).toBe(CAUTION);
     const d = s.products['depth-300C'];

@@ -111,7 +111,7 @@ describe('heat-in-place job routes', () => {
     const now = new Date().toISOString();
     t.store.putRun({ id: 'run_hip', cacheKey: 'hip', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model, grids: [], client: 'test', createdAt: now, updatedAt: now });
     const meta = (g: Grid) => ({ width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: 'mW/m²' });
-    t.store.storeRunResult('run_hip', { files: [], grids: [{ name: 'heatFlow', meta: meta(hf), values: hf.values as Float32Array }, { name: 'heatFlowSd', meta: meta(sd), values: sd.values as Float32Array }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
+    t.store.storeRunResult('run_hip', { files: [], grids: [{ name: 'heatFlow', meta: meta(hf), values: hf.values }, { name: 'heatFlowSd', meta: meta(sd), values: sd.values }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
   });
   afterAll(async () => await t?.close());
   const waitJob = async (url: string): Promise<Response> => {

@@ -12,7 +12,7 @@ const MODEL: ThermalModel = {
     { name: 'lower', bottomKm: 36, conductivityWmK: 2.6, conductivityTempCoeffPerK: 1e-4, heatProductionUWm3: 1.5, densityKgM3: 2900 },
     { name: 'mantle', bottomKm: 60, conductivityWmK: 3.3, conductivityTempCoeffPerK: 2e-4, heatProductionUWm3: 0.02, densityKgM3: 3300 },
   ],
-} as ThermalModel;
+};
 
 describe('lazy column solve (temperatures only as deep as the query needs)', () => {
   it('gives the same isotherm depths, temperatures and status as the full solve', () => {

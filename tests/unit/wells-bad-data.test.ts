@@ -129,7 +129,7 @@ describe('derived sites and CSV input', () => {
     attachIntervals(wells, intervals);
     const a = analyzeWells(wells, { surfaceTemperatureC: 12, lithologyConductivity: { Granite: 3.0 } });
     const [r1, r2] = a.reports;
-    // CS-1: the three BHTs are the Horner worked example (SOURCES.md, T∞ = 105.00 °C) each 17.83 °C cooler, so
+    // CS-1: the three BHTs are the Horner worked example (docs/sources.md#horner-bht, T∞ = 105.00 °C) each 17.83 °C cooler, so
     // the intercept moves by the same constant: T∞ = 87.17 °C.
     expect(r1.horner[0].temperatureC).toBeCloseTo(105.0 - 17.83, 2);
     expect(r1.conductivity!.source).toBe('lithology');
@@ -140,14 +140,14 @@ describe('derived sites and CSV input', () => {
     const sites = parseFeatureCollection('sites', a.sites);
     expect(sites.collection.features.map((f) => f.properties.id)).toEqual(['CS-1', 'CS-2']);
     for (const f of sites.collection.features) {
-      const p = f.properties as Record<string, unknown>;
+      const p = f.properties;
       expect(p.sourceWellId).toBe(p.id);
       expect(p.heatFlowMWm2 as number).toBeGreaterThan(0);
       expect(['high', 'medium', 'low']).toContain(p.quality);
       expect(typeof p.gradientCPerKm).toBe('number');
       expect(typeof p.conductivityWmK).toBe('number');
     }
-    expect((sites.collection.features[0].properties as Record<string, unknown>).elevationM).toBe(120);
+    expect((sites.collection.features[0].properties).elevationM).toBe(120);
   });
 });
 

@@ -29,7 +29,7 @@ describe('thermal resistance and harmonic mean', () => {
   it('sums Δz/k in m²K/W', () => {
     const r = thermalResistance(COLUMN, 0, [0, 500, 1000, 2000, 2400]);
     // 500/2 = 250; + 500/3; 250 + 700/3 + 800/1.5; + 400/2.5.
-    expect(Array.from(r)).toEqual([0, 250, 250 + 500 / 3, 250 + 700 / 3 + 800 / 1.5, 250 + 700 / 3 + 800 / 1.5 + 160].map((v) => expect.closeTo(v, 9)) as unknown as number[]);
+    expect(Array.from(r)).toEqual([0, 250, 250 + 500 / 3, 250 + 700 / 3 + 800 / 1.5, 250 + 700 / 3 + 800 / 1.5 + 160].map((v) => expect.closeTo(v, 9)));
   });
 
   it('gives NaN below the column, above its origin and past a gap', () => {

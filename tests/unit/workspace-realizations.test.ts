@@ -7,7 +7,7 @@ import { exceedanceProbability, isothermSpreadKm } from '../../server/runs/uncer
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
 
 const MU = 60, SIGMA = 6, K = 2.5;
-const MODEL: ThermalModelInput = { surfaceTemperatureC: 0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K, heatProductionUWm3: 0, densityKgM3: 2700 }] } as ThermalModelInput;
+const MODEL: ThermalModelInput = { surfaceTemperatureC: 0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K, heatProductionUWm3: 0, densityKgM3: 2700 }] };
 // Upper tail of the standard normal at 1: 1 − Φ(1) = 0.158655 (Abramowitz & Stegun 1964, Table 26.1).
 const TAIL_1 = 0.158655;
 // Its 90th percentile: z₀.₉ = 1.281552 (Abramowitz & Stegun 1964, Table 26.5).
