@@ -1,6 +1,6 @@
 /**
- * The heat-in-place request contract (validated at the boundary: CLI and HTTP). Every option has the default of
- * SOURCES.md "Heat in place": 3–7 km, Tmin 150 °C, Tref 15 °C, ρC 2.7 MJ/m³/K, Rg 0.1, ηu 0.4, 30 years.
+ * The heat-in-place request contract (validated at the boundary: CLI and HTTP). Defaults: 3–7 km and Tmin 150 °C
+ * (project choices); Tref 15 °C, ρC 2.7 MJ/m³/K, Rg 0.1, ηu 0.4, 30 years (typical values, docs/sources.md#heat-in-place).
  * ρC, the recovery factor and the efficiencies may be numbers or distributions (the thermal model's syntax).
  */
 import { z } from 'zod';

@@ -7,7 +7,7 @@ import { crossValidateKriging, dubrule } from '../../shared/interp/crossValidati
 import { prng } from '../helpers/prng.ts';
 
 // Isaaks & Srivastava (1989), An Introduction to Applied Geostatistics, ch. 12: seven samples (x, y, value),
-// target (65, 137), covariance C(h) = 10·e^(−0.3h) [checked, ../shared/SOURCES.md].
+// target (65, 137), covariance C(h) = 10·e^(−0.3h) [checked, docs/sources.md#kriging-worked-example].
 // In the practical-range convention C(h) = c·e^(−3h/a): c = 10, a = 10.
 const IS = [[61, 139, 477], [63, 140, 696], [64, 129, 227], [68, 128, 646], [71, 140, 606], [73, 141, 791], [75, 128, 783]];
 const isX = Float64Array.from(IS, (p) => p[0]);
@@ -68,7 +68,7 @@ describe('ordinary kriging: Isaaks & Srivastava (1989) ch. 12 seven-sample examp
   });
 
   it('IDW with p = 1 on the same data gives 593.95', () => {
-    // [derived] from Shepard (1968) û = Σ d⁻¹u / Σ d⁻¹, listed in ../shared/SOURCES.md: 593.95
+    // [derived] from Shepard (1968) û = Σ d⁻¹u / Σ d⁻¹, listed in docs/sources.md#idw: 593.95
     const idw = new IdwPredictor(isX, isY, isZ, { power: 1, neighbors: Infinity });
     expect(idw.predict(65, 137)).toBeCloseTo(593.95, 2);
   });

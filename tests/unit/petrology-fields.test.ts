@@ -15,7 +15,7 @@ import {
 } from '../../shared/petrology/index.ts';
 import { compileModel, solveModelColumn, solidusCrossings, temperatureAtDepth, lithostaticPressureMPa } from '../../shared/thermal/index.ts';
 
-describe('index-mineral zones (Barrovian order, SOURCES.md [checked order])', () => {
+describe('index-mineral zones (Barrovian order, docs/sources.md#barrovian-zones [checked order])', () => {
   it('orders chlorite < biotite < garnet < staurolite < kyanite < sillimanite', () => {
     expect(INDEX_MINERAL_ZONES.map((z) => z.name)).toEqual(['chlorite', 'biotite', 'garnet', 'staurolite', 'kyanite', 'sillimanite']);
     expect(zoneRank('Garnet zone')).toBe(2);
@@ -33,7 +33,7 @@ describe('index-mineral zones (Barrovian order, SOURCES.md [checked order])', ()
   });
 });
 
-describe('facies (project drawing; test points well inside fields, SOURCES.md: boundaries ±50 °C, ±1–2 kbar)', () => {
+describe('facies (project drawing; test points well inside fields, docs/sources.md#metamorphic-facies: boundaries ±50 °C, ±1–2 kbar)', () => {
   // Points deep inside each field on textbook diagrams (common practice: e.g. Spear 1993, Yardley 1989).
   const inside: [number, number, string][] = [
     [100, 1, 'zeolite'],
@@ -90,7 +90,7 @@ describe('aluminosilicates (Holdaway 1971 triple point 501 °C, 3.76 kbar [check
 });
 
 describe('solidus curves', () => {
-  it('dry peridotite, Hirschmann (2000): 0, 1, 3 GPa → 1120.66, 1248.46, 1473.42 °C (SOURCES.md [derived])', () => {
+  it('dry peridotite, Hirschmann (2000): 0, 1, 3 GPa → 1120.66, 1248.46, 1473.42 °C (docs/sources.md#solidus-peridotite-dry [derived])', () => {
     const f = (p: number) => -5.104 * p * p + 132.899 * p + 1120.661;
     for (const [p, t] of [[0, 1120.66], [1, 1248.46], [3, 1473.42]]) {
       expect(dryPeridotiteSolidusC(p)).toBeCloseTo(f(p), 10);
@@ -120,7 +120,7 @@ describe('solidus curves', () => {
 });
 
 describe('peak P–T to depth', () => {
-  it('z = P/(ρg): 2.649 kbar at 2700 kg/m³ is 10 km (SOURCES.md lithostatic check, inverted)', () => {
+  it('z = P/(ρg): 2.649 kbar at 2700 kg/m³ is 10 km (docs/sources.md#pressure-lithostatic lithostatic check, inverted)', () => {
     expect(depthFromPressureKbar(2.6487, 2700, 9.81)).toBeCloseTo(10, 3);
   });
   it('apparent gradient (T − T0)/z: 25 °C/km with T0 = 15 °C puts 300 °C at 11.4 km (common practice)', () => {

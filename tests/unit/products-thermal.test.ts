@@ -167,7 +167,7 @@ describe('thermal grids equal the single-column engine cell by cell', () => {
 
   it('reproduces the Turcotte & Schubert worked case in a grid cell', () => {
     // Turcotte & Schubert (2002) §4-8, T0 = 10 °C, q0 = 60 mW/m², A0 = 2.5 µW/m³, hr = 10 km, k = 2.5 W/m/K:
-    // depth to 300 °C = 15.1426 km, T(10 km) = 213.212 °C (SOURCES.md [derived]).
+    // depth to 300 °C = 15.1426 km, T(10 km) = 213.212 °C (docs/sources.md#geotherm-exponential [derived]).
     const ts = compileModel({ surfaceTemperatureC: 10, layers: [{ bottomKm: 60, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 }] }, { maxDepthKm: 60 });
     const g = heatFlowGrid(2, 1, () => 60);
     const o = computeThermalGrids({ heatFlow: g, models: [ts], isothermsC: [300], depthsKm: [10], maxDepthKm: 60, solidus: false });

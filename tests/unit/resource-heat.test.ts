@@ -20,7 +20,7 @@ import { parseThermalModel } from '../../shared/schema/model.ts';
 
 const demo = parseThermalModel(JSON.parse(readFileSync(new URL('../../fixtures/demo/model.json', import.meta.url), 'utf8')));
 
-describe('worked example of the volumetric method (SOURCES.md, derived from Williams, Reed & Mariner 2008)', () => {
+describe('worked example of the volumetric method (docs/sources.md#heat-in-place, derived from Williams, Reed & Mariner 2008)', () => {
   // V = 1 km³, TR = 200 °C, T0 = 15 °C, ρC = 2.7 MJ/m³/K (Muffler & Cataldi 1978 qR = ρC·V·(TR − T0)).
   const qR = heatInPlaceJ(1e9, 200, 15, 2.7);
   it('heat in place qR = 4.995e17 J', () => {

@@ -4,9 +4,9 @@ import { peakGrade, sampleGrades, zoneNameProblem } from '../../shared/structure
 import { parseFeatureCollection } from '../../shared/schema/features.ts';
 import { InputError } from '../../shared/errors.ts';
 
-// Points read off the aluminosilicate diagram: triple point Holdaway (1971) 501 °C, 3.76 kbar [checked, SOURCES.md];
+// Points read off the aluminosilicate diagram: triple point Holdaway (1971) 501 °C, 3.76 kbar [checked, docs/sources.md#aluminosilicate-triple-point];
 // Pattison (1992) about 550 °C, 4.5 kbar [from memory]; reaction-line slopes Ky=And +12, And=Sil −15, Ky=Sil
-// +19.6 bar/°C [from memory, SOURCES.md]. Every point is at least 50 °C or 1 kbar from every line of both calibrations,
+// +19.6 bar/°C [from memory, docs/sources.md#aluminosilicate-triple-point]. Every point is at least 50 °C or 1 kbar from every line of both calibrations,
 // and each line has a point on each side.
 const POINTS: { t: number; p: number; polymorph: 'kyanite' | 'andalusite' | 'sillimanite'; line: string }[] = [
   { t: 450, p: 6, polymorph: 'kyanite', line: 'Ky=And high side' },

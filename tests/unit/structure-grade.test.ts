@@ -62,7 +62,7 @@ describe('grade of a sample', () => {
 });
 
 describe('paleo-gradients', () => {
-  it('depth from peak pressure follows P = ρ g z (SOURCES: ρ = 2700, g = 9.81, 10 km → 264.87 MPa)', () => {
+  it('depth from peak pressure follows P = ρ g z (docs/sources.md#pressure-lithostatic: ρ = 2700, g = 9.81, 10 km → 264.87 MPa)', () => {
     // [derived] 264.87 MPa = 2.6487 kbar; P = ρ·g·z, so z = P/(ρ g) = 10 km.
     const [p] = paleoGradients([{ id: 's', peakTemperatureC: 260, peakPressureKbar: 2.6487 }]);
     expect(p.depthKm).toBeCloseTo(10, 3);
@@ -73,7 +73,7 @@ describe('paleo-gradients', () => {
   });
 
   it('with a thermal model: depth where today\'s geotherm reaches the peak temperature (Turcotte & Schubert 2002 §4-8)', () => {
-    // [derived, SOURCES] T0 = 10, q0 = 60, A0 = 2.5, hr = 10 km, k = 2.5 → depth to 300 °C = 15.1426 km.
+    // [derived, docs/sources.md#geotherm-exponential] T0 = 10, q0 = 60, A0 = 2.5, hr = 10 km, k = 2.5 → depth to 300 °C = 15.1426 km.
     const cm = compileModel({ surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ bottomKm: 80, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 }] }, { maxDepthKm: 80 });
     const [p] = paleoGradients([{ id: 's', peakTemperatureC: 300, peakPressureKbar: 2.6487 }], { model: cm });
     expect(p.todayDepthKm).toBeCloseTo(15.1426, 3);

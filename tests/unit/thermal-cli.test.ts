@@ -15,7 +15,7 @@ function run(model: unknown, args: string[]) {
   return { code: r.status, out: r.stdout, err: r.stderr };
 }
 
-// Turcotte & Schubert (2002) §4-8 worked case of SOURCES.md: T0 10, q0 60, A0 2.5, hr 10, k 2.5.
+// Turcotte & Schubert (2002) §4-8 worked case of docs/sources.md#geotherm-exponential: T0 10, q0 60, A0 2.5, hr 10, k 2.5.
 const GOOD = { surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ name: 'crust', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700, heatProducingUpperCrust: true }] };
 
 describe('subtherm geotherm', () => {
@@ -23,7 +23,7 @@ describe('subtherm geotherm', () => {
     const r = run(GOOD, ['--isotherms', '150,300', '--depths-km', '5,35', '--max-depth-km', '40', '--step-km', '1', '--json']);
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
-    // 6.5627 km and 119.347 / 596.980 °C: SOURCES.md [derived] from Turcotte & Schubert (2002) §4-8.
+    // 6.5627 km and 119.347 / 596.980 °C: docs/sources.md#geotherm-exponential [derived] from Turcotte & Schubert (2002) §4-8.
     expect(j.isothermDepthsKm['150']).toBeCloseTo(6.5627, 4);
     expect(j.temperatureAtDepthsC['5']).toBeCloseTo(119.347, 3);
     expect(j.temperatureAtDepthsC['35']).toBeCloseTo(596.98, 3);
@@ -96,7 +96,7 @@ describe('subtherm geotherm', () => {
     expect(j.warnings.some((w: string) => w.startsWith('melt onset at'))).toBe(true);
   });
 
-  it('gives lithostatic, pore and effective pressure (SOURCES.md example after Hubbert & Rubey 1959)', () => {
+  it('gives lithostatic, pore and effective pressure (docs/sources.md#pore-fluid-factor example after Hubbert & Rubey 1959)', () => {
     // 3 km, ρ 2500, g 9.81: Plith 73.575 MPa; hydrostatic fresh water 29.43 MPa; λ 0.400; effective 44.145 MPa.
     const m = { surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ bottomKm: 10, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2500 }] };
     const j = JSON.parse(run(m, ['--step-km', '1', '--max-depth-km', '10', '--fluid-density-kg-m3', '1000', '--json']).out);

@@ -37,8 +37,8 @@ describe('exponential heat production (Turcotte & Schubert 2002, §4-8)', () => 
   const published = (z: number) => T0 + (qm * z) / k + ((A0 * hr * hr) / k) * (1 - Math.exp(-z / hr));
   const cm = compileModel(one({ conductivityWmK: k, heatProductionUWm3: A0, heatProductionDecayKm: hr, heatProducingUpperCrust: true }, q0, T0));
 
-  it('matches the closed form and the SOURCES.md check values', () => {
-    // Check values [derived] in SOURCES.md from the formula above: 119.347, 213.212, 376.466, 596.980 °C.
+  it('matches the closed form and the docs/sources.md#geotherm-exponential check values', () => {
+    // Check values [derived] in docs/sources.md#geotherm-exponential from the formula above: 119.347, 213.212, 376.466, 596.980 °C.
     const check: [number, number][] = [[5, 119.347], [10, 213.212], [20, 376.466], [35, 596.98]];
     for (const [z, t] of check) {
       expect(temperatureAtDepth(cm, z)).toBeCloseTo(published(z), 9);
@@ -47,7 +47,7 @@ describe('exponential heat production (Turcotte & Schubert 2002, §4-8)', () => 
   });
 
   it('finds isotherm depths to better than 1 m', () => {
-    // Depth to 150 / 300 / 500 °C = 6.5627 / 15.1426 / 28.2795 km (SOURCES.md [derived], same formula).
+    // Depth to 150 / 300 / 500 °C = 6.5627 / 15.1426 / 28.2795 km (docs/sources.md#geotherm-exponential [derived], same formula).
     const check: [number, number][] = [[150, 6.5627], [300, 15.1426], [500, 28.2795]];
     for (const [t, z] of check) {
       const d = isothermDepth(cm, t)!;
@@ -91,7 +91,7 @@ describe('constant heat production (Turcotte & Schubert 2002, §4-6)', () => {
   // T = T0 + q0·z/k − A·z²/(2k); z_iso = [q0 − √(q0² − 2Ak(T − T0))]/A.
   const T0 = 10, q0 = 60, A = 1, k = 2.5;
   const cm = compileModel(one({ heatProductionUWm3: A, conductivityWmK: k }, q0, T0));
-  it('matches T(10, 20, 35) = 230, 410, 605 °C (SOURCES.md [derived])', () => {
+  it('matches T(10, 20, 35) = 230, 410, 605 °C (docs/sources.md#geotherm-constant [derived])', () => {
     const check: [number, number][] = [[10, 230], [20, 410], [35, 605]];
     for (const [z, t] of check) expect(temperatureAtDepth(cm, z)).toBeCloseTo(t, 9);
   });
@@ -114,7 +114,7 @@ describe('temperature-dependent conductivity, Kirchhoff transform (Chapman 1986 
     return ((1 + b * T0) * Math.exp(b * theta) - 1) / b;
   };
   const cm = compileModel(one({ heatProductionUWm3: A, conductivityWmK: k0, conductivityTempCoeffPerK: b }, q0, T0));
-  it('matches T(10, 20, 35) = 224.186, 448.968, 756.911 °C (SOURCES.md [derived])', () => {
+  it('matches T(10, 20, 35) = 224.186, 448.968, 756.911 °C (docs/sources.md#conductivity-temperature [derived])', () => {
     const check: [number, number][] = [[10, 224.186], [20, 448.968], [35, 756.911]];
     for (const [z, t] of check) {
       expect(temperatureAtDepth(cm, z)).toBeCloseTo(published(z), 9);

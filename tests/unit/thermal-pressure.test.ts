@@ -15,7 +15,7 @@ import {
 const uniform = (rho: number) => compileModel({ surfaceTemperatureC: 10, layers: [{ bottomKm: 40, conductivityWmK: 3, heatProductionUWm3: 1, densityKgM3: rho }] });
 
 describe('lithostatic pressure P = ∫ρ g dz', () => {
-  it('ρ = 2700, 10 km, g = 9.81 → 264.87 MPa = 2.649 kbar (SOURCES.md [derived], P = ρgh)', () => {
+  it('ρ = 2700, 10 km, g = 9.81 → 264.87 MPa = 2.649 kbar (docs/sources.md#pressure-lithostatic [derived], P = ρgh)', () => {
     expect(lithostaticPressureMPa(uniform(2700), 10)).toBeCloseTo(2700 * 9.81 * 10000 / 1e6, 9);
     expect(lithostaticPressureMPa(uniform(2700), 10)).toBeCloseTo(264.87, 6);
     expect(kbarFromMPa(lithostaticPressureMPa(uniform(2700), 10))).toBeCloseTo(2.649, 3);
@@ -38,13 +38,13 @@ describe('lithostatic pressure P = ∫ρ g dz', () => {
 });
 
 describe('hydrostatic pressure, pore-fluid factor and effective pressure (Hubbert & Rubey 1959)', () => {
-  it('fresh water, g = 9.80665: 9.807 kPa/m = 0.4335 psi/ft (SOURCES.md [derived])', () => {
+  it('fresh water, g = 9.80665: 9.807 kPa/m = 0.4335 psi/ft (docs/sources.md#pressure-hydrostatic [derived])', () => {
     const kPaPerM = hydrostaticPressureMPa(1, { gravityMS2: STANDARD_GRAVITY_MS2 }); // MPa per km = kPa per m
     expect(kPaPerM).toBeCloseTo(9.80665, 9);
     // 1 psi = 6.894757 kPa, 1 ft = 0.3048 m (exact definitions).
     expect((kPaPerM / 6.894757293168) * 0.3048).toBeCloseTo(0.4335, 4);
   });
-  it('3 km, ρ 2500, g 9.81 → Plith 73.575, Pf 29.43, λ 0.400, effective 44.145 MPa (SOURCES.md [derived])', () => {
+  it('3 km, ρ 2500, g 9.81 → Plith 73.575, Pf 29.43, λ 0.400, effective 44.145 MPa (docs/sources.md#pore-fluid-factor [derived])', () => {
     const pl = uniformLithostaticPressureMPa(3, 2500, 9.81);
     const pf = hydrostaticPressureMPa(3);
     expect(pl).toBeCloseTo(73.575, 9);

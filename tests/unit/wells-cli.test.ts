@@ -18,7 +18,7 @@ function run(args: string[]) {
 }
 
 // Invented wells: a log on 30 °C/km from 10 °C (k = 2.5 → 75 mW/m²), and the Horner worked example BHTs
-// (SOURCES.md: T∞ = 105.00 °C at tc = 4 h) with one shallow log.
+// (docs/sources.md#horner-bht: T∞ = 105.00 °C at tc = 4 h) with one shallow log.
 const good = {
   type: 'FeatureCollection',
   features: [

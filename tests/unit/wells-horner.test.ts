@@ -4,7 +4,7 @@ import { hornerFit } from '../../shared/wells/horner.ts';
 import { correctMeasurements, correctBht, DEFAULT_SD_C } from '../../shared/wells/correction.ts';
 import type { MeasurementInput } from '../../shared/wells/types.ts';
 
-// Horner worked example (SOURCES.md, [derived] from the Horner relation T(Δt) = T∞ − C·log10[(tc + Δt)/Δt]):
+// Horner worked example (docs/sources.md#horner-bht, [derived] from the Horner relation T(Δt) = T∞ − C·log10[(tc + Δt)/Δt]):
 // tc = 4 h, Δt = 6, 10, 16 h, BHT = 98.34, 100.62, 102.09 °C → T∞ = 105.00 °C.
 const TC = 4;
 const DT = [6, 10, 16];
@@ -19,7 +19,7 @@ describe('Horner extrapolation', () => {
     const y = Matrix.columnVector(BHT);
     const beta = solve(X.transpose().mmul(X), X.transpose().mmul(y));
     const refIntercept = beta.get(0, 0);
-    expect(refIntercept).toBeCloseTo(105.0, 2); // SOURCES.md worked example, to 0.01 °C
+    expect(refIntercept).toBeCloseTo(105.0, 2); // docs/sources.md#horner-bht worked example, to 0.01 °C
     const fit = hornerFit([TC, TC, TC], DT, BHT);
     expect(fit).not.toBeNull();
     expect(fit!.temperatureC).toBeCloseTo(refIntercept, 9);

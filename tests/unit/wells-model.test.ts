@@ -13,7 +13,7 @@ const root = new URL('../../', import.meta.url).pathname;
 
 describe('model against wells', () => {
   it('evaluates the model geotherm at well depths in metres (Turcotte & Schubert 2002 §4-8 example)', () => {
-    // SOURCES.md [derived]: T0 = 10, q0 = 60, A0 = 2.5, hr = 10 km, k = 2.5 → T(5 km) = 119.347 °C, T(10 km) = 213.212 °C.
+    // docs/sources.md#geotherm-exponential [derived]: T0 = 10, q0 = 60, A0 = 2.5, hr = 10 km, k = 2.5 → T(5 km) = 119.347 °C, T(10 km) = 213.212 °C.
     const cm = compileModel({ surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 }] });
     const m = wellModelFromCompiled(cm);
     const r = modelResiduals([{ depthM: 5000, temperatureC: 120, used: true }, { depthM: 10000, temperatureC: 213.212, used: true }], m.temperature, 60);
