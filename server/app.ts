@@ -3,9 +3,10 @@ import { bodyLimit } from 'hono/body-limit';
 import { existsSync, readFileSync, statSync } from 'node:fs';
 import { extname, join, normalize } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { availableParallelism } from 'node:os';
 import { InputError } from '../shared/errors.ts';
 import { VERSION } from '../shared/version.ts';
-import { httpStatusOf } from './http-status.ts';
+import { httpStatusOf, retryAfterSecondsOf } from './http-status.ts';
 import { CAUTION } from '../shared/caution.ts';
 import type { Store } from './store/types.ts';
 import type { TerrainTiles} from './terrain.ts';
@@ -40,6 +41,8 @@ export interface AppOptions {
   limits?: Partial<Limits>;
   /** Module of the run worker (default server/workers/run-worker.ts). */
   runWorkerFile?: string;
+  /** Module of the compute worker (default server/workers/compute-worker.ts). */
+  computeWorkerFile?: string;
   /** One line per request (method, path without query, status, ms); default off, or on with SUBTHERM_ACCESS_LOG=1. */
   accessLog?: ((line: string) => void) | null;
   /** Start the demo project's default run in the background (what `subtherm serve` does unless SUBTHERM_DEMO_RUN=0). */
@@ -94,9 +97,12 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     maxQueuedWorkServer: limits.maxQueuedWorkServer,
     wallClockMs: limits.runWallClockSeconds * 1000,
   });
+  // Three pools, so long work never holds short work behind it: short column bands (a map click) on threads of
+  // normal priority; long columns and sections, and heat-in-place jobs, each on a thread of lowered priority.
   const compute = {
-    interactive: new ComputePool({ name: 'column and section', threads: 1, maxQueue: limits.maxComputeQueue, deadlineLimit: 'computeDeadlineSeconds' }),
-    jobs: new ComputePool({ name: 'heat-in-place', threads: 1, maxQueue: limits.maxHeatInPlaceJobsServer, deadlineLimit: 'heatInPlaceDeadlineSeconds' }),
+    short: new ComputePool({ name: 'short column', threads: Math.min(2, availableParallelism()), maxQueue: limits.maxComputeQueue, queueLimit: 'maxComputeQueue', deadlineLimit: 'computeDeadlineSeconds', keepWarm: true, workerFile: opts.computeWorkerFile }),
+    long: new ComputePool({ name: 'long column and section', threads: 1, maxQueue: limits.maxLongComputeQueue, queueLimit: 'maxLongComputeQueue', deadlineLimit: 'computeDeadlineSeconds', niceness: 10, workerFile: opts.computeWorkerFile }),
+    jobs: new ComputePool({ name: 'heat-in-place', threads: 1, maxQueue: limits.maxHeatInPlaceJobsServer, queueLimit: 'maxHeatInPlaceJobsServer', deadlineLimit: 'heatInPlaceDeadlineSeconds', niceness: 10, workerFile: opts.computeWorkerFile }),
   };
   const heatJobs = new HeatJobs({
     pool: compute.jobs,
@@ -131,6 +137,8 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     if (err instanceof InputError) {
       const status = httpStatusOf(err.code);
       const headers: Record<string, string> = status === 401 ? { 'www-authenticate': 'Bearer realm="subtherm project"' } : {};
+      const retry = retryAfterSecondsOf(err.code);
+      if (retry !== null) headers['retry-after'] = String(retry);
       return c.json(errorBody(err.code, err.message, err.details), status, headers);
     }
     console.error(`[${new Date().toISOString()}] ${c.req.method} ${new URL(c.req.url).pathname}: ${err.stack ?? err.message}`);
@@ -175,7 +183,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
       // Delay of the request thread's event loop since the window began (the previous full minute beside it).
       eventLoopDelayMs: { ...current, windowStartedAt: new Date(loopWindowStart).toISOString(), previousMinute: lastWindow },
       runs: jobs.counts(),
-      computeTasks: { interactive: compute.interactive.load(), heatInPlace: heatJobs.inFlight() },
+      computeTasks: { short: compute.short.load(), long: compute.long.load(), heatInPlace: heatJobs.inFlight() },
     });
   });
 
@@ -269,7 +277,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   const close = async () => {
     clearInterval(loopTimer);
     loopDelay.disable();
-    await Promise.all([jobs.close(), compute.interactive.close(), compute.jobs.close()]);
+    await Promise.all([jobs.close(), compute.short.close(), compute.long.close(), compute.jobs.close()]);
   };
   return Object.assign(app, { jobs, limits, close });
 }

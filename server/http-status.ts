@@ -98,3 +98,23 @@ const STATUS_BY_CODE: Readonly<Record<string, number>> = {
 export function httpStatusOf(code: string): 400 | 401 | 403 | 404 | 409 | 413 | 415 | 422 | 429 | 503 {
   return (Object.hasOwn(STATUS_BY_CODE, code) ? STATUS_BY_CODE[code] : 400) as ReturnType<typeof httpStatusOf>;
 }
+
+/**
+ * Seconds a client should wait before trying again (the Retry-After header, RFC 9110 §10.2.3) for the codes that
+ * mean "come back later"; null for every other code. A full queue clears in seconds; a deadline met under load or
+ * a full allowance of runs or jobs takes longer to free.
+ */
+const RETRY_AFTER_BY_CODE: Readonly<Record<string, number>> = {
+  server_busy: 2,
+  deadline_exceeded: 10,
+  runs_unavailable: 10,
+  shutting_down: 10,
+  too_many_runs: 10,
+  too_much_work: 10,
+  too_many_jobs: 5,
+};
+
+/** The Retry-After seconds of an InputError's problem code, or null when retrying the same request cannot help. */
+export function retryAfterSecondsOf(code: string): number | null {
+  return Object.hasOwn(RETRY_AFTER_BY_CODE, code) ? RETRY_AFTER_BY_CODE[code] : null;
+}

@@ -40,8 +40,10 @@ export interface Limits {
   maxHeatInPlaceJobsServer: number;
   /** Wall-clock time of a column band or a section on the worker pool, seconds, waiting included (503 beyond). */
   computeDeadlineSeconds: number;
-  /** Column bands and sections waiting for a worker thread (503 server_busy above it). */
+  /** Short column bands waiting for a worker thread (503 server_busy, with Retry-After, above it). */
   maxComputeQueue: number;
+  /** Long column bands and sections waiting for their worker thread (503 server_busy, with Retry-After, above it). */
+  maxLongComputeQueue: number;
   /** Largest saved project state, bytes of JSON (413 above it). */
   maxProjectStateBytes: number;
   /** Deepest nesting of a saved project state (422 beyond it). */
@@ -71,6 +73,7 @@ export const DEFAULT_LIMITS: Readonly<Limits> = Object.freeze({
   maxHeatInPlaceJobsServer: 8,
   computeDeadlineSeconds: 120,
   maxComputeQueue: 256,
+  maxLongComputeQueue: 16,
   maxProjectStateBytes: 2 * 1024 * 1024,
   maxJsonDepth: 64,
   maxProjectStorageBytes: 200 * 1024 * 1024,
@@ -97,6 +100,7 @@ export const LIMIT_ENV: Record<keyof Limits, string> = {
   maxHeatInPlaceJobsServer: 'SUBTHERM_MAX_HIP_JOBS_SERVER',
   computeDeadlineSeconds: 'SUBTHERM_COMPUTE_DEADLINE_S',
   maxComputeQueue: 'SUBTHERM_MAX_COMPUTE_QUEUE',
+  maxLongComputeQueue: 'SUBTHERM_MAX_LONG_COMPUTE_QUEUE',
   maxProjectStateBytes: 'SUBTHERM_MAX_PROJECT_BYTES',
   maxJsonDepth: 'SUBTHERM_MAX_JSON_DEPTH',
   maxProjectStorageBytes: 'SUBTHERM_MAX_PROJECT_STORAGE_BYTES',
@@ -123,6 +127,7 @@ export const LIMIT_UNITS: Record<keyof Limits, string> = {
   maxHeatInPlaceJobsServer: 'jobs',
   computeDeadlineSeconds: 's',
   maxComputeQueue: 'tasks',
+  maxLongComputeQueue: 'tasks',
   maxProjectStateBytes: 'bytes',
   maxJsonDepth: 'levels',
   maxProjectStorageBytes: 'bytes',

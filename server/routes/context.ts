@@ -17,8 +17,8 @@ export interface AppContext {
   grids: RunGridCache;
   /** Absolute path of the run worker module. */
   workerFile: string;
-  /** Worker pools: `interactive` for column bands and sections, `jobs` for heat-in-place jobs. */
-  compute: { interactive: ComputePool; jobs: ComputePool };
+  /** Worker pools: `short` for short column bands, `long` for long ones and sections, `jobs` for heat in place. */
+  compute: { short: ComputePool; long: ComputePool; jobs: ComputePool };
   heatJobs: HeatJobs;
   /** Peer addresses of reverse proxies whose X-Forwarded-For is believed (empty: none). */
   trustedProxies: ReadonlySet<string>;

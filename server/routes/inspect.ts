@@ -15,6 +15,18 @@ import { modelZones, type ModelAt } from '../runs/zones.ts';
 /** Realizations of the column band for a run with realizations (seeded by the run's seed). */
 export const COLUMN_BAND_REALIZATIONS = 200;
 
+/**
+ * Largest column band sent to the short pool, in realizations × layers × depth samples. A run's map click (200
+ * realizations of a 4-layer model, 81 samples: 64,800) takes about 25 ms on one core of the reference machine; this
+ * bound (about 0.6 s there) keeps every short task well under a second.
+ */
+export const SHORT_COLUMN_WORK = 1_000_000;
+
+/** Realizations × layers × depth samples of a column query (the work of its Monte Carlo band). */
+export function columnWork(q: Pick<ColumnQuery, 'realizations' | 'model' | 'maxDepthKm' | 'stepKm'>): number {
+  return q.realizations * Math.max(1, q.model.layers.length) * (Math.floor(q.maxDepthKm / q.stepKm) + 1);
+}
+
 export function inspectRoutes(app: Hono, ctx: AppContext): void {
   const doneRun = async (runId: string): Promise<{ run: RunRecord; heat: RunGrid; sd: RunGrid | null }> => {
     const run = ctx.store.getRun(runId);
@@ -51,10 +63,16 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
     return at;
   };
   const deadlineMs = ctx.limits.computeDeadlineSeconds * 1000;
-  /** A column with a Monte Carlo band goes to the worker pool; a plain one (bounded layers and samples) is cheap. */
+  /**
+   * A column with a Monte Carlo band goes to a worker pool: the short pool when its work is small (a click on a
+   * run's map), else the long pool, so a long band never holds short ones behind it. A plain column (bounded
+   * layers and samples) is cheap and computed here.
+   */
   const column = async (query: ColumnQuery): Promise<ColumnAnswer> => {
     const q: ColumnQuery = { ...query, profileBand: true };
-    return q.realizations > 0 ? await ctx.compute.interactive.run<ColumnAnswer>({ kind: 'column', query: q }, deadlineMs) : computeColumn(q);
+    if (!(q.realizations > 0)) return computeColumn(q);
+    const pool = columnWork(q) <= SHORT_COLUMN_WORK ? ctx.compute.short : ctx.compute.long;
+    return await pool.run<ColumnAnswer>({ kind: 'column', query: q }, deadlineMs);
   };
 
   app.post('/api/column', async (c) => {
@@ -123,7 +141,7 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
     const faultsRec = req.faults !== undefined ? ctx.store.getDataset(req.faults) : null;
     const iso = ctx.store.getRunFile(run.id, 'isograds', 'geojson');
     const regionsRec = req.regions !== undefined ? ctx.store.getDataset(req.regions) : null;
-    const out = await ctx.compute.interactive.run<Record<string, unknown>>(
+    const out = await ctx.compute.long.run<Record<string, unknown>>(
       {
         kind: 'section',
         heatFlow: heat.grid,

@@ -2,7 +2,9 @@
  * Pools of worker threads for the work that must never run on the request thread: column bands (Monte Carlo),
  * sections and heat in place. Each pool has a bounded queue and each task a deadline: a task still unfinished at
  * its deadline has its thread terminated (piscina aborts it) and is answered with an error naming the limit.
- * Errors the caller caused cross the thread boundary as plain data and are rethrown as InputError.
+ * Errors the caller caused cross the thread boundary as plain data and are rethrown as InputError. Short and long
+ * tasks go to different pools (server/app.ts), the long ones on lowered-priority threads, so a long task never
+ * holds a short one behind it in a queue or off the cores.
  */
 import { fileURLToPath } from 'node:url';
 import { Piscina } from 'piscina';
@@ -19,8 +21,20 @@ export interface ComputePoolOptions {
   maxQueue: number;
   /** Name of the limit in /api/limits that sets the deadline (named in the error). */
   deadlineLimit: string;
+  /** Name of the limit in /api/limits that bounds the queue (named in the 503). */
+  queueLimit: string;
+  /**
+   * Nice value of the pool's threads (server/workers/priority.ts): 0 for short interactive tasks, 10 for long ones,
+   * so long work never starves short work or the request thread of CPU.
+   */
+  niceness?: number;
+  /** Keep all threads started once the pool is first used (short tasks then never wait for a thread to start). */
+  keepWarm?: boolean;
   workerFile?: string;
 }
+
+/** Seconds a client is told to wait (Retry-After) when a pool's queue is full. */
+export const BUSY_RETRY_AFTER_SECONDS = 2;
 
 /** A limit was exceeded while the work ran (the deadline). */
 export class DeadlineError extends InputError {}
@@ -38,11 +52,11 @@ export class ComputePool {
     this.pool = new Piscina({
       filename: this.opts.workerFile ?? COMPUTE_WORKER_FILE,
       execArgv: ['--import', 'tsx'],
-      minThreads: 0,
+      minThreads: this.opts.keepWarm === true ? this.opts.threads : 0,
       maxThreads: this.opts.threads,
       idleTimeout: 30_000,
       // geotiff's web-worker dependency reads workerData at import time in any worker thread (see jobs.ts).
-      workerData: {},
+      workerData: { niceness: this.opts.niceness ?? 0 },
       resourceLimits: { maxOldGenerationSizeMb: 2048 },
     });
     this.pool.on('error', (e: Error) => process.stderr.write(`[${new Date().toISOString()}] ${this.opts.name} worker error: ${e.stack ?? e.message}\n`));
@@ -63,8 +77,8 @@ export class ComputePool {
     if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down');
     if (this.inFlight >= this.opts.threads + this.opts.maxQueue) {
       throw new InputError(
-        `the server is busy: ${this.inFlight - this.opts.threads} ${this.opts.name} tasks are waiting (limit ${this.opts.maxQueue}); try again in a few seconds`,
-        [{ field: '(server)', problem: `at most ${this.opts.maxQueue} waiting ${this.opts.name} tasks` }],
+        `the server is busy: ${this.inFlight - this.opts.threads} ${this.opts.name} tasks are waiting (limit ${this.opts.queueLimit} = ${this.opts.maxQueue}); try again in a few seconds`,
+        [{ field: this.opts.queueLimit, problem: `at most ${this.opts.maxQueue} waiting ${this.opts.name} tasks` }],
         'server_busy',
       );
     }

@@ -72,6 +72,9 @@ interface Job {
   snapshot: RunSnapshot;
 }
 
+/** Nice value of run threads: runs are the longest work, so requests and short tasks go first. */
+export const RUN_NICENESS = 10;
+
 const TERMINAL: ReadonlySet<RunStatus> = new Set(['done', 'failed', 'cancelled']);
 export const isTerminal = (s: RunStatus) => TERMINAL.has(s);
 
@@ -127,8 +130,9 @@ export class RunJobs {
       maxThreads: this.concurrency,
       idleTimeout: 60_000,
       // geotiff pulls in the web-worker package, which destructures workerData at import time in any worker thread:
-      // an empty object keeps it from throwing (and from taking the thread over as a web worker).
-      workerData: {},
+      // an object keeps it from throwing (and from taking the thread over as a web worker). Run threads run at a
+      // lowered priority (server/workers/priority.ts).
+      workerData: { niceness: RUN_NICENESS },
       // A run's result (grids, GeoTIFFs) may be large; leave room above the default heap.
       resourceLimits: { maxOldGenerationSizeMb: 2048 },
     });

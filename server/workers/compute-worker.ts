@@ -20,6 +20,9 @@ import { computeColumn, type ColumnQuery } from '../../shared/products/column.ts
 import { runGridOf } from '../runs/grids.ts';
 import { computeSection, linesOf, type LineFeature } from '../runs/section.ts';
 import { modelZones } from '../runs/zones.ts';
+import { applyWorkerNiceness } from './priority.ts';
+
+applyWorkerNiceness();
 
 export interface SectionTask {
   kind: 'section';

@@ -8,6 +8,10 @@ import type { RunRequest } from '../../shared/schema/run.ts';
 import { runPipeline, type RunResult, type StoredDataset } from '../runs/pipeline.ts';
 import { isogradStage } from '../runs/isograd-stage.ts';
 import { cancelSignal } from '../runs/types.ts';
+import { applyWorkerNiceness } from './priority.ts';
+
+// Runs are the longest work: their threads yield to requests and short tasks (server/workers/priority.ts).
+applyWorkerNiceness();
 
 export type { RunResult } from '../runs/pipeline.ts';
 
