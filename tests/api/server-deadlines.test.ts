@@ -63,7 +63,12 @@ describe('deadlines and queues through the routes', () => {
     // The long pool takes one running and one waiting task; the third is refused before any work.
     const first = longColumn(SPIN_SEED);
     const second = longColumn(SPIN_SEED);
-    await new Promise((r) => setTimeout(r, 100));
+    // Wait until both are on the long pool (one running, one waiting), as /api/health reports.
+    for (let i = 0; i < 500; i++) {
+      const h = (await (await t.app.request('/api/health')).json()) as { computeTasks: { long: number } };
+      if (h.computeTasks.long === 2) break;
+      await new Promise((r) => setTimeout(r, 20));
+    }
     const third = await longColumn(SPIN_SEED);
     expect(third.status).toBe(503);
     expect(third.headers.get('retry-after')).toBe('2');
