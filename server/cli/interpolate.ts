@@ -6,8 +6,8 @@ import { CAUTION } from '../../shared/caution.ts';
 import { parseFeatureCollection } from '../../shared/schema/features.ts';
 import { pointsFromGeoJson, pointsFromCsv, parseVariogramOption, parseAnisotropyOption, targetsFromGeoJson } from '../../shared/schema/interp.ts';
 import { loadCrsDefinition, converter, WGS84_DEF } from '../../shared/interp/projection.ts';
-import { prepareInterpolation, finishGrid, predictAtPoints, gridSummary, type InterpolationOptions, type PointData, type InterpolationResult } from '../../shared/interp/interpolate.ts';
-import { createGridRuntime, computeRows } from '../../shared/interp/gridKernel.ts';
+import { heatFlowSurface } from '../../shared/products/heat-flow-surface.ts';
+import { prepareInterpolation, predictAtPoints, gridSummary, type InterpolationOptions, type PointData, type InterpolationResult } from '../../shared/interp/interpolate.ts';
 import { blockEstimates, type BlockPolygon } from '../../shared/interp/blockKriging.ts';
 import { writeGeoTiffFile } from '../io/geotiff.ts';
 import { formatFromPath, inFileLayer, readVectorFile } from '../io/vector-input.ts';
@@ -253,25 +253,19 @@ export async function interpolate(argv: string[]): Promise<number> {
 
   // Grid.
   const prep = prepareInterpolation(points, options);
-  const tg = performance.now();
   let result: InterpolationResult;
   const workers = a.workers === undefined ? 1 : numberOption('workers', a.workers);
   if (!(Number.isInteger(workers) && workers >= 1 && workers <= 64)) throw new InputError(`--workers must be an integer 1..64, got ${a.workers}`, [{ field: 'workers', problem: 'expected 1..64' }], 'bad_option');
   if (workers > 1) {
-    const { createInterpPool, computeGridParallel } = await import('../workers/interp-worker.ts');
+    const { createInterpPool, poolRowFiller, sharedFloat32 } = await import('../workers/interp-worker.ts');
     const pool = createInterpPool(workers);
     try {
-      const r = await computeGridParallel(pool, prep.plan);
-      result = finishGrid(prep, r.values, r.sd, r.stats, performance.now() - tg);
+      result = await heatFlowSurface(prep, { fill: poolRowFiller(pool, prep.plan), allocate: sharedFloat32 });
     } finally {
       await pool.destroy();
     }
   } else {
-    const g = prep.plan.grid;
-    const values = new Float32Array(g.width * g.height);
-    const sd = prep.plan.withSd ? new Float32Array(g.width * g.height) : null;
-    const stats = computeRows(createGridRuntime(prep.plan), 0, g.height, values, sd);
-    result = finishGrid(prep, values, sd, stats, performance.now() - tg);
+    result = await heatFlowSurface(prep);
   }
 
   const files: string[] = [];

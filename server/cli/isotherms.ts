@@ -11,7 +11,7 @@ import { buildProvenance, withMethod } from '../../shared/products/provenance.ts
 import { CAUTION } from '../../shared/caution.ts';
 import { readGeoTiff, writeGeoTiffFile } from '../io/geotiff.ts';
 import { geojsonText, sha256Hex } from '../io/export.ts';
-import { computeThermalProducts, type OverrideRegion } from '../runs/pipeline.ts';
+import { computeThermalProducts, type OverrideRegion } from '../../shared/products/thermal-products.ts';
 import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
 
 const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a thermal model

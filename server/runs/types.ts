@@ -3,7 +3,8 @@
  * what the worker posts while it works, and what it returns.
  */
 import type { MessagePort } from 'node:worker_threads';
-import type { RunRequest } from '../../shared/schema/run.ts';
+import type { Grid } from '../../shared/grid/grid.ts';
+import type { RunLayerInfo, RunRequest, RunSummary } from '../../shared/schema/run.ts';
 
 export type LayerExt = 'tif' | 'png' | 'geojson' | 'csv';
 export const LAYER_EXTS: readonly LayerExt[] = ['tif', 'png', 'geojson', 'csv'];
@@ -15,13 +16,39 @@ export const LAYER_CONTENT_TYPES: Record<LayerExt, string> = {
   csv: 'text/csv; charset=utf-8',
 };
 
-// The worker's result and its grids are defined once, by the pipeline.
-export type { RunResult, SerializedGrid } from './pipeline.ts';
+/** A grid as it crosses the thread boundary: the project's Grid with Float32 values (structured-cloneable). */
+export type SerializedGrid = Grid<Float32Array>;
+
+export interface RunFile {
+  ext: LayerExt;
+  bytes: Uint8Array;
+}
+
+export interface RunLayer {
+  info: RunLayerInfo;
+  files: RunFile[];
+}
+
+/** What a run returns: its layers with their files, the summary (the run contract), its grids and warnings. */
+export interface RunResult {
+  layers: RunLayer[];
+  summary: RunSummary;
+  grids: { heatFlow: SerializedGrid; heatFlowSd?: SerializedGrid };
+  /** The validated thermal model JSON (top-level descriptive members set aside). */
+  model: unknown;
+  warnings: string[];
+}
+
+/** A data set as a run reads it: its kind and its text. */
+export interface StoredDataset {
+  kind: string;
+  body: string;
+}
 
 export interface RunTask {
   request: RunRequest;
   /** The data sets the request names, by id. */
-  datasets: Record<string, { kind: string; body: string }>;
+  datasets: Record<string, StoredDataset>;
   /** The worker posts `{ type: 'progress', fraction, message }` on it; the job system posts `{ type: 'cancel' }`. */
   port: MessagePort;
 }

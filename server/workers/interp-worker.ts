@@ -2,6 +2,7 @@ import { fileURLToPath } from 'node:url';
 import { availableParallelism } from 'node:os';
 import { Piscina } from 'piscina';
 import { createGridRuntime, computeRows, addStats, type GridPlan, type GridRuntime, type RowStats } from '../../shared/interp/gridKernel.ts';
+import type { RowFiller } from '../../shared/products/heat-flow-surface.ts';
 
 /**
  * Worker side of the parallel grid pass: each task fills rows [r0, r1) of shared Float32 buffers for one plan.
@@ -34,20 +35,33 @@ export function createInterpPool(threads = Math.min(2, availableParallelism())):
   });
 }
 
+/** A Float32Array over shared memory, for the pool's row filler. */
+export const sharedFloat32 = (cells: number) => new Float32Array(new SharedArrayBuffer(4 * cells));
+
 /**
- * Fills a whole grid with a pool: rows split into interleaved blocks (so threads share dense and sparse parts
- * alike), results written into shared buffers. Returns the buffers and the summed row statistics.
+ * A row filler (shared/products/heat-flow-surface.ts) that runs on the pool: the rows split into interleaved blocks
+ * (so threads share dense and sparse parts alike), written into the buffers, which must be shared memory
+ * (`sharedFloat32`). Returns the summed row statistics.
  */
+export function poolRowFiller(pool: Piscina, plan: GridPlan, blockRows = 16): RowFiller {
+  return async (r0, r1, values, sd) => {
+    const vb = values.buffer, sb = sd?.buffer ?? null;
+    if (!(vb instanceof SharedArrayBuffer) || (sb !== null && !(sb instanceof SharedArrayBuffer))) throw new TypeError('the pool fills shared buffers only (sharedFloat32)');
+    const tasks: Promise<RowStats>[] = [];
+    for (let a = r0; a < r1; a += blockRows) {
+      tasks.push(pool.run({ plan, r0: a, r1: Math.min(r1, a + blockRows), values: vb, sd: sb } satisfies RowTask) as Promise<RowStats>);
+    }
+    let stats: RowStats = { cells: 0, masked: 0, empty: 0, fallbacks: 0, regularized: 0, factorizations: 0 };
+    for (const p of await Promise.all(tasks)) stats = addStats(stats, p);
+    return stats;
+  };
+}
+
+/** Fills a whole grid with a pool. Returns the buffers and the summed row statistics. */
 export async function computeGridParallel(pool: Piscina, plan: GridPlan, blockRows = 16): Promise<{ values: Float32Array; sd: Float32Array | null; stats: RowStats }> {
   const { width, height } = plan.grid;
-  const vb = new SharedArrayBuffer(4 * width * height);
-  const sb = plan.withSd ? new SharedArrayBuffer(4 * width * height) : null;
-  const tasks: Promise<RowStats>[] = [];
-  for (let r0 = 0; r0 < height; r0 += blockRows) {
-    tasks.push(pool.run({ plan, r0, r1: Math.min(height, r0 + blockRows), values: vb, sd: sb } satisfies RowTask) as Promise<RowStats>);
-  }
-  const parts = await Promise.all(tasks);
-  let stats: RowStats = { cells: 0, masked: 0, empty: 0, fallbacks: 0, regularized: 0, factorizations: 0 };
-  for (const p of parts) stats = addStats(stats, p);
-  return { values: new Float32Array(vb), sd: sb === null ? null : new Float32Array(sb), stats };
+  const values = sharedFloat32(width * height);
+  const sd = plan.withSd ? sharedFloat32(width * height) : null;
+  const stats = await poolRowFiller(pool, plan, blockRows)(0, height, values, sd);
+  return { values, sd, stats };
 }

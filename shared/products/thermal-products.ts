@@ -1,0 +1,319 @@
+/**
+ * The thermal products of a heat-flow grid: temperature at depth, depth to isotherms (with Monte Carlo P10/P50/P90
+ * when realizations are asked for), metamorphic facies at a depth, heat flow at the base of the model, solidus and
+ * melt-onset depths, the inconsistency flags, with legends, method texts (steady 1-D conduction, Turcotte &
+ * Schubert 2002 §4-6, §4-8; Chapman 1986) and contours of the continuous grids. Used by runs
+ * (server/runs/pipeline.ts) and the `isotherms` verb.
+ *
+ * The work goes in tiles of rows; after each tile `tick(stage, fraction, message)` is called and awaited: the caller
+ * reports progress there, yields to its event loop, or throws to stop the work.
+ */
+import type { Grid, GridSpec } from '../grid/grid.ts';
+import { contourGrid, niceContourInterval, type ContourCollection } from '../grid/contours.ts';
+import { rampLegend } from '../grid/colorize.ts';
+import type { Legend } from '../grid/legend.ts';
+import { DEPTH, EMBER, type Ramp } from '../grid/ramps.ts';
+import { rasterizeZones } from '../grid/polygon-cells.ts';
+import type { ThermalModelInput } from '../schema/model.ts';
+import { converter, WGS84_DEF } from '../interp/projection.ts';
+import { compileModel, isUncertainModel, nominalModel, type CompiledModel } from '../thermal/index.ts';
+import { applyLayerOverride, type OverrideRegion } from './overrides.ts';
+import { allocateThermalGridBuffers, computeThermalGridRows, inconsistencyCounts, planThermalGrids, productGrid, type ThermalGridBuffers } from './thermal-grids.ts';
+import { allocateUncertaintyOutput, computeUncertaintyRows, prepareUncertainty, uncertaintyResult } from './uncertainty.ts';
+import { faciesLegend } from './facies-grid.ts';
+import { layerStats, type LayerStats } from './stats.ts';
+import { BASE_HEAT_FLOW, INCONSISTENT, MELT_ONSET, SOLIDUS_DEPTH, depthProductName, faciesProductName, percentileProductName, temperatureProductName } from './names.ts';
+
+export type { OverrideRegion } from './overrides.ts';
+
+export interface ProductLayer {
+  name: string;
+  title: string;
+  units: string;
+  grid: Grid<Float32Array>;
+  legend: Legend;
+  ramp: Ramp | null;
+  /** Method text for the provenance of this layer. */
+  method: string;
+  contours?: ContourCollection;
+  stats: LayerStats;
+}
+
+export interface ProductOptions {
+  isothermsC: number[];
+  depthsKm: number[];
+  /** Facies depth, km (null = no facies grid). */
+  faciesDepthKm: number | null;
+  /** Isotherm and solidus searches stop here (km; default: the deepest model bottom or depth asked for). */
+  maxDepthKm?: number;
+  /** Depth-contour interval, km (default 1); null = no contours. */
+  contourIntervalKm?: number | null;
+  /** Temperature-contour interval, °C (default: a nice interval for about 12 levels). */
+  contourIntervalC?: number | null;
+  realizations?: number;
+  seed?: number;
+  heatFlowErrorCorrelation?: 'full' | 'independent';
+  tileRows?: number;
+}
+
+export type ProductStage = 'thermal' | 'montecarlo' | 'contours';
+/** Called after each tile with the stage, the fraction of the stage done (0..1) and a message; awaited. */
+export type ProductTick = (stage: ProductStage, fraction: number, message: string) => void | Promise<void>;
+
+export interface MonteCarloReport {
+  realizations: number;
+  seed: number;
+  heatFlowErrorCorrelation: 'full' | 'independent';
+  rejectedDraws: number;
+  withHeatFlowSd: boolean;
+}
+
+export interface ThermalProductsResult {
+  layers: ProductLayer[];
+  counts: ReturnType<typeof inconsistencyCounts>;
+  zoneModels: ThermalModelInput[];
+  maxDepthKm: number;
+  warnings: string[];
+  timingsMs: Record<string, number>;
+  monteCarlo: MonteCarloReport | null;
+}
+
+const now = () => performance.now();
+
+/** Grid CRS (a proj4 definition) → lon/lat. */
+export function gridToLonLat(crsDef: string): (x: number, y: number) => [number, number] {
+  if (crsDef === WGS84_DEF) return (x, y) => [x, y];
+  const c = converter(crsDef, WGS84_DEF);
+  return (x, y) => c.forward([x, y]);
+}
+
+/** Rows of each tile so a tile holds about `cells` cells (or `tileRows` when given: a positive integer). */
+export function tileRowsFor(width: number, tileRows?: number, cells = 65536): number {
+  if (tileRows !== undefined) {
+    if (!(Number.isInteger(tileRows) && tileRows >= 1)) throw new RangeError(`tileRows must be a positive integer, got ${tileRows}`);
+    return tileRows;
+  }
+  return Math.max(1, Math.floor(cells / Math.max(1, width)));
+}
+
+/** Ramp legend over the finite range of one or more grids (a flat or empty range gets a nominal span). */
+export function sharedRampLegend(ramp: Ramp, units: string, grids: Float32Array[]): Legend {
+  let min = Infinity, max = -Infinity;
+  for (const g of grids) for (let i = 0; i < g.length; i++) { const v = g[i]; if (v === v && v !== Infinity && v !== -Infinity) { if (v < min) min = v; if (v > max) max = v; } }
+  if (!(max >= min)) { min = 0; max = 1; }
+  if (max === min) max = min + 1;
+  return rampLegend(ramp, units, min, max);
+}
+
+const INCONSISTENT_LEGEND: Legend = {
+  type: 'classes',
+  units: 'flag',
+  classes: [
+    { value: 0, label: 'consistent', color: '#e6e9e4' },
+    { value: 1, label: 'heat flow reaches 0 in the model (surface heat flow too low for its heat production)', color: '#b3342b' },
+    { value: 2, label: 'conductivity k(T) undefined (1 + bT ≤ 0)', color: '#6b3fa0' },
+    { value: 4, label: 'surface heat flow ≤ 0', color: '#222222' },
+    { value: 8, label: 'melt onset above the maximum depth (no temperatures below it)', color: '#d9822b' },
+  ],
+};
+
+const fmt = (v: number) => String(+v.toPrecision(12));
+
+interface Zoning {
+  zoneModels: ThermalModelInput[];
+  compiled: CompiledModel[];
+  zones: Uint16Array | undefined;
+  maxDepthKm: number;
+}
+
+/** The zone models (0 = base, k = base with region k's override), compiled to the search depth, and each cell's zone. */
+function zoneModelsOf(heatFlow: Grid<Float32Array>, baseModel: ThermalModelInput, regions: OverrideRegion[], crsDef: string, o: ProductOptions, warnings: string[]): Zoning {
+  const zoneModels: ThermalModelInput[] = [baseModel, ...regions.map((r) => applyLayerOverride(baseModel, r.override))];
+  const deepest = Math.max(...zoneModels.map((m) => m.layers[m.layers.length - 1].bottomKm));
+  const maxDepthKm = Math.max(o.maxDepthKm ?? deepest, ...o.depthsKm, o.faciesDepthKm ?? 0);
+  if (o.maxDepthKm !== undefined && maxDepthKm > o.maxDepthKm) warnings.push(`the search depth was raised from ${o.maxDepthKm} km to ${maxDepthKm} km to reach the depths asked for`);
+  const compiled: CompiledModel[] = zoneModels.map((m, k) => {
+    const cm = compileModel(nominalModel(m), { maxDepthKm });
+    const label = k === 0 ? 'model' : regions[k - 1].label;
+    for (const w of cm.warnings) warnings.push(`${label}: ${w}`);
+    return cm;
+  });
+  if (zoneModels.some(isUncertainModel)) warnings.push('the model has parameter distributions: the deterministic grids use each distribution\'s central value (mean, clamped mean, midpoint or mode)');
+  let zones: Uint16Array | undefined;
+  if (regions.length > 0) {
+    const fromLonLat = crsDef === WGS84_DEF ? undefined : ((c) => (x: number, y: number) => c.forward([x, y]))(converter(WGS84_DEF, crsDef));
+    zones = rasterizeZones(heatFlow, regions.map((r) => (fromLonLat === undefined ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => fromLonLat(p[0], p[1]))))));
+    const counts = new Uint32Array(regions.length + 1);
+    for (let i = 0; i < zones.length; i++) counts[zones[i]]++;
+    regions.forEach((r, k) => { if (counts[k + 1] === 0) warnings.push(`${r.label}: the override polygon covers no cell centre of the grid`); });
+  }
+  return { zoneModels, compiled, zones, maxDepthKm };
+}
+
+/** The warnings of the inconsistency counts: true contradictions apart from melt onset. */
+function inconsistencyWarnings(counts: ReturnType<typeof inconsistencyCounts>, cells: number): string[] {
+  const warnings: string[] = [];
+  // Melt onset is a physical limit of the conductive column, not a contradiction between model and heat flow:
+  // it is reported on its own, and the inconsistency warning counts only the true contradictions.
+  const contradictions = counts.heatFlowExhausted + counts.conductivityUndefined + counts.nonPositiveHeatFlow;
+  if (contradictions > 0) {
+    warnings.push(
+      `the model is inconsistent with the heat flow in ${contradictions} of ${cells} cells (${counts.heatFlowExhausted} where the heat flow reaches 0 inside the model, ` +
+        `${counts.conductivityUndefined} with k(T) undefined, ${counts.nonPositiveHeatFlow} with heat flow ≤ 0): see the "${INCONSISTENT}" grid; below the failing depth those cells have no data`,
+    );
+  }
+  if (counts.meltOnset > 0) {
+    warnings.push(
+      `in ${counts.meltOnset} of ${cells} cells the conductive geotherm reaches the fluid-absent solidus of its rock (melt onset): see the "${MELT_ONSET}" grid; ` +
+        'below that depth a conductive temperature is not valid and those cells have no data',
+    );
+  }
+  return warnings;
+}
+
+type Percentiles = ReturnType<typeof uncertaintyResult>;
+
+/** The Monte Carlo percentiles of the isotherm depths in tiles of rows (null without realizations). */
+async function monteCarloPass(heatFlow: Grid<Float32Array>, heatFlowSd: Grid<Float32Array> | null, z: Zoning, o: ProductOptions, tick: ProductTick, warnings: string[]): Promise<{ pct: Percentiles; report: MonteCarloReport } | null> {
+  const N = o.realizations ?? 0;
+  if (N <= 0) return null;
+  const W = heatFlow.width, H = heatFlow.height;
+  const seed = o.seed ?? 0;
+  const corr = o.heatFlowErrorCorrelation ?? 'full';
+  if (heatFlowSd === null && !z.zoneModels.some(isUncertainModel)) warnings.push('Monte Carlo with neither a heat-flow standard deviation nor model distributions: P10 = P50 = P90');
+  else if (heatFlowSd === null) warnings.push('no heat-flow standard deviation grid: the percentiles reflect the model parameters only');
+  const prep = prepareUncertainty({ heatFlow, heatFlowSd, models: z.zoneModels, zones: z.zones, isothermsC: o.isothermsC, maxDepthKm: z.maxDepthKm, realizations: N, seed, heatFlowErrorCorrelation: corr });
+  const mout = allocateUncertaintyOutput(W * H, o.isothermsC.length);
+  // Tiles sized so one tile's Monte Carlo is about as long as a thermal tile × 50.
+  const mtr = Math.max(1, Math.floor(tileRowsFor(W, o.tileRows) / Math.max(1, Math.ceil(N / 50))));
+  for (let r = 0; r < H; r += mtr) {
+    const r1 = Math.min(H, r + mtr);
+    computeUncertaintyRows(prep, W, r, r1, mout);
+    await tick('montecarlo', r1 / H, `Monte Carlo (${N} realizations): rows ${r1} of ${H}`);
+  }
+  const pct = uncertaintyResult(prep, mout);
+  if (pct.rejectedDraws > 0) warnings.push(`${pct.rejectedDraws} model draw(s) were physically impossible (e.g. a conductivity ≤ 0) and left out of the percentiles`);
+  return { pct, report: { realizations: N, seed, heatFlowErrorCorrelation: corr, rejectedDraws: pct.rejectedDraws, withHeatFlowSd: heatFlowSd !== null } };
+}
+
+interface LayerContext {
+  heatFlow: GridSpec;
+  out: ThermalGridBuffers;
+  o: ProductOptions;
+  maxDepthKm: number;
+  /** The method text shared by every layer. */
+  method: string;
+  toLonLat: (x: number, y: number) => [number, number];
+  add: (l: Omit<ProductLayer, 'stats'>) => void;
+}
+
+/** Depth-to-isotherm layers with their contours, and their P10/P50/P90 on the same legend. */
+async function isothermLayers(c: LayerContext, mc: { pct: Percentiles; report: MonteCarloReport } | null, step: (message: string) => Promise<void>): Promise<void> {
+  const { o, method, maxDepthKm } = c;
+  for (let k = 0; k < o.isothermsC.length; k++) {
+    const T = o.isothermsC[k];
+    const g = productGrid(c.heatFlow, c.out.isothermDepthKm[k], 'km');
+    const pk = mc?.pct.isotherms[k];
+    const legend = sharedRampLegend(DEPTH, 'km', pk ? [g.values, pk.p10, pk.p50, pk.p90] : [g.values]);
+    const interval = o.contourIntervalKm === undefined ? 1 : o.contourIntervalKm;
+    const contours = interval === null ? undefined : contourGrid(g, { interval, units: 'km', toLonLat: c.toLonLat });
+    c.add({ name: depthProductName(T), title: `Depth to the ${fmt(T)} °C isotherm`, units: 'km', grid: g, legend, ramp: DEPTH, method: `depth to the ${fmt(T)} °C isotherm (km below the surface; NoData where not reached above ${maxDepthKm} km), ${method}`, contours });
+    if (pk && mc) {
+      const r = mc.report;
+      for (const p of ['p10', 'p50', 'p90'] as const) {
+        c.add({
+          name: percentileProductName(T, p), title: `Depth to the ${fmt(T)} °C isotherm, ${p.toUpperCase()}`, units: 'km', grid: productGrid(c.heatFlow, pk[p], 'km'), legend, ramp: DEPTH,
+          method: `${p.toUpperCase()} (Hyndman & Fan type 7) of the depth to the ${fmt(T)} °C isotherm over ${r.realizations} Monte Carlo realizations (seed ${r.seed}, heat-flow error correlation "${r.heatFlowErrorCorrelation}"); not reached counts as deeper than any depth, NoData where the percentile falls there; ${method}`,
+        });
+      }
+    }
+    await step(`contours of ${depthProductName(T)}`);
+  }
+}
+
+/** Temperature-at-depth layers with their contours. */
+async function temperatureLayers(c: LayerContext, step: (message: string) => Promise<void>): Promise<void> {
+  const { o, method } = c;
+  for (let k = 0; k < o.depthsKm.length; k++) {
+    const d = o.depthsKm[k];
+    const g = productGrid(c.heatFlow, c.out.temperatureC[k], '°C');
+    const legend = sharedRampLegend(EMBER, '°C', [g.values]);
+    const st = layerStats(g.values);
+    const interval = o.contourIntervalC === null ? null : o.contourIntervalC ?? (st.min !== null && st.max !== null ? niceContourInterval(st.min, st.max) : null);
+    const contours = interval === null ? undefined : contourGrid(g, { interval, units: '°C', toLonLat: c.toLonLat });
+    c.add({ name: temperatureProductName(d), title: `Temperature at ${fmt(d)} km`, units: '°C', grid: g, legend, ramp: EMBER, method: `temperature at ${fmt(d)} km below the surface, ${method}`, contours });
+    await step(`contours of ${temperatureProductName(d)}`);
+  }
+}
+
+/** Facies, base heat flow, solidus depth, melt onset and the inconsistency flags. */
+function limitLayers(c: LayerContext, warnings: string[]): void {
+  const { o, out, method, maxDepthKm } = c;
+  const grid = (v: Float32Array, units: string) => productGrid(c.heatFlow, v, units);
+  if (o.faciesDepthKm !== null && out.facies !== null && out.faciesApproximate !== null) {
+    let approx = 0;
+    for (let i = 0; i < out.faciesApproximate.length; i++) approx += out.faciesApproximate[i];
+    if (approx > 0) warnings.push(`${approx} cell(s) of the facies grid lie within one boundary width (about ±50 °C, ±1.5 kbar) of another facies: facies boundaries are gradational`);
+    c.add({ name: faciesProductName(o.faciesDepthKm), title: `Metamorphic facies at ${fmt(o.faciesDepthKm)} km (approximate fields)`, units: 'class', grid: grid(out.facies, 'class'), legend: faciesLegend(), ramp: null, method: `facies field (the project's simplified P–T diagram, gradational boundaries) of the temperature at ${fmt(o.faciesDepthKm)} km and the lithostatic pressure there, ${method}` });
+  }
+  c.add({ name: BASE_HEAT_FLOW, title: 'Heat flow at the base of the model', units: 'mW/m²', grid: grid(out.baseHeatFlowMWm2, 'mW/m²'), legend: sharedRampLegend(EMBER, 'mW/m²', [out.baseHeatFlowMWm2]), ramp: EMBER, method: `heat flow at ${maxDepthKm} km: surface heat flow − ∫A dz over the model (negative where the model is inconsistent), ${method}` });
+  if (out.solidusDepthKm !== null) {
+    c.add({ name: SOLIDUS_DEPTH, title: 'Depth where the water-saturated solidus is reached', units: 'km', grid: grid(out.solidusDepthKm, 'km'), legend: sharedRampLegend(DEPTH, 'km', [out.solidusDepthKm]), ramp: DEPTH, method: `shallowest depth where the geotherm reaches the water-saturated solidus of the layer's rock (granite, Huang & Wyllie 1973, in sediment and felsic crust; basalt in mafic crust; peridotite in mantle) at lithostatic pressure: melting there if free water is present; NoData where not reached above ${maxDepthKm} km; ${method}` });
+  }
+  if (out.meltOnsetKm !== null) {
+    c.add({ name: MELT_ONSET, title: 'Melt onset (no temperatures below)', units: 'km', grid: grid(out.meltOnsetKm, 'km'), legend: sharedRampLegend(DEPTH, 'km', [out.meltOnsetKm]), ramp: DEPTH, method: `shallowest depth where the geotherm (the mantle adiabat below the lithosphere base) reaches the fluid-absent or dry solidus of the layer's rock (biotite dehydration melting, Le Breton & Thompson 1988, in sediment and felsic crust; dry basalt in mafic crust; dry peridotite, Hirschmann 2000, in mantle); the conductive column is not valid below it and the deeper grids have NoData there; NoData where not reached above ${maxDepthKm} km; ${method}` });
+  }
+  c.add({ name: INCONSISTENT, title: 'Cells where the model is inconsistent with the heat flow or melts', units: 'flag', grid: grid(out.inconsistent, 'flag'), legend: INCONSISTENT_LEGEND, ramp: null, method: `flag: 0 consistent, 1 heat flow reaches 0 inside the model, 2 k(T) undefined, 4 heat flow ≤ 0, 8 melt onset above ${maxDepthKm} km; ${method}` });
+}
+
+/**
+ * Thermal, facies, solidus, flag and percentile grids (with contours of the continuous ones) from a heat-flow grid
+ * (mW/m², in the CRS `crsDef`), its kriging standard deviation, a base model and optional override regions.
+ */
+export async function computeThermalProducts(
+  heatFlow: Grid<Float32Array>,
+  heatFlowSd: Grid<Float32Array> | null,
+  baseModel: ThermalModelInput,
+  regions: OverrideRegion[],
+  crsDef: string,
+  o: ProductOptions,
+  tick: ProductTick = () => {},
+): Promise<ThermalProductsResult> {
+  const warnings: string[] = [];
+  const timingsMs: Record<string, number> = {};
+  const W = heatFlow.width, H = heatFlow.height;
+  const t0 = now();
+  const z = zoneModelsOf(heatFlow, baseModel, regions, crsDef, o, warnings);
+  const spec = { heatFlow, models: z.compiled, zones: z.zones, isothermsC: o.isothermsC, depthsKm: o.depthsKm, faciesDepthKm: o.faciesDepthKm, maxDepthKm: z.maxDepthKm };
+  const plan = planThermalGrids(spec);
+  const out = allocateThermalGridBuffers(spec);
+  const tr = tileRowsFor(W, o.tileRows);
+  timingsMs.prepare = now() - t0;
+  const t1 = now();
+  for (let r = 0; r < H; r += tr) {
+    const r1 = Math.min(H, r + tr);
+    computeThermalGridRows(plan, r, r1, out);
+    await tick('thermal', r1 / H, `thermal grids: rows ${r1} of ${H}`);
+  }
+  timingsMs.thermal = now() - t1;
+  const counts = inconsistencyCounts(out.inconsistent);
+  warnings.push(...inconsistencyWarnings(counts, W * H));
+
+  // Monte Carlo percentiles (needed for the shared depth legends, so before the depth layers are assembled).
+  const t2 = now();
+  const mc = await monteCarloPass(heatFlow, heatFlowSd, z, o, tick, warnings);
+  if (mc !== null) timingsMs.monteCarlo = now() - t2;
+
+  const t3 = now();
+  const layers: ProductLayer[] = [];
+  const method = `steady 1-D conduction, layered, k(T) = k0/(1 + bT) by the Kirchhoff transform, constant or exponential heat production (Turcotte & Schubert 2002 §4-6, §4-8; Chapman 1986)${regions.length > 0 ? `; ${regions.length} regional model override(s)` : ''}`;
+  const c: LayerContext = { heatFlow, out, o, maxDepthKm: z.maxDepthKm, method, toLonLat: gridToLonLat(crsDef), add: (l) => layers.push({ ...l, stats: layerStats(l.grid.values) }) };
+  const contourJobs = Math.max(1, o.isothermsC.length + o.depthsKm.length);
+  let contoursDone = 0;
+  const step = (message: string) => Promise.resolve(tick('contours', ++contoursDone / contourJobs, message));
+  await isothermLayers(c, mc, step);
+  await temperatureLayers(c, step);
+  timingsMs.contours = now() - t3;
+  limitLayers(c, warnings);
+  return { layers, counts, zoneModels: z.zoneModels, maxDepthKm: z.maxDepthKm, warnings, timingsMs, monteCarlo: mc?.report ?? null };
+}
