@@ -58,8 +58,11 @@ describe('deadlines and queues through the routes', () => {
   });
 
   it('answers a band past its deadline with 503 deadline_exceeded and Retry-After; a full long queue with 503 server_busy at once; short bands meanwhile', async () => {
-    // A first short band starts the short pool's threads (a cold start counts against the deadline too).
-    expect((await shortColumn(2)).status).toBe(200);
+    // A first short band starts the short pool's threads. A cold start counts against the deadline too, and on a
+    // crowded machine it can take longer than the deadline: warm up until a band is answered.
+    let warm = 0;
+    for (let i = 0; i < 10 && warm !== 200; i++) warm = (await shortColumn(2)).status;
+    expect(warm).toBe(200);
     // The long pool takes one running and one waiting task; the third is refused before any work.
     const first = longColumn(SPIN_SEED);
     const second = longColumn(SPIN_SEED);
@@ -88,13 +91,13 @@ describe('deadlines and queues through the routes', () => {
     }
     const health = (await (await t.app.request('/api/health')).json()) as { computeTasks: { short: number; long: number } };
     expect(health.computeTasks).toMatchObject({ short: 0, long: 0 });
-  }, 120_000);
+  }, 180_000);
 });
 
 describe('a heat-in-place job past its deadline', () => {
   let t: TestApp;
   beforeAll(() => {
-    t = startTestApp('hip-deadline', { computeWorkerFile: DOUBLE, trustedProxies: ['local'], limits: { heatInPlaceDeadlineSeconds: 10 } });
+    t = startTestApp('hip-deadline', { computeWorkerFile: DOUBLE, trustedProxies: ['local'], limits: { heatInPlaceDeadlineSeconds: 30 } });
     const now = new Date().toISOString();
     t.store.putRun({ id: 'run_d', cacheKey: 'd', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model: demoModel, grids: [], client: 'test', createdAt: now, updatedAt: now });
     const meta = { width: 10, height: 10, west: -129, north: -37, dx: 0.05, dy: 0.05, crs: 'EPSG:4326', units: 'mW/m²' };
@@ -115,6 +118,8 @@ describe('a heat-in-place job past its deadline', () => {
     return ((await res.json()) as { url: string }).url;
   };
 
+  // The next job's deadline includes starting a new thread in place of the stopped one: 30 s leaves room for a
+  // crowded machine.
   it('fails the job with deadline_exceeded naming the limit, and the next job runs on the freed thread', async () => {
     const stuck = await waitJob(await job(SPIN_SEED, '10.2.0.1'));
     const e = ((await stuck.json()) as Err).error;
@@ -123,5 +128,5 @@ describe('a heat-in-place job past its deadline', () => {
     const next = await waitJob(await job(4, '10.2.0.2'));
     expect(next.status, await next.clone().text()).toBe(200);
     expect(((await next.json()) as { monteCarlo: { realizations: number } }).monteCarlo.realizations).toBe(10);
-  }, 120_000);
+  }, 180_000);
 });
