@@ -22,6 +22,9 @@ if (extra.length === 0) {
   typeFailed = run(bin('tsc'), ['--noEmit', '-p', '.']) === 0 ? 0 : 1;
 }
 
+// Compile the command line once, so the tests that start `bin/subtherm.mjs` do not each build it.
+if (run(process.execPath, [join(root, 'bin', 'build-cli.mjs')]) !== 0) process.stdout.write('command-line build failed: the CLI tests run the sources\n');
+
 const report = join(tmp, 'vitest-report.json');
 const code = run(bin('vitest'), ['run', '--reporter=default', '--reporter=json', `--outputFile.json=${report}`, ...extra]);
 let passed = 0;
