@@ -51,21 +51,37 @@ describe('grid Monte Carlo percentiles', () => {
     }
   });
 
-  it('equals the engine\'s single-column Monte Carlo with the cell\'s heat flow as a normal distribution (full correlation)', () => {
-    // Full correlation: realization r perturbs every cell by sd·z_r, z_r drawn after the model parameters from the
-    // realization's stream — exactly a column run whose heat flow is normal(q, sd) drawn after the parameters.
-    const u = computeUncertainty(base, 3);
-    for (const i of [0, 40, 77, 134]) {
-      const col = monteCarloColumn(uncertain, { realizations: 60, seed: 1234, isothermsC: [300, 500], depthsKm: [], maxDepthKm: 60, solidus: false, heatFlowMWm2: { dist: 'normal', mean: q.values[i], sd: sd.values[i] } });
-      for (let k = 0; k < 2; k++) {
-        const s = col.isothermDepthsKm[k];
-        for (const p of ['p10', 'p50', 'p90'] as const) {
-          if (Number.isNaN(s[p])) expect(u.isotherms[k][p][i]).toBeNaN();
-          else expect(u.isotherms[k][p][i]).toBeCloseTo(s[p], 4);
+  for (const corr of ['full', 'independent'] as const) {
+    it(`percentiles are the depths at the normal quantiles of each cell's heat flow (${corr} correlation)`, () => {
+      // A deterministic one-layer model, so only the heat-flow error varies: depth falls monotonically with q, and
+      // the cell's P10/P50/P90 depths are the depths at q + 1.2815516·sd, q, q − 1.2815516·sd (standard normal
+      // quantile, Abramowitz & Stegun 1964 Table 26.5). Depths from the closed form of Turcotte & Schubert (2002)
+      // §4-8 (constant k, exponential A): T(z) = T0 + qm·z/k + (A0·hr²/k)(1 − e^(−z/hr)), qm = q − A0·hr, solved by
+      // bisection here. Sample-quantile error σ·√(p(1 − p)/N)/φ(z_p) (from memory) through dz/dq, 4 of them allowed.
+      const model = parseModelText(JSON.stringify({
+        surfaceTemperatureC: 10,
+        layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: 2.5, heatProductionUWm3: 2, heatProductionDecayKm: 10, densityKgM3: 2700 }],
+      })).model;
+      const tsDepth = (q0: number, t: number) => {
+        const T = (z: number) => 10 + ((q0 - 20) * z) / 2.5 + ((2 * 100) / 2.5) * (1 - Math.exp(-z / 10));
+        let lo = 0, hi = 60;
+        for (let i = 0; i < 80; i++) { const mid = (lo + hi) / 2; if (T(mid) < t) lo = mid; else hi = mid; }
+        return (lo + hi) / 2;
+      };
+      const N = 1501;
+      const hf = grid(3, 2, (c, r) => 60 + 8 * c + 5 * r), hfSd = grid(3, 2, (c) => 3 + 2 * c);
+      const u = computeUncertainty({ heatFlow: hf, heatFlowSd: hfSd, models: [model], isothermsC: [300], maxDepthKm: 60, realizations: N, seed: 5, heatFlowErrorCorrelation: corr }, 2);
+      const z90 = 1.2815516, phi = (z: number) => Math.exp((-z * z) / 2) / Math.sqrt(2 * Math.PI);
+      for (let i = 0; i < 6; i++) {
+        const q0 = hf.values[i], sdq = hfSd.values[i];
+        const slope = Math.abs(tsDepth(q0 + 0.5, 300) - tsDepth(q0 - 0.5, 300));
+        for (const [p, zq, key] of [[0.1, z90, 'p10'], [0.5, 0, 'p50'], [0.9, -z90, 'p90']] as const) {
+          const tol = (4 * slope * sdq * Math.sqrt((p * (1 - p)) / N)) / phi(zq);
+          expect(Math.abs(u.isotherms[0][key][i] - tsDepth(q0 + zq * sdq, 300))).toBeLessThan(tol + 1e-3);
         }
       }
-    }
-  });
+    });
+  }
 
   it('counts an isotherm not reached as deeper than any depth: a percentile falling there is NoData', () => {
     // A cold cell: 500 °C is reached in few realizations above 20 km (maxDepth), so P90 (and P50) are NoData while

@@ -1,5 +1,6 @@
 import { describe, it, expect, beforeAll } from 'vitest';
 import { readFileSync } from 'node:fs';
+import geodesic from 'geographiclib-geodesic';
 import { parseFeatureCollection, type SampleCollection, type FaultCollection } from '../../shared/schema/features.ts';
 import { isogradLayer, computeIsogradsKm, sampleGrades, buildTrace, tracePieces, type IsogradLayer } from '../../shared/structure/index.ts';
 import { DOME, ZONE_IN_C, kmFromLonLat, truePeakTemperatureC } from '../../fixtures/field.ts';
@@ -7,6 +8,7 @@ import { DOME, ZONE_IN_C, kmFromLonLat, truePeakTemperatureC } from '../../fixtu
 // The demo region's truth (fixtures/truth.json, fixtures/field.ts: invented data). 402 samples over an 85-km dome:
 // four radial traverses, scattered samples, a traverse along each side of the F1 fault and short traverses across F2; the tolerances below are
 // what the method achieves there.
+const G = geodesic.Geodesic.WGS84;
 const truth = JSON.parse(readFileSync('fixtures/truth.json', 'utf8'));
 let L: IsogradLayer;
 let Lp: IsogradLayer;
@@ -47,8 +49,32 @@ describe('demo region: isograd positions', () => {
       expect(f.properties.isograd).toMatch(/-in$/);
       expect(f.properties.highSide).toBe('right');
       expect(Number.isInteger(f.properties.rank)).toBe(true);
-      expect(f.properties.samplesNearMidpoint).toBeGreaterThanOrEqual(0);
     }
+    // Support at the midpoint, recounted here: demo samples within supportRadiusKm of the point halfway along the
+    // line, by WGS84 geodesic distance (geographiclib, a general-purpose reference library). The line's vertices are
+    // in lon/lat here and in the layer's local km plane there, so a sample within 2 % of the radius may count either
+    // way: the reported count must lie between the counts at 0.98 and 1.02 of the radius.
+    const samples = JSON.parse(readFileSync('fixtures/demo/samples.geojson', 'utf8')).features.map((q: { geometry: { coordinates: number[] } }) => q.geometry.coordinates);
+    const dist = (a: number[], b: number[]) => G.Inverse(a[1], a[0], b[1], b[0]).s12! / 1000;
+    let checked = 0, positive = 0;
+    for (const f of L.lines.features.filter((q) => q.properties.probability === 0.5).slice(0, 12)) {
+      const c = f.geometry.coordinates;
+      const seg = c.slice(1).map((p, i) => dist(c[i], p));
+      let half = seg.reduce((a, b) => a + b, 0) / 2, mid = c[0];
+      for (let i = 0; i < seg.length; i++) {
+        if (half <= seg[i] && seg[i] > 0) { const u = half / seg[i]; mid = [c[i][0] + u * (c[i + 1][0] - c[i][0]), c[i][1] + u * (c[i + 1][1] - c[i][1])]; break; }
+        half -= seg[i];
+      }
+      const r = Number(f.properties.supportRadiusKm);
+      const near = samples.map((p: number[]) => dist(p, mid));
+      const lo = near.filter((d: number) => d <= 0.98 * r).length, hi = near.filter((d: number) => d <= 1.02 * r).length;
+      expect(f.properties.samplesNearMidpoint).toBeGreaterThanOrEqual(lo);
+      expect(f.properties.samplesNearMidpoint).toBeLessThanOrEqual(hi);
+      checked++;
+      if (lo > 0) positive++;
+    }
+    expect(checked).toBeGreaterThan(5);
+    expect(positive).toBeGreaterThan(0);
     // High side check on a sillimanite-in line: a point 1 km to the right of a segment is nearer the dome centre.
     const line = L.lines.features.filter((q) => q.properties.isograd === 'sillimanite-in' && q.properties.probability === 0.5).sort((a, b) => b.geometry.coordinates.length - a.geometry.coordinates.length)[0];
     const c = line.geometry.coordinates.map(([lon, lat]) => kmFromLonLat(lon, lat));
