@@ -149,7 +149,7 @@ td.n{text-align:right;font-variant-numeric:tabular-nums}.caution{border:2px soli
 <p class="small">${escapeHtml(TOOL_NAME)} ${escapeHtml(VERSION)} · model: ${escapeHtml(inputs.model ?? '—')} · ${escapeHtml(fmt(r.areaKm2))} km² in ${escapeHtml(r.cells)} cells${r.cellsNoData > 0 ? ` (+${escapeHtml(r.cellsNoData)} without data)` : ''}</p>
 <h2>Results</h2>
 ${totalsTable(r, conv)}
-<p class="small">${escapeHtml(m.percentiles)}. ${escapeHtml(m.exceedance)}. ${mc === null ? escapeHtml(`No Monte Carlo run: ${String(m.noRealizations)}.`) : escapeHtml(`${mc.accepted} of ${mc.realizations} realizations used (seed ${mc.seed}, heat-flow errors ${mc.heatFlowErrorCorrelation}).`)} ${escapeHtml(m.nominal)}.</p>
+<p class="small">${escapeHtml(m.percentiles)}. ${escapeHtml(m.exceedance)}. ${mc === null ? escapeHtml(`No Monte Carlo run: ${String(m.noRealizations)}.`) : escapeHtml(`${mc.accepted} of ${mc.realizations} realizations used (seed ${mc.seed}; ${mc.heatFlow}).`)} ${escapeHtml(m.nominal)}.</p>
 <h2>Map</h2>
 ${mapHtml}
 ${zones.length ? `<h2>Zones</h2><table><thead><tr><th>Zone</th><th>Area (km²)</th><th>Heat in place, P50 or nominal (EJ)</th><th>Electric P10</th><th>P50</th><th>P90 (MWe)</th></tr></thead><tbody>${zones

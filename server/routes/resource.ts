@@ -12,6 +12,7 @@
  * (vertices, realizations, cells × realizations, jobs in flight) is checked before the job is queued.
  */
 import type { Hono } from 'hono';
+import { readRunRecord } from '../runs/realizations.ts';
 import { z } from 'zod';
 import { InputError } from '../../shared/errors.ts';
 import { parseAreaPolygon, parseHeatInPlaceOptions, parseZonePolygons } from '../../shared/resource/index.ts';
@@ -113,7 +114,8 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
       runId: run.id,
       client: clientAddress(c, ctx.trustedProxies),
       work,
-      task: { kind: 'heat-in-place', runId: run.id, heatFlow: heat.grid, heatFlowSd: sd?.grid ?? null, model: run.model, body },
+      // With realizations, the job reads the run's own (server/runs/realizations.ts): the worker builds them from this record.
+      task: { kind: 'heat-in-place', runId: run.id, heatFlow: heat.grid, heatFlowSd: sd?.grid ?? null, model: run.model, body, record: options.realizations > 0 ? readRunRecord(ctx.store, run.id) : null },
     });
     return c.json(jobView(run.id, job, ctx.heatJobs.position(job)), 202, { location: `/api/runs/${encodeURIComponent(run.id)}/heat-in-place/${job.id}` });
   });

@@ -11,7 +11,7 @@
  * `signal`.
  */
 import type { Grid } from '../../shared/grid/grid.ts';
-import { runSummarySchema, type RunRequest, type RunSummary, type StructureSummary } from '../../shared/schema/run.ts';
+import { runSummarySchema, type HeatFlowCentralValues, type RunRequest, type RunSummary, type StructureSummary } from '../../shared/schema/run.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
 import { prepareInterpolation, type InterpolationResult, type PreparedInterpolation } from '../../shared/interp/interpolate.ts';
 import { heatFlowSurface } from '../../shared/products/heat-flow-surface.ts';
@@ -22,6 +22,7 @@ import { between, ProgressTracker, checkAbort, yieldToLoop, type Progress } from
 import { readRunInputs, type RunInputs } from './run-inputs.ts';
 import { crossValidationLayer, encodeProductLayer, heatFlowLayers, interpolationMethodText } from './run-layers.ts';
 import type { RunLayer, RunResult, SerializedGrid, StoredDataset } from './types.ts';
+import { runSimulationOptions, simulateRunHeatFlow, type HeatFlowSimulation } from './heat-flow-simulation.ts';
 
 export type { RunFile, RunLayer, RunResult, SerializedGrid, StoredDataset } from './types.ts';
 export type { Progress } from './progress.ts';
@@ -82,14 +83,14 @@ function runProvenance(inp: RunInputs, interp: InterpolationResult): Provenance 
   const g = interp.grid;
   const parameters = {
     isothermsC: inp.request.isothermsC, depthsKm: inp.request.depthsKm, faciesDepthKm: inp.faciesDepthKm, realizations: inp.request.realizations ?? 0, seed: inp.seed,
-    heatFlowErrorCorrelation: inp.heatFlowErrorCorrelation, grid: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: inp.crs },
+    heatFlowRealizations: (inp.request.realizations ?? 0) > 0 ? 'conditional simulation' : null, grid: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: inp.crs },
     interpolation: inp.interpolation, variogram: variogramParameters(interp),
   };
   return buildProvenance({ method: 'run', model: inp.doc.model, modelName: inp.doc.name, inputs: inp.hashes, parameters }, sha256Hex);
 }
 
 /** The run summary of the run contract (shared/schema/run.ts), checked against its schema. */
-function runSummary(inp: RunInputs, prep: PreparedInterpolation, interp: InterpolationResult, products: ThermalProductsResult, layers: RunLayer[], stages: StageSummaries, provenance: Provenance, timingsMs: Record<string, number>): RunSummary {
+function runSummary(inp: RunInputs, prep: PreparedInterpolation, interp: InterpolationResult, products: ThermalProductsResult, sim: HeatFlowSimulation | null, layers: RunLayer[], stages: StageSummaries, provenance: Provenance, timingsMs: Record<string, number>): RunSummary {
   const g = interp.grid, v = interp.variogram, cv = prep.crossValidation;
   const summary: RunSummary = {
     grid: { width: g.width, height: g.height, cells: g.width * g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: inp.crs, cellKm: interp.cellKm },
@@ -98,7 +99,7 @@ function runSummary(inp: RunInputs, prep: PreparedInterpolation, interp: Interpo
     isothermsC: inp.request.isothermsC, depthsKm: inp.request.depthsKm, faciesDepthKm: inp.faciesDepthKm, maxDepthKm: products.maxDepthKm,
     overrides: inp.regions.map((r) => r.label),
     inconsistent: products.counts,
-    monteCarlo: products.monteCarlo,
+    monteCarlo: products.monteCarlo === null ? null : { ...products.monteCarlo, ...(sim === null ? {} : { heatFlowSimulation: { ...sim.report, ...centralValues(interp.grid, sim) } }) },
     ...stages,
     layers: Object.fromEntries(layers.map((l) => [l.info.name, l.info.stats ?? null])),
     provenance: { tool: provenance.tool, version: provenance.version, contentHash: provenance.contentHash, inputs: provenance.inputs },
@@ -133,12 +134,49 @@ async function interpolateHeatFlow(inp: RunInputs, tracker: ProgressTracker, opt
   return { prep, interp };
 }
 
+/**
+ * The central values of the simulated heat flow beside the kriged map's, averaged over the cells with data
+ * (mW/m²): the mean, median and sd over realizations of the regional mean, and the kriged map's mean.
+ */
+function centralValues(heatFlow: Grid<Float32Array>, sim: HeatFlowSimulation): HeatFlowCentralValues {
+  const cells = heatFlow.values.length, N = sim.count;
+  let kriged = 0, n = 0;
+  for (let c = 0; c < cells; c++) { const v = heatFlow.values[c]; if (v === v) { kriged += v; n++; } }
+  if (n === 0) return { regionalMeanMWm2: null, regionalMedianMWm2: null, regionalMeanSdMWm2: null, krigedRegionalMeanMWm2: null, differenceMWm2: null };
+  const means = new Float64Array(N);
+  for (let r = 0; r < N; r++) { let s = 0; for (let c = 0; c < cells; c++) { const v = sim.values[r * cells + c]; if (v === v) s += v; } means[r] = s / n; }
+  let m = 0, ss = 0;
+  for (let r = 0; r < N; r++) m += means[r];
+  m /= N;
+  for (let r = 0; r < N; r++) ss += (means[r] - m) ** 2;
+  means.sort();
+  const h = (N - 1) * 0.5, k = Math.floor(h);
+  const med = k + 1 < N ? means[k] + (h - k) * (means[k + 1] - means[k]) : means[k];
+  return { regionalMeanMWm2: m, regionalMedianMWm2: med, regionalMeanSdMWm2: N > 1 ? Math.sqrt(ss / (N - 1)) : null, krigedRegionalMeanMWm2: kriged / n, differenceMWm2: m - kriged / n };
+}
+
+/** The run's heat-flow realizations: conditional simulations of the sites on the run's grid (none without realizations). */
+async function simulateHeatFlow(inp: RunInputs, interp: InterpolationResult, tracker: ProgressTracker, options: PipelineOptions, timingsMs: Record<string, number>, warnings: string[]): Promise<HeatFlowSimulation | null> {
+  const N = inp.request.realizations ?? 0;
+  if (N <= 0) return null;
+  tracker.report('simulate', 0, `simulating ${N} heat-flow fields conditioned on ${inp.points.ids.length} sites`);
+  await between(options.signal);
+  const t0 = now();
+  const sim = simulateRunHeatFlow(inp.points, runSimulationOptions(inp.interpolation), interp.grid, inp.crsDef, N, inp.seed);
+  timingsMs.simulate = now() - t0;
+  warnings.push(...sim.warnings.map((w) => `heat-flow simulation: ${w}`));
+  if (inp.faults !== null) warnings.push('heat-flow simulation: the simulated fields do not treat the faults as barriers (the kriged map does)');
+  tracker.finish('simulate', `${N} heat-flow fields simulated`);
+  return sim;
+}
+
 /** The thermal products, their progress mapped onto the run's stages. */
-function thermalProducts(inp: RunInputs, interp: InterpolationResult, tracker: ProgressTracker, options: PipelineOptions): Promise<ThermalProductsResult> {
+function thermalProducts(inp: RunInputs, interp: InterpolationResult, sim: HeatFlowSimulation | null, tracker: ProgressTracker, options: PipelineOptions): Promise<ThermalProductsResult> {
   const req = inp.request;
   const o = {
     isothermsC: req.isothermsC, depthsKm: req.depthsKm, faciesDepthKm: inp.faciesDepthKm, maxDepthKm: req.maxDepthKm, contourIntervalKm: req.contourIntervalKm ?? 1,
-    realizations: req.realizations ?? 0, seed: inp.seed, heatFlowErrorCorrelation: inp.heatFlowErrorCorrelation, tileRows: options.tileRows,
+    realizations: req.realizations ?? 0, seed: inp.seed, heatFlowErrorCorrelation: inp.heatFlowErrorCorrelation,
+    heatFlowRealizations: sim?.values, heatFlowSource: sim?.source, tileRows: options.tileRows,
   };
   return computeThermalProducts(interp.grid, interp.sd ?? null, inp.doc.model, inp.regions, inp.crsDef, o, async (stage, within, message) => {
     if (stage === 'contours') tracker.report('contours', within * 0.8, message);
@@ -159,7 +197,7 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
   const weights: Record<string, number> = { validate: 2, prepare: 6, interpolate: 30, thermal: 15, montecarlo: 0, contours: 8, encode: 20 };
   const inp = await readRunInputs(request, datasets);
   const req = inp.request;
-  if ((req.realizations ?? 0) > 0) weights.montecarlo = 30;
+  if ((req.realizations ?? 0) > 0) Object.assign(weights, { montecarlo: 30, simulate: 15 });
   for (const s of extra) weights[`extra:${s.name}`] = s.weight ?? 5;
   const tracker = new ProgressTracker(weights, options.progress);
   const warnings = [...inp.warnings];
@@ -171,7 +209,8 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
   warnings.push(...interp.warnings);
   const heatFlow = interp.grid, heatFlowSd = interp.sd ?? null;
   const provenance = runProvenance(inp, interp);
-  const products = await thermalProducts(inp, interp, tracker, options);
+  const sim = await simulateHeatFlow(inp, interp, tracker, options, timingsMs, warnings);
+  const products = await thermalProducts(inp, interp, sim, tracker, options);
   Object.assign(timingsMs, Object.fromEntries(Object.entries(products.timingsMs).map(([k, v]) => [`products.${k}`, v])));
   warnings.push(...products.warnings);
 
@@ -203,7 +242,7 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
     tracker.finish(key, `${s.name} done`);
   }
 
-  const summary = runSummary(inp, prep, interp, products, layers, stages, provenance, { ...timingsMs, total: now() - tStart });
+  const summary = runSummary(inp, prep, interp, products, sim, layers, stages, provenance, { ...timingsMs, total: now() - tStart });
   const grids = heatFlowSd ? { heatFlow: serialize(heatFlow), heatFlowSd: serialize(heatFlowSd) } : { heatFlow: serialize(heatFlow) };
   return { layers, summary, grids, model: inp.doc.model, warnings: [...new Set(warnings)] };
 }

@@ -2,13 +2,15 @@
  * A run's realizations: the one interface through which everything that needs the run's uncertainty reads it (the
  * spread and exceedance-probability layers, heat in place from a run). Realization r is the pair the run's own
  * P10/P50/P90 maps were computed from (shared/products/uncertainty.ts → prepareGridMonteCarlo): the model
- * parameters drawn from stream (seed, r), one draw per zone model in zone order, and the heat-flow field
- * q + sd·z with z the stream's next standard normal ("full" correlation) or a normal keyed by (seed, r, cell)
- * ("independent"). Reading them here reproduces the run's percentile maps exactly.
+ * parameters drawn from stream (seed, r), one draw per zone model in zone order, and the heat-flow field of
+ * realization r: a conditional simulation of the sites on the run's grid (server/runs/heat-flow-simulation.ts),
+ * simulated again here value for value (the run's checksum proves it). Runs made before simulation (and grids
+ * given without sites) keep the old field q + sd·z with z the stream's next standard normal ("full" correlation)
+ * or a normal keyed by (seed, r, cell) ("independent"). Reading them here reproduces the run's percentile maps.
  *
- * `loadRunRealizations` reads the run's stored grids and model; `realizationsFromGrids` builds the same from grids
- * in memory. A later source (e.g. conditional simulation of the heat-flow field) replaces `heatFlowAt` and the
- * `source` text behind the same interface; callers do not change.
+ * `loadRunRealizations` reads the run's stored record (`readRunRecord`, cheap store reads) and builds the
+ * realizations from it (`realizationsFromRecord`, the simulation's work); a worker thread gets the record and
+ * builds them itself. `realizationsFromGrids` builds them from grids in memory.
  */
 import { InputError } from '../../shared/errors.ts';
 import type { Grid, GridSpec } from '../../shared/grid/grid.ts';
@@ -20,13 +22,18 @@ import { createStream } from '../../shared/random/prng.ts';
 import { isUncertainModel, realizeModel, type CompiledModel, type ThermalModel } from '../../shared/thermal/index.ts';
 import { cellNormal, prepareGridMonteCarlo, type PreparedGridMonteCarlo } from '../../shared/thermal/monte-carlo.ts';
 import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
+import { interpolationOptionsSchema, pointsFromGeoJson } from '../../shared/schema/interp.ts';
 import type { Store } from '../store/types.ts';
+import { runSimulationOptions, simulateRunHeatFlow } from './heat-flow-simulation.ts';
 
 export interface RunRealizations {
   /** Number of realizations. */
   count: number;
   seed: number;
-  heatFlowErrorCorrelation: 'full' | 'independent';
+  /** The old per-cell error model, for runs made before simulation (null when the fields are simulated). */
+  heatFlowErrorCorrelation: 'full' | 'independent' | null;
+  /** The simulated heat-flow fields, realization-major (count × cells, mW/m²); null for the old error model. */
+  heatFlowValues: Float32Array | null;
   /** The grid every realization lives on (the run's heat-flow grid). */
   grid: GridSpec;
   /** Zone index per cell (0 = the base model, k = region k's override); undefined when there are no regions. */
@@ -55,6 +62,8 @@ export function realizationsFromGrids(input: {
   realizations: number;
   seed: number;
   heatFlowErrorCorrelation?: 'full' | 'independent';
+  /** Simulated heat-flow fields (realization-major, realizations × cells) and where they come from. */
+  heatFlowRealizations?: { values: Float32Array; source: string };
 }): RunRealizations {
   const N = input.realizations;
   if (!(Number.isInteger(N) && N >= 1)) throw new RangeError(`realizations must be a positive integer, got ${N}`);
@@ -66,6 +75,7 @@ export function realizationsFromGrids(input: {
     heatFlowMWm2: input.heatFlow.values,
     heatFlowSdMWm2: input.heatFlowSd?.values,
     heatFlowErrorCorrelation: corr,
+    heatFlowRealizationsMWm2: input.heatFlowRealizations?.values,
     isothermsC: [],
     depthsKm: [],
     maxDepthKm: input.maxDepthKm,
@@ -77,20 +87,24 @@ export function realizationsFromGrids(input: {
   const seed = input.seed;
   const { width, height, west, north, dx, dy, crs } = input.heatFlow;
   const withSd = sd !== undefined;
+  const sims = input.heatFlowRealizations?.values;
+  const cells = width * height;
   const sources = [
-    withSd ? `heat flow = kriged value + kriging sd × a standard normal (${corr === 'full' ? 'one per realization for all cells' : 'one per cell'})` : 'heat flow = the interpolated value (no standard deviation grid)',
+    sims !== undefined ? input.heatFlowRealizations!.source : withSd ? `heat flow = kriged value + kriging sd × a standard normal (${corr === 'full' ? 'one per realization for all cells' : 'one per cell'})` : 'heat flow = the interpolated value (no standard deviation grid)',
     input.zoneModels.some(isUncertainModel) ? 'model parameters drawn from their distributions once per realization' : 'model parameters fixed',
   ];
   return {
     count: N,
     seed,
-    heatFlowErrorCorrelation: corr,
+    heatFlowErrorCorrelation: sims === undefined ? corr : null,
+    heatFlowValues: sims ?? null,
     grid: { width, height, west, north, dx, dy, crs },
     zones: input.zones,
     zoneModels: input.zoneModels,
     maxDepthKm: input.maxDepthKm,
     source: `Monte Carlo, ${N} realizations, seed ${seed}, streams (seed, realization): ${sources.join('; ')}`,
     heatFlowAt(r, c) {
+      if (sims !== undefined) return q[c] === q[c] ? sims[r * cells + c] : NaN;
       const s = withSd ? sd[c] : 0;
       return s > 0 ? q[c] + s * (corr === 'independent' ? cellNormal(seed, r, c) : prep.fullNormal[r]) : q[c];
     },
@@ -111,48 +125,108 @@ export function realizationsFromGrids(input: {
   };
 }
 
-/**
- * The realizations of a finished run, from its stored grids, model and request. `realizations` overrides the
- * run's count (e.g. for a run made without Monte Carlo); otherwise a run with none is a 409.
- */
-export async function loadRunRealizations(store: Store, runId: string, opts: { realizations?: number } = {}): Promise<RunRealizations> {
+/** What building a run's realizations needs, read from the store (plain data: it crosses a thread boundary). */
+export interface RunRecord {
+  runId: string;
+  request: Record<string, unknown>;
+  summary: Record<string, unknown>;
+  model: ThermalModelInput;
+  heatFlow: Grid<Float32Array>;
+  heatFlowSd: Grid<Float32Array> | null;
+  /** Bodies of the run's sites and regions data sets (null when the run has none). */
+  sitesBody: string | null;
+  regionsBody: string | null;
+}
+
+interface StoredMonteCarlo {
+  realizations?: number;
+  seed?: number;
+  heatFlowErrorCorrelation?: 'full' | 'independent' | null;
+  heatFlowSimulation?: { checksum?: number };
+}
+
+/** Reads what a finished run's realizations are built from (store reads only; no computation). */
+export function readRunRecord(store: Store, runId: string): RunRecord {
   const run = store.getRun(runId);
   if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found');
   if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}; its realizations exist when it is done`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done');
-  const request = run.request as { regions?: string; realizations?: number; seed?: number; heatFlowErrorCorrelation?: 'full' | 'independent'; maxDepthKm?: number };
-  const summary = (run.summary ?? {}) as { maxDepthKm?: number; monteCarlo?: { realizations?: number; seed?: number; heatFlowErrorCorrelation?: 'full' | 'independent' } | null };
+  const request = (run.request ?? {}) as { regions?: string; sites?: string };
+  const summary = (run.summary ?? {}) as { monteCarlo?: StoredMonteCarlo | null };
+  const heat = store.getRunGrid(runId, 'heatFlow');
+  if (!heat) throw new InputError(`run ${runId} has no stored heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid');
+  const sdRec = store.getRunGrid(runId, 'heatFlowSd');
+  const body = (id: string | undefined, field: string): string | null => {
+    if (id === undefined) return null;
+    const ds = store.getDataset(id);
+    if (!ds) throw new InputError(`the ${field} data set "${id}" of run ${runId} is no longer stored`, [{ field, problem: 'not found' }], 'dataset_not_found');
+    return ds.body;
+  };
+  const simulated = summary.monteCarlo?.heatFlowSimulation !== undefined;
+  return {
+    runId,
+    request: run.request as Record<string, unknown>,
+    summary: run.summary as Record<string, unknown>,
+    model: run.model as ThermalModelInput,
+    heatFlow: { ...heat.meta, values: heat.values },
+    heatFlowSd: sdRec ? { ...sdRec.meta, values: sdRec.values } : null,
+    sitesBody: simulated ? body(request.sites, 'sites') : null,
+    regionsBody: body(request.regions, 'regions'),
+  };
+}
+
+/**
+ * The realizations of a finished run, from its stored grids, model, request and data sets. `realizations`
+ * overrides the run's count (e.g. for a run made without Monte Carlo); otherwise a run with none is a 409.
+ */
+export async function loadRunRealizations(store: Store, runId: string, opts: { realizations?: number } = {}): Promise<RunRealizations> {
+  return realizationsFromRecord(readRunRecord(store, runId), opts);
+}
+
+/** Builds a run's realizations from its record (simulating its heat-flow fields again when the run did). */
+export async function realizationsFromRecord(rec: RunRecord, opts: { realizations?: number } = {}): Promise<RunRealizations> {
+  const runId = rec.runId;
+  const request = rec.request as { regions?: string; realizations?: number; seed?: number; heatFlowErrorCorrelation?: 'full' | 'independent'; maxDepthKm?: number; interpolation?: unknown };
+  const summary = rec.summary as { maxDepthKm?: number; monteCarlo?: StoredMonteCarlo | null };
   const N = opts.realizations ?? summary.monteCarlo?.realizations ?? request.realizations ?? 0;
   if (!(Number.isInteger(N) && N >= 1)) {
     throw new InputError(`run ${runId} was made without realizations: start a run with "realizations" (e.g. 100) for spread and probability`, [{ field: 'realizations', problem: 'the run has none' }], 'run_without_realizations');
   }
-  const heat = store.getRunGrid(runId, 'heatFlow');
-  if (!heat) throw new InputError(`run ${runId} has no stored heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid');
-  const sdRec = store.getRunGrid(runId, 'heatFlowSd');
-  const heatFlow: Grid<Float32Array> = { ...heat.meta, values: heat.values };
-  const heatFlowSd: Grid<Float32Array> | null = sdRec ? { ...sdRec.meta, values: sdRec.values } : null;
-  const base = run.model as ThermalModelInput;
+  const heatFlow = rec.heatFlow;
+  const base = rec.model;
   const zoneModels: ThermalModelInput[] = [base];
   let zones: Uint16Array | undefined;
-  if (request.regions !== undefined) {
-    const ds = store.getDataset(request.regions);
-    if (!ds) throw new InputError(`the regions data set "${request.regions}" of run ${runId} is no longer stored`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found');
-    const found = overrideRegions(parseFeatureCollection('regions', JSON.parse(ds.body)).collection.features);
+  const crsDef = heatFlow.crs === 'EPSG:4326' ? WGS84_DEF : await loadCrsDefinition(heatFlow.crs);
+  if (rec.regionsBody !== null) {
+    const found = overrideRegions(parseFeatureCollection('regions', JSON.parse(rec.regionsBody)).collection.features);
     if (found.regions.length > 0) {
       zoneModels.push(...found.regions.map((r) => applyLayerOverride(base, r.override)));
-      const crsDef = heatFlow.crs === 'EPSG:4326' ? WGS84_DEF : await loadCrsDefinition(heatFlow.crs);
       const fromLonLat = crsDef === WGS84_DEF ? undefined : ((c) => (x: number, y: number) => c.forward([x, y]))(converter(WGS84_DEF, crsDef));
       zones = rasterizeZones(heatFlow, found.regions.map((r) => (fromLonLat === undefined ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => fromLonLat(p[0], p[1]))))));
     }
   }
   const deepest = Math.max(...zoneModels.map((m) => m.layers[m.layers.length - 1].bottomKm));
+  const seed = summary.monteCarlo?.seed ?? request.seed ?? 0;
+  let heatFlowRealizations: { values: Float32Array; source: string } | undefined;
+  const stored = summary.monteCarlo?.heatFlowSimulation;
+  if (stored !== undefined && rec.sitesBody !== null) {
+    const iopt = interpolationOptionsSchema.parse(request.interpolation);
+    const { points } = pointsFromGeoJson(JSON.parse(rec.sitesBody), 'heatFlowMWm2', { source: `data set of run ${runId}` });
+    const sim = simulateRunHeatFlow(points, runSimulationOptions(iopt), heatFlow, crsDef, N, seed);
+    // Realization 0 does not depend on the count: the same sum proves the same fields.
+    if (stored.checksum !== undefined && !(Math.abs(sim.checksum - stored.checksum) <= 1e-9 * Math.max(1, Math.abs(stored.checksum)))) {
+      throw new InputError(`run ${runId}: its heat-flow realizations cannot be reproduced by this version (checksum ${sim.checksum} against the run's ${stored.checksum}); run it again`, [{ field: 'runId', problem: 'realizations not reproducible' }], 'run_not_reproducible');
+    }
+    heatFlowRealizations = { values: sim.values, source: sim.source };
+  }
   return realizationsFromGrids({
     heatFlow,
-    heatFlowSd,
+    heatFlowSd: rec.heatFlowSd,
     zoneModels,
     zones,
     maxDepthKm: summary.maxDepthKm ?? request.maxDepthKm ?? deepest,
     realizations: N,
-    seed: summary.monteCarlo?.seed ?? request.seed ?? 0,
+    seed,
     heatFlowErrorCorrelation: summary.monteCarlo?.heatFlowErrorCorrelation ?? request.heatFlowErrorCorrelation ?? 'full',
+    heatFlowRealizations,
   });
 }

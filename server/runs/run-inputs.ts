@@ -4,6 +4,7 @@
  * faults (barriers), the regions (model overrides and the mask), the output CRS, and the SHA-256 of each input for
  * the provenance. Every problem is an InputError naming the field.
  */
+import { HEAT_FLOW_CORRELATION_DEPRECATED } from './heat-flow-simulation.ts';
 import { InputError, type InputProblem } from '../../shared/errors.ts';
 import type { Rings } from '../../shared/grid/polygon-cells.ts';
 import { runRequestSchema, type RunRequest } from '../../shared/schema/run.ts';
@@ -124,5 +125,6 @@ export async function readRunInputs(request: unknown, datasets: Record<string, S
     grid: { bbox: req.grid.bbox ?? iopt.bbox, cellKm: req.grid.cellKm ?? iopt.cellKm, size: req.grid.size ?? iopt.size, crs: crsDef === WGS84_DEF ? 'EPSG:4326' : crs, crsDef },
   };
   const faciesDepthKm = req.faciesDepthKm ?? (req.depthsKm.length > 0 ? Math.max(...req.depthsKm) : 10);
+  if (req.heatFlowErrorCorrelation !== undefined) warnings.push(HEAT_FLOW_CORRELATION_DEPRECATED);
   return { request: req, interpolation: iopt, points, doc, faults, regions, crs, crsDef, faciesDepthKm, seed: req.seed ?? 0, heatFlowErrorCorrelation: req.heatFlowErrorCorrelation ?? 'full', interpOptions, hashes, warnings };
 }

@@ -20,6 +20,8 @@ import { computeColumn, type ColumnQuery } from '../../shared/products/column.ts
 import { runGridOf } from '../runs/grids.ts';
 import { computeSection, linesOf, type LineFeature } from '../runs/section.ts';
 import { modelZones } from '../runs/zones.ts';
+import { realizationsFromRecord, type RunRecord } from '../runs/realizations.ts';
+import { HEAT_FLOW_CORRELATION_DEPRECATED } from '../runs/heat-flow-simulation.ts';
 import { applyWorkerNiceness } from './priority.ts';
 
 applyWorkerNiceness();
@@ -53,6 +55,8 @@ export interface HeatInPlaceTask {
   heatFlowSd: Grid<Float32Array> | null;
   model: unknown;
   body: HeatInPlaceBody;
+  /** The run's record when the job has realizations: they are the run's own (realizationsFromRecord). */
+  record: RunRecord | null;
 }
 
 export type ComputeTask = { kind: 'column'; query: ColumnQuery } | SectionTask | HeatInPlaceTask;
@@ -126,9 +130,25 @@ async function heatInPlace(t: HeatInPlaceTask): Promise<HeatInPlaceOutput> {
   const geo = await gridGeometry(t.heatFlow, polygon !== undefined || regions !== undefined);
   const zones = regions !== undefined ? { ...zonesFromPolygons(t.heatFlow, regions.map((r) => ({ name: r.name, polygons: polygonsOf(r.geometry) })), geo.centresLonLat), source: 'polygons' } : undefined;
   const label = (body.polygon as { properties?: { name?: unknown } } | undefined)?.properties?.name;
+  // The run's own realizations: its simulated heat-flow fields and its seed (so the model draws are the run's too).
+  let heatFlowRealizations: { values: Float32Array; source: string } | undefined;
+  let heatFlowSd = t.heatFlowSd ?? undefined;
+  const notes: string[] = [];
+  if (t.record !== null && options.realizations > 0) {
+    const rr = await realizationsFromRecord(t.record, { realizations: options.realizations });
+    const given = (body.options as { seed?: number } | undefined)?.seed;
+    if (given !== undefined && given !== rr.seed) notes.push(`the seed ${given} was replaced by the run's seed ${rr.seed}: the realizations are the run's own`);
+    options.seed = rr.seed;
+    if (rr.heatFlowValues !== null) {
+      heatFlowRealizations = { values: rr.heatFlowValues, source: rr.source };
+      heatFlowSd = undefined;
+      if ((body.options as { heatFlowErrorCorrelation?: unknown } | undefined)?.heatFlowErrorCorrelation !== undefined) notes.push(HEAT_FLOW_CORRELATION_DEPRECATED);
+    } else if (rr.heatFlowErrorCorrelation !== null) options.heatFlowErrorCorrelation = rr.heatFlowErrorCorrelation;
+  }
   const res = assessHeatInPlace({
     heatFlow: t.heatFlow,
-    heatFlowSd: t.heatFlowSd ?? undefined,
+    heatFlowSd,
+    heatFlowRealizations,
     model,
     modelLabel: model.name,
     polygon,
@@ -140,5 +160,6 @@ async function heatInPlace(t: HeatInPlaceTask): Promise<HeatInPlaceOutput> {
     options,
     inputHashes: { run: t.runId },
   });
+  res.report.warnings.unshift(...notes);
   return { report: res.report, html: resultHtml(res, outlineInGrid(polygon, geo.toGrid)), csv: reportCsv(res.report) };
 }

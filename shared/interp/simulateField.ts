@@ -162,10 +162,26 @@ export function simulateAtPoints(points: PointData, opts: SimulationOptions, tar
 export function simulateGrid(points: PointData, opts: SimulationOptions): SimulationResult & { grid: GridSpec; cellKm: number } {
   const { prep, ns, report } = prepare(points, opts, true);
   const g = prep.plan.grid;
+  const res = runOnCells(prep, ns, opts, report, g, prep.plan.gridCrsDef, prep.cellKm > 0 ? prep.cellKm : Infinity);
+  return { ...res, grid: g, cellKm: prep.cellKm };
+}
+
+/**
+ * Conditional realizations on the cells of a given grid (e.g. a run's heat-flow grid) in the CRS whose proj4
+ * definition is `gridCrsDef` (row-major, north row first); the grid options of `opts` are ignored.
+ */
+export function simulateOnGrid(points: PointData, opts: SimulationOptions, grid: GridSpec, gridCrsDef: string): SimulationResult {
+  const { grid: _ignored, ...rest } = opts;
+  const { prep, ns, report } = prepare(points, rest, false);
+  return runOnCells(prep, ns, rest, report, grid, gridCrsDef, Infinity);
+}
+
+/** Targets at the cell centres of `g` (local km of the data's projection), then the realizations. */
+function runOnCells(prep: PreparedInterpolation, ns: NormalScoreTransform | null, opts: SimulationOptions, report: TransformReport, g: GridSpec, gridCrsDef: string, cellKm: number): SimulationResult {
   const W = g.width, H = g.height, T = W * H;
   if (opts.realizations * T > (opts.maxValues ?? 150_000_000)) runAll(prep, ns, opts, new Float64Array(T), new Float64Array(T), 'lattice', 1, report); // throws the budget error
   const tx = new Float64Array(T), ty = new Float64Array(T);
-  const toLocal = converter(prep.plan.gridCrsDef, prep.plan.projection.def);
+  const toLocal = converter(gridCrsDef, prep.plan.projection.def);
   const rx = new Float64Array(W), ry = new Float64Array(W);
   for (let r = 0; r < H; r++) {
     rowCentresLocalKm(g, toLocal, r, rx, ry);
@@ -175,9 +191,8 @@ export function simulateGrid(points: PointData, opts: SimulationOptions): Simula
   const rc = Math.floor(H / 2), cc = Math.floor(W / 2), i0 = rc * W + cc;
   const sx = W > 1 ? Math.hypot(tx[i0 + (cc + 1 < W ? 1 : -1)] - tx[i0], ty[i0 + (cc + 1 < W ? 1 : -1)] - ty[i0]) : Infinity;
   const sy = H > 1 ? Math.hypot(tx[i0 + (rc + 1 < H ? W : -W)] - tx[i0], ty[i0 + (rc + 1 < H ? W : -W)] - ty[i0]) : Infinity;
-  const h = Math.min(sx, sy, prep.cellKm > 0 ? prep.cellKm : Infinity);
-  const res = runAll(prep, ns, opts, tx, ty, opts.sampler ?? 'lattice', Number.isFinite(h) ? h : undefined, report);
-  return { ...res, grid: g, cellKm: prep.cellKm };
+  const h = Math.min(sx, sy, cellKm);
+  return runAll(prep, ns, opts, tx, ty, opts.sampler ?? 'lattice', Number.isFinite(h) ? h : undefined, report);
 }
 
 const PROBS = [0.1, 0.5, 0.9];

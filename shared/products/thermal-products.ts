@@ -53,6 +53,12 @@ export interface ProductOptions {
   realizations?: number;
   seed?: number;
   heatFlowErrorCorrelation?: 'full' | 'independent';
+  /**
+   * Heat-flow realizations (realization-major, realizations × cells, mW/m²), e.g. conditional simulations: the
+   * Monte Carlo reads heat flow from them instead of q + sd·z; `heatFlowSource` says where they come from.
+   */
+  heatFlowRealizations?: Float32Array;
+  heatFlowSource?: string;
   tileRows?: number;
 }
 
@@ -63,7 +69,10 @@ export type ProductTick = (stage: ProductStage, fraction: number, message: strin
 export interface MonteCarloReport {
   realizations: number;
   seed: number;
-  heatFlowErrorCorrelation: 'full' | 'independent';
+  /** The old per-cell error model; null when the heat-flow realizations are given (simulated). */
+  heatFlowErrorCorrelation: 'full' | 'independent' | null;
+  /** Where each realization's heat flow comes from, in words. */
+  heatFlow: string;
   rejectedDraws: number;
   withHeatFlowSd: boolean;
 }
@@ -180,9 +189,10 @@ async function monteCarloPass(heatFlow: Grid<Float32Array>, heatFlowSd: Grid<Flo
   const W = heatFlow.width, H = heatFlow.height;
   const seed = o.seed ?? 0;
   const corr = o.heatFlowErrorCorrelation ?? 'full';
-  if (heatFlowSd === null && !z.zoneModels.some(isUncertainModel)) warnings.push('Monte Carlo with neither a heat-flow standard deviation nor model distributions: P10 = P50 = P90');
-  else if (heatFlowSd === null) warnings.push('no heat-flow standard deviation grid: the percentiles reflect the model parameters only');
-  const prep = prepareUncertainty({ heatFlow, heatFlowSd, models: z.zoneModels, zones: z.zones, isothermsC: o.isothermsC, maxDepthKm: z.maxDepthKm, realizations: N, seed, heatFlowErrorCorrelation: corr });
+  const sims = o.heatFlowRealizations;
+  if (sims === undefined && heatFlowSd === null && !z.zoneModels.some(isUncertainModel)) warnings.push('Monte Carlo with neither a heat-flow standard deviation nor model distributions: P10 = P50 = P90');
+  else if (sims === undefined && heatFlowSd === null) warnings.push('no heat-flow standard deviation grid: the percentiles reflect the model parameters only');
+  const prep = prepareUncertainty({ heatFlow, heatFlowSd, heatFlowRealizations: sims, models: z.zoneModels, zones: z.zones, isothermsC: o.isothermsC, maxDepthKm: z.maxDepthKm, realizations: N, seed, heatFlowErrorCorrelation: corr });
   const mout = allocateUncertaintyOutput(W * H, o.isothermsC.length);
   // Tiles sized so one tile's Monte Carlo is about as long as a thermal tile × 50.
   const mtr = Math.max(1, Math.floor(tileRowsFor(W, o.tileRows) / Math.max(1, Math.ceil(N / 50))));
@@ -193,7 +203,10 @@ async function monteCarloPass(heatFlow: Grid<Float32Array>, heatFlowSd: Grid<Flo
   }
   const pct = uncertaintyResult(prep, mout);
   if (pct.rejectedDraws > 0) warnings.push(`${pct.rejectedDraws} model draw(s) were physically impossible (e.g. a conductivity ≤ 0) and left out of the percentiles`);
-  return { pct, report: { realizations: N, seed, heatFlowErrorCorrelation: corr, rejectedDraws: pct.rejectedDraws, withHeatFlowSd: heatFlowSd !== null } };
+  const heatFlowText = sims !== undefined
+    ? (o.heatFlowSource ?? 'heat-flow realizations given')
+    : heatFlowSd !== null ? `kriged value + kriging sd × a standard normal (${corr === 'full' ? 'one per realization for all cells' : 'one per cell'})` : 'the interpolated heat flow (no spread)';
+  return { pct, report: { realizations: N, seed, heatFlowErrorCorrelation: sims === undefined ? corr : null, heatFlow: heatFlowText, rejectedDraws: pct.rejectedDraws, withHeatFlowSd: heatFlowSd !== null } };
 }
 
 interface LayerContext {
@@ -223,7 +236,7 @@ async function isothermLayers(c: LayerContext, mc: { pct: Percentiles; report: M
       for (const p of ['p10', 'p50', 'p90'] as const) {
         c.add({
           name: percentileProductName(T, p), title: `Depth to the ${fmt(T)} °C isotherm, ${p.toUpperCase()}`, units: 'km', grid: productGrid(c.heatFlow, pk[p], 'km'), legend, ramp: DEPTH,
-          method: `${p.toUpperCase()} (Hyndman & Fan type 7) of the depth to the ${fmt(T)} °C isotherm over ${r.realizations} Monte Carlo realizations (seed ${r.seed}, heat-flow error correlation "${r.heatFlowErrorCorrelation}"); not reached counts as deeper than any depth, NoData where the percentile falls there; ${method}`,
+          method: `${p.toUpperCase()} (Hyndman & Fan type 7) of the depth to the ${fmt(T)} °C isotherm over ${r.realizations} Monte Carlo realizations (seed ${r.seed}; ${r.heatFlow}); not reached counts as deeper than any depth, NoData where the percentile falls there; ${method}`,
         });
       }
     }

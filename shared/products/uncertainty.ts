@@ -28,6 +28,8 @@ export interface UncertaintySpec {
   realizations: number;
   seed: number;
   heatFlowErrorCorrelation?: 'full' | 'independent';
+  /** Heat-flow realizations (realization-major, realizations × cells, mW/m²): replace q + sd·z when given. */
+  heatFlowRealizations?: Float32Array;
 }
 
 export interface UncertaintyGrids {
@@ -53,6 +55,7 @@ export function prepareUncertainty(spec: UncertaintySpec): PreparedGridMonteCarl
     heatFlowMWm2: g.values,
     heatFlowSdMWm2: sd === null ? undefined : sd.values,
     heatFlowErrorCorrelation: spec.heatFlowErrorCorrelation ?? 'full',
+    heatFlowRealizationsMWm2: spec.heatFlowRealizations,
     isothermsC: spec.isothermsC,
     depthsKm: [],
     maxDepthKm: spec.maxDepthKm,

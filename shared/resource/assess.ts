@@ -25,6 +25,12 @@ type AnyGrid = Grid<Float32Array | Float64Array>;
 export interface HeatInPlaceInput {
   heatFlow: AnyGrid;
   heatFlowSd?: AnyGrid;
+  /**
+   * Heat-flow realizations on the heat-flow grid (realization-major, options.realizations × cells, mW/m²), e.g.
+   * conditional simulations: the Monte Carlo then draws heat flow from them (heatFlowSd is not used) and
+   * `source` says where they come from.
+   */
+  heatFlowRealizations?: { values: Float32Array; source: string };
   model: ThermalModelInput;
   /** Name of the model for the report (default its `name`). */
   modelLabel?: string;
@@ -56,7 +62,7 @@ export interface HeatInPlaceReport extends AreaTotals {
   totals: { grid: AreaTotals; polygon: (AreaTotals & { polygonAreaKm2: number; label: string | null }) | null; zones: (AreaTotals & { zone: string })[] | null };
   method: Record<string, unknown>;
   inputs: Record<string, unknown>;
-  monteCarlo: { realizations: number; accepted: number; rejected: number; firstRejection: string | null; seed: number; heatFlowErrorCorrelation: string } | null;
+  monteCarlo: { realizations: number; accepted: number; rejected: number; firstRejection: string | null; seed: number; heatFlowErrorCorrelation: string | null; heatFlow: string } | null;
   densityRange: { heatPJkm2: { min: number | null; max: number | null }; electricMWekm2: { min: number | null; max: number | null } };
   warnings: string[];
   caution: string;
@@ -125,11 +131,16 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
     warnings.push(`cell areas are dx·dy in the plane of ${g.crs}, not ground areas: the projection's areal scale factor is not corrected (it is far from 1 in some projections, e.g. 1/cos²φ in Web Mercator)`);
   }
 
+  const sims = input.heatFlowRealizations;
+  if (sims !== undefined && sims.values.length !== o.realizations * cells) {
+    throw new InputError(`the heat-flow realizations hold ${sims.values.length} values, not ${o.realizations} realizations × ${cells} cells`, [{ field: 'realizations', problem: `expected ${o.realizations * cells} values` }], 'grid_mismatch');
+  }
   const spec: ResourceSpec = {
     models: [input.model],
     heatFlowMWm2: g.values,
-    heatFlowSdMWm2: input.heatFlowSd?.values,
+    heatFlowSdMWm2: sims === undefined ? input.heatFlowSd?.values : undefined,
     heatFlowErrorCorrelation: o.heatFlowErrorCorrelation,
+    heatFlowRealizationsMWm2: sims?.values,
     width: g.width,
     rowAreaM2: areas.rowAreaM2,
     ...(cellAreaM2 === undefined ? {} : { cellAreaM2 }),
@@ -165,10 +176,10 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
   if (sdMissing > 0) warnings.push(`${sdMissing} cells have heat flow but no standard deviation: their heat flow is taken as exact`);
   const N = o.realizations;
   if (N > 0) {
-    const anyUncertain = isUncertainModel(input.model) || input.heatFlowSd !== undefined || [o.rhoCMJm3K, o.recoveryFactor, o.utilizationEfficiency, o.conversionEfficiency].some((v) => v !== undefined && typeof v !== 'number');
+    const anyUncertain = isUncertainModel(input.model) || input.heatFlowSd !== undefined || sims !== undefined || [o.rhoCMJm3K, o.recoveryFactor, o.utilizationEfficiency, o.conversionEfficiency].some((v) => v !== undefined && typeof v !== 'number');
     if (!anyUncertain) warnings.push('nothing is uncertain (no distributions, no heat-flow standard deviation): every realization is the same');
     if (prep.rejected > 0) warnings.push(`${prep.rejected} of ${N} realizations had physically impossible draws and were left out (first: ${prep.firstRejection})`);
-    if (input.heatFlowSd === undefined) warnings.push('no heat-flow standard deviation given: the ranges reflect the model and parameter distributions only');
+    if (input.heatFlowSd === undefined && sims === undefined) warnings.push('no heat-flow standard deviation given: the ranges reflect the model and parameter distributions only');
   }
   if (input.zones !== undefined && input.zones.overlapCells > 0) warnings.push(`${input.zones.overlapCells} cells lie in more than one region polygon; each is counted in the first`);
   warnings.push(...prep.nominal.models[0].warnings.filter((w) => !/no densityKgM3/.test(w)));
@@ -222,10 +233,14 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
       model: input.modelLabel ?? input.model.name ?? null,
       grid: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, cellsWithData: dataCells },
       heatFlowSd: input.heatFlowSd !== undefined,
+      heatFlowRealizations: sims !== undefined,
       polygon: input.polygon !== undefined ? (input.polygonLabel ?? 'given') : null,
       zones: input.zones?.source ?? null,
     },
-    monteCarlo: N > 0 ? { realizations: N, accepted: N - prep.rejected, rejected: prep.rejected, firstRejection: prep.firstRejection, seed: o.seed, heatFlowErrorCorrelation: o.heatFlowErrorCorrelation } : null,
+    monteCarlo: N > 0 ? { realizations: N, accepted: N - prep.rejected, rejected: prep.rejected, firstRejection: prep.firstRejection, seed: o.seed,
+      heatFlowErrorCorrelation: sims === undefined && input.heatFlowSd !== undefined ? o.heatFlowErrorCorrelation : null,
+      heatFlow: sims !== undefined ? sims.source : input.heatFlowSd !== undefined ? `kriged value + sd × a standard normal (${o.heatFlowErrorCorrelation === 'independent' ? 'one per cell' : 'one per realization for all cells'}; deprecated: simulate from the points instead)` : 'the heat-flow grid as given (no spread)',
+    } : null,
     densityRange: {
       heatPJkm2: minMax(N > 0 ? out.heatPJkm2!.p50 : out.nominalHeatPJkm2),
       electricMWekm2: minMax(N > 0 ? out.electricMWekm2!.p50 : out.nominalElectricMWekm2),

@@ -60,6 +60,12 @@ export interface ResourceSpec {
   heatFlowSdMWm2?: Floats;
   /** 'full' (default): one standard normal per realization for all cells; 'independent': one per cell. */
   heatFlowErrorCorrelation?: 'full' | 'independent';
+  /**
+   * Heat-flow realizations, realization-major (realization r, cell c at r·cells + c), mW/m², e.g. conditional
+   * simulations: when given they replace q + sd·z in realization r (sd and the correlation are then unused); a
+   * cell whose heatFlowMWm2 is NaN stays no data. Totals are then sums over each simulated field.
+   */
+  heatFlowRealizationsMWm2?: Float32Array;
   /** Grid width (cells per row), to find a cell's row. */
   width: number;
   /** Area of one cell of each row, m² (length = grid height). */
@@ -158,11 +164,19 @@ export function prepareResource(spec: ResourceSpec): PreparedResource {
   if (np !== null) throw new RangeError(`nominal parameters impossible: ${np}`);
 
   // Heat-flow range every realization's table must cover (the whole grid's, so it never depends on the chunk).
-  const q = spec.heatFlowMWm2, sd = spec.heatFlowSdMWm2;
+  const q = spec.heatFlowMWm2, sd = spec.heatFlowSdMWm2, sims = spec.heatFlowRealizationsMWm2;
+  if (sims !== undefined && sims.length !== N * cells) throw new RangeError(`heatFlowRealizationsMWm2 needs ${N} × ${cells} values, got ${sims.length}`);
   let lo = Infinity, hi = -Infinity;
   for (let c = 0; c < cells; c++) {
     const v = q[c];
     if (!(v === v)) continue;
+    if (sims !== undefined) {
+      let a = v, b = v;
+      for (let r = 0; r < N; r++) { const x = sims[r * cells + c]; if (x < a) a = x; if (x > b) b = x; }
+      if (a < lo) lo = a;
+      if (b > hi) hi = b;
+      continue;
+    }
     const s = sd === undefined ? 0 : sd[c] > 0 ? sd[c] : 0;
     const a = v - TABLE_SD_SPAN * s, b = v + TABLE_SD_SPAN * s;
     if (a < lo) lo = a;
@@ -400,7 +414,7 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
         columnHeat(cm, q0, cm.surfaceTemperatureC, w, states[zi], sc, ch);
         o[0] = ch.heatKm; o[1] = ch.exergyKm; o[2] = ch.thicknessM;
       };
-      realizationBlock(tabs as HeatTable[], q, sd, independent ? spec.seed : NaN, r, zr, zones, b0, b1, rowOff, heatF, elecF, bufH, bufE, blockArea, mask, labels, acc, zoneAcc, fallback);
+      realizationBlock(tabs as HeatTable[], q, sd, spec.heatFlowRealizationsMWm2, r * cells, independent ? spec.seed : NaN, r, zr, zones, b0, b1, rowOff, heatF, elecF, bufH, bufE, blockArea, mask, labels, acc, zoneAcc, fallback);
       const gG = acc[0], gX = acc[1], gV = acc[2], gA = acc[3], pG = acc[4], pX = acc[5], pV = acc[6], pA = acc[7];
       let k = (blk * S * NR + r) * K;
       sums[k] = gG; sums[k + 1] = gX; sums[k + 2] = gV; sums[k + 3] = gA;
@@ -444,10 +458,11 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
 /**
  * One realization over cells [b0, b1): heat-flow draw, table lookup (lookupHeatTable inlined: this loop runs cells ×
  * realizations times), densities into bufH/bufE, and the sums of the grid (acc[0..3]), the polygon (acc[4..7]) and
- * the zones (zoneAcc). seedIndependent is the seed for independent heat-flow errors, NaN for fully correlated ones.
+ * the zones (zoneAcc). seedIndependent is the seed for independent heat-flow errors, NaN for fully correlated ones;
+ * `sims` (with this realization's offset `simOff`) replaces the heat-flow draw by a simulated field.
  */
 function realizationBlock(
-  tabs: HeatTable[], q: Floats, sd: Floats | undefined, seedIndependent: number, r: number, zr: number,
+  tabs: HeatTable[], q: Floats, sd: Floats | undefined, sims: Float32Array | undefined, simOff: number, seedIndependent: number, r: number, zr: number,
   zones: Uint8Array | Uint16Array | Uint32Array | undefined, b0: number, b1: number, rowOff: number, heatF: number, elecF: number,
   bufH: Float64Array, bufE: Float64Array, blockArea: Float64Array, mask: Uint8Array | undefined, labels: Int32Array | undefined,
   acc: Float64Array, zoneAcc: Float64Array, fallback: (zi: number, q0: number, o: Float64Array) => void,
@@ -467,7 +482,8 @@ function realizationBlock(
       bufE[j] = NaN;
       continue;
     }
-    if (sd !== undefined) {
+    if (sims !== undefined) q0 = sims[simOff + c];
+    else if (sd !== undefined) {
       const s = sd[c];
       if (s > 0) q0 += s * (independent ? cellNormal(seedIndependent, r, c) : zr);
     }

@@ -124,11 +124,36 @@ export const inconsistencyCountsSchema = z.strictObject({
 export const monteCarloSummarySchema = z.strictObject({
   realizations: z.number().int().min(1),
   seed: z.number().int().min(0),
-  heatFlowErrorCorrelation: z.enum(['full', 'independent']),
+  /** The old per-cell error model (deprecated); null when the heat-flow fields are conditional simulations. */
+  heatFlowErrorCorrelation: z.enum(['full', 'independent']).nullable(),
+  /** Where each realization's heat flow comes from, in words. */
+  heatFlow: z.string(),
   /** Model draws that were physically impossible and left out of the percentiles. */
   rejectedDraws: z.number().int().min(0),
   withHeatFlowSd: z.boolean(),
+  /** The conditional simulation of the heat-flow fields (server/runs/heat-flow-simulation.ts). */
+  heatFlowSimulation: z
+    .strictObject({
+      method: z.string(),
+      variogram: z.strictObject({ model: z.string(), nugget: z.number(), partialSill: z.number(), rangeKm: z.number(), anisotropy: z.strictObject({ angleDeg: z.number(), ratio: z.number() }).nullable(), source: z.string(), space: z.string() }),
+      transform: z.enum(['normal-score', 'none']),
+      sampler: z.enum(['cholesky', 'lattice']),
+      neighbors: z.union([z.number(), z.literal('all')]),
+      streams: z.string(),
+      /** Sum of realization 0 over the cells with data: a re-simulation must give the same. */
+      checksum: z.number(),
+      /** Mean, median and sd over the realizations of the regional mean heat flow, the kriged map's, and the difference (mW/m²). */
+      regionalMeanMWm2: z.number().nullable(),
+      regionalMedianMWm2: z.number().nullable(),
+      regionalMeanSdMWm2: z.number().nullable().optional(),
+      krigedRegionalMeanMWm2: z.number().nullable(),
+      differenceMWm2: z.number().nullable(),
+    })
+    .optional(),
 });
+
+export type HeatFlowSimulationSummary = NonNullable<z.infer<typeof monteCarloSummarySchema>['heatFlowSimulation']>;
+export type HeatFlowCentralValues = Pick<HeatFlowSimulationSummary, 'regionalMeanMWm2' | 'regionalMedianMWm2' | 'regionalMeanSdMWm2' | 'krigedRegionalMeanMWm2' | 'differenceMWm2'>;
 
 /** A fault's row of the structural report (shared/structure/layer.ts: faultSummary); further members pass through. */
 export const faultReportRowSchema = z.looseObject({ id: z.string() });

@@ -158,6 +158,12 @@ export interface GridMonteCarloSpec {
   heatFlowSdMWm2?: Floats;
   /** "full": one standard normal per realization for all cells (default, conservative); "independent": one per cell. */
   heatFlowErrorCorrelation?: 'full' | 'independent';
+  /**
+   * Heat-flow realizations, realization-major (realization r, cell c at r·cells + c), mW/m², e.g. conditional
+   * simulations: when given they replace q + sd·z (sd and the correlation are then unused); a cell whose
+   * heatFlowMWm2 is NaN stays no data.
+   */
+  heatFlowRealizationsMWm2?: Float32Array;
   /** Per-cell surface temperature, °C (default each realization's model value). */
   surfaceTemperatureC?: Floats;
   isothermsC: number[];
@@ -236,6 +242,8 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
   const N = spec.realizations;
   const q = spec.heatFlowMWm2, sdq = spec.heatFlowSdMWm2, zones = spec.zones, t0s = spec.surfaceTemperatureC;
   const independent = spec.heatFlowErrorCorrelation === 'independent';
+  const sims = spec.heatFlowRealizationsMWm2, cells = q.length;
+  if (sims !== undefined && sims.length !== N * cells) throw new RangeError(`heatFlowRealizationsMWm2 needs ${N} × ${cells} values, got ${sims.length}`);
   if (!(start >= 0 && end <= q.length && start <= end)) throw new RangeError(`bad cell range [${start}, ${end}) for ${q.length} cells`);
   const nIso = spec.isothermsC.length, nDep = spec.depthsKm.length, nQ = nIso + nDep;
   if (out.isotherms.length !== nIso || out.temperatures.length !== nDep) throw new RangeError('one output set per isotherm and per depth is needed');
@@ -264,7 +272,9 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
         const cm = row[zi];
         if (cm === undefined) throw new RangeError(`cell ${c}: zone ${zi} has no model`);
         let q0 = q[c];
-        if (sdq !== undefined) {
+        if (sims !== undefined) {
+          if (q0 === q0) q0 = sims[r * cells + c];
+        } else if (sdq !== undefined) {
           const s = sdq[c];
           if (s > 0) q0 += s * (independent ? cellNormal(spec.seed, r, c) : zr);
         }

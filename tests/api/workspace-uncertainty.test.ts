@@ -20,6 +20,33 @@ beforeAll(async () => {
 afterAll(() => t.close());
 
 describe('uncertainty layers from the run\'s realizations', () => {
+  it('simulates the run\'s heat-flow fields conditionally, and heat in place over the run reads those same fields', async () => {
+    const run = (await (await t.app.request(`/api/runs/${runId}`)).json()) as { summary: { monteCarlo: { heatFlow: string; heatFlowErrorCorrelation: unknown; heatFlowSimulation: { checksum: number; variogram: { space: string }; regionalMeanMWm2: number; regionalMeanSdMWm2: number; krigedRegionalMeanMWm2: number } } } };
+    const mc = run.summary.monteCarlo;
+    expect(mc.heatFlow).toMatch(/conditional simulations of the sites/);
+    expect(mc.heatFlowErrorCorrelation).toBeNull();
+    expect(mc.heatFlowSimulation.variogram.space).toBe('normal scores');
+    expect(Number.isFinite(mc.heatFlowSimulation.checksum)).toBe(true);
+    // The regional mean of 20 coherent fields spreads far less than the cells' kriging sd (a few mW/m²), and its
+    // average lies near the kriged map's regional mean.
+    expect(mc.heatFlowSimulation.regionalMeanSdMWm2).toBeGreaterThan(0);
+    const hip = await t.post(`/api/runs/${runId}/heat-in-place`, { options: { realizations: 20, seed: 99, minTempC: 100 } });
+    expect(hip.status).toBe(202);
+    const { url } = (await hip.json()) as { url: string };
+    let report: Response = await t.app.request(url);
+    for (let i = 0; i < 3000 && report.status === 202; i++) {
+      await new Promise((res) => setTimeout(res, 20));
+      report = await t.app.request(url);
+    }
+    expect(report.status).toBe(200);
+    const r = (await report.json()) as { monteCarlo: { seed: number; heatFlow: string; heatFlowErrorCorrelation: unknown }; heatInPlaceEJ: { p10: number; p90: number }; warnings: string[] };
+    expect(r.monteCarlo.seed).toBe(3);
+    expect(r.monteCarlo.heatFlow).toMatch(/conditional simulations of the sites/);
+    expect(r.monteCarlo.heatFlowErrorCorrelation).toBeNull();
+    expect(r.warnings.some((w) => /seed 99 was replaced by the run's seed 3/.test(w))).toBe(true);
+    expect(r.heatInPlaceEJ.p90).toBeGreaterThan(r.heatInPlaceEJ.p10);
+  }, 120_000);
+
   it('gives the spread P90 − P10 equal to the run\'s own P10 and P90 maps', async () => {
     const res = await t.app.request(`/api/runs/${runId}/spread?isothermC=300`);
     expect(res.status).toBe(200);

@@ -1,0 +1,106 @@
+/**
+ * The heat-flow realizations of a run: conditional simulations (shared/interp/simulateField.ts) of the sites' heat
+ * flow on the run's grid, one field per realization, spatially coherent and honouring the data. The run's Monte
+ * Carlo (percentile maps), its spread and probability layers and heat in place over the run all read these same
+ * fields (server/runs/realizations.ts), so a regional total's spread is the spread of the simulated regional field,
+ * not one shift of every cell nor independent cells.
+ *
+ * Deterministic in (sites, interpolation options, grid, realizations, seed): a run's realizations are simulated once
+ * while it runs and again, value for value, when a later reader asks for them (the run stores a checksum of them to
+ * prove it). The simulation draws from its own streams, keyed by seed + 2³² (run seeds are below 2³²), so the
+ * heat-flow fields are independent of the model-parameter draws, which use streams keyed by the seed itself.
+ */
+import { InputError } from '../../shared/errors.ts';
+import type { Grid } from '../../shared/grid/grid.ts';
+import type { PointData } from '../../shared/interp/interpolate.ts';
+import { simulateOnGrid, type SimulationOptions } from '../../shared/interp/simulateField.ts';
+import type { HeatFlowCentralValues, HeatFlowSimulationSummary } from '../../shared/schema/run.ts';
+import type { Anisotropy, VariogramModel, VariogramModelName } from '../../shared/interp/variogram.ts';
+
+/** Offset between a run's seed and the key of its heat-flow simulation streams. */
+export const SIMULATION_STREAM_OFFSET = 2 ** 32;
+/** Largest realizations × cells of simulated heat flow held by one run (Float32: 600 MiB). */
+export const MAX_SIMULATED_VALUES = 150_000_000;
+
+/** The warning of a request that still names heatFlowErrorCorrelation. */
+export const HEAT_FLOW_CORRELATION_DEPRECATED =
+  'heatFlowErrorCorrelation is deprecated and no longer used: a run\'s heat-flow realizations are conditional simulations of the sites (spatially coherent, honouring the data), which replace both "full" (one shift of every cell) and "independent" (unrelated cells); drop the field from the request';
+
+/** The interpolation options of a run that the simulation follows. */
+export interface RunSimulationOptions {
+  variogram?: 'auto' | VariogramModelName | VariogramModel;
+  anisotropy?: Anisotropy | null;
+  neighbors?: number | 'all';
+  lagKm?: number;
+  maxLagKm?: number;
+  measurementError?: boolean;
+}
+
+/** The run's interpolation options that its heat-flow simulation follows (IDW runs: the simulation's defaults). */
+export function runSimulationOptions(iopt: { variogram?: RunSimulationOptions['variogram']; anisotropy?: RunSimulationOptions['anisotropy']; neighbors?: number | 'all'; lagKm?: number; maxLagKm?: number; measurementError?: boolean; method: string }): RunSimulationOptions {
+  return { variogram: iopt.variogram, anisotropy: iopt.anisotropy ?? null, neighbors: iopt.method === 'kriging' ? iopt.neighbors : undefined, lagKm: iopt.lagKm, maxLagKm: iopt.maxLagKm, measurementError: iopt.measurementError };
+}
+
+export interface HeatFlowSimulation {
+  /** Realization-major values (realization r, cell c at r·cells + c), mW/m²; NaN where the run's grid has no data. */
+  values: Float32Array;
+  count: number;
+  seed: number;
+  /** Sum of realization 0 over its cells with data (proves a later re-simulation gives the same fields). */
+  checksum: number;
+  /** What the summary reports: method, variogram (of the normal scores), transform, sampler. */
+  report: Omit<HeatFlowSimulationSummary, keyof HeatFlowCentralValues>;
+  /** Where the draws come from, in words. */
+  source: string;
+  warnings: string[];
+}
+
+/**
+ * Simulates `count` heat-flow fields on `grid` (its CRS's proj4 definition `crsDef`), conditioned on the sites.
+ * Cells where `grid` has no data (masked, beyond the search distance) stay NaN.
+ */
+export function simulateRunHeatFlow(points: PointData, o: RunSimulationOptions, grid: Grid<Float32Array>, crsDef: string, count: number, seed: number): HeatFlowSimulation {
+  const cells = grid.width * grid.height;
+  if (count * cells > MAX_SIMULATED_VALUES) {
+    throw new InputError(
+      `${count} realizations × ${cells.toLocaleString('en')} cells = ${(count * cells).toLocaleString('en')} simulated heat-flow values, above the run's memory budget of ${MAX_SIMULATED_VALUES.toLocaleString('en')} (${Math.round((MAX_SIMULATED_VALUES * 4) / 2 ** 20)} MiB)`,
+      [{ field: 'realizations', problem: `at most ${Math.floor(MAX_SIMULATED_VALUES / cells)} realizations on this grid; or use larger cells` }],
+      'too_many_values',
+    );
+  }
+  // A fixed variogram object is in heat-flow units: simulate the values themselves (no normal-score transform).
+  const fixed = typeof o.variogram === 'object';
+  const opts: SimulationOptions = {
+    realizations: count,
+    seed: seed + SIMULATION_STREAM_OFFSET,
+    variogram: o.variogram ?? 'auto',
+    anisotropy: o.anisotropy ?? null,
+    transform: fixed ? 'none' : 'normal-score',
+    neighbors: o.neighbors ?? 16,
+    lagKm: o.lagKm,
+    maxLagKm: o.maxLagKm,
+    crossValidation: false,
+    measurementError: o.measurementError,
+    maxValues: MAX_SIMULATED_VALUES,
+    units: 'mW/m²',
+  };
+  const r = simulateOnGrid(points, opts, grid, crsDef);
+  const values = r.values;
+  const q = grid.values;
+  for (let c = 0; c < cells; c++) if (!(q[c] === q[c])) for (let k = 0; k < count; k++) values[k * cells + c] = NaN;
+  let checksum = 0;
+  for (let c = 0; c < cells; c++) { const v = values[c]; if (v === v) checksum += v; }
+  const v = r.variogram;
+  const space = r.transform.kind === 'normal-score' ? 'normal scores' : 'mW/m²';
+  const report: HeatFlowSimulation['report'] = {
+    method: `conditional simulation: ${r.sampler.method}${r.transform.kind === 'normal-score' ? ', through a normal-score transform of the sites\' heat flow and its back-transform' : ''}`,
+    variogram: { model: v.model, nugget: v.nugget, partialSill: v.partialSill, rangeKm: v.rangeKm, anisotropy: v.anisotropy, source: v.source, space },
+    transform: r.transform.kind,
+    sampler: r.sampler.kind,
+    neighbors: r.conditioning.neighbors,
+    streams: `seed + ${SIMULATION_STREAM_OFFSET}`,
+    checksum,
+  };
+  const source = `heat flow from ${count} conditional simulations of the sites (${r.sampler.kind === 'lattice' ? 'circulant embedding' : 'Cholesky'} conditioned by kriging, ${v.model} variogram of the ${space}, range ${v.rangeKm.toPrecision(4)} km)`;
+  return { values, count, seed, checksum, report, source, warnings: r.warnings };
+}
