@@ -37,6 +37,9 @@ describe('docs/sources.md', () => {
       for (const m of text.matchAll(/\]\(#([a-z0-9-]+)\)/g)) if (f.endsWith('sources.md')) cited.push({ file: relative(root, f), anchor: m[1] });
     }
     expect(cited.length).toBeGreaterThan(25);
+    // A citation of a sources file outside the repository (the upper-case file name) names nothing a reader can open.
+    const elsewhere = files.filter((f) => /\bSOURCES\.md/.test(readFileSync(f, 'utf8')));
+    expect(elsewhere.map((f) => relative(root, f))).toEqual([]);
     const missing = cited.filter((c) => !anchors.has(c.anchor)).map((c) => `${c.file}: #${c.anchor}`);
     expect(missing).toEqual([]);
   });
