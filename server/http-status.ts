@@ -84,6 +84,8 @@ const STATUS_BY_CODE: Readonly<Record<string, number>> = {
   projected_layer: 422,
   too_deep: 422,
   state_too_deep: 422,
+  // A heat-in-place job that outran its deadline: the job's size, named by the limit (not "come back later").
+  job_deadline_exceeded: 422,
   // 429/503: come back later.
   too_many_runs: 429,
   too_much_work: 429,

@@ -80,7 +80,7 @@ export function openApiDocument(): unknown {
           errors: [400, 404, 409, 415, 422, 429, 503],
         }),
       },
-      '/api/runs/{id}/heat-in-place/{jobId}': { get: op('the job: 202 { jobId, status: queued|running, position } until done, then the report (the CLI heat-in-place --json object); a failed job answers its error (422 deadline_exceeded names heatInPlaceDeadlineSeconds)', { params: ['id', 'jobId'], errors: [400, 404, 422, 500] }) },
+      '/api/runs/{id}/heat-in-place/{jobId}': { get: op('the job: 202 { jobId, status: queued|running, position } until done, then the report (the CLI heat-in-place --json object); a failed job answers its error (422 job_deadline_exceeded names heatInPlaceDeadlineSeconds)', { params: ['id', 'jobId'], errors: [400, 404, 422, 500] }) },
       '/api/runs/{id}/heat-in-place/{jobId}.html': { get: op('the job\'s printable HTML report (rendered once, when the job ran)', { params: ['id', 'jobId'], okType: 'text/html', errors: [404, 422] }) },
       '/api/runs/{id}/heat-in-place/{jobId}.csv': { get: op('the job\'s CSV totals, leading # caution line', { params: ['id', 'jobId'], okType: 'text/csv', errors: [404, 422] }) },
       '/api/runs/{id}/spread': {

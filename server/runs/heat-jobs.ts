@@ -136,9 +136,9 @@ export class HeatJobs {
       .catch((e: unknown) => {
         job.status = 'failed';
         if (e instanceof InputError) {
-          // A deadline reached is the job's size, not the server's fault: a 422 naming the limit.
-          const status = e.code === 'deadline_exceeded' ? 422 : httpStatusOf(e.code);
-          job.error = { code: e.code, message: e.message.replace('computeDeadlineSeconds', 'heatInPlaceDeadlineSeconds'), details: e.details, status };
+          // A deadline reached is the job's size, not the server's fault: its own code, naming the job's limit.
+          const code = e.code === 'deadline_exceeded' ? 'job_deadline_exceeded' : e.code;
+          job.error = { code, message: e.message.replace('computeDeadlineSeconds', 'heatInPlaceDeadlineSeconds'), details: e.details, status: httpStatusOf(code) };
         } else {
           process.stderr.write(`[${new Date().toISOString()}] heat-in-place job ${job.id} failed: ${(e as Error)?.stack ?? String(e)}\n`);
           job.error = { code: 'internal', message: 'the computation failed on the server', details: [], status: 500 };

@@ -17,8 +17,8 @@ import {
 import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
 import { gridGeometry, outlineInGrid, resultHtml } from '../io/resource-output.ts';
 import { computeColumn, type ColumnQuery } from '../../shared/products/column.ts';
-import { runGridOf } from '../runs/grids.ts';
-import { computeSection, linesOf, type LineFeature } from '../runs/section.ts';
+import { runGridOf, sampleAtLonLat } from '../runs/grids.ts';
+import { computeSection, linesOf, type LineFeature } from '../../shared/products/section.ts';
 import { modelZones } from '../runs/zones.ts';
 import { realizationsFromRecord, type RunRecord } from '../runs/realizations.ts';
 import { HEAT_FLOW_CORRELATION_DEPRECATED } from '../runs/heat-flow-simulation.ts';
@@ -107,8 +107,9 @@ async function section(t: SectionTask): Promise<Record<string, unknown>> {
       console.error(`[${new Date().toISOString()}] a run's isograds layer is not valid GeoJSON`);
     }
   }
+  const heatFlow = await runGridOf(t.heatFlow);
   return computeSection({
-    heatFlow: await runGridOf(t.heatFlow),
+    heatFlowAt: (lon, lat) => sampleAtLonLat(heatFlow, lon, lat),
     model: t.model,
     modelAt: t.regionsBody !== null ? modelZones(t.model, t.regionsBody) : undefined,
     line: t.line,
