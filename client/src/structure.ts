@@ -175,7 +175,10 @@ function faultDetails(r: FaultReportRow): HTMLElement {
   const items: HTMLElement[] = [];
   const samples = (ids: unknown) => (Array.isArray(ids) && ids.length > 0 ? ` — samples ${ids.slice(0, 6).join(', ')}${ids.length > 6 ? `, … ${ids.length - 6} more` : ''}` : '');
   for (const z of (r.repeatedZones as { zone: string; sampleIds: string[] }[] | undefined) ?? []) items.push(el('li', {}, `Repeated: ${z.zone}${samples(z.sampleIds)}`));
-  for (const z of (r.missingZones as { zone: string; between?: string[]; sampleIds: string[] }[] | undefined) ?? []) items.push(el('li', {}, `Missing: ${z.zone}${z.between ? ` (${z.between[0]} faces ${z.between[1]})` : ''}${samples(z.sampleIds)}`));
+  for (const z of (r.missingZones as { zone: string; side?: string; higherSide?: string; between?: string[]; sampleIds: string[] }[] | undefined) ?? []) {
+    const where = z.between && z.side && z.higherSide ? ` (${z.between[0]} on the ${z.side} faces ${z.between[1]} on the ${z.higherSide})` : '';
+    items.push(el('li', {}, `Missing: ${z.zone}${where}${samples(z.sampleIds)}`));
+  }
   for (const n of (r.notReached as { isograd: string; sideName: string }[] | undefined) ?? []) items.push(el('li', {}, `${n.isograd} does not reach ${n.sideName === 'either side' ? 'either side' : `the ${n.sideName}`}`));
   if (r.offsetOnly === true) items.push(el('li', {}, 'Offset only: no zone missing or repeated'));
   const seps = (r.separations as SepRow[] | undefined) ?? [];

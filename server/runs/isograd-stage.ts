@@ -10,7 +10,8 @@ import type { ExtraLayerStage, RunLayer } from './pipeline.ts';
 /**
  * The isograd stage of a run: when the request names a samples data set, isograd lines from the grade samples
  * (with the run's faults as barriers) become the `isograds` vector layer, and the isograd and fault report goes
- * into the run summary under `structure`.
+ * into the run summary under `structure`. The request's `isogradDipDeg` gives the separations their dip-slip
+ * component on faults with a dip and dip direction.
  */
 export const isogradStage: ExtraLayerStage = {
   name: 'isograds',
@@ -27,7 +28,7 @@ export const isogradStage: ExtraLayerStage = {
     const faults = faultsDs ? (parseFeatureCollection('faults', JSON.parse(faultsDs.body)).collection as FaultCollection) : null;
     progress(0.1, 'isograds: indicator surfaces and fault report');
     const model = compileModel(nominalModel(ctx.model), { maxDepthKm: request.maxDepthKm ?? 60 });
-    const layer = isogradLayer(samples, faults, { model, heatFlowMWm2: undefined });
+    const layer = isogradLayer(samples, faults, { model, heatFlowMWm2: undefined, isogradDipDeg: request.isogradDipDeg });
     for (const w of layer.report.warnings) ctx.warnings.push(`isograds: ${w}`);
     ctx.summary.structure = { isograds: layer.report.isograds, faults: layer.report.faults, samples: layer.report.samples, misfits: layer.report.misfits, paleoGradients: layer.report.paleoGradients, method: layer.report.method };
     const provenance = withMethod(ctx.provenance, `isograds: ${layer.report.method.indicator}`);

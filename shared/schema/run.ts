@@ -40,6 +40,11 @@ export const runRequestSchema = z.object({
   maxDepthKm: z.number().gt(0).max(300).optional(),
   contourIntervalKm: z.number().gt(0).max(100).optional(),
   heatFlowContourIntervalMWm2: z.number().gt(0).max(1000).optional(),
+  /**
+   * Dip of the isograd surfaces towards lower grade, degrees (exclusive 0–90): with a fault's dip and dip direction
+   * it gives each separation's dip-slip component (the `isograds` verb's --isograd-dip-deg).
+   */
+  isogradDipDeg: z.number().gt(0).lt(90).optional(),
   grid: runGridSchema.default({}),
   realizations: z.number().int().min(0).max(5000).optional(),
   /** How a cell's heat-flow error is drawn across cells in each realization (DESIGN.md §3): "full" (default) or "independent". */

@@ -128,7 +128,12 @@ export interface FaultReport {
   /** 'footwall' or 'hanging wall' for higherSide when the dip direction is known. */
   higherWall: 'footwall' | 'hanging wall' | null;
   repeatedZones: ZoneStatement[];
-  missingZones: (ZoneStatement & { side: 'across'; between: [string, string] })[];
+  /**
+   * Zones cut out by the fault. `side` names (by compass, and wall when the dip direction is known) the side whose
+   * zones lie below the missing zone, `higherSide` the side whose zones lie above it; `between` is [the highest
+   * zone on the lower side, the lowest zone on the higher side] where they face each other.
+   */
+  missingZones: (ZoneStatement & { side: string; higherSide: string; between: [string, string] })[];
   notReached: { isograd: string; side: Side | 'both'; sideName: string }[];
   offsetOnly: boolean;
   meetings: Meeting[];
@@ -178,6 +183,14 @@ function sideStats(lo: number[], hi: number[]): SideStats {
  * sense disagrees with the profile's, or the point falls outside the window.
  */
 export function fitMeeting(pool: readonly { s: number; u: number; lo: number; hi: number }[], j: number, s0: number, sense: 1 | -1, W: number, D: number): number | null {
+  return fitMeetingBand(pool, j, s0, sense, W, D)?.alongKm ?? null;
+}
+
+/**
+ * The local logistic fit of fitMeeting with its own probability band: the fitted probability along the trace is
+ * 1/(1 + exp(−(b0 + b1·(s − s0)/W))), which lies between 0.1 and 0.9 over ±W·ln 9/|b1| about the 0.5 point.
+ */
+export function fitMeetingBand(pool: readonly { s: number; u: number; lo: number; hi: number }[], j: number, s0: number, sense: 1 | -1, W: number, D: number): { alongKm: number; halfBandKm: number } | null {
   const X: number[] = [], Y: number[] = [], Z: number[] = [];
   let ones = 0, zeros = 0;
   for (const q of pool) {
@@ -213,7 +226,7 @@ export function fitMeeting(pool: readonly { s: number; u: number; lo: number; hi
   if (!(Math.sign(b[1]) === sense) || !(Math.abs(b[1]) > 1e-9)) return null;
   const x = -b[0] / b[1];
   if (!(Math.abs(x) <= 1)) return null;
-  return s0 + x * W;
+  return { alongKm: s0 + x * W, halfBandKm: (W * Math.log(9)) / Math.abs(b[1]) };
 }
 
 /** Solves a 3 × 3 system by Cramer's rule; null when singular. */
@@ -255,6 +268,21 @@ function bandAround(prof: Float64Array, ok: Uint8Array, along: Float64Array, j: 
   };
   const a = walk(-1), b = walk(1);
   return [Math.min(a, b, s0), Math.max(a, b, s0)];
+}
+
+/**
+ * Half-width (km along the trace) of the 0.1–0.9 band of the profile linearised at its 0.5 crossing between
+ * stations k − 1 and k: 0.4 / |dp/ds|, the slope taken over the supported stations within 1 km each way of the
+ * crossing (a first-order Taylor expansion of the probability profile about the meeting point).
+ */
+function linearHalfBand(prof: Float64Array, ok: Uint8Array, along: Float64Array, j: number, k: number, stride: number): number {
+  const v = (i: number) => prof[i * stride + j - 1];
+  const s0 = (along[k - 1] + along[k]) / 2;
+  let i0 = k - 1, i1 = k;
+  while (i0 - 1 >= 0 && ok[i0 - 1] === 1 && !Number.isNaN(v(i0 - 1)) && s0 - along[i0 - 1] <= 1) i0--;
+  while (i1 + 1 < along.length && ok[i1 + 1] === 1 && !Number.isNaN(v(i1 + 1)) && along[i1 + 1] - s0 <= 1) i1++;
+  const slope = Math.abs((v(i1) - v(i0)) / (along[i1] - along[i0]));
+  return slope > 0 ? 0.4 / slope : Infinity;
 }
 
 const DEG = Math.PI / 180;
@@ -313,7 +341,7 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
   if (L.length === 0 || R.length === 0) warnings.push(`no samples within ${D} km on the ${L.length === 0 ? sideNames.left : sideNames.right} of the trace`);
 
   // Windows along the shared stretch: missing and repeated zones from the decided samples.
-  const missing = new Map<number, { ids: Set<string>; between: [number, number] }>();
+  const missing = new Map<number, { ids: Set<string>; between: [number, number]; low: Side }>();
   if (overlap !== null) {
     const W = Math.max(2 * D, 4 * step);
     const decided = (q: NearSample) => q.lo === q.hi;
@@ -327,7 +355,7 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
       for (let z = 1; z < MAX_RANK; z++) {
         const gap = (lmax < z && rmin > z) || (rmax < z && lmin > z);
         if (!gap) continue;
-        const m = missing.get(z) ?? { ids: new Set<string>(), between: [lmax < z ? lmax : rmax, lmax < z ? rmin : lmin] as [number, number] };
+        const m = missing.get(z) ?? { ids: new Set<string>(), between: [lmax < z ? lmax : rmax, lmax < z ? rmin : lmin] as [number, number], low: lmax < z ? 'left' : 'right' };
         // Supporting samples: those of each side nearest in grade to Z.
         const lowSide = lmax < z ? lw : rw, highSide = lmax < z ? rw : lw;
         const lowTop = Math.max(...lowSide.map((q) => q.lo)), highBottom = Math.min(...highSide.map((q) => q.lo));
@@ -337,7 +365,7 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
       }
     }
   }
-  const missingZones: FaultReport['missingZones'] = [...missing.entries()].sort((a, b) => a[0] - b[0]).map(([z, m]) => ({ zone: ZONE_NAMES[z], side: 'across', between: [ZONE_NAMES[m.between[0]], ZONE_NAMES[m.between[1]]], sampleIds: [...m.ids].sort() }));
+  const missingZones: FaultReport['missingZones'] = [...missing.entries()].sort((a, b) => a[0] - b[0]).map(([z, m]) => ({ zone: ZONE_NAMES[z], side: sideNames[m.low], higherSide: sideNames[m.low === 'left' ? 'right' : 'left'], between: [ZONE_NAMES[m.between[0]], ZONE_NAMES[m.between[1]]], sampleIds: [...m.ids].sort() }));
   if (missingZones.length > 0 && (f.kind === 'thrust' || f.kind === 'reverse')) warnings.push(`zones missing across a fault recorded as ${f.kind} (${missingZones.map((z) => z.zone).join(', ')}): a ${f.kind} fault usually repeats section; check the fault's kind or the samples`);
 
   // Stations along the trace: indicator profiles just off it on each side.
@@ -434,9 +462,16 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
         const u = (0.5 - a) / (b - a);
         const s0 = along[k - 1] + u * (along[k] - along[k - 1]);
         const sense: 1 | -1 = b > a ? 1 : -1;
-        const fit = fitMeeting(pool, j, s0, sense, windowKm, D);
-        const band = bandAround(P[side], ok[side], along, j, k, s0, BOUNDARY_COUNT);
-        const at = fit ?? s0;
+        const fit = fitMeetingBand(pool, j, s0, sense, windowKm, D);
+        const walked = bandAround(P[side], ok[side], along, j, k, s0, BOUNDARY_COUNT);
+        const at = fit?.alongKm ?? s0;
+        // The band where the isograd meets the trace: the profile's 0.1–0.9 band linearised at its 0.5 crossing,
+        // about both the crossing and the fitted point, never wider than the walked 0.1–0.9 stretch. (Walking on,
+        // away from the samples near the meeting, the kriged indicator returns towards its mean and stays inside
+        // 0.1–0.9 for tens of km: that stretch measures the map's lack of samples there, not where this isograd
+        // meets the trace.)
+        const half = linearHalfBand(P[side], ok[side], along, j, k, BOUNDARY_COUNT);
+        const band: [number, number] = [Math.max(walked[0], Math.min(at, s0) - half), Math.min(walked[1], Math.max(at, s0) + half)];
         const m: Meeting = { isograd: `${ZONE_NAMES[j]}-in`, side, alongKm: at, bandAlongKm: [Math.min(band[0], at), Math.max(band[1], at)], basis: fit === null ? 'profile' : 'fit', sense };
         // Crossings of one isograd a few km apart with the same sense are one meeting (noise in the profile).
         const dup = found.find((q) => q.sense === m.sense && Math.abs(q.alongKm - m.alongKm) < 2);

@@ -18,7 +18,7 @@ describe('the isograd stage of a run', () => {
 
   it('adds the isograds layer and the structure report when the run names samples', async () => {
     const res = await runPipeline(
-      { sites: 'demo-sites', samples: 'demo-samples', faults: 'demo-faults', model: 'demo-model', isothermsC: [300], depthsKm: [5], grid: { cellKm: 5 } },
+      { sites: 'demo-sites', samples: 'demo-samples', faults: 'demo-faults', model: 'demo-model', isothermsC: [300], depthsKm: [5], grid: { cellKm: 5 }, isogradDipDeg: truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.isogradDipDeg },
       datasets,
       { extraLayers: [isogradStage] },
     );
@@ -33,6 +33,15 @@ describe('the isograd stage of a run', () => {
     // F1's footwall is the higher-grade side (fixtures/truth.json: builtInOffset.higherGradeSide).
     expect(truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.higherGradeSide).toContain('footwall');
     expect(structure.faults.map((f) => f.id)).toEqual(expect.arrayContaining(['F1', 'F2']));
+    // The request's isograd dip reaches the fault report: F1's separations carry their dip-slip component, normal,
+    // and the constructed dip slip (fixtures/truth.json F1.builtInOffset.dipSlipKm, 1.2 km throw on a 60° fault)
+    // lies inside most of the ranges, as in the isograds verb.
+    const d = truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.dipSlipKm as number;
+    const f1 = (structure.faults as unknown as { id: string; separations: { slipSense?: string; dipSlipKm?: { low: number; high: number } }[] }[]).find((f) => f.id === 'F1')!;
+    expect(f1.separations.length).toBeGreaterThan(0);
+    for (const s of f1.separations) expect(s.slipSense).toBe('normal');
+    const covered = f1.separations.filter((s) => s.dipSlipKm !== undefined && d >= s.dipSlipKm.low && d <= s.dipSlipKm.high).length;
+    expect(covered).toBeGreaterThanOrEqual(f1.separations.length - 1);
     // The summary carries what the client plots: the empirical semivariogram beside the fitted model, and the
     // cross-validation scores.
     const interp = res.summary.interpolation as { variogram: { empirical: { lagKm: number; gamma: number; pairs: number }[] } };

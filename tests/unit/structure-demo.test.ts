@@ -129,6 +129,11 @@ describe('demo region: faults', () => {
     }
     expect(f1.separations.length).toBe(8); // 4 isograds × 2 ends
     expect(inside).toBe(8);
+    // The ranges come from the band where each isograd meets the trace, not from the map's sparsest stretches:
+    // their median width stays within 15 km (it was about 20 km when the band was walked to its 0.1/0.9 ends).
+    const widths = f1.separations.map((s) => s.separationKm.high - s.separationKm.low).sort((a, b) => a - b);
+    console.log(`F1 separation ranges (km): ${f1.separations.map((s) => `${s.isograd} ${s.end} ${s.separationKm.value.toFixed(1)} (${s.separationKm.low.toFixed(1)}–${s.separationKm.high.toFixed(1)})`).join('; ')}`);
+    expect((widths[3] + widths[4]) / 2).toBeLessThan(15);
   });
 
   it('F2 (thrust): garnet (with the zones around it) reported as repeated, none missing; biotite-in separation within its range', () => {

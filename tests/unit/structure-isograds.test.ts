@@ -164,6 +164,8 @@ describe('isograds on constructed cases', () => {
     // (staurolite and kyanite cut out).
     expect(rep.missingZones.map((z) => z.zone)).toEqual(['garnet', 'staurolite', 'kyanite']);
     for (const z of rep.missingZones) expect(z.sampleIds.length).toBeGreaterThan(2);
+    // The trace runs north, so its left is west; the west side holds the lower zones (constructed above).
+    for (const z of rep.missingZones) expect({ side: z.side, higherSide: z.higherSide }).toEqual({ side: 'W side', higherSide: 'E side' });
     expect(rep.repeatedZones).toEqual([]);
     expect(rep.offsetOnly).toBe(false);
     expect(rep.higherSide).toBe('right');
