@@ -80,9 +80,10 @@ const CONTENT_TYPES: Record<string, string> = {
 
 /**
  * Builds the Hono app (testable in-process with `app.request`). The returned app carries its run job system
- * (`app.jobs`): call `app.jobs.close()` to stop the worker pool.
+ * (`app.jobs`): call `app.jobs.close()` to stop the worker pool. `app.ready` resolves when its start-up work against
+ * the store is done.
  */
-export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Limits; close: () => Promise<void> } {
+export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Limits; close: () => Promise<void>; ready: Promise<void> } {
   const app = new Hono();
   const limits = resolveLimits(opts.limits);
   const workerFile = opts.runWorkerFile ?? RUN_WORKER_FILE;
@@ -213,8 +214,8 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   );
   datasetRoutes(app, ctx);
 
-  app.get('/api/datasets/:id', (c) => {
-    const rec = opts.store.getDataset(c.req.param('id'));
+  app.get('/api/datasets/:id', async (c) => {
+    const rec = await opts.store.getDataset(c.req.param('id'));
     if (!rec) throw new InputError(`no data set with id "${c.req.param('id')}"`, [{ field: 'id', problem: 'not found' }], 'not_found');
     const type = rec.kind === 'model' ? 'application/json' : 'application/geo+json';
     return c.body(rec.body, 200, { 'content-type': type, etag: `"${rec.contentHash}"` });
@@ -244,7 +245,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     gridTileRoutes({
       publicBaseUrl: publicBase,
       loadLayerGrid: async (runId, layer) => {
-        const file = opts.store.getRunFile(runId, layer, 'tif');
+        const file = await opts.store.getRunFile(runId, layer, 'tif');
         if (!file) return null;
         return (await readGeoTiff(file.bytes.slice().buffer, { source: `run ${runId} layer ${layer}` })).grid;
       },
@@ -271,7 +272,10 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     return c.body(readFileSync(join(opts.clientDir, 'index.html')), 200, { 'content-type': CONTENT_TYPES['.html'], 'cache-control': 'no-cache' });
   });
 
-  if (opts.demoRun) startDemoRun(ctx);
+  // Start-up work against the store: interrupted runs marked failed, then the demo run submitted (when asked).
+  const ready = jobs.ready.then(async () => {
+    if (opts.demoRun) await startDemoRun(ctx);
+  });
 
   /** Stops the run pool, the compute pools and the event-loop monitor. */
   const close = async () => {
@@ -279,5 +283,5 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     loopDelay.disable();
     await Promise.all([jobs.close(), compute.short.close(), compute.long.close(), compute.jobs.close()]);
   };
-  return Object.assign(app, { jobs, limits, close });
+  return Object.assign(app, { jobs, limits, close, ready });
 }

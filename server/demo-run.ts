@@ -8,13 +8,13 @@ import type { AppContext } from './routes/context.ts';
 import { submitRun } from './routes/runs.ts';
 
 /** Submits the demo run and records its id in the demo project's state (a new revision when it changed). */
-export function startDemoRun(ctx: AppContext, log: (line: string) => void = (l) => process.stderr.write(l + '\n')): string | null {
+export async function startDemoRun(ctx: AppContext, log: (line: string) => void = (l) => process.stderr.write(l + '\n')): Promise<string | null> {
   try {
-    const out = submitRun(ctx, structuredClone(DEMO_RUN_REQUEST), 'demo', DEMO_PROJECT_ID);
+    const out = await submitRun(ctx, structuredClone(DEMO_RUN_REQUEST), 'demo', DEMO_PROJECT_ID);
     const id = out.body.id as string;
-    const project = ctx.store.getProject(DEMO_PROJECT_ID);
+    const project = await ctx.store.getProject(DEMO_PROJECT_ID);
     const state = (project?.state ?? {}) as Record<string, unknown>;
-    if (project && state.runId !== id) ctx.store.appendRevision(DEMO_PROJECT_ID, { stateJson: JSON.stringify({ ...state, runId: id }) });
+    if (project && state.runId !== id) await ctx.store.appendRevision(DEMO_PROJECT_ID, { stateJson: JSON.stringify({ ...state, runId: id }) });
     return id;
   } catch (e) {
     log(`[${new Date().toISOString()}] the demo run could not start: ${e instanceof Error ? e.message : String(e)}`);

@@ -45,9 +45,9 @@ export const DEMO_RUN_REQUEST = {
 export const DEMO_TERRAIN = join(DEMO_DIR, 'terrain.tif');
 
 /** Loads the demo data sets into the store under their stable ids (kept if already there). Validates each one. */
-export function loadDemo(store: Store): void {
+export async function loadDemo(store: Store): Promise<void> {
   for (const d of DEMO_DATASETS) {
-    if (store.getDataset(d.id)) continue;
+    if (await store.getDataset(d.id)) continue;
     const text = readFileSync(join(DEMO_DIR, d.file), 'utf8');
     const json = JSON.parse(text) as unknown;
     if (d.kind === 'model') {
@@ -55,29 +55,29 @@ export function loadDemo(store: Store): void {
       // Its name is the data set's name in the demo project, not part of the stored content.
       const { model } = parseModelDocument(json, d.file);
       const { name: _name, ...content } = model as typeof model & { name?: unknown };
-      store.putDataset({ id: d.id, kind: 'model', body: JSON.stringify(content), featureCount: model.layers.length, title: d.title });
+      await store.putDataset({ id: d.id, kind: 'model', body: JSON.stringify(content), featureCount: model.layers.length, title: d.title });
       continue;
     }
     const parsed = parseFeatureCollection(d.kind, json);
     const body = JSON.stringify({ ...parsed.collection, description: (json as { description?: string }).description });
-    store.putDataset({ id: d.id, kind: d.kind, body, featureCount: parsed.collection.features.length, title: d.title });
+    await store.putDataset({ id: d.id, kind: d.kind, body, featureCount: parsed.collection.features.length, title: d.title });
   }
-  loadDemoProject(store);
+  await loadDemoProject(store);
 }
 
 /** The demo DEM as the demo project's terrain, like any project's (kept if already there). */
-export function loadDemoTerrain(store: Store, dem: Grid<Float32Array>): void {
-  if (store.getProjectTerrain(DEMO_PROJECT_ID) !== null) return;
+export async function loadDemoTerrain(store: Store, dem: Grid<Float32Array>): Promise<void> {
+  if ((await store.getProjectTerrain(DEMO_PROJECT_ID)) !== null) return;
   const { values, ...spec } = dem;
-  store.putProjectTerrain(DEMO_PROJECT_ID, values, { ...spec, crs: 'EPSG:4326', units: 'm', sourceCrs: 'EPSG:4326', sourceBytes: values.byteLength, name: 'Orrindel terrain' });
+  await store.putProjectTerrain(DEMO_PROJECT_ID, values, { ...spec, crs: 'EPSG:4326', units: 'm', sourceCrs: 'EPSG:4326', sourceBytes: values.byteLength, name: 'Orrindel terrain' });
 }
 
 /** Creates the demo project holding the demo data sets under their names (kept if already there). */
-export function loadDemoProject(store: Store): void {
-  if (store.getProjectTokenHash(DEMO_PROJECT_ID) === null) {
+export async function loadDemoProject(store: Store): Promise<void> {
+  if ((await store.getProjectTokenHash(DEMO_PROJECT_ID)) === null) {
     const state = { datasets: Object.fromEntries(DEMO_DATASETS.filter((d) => d.kind !== 'wells').map((d) => [d.kind, d.id])), demo: true };
-    store.createProject({ id: DEMO_PROJECT_ID, title: DEMO_PROJECT_TITLE, stateJson: JSON.stringify(state), tokenHash: hashToken(newEditToken()) });
+    await store.createProject({ id: DEMO_PROJECT_ID, title: DEMO_PROJECT_TITLE, stateJson: JSON.stringify(state), tokenHash: hashToken(newEditToken()) });
   }
-  const held = new Set(store.listProjectDatasets(DEMO_PROJECT_ID).map((d) => d.id));
-  for (const d of DEMO_DATASETS) if (!held.has(d.id)) store.attachDataset(DEMO_PROJECT_ID, d.id, d.title);
+  const held = new Set((await store.listProjectDatasets(DEMO_PROJECT_ID)).map((d) => d.id));
+  for (const d of DEMO_DATASETS) if (!held.has(d.id)) await store.attachDataset(DEMO_PROJECT_ID, d.id, d.title);
 }

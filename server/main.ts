@@ -28,16 +28,16 @@ export interface ServerOptions {
  * Opens the database, turning the faults an operator can fix (a read-only file or folder, a path that cannot be
  * created, a full disk) into a plain message naming the path and what to do, instead of an internal error.
  */
-export function openStore(dbPath: string): SqliteStore {
+export async function openStore(dbPath: string): Promise<SqliteStore> {
   let store: SqliteStore | null = null;
   try {
     store = new SqliteStore(dbPath);
     // A read-only file opens fine and fails on the first write: write once now (loading the demo on first start).
     store.db.exec('CREATE TABLE IF NOT EXISTS startup_probe (x INTEGER); DROP TABLE startup_probe;');
-    loadDemo(store);
+    await loadDemo(store);
     return store;
   } catch (e) {
-    store?.close();
+    await store?.close();
     const code = (e as { code?: string }).code ?? '';
     const msg = (e as Error).message ?? String(e);
     if (/READONLY|CANTOPEN|PERM|AUTH/.test(code) || /EACCES|EROFS|EPERM|ENOENT|ENOTDIR|EEXIST/.test(code) || /readonly|read-only|unable to open/i.test(msg)) {
@@ -87,13 +87,14 @@ export async function buildClient(log: (line: string) => void = () => {}): Promi
 export async function startServer(opts: ServerOptions) {
   const log = opts.log ?? ((l: string) => process.stdout.write(l + '\n'));
   if (opts.buildClient && clientBuildIsStale()) await buildClient(log);
-  const store = openStore(opts.dbPath);
+  const store = await openStore(opts.dbPath);
   const dem = await loadDem(DEMO_TERRAIN);
-  loadDemoTerrain(store, dem);
+  await loadDemoTerrain(store, dem);
   const terrain = new TerrainTiles(dem);
   // The demo project's default run starts in the background unless SUBTHERM_DEMO_RUN=0.
   const demoRun = opts.demoRun ?? process.env.SUBTHERM_DEMO_RUN !== '0';
   const app = createApp({ store, terrain, clientDir: existsSync(join(CLIENT_DIST, 'index.html')) ? CLIENT_DIST : null, demoRun, publicBaseUrl: opts.publicBaseUrl });
+  await app.ready;
   const host = opts.host ?? '127.0.0.1';
   const server = await new Promise<ReturnType<typeof serve>>((resolve) => {
     const s = serve({ fetch: app.fetch, port: opts.port, hostname: host }, () => resolve(s));
@@ -105,7 +106,7 @@ export async function startServer(opts: ServerOptions) {
   const close = async () => {
     await app.close();
     await new Promise<void>((resolve) => server.close(() => resolve()));
-    store.close();
+    await store.close();
   };
   return { app, port, close, store };
 }

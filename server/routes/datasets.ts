@@ -87,17 +87,17 @@ export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind
 }
 
 /** Stores an upload, or finds the stored data set with the same kind and content. */
-export function storeUpload(ctx: AppContext, up: ParsedUpload, title?: string): { rec: DatasetRecord; existing: boolean } {
-  const found = ctx.store.findDatasetByContent(up.kind, sha256Hex(up.body));
+export async function storeUpload(ctx: AppContext, up: ParsedUpload, title?: string): Promise<{ rec: DatasetRecord; existing: boolean }> {
+  const found = await ctx.store.findDatasetByContent(up.kind, sha256Hex(up.body));
   if (found) return { rec: found, existing: true };
-  return { rec: ctx.store.putDataset({ kind: up.kind, body: up.body, featureCount: up.featureCount, title }), existing: false };
+  return { rec: await ctx.store.putDataset({ kind: up.kind, body: up.body, featureCount: up.featureCount, title }), existing: false };
 }
 
 export function datasetRoutes(app: Hono, ctx: AppContext): void {
   app.post('/api/datasets', async (c) => {
     const q = parseWith(datasetQuerySchema, singleQuery(c), 'query', 'bad_query');
     const up = await parseUpload(c, ctx, q.kind);
-    const { rec, existing } = storeUpload(ctx, up, q.title ?? up.suggestedName ?? undefined);
+    const { rec, existing } = await storeUpload(ctx, up, q.title ?? up.suggestedName ?? undefined);
     return c.json({ id: rec.id, kind: rec.kind, featureCount: rec.featureCount, contentHash: rec.contentHash, bbox: rec.bbox, deduplicated: existing, warnings: up.warnings }, existing ? 200 : 201);
   });
 }

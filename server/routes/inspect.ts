@@ -29,18 +29,18 @@ export function columnWork(q: Pick<ColumnQuery, 'realizations' | 'model' | 'maxD
 
 export function inspectRoutes(app: Hono, ctx: AppContext): void {
   const doneRun = async (runId: string): Promise<{ run: RunRecord; heat: RunGrid; sd: RunGrid | null }> => {
-    const run = ctx.store.getRun(runId);
+    const run = await ctx.store.getRun(runId);
     if (!run) throw notFound('run', runId, 'run_not_found');
     if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}: columns and sections need a finished run`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done');
     const heat = await ctx.grids.get(runId, 'heatFlow');
     if (!heat) throw new InputError(`run ${runId} stored no heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid');
     return { run, heat, sd: await ctx.grids.get(runId, 'heatFlowSd') };
   };
-  const runModel = (run: RunRecord): ThermalModelInput => {
+  const runModel = async (run: RunRecord): Promise<ThermalModelInput> => {
     if (run.model !== null && run.model !== undefined) return parseModelDocument(run.model, `run ${run.id} model`).model;
     const m = (run.request as RunRequest).model;
     if (typeof m !== 'string') return parseModelDocument(m, 'model').model;
-    const rec = ctx.store.getDataset(m);
+    const rec = await ctx.store.getDataset(m);
     if (!rec) throw new InputError(`the model data set ${m} of run ${run.id} is gone`, [{ field: 'model', problem: 'not found' }], 'dataset_not_found');
     return parseModelDocument(JSON.parse(rec.body), `model ${m}`).model;
   };
@@ -50,14 +50,14 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
    * hash, so a click does not parse the run's regions again (a large region set took seconds each time).
    */
   const zoneCache = new Map<string, ModelAt>();
-  const runZones = (run: RunRecord): ModelAt => {
+  const runZones = async (run: RunRecord): Promise<ModelAt> => {
     const regionsId = (run.request as RunRequest).regions;
-    const rec = regionsId === undefined ? null : ctx.store.getDataset(regionsId);
+    const rec = regionsId === undefined ? null : await ctx.store.getDataset(regionsId);
     if (regionsId !== undefined && !rec) throw new InputError(`the regions data set ${regionsId} of run ${run.id} is gone`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found');
     const key = `${run.id}\u0000${rec?.contentHash ?? ''}`;
     const hit = zoneCache.get(key);
     if (hit) return hit;
-    const at = modelZones(runModel(run), rec?.body ?? null);
+    const at = modelZones(await runModel(run), rec?.body ?? null);
     zoneCache.set(key, at);
     while (zoneCache.size > 16) zoneCache.delete(zoneCache.keys().next().value as string);
     return at;
@@ -90,7 +90,7 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
       }
       const s = sd ? sampleAtLonLat(sd, q.lon, q.lat) : NaN;
       const realizations = (req.realizations ?? 0) > 0 ? COLUMN_BAND_REALIZATIONS : 0;
-      const here = runZones(run)(q.lon, q.lat);
+      const here = (await runZones(run))(q.lon, q.lat);
       const out = await column({
         model: here.model,
         heatFlowMWm2: q0,
@@ -110,7 +110,7 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
     checkSamples(q.maxDepthKm, q.stepKm);
     let model: ThermalModelInput;
     if (typeof q.model === 'string') {
-      const rec = ctx.store.getDataset(q.model);
+      const rec = await ctx.store.getDataset(q.model);
       if (!rec) throw notFound('data set', q.model, 'dataset_not_found');
       if (rec.kind !== 'model') throw new InputError(`data set ${q.model} holds ${rec.kind}, not a model`, [{ field: 'model', problem: `expected a model, got ${rec.kind}` }], 'wrong_dataset_kind');
       model = parseModelDocument(JSON.parse(rec.body), `model ${q.model}`).model;
@@ -138,14 +138,15 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
     const q = parseWith(sectionSchema, await jsonBody(c), 'section request', 'invalid_section');
     const { run, heat } = await doneRun(q.runId);
     const req = run.request as RunRequest;
-    const faultsRec = req.faults !== undefined ? ctx.store.getDataset(req.faults) : null;
-    const iso = ctx.store.getRunFile(run.id, 'isograds', 'geojson');
-    const regionsRec = req.regions !== undefined ? ctx.store.getDataset(req.regions) : null;
+    const faultsRec = req.faults !== undefined ? await ctx.store.getDataset(req.faults) : null;
+    const iso = await ctx.store.getRunFile(run.id, 'isograds', 'geojson');
+    const regionsRec = req.regions !== undefined ? await ctx.store.getDataset(req.regions) : null;
+    const model = await runModel(run);
     const out = await ctx.compute.long.run<Record<string, unknown>>(
       {
         kind: 'section',
         heatFlow: heat.grid,
-        model: runModel(run),
+        model,
         regionsBody: regionsRec?.body ?? null,
         faultsBody: faultsRec?.body ?? null,
         isogradsText: iso ? new TextDecoder().decode(iso.bytes) : null,

@@ -46,8 +46,8 @@ export function datasetView(projectId: string, d: ProjectDatasetRecord) {
 }
 
 /** 413 when adding `bytes` would take the project over its storage quota. */
-export function checkQuota(ctx: AppContext, projectId: string, bytes: number, what: string): void {
-  const used = ctx.store.projectStorageBytes(projectId);
+export async function checkQuota(ctx: AppContext, projectId: string, bytes: number, what: string): Promise<void> {
+  const used = await ctx.store.projectStorageBytes(projectId);
   const limit = ctx.limits.maxProjectStorageBytes;
   if (used + bytes > limit) {
     const mb = (n: number) => `${(n / 1048576).toFixed(1)} MB`;
@@ -67,19 +67,19 @@ function freeName(existing: ProjectDatasetRecord[], wanted: string, except?: str
 }
 
 /** Attaches an upload to a project (de-duplicated by content; quota checked for content new to the project). */
-export function addToProject(ctx: AppContext, projectId: string, up: ParsedUpload, name: string | undefined): { dataset: ProjectDatasetRecord; status: 'created' | 'existing' | 'attached' } {
+export async function addToProject(ctx: AppContext, projectId: string, up: ParsedUpload, name: string | undefined): Promise<{ dataset: ProjectDatasetRecord; status: 'created' | 'existing' | 'attached' }> {
   const hash = sha256Hex(up.body);
-  const found = ctx.store.findDatasetByContent(up.kind, hash);
-  const held = found ? ctx.store.getProjectDataset(projectId, found.id) : null;
+  const found = await ctx.store.findDatasetByContent(up.kind, hash);
+  const held = found ? await ctx.store.getProjectDataset(projectId, found.id) : null;
   if (held) {
     // Already in the project: nothing stored twice; a new name given with the upload renames it.
-    if (name !== undefined && name !== held.name) ctx.store.renameProjectDataset(projectId, held.id, freeName(ctx.store.listProjectDatasets(projectId), name, held.id));
-    return { dataset: ctx.store.getProjectDataset(projectId, held.id)!, status: 'existing' };
+    if (name !== undefined && name !== held.name) await ctx.store.renameProjectDataset(projectId, held.id, freeName(await ctx.store.listProjectDatasets(projectId), name, held.id));
+    return { dataset: (await ctx.store.getProjectDataset(projectId, held.id))!, status: 'existing' };
   }
-  checkQuota(ctx, projectId, Buffer.byteLength(up.body, 'utf8'), `this ${up.kind} data set`);
-  const rec = found ?? ctx.store.putDataset({ kind: up.kind, body: up.body, featureCount: up.featureCount });
-  const finalName = freeName(ctx.store.listProjectDatasets(projectId), name ?? up.suggestedName ?? KIND_NAMES[up.kind] ?? up.kind);
-  return { dataset: ctx.store.attachDataset(projectId, rec.id, finalName), status: found ? 'attached' : 'created' };
+  await checkQuota(ctx, projectId, Buffer.byteLength(up.body, 'utf8'), `this ${up.kind} data set`);
+  const rec = found ?? (await ctx.store.putDataset({ kind: up.kind, body: up.body, featureCount: up.featureCount }));
+  const finalName = freeName(await ctx.store.listProjectDatasets(projectId), name ?? up.suggestedName ?? KIND_NAMES[up.kind] ?? up.kind);
+  return { dataset: await ctx.store.attachDataset(projectId, rec.id, finalName), status: found ? 'attached' : 'created' };
 }
 
 /** A project's terrain as the API describes it: a MapLibre raster-dem source plus where it came from. */
@@ -101,24 +101,24 @@ const terrainQuerySchema = z.object({ name: datasetNameSchema.optional() });
 
 export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
   const terrainTiles = new Map<string, { hash: string; tiles: TerrainTiles }>();
-  const dsIdOf = (c: Context, projectId: string): ProjectDatasetRecord => {
+  const dsIdOf = async (c: Context, projectId: string): Promise<ProjectDatasetRecord> => {
     const raw = c.req.param('dsId') ?? '';
     const id = idSchema.safeParse(raw);
-    const rec = id.success ? ctx.store.getProjectDataset(projectId, id.data) : null;
+    const rec = id.success ? await ctx.store.getProjectDataset(projectId, id.data) : null;
     if (!rec) throw new InputError(`project ${projectId} holds no data set with id "${raw}"`, [{ field: 'dsId', problem: 'not found in this project' }], 'dataset_not_found');
     return rec;
   };
 
-  app.get('/api/projects/:id/datasets', (c) => {
-    const id = projectIdOf(c, ctx);
-    const datasets = ctx.store.listProjectDatasets(id).map((d) => datasetView(id, d));
-    const terrain = ctx.store.getProjectTerrain(id);
+  app.get('/api/projects/:id/datasets', async (c) => {
+    const id = await projectIdOf(c, ctx);
+    const datasets = (await ctx.store.listProjectDatasets(id)).map((d) => datasetView(id, d));
+    const terrain = await ctx.store.getProjectTerrain(id);
     return c.json(
       {
         id,
         datasets,
         terrain: terrain ? terrainView(id, terrain.meta, terrain.createdAt) : null,
-        storage: { bytes: ctx.store.projectStorageBytes(id), limitBytes: ctx.limits.maxProjectStorageBytes },
+        storage: { bytes: await ctx.store.projectStorageBytes(id), limitBytes: ctx.limits.maxProjectStorageBytes },
       },
       200,
       { 'cache-control': 'no-store' },
@@ -126,18 +126,18 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
   });
 
   app.post('/api/projects/:id/datasets', async (c) => {
-    const id = projectIdOf(c, ctx);
-    requireEditToken(c, ctx, id);
+    const id = await projectIdOf(c, ctx);
+    await requireEditToken(c, ctx, id);
     const q = parseWith(projectDatasetQuerySchema, singleQuery(c), 'query', 'bad_query');
     const up = await parseUpload(c, ctx, q.kind);
-    const { dataset, status } = addToProject(ctx, id, up, q.name);
+    const { dataset, status } = await addToProject(ctx, id, up, q.name);
     return c.json({ ...datasetView(id, dataset), deduplicated: status !== 'created', warnings: up.warnings }, status === 'existing' ? 200 : 201);
   });
 
-  app.get('/api/projects/:id/datasets/:dsId', (c) => {
-    const id = projectIdOf(c, ctx);
-    const held = dsIdOf(c, id);
-    const rec = ctx.store.getDataset(held.id)!;
+  app.get('/api/projects/:id/datasets/:dsId', async (c) => {
+    const id = await projectIdOf(c, ctx);
+    const held = await dsIdOf(c, id);
+    const rec = (await ctx.store.getDataset(held.id))!;
     const isModel = rec.kind === 'model';
     // A model downloads under its project name; every download carries a file name made of that name.
     const body = isModel ? JSON.stringify({ name: held.name, ...(JSON.parse(rec.body) as Record<string, unknown>) }, null, 2) : rec.body;
@@ -150,31 +150,31 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
   });
 
   app.patch('/api/projects/:id/datasets/:dsId', async (c) => {
-    const id = projectIdOf(c, ctx);
-    requireEditToken(c, ctx, id);
-    const held = dsIdOf(c, id);
+    const id = await projectIdOf(c, ctx);
+    await requireEditToken(c, ctx, id);
+    const held = await dsIdOf(c, id);
     requireJsonType(c);
     const { name } = parseWith(datasetPatchSchema, await jsonBody(c), 'data set change', 'invalid_dataset_change');
-    const clash = ctx.store.listProjectDatasets(id).find((d) => d.id !== held.id && d.name === name);
+    const clash = (await ctx.store.listProjectDatasets(id)).find((d) => d.id !== held.id && d.name === name);
     if (clash) throw new InputError(`another data set of this project is already named "${name}"`, [{ field: 'name', problem: `used by data set ${clash.id}` }], 'name_taken');
-    ctx.store.renameProjectDataset(id, held.id, name);
-    return c.json(datasetView(id, ctx.store.getProjectDataset(id, held.id)!));
+    await ctx.store.renameProjectDataset(id, held.id, name);
+    return c.json(datasetView(id, (await ctx.store.getProjectDataset(id, held.id))!));
   });
 
-  app.delete('/api/projects/:id/datasets/:dsId', (c) => {
-    const id = projectIdOf(c, ctx);
-    requireEditToken(c, ctx, id);
-    const held = dsIdOf(c, id);
-    ctx.store.detachProjectDataset(id, held.id);
-    const contentDeleted = ctx.store.pruneDataset(held.id);
+  app.delete('/api/projects/:id/datasets/:dsId', async (c) => {
+    const id = await projectIdOf(c, ctx);
+    await requireEditToken(c, ctx, id);
+    const held = await dsIdOf(c, id);
+    await ctx.store.detachProjectDataset(id, held.id);
+    const contentDeleted = await ctx.store.pruneDataset(held.id);
     return c.json({ id: held.id, detached: true, contentKept: !contentDeleted });
   });
 
   // Terrain: a DEM GeoTIFF, checked before any pixel is decoded (server/terrain-upload.ts); nothing of the project
   // changes unless every check passes.
   app.post('/api/projects/:id/terrain', async (c) => {
-    const id = projectIdOf(c, ctx);
-    requireEditToken(c, ctx, id);
+    const id = await projectIdOf(c, ctx);
+    await requireEditToken(c, ctx, id);
     const q = parseWith(terrainQuerySchema, singleQuery(c), 'query', 'bad_query');
     const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
     if (type !== 'image/tiff' && type !== 'image/geotiff' && type !== 'application/octet-stream') {
@@ -182,28 +182,28 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     }
     const bytes = new Uint8Array(await c.req.arrayBuffer());
     const { grid, sourceCrs } = await demFromUpload(bytes, ctx.limits.maxTerrainBytes);
-    const old = ctx.store.getProjectTerrain(id);
-    checkQuota(ctx, id, grid.values.byteLength - (old ? old.values.byteLength : 0), 'this terrain');
+    const old = await ctx.store.getProjectTerrain(id);
+    await checkQuota(ctx, id, grid.values.byteLength - (old ? old.values.byteLength : 0), 'this terrain');
     const meta = { width: grid.width, height: grid.height, west: grid.west, north: grid.north, dx: grid.dx, dy: grid.dy, crs: 'EPSG:4326', units: 'm', sourceCrs, sourceBytes: bytes.byteLength, name: q.name ?? 'Terrain' };
-    const rec = ctx.store.putProjectTerrain(id, grid.values, meta);
+    const rec = await ctx.store.putProjectTerrain(id, grid.values, meta);
     terrainTiles.delete(id);
     return c.json(terrainView(id, meta, rec.createdAt), 201);
   });
 
-  app.get('/api/projects/:id/terrain', (c) => {
-    const id = projectIdOf(c, ctx);
-    const t = ctx.store.getProjectTerrain(id);
+  app.get('/api/projects/:id/terrain', async (c) => {
+    const id = await projectIdOf(c, ctx);
+    const t = await ctx.store.getProjectTerrain(id);
     if (!t) throw new InputError(`project ${id} has no terrain: upload a DEM GeoTIFF with POST /api/projects/${id}/terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found');
     return c.json(terrainView(id, t.meta, t.createdAt));
   });
 
-  app.get('/api/projects/:id/terrain/:z/:x/:y', (c) => {
-    const id = projectIdOf(c, ctx);
+  app.get('/api/projects/:id/terrain/:z/:x/:y', async (c) => {
+    const id = await projectIdOf(c, ctx);
     const { z, x } = c.req.param();
     const m = /^(\d+)\.png$/.exec(c.req.param('y'));
     if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) throw new InputError('terrain tiles are …/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: 'bad tile address' }], 'bad_tile');
     let entry = terrainTiles.get(id);
-    const t = entry ? null : ctx.store.getProjectTerrain(id);
+    const t = entry ? null : await ctx.store.getProjectTerrain(id);
     if (!entry) {
       if (!t) throw new InputError(`project ${id} has no terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found');
       entry = { hash: t.blobHash, tiles: new TerrainTiles({ ...t.meta, crs: 'EPSG:4326', values: t.values }) };
@@ -215,9 +215,9 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'no-cache' });
   });
 
-  app.get('/api/projects/:id/runs', (c) => {
-    const id = projectIdOf(c, ctx);
-    const runs = ctx.store.listProjectRuns(id).map((r) => {
+  app.get('/api/projects/:id/runs', async (c) => {
+    const id = await projectIdOf(c, ctx);
+    const runs = (await ctx.store.listProjectRuns(id)).map((r) => {
       const live = ctx.jobs.live(r.id);
       return { ...r, status: live?.status ?? r.status, url: `/api/runs/${r.id}` };
     });
@@ -225,21 +225,21 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
   });
 
   app.post('/api/projects/:id/runs', async (c) => {
-    const id = projectIdOf(c, ctx);
-    requireEditToken(c, ctx, id);
+    const id = await projectIdOf(c, ctx);
+    await requireEditToken(c, ctx, id);
     requireJsonType(c);
-    const out = submitRun(ctx, await jsonBody(c), clientAddress(c, ctx.trustedProxies), id);
+    const out = await submitRun(ctx, await jsonBody(c), clientAddress(c, ctx.trustedProxies), id);
     return c.json(out.body, out.status);
   });
 
   // The checks a run makes before it starts, without starting it: what is missing, and data sets far apart.
   app.post('/api/projects/:id/runs/check', async (c) => {
-    const id = projectIdOf(c, ctx);
+    const id = await projectIdOf(c, ctx);
     requireJsonType(c);
     const body = await jsonBody(c);
     requireRunInputs(body);
     const request = parseWith(runRequestSchema, body, 'run request', 'invalid_run');
-    const { names, bboxes } = resolveRunDatasets(ctx, request, id);
+    const { names, bboxes } = await resolveRunDatasets(ctx, request, id);
     const warnings = farApartWarnings(bboxes);
     return c.json({ ok: true, datasets: names, warnings });
   });

@@ -11,21 +11,21 @@ import { jsonBody, notFound, requireJsonType, singleQuery, type AppContext } fro
 import { idSchema, jsonDepthExceeds, parseWith, projectCreateSchema, projectUpdateSchema, revisionQuerySchema } from './schemas.ts';
 
 /** The project id of the path (404 when there is no such project). */
-export function projectIdOf(c: Context, ctx: AppContext): string {
+export async function projectIdOf(c: Context, ctx: AppContext): Promise<string> {
   const raw = c.req.param('id') ?? '';
   const id = idSchema.safeParse(raw);
-  if (!id.success || ctx.store.getProjectTokenHash(id.data) === null) throw notFound('project', raw, 'project_not_found');
+  if (!id.success || (await ctx.store.getProjectTokenHash(id.data)) === null) throw notFound('project', raw, 'project_not_found');
   return id.data;
 }
 
 /** Requires the project's edit token (401 without one, 403 with another project's or a wrong one). */
-export function requireEditToken(c: Context, ctx: AppContext, id: string): void {
+export async function requireEditToken(c: Context, ctx: AppContext, id: string): Promise<void> {
   const token = bearerToken(c.req.header('authorization'));
   if (token === null) {
     c.header('www-authenticate', 'Bearer realm="subtherm project"');
     throw new InputError('changing a project needs its edit token: Authorization: Bearer <editToken> (from the edit link)', [{ field: 'authorization', problem: 'missing' }], 'unauthorized');
   }
-  if (!tokenMatches(token, ctx.store.getProjectTokenHash(id)!)) {
+  if (!tokenMatches(token, (await ctx.store.getProjectTokenHash(id))!)) {
     throw new InputError('this token cannot edit this project (a view link is read-only)', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden');
   }
 }
@@ -42,7 +42,7 @@ export function projectRoutes(app: Hono, ctx: AppContext): void {
     }
     return text;
   };
-  const projectId = (c: Context): string => projectIdOf(c, ctx);
+  const projectId = (c: Context): Promise<string> => projectIdOf(c, ctx);
 
   app.post('/api/projects', async (c) => {
     requireJsonType(c);
@@ -50,30 +50,30 @@ export function projectRoutes(app: Hono, ctx: AppContext): void {
     const q = parseWith(projectCreateSchema, body, 'project', 'invalid_project');
     const token = newEditToken();
     const id = newId('');
-    const rec = ctx.store.createProject({ id, title: q.title, stateJson: stateJson(q.state), tokenHash: hashToken(token) });
+    const rec = await ctx.store.createProject({ id, title: q.title, stateJson: stateJson(q.state), tokenHash: hashToken(token) });
     return c.json({ id, revision: rec.revision, editToken: token, viewUrl: `/p/${id}`, editUrl: `/p/${id}#edit=${token}` }, 201);
   });
 
-  app.get('/api/projects/:id', (c) => {
-    const id = projectId(c);
+  app.get('/api/projects/:id', async (c) => {
+    const id = await projectId(c);
     const { revision } = parseWith(revisionQuerySchema, singleQuery(c), 'query', 'bad_query');
-    const rec = ctx.store.getProject(id, revision);
+    const rec = await ctx.store.getProject(id, revision);
     if (!rec) throw new InputError(`project ${id} has no revision ${revision}`, [{ field: 'revision', problem: 'not found' }], 'revision_not_found');
     return c.json({ id: rec.id, title: rec.title, state: rec.state, revision: rec.revision, updatedAt: rec.updatedAt, createdAt: rec.createdAt }, 200, { 'cache-control': 'no-store' });
   });
 
-  app.get('/api/projects/:id/revisions', (c) => {
-    const id = projectId(c);
-    return c.json({ id, revisions: ctx.store.listRevisions(id) ?? [] }, 200, { 'cache-control': 'no-store' });
+  app.get('/api/projects/:id/revisions', async (c) => {
+    const id = await projectId(c);
+    return c.json({ id, revisions: (await ctx.store.listRevisions(id)) ?? [] }, 200, { 'cache-control': 'no-store' });
   });
 
   app.put('/api/projects/:id', async (c) => {
-    const id = projectId(c);
-    requireEditToken(c, ctx, id);
+    const id = await projectId(c);
+    await requireEditToken(c, ctx, id);
     requireJsonType(c);
     const body = await jsonBody(c);
     const q = parseWith(projectUpdateSchema, body, 'project', 'invalid_project');
-    const revision = ctx.store.appendRevision(id, { title: q.title, stateJson: stateJson(q.state) });
+    const revision = await ctx.store.appendRevision(id, { title: q.title, stateJson: stateJson(q.state) });
     return c.json({ id, revision });
   });
 }

@@ -84,7 +84,7 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
     }
     const runId = c.req.param('runId');
     const id = idSchema.safeParse(runId);
-    const run = id.success ? ctx.store.getRun(id.data) : null;
+    const run = id.success ? await ctx.store.getRun(id.data) : null;
     if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found');
     if (run.status !== 'done') throw new InputError(`run ${run.id} is ${run.status}: heat in place needs a finished run`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done');
     // Everything the caller can get wrong is checked now (bounded above, so cheap), not in the job.
@@ -115,7 +115,7 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
       client: clientAddress(c, ctx.trustedProxies),
       work,
       // With realizations, the job reads the run's own (server/runs/realizations.ts): the worker builds them from this record.
-      task: { kind: 'heat-in-place', runId: run.id, heatFlow: heat.grid, heatFlowSd: sd?.grid ?? null, model: run.model, body, record: options.realizations > 0 ? readRunRecord(ctx.store, run.id) : null },
+      task: { kind: 'heat-in-place', runId: run.id, heatFlow: heat.grid, heatFlowSd: sd?.grid ?? null, model: run.model, body, record: options.realizations > 0 ? await readRunRecord(ctx.store, run.id) : null },
     });
     return c.json(jobView(run.id, job, ctx.heatJobs.position(job)), 202, { location: `/api/runs/${encodeURIComponent(run.id)}/heat-in-place/${job.id}` });
   });

@@ -90,7 +90,7 @@ export function requestedCells(req: RunRequest, sitesBody: string): number | nul
  * holds, the model's name is the project's name for it, and the run is listed under the project. Data sets that
  * lie far apart are reported in `warnings` (also by POST …/runs/check before starting).
  */
-export function submitRun(ctx: AppContext, body: unknown, client: string, projectId?: string): { status: 200 | 202; body: Record<string, unknown> } {
+export async function submitRun(ctx: AppContext, body: unknown, client: string, projectId?: string): Promise<{ status: 200 | 202; body: Record<string, unknown> }> {
   requireRunInputs(body);
   const request = parseWith(runRequestSchema, body, 'run request', 'invalid_run');
   // The engines' own options are validated here too, so a mistake is a 422 now rather than a failed run later.
@@ -102,7 +102,7 @@ export function submitRun(ctx: AppContext, body: unknown, client: string, projec
   if (crs !== undefined && !/^EPSG:\d{4,6}$/i.test(crs)) {
     throw new InputError(`grid.crs must be EPSG:nnnn, got "${crs}"`, [{ field: 'grid.crs', problem: 'expected EPSG:4326 or EPSG:nnnn' }], 'invalid_run');
   }
-  const { datasets, hashes, names, bboxes } = resolveRunDatasets(ctx, request, projectId);
+  const { datasets, hashes, names, bboxes } = await resolveRunDatasets(ctx, request, projectId);
   const warnings = farApartWarnings(bboxes);
   const cells = requestedCells(request, datasets[request.sites].body);
   if (cells !== null && cells > ctx.limits.maxGridCells) {
@@ -118,10 +118,10 @@ export function submitRun(ctx: AppContext, body: unknown, client: string, projec
   const cacheKey = sha256Hex(canonicalJson({ version: VERSION, request, inputs: hashes }));
   // "Client" for limits and fairness: the project a run is started through, else the remote address.
   const owner = projectId !== undefined ? `project:${projectId}` : client;
-  const { id, cached, runToken } = ctx.jobs.submit({ request, datasets, cacheKey, client: owner, cells, projectId });
-  ctx.store.linkRunDatasets(id, Object.keys(datasets));
-  if (projectId !== undefined) ctx.store.linkProjectRun(projectId, id);
-  const snap = ctx.jobs.snapshot(id);
+  const { id, cached, runToken } = await ctx.jobs.submit({ request, datasets, cacheKey, client: owner, cells, projectId });
+  await ctx.store.linkRunDatasets(id, Object.keys(datasets));
+  if (projectId !== undefined) await ctx.store.linkProjectRun(projectId, id);
+  const snap = await ctx.jobs.snapshot(id);
   return {
     status: cached ? 200 : 202,
     // The run token (only for a run this request started) is needed to cancel it: DELETE with Authorization: Bearer.
@@ -145,18 +145,18 @@ export function requireRunInputs(body: unknown): void {
 }
 
 /** The data sets a validated request names, checked (exist, kind, in the project), with their hashes and bboxes. */
-export function resolveRunDatasets(ctx: AppContext, request: RunRequest, projectId?: string) {
+export async function resolveRunDatasets(ctx: AppContext, request: RunRequest, projectId?: string) {
   const datasets: Record<string, { kind: string; body: string }> = {};
   const hashes: Record<string, string> = {};
   const names: Record<string, { id: string; name: string | null }> = {};
   const bboxes: { role: string; id: string; name: string | null; bbox: [number, number, number, number] }[] = [];
-  const need = (role: string, id: string, kind: string): DatasetRecord & { body: string; name: string | null } => {
-    const rec = ctx.store.getDataset(id);
+  const need = async (role: string, id: string, kind: string): Promise<DatasetRecord & { body: string; name: string | null }> => {
+    const rec = await ctx.store.getDataset(id);
     if (!rec) throw new InputError(`${role}: no data set with id "${id}"`, [{ field: role, problem: `data set ${id} not found` }], 'dataset_not_found');
     if (rec.kind !== kind) throw new InputError(`${role}: data set "${id}" holds ${rec.kind}, not ${kind}`, [{ field: role, problem: `expected a ${kind} data set, got ${rec.kind}` }], 'wrong_dataset_kind');
     let name = rec.title;
     if (projectId !== undefined) {
-      const held = ctx.store.getProjectDataset(projectId, id);
+      const held = await ctx.store.getProjectDataset(projectId, id);
       if (!held) {
         throw new InputError(`${role}: data set "${id}" is not one of this project's data sets: upload it into the project (or choose one it holds)`, [{ field: role, problem: `data set ${id} is not in project ${projectId}` }], 'dataset_not_in_project');
       }
@@ -169,14 +169,14 @@ export function resolveRunDatasets(ctx: AppContext, request: RunRequest, project
   for (const [role, kind] of Object.entries(ROLE_KINDS)) {
     const id = request[role as keyof typeof ROLE_KINDS];
     if (id === undefined) continue;
-    const rec = need(role, id, kind);
+    const rec = await need(role, id, kind);
     datasets[id] = { kind: rec.kind, body: rec.body };
     hashes[role] = rec.contentHash;
   }
   // The model: a data set id or inline JSON, validated here so a bad model never reaches a worker. A stored
   // model's name is its data set's name (the project's), so exports carry the name the user gave it.
   if (typeof request.model === 'string') {
-    const rec = need('model', request.model, 'model');
+    const rec = await need('model', request.model, 'model');
     const { model } = parseModelDocument(JSON.parse(rec.body), `model ${request.model}`);
     const { name: _own, ...content } = model as typeof model & { name?: unknown };
     datasets[request.model] = { kind: 'model', body: JSON.stringify(rec.name === null ? content : { name: rec.name, ...content }) };
@@ -229,42 +229,42 @@ export function farApartWarnings(bboxes: { role: string; id: string; name: strin
 export function runRoutes(app: Hono, ctx: AppContext): void {
   app.post('/api/runs', async (c) => {
     requireJsonType(c);
-    const out = submitRun(ctx, await jsonBody(c), clientAddress(c, ctx.trustedProxies));
+    const out = await submitRun(ctx, await jsonBody(c), clientAddress(c, ctx.trustedProxies));
     return c.json(out.body, out.status);
   });
 
-  const getRun = (raw: string): RunRecord => {
+  const getRun = async (raw: string): Promise<RunRecord> => {
     const id = idSchema.safeParse(raw);
-    const rec = id.success ? ctx.store.getRun(id.data) : null;
+    const rec = id.success ? await ctx.store.getRun(id.data) : null;
     if (!rec) throw notFound('run', raw, 'run_not_found');
     return rec;
   };
 
-  app.get('/api/runs/:id', (c) => {
-    const rec = getRun(c.req.param('id'));
+  app.get('/api/runs/:id', async (c) => {
+    const rec = await getRun(c.req.param('id'));
     return c.json(runView(rec, ctx.jobs.live(rec.id)));
   });
 
-  app.delete('/api/runs/:id', (c) => {
-    const rec = getRun(c.req.param('id'));
+  app.delete('/api/runs/:id', async (c) => {
+    const rec = await getRun(c.req.param('id'));
     const live = ctx.jobs.live(rec.id);
     if (!live) {
       throw new InputError(`run ${rec.id} has already ended (${rec.status}); nothing to cancel`, [{ field: 'status', problem: rec.status }], 'run_finished');
     }
     // The run token returned when the run started, or the edit token of the project it was started through.
-    const auth = ctx.jobs.authorizeCancel(rec.id, bearerToken(c.req.header('authorization')), (p) => ctx.store.getProjectTokenHash(p));
+    const auth = await ctx.jobs.authorizeCancel(rec.id, bearerToken(c.req.header('authorization')), (p) => ctx.store.getProjectTokenHash(p));
     if (auth === 'missing') {
       throw new InputError('cancelling a run needs its run token (returned when it started) or its project\'s edit token: send Authorization: Bearer <token>', [{ field: 'authorization', problem: 'missing' }], 'token_required');
     }
     if (auth === 'wrong') {
       throw new InputError('this token may not cancel this run: it is neither the run\'s token nor the edit token of the project that started it', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden');
     }
-    const after = ctx.jobs.cancel(rec.id);
+    const after = await ctx.jobs.cancel(rec.id);
     return c.json({ id: rec.id, status: after?.status ?? 'cancelled' });
   });
 
-  app.get('/api/runs/:id/events', (c) => {
-    const rec = getRun(c.req.param('id'));
+  app.get('/api/runs/:id/events', async (c) => {
+    const rec = await getRun(c.req.param('id'));
     return streamSSE(c, async (stream) => {
       let seq = 0;
       // Each event is checked against the run contract (shared/schema/run.ts) before it leaves.
@@ -272,7 +272,7 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
         const event = isTerminal(s.status) ? 'end' : 'progress';
         return stream.writeSSE({ event, id: String(seq++), data: JSON.stringify(RUN_EVENTS[event].parse(s)) });
       };
-      const first = ctx.jobs.snapshot(rec.id)!;
+      const first = (await ctx.jobs.snapshot(rec.id))!;
       await send(first);
       if (isTerminal(first.status)) return;
       await new Promise<void>((resolve) => {
@@ -293,33 +293,34 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
         const keepAlive = setInterval(() => void stream.write(': keep-alive\n\n'), 15_000);
         stream.onAbort(stop);
         // The run may have ended between the first snapshot and the subscription.
-        const now = ctx.jobs.snapshot(rec.id);
-        if (now && isTerminal(now.status)) void send(now).then(stop);
+        void ctx.jobs.snapshot(rec.id).then((now) => {
+          if (now && isTerminal(now.status)) return send(now).then(stop);
+        });
       });
     });
   });
 
   // Every vector layer of a finished run in one GeoPackage (one table per layer).
-  app.get('/api/runs/:id/vectors.gpkg', (c) => {
-    const rec = getRun(c.req.param('id'));
+  app.get('/api/runs/:id/vectors.gpkg', async (c) => {
+    const rec = await getRun(c.req.param('id'));
     if (rec.status !== 'done') throw new InputError(`the run is ${rec.status}; its GeoPackage appears when it is done`, [{ field: 'file', problem: 'not found' }], 'layer_not_found');
-    const layers = (rec.layers as { name: string; title?: string; formats?: string[] }[])
-      .filter((l) => l.formats?.includes('geojson'))
-      .map((l) => ({ name: l.name, title: l.title ?? l.name, file: ctx.store.getRunFile(rec.id, l.name, 'geojson') }))
+    const listed = (rec.layers as { name: string; title?: string; formats?: string[] }[]).filter((l) => l.formats?.includes('geojson'));
+    const files = await Promise.all(listed.map(async (l) => ({ name: l.name, title: l.title ?? l.name, file: await ctx.store.getRunFile(rec.id, l.name, 'geojson') })));
+    const layers = files
       .filter((l) => l.file !== null)
       .map((l) => ({ name: l.name, title: l.title, geojson: new TextDecoder().decode(l.file!.bytes) }));
     const bytes = vectorsGeoPackage(layers, (rec.summary as { provenance?: unknown } | null)?.provenance);
     return c.body(new Uint8Array(bytes), 200, { 'content-type': 'application/geopackage+sqlite3', 'cache-control': 'private, max-age=3600', 'content-disposition': `attachment; filename="run-${rec.id}.gpkg"` });
   });
 
-  app.get('/api/runs/:id/layers/:file', (c) => {
-    const rec = getRun(c.req.param('id'));
+  app.get('/api/runs/:id/layers/:file', async (c) => {
+    const rec = await getRun(c.req.param('id'));
     const file = c.req.param('file');
     const m = /^(.+)\.([a-z]+)$/.exec(file);
     if (!m || !LAYER_EXTS.includes(m[2] as LayerExt)) {
       throw new InputError(`layer files are <name>.tif, .png, .geojson or .csv, got "${file}"`, [{ field: 'file', problem: 'unknown format' }], 'bad_layer_format');
     }
-    const stored = ctx.store.getRunFile(rec.id, m[1], m[2]);
+    const stored = await ctx.store.getRunFile(rec.id, m[1], m[2]);
     if (!stored) {
       const why = rec.status === 'done' ? `the run has no layer file ${file}` : `the run is ${rec.status}; layers appear when it is done`;
       throw new InputError(why, [{ field: 'file', problem: 'not found' }], 'layer_not_found');

@@ -54,9 +54,9 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
   const inFlight = new Map<string, Promise<RunLayerInfo>>();
 
   async function derive(runId: string, spec: DerivedSpec): Promise<{ info: RunLayerInfo; cached: boolean }> {
-    const run = ctx.store.getRun(runId)!;
+    const run = (await ctx.store.getRun(runId))!;
     const known = (run.layers as RunLayerInfo[]).find((l) => l.name === spec.name);
-    if (known && ctx.store.getRunFile(runId, spec.name, 'tif')) return { info: known, cached: true };
+    if (known && (await ctx.store.getRunFile(runId, spec.name, 'tif'))) return { info: known, cached: true };
     const key = `${runId}/${spec.name}`;
     let p = inFlight.get(key);
     if (!p) {
@@ -72,13 +72,13 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
         const legend = spec.legend(values);
         const stats = layerStats(values);
         const info: RunLayerInfo = { name: spec.name, kind: 'raster', units: spec.units, title: spec.title, legend, formats: ['tif', 'png'], stats };
-        ctx.store.storeRunResult(runId, {
+        await ctx.store.storeRunResult(runId, {
           files: [
             { name: spec.name, ext: 'tif', bytes: geotiffBytes(grid, `${spec.title} (${spec.units})`, provenance), contentType: LAYER_CONTENT_TYPES.tif },
             { name: spec.name, ext: 'png', bytes: pngBytes(grid, legend, spec.ramp, provenance, spec.title), contentType: LAYER_CONTENT_TYPES.png },
           ],
           grids: [],
-          record: { layers: [...(ctx.store.getRun(runId)!.layers as RunLayerInfo[]).filter((l) => l.name !== spec.name), info] },
+          record: { layers: [...((await ctx.store.getRun(runId))!.layers as RunLayerInfo[]).filter((l) => l.name !== spec.name), info] },
         });
         return info;
       })().finally(() => inFlight.delete(key));
@@ -87,9 +87,9 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
     return { info: await p, cached: false };
   }
 
-  const doneRun = (raw: string) => {
+  const doneRun = async (raw: string) => {
     const id = idSchema.safeParse(raw);
-    const run = id.success ? ctx.store.getRun(id.data) : null;
+    const run = id.success ? await ctx.store.getRun(id.data) : null;
     if (!run) throw notFound('run', raw, 'run_not_found');
     if (run.status !== 'done') throw new InputError(`run ${run.id} is ${run.status}; its uncertainty layers exist when it is done`, [{ field: 'id', problem: `status ${run.status}` }], 'run_not_done');
     return run;
@@ -102,7 +102,7 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
   });
 
   app.get('/api/runs/:id/spread', async (c) => {
-    const run = doneRun(c.req.param('id'));
+    const run = await doneRun(c.req.param('id'));
     const { isothermC } = parseWith(spreadQuery, singleQuery(c), 'query', 'bad_query');
     const T = fmt(isothermC);
     const r = await derive(run.id, {
@@ -118,7 +118,7 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
   });
 
   app.get('/api/runs/:id/probability', async (c) => {
-    const run = doneRun(c.req.param('id'));
+    const run = await doneRun(c.req.param('id'));
     const q = parseWith(probabilityQuery, singleQuery(c), 'query', 'bad_query');
     let query: ProbabilityQuery, name: string, title: string;
     if ('isothermC' in q) {

@@ -30,7 +30,7 @@ export class RunGridCache {
       this.cache.set(key, hit);
       return hit;
     }
-    const stored = this.store.getRunGrid(runId, name);
+    const stored = await this.store.getRunGrid(runId, name);
     let out: RunGrid | null = null;
     if (stored) {
       // Values live in shared memory, so handing a grid to a worker thread (sections, heat in place) copies nothing.

@@ -57,6 +57,7 @@ export interface RunSnapshot {
 
 interface Job {
   id: string;
+  cacheKey: string;
   client: string;
   /** Project the run was started through (its edit token may cancel it). */
   projectId: string | null;
@@ -70,6 +71,8 @@ interface Job {
   datasets: Record<string, { kind: string; body: string }>;
   abort: AbortController;
   snapshot: RunSnapshot;
+  /** The run's store writes, chained so they land in the order they were made. */
+  writes: Promise<void>;
 }
 
 /** Nice value of run threads: runs are the longest work, so requests and short tasks go first. */
@@ -101,7 +104,11 @@ export class RunJobs {
   /** Each running job's end of its MessagePort (progress in; the worker also takes `{ type: 'cancel' }`). */
   private readonly ports = new Map<string, MessagePort>();
   private readonly events = new EventEmitter();
+  /** Runs that have ended whose final state is still being written to the store (reported from here until then). */
+  private readonly settling = new Map<string, RunSnapshot>();
   private closed = false;
+  /** Resolves once runs left over by a stopped server have been marked failed (submit waits for it). */
+  readonly ready: Promise<void>;
 
   constructor(opts: RunJobsOptions) {
     this.store = opts.store;
@@ -118,7 +125,10 @@ export class RunJobs {
     this.log = opts.log ?? ((l) => process.stderr.write(l + '\n'));
     this.events.setMaxListeners(0);
     // Runs left queued or running by a server that stopped can never finish: say so instead of leaving them.
-    this.store.failInterruptedRuns('the server stopped before this run finished; submit it again');
+    this.ready = this.store.failInterruptedRuns('the server stopped before this run finished; submit it again').then(
+      () => undefined,
+      (e: unknown) => this.log(`[${new Date().toISOString()}] could not mark interrupted runs failed: ${(e as Error)?.stack ?? String(e)}`),
+    );
   }
 
   private getPool(): Piscina {
@@ -170,12 +180,16 @@ export class RunJobs {
    * realizations (422), the client's runs and work in flight (429), the server's (503).
    * @param cells output grid cells of the run (null when not known before it starts)
    */
-  submit(input: { request: RunRequest; datasets: Record<string, { kind: string; body: string }>; cacheKey: string; client: string; cells?: number | null; projectId?: string }): { id: string; cached: boolean; runToken?: string } {
+  async submit(input: { request: RunRequest; datasets: Record<string, { kind: string; body: string }>; cacheKey: string; client: string; cells?: number | null; projectId?: string }): Promise<{ id: string; cached: boolean; runToken?: string }> {
+    await this.ready;
     if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down');
-    const existing = this.store.findRunByCacheKey(input.cacheKey, ['queued', 'running', 'done']);
+    const existing = await this.store.findRunByCacheKey(input.cacheKey, ['queued', 'running', 'done']);
     if (existing && (existing.status === 'done' || this.running.has(existing.id) || this.queuedInOrder().some((j) => j.id === existing.id))) {
       return { id: existing.id, cached: true };
     }
+    // The same request submitted while the first was being recorded: the live one is found in memory.
+    const twin = [...this.running.values(), ...this.queuedInOrder()].find((j) => j.cacheKey === input.cacheKey);
+    if (twin) return { id: twin.id, cached: true };
     const realizations = input.request.realizations ?? 0;
     const cells = input.cells ?? 0;
     const work = Math.max(1, cells) * Math.max(1, realizations);
@@ -210,17 +224,24 @@ export class RunJobs {
       id, cacheKey: input.cacheKey, request: input.request, status: 'queued', progress: 0, message: 'queued',
       layers: [], summary: null, warnings: [], model: null, grids: [], client: input.client, createdAt: now, updatedAt: now,
     };
-    this.store.putRun(rec);
     const runToken = newEditToken();
     const job: Job = {
-      id, client: input.client, projectId: input.projectId ?? null, tokenHash: hashToken(runToken), work, startedAt: 0, timedOut: false,
+      id, cacheKey: input.cacheKey, client: input.client, projectId: input.projectId ?? null, tokenHash: hashToken(runToken), work, startedAt: 0, timedOut: false,
       request: input.request, datasets: input.datasets,
       abort: new AbortController(),
       snapshot: { id, status: 'queued', progress: 0, message: 'queued' },
+      writes: Promise.resolve(),
     };
+    // The bounds are reserved before the record is written, so submissions in flight together cannot pass them all.
     this.perClient.set(input.client, inFlight + 1);
     this.workPerClient.set(input.client, clientWork + work);
     this.workTotal += work;
+    try {
+      await this.store.putRun(rec);
+    } catch (e) {
+      this.release(job);
+      throw e;
+    }
     const q = this.queues.get(input.client);
     if (q) q.push(job);
     else {
@@ -236,13 +257,13 @@ export class RunJobs {
    * through (`projectTokenHash` looks that hash up). 'missing' without a token, 'wrong' for any other token, null
    * when the run is not live.
    */
-  authorizeCancel(id: string, token: string | null, projectTokenHash: (projectId: string) => string | null): 'ok' | 'missing' | 'wrong' | null {
+  async authorizeCancel(id: string, token: string | null, projectTokenHash: (projectId: string) => Promise<string | null>): Promise<'ok' | 'missing' | 'wrong' | null> {
     const job = this.running.get(id) ?? this.queuedInOrder().find((j) => j.id === id);
     if (!job) return null;
     if (token === null) return 'missing';
     if (tokenMatches(token, job.tokenHash)) return 'ok';
     if (job.projectId !== null) {
-      const h = projectTokenHash(job.projectId);
+      const h = await projectTokenHash(job.projectId);
       if (h !== null && tokenMatches(token, h)) return 'ok';
     }
     return 'wrong';
@@ -250,6 +271,8 @@ export class RunJobs {
 
   /** The live state of a queued or running run (null once it has finished: read the store then). */
   live(id: string): RunSnapshot | null {
+    const ending = this.settling.get(id);
+    if (ending) return { ...ending };
     const run = this.running.get(id);
     if (run) return { ...run.snapshot, estimateSeconds: this.seconds(run.work * (1 - run.snapshot.progress)) };
     const order = this.queuedInOrder();
@@ -267,10 +290,10 @@ export class RunJobs {
   }
 
   /** Current state from memory or the store; null for an unknown id. */
-  snapshot(id: string): RunSnapshot | null {
+  async snapshot(id: string): Promise<RunSnapshot | null> {
     const l = this.live(id);
     if (l) return l;
-    const r = this.store.getRun(id);
+    const r = await this.store.getRun(id);
     return r ? { id, status: r.status, progress: r.progress, message: r.message } : null;
   }
 
@@ -284,7 +307,7 @@ export class RunJobs {
    * Cancels a queued or running run: a queued one leaves the queue, a running one is sent the cancel message and its
    * worker thread terminated. Returns the state after the call, or null for an unknown id.
    */
-  cancel(id: string): RunSnapshot | null {
+  async cancel(id: string): Promise<RunSnapshot | null> {
     const queued = this.queuedInOrder().find((j) => j.id === id);
     if (queued) {
       const q = this.queues.get(queued.client)!;
@@ -324,14 +347,14 @@ export class RunJobs {
 
   /** Resolves when no run is queued or running (for tests and shutdown). */
   async idle(): Promise<void> {
-    while (this.queuedCount > 0 || this.running.size > 0) await new Promise((r) => setTimeout(r, 20));
+    while (this.queuedCount > 0 || this.running.size > 0 || this.settling.size > 0) await new Promise((r) => setTimeout(r, 20));
   }
 
   /** Cancels everything and stops the pool. */
   async close(): Promise<void> {
     this.closed = true;
-    for (const j of this.queuedInOrder()) this.cancel(j.id);
-    for (const id of [...this.running.keys()]) this.cancel(id);
+    for (const j of this.queuedInOrder()) await this.cancel(j.id);
+    for (const id of [...this.running.keys()]) await this.cancel(id);
     await this.idle();
     await this.pool?.destroy();
     this.pool = null;
@@ -349,14 +372,18 @@ export class RunJobs {
     }
   }
 
-  private update(job: Job, patch: Partial<RunSnapshot>, persist: boolean): void {
+  /** Applies a change to the live snapshot and tells subscribers; with `persist`, queues its write (returned). */
+  private update(job: Job, patch: Partial<RunSnapshot>, persist: boolean): Promise<void> {
     Object.assign(job.snapshot, patch);
     this.events.emit(job.id, { ...job.snapshot });
-    if (persist) this.store.updateRun(job.id, { status: job.snapshot.status, progress: job.snapshot.progress, message: job.snapshot.message });
+    if (!persist) return job.writes;
+    const fields = { status: job.snapshot.status, progress: job.snapshot.progress, message: job.snapshot.message };
+    job.writes = job.writes.then(() => this.store.updateRun(job.id, fields)).catch((e: unknown) => this.log(`[${new Date().toISOString()}] run ${job.id}: could not record its state: ${(e as Error)?.stack ?? String(e)}`));
+    return job.writes;
   }
 
-  private finish(job: Job, patch: Pick<RunSnapshot, 'status' | 'progress' | 'message'>): void {
-    const wasRunning = this.running.delete(job.id);
+  /** Gives back a run's share of the per-client and server bounds. */
+  private release(job: Job): void {
     const n = (this.perClient.get(job.client) ?? 1) - 1;
     if (n > 0) this.perClient.set(job.client, n);
     else this.perClient.delete(job.client);
@@ -364,18 +391,25 @@ export class RunJobs {
     if (w > 0) this.workPerClient.set(job.client, w);
     else this.workPerClient.delete(job.client);
     this.workTotal = Math.max(0, this.workTotal - job.work);
+  }
+
+  private finish(job: Job, patch: Pick<RunSnapshot, 'status' | 'progress' | 'message'>): void {
+    const wasRunning = this.running.delete(job.id);
+    this.release(job);
     if (wasRunning && patch.status === 'done') {
       const seconds = Math.max(0.05, (Date.now() - job.startedAt) / 1000);
       const r = job.work / seconds;
       this.rate = this.rate === null ? r : 0.7 * this.rate + 0.3 * r;
     }
-    this.update(job, patch, true);
+    // Until the final state is in the store, readers get it from here.
+    this.settling.set(job.id, job.snapshot);
+    void this.update(job, patch, true).finally(() => this.settling.delete(job.id));
   }
 
   private start(job: Job): void {
     this.running.set(job.id, job);
     job.startedAt = Date.now();
-    this.update(job, { status: 'running', message: 'starting' }, true);
+    void this.update(job, { status: 'running', message: 'starting' }, true);
     // The wall-clock limit: stop the thread and record why.
     const wallClock = Number.isFinite(this.limits.wallClockMs)
       ? setTimeout(() => {
@@ -395,11 +429,7 @@ export class RunJobs {
       const now = Date.now();
       const persist = now - lastWrite >= 250;
       if (persist) lastWrite = now;
-      try {
-        this.update(job, { progress: Math.max(job.snapshot.progress, f), message: text }, persist);
-      } catch (e) {
-        this.log(`[${new Date().toISOString()}] run ${job.id}: could not record progress: ${(e as Error).message}`);
-      }
+      void this.update(job, { progress: Math.max(job.snapshot.progress, f), message: text }, persist);
     });
     const task: RunTask = { request: job.request, datasets: job.datasets, port: port2 };
     let settled: Promise<unknown>;
@@ -409,9 +439,9 @@ export class RunJobs {
       settled = Promise.reject(e instanceof Error ? e : new Error(String(e)));
     }
     settled
-      .then((result) => {
+      .then(async (result) => {
         if (job.abort.signal.aborted) throw new Error('cancelled');
-        this.storeResult(job, result as RunResult);
+        await this.storeResult(job, result as RunResult);
       })
       .catch((err: unknown) => {
         if (job.timedOut) {
@@ -440,7 +470,7 @@ export class RunJobs {
   }
 
   /** Stores a finished run's files and grids content-addressed, and its record, in one transaction. */
-  private storeResult(job: Job, result: RunResult): void {
+  private async storeResult(job: Job, result: RunResult): Promise<void> {
     const bad = (why: string) => new Error(`the run worker returned a malformed result: ${why}`);
     if (result === null || typeof result !== 'object' || !Array.isArray(result.layers)) throw bad('no layers array');
     const heat = result.grids?.heatFlow;
@@ -459,7 +489,8 @@ export class RunJobs {
     const grids = (Object.entries(result.grids) as [string, SerializedGrid | undefined][])
       .filter((e): e is [string, SerializedGrid] => e[1] !== undefined)
       .map(([name, g]) => ({ name, meta: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: g.units }, values: g.values }));
-    this.store.storeRunResult(job.id, {
+    await job.writes;
+    await this.store.storeRunResult(job.id, {
       files: result.layers.flatMap((l) => l.files.map((f) => ({ name: l.info.name, ext: f.ext, bytes: f.bytes, contentType: LAYER_CONTENT_TYPES[f.ext] }))),
       grids,
       record: {

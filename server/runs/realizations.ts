@@ -146,18 +146,18 @@ interface StoredMonteCarlo {
 }
 
 /** Reads what a finished run's realizations are built from (store reads only; no computation). */
-export function readRunRecord(store: Store, runId: string): RunRecord {
-  const run = store.getRun(runId);
+export async function readRunRecord(store: Store, runId: string): Promise<RunRecord> {
+  const run = await store.getRun(runId);
   if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found');
   if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}; its realizations exist when it is done`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done');
   const request = (run.request ?? {}) as { regions?: string; sites?: string };
   const summary = (run.summary ?? {}) as { monteCarlo?: StoredMonteCarlo | null };
-  const heat = store.getRunGrid(runId, 'heatFlow');
+  const heat = await store.getRunGrid(runId, 'heatFlow');
   if (!heat) throw new InputError(`run ${runId} has no stored heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid');
-  const sdRec = store.getRunGrid(runId, 'heatFlowSd');
-  const body = (id: string | undefined, field: string): string | null => {
+  const sdRec = await store.getRunGrid(runId, 'heatFlowSd');
+  const body = async (id: string | undefined, field: string): Promise<string | null> => {
     if (id === undefined) return null;
-    const ds = store.getDataset(id);
+    const ds = await store.getDataset(id);
     if (!ds) throw new InputError(`the ${field} data set "${id}" of run ${runId} is no longer stored`, [{ field, problem: 'not found' }], 'dataset_not_found');
     return ds.body;
   };
@@ -169,8 +169,8 @@ export function readRunRecord(store: Store, runId: string): RunRecord {
     model: run.model as ThermalModelInput,
     heatFlow: { ...heat.meta, values: heat.values },
     heatFlowSd: sdRec ? { ...sdRec.meta, values: sdRec.values } : null,
-    sitesBody: simulated ? body(request.sites, 'sites') : null,
-    regionsBody: body(request.regions, 'regions'),
+    sitesBody: simulated ? await body(request.sites, 'sites') : null,
+    regionsBody: await body(request.regions, 'regions'),
   };
 }
 
@@ -179,7 +179,7 @@ export function readRunRecord(store: Store, runId: string): RunRecord {
  * overrides the run's count (e.g. for a run made without Monte Carlo); otherwise a run with none is a 409.
  */
 export async function loadRunRealizations(store: Store, runId: string, opts: { realizations?: number } = {}): Promise<RunRealizations> {
-  return realizationsFromRecord(readRunRecord(store, runId), opts);
+  return realizationsFromRecord(await readRunRecord(store, runId), opts);
 }
 
 /** Builds a run's realizations from its record (simulating its heat-flow fields again when the run did). */

@@ -116,7 +116,11 @@ export function sha256Hex(text: string | Uint8Array): string {
   return createHash('sha256').update(text).digest('hex');
 }
 
-/** The embedded store: one SQLite file in WAL mode (better-sqlite3), created and migrated on open. */
+/**
+ * The embedded store: one SQLite file in WAL mode (better-sqlite3), created and migrated on open. better-sqlite3 is
+ * synchronous: each method does its work before it returns, and is `async` only so that a failure reaches the caller
+ * as a rejected Promise, as the Store interface promises. Transactions use the `…Now` helpers, which stay synchronous.
+ */
 export class SqliteStore implements Store {
   readonly db: Database.Database;
 
@@ -141,10 +145,10 @@ export class SqliteStore implements Store {
     }
   }
 
-  putDataset(input: { id?: string; kind: string; body: string; featureCount: number; title?: string }): DatasetRecord {
+  async putDataset(input: { id?: string; kind: string; body: string; featureCount: number; title?: string }): Promise<DatasetRecord> {
     const contentHash = sha256Hex(input.body);
     if (input.id !== undefined) {
-      const existing = this.getDataset(input.id);
+      const existing = this.getDatasetNow(input.id);
       if (existing) return strip(existing);
     }
     const bbox = input.kind === 'model' ? null : bodyBbox(input.body);
@@ -164,7 +168,11 @@ export class SqliteStore implements Store {
     return rec;
   }
 
-  getDataset(id: string): (DatasetRecord & { body: string }) | null {
+  async getDataset(id: string): Promise<(DatasetRecord & { body: string }) | null> {
+    return this.getDatasetNow(id);
+  }
+
+  private getDatasetNow(id: string): (DatasetRecord & { body: string }) | null {
     const row = this.db.prepare(`SELECT ${DATASET_COLUMNS}, body FROM datasets WHERE id = ?`).get(id) as
       | (DatasetRow & { body: string })
       | undefined;
@@ -172,12 +180,12 @@ export class SqliteStore implements Store {
     return { ...this.datasetFromRow(row), body: row.body };
   }
 
-  listDatasets(): DatasetRecord[] {
+  async listDatasets(): Promise<DatasetRecord[]> {
     const rows = this.db.prepare(`SELECT ${DATASET_COLUMNS} FROM datasets ORDER BY created_at, id`).all() as DatasetRow[];
     return rows.map((r) => this.datasetFromRow(r));
   }
 
-  findDatasetByContent(kind: string, contentHash: string): DatasetRecord | null {
+  async findDatasetByContent(kind: string, contentHash: string): Promise<DatasetRecord | null> {
     const row = this.db.prepare(`SELECT ${DATASET_COLUMNS} FROM datasets WHERE kind = ? AND content_hash = ? ORDER BY created_at LIMIT 1`).get(kind, contentHash) as DatasetRow | undefined;
     return row ? this.datasetFromRow(row) : null;
   }
@@ -193,7 +201,7 @@ export class SqliteStore implements Store {
     return { id: r.id, kind: r.kind, featureCount: r.feature_count, contentHash: r.content_hash, title: r.title, createdAt: r.created_at, bbox, bytes: r.bytes };
   }
 
-  attachDataset(projectId: string, datasetId: string, name: string): ProjectDatasetRecord {
+  async attachDataset(projectId: string, datasetId: string, name: string): Promise<ProjectDatasetRecord> {
     const now = new Date().toISOString();
     this.db
       .prepare(
@@ -201,32 +209,36 @@ export class SqliteStore implements Store {
          ON CONFLICT (project_id, dataset_id) DO UPDATE SET name = excluded.name, attached_at = excluded.attached_at, detached_at = NULL`,
       )
       .run(projectId, datasetId, name, now);
-    return this.getProjectDataset(projectId, datasetId)!;
+    return this.getProjectDatasetNow(projectId, datasetId)!;
   }
 
-  listProjectDatasets(projectId: string): ProjectDatasetRecord[] {
+  async listProjectDatasets(projectId: string): Promise<ProjectDatasetRecord[]> {
     const rows = this.db
       .prepare(`SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.detached_at IS NULL ORDER BY p.attached_at, d.id`)
       .all(projectId) as (DatasetRow & { name: string; attached_at: string })[];
     return rows.map((r) => projectDataset(this.datasetFromRow(r), r.name, r.attached_at));
   }
 
-  getProjectDataset(projectId: string, datasetId: string): ProjectDatasetRecord | null {
+  async getProjectDataset(projectId: string, datasetId: string): Promise<ProjectDatasetRecord | null> {
+    return this.getProjectDatasetNow(projectId, datasetId);
+  }
+
+  private getProjectDatasetNow(projectId: string, datasetId: string): ProjectDatasetRecord | null {
     const r = this.db
       .prepare(`SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.dataset_id = ? AND p.detached_at IS NULL`)
       .get(projectId, datasetId) as (DatasetRow & { name: string; attached_at: string }) | undefined;
     return r ? projectDataset(this.datasetFromRow(r), r.name, r.attached_at) : null;
   }
 
-  renameProjectDataset(projectId: string, datasetId: string, name: string): boolean {
+  async renameProjectDataset(projectId: string, datasetId: string, name: string): Promise<boolean> {
     return this.db.prepare('UPDATE project_datasets SET name = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL').run(name, projectId, datasetId).changes > 0;
   }
 
-  detachProjectDataset(projectId: string, datasetId: string): boolean {
+  async detachProjectDataset(projectId: string, datasetId: string): Promise<boolean> {
     return this.db.prepare('UPDATE project_datasets SET detached_at = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL').run(new Date().toISOString(), projectId, datasetId).changes > 0;
   }
 
-  pruneDataset(datasetId: string): boolean {
+  async pruneDataset(datasetId: string): Promise<boolean> {
     return this.db
       .transaction(() => {
         const attached = this.db.prepare('SELECT 1 FROM project_datasets WHERE dataset_id = ? AND detached_at IS NULL LIMIT 1').get(datasetId);
@@ -240,7 +252,7 @@ export class SqliteStore implements Store {
       .immediate();
   }
 
-  projectStorageBytes(projectId: string): number {
+  async projectStorageBytes(projectId: string): Promise<number> {
     const ds = this.db
       .prepare('SELECT COALESCE(SUM(length(CAST(d.body AS BLOB))), 0) AS n FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.detached_at IS NULL')
       .get(projectId) as { n: number };
@@ -248,18 +260,18 @@ export class SqliteStore implements Store {
     return ds.n + t.n;
   }
 
-  linkRunDatasets(runId: string, datasetIds: string[]): void {
+  async linkRunDatasets(runId: string, datasetIds: string[]): Promise<void> {
     const ins = this.db.prepare('INSERT OR IGNORE INTO run_datasets (run_id, dataset_id) VALUES (?, ?)');
     this.db.transaction(() => {
       for (const id of datasetIds) ins.run(runId, id);
     })();
   }
 
-  linkProjectRun(projectId: string, runId: string): void {
+  async linkProjectRun(projectId: string, runId: string): Promise<void> {
     this.db.prepare('INSERT OR IGNORE INTO project_runs (project_id, run_id, created_at) VALUES (?, ?, ?)').run(projectId, runId, new Date().toISOString());
   }
 
-  listProjectRuns(projectId: string): ProjectRunInfo[] {
+  async listProjectRuns(projectId: string): Promise<ProjectRunInfo[]> {
     const rows = this.db
       .prepare('SELECT r.id, r.status, r.request, p.created_at FROM project_runs p JOIN runs r ON r.id = p.run_id WHERE p.project_id = ? ORDER BY p.created_at, r.id')
       .all(projectId) as { id: string; status: RunStatus; request: string; created_at: string }[];
@@ -269,21 +281,21 @@ export class SqliteStore implements Store {
     });
   }
 
-  runProjects(runId: string): string[] {
+  async runProjects(runId: string): Promise<string[]> {
     return (this.db.prepare('SELECT project_id FROM project_runs WHERE run_id = ? ORDER BY created_at').all(runId) as { project_id: string }[]).map((r) => r.project_id);
   }
 
-  putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): ProjectTerrainRecord {
+  async putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): Promise<ProjectTerrainRecord> {
     const createdAt = new Date().toISOString();
     const blobHash = this.db.transaction(() => {
-      const hash = this.putBlob(new Uint8Array(values.buffer, values.byteOffset, values.byteLength));
+      const hash = this.putBlobNow(new Uint8Array(values.buffer, values.byteOffset, values.byteLength));
       this.db.prepare('INSERT OR REPLACE INTO project_terrain (project_id, blob_hash, meta, created_at) VALUES (?, ?, ?, ?)').run(projectId, hash, JSON.stringify(meta), createdAt);
       return hash;
     })();
     return { blobHash, meta, createdAt };
   }
 
-  getProjectTerrain(projectId: string): (ProjectTerrainRecord & { values: Float32Array }) | null {
+  async getProjectTerrain(projectId: string): Promise<(ProjectTerrainRecord & { values: Float32Array }) | null> {
     const row = this.db.prepare('SELECT t.blob_hash, t.meta, t.created_at, b.bytes FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = ?').get(projectId) as
       | { blob_hash: string; meta: string; created_at: string; bytes: Buffer }
       | undefined;
@@ -293,7 +305,7 @@ export class SqliteStore implements Store {
     return { blobHash: row.blob_hash, meta: JSON.parse(row.meta) as ProjectTerrainRecord['meta'], createdAt: row.created_at, values };
   }
 
-  createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): ProjectRecord {
+  async createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): Promise<ProjectRecord> {
     const now = new Date().toISOString();
     this.db.transaction(() => {
       this.db.prepare('INSERT INTO projects (id, token_hash, created_at) VALUES (?, ?, ?)').run(input.id, input.tokenHash, now);
@@ -302,7 +314,7 @@ export class SqliteStore implements Store {
     return { id: input.id, title: input.title, state: JSON.parse(input.stateJson), revision: 1, updatedAt: now, createdAt: now };
   }
 
-  getProject(id: string, revision?: number): ProjectRecord | null {
+  async getProject(id: string, revision?: number): Promise<ProjectRecord | null> {
     const row = (
       revision === undefined
         ? this.db.prepare('SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = ? ORDER BY r.revision DESC LIMIT 1').get(id)
@@ -312,12 +324,16 @@ export class SqliteStore implements Store {
     return { id, title: row.title, state: JSON.parse(row.state), revision: row.revision, updatedAt: row.created_at, createdAt: row.p_created };
   }
 
-  getProjectTokenHash(id: string): string | null {
+  async getProjectTokenHash(id: string): Promise<string | null> {
+    return this.getProjectTokenHashNow(id);
+  }
+
+  private getProjectTokenHashNow(id: string): string | null {
     const row = this.db.prepare('SELECT token_hash FROM projects WHERE id = ?').get(id) as { token_hash: string } | undefined;
     return row?.token_hash ?? null;
   }
 
-  appendRevision(id: string, input: { title?: string; stateJson: string }): number {
+  async appendRevision(id: string, input: { title?: string; stateJson: string }): Promise<number> {
     // IMMEDIATE takes the write lock before reading the head, so two saves never compute the same number.
     return this.db
       .transaction(() => {
@@ -334,15 +350,15 @@ export class SqliteStore implements Store {
       .immediate();
   }
 
-  listRevisions(id: string): RevisionInfo[] | null {
-    if (this.getProjectTokenHash(id) === null) return null;
+  async listRevisions(id: string): Promise<RevisionInfo[] | null> {
+    if (this.getProjectTokenHashNow(id) === null) return null;
     const rows = this.db.prepare('SELECT revision, title, created_at, length(state) AS n FROM project_revisions WHERE project_id = ? ORDER BY revision').all(id) as {
       revision: number; title: string; created_at: string; n: number;
     }[];
     return rows.map((r) => ({ revision: r.revision, title: r.title, createdAt: r.created_at, stateBytes: r.n }));
   }
 
-  putRun(run: RunRecord): void {
+  async putRun(run: RunRecord): Promise<void> {
     this.db
       .prepare(
         `INSERT INTO runs (id, cache_key, request, status, progress, message, layers, summary, warnings, model, grids, client, created_at, updated_at)
@@ -355,7 +371,11 @@ export class SqliteStore implements Store {
       );
   }
 
-  updateRun(id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): void {
+  async updateRun(id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): Promise<void> {
+    return this.updateRunNow(id, patch);
+  }
+
+  private updateRunNow(id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): void {
     const sets: string[] = [];
     const vals: unknown[] = [];
     const json = new Set(['layers', 'summary', 'warnings', 'model', 'grids']);
@@ -369,12 +389,12 @@ export class SqliteStore implements Store {
     this.db.prepare(`UPDATE runs SET ${sets.join(', ')} WHERE id = ?`).run(...vals, id);
   }
 
-  getRun(id: string): RunRecord | null {
+  async getRun(id: string): Promise<RunRecord | null> {
     const row = this.db.prepare('SELECT * FROM runs WHERE id = ?').get(id) as RunRow | undefined;
     return row ? runFromRow(row) : null;
   }
 
-  findRunByCacheKey(cacheKey: string, statuses: RunStatus[]): RunRecord | null {
+  async findRunByCacheKey(cacheKey: string, statuses: RunStatus[]): Promise<RunRecord | null> {
     if (statuses.length === 0) return null;
     const row = this.db
       .prepare(`SELECT * FROM runs WHERE cache_key = ? AND status IN (${statuses.map(() => '?').join(', ')}) ORDER BY created_at DESC LIMIT 1`)
@@ -382,26 +402,34 @@ export class SqliteStore implements Store {
     return row ? runFromRow(row) : null;
   }
 
-  failInterruptedRuns(message: string): number {
+  async failInterruptedRuns(message: string): Promise<number> {
     return this.db.prepare("UPDATE runs SET status = 'failed', message = ?, updated_at = ? WHERE status IN ('queued', 'running')").run(message, new Date().toISOString()).changes;
   }
 
-  putBlob(bytes: Uint8Array): string {
+  async putBlob(bytes: Uint8Array): Promise<string> {
+    return this.putBlobNow(bytes);
+  }
+
+  private putBlobNow(bytes: Uint8Array): string {
     const hash = sha256Hex(bytes);
     this.db.prepare('INSERT OR IGNORE INTO blobs (hash, size, bytes) VALUES (?, ?, ?)').run(hash, bytes.byteLength, Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
     return hash;
   }
 
-  getBlob(hash: string): Uint8Array | null {
+  async getBlob(hash: string): Promise<Uint8Array | null> {
     const row = this.db.prepare('SELECT bytes FROM blobs WHERE hash = ?').get(hash) as { bytes: Buffer } | undefined;
     return row ? new Uint8Array(row.bytes.buffer, row.bytes.byteOffset, row.bytes.byteLength) : null;
   }
 
-  putRunFile(runId: string, name: string, ext: string, hash: string, contentType: string): void {
+  async putRunFile(runId: string, name: string, ext: string, hash: string, contentType: string): Promise<void> {
+    return this.putRunFileNow(runId, name, ext, hash, contentType);
+  }
+
+  private putRunFileNow(runId: string, name: string, ext: string, hash: string, contentType: string): void {
     this.db.prepare('INSERT OR REPLACE INTO run_files (run_id, name, ext, blob_hash, content_type) VALUES (?, ?, ?, ?, ?)').run(runId, name, ext, hash, contentType);
   }
 
-  getRunFile(runId: string, name: string, ext: string): { bytes: Uint8Array; contentType: string; hash: string } | null {
+  async getRunFile(runId: string, name: string, ext: string): Promise<{ bytes: Uint8Array; contentType: string; hash: string } | null> {
     const row = this.db
       .prepare('SELECT f.content_type, f.blob_hash, b.bytes FROM run_files f JOIN blobs b ON b.hash = f.blob_hash WHERE f.run_id = ? AND f.name = ? AND f.ext = ?')
       .get(runId, name, ext) as { content_type: string; blob_hash: string; bytes: Buffer } | undefined;
@@ -409,11 +437,15 @@ export class SqliteStore implements Store {
     return { bytes: new Uint8Array(row.bytes.buffer, row.bytes.byteOffset, row.bytes.byteLength), contentType: row.content_type, hash: row.blob_hash };
   }
 
-  putRunGrid(runId: string, name: string, meta: StoredGridMeta, hash: string): void {
+  async putRunGrid(runId: string, name: string, meta: StoredGridMeta, hash: string): Promise<void> {
+    return this.putRunGridNow(runId, name, meta, hash);
+  }
+
+  private putRunGridNow(runId: string, name: string, meta: StoredGridMeta, hash: string): void {
     this.db.prepare('INSERT OR REPLACE INTO run_grids (run_id, name, meta, blob_hash) VALUES (?, ?, ?, ?)').run(runId, name, JSON.stringify(meta), hash);
   }
 
-  getRunGrid(runId: string, name: string): { meta: StoredGridMeta; values: Float32Array } | null {
+  async getRunGrid(runId: string, name: string): Promise<{ meta: StoredGridMeta; values: Float32Array } | null> {
     const row = this.db.prepare('SELECT g.meta, b.bytes FROM run_grids g JOIN blobs b ON b.hash = g.blob_hash WHERE g.run_id = ? AND g.name = ?').get(runId, name) as
       | { meta: string; bytes: Buffer }
       | undefined;
@@ -424,22 +456,22 @@ export class SqliteStore implements Store {
     return { meta: JSON.parse(row.meta) as StoredGridMeta, values };
   }
 
-  storeRunResult(runId: string, result: {
+  async storeRunResult(runId: string, result: {
     files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
     grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
     record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
-  }): void {
+  }): Promise<void> {
     this.db.transaction(() => {
-      for (const f of result.files) this.putRunFile(runId, f.name, f.ext, this.putBlob(f.bytes), f.contentType);
+      for (const f of result.files) this.putRunFileNow(runId, f.name, f.ext, this.putBlobNow(f.bytes), f.contentType);
       for (const g of result.grids) {
         const bytes = new Uint8Array(g.values.buffer, g.values.byteOffset, g.values.byteLength);
-        this.putRunGrid(runId, g.name, g.meta, this.putBlob(bytes));
+        this.putRunGridNow(runId, g.name, g.meta, this.putBlobNow(bytes));
       }
-      this.updateRun(runId, result.record);
+      this.updateRunNow(runId, result.record);
     })();
   }
 
-  close(): void {
+  async close(): Promise<void> {
     this.db.close();
   }
 }

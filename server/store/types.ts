@@ -1,7 +1,8 @@
 import type { GridSpec } from '../../shared/grid/grid.ts';
 
 /**
- * Storage behind an interface, so the embedded SQLite default can be joined by a server database for larger teams.
+ * Storage behind an asynchronous interface, so the embedded SQLite default can be joined by a server database for
+ * larger teams (every method returns a Promise; the SQLite implementation does its work before it returns one).
  * Everything stored is content-addressed by the SHA-256 of its canonical bytes where that makes sense: data set
  * bodies carry their hash, run outputs (layer files, grids) live in a blob table keyed by their hash, and a run is
  * found again by the hash of its canonical request and its inputs' hashes.
@@ -96,64 +97,64 @@ export type StoredGridMeta = GridSpec & { units: string };
 
 export interface Store {
   /** Stores a data set; with `id` given (the demo's stable ids) an existing record of that id is kept. */
-  putDataset(input: { id?: string; kind: string; body: string; featureCount: number; title?: string }): DatasetRecord;
-  getDataset(id: string): (DatasetRecord & { body: string }) | null;
-  listDatasets(): DatasetRecord[];
+  putDataset(input: { id?: string; kind: string; body: string; featureCount: number; title?: string }): Promise<DatasetRecord>;
+  getDataset(id: string): Promise<(DatasetRecord & { body: string }) | null>;
+  listDatasets(): Promise<DatasetRecord[]>;
   /** The data set of this kind whose content hash is `contentHash` (uploads are de-duplicated by content). */
-  findDatasetByContent(kind: string, contentHash: string): DatasetRecord | null;
+  findDatasetByContent(kind: string, contentHash: string): Promise<DatasetRecord | null>;
 
   /** Attaches a data set to a project under `name` (again, when it was detached); returns the attachment. */
-  attachDataset(projectId: string, datasetId: string, name: string): ProjectDatasetRecord;
+  attachDataset(projectId: string, datasetId: string, name: string): Promise<ProjectDatasetRecord>;
   /** The data sets attached to a project, in upload order. */
-  listProjectDatasets(projectId: string): ProjectDatasetRecord[];
+  listProjectDatasets(projectId: string): Promise<ProjectDatasetRecord[]>;
   /** One attached data set of a project, or null. */
-  getProjectDataset(projectId: string, datasetId: string): ProjectDatasetRecord | null;
-  renameProjectDataset(projectId: string, datasetId: string, name: string): boolean;
+  getProjectDataset(projectId: string, datasetId: string): Promise<ProjectDatasetRecord | null>;
+  renameProjectDataset(projectId: string, datasetId: string, name: string): Promise<boolean>;
   /** Detaches a data set from a project; false when it was not attached. */
-  detachProjectDataset(projectId: string, datasetId: string): boolean;
+  detachProjectDataset(projectId: string, datasetId: string): Promise<boolean>;
   /** Deletes a data set's content when no project, run or project revision refers to it any more; true if deleted. */
-  pruneDataset(datasetId: string): boolean;
+  pruneDataset(datasetId: string): Promise<boolean>;
   /** Bytes a project holds: its attached data sets' bodies and its terrain. */
-  projectStorageBytes(projectId: string): number;
+  projectStorageBytes(projectId: string): Promise<number>;
 
   /** Records the data sets a run reads (so their content outlives a detach). */
-  linkRunDatasets(runId: string, datasetIds: string[]): void;
+  linkRunDatasets(runId: string, datasetIds: string[]): Promise<void>;
   /** Lists a run under a project (idempotent). */
-  linkProjectRun(projectId: string, runId: string): void;
-  listProjectRuns(projectId: string): ProjectRunInfo[];
+  linkProjectRun(projectId: string, runId: string): Promise<void>;
+  listProjectRuns(projectId: string): Promise<ProjectRunInfo[]>;
   /** The projects a run is listed under. */
-  runProjects(runId: string): string[];
+  runProjects(runId: string): Promise<string[]>;
 
-  putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): ProjectTerrainRecord;
-  getProjectTerrain(projectId: string): (ProjectTerrainRecord & { values: Float32Array }) | null;
+  putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): Promise<ProjectTerrainRecord>;
+  getProjectTerrain(projectId: string): Promise<(ProjectTerrainRecord & { values: Float32Array }) | null>;
 
   /** Creates a project with its first revision, atomically. */
-  createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): ProjectRecord;
+  createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): Promise<ProjectRecord>;
   /** The latest revision, or revision `revision` when given; null when absent. */
-  getProject(id: string, revision?: number): ProjectRecord | null;
+  getProject(id: string, revision?: number): Promise<ProjectRecord | null>;
   /** The stored SHA-256 of the project's edit token (never sent to a client). */
-  getProjectTokenHash(id: string): string | null;
+  getProjectTokenHash(id: string): Promise<string | null>;
   /** Appends the next revision in one transaction; returns its number. Title defaults to the previous one. */
-  appendRevision(id: string, input: { title?: string; stateJson: string }): number;
-  listRevisions(id: string): RevisionInfo[] | null;
+  appendRevision(id: string, input: { title?: string; stateJson: string }): Promise<number>;
+  listRevisions(id: string): Promise<RevisionInfo[] | null>;
 
-  putRun(run: RunRecord): void;
+  putRun(run: RunRecord): Promise<void>;
   /** Updates the mutable fields of a run record (status, progress, message and, when done, its results). */
-  updateRun(id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): void;
-  getRun(id: string): RunRecord | null;
+  updateRun(id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): Promise<void>;
+  getRun(id: string): Promise<RunRecord | null>;
   /** The newest run with this cache key whose status is one of `statuses`. */
-  findRunByCacheKey(cacheKey: string, statuses: RunStatus[]): RunRecord | null;
+  findRunByCacheKey(cacheKey: string, statuses: RunStatus[]): Promise<RunRecord | null>;
   /** Marks runs left queued or running by a stopped server as failed; returns how many. */
-  failInterruptedRuns(message: string): number;
+  failInterruptedRuns(message: string): Promise<number>;
 
   /** Stores bytes under their SHA-256 (kept once); returns the hash. */
-  putBlob(bytes: Uint8Array): string;
-  getBlob(hash: string): Uint8Array | null;
+  putBlob(bytes: Uint8Array): Promise<string>;
+  getBlob(hash: string): Promise<Uint8Array | null>;
   /** Links a run's output file (layer name + extension) to a blob. */
-  putRunFile(runId: string, name: string, ext: string, hash: string, contentType: string): void;
-  getRunFile(runId: string, name: string, ext: string): { bytes: Uint8Array; contentType: string; hash: string } | null;
-  putRunGrid(runId: string, name: string, meta: StoredGridMeta, hash: string): void;
-  getRunGrid(runId: string, name: string): { meta: StoredGridMeta; values: Float32Array } | null;
+  putRunFile(runId: string, name: string, ext: string, hash: string, contentType: string): Promise<void>;
+  getRunFile(runId: string, name: string, ext: string): Promise<{ bytes: Uint8Array; contentType: string; hash: string } | null>;
+  putRunGrid(runId: string, name: string, meta: StoredGridMeta, hash: string): Promise<void>;
+  getRunGrid(runId: string, name: string): Promise<{ meta: StoredGridMeta; values: Float32Array } | null>;
   /**
    * Stores a finished run's whole result atomically: its files and grids as content-addressed blobs linked to the
    * run, and the final fields of its record (status itself is set by the caller afterwards).
@@ -162,7 +163,7 @@ export interface Store {
     files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
     grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
     record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
-  }): void;
+  }): Promise<void>;
 
-  close(): void;
+  close(): Promise<void>;
 }

@@ -13,9 +13,9 @@ import { startTestApp, type TestApp } from '../helpers/app.ts';
 const hasGdal = spawnSync('ogr2ogr', ['--version']).status === 0 && spawnSync('zip', ['-v']).status === 0;
 let dir = '';
 let t: TestApp;
-beforeAll(() => {
+beforeAll(async () => {
   dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'formats-vector-'));
-  t = startTestApp('formats-vector');
+  t = await startTestApp('formats-vector');
 });
 afterAll(async () => {
   await t.close();
@@ -54,7 +54,7 @@ async function upload(body: Buffer | Uint8Array | string, type: string, query: s
 }
 
 async function storedSites(id: string): Promise<{ features: { geometry: { coordinates: number[] }; properties: Record<string, unknown> }[] }> {
-  return JSON.parse(t.store.getDataset(id)!.body);
+  return JSON.parse((await t.store.getDataset(id))!.body);
 }
 
 function expectSameSites(got: { features: { geometry: { coordinates: number[] }; properties: Record<string, unknown> }[] }, tol: number) {
@@ -148,7 +148,7 @@ describe('GeoPackage, Shapefile and projected CSV in (upload route)', () => {
   });
 
   it.skipIf(!hasGdal)('bad GeoPackages: corrupt, no CRS, unknown layer → 4xx JSON naming file and layer; nothing stored', async () => {
-    const before = t.store.listDatasets().length;
+    const before = (await t.store.listDatasets()).length;
     const corrupt = await upload(new TextEncoder().encode('SQLite format 3\0 but not really'.repeat(40)), 'application/geopackage+sqlite3', 'kind=sites&filename=broken.gpkg');
     expect(corrupt.status).toBe(422);
     expect(corrupt.json.error!.message).toContain('broken.gpkg');
@@ -163,7 +163,7 @@ describe('GeoPackage, Shapefile and projected CSV in (upload route)', () => {
     expect(r.json.error!.message).toContain('nocrs.gpkg, layer "pts"');
     const unknown = await upload(readFileSync(nocrs), 'application/geopackage+sqlite3', 'kind=sites&filename=nocrs.gpkg&layer=nope');
     expect(unknown.json.error!.code).toBe('unknown_layer');
-    expect(t.store.listDatasets().length).toBe(before);
+    expect((await t.store.listDatasets()).length).toBe(before);
   });
 
   it.skipIf(!hasGdal)('a zipped Shapefile with its .prj (EPSG:32709) → sites within 1e-9°; without .prj → 422 no_crs', async () => {

@@ -20,10 +20,10 @@ beforeAll(async () => {
   writeFileSync(join(clientDir, 'index.html'), '<!doctype html><title>map page</title>');
   writeFileSync(join(clientDir, 'assets', 'a.js'), 'export {}');
   store = new SqliteStore(join(dir, 'db.sqlite'));
-  loadDemo(store);
+  await loadDemo(store);
   app = createApp({ store, terrain: new TerrainTiles(await loadDem(DEMO_TERRAIN)), clientDir });
 });
-afterAll(() => store.close());
+afterAll(async () => await store.close());
 
 describe('foundation API', () => {
   it('reports health with the package version', async () => {
@@ -48,10 +48,10 @@ describe('foundation API', () => {
     expect((await app.request('/api/datasets/demo-sites')).headers.get('content-type')).toContain('application/geo+json');
   });
 
-  it('loads the demo once: a second start keeps the same records', () => {
-    const before = store.listDatasets();
-    loadDemo(store);
-    expect(store.listDatasets()).toEqual(before);
+  it('loads the demo once: a second start keeps the same records', async () => {
+    const before = await store.listDatasets();
+    await loadDemo(store);
+    expect(await store.listDatasets()).toEqual(before);
   });
 
   it('serves terrain tiles as PNG and answers bad tiles with JSON 4xx', async () => {

@@ -16,8 +16,8 @@ const EXPECTED = { code: 'invalid_model', field: 'surfaceHeatFlow' };
 
 let t: TestApp;
 let dir: string;
-beforeAll(() => {
-  t = startTestApp('ways-in');
+beforeAll(async () => {
+  t = await startTestApp('ways-in');
   mkdirSync(join(root, '.tmp'), { recursive: true });
   dir = mkdtempSync(join(root, '.tmp', 'ways-in-'));
 });
@@ -49,7 +49,7 @@ describe('an unknown model member is refused the same way everywhere', () => {
   });
 
   it('a run: the pipeline refuses the inline model with the same InputError', async () => {
-    const sites = t.store.getDataset('demo-sites')!;
+    const sites = (await t.store.getDataset('demo-sites'))!;
     let err: unknown;
     try {
       await runPipeline({ sites: 'demo-sites', model: BAD }, { 'demo-sites': { kind: sites.kind, body: sites.body } });

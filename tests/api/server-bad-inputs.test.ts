@@ -198,14 +198,14 @@ function corpus(): Case[] {
 beforeAll(async () => {
   dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-bad-'));
   store = new SqliteStore(join(dir, 'db.sqlite'));
-  loadDemo(store);
+  await loadDemo(store);
   app = createApp({ store, terrain: null, clientDir: null, runWorkerFile: fileURLToPath(new URL('../helpers/run-worker-double.ts', import.meta.url)), limits: { maxBodyBytes: BODY_LIMIT } });
   const res = await app.request('/api/projects', { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ title: 'target', state: {} }) });
   ({ id: projectId, editToken: token } = (await res.json()) as { id: string; editToken: string });
 });
 afterAll(async () => {
   await app.close();
-  store.close();
+  await store.close();
   rmSync(dir, { recursive: true, force: true });
 });
 
@@ -242,7 +242,7 @@ describe('bad-input corpus', () => {
 
   it('keeps serving afterwards, and nothing was stored or changed by the rejected requests', async () => {
     expect(await (await app.request('/api/health')).json()).toMatchObject({ ok: true });
-    expect(store.listDatasets().map((d) => d.id).sort()).toEqual(['demo-faults', 'demo-model', 'demo-outline', 'demo-samples', 'demo-sites', 'demo-wells']);
+    expect((await store.listDatasets()).map((d) => d.id).sort()).toEqual(['demo-faults', 'demo-model', 'demo-outline', 'demo-samples', 'demo-sites', 'demo-wells']);
     expect(((await (await app.request(`/api/projects/${projectId}`)).json()) as { revision: number }).revision).toBe(1);
   });
 });

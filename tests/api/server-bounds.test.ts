@@ -27,8 +27,8 @@ const from = (client: string, token?: string) => ({ 'content-type': 'application
 describe('run bounds, fairness and tokens', () => {
   let t: TestApp;
   const started: { id: string; runToken: string }[] = [];
-  beforeAll(() => {
-    t = startTestApp('bounds', {
+  beforeAll(async () => {
+    t = await startTestApp('bounds', {
       runWorkerFile: DOUBLE,
       trustedProxies: ['local'],
       limits: { maxRunCellRealizations: 1000, maxQueuedWorkPerClient: 1500, maxQueuedWorkServer: 2400, maxQueuedRunsServer: 3, maxQueuedRunsPerClient: 2 },
@@ -90,7 +90,7 @@ describe('run bounds, fairness and tokens', () => {
   });
 
   it('ignores X-Forwarded-For from peers that are not listed proxies', async () => {
-    const plain = startTestApp('bounds-noproxy', { runWorkerFile: DOUBLE, limits: { maxQueuedRunsPerClient: 1 } });
+    const plain = await startTestApp('bounds-noproxy', { runWorkerFile: DOUBLE, limits: { maxQueuedRunsPerClient: 1 } });
     try {
       const post = (xff: string, seed: number) => plain.app.request('/api/runs', { method: 'POST', headers: from(xff), body: JSON.stringify({ title: 'slow', sites: 'demo-sites', model: 'demo-model', seed }) });
       const first = (await (await post('10.9.9.1', 1)).json()) as { id: string; runToken: string };
@@ -120,16 +120,16 @@ describe('run bounds, fairness and tokens', () => {
 describe('heat-in-place bounds', () => {
   let t: TestApp;
   // A finished run with a 20 × 20 heat-flow grid (400 cells) and the demo model, stored as the job system would.
-  beforeAll(() => {
-    t = startTestApp('hip-bounds', {
+  beforeAll(async () => {
+    t = await startTestApp('hip-bounds', {
       trustedProxies: ['local'],
       limits: { maxPolygonVertices: 10, maxHeatInPlaceRealizations: 50, maxHeatInPlaceCellRealizations: 400 * 40, maxHeatInPlaceJobsPerClient: 1, maxHeatInPlaceJobsServer: 2 },
     });
     const now = new Date().toISOString();
     const model = JSON.parse(readFileSync(join(ROOT, 'fixtures/demo/model.json'), 'utf8'));
-    t.store.putRun({ id: 'run_b', cacheKey: 'b', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model, grids: [], client: 'test', createdAt: now, updatedAt: now });
+    await t.store.putRun({ id: 'run_b', cacheKey: 'b', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model, grids: [], client: 'test', createdAt: now, updatedAt: now });
     const meta = { width: 20, height: 20, west: -129, north: -37, dx: 0.05, dy: 0.05, crs: 'EPSG:4326', units: 'mW/m²' };
-    t.store.storeRunResult('run_b', { files: [], grids: [{ name: 'heatFlow', meta, values: new Float32Array(400).fill(75) }, { name: 'heatFlowSd', meta, values: new Float32Array(400).fill(5) }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
+    await t.store.storeRunResult('run_b', { files: [], grids: [{ name: 'heatFlow', meta, values: new Float32Array(400).fill(75) }, { name: 'heatFlowSd', meta, values: new Float32Array(400).fill(5) }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
   });
   afterAll(async () => await t?.close());
   const hip = (body: unknown, client = '10.1.0.1') => t.app.request('/api/runs/run_b/heat-in-place', { method: 'POST', headers: from(client), body: JSON.stringify(body) });
@@ -178,7 +178,7 @@ describe('heat-in-place bounds', () => {
 
 describe('the wall-clock limit of a run', () => {
   it('stops a run that runs longer and records it as failed, naming the limit', async () => {
-    const t = startTestApp('wallclock', { runWorkerFile: DOUBLE, limits: { runWallClockSeconds: 1 } });
+    const t = await startTestApp('wallclock', { runWorkerFile: DOUBLE, limits: { runWallClockSeconds: 1 } });
     try {
       // The test double's "slow" run takes 40 × 50 ms = 2 s.
       const { id } = (await (await t.post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 7 })).json()) as { id: string };
@@ -193,7 +193,7 @@ describe('the wall-clock limit of a run', () => {
 
 describe('model bounds', () => {
   let t: TestApp;
-  beforeAll(() => (t = startTestApp('model-bounds')));
+  beforeAll(async () => (t = await startTestApp('model-bounds')));
   afterAll(async () => await t?.close());
   // A layered model in the range of the demo's (common practice: upper crust k ≈ 3 W/m/K, A ≈ 1–2 µW/m³).
   const layers = (n: number) => Array.from({ length: n }, (_, i) => ({ name: `layer ${i + 1}`, bottomKm: ((i + 1) * 60) / n, conductivityWmK: 2.8, heatProductionUWm3: 1, densityKgM3: 2750 }));
@@ -233,7 +233,7 @@ describe('model bounds', () => {
 
 describe('storage and URL faults', () => {
   let t: TestApp;
-  beforeAll(() => (t = startTestApp('storage')));
+  beforeAll(async () => (t = await startTestApp('storage')));
   afterAll(async () => await t?.close());
 
   it('answers a full database with 507 insufficient_storage, writes nothing, and keeps serving reads', async () => {
@@ -265,7 +265,7 @@ describe('storage and URL faults', () => {
     }
   });
 
-  it('says in plain words which database path cannot be written, and what to do', () => {
+  it('says in plain words which database path cannot be written, and what to do', async () => {
     // A folder that cannot be created (its parent is a file), as a read-only mount or a missing permission gives
     // (file permissions cannot be used here: the tests may run as root, whom they do not stop).
     const dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-ro-'));
@@ -273,7 +273,7 @@ describe('storage and URL faults', () => {
     const dbPath = join(dir, 'not-a-folder', 'db.sqlite');
     let err: unknown = null;
     try {
-      openStore(dbPath);
+      await openStore(dbPath);
     } catch (e) {
       err = e;
     }

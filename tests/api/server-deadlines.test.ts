@@ -41,8 +41,8 @@ describe('a compute pool past its deadline', () => {
 
 describe('deadlines and queues through the routes', () => {
   let t: TestApp;
-  beforeAll(() => {
-    t = startTestApp('deadlines', { computeWorkerFile: DOUBLE, limits: { computeDeadlineSeconds: 10, maxLongComputeQueue: 1 } });
+  beforeAll(async () => {
+    t = await startTestApp('deadlines', { computeWorkerFile: DOUBLE, limits: { computeDeadlineSeconds: 10, maxLongComputeQueue: 1 } });
   });
   afterAll(async () => await t?.close());
 
@@ -96,12 +96,12 @@ describe('deadlines and queues through the routes', () => {
 
 describe('a heat-in-place job past its deadline', () => {
   let t: TestApp;
-  beforeAll(() => {
-    t = startTestApp('hip-deadline', { computeWorkerFile: DOUBLE, trustedProxies: ['local'], limits: { heatInPlaceDeadlineSeconds: 30 } });
+  beforeAll(async () => {
+    t = await startTestApp('hip-deadline', { computeWorkerFile: DOUBLE, trustedProxies: ['local'], limits: { heatInPlaceDeadlineSeconds: 30 } });
     const now = new Date().toISOString();
-    t.store.putRun({ id: 'run_d', cacheKey: 'd', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model: demoModel, grids: [], client: 'test', createdAt: now, updatedAt: now });
+    await t.store.putRun({ id: 'run_d', cacheKey: 'd', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model: demoModel, grids: [], client: 'test', createdAt: now, updatedAt: now });
     const meta = { width: 10, height: 10, west: -129, north: -37, dx: 0.05, dy: 0.05, crs: 'EPSG:4326', units: 'mW/m²' };
-    t.store.storeRunResult('run_d', { files: [], grids: [{ name: 'heatFlow', meta, values: new Float32Array(100).fill(75) }, { name: 'heatFlowSd', meta, values: new Float32Array(100).fill(5) }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
+    await t.store.storeRunResult('run_d', { files: [], grids: [{ name: 'heatFlow', meta, values: new Float32Array(100).fill(75) }, { name: 'heatFlowSd', meta, values: new Float32Array(100).fill(5) }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
   });
   afterAll(async () => await t?.close());
   const waitJob = async (url: string) => {

@@ -11,8 +11,8 @@ import { startTestApp, type TestApp } from '../helpers/app.ts';
 let t: TestApp;
 const post = (path: string, body: unknown) => t.post(path, body);
 
-beforeAll(() => {
-  t = startTestApp('overrides');
+beforeAll(async () => {
+  t = await startTestApp('overrides');
 });
 afterAll(() => t.close());
 

@@ -67,7 +67,7 @@ let eqRunId: string;
 beforeAll(async () => {
   dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-routes-'));
   store = new SqliteStore(join(dir, 'db.sqlite'));
-  loadDemo(store);
+  await loadDemo(store);
   app = createApp({ store, terrain: null, clientDir: null, runWorkerFile: DOUBLE, limits: { maxQueuedRunsPerClient: 3 } });
   const r = await post('/api/runs', { sites: 'demo-sites', faults: 'demo-faults', model: 'demo-model', realizations: 50, seed: 3 });
   expect(r.status).toBe(202);
@@ -77,7 +77,7 @@ beforeAll(async () => {
 
 afterAll(async () => {
   await app.close();
-  store.close();
+  await store.close();
   rmSync(dir, { recursive: true, force: true });
 });
 
@@ -106,7 +106,7 @@ describe('data sets', () => {
     const res = await post('/api/datasets?kind=model', other);
     expect(res.status).toBe(201);
     const { id } = (await res.json()) as { id: string };
-    const rec = store.listDatasets().find((d) => d.id === id)!;
+    const rec = (await store.listDatasets()).find((d) => d.id === id)!;
     expect(rec.title).toBe('another name');
     const body = (await (await app.request(`/api/datasets/${id}`)).json()) as Record<string, unknown>;
     expect(body.name).toBeUndefined();
@@ -289,7 +289,7 @@ describe('column', () => {
   });
 
   it('reads the heat flow of a run at a point, and gives the P10–P90 band of a run with realizations', async () => {
-    const grid = store.getRunGrid(runId, 'heatFlow')!;
+    const grid = (await store.getRunGrid(runId, 'heatFlow'))!;
     const lon = grid.meta.west + grid.meta.dx * 5.5, lat = grid.meta.north - grid.meta.dy * 7.5; // a cell centre
     const res = await post('/api/column', { runId, lon, lat });
     expect(res.status).toBe(200);
@@ -327,9 +327,9 @@ describe('column', () => {
 });
 
 describe('runs stored by another server', () => {
-  const putDoneRun = (id: string, grids: string[]) => {
+  const putDoneRun = async (id: string, grids: string[]) => {
     const now = new Date().toISOString();
-    store.putRun({
+    await store.putRun({
       id, cacheKey: `key-${id}`, request: runRequestSchema.parse({ sites: 'demo-sites', model: 'demo-model' }), status: 'done', progress: 1, message: 'done',
       layers: [], summary: {}, warnings: [], model: null, grids, client: 'test', createdAt: now, updatedAt: now,
     });
@@ -340,23 +340,24 @@ describe('runs stored by another server', () => {
     const [x, y] = proj4('EPSG:4326', 'EPSG:3857', [-128.2, -38.0]);
     const dx = 2000, width = 10, height = 10;
     const values = Float32Array.from({ length: width * height }, (_, k) => 50 + k * 0.25);
-    putDoneRun('run_mercator', ['heatFlow']);
-    store.putRunGrid('run_mercator', 'heatFlow', { width, height, west: x - 4.5 * dx, north: y + 6.5 * dx, dx, dy: dx, crs: 'EPSG:3857', units: 'mW/m²' }, store.putBlob(new Uint8Array(values.buffer)));
+    await putDoneRun('run_mercator', ['heatFlow']);
+    await store.putRunGrid('run_mercator', 'heatFlow', { width, height, west: x - 4.5 * dx, north: y + 6.5 * dx, dx, dy: dx, crs: 'EPSG:3857', units: 'mW/m²' }, await store.putBlob(new Uint8Array(values.buffer)));
     const b = (await (await post('/api/column', { runId: 'run_mercator', lon: -128.2, lat: -38.0 })).json()) as ColumnAnswer;
     expect(b.surfaceHeatFlowMWm2).toBeCloseTo(values[6 * width + 4], 3);
     expect(b.monteCarlo).toBeNull(); // the run asked for no realizations
   });
 
   it('answers 409 for a finished run without a heat-flow grid', async () => {
-    putDoneRun('run_gridless', []);
+    await putDoneRun('run_gridless', []);
     await errorOf(await post('/api/column', { runId: 'run_gridless', lon: 0, lat: 0 }), 409, 'run_without_grid');
     await errorOf(await post('/api/section', { runId: 'run_gridless', line: [[0, 0], [1, 0]] }), 409, 'run_without_grid');
   });
 
   it('marks runs left queued or running by a stopped server as failed on start', async () => {
     const now = new Date().toISOString();
-    store.putRun({ id: 'run_orphan', cacheKey: 'key-orphan', request: {}, status: 'running', progress: 0.4, message: 'tile 3', layers: [], summary: null, warnings: [], model: null, grids: [], client: 'x', createdAt: now, updatedAt: now });
+    await store.putRun({ id: 'run_orphan', cacheKey: 'key-orphan', request: {}, status: 'running', progress: 0.4, message: 'tile 3', layers: [], summary: null, warnings: [], model: null, grids: [], client: 'x', createdAt: now, updatedAt: now });
     const restarted = createApp({ store, terrain: null, clientDir: null, runWorkerFile: DOUBLE });
+    await restarted.jobs.ready;
     const r = (await (await restarted.request('/api/runs/run_orphan')).json()) as { status: string; message: string };
     expect(r.status).toBe('failed');
     expect(r.message).toContain('server stopped');
@@ -476,11 +477,11 @@ describe('projects', () => {
     await errorOf(await put({}), 422, 'invalid_project');
   });
 
-  it('keeps revision rows immutable in the database itself', () => {
+  it('keeps revision rows immutable in the database itself', async () => {
     expect(() => store.db.prepare('UPDATE project_revisions SET state = ? WHERE project_id = ?').run('{}', id)).toThrow(/append-only/);
     expect(() => store.db.prepare('DELETE FROM project_revisions WHERE project_id = ?').run(id)).toThrow(/append-only/);
     expect(() => store.db.prepare("INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES (?, 1, 't', '{}', 'now')").run(id)).toThrow(/UNIQUE/);
-    const hash = store.getProjectTokenHash(id)!;
+    const hash = (await store.getProjectTokenHash(id))!;
     expect(hash).toMatch(/^[0-9a-f]{64}$/);
     expect(JSON.stringify(store.db.prepare('SELECT * FROM projects').all())).not.toContain(token);
   });

@@ -14,8 +14,8 @@ const REQUEST = { sites: 'demo-sites', faults: 'demo-faults', model: 'demo-model
 const post = (path: string, body: unknown) => t.post(path, body);
 const waitEnd = (id: string) => t.waitEnd(id);
 
-beforeAll(() => {
-  t = startTestApp('pipeline');
+beforeAll(async () => {
+  t = await startTestApp('pipeline');
   ({ store, app } = t);
 });
 afterAll(() => t.close());
@@ -54,7 +54,7 @@ describe('runs with the real pipeline', () => {
     const tif = await app.request(hf.urls.tif);
     expect(tif.headers.get('content-type')).toBe('image/tiff');
     expect((await tif.arrayBuffer()).byteLength).toBeGreaterThan(1000);
-    expect(store.getRunGrid(runId, 'heatFlow')).not.toBeNull();
+    expect(await store.getRunGrid(runId, 'heatFlow')).not.toBeNull();
   }, 60_000);
 
   it('serves raster-dem tiles of a run layer and a heat-in-place report over the run (mounted sub-apps)', async () => {
@@ -64,7 +64,7 @@ describe('runs with the real pipeline', () => {
     expect(t.encoding).toBe('custom');
     expect(t.tiles[0]).toContain(`/api/runs/${runId}/tiles/heat-flow/{z}/{x}/{y}.png`);
     // The tile under the grid's centre at the minimum zoom (Web Mercator tile scheme, OSM slippy-map formulas).
-    const g = store.getRunGrid(runId, 'heatFlow')!.meta;
+    const g = (await store.getRunGrid(runId, 'heatFlow'))!.meta;
     const lon = g.west + (g.width * g.dx) / 2, lat = g.north - (g.height * g.dy) / 2, z = t.minzoom;
     const x = Math.floor(((lon + 180) / 360) * 2 ** z);
     const y = Math.floor(((1 - Math.log(Math.tan((lat * Math.PI) / 180) + 1 / Math.cos((lat * Math.PI) / 180)) / Math.PI) / 2) * 2 ** z);
@@ -92,8 +92,8 @@ describe('runs with the real pipeline', () => {
   });
 
   it('answers a column at a cell centre with that cell\'s heat flow, and a P10–P90 band', async () => {
-    const g = store.getRunGrid(runId, 'heatFlow')!;
-    const sd = store.getRunGrid(runId, 'heatFlowSd');
+    const g = (await store.getRunGrid(runId, 'heatFlow'))!;
+    const sd = await store.getRunGrid(runId, 'heatFlowSd');
     let col = -1, row = -1;
     for (let k = 0; k < g.values.length && col < 0; k++) if (Number.isFinite(g.values[k]) && k % g.meta.width > 2 && k > 2 * g.meta.width) { col = k % g.meta.width; row = Math.floor(k / g.meta.width); }
     const lon = g.meta.west + (col + 0.5) * g.meta.dx, lat = g.meta.north - (row + 0.5) * g.meta.dy;

@@ -5,8 +5,8 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
 
 let t: TestApp;
-beforeAll(() => {
-  t = startTestApp('demo-run', { demoRun: true });
+beforeAll(async () => {
+  t = await startTestApp('demo-run', { demoRun: true });
 });
 afterAll(() => t.close());
 
@@ -28,7 +28,7 @@ describe('the demo project on first start', () => {
     const { startDemoRun } = await import('../../server/demo-run.ts');
     const before = ((await (await t.app.request('/api/projects/demo')).json()) as { state: { runId: string }; revision: number });
     const ctx = { store: t.store, limits: t.app.limits, jobs: t.app.jobs, grids: null as never, compute: null as never, heatJobs: null as never, trustedProxies: new Set<string>(), workerFile: (await import('../../server/app.ts')).RUN_WORKER_FILE };
-    expect(startDemoRun(ctx)).toBe(before.state.runId);
+    expect(await startDemoRun(ctx)).toBe(before.state.runId);
     const after = ((await (await t.app.request('/api/projects/demo')).json()) as { revision: number });
     expect(after.revision).toBe(before.revision);
   });

@@ -28,7 +28,7 @@ const upload = (kind: string, body: string, type: string, extra = '', headers: R
 const list = async () => ((await (await app.request(`/api/projects/${pid}/datasets`)).json()) as { datasets: { id: string; kind: string; name: string; featureCount: number; bbox: number[]; uploadedAt: string }[]; storage: { bytes: number; limitBytes: number } });
 
 beforeAll(async () => {
-  t = startTestApp('projects');
+  t = await startTestApp('projects');
   app = t.app;
   const res = await t.post('/api/projects', { title: 'North Pacific survey' });
   expect(res.status).toBe(201);
@@ -201,7 +201,7 @@ describe('runs name their data sets and belong to their project', () => {
   }, 60_000);
 
   it('enforces the per-project storage quota with a 413 naming the limit, attaching nothing', async () => {
-    const small = startTestApp('quota', { limits: { maxProjectStorageBytes: 600 } });
+    const small = await startTestApp('quota', { limits: { maxProjectStorageBytes: 600 } });
     try {
       const p = (await (await small.post('/api/projects', { title: 'small' })).json()) as { id: string; editToken: string };
       const res = await small.app.request(`/api/projects/${p.id}/datasets?kind=sites`, { method: 'POST', headers: { 'content-type': 'text/csv', authorization: `Bearer ${p.editToken}` }, body: SITES_CSV });

@@ -32,7 +32,7 @@ const post = (body: Uint8Array, type = 'image/tiff', headers: Record<string, str
 const terrainOf = async () => ((await (await t.app.request(`/api/projects/${pid}/datasets`)).json()) as { terrain: unknown }).terrain;
 
 beforeAll(async () => {
-  t = startTestApp('terrain', { limits: { maxTerrainBytes: 2_000_000 } });
+  t = await startTestApp('terrain', { limits: { maxTerrainBytes: 2_000_000 } });
   ({ id: pid, editToken: token } = (await (await t.post('/api/projects', { title: 'terrain' })).json()) as { id: string; editToken: string });
 });
 afterAll(() => t.close());

@@ -11,7 +11,7 @@ let runId: string;
 const tif = async (url: string) => (await readGeoTiff((await (await t.app.request(url)).arrayBuffer()))).grid.values;
 
 beforeAll(async () => {
-  t = startTestApp('uncertainty');
+  t = await startTestApp('uncertainty');
   const res = await t.post('/api/runs', { sites: 'demo-sites', faults: 'demo-faults', model: 'demo-model', realizations: 20, seed: 3, grid: { cellKm: 10 } });
   runId = ((await res.json()) as { id: string }).id;
   const run = await t.waitEnd(runId);

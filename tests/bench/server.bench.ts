@@ -17,7 +17,7 @@ import { runRequestSchema } from '../../shared/schema/run.ts';
 
 const dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-bench-'));
 const store = new SqliteStore(join(dir, 'bench.sqlite'));
-loadDemo(store);
+await loadDemo(store);
 const app = createApp({ store, terrain: null, clientDir: null });
 const rng = createStream(42, 0);
 const post = async (path: string, body: unknown, method = 'POST', headers: Record<string, string> = {}) =>
@@ -38,8 +38,8 @@ const hf = Float32Array.from({ length: W * H }, () => 50 + 40 * rng.uniform());
 const sd = new Float32Array(W * H).fill(6);
 const meta = { width: W, height: H, west: -129, north: -37, dx: 0.01, dy: 0.01, crs: 'EPSG:4326', units: 'mW/m²' };
 const now = new Date().toISOString();
-store.putRun({ id: 'run_bench', cacheKey: 'bench', request: runRequestSchema.parse({ sites: 'demo-sites', model: 'demo-model', realizations: 200, seed: 1 }), status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model: null, grids: [], client: 'bench', createdAt: now, updatedAt: now });
-store.storeRunResult('run_bench', { files: [], grids: [{ name: 'heatFlow', meta, values: hf }, { name: 'heatFlowSd', meta, values: sd }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
+await store.putRun({ id: 'run_bench', cacheKey: 'bench', request: runRequestSchema.parse({ sites: 'demo-sites', model: 'demo-model', realizations: 200, seed: 1 }), status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model: null, grids: [], client: 'bench', createdAt: now, updatedAt: now });
+await store.storeRunResult('run_bench', { files: [], grids: [{ name: 'heatFlow', meta, values: hf }, { name: 'heatFlowSd', meta, values: sd }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
 
 const points = Array.from({ length: 500 }, () => ({ lon: -129 + 0.02 + 1.96 * rng.uniform(), lat: -37 - 0.02 - 1.96 * rng.uniform() }));
 await timeIt('column of a model (60 km, 0.5 km step)', 300, (i) => post('/api/column', { model: 'demo-model', heatFlowMWm2: 50 + (i % 40) }).then((r) => r.text()));
@@ -71,5 +71,5 @@ store.db.pragma('synchronous = NORMAL');
 const normal = await timeIt('project save (PUT), synchronous = NORMAL', 300, put);
 console.log(`save cost of FULL over NORMAL: ${(full / normal).toFixed(2)}×`);
 await app.close();
-store.close();
+await store.close();
 rmSync(dir, { recursive: true, force: true });

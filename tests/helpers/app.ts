@@ -16,11 +16,12 @@ export interface TestApp {
   close(): Promise<void>;
 }
 
-export function startTestApp(prefix: string, opts: Partial<AppOptions> = {}): TestApp {
+export async function startTestApp(prefix: string, opts: Partial<AppOptions> = {}): Promise<TestApp> {
   const dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), `subtherm-${prefix}-`));
   const store = new SqliteStore(join(dir, 'db.sqlite'));
-  loadDemo(store);
+  await loadDemo(store);
   const app = createApp({ store, terrain: null, clientDir: null, ...opts });
+  await app.ready;
   const post = async (path: string, body: unknown): Promise<Response> => app.request(path, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body) });
   const waitEnd = async <T,>(id: string): Promise<T> => {
     for (let i = 0; i < 3000; i++) {
@@ -37,7 +38,7 @@ export function startTestApp(prefix: string, opts: Partial<AppOptions> = {}): Te
     waitEnd,
     close: async () => {
       await app.close();
-      store.close();
+      await store.close();
       rmSync(dir, { recursive: true, force: true });
     },
   };

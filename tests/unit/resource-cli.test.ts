@@ -105,13 +105,13 @@ describe('subtherm heat-in-place', () => {
 describe('heat-in-place job routes', () => {
   const model = JSON.parse(readFileSync(modelPath, 'utf8'));
   let t: TestApp;
-  beforeAll(() => {
-    t = startTestApp('hip');
+  beforeAll(async () => {
+    t = await startTestApp('hip');
     // A finished run holding the same grids and model the CLI reads from files.
     const now = new Date().toISOString();
-    t.store.putRun({ id: 'run_hip', cacheKey: 'hip', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model, grids: [], client: 'test', createdAt: now, updatedAt: now });
+    await t.store.putRun({ id: 'run_hip', cacheKey: 'hip', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model, grids: [], client: 'test', createdAt: now, updatedAt: now });
     const meta = (g: Grid) => ({ width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: 'mW/m²' });
-    t.store.storeRunResult('run_hip', { files: [], grids: [{ name: 'heatFlow', meta: meta(hf), values: hf.values }, { name: 'heatFlowSd', meta: meta(sd), values: sd.values }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
+    await t.store.storeRunResult('run_hip', { files: [], grids: [{ name: 'heatFlow', meta: meta(hf), values: hf.values }, { name: 'heatFlowSd', meta: meta(sd), values: sd.values }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
   });
   afterAll(async () => await t?.close());
   const waitJob = async (url: string): Promise<Response> => {
