@@ -3,19 +3,17 @@
  * (P90 − P10, Hyndman & Fan type 7 over the realizations, as the run's P10/P90 maps) and exceedance probabilities:
  * the fraction of valid realizations in which the depth to an isotherm is shallower than a depth, or the
  * temperature at a depth exceeds a value. An isotherm not reached counts as deeper than any depth; a realization
- * whose column is invalid for the cell (heat flow exhausted before the answer, k(T) undefined, an impossible draw)
- * is left out of the fraction. Cells are processed in blocks with one (realizations × block) buffer; between blocks
+ * whose column is invalid for the cell (heat flow exhausted before the answer, k(T) undefined, an impossible draw,
+ * or an isotherm below the melt onset) is left out of the fraction. The melt and mantle limits apply as in the run's
+ * maps: a temperature below the melt onset (the dry solidus of its rock) is never given; it counts as hotter than
+ * any valid temperature, so it exceeds every value asked for (the rock there is at least at its solidus: read a
+ * threshold above the solidus with that in mind). Cells are processed in blocks with one (realizations × block) buffer; between blocks
  * the work yields to the event loop so a server stays responsive.
  */
-import {
-  COLUMN_BAD_INPUT,
-  COLUMN_CONDUCTIVITY_UNDEFINED,
-  COLUMN_FLOW_EXHAUSTED,
-  ColumnState,
-  columnIsothermDepth,
-  columnTemperature,
-  solveColumn,
-} from '../../shared/thermal/column.ts';
+import { ColumnState, solveColumn } from '../../shared/thermal/column.ts';
+import type { CompiledModel } from '../../shared/thermal/compile.ts';
+import { dryAtTops, limitsWhereReached } from '../../shared/thermal/limits.ts';
+import { isothermAnswer, temperatureAnswer } from '../../shared/thermal/monte-carlo.ts';
 import { summarizeSorted, type Summary } from '../../shared/thermal/quantiles.ts';
 import type { RunRealizations } from './realizations.ts';
 
@@ -30,10 +28,11 @@ type Quantity = { kind: 'isotherm'; isothermC: number } | { kind: 'temperature';
 const yieldToLoop = () => new Promise<void>((resolve) => setImmediate(resolve));
 
 /**
- * Fills buf[r·B + (c − start)] with the quantity of realization r in cells [start, end); NaN = invalid.
- * Mirrors the grid Monte Carlo of the run (shared/thermal/monte-carlo.ts) value for value.
+ * Fills buf[r·B + (c − start)] with the quantity of realization r in cells [start, end); NaN = invalid, +∞ = an
+ * isotherm not reached or a temperature past the melt onset. The same per-realization answers as the run's grid
+ * Monte Carlo (isothermAnswer, temperatureAnswer of shared/thermal/monte-carlo.ts, under the melt and mantle limits).
  */
-function fillBlock(rr: RunRealizations, q: Quantity, start: number, end: number, B: number, buf: Float64Array, states: ColumnState[]): void {
+function fillBlock(rr: RunRealizations, q: Quantity, start: number, end: number, B: number, buf: Float64Array, states: ColumnState[], dryTops: WeakMap<CompiledModel, Float64Array>): void {
   const zMax = rr.maxDepthKm;
   const needT = q.kind === 'isotherm' ? q.isothermC : -Infinity;
   const needZ = q.kind === 'temperature' ? q.depthKm : 0;
@@ -47,19 +46,12 @@ function fillBlock(rr: RunRealizations, q: Quantity, start: number, end: number,
         buf[j] = NaN;
         continue;
       }
+      let dry = dryTops.get(cm);
+      if (dry === undefined) dryTops.set(cm, (dry = dryAtTops(cm)));
       const st = states[zone];
       solveColumn(cm, q0, cm.surfaceTemperatureC, st, needT, needZ);
-      if (q.kind === 'temperature') {
-        buf[j] = columnTemperature(cm, st, q.depthKm);
-        continue;
-      }
-      if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED)) {
-        buf[j] = NaN;
-        continue;
-      }
-      const z = columnIsothermDepth(cm, st, q.isothermC, zMax);
-      // Not reached: a valid verdict only if the column is valid down to the search limit.
-      buf[j] = z === z ? z : st.status & COLUMN_FLOW_EXHAUSTED && st.validToKm < zMax ? NaN : Infinity;
+      const lim = limitsWhereReached(cm, st, Math.max(zMax, needZ), dry);
+      buf[j] = q.kind === 'temperature' ? temperatureAnswer(cm, st, lim, q.depthKm) : isothermAnswer(cm, st, lim, q.isothermC, zMax);
     }
   }
 }
@@ -72,10 +64,11 @@ async function perCell(rr: RunRealizations, q: Quantity, reduce: (values: Float6
   const scratch = new Float64Array(N);
   const out = new Float32Array(cells);
   const states = rr.zoneModels.map((m) => new ColumnState(m.layers.length));
+  const dryTops = new WeakMap<CompiledModel, Float64Array>();
   for (let b0 = 0; b0 < cells; b0 += B) {
     if (opts.signal?.aborted) throw opts.signal.reason instanceof Error ? opts.signal.reason : new Error('cancelled');
     const b1 = Math.min(cells, b0 + B);
-    fillBlock(rr, q, b0, b1, B, buf, states);
+    fillBlock(rr, q, b0, b1, B, buf, states, dryTops);
     for (let c = b0; c < b1; c++) {
       for (let r = 0; r < N; r++) scratch[r] = buf[r * B + (c - b0)];
       out[c] = reduce(scratch, c);

@@ -4,19 +4,11 @@
  * per compiled model is allocated per call; nothing per cell. Same closed form as the single column (column.ts).
  */
 import type { CompiledModel } from './compile.ts';
-import { adiabatTemperatureC } from './adiabat.ts';
 import { COLUMN_BAD_INPUT, ColumnState, columnHeatFlow, columnIsothermDepth, columnTemperature, solveColumn } from './column.ts';
-import { columnLimits, layerSolidus, limitedIsothermDepth, limitedTemperature } from './limits.ts';
-import { lithostaticPressureMPa } from './pressure.ts';
-import { ROCK_KINDS } from '../schema/model.ts';
+import { dryAtTops, limitedIsothermDepth, limitedTemperature, limitsWhereReached } from './limits.ts';
 
 /** Status bit of a grid cell whose column reaches the melt onset (limits.ts) above the maximum depth. */
 export const COLUMN_MELT_ONSET = 8;
-
-/** Per model: the dry solidus at each layer top (its minimum over the layer: every dry curve rises with pressure or is flat). */
-function dryAtTops(cm: CompiledModel): Float64Array {
-  return Float64Array.from({ length: cm.nLayers }, (_, i) => layerSolidus(cm, i).dry.temperatureC(lithostaticPressureMPa(cm, cm.topKm[i])));
-}
 
 type Floats = Float32Array | Float64Array;
 
@@ -83,7 +75,6 @@ export function geothermGrid(models: CompiledModel | CompiledModel[], heatFlowMW
   const full = melt !== undefined || wet !== undefined;
   if (full) needT = Infinity;
   const dryTop = list.map(dryAtTops);
-  const mantle = ROCK_KINDS.indexOf('mantle');
   for (let c = start; c < end; c++) {
     const zi = zones === undefined ? 0 : zones[c];
     const cm = list[zi];
@@ -93,23 +84,9 @@ export function geothermGrid(models: CompiledModel | CompiledModel[], heatFlowMW
     solveColumn(cm, q0, t0s === undefined ? cm.surfaceTemperatureC : t0s[c], st, needT, needZ);
     if (basal !== undefined) basal[c] = st.status & COLUMN_BAD_INPUT ? NaN : q0 - cm.totalHeatProductionMWm2;
     const zMax = query.maxDepthKm ?? cm.maxDepthKm;
-    // Fast path: no solved layer gets as hot as its dry solidus at its top, nor (mantle) as the adiabat there, so the
-    // melt and mantle limits cannot act above the solved depth (layers left unsolved by the lazy solve lie below every
-    // answer asked for). Otherwise the full limits of limits.ts.
-    let hot = full && !(st.status & COLUMN_BAD_INPUT), zSolved = 0;
-    if (!hot && !(st.status & COLUMN_BAD_INPUT)) {
-      const dt = dryTop[zi], tT = st.tTopC;
-      for (let i = 0; i < cm.nLayers && cm.topKm[i] <= zMax; i++) {
-        const tb = tT[i + 1];
-        if (!Number.isFinite(tb)) break;
-        zSolved = cm.bottomKm[i];
-        if (tb >= dt[i] || (cm.rock[i] === mantle && tb >= adiabatTemperatureC(cm.mantlePotentialTemperatureC, cm.topKm[i], cm.gravityMS2))) {
-          hot = true;
-          break;
-        }
-      }
-    }
-    if (!hot) {
+    // The melt and mantle limits of limits.ts, skipped where they cannot act (limitsWhereReached's fast path).
+    const lim = limitsWhereReached(cm, st, zMax, dryTop[zi], full && !(st.status & COLUMN_BAD_INPUT));
+    if (lim === null) {
       if (status !== undefined) status[c] = st.status;
       if (melt !== undefined) melt[c] = NaN;
       if (wet !== undefined) wet[c] = NaN;
@@ -117,10 +94,6 @@ export function geothermGrid(models: CompiledModel | CompiledModel[], heatFlowMW
       for (let k = 0; k < nDep; k++) out.temperatureC[k][c] = columnTemperature(cm, st, deps[k]);
       continue;
     }
-    // Scan only the solved part (all of it when the melt depth is asked for: needT = ∞ solves every layer).
-    let zScan = zMax;
-    for (let i = 0; i < cm.nLayers; i++) if (!Number.isFinite(st.tTopC[i + 1])) { zScan = Math.min(zMax, Math.max(zSolved, cm.topKm[i])); break; }
-    const lim = columnLimits(cm, st, zScan);
     if (status !== undefined) status[c] = st.status | (lim.endReason === 'melt-onset' ? COLUMN_MELT_ONSET : 0);
     if (melt !== undefined) melt[c] = lim.meltOnsetKm;
     if (wet !== undefined) wet[c] = lim.wetSolidusKm;

@@ -186,3 +186,36 @@ export function limitedIsothermDepth(cm: CompiledModel, st: ColumnState, lim: Co
   }
   return z <= maxDepthKm && z <= lim.validToKm ? z : NaN;
 }
+
+/** Per model: the dry solidus (°C) at each layer top, its minimum over the layer (every dry curve rises with pressure or is flat). */
+export function dryAtTops(cm: CompiledModel): Float64Array {
+  return Float64Array.from({ length: cm.nLayers }, (_, i) => layerSolidus(cm, i).dry.temperatureC(lithostaticPressureMPa(cm, cm.topKm[i])));
+}
+
+/**
+ * The limits of a solved column when they can act above zMax (km), else null. Fast path: when no solved layer gets
+ * as hot at its base as its dry solidus at its top (`dryTop`, from dryAtTops), nor (mantle) as the adiabat at its
+ * top, neither melt nor the adiabat can act above the solved depth (layers left unsolved by a lazy solve lie below
+ * every answer asked for) and null is returned; `force` skips the fast path. Otherwise columnLimits over the solved part.
+ */
+export function limitsWhereReached(cm: CompiledModel, st: ColumnState, zMax: number, dryTop: Float64Array, force = false): ColumnLimits | null {
+  if (st.status & COLUMN_BAD_INPUT) return force ? columnLimits(cm, st, zMax) : null;
+  let hot = force, zSolved = 0;
+  if (!hot) {
+    const tT = st.tTopC;
+    for (let i = 0; i < cm.nLayers && cm.topKm[i] <= zMax; i++) {
+      const tb = tT[i + 1];
+      if (!Number.isFinite(tb)) break;
+      zSolved = cm.bottomKm[i];
+      if (tb >= dryTop[i] || (cm.rock[i] === MANTLE && tb >= adiabatTemperatureC(cm.mantlePotentialTemperatureC, cm.topKm[i], cm.gravityMS2))) {
+        hot = true;
+        break;
+      }
+    }
+  }
+  if (!hot) return null;
+  // Scan only the solved part (all of it after a full solve).
+  let zScan = zMax;
+  for (let i = 0; i < cm.nLayers; i++) if (!Number.isFinite(st.tTopC[i + 1])) { zScan = Math.min(zMax, Math.max(zSolved, cm.topKm[i])); break; }
+  return columnLimits(cm, st, zScan);
+}

@@ -21,7 +21,7 @@ import {
 } from './column.ts';
 import { summarizeSorted, type Summary } from './quantiles.ts';
 import { realizationProblem, realizeModel } from './realize.ts';
-import { columnLimits, limitedIsothermDepth, limitedTemperature, type ColumnLimits } from './limits.ts';
+import { columnLimits, dryAtTops, limitedIsothermDepth, limitedTemperature, limitsWhereReached, type ColumnLimits } from './limits.ts';
 
 type Floats = Float32Array | Float64Array;
 
@@ -42,6 +42,29 @@ function limitedIsothermValue(cm: CompiledModel, st: ColumnState, lim: ColumnLim
   const z = limitedIsothermDepth(cm, st, lim, tIso, zMax);
   if (z === z) return z;
   return lim.validToKm < zMax ? NaN : Infinity;
+}
+
+/**
+ * Temperature (°C) at z (km) in one realization under the limits: below the melt onset the conductive column is
+ * not valid and the rock is at least at its solidus there, so the value counts as hotter than any valid temperature
+ * (+∞: a percentile falling there is null, as for an isotherm not reached); NaN below another end of validity.
+ */
+function limitedTemperatureValue(cm: CompiledModel, st: ColumnState, lim: ColumnLimits, z: number): number {
+  if (lim.endReason === 'melt-onset' && z > lim.meltOnsetKm) return Infinity;
+  return limitedTemperature(cm, st, lim, z);
+}
+
+/**
+ * One realization's depth to the isotherm tIso (km) for a solved column, under the limits `lim` from
+ * limitsWhereReached (null: they cannot act): +∞ when not reached in a valid column, NaN when invalid.
+ */
+export function isothermAnswer(cm: CompiledModel, st: ColumnState, lim: ColumnLimits | null, tIso: number, zMax: number): number {
+  return lim === null ? isothermValue(cm, st, tIso, zMax) : limitedIsothermValue(cm, st, lim, tIso, zMax);
+}
+
+/** One realization's temperature at z (km) for a solved column under `lim` (see isothermAnswer): +∞ past the melt onset. */
+export function temperatureAnswer(cm: CompiledModel, st: ColumnState, lim: ColumnLimits | null, z: number): number {
+  return lim === null ? columnTemperature(cm, st, z) : limitedTemperatureValue(cm, st, lim, z);
 }
 
 function sortedSummary(values: Float64Array): Summary {
@@ -120,7 +143,7 @@ export function monteCarloColumn(model: ThermalModelInput, o: ColumnMonteCarloOp
     const lim = columnLimits(cm, st, maxZ, o.stepKm ?? 0.1);
     if (lim.endReason !== null) inconsistent++;
     for (let k = 0; k < nIso; k++) iso[k][r] = limitedIsothermValue(cm, st, lim, o.isothermsC[k], o.maxDepthKm);
-    for (let k = 0; k < nDep; k++) dep[k][r] = limitedTemperature(cm, st, lim, o.depthsKm[k]);
+    for (let k = 0; k < nDep; k++) dep[k][r] = limitedTemperatureValue(cm, st, lim, o.depthsKm[k]);
     basal[r] = q0 - cm.totalHeatProductionMWm2;
     reduced[r] = q0 - cm.reducedHeatFlowOffsetMWm2;
     if (doSolidus) {
@@ -191,12 +214,16 @@ export interface GridMonteCarloOutput {
   temperatures: GridSummaryBuffers[];
   /** Fraction of realizations left out for the cell (invalid column or impossible draw). */
   invalidFraction?: Floats;
+  /** Fraction of realizations whose column reaches the melt onset (the dry solidus of its rock) above the maximum depth. */
+  meltFraction?: Floats;
 }
 
 /** Realized, compiled models per realization (null = rejected draw) and the full-correlation normals. */
 export interface PreparedGridMonteCarlo {
   spec: GridMonteCarloSpec;
   compiled: (CompiledModel | null)[][];
+  /** dryAtTops of each compiled model (limits.ts), for the melt limit's fast path. */
+  dryTop: (Float64Array | null)[][];
   fullNormal: Float64Array;
 }
 
@@ -222,7 +249,7 @@ export function prepareGridMonteCarlo(spec: GridMonteCarloSpec): PreparedGridMon
     compiled.push(row);
     fullNormal[r] = rng.normal();
   }
-  return { spec, compiled, fullNormal };
+  return { spec, compiled, dryTop: compiled.map((row) => row.map((cm) => (cm === null ? null : dryAtTops(cm)))), fullNormal };
 }
 
 /** Standard normal for (seed, realization, cell) from two keyed uniforms (Box–Muller); independent of tiling. */
@@ -251,7 +278,7 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
   // Realization-major block buffers (r·B + cell): the inner loop over cells writes contiguously.
   const bufs = Array.from({ length: nQ }, () => new Float64Array(B * N));
   const scratch = new Float64Array(N);
-  const invalid = new Uint32Array(B);
+  const invalid = new Uint32Array(B), melted = new Uint32Array(B);
   const states = spec.models.map((m) => new ColumnState(m.layers.length));
   const isos = Float64Array.from(spec.isothermsC), deps = Float64Array.from(spec.depthsKm);
   const zMax = spec.maxDepthKm;
@@ -263,8 +290,10 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
   for (let b0 = start; b0 < end; b0 += B) {
     const b1 = Math.min(end, b0 + B);
     invalid.fill(0);
+    melted.fill(0);
     for (let r = 0; r < N; r++) {
       const row = prep.compiled[r];
+      const dryRow = prep.dryTop[r];
       const zr = prep.fullNormal[r];
       for (let c = b0; c < b1; c++) {
         const j = r * B + (c - b0);
@@ -286,8 +315,11 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
         const st = states[zi];
         solveColumn(cm, q0, t0s === undefined ? cm.surfaceTemperatureC : t0s[c], st, needT, needZ);
         if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED)) invalid[c - b0]++;
-        for (let k = 0; k < nIso; k++) bufs[k][j] = isothermValue(cm, st, isos[k], zMax);
-        for (let k = 0; k < nDep; k++) bufs[nIso + k][j] = columnTemperature(cm, st, deps[k]);
+        // The melt and mantle limits where they can act (limits.ts), as in the column Monte Carlo.
+        const lim = limitsWhereReached(cm, st, Math.max(zMax, needZ), dryRow[zi]!);
+        if (lim !== null && lim.endReason === 'melt-onset') melted[c - b0]++;
+        for (let k = 0; k < nIso; k++) bufs[k][j] = isothermAnswer(cm, st, lim, isos[k], zMax);
+        for (let k = 0; k < nDep; k++) bufs[nIso + k][j] = temperatureAnswer(cm, st, lim, deps[k]);
       }
     }
     for (let c = b0; c < b1; c++) {
@@ -309,6 +341,7 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
         if (t.finiteFraction) t.finiteFraction[c] = n > 0 ? sum.finite / n : NaN;
       }
       if (out.invalidFraction) out.invalidFraction[c] = invalid[c - b0] / N;
+      if (out.meltFraction) out.meltFraction[c] = melted[c - b0] / N;
     }
   }
 }
@@ -317,5 +350,5 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
 export function allocateGridMonteCarloOutput(cells: number, nIso: number, nDep: number, shared = false): GridMonteCarloOutput {
   const f = () => (shared ? new Float32Array(new SharedArrayBuffer(cells * 4)) : new Float32Array(cells)).fill(NaN);
   const set = (): GridSummaryBuffers => ({ p10: f(), p50: f(), p90: f(), mean: f(), sd: f(), stderrP50: f(), finiteFraction: f() });
-  return { isotherms: Array.from({ length: nIso }, set), temperatures: Array.from({ length: nDep }, set), invalidFraction: f() };
+  return { isotherms: Array.from({ length: nIso }, set), temperatures: Array.from({ length: nDep }, set), invalidFraction: f(), meltFraction: f() };
 }

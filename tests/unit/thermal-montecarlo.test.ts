@@ -133,3 +133,53 @@ describe('grid Monte Carlo', () => {
     expect(out.temperatures[1].p90[3]).toBeCloseTo(col.temperatureAtDepthsC[1].p90, 3);
   });
 });
+
+describe('grid Monte Carlo under the melt limit', () => {
+  it('never gives a temperature past the dry solidus as a percentile: a percentile past the melt onset is null', () => {
+    // One felsic-crust layer, constant k = 2.5 and A = 1: T(z) = T0 + q0·z/k − A·z²/(2k) (Turcotte & Schubert 2002
+    // §4-6), increasing while q(z) > 0. Its fluid-absent solidus is 780 °C at every pressure (Le Breton & Thompson
+    // 1988, held constant; shared/petrology/solidus.ts). Heat flow normal(μ, σ) per cell: a realization's temperature
+    // at depth d is T(d; q0) below 780 °C and past the melt onset otherwise, so its P10/P50/P90 are T(d; q0) at q0's
+    // 10th/50th/90th percentiles μ ∓ 1.2815516σ (A&S Table 26.5) where those stay below 780 °C, and null where not.
+    const model: ThermalModelInput = { surfaceTemperatureC: 10, layers: [{ name: 'crust', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2700, rock: 'felsic-crust' }] };
+    const T = (q0: number, z: number) => 10 + (q0 * z) / 2.5 - (1 * z * z) / (2 * 2.5);
+    const mu = Float32Array.from([80, 95, 110]), sdq = Float32Array.from([10, 10, 10]);
+    const depths = [15, 20, 25, 30];
+    const N = 1501;
+    const spec: GridMonteCarloSpec = { models: [model], heatFlowMWm2: mu, heatFlowSdMWm2: sdq, heatFlowErrorCorrelation: 'independent', isothermsC: [300], depthsKm: depths, maxDepthKm: 40, realizations: N, seed: 3 };
+    const out = allocateGridMonteCarloOutput(3, 1, depths.length);
+    monteCarloGridRange(prepareGridMonteCarlo(spec), 0, 3, out);
+    const z90 = 1.2815516, phi = (z: number) => Math.exp((-z * z) / 2) / Math.sqrt(2 * Math.PI);
+    let nulls = 0, finite = 0;
+    for (let c = 0; c < 3; c++) {
+      depths.forEach((d, k) => {
+        for (const [p, zq, key] of [[0.1, -z90, 'p10'], [0.5, 0, 'p50'], [0.9, z90, 'p90']] as const) {
+          const v = out.temperatures[k][key][c];
+          const expected = T(mu[c] + zq * sdq[c], d);
+          // Sample-quantile error σ·√(p(1 − p)/N)/φ(z_p) (from memory) times dT/dq0 = d/k; 4 of them allowed.
+          const tol = (4 * (d / 2.5) * sdq[c] * Math.sqrt((p * (1 - p)) / N)) / phi(zq);
+          if (Number.isFinite(v)) expect(v).toBeLessThan(780);
+          if (Math.abs(expected - 780) < tol) continue; // too near the solidus to say which side the sample falls
+          if (expected > 780) {
+            expect(v).toBeNaN();
+            nulls++;
+          } else {
+            expect(Math.abs(v - expected)).toBeLessThan(tol + 1e-3);
+            finite++;
+          }
+        }
+      });
+      // Fraction of realizations melting above 40 km: P(T(40; q0) ≥ 780) = 1 − Φ((q* − μ)/σ), q* from the closed
+      // form: q* = (780 − 10 + 40²/(2·2.5))·2.5/40.
+      const qStar = ((780 - 10 + (40 * 40) / 5) * 2.5) / 40;
+      const x = (qStar - mu[c]) / sdq[c];
+      // Φ by Abramowitz & Stegun 26.2.17 (|ε| < 7.5e-8).
+      const t = 1 / (1 + 0.2316419 * Math.abs(x));
+      const tail = phi(x) * t * (0.31938153 + t * (-0.356563782 + t * (1.781477937 + t * (-1.821255978 + t * 1.330274429))));
+      const pMelt = x >= 0 ? tail : 1 - tail;
+      expect(Math.abs(out.meltFraction![c] - pMelt)).toBeLessThan(4 * Math.sqrt((pMelt * (1 - pMelt)) / N) + 1e-3);
+    }
+    expect(nulls).toBeGreaterThan(3);
+    expect(finite).toBeGreaterThan(3);
+  });
+});
