@@ -10,6 +10,7 @@ export const ROOT = fileURLToPath(new URL('..', import.meta.url));
 export const CLI_DIR = join(ROOT, 'dist', 'cli');
 export const CLI_ENTRY = join(CLI_DIR, 'main.mjs');
 const STAMP = join(CLI_DIR, 'stamp.json');
+const PKG = JSON.parse(readFileSync(join(ROOT, 'package.json'), 'utf8'));
 /** Folders whose TypeScript the command line is built from. */
 const SOURCE_DIRS = ['server', 'shared'];
 
@@ -74,7 +75,9 @@ export async function buildCli({ quiet = false } = {}) {
     format: 'esm',
     platform: 'node',
     target: 'node20',
-    packages: 'external',
+    // Packages load from node_modules, except zod: bundled, it is parsed as one file instead of resolving and
+    // compiling its many modules at every start (about half the start-up time of a verb).
+    external: Object.keys({ ...PKG.dependencies, ...PKG.devDependencies }).filter((name) => name !== 'zod').flatMap((name) => [name, `${name}/*`]),
     chunkNames: '[name]-[hash]',
     logLevel: quiet ? 'error' : 'warning',
     plugins: [keepModuleUrls],
