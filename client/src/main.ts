@@ -116,7 +116,7 @@ async function showRun(ctx: AppContext, run: RunState, panels: { runs: RunPanel;
   const isoLayer = (run.layers ?? []).find((l) => /isograd/i.test(l.name) && l.kind === 'vector');
   const isograds = isoLayer ? await getJson<FeatureCollection>(`/api/runs/${encodeURIComponent(run.id)}/layers/${encodeURIComponent(isoLayer.name)}.geojson`).catch(() => null) : null;
   const st = run.summary?.structure;
-  panels.structure.setRun(st?.faults ?? [], isograds, st?.isograds ?? []);
+  panels.structure.setRun(st?.faults ?? [], isograds, st?.isograds ?? [], st?.samples ?? []);
   panels.section.setRunDone(run.status === 'done');
   ctx.syncUrl();
 }

@@ -6,7 +6,13 @@
 import type { Map as MapLibreMap } from 'maplibre-gl';
 import { pointSegmentDistance2 } from '../../shared/grid/segment.ts';
 import { el, fmt, replace } from './dom.ts';
-import type { IsogradSummary } from '../../shared/structure/layer.ts';
+import type { IsogradReport, IsogradSummary } from '../../shared/structure/layer.ts';
+
+/** Each sample's derived grade as the run reports it (the run summary's `structure.samples`). */
+export type SampleGrade = IsogradReport['samples'][number];
+
+/** How a sample's grade was found, in words. */
+const GRADE_SOURCE: Record<SampleGrade['source'], string> = { zone: 'zone', facies: 'facies', 'peak-pt': 'peak P–T', none: 'none' };
 
 type Feature = { type: 'Feature'; id?: string | number; properties: Record<string, unknown> | null; geometry: { type: string; coordinates: unknown } | null };
 export type FeatureCollection = { type: 'FeatureCollection'; features: Feature[] };
@@ -54,6 +60,7 @@ export class StructurePanel {
   private isograds: FeatureCollection | null = null;
   private report: FaultReportRow[] = [];
   private isogradSummary: IsogradSummary[] = [];
+  private sampleGrades: SampleGrade[] = [];
   private selected: string | null = null;
 
   constructor(private readonly map: MapLibreMap) {}
@@ -64,8 +71,9 @@ export class StructurePanel {
     this.render();
   }
 
-  setRun(report: FaultReportRow[], isograds: FeatureCollection | null, isogradSummary: IsogradSummary[] = []): void {
+  setRun(report: FaultReportRow[], isograds: FeatureCollection | null, isogradSummary: IsogradSummary[] = [], sampleGrades: SampleGrade[] = []): void {
     this.report = report;
+    this.sampleGrades = sampleGrades;
     this.isogradSummary = isogradSummary;
     this.isograds = isograds;
     this.render();
@@ -133,7 +141,8 @@ export class StructurePanel {
     });
     const faultTable = el(
       'table',
-      { class: 'report', id: 'fault-table' },
+      // Fixed layout over the panel's width, long words wrapping: no column is cut at the panel's edge.
+      { class: 'report', id: 'fault-table', style: 'table-layout:fixed;width:100%;overflow-wrap:anywhere' },
       el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Fault'), el('th', { scope: 'col' }, 'Kind'), el('th', { scope: 'col' }, 'Dip'), el('th', { scope: 'col' }, 'Length (km)'), ...reportCols.map((c) => el('th', { scope: 'col' }, c.label)))),
       el('tbody', {}, ...faultRows),
     );
@@ -163,9 +172,25 @@ export class StructurePanel {
       });
       parts.push(el('table', { class: 'report', id: 'isograd-table' }, el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Mineral in'), el('th', { scope: 'col' }, 'Rank'), el('th', { scope: 'col' }, 'High side'), el('th', { scope: 'col' }, 'Length (km)'))), el('tbody', {}, ...rows)));
     }
+    if (this.sampleGrades.length > 0) parts.push(sampleGradeList(this.sampleGrades));
     replace(this.root, ...parts);
     if (this.selected !== null) this.select(this.selected);
   }
+}
+
+/** Each sample's grade (zone, and whether it came from the zone given, the facies or the peak P–T), folded. */
+function sampleGradeList(grades: SampleGrade[]): HTMLElement {
+  const rows = grades.map((g) => el('tr', { 'data-sample': g.id }, el('td', {}, g.id), el('td', {}, g.zone ?? '—'), el('td', {}, GRADE_SOURCE[g.source] ?? g.source), el('td', {}, g.series ?? '—')));
+  const counts = (['zone', 'facies', 'peak-pt', 'none'] as const).map((k) => [k, grades.filter((g) => g.source === k).length] as const).filter(([, n]) => n > 0);
+  return el(
+    'details',
+    { id: 'sample-grades' },
+    el('summary', {}, `Grade of each sample (${grades.length}: ${counts.map(([k, n]) => `${n} from ${GRADE_SOURCE[k]}`).join(', ')})`),
+    el('div', { class: 'table-scroll', style: 'max-height:320px;overflow-y:auto' },
+      el('table', { class: 'report', id: 'sample-grade-table', style: 'table-layout:fixed;width:100%;overflow-wrap:anywhere' },
+        el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Sample'), el('th', { scope: 'col' }, 'Zone'), el('th', { scope: 'col', title: 'The zone recorded, or derived from the facies or from the peak temperature and pressure' }, 'From'), el('th', { scope: 'col', title: 'Pressure series from the aluminosilicate field (low pressure: andalusite-bearing)' }, 'Series'))),
+        el('tbody', {}, ...rows))),
+  );
 }
 
 type SepRow = { isograd: string; end: string; separationKm: { value: number; low: number; high: number }; sense: string; displacedTowardHigherGrade?: string; dipSlipKm?: { value: number; low: number; high: number }; slipSense?: string };
