@@ -376,8 +376,10 @@ export async function writeCogFile(path: string, values: Float32Array | Float64A
   const ts = checkOptions(width, height, opts);
   if (values.length !== width * height) throw new RangeError(`${values.length} values for ${width} × ${height} cells`);
   const shared = (n: number) => new Float32Array(new SharedArrayBuffer(n * 4));
-  const full = shared(width * height);
-  full.set(values);
+  // Grids filled by worker threads already live in shared memory: the workers read them as they are, no copy.
+  const inShared = values instanceof Float32Array && values.buffer instanceof SharedArrayBuffer && values.byteOffset === 0 && values.length === values.buffer.byteLength / 4;
+  const full = inShared ? values : shared(width * height);
+  if (!inShared) full.set(values);
   const levels = pyramid({ width, height, values: full }, ts, opts.resampling ?? 'average', shared);
   const jobs: { level: number; tx: number; ty: number; index: number }[] = [];
   for (let i = levels.length - 1; i >= 0; i--) {

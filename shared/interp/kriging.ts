@@ -13,6 +13,10 @@ import { EXACT_KM } from './idw.ts';
  * So each location costs O(n) for the estimate and one triangular solve O(n²/2) for the variance once the factor
  * exists. The factor is cached keyed by the sorted neighbour ids: neighbouring cells mostly share a set, and a
  * global neighbourhood is factored once ("dual" form: each cell is then O(N) for the estimate).
+ * A shortcut keeps a continental grid's per-cell search cost small without changing a value: a tree search returns
+ * 2k candidates and the distance g of the next point at its location a; at a nearby q every other point is at least
+ * g − |q − a| away (triangle inequality), so when the k nearest candidates are all nearer than that they are the k
+ * nearest of all and no new search is needed (an exact test; ties are broken by id, as in the tree search).
  * Per-point measurement-error variances are added to the diagonal (an extra, point-specific nugget).
  * A set whose matrix is singular or ill-conditioned is regularized with a growing diagonal jitter; if that fails the
  * location falls back to inverse-distance weighting (p = 2) on the same neighbours and σ = √sill; both are counted.
@@ -72,6 +76,15 @@ export class KrigingPredictor {
   private s = 0;
   private bz = 0;
   private failed = false;
+  // Coherent search: location of the last tree search, its candidates, the distance (km) of the first point beyond
+  // them, and whether they are usable.
+  private ax = 0;
+  private ay = 0;
+  private anchorGap = 0;
+  private anchorOk = false;
+  private readonly coherent: boolean;
+  private readonly cand: Int32Array;
+  private candN = 0;
 
   constructor(x: Float64Array, y: Float64Array, z: Float64Array, model: VariogramModel, opts: KrigingOptions = {}) {
     checkVariogram(model);
@@ -93,8 +106,11 @@ export class KrigingPredictor {
     this.sill = model.nugget + model.partialSill;
     this.index = new NeighbourIndex(x, y);
     const m = this.k;
-    this.ids = new Int32Array(m);
-    this.d2 = new Float64Array(m);
+    this.coherent = !this.global && this.vis === null;
+    const kc = Math.min(2 * m, n);
+    this.cand = new Int32Array(kc);
+    this.ids = new Int32Array(kc + 1);
+    this.d2 = new Float64Array(kc + 1);
     this.key = new Int32Array(m);
     this.sorted = new Int32Array(m);
     this.L = new Float64Array(m * m);
@@ -121,7 +137,22 @@ export class KrigingPredictor {
       if (this.keyLen === n) return n; // identity set, factored already
       for (let i = 0; i < n; i++) sorted[i] = i;
     } else {
-      n = this.index.nearest(qx, qy, this.k, this.radiusKm, this.ids, this.d2, this.vis, exclude);
+      const coherent = this.coherent && exclude < 0;
+      const k = this.k;
+      n = coherent && this.anchorOk ? this.fromCandidates(qx, qy) : -1;
+      if (n < 0) {
+        const kc = this.cand.length;
+        const found = this.index.nearest(qx, qy, coherent ? kc + 1 : k, this.radiusKm, this.ids, this.d2, this.vis, exclude);
+        n = Math.min(found, k);
+        if (coherent) {
+          // The candidates and the distance of the first point beyond them (none: every point is a candidate).
+          this.candN = Math.min(found, kc);
+          this.cand.set(this.ids.subarray(0, this.candN));
+          this.anchorGap = found === kc + 1 ? Math.sqrt(this.d2[kc]) : Infinity;
+          this.anchorOk = found === kc + 1 || this.radiusKm === Infinity;
+          this.ax = qx; this.ay = qy;
+        } else this.anchorOk = false;
+      }
       if (n === 0) return 0;
       for (let i = 0; i < n; i++) {
         const v = this.ids[i];
@@ -139,6 +170,39 @@ export class KrigingPredictor {
     for (let i = 0; i < n; i++) this.key[i] = sorted[i];
     this.keyLen = n;
     return n;
+  }
+
+  /**
+   * The k nearest points to (qx, qy) chosen among the last search's candidates, into `ids` (nearest first, ties by
+   * id), when that choice is provably the true one: the k-th is nearer than the candidates' gap less the distance
+   * moved, and within the search radius. Returns the count, or −1 when a tree search is needed.
+   */
+  private fromCandidates(qx: number, qy: number): number {
+    const dxa = qx - this.ax, dya = qy - this.ay;
+    const limit = this.anchorGap - Math.sqrt(dxa * dxa + dya * dya);
+    if (!(limit > 0)) return -1;
+    const { cand, x, y, ids, d2 } = this;
+    const k = this.k;
+    let count = 0;
+    for (let t = 0; t < this.candN; t++) {
+      const id = cand[t];
+      const dx = x[id] - qx, dy = y[id] - qy;
+      const dd = dx * dx + dy * dy;
+      if (count === k && (dd > d2[k - 1] || (dd === d2[k - 1] && id > ids[k - 1]))) continue;
+      let pos = count < k ? count : k - 1;
+      while (pos > 0 && (d2[pos - 1] > dd || (d2[pos - 1] === dd && ids[pos - 1] > id))) {
+        ids[pos] = ids[pos - 1];
+        d2[pos] = d2[pos - 1];
+        pos--;
+      }
+      ids[pos] = id;
+      d2[pos] = dd;
+      if (count < k) count++;
+    }
+    if (count < k) return this.anchorGap === Infinity ? count : -1;
+    const far = Math.sqrt(d2[k - 1]);
+    // A relative margin of 1e-12 keeps round-off in the distances from ever deciding the test.
+    return far < limit * (1 - 1e-12) && far <= this.radiusKm ? k : -1;
   }
 
   private factor(n: number): void {
@@ -311,5 +375,6 @@ export class KrigingPredictor {
   /** Forgets the cached factor (after the caller changed nothing but wants fresh counters). */
   resetCache(): void {
     this.keyLen = -1;
+    this.anchorOk = false;
   }
 }

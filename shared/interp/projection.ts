@@ -231,18 +231,49 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
   return { width, height, west, north, dx, dy, crs, cellKm, groundCellKmRange };
 }
 
+/** Cells between exactly projected nodes of a row in `rowCentresLocalKm`. */
+export const ROW_NODE_STEP = 8;
+
 /**
  * Local km coordinates of the cell centres of one grid row, into `outX`/`outY` (length ≥ grid width).
  * `toLocal` converts grid CRS coordinates to the local projection (built once per grid with `converter`).
+ *
+ * A projection call costs about a microsecond, which is most of a continental grid's time, so a wide row projects
+ * exactly only every `ROW_NODE_STEP`-th cell centre (and the last) and places the cells between by cubic Lagrange
+ * interpolation through the four nearest nodes. The map from grid to local coordinates is smooth; the cubic's error
+ * is bounded by h⁴·max|f⁗|/384 per span (Burden & Faires, Numerical Analysis, §3.1): under 1e-8 km (10 µm) on a
+ * continent-wide grid of 1 km cells, checked against proj4 at every cell in the tests.
  */
 export function rowCentresLocalKm(grid: GridSpec, toLocal: Converter, row: number, outX: Float64Array, outY: Float64Array): void {
+  const W = grid.width, S = ROW_NODE_STEP;
   const y = grid.north - (row + 0.5) * grid.dy;
   const p: [number, number] = [0, y];
-  for (let c = 0; c < grid.width; c++) {
+  const exact = (c: number) => {
     p[0] = grid.west + (c + 0.5) * grid.dx;
     p[1] = y;
     const q = toLocal.forward(p);
     outX[c] = q[0];
     outY[c] = q[1];
+  };
+  if (W <= 4 * S) {
+    for (let c = 0; c < W; c++) exact(c);
+    return;
+  }
+  // Nodes at columns 0, S, 2S, … and W − 1.
+  const last = W - 1;
+  const nodes = Math.floor(last / S) + (last % S === 0 ? 1 : 2);
+  const col = (j: number) => (j < nodes - 1 ? j * S : last);
+  for (let j = 0; j < nodes; j++) exact(col(j));
+  for (let c = 1; c < last; c++) {
+    if (c % S === 0) continue;
+    // The four nodes around c: the span's two ends and one more on each side, shifted inside at the row's ends.
+    const j0 = Math.min(Math.max(Math.floor(c / S) - 1, 0), nodes - 4);
+    const a = col(j0), b = col(j0 + 1), d = col(j0 + 2), e = col(j0 + 3);
+    const wa = ((c - b) * (c - d) * (c - e)) / ((a - b) * (a - d) * (a - e));
+    const wb = ((c - a) * (c - d) * (c - e)) / ((b - a) * (b - d) * (b - e));
+    const wd = ((c - a) * (c - b) * (c - e)) / ((d - a) * (d - b) * (d - e));
+    const we = ((c - a) * (c - b) * (c - d)) / ((e - a) * (e - b) * (e - d));
+    outX[c] = wa * outX[a] + wb * outX[b] + wd * outX[d] + we * outX[e];
+    outY[c] = wa * outY[a] + wb * outY[b] + wd * outY[d] + we * outY[e];
   }
 }
