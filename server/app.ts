@@ -30,7 +30,8 @@ import { uncertaintyRoutes } from './routes/uncertainty.ts';
 import { openApiRoutes } from './routes/openapi.ts';
 import { gridTileRoutes } from './routes/grid-tiles.ts';
 import { resourceRoutes } from './routes/resource.ts';
-import { readGeoTiff } from './io/geotiff.ts';
+import { GeoTiffFile } from './io/geotiff.ts';
+import { LayerFiles } from './io/layer-files.ts';
 
 export interface AppOptions {
   store: Store;
@@ -239,15 +240,16 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   projectRoutes(app, ctx);
   projectDatasetRoutes(app, ctx);
   uncertaintyRoutes(app, ctx);
-  // Raster-dem tiles of a run's raster layers, decoded from the layer's stored GeoTIFF (the full-resolution grid).
+  // Raster-dem tiles of a run's raster layers, read window by window from a local copy of the layer's stored COG.
+  const layerFiles = new LayerFiles();
   app.route(
     '/api',
     gridTileRoutes({
       publicBaseUrl: publicBase,
-      loadLayerGrid: async (runId, layer) => {
+      openLayerFile: async (runId, layer) => {
         const file = await opts.store.getRunFile(runId, layer, 'tif');
         if (!file) return null;
-        return (await readGeoTiff(file.bytes.slice().buffer, { source: `run ${runId} layer ${layer}` })).grid;
+        return GeoTiffFile.open(await layerFiles.path(file.hash, file.bytes));
       },
     }),
   );
@@ -281,7 +283,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   const close = async () => {
     clearInterval(loopTimer);
     loopDelay.disable();
-    await Promise.all([jobs.close(), compute.short.close(), compute.long.close(), compute.jobs.close()]);
+    await Promise.all([jobs.close(), compute.short.close(), compute.long.close(), compute.jobs.close(), layerFiles.close()]);
   };
   return Object.assign(app, { jobs, limits, close, ready });
 }

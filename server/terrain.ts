@@ -4,7 +4,7 @@ import { gridBbox } from '../shared/grid/grid.ts';
 import { encodeRgb, TERRAIN_RGB, type RgbEncoding } from '../shared/grid/terrain-rgb.ts';
 import { lngFromTileX, latFromTileY, tileIntersectsBbox } from '../shared/grid/webmercator.ts';
 import { encodePng } from './io/png.ts';
-import { readGeoTiff } from './io/geotiff.ts';
+import { readGeoTiff, type GeoTiffFile } from './io/geotiff.ts';
 
 export const TILE_SIZE = 256;
 export const TERRAIN_MIN_ZOOM = 4;
@@ -17,6 +17,86 @@ export async function loadDem(path: string): Promise<Grid<Float32Array>> {
   return { ...r.grid, units: 'm' };
 }
 
+/** The georeferencing of a lon/lat raster level (degrees): full grid or overview. */
+interface LevelSpec {
+  width: number;
+  height: number;
+  west: number;
+  north: number;
+  dx: number;
+  dy: number;
+}
+
+/**
+ * Fractional column and row (cell centres at integers) of each tile pixel centre against `d`, NaN beyond it
+ * (clamped to the edge with `clamp`).
+ */
+function tileAxes(d: LevelSpec, z: number, x: number, y: number, clamp: boolean, colX: Float64Array, rowY: Float64Array): void {
+  const maxC = d.width - 1, maxR = d.height - 1;
+  for (let i = 0; i < TILE_SIZE; i++) {
+    const lng = lngFromTileX(x + (i + 0.5) / TILE_SIZE, z);
+    const lat = latFromTileY(y + (i + 0.5) / TILE_SIZE, z);
+    const fc = (lng - d.west) / d.dx - 0.5;
+    const fr = (d.north - lat) / d.dy - 0.5;
+    colX[i] = clamp || (fc >= -0.5 && fc <= maxC + 0.5) ? Math.min(maxC, Math.max(0, fc)) : NaN;
+    rowY[i] = clamp || (fr >= -0.5 && fr <= maxR + 0.5) ? Math.min(maxR, Math.max(0, fr)) : NaN;
+  }
+}
+
+/** The cells a tile's bilinear samples touch: [c0, c1) × [r0, r1) of the level, or null when none. */
+function tileWindow(d: LevelSpec, colX: Float64Array, rowY: Float64Array): [number, number, number, number] | null {
+  let cMin = Infinity, cMax = -Infinity, rMin = Infinity, rMax = -Infinity;
+  for (let i = 0; i < TILE_SIZE; i++) {
+    const c = colX[i], r = rowY[i];
+    if (c === c) { if (c < cMin) cMin = c; if (c > cMax) cMax = c; }
+    if (r === r) { if (r < rMin) rMin = r; if (r > rMax) rMax = r; }
+  }
+  if (!(cMin <= cMax && rMin <= rMax)) return null;
+  return [Math.floor(cMin), Math.floor(rMin), Math.min(d.width, Math.floor(cMax) + 2), Math.min(d.height, Math.floor(rMax) + 2)];
+}
+
+/**
+ * Bilinear samples at the tile's pixel centres from the cells [c0, c0 + ww) × [r0, …) of a level held in `v`
+ * (row-major, width ww), encoded into `rgb`. Where a neighbour is no data the nearest cell's value is used.
+ */
+function renderPixels(d: LevelSpec, v: ArrayLike<number>, c0w: number, r0w: number, ww: number, colX: Float64Array, rowY: Float64Array, enc: RgbEncoding, rgb: Uint8Array): void {
+  const maxC = d.width - 1, maxR = d.height - 1;
+  for (let py = 0; py < TILE_SIZE; py++) {
+    const fr = rowY[py];
+    const r0 = Math.floor(fr), r1 = Math.min(maxR, r0 + 1), ty = fr - r0;
+    const b0 = (r0 - r0w) * ww - c0w, b1 = (r1 - r0w) * ww - c0w;
+    for (let px = 0; px < TILE_SIZE; px++) {
+      const fc = colX[px];
+      let h = NaN;
+      if (fc === fc && fr === fr) {
+        const c0 = Math.floor(fc), c1 = Math.min(maxC, c0 + 1), tx = fc - c0;
+        const a = v[b0 + c0], b = v[b0 + c1], c = v[b1 + c0], e = v[b1 + c1];
+        h = (a * (1 - tx) + b * tx) * (1 - ty) + (c * (1 - tx) + e * tx) * ty;
+        if (h !== h) h = v[(ty < 0.5 ? b0 : b1) + (tx < 0.5 ? c0 : c1)];
+      }
+      encodeRgb(enc, h, rgb, (py * TILE_SIZE + px) * 3);
+    }
+  }
+}
+
+/** A least-recently-used map of tiles. */
+class TileCache {
+  private readonly map = new Map<string, Buffer>();
+  constructor(private readonly size: number) {}
+  get(key: string): Buffer | undefined {
+    const hit = this.map.get(key);
+    if (hit) {
+      this.map.delete(key);
+      this.map.set(key, hit);
+    }
+    return hit;
+  }
+  set(key: string, png: Buffer): void {
+    this.map.set(key, png);
+    if (this.map.size > this.size) this.map.delete(this.map.keys().next().value as string);
+  }
+}
+
 /**
  * Renders raster-dem tiles (256 px) of any lon/lat grid by bilinear sampling at each pixel centre, in an RGB
  * encoding of shared/grid/terrain-rgb.ts. Where a neighbour is no data the nearest cell's value is used, so no-data
@@ -25,7 +105,7 @@ export async function loadDem(path: string): Promise<Grid<Float32Array>> {
  */
 export class GridTiles {
   readonly bbox: [number, number, number, number];
-  private readonly cache = new Map<string, Buffer>();
+  private readonly cache: TileCache;
   private readonly colX = new Float64Array(TILE_SIZE);
   private readonly rowY = new Float64Array(TILE_SIZE);
   private readonly rgb = new Uint8Array(TILE_SIZE * TILE_SIZE * 3);
@@ -37,6 +117,7 @@ export class GridTiles {
   ) {
     if (grid.crs !== 'EPSG:4326') throw new RangeError(`map tiles need a lon/lat (EPSG:4326) grid, got ${grid.crs}`);
     this.bbox = gridBbox(grid);
+    this.cache = new TileCache(opts.cacheSize ?? 512);
   }
 
   /** Units of the grid's values. */
@@ -51,48 +132,74 @@ export class GridTiles {
     if (!tileIntersectsBbox(z, x, y, this.bbox)) return null;
     const key = `${z}/${x}/${y}`;
     const hit = this.cache.get(key);
-    if (hit) {
-      this.cache.delete(key);
-      this.cache.set(key, hit);
-      return hit;
-    }
+    if (hit) return hit;
     const png = this.render(z, x, y);
     this.cache.set(key, png);
-    if (this.cache.size > (this.opts.cacheSize ?? 512)) this.cache.delete(this.cache.keys().next().value as string);
     return png;
   }
 
   private render(z: number, x: number, y: number): Buffer {
     const d = this.grid;
-    const maxC = d.width - 1, maxR = d.height - 1;
-    const clamp = this.opts.edge === 'clamp';
-    // Fractional grid column/row of each pixel centre, computed once per tile axis (NaN = beyond the grid).
-    for (let i = 0; i < TILE_SIZE; i++) {
-      const lng = lngFromTileX(x + (i + 0.5) / TILE_SIZE, z);
-      const lat = latFromTileY(y + (i + 0.5) / TILE_SIZE, z);
-      const fc = (lng - d.west) / d.dx - 0.5;
-      const fr = (d.north - lat) / d.dy - 0.5;
-      this.colX[i] = clamp || (fc >= -0.5 && fc <= maxC + 0.5) ? Math.min(maxC, Math.max(0, fc)) : NaN;
-      this.rowY[i] = clamp || (fr >= -0.5 && fr <= maxR + 0.5) ? Math.min(maxR, Math.max(0, fr)) : NaN;
-    }
-    const v = d.values;
-    const enc = this.encoding;
-    for (let py = 0; py < TILE_SIZE; py++) {
-      const fr = this.rowY[py];
-      const r0 = Math.floor(fr), r1 = Math.min(maxR, r0 + 1), ty = fr - r0;
-      for (let px = 0; px < TILE_SIZE; px++) {
-        const fc = this.colX[px];
-        let h = NaN;
-        if (fc === fc && fr === fr) {
-          const c0 = Math.floor(fc), c1 = Math.min(maxC, c0 + 1), tx = fc - c0;
-          const a = v[r0 * d.width + c0], b = v[r0 * d.width + c1], c = v[r1 * d.width + c0], e = v[r1 * d.width + c1];
-          h = (a * (1 - tx) + b * tx) * (1 - ty) + (c * (1 - tx) + e * tx) * ty;
-          if (h !== h) h = v[(ty < 0.5 ? r0 : r1) * d.width + (tx < 0.5 ? c0 : c1)];
-        }
-        encodeRgb(enc, h, this.rgb, (py * TILE_SIZE + px) * 3);
-      }
-    }
+    tileAxes(d, z, x, y, this.opts.edge === 'clamp', this.colX, this.rowY);
+    renderPixels(d, d.values, 0, 0, d.width, this.colX, this.rowY, this.encoding, this.rgb);
     return encodePng(this.rgb, TILE_SIZE, TILE_SIZE, 3);
+  }
+}
+
+/**
+ * Raster-dem tiles of a lon/lat GeoTIFF read window by window, so a grid of any size is served without holding it:
+ * each tile reads only the cells its pixels sample, from the coarsest level (full resolution or internal overview)
+ * whose cells are no larger than the tile's pixels, and renders them exactly as `GridTiles` renders a held grid.
+ */
+export class WindowTiles {
+  readonly bbox: [number, number, number, number];
+  private readonly cache: TileCache;
+
+  constructor(
+    private readonly file: GeoTiffFile,
+    readonly encoding: RgbEncoding,
+    private readonly opts: { minZoom: number; maxZoom: number; cacheSize?: number },
+  ) {
+    const h = file.header;
+    if (h.spec.crs !== 'EPSG:4326') throw new RangeError(`map tiles need a lon/lat (EPSG:4326) grid, got ${h.spec.crs}`);
+    this.bbox = gridBbox(h.spec);
+    this.cache = new TileCache(opts.cacheSize ?? 256);
+  }
+
+  get units(): string {
+    return this.file.header.units;
+  }
+
+  /** The level a tile at zoom z samples: the coarsest whose cell is at most the tile's pixel width (degrees). */
+  levelFor(z: number): number {
+    const pixelDeg = 360 / (TILE_SIZE * 2 ** z);
+    let best = 0;
+    this.file.levels.forEach((l, i) => { if (l.dx <= pixelDeg) best = i; });
+    return best;
+  }
+
+  /** The PNG of tile z/x/y, or null when the tile lies outside the grid or the zoom range. */
+  async tile(z: number, x: number, y: number): Promise<Buffer | null> {
+    if (!(z >= this.opts.minZoom && z <= this.opts.maxZoom) || x < 0 || y < 0 || x >= 2 ** z || y >= 2 ** z) return null;
+    if (!tileIntersectsBbox(z, x, y, this.bbox)) return null;
+    const key = `${z}/${x}/${y}`;
+    const hit = this.cache.get(key);
+    if (hit) return hit;
+    const level = this.file.levels[this.levelFor(z)];
+    // Buffers per call: tiles of one layer may render concurrently while a window read is awaited.
+    const colX = new Float64Array(TILE_SIZE), rowY = new Float64Array(TILE_SIZE);
+    tileAxes(level, z, x, y, false, colX, rowY);
+    const win = tileWindow(level, colX, rowY);
+    const rgb = new Uint8Array(TILE_SIZE * TILE_SIZE * 3);
+    if (win === null) renderPixels(level, [], 0, 0, 0, colX, rowY, this.encoding, rgb);
+    else {
+      const [c0, r0, c1, r1] = win;
+      const values = await this.file.window(c0, r0, c1, r1, this.levelFor(z));
+      renderPixels(level, values, c0, r0, c1 - c0, colX, rowY, this.encoding, rgb);
+    }
+    const png = encodePng(rgb, TILE_SIZE, TILE_SIZE, 3);
+    this.cache.set(key, png);
+    return png;
   }
 }
 

@@ -46,8 +46,26 @@ function xmlUnescape(s: string): string {
     .replace(/&lt;/g, '<').replace(/&gt;/g, '>').replace(/&quot;/g, '"').replace(/&apos;/g, "'").replace(/&amp;/g, '&');
 }
 
-/** GDAL's metadata XML (as GDAL writes it in tag 42112): dataset items and the band's description and unit type. */
+/**
+ * GDAL's metadata XML (as GDAL writes it in tag 42112): dataset items, the band's description and unit type, and
+ * its smallest and largest value (GDAL's STATISTICS_MINIMUM/MAXIMUM items), which let a map-tile server choose its
+ * value encoding without reading the whole grid.
+ */
 function gdalMetadataXml(grid: Grid<Float32Array | Float64Array>, opts: GeoTiffWriteOptions): string {
+  let min = Infinity, max = -Infinity;
+  const v = grid.values;
+  for (let i = 0; i < v.length; i++) {
+    const x = v[i];
+    if (x - x !== 0) continue; // NaN and ±∞ are written as NoData
+    if (x < min) min = x;
+    if (x > max) max = x;
+  }
+  // Float32 values written as the shortest text that reads back to the same float.
+  const f32 = (x: number) => String(Math.fround(x));
+  const stats = min <= max ? [
+    `  <Item name="STATISTICS_MAXIMUM" sample="0">${f32(max)}</Item>`,
+    `  <Item name="STATISTICS_MINIMUM" sample="0">${f32(min)}</Item>`,
+  ] : [];
   const items: string[] = [
     `  <Item name="CAUTION">${xmlText(CAUTION)}</Item>`,
     `  <Item name="TITLE">${xmlText(opts.description ?? '')}</Item>`,
@@ -55,6 +73,7 @@ function gdalMetadataXml(grid: Grid<Float32Array | Float64Array>, opts: GeoTiffW
     `  <Item name="METADATA">${xmlText(JSON.stringify(opts.metadata ?? {}))}</Item>`,
     `  <Item name="DESCRIPTION" sample="0" role="description">${xmlText(opts.description ?? '')}</Item>`,
     `  <Item name="UNITTYPE" sample="0" role="unittype">${xmlText(grid.units)}</Item>`,
+    ...stats,
   ];
   return `<GDALMetadata>\n${items.join('\n')}\n</GDALMetadata>\n`;
 }
@@ -92,7 +111,7 @@ export interface GeoTiffRead {
   bands: number;
 }
 
-type Tiff = Awaited<ReturnType<typeof fromArrayBuffer>>;
+type Tiff = Awaited<ReturnType<typeof fromArrayBuffer>> | Awaited<ReturnType<typeof fromFile>>;
 type Image = Awaited<ReturnType<Tiff['getImage']>>;
 interface Dir { loadValue?: (k: string) => Promise<unknown>; hasTag?: (k: string) => boolean }
 
@@ -103,6 +122,8 @@ interface Header {
   caution: string | null;
   metadata: Record<string, unknown>;
   units: string;
+  /** The band's smallest and largest data value when the file records them (GDAL's STATISTICS_* items). */
+  statistics: { min: number; max: number } | null;
 }
 
 async function tagText(image: Image, tag: string): Promise<string> {
@@ -156,10 +177,12 @@ async function readHeader(image: Image, src: string): Promise<Header> {
     } catch { /* a foreign description */ }
     units ||= items.get('UNITTYPE#0') ?? '';
   }
+  const smin = Number(items.get('STATISTICS_MINIMUM#0') ?? NaN), smax = Number(items.get('STATISTICS_MAXIMUM#0') ?? NaN);
   return {
     spec: { width, height, west: origin[0], north: origin[1], dx: Math.abs(res[0]), dy: Math.abs(res[1]), crs: `EPSG:${code}` },
     bands: image.getSamplesPerPixel(),
     description, caution, metadata, units,
+    statistics: Number.isFinite(smin) && Number.isFinite(smax) && smin <= smax ? { min: smin, max: smax } : null,
   };
 }
 
@@ -210,27 +233,85 @@ export async function readGeoTiff(buffer: ArrayBuffer | Uint8Array, opts: { band
   return { grid: { ...h.spec, values, units: h.units }, description: h.description, caution: h.caution, metadata: h.metadata, bands: h.bands };
 }
 
+/** One resolution of a file: the full grid (level 0) or an internal overview, with its georeferencing. */
+export interface GeoTiffLevel {
+  width: number;
+  height: number;
+  west: number;
+  north: number;
+  /** Cell size in CRS units (an overview's covers the full extent: full width × dx / overview width). */
+  dx: number;
+  dy: number;
+}
+
 /**
- * A GeoTIFF file read window by window (only the tiles or strips a window touches are read from disk): for grids too
- * large to hold, such as continental runs served as map tiles.
+ * A GeoTIFF file read window by window (only the tiles or strips a window touches are read from disk), at full
+ * resolution or at any of its internal overviews: for grids too large to hold, such as continental runs served as
+ * map tiles. `cellsRead` counts the cells decoded so far (windows' areas), for checks that a tile stays a small read.
  */
 export class GeoTiffFile {
-  private constructor(private readonly image: Image, readonly header: Header, private readonly band: number) {}
+  cellsRead = 0;
+  readonly levels: GeoTiffLevel[];
+
+  private constructor(private readonly tiff: Tiff, private readonly images: Image[], readonly header: Header, private readonly band: number) {
+    const { width, height, west, north, dx, dy } = header.spec;
+    this.levels = images.map((im) => {
+      const w = im.getWidth(), h = im.getHeight();
+      return { width: w, height: h, west, north, dx: (dx * width) / w, dy: (dy * height) / h };
+    });
+  }
 
   static async open(path: string, opts: { band?: number } = {}): Promise<GeoTiffFile> {
-    let image: Image;
+    const images: Image[] = [];
+    let tiff: Tiff;
     try {
-      image = await (await fromFile(path)).getImage(0);
+      tiff = await fromFile(path);
+      const n = await tiff.getImageCount();
+      for (let i = 0; i < n; i++) images.push(await tiff.getImage(i));
     } catch (e) {
       throw new InputError(`${path} is not a readable GeoTIFF`, [{ feature: path, problem: e instanceof Error ? e.message : String(e) }], 'bad_geotiff');
     }
-    const h = await readHeader(image, path);
+    const h = await readHeader(images[0], path);
     checkBand(opts.band ?? 0, h.bands, path);
-    return new GeoTiffFile(image, h, opts.band ?? 0);
+    // Overviews are the reduced-resolution images (NewSubfileType bit 0) of the same band layout, largest first.
+    const overviews = images.slice(1).filter((im) => {
+      const t = (im.fileDirectory as unknown as { NewSubfileType?: number; getValue?: (k: string) => unknown });
+      const v = typeof t.getValue === 'function' ? t.getValue('NewSubfileType') : t.NewSubfileType;
+      return typeof v === 'number' && (v & 1) === 1 && im.getSamplesPerPixel() === h.bands;
+    });
+    overviews.sort((a, b) => b.getWidth() - a.getWidth());
+    return new GeoTiffFile(tiff, [images[0], ...overviews], h, opts.band ?? 0);
   }
 
-  /** Cells [col0, col1) × [row0, row1), row-major, NaN = no data. */
-  async window(col0: number, row0: number, col1: number, row1: number): Promise<Float32Array> {
-    return readBand(this.image, this.band, [col0, row0, col1, row1]);
+  /** Closes the file (its descriptor). */
+  async close(): Promise<void> {
+    await this.tiff.close();
+  }
+
+  /** Cells [col0, col1) × [row0, row1) of `level` (0 = full resolution), row-major, NaN = no data. */
+  async window(col0: number, row0: number, col1: number, row1: number, level = 0): Promise<Float32Array> {
+    this.cellsRead += (col1 - col0) * (row1 - row0);
+    return readBand(this.images[level], this.band, [col0, row0, col1, row1]);
+  }
+
+  /**
+   * Smallest and largest data value at full resolution: from the file's statistics metadata when it has them (the
+   * project's writer records them), else read in bands of rows so the whole grid is never held.
+   */
+  async range(): Promise<{ min: number | null; max: number | null }> {
+    const m = this.header.statistics;
+    if (m !== null) return m;
+    const { width, height } = this.levels[0];
+    let min = Infinity, max = -Infinity;
+    const rows = Math.max(1, Math.floor(2 ** 21 / width));
+    for (let r = 0; r < height; r += rows) {
+      const v = await this.window(0, r, width, Math.min(height, r + rows));
+      for (let i = 0; i < v.length; i++) {
+        const x = v[i];
+        if (x < min) min = x;
+        if (x > max) max = x;
+      }
+    }
+    return min <= max ? { min, max } : { min: null, max: null };
   }
 }

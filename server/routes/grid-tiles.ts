@@ -1,17 +1,19 @@
 import { Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
-import type { Grid } from '../../shared/grid/grid.ts';
-import { gridStats } from '../../shared/grid/grid.ts';
 import { encodingForUnits, maplibreEncoding } from '../../shared/grid/terrain-rgb.ts';
-import { GridTiles } from '../terrain.ts';
+import { WindowTiles } from '../terrain.ts';
+import type { GeoTiffFile } from '../io/geotiff.ts';
 
 /** Zoom range of run-layer tiles: whole regions at 4, about 20 m pixels at 13. */
 const MIN_ZOOM = 4;
 const MAX_ZOOM = 13;
 
 export interface GridTileDeps {
-  /** The full-resolution lon/lat grid of one run layer, or null when the run or layer does not exist. */
-  loadLayerGrid(runId: string, layer: string): Promise<Grid<Float32Array> | null>;
+  /**
+   * The stored GeoTIFF (COG) of one run layer opened for window reads, or null when the run or layer does not exist.
+   * Tiles read only the cells they sample, so no layer is ever held whole.
+   */
+  openLayerFile(runId: string, layer: string): Promise<GeoTiffFile | null>;
   /** The operator's public base URL (no trailing slash); null keeps tile URLs relative to the page. */
   publicBaseUrl?: string | null;
 }
@@ -28,10 +30,11 @@ export interface GridTileDeps {
  */
 export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number } = {}): Hono {
   const app = new Hono();
-  const cache = new Map<string, GridTiles>();
+  const cache = new Map<string, { tiles: WindowTiles; file: GeoTiffFile }>();
   const maxLayers = opts.cacheLayers ?? 16;
+  const opening = new Map<string, Promise<GeoTiffFile | null>>();
 
-  async function tilesFor(runId: string, layer: string): Promise<{ tiles: GridTiles; units: string }> {
+  async function tilesFor(runId: string, layer: string): Promise<{ tiles: WindowTiles; units: string }> {
     // Names come from the URL: a strict alphabet keeps them out of any path or query.
     if (!/^[A-Za-z0-9_.-]{1,100}$/.test(runId) || !/^[A-Za-z0-9_.-]{1,100}$/.test(layer)) {
       throw new InputError('bad run or layer name', [{ field: 'path', problem: 'letters, digits, _ . - only' }], 'bad_request');
@@ -41,18 +44,32 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
     if (hit) {
       cache.delete(key);
       cache.set(key, hit);
-      return { tiles: hit, units: hit.units };
+      return { tiles: hit.tiles, units: hit.tiles.units };
     }
-    const grid = await deps.loadLayerGrid(runId, layer);
-    if (!grid) throw new InputError(`no raster layer "${layer}" in run "${runId}"`, [{ field: 'layer', problem: 'not found' }], 'not_found');
-    if (grid.crs !== 'EPSG:4326') {
-      throw new InputError(`layer "${layer}" is on a projected grid (${grid.crs}); map tiles need a lon/lat grid`, [{ field: 'layer', problem: 'download it as GeoTIFF instead' }], 'projected_layer');
+    // One open per layer even when its first tiles are asked for together.
+    let pending = opening.get(key);
+    if (!pending) {
+      pending = deps.openLayerFile(runId, layer).finally(() => opening.delete(key));
+      opening.set(key, pending);
     }
-    const stats = gridStats(grid.values);
-    const tiles = new GridTiles(grid, encodingForUnits(grid.units, stats.min ?? 0), { edge: 'nodata', minZoom: MIN_ZOOM, maxZoom: MAX_ZOOM, cacheSize: 256 });
-    cache.set(key, tiles);
-    if (cache.size > maxLayers) cache.delete(cache.keys().next().value as string);
-    return { tiles, units: grid.units };
+    const file = await pending;
+    const again = cache.get(key);
+    if (again) return { tiles: again.tiles, units: again.tiles.units };
+    if (!file) throw new InputError(`no raster layer "${layer}" in run "${runId}"`, [{ field: 'layer', problem: 'not found' }], 'not_found');
+    const crs = file.header.spec.crs;
+    if (crs !== 'EPSG:4326') {
+      await file.close();
+      throw new InputError(`layer "${layer}" is on a projected grid (${crs}); map tiles need a lon/lat grid`, [{ field: 'layer', problem: 'download it as GeoTIFF instead' }], 'projected_layer');
+    }
+    const { min } = await file.range();
+    const tiles = new WindowTiles(file, encodingForUnits(file.header.units, min ?? 0), { minZoom: MIN_ZOOM, maxZoom: MAX_ZOOM, cacheSize: 256 });
+    cache.set(key, { tiles, file });
+    if (cache.size > maxLayers) {
+      const oldest = cache.keys().next().value as string;
+      void cache.get(oldest)!.file.close().catch(() => undefined);
+      cache.delete(oldest);
+    }
+    return { tiles, units: tiles.units };
   }
 
   app.get('/runs/:id/tiles/:file', async (c) => {
@@ -80,7 +97,7 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
     const m = /^(\d+)\.png$/.exec(y);
     if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) throw new InputError('tiles are …/{z}/{x}/{y}.png with integers', [{ field: 'path', problem: `${z}/${x}/${y}` }], 'bad_tile');
     const { tiles } = await tilesFor(id, layer);
-    const png = tiles.tile(Number(z), Number(x), Number(m[1]));
+    const png = await tiles.tile(Number(z), Number(x), Number(m[1]));
     if (!png) throw new InputError(`no tile ${z}/${x}/${m[1]} in layer "${layer}"`, [{ field: 'tile', problem: `outside the layer or zoom ${MIN_ZOOM}–${MAX_ZOOM}` }], 'tile_not_found');
     return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'public, max-age=86400, immutable' });
   });

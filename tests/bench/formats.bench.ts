@@ -3,9 +3,17 @@
 //     kriging surface), tiles compressed on worker threads, beside GDAL's own COG driver on the same grid:
 //     `gdal_translate -of COG -co COMPRESS=DEFLATE -co PREDICTOR=YES` from an uncompressed raw copy (ENVI), so GDAL
 //     pays only a plain read. Ratio = GDAL's time / ours (≥ 0.5 is the target: at least half GDAL's speed).
+//  2. A continental run end to end: 100,000 invented sites (open ocean, seeded) → `subtherm interpolate --method
+//     kriging --size 4000x4000 --workers 2` with its sd grid, the automatic variogram with cross-validation, and
+//     both COGs written; run as its own process under `/usr/bin/time -v` for the peak resident memory, with the
+//     CLI's own stage times, CPU seconds and the load average (targets: ≤ 60 s, ≤ 1.5 GiB). Beside it, GDAL's
+//     nearest-neighbour-limited inverse distance (`gdal_grid -a invdistnn:power=2:max_points=16:radius=1`, 1° ≈ 100 km
+//     search) on the same sites, on a 500 × 500 grid scaled ×64 by cells, as a reference for a 16-neighbour grid
+//     pass (an IDW, not kriging).
+//     FORMATS_BENCH_SITES and FORMATS_BENCH_CONT_SIZE shrink it; FORMATS_BENCH_PARTS=cog or =continental picks one.
 import { mkdtempSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { spawnSync } from 'node:child_process';
-import { tmpdir } from 'node:os';
+import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { writeGeoTiffFile, writeGeoTiff } from '../../server/io/geotiff.ts';
 import { cogThreads } from '../../server/io/cog.ts';
@@ -14,8 +22,17 @@ import { prng } from '../helpers/prng.ts';
 const out = (s: string) => process.stdout.write(s + '\n');
 const dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'formats-bench-'));
 const size = Number(process.env.FORMATS_BENCH_SIZE ?? 4000);
+const parts = process.env.FORMATS_BENCH_PARTS ?? 'cog,continental';
+const load = () => loadavg().map((v) => v.toFixed(1)).join(' ');
 
 try {
+  if (parts.includes('cog')) await cogWrite();
+  if (parts.includes('continental')) continental();
+} finally {
+  rmSync(dir, { recursive: true, force: true });
+}
+
+async function cogWrite(): Promise<void> {
   const rnd = prng(7);
   const values = new Float32Array(size * size);
   for (let r = 0; r < size; r++) for (let c = 0; c < size; c++) values[r * size + c] = 65 + 20 * Math.sin(r / 300) * Math.cos(c / 230) + 0.5 * rnd();
@@ -57,6 +74,53 @@ try {
   out(`gdal_translate -of COG -co COMPRESS=DEFLATE -co PREDICTOR=YES, same grid: ${(gbest / 1000).toFixed(2)} s (best of 3; ${gcpu.toFixed(2)} s CPU), file ${(statSync(gdal).size / 2 ** 20).toFixed(1)} MB`);
   out(`CPU ratio on one thread (GDAL CPU / ours): ${(gcpu / ((cpu1.user + cpu1.system) / 1e6)).toFixed(2)}`);
   out(`COG write ratio (GDAL time / ours): ${(gbest / best).toFixed(2)}× GDAL's speed (target ≥ 0.5)`);
-} finally {
-  rmSync(dir, { recursive: true, force: true });
+}
+
+/** Seconds of a `/usr/bin/time -v` report's field. */
+function timeField(report: string, name: string): number {
+  const m = new RegExp(`${name.replace(/[()]/g, '\\$&')}: ([\\d.:]+)`).exec(report);
+  if (!m) return NaN;
+  const parts = m[1].split(':').map(Number);
+  return parts.reduce((a, v) => a * 60 + v, 0);
+}
+
+function continental(): void {
+  const nSites = Number(process.env.FORMATS_BENCH_SITES ?? 100_000);
+  const cells = Number(process.env.FORMATS_BENCH_CONT_SIZE ?? 4000);
+  // Invented sites over 36° × 30° of open ocean (a smooth regional field, a shorter wave and noise), seeded.
+  const rnd = prng(11);
+  const lines = ['id,longitude,latitude,heatFlowMWm2'];
+  for (let i = 0; i < nSites; i++) {
+    const lon = -150 + 36 * rnd(), lat = -48 + 30 * rnd();
+    const v = 65 + 20 * Math.sin(lon / 3) * Math.cos(lat / 2.3) + 8 * Math.sin(lon * 1.7 + lat) + 4 * (rnd() - 0.5);
+    lines.push(`s${i},${lon.toFixed(5)},${lat.toFixed(5)},${v.toFixed(2)}`);
+  }
+  const csv = join(dir, 'sites.csv');
+  writeFileSync(csv, lines.join('\n') + '\n');
+  const tif = join(dir, 'continental.tif');
+  const bin = new URL('../../bin/subtherm.mjs', import.meta.url).pathname;
+  const load0 = load();
+  const r = spawnSync('/usr/bin/time', ['-v', process.execPath, bin, 'interpolate', '--points', csv, '--method', 'kriging', '--size', `${cells}x${cells}`, '--workers', '2', '--out', tif, '--json'], { encoding: 'utf8', maxBuffer: 64 * 2 ** 20 });
+  if (r.status !== 0) throw new Error(`interpolate failed: ${r.stderr}`);
+  const body = JSON.parse(r.stdout) as { timingsMs: Record<string, number>; grid: { nx: number; ny: number; cellKm: number }; variogram: { model: string } };
+  const wall = timeField(r.stderr, 'Elapsed (wall clock) time (h:mm:ss or m:ss)');
+  const cpu = timeField(r.stderr, 'User time (seconds)') + timeField(r.stderr, 'System time (seconds)');
+  const rssGiB = timeField(r.stderr, 'Maximum resident set size (kbytes)') / 2 ** 20;
+  const t = body.timingsMs;
+  const stages = ['read', 'prepare', 'variogram', 'crossValidation', 'grid', 'write'].filter((k) => t[k] !== undefined).map((k) => `${k} ${(t[k] / 1000).toFixed(1)} s`).join(', ');
+  const sizes = `${(statSync(tif).size / 2 ** 20).toFixed(0)} + ${(statSync(tif.replace(/\.tif$/, '.sd.tif')).size / 2 ** 20).toFixed(0)} MB`;
+  out(`Continental kriging run, ${nSites.toLocaleString('en')} sites → ${body.grid.nx} × ${body.grid.ny} cells (${body.grid.cellKm.toFixed(2)} km) with sd, ${body.variogram.model} variogram (auto, cross-validated), two COGs (${sizes}):`);
+  out(`  wall ${wall.toFixed(1)} s (target ≤ 60), CPU ${cpu.toFixed(1)} s, peak resident ${rssGiB.toFixed(2)} GiB (target ≤ 1.5); load average ${load0} before, ${load()} after`);
+  out(`  stages: ${stages}`);
+  // Reference: GDAL's 16-neighbour inverse distance on 500 × 500 cells over the same box, scaled by cells.
+  const ref = Math.min(500, cells);
+  const vrt = join(dir, 'sites.vrt');
+  writeFileSync(vrt, `<OGRVRTDataSource><OGRVRTLayer name="sites"><SrcDataSource>${csv}</SrcDataSource><GeometryType>wkbPoint</GeometryType><LayerSRS>EPSG:4326</LayerSRS><GeometryField encoding="PointFromColumns" x="longitude" y="latitude" z="heatFlowMWm2"/></OGRVRTLayer></OGRVRTDataSource>`);
+  const g0 = performance.now();
+  const g = spawnSync('bash', ['-c', 'TIMEFORMAT="%U %S"; time gdal_grid -q -a invdistnn:power=2:max_points=16:radius=1 -txe -151.8 -112.2 -tye -49.5 -16.5 -outsize "$0" "$0" -ot Float32 -of GTiff -l sites "$1" "$2"', String(ref), vrt, join(dir, 'gdal-grid.tif')], { encoding: 'utf8' });
+  const gWall = (performance.now() - g0) / 1000;
+  if (g.status !== 0) { out(`  gdal_grid reference failed: ${g.stderr.trim()}`); return; }
+  const [gu, gs] = g.stderr.trim().split(/\s+/).slice(-2).map(Number);
+  const scale = (cells * cells) / (ref * ref);
+  out(`  reference: gdal_grid invdistnn (16 neighbours, one thread) ${ref} × ${ref}: ${gWall.toFixed(1)} s wall, ${(gu + gs).toFixed(1)} s CPU; ×${scale.toFixed(0)} by cells → ${(gWall * scale).toFixed(0)} s wall, ${((gu + gs) * scale).toFixed(0)} s CPU for ${cells} × ${cells} (ours, whole run with kriging sd: ${cpu.toFixed(0)} s CPU)`);
 }
