@@ -111,7 +111,7 @@ export interface GeoTiffRead {
   bands: number;
 }
 
-type Tiff = Awaited<ReturnType<typeof fromArrayBuffer>> | Awaited<ReturnType<typeof fromFile>>;
+type Tiff = Awaited<ReturnType<typeof fromArrayBuffer>>;
 type Image = Awaited<ReturnType<Tiff['getImage']>>;
 interface Dir { loadValue?: (k: string) => Promise<unknown>; hasTag?: (k: string) => boolean }
 
