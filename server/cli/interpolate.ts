@@ -1,17 +1,15 @@
-import { readFile } from 'node:fs/promises';
-import { createHash } from 'node:crypto';
 import { InputError } from '../../shared/errors.ts';
 import { VERSION, TOOL_NAME } from '../../shared/version.ts';
 import { CAUTION } from '../../shared/caution.ts';
 import { parseFeatureCollection } from '../../shared/schema/features.ts';
-import { pointsFromGeoJson, pointsFromCsv, parseVariogramOption, parseAnisotropyOption, targetsFromGeoJson } from '../../shared/schema/interp.ts';
-import { loadCrsDefinition, converter, WGS84_DEF } from '../../shared/interp/projection.ts';
+import { parseVariogramOption, parseAnisotropyOption, targetsFromGeoJson } from '../../shared/schema/interp.ts';
+import { loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
 import { heatFlowSurface } from '../../shared/products/heat-flow-surface.ts';
 import { prepareInterpolation, predictAtPoints, gridSummary, type InterpolationOptions, type PointData, type InterpolationResult } from '../../shared/interp/interpolate.ts';
 import { blockEstimates, type BlockPolygon } from '../../shared/interp/blockKriging.ts';
 import { writeGeoTiffFile } from '../io/geotiff.ts';
-import { formatFromPath, inFileLayer, readVectorFile } from '../io/vector-input.ts';
-import { parseVerbArgs, numberOption, numberListOption } from './args.ts';
+import { parseVerbArgs, numberOption } from './args.ts';
+import { bboxOption, neighborsOption, parseJson, readPointsFile, readText, sha256, sizeOption } from './point-input.ts';
 
 const OPTIONS = {
   points: { type: 'string' },
@@ -84,24 +82,6 @@ const HELP = `subtherm interpolate: grid a point field by IDW or ordinary krigin
   --json                     print one JSON object
 `;
 
-async function readText(path: string, what: string): Promise<string> {
-  try {
-    return await readFile(path, 'utf8');
-  } catch (e) {
-    throw new InputError(`cannot read ${what} file ${path}`, [{ field: what, problem: (e as NodeJS.ErrnoException).code ?? String(e) }], 'file_not_found');
-  }
-}
-
-function parseJson(text: string, path: string): unknown {
-  try {
-    return JSON.parse(text);
-  } catch (e) {
-    throw new InputError(`${path} is not valid JSON`, [{ problem: e instanceof Error ? e.message : String(e) }], 'bad_json');
-  }
-}
-
-const sha256 = (s: string) => createHash('sha256').update(s).digest('hex');
-
 export async function interpolate(argv: string[]): Promise<number> {
   const t0 = performance.now();
   const { values: a } = parseVerbArgs('interpolate', argv, OPTIONS);
@@ -122,36 +102,12 @@ export async function interpolate(argv: string[]): Promise<number> {
   if (errorField !== undefined && a.method !== 'kriging') throw new InputError('--error-field needs --method kriging', [{ field: 'error-field', problem: 'measurement errors enter the kriging system' }], 'bad_option');
 
   // Inputs.
-  const binary = /\.(gpkg|zip|shz)$/i.test(a.points);
-  const pointsBytes = binary
-    ? await readFile(a.points).catch((e: NodeJS.ErrnoException) => {
-      throw new InputError(`cannot read points file ${a.points}`, [{ field: 'points', problem: e.code ?? String(e) }], 'file_not_found');
-    })
-    : null;
-  const pointsText = binary ? '' : await readText(a.points, 'points');
-  const hashes: Record<string, string> = { points: pointsBytes ? createHash('sha256').update(pointsBytes).digest('hex') : sha256(pointsText) };
   const crs = a.crs ?? 'EPSG:4326';
   const crsDef = await loadCrsDefinition(crs);
-  let points: PointData;
-  if (/\.csv$/i.test(a.points)) {
-    const pcrs = a['points-crs'] ?? a.crs;
-    let toLonLat: ((x: number, y: number) => [number, number]) | undefined;
-    if (pcrs !== undefined) {
-      const def = await loadCrsDefinition(pcrs);
-      const c = converter(def, WGS84_DEF);
-      toLonLat = (x, y) => c.forward([x, y]);
-    }
-    const r = pointsFromCsv(pointsText, field, { skipMissing: a['skip-missing'], source: a.points, toLonLat, errorField });
-    points = r.points; warnings.push(...r.warnings);
-  } else if (pointsBytes) {
-    const v = await readVectorFile(pointsBytes, { format: formatFromPath(a.points) as 'gpkg' | 'shapefile', source: a.points, layer: a.layer });
-    const r = inFileLayer(a.points, v.layer, () => pointsFromGeoJson(v.collection, field, { skipMissing: a['skip-missing'], source: a.points }));
-    points = r.points; warnings.push(...r.warnings);
-    if (v.sourceCrs !== 'EPSG:4326') warnings.push(`${a.points}${v.layer ? `, layer "${v.layer}"` : ''}: reprojected from ${v.sourceCrs} to WGS 84 longitude/latitude`);
-  } else {
-    const r = pointsFromGeoJson(parseJson(pointsText, a.points), field, { skipMissing: a['skip-missing'], source: a.points, errorField });
-    points = r.points; warnings.push(...r.warnings);
-  }
+  const read = await readPointsFile(a.points, field, { pointsCrs: a['points-crs'] ?? a.crs, skipMissing: a['skip-missing'], errorField, layer: a.layer });
+  const points: PointData = read.points;
+  warnings.push(...read.warnings);
+  const hashes: Record<string, string> = { points: read.sha256 };
   let faults: number[][][] | null = null;
   if (a.faults !== undefined) {
     const txt = await readText(a.faults, 'faults');
@@ -186,26 +142,9 @@ export async function interpolate(argv: string[]): Promise<number> {
     blocks = blockPolygonsFromGeoJson(parseJson(txt, a.block), a.block);
   }
   // Options.
-  let size: [number, number] | undefined;
-  if (a.size !== undefined) {
-    const m = /^(\d+)x(\d+)$/i.exec(a.size.trim());
-    if (!m) throw new InputError(`--size must be NXxNY, got "${a.size}"`, [{ field: 'size', problem: 'expected e.g. 400x300' }], 'bad_option');
-    size = [Number(m[1]), Number(m[2])];
-  }
-  let bbox: [number, number, number, number] | undefined;
-  if (a.bbox !== undefined) {
-    const b = numberListOption('bbox', a.bbox, []);
-    if (b.length !== 4) throw new InputError(`--bbox needs 4 numbers W,S,E,N, got ${b.length}`, [{ field: 'bbox', problem: 'expected west,south,east,north in degrees' }], 'bad_option');
-    bbox = b as [number, number, number, number];
-  }
-  let neighbors: number | 'all' | undefined;
-  if (a.neighbors !== undefined) {
-    if (a.neighbors === 'all') neighbors = 'all';
-    else {
-      neighbors = numberOption('neighbors', a.neighbors);
-      if (!(Number.isInteger(neighbors) && neighbors >= 1)) throw new InputError(`--neighbors must be a positive integer or "all", got ${a.neighbors}`, [{ field: 'neighbors', problem: 'expected ≥ 1' }], 'bad_option');
-    }
-  }
+  const size = sizeOption(a.size);
+  const bbox = bboxOption(a.bbox);
+  const neighbors = neighborsOption(a.neighbors);
   let qualityWeights: Record<string, number> | undefined;
   if (a['quality-weights'] !== undefined) {
     qualityWeights = {};

@@ -1,15 +1,15 @@
-import { readFile, writeFile, rename, mkdir, unlink } from 'node:fs/promises';
+import { writeFile, rename, mkdir, unlink } from 'node:fs/promises';
 import { join } from 'node:path';
-import { createHash } from 'node:crypto';
 import { InputError } from '../../shared/errors.ts';
 import { VERSION, TOOL_NAME } from '../../shared/version.ts';
 import { CAUTION } from '../../shared/caution.ts';
-import { pointsFromGeoJson, pointsFromCsv, parseVariogramOption, parseAnisotropyOption, targetsFromGeoJson } from '../../shared/schema/interp.ts';
-import { loadCrsDefinition, converter, WGS84_DEF } from '../../shared/interp/projection.ts';
+import { parseVariogramOption, parseAnisotropyOption, targetsFromGeoJson } from '../../shared/schema/interp.ts';
+import { loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
 import type { PointData } from '../../shared/interp/interpolate.ts';
 import { simulateAtPoints, simulateGrid, summarizeTargets, type SimulationOptions, type SimulationResult } from '../../shared/interp/simulateField.ts';
 import { writeGeoTiff } from '../io/geotiff.ts';
-import { parseVerbArgs, numberOption, numberListOption } from './args.ts';
+import { parseVerbArgs, numberOption } from './args.ts';
+import { bboxOption, neighborsOption, optionalNumber, parseJson, readPointsFile, readText, sizeOption } from './point-input.ts';
 
 const OPTIONS = {
   points: { type: 'string' },
@@ -59,22 +59,6 @@ const HELP = `subtherm simulate: conditional simulation of a point field (realiz
   --json                     print one JSON object
 `;
 
-async function readText(path: string, what: string): Promise<string> {
-  try {
-    return await readFile(path, 'utf8');
-  } catch (e) {
-    throw new InputError(`cannot read ${what} file ${path}`, [{ field: what, problem: (e as NodeJS.ErrnoException).code ?? String(e) }], 'file_not_found');
-  }
-}
-
-function parseJson(text: string, path: string): unknown {
-  try {
-    return JSON.parse(text);
-  } catch (e) {
-    throw new InputError(`${path} is not valid JSON`, [{ problem: e instanceof Error ? e.message : String(e) }], 'bad_json');
-  }
-}
-
 const round = (v: number, d = 6) => (Number.isFinite(v) ? Number(v.toPrecision(d)) : null);
 
 export async function simulate(argv: string[]): Promise<number> {
@@ -92,31 +76,11 @@ export async function simulate(argv: string[]): Promise<number> {
   const field = a.field;
   const warnings: string[] = [];
 
-  const pointsText = await readText(a.points, 'points');
-  const inputSha256: Record<string, string> = { points: createHash('sha256').update(pointsText).digest('hex') };
-  let points: PointData;
-  if (/\.csv$/i.test(a.points)) {
-    let toLonLat: ((x: number, y: number) => [number, number]) | undefined;
-    const pcrs = a['points-crs'];
-    if (pcrs !== undefined) {
-      const c = converter(await loadCrsDefinition(pcrs), WGS84_DEF);
-      toLonLat = (x, y) => c.forward([x, y]);
-    }
-    const r = pointsFromCsv(pointsText, field, { skipMissing: a['skip-missing'], source: a.points, toLonLat, errorField: a['error-field'] });
-    points = r.points; warnings.push(...r.warnings);
-  } else {
-    const r = pointsFromGeoJson(parseJson(pointsText, a.points), field, { skipMissing: a['skip-missing'], source: a.points, errorField: a['error-field'] });
-    points = r.points; warnings.push(...r.warnings);
-  }
-
-  let neighbors: number | 'all' | undefined;
-  if (a.neighbors !== undefined) {
-    if (a.neighbors === 'all') neighbors = 'all';
-    else {
-      neighbors = numberOption('neighbors', a.neighbors);
-      if (!(Number.isInteger(neighbors) && neighbors >= 1)) throw new InputError(`--neighbors must be a positive integer or "all", got ${a.neighbors}`, [{ field: 'neighbors', problem: 'expected ≥ 1' }], 'bad_option');
-    }
-  }
+  const read = await readPointsFile(a.points, field, { pointsCrs: a['points-crs'], skipMissing: a['skip-missing'], errorField: a['error-field'] });
+  const points: PointData = read.points;
+  warnings.push(...read.warnings);
+  const inputSha256: Record<string, string> = { points: read.sha256 };
+  const neighbors = neighborsOption(a.neighbors);
   const units = field === 'heatFlowMWm2' ? 'mW/m²' : '';
   const opts: SimulationOptions = {
     realizations: numberOption('realizations', a.realizations),
@@ -126,9 +90,9 @@ export async function simulate(argv: string[]): Promise<number> {
     transform: a.transform,
     measurementError: a['error-field'] !== undefined,
     neighbors,
-    lagKm: a['lag-km'] === undefined ? undefined : numberOption('lag-km', a['lag-km']),
-    maxLagKm: a['max-lag-km'] === undefined ? undefined : numberOption('max-lag-km', a['max-lag-km']),
-    maxValues: a['max-values'] === undefined ? undefined : numberOption('max-values', a['max-values']),
+    lagKm: optionalNumber('lag-km', a['lag-km']),
+    maxLagKm: optionalNumber('max-lag-km', a['max-lag-km']),
+    maxValues: optionalNumber('max-values', a['max-values']),
     units,
   };
   const readMs = performance.now() - t0;
@@ -168,18 +132,8 @@ export async function simulate(argv: string[]): Promise<number> {
   }
 
   // Grid.
-  let size: [number, number] | undefined;
-  if (a.size !== undefined) {
-    const m = /^(\d+)x(\d+)$/i.exec(a.size.trim());
-    if (!m) throw new InputError(`--size must be NXxNY, got "${a.size}"`, [{ field: 'size', problem: 'expected e.g. 400x300' }], 'bad_option');
-    size = [Number(m[1]), Number(m[2])];
-  }
-  let bbox: [number, number, number, number] | undefined;
-  if (a.bbox !== undefined) {
-    const b = numberListOption('bbox', a.bbox, []);
-    if (b.length !== 4) throw new InputError(`--bbox needs 4 numbers W,S,E,N, got ${b.length}`, [{ field: 'bbox', problem: 'expected west,south,east,north in degrees' }], 'bad_option');
-    bbox = b as [number, number, number, number];
-  }
+  const size = sizeOption(a.size);
+  const bbox = bboxOption(a.bbox);
   const crs = a.crs ?? 'EPSG:4326';
   const crsDef = await loadCrsDefinition(crs);
   opts.grid = { bbox, cellKm: a['cell-km'] === undefined ? undefined : numberOption('cell-km', a['cell-km']), size, crs: crsDef === WGS84_DEF ? 'EPSG:4326' : crs, crsDef };
