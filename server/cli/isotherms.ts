@@ -200,14 +200,17 @@ export async function isotherms(argv: string[]): Promise<number> {
     process.stdout.write(`${CAUTION}\n\n${heatFlow.width} × ${heatFlow.height} cells (${heatFlow.crs}); searches to ${products.maxDepthKm} km\n`);
     process.stdout.write(`${'product'.padEnd(24)} ${'units'.padEnd(6)} ${'min'.padStart(9)} ${'median'.padStart(9)} ${'max'.padStart(9)} ${'no data'.padStart(9)}\n`);
     for (const l of products.layers) process.stdout.write(`${l.name.padEnd(24)} ${l.units.padEnd(6)} ${f(l.stats.min).padStart(9)} ${f(l.stats.median).padStart(9)} ${f(l.stats.max).padStart(9)} ${String(l.stats.noData).padStart(9)}\n`);
-    process.stdout.write(`\ninconsistent cells: ${products.counts.inconsistent}\n`);
+    process.stdout.write(`\ninconsistent cells: ${products.counts.inconsistent}; cells reaching the melt onset: ${products.counts.meltOnset}\n`);
     for (const w of summary.warnings) process.stdout.write(`warning: ${w}\n`);
     process.stdout.write(`\nfiles:\n${summary.files.map((p) => `  ${p}`).join('\n')}\n`);
   }
   // Cells inconsistent with the model are a finding about the results, not bad input: every file is written, the
   // warning says where to look, and the verb succeeds (exit 0).
   if (products.counts.inconsistent > 0) {
-    process.stderr.write(`warning: ${products.counts.inconsistent} cell(s) are flagged (inconsistent with the heat flow, or past the melt onset); see ${join(outDir, 'inconsistent.tif')}\n`);
+    process.stderr.write(`warning: ${products.counts.inconsistent} cell(s) are inconsistent with the heat flow; see ${join(outDir, 'inconsistent.tif')}\n`);
+  }
+  if (products.counts.meltOnset > 0) {
+    process.stderr.write(`warning: ${products.counts.meltOnset} cell(s) reach the melt onset above ${products.maxDepthKm} km (no temperatures below it); see ${join(outDir, 'melt-onset.tif')}\n`);
   }
   return 0;
 }

@@ -12,9 +12,10 @@
  *
  * Flag values (`inconsistent`): 0 consistent; otherwise the engine's status bits — 1 the heat flow reaches 0
  * inside the stack (the surface heat flow is too low for the model's heat production), 2 k(T) = k0/(1 + bT) is
- * undefined (1 + bT ≤ 0), 4 a surface heat flow ≤ 0, 8 the melt onset (the fluid-absent/dry solidus of the rock
- * there, shared/thermal/limits.ts) lies above the maximum depth; NaN where the heat flow is no data. Below the depth
- * where the column ends the engine gives no temperature, so those cells' deeper products are NoData, not guesses.
+ * undefined (1 + bT ≤ 0), 4 a surface heat flow ≤ 0; NaN where the heat flow is no data. The melt onset (the
+ * fluid-absent/dry solidus of the rock there, shared/thermal/limits.ts) is a physical limit of the conductive
+ * column, not a contradiction: it is not flagged here but given by the melt-onset grid. Below the depth where the
+ * column ends the engine gives no temperature, so those cells' deeper products are NoData, not guesses.
  * In mantle layers below the lithosphere base temperatures follow the mantle adiabat (limits.ts).
  */
 import type { Grid, GridSpec } from '../grid/grid.ts';
@@ -131,7 +132,8 @@ export function computeThermalGridRows(plan: ThermalGridPlan, r0: number, r1: nu
     { zones, start, end },
   );
   const flag = out.inconsistent, status = out.status;
-  for (let c = start; c < end; c++) flag[c] = q[c] === q[c] ? status[c] : NaN;
+  // The engine's melt-onset bit (8) is left out: the melt-onset grid carries it.
+  for (let c = start; c < end; c++) flag[c] = q[c] === q[c] ? status[c] & 7 : NaN;
   if (withFacies) {
     const t = out.faciesTemperatureC!, fac = out.facies!, apx = out.faciesApproximate!;
     const a = { approximate: false };
@@ -151,8 +153,12 @@ export function computeThermalGrids(spec: ThermalGridSpec): ThermalGridBuffers {
   return out;
 }
 
-/** Counts of a finished flag grid: inconsistent cells by cause, and no-data cells. */
-export function inconsistencyCounts(flag: Float32Array): { inconsistent: number; heatFlowExhausted: number; conductivityUndefined: number; nonPositiveHeatFlow: number; meltOnset: number; noData: number } {
+/**
+ * Counts of a finished flag grid: inconsistent cells (contradictions between model and heat flow) by cause and
+ * no-data cells; `meltOnset` counts the cells of the melt-onset grid (when given) whose melt onset lies above the
+ * maximum depth, apart from the inconsistent ones.
+ */
+export function inconsistencyCounts(flag: Float32Array, meltOnsetKm: Float32Array | null = null): { inconsistent: number; heatFlowExhausted: number; conductivityUndefined: number; nonPositiveHeatFlow: number; meltOnset: number; noData: number } {
   let inconsistent = 0, ex = 0, ku = 0, np = 0, mo = 0, nd = 0;
   for (let i = 0; i < flag.length; i++) {
     const v = flag[i];
@@ -162,8 +168,8 @@ export function inconsistencyCounts(flag: Float32Array): { inconsistent: number;
     if (v & 1) ex++;
     if (v & 2) ku++;
     if (v & 4) np++;
-    if (v & 8) mo++;
   }
+  if (meltOnsetKm !== null) for (let i = 0; i < meltOnsetKm.length; i++) if (Number.isFinite(meltOnsetKm[i])) mo++;
   return { inconsistent, heatFlowExhausted: ex, conductivityUndefined: ku, nonPositiveHeatFlow: np, meltOnset: mo, noData: nd };
 }
 

@@ -122,7 +122,6 @@ const INCONSISTENT_LEGEND: Legend = {
     { value: 1, label: 'heat flow reaches 0 in the model (surface heat flow too low for its heat production)', color: '#b3342b' },
     { value: 2, label: 'conductivity k(T) undefined (1 + bT ≤ 0)', color: '#6b3fa0' },
     { value: 4, label: 'surface heat flow ≤ 0', color: '#222222' },
-    { value: 8, label: 'melt onset above the maximum depth (no temperatures below it)', color: '#d9822b' },
   ],
 };
 
@@ -276,7 +275,7 @@ function limitLayers(c: LayerContext, warnings: string[]): void {
   if (out.meltOnsetKm !== null) {
     c.add({ name: MELT_ONSET, title: 'Melt onset (no temperatures below)', units: 'km', grid: grid(out.meltOnsetKm, 'km'), legend: sharedRampLegend(DEPTH, 'km', [out.meltOnsetKm]), ramp: DEPTH, method: `shallowest depth where the geotherm (the mantle adiabat below the lithosphere base) reaches the fluid-absent or dry solidus of the layer's rock (biotite dehydration melting, Le Breton & Thompson 1988, in sediment and felsic crust; dry basalt in mafic crust; dry peridotite, Hirschmann 2000, in mantle); the conductive column is not valid below it and the deeper grids have NoData there; NoData where not reached above ${maxDepthKm} km; ${method}` });
   }
-  c.add({ name: INCONSISTENT, title: 'Cells where the model is inconsistent with the heat flow or melts', units: 'flag', grid: grid(out.inconsistent, 'flag'), legend: INCONSISTENT_LEGEND, ramp: null, method: `flag: 0 consistent, 1 heat flow reaches 0 inside the model, 2 k(T) undefined, 4 heat flow ≤ 0, 8 melt onset above ${maxDepthKm} km; ${method}` });
+  c.add({ name: INCONSISTENT, title: 'Cells where the model is inconsistent with the heat flow', units: 'flag', grid: grid(out.inconsistent, 'flag'), legend: INCONSISTENT_LEGEND, ramp: null, method: `flag: 0 consistent, 1 heat flow reaches 0 inside the model, 2 k(T) undefined, 4 heat flow ≤ 0 (melt onset is not a contradiction: see the ${MELT_ONSET} grid); ${method}` });
 }
 
 /**
@@ -309,7 +308,7 @@ export async function computeThermalProducts(
     await tick('thermal', r1 / H, `thermal grids: rows ${r1} of ${H}`);
   }
   timingsMs.thermal = now() - t1;
-  const counts = inconsistencyCounts(out.inconsistent);
+  const counts = inconsistencyCounts(out.inconsistent, out.meltOnsetKm);
   warnings.push(...inconsistencyWarnings(counts, W * H));
 
   // Monte Carlo percentiles (needed for the shared depth legends, so before the depth layers are assembled).

@@ -5,7 +5,7 @@ import { rasterizeZones, cellsInsideRings } from '../../shared/grid/polygon-cell
 import { classifyFacies } from '../../shared/petrology/index.ts';
 import {
   basalHeatFlow, columnLimits, compileModel, limitedIsothermDepth, limitedTemperature, lithostaticPressureMPa, nominalModel, solveModelColumn,
-  COLUMN_MELT_ONSET, type CompiledModel,
+  type CompiledModel,
 } from '../../shared/thermal/index.ts';
 import { parseModelText } from '../../shared/products/model-input.ts';
 import { applyLayerOverride, overrideFromProperties } from '../../shared/products/overrides.ts';
@@ -137,7 +137,8 @@ describe('thermal grids equal the single-column engine cell by cell', () => {
       const t12 = limitedTemperature(cm, st, lim, 12);
       if (Number.isNaN(t12)) expect(out.facies![i]).toBeNaN();
       else expect(faciesNameOfCode(out.facies![i])).toBe(classifyFacies(t12, lithostaticPressureMPa(cm, 12) / 100).facies);
-      expect(out.inconsistent[i]).toBe(st.status | (lim.endReason === 'melt-onset' ? COLUMN_MELT_ONSET : 0));
+      expect(out.inconsistent[i]).toBe(st.status & 7); // contradictions only: melt onset is the melt-onset grid's
+      expect(Number.isFinite(out.meltOnsetKm![i])).toBe(lim.endReason === 'melt-onset');
       checked++;
     }
     expect(checked).toBeGreaterThan(100);
@@ -151,9 +152,10 @@ describe('thermal grids equal the single-column engine cell by cell', () => {
     expect(out.inconsistent[40]).toBe(1);
     expect(out.baseHeatFlowMWm2[40]).toBeLessThan(0);
     expect(out.isothermDepthKm[2][40]).toBeNaN(); // 500 °C lies below the depth where the heat flow runs out
-    const c = inconsistencyCounts(out.inconsistent);
+    const c = inconsistencyCounts(out.inconsistent, out.meltOnsetKm);
     expect(c.heatFlowExhausted).toBe(1);
-    expect(c.inconsistent).toBe(1 + c.meltOnset); // the rest of the flagged cells melt (flag 8)
+    expect(c.inconsistent).toBe(1); // melt onset is not a contradiction: counted apart
+    expect(c.meltOnset).toBe(Array.from(out.meltOnsetKm!).filter(Number.isFinite).length);
     expect(c.noData).toBe(1);
   });
 
