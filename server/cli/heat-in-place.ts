@@ -27,13 +27,20 @@ import {
 import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
 import { readGeoTiff } from '../io/geotiff.ts';
 import { numberOption, parseVerbArgs } from './args.ts';
+import { SIMULATION_HELP, SIMULATION_OPTIONS, gridOptionsFromArgs, readSimulationPoints, simulationOptionsFromArgs, type SimulationArgs } from './simulation-input.ts';
+import { simulateGrid, type SimulationOptions } from '../../shared/interp/simulateField.ts';
+import { interpolateGrid } from '../../shared/interp/interpolate.ts';
+import { MAX_SIMULATED_VALUES, SIMULATION_STREAM_OFFSET } from '../runs/heat-flow-simulation.ts';
 import { gridGeometry, outlineInGrid, resultHtml } from '../io/resource-output.ts';
 
-const HELP = `subtherm heat-in-place --heat-flow G.tif --model M.json [options] [--json]
+const HELP = `subtherm heat-in-place (--heat-flow G.tif | --points P.geojson --realizations N) --model M.json [options] [--json]
 
 Volumetric heat in place and electric power (screening estimate).
-  --heat-flow FILE          surface heat-flow GeoTIFF, mW/m² (required)
-  --heat-flow-sd FILE       its standard deviation GeoTIFF (e.g. the kriging sd), mW/m²
+  --heat-flow FILE          surface heat-flow GeoTIFF, mW/m²
+  --heat-flow-sd FILE       its standard deviation GeoTIFF (e.g. the kriging sd), mW/m² (deprecated: use --points)
+  --points FILE             heat-flow sites instead of --heat-flow: N conditional simulations of heat flow on the grid
+                            below; the totals' P10/P50/P90 come from the per-realization sums, nominal from kriging
+`+SIMULATION_HELP.split('\n').filter((l) => !/--points P|--field/.test(l)).join('\n')+`
   --model FILE              thermal model JSON (required; distributions allowed)
   --polygon FILE            GeoJSON Polygon/MultiPolygon (or Feature/FeatureCollection) to total over;
                             a cell counts when its centre is inside
@@ -51,7 +58,7 @@ Volumetric heat in place and electric power (screening estimate).
       (the five options above take a number or a distribution as JSON, e.g. '{"dist":"triangular","min":0.05,"mode":0.1,"max":0.2}')
   --realizations N          Monte Carlo realizations (default 0: deterministic only)
   --seed S                  seed (integer, default 1)
-  --correlation full|independent   heat-flow errors fully correlated (default) or independent per cell
+  --correlation full|independent   (deprecated) with --heat-flow-sd: errors fully correlated (default) or per cell
   --out-csv FILE            write the totals as CSV
   --out-html FILE           write the printable HTML report
   --json                    print one JSON object
@@ -120,13 +127,17 @@ export async function heatInPlace(argv: string[]): Promise<number> {
     correlation: { type: 'string' },
     'out-csv': { type: 'string' },
     'out-html': { type: 'string' },
+    ...SIMULATION_OPTIONS,
   });
   if (v.help) {
     process.stdout.write(HELP);
     return 0;
   }
   const str = (k: string) => v[k as keyof typeof v] as string | undefined;
-  if (str('heat-flow') === undefined) throw bad('heat-flow', 'missing: give --heat-flow G.tif');
+  const fromPoints = str('points') !== undefined;
+  if (fromPoints && str('heat-flow') !== undefined) throw bad('points', 'give --points (simulate heat flow from the sites) or --heat-flow G.tif, not both');
+  if (fromPoints && str('heat-flow-sd') !== undefined) throw bad('heat-flow-sd', 'does not go with --points: the spread comes from the conditional simulations');
+  if (!fromPoints && str('heat-flow') === undefined) throw bad('heat-flow', 'missing: give --heat-flow G.tif, or --points P.geojson to simulate heat flow');
   if (str('model') === undefined) throw bad('model', 'missing: give --model M.json');
   const num = (k: string) => (str(k) === undefined ? undefined : numberOption(k, str(k)));
   const realizations = num('realizations');
@@ -162,12 +173,16 @@ export async function heatInPlace(argv: string[]): Promise<number> {
     throw e;
   }
 
-  const hf = await readGrid(str('heat-flow')!, 'heat-flow');
+  const extraWarnings: string[] = [];
+  if (corr !== undefined) extraWarnings.push(`--correlation is deprecated: ${fromPoints ? 'with --points the realizations are conditional simulations and it is not used' : 'give --points P.geojson instead of --heat-flow/--heat-flow-sd to simulate spatially coherent heat-flow fields from the sites'}`);
+  let simulated: PointsHeatFlow | undefined;
+  if (fromPoints) simulated = await heatFlowFromPoints(v, options.realizations, options.seed);
+  const hf = simulated?.kriged ?? (await readGrid(str('heat-flow')!, 'heat-flow'));
   const sd = str('heat-flow-sd') !== undefined ? await readGrid(str('heat-flow-sd')!, 'heat-flow-sd') : undefined;
   const modelPath = str('model')!;
   const modelBytes = await readBytes(modelPath, 'model');
   const model: ThermalModelInput = parseThermalModel(parseJson(modelBytes.toString('utf8'), modelPath, 'model'), modelPath);
-  const hashes: Record<string, string> = { heatFlow: hf.hash, model: sha256(modelBytes) };
+  const hashes: Record<string, string> = { [fromPoints ? 'points' : 'heatFlow']: hf.hash, model: sha256(modelBytes) };
   if (sd) hashes.heatFlowSd = sd.hash;
 
   let polygon: AreaGeometry | undefined;
@@ -203,6 +218,7 @@ export async function heatInPlace(argv: string[]): Promise<number> {
   const res = assessHeatInPlace({
     heatFlow: hf.grid,
     heatFlowSd: sd?.grid,
+    heatFlowRealizations: simulated?.realizations,
     model,
     modelLabel: model.name ?? modelPath.split('/').pop(),
     polygon,
@@ -223,13 +239,58 @@ export async function heatInPlace(argv: string[]): Promise<number> {
     await writeFile(str('out-html')!, resultHtml(res, outlineInGrid(polygon, geo.toGrid)));
     files.html = str('out-html')!;
   }
-  const out = { ...res.report, files };
+  res.report.warnings.unshift(...extraWarnings, ...(simulated?.warnings ?? []));
+  const out = { ...res.report, ...(simulated === undefined ? {} : { simulation: simulated.report }), files };
   if (v.json) {
     process.stdout.write(JSON.stringify(out) + '\n');
     return 0;
   }
   process.stdout.write(renderText(res.report, files));
   return 0;
+}
+
+interface PointsHeatFlow {
+  /** The kriged heat-flow grid (the deterministic "nominal" run), on the simulation's grid. */
+  kriged: { grid: Grid<Float32Array>; hash: string };
+  realizations: { values: Float32Array; source: string };
+  report: Record<string, unknown>;
+  warnings: string[];
+}
+
+/**
+ * Heat flow from the sites: conditional simulations on the output grid (their per-realization sums give the
+ * totals' percentiles) and the kriged grid (the nominal run). The simulation draws from streams keyed by
+ * seed + 2³², the model and parameter draws from streams keyed by the seed (independent of each other).
+ */
+async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed: number): Promise<PointsHeatFlow> {
+  if (!(realizations >= 1)) throw bad('realizations', 'give --realizations N (≥ 1) with --points: the totals\' P10/P50/P90 come from N simulated heat-flow fields');
+  if (!(Number.isInteger(seed) && seed >= 0 && seed < SIMULATION_STREAM_OFFSET)) throw bad('seed', `with --points the seed must be an integer from 0 to ${SIMULATION_STREAM_OFFSET - 1}, got ${seed}`);
+  if ((v.field ?? 'heatFlowMWm2') !== 'heatFlowMWm2') throw bad('field', 'heat in place simulates heatFlowMWm2 (mW/m²)');
+  const { points, warnings, sha256 } = await readSimulationPoints(v);
+  const opts: SimulationOptions = { ...simulationOptionsFromArgs(v, realizations, seed + SIMULATION_STREAM_OFFSET, 'mW/m²'), grid: await gridOptionsFromArgs(v), sampler: 'auto', crossValidation: false, maxValues: MAX_SIMULATED_VALUES };
+  const sim = simulateGrid(points, opts);
+  // The nominal run: ordinary kriging of the heat flow itself on the same grid (a fixed variogram of normal scores
+  // does not apply to the values: that case fits its own).
+  const scoreVariogram = opts.transform !== 'none' && typeof opts.variogram === 'object';
+  const kr = interpolateGrid(points, {
+    method: 'kriging', variogram: scoreVariogram ? 'auto' : opts.variogram, anisotropy: opts.anisotropy, neighbors: opts.neighbors, lagKm: opts.lagKm, maxLagKm: opts.maxLagKm,
+    measurementError: opts.measurementError, grid: opts.grid, sd: false, crossValidation: false, units: 'mW/m²',
+  });
+  const g = kr.grid, s = sim.grid;
+  if (g.width !== s.width || g.height !== s.height || g.west !== s.west || g.north !== s.north || g.dx !== s.dx || g.dy !== s.dy) throw new RangeError('the kriged and simulated grids differ');
+  const vg = sim.variogram;
+  const space = sim.transform.kind === 'normal-score' ? 'normal scores' : 'mW/m²';
+  return {
+    kriged: { grid: g, hash: sha256 },
+    realizations: { values: sim.values, source: `${realizations} conditional simulations of the sites' heat flow (${sim.sampler.kind === 'cholesky' ? 'exact Cholesky' : 'circulant embedding'} conditioned by kriging, ${vg.model} variogram of the ${space}, range ${vg.rangeKm.toPrecision(4)} km; streams seed + ${SIMULATION_STREAM_OFFSET})` },
+    report: {
+      method: sim.sampler.method, transform: sim.transform, sampler: sim.sampler.kind, neighbors: sim.conditioning.neighbors,
+      variogram: { model: vg.model, nugget: vg.nugget, partialSill: vg.partialSill, rangeKm: vg.rangeKm, anisotropy: vg.anisotropy, source: vg.source, space },
+      nominal: 'the nominal run uses the kriged heat-flow grid (ordinary kriging of the values); p10/p50/p90 and mean come from the simulated fields',
+      cellKm: sim.cellKm,
+    },
+    warnings: [...warnings, ...sim.warnings.map((w) => `heat-flow simulation: ${w}`), ...kr.warnings.map((w) => `kriged grid: ${w}`)],
+  };
 }
 
 function f(v: number | null, digits = 4): string {
