@@ -137,15 +137,17 @@ async function heatInPlace(t: HeatInPlaceTask): Promise<HeatInPlaceOutput> {
   const notes: string[] = [];
   if (t.record !== null && options.realizations > 0) {
     const rr = await realizationsFromRecord(t.record, { realizations: options.realizations });
-    const given = (body.options as { seed?: number } | undefined)?.seed;
-    if (given !== undefined && given !== rr.seed) notes.push(`the seed ${given} was replaced by the run's seed ${rr.seed}: the realizations are the run's own`);
-    options.seed = rr.seed;
+    // Runs made before simulation keep the old per-cell error model with the request's seed.
     if (rr.heatFlowValues !== null) {
+      const given = (body.options as { seed?: number } | undefined)?.seed;
+      if (given !== undefined && given !== rr.seed) notes.push(`the seed ${given} was replaced by the run's seed ${rr.seed}: the realizations are the run's own`);
+      options.seed = rr.seed;
       heatFlowRealizations = { values: rr.heatFlowValues, source: rr.source };
       heatFlowSd = undefined;
       if ((body.options as { heatFlowErrorCorrelation?: unknown } | undefined)?.heatFlowErrorCorrelation !== undefined) notes.push(HEAT_FLOW_CORRELATION_DEPRECATED);
-    } else if (rr.heatFlowErrorCorrelation !== null) options.heatFlowErrorCorrelation = rr.heatFlowErrorCorrelation;
+    }
   }
+
   const res = assessHeatInPlace({
     heatFlow: t.heatFlow,
     heatFlowSd,
