@@ -1,4 +1,4 @@
-// The whole test suite: type check, then every unit, API and browser test under Vitest.
+// The whole test suite: type check, ESLint, then every unit, API and browser test under Vitest.
 // Ends with the plain line `N passed, N failed` that CI reads.
 import { spawnSync } from 'node:child_process';
 import { mkdirSync, readFileSync, existsSync } from 'node:fs';
@@ -20,6 +20,11 @@ let typeFailed = 0;
 if (extra.length === 0) {
   process.stdout.write('type check: tsc --noEmit\n');
   typeFailed = run(bin('tsc'), ['--noEmit', '-p', '.']) === 0 ? 0 : 1;
+}
+let lintFailed = 0;
+if (extra.length === 0) {
+  process.stdout.write('lint: eslint .\n');
+  lintFailed = run(bin('eslint'), ['.']) === 0 ? 0 : 1;
 }
 
 // Compile the command line once, so the tests that start `bin/subtherm.mjs` do not each build it.
@@ -44,5 +49,11 @@ if (typeFailed) {
 } else if (extra.length === 0) {
   passed += 1;
 }
+if (lintFailed) {
+  failed += 1;
+  process.stdout.write('lint failed (npm run lint lists the problems)\n');
+} else if (extra.length === 0) {
+  passed += 1;
+}
 process.stdout.write(`${passed} passed, ${failed} failed\n`);
-process.exit(code !== 0 || typeFailed || failed > 0 ? 1 : 0);
+process.exit(code !== 0 || typeFailed || lintFailed || failed > 0 ? 1 : 0);
