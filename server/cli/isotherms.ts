@@ -13,6 +13,9 @@ import { readGeoTiff, writeGeoTiffFile } from '../io/geotiff.ts';
 import { geojsonText, sha256Hex } from '../io/export.ts';
 import { computeThermalProducts, type OverrideRegion } from '../../shared/products/thermal-products.ts';
 import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
+import { SIMULATION_OPTIONS, readSimulationPoints, simulationOptionsFromArgs, type SimulationArgs } from './simulation-input.ts';
+import { simulateOnGrid, type SimulationOptions } from '../../shared/interp/simulateField.ts';
+import { MAX_SIMULATED_VALUES, SIMULATION_STREAM_OFFSET } from '../runs/heat-flow-simulation.ts';
 
 const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a thermal model
 
@@ -29,7 +32,10 @@ const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a ther
   --contour-interval-km K     depth-contour interval (default 1)
   --contour-interval-c C      temperature-contour interval (default: about 12 levels)
   --realizations N --seed S   Monte Carlo → depth-<T>C.p10/.p50/.p90.tif
-  --heat-flow-error-correlation full|independent   (default full)
+  --heat-flow-error-correlation full|independent   (deprecated; default full) with --heat-flow-sd
+  --points P.geojson|P.csv    instead of --heat-flow-sd: the realizations' heat flow is simulated conditionally from
+                              these sites on the heat-flow grid (with --variogram, --anisotropy, --transform,
+                              --error-field, --neighbors, --lag-km, --max-lag-km, --points-crs as in simulate)
   --out-dir DIR               where the files go
   --json                      print one JSON object
 `;
@@ -64,6 +70,23 @@ function sameGrid(a: Grid<Float32Array>, b: Grid<Float32Array>): boolean {
   return a.width === b.width && a.height === b.height && a.crs === b.crs && close(a.west, b.west) && close(a.north, b.north) && close(a.dx, b.dx) && close(a.dy, b.dy);
 }
 
+/**
+ * Conditional simulations of the sites (--points and the shared simulation flags) on the heat-flow grid, from
+ * streams keyed by seed + 2³² (the model draws use the seed itself). Cells without heat flow stay no data.
+ */
+async function simulateOnHeatFlowGrid(a: SimulationArgs, heatFlow: Grid<Float32Array>, crsDef: string, realizations: number, seed: number): Promise<{ values: Float32Array; source: string; sha256: string; warnings: string[] }> {
+  if ((a.field ?? 'heatFlowMWm2') !== 'heatFlowMWm2') throw new InputError('isotherms simulates heatFlowMWm2 (mW/m²)', [{ field: 'field', problem: 'expected heatFlowMWm2' }], 'bad_option');
+  const { points, warnings, sha256 } = await readSimulationPoints(a);
+  const opts: SimulationOptions = { ...simulationOptionsFromArgs(a, realizations, seed + SIMULATION_STREAM_OFFSET, 'mW/m²'), crossValidation: false, maxValues: MAX_SIMULATED_VALUES };
+  const r = simulateOnGrid(points, opts, heatFlow, crsDef);
+  const cells = heatFlow.width * heatFlow.height;
+  for (let c = 0; c < cells; c++) if (!(heatFlow.values[c] === heatFlow.values[c])) for (let k = 0; k < realizations; k++) r.values[k * cells + c] = NaN;
+  const v = r.variogram;
+  const space = r.transform.kind === 'normal-score' ? 'normal scores' : 'mW/m²';
+  const source = `heat flow from ${realizations} conditional simulations of the sites (${r.sampler.kind === 'cholesky' ? 'exact Cholesky' : 'circulant embedding'} conditioned by kriging, ${v.model} variogram of the ${space}, range ${v.rangeKm.toPrecision(4)} km; streams seed + ${SIMULATION_STREAM_OFFSET})`;
+  return { values: r.values, source, sha256, warnings: [...warnings, ...r.warnings.map((w) => `heat-flow simulation: ${w}`)] };
+}
+
 export async function isotherms(argv: string[]): Promise<number> {
   const { values: a } = parseVerbArgs('isotherms', argv, {
     'heat-flow': { type: 'string' },
@@ -81,6 +104,7 @@ export async function isotherms(argv: string[]): Promise<number> {
     seed: { type: 'string' },
     'heat-flow-error-correlation': { type: 'string' },
     'out-dir': { type: 'string' },
+    ...SIMULATION_OPTIONS,
   });
   if (a.help) {
     process.stdout.write(HELP);
@@ -126,7 +150,16 @@ export async function isotherms(argv: string[]): Promise<number> {
     heatFlowSd = { ...sd.grid, west: heatFlow.west, north: heatFlow.north, dx: heatFlow.dx, dy: heatFlow.dy, units: 'mW/m²' };
     inputs.heatFlowSd = sha256Hex(sdBytes);
   }
-  if (realizations > 0 && heatFlowSd === null) process.stderr.write('note: no --heat-flow-sd grid: the percentiles reflect the model parameters only\n');
+  // --points: the Monte Carlo's heat flow comes from conditional simulations of the sites on the heat-flow grid.
+  let simulated: Awaited<ReturnType<typeof simulateOnHeatFlowGrid>> | null = null;
+  if (a.points !== undefined) {
+    if (heatFlowSd !== null) throw new InputError('--heat-flow-sd does not go with --points: the spread comes from the conditional simulations', [{ field: 'heat-flow-sd', problem: 'drop it, or drop --points' }], 'bad_option');
+    for (const k of ['cell-km', 'size', 'bbox', 'crs'] as const) if (a[k] !== undefined) throw new InputError(`--${k} does not go with isotherms: the grid is the heat-flow grid's`, [{ field: k, problem: 'drop it' }], 'bad_option');
+    if (!(realizations >= 1)) throw new InputError('--points needs --realizations N (≥ 1): the percentiles come from N simulated heat-flow fields', [{ field: 'realizations', problem: 'missing' }], 'bad_option');
+    simulated = await simulateOnHeatFlowGrid(a, heatFlow, hf.crsDef, realizations, seed);
+    inputs.points = simulated.sha256;
+  } else if (a['heat-flow-error-correlation'] !== undefined) process.stderr.write('warning: --heat-flow-error-correlation is deprecated: give --points SITES to simulate spatially coherent heat-flow fields\n');
+  if (realizations > 0 && heatFlowSd === null && simulated === null) process.stderr.write('note: no --heat-flow-sd grid: the percentiles reflect the model parameters only\n');
   const modelText = (await readBytes(modelPath, 'model')).toString('utf8');
   const doc = parseModelText(modelText, modelPath);
   inputs.model = sha256Hex(modelText);
@@ -153,6 +186,7 @@ export async function isotherms(argv: string[]): Promise<number> {
   const t0 = performance.now();
   const products = await computeThermalProducts(heatFlow, heatFlowSd, doc.model, regions, hf.crsDef, {
     isothermsC, depthsKm, faciesDepthKm, maxDepthKm, contourIntervalKm, contourIntervalC, realizations, seed, heatFlowErrorCorrelation: corr,
+    heatFlowRealizations: simulated?.values, heatFlowSource: simulated?.source,
   });
   const computeMs = performance.now() - t0;
   const provenance = buildProvenance(
@@ -189,7 +223,7 @@ export async function isotherms(argv: string[]): Promise<number> {
     monteCarlo: products.monteCarlo,
     overrides: regions.map((r) => r.label),
     files: [...files, join(outDir, 'summary.json')],
-    warnings: [...new Set(products.warnings)],
+    warnings: [...new Set([...(simulated?.warnings ?? []), ...products.warnings])],
     provenance,
     timingsMs: { compute: computeMs, write: writeMs },
   };
