@@ -4,6 +4,7 @@ import { z } from 'zod';
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import { thermalModelSchema } from '../../shared/schema/model.ts';
 import { VERSION } from '../../shared/version.ts';
+import { VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
 import { columnAtRunSchema, columnOfModelSchema, datasetPatchSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
 
 const json = (schema: z.ZodType) => z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any', target: 'draft-2020-12' });
@@ -24,12 +25,30 @@ const errorSchema = {
   },
 };
 
-function op(summary: string, opts: { body?: Record<string, unknown>; bodyType?: string; ok?: string; okType?: string; errors?: number[]; params?: string[]; query?: Record<string, string>; auth?: boolean } = {}) {
+/** Upload bodies: one entry per accepted media type (server/io/vector-input.ts), each described. */
+const UPLOAD_FORMATS: Record<keyof typeof VECTOR_MEDIA_TYPES, { schema: Record<string, unknown> }> = {
+  geojson: { schema: { type: 'object', description: 'GeoJSON FeatureCollection in WGS 84 longitude/latitude (RFC 7946); for kind=model, the thermal model JSON' } },
+  csv: { schema: { type: 'string', description: 'point CSV, header on line 1: longitude,latitude (or lon,lat), or x,y / easting,northing with crs=EPSG:nnnn; a CSV whose numbers look projected and comes without crs is refused with a message saying so' } },
+  gpkg: { schema: { type: 'string', format: 'binary', description: 'OGC GeoPackage: a point or line feature table (layer=NAME when there are several), reprojected to WGS 84 from the table\'s own CRS' } },
+  shapefile: { schema: { type: 'string', format: 'binary', description: 'zipped Shapefile (.shp, .shx, .dbf and .prj; layer=NAME when the zip holds several), reprojected to WGS 84 from its .prj' } },
+};
+const UPLOAD_CONTENT: Record<string, { schema: Record<string, unknown> }> = Object.fromEntries(
+  Object.entries(VECTOR_MEDIA_TYPES).flatMap(([f, types]) => types.map((t) => [t, UPLOAD_FORMATS[f as keyof typeof VECTOR_MEDIA_TYPES]])),
+);
+/** Query parameters every vector upload reads besides its own (server/routes/datasets.ts). */
+const UPLOAD_QUERY = {
+  crs: 'EPSG:nnnn of a CSV\'s x,y / easting,northing columns (reprojected to WGS 84 with the offline EPSG definitions)',
+  layer: 'the GeoPackage table or the Shapefile in a zip to read, when the file holds several',
+  filename: 'the file\'s name, used in messages about it',
+};
+
+function op(summary: string, opts: { body?: Record<string, unknown>; bodyType?: string; contents?: Record<string, { schema: Record<string, unknown> }>; ok?: string; okType?: string; errors?: number[]; params?: string[]; query?: Record<string, string>; auth?: boolean } = {}) {
   const o: Record<string, unknown> = { summary };
   const params: unknown[] = (opts.params ?? []).map((name) => ({ name, in: 'path', required: true, schema: { type: 'string' } }));
   for (const [name, description] of Object.entries(opts.query ?? {})) params.push({ name, in: 'query', required: false, description, schema: { type: 'string' } });
   if (params.length) o.parameters = params;
   if (opts.body) o.requestBody = { required: true, content: { [opts.bodyType ?? 'application/json']: { schema: opts.body } } };
+  if (opts.contents) o.requestBody = { required: true, content: opts.contents };
   if (opts.auth) o.security = [{ editToken: [] }];
   const responses: Record<string, unknown> = { [opts.ok ?? '200']: { description: 'success', content: { [opts.okType ?? 'application/json']: {} } } };
   for (const e of opts.errors ?? []) responses[String(e)] = { description: 'error', content: { 'application/json': { schema: { $ref: '#/components/schemas/Error' } } } };
@@ -55,9 +74,9 @@ export function openApiDocument(): unknown {
       '/api/openapi.json': { get: op('this document') },
       '/api/datasets': {
         get: op('gone: data sets are listed per project (GET /api/projects/{id}/datasets)', { ok: '410' }),
-        post: op('store a data set outside any project (GeoJSON, point CSV or a thermal model); 200 with the existing id when the same content is stored', {
-          query: { kind: 'sites | samples | faults | wells | regions | model', title: 'optional title' },
-          body: { type: 'object', description: 'GeoJSON FeatureCollection (application/geo+json), CSV (text/csv) or, for kind=model, the model JSON' },
+        post: op('store a data set outside any project (GeoJSON, point CSV, GeoPackage, zipped Shapefile or a thermal model); 200 with the existing id when the same content is stored', {
+          query: { kind: 'sites | samples | faults | wells | regions | model', title: 'optional title', ...UPLOAD_QUERY },
+          contents: UPLOAD_CONTENT,
           ok: '201',
           errors: [400, 413, 415, 422],
         }),
@@ -107,8 +126,8 @@ export function openApiDocument(): unknown {
         get: op('the project\'s data sets: { id, datasets: [{ id, kind, name, featureCount, bbox [W,S,E,N] | null, bytes, contentHash, uploadedAt, url }], terrain, storage: { bytes, limitBytes } }', { params: ['id'], errors: [404] }),
         post: op('upload a data set into the project (edit token); 201 new, 200 when the project already holds the same content (deduplicated: true)', {
           params: ['id'],
-          query: { kind: 'sites | samples | faults | wells | regions | model', name: 'the data set\'s name in the project (default: the model\'s own name, or the kind)' },
-          body: { type: 'object', description: 'GeoJSON FeatureCollection (application/geo+json), point CSV (text/csv; header line 1) or, for kind=model, the model JSON' },
+          query: { kind: 'sites | samples | faults | wells | regions | model', name: 'the data set\'s name in the project (default: the model\'s own name, the GeoPackage or Shapefile layer, or the kind)', ...UPLOAD_QUERY },
+          contents: UPLOAD_CONTENT,
           ok: '201',
           auth: true,
           errors: [400, 401, 403, 404, 413, 415, 422],
