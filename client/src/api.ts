@@ -57,13 +57,36 @@ export async function sendJson<T>(method: 'POST' | 'PUT' | 'DELETE', path: strin
   return handle<T>(await fetch(path, init));
 }
 
-/** Uploads a file's text as a data set of `kind`; CSV goes as text/csv, everything else as GeoJSON. */
-export async function uploadDataset(kind: string, name: string, text: string): Promise<DatasetCreated> {
-  const csv = /\.(csv|txt)$/i.test(name);
-  const res = await fetch(`/api/datasets?kind=${encodeURIComponent(kind)}&title=${encodeURIComponent(name.slice(0, 200))}`, {
+/** Where an upload's coordinates are and which layer of a multi-layer file to read (the upload routes' crs= and layer=). */
+export interface UploadOptions {
+  /** EPSG:nnnn of a CSV's projected x,y columns (GeoPackage and Shapefile carry their own CRS). */
+  crs?: string;
+  /** The GeoPackage table or the Shapefile inside a zip, when the file holds several. */
+  layer?: string;
+}
+
+/** The media type an upload of `fileName` goes as: CSV, GeoPackage, zipped Shapefile, JSON (a model) or GeoJSON. */
+export function uploadMediaType(fileName: string, kind: string): string {
+  if (/\.(csv|txt)$/i.test(fileName)) return 'text/csv';
+  if (/\.gpkg$/i.test(fileName)) return 'application/geopackage+sqlite3';
+  if (/\.zip$/i.test(fileName)) return 'application/zip';
+  return kind === 'model' ? 'application/json' : 'application/geo+json';
+}
+
+/** The query string of an upload: its kind and name plus crs= and layer= when given. */
+export function uploadQuery(base: Record<string, string>, opts: UploadOptions = {}): string {
+  const q = new URLSearchParams(base);
+  if (opts.crs) q.set('crs', opts.crs);
+  if (opts.layer) q.set('layer', opts.layer);
+  return q.toString();
+}
+
+/** Uploads a file as a data set of `kind` (not in a project). */
+export async function uploadDataset(kind: string, file: Blob & { name: string }, opts: UploadOptions = {}): Promise<DatasetCreated> {
+  const res = await fetch(`/api/datasets?${uploadQuery({ kind, title: file.name.slice(0, 200), filename: file.name.slice(0, 200) }, opts)}`, {
     method: 'POST',
-    headers: { accept: 'application/json', 'content-type': csv ? 'text/csv' : 'application/geo+json' },
-    body: text,
+    headers: { accept: 'application/json', 'content-type': uploadMediaType(file.name, kind) },
+    body: file,
   });
   return handle<DatasetCreated>(res);
 }

@@ -9,6 +9,7 @@ import type { AppState } from './state.ts';
 import type { ShownRun } from './runlayers.ts';
 import type { ColumnAnswer } from './inspector.ts';
 import type { SectionAnswer } from './section.ts';
+import type { HeatInPlaceResult } from './heat.ts';
 import { el } from './dom.ts';
 
 /** The page's public handle (window.subtherm): tests and the console read it. */
@@ -20,6 +21,8 @@ export interface AppHandle {
   run: ShownRun | null;
   lastColumn: { request: Record<string, unknown>; answer: ColumnAnswer } | null;
   lastSection: SectionAnswer | null;
+  /** The last heat-in-place job the page finished: its request, report and download links. */
+  heatInPlace: HeatInPlaceResult | null;
   /** Resolves once the page has restored its state (and a saved run's layers). */
   ready: Promise<void>;
 }

@@ -4,12 +4,12 @@
  * field, what is wrong) is shown as a table in the page.
  */
 import type { GeoJSONSource } from 'maplibre-gl';
-import { ApiError, getJson, uploadDataset, type DatasetCreated } from './api.ts';
+import { ApiError, getJson, uploadDataset, type DatasetCreated, type UploadOptions } from './api.ts';
 import { featuresBbox, fitBbox, type Bbox } from './basemap.ts';
 import type { AppContext } from './context.ts';
 import { el, errorBox, problemTable, replace } from './dom.ts';
 import type { FeatureCollection } from './structure.ts';
-import { ProjectDataTable, newProjectControl, uploadToProject } from './project-data.ts';
+import { ProjectDataTable, newProjectControl, showProjectTerrain, uploadTerrain, uploadToProject } from './project-data.ts';
 
 export type PointKind = 'sites' | 'samples' | 'faults';
 const EMPTY: FeatureCollection = { type: 'FeatureCollection', features: [] };
@@ -62,11 +62,19 @@ export function dataPanel(ctx: AppContext, data: DataSets, onParams: () => void)
     });
     ctx.syncUrl();
   };
-  const send = inProject ? (kind: string, name: string, text: string) => uploadToProject(ctx, kind, name, text) : uploadDataset;
+  const send: UploadFn = inProject
+    ? async (kind, file, opts) => {
+        if (kind !== 'terrain') return uploadToProject(ctx, kind, file, opts);
+        const t = await uploadTerrain(ctx, file);
+        showProjectTerrain(ctx.map, t);
+        fitBbox(ctx.map, t.bbox);
+        return { id: 'terrain', kind: 'terrain', featureCount: t.width * t.height, warnings: [], message: `${file.name}: terrain of ${t.width} × ${t.height} cells accepted (from ${t.sourceCrs}, shown as hillshade).` };
+      }
+    : uploadDataset;
   const upload = uploadPanel((d) => {
     use(d.id, d.kind, true);
     void table?.refresh();
-  }, send, inProject ? ['sites', 'samples', 'faults', 'wells', 'regions', 'model'] : ['sites', 'samples', 'faults']);
+  }, send, inProject ? ['sites', 'samples', 'faults', 'wells', 'regions', 'model', 'terrain'] : ['sites', 'samples', 'faults']);
   upload.root.prepend(el('h3', {}, 'Add data'));
   if (ctx.projectId !== null) {
     table = new ProjectDataTable(ctx, (d) => use(d.id, d.kind, false));
@@ -83,26 +91,63 @@ export interface UploadPanel {
   setEnabled(on: boolean): void;
 }
 
-/** Builds the upload panel; `onUploaded` receives the new data set (the caller shows it and uses it in runs). */
-const UPLOAD_LABELS: Record<string, string> = { sites: 'heat-flow sites', samples: 'grade samples', faults: 'faults', wells: 'wells', regions: 'regions (model overrides, mask)', model: 'thermal model (JSON)' };
+/** Sends one file as a data set of `kind`; the answer may carry its own success message. */
+type UploadFn = (kind: string, file: File, opts: UploadOptions) => Promise<DatasetCreated & { message?: string }>;
 
-export function uploadPanel(onUploaded: (d: DatasetCreated, fileName: string) => void, upload: (kind: string, name: string, text: string) => Promise<DatasetCreated> = uploadDataset, kinds = ['sites', 'samples', 'faults']): UploadPanel {
+const UPLOAD_LABELS: Record<string, string> = { sites: 'heat-flow sites', samples: 'grade samples', faults: 'faults', wells: 'wells', regions: 'regions (model overrides, mask)', model: 'thermal model (JSON)', terrain: 'terrain (DEM GeoTIFF, metres)' };
+
+/** EPSG codes offered in the CRS chooser (any other EPSG:nnnn may be typed). */
+const CRS_CHOICES: [string, string][] = [
+  ['', 'longitude/latitude, WGS 84 (EPSG:4326)'],
+  ['EPSG:3857', 'Web Mercator (EPSG:3857), metres'],
+  ['other', 'another EPSG code…'],
+];
+
+/** The CRS chooser: lon/lat, a listed code, or a typed EPSG:nnnn; `read` gives the code or a message. */
+function crsChooser(): { root: HTMLElement; controls: (HTMLInputElement | HTMLSelectElement)[]; read(): { crs?: string; problem?: string } } {
+  const choice = el('select', { id: 'upload-crs' }, ...CRS_CHOICES.map(([v, label]) => el('option', { value: v }, label)));
+  const code = el('input', { id: 'upload-crs-code', placeholder: 'EPSG:32706', maxlength: '12', hidden: '', 'aria-label': 'EPSG code of the coordinates' });
+  choice.addEventListener('change', () => (code.hidden = choice.value !== 'other'));
+  return {
+    root: el('div', { class: 'field-row' }, el('label', { for: choice.id }, 'CSV coordinates'), choice, code),
+    controls: [choice, code],
+    read() {
+      if (choice.value !== 'other') return choice.value === '' ? {} : { crs: choice.value };
+      const t = code.value.trim().toUpperCase().replace(/^(\d+)$/, 'EPSG:$1');
+      if (!/^EPSG:\d{4,6}$/.test(t)) return { problem: `CRS: write the EPSG code of the CSV's x,y columns as EPSG:nnnn (e.g. EPSG:32706 for UTM zone 6 south), got "${code.value}"` };
+      return { crs: t };
+    },
+  };
+}
+
+/** Builds the upload panel; `onUploaded` receives the new data set (the caller shows it and uses it in runs). */
+export function uploadPanel(onUploaded: (d: DatasetCreated, fileName: string) => void, upload: UploadFn = uploadDataset, kinds = ['sites', 'samples', 'faults']): UploadPanel {
   const kind = el('select', { id: 'upload-kind' }, ...kinds.map((k) => el('option', { value: k }, UPLOAD_LABELS[k] ?? k)));
-  const input = el('input', { type: 'file', id: 'upload-file', accept: '.geojson,.json,.csv,.txt,application/geo+json,application/json,text/csv' });
-  const drop = el('div', { class: 'dropzone', id: 'dropzone', tabindex: '0', role: 'button', 'aria-label': 'Drop a GeoJSON or CSV file here, or press Enter to choose one' }, 'Drop a GeoJSON or CSV file here, or ', el('span', { class: 'linkish' }, 'choose a file'));
+  const input = el('input', { type: 'file', id: 'upload-file', accept: '.geojson,.json,.csv,.txt,.gpkg,.zip,.tif,.tiff,application/geo+json,application/json,text/csv' });
+  const drop = el('div', { class: 'dropzone', id: 'dropzone', tabindex: '0', role: 'button', 'aria-label': 'Drop a file here, or press Enter to choose one' }, 'Drop a GeoJSON, CSV, GeoPackage or zipped Shapefile here, or ', el('span', { class: 'linkish' }, 'choose a file'));
+  const crs = crsChooser();
+  const layer = el('input', { id: 'upload-layer', placeholder: 'only when the file holds several', maxlength: '200' });
   const report = el('div', { id: 'upload-report', 'aria-live': 'polite' });
   let enabled = true;
 
   const send = async (file: File) => {
     if (!enabled) return;
-    replace(report, el('p', { class: 'loading' }, `Uploading ${file.name} as ${kind.value}…`));
+    const c = crs.read();
+    if (c.problem) {
+      replace(report, errorBox(`${file.name}: ${c.problem}`));
+      return;
+    }
+    if (kind.value === 'terrain' && !/\.tiff?$/i.test(file.name)) {
+      replace(report, errorBox(`${file.name}: a terrain is a one-band DEM GeoTIFF (.tif) in metres, in EPSG:4326 or an EPSG-coded projected CRS.`));
+      return;
+    }
+    replace(report, el('p', { class: 'loading' }, `Uploading ${file.name} as ${UPLOAD_LABELS[kind.value] ?? kind.value}…`));
     try {
-      const text = await file.text();
-      const d = await upload(kind.value, file.name, text);
+      const d = await upload(kind.value, file, { crs: c.crs, layer: layer.value.trim() || undefined });
       const warnings = d.warnings ?? [];
       replace(
         report,
-        el('div', { class: 'ok', role: 'status' }, `${file.name}: ${d.featureCount} ${d.kind} accepted as data set ${d.id}.`),
+        el('div', { class: 'ok', role: 'status' }, d.message ?? `${file.name}: ${d.featureCount} ${d.kind} accepted as data set ${d.id}.`),
         warnings.length > 0 ? el('p', { class: 'note' }, `${warnings.length} warning${warnings.length === 1 ? '' : 's'}:`) : null,
         warnings.length > 0 ? problemTable(warnings.map((w) => (typeof w === 'string' ? { problem: w } : w))) : null,
       );
@@ -141,16 +186,18 @@ export function uploadPanel(onUploaded: (d: DatasetCreated, fileName: string) =>
     'div',
     { class: 'upload' },
     el('div', { class: 'field-row' }, el('label', { for: 'upload-kind' }, 'Kind'), kind),
+    crs.root,
+    el('div', { class: 'field-row' }, el('label', { for: layer.id }, 'Layer'), layer),
     drop,
     el('div', { class: 'field-row' }, el('label', { for: 'upload-file' }, 'File'), input),
-    el('p', { class: 'note' }, 'CSV: a header row with longitude,latitude (or lon,lat) and the same property names as the GeoJSON (e.g. heatFlowMWm2, quality; zone; kind).'),
+    el('p', { class: 'note' }, 'CSV: a header row with longitude,latitude (or lon,lat), or x,y with their EPSG code chosen above, and the same property names as the GeoJSON (e.g. heatFlowMWm2, quality; zone; kind). GeoPackage and zipped Shapefile carry their own CRS; name the layer when a file holds several.'),
     report,
   );
   return {
     root,
     setEnabled(on: boolean) {
       enabled = on;
-      for (const c of [kind, input]) c.disabled = !on;
+      for (const c of [kind, input, layer, ...crs.controls]) c.disabled = !on;
       drop.setAttribute('aria-disabled', String(!on));
       drop.classList.toggle('disabled', !on);
     },

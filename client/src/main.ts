@@ -24,6 +24,7 @@ import { runPanel, type RunPanel } from './run.ts';
 import { StructurePanel, type FeatureCollection } from './structure.ts';
 import { sectionPanel, type SectionPanel } from './section.ts';
 import { sharePanel } from './share.ts';
+import { heatPanel, type HeatPanel } from './heat.ts';
 
 setWorkerUrl(workerUrl);
 
@@ -101,9 +102,35 @@ function urlSync(map: MapLibreMap, state: AppState, projectId: string | null): (
   };
 }
 
+/**
+ * A sign of work on the map from the moment a run is done until its layers' tiles are drawn (the map's first idle
+ * after they were added): decoding and drawing the tiles takes seconds on a slow machine.
+ */
+function tilesLoading(map: MapLibreMap): { done(): void } {
+  document.getElementById('tiles-loading')?.remove();
+  const note = el('div', { class: 'map-loading', id: 'tiles-loading', role: 'status', 'aria-live': 'polite' }, el('span', { class: 'spinner', 'aria-hidden': 'true' }), "Drawing the run's layers…");
+  document.getElementById('map')!.append(note);
+  return {
+    done() {
+      const hide = () => (map.areTilesLoaded() && !map.isMoving() ? note.remove() : map.once('idle', hide));
+      map.once('idle', hide);
+      map.triggerRepaint();
+    },
+  };
+}
+
 /** Shows a finished run: its layers, its summary, its structure report and the section hint. */
-async function showRun(ctx: AppContext, run: RunState, panels: { runs: RunPanel; structure: StructurePanel; section: SectionPanel }): Promise<void> {
+async function showRun(ctx: AppContext, run: RunState, panels: { runs: RunPanel; structure: StructurePanel; section: SectionPanel; heat: HeatPanel }): Promise<void> {
   ctx.state.runId = run.id;
+  const loading = tilesLoading(ctx.map);
+  try {
+    await showRunContent(ctx, run, panels);
+  } finally {
+    loading.done();
+  }
+}
+
+async function showRunContent(ctx: AppContext, run: RunState, panels: { runs: RunPanel; structure: StructurePanel; section: SectionPanel; heat: HeatPanel }): Promise<void> {
   ctx.app.run = await showRunLayers(ctx.map, ctx.layerPanel, run, {
     depthKm: ctx.state.depthKm,
     onDepth: (d) => {
@@ -118,6 +145,7 @@ async function showRun(ctx: AppContext, run: RunState, panels: { runs: RunPanel;
   const st = run.summary?.structure;
   panels.structure.setRun(st?.faults ?? [], isograds, st?.isograds ?? [], st?.samples ?? []);
   panels.section.setRunDone(run.status === 'done');
+  panels.heat.setRun(run);
   ctx.syncUrl();
 }
 
@@ -133,7 +161,8 @@ function buildTools(ctx: AppContext, data: DataSets, demoModel: ReturnType<typeo
   let show: (run: RunState) => Promise<void> = () => Promise.resolve();
   const submitTo = (): { path: string; headers: Record<string, string> } => (ctx.projectId !== null && ctx.editToken !== null ? { path: `/api/projects/${encodeURIComponent(ctx.projectId)}/runs`, headers: { authorization: `Bearer ${decodeURIComponent(ctx.editToken)}` } } : { path: '/api/runs', headers: {} });
   const runs = runPanel({ params: state.params, model: () => editor.value(), onParams: (p) => ((state.params = p), ctx.syncUrl()), onDone: (run) => void show(run).catch((e: unknown) => ctx.showError(message(e))), submitTo });
-  show = (run) => showRun(ctx, run, { runs, structure, section });
+  const heat = heatPanel(ctx);
+  show = (run) => showRun(ctx, run, { runs, structure, section, heat });
   const column = columnPanel(ctx, { model: () => editor.value(), sites: () => data.current.sites });
   const upload = dataPanel(ctx, data, () => runs.setParams(state.params));
   const share = sharePanel(ctx);
@@ -145,9 +174,10 @@ function buildTools(ctx: AppContext, data: DataSets, demoModel: ReturnType<typeo
     { id: 'run', label: 'Run', body: el('div', {}, el('h3', {}, 'Run'), runs.root) },
     { id: 'structure', label: 'Structure', body: structure.root },
     { id: 'section', label: 'Section', body: section.root },
+    { id: 'heat', label: 'Heat', body: heat.root },
     { id: 'share', label: 'Share', body: share.root },
   ]);
-  ctx.map.on('click', (e) => void (section.drawer.drawing ? undefined : column.inspect(e.lngLat.lng, e.lngLat.lat)));
+  ctx.map.on('click', (e) => void (section.drawer.drawing || heat.drawer.drawing ? undefined : column.inspect(e.lngLat.lng, e.lngLat.lat)));
   document.getElementById('topbar-share')!.addEventListener('click', () => ctx.selectTab('share'));
   if (ctx.readOnly) {
     editor.setEnabled(false);
@@ -171,7 +201,7 @@ async function start(): Promise<void> {
   document.body.classList.toggle('read-only', readOnly);
 
   const map = createMap(cfg, state);
-  const app: AppHandle = { map, config: cfg, state, readOnly, run: null, lastColumn: null, lastSection: null, ready };
+  const app: AppHandle = { map, config: cfg, state, readOnly, run: null, lastColumn: null, lastSection: null, heatInPlace: null, ready };
   window.subtherm = app;
   const syncUrl = urlSync(map, state, projectId);
   map.on('moveend', syncUrl);

@@ -4,7 +4,8 @@
  * Changes carry the project's edit token; a read-only page lists and downloads only. "New project" starts an empty
  * project and opens its edit link.
  */
-import { ApiError, getJson, sendJson, type Problem } from './api.ts';
+import { ApiError, getJson, sendJson, uploadMediaType, uploadQuery, type Problem, type UploadOptions } from './api.ts';
+import type { Map as MapLibreMap } from 'maplibre-gl';
 import { fitBbox, type Bbox } from './basemap.ts';
 import { message, type AppContext } from './context.ts';
 import { el, errorBox, replace } from './dom.ts';
@@ -26,19 +27,55 @@ function auth(ctx: AppContext): Record<string, string> {
   return ctx.editToken ? { authorization: `Bearer ${decodeURIComponent(ctx.editToken)}` } : {};
 }
 
-/** Uploads a file's text into the project as `kind` (CSV as text/csv, JSON models as JSON, the rest as GeoJSON). */
-export async function uploadToProject(ctx: AppContext, kind: string, fileName: string, text: string): Promise<ProjectDataset & { warnings: (string | Problem)[] }> {
-  const csv = /\.(csv|txt)$/i.test(fileName);
-  const type = csv ? 'text/csv' : kind === 'model' ? 'application/json' : 'application/geo+json';
-  const name = fileName.replace(/\.[A-Za-z0-9]+$/, '').slice(0, 120) || fileName;
-  const res = await fetch(`/api/projects/${encodeURIComponent(ctx.projectId!)}/datasets?kind=${encodeURIComponent(kind)}&name=${encodeURIComponent(name)}`, { method: 'POST', headers: { accept: 'application/json', 'content-type': type, ...auth(ctx) }, body: text });
-  const body = (await res.json().catch(() => null)) as (ProjectDataset & { warnings: (string | Problem)[] }) | { error?: { message?: string; details?: [] } } | null;
+/** Uploads a file into the project as `kind` (CSV, GeoPackage, zipped Shapefile, GeoJSON, or a JSON model). */
+export async function uploadToProject(ctx: AppContext, kind: string, file: Blob & { name: string }, opts: UploadOptions = {}): Promise<ProjectDataset & { warnings: (string | Problem)[] }> {
+  const name = file.name.replace(/\.[A-Za-z0-9]+$/, '').slice(0, 120) || file.name;
+  const query = uploadQuery({ kind, name, filename: file.name.slice(0, 200) }, opts);
+  const res = await fetch(`/api/projects/${encodeURIComponent(ctx.projectId!)}/datasets?${query}`, { method: 'POST', headers: { accept: 'application/json', 'content-type': uploadMediaType(file.name, kind), ...auth(ctx) }, body: file });
+  const d = await checked<ProjectDataset & { warnings?: (string | Problem)[] }>(res);
+  return { ...d, warnings: d.warnings ?? [] };
+}
+
+/** The body of a response, or an ApiError with the server's message and details. */
+async function checked<T>(res: Response): Promise<T> {
+  const body = (await res.json().catch(() => null)) as T | { error?: { message?: string; details?: []; code?: string } } | null;
   if (!res.ok) {
     const e = (body as { error?: { message?: string; details?: []; code?: string } } | null)?.error;
     throw new ApiError(e?.message ?? `${res.status} ${res.statusText}`, res.status, e?.details ?? [], e?.code ?? '');
   }
-  const d = body as ProjectDataset & { warnings?: (string | Problem)[] };
-  return { ...d, warnings: d.warnings ?? [] };
+  return body as T;
+}
+
+/** A project's terrain as GET /api/projects/:id/datasets describes it. */
+export interface ProjectTerrain {
+  name: string;
+  bbox: Bbox;
+  width: number;
+  height: number;
+  sourceCrs: string;
+  uploadedAt: string;
+  source: { type: 'raster-dem'; tiles: string[]; bounds: Bbox; minzoom: number; maxzoom: number; encoding: 'mapbox'; tileSize: number };
+}
+
+/** Uploads a DEM GeoTIFF as the project's terrain (EPSG:4326 or an EPSG-coded projected CRS, metres). */
+export async function uploadTerrain(ctx: AppContext, file: Blob & { name: string }): Promise<ProjectTerrain> {
+  const name = file.name.replace(/\.[A-Za-z0-9]+$/, '').slice(0, 120) || file.name;
+  const res = await fetch(`/api/projects/${encodeURIComponent(ctx.projectId!)}/terrain?${new URLSearchParams({ name })}`, { method: 'POST', headers: { accept: 'application/json', 'content-type': 'image/tiff', ...auth(ctx) }, body: file });
+  return checked<ProjectTerrain>(res);
+}
+
+/** Shows (or replaces) the project's terrain as a hillshade over the base, under the computed layers. */
+export function showProjectTerrain(map: MapLibreMap, t: ProjectTerrain | null): void {
+  if (map.getLayer('project-hillshade')) map.removeLayer('project-hillshade');
+  if (map.getSource('project-terrain')) map.removeSource('project-terrain');
+  if (!t) return;
+  // A new tile URL per upload, so a replaced terrain is never served from the browser's cache.
+  const v = encodeURIComponent(t.uploadedAt);
+  map.addSource('project-terrain', { ...t.source, tiles: t.source.tiles.map((u) => `${window.location.origin}${u}?v=${v}`) });
+  map.addLayer(
+    { id: 'project-hillshade', type: 'hillshade', source: 'project-terrain', paint: { 'hillshade-exaggeration': 0.85, 'hillshade-shadow-color': '#4a4540', 'hillshade-highlight-color': '#ffffff', 'hillshade-accent-color': '#8a8276' } },
+    map.getLayer('world-coast') ? 'world-coast' : undefined,
+  );
 }
 
 /** Starts an empty project (no data sets, the current model) and opens its edit link. */
@@ -58,6 +95,7 @@ function bboxText(b: Bbox | null): string {
 export class ProjectDataTable {
   readonly root = el('div', { id: 'project-datasets' });
   private list: ProjectDataset[] = [];
+  private terrain: ProjectTerrain | null = null;
 
   constructor(
     private readonly ctx: AppContext,
@@ -71,8 +109,11 @@ export class ProjectDataTable {
   async refresh(): Promise<void> {
     if (this.ctx.projectId === null) return;
     try {
-      const r = await getJson<{ datasets: ProjectDataset[] }>(`/api/projects/${encodeURIComponent(this.ctx.projectId)}/datasets`);
+      const r = await getJson<{ datasets: ProjectDataset[]; terrain?: ProjectTerrain | null }>(`/api/projects/${encodeURIComponent(this.ctx.projectId)}/datasets`);
       this.list = r.datasets;
+      const t = r.terrain ?? null;
+      if (t?.uploadedAt !== this.terrain?.uploadedAt) showProjectTerrain(this.ctx.map, t);
+      this.terrain = t;
       this.render();
     } catch (e) {
       replace(this.root, errorBox(`Data sets: ${message(e)}`));
@@ -113,13 +154,20 @@ export class ProjectDataTable {
     return el('tr', { 'data-dataset': d.id, 'data-kind': d.kind }, el('td', {}, KIND_LABELS[d.kind] ?? d.kind), el('td', { class: 'name' }, d.name, used ? el('span', { class: 'muted' }, ' (in the run)') : null), el('td', { class: 'num' }, String(d.featureCount)), el('td', { class: 'bbox' }, bboxText(d.bbox)), el('td', {}, new Date(d.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')), actions);
   }
 
+  /** The terrain's row: extent, source CRS, zoom to. */
+  private terrainRow(t: ProjectTerrain): HTMLElement {
+    const zoom = el('button', { type: 'button', class: 'small', 'data-action': 'zoom to' }, 'zoom to');
+    zoom.addEventListener('click', () => fitBbox(this.ctx.map, t.bbox));
+    return el('tr', { 'data-kind': 'terrain' }, el('td', {}, 'terrain'), el('td', { class: 'name' }, t.name, el('span', { class: 'muted' }, ` (${t.width} × ${t.height} cells, from ${t.sourceCrs})`)), el('td', { class: 'num' }, '—'), el('td', { class: 'bbox' }, bboxText(t.bbox)), el('td', {}, new Date(t.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')), el('td', { class: 'actions' }, zoom));
+  }
+
   private render(): void {
-    if (this.list.length === 0) {
+    if (this.list.length === 0 && this.terrain === null) {
       replace(this.root, el('p', { class: 'empty' }, 'This project holds no data sets yet: upload heat-flow sites below to begin.'));
       return;
     }
     const head = el('tr', {}, ...['Kind', 'Name', 'Features', 'Extent', 'Uploaded (UTC)', ''].map((h) => el('th', { scope: 'col' }, h)));
-    replace(this.root, el('div', { class: 'table-scroll' }, el('table', { class: 'report datasets' }, el('thead', {}, head), el('tbody', {}, ...this.list.map((d) => this.row(d))))));
+    replace(this.root, el('div', { class: 'table-scroll' }, el('table', { class: 'report datasets' }, el('thead', {}, head), el('tbody', {}, ...this.list.map((d) => this.row(d)), this.terrain ? this.terrainRow(this.terrain) : null))));
   }
 }
 

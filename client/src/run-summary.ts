@@ -74,6 +74,9 @@ export function uncertaintyControls(run: RunState, onLayer: (run: RunState) => v
   const km = el('input', { id: 'unc-depth', type: 'number', step: 'any', min: '0', value: '5', class: 'num' });
   const spreadBtn = el('button', { type: 'button', id: 'unc-spread' }, 'Spread layer');
   const probBtn = el('button', { type: 'button', id: 'unc-probability' }, 'Probability layer');
+  const atKm = el('input', { id: 'unc-temp-depth', type: 'number', step: 'any', min: '0', value: '5', class: 'num' });
+  const exceedsC = el('input', { id: 'unc-exceeds', type: 'number', step: 'any', value: '150', class: 'num' });
+  const exceedBtn = el('button', { type: 'button', id: 'unc-exceedance' }, 'Probability layer');
   const out = el('p', { class: 'note', id: 'unc-status', 'aria-live': 'polite' });
   const ask = async (query: string, what: string) => {
     out.textContent = `Computing the ${what} from the run's realizations…`;
@@ -87,13 +90,19 @@ export function uncertaintyControls(run: RunState, onLayer: (run: RunState) => v
   };
   spreadBtn.addEventListener('click', () => void ask(`spread?isothermC=${encodeURIComponent(iso.value)}`, `spread (P90 − P10) of the depth to ${iso.value} °C`));
   probBtn.addEventListener('click', () => void ask(`probability?isothermC=${encodeURIComponent(iso.value)}&shallowerThanKm=${encodeURIComponent(km.value)}`, `probability that ${iso.value} °C lies shallower than ${km.value} km`));
+  exceedBtn.addEventListener('click', () => void ask(`probability?depthKm=${encodeURIComponent(atKm.value)}&exceedsC=${encodeURIComponent(exceedsC.value)}`, `probability that the temperature at ${atKm.value} km exceeds ${exceedsC.value} °C`));
   return el(
     'div',
     { id: 'uncertainty-controls' },
     el('h3', {}, 'Uncertainty'),
+    el('p', { class: 'note' }, `From the run's ${run.request?.realizations ?? ''} realizations. Depth to an isotherm:`),
     el('div', { class: 'field-row' }, el('label', { for: iso.id }, 'Isotherm (°C)'), iso),
     el('div', { class: 'field-row' }, el('label', { for: km.id }, 'Shallower than (km)'), km),
     el('div', { class: 'button-row' }, spreadBtn, probBtn),
+    el('p', { class: 'note' }, 'Temperature at a depth:'),
+    el('div', { class: 'field-row' }, el('label', { for: atKm.id }, 'At depth (km)'), atKm),
+    el('div', { class: 'field-row' }, el('label', { for: exceedsC.id }, 'Exceeds (°C)'), exceedsC),
+    el('div', { class: 'button-row' }, exceedBtn),
     out,
   );
 }

@@ -25,7 +25,10 @@ export interface SectionAnswer {
   warnings?: string[];
 }
 
-/** Line drawing on the map. `onFinish` gets the vertices [lon, lat]; `onState` reports drawing on/off. */
+/**
+ * Line (or polygon) drawing on the map. `onFinish` gets the vertices [lon, lat]; `onState` reports drawing on/off.
+ * With `closed`, the vertices are a ring (at least 3, shown filled) drawn into the GeoJSON source `sourceId`.
+ */
 export class LineDrawer {
   private points: [number, number][] = [];
   private active = false;
@@ -34,6 +37,7 @@ export class LineDrawer {
     private readonly map: MapLibreMap,
     private readonly onFinish: (line: [number, number][]) => void,
     private readonly onState: (drawing: boolean, n: number) => void,
+    private readonly shape: { sourceId: string; closed: boolean } = { sourceId: 'section-line', closed: false },
   ) {
     map.on('click', (e: MapMouseEvent) => {
       if (!this.active) return;
@@ -93,7 +97,7 @@ export class LineDrawer {
     this.map.doubleClickZoom.enable();
     this.map.getCanvas().style.cursor = '';
     this.render();
-    if (pts.length >= 2) this.onFinish(pts);
+    if (pts.length >= (this.shape.closed ? 3 : 2)) this.onFinish(pts);
   }
 
   /** Shows a finished line (e.g. restored). */
@@ -104,8 +108,9 @@ export class LineDrawer {
 
   private render(): void {
     const features: GeoJSON.Feature[] = this.points.map((p) => ({ type: 'Feature', properties: {}, geometry: { type: 'Point', coordinates: p } }));
-    if (this.points.length >= 2) features.push({ type: 'Feature', properties: {}, geometry: { type: 'LineString', coordinates: this.points } });
-    void this.map.getSource<GeoJSONSource>('section-line')?.setData({ type: 'FeatureCollection', features });
+    if (this.points.length >= 2) features.push({ type: 'Feature', properties: {}, geometry: { type: 'LineString', coordinates: this.shape.closed ? [...this.points, this.points[0]] : this.points } });
+    if (this.shape.closed && this.points.length >= 3) features.push({ type: 'Feature', properties: {}, geometry: { type: 'Polygon', coordinates: [[...this.points, this.points[0]]] } });
+    void this.map.getSource<GeoJSONSource>(this.shape.sourceId)?.setData({ type: 'FeatureCollection', features });
     this.onState(this.active, this.points.length);
   }
 }

@@ -11,7 +11,8 @@ export const HEAT_FLOW_RANGE: [number, number] = [35, 125];
 
 export function heatFlowColor(): ExpressionSpecification {
   const stops = rampStops(EMBER, HEAT_FLOW_RANGE[0], HEAT_FLOW_RANGE[1]).flat();
-  return ['interpolate', ['linear'], ['get', 'heatFlowMWm2'], ...stops] as unknown as ExpressionSpecification;
+  // A site without a number (or with text) is grey, never the ramp's end colour or the style's default.
+  return ['case', ['==', ['typeof', ['get', 'heatFlowMWm2']], 'number'], ['interpolate', ['linear'], ['get', 'heatFlowMWm2'], ...stops], '#9a9a9a'] as unknown as ExpressionSpecification;
 }
 
 function zoneColor(): ExpressionSpecification {
@@ -80,6 +81,14 @@ function overlayLayers(): LayerSpecification[] {
       filter: ['in', ['get', 'id'], ['literal', []]],
       paint: { 'circle-radius': 7.5, 'circle-color': 'rgba(0,0,0,0)', 'circle-stroke-color': '#d4462c', 'circle-stroke-width': 2.2 },
     },
+    // A dark ring under each site's white edge: the circle stays readable over any surface, light or dark, and even
+    // over a heat-flow surface in the same ramp.
+    {
+      id: 'sites-halo',
+      type: 'circle',
+      source: 'sites',
+      paint: { 'circle-radius': ['match', ['get', 'quality'], 'high', 9, 'medium', 7.2, 5.8], 'circle-color': '#1c1c1c', 'circle-opacity': 0.85 },
+    },
     {
       id: 'sites',
       type: 'circle',
@@ -111,6 +120,9 @@ function topLayers(): LayerSpecification[] {
       filter: ['==', ['geometry-type'], 'Point'],
       paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': '#111111', 'circle-stroke-width': 2 },
     },
+    { id: 'hip-area-fill', type: 'fill', source: 'hip-area', filter: ['==', ['geometry-type'], 'Polygon'], paint: { 'fill-color': '#2f7487', 'fill-opacity': 0.12 } },
+    { id: 'hip-area-line', type: 'line', source: 'hip-area', filter: ['==', ['geometry-type'], 'LineString'], paint: { 'line-color': '#123c47', 'line-width': 2.5 } },
+    { id: 'hip-area-points', type: 'circle', source: 'hip-area', filter: ['==', ['geometry-type'], 'Point'], paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': '#123c47', 'circle-stroke-width': 2 } },
     {
       id: 'graticule-labels',
       type: 'symbol',
@@ -141,6 +153,7 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
       samples: { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
       sites: { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
       'section-line': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
+      'hip-area': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
     },
     layers: [
       { id: 'sea', type: 'background', paint: { 'background-color': '#dfe6ea' } },
