@@ -98,9 +98,9 @@ const UPLOAD_LABELS: Record<string, string> = { sites: 'heat-flow sites', sample
 
 /** EPSG codes offered in the CRS chooser (any other EPSG:nnnn may be typed). */
 const CRS_CHOICES: [string, string][] = [
-  ['', 'longitude/latitude, WGS 84 (EPSG:4326)'],
-  ['EPSG:3857', 'Web Mercator (EPSG:3857), metres'],
-  ['other', 'another EPSG code…'],
+  ['', 'lon/lat (EPSG:4326)'],
+  ['EPSG:3857', 'Web Mercator (EPSG:3857)'],
+  ['other', 'other EPSG code…'],
 ];
 
 /** The CRS chooser: lon/lat, a listed code, or a typed EPSG:nnnn; `read` gives the code or a message. */

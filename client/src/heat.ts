@@ -276,7 +276,7 @@ export function heatPanel(ctx: AppContext): HeatPanel {
       replace(out, errorBox(o.problems.join('; ')));
       return;
     }
-    const a = await area.polygon().catch((e: unknown) => ({ problem: `The regions could not be read: ${message(e)}` }) as { polygon?: unknown; problem?: string });
+    const a: { polygon?: unknown; problem?: string } = await area.polygon().catch((e: unknown) => ({ problem: `The regions could not be read: ${message(e)}` }));
     if (a.problem) {
       replace(out, errorBox(a.problem));
       return;

@@ -95,7 +95,7 @@ export function uncertaintyControls(run: RunState, onLayer: (run: RunState) => v
     'div',
     { id: 'uncertainty-controls' },
     el('h3', {}, 'Uncertainty'),
-    el('p', { class: 'note' }, `From the run's ${run.request?.realizations ?? ''} realizations. Depth to an isotherm:`),
+    el('p', { class: 'note' }, `From the run's ${typeof run.request?.realizations === 'number' ? `${run.request.realizations} ` : ''}realizations. Depth to an isotherm:`),
     el('div', { class: 'field-row' }, el('label', { for: iso.id }, 'Isotherm (°C)'), iso),
     el('div', { class: 'field-row' }, el('label', { for: km.id }, 'Shallower than (km)'), km),
     el('div', { class: 'button-row' }, spreadBtn, probBtn),
