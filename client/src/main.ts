@@ -47,7 +47,8 @@ async function loadPage(): Promise<PageStart> {
   if (projectId !== null) {
     try {
       const p = await getJson<{ id: string; title: string; state: unknown; revision: number }>(`/api/projects/${encodeURIComponent(projectId)}`);
-      state = stateFromJson(p.state, state);
+      // A project runs on its own data sets only: the demo's never fill in what its saved state leaves out.
+      state = stateFromJson(p.state, { ...state, params: { ...defaultParams({}), sites: '' } });
       state.title = p.title || state.title;
     } catch (e) {
       restoreError = `Could not open project ${projectId}: ${message(e)}`;
