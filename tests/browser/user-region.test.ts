@@ -206,9 +206,13 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     await page.locator('#unc-exceeds').fill('150');
     await page.locator('#unc-exceedance').click();
     await expect.poll(() => page.locator('#unc-status').textContent(), { timeout: 180_000, interval: 1000 }).toContain('exceeds 150 °C is among the run');
-    const names = await page.evaluate(() => window.subtherm!.run!.run.layers!.map((l) => `${l.name} [${l.units}]`));
-    expect(names.some((n) => /150/.test(n) && /5/.test(n))).toBe(true);
+    // The page redraws the run with the new layer: temperature at 5 km, probability above 150 °C.
+    await expect.poll(() => page.evaluate(() => window.subtherm!.map.getStyle().layers.find((l) => l.id.endsWith('prob-gt-150C'))?.id ?? null), { timeout: 60_000 }).toMatch(/^run-temperature-5km.prob-gt-150C$/);
     await waitForMapIdle(page);
+    expect(await page.locator('#run-layers').textContent()).toContain('Probability that the temperature at 5 km exceeds 150 °C');
+    const probLayer = await page.evaluate(() => window.subtherm!.map.getStyle().layers.find((l) => l.id.endsWith('prob-gt-150C'))!.id);
+    const pcov = await rampCoverage(page, probLayer);
+    expect(pcov.ramp, JSON.stringify(pcov)).toBeGreaterThan(0.8);
     await shot(page, 'exceedance');
   });
 
@@ -296,10 +300,6 @@ describe('a user region in the other hemisphere, end to end in the page', { time
       const center = await fresh.evaluate(() => window.subtherm!.map.getCenter().toArray());
       expect(center[0]).toBeGreaterThan(BBOX[0]);
       expect(center[0]).toBeLessThan(BBOX[2]);
-      await fresh.evaluate(() => {
-        const m = window.subtherm!.map;
-        for (const l of ['run-heat-flow', 'run-depth-300C']) if (m.getLayer(l)) m.setLayoutProperty(l, 'visibility', 'visible');
-      });
       for (const layer of ['run-heat-flow', 'run-depth-300C']) {
         const cov = await rampCoverage(fresh, layer);
         expect(cov.ramp, `${layer}: ${JSON.stringify(cov)}`).toBeGreaterThan(0.8);

@@ -15,6 +15,7 @@ export async function rampCoverage(p: Page, mapLayer: string, bbox: [number, num
       const ramp = legend.colors.map(hex);
       const hidden = map.getStyle().layers.filter((l) => l.id !== id && l.type !== 'background' && (map.getLayoutProperty(l.id, 'visibility') ?? 'visible') === 'visible').map((l) => l.id);
       for (const l of hidden) map.setLayoutProperty(l, 'visibility', 'none');
+      const ownVisibility = (map.getLayoutProperty(id, 'visibility') as 'visible' | 'none' | undefined) ?? 'visible';
       map.setLayoutProperty(id, 'visibility', 'visible');
       const opacity = map.getPaintProperty(id, 'color-relief-opacity');
       map.setPaintProperty(id, 'color-relief-opacity', 1);
@@ -52,6 +53,7 @@ export async function rampCoverage(p: Page, mapLayer: string, bbox: [number, num
           }
           for (const l of hidden) map.setLayoutProperty(l, 'visibility', 'visible');
           map.setPaintProperty(id, 'color-relief-opacity', opacity);
+          map.setLayoutProperty(id, 'visibility', ownVisibility);
           resolve({ ramp: onRamp / n, base: onBase / n, n });
         };
         map.once('idle', measure);
