@@ -255,17 +255,24 @@ export function heatPanel(ctx: AppContext): HeatPanel {
   const status = el('p', { class: 'run-message', id: 'hip-status', 'aria-live': 'polite' });
   const out = el('div', { id: 'hip-out' });
 
+  // A run with realizations lends its own: its simulated heat-flow fields and its seed (the server uses them).
+  let runRealizations = 0;
+  const ownRealizations = () => runRealizations > 0;
+  const seedRow = el('div', { class: 'field-row' });
+  const corrRow = el('div', { class: 'field-row' }, el('label', { for: corr.id }, 'Heat-flow errors'), corr);
+  const realizationsNote = el('p', { class: 'note', id: 'hip-realizations-note' });
   const readOptions = (): { options?: Record<string, unknown>; problems: string[] } => {
     const options: Record<string, unknown> = {};
     const problems: string[] = [];
     FIELDS.forEach((f, i) => {
+      if (f.key === 'seed' && ownRealizations()) return;
       const r = readOption(inputs[i].value, f.label, f.uncertain === true);
       inputs[i].setAttribute('aria-invalid', String(r.problem !== undefined));
       if (r.problem) problems.push(r.problem);
       else if (r.value !== undefined) options[f.key] = r.value;
       else if (!f.optional) problems.push(`${f.label}: a value is needed`);
     });
-    options.heatFlowErrorCorrelation = corr.value;
+    if (!ownRealizations()) options.heatFlowErrorCorrelation = corr.value;
     return problems.length > 0 ? { problems } : { options, problems };
   };
 
@@ -307,7 +314,8 @@ export function heatPanel(ctx: AppContext): HeatPanel {
   };
   btn.addEventListener('click', () => void compute());
 
-  const rows = FIELDS.map((f, i) => el('div', { class: 'field-row' }, el('label', { for: f.id }, f.label), inputs[i]));
+  const rows = FIELDS.map((f) => (f.key === 'seed' ? seedRow : el('div', { class: 'field-row' })));
+  FIELDS.forEach((f, i) => rows[i].append(el('label', { for: f.id }, f.label), inputs[i]));
   const root = el(
     'div',
     { class: 'heat-panel' },
@@ -316,8 +324,9 @@ export function heatPanel(ctx: AppContext): HeatPanel {
     area.root,
     el('h3', {}, 'Reservoir and plant'),
     ...rows,
-    el('div', { class: 'field-row' }, el('label', { for: corr.id }, 'Heat-flow errors'), corr),
-    el('p', { class: 'note' }, 'ρC, the recovery factor and the efficiencies take a number or a distribution as JSON, e.g. {"dist":"triangular","min":0.05,"mode":0.1,"max":0.2}. The heat-flow uncertainty is the run\'s kriging standard deviation.'),
+    corrRow,
+    realizationsNote,
+    el('p', { class: 'note' }, 'ρC, the recovery factor and the efficiencies take a number or a distribution as JSON, e.g. {"dist":"triangular","min":0.05,"mode":0.1,"max":0.2}.'),
     el('div', { class: 'button-row' }, btn),
     progress,
     status,
@@ -330,6 +339,14 @@ export function heatPanel(ctx: AppContext): HeatPanel {
     setRun(r) {
       run = r && r.status === 'done' ? r : null;
       btn.disabled = run === null;
+      const n = run?.request?.realizations;
+      runRealizations = typeof n === 'number' && n > 0 ? n : 0;
+      seedRow.hidden = corrRow.hidden = ownRealizations();
+      const realizationsInput = inputs[FIELDS.findIndex((f) => f.key === 'realizations')];
+      if (ownRealizations()) realizationsInput.value = String(Math.min(runRealizations, Number(realizationsInput.value) || runRealizations));
+      realizationsNote.textContent = ownRealizations()
+        ? `The heat-flow uncertainty comes from the run's own ${runRealizations} realizations (its simulated heat-flow fields and its seed), the same ones its percentile, spread and probability maps use; ask for at most ${runRealizations}.`
+        : "The run has no realizations: the heat-flow uncertainty is its kriging standard deviation, drawn with the seed above.";
       runLine.textContent = run ? `Over run ${run.id}.` : 'Run a model first (Run tab): heat in place is computed over a finished run.';
     },
   };
