@@ -12,14 +12,11 @@ import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
 import {
-  assessHeatInPlace,
   parseAreaPolygon,
   parseHeatInPlaceOptions,
   parseZonePolygons,
-  polygonsOf,
   reportCsv,
   zonesFromClassGrid,
-  zonesFromPolygons,
   type AreaGeometry,
   type HeatInPlaceReport,
   type ZoneLabels,
@@ -31,7 +28,7 @@ import { SIMULATION_HELP, SIMULATION_OPTIONS, gridOptionsFromArgs, readSimulatio
 import { simulateGrid, type SimulationOptions } from '../../shared/interp/simulateField.ts';
 import { interpolateGrid } from '../../shared/interp/interpolate.ts';
 import { MAX_SIMULATED_VALUES, SIMULATION_STREAM_OFFSET } from '../runs/heat-flow-simulation.ts';
-import { gridGeometry, outlineInGrid, resultHtml } from '../io/resource-output.ts';
+import { assessOnGrid } from '../io/resource-output.ts';
 
 const HELP = `subtherm heat-in-place (--heat-flow G.tif | --points P.geojson --realizations N) --model M.json [options] [--json]
 
@@ -197,8 +194,8 @@ export async function heatInPlace(argv: string[]): Promise<number> {
     hashes.polygon = sha256(b);
   }
   const zonesPath = str('zones');
-  const geo = await gridGeometry(hf.grid, polygon !== undefined || (zonesPath !== undefined && !/\.tiff?$/i.test(zonesPath)));
   let zones: (ZoneLabels & { source: string }) | undefined;
+  let zonePolygons: { name: string; geometry: AreaGeometry }[] | undefined;
   if (zonesPath !== undefined) {
     if (/\.tiff?$/i.test(zonesPath)) {
       const zg = await readGrid(zonesPath, 'zones');
@@ -210,12 +207,11 @@ export async function heatInPlace(argv: string[]): Promise<number> {
       hashes.zones = zg.hash;
     } else {
       const b = await readBytes(zonesPath, 'zones');
-      const regions = parseZonePolygons(parseJson(b.toString('utf8'), zonesPath, 'zones'), str('zone-property'), zonesPath);
-      zones = { ...zonesFromPolygons(hf.grid, regions.map((r) => ({ name: r.name, polygons: polygonsOf(r.geometry) })), geo.centresLonLat), source: 'polygons' };
+      zonePolygons = parseZonePolygons(parseJson(b.toString('utf8'), zonesPath, 'zones'), str('zone-property'), zonesPath);
       hashes.zones = sha256(b);
     }
   }
-  const res = assessHeatInPlace({
+  const { result: res, html } = await assessOnGrid({
     heatFlow: hf.grid,
     heatFlowSd: sd?.grid,
     heatFlowRealizations: simulated?.realizations,
@@ -224,9 +220,7 @@ export async function heatInPlace(argv: string[]): Promise<number> {
     polygon,
     polygonLabel,
     zones,
-    centresLonLat: geo.centresLonLat,
-    metresPerUnit: geo.metresPerUnit,
-    toLonLat: geo.toLonLat,
+    zonePolygons,
     options,
     inputHashes: hashes,
   });
@@ -236,7 +230,7 @@ export async function heatInPlace(argv: string[]): Promise<number> {
     files.csv = str('out-csv')!;
   }
   if (str('out-html') !== undefined) {
-    await writeFile(str('out-html')!, resultHtml(res, outlineInGrid(polygon, geo.toGrid)));
+    await writeFile(str('out-html')!, html());
     files.html = str('out-html')!;
   }
   res.report.warnings.unshift(...extraWarnings, ...(simulated?.warnings ?? []));

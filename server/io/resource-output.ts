@@ -5,7 +5,7 @@
 import { isLonLatCrs } from '../../shared/geodesy/cell-area.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
 import { converter, loadCrsDefinition, metresPerUnit, WGS84_DEF } from '../../shared/interp/projection.ts';
-import { gridCentresLonLat, polygonsOf, type AreaGeometry, type HeatInPlaceResult } from '../../shared/resource/index.ts';
+import { assessHeatInPlace, gridCentresLonLat, polygonsOf, zonesFromPolygons, type AreaGeometry, type HeatInPlaceInput, type HeatInPlaceResult } from '../../shared/resource/index.ts';
 import { densityPng, renderReportHtml } from './report-html.ts';
 
 /** Everything the assessment needs beyond the grids and options: projected-grid centres and units. */
@@ -40,3 +40,18 @@ export function resultHtml(res: HeatInPlaceResult, outline: number[][][] | undef
   return renderReportHtml(res.report, { map, grid: res.layout, outline, mapLabel: mc ? 'P50 of the realizations' : 'nominal' });
 }
 
+
+/** An assessment's input without the grid geometry, which `assessOnGrid` derives; zones may come as region polygons. */
+export type GridAssessment = Omit<HeatInPlaceInput, 'centresLonLat' | 'metresPerUnit' | 'toLonLat'> & { zonePolygons?: { name: string; geometry: AreaGeometry }[] };
+
+/**
+ * The heat-in-place assessment over a grid (shared/resource/assess.ts), with the grid's geometry: polygon and
+ * zone-polygon membership by cell centre (through lon/lat on a projected grid), ground areas, and the printable page.
+ */
+export async function assessOnGrid(a: GridAssessment): Promise<{ result: HeatInPlaceResult; html: () => string }> {
+  const { zonePolygons, ...input } = a;
+  const geo = await gridGeometry(a.heatFlow, a.polygon !== undefined || zonePolygons !== undefined);
+  const zones = zonePolygons !== undefined ? { ...zonesFromPolygons(a.heatFlow, zonePolygons.map((r) => ({ name: r.name, polygons: polygonsOf(r.geometry) })), geo.centresLonLat), source: 'polygons' } : a.zones;
+  const result = assessHeatInPlace({ ...input, zones, centresLonLat: geo.centresLonLat, metresPerUnit: geo.metresPerUnit, toLonLat: geo.toLonLat });
+  return { result, html: () => resultHtml(result, outlineInGrid(a.polygon, geo.toGrid)) };
+}

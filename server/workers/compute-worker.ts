@@ -6,16 +6,13 @@
 import { InputError, type InputProblem } from '../../shared/errors.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
 import {
-  assessHeatInPlace,
   parseAreaPolygon,
   parseHeatInPlaceOptions,
   parseZonePolygons,
-  polygonsOf,
   reportCsv,
-  zonesFromPolygons,
 } from '../../shared/resource/index.ts';
 import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
-import { gridGeometry, outlineInGrid, resultHtml } from '../io/resource-output.ts';
+import { assessOnGrid } from '../io/resource-output.ts';
 import { computeColumn, type ColumnQuery } from '../../shared/products/column.ts';
 import { runGridOf, sampleAtLonLat } from '../runs/grids.ts';
 import { computeSection, linesOf, type LineFeature } from '../../shared/products/section.ts';
@@ -127,9 +124,7 @@ async function heatInPlace(t: HeatInPlaceTask): Promise<HeatInPlaceOutput> {
   const options = parseHeatInPlaceOptions(body.options ?? {}, 'options');
   const model = parseThermalModel(t.model, 'run model');
   const polygon = body.polygon !== undefined ? parseAreaPolygon(body.polygon, 'polygon') : undefined;
-  const regions = body.zones !== undefined ? parseZonePolygons(body.zones, body.zoneProperty, 'zones') : undefined;
-  const geo = await gridGeometry(t.heatFlow, polygon !== undefined || regions !== undefined);
-  const zones = regions !== undefined ? { ...zonesFromPolygons(t.heatFlow, regions.map((r) => ({ name: r.name, polygons: polygonsOf(r.geometry) })), geo.centresLonLat), source: 'polygons' } : undefined;
+  const zonePolygons = body.zones !== undefined ? parseZonePolygons(body.zones, body.zoneProperty, 'zones') : undefined;
   const label = (body.polygon as { properties?: { name?: unknown } } | undefined)?.properties?.name;
   // The run's own realizations: its simulated heat-flow fields and its seed (so the model draws are the run's too).
   let heatFlowRealizations: { values: Float32Array; source: string } | undefined;
@@ -148,7 +143,7 @@ async function heatInPlace(t: HeatInPlaceTask): Promise<HeatInPlaceOutput> {
     }
   }
 
-  const res = assessHeatInPlace({
+  const { result, html } = await assessOnGrid({
     heatFlow: t.heatFlow,
     heatFlowSd,
     heatFlowRealizations,
@@ -156,13 +151,10 @@ async function heatInPlace(t: HeatInPlaceTask): Promise<HeatInPlaceOutput> {
     modelLabel: model.name,
     polygon,
     polygonLabel: typeof label === 'string' ? label : undefined,
-    zones,
-    centresLonLat: geo.centresLonLat,
-    metresPerUnit: geo.metresPerUnit,
-    toLonLat: geo.toLonLat,
+    zonePolygons,
     options,
     inputHashes: { run: t.runId },
   });
-  res.report.warnings.unshift(...notes);
-  return { report: res.report, html: resultHtml(res, outlineInGrid(polygon, geo.toGrid)), csv: reportCsv(res.report) };
+  result.report.warnings.unshift(...notes);
+  return { report: result.report, html: html(), csv: reportCsv(result.report) };
 }
