@@ -182,6 +182,10 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     return c.json({
       ok: true,
       version: VERSION,
+      store: opts.store.kind,
+      // Runs execute in this server's worker threads.
+      queue: 'in-process',
+      workers: limits.runConcurrency,
       // Delay of the request thread's event loop since the window began (the previous full minute beside it).
       eventLoopDelayMs: { ...current, windowStartedAt: new Date(loopWindowStart).toISOString(), previousMinute: lastWindow },
       runs: jobs.counts(),

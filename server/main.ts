@@ -4,6 +4,8 @@ import { join } from 'node:path';
 import type { AddressInfo } from 'node:net';
 import { createApp } from './app.ts';
 import { SqliteStore } from './store/sqlite.ts';
+import { PostgresStore } from './store/postgres.ts';
+import type { Store } from './store/types.ts';
 import { InputError } from '../shared/errors.ts';
 import { DEMO_TERRAIN, loadDemo, loadDemoTerrain } from './demo.ts';
 import { loadDem, TerrainTiles } from './terrain.ts';
@@ -15,6 +17,8 @@ export interface ServerOptions {
   port: number;
   host?: string;
   dbPath: string;
+  /** postgres://… of a PostgreSQL database (SUBTHERM_DATABASE_URL); used instead of the SQLite file when given. */
+  databaseUrl?: string;
   /** Build the client when client/dist is missing or older than its sources (what `npm start` does). */
   buildClient?: boolean;
   log?: (line: string) => void;
@@ -54,6 +58,37 @@ export async function openStore(dbPath: string): Promise<SqliteStore> {
   }
 }
 
+/** A database URL with its password hidden (for messages and logs). */
+export function redactUrl(url: string): string {
+  try {
+    const u = new URL(url);
+    if (u.password !== '') u.password = '***';
+    return u.toString();
+  } catch {
+    return '(a malformed URL)';
+  }
+}
+
+/**
+ * Connects to a PostgreSQL database and migrates it (loading the demo on first start); a database that cannot be
+ * reached or refuses the login stops the server with a message naming the URL (password hidden) and the fault.
+ */
+export async function openPostgresStore(url: string, log: (line: string) => void = () => {}): Promise<Store> {
+  if (!/^postgres(ql)?:\/\//.test(url)) {
+    throw new InputError(`the database URL must start with postgres:// or postgresql://, got ${redactUrl(url)}`, [{ field: 'database-url', problem: 'not a postgres:// URL' }], 'bad_option');
+  }
+  let store: PostgresStore | null = null;
+  try {
+    store = await PostgresStore.open(url, { log });
+    await loadDemo(store);
+    return store;
+  } catch (e) {
+    await store?.close();
+    const msg = (e as Error).message ?? String(e);
+    throw new InputError(`cannot use the database ${redactUrl(url)}: ${msg}. Check that PostgreSQL runs there and that the user may create tables in that database (see "Running for a team" in the README).`, [{ field: 'database-url', problem: msg }], 'database_unavailable');
+  }
+}
+
 /** Newest modification time (ms) of the files under `path` (a file or a folder, walked recursively); 0 if absent. */
 function newestMtimeMs(path: string): number {
   if (!existsSync(path)) return 0;
@@ -87,7 +122,7 @@ export async function buildClient(log: (line: string) => void = () => {}): Promi
 export async function startServer(opts: ServerOptions) {
   const log = opts.log ?? ((l: string) => process.stdout.write(l + '\n'));
   if (opts.buildClient && clientBuildIsStale()) await buildClient(log);
-  const store = await openStore(opts.dbPath);
+  const store = opts.databaseUrl !== undefined ? await openPostgresStore(opts.databaseUrl, log) : await openStore(opts.dbPath);
   const dem = await loadDem(DEMO_TERRAIN);
   await loadDemoTerrain(store, dem);
   const terrain = new TerrainTiles(dem);
@@ -102,7 +137,7 @@ export async function startServer(opts: ServerOptions) {
   const port = (server.address() as AddressInfo).port;
   // Loopback and all-interfaces binds are reached at localhost from this machine (scripts read this line).
   const shown = ['0.0.0.0', '::', '127.0.0.1', '::1', 'localhost'].includes(host) ? 'localhost' : host.includes(':') ? `[${host}]` : host;
-  log(`subtherm listening on http://${shown}:${port} (database ${opts.dbPath})${host === '127.0.0.1' || host === 'localhost' || host === '::1' ? '; this machine only (--host 0.0.0.0 serves the network)' : ''}`);
+  log(`subtherm listening on http://${shown}:${port} (database ${opts.databaseUrl !== undefined ? redactUrl(opts.databaseUrl) : opts.dbPath})${host === '127.0.0.1' || host === 'localhost' || host === '::1' ? '; this machine only (--host 0.0.0.0 serves the network)' : ''}`);
   const close = async () => {
     await app.close();
     await new Promise<void>((resolve) => server.close(() => resolve()));

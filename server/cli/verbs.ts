@@ -10,6 +10,7 @@ export interface VerbEntry {
 
 export const VERBS: Record<string, VerbEntry> = {
   serve: { summary: 'start the web map and API server', load: async () => (await import('./serve.ts')).serve },
+  migrate: { summary: 'create or update the database schema (SQLite file or PostgreSQL) and exit', load: async () => (await import('./migrate.ts')).migrate },
   wells: { summary: 'well temperatures → corrected temperatures, gradients and heat-flow sites', load: async () => (await import('./wells.ts')).wells },
   'correct-sites': { summary: 'paleoclimatic and topographic corrections of heat-flow sites, with a per-site report', load: async () => (await import('./correct-sites.ts')).correctSitesVerb },
   geotherm: { summary: 'steady-state conductive geotherm of one column (isotherms, temperatures, profile)', load: async () => (await import('./geotherm.ts')).geotherm },

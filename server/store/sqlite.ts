@@ -122,6 +122,7 @@ export function sha256Hex(text: string | Uint8Array): string {
  * as a rejected Promise, as the Store interface promises. Transactions use the `…Now` helpers, which stay synchronous.
  */
 export class SqliteStore implements Store {
+  readonly kind = 'sqlite' as const;
   readonly db: Database.Database;
 
   constructor(path: string) {

@@ -96,6 +96,8 @@ export interface RunRecord {
 export type StoredGridMeta = GridSpec & { units: string };
 
 export interface Store {
+  /** Which engine holds the data (reported by /api/health). */
+  readonly kind: 'sqlite' | 'postgresql';
   /** Stores a data set; with `id` given (the demo's stable ids) an existing record of that id is kept. */
   putDataset(input: { id?: string; kind: string; body: string; featureCount: number; title?: string }): Promise<DatasetRecord>;
   getDataset(id: string): Promise<(DatasetRecord & { body: string }) | null>;
