@@ -5,6 +5,7 @@ import { runRequestSchema } from '../../shared/schema/run.ts';
 import { thermalModelSchema } from '../../shared/schema/model.ts';
 import { VERSION } from '../../shared/version.ts';
 import { VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
+import { columnAnswerSchema } from '../../shared/schema/column.ts';
 import { columnAtRunSchema, columnOfModelSchema, datasetPatchSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
 
 const json = (schema: z.ZodType) => z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any', target: 'draft-2020-12' });
@@ -42,7 +43,7 @@ const UPLOAD_QUERY = {
   filename: 'the file\'s name, used in messages about it',
 };
 
-function op(summary: string, opts: { body?: Record<string, unknown>; bodyType?: string; contents?: Record<string, { schema: Record<string, unknown> }>; ok?: string; okType?: string; errors?: number[]; params?: string[]; query?: Record<string, string>; auth?: boolean } = {}) {
+function op(summary: string, opts: { body?: Record<string, unknown>; bodyType?: string; contents?: Record<string, { schema: Record<string, unknown> }>; ok?: string; okType?: string; okSchema?: Record<string, unknown>; errors?: number[]; params?: string[]; query?: Record<string, string>; auth?: boolean } = {}) {
   const o: Record<string, unknown> = { summary };
   const params: unknown[] = (opts.params ?? []).map((name) => ({ name, in: 'path', required: true, schema: { type: 'string' } }));
   for (const [name, description] of Object.entries(opts.query ?? {})) params.push({ name, in: 'query', required: false, description, schema: { type: 'string' } });
@@ -50,7 +51,7 @@ function op(summary: string, opts: { body?: Record<string, unknown>; bodyType?: 
   if (opts.body) o.requestBody = { required: true, content: { [opts.bodyType ?? 'application/json']: { schema: opts.body } } };
   if (opts.contents) o.requestBody = { required: true, content: opts.contents };
   if (opts.auth) o.security = [{ editToken: [] }];
-  const responses: Record<string, unknown> = { [opts.ok ?? '200']: { description: 'success', content: { [opts.okType ?? 'application/json']: {} } } };
+  const responses: Record<string, unknown> = { [opts.ok ?? '200']: { description: 'success', content: { [opts.okType ?? 'application/json']: opts.okSchema ? { schema: opts.okSchema } : {} } } };
   for (const e of opts.errors ?? []) responses[String(e)] = { description: 'error', content: { 'application/json': { schema: { $ref: '#/components/schemas/Error' } } } };
   o.responses = responses;
   return o;
@@ -113,7 +114,7 @@ export function openApiDocument(): unknown {
         }),
       },
       '/api/column': {
-        post: op('geotherm column at a point of a run, or of a model at a heat flow', { body: { oneOf: [json(columnAtRunSchema), json(columnOfModelSchema)] }, errors: [400, 404, 409, 415, 422] }),
+        post: op('geotherm column at a point of a run, or of a model at a heat flow', { body: { oneOf: [json(columnAtRunSchema), json(columnOfModelSchema)] }, okSchema: z.toJSONSchema(columnAnswerSchema, { io: 'output', unrepresentable: 'any', target: 'draft-2020-12' }), errors: [400, 404, 409, 415, 422] }),
       },
       '/api/section': { post: op('vertical temperature section along a line through a run', { body: json(sectionSchema), errors: [400, 404, 409, 415, 422] }) },
       '/api/projects': { post: op('create a shared project; returns its edit token once', { body: json(projectCreateSchema), ok: '201', errors: [400, 413, 415, 422] }) },

@@ -19,9 +19,13 @@ const columnAxis = {
   isothermsC: isotherms.optional(),
   depthsKm: depths.optional(),
   /** Pore pressure: `hydrostatic` (default) or `lambda:λ` (λ × lithostatic). */
-  porePressure: z.string().regex(/^(hydrostatic|lambda:\d+(\.\d+)?)$/, 'expected hydrostatic or lambda:λ, e.g. lambda:0.7').optional(),
+  porePressure: z
+    .string()
+    .regex(/^(hydrostatic|lambda:\d+(\.\d+)?)$/, 'expected hydrostatic or lambda:λ, e.g. lambda:0.7')
+    .optional()
+    .describe('pore pressure in the profile: "hydrostatic" (default; ρ_fluid·g·z) or "lambda:λ" (λ × lithostatic, Hubbert & Rubey 1959); the answer gives porePressureMPa, poreFluidFactor (λ = pore / lithostatic) and effectivePressureMPa (lithostatic − pore) at each depth'),
   /** Pore-fluid density for hydrostatic pressure, kg/m³ (default 1000). */
-  fluidDensityKgM3: z.number().gt(0).lt(5000).optional(),
+  fluidDensityKgM3: z.number().gt(0).lt(5000).optional().describe('pore-fluid density for hydrostatic pore pressure, kg/m³ (default 1000)'),
 };
 
 /** POST /api/column at a point of a run's heat-flow grid. */
