@@ -77,7 +77,9 @@ export async function buildCli({ quiet = false } = {}) {
     target: 'node20',
     // Packages load from node_modules, except zod: bundled, it is parsed as one file instead of resolving and
     // compiling its many modules at every start (about half the start-up time of a verb).
-    external: Object.keys({ ...PKG.dependencies, ...PKG.devDependencies }).filter((name) => name !== 'zod').flatMap((name) => [name, `${name}/*`]),
+    external: Object.keys({ ...PKG.dependencies, ...PKG.devDependencies })
+      .filter((name) => name !== 'zod')
+      .flatMap((name) => [name, `${name}/*`]),
     chunkNames: '[name]-[hash]',
     logLevel: quiet ? 'error' : 'warning',
     plugins: [keepModuleUrls],

@@ -9,7 +9,7 @@ import { VERSION } from '../shared/version.ts';
 import { httpStatusOf, retryAfterSecondsOf } from './http-status.ts';
 import { CAUTION } from '../shared/caution.ts';
 import type { Store } from './store/types.ts';
-import type { TerrainTiles} from './terrain.ts';
+import type { TerrainTiles } from './terrain.ts';
 import { TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from './terrain.ts';
 import { DEMO_DATASETS, DEMO_PROJECT_ID } from './demo.ts';
 import { startDemoRun } from './demo-run.ts';
@@ -61,7 +61,11 @@ export interface AppOptions {
 /** True for SQLite's "database or disk is full" (SQLITE_FULL) and the file system's "no space left" (ENOSPC). */
 export function isStorageFull(err: unknown): boolean {
   const e = err as { code?: unknown; message?: unknown } | null;
-  return e !== null && typeof e === 'object' && (e.code === 'SQLITE_FULL' || e.code === 'ENOSPC' || (typeof e.message === 'string' && /database or disk is full/.test(e.message)));
+  return (
+    e !== null &&
+    typeof e === 'object' &&
+    (e.code === 'SQLITE_FULL' || e.code === 'ENOSPC' || (typeof e.message === 'string' && /database or disk is full/.test(e.message)))
+  );
 }
 
 /** The default run worker module. */
@@ -102,9 +106,33 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   // Three pools, so long work never holds short work behind it: short column bands (a map click) on threads of
   // normal priority; long columns and sections, and heat-in-place jobs, each on a thread of lowered priority.
   const compute = {
-    short: new ComputePool({ name: 'short column', threads: Math.min(2, availableParallelism()), maxQueue: limits.maxComputeQueue, queueLimit: 'maxComputeQueue', deadlineLimit: 'computeDeadlineSeconds', keepWarm: true, workerFile: opts.computeWorkerFile }),
-    long: new ComputePool({ name: 'long column and section', threads: 1, maxQueue: limits.maxLongComputeQueue, queueLimit: 'maxLongComputeQueue', deadlineLimit: 'computeDeadlineSeconds', niceness: 10, workerFile: opts.computeWorkerFile }),
-    jobs: new ComputePool({ name: 'heat-in-place', threads: 1, maxQueue: limits.maxHeatInPlaceJobsServer, queueLimit: 'maxHeatInPlaceJobsServer', deadlineLimit: 'heatInPlaceDeadlineSeconds', niceness: 10, workerFile: opts.computeWorkerFile }),
+    short: new ComputePool({
+      name: 'short column',
+      threads: Math.min(2, availableParallelism()),
+      maxQueue: limits.maxComputeQueue,
+      queueLimit: 'maxComputeQueue',
+      deadlineLimit: 'computeDeadlineSeconds',
+      keepWarm: true,
+      workerFile: opts.computeWorkerFile,
+    }),
+    long: new ComputePool({
+      name: 'long column and section',
+      threads: 1,
+      maxQueue: limits.maxLongComputeQueue,
+      queueLimit: 'maxLongComputeQueue',
+      deadlineLimit: 'computeDeadlineSeconds',
+      niceness: 10,
+      workerFile: opts.computeWorkerFile,
+    }),
+    jobs: new ComputePool({
+      name: 'heat-in-place',
+      threads: 1,
+      maxQueue: limits.maxHeatInPlaceJobsServer,
+      queueLimit: 'maxHeatInPlaceJobsServer',
+      deadlineLimit: 'heatInPlaceDeadlineSeconds',
+      niceness: 10,
+      workerFile: opts.computeWorkerFile,
+    }),
   };
   const heatJobs = new HeatJobs({
     pool: compute.jobs,
@@ -115,8 +143,9 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   });
   const trustedProxies = parseTrustedProxies((opts.trustedProxies ?? []).join(',') || process.env.SUBTHERM_TRUSTED_PROXIES);
   const ctx: AppContext = { store: opts.store, limits, jobs, grids: new RunGridCache(opts.store), workerFile, compute, heatJobs, trustedProxies };
-  const publicBase = (opts.publicBaseUrl !== undefined ? opts.publicBaseUrl : process.env.SUBTHERM_PUBLIC_URL ?? null)?.replace(/\/+$/, '') ?? null;
-  if (publicBase !== null && !/^https?:\/\/[^/?#\s]+(\/[^?#\s]*)?$/.test(publicBase)) throw new RangeError(`the public base URL must be http(s)://host[/path], got ${publicBase}`);
+  const publicBase = (opts.publicBaseUrl !== undefined ? opts.publicBaseUrl : (process.env.SUBTHERM_PUBLIC_URL ?? null))?.replace(/\/+$/, '') ?? null;
+  if (publicBase !== null && !/^https?:\/\/[^/?#\s]+(\/[^?#\s]*)?$/.test(publicBase))
+    throw new RangeError(`the public base URL must be http(s)://host[/path], got ${publicBase}`);
   // Event-loop delay (Node's histogram, 10 ms resolution), reported by /api/health over a rolling window.
   const loopDelay = monitorEventLoopDelay({ resolution: 10 });
   loopDelay.enable();
@@ -128,13 +157,20 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     loopWindowStart = Date.now();
   }, 60_000);
   loopTimer.unref();
-  const accessLog = opts.accessLog !== undefined ? opts.accessLog : process.env.SUBTHERM_ACCESS_LOG === '1' ? (l: string) => process.stdout.write(l + '\n') : null;
+  const accessLog =
+    opts.accessLog !== undefined ? opts.accessLog : process.env.SUBTHERM_ACCESS_LOG === '1' ? (l: string) => process.stdout.write(l + '\n') : null;
 
   app.onError((err, c) => {
     if (isStorageFull(err)) {
       // Each write is one transaction, so nothing was half written; reads go on being served.
-      console.error(`[${new Date().toISOString()}] ${c.req.method} ${new URL(c.req.url).pathname}: storage full (${(err).message})`);
-      return c.json(errorBody('insufficient_storage', 'the server has no room left to store this (its disk or database is full); nothing was saved. Reading works as before; tell the operator.'), 507);
+      console.error(`[${new Date().toISOString()}] ${c.req.method} ${new URL(c.req.url).pathname}: storage full (${err.message})`);
+      return c.json(
+        errorBody(
+          'insufficient_storage',
+          'the server has no room left to store this (its disk or database is full); nothing was saved. Reading works as before; tell the operator.',
+        ),
+        507,
+      );
     }
     if (err instanceof InputError) {
       const status = httpStatusOf(err.code);
@@ -163,7 +199,12 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     try {
       decodeURIComponent(path);
     } catch {
-      return c.json(errorBody('bad_url', 'the URL has malformed percent-encoding', [{ field: 'path', problem: 'each % must be followed by two hex digits forming valid UTF-8' }]), 400);
+      return c.json(
+        errorBody('bad_url', 'the URL has malformed percent-encoding', [
+          { field: 'path', problem: 'each % must be followed by two hex digits forming valid UTF-8' },
+        ]),
+        400,
+      );
     }
     await next();
   });
@@ -172,7 +213,14 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     bodyLimit({
       maxSize: limits.maxBodyBytes,
       onError: (c) =>
-        c.json(errorBody('body_too_large', `the request body is larger than ${limits.maxBodyBytes} bytes (${(limits.maxBodyBytes / 1048576).toFixed(0)} MB), the server's limit`, [{ field: '(body)', problem: `at most ${limits.maxBodyBytes} bytes` }]), 413),
+        c.json(
+          errorBody(
+            'body_too_large',
+            `the request body is larger than ${limits.maxBodyBytes} bytes (${(limits.maxBodyBytes / 1048576).toFixed(0)} MB), the server's limit`,
+            [{ field: '(body)', problem: `at most ${limits.maxBodyBytes} bytes` }],
+          ),
+          413,
+        ),
     }),
   );
 
@@ -206,7 +254,14 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
         datasets: Object.fromEntries(DEMO_DATASETS.map((d) => [d.kind, d.id])),
       },
       terrain: opts.terrain
-        ? { tiles: '/api/terrain/{z}/{x}/{y}.png', bounds: opts.terrain.bbox, minzoom: TERRAIN_MIN_ZOOM, maxzoom: TERRAIN_MAX_ZOOM, encoding: 'mapbox', tileSize: 256 }
+        ? {
+            tiles: '/api/terrain/{z}/{x}/{y}.png',
+            bounds: opts.terrain.bbox,
+            minzoom: TERRAIN_MIN_ZOOM,
+            maxzoom: TERRAIN_MAX_ZOOM,
+            encoding: 'mapbox',
+            tileSize: 256,
+          }
         : null,
     }),
   );
@@ -215,7 +270,12 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
 
   // Data sets are listed through the project that holds them.
   app.get('/api/datasets', (c) =>
-    c.json(errorBody('listed_per_project', 'data sets are listed per project: GET /api/projects/{id}/datasets', [{ field: 'path', problem: 'use /api/projects/{id}/datasets' }]), 410),
+    c.json(
+      errorBody('listed_per_project', 'data sets are listed per project: GET /api/projects/{id}/datasets', [
+        { field: 'path', problem: 'use /api/projects/{id}/datasets' },
+      ]),
+      410,
+    ),
   );
   datasetRoutes(app, ctx);
 
@@ -230,12 +290,22 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
     const { z, x } = c.req.param();
     const yFile = c.req.param('y');
     const m = /^(\d+)\.png$/.exec(yFile);
-    const zi = Number(z), xi = Number(x);
+    const zi = Number(z),
+      xi = Number(x);
     if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) {
-      throw new InputError('terrain tiles are /api/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: `got ${z}/${x}/${yFile}` }], 'bad_tile');
+      throw new InputError(
+        'terrain tiles are /api/terrain/{z}/{x}/{y}.png with integer z, x, y',
+        [{ field: 'path', problem: `got ${z}/${x}/${yFile}` }],
+        'bad_tile',
+      );
     }
     const png = opts.terrain?.tile(zi, xi, Number(m[1])) ?? null;
-    if (!png) throw new InputError(`no terrain tile ${z}/${x}/${m[1]}`, [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }], 'tile_not_found');
+    if (!png)
+      throw new InputError(
+        `no terrain tile ${z}/${x}/${m[1]}`,
+        [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }],
+        'tile_not_found',
+      );
     return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'public, max-age=3600' });
   });
 

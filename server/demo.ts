@@ -69,7 +69,14 @@ export async function loadDemo(store: Store): Promise<void> {
 export async function loadDemoTerrain(store: Store, dem: Grid<Float32Array>): Promise<void> {
   if ((await store.getProjectTerrain(DEMO_PROJECT_ID)) !== null) return;
   const { values, ...spec } = dem;
-  await store.putProjectTerrain(DEMO_PROJECT_ID, values, { ...spec, crs: 'EPSG:4326', units: 'm', sourceCrs: 'EPSG:4326', sourceBytes: values.byteLength, name: 'Orrindel terrain' });
+  await store.putProjectTerrain(DEMO_PROJECT_ID, values, {
+    ...spec,
+    crs: 'EPSG:4326',
+    units: 'm',
+    sourceCrs: 'EPSG:4326',
+    sourceBytes: values.byteLength,
+    name: 'Orrindel terrain',
+  });
 }
 
 /** Creates the demo project holding the demo data sets under their names (kept if already there). */

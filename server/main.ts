@@ -52,7 +52,11 @@ export async function openStore(dbPath: string): Promise<SqliteStore> {
       );
     }
     if (/FULL/.test(code) || /ENOSPC/.test(code)) {
-      throw new InputError(`the disk holding the database ${dbPath} is full: free some space, or give another path with --db or SUBTHERM_DB.`, [{ field: 'db', problem: 'disk full' }], 'database_disk_full');
+      throw new InputError(
+        `the disk holding the database ${dbPath} is full: free some space, or give another path with --db or SUBTHERM_DB.`,
+        [{ field: 'db', problem: 'disk full' }],
+        'database_disk_full',
+      );
     }
     throw e;
   }
@@ -75,7 +79,11 @@ export function redactUrl(url: string): string {
  */
 export async function openPostgresStore(url: string, log: (line: string) => void = () => {}): Promise<Store> {
   if (!/^postgres(ql)?:\/\//.test(url)) {
-    throw new InputError(`the database URL must start with postgres:// or postgresql://, got ${redactUrl(url)}`, [{ field: 'database-url', problem: 'not a postgres:// URL' }], 'bad_option');
+    throw new InputError(
+      `the database URL must start with postgres:// or postgresql://, got ${redactUrl(url)}`,
+      [{ field: 'database-url', problem: 'not a postgres:// URL' }],
+      'bad_option',
+    );
   }
   let store: PostgresStore | null = null;
   try {
@@ -85,7 +93,11 @@ export async function openPostgresStore(url: string, log: (line: string) => void
   } catch (e) {
     await store?.close();
     const msg = (e as Error).message ?? String(e);
-    throw new InputError(`cannot use the database ${redactUrl(url)}: ${msg}. Check that PostgreSQL runs there and that the user may create tables in that database (see "Running for a team" in the README).`, [{ field: 'database-url', problem: msg }], 'database_unavailable');
+    throw new InputError(
+      `cannot use the database ${redactUrl(url)}: ${msg}. Check that PostgreSQL runs there and that the user may create tables in that database (see "Running for a team" in the README).`,
+      [{ field: 'database-url', problem: msg }],
+      'database_unavailable',
+    );
   }
 }
 
@@ -128,7 +140,13 @@ export async function startServer(opts: ServerOptions) {
   const terrain = new TerrainTiles(dem);
   // The demo project's default run starts in the background unless SUBTHERM_DEMO_RUN=0.
   const demoRun = opts.demoRun ?? process.env.SUBTHERM_DEMO_RUN !== '0';
-  const app = createApp({ store, terrain, clientDir: existsSync(join(CLIENT_DIST, 'index.html')) ? CLIENT_DIST : null, demoRun, publicBaseUrl: opts.publicBaseUrl });
+  const app = createApp({
+    store,
+    terrain,
+    clientDir: existsSync(join(CLIENT_DIST, 'index.html')) ? CLIENT_DIST : null,
+    demoRun,
+    publicBaseUrl: opts.publicBaseUrl,
+  });
   await app.ready;
   const host = opts.host ?? '127.0.0.1';
   const server = await new Promise<ReturnType<typeof serve>>((resolve) => {
@@ -137,7 +155,9 @@ export async function startServer(opts: ServerOptions) {
   const port = (server.address() as AddressInfo).port;
   // Loopback and all-interfaces binds are reached at localhost from this machine (scripts read this line).
   const shown = ['0.0.0.0', '::', '127.0.0.1', '::1', 'localhost'].includes(host) ? 'localhost' : host.includes(':') ? `[${host}]` : host;
-  log(`subtherm listening on http://${shown}:${port} (database ${opts.databaseUrl !== undefined ? redactUrl(opts.databaseUrl) : opts.dbPath})${host === '127.0.0.1' || host === 'localhost' || host === '::1' ? '; this machine only (--host 0.0.0.0 serves the network)' : ''}`);
+  log(
+    `subtherm listening on http://${shown}:${port} (database ${opts.databaseUrl !== undefined ? redactUrl(opts.databaseUrl) : opts.dbPath})${host === '127.0.0.1' || host === 'localhost' || host === '::1' ? '; this machine only (--host 0.0.0.0 serves the network)' : ''}`,
+  );
   const close = async () => {
     await app.close();
     await new Promise<void>((resolve) => server.close(() => resolve()));

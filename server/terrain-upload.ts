@@ -14,7 +14,10 @@ import { readGeoTiff } from './io/geotiff.ts';
 /** Most cells a terrain may have (source or reprojected): 40 million (160 MB of Float32). */
 export const MAX_TERRAIN_CELLS = 40_000_000;
 
-interface Dir { loadValue(k: string): Promise<unknown>; hasTag(k: string): boolean }
+interface Dir {
+  loadValue(k: string): Promise<unknown>;
+  hasTag(k: string): boolean;
+}
 
 const bad = (message: string, problem: string, code = 'bad_geotiff') => new InputError(message, [{ field: '(body)', problem }], code);
 
@@ -28,7 +31,11 @@ export interface DemHeader {
 /** Checks a DEM upload before decoding; throws InputError (413/415/422) naming what is wrong. */
 export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promise<DemHeader> {
   if (bytes.byteLength > maxBytes) {
-    throw bad(`the terrain is ${bytes.byteLength} bytes, over the limit of ${maxBytes} bytes (${(maxBytes / 1048576).toFixed(0)} MB)`, `at most ${maxBytes} bytes (SUBTHERM_MAX_TERRAIN_BYTES)`, 'terrain_too_large');
+    throw bad(
+      `the terrain is ${bytes.byteLength} bytes, over the limit of ${maxBytes} bytes (${(maxBytes / 1048576).toFixed(0)} MB)`,
+      `at most ${maxBytes} bytes (SUBTHERM_MAX_TERRAIN_BYTES)`,
+      'terrain_too_large',
+    );
   }
   const sig = bytes.byteLength >= 4 ? (bytes[0] << 24) | (bytes[1] << 16) | (bytes[2] << 8) | bytes[3] : 0;
   // TIFF (TIFF 6.0 §2: "II*\0" or "MM\0*") and BigTIFF ("II+\0", "MM\0+").
@@ -42,10 +49,15 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
   } catch (e) {
     throw bad(`the terrain GeoTIFF's header cannot be read: ${e instanceof Error ? e.message : String(e)}`, 'a readable TIFF header');
   }
-  const width = image.getWidth(), height = image.getHeight();
+  const width = image.getWidth(),
+    height = image.getHeight();
   if (!(width >= 2 && height >= 2)) throw bad(`the terrain has ${width} × ${height} pixels; a DEM needs at least 2 × 2`, 'at least 2 × 2 pixels');
   if (width * height > MAX_TERRAIN_CELLS) {
-    throw bad(`the terrain claims ${width} × ${height} = ${(width * height).toLocaleString('en')} pixels, over the limit of ${MAX_TERRAIN_CELLS.toLocaleString('en')}`, `at most ${MAX_TERRAIN_CELLS} pixels`, 'terrain_too_large');
+    throw bad(
+      `the terrain claims ${width} × ${height} = ${(width * height).toLocaleString('en')} pixels, over the limit of ${MAX_TERRAIN_CELLS.toLocaleString('en')}`,
+      `at most ${MAX_TERRAIN_CELLS} pixels`,
+      'terrain_too_large',
+    );
   }
   const spp = image.getSamplesPerPixel();
   if (spp !== 1) throw bad(`the terrain has ${spp} bands; a DEM has one (elevation in metres)`, 'one band');
@@ -53,11 +65,14 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
   const tiled = dir.hasTag('TileOffsets');
   const offsets = (await dir.loadValue(tiled ? 'TileOffsets' : 'StripOffsets')) as ArrayLike<number> | undefined;
   const counts = (await dir.loadValue(tiled ? 'TileByteCounts' : 'StripByteCounts')) as ArrayLike<number> | undefined;
-  if (!offsets || !counts || offsets.length !== counts.length) throw bad('the terrain GeoTIFF has no pixel data directory (strip or tile offsets and byte counts)', 'strip or tile offsets and byte counts');
+  if (!offsets || !counts || offsets.length !== counts.length)
+    throw bad('the terrain GeoTIFF has no pixel data directory (strip or tile offsets and byte counts)', 'strip or tile offsets and byte counts');
   let expectedBlocks: number;
-  let rowsPerBlock: number, blockWidth = width;
+  let rowsPerBlock: number,
+    blockWidth = width;
   if (tiled) {
-    const tw = Number(await dir.loadValue('TileWidth')), th = Number(await dir.loadValue('TileLength'));
+    const tw = Number(await dir.loadValue('TileWidth')),
+      th = Number(await dir.loadValue('TileLength'));
     expectedBlocks = Math.ceil(width / tw) * Math.ceil(height / th);
     rowsPerBlock = th;
     blockWidth = tw;
@@ -67,13 +82,21 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
     expectedBlocks = Math.ceil(height / rowsPerBlock);
   }
   if (offsets.length < expectedBlocks) {
-    throw bad(`the terrain claims ${width} × ${height} pixels but has ${offsets.length} of the ${expectedBlocks} ${tiled ? 'tiles' : 'strips'} they need`, `${expectedBlocks} ${tiled ? 'tiles' : 'strips'}`, 'truncated_geotiff');
+    throw bad(
+      `the terrain claims ${width} × ${height} pixels but has ${offsets.length} of the ${expectedBlocks} ${tiled ? 'tiles' : 'strips'} they need`,
+      `${expectedBlocks} ${tiled ? 'tiles' : 'strips'}`,
+      'truncated_geotiff',
+    );
   }
   let held = 0;
   for (let i = 0; i < offsets.length; i++) {
     const end = offsets[i] + counts[i];
     if (!(offsets[i] >= 0 && end <= bytes.byteLength)) {
-      throw bad(`the terrain claims pixel data up to byte ${end}, beyond the end of the file (${bytes.byteLength} bytes): the file is truncated or its header is wrong`, `${tiled ? 'tile' : 'strip'} ${i} ends past the end of the file`, 'truncated_geotiff');
+      throw bad(
+        `the terrain claims pixel data up to byte ${end}, beyond the end of the file (${bytes.byteLength} bytes): the file is truncated or its header is wrong`,
+        `${tiled ? 'tile' : 'strip'} ${i} ends past the end of the file`,
+        'truncated_geotiff',
+      );
     }
     held += counts[i];
   }
@@ -81,7 +104,11 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
   if (compression === 1) {
     const need = tiled ? expectedBlocks * blockWidth * rowsPerBlock * image.getBytesPerPixel() : width * height * image.getBytesPerPixel();
     if (held < need) {
-      throw bad(`the terrain claims ${width} × ${height} pixels (${need} bytes uncompressed) but holds ${held} bytes of pixel data`, `${need} bytes of pixels`, 'truncated_geotiff');
+      throw bad(
+        `the terrain claims ${width} × ${height} pixels (${need} bytes uncompressed) but holds ${held} bytes of pixel data`,
+        `${need} bytes of pixels`,
+        'truncated_geotiff',
+      );
     }
   }
   let origin: number[];
@@ -94,8 +121,10 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
   void origin;
   const keys = (image.getGeoKeys() ?? {}) as Record<string, unknown>;
   const code = keys.ProjectedCSTypeGeoKey ?? keys.GeographicTypeGeoKey;
-  if (typeof code !== 'number' || code === 32767) throw bad('the terrain has no EPSG coordinate system', 'EPSG:4326 or a projected CRS with an EPSG code (ProjectedCSTypeGeoKey)', 'bad_crs');
-  if (keys.ProjectedCSTypeGeoKey === undefined && code !== 4326) throw bad(`the terrain is in geographic EPSG:${code}; use EPSG:4326 (WGS84) or a projected CRS`, 'EPSG:4326 or a projected EPSG code', 'bad_crs');
+  if (typeof code !== 'number' || code === 32767)
+    throw bad('the terrain has no EPSG coordinate system', 'EPSG:4326 or a projected CRS with an EPSG code (ProjectedCSTypeGeoKey)', 'bad_crs');
+  if (keys.ProjectedCSTypeGeoKey === undefined && code !== 4326)
+    throw bad(`the terrain is in geographic EPSG:${code}; use EPSG:4326 (WGS84) or a projected CRS`, 'EPSG:4326 or a projected EPSG code', 'bad_crs');
   const crs = `EPSG:${code}`;
   await loadCrsDefinition(crs).catch((e: unknown) => {
     throw bad(`the terrain's CRS ${crs} is not in the offline CRS list`, e instanceof Error ? e.message : String(e), 'bad_crs');
@@ -106,10 +135,18 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
 /** Bilinear sample of a grid at fractional column/row (cell centres at integers); NaN outside or beside no data. */
 function bilinear(g: Grid<Float32Array>, fc: number, fr: number): number {
   if (!(fc >= -0.5 && fr >= -0.5 && fc <= g.width - 0.5 && fr <= g.height - 0.5)) return NaN;
-  const c = Math.min(g.width - 1, Math.max(0, fc)), r = Math.min(g.height - 1, Math.max(0, fr));
-  const c0 = Math.min(g.width - 2, Math.floor(c)), r0 = Math.min(g.height - 2, Math.floor(r));
-  const tx = c - c0, ty = r - r0, v = g.values, w = g.width;
-  const a = v[r0 * w + c0], b = v[r0 * w + c0 + 1], d = v[(r0 + 1) * w + c0], e = v[(r0 + 1) * w + c0 + 1];
+  const c = Math.min(g.width - 1, Math.max(0, fc)),
+    r = Math.min(g.height - 1, Math.max(0, fr));
+  const c0 = Math.min(g.width - 2, Math.floor(c)),
+    r0 = Math.min(g.height - 2, Math.floor(r));
+  const tx = c - c0,
+    ty = r - r0,
+    v = g.values,
+    w = g.width;
+  const a = v[r0 * w + c0],
+    b = v[r0 * w + c0 + 1],
+    d = v[(r0 + 1) * w + c0],
+    e = v[(r0 + 1) * w + c0 + 1];
   return (a * (1 - tx) + b * tx) * (1 - ty) + (d * (1 - tx) + e * tx) * ty;
 }
 
@@ -119,21 +156,47 @@ function bilinear(g: Grid<Float32Array>, fc: number, fr: number): number {
  */
 export function reprojectToLonLat(src: Grid<Float32Array>, srcDef: string): Grid<Float32Array> {
   const c = converter(WGS84_DEF, srcDef);
-  const east = src.west + src.width * src.dx, south = src.north - src.height * src.dy;
-  let w = Infinity, s = Infinity, e = -Infinity, n = -Infinity;
+  const east = src.west + src.width * src.dx,
+    south = src.north - src.height * src.dy;
+  let w = Infinity,
+    s = Infinity,
+    e = -Infinity,
+    n = -Infinity;
   const steps = 32;
   for (let i = 0; i <= steps; i++) {
-    for (const [x, y] of [[src.west + ((east - src.west) * i) / steps, src.north], [src.west + ((east - src.west) * i) / steps, south], [src.west, south + ((src.north - south) * i) / steps], [east, south + ((src.north - south) * i) / steps]] as [number, number][]) {
+    for (const [x, y] of [
+      [src.west + ((east - src.west) * i) / steps, src.north],
+      [src.west + ((east - src.west) * i) / steps, south],
+      [src.west, south + ((src.north - south) * i) / steps],
+      [east, south + ((src.north - south) * i) / steps],
+    ] as [number, number][]) {
       const [lon, lat] = c.inverse([x, y]);
-      if (Number.isFinite(lon) && Number.isFinite(lat)) { w = Math.min(w, lon); e = Math.max(e, lon); s = Math.min(s, lat); n = Math.max(n, lat); }
+      if (Number.isFinite(lon) && Number.isFinite(lat)) {
+        w = Math.min(w, lon);
+        e = Math.max(e, lon);
+        s = Math.min(s, lat);
+        n = Math.max(n, lat);
+      }
     }
   }
-  if (!(e > w && n > s)) throw new InputError('the terrain cannot be placed on the globe from its CRS', [{ field: 'crs', problem: 'its corners do not project to longitude/latitude' }], 'bad_crs');
+  if (!(e > w && n > s))
+    throw new InputError(
+      'the terrain cannot be placed on the globe from its CRS',
+      [{ field: 'crs', problem: 'its corners do not project to longitude/latitude' }],
+      'bad_crs',
+    );
   const mpu = metresPerUnit(srcDef);
   const k = kmPerDegree((s + n) / 2);
-  const dx = (src.dx * mpu) / 1000 / k.lon, dy = (src.dy * mpu) / 1000 / k.lat;
-  const width = Math.max(2, Math.ceil((e - w) / dx)), height = Math.max(2, Math.ceil((n - s) / dy));
-  if (width * height > MAX_TERRAIN_CELLS) throw bad(`the terrain would need ${width} × ${height} cells in longitude/latitude, over the limit of ${MAX_TERRAIN_CELLS}`, `at most ${MAX_TERRAIN_CELLS} cells`, 'terrain_too_large');
+  const dx = (src.dx * mpu) / 1000 / k.lon,
+    dy = (src.dy * mpu) / 1000 / k.lat;
+  const width = Math.max(2, Math.ceil((e - w) / dx)),
+    height = Math.max(2, Math.ceil((n - s) / dy));
+  if (width * height > MAX_TERRAIN_CELLS)
+    throw bad(
+      `the terrain would need ${width} × ${height} cells in longitude/latitude, over the limit of ${MAX_TERRAIN_CELLS}`,
+      `at most ${MAX_TERRAIN_CELLS} cells`,
+      'terrain_too_large',
+    );
   const values = new Float32Array(width * height);
   for (let r = 0; r < height; r++) {
     const lat = n - (r + 0.5) * dy;

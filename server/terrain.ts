@@ -32,7 +32,8 @@ interface LevelSpec {
  * (clamped to the edge with `clamp`).
  */
 function tileAxes(d: LevelSpec, z: number, x: number, y: number, clamp: boolean, colX: Float64Array, rowY: Float64Array): void {
-  const maxC = d.width - 1, maxR = d.height - 1;
+  const maxC = d.width - 1,
+    maxR = d.height - 1;
   for (let i = 0; i < TILE_SIZE; i++) {
     const lng = lngFromTileX(x + (i + 0.5) / TILE_SIZE, z);
     const lat = latFromTileY(y + (i + 0.5) / TILE_SIZE, z);
@@ -45,11 +46,21 @@ function tileAxes(d: LevelSpec, z: number, x: number, y: number, clamp: boolean,
 
 /** The cells a tile's bilinear samples touch: [c0, c1) × [r0, r1) of the level, or null when none. */
 function tileWindow(d: LevelSpec, colX: Float64Array, rowY: Float64Array): [number, number, number, number] | null {
-  let cMin = Infinity, cMax = -Infinity, rMin = Infinity, rMax = -Infinity;
+  let cMin = Infinity,
+    cMax = -Infinity,
+    rMin = Infinity,
+    rMax = -Infinity;
   for (let i = 0; i < TILE_SIZE; i++) {
-    const c = colX[i], r = rowY[i];
-    if (c === c) { if (c < cMin) cMin = c; if (c > cMax) cMax = c; }
-    if (r === r) { if (r < rMin) rMin = r; if (r > rMax) rMax = r; }
+    const c = colX[i],
+      r = rowY[i];
+    if (c === c) {
+      if (c < cMin) cMin = c;
+      if (c > cMax) cMax = c;
+    }
+    if (r === r) {
+      if (r < rMin) rMin = r;
+      if (r > rMax) rMax = r;
+    }
   }
   if (!(cMin <= cMax && rMin <= rMax)) return null;
   return [Math.floor(cMin), Math.floor(rMin), Math.min(d.width, Math.floor(cMax) + 2), Math.min(d.height, Math.floor(rMax) + 2)];
@@ -59,18 +70,37 @@ function tileWindow(d: LevelSpec, colX: Float64Array, rowY: Float64Array): [numb
  * Bilinear samples at the tile's pixel centres from the cells [c0, c0 + ww) × [r0, …) of a level held in `v`
  * (row-major, width ww), encoded into `rgb`. Where a neighbour is no data the nearest cell's value is used.
  */
-function renderPixels(d: LevelSpec, v: ArrayLike<number>, c0w: number, r0w: number, ww: number, colX: Float64Array, rowY: Float64Array, enc: RgbEncoding, rgb: Uint8Array): void {
-  const maxC = d.width - 1, maxR = d.height - 1;
+function renderPixels(
+  d: LevelSpec,
+  v: ArrayLike<number>,
+  c0w: number,
+  r0w: number,
+  ww: number,
+  colX: Float64Array,
+  rowY: Float64Array,
+  enc: RgbEncoding,
+  rgb: Uint8Array,
+): void {
+  const maxC = d.width - 1,
+    maxR = d.height - 1;
   for (let py = 0; py < TILE_SIZE; py++) {
     const fr = rowY[py];
-    const r0 = Math.floor(fr), r1 = Math.min(maxR, r0 + 1), ty = fr - r0;
-    const b0 = (r0 - r0w) * ww - c0w, b1 = (r1 - r0w) * ww - c0w;
+    const r0 = Math.floor(fr),
+      r1 = Math.min(maxR, r0 + 1),
+      ty = fr - r0;
+    const b0 = (r0 - r0w) * ww - c0w,
+      b1 = (r1 - r0w) * ww - c0w;
     for (let px = 0; px < TILE_SIZE; px++) {
       const fc = colX[px];
       let h = NaN;
       if (fc === fc && fr === fr) {
-        const c0 = Math.floor(fc), c1 = Math.min(maxC, c0 + 1), tx = fc - c0;
-        const a = v[b0 + c0], b = v[b0 + c1], c = v[b1 + c0], e = v[b1 + c1];
+        const c0 = Math.floor(fc),
+          c1 = Math.min(maxC, c0 + 1),
+          tx = fc - c0;
+        const a = v[b0 + c0],
+          b = v[b0 + c1],
+          c = v[b1 + c0],
+          e = v[b1 + c1];
         h = (a * (1 - tx) + b * tx) * (1 - ty) + (c * (1 - tx) + e * tx) * ty;
         if (h !== h) h = v[(ty < 0.5 ? b0 : b1) + (tx < 0.5 ? c0 : c1)];
       }
@@ -127,7 +157,8 @@ export class GridTiles {
 
   /** The PNG of tile z/x/y, or null when the tile lies outside the grid or the zoom range. */
   tile(z: number, x: number, y: number): Buffer | null {
-    const minZ = this.opts.minZoom ?? TERRAIN_MIN_ZOOM, maxZ = this.opts.maxZoom ?? TERRAIN_MAX_ZOOM;
+    const minZ = this.opts.minZoom ?? TERRAIN_MIN_ZOOM,
+      maxZ = this.opts.maxZoom ?? TERRAIN_MAX_ZOOM;
     if (!(z >= minZ && z <= maxZ) || x < 0 || y < 0 || x >= 2 ** z || y >= 2 ** z) return null;
     if (!tileIntersectsBbox(z, x, y, this.bbox)) return null;
     const key = `${z}/${x}/${y}`;
@@ -174,7 +205,9 @@ export class WindowTiles {
   levelFor(z: number): number {
     const pixelDeg = 360 / (TILE_SIZE * 2 ** z);
     let best = 0;
-    this.file.levels.forEach((l, i) => { if (l.dx <= pixelDeg) best = i; });
+    this.file.levels.forEach((l, i) => {
+      if (l.dx <= pixelDeg) best = i;
+    });
     return best;
   }
 
@@ -187,7 +220,8 @@ export class WindowTiles {
     if (hit) return hit;
     const level = this.file.levels[this.levelFor(z)];
     // Buffers per call: tiles of one layer may render concurrently while a window read is awaited.
-    const colX = new Float64Array(TILE_SIZE), rowY = new Float64Array(TILE_SIZE);
+    const colX = new Float64Array(TILE_SIZE),
+      rowY = new Float64Array(TILE_SIZE);
     tileAxes(level, z, x, y, false, colX, rowY);
     const win = tileWindow(level, colX, rowY);
     const rgb = new Uint8Array(TILE_SIZE * TILE_SIZE * 3);

@@ -1,4 +1,4 @@
-// The whole test suite: type check, ESLint, then every unit, API and browser test under Vitest.
+// The whole test suite: type check, ESLint, the Prettier format check, then every unit, API and browser test under Vitest.
 // Ends with the plain line `N passed, N failed` that CI reads.
 import { spawnSync } from 'node:child_process';
 import { mkdirSync, readFileSync, existsSync } from 'node:fs';
@@ -25,6 +25,12 @@ let lintFailed = 0;
 if (extra.length === 0) {
   process.stdout.write('lint: eslint .\n');
   lintFailed = run(bin('eslint'), ['.']) === 0 ? 0 : 1;
+}
+
+let formatFailed = 0;
+if (extra.length === 0) {
+  process.stdout.write('format: prettier --check .\n');
+  formatFailed = run(bin('prettier'), ['--check', '.', '--log-level', 'warn']) === 0 ? 0 : 1;
 }
 
 // Compile the command line once, so the tests that start `bin/subtherm.mjs` do not each build it.
@@ -55,5 +61,11 @@ if (lintFailed) {
 } else if (extra.length === 0) {
   passed += 1;
 }
+if (formatFailed) {
+  failed += 1;
+  process.stdout.write('format check failed (npm run format rewrites the listed files)\n');
+} else if (extra.length === 0) {
+  passed += 1;
+}
 process.stdout.write(`${passed} passed, ${failed} failed\n`);
-process.exit(code !== 0 || typeFailed || lintFailed || failed > 0 ? 1 : 0);
+process.exit(code !== 0 || typeFailed || lintFailed || formatFailed || failed > 0 ? 1 : 0);

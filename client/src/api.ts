@@ -39,7 +39,12 @@ async function handle<T>(res: Response): Promise<T> {
   if (!res.ok) {
     const e = (body as ErrorBody)?.error;
     const details = Array.isArray(e?.details) ? e.details : [];
-    throw new ApiError(e?.message ?? `${res.status} ${res.statusText}${text && body === null ? `: ${text.slice(0, 200)}` : ''}`, res.status, details, e?.code ?? '');
+    throw new ApiError(
+      e?.message ?? `${res.status} ${res.statusText}${text && body === null ? `: ${text.slice(0, 200)}` : ''}`,
+      res.status,
+      details,
+      e?.code ?? '',
+    );
   }
   return body as T;
 }

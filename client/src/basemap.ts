@@ -25,8 +25,10 @@ export function degreeLabel(v: number, axis: 'lon' | 'lat'): string {
 /** Graticule lines over [west, south, east, north] with spacing `step` degrees, each line labelled. */
 export function graticule(bounds: [number, number, number, number], step: number): { type: 'FeatureCollection'; features: Line[] } {
   const [w, s, e, n] = bounds;
-  const south = Math.max(-85, Math.floor(s / step) * step), north = Math.min(85, Math.ceil(n / step) * step);
-  const west = Math.floor(w / step) * step, east = Math.ceil(e / step) * step;
+  const south = Math.max(-85, Math.floor(s / step) * step),
+    north = Math.min(85, Math.ceil(n / step) * step);
+  const west = Math.floor(w / step) * step,
+    east = Math.ceil(e / step) * step;
   const features: Line[] = [];
   const sub = Math.max(step / 4, (north - south) / 64);
   for (let x = west; x <= east + 1e-9; x += step) {
@@ -36,7 +38,17 @@ export function graticule(bounds: [number, number, number, number], step: number
     features.push({ type: 'Feature', properties: { label: degreeLabel(lon, 'lon'), axis: 'lon' }, geometry: { type: 'LineString', coordinates: coords } });
   }
   for (let y = south; y <= north + 1e-9; y += step) {
-    features.push({ type: 'Feature', properties: { label: degreeLabel(y, 'lat'), axis: 'lat' }, geometry: { type: 'LineString', coordinates: [[west, y], [east, y]] } });
+    features.push({
+      type: 'Feature',
+      properties: { label: degreeLabel(y, 'lat'), axis: 'lat' },
+      geometry: {
+        type: 'LineString',
+        coordinates: [
+          [west, y],
+          [east, y],
+        ],
+      },
+    });
   }
   return { type: 'FeatureCollection', features };
 }
@@ -45,7 +57,12 @@ function updateGraticule(map: MapLibreMap): void {
   const b = map.getBounds();
   const degPerPx = (b.getEast() - b.getWest()) / Math.max(1, map.getContainer().clientWidth);
   const step = STEPS.find((_, i) => i === STEPS.length - 1 || STEPS[i + 1] / degPerPx < 90) ?? 1;
-  const span = [Math.max(-540, b.getWest()), Math.max(-90, b.getSouth()), Math.min(540, b.getEast()), Math.min(90, b.getNorth())] as [number, number, number, number];
+  const span = [Math.max(-540, b.getWest()), Math.max(-90, b.getSouth()), Math.min(540, b.getEast()), Math.min(90, b.getNorth())] as [
+    number,
+    number,
+    number,
+    number,
+  ];
   void map.getSource<GeoJSONSource>('graticule')?.setData(graticule(span, step));
 }
 
@@ -59,7 +76,10 @@ export async function installWorldBase(map: MapLibreMap): Promise<void> {
 
 /** Reads "lon, lat" (decimal degrees, or with N/S/E/W letters in either order) into [lon, lat]; null if it cannot. */
 export function parsePlace(text: string): [number, number] | null {
-  const parts = text.trim().split(/[\s,;]+/).filter((p) => p !== '');
+  const parts = text
+    .trim()
+    .split(/[\s,;]+/)
+    .filter((p) => p !== '');
   if (parts.length !== 2) return null;
   const read = (p: string): { v: number; axis: 'lon' | 'lat' | null } | null => {
     const m = /^([+-]?\d+(?:\.\d+)?)°?([NSEWnsew])?$/.exec(p);
@@ -68,7 +88,8 @@ export function parsePlace(text: string): [number, number] | null {
     const v = Number(m[1]) * (h === 'S' || h === 'W' ? -1 : 1);
     return { v, axis: h === 'N' || h === 'S' ? 'lat' : h === 'E' || h === 'W' ? 'lon' : null };
   };
-  const a = read(parts[0]), b = read(parts[1]);
+  const a = read(parts[0]),
+    b = read(parts[1]);
   if (!a || !b) return null;
   const [lon, lat] = a.axis === 'lat' || b.axis === 'lon' ? [b.v, a.v] : [a.v, b.v];
   return Math.abs(lat) <= 90 && Math.abs(lon) <= 180 ? [lon, lat] : null;
@@ -76,7 +97,12 @@ export function parsePlace(text: string): [number, number] | null {
 
 /** The coordinate box: type a place, press Enter, the map goes there. */
 export function goToBox(map: MapLibreMap): HTMLElement {
-  const input = el('input', { id: 'goto-input', placeholder: 'lon, lat (e.g. 72.4, 41.2S)', 'aria-label': 'Go to a place: longitude, latitude in degrees', class: 'goto-input' });
+  const input = el('input', {
+    id: 'goto-input',
+    placeholder: 'lon, lat (e.g. 72.4, 41.2S)',
+    'aria-label': 'Go to a place: longitude, latitude in degrees',
+    class: 'goto-input',
+  });
   const msg = el('span', { class: 'field-error', id: 'goto-error', 'aria-live': 'polite' });
   const form = el('form', { class: 'goto', role: 'search' }, input, el('button', { type: 'submit', id: 'goto-button' }, 'Go'), msg);
   form.addEventListener('submit', (ev) => {
@@ -109,7 +135,15 @@ export function featuresBbox(fc: { features: { geometry: { coordinates: unknown 
 /** Fits the view to a box (a point gets a regional view around it). */
 export function fitBbox(map: MapLibreMap, b: Bbox, animate = true): void {
   const pad = 0.05;
-  const w = Math.max(b[2] - b[0], pad), h = Math.max(b[3] - b[1], pad);
-  const cx = (b[0] + b[2]) / 2, cy = (b[1] + b[3]) / 2;
-  map.fitBounds([[cx - w / 2, Math.max(-85, cy - h / 2)], [cx + w / 2, Math.min(85, cy + h / 2)]], { padding: 40, maxZoom: 11, animate });
+  const w = Math.max(b[2] - b[0], pad),
+    h = Math.max(b[3] - b[1], pad);
+  const cx = (b[0] + b[2]) / 2,
+    cy = (b[1] + b[3]) / 2;
+  map.fitBounds(
+    [
+      [cx - w / 2, Math.max(-85, cy - h / 2)],
+      [cx + w / 2, Math.min(85, cy + h / 2)],
+    ],
+    { padding: 40, maxZoom: 11, animate },
+  );
 }

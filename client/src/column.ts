@@ -45,7 +45,14 @@ function nearestSite(sites: FeatureCollection, lon: number, lat: number): Neares
 }
 
 /** The column request before any run: the nearest site's heat flow, or the model's. */
-function modelRequest(model: ThermalModelInput, sites: FeatureCollection, lon: number, lat: number, axis: Record<string, unknown>, seed: number): { request: Record<string, unknown>; source: string } {
+function modelRequest(
+  model: ThermalModelInput,
+  sites: FeatureCollection,
+  lon: number,
+  lat: number,
+  axis: Record<string, unknown>,
+  seed: number,
+): { request: Record<string, unknown>; source: string } {
   const best = nearestSite(sites, lon, lat);
   const modelQ = typeof model.surfaceHeatFlowMWm2 === 'number' ? model.surfaceHeatFlowMWm2 : null;
   // The column runs to the model's maximum depth (the bottom of its last layer); a model with distributions
@@ -53,7 +60,10 @@ function modelRequest(model: ThermalModelInput, sites: FeatureCollection, lon: n
   Object.assign(axis, { maxDepthKm: Math.min(300, model.layers[model.layers.length - 1].bottomKm) });
   if (isUncertainModel(model)) Object.assign(axis, { realizations: COLUMN_REALIZATIONS, seed });
   if (best && (best.d <= NEAREST_SITE_KM || modelQ === null)) {
-    return { request: { model, heatFlowMWm2: best.q, ...axis }, source: `the nearest site, ${best.id}, ${best.d.toFixed(1)} km away (${best.q} mW/m²); no run yet` };
+    return {
+      request: { model, heatFlowMWm2: best.q, ...axis },
+      source: `the nearest site, ${best.id}, ${best.d.toFixed(1)} km away (${best.q} mW/m²); no run yet`,
+    };
   }
   return {
     request: { model, ...(modelQ !== null ? { heatFlowMWm2: modelQ } : {}), ...axis },
@@ -64,7 +74,16 @@ function modelRequest(model: ThermalModelInput, sites: FeatureCollection, lon: n
 export function columnPanel(ctx: AppContext, deps: { model: () => ThermalModelInput | null; sites: () => FeatureCollection }): ColumnPanel {
   const body = el('div', {});
   const centreBtn = el('button', { type: 'button', id: 'inspect-centre' }, 'Inspect the map centre');
-  const head = el('div', {}, el('p', { class: 'empty', id: 'inspector-empty' }, 'Click anywhere on the map to see the temperature–depth column there (or, from the keyboard, pan the map with the arrow keys and inspect its centre).'), el('div', { class: 'button-row' }, centreBtn));
+  const head = el(
+    'div',
+    {},
+    el(
+      'p',
+      { class: 'empty', id: 'inspector-empty' },
+      'Click anywhere on the map to see the temperature–depth column there (or, from the keyboard, pan the map with the arrow keys and inspect its centre).',
+    ),
+    el('div', { class: 'button-row' }, centreBtn),
+  );
   const marker = new Marker({ color: '#d4462c', scale: 0.7 });
 
   const requestFor = (lon: number, lat: number): { request: Record<string, unknown>; source: string } | null => {
@@ -72,7 +91,10 @@ export function columnPanel(ctx: AppContext, deps: { model: () => ThermalModelIn
     const axis: Record<string, unknown> = { isothermsC: ctx.state.params.isothermsC, depthsKm: ctx.state.params.depthsKm };
     if (run && run.status === 'done') {
       const maxDepthKm = run.summary?.maxDepthKm;
-      return { request: { lon, lat, runId: run.id, ...axis, ...(maxDepthKm !== undefined ? { maxDepthKm } : {}) }, source: `the run's heat-flow surface at this point (run ${run.id})` };
+      return {
+        request: { lon, lat, runId: run.id, ...axis, ...(maxDepthKm !== undefined ? { maxDepthKm } : {}) },
+        source: `the run's heat-flow surface at this point (run ${run.id})`,
+      };
     }
     const model = deps.model();
     return model ? modelRequest(model, deps.sites(), lon, lat, axis, ctx.state.params.seed) : null;
@@ -92,7 +114,13 @@ export function columnPanel(ctx: AppContext, deps: { model: () => ThermalModelIn
       const answer = await sendJson<ColumnAnswer>('POST', '/api/column', req.request);
       ctx.app.lastColumn = { request: req.request, answer };
       const { plot, readout } = columnPlot(answer);
-      replace(body, el('h3', {}, `Column at ${lon.toFixed(4)}°, ${lat.toFixed(4)}°`), el('div', { class: 'plot-wrap', id: 'column-plot' }, plot), readout, columnSummary(answer, req.source));
+      replace(
+        body,
+        el('h3', {}, `Column at ${lon.toFixed(4)}°, ${lat.toFixed(4)}°`),
+        el('div', { class: 'plot-wrap', id: 'column-plot' }, plot),
+        readout,
+        columnSummary(answer, req.source),
+      );
     } catch (e) {
       replace(body, e instanceof ApiError ? errorBox(`Column: ${e.message}`, e.details) : errorBox(`Column: ${message(e)}`));
     }

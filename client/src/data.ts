@@ -68,20 +68,35 @@ export function dataPanel(ctx: AppContext, data: DataSets, onParams: () => void)
         const t = await uploadTerrain(ctx, file);
         showProjectTerrain(ctx.map, t);
         fitBbox(ctx.map, t.bbox);
-        return { id: 'terrain', kind: 'terrain', featureCount: t.width * t.height, warnings: [], message: `${file.name}: terrain of ${t.width} × ${t.height} cells accepted (from ${t.sourceCrs}, shown as hillshade).` };
+        return {
+          id: 'terrain',
+          kind: 'terrain',
+          featureCount: t.width * t.height,
+          warnings: [],
+          message: `${file.name}: terrain of ${t.width} × ${t.height} cells accepted (from ${t.sourceCrs}, shown as hillshade).`,
+        };
       }
     : uploadDataset;
-  const upload = uploadPanel((d) => {
-    use(d.id, d.kind, true);
-    void table?.refresh();
-  }, send, inProject ? ['sites', 'samples', 'faults', 'wells', 'regions', 'model', 'terrain'] : ['sites', 'samples', 'faults']);
+  const upload = uploadPanel(
+    (d) => {
+      use(d.id, d.kind, true);
+      void table?.refresh();
+    },
+    send,
+    inProject ? ['sites', 'samples', 'faults', 'wells', 'regions', 'model', 'terrain'] : ['sites', 'samples', 'faults'],
+  );
   upload.root.prepend(el('h3', {}, 'Add data'));
   if (ctx.projectId !== null) {
     table = new ProjectDataTable(ctx, (d) => use(d.id, d.kind, false));
     upload.root.prepend(el('h3', {}, 'Data sets of this project'), table.root);
     void table.refresh();
   }
-  if (!inProject) upload.root.prepend(el('h3', {}, 'Your own region'), el('p', { class: 'note' }, 'A project owns its data sets, model and runs, and is shared by link. Start one, then upload your data into it.'), newProjectControl(ctx));
+  if (!inProject)
+    upload.root.prepend(
+      el('h3', {}, 'Your own region'),
+      el('p', { class: 'note' }, 'A project owns its data sets, model and runs, and is shared by link. Start one, then upload your data into it.'),
+      newProjectControl(ctx),
+    );
   if (ctx.readOnly) upload.setEnabled(false);
   return upload;
 }
@@ -94,7 +109,15 @@ export interface UploadPanel {
 /** Sends one file as a data set of `kind`; the answer may carry its own success message. */
 type UploadFn = (kind: string, file: File, opts: UploadOptions) => Promise<DatasetCreated & { message?: string }>;
 
-const UPLOAD_LABELS: Record<string, string> = { sites: 'heat-flow sites', samples: 'grade samples', faults: 'faults', wells: 'wells', regions: 'regions (model overrides, mask)', model: 'thermal model (JSON)', terrain: 'terrain (DEM GeoTIFF, metres)' };
+const UPLOAD_LABELS: Record<string, string> = {
+  sites: 'heat-flow sites',
+  samples: 'grade samples',
+  faults: 'faults',
+  wells: 'wells',
+  regions: 'regions (model overrides, mask)',
+  model: 'thermal model (JSON)',
+  terrain: 'terrain (DEM GeoTIFF, metres)',
+};
 
 /** EPSG codes offered in the CRS chooser (any other EPSG:nnnn may be typed). */
 const CRS_CHOICES: [string, string][] = [
@@ -113,18 +136,35 @@ function crsChooser(): { root: HTMLElement; controls: (HTMLInputElement | HTMLSe
     controls: [choice, code],
     read() {
       if (choice.value !== 'other') return choice.value === '' ? {} : { crs: choice.value };
-      const t = code.value.trim().toUpperCase().replace(/^(\d+)$/, 'EPSG:$1');
-      if (!/^EPSG:\d{4,6}$/.test(t)) return { problem: `CRS: write the EPSG code of the CSV's x,y columns as EPSG:nnnn (e.g. EPSG:32706 for UTM zone 6 south), got "${code.value}"` };
+      const t = code.value
+        .trim()
+        .toUpperCase()
+        .replace(/^(\d+)$/, 'EPSG:$1');
+      if (!/^EPSG:\d{4,6}$/.test(t))
+        return { problem: `CRS: write the EPSG code of the CSV's x,y columns as EPSG:nnnn (e.g. EPSG:32706 for UTM zone 6 south), got "${code.value}"` };
       return { crs: t };
     },
   };
 }
 
 /** Builds the upload panel; `onUploaded` receives the new data set (the caller shows it and uses it in runs). */
-export function uploadPanel(onUploaded: (d: DatasetCreated, fileName: string) => void, upload: UploadFn = uploadDataset, kinds = ['sites', 'samples', 'faults']): UploadPanel {
+export function uploadPanel(
+  onUploaded: (d: DatasetCreated, fileName: string) => void,
+  upload: UploadFn = uploadDataset,
+  kinds = ['sites', 'samples', 'faults'],
+): UploadPanel {
   const kind = el('select', { id: 'upload-kind' }, ...kinds.map((k) => el('option', { value: k }, UPLOAD_LABELS[k] ?? k)));
-  const input = el('input', { type: 'file', id: 'upload-file', accept: '.geojson,.json,.csv,.txt,.gpkg,.zip,.tif,.tiff,application/geo+json,application/json,text/csv' });
-  const drop = el('div', { class: 'dropzone', id: 'dropzone', tabindex: '0', role: 'button', 'aria-label': 'Drop a file here, or press Enter to choose one' }, 'Drop a GeoJSON, CSV, GeoPackage or zipped Shapefile here, or ', el('span', { class: 'linkish' }, 'choose a file'));
+  const input = el('input', {
+    type: 'file',
+    id: 'upload-file',
+    accept: '.geojson,.json,.csv,.txt,.gpkg,.zip,.tif,.tiff,application/geo+json,application/json,text/csv',
+  });
+  const drop = el(
+    'div',
+    { class: 'dropzone', id: 'dropzone', tabindex: '0', role: 'button', 'aria-label': 'Drop a file here, or press Enter to choose one' },
+    'Drop a GeoJSON, CSV, GeoPackage or zipped Shapefile here, or ',
+    el('span', { class: 'linkish' }, 'choose a file'),
+  );
   const crs = crsChooser();
   const layer = el('input', { id: 'upload-layer', placeholder: 'only when the file holds several', maxlength: '200' });
   const report = el('div', { id: 'upload-report', 'aria-live': 'polite' });
@@ -190,7 +230,11 @@ export function uploadPanel(onUploaded: (d: DatasetCreated, fileName: string) =>
     el('div', { class: 'field-row' }, el('label', { for: layer.id }, 'Layer'), layer),
     drop,
     el('div', { class: 'field-row' }, el('label', { for: 'upload-file' }, 'File'), input),
-    el('p', { class: 'note' }, 'CSV: a header row with longitude,latitude (or lon,lat), or x,y with their EPSG code chosen above, and the same property names as the GeoJSON (e.g. heatFlowMWm2, quality; zone; kind). GeoPackage and zipped Shapefile carry their own CRS; name the layer when a file holds several.'),
+    el(
+      'p',
+      { class: 'note' },
+      'CSV: a header row with longitude,latitude (or lon,lat), or x,y with their EPSG code chosen above, and the same property names as the GeoJSON (e.g. heatFlowMWm2, quality; zone; kind). GeoPackage and zipped Shapefile carry their own CRS; name the layer when a file holds several.',
+    ),
     report,
   );
   return {

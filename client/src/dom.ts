@@ -1,6 +1,10 @@
 /** DOM and SVG helpers. User strings only ever become text nodes or attribute values, never HTML. */
 
-export function el<K extends keyof HTMLElementTagNameMap>(tag: K, attrs: Record<string, string> = {}, ...children: (Node | string | null | undefined)[]): HTMLElementTagNameMap[K] {
+export function el<K extends keyof HTMLElementTagNameMap>(
+  tag: K,
+  attrs: Record<string, string> = {},
+  ...children: (Node | string | null | undefined)[]
+): HTMLElementTagNameMap[K] {
   const e = document.createElement(tag);
   for (const [k, v] of Object.entries(attrs)) e.setAttribute(k, v);
   for (const c of children) if (c !== null && c !== undefined) e.append(typeof c === 'string' ? document.createTextNode(c) : c);
@@ -9,7 +13,11 @@ export function el<K extends keyof HTMLElementTagNameMap>(tag: K, attrs: Record<
 
 const SVG_NS = 'http://www.w3.org/2000/svg';
 
-export function svg<K extends keyof SVGElementTagNameMap>(tag: K, attrs: Record<string, string | number> = {}, ...children: (Node | string)[]): SVGElementTagNameMap[K] {
+export function svg<K extends keyof SVGElementTagNameMap>(
+  tag: K,
+  attrs: Record<string, string | number> = {},
+  ...children: (Node | string)[]
+): SVGElementTagNameMap[K] {
   const e = document.createElementNS(SVG_NS, tag);
   for (const [k, v] of Object.entries(attrs)) e.setAttribute(k, String(v));
   for (const c of children) e.append(typeof c === 'string' ? document.createTextNode(c) : c);
@@ -35,8 +43,15 @@ export function errorBox(message: string, details: { feature?: number | string; 
 
 /** A validation report as a table: feature, field, problem. */
 export function problemTable(details: { feature?: number | string; field?: string; problem: string }[], limit = 200): HTMLTableElement {
-  const rows = details.slice(0, limit).map((d) => el('tr', {}, el('td', {}, d.feature === undefined ? '—' : String(d.feature)), el('td', {}, d.field ?? '—'), el('td', {}, d.problem)));
-  const t = el('table', { class: 'report' }, el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Feature'), el('th', { scope: 'col' }, 'Field'), el('th', { scope: 'col' }, 'Problem'))), el('tbody', {}, ...rows));
+  const rows = details
+    .slice(0, limit)
+    .map((d) => el('tr', {}, el('td', {}, d.feature === undefined ? '—' : String(d.feature)), el('td', {}, d.field ?? '—'), el('td', {}, d.problem)));
+  const t = el(
+    'table',
+    { class: 'report' },
+    el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Feature'), el('th', { scope: 'col' }, 'Field'), el('th', { scope: 'col' }, 'Problem'))),
+    el('tbody', {}, ...rows),
+  );
   if (details.length > limit) t.append(el('caption', {}, `first ${limit} of ${details.length} problems`));
   return t;
 }

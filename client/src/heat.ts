@@ -117,15 +117,28 @@ function totalsTable(r: HeatReport): HTMLElement {
   }).map((row) => {
     const t = r[row.key] as TotalValue;
     const s = (v: number | null) => (v === null ? '—' : sig(v * row.scale));
-    return el('tr', { 'data-total': String(row.key) }, el('th', { scope: 'row' }, row.label), el('td', { class: 'num' }, s(t.nominal)), el('td', { class: 'num' }, s(t.p10)), el('td', { class: 'num' }, s(t.p50)), el('td', { class: 'num' }, s(t.p90)), el('td', {}, row.unit));
+    return el(
+      'tr',
+      { 'data-total': String(row.key) },
+      el('th', { scope: 'row' }, row.label),
+      el('td', { class: 'num' }, s(t.nominal)),
+      el('td', { class: 'num' }, s(t.p10)),
+      el('td', { class: 'num' }, s(t.p50)),
+      el('td', { class: 'num' }, s(t.p90)),
+      el('td', {}, row.unit),
+    );
   });
   return el('div', { class: 'table-scroll' }, el('table', { class: 'report hip-totals', id: 'hip-totals' }, el('thead', {}, head), el('tbody', {}, ...rows)));
 }
 
 /** The totals in words: the P50 with its range, or the nominal value alone without realizations. */
 export function headline(r: HeatReport): string {
-  const h = r.heatInPlaceEJ, e = r.electricMWe;
-  const where = r.area === 'polygon' ? `Inside the area (${sig(r.totals.polygon?.polygonAreaKm2 ?? r.areaKm2)} km², ${r.cells} cells)` : `Over the run's grid (${sig(r.areaKm2)} km², ${r.cells} cells)`;
+  const h = r.heatInPlaceEJ,
+    e = r.electricMWe;
+  const where =
+    r.area === 'polygon'
+      ? `Inside the area (${sig(r.totals.polygon?.polygonAreaKm2 ?? r.areaKm2)} km², ${r.cells} cells)`
+      : `Over the run's grid (${sig(r.areaKm2)} km², ${r.cells} cells)`;
   if (h.p50 !== null && r.monteCarlo) {
     return `${where}: heat in place ${sig(h.p50)} EJ (P50; P10 ${sig(h.p10)}, P90 ${sig(h.p90)} EJ; nominal ${sig(h.nominal)} EJ), electric power ${sig(e.p50)} MWe (P10 ${sig(e.p10)}, P90 ${sig(e.p90)} MWe) from ${r.monteCarlo.accepted} realizations.`;
   }
@@ -141,7 +154,13 @@ export function reportView(r: HeatReport, links: JobView['links']): HTMLElement 
     totalsTable(r),
     r.monteCarlo ? el('p', { class: 'note', id: 'hip-exceedance' }, `${EXCEEDANCE_READING}.`) : null,
     ...r.warnings.map((w) => el('p', { class: 'note warning' }, w)),
-    el('p', { class: 'hip-links' }, el('a', { href: links.html, target: '_blank', rel: 'noopener', id: 'hip-html' }, 'Printable report (HTML)'), ' · ', el('a', { href: links.csv, download: '', id: 'hip-csv' }, 'Totals (CSV)')),
+    el(
+      'p',
+      { class: 'hip-links' },
+      el('a', { href: links.html, target: '_blank', rel: 'noopener', id: 'hip-html' }, 'Printable report (HTML)'),
+      ' · ',
+      el('a', { href: links.csv, download: '', id: 'hip-csv' }, 'Totals (CSV)'),
+    ),
     el('p', { class: 'note caution-note', id: 'hip-caution' }, r.caution || CAUTION),
   );
 }
@@ -158,7 +177,13 @@ type AreaChoice = 'drawn' | 'regions' | 'grid';
 /** The area controls: a polygon drawn on the map, a regions data set of the project, or the whole grid. */
 class AreaPicker {
   ring: [number, number][] | null = null;
-  readonly choice = el('select', { id: 'hip-area' }, el('option', { value: 'drawn' }, 'a polygon drawn on the map'), el('option', { value: 'regions' }, 'a regions data set of the project'), el('option', { value: 'grid' }, "the run's whole grid"));
+  readonly choice = el(
+    'select',
+    { id: 'hip-area' },
+    el('option', { value: 'drawn' }, 'a polygon drawn on the map'),
+    el('option', { value: 'regions' }, 'a regions data set of the project'),
+    el('option', { value: 'grid' }, "the run's whole grid"),
+  );
   readonly regions = el('select', { id: 'hip-regions' });
   readonly drawBtn = el('button', { type: 'button', id: 'hip-draw' }, 'Draw the area');
   readonly clearBtn = el('button', { type: 'button', id: 'hip-clear' }, 'Clear');
@@ -204,7 +229,9 @@ class AreaPicker {
       this.regions.append(el('option', { value: '' }, 'open a project to use its regions'));
       return;
     }
-    const r = await getJson<{ datasets: { id: string; kind: string; name: string; url: string; featureCount: number }[] }>(`/api/projects/${encodeURIComponent(this.ctx.projectId)}/datasets`).catch(() => ({ datasets: [] }));
+    const r = await getJson<{ datasets: { id: string; kind: string; name: string; url: string; featureCount: number }[] }>(
+      `/api/projects/${encodeURIComponent(this.ctx.projectId)}/datasets`,
+    ).catch(() => ({ datasets: [] }));
     const list = r.datasets.filter((d) => d.kind === 'regions');
     if (list.length === 0) this.regions.append(el('option', { value: '' }, 'none: upload a regions data set in the Data tab'));
     for (const d of list) this.regions.append(el('option', { value: d.url }, `${d.name} (${d.featureCount} polygons)`));
@@ -215,7 +242,8 @@ class AreaPicker {
     const c = this.choice.value as AreaChoice;
     if (c === 'grid') return {};
     if (c === 'drawn') {
-      if (!this.ring || this.ring.length < 3) return { problem: 'Draw the area first: press "Draw the area", click its corners on the map, double-click to close it.' };
+      if (!this.ring || this.ring.length < 3)
+        return { problem: 'Draw the area first: press "Draw the area", click its corners on the map, double-click to close it.' };
       return { polygon: { type: 'Feature', properties: { name: 'drawn area' }, geometry: { type: 'Polygon', coordinates: [[...this.ring, this.ring[0]]] } } };
     }
     if (this.regions.value === '') return { problem: 'Choose a regions data set (upload one in the Data tab), or draw the area.' };
@@ -247,11 +275,29 @@ async function waitForJob(url: string, onWait: (v: JobView) => void): Promise<He
 export function heatPanel(ctx: AppContext): HeatPanel {
   let run: RunState | null = null;
   const area = new AreaPicker(ctx);
-  const inputs = FIELDS.map((f) => el('input', { id: f.id, value: f.value, inputmode: 'decimal', class: 'num', 'data-option': f.key, ...(f.uncertain ? { title: 'a number, or a distribution as JSON, e.g. {"dist":"triangular","min":0.05,"mode":0.1,"max":0.2}' } : {}) }));
-  const corr = el('select', { id: 'hip-correlation' }, el('option', { value: 'full' }, 'fully correlated'), el('option', { value: 'independent' }, 'independent per cell'));
+  const inputs = FIELDS.map((f) =>
+    el('input', {
+      id: f.id,
+      value: f.value,
+      inputmode: 'decimal',
+      class: 'num',
+      'data-option': f.key,
+      ...(f.uncertain ? { title: 'a number, or a distribution as JSON, e.g. {"dist":"triangular","min":0.05,"mode":0.1,"max":0.2}' } : {}),
+    }),
+  );
+  const corr = el(
+    'select',
+    { id: 'hip-correlation' },
+    el('option', { value: 'full' }, 'fully correlated'),
+    el('option', { value: 'independent' }, 'independent per cell'),
+  );
   const btn = el('button', { type: 'button', id: 'hip-run', class: 'primary', disabled: '' }, 'Compute heat in place');
   const runLine = el('p', { class: 'note', id: 'hip-run-line' }, 'Run a model first (Run tab): heat in place is computed over a finished run.');
-  const progress = el('div', { class: 'progress indeterminate', id: 'hip-progress', role: 'progressbar', 'aria-label': 'heat-in-place job', hidden: '' }, el('div', { class: 'progress-fill' }));
+  const progress = el(
+    'div',
+    { class: 'progress indeterminate', id: 'hip-progress', role: 'progressbar', 'aria-label': 'heat-in-place job', hidden: '' },
+    el('div', { class: 'progress-fill' }),
+  );
   const status = el('p', { class: 'run-message', id: 'hip-status', 'aria-live': 'polite' });
   const out = el('div', { id: 'hip-out' });
 
@@ -283,7 +329,9 @@ export function heatPanel(ctx: AppContext): HeatPanel {
       replace(out, errorBox(o.problems.join('; ')));
       return;
     }
-    const a: { polygon?: unknown; problem?: string } = await area.polygon().catch((e: unknown) => ({ problem: `The regions could not be read: ${message(e)}` }));
+    const a: { polygon?: unknown; problem?: string } = await area
+      .polygon()
+      .catch((e: unknown) => ({ problem: `The regions could not be read: ${message(e)}` }));
     if (a.problem) {
       replace(out, errorBox(a.problem));
       return;
@@ -299,7 +347,8 @@ export function heatPanel(ctx: AppContext): HeatPanel {
       const job = await sendJson<JobView>('POST', `/api/runs/${encodeURIComponent(runId)}/heat-in-place`, request);
       const report = await waitForJob(job.url, (v) => {
         const s = Math.round((Date.now() - started) / 1000);
-        status.textContent = v.status === 'queued' ? `Queued on the server (position ${v.position}), ${s} s…` : `Computing on the server's worker pool, ${s} s…`;
+        status.textContent =
+          v.status === 'queued' ? `Queued on the server (position ${v.position}), ${s} s…` : `Computing on the server's worker pool, ${s} s…`;
       });
       status.textContent = `Done in ${((Date.now() - started) / 1000).toFixed(1)} s.`;
       replace(out, reportView(report, job.links));
@@ -326,7 +375,11 @@ export function heatPanel(ctx: AppContext): HeatPanel {
     ...rows,
     corrRow,
     realizationsNote,
-    el('p', { class: 'note' }, 'ρC, the recovery factor and the efficiencies take a number or a distribution as JSON, e.g. {"dist":"triangular","min":0.05,"mode":0.1,"max":0.2}.'),
+    el(
+      'p',
+      { class: 'note' },
+      'ρC, the recovery factor and the efficiencies take a number or a distribution as JSON, e.g. {"dist":"triangular","min":0.05,"mode":0.1,"max":0.2}.',
+    ),
     el('div', { class: 'button-row' }, btn),
     progress,
     status,
@@ -346,7 +399,7 @@ export function heatPanel(ctx: AppContext): HeatPanel {
       if (ownRealizations()) realizationsInput.value = String(Math.min(runRealizations, Number(realizationsInput.value) || runRealizations));
       realizationsNote.textContent = ownRealizations()
         ? `The heat-flow uncertainty comes from the run's own ${runRealizations} realizations (its simulated heat-flow fields and its seed), the same ones its percentile, spread and probability maps use; ask for at most ${runRealizations}.`
-        : "The run has no realizations: the heat-flow uncertainty is its kriging standard deviation, drawn with the seed above.";
+        : 'The run has no realizations: the heat-flow uncertainty is its kriging standard deviation, drawn with the seed above.';
       runLine.textContent = run ? `Over run ${run.id}.` : 'Run a model first (Run tab): heat in place is computed over a finished run.';
     },
   };

@@ -50,7 +50,8 @@ const FACIES_TINTS: Record<string, string> = {
   hornfels: '#efe6d6',
 };
 
-const W = 360, H = 430;
+const W = 360,
+  H = 430;
 const M = { left: 46, right: 52, top: 30, bottom: 36 };
 
 /** Depth (km) at a pressure (kbar) along the profile, linear between samples and extrapolated past the ends. */
@@ -58,8 +59,10 @@ function depthAtPressure(profile: ColumnPoint[], pKbar: number): number {
   const pts = profile.filter((p) => p.pressureMPa !== null && Number.isFinite(p.pressureMPa));
   if (pts.length < 2) return NaN;
   for (let i = 1; i < pts.length; i++) {
-    const a = pts[i - 1], b = pts[i];
-    const pa = a.pressureMPa! / 100, pb = b.pressureMPa! / 100;
+    const a = pts[i - 1],
+      b = pts[i];
+    const pa = a.pressureMPa! / 100,
+      pb = b.pressureMPa! / 100;
     if (pKbar <= pb || i === pts.length - 1) {
       const t = pb === pa ? 0 : (pKbar - pa) / (pb - pa);
       return a.depthKm + t * (b.depthKm - a.depthKm);
@@ -74,10 +77,18 @@ export function profileAt(profile: ColumnPoint[], depthKm: number): ColumnPoint 
   const i = profile.findIndex((p) => p.depthKm >= depthKm);
   if (i < 0) return profile[profile.length - 1];
   if (i === 0) return profile[0];
-  const a = profile[i - 1], b = profile[i];
+  const a = profile[i - 1],
+    b = profile[i];
   const t = (depthKm - a.depthKm) / (b.depthKm - a.depthKm || 1);
   const lerp = (x: number | null, y: number | null) => (x === null || y === null ? null : x + t * (y - x));
-  return { depthKm, temperatureC: lerp(a.temperatureC, b.temperatureC), heatFlowMWm2: lerp(a.heatFlowMWm2, b.heatFlowMWm2), pressureMPa: lerp(a.pressureMPa, b.pressureMPa), facies: t < 0.5 ? a.facies : b.facies, faciesApproximate: t < 0.5 ? a.faciesApproximate : b.faciesApproximate };
+  return {
+    depthKm,
+    temperatureC: lerp(a.temperatureC, b.temperatureC),
+    heatFlowMWm2: lerp(a.heatFlowMWm2, b.heatFlowMWm2),
+    pressureMPa: lerp(a.pressureMPa, b.pressureMPa),
+    facies: t < 0.5 ? a.facies : b.facies,
+    faciesApproximate: t < 0.5 ? a.faciesApproximate : b.faciesApproximate,
+  };
 }
 
 type Band = NonNullable<ColumnAnswer['band']>;
@@ -90,10 +101,15 @@ function mid(v: unknown): number | null {
 
 /** The P10–P90 band along the profile from the column answer's Monte Carlo (shared/schema/column.ts), or null. */
 function bandOf(c: ColumnAnswer): Band | null {
-  const mc = c.monteCarlo as { realizations: number; profileTemperatureC: { p10: number | null; p50: number | null; p90: number | null }[] | null } | null | undefined;
+  const mc = c.monteCarlo as
+    { realizations: number; profileTemperatureC: { p10: number | null; p50: number | null; p90: number | null }[] | null } | null | undefined;
   if (!mc || !mc.profileTemperatureC) return null;
   const t = mc.profileTemperatureC;
-  return { depthKm: c.profile.map((p) => p.depthKm), temperatureC: { p10: t.map((s) => s.p10), p50: t.map((s) => s.p50), p90: t.map((s) => s.p90) }, realizations: mc.realizations };
+  return {
+    depthKm: c.profile.map((p) => p.depthKm),
+    temperatureC: { p10: t.map((s) => s.p10), p50: t.map((s) => s.p50), p90: t.map((s) => s.p90) },
+    realizations: mc.realizations,
+  };
 }
 
 function isoValue(v: ColumnAnswer['isothermDepthsKm'][string]): number | null {
@@ -139,8 +155,12 @@ interface PlotFrame {
 export function plotWindow(c: ColumnAnswer): { zMax: number; tMax: number } {
   const prof = c.profile.filter((p) => p.temperatureC !== null);
   const full = prof.length > 0 ? prof[prof.length - 1].depthKm : 1;
-  const isoDepths = Object.values(c.isothermDepthsKm).map(isoValue).filter((z): z is number => z !== null && Number.isFinite(z));
-  const bandIso = Object.values(bandOf(c)?.isothermDepthsKm ?? {}).map((v) => v.p90).filter((z): z is number => z !== null && Number.isFinite(z));
+  const isoDepths = Object.values(c.isothermDepthsKm)
+    .map(isoValue)
+    .filter((z): z is number => z !== null && Number.isFinite(z));
+  const bandIso = Object.values(bandOf(c)?.isothermDepthsKm ?? {})
+    .map((v) => v.p90)
+    .filter((z): z is number => z !== null && Number.isFinite(z));
   const melt = mid(c.solidusCrossingKm?.wetSolidus) ?? mid(c.solidusCrossingKm?.meltOnset) ?? null;
   const wanted = Math.max(10, ...isoDepths.map((z) => z * 1.3), ...bandIso.map((z) => z * 1.1), melt ?? 0);
   const zMax = Math.min(full, isoDepths.length > 0 || melt !== null ? wanted : full);
@@ -167,8 +187,12 @@ function faciesFields(c: ColumnAnswer, f: PlotFrame): SVGGElement {
       }
     }
     if (pts.length < 3) continue;
-    fields.append(svg('polygon', { points: pts.join(' '), fill: FACIES_TINTS[fa.name] ?? '#eeeeee', stroke: '#ffffff', 'stroke-width': 1, 'data-facies': fa.name }));
-    let sx = 0, sy = 0, n = 0;
+    fields.append(
+      svg('polygon', { points: pts.join(' '), fill: FACIES_TINTS[fa.name] ?? '#eeeeee', stroke: '#ffffff', 'stroke-width': 1, 'data-facies': fa.name }),
+    );
+    let sx = 0,
+      sy = 0,
+      n = 0;
     for (const [t, p] of fa.polygon) {
       const zc = Math.min(Math.max(depthAtPressure(c.profile, p), 0), f.zMax);
       if (!Number.isFinite(zc)) continue;
@@ -198,9 +222,11 @@ function curves(c: ColumnAnswer, f: PlotFrame): SVGElement[] {
   solidus((p) => (p.pressureMPa === null ? NaN : dryPeridotiteSolidusC(p.pressureMPa / 1000)), 'dry-peridotite', 'dry peridotite solidus');
   const band = bandOf(c);
   if (band && band.depthKm.length > 1) {
-    const lo: string[] = [], hi: string[] = [];
+    const lo: string[] = [],
+      hi: string[] = [];
     band.depthKm.forEach((z, i) => {
-      const a = band.temperatureC.p10[i], b = band.temperatureC.p90[i];
+      const a = band.temperatureC.p10[i],
+        b = band.temperatureC.p90[i];
       if (a === null || b === null) return;
       lo.push(`${f.x(a).toFixed(1)},${f.y(z).toFixed(1)}`);
       hi.unshift(`${f.x(b).toFixed(1)},${f.y(z).toFixed(1)}`);
@@ -217,13 +243,22 @@ function isothermMarks(c: ColumnAnswer, f: PlotFrame): SVGElement[] {
   const marks = Object.entries(c.isothermDepthsKm)
     .map(([tc, v]) => ({ tc, t: Number(tc), z: isoValue(v) }))
     .filter((m): m is { tc: string; t: number; z: number } => m.z !== null && Number.isFinite(m.z) && m.z <= f.zMax);
-  const ys = spreadLabels(marks.map((m) => f.y(m.z) - 4), 12, M.top + 10, M.top + f.ph - 4);
+  const ys = spreadLabels(
+    marks.map((m) => f.y(m.z) - 4),
+    12,
+    M.top + 10,
+    M.top + f.ph - 4,
+  );
   return marks.flatMap((m, i) => {
     const right = f.x(m.t) < M.left + f.pw * 0.55;
     return [
       svg('line', { x1: M.left, x2: f.x(m.t), y1: f.y(m.z), y2: f.y(m.z), class: 'isotherm-mark' }),
       svg('circle', { cx: f.x(m.t), cy: f.y(m.z), r: 3.5, class: 'isotherm-dot' }),
-      svg('text', { x: f.x(m.t) + (right ? 6 : -6), y: ys[i], class: 'isotherm-label', 'text-anchor': right ? 'start' : 'end' }, `${m.tc} °C at ${fmt(m.z, 1)} km`),
+      svg(
+        'text',
+        { x: f.x(m.t) + (right ? 6 : -6), y: ys[i], class: 'isotherm-label', 'text-anchor': right ? 'start' : 'end' },
+        `${m.tc} °C at ${fmt(m.z, 1)} km`,
+      ),
     ];
   });
 }
@@ -232,20 +267,43 @@ function isothermMarks(c: ColumnAnswer, f: PlotFrame): SVGElement[] {
 function axes(c: ColumnAnswer, f: PlotFrame, full: number): SVGGElement {
   const g = svg('g', { class: 'axes' });
   g.append(svg('rect', { x: M.left, y: M.top, width: f.pw, height: f.ph, class: 'frame' }));
-  for (const t of niceTicks(0, f.tMax, 5)) g.append(svg('line', { x1: f.x(t), x2: f.x(t), y1: M.top, y2: M.top - 4 }), svg('text', { x: f.x(t), y: M.top - 7, 'text-anchor': 'middle' }, String(t)));
+  for (const t of niceTicks(0, f.tMax, 5))
+    g.append(svg('line', { x1: f.x(t), x2: f.x(t), y1: M.top, y2: M.top - 4 }), svg('text', { x: f.x(t), y: M.top - 7, 'text-anchor': 'middle' }, String(t)));
   g.append(svg('text', { x: M.left + f.pw / 2, y: 11, 'text-anchor': 'middle', class: 'axis-title' }, 'temperature (°C)'));
-  for (const z of niceTicks(0, f.zMax, 6)) g.append(svg('line', { x1: M.left, x2: M.left - 4, y1: f.y(z), y2: f.y(z) }), svg('text', { x: M.left - 7, y: f.y(z) + 4, 'text-anchor': 'end' }, String(z)));
-  g.append(svg('text', { x: 12, y: M.top + f.ph / 2, transform: `rotate(-90 12 ${M.top + f.ph / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'depth (km)'));
+  for (const z of niceTicks(0, f.zMax, 6))
+    g.append(
+      svg('line', { x1: M.left, x2: M.left - 4, y1: f.y(z), y2: f.y(z) }),
+      svg('text', { x: M.left - 7, y: f.y(z) + 4, 'text-anchor': 'end' }, String(z)),
+    );
+  g.append(
+    svg('text', { x: 12, y: M.top + f.ph / 2, transform: `rotate(-90 12 ${M.top + f.ph / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'depth (km)'),
+  );
   const pMax = (profileAt(c.profile, f.zMax)?.pressureMPa ?? 0) / 100;
   for (const p of niceTicks(0, pMax, 6)) {
     const z = depthAtPressure(c.profile, p);
     if (!Number.isFinite(z) || z > f.zMax) continue;
-    g.append(svg('line', { x1: M.left + f.pw, x2: M.left + f.pw + 4, y1: f.y(z), y2: f.y(z) }), svg('text', { x: M.left + f.pw + 7, y: f.y(z) + 4 }, String(p)));
+    g.append(
+      svg('line', { x1: M.left + f.pw, x2: M.left + f.pw + 4, y1: f.y(z), y2: f.y(z) }),
+      svg('text', { x: M.left + f.pw + 7, y: f.y(z) + 4 }, String(p)),
+    );
   }
   const rx = W - 8;
-  g.append(svg('text', { x: rx, y: M.top + f.ph / 2, transform: `rotate(90 ${rx} ${M.top + f.ph / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'lithostatic pressure (kbar)'));
+  g.append(
+    svg(
+      'text',
+      { x: rx, y: M.top + f.ph / 2, transform: `rotate(90 ${rx} ${M.top + f.ph / 2})`, 'text-anchor': 'middle', class: 'axis-title' },
+      'lithostatic pressure (kbar)',
+    ),
+  );
   g.append(svg('text', { x: M.left + 4, y: H - 20, class: 'note-text' }, 'facies fields approximate (gradational ±50 °C, ±1.5 kbar)'));
-  if (f.zMax < full - 1e-9) g.append(svg('text', { x: M.left + 4, y: H - 8, class: 'note-text', id: 'column-window-note' }, `shown to ${fmt(f.zMax, 0)} km of the ${fmt(full, 0)} km column (readout and table cover all)`));
+  if (f.zMax < full - 1e-9)
+    g.append(
+      svg(
+        'text',
+        { x: M.left + 4, y: H - 8, class: 'note-text', id: 'column-window-note' },
+        `shown to ${fmt(f.zMax, 0)} km of the ${fmt(full, 0)} km column (readout and table cover all)`,
+      ),
+    );
   return g;
 }
 
@@ -265,7 +323,11 @@ function cursorReadout(root: SVGSVGElement, c: ColumnAnswer, f: PlotFrame): HTML
     if (!p) return;
     const visible = cursorDepth <= f.zMax;
     cursor.setAttribute('visibility', visible ? 'visible' : 'hidden');
-    for (const [k, v] of [['y1', f.y(cursorDepth)], ['y2', f.y(cursorDepth)]] as const) hline.setAttribute(k, String(v));
+    for (const [k, v] of [
+      ['y1', f.y(cursorDepth)],
+      ['y2', f.y(cursorDepth)],
+    ] as const)
+      hline.setAttribute(k, String(v));
     dot.setAttribute('cx', String(f.x(p.temperatureC ?? 0)));
     dot.setAttribute('cy', String(f.y(cursorDepth)));
     readout.textContent = `${fmt(cursorDepth, 1)} km · ${fmt(p.temperatureC, 0)} °C · ${fmt((p.pressureMPa ?? NaN) / 100, 2)} kbar · ${fmt(p.heatFlowMWm2, 1)} mW/m²${p.facies ? ` · ${p.facies} (approximate)` : ''}`;
@@ -290,9 +352,18 @@ function cursorReadout(root: SVGSVGElement, c: ColumnAnswer, f: PlotFrame): HTML
 export function columnPlot(c: ColumnAnswer): { plot: SVGSVGElement; readout: HTMLElement } {
   const { zMax, tMax } = plotWindow(c);
   const full = c.profile.length > 0 ? c.profile[c.profile.length - 1].depthKm : 1;
-  const pw = W - M.left - M.right, ph = H - M.top - M.bottom;
+  const pw = W - M.left - M.right,
+    ph = H - M.top - M.bottom;
   const f: PlotFrame = { pw, ph, tMax, zMax, x: (t) => M.left + (t / tMax) * pw, y: (z) => M.top + (z / zMax) * ph };
-  const root = svg('svg', { viewBox: `0 0 ${W} ${H}`, width: W, height: H, class: 'column-plot', role: 'img', tabindex: 0, 'aria-label': 'Temperature against depth; use the up and down arrow keys to move the cursor' });
+  const root = svg('svg', {
+    viewBox: `0 0 ${W} ${H}`,
+    width: W,
+    height: H,
+    class: 'column-plot',
+    role: 'img',
+    tabindex: 0,
+    'aria-label': 'Temperature against depth; use the up and down arrow keys to move the cursor',
+  });
   const clipId = `clip-${Math.random().toString(36).slice(2, 8)}`;
   root.append(svg('defs', {}, svg('clipPath', { id: clipId }, svg('rect', { x: M.left, y: M.top, width: pw, height: ph }))));
   const plotArea = svg('g', { 'clip-path': `url(#${clipId})` });
@@ -319,14 +390,34 @@ export function columnSummary(c: ColumnAnswer, heatFlowSource: string): HTMLElem
   }
   if (c.solidusCrossingKm) {
     // Rock-aware crossings: no temperature is shown below the melt onset.
-    const w = mid(c.solidusCrossingKm.wetSolidus), m = mid(c.solidusCrossingKm.meltOnset);
-    rows.push([`Water-saturated solidus reached at${c.wetSolidus ? ` (${c.wetSolidus.label}, ${c.wetSolidus.layer})` : ''}`, w === null ? 'not reached' : fmt(w, 1), w === null ? '' : 'km']);
-    rows.push([`Melt onset, no temperature below${c.meltOnset ? ` (${c.meltOnset.label}, ${c.meltOnset.layer})` : ''}`, m === null ? 'not reached' : fmt(m, 1), m === null ? '' : 'km']);
-    if (c.lithosphereBaseKm !== undefined) rows.push(['Lithosphere base (mantle adiabat below)', c.lithosphereBaseKm === null ? 'not reached' : fmt(c.lithosphereBaseKm, 1), c.lithosphereBaseKm === null ? '' : 'km']);
+    const w = mid(c.solidusCrossingKm.wetSolidus),
+      m = mid(c.solidusCrossingKm.meltOnset);
+    rows.push([
+      `Water-saturated solidus reached at${c.wetSolidus ? ` (${c.wetSolidus.label}, ${c.wetSolidus.layer})` : ''}`,
+      w === null ? 'not reached' : fmt(w, 1),
+      w === null ? '' : 'km',
+    ]);
+    rows.push([
+      `Melt onset, no temperature below${c.meltOnset ? ` (${c.meltOnset.label}, ${c.meltOnset.layer})` : ''}`,
+      m === null ? 'not reached' : fmt(m, 1),
+      m === null ? '' : 'km',
+    ]);
+    if (c.lithosphereBaseKm !== undefined)
+      rows.push([
+        'Lithosphere base (mantle adiabat below)',
+        c.lithosphereBaseKm === null ? 'not reached' : fmt(c.lithosphereBaseKm, 1),
+        c.lithosphereBaseKm === null ? '' : 'km',
+      ]);
   }
-  const table = el('table', { class: 'kv', id: 'column-summary' }, el('tbody', {}, ...rows.map(([k, v, u]) => el('tr', {}, el('th', { scope: 'row' }, k), el('td', { class: 'num' }, v), el('td', { class: 'unit' }, u)))));
+  const table = el(
+    'table',
+    { class: 'kv', id: 'column-summary' },
+    el('tbody', {}, ...rows.map(([k, v, u]) => el('tr', {}, el('th', { scope: 'row' }, k), el('td', { class: 'num' }, v), el('td', { class: 'unit' }, u)))),
+  );
   const src = el('p', { class: 'note', id: 'column-source' }, `Heat flow from: ${heatFlowSource}`);
   const warn = (c.warnings ?? []).length > 0 ? el('ul', { class: 'warnings' }, ...(c.warnings ?? []).map((w) => el('li', {}, String(w)))) : null;
-  const bandNote = bandOf(c) ? el('p', { class: 'note' }, `Shaded band: P10–P90 of ${bandOf(c)?.realizations ?? 'the'} realizations.`) : el('p', { class: 'note' }, 'No uncertainty band: the run has no realizations.');
+  const bandNote = bandOf(c)
+    ? el('p', { class: 'note' }, `Shaded band: P10–P90 of ${bandOf(c)?.realizations ?? 'the'} realizations.`)
+    : el('p', { class: 'note' }, 'No uncertainty band: the run has no realizations.');
   return el('div', {}, src, table, bandNote, warn);
 }

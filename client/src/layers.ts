@@ -47,7 +47,15 @@ export class LayerPanel {
     private readonly onChange: () => void,
   ) {
     this.lists = {
-      run: el('div', { class: 'layer-group', id: 'run-layers' }, el('p', { class: 'empty', id: 'run-layers-empty' }, 'No run yet: computed layers (heat-flow surface, isotherm depths, temperature and facies at depth, contours, isograds, residuals) appear here after a run.')),
+      run: el(
+        'div',
+        { class: 'layer-group', id: 'run-layers' },
+        el(
+          'p',
+          { class: 'empty', id: 'run-layers-empty' },
+          'No run yet: computed layers (heat-flow surface, isotherm depths, temperature and facies at depth, contours, isograds, residuals) appear here after a run.',
+        ),
+      ),
       data: el('div', { class: 'layer-group', id: 'data-layers' }),
       base: el('div', { class: 'layer-group', id: 'base-layers' }),
     };
@@ -65,7 +73,15 @@ export class LayerPanel {
     const boxId = `toggle-${entry.id}`;
     const box = el('input', { type: 'checkbox', id: boxId });
     box.checked = st.visible;
-    const slider = el('input', { type: 'range', min: '0', max: '100', step: '5', id: `opacity-${entry.id}`, 'aria-label': `${entry.label} opacity`, class: 'opacity' });
+    const slider = el('input', {
+      type: 'range',
+      min: '0',
+      max: '100',
+      step: '5',
+      id: `opacity-${entry.id}`,
+      'aria-label': `${entry.label} opacity`,
+      class: 'opacity',
+    });
     slider.value = String(Math.round(st.opacity * 100));
     const pct = el('output', { for: slider.id, class: 'pct' }, `${slider.value}%`);
     box.addEventListener('change', () => {
@@ -79,7 +95,9 @@ export class LayerPanel {
       this.apply(entry.id);
       this.onChange();
     });
-    const zoom = entry.bounds ? el('button', { type: 'button', class: 'zoom-to', id: `zoom-${entry.id}`, 'aria-label': `zoom to ${entry.label}` }, 'zoom to') : null;
+    const zoom = entry.bounds
+      ? el('button', { type: 'button', class: 'zoom-to', id: `zoom-${entry.id}`, 'aria-label': `zoom to ${entry.label}` }, 'zoom to')
+      : null;
     zoom?.addEventListener('click', () => {
       const b = entry.bounds?.();
       if (b) fitBbox(this.map, b);

@@ -48,7 +48,13 @@ export function legendEntries(): LayerEntry[] {
     'div',
     {},
     gradientBar(EMBER.colors, HEAT_FLOW_RANGE[0], HEAT_FLOW_RANGE[1], 'mW/m²'),
-    el('div', { class: 'sizes' }, ...(['high', 'medium', 'low'] as const).map((q, i) => el('span', { class: 'size' }, el('i', { class: 'dot', style: `width:${13 - i * 2.5}px;height:${13 - i * 2.5}px` }), `${q} quality`))),
+    el(
+      'div',
+      { class: 'sizes' },
+      ...(['high', 'medium', 'low'] as const).map((q, i) =>
+        el('span', { class: 'size' }, el('i', { class: 'dot', style: `width:${13 - i * 2.5}px;height:${13 - i * 2.5}px` }), `${q} quality`),
+      ),
+    ),
   );
   const zones = el(
     'ul',
@@ -60,7 +66,12 @@ export function legendEntries(): LayerEntry[] {
     'ul',
     { class: 'swatches' },
     ...Object.entries(FAULT_STYLE).map(([k, s]) =>
-      el('li', {}, el('i', { class: 'line', style: `border-top: ${s.width}px ${s.dash.length ? (s.dash[0] > 2 ? 'dashed' : 'dotted') : 'solid'} ${s.color}` }), k),
+      el(
+        'li',
+        {},
+        el('i', { class: 'line', style: `border-top: ${s.width}px ${s.dash.length ? (s.dash[0] > 2 ? 'dashed' : 'dotted') : 'solid'} ${s.color}` }),
+        k,
+      ),
     ),
   );
   const terrain = el('p', { class: 'note' }, 'Shaded relief of the ground surface (m above sea level).');

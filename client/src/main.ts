@@ -40,7 +40,15 @@ interface PageStart {
 async function loadPage(): Promise<PageStart> {
   const cfg = await getJson<AppConfig>('/api/config');
   const url = new URL(window.location.href);
-  let state: AppState = { view: null, layers: {}, params: defaultParams(cfg.demo.datasets), model: null, runId: null, depthKm: null, title: `${cfg.demo.name} heat map` };
+  let state: AppState = {
+    view: null,
+    layers: {},
+    params: defaultParams(cfg.demo.datasets),
+    model: null,
+    runId: null,
+    depthKm: null,
+    title: `${cfg.demo.name} heat map`,
+  };
   const projectId = /^\/p\/([A-Za-z0-9_-]+)\/?$/.exec(url.pathname)?.[1] ?? url.searchParams.get('project');
   const editToken = /(?:^#|&)edit=([^&]+)/.exec(window.location.hash)?.[1] ?? null;
   let restoreError: string | null = null;
@@ -80,8 +88,22 @@ async function demoStart(cfg: AppConfig, state: AppState): Promise<AppState> {
 
 function createMap(cfg: AppConfig, state: AppState): MapLibreMap {
   const bounds = cfg.terrain?.bounds ?? [-129.2, -38.95, -126.8, -37.05];
-  const view = state.view ? { center: state.view.center, zoom: state.view.zoom } : { bounds: [[bounds[0], bounds[1]], [bounds[2], bounds[3]]] as [[number, number], [number, number]], fitBoundsOptions: { padding: 20 } };
-  const map = new MapLibreMap({ container: 'map', style: buildStyle(cfg, window.location.origin), ...view, attributionControl: false, canvasContextAttributes: { preserveDrawingBuffer: true } });
+  const view = state.view
+    ? { center: state.view.center, zoom: state.view.zoom }
+    : {
+        bounds: [
+          [bounds[0], bounds[1]],
+          [bounds[2], bounds[3]],
+        ] as [[number, number], [number, number]],
+        fitBoundsOptions: { padding: 20 },
+      };
+  const map = new MapLibreMap({
+    container: 'map',
+    style: buildStyle(cfg, window.location.origin),
+    ...view,
+    attributionControl: false,
+    canvasContextAttributes: { preserveDrawingBuffer: true },
+  });
   map.addControl(new NavigationControl({ visualizePitch: false }), 'top-right');
   map.addControl(new ScaleControl({ unit: 'metric' }), 'bottom-right');
   return map;
@@ -109,7 +131,12 @@ function urlSync(map: MapLibreMap, state: AppState, projectId: string | null): (
  */
 function tilesLoading(map: MapLibreMap): { done(): void } {
   document.getElementById('tiles-loading')?.remove();
-  const note = el('div', { class: 'map-loading', id: 'tiles-loading', role: 'status', 'aria-live': 'polite' }, el('span', { class: 'spinner', 'aria-hidden': 'true' }), "Drawing the run's layers…");
+  const note = el(
+    'div',
+    { class: 'map-loading', id: 'tiles-loading', role: 'status', 'aria-live': 'polite' },
+    el('span', { class: 'spinner', 'aria-hidden': 'true' }),
+    "Drawing the run's layers…",
+  );
   document.getElementById('map')!.append(note);
   return {
     done() {
@@ -121,7 +148,11 @@ function tilesLoading(map: MapLibreMap): { done(): void } {
 }
 
 /** Shows a finished run: its layers, its summary, its structure report and the section hint. */
-async function showRun(ctx: AppContext, run: RunState, panels: { runs: RunPanel; structure: StructurePanel; section: SectionPanel; heat: HeatPanel }): Promise<void> {
+async function showRun(
+  ctx: AppContext,
+  run: RunState,
+  panels: { runs: RunPanel; structure: StructurePanel; section: SectionPanel; heat: HeatPanel },
+): Promise<void> {
   ctx.state.runId = run.id;
   const loading = tilesLoading(ctx.map);
   try {
@@ -131,7 +162,11 @@ async function showRun(ctx: AppContext, run: RunState, panels: { runs: RunPanel;
   }
 }
 
-async function showRunContent(ctx: AppContext, run: RunState, panels: { runs: RunPanel; structure: StructurePanel; section: SectionPanel; heat: HeatPanel }): Promise<void> {
+async function showRunContent(
+  ctx: AppContext,
+  run: RunState,
+  panels: { runs: RunPanel; structure: StructurePanel; section: SectionPanel; heat: HeatPanel },
+): Promise<void> {
   ctx.app.run = await showRunLayers(ctx.map, ctx.layerPanel, run, {
     depthKm: ctx.state.depthKm,
     onDepth: (d) => {
@@ -142,7 +177,9 @@ async function showRunContent(ctx: AppContext, run: RunState, panels: { runs: Ru
   });
   panels.runs.showSummary(run);
   const isoLayer = (run.layers ?? []).find((l) => /isograd/i.test(l.name) && l.kind === 'vector');
-  const isograds = isoLayer ? await getJson<FeatureCollection>(`/api/runs/${encodeURIComponent(run.id)}/layers/${encodeURIComponent(isoLayer.name)}.geojson`).catch(() => null) : null;
+  const isograds = isoLayer
+    ? await getJson<FeatureCollection>(`/api/runs/${encodeURIComponent(run.id)}/layers/${encodeURIComponent(isoLayer.name)}.geojson`).catch(() => null)
+    : null;
   const st = run.summary?.structure;
   panels.structure.setRun(st?.faults ?? [], isograds, st?.isograds ?? [], st?.samples ?? []);
   panels.section.setRunDone(run.status === 'done');
@@ -151,7 +188,11 @@ async function showRunContent(ctx: AppContext, run: RunState, panels: { runs: Ru
 }
 
 /** Builds the tool tabs and connects the panels; returns how to show a run, and how to follow one still running. */
-function buildTools(ctx: AppContext, data: DataSets, demoModel: ReturnType<typeof parseThermalModel>): { show: (run: RunState) => Promise<void>; follow: (id: string) => void } {
+function buildTools(
+  ctx: AppContext,
+  data: DataSets,
+  demoModel: ReturnType<typeof parseThermalModel>,
+): { show: (run: RunState) => Promise<void>; follow: (id: string) => void } {
   const { state } = ctx;
   const editor = modelEditor(state.model ?? demoModel, (m) => {
     if (m) state.model = m;
@@ -160,8 +201,17 @@ function buildTools(ctx: AppContext, data: DataSets, demoModel: ReturnType<typeo
   const structure = new StructurePanel(ctx.map);
   const section = sectionPanel(ctx);
   let show: (run: RunState) => Promise<void> = () => Promise.resolve();
-  const submitTo = (): { path: string; headers: Record<string, string> } => (ctx.projectId !== null && ctx.editToken !== null ? { path: `/api/projects/${encodeURIComponent(ctx.projectId)}/runs`, headers: { authorization: `Bearer ${decodeURIComponent(ctx.editToken)}` } } : { path: '/api/runs', headers: {} });
-  const runs = runPanel({ params: state.params, model: () => editor.value(), onParams: (p) => ((state.params = p), ctx.syncUrl()), onDone: (run) => void show(run).catch((e: unknown) => ctx.showError(message(e))), submitTo });
+  const submitTo = (): { path: string; headers: Record<string, string> } =>
+    ctx.projectId !== null && ctx.editToken !== null
+      ? { path: `/api/projects/${encodeURIComponent(ctx.projectId)}/runs`, headers: { authorization: `Bearer ${decodeURIComponent(ctx.editToken)}` } }
+      : { path: '/api/runs', headers: {} };
+  const runs = runPanel({
+    params: state.params,
+    model: () => editor.value(),
+    onParams: (p) => ((state.params = p), ctx.syncUrl()),
+    onDone: (run) => void show(run).catch((e: unknown) => ctx.showError(message(e))),
+    submitTo,
+  });
   const heat = heatPanel(ctx);
   show = (run) => showRun(ctx, run, { runs, structure, section, heat });
   const column = columnPanel(ctx, { model: () => editor.value(), sites: () => data.current.sites });
@@ -183,7 +233,10 @@ function buildTools(ctx: AppContext, data: DataSets, demoModel: ReturnType<typeo
   if (ctx.readOnly) {
     editor.setEnabled(false);
     runs.setEnabled(false);
-    for (const id of ['data', 'model', 'run']) document.getElementById(`tabpanel-${id}`)!.prepend(el('p', { class: 'note readonly-note' }, 'Read-only view: open the edit link to change this project.'));
+    for (const id of ['data', 'model', 'run'])
+      document
+        .getElementById(`tabpanel-${id}`)!
+        .prepend(el('p', { class: 'note readonly-note' }, 'Read-only view: open the edit link to change this project.'));
   }
   return { show, follow: (id) => runs.follow(id) };
 }
@@ -211,12 +264,15 @@ async function start(): Promise<void> {
   state.model ??= await demoModel;
   if (restoreError) showError(restoreError);
   await new Promise<void>((r) => (map.isStyleLoaded() ? r() : map.once('load', () => r())));
-  void map.getSource<GeoJSONSource>('sea-mask')?.setData(seaMask(await getJson<Parameters<typeof seaMask>[0]>(`/api/datasets/${encodeURIComponent(ds.regions)}`)));
+  void map
+    .getSource<GeoJSONSource>('sea-mask')
+    ?.setData(seaMask(await getJson<Parameters<typeof seaMask>[0]>(`/api/datasets/${encodeURIComponent(ds.regions)}`)));
   void installWorldBase(map).catch((e: unknown) => console.error(`world base: ${message(e)}`));
   document.getElementById('map')!.append(cursorReadout(map));
   document.querySelector('.topbar .spacer')!.before(goToBox(map));
   const data = new DataSets(ctx);
-  for (const entry of legendEntries()) layerPanel.add({ ...entry, ...(entry.id in data.current ? { bounds: () => data.bounds([entry.id as PointKind]) } : {}) });
+  for (const entry of legendEntries())
+    layerPanel.add({ ...entry, ...(entry.id in data.current ? { bounds: () => data.bounds([entry.id as PointKind]) } : {}) });
   const show = buildTools(ctx, data, await demoModel);
   const own = (k: 'samples' | 'faults') => state.params[k] ?? (projectId === null ? ds[k] : undefined);
   await Promise.all([data.load('sites', state.params.sites), data.load('samples', own('samples')), data.load('faults', own('faults'))]);

@@ -113,20 +113,40 @@ function layout(f: Fields, addBtn: HTMLButtonElement, status: HTMLElement): HTML
     { id: 'model-editor' },
     el('div', { class: 'field-row' }, el('label', { for: f.name.id }, 'Model name'), f.name),
     el('div', { class: 'field-row' }, el('label', { for: f.surfaceT.id }, 'Surface temperature (°C)'), el('span', { class: 'cell' }, f.surfaceT, f.errT)),
-    el('div', { class: 'field-row' }, el('label', { for: f.surfaceQ.id }, 'Surface heat flow where no grid (mW/m²)'), el('span', { class: 'cell' }, f.surfaceQ, f.errQ)),
+    el(
+      'div',
+      { class: 'field-row' },
+      el('label', { for: f.surfaceQ.id }, 'Surface heat flow where no grid (mW/m²)'),
+      el('span', { class: 'cell' }, f.surfaceQ, f.errQ),
+    ),
     el(
       'div',
       { class: 'table-scroll' },
       el(
         'table',
         { class: 'model-table' },
-        el('thead', {}, el('tr', {}, ...COLUMNS.map((c) => el('th', { scope: 'col' }, c.label, c.units ? el('br') : null, c.units ? el('span', { class: 'unit' }, `(${c.units})`) : null)), el('th', {}, ''))),
+        el(
+          'thead',
+          {},
+          el(
+            'tr',
+            {},
+            ...COLUMNS.map((c) =>
+              el('th', { scope: 'col' }, c.label, c.units ? el('br') : null, c.units ? el('span', { class: 'unit' }, `(${c.units})`) : null),
+            ),
+            el('th', {}, ''),
+          ),
+        ),
         f.tbody,
       ),
     ),
     el('div', { class: 'field-row' }, addBtn),
     status,
-    el('p', { class: 'note' }, 'A cell takes a number or a distribution as JSON, e.g. {"dist":"normal","mean":3,"sd":0.3}. The name travels into reports and exports.'),
+    el(
+      'p',
+      { class: 'note' },
+      'A cell takes a number or a distribution as JSON, e.g. {"dist":"normal","mean":3,"sd":0.3}. The name travels into reports and exports.',
+    ),
   );
 }
 
@@ -134,7 +154,11 @@ function layout(f: Fields, addBtn: HTMLButtonElement, status: HTMLElement): HTML
 function layerRow(layer: Record<string, unknown>, i: number, enabled: boolean, onInput: () => void, onRemove: () => void): HTMLTableRowElement {
   const tr = el('tr', {});
   COLUMNS.forEach((c) => {
-    const input = el('input', { class: c.key === 'name' ? 'text' : 'num', 'aria-label': `layer ${i + 1} ${c.label}${c.units ? ` (${c.units})` : ''}`, 'data-field': c.key });
+    const input = el('input', {
+      class: c.key === 'name' ? 'text' : 'num',
+      'aria-label': `layer ${i + 1} ${c.label}${c.units ? ` (${c.units})` : ''}`,
+      'data-field': c.key,
+    });
     input.value = toText(layer[c.key]);
     input.disabled = !enabled;
     input.addEventListener('input', onInput);
@@ -205,7 +229,13 @@ export function modelEditor(initial: ThermalModelInput, onValid: (m: ThermalMode
     const rows = rowInputs(f.tbody);
     const last = rows.length > 0 ? Number(rows[rows.length - 1][1].value) : 0;
     extras.push({});
-    addRow({ name: `layer ${rows.length + 1}`, bottomKm: Number.isFinite(last) ? last + 10 : 10, conductivityWmK: 2.5, heatProductionUWm3: 0.5, densityKgM3: 2900 });
+    addRow({
+      name: `layer ${rows.length + 1}`,
+      bottomKm: Number.isFinite(last) ? last + 10 : 10,
+      conductivityWmK: 2.5,
+      heatProductionUWm3: 0.5,
+      densityKgM3: 2900,
+    });
     validate();
   });
   for (const i of [f.name, f.surfaceT, f.surfaceQ]) i.addEventListener('input', validate);

@@ -21,17 +21,33 @@ export interface ProjectDataset {
   url: string;
 }
 
-const KIND_LABELS: Record<string, string> = { sites: 'heat-flow sites', samples: 'grade samples', faults: 'faults', wells: 'wells', regions: 'regions', model: 'thermal model' };
+const KIND_LABELS: Record<string, string> = {
+  sites: 'heat-flow sites',
+  samples: 'grade samples',
+  faults: 'faults',
+  wells: 'wells',
+  regions: 'regions',
+  model: 'thermal model',
+};
 
 function auth(ctx: AppContext): Record<string, string> {
   return ctx.editToken ? { authorization: `Bearer ${decodeURIComponent(ctx.editToken)}` } : {};
 }
 
 /** Uploads a file into the project as `kind` (CSV, GeoPackage, zipped Shapefile, GeoJSON, or a JSON model). */
-export async function uploadToProject(ctx: AppContext, kind: string, file: Blob & { name: string }, opts: UploadOptions = {}): Promise<ProjectDataset & { warnings: (string | Problem)[] }> {
+export async function uploadToProject(
+  ctx: AppContext,
+  kind: string,
+  file: Blob & { name: string },
+  opts: UploadOptions = {},
+): Promise<ProjectDataset & { warnings: (string | Problem)[] }> {
   const name = file.name.replace(/\.[A-Za-z0-9]+$/, '').slice(0, 120) || file.name;
   const query = uploadQuery({ kind, name, filename: file.name.slice(0, 200) }, opts);
-  const res = await fetch(`/api/projects/${encodeURIComponent(ctx.projectId!)}/datasets?${query}`, { method: 'POST', headers: { accept: 'application/json', 'content-type': uploadMediaType(file.name, kind), ...auth(ctx) }, body: file });
+  const res = await fetch(`/api/projects/${encodeURIComponent(ctx.projectId!)}/datasets?${query}`, {
+    method: 'POST',
+    headers: { accept: 'application/json', 'content-type': uploadMediaType(file.name, kind), ...auth(ctx) },
+    body: file,
+  });
   const d = await checked<ProjectDataset & { warnings?: (string | Problem)[] }>(res);
   return { ...d, warnings: d.warnings ?? [] };
 }
@@ -60,7 +76,11 @@ export interface ProjectTerrain {
 /** Uploads a DEM GeoTIFF as the project's terrain (EPSG:4326 or an EPSG-coded projected CRS, metres). */
 export async function uploadTerrain(ctx: AppContext, file: Blob & { name: string }): Promise<ProjectTerrain> {
   const name = file.name.replace(/\.[A-Za-z0-9]+$/, '').slice(0, 120) || file.name;
-  const res = await fetch(`/api/projects/${encodeURIComponent(ctx.projectId!)}/terrain?${new URLSearchParams({ name })}`, { method: 'POST', headers: { accept: 'application/json', 'content-type': 'image/tiff', ...auth(ctx) }, body: file });
+  const res = await fetch(`/api/projects/${encodeURIComponent(ctx.projectId!)}/terrain?${new URLSearchParams({ name })}`, {
+    method: 'POST',
+    headers: { accept: 'application/json', 'content-type': 'image/tiff', ...auth(ctx) },
+    body: file,
+  });
   return checked<ProjectTerrain>(res);
 }
 
@@ -73,14 +93,31 @@ export function showProjectTerrain(map: MapLibreMap, t: ProjectTerrain | null): 
   const v = encodeURIComponent(t.uploadedAt);
   map.addSource('project-terrain', { ...t.source, tiles: t.source.tiles.map((u) => `${window.location.origin}${u}?v=${v}`) });
   map.addLayer(
-    { id: 'project-hillshade', type: 'hillshade', source: 'project-terrain', paint: { 'hillshade-exaggeration': 0.85, 'hillshade-shadow-color': '#4a4540', 'hillshade-highlight-color': '#ffffff', 'hillshade-accent-color': '#8a8276' } },
+    {
+      id: 'project-hillshade',
+      type: 'hillshade',
+      source: 'project-terrain',
+      paint: {
+        'hillshade-exaggeration': 0.85,
+        'hillshade-shadow-color': '#4a4540',
+        'hillshade-highlight-color': '#ffffff',
+        'hillshade-accent-color': '#8a8276',
+      },
+    },
     map.getLayer('world-coast') ? 'world-coast' : undefined,
   );
 }
 
 /** Starts an empty project (no data sets, the current model) and opens its edit link. */
 export async function newProject(ctx: AppContext, title: string): Promise<void> {
-  const state = { ...stateToJson(ctx.state), runId: null, view: null, layers: {}, title, params: { ...defaultParams({}), sites: '', samples: undefined, faults: undefined } };
+  const state = {
+    ...stateToJson(ctx.state),
+    runId: null,
+    view: null,
+    layers: {},
+    title,
+    params: { ...defaultParams({}), sites: '', samples: undefined, faults: undefined },
+  };
   const r = await sendJson<{ id: string; editUrl: string }>('POST', '/api/projects', { title, state });
   window.location.assign(new URL(r.editUrl, window.location.origin).href);
 }
@@ -109,7 +146,9 @@ export class ProjectDataTable {
   async refresh(): Promise<void> {
     if (this.ctx.projectId === null) return;
     try {
-      const r = await getJson<{ datasets: ProjectDataset[]; terrain?: ProjectTerrain | null }>(`/api/projects/${encodeURIComponent(this.ctx.projectId)}/datasets`);
+      const r = await getJson<{ datasets: ProjectDataset[]; terrain?: ProjectTerrain | null }>(
+        `/api/projects/${encodeURIComponent(this.ctx.projectId)}/datasets`,
+      );
       this.list = r.datasets;
       const t = r.terrain ?? null;
       if (t?.uploadedAt !== this.terrain?.uploadedAt) showProjectTerrain(this.ctx.map, t);
@@ -122,7 +161,11 @@ export class ProjectDataTable {
 
   private async change(method: 'PATCH' | 'DELETE', d: ProjectDataset, body?: unknown): Promise<void> {
     try {
-      const res = await fetch(d.url, { method, headers: { accept: 'application/json', ...(body ? { 'content-type': 'application/json' } : {}), ...auth(this.ctx) }, body: body ? JSON.stringify(body) : undefined });
+      const res = await fetch(d.url, {
+        method,
+        headers: { accept: 'application/json', ...(body ? { 'content-type': 'application/json' } : {}), ...auth(this.ctx) },
+        body: body ? JSON.stringify(body) : undefined,
+      });
       if (!res.ok) throw new Error(((await res.json().catch(() => null)) as { error?: { message?: string } } | null)?.error?.message ?? `${res.status}`);
       await this.refresh();
     } catch (e) {
@@ -142,23 +185,45 @@ export class ProjectDataTable {
     if (['sites', 'samples', 'faults'].includes(d.kind) && editable) actions.append(btn(used ? 'in use' : 'use', () => this.onUse(d)));
     if (d.bbox) actions.append(btn('zoom to', () => fitBbox(this.ctx.map, d.bbox!)));
     if (editable) {
-      actions.append(btn('rename', () => {
-        const name = window.prompt('New name for this data set', d.name);
-        if (name !== null && name.trim() !== '' && name !== d.name) void this.change('PATCH', d, { name: name.trim() });
-      }));
-      actions.append(btn('remove', () => {
-        if (window.confirm(`Remove "${d.name}" from this project? Runs that used it keep their copy.`)) void this.change('DELETE', d);
-      }));
+      actions.append(
+        btn('rename', () => {
+          const name = window.prompt('New name for this data set', d.name);
+          if (name !== null && name.trim() !== '' && name !== d.name) void this.change('PATCH', d, { name: name.trim() });
+        }),
+      );
+      actions.append(
+        btn('remove', () => {
+          if (window.confirm(`Remove "${d.name}" from this project? Runs that used it keep their copy.`)) void this.change('DELETE', d);
+        }),
+      );
     }
     actions.append(el('a', { href: d.url, download: '', class: 'dl' }, 'download'));
-    return el('tr', { 'data-dataset': d.id, 'data-kind': d.kind }, el('td', {}, KIND_LABELS[d.kind] ?? d.kind), el('td', { class: 'name' }, d.name, used ? el('span', { class: 'muted' }, ' (in the run)') : null), el('td', { class: 'num' }, String(d.featureCount)), el('td', { class: 'bbox' }, bboxText(d.bbox)), el('td', {}, new Date(d.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')), actions);
+    return el(
+      'tr',
+      { 'data-dataset': d.id, 'data-kind': d.kind },
+      el('td', {}, KIND_LABELS[d.kind] ?? d.kind),
+      el('td', { class: 'name' }, d.name, used ? el('span', { class: 'muted' }, ' (in the run)') : null),
+      el('td', { class: 'num' }, String(d.featureCount)),
+      el('td', { class: 'bbox' }, bboxText(d.bbox)),
+      el('td', {}, new Date(d.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')),
+      actions,
+    );
   }
 
   /** The terrain's row: extent, source CRS, zoom to. */
   private terrainRow(t: ProjectTerrain): HTMLElement {
     const zoom = el('button', { type: 'button', class: 'small', 'data-action': 'zoom to' }, 'zoom to');
     zoom.addEventListener('click', () => fitBbox(this.ctx.map, t.bbox));
-    return el('tr', { 'data-kind': 'terrain' }, el('td', {}, 'terrain'), el('td', { class: 'name' }, t.name, el('span', { class: 'muted' }, ` (${t.width} × ${t.height} cells, from ${t.sourceCrs})`)), el('td', { class: 'num' }, '—'), el('td', { class: 'bbox' }, bboxText(t.bbox)), el('td', {}, new Date(t.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')), el('td', { class: 'actions' }, zoom));
+    return el(
+      'tr',
+      { 'data-kind': 'terrain' },
+      el('td', {}, 'terrain'),
+      el('td', { class: 'name' }, t.name, el('span', { class: 'muted' }, ` (${t.width} × ${t.height} cells, from ${t.sourceCrs})`)),
+      el('td', { class: 'num' }, '—'),
+      el('td', { class: 'bbox' }, bboxText(t.bbox)),
+      el('td', {}, new Date(t.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')),
+      el('td', { class: 'actions' }, zoom),
+    );
   }
 
   private render(): void {
@@ -167,7 +232,19 @@ export class ProjectDataTable {
       return;
     }
     const head = el('tr', {}, ...['Kind', 'Name', 'Features', 'Extent', 'Uploaded (UTC)', ''].map((h) => el('th', { scope: 'col' }, h)));
-    replace(this.root, el('div', { class: 'table-scroll' }, el('table', { class: 'report datasets' }, el('thead', {}, head), el('tbody', {}, ...this.list.map((d) => this.row(d)), this.terrain ? this.terrainRow(this.terrain) : null))));
+    replace(
+      this.root,
+      el(
+        'div',
+        { class: 'table-scroll' },
+        el(
+          'table',
+          { class: 'report datasets' },
+          el('thead', {}, head),
+          el('tbody', {}, ...this.list.map((d) => this.row(d)), this.terrain ? this.terrainRow(this.terrain) : null),
+        ),
+      ),
+    );
   }
 }
 
@@ -183,5 +260,11 @@ export function newProjectControl(ctx: AppContext): HTMLElement {
       replace(out, e instanceof ApiError ? errorBox(e.message, e.details) : errorBox(message(e)));
     });
   });
-  return el('div', { class: 'new-project' }, el('div', { class: 'field-row' }, el('label', { for: title.id }, 'Title'), title), el('div', { class: 'button-row' }, btn), out);
+  return el(
+    'div',
+    { class: 'new-project' },
+    el('div', { class: 'field-row' }, el('label', { for: title.id }, 'Title'), title),
+    el('div', { class: 'button-row' }, btn),
+    out,
+  );
 }

@@ -48,12 +48,17 @@ export async function rasterValue(t: TileInfo, lon: number, lat: number, zoom: n
   const fx = ((lon + 180) / 360) * n;
   const s = Math.sin((lat * Math.PI) / 180);
   const fy = (0.5 - Math.log((1 + s) / (1 - s)) / (4 * Math.PI)) * n;
-  const x = Math.floor(fx), y = Math.floor(fy);
+  const x = Math.floor(fx),
+    y = Math.floor(fy);
   if (y < 0 || y >= n) return null;
-  const url = t.tiles[0].replace('{z}', String(z)).replace('{x}', String(((x % n) + n) % n)).replace('{y}', String(y));
+  const url = t.tiles[0]
+    .replace('{z}', String(z))
+    .replace('{x}', String(((x % n) + n) % n))
+    .replace('{y}', String(y));
   const img = await loadTile(url);
   if (!img) return null;
-  const px = Math.min(img.width - 1, Math.floor((fx - x) * img.width)), py = Math.min(img.height - 1, Math.floor((fy - y) * img.height));
+  const px = Math.min(img.width - 1, Math.floor((fx - x) * img.width)),
+    py = Math.min(img.height - 1, Math.floor((fy - y) * img.height));
   const o = (py * img.width + px) * 4;
   const [r, g, b, a] = [img.data[o], img.data[o + 1], img.data[o + 2], img.data[o + 3]];
   if (a === 0 || (r === 0 && g === 0 && b === 0)) return null;

@@ -23,7 +23,9 @@ export function variogramModel(v: Variogram, h: number): number {
 }
 
 export function variogramPlot(v: Variogram): HTMLElement {
-  const W = 340, H = 220, M = { l: 48, r: 12, t: 14, b: 36 };
+  const W = 340,
+    H = 220,
+    M = { l: 48, r: 12, t: 14, b: 36 };
   const emp = v.empirical;
   // The lag axis spans the empirical lags (the fit's evidence) with a margin; without them, 1.3 × the range. A range
   // far beyond the lags (a trend in the data) then runs off the plot instead of squeezing the points into a corner.
@@ -33,7 +35,14 @@ export function variogramPlot(v: Variogram): HTMLElement {
   const gMax = Math.max(Number.isFinite(gAtMax) ? gAtMax : v.nugget + v.partialSill, ...emp.map((e) => e.gamma)) * 1.1 || 1;
   const x = (h: number) => M.l + (h / hMax) * (W - M.l - M.r);
   const y = (g: number) => H - M.b - (g / gMax) * (H - M.t - M.b);
-  const root = svg('svg', { viewBox: `0 0 ${W} ${H}`, width: W, height: H, class: 'variogram-plot', role: 'img', 'aria-label': `variogram: ${v.model} model, nugget ${fmt(v.nugget, 2)}, partial sill ${fmt(v.partialSill, 2)}, range ${fmt(v.rangeKm, 1)} km` });
+  const root = svg('svg', {
+    viewBox: `0 0 ${W} ${H}`,
+    width: W,
+    height: H,
+    class: 'variogram-plot',
+    role: 'img',
+    'aria-label': `variogram: ${v.model} model, nugget ${fmt(v.nugget, 2)}, partial sill ${fmt(v.partialSill, 2)}, range ${fmt(v.rangeKm, 1)} km`,
+  });
   root.append(svg('rect', { x: M.l, y: M.t, width: W - M.l - M.r, height: H - M.t - M.b, class: 'frame' }));
   for (const h of niceTicks(0, hMax, 5)) root.append(svg('text', { x: x(h), y: H - M.b + 14, 'text-anchor': 'middle' }, String(h)));
   for (const g of niceTicks(0, gMax, 4)) root.append(svg('text', { x: M.l - 5, y: y(g) + 4, 'text-anchor': 'end' }, String(g)));
@@ -47,8 +56,19 @@ export function variogramPlot(v: Variogram): HTMLElement {
   }
   root.append(svg('polyline', { points: pts.join(' '), class: 'vg-model' }));
   const maxPairs = Math.max(1, ...emp.map((e) => e.pairs));
-  for (const e of emp) root.append(svg('circle', { cx: x(e.lagKm), cy: y(e.gamma), r: 2 + 3 * Math.sqrt(e.pairs / maxPairs), class: 'vg-point' }, svg('title', {}, `${fmt(e.lagKm, 1)} km: γ ${fmt(e.gamma, 2)} (${e.pairs} pairs)`)));
-  const caption = el('p', { class: 'note' }, `${v.model} model: nugget ${fmt(v.nugget, 2)}, partial sill ${fmt(v.partialSill, 2)}, practical range ${fmt(v.rangeKm, 1)} km. ${emp.length > 0 ? 'Dots: empirical semivariance (size ∝ √pairs).' : 'The run reports no empirical semivariances: the fitted model only.'}`);
+  for (const e of emp)
+    root.append(
+      svg(
+        'circle',
+        { cx: x(e.lagKm), cy: y(e.gamma), r: 2 + 3 * Math.sqrt(e.pairs / maxPairs), class: 'vg-point' },
+        svg('title', {}, `${fmt(e.lagKm, 1)} km: γ ${fmt(e.gamma, 2)} (${e.pairs} pairs)`),
+      ),
+    );
+  const caption = el(
+    'p',
+    { class: 'note' },
+    `${v.model} model: nugget ${fmt(v.nugget, 2)}, partial sill ${fmt(v.partialSill, 2)}, practical range ${fmt(v.rangeKm, 1)} km. ${emp.length > 0 ? 'Dots: empirical semivariance (size ∝ √pairs).' : 'The run reports no empirical semivariances: the fitted model only.'}`,
+  );
   return el('figure', { class: 'variogram' }, root, caption);
 }
 
@@ -61,7 +81,11 @@ function cvTable(cv: CrossValidation): HTMLElement {
     ['Points', String(cv.n)],
   ];
   const filled = rows.filter(([, v]) => v !== '—');
-  return el('table', { class: 'kv', id: 'cv-summary' }, el('tbody', {}, ...filled.map(([k, v]) => el('tr', {}, el('th', { scope: 'row' }, k), el('td', { class: 'num' }, v)))));
+  return el(
+    'table',
+    { class: 'kv', id: 'cv-summary' },
+    el('tbody', {}, ...filled.map(([k, v]) => el('tr', {}, el('th', { scope: 'row' }, k), el('td', { class: 'num' }, v)))),
+  );
 }
 
 /**
@@ -70,7 +94,13 @@ function cvTable(cv: CrossValidation): HTMLElement {
  * …/probability). Each becomes one of the run's layers, with its legend and units; `onLayer` redraws the run.
  */
 export function uncertaintyControls(run: RunState, onLayer: (run: RunState) => void): HTMLElement {
-  const iso = el('input', { id: 'unc-isotherm', type: 'number', step: 'any', value: String((run.request?.isothermsC as number[] | undefined)?.[0] ?? 300), class: 'num' });
+  const iso = el('input', {
+    id: 'unc-isotherm',
+    type: 'number',
+    step: 'any',
+    value: String((run.request?.isothermsC as number[] | undefined)?.[0] ?? 300),
+    class: 'num',
+  });
   const km = el('input', { id: 'unc-depth', type: 'number', step: 'any', min: '0', value: '5', class: 'num' });
   const spreadBtn = el('button', { type: 'button', id: 'unc-spread' }, 'Spread layer');
   const probBtn = el('button', { type: 'button', id: 'unc-probability' }, 'Probability layer');
@@ -88,14 +118,35 @@ export function uncertaintyControls(run: RunState, onLayer: (run: RunState) => v
       out.textContent = `${what}: ${e instanceof Error ? e.message : String(e)}`;
     }
   };
-  spreadBtn.addEventListener('click', () => void ask(`spread?isothermC=${encodeURIComponent(iso.value)}`, `spread (P90 − P10) of the depth to ${iso.value} °C`));
-  probBtn.addEventListener('click', () => void ask(`probability?isothermC=${encodeURIComponent(iso.value)}&shallowerThanKm=${encodeURIComponent(km.value)}`, `probability that ${iso.value} °C lies shallower than ${km.value} km`));
-  exceedBtn.addEventListener('click', () => void ask(`probability?depthKm=${encodeURIComponent(atKm.value)}&exceedsC=${encodeURIComponent(exceedsC.value)}`, `probability that the temperature at ${atKm.value} km exceeds ${exceedsC.value} °C`));
+  spreadBtn.addEventListener(
+    'click',
+    () => void ask(`spread?isothermC=${encodeURIComponent(iso.value)}`, `spread (P90 − P10) of the depth to ${iso.value} °C`),
+  );
+  probBtn.addEventListener(
+    'click',
+    () =>
+      void ask(
+        `probability?isothermC=${encodeURIComponent(iso.value)}&shallowerThanKm=${encodeURIComponent(km.value)}`,
+        `probability that ${iso.value} °C lies shallower than ${km.value} km`,
+      ),
+  );
+  exceedBtn.addEventListener(
+    'click',
+    () =>
+      void ask(
+        `probability?depthKm=${encodeURIComponent(atKm.value)}&exceedsC=${encodeURIComponent(exceedsC.value)}`,
+        `probability that the temperature at ${atKm.value} km exceeds ${exceedsC.value} °C`,
+      ),
+  );
   return el(
     'div',
     { id: 'uncertainty-controls' },
     el('h3', {}, 'Uncertainty'),
-    el('p', { class: 'note' }, `From the run's ${typeof run.request?.realizations === 'number' ? `${run.request.realizations} ` : ''}realizations. Depth to an isotherm:`),
+    el(
+      'p',
+      { class: 'note' },
+      `From the run's ${typeof run.request?.realizations === 'number' ? `${run.request.realizations} ` : ''}realizations. Depth to an isotherm:`,
+    ),
     el('div', { class: 'field-row' }, el('label', { for: iso.id }, 'Isotherm (°C)'), iso),
     el('div', { class: 'field-row' }, el('label', { for: km.id }, 'Shallower than (km)'), km),
     el('div', { class: 'button-row' }, spreadBtn, probBtn),

@@ -27,7 +27,14 @@ const FIELD_LABELS: Record<string, string> = {
 
 /** The request body of POST /api/runs for parameters `p` and a model. */
 export function runBody(p: RunParams, model: unknown): Record<string, unknown> {
-  const body: Record<string, unknown> = { sites: p.sites, interpolation: { method: p.method }, model, isothermsC: p.isothermsC, depthsKm: p.depthsKm, grid: { cellKm: p.cellKm } };
+  const body: Record<string, unknown> = {
+    sites: p.sites,
+    interpolation: { method: p.method },
+    model,
+    isothermsC: p.isothermsC,
+    depthsKm: p.depthsKm,
+    grid: { cellKm: p.cellKm },
+  };
   if (p.faciesDepthKm !== undefined) body.faciesDepthKm = p.faciesDepthKm;
   if (p.samples) body.samples = p.samples;
   if (p.faults) body.faults = p.faults;
@@ -65,7 +72,15 @@ function runForm(): RunForm {
   const error = el('p', { class: 'field-error', id: 'run-param-error', 'aria-live': 'polite' });
   const row = (input: HTMLElement, label: string) => el('div', { class: 'field-row' }, el('label', { for: input.id }, label), input);
   return {
-    fields: [row(method, 'Interpolation'), row(iso, 'Isotherms (°C)'), row(depths, 'Depths (km)'), row(facies, 'Facies at depth (km)'), row(cell, 'Grid cell (km)'), row(reals, 'Realizations (0 = none)'), row(seed, 'Seed')],
+    fields: [
+      row(method, 'Interpolation'),
+      row(iso, 'Isotherms (°C)'),
+      row(depths, 'Depths (km)'),
+      row(facies, 'Facies at depth (km)'),
+      row(cell, 'Grid cell (km)'),
+      row(reals, 'Realizations (0 = none)'),
+      row(seed, 'Seed'),
+    ],
     controls: [method, iso, depths, facies, cell, reals, seed],
     error,
     fill(p) {
@@ -78,11 +93,21 @@ function runForm(): RunForm {
       seed.value = String(p.seed);
     },
     read(base) {
-      const isoV = numberList(iso.value), depV = numberList(depths.value);
+      const isoV = numberList(iso.value),
+        depV = numberList(depths.value);
       const problems: string[] = [];
       if (!isoV) problems.push('isotherms: a comma-separated list of temperatures in °C');
       if (!depV) problems.push('depths: a comma-separated list of depths in km');
-      const p: RunParams = { ...base, method: method.value as RunParams['method'], isothermsC: isoV ?? [], depthsKm: depV ?? [], faciesDepthKm: facies.value.trim() === '' ? undefined : Number(facies.value), cellKm: Number(cell.value), realizations: Number(reals.value), seed: Number(seed.value) };
+      const p: RunParams = {
+        ...base,
+        method: method.value as RunParams['method'],
+        isothermsC: isoV ?? [],
+        depthsKm: depV ?? [],
+        faciesDepthKm: facies.value.trim() === '' ? undefined : Number(facies.value),
+        cellKm: Number(cell.value),
+        realizations: Number(reals.value),
+        seed: Number(seed.value),
+      };
       if (problems.length === 0) problems.push(...paramProblems(p));
       error.textContent = problems.join('; ');
       return problems.length > 0 ? null : p;
@@ -168,7 +193,19 @@ interface Progress {
 
 function progressBar(): Progress {
   const bar = el('div', { class: 'progress-fill', id: 'run-progress-fill' });
-  const track = el('div', { class: 'progress', id: 'run-progress', role: 'progressbar', 'aria-valuemin': '0', 'aria-valuemax': '100', 'aria-valuenow': '0', 'aria-label': 'run progress' }, bar);
+  const track = el(
+    'div',
+    {
+      class: 'progress',
+      id: 'run-progress',
+      role: 'progressbar',
+      'aria-valuemin': '0',
+      'aria-valuemax': '100',
+      'aria-valuenow': '0',
+      'aria-label': 'run progress',
+    },
+    bar,
+  );
   const msg = el('p', { class: 'run-message', id: 'run-message', 'aria-live': 'polite' }, 'No run yet.');
   return {
     bar,
@@ -302,7 +339,18 @@ class RunController {
 
 export function runPanel(opts: RunOptions): RunPanel {
   const c = new RunController(opts);
-  const root = el('div', { class: 'run-panel' }, ...c.form.fields, c.form.error, c.dataLine, el('div', { class: 'button-row' }, c.runBtn, c.cancelBtn), c.progress.track, c.progress.msg, c.errorArea, c.summary);
+  const root = el(
+    'div',
+    { class: 'run-panel' },
+    ...c.form.fields,
+    c.form.error,
+    c.dataLine,
+    el('div', { class: 'button-row' }, c.runBtn, c.cancelBtn),
+    c.progress.track,
+    c.progress.msg,
+    c.errorArea,
+    c.summary,
+  );
   return {
     root,
     follow: (id) => c.follow(id),

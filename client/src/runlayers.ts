@@ -46,7 +46,15 @@ export function groupRunLayers(input: RunLayer[]): RunLayerGroup[] {
   const layers: RunLayer[] = [...input];
   for (const l of input) {
     if (l.kind === 'raster' && l.formats.includes('geojson') && (/^depth-[\d.]+C$/.test(l.name) || /^heat-?flow$/.test(l.name))) {
-      layers.push({ ...l, name: `${l.name}.contours`, kind: 'vector', title: `Contours: ${l.title.charAt(0).toLowerCase()}${l.title.slice(1)}`, legend: null, formats: ['geojson'], contourOf: l });
+      layers.push({
+        ...l,
+        name: `${l.name}.contours`,
+        kind: 'vector',
+        title: `Contours: ${l.title.charAt(0).toLowerCase()}${l.title.slice(1)}`,
+        legend: null,
+        formats: ['geojson'],
+        contourOf: l,
+      });
     }
   }
   for (const layer of layers) {
@@ -114,7 +122,9 @@ function downloads(runId: string, layer: RunLayer): HTMLElement {
     'p',
     { class: 'downloads' },
     el('span', { class: 'muted' }, 'download '),
-    ...layer.formats.map((ext) => el('a', { href: layerUrl(runId, layer, ext), download: `${layer.name}.${ext}`, class: 'dl', 'data-format': ext }, label[ext] ?? ext)),
+    ...layer.formats.map((ext) =>
+      el('a', { href: layerUrl(runId, layer, ext), download: `${layer.name}.${ext}`, class: 'dl', 'data-format': ext }, label[ext] ?? ext),
+    ),
   );
 }
 
@@ -148,7 +158,13 @@ function vectorLayers(id: string, source: string, layer: RunLayer): LayerSpecifi
         id: `${id}-labels`,
         type: 'symbol',
         source,
-        layout: { 'symbol-placement': 'line', 'text-field': ['concat', ['to-string', ['coalesce', ['get', 'mineral'], ['get', 'zone'], '']], ' in'] as unknown as ExpressionSpecification, 'text-font': FONT, 'text-size': 11, 'text-offset': [0, -1] },
+        layout: {
+          'symbol-placement': 'line',
+          'text-field': ['concat', ['to-string', ['coalesce', ['get', 'mineral'], ['get', 'zone'], '']], ' in'] as unknown as ExpressionSpecification,
+          'text-font': FONT,
+          'text-size': 11,
+          'text-offset': [0, -1],
+        },
         paint: { 'text-color': '#3a1c4a', 'text-halo-color': '#ffffff', 'text-halo-width': 1.4 },
       },
     ];
@@ -174,7 +190,17 @@ function vectorLayers(id: string, source: string, layer: RunLayer): LayerSpecifi
         type: 'circle',
         source,
         paint: {
-          'circle-color': ['interpolate', ['linear'], r, -20, RESIDUAL_COLORS.negative, 0, RESIDUAL_COLORS.zero, 20, RESIDUAL_COLORS.positive] as unknown as ExpressionSpecification,
+          'circle-color': [
+            'interpolate',
+            ['linear'],
+            r,
+            -20,
+            RESIDUAL_COLORS.negative,
+            0,
+            RESIDUAL_COLORS.zero,
+            20,
+            RESIDUAL_COLORS.positive,
+          ] as unknown as ExpressionSpecification,
           'circle-radius': ['interpolate', ['linear'], ['abs', r], 0, 3, 30, 10] as unknown as ExpressionSpecification,
           'circle-stroke-color': '#222222',
           'circle-stroke-width': 0.8,
@@ -183,7 +209,13 @@ function vectorLayers(id: string, source: string, layer: RunLayer): LayerSpecifi
     ];
   }
   return [
-    { id, type: 'line', source, filter: ['in', ['geometry-type'], ['literal', ['LineString', 'MultiLineString']]], paint: { 'line-color': '#222222', 'line-width': 1.2 } },
+    {
+      id,
+      type: 'line',
+      source,
+      filter: ['in', ['geometry-type'], ['literal', ['LineString', 'MultiLineString']]],
+      paint: { 'line-color': '#222222', 'line-width': 1.2 },
+    },
     { id: `${id}-points`, type: 'circle', source, filter: ['==', ['geometry-type'], 'Point'], paint: { 'circle-color': '#222222', 'circle-radius': 3 } },
   ];
 }
@@ -192,7 +224,15 @@ function residualLegend(units: string): HTMLElement {
   return el(
     'div',
     {},
-    el('div', { class: 'ramp-wrap' }, el('div', { class: 'ramp', style: `background: linear-gradient(to right, ${RESIDUAL_COLORS.negative}, ${RESIDUAL_COLORS.zero}, ${RESIDUAL_COLORS.positive})` }), el('div', { class: 'ramp-ticks' }, el('span', {}, '−20'), el('span', {}, '0'), el('span', {}, `+20 ${units || 'mW/m²'}`))),
+    el(
+      'div',
+      { class: 'ramp-wrap' },
+      el('div', {
+        class: 'ramp',
+        style: `background: linear-gradient(to right, ${RESIDUAL_COLORS.negative}, ${RESIDUAL_COLORS.zero}, ${RESIDUAL_COLORS.positive})`,
+      }),
+      el('div', { class: 'ramp-ticks' }, el('span', {}, '−20'), el('span', {}, '0'), el('span', {}, `+20 ${units || 'mW/m²'}`)),
+    ),
     el('p', { class: 'note' }, 'Leave-one-out residual, observed − predicted; symbol size grows with its size.'),
   );
 }
@@ -201,7 +241,13 @@ function isogradLegend(): HTMLElement {
   return el(
     'div',
     {},
-    el('ul', { class: 'swatches' }, ...Object.entries(ZONE_COLORS).slice(1).map(([z, c]) => el('li', {}, el('i', { class: 'line', style: `border-top: 3px solid ${c}; box-shadow: 0 0 0 1px #2b2b2b` }), `${z}-in`))),
+    el(
+      'ul',
+      { class: 'swatches' },
+      ...Object.entries(ZONE_COLORS)
+        .slice(1)
+        .map(([z, c]) => el('li', {}, el('i', { class: 'line', style: `border-top: 3px solid ${c}; box-shadow: 0 0 0 1px #2b2b2b` }), `${z}-in`)),
+    ),
     el('p', { class: 'note' }, 'Ticks mark the high-grade side of each line.'),
   );
 }
@@ -226,7 +272,16 @@ function rangeControl(id: string, legend: Extract<RunLayer['legend'], { type: 'r
   };
   lo.addEventListener('change', change);
   hi.addEventListener('change', change);
-  return el('div', { class: 'range-row' }, el('span', { class: 'muted' }, 'colours from'), lo, el('span', { class: 'muted' }, 'to'), hi, el('span', { class: 'muted' }, units), msg);
+  return el(
+    'div',
+    { class: 'range-row' },
+    el('span', { class: 'muted' }, 'colours from'),
+    lo,
+    el('span', { class: 'muted' }, 'to'),
+    hi,
+    el('span', { class: 'muted' }, units),
+    msg,
+  );
 }
 
 function removeMapLayers(map: MapLibreMap, prefix: string): void {
@@ -255,9 +310,28 @@ type ShowOptions = { depthKm: number | null; onDepth: (d: number) => void; onErr
 function drawPngFallback(map: MapLibreMap, run: RunState, layer: RunLayer, id: string): boolean {
   const grid = run.summary?.grid;
   if (!(layer.formats.includes('png') && grid?.crs === 'EPSG:4326')) return false;
-  const e0 = grid.west + grid.dx * grid.width, s0 = grid.north - grid.dy * grid.height;
-  map.addSource(`${id}-src`, { type: 'image', url: new URL(layerUrl(run.id, layer, 'png'), window.location.origin).href, coordinates: [[grid.west, grid.north], [e0, grid.north], [e0, s0], [grid.west, s0]] });
-  map.addLayer({ id, type: 'raster', source: `${id}-src`, metadata: { runLayer: layer.name, fallback: 'png' }, paint: { 'raster-resampling': 'nearest', 'raster-fade-duration': 0 } }, rasterBefore(map));
+  const e0 = grid.west + grid.dx * grid.width,
+    s0 = grid.north - grid.dy * grid.height;
+  map.addSource(`${id}-src`, {
+    type: 'image',
+    url: new URL(layerUrl(run.id, layer, 'png'), window.location.origin).href,
+    coordinates: [
+      [grid.west, grid.north],
+      [e0, grid.north],
+      [e0, s0],
+      [grid.west, s0],
+    ],
+  });
+  map.addLayer(
+    {
+      id,
+      type: 'raster',
+      source: `${id}-src`,
+      metadata: { runLayer: layer.name, fallback: 'png' },
+      paint: { 'raster-resampling': 'nearest', 'raster-fade-duration': 0 },
+    },
+    rasterBefore(map),
+  );
   return true;
 }
 
@@ -271,10 +345,39 @@ async function drawRaster(map: MapLibreMap, run: RunState, layer: RunLayer, id: 
     legendBox.replaceChildren(legendFromSpec(layer.legend, layer.units));
     return;
   }
-  map.addSource(`${id}-src`, { type: 'raster-dem', tiles: t.tiles, bounds: t.bounds, minzoom: t.minzoom ?? 0, maxzoom: t.maxzoom ?? 12, tileSize: t.tileSize ?? 256, encoding: 'custom', redFactor: t.redFactor, greenFactor: t.greenFactor, blueFactor: t.blueFactor, baseShift: t.baseShift });
+  map.addSource(`${id}-src`, {
+    type: 'raster-dem',
+    tiles: t.tiles,
+    bounds: t.bounds,
+    minzoom: t.minzoom ?? 0,
+    maxzoom: t.maxzoom ?? 12,
+    tileSize: t.tileSize ?? 256,
+    encoding: 'custom',
+    redFactor: t.redFactor,
+    greenFactor: t.greenFactor,
+    blueFactor: t.blueFactor,
+    baseShift: t.baseShift,
+  });
   const legend = layer.legend;
-  const noLegend = ['interpolate', ['linear'], ['elevation'], t.noDataValue, 'rgba(0,0,0,0)', t.noDataValue + Math.abs(t.blueFactor || 1), '#888888'] as unknown as ExpressionSpecification;
-  map.addLayer({ id, type: 'color-relief', source: `${id}-src`, metadata: { runLayer: layer.name }, paint: { 'color-relief-color': legend ? colorReliefExpression(legend, t) : noLegend } }, rasterBefore(map));
+  const noLegend = [
+    'interpolate',
+    ['linear'],
+    ['elevation'],
+    t.noDataValue,
+    'rgba(0,0,0,0)',
+    t.noDataValue + Math.abs(t.blueFactor || 1),
+    '#888888',
+  ] as unknown as ExpressionSpecification;
+  map.addLayer(
+    {
+      id,
+      type: 'color-relief',
+      source: `${id}-src`,
+      metadata: { runLayer: layer.name },
+      paint: { 'color-relief-color': legend ? colorReliefExpression(legend, t) : noLegend },
+    },
+    rasterBefore(map),
+  );
   readableRasters.set(id, { tile: t, units: legend?.units || layer.units, title: layer.title });
   legendBox.replaceChildren(legendFromSpec(legend, layer.units));
   if (legend?.type === 'ramp') {
@@ -294,7 +397,15 @@ function drawVector(map: MapLibreMap, run: RunState, layer: RunLayer, id: string
   const specs = vectorLayers(id, `${id}-src`, layer);
   for (const s of specs) map.addLayer({ ...s, metadata: { runLayer: layer.name } }, vectorBefore(map, layer));
   const name = layer.name.toLowerCase();
-  legendBox.replaceChildren(name.includes('isograd') ? isogradLegend() : name.includes('resid') || name.startsWith('cv') ? residualLegend(layer.units) : layer.legend ? legendFromSpec(layer.legend, layer.units) : el('p', { class: 'note' }, layer.units ? `Labels in ${/contour/.test(name) && /depth/.test(name) ? 'km' : layer.units}` : ''));
+  legendBox.replaceChildren(
+    name.includes('isograd')
+      ? isogradLegend()
+      : name.includes('resid') || name.startsWith('cv')
+        ? residualLegend(layer.units)
+        : layer.legend
+          ? legendFromSpec(layer.legend, layer.units)
+          : el('p', { class: 'note' }, layer.units ? `Labels in ${/contour/.test(name) && /depth/.test(name) ? 'km' : layer.units}` : ''),
+  );
   return specs.map((s) => s.id);
 }
 
@@ -310,7 +421,17 @@ async function showGroup(map: MapLibreMap, panel: LayerPanel, run: RunState, g: 
   };
   const legendBox = el('div', { class: 'legend-box' });
   const extraBox = el('div', {});
-  const entry: LayerEntry = { id, label: depthIndexed ? g.title : first.title, layers: [], legend: legendBox, extra: extraBox, group: 'run', defaultOpacity: first.kind === 'raster' ? 0.85 : 1, defaultVisible: visible, bounds: () => runBounds(run) };
+  const entry: LayerEntry = {
+    id,
+    label: depthIndexed ? g.title : first.title,
+    layers: [],
+    legend: legendBox,
+    extra: extraBox,
+    group: 'run',
+    defaultOpacity: first.kind === 'raster' ? 0.85 : 1,
+    defaultVisible: visible,
+    bounds: () => runBounds(run),
+  };
   const draw = async (choice: { depthKm: number | null; layer: RunLayer }) => {
     removeMapLayers(map, id);
     if (choice.layer.kind === 'raster') {
@@ -321,7 +442,11 @@ async function showGroup(map: MapLibreMap, panel: LayerPanel, run: RunState, g: 
     panel.apply(id);
   };
   if (depthIndexed) {
-    const sel = el('select', { id: `depth-${id}`, 'aria-label': `${g.title}: depth`, class: 'depth-select' }, ...g.layers.map((l) => el('option', { value: String(l.depthKm) }, `${l.depthKm} km`)));
+    const sel = el(
+      'select',
+      { id: `depth-${id}`, 'aria-label': `${g.title}: depth`, class: 'depth-select' },
+      ...g.layers.map((l) => el('option', { value: String(l.depthKm) }, `${l.depthKm} km`)),
+    );
     sel.value = String(pick().depthKm);
     sel.addEventListener('change', () => {
       const d = Number(sel.value);

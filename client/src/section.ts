@@ -87,7 +87,8 @@ export class LineDrawer {
     for (const p of this.points) {
       const last = pts[pts.length - 1];
       if (last) {
-        const a = this.map.project(last), b = this.map.project(p);
+        const a = this.map.project(last),
+          b = this.map.project(p);
         if (Math.hypot(a.x - b.x, a.y - b.y) < 5) continue;
       }
       pts.push(p);
@@ -108,8 +109,14 @@ export class LineDrawer {
 
   private render(): void {
     const features: GeoJSON.Feature[] = this.points.map((p) => ({ type: 'Feature', properties: {}, geometry: { type: 'Point', coordinates: p } }));
-    if (this.points.length >= 2) features.push({ type: 'Feature', properties: {}, geometry: { type: 'LineString', coordinates: this.shape.closed ? [...this.points, this.points[0]] : this.points } });
-    if (this.shape.closed && this.points.length >= 3) features.push({ type: 'Feature', properties: {}, geometry: { type: 'Polygon', coordinates: [[...this.points, this.points[0]]] } });
+    if (this.points.length >= 2)
+      features.push({
+        type: 'Feature',
+        properties: {},
+        geometry: { type: 'LineString', coordinates: this.shape.closed ? [...this.points, this.points[0]] : this.points },
+      });
+    if (this.shape.closed && this.points.length >= 3)
+      features.push({ type: 'Feature', properties: {}, geometry: { type: 'Polygon', coordinates: [[...this.points, this.points[0]]] } });
     void this.map.getSource<GeoJSONSource>(this.shape.sourceId)?.setData({ type: 'FeatureCollection', features });
     this.onState(this.active, this.points.length);
   }
@@ -147,7 +154,8 @@ function temperatureImage(s: SectionAnswer, tMin: number, tMax: number): string 
 function faciesMarks(s: SectionAnswer, f: Frame): SVGElement[] {
   if (!s.faciesClass || !s.faciesNames) return [];
   const cls = s.faciesClass;
-  const dx = f.pw / s.width, dy = f.ph / s.height;
+  const dx = f.pw / s.width,
+    dy = f.ph / s.height;
   let d = '';
   const sums = new Map<number, [number, number, number]>();
   for (let k = 0; k < s.height; k++) {
@@ -167,7 +175,13 @@ function faciesMarks(s: SectionAnswer, f: Frame): SVGElement[] {
   const out: SVGElement[] = d ? [svg('path', { d, class: 'facies-boundary' })] : [];
   for (const [c, [sj, sk, n]] of sums) {
     if (n < 6) continue;
-    out.push(svg('text', { x: f.M.l + (sj / n + 0.5) * dx, y: f.M.t + (sk / n + 0.5) * dy, class: 'facies-label on-dark', 'text-anchor': 'middle' }, `${s.faciesNames[c]} (approx.)`));
+    out.push(
+      svg(
+        'text',
+        { x: f.M.l + (sj / n + 0.5) * dx, y: f.M.t + (sk / n + 0.5) * dy, class: 'facies-label on-dark', 'text-anchor': 'middle' },
+        `${s.faciesNames[c]} (approx.)`,
+      ),
+    );
   }
   return out;
 }
@@ -209,25 +223,59 @@ function crossingsAndAxes(s: SectionAnswer, f: Frame, L: number, maxZ: number): 
   for (const d of niceTicks(0, L, 6)) out.push(svg('text', { x: f.x(d), y: f.H - f.M.b + 14, 'text-anchor': 'middle' }, String(d)));
   for (const z of niceTicks(0, maxZ, 5)) out.push(svg('text', { x: f.M.l - 5, y: f.y(z) + 4, 'text-anchor': 'end' }, String(z)));
   out.push(svg('text', { x: f.M.l + f.pw / 2, y: f.H - 4, 'text-anchor': 'middle', class: 'axis-title' }, 'distance along the line (km)'));
-  out.push(svg('text', { x: 11, y: f.M.t + f.ph / 2, transform: `rotate(-90 11 ${f.M.t + f.ph / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'depth (km)'));
+  out.push(
+    svg('text', { x: 11, y: f.M.t + f.ph / 2, transform: `rotate(-90 11 ${f.M.t + f.ph / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'depth (km)'),
+  );
   return out;
 }
 
 /** The section as SVG: distance across, depth down, temperature colours, isotherms, facies and crossings. */
 export function sectionPlot(s: SectionAnswer): HTMLElement {
-  const W = 640, H = 300, M = { l: 46, r: 14, t: 22, b: 34 };
-  const pw = W - M.l - M.r, ph = H - M.t - M.b;
+  const W = 640,
+    H = 300,
+    M = { l: 46, r: 14, t: 22, b: 34 };
+  const pw = W - M.l - M.r,
+    ph = H - M.t - M.b;
   const maxZ = s.depthKm[s.depthKm.length - 1] || 1;
   const L = s.lengthKm || 1;
   const f: Frame = { W, H, M, pw, ph, x: (d) => M.l + (d / L) * pw, y: (z) => M.t + (z / maxZ) * ph };
   const temps = s.temperatureC.filter((t): t is number => t !== null);
-  const tMin = Math.min(...temps), tMax = Math.max(...temps);
-  const root = svg('svg', { viewBox: `0 0 ${W} ${H}`, width: '100%', class: 'section-plot', role: 'img', 'aria-label': `temperature section, ${fmt(L, 1)} km long, to ${maxZ} km depth` });
-  root.append(svg('image', { href: temperatureImage(s, tMin, tMax), x: M.l, y: M.t, width: pw, height: ph, preserveAspectRatio: 'none', style: 'image-rendering: pixelated' }));
+  const tMin = Math.min(...temps),
+    tMax = Math.max(...temps);
+  const root = svg('svg', {
+    viewBox: `0 0 ${W} ${H}`,
+    width: '100%',
+    class: 'section-plot',
+    role: 'img',
+    'aria-label': `temperature section, ${fmt(L, 1)} km long, to ${maxZ} km depth`,
+  });
+  root.append(
+    svg('image', {
+      href: temperatureImage(s, tMin, tMax),
+      x: M.l,
+      y: M.t,
+      width: pw,
+      height: ph,
+      preserveAspectRatio: 'none',
+      style: 'image-rendering: pixelated',
+    }),
+  );
   root.append(...faciesMarks(s, f), ...isothermMarks(s, f), ...crossingsAndAxes(s, f, L, maxZ));
-  const legend = el('div', { class: 'ramp-wrap' }, el('div', { class: 'ramp', style: `background: linear-gradient(to right, ${EMBER.colors.join(', ')})` }), el('div', { class: 'ramp-ticks' }, el('span', {}, fmt(tMin, 0)), el('span', {}, fmt((tMin + tMax) / 2, 0)), el('span', {}, `${fmt(tMax, 0)} °C`)));
+  const legend = el(
+    'div',
+    { class: 'ramp-wrap' },
+    el('div', { class: 'ramp', style: `background: linear-gradient(to right, ${EMBER.colors.join(', ')})` }),
+    el('div', { class: 'ramp-ticks' }, el('span', {}, fmt(tMin, 0)), el('span', {}, fmt((tMin + tMax) / 2, 0)), el('span', {}, `${fmt(tMax, 0)} °C`)),
+  );
   const warn = (s.warnings ?? []).map((w) => el('p', { class: 'note warning' }, String(w)));
-  return el('figure', { class: 'section', id: 'section-figure' }, root, legend, el('p', { class: 'note' }, 'Steady conduction per column, no lateral heat flow; facies boundaries approximate (gradational).'), ...warn);
+  return el(
+    'figure',
+    { class: 'section', id: 'section-figure' },
+    root,
+    legend,
+    el('p', { class: 'note' }, 'Steady conduction per column, no lateral heat flow; facies boundaries approximate (gradational).'),
+    ...warn,
+  );
 }
 
 // ---- The panel ----------------------------------------------------------------------------------------------
@@ -270,13 +318,26 @@ export function sectionPanel(ctx: AppContext): SectionPanel {
       replace(out, e instanceof ApiError ? errorBox(`Section: ${e.message}`, e.details) : errorBox(`Section: ${message(e)}`));
     }
   };
-  const lineDrawer = new LineDrawer(ctx.map, (line) => void onLine(line), (drawing, n) => {
-    drawBtn.textContent = drawing ? 'Drawing… (Enter or double-click to finish, Escape to cancel)' : 'Draw a section line';
-    drawBtn.setAttribute('aria-pressed', String(drawing));
-    drawState.textContent = drawing ? `${n} point${n === 1 ? '' : 's'}` : '';
-  });
+  const lineDrawer = new LineDrawer(
+    ctx.map,
+    (line) => void onLine(line),
+    (drawing, n) => {
+      drawBtn.textContent = drawing ? 'Drawing… (Enter or double-click to finish, Escape to cancel)' : 'Draw a section line';
+      drawBtn.setAttribute('aria-pressed', String(drawing));
+      drawState.textContent = drawing ? `${n} point${n === 1 ? '' : 's'}` : '';
+    },
+  );
   drawBtn.addEventListener('click', () => (lineDrawer.drawing ? lineDrawer.cancel() : lineDrawer.start()));
-  const root = el('div', {}, el('h3', {}, 'Cross-section'), hint, el('div', { class: 'field-row' }, el('label', { for: depth.id }, 'Depth of the section (km)'), depth), el('div', { class: 'button-row' }, drawBtn), drawState, out);
+  const root = el(
+    'div',
+    {},
+    el('h3', {}, 'Cross-section'),
+    hint,
+    el('div', { class: 'field-row' }, el('label', { for: depth.id }, 'Depth of the section (km)'), depth),
+    el('div', { class: 'button-row' }, drawBtn),
+    drawState,
+    out,
+  );
   return {
     root,
     drawer: lineDrawer,

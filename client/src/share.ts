@@ -28,10 +28,21 @@ function linkRow(label: string, href: string, id: string): HTMLElement {
 async function save(ctx: AppContext): Promise<HTMLElement[]> {
   const { state, projectId, editToken } = ctx;
   if (projectId !== null && editToken !== null) {
-    const r = await sendJson<{ revision: number }>('PUT', `/api/projects/${encodeURIComponent(projectId)}`, { state: stateToJson(state) }, { authorization: `Bearer ${decodeURIComponent(editToken)}` });
-    return [el('p', { class: 'ok', role: 'status' }, `Saved revision ${r.revision}.`), linkRow('View link', `${window.location.origin}/?project=${encodeURIComponent(projectId)}`, 'share-view-url')];
+    const r = await sendJson<{ revision: number }>(
+      'PUT',
+      `/api/projects/${encodeURIComponent(projectId)}`,
+      { state: stateToJson(state) },
+      { authorization: `Bearer ${decodeURIComponent(editToken)}` },
+    );
+    return [
+      el('p', { class: 'ok', role: 'status' }, `Saved revision ${r.revision}.`),
+      linkRow('View link', `${window.location.origin}/?project=${encodeURIComponent(projectId)}`, 'share-view-url'),
+    ];
   }
-  const r = await sendJson<{ id: string; editToken: string; viewUrl?: string; editUrl?: string }>('POST', '/api/projects', { title: state.title, state: stateToJson(state) });
+  const r = await sendJson<{ id: string; editToken: string; viewUrl?: string; editUrl?: string }>('POST', '/api/projects', {
+    title: state.title,
+    state: stateToJson(state),
+  });
   const abs = (u: string | undefined, fallback: string) => new URL(u ?? fallback, window.location.origin).href;
   const view = abs(r.viewUrl, `/?project=${encodeURIComponent(r.id)}`);
   const edit = abs(r.editUrl, `/?project=${encodeURIComponent(r.id)}#edit=${encodeURIComponent(r.editToken)}`);
@@ -47,7 +58,9 @@ async function save(ctx: AppContext): Promise<HTMLElement[]> {
 async function exportPng(ctx: AppContext): Promise<void> {
   const { map, app, layerPanel, cfg, state } = ctx;
   const lines = layerPanel.visibleEntries().map((e) => {
-    const runLayer = app.run?.run.layers?.find((l) => e.layers.some((id) => (map.getLayer(id)?.metadata as { runLayer?: string } | undefined)?.runLayer === l.name));
+    const runLayer = app.run?.run.layers?.find((l) =>
+      e.layers.some((id) => (map.getLayer(id)?.metadata as { runLayer?: string } | undefined)?.runLayer === l.name),
+    );
     return runLayer ? legendLine(runLayer.title, runLayer.legend, runLayer.units) : e.label;
   });
   const blob = await mapPng(map, [`Layers: ${lines.join(' · ')}`], cfg.caution, `${state.title} — subtherm ${cfg.version}`);
@@ -61,7 +74,11 @@ export function sharePanel(ctx: AppContext): SharePanel {
     ctx.state.title = titleInput.value;
     ctx.syncUrl();
   });
-  const shareBtn = el('button', { type: 'button', id: 'share-button', class: 'primary' }, ctx.projectId !== null && ctx.editToken !== null ? 'Save a new revision' : 'Save and share');
+  const shareBtn = el(
+    'button',
+    { type: 'button', id: 'share-button', class: 'primary' },
+    ctx.projectId !== null && ctx.editToken !== null ? 'Save a new revision' : 'Save and share',
+  );
   const onShare = async (): Promise<void> => {
     const c = ctx.map.getCenter();
     ctx.state.view = { center: [c.lng, c.lat], zoom: ctx.map.getZoom() };

@@ -82,10 +82,12 @@ export function decodeState(text: string, base: AppState): AppState {
   const c = JSON.parse(fromBase64Url(text)) as Record<string, unknown>;
   const out: AppState = { ...base, layers: { ...base.layers }, params: { ...base.params } };
   const v = c.v;
-  if (Array.isArray(v) && v.length === 3 && v.every((x): x is number => typeof x === 'number' && Number.isFinite(x))) out.view = { center: [v[0], v[1]], zoom: v[2] };
+  if (Array.isArray(v) && v.length === 3 && v.every((x): x is number => typeof x === 'number' && Number.isFinite(x)))
+    out.view = { center: [v[0], v[1]], zoom: v[2] };
   if (Array.isArray(c.l)) {
     for (const e of c.l) {
-      if (Array.isArray(e) && typeof e[0] === 'string' && typeof e[2] === 'number') out.layers[e[0]] = { visible: e[1] === 1, opacity: Math.max(0, Math.min(1, e[2] / 100)) };
+      if (Array.isArray(e) && typeof e[0] === 'string' && typeof e[2] === 'number')
+        out.layers[e[0]] = { visible: e[1] === 1, opacity: Math.max(0, Math.min(1, e[2] / 100)) };
     }
   }
   if (c.p && typeof c.p === 'object') Object.assign(out.params, c.p);

@@ -12,7 +12,12 @@ export const HEAT_FLOW_RANGE: [number, number] = [35, 125];
 export function heatFlowColor(): ExpressionSpecification {
   const stops = rampStops(EMBER, HEAT_FLOW_RANGE[0], HEAT_FLOW_RANGE[1]).flat();
   // A site without a number (or with text) is grey, never the ramp's end colour or the style's default.
-  return ['case', ['==', ['typeof', ['get', 'heatFlowMWm2']], 'number'], ['interpolate', ['linear'], ['get', 'heatFlowMWm2'], ...stops], '#9a9a9a'] as unknown as ExpressionSpecification;
+  return [
+    'case',
+    ['==', ['typeof', ['get', 'heatFlowMWm2']], 'number'],
+    ['interpolate', ['linear'], ['get', 'heatFlowMWm2'], ...stops],
+    '#9a9a9a',
+  ] as unknown as ExpressionSpecification;
 }
 
 function zoneColor(): ExpressionSpecification {
@@ -33,7 +38,12 @@ function overlayLayers(): LayerSpecification[] {
     { id: 'sea-mask', type: 'fill', source: 'sea-mask', paint: { 'fill-color': '#dfe6ea' } },
     { id: 'world-coast', type: 'line', source: 'world-land', paint: { 'line-color': '#7d8d97', 'line-width': 0.8 } },
     { id: 'coast', type: 'line', source: 'outline', paint: { 'line-color': '#6c7f8c', 'line-width': 1.2 } },
-    { id: 'graticule', type: 'line', source: 'graticule', paint: { 'line-color': '#8a97a0', 'line-width': 0.5, 'line-opacity': 0.6, 'line-dasharray': [4, 3] } },
+    {
+      id: 'graticule',
+      type: 'line',
+      source: 'graticule',
+      paint: { 'line-color': '#8a97a0', 'line-width': 0.5, 'line-opacity': 0.6, 'line-dasharray': [4, 3] },
+    },
     {
       id: 'fault-highlight',
       type: 'line',
@@ -120,14 +130,39 @@ function topLayers(): LayerSpecification[] {
       filter: ['==', ['geometry-type'], 'Point'],
       paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': '#111111', 'circle-stroke-width': 2 },
     },
-    { id: 'hip-area-fill', type: 'fill', source: 'hip-area', filter: ['==', ['geometry-type'], 'Polygon'], paint: { 'fill-color': '#2f7487', 'fill-opacity': 0.12 } },
-    { id: 'hip-area-line', type: 'line', source: 'hip-area', filter: ['==', ['geometry-type'], 'LineString'], paint: { 'line-color': '#123c47', 'line-width': 2.5 } },
-    { id: 'hip-area-points', type: 'circle', source: 'hip-area', filter: ['==', ['geometry-type'], 'Point'], paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': '#123c47', 'circle-stroke-width': 2 } },
+    {
+      id: 'hip-area-fill',
+      type: 'fill',
+      source: 'hip-area',
+      filter: ['==', ['geometry-type'], 'Polygon'],
+      paint: { 'fill-color': '#2f7487', 'fill-opacity': 0.12 },
+    },
+    {
+      id: 'hip-area-line',
+      type: 'line',
+      source: 'hip-area',
+      filter: ['==', ['geometry-type'], 'LineString'],
+      paint: { 'line-color': '#123c47', 'line-width': 2.5 },
+    },
+    {
+      id: 'hip-area-points',
+      type: 'circle',
+      source: 'hip-area',
+      filter: ['==', ['geometry-type'], 'Point'],
+      paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': '#123c47', 'circle-stroke-width': 2 },
+    },
     {
       id: 'graticule-labels',
       type: 'symbol',
       source: 'graticule',
-      layout: { 'symbol-placement': 'line', 'symbol-spacing': 420, 'text-field': ['get', 'label'], 'text-font': ['DejaVu Sans', 'sans-serif'], 'text-size': 10, 'text-keep-upright': true },
+      layout: {
+        'symbol-placement': 'line',
+        'symbol-spacing': 420,
+        'text-field': ['get', 'label'],
+        'text-font': ['DejaVu Sans', 'sans-serif'],
+        'text-size': 10,
+        'text-keep-upright': true,
+      },
       paint: { 'text-color': '#4d5a63', 'text-halo-color': '#f4f6f7', 'text-halo-width': 1.5 },
     },
   ];
@@ -175,7 +210,12 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
       id: 'hillshade',
       type: 'hillshade',
       source: 'terrain',
-      paint: { 'hillshade-exaggeration': 0.85, 'hillshade-shadow-color': '#4a4540', 'hillshade-highlight-color': '#ffffff', 'hillshade-accent-color': '#8a8276' },
+      paint: {
+        'hillshade-exaggeration': 0.85,
+        'hillshade-shadow-color': '#4a4540',
+        'hillshade-highlight-color': '#ffffff',
+        'hillshade-accent-color': '#8a8276',
+      },
     });
   }
   style.layers.push(...overlayLayers(), ...topLayers());
@@ -183,18 +223,26 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
 }
 
 /** A polygon covering the map view except the region outlines: the world ring with each outline as a hole. */
-export function seaMask(outline: { features: { geometry: { type: string; coordinates: unknown } }[] }): { type: 'FeatureCollection'; features: { type: 'Feature'; properties: Record<string, never>; geometry: { type: 'Polygon'; coordinates: number[][][] } }[] } {
+export function seaMask(outline: { features: { geometry: { type: string; coordinates: unknown } }[] }): {
+  type: 'FeatureCollection';
+  features: { type: 'Feature'; properties: Record<string, never>; geometry: { type: 'Polygon'; coordinates: number[][][] } }[];
+} {
   const holes: number[][][] = [];
   for (const f of outline.features) {
     if (f.geometry.type === 'Polygon') holes.push((f.geometry.coordinates as number[][][])[0]);
     else if (f.geometry.type === 'MultiPolygon') for (const p of f.geometry.coordinates as number[][][][]) holes.push(p[0]);
   }
-  const world = [[-180, -85], [180, -85], [180, 85], [-180, 85], [-180, -85]];
+  const world = [
+    [-180, -85],
+    [180, -85],
+    [180, 85],
+    [-180, 85],
+    [-180, -85],
+  ];
   return { type: 'FeatureCollection', features: [{ type: 'Feature', properties: {}, geometry: { type: 'Polygon', coordinates: [world, ...holes] } }] };
 }
 
 // ---- Run layers --------------------------------------------------------------------------------------------------
-
 
 const TRANSPARENT = 'rgba(0,0,0,0)';
 

@@ -41,7 +41,10 @@ export function numberOption(name: string, raw: string | undefined, fallback?: n
 /** A comma-separated list of finite numbers, e.g. `--isotherms 300,500`. */
 export function numberListOption(name: string, raw: string | undefined, fallback: number[]): number[] {
   if (raw === undefined) return fallback;
-  const parts = raw.split(',').map((s) => s.trim()).filter((s) => s.length > 0);
+  const parts = raw
+    .split(',')
+    .map((s) => s.trim())
+    .filter((s) => s.length > 0);
   if (parts.length === 0) throw new InputError(`--${name} is empty`, [{ field: name, problem: 'expected a comma-separated list of numbers' }], 'bad_option');
   return parts.map((p) => numberOption(name, p));
 }

@@ -38,7 +38,8 @@ export async function correctSitesVerb(argv: string[]): Promise<number> {
   }
   if (o.sites === undefined) throw new InputError('correct-sites: --sites is required', [{ field: 'sites', problem: 'missing' }], 'bad_option');
   const opts = await correctionOptions(o);
-  if (opts === undefined) throw new InputError('correct-sites: give --paleoclimate and/or --terrain', [{ field: 'paleoclimate', problem: 'no correction asked for' }], 'bad_option');
+  if (opts === undefined)
+    throw new InputError('correct-sites: give --paleoclimate and/or --terrain', [{ field: 'paleoclimate', problem: 'no correction asked for' }], 'bad_option');
   let bytes: Buffer;
   try {
     bytes = readFileSync(o.sites);
@@ -59,9 +60,15 @@ export async function correctSitesVerb(argv: string[]): Promise<number> {
     tool: TOOL_NAME,
     version: VERSION,
     method: [
-      opts.paleoclimate ? `paleoclimatic: ΔT·erfc(z/2√(κt)) for steps ${JSON.stringify(opts.paleoclimate.steps)}, κ = ${opts.paleoclimate.diffusivityM2s} m²/s, averaged over each interval (Birch 1948; Beck 1977)` : null,
-      opts.topography ? `topographic: reference plane with (G − β)·Δh and its Poisson response (Birch 1950), β = ${opts.topography.lapseRateCPerKm} °C/km` : null,
-    ].filter(Boolean).join('; '),
+      opts.paleoclimate
+        ? `paleoclimatic: ΔT·erfc(z/2√(κt)) for steps ${JSON.stringify(opts.paleoclimate.steps)}, κ = ${opts.paleoclimate.diffusivityM2s} m²/s, averaged over each interval (Birch 1948; Beck 1977)`
+        : null,
+      opts.topography
+        ? `topographic: reference plane with (G − β)·Δh and its Poisson response (Birch 1950), β = ${opts.topography.lapseRateCPerKm} °C/km`
+        : null,
+    ]
+      .filter(Boolean)
+      .join('; '),
     inputs,
   };
   const files: string[] = [];

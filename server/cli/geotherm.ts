@@ -74,7 +74,8 @@ export async function geotherm(argv: string[]): Promise<number> {
   const heatFlowOpt = v['heat-flow'] === undefined ? undefined : numberOption('heat-flow', v['heat-flow']);
   if (heatFlowOpt !== undefined && !(heatFlowOpt > 0)) throw bad('heat-flow', `must be > 0 mW/m², got ${heatFlowOpt}`);
   const realizations = v.realizations === undefined ? undefined : numberOption('realizations', v.realizations);
-  if (realizations !== undefined && !(Number.isInteger(realizations) && realizations >= 1 && realizations <= 1_000_000)) throw bad('realizations', `must be an integer from 1 to 1000000, got ${realizations}`);
+  if (realizations !== undefined && !(Number.isInteger(realizations) && realizations >= 1 && realizations <= 1_000_000))
+    throw bad('realizations', `must be an integer from 1 to 1000000, got ${realizations}`);
   const seed = numberOption('seed', v.seed, 1);
   if (!Number.isSafeInteger(seed)) throw bad('seed', `must be an integer, got ${seed}`);
   const fluidDensityKgM3 = v['fluid-density-kg-m3'] === undefined ? undefined : numberOption('fluid-density-kg-m3', v['fluid-density-kg-m3']);
@@ -121,7 +122,9 @@ function renderTable(out: ColumnAnswer, isotherms: number[], depthsKm: number[])
   lines.push('', `Solidus (km): water-saturated reached at ${fmt(sc.wetSolidus, 2)};  melt onset ${fmt(sc.meltOnset, 2)} (no temperature below)`);
   lines.push('', '  depth (km)   T (°C)   q (mW/m²)   P (MPa)   facies');
   for (const r of out.profile) {
-    lines.push(`  ${r.depthKm.toFixed(2).padStart(9)}  ${fmt(r.temperatureC, 1).padStart(8)}  ${fmt(r.heatFlowMWm2, 2).padStart(10)}  ${fmt(r.pressureMPa, 1).padStart(8)}   ${r.facies ?? '—'}`);
+    lines.push(
+      `  ${r.depthKm.toFixed(2).padStart(9)}  ${fmt(r.temperatureC, 1).padStart(8)}  ${fmt(r.heatFlowMWm2, 2).padStart(10)}  ${fmt(r.pressureMPa, 1).padStart(8)}   ${r.facies ?? '—'}`,
+    );
   }
   const w = out.warnings;
   if (w.length) lines.push('', 'Warnings:', ...w.map((s) => `  - ${s}`));

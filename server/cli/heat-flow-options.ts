@@ -29,16 +29,23 @@ const bad = (field: string, message: string, problem: string) => new InputError(
 function climateSteps(raw: string): ClimateStep[] {
   let steps: ClimateStep[];
   if (/^[-+\d.eE]+:[-+\d.eE]+(,[-+\d.eE]+:[-+\d.eE]+)*$/.test(raw.replace(/\s+/g, ''))) {
-    steps = raw.replace(/\s+/g, '').split(',').map((p) => {
-      const [a, b] = p.split(':');
-      return { yearsAgo: Number(a), deltaC: Number(b) };
-    });
+    steps = raw
+      .replace(/\s+/g, '')
+      .split(',')
+      .map((p) => {
+        const [a, b] = p.split(':');
+        return { yearsAgo: Number(a), deltaC: Number(b) };
+      });
   } else {
     let text: string;
     try {
       text = readFileSync(raw, 'utf8');
     } catch (e) {
-      throw bad('paleoclimate', `--paleoclimate: "${raw}" is neither yearsAgo:deltaC pairs nor a readable file (${(e as NodeJS.ErrnoException).code ?? 'read error'})`, 'expected "12000:8,3000:-1" or a JSON file');
+      throw bad(
+        'paleoclimate',
+        `--paleoclimate: "${raw}" is neither yearsAgo:deltaC pairs nor a readable file (${(e as NodeJS.ErrnoException).code ?? 'read error'})`,
+        'expected "12000:8,3000:-1" or a JSON file',
+      );
     }
     let v: unknown;
     try {
@@ -49,7 +56,8 @@ function climateSteps(raw: string): ClimateStep[] {
     if (!Array.isArray(v)) throw bad('paleoclimate', `${raw}: expected a JSON array of { yearsAgo, deltaC }`, 'not an array');
     steps = v.map((s, i) => {
       const o = s as Record<string, unknown>;
-      if (typeof o?.yearsAgo !== 'number' || typeof o?.deltaC !== 'number') throw bad('paleoclimate', `${raw}: step ${i} needs numbers yearsAgo and deltaC`, `step ${i}: got ${JSON.stringify(s)}`);
+      if (typeof o?.yearsAgo !== 'number' || typeof o?.deltaC !== 'number')
+        throw bad('paleoclimate', `${raw}: step ${i} needs numbers yearsAgo and deltaC`, `step ${i}: got ${JSON.stringify(s)}`);
       return { yearsAgo: o.yearsAgo, deltaC: o.deltaC };
     });
   }

@@ -24,20 +24,32 @@ import {
 import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
 import { readGeoTiff } from '../io/geotiff.ts';
 import { numberOption, parseVerbArgs } from './args.ts';
-import { SIMULATION_HELP, SIMULATION_OPTIONS, gridOptionsFromArgs, readSimulationPoints, simulationOptionsFromArgs, type SimulationArgs } from './simulation-input.ts';
+import {
+  SIMULATION_HELP,
+  SIMULATION_OPTIONS,
+  gridOptionsFromArgs,
+  readSimulationPoints,
+  simulationOptionsFromArgs,
+  type SimulationArgs,
+} from './simulation-input.ts';
 import { simulateGrid, type SimulationOptions } from '../../shared/interp/simulateField.ts';
 import { interpolateGrid } from '../../shared/interp/interpolate.ts';
 import { MAX_SIMULATED_VALUES, SIMULATION_STREAM_OFFSET } from '../runs/heat-flow-simulation.ts';
 import { assessOnGrid } from '../io/resource-output.ts';
 
-const HELP = `subtherm heat-in-place (--heat-flow G.tif | --points P.geojson --realizations N) --model M.json [options] [--json]
+const HELP =
+  `subtherm heat-in-place (--heat-flow G.tif | --points P.geojson --realizations N) --model M.json [options] [--json]
 
 Volumetric heat in place and electric power (screening estimate).
   --heat-flow FILE          surface heat-flow GeoTIFF, mW/m²
   --heat-flow-sd FILE       its standard deviation GeoTIFF (e.g. the kriging sd), mW/m² (deprecated: use --points)
   --points FILE             heat-flow sites instead of --heat-flow: N conditional simulations of heat flow on the grid
                             below; the totals' P10/P50/P90 come from the per-realization sums, nominal from kriging
-`+SIMULATION_HELP.split('\n').filter((l) => !/--points P|--field/.test(l)).join('\n')+`
+` +
+  SIMULATION_HELP.split('\n')
+    .filter((l) => !/--points P|--field/.test(l))
+    .join('\n') +
+  `
   --model FILE              thermal model JSON (required; distributions allowed)
   --polygon FILE            GeoJSON Polygon/MultiPolygon (or Feature/FeatureCollection) to total over;
                             a cell counts when its centre is inside
@@ -133,12 +145,14 @@ export async function heatInPlace(argv: string[]): Promise<number> {
   const str = (k: string) => v[k as keyof typeof v] as string | undefined;
   const fromPoints = str('points') !== undefined;
   if (fromPoints && str('heat-flow') !== undefined) throw bad('points', 'give --points (simulate heat flow from the sites) or --heat-flow G.tif, not both');
-  if (fromPoints && str('heat-flow-sd') !== undefined) throw bad('heat-flow-sd', 'does not go with --points: the spread comes from the conditional simulations');
+  if (fromPoints && str('heat-flow-sd') !== undefined)
+    throw bad('heat-flow-sd', 'does not go with --points: the spread comes from the conditional simulations');
   if (!fromPoints && str('heat-flow') === undefined) throw bad('heat-flow', 'missing: give --heat-flow G.tif, or --points P.geojson to simulate heat flow');
   if (str('model') === undefined) throw bad('model', 'missing: give --model M.json');
   const num = (k: string) => (str(k) === undefined ? undefined : numberOption(k, str(k)));
   const realizations = num('realizations');
-  if (realizations !== undefined && !(Number.isInteger(realizations) && realizations >= 0 && realizations <= 100_000)) throw bad('realizations', `must be an integer from 0 to 100000, got ${realizations}`);
+  if (realizations !== undefined && !(Number.isInteger(realizations) && realizations >= 0 && realizations <= 100_000))
+    throw bad('realizations', `must be an integer from 0 to 100000, got ${realizations}`);
   const seed = num('seed');
   if (seed !== undefined && !Number.isSafeInteger(seed)) throw bad('seed', `must be an integer, got ${seed}`);
   const corr = str('correlation');
@@ -158,7 +172,17 @@ export async function heatInPlace(argv: string[]): Promise<number> {
     heatFlowErrorCorrelation: corr,
   };
   for (const k of Object.keys(raw)) if (raw[k] === undefined) delete raw[k];
-  const flag: Record<string, string> = { minTempC: 'min-temp-c', topKm: 'top-km', bottomKm: 'bottom-km', refTempC: 'ref-temp-c', rhoCMJm3K: 'rho-c-mj', recoveryFactor: 'recovery', utilizationEfficiency: 'efficiency', conversionEfficiency: 'conversion-efficiency', lifeYears: 'life-years' };
+  const flag: Record<string, string> = {
+    minTempC: 'min-temp-c',
+    topKm: 'top-km',
+    bottomKm: 'bottom-km',
+    refTempC: 'ref-temp-c',
+    rhoCMJm3K: 'rho-c-mj',
+    recoveryFactor: 'recovery',
+    utilizationEfficiency: 'efficiency',
+    conversionEfficiency: 'conversion-efficiency',
+    lifeYears: 'life-years',
+  };
   let options;
   try {
     options = parseHeatInPlaceOptions(raw);
@@ -171,7 +195,10 @@ export async function heatInPlace(argv: string[]): Promise<number> {
   }
 
   const extraWarnings: string[] = [];
-  if (corr !== undefined) extraWarnings.push(`--correlation is deprecated: ${fromPoints ? 'with --points the realizations are conditional simulations and it is not used' : 'give --points P.geojson instead of --heat-flow/--heat-flow-sd to simulate spatially coherent heat-flow fields from the sites'}`);
+  if (corr !== undefined)
+    extraWarnings.push(
+      `--correlation is deprecated: ${fromPoints ? 'with --points the realizations are conditional simulations and it is not used' : 'give --points P.geojson instead of --heat-flow/--heat-flow-sd to simulate spatially coherent heat-flow fields from the sites'}`,
+    );
   let simulated: PointsHeatFlow | undefined;
   if (fromPoints) simulated = await heatFlowFromPoints(v, options.realizations, options.seed);
   const hf = simulated?.kriged ?? (await readGrid(str('heat-flow')!, 'heat-flow'));
@@ -199,9 +226,20 @@ export async function heatInPlace(argv: string[]): Promise<number> {
   if (zonesPath !== undefined) {
     if (/\.tiff?$/i.test(zonesPath)) {
       const zg = await readGrid(zonesPath, 'zones');
-      const a = zg.grid, g = hf.grid;
-      if (a.width !== g.width || a.height !== g.height || a.crs !== g.crs || Math.abs(a.west - g.west) > 1e-9 * Math.max(1, Math.abs(g.dx)) || Math.abs(a.north - g.north) > 1e-9 * Math.max(1, Math.abs(g.dy))) {
-        throw new InputError(`${zonesPath}: the class grid does not match the heat-flow grid`, [{ field: 'zones', problem: `expected ${g.width} × ${g.height} cells at the heat-flow grid's origin and CRS` }], 'grid_mismatch');
+      const a = zg.grid,
+        g = hf.grid;
+      if (
+        a.width !== g.width ||
+        a.height !== g.height ||
+        a.crs !== g.crs ||
+        Math.abs(a.west - g.west) > 1e-9 * Math.max(1, Math.abs(g.dx)) ||
+        Math.abs(a.north - g.north) > 1e-9 * Math.max(1, Math.abs(g.dy))
+      ) {
+        throw new InputError(
+          `${zonesPath}: the class grid does not match the heat-flow grid`,
+          [{ field: 'zones', problem: `expected ${g.width} × ${g.height} cells at the heat-flow grid's origin and CRS` }],
+          'grid_mismatch',
+        );
       }
       zones = { ...zonesFromClassGrid(a.values), source: 'class grid' };
       hashes.zones = zg.hash;
@@ -257,28 +295,53 @@ interface PointsHeatFlow {
  * seed + 2³², the model and parameter draws from streams keyed by the seed (independent of each other).
  */
 async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed: number): Promise<PointsHeatFlow> {
-  if (!(realizations >= 1)) throw bad('realizations', 'give --realizations N (≥ 1) with --points: the totals\' P10/P50/P90 come from N simulated heat-flow fields');
-  if (!(Number.isInteger(seed) && seed >= 0 && seed < SIMULATION_STREAM_OFFSET)) throw bad('seed', `with --points the seed must be an integer from 0 to ${SIMULATION_STREAM_OFFSET - 1}, got ${seed}`);
+  if (!(realizations >= 1))
+    throw bad('realizations', "give --realizations N (≥ 1) with --points: the totals' P10/P50/P90 come from N simulated heat-flow fields");
+  if (!(Number.isInteger(seed) && seed >= 0 && seed < SIMULATION_STREAM_OFFSET))
+    throw bad('seed', `with --points the seed must be an integer from 0 to ${SIMULATION_STREAM_OFFSET - 1}, got ${seed}`);
   if ((v.field ?? 'heatFlowMWm2') !== 'heatFlowMWm2') throw bad('field', 'heat in place simulates heatFlowMWm2 (mW/m²)');
   const { points, warnings, sha256 } = await readSimulationPoints(v);
-  const opts: SimulationOptions = { ...simulationOptionsFromArgs(v, realizations, seed + SIMULATION_STREAM_OFFSET, 'mW/m²'), grid: await gridOptionsFromArgs(v), sampler: 'auto', crossValidation: false, maxValues: MAX_SIMULATED_VALUES };
+  const opts: SimulationOptions = {
+    ...simulationOptionsFromArgs(v, realizations, seed + SIMULATION_STREAM_OFFSET, 'mW/m²'),
+    grid: await gridOptionsFromArgs(v),
+    sampler: 'auto',
+    crossValidation: false,
+    maxValues: MAX_SIMULATED_VALUES,
+  };
   const sim = simulateGrid(points, opts);
   // The nominal run: ordinary kriging of the heat flow itself on the same grid (a fixed variogram of normal scores
   // does not apply to the values: that case fits its own).
   const scoreVariogram = opts.transform !== 'none' && typeof opts.variogram === 'object';
   const kr = interpolateGrid(points, {
-    method: 'kriging', variogram: scoreVariogram ? 'auto' : opts.variogram, anisotropy: opts.anisotropy, neighbors: opts.neighbors, lagKm: opts.lagKm, maxLagKm: opts.maxLagKm,
-    measurementError: opts.measurementError, grid: opts.grid, sd: false, crossValidation: false, units: 'mW/m²',
+    method: 'kriging',
+    variogram: scoreVariogram ? 'auto' : opts.variogram,
+    anisotropy: opts.anisotropy,
+    neighbors: opts.neighbors,
+    lagKm: opts.lagKm,
+    maxLagKm: opts.maxLagKm,
+    measurementError: opts.measurementError,
+    grid: opts.grid,
+    sd: false,
+    crossValidation: false,
+    units: 'mW/m²',
   });
-  const g = kr.grid, s = sim.grid;
-  if (g.width !== s.width || g.height !== s.height || g.west !== s.west || g.north !== s.north || g.dx !== s.dx || g.dy !== s.dy) throw new RangeError('the kriged and simulated grids differ');
+  const g = kr.grid,
+    s = sim.grid;
+  if (g.width !== s.width || g.height !== s.height || g.west !== s.west || g.north !== s.north || g.dx !== s.dx || g.dy !== s.dy)
+    throw new RangeError('the kriged and simulated grids differ');
   const vg = sim.variogram;
   const space = sim.transform.kind === 'normal-score' ? 'normal scores' : 'mW/m²';
   return {
     kriged: { grid: g, hash: sha256 },
-    realizations: { values: sim.values, source: `${realizations} conditional simulations of the sites' heat flow (${sim.sampler.kind === 'cholesky' ? 'exact Cholesky' : 'circulant embedding'} conditioned by kriging, ${vg.model} variogram of the ${space}, range ${vg.rangeKm.toPrecision(4)} km; streams seed + ${SIMULATION_STREAM_OFFSET})` },
+    realizations: {
+      values: sim.values,
+      source: `${realizations} conditional simulations of the sites' heat flow (${sim.sampler.kind === 'cholesky' ? 'exact Cholesky' : 'circulant embedding'} conditioned by kriging, ${vg.model} variogram of the ${space}, range ${vg.rangeKm.toPrecision(4)} km; streams seed + ${SIMULATION_STREAM_OFFSET})`,
+    },
     report: {
-      method: sim.sampler.method, transform: sim.transform, sampler: sim.sampler.kind, neighbors: sim.conditioning.neighbors,
+      method: sim.sampler.method,
+      transform: sim.transform,
+      sampler: sim.sampler.kind,
+      neighbors: sim.conditioning.neighbors,
       variogram: { model: vg.model, nugget: vg.nugget, partialSill: vg.partialSill, rangeKm: vg.rangeKm, anisotropy: vg.anisotropy, source: vg.source, space },
       nominal: 'the nominal run uses the kriged heat-flow grid (ordinary kriging of the values); p10/p50/p90 and mean come from the simulated fields',
       cellKm: sim.cellKm,
@@ -302,9 +365,17 @@ function renderText(r: HeatInPlaceReport, files: Record<string, string>): string
     row('thermal power, recoverable / life (MWt)', r.thermalMWt),
     row('electric, exergy route (MWe)', r.electricMWe),
   ];
-  if ((r.inputs as { conversionEfficiency: unknown }).conversionEfficiency !== null) lines.push(row('electric, thermal × conversion (MWe)', r.electricMWeConversion));
-  lines.push(row('mean reservoir temperature (°C)', r.meanReservoirTempC), '', `Route: ${r.method.routeLabel as string}`, String(r.method.percentiles), String(r.method.exceedance));
-  for (const z of r.totals.zones ?? []) lines.push(`  zone ${z.zone}: ${f(z.areaKm2)} km², heat ${f(z.heatInPlaceEJ.nominal)} EJ, electric ${f(z.electricMWe.nominal)} MWe (nominal)`);
+  if ((r.inputs as { conversionEfficiency: unknown }).conversionEfficiency !== null)
+    lines.push(row('electric, thermal × conversion (MWe)', r.electricMWeConversion));
+  lines.push(
+    row('mean reservoir temperature (°C)', r.meanReservoirTempC),
+    '',
+    `Route: ${r.method.routeLabel as string}`,
+    String(r.method.percentiles),
+    String(r.method.exceedance),
+  );
+  for (const z of r.totals.zones ?? [])
+    lines.push(`  zone ${z.zone}: ${f(z.areaKm2)} km², heat ${f(z.heatInPlaceEJ.nominal)} EJ, electric ${f(z.electricMWe.nominal)} MWe (nominal)`);
   if (r.warnings.length) lines.push('', 'Warnings:', ...r.warnings.map((w) => `  - ${w}`));
   for (const [k, p] of Object.entries(files)) lines.push(`wrote ${k}: ${p}`);
   lines.push('', CAUTION, '');

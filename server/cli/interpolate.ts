@@ -5,7 +5,14 @@ import { parseFeatureCollection } from '../../shared/schema/features.ts';
 import { parseVariogramOption, parseAnisotropyOption, targetsFromGeoJson } from '../../shared/schema/interp.ts';
 import { loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
 import { heatFlowSurface } from '../../shared/products/heat-flow-surface.ts';
-import { prepareInterpolation, predictAtPoints, gridSummary, type InterpolationOptions, type PointData, type InterpolationResult } from '../../shared/interp/interpolate.ts';
+import {
+  prepareInterpolation,
+  predictAtPoints,
+  gridSummary,
+  type InterpolationOptions,
+  type PointData,
+  type InterpolationResult,
+} from '../../shared/interp/interpolate.ts';
 import { blockEstimates, type BlockPolygon } from '../../shared/interp/blockKriging.ts';
 import { writeGeoTiffFile } from '../io/geotiff.ts';
 import { parseVerbArgs, numberOption } from './args.ts';
@@ -85,12 +92,23 @@ const HELP = `subtherm interpolate: grid a point field by IDW or ordinary krigin
 export async function interpolate(argv: string[]): Promise<number> {
   const t0 = performance.now();
   const { values: a } = parseVerbArgs('interpolate', argv, OPTIONS);
-  if (a.help) { process.stdout.write(HELP); return 0; }
+  if (a.help) {
+    process.stdout.write(HELP);
+    return 0;
+  }
   if (a.points === undefined) throw new InputError('--points is required', [{ field: 'points', problem: 'missing' }], 'bad_option');
-  if (a.method !== 'idw' && a.method !== 'kriging') throw new InputError(`--method must be idw or kriging, got ${a.method ?? '(missing)'}`, [{ field: 'method', problem: 'expected idw or kriging' }], 'bad_option');
-  if (a.sd !== 'grid' && a.sd !== 'none') throw new InputError(`--sd must be grid or none, got ${a.sd}`, [{ field: 'sd', problem: 'expected grid or none' }], 'bad_option');
-  if (a.cv !== 'on' && a.cv !== 'off') throw new InputError(`--cv must be on or off, got ${a.cv}`, [{ field: 'cv', problem: 'expected on or off' }], 'bad_option');
-  if (a['cell-km'] !== undefined && a.size !== undefined) throw new InputError('give --cell-km or --size, not both', [{ field: 'size', problem: 'conflicts with --cell-km' }], 'bad_option');
+  if (a.method !== 'idw' && a.method !== 'kriging')
+    throw new InputError(
+      `--method must be idw or kriging, got ${a.method ?? '(missing)'}`,
+      [{ field: 'method', problem: 'expected idw or kriging' }],
+      'bad_option',
+    );
+  if (a.sd !== 'grid' && a.sd !== 'none')
+    throw new InputError(`--sd must be grid or none, got ${a.sd}`, [{ field: 'sd', problem: 'expected grid or none' }], 'bad_option');
+  if (a.cv !== 'on' && a.cv !== 'off')
+    throw new InputError(`--cv must be on or off, got ${a.cv}`, [{ field: 'cv', problem: 'expected on or off' }], 'bad_option');
+  if (a['cell-km'] !== undefined && a.size !== undefined)
+    throw new InputError('give --cell-km or --size, not both', [{ field: 'size', problem: 'conflicts with --cell-km' }], 'bad_option');
   const field = a.field;
   const warnings: string[] = [];
   let errorField = a['error-field'];
@@ -99,7 +117,12 @@ export async function interpolate(argv: string[]): Promise<number> {
     warnings.push(`--measurement-error is deprecated: use --error-field ${errorField ?? implied}`);
     errorField ??= implied;
   }
-  if (errorField !== undefined && a.method !== 'kriging') throw new InputError('--error-field needs --method kriging', [{ field: 'error-field', problem: 'measurement errors enter the kriging system' }], 'bad_option');
+  if (errorField !== undefined && a.method !== 'kriging')
+    throw new InputError(
+      '--error-field needs --method kriging',
+      [{ field: 'error-field', problem: 'measurement errors enter the kriging system' }],
+      'bad_option',
+    );
 
   // Inputs.
   const crs = a.crs ?? 'EPSG:4326';
@@ -136,7 +159,8 @@ export async function interpolate(argv: string[]): Promise<number> {
 
   let blocks: BlockPolygon[] | null = null;
   if (a.block !== undefined) {
-    if (a.method !== 'kriging') throw new InputError('--block needs --method kriging', [{ field: 'block', problem: 'block estimates come from block kriging' }], 'bad_option');
+    if (a.method !== 'kriging')
+      throw new InputError('--block needs --method kriging', [{ field: 'block', problem: 'block estimates come from block kriging' }], 'bad_option');
     const txt = await readText(a.block, 'block');
     hashes.block = sha256(txt);
     blocks = blockPolygonsFromGeoJson(parseJson(txt, a.block), a.block);
@@ -150,7 +174,12 @@ export async function interpolate(argv: string[]): Promise<number> {
     qualityWeights = {};
     for (const part of a['quality-weights'].split(',')) {
       const [k, v] = part.split('=').map((s) => s.trim());
-      if (!['high', 'medium', 'low'].includes(k) || v === undefined) throw new InputError(`--quality-weights: expected high=W,medium=W,low=W, got "${part}"`, [{ field: 'quality-weights', problem: 'e.g. high=1,medium=0.5,low=0.25' }], 'bad_option');
+      if (!['high', 'medium', 'low'].includes(k) || v === undefined)
+        throw new InputError(
+          `--quality-weights: expected high=W,medium=W,low=W, got "${part}"`,
+          [{ field: 'quality-weights', problem: 'e.g. high=1,medium=0.5,low=0.25' }],
+          'bad_option',
+        );
       qualityWeights[k] = numberOption('quality-weights', v);
     }
   }
@@ -183,8 +212,17 @@ export async function interpolate(argv: string[]): Promise<number> {
     const txt = await readText(a.at, 'at');
     const targets = targetsFromGeoJson(parseJson(txt, a.at), a.at);
     const r = predictAtPoints(points, options, targets);
-    const blockOut = blocks === null ? undefined : blockEstimates(prepareInterpolation(points, { ...options, region: null, crossValidation: false }, false), blocks);
-    const body = { predictions: r.predictions, blocks: blockOut, units: options.units, variogram: r.variogram, crossValidation: cvOut(r.crossValidation, a.residuals), warnings: [...warnings, ...r.warnings], timingsMs: { read: readMs, ...r.timingsMs } };
+    const blockOut =
+      blocks === null ? undefined : blockEstimates(prepareInterpolation(points, { ...options, region: null, crossValidation: false }, false), blocks);
+    const body = {
+      predictions: r.predictions,
+      blocks: blockOut,
+      units: options.units,
+      variogram: r.variogram,
+      crossValidation: cvOut(r.crossValidation, a.residuals),
+      warnings: [...warnings, ...r.warnings],
+      timingsMs: { read: readMs, ...r.timingsMs },
+    };
     if (a.json) process.stdout.write(JSON.stringify(body) + '\n');
     else for (const p of r.predictions) process.stdout.write(`${p.id}\t${p.value ?? 'no data'}\t${p.sd ?? ''}\n`);
     return 0;
@@ -194,7 +232,8 @@ export async function interpolate(argv: string[]): Promise<number> {
   const prep = prepareInterpolation(points, options);
   let result: InterpolationResult;
   const workers = a.workers === undefined ? 1 : numberOption('workers', a.workers);
-  if (!(Number.isInteger(workers) && workers >= 1 && workers <= 64)) throw new InputError(`--workers must be an integer 1..64, got ${a.workers}`, [{ field: 'workers', problem: 'expected 1..64' }], 'bad_option');
+  if (!(Number.isInteger(workers) && workers >= 1 && workers <= 64))
+    throw new InputError(`--workers must be an integer 1..64, got ${a.workers}`, [{ field: 'workers', problem: 'expected 1..64' }], 'bad_option');
   if (workers > 1) {
     const { createInterpPool, poolRowFiller, sharedFloat32 } = await import('../workers/interp-worker.ts');
     const pool = createInterpPool(workers);
@@ -211,17 +250,39 @@ export async function interpolate(argv: string[]): Promise<number> {
   const tw = performance.now();
   if (a.out !== undefined) {
     const provenance = {
-      tool: TOOL_NAME, version: VERSION, verb: 'interpolate', method: a.method, field, units: options.units,
-      variogram: result.variogram === null ? null : { model: result.variogram.model, nugget: result.variogram.nugget, partialSill: result.variogram.partialSill, rangeKm: result.variogram.rangeKm, anisotropy: result.variogram.anisotropy },
-      neighbors: neighbors ?? (a.method === 'idw' ? 12 : 16), power: a.method === 'idw' ? (options.power ?? 2) : undefined,
-      inputSha256: hashes, created: new Date().toISOString(),
+      tool: TOOL_NAME,
+      version: VERSION,
+      verb: 'interpolate',
+      method: a.method,
+      field,
+      units: options.units,
+      variogram:
+        result.variogram === null
+          ? null
+          : {
+              model: result.variogram.model,
+              nugget: result.variogram.nugget,
+              partialSill: result.variogram.partialSill,
+              rangeKm: result.variogram.rangeKm,
+              anisotropy: result.variogram.anisotropy,
+            },
+      neighbors: neighbors ?? (a.method === 'idw' ? 12 : 16),
+      power: a.method === 'idw' ? (options.power ?? 2) : undefined,
+      inputSha256: hashes,
+      created: new Date().toISOString(),
     };
     const name = a.out;
-    await writeGeoTiffFile(name, result.grid, { description: `${field} (${options.units || 'value'}), ${a.method === 'idw' ? 'inverse-distance weighting' : 'ordinary kriging'}`, metadata: provenance });
+    await writeGeoTiffFile(name, result.grid, {
+      description: `${field} (${options.units || 'value'}), ${a.method === 'idw' ? 'inverse-distance weighting' : 'ordinary kriging'}`,
+      metadata: provenance,
+    });
     files.push(name);
     if (result.sd !== undefined) {
       const sdName = name.replace(/\.tiff?$/i, '') + '.sd.tif';
-      await writeGeoTiffFile(sdName, result.sd, { description: `${field} kriging standard deviation (${options.units || 'value units'})`, metadata: provenance });
+      await writeGeoTiffFile(sdName, result.sd, {
+        description: `${field} kriging standard deviation (${options.units || 'value units'})`,
+        metadata: provenance,
+      });
       files.push(sdName);
     }
   }
@@ -239,9 +300,17 @@ export async function interpolate(argv: string[]): Promise<number> {
   if (a.json) process.stdout.write(JSON.stringify(body) + '\n');
   else {
     const g = body.grid;
-    process.stdout.write(`grid ${g.nx} × ${g.ny} (${g.cellKm.toFixed(3)} km cells, ${g.crs}); ${field} min ${g.min} max ${g.max} mean ${g.mean}; ${g.noData} no-data cells\n`);
-    if (body.variogram) process.stdout.write(`variogram ${body.variogram.model}: nugget ${body.variogram.nugget}, partial sill ${body.variogram.partialSill}, range ${body.variogram.rangeKm} km\n`);
-    if (body.crossValidation) process.stdout.write(`cross-validation: RMSE ${body.crossValidation.rmse}, mean error ${body.crossValidation.meanError}, MSDR ${body.crossValidation.meanSquaredDeviationRatio ?? '-'}\n`);
+    process.stdout.write(
+      `grid ${g.nx} × ${g.ny} (${g.cellKm.toFixed(3)} km cells, ${g.crs}); ${field} min ${g.min} max ${g.max} mean ${g.mean}; ${g.noData} no-data cells\n`,
+    );
+    if (body.variogram)
+      process.stdout.write(
+        `variogram ${body.variogram.model}: nugget ${body.variogram.nugget}, partial sill ${body.variogram.partialSill}, range ${body.variogram.rangeKm} km\n`,
+      );
+    if (body.crossValidation)
+      process.stdout.write(
+        `cross-validation: RMSE ${body.crossValidation.rmse}, mean error ${body.crossValidation.meanError}, MSDR ${body.crossValidation.meanSquaredDeviationRatio ?? '-'}\n`,
+      );
     for (const f of files) process.stdout.write(`wrote ${f}\n`);
     for (const w of body.warnings) process.stdout.write(`warning: ${w}\n`);
     process.stdout.write(CAUTION + '\n');
@@ -259,15 +328,48 @@ function cvOut(cv: InterpolationResult['crossValidation'], residuals: boolean) {
 function blockPolygonsFromGeoJson(input: unknown, source: string): BlockPolygon[] {
   const fc = input as { type?: unknown; features?: unknown };
   if (input === null || typeof input !== 'object' || fc.type !== 'FeatureCollection' || !Array.isArray(fc.features) || fc.features.length === 0) {
-    throw new InputError(`${source}: expected a GeoJSON FeatureCollection of polygons`, [{ field: 'features', problem: 'expected at least one Polygon or MultiPolygon' }], 'bad_geojson');
+    throw new InputError(
+      `${source}: expected a GeoJSON FeatureCollection of polygons`,
+      [{ field: 'features', problem: 'expected at least one Polygon or MultiPolygon' }],
+      'bad_geojson',
+    );
   }
-  return (fc.features as { id?: unknown; geometry?: { type?: unknown; coordinates?: unknown } | null; properties?: Record<string, unknown> | null }[]).map((f, i) => {
-    const pid = f?.properties?.id;
-    const id = typeof pid === 'string' || typeof pid === 'number' ? String(pid) : typeof f?.id === 'string' || typeof f?.id === 'number' ? String(f.id) : `block-${i + 1}`;
-    const g = f?.geometry;
-    const ok = (rings: unknown): rings is number[][][] => Array.isArray(rings) && rings.length > 0 && rings.every((r) => Array.isArray(r) && r.length >= 4 && r.every((p) => Array.isArray(p) && p.length >= 2 && Number.isFinite(p[0]) && Number.isFinite(p[1]) && (p[0] as number) >= -180 && (p[0] as number) <= 180 && (p[1] as number) >= -90 && (p[1] as number) <= 90));
-    if (g?.type === 'Polygon' && ok(g.coordinates)) return { id, rings: g.coordinates };
-    if (g?.type === 'MultiPolygon' && Array.isArray(g.coordinates) && g.coordinates.every(ok)) return { id, rings: (g.coordinates).flat() };
-    throw new InputError(`${source}: feature ${id} is not a valid Polygon or MultiPolygon in lon/lat degrees`, [{ feature: id, field: 'geometry', problem: 'expected Polygon or MultiPolygon rings of ≥ 4 [lon, lat] positions' }], 'invalid_features');
-  });
+  return (fc.features as { id?: unknown; geometry?: { type?: unknown; coordinates?: unknown } | null; properties?: Record<string, unknown> | null }[]).map(
+    (f, i) => {
+      const pid = f?.properties?.id;
+      const id =
+        typeof pid === 'string' || typeof pid === 'number'
+          ? String(pid)
+          : typeof f?.id === 'string' || typeof f?.id === 'number'
+            ? String(f.id)
+            : `block-${i + 1}`;
+      const g = f?.geometry;
+      const ok = (rings: unknown): rings is number[][][] =>
+        Array.isArray(rings) &&
+        rings.length > 0 &&
+        rings.every(
+          (r) =>
+            Array.isArray(r) &&
+            r.length >= 4 &&
+            r.every(
+              (p) =>
+                Array.isArray(p) &&
+                p.length >= 2 &&
+                Number.isFinite(p[0]) &&
+                Number.isFinite(p[1]) &&
+                (p[0] as number) >= -180 &&
+                (p[0] as number) <= 180 &&
+                (p[1] as number) >= -90 &&
+                (p[1] as number) <= 90,
+            ),
+        );
+      if (g?.type === 'Polygon' && ok(g.coordinates)) return { id, rings: g.coordinates };
+      if (g?.type === 'MultiPolygon' && Array.isArray(g.coordinates) && g.coordinates.every(ok)) return { id, rings: g.coordinates.flat() };
+      throw new InputError(
+        `${source}: feature ${id} is not a valid Polygon or MultiPolygon in lon/lat degrees`,
+        [{ feature: id, field: 'geometry', problem: 'expected Polygon or MultiPolygon rings of ≥ 4 [lon, lat] positions' }],
+        'invalid_features',
+      );
+    },
+  );
 }

@@ -105,10 +105,11 @@ export async function isograds(argv: string[]): Promise<number> {
   if (!(cellKm > 0)) throw bad('cell-km', `must be > 0 km, got ${cellKm}`);
   const supportKm = v['support-km'] === undefined ? undefined : numberOption('support-km', v['support-km']);
   if (supportKm !== undefined && !(supportKm > 0)) throw bad('support-km', `must be > 0 km, got ${supportKm}`);
-  const method = (v.method) ?? 'kriging';
+  const method = v.method ?? 'kriging';
   if (method !== 'kriging' && method !== 'idw') throw bad('method', `expected kriging or idw, got '${method}'`);
   const isogradDipDeg = v['isograd-dip-deg'] === undefined ? undefined : numberOption('isograd-dip-deg', v['isograd-dip-deg']);
-  if (isogradDipDeg !== undefined && !(isogradDipDeg > 0 && isogradDipDeg < 90)) throw bad('isograd-dip-deg', `must be between 0 and 90 degrees (exclusive), got ${isogradDipDeg}`);
+  if (isogradDipDeg !== undefined && !(isogradDipDeg > 0 && isogradDipDeg < 90))
+    throw bad('isograd-dip-deg', `must be between 0 and 90 degrees (exclusive), got ${isogradDipDeg}`);
   const neighbors = numberOption('neighbors', v.neighbors, method === 'kriging' ? 16 : 12);
   if (!(Number.isInteger(neighbors) && neighbors >= 1 && neighbors <= 1000)) throw bad('neighbors', `must be an integer from 1 to 1000, got ${neighbors}`);
   const power = numberOption('power', v.power, 2);
@@ -139,13 +140,29 @@ export async function isograds(argv: string[]): Promise<number> {
     const parsed = parseThermalModel(m.raw, v.model);
     const nominal = nominalModel(parsed);
     const q0 = heatFlow ?? nominal.surfaceHeatFlowMWm2;
-    if (q0 === undefined) throw new InputError(`${v.model}: no surface heat flow`, [{ feature: 'model', field: 'surfaceHeatFlowMWm2', problem: 'missing: put it in the model or give --heat-flow' }], 'invalid_model');
+    if (q0 === undefined)
+      throw new InputError(
+        `${v.model}: no surface heat flow`,
+        [{ feature: 'model', field: 'surfaceHeatFlowMWm2', problem: 'missing: put it in the model or give --heat-flow' }],
+        'invalid_model',
+      );
     model = compileModel(nominal, { maxDepthKm: 100 });
   } else if (heatFlow !== undefined) warnings.push('--heat-flow has no effect without --model');
 
-  const layer = inFile(samplesPath, () => isogradLayer(sp.collection as SampleCollection, faults, {
-    cellKm, supportKm, neighbors, power, method, isogradDipDeg, faultDistanceKm, model, heatFlowMWm2: heatFlow, paleo: { densityKgM3: density },
-  }));
+  const layer = inFile(samplesPath, () =>
+    isogradLayer(sp.collection as SampleCollection, faults, {
+      cellKm,
+      supportKm,
+      neighbors,
+      power,
+      method,
+      isogradDipDeg,
+      faultDistanceKm,
+      model,
+      heatFlowMWm2: heatFlow,
+      paleo: { densityKgM3: density },
+    }),
+  );
   const rep = layer.report;
   warnings.push(...rep.warnings);
   const files: string[] = [];
@@ -159,8 +176,19 @@ export async function isograds(argv: string[]): Promise<number> {
     faults: rep.faults,
     samples: rep.samples,
     misfits: rep.misfits.map((m) => ({ ...m, distanceKm: r3(m.distanceKm) })),
-    paleoGradients: rep.paleoGradients.map((p) => ({ ...p, depthKm: r3(p.depthKm), apparentGradientCPerKm: r3(p.apparentGradientCPerKm), modelDepthKm: r3(p.modelDepthKm), todayDepthKm: r3(p.todayDepthKm) })),
-    method: rep.method, sampleCounts: rep.sampleCounts, droppedLoops: rep.droppedLoops, inputs: hashes, files, warnings,
+    paleoGradients: rep.paleoGradients.map((p) => ({
+      ...p,
+      depthKm: r3(p.depthKm),
+      apparentGradientCPerKm: r3(p.apparentGradientCPerKm),
+      modelDepthKm: r3(p.modelDepthKm),
+      todayDepthKm: r3(p.todayDepthKm),
+    })),
+    method: rep.method,
+    sampleCounts: rep.sampleCounts,
+    droppedLoops: rep.droppedLoops,
+    inputs: hashes,
+    files,
+    warnings,
     caution: layer.lines.caution,
   };
   if (v.json) process.stdout.write(JSON.stringify(result) + '\n');
@@ -174,7 +202,10 @@ export async function isograds(argv: string[]): Promise<number> {
         f.offsetOnly ? 'offset only' : '',
       ].filter((x) => x !== '');
       lines.push(`fault ${f.id}: ${st.join('; ') || 'no statement'}`);
-      for (const q of f.separations) lines.push(`  ${q.isograd} at the ${q.end} end: separation ${q.separationKm.value} km (${q.separationKm.low}–${q.separationKm.high}), ${q.sense}${q.dipSlipKm !== undefined ? `, dip slip ${q.dipSlipKm.value} km (${q.dipSlipKm.low}–${q.dipSlipKm.high}) ${q.slipSense}` : ''}`);
+      for (const q of f.separations)
+        lines.push(
+          `  ${q.isograd} at the ${q.end} end: separation ${q.separationKm.value} km (${q.separationKm.low}–${q.separationKm.high}), ${q.sense}${q.dipSlipKm !== undefined ? `, dip slip ${q.dipSlipKm.value} km (${q.dipSlipKm.low}–${q.dipSlipKm.high}) ${q.slipSense}` : ''}`,
+        );
     }
     lines.push(`misfits: ${result.misfits.length}; paleo-gradients: ${result.paleoGradients.length}`);
     for (const w of warnings) lines.push(`warning: ${w}`);

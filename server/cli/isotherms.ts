@@ -53,31 +53,63 @@ async function readBytes(path: string, what: string): Promise<Buffer> {
  * epsg-index). Errors (InputError): not a TIFF, no georeferencing, several bands without `band`, a band out of
  * range, no EPSG code, or an EPSG code with no offline definition. `band` is 1-based (GDAL's numbering).
  */
-export async function readGridGeoTiff(bytes: Uint8Array, source: string, band?: number): Promise<{ grid: Grid<Float32Array>; crsDef: string; metadata: Record<string, unknown> }> {
-  if (band !== undefined && !(Number.isInteger(band) && band >= 1)) throw new InputError(`${source}: --band ${band} is out of range`, [{ feature: source, field: 'band', problem: 'expected a band number from 1' }], 'bad_option');
+export async function readGridGeoTiff(
+  bytes: Uint8Array,
+  source: string,
+  band?: number,
+): Promise<{ grid: Grid<Float32Array>; crsDef: string; metadata: Record<string, unknown> }> {
+  if (band !== undefined && !(Number.isInteger(band) && band >= 1))
+    throw new InputError(
+      `${source}: --band ${band} is out of range`,
+      [{ feature: source, field: 'band', problem: 'expected a band number from 1' }],
+      'bad_option',
+    );
   const r = await readGeoTiff(bytes, { band: band === undefined ? undefined : band - 1, source, chooseBand: true });
   let crsDef: string;
   try {
     crsDef = await loadCrsDefinition(r.grid.crs);
   } catch (e) {
-    throw new InputError(`${source}: unknown CRS ${r.grid.crs}`, [{ feature: source, field: 'crs', problem: e instanceof Error ? e.message : String(e) }], 'bad_crs');
+    throw new InputError(
+      `${source}: unknown CRS ${r.grid.crs}`,
+      [{ feature: source, field: 'crs', problem: e instanceof Error ? e.message : String(e) }],
+      'bad_crs',
+    );
   }
   return { grid: r.grid, crsDef, metadata: r.metadata };
 }
 
 function sameGrid(a: Grid<Float32Array>, b: Grid<Float32Array>): boolean {
   const close = (x: number, y: number) => Math.abs(x - y) <= 1e-9 * Math.max(1, Math.abs(x), Math.abs(y));
-  return a.width === b.width && a.height === b.height && a.crs === b.crs && close(a.west, b.west) && close(a.north, b.north) && close(a.dx, b.dx) && close(a.dy, b.dy);
+  return (
+    a.width === b.width &&
+    a.height === b.height &&
+    a.crs === b.crs &&
+    close(a.west, b.west) &&
+    close(a.north, b.north) &&
+    close(a.dx, b.dx) &&
+    close(a.dy, b.dy)
+  );
 }
 
 /**
  * Conditional simulations of the sites (--points and the shared simulation flags) on the heat-flow grid, from
  * streams keyed by seed + 2³² (the model draws use the seed itself). Cells without heat flow stay no data.
  */
-async function simulateOnHeatFlowGrid(a: SimulationArgs, heatFlow: Grid<Float32Array>, crsDef: string, realizations: number, seed: number): Promise<{ values: Float32Array; source: string; sha256: string; warnings: string[] }> {
-  if ((a.field ?? 'heatFlowMWm2') !== 'heatFlowMWm2') throw new InputError('isotherms simulates heatFlowMWm2 (mW/m²)', [{ field: 'field', problem: 'expected heatFlowMWm2' }], 'bad_option');
+async function simulateOnHeatFlowGrid(
+  a: SimulationArgs,
+  heatFlow: Grid<Float32Array>,
+  crsDef: string,
+  realizations: number,
+  seed: number,
+): Promise<{ values: Float32Array; source: string; sha256: string; warnings: string[] }> {
+  if ((a.field ?? 'heatFlowMWm2') !== 'heatFlowMWm2')
+    throw new InputError('isotherms simulates heatFlowMWm2 (mW/m²)', [{ field: 'field', problem: 'expected heatFlowMWm2' }], 'bad_option');
   const { points, warnings, sha256 } = await readSimulationPoints(a);
-  const opts: SimulationOptions = { ...simulationOptionsFromArgs(a, realizations, seed + SIMULATION_STREAM_OFFSET, 'mW/m²'), crossValidation: false, maxValues: MAX_SIMULATED_VALUES };
+  const opts: SimulationOptions = {
+    ...simulationOptionsFromArgs(a, realizations, seed + SIMULATION_STREAM_OFFSET, 'mW/m²'),
+    crossValidation: false,
+    maxValues: MAX_SIMULATED_VALUES,
+  };
   const r = simulateOnGrid(points, opts, heatFlow, crsDef);
   const cells = heatFlow.width * heatFlow.height;
   for (let c = 0; c < cells; c++) if (!(heatFlow.values[c] === heatFlow.values[c])) for (let k = 0; k < realizations; k++) r.values[k * cells + c] = NaN;
@@ -115,26 +147,50 @@ export async function isotherms(argv: string[]): Promise<number> {
     if (v === undefined) throw new InputError(`--${k} is required`, [{ field: k, problem: 'missing' }], 'bad_option');
     return v;
   };
-  const hfPath = need('heat-flow'), modelPath = need('model'), outDir = need('out-dir');
+  const hfPath = need('heat-flow'),
+    modelPath = need('model'),
+    outDir = need('out-dir');
   // 300 and 500 °C unless asked otherwise, as in every other verb and the map.
   const isothermsC = numberListOption('isotherms', a.isotherms, [300, 500]);
   const depthsKm = numberListOption('depths-km', a['depths-km'], []);
-  for (const d of depthsKm) if (!(d > 0)) throw new InputError(`--depths-km must be > 0, got ${d}`, [{ field: 'depths-km', problem: 'expected depths > 0 km' }], 'bad_option');
-  const faciesDepthKm = a['facies-depth-km'] !== undefined ? numberOption('facies-depth-km', a['facies-depth-km']) : depthsKm.length > 0 ? Math.max(...depthsKm) : 10;
-  if (!(faciesDepthKm > 0)) throw new InputError(`--facies-depth-km must be > 0, got ${faciesDepthKm}`, [{ field: 'facies-depth-km', problem: 'expected > 0 km' }], 'bad_option');
+  for (const d of depthsKm)
+    if (!(d > 0)) throw new InputError(`--depths-km must be > 0, got ${d}`, [{ field: 'depths-km', problem: 'expected depths > 0 km' }], 'bad_option');
+  const faciesDepthKm =
+    a['facies-depth-km'] !== undefined ? numberOption('facies-depth-km', a['facies-depth-km']) : depthsKm.length > 0 ? Math.max(...depthsKm) : 10;
+  if (!(faciesDepthKm > 0))
+    throw new InputError(`--facies-depth-km must be > 0, got ${faciesDepthKm}`, [{ field: 'facies-depth-km', problem: 'expected > 0 km' }], 'bad_option');
   const maxDepthKm = a['max-depth-km'] !== undefined ? numberOption('max-depth-km', a['max-depth-km']) : undefined;
-  if (maxDepthKm !== undefined && !(maxDepthKm > 0)) throw new InputError(`--max-depth-km must be > 0, got ${maxDepthKm}`, [{ field: 'max-depth-km', problem: 'expected > 0 km' }], 'bad_option');
+  if (maxDepthKm !== undefined && !(maxDepthKm > 0))
+    throw new InputError(`--max-depth-km must be > 0, got ${maxDepthKm}`, [{ field: 'max-depth-km', problem: 'expected > 0 km' }], 'bad_option');
   const contourIntervalKm = a['contour-interval-km'] !== undefined ? numberOption('contour-interval-km', a['contour-interval-km']) : 1;
   const contourIntervalC = a['contour-interval-c'] !== undefined ? numberOption('contour-interval-c', a['contour-interval-c']) : undefined;
-  for (const [k, v] of [['contour-interval-km', contourIntervalKm], ['contour-interval-c', contourIntervalC]] as const) {
+  for (const [k, v] of [
+    ['contour-interval-km', contourIntervalKm],
+    ['contour-interval-c', contourIntervalC],
+  ] as const) {
     if (v !== undefined && !(v > 0)) throw new InputError(`--${k} must be > 0, got ${v}`, [{ field: k, problem: 'expected > 0' }], 'bad_option');
   }
   const realizations = a.realizations !== undefined ? numberOption('realizations', a.realizations) : 0;
-  if (!(Number.isInteger(realizations) && realizations >= 0 && realizations <= 100000)) throw new InputError(`--realizations must be an integer in 0..100000, got ${a.realizations}`, [{ field: 'realizations', problem: 'expected a whole number' }], 'bad_option');
+  if (!(Number.isInteger(realizations) && realizations >= 0 && realizations <= 100000))
+    throw new InputError(
+      `--realizations must be an integer in 0..100000, got ${a.realizations}`,
+      [{ field: 'realizations', problem: 'expected a whole number' }],
+      'bad_option',
+    );
   const seed = a.seed !== undefined ? numberOption('seed', a.seed) : 0;
-  if (!(Number.isInteger(seed) && seed >= 0 && seed <= 2 ** 32 - 1)) throw new InputError(`--seed must be an integer in 0..4294967295, got ${a.seed}`, [{ field: 'seed', problem: 'expected a whole number ≥ 0' }], 'bad_option');
+  if (!(Number.isInteger(seed) && seed >= 0 && seed <= 2 ** 32 - 1))
+    throw new InputError(
+      `--seed must be an integer in 0..4294967295, got ${a.seed}`,
+      [{ field: 'seed', problem: 'expected a whole number ≥ 0' }],
+      'bad_option',
+    );
   const corr = a['heat-flow-error-correlation'] ?? 'full';
-  if (corr !== 'full' && corr !== 'independent') throw new InputError(`--heat-flow-error-correlation must be full or independent, got "${corr}"`, [{ field: 'heat-flow-error-correlation', problem: 'expected full or independent' }], 'bad_option');
+  if (corr !== 'full' && corr !== 'independent')
+    throw new InputError(
+      `--heat-flow-error-correlation must be full or independent, got "${corr}"`,
+      [{ field: 'heat-flow-error-correlation', problem: 'expected full or independent' }],
+      'bad_option',
+    );
   const band = a.band !== undefined ? numberOption('band', a.band) : undefined;
 
   // Inputs.
@@ -146,20 +202,45 @@ export async function isotherms(argv: string[]): Promise<number> {
   if (a['heat-flow-sd'] !== undefined) {
     const sdBytes = await readBytes(a['heat-flow-sd'], 'heat-flow-sd');
     const sd = await readGridGeoTiff(sdBytes, a['heat-flow-sd'], band);
-    if (!sameGrid(sd.grid, heatFlow)) throw new InputError(`${a['heat-flow-sd']} is not on the heat-flow grid (size, origin, cell size and CRS must match)`, [{ feature: a['heat-flow-sd'], field: 'grid', problem: `expected ${heatFlow.width} × ${heatFlow.height} cells at ${heatFlow.west}, ${heatFlow.north} in ${heatFlow.crs}` }], 'bad_geotiff');
+    if (!sameGrid(sd.grid, heatFlow))
+      throw new InputError(
+        `${a['heat-flow-sd']} is not on the heat-flow grid (size, origin, cell size and CRS must match)`,
+        [
+          {
+            feature: a['heat-flow-sd'],
+            field: 'grid',
+            problem: `expected ${heatFlow.width} × ${heatFlow.height} cells at ${heatFlow.west}, ${heatFlow.north} in ${heatFlow.crs}`,
+          },
+        ],
+        'bad_geotiff',
+      );
     heatFlowSd = { ...sd.grid, west: heatFlow.west, north: heatFlow.north, dx: heatFlow.dx, dy: heatFlow.dy, units: 'mW/m²' };
     inputs.heatFlowSd = sha256Hex(sdBytes);
   }
   // --points: the Monte Carlo's heat flow comes from conditional simulations of the sites on the heat-flow grid.
   let simulated: Awaited<ReturnType<typeof simulateOnHeatFlowGrid>> | null = null;
   if (a.points !== undefined) {
-    if (heatFlowSd !== null) throw new InputError('--heat-flow-sd does not go with --points: the spread comes from the conditional simulations', [{ field: 'heat-flow-sd', problem: 'drop it, or drop --points' }], 'bad_option');
-    for (const k of ['cell-km', 'size', 'bbox', 'crs'] as const) if (a[k] !== undefined) throw new InputError(`--${k} does not go with isotherms: the grid is the heat-flow grid's`, [{ field: k, problem: 'drop it' }], 'bad_option');
-    if (!(realizations >= 1)) throw new InputError('--points needs --realizations N (≥ 1): the percentiles come from N simulated heat-flow fields', [{ field: 'realizations', problem: 'missing' }], 'bad_option');
+    if (heatFlowSd !== null)
+      throw new InputError(
+        '--heat-flow-sd does not go with --points: the spread comes from the conditional simulations',
+        [{ field: 'heat-flow-sd', problem: 'drop it, or drop --points' }],
+        'bad_option',
+      );
+    for (const k of ['cell-km', 'size', 'bbox', 'crs'] as const)
+      if (a[k] !== undefined)
+        throw new InputError(`--${k} does not go with isotherms: the grid is the heat-flow grid's`, [{ field: k, problem: 'drop it' }], 'bad_option');
+    if (!(realizations >= 1))
+      throw new InputError(
+        '--points needs --realizations N (≥ 1): the percentiles come from N simulated heat-flow fields',
+        [{ field: 'realizations', problem: 'missing' }],
+        'bad_option',
+      );
     simulated = await simulateOnHeatFlowGrid(a, heatFlow, hf.crsDef, realizations, seed);
     inputs.points = simulated.sha256;
-  } else if (a['heat-flow-error-correlation'] !== undefined) process.stderr.write('warning: --heat-flow-error-correlation is deprecated: give --points SITES to simulate spatially coherent heat-flow fields\n');
-  if (realizations > 0 && heatFlowSd === null && simulated === null) process.stderr.write('note: no --heat-flow-sd grid: the percentiles reflect the model parameters only\n');
+  } else if (a['heat-flow-error-correlation'] !== undefined)
+    process.stderr.write('warning: --heat-flow-error-correlation is deprecated: give --points SITES to simulate spatially coherent heat-flow fields\n');
+  if (realizations > 0 && heatFlowSd === null && simulated === null)
+    process.stderr.write('note: no --heat-flow-sd grid: the percentiles reflect the model parameters only\n');
   const modelText = (await readBytes(modelPath, 'model')).toString('utf8');
   const doc = parseModelText(modelText, modelPath);
   inputs.model = sha256Hex(modelText);
@@ -174,10 +255,15 @@ export async function isotherms(argv: string[]): Promise<number> {
     }
     const ds = parseFeatureCollection('regions', raw);
     ds.collection.features.forEach((f, i) => {
-      const props = (f.properties ?? {});
+      const props = f.properties ?? {};
       const label = `${a.overrides}: feature ${i}${props.id !== undefined ? ` (${String(props.id)})` : ''}`;
       const o = overrideFromProperties(props, label);
-      if (o === null) throw new InputError(`${label} has no "layers": every override polygon needs them`, [{ feature: i, field: 'properties.layers', problem: 'missing' }], 'invalid_override');
+      if (o === null)
+        throw new InputError(
+          `${label} has no "layers": every override polygon needs them`,
+          [{ feature: i, field: 'properties.layers', problem: 'missing' }],
+          'invalid_override',
+        );
       regions.push({ label, override: o, ringsLonLat: ringsOfGeometry(f.geometry) });
     });
     inputs.overrides = sha256Hex(text);
@@ -185,12 +271,38 @@ export async function isotherms(argv: string[]): Promise<number> {
 
   const t0 = performance.now();
   const products = await computeThermalProducts(heatFlow, heatFlowSd, doc.model, regions, hf.crsDef, {
-    isothermsC, depthsKm, faciesDepthKm, maxDepthKm, contourIntervalKm, contourIntervalC, realizations, seed, heatFlowErrorCorrelation: corr,
-    heatFlowRealizations: simulated?.values, heatFlowSource: simulated?.source,
+    isothermsC,
+    depthsKm,
+    faciesDepthKm,
+    maxDepthKm,
+    contourIntervalKm,
+    contourIntervalC,
+    realizations,
+    seed,
+    heatFlowErrorCorrelation: corr,
+    heatFlowRealizations: simulated?.values,
+    heatFlowSource: simulated?.source,
   });
   const computeMs = performance.now() - t0;
   const provenance = buildProvenance(
-    { method: 'isotherms', model: doc.model, modelName: doc.name, inputs, parameters: { isothermsC, depthsKm, faciesDepthKm, maxDepthKm: products.maxDepthKm, contourIntervalKm, contourIntervalC: contourIntervalC ?? null, realizations, seed, heatFlowErrorCorrelation: corr, band: band ?? null } },
+    {
+      method: 'isotherms',
+      model: doc.model,
+      modelName: doc.name,
+      inputs,
+      parameters: {
+        isothermsC,
+        depthsKm,
+        faciesDepthKm,
+        maxDepthKm: products.maxDepthKm,
+        contourIntervalKm,
+        contourIntervalC: contourIntervalC ?? null,
+        realizations,
+        seed,
+        heatFlowErrorCorrelation: corr,
+        band: band ?? null,
+      },
+    },
     sha256Hex,
   );
 
@@ -232,8 +344,13 @@ export async function isotherms(argv: string[]): Promise<number> {
   else {
     const f = (v: number | null) => (v === null ? '—' : v.toFixed(2));
     process.stdout.write(`${CAUTION}\n\n${heatFlow.width} × ${heatFlow.height} cells (${heatFlow.crs}); searches to ${products.maxDepthKm} km\n`);
-    process.stdout.write(`${'product'.padEnd(24)} ${'units'.padEnd(6)} ${'min'.padStart(9)} ${'median'.padStart(9)} ${'max'.padStart(9)} ${'no data'.padStart(9)}\n`);
-    for (const l of products.layers) process.stdout.write(`${l.name.padEnd(24)} ${l.units.padEnd(6)} ${f(l.stats.min).padStart(9)} ${f(l.stats.median).padStart(9)} ${f(l.stats.max).padStart(9)} ${String(l.stats.noData).padStart(9)}\n`);
+    process.stdout.write(
+      `${'product'.padEnd(24)} ${'units'.padEnd(6)} ${'min'.padStart(9)} ${'median'.padStart(9)} ${'max'.padStart(9)} ${'no data'.padStart(9)}\n`,
+    );
+    for (const l of products.layers)
+      process.stdout.write(
+        `${l.name.padEnd(24)} ${l.units.padEnd(6)} ${f(l.stats.min).padStart(9)} ${f(l.stats.median).padStart(9)} ${f(l.stats.max).padStart(9)} ${String(l.stats.noData).padStart(9)}\n`,
+      );
     process.stdout.write(`\ninconsistent cells: ${products.counts.inconsistent}; cells reaching the melt onset: ${products.counts.meltOnset}\n`);
     for (const w of summary.warnings) process.stdout.write(`warning: ${w}\n`);
     process.stdout.write(`\nfiles:\n${summary.files.map((p) => `  ${p}`).join('\n')}\n`);
@@ -244,7 +361,9 @@ export async function isotherms(argv: string[]): Promise<number> {
     process.stderr.write(`warning: ${products.counts.inconsistent} cell(s) are inconsistent with the heat flow; see ${join(outDir, 'inconsistent.tif')}\n`);
   }
   if (products.counts.meltOnset > 0) {
-    process.stderr.write(`warning: ${products.counts.meltOnset} cell(s) reach the melt onset above ${products.maxDepthKm} km (no temperatures below it); see ${join(outDir, 'melt-onset.tif')}\n`);
+    process.stderr.write(
+      `warning: ${products.counts.meltOnset} cell(s) reach the melt onset above ${products.maxDepthKm} km (no temperatures below it); see ${join(outDir, 'melt-onset.tif')}\n`,
+    );
   }
   return 0;
 }

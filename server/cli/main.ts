@@ -7,7 +7,16 @@ export type { Verb } from './verbs.ts';
 
 function usage(): string {
   const rows = Object.entries(VERBS).map(([name, v]) => `  ${name.padEnd(14)} ${v.summary}`);
-  return [`subtherm ${VERSION}`, '', 'Usage: subtherm <verb> [options] [--json]', '', 'Verbs:', ...rows, '', 'subtherm <verb> --help shows the options of one verb.'].join('\n');
+  return [
+    `subtherm ${VERSION}`,
+    '',
+    'Usage: subtherm <verb> [options] [--json]',
+    '',
+    'Verbs:',
+    ...rows,
+    '',
+    'subtherm <verb> --help shows the options of one verb.',
+  ].join('\n');
 }
 
 /** Runs the CLI; returns the process exit code (0 ok, 2 bad input, 1 internal fault). */

@@ -35,7 +35,11 @@ export async function migrate(argv: string[]): Promise<number> {
   try {
     store = await PostgresStore.open(databaseUrl, { max: 1, log: (l) => process.stdout.write(l + '\n') });
   } catch (e) {
-    throw new InputError(`cannot migrate ${redactUrl(databaseUrl)}: ${(e as Error).message}`, [{ field: 'database-url', problem: (e as Error).message }], 'database_unavailable');
+    throw new InputError(
+      `cannot migrate ${redactUrl(databaseUrl)}: ${(e as Error).message}`,
+      [{ field: 'database-url', problem: (e as Error).message }],
+      'database_unavailable',
+    );
   }
   try {
     await migratePostgres(store.pool);

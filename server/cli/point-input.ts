@@ -50,7 +50,8 @@ export async function readPointsFile(path: string, field: string, o: PointFileOp
     const v = await readVectorFile(bytes, { format: formatFromPath(path) as 'gpkg' | 'shapefile', source: path, layer: o.layer });
     const r = inFileLayer(path, v.layer, () => pointsFromGeoJson(v.collection, field, { skipMissing: o.skipMissing, source: path }));
     const warnings = [...r.warnings];
-    if (v.sourceCrs !== 'EPSG:4326') warnings.push(`${path}${v.layer ? `, layer "${v.layer}"` : ''}: reprojected from ${v.sourceCrs} to WGS 84 longitude/latitude`);
+    if (v.sourceCrs !== 'EPSG:4326')
+      warnings.push(`${path}${v.layer ? `, layer "${v.layer}"` : ''}: reprojected from ${v.sourceCrs} to WGS 84 longitude/latitude`);
     return { points: r.points, warnings, sha256: sha256(bytes) };
   }
   const text = await readText(path, 'points');
@@ -79,7 +80,12 @@ export function sizeOption(raw: string | undefined): [number, number] | undefine
 export function bboxOption(raw: string | undefined): [number, number, number, number] | undefined {
   if (raw === undefined) return undefined;
   const b = numberListOption('bbox', raw, []);
-  if (b.length !== 4) throw new InputError(`--bbox needs 4 numbers W,S,E,N, got ${b.length}`, [{ field: 'bbox', problem: 'expected west,south,east,north in degrees' }], 'bad_option');
+  if (b.length !== 4)
+    throw new InputError(
+      `--bbox needs 4 numbers W,S,E,N, got ${b.length}`,
+      [{ field: 'bbox', problem: 'expected west,south,east,north in degrees' }],
+      'bad_option',
+    );
   return b as [number, number, number, number];
 }
 
@@ -87,7 +93,8 @@ export function bboxOption(raw: string | undefined): [number, number, number, nu
 export function neighborsOption(raw: string | undefined): number | 'all' | undefined {
   if (raw === undefined || raw === 'all') return raw;
   const k = numberOption('neighbors', raw);
-  if (!(Number.isInteger(k) && k >= 1)) throw new InputError(`--neighbors must be a positive integer or "all", got ${raw}`, [{ field: 'neighbors', problem: 'expected ≥ 1' }], 'bad_option');
+  if (!(Number.isInteger(k) && k >= 1))
+    throw new InputError(`--neighbors must be a positive integer or "all", got ${raw}`, [{ field: 'neighbors', problem: 'expected ≥ 1' }], 'bad_option');
   return k;
 }
 

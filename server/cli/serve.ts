@@ -43,15 +43,14 @@ export async function serve(argv: string[]): Promise<number> {
     return 0;
   }
   const port = numberOption('port', values.port ?? process.env.PORT, 8080);
-  if (!Number.isInteger(port) || port < 0 || port > 65535) throw new InputError(`--port must be an integer 0–65535, got ${port}`, [{ field: 'port', problem: 'out of range' }], 'bad_option');
+  if (!Number.isInteger(port) || port < 0 || port > 65535)
+    throw new InputError(`--port must be an integer 0–65535, got ${port}`, [{ field: 'port', problem: 'out of range' }], 'bad_option');
   const { dbPath, databaseUrl } = resolveDatabase(values);
   const host = values.host ?? process.env.SUBTHERM_HOST ?? '127.0.0.1';
   const srv = await startServer({ port, dbPath, databaseUrl, host, publicBaseUrl: values['public-url'], buildClient: true });
   const stop = () => {
     // Cancel queued and running runs (their worker threads stop), then close the listener and the database.
-    void srv
-      .close()
-      .then(() => process.exit(0));
+    void srv.close().then(() => process.exit(0));
   };
   process.once('SIGINT', stop);
   process.once('SIGTERM', stop);

@@ -64,15 +64,35 @@ const round = (v: number, d = 6) => (Number.isFinite(v) ? Number(v.toPrecision(d
 export async function simulate(argv: string[]): Promise<number> {
   const t0 = performance.now();
   const { values: a } = parseVerbArgs('simulate', argv, OPTIONS);
-  if (a.help) { process.stdout.write(HELP); return 0; }
+  if (a.help) {
+    process.stdout.write(HELP);
+    return 0;
+  }
   if (a.points === undefined) throw new InputError('--points is required', [{ field: 'points', problem: 'missing' }], 'bad_option');
   if (a.realizations === undefined) throw new InputError('--realizations is required', [{ field: 'realizations', problem: 'missing' }], 'bad_option');
-  if (a.seed === undefined) throw new InputError('--seed is required (the same seed gives the same realizations)', [{ field: 'seed', problem: 'missing' }], 'bad_option');
+  if (a.seed === undefined)
+    throw new InputError('--seed is required (the same seed gives the same realizations)', [{ field: 'seed', problem: 'missing' }], 'bad_option');
   if (a.trend !== 'none') throw new InputError(`--trend ${a.trend} is not available; only none`, [{ field: 'trend', problem: 'expected none' }], 'bad_option');
-  if (a.transform !== 'normal-score' && a.transform !== 'none') throw new InputError(`--transform must be normal-score or none, got ${a.transform}`, [{ field: 'transform', problem: 'expected normal-score or none' }], 'bad_option');
-  if ((a.at === undefined) === (a['out-dir'] === undefined)) throw new InputError('give either --at T.geojson or --out-dir DIR (a grid)', [{ field: a.at === undefined ? 'out-dir' : 'at', problem: 'expected exactly one of --at and --out-dir' }], 'bad_option');
-  if (a.at !== undefined && (a['cell-km'] !== undefined || a.size !== undefined || a.bbox !== undefined)) throw new InputError('--cell-km, --size and --bbox describe a grid; they do not go with --at', [{ field: 'at', problem: 'drop the grid options or --at' }], 'bad_option');
-  if (a['cell-km'] !== undefined && a.size !== undefined) throw new InputError('give --cell-km or --size, not both', [{ field: 'size', problem: 'conflicts with --cell-km' }], 'bad_option');
+  if (a.transform !== 'normal-score' && a.transform !== 'none')
+    throw new InputError(
+      `--transform must be normal-score or none, got ${a.transform}`,
+      [{ field: 'transform', problem: 'expected normal-score or none' }],
+      'bad_option',
+    );
+  if ((a.at === undefined) === (a['out-dir'] === undefined))
+    throw new InputError(
+      'give either --at T.geojson or --out-dir DIR (a grid)',
+      [{ field: a.at === undefined ? 'out-dir' : 'at', problem: 'expected exactly one of --at and --out-dir' }],
+      'bad_option',
+    );
+  if (a.at !== undefined && (a['cell-km'] !== undefined || a.size !== undefined || a.bbox !== undefined))
+    throw new InputError(
+      '--cell-km, --size and --bbox describe a grid; they do not go with --at',
+      [{ field: 'at', problem: 'drop the grid options or --at' }],
+      'bad_option',
+    );
+  if (a['cell-km'] !== undefined && a.size !== undefined)
+    throw new InputError('give --cell-km or --size, not both', [{ field: 'size', problem: 'conflicts with --cell-km' }], 'bad_option');
   const field = a.field;
   const warnings: string[] = [];
 
@@ -97,24 +117,42 @@ export async function simulate(argv: string[]): Promise<number> {
   };
   const readMs = performance.now() - t0;
   const common = (r: SimulationResult) => ({
-    field, units, realizationsCount: r.realizations, seed: opts.seed,
-    variogram: r.variogram, transform: r.transform, trend: 'none', sampler: r.sampler, conditioning: r.conditioning,
+    field,
+    units,
+    realizationsCount: r.realizations,
+    seed: opts.seed,
+    variogram: r.variogram,
+    transform: r.transform,
+    trend: 'none',
+    sampler: r.sampler,
+    conditioning: r.conditioning,
     crossValidation: r.crossValidation === null ? null : { ...r.crossValidation, residuals: undefined, units: 'normal score' },
   });
 
   if (a.at !== undefined) {
     const targets = targetsFromGeoJson(parseJson(await readText(a.at, 'at'), a.at), a.at);
     const r = simulateAtPoints(points, opts, targets);
-    const T = r.targets, R = r.realizations;
+    const T = r.targets,
+      R = r.realizations;
     const realizations: (number | null)[][] = [];
     for (let k = 0; k < R; k++) {
       const row: (number | null)[] = new Array<number | null>(T);
-      for (let t = 0; t < T; t++) { const v = r.values[k * T + t]; row[t] = Number.isFinite(v) ? v : null; }
+      for (let t = 0; t < T; t++) {
+        const v = r.values[k * T + t];
+        row[t] = Number.isFinite(v) ? v : null;
+      }
       realizations.push(row);
     }
     const s = summarizeTargets(r.values, R, T);
     const body = {
-      targets: targets.ids.map((id, t) => ({ id, mean: round(s.mean[t]), sd: round(s.sd[t]), p10: round(s.p10[t]), p50: round(s.p50[t]), p90: round(s.p90[t]) })),
+      targets: targets.ids.map((id, t) => ({
+        id,
+        mean: round(s.mean[t]),
+        sd: round(s.sd[t]),
+        p10: round(s.p10[t]),
+        p50: round(s.p50[t]),
+        p90: round(s.p90[t]),
+      })),
       realizations,
       ...common(r),
       caution: CAUTION,
@@ -136,21 +174,48 @@ export async function simulate(argv: string[]): Promise<number> {
   const bbox = bboxOption(a.bbox);
   const crs = a.crs ?? 'EPSG:4326';
   const crsDef = await loadCrsDefinition(crs);
-  opts.grid = { bbox, cellKm: a['cell-km'] === undefined ? undefined : numberOption('cell-km', a['cell-km']), size, crs: crsDef === WGS84_DEF ? 'EPSG:4326' : crs, crsDef };
+  opts.grid = {
+    bbox,
+    cellKm: a['cell-km'] === undefined ? undefined : numberOption('cell-km', a['cell-km']),
+    size,
+    crs: crsDef === WGS84_DEF ? 'EPSG:4326' : crs,
+    crsDef,
+  };
   const r = simulateGrid(points, opts);
   const tsum = performance.now();
   const s = summarizeTargets(r.values, r.realizations, r.targets);
   const summaryMs = performance.now() - tsum;
   const dir = a['out-dir']!;
-  await mkdir(dir, { recursive: true }).catch((e: NodeJS.ErrnoException) => { throw new InputError(`cannot create --out-dir ${dir}`, [{ field: 'out-dir', problem: e.code ?? String(e) }], 'bad_option'); });
+  await mkdir(dir, { recursive: true }).catch((e: NodeJS.ErrnoException) => {
+    throw new InputError(`cannot create --out-dir ${dir}`, [{ field: 'out-dir', problem: e.code ?? String(e) }], 'bad_option');
+  });
   const provenance = {
-    tool: TOOL_NAME, version: VERSION, verb: 'simulate', field, units, realizations: r.realizations, seed: opts.seed,
-    variogram: { model: r.variogram.model, nugget: r.variogram.nugget, partialSill: r.variogram.partialSill, rangeKm: r.variogram.rangeKm, anisotropy: r.variogram.anisotropy, space: r.transform.kind === 'normal-score' ? 'normal score' : units },
-    transform: r.transform.kind, sampler: r.sampler.kind, inputSha256, created: new Date().toISOString(),
+    tool: TOOL_NAME,
+    version: VERSION,
+    verb: 'simulate',
+    field,
+    units,
+    realizations: r.realizations,
+    seed: opts.seed,
+    variogram: {
+      model: r.variogram.model,
+      nugget: r.variogram.nugget,
+      partialSill: r.variogram.partialSill,
+      rangeKm: r.variogram.rangeKm,
+      anisotropy: r.variogram.anisotropy,
+      space: r.transform.kind === 'normal-score' ? 'normal score' : units,
+    },
+    transform: r.transform.kind,
+    sampler: r.sampler.kind,
+    inputSha256,
+    created: new Date().toISOString(),
   };
   const products: [string, Float32Array, string][] = [
-    ['mean', s.mean, 'mean of the realizations'], ['sd', s.sd, 'standard deviation of the realizations'],
-    ['p10', s.p10, 'P10 of the realizations'], ['p50', s.p50, 'P50 (median) of the realizations'], ['p90', s.p90, 'P90 of the realizations'],
+    ['mean', s.mean, 'mean of the realizations'],
+    ['sd', s.sd, 'standard deviation of the realizations'],
+    ['p10', s.p10, 'P10 of the realizations'],
+    ['p50', s.p50, 'P50 (median) of the realizations'],
+    ['p90', s.p90, 'P90 of the realizations'],
   ];
   // Write every file under a temporary name, then rename them all: no half set of outputs on failure.
   const tw = performance.now();
@@ -159,7 +224,15 @@ export async function simulate(argv: string[]): Promise<number> {
     for (const [suffix, values, what] of products) {
       const name = join(dir, `${field}.${suffix}.tif`);
       const tmp = `${name}.partial-${process.pid}`;
-      await writeFile(tmp, Buffer.from(writeGeoTiff({ ...r.grid, values, units }, { description: `${field} (${units || 'value'}), ${what}, ${r.realizations} conditional realizations`, metadata: provenance })));
+      await writeFile(
+        tmp,
+        Buffer.from(
+          writeGeoTiff(
+            { ...r.grid, values, units },
+            { description: `${field} (${units || 'value'}), ${what}, ${r.realizations} conditional realizations`, metadata: provenance },
+          ),
+        ),
+      );
       written.push([tmp, name]);
     }
     for (const [tmp, name] of written) await rename(tmp, name);
@@ -168,11 +241,25 @@ export async function simulate(argv: string[]): Promise<number> {
     throw e;
   }
   const files = written.map(([, n]) => n);
-  const stats = (v: Float32Array) => { let mn = Infinity, mx = -Infinity, sum = 0, n = 0; for (const x of v) if (x === x) { mn = Math.min(mn, x); mx = Math.max(mx, x); sum += x; n++; } return { min: n > 0 ? round(mn) : null, max: n > 0 ? round(mx) : null, mean: n > 0 ? round(sum / n) : null }; };
+  const stats = (v: Float32Array) => {
+    let mn = Infinity,
+      mx = -Infinity,
+      sum = 0,
+      n = 0;
+    for (const x of v)
+      if (x === x) {
+        mn = Math.min(mn, x);
+        mx = Math.max(mx, x);
+        sum += x;
+        n++;
+      }
+    return { min: n > 0 ? round(mn) : null, max: n > 0 ? round(mx) : null, mean: n > 0 ? round(sum / n) : null };
+  };
   const g = r.grid;
   const body = {
     grid: { nx: g.width, ny: g.height, bbox: [g.west, g.north - g.height * g.dy, g.west + g.width * g.dx, g.north], crs: g.crs, cellKm: r.cellKm, units },
-    mean: stats(s.mean), sd: stats(s.sd),
+    mean: stats(s.mean),
+    sd: stats(s.sd),
     ...common(r),
     files,
     caution: CAUTION,
@@ -181,7 +268,9 @@ export async function simulate(argv: string[]): Promise<number> {
   };
   if (a.json) process.stdout.write(JSON.stringify(body) + '\n');
   else {
-    process.stdout.write(`${r.realizations} realizations of ${field} on ${g.width} × ${g.height} cells (${r.cellKm.toFixed(3)} km); mean ${body.mean.mean}, sd ${body.sd.mean} ${units}\n`);
+    process.stdout.write(
+      `${r.realizations} realizations of ${field} on ${g.width} × ${g.height} cells (${r.cellKm.toFixed(3)} km); mean ${body.mean.mean}, sd ${body.sd.mean} ${units}\n`,
+    );
     for (const f of files) process.stdout.write(`wrote ${f}\n`);
     for (const w of body.warnings) process.stdout.write(`warning: ${w}\n`);
     process.stdout.write(CAUTION + '\n');

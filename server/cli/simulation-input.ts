@@ -87,15 +87,26 @@ export async function readSimulationPoints(a: SimulationArgs): Promise<{ points:
 
 /** The simulation options from the shared flags (realizations, seed and budget are the verb's). */
 export function simulationOptionsFromArgs(a: SimulationArgs, realizations: number, seed: number, units: string): SimulationOptions {
-  if ((a.trend ?? 'none') !== 'none') throw new InputError(`--trend ${a.trend} is not available; only none`, [{ field: 'trend', problem: 'expected none' }], 'bad_option');
+  if ((a.trend ?? 'none') !== 'none')
+    throw new InputError(`--trend ${a.trend} is not available; only none`, [{ field: 'trend', problem: 'expected none' }], 'bad_option');
   const transform = a.transform ?? 'normal-score';
-  if (transform !== 'normal-score' && transform !== 'none') throw new InputError(`--transform must be normal-score or none, got ${transform}`, [{ field: 'transform', problem: 'expected normal-score or none' }], 'bad_option');
+  if (transform !== 'normal-score' && transform !== 'none')
+    throw new InputError(
+      `--transform must be normal-score or none, got ${transform}`,
+      [{ field: 'transform', problem: 'expected normal-score or none' }],
+      'bad_option',
+    );
   let neighbors: number | 'all' | undefined;
   if (a.neighbors !== undefined) {
     if (a.neighbors === 'all') neighbors = 'all';
     else {
       neighbors = numberOption('neighbors', a.neighbors);
-      if (!(Number.isInteger(neighbors) && neighbors >= 1)) throw new InputError(`--neighbors must be a positive integer or "all", got ${a.neighbors}`, [{ field: 'neighbors', problem: 'expected ≥ 1' }], 'bad_option');
+      if (!(Number.isInteger(neighbors) && neighbors >= 1))
+        throw new InputError(
+          `--neighbors must be a positive integer or "all", got ${a.neighbors}`,
+          [{ field: 'neighbors', problem: 'expected ≥ 1' }],
+          'bad_option',
+        );
     }
   }
   return {
@@ -114,7 +125,8 @@ export function simulationOptionsFromArgs(a: SimulationArgs, realizations: numbe
 
 /** The output grid from --cell-km, --size, --bbox and --crs. */
 export async function gridOptionsFromArgs(a: SimulationArgs): Promise<OutputGridOptions> {
-  if (a['cell-km'] !== undefined && a.size !== undefined) throw new InputError('give --cell-km or --size, not both', [{ field: 'size', problem: 'conflicts with --cell-km' }], 'bad_option');
+  if (a['cell-km'] !== undefined && a.size !== undefined)
+    throw new InputError('give --cell-km or --size, not both', [{ field: 'size', problem: 'conflicts with --cell-km' }], 'bad_option');
   let size: [number, number] | undefined;
   if (a.size !== undefined) {
     const m = /^(\d+)x(\d+)$/i.exec(a.size.trim());
@@ -124,10 +136,21 @@ export async function gridOptionsFromArgs(a: SimulationArgs): Promise<OutputGrid
   let bbox: [number, number, number, number] | undefined;
   if (a.bbox !== undefined) {
     const b = numberListOption('bbox', a.bbox, []);
-    if (b.length !== 4) throw new InputError(`--bbox needs 4 numbers W,S,E,N, got ${b.length}`, [{ field: 'bbox', problem: 'expected west,south,east,north in degrees' }], 'bad_option');
+    if (b.length !== 4)
+      throw new InputError(
+        `--bbox needs 4 numbers W,S,E,N, got ${b.length}`,
+        [{ field: 'bbox', problem: 'expected west,south,east,north in degrees' }],
+        'bad_option',
+      );
     bbox = b as [number, number, number, number];
   }
   const crs = a.crs ?? 'EPSG:4326';
   const crsDef = await loadCrsDefinition(crs);
-  return { bbox, cellKm: a['cell-km'] === undefined ? undefined : numberOption('cell-km', a['cell-km']), size, crs: crsDef === WGS84_DEF ? 'EPSG:4326' : crs, crsDef };
+  return {
+    bbox,
+    cellKm: a['cell-km'] === undefined ? undefined : numberOption('cell-km', a['cell-km']),
+    size,
+    crs: crsDef === WGS84_DEF ? 'EPSG:4326' : crs,
+    crsDef,
+  };
 }

@@ -73,16 +73,27 @@ const sha256 = (b: Buffer) => createHash('sha256').update(b).digest('hex');
 /** Parses --correction none | offset:C | poly:a0,a1,... */
 function correctionOption(raw: string | undefined, source: string | undefined, sdRaw: string | undefined): BhtCorrection {
   const sdC = sdRaw === undefined ? undefined : numberOption('correction-sd-c', sdRaw);
-  if (sdC !== undefined && !(sdC > 0)) throw new InputError('--correction-sd-c must be > 0 °C', [{ field: 'correction-sd-c', problem: `got ${sdRaw}` }], 'bad_option');
+  if (sdC !== undefined && !(sdC > 0))
+    throw new InputError('--correction-sd-c must be > 0 °C', [{ field: 'correction-sd-c', problem: `got ${sdRaw}` }], 'bad_option');
   if (raw === undefined || raw === 'none') return { method: 'none', sdC };
   if (raw === 'harrison1983' || raw === 'waples2004') return { method: raw, sdC };
   const m = /^(offset|poly):(.+)$/.exec(raw);
-  if (!m) throw new InputError(`--correction must be none, offset:C, poly:a0,a1,a2, harrison1983 or waples2004, got "${raw}"`, [{ field: 'correction', problem: `got "${raw}"` }], 'bad_option');
+  if (!m)
+    throw new InputError(
+      `--correction must be none, offset:C, poly:a0,a1,a2, harrison1983 or waples2004, got "${raw}"`,
+      [{ field: 'correction', problem: `got "${raw}"` }],
+      'bad_option',
+    );
   if (m[1] === 'offset') return { method: 'offset', offsetC: numberOption('correction', m[2]), sdC, source };
   const coefficients = numberListOption('correction', m[2], []);
-  if (coefficients.length > 6) throw new InputError('--correction poly takes at most 6 coefficients', [{ field: 'correction', problem: `got ${coefficients.length}` }], 'bad_option');
+  if (coefficients.length > 6)
+    throw new InputError('--correction poly takes at most 6 coefficients', [{ field: 'correction', problem: `got ${coefficients.length}` }], 'bad_option');
   if (source === undefined || source.trim() === '') {
-    throw new InputError('--correction poly needs --correction-source naming where the coefficients come from', [{ field: 'correction-source', problem: 'missing' }], 'bad_option');
+    throw new InputError(
+      '--correction poly needs --correction-source naming where the coefficients come from',
+      [{ field: 'correction-source', problem: 'missing' }],
+      'bad_option',
+    );
   }
   return { method: 'poly', coefficients, source, sdC };
 }
@@ -91,12 +102,19 @@ function correctionOption(raw: string | undefined, source: string | undefined, s
 function lithologyOption(raw: string | undefined): Record<string, number> | undefined {
   if (raw === undefined) return undefined;
   const out: Record<string, number> = {};
-  for (const part of raw.split(',').map((s) => s.trim()).filter(Boolean)) {
+  for (const part of raw
+    .split(',')
+    .map((s) => s.trim())
+    .filter(Boolean)) {
     const eq = part.lastIndexOf('=');
     const name = part.slice(0, eq).trim();
     const k = Number(part.slice(eq + 1));
     if (eq <= 0 || name === '' || !(k > 0) || !Number.isFinite(k)) {
-      throw new InputError(`--lithology-k: expected name=conductivity (W/m/K, > 0), got "${part}"`, [{ field: 'lithology-k', problem: `got "${part}"` }], 'bad_option');
+      throw new InputError(
+        `--lithology-k: expected name=conductivity (W/m/K, > 0), got "${part}"`,
+        [{ field: 'lithology-k', problem: `got "${part}"` }],
+        'bad_option',
+      );
     }
     out[name] = k;
   }
@@ -123,7 +141,11 @@ function table(reports: WellReport[]): string {
     ];
   });
   const widths = head.map((h, c) => Math.max(h.length, ...rows.map((r) => r[c].length)));
-  const line = (r: string[]) => r.map((v, c) => v.padEnd(widths[c])).join('  ').trimEnd();
+  const line = (r: string[]) =>
+    r
+      .map((v, c) => v.padEnd(widths[c]))
+      .join('  ')
+      .trimEnd();
   return [line(head), line(widths.map((w) => '-'.repeat(w))), ...rows.map(line)].join('\n');
 }
 
@@ -189,35 +211,41 @@ export async function wells(argv: string[]): Promise<number> {
     opts.surfaceTemperatureC = surfaceOverride ?? cm.surfaceTemperatureC;
     modelLabel = basename(o.model);
   } else if (surfaceOverride !== undefined) opts.surfaceTemperatureC = surfaceOverride;
-  if (opts.surfaceTemperatureC === undefined && !o['no-anchor']) warnings.push('no surface temperature (--surface-temp-c or a model): the fits are not anchored at the surface');
+  if (opts.surfaceTemperatureC === undefined && !o['no-anchor'])
+    warnings.push('no surface temperature (--surface-temp-c or a model): the fits are not anchored at the surface');
   opts.anchor = !o['no-anchor'];
   if (o['anchor-sd-c'] !== undefined) {
     opts.anchorSdC = numberOption('anchor-sd-c', o['anchor-sd-c']);
-    if (!(opts.anchorSdC > 0)) throw new InputError('--anchor-sd-c must be > 0 °C', [{ field: 'anchor-sd-c', problem: `got ${o['anchor-sd-c']}` }], 'bad_option');
+    if (!(opts.anchorSdC > 0))
+      throw new InputError('--anchor-sd-c must be > 0 °C', [{ field: 'anchor-sd-c', problem: `got ${o['anchor-sd-c']}` }], 'bad_option');
   }
   opts.bht = correctionOption(o.correction, o['correction-source'], o['correction-sd-c']);
   const c0 = opts.bht;
   if (o['horner-tolerance-m'] !== undefined) {
     opts.hornerToleranceM = numberOption('horner-tolerance-m', o['horner-tolerance-m']);
-    if (!(opts.hornerToleranceM >= 0)) throw new InputError('--horner-tolerance-m must be ≥ 0 m', [{ field: 'horner-tolerance-m', problem: `got ${o['horner-tolerance-m']}` }], 'bad_option');
+    if (!(opts.hornerToleranceM >= 0))
+      throw new InputError('--horner-tolerance-m must be ≥ 0 m', [{ field: 'horner-tolerance-m', problem: `got ${o['horner-tolerance-m']}` }], 'bad_option');
   }
   if (o['conductivity-wmk'] !== undefined) {
     opts.conductivityWmK = numberOption('conductivity-wmk', o['conductivity-wmk']);
-    if (!(opts.conductivityWmK > 0)) throw new InputError('--conductivity-wmk must be > 0 W/m/K', [{ field: 'conductivity-wmk', problem: `got ${o['conductivity-wmk']}` }], 'bad_option');
-    if (opts.model) warnings.push('--conductivity-wmk replaces the model\'s layers as the conductivity of wells without a column of their own');
+    if (!(opts.conductivityWmK > 0))
+      throw new InputError('--conductivity-wmk must be > 0 W/m/K', [{ field: 'conductivity-wmk', problem: `got ${o['conductivity-wmk']}` }], 'bad_option');
+    if (opts.model) warnings.push("--conductivity-wmk replaces the model's layers as the conductivity of wells without a column of their own");
   }
   opts.lithologyConductivity = lithologyOption(o['lithology-k']);
   if (o['heat-flow'] !== undefined) {
     opts.checkHeatFlowMWm2 = numberOption('heat-flow', o['heat-flow']);
-    if (!(opts.checkHeatFlowMWm2 > 0)) throw new InputError('--heat-flow must be > 0 mW/m²', [{ field: 'heat-flow', problem: `got ${o['heat-flow']}` }], 'bad_option');
+    if (!(opts.checkHeatFlowMWm2 > 0))
+      throw new InputError('--heat-flow must be > 0 mW/m²', [{ field: 'heat-flow', problem: `got ${o['heat-flow']}` }], 'bad_option');
     if (!opts.model) warnings.push('--heat-flow is only used for the model check, and no --model was given');
   }
   if (o.outliers !== undefined) {
-    if (o.outliers !== 'flag' && o.outliers !== 'exclude') throw new InputError(`--outliers must be flag or exclude, got "${o.outliers}"`, [{ field: 'outliers', problem: `got "${o.outliers}"` }], 'bad_option');
+    if (o.outliers !== 'flag' && o.outliers !== 'exclude')
+      throw new InputError(`--outliers must be flag or exclude, got "${o.outliers}"`, [{ field: 'outliers', problem: `got "${o.outliers}"` }], 'bad_option');
     opts.outliers = o.outliers;
   }
   if (opts.model && !Number.isFinite(opts.model.surfaceHeatFlowMWm2) && opts.checkHeatFlowMWm2 === undefined) {
-    warnings.push('the model has no surfaceHeatFlowMWm2 and no --heat-flow was given: the model check runs at each well\'s own heat flow only');
+    warnings.push("the model has no surfaceHeatFlowMWm2 and no --heat-flow was given: the model check runs at each well's own heat flow only");
   }
 
   opts.heatFlowCorrections = await correctionOptions(o);
@@ -225,7 +253,8 @@ export async function wells(argv: string[]): Promise<number> {
     const b = readInput(o.terrain, 'terrain');
     inputs.push({ role: 'terrain', file: basename(o.terrain), sha256: sha256(b) });
   }
-  if (c0.method === 'waples2004' && opts.surfaceTemperatureC === undefined) warnings.push('--correction waples2004 needs a surface temperature (--surface-temp-c or a model); BHTs stay uncorrected');
+  if (c0.method === 'waples2004' && opts.surfaceTemperatureC === undefined)
+    warnings.push('--correction waples2004 needs a surface temperature (--surface-temp-c or a model); BHTs stay uncorrected');
   const result = analyzeWells(wellInputs, opts);
   warnings.push(...result.warnings);
   const c = opts.bht;
@@ -233,12 +262,23 @@ export async function wells(argv: string[]): Promise<number> {
     tool: TOOL_NAME,
     version: VERSION,
     method:
-      'BHT: Horner extrapolation for ≥ 3 timed BHTs within ' + `${opts.hornerToleranceM ?? HORNER_DEPTH_TOLERANCE_M} m; otherwise ` +
-      (c.method === 'none' ? 'uncorrected' : c.method === 'offset' ? `offset ${c.offsetC} °C${c.source ? ` (${c.source})` : ''}` : c.method === 'poly' ? `polynomial ΔT = Σ aᵢ·zKmⁱ, a = [${c.coefficients.join(', ')}] (${c.source})` : EMPIRICAL_BHT[c.method].source) +
+      'BHT: Horner extrapolation for ≥ 3 timed BHTs within ' +
+      `${opts.hornerToleranceM ?? HORNER_DEPTH_TOLERANCE_M} m; otherwise ` +
+      (c.method === 'none'
+        ? 'uncorrected'
+        : c.method === 'offset'
+          ? `offset ${c.offsetC} °C${c.source ? ` (${c.source})` : ''}`
+          : c.method === 'poly'
+            ? `polynomial ΔT = Σ aᵢ·zKmⁱ, a = [${c.coefficients.join(', ')}] (${c.source})`
+            : EMPIRICAL_BHT[c.method].source) +
       `; gradient: weighted least squares${opts.anchor && opts.surfaceTemperatureC !== undefined ? `, anchored at ${opts.surfaceTemperatureC} °C` : ''}` +
       '; heat flow: Bullard slope where the well has a conductivity column, else gradient × harmonic-mean conductivity' +
-      (opts.heatFlowCorrections?.paleoclimate ? `; paleoclimatic correction: ΔT·erfc(z/2√(κt)) steps ${JSON.stringify(opts.heatFlowCorrections.paleoclimate.steps)}, κ = ${opts.heatFlowCorrections.paleoclimate.diffusivityM2s} m²/s` : '') +
-      (opts.heatFlowCorrections?.topography ? `; topographic correction: reference plane (Birch 1950), lapse rate ${opts.heatFlowCorrections.topography.lapseRateCPerKm} °C/km` : ''),
+      (opts.heatFlowCorrections?.paleoclimate
+        ? `; paleoclimatic correction: ΔT·erfc(z/2√(κt)) steps ${JSON.stringify(opts.heatFlowCorrections.paleoclimate.steps)}, κ = ${opts.heatFlowCorrections.paleoclimate.diffusivityM2s} m²/s`
+        : '') +
+      (opts.heatFlowCorrections?.topography
+        ? `; topographic correction: reference plane (Birch 1950), lapse rate ${opts.heatFlowCorrections.topography.lapseRateCPerKm} °C/km`
+        : ''),
     model: modelLabel,
     inputs,
   };
@@ -252,15 +292,41 @@ export async function wells(argv: string[]): Promise<number> {
     files.push(o.out);
   }
   const corrections: SiteCorrectionReport[] | undefined = opts.heatFlowCorrections
-    ? result.reports.filter((r) => r.heatFlow).map((r) => {
-        const h = r.heatFlow!;
-        return { id: r.id, source: 'well', status: h.corrections ? 'corrected' : 'not-applicable', ...(h.corrections ? {} : { reason: r.flags.find((f) => f.code === 'heat-flow-correction-failed')?.message ?? 'not corrected' }), rawHeatFlowMWm2: h.uncorrectedHeatFlowMWm2, correctedHeatFlowMWm2: h.heatFlowMWm2, interval: h.corrections, units: CORRECTION_UNITS };
-      })
+    ? result.reports
+        .filter((r) => r.heatFlow)
+        .map((r) => {
+          const h = r.heatFlow!;
+          return {
+            id: r.id,
+            source: 'well',
+            status: h.corrections ? 'corrected' : 'not-applicable',
+            ...(h.corrections ? {} : { reason: r.flags.find((f) => f.code === 'heat-flow-correction-failed')?.message ?? 'not corrected' }),
+            rawHeatFlowMWm2: h.uncorrectedHeatFlowMWm2,
+            correctedHeatFlowMWm2: h.heatFlowMWm2,
+            interval: h.corrections,
+            units: CORRECTION_UNITS,
+          };
+        })
     : undefined;
   if (o.json) {
-    process.stdout.write(JSON.stringify({ sites: result.sites.features.length, wells: result.reports, ...(corrections ? { corrections } : {}), files, warnings, provenance, caution: CAUTION }) + '\n');
+    process.stdout.write(
+      JSON.stringify({
+        sites: result.sites.features.length,
+        wells: result.reports,
+        ...(corrections ? { corrections } : {}),
+        files,
+        warnings,
+        provenance,
+        caution: CAUTION,
+      }) + '\n',
+    );
   } else {
-    const lines = [table(result.reports), ...(corrections ? ['', 'heat-flow corrections:', correctionTable(corrections)] : []), '', `${result.sites.features.length} heat-flow site${result.sites.features.length === 1 ? '' : 's'} from ${result.reports.length} well${result.reports.length === 1 ? '' : 's'}`];
+    const lines = [
+      table(result.reports),
+      ...(corrections ? ['', 'heat-flow corrections:', correctionTable(corrections)] : []),
+      '',
+      `${result.sites.features.length} heat-flow site${result.sites.features.length === 1 ? '' : 's'} from ${result.reports.length} well${result.reports.length === 1 ? '' : 's'}`,
+    ];
     if (files.length > 0) lines.push(`wrote ${files.join(', ')}`);
     if (warnings.length > 0) lines.push('', 'warnings:', ...warnings.map((w) => `  ${w}`));
     lines.push('', CAUTION);

@@ -64,23 +64,44 @@ interface Level {
 
 /** One overview: half the size (rounded up), by the mean of the data cells of each 2 × 2 block or by its NW cell. */
 export function halveGrid(src: Level, resampling: 'average' | 'nearest', out?: Float32Array): Level {
-  const w = Math.ceil(src.width / 2), h = Math.ceil(src.height / 2);
+  const w = Math.ceil(src.width / 2),
+    h = Math.ceil(src.height / 2);
   const o = out ?? new Float32Array(w * h);
-  const v = src.values, sw = src.width, sh = src.height;
+  const v = src.values,
+    sw = src.width,
+    sh = src.height;
   for (let r = 0; r < h; r++) {
-    const r0 = 2 * r, r1 = Math.min(sh - 1, r0 + 1);
+    const r0 = 2 * r,
+      r1 = Math.min(sh - 1, r0 + 1);
     for (let c = 0; c < w; c++) {
-      const c0 = 2 * c, c1 = Math.min(sw - 1, c0 + 1);
+      const c0 = 2 * c,
+        c1 = Math.min(sw - 1, c0 + 1);
       if (resampling === 'nearest') {
         o[r * w + c] = v[r0 * sw + c0];
         continue;
       }
-      let s = 0, n = 0;
-      const a = v[r0 * sw + c0], b = v[r0 * sw + c1], d = v[r1 * sw + c0], e = v[r1 * sw + c1];
-      if (a - a === 0) { s += a; n++; }
-      if (c1 !== c0 && b - b === 0) { s += b; n++; }
-      if (r1 !== r0 && d - d === 0) { s += d; n++; }
-      if (c1 !== c0 && r1 !== r0 && e - e === 0) { s += e; n++; }
+      let s = 0,
+        n = 0;
+      const a = v[r0 * sw + c0],
+        b = v[r0 * sw + c1],
+        d = v[r1 * sw + c0],
+        e = v[r1 * sw + c1];
+      if (a - a === 0) {
+        s += a;
+        n++;
+      }
+      if (c1 !== c0 && b - b === 0) {
+        s += b;
+        n++;
+      }
+      if (r1 !== r0 && d - d === 0) {
+        s += d;
+        n++;
+      }
+      if (c1 !== c0 && r1 !== r0 && e - e === 0) {
+        s += e;
+        n++;
+      }
       o[r * w + c] = n > 0 ? s / n : NaN;
     }
   }
@@ -103,9 +124,20 @@ function pyramid(full: Level, tileSize: number, resampling: 'average' | 'nearest
  * as 4 byte planes (most significant first), each row differenced byte by byte. `out` has tileSize² · 4 bytes,
  * `row` tileSize floats. Self-contained (no imports, no closures): the worker threads run its source text.
  */
-export function packTileFp(values: Float32Array | Float64Array, width: number, height: number, tx: number, ty: number, ts: number, nodata: number, out: Uint8Array, row: Float32Array): void {
+export function packTileFp(
+  values: Float32Array | Float64Array,
+  width: number,
+  height: number,
+  tx: number,
+  ty: number,
+  ts: number,
+  nodata: number,
+  out: Uint8Array,
+  row: Float32Array,
+): void {
   const rb = new Uint8Array(row.buffer, row.byteOffset, ts * 4);
-  const x0 = tx * ts, y0 = ty * ts;
+  const x0 = tx * ts,
+    y0 = ty * ts;
   const nx = Math.min(ts, width - x0);
   for (let r = 0; r < ts; r++) {
     const y = y0 + r;
@@ -138,7 +170,10 @@ function tilesAcross(l: { width: number; height: number }, ts: number): { nx: nu
 // ---------------------------------------------------------------------------------------------------------------
 // IFDs.
 
-const SHORT = 3, LONG = 4, DOUBLE = 12, ASCII = 2;
+const SHORT = 3,
+  LONG = 4,
+  DOUBLE = 12,
+  ASCII = 2;
 const TYPE_BYTES: Record<number, number> = { [SHORT]: 2, [LONG]: 4, [DOUBLE]: 8, [ASCII]: 1 };
 
 interface Entry {
@@ -179,9 +214,18 @@ function levelEntries(l: Level, index: number, ts: number, opts: CogOptions, off
     const g = opts.geo;
     e.push({ tag: 33550, type: DOUBLE, values: [g.dx, g.dy, 0] });
     e.push({ tag: 33922, type: DOUBLE, values: [0, 0, 0, g.west, g.north, 0] });
-    const keys = g.epsg === 4326
-      ? [[1024, 2], [1025, 1], [2048, 4326]] // ModelTypeGeographic, RasterPixelIsArea, GCS_WGS_84
-      : [[1024, 1], [1025, 1], [3072, g.epsg]]; // ModelTypeProjected, RasterPixelIsArea, ProjectedCSType
+    const keys =
+      g.epsg === 4326
+        ? [
+            [1024, 2],
+            [1025, 1],
+            [2048, 4326],
+          ] // ModelTypeGeographic, RasterPixelIsArea, GCS_WGS_84
+        : [
+            [1024, 1],
+            [1025, 1],
+            [3072, g.epsg],
+          ]; // ModelTypeProjected, RasterPixelIsArea, ProjectedCSType
     const dir = [1, 1, 0, keys.length];
     for (const [k, v] of keys) dir.push(k, 0, 1, v);
     e.push({ tag: 34735, type: SHORT, values: dir });
@@ -224,7 +268,10 @@ function buildHeader(levels: Level[], ts: number, opts: CogOptions, offsets: Uin
   for (const entries of perLevel) for (const e of entries) if (e.late && TYPE_BYTES[e.type] * e.values.length > 4) pos += TYPE_BYTES[e.type] * e.values.length;
   const out = new Uint8Array(pos);
   const dv = new DataView(out.buffer);
-  out[0] = 0x49; out[1] = 0x49; dv.setUint16(2, 42, true); dv.setUint32(4, ifdAt[0], true);
+  out[0] = 0x49;
+  out[1] = 0x49;
+  dv.setUint16(2, 42, true);
+  dv.setUint32(4, ifdAt[0], true);
   out.set(new TextEncoder().encode(GHOST), 8);
   // Writing pass.
   let late = 0;
@@ -274,7 +321,10 @@ function checkOptions(width: number, height: number, opts: CogOptions): number {
 
 /** Where each tile lands: data offsets per level given the compressed sizes, in COG order (smallest level first). */
 function placeTiles(levels: Level[], ts: number, headerBytes: number, sizes: Uint32Array[]): Uint32Array[] {
-  const offsets = levels.map((l) => { const { nx, ny } = tilesAcross(l, ts); return new Uint32Array(nx * ny); });
+  const offsets = levels.map((l) => {
+    const { nx, ny } = tilesAcross(l, ts);
+    return new Uint32Array(nx * ny);
+  });
   let pos = headerBytes;
   for (let i = levels.length - 1; i >= 0; i--) {
     for (let t = 0; t < sizes[i].length; t++) {
@@ -294,7 +344,10 @@ function leaderTrailer(data: Uint8Array): { leader: Uint8Array; trailer: Uint8Ar
 }
 
 function emptyArrays(levels: Level[], ts: number): Uint32Array[] {
-  return levels.map((l) => { const { nx, ny } = tilesAcross(l, ts); return new Uint32Array(nx * ny); });
+  return levels.map((l) => {
+    const { nx, ny } = tilesAcross(l, ts);
+    return new Uint32Array(nx * ny);
+  });
 }
 
 /** Encodes a single-band grid (row-major, row 0 north, NaN = no data) as a COG, compressing on this thread. */
@@ -302,7 +355,8 @@ export function encodeCog(values: Float32Array | Float64Array, width: number, he
   const ts = checkOptions(width, height, opts);
   if (values.length !== width * height) throw new RangeError(`${values.length} values for ${width} × ${height} cells`);
   const levels = pyramid({ width, height, values }, ts, opts.resampling ?? 'average', (n) => new Float32Array(n));
-  const packed = new Uint8Array(ts * ts * 4), row = new Float32Array(ts);
+  const packed = new Uint8Array(ts * ts * 4),
+    row = new Float32Array(ts);
   const tiles: Uint8Array[][] = levels.map(() => []);
   const sizes = emptyArrays(levels, ts);
   for (let i = levels.length - 1; i >= 0; i--) {
@@ -326,7 +380,8 @@ export function encodeCog(values: Float32Array | Float64Array, width: number, he
   out.set(header, 0);
   for (let i = levels.length - 1; i >= 0; i--) {
     for (let t = 0; t < tiles[i].length; t++) {
-      const z = tiles[i][t], at = offsets[i][t];
+      const z = tiles[i][t],
+        at = offsets[i][t];
       const { leader, trailer } = leaderTrailer(z);
       out.set(leader, at - 4);
       out.set(z, at);
@@ -372,12 +427,19 @@ export function cogThreads(): number {
  * threads, written in COG order to `path`.partial as they arrive (at most a few tiles held), then the IFDs in front
  * and the file renamed to `path`. On failure the partial file is removed and nothing is left at `path`.
  */
-export async function writeCogFile(path: string, values: Float32Array | Float64Array, width: number, height: number, opts: CogOptions & { threads?: number }): Promise<{ bytes: number }> {
+export async function writeCogFile(
+  path: string,
+  values: Float32Array | Float64Array,
+  width: number,
+  height: number,
+  opts: CogOptions & { threads?: number },
+): Promise<{ bytes: number }> {
   const ts = checkOptions(width, height, opts);
   if (values.length !== width * height) throw new RangeError(`${values.length} values for ${width} × ${height} cells`);
   const shared = (n: number) => new Float32Array(new SharedArrayBuffer(n * 4));
   // Grids filled by worker threads already live in shared memory: the workers read them as they are, no copy.
-  const inShared = values instanceof Float32Array && values.buffer instanceof SharedArrayBuffer && values.byteOffset === 0 && values.length === values.buffer.byteLength / 4;
+  const inShared =
+    values instanceof Float32Array && values.buffer instanceof SharedArrayBuffer && values.byteOffset === 0 && values.length === values.buffer.byteLength / 4;
   const full = inShared ? values : shared(width * height);
   if (!inShared) full.set(values);
   const levels = pyramid({ width, height, values: full }, ts, opts.resampling ?? 'average', shared);
@@ -395,12 +457,20 @@ export async function writeCogFile(path: string, values: Float32Array | Float64A
   try {
     for (let k = 0; k < nThreads; k++) {
       const w = new Worker(WORKER_SOURCE, { eval: true, execArgv: [] });
-      w.postMessage({ type: 'init', levels: levels.map((l) => ({ width: l.width, height: l.height, buffer: (l.values as Float32Array).buffer })), ts, nodata: opts.nodata, level: opts.level ?? 6 });
+      w.postMessage({
+        type: 'init',
+        levels: levels.map((l) => ({ width: l.width, height: l.height, buffer: (l.values as Float32Array).buffer })),
+        ts,
+        nodata: opts.nodata,
+        level: opts.level ?? 6,
+      });
       workers.push(w);
     }
     // Results are written strictly in job order; a small map holds those that finish early.
     const done = new Map<number, Uint8Array>();
-    let next = 0, written = 0, pos = headerBytes;
+    let next = 0,
+      written = 0,
+      pos = headerBytes;
     let failure: unknown = null;
     let writing: Promise<void> = Promise.resolve();
     const flush = async () => {
@@ -419,7 +489,10 @@ export async function writeCogFile(path: string, values: Float32Array | Float64A
     await new Promise<void>((resolve, reject) => {
       let active = 0;
       const fail = (e: unknown) => {
-        if (failure === null) { failure = e; reject(e instanceof Error ? e : new Error(String(e))); }
+        if (failure === null) {
+          failure = e;
+          reject(e instanceof Error ? e : new Error(String(e)));
+        }
       };
       const dispatch = (w: Worker) => {
         if (failure !== null) return;
@@ -441,7 +514,9 @@ export async function writeCogFile(path: string, values: Float32Array | Float64A
           dispatch(w);
         });
         w.on('error', fail);
-        w.on('exit', (code) => { if (code !== 0) fail(new Error(`COG worker exited with code ${code}`)); });
+        w.on('exit', (code) => {
+          if (code !== 0) fail(new Error(`COG worker exited with code ${code}`));
+        });
       }
       for (const w of workers) dispatch(w);
     });

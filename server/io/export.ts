@@ -35,7 +35,12 @@ export function sha256Json(value: unknown): string {
 
 /** Cloud-Optimized GeoTIFF bytes of a product grid with its description and provenance; class grids (codes) take
  * nearest-neighbour overviews. */
-export function geotiffBytes(grid: Grid<Float32Array | Float64Array>, description: string, provenance: Provenance, opts: { classes?: boolean } = {}): Uint8Array {
+export function geotiffBytes(
+  grid: Grid<Float32Array | Float64Array>,
+  description: string,
+  provenance: Provenance,
+  opts: { classes?: boolean } = {},
+): Uint8Array {
   return writeGeoTiff(grid, { description, metadata: { provenance }, classes: opts.classes });
 }
 
@@ -48,7 +53,12 @@ export function vectorsGeoPackage(layers: { name: string; title: string; geojson
   return writeGeoPackage(
     layers.map((l) => {
       const fc = JSON.parse(l.geojson) as GeoJsonCollection & { provenance?: unknown };
-      return { name: l.name, title: l.title, description: fc.provenance === undefined ? l.title : `${l.title}; provenance ${JSON.stringify(fc.provenance)}`, collection: { type: 'FeatureCollection', features: fc.features } };
+      return {
+        name: l.name,
+        title: l.title,
+        description: fc.provenance === undefined ? l.title : `${l.title}; provenance ${JSON.stringify(fc.provenance)}`,
+        collection: { type: 'FeatureCollection', features: fc.features },
+      };
     }),
     { PROVENANCE: JSON.stringify(runProvenance ?? null) },
   );
@@ -116,15 +126,21 @@ export function cellsInPolygonCsv(
   const projected = !/^EPSG:4326$/i.test(g0.crs);
   if (projected && (opts.toGridCrs === undefined || opts.toLonLat === undefined)) throw new RangeError(`a ${g0.crs} grid needs toGridCrs and toLonLat`);
   if (polygon.type !== 'Polygon' && polygon.type !== 'MultiPolygon') {
-    throw new InputError(`cells can be listed inside a Polygon or MultiPolygon, got ${polygon.type}`, [{ field: 'geometry.type', problem: 'expected Polygon or MultiPolygon' }], 'bad_geometry');
+    throw new InputError(
+      `cells can be listed inside a Polygon or MultiPolygon, got ${polygon.type}`,
+      [{ field: 'geometry.type', problem: 'expected Polygon or MultiPolygon' }],
+      'bad_geometry',
+    );
   }
   const rings = ringsOfGeometry(polygon, opts.toGridCrs);
   const cells = cellsInsideRings(g0, rings);
   const lines: string[] = [`# caution: ${CAUTION}`, `# provenance: ${JSON.stringify(provenance)}`];
   lines.push(['longitude', 'latitude', 'row', 'col', ...columns.map((c) => csvField(c.header))].join(','));
   for (const idx of cells) {
-    const row = Math.floor(idx / g0.width), col = idx - row * g0.width;
-    const x = xFromCol(g0, col), y = yFromRow(g0, row);
+    const row = Math.floor(idx / g0.width),
+      col = idx - row * g0.width;
+    const x = xFromCol(g0, col),
+      y = yFromRow(g0, row);
     const [lon, lat] = projected ? opts.toLonLat!(x, y) : [x, y];
     lines.push([lon.toFixed(7), lat.toFixed(7), String(row), String(col), ...columns.map((c) => csvNumber(c.grid.values[idx], c.digits ?? 4))].join(','));
   }

@@ -51,11 +51,29 @@ class ByteWriter {
     this.buf.copy(b, 0, 0, this.length);
     this.buf = b;
   }
-  u8(v: number) { this.room(1); this.buf.writeUInt8(v, this.length); this.length += 1; }
-  u32(v: number) { this.room(4); this.buf.writeUInt32LE(v, this.length); this.length += 4; }
-  i32(v: number) { this.room(4); this.buf.writeInt32LE(v, this.length); this.length += 4; }
-  f64(v: number) { this.room(8); this.buf.writeDoubleLE(v, this.length); this.length += 8; }
-  bytes(): Buffer { return this.buf.subarray(0, this.length); }
+  u8(v: number) {
+    this.room(1);
+    this.buf.writeUInt8(v, this.length);
+    this.length += 1;
+  }
+  u32(v: number) {
+    this.room(4);
+    this.buf.writeUInt32LE(v, this.length);
+    this.length += 4;
+  }
+  i32(v: number) {
+    this.room(4);
+    this.buf.writeInt32LE(v, this.length);
+    this.length += 4;
+  }
+  f64(v: number) {
+    this.room(8);
+    this.buf.writeDoubleLE(v, this.length);
+    this.length += 8;
+  }
+  bytes(): Buffer {
+    return this.buf.subarray(0, this.length);
+  }
 }
 
 function badGeometry(what: string): InputError {
@@ -68,28 +86,55 @@ function writeWkb(w: ByteWriter, g: GeoJsonGeometry, env: number[]): void {
   w.u8(1);
   w.u32(code);
   const pt = (p: Position) => {
-    const x = Number(p[0]), y = Number(p[1]);
-    w.f64(x); w.f64(y);
+    const x = Number(p[0]),
+      y = Number(p[1]);
+    w.f64(x);
+    w.f64(y);
     if (x < env[0]) env[0] = x;
     if (x > env[1]) env[1] = x;
     if (y < env[2]) env[2] = y;
     if (y > env[3]) env[3] = y;
   };
-  const line = (ps: Position[]) => { w.u32(ps.length); for (const p of ps) pt(p); };
-  const poly = (rs: Position[][]) => { w.u32(rs.length); for (const r of rs) line(r); };
+  const line = (ps: Position[]) => {
+    w.u32(ps.length);
+    for (const p of ps) pt(p);
+  };
+  const poly = (rs: Position[][]) => {
+    w.u32(rs.length);
+    for (const r of rs) line(r);
+  };
   const c = g.coordinates as never;
   switch (g.type) {
     case 'Point': {
       const p = c as Position;
-      if (p.length < 2) { w.f64(NaN); w.f64(NaN); } else pt(p);
+      if (p.length < 2) {
+        w.f64(NaN);
+        w.f64(NaN);
+      } else pt(p);
       break;
     }
-    case 'LineString': line(c); break;
-    case 'Polygon': poly(c); break;
-    case 'MultiPoint': w.u32((c as Position[]).length); for (const p of c as Position[]) writeWkb(w, { type: 'Point', coordinates: p }, env); break;
-    case 'MultiLineString': w.u32((c as Position[][]).length); for (const l of c as Position[][]) writeWkb(w, { type: 'LineString', coordinates: l }, env); break;
-    case 'MultiPolygon': w.u32((c as Position[][][]).length); for (const p of c as Position[][][]) writeWkb(w, { type: 'Polygon', coordinates: p }, env); break;
-    case 'GeometryCollection': w.u32(g.geometries?.length ?? 0); for (const s of g.geometries ?? []) writeWkb(w, s, env); break;
+    case 'LineString':
+      line(c);
+      break;
+    case 'Polygon':
+      poly(c);
+      break;
+    case 'MultiPoint':
+      w.u32((c as Position[]).length);
+      for (const p of c as Position[]) writeWkb(w, { type: 'Point', coordinates: p }, env);
+      break;
+    case 'MultiLineString':
+      w.u32((c as Position[][]).length);
+      for (const l of c as Position[][]) writeWkb(w, { type: 'LineString', coordinates: l }, env);
+      break;
+    case 'MultiPolygon':
+      w.u32((c as Position[][][]).length);
+      for (const p of c as Position[][][]) writeWkb(w, { type: 'Polygon', coordinates: p }, env);
+      break;
+    case 'GeometryCollection':
+      w.u32(g.geometries?.length ?? 0);
+      for (const s of g.geometries ?? []) writeWkb(w, s, env);
+      break;
   }
 }
 
@@ -100,7 +145,9 @@ export function gpkgGeometry(g: GeoJsonGeometry, srsId: number): Buffer {
   writeWkb(body, g, env);
   const empty = !(env[0] <= env[1]);
   const head = new ByteWriter();
-  head.u8(0x47); head.u8(0x50); head.u8(0); // "GP", version 0
+  head.u8(0x47);
+  head.u8(0x50);
+  head.u8(0); // "GP", version 0
   head.u8(empty ? 0b10001 : 0b00011); // little-endian; envelope xy (or none and the empty flag)
   head.i32(srsId);
   if (!empty) for (const v of env) head.f64(v);
@@ -126,25 +173,39 @@ export function geometryFromGpkg(blob: Uint8Array, project: (p: Position) => Pos
     if (t & 0x80000000) dims++;
     if (t & 0x40000000) dims++;
     t &= 0x0fffffff;
-    if (t > 1000) { dims += Math.floor(t / 1000) === 3 ? 2 : 1; t %= 1000; }
+    if (t > 1000) {
+      dims += Math.floor(t / 1000) === 3 ? 2 : 1;
+      t %= 1000;
+    }
     const pos = (): Position => {
       const p = [dv.getFloat64(o, le), dv.getFloat64(o + 8, le)];
       o += 8 * dims;
       return project(p);
     };
-    const n = () => { const v = dv.getUint32(o, le); o += 4; return v; };
+    const n = () => {
+      const v = dv.getUint32(o, le);
+      o += 4;
+      return v;
+    };
     const line = () => Array.from({ length: n() }, pos);
     const name = WKB_NAME[t];
     switch (name) {
-      case 'Point': return { type: 'Point', coordinates: pos() };
-      case 'LineString': return { type: 'LineString', coordinates: line() };
-      case 'Polygon': return { type: 'Polygon', coordinates: Array.from({ length: n() }, line) };
-      case 'MultiPoint': case 'MultiLineString': case 'MultiPolygon': {
+      case 'Point':
+        return { type: 'Point', coordinates: pos() };
+      case 'LineString':
+        return { type: 'LineString', coordinates: line() };
+      case 'Polygon':
+        return { type: 'Polygon', coordinates: Array.from({ length: n() }, line) };
+      case 'MultiPoint':
+      case 'MultiLineString':
+      case 'MultiPolygon': {
         const parts = Array.from({ length: n() }, geom);
         return { type: name, coordinates: parts.map((p) => p.coordinates) };
       }
-      case 'GeometryCollection': return { type: 'GeometryCollection', geometries: Array.from({ length: n() }, geom) };
-      default: throw new Error(`WKB geometry type ${t} is not read`);
+      case 'GeometryCollection':
+        return { type: 'GeometryCollection', geometries: Array.from({ length: n() }, geom) };
+      default:
+        throw new Error(`WKB geometry type ${t} is not read`);
     }
   };
   if (flags & 0b10000) return null; // empty
@@ -179,15 +240,27 @@ function columnTypes(features: GeoJsonFeature[]): Map<string, { type: ColumnType
   const cols = new Map<string, { type: ColumnType; json: boolean }>();
   for (const f of features) {
     for (const [k, v] of Object.entries(f.properties ?? {})) {
-      if (v === null || v === undefined) { if (!cols.has(k)) cols.set(k, { type: 'REAL', json: false }); continue; }
+      if (v === null || v === undefined) {
+        if (!cols.has(k)) cols.set(k, { type: 'REAL', json: false });
+        continue;
+      }
       const t: ColumnType = typeof v === 'number' ? (Number.isSafeInteger(v) ? 'INTEGER' : 'REAL') : typeof v === 'boolean' ? 'BOOLEAN' : 'TEXT';
       const json = typeof v === 'object';
       const old = cols.get(k);
-      if (!old) { cols.set(k, { type: t, json }); continue; }
+      if (!old) {
+        cols.set(k, { type: t, json });
+        continue;
+      }
       // Widen: INTEGER + REAL → REAL; anything else mixed → TEXT (JSON when any value is not a string).
-      if (old.type === t) { old.json ||= json; continue; }
+      if (old.type === t) {
+        old.json ||= json;
+        continue;
+      }
       if ((old.type === 'INTEGER' && t === 'REAL') || (old.type === 'REAL' && t === 'INTEGER')) old.type = 'REAL';
-      else { old.json = old.json || json || t !== 'TEXT' || old.type !== 'TEXT'; old.type = 'TEXT'; }
+      else {
+        old.json = old.json || json || t !== 'TEXT' || old.type !== 'TEXT';
+        old.type = 'TEXT';
+      }
     }
   }
   // Columns seen only as null stay REAL (typeless nulls); a column mixing nulls and values keeps its value type.
@@ -223,9 +296,15 @@ export function writeGeoPackage(layers: GeoPackageLayer[], metadata: Record<stri
     ext.run('gpkg_data_columns', null, 'gpkg_schema', 'http://www.geopackage.org/spec121/#extension_schema', 'read-write');
     ext.run('gpkg_data_column_constraints', null, 'gpkg_schema', 'http://www.geopackage.org/spec121/#extension_schema', 'read-write');
     const items = { CAUTION, ...metadata };
-    const xml = `<GDALMetadata>\n${Object.entries(items).map(([k, v]) => `  <Item name="${xmlText(k)}">${xmlText(v)}</Item>`).join('\n')}\n</GDALMetadata>\n`;
-    const md = db.prepare("INSERT INTO gpkg_metadata (md_scope, md_standard_uri, mime_type, metadata) VALUES ('dataset', 'http://gdal.org', 'text/xml', ?)").run(xml);
-    db.prepare("INSERT INTO gpkg_metadata_reference (reference_scope, table_name, column_name, row_id_value, md_file_id) VALUES ('geopackage', NULL, NULL, NULL, ?)").run(md.lastInsertRowid);
+    const xml = `<GDALMetadata>\n${Object.entries(items)
+      .map(([k, v]) => `  <Item name="${xmlText(k)}">${xmlText(v)}</Item>`)
+      .join('\n')}\n</GDALMetadata>\n`;
+    const md = db
+      .prepare("INSERT INTO gpkg_metadata (md_scope, md_standard_uri, mime_type, metadata) VALUES ('dataset', 'http://gdal.org', 'text/xml', ?)")
+      .run(xml);
+    db.prepare(
+      "INSERT INTO gpkg_metadata_reference (reference_scope, table_name, column_name, row_id_value, md_file_id) VALUES ('geopackage', NULL, NULL, NULL, ?)",
+    ).run(md.lastInsertRowid);
 
     const used = new Set<string>();
     for (const layer of layers) {
@@ -251,31 +330,54 @@ export function writeGeoPackage(layers: GeoPackageLayer[], metadata: Record<stri
         types = new Set([`Multi${[...base][0]}`]);
       }
       const gtype = types.size === 1 ? [...types][0].toUpperCase() : 'GEOMETRY';
-      db.exec(`CREATE TABLE ${quote(t)} (fid INTEGER PRIMARY KEY AUTOINCREMENT NOT NULL, geom ${gtype}${[...cols].map(([k, c]) => `, ${quote(colName.get(k)!)} ${c.type}`).join('')})`);
+      db.exec(
+        `CREATE TABLE ${quote(t)} (fid INTEGER PRIMARY KEY AUTOINCREMENT NOT NULL, geom ${gtype}${[...cols].map(([k, c]) => `, ${quote(colName.get(k)!)} ${c.type}`).join('')})`,
+      );
       const desc = `${layer.description ?? layer.title ?? ''}${layer.description || layer.title ? ' — ' : ''}${CAUTION}`;
-      db.prepare("INSERT INTO gpkg_contents (table_name, data_type, identifier, description, srs_id) VALUES (?, 'features', ?, ?, 4326)").run(t, layer.title ?? t, desc);
+      db.prepare("INSERT INTO gpkg_contents (table_name, data_type, identifier, description, srs_id) VALUES (?, 'features', ?, ?, 4326)").run(
+        t,
+        layer.title ?? t,
+        desc,
+      );
       db.prepare('INSERT INTO gpkg_geometry_columns VALUES (?, ?, ?, 4326, 0, 0)').run(t, 'geom', gtype);
-      for (const [k, c] of cols) if (c.json) db.prepare('INSERT INTO gpkg_data_columns (table_name, column_name, name, mime_type) VALUES (?, ?, ?, ?)').run(t, colName.get(k)!, colName.get(k)!, 'application/json');
+      for (const [k, c] of cols)
+        if (c.json)
+          db.prepare('INSERT INTO gpkg_data_columns (table_name, column_name, name, mime_type) VALUES (?, ?, ?, ?)').run(
+            t,
+            colName.get(k)!,
+            colName.get(k)!,
+            'application/json',
+          );
       const keys = [...cols.keys()];
-      const ins = db.prepare(`INSERT INTO ${quote(t)} (geom${keys.map((k) => `, ${quote(colName.get(k)!)}`).join('')}) VALUES (?${keys.map(() => ', ?').join('')})`);
-      let minX = Infinity, minY = Infinity, maxX = -Infinity, maxY = -Infinity;
+      const ins = db.prepare(
+        `INSERT INTO ${quote(t)} (geom${keys.map((k) => `, ${quote(colName.get(k)!)}`).join('')}) VALUES (?${keys.map(() => ', ?').join('')})`,
+      );
+      let minX = Infinity,
+        minY = Infinity,
+        maxX = -Infinity,
+        maxY = -Infinity;
       db.transaction(() => {
         for (const f of features) {
           let g = f.geometry;
           if (g && promote && !g.type.startsWith('Multi')) g = { type: `Multi${g.type}`, coordinates: [g.coordinates] };
           const blob = g ? gpkgGeometry(g, 4326) : null;
           if (blob && blob[3] & 0b10) {
-            minX = Math.min(minX, blob.readDoubleLE(8)); maxX = Math.max(maxX, blob.readDoubleLE(16));
-            minY = Math.min(minY, blob.readDoubleLE(24)); maxY = Math.max(maxY, blob.readDoubleLE(32));
+            minX = Math.min(minX, blob.readDoubleLE(8));
+            maxX = Math.max(maxX, blob.readDoubleLE(16));
+            minY = Math.min(minY, blob.readDoubleLE(24));
+            maxY = Math.max(maxY, blob.readDoubleLE(32));
           }
-          ins.run(blob, ...keys.map((k) => {
-            const v = f.properties?.[k];
-            if (v === undefined || v === null) return null;
-            const c = cols.get(k)!;
-            if (c.type === 'BOOLEAN') return v ? 1 : 0;
-            if (c.type === 'TEXT') return c.json ? JSON.stringify(v) : String(v);
-            return v as number;
-          }));
+          ins.run(
+            blob,
+            ...keys.map((k) => {
+              const v = f.properties?.[k];
+              if (v === undefined || v === null) return null;
+              const c = cols.get(k)!;
+              if (c.type === 'BOOLEAN') return v ? 1 : 0;
+              if (c.type === 'TEXT') return c.json ? JSON.stringify(v) : String(v);
+              return v as number;
+            }),
+          );
         }
       })();
       if (minX <= maxX) db.prepare('UPDATE gpkg_contents SET min_x = ?, min_y = ?, max_x = ?, max_y = ? WHERE table_name = ?').run(minX, minY, maxX, maxY, t);
@@ -305,7 +407,11 @@ export interface VectorRead {
 }
 
 function fileError(source: string, message: string, problem: string, layer?: string, code = 'bad_geopackage'): InputError {
-  return new InputError(`${source}${layer ? `, layer "${layer}"` : ''}: ${message}`, [{ feature: source, ...(layer ? { field: `layer ${layer}` } : {}), problem }], code);
+  return new InputError(
+    `${source}${layer ? `, layer "${layer}"` : ''}: ${message}`,
+    [{ feature: source, ...(layer ? { field: `layer ${layer}` } : {}), problem }],
+    code,
+  );
 }
 
 /** A proj4 converter from a CRS (EPSG code or WKT) to WGS 84 lon/lat, or null when it is already lon/lat WGS 84. */
@@ -337,10 +443,23 @@ export async function readGeoPackage(bytes: Uint8Array, opts: { source?: string;
   try {
     let layers: VectorLayerInfo[];
     try {
-      const rows = db.prepare("SELECT c.table_name AS name, g.geometry_type_name AS geometryType, g.srs_id AS srsId, g.column_name AS col FROM gpkg_contents c JOIN gpkg_geometry_columns g ON g.table_name = c.table_name WHERE c.data_type = 'features' ORDER BY c.table_name").all() as { name: string; geometryType: string; srsId: number; col: string }[];
-      layers = rows.map((r) => ({ name: r.name, geometryType: r.geometryType, srsId: r.srsId, features: (db.prepare(`SELECT count(*) AS n FROM ${quote(r.name)}`).get() as { n: number }).n }));
+      const rows = db
+        .prepare(
+          "SELECT c.table_name AS name, g.geometry_type_name AS geometryType, g.srs_id AS srsId, g.column_name AS col FROM gpkg_contents c JOIN gpkg_geometry_columns g ON g.table_name = c.table_name WHERE c.data_type = 'features' ORDER BY c.table_name",
+        )
+        .all() as { name: string; geometryType: string; srsId: number; col: string }[];
+      layers = rows.map((r) => ({
+        name: r.name,
+        geometryType: r.geometryType,
+        srsId: r.srsId,
+        features: (db.prepare(`SELECT count(*) AS n FROM ${quote(r.name)}`).get() as { n: number }).n,
+      }));
     } catch (e) {
-      throw fileError(source, 'not a GeoPackage (or corrupt)', `expected the OGC GeoPackage tables gpkg_contents and gpkg_geometry_columns: ${e instanceof Error ? e.message : String(e)}`);
+      throw fileError(
+        source,
+        'not a GeoPackage (or corrupt)',
+        `expected the OGC GeoPackage tables gpkg_contents and gpkg_geometry_columns: ${e instanceof Error ? e.message : String(e)}`,
+      );
     }
     if (layers.length === 0) throw fileError(source, 'holds no feature layer', 'expected a point, line or polygon layer', undefined, 'no_features');
     let layer: VectorLayerInfo | undefined;
@@ -348,15 +467,29 @@ export async function readGeoPackage(bytes: Uint8Array, opts: { source?: string;
       layer = layers.find((l) => l.name === opts.layer);
       if (!layer) throw fileError(source, `has no layer "${opts.layer}"`, `layers: ${layers.map((l) => l.name).join(', ')}`, undefined, 'unknown_layer');
     } else if (layers.length > 1) {
-      throw fileError(source, `holds ${layers.length} layers: choose one (layer=NAME, --layer NAME)`, `layers: ${layers.map((l) => `${l.name} (${l.geometryType}, ${l.features} features)`).join(', ')}`, undefined, 'choose_layer');
+      throw fileError(
+        source,
+        `holds ${layers.length} layers: choose one (layer=NAME, --layer NAME)`,
+        `layers: ${layers.map((l) => `${l.name} (${l.geometryType}, ${l.features} features)`).join(', ')}`,
+        undefined,
+        'choose_layer',
+      );
     } else {
       layer = layers[0];
     }
     const name = layer.name;
-    if (opts.maxFeatures !== undefined && layer.features > opts.maxFeatures) throw fileError(source, `has ${layer.features} features (limit ${opts.maxFeatures})`, `at most ${opts.maxFeatures} features`, name, 'too_many_features');
-    const srs = db.prepare('SELECT organization, organization_coordsys_id AS code, definition FROM gpkg_spatial_ref_sys WHERE srs_id = ?').get(layer.srsId) as { organization: string; code: number; definition: string } | undefined;
-    if (!srs || layer.srsId === 0 || layer.srsId === -1 || /^undefined$/i.test(srs.definition.trim()) && !/^epsg$/i.test(srs.organization)) {
-      throw fileError(source, 'has no coordinate reference system', `srs_id ${layer.srsId} is undefined: assign a CRS (e.g. EPSG code) in your GIS and export again`, name, 'no_crs');
+    if (opts.maxFeatures !== undefined && layer.features > opts.maxFeatures)
+      throw fileError(source, `has ${layer.features} features (limit ${opts.maxFeatures})`, `at most ${opts.maxFeatures} features`, name, 'too_many_features');
+    const srs = db.prepare('SELECT organization, organization_coordsys_id AS code, definition FROM gpkg_spatial_ref_sys WHERE srs_id = ?').get(layer.srsId) as
+      { organization: string; code: number; definition: string } | undefined;
+    if (!srs || layer.srsId === 0 || layer.srsId === -1 || (/^undefined$/i.test(srs.definition.trim()) && !/^epsg$/i.test(srs.organization))) {
+      throw fileError(
+        source,
+        'has no coordinate reference system',
+        `srs_id ${layer.srsId} is undefined: assign a CRS (e.g. EPSG code) in your GIS and export again`,
+        name,
+        'no_crs',
+      );
     }
     let project: ((p: Position) => Position) | null;
     let sourceCrs: string;
@@ -375,8 +508,14 @@ export async function readGeoPackage(bytes: Uint8Array, opts: { source?: string;
     const geomCol = (db.prepare('SELECT column_name AS c FROM gpkg_geometry_columns WHERE table_name = ?').get(name) as { c: string }).c;
     let jsonCols = new Set<string>();
     try {
-      jsonCols = new Set((db.prepare("SELECT column_name AS c FROM gpkg_data_columns WHERE table_name = ? AND mime_type = 'application/json'").all(name) as { c: string }[]).map((r) => r.c));
-    } catch { /* no schema extension */ }
+      jsonCols = new Set(
+        (db.prepare("SELECT column_name AS c FROM gpkg_data_columns WHERE table_name = ? AND mime_type = 'application/json'").all(name) as { c: string }[]).map(
+          (r) => r.c,
+        ),
+      );
+    } catch {
+      /* no schema extension */
+    }
     const props = cols.filter((c) => c.name !== geomCol && c.pk === 0);
     const features: GeoJsonFeature[] = [];
     const identity = (p: Position) => [p[0], p[1]];
@@ -398,7 +537,11 @@ export async function readGeoPackage(bytes: Uint8Array, opts: { source?: string;
         if (typeof v === 'bigint') v = Number(v);
         if (v !== null && /^BOOLEAN$/i.test(c.type)) v = v !== 0;
         else if (typeof v === 'string' && jsonCols.has(c.name)) {
-          try { v = JSON.parse(v); } catch { /* kept as text */ }
+          try {
+            v = JSON.parse(v);
+          } catch {
+            /* kept as text */
+          }
         }
         if (v !== null && v !== undefined) properties[c.name] = v;
       }

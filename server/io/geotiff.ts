@@ -43,7 +43,11 @@ function xmlUnescape(s: string): string {
   return s
     .replace(/&#x([0-9a-f]+);/gi, (_, h: string) => String.fromCodePoint(parseInt(h, 16)))
     .replace(/&#(\d+);/g, (_, d: string) => String.fromCodePoint(Number(d)))
-    .replace(/&lt;/g, '<').replace(/&gt;/g, '>').replace(/&quot;/g, '"').replace(/&apos;/g, "'").replace(/&amp;/g, '&');
+    .replace(/&lt;/g, '<')
+    .replace(/&gt;/g, '>')
+    .replace(/&quot;/g, '"')
+    .replace(/&apos;/g, "'")
+    .replace(/&amp;/g, '&');
 }
 
 /**
@@ -52,7 +56,8 @@ function xmlUnescape(s: string): string {
  * value encoding without reading the whole grid.
  */
 function gdalMetadataXml(grid: Grid<Float32Array | Float64Array>, opts: GeoTiffWriteOptions): string {
-  let min = Infinity, max = -Infinity;
+  let min = Infinity,
+    max = -Infinity;
   const v = grid.values;
   for (let i = 0; i < v.length; i++) {
     const x = v[i];
@@ -62,10 +67,8 @@ function gdalMetadataXml(grid: Grid<Float32Array | Float64Array>, opts: GeoTiffW
   }
   // Float32 values written as the shortest text that reads back to the same float.
   const f32 = (x: number) => String(Math.fround(x));
-  const stats = min <= max ? [
-    `  <Item name="STATISTICS_MAXIMUM" sample="0">${f32(max)}</Item>`,
-    `  <Item name="STATISTICS_MINIMUM" sample="0">${f32(min)}</Item>`,
-  ] : [];
+  const stats =
+    min <= max ? [`  <Item name="STATISTICS_MAXIMUM" sample="0">${f32(max)}</Item>`, `  <Item name="STATISTICS_MINIMUM" sample="0">${f32(min)}</Item>`] : [];
   const items: string[] = [
     `  <Item name="CAUTION">${xmlText(CAUTION)}</Item>`,
     `  <Item name="TITLE">${xmlText(opts.description ?? '')}</Item>`,
@@ -98,7 +101,11 @@ export function writeGeoTiff(grid: Grid<Float32Array | Float64Array>, opts: GeoT
  * Writes a grid as a Cloud-Optimized GeoTIFF file, compressing tiles on worker threads (server/io/cog.ts); the file
  * appears at `path` only when complete.
  */
-export async function writeGeoTiffFile(path: string, grid: Grid<Float32Array | Float64Array>, opts: GeoTiffWriteOptions & { threads?: number } = {}): Promise<{ bytes: number }> {
+export async function writeGeoTiffFile(
+  path: string,
+  grid: Grid<Float32Array | Float64Array>,
+  opts: GeoTiffWriteOptions & { threads?: number } = {},
+): Promise<{ bytes: number }> {
   return writeCogFile(path, grid.values, grid.width, grid.height, { ...cogOptions(grid, opts), threads: opts.threads });
 }
 
@@ -113,7 +120,10 @@ export interface GeoTiffRead {
 
 type Tiff = Awaited<ReturnType<typeof fromArrayBuffer>>;
 type Image = Awaited<ReturnType<Tiff['getImage']>>;
-interface Dir { loadValue?: (k: string) => Promise<unknown>; hasTag?: (k: string) => boolean }
+interface Dir {
+  loadValue?: (k: string) => Promise<unknown>;
+  hasTag?: (k: string) => boolean;
+}
 
 interface Header {
   spec: { width: number; height: number; west: number; north: number; dx: number; dy: number; crs: string };
@@ -139,18 +149,31 @@ async function tagText(image: Image, tag: string): Promise<string> {
 
 /** Georeferencing, CRS, band count and the project's metadata (GDAL metadata items, or the older JSON description). */
 async function readHeader(image: Image, src: string): Promise<Header> {
-  const width = image.getWidth(), height = image.getHeight();
+  const width = image.getWidth(),
+    height = image.getHeight();
   let origin: number[], res: number[];
   try {
     origin = image.getOrigin();
     res = image.getResolution();
   } catch {
-    throw new InputError(`${src} has no georeferencing`, [{ feature: src, field: 'ModelTiepoint/ModelPixelScale', problem: 'expected a georeferenced GeoTIFF (tie point and pixel scale, or a transformation)' }], 'bad_geotiff');
+    throw new InputError(
+      `${src} has no georeferencing`,
+      [{ feature: src, field: 'ModelTiepoint/ModelPixelScale', problem: 'expected a georeferenced GeoTIFF (tie point and pixel scale, or a transformation)' }],
+      'bad_geotiff',
+    );
   }
   const keys = (image.getGeoKeys() ?? {}) as Record<string, unknown>;
   const code = keys.ProjectedCSTypeGeoKey ?? keys.GeographicTypeGeoKey;
-  if (typeof code !== 'number' || code === 32767) throw new InputError(`${src} has no EPSG coordinate system`, [{ feature: src, field: 'GeoKeys', problem: 'expected ProjectedCSTypeGeoKey or GeographicTypeGeoKey with an EPSG code' }], 'bad_geotiff');
-  let description: string, caution: string | null = null, metadata: Record<string, unknown> = {}, units = '';
+  if (typeof code !== 'number' || code === 32767)
+    throw new InputError(
+      `${src} has no EPSG coordinate system`,
+      [{ feature: src, field: 'GeoKeys', problem: 'expected ProjectedCSTypeGeoKey or GeographicTypeGeoKey with an EPSG code' }],
+      'bad_geotiff',
+    );
+  let description: string,
+    caution: string | null = null,
+    metadata: Record<string, unknown> = {},
+    units = '';
   const xml = await tagText(image, 'GDAL_METADATA');
   const items = new Map<string, string>();
   for (const m of xml.matchAll(/<Item\s+name="([^"]*)"([^>]*)>([\s\S]*?)<\/Item>/g)) {
@@ -163,7 +186,9 @@ async function readHeader(image: Image, src: string): Promise<Header> {
     units = items.get('UNITS') ?? items.get('UNITTYPE#0') ?? '';
     try {
       metadata = JSON.parse(items.get('METADATA') ?? '{}') as Record<string, unknown>;
-    } catch { /* kept empty: not the project's */ }
+    } catch {
+      /* kept empty: not the project's */
+    }
   } else {
     // Files written before the COG writer kept one JSON object in ImageDescription; foreign text is kept as is.
     const text = await tagText(image, 'ImageDescription');
@@ -174,20 +199,31 @@ async function readHeader(image: Image, src: string): Promise<Header> {
       caution = j.caution ?? null;
       metadata = j.metadata ?? {};
       units = j.units ?? '';
-    } catch { /* a foreign description */ }
+    } catch {
+      /* a foreign description */
+    }
     units ||= items.get('UNITTYPE#0') ?? '';
   }
-  const smin = Number(items.get('STATISTICS_MINIMUM#0') ?? NaN), smax = Number(items.get('STATISTICS_MAXIMUM#0') ?? NaN);
+  const smin = Number(items.get('STATISTICS_MINIMUM#0') ?? NaN),
+    smax = Number(items.get('STATISTICS_MAXIMUM#0') ?? NaN);
   return {
     spec: { width, height, west: origin[0], north: origin[1], dx: Math.abs(res[0]), dy: Math.abs(res[1]), crs: `EPSG:${code}` },
     bands: image.getSamplesPerPixel(),
-    description, caution, metadata, units,
+    description,
+    caution,
+    metadata,
+    units,
     statistics: Number.isFinite(smin) && Number.isFinite(smax) && smin <= smax ? { min: smin, max: smax } : null,
   };
 }
 
 function checkBand(band: number, bands: number, src: string): void {
-  if (!(Number.isInteger(band) && band >= 0 && band < bands)) throw new InputError(`${src}: band ${band + 1} is out of range (the file has ${bands} band(s))`, [{ feature: src, field: 'band', problem: `expected 1..${bands}` }], 'bad_geotiff');
+  if (!(Number.isInteger(band) && band >= 0 && band < bands))
+    throw new InputError(
+      `${src}: band ${band + 1} is out of range (the file has ${bands} band(s))`,
+      [{ feature: src, field: 'band', problem: `expected 1..${bands}` }],
+      'bad_geotiff',
+    );
 }
 
 /** One band of a window [col0, col1) × [row0, row1) as Float32 with NoData → NaN. */
@@ -221,7 +257,12 @@ export async function readGeoTiff(buffer: ArrayBuffer | Uint8Array, opts: { band
   const src = opts.source ?? 'GeoTIFF';
   const image = await openBuffer(buffer, src);
   const h = await readHeader(image, src);
-  if (opts.band === undefined && opts.chooseBand === true && h.bands > 1) throw new InputError(`${src} has ${h.bands} bands: choose one with --band N (1 to ${h.bands})`, [{ feature: src, field: 'band', problem: `expected --band 1..${h.bands}` }], 'bad_geotiff');
+  if (opts.band === undefined && opts.chooseBand === true && h.bands > 1)
+    throw new InputError(
+      `${src} has ${h.bands} bands: choose one with --band N (1 to ${h.bands})`,
+      [{ feature: src, field: 'band', problem: `expected --band 1..${h.bands}` }],
+      'bad_geotiff',
+    );
   const band = opts.band ?? 0;
   checkBand(band, h.bands, src);
   let values: Float32Array;
@@ -253,10 +294,16 @@ export class GeoTiffFile {
   cellsRead = 0;
   readonly levels: GeoTiffLevel[];
 
-  private constructor(private readonly tiff: Tiff, private readonly images: Image[], readonly header: Header, private readonly band: number) {
+  private constructor(
+    private readonly tiff: Tiff,
+    private readonly images: Image[],
+    readonly header: Header,
+    private readonly band: number,
+  ) {
     const { width, height, west, north, dx, dy } = header.spec;
     this.levels = images.map((im) => {
-      const w = im.getWidth(), h = im.getHeight();
+      const w = im.getWidth(),
+        h = im.getHeight();
       return { width: w, height: h, west, north, dx: (dx * width) / w, dy: (dy * height) / h };
     });
   }
@@ -275,7 +322,7 @@ export class GeoTiffFile {
     checkBand(opts.band ?? 0, h.bands, path);
     // Overviews are the reduced-resolution images (NewSubfileType bit 0) of the same band layout, largest first.
     const overviews = images.slice(1).filter((im) => {
-      const t = (im.fileDirectory as unknown as { NewSubfileType?: number; getValue?: (k: string) => unknown });
+      const t = im.fileDirectory as unknown as { NewSubfileType?: number; getValue?: (k: string) => unknown };
       const v = typeof t.getValue === 'function' ? t.getValue('NewSubfileType') : t.NewSubfileType;
       return typeof v === 'number' && (v & 1) === 1 && im.getSamplesPerPixel() === h.bands;
     });
@@ -302,7 +349,8 @@ export class GeoTiffFile {
     const m = this.header.statistics;
     if (m !== null) return m;
     const { width, height } = this.levels[0];
-    let min = Infinity, max = -Infinity;
+    let min = Infinity,
+      max = -Infinity;
     const rows = Math.max(1, Math.floor(2 ** 21 / width));
     for (let r = 0; r < height; r += rows) {
       const v = await this.window(0, r, width, Math.min(height, r + rows));

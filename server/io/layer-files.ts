@@ -20,7 +20,13 @@ export class LayerFiles {
     const file = join(await this.dir, `${hash}.tif`);
     const pending = this.writing.get(hash);
     if (pending) return pending;
-    if (await stat(file).then(() => true, () => false)) return file;
+    if (
+      await stat(file).then(
+        () => true,
+        () => false,
+      )
+    )
+      return file;
     const write = (async () => {
       const partial = `${file}.partial`;
       try {

@@ -37,7 +37,9 @@ export function encodePng(pixels: Uint8Array, width: number, height: number, cha
   ihdr.writeUInt32BE(height, 4);
   ihdr[8] = 8; // bit depth
   ihdr[9] = channels === 4 ? 6 : 2; // colour type: truecolour (+ alpha)
-  ihdr[10] = 0; ihdr[11] = 0; ihdr[12] = 0;
+  ihdr[10] = 0;
+  ihdr[11] = 0;
+  ihdr[12] = 0;
   const stride = width * channels;
   const raw = Buffer.alloc((stride + 1) * height);
   for (let y = 0; y < height; y++) {

@@ -34,7 +34,8 @@ export interface MapExcerpt {
  * taking every step-th cell so the image is at most maxPixels on its longer side.
  */
 export function densityPng(values: ArrayLike<number>, width: number, height: number, maxPixels = 640): MapExcerpt | null {
-  let lo = Infinity, hi = -Infinity;
+  let lo = Infinity,
+    hi = -Infinity;
   for (let i = 0; i < values.length; i++) {
     const v = values[i];
     if (v === v) {
@@ -44,20 +45,22 @@ export function densityPng(values: ArrayLike<number>, width: number, height: num
   }
   if (!(hi >= lo)) return null;
   const step = Math.max(1, Math.ceil(Math.max(width, height) / maxPixels));
-  const w = Math.ceil(width / step), h = Math.ceil(height / step);
+  const w = Math.ceil(width / step),
+    h = Math.ceil(height / step);
   const px = new Uint8Array(w * h * 4);
   const rgb: [number, number, number] = [0, 0, 0];
   const span = hi > lo ? hi - lo : 1;
-  for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) {
-    const v = values[y * step * width + x * step];
-    const k = (y * w + x) * 4;
-    if (!(v === v)) continue; // transparent
-    rampColor(EMBER, (v - lo) / span, rgb);
-    px[k] = rgb[0];
-    px[k + 1] = rgb[1];
-    px[k + 2] = rgb[2];
-    px[k + 3] = 255;
-  }
+  for (let y = 0; y < h; y++)
+    for (let x = 0; x < w; x++) {
+      const v = values[y * step * width + x * step];
+      const k = (y * w + x) * 4;
+      if (!(v === v)) continue; // transparent
+      rampColor(EMBER, (v - lo) / span, rgb);
+      px[k] = rgb[0];
+      px[k + 1] = rgb[1];
+      px[k + 2] = rgb[2];
+      px[k + 3] = 255;
+    }
   const png = encodePng(px, w, h, 4, { Comment: `heat in place density, PJ/km2; ${CAUTION}` });
   return { dataUrl: `data:image/png;base64,${png.toString('base64')}`, width: w, height: h, min: lo, max: hi, step };
 }
@@ -81,7 +84,12 @@ function totalsTable(t: AreaTotals, conversion: boolean): string {
     ['Electric power, available-work (exergy) route (MWe)', t.electricMWe],
   ];
   if (conversion) rows.push(['Electric power, thermal × conversion-efficiency route (MWe)', t.electricMWeConversion]);
-  rows.push(['Area of rock ≥ Tmin (km²)', t.hotAreaKm2], ['Volume of rock ≥ Tmin (km³)', t.hotVolumeKm3], ['Mean reservoir temperature (°C)', t.meanReservoirTempC], ['Available work / heat, W/Q', t.availableWorkFraction]);
+  rows.push(
+    ['Area of rock ≥ Tmin (km²)', t.hotAreaKm2],
+    ['Volume of rock ≥ Tmin (km³)', t.hotVolumeKm3],
+    ['Mean reservoir temperature (°C)', t.meanReservoirTempC],
+    ['Available work / heat, W/Q', t.availableWorkFraction],
+  );
   return `<table><thead><tr><th>Quantity</th><th>Nominal</th><th>P10</th><th>P50</th><th>P90</th></tr></thead><tbody>${rows
     .map(([k, v]) => `<tr><th scope="row">${escapeHtml(k)}</th>${valueCells(v)}</tr>`)
     .join('')}</tbody></table>`;
@@ -95,7 +103,8 @@ function param(v: unknown): string {
 
 /** SVG path (pixel coordinates of the excerpt) of polygon rings given in the grid's CRS units. */
 function outlinePath(rings: number[][][], grid: GridSpec, map: MapExcerpt): string {
-  const sx = map.width / (grid.width * grid.dx), sy = map.height / (grid.height * grid.dy);
+  const sx = map.width / (grid.width * grid.dx),
+    sy = map.height / (grid.height * grid.dy);
   return rings
     .map((ring) => ring.map((p, i) => `${i === 0 ? 'M' : 'L'}${((p[0] - grid.west) * sx).toFixed(1)},${((grid.north - p[1]) * sy).toFixed(1)}`).join('') + 'Z')
     .join('');
@@ -121,7 +130,10 @@ export function renderReportHtml(r: HeatInPlaceReport, opts: ReportHtmlOptions =
   const map = opts.map;
   let mapHtml = '<p>No map: the grid has no data.</p>';
   if (map) {
-    const path = opts.outline && opts.grid ? `<path d="${outlinePath(opts.outline, opts.grid, map)}" fill="none" stroke="#f4f1ea" stroke-width="2.5" vector-effect="non-scaling-stroke"/><path d="${outlinePath(opts.outline, opts.grid, map)}" fill="none" stroke="#20130d" stroke-width="1.2" vector-effect="non-scaling-stroke"/>` : '';
+    const path =
+      opts.outline && opts.grid
+        ? `<path d="${outlinePath(opts.outline, opts.grid, map)}" fill="none" stroke="#f4f1ea" stroke-width="2.5" vector-effect="non-scaling-stroke"/><path d="${outlinePath(opts.outline, opts.grid, map)}" fill="none" stroke="#20130d" stroke-width="1.2" vector-effect="non-scaling-stroke"/>`
+        : '';
     // Small grids are drawn enlarged (pixelated) so the excerpt reads on paper: the longer side at least 480 px.
     const zoom = Math.max(1, Math.floor(480 / Math.max(map.width, map.height)));
     const gradient = `linear-gradient(to right, ${EMBER.colors.join(', ')})`;
@@ -152,9 +164,16 @@ ${totalsTable(r, conv)}
 <p class="small">${escapeHtml(m.percentiles)}. ${escapeHtml(m.exceedance)}. ${mc === null ? escapeHtml(`No Monte Carlo run: ${String(m.noRealizations)}.`) : escapeHtml(`${mc.accepted} of ${mc.realizations} realizations used (seed ${mc.seed}; ${mc.heatFlow}).`)} ${escapeHtml(m.nominal)}.</p>
 <h2>Map</h2>
 ${mapHtml}
-${zones.length ? `<h2>Zones</h2><table><thead><tr><th>Zone</th><th>Area (km²)</th><th>Heat in place, P50 or nominal (EJ)</th><th>Electric P10</th><th>P50</th><th>P90 (MWe)</th></tr></thead><tbody>${zones
-    .map((z) => `<tr><th scope="row">${escapeHtml(z.zone)}</th><td class="n">${escapeHtml(fmt(z.areaKm2))}</td><td class="n">${escapeHtml(fmt(z.heatInPlaceEJ.p50 ?? z.heatInPlaceEJ.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p10))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p50 ?? z.electricMWe.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p90))}</td></tr>`)
-    .join('')}</tbody></table>` : ''}
+${
+  zones.length
+    ? `<h2>Zones</h2><table><thead><tr><th>Zone</th><th>Area (km²)</th><th>Heat in place, P50 or nominal (EJ)</th><th>Electric P10</th><th>P50</th><th>P90 (MWe)</th></tr></thead><tbody>${zones
+        .map(
+          (z) =>
+            `<tr><th scope="row">${escapeHtml(z.zone)}</th><td class="n">${escapeHtml(fmt(z.areaKm2))}</td><td class="n">${escapeHtml(fmt(z.heatInPlaceEJ.p50 ?? z.heatInPlaceEJ.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p10))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p50 ?? z.electricMWe.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p90))}</td></tr>`,
+        )
+        .join('')}</tbody></table>`
+    : ''
+}
 <h2>Inputs and assumptions</h2>
 <table><tbody>
 <tr><th scope="row">Depth window</th><td>${escapeHtml(fmt(inputs.topKm as number))} – ${escapeHtml(fmt(inputs.bottomKm as number))} km below the surface</td></tr>
@@ -173,7 +192,12 @@ ${zones.length ? `<h2>Zones</h2><table><thead><tr><th>Zone</th><th>Area (km²)</
 <ul>
 <li>${escapeHtml(m.heatInPlace)}.</li>
 <li>${escapeHtml(m.recoverable)}; ${escapeHtml(m.reservoirTemperature)}.</li>
-<li>Reported electric route: ${escapeHtml(m.routeLabel)}. Beside it: ${escapeHtml((m.routes as { label: string }[]).slice(1).map((x) => x.label).join('; '))}.</li>
+<li>Reported electric route: ${escapeHtml(m.routeLabel)}. Beside it: ${escapeHtml(
+    (m.routes as { label: string }[])
+      .slice(1)
+      .map((x) => x.label)
+      .join('; '),
+  )}.</li>
 <li>Integration: ${escapeHtml(m.quadrature)}.</li>
 <li>Temperatures: steady-state one-dimensional conduction with layered, temperature-dependent conductivity (Kirchhoff transform) and radiogenic heat production.</li>
 </ul>

@@ -33,11 +33,22 @@ export function formatFromMediaType(type: string): VectorFormat | null {
 export function formatFromPath(path: string): VectorFormat {
   const m = /\.([a-z]+)$/i.exec(path);
   switch (m?.[1].toLowerCase()) {
-    case 'csv': case 'txt': return 'csv';
-    case 'gpkg': return 'gpkg';
-    case 'zip': case 'shz': return 'shapefile';
-    case 'shp': throw new InputError(`${path}: give the Shapefile as one .zip holding its .shp, .shx, .dbf and .prj`, [{ feature: path, problem: 'expected a zipped Shapefile' }], 'bad_shapefile');
-    default: return 'geojson';
+    case 'csv':
+    case 'txt':
+      return 'csv';
+    case 'gpkg':
+      return 'gpkg';
+    case 'zip':
+    case 'shz':
+      return 'shapefile';
+    case 'shp':
+      throw new InputError(
+        `${path}: give the Shapefile as one .zip holding its .shp, .shx, .dbf and .prj`,
+        [{ feature: path, problem: 'expected a zipped Shapefile' }],
+        'bad_shapefile',
+      );
+    default:
+      return 'geojson';
   }
 }
 
@@ -46,7 +57,10 @@ export function zipEntryNames(bytes: Uint8Array): string[] {
   const dv = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   let eocd = -1;
   for (let i = bytes.length - 22; i >= Math.max(0, bytes.length - 65557); i--) {
-    if (dv.getUint32(i, true) === 0x06054b50) { eocd = i; break; }
+    if (dv.getUint32(i, true) === 0x06054b50) {
+      eocd = i;
+      break;
+    }
   }
   if (eocd < 0) throw new Error('not a zip archive (no end of central directory)');
   const count = dv.getUint16(eocd + 10, true);
@@ -55,7 +69,9 @@ export function zipEntryNames(bytes: Uint8Array): string[] {
   const dec = new TextDecoder();
   for (let k = 0; k < count; k++) {
     if (at + 46 > bytes.length || dv.getUint32(at, true) !== 0x02014b50) throw new Error('corrupt zip central directory');
-    const n = dv.getUint16(at + 28, true), x = dv.getUint16(at + 30, true), c = dv.getUint16(at + 32, true);
+    const n = dv.getUint16(at + 28, true),
+      x = dv.getUint16(at + 30, true),
+      c = dv.getUint16(at + 32, true);
     names.push(dec.decode(bytes.subarray(at + 46, at + 46 + n)));
     at += 46 + n + x + c;
   }
@@ -63,14 +79,21 @@ export function zipEntryNames(bytes: Uint8Array): string[] {
 }
 
 function shpError(source: string, message: string, problem: string, layer?: string, code = 'bad_shapefile'): InputError {
-  return new InputError(`${source}${layer ? `, layer "${layer}"` : ''}: ${message}`, [{ feature: source, ...(layer ? { field: `layer ${layer}` } : {}), problem }], code);
+  return new InputError(
+    `${source}${layer ? `, layer "${layer}"` : ''}: ${message}`,
+    [{ feature: source, ...(layer ? { field: `layer ${layer}` } : {}), problem }],
+    code,
+  );
 }
 
 /**
  * Reads one Shapefile of a zip (chosen by `layer`, its name without extension, when there are several) as GeoJSON
  * in WGS 84, reprojected from its .prj.
  */
-export async function readZippedShapefile(bytes: Uint8Array, opts: { source?: string; layer?: string } = {}): Promise<{ collection: GeoJsonCollection; layer: string; sourceCrs: string; layers: string[] }> {
+export async function readZippedShapefile(
+  bytes: Uint8Array,
+  opts: { source?: string; layer?: string } = {},
+): Promise<{ collection: GeoJsonCollection; layer: string; sourceCrs: string; layers: string[] }> {
   const source = opts.source ?? 'Shapefile';
   let names: string[];
   try {
@@ -80,7 +103,14 @@ export async function readZippedShapefile(bytes: Uint8Array, opts: { source?: st
   }
   const base = (n: string) => n.replace(/\.[^./]+$/, '');
   const shps = names.filter((n) => /\.shp$/i.test(n) && !n.startsWith('__MACOSX/')).map(base);
-  if (shps.length === 0) throw shpError(source, 'holds no Shapefile', `expected a .shp (with .shx, .dbf and .prj) in the zip; it holds: ${names.join(', ') || 'nothing'}`, undefined, 'no_features');
+  if (shps.length === 0)
+    throw shpError(
+      source,
+      'holds no Shapefile',
+      `expected a .shp (with .shx, .dbf and .prj) in the zip; it holds: ${names.join(', ') || 'nothing'}`,
+      undefined,
+      'no_features',
+    );
   const short = (n: string) => n.replace(/^.*\//, '');
   let layer: string;
   if (opts.layer !== undefined) {
@@ -88,12 +118,25 @@ export async function readZippedShapefile(bytes: Uint8Array, opts: { source?: st
     if (hit === undefined) throw shpError(source, `has no layer "${opts.layer}"`, `layers: ${shps.map(short).join(', ')}`, undefined, 'unknown_layer');
     layer = hit;
   } else if (shps.length > 1) {
-    throw shpError(source, `holds ${shps.length} Shapefiles: choose one (layer=NAME, --layer NAME)`, `layers: ${shps.map(short).join(', ')}`, undefined, 'choose_layer');
+    throw shpError(
+      source,
+      `holds ${shps.length} Shapefiles: choose one (layer=NAME, --layer NAME)`,
+      `layers: ${shps.map(short).join(', ')}`,
+      undefined,
+      'choose_layer',
+    );
   } else {
     layer = shps[0];
   }
   const prj = names.find((n) => n.toLowerCase() === `${layer}.prj`.toLowerCase());
-  if (prj === undefined) throw shpError(source, 'has no .prj (coordinate reference system)', `add ${short(layer)}.prj to the zip: without it the coordinates cannot be placed`, short(layer), 'no_crs');
+  if (prj === undefined)
+    throw shpError(
+      source,
+      'has no .prj (coordinate reference system)',
+      `add ${short(layer)}.prj to the zip: without it the coordinates cannot be placed`,
+      short(layer),
+      'no_crs',
+    );
   let parsed: unknown;
   try {
     parsed = await shp(Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
@@ -104,7 +147,10 @@ export async function readZippedShapefile(bytes: Uint8Array, opts: { source?: st
   const got = all.find((c) => c.fileName === layer) ?? (all.length === 1 ? all[0] : undefined);
   if (!got) throw shpError(source, 'cannot be read as a Shapefile', 'the layer was not decoded (missing .shx or .dbf?)', short(layer));
   const restore = (p: Record<string, unknown> | null) => Object.fromEntries(Object.entries(p ?? {}).map(([k, v]) => [DBF_CUT.get(k) ?? k, v]));
-  const collection: GeoJsonCollection = { type: 'FeatureCollection', features: got.features.map((f) => ({ type: 'Feature', geometry: f.geometry, properties: restore(f.properties) })) };
+  const collection: GeoJsonCollection = {
+    type: 'FeatureCollection',
+    features: got.features.map((f) => ({ type: 'Feature', geometry: f.geometry, properties: restore(f.properties) })),
+  };
   return { collection, layer: short(layer), sourceCrs: 'from .prj', layers: shps.map(short) };
 }
 
@@ -112,9 +158,16 @@ export async function readZippedShapefile(bytes: Uint8Array, opts: { source?: st
  * Reads a vector file (GeoJSON, GeoPackage or zipped Shapefile) as a GeoJSON FeatureCollection in WGS 84.
  * `maxBytes` refuses larger inputs before parsing (413).
  */
-export async function readVectorFile(bytes: Uint8Array, opts: { format: Exclude<VectorFormat, 'csv'>; source: string; layer?: string; maxBytes?: number; maxFeatures?: number }): Promise<{ collection: unknown; layer: string | null; sourceCrs: string }> {
+export async function readVectorFile(
+  bytes: Uint8Array,
+  opts: { format: Exclude<VectorFormat, 'csv'>; source: string; layer?: string; maxBytes?: number; maxFeatures?: number },
+): Promise<{ collection: unknown; layer: string | null; sourceCrs: string }> {
   if (opts.maxBytes !== undefined && bytes.length > opts.maxBytes) {
-    throw new InputError(`${opts.source} is ${bytes.length} bytes (limit ${opts.maxBytes})`, [{ feature: opts.source, problem: `at most ${opts.maxBytes} bytes` }], 'too_large');
+    throw new InputError(
+      `${opts.source} is ${bytes.length} bytes (limit ${opts.maxBytes})`,
+      [{ feature: opts.source, problem: `at most ${opts.maxBytes} bytes` }],
+      'too_large',
+    );
   }
   if (opts.format === 'gpkg') {
     const r = await readGeoPackage(bytes, { source: opts.source, layer: opts.layer, maxFeatures: opts.maxFeatures });
@@ -140,7 +193,11 @@ export function inFileLayer<T>(source: string, layer: string | null, f: () => T)
   } catch (e) {
     if (e instanceof InputError) {
       const where = `${source}${layer ? `, layer "${layer}"` : ''}`;
-      throw new InputError(`${where}: ${e.message}`, e.details.map((d) => ({ feature: d.feature ?? source, ...d })), e.code);
+      throw new InputError(
+        `${where}: ${e.message}`,
+        e.details.map((d) => ({ feature: d.feature ?? source, ...d })),
+        e.code,
+      );
     }
     throw e;
   }
@@ -151,7 +208,12 @@ export function inFileLayer<T>(source: string, layer: string | null, f: () => T)
  * Shapefile (.zip), or point CSV (longitude,latitude; or x,y / easting,northing with `crs`, e.g. --points-crs), read
  * and validated as `kind`, in WGS 84.
  */
-export async function readDatasetFile(path: string, bytes: Uint8Array, kind: DatasetKind, opts: { layer?: string; crs?: string; maxFeatures?: number } = {}): Promise<ParsedDataset & { layer: string | null; sourceCrs: string }> {
+export async function readDatasetFile(
+  path: string,
+  bytes: Uint8Array,
+  kind: DatasetKind,
+  opts: { layer?: string; crs?: string; maxFeatures?: number } = {},
+): Promise<ParsedDataset & { layer: string | null; sourceCrs: string }> {
   const format = formatFromPath(path);
   if (format === 'csv') {
     let toLonLat: ((x: number, y: number) => [number, number]) | undefined;
@@ -160,7 +222,9 @@ export async function readDatasetFile(path: string, bytes: Uint8Array, kind: Dat
       toLonLat = (x, y) => conv.forward([x, y]);
     }
     const text = new TextDecoder().decode(bytes);
-    const parsed = inFileLayer(path, null, () => parsePointCsv(kind, text, { maxFeatures: opts.maxFeatures, toLonLat, crsHint: 'give their CRS with --points-crs EPSG:nnnn' }));
+    const parsed = inFileLayer(path, null, () =>
+      parsePointCsv(kind, text, { maxFeatures: opts.maxFeatures, toLonLat, crsHint: 'give their CRS with --points-crs EPSG:nnnn' }),
+    );
     return { ...parsed, layer: null, sourceCrs: opts.crs ?? 'EPSG:4326' };
   }
   const r = await readVectorFile(bytes, { format, source: path, layer: opts.layer, maxFeatures: opts.maxFeatures });

@@ -49,7 +49,11 @@ export function parseJsonText(text: string): unknown {
     throw new InputError(`the request body is not valid JSON: ${(e as Error).message}`, [{ field: '(body)', problem: 'malformed JSON' }], 'bad_json');
   }
   if (jsonDepthExceeds(v, MAX_BODY_JSON_DEPTH)) {
-    throw new InputError(`the JSON body is nested deeper than ${MAX_BODY_JSON_DEPTH} levels`, [{ field: '(body)', problem: `at most ${MAX_BODY_JSON_DEPTH} levels of nesting` }], 'too_deep');
+    throw new InputError(
+      `the JSON body is nested deeper than ${MAX_BODY_JSON_DEPTH} levels`,
+      [{ field: '(body)', problem: `at most ${MAX_BODY_JSON_DEPTH} levels of nesting` }],
+      'too_deep',
+    );
   }
   return v;
 }
@@ -69,7 +73,11 @@ export function requireJsonType(c: Context): void {
   const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
   if (type !== 'application/json' && !(type.startsWith('application/') && type.endsWith('+json'))) {
     const got = type === '' ? 'no content-type' : type;
-    throw new InputError(`expected a JSON body (content-type application/json), got ${got}`, [{ field: 'content-type', problem: `unsupported: ${got}; send application/json` }], 'unsupported_media_type');
+    throw new InputError(
+      `expected a JSON body (content-type application/json), got ${got}`,
+      [{ field: 'content-type', problem: `unsupported: ${got}; send application/json` }],
+      'unsupported_media_type',
+    );
   }
 }
 
@@ -81,7 +89,10 @@ export function clientAddress(c: Context, trustedProxies: ReadonlySet<string> = 
   const incoming = (c.env as { incoming?: IncomingMessage } | undefined)?.incoming;
   const peer = incoming?.socket?.remoteAddress ?? 'local';
   if (!trustedProxies.has(peer)) return peer;
-  const chain = (c.req.header('x-forwarded-for') ?? '').split(',').map((s) => s.trim()).filter((s) => s !== '');
+  const chain = (c.req.header('x-forwarded-for') ?? '')
+    .split(',')
+    .map((s) => s.trim())
+    .filter((s) => s !== '');
   for (let i = chain.length - 1; i >= 0; i--) if (!trustedProxies.has(chain[i])) return chain[i].slice(0, 100);
   return peer;
 }
@@ -89,7 +100,10 @@ export function clientAddress(c: Context, trustedProxies: ReadonlySet<string> = 
 /** Proxy addresses from SUBTHERM_TRUSTED_PROXIES (comma-separated; IPv4 also matched in its ::ffff: form). */
 export function parseTrustedProxies(raw: string | undefined): Set<string> {
   const out = new Set<string>();
-  for (const a of (raw ?? '').split(',').map((s) => s.trim()).filter((s) => s !== '')) {
+  for (const a of (raw ?? '')
+    .split(',')
+    .map((s) => s.trim())
+    .filter((s) => s !== '')) {
     out.add(a);
     if (/^\d+\.\d+\.\d+\.\d+$/.test(a)) out.add(`::ffff:${a}`);
   }

@@ -32,7 +32,11 @@ export interface ParsedUpload {
  * error messages).
  */
 export const uploadFormatQuery = z.object({
-  crs: z.string().trim().regex(/^EPSG:\d{4,6}$/i, 'crs must be EPSG:nnnn').optional(),
+  crs: z
+    .string()
+    .trim()
+    .regex(/^EPSG:\d{4,6}$/i, 'crs must be EPSG:nnnn')
+    .optional(),
   layer: z.string().trim().min(1).max(200).optional(),
   filename: z.string().trim().min(1).max(200).optional(),
 });
@@ -56,20 +60,34 @@ export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind
     );
   }
   const fq = parseWith(uploadFormatQuery, singleQuery(c), 'query', 'bad_query');
-  const source = fq.filename ?? `the ${format === 'gpkg' ? 'GeoPackage' : format === 'shapefile' ? 'zipped Shapefile' : format === 'csv' ? 'CSV' : 'GeoJSON'} upload`;
+  const source =
+    fq.filename ?? `the ${format === 'gpkg' ? 'GeoPackage' : format === 'shapefile' ? 'zipped Shapefile' : format === 'csv' ? 'CSV' : 'GeoJSON'} upload`;
   if (format === 'gpkg' || format === 'shapefile') {
-    if (kind === 'model') throw new InputError('a thermal model is JSON: send it as application/json', [{ field: 'content-type', problem: 'expected application/json' }], 'unsupported_media_type');
+    if (kind === 'model')
+      throw new InputError(
+        'a thermal model is JSON: send it as application/json',
+        [{ field: 'content-type', problem: 'expected application/json' }],
+        'unsupported_media_type',
+      );
     const bytes = new Uint8Array(await c.req.arrayBuffer());
     if (bytes.length === 0) throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body');
     const r = await readVectorFile(bytes, { format, source, layer: fq.layer, maxBytes: ctx.limits.maxBodyBytes, maxFeatures: ctx.limits.maxFeatures });
     const parsed = inFileLayer(source, r.layer, () => parseFeatureCollection(kind, r.collection, { maxFeatures: ctx.limits.maxFeatures }));
-    const warnings = r.sourceCrs === 'EPSG:4326' ? parsed.warnings : [`${source}${r.layer ? `, layer "${r.layer}"` : ''}: reprojected from ${r.sourceCrs} to WGS 84 longitude/latitude`, ...parsed.warnings];
+    const warnings =
+      r.sourceCrs === 'EPSG:4326'
+        ? parsed.warnings
+        : [`${source}${r.layer ? `, layer "${r.layer}"` : ''}: reprojected from ${r.sourceCrs} to WGS 84 longitude/latitude`, ...parsed.warnings];
     return { kind, body: JSON.stringify(parsed.collection), featureCount: parsed.collection.features.length, warnings, suggestedName: r.layer };
   }
   const text = await bodyText(c);
   if (text.trim() === '') throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body');
   if (kind === 'model') {
-    if (!isJson) throw new InputError('a thermal model is JSON: send it as application/json', [{ field: 'content-type', problem: 'expected application/json' }], 'unsupported_media_type');
+    if (!isJson)
+      throw new InputError(
+        'a thermal model is JSON: send it as application/json',
+        [{ field: 'content-type', problem: 'expected application/json' }],
+        'unsupported_media_type',
+      );
     const { model, name } = parseModelDocument(parseJsonText(text), 'model');
     // The name is the data set's (editable per project), not part of the content: two uploads of the same layers
     // under different names are one stored model, and a renamed model never carries its old name into exports.
@@ -98,6 +116,17 @@ export function datasetRoutes(app: Hono, ctx: AppContext): void {
     const q = parseWith(datasetQuerySchema, singleQuery(c), 'query', 'bad_query');
     const up = await parseUpload(c, ctx, q.kind);
     const { rec, existing } = await storeUpload(ctx, up, q.title ?? up.suggestedName ?? undefined);
-    return c.json({ id: rec.id, kind: rec.kind, featureCount: rec.featureCount, contentHash: rec.contentHash, bbox: rec.bbox, deduplicated: existing, warnings: up.warnings }, existing ? 200 : 201);
+    return c.json(
+      {
+        id: rec.id,
+        kind: rec.kind,
+        featureCount: rec.featureCount,
+        contentHash: rec.contentHash,
+        bbox: rec.bbox,
+        deduplicated: existing,
+        warnings: up.warnings,
+      },
+      existing ? 200 : 201,
+    );
   });
 }

@@ -59,14 +59,21 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
     const crs = file.header.spec.crs;
     if (crs !== 'EPSG:4326') {
       await file.close();
-      throw new InputError(`layer "${layer}" is on a projected grid (${crs}); map tiles need a lon/lat grid`, [{ field: 'layer', problem: 'download it as GeoTIFF instead' }], 'projected_layer');
+      throw new InputError(
+        `layer "${layer}" is on a projected grid (${crs}); map tiles need a lon/lat grid`,
+        [{ field: 'layer', problem: 'download it as GeoTIFF instead' }],
+        'projected_layer',
+      );
     }
     const { min } = await file.range();
     const tiles = new WindowTiles(file, encodingForUnits(file.header.units, min ?? 0), { minZoom: MIN_ZOOM, maxZoom: MAX_ZOOM, cacheSize: 256 });
     cache.set(key, { tiles, file });
     if (cache.size > maxLayers) {
       const oldest = cache.keys().next().value as string;
-      void cache.get(oldest)!.file.close().catch(() => undefined);
+      void cache
+        .get(oldest)!
+        .file.close()
+        .catch(() => undefined);
       cache.delete(oldest);
     }
     return { tiles, units: tiles.units };
@@ -95,10 +102,16 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
   app.get('/runs/:id/tiles/:layer/:z/:x/:y', async (c) => {
     const { id, layer, z, x, y } = c.req.param();
     const m = /^(\d+)\.png$/.exec(y);
-    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) throw new InputError('tiles are …/{z}/{x}/{y}.png with integers', [{ field: 'path', problem: `${z}/${x}/${y}` }], 'bad_tile');
+    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x))
+      throw new InputError('tiles are …/{z}/{x}/{y}.png with integers', [{ field: 'path', problem: `${z}/${x}/${y}` }], 'bad_tile');
     const { tiles } = await tilesFor(id, layer);
     const png = await tiles.tile(Number(z), Number(x), Number(m[1]));
-    if (!png) throw new InputError(`no tile ${z}/${x}/${m[1]} in layer "${layer}"`, [{ field: 'tile', problem: `outside the layer or zoom ${MIN_ZOOM}–${MAX_ZOOM}` }], 'tile_not_found');
+    if (!png)
+      throw new InputError(
+        `no tile ${z}/${x}/${m[1]} in layer "${layer}"`,
+        [{ field: 'tile', problem: `outside the layer or zoom ${MIN_ZOOM}–${MAX_ZOOM}` }],
+        'tile_not_found',
+      );
     return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'public, max-age=86400, immutable' });
   });
 

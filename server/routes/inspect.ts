@@ -31,7 +31,12 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
   const doneRun = async (runId: string): Promise<{ run: RunRecord; heat: RunGrid; sd: RunGrid | null }> => {
     const run = await ctx.store.getRun(runId);
     if (!run) throw notFound('run', runId, 'run_not_found');
-    if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}: columns and sections need a finished run`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done');
+    if (run.status !== 'done')
+      throw new InputError(
+        `run ${runId} is ${run.status}: columns and sections need a finished run`,
+        [{ field: 'runId', problem: `status ${run.status}` }],
+        'run_not_done',
+      );
     const heat = await ctx.grids.get(runId, 'heatFlow');
     if (!heat) throw new InputError(`run ${runId} stored no heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid');
     return { run, heat, sd: await ctx.grids.get(runId, 'heatFlowSd') };
@@ -53,7 +58,8 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
   const runZones = async (run: RunRecord): Promise<ModelAt> => {
     const regionsId = (run.request as RunRequest).regions;
     const rec = regionsId === undefined ? null : await ctx.store.getDataset(regionsId);
-    if (regionsId !== undefined && !rec) throw new InputError(`the regions data set ${regionsId} of run ${run.id} is gone`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found');
+    if (regionsId !== undefined && !rec)
+      throw new InputError(`the regions data set ${regionsId} of run ${run.id} is gone`, [{ field: 'regions', problem: 'not found' }], 'dataset_not_found');
     const key = `${run.id}\u0000${rec?.contentHash ?? ''}`;
     const hit = zoneCache.get(key);
     if (hit) return hit;
@@ -86,7 +92,11 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
       const req = run.request as RunRequest;
       const q0 = sampleAtLonLat(heat, q.lon, q.lat);
       if (!Number.isFinite(q0)) {
-        throw new InputError(`no heat-flow value at ${q.lon}, ${q.lat}: outside the run's grid or in a no-data cell`, [{ field: 'lon,lat', problem: 'no data at this point' }], 'no_data_here');
+        throw new InputError(
+          `no heat-flow value at ${q.lon}, ${q.lat}: outside the run's grid or in a no-data cell`,
+          [{ field: 'lon,lat', problem: 'no data at this point' }],
+          'no_data_here',
+        );
       }
       const s = sd ? sampleAtLonLat(sd, q.lon, q.lat) : NaN;
       const realizations = (req.realizations ?? 0) > 0 ? COLUMN_BAND_REALIZATIONS : 0;
@@ -112,7 +122,12 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
     if (typeof q.model === 'string') {
       const rec = await ctx.store.getDataset(q.model);
       if (!rec) throw notFound('data set', q.model, 'dataset_not_found');
-      if (rec.kind !== 'model') throw new InputError(`data set ${q.model} holds ${rec.kind}, not a model`, [{ field: 'model', problem: `expected a model, got ${rec.kind}` }], 'wrong_dataset_kind');
+      if (rec.kind !== 'model')
+        throw new InputError(
+          `data set ${q.model} holds ${rec.kind}, not a model`,
+          [{ field: 'model', problem: `expected a model, got ${rec.kind}` }],
+          'wrong_dataset_kind',
+        );
       model = parseModelDocument(JSON.parse(rec.body), `model ${q.model}`).model;
     } else {
       model = parseModelDocument(q.model, 'model').model;
@@ -164,6 +179,10 @@ export function inspectRoutes(app: Hono, ctx: AppContext): void {
 
 function checkSamples(maxDepthKm: number, stepKm: number): void {
   if (maxDepthKm / stepKm > 3000) {
-    throw new InputError(`too many depth samples: maxDepthKm / stepKm = ${Math.ceil(maxDepthKm / stepKm)} (limit 3000)`, [{ field: 'stepKm', problem: 'use a larger step' }], 'invalid_column');
+    throw new InputError(
+      `too many depth samples: maxDepthKm / stepKm = ${Math.ceil(maxDepthKm / stepKm)} (limit 3000)`,
+      [{ field: 'stepKm', problem: 'use a larger step' }],
+      'invalid_column',
+    );
   }
 }

@@ -67,13 +67,19 @@ function freeName(existing: ProjectDatasetRecord[], wanted: string, except?: str
 }
 
 /** Attaches an upload to a project (de-duplicated by content; quota checked for content new to the project). */
-export async function addToProject(ctx: AppContext, projectId: string, up: ParsedUpload, name: string | undefined): Promise<{ dataset: ProjectDatasetRecord; status: 'created' | 'existing' | 'attached' }> {
+export async function addToProject(
+  ctx: AppContext,
+  projectId: string,
+  up: ParsedUpload,
+  name: string | undefined,
+): Promise<{ dataset: ProjectDatasetRecord; status: 'created' | 'existing' | 'attached' }> {
   const hash = sha256Hex(up.body);
   const found = await ctx.store.findDatasetByContent(up.kind, hash);
   const held = found ? await ctx.store.getProjectDataset(projectId, found.id) : null;
   if (held) {
     // Already in the project: nothing stored twice; a new name given with the upload renames it.
-    if (name !== undefined && name !== held.name) await ctx.store.renameProjectDataset(projectId, held.id, freeName(await ctx.store.listProjectDatasets(projectId), name, held.id));
+    if (name !== undefined && name !== held.name)
+      await ctx.store.renameProjectDataset(projectId, held.id, freeName(await ctx.store.listProjectDatasets(projectId), name, held.id));
     return { dataset: (await ctx.store.getProjectDataset(projectId, held.id))!, status: 'existing' };
   }
   await checkQuota(ctx, projectId, Buffer.byteLength(up.body, 'utf8'), `this ${up.kind} data set`);
@@ -83,7 +89,11 @@ export async function addToProject(ctx: AppContext, projectId: string, up: Parse
 }
 
 /** A project's terrain as the API describes it: a MapLibre raster-dem source plus where it came from. */
-function terrainView(projectId: string, meta: { name: string; width: number; height: number; west: number; north: number; dx: number; dy: number; sourceCrs: string; sourceBytes: number }, uploadedAt: string) {
+function terrainView(
+  projectId: string,
+  meta: { name: string; width: number; height: number; west: number; north: number; dx: number; dy: number; sourceCrs: string; sourceBytes: number },
+  uploadedAt: string,
+) {
   const bbox = gridBbox({ ...meta, crs: 'EPSG:4326' });
   return {
     name: meta.name,
@@ -93,7 +103,15 @@ function terrainView(projectId: string, meta: { name: string; width: number; hei
     sourceCrs: meta.sourceCrs,
     sourceBytes: meta.sourceBytes,
     uploadedAt,
-    source: { type: 'raster-dem', tiles: [`/api/projects/${projectId}/terrain/{z}/{x}/{y}.png`], bounds: bbox, minzoom: TERRAIN_MIN_ZOOM, maxzoom: TERRAIN_MAX_ZOOM, encoding: 'mapbox', tileSize: 256 },
+    source: {
+      type: 'raster-dem',
+      tiles: [`/api/projects/${projectId}/terrain/{z}/{x}/{y}.png`],
+      bounds: bbox,
+      minzoom: TERRAIN_MIN_ZOOM,
+      maxzoom: TERRAIN_MAX_ZOOM,
+      encoding: 'mapbox',
+      tileSize: 256,
+    },
   };
 }
 
@@ -105,7 +123,12 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     const raw = c.req.param('dsId') ?? '';
     const id = idSchema.safeParse(raw);
     const rec = id.success ? await ctx.store.getProjectDataset(projectId, id.data) : null;
-    if (!rec) throw new InputError(`project ${projectId} holds no data set with id "${raw}"`, [{ field: 'dsId', problem: 'not found in this project' }], 'dataset_not_found');
+    if (!rec)
+      throw new InputError(
+        `project ${projectId} holds no data set with id "${raw}"`,
+        [{ field: 'dsId', problem: 'not found in this project' }],
+        'dataset_not_found',
+      );
     return rec;
   };
 
@@ -156,7 +179,12 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     requireJsonType(c);
     const { name } = parseWith(datasetPatchSchema, await jsonBody(c), 'data set change', 'invalid_dataset_change');
     const clash = (await ctx.store.listProjectDatasets(id)).find((d) => d.id !== held.id && d.name === name);
-    if (clash) throw new InputError(`another data set of this project is already named "${name}"`, [{ field: 'name', problem: `used by data set ${clash.id}` }], 'name_taken');
+    if (clash)
+      throw new InputError(
+        `another data set of this project is already named "${name}"`,
+        [{ field: 'name', problem: `used by data set ${clash.id}` }],
+        'name_taken',
+      );
     await ctx.store.renameProjectDataset(id, held.id, name);
     return c.json(datasetView(id, (await ctx.store.getProjectDataset(id, held.id))!));
   });
@@ -178,13 +206,29 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     const q = parseWith(terrainQuerySchema, singleQuery(c), 'query', 'bad_query');
     const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
     if (type !== 'image/tiff' && type !== 'image/geotiff' && type !== 'application/octet-stream') {
-      throw new InputError(`a terrain is a GeoTIFF: send it as image/tiff, got "${type || '(none)'}"`, [{ field: 'content-type', problem: 'expected image/tiff' }], 'unsupported_media_type');
+      throw new InputError(
+        `a terrain is a GeoTIFF: send it as image/tiff, got "${type || '(none)'}"`,
+        [{ field: 'content-type', problem: 'expected image/tiff' }],
+        'unsupported_media_type',
+      );
     }
     const bytes = new Uint8Array(await c.req.arrayBuffer());
     const { grid, sourceCrs } = await demFromUpload(bytes, ctx.limits.maxTerrainBytes);
     const old = await ctx.store.getProjectTerrain(id);
     await checkQuota(ctx, id, grid.values.byteLength - (old ? old.values.byteLength : 0), 'this terrain');
-    const meta = { width: grid.width, height: grid.height, west: grid.west, north: grid.north, dx: grid.dx, dy: grid.dy, crs: 'EPSG:4326', units: 'm', sourceCrs, sourceBytes: bytes.byteLength, name: q.name ?? 'Terrain' };
+    const meta = {
+      width: grid.width,
+      height: grid.height,
+      west: grid.west,
+      north: grid.north,
+      dx: grid.dx,
+      dy: grid.dy,
+      crs: 'EPSG:4326',
+      units: 'm',
+      sourceCrs,
+      sourceBytes: bytes.byteLength,
+      name: q.name ?? 'Terrain',
+    };
     const rec = await ctx.store.putProjectTerrain(id, grid.values, meta);
     terrainTiles.delete(id);
     return c.json(terrainView(id, meta, rec.createdAt), 201);
@@ -193,7 +237,12 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
   app.get('/api/projects/:id/terrain', async (c) => {
     const id = await projectIdOf(c, ctx);
     const t = await ctx.store.getProjectTerrain(id);
-    if (!t) throw new InputError(`project ${id} has no terrain: upload a DEM GeoTIFF with POST /api/projects/${id}/terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found');
+    if (!t)
+      throw new InputError(
+        `project ${id} has no terrain: upload a DEM GeoTIFF with POST /api/projects/${id}/terrain`,
+        [{ field: 'terrain', problem: 'none uploaded' }],
+        'terrain_not_found',
+      );
     return c.json(terrainView(id, t.meta, t.createdAt));
   });
 
@@ -201,7 +250,8 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     const id = await projectIdOf(c, ctx);
     const { z, x } = c.req.param();
     const m = /^(\d+)\.png$/.exec(c.req.param('y'));
-    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) throw new InputError('terrain tiles are …/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: 'bad tile address' }], 'bad_tile');
+    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x))
+      throw new InputError('terrain tiles are …/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: 'bad tile address' }], 'bad_tile');
     let entry = terrainTiles.get(id);
     const t = entry ? null : await ctx.store.getProjectTerrain(id);
     if (!entry) {
@@ -211,7 +261,12 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
       if (terrainTiles.size > 8) terrainTiles.delete(terrainTiles.keys().next().value as string);
     }
     const png = entry.tiles.tile(Number(z), Number(x), Number(m[1]));
-    if (!png) throw new InputError(`no terrain tile ${z}/${x}/${m[1]}`, [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }], 'tile_not_found');
+    if (!png)
+      throw new InputError(
+        `no terrain tile ${z}/${x}/${m[1]}`,
+        [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }],
+        'tile_not_found',
+      );
     return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'no-cache' });
   });
 

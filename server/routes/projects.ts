@@ -23,7 +23,11 @@ export async function requireEditToken(c: Context, ctx: AppContext, id: string):
   const token = bearerToken(c.req.header('authorization'));
   if (token === null) {
     c.header('www-authenticate', 'Bearer realm="subtherm project"');
-    throw new InputError('changing a project needs its edit token: Authorization: Bearer <editToken> (from the edit link)', [{ field: 'authorization', problem: 'missing' }], 'unauthorized');
+    throw new InputError(
+      'changing a project needs its edit token: Authorization: Bearer <editToken> (from the edit link)',
+      [{ field: 'authorization', problem: 'missing' }],
+      'unauthorized',
+    );
   }
   if (!tokenMatches(token, (await ctx.store.getProjectTokenHash(id))!)) {
     throw new InputError('this token cannot edit this project (a view link is read-only)', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden');
@@ -33,12 +37,20 @@ export async function requireEditToken(c: Context, ctx: AppContext, id: string):
 export function projectRoutes(app: Hono, ctx: AppContext): void {
   const stateJson = (state: Record<string, unknown>): string => {
     if (jsonDepthExceeds(state, ctx.limits.maxJsonDepth)) {
-      throw new InputError(`the state is nested deeper than ${ctx.limits.maxJsonDepth} levels`, [{ field: 'state', problem: `at most ${ctx.limits.maxJsonDepth} levels of nesting` }], 'state_too_deep');
+      throw new InputError(
+        `the state is nested deeper than ${ctx.limits.maxJsonDepth} levels`,
+        [{ field: 'state', problem: `at most ${ctx.limits.maxJsonDepth} levels of nesting` }],
+        'state_too_deep',
+      );
     }
     const text = JSON.stringify(state);
     const bytes = Buffer.byteLength(text, 'utf8');
     if (bytes > ctx.limits.maxProjectStateBytes) {
-      throw new InputError(`the state is ${bytes} bytes (limit ${ctx.limits.maxProjectStateBytes})`, [{ field: 'state', problem: `at most ${ctx.limits.maxProjectStateBytes} bytes of JSON` }], 'state_too_large');
+      throw new InputError(
+        `the state is ${bytes} bytes (limit ${ctx.limits.maxProjectStateBytes})`,
+        [{ field: 'state', problem: `at most ${ctx.limits.maxProjectStateBytes} bytes of JSON` }],
+        'state_too_large',
+      );
     }
     return text;
   };
@@ -59,7 +71,9 @@ export function projectRoutes(app: Hono, ctx: AppContext): void {
     const { revision } = parseWith(revisionQuerySchema, singleQuery(c), 'query', 'bad_query');
     const rec = await ctx.store.getProject(id, revision);
     if (!rec) throw new InputError(`project ${id} has no revision ${revision}`, [{ field: 'revision', problem: 'not found' }], 'revision_not_found');
-    return c.json({ id: rec.id, title: rec.title, state: rec.state, revision: rec.revision, updatedAt: rec.updatedAt, createdAt: rec.createdAt }, 200, { 'cache-control': 'no-store' });
+    return c.json({ id: rec.id, title: rec.title, state: rec.state, revision: rec.revision, updatedAt: rec.updatedAt, createdAt: rec.createdAt }, 200, {
+      'cache-control': 'no-store',
+    });
   });
 
   app.get('/api/projects/:id/revisions', async (c) => {

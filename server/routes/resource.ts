@@ -78,7 +78,12 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
     if (vertices > L.maxPolygonVertices) {
       throw new InputError(
         `the polygons have more than ${L.maxPolygonVertices} vertices (limit maxPolygonVertices): simplify them first`,
-        [{ field: body.polygon !== undefined ? 'polygon' : 'zones', problem: `more than ${L.maxPolygonVertices} vertices (limit maxPolygonVertices = ${L.maxPolygonVertices})` }],
+        [
+          {
+            field: body.polygon !== undefined ? 'polygon' : 'zones',
+            problem: `more than ${L.maxPolygonVertices} vertices (limit maxPolygonVertices = ${L.maxPolygonVertices})`,
+          },
+        ],
         'over_limit',
       );
     }
@@ -86,7 +91,12 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
     const id = idSchema.safeParse(runId);
     const run = id.success ? await ctx.store.getRun(id.data) : null;
     if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found');
-    if (run.status !== 'done') throw new InputError(`run ${run.id} is ${run.status}: heat in place needs a finished run`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done');
+    if (run.status !== 'done')
+      throw new InputError(
+        `run ${run.id} is ${run.status}: heat in place needs a finished run`,
+        [{ field: 'runId', problem: `status ${run.status}` }],
+        'run_not_done',
+      );
     // Everything the caller can get wrong is checked now (bounded above, so cheap), not in the job.
     const options = parseHeatInPlaceOptions(body.options ?? {}, 'options');
     if (body.polygon !== undefined) parseAreaPolygon(body.polygon, 'polygon');
@@ -94,7 +104,12 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
     if (options.realizations > L.maxHeatInPlaceRealizations) {
       throw new InputError(
         `at most ${L.maxHeatInPlaceRealizations} realizations per heat-in-place job (limit maxHeatInPlaceRealizations), got ${options.realizations}`,
-        [{ field: 'options.realizations', problem: `${options.realizations} > maxHeatInPlaceRealizations = ${L.maxHeatInPlaceRealizations}; use the CLI for larger runs` }],
+        [
+          {
+            field: 'options.realizations',
+            problem: `${options.realizations} > maxHeatInPlaceRealizations = ${L.maxHeatInPlaceRealizations}; use the CLI for larger runs`,
+          },
+        ],
         'over_limit',
       );
     }
@@ -115,7 +130,15 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
       client: clientAddress(c, ctx.trustedProxies),
       work,
       // With realizations, the job reads the run's own (server/runs/realizations.ts): the worker builds them from this record.
-      task: { kind: 'heat-in-place', runId: run.id, heatFlow: heat.grid, heatFlowSd: sd?.grid ?? null, model: run.model, body, record: options.realizations > 0 ? await readRunRecord(ctx.store, run.id) : null },
+      task: {
+        kind: 'heat-in-place',
+        runId: run.id,
+        heatFlow: heat.grid,
+        heatFlowSd: sd?.grid ?? null,
+        model: run.model,
+        body,
+        record: options.realizations > 0 ? await readRunRecord(ctx.store, run.id) : null,
+      },
     });
     return c.json(jobView(run.id, job, ctx.heatJobs.position(job)), 202, { location: `/api/runs/${encodeURIComponent(run.id)}/heat-in-place/${job.id}` });
   });
@@ -138,7 +161,12 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
     }
     const out = job.output;
     if (m[2] === 'html') return c.body(out.html, 200, { 'content-type': 'text/html; charset=utf-8', 'cache-control': 'private, max-age=86400' });
-    if (m[2] === 'csv') return c.body(out.csv, 200, { 'content-type': 'text/csv; charset=utf-8', 'content-disposition': `attachment; filename="heat-in-place-${job.id}.csv"`, 'cache-control': 'private, max-age=86400' });
+    if (m[2] === 'csv')
+      return c.body(out.csv, 200, {
+        'content-type': 'text/csv; charset=utf-8',
+        'content-disposition': `attachment; filename="heat-in-place-${job.id}.csv"`,
+        'cache-control': 'private, max-age=86400',
+      });
     return c.json(out.report as Record<string, unknown>, 200, { 'cache-control': 'private, max-age=86400' });
   });
 }

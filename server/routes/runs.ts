@@ -70,10 +70,16 @@ export function requestedCells(req: RunRequest, sitesBody: string): number | nul
   let bbox = req.grid.bbox ?? ip.bbox;
   if (!bbox) {
     const fc = JSON.parse(sitesBody) as { features: { geometry: { coordinates: number[] } }[] };
-    let w = Infinity, s = Infinity, e = -Infinity, n = -Infinity;
+    let w = Infinity,
+      s = Infinity,
+      e = -Infinity,
+      n = -Infinity;
     for (const f of fc.features) {
       const [x, y] = f.geometry.coordinates;
-      w = Math.min(w, x); e = Math.max(e, x); s = Math.min(s, y); n = Math.max(n, y);
+      w = Math.min(w, x);
+      e = Math.max(e, x);
+      s = Math.min(s, y);
+      n = Math.max(n, y);
     }
     if (!(e >= w && n >= s)) return null;
     bbox = [w, s, e, n];
@@ -90,7 +96,12 @@ export function requestedCells(req: RunRequest, sitesBody: string): number | nul
  * holds, the model's name is the project's name for it, and the run is listed under the project. Data sets that
  * lie far apart are reported in `warnings` (also by POST …/runs/check before starting).
  */
-export async function submitRun(ctx: AppContext, body: unknown, client: string, projectId?: string): Promise<{ status: 200 | 202; body: Record<string, unknown> }> {
+export async function submitRun(
+  ctx: AppContext,
+  body: unknown,
+  client: string,
+  projectId?: string,
+): Promise<{ status: 200 | 202; body: Record<string, unknown> }> {
   requireRunInputs(body);
   const request = parseWith(runRequestSchema, body, 'run request', 'invalid_run');
   // The engines' own options are validated here too, so a mistake is a 422 now rather than a failed run later.
@@ -125,7 +136,16 @@ export async function submitRun(ctx: AppContext, body: unknown, client: string, 
   return {
     status: cached ? 200 : 202,
     // The run token (only for a run this request started) is needed to cancel it: DELETE with Authorization: Bearer.
-    body: { id, status: snap?.status ?? 'queued', cached, ...(runToken !== undefined ? { runToken } : {}), url: `/api/runs/${id}`, events: `/api/runs/${id}/events`, datasets: names, warnings },
+    body: {
+      id,
+      status: snap?.status ?? 'queued',
+      cached,
+      ...(runToken !== undefined ? { runToken } : {}),
+      url: `/api/runs/${id}`,
+      events: `/api/runs/${id}/events`,
+      datasets: names,
+      warnings,
+    },
   };
 }
 
@@ -134,7 +154,10 @@ export function requireRunInputs(body: unknown): void {
   const o = body !== null && typeof body === 'object' && !Array.isArray(body) ? (body as Record<string, unknown>) : {};
   const missing: { field: string; problem: string }[] = [];
   if (o.sites === undefined || o.sites === null || o.sites === '') {
-    missing.push({ field: 'sites', problem: 'add heat-flow sites: upload a sites data set (CSV with longitude,latitude,heatFlowMWm2 or GeoJSON points) and name its id in "sites"' });
+    missing.push({
+      field: 'sites',
+      problem: 'add heat-flow sites: upload a sites data set (CSV with longitude,latitude,heatFlowMWm2 or GeoJSON points) and name its id in "sites"',
+    });
   }
   if (o.model === undefined || o.model === null || o.model === '') {
     missing.push({ field: 'model', problem: 'add a thermal model: upload a model data set (JSON) and name its id in "model", or give the model inline' });
@@ -153,12 +176,21 @@ export async function resolveRunDatasets(ctx: AppContext, request: RunRequest, p
   const need = async (role: string, id: string, kind: string): Promise<DatasetRecord & { body: string; name: string | null }> => {
     const rec = await ctx.store.getDataset(id);
     if (!rec) throw new InputError(`${role}: no data set with id "${id}"`, [{ field: role, problem: `data set ${id} not found` }], 'dataset_not_found');
-    if (rec.kind !== kind) throw new InputError(`${role}: data set "${id}" holds ${rec.kind}, not ${kind}`, [{ field: role, problem: `expected a ${kind} data set, got ${rec.kind}` }], 'wrong_dataset_kind');
+    if (rec.kind !== kind)
+      throw new InputError(
+        `${role}: data set "${id}" holds ${rec.kind}, not ${kind}`,
+        [{ field: role, problem: `expected a ${kind} data set, got ${rec.kind}` }],
+        'wrong_dataset_kind',
+      );
     let name = rec.title;
     if (projectId !== undefined) {
       const held = await ctx.store.getProjectDataset(projectId, id);
       if (!held) {
-        throw new InputError(`${role}: data set "${id}" is not one of this project's data sets: upload it into the project (or choose one it holds)`, [{ field: role, problem: `data set ${id} is not in project ${projectId}` }], 'dataset_not_in_project');
+        throw new InputError(
+          `${role}: data set "${id}" is not one of this project's data sets: upload it into the project (or choose one it holds)`,
+          [{ field: role, problem: `data set ${id} is not in project ${projectId}` }],
+          'dataset_not_in_project',
+        );
       }
       name = held.name;
     }
@@ -195,12 +227,15 @@ export function bboxGapKm(a: [number, number, number, number], b: [number, numbe
   // Nearest latitudes; nearest longitudes allowing for the antimeridian (the smaller of the two ways round).
   const latA = clamp((b[1] + b[3]) / 2, a[1], a[3]);
   const latB = clamp(latA, b[1], b[3]);
-  const la = lon(a), lb = lon(b);
+  const la = lon(a),
+    lb = lon(b);
   let dLon = 0;
   if (lb.w > la.e) dLon = Math.min(lb.w - la.e, 360 - (lb.e - la.w));
   else if (la.w > lb.e) dLon = Math.min(la.w - lb.e, 360 - (la.e - lb.w));
   const toRad = Math.PI / 180;
-  const p1 = latA * toRad, p2 = latB * toRad, dl = Math.max(0, dLon) * toRad;
+  const p1 = latA * toRad,
+    p2 = latB * toRad,
+    dl = Math.max(0, dLon) * toRad;
   const h = Math.sin((p2 - p1) / 2) ** 2 + Math.cos(p1) * Math.cos(p2) * Math.sin(dl / 2) ** 2;
   return 2 * MEAN_EARTH_RADIUS_KM * Math.asin(Math.min(1, Math.sqrt(h)));
 }
@@ -220,7 +255,9 @@ export function farApartWarnings(bboxes: { role: string; id: string; name: strin
     const gap = bboxGapKm(sites.bbox, b.bbox);
     if (gap > FAR_APART_KM) {
       const label = (x: typeof b) => `${x.role} "${x.name ?? x.id}"`;
-      out.push(`${label(b)} lie ${Math.round(gap).toLocaleString('en')} km from the ${label(sites)}: check that both describe the same region before relying on this run`);
+      out.push(
+        `${label(b)} lie ${Math.round(gap).toLocaleString('en')} km from the ${label(sites)}: check that both describe the same region before relying on this run`,
+      );
     }
   }
   return out;
@@ -254,10 +291,18 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
     // The run token returned when the run started, or the edit token of the project it was started through.
     const auth = await ctx.jobs.authorizeCancel(rec.id, bearerToken(c.req.header('authorization')), (p) => ctx.store.getProjectTokenHash(p));
     if (auth === 'missing') {
-      throw new InputError('cancelling a run needs its run token (returned when it started) or its project\'s edit token: send Authorization: Bearer <token>', [{ field: 'authorization', problem: 'missing' }], 'token_required');
+      throw new InputError(
+        "cancelling a run needs its run token (returned when it started) or its project's edit token: send Authorization: Bearer <token>",
+        [{ field: 'authorization', problem: 'missing' }],
+        'token_required',
+      );
     }
     if (auth === 'wrong') {
-      throw new InputError('this token may not cancel this run: it is neither the run\'s token nor the edit token of the project that started it', [{ field: 'authorization', problem: 'wrong token' }], 'forbidden');
+      throw new InputError(
+        "this token may not cancel this run: it is neither the run's token nor the edit token of the project that started it",
+        [{ field: 'authorization', problem: 'wrong token' }],
+        'forbidden',
+      );
     }
     const after = await ctx.jobs.cancel(rec.id);
     return c.json({ id: rec.id, status: after?.status ?? 'cancelled' });
@@ -303,14 +348,19 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
   // Every vector layer of a finished run in one GeoPackage (one table per layer).
   app.get('/api/runs/:id/vectors.gpkg', async (c) => {
     const rec = await getRun(c.req.param('id'));
-    if (rec.status !== 'done') throw new InputError(`the run is ${rec.status}; its GeoPackage appears when it is done`, [{ field: 'file', problem: 'not found' }], 'layer_not_found');
+    if (rec.status !== 'done')
+      throw new InputError(`the run is ${rec.status}; its GeoPackage appears when it is done`, [{ field: 'file', problem: 'not found' }], 'layer_not_found');
     const listed = (rec.layers as { name: string; title?: string; formats?: string[] }[]).filter((l) => l.formats?.includes('geojson'));
-    const files = await Promise.all(listed.map(async (l) => ({ name: l.name, title: l.title ?? l.name, file: await ctx.store.getRunFile(rec.id, l.name, 'geojson') })));
-    const layers = files
-      .filter((l) => l.file !== null)
-      .map((l) => ({ name: l.name, title: l.title, geojson: new TextDecoder().decode(l.file!.bytes) }));
+    const files = await Promise.all(
+      listed.map(async (l) => ({ name: l.name, title: l.title ?? l.name, file: await ctx.store.getRunFile(rec.id, l.name, 'geojson') })),
+    );
+    const layers = files.filter((l) => l.file !== null).map((l) => ({ name: l.name, title: l.title, geojson: new TextDecoder().decode(l.file!.bytes) }));
     const bytes = vectorsGeoPackage(layers, (rec.summary as { provenance?: unknown } | null)?.provenance);
-    return c.body(new Uint8Array(bytes), 200, { 'content-type': 'application/geopackage+sqlite3', 'cache-control': 'private, max-age=3600', 'content-disposition': `attachment; filename="run-${rec.id}.gpkg"` });
+    return c.body(new Uint8Array(bytes), 200, {
+      'content-type': 'application/geopackage+sqlite3',
+      'cache-control': 'private, max-age=3600',
+      'content-disposition': `attachment; filename="run-${rec.id}.gpkg"`,
+    });
   });
 
   app.get('/api/runs/:id/layers/:file', async (c) => {
@@ -318,7 +368,11 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
     const file = c.req.param('file');
     const m = /^(.+)\.([a-z]+)$/.exec(file);
     if (!m || !LAYER_EXTS.includes(m[2] as LayerExt)) {
-      throw new InputError(`layer files are <name>.tif, .png, .geojson or .csv, got "${file}"`, [{ field: 'file', problem: 'unknown format' }], 'bad_layer_format');
+      throw new InputError(
+        `layer files are <name>.tif, .png, .geojson or .csv, got "${file}"`,
+        [{ field: 'file', problem: 'unknown format' }],
+        'bad_layer_format',
+      );
     }
     const stored = await ctx.store.getRunFile(rec.id, m[1], m[2]);
     if (!stored) {
@@ -326,7 +380,12 @@ export function runRoutes(app: Hono, ctx: AppContext): void {
       throw new InputError(why, [{ field: 'file', problem: 'not found' }], 'layer_not_found');
     }
     const etag = `"${stored.hash}"`;
-    const headers = { 'content-type': stored.contentType, etag, 'cache-control': 'private, max-age=3600', 'content-disposition': `inline; filename="${m[1]}.${m[2]}"` };
+    const headers = {
+      'content-type': stored.contentType,
+      etag,
+      'cache-control': 'private, max-age=3600',
+      'content-disposition': `inline; filename="${m[1]}.${m[2]}"`,
+    };
     if (c.req.header('if-none-match') === etag) return c.body(null, 304, headers);
     return c.body(new Uint8Array(stored.bytes), 200, headers);
   });

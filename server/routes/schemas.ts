@@ -6,7 +6,11 @@
 import { z } from 'zod';
 import { InputError, type InputProblem } from '../../shared/errors.ts';
 
-export const idSchema = z.string().min(1).max(100).regex(/^[A-Za-z0-9_-]+$/, 'an id has letters, digits, _ and - only');
+export const idSchema = z
+  .string()
+  .min(1)
+  .max(100)
+  .regex(/^[A-Za-z0-9_-]+$/, 'an id has letters, digits, _ and - only');
 const longitude = z.number().min(-180, 'longitude must be within [-180, 180] degrees').max(180, 'longitude must be within [-180, 180] degrees');
 const latitude = z.number().min(-90, 'latitude must be within [-90, 90] degrees').max(90, 'latitude must be within [-90, 90] degrees');
 const isotherms = z.array(z.number().gt(-50).lt(2000)).min(1).max(10);
@@ -23,7 +27,9 @@ const columnAxis = {
     .string()
     .regex(/^(hydrostatic|lambda:\d+(\.\d+)?)$/, 'expected hydrostatic or lambda:λ, e.g. lambda:0.7')
     .optional()
-    .describe('pore pressure in the profile: "hydrostatic" (default; ρ_fluid·g·z) or "lambda:λ" (λ × lithostatic, Hubbert & Rubey 1959); the answer gives porePressureMPa, poreFluidFactor (λ = pore / lithostatic) and effectivePressureMPa (lithostatic − pore) at each depth'),
+    .describe(
+      'pore pressure in the profile: "hydrostatic" (default; ρ_fluid·g·z) or "lambda:λ" (λ × lithostatic, Hubbert & Rubey 1959); the answer gives porePressureMPa, poreFluidFactor (λ = pore / lithostatic) and effectivePressureMPa (lithostatic − pore) at each depth',
+    ),
   /** Pore-fluid density for hydrostatic pressure, kg/m³ (default 1000). */
   fluidDensityKgM3: z.number().gt(0).lt(5000).optional().describe('pore-fluid density for hydrostatic pore pressure, kg/m³ (default 1000)'),
 };
@@ -42,20 +48,27 @@ export const columnOfModelSchema = z.strictObject({
   heatFlowMWm2: z.number().gt(0, 'heat flow must be > 0 mW/m²').lt(2000).optional(),
   heatFlowSdMWm2: z.number().min(0).lt(2000).optional(),
   realizations: z.number().int().min(0).max(2000).default(0),
-  seed: z.number().int().min(0).max(2 ** 32 - 1).default(1),
+  seed: z
+    .number()
+    .int()
+    .min(0)
+    .max(2 ** 32 - 1)
+    .default(1),
   ...columnAxis,
 });
 
 const lonLatPair = z.tuple([longitude, latitude]);
 
 /** POST /api/section: a polyline through a run's grid. */
-export const sectionSchema = z.strictObject({
-  runId: idSchema,
-  line: z.array(lonLatPair).min(2, 'a section line needs at least two vertices').max(1000),
-  maxDepthKm: z.number().gt(0).max(300).default(30),
-  samples: z.number().int().min(2).max(1000).default(200),
-  depthSamples: z.number().int().min(2).max(500).default(100),
-}).refine((q) => q.samples * q.depthSamples <= 250_000, { message: 'samples × depthSamples must be at most 250,000 cells', path: ['samples'] });
+export const sectionSchema = z
+  .strictObject({
+    runId: idSchema,
+    line: z.array(lonLatPair).min(2, 'a section line needs at least two vertices').max(1000),
+    maxDepthKm: z.number().gt(0).max(300).default(30),
+    samples: z.number().int().min(2).max(1000).default(200),
+    depthSamples: z.number().int().min(2).max(500).default(100),
+  })
+  .refine((q) => q.samples * q.depthSamples <= 250_000, { message: 'samples × depthSamples must be at most 250,000 cells', path: ['samples'] });
 
 /** A saved map state: any JSON object the client keeps (view, layers, parameters). */
 const stateSchema = z.record(z.string(), z.unknown());
@@ -72,7 +85,11 @@ export const projectUpdateSchema = z.strictObject({
 });
 
 export const revisionQuerySchema = z.object({
-  revision: z.string().regex(/^[1-9][0-9]{0,8}$/, 'revision is a positive integer').transform(Number).optional(),
+  revision: z
+    .string()
+    .regex(/^[1-9][0-9]{0,8}$/, 'revision is a positive integer')
+    .transform(Number)
+    .optional(),
 });
 
 export const datasetQuerySchema = z.object({

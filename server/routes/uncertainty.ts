@@ -33,10 +33,15 @@ const num = (what: string, lo: number, hi: number) =>
     .refine((v) => v > lo && v <= hi, `${what} must be within (${lo}, ${hi}]`);
 
 const spreadQuery = z.strictObject({ isothermC: num('isothermC (°C)', -50, 2000) });
-const probabilityQuery = z.union([
-  z.strictObject({ isothermC: num('isothermC (°C)', -50, 2000), shallowerThanKm: num('shallowerThanKm (km)', 0, 300) }),
-  z.strictObject({ depthKm: num('depthKm (km)', 0, 300), exceedsC: num('exceedsC (°C)', -50, 2000) }),
-], { error: 'give isothermC with shallowerThanKm (depth to an isotherm shallower than a depth), or depthKm with exceedsC (temperature at a depth above a value)' });
+const probabilityQuery = z.union(
+  [
+    z.strictObject({ isothermC: num('isothermC (°C)', -50, 2000), shallowerThanKm: num('shallowerThanKm (km)', 0, 300) }),
+    z.strictObject({ depthKm: num('depthKm (km)', 0, 300), exceedsC: num('exceedsC (°C)', -50, 2000) }),
+  ],
+  {
+    error: 'give isothermC with shallowerThanKm (depth to an isotherm shallower than a depth), or depthKm with exceedsC (temperature at a depth above a value)',
+  },
+);
 
 const fmt = (v: number) => String(+v.toPrecision(12));
 
@@ -66,7 +71,12 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
         const grid: Grid<Float32Array> = { ...rr.grid, units: spec.units, values };
         const summary = (run.summary ?? {}) as { provenance?: { inputs?: Record<string, string> } };
         const provenance = buildProvenance(
-          { method: `${spec.method}; ${rr.source}`, model: run.model, inputs: { ...(summary.provenance?.inputs ?? {}), run: runId }, parameters: { layer: spec.name, realizations: rr.count, seed: rr.seed } },
+          {
+            method: `${spec.method}; ${rr.source}`,
+            model: run.model,
+            inputs: { ...(summary.provenance?.inputs ?? {}), run: runId },
+            parameters: { layer: spec.name, realizations: rr.count, seed: rr.seed },
+          },
           sha256Hex,
         );
         const legend = spec.legend(values);
@@ -91,7 +101,12 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
     const id = idSchema.safeParse(raw);
     const run = id.success ? await ctx.store.getRun(id.data) : null;
     if (!run) throw notFound('run', raw, 'run_not_found');
-    if (run.status !== 'done') throw new InputError(`run ${run.id} is ${run.status}; its uncertainty layers exist when it is done`, [{ field: 'id', problem: `status ${run.status}` }], 'run_not_done');
+    if (run.status !== 'done')
+      throw new InputError(
+        `run ${run.id} is ${run.status}; its uncertainty layers exist when it is done`,
+        [{ field: 'id', problem: `status ${run.status}` }],
+        'run_not_done',
+      );
     return run;
   };
 
@@ -111,7 +126,10 @@ export function uncertaintyRoutes(app: Hono, ctx: AppContext): void {
       units: 'km',
       method: `P90 − P10 (Hyndman & Fan type 7) of the depth to the ${T} °C isotherm over the run's realizations; NoData where a percentile is not reached`,
       ramp: HAZE,
-      legend: (v) => { const s = layerStats(v); return rampLegend(HAZE, 'km', 0, s.max !== null && s.max > 0 ? s.max : 1); },
+      legend: (v) => {
+        const s = layerStats(v);
+        return rampLegend(HAZE, 'km', 0, s.max !== null && s.max > 0 ? s.max : 1);
+      },
       compute: (rr) => isothermSpreadKm(rr, isothermC),
     });
     return c.json(answer(run.id, r));

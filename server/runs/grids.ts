@@ -19,7 +19,10 @@ const WGS84 = /^(EPSG:4326|WGS84|CRS:84|OGC:CRS84)$/i;
 export class RunGridCache {
   private readonly cache = new Map<string, RunGrid | null>();
 
-  constructor(private readonly store: Store, private readonly capacity = 16) {}
+  constructor(
+    private readonly store: Store,
+    private readonly capacity = 16,
+  ) {}
 
   /** The named grid of a run, or null when the run has none. */
   async get(runId: string, name: string): Promise<RunGrid | null> {

@@ -37,8 +37,23 @@ export interface RunSimulationOptions {
 }
 
 /** The run's interpolation options that its heat-flow simulation follows (IDW runs: the simulation's defaults). */
-export function runSimulationOptions(iopt: { variogram?: RunSimulationOptions['variogram']; anisotropy?: RunSimulationOptions['anisotropy']; neighbors?: number | 'all'; lagKm?: number; maxLagKm?: number; measurementError?: boolean; method: string }): RunSimulationOptions {
-  return { variogram: iopt.variogram, anisotropy: iopt.anisotropy ?? null, neighbors: iopt.method === 'kriging' ? iopt.neighbors : undefined, lagKm: iopt.lagKm, maxLagKm: iopt.maxLagKm, measurementError: iopt.measurementError };
+export function runSimulationOptions(iopt: {
+  variogram?: RunSimulationOptions['variogram'];
+  anisotropy?: RunSimulationOptions['anisotropy'];
+  neighbors?: number | 'all';
+  lagKm?: number;
+  maxLagKm?: number;
+  measurementError?: boolean;
+  method: string;
+}): RunSimulationOptions {
+  return {
+    variogram: iopt.variogram,
+    anisotropy: iopt.anisotropy ?? null,
+    neighbors: iopt.method === 'kriging' ? iopt.neighbors : undefined,
+    lagKm: iopt.lagKm,
+    maxLagKm: iopt.maxLagKm,
+    measurementError: iopt.measurementError,
+  };
 }
 
 export interface HeatFlowSimulation {
@@ -59,7 +74,14 @@ export interface HeatFlowSimulation {
  * Simulates `count` heat-flow fields on `grid` (its CRS's proj4 definition `crsDef`), conditioned on the sites.
  * Cells where `grid` has no data (masked, beyond the search distance) stay NaN.
  */
-export function simulateRunHeatFlow(points: PointData, o: RunSimulationOptions, grid: Grid<Float32Array>, crsDef: string, count: number, seed: number): HeatFlowSimulation {
+export function simulateRunHeatFlow(
+  points: PointData,
+  o: RunSimulationOptions,
+  grid: Grid<Float32Array>,
+  crsDef: string,
+  count: number,
+  seed: number,
+): HeatFlowSimulation {
   const cells = grid.width * grid.height;
   if (count * cells > MAX_SIMULATED_VALUES) {
     throw new InputError(
@@ -89,11 +111,14 @@ export function simulateRunHeatFlow(points: PointData, o: RunSimulationOptions, 
   const q = grid.values;
   for (let c = 0; c < cells; c++) if (!(q[c] === q[c])) for (let k = 0; k < count; k++) values[k * cells + c] = NaN;
   let checksum = 0;
-  for (let c = 0; c < cells; c++) { const v = values[c]; if (v === v) checksum += v; }
+  for (let c = 0; c < cells; c++) {
+    const v = values[c];
+    if (v === v) checksum += v;
+  }
   const v = r.variogram;
   const space = r.transform.kind === 'normal-score' ? 'normal scores' : 'mW/m²';
   const report: HeatFlowSimulation['report'] = {
-    method: `conditional simulation: ${r.sampler.method}${r.transform.kind === 'normal-score' ? ', through a normal-score transform of the sites\' heat flow and its back-transform' : ''}`,
+    method: `conditional simulation: ${r.sampler.method}${r.transform.kind === 'normal-score' ? ", through a normal-score transform of the sites' heat flow and its back-transform" : ''}`,
     variogram: { model: v.model, nugget: v.nugget, partialSill: v.partialSill, rangeKm: v.rangeKm, anisotropy: v.anisotropy, source: v.source, space },
     transform: r.transform.kind,
     sampler: r.sampler.kind,

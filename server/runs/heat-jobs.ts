@@ -75,8 +75,16 @@ export class HeatJobs {
     }
     this.evict();
     const job: HeatJob = {
-      id: newId('hip_'), runId: input.runId, client: input.client, status: 'queued', createdAt: new Date().toISOString(), finishedAt: null,
-      output: null, error: null, work: input.work, task: input.task,
+      id: newId('hip_'),
+      runId: input.runId,
+      client: input.client,
+      status: 'queued',
+      createdAt: new Date().toISOString(),
+      finishedAt: null,
+      output: null,
+      error: null,
+      work: input.work,
+      task: input.task,
     };
     this.jobs.set(job.id, job);
     const q = this.waiting.get(job.client);
@@ -138,7 +146,12 @@ export class HeatJobs {
         if (e instanceof InputError) {
           // A deadline reached is the job's size, not the server's fault: its own code, naming the job's limit.
           const code = e.code === 'deadline_exceeded' ? 'job_deadline_exceeded' : e.code;
-          job.error = { code, message: e.message.replace('computeDeadlineSeconds', 'heatInPlaceDeadlineSeconds'), details: e.details, status: httpStatusOf(code) };
+          job.error = {
+            code,
+            message: e.message.replace('computeDeadlineSeconds', 'heatInPlaceDeadlineSeconds'),
+            details: e.details,
+            status: httpStatusOf(code),
+          };
         } else {
           process.stderr.write(`[${new Date().toISOString()}] heat-in-place job ${job.id} failed: ${(e as Error)?.stack ?? String(e)}\n`);
           job.error = { code: 'internal', message: 'the computation failed on the server', details: [], status: 500 };

@@ -21,7 +21,12 @@ export const isogradStage: ExtraLayerStage = {
     if (request.samples === undefined) return [];
     const samplesDs = datasets[request.samples];
     if (!samplesDs) throw new InputError(`data set "${request.samples}" not found`, [{ field: 'samples', problem: 'not found' }], 'not_found');
-    if (samplesDs.kind !== 'samples') throw new InputError(`data set "${request.samples}" holds ${samplesDs.kind}, not samples`, [{ field: 'samples', problem: `kind ${samplesDs.kind}` }], 'wrong_kind');
+    if (samplesDs.kind !== 'samples')
+      throw new InputError(
+        `data set "${request.samples}" holds ${samplesDs.kind}, not samples`,
+        [{ field: 'samples', problem: `kind ${samplesDs.kind}` }],
+        'wrong_kind',
+      );
     progress(0, 'isograds: reading the grade samples');
     const samples = parseFeatureCollection('samples', JSON.parse(samplesDs.body)).collection as SampleCollection;
     const faultsDs = request.faults !== undefined ? datasets[request.faults] : undefined;
@@ -30,7 +35,14 @@ export const isogradStage: ExtraLayerStage = {
     const model = compileModel(nominalModel(ctx.model), { maxDepthKm: request.maxDepthKm ?? 60 });
     const layer = isogradLayer(samples, faults, { model, heatFlowMWm2: undefined, isogradDipDeg: request.isogradDipDeg });
     for (const w of layer.report.warnings) ctx.warnings.push(`isograds: ${w}`);
-    ctx.summary.structure = { isograds: layer.report.isograds, faults: layer.report.faults, samples: layer.report.samples, misfits: layer.report.misfits, paleoGradients: layer.report.paleoGradients, method: layer.report.method };
+    ctx.summary.structure = {
+      isograds: layer.report.isograds,
+      faults: layer.report.faults,
+      samples: layer.report.samples,
+      misfits: layer.report.misfits,
+      paleoGradients: layer.report.paleoGradients,
+      method: layer.report.method,
+    };
     const provenance = withMethod(ctx.provenance, `isograds: ${layer.report.method.indicator}`);
     const text = geojsonText(layer.lines, provenance);
     progress(1, 'isograds done');

@@ -180,7 +180,14 @@ export class RunJobs {
    * realizations (422), the client's runs and work in flight (429), the server's (503).
    * @param cells output grid cells of the run (null when not known before it starts)
    */
-  async submit(input: { request: RunRequest; datasets: Record<string, { kind: string; body: string }>; cacheKey: string; client: string; cells?: number | null; projectId?: string }): Promise<{ id: string; cached: boolean; runToken?: string }> {
+  async submit(input: {
+    request: RunRequest;
+    datasets: Record<string, { kind: string; body: string }>;
+    cacheKey: string;
+    client: string;
+    cells?: number | null;
+    projectId?: string;
+  }): Promise<{ id: string; cached: boolean; runToken?: string }> {
     await this.ready;
     if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down');
     const existing = await this.store.findRunByCacheKey(input.cacheKey, ['queued', 'running', 'done']);
@@ -197,7 +204,14 @@ export class RunJobs {
     const over = (limit: string, value: number, max: number, message: string, _status: number, code: string) =>
       new InputError(message, [{ field: limit, problem: `${value.toLocaleString('en')} > ${limit} = ${max.toLocaleString('en')}` }], code);
     if (work > L.maxRunWork) {
-      throw over('maxRunCellRealizations', work, L.maxRunWork, `the run asks for ${cells.toLocaleString('en')} cells × ${realizations} realizations = ${work.toLocaleString('en')} (limit maxRunCellRealizations = ${L.maxRunWork.toLocaleString('en')}): use fewer realizations, a larger cellKm or a smaller bbox`, 422, 'run_too_large');
+      throw over(
+        'maxRunCellRealizations',
+        work,
+        L.maxRunWork,
+        `the run asks for ${cells.toLocaleString('en')} cells × ${realizations} realizations = ${work.toLocaleString('en')} (limit maxRunCellRealizations = ${L.maxRunWork.toLocaleString('en')}): use fewer realizations, a larger cellKm or a smaller bbox`,
+        422,
+        'run_too_large',
+      );
     }
     const inFlight = this.perClient.get(input.client) ?? 0;
     if (inFlight >= this.maxPerClient) {
@@ -209,25 +223,63 @@ export class RunJobs {
     }
     const clientWork = this.workPerClient.get(input.client) ?? 0;
     if (clientWork + work > L.maxQueuedWorkPerClient) {
-      throw over('maxQueuedWorkPerClient', clientWork + work, L.maxQueuedWorkPerClient, `this client's runs in flight would total ${(clientWork + work).toLocaleString('en')} cells × realizations (limit maxQueuedWorkPerClient = ${L.maxQueuedWorkPerClient.toLocaleString('en')}); wait for a run to finish`, 429, 'too_much_work');
+      throw over(
+        'maxQueuedWorkPerClient',
+        clientWork + work,
+        L.maxQueuedWorkPerClient,
+        `this client's runs in flight would total ${(clientWork + work).toLocaleString('en')} cells × realizations (limit maxQueuedWorkPerClient = ${L.maxQueuedWorkPerClient.toLocaleString('en')}); wait for a run to finish`,
+        429,
+        'too_much_work',
+      );
     }
     const total = this.queuedCount + this.running.size;
     if (total >= L.maxQueuedServer) {
-      throw new InputError(`the server has ${total} runs queued or running (limit maxQueuedRunsServer = ${L.maxQueuedServer}); try again later`, [{ field: 'maxQueuedRunsServer', problem: `at most ${L.maxQueuedServer} runs in flight on the server` }], 'server_busy');
+      throw new InputError(
+        `the server has ${total} runs queued or running (limit maxQueuedRunsServer = ${L.maxQueuedServer}); try again later`,
+        [{ field: 'maxQueuedRunsServer', problem: `at most ${L.maxQueuedServer} runs in flight on the server` }],
+        'server_busy',
+      );
     }
     if (this.workTotal + work > L.maxQueuedWorkServer) {
-      throw over('maxQueuedWorkServer', this.workTotal + work, L.maxQueuedWorkServer, `the server's runs in flight would total ${(this.workTotal + work).toLocaleString('en')} cells × realizations (limit maxQueuedWorkServer = ${L.maxQueuedWorkServer.toLocaleString('en')}); try again later`, 503, 'server_busy');
+      throw over(
+        'maxQueuedWorkServer',
+        this.workTotal + work,
+        L.maxQueuedWorkServer,
+        `the server's runs in flight would total ${(this.workTotal + work).toLocaleString('en')} cells × realizations (limit maxQueuedWorkServer = ${L.maxQueuedWorkServer.toLocaleString('en')}); try again later`,
+        503,
+        'server_busy',
+      );
     }
     const now = new Date().toISOString();
     const id = newId('run_');
     const rec: RunRecord = {
-      id, cacheKey: input.cacheKey, request: input.request, status: 'queued', progress: 0, message: 'queued',
-      layers: [], summary: null, warnings: [], model: null, grids: [], client: input.client, createdAt: now, updatedAt: now,
+      id,
+      cacheKey: input.cacheKey,
+      request: input.request,
+      status: 'queued',
+      progress: 0,
+      message: 'queued',
+      layers: [],
+      summary: null,
+      warnings: [],
+      model: null,
+      grids: [],
+      client: input.client,
+      createdAt: now,
+      updatedAt: now,
     };
     const runToken = newEditToken();
     const job: Job = {
-      id, cacheKey: input.cacheKey, client: input.client, projectId: input.projectId ?? null, tokenHash: hashToken(runToken), work, startedAt: 0, timedOut: false,
-      request: input.request, datasets: input.datasets,
+      id,
+      cacheKey: input.cacheKey,
+      client: input.client,
+      projectId: input.projectId ?? null,
+      tokenHash: hashToken(runToken),
+      work,
+      startedAt: 0,
+      timedOut: false,
+      request: input.request,
+      datasets: input.datasets,
       abort: new AbortController(),
       snapshot: { id, status: 'queued', progress: 0, message: 'queued' },
       writes: Promise.resolve(),
@@ -257,7 +309,11 @@ export class RunJobs {
    * through (`projectTokenHash` looks that hash up). 'missing' without a token, 'wrong' for any other token, null
    * when the run is not live.
    */
-  async authorizeCancel(id: string, token: string | null, projectTokenHash: (projectId: string) => Promise<string | null>): Promise<'ok' | 'missing' | 'wrong' | null> {
+  async authorizeCancel(
+    id: string,
+    token: string | null,
+    projectTokenHash: (projectId: string) => Promise<string | null>,
+  ): Promise<'ok' | 'missing' | 'wrong' | null> {
     const job = this.running.get(id) ?? this.queuedInOrder().find((j) => j.id === id);
     if (!job) return null;
     if (token === null) return 'missing';
@@ -378,7 +434,9 @@ export class RunJobs {
     this.events.emit(job.id, { ...job.snapshot });
     if (!persist) return job.writes;
     const fields = { status: job.snapshot.status, progress: job.snapshot.progress, message: job.snapshot.message };
-    job.writes = job.writes.then(() => this.store.updateRun(job.id, fields)).catch((e: unknown) => this.log(`[${new Date().toISOString()}] run ${job.id}: could not record its state: ${(e as Error)?.stack ?? String(e)}`));
+    job.writes = job.writes
+      .then(() => this.store.updateRun(job.id, fields))
+      .catch((e: unknown) => this.log(`[${new Date().toISOString()}] run ${job.id}: could not record its state: ${(e as Error)?.stack ?? String(e)}`));
     return job.writes;
   }
 
@@ -434,7 +492,10 @@ export class RunJobs {
     const task: RunTask = { request: job.request, datasets: job.datasets, port: port2 };
     let settled: Promise<unknown>;
     try {
-      settled = this.getPool().run(task, { signal: job.abort.signal, transferList: [port2] as unknown as NonNullable<Parameters<Piscina['run']>[1]>['transferList'] });
+      settled = this.getPool().run(task, {
+        signal: job.abort.signal,
+        transferList: [port2] as unknown as NonNullable<Parameters<Piscina['run']>[1]>['transferList'],
+      });
     } catch (e) {
       settled = Promise.reject(e instanceof Error ? e : new Error(String(e)));
     }
@@ -446,7 +507,11 @@ export class RunJobs {
       .catch((err: unknown) => {
         if (job.timedOut) {
           const s = this.limits.wallClockMs / 1000;
-          this.finish(job, { status: 'failed', progress: job.snapshot.progress, message: `the run took longer than the wall-clock limit (runWallClockSeconds = ${s} s) and was stopped; ask for fewer cells or realizations` });
+          this.finish(job, {
+            status: 'failed',
+            progress: job.snapshot.progress,
+            message: `the run took longer than the wall-clock limit (runWallClockSeconds = ${s} s) and was stopped; ask for fewer cells or realizations`,
+          });
           return;
         }
         if (job.abort.signal.aborted) {
@@ -488,7 +553,11 @@ export class RunJobs {
     }
     const grids = (Object.entries(result.grids) as [string, SerializedGrid | undefined][])
       .filter((e): e is [string, SerializedGrid] => e[1] !== undefined)
-      .map(([name, g]) => ({ name, meta: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: g.units }, values: g.values }));
+      .map(([name, g]) => ({
+        name,
+        meta: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: g.units },
+        values: g.values,
+      }));
     await job.writes;
     await this.store.storeRunResult(job.id, {
       files: result.layers.flatMap((l) => l.files.map((f) => ({ name: l.info.name, ext: f.ext, bytes: f.bytes, contentType: LAYER_CONTENT_TYPES[f.ext] }))),

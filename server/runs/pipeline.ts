@@ -82,24 +82,66 @@ function variogramParameters(interp: InterpolationResult) {
 function runProvenance(inp: RunInputs, interp: InterpolationResult): Provenance {
   const g = interp.grid;
   const parameters = {
-    isothermsC: inp.request.isothermsC, depthsKm: inp.request.depthsKm, faciesDepthKm: inp.faciesDepthKm, realizations: inp.request.realizations ?? 0, seed: inp.seed,
-    heatFlowRealizations: (inp.request.realizations ?? 0) > 0 ? 'conditional simulation' : null, grid: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: inp.crs },
-    interpolation: inp.interpolation, variogram: variogramParameters(interp),
+    isothermsC: inp.request.isothermsC,
+    depthsKm: inp.request.depthsKm,
+    faciesDepthKm: inp.faciesDepthKm,
+    realizations: inp.request.realizations ?? 0,
+    seed: inp.seed,
+    heatFlowRealizations: (inp.request.realizations ?? 0) > 0 ? 'conditional simulation' : null,
+    grid: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: inp.crs },
+    interpolation: inp.interpolation,
+    variogram: variogramParameters(interp),
   };
   return buildProvenance({ method: 'run', model: inp.doc.model, modelName: inp.doc.name, inputs: inp.hashes, parameters }, sha256Hex);
 }
 
 /** The run summary of the run contract (shared/schema/run.ts), checked against its schema. */
-function runSummary(inp: RunInputs, prep: PreparedInterpolation, interp: InterpolationResult, products: ThermalProductsResult, sim: HeatFlowSimulation | null, layers: RunLayer[], stages: StageSummaries, provenance: Provenance, timingsMs: Record<string, number>): RunSummary {
-  const g = interp.grid, v = interp.variogram, cv = prep.crossValidation;
+function runSummary(
+  inp: RunInputs,
+  prep: PreparedInterpolation,
+  interp: InterpolationResult,
+  products: ThermalProductsResult,
+  sim: HeatFlowSimulation | null,
+  layers: RunLayer[],
+  stages: StageSummaries,
+  provenance: Provenance,
+  timingsMs: Record<string, number>,
+): RunSummary {
+  const g = interp.grid,
+    v = interp.variogram,
+    cv = prep.crossValidation;
   const summary: RunSummary = {
-    grid: { width: g.width, height: g.height, cells: g.width * g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: inp.crs, cellKm: interp.cellKm },
+    grid: {
+      width: g.width,
+      height: g.height,
+      cells: g.width * g.height,
+      west: g.west,
+      north: g.north,
+      dx: g.dx,
+      dy: g.dy,
+      crs: inp.crs,
+      cellKm: interp.cellKm,
+    },
     interpolation: { method: inp.interpolation.method, variogram: v ? { ...variogramParameters(interp)!, source: v.source, empirical: v.empirical } : null },
-    crossValidation: cv ? { n: cv.n, rmse: finiteOrNull(cv.rmse), meanError: finiteOrNull(cv.meanError), meanStandardizedError: finiteOrNull(cv.meanStandardizedError), meanSquaredDeviationRatio: finiteOrNull(cv.meanSquaredDeviationRatio) } : null,
-    isothermsC: inp.request.isothermsC, depthsKm: inp.request.depthsKm, faciesDepthKm: inp.faciesDepthKm, maxDepthKm: products.maxDepthKm,
+    crossValidation: cv
+      ? {
+          n: cv.n,
+          rmse: finiteOrNull(cv.rmse),
+          meanError: finiteOrNull(cv.meanError),
+          meanStandardizedError: finiteOrNull(cv.meanStandardizedError),
+          meanSquaredDeviationRatio: finiteOrNull(cv.meanSquaredDeviationRatio),
+        }
+      : null,
+    isothermsC: inp.request.isothermsC,
+    depthsKm: inp.request.depthsKm,
+    faciesDepthKm: inp.faciesDepthKm,
+    maxDepthKm: products.maxDepthKm,
     overrides: inp.regions.map((r) => r.label),
     inconsistent: products.counts,
-    monteCarlo: products.monteCarlo === null ? null : { ...products.monteCarlo, ...(sim === null ? {} : { heatFlowSimulation: { ...sim.report, ...centralValues(interp.grid, sim) } }) },
+    monteCarlo:
+      products.monteCarlo === null
+        ? null
+        : { ...products.monteCarlo, ...(sim === null ? {} : { heatFlowSimulation: { ...sim.report, ...centralValues(interp.grid, sim) } }) },
     ...stages,
     layers: Object.fromEntries(layers.map((l) => [l.info.name, l.info.stats ?? null])),
     provenance: { tool: provenance.tool, version: provenance.version, contentHash: provenance.contentHash, inputs: provenance.inputs },
@@ -111,14 +153,24 @@ function runSummary(inp: RunInputs, prep: PreparedInterpolation, interp: Interpo
 }
 
 /** Interpolates the heat-flow surface in row tiles, reporting under 'prepare' and 'interpolate'. */
-async function interpolateHeatFlow(inp: RunInputs, tracker: ProgressTracker, options: PipelineOptions, timingsMs: Record<string, number>): Promise<{ prep: PreparedInterpolation; interp: InterpolationResult }> {
+async function interpolateHeatFlow(
+  inp: RunInputs,
+  tracker: ProgressTracker,
+  options: PipelineOptions,
+  timingsMs: Record<string, number>,
+): Promise<{ prep: PreparedInterpolation; interp: InterpolationResult }> {
   const method = inp.interpolation.method;
   tracker.report('prepare', 0, `${method === 'kriging' ? 'fitting the semivariogram and ' : ''}cross-validating ${inp.points.ids.length} sites`);
   await yieldToLoop();
   const t1 = now();
   const prep = prepareInterpolation(inp.points, inp.interpOptions);
   timingsMs.prepare = now() - t1;
-  tracker.finish('prepare', prep.crossValidation ? `cross-validation RMSE ${prep.crossValidation.rmse.toFixed(2)} mW/m² over ${prep.crossValidation.n} sites` : 'interpolation prepared');
+  tracker.finish(
+    'prepare',
+    prep.crossValidation
+      ? `cross-validation RMSE ${prep.crossValidation.rmse.toFixed(2)} mW/m² over ${prep.crossValidation.n} sites`
+      : 'interpolation prepared',
+  );
   checkAbort(options.signal);
   const t2 = now();
   const g = prep.plan.grid;
@@ -139,24 +191,54 @@ async function interpolateHeatFlow(inp: RunInputs, tracker: ProgressTracker, opt
  * (mW/m²): the mean, median and sd over realizations of the regional mean, and the kriged map's mean.
  */
 function centralValues(heatFlow: Grid<Float32Array>, sim: HeatFlowSimulation): HeatFlowCentralValues {
-  const cells = heatFlow.values.length, N = sim.count;
-  let kriged = 0, n = 0;
-  for (let c = 0; c < cells; c++) { const v = heatFlow.values[c]; if (v === v) { kriged += v; n++; } }
+  const cells = heatFlow.values.length,
+    N = sim.count;
+  let kriged = 0,
+    n = 0;
+  for (let c = 0; c < cells; c++) {
+    const v = heatFlow.values[c];
+    if (v === v) {
+      kriged += v;
+      n++;
+    }
+  }
   if (n === 0) return { regionalMeanMWm2: null, regionalMedianMWm2: null, regionalMeanSdMWm2: null, krigedRegionalMeanMWm2: null, differenceMWm2: null };
   const means = new Float64Array(N);
-  for (let r = 0; r < N; r++) { let s = 0; for (let c = 0; c < cells; c++) { const v = sim.values[r * cells + c]; if (v === v) s += v; } means[r] = s / n; }
-  let m = 0, ss = 0;
+  for (let r = 0; r < N; r++) {
+    let s = 0;
+    for (let c = 0; c < cells; c++) {
+      const v = sim.values[r * cells + c];
+      if (v === v) s += v;
+    }
+    means[r] = s / n;
+  }
+  let m = 0,
+    ss = 0;
   for (let r = 0; r < N; r++) m += means[r];
   m /= N;
   for (let r = 0; r < N; r++) ss += (means[r] - m) ** 2;
   means.sort();
-  const h = (N - 1) * 0.5, k = Math.floor(h);
+  const h = (N - 1) * 0.5,
+    k = Math.floor(h);
   const med = k + 1 < N ? means[k] + (h - k) * (means[k + 1] - means[k]) : means[k];
-  return { regionalMeanMWm2: m, regionalMedianMWm2: med, regionalMeanSdMWm2: N > 1 ? Math.sqrt(ss / (N - 1)) : null, krigedRegionalMeanMWm2: kriged / n, differenceMWm2: m - kriged / n };
+  return {
+    regionalMeanMWm2: m,
+    regionalMedianMWm2: med,
+    regionalMeanSdMWm2: N > 1 ? Math.sqrt(ss / (N - 1)) : null,
+    krigedRegionalMeanMWm2: kriged / n,
+    differenceMWm2: m - kriged / n,
+  };
 }
 
 /** The run's heat-flow realizations: conditional simulations of the sites on the run's grid (none without realizations). */
-async function simulateHeatFlow(inp: RunInputs, interp: InterpolationResult, tracker: ProgressTracker, options: PipelineOptions, timingsMs: Record<string, number>, warnings: string[]): Promise<HeatFlowSimulation | null> {
+async function simulateHeatFlow(
+  inp: RunInputs,
+  interp: InterpolationResult,
+  tracker: ProgressTracker,
+  options: PipelineOptions,
+  timingsMs: Record<string, number>,
+  warnings: string[],
+): Promise<HeatFlowSimulation | null> {
   const N = inp.request.realizations ?? 0;
   if (N <= 0) return null;
   tracker.report('simulate', 0, `simulating ${N} heat-flow fields conditioned on ${inp.points.ids.length} sites`);
@@ -171,12 +253,26 @@ async function simulateHeatFlow(inp: RunInputs, interp: InterpolationResult, tra
 }
 
 /** The thermal products, their progress mapped onto the run's stages. */
-function thermalProducts(inp: RunInputs, interp: InterpolationResult, sim: HeatFlowSimulation | null, tracker: ProgressTracker, options: PipelineOptions): Promise<ThermalProductsResult> {
+function thermalProducts(
+  inp: RunInputs,
+  interp: InterpolationResult,
+  sim: HeatFlowSimulation | null,
+  tracker: ProgressTracker,
+  options: PipelineOptions,
+): Promise<ThermalProductsResult> {
   const req = inp.request;
   const o = {
-    isothermsC: req.isothermsC, depthsKm: req.depthsKm, faciesDepthKm: inp.faciesDepthKm, maxDepthKm: req.maxDepthKm, contourIntervalKm: req.contourIntervalKm ?? 1,
-    realizations: req.realizations ?? 0, seed: inp.seed, heatFlowErrorCorrelation: inp.heatFlowErrorCorrelation,
-    heatFlowRealizations: sim?.values, heatFlowSource: sim?.source, tileRows: options.tileRows,
+    isothermsC: req.isothermsC,
+    depthsKm: req.depthsKm,
+    faciesDepthKm: inp.faciesDepthKm,
+    maxDepthKm: req.maxDepthKm,
+    contourIntervalKm: req.contourIntervalKm ?? 1,
+    realizations: req.realizations ?? 0,
+    seed: inp.seed,
+    heatFlowErrorCorrelation: inp.heatFlowErrorCorrelation,
+    heatFlowRealizations: sim?.values,
+    heatFlowSource: sim?.source,
+    tileRows: options.tileRows,
   };
   return computeThermalProducts(interp.grid, interp.sd ?? null, inp.doc.model, inp.regions, inp.crsDef, o, async (stage, within, message) => {
     if (stage === 'contours') tracker.report('contours', within * 0.8, message);
@@ -207,7 +303,8 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
 
   const { prep, interp } = await interpolateHeatFlow(inp, tracker, options, timingsMs);
   warnings.push(...interp.warnings);
-  const heatFlow = interp.grid, heatFlowSd = interp.sd ?? null;
+  const heatFlow = interp.grid,
+    heatFlowSd = interp.sd ?? null;
   const provenance = runProvenance(inp, interp);
   const sim = await simulateHeatFlow(inp, interp, tracker, options, timingsMs, warnings);
   const products = await thermalProducts(inp, interp, sim, tracker, options);
@@ -237,7 +334,18 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
   for (const s of extra) {
     checkAbort(signal);
     const key = `extra:${s.name}`;
-    const ctx: PipelineContext = { request: req, datasets, heatFlow, heatFlowSd, model: inp.doc.model, provenance, toLonLat, warnings, summary: stages, signal };
+    const ctx: PipelineContext = {
+      request: req,
+      datasets,
+      heatFlow,
+      heatFlowSd,
+      model: inp.doc.model,
+      provenance,
+      toLonLat,
+      warnings,
+      summary: stages,
+      signal,
+    };
     layers.push(...(await s.run(ctx, (f, m) => tracker.report(key, f, m))));
     tracker.finish(key, `${s.name} done`);
   }

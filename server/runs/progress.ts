@@ -14,7 +14,10 @@ export class ProgressTracker {
   private last = 0;
   private current = 0;
   private readonly total: number;
-  constructor(private readonly weights: Record<string, number>, private readonly sink?: (p: Progress) => void) {
+  constructor(
+    private readonly weights: Record<string, number>,
+    private readonly sink?: (p: Progress) => void,
+  ) {
     this.total = Object.values(weights).reduce((s, w) => s + w, 0);
   }
   /** Reports `within` ∈ [0, 1] of stage `stage`. */

@@ -90,7 +90,11 @@ export function realizationsFromGrids(input: {
   const sims = input.heatFlowRealizations?.values;
   const cells = width * height;
   const sources = [
-    sims !== undefined ? input.heatFlowRealizations!.source : withSd ? `heat flow = kriged value + kriging sd × a standard normal (${corr === 'full' ? 'one per realization for all cells' : 'one per cell'})` : 'heat flow = the interpolated value (no standard deviation grid)',
+    sims !== undefined
+      ? input.heatFlowRealizations!.source
+      : withSd
+        ? `heat flow = kriged value + kriging sd × a standard normal (${corr === 'full' ? 'one per realization for all cells' : 'one per cell'})`
+        : 'heat flow = the interpolated value (no standard deviation grid)',
     input.zoneModels.some(isUncertainModel) ? 'model parameters drawn from their distributions once per realization' : 'model parameters fixed',
   ];
   return {
@@ -149,7 +153,12 @@ interface StoredMonteCarlo {
 export async function readRunRecord(store: Store, runId: string): Promise<RunRecord> {
   const run = await store.getRun(runId);
   if (!run) throw new InputError(`no run with id "${runId}"`, [{ field: 'runId', problem: 'not found' }], 'run_not_found');
-  if (run.status !== 'done') throw new InputError(`run ${runId} is ${run.status}; its realizations exist when it is done`, [{ field: 'runId', problem: `status ${run.status}` }], 'run_not_done');
+  if (run.status !== 'done')
+    throw new InputError(
+      `run ${runId} is ${run.status}; its realizations exist when it is done`,
+      [{ field: 'runId', problem: `status ${run.status}` }],
+      'run_not_done',
+    );
   const request = (run.request ?? {}) as { regions?: string; sites?: string };
   const summary = (run.summary ?? {}) as { monteCarlo?: StoredMonteCarlo | null };
   const heat = await store.getRunGrid(runId, 'heatFlow');
@@ -185,11 +194,22 @@ export async function loadRunRealizations(store: Store, runId: string, opts: { r
 /** Builds a run's realizations from its record (simulating its heat-flow fields again when the run did). */
 export async function realizationsFromRecord(rec: RunRecord, opts: { realizations?: number } = {}): Promise<RunRealizations> {
   const runId = rec.runId;
-  const request = rec.request as { regions?: string; realizations?: number; seed?: number; heatFlowErrorCorrelation?: 'full' | 'independent'; maxDepthKm?: number; interpolation?: unknown };
+  const request = rec.request as {
+    regions?: string;
+    realizations?: number;
+    seed?: number;
+    heatFlowErrorCorrelation?: 'full' | 'independent';
+    maxDepthKm?: number;
+    interpolation?: unknown;
+  };
   const summary = rec.summary as { maxDepthKm?: number; monteCarlo?: StoredMonteCarlo | null };
   const N = opts.realizations ?? summary.monteCarlo?.realizations ?? request.realizations ?? 0;
   if (!(Number.isInteger(N) && N >= 1)) {
-    throw new InputError(`run ${runId} was made without realizations: start a run with "realizations" (e.g. 100) for spread and probability`, [{ field: 'realizations', problem: 'the run has none' }], 'run_without_realizations');
+    throw new InputError(
+      `run ${runId} was made without realizations: start a run with "realizations" (e.g. 100) for spread and probability`,
+      [{ field: 'realizations', problem: 'the run has none' }],
+      'run_without_realizations',
+    );
   }
   const heatFlow = rec.heatFlow;
   const base = rec.model;
@@ -200,8 +220,17 @@ export async function realizationsFromRecord(rec: RunRecord, opts: { realization
     const found = overrideRegions(parseFeatureCollection('regions', JSON.parse(rec.regionsBody)).collection.features);
     if (found.regions.length > 0) {
       zoneModels.push(...found.regions.map((r) => applyLayerOverride(base, r.override)));
-      const fromLonLat = crsDef === WGS84_DEF ? undefined : ((c) => (x: number, y: number) => c.forward([x, y]))(converter(WGS84_DEF, crsDef));
-      zones = rasterizeZones(heatFlow, found.regions.map((r) => (fromLonLat === undefined ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => fromLonLat(p[0], p[1]))))));
+      const fromLonLat =
+        crsDef === WGS84_DEF
+          ? undefined
+          : (
+              (c) => (x: number, y: number) =>
+                c.forward([x, y])
+            )(converter(WGS84_DEF, crsDef));
+      zones = rasterizeZones(
+        heatFlow,
+        found.regions.map((r) => (fromLonLat === undefined ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => fromLonLat(p[0], p[1]))))),
+      );
     }
   }
   const deepest = Math.max(...zoneModels.map((m) => m.layers[m.layers.length - 1].bottomKm));
@@ -214,7 +243,11 @@ export async function realizationsFromRecord(rec: RunRecord, opts: { realization
     const sim = simulateRunHeatFlow(points, runSimulationOptions(iopt), heatFlow, crsDef, N, seed);
     // Realization 0 does not depend on the count: the same sum proves the same fields.
     if (stored.checksum !== undefined && !(Math.abs(sim.checksum - stored.checksum) <= 1e-9 * Math.max(1, Math.abs(stored.checksum)))) {
-      throw new InputError(`run ${runId}: its heat-flow realizations cannot be reproduced by this version (checksum ${sim.checksum} against the run's ${stored.checksum}); run it again`, [{ field: 'runId', problem: 'realizations not reproducible' }], 'run_not_reproducible');
+      throw new InputError(
+        `run ${runId}: its heat-flow realizations cannot be reproduced by this version (checksum ${sim.checksum} against the run's ${stored.checksum}); run it again`,
+        [{ field: 'runId', problem: 'realizations not reproducible' }],
+        'run_not_reproducible',
+      );
     }
     heatFlowRealizations = { values: sim.values, source: sim.source };
   }

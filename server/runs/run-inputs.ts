@@ -44,7 +44,8 @@ function invalid(what: string, details: InputProblem[]): InputError {
 
 function dataset(datasets: Record<string, StoredDataset>, id: string, field: string): StoredDataset {
   const d = datasets[id];
-  if (d === undefined) throw new InputError(`data set "${id}" (${field}) was not found`, [{ field, problem: `no data set with id "${id}"` }], 'unknown_dataset');
+  if (d === undefined)
+    throw new InputError(`data set "${id}" (${field}) was not found`, [{ field, problem: `no data set with id "${id}"` }], 'unknown_dataset');
   return d;
 }
 
@@ -62,7 +63,12 @@ function readModel(req: RunRequest, datasets: Record<string, StoredDataset>, has
     return parseModelDocument(req.model, 'model');
   }
   const md = dataset(datasets, req.model, 'model');
-  if (md.kind !== 'model') throw new InputError(`data set "${req.model}" is a ${md.kind} data set, not a model`, [{ field: 'model', problem: 'expected a data set of kind "model"' }], 'invalid_request');
+  if (md.kind !== 'model')
+    throw new InputError(
+      `data set "${req.model}" is a ${md.kind} data set, not a model`,
+      [{ field: 'model', problem: 'expected a data set of kind "model"' }],
+      'invalid_request',
+    );
   hashes.model = sha256Hex(md.body);
   return parseModelText(md.body, `model ${req.model}`);
 }
@@ -82,7 +88,12 @@ function readFaults(req: RunRequest, datasets: Record<string, StoredDataset>, ha
   return faults;
 }
 
-function readRegions(req: RunRequest, datasets: Record<string, StoredDataset>, hashes: Record<string, string>, warnings: string[]): { regions: OverrideRegion[]; mask: Rings | null } {
+function readRegions(
+  req: RunRequest,
+  datasets: Record<string, StoredDataset>,
+  hashes: Record<string, string>,
+  warnings: string[],
+): { regions: OverrideRegion[]; mask: Rings | null } {
   if (req.regions === undefined) {
     if (req.maskToRegion) throw new InputError('maskToRegion needs a regions data set', [{ field: 'regions', problem: 'missing' }], 'invalid_request');
     return { regions: [], mask: null };
@@ -92,7 +103,12 @@ function readRegions(req: RunRequest, datasets: Record<string, StoredDataset>, h
   warnings.push(...ds.warnings);
   const found = overrideRegions(ds.collection.features);
   const mask = req.maskToRegion && found.plain.length > 0 ? found.plain[0] : null;
-  if (req.maskToRegion && mask === null) throw new InputError('maskToRegion is set but the regions data set has no feature without "layers" to serve as the mask', [{ field: 'maskToRegion', problem: 'add a polygon without layers, or unset maskToRegion' }], 'invalid_request');
+  if (req.maskToRegion && mask === null)
+    throw new InputError(
+      'maskToRegion is set but the regions data set has no feature without "layers" to serve as the mask',
+      [{ field: 'maskToRegion', problem: 'add a polygon without layers, or unset maskToRegion' }],
+      'invalid_request',
+    );
   hashes.regions = sha256Hex(rd.body);
   return { regions: found.regions, mask };
 }
@@ -100,13 +116,26 @@ function readRegions(req: RunRequest, datasets: Record<string, StoredDataset>, h
 /** Parses and checks a run request and the data sets it names. */
 export async function readRunInputs(request: unknown, datasets: Record<string, StoredDataset>): Promise<RunInputs> {
   const parsed = runRequestSchema.safeParse(request);
-  if (!parsed.success) throw invalid('run request', parsed.error.issues.map((i) => ({ field: i.path.map(String).join('.') || '(request)', problem: i.message })));
+  if (!parsed.success)
+    throw invalid(
+      'run request',
+      parsed.error.issues.map((i) => ({ field: i.path.map(String).join('.') || '(request)', problem: i.message })),
+    );
   const req = parsed.data;
   const warnings: string[] = [];
   const ip = interpolationOptionsSchema.safeParse(req.interpolation);
-  if (!ip.success) throw invalid('interpolation options', ip.error.issues.map((i) => ({ field: `interpolation.${i.path.map(String).join('.')}`, problem: i.message })));
+  if (!ip.success)
+    throw invalid(
+      'interpolation options',
+      ip.error.issues.map((i) => ({ field: `interpolation.${i.path.map(String).join('.')}`, problem: i.message })),
+    );
   const iopt = ip.data;
-  if (iopt.field !== 'heatFlowMWm2') throw new InputError(`a run grids heat flow: interpolation.field must be "heatFlowMWm2", got "${iopt.field}"`, [{ field: 'interpolation.field', problem: 'expected heatFlowMWm2' }], 'invalid_request');
+  if (iopt.field !== 'heatFlowMWm2')
+    throw new InputError(
+      `a run grids heat flow: interpolation.field must be "heatFlowMWm2", got "${iopt.field}"`,
+      [{ field: 'interpolation.field', problem: 'expected heatFlowMWm2' }],
+      'invalid_request',
+    );
   const sitesDs = dataset(datasets, req.sites, 'sites');
   const { points, warnings: pw } = pointsFromGeoJson(parseJsonBody(sitesDs, req.sites, 'sites'), 'heatFlowMWm2', { source: `data set ${req.sites}` });
   warnings.push(...pw);
@@ -115,16 +144,56 @@ export async function readRunInputs(request: unknown, datasets: Record<string, S
   const faults = readFaults(req, datasets, hashes, warnings);
   const { regions, mask } = readRegions(req, datasets, hashes, warnings);
   const crs = req.grid.crs ?? iopt.crs ?? 'EPSG:4326';
-  if (!/^EPSG:\d{4,6}$/i.test(crs)) throw new InputError(`grid.crs must be EPSG:nnnn (GeoTIFF exports carry an EPSG code), got "${crs}"`, [{ field: 'grid.crs', problem: 'expected EPSG:4326 or EPSG:nnnn' }], 'bad_crs');
+  if (!/^EPSG:\d{4,6}$/i.test(crs))
+    throw new InputError(
+      `grid.crs must be EPSG:nnnn (GeoTIFF exports carry an EPSG code), got "${crs}"`,
+      [{ field: 'grid.crs', problem: 'expected EPSG:4326 or EPSG:nnnn' }],
+      'bad_crs',
+    );
   const crsDef = await loadCrsDefinition(crs);
   hashes.request = sha256Json(request);
   const interpOptions: InterpolationOptions = {
-    method: iopt.method, neighbors: iopt.neighbors, radiusKm: iopt.radiusKm, power: iopt.power, useQuality: iopt.useQuality, qualityWeights: iopt.qualityWeights,
-    variogram: iopt.variogram, lagKm: iopt.lagKm, maxLagKm: iopt.maxLagKm, anisotropy: iopt.anisotropy ?? null, measurementError: iopt.measurementError,
-    maxDistanceKm: iopt.maxDistanceKm ?? null, faults, region: mask, sd: iopt.sd, crossValidation: iopt.crossValidation ?? true, units: 'mW/m²',
-    grid: { bbox: req.grid.bbox ?? iopt.bbox, cellKm: req.grid.cellKm ?? iopt.cellKm, size: req.grid.size ?? iopt.size, crs: crsDef === WGS84_DEF ? 'EPSG:4326' : crs, crsDef },
+    method: iopt.method,
+    neighbors: iopt.neighbors,
+    radiusKm: iopt.radiusKm,
+    power: iopt.power,
+    useQuality: iopt.useQuality,
+    qualityWeights: iopt.qualityWeights,
+    variogram: iopt.variogram,
+    lagKm: iopt.lagKm,
+    maxLagKm: iopt.maxLagKm,
+    anisotropy: iopt.anisotropy ?? null,
+    measurementError: iopt.measurementError,
+    maxDistanceKm: iopt.maxDistanceKm ?? null,
+    faults,
+    region: mask,
+    sd: iopt.sd,
+    crossValidation: iopt.crossValidation ?? true,
+    units: 'mW/m²',
+    grid: {
+      bbox: req.grid.bbox ?? iopt.bbox,
+      cellKm: req.grid.cellKm ?? iopt.cellKm,
+      size: req.grid.size ?? iopt.size,
+      crs: crsDef === WGS84_DEF ? 'EPSG:4326' : crs,
+      crsDef,
+    },
   };
   const faciesDepthKm = req.faciesDepthKm ?? (req.depthsKm.length > 0 ? Math.max(...req.depthsKm) : 10);
   if (req.heatFlowErrorCorrelation !== undefined) warnings.push(HEAT_FLOW_CORRELATION_DEPRECATED);
-  return { request: req, interpolation: iopt, points, doc, faults, regions, crs, crsDef, faciesDepthKm, seed: req.seed ?? 0, heatFlowErrorCorrelation: req.heatFlowErrorCorrelation ?? 'full', interpOptions, hashes, warnings };
+  return {
+    request: req,
+    interpolation: iopt,
+    points,
+    doc,
+    faults,
+    regions,
+    crs,
+    crsDef,
+    faciesDepthKm,
+    seed: req.seed ?? 0,
+    heatFlowErrorCorrelation: req.heatFlowErrorCorrelation ?? 'full',
+    interpOptions,
+    hashes,
+    warnings,
+  };
 }

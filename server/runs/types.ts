@@ -74,4 +74,3 @@ export interface RunProgressMessage {
   fraction: number;
   message: string;
 }
-

@@ -19,8 +19,7 @@ import type { RunRealizations } from './realizations.ts';
 
 /** What a probability layer asks. */
 export type ProbabilityQuery =
-  | { kind: 'isotherm-shallower'; isothermC: number; depthKm: number }
-  | { kind: 'temperature-exceeds'; depthKm: number; temperatureC: number };
+  { kind: 'isotherm-shallower'; isothermC: number; depthKm: number } | { kind: 'temperature-exceeds'; depthKm: number; temperatureC: number };
 
 /** One quantity per realization and cell: depth to an isotherm (km, +∞ not reached) or temperature at a depth (°C). */
 type Quantity = { kind: 'isotherm'; isothermC: number } | { kind: 'temperature'; depthKm: number };
@@ -32,7 +31,16 @@ const yieldToLoop = () => new Promise<void>((resolve) => setImmediate(resolve));
  * isotherm not reached or a temperature past the melt onset. The same per-realization answers as the run's grid
  * Monte Carlo (isothermAnswer, temperatureAnswer of shared/thermal/monte-carlo.ts, under the melt and mantle limits).
  */
-function fillBlock(rr: RunRealizations, q: Quantity, start: number, end: number, B: number, buf: Float64Array, states: ColumnState[], dryTops: WeakMap<CompiledModel, Float64Array>): void {
+function fillBlock(
+  rr: RunRealizations,
+  q: Quantity,
+  start: number,
+  end: number,
+  B: number,
+  buf: Float64Array,
+  states: ColumnState[],
+  dryTops: WeakMap<CompiledModel, Float64Array>,
+): void {
   const zMax = rr.maxDepthKm;
   const needT = q.kind === 'isotherm' ? q.isothermC : -Infinity;
   const needZ = q.kind === 'temperature' ? q.depthKm : 0;
@@ -56,7 +64,12 @@ function fillBlock(rr: RunRealizations, q: Quantity, start: number, end: number,
   }
 }
 
-async function perCell(rr: RunRealizations, q: Quantity, reduce: (values: Float64Array, cell: number) => number, opts: { blockCells?: number; signal?: AbortSignal } = {}): Promise<Float32Array> {
+async function perCell(
+  rr: RunRealizations,
+  q: Quantity,
+  reduce: (values: Float64Array, cell: number) => number,
+  opts: { blockCells?: number; signal?: AbortSignal } = {},
+): Promise<Float32Array> {
   const cells = rr.grid.width * rr.grid.height;
   const N = rr.count;
   const B = Math.max(1, Math.min(opts.blockCells ?? 256, cells));
@@ -79,30 +92,49 @@ async function perCell(rr: RunRealizations, q: Quantity, reduce: (values: Float6
 }
 
 /** P90 − P10 of the depth to `isothermC` per cell, km; NaN where either percentile is not reached or invalid. */
-export async function isothermSpreadKm(rr: RunRealizations, isothermC: number, opts: { blockCells?: number; signal?: AbortSignal } = {}): Promise<Float32Array> {
+export async function isothermSpreadKm(
+  rr: RunRealizations,
+  isothermC: number,
+  opts: { blockCells?: number; signal?: AbortSignal } = {},
+): Promise<Float32Array> {
   const sum: Summary = { p10: NaN, p50: NaN, p90: NaN, mean: NaN, sd: NaN, stderrP50: NaN, n: 0, finite: 0 };
-  return perCell(rr, { kind: 'isotherm', isothermC }, (v) => {
-    v.sort(); // NaN last, +∞ before it
-    let n = v.length;
-    while (n > 0 && v[n - 1] !== v[n - 1]) n--;
-    if (n === 0) return NaN;
-    summarizeSorted(v, 0, n, sum);
-    const s = sum.p90 - sum.p10;
-    return Number.isFinite(s) ? s : NaN;
-  }, opts);
+  return perCell(
+    rr,
+    { kind: 'isotherm', isothermC },
+    (v) => {
+      v.sort(); // NaN last, +∞ before it
+      let n = v.length;
+      while (n > 0 && v[n - 1] !== v[n - 1]) n--;
+      if (n === 0) return NaN;
+      summarizeSorted(v, 0, n, sum);
+      const s = sum.p90 - sum.p10;
+      return Number.isFinite(s) ? s : NaN;
+    },
+    opts,
+  );
 }
 
 /** Probability (0–1) per cell of the query over the valid realizations; NaN where none is valid. */
-export async function exceedanceProbability(rr: RunRealizations, query: ProbabilityQuery, opts: { blockCells?: number; signal?: AbortSignal } = {}): Promise<Float32Array> {
+export async function exceedanceProbability(
+  rr: RunRealizations,
+  query: ProbabilityQuery,
+  opts: { blockCells?: number; signal?: AbortSignal } = {},
+): Promise<Float32Array> {
   const q: Quantity = query.kind === 'isotherm-shallower' ? { kind: 'isotherm', isothermC: query.isothermC } : { kind: 'temperature', depthKm: query.depthKm };
-  return perCell(rr, q, (v) => {
-    let valid = 0, hits = 0;
-    for (let r = 0; r < v.length; r++) {
-      const x = v[r];
-      if (!(x === x)) continue;
-      valid++;
-      if (query.kind === 'isotherm-shallower' ? x < query.depthKm : x > query.temperatureC) hits++;
-    }
-    return valid > 0 ? hits / valid : NaN;
-  }, opts);
+  return perCell(
+    rr,
+    q,
+    (v) => {
+      let valid = 0,
+        hits = 0;
+      for (let r = 0; r < v.length; r++) {
+        const x = v[r];
+        if (!(x === x)) continue;
+        valid++;
+        if (query.kind === 'isotherm-shallower' ? x < query.depthKm : x > query.temperatureC) hits++;
+      }
+      return valid > 0 ? hits / valid : NaN;
+    },
+    opts,
+  );
 }

@@ -6,14 +6,18 @@ export function bodyBbox(body: string): [number, number, number, number] | null 
   } catch {
     return null;
   }
-  let w = Infinity, s = Infinity, e = -Infinity, n = -Infinity;
+  let w = Infinity,
+    s = Infinity,
+    e = -Infinity,
+    n = -Infinity;
   // Iterative walk over every coordinate array (a position is an array whose first two members are numbers).
   const stack: unknown[] = [v];
   while (stack.length > 0) {
     const x = stack.pop();
     if (Array.isArray(x)) {
       if (x.length >= 2 && typeof x[0] === 'number' && typeof x[1] === 'number') {
-        const lon = x[0], lat = x[1];
+        const lon = x[0],
+          lat = x[1];
         if (Number.isFinite(lon) && Number.isFinite(lat)) {
           if (lon < w) w = lon;
           if (lon > e) e = lon;

@@ -1,5 +1,16 @@
 import pg from 'pg';
-import type { DatasetRecord, ProjectDatasetRecord, ProjectRecord, ProjectRunInfo, ProjectTerrainRecord, RevisionInfo, RunRecord, RunStatus, Store, StoredGridMeta } from './types.ts';
+import type {
+  DatasetRecord,
+  ProjectDatasetRecord,
+  ProjectRecord,
+  ProjectRunInfo,
+  ProjectTerrainRecord,
+  RevisionInfo,
+  RunRecord,
+  RunStatus,
+  Store,
+  StoredGridMeta,
+} from './types.ts';
 import { bodyBbox } from './bbox.ts';
 import { newId, sha256Hex } from './sqlite.ts';
 
@@ -89,7 +100,9 @@ export async function migratePostgres(pool: pg.Pool, log: (line: string) => void
   let applied = 0;
   try {
     await client.query('SELECT pg_advisory_lock(7406202611)');
-    await client.query('CREATE TABLE IF NOT EXISTS subtherm_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TIMESTAMPTZ NOT NULL DEFAULT now())');
+    await client.query(
+      'CREATE TABLE IF NOT EXISTS subtherm_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TIMESTAMPTZ NOT NULL DEFAULT now())',
+    );
     const done = new Set((await client.query<{ version: number }>('SELECT version FROM subtherm_migrations')).rows.map((r) => r.version));
     for (let v = 1; v <= PG_MIGRATIONS.length; v++) {
       if (done.has(v)) continue;
@@ -196,9 +209,10 @@ export class PostgresStore implements Store {
       bbox,
       bytes: Buffer.byteLength(input.body, 'utf8'),
     };
-    await this.pool.query('INSERT INTO datasets (id, kind, feature_count, content_hash, title, body, created_at, bbox) VALUES ($1, $2, $3, $4, $5, $6, $7, $8)', [
-      rec.id, rec.kind, rec.featureCount, rec.contentHash, rec.title, input.body, rec.createdAt, bbox === null ? null : JSON.stringify(bbox),
-    ]);
+    await this.pool.query(
+      'INSERT INTO datasets (id, kind, feature_count, content_hash, title, body, created_at, bbox) VALUES ($1, $2, $3, $4, $5, $6, $7, $8)',
+      [rec.id, rec.kind, rec.featureCount, rec.contentHash, rec.title, input.body, rec.createdAt, bbox === null ? null : JSON.stringify(bbox)],
+    );
     return rec;
   }
 
@@ -212,7 +226,10 @@ export class PostgresStore implements Store {
   }
 
   async findDatasetByContent(kind: string, contentHash: string): Promise<DatasetRecord | null> {
-    const r = await this.pool.query<DatasetRow>(`SELECT ${DATASET_COLUMNS} FROM datasets WHERE kind = $1 AND content_hash = $2 ORDER BY created_at LIMIT 1`, [kind, contentHash]);
+    const r = await this.pool.query<DatasetRow>(`SELECT ${DATASET_COLUMNS} FROM datasets WHERE kind = $1 AND content_hash = $2 ORDER BY created_at LIMIT 1`, [
+      kind,
+      contentHash,
+    ]);
     return r.rows[0] ? datasetFromRow(r.rows[0]) : null;
   }
 
@@ -243,12 +260,20 @@ export class PostgresStore implements Store {
   }
 
   async renameProjectDataset(projectId: string, datasetId: string, name: string): Promise<boolean> {
-    const r = await this.pool.query('UPDATE project_datasets SET name = $1 WHERE project_id = $2 AND dataset_id = $3 AND detached_at IS NULL', [name, projectId, datasetId]);
+    const r = await this.pool.query('UPDATE project_datasets SET name = $1 WHERE project_id = $2 AND dataset_id = $3 AND detached_at IS NULL', [
+      name,
+      projectId,
+      datasetId,
+    ]);
     return (r.rowCount ?? 0) > 0;
   }
 
   async detachProjectDataset(projectId: string, datasetId: string): Promise<boolean> {
-    const r = await this.pool.query('UPDATE project_datasets SET detached_at = $1 WHERE project_id = $2 AND dataset_id = $3 AND detached_at IS NULL', [new Date().toISOString(), projectId, datasetId]);
+    const r = await this.pool.query('UPDATE project_datasets SET detached_at = $1 WHERE project_id = $2 AND dataset_id = $3 AND detached_at IS NULL', [
+      new Date().toISOString(),
+      projectId,
+      datasetId,
+    ]);
     return (r.rowCount ?? 0) > 0;
   }
 
@@ -272,7 +297,10 @@ export class PostgresStore implements Store {
       'SELECT COALESCE(SUM(octet_length(d.body)), 0) AS n FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = $1 AND p.detached_at IS NULL',
       [projectId],
     );
-    const t = await this.pool.query<{ n: string }>('SELECT COALESCE(SUM(b.size), 0) AS n FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = $1', [projectId]);
+    const t = await this.pool.query<{ n: string }>(
+      'SELECT COALESCE(SUM(b.size), 0) AS n FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = $1',
+      [projectId],
+    );
     return Number(ds.rows[0].n) + Number(t.rows[0].n);
   }
 
@@ -282,7 +310,11 @@ export class PostgresStore implements Store {
   }
 
   async linkProjectRun(projectId: string, runId: string): Promise<void> {
-    await this.pool.query('INSERT INTO project_runs (project_id, run_id, created_at) VALUES ($1, $2, $3) ON CONFLICT DO NOTHING', [projectId, runId, new Date().toISOString()]);
+    await this.pool.query('INSERT INTO project_runs (project_id, run_id, created_at) VALUES ($1, $2, $3) ON CONFLICT DO NOTHING', [
+      projectId,
+      runId,
+      new Date().toISOString(),
+    ]);
   }
 
   async listProjectRuns(projectId: string): Promise<ProjectRunInfo[]> {
@@ -297,7 +329,9 @@ export class PostgresStore implements Store {
   }
 
   async runProjects(runId: string): Promise<string[]> {
-    return (await this.pool.query<{ project_id: string }>('SELECT project_id FROM project_runs WHERE run_id = $1 ORDER BY created_at', [runId])).rows.map((r) => r.project_id);
+    return (await this.pool.query<{ project_id: string }>('SELECT project_id FROM project_runs WHERE run_id = $1 ORDER BY created_at', [runId])).rows.map(
+      (r) => r.project_id,
+    );
   }
 
   async putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): Promise<ProjectTerrainRecord> {
@@ -328,13 +362,19 @@ export class PostgresStore implements Store {
     const now = new Date().toISOString();
     await this.tx(async (c) => {
       await c.query('INSERT INTO projects (id, token_hash, created_at) VALUES ($1, $2, $3)', [input.id, input.tokenHash, now]);
-      await c.query('INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES ($1, 1, $2, $3, $4)', [input.id, input.title, input.stateJson, now]);
+      await c.query('INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES ($1, 1, $2, $3, $4)', [
+        input.id,
+        input.title,
+        input.stateJson,
+        now,
+      ]);
     });
     return { id: input.id, title: input.title, state: JSON.parse(input.stateJson), revision: 1, updatedAt: now, createdAt: now };
   }
 
   async getProject(id: string, revision?: number): Promise<ProjectRecord | null> {
-    const base = 'SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = $1';
+    const base =
+      'SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = $1';
     const r = await this.pool.query<{ revision: number; title: string; state: string; created_at: string; p_created: string }>(
       revision === undefined ? `${base} ORDER BY r.revision DESC LIMIT 1` : `${base} AND r.revision = $2`,
       revision === undefined ? [id] : [id, revision],
@@ -354,9 +394,20 @@ export class PostgresStore implements Store {
       // The project row's lock orders saves from every server: two saves never compute the same number.
       const p = await c.query('SELECT 1 FROM projects WHERE id = $1 FOR UPDATE', [id]);
       if (p.rowCount === 0) throw new Error(`no project ${id}`);
-      const head = (await c.query<{ revision: number; title: string }>('SELECT revision, title FROM project_revisions WHERE project_id = $1 ORDER BY revision DESC LIMIT 1', [id])).rows[0];
+      const head = (
+        await c.query<{ revision: number; title: string }>(
+          'SELECT revision, title FROM project_revisions WHERE project_id = $1 ORDER BY revision DESC LIMIT 1',
+          [id],
+        )
+      ).rows[0];
       const next = head.revision + 1;
-      await c.query('INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES ($1, $2, $3, $4, $5)', [id, next, input.title ?? head.title, input.stateJson, new Date().toISOString()]);
+      await c.query('INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES ($1, $2, $3, $4, $5)', [
+        id,
+        next,
+        input.title ?? head.title,
+        input.stateJson,
+        new Date().toISOString(),
+      ]);
       return next;
     });
   }
@@ -375,14 +426,29 @@ export class PostgresStore implements Store {
       `INSERT INTO runs (id, cache_key, request, status, progress, message, layers, summary, warnings, model, grids, client, created_at, updated_at, owner)
        VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15)`,
       [
-        run.id, run.cacheKey, JSON.stringify(run.request), run.status, run.progress, run.message, JSON.stringify(run.layers),
-        run.summary === null ? null : JSON.stringify(run.summary), JSON.stringify(run.warnings), run.model === null || run.model === undefined ? null : JSON.stringify(run.model),
-        JSON.stringify(run.grids), run.client, run.createdAt, run.updatedAt, this.serverId,
+        run.id,
+        run.cacheKey,
+        JSON.stringify(run.request),
+        run.status,
+        run.progress,
+        run.message,
+        JSON.stringify(run.layers),
+        run.summary === null ? null : JSON.stringify(run.summary),
+        JSON.stringify(run.warnings),
+        run.model === null || run.model === undefined ? null : JSON.stringify(run.model),
+        JSON.stringify(run.grids),
+        run.client,
+        run.createdAt,
+        run.updatedAt,
+        this.serverId,
       ],
     );
   }
 
-  async updateRun(id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): Promise<void> {
+  async updateRun(
+    id: string,
+    patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>,
+  ): Promise<void> {
     await updateRunWith(this.pool, id, patch);
   }
 
@@ -393,7 +459,10 @@ export class PostgresStore implements Store {
 
   async findRunByCacheKey(cacheKey: string, statuses: RunStatus[]): Promise<RunRecord | null> {
     if (statuses.length === 0) return null;
-    const r = await this.pool.query<RunRow>('SELECT * FROM runs WHERE cache_key = $1 AND status = ANY($2::text[]) ORDER BY created_at DESC LIMIT 1', [cacheKey, statuses]);
+    const r = await this.pool.query<RunRow>('SELECT * FROM runs WHERE cache_key = $1 AND status = ANY($2::text[]) ORDER BY created_at DESC LIMIT 1', [
+      cacheKey,
+      statuses,
+    ]);
     return r.rows[0] ? runFromRow(r.rows[0]) : null;
   }
 
@@ -434,7 +503,10 @@ export class PostgresStore implements Store {
   }
 
   async getRunGrid(runId: string, name: string): Promise<{ meta: StoredGridMeta; values: Float32Array } | null> {
-    const g = await this.pool.query<{ meta: string; band_rows: number }>('SELECT meta, band_rows FROM run_grids WHERE run_id = $1 AND name = $2', [runId, name]);
+    const g = await this.pool.query<{ meta: string; band_rows: number }>('SELECT meta, band_rows FROM run_grids WHERE run_id = $1 AND name = $2', [
+      runId,
+      name,
+    ]);
     if (!g.rows[0]) return null;
     const meta = JSON.parse(g.rows[0].meta) as StoredGridMeta;
     return { meta, values: await this.readRows(runId, name, meta, g.rows[0].band_rows, 0, meta.height) };
@@ -445,32 +517,44 @@ export class PostgresStore implements Store {
    * without the whole grid); null when the run has no such grid.
    */
   async getRunGridRows(runId: string, name: string, row0: number, row1: number): Promise<{ meta: StoredGridMeta; values: Float32Array } | null> {
-    const g = await this.pool.query<{ meta: string; band_rows: number }>('SELECT meta, band_rows FROM run_grids WHERE run_id = $1 AND name = $2', [runId, name]);
+    const g = await this.pool.query<{ meta: string; band_rows: number }>('SELECT meta, band_rows FROM run_grids WHERE run_id = $1 AND name = $2', [
+      runId,
+      name,
+    ]);
     if (!g.rows[0]) return null;
     const meta = JSON.parse(g.rows[0].meta) as StoredGridMeta;
-    const a = Math.max(0, Math.min(meta.height, row0)), b = Math.max(a, Math.min(meta.height, row1));
+    const a = Math.max(0, Math.min(meta.height, row0)),
+      b = Math.max(a, Math.min(meta.height, row1));
     return { meta, values: await this.readRows(runId, name, meta, g.rows[0].band_rows, a, b) };
   }
 
   private async readRows(runId: string, name: string, meta: StoredGridMeta, bandRows: number, row0: number, row1: number): Promise<Float32Array> {
     const out = new Float32Array((row1 - row0) * meta.width);
     if (row1 <= row0) return out;
-    const first = Math.floor(row0 / bandRows), last = Math.floor((row1 - 1) / bandRows);
-    const r = await this.pool.query<{ band: number; bytes: Buffer }>('SELECT band, bytes FROM grid_chunks WHERE run_id = $1 AND name = $2 AND band BETWEEN $3 AND $4 ORDER BY band', [runId, name, first, last]);
+    const first = Math.floor(row0 / bandRows),
+      last = Math.floor((row1 - 1) / bandRows);
+    const r = await this.pool.query<{ band: number; bytes: Buffer }>(
+      'SELECT band, bytes FROM grid_chunks WHERE run_id = $1 AND name = $2 AND band BETWEEN $3 AND $4 ORDER BY band',
+      [runId, name, first, last],
+    );
     for (const { band, bytes } of r.rows) {
       const values = float32Of(bytes);
       const bandStart = band * bandRows;
-      const from = Math.max(row0, bandStart), to = Math.min(row1, bandStart + values.length / meta.width);
+      const from = Math.max(row0, bandStart),
+        to = Math.min(row1, bandStart + values.length / meta.width);
       if (to > from) out.set(values.subarray((from - bandStart) * meta.width, (to - bandStart) * meta.width), (from - row0) * meta.width);
     }
     return out;
   }
 
-  async storeRunResult(runId: string, result: {
-    files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
-    grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
-    record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
-  }): Promise<void> {
+  async storeRunResult(
+    runId: string,
+    result: {
+      files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
+      grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
+      record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
+    },
+  ): Promise<void> {
     await this.tx(async (c) => {
       for (const f of result.files) await putRunFileWith(c, runId, f.name, f.ext, await putBlobWith(c, f.bytes), f.contentType);
       for (const g of result.grids) await putGridWith(c, runId, g.name, g.meta, g.values);
@@ -488,7 +572,11 @@ export class PostgresStore implements Store {
 
 async function putBlobWith(c: Client, bytes: Uint8Array): Promise<string> {
   const hash = sha256Hex(bytes);
-  await c.query('INSERT INTO blobs (hash, size, bytes) VALUES ($1, $2, $3) ON CONFLICT (hash) DO NOTHING', [hash, bytes.byteLength, Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength)]);
+  await c.query('INSERT INTO blobs (hash, size, bytes) VALUES ($1, $2, $3) ON CONFLICT (hash) DO NOTHING', [
+    hash,
+    bytes.byteLength,
+    Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength),
+  ]);
   return hash;
 }
 
@@ -507,11 +595,20 @@ async function putGridWith(c: pg.PoolClient, runId: string, name: string, meta: 
   await c.query('INSERT INTO run_grids (run_id, name, meta, band_rows) VALUES ($1, $2, $3, $4)', [runId, name, JSON.stringify(meta), bandRows]);
   for (let band = 0, row = 0; row < meta.height; band++, row += bandRows) {
     const part = values.subarray(row * meta.width, Math.min(meta.height, row + bandRows) * meta.width);
-    await c.query('INSERT INTO grid_chunks (run_id, name, band, bytes) VALUES ($1, $2, $3, $4)', [runId, name, band, Buffer.from(part.buffer, part.byteOffset, part.byteLength)]);
+    await c.query('INSERT INTO grid_chunks (run_id, name, band, bytes) VALUES ($1, $2, $3, $4)', [
+      runId,
+      name,
+      band,
+      Buffer.from(part.buffer, part.byteOffset, part.byteLength),
+    ]);
   }
 }
 
-async function updateRunWith(c: Client, id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): Promise<void> {
+async function updateRunWith(
+  c: Client,
+  id: string,
+  patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>,
+): Promise<void> {
   const json = new Set(['layers', 'summary', 'warnings', 'model', 'grids']);
   const allowed = new Set(['status', 'progress', 'message', ...json]);
   const sets: string[] = [];
@@ -538,7 +635,14 @@ const DATASET_COLUMNS = 'id, kind, feature_count, content_hash, title, created_a
 const DATASET_COLUMNS_D = 'd.id, d.kind, d.feature_count, d.content_hash, d.title, d.created_at, d.bbox, octet_length(d.body) AS bytes';
 
 interface DatasetRow {
-  id: string; kind: string; feature_count: number; content_hash: string; title: string | null; created_at: string; bbox: string | null; bytes: number;
+  id: string;
+  kind: string;
+  feature_count: number;
+  content_hash: string;
+  title: string | null;
+  created_at: string;
+  bbox: string | null;
+  bytes: number;
 }
 
 function datasetFromRow(r: DatasetRow): DatasetRecord {
@@ -551,8 +655,20 @@ function projectDataset(d: DatasetRecord, name: string, attachedAt: string): Pro
 }
 
 interface RunRow {
-  id: string; cache_key: string; request: string; status: RunStatus; progress: number; message: string; layers: string;
-  summary: string | null; warnings: string; model: string | null; grids: string; client: string; created_at: string; updated_at: string;
+  id: string;
+  cache_key: string;
+  request: string;
+  status: RunStatus;
+  progress: number;
+  message: string;
+  layers: string;
+  summary: string | null;
+  warnings: string;
+  model: string | null;
+  grids: string;
+  client: string;
+  created_at: string;
+  updated_at: string;
 }
 
 function runFromRow(r: RunRow): RunRecord {

@@ -2,7 +2,18 @@ import Database from 'better-sqlite3';
 import { createHash, randomBytes } from 'node:crypto';
 import { mkdirSync } from 'node:fs';
 import { dirname } from 'node:path';
-import type { DatasetRecord, ProjectDatasetRecord, ProjectRecord, ProjectRunInfo, ProjectTerrainRecord, RevisionInfo, RunRecord, RunStatus, Store, StoredGridMeta } from './types.ts';
+import type {
+  DatasetRecord,
+  ProjectDatasetRecord,
+  ProjectRecord,
+  ProjectRunInfo,
+  ProjectTerrainRecord,
+  RevisionInfo,
+  RunRecord,
+  RunStatus,
+  Store,
+  StoredGridMeta,
+} from './types.ts';
 import { bodyBbox } from './bbox.ts';
 
 /** Schema migrations, applied in order; `PRAGMA user_version` records how many have run. */
@@ -174,9 +185,7 @@ export class SqliteStore implements Store {
   }
 
   private getDatasetNow(id: string): (DatasetRecord & { body: string }) | null {
-    const row = this.db.prepare(`SELECT ${DATASET_COLUMNS}, body FROM datasets WHERE id = ?`).get(id) as
-      | (DatasetRow & { body: string })
-      | undefined;
+    const row = this.db.prepare(`SELECT ${DATASET_COLUMNS}, body FROM datasets WHERE id = ?`).get(id) as (DatasetRow & { body: string }) | undefined;
     if (!row) return null;
     return { ...this.datasetFromRow(row), body: row.body };
   }
@@ -187,7 +196,9 @@ export class SqliteStore implements Store {
   }
 
   async findDatasetByContent(kind: string, contentHash: string): Promise<DatasetRecord | null> {
-    const row = this.db.prepare(`SELECT ${DATASET_COLUMNS} FROM datasets WHERE kind = ? AND content_hash = ? ORDER BY created_at LIMIT 1`).get(kind, contentHash) as DatasetRow | undefined;
+    const row = this.db
+      .prepare(`SELECT ${DATASET_COLUMNS} FROM datasets WHERE kind = ? AND content_hash = ? ORDER BY created_at LIMIT 1`)
+      .get(kind, contentHash) as DatasetRow | undefined;
     return row ? this.datasetFromRow(row) : null;
   }
 
@@ -199,7 +210,16 @@ export class SqliteStore implements Store {
       bbox = bodyBbox(body);
       if (bbox !== null) this.db.prepare('UPDATE datasets SET bbox = ? WHERE id = ?').run(JSON.stringify(bbox), r.id);
     }
-    return { id: r.id, kind: r.kind, featureCount: r.feature_count, contentHash: r.content_hash, title: r.title, createdAt: r.created_at, bbox, bytes: r.bytes };
+    return {
+      id: r.id,
+      kind: r.kind,
+      featureCount: r.feature_count,
+      contentHash: r.content_hash,
+      title: r.title,
+      createdAt: r.created_at,
+      bbox,
+      bytes: r.bytes,
+    };
   }
 
   async attachDataset(projectId: string, datasetId: string, name: string): Promise<ProjectDatasetRecord> {
@@ -215,7 +235,9 @@ export class SqliteStore implements Store {
 
   async listProjectDatasets(projectId: string): Promise<ProjectDatasetRecord[]> {
     const rows = this.db
-      .prepare(`SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.detached_at IS NULL ORDER BY p.attached_at, d.id`)
+      .prepare(
+        `SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.detached_at IS NULL ORDER BY p.attached_at, d.id`,
+      )
       .all(projectId) as (DatasetRow & { name: string; attached_at: string })[];
     return rows.map((r) => projectDataset(this.datasetFromRow(r), r.name, r.attached_at));
   }
@@ -226,17 +248,26 @@ export class SqliteStore implements Store {
 
   private getProjectDatasetNow(projectId: string, datasetId: string): ProjectDatasetRecord | null {
     const r = this.db
-      .prepare(`SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.dataset_id = ? AND p.detached_at IS NULL`)
+      .prepare(
+        `SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.dataset_id = ? AND p.detached_at IS NULL`,
+      )
       .get(projectId, datasetId) as (DatasetRow & { name: string; attached_at: string }) | undefined;
     return r ? projectDataset(this.datasetFromRow(r), r.name, r.attached_at) : null;
   }
 
   async renameProjectDataset(projectId: string, datasetId: string, name: string): Promise<boolean> {
-    return this.db.prepare('UPDATE project_datasets SET name = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL').run(name, projectId, datasetId).changes > 0;
+    return (
+      this.db.prepare('UPDATE project_datasets SET name = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL').run(name, projectId, datasetId)
+        .changes > 0
+    );
   }
 
   async detachProjectDataset(projectId: string, datasetId: string): Promise<boolean> {
-    return this.db.prepare('UPDATE project_datasets SET detached_at = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL').run(new Date().toISOString(), projectId, datasetId).changes > 0;
+    return (
+      this.db
+        .prepare('UPDATE project_datasets SET detached_at = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL')
+        .run(new Date().toISOString(), projectId, datasetId).changes > 0
+    );
   }
 
   async pruneDataset(datasetId: string): Promise<boolean> {
@@ -255,9 +286,13 @@ export class SqliteStore implements Store {
 
   async projectStorageBytes(projectId: string): Promise<number> {
     const ds = this.db
-      .prepare('SELECT COALESCE(SUM(length(CAST(d.body AS BLOB))), 0) AS n FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.detached_at IS NULL')
+      .prepare(
+        'SELECT COALESCE(SUM(length(CAST(d.body AS BLOB))), 0) AS n FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ? AND p.detached_at IS NULL',
+      )
       .get(projectId) as { n: number };
-    const t = this.db.prepare('SELECT COALESCE(SUM(b.size), 0) AS n FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = ?').get(projectId) as { n: number };
+    const t = this.db
+      .prepare('SELECT COALESCE(SUM(b.size), 0) AS n FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = ?')
+      .get(projectId) as { n: number };
     return ds.n + t.n;
   }
 
@@ -274,7 +309,9 @@ export class SqliteStore implements Store {
 
   async listProjectRuns(projectId: string): Promise<ProjectRunInfo[]> {
     const rows = this.db
-      .prepare('SELECT r.id, r.status, r.request, p.created_at FROM project_runs p JOIN runs r ON r.id = p.run_id WHERE p.project_id = ? ORDER BY p.created_at, r.id')
+      .prepare(
+        'SELECT r.id, r.status, r.request, p.created_at FROM project_runs p JOIN runs r ON r.id = p.run_id WHERE p.project_id = ? ORDER BY p.created_at, r.id',
+      )
       .all(projectId) as { id: string; status: RunStatus; request: string; created_at: string }[];
     return rows.map((r) => {
       const title = (JSON.parse(r.request) as { title?: unknown }).title;
@@ -283,23 +320,27 @@ export class SqliteStore implements Store {
   }
 
   async runProjects(runId: string): Promise<string[]> {
-    return (this.db.prepare('SELECT project_id FROM project_runs WHERE run_id = ? ORDER BY created_at').all(runId) as { project_id: string }[]).map((r) => r.project_id);
+    return (this.db.prepare('SELECT project_id FROM project_runs WHERE run_id = ? ORDER BY created_at').all(runId) as { project_id: string }[]).map(
+      (r) => r.project_id,
+    );
   }
 
   async putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): Promise<ProjectTerrainRecord> {
     const createdAt = new Date().toISOString();
     const blobHash = this.db.transaction(() => {
       const hash = this.putBlobNow(new Uint8Array(values.buffer, values.byteOffset, values.byteLength));
-      this.db.prepare('INSERT OR REPLACE INTO project_terrain (project_id, blob_hash, meta, created_at) VALUES (?, ?, ?, ?)').run(projectId, hash, JSON.stringify(meta), createdAt);
+      this.db
+        .prepare('INSERT OR REPLACE INTO project_terrain (project_id, blob_hash, meta, created_at) VALUES (?, ?, ?, ?)')
+        .run(projectId, hash, JSON.stringify(meta), createdAt);
       return hash;
     })();
     return { blobHash, meta, createdAt };
   }
 
   async getProjectTerrain(projectId: string): Promise<(ProjectTerrainRecord & { values: Float32Array }) | null> {
-    const row = this.db.prepare('SELECT t.blob_hash, t.meta, t.created_at, b.bytes FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = ?').get(projectId) as
-      | { blob_hash: string; meta: string; created_at: string; bytes: Buffer }
-      | undefined;
+    const row = this.db
+      .prepare('SELECT t.blob_hash, t.meta, t.created_at, b.bytes FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = ?')
+      .get(projectId) as { blob_hash: string; meta: string; created_at: string; bytes: Buffer } | undefined;
     if (!row) return null;
     const values = new Float32Array(row.bytes.byteLength / 4);
     new Uint8Array(values.buffer).set(row.bytes);
@@ -310,7 +351,9 @@ export class SqliteStore implements Store {
     const now = new Date().toISOString();
     this.db.transaction(() => {
       this.db.prepare('INSERT INTO projects (id, token_hash, created_at) VALUES (?, ?, ?)').run(input.id, input.tokenHash, now);
-      this.db.prepare('INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES (?, 1, ?, ?, ?)').run(input.id, input.title, input.stateJson, now);
+      this.db
+        .prepare('INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES (?, 1, ?, ?, ?)')
+        .run(input.id, input.title, input.stateJson, now);
     })();
     return { id: input.id, title: input.title, state: JSON.parse(input.stateJson), revision: 1, updatedAt: now, createdAt: now };
   }
@@ -318,8 +361,16 @@ export class SqliteStore implements Store {
   async getProject(id: string, revision?: number): Promise<ProjectRecord | null> {
     const row = (
       revision === undefined
-        ? this.db.prepare('SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = ? ORDER BY r.revision DESC LIMIT 1').get(id)
-        : this.db.prepare('SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = ? AND r.revision = ?').get(id, revision)
+        ? this.db
+            .prepare(
+              'SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = ? ORDER BY r.revision DESC LIMIT 1',
+            )
+            .get(id)
+        : this.db
+            .prepare(
+              'SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = ? AND r.revision = ?',
+            )
+            .get(id, revision)
     ) as { revision: number; title: string; state: string; created_at: string; p_created: string } | undefined;
     if (!row) return null;
     return { id, title: row.title, state: JSON.parse(row.state), revision: row.revision, updatedAt: row.created_at, createdAt: row.p_created };
@@ -339,8 +390,7 @@ export class SqliteStore implements Store {
     return this.db
       .transaction(() => {
         const head = this.db.prepare('SELECT revision, title FROM project_revisions WHERE project_id = ? ORDER BY revision DESC LIMIT 1').get(id) as
-          | { revision: number; title: string }
-          | undefined;
+          { revision: number; title: string } | undefined;
         if (!head) throw new Error(`no project ${id}`);
         const next = head.revision + 1;
         this.db
@@ -353,8 +403,13 @@ export class SqliteStore implements Store {
 
   async listRevisions(id: string): Promise<RevisionInfo[] | null> {
     if (this.getProjectTokenHashNow(id) === null) return null;
-    const rows = this.db.prepare('SELECT revision, title, created_at, length(state) AS n FROM project_revisions WHERE project_id = ? ORDER BY revision').all(id) as {
-      revision: number; title: string; created_at: string; n: number;
+    const rows = this.db
+      .prepare('SELECT revision, title, created_at, length(state) AS n FROM project_revisions WHERE project_id = ? ORDER BY revision')
+      .all(id) as {
+      revision: number;
+      title: string;
+      created_at: string;
+      n: number;
     }[];
     return rows.map((r) => ({ revision: r.revision, title: r.title, createdAt: r.created_at, stateBytes: r.n }));
   }
@@ -366,17 +421,34 @@ export class SqliteStore implements Store {
          VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
       )
       .run(
-        run.id, run.cacheKey, JSON.stringify(run.request), run.status, run.progress, run.message, JSON.stringify(run.layers),
-        run.summary === null ? null : JSON.stringify(run.summary), JSON.stringify(run.warnings), run.model === null || run.model === undefined ? null : JSON.stringify(run.model),
-        JSON.stringify(run.grids), run.client, run.createdAt, run.updatedAt,
+        run.id,
+        run.cacheKey,
+        JSON.stringify(run.request),
+        run.status,
+        run.progress,
+        run.message,
+        JSON.stringify(run.layers),
+        run.summary === null ? null : JSON.stringify(run.summary),
+        JSON.stringify(run.warnings),
+        run.model === null || run.model === undefined ? null : JSON.stringify(run.model),
+        JSON.stringify(run.grids),
+        run.client,
+        run.createdAt,
+        run.updatedAt,
       );
   }
 
-  async updateRun(id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): Promise<void> {
+  async updateRun(
+    id: string,
+    patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>,
+  ): Promise<void> {
     return this.updateRunNow(id, patch);
   }
 
-  private updateRunNow(id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): void {
+  private updateRunNow(
+    id: string,
+    patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>,
+  ): void {
     const sets: string[] = [];
     const vals: unknown[] = [];
     const json = new Set(['layers', 'summary', 'warnings', 'model', 'grids']);
@@ -404,7 +476,9 @@ export class SqliteStore implements Store {
   }
 
   async failInterruptedRuns(message: string): Promise<number> {
-    return this.db.prepare("UPDATE runs SET status = 'failed', message = ?, updated_at = ? WHERE status IN ('queued', 'running')").run(message, new Date().toISOString()).changes;
+    return this.db
+      .prepare("UPDATE runs SET status = 'failed', message = ?, updated_at = ? WHERE status IN ('queued', 'running')")
+      .run(message, new Date().toISOString()).changes;
   }
 
   async putBlob(bytes: Uint8Array): Promise<string> {
@@ -413,7 +487,9 @@ export class SqliteStore implements Store {
 
   private putBlobNow(bytes: Uint8Array): string {
     const hash = sha256Hex(bytes);
-    this.db.prepare('INSERT OR IGNORE INTO blobs (hash, size, bytes) VALUES (?, ?, ?)').run(hash, bytes.byteLength, Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+    this.db
+      .prepare('INSERT OR IGNORE INTO blobs (hash, size, bytes) VALUES (?, ?, ?)')
+      .run(hash, bytes.byteLength, Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
     return hash;
   }
 
@@ -427,12 +503,16 @@ export class SqliteStore implements Store {
   }
 
   private putRunFileNow(runId: string, name: string, ext: string, hash: string, contentType: string): void {
-    this.db.prepare('INSERT OR REPLACE INTO run_files (run_id, name, ext, blob_hash, content_type) VALUES (?, ?, ?, ?, ?)').run(runId, name, ext, hash, contentType);
+    this.db
+      .prepare('INSERT OR REPLACE INTO run_files (run_id, name, ext, blob_hash, content_type) VALUES (?, ?, ?, ?, ?)')
+      .run(runId, name, ext, hash, contentType);
   }
 
   async getRunFile(runId: string, name: string, ext: string): Promise<{ bytes: Uint8Array; contentType: string; hash: string } | null> {
     const row = this.db
-      .prepare('SELECT f.content_type, f.blob_hash, b.bytes FROM run_files f JOIN blobs b ON b.hash = f.blob_hash WHERE f.run_id = ? AND f.name = ? AND f.ext = ?')
+      .prepare(
+        'SELECT f.content_type, f.blob_hash, b.bytes FROM run_files f JOIN blobs b ON b.hash = f.blob_hash WHERE f.run_id = ? AND f.name = ? AND f.ext = ?',
+      )
       .get(runId, name, ext) as { content_type: string; blob_hash: string; bytes: Buffer } | undefined;
     if (!row) return null;
     return { bytes: new Uint8Array(row.bytes.buffer, row.bytes.byteOffset, row.bytes.byteLength), contentType: row.content_type, hash: row.blob_hash };
@@ -447,9 +527,9 @@ export class SqliteStore implements Store {
   }
 
   async getRunGrid(runId: string, name: string): Promise<{ meta: StoredGridMeta; values: Float32Array } | null> {
-    const row = this.db.prepare('SELECT g.meta, b.bytes FROM run_grids g JOIN blobs b ON b.hash = g.blob_hash WHERE g.run_id = ? AND g.name = ?').get(runId, name) as
-      | { meta: string; bytes: Buffer }
-      | undefined;
+    const row = this.db
+      .prepare('SELECT g.meta, b.bytes FROM run_grids g JOIN blobs b ON b.hash = g.blob_hash WHERE g.run_id = ? AND g.name = ?')
+      .get(runId, name) as { meta: string; bytes: Buffer } | undefined;
     if (!row) return null;
     // Copy into an aligned buffer: a Buffer's offset inside its pool need not be a multiple of 4.
     const values = new Float32Array(row.bytes.byteLength / 4);
@@ -457,11 +537,14 @@ export class SqliteStore implements Store {
     return { meta: JSON.parse(row.meta) as StoredGridMeta, values };
   }
 
-  async storeRunResult(runId: string, result: {
-    files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
-    grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
-    record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
-  }): Promise<void> {
+  async storeRunResult(
+    runId: string,
+    result: {
+      files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
+      grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
+      record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
+    },
+  ): Promise<void> {
     this.db.transaction(() => {
       for (const f of result.files) this.putRunFileNow(runId, f.name, f.ext, this.putBlobNow(f.bytes), f.contentType);
       for (const g of result.grids) {
@@ -481,7 +564,14 @@ const DATASET_COLUMNS = 'id, kind, feature_count, content_hash, title, created_a
 const DATASET_COLUMNS_D = 'd.id, d.kind, d.feature_count, d.content_hash, d.title, d.created_at, d.bbox, length(CAST(d.body AS BLOB)) AS bytes';
 
 interface DatasetRow {
-  id: string; kind: string; feature_count: number; content_hash: string; title: string | null; created_at: string; bbox: string | null; bytes: number;
+  id: string;
+  kind: string;
+  feature_count: number;
+  content_hash: string;
+  title: string | null;
+  created_at: string;
+  bbox: string | null;
+  bytes: number;
 }
 
 function projectDataset(d: DatasetRecord, name: string, attachedAt: string): ProjectDatasetRecord {
@@ -489,8 +579,20 @@ function projectDataset(d: DatasetRecord, name: string, attachedAt: string): Pro
 }
 
 interface RunRow {
-  id: string; cache_key: string; request: string; status: RunStatus; progress: number; message: string; layers: string;
-  summary: string | null; warnings: string; model: string | null; grids: string; client: string; created_at: string; updated_at: string;
+  id: string;
+  cache_key: string;
+  request: string;
+  status: RunStatus;
+  progress: number;
+  message: string;
+  layers: string;
+  summary: string | null;
+  warnings: string;
+  model: string | null;
+  grids: string;
+  client: string;
+  created_at: string;
+  updated_at: string;
 }
 
 function runFromRow(r: RunRow): RunRecord {

@@ -142,7 +142,10 @@ export interface Store {
 
   putRun(run: RunRecord): Promise<void>;
   /** Updates the mutable fields of a run record (status, progress, message and, when done, its results). */
-  updateRun(id: string, patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>): Promise<void>;
+  updateRun(
+    id: string,
+    patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>,
+  ): Promise<void>;
   getRun(id: string): Promise<RunRecord | null>;
   /** The newest run with this cache key whose status is one of `statuses`. */
   findRunByCacheKey(cacheKey: string, statuses: RunStatus[]): Promise<RunRecord | null>;
@@ -161,11 +164,14 @@ export interface Store {
    * Stores a finished run's whole result atomically: its files and grids as content-addressed blobs linked to the
    * run, and the final fields of its record (status itself is set by the caller afterwards).
    */
-  storeRunResult(runId: string, result: {
-    files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
-    grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
-    record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
-  }): Promise<void>;
+  storeRunResult(
+    runId: string,
+    result: {
+      files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
+      grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
+      record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
+    },
+  ): Promise<void>;
 
   close(): Promise<void>;
 }

@@ -5,12 +5,7 @@
  */
 import { InputError, type InputProblem } from '../../shared/errors.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
-import {
-  parseAreaPolygon,
-  parseHeatInPlaceOptions,
-  parseZonePolygons,
-  reportCsv,
-} from '../../shared/resource/index.ts';
+import { parseAreaPolygon, parseHeatInPlaceOptions, parseZonePolygons, reportCsv } from '../../shared/resource/index.ts';
 import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
 import { assessOnGrid } from '../io/resource-output.ts';
 import { computeColumn, type ColumnQuery } from '../../shared/products/column.ts';
@@ -91,7 +86,11 @@ async function section(t: SectionTask): Promise<Record<string, unknown>> {
   const faults: LineFeature[] = [];
   if (t.faultsBody !== null) {
     for (const f of (JSON.parse(t.faultsBody) as { features: { id?: string; geometry: unknown; properties: Record<string, unknown> }[] }).features) {
-      faults.push({ id: f.id ?? (f.properties.id as string | undefined), properties: pick(f.properties, ['id', 'name', 'kind', 'dipDeg', 'dipDirectionDeg']), lines: linesOf(f.geometry) });
+      faults.push({
+        id: f.id ?? (f.properties.id as string | undefined),
+        properties: pick(f.properties, ['id', 'name', 'kind', 'dipDeg', 'dipDirectionDeg']),
+        lines: linesOf(f.geometry),
+      });
     }
   }
   const isograds: LineFeature[] = [];
@@ -135,11 +134,13 @@ async function heatInPlace(t: HeatInPlaceTask): Promise<HeatInPlaceOutput> {
     // Runs made before simulation keep the old per-cell error model with the request's seed.
     if (rr.heatFlowValues !== null) {
       const given = (body.options as { seed?: number } | undefined)?.seed;
-      if (given !== undefined && given !== rr.seed) notes.push(`the seed ${given} was replaced by the run's seed ${rr.seed}: the realizations are the run's own`);
+      if (given !== undefined && given !== rr.seed)
+        notes.push(`the seed ${given} was replaced by the run's seed ${rr.seed}: the realizations are the run's own`);
       options.seed = rr.seed;
       heatFlowRealizations = { values: rr.heatFlowValues, source: rr.source };
       heatFlowSd = undefined;
-      if ((body.options as { heatFlowErrorCorrelation?: unknown } | undefined)?.heatFlowErrorCorrelation !== undefined) notes.push(HEAT_FLOW_CORRELATION_DEPRECATED);
+      if ((body.options as { heatFlowErrorCorrelation?: unknown } | undefined)?.heatFlowErrorCorrelation !== undefined)
+        notes.push(HEAT_FLOW_CORRELATION_DEPRECATED);
     }
   }
 

@@ -45,8 +45,10 @@ export const sharedFloat32 = (cells: number) => new Float32Array(new SharedArray
  */
 export function poolRowFiller(pool: Piscina, plan: GridPlan, blockRows = 16): RowFiller {
   return async (r0, r1, values, sd) => {
-    const vb = values.buffer, sb = sd?.buffer ?? null;
-    if (!(vb instanceof SharedArrayBuffer) || (sb !== null && !(sb instanceof SharedArrayBuffer))) throw new TypeError('the pool fills shared buffers only (sharedFloat32)');
+    const vb = values.buffer,
+      sb = sd?.buffer ?? null;
+    if (!(vb instanceof SharedArrayBuffer) || (sb !== null && !(sb instanceof SharedArrayBuffer)))
+      throw new TypeError('the pool fills shared buffers only (sharedFloat32)');
     const tasks: Promise<RowStats>[] = [];
     for (let a = r0; a < r1; a += blockRows) {
       tasks.push(pool.run({ plan, r0: a, r1: Math.min(r1, a + blockRows), values: vb, sd: sb } satisfies RowTask) as Promise<RowStats>);
@@ -58,7 +60,11 @@ export function poolRowFiller(pool: Piscina, plan: GridPlan, blockRows = 16): Ro
 }
 
 /** Fills a whole grid with a pool. Returns the buffers and the summed row statistics. */
-export async function computeGridParallel(pool: Piscina, plan: GridPlan, blockRows = 16): Promise<{ values: Float32Array; sd: Float32Array | null; stats: RowStats }> {
+export async function computeGridParallel(
+  pool: Piscina,
+  plan: GridPlan,
+  blockRows = 16,
+): Promise<{ values: Float32Array; sd: Float32Array | null; stats: RowStats }> {
   const { width, height } = plan.grid;
   const values = sharedFloat32(width * height);
   const sd = plan.withSd ? sharedFloat32(width * height) : null;

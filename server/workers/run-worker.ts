@@ -15,7 +15,15 @@ applyWorkerNiceness();
 
 export type { RunResult } from '../runs/pipeline.ts';
 
-export default async function runWorker({ request, datasets, port }: { request: RunRequest; datasets: Record<string, StoredDataset>; port: MessagePort }): Promise<RunResult> {
+export default async function runWorker({
+  request,
+  datasets,
+  port,
+}: {
+  request: RunRequest;
+  datasets: Record<string, StoredDataset>;
+  port: MessagePort;
+}): Promise<RunResult> {
   const cancel = cancelSignal(port);
   try {
     return await runPipeline(request, datasets, {

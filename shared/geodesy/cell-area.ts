@@ -41,11 +41,15 @@ export function isLonLatCrs(crs: string): boolean {
  * the CRS unit); this is the area in the projection's plane, which differs from the ground area by the projection's
  * areal scale factor (e.g. about k² for a transverse Mercator or UTM grid, k ≈ 0.9996–1.001).
  */
-export function gridRowAreasM2(grid: { height: number; north: number; dx: number; dy: number; crs: string }, metresPerUnit = 1): { rowAreaM2: Float64Array; method: 'ellipsoidal' | 'planar' } {
+export function gridRowAreasM2(
+  grid: { height: number; north: number; dx: number; dy: number; crs: string },
+  metresPerUnit = 1,
+): { rowAreaM2: Float64Array; method: 'ellipsoidal' | 'planar' } {
   const out = new Float64Array(grid.height);
   if (isLonLatCrs(grid.crs)) {
     for (let r = 0; r < grid.height; r++) {
-      const n = Math.min(90, grid.north - r * grid.dy), s = Math.max(-90, grid.north - (r + 1) * grid.dy);
+      const n = Math.min(90, grid.north - r * grid.dy),
+        s = Math.max(-90, grid.north - (r + 1) * grid.dy);
       out[r] = n > s ? lonLatCellAreaM2(s, n, Math.min(360, grid.dx)) : 0;
     }
     return { rowAreaM2: out, method: 'ellipsoidal' };
@@ -66,13 +70,19 @@ const GL2 = 0.5 / Math.sqrt(3); // Gauss–Legendre 2-point nodes at ±1/√3 on
  * Jacobian of the inverse projection by central differences of step h (units).
  */
 function areaDensity(toLonLat: ToLonLat, x: number, y: number, h: number): number {
-  const [lon1, lat1] = toLonLat(x + h, y), [lon0, lat0] = toLonLat(x - h, y);
-  const [lon3, lat3] = toLonLat(x, y + h), [lon2, lat2] = toLonLat(x, y - h);
-  const dLonDx = ((lon1 - lon0) * DEG) / (2 * h), dLatDx = ((lat1 - lat0) * DEG) / (2 * h);
-  const dLonDy = ((lon3 - lon2) * DEG) / (2 * h), dLatDy = ((lat3 - lat2) * DEG) / (2 * h);
+  const [lon1, lat1] = toLonLat(x + h, y),
+    [lon0, lat0] = toLonLat(x - h, y);
+  const [lon3, lat3] = toLonLat(x, y + h),
+    [lon2, lat2] = toLonLat(x, y - h);
+  const dLonDx = ((lon1 - lon0) * DEG) / (2 * h),
+    dLatDx = ((lat1 - lat0) * DEG) / (2 * h);
+  const dLonDy = ((lon3 - lon2) * DEG) / (2 * h),
+    dLatDy = ((lat3 - lat2) * DEG) / (2 * h);
   const phi = 0.25 * (lat0 + lat1 + lat2 + lat3) * DEG;
-  const s = Math.sin(phi), w = 1 - WGS84_E2 * s * s;
-  const m = (WGS84_A_M * (1 - WGS84_E2)) / (w * Math.sqrt(w)), n = WGS84_A_M / Math.sqrt(w);
+  const s = Math.sin(phi),
+    w = 1 - WGS84_E2 * s * s;
+  const m = (WGS84_A_M * (1 - WGS84_E2)) / (w * Math.sqrt(w)),
+    n = WGS84_A_M / Math.sqrt(w);
   return m * n * Math.cos(phi) * Math.abs(dLatDx * dLonDy - dLatDy * dLonDx);
 }
 
@@ -82,7 +92,11 @@ function areaDensity(toLonLat: ToLonLat, x: number, y: number, h: number): numbe
  * is smooth, so for cells of a few km the quadrature error is far below 1e-6 of the area). Valid for any projection
  * proj4 can invert; `toLonLat` is that inverse.
  */
-export function projectedCellAreasM2(grid: { width: number; height: number; west: number; north: number; dx: number; dy: number }, toLonLat: ToLonLat, out = new Float64Array(grid.width * grid.height)): Float64Array {
+export function projectedCellAreasM2(
+  grid: { width: number; height: number; west: number; north: number; dx: number; dy: number },
+  toLonLat: ToLonLat,
+  out = new Float64Array(grid.width * grid.height),
+): Float64Array {
   const { width, height, west, north, dx, dy } = grid;
   const h = 1e-3 * Math.min(dx, dy);
   for (let r = 0; r < height; r++) {
@@ -103,10 +117,13 @@ export function projectedCellAreasM2(grid: { width: number; height: number; west
  */
 export function groundStepKm(toLonLat: ToLonLat, x: number, y: number, dx: number, dy: number): { xKm: number; yKm: number } {
   const len = (ax: number, ay: number, bx: number, by: number) => {
-    const [l0, p0] = toLonLat(ax, ay), [l1, p1] = toLonLat(bx, by);
+    const [l0, p0] = toLonLat(ax, ay),
+      [l1, p1] = toLonLat(bx, by);
     const phi = 0.5 * (p0 + p1) * DEG;
-    const s = Math.sin(phi), w = 1 - WGS84_E2 * s * s;
-    const m = (WGS84_A_M * (1 - WGS84_E2)) / (w * Math.sqrt(w)), n = WGS84_A_M / Math.sqrt(w);
+    const s = Math.sin(phi),
+      w = 1 - WGS84_E2 * s * s;
+    const m = (WGS84_A_M * (1 - WGS84_E2)) / (w * Math.sqrt(w)),
+      n = WGS84_A_M / Math.sqrt(w);
     return Math.hypot(m * (p1 - p0) * DEG, n * Math.cos(phi) * (l1 - l0) * DEG) / 1000;
   };
   return { xKm: len(x - dx / 2, y, x + dx / 2, y), yKm: len(x, y - dy / 2, x, y + dy / 2) };

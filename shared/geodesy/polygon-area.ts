@@ -19,7 +19,9 @@ export function ringAreaM2(ring: ArrayLike<ArrayLike<number>>): number {
 }
 
 /** Ellipsoidal area (m²) of a Polygon (rings: outer first, then holes) or MultiPolygon, geodesic edges. */
-export function geodesicPolygonAreaM2(geometry: { type: 'Polygon'; coordinates: number[][][] } | { type: 'MultiPolygon'; coordinates: number[][][][] }): number {
+export function geodesicPolygonAreaM2(
+  geometry: { type: 'Polygon'; coordinates: number[][][] } | { type: 'MultiPolygon'; coordinates: number[][][][] },
+): number {
   const polys = geometry.type === 'Polygon' ? [geometry.coordinates] : geometry.coordinates;
   let total = 0;
   for (const rings of polys) {

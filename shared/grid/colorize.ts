@@ -24,7 +24,9 @@ export function colorizeRamp(values: ArrayLike<number>, ramp: Ramp, min: number,
   const c: [number, number, number] = [0, 0, 0];
   for (let i = 0; i < 256; i++) {
     rampColor(ramp, i / 255, c);
-    lut[3 * i] = c[0]; lut[3 * i + 1] = c[1]; lut[3 * i + 2] = c[2];
+    lut[3 * i] = c[0];
+    lut[3 * i + 1] = c[1];
+    lut[3 * i + 2] = c[2];
   }
   const span = max - min;
   const scale = span > 0 ? 255 / span : 0;
@@ -32,12 +34,18 @@ export function colorizeRamp(values: ArrayLike<number>, ramp: Ramp, min: number,
     const v = values[i];
     const o = 4 * i;
     if (!Number.isFinite(v)) {
-      px[o] = 0; px[o + 1] = 0; px[o + 2] = 0; px[o + 3] = 0;
+      px[o] = 0;
+      px[o + 1] = 0;
+      px[o + 2] = 0;
+      px[o + 3] = 0;
       continue;
     }
     let k = span > 0 ? Math.round((v - min) * scale) : 128;
     k = k < 0 ? 0 : k > 255 ? 255 : k;
-    px[o] = lut[3 * k]; px[o + 1] = lut[3 * k + 1]; px[o + 2] = lut[3 * k + 2]; px[o + 3] = 255;
+    px[o] = lut[3 * k];
+    px[o + 1] = lut[3 * k + 1];
+    px[o + 2] = lut[3 * k + 2];
+    px[o + 3] = 255;
   }
   return px;
 }
@@ -52,9 +60,15 @@ export function colorizeClasses(values: ArrayLike<number>, classes: { value: num
     const rgb = Number.isFinite(values[i]) ? table.get(values[i]) : undefined;
     const o = 4 * i;
     if (rgb === undefined) {
-      px[o] = 0; px[o + 1] = 0; px[o + 2] = 0; px[o + 3] = 0;
+      px[o] = 0;
+      px[o + 1] = 0;
+      px[o + 2] = 0;
+      px[o + 3] = 0;
     } else {
-      px[o] = rgb[0]; px[o + 1] = rgb[1]; px[o + 2] = rgb[2]; px[o + 3] = 255;
+      px[o] = rgb[0];
+      px[o + 1] = rgb[1];
+      px[o + 2] = rgb[2];
+      px[o + 3] = 255;
     }
   }
   return px;

@@ -39,14 +39,20 @@ export type IndexLine = [number, number][];
 /** Levels base + k·interval inside [min, max] of the finite values (empty when the grid has none). */
 export function contourLevels(values: ArrayLike<number>, interval: number, base = 0, maxLevels = 500): number[] {
   if (!(interval > 0) || !Number.isFinite(interval)) throw new RangeError(`contour interval must be > 0, got ${interval}`);
-  let min = Infinity, max = -Infinity;
+  let min = Infinity,
+    max = -Infinity;
   for (let i = 0; i < values.length; i++) {
     const v = values[i];
-    if (v === v && v !== Infinity && v !== -Infinity) { if (v < min) min = v; if (v > max) max = v; }
+    if (v === v && v !== Infinity && v !== -Infinity) {
+      if (v < min) min = v;
+      if (v > max) max = v;
+    }
   }
   if (!(max >= min)) return [];
-  const k0 = Math.ceil((min - base) / interval - 1e-9), k1 = Math.floor((max - base) / interval + 1e-9);
-  if (k1 - k0 + 1 > maxLevels) throw new RangeError(`${k1 - k0 + 1} contour levels at interval ${interval} exceed the limit of ${maxLevels}: use a larger interval`);
+  const k0 = Math.ceil((min - base) / interval - 1e-9),
+    k1 = Math.floor((max - base) / interval + 1e-9);
+  if (k1 - k0 + 1 > maxLevels)
+    throw new RangeError(`${k1 - k0 + 1} contour levels at interval ${interval} exceed the limit of ${maxLevels}: use a larger interval`);
   const out: number[] = [];
   // Rounded to 12 significant digits so 0.1-type intervals give clean labels.
   for (let k = k0; k <= k1; k++) out.push(+(base + k * interval).toPrecision(12));
@@ -73,10 +79,7 @@ export function isolinesIndex(values: ArrayLike<number>, width: number, height: 
 // Segment table of marching squares. Corner bits: top-left 8, top-right 4, bottom-right 2, bottom-left 1 (bit set
 // = sample ≥ level). Square edges: 0 top, 1 right, 2 bottom, 3 left. Each entry lists edge pairs; the two saddle
 // cases (5, 10) are resolved by the square's mean (the "asymptotic" centre value of the four samples).
-const SEGMENTS: number[][] = [
-  [], [3, 2], [2, 1], [3, 1], [0, 1], [], [0, 2], [3, 0],
-  [3, 0], [0, 2], [], [0, 1], [3, 1], [2, 1], [3, 2], [],
-];
+const SEGMENTS: number[][] = [[], [3, 2], [2, 1], [3, 1], [0, 1], [], [0, 2], [3, 0], [3, 0], [0, 2], [], [0, 1], [3, 1], [2, 1], [3, 2], []];
 const SADDLE_5_CENTRE_ABOVE = [3, 0, 2, 1]; // tr and bl joined through the centre: cut off tl and br
 const SADDLE_5_CENTRE_BELOW = [3, 2, 0, 1]; // tr and bl isolated
 const SADDLE_10_CENTRE_ABOVE = [0, 1, 3, 2]; // tl and br joined: cut off tr and bl
@@ -103,11 +106,16 @@ export function isolinesIndexLevels(values: ArrayLike<number>, width: number, he
   for (let r = 0; r + 1 < height; r++) {
     for (let c = 0; c + 1 < width; c++) {
       const i = r * width + c;
-      const tl = values[i], tr = values[i + 1], bl = values[i + width], br = values[i + width + 1];
+      const tl = values[i],
+        tr = values[i + 1],
+        bl = values[i + width],
+        br = values[i + width + 1];
       if (!(fin(tl) && fin(tr) && fin(bl) && fin(br))) continue;
-      const lo = Math.min(tl, tr, bl, br), hi = Math.max(tl, tr, bl, br);
+      const lo = Math.min(tl, tr, bl, br),
+        hi = Math.max(tl, tr, bl, br);
       // Levels L with lo < L ≤ hi cross this square: first index with sorted[k] > lo.
-      let k0 = 0, k1 = sorted.length;
+      let k0 = 0,
+        k1 = sorted.length;
       while (k0 < k1) {
         const m = (k0 + k1) >> 1;
         if (sorted[m] > lo) k1 = m;
@@ -130,7 +138,8 @@ export function isolinesIndexLevels(values: ArrayLike<number>, width: number, he
   // The index-space point where a level crosses a side (linear interpolation between its two samples).
   const point = (id: number, L: number): [number, number] => {
     const cell = id >> 1;
-    const r = Math.floor(cell / width), c = cell - r * width;
+    const r = Math.floor(cell / width),
+      c = cell - r * width;
     const v0 = values[cell];
     if ((id & 1) === 0) {
       const v1 = values[cell + 1];
@@ -144,7 +153,8 @@ export function isolinesIndexLevels(values: ArrayLike<number>, width: number, he
     const L = sorted[k];
     const s = segs[k];
     // Each side crossing joins at most two segments (its two squares); link them.
-    const first = new Map<number, number>(), second = new Map<number, number>();
+    const first = new Map<number, number>(),
+      second = new Map<number, number>();
     for (let j = 0; j < s.length; j++) {
       if (first.has(s[j])) second.set(s[j], j);
       else first.set(s[j], j);
@@ -152,14 +162,16 @@ export function isolinesIndexLevels(values: ArrayLike<number>, width: number, he
     const used = new Uint8Array(s.length >> 1);
     const lines: IndexLine[] = [];
     const other = (id: number, j: number) => {
-      const a = first.get(id)!, b = second.get(id);
+      const a = first.get(id)!,
+        b = second.get(id);
       const n = a === j ? b : a;
       return n === undefined || n === j ? -1 : n;
     };
     const trace = (j0: number, startEnd: number) => {
       // Walk from segment j0, entering at its end `startEnd` (0 or 1), until the chain ends or closes.
       const ids: number[] = [];
-      let j = j0, e = startEnd;
+      let j = j0,
+        e = startEnd;
       ids.push(s[2 * j + e]);
       for (;;) {
         used[j] = 1;
@@ -211,7 +223,8 @@ export function contourGrid(grid: Grid<Float32Array | Float64Array>, opts: Conto
     for (const line of perLevel[li]) {
       const coords: [number, number][] = [];
       for (const [ix, iy] of line) {
-        const x = grid.west + ix * grid.dx, y = grid.north - iy * grid.dy;
+        const x = grid.west + ix * grid.dx,
+          y = grid.north - iy * grid.dy;
         const p = toLonLat === undefined ? [x, y] : toLonLat(x, y);
         const q: [number, number] = [round(p[0]), round(p[1])];
         const last = coords[coords.length - 1];

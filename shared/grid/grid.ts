@@ -92,16 +92,26 @@ export function sampleBilinear(g: Grid<Float32Array | Float64Array>, x: number, 
   const tx = Math.max(0, Math.min(1, fc - c0));
   const ty = Math.max(0, Math.min(1, fr - r0));
   const v = g.values;
-  const a = v[r0 * g.width + c0], b = v[r0 * g.width + c1], c = v[r1 * g.width + c0], d = v[r1 * g.width + c1];
+  const a = v[r0 * g.width + c0],
+    b = v[r0 * g.width + c1],
+    c = v[r1 * g.width + c0],
+    d = v[r1 * g.width + c1];
   return (a * (1 - tx) + b * tx) * (1 - ty) + (c * (1 - tx) + d * tx) * ty;
 }
 
 /** Min, max, mean and no-data count of the finite values (NaN skipped). */
 export function gridStats(values: ArrayLike<number>): { min: number | null; max: number | null; mean: number | null; noData: number; count: number } {
-  let min = Infinity, max = -Infinity, sum = 0, n = 0, noData = 0;
+  let min = Infinity,
+    max = -Infinity,
+    sum = 0,
+    n = 0,
+    noData = 0;
   for (let i = 0; i < values.length; i++) {
     const v = values[i];
-    if (!Number.isFinite(v)) { noData++; continue; }
+    if (!Number.isFinite(v)) {
+      noData++;
+      continue;
+    }
     if (v < min) min = v;
     if (v > max) max = v;
     sum += v;

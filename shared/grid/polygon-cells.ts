@@ -20,9 +20,13 @@ function edgesOf(rings: Rings): Float64Array {
     const n = r.length;
     if (n < 2) continue;
     for (let i = 0; i < n; i++) {
-      const a = r[i], b = r[(i + 1) % n];
+      const a = r[i],
+        b = r[(i + 1) % n];
       if (a[0] === b[0] && a[1] === b[1]) continue; // the closing duplicate vertex, or a repeated one
-      e[k++] = a[0]; e[k++] = a[1]; e[k++] = b[0]; e[k++] = b[1];
+      e[k++] = a[0];
+      e[k++] = a[1];
+      e[k++] = b[0];
+      e[k++] = b[1];
     }
   }
   return e.subarray(0, k);
@@ -36,7 +40,8 @@ function scanRow(spec: GridSpec, edges: Float64Array, row: number, xs: Float64Ar
   const y = spec.north - (row + 0.5) * spec.dy;
   let n = 0;
   for (let k = 0; k < edges.length; k += 4) {
-    const y1 = edges[k + 1], y2 = edges[k + 3];
+    const y1 = edges[k + 1],
+      y2 = edges[k + 3];
     if ((y1 <= y && y < y2) || (y2 <= y && y < y1)) xs[n++] = edges[k] + ((y - y1) / (y2 - y1)) * (edges[k + 2] - edges[k]);
   }
   if (n < 2) return;
@@ -99,7 +104,10 @@ export function pointInRings(rings: Rings, x: number, y: number): boolean {
   for (const r of rings) {
     const n = r.length;
     for (let i = 0, j = n - 1; i < n; j = i++) {
-      const xi = r[i][0], yi = r[i][1], xj = r[j][0], yj = r[j][1];
+      const xi = r[i][0],
+        yi = r[i][1],
+        xj = r[j][0],
+        yj = r[j][1];
       if (yi > y !== yj > y && x < ((xj - xi) * (y - yi)) / (yj - yi) + xi) inside = !inside;
     }
   }

@@ -22,7 +22,9 @@ export function tileYFromLat(lat: number, z: number): number {
 
 /** Whether tile (z, x, y) touches the bbox [west, south, east, north] (degrees). */
 export function tileIntersectsBbox(z: number, x: number, y: number, bbox: readonly [number, number, number, number]): boolean {
-  const w = lngFromTileX(x, z), e = lngFromTileX(x + 1, z);
-  const n = latFromTileY(y, z), s = latFromTileY(y + 1, z);
+  const w = lngFromTileX(x, z),
+    e = lngFromTileX(x + 1, z);
+  const n = latFromTileY(y, z),
+    s = latFromTileY(y + 1, z);
   return e > bbox[0] && w < bbox[2] && n > bbox[1] && s < bbox[3];
 }

@@ -18,13 +18,15 @@ export interface EmpiricalBhtMethod {
 export const EMPIRICAL_BHT: Record<EmpiricalBhtMethod['name'], EmpiricalBhtMethod> = {
   harrison1983: {
     name: 'harrison1983',
-    source: 'Harrison, Luza, Prater & Cheung (1983), Oklahoma Geological Survey Special Publication 83-1: ΔT = −16.51213476 + 0.01826842109·z − 2.344936959×10⁻⁶·z² (°C, z in m; from memory)',
+    source:
+      'Harrison, Luza, Prater & Cheung (1983), Oklahoma Geological Survey Special Publication 83-1: ΔT = −16.51213476 + 0.01826842109·z − 2.344936959×10⁻⁶·z² (°C, z in m; from memory)',
     calibratedDepthM: [1000, 3900],
     needsTime: false,
   },
   waples2004: {
     name: 'waples2004',
-    source: 'Waples, Pacheco & Vera (2004), Petroleum Geoscience 10, 239–245: T = Ts + f·(BHT − Ts) − 0.001391·(z − 4498), f = 1.32866 − 0.005289·TSC (°C, z in m, TSC hours since circulation)',
+    source:
+      'Waples, Pacheco & Vera (2004), Petroleum Geoscience 10, 239–245: T = Ts + f·(BHT − Ts) − 0.001391·(z − 4498), f = 1.32866 − 0.005289·TSC (°C, z in m, TSC hours since circulation)',
     calibratedDepthM: [3500, 6500],
     needsTime: true,
   },

@@ -36,7 +36,8 @@ export interface IntervalCorrection {
   notes: string[];
 }
 
-const TOPO_METHOD = 'reference plane with surface temperature (G − β)·Δh and its half-space (Poisson) response, exact per terrain cell (Birch 1950, after Jeffreys 1938)';
+const TOPO_METHOD =
+  'reference plane with surface temperature (G − β)·Δh and its half-space (Poisson) response, exact per terrain cell (Birch 1950, after Jeffreys 1938)';
 
 /**
  * Corrects a gradient measured over [topM, bottomM] (m below ground) at lon/lat: first the paleoclimatic
@@ -65,9 +66,19 @@ export function correctIntervalGradient(
     const f = topographicFactor(t.dem, input.lonLat[0], input.lonLat[1], topM, bottomM, radiusKm);
     const corrected = topographicallyCorrectedGradient(g, f.factor, t.lapseRateCPerKm);
     const dg = corrected - g;
-    corrections.push({ kind: 'topographic', method: TOPO_METHOD, gradientChangeCPerKm: dg, heatFlowChangeMWm2: dg * k, topography: { ...f, lapseRateCPerKm: t.lapseRateCPerKm } });
-    if (f.coverage < 0.99) notes.push(`the terrain covers ${(f.coverage * 100).toFixed(0)} % of the ${+radiusKm.toFixed(1)} km radius; the rest is taken as level with the site`);
-    if (f.kernelBeyondRadius > 0.1) notes.push(`${(f.kernelBeyondRadius * 100).toFixed(0)} % of the topographic kernel at ${bottomM.toFixed(0)} m lies beyond ${+radiusKm.toFixed(1)} km and is ignored`);
+    corrections.push({
+      kind: 'topographic',
+      method: TOPO_METHOD,
+      gradientChangeCPerKm: dg,
+      heatFlowChangeMWm2: dg * k,
+      topography: { ...f, lapseRateCPerKm: t.lapseRateCPerKm },
+    });
+    if (f.coverage < 0.99)
+      notes.push(`the terrain covers ${(f.coverage * 100).toFixed(0)} % of the ${+radiusKm.toFixed(1)} km radius; the rest is taken as level with the site`);
+    if (f.kernelBeyondRadius > 0.1)
+      notes.push(
+        `${(f.kernelBeyondRadius * 100).toFixed(0)} % of the topographic kernel at ${bottomM.toFixed(0)} m lies beyond ${+radiusKm.toFixed(1)} km and is ignored`,
+      );
     g = corrected;
   }
   return {

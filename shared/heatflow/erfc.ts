@@ -9,7 +9,8 @@ export function erfc(x: number): number {
   if (x < 0) return 2 - erfc(-x);
   if (x < 2) {
     // erf(x) = (2/√π) Σ (−1)ⁿ x^(2n+1) / (n!(2n+1)); terms fall below 1e-17 of the sum well before n = 60 for x < 2.
-    let term = x, sum = x;
+    let term = x,
+      sum = x;
     const x2 = x * x;
     for (let n = 1; n < 80; n++) {
       term *= -x2 / n;
@@ -22,7 +23,9 @@ export function erfc(x: number): number {
   if (x > 27) return 0; // e^(−x²) underflows double precision
   // Continued fraction K = x + a1/(x + a2/(x + …)) with aₙ = n/2; modified Lentz (Press et al. 2007, §5.2).
   const tiny = 1e-300;
-  let f = x, c = x, d = 0;
+  let f = x,
+    c = x,
+    d = 0;
   for (let n = 1; n < 500; n++) {
     const a = n / 2;
     d = x + a * d;

@@ -70,7 +70,8 @@ export function paleoclimateCorrection(topM: number, bottomM: number, steps: Cli
       ? ((paleoDisturbanceC(bottomM, steps, diffusivityM2s) - paleoDisturbanceC(topM, steps, diffusivityM2s)) / (bottomM - topM)) * 1000
       : paleoGradientDisturbanceCPerKm(topM, steps, diffusivityM2s);
   return {
-    method: 'half-space response to surface-temperature steps, ΔT·erfc(z/2√(κt)), averaged over the interval (Birch 1948; Beck 1977; Carslaw & Jaeger 1959 §2.4)',
+    method:
+      'half-space response to surface-temperature steps, ΔT·erfc(z/2√(κt)), averaged over the interval (Birch 1948; Beck 1977; Carslaw & Jaeger 1959 §2.4)',
     topM,
     bottomM,
     diffusivityM2s,

@@ -63,10 +63,20 @@ export function correctSites<F extends { id?: string | number; geometry: { type:
     const pid = p.id;
     const id = typeof pid === 'string' || typeof pid === 'number' ? String(pid) : String(f.id ?? i);
     const q = num(p, 'heatFlowMWm2');
-    const top = num(p, 'intervalTopM'), bottom = num(p, 'intervalBottomM');
-    let g = num(p, 'gradientCPerKm'), k = num(p, 'conductivityWmK');
+    const top = num(p, 'intervalTopM'),
+      bottom = num(p, 'intervalBottomM');
+    let g = num(p, 'gradientCPerKm'),
+      k = num(p, 'conductivityWmK');
     const skip = (reason: string) => {
-      reports.push({ id, source: 'site', status: 'not-applicable', reason, rawHeatFlowMWm2: q ?? NaN, correctedHeatFlowMWm2: q ?? NaN, units: CORRECTION_UNITS });
+      reports.push({
+        id,
+        source: 'site',
+        status: 'not-applicable',
+        reason,
+        rawHeatFlowMWm2: q ?? NaN,
+        correctedHeatFlowMWm2: q ?? NaN,
+        units: CORRECTION_UNITS,
+      });
       return f;
     };
     if (q === undefined || !(q > 0)) return skip('no positive heatFlowMWm2');
@@ -74,7 +84,8 @@ export function correctSites<F extends { id?: string | number; geometry: { type:
     if (!(top >= 0 && bottom > top)) return skip(`interval ${top}–${bottom} m is not 0 ≤ top < bottom`);
     if (g === undefined && k !== undefined && k > 0) g = q / k;
     if (k === undefined && g !== undefined && g > 0) k = q / g;
-    if (g === undefined || k === undefined || !(g > 0) || !(k > 0)) return skip('needs gradientCPerKm or conductivityWmK (positive) to turn a gradient change into a heat-flow change');
+    if (g === undefined || k === undefined || !(g > 0) || !(k > 0))
+      return skip('needs gradientCPerKm or conductivityWmK (positive) to turn a gradient change into a heat-flow change');
     const [lon, lat] = f.geometry.coordinates;
     const c = correctIntervalGradient({ lonLat: [lon, lat], topM: top, bottomM: bottom, gradientCPerKm: g, conductivityWmK: k }, opts);
     const corrected = q + c.totalHeatFlowChangeMWm2;
@@ -91,9 +102,22 @@ export function correctionTable(reports: SiteCorrectionReport[]): string {
   const rows = reports.map((r) => {
     const c = r.interval;
     const of = (kind: string) => c?.corrections.find((x) => x.kind === kind)?.heatFlowChangeMWm2;
-    return [r.id, r.source, c ? `${c.topM.toFixed(0)}–${c.bottomM.toFixed(0)}` : '—', f(r.rawHeatFlowMWm2), f(of('paleoclimate')), f(of('topographic')), f(r.correctedHeatFlowMWm2), r.reason ?? c?.notes.join('; ') ?? ''];
+    return [
+      r.id,
+      r.source,
+      c ? `${c.topM.toFixed(0)}–${c.bottomM.toFixed(0)}` : '—',
+      f(r.rawHeatFlowMWm2),
+      f(of('paleoclimate')),
+      f(of('topographic')),
+      f(r.correctedHeatFlowMWm2),
+      r.reason ?? c?.notes.join('; ') ?? '',
+    ];
   });
   const widths = head.map((h, i) => Math.max(h.length, ...rows.map((r) => r[i].length)));
-  const line = (r: string[]) => r.map((v, i) => v.padEnd(widths[i])).join('  ').trimEnd();
+  const line = (r: string[]) =>
+    r
+      .map((v, i) => v.padEnd(widths[i]))
+      .join('  ')
+      .trimEnd();
   return [line(head), line(widths.map((w) => '-'.repeat(w))), ...rows.map(line)].join('\n');
 }

@@ -41,9 +41,14 @@ function radiiM(latDeg: number): { m: number; n: number } {
 export function demElevationM(dem: Grid<Float32Array | Float64Array>, lon: number, lat: number): number {
   const fc = Math.min(dem.width - 1, Math.max(0, (lon - dem.west) / dem.dx - 0.5));
   const fr = Math.min(dem.height - 1, Math.max(0, (dem.north - lat) / dem.dy - 0.5));
-  const c0 = Math.floor(fc), r0 = Math.floor(fr);
-  const c1 = Math.min(dem.width - 1, c0 + 1), r1 = Math.min(dem.height - 1, r0 + 1);
-  const tx = fc - c0, ty = fr - r0, v = dem.values, w = dem.width;
+  const c0 = Math.floor(fc),
+    r0 = Math.floor(fr);
+  const c1 = Math.min(dem.width - 1, c0 + 1),
+    r1 = Math.min(dem.height - 1, r0 + 1);
+  const tx = fc - c0,
+    ty = fr - r0,
+    v = dem.values,
+    w = dem.width;
   return (v[r0 * w + c0] * (1 - tx) + v[r0 * w + c1] * tx) * (1 - ty) + (v[r1 * w + c0] * (1 - tx) + v[r1 * w + c1] * tx) * ty;
 }
 
@@ -60,34 +65,51 @@ export function rectangleSolidAngle(x1: number, x2: number, y1: number, y2: numb
  * Distances use the ellipsoid's radii of curvature at the site (a local tangent plane: good to about 0.1 % over
  * 100 km).
  */
-export function topographicFactor(dem: Grid<Float32Array | Float64Array>, lon: number, lat: number, topM: number, bottomM: number, radiusKm: number): TopographicFactor {
+export function topographicFactor(
+  dem: Grid<Float32Array | Float64Array>,
+  lon: number,
+  lat: number,
+  topM: number,
+  bottomM: number,
+  radiusKm: number,
+): TopographicFactor {
   if (dem.crs !== 'EPSG:4326') throw new RangeError(`the terrain must be a lon/lat (EPSG:4326) grid, got ${dem.crs}`);
   if (!(bottomM > topM) || !(topM >= 0)) throw new RangeError(`the interval must satisfy 0 ≤ top < bottom (m), got ${topM}–${bottomM}`);
   if (!(radiusKm > 0)) throw new RangeError(`radiusKm must be > 0, got ${radiusKm}`);
   const h0 = demElevationM(dem, lon, lat);
   if (!Number.isFinite(h0)) throw new RangeError(`the terrain has no elevation at ${lon}, ${lat}`);
   const { m, n } = radiiM(lat);
-  const mPerDegY = (m * Math.PI) / 180, mPerDegX = (n * Math.cos((lat * Math.PI) / 180) * Math.PI) / 180;
+  const mPerDegY = (m * Math.PI) / 180,
+    mPerDegX = (n * Math.cos((lat * Math.PI) / 180) * Math.PI) / 180;
   const R = radiusKm * 1000;
-  const colSite = Math.floor((lon - dem.west) / dem.dx), rowSite = Math.floor((dem.north - lat) / dem.dy);
-  const dc = Math.ceil(R / (dem.dx * mPerDegX)) + 1, dr = Math.ceil(R / (dem.dy * mPerDegY)) + 1;
-  const c0 = Math.max(0, colSite - dc), c1 = Math.min(dem.width - 1, colSite + dc);
-  const r0 = Math.max(0, rowSite - dr), r1 = Math.min(dem.height - 1, rowSite + dr);
+  const colSite = Math.floor((lon - dem.west) / dem.dx),
+    rowSite = Math.floor((dem.north - lat) / dem.dy);
+  const dc = Math.ceil(R / (dem.dx * mPerDegX)) + 1,
+    dr = Math.ceil(R / (dem.dy * mPerDegY)) + 1;
+  const c0 = Math.max(0, colSite - dc),
+    c1 = Math.min(dem.width - 1, colSite + dc);
+  const r0 = Math.max(0, rowSite - dr),
+    r1 = Math.min(dem.height - 1, rowSite + dr);
   const SPLIT = 8;
   const phi = (z: number) => {
     if (z <= 0) return 0; // the boundary value at the site itself is h_site − h_site
     let sum = 0;
     for (let r = r0; r <= r1; r++) {
-      const yN = (dem.north - r * dem.dy - lat) * mPerDegY, yS = yN - dem.dy * mPerDegY;
+      const yN = (dem.north - r * dem.dy - lat) * mPerDegY,
+        yS = yN - dem.dy * mPerDegY;
       for (let c = c0; c <= c1; c++) {
-        const xW = (dem.west + c * dem.dx - lon) * mPerDegX, xE = xW + dem.dx * mPerDegX;
-        const xc = (xW + xE) / 2, yc = (yN + yS) / 2;
+        const xW = (dem.west + c * dem.dx - lon) * mPerDegX,
+          xE = xW + dem.dx * mPerDegX;
+        const xc = (xW + xE) / 2,
+          yc = (yN + yS) / 2;
         if (xc * xc + yc * yc > R * R) continue;
         if (Math.abs(r - rowSite) <= 2 && Math.abs(c - colSite) <= 2) {
-          const sx = (xE - xW) / SPLIT, sy = (yN - yS) / SPLIT;
+          const sx = (xE - xW) / SPLIT,
+            sy = (yN - yS) / SPLIT;
           for (let i = 0; i < SPLIT; i++) {
             for (let j = 0; j < SPLIT; j++) {
-              const ax = xW + i * sx, ay = yS + j * sy;
+              const ax = xW + i * sx,
+                ay = yS + j * sy;
               const h = demElevationM(dem, lon + (ax + sx / 2) / mPerDegX, lat + (ay + sy / 2) / mPerDegY);
               if (Number.isFinite(h)) sum += (h - h0) * rectangleSolidAngle(ax, ax + sx, ay, ay + sy, z);
             }

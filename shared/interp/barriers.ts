@@ -23,7 +23,11 @@ export class FaultBarrier implements VisibilityTest {
   private readonly index: Flatbush;
   private readonly px: ArrayLike<number>;
   private readonly py: ArrayLike<number>;
-  private ax = 0; private ay = 0; private bx = 0; private by = 0; private hit = false;
+  private ax = 0;
+  private ay = 0;
+  private bx = 0;
+  private by = 0;
+  private hit = false;
   private readonly test: (i: number) => boolean;
   /** Number of visibility tests made (for diagnostics). */
   tests = 0;
@@ -40,7 +44,10 @@ export class FaultBarrier implements VisibilityTest {
     this.py = py;
     const index = new Flatbush(Math.max(1, this.count));
     for (let s = 0; s < this.count; s++) {
-      const x1 = segments[4 * s], y1 = segments[4 * s + 1], x2 = segments[4 * s + 2], y2 = segments[4 * s + 3];
+      const x1 = segments[4 * s],
+        y1 = segments[4 * s + 1],
+        x2 = segments[4 * s + 2],
+        y2 = segments[4 * s + 3];
       index.add(Math.min(x1, x2), Math.min(y1, y2), Math.max(x1, x2), Math.max(y1, y2));
     }
     if (this.count === 0) index.add(NaN, NaN, NaN, NaN);
@@ -48,7 +55,12 @@ export class FaultBarrier implements VisibilityTest {
     this.index = index;
     // One closure for the object's life: the flatbush filter records a hit and keeps no results.
     this.test = (s: number) => {
-      if (!this.hit && s < this.count && segmentsCross(this.ax, this.ay, this.bx, this.by, this.seg[4 * s], this.seg[4 * s + 1], this.seg[4 * s + 2], this.seg[4 * s + 3])) this.hit = true;
+      if (
+        !this.hit &&
+        s < this.count &&
+        segmentsCross(this.ax, this.ay, this.bx, this.by, this.seg[4 * s], this.seg[4 * s + 1], this.seg[4 * s + 2], this.seg[4 * s + 3])
+      )
+        this.hit = true;
       return false;
     };
   }
@@ -57,7 +69,11 @@ export class FaultBarrier implements VisibilityTest {
   blocks(ax: number, ay: number, bx: number, by: number): boolean {
     if (this.count === 0) return false;
     this.tests++;
-    this.ax = ax; this.ay = ay; this.bx = bx; this.by = by; this.hit = false;
+    this.ax = ax;
+    this.ay = ay;
+    this.bx = bx;
+    this.by = by;
+    this.hit = false;
     this.index.search(Math.min(ax, bx), Math.min(ay, by), Math.max(ax, bx), Math.max(ay, by), this.test);
     return this.hit;
   }

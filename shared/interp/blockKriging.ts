@@ -29,19 +29,34 @@ export interface BlockDiscretisation {
  * fall inside. Returns null when the polygon is degenerate (no point inside even at 1/64 of the first spacing).
  */
 export function discretisePolygon(rings: number[][][], target = 400, minInside = 16): BlockDiscretisation | null {
-  let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
-  for (const r of rings) for (const p of r) { x0 = Math.min(x0, p[0]); x1 = Math.max(x1, p[0]); y0 = Math.min(y0, p[1]); y1 = Math.max(y1, p[1]); }
+  let x0 = Infinity,
+    x1 = -Infinity,
+    y0 = Infinity,
+    y1 = -Infinity;
+  for (const r of rings)
+    for (const p of r) {
+      x0 = Math.min(x0, p[0]);
+      x1 = Math.max(x1, p[0]);
+      y0 = Math.min(y0, p[1]);
+      y1 = Math.max(y1, p[1]);
+    }
   if (!(x1 > x0 && y1 > y0)) return null;
   const mask = new RegionMask(rings);
   let h = Math.sqrt(((x1 - x0) * (y1 - y0)) / target);
   for (let attempt = 0; attempt < 7; attempt++, h /= 2) {
-    const nx = Math.max(1, Math.ceil((x1 - x0) / h)), ny = Math.max(1, Math.ceil((y1 - y0) / h));
+    const nx = Math.max(1, Math.ceil((x1 - x0) / h)),
+      ny = Math.max(1, Math.ceil((y1 - y0) / h));
     const inside = new Uint8Array(nx);
-    const xs: number[] = [], ys: number[] = [];
+    const xs: number[] = [],
+      ys: number[] = [];
     for (let r = 0; r < ny; r++) {
       const y = y1 - (r + 0.5) * h;
       mask.row(y, x0, h, nx, inside);
-      for (let c = 0; c < nx; c++) if (inside[c] === 1) { xs.push(x0 + (c + 0.5) * h); ys.push(y); }
+      for (let c = 0; c < nx; c++)
+        if (inside[c] === 1) {
+          xs.push(x0 + (c + 0.5) * h);
+          ys.push(y);
+        }
     }
     if (xs.length >= minInside || (attempt === 6 && xs.length > 0)) return { x: Float64Array.from(xs), y: Float64Array.from(ys), spacingKm: h };
   }
@@ -67,15 +82,27 @@ export class BlockKriging {
   private readonly z: Float64Array;
   private readonly m: [number, number, number, number];
 
-  constructor(x: Float64Array, y: Float64Array, z: Float64Array, private readonly model: VariogramModel, anisotropy: Anisotropy | null = null, errorVariance: Float64Array | null = null) {
+  constructor(
+    x: Float64Array,
+    y: Float64Array,
+    z: Float64Array,
+    private readonly model: VariogramModel,
+    anisotropy: Anisotropy | null = null,
+    errorVariance: Float64Array | null = null,
+  ) {
     checkVariogram(model);
     const n = x.length;
     if (n < 1) throw new RangeError('block kriging needs at least one point');
     this.m = anisotropyMatrix(anisotropy);
     const m = this.m;
-    this.dx = new Float64Array(n); this.dy = new Float64Array(n);
-    for (let i = 0; i < n; i++) { this.dx[i] = m[0] * x[i] + m[1] * y[i]; this.dy[i] = m[2] * x[i] + m[3] * y[i]; }
-    this.z = z; this.n = n;
+    this.dx = new Float64Array(n);
+    this.dy = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      this.dx[i] = m[0] * x[i] + m[1] * y[i];
+      this.dy[i] = m[2] * x[i] + m[3] * y[i];
+    }
+    this.z = z;
+    this.n = n;
     const L = new Float64Array(n * n);
     const sill = model.nugget + model.partialSill;
     let ok = false;
@@ -97,8 +124,12 @@ export class BlockKriging {
   estimate(d: BlockDiscretisation): BlockEstimate {
     const { n, m, model, dx, dy } = this;
     const N = d.x.length;
-    const ux = new Float64Array(N), uy = new Float64Array(N);
-    for (let k = 0; k < N; k++) { ux[k] = m[0] * d.x[k] + m[1] * d.y[k]; uy[k] = m[2] * d.x[k] + m[3] * d.y[k]; }
+    const ux = new Float64Array(N),
+      uy = new Float64Array(N);
+    for (let k = 0; k < N; k++) {
+      ux[k] = m[0] * d.x[k] + m[1] * d.y[k];
+      uy[k] = m[2] * d.x[k] + m[3] * d.y[k];
+    }
     const cbar = new Float64Array(n);
     for (let i = 0; i < n; i++) {
       let s = 0;
@@ -114,7 +145,8 @@ export class BlockKriging {
     const w = new Float64Array(n);
     choleskySolve(this.L, n, n, cbar, w);
     const mu = (w.reduce((a, v) => a + v, 0) - 1) / this.s;
-    let value = 0, lc = 0;
+    let value = 0,
+      lc = 0;
     for (let i = 0; i < n; i++) {
       const lam = w[i] - mu * this.b[i];
       value += lam * this.z[i];
@@ -135,20 +167,36 @@ export interface BlockPolygon {
  * Block estimates of the prepared (kriging) interpolation's field over polygons: `{ id, value, sd, units }` per
  * polygon, plus the discretisation size. Throws InputError for a polygon with no area.
  */
-export function blockEstimates(prep: PreparedInterpolation, polygons: BlockPolygon[]): { id: string; value: number; sd: number; units: string; discretisationPoints: number; spacingKm: number }[] {
+export function blockEstimates(
+  prep: PreparedInterpolation,
+  polygons: BlockPolygon[],
+): { id: string; value: number; sd: number; units: string; discretisationPoints: number; spacingKm: number }[] {
   const plan = prep.plan;
-  if (plan.method !== 'kriging' || plan.variogram === null) throw new InputError('block estimates need --method kriging', [{ field: 'block', problem: 'use --method kriging' }], 'bad_option');
-  if (plan.x.length > plan.maxGlobal) throw new InputError(`block kriging uses all ${plan.x.length} points, above the limit of ${plan.maxGlobal}`, [{ field: 'block', problem: `expected at most ${plan.maxGlobal} points` }], 'too_many_points');
+  if (plan.method !== 'kriging' || plan.variogram === null)
+    throw new InputError('block estimates need --method kriging', [{ field: 'block', problem: 'use --method kriging' }], 'bad_option');
+  if (plan.x.length > plan.maxGlobal)
+    throw new InputError(
+      `block kriging uses all ${plan.x.length} points, above the limit of ${plan.maxGlobal}`,
+      [{ field: 'block', problem: `expected at most ${plan.maxGlobal} points` }],
+      'too_many_points',
+    );
   const bk = new BlockKriging(plan.x, plan.y, plan.z, plan.variogram, plan.anisotropy, plan.errorVariance);
   return polygons.map((poly) => {
     const rings = poly.rings.map((ring) => {
-      const lon = ring.map((p) => p[0]), lat = ring.map((p) => p[1]);
-      const x = new Float64Array(ring.length), y = new Float64Array(ring.length);
+      const lon = ring.map((p) => p[0]),
+        lat = ring.map((p) => p[1]);
+      const x = new Float64Array(ring.length),
+        y = new Float64Array(ring.length);
       lonLatToLocalKm(plan.projection, lon, lat, x, y);
       return Array.from(x, (v, i) => [v, y[i]]);
     });
     const d = discretisePolygon(rings);
-    if (d === null) throw new InputError(`block ${poly.id} has no area to estimate over`, [{ feature: poly.id, field: 'geometry', problem: 'expected a polygon with a non-zero area' }], 'bad_geometry');
+    if (d === null)
+      throw new InputError(
+        `block ${poly.id} has no area to estimate over`,
+        [{ feature: poly.id, field: 'geometry', problem: 'expected a polygon with a non-zero area' }],
+        'bad_geometry',
+      );
     const e = bk.estimate(d);
     return { id: poly.id, value: e.value, sd: e.sd, units: prep.units, discretisationPoints: e.points, spacingKm: d.spacingKm };
   });

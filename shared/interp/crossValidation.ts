@@ -36,11 +36,20 @@ export interface CrossValidation {
 
 /** Summary statistics of residuals (NaN-free inputs). */
 export function summarize(method: 'idw' | 'kriging', res: CvResidual[], unpredicted: number): CrossValidation {
-  let se = 0, sse = 0, sz = 0, szz = 0, nz = 0;
+  let se = 0,
+    sse = 0,
+    sz = 0,
+    szz = 0,
+    nz = 0;
   for (const r of res) {
     se += r.residual;
     sse += r.residual * r.residual;
-    if (r.sd !== null && r.sd > 0) { const t = r.residual / r.sd; sz += t; szz += t * t; nz++; }
+    if (r.sd !== null && r.sd > 0) {
+      const t = r.residual / r.sd;
+      sz += t;
+      szz += t * t;
+      nz++;
+    }
   }
   const n = res.length;
   return {
@@ -61,7 +70,10 @@ export function crossValidateIdw(ids: string[], x: Float64Array, y: Float64Array
   let un = 0;
   for (let i = 0; i < x.length; i++) {
     const v = p.predict(x[i], y[i], i);
-    if (!Number.isFinite(v)) { un++; continue; }
+    if (!Number.isFinite(v)) {
+      un++;
+      continue;
+    }
     res.push({ id: ids[i], observed: z[i], predicted: v, sd: null, residual: z[i] - v });
   }
   return summarize('idw', res, un);
@@ -72,7 +84,17 @@ export function crossValidateIdw(ids: string[], x: Float64Array, y: Float64Array
  * neighbourhoods without barriers use Dubrule's closed form; otherwise each point is predicted from its
  * neighbourhood among the others.
  */
-export function crossValidateKriging(ids: string[], x: Float64Array, y: Float64Array, z: Float64Array, p: KrigingPredictor, model: VariogramModel, errorVariance: Float64Array | null, hasBarrier: boolean, radiusKm = Infinity): CrossValidation {
+export function crossValidateKriging(
+  ids: string[],
+  x: Float64Array,
+  y: Float64Array,
+  z: Float64Array,
+  p: KrigingPredictor,
+  model: VariogramModel,
+  errorVariance: Float64Array | null,
+  hasBarrier: boolean,
+  radiusKm = Infinity,
+): CrossValidation {
   const n = x.length;
   if (p.global && !hasBarrier && radiusKm === Infinity && n >= 3) {
     const r = dubrule(x, y, z, model, errorVariance);
@@ -87,7 +109,10 @@ export function crossValidateKriging(ids: string[], x: Float64Array, y: Float64A
   let un = 0;
   for (let i = 0; i < n; i++) {
     const m = p.predict(x[i], y[i], out, true, i);
-    if (m === 0 || !Number.isFinite(out[0])) { un++; continue; }
+    if (m === 0 || !Number.isFinite(out[0])) {
+      un++;
+      continue;
+    }
     const ev = errorVariance === null ? 0 : errorVariance[i];
     const sd = Math.sqrt(out[1] * out[1] + ev);
     res.push({ id: ids[i], observed: z[i], predicted: out[0], sd, residual: z[i] - out[0] });
@@ -100,7 +125,13 @@ export function crossValidateKriging(ids: string[], x: Float64Array, y: Float64A
  * the bordered inverse's top-left block is C⁻¹ − b·bᵀ/s, so [K⁻¹]ᵢᵢ = (C⁻¹)ᵢᵢ − bᵢ²/s and
  * [K⁻¹z̃]ᵢ = (C⁻¹z)ᵢ − bᵢ·(bᵀz)/s. Returns null if C is not positive definite.
  */
-export function dubrule(x: Float64Array, y: Float64Array, z: Float64Array, model: VariogramModel, ev: Float64Array | null): { residual: Float64Array; sd: Float64Array } | null {
+export function dubrule(
+  x: Float64Array,
+  y: Float64Array,
+  z: Float64Array,
+  model: VariogramModel,
+  ev: Float64Array | null,
+): { residual: Float64Array; sd: Float64Array } | null {
   const n = x.length;
   const L = new Float64Array(n * n);
   for (let i = 0; i < n; i++) {
@@ -108,10 +139,13 @@ export function dubrule(x: Float64Array, y: Float64Array, z: Float64Array, model
     L[i * n + i] = model.nugget + model.partialSill + (ev === null ? 0 : ev[i]);
   }
   if (!choleskyInPlace(L, n, n)) return null;
-  const b = new Float64Array(n), w = new Float64Array(n), ones = new Float64Array(n).fill(1);
+  const b = new Float64Array(n),
+    w = new Float64Array(n),
+    ones = new Float64Array(n).fill(1);
   choleskySolve(L, n, n, ones, b);
   choleskySolve(L, n, n, z, w);
-  const s = dot(b, ones, n), bz = dot(b, z, n);
+  const s = dot(b, ones, n),
+    bz = dot(b, z, n);
   // diag(C⁻¹) = column sums of squares of L⁻¹; column j of L⁻¹ solves L·v = e_j (entries above j are zero).
   const diag = new Float64Array(n);
   const v = new Float64Array(n);
@@ -127,7 +161,8 @@ export function dubrule(x: Float64Array, y: Float64Array, z: Float64Array, model
     }
     diag[j] = acc;
   }
-  const residual = new Float64Array(n), sd = new Float64Array(n);
+  const residual = new Float64Array(n),
+    sd = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     const aii = diag[i] - (b[i] * b[i]) / s;
     residual[i] = (w[i] - (b[i] * bz) / s) / aii;

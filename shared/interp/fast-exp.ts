@@ -22,7 +22,9 @@ export function expNonPositive(t: number): number {
   const u = (t - T_MIN) * STEPS;
   const i = u | 0;
   const s = u - i;
-  const e0 = TABLE[i], e1 = TABLE[i + 1];
-  const s2 = s * s, s3 = s2 * s;
+  const e0 = TABLE[i],
+    e1 = TABLE[i + 1];
+  const s2 = s * s,
+    s3 = s2 * s;
   return e0 * (2 * s3 - 3 * s2 + 1 + H * (s3 - 2 * s2 + s)) + e1 * (3 * s2 - 2 * s3 + H * (s3 - s2));
 }

@@ -80,23 +80,40 @@ export function createGridRuntime(plan: GridPlan): GridRuntime {
   const iso = m[0] === 1 && m[1] === 0 && m[2] === 0 && m[3] === 1;
   let idw: IdwPredictor | null = null;
   let kriging: KrigingPredictor | null = null;
-  let tx = plan.x, ty = plan.y;
+  let tx = plan.x,
+    ty = plan.y;
   const hasBarrier = plan.faults !== null && plan.faults.length > 0;
   if (plan.method === 'idw') {
     const barrier = plan.faults !== null && plan.faults.length > 0 ? new FaultBarrier(plan.faults, plan.x, plan.y) : null;
-    idw = new IdwPredictor(plan.x, plan.y, plan.z, { power: plan.power, neighbors: plan.neighbors, radiusKm: plan.radiusKm, pointWeights: plan.pointWeights, visibility: barrier });
+    idw = new IdwPredictor(plan.x, plan.y, plan.z, {
+      power: plan.power,
+      neighbors: plan.neighbors,
+      radiusKm: plan.radiusKm,
+      pointWeights: plan.pointWeights,
+      visibility: barrier,
+    });
   } else {
     if (plan.variogram === null) throw new RangeError('kriging plan without a variogram');
     const t = iso ? { x: plan.x, y: plan.y } : transformCoords(m, plan.x, plan.y);
-    tx = t.x; ty = t.y;
+    tx = t.x;
+    ty = t.y;
     let barrier: FaultBarrier | null = null;
     if (plan.faults !== null && plan.faults.length > 0) {
       const f = plan.faults;
       const tf = new Float64Array(f.length);
-      for (let i = 0; i < f.length; i += 2) { tf[i] = m[0] * f[i] + m[1] * f[i + 1]; tf[i + 1] = m[2] * f[i] + m[3] * f[i + 1]; }
+      for (let i = 0; i < f.length; i += 2) {
+        tf[i] = m[0] * f[i] + m[1] * f[i + 1];
+        tf[i + 1] = m[2] * f[i] + m[3] * f[i + 1];
+      }
       barrier = new FaultBarrier(tf, t.x, t.y);
     }
-    kriging = new KrigingPredictor(t.x, t.y, plan.z, plan.variogram, { neighbors: plan.neighbors, radiusKm: plan.radiusKm, errorVariance: plan.errorVariance, visibility: barrier, maxGlobal: plan.maxGlobal });
+    kriging = new KrigingPredictor(t.x, t.y, plan.z, plan.variogram, {
+      neighbors: plan.neighbors,
+      radiusKm: plan.radiusKm,
+      errorVariance: plan.errorVariance,
+      visibility: barrier,
+      maxGlobal: plan.maxGlobal,
+    });
   }
   const realIndex = plan.maxDistanceKm !== null ? (iso && kriging !== null ? kriging.index : new NeighbourIndex(plan.x, plan.y)) : null;
   const w = plan.grid.width;
@@ -139,7 +156,8 @@ export function computeRows(rt: GridRuntime, r0: number, r1: number, values: Flo
     const base = r * W;
     for (let c = 0; c < W; c++) {
       stats.cells++;
-      const qx = rowX[c], qy = rowY[c];
+      const qx = rowX[c],
+        qy = rowY[c];
       if ((rt.mask !== null && inside[c] === 0) || (maxD !== null && rt.realIndex!.nearestDistance(qx, qy, maxD, rt.idBuf, rt.d2Buf) > maxD)) {
         stats.masked++;
         values[base + c] = NaN;
@@ -150,7 +168,8 @@ export function computeRows(rt: GridRuntime, r0: number, r1: number, values: Flo
         values[base + c] = rt.idw.predict(qx, qy);
         if (sd !== null) sd[base + c] = NaN;
       } else {
-        const tx = m[0] * qx + m[1] * qy, ty = m[2] * qx + m[3] * qy;
+        const tx = m[0] * qx + m[1] * qy,
+          ty = m[2] * qx + m[3] * qy;
         rt.kriging!.predict(tx, ty, out2, withSd);
         values[base + c] = out2[0];
         if (sd !== null) sd[base + c] = withSd ? out2[1] : NaN;
@@ -169,5 +188,12 @@ export function computeRows(rt: GridRuntime, r0: number, r1: number, values: Flo
 
 /** Adds row statistics (from several row ranges or workers). */
 export function addStats(a: RowStats, b: RowStats): RowStats {
-  return { cells: a.cells + b.cells, masked: a.masked + b.masked, empty: a.empty + b.empty, fallbacks: a.fallbacks + b.fallbacks, regularized: a.regularized + b.regularized, factorizations: a.factorizations + b.factorizations };
+  return {
+    cells: a.cells + b.cells,
+    masked: a.masked + b.masked,
+    empty: a.empty + b.empty,
+    fallbacks: a.fallbacks + b.fallbacks,
+    regularized: a.regularized + b.regularized,
+    factorizations: a.factorizations + b.factorizations,
+  };
 }

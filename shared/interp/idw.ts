@@ -48,7 +48,9 @@ export class IdwPredictor {
     this.k = Math.min(k, x.length);
     this.radiusKm = opts.radiusKm ?? Infinity;
     if (!(this.radiusKm > 0)) throw new RangeError(`search radius must be > 0 km, got ${this.radiusKm}`);
-    this.x = x; this.y = y; this.z = z;
+    this.x = x;
+    this.y = y;
+    this.z = z;
     this.q = opts.pointWeights ?? null;
     this.vis = opts.visibility ?? null;
     this.index = index ?? new NeighbourIndex(x, y);
@@ -58,39 +60,65 @@ export class IdwPredictor {
 
   /** Estimate at (qx, qy) km; `exclude` leaves one point out (cross-validation). NaN only when no point qualifies. */
   predict(qx: number, qy: number, exclude = -1): number {
-    const p = this.power, half = p / 2;
+    const p = this.power,
+      half = p / 2;
     const q = this.q;
     const r2 = this.radiusKm * this.radiusKm;
-    let sw = 0, swz = 0, exW = 0, exWZ = 0, exN = 0, used = 0;
+    let sw = 0,
+      swz = 0,
+      exW = 0,
+      exWZ = 0,
+      exN = 0,
+      used = 0;
     if (this.k >= this.x.length) {
       // Global: every (visible) point.
       const { x, y, z } = this;
       for (let i = 0; i < x.length; i++) {
         if (i === exclude) continue;
-        const dx = x[i] - qx, dy = y[i] - qy;
+        const dx = x[i] - qx,
+          dy = y[i] - qy;
         const d2 = dx * dx + dy * dy;
         if (d2 > r2) continue;
         if (this.vis !== null && !this.vis.visible(qx, qy, i)) continue;
         const qi = q === null ? 1 : q[i];
         used++;
-        if (d2 <= EXACT_D2) { exW += qi; exWZ += qi * z[i]; exN++; continue; }
+        if (d2 <= EXACT_D2) {
+          exW += qi;
+          exWZ += qi * z[i];
+          exN++;
+          continue;
+        }
         const w = qi * (p === 2 ? 1 / d2 : Math.pow(d2, -half));
-        sw += w; swz += w * z[i];
+        sw += w;
+        swz += w * z[i];
       }
     } else {
       const n = this.index.nearest(qx, qy, this.k, this.radiusKm, this.ids, this.d2, this.vis, exclude);
       used = n;
       for (let t = 0; t < n; t++) {
-        const i = this.ids[t], d2 = this.d2[t];
+        const i = this.ids[t],
+          d2 = this.d2[t];
         const qi = q === null ? 1 : q[i];
-        if (d2 <= EXACT_D2) { exW += qi; exWZ += qi * this.z[i]; exN++; continue; }
+        if (d2 <= EXACT_D2) {
+          exW += qi;
+          exWZ += qi * this.z[i];
+          exN++;
+          continue;
+        }
         const w = qi * (p === 2 ? 1 / d2 : Math.pow(d2, -half));
-        sw += w; swz += w * this.z[i];
+        sw += w;
+        swz += w * this.z[i];
       }
     }
-    if (used === 0) { this.emptyCount++; return NaN; }
+    if (used === 0) {
+      this.emptyCount++;
+      return NaN;
+    }
     if (exN > 0) return exW > 0 ? exWZ / exW : meanExact(this, qx, qy, exclude);
-    if (!(sw > 0)) { this.emptyCount++; return NaN; } // all multipliers zero
+    if (!(sw > 0)) {
+      this.emptyCount++;
+      return NaN;
+    } // all multipliers zero
     return swz / sw;
   }
 }
@@ -98,11 +126,16 @@ export class IdwPredictor {
 /** Exact hits whose multipliers are all zero: the plain mean of the coincident values. */
 function meanExact(p: IdwPredictor, qx: number, qy: number, exclude: number): number {
   const self = p as unknown as { x: Float64Array; y: Float64Array; z: Float64Array };
-  let s = 0, n = 0;
+  let s = 0,
+    n = 0;
   for (let i = 0; i < self.x.length; i++) {
     if (i === exclude) continue;
-    const dx = self.x[i] - qx, dy = self.y[i] - qy;
-    if (dx * dx + dy * dy <= EXACT_D2) { s += self.z[i]; n++; }
+    const dx = self.x[i] - qx,
+      dy = self.y[i] - qy;
+    if (dx * dx + dy * dy <= EXACT_D2) {
+      s += self.z[i];
+      n++;
+    }
   }
   return s / n;
 }

@@ -90,7 +90,9 @@ export class KrigingPredictor {
     checkVariogram(model);
     const n = x.length;
     if (n < 1) throw new RangeError('kriging needs at least one point');
-    this.x = x; this.y = y; this.z = z;
+    this.x = x;
+    this.y = y;
+    this.z = z;
     this.ev = opts.errorVariance ?? null;
     this.vis = opts.visibility ?? null;
     this.radiusKm = opts.radiusKm ?? Infinity;
@@ -150,19 +152,27 @@ export class KrigingPredictor {
           this.cand.set(this.ids.subarray(0, this.candN));
           this.anchorGap = found === kc + 1 ? Math.sqrt(this.d2[kc]) : Infinity;
           this.anchorOk = found === kc + 1 || this.radiusKm === Infinity;
-          this.ax = qx; this.ay = qy;
+          this.ax = qx;
+          this.ay = qy;
         } else this.anchorOk = false;
       }
       if (n === 0) return 0;
       for (let i = 0; i < n; i++) {
         const v = this.ids[i];
         let j = i;
-        while (j > 0 && sorted[j - 1] > v) { sorted[j] = sorted[j - 1]; j--; }
+        while (j > 0 && sorted[j - 1] > v) {
+          sorted[j] = sorted[j - 1];
+          j--;
+        }
         sorted[j] = v;
       }
       if (n === this.keyLen) {
         let same = true;
-        for (let i = 0; i < n; i++) if (this.key[i] !== sorted[i]) { same = false; break; }
+        for (let i = 0; i < n; i++)
+          if (this.key[i] !== sorted[i]) {
+            same = false;
+            break;
+          }
         if (same) return n;
       }
     }
@@ -178,7 +188,8 @@ export class KrigingPredictor {
    * moved, and within the search radius. Returns the count, or −1 when a tree search is needed.
    */
   private fromCandidates(qx: number, qy: number): number {
-    const dxa = qx - this.ax, dya = qy - this.ay;
+    const dxa = qx - this.ax,
+      dya = qy - this.ay;
     const limit = this.anchorGap - Math.sqrt(dxa * dxa + dya * dya);
     if (!(limit > 0)) return -1;
     const { cand, x, y, ids, d2 } = this;
@@ -186,7 +197,8 @@ export class KrigingPredictor {
     let count = 0;
     for (let t = 0; t < this.candN; t++) {
       const id = cand[t];
-      const dx = x[id] - qx, dy = y[id] - qy;
+      const dx = x[id] - qx,
+        dy = y[id] - qy;
       const dd = dx * dx + dy * dy;
       if (count === k && (dd > d2[k - 1] || (dd === d2[k - 1] && id > ids[k - 1]))) continue;
       let pos = count < k ? count : k - 1;
@@ -215,7 +227,8 @@ export class KrigingPredictor {
         const ri = i * n;
         for (let j = 0; j < i; j++) {
           const bb = sorted[j];
-          const dx = x[a] - x[bb], dy = y[a] - y[bb];
+          const dx = x[a] - x[bb],
+            dy = y[a] - y[bb];
           L[ri + j] = this.cov(Math.sqrt(dx * dx + dy * dy)); // (Math.hypot is several times slower)
         }
         L[ri + i] = this.sill + (ev === null ? 0 : ev[a]) + jitter;
@@ -246,7 +259,8 @@ export class KrigingPredictor {
     const n = this.prepare(qx, qy, exclude);
     if (n === 0) {
       this.counters.empty++;
-      out[0] = NaN; out[1] = NaN;
+      out[0] = NaN;
+      out[1] = NaN;
       return 0;
     }
     const c0 = this.c0;
@@ -261,8 +275,10 @@ export class KrigingPredictor {
       }
     }
     this.covariances(qx, qy, n);
-    const b = this.b, w = this.w;
-    let cb = 0, cw = 0;
+    const b = this.b,
+      w = this.w;
+    let cb = 0,
+      cw = 0;
     for (let i = 0; i < n; i++) {
       const c = c0[i];
       cb += c * b[i];
@@ -286,11 +302,13 @@ export class KrigingPredictor {
    */
   private globalEstimateSums(qx: number, qy: number, n: number): number | null {
     const { x, y, b, w, psill, sill } = this;
-    let cb = 0, cw = 0;
+    let cb = 0,
+      cw = 0;
     if (this.code === 1) {
       const f = -3 / this.range;
       for (let i = 0; i < n; i++) {
-        const dx = x[i] - qx, dy = y[i] - qy;
+        const dx = x[i] - qx,
+          dy = y[i] - qy;
         const h = Math.sqrt(dx * dx + dy * dy);
         const c = h > 0 ? psill * expNonPositive(f * h) : sill;
         cb += c * b[i];
@@ -299,7 +317,8 @@ export class KrigingPredictor {
     } else if (this.code === 2) {
       const f = -3 / (this.range * this.range);
       for (let i = 0; i < n; i++) {
-        const dx = x[i] - qx, dy = y[i] - qy;
+        const dx = x[i] - qx,
+          dy = y[i] - qy;
         const h2 = dx * dx + dy * dy;
         const c = h2 > 0 ? psill * expNonPositive(f * h2) : sill;
         cb += c * b[i];
@@ -319,7 +338,8 @@ export class KrigingPredictor {
       const f = -3 / this.range;
       for (let i = 0; i < n; i++) {
         const a = sorted[i];
-        const dx = x[a] - qx, dy = y[a] - qy;
+        const dx = x[a] - qx,
+          dy = y[a] - qy;
         const h = Math.sqrt(dx * dx + dy * dy);
         c0[i] = h > 0 ? psill * Math.exp(f * h) : sill;
       }
@@ -327,7 +347,8 @@ export class KrigingPredictor {
       const f = -3 / (this.range * this.range);
       for (let i = 0; i < n; i++) {
         const a = sorted[i];
-        const dx = x[a] - qx, dy = y[a] - qy;
+        const dx = x[a] - qx,
+          dy = y[a] - qy;
         const h2 = dx * dx + dy * dy;
         c0[i] = h2 > 0 ? psill * Math.exp(f * h2) : sill;
       }
@@ -335,7 +356,8 @@ export class KrigingPredictor {
       const inv = 1 / this.range;
       for (let i = 0; i < n; i++) {
         const a = sorted[i];
-        const dx = x[a] - qx, dy = y[a] - qy;
+        const dx = x[a] - qx,
+          dy = y[a] - qy;
         const h = Math.sqrt(dx * dx + dy * dy);
         const r = h * inv;
         c0[i] = h > 0 ? (r < 1 ? psill * (1 - 1.5 * r + 0.5 * r * r * r) : 0) : sill;
@@ -354,18 +376,27 @@ export class KrigingPredictor {
     this.covariances(qx, qy, n);
     choleskySolve(this.L, n, n, c0, outLambda);
     const mu = (dot(c0, this.b, n) - 1) / this.s;
-    for (let i = 0; i < n; i++) { outLambda[i] -= mu * this.b[i]; outIds[i] = sorted[i]; }
+    for (let i = 0; i < n; i++) {
+      outLambda[i] -= mu * this.b[i];
+      outIds[i] = sorted[i];
+    }
     return { n, mu };
   }
 
   private fallback(qx: number, qy: number, n: number, out: Float64Array): number {
     this.counters.fallbacks++;
-    let sw = 0, swz = 0;
+    let sw = 0,
+      swz = 0;
     for (let i = 0; i < n; i++) {
       const a = this.sorted[i];
       const d2 = (this.x[a] - qx) ** 2 + (this.y[a] - qy) ** 2;
-      if (d2 <= EXACT_KM * EXACT_KM) { out[0] = this.z[a]; out[1] = 0; return n; }
-      sw += 1 / d2; swz += this.z[a] / d2;
+      if (d2 <= EXACT_KM * EXACT_KM) {
+        out[0] = this.z[a];
+        out[1] = 0;
+        return n;
+      }
+      sw += 1 / d2;
+      swz += this.z[a] / d2;
     }
     out[0] = swz / sw;
     out[1] = Math.sqrt(this.sill);

@@ -15,7 +15,10 @@ export class RegionMask {
     let k = 0;
     for (const r of rings) {
       for (let i = 0; i + 1 < r.length; i++) {
-        this.edges[k++] = r[i][0]; this.edges[k++] = r[i][1]; this.edges[k++] = r[i + 1][0]; this.edges[k++] = r[i + 1][1];
+        this.edges[k++] = r[i][0];
+        this.edges[k++] = r[i][1];
+        this.edges[k++] = r[i + 1][0];
+        this.edges[k++] = r[i + 1][1];
       }
     }
     this.xs = new Float64Array(Math.max(1, m));
@@ -29,7 +32,8 @@ export class RegionMask {
     const e = this.edges;
     let n = 0;
     for (let k = 0; k < e.length; k += 4) {
-      const y1 = e[k + 1], y2 = e[k + 3];
+      const y1 = e[k + 1],
+        y2 = e[k + 3];
       if ((y1 <= y && y < y2) || (y2 <= y && y < y1)) {
         this.xs[n++] = e[k] + ((y - y1) / (y2 - y1)) * (e[k + 2] - e[k]);
       }
@@ -39,7 +43,10 @@ export class RegionMask {
     let odd = false;
     for (let c = 0; c < width; c++) {
       const x = west + (c + 0.5) * dx;
-      while (t < n && xs[t] <= x) { odd = !odd; t++; }
+      while (t < n && xs[t] <= x) {
+        odd = !odd;
+        t++;
+      }
       inside[c] = odd ? 1 : 0;
     }
   }

@@ -39,21 +39,38 @@ export class NeighbourIndex {
    * visibility test rejects. Writes ids and squared distances (km²) into `outIds`/`outD2` (length ≥ k), nearest
    * first, and returns how many were found.
    */
-  nearest(qx: number, qy: number, k: number, maxDistKm: number, outIds: Int32Array, outD2: Float64Array, vis: VisibilityTest | null = null, exclude = -1): number {
+  nearest(
+    qx: number,
+    qy: number,
+    k: number,
+    maxDistKm: number,
+    outIds: Int32Array,
+    outD2: Float64Array,
+    vis: VisibilityTest | null = null,
+    exclude = -1,
+  ): number {
     if (this.n === 0 || !(k >= 1)) return 0;
     const { ids, coords, nodeSize } = this;
     let worst = maxDistKm === Infinity ? Infinity : maxDistKm * maxDistKm;
     let count = 0;
-    let si = this.stackI, sd = this.stackD;
+    let si = this.stackI,
+      sd = this.stackD;
     let sp: number;
-    si[0] = 0; si[1] = ids.length - 1; si[2] = 0; sd[0] = 0; sp = 1;
+    si[0] = 0;
+    si[1] = ids.length - 1;
+    si[2] = 0;
+    sd[0] = 0;
+    sp = 1;
     while (sp > 0) {
       sp--;
-      const left = si[3 * sp], right = si[3 * sp + 1], axis = si[3 * sp + 2];
+      const left = si[3 * sp],
+        right = si[3 * sp + 1],
+        axis = si[3 * sp + 2];
       if (sd[sp] > worst) continue;
       if (right - left <= nodeSize) {
         for (let i = left; i <= right; i++) {
-          const dx = coords[2 * i] - qx, dy = coords[2 * i + 1] - qy;
+          const dx = coords[2 * i] - qx,
+            dy = coords[2 * i + 1] - qy;
           const d2 = dx * dx + dy * dy;
           if (d2 <= worst) {
             const id = ids[i];
@@ -65,8 +82,10 @@ export class NeighbourIndex {
         continue;
       }
       const m = (left + right) >> 1;
-      const mx = coords[2 * m], my = coords[2 * m + 1];
-      const dx = mx - qx, dy = my - qy;
+      const mx = coords[2 * m],
+        my = coords[2 * m + 1];
+      const dx = mx - qx,
+        dy = my - qy;
       const d2 = dx * dx + dy * dy;
       if (d2 <= worst) {
         const id = ids[m];
@@ -79,8 +98,12 @@ export class NeighbourIndex {
       const farBound = Math.max(sd[sp], split * split);
       const nearBound = sd[sp];
       if (sp + 2 >= sd.length) {
-        const ni = new Int32Array(si.length * 2); ni.set(si); this.stackI = si = ni;
-        const nd = new Float64Array(sd.length * 2); nd.set(sd); this.stackD = sd = nd;
+        const ni = new Int32Array(si.length * 2);
+        ni.set(si);
+        this.stackI = si = ni;
+        const nd = new Float64Array(sd.length * 2);
+        nd.set(sd);
+        this.stackD = sd = nd;
       }
       // Push the far half first so the near half is searched first and tightens `worst`.
       if (split < 0) {
@@ -109,12 +132,18 @@ export class NeighbourIndex {
 
 function push(si: Int32Array, sd: Float64Array, sp: number, left: number, right: number, axis: number, bound: number): void {
   if (left > right) return pushEmpty(si, sd, sp);
-  si[3 * sp] = left; si[3 * sp + 1] = right; si[3 * sp + 2] = axis; sd[sp] = bound;
+  si[3 * sp] = left;
+  si[3 * sp + 1] = right;
+  si[3 * sp + 2] = axis;
+  sd[sp] = bound;
 }
 
 function pushEmpty(si: Int32Array, sd: Float64Array, sp: number): void {
   // An empty range (left > right) scans nothing.
-  si[3 * sp] = 1; si[3 * sp + 1] = 0; si[3 * sp + 2] = 0; sd[sp] = 0;
+  si[3 * sp] = 1;
+  si[3 * sp + 1] = 0;
+  si[3 * sp + 2] = 0;
+  sd[sp] = 0;
 }
 
 /** Inserts (id, d2) into the sorted buffers of capacity k; returns the new count. Ties keep the smaller id first. */

@@ -22,14 +22,18 @@ export class NormalScoreTransform {
     const n = data.length;
     if (n < 2) throw new RangeError('a normal-score transform needs at least two values');
     const idx = Array.from({ length: n }, (_, i) => i).sort((a, b) => data[a] - data[b]);
-    const vals: number[] = [], wts: number[] = [];
+    const vals: number[] = [],
+      wts: number[] = [];
     let total = 0;
     for (const i of idx) {
       const w = weights === null ? 1 : weights[i];
       if (!(w >= 0 && Number.isFinite(w))) throw new RangeError(`declustering weight must be ≥ 0, got ${w}`);
       total += w;
       if (vals.length > 0 && data[i] === vals[vals.length - 1]) wts[wts.length - 1] += w;
-      else { vals.push(data[i]); wts.push(w); }
+      else {
+        vals.push(data[i]);
+        wts.push(w);
+      }
     }
     if (!(total > 0)) throw new RangeError('declustering weights sum to zero');
     if (vals.length < 2) throw new RangeError('a normal-score transform needs at least two distinct values');
@@ -66,8 +70,13 @@ export class NormalScoreTransform {
       if (v >= this.highTail) return normalQuantile(1 - 1e-9);
       return normalQuantile(p[m - 1] + ((1 - p[m - 1]) * (v - z[m - 1])) / (this.highTail - z[m - 1]));
     }
-    let lo = 0, hi = m - 1;
-    while (hi - lo > 1) { const mid = (lo + hi) >> 1; if (z[mid] <= v) lo = mid; else hi = mid; }
+    let lo = 0,
+      hi = m - 1;
+    while (hi - lo > 1) {
+      const mid = (lo + hi) >> 1;
+      if (z[mid] <= v) lo = mid;
+      else hi = mid;
+    }
     return y[lo] + ((y[hi] - y[lo]) * (v - z[lo])) / (z[hi] - z[lo]);
   }
 
@@ -77,8 +86,13 @@ export class NormalScoreTransform {
     const m = z.length;
     if (s <= y[0]) return this.lowTail + ((z[0] - this.lowTail) * normalCdf(s)) / p[0];
     if (s >= y[m - 1]) return z[m - 1] + ((this.highTail - z[m - 1]) * (normalCdf(s) - p[m - 1])) / (1 - p[m - 1]);
-    let lo = 0, hi = m - 1;
-    while (hi - lo > 1) { const mid = (lo + hi) >> 1; if (y[mid] <= s) lo = mid; else hi = mid; }
+    let lo = 0,
+      hi = m - 1;
+    while (hi - lo > 1) {
+      const mid = (lo + hi) >> 1;
+      if (y[mid] <= s) lo = mid;
+      else hi = mid;
+    }
     return z[lo] + ((z[hi] - z[lo]) * (s - y[lo])) / (y[hi] - y[lo]);
   }
 }

@@ -20,7 +20,10 @@ export interface LocalProjection {
 
 /** Centre of the data's lon/lat envelope as the projection origin (the envelope is short of ±180° here). */
 export function localProjectionFor(lon: ArrayLike<number>, lat: ArrayLike<number>): LocalProjection {
-  let w = Infinity, e = -Infinity, s = Infinity, n = -Infinity;
+  let w = Infinity,
+    e = -Infinity,
+    s = Infinity,
+    n = -Infinity;
   for (let i = 0; i < lon.length; i++) {
     if (lon[i] < w) w = lon[i];
     if (lon[i] > e) e = lon[i];
@@ -102,11 +105,17 @@ export function metresPerUnit(def: string): number {
   const toMeter = /\+to_meter=([^\s]+)/.exec(def)?.[1];
   if (toMeter !== undefined && Number.isFinite(Number(toMeter))) return Number(toMeter);
   switch (u) {
-    case undefined: case 'm': return 1;
-    case 'km': return 1000;
-    case 'ft': return 0.3048;
-    case 'us-ft': return 1200 / 3937;
-    default: throw new InputError(`unsupported CRS unit "${u}"`, [{ field: 'crs', problem: 'expected m, km, ft or us-ft' }], 'bad_crs');
+    case undefined:
+    case 'm':
+      return 1;
+    case 'km':
+      return 1000;
+    case 'ft':
+      return 0.3048;
+    case 'us-ft':
+      return 1200 / 3937;
+    default:
+      throw new InputError(`unsupported CRS unit "${u}"`, [{ field: 'crs', problem: 'expected m, km, ft or us-ft' }], 'bad_crs');
   }
 }
 
@@ -148,15 +157,24 @@ export interface OutputGridOptions {
  * to the CRS unit with the projection's ground scale at the grid's centre (so cells are cellKm across on the ground
  * there); `groundCellKmRange` is the smallest and largest ground cell side over the grid's corners and centre. The west and north edges are kept; the grid extends east and south to whole cells.
  */
-export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<number>, opts: OutputGridOptions = {}): GridSpec & { cellKm: number; groundCellKmRange: [number, number] } {
+export function buildOutputGrid(
+  dataLon: ArrayLike<number>,
+  dataLat: ArrayLike<number>,
+  opts: OutputGridOptions = {},
+): GridSpec & { cellKm: number; groundCellKmRange: [number, number] } {
   const crs = opts.crs ?? 'EPSG:4326';
   const def = opts.crsDef ?? WGS84_DEF;
   let bbox = opts.bbox;
   if (bbox === undefined) {
-    let w = Infinity, e = -Infinity, s = Infinity, n = -Infinity;
+    let w = Infinity,
+      e = -Infinity,
+      s = Infinity,
+      n = -Infinity;
     for (let i = 0; i < dataLon.length; i++) {
-      w = Math.min(w, dataLon[i]); e = Math.max(e, dataLon[i]);
-      s = Math.min(s, dataLat[i]); n = Math.max(n, dataLat[i]);
+      w = Math.min(w, dataLon[i]);
+      e = Math.max(e, dataLon[i]);
+      s = Math.min(s, dataLat[i]);
+      n = Math.max(n, dataLat[i]);
     }
     const pad = opts.padFraction ?? 0.05;
     const px = Math.max((e - w) * pad, 0.01);
@@ -165,28 +183,51 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
   }
   const [W, S, E, N] = bbox;
   if (!(W >= -180 && E <= 180 && S >= -90 && N <= 90 && E > W && N > S)) {
-    throw new InputError(`bbox must be W,S,E,N in degrees with W < E and S < N, got ${bbox.join(',')}`, [{ field: 'bbox', problem: 'expected west,south,east,north within ±180/±90' }], 'bad_option');
+    throw new InputError(
+      `bbox must be W,S,E,N in degrees with W < E and S < N, got ${bbox.join(',')}`,
+      [{ field: 'bbox', problem: 'expected west,south,east,north within ±180/±90' }],
+      'bad_option',
+    );
   }
   const midLat = (S + N) / 2;
   let groundRange: ((dxUnits: number, dyUnits: number) => [number, number]) | null = null;
   let west: number, north: number, spanX: number, spanY: number, kmPerUnitX: number, kmPerUnitY: number;
   if (def === WGS84_DEF) {
-    west = W; north = N; spanX = E - W; spanY = N - S;
+    west = W;
+    north = N;
+    spanX = E - W;
+    spanY = N - S;
     const k = kmPerDegree(midLat);
-    kmPerUnitX = k.lon; kmPerUnitY = k.lat;
+    kmPerUnitX = k.lon;
+    kmPerUnitY = k.lat;
   } else {
     const c = proj4(WGS84_DEF, def);
-    let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
+    let x0 = Infinity,
+      x1 = -Infinity,
+      y0 = Infinity,
+      y1 = -Infinity;
     const steps = 32;
     for (let i = 0; i <= steps; i++) {
       const t = i / steps;
-      for (const p of [[W + t * (E - W), S], [W + t * (E - W), N], [W, S + t * (N - S)], [E, S + t * (N - S)]]) {
+      for (const p of [
+        [W + t * (E - W), S],
+        [W + t * (E - W), N],
+        [W, S + t * (N - S)],
+        [E, S + t * (N - S)],
+      ]) {
         const q = c.forward(p);
-        if (!Number.isFinite(q[0]) || !Number.isFinite(q[1])) throw new InputError(`the bbox cannot be projected to ${crs}`, [{ field: 'crs', problem: 'the area is outside the projection\'s domain' }], 'bad_crs');
-        x0 = Math.min(x0, q[0]); x1 = Math.max(x1, q[0]); y0 = Math.min(y0, q[1]); y1 = Math.max(y1, q[1]);
+        if (!Number.isFinite(q[0]) || !Number.isFinite(q[1]))
+          throw new InputError(`the bbox cannot be projected to ${crs}`, [{ field: 'crs', problem: "the area is outside the projection's domain" }], 'bad_crs');
+        x0 = Math.min(x0, q[0]);
+        x1 = Math.max(x1, q[0]);
+        y0 = Math.min(y0, q[1]);
+        y1 = Math.max(y1, q[1]);
       }
     }
-    west = x0; north = y1; spanX = x1 - x0; spanY = y1 - y0;
+    west = x0;
+    north = y1;
+    spanX = x1 - x0;
+    spanY = y1 - y0;
     // Ground km per CRS unit at the grid's centre (the projection's scale there, e.g. cos φ in Web Mercator), so a
     // cell of cellKm is cellKm across on the ground at the centre.
     const inv = (x: number, y: number): [number, number] => c.inverse<[number, number]>([x, y]);
@@ -195,8 +236,15 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
     kmPerUnitX = g.xKm / h;
     kmPerUnitY = g.yKm / h;
     groundRange = (dxU, dyU) => {
-      let lo = Infinity, hi = -Infinity;
-      for (const [x, y] of [[x0, y0], [x0, y1], [x1, y0], [x1, y1], [(x0 + x1) / 2, (y0 + y1) / 2]]) {
+      let lo = Infinity,
+        hi = -Infinity;
+      for (const [x, y] of [
+        [x0, y0],
+        [x0, y1],
+        [x1, y0],
+        [x1, y1],
+        [(x0 + x1) / 2, (y0 + y1) / 2],
+      ]) {
         const s = groundStepKm(inv, x, y, dxU, dyU);
         lo = Math.min(lo, s.xKm, s.yKm);
         hi = Math.max(hi, s.xKm, s.yKm);
@@ -208,14 +256,21 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
   if (opts.size !== undefined) {
     [width, height] = opts.size;
     if (!(Number.isInteger(width) && width > 0 && Number.isInteger(height) && height > 0)) {
-      throw new InputError(`size must be NXxNY with positive integers, got ${opts.size.join('x')}`, [{ field: 'size', problem: 'expected e.g. 400x300' }], 'bad_option');
+      throw new InputError(
+        `size must be NXxNY with positive integers, got ${opts.size.join('x')}`,
+        [{ field: 'size', problem: 'expected e.g. 400x300' }],
+        'bad_option',
+      );
     }
-    dx = spanX / width; dy = spanY / height;
+    dx = spanX / width;
+    dy = spanY / height;
     cellKm = Math.sqrt(dx * kmPerUnitX * dy * kmPerUnitY);
   } else {
     cellKm = opts.cellKm ?? Math.max(spanX * kmPerUnitX, spanY * kmPerUnitY) / (opts.defaultCells ?? 200);
-    if (!(cellKm > 0) || !Number.isFinite(cellKm)) throw new InputError(`cellKm must be a positive number of km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected > 0' }], 'bad_option');
-    dx = cellKm / kmPerUnitX; dy = cellKm / kmPerUnitY;
+    if (!(cellKm > 0) || !Number.isFinite(cellKm))
+      throw new InputError(`cellKm must be a positive number of km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected > 0' }], 'bad_option');
+    dx = cellKm / kmPerUnitX;
+    dy = cellKm / kmPerUnitY;
     width = Math.max(1, Math.ceil(spanX / dx - 1e-9));
     height = Math.max(1, Math.ceil(spanY / dy - 1e-9));
   }
@@ -224,8 +279,11 @@ export function buildOutputGrid(dataLon: ArrayLike<number>, dataLat: ArrayLike<n
   if (groundRange !== null) {
     groundCellKmRange = groundRange(dx, dy);
   } else {
-    const kN = kmPerDegree(N), kS = kmPerDegree(S), kM = kmPerDegree(midLat);
-    const xs = [kN.lon * dx, kS.lon * dx, kM.lon * dx], ys = [kN.lat * dy, kS.lat * dy, kM.lat * dy];
+    const kN = kmPerDegree(N),
+      kS = kmPerDegree(S),
+      kM = kmPerDegree(midLat);
+    const xs = [kN.lon * dx, kS.lon * dx, kM.lon * dx],
+      ys = [kN.lat * dy, kS.lat * dy, kM.lat * dy];
     groundCellKmRange = [Math.min(...xs, ...ys), Math.max(...xs, ...ys)];
   }
   return { width, height, west, north, dx, dy, crs, cellKm, groundCellKmRange };
@@ -245,7 +303,8 @@ export const ROW_NODE_STEP = 8;
  * continent-wide grid of 1 km cells, checked against proj4 at every cell in the tests.
  */
 export function rowCentresLocalKm(grid: GridSpec, toLocal: Converter, row: number, outX: Float64Array, outY: Float64Array): void {
-  const W = grid.width, S = ROW_NODE_STEP;
+  const W = grid.width,
+    S = ROW_NODE_STEP;
   const y = grid.north - (row + 0.5) * grid.dy;
   const p: [number, number] = [0, y];
   const exact = (c: number) => {
@@ -268,7 +327,10 @@ export function rowCentresLocalKm(grid: GridSpec, toLocal: Converter, row: numbe
     if (c % S === 0) continue;
     // The four nodes around c: the span's two ends and one more on each side, shifted inside at the row's ends.
     const j0 = Math.min(Math.max(Math.floor(c / S) - 1, 0), nodes - 4);
-    const a = col(j0), b = col(j0 + 1), d = col(j0 + 2), e = col(j0 + 3);
+    const a = col(j0),
+      b = col(j0 + 1),
+      d = col(j0 + 2),
+      e = col(j0 + 3);
     const wa = ((c - b) * (c - d) * (c - e)) / ((a - b) * (a - d) * (a - e));
     const wb = ((c - a) * (c - d) * (c - e)) / ((b - a) * (b - d) * (b - e));
     const wd = ((c - a) * (c - b) * (c - e)) / ((d - a) * (d - b) * (d - e));

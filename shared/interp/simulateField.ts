@@ -70,59 +70,139 @@ const now = () => (typeof performance !== 'undefined' ? performance.now() : Date
 
 const SAMPLER_METHODS = {
   cholesky: 'LU (Cholesky) unconditional simulation (Davis 1987), conditioned by ordinary kriging of the residuals (Journel & Huijbregts 1978)',
-  lattice: 'circulant-embedding FFT unconditional simulation (Wood & Chan 1994; Dietrich & Newsam 1997), conditioned by ordinary kriging of the residuals (Journel & Huijbregts 1978)',
+  lattice:
+    'circulant-embedding FFT unconditional simulation (Wood & Chan 1994; Dietrich & Newsam 1997), conditioned by ordinary kriging of the residuals (Journel & Huijbregts 1978)',
 } as const;
 
 function checkCounts(opts: SimulationOptions): void {
   const R = opts.realizations;
-  if (!(Number.isInteger(R) && R >= 1 && R <= MAX_REALIZATIONS)) throw new InputError(`--realizations must be an integer 1..${MAX_REALIZATIONS}, got ${R}`, [{ field: 'realizations', problem: `expected 1..${MAX_REALIZATIONS}` }], 'bad_option');
-  if (!(Number.isSafeInteger(opts.seed) && opts.seed >= 0)) throw new InputError(`--seed must be a non-negative integer, got ${opts.seed}`, [{ field: 'seed', problem: 'expected an integer ≥ 0' }], 'bad_option');
+  if (!(Number.isInteger(R) && R >= 1 && R <= MAX_REALIZATIONS))
+    throw new InputError(
+      `--realizations must be an integer 1..${MAX_REALIZATIONS}, got ${R}`,
+      [{ field: 'realizations', problem: `expected 1..${MAX_REALIZATIONS}` }],
+      'bad_option',
+    );
+  if (!(Number.isSafeInteger(opts.seed) && opts.seed >= 0))
+    throw new InputError(`--seed must be a non-negative integer, got ${opts.seed}`, [{ field: 'seed', problem: 'expected an integer ≥ 0' }], 'bad_option');
   const t = opts.transform ?? 'normal-score';
-  if (t !== 'normal-score' && t !== 'none') throw new InputError(`--transform must be normal-score or none, got ${String(t)}`, [{ field: 'transform', problem: 'expected normal-score or none' }], 'bad_option');
+  if (t !== 'normal-score' && t !== 'none')
+    throw new InputError(
+      `--transform must be normal-score or none, got ${String(t)}`,
+      [{ field: 'transform', problem: 'expected normal-score or none' }],
+      'bad_option',
+    );
 }
 
 /** Transform and prepare (variogram of the Gaussian values, cross-validation, plan). */
-function prepare(points: PointData, opts: SimulationOptions, needGrid: boolean): { prep: PreparedInterpolation; ns: NormalScoreTransform | null; report: TransformReport } {
+function prepare(
+  points: PointData,
+  opts: SimulationOptions,
+  needGrid: boolean,
+): { prep: PreparedInterpolation; ns: NormalScoreTransform | null; report: TransformReport } {
   checkCounts(opts);
   let ns: NormalScoreTransform | null = null;
   let gaussPoints = points;
   let report: TransformReport = { kind: 'none' };
   if ((opts.transform ?? 'normal-score') === 'normal-score') {
     const v = points.values;
-    for (let i = 0; i < v.length; i++) if (!Number.isFinite(v[i])) throw new InputError(`point ${points.ids[i]} has a value that is not a finite number`, [{ feature: points.ids[i], field: 'value', problem: `must be a finite number, got ${v[i]}` }], 'invalid_points');
+    for (let i = 0; i < v.length; i++)
+      if (!Number.isFinite(v[i]))
+        throw new InputError(
+          `point ${points.ids[i]} has a value that is not a finite number`,
+          [{ feature: points.ids[i], field: 'value', problem: `must be a finite number, got ${v[i]}` }],
+          'invalid_points',
+        );
     try {
       ns = new NormalScoreTransform(v);
     } catch (e) {
-      throw new InputError(`normal-score transform: ${(e as Error).message}`, [{ field: 'values', problem: 'need at least two distinct values; or use --transform none' }], 'degenerate_values');
+      throw new InputError(
+        `normal-score transform: ${(e as Error).message}`,
+        [{ field: 'values', problem: 'need at least two distinct values; or use --transform none' }],
+        'degenerate_values',
+      );
     }
     const scores = Float64Array.from(v, (x) => ns!.forward(x));
     // Errors in score units through the transform's local slope: (score(v + e) − score(v − e)) / 2.
     const es = points.errorSd;
-    const errorSd = es === undefined || es === null ? es : Float64Array.from(v, (x, i) => { const e = es[i]; return Number.isFinite(e) ? (ns!.forward(x + e) - ns!.forward(x - e)) / 2 : NaN; });
+    const errorSd =
+      es === undefined || es === null
+        ? es
+        : Float64Array.from(v, (x, i) => {
+            const e = es[i];
+            return Number.isFinite(e) ? (ns!.forward(x + e) - ns!.forward(x - e)) / 2 : NaN;
+          });
     gaussPoints = { ...points, values: scores, errorSd };
-    report = { kind: 'normal-score', points: ns.values.length, lowTail: ns.lowTail, highTail: ns.highTail, method: 'normal scores at mid-rank probabilities, linear back-transform with linear tails in probability to the data range ± 10 % (Deutsch & Journel 1998, GSLIB nscore/backtr)' };
+    report = {
+      kind: 'normal-score',
+      points: ns.values.length,
+      lowTail: ns.lowTail,
+      highTail: ns.highTail,
+      method:
+        'normal scores at mid-rank probabilities, linear back-transform with linear tails in probability to the data range ± 10 % (Deutsch & Journel 1998, GSLIB nscore/backtr)',
+    };
   }
-  const prep = prepareInterpolation(gaussPoints, {
-    method: 'kriging', neighbors: opts.neighbors ?? 16, variogram: opts.variogram ?? 'auto', anisotropy: opts.anisotropy ?? null,
-    lagKm: opts.lagKm, maxLagKm: opts.maxLagKm, grid: opts.grid, sd: false, crossValidation: opts.crossValidation ?? true,
-    maxCells: opts.maxCells, units: ns === null ? opts.units : 'normal score', measurementError: opts.measurementError,
-  }, needGrid);
+  const prep = prepareInterpolation(
+    gaussPoints,
+    {
+      method: 'kriging',
+      neighbors: opts.neighbors ?? 16,
+      variogram: opts.variogram ?? 'auto',
+      anisotropy: opts.anisotropy ?? null,
+      lagKm: opts.lagKm,
+      maxLagKm: opts.maxLagKm,
+      grid: opts.grid,
+      sd: false,
+      crossValidation: opts.crossValidation ?? true,
+      maxCells: opts.maxCells,
+      units: ns === null ? opts.units : 'normal score',
+      measurementError: opts.measurementError,
+    },
+    needGrid,
+  );
   return { prep, ns, report };
 }
 
-function runAll(prep: PreparedInterpolation, ns: NormalScoreTransform | null, opts: SimulationOptions, tx: Float64Array, ty: Float64Array, sampler: 'auto' | 'cholesky' | 'lattice', latticeKm: number | undefined, report: TransformReport): SimulationResult {
-  const R = opts.realizations, T = tx.length;
+function runAll(
+  prep: PreparedInterpolation,
+  ns: NormalScoreTransform | null,
+  opts: SimulationOptions,
+  tx: Float64Array,
+  ty: Float64Array,
+  sampler: 'auto' | 'cholesky' | 'lattice',
+  latticeKm: number | undefined,
+  report: TransformReport,
+): SimulationResult {
+  const R = opts.realizations,
+    T = tx.length;
   const maxValues = opts.maxValues ?? 150_000_000;
   if (R * T > maxValues) {
-    throw new InputError(`${R} realizations × ${T.toLocaleString('en')} targets = ${(R * T).toLocaleString('en')} values, above the memory budget of ${maxValues.toLocaleString('en')} values (${Math.round((maxValues * 4) / 2 ** 20)} MiB)`, [{ field: 'realizations', problem: 'use fewer realizations, a coarser grid or a smaller bbox' }], 'too_many_values');
+    throw new InputError(
+      `${R} realizations × ${T.toLocaleString('en')} targets = ${(R * T).toLocaleString('en')} values, above the memory budget of ${maxValues.toLocaleString('en')} values (${Math.round((maxValues * 4) / 2 ** 20)} MiB)`,
+      [{ field: 'realizations', problem: 'use fewer realizations, a coarser grid or a smaller bbox' }],
+      'too_many_values',
+    );
   }
   const plan = prep.plan;
   const t0 = now();
   let sim: ConditionalSimulator;
   try {
-    sim = createConditionalSimulator({ x: plan.x, y: plan.y, z: plan.z, tx, ty, model: plan.variogram!, anisotropy: plan.anisotropy, neighbors: plan.neighbors, maxGlobal: plan.maxGlobal, sampler, latticeKm, errorVariance: plan.errorVariance });
+    sim = createConditionalSimulator({
+      x: plan.x,
+      y: plan.y,
+      z: plan.z,
+      tx,
+      ty,
+      model: plan.variogram!,
+      anisotropy: plan.anisotropy,
+      neighbors: plan.neighbors,
+      maxGlobal: plan.maxGlobal,
+      sampler,
+      latticeKm,
+      errorVariance: plan.errorVariance,
+    });
   } catch (e) {
-    if (e instanceof RangeError) throw new InputError(`simulation cannot be set up: ${e.message}`, [{ field: 'variogram', problem: e.message }], 'simulation_setup');
+    if (e instanceof RangeError)
+      throw new InputError(`simulation cannot be set up: ${e.message}`, [{ field: 'variogram', problem: e.message }], 'simulation_setup');
     throw e;
   }
   const tSetup = now() - t0;
@@ -131,11 +211,19 @@ function runAll(prep: PreparedInterpolation, ns: NormalScoreTransform | null, op
   sim.run(opts.seed, 0, R, (r, v) => {
     const base = r * T;
     if (ns === null) for (let t = 0; t < T; t++) values[base + t] = v[t];
-    else for (let t = 0; t < T; t++) { const g = v[t]; values[base + t] = g === g ? ns.backward(g) : NaN; }
+    else
+      for (let t = 0; t < T; t++) {
+        const g = v[t];
+        values[base + t] = g === g ? ns.backward(g) : NaN;
+      }
   });
   const neighbors = plan.neighbors === Infinity ? 'all' : plan.neighbors;
   return {
-    values, realizations: R, targets: T, variogram: prep.variogram!, transform: report,
+    values,
+    realizations: R,
+    targets: T,
+    variogram: prep.variogram!,
+    transform: report,
     sampler: { kind: sim.sampler, method: SAMPLER_METHODS[sim.sampler], ...sim.samplerInfo },
     crossValidation: prep.crossValidation,
     conditioning: { neighbors, weights: sim.weights.ids.length },
@@ -146,14 +234,25 @@ function runAll(prep: PreparedInterpolation, ns: NormalScoreTransform | null, op
 }
 
 /** Conditional realizations at target points (lon/lat degrees). */
-export function simulateAtPoints(points: PointData, opts: SimulationOptions, targets: { ids: string[]; lon: ArrayLike<number>; lat: ArrayLike<number> }): SimulationResult {
+export function simulateAtPoints(
+  points: PointData,
+  opts: SimulationOptions,
+  targets: { ids: string[]; lon: ArrayLike<number>; lat: ArrayLike<number> },
+): SimulationResult {
   for (let i = 0; i < targets.ids.length; i++) {
-    const lon = targets.lon[i], lat = targets.lat[i];
-    if (!(lon >= -180 && lon <= 180 && lat >= -90 && lat <= 90)) throw new InputError(`target ${targets.ids[i]} has coordinates out of range`, [{ feature: targets.ids[i], field: 'geometry', problem: 'expected lon in [-180, 180], lat in [-90, 90]' }], 'invalid_points');
+    const lon = targets.lon[i],
+      lat = targets.lat[i];
+    if (!(lon >= -180 && lon <= 180 && lat >= -90 && lat <= 90))
+      throw new InputError(
+        `target ${targets.ids[i]} has coordinates out of range`,
+        [{ feature: targets.ids[i], field: 'geometry', problem: 'expected lon in [-180, 180], lat in [-90, 90]' }],
+        'invalid_points',
+      );
   }
   const { prep, ns, report } = prepare(points, opts, false);
   const T = targets.ids.length;
-  const tx = new Float64Array(T), ty = new Float64Array(T);
+  const tx = new Float64Array(T),
+    ty = new Float64Array(T);
   lonLatToLocalKm(prep.plan.projection, targets.lon, targets.lat, tx, ty);
   return runAll(prep, ns, opts, tx, ty, opts.sampler ?? 'auto', undefined, report);
 }
@@ -177,18 +276,33 @@ export function simulateOnGrid(points: PointData, opts: SimulationOptions, grid:
 }
 
 /** Targets at the cell centres of `g` (local km of the data's projection), then the realizations. */
-function runOnCells(prep: PreparedInterpolation, ns: NormalScoreTransform | null, opts: SimulationOptions, report: TransformReport, g: GridSpec, gridCrsDef: string, cellKm: number): SimulationResult {
-  const W = g.width, H = g.height, T = W * H;
+function runOnCells(
+  prep: PreparedInterpolation,
+  ns: NormalScoreTransform | null,
+  opts: SimulationOptions,
+  report: TransformReport,
+  g: GridSpec,
+  gridCrsDef: string,
+  cellKm: number,
+): SimulationResult {
+  const W = g.width,
+    H = g.height,
+    T = W * H;
   if (opts.realizations * T > (opts.maxValues ?? 150_000_000)) runAll(prep, ns, opts, new Float64Array(T), new Float64Array(T), 'lattice', 1, report); // throws the budget error
-  const tx = new Float64Array(T), ty = new Float64Array(T);
+  const tx = new Float64Array(T),
+    ty = new Float64Array(T);
   const toLocal = converter(gridCrsDef, prep.plan.projection.def);
-  const rx = new Float64Array(W), ry = new Float64Array(W);
+  const rx = new Float64Array(W),
+    ry = new Float64Array(W);
   for (let r = 0; r < H; r++) {
     rowCentresLocalKm(g, toLocal, r, rx, ry);
-    tx.set(rx, r * W); ty.set(ry, r * W);
+    tx.set(rx, r * W);
+    ty.set(ry, r * W);
   }
   // Lattice spacing: the smallest distance between neighbouring cell centres at the grid's centre (km).
-  const rc = Math.floor(H / 2), cc = Math.floor(W / 2), i0 = rc * W + cc;
+  const rc = Math.floor(H / 2),
+    cc = Math.floor(W / 2),
+    i0 = rc * W + cc;
   const sx = W > 1 ? Math.hypot(tx[i0 + (cc + 1 < W ? 1 : -1)] - tx[i0], ty[i0 + (cc + 1 < W ? 1 : -1)] - ty[i0]) : Infinity;
   const sy = H > 1 ? Math.hypot(tx[i0 + (rc + 1 < H ? W : -W)] - tx[i0], ty[i0 + (rc + 1 < H ? W : -W)] - ty[i0]) : Infinity;
   const h = Math.min(sx, sy, cellKm);
@@ -202,15 +316,34 @@ function select(a: Float64Array, lo: number, hi: number, k: number): void {
   while (hi > lo) {
     const mid = (lo + hi) >> 1;
     // Median of three as the pivot.
-    if (a[mid] < a[lo]) { const t = a[mid]; a[mid] = a[lo]; a[lo] = t; }
-    if (a[hi] < a[lo]) { const t = a[hi]; a[hi] = a[lo]; a[lo] = t; }
-    if (a[hi] < a[mid]) { const t = a[hi]; a[hi] = a[mid]; a[mid] = t; }
+    if (a[mid] < a[lo]) {
+      const t = a[mid];
+      a[mid] = a[lo];
+      a[lo] = t;
+    }
+    if (a[hi] < a[lo]) {
+      const t = a[hi];
+      a[hi] = a[lo];
+      a[lo] = t;
+    }
+    if (a[hi] < a[mid]) {
+      const t = a[hi];
+      a[hi] = a[mid];
+      a[mid] = t;
+    }
     const pivot = a[mid];
-    let i = lo, j = hi;
+    let i = lo,
+      j = hi;
     while (i <= j) {
       while (a[i] < pivot) i++;
       while (a[j] > pivot) j--;
-      if (i <= j) { const t = a[i]; a[i] = a[j]; a[j] = t; i++; j--; }
+      if (i <= j) {
+        const t = a[i];
+        a[i] = a[j];
+        a[j] = t;
+        i++;
+        j--;
+      }
     }
     if (k <= j) hi = j;
     else if (k >= i) lo = i;
@@ -231,7 +364,13 @@ export interface TargetSummaries {
  * order statistics found by selection, Hoare 1961) over the realizations; NaN where any realization is NaN.
  */
 export function summarizeTargets(values: Float32Array, R: number, T: number): TargetSummaries {
-  const out: TargetSummaries = { mean: new Float32Array(T), sd: new Float32Array(T), p10: new Float32Array(T), p50: new Float32Array(T), p90: new Float32Array(T) };
+  const out: TargetSummaries = {
+    mean: new Float32Array(T),
+    sd: new Float32Array(T),
+    p10: new Float32Array(T),
+    p50: new Float32Array(T),
+    p90: new Float32Array(T),
+  };
   // Cells in blocks: the block's values are gathered realization by realization (contiguous reads), then each
   // cell's R values are sorted.
   const BLOCK = 512;
@@ -245,9 +384,20 @@ export function summarizeTargets(values: Float32Array, R: number, T: number): Ta
     for (let j = 0; j < nb; j++) {
       const t = t0 + j;
       const buf = blk.subarray(j * R, j * R + R);
-      let s = 0, bad = false;
-      for (let r = 0; r < R; r++) { const v = buf[r]; if (v !== v) { bad = true; break; } s += v; }
-      if (bad) { out.mean[t] = out.sd[t] = out.p10[t] = out.p50[t] = out.p90[t] = NaN; continue; }
+      let s = 0,
+        bad = false;
+      for (let r = 0; r < R; r++) {
+        const v = buf[r];
+        if (v !== v) {
+          bad = true;
+          break;
+        }
+        s += v;
+      }
+      if (bad) {
+        out.mean[t] = out.sd[t] = out.p10[t] = out.p50[t] = out.p90[t] = NaN;
+        continue;
+      }
       const mean = s / R;
       let ss = 0;
       for (let r = 0; r < R; r++) ss += (buf[r] - mean) ** 2;
@@ -258,7 +408,8 @@ export function summarizeTargets(values: Float32Array, R: number, T: number): Ta
       let from = 0;
       for (let q = 0; q < 3; q++) {
         const h = (R - 1) * PROBS[q];
-        const k = Math.floor(h), f = h - k;
+        const k = Math.floor(h),
+          f = h - k;
         select(buf, from, R - 1, k);
         let v = buf[k];
         if (f > 0 && k + 1 < R) {

@@ -75,15 +75,22 @@ interface Sites {
 
 function buildSites(x: Float64Array, y: Float64Array, tx: Float64Array, ty: Float64Array): Sites {
   const key = new Map<string, number>();
-  const sx: number[] = [], sy: number[] = [];
+  const sx: number[] = [],
+    sy: number[] = [];
   const q = (v: number) => Math.round(v * 1e6); // 1 mm cells
   const site = (a: number, b: number): number => {
     const k = `${q(a)},${q(b)}`;
     let s = key.get(k);
-    if (s === undefined) { s = sx.length; key.set(k, s); sx.push(a); sy.push(b); }
+    if (s === undefined) {
+      s = sx.length;
+      key.set(k, s);
+      sx.push(a);
+      sy.push(b);
+    }
     return s;
   };
-  const dataSite = new Int32Array(x.length), targetSite = new Int32Array(tx.length);
+  const dataSite = new Int32Array(x.length),
+    targetSite = new Int32Array(tx.length);
   for (let i = 0; i < x.length; i++) dataSite[i] = site(x[i], y[i]);
   for (let i = 0; i < tx.length; i++) targetSite[i] = site(tx[i], ty[i]);
   return { sx: Float64Array.from(sx), sy: Float64Array.from(sy), dataSite, targetSite };
@@ -106,12 +113,23 @@ export function fillNormals(rng: RandomStream, out: Float64Array, scale: Float64
       q = u * u + v * v;
     } while (q >= 1 || q === 0);
     const f = Math.sqrt((-2 * Math.log(q)) / q) * scalar;
-    const a = u * f, b = v * f;
+    const a = u * f,
+      b = v * f;
     if (scale !== null) {
-      if (add) { out[k] += a * scale[k]; if (k + 1 < n) out[k + 1] += b * scale[k + 1]; }
-      else { out[k] = a * scale[k]; if (k + 1 < n) out[k + 1] = b * scale[k + 1]; }
-    } else if (add) { out[k] += a; if (k + 1 < n) out[k + 1] += b; }
-    else { out[k] = a; if (k + 1 < n) out[k + 1] = b; }
+      if (add) {
+        out[k] += a * scale[k];
+        if (k + 1 < n) out[k + 1] += b * scale[k + 1];
+      } else {
+        out[k] = a * scale[k];
+        if (k + 1 < n) out[k + 1] = b * scale[k + 1];
+      }
+    } else if (add) {
+      out[k] += a;
+      if (k + 1 < n) out[k + 1] += b;
+    } else {
+      out[k] = a;
+      if (k + 1 < n) out[k + 1] = b;
+    }
   }
 }
 
@@ -129,9 +147,11 @@ interface Sampler {
 /** The covariance of the structured part (no nugget) at a lag (dx, dy) km, anisotropy applied. */
 function structuredCov(model: VariogramModel, m: [number, number, number, number]): (dx: number, dy: number) => number {
   const code = modelCode(model.model);
-  const a = model.rangeKm, c = model.partialSill;
+  const a = model.rangeKm,
+    c = model.partialSill;
   return (dx, dy) => {
-    const u = m[0] * dx + m[1] * dy, v = m[2] * dx + m[3] * dy;
+    const u = m[0] * dx + m[1] * dy,
+      v = m[2] * dx + m[3] * dy;
     const h = Math.sqrt(u * u + v * v);
     return h > 0 ? c * correlation(code, a, h) : c;
   };
@@ -152,7 +172,8 @@ class CholeskySampler implements Sampler {
     const cov = structuredCov(model, m);
     const sill = model.nugget + model.partialSill;
     const L = new Float64Array(n * n);
-    let jitter = 0, ok = false;
+    let jitter = 0,
+      ok = false;
     for (let attempt = 0; attempt < 5 && !ok; attempt++) {
       for (let i = 0; i < n; i++) {
         for (let j = 0; j < i; j++) L[i * n + j] = cov(s.sx[i] - s.sx[j], s.sy[i] - s.sy[j]);
@@ -163,7 +184,8 @@ class CholeskySampler implements Sampler {
     }
     if (!ok) throw new RangeError('the joint covariance matrix of the data and targets is not positive definite');
     if (jitter > 0) this.warnings.push(`the joint covariance matrix needed a diagonal regularization of ${jitter.toExponential(1)} (value units²)`);
-    this.L = L; this.n = n;
+    this.L = L;
+    this.n = n;
     this.eps = new Float64Array(n);
     this.info = { sites: n, jitter };
   }
@@ -198,11 +220,18 @@ class LatticeSampler implements Sampler {
 
   constructor(s: Sites, model: VariogramModel, m: [number, number, number, number], h: number) {
     if (!(h > 0 && Number.isFinite(h))) throw new RangeError(`lattice spacing must be > 0 km, got ${h}`);
-    let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
+    let x0 = Infinity,
+      x1 = -Infinity,
+      y0 = Infinity,
+      y1 = -Infinity;
     for (let i = 0; i < s.sx.length; i++) {
-      x0 = Math.min(x0, s.sx[i]); x1 = Math.max(x1, s.sx[i]); y0 = Math.min(y0, s.sy[i]); y1 = Math.max(y1, s.sy[i]);
+      x0 = Math.min(x0, s.sx[i]);
+      x1 = Math.max(x1, s.sx[i]);
+      y0 = Math.min(y0, s.sy[i]);
+      y1 = Math.max(y1, s.sy[i]);
     }
-    const nx = Math.round((x1 - x0) / h) + 1, ny = Math.round((y1 - y0) / h) + 1;
+    const nx = Math.round((x1 - x0) / h) + 1,
+      ny = Math.round((y1 - y0) / h) + 1;
     // Correlation length (km): the range for the spherical model (exactly 0 beyond), twice the practical range for
     // the others (correlation e^−6 ≈ 0.25 %); the major axis carries the longest range, so anisotropy never adds.
     const reach = (model.model === 'spherical' ? 1 : 2) * model.rangeKm;
@@ -210,46 +239,60 @@ class LatticeSampler implements Sampler {
     // Start from the smaller of "lattice + correlation length" and twice the lattice (enough when the covariance
     // is smooth at the lattice's scale, Dietrich & Newsam 1997); grow while eigenvalues come out negative.
     const pad = Math.ceil(reach / h);
-    let mx = nextFftSize(Math.max(2, Math.min(nx + pad, 2 * nx))), my = nextFftSize(Math.max(2, Math.min(ny + pad, 2 * ny)));
+    let mx = nextFftSize(Math.max(2, Math.min(nx + pad, 2 * nx))),
+      my = nextFftSize(Math.max(2, Math.min(ny + pad, 2 * ny)));
     let lam: Float64Array | null = null;
-    let negMass = 0, total = 0;
+    let negMass = 0,
+      total = 0;
     for (let attempt = 0; attempt < 3; attempt++) {
       if (mx * my > MAX_LATTICE_NODES) {
         throw new RangeError(`the simulation lattice would need a ${mx} × ${my} torus (spacing ${h.toPrecision(3)} km), above ${MAX_LATTICE_NODES} nodes`);
       }
-      const re = new Float64Array(mx * my), im = new Float64Array(mx * my);
+      const re = new Float64Array(mx * my),
+        im = new Float64Array(mx * my);
       for (let j = 0; j < my; j++) {
         const dy = Math.min(j, my - j) * h;
         for (let i = 0; i < mx; i++) {
           // Symmetric torus lag: min(i, M − i) per axis with both signs of the cross term averaged for anisotropy.
           const dx = Math.min(i, mx - i) * h;
-          const sx = i <= mx - i ? 1 : -1, sy = j <= my - j ? 1 : -1;
+          const sx = i <= mx - i ? 1 : -1,
+            sy = j <= my - j ? 1 : -1;
           re[j * mx + i] = cov(sx * dx, sy * dy);
         }
       }
       fft2d(re, im, mx, my, new Fft(mx), new Fft(my, mx));
-      negMass = 0; total = 0;
+      negMass = 0;
+      total = 0;
       for (let k = 0; k < re.length; k++) {
         const v = re[k];
-        if (v < 0) negMass -= v; total += Math.abs(v);
+        if (v < 0) negMass -= v;
+        total += Math.abs(v);
       }
       lam = re;
       // Grow while more than 0.1 % of the spectrum's mass is negative (clipping that little changes variances by
       // about as much; Chan & Wood 1997 approximate embedding).
       if (!(negMass > 1e-3 * total) || attempt === 2) break;
       if (mx * my * 4 > MAX_LATTICE_NODES) break;
-      mx *= 2; my *= 2;
+      mx *= 2;
+      my *= 2;
     }
-    if (negMass > 1e-6 * total) this.warnings.push(`circulant embedding: negative eigenvalues (${((100 * negMass) / total).toPrecision(2)} % of the spectrum) were set to zero; the simulated variance is slightly off`);
+    if (negMass > 1e-6 * total)
+      this.warnings.push(
+        `circulant embedding: negative eigenvalues (${((100 * negMass) / total).toPrecision(2)} % of the spectrum) were set to zero; the simulated variance is slightly off`,
+      );
     const M = mx * my;
     this.sqrtLam = new Float64Array(M);
     for (let k = 0; k < M; k++) this.sqrtLam[k] = lam![k] > 0 ? Math.sqrt(lam![k] / M) : 0;
-    this.mx = mx; this.my = my;
-    this.re = new Float64Array(M); this.im = new Float64Array(M);
-    this.fx = new Fft(mx); this.fy = new Fft(my, mx);
+    this.mx = mx;
+    this.my = my;
+    this.re = new Float64Array(M);
+    this.im = new Float64Array(M);
+    this.fx = new Fft(mx);
+    this.fy = new Fft(my, mx);
     this.node = new Int32Array(s.sx.length);
     for (let i = 0; i < s.sx.length; i++) {
-      const c = Math.round((s.sx[i] - x0) / h), r = Math.round((s.sy[i] - y0) / h);
+      const c = Math.round((s.sx[i] - x0) / h),
+        r = Math.round((s.sy[i] - y0) / h);
       this.node[i] = r * mx + c;
     }
     this.nuggetSd = Math.sqrt(model.nugget);
@@ -278,18 +321,28 @@ export function conditioningWeights(p: KrigingPredictor, m: [number, number, num
   const offsets = new Int32Array(T + 1);
   let ids = new Int32Array(Math.max(1, Math.min(T * k, 1 << 20)));
   let lambda = new Float64Array(ids.length);
-  const bi = new Int32Array(k), bl = new Float64Array(k);
-  let used = 0, empty = 0;
+  const bi = new Int32Array(k),
+    bl = new Float64Array(k);
+  let used = 0,
+    empty = 0;
   for (let t = 0; t < T; t++) {
-    const qx = m[0] * tx[t] + m[1] * ty[t], qy = m[2] * tx[t] + m[3] * ty[t];
+    const qx = m[0] * tx[t] + m[1] * ty[t],
+      qy = m[2] * tx[t] + m[3] * ty[t];
     const { n } = p.weights(qx, qy, bi, bl);
     if (n === 0) empty++;
     if (used + n > ids.length) {
       const cap = Math.max(used + n, Math.min(T * k, ids.length * 2));
-      const ni = new Int32Array(cap); ni.set(ids); ids = ni;
-      const nl = new Float64Array(cap); nl.set(lambda); lambda = nl;
+      const ni = new Int32Array(cap);
+      ni.set(ids);
+      ids = ni;
+      const nl = new Float64Array(cap);
+      nl.set(lambda);
+      lambda = nl;
     }
-    for (let i = 0; i < n; i++) { ids[used + i] = bi[i]; lambda[used + i] = bl[i]; }
+    for (let i = 0; i < n; i++) {
+      ids[used + i] = bi[i];
+      lambda[used + i] = bl[i];
+    }
     used += n;
     offsets[t + 1] = used;
   }
@@ -316,31 +369,46 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
   const nSites = sites.sx.length;
   let kind = s.sampler ?? 'auto';
   if (kind === 'auto') kind = nSites <= MAX_CHOLESKY_SITES ? 'cholesky' : 'lattice';
-  if (kind === 'cholesky' && nSites > MAX_CHOLESKY_SITES) throw new RangeError(`the exact (Cholesky) sampler handles up to ${MAX_CHOLESKY_SITES} distinct sites, got ${nSites}`);
+  if (kind === 'cholesky' && nSites > MAX_CHOLESKY_SITES)
+    throw new RangeError(`the exact (Cholesky) sampler handles up to ${MAX_CHOLESKY_SITES} distinct sites, got ${nSites}`);
   let sampler: Sampler;
   if (kind === 'cholesky') sampler = new CholeskySampler(sites, s.model, m);
   else {
     let h = s.latticeKm;
     if (h === undefined) {
-      let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
-      for (let i = 0; i < nSites; i++) { x0 = Math.min(x0, sites.sx[i]); x1 = Math.max(x1, sites.sx[i]); y0 = Math.min(y0, sites.sy[i]); y1 = Math.max(y1, sites.sy[i]); }
+      let x0 = Infinity,
+        x1 = -Infinity,
+        y0 = Infinity,
+        y1 = -Infinity;
+      for (let i = 0; i < nSites; i++) {
+        x0 = Math.min(x0, sites.sx[i]);
+        x1 = Math.max(x1, sites.sx[i]);
+        y0 = Math.min(y0, sites.sy[i]);
+        y1 = Math.max(y1, sites.sy[i]);
+      }
       h = Math.max(x1 - x0, y1 - y0, 1e-3) / 512;
     }
     sampler = new LatticeSampler(sites, s.model, m, h);
   }
   // Conditioning weights from the predictor in the anisotropy-transformed space.
   const n = s.x.length;
-  const dx = new Float64Array(n), dy = new Float64Array(n);
-  for (let i = 0; i < n; i++) { dx[i] = m[0] * s.x[i] + m[1] * s.y[i]; dy[i] = m[2] * s.x[i] + m[3] * s.y[i]; }
+  const dx = new Float64Array(n),
+    dy = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    dx[i] = m[0] * s.x[i] + m[1] * s.y[i];
+    dy[i] = m[2] * s.x[i] + m[3] * s.y[i];
+  }
   const ev = s.errorVariance ?? null;
   const predictor = new KrigingPredictor(dx, dy, s.z, s.model, { neighbors: s.neighbors ?? 16, maxGlobal: s.maxGlobal, errorVariance: ev });
   const weights = conditioningWeights(predictor, m, s.tx, s.ty);
   const warnings = [...sampler.warnings];
-  if (predictor.counters.regularized > 0) warnings.push(`${predictor.counters.regularized} conditioning system(s) were ill-conditioned and solved with a small diagonal regularization`);
+  if (predictor.counters.regularized > 0)
+    warnings.push(`${predictor.counters.regularized} conditioning system(s) were ill-conditioned and solved with a small diagonal regularization`);
   if (weights.empty > 0) warnings.push(`${weights.empty} target(s) had no usable conditioning system and are no data`);
 
   const T = s.tx.length;
-  const uA = new Float64Array(nSites), uB = new Float64Array(nSites);
+  const uA = new Float64Array(nSites),
+    uB = new Float64Array(nSites);
   const resid = new Float64Array(n);
   const vals = new Float64Array(T);
   const { offsets, ids, lambda } = weights;
@@ -353,8 +421,12 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
       for (let i = 0; i < n; i++) resid[i] = s.z[i] - u[sites.dataSite[i]] - noise[i];
     } else for (let i = 0; i < n; i++) resid[i] = s.z[i] - u[sites.dataSite[i]];
     for (let t = 0; t < T; t++) {
-      const o0 = offsets[t], o1 = offsets[t + 1];
-      if (o1 === o0) { vals[t] = NaN; continue; }
+      const o0 = offsets[t],
+        o1 = offsets[t + 1];
+      if (o1 === o0) {
+        vals[t] = NaN;
+        continue;
+      }
       let acc = u[sites.targetSite[t]];
       for (let o = o0; o < o1; o++) acc += lambda[o] * resid[ids[o]];
       vals[t] = acc;
@@ -367,15 +439,25 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
     weights,
     run(seed, r0, r1, emit) {
       if (!sampler.pairs) {
-        for (let r = r0; r < r1; r++) { sampler.sample(seed, r, uA, null); condition(uA, seed, r); emit(r, vals); }
+        for (let r = r0; r < r1; r++) {
+          sampler.sample(seed, r, uA, null);
+          condition(uA, seed, r);
+          emit(r, vals);
+        }
         return;
       }
       // Pairs start at even indices so a split of the realizations never changes a value.
       for (let p = r0 - (r0 % 2); p < r1; p += 2) {
         const wantB = p + 1 < r1;
         sampler.sample(seed, p, uA, wantB ? uB : null);
-        if (p >= r0) { condition(uA, seed, p); emit(p, vals); }
-        if (wantB) { condition(uB, seed, p + 1); emit(p + 1, vals); }
+        if (p >= r0) {
+          condition(uA, seed, p);
+          emit(p, vals);
+        }
+        if (wantB) {
+          condition(uB, seed, p + 1);
+          emit(p + 1, vals);
+        }
       }
     },
   };
@@ -385,20 +467,40 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
  * Unconditional realizations [r0, r1) at sites (local km) from the chosen sampler, same streams as conditional
  * simulation: `emit(r, values)` with `values` reused between calls.
  */
-export function simulateUnconditional(sx: Float64Array, sy: Float64Array, model: VariogramModel, opts: { anisotropy?: Anisotropy | null; sampler: 'cholesky' | 'lattice'; latticeKm?: number }, seed: number, r0: number, r1: number, emit: (r: number, values: Float64Array) => void): { info: Record<string, number>; warnings: string[] } {
+export function simulateUnconditional(
+  sx: Float64Array,
+  sy: Float64Array,
+  model: VariogramModel,
+  opts: { anisotropy?: Anisotropy | null; sampler: 'cholesky' | 'lattice'; latticeKm?: number },
+  seed: number,
+  r0: number,
+  r1: number,
+  emit: (r: number, values: Float64Array) => void,
+): { info: Record<string, number>; warnings: string[] } {
   checkVariogram(model);
   const m = anisotropyMatrix(opts.anisotropy ?? null);
   const sites = buildSites(new Float64Array(0), new Float64Array(0), sx, sy);
   const sampler: Sampler = opts.sampler === 'cholesky' ? new CholeskySampler(sites, model, m) : new LatticeSampler(sites, model, m, opts.latticeKm ?? 1);
-  const n = sites.sx.length, T = sx.length;
-  const uA = new Float64Array(n), uB = new Float64Array(n), vals = new Float64Array(T);
-  const out = (u: Float64Array, r: number) => { for (let t = 0; t < T; t++) vals[t] = u[sites.targetSite[t]]; emit(r, vals); };
-  if (!sampler.pairs) for (let r = r0; r < r1; r++) { sampler.sample(seed, r, uA, null); out(uA, r); }
-  else for (let p = r0 - (r0 % 2); p < r1; p += 2) {
-    const wantB = p + 1 < r1;
-    sampler.sample(seed, p, uA, wantB ? uB : null);
-    if (p >= r0) out(uA, p);
-    if (wantB) out(uB, p + 1);
-  }
+  const n = sites.sx.length,
+    T = sx.length;
+  const uA = new Float64Array(n),
+    uB = new Float64Array(n),
+    vals = new Float64Array(T);
+  const out = (u: Float64Array, r: number) => {
+    for (let t = 0; t < T; t++) vals[t] = u[sites.targetSite[t]];
+    emit(r, vals);
+  };
+  if (!sampler.pairs)
+    for (let r = r0; r < r1; r++) {
+      sampler.sample(seed, r, uA, null);
+      out(uA, r);
+    }
+  else
+    for (let p = r0 - (r0 % 2); p < r1; p += 2) {
+      const wantB = p + 1 < r1;
+      sampler.sample(seed, p, uA, wantB ? uB : null);
+      if (p >= r0) out(uA, p);
+      if (wantB) out(uB, p + 1);
+    }
   return { info: sampler.info, warnings: sampler.warnings };
 }

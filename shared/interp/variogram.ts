@@ -73,14 +73,16 @@ export function anisotropyMatrix(a: Anisotropy | null | undefined): [number, num
   if (!Number.isFinite(a.angleDeg)) throw new RangeError('anisotropy angle must be finite');
   const t = (a.angleDeg * Math.PI) / 180;
   // Unit vector of the major axis in (east, north): (sin t, cos t); minor axis: (cos t, −sin t).
-  const s = Math.sin(t), c = Math.cos(t);
+  const s = Math.sin(t),
+    c = Math.cos(t);
   return [s, c, c / a.ratio, -s / a.ratio];
 }
 
 /** Applies `anisotropyMatrix` to coordinate arrays (into new arrays). */
 export function transformCoords(m: [number, number, number, number], x: ArrayLike<number>, y: ArrayLike<number>): { x: Float64Array; y: Float64Array } {
   const n = x.length;
-  const ox = new Float64Array(n), oy = new Float64Array(n);
+  const ox = new Float64Array(n),
+    oy = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     ox[i] = m[0] * x[i] + m[1] * y[i];
     oy[i] = m[2] * x[i] + m[3] * y[i];
@@ -110,29 +112,52 @@ export interface EmpiricalOptions {
  * (pairs found with a radius search, so the cost follows the pairs within maxLag, not N²). Coordinates in km
  * (already transformed for anisotropy if any). Lags with no pairs are left out.
  */
-export function empiricalVariogram(xAll: ArrayLike<number>, yAll: ArrayLike<number>, zAll: ArrayLike<number>, opts: EmpiricalOptions = {}): { lags: EmpiricalLag[]; lagKm: number; maxLagKm: number; pointsUsed: number } {
+export function empiricalVariogram(
+  xAll: ArrayLike<number>,
+  yAll: ArrayLike<number>,
+  zAll: ArrayLike<number>,
+  opts: EmpiricalOptions = {},
+): { lags: EmpiricalLag[]; lagKm: number; maxLagKm: number; pointsUsed: number } {
   const maxPoints = opts.maxPoints ?? 4000;
-  let x = xAll, y = yAll, z = zAll;
+  let x = xAll,
+    y = yAll,
+    z = zAll;
   if (xAll.length > maxPoints) {
     // Partial Fisher–Yates shuffle driven by a fixed-seed xorshift32 (Marsaglia 2003): same subset every run.
     const idx = Int32Array.from({ length: xAll.length }, (_, i) => i);
     let s = 0x9e3779b9 | 0;
     for (let i = 0; i < maxPoints; i++) {
-      s ^= s << 13; s ^= s >>> 17; s ^= s << 5;
+      s ^= s << 13;
+      s ^= s >>> 17;
+      s ^= s << 5;
       const j = i + ((s >>> 0) % (xAll.length - i));
-      const t = idx[i]; idx[i] = idx[j]; idx[j] = t;
+      const t = idx[i];
+      idx[i] = idx[j];
+      idx[j] = t;
     }
     const sub = idx.subarray(0, maxPoints);
-    x = Float64Array.from(sub, (i) => xAll[i]); y = Float64Array.from(sub, (i) => yAll[i]); z = Float64Array.from(sub, (i) => zAll[i]);
+    x = Float64Array.from(sub, (i) => xAll[i]);
+    y = Float64Array.from(sub, (i) => yAll[i]);
+    z = Float64Array.from(sub, (i) => zAll[i]);
   }
   const n = x.length;
-  let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
-  for (let i = 0; i < n; i++) { x0 = Math.min(x0, x[i]); x1 = Math.max(x1, x[i]); y0 = Math.min(y0, y[i]); y1 = Math.max(y1, y[i]); }
+  let x0 = Infinity,
+    x1 = -Infinity,
+    y0 = Infinity,
+    y1 = -Infinity;
+  for (let i = 0; i < n; i++) {
+    x0 = Math.min(x0, x[i]);
+    x1 = Math.max(x1, x[i]);
+    y0 = Math.min(y0, y[i]);
+    y1 = Math.max(y1, y[i]);
+  }
   const maxLagKm = opts.maxLagKm ?? Math.hypot(x1 - x0, y1 - y0) / 2;
   const lagKm = opts.lagKm ?? maxLagKm / 15;
   if (!(maxLagKm > 0) || !(lagKm > 0)) throw new RangeError(`lag width and maximum lag must be > 0 km, got ${lagKm}, ${maxLagKm}`);
   const nLags = Math.max(1, Math.ceil(maxLagKm / lagKm - 1e-12));
-  const sumG = new Float64Array(nLags), sumH = new Float64Array(nLags), cnt = new Float64Array(nLags);
+  const sumG = new Float64Array(nLags),
+    sumH = new Float64Array(nLags),
+    cnt = new Float64Array(nLags);
   const index = new NeighbourIndex(x, y);
   const found: number[] = [];
   for (let i = 0; i < n; i++) {
@@ -172,14 +197,19 @@ export function cressieObjective(m: VariogramModel, lags: EmpiricalLag[]): numbe
  * fitting square roots of the nugget, partial sill and range; several starts (range ×½, ×1, ×2 of a first guess)
  * and a restarted Nelder–Mead simplex guard against a poor local minimum. `fixNugget` holds the nugget.
  */
-export function fitVariogram(model: VariogramModelName, lags: EmpiricalLag[], opts: { fixNugget?: number; maxRangeKm?: number } = {}): VariogramModel & { objective: number } {
+export function fitVariogram(
+  model: VariogramModelName,
+  lags: EmpiricalLag[],
+  opts: { fixNugget?: number; maxRangeKm?: number } = {},
+): VariogramModel & { objective: number } {
   if (lags.length < 2) throw new RangeError('fitting a variogram needs at least two non-empty lags');
   const maxLag = Math.max(...lags.map((l) => l.lagKm));
   const maxRange = opts.maxRangeKm ?? 10 * maxLag;
   const gmax = Math.max(...lags.map((l) => l.gamma));
   const tail = lags.slice(Math.floor((2 * lags.length) / 3));
   const sill0 = Math.max(tail.reduce((s, l) => s + l.gamma, 0) / tail.length, 1e-12 * gmax, Number.MIN_VALUE);
-  const g1 = lags[0].gamma, g2 = lags[1].gamma;
+  const g1 = lags[0].gamma,
+    g2 = lags[1].gamma;
   let nug0 = g1 - ((g2 - g1) * lags[0].lagKm) / (lags[1].lagKm - lags[0].lagKm);
   nug0 = Math.min(Math.max(0, nug0), 0.9 * sill0);
   const hit = lags.find((l) => l.gamma >= 0.95 * sill0);
@@ -223,17 +253,32 @@ export function nelderMead(f: (p: number[]) => number, x0: number[], maxIter: nu
     const c = new Array<number>(n).fill(0);
     for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) c[j] += pts[i][j] / n;
     const at = (t: number) => c.map((cj, j) => cj + t * (pts[n][j] - cj));
-    const xr = at(-1), fr = f(xr);
+    const xr = at(-1),
+      fr = f(xr);
     if (fr < vals[0]) {
-      const xe = at(-2), fe = f(xe);
-      if (fe < fr) { pts[n] = xe; vals[n] = fe; } else { pts[n] = xr; vals[n] = fr; }
+      const xe = at(-2),
+        fe = f(xe);
+      if (fe < fr) {
+        pts[n] = xe;
+        vals[n] = fe;
+      } else {
+        pts[n] = xr;
+        vals[n] = fr;
+      }
     } else if (fr < vals[n - 1]) {
-      pts[n] = xr; vals[n] = fr;
+      pts[n] = xr;
+      vals[n] = fr;
     } else {
       const xc = fr < vals[n] ? at(-0.5) : at(0.5);
       const fc = f(xc);
-      if (fc < Math.min(fr, vals[n])) { pts[n] = xc; vals[n] = fc; } else {
-        for (let i = 1; i <= n; i++) { pts[i] = pts[i].map((v, j) => pts[0][j] + 0.5 * (v - pts[0][j])); vals[i] = f(pts[i]); }
+      if (fc < Math.min(fr, vals[n])) {
+        pts[n] = xc;
+        vals[n] = fc;
+      } else {
+        for (let i = 1; i <= n; i++) {
+          pts[i] = pts[i].map((v, j) => pts[0][j] + 0.5 * (v - pts[0][j]));
+          vals[i] = f(pts[i]);
+        }
       }
     }
   }

@@ -20,37 +20,69 @@ export function parseCsv(text: string): { header: string[]; rows: string[][]; li
     const ch = text[i];
     if (inQuotes) {
       if (ch === '"') {
-        if (text[i + 1] === '"') { field += '"'; i += 2; continue; }
-        inQuotes = false; i++; continue;
+        if (text[i + 1] === '"') {
+          field += '"';
+          i += 2;
+          continue;
+        }
+        inQuotes = false;
+        i++;
+        continue;
       }
       if (ch === '\n' || (ch === '\r' && text[i + 1] !== '\n')) line++;
-      field += ch; i++; continue;
+      field += ch;
+      i++;
+      continue;
     }
-    if (ch === '"' && field.length === 0) { inQuotes = true; i++; continue; }
-    if (ch === ',') { record.push(field); field = ''; i++; continue; }
+    if (ch === '"' && field.length === 0) {
+      inQuotes = true;
+      i++;
+      continue;
+    }
+    if (ch === ',') {
+      record.push(field);
+      field = '';
+      i++;
+      continue;
+    }
     if (ch === '\r' || ch === '\n') {
-      record.push(field); field = '';
-      records.push(record); record = [];
+      record.push(field);
+      field = '';
+      records.push(record);
+      record = [];
       starts.push(recordLine);
       if (ch === '\r' && text[i + 1] === '\n') i++;
-      i++; line++; recordLine = line; continue;
+      i++;
+      line++;
+      recordLine = line;
+      continue;
     }
-    field += ch; i++;
+    field += ch;
+    i++;
   }
   if (inQuotes) throw new InputError('CSV has an unterminated quoted field', [{ problem: 'a field opened with " is never closed' }], 'malformed_csv');
-  if (field.length > 0 || record.length > 0) { record.push(field); records.push(record); starts.push(recordLine); }
+  if (field.length > 0 || record.length > 0) {
+    record.push(field);
+    records.push(record);
+    starts.push(recordLine);
+  }
   const keep = records.map((_, k) => k).filter((k) => !(records[k].length === 1 && records[k][0].trim() === ''));
   const useful = keep.map((k) => records[k]);
   const usefulLines = keep.map((k) => starts[k]);
   let start = 0;
   while (start < useful.length && useful[start][0]?.trimStart().startsWith('#')) start++;
-  if (start >= useful.length) throw new InputError('CSV has no header row', [{ problem: 'expected a header row such as longitude,latitude,...' }], 'malformed_csv');
+  if (start >= useful.length)
+    throw new InputError('CSV has no header row', [{ problem: 'expected a header row such as longitude,latitude,...' }], 'malformed_csv');
   const header = useful[start].map((h) => h.trim());
   const rows = useful.slice(start + 1);
   const lines = usefulLines.slice(start + 1);
   rows.forEach((r, k) => {
     if (r.length !== header.length) {
-      throw new InputError(`CSV line ${lines[k]} has ${r.length} fields, the header (line ${usefulLines[start]}) has ${header.length}`, [{ feature: `line ${lines[k]}`, problem: `expected ${header.length} fields, got ${r.length}` }], 'malformed_csv');
+      throw new InputError(
+        `CSV line ${lines[k]} has ${r.length} fields, the header (line ${usefulLines[start]}) has ${header.length}`,
+        [{ feature: `line ${lines[k]}`, problem: `expected ${header.length} fields, got ${r.length}` }],
+        'malformed_csv',
+      );
     }
   });
   return { header, rows, lines, headerLine: usefulLines[start] };

@@ -37,7 +37,11 @@ export function aluminosilicateLines(temperatureC: number, calibration: Aluminos
 }
 
 /** The stable polymorph at (temperatureC °C, pressureKbar kbar); calibration default Holdaway (1971). */
-export function stableAluminosilicate(temperatureC: number, pressureKbar: number, calibration: AluminosilicateCalibration = 'holdaway1971'): AluminosilicateResult {
+export function stableAluminosilicate(
+  temperatureC: number,
+  pressureKbar: number,
+  calibration: AluminosilicateCalibration = 'holdaway1971',
+): AluminosilicateResult {
   if (!Number.isFinite(temperatureC) || !Number.isFinite(pressureKbar)) throw new RangeError('temperature and pressure must be finite');
   const tp = ALUMINOSILICATE_TRIPLE_POINTS[calibration];
   const l = aluminosilicateLines(temperatureC, calibration);

@@ -24,7 +24,10 @@ export function editDistance(a: string, b: string): number {
 
 /** Lower-cases, trims, and turns underscores, en dashes and runs of spaces into single hyphens. */
 export function normalizeName(s: string): string {
-  return s.trim().toLowerCase().replace(/[\s_–—]+/g, '-');
+  return s
+    .trim()
+    .toLowerCase()
+    .replace(/[\s_–—]+/g, '-');
 }
 
 /**
@@ -34,7 +37,8 @@ export function normalizeName(s: string): string {
 export function nearestName(name: string, candidates: readonly string[], maxDistance?: number): string | null {
   const n = normalizeName(name);
   const limit = maxDistance ?? Math.max(2, Math.floor(n.length / 3));
-  let best: string | null = null, bestD = Infinity;
+  let best: string | null = null,
+    bestD = Infinity;
   for (const c of candidates) {
     const d = editDistance(n, normalizeName(c));
     if (d < bestD) {

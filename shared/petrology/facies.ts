@@ -8,15 +8,7 @@
 
 import { pointSegmentDistance2 } from '../grid/segment.ts';
 
-export type FaciesName =
-  | 'zeolite'
-  | 'prehnite-pumpellyite'
-  | 'greenschist'
-  | 'amphibolite'
-  | 'granulite'
-  | 'blueschist'
-  | 'eclogite'
-  | 'hornfels';
+export type FaciesName = 'zeolite' | 'prehnite-pumpellyite' | 'greenschist' | 'amphibolite' | 'granulite' | 'blueschist' | 'eclogite' | 'hornfels';
 
 export interface FaciesField {
   name: FaciesName;
@@ -31,14 +23,89 @@ export const FACIES_BOUNDARY_WIDTH = { temperatureC: 50, pressureKbar: 1.5 } as 
 
 /** The fields, for the client to draw (the project's own simplified drawing; gradational boundaries). */
 export const FACIES_FIELDS: readonly FaciesField[] = Object.freeze([
-  { name: 'zeolite', polygon: [[0, 0], [200, 0], [170, 3.5], [0, 3.5]] },
-  { name: 'prehnite-pumpellyite', polygon: [[200, 0], [300, 0], [300, 2], [300, 6.5], [150, 5.5], [0, 5], [0, 3.5], [170, 3.5]] },
-  { name: 'hornfels', polygon: [[300, 0], [1100, 0], [1100, 2], [700, 2], [500, 2], [300, 2]] },
-  { name: 'greenschist', polygon: [[300, 2], [500, 2], [500, 10], [450, 9], [300, 6.5]] },
-  { name: 'amphibolite', polygon: [[500, 2], [700, 2], [750, 12.5], [500, 10]] },
-  { name: 'granulite', polygon: [[700, 2], [1100, 2], [1100, 15], [750, 12.5]] },
-  { name: 'blueschist', polygon: [[0, 5], [150, 5.5], [300, 6.5], [450, 9], [500, 10], [550, 25], [0, 25]] },
-  { name: 'eclogite', polygon: [[500, 10], [750, 12.5], [1100, 15], [1100, 25], [550, 25]] },
+  {
+    name: 'zeolite',
+    polygon: [
+      [0, 0],
+      [200, 0],
+      [170, 3.5],
+      [0, 3.5],
+    ],
+  },
+  {
+    name: 'prehnite-pumpellyite',
+    polygon: [
+      [200, 0],
+      [300, 0],
+      [300, 2],
+      [300, 6.5],
+      [150, 5.5],
+      [0, 5],
+      [0, 3.5],
+      [170, 3.5],
+    ],
+  },
+  {
+    name: 'hornfels',
+    polygon: [
+      [300, 0],
+      [1100, 0],
+      [1100, 2],
+      [700, 2],
+      [500, 2],
+      [300, 2],
+    ],
+  },
+  {
+    name: 'greenschist',
+    polygon: [
+      [300, 2],
+      [500, 2],
+      [500, 10],
+      [450, 9],
+      [300, 6.5],
+    ],
+  },
+  {
+    name: 'amphibolite',
+    polygon: [
+      [500, 2],
+      [700, 2],
+      [750, 12.5],
+      [500, 10],
+    ],
+  },
+  {
+    name: 'granulite',
+    polygon: [
+      [700, 2],
+      [1100, 2],
+      [1100, 15],
+      [750, 12.5],
+    ],
+  },
+  {
+    name: 'blueschist',
+    polygon: [
+      [0, 5],
+      [150, 5.5],
+      [300, 6.5],
+      [450, 9],
+      [500, 10],
+      [550, 25],
+      [0, 25],
+    ],
+  },
+  {
+    name: 'eclogite',
+    polygon: [
+      [500, 10],
+      [750, 12.5],
+      [1100, 15],
+      [1100, 25],
+      [550, 25],
+    ],
+  },
 ] as FaciesField[]);
 
 export interface FaciesResult {
@@ -62,7 +129,8 @@ const RINGS = FACIES_FIELDS.map((f) => Float64Array.from(f.polygon.flat()));
 const BOUNDARY_SEGMENTS = FACIES_FIELDS.map((f) => {
   const out: number[] = [];
   const poly = f.polygon;
-  const ts = FACIES_BOUNDARY_WIDTH.temperatureC, ps = FACIES_BOUNDARY_WIDTH.pressureKbar;
+  const ts = FACIES_BOUNDARY_WIDTH.temperatureC,
+    ps = FACIES_BOUNDARY_WIDTH.pressureKbar;
   for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
     if (onDiagramEdge(poly[j], poly[i])) continue;
     out.push(poly[j][0] / ts, poly[j][1] / ps, poly[i][0] / ts, poly[i][1] / ps);
@@ -75,20 +143,23 @@ function onDiagramEdge(a: [number, number], b: [number, number]): boolean {
   return same(0, L.minTemperatureC) || same(0, L.maxTemperatureC) || same(1, L.minPressureKbar) || same(1, L.maxPressureKbar);
 }
 
-
 /**
  * Index into FACIES_NAMES of the field containing (temperatureC °C, pressureKbar kbar), or −1 outside the diagram.
  * A point on a shared edge (within 1e-9 °C/kbar) belongs to the first field listed. No allocation: for grids.
  */
 export function faciesIndexAt(temperatureC: number, pressureKbar: number): number {
-  const t = temperatureC, p = pressureKbar;
+  const t = temperatureC,
+    p = pressureKbar;
   if (!(t >= L.minTemperatureC && t <= L.maxTemperatureC && p >= L.minPressureKbar && p <= L.maxPressureKbar)) return -1;
   for (let f = 0; f < RINGS.length; f++) {
     const r = RINGS[f];
     const n = r.length / 2;
     let inside = false;
     for (let i = 0, j = n - 1; i < n; j = i++) {
-      const ti = r[2 * i], pi = r[2 * i + 1], tj = r[2 * j], pj = r[2 * j + 1];
+      const ti = r[2 * i],
+        pi = r[2 * i + 1],
+        tj = r[2 * j],
+        pj = r[2 * j + 1];
       if (pointSegmentDistance2(t, p, tj, pj, ti, pi) < 1e-18) return f;
       if (pi > p !== pj > p && t < ((tj - ti) * (p - pi)) / (pj - pi) + ti) inside = !inside;
     }
@@ -102,14 +173,19 @@ export function faciesIndexAt(temperatureC: number, pressureKbar: number): numbe
  * `fieldIndex`, and that field's index. Writes [distance, index] into `out`.
  */
 export function faciesBoundaryDistance(fieldIndex: number, temperatureC: number, pressureKbar: number, out: Float64Array | number[]): void {
-  const x = temperatureC / FACIES_BOUNDARY_WIDTH.temperatureC, y = pressureKbar / FACIES_BOUNDARY_WIDTH.pressureKbar;
-  let best = Infinity, other = -1;
+  const x = temperatureC / FACIES_BOUNDARY_WIDTH.temperatureC,
+    y = pressureKbar / FACIES_BOUNDARY_WIDTH.pressureKbar;
+  let best = Infinity,
+    other = -1;
   for (let f = 0; f < BOUNDARY_SEGMENTS.length; f++) {
     if (f === fieldIndex) continue;
     const s = BOUNDARY_SEGMENTS[f];
     for (let k = 0; k < s.length; k += 4) {
       const d = pointSegmentDistance2(x, y, s[k], s[k + 1], s[k + 2], s[k + 3]);
-      if (d < best) { best = d; other = f; }
+      if (d < best) {
+        best = d;
+        other = f;
+      }
     }
   }
   out[0] = Math.sqrt(best);

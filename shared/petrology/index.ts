@@ -1,7 +1,33 @@
 // Petrology: index-mineral zones, facies, aluminosilicates, solidus curves, peak P–T (re-exports only).
-export { INDEX_MINERAL_ZONES, ZONE_NAMES, zoneRank, zoneByName, compareZones, suggestZoneName, isogradTemperatureC, LOW_PRESSURE_ZONES, LOW_PRESSURE_ZONE_NAMES, lowPressureZoneRank, zoneNameProblem, ALL_ZONE_NAMES, type IndexMineralZone, type LowPressureZone } from './zones.ts';
+export {
+  INDEX_MINERAL_ZONES,
+  ZONE_NAMES,
+  zoneRank,
+  zoneByName,
+  compareZones,
+  suggestZoneName,
+  isogradTemperatureC,
+  LOW_PRESSURE_ZONES,
+  LOW_PRESSURE_ZONE_NAMES,
+  lowPressureZoneRank,
+  zoneNameProblem,
+  ALL_ZONE_NAMES,
+  type IndexMineralZone,
+  type LowPressureZone,
+} from './zones.ts';
 export { editDistance, nearestName, normalizeName } from './edit-distance.ts';
-export { FACIES_FIELDS, FACIES_NAMES, FACIES_DIAGRAM_LIMITS, FACIES_BOUNDARY_WIDTH, classifyFacies, faciesIndexAt, faciesBoundaryDistance, type FaciesName, type FaciesField, type FaciesResult } from './facies.ts';
+export {
+  FACIES_FIELDS,
+  FACIES_NAMES,
+  FACIES_DIAGRAM_LIMITS,
+  FACIES_BOUNDARY_WIDTH,
+  classifyFacies,
+  faciesIndexAt,
+  faciesBoundaryDistance,
+  type FaciesName,
+  type FaciesField,
+  type FaciesResult,
+} from './facies.ts';
 export {
   ALUMINOSILICATE_TRIPLE_POINTS,
   ALUMINOSILICATE_SLOPES_KBAR_PER_C,

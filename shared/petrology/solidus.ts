@@ -37,7 +37,8 @@ function pchipSlopes(x: number[], y: number[]): number[] {
   const d = new Array<number>(n).fill(0);
   for (let k = 1; k < n - 1; k++) {
     if (del[k - 1] * del[k] > 0) {
-      const w1 = 2 * h[k] + h[k - 1], w2 = h[k] + 2 * h[k - 1];
+      const w1 = 2 * h[k] + h[k - 1],
+        w2 = h[k] + 2 * h[k - 1];
       d[k] = (w1 + w2) / (w1 / del[k - 1] + w2 / del[k]);
     }
   }
@@ -64,7 +65,10 @@ export function wetGraniteSolidusC(pressureKbar: number): number {
   while (p > NODES_P[k + 1]) k++;
   const h = NODES_P[k + 1] - NODES_P[k];
   const s = (p - NODES_P[k]) / h;
-  const h00 = (1 + 2 * s) * (1 - s) * (1 - s), h10 = s * (1 - s) * (1 - s), h01 = s * s * (3 - 2 * s), h11 = s * s * (s - 1);
+  const h00 = (1 + 2 * s) * (1 - s) * (1 - s),
+    h10 = s * (1 - s) * (1 - s),
+    h01 = s * s * (3 - 2 * s),
+    h11 = s * s * (s - 1);
   return h00 * NODES_T[k] + h10 * h * SLOPES[k] + h01 * NODES_T[k + 1] + h11 * h * SLOPES[k + 1];
 }
 
@@ -81,7 +85,8 @@ function linearNodes(nodes: readonly (readonly [number, number])[]): (pKbar: num
     if (p >= nodes[n - 1][0]) return nodes[n - 1][1];
     let k = 0;
     while (p > nodes[k + 1][0]) k++;
-    const [p0, t0] = nodes[k], [p1, t1] = nodes[k + 1];
+    const [p0, t0] = nodes[k],
+      [p1, t1] = nodes[k + 1];
     return t0 + ((t1 - t0) * (p - p0)) / (p1 - p0);
   };
 }

@@ -38,7 +38,8 @@ export function zoneByName(name: string): IndexMineralZone | null {
 
 /** Compares two zones by grade: negative when a is lower grade than b. Throws on unknown names. */
 export function compareZones(a: string, b: string): number {
-  const ra = zoneRank(a), rb = zoneRank(b);
+  const ra = zoneRank(a),
+    rb = zoneRank(b);
   if (ra < 0 || rb < 0) throw new RangeError(`unknown zone "${ra < 0 ? a : b}"`);
   return ra - rb;
 }

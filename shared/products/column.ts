@@ -61,7 +61,14 @@ const r6 = (v: number) => Math.round(v * 1e6) / 1e6;
 const num = (v: number): number | null => (Number.isFinite(v) ? r6(v) : null);
 const uncertain = (s: Summary): Uncertain => {
   const j = summaryToJson(s);
-  return { p10: num(j.p10 ?? NaN), p50: num(j.p50 ?? NaN), p90: num(j.p90 ?? NaN), mean: num(j.mean ?? NaN), sd: num(j.sd ?? NaN), stderrP50: num(j.stderrP50 ?? NaN) };
+  return {
+    p10: num(j.p10 ?? NaN),
+    p50: num(j.p50 ?? NaN),
+    p90: num(j.p90 ?? NaN),
+    mean: num(j.mean ?? NaN),
+    sd: num(j.sd ?? NaN),
+    stderrP50: num(j.stderrP50 ?? NaN),
+  };
 };
 const layerLabel = (model: ThermalModelInput, i: number) => (model.layers[i]?.name !== undefined ? `layers[${i}] (${model.layers[i].name})` : `layers[${i}]`);
 
@@ -83,7 +90,11 @@ export function computeColumn(q: ColumnQuery): ColumnAnswer {
   if (st.status & COLUMN_CONDUCTIVITY_UNDEFINED) {
     const i = layerAt(cm, st.validToKm);
     const problem = `1 + b·T ≤ 0 within the modelled range (T = ${r6(st.tTopC[i])} °C at ${r6(st.validToKm)} km): k(T) = k0/(1 + bT) is undefined`;
-    throw new InputError(`${layerLabel(q.model, i)}: ${problem}`, [{ feature: layerLabel(q.model, i), field: 'conductivityTempCoeffPerK', problem }], 'invalid_model');
+    throw new InputError(
+      `${layerLabel(q.model, i)}: ${problem}`,
+      [{ feature: layerLabel(q.model, i), field: 'conductivityTempCoeffPerK', problem }],
+      'invalid_model',
+    );
   }
   const lim = prof.limits;
   let pore;
@@ -95,7 +106,8 @@ export function computeColumn(q: ColumnQuery): ColumnAnswer {
   }
   const poreInfo = describePorePressure(pore);
   const profile = Array.from(prof.depthKm, (z, j) => {
-    const t = prof.temperatureC[j], p = prof.pressureMPa[j];
+    const t = prof.temperatureC[j],
+      p = prof.pressureMPa[j];
     // Facies only where the column gives a temperature (the readout stops at the melt onset).
     const f = Number.isFinite(t) ? classifyFacies(t, p / 100) : null; // 1 kbar = 100 MPa
     const pp = porePressureAt(pore, z, p, cm.gravityMS2);
@@ -118,7 +130,8 @@ export function computeColumn(q: ColumnQuery): ColumnAnswer {
   const isothermDepthsKm = Object.fromEntries(q.isothermsC.map((t) => [String(t), num(limitedIsothermDepth(cm, st, lim, t, q.maxDepthKm))]));
   if (q.realizations === 0 && lim.endReason !== null) {
     const below = q.isothermsC.filter((t) => isothermDepthsKm[String(t)] === null);
-    if (below.length > 0) warnings.push(`isotherms ${below.join(', ')} °C: not reached above ${r6(lim.validToKm)} km, where the column ends (${lim.endReason}); null`);
+    if (below.length > 0)
+      warnings.push(`isotherms ${below.join(', ')} °C: not reached above ${r6(lim.validToKm)} km, where the column ends (${lim.endReason}); null`);
     const deep = q.depthsKm.filter((z) => z > lim.validToKm);
     if (deep.length > 0) warnings.push(`temperatures at ${deep.join(', ')} km: below ${r6(lim.validToKm)} km, where the column ends (${lim.endReason}); null`);
   }
@@ -134,7 +147,19 @@ export function computeColumn(q: ColumnQuery): ColumnAnswer {
     reducedHeatFlowMethod: reducedMethod(cm),
     reducedHeatFlowLayer: cm.reducedHeatFlowLayer >= 0 ? cm.names[cm.reducedHeatFlowLayer] : null,
     solidusCrossingKm: { wetSolidus: num(lim.wetSolidusKm), meltOnset: num(lim.meltOnsetKm) },
-    ...(limitsToJson(cm, lim) as Pick<ColumnAnswer, 'meltOnsetKm' | 'meltOnset' | 'wetSolidusKm' | 'wetSolidus' | 'lithosphereBaseKm' | 'mantlePotentialTemperatureC' | 'adiabatAboveDrySolidusToKm' | 'decompressionMelting' | 'validToKm' | 'invalidBelow'>),
+    ...(limitsToJson(cm, lim) as Pick<
+      ColumnAnswer,
+      | 'meltOnsetKm'
+      | 'meltOnset'
+      | 'wetSolidusKm'
+      | 'wetSolidus'
+      | 'lithosphereBaseKm'
+      | 'mantlePotentialTemperatureC'
+      | 'adiabatAboveDrySolidusToKm'
+      | 'decompressionMelting'
+      | 'validToKm'
+      | 'invalidBelow'
+    >),
     porePressure: { mode: pore.kind === 'hydrostatic' ? 'hydrostatic' : `lambda:${pore.lambda}`, method: poreInfo.method },
     inconsistent: (st.status & COLUMN_FLOW_EXHAUSTED) !== 0 || lim.endReason !== null,
     monteCarlo: null,
@@ -142,7 +167,13 @@ export function computeColumn(q: ColumnQuery): ColumnAnswer {
     caution: CAUTION,
     version: VERSION,
   };
-  if (q.realizations > 0) addMonteCarlo(out, q, q0, profile.map((p) => p.depthKm));
+  if (q.realizations > 0)
+    addMonteCarlo(
+      out,
+      q,
+      q0,
+      profile.map((p) => p.depthKm),
+    );
   return out;
 }
 
@@ -171,19 +202,30 @@ function addMonteCarlo(out: ColumnAnswer, q: ColumnQuery, q0: number, profileDep
   out.monteCarlo = {
     realizations: q.realizations,
     seed: q.seed,
-    heatFlow: sd > 0 ? `normal(mean ${r6(q0)}, sd ${r6(sd)}) mW/m², drawn after the model's parameters` : q.heatFlowMWm2 !== undefined ? 'fixed' : "the model's surfaceHeatFlowMWm2",
+    heatFlow:
+      sd > 0
+        ? `normal(mean ${r6(q0)}, sd ${r6(sd)}) mW/m², drawn after the model's parameters`
+        : q.heatFlowMWm2 !== undefined
+          ? 'fixed'
+          : "the model's surfaceHeatFlowMWm2",
     rejected: mc.rejected,
     inconsistent: mc.inconsistent,
     stderrP50Method: STDERR_P50_METHOD,
     percentiles: 'Hyndman & Fan (1996) type 7; an isotherm not reached counts as deeper than any depth (null percentile)',
-    isothermReachedFraction: Object.fromEntries(q.isothermsC.map((t, k) => [String(t), mc.isothermDepthsKm[k].n > 0 ? r6(mc.isothermDepthsKm[k].finite / mc.isothermDepthsKm[k].n) : null])),
+    isothermReachedFraction: Object.fromEntries(
+      q.isothermsC.map((t, k) => [String(t), mc.isothermDepthsKm[k].n > 0 ? r6(mc.isothermDepthsKm[k].finite / mc.isothermDepthsKm[k].n) : null]),
+    ),
     profileTemperatureC: q.profileBand === true ? mc.temperatureAtDepthsC.slice(q.depthsKm.length).map(uncertain) : null,
   };
   const w = out.warnings;
   if (!isUncertainModel(q.model) && !(sd > 0)) w.push('the model has no distributions and the heat flow no standard deviation: every realization is the same');
   w.push('the profile is the nominal model (distribution means/modes); percentiles come from the realizations');
-  if (mc.rejected > 0) w.push(`${mc.rejected} of ${q.realizations} realizations had physically impossible draws and were left out (first: ${mc.firstRejection})`);
-  if (mc.inconsistent > 0) w.push(`${mc.inconsistent} of ${q.realizations} realizations had a column that is not valid throughout (melt onset, heat flow exhausted or k(T) undefined); values below that depth are left out`);
+  if (mc.rejected > 0)
+    w.push(`${mc.rejected} of ${q.realizations} realizations had physically impossible draws and were left out (first: ${mc.firstRejection})`);
+  if (mc.inconsistent > 0)
+    w.push(
+      `${mc.inconsistent} of ${q.realizations} realizations had a column that is not valid throughout (melt onset, heat flow exhausted or k(T) undefined); values below that depth are left out`,
+    );
 }
 
 /** How the reduced heat flow was defined, in words. */
@@ -191,5 +233,7 @@ function reducedMethod(cm: CompiledModel): string {
   const i = cm.reducedHeatFlowLayer;
   if (i < 0) return 'not applicable: no layer is marked heatProducingUpperCrust';
   const above = i > 0 ? ' minus the heat produced above it' : '';
-  return cm.reducedHeatFlowMethod === 'exponential' ? `q0 − A0·D of ${cm.names[i]} (exponential; Birch/Lachenbruch q0 = qr + D·A0)${above}` : `flow below ${cm.names[i]} (constant heat production): q0 − ∫A dz to its base`;
+  return cm.reducedHeatFlowMethod === 'exponential'
+    ? `q0 − A0·D of ${cm.names[i]} (exponential; Birch/Lachenbruch q0 = qr + D·A0)${above}`
+    : `flow below ${cm.names[i]} (constant heat production): q0 − ∫A dz to its base`;
 }

@@ -9,7 +9,9 @@ import { classifyFacies, FACIES_NAMES, type FaciesName } from '../petrology/inde
 import type { Legend } from '../grid/legend.ts';
 
 /** Class code of each facies in the grid (1-based, in FACIES_NAMES order; NaN = none / no data). */
-export const FACIES_CODES: Readonly<Record<FaciesName, number>> = Object.freeze(Object.fromEntries(FACIES_NAMES.map((n, i) => [n, i + 1])) as Record<FaciesName, number>);
+export const FACIES_CODES: Readonly<Record<FaciesName, number>> = Object.freeze(
+  Object.fromEntries(FACIES_NAMES.map((n, i) => [n, i + 1])) as Record<FaciesName, number>,
+);
 
 /** The project's facies colours (its own choice): low-grade pale and warm, high-grade dark. */
 export const FACIES_COLORS: Readonly<Record<FaciesName, string>> = Object.freeze({

@@ -25,7 +25,11 @@ export function parseModelText(text: string, source = 'model'): ModelDocument {
   try {
     raw = JSON.parse(text);
   } catch (e) {
-    throw new InputError(`${source}: not valid JSON: ${e instanceof Error ? e.message : String(e)}`, [{ feature: 'model', field: '(root)', problem: 'not valid JSON' }], 'invalid_model');
+    throw new InputError(
+      `${source}: not valid JSON: ${e instanceof Error ? e.message : String(e)}`,
+      [{ feature: 'model', field: '(root)', problem: 'not valid JSON' }],
+      'invalid_model',
+    );
   }
   return parseModelDocument(raw, source);
 }

@@ -33,11 +33,19 @@ export function overrideFromProperties(props: Record<string, unknown> | null | u
   const layers = props?.layers;
   if (layers === undefined || layers === null) return null;
   if (!Array.isArray(layers) || layers.length === 0 || layers.some((l) => l === null || typeof l !== 'object' || Array.isArray(l))) {
-    throw new InputError(`${label}: "layers" must be a non-empty array of layer objects`, [{ feature: label, field: 'layers', problem: 'expected [{ "name": ..., ... }, ...]' }], 'invalid_override');
+    throw new InputError(
+      `${label}: "layers" must be a non-empty array of layer objects`,
+      [{ feature: label, field: 'layers', problem: 'expected [{ "name": ..., ... }, ...]' }],
+      'invalid_override',
+    );
   }
   const mode = props?.mode ?? 'amend';
   if (mode !== 'amend' && mode !== 'replace') {
-    throw new InputError(`${label}: "mode" must be "amend" or "replace", got ${JSON.stringify(mode)}`, [{ feature: label, field: 'mode', problem: 'expected "amend" (default) or "replace"' }], 'invalid_override');
+    throw new InputError(
+      `${label}: "mode" must be "amend" or "replace", got ${JSON.stringify(mode)}`,
+      [{ feature: label, field: 'mode', problem: 'expected "amend" (default) or "replace"' }],
+      'invalid_override',
+    );
   }
   return { label, mode, layers: layers as Record<string, unknown>[] };
 }
@@ -56,7 +64,11 @@ export function applyLayerOverride(base: ThermalModelInput, o: LayerOverride): T
     o.layers.forEach((ol, i) => {
       const name = ol.name;
       if (typeof name !== 'string' || name.trim() === '') {
-        problems.push({ feature: o.label, field: `layers[${i}].name`, problem: 'each override layer needs a name (to amend the layer of that name, or to insert a new one)' });
+        problems.push({
+          feature: o.label,
+          field: `layers[${i}].name`,
+          problem: 'each override layer needs a name (to amend the layer of that name, or to insert a new one)',
+        });
         return;
       }
       const at = layers.findIndex((l) => typeof l.name === 'string' && norm(l.name) === norm(name));
@@ -72,11 +84,19 @@ export function applyLayerOverride(base: ThermalModelInput, o: LayerOverride): T
       }
       const bottom = ol.bottomKm;
       if (typeof bottom !== 'number' || !Number.isFinite(bottom)) {
-        problems.push({ feature: o.label, field: `layers[${i}].bottomKm`, problem: `"${name}" is not a layer of the model, so it is inserted and needs a bottomKm` });
+        problems.push({
+          feature: o.label,
+          field: `layers[${i}].bottomKm`,
+          problem: `"${name}" is not a layer of the model, so it is inserted and needs a bottomKm`,
+        });
         return;
       }
       if (layers.some((l) => l.bottomKm === bottom)) {
-        problems.push({ feature: o.label, field: `layers[${i}].bottomKm`, problem: `a layer of the model already ends at ${bottom} km: amend it by name instead` });
+        problems.push({
+          feature: o.label,
+          field: `layers[${i}].bottomKm`,
+          problem: `a layer of the model already ends at ${bottom} km: amend it by name instead`,
+        });
         return;
       }
       const pos = layers.findIndex((l) => typeof l.bottomKm === 'number' && l.bottomKm > bottom);
@@ -91,7 +111,12 @@ export function applyLayerOverride(base: ThermalModelInput, o: LayerOverride): T
   try {
     return parseThermalModel(candidate, `${o.label} (model with its layer override)`);
   } catch (e) {
-    if (e instanceof InputError) throw new InputError(e.message, e.details.map((d) => ({ ...d, feature: `${o.label}: ${d.feature ?? 'model'}` })), 'invalid_override');
+    if (e instanceof InputError)
+      throw new InputError(
+        e.message,
+        e.details.map((d) => ({ ...d, feature: `${o.label}: ${d.feature ?? 'model'}` })),
+        'invalid_override',
+      );
     throw e;
   }
 }
@@ -116,7 +141,7 @@ export function overrideRegions(features: { geometry: unknown; properties?: Reco
   const regions: OverrideRegion[] = [];
   const plain: Rings[] = [];
   features.forEach((f, i) => {
-    const props = (f.properties ?? {});
+    const props = f.properties ?? {};
     const label = `regions[${i}]${props.id !== undefined ? ` (${String(props.id)})` : ''}`;
     const o = overrideFromProperties(props, label);
     const rings = ringsOfGeometry(f.geometry as { type: string; coordinates: unknown });

@@ -18,7 +18,9 @@ export function canonicalJson(value: unknown): string {
   if (ArrayBuffer.isView(value) && !(value instanceof DataView)) return canonicalJson(Array.from(value as unknown as ArrayLike<number>));
   if (Array.isArray(value)) return `[${value.map((v) => (v === undefined ? 'null' : canonicalJson(v))).join(',')}]`;
   const obj = value as Record<string, unknown>;
-  const keys = Object.keys(obj).filter((k) => obj[k] !== undefined).sort();
+  const keys = Object.keys(obj)
+    .filter((k) => obj[k] !== undefined)
+    .sort();
   return `{${keys.map((k) => `${JSON.stringify(k)}:${canonicalJson(obj[k])}`).join(',')}}`;
 }
 
@@ -39,7 +41,10 @@ export interface Provenance {
 }
 
 /** Assembles a provenance record; `hash` is the caller's SHA-256 of a string (hex). */
-export function buildProvenance(p: { method: string; model: unknown; modelName?: string | null; inputs: Record<string, string>; parameters: Record<string, unknown> }, hash: (text: string) => string): Provenance {
+export function buildProvenance(
+  p: { method: string; model: unknown; modelName?: string | null; inputs: Record<string, string>; parameters: Record<string, unknown> },
+  hash: (text: string) => string,
+): Provenance {
   return {
     tool: TOOL_NAME,
     version: VERSION,

@@ -101,10 +101,17 @@ function sampleLine(q: SectionQuery): LineSamples {
   }
   const totalKm = cum[cum.length - 1];
   if (!(totalKm > 1e-6)) {
-    throw new InputError('the section line has zero length: give at least two distinct vertices', [{ field: 'line', problem: 'all vertices coincide' }], 'invalid_section');
+    throw new InputError(
+      'the section line has zero length: give at least two distinct vertices',
+      [{ field: 'line', problem: 'all vertices coincide' }],
+      'invalid_section',
+    );
   }
   const n = q.samples;
-  const distanceKm = new Float64Array(n), lon = new Float64Array(n), lat = new Float64Array(n), heat = new Float64Array(n);
+  const distanceKm = new Float64Array(n),
+    lon = new Float64Array(n),
+    lat = new Float64Array(n),
+    heat = new Float64Array(n);
   let seg = 0;
   for (let j = 0; j < n; j++) {
     const d = n === 1 ? 0 : (totalKm * j) / (n - 1);
@@ -130,7 +137,13 @@ function crossingsAlong(line: [number, number][], cum: number[], features: LineF
           const c = segmentCrossing(line[i - 1], line[i], fl[a - 1], fl[a]);
           if (c === null) continue;
           const along = WGS84.Inverse(line[i - 1][1], line[i - 1][0], c.lat, c.lon).s12 as number;
-          out.push({ id: f.id ?? (f.properties.id as string | undefined) ?? null, distanceKm: r3(cum[i - 1] + along / 1000), lon: c.lon, lat: c.lat, properties: f.properties });
+          out.push({
+            id: f.id ?? (f.properties.id as string | undefined) ?? null,
+            distanceKm: r3(cum[i - 1] + along / 1000),
+            lon: c.lon,
+            lat: c.lat,
+            properties: f.properties,
+          });
         }
       }
     }
@@ -153,7 +166,8 @@ interface SectionColumns {
 
 /** Solves each sample's column on the depth axis: temperatures, facies, isotherm depths and melt onset. */
 function solveColumns(q: SectionQuery, s: LineSamples, depthKm: Float64Array): SectionColumns {
-  const n = q.samples, nz = q.depthSamples;
+  const n = q.samples,
+    nz = q.depthSamples;
   // One compiled model (and its lithostatic pressure at each section depth) per zone met along the line.
   const zones = new Map<string, Zone>();
   const zoneOf = (key: string, model: ThermalModelInput) => {
@@ -169,12 +183,16 @@ function solveColumns(q: SectionQuery, s: LineSamples, depthKm: Float64Array): S
   };
   const base = zoneOf('model', q.model);
   const c: SectionColumns = {
-    zones, zoneKey: new Array<string>(n).fill('model'),
+    zones,
+    zoneKey: new Array<string>(n).fill('model'),
     // Row-major, row 0 at the surface: value index = depthRow·samples + column.
-    temperature: new Array<number | null>(n * nz).fill(null), facies: new Int8Array(n * nz).fill(-1),
+    temperature: new Array<number | null>(n * nz).fill(null),
+    facies: new Int8Array(n * nz).fill(-1),
     isoCurves: q.isothermsC.map(() => new Array<number | null>(n).fill(null)),
     // Melt onset per column (km; null: not reached above the maximum depth): no temperature is given below it.
-    meltOnset: new Array<number | null>(n).fill(null), noData: 0, melting: 0,
+    meltOnset: new Array<number | null>(n).fill(null),
+    noData: 0,
+    melting: 0,
   };
   for (let j = 0; j < n; j++) {
     const q0 = s.heat[j];
@@ -204,14 +222,19 @@ function solveColumns(q: SectionQuery, s: LineSamples, depthKm: Float64Array): S
 
 /** Computes the section; see the module comment for the methods. */
 export function computeSection(q: SectionQuery): Record<string, unknown> {
-  const n = q.samples, nz = q.depthSamples;
+  const n = q.samples,
+    nz = q.depthSamples;
   const s = sampleLine(q);
   const depthKm = new Float64Array(nz);
   for (let k = 0; k < nz; k++) depthKm[k] = nz === 1 ? 0 : (q.maxDepthKm * k) / (nz - 1);
   const c = solveColumns(q, s, depthKm);
   const warnings: string[] = [...new Set([...c.zones.values()].flatMap((z) => z.cm.warnings))];
-  if (c.melting > 0) warnings.push(`${c.melting} of ${n} columns along the line reach the melt onset (the fluid-absent or dry solidus of their rock) above ${q.maxDepthKm} km: no temperature is given below it (meltOnsetKm)`);
-  if (c.noData > 0) warnings.push(`${c.noData} of ${n} samples along the line have no heat-flow value (outside the run's grid or no data): their columns are empty`);
+  if (c.melting > 0)
+    warnings.push(
+      `${c.melting} of ${n} columns along the line reach the melt onset (the fluid-absent or dry solidus of their rock) above ${q.maxDepthKm} km: no temperature is given below it (meltOnsetKm)`,
+    );
+  if (c.noData > 0)
+    warnings.push(`${c.noData} of ${n} samples along the line have no heat-flow value (outside the run's grid or no data): their columns are empty`);
   return {
     lengthKm: r3(s.totalKm),
     width: n,

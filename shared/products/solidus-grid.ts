@@ -46,7 +46,8 @@ export function firstSolidusCrossingKm(cm: CompiledModel, st: ColumnState, scan:
   while (jMax >= 0 && zOf(jMax) > valid) jMax--;
   if (jMax < jDefined) return NaN;
   if (!(f(zOf(jMax)) >= 0)) return NaN;
-  let lo = jDefined, hi = jMax; // f(z_hi) ≥ 0; find the smallest such index
+  let lo = jDefined,
+    hi = jMax; // f(z_hi) ≥ 0; find the smallest such index
   while (lo < hi) {
     const mid = (lo + hi) >>> 1;
     if (f(zOf(mid)) >= 0) hi = mid;
@@ -55,7 +56,8 @@ export function firstSolidusCrossingKm(cm: CompiledModel, st: ColumnState, scan:
   const j = lo;
   // Before jDefined the curve is undefined (the engine's previous point is then "none"): the step point itself.
   if (j === jDefined) return zOf(j);
-  let a = zOf(j - 1), b = zOf(j);
+  let a = zOf(j - 1),
+    b = zOf(j);
   while (b - a > 1e-6) {
     const m = 0.5 * (a + b);
     if (f(m) >= 0) b = m;

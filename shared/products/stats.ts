@@ -17,7 +17,9 @@ export interface LayerStats {
 /** Min, median, max and no-data count (NaN and ±∞ count as no data). `scratch` may be passed to avoid an allocation. */
 export function layerStats(values: ArrayLike<number>, scratch?: Float64Array): LayerStats {
   const buf = scratch !== undefined && scratch.length >= values.length ? scratch : new Float64Array(values.length);
-  let n = 0, min = Infinity, max = -Infinity;
+  let n = 0,
+    min = Infinity,
+    max = -Infinity;
   for (let i = 0; i < values.length; i++) {
     const v = values[i];
     if (v === v && v !== Infinity && v !== -Infinity) {

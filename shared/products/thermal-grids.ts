@@ -71,8 +71,8 @@ export function allocateThermalGridBuffers(spec: ThermalGridSpec): ThermalGridBu
     baseHeatFlowMWm2: f(),
     inconsistent: f(),
     status: new Uint8Array(cells),
-    solidusDepthKm: spec.solidus ?? true ? f() : null,
-    meltOnsetKm: spec.solidus ?? true ? f() : null,
+    solidusDepthKm: (spec.solidus ?? true) ? f() : null,
+    meltOnsetKm: (spec.solidus ?? true) ? f() : null,
     facies: facies ? f() : null,
     faciesApproximate: facies ? new Uint8Array(cells) : null,
     faciesTemperatureC: facies ? f() : null,
@@ -97,7 +97,8 @@ export function planThermalGrids(spec: ThermalGridSpec): ThermalGridPlan {
   if (spec.models.length > 1 && spec.zones === undefined) throw new RangeError('several models need a zone grid');
   if (spec.zones !== undefined) {
     if (spec.zones.length !== cells) throw new RangeError(`zone grid has ${spec.zones.length} cells, heat-flow grid ${cells}`);
-    for (let i = 0; i < cells; i++) if (spec.zones[i] >= spec.models.length) throw new RangeError(`cell ${i}: zone ${spec.zones[i]} has no model (${spec.models.length} given)`);
+    for (let i = 0; i < cells; i++)
+      if (spec.zones[i] >= spec.models.length) throw new RangeError(`cell ${i}: zone ${spec.zones[i]} has no model (${spec.models.length} given)`);
   }
   if (!(spec.maxDepthKm > 0)) throw new RangeError(`maxDepthKm must be > 0, got ${spec.maxDepthKm}`);
   const fd = spec.faciesDepthKm;
@@ -111,8 +112,10 @@ export function planThermalGrids(spec: ThermalGridSpec): ThermalGridPlan {
 export function computeThermalGridRows(plan: ThermalGridPlan, r0: number, r1: number, out: ThermalGridBuffers): void {
   const spec = plan.spec;
   const g = spec.heatFlow;
-  if (!(Number.isInteger(r0) && Number.isInteger(r1) && r0 >= 0 && r1 <= g.height && r0 <= r1)) throw new RangeError(`bad row range [${r0}, ${r1}) for ${g.height} rows`);
-  const start = r0 * g.width, end = r1 * g.width;
+  if (!(Number.isInteger(r0) && Number.isInteger(r1) && r0 >= 0 && r1 <= g.height && r0 <= r1))
+    throw new RangeError(`bad row range [${r0}, ${r1}) for ${g.height} rows`);
+  const start = r0 * g.width,
+    end = r1 * g.width;
   const q = g.values;
   const zones = spec.zones;
   const fd = spec.faciesDepthKm;
@@ -131,11 +134,14 @@ export function computeThermalGridRows(plan: ThermalGridPlan, r0: number, r1: nu
     },
     { zones, start, end },
   );
-  const flag = out.inconsistent, status = out.status;
+  const flag = out.inconsistent,
+    status = out.status;
   // The engine's melt-onset bit (8) is left out: the melt-onset grid carries it.
   for (let c = start; c < end; c++) flag[c] = q[c] === q[c] ? status[c] & 7 : NaN;
   if (withFacies) {
-    const t = out.faciesTemperatureC!, fac = out.facies!, apx = out.faciesApproximate!;
+    const t = out.faciesTemperatureC!,
+      fac = out.facies!,
+      apx = out.faciesApproximate!;
     const a = { approximate: false };
     for (let c = start; c < end; c++) {
       const code = faciesCode(t[c], plan.faciesPressureKbar[zones === undefined ? 0 : zones[c]], a);
@@ -158,11 +164,22 @@ export function computeThermalGrids(spec: ThermalGridSpec): ThermalGridBuffers {
  * no-data cells; `meltOnset` counts the cells of the melt-onset grid (when given) whose melt onset lies above the
  * maximum depth, apart from the inconsistent ones.
  */
-export function inconsistencyCounts(flag: Float32Array, meltOnsetKm: Float32Array | null = null): { inconsistent: number; heatFlowExhausted: number; conductivityUndefined: number; nonPositiveHeatFlow: number; meltOnset: number; noData: number } {
-  let inconsistent = 0, ex = 0, ku = 0, np = 0, mo = 0, nd = 0;
+export function inconsistencyCounts(
+  flag: Float32Array,
+  meltOnsetKm: Float32Array | null = null,
+): { inconsistent: number; heatFlowExhausted: number; conductivityUndefined: number; nonPositiveHeatFlow: number; meltOnset: number; noData: number } {
+  let inconsistent = 0,
+    ex = 0,
+    ku = 0,
+    np = 0,
+    mo = 0,
+    nd = 0;
   for (let i = 0; i < flag.length; i++) {
     const v = flag[i];
-    if (v !== v) { nd++; continue; }
+    if (v !== v) {
+      nd++;
+      continue;
+    }
     if (v === 0) continue;
     inconsistent++;
     if (v & 1) ex++;

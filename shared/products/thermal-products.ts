@@ -18,11 +18,27 @@ import type { ThermalModelInput } from '../schema/model.ts';
 import { converter, WGS84_DEF } from '../interp/projection.ts';
 import { compileModel, isUncertainModel, nominalModel, type CompiledModel } from '../thermal/index.ts';
 import { applyLayerOverride, type OverrideRegion } from './overrides.ts';
-import { allocateThermalGridBuffers, computeThermalGridRows, inconsistencyCounts, planThermalGrids, productGrid, type ThermalGridBuffers } from './thermal-grids.ts';
+import {
+  allocateThermalGridBuffers,
+  computeThermalGridRows,
+  inconsistencyCounts,
+  planThermalGrids,
+  productGrid,
+  type ThermalGridBuffers,
+} from './thermal-grids.ts';
 import { allocateUncertaintyOutput, computeUncertaintyRows, prepareUncertainty, uncertaintyResult } from './uncertainty.ts';
 import { faciesLegend } from './facies-grid.ts';
 import { layerStats, type LayerStats } from './stats.ts';
-import { BASE_HEAT_FLOW, INCONSISTENT, MELT_ONSET, SOLIDUS_DEPTH, depthProductName, faciesProductName, percentileProductName, temperatureProductName } from './names.ts';
+import {
+  BASE_HEAT_FLOW,
+  INCONSISTENT,
+  MELT_ONSET,
+  SOLIDUS_DEPTH,
+  depthProductName,
+  faciesProductName,
+  percentileProductName,
+  temperatureProductName,
+} from './names.ts';
 
 export type { OverrideRegion } from './overrides.ts';
 
@@ -107,9 +123,20 @@ export function tileRowsFor(width: number, tileRows?: number, cells = 65536): nu
 
 /** Ramp legend over the finite range of one or more grids (a flat or empty range gets a nominal span). */
 export function sharedRampLegend(ramp: Ramp, units: string, grids: Float32Array[]): Legend {
-  let min = Infinity, max = -Infinity;
-  for (const g of grids) for (let i = 0; i < g.length; i++) { const v = g[i]; if (v === v && v !== Infinity && v !== -Infinity) { if (v < min) min = v; if (v > max) max = v; } }
-  if (!(max >= min)) { min = 0; max = 1; }
+  let min = Infinity,
+    max = -Infinity;
+  for (const g of grids)
+    for (let i = 0; i < g.length; i++) {
+      const v = g[i];
+      if (v === v && v !== Infinity && v !== -Infinity) {
+        if (v < min) min = v;
+        if (v > max) max = v;
+      }
+    }
+  if (!(max >= min)) {
+    min = 0;
+    max = 1;
+  }
   if (max === min) max = min + 1;
   return rampLegend(ramp, units, min, max);
 }
@@ -135,25 +162,47 @@ interface Zoning {
 }
 
 /** The zone models (0 = base, k = base with region k's override), compiled to the search depth, and each cell's zone. */
-function zoneModelsOf(heatFlow: Grid<Float32Array>, baseModel: ThermalModelInput, regions: OverrideRegion[], crsDef: string, o: ProductOptions, warnings: string[]): Zoning {
+function zoneModelsOf(
+  heatFlow: Grid<Float32Array>,
+  baseModel: ThermalModelInput,
+  regions: OverrideRegion[],
+  crsDef: string,
+  o: ProductOptions,
+  warnings: string[],
+): Zoning {
   const zoneModels: ThermalModelInput[] = [baseModel, ...regions.map((r) => applyLayerOverride(baseModel, r.override))];
   const deepest = Math.max(...zoneModels.map((m) => m.layers[m.layers.length - 1].bottomKm));
   const maxDepthKm = Math.max(o.maxDepthKm ?? deepest, ...o.depthsKm, o.faciesDepthKm ?? 0);
-  if (o.maxDepthKm !== undefined && maxDepthKm > o.maxDepthKm) warnings.push(`the search depth was raised from ${o.maxDepthKm} km to ${maxDepthKm} km to reach the depths asked for`);
+  if (o.maxDepthKm !== undefined && maxDepthKm > o.maxDepthKm)
+    warnings.push(`the search depth was raised from ${o.maxDepthKm} km to ${maxDepthKm} km to reach the depths asked for`);
   const compiled: CompiledModel[] = zoneModels.map((m, k) => {
     const cm = compileModel(nominalModel(m), { maxDepthKm });
     const label = k === 0 ? 'model' : regions[k - 1].label;
     for (const w of cm.warnings) warnings.push(`${label}: ${w}`);
     return cm;
   });
-  if (zoneModels.some(isUncertainModel)) warnings.push('the model has parameter distributions: the deterministic grids use each distribution\'s central value (mean, clamped mean, midpoint or mode)');
+  if (zoneModels.some(isUncertainModel))
+    warnings.push(
+      "the model has parameter distributions: the deterministic grids use each distribution's central value (mean, clamped mean, midpoint or mode)",
+    );
   let zones: Uint16Array | undefined;
   if (regions.length > 0) {
-    const fromLonLat = crsDef === WGS84_DEF ? undefined : ((c) => (x: number, y: number) => c.forward([x, y]))(converter(WGS84_DEF, crsDef));
-    zones = rasterizeZones(heatFlow, regions.map((r) => (fromLonLat === undefined ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => fromLonLat(p[0], p[1]))))));
+    const fromLonLat =
+      crsDef === WGS84_DEF
+        ? undefined
+        : (
+            (c) => (x: number, y: number) =>
+              c.forward([x, y])
+          )(converter(WGS84_DEF, crsDef));
+    zones = rasterizeZones(
+      heatFlow,
+      regions.map((r) => (fromLonLat === undefined ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => fromLonLat(p[0], p[1]))))),
+    );
     const counts = new Uint32Array(regions.length + 1);
     for (let i = 0; i < zones.length; i++) counts[zones[i]]++;
-    regions.forEach((r, k) => { if (counts[k + 1] === 0) warnings.push(`${r.label}: the override polygon covers no cell centre of the grid`); });
+    regions.forEach((r, k) => {
+      if (counts[k + 1] === 0) warnings.push(`${r.label}: the override polygon covers no cell centre of the grid`);
+    });
   }
   return { zoneModels, compiled, zones, maxDepthKm };
 }
@@ -182,16 +231,36 @@ function inconsistencyWarnings(counts: ReturnType<typeof inconsistencyCounts>, c
 type Percentiles = ReturnType<typeof uncertaintyResult>;
 
 /** The Monte Carlo percentiles of the isotherm depths in tiles of rows (null without realizations). */
-async function monteCarloPass(heatFlow: Grid<Float32Array>, heatFlowSd: Grid<Float32Array> | null, z: Zoning, o: ProductOptions, tick: ProductTick, warnings: string[]): Promise<{ pct: Percentiles; report: MonteCarloReport } | null> {
+async function monteCarloPass(
+  heatFlow: Grid<Float32Array>,
+  heatFlowSd: Grid<Float32Array> | null,
+  z: Zoning,
+  o: ProductOptions,
+  tick: ProductTick,
+  warnings: string[],
+): Promise<{ pct: Percentiles; report: MonteCarloReport } | null> {
   const N = o.realizations ?? 0;
   if (N <= 0) return null;
-  const W = heatFlow.width, H = heatFlow.height;
+  const W = heatFlow.width,
+    H = heatFlow.height;
   const seed = o.seed ?? 0;
   const corr = o.heatFlowErrorCorrelation ?? 'full';
   const sims = o.heatFlowRealizations;
-  if (sims === undefined && heatFlowSd === null && !z.zoneModels.some(isUncertainModel)) warnings.push('Monte Carlo with neither a heat-flow standard deviation nor model distributions: P10 = P50 = P90');
+  if (sims === undefined && heatFlowSd === null && !z.zoneModels.some(isUncertainModel))
+    warnings.push('Monte Carlo with neither a heat-flow standard deviation nor model distributions: P10 = P50 = P90');
   else if (sims === undefined && heatFlowSd === null) warnings.push('no heat-flow standard deviation grid: the percentiles reflect the model parameters only');
-  const prep = prepareUncertainty({ heatFlow, heatFlowSd, heatFlowRealizations: sims, models: z.zoneModels, zones: z.zones, isothermsC: o.isothermsC, maxDepthKm: z.maxDepthKm, realizations: N, seed, heatFlowErrorCorrelation: corr });
+  const prep = prepareUncertainty({
+    heatFlow,
+    heatFlowSd,
+    heatFlowRealizations: sims,
+    models: z.zoneModels,
+    zones: z.zones,
+    isothermsC: o.isothermsC,
+    maxDepthKm: z.maxDepthKm,
+    realizations: N,
+    seed,
+    heatFlowErrorCorrelation: corr,
+  });
   const mout = allocateUncertaintyOutput(W * H, o.isothermsC.length);
   // Tiles sized so one tile's Monte Carlo is about as long as a thermal tile × 50.
   const mtr = Math.max(1, Math.floor(tileRowsFor(W, o.tileRows) / Math.max(1, Math.ceil(N / 50))));
@@ -201,11 +270,25 @@ async function monteCarloPass(heatFlow: Grid<Float32Array>, heatFlowSd: Grid<Flo
     await tick('montecarlo', r1 / H, `Monte Carlo (${N} realizations): rows ${r1} of ${H}`);
   }
   const pct = uncertaintyResult(prep, mout);
-  if (pct.rejectedDraws > 0) warnings.push(`${pct.rejectedDraws} model draw(s) were physically impossible (e.g. a conductivity ≤ 0) and left out of the percentiles`);
-  const heatFlowText = sims !== undefined
-    ? (o.heatFlowSource ?? 'heat-flow realizations given')
-    : heatFlowSd !== null ? `kriged value + kriging sd × a standard normal (${corr === 'full' ? 'one per realization for all cells' : 'one per cell'})` : 'the interpolated heat flow (no spread)';
-  return { pct, report: { realizations: N, seed, heatFlowErrorCorrelation: sims === undefined ? corr : null, heatFlow: heatFlowText, rejectedDraws: pct.rejectedDraws, withHeatFlowSd: heatFlowSd !== null } };
+  if (pct.rejectedDraws > 0)
+    warnings.push(`${pct.rejectedDraws} model draw(s) were physically impossible (e.g. a conductivity ≤ 0) and left out of the percentiles`);
+  const heatFlowText =
+    sims !== undefined
+      ? (o.heatFlowSource ?? 'heat-flow realizations given')
+      : heatFlowSd !== null
+        ? `kriged value + kriging sd × a standard normal (${corr === 'full' ? 'one per realization for all cells' : 'one per cell'})`
+        : 'the interpolated heat flow (no spread)';
+  return {
+    pct,
+    report: {
+      realizations: N,
+      seed,
+      heatFlowErrorCorrelation: sims === undefined ? corr : null,
+      heatFlow: heatFlowText,
+      rejectedDraws: pct.rejectedDraws,
+      withHeatFlowSd: heatFlowSd !== null,
+    },
+  };
 }
 
 interface LayerContext {
@@ -220,7 +303,11 @@ interface LayerContext {
 }
 
 /** Depth-to-isotherm layers with their contours, and their P10/P50/P90 on the same legend. */
-async function isothermLayers(c: LayerContext, mc: { pct: Percentiles; report: MonteCarloReport } | null, step: (message: string) => Promise<void>): Promise<void> {
+async function isothermLayers(
+  c: LayerContext,
+  mc: { pct: Percentiles; report: MonteCarloReport } | null,
+  step: (message: string) => Promise<void>,
+): Promise<void> {
   const { o, method, maxDepthKm } = c;
   for (let k = 0; k < o.isothermsC.length; k++) {
     const T = o.isothermsC[k];
@@ -229,12 +316,26 @@ async function isothermLayers(c: LayerContext, mc: { pct: Percentiles; report: M
     const legend = sharedRampLegend(DEPTH, 'km', pk ? [g.values, pk.p10, pk.p50, pk.p90] : [g.values]);
     const interval = o.contourIntervalKm === undefined ? 1 : o.contourIntervalKm;
     const contours = interval === null ? undefined : contourGrid(g, { interval, units: 'km', toLonLat: c.toLonLat });
-    c.add({ name: depthProductName(T), title: `Depth to the ${fmt(T)} °C isotherm`, units: 'km', grid: g, legend, ramp: DEPTH, method: `depth to the ${fmt(T)} °C isotherm (km below the surface; NoData where not reached above ${maxDepthKm} km), ${method}`, contours });
+    c.add({
+      name: depthProductName(T),
+      title: `Depth to the ${fmt(T)} °C isotherm`,
+      units: 'km',
+      grid: g,
+      legend,
+      ramp: DEPTH,
+      method: `depth to the ${fmt(T)} °C isotherm (km below the surface; NoData where not reached above ${maxDepthKm} km), ${method}`,
+      contours,
+    });
     if (pk && mc) {
       const r = mc.report;
       for (const p of ['p10', 'p50', 'p90'] as const) {
         c.add({
-          name: percentileProductName(T, p), title: `Depth to the ${fmt(T)} °C isotherm, ${p.toUpperCase()}`, units: 'km', grid: productGrid(c.heatFlow, pk[p], 'km'), legend, ramp: DEPTH,
+          name: percentileProductName(T, p),
+          title: `Depth to the ${fmt(T)} °C isotherm, ${p.toUpperCase()}`,
+          units: 'km',
+          grid: productGrid(c.heatFlow, pk[p], 'km'),
+          legend,
+          ramp: DEPTH,
           method: `${p.toUpperCase()} (Hyndman & Fan type 7) of the depth to the ${fmt(T)} °C isotherm over ${r.realizations} Monte Carlo realizations (seed ${r.seed}; ${r.heatFlow}); not reached counts as deeper than any depth, NoData where the percentile falls there; ${method}`,
         });
       }
@@ -251,9 +352,19 @@ async function temperatureLayers(c: LayerContext, step: (message: string) => Pro
     const g = productGrid(c.heatFlow, c.out.temperatureC[k], '°C');
     const legend = sharedRampLegend(EMBER, '°C', [g.values]);
     const st = layerStats(g.values);
-    const interval = o.contourIntervalC === null ? null : o.contourIntervalC ?? (st.min !== null && st.max !== null ? niceContourInterval(st.min, st.max) : null);
+    const interval =
+      o.contourIntervalC === null ? null : (o.contourIntervalC ?? (st.min !== null && st.max !== null ? niceContourInterval(st.min, st.max) : null));
     const contours = interval === null ? undefined : contourGrid(g, { interval, units: '°C', toLonLat: c.toLonLat });
-    c.add({ name: temperatureProductName(d), title: `Temperature at ${fmt(d)} km`, units: '°C', grid: g, legend, ramp: EMBER, method: `temperature at ${fmt(d)} km below the surface, ${method}`, contours });
+    c.add({
+      name: temperatureProductName(d),
+      title: `Temperature at ${fmt(d)} km`,
+      units: '°C',
+      grid: g,
+      legend,
+      ramp: EMBER,
+      method: `temperature at ${fmt(d)} km below the surface, ${method}`,
+      contours,
+    });
     await step(`contours of ${temperatureProductName(d)}`);
   }
 }
@@ -265,17 +376,60 @@ function limitLayers(c: LayerContext, warnings: string[]): void {
   if (o.faciesDepthKm !== null && out.facies !== null && out.faciesApproximate !== null) {
     let approx = 0;
     for (let i = 0; i < out.faciesApproximate.length; i++) approx += out.faciesApproximate[i];
-    if (approx > 0) warnings.push(`${approx} cell(s) of the facies grid lie within one boundary width (about ±50 °C, ±1.5 kbar) of another facies: facies boundaries are gradational`);
-    c.add({ name: faciesProductName(o.faciesDepthKm), title: `Metamorphic facies at ${fmt(o.faciesDepthKm)} km (approximate fields)`, units: 'class', grid: grid(out.facies, 'class'), legend: faciesLegend(), ramp: null, method: `facies field (the project's simplified P–T diagram, gradational boundaries) of the temperature at ${fmt(o.faciesDepthKm)} km and the lithostatic pressure there, ${method}` });
+    if (approx > 0)
+      warnings.push(
+        `${approx} cell(s) of the facies grid lie within one boundary width (about ±50 °C, ±1.5 kbar) of another facies: facies boundaries are gradational`,
+      );
+    c.add({
+      name: faciesProductName(o.faciesDepthKm),
+      title: `Metamorphic facies at ${fmt(o.faciesDepthKm)} km (approximate fields)`,
+      units: 'class',
+      grid: grid(out.facies, 'class'),
+      legend: faciesLegend(),
+      ramp: null,
+      method: `facies field (the project's simplified P–T diagram, gradational boundaries) of the temperature at ${fmt(o.faciesDepthKm)} km and the lithostatic pressure there, ${method}`,
+    });
   }
-  c.add({ name: BASE_HEAT_FLOW, title: 'Heat flow at the base of the model', units: 'mW/m²', grid: grid(out.baseHeatFlowMWm2, 'mW/m²'), legend: sharedRampLegend(EMBER, 'mW/m²', [out.baseHeatFlowMWm2]), ramp: EMBER, method: `heat flow at ${maxDepthKm} km: surface heat flow − ∫A dz over the model (negative where the model is inconsistent), ${method}` });
+  c.add({
+    name: BASE_HEAT_FLOW,
+    title: 'Heat flow at the base of the model',
+    units: 'mW/m²',
+    grid: grid(out.baseHeatFlowMWm2, 'mW/m²'),
+    legend: sharedRampLegend(EMBER, 'mW/m²', [out.baseHeatFlowMWm2]),
+    ramp: EMBER,
+    method: `heat flow at ${maxDepthKm} km: surface heat flow − ∫A dz over the model (negative where the model is inconsistent), ${method}`,
+  });
   if (out.solidusDepthKm !== null) {
-    c.add({ name: SOLIDUS_DEPTH, title: 'Depth where the water-saturated solidus is reached', units: 'km', grid: grid(out.solidusDepthKm, 'km'), legend: sharedRampLegend(DEPTH, 'km', [out.solidusDepthKm]), ramp: DEPTH, method: `shallowest depth where the geotherm reaches the water-saturated solidus of the layer's rock (granite, Huang & Wyllie 1973, in sediment and felsic crust; basalt in mafic crust; peridotite in mantle) at lithostatic pressure: melting there if free water is present; NoData where not reached above ${maxDepthKm} km; ${method}` });
+    c.add({
+      name: SOLIDUS_DEPTH,
+      title: 'Depth where the water-saturated solidus is reached',
+      units: 'km',
+      grid: grid(out.solidusDepthKm, 'km'),
+      legend: sharedRampLegend(DEPTH, 'km', [out.solidusDepthKm]),
+      ramp: DEPTH,
+      method: `shallowest depth where the geotherm reaches the water-saturated solidus of the layer's rock (granite, Huang & Wyllie 1973, in sediment and felsic crust; basalt in mafic crust; peridotite in mantle) at lithostatic pressure: melting there if free water is present; NoData where not reached above ${maxDepthKm} km; ${method}`,
+    });
   }
   if (out.meltOnsetKm !== null) {
-    c.add({ name: MELT_ONSET, title: 'Melt onset (no temperatures below)', units: 'km', grid: grid(out.meltOnsetKm, 'km'), legend: sharedRampLegend(DEPTH, 'km', [out.meltOnsetKm]), ramp: DEPTH, method: `shallowest depth where the geotherm (the mantle adiabat below the lithosphere base) reaches the fluid-absent or dry solidus of the layer's rock (biotite dehydration melting, Le Breton & Thompson 1988, in sediment and felsic crust; dry basalt in mafic crust; dry peridotite, Hirschmann 2000, in mantle); the conductive column is not valid below it and the deeper grids have NoData there; NoData where not reached above ${maxDepthKm} km; ${method}` });
+    c.add({
+      name: MELT_ONSET,
+      title: 'Melt onset (no temperatures below)',
+      units: 'km',
+      grid: grid(out.meltOnsetKm, 'km'),
+      legend: sharedRampLegend(DEPTH, 'km', [out.meltOnsetKm]),
+      ramp: DEPTH,
+      method: `shallowest depth where the geotherm (the mantle adiabat below the lithosphere base) reaches the fluid-absent or dry solidus of the layer's rock (biotite dehydration melting, Le Breton & Thompson 1988, in sediment and felsic crust; dry basalt in mafic crust; dry peridotite, Hirschmann 2000, in mantle); the conductive column is not valid below it and the deeper grids have NoData there; NoData where not reached above ${maxDepthKm} km; ${method}`,
+    });
   }
-  c.add({ name: INCONSISTENT, title: 'Cells where the model is inconsistent with the heat flow', units: 'flag', grid: grid(out.inconsistent, 'flag'), legend: INCONSISTENT_LEGEND, ramp: null, method: `flag: 0 consistent, 1 heat flow reaches 0 inside the model, 2 k(T) undefined, 4 heat flow ≤ 0 (melt onset is not a contradiction: see the ${MELT_ONSET} grid); ${method}` });
+  c.add({
+    name: INCONSISTENT,
+    title: 'Cells where the model is inconsistent with the heat flow',
+    units: 'flag',
+    grid: grid(out.inconsistent, 'flag'),
+    legend: INCONSISTENT_LEGEND,
+    ramp: null,
+    method: `flag: 0 consistent, 1 heat flow reaches 0 inside the model, 2 k(T) undefined, 4 heat flow ≤ 0 (melt onset is not a contradiction: see the ${MELT_ONSET} grid); ${method}`,
+  });
 }
 
 /**
@@ -293,10 +447,19 @@ export async function computeThermalProducts(
 ): Promise<ThermalProductsResult> {
   const warnings: string[] = [];
   const timingsMs: Record<string, number> = {};
-  const W = heatFlow.width, H = heatFlow.height;
+  const W = heatFlow.width,
+    H = heatFlow.height;
   const t0 = now();
   const z = zoneModelsOf(heatFlow, baseModel, regions, crsDef, o, warnings);
-  const spec = { heatFlow, models: z.compiled, zones: z.zones, isothermsC: o.isothermsC, depthsKm: o.depthsKm, faciesDepthKm: o.faciesDepthKm, maxDepthKm: z.maxDepthKm };
+  const spec = {
+    heatFlow,
+    models: z.compiled,
+    zones: z.zones,
+    isothermsC: o.isothermsC,
+    depthsKm: o.depthsKm,
+    faciesDepthKm: o.faciesDepthKm,
+    maxDepthKm: z.maxDepthKm,
+  };
   const plan = planThermalGrids(spec);
   const out = allocateThermalGridBuffers(spec);
   const tr = tileRowsFor(W, o.tileRows);
@@ -319,7 +482,15 @@ export async function computeThermalProducts(
   const t3 = now();
   const layers: ProductLayer[] = [];
   const method = `steady 1-D conduction, layered, k(T) = k0/(1 + bT) by the Kirchhoff transform, constant or exponential heat production (Turcotte & Schubert 2002 §4-6, §4-8; Chapman 1986)${regions.length > 0 ? `; ${regions.length} regional model override(s)` : ''}`;
-  const c: LayerContext = { heatFlow, out, o, maxDepthKm: z.maxDepthKm, method, toLonLat: gridToLonLat(crsDef), add: (l) => layers.push({ ...l, stats: layerStats(l.grid.values) }) };
+  const c: LayerContext = {
+    heatFlow,
+    out,
+    o,
+    maxDepthKm: z.maxDepthKm,
+    method,
+    toLonLat: gridToLonLat(crsDef),
+    add: (l) => layers.push({ ...l, stats: layerStats(l.grid.values) }),
+  };
   const contourJobs = Math.max(1, o.isothermsC.length + o.depthsKm.length);
   let contoursDone = 0;
   const step = (message: string) => Promise.resolve(tick('contours', ++contoursDone / contourJobs, message));

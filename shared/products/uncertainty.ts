@@ -45,8 +45,11 @@ export interface UncertaintyGrids {
 export function prepareUncertainty(spec: UncertaintySpec): PreparedGridMonteCarlo {
   const g = spec.heatFlow;
   const sd = spec.heatFlowSd ?? null;
-  if (sd !== null && (sd.width !== g.width || sd.height !== g.height || sd.west !== g.west || sd.north !== g.north || sd.dx !== g.dx || sd.dy !== g.dy || sd.crs !== g.crs)) {
-    throw new RangeError('the heat-flow standard deviation grid must have the heat-flow grid\'s size and georeferencing');
+  if (
+    sd !== null &&
+    (sd.width !== g.width || sd.height !== g.height || sd.west !== g.west || sd.north !== g.north || sd.dx !== g.dx || sd.dy !== g.dy || sd.crs !== g.crs)
+  ) {
+    throw new RangeError("the heat-flow standard deviation grid must have the heat-flow grid's size and georeferencing");
   }
   if (spec.models.length > 1 && spec.zones === undefined) throw new RangeError('several models need a zone grid');
   return prepareGridMonteCarlo({

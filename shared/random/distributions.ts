@@ -128,7 +128,8 @@ export function distributionMean(d: Distribution): number {
       return (d.min + d.mode + d.max) / 3;
     case 'truncnormal': {
       if (d.sd === 0) return Math.min(d.max, Math.max(d.min, d.mean));
-      const a = (d.min - d.mean) / d.sd, b = (d.max - d.mean) / d.sd;
+      const a = (d.min - d.mean) / d.sd,
+        b = (d.max - d.mean) / d.sd;
       const pdf = (x: number) => 0.3989422804014327 * Math.exp(-0.5 * x * x);
       return d.mean + (d.sd * (pdf(a) - pdf(b))) / (normalCdf(b) - normalCdf(a));
     }

@@ -25,7 +25,8 @@ export function normalCdf(x: number): number {
   if (x >= 5) return 1 - upperTailCf(x);
   if (x <= -5) return upperTailCf(-x);
   // Marsaglia (2004): Φ(x) = 1/2 + φ(x)·(x + x³/3 + x⁵/(3·5) + …).
-  let s = x, t = x;
+  let s = x,
+    t = x;
   const x2 = x * x;
   for (let i = 3; i < 200; i += 2) {
     t *= x2 / i;

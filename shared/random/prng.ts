@@ -71,7 +71,10 @@ export class RandomStream {
 
   /** Next 32-bit unsigned integer (xoshiro128**). */
   nextUint32(): number {
-    const s0 = this.s0, s1 = this.s1, s2 = this.s2, s3 = this.s3;
+    const s0 = this.s0,
+      s1 = this.s1,
+      s2 = this.s2,
+      s3 = this.s3;
     const m = Math.imul(s1, 5);
     const r = Math.imul((m << 7) | (m >>> 25), 9) >>> 0;
     const t = s1 << 9;

@@ -59,10 +59,22 @@ export interface HeatInPlaceResult {
 
 export interface HeatInPlaceReport extends AreaTotals {
   area: 'polygon' | 'grid';
-  totals: { grid: AreaTotals; polygon: (AreaTotals & { polygonAreaKm2: number; label: string | null }) | null; zones: (AreaTotals & { zone: string })[] | null };
+  totals: {
+    grid: AreaTotals;
+    polygon: (AreaTotals & { polygonAreaKm2: number; label: string | null }) | null;
+    zones: (AreaTotals & { zone: string })[] | null;
+  };
   method: Record<string, unknown>;
   inputs: Record<string, unknown>;
-  monteCarlo: { realizations: number; accepted: number; rejected: number; firstRejection: string | null; seed: number; heatFlowErrorCorrelation: string | null; heatFlow: string } | null;
+  monteCarlo: {
+    realizations: number;
+    accepted: number;
+    rejected: number;
+    firstRejection: string | null;
+    seed: number;
+    heatFlowErrorCorrelation: string | null;
+    heatFlow: string;
+  } | null;
   densityRange: { heatPJkm2: { min: number | null; max: number | null }; electricMWekm2: { min: number | null; max: number | null } };
   warnings: string[];
   caution: string;
@@ -70,18 +82,27 @@ export interface HeatInPlaceReport extends AreaTotals {
 }
 
 export const PERCENTILE_CONVENTION =
-  'p10, p50 and p90 are the 10th, 50th and 90th percentiles of the Monte Carlo realizations (Hyndman & Fan 1996 type 7, linear interpolation), so p10 ≤ p50 ≤ p90; a total\'s percentiles are those of its per-realization sums, never sums of cell percentiles';
+  "p10, p50 and p90 are the 10th, 50th and 90th percentiles of the Monte Carlo realizations (Hyndman & Fan 1996 type 7, linear interpolation), so p10 ≤ p50 ≤ p90; a total's percentiles are those of its per-realization sums, never sums of cell percentiles";
 export const EXCEEDANCE_READING =
   'Exceedance reading: the low case p10 is exceeded in 90 % of realizations, which resource reporting often calls "P90"; the high case p90 is exceeded in 10 % (often called "P10")';
 export const NO_REALIZATIONS_NOTE = 'without realizations the percentiles and mean are null and "nominal" holds the deterministic value';
 
 function sameLayout(a: AnyGrid, b: AnyGrid): boolean {
   const close = (x: number, y: number, s: number) => Math.abs(x - y) <= 1e-9 * Math.max(1, Math.abs(s));
-  return a.width === b.width && a.height === b.height && a.crs === b.crs && close(a.west, b.west, a.dx) && close(a.north, b.north, a.dy) && close(a.dx, b.dx, a.dx) && close(a.dy, b.dy, a.dy);
+  return (
+    a.width === b.width &&
+    a.height === b.height &&
+    a.crs === b.crs &&
+    close(a.west, b.west, a.dx) &&
+    close(a.north, b.north, a.dy) &&
+    close(a.dx, b.dx, a.dx) &&
+    close(a.dy, b.dy, a.dy)
+  );
 }
 
 function minMax(v: Float32Array): { min: number | null; max: number | null } {
-  let lo = Infinity, hi = -Infinity;
+  let lo = Infinity,
+    hi = -Infinity;
   for (let i = 0; i < v.length; i++) {
     const x = v[i];
     if (x === x) {
@@ -100,12 +121,21 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
   const lonLat = isLonLatCrs(g.crs);
   const warnings: string[] = [];
   if (input.heatFlowSd !== undefined && !sameLayout(g, input.heatFlowSd)) {
-    throw new InputError('the heat-flow standard-deviation grid does not match the heat-flow grid', [{ field: 'heatFlowSd', problem: `expected ${g.width} × ${g.height} cells at the same origin, cell size and CRS (${g.crs})` }], 'grid_mismatch');
+    throw new InputError(
+      'the heat-flow standard-deviation grid does not match the heat-flow grid',
+      [{ field: 'heatFlowSd', problem: `expected ${g.width} × ${g.height} cells at the same origin, cell size and CRS (${g.crs})` }],
+      'grid_mismatch',
+    );
   }
   if (!lonLat && (input.polygon !== undefined || input.zones?.source === 'polygons') && input.centresLonLat === undefined) {
     throw new RangeError('a projected grid needs centresLonLat for polygon membership');
   }
-  if (input.zones !== undefined && input.zones.labels.length !== cells) throw new InputError('the zone layer does not match the heat-flow grid', [{ field: 'zones', problem: `expected ${cells} cells, got ${input.zones.labels.length}` }], 'grid_mismatch');
+  if (input.zones !== undefined && input.zones.labels.length !== cells)
+    throw new InputError(
+      'the zone layer does not match the heat-flow grid',
+      [{ field: 'zones', problem: `expected ${cells} cells, got ${input.zones.labels.length}` }],
+      'grid_mismatch',
+    );
   let dataCells = 0;
   for (let c = 0; c < cells; c++) if (g.values[c] === g.values[c]) dataCells++;
   if (dataCells === 0) throw new InputError('the heat-flow grid has no data', [{ field: 'heatFlow', problem: 'every cell is NoData' }], 'no_data');
@@ -115,25 +145,43 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
   if (input.polygon !== undefined) {
     const polys = polygonsOf(input.polygon);
     polygonMask = lonLat ? lonLatGridPolygonMask(g, polys) : pointsPolygonMask(input.centresLonLat!.lon, input.centresLonLat!.lat, polys);
-    let members = 0, withData = 0;
-    for (let c = 0; c < cells; c++) if (polygonMask[c] === 1) {
-      members++;
-      if (g.values[c] === g.values[c]) withData++;
-    }
-    if (members === 0) throw new InputError('the polygon does not overlap the grid: no cell centre lies inside it', [{ field: 'polygon', problem: 'draw or upload a polygon over the heat-flow grid (a cell counts when its centre is inside)' }], 'polygon_off_grid');
-    if (withData === 0) throw new InputError('the polygon covers only NoData cells of the heat-flow grid', [{ field: 'polygon', problem: `${members} cells inside, none with heat-flow data` }], 'polygon_no_data');
+    let members = 0,
+      withData = 0;
+    for (let c = 0; c < cells; c++)
+      if (polygonMask[c] === 1) {
+        members++;
+        if (g.values[c] === g.values[c]) withData++;
+      }
+    if (members === 0)
+      throw new InputError(
+        'the polygon does not overlap the grid: no cell centre lies inside it',
+        [{ field: 'polygon', problem: 'draw or upload a polygon over the heat-flow grid (a cell counts when its centre is inside)' }],
+        'polygon_off_grid',
+      );
+    if (withData === 0)
+      throw new InputError(
+        'the polygon covers only NoData cells of the heat-flow grid',
+        [{ field: 'polygon', problem: `${members} cells inside, none with heat-flow data` }],
+        'polygon_no_data',
+      );
     polygonAreaKm2 = geodesicPolygonAreaM2(input.polygon) / 1e6;
   }
   const areas = gridRowAreasM2(g, input.metresPerUnit ?? 1);
   // Projected grids: each cell's ground area on the ellipsoid from the inverse projection (any CRS).
   const cellAreaM2 = !lonLat && input.toLonLat !== undefined ? projectedCellAreasM2(g, input.toLonLat) : undefined;
   if (areas.method === 'planar' && cellAreaM2 === undefined) {
-    warnings.push(`cell areas are dx·dy in the plane of ${g.crs}, not ground areas: the projection's areal scale factor is not corrected (it is far from 1 in some projections, e.g. 1/cos²φ in Web Mercator)`);
+    warnings.push(
+      `cell areas are dx·dy in the plane of ${g.crs}, not ground areas: the projection's areal scale factor is not corrected (it is far from 1 in some projections, e.g. 1/cos²φ in Web Mercator)`,
+    );
   }
 
   const sims = input.heatFlowRealizations;
   if (sims !== undefined && sims.values.length !== o.realizations * cells) {
-    throw new InputError(`the heat-flow realizations hold ${sims.values.length} values, not ${o.realizations} realizations × ${cells} cells`, [{ field: 'realizations', problem: `expected ${o.realizations * cells} values` }], 'grid_mismatch');
+    throw new InputError(
+      `the heat-flow realizations hold ${sims.values.length} values, not ${o.realizations} realizations × ${cells} cells`,
+      [{ field: 'realizations', problem: `expected ${o.realizations * cells} values` }],
+      'grid_mismatch',
+    );
   }
   const spec: ResourceSpec = {
     models: [input.model],
@@ -172,19 +220,30 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
 
   const truncated = out.blockTruncated.reduce((a, b) => a + b, 0);
   const sdMissing = out.blockSdMissing.reduce((a, b) => a + b, 0);
-  if (truncated > 0) warnings.push(`${truncated} cells have a nominal geotherm that is not valid throughout the window (surface heat flow exhausted by the heat production above): only their valid part is counted`);
+  if (truncated > 0)
+    warnings.push(
+      `${truncated} cells have a nominal geotherm that is not valid throughout the window (surface heat flow exhausted by the heat production above): only their valid part is counted`,
+    );
   if (sdMissing > 0) warnings.push(`${sdMissing} cells have heat flow but no standard deviation: their heat flow is taken as exact`);
   const N = o.realizations;
   if (N > 0) {
-    const anyUncertain = isUncertainModel(input.model) || input.heatFlowSd !== undefined || sims !== undefined || [o.rhoCMJm3K, o.recoveryFactor, o.utilizationEfficiency, o.conversionEfficiency].some((v) => v !== undefined && typeof v !== 'number');
+    const anyUncertain =
+      isUncertainModel(input.model) ||
+      input.heatFlowSd !== undefined ||
+      sims !== undefined ||
+      [o.rhoCMJm3K, o.recoveryFactor, o.utilizationEfficiency, o.conversionEfficiency].some((v) => v !== undefined && typeof v !== 'number');
     if (!anyUncertain) warnings.push('nothing is uncertain (no distributions, no heat-flow standard deviation): every realization is the same');
-    if (prep.rejected > 0) warnings.push(`${prep.rejected} of ${N} realizations had physically impossible draws and were left out (first: ${prep.firstRejection})`);
-    if (input.heatFlowSd === undefined && sims === undefined) warnings.push('no heat-flow standard deviation given: the ranges reflect the model and parameter distributions only');
+    if (prep.rejected > 0)
+      warnings.push(`${prep.rejected} of ${N} realizations had physically impossible draws and were left out (first: ${prep.firstRejection})`);
+    if (input.heatFlowSd === undefined && sims === undefined)
+      warnings.push('no heat-flow standard deviation given: the ranges reflect the model and parameter distributions only');
   }
-  if (input.zones !== undefined && input.zones.overlapCells > 0) warnings.push(`${input.zones.overlapCells} cells lie in more than one region polygon; each is counted in the first`);
+  if (input.zones !== undefined && input.zones.overlapCells > 0)
+    warnings.push(`${input.zones.overlapCells} cells lie in more than one region polygon; each is counted in the first`);
   warnings.push(...prep.nominal.models[0].warnings.filter((w) => !/no densityKgM3/.test(w)));
 
-  const setPolygon = prep.polygonSet, setZone0 = prep.zoneSet0;
+  const setPolygon = prep.polygonSet,
+    setZone0 = prep.zoneSet0;
   const polygonTotals = setPolygon > 0 ? { ...totals[setPolygon], polygonAreaKm2, label: input.polygonLabel ?? null } : null;
   const zoneTotals = input.zones !== undefined ? input.zones.names.map((zone, k) => ({ zone, ...totals[setZone0 + k] })) : null;
   const primary = polygonTotals ?? totals[0];
@@ -196,10 +255,11 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
       { id: ROUTES.thermal.id, field: 'thermalMWt', label: ROUTES.thermal.label },
       { id: ROUTES.conversion.id, field: 'electricMWeConversion', label: ROUTES.conversion.label, computed: o.conversionEfficiency !== undefined },
     ],
-    heatInPlace: 'volumetric method (Muffler & Cataldi 1978; Williams, Reed & Mariner 2008, USGS OFR 2008-1296): heat in place = ρC · ∫ (T(z) − Tref) dz · cell area, over the rock at or above Tmin between topKm and bottomKm, along each cell\'s steady-state conductive geotherm',
+    heatInPlace:
+      "volumetric method (Muffler & Cataldi 1978; Williams, Reed & Mariner 2008, USGS OFR 2008-1296): heat in place = ρC · ∫ (T(z) − Tref) dz · cell area, over the rock at or above Tmin between topKm and bottomKm, along each cell's steady-state conductive geotherm",
     recoverable: 'recoverable (wellhead) heat = recovery factor Rg × heat in place',
-    reservoirTemperature: 'each column\'s ρC-weighted mean temperature of the rock at or above Tmin (reported as TR); T0 = Tref',
-    availableWork: 'available work integrated over each column\'s temperature profile, ρC·∫[(T − T0) − T0·ln(T/T0)] dz (kelvin), not from its mean temperature',
+    reservoirTemperature: "each column's ρC-weighted mean temperature of the rock at or above Tmin (reported as TR); T0 = Tref",
+    availableWork: "available work integrated over each column's temperature profile, ρC·∫[(T − T0) − T0·ln(T/T0)] dz (kelvin), not from its mean temperature",
     quadrature: `Gauss–Legendre, ${DEFAULT_GL_ORDER} points on each piece between the Tmin isotherm and the layer boundaries (the only kinks of the geotherm); Monte Carlo cells by cubic interpolation in one heat-flow table per realization, split at the heat flows where the integrand's domain changes`,
     cellMembership: 'a cell belongs to the polygon (or a region) when its centre is inside; boundary cells count wholly or not at all',
     cellArea:
@@ -211,7 +271,8 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
     percentiles: PERCENTILE_CONVENTION,
     exceedance: EXCEEDANCE_READING,
     noRealizations: NO_REALIZATIONS_NOTE,
-    nominal: 'nominal = the deterministic run: the model with each distribution at its central value (normal/truncated-normal mean, uniform midpoint, triangular mode), the kriged heat flow, and the central value of each parameter; it need not equal p50',
+    nominal:
+      'nominal = the deterministic run: the model with each distribution at its central value (normal/truncated-normal mean, uniform midpoint, triangular mode), the kriged heat flow, and the central value of each parameter; it need not equal p50',
     densityUnits: 'per-cell densities: heat in place PJ/km², electric power (exergy route) MWe/km²',
   };
   const report: HeatInPlaceReport = {
@@ -237,17 +298,35 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
       polygon: input.polygon !== undefined ? (input.polygonLabel ?? 'given') : null,
       zones: input.zones?.source ?? null,
     },
-    monteCarlo: N > 0 ? { realizations: N, accepted: N - prep.rejected, rejected: prep.rejected, firstRejection: prep.firstRejection, seed: o.seed,
-      heatFlowErrorCorrelation: sims === undefined && input.heatFlowSd !== undefined ? o.heatFlowErrorCorrelation : null,
-      heatFlow: sims !== undefined ? sims.source : input.heatFlowSd !== undefined ? `kriged value + sd × a standard normal (${o.heatFlowErrorCorrelation === 'independent' ? 'one per cell' : 'one per realization for all cells'}; deprecated: simulate from the points instead)` : 'the heat-flow grid as given (no spread)',
-    } : null,
+    monteCarlo:
+      N > 0
+        ? {
+            realizations: N,
+            accepted: N - prep.rejected,
+            rejected: prep.rejected,
+            firstRejection: prep.firstRejection,
+            seed: o.seed,
+            heatFlowErrorCorrelation: sims === undefined && input.heatFlowSd !== undefined ? o.heatFlowErrorCorrelation : null,
+            heatFlow:
+              sims !== undefined
+                ? sims.source
+                : input.heatFlowSd !== undefined
+                  ? `kriged value + sd × a standard normal (${o.heatFlowErrorCorrelation === 'independent' ? 'one per cell' : 'one per realization for all cells'}; deprecated: simulate from the points instead)`
+                  : 'the heat-flow grid as given (no spread)',
+          }
+        : null,
     densityRange: {
       heatPJkm2: minMax(N > 0 ? out.heatPJkm2!.p50 : out.nominalHeatPJkm2),
       electricMWekm2: minMax(N > 0 ? out.electricMWekm2!.p50 : out.nominalElectricMWekm2),
     },
     warnings,
     caution: CAUTION,
-    provenance: { tool: TOOL_NAME, version: VERSION, method: 'volumetric heat in place, available-work (exergy) electric route', inputs: input.inputHashes ?? {} },
+    provenance: {
+      tool: TOOL_NAME,
+      version: VERSION,
+      method: 'volumetric heat in place, available-work (exergy) electric route',
+      inputs: input.inputHashes ?? {},
+    },
   };
   const { values: _v, units: _u, ...layout } = g;
   return { report, output: out, layout };

@@ -20,7 +20,7 @@
  * is counted and the caller is told.
  */
 import type { CompiledModel } from '../thermal/compile.ts';
-import type { ColumnState} from '../thermal/column.ts';
+import type { ColumnState } from '../thermal/column.ts';
 import { COLUMN_BAD_INPUT, columnIsothermDepth, layerAt, layerTemperature, solveColumn } from '../thermal/column.ts';
 import { gaussLegendre, type GaussLegendreRule } from './gauss-legendre.ts';
 
@@ -109,22 +109,28 @@ export function columnHeatSolved(cm: CompiledModel, st: ColumnState, w: HeatWind
   if (!(zIso === zIso)) return out; // Tmin not reached above zEnd
   const za = zIso > w.topKm ? zIso : w.topKm;
   if (!(zEnd > za)) return out;
-  const tRef = w.refTempC, t0K = tRef + KELVIN_OFFSET;
+  const tRef = w.refTempC,
+    t0K = tRef + KELVIN_OFFSET;
   const { x, w: wt, n } = sc.rule;
   const pieces = sc.pieces;
-  let sum = 0, sumX = 0;
+  let sum = 0,
+    sumX = 0;
   let i = layerAt(cm, za);
   let a = za;
   while (a < zEnd) {
     const layerBottom = i < cm.nLayers - 1 ? cm.bottomKm[i] : Infinity;
     const b = layerBottom < zEnd ? layerBottom : zEnd;
     if (b > a) {
-      const top = cm.topKm[i], tTop = st.tTopC[i], qTop = st.qTopMWm2[i];
+      const top = cm.topKm[i],
+        tTop = st.tTopC[i],
+        qTop = st.qTopMWm2[i];
       const step = (b - a) / pieces;
       for (let p = 0; p < pieces; p++) {
         const lo = a + p * step;
-        const half = 0.5 * step, mid = lo + half;
-        let s = 0, sx = 0;
+        const half = 0.5 * step,
+          mid = lo + half;
+        let s = 0,
+          sx = 0;
         for (let k = 0; k < n; k++) {
           const d = layerTemperature(cm, i, tTop, qTop, mid + half * x[k] - top) - tRef;
           s += wt[k] * d;

@@ -31,7 +31,8 @@ export const ROUTES = {
  * constant-heat-capacity fluid cooling from TR to T0, that is available work. 0 when TR ≤ T0.
  */
 export function availableWorkFraction(reservoirTempC: number, refTempC: number): number {
-  const tr = reservoirTempC + KELVIN_OFFSET, t0 = refTempC + KELVIN_OFFSET;
+  const tr = reservoirTempC + KELVIN_OFFSET,
+    t0 = refTempC + KELVIN_OFFSET;
   if (!(t0 > 0)) throw new RangeError(`reference temperature must be above absolute zero, got ${refTempC} °C`);
   if (!(tr > t0)) return 0;
   const d = tr - t0;

@@ -14,13 +14,15 @@ export interface GaussLegendreRule {
 /** The n-point Gauss–Legendre rule (1 ≤ n ≤ 64). */
 export function gaussLegendre(n: number): GaussLegendreRule {
   if (!(Number.isInteger(n) && n >= 1 && n <= 64)) throw new RangeError(`Gauss–Legendre order must be an integer 1…64, got ${n}`);
-  const x = new Float64Array(n), w = new Float64Array(n);
+  const x = new Float64Array(n),
+    w = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     let z = Math.cos((Math.PI * (i + 0.75)) / (n + 0.5));
     let dp = 0;
     for (let it = 0; it < 100; it++) {
       // Bonnet's recurrence: (k + 1)P_{k+1} = (2k + 1)zP_k − kP_{k−1}.
-      let p0 = 1, p1 = z;
+      let p0 = 1,
+        p1 = z;
       for (let k = 1; k < n; k++) {
         const p2 = ((2 * k + 1) * z * p1 - k * p0) / (k + 1);
         p0 = p1;

@@ -11,9 +11,9 @@
  * interpolation error is O(h⁴) of a smooth function (the tests bound it against direct evaluation).
  */
 import type { CompiledModel } from '../thermal/compile.ts';
-import type { ColumnState} from '../thermal/column.ts';
+import type { ColumnState } from '../thermal/column.ts';
 import { columnHeatFlow, columnTemperature, solveColumn } from '../thermal/column.ts';
-import type { ColumnHeatScratch} from './column-heat.ts';
+import type { ColumnHeatScratch } from './column-heat.ts';
 import { columnHeat, emptyColumnHeat, type HeatWindow } from './column-heat.ts';
 
 export interface HeatTable {
@@ -41,7 +41,7 @@ function heatFlowForTemperature(cm: CompiledModel, t0: number, depthKm: number, 
     solveColumn(cm, q, t0, st);
     const t = columnTemperature(cm, st, depthKm);
     return t === t ? t - tC : -1; // an invalid column at that depth is a cold one
-  }
+  };
   if (f(lo) >= 0 || f(hi) < 0) return NaN;
   for (let it = 0; it < 200; it++) {
     const mid = 0.5 * (lo + hi);
@@ -53,7 +53,16 @@ function heatFlowForTemperature(cm: CompiledModel, t0: number, depthKm: number, 
 }
 
 /** Builds the table of one compiled model (surface temperature t0 °C) over [qLo, qHi] mW/m². */
-export function buildHeatTable(cm: CompiledModel, t0: number, w: HeatWindow, qLo: number, qHi: number, st: ColumnState, sc: ColumnHeatScratch, opts: HeatTableOptions = {}): HeatTable {
+export function buildHeatTable(
+  cm: CompiledModel,
+  t0: number,
+  w: HeatWindow,
+  qLo: number,
+  qHi: number,
+  st: ColumnState,
+  sc: ColumnHeatScratch,
+  opts: HeatTableOptions = {},
+): HeatTable {
   if (!(qLo > 0 && qHi > qLo)) throw new RangeError(`heat-flow table range must satisfy 0 < qLo < qHi, got ${qLo}, ${qHi}`);
   const total = opts.nodes ?? 256;
   if (!(Number.isInteger(total) && total >= 8)) throw new RangeError(`table nodes must be an integer ≥ 8, got ${total}`);
@@ -73,7 +82,9 @@ export function buildHeatTable(cm: CompiledModel, t0: number, w: HeatWindow, qLo
   ends.push(qHi);
   const nSeg = ends.length - 1;
   const span = qHi - qLo;
-  const firstNode = new Int32Array(nSeg), step = new Float64Array(nSeg), intervals = new Int32Array(nSeg);
+  const firstNode = new Int32Array(nSeg),
+    step = new Float64Array(nSeg),
+    intervals = new Int32Array(nSeg);
   let nodes = 0;
   for (let s = 0; s < nSeg; s++) {
     const m = Math.max(3, Math.round((total * (ends[s + 1] - ends[s])) / span));
@@ -108,7 +119,8 @@ export function lookupHeatTable(t: HeatTable, q: number, out: Float64Array): boo
   let s = 0;
   const last = ends.length - 2;
   while (s < last && q >= ends[s + 1]) s++;
-  const m = t.intervals[s], h = t.step[s];
+  const m = t.intervals[s],
+    h = t.step[s];
   const x = (q - ends[s]) / h;
   let j = Math.floor(x);
   if (j > m - 1) j = m - 1;
@@ -117,8 +129,13 @@ export function lookupHeatTable(t: HeatTable, q: number, out: Float64Array): boo
   if (base > m - 3) base = m - 3;
   const u = x - base;
   // Cubic Lagrange weights on nodes base … base + 3 at offset u ∈ [0, 3].
-  const u1 = u - 1, u2 = u - 2, u3 = u - 3;
-  const l0 = (-u1 * u2 * u3) / 6, l1 = (u * u2 * u3) / 2, l2 = (-u * u1 * u3) / 2, l3 = (u * u1 * u2) / 6;
+  const u1 = u - 1,
+    u2 = u - 2,
+    u3 = u - 3;
+  const l0 = (-u1 * u2 * u3) / 6,
+    l1 = (u * u2 * u3) / 2,
+    l2 = (-u * u1 * u3) / 2,
+    l3 = (u * u1 * u2) / 6;
   const v = t.values;
   const k = (t.firstNode[s] + base) * 3;
   for (let c = 0; c < 3; c++) {

@@ -47,7 +47,12 @@ export interface ResourceParameters {
   lifeYears: number;
 }
 
-export const DEFAULT_PARAMETERS: Readonly<ResourceParameters> = Object.freeze({ rhoCMJm3K: 2.7, recoveryFactor: 0.1, utilizationEfficiency: 0.4, lifeYears: 30 });
+export const DEFAULT_PARAMETERS: Readonly<ResourceParameters> = Object.freeze({
+  rhoCMJm3K: 2.7,
+  recoveryFactor: 0.1,
+  utilizationEfficiency: 0.4,
+  lifeYears: 30,
+});
 
 export interface ResourceSpec {
   /** One thermal model, or one per model zone (distributions allowed); surfaceHeatFlowMWm2 is ignored. */
@@ -116,7 +121,8 @@ export interface PreparedResource {
   lifeS: number;
 }
 
-const opt = (v: UncertainNumber | undefined, rng: ReturnType<typeof createStream>): number => (v === undefined ? NaN : typeof v === 'number' ? v : drawFrom(rng, v));
+const opt = (v: UncertainNumber | undefined, rng: ReturnType<typeof createStream>): number =>
+  v === undefined ? NaN : typeof v === 'number' ? v : drawFrom(rng, v);
 const nom = (v: UncertainNumber | undefined): number => (v === undefined ? NaN : typeof v === 'number' ? v : nominalValue(v));
 
 /** Why a set of resource parameters is impossible, or null. */
@@ -138,9 +144,11 @@ export function prepareResource(spec: ResourceSpec): PreparedResource {
   if (!(Number.isInteger(N) && N >= 0)) throw new RangeError(`realizations must be an integer ≥ 0, got ${N}`);
   if (spec.models.length === 0) throw new RangeError('at least one model is needed');
   const cells = spec.heatFlowMWm2.length;
-  if (!(Number.isInteger(spec.width) && spec.width > 0 && cells % spec.width === 0)) throw new RangeError(`grid width ${spec.width} does not divide ${cells} cells`);
+  if (!(Number.isInteger(spec.width) && spec.width > 0 && cells % spec.width === 0))
+    throw new RangeError(`grid width ${spec.width} does not divide ${cells} cells`);
   if (spec.rowAreaM2.length !== cells / spec.width) throw new RangeError(`rowAreaM2 needs ${cells / spec.width} rows, got ${spec.rowAreaM2.length}`);
-  for (const b of [spec.heatFlowSdMWm2, spec.polygonMask, spec.zoneLabels, spec.modelZones, spec.cellAreaM2]) if (b !== undefined && b.length !== cells) throw new RangeError(`per-cell arrays need ${cells} values, got ${b.length}`);
+  for (const b of [spec.heatFlowSdMWm2, spec.polygonMask, spec.zoneLabels, spec.modelZones, spec.cellAreaM2])
+    if (b !== undefined && b.length !== cells) throw new RangeError(`per-cell arrays need ${cells} values, got ${b.length}`);
   if (!(spec.parameters.lifeYears > 0)) throw new RangeError(`lifeYears must be > 0, got ${spec.parameters.lifeYears}`);
   const w = spec.window;
   const maxDepthKm = w.bottomKm;
@@ -164,21 +172,30 @@ export function prepareResource(spec: ResourceSpec): PreparedResource {
   if (np !== null) throw new RangeError(`nominal parameters impossible: ${np}`);
 
   // Heat-flow range every realization's table must cover (the whole grid's, so it never depends on the chunk).
-  const q = spec.heatFlowMWm2, sd = spec.heatFlowSdMWm2, sims = spec.heatFlowRealizationsMWm2;
+  const q = spec.heatFlowMWm2,
+    sd = spec.heatFlowSdMWm2,
+    sims = spec.heatFlowRealizationsMWm2;
   if (sims !== undefined && sims.length !== N * cells) throw new RangeError(`heatFlowRealizationsMWm2 needs ${N} × ${cells} values, got ${sims.length}`);
-  let lo = Infinity, hi = -Infinity;
+  let lo = Infinity,
+    hi = -Infinity;
   for (let c = 0; c < cells; c++) {
     const v = q[c];
     if (!(v === v)) continue;
     if (sims !== undefined) {
-      let a = v, b = v;
-      for (let r = 0; r < N; r++) { const x = sims[r * cells + c]; if (x < a) a = x; if (x > b) b = x; }
+      let a = v,
+        b = v;
+      for (let r = 0; r < N; r++) {
+        const x = sims[r * cells + c];
+        if (x < a) a = x;
+        if (x > b) b = x;
+      }
       if (a < lo) lo = a;
       if (b > hi) hi = b;
       continue;
     }
     const s = sd === undefined ? 0 : sd[c] > 0 ? sd[c] : 0;
-    const a = v - TABLE_SD_SPAN * s, b = v + TABLE_SD_SPAN * s;
+    const a = v - TABLE_SD_SPAN * s,
+      b = v + TABLE_SD_SPAN * s;
     if (a < lo) lo = a;
     if (b > hi) hi = b;
   }
@@ -222,7 +239,10 @@ export function prepareResource(spec: ResourceSpec): PreparedResource {
       return real;
     });
     params.heatFlowNormal[r] = rng.normal();
-    const rhoC = opt(P.rhoCMJm3K, rng), rg = opt(P.recoveryFactor, rng), eta = opt(P.utilizationEfficiency, rng), etaC = opt(P.conversionEfficiency, rng);
+    const rhoC = opt(P.rhoCMJm3K, rng),
+      rg = opt(P.recoveryFactor, rng),
+      eta = opt(P.utilizationEfficiency, rng),
+      etaC = opt(P.conversionEfficiency, rng);
     params.rhoCMJm3K[r] = rhoC;
     params.recoveryFactor[r] = rg;
     params.utilizationEfficiency[r] = eta;
@@ -243,7 +263,8 @@ export function prepareResource(spec: ResourceSpec): PreparedResource {
   const polygonSet = spec.polygonMask === undefined ? -1 : 1;
   const zoneSet0 = spec.zoneLabels === undefined ? -1 : 1 + (polygonSet > 0 ? 1 : 0);
   const zoneCount = spec.zoneLabels === undefined ? 0 : (spec.zoneCount ?? 0);
-  if (spec.zoneLabels !== undefined && !(Number.isInteger(zoneCount) && zoneCount >= 1)) throw new RangeError('zoneCount must be a positive integer with zoneLabels');
+  if (spec.zoneLabels !== undefined && !(Number.isInteger(zoneCount) && zoneCount >= 1))
+    throw new RangeError('zoneCount must be a positive integer with zoneLabels');
   return {
     spec,
     cells,
@@ -324,11 +345,20 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
   const spec = prep.spec;
   const cells = prep.cells;
   if (!(start >= 0 && end <= cells && start <= end)) throw new RangeError(`bad cell range [${start}, ${end}) for ${cells} cells`);
-  if (start % SUM_BLOCK !== 0 || (end % SUM_BLOCK !== 0 && end !== cells)) throw new RangeError(`cell ranges must start and end on multiples of ${SUM_BLOCK} (or the last cell), got [${start}, ${end})`);
-  const N = spec.realizations, NR = N + 1, S = prep.sets, K = SUM_QUANTITIES;
-  const q = spec.heatFlowMWm2, sd = spec.heatFlowSdMWm2, zones = spec.modelZones;
-  const mask = spec.polygonMask, labels = spec.zoneLabels;
-  const width = spec.width, rowArea = spec.rowAreaM2, cellArea = spec.cellAreaM2;
+  if (start % SUM_BLOCK !== 0 || (end % SUM_BLOCK !== 0 && end !== cells))
+    throw new RangeError(`cell ranges must start and end on multiples of ${SUM_BLOCK} (or the last cell), got [${start}, ${end})`);
+  const N = spec.realizations,
+    NR = N + 1,
+    S = prep.sets,
+    K = SUM_QUANTITIES;
+  const q = spec.heatFlowMWm2,
+    sd = spec.heatFlowSdMWm2,
+    zones = spec.modelZones;
+  const mask = spec.polygonMask,
+    labels = spec.zoneLabels;
+  const width = spec.width,
+    rowArea = spec.rowAreaM2,
+    cellArea = spec.cellAreaM2;
   const independent = spec.heatFlowErrorCorrelation === 'independent';
   const w = spec.window;
   const sums = out.blockSums;
@@ -340,12 +370,13 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
   const blockArea = new Float64Array(B);
   const acc = new Float64Array(8);
   const pct = new Float64Array(3);
-  const nZones = prep.sets - (zone0Of(prep));
+  const nZones = prep.sets - zone0Of(prep);
   const zoneAcc = new Float64Array(Math.max(1, nZones) * SUM_QUANTITIES);
   const sc = new ColumnHeatScratch();
   const ch = emptyColumnHeat();
   const states = prep.nominal.models.map((m) => new ColumnState(m.nLayers));
-  const polySet = prep.polygonSet, zone0 = prep.zoneSet0;
+  const polySet = prep.polygonSet,
+    zone0 = prep.zoneSet0;
   const nm = prep.nominal;
   const nomHeatF = nm.rhoCMJm3K * 1e-3; // ρC[MJ/m³/K]·G[K·m] = MJ/m² = 1e-3 PJ/km²
   const nomElecF = (nm.utilizationEfficiency * nm.recoveryFactor * nm.rhoCMJm3K * 1e6) / lifeS; // J/m² → MWe/km²
@@ -353,17 +384,26 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
   // Adds (G, X, h) × area of cell c to the sets it belongs to, realization slot r, block blk.
   const add = (blk: number, c: number, r: number, a: number, g: number, x: number, h: number) => {
     const hotA = h > 0 ? a : 0;
-    let k = ((blk * S) * NR + r) * K;
-    sums[k] += g * a; sums[k + 1] += x * a; sums[k + 2] += h * a; sums[k + 3] += hotA;
+    let k = (blk * S * NR + r) * K;
+    sums[k] += g * a;
+    sums[k + 1] += x * a;
+    sums[k + 2] += h * a;
+    sums[k + 3] += hotA;
     if (mask !== undefined && mask[c] === 1) {
       k = ((blk * S + polySet) * NR + r) * K;
-      sums[k] += g * a; sums[k + 1] += x * a; sums[k + 2] += h * a; sums[k + 3] += hotA;
+      sums[k] += g * a;
+      sums[k + 1] += x * a;
+      sums[k + 2] += h * a;
+      sums[k + 3] += hotA;
     }
     if (labels !== undefined) {
       const l = labels[c];
       if (l >= 0) {
         k = ((blk * S + zone0 + l) * NR + r) * K;
-        sums[k] += g * a; sums[k + 1] += x * a; sums[k + 2] += h * a; sums[k + 3] += hotA;
+        sums[k] += g * a;
+        sums[k + 1] += x * a;
+        sums[k + 2] += h * a;
+        sums[k + 3] += hotA;
       }
     }
   };
@@ -373,7 +413,8 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
     const blk = b0 / B;
     // Clear this block's sums (a re-run of a range overwrites, never accumulates twice).
     sums.fill(0, blk * S * NR * K, (blk + 1) * S * NR * K);
-    let truncated = 0, sdMissing = 0;
+    let truncated = 0,
+      sdMissing = 0;
     // Nominal run: direct column integrals.
     for (let c = b0; c < b1; c++) {
       const q0 = q[c];
@@ -412,15 +453,53 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
         // Outside the table (cannot happen with the keyed normals' range; kept exact all the same).
         const cm = prep.compiled[r][zi] as CompiledModel;
         columnHeat(cm, q0, cm.surfaceTemperatureC, w, states[zi], sc, ch);
-        o[0] = ch.heatKm; o[1] = ch.exergyKm; o[2] = ch.thicknessM;
+        o[0] = ch.heatKm;
+        o[1] = ch.exergyKm;
+        o[2] = ch.thicknessM;
       };
-      realizationBlock(tabs as HeatTable[], q, sd, spec.heatFlowRealizationsMWm2, r * cells, independent ? spec.seed : NaN, r, zr, zones, b0, b1, rowOff, heatF, elecF, bufH, bufE, blockArea, mask, labels, acc, zoneAcc, fallback);
-      const gG = acc[0], gX = acc[1], gV = acc[2], gA = acc[3], pG = acc[4], pX = acc[5], pV = acc[6], pA = acc[7];
+      realizationBlock(
+        tabs as HeatTable[],
+        q,
+        sd,
+        spec.heatFlowRealizationsMWm2,
+        r * cells,
+        independent ? spec.seed : NaN,
+        r,
+        zr,
+        zones,
+        b0,
+        b1,
+        rowOff,
+        heatF,
+        elecF,
+        bufH,
+        bufE,
+        blockArea,
+        mask,
+        labels,
+        acc,
+        zoneAcc,
+        fallback,
+      );
+      const gG = acc[0],
+        gX = acc[1],
+        gV = acc[2],
+        gA = acc[3],
+        pG = acc[4],
+        pX = acc[5],
+        pV = acc[6],
+        pA = acc[7];
       let k = (blk * S * NR + r) * K;
-      sums[k] = gG; sums[k + 1] = gX; sums[k + 2] = gV; sums[k + 3] = gA;
+      sums[k] = gG;
+      sums[k + 1] = gX;
+      sums[k + 2] = gV;
+      sums[k + 3] = gA;
       if (mask !== undefined) {
         k = ((blk * S + polySet) * NR + r) * K;
-        sums[k] = pG; sums[k + 1] = pX; sums[k + 2] = pV; sums[k + 3] = pA;
+        sums[k] = pG;
+        sums[k + 1] = pX;
+        sums[k + 2] = pV;
+        sums[k + 3] = pA;
       }
       if (labels !== undefined) {
         for (let l = 0; l < nZones; l++) {
@@ -430,14 +509,16 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
       }
     }
     // Per-cell percentiles.
-    const H = out.heatPJkm2!, E = out.electricMWekm2!;
+    const H = out.heatPJkm2!,
+      E = out.electricMWekm2!;
     for (let c = b0; c < b1; c++) {
       if (!(q[c] === q[c])) continue;
       const off = c - b0;
       for (let pass = 0; pass < 2; pass++) {
         const buf = pass === 0 ? bufH : bufE;
         const tgt = pass === 0 ? H : E;
-        let s = 0, n = 0;
+        let s = 0,
+          n = 0;
         for (let r = 0; r < N; r++) {
           const v = buf[r * B + off];
           if (v === v) {
@@ -462,17 +543,49 @@ export function resourceRange(prep: PreparedResource, start: number, end: number
  * `sims` (with this realization's offset `simOff`) replaces the heat-flow draw by a simulated field.
  */
 function realizationBlock(
-  tabs: HeatTable[], q: Floats, sd: Floats | undefined, sims: Float32Array | undefined, simOff: number, seedIndependent: number, r: number, zr: number,
-  zones: Uint8Array | Uint16Array | Uint32Array | undefined, b0: number, b1: number, rowOff: number, heatF: number, elecF: number,
-  bufH: Float64Array, bufE: Float64Array, blockArea: Float64Array, mask: Uint8Array | undefined, labels: Int32Array | undefined,
-  acc: Float64Array, zoneAcc: Float64Array, fallback: (zi: number, q0: number, o: Float64Array) => void,
+  tabs: HeatTable[],
+  q: Floats,
+  sd: Floats | undefined,
+  sims: Float32Array | undefined,
+  simOff: number,
+  seedIndependent: number,
+  r: number,
+  zr: number,
+  zones: Uint8Array | Uint16Array | Uint32Array | undefined,
+  b0: number,
+  b1: number,
+  rowOff: number,
+  heatF: number,
+  elecF: number,
+  bufH: Float64Array,
+  bufE: Float64Array,
+  blockArea: Float64Array,
+  mask: Uint8Array | undefined,
+  labels: Int32Array | undefined,
+  acc: Float64Array,
+  zoneAcc: Float64Array,
+  fallback: (zi: number, q0: number, o: Float64Array) => void,
 ): void {
   const K = SUM_QUANTITIES;
   const independent = seedIndependent === seedIndependent;
-  let gG = 0, gX = 0, gV = 0, gA = 0, pG = 0, pX = 0, pV = 0, pA = 0;
+  let gG = 0,
+    gX = 0,
+    gV = 0,
+    gA = 0,
+    pG = 0,
+    pX = 0,
+    pV = 0,
+    pA = 0;
   let tz = 0;
   let t = tabs[0];
-  let ends = t.ends, vals = t.values, firstNode = t.firstNode, stepA = t.step, intervals = t.intervals, lastSeg = ends.length - 2, qLo = t.qLo, qHi = t.qHi;
+  let ends = t.ends,
+    vals = t.values,
+    firstNode = t.firstNode,
+    stepA = t.step,
+    intervals = t.intervals,
+    lastSeg = ends.length - 2,
+    qLo = t.qLo,
+    qHi = t.qHi;
   const o = acc; // scratch for the fallback (acc is written at the end)
   for (let c = b0; c < b1; c++) {
     const j = rowOff + (c - b0);
@@ -490,9 +603,18 @@ function realizationBlock(
     if (zones !== undefined && zones[c] !== tz) {
       tz = zones[c];
       t = tabs[tz];
-      ends = t.ends; vals = t.values; firstNode = t.firstNode; stepA = t.step; intervals = t.intervals; lastSeg = ends.length - 2; qLo = t.qLo; qHi = t.qHi;
+      ends = t.ends;
+      vals = t.values;
+      firstNode = t.firstNode;
+      stepA = t.step;
+      intervals = t.intervals;
+      lastSeg = ends.length - 2;
+      qLo = t.qLo;
+      qHi = t.qHi;
     }
-    let g = 0, x = 0, h = 0;
+    let g = 0,
+      x = 0,
+      h = 0;
     if (q0 >= qLo && q0 <= qHi) {
       let sg = 0;
       while (sg < lastSeg && q0 >= ends[sg + 1]) sg++;
@@ -501,8 +623,14 @@ function realizationBlock(
       let base = Math.floor(u0) - 1;
       if (base > m - 3) base = m - 3;
       if (base < 0) base = 0;
-      const u = u0 - base, u1 = u - 1, u2 = u - 2, u3 = u - 3;
-      const l0 = (-u1 * u2 * u3) / 6, l1 = (u * u2 * u3) / 2, l2 = (-u * u1 * u3) / 2, l3 = (u * u1 * u2) / 6;
+      const u = u0 - base,
+        u1 = u - 1,
+        u2 = u - 2,
+        u3 = u - 3;
+      const l0 = (-u1 * u2 * u3) / 6,
+        l1 = (u * u2 * u3) / 2,
+        l2 = (-u * u1 * u3) / 2,
+        l3 = (u * u1 * u2) / 6;
       const k = (firstNode[sg] + base) * 3;
       g = l0 * vals[k] + l1 * vals[k + 3] + l2 * vals[k + 6] + l3 * vals[k + 9];
       x = l0 * vals[k + 1] + l1 * vals[k + 4] + l2 * vals[k + 7] + l3 * vals[k + 10];
@@ -512,25 +640,46 @@ function realizationBlock(
       if (!(h > 0)) h = 0;
     } else if (q0 > 0) {
       fallback(tz, q0, o);
-      g = o[0]; x = o[1]; h = o[2];
+      g = o[0];
+      x = o[1];
+      h = o[2];
     }
     bufH[j] = heatF * g;
     bufE[j] = elecF * x;
     const a = blockArea[c - b0];
-    const ga = g * a, xa = x * a, ha = h * a, aa = h > 0 ? a : 0;
-    gG += ga; gX += xa; gV += ha; gA += aa;
+    const ga = g * a,
+      xa = x * a,
+      ha = h * a,
+      aa = h > 0 ? a : 0;
+    gG += ga;
+    gX += xa;
+    gV += ha;
+    gA += aa;
     if (mask !== undefined && mask[c] === 1) {
-      pG += ga; pX += xa; pV += ha; pA += aa;
+      pG += ga;
+      pX += xa;
+      pV += ha;
+      pA += aa;
     }
     if (labels !== undefined) {
       const l = labels[c];
       if (l >= 0) {
         const zk = l * K;
-        zoneAcc[zk] += ga; zoneAcc[zk + 1] += xa; zoneAcc[zk + 2] += ha; zoneAcc[zk + 3] += aa;
+        zoneAcc[zk] += ga;
+        zoneAcc[zk + 1] += xa;
+        zoneAcc[zk + 2] += ha;
+        zoneAcc[zk + 3] += aa;
       }
     }
   }
-  acc[0] = gG; acc[1] = gX; acc[2] = gV; acc[3] = gA; acc[4] = pG; acc[5] = pX; acc[6] = pV; acc[7] = pA;
+  acc[0] = gG;
+  acc[1] = gX;
+  acc[2] = gV;
+  acc[3] = gA;
+  acc[4] = pG;
+  acc[5] = pX;
+  acc[6] = pV;
+  acc[7] = pA;
 }
 
 /** Per-realization sums of one area set (index N = the nominal run), in SI: K·m³, K·m³, m³, m². */
@@ -543,7 +692,9 @@ export interface SetSums {
 
 /** Adds the block sums in block order (the fixed order that makes totals independent of chunking). */
 export function combineSums(prep: PreparedResource, out: ResourceOutput): SetSums[] {
-  const NR = prep.spec.realizations + 1, S = prep.sets, K = SUM_QUANTITIES;
+  const NR = prep.spec.realizations + 1,
+    S = prep.sets,
+    K = SUM_QUANTITIES;
   const res: SetSums[] = [];
   for (let s = 0; s < S; s++) {
     const o: SetSums = { heatKm3: new Float64Array(NR), exergyKm3: new Float64Array(NR), hotVolumeM3: new Float64Array(NR), hotAreaM2: new Float64Array(NR) };

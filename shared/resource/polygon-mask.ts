@@ -18,13 +18,18 @@ export function polygonsOf(geometry: { type: 'Polygon'; coordinates: number[][][
 
 /** Bounding box [west, south, east, north] of the polygons' vertices. */
 export function polygonsBbox(polys: PolygonRings): [number, number, number, number] {
-  let w = Infinity, s = Infinity, e = -Infinity, n = -Infinity;
-  for (const p of polys) for (const ring of p) for (const v of ring) {
-    if (v[0] < w) w = v[0];
-    if (v[0] > e) e = v[0];
-    if (v[1] < s) s = v[1];
-    if (v[1] > n) n = v[1];
-  }
+  let w = Infinity,
+    s = Infinity,
+    e = -Infinity,
+    n = -Infinity;
+  for (const p of polys)
+    for (const ring of p)
+      for (const v of ring) {
+        if (v[0] < w) w = v[0];
+        if (v[0] > e) e = v[0];
+        if (v[1] < s) s = v[1];
+        if (v[1] > n) n = v[1];
+      }
   return [w, s, e, n];
 }
 
@@ -43,7 +48,8 @@ export function lonLatGridPolygonMask(grid: GridSpec, polys: PolygonRings, out: 
       for (const ring of poly) {
         const n = ring.length;
         for (let i = 0, j = n - 1; i < n; j = i++) {
-          const yi = ring[i][1], yj = ring[j][1];
+          const yi = ring[i][1],
+            yj = ring[j][1];
           // Half-open rule: an edge counts when the row's y is in [min, max) of its end latitudes.
           if (yi > y !== yj > y) xs.push(ring[i][0] + ((y - yi) * (ring[j][0] - ring[i][0])) / (yj - yi));
         }
@@ -69,7 +75,8 @@ export function pointInPolygon(lon: number, lat: number, poly: number[][][]): bo
   for (const ring of poly) {
     const n = ring.length;
     for (let i = 0, j = n - 1; i < n; j = i++) {
-      const yi = ring[i][1], yj = ring[j][1];
+      const yi = ring[i][1],
+        yj = ring[j][1];
       if (yi > lat !== yj > lat && lon < ring[i][0] + ((lat - yi) * (ring[j][0] - ring[i][0])) / (yj - yi)) inside = !inside;
     }
   }
@@ -77,10 +84,16 @@ export function pointInPolygon(lon: number, lat: number, poly: number[][][]): bo
 }
 
 /** Mask (1 = inside) of points given by their longitude/latitude (e.g. the centres of a projected grid's cells). */
-export function pointsPolygonMask(lon: ArrayLike<number>, lat: ArrayLike<number>, polys: PolygonRings, out: Uint8Array = new Uint8Array(lon.length)): Uint8Array {
+export function pointsPolygonMask(
+  lon: ArrayLike<number>,
+  lat: ArrayLike<number>,
+  polys: PolygonRings,
+  out: Uint8Array = new Uint8Array(lon.length),
+): Uint8Array {
   const bbs = polys.map((p) => polygonsBbox([p]));
   for (let i = 0; i < lon.length; i++) {
-    const x = lon[i], y = lat[i];
+    const x = lon[i],
+      y = lat[i];
     let v = 0;
     for (let p = 0; p < polys.length && v === 0; p++) {
       const b = bbs[p];
@@ -94,22 +107,26 @@ export function pointsPolygonMask(lon: ArrayLike<number>, lat: ArrayLike<number>
 /** Centre longitudes/latitudes of a longitude/latitude grid's cells, row-major (for tests and point masks). */
 export function lonLatGridCentres(grid: GridSpec): { lon: Float64Array; lat: Float64Array } {
   const n = grid.width * grid.height;
-  const lon = new Float64Array(n), lat = new Float64Array(n);
-  for (let r = 0; r < grid.height; r++) for (let c = 0; c < grid.width; c++) {
-    lon[r * grid.width + c] = xFromCol(grid, c);
-    lat[r * grid.width + c] = yFromRow(grid, r);
-  }
+  const lon = new Float64Array(n),
+    lat = new Float64Array(n);
+  for (let r = 0; r < grid.height; r++)
+    for (let c = 0; c < grid.width; c++) {
+      lon[r * grid.width + c] = xFromCol(grid, c);
+      lat[r * grid.width + c] = yFromRow(grid, r);
+    }
   return { lon, lat };
 }
 
 /** Centre longitudes/latitudes of any grid's cells, through a caller-given CRS → [lon, lat] conversion. */
 export function gridCentresLonLat(grid: GridSpec, toLonLat: (x: number, y: number) => [number, number]): { lon: Float64Array; lat: Float64Array } {
   const n = grid.width * grid.height;
-  const lon = new Float64Array(n), lat = new Float64Array(n);
-  for (let r = 0; r < grid.height; r++) for (let c = 0; c < grid.width; c++) {
-    const p = toLonLat(xFromCol(grid, c), yFromRow(grid, r));
-    lon[r * grid.width + c] = p[0];
-    lat[r * grid.width + c] = p[1];
-  }
+  const lon = new Float64Array(n),
+    lat = new Float64Array(n);
+  for (let r = 0; r < grid.height; r++)
+    for (let c = 0; c < grid.width; c++) {
+      const p = toLonLat(xFromCol(grid, c), yFromRow(grid, r));
+      lon[r * grid.width + c] = p[0];
+      lat[r * grid.width + c] = p[1];
+    }
   return { lon, lat };
 }

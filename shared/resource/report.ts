@@ -30,7 +30,13 @@ const comment = (s: string) => `# ${s.replace(/[\r\n]+/g, ' ')}`;
 
 /** The report as CSV text. */
 export function reportCsv(r: HeatInPlaceReport): string {
-  const lines = [comment(`caution: ${CAUTION}`), comment(`${TOOL_NAME} ${VERSION} heat in place; electric route: ${r.method.routeLabel as string}`), comment(r.method.percentiles as string), comment(r.method.exceedance as string), comment(r.method.noRealizations as string)];
+  const lines = [
+    comment(`caution: ${CAUTION}`),
+    comment(`${TOOL_NAME} ${VERSION} heat in place; electric route: ${r.method.routeLabel as string}`),
+    comment(r.method.percentiles as string),
+    comment(r.method.exceedance as string),
+    comment(r.method.noRealizations as string),
+  ];
   lines.push('area,quantity,units,cells,area_km2,nominal,p10,p50,p90,mean');
   const areas: [string, AreaTotals][] = [['grid', r.totals.grid]];
   if (r.totals.polygon !== null) areas.push([`polygon${r.totals.polygon.label !== null ? `: ${r.totals.polygon.label}` : ''}`, r.totals.polygon]);

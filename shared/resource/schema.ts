@@ -51,7 +51,8 @@ export function checkHeatInPlaceOptions(o: HeatInPlaceOptions): InputProblem[] {
   const frac = (field: string, v: UncertainNumber | undefined) => {
     if (v === undefined) return;
     const [lo, hi] = range(v);
-    if (!(lo > 0 && hi <= 1)) out.push({ field, problem: `must lie in (0, 1]${typeof v === 'number' ? `, got ${v}` : `, got a distribution over [${lo}, ${hi}]`}` });
+    if (!(lo > 0 && hi <= 1))
+      out.push({ field, problem: `must lie in (0, 1]${typeof v === 'number' ? `, got ${v}` : `, got a distribution over [${lo}, ${hi}]`}` });
   };
   frac('recoveryFactor', o.recoveryFactor);
   frac('utilizationEfficiency', o.utilizationEfficiency);
@@ -83,7 +84,11 @@ const areaGeometry = z.union([polygonGeometry, multiPolygonGeometry]);
  */
 export function parseAreaPolygon(raw: unknown, source = 'polygon'): AreaGeometry {
   const fail = (problem: string, feature?: number | string): never => {
-    throw new InputError(`${source}: ${feature !== undefined ? `feature ${feature}: ` : ''}${problem}`, [{ feature, field: 'geometry', problem }], 'invalid_polygon');
+    throw new InputError(
+      `${source}: ${feature !== undefined ? `feature ${feature}: ` : ''}${problem}`,
+      [{ feature, field: 'geometry', problem }],
+      'invalid_polygon',
+    );
   };
   const geom = (g: unknown, feature?: number | string): AreaGeometry => {
     const r = areaGeometry.safeParse(g);
@@ -110,12 +115,21 @@ export function parseAreaPolygon(raw: unknown, source = 'polygon'): AreaGeometry
 export function parseZonePolygons(raw: unknown, property: string | undefined, source = 'zones'): { name: string; geometry: AreaGeometry }[] {
   const o = raw as { type?: unknown; features?: unknown } | null;
   if (o === null || typeof o !== 'object' || o.type !== 'FeatureCollection' || !Array.isArray(o.features) || o.features.length === 0) {
-    throw new InputError(`${source}: expected a GeoJSON FeatureCollection of region polygons`, [{ field: 'zones', problem: 'expected a FeatureCollection with at least one Polygon/MultiPolygon feature' }], 'invalid_zones');
+    throw new InputError(
+      `${source}: expected a GeoJSON FeatureCollection of region polygons`,
+      [{ field: 'zones', problem: 'expected a FeatureCollection with at least one Polygon/MultiPolygon feature' }],
+      'invalid_zones',
+    );
   }
   return (o.features as { id?: unknown; properties?: Record<string, unknown> | null; geometry?: unknown }[]).map((f, i) => {
     const geometry = parseAreaPolygon({ type: 'Feature', id: i, geometry: f?.geometry }, source);
     const p = property !== undefined ? f?.properties?.[property] : undefined;
-    if (property !== undefined && (p === undefined || p === null)) throw new InputError(`${source}: feature ${i}: no property "${property}"`, [{ feature: i, field: property, problem: 'missing: every region needs a name' }], 'invalid_zones');
+    if (property !== undefined && (p === undefined || p === null))
+      throw new InputError(
+        `${source}: feature ${i}: no property "${property}"`,
+        [{ feature: i, field: property, problem: 'missing: every region needs a name' }],
+        'invalid_zones',
+      );
     const name = p !== undefined && p !== null ? String(p) : f?.id !== undefined ? String(f.id) : `zone ${i + 1}`;
     return { name, geometry };
   });

@@ -47,15 +47,25 @@ export function totalValue(values: Float64Array, nominal: number): TotalValue {
   if (n === 0) return { nominal: fin(nominal), p10: null, p50: null, p90: null, mean: null };
   let s = 0;
   for (let i = 0; i < n; i++) s += a[i];
-  return { nominal: fin(nominal), p10: fin(quantileSorted(a, 0, n, 0.1)), p50: fin(quantileSorted(a, 0, n, 0.5)), p90: fin(quantileSorted(a, 0, n, 0.9)), mean: fin(s / n) };
+  return {
+    nominal: fin(nominal),
+    p10: fin(quantileSorted(a, 0, n, 0.1)),
+    p50: fin(quantileSorted(a, 0, n, 0.5)),
+    p90: fin(quantileSorted(a, 0, n, 0.9)),
+    mean: fin(s / n),
+  };
 }
 
 /** Cells with data, cells without, and area (m²) of each area set. */
 export function setMembership(prep: PreparedResource): { cells: Float64Array; cellsNoData: Float64Array; areaM2: Float64Array } {
   const spec = prep.spec;
   const S = prep.sets;
-  const cells = new Float64Array(S), noData = new Float64Array(S), area = new Float64Array(S);
-  const q = spec.heatFlowMWm2, mask = spec.polygonMask, labels = spec.zoneLabels;
+  const cells = new Float64Array(S),
+    noData = new Float64Array(S),
+    area = new Float64Array(S);
+  const q = spec.heatFlowMWm2,
+    mask = spec.polygonMask,
+    labels = spec.zoneLabels;
   for (let c = 0; c < prep.cells; c++) {
     const has = q[c] === q[c];
     const a = spec.cellAreaM2 === undefined ? spec.rowAreaM2[Math.floor(c / spec.width)] : spec.cellAreaM2[c];
@@ -75,18 +85,28 @@ export function setMembership(prep: PreparedResource): { cells: Float64Array; ce
 /** Totals of every area set. */
 export function areaTotals(prep: PreparedResource, sums: SetSums[]): AreaTotals[] {
   const N = prep.spec.realizations;
-  const P = prep.params, nm = prep.nominal;
+  const P = prep.params,
+    nm = prep.nominal;
   const hasConv = prep.spec.parameters.conversionEfficiency !== undefined;
   const tRef = prep.spec.window.refTempC;
   const lifeS = prep.lifeS;
   const mem = setMembership(prep);
   return sums.map((s, si) => {
     const mk = () => new Float64Array(N);
-    const heat = mk(), rec = mk(), th = mk(), el = mk(), conv = mk(), hotA = mk(), hotV = mk(), tr = mk(), wq = mk();
+    const heat = mk(),
+      rec = mk(),
+      th = mk(),
+      el = mk(),
+      conv = mk(),
+      hotA = mk(),
+      hotV = mk(),
+      tr = mk(),
+      wq = mk();
     const derive = (r: number, rhoC: number, rg: number, eta: number, etaC: number) => {
       const H = rhoC * 1e6 * s.heatKm3[r];
       const R = rg * H;
-      const g = s.heatKm3[r], v = s.hotVolumeM3[r];
+      const g = s.heatKm3[r],
+        v = s.hotVolumeM3[r];
       return {
         H,
         R,
@@ -105,7 +125,15 @@ export function areaTotals(prep: PreparedResource, sums: SetSums[]): AreaTotals[
         continue;
       }
       const d = derive(r, P.rhoCMJm3K[r], P.recoveryFactor[r], P.utilizationEfficiency[r], P.conversionEfficiency[r]);
-      heat[r] = d.H; rec[r] = d.R; th[r] = d.th; el[r] = d.el; conv[r] = d.conv; hotA[r] = d.hotA; hotV[r] = d.hotV; tr[r] = d.tr; wq[r] = d.wq;
+      heat[r] = d.H;
+      rec[r] = d.R;
+      th[r] = d.th;
+      el[r] = d.el;
+      conv[r] = d.conv;
+      hotA[r] = d.hotA;
+      hotV[r] = d.hotV;
+      tr[r] = d.tr;
+      wq[r] = d.wq;
     }
     const n = derive(N, nm.rhoCMJm3K, nm.recoveryFactor, nm.utilizationEfficiency, nm.conversionEfficiency);
     const ej = heat.map((v) => v / 1e18);

@@ -17,7 +17,11 @@ export interface ZoneLabels {
  * Labels from region polygons. `centres` gives each cell centre's [lon, lat] for a projected grid; absent, the grid
  * is longitude/latitude.
  */
-export function zonesFromPolygons(grid: GridSpec, regions: { name: string; polygons: PolygonRings }[], centres?: { lon: ArrayLike<number>; lat: ArrayLike<number> }): ZoneLabels {
+export function zonesFromPolygons(
+  grid: GridSpec,
+  regions: { name: string; polygons: PolygonRings }[],
+  centres?: { lon: ArrayLike<number>; lat: ArrayLike<number> },
+): ZoneLabels {
   const n = grid.width * grid.height;
   const labels = new Int32Array(n).fill(-1);
   const mask = new Uint8Array(n);

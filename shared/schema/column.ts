@@ -72,7 +72,9 @@ export const columnAnswerSchema = z.object({
   /** Water-saturated solidus and melt onset (fluid-absent/dry solidus) of the rock there, km; with realizations also the lithosphere base. */
   solidusCrossingKm: z
     .object({ wetSolidus: maybeUncertainSchema, meltOnset: maybeUncertainSchema, lithosphereBase: maybeUncertainSchema.optional() })
-    .describe('depths (km, null = not reached) where the geotherm meets the water-saturated solidus of the rock there (melting if free water is present) and its fluid-absent/dry solidus (melt onset: no temperature is given below); rock-aware, so it replaces the { wetGranite, dryPeridotite } pair of the first design'),
+    .describe(
+      'depths (km, null = not reached) where the geotherm meets the water-saturated solidus of the rock there (melting if free water is present) and its fluid-absent/dry solidus (melt onset: no temperature is given below); rock-aware, so it replaces the { wetGranite, dryPeridotite } pair of the first design',
+    ),
   meltOnsetKm: maybe,
   meltOnset: solidusCurveSchema,
   wetSolidusKm: maybe,

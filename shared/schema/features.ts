@@ -58,7 +58,11 @@ export const sampleProperties = z
       ctx.addIssue({ code: 'custom', path: ['zone'], message: 'a grade sample needs a zone, a facies, or peakTemperatureC with peakPressureKbar' });
     }
     if ((p.peakTemperatureC === undefined) !== (p.peakPressureKbar === undefined)) {
-      ctx.addIssue({ code: 'custom', path: [p.peakTemperatureC === undefined ? 'peakTemperatureC' : 'peakPressureKbar'], message: 'peak temperature and peak pressure go together' });
+      ctx.addIssue({
+        code: 'custom',
+        path: [p.peakTemperatureC === undefined ? 'peakTemperatureC' : 'peakPressureKbar'],
+        message: 'peak temperature and peak pressure go together',
+      });
     }
     // Zone names are checked at upload, with the nearest valid name (both the Barrovian and low-pressure scales).
     const zoneProblem = p.zone === undefined ? null : zoneNameProblem(p.zone);
@@ -90,8 +94,10 @@ export const wellMeasurement = z
   .superRefine((m, ctx) => {
     if (m.depthM === undefined && m.depthFt === undefined) ctx.addIssue({ code: 'custom', path: ['depthM'], message: 'a measurement needs depthM or depthFt' });
     if (m.depthM !== undefined && m.depthFt !== undefined) ctx.addIssue({ code: 'custom', path: ['depthFt'], message: 'give depthM or depthFt, not both' });
-    if (m.temperatureC === undefined && m.temperatureF === undefined) ctx.addIssue({ code: 'custom', path: ['temperatureC'], message: 'a measurement needs temperatureC or temperatureF' });
-    if (m.temperatureC !== undefined && m.temperatureF !== undefined) ctx.addIssue({ code: 'custom', path: ['temperatureF'], message: 'give temperatureC or temperatureF, not both' });
+    if (m.temperatureC === undefined && m.temperatureF === undefined)
+      ctx.addIssue({ code: 'custom', path: ['temperatureC'], message: 'a measurement needs temperatureC or temperatureF' });
+    if (m.temperatureC !== undefined && m.temperatureF !== undefined)
+      ctx.addIssue({ code: 'custom', path: ['temperatureF'], message: 'give temperatureC or temperatureF, not both' });
   })
   .transform((m) => {
     const { depthFt, temperatureF, ...rest } = m;
@@ -108,7 +114,11 @@ export const wellProperties = z.looseObject({
   elevationM: z.number().optional(),
   measurements: z.array(wellMeasurement).min(1, 'a well needs at least one measurement').max(100000),
   conductivityColumn: z
-    .array(z.object({ topM: z.number().min(0), bottomM: z.number(), conductivityWmK: z.number().gt(0) }).refine((c) => c.bottomM > c.topM, { message: 'bottomM must be below topM' }))
+    .array(
+      z
+        .object({ topM: z.number().min(0), bottomM: z.number(), conductivityWmK: z.number().gt(0) })
+        .refine((c) => c.bottomM > c.topM, { message: 'bottomM must be below topM' }),
+    )
     .optional(),
 });
 export type WellProperties = z.infer<typeof wellProperties>;
@@ -165,30 +175,50 @@ function* positionsOf(features: unknown[], labels?: string[]): Generator<{ lon: 
   }
 }
 
-export function parseFeatureCollection(kind: DatasetKind, input: unknown, opts: { maxFeatures?: number; maxProblems?: number; featureLabels?: string[] } = {}): ParsedDataset {
+export function parseFeatureCollection(
+  kind: DatasetKind,
+  input: unknown,
+  opts: { maxFeatures?: number; maxProblems?: number; featureLabels?: string[] } = {},
+): ParsedDataset {
   const maxFeatures = opts.maxFeatures ?? 200_000;
   const maxProblems = opts.maxProblems ?? 50;
   const spec = KIND_SPECS[kind];
   if (input === null || typeof input !== 'object' || Array.isArray(input)) {
-    throw new InputError('expected a GeoJSON FeatureCollection object', [{ problem: `got ${Array.isArray(input) ? 'an array' : typeof input}` }], 'bad_geojson');
+    throw new InputError(
+      'expected a GeoJSON FeatureCollection object',
+      [{ problem: `got ${Array.isArray(input) ? 'an array' : typeof input}` }],
+      'bad_geojson',
+    );
   }
   const obj = input as Record<string, unknown>;
   let features: unknown[];
   if (obj.type === 'FeatureCollection') {
-    if (!Array.isArray(obj.features)) throw new InputError('FeatureCollection.features must be an array', [{ field: 'features', problem: 'missing or not an array' }], 'bad_geojson');
+    if (!Array.isArray(obj.features))
+      throw new InputError('FeatureCollection.features must be an array', [{ field: 'features', problem: 'missing or not an array' }], 'bad_geojson');
     features = obj.features;
   } else if (obj.type === 'Feature') {
     features = [obj];
   } else {
-    throw new InputError('expected a GeoJSON FeatureCollection', [{ field: 'type', problem: `expected "FeatureCollection", got ${JSON.stringify(obj.type ?? null)}` }], 'bad_geojson');
+    throw new InputError(
+      'expected a GeoJSON FeatureCollection',
+      [{ field: 'type', problem: `expected "FeatureCollection", got ${JSON.stringify(obj.type ?? null)}` }],
+      'bad_geojson',
+    );
   }
-  if (features.length === 0) throw new InputError(`the ${kind} collection is empty`, [{ field: 'features', problem: 'expected at least one feature' }], 'empty_dataset');
+  if (features.length === 0)
+    throw new InputError(`the ${kind} collection is empty`, [{ field: 'features', problem: 'expected at least one feature' }], 'empty_dataset');
   if (features.length > maxFeatures) {
-    throw new InputError(`too many features: ${features.length} (limit ${maxFeatures})`, [{ field: 'features', problem: `at most ${maxFeatures} features per data set` }], 'too_many_features');
+    throw new InputError(
+      `too many features: ${features.length} (limit ${maxFeatures})`,
+      [{ field: 'features', problem: `at most ${maxFeatures} features per data set` }],
+      'too_many_features',
+    );
   }
   const swapped = swappedLonLatError(
     positionsOf(features, opts.featureLabels),
-    opts.featureLabels !== undefined ? 'Check that the longitude column holds longitudes (east–west, -180 to 180) and the latitude column latitudes (north–south, -90 to 90).' : 'GeoJSON positions are [longitude, latitude] in that order (RFC 7946 §3.1.1).',
+    opts.featureLabels !== undefined
+      ? 'Check that the longitude column holds longitudes (east–west, -180 to 180) and the latitude column latitudes (north–south, -90 to 90).'
+      : 'GeoJSON positions are [longitude, latitude] in that order (RFC 7946 §3.1.1).',
   );
   if (swapped) throw swapped;
   const problems: InputProblem[] = [];
@@ -203,16 +233,24 @@ export function parseFeatureCollection(kind: DatasetKind, input: unknown, opts: 
       return;
     }
     const feat = f as { id?: unknown; geometry?: unknown; properties?: unknown };
-    const rawProps = feat.properties && typeof feat.properties === 'object' && !Array.isArray(feat.properties) ? { ...(feat.properties as Record<string, unknown>) } : {};
+    const rawProps =
+      feat.properties && typeof feat.properties === 'object' && !Array.isArray(feat.properties) ? { ...(feat.properties as Record<string, unknown>) } : {};
     if (rawProps.id === undefined || rawProps.id === null || rawProps.id === '') {
       if (typeof feat.id === 'string' || typeof feat.id === 'number') rawProps.id = feat.id;
-      else if (kind !== 'regions') { rawProps.id = `${kind}-${index + 1}`; unnamed++; }
+      else if (kind !== 'regions') {
+        rawProps.id = `${kind}-${index + 1}`;
+        unnamed++;
+      }
     }
     const at = opts.featureLabels?.[index] ?? index;
     const label = typeof rawProps.id === 'string' || typeof rawProps.id === 'number' ? `${at} (${rawProps.id})` : at;
     const gType = feat.geometry && typeof feat.geometry === 'object' ? (feat.geometry as { type?: unknown }).type : undefined;
     if (!(spec.types as readonly unknown[]).includes(gType)) {
-      problems.push({ feature: label, field: 'geometry.type', problem: `${kind} need ${spec.types.join(' or ')} geometry, got ${gType === undefined ? 'none' : JSON.stringify(gType)}` });
+      problems.push({
+        feature: label,
+        field: 'geometry.type',
+        problem: `${kind} need ${spec.types.join(' or ')} geometry, got ${gType === undefined ? 'none' : JSON.stringify(gType)}`,
+      });
       return;
     }
     const g = spec.geometry.safeParse(feat.geometry);
@@ -251,10 +289,24 @@ export function parseFeatureCollection(kind: DatasetKind, input: unknown, opts: 
 
 /** Property names with numeric values (also used to restore names a dBASE table cut to 10 characters). */
 export const NUMERIC_FIELDS = new Set([
-  'heatFlowMWm2', 'uncertaintyMWm2', 'gradientCPerKm', 'conductivityWmK', 'heatProductionUWm3',
-  'peakTemperatureC', 'peakPressureKbar', 'dipDeg', 'dipDirectionDeg', 'elevationM',
-  'depthM', 'depthFt', 'temperatureC', 'temperatureF', 'hoursSinceCirculation', 'circulationHours',
-  'intervalTopM', 'intervalBottomM',
+  'heatFlowMWm2',
+  'uncertaintyMWm2',
+  'gradientCPerKm',
+  'conductivityWmK',
+  'heatProductionUWm3',
+  'peakTemperatureC',
+  'peakPressureKbar',
+  'dipDeg',
+  'dipDirectionDeg',
+  'elevationM',
+  'depthM',
+  'depthFt',
+  'temperatureC',
+  'temperatureF',
+  'hoursSinceCirculation',
+  'circulationHours',
+  'intervalTopM',
+  'intervalBottomM',
 ]);
 
 /**
@@ -265,7 +317,11 @@ export const NUMERIC_FIELDS = new Set([
  * CRS the user names); without it, such columns, or longitude/latitude columns whose numbers lie beyond ±180/±90,
  * are refused with a message asking for the CRS (`crsHint` says how to give it).
  */
-export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFeatures?: number; toLonLat?: (x: number, y: number) => [number, number]; crsHint?: string } = {}): ParsedDataset {
+export function parsePointCsv(
+  kind: DatasetKind,
+  csvText: string,
+  opts: { maxFeatures?: number; toLonLat?: (x: number, y: number) => [number, number]; crsHint?: string } = {},
+): ParsedDataset {
   if (kind === 'faults' || kind === 'regions') {
     throw new InputError(`CSV holds points only; send ${kind} as GeoJSON`, [{ problem: `${kind} need line or polygon geometry` }], 'bad_csv');
   }
@@ -278,14 +334,23 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
     const xc = header.findIndex((h) => /^(x|easting)$/i.test(h));
     const yc = header.findIndex((h) => /^(y|northing)$/i.test(h));
     if (xc >= 0 && yc >= 0) {
-      if (opts.toLonLat === undefined) throw new InputError(`the CSV has projected ${header[xc]},${header[yc]} columns but no CRS: ${hint} (or give longitude,latitude columns in degrees)`, [{ field: 'crs', problem: 'missing: the CRS of the x,y (easting,northing) columns' }], 'missing_crs');
+      if (opts.toLonLat === undefined)
+        throw new InputError(
+          `the CSV has projected ${header[xc]},${header[yc]} columns but no CRS: ${hint} (or give longitude,latitude columns in degrees)`,
+          [{ field: 'crs', problem: 'missing: the CRS of the x,y (easting,northing) columns' }],
+          'missing_crs',
+        );
       lonCol = xc;
       latCol = yc;
       projected = true;
     }
   }
   if (lonCol < 0 || latCol < 0) {
-    throw new InputError('CSV header needs longitude,latitude (or lon,lat) columns, or x,y (easting,northing) with their CRS', [{ field: lonCol < 0 ? 'longitude' : 'latitude', problem: `missing column; header is: ${header.join(',')}` }], 'malformed_csv');
+    throw new InputError(
+      'CSV header needs longitude,latitude (or lon,lat) columns, or x,y (easting,northing) with their CRS',
+      [{ field: lonCol < 0 ? 'longitude' : 'latitude', problem: `missing column; header is: ${header.join(',')}` }],
+      'malformed_csv',
+    );
   }
   if (!projected) {
     // Longitude and latitude exchanged: one message with the first offending value, not one per row.
@@ -298,7 +363,11 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
     // Eastings/northings in longitude/latitude columns: say so rather than "out of range" on every row.
     const far = rows.filter((r) => Math.abs(Number(r[lonCol])) > 180 || Math.abs(Number(r[latCol])) > 90);
     if (far.length > 0 && far.length >= rows.length / 2) {
-      throw new InputError(`the CSV's ${header[lonCol]},${header[latCol]} numbers look projected (${far.length} of ${rows.length} rows beyond ±180°/±90°, e.g. ${far[0][lonCol]}, ${far[0][latCol]}): name the columns x,y (or easting,northing) and ${hint}`, [{ field: 'crs', problem: 'coordinates look like eastings/northings in metres, not degrees' }], 'looks_projected');
+      throw new InputError(
+        `the CSV's ${header[lonCol]},${header[latCol]} numbers look projected (${far.length} of ${rows.length} rows beyond ±180°/±90°, e.g. ${far[0][lonCol]}, ${far[0][latCol]}): name the columns x,y (or easting,northing) and ${hint}`,
+        [{ field: 'crs', problem: 'coordinates look like eastings/northings in metres, not degrees' }],
+        'looks_projected',
+      );
     }
   }
   const problems: InputProblem[] = [];
@@ -316,12 +385,22 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
     });
     let lon = Number(r[lonCol]);
     let lat = Number(r[latCol]);
-    if (r[lonCol].trim() === '' || !Number.isFinite(lon)) problems.push({ feature: `line ${lines[k]}`, field: header[lonCol], problem: `expected a number, got "${r[lonCol]}"` });
-    if (r[latCol].trim() === '' || !Number.isFinite(lat)) problems.push({ feature: `line ${lines[k]}`, field: header[latCol], problem: `expected a number, got "${r[latCol]}"` });
+    if (r[lonCol].trim() === '' || !Number.isFinite(lon))
+      problems.push({ feature: `line ${lines[k]}`, field: header[lonCol], problem: `expected a number, got "${r[lonCol]}"` });
+    if (r[latCol].trim() === '' || !Number.isFinite(lat))
+      problems.push({ feature: `line ${lines[k]}`, field: header[latCol], problem: `expected a number, got "${r[latCol]}"` });
     if (projected && Number.isFinite(lon) && Number.isFinite(lat)) [lon, lat] = opts.toLonLat!(lon, lat);
     return { lon, lat, props };
   });
-  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in the CSV (lines as a spreadsheet numbers them, the header on line ${headerLine}): ${problems.slice(0, 3).map((p) => `${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems.slice(0, 50), 'invalid_features');
+  if (problems.length > 0)
+    throw new InputError(
+      `${problems.length} problem(s) in the CSV (lines as a spreadsheet numbers them, the header on line ${headerLine}): ${problems
+        .slice(0, 3)
+        .map((p) => `${p.feature} ${p.field}: ${p.problem}`)
+        .join('; ')}`,
+      problems.slice(0, 50),
+      'invalid_features',
+    );
   let features: unknown[];
   // Each feature is labelled by its CSV line in later messages (a well by its first line).
   let featureLabels: string[];
@@ -343,7 +422,11 @@ export function parsePointCsv(kind: DatasetKind, csvText: string, opts: { maxFea
       w.measurements.push(m);
       byId.set(id, w);
     }
-    features = [...byId.values()].map((w) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [w.lon, w.lat] }, properties: { ...w.props, measurements: w.measurements } }));
+    features = [...byId.values()].map((w) => ({
+      type: 'Feature',
+      geometry: { type: 'Point', coordinates: [w.lon, w.lat] },
+      properties: { ...w.props, measurements: w.measurements },
+    }));
     featureLabels = [...byId.keys()].map((id) => `line ${firstLine.get(id)}`);
   } else {
     features = points.map((p) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [p.lon, p.lat] }, properties: p.props }));

@@ -29,7 +29,10 @@ export const interpolationOptionsSchema = z.object({
   radiusKm: z.number().gt(0).optional(),
   power: z.number().gt(0).max(20).optional(),
   useQuality: z.boolean().optional(),
-  qualityWeights: z.object({ high: z.number().min(0), medium: z.number().min(0), low: z.number().min(0) }).partial().optional(),
+  qualityWeights: z
+    .object({ high: z.number().min(0), medium: z.number().min(0), low: z.number().min(0) })
+    .partial()
+    .optional(),
   variogram: z.union([z.literal('auto'), z.enum(VARIOGRAM_MODELS), variogramModelSchema]).optional(),
   lagKm: z.number().gt(0).optional(),
   maxLagKm: z.number().gt(0).optional(),
@@ -54,13 +57,21 @@ export function parseVariogramOption(raw: string | undefined): 'auto' | Variogra
   const m = /^([a-z]+)(?::(.*))?$/i.exec(raw.trim());
   const name = m?.[1]?.toLowerCase();
   if (!m || !(VARIOGRAM_MODELS as readonly string[]).includes(name ?? '')) {
-    throw new InputError(`variogram: unknown model in "${raw}"`, [{ field: 'variogram', problem: `expected auto, ${VARIOGRAM_MODELS.join(', ')}, or MODEL:NUGGET,PARTIAL_SILL,RANGE_KM` }], 'bad_option');
+    throw new InputError(
+      `variogram: unknown model in "${raw}"`,
+      [{ field: 'variogram', problem: `expected auto, ${VARIOGRAM_MODELS.join(', ')}, or MODEL:NUGGET,PARTIAL_SILL,RANGE_KM` }],
+      'bad_option',
+    );
   }
   if (m[2] === undefined) return name as VariogramModelName;
   const parts = m[2].split(',').map((s) => Number(s.trim()));
   const r = variogramModelSchema.safeParse({ model: name, nugget: parts[0], partialSill: parts[1], rangeKm: parts[2] });
   if (parts.length !== 3 || !r.success) {
-    throw new InputError(`variogram: expected MODEL:NUGGET,PARTIAL_SILL,RANGE_KM, got "${raw}"`, [{ field: 'variogram', problem: r.success ? 'expected three numbers' : r.error.issues.map((i) => i.message).join('; ') }], 'bad_option');
+    throw new InputError(
+      `variogram: expected MODEL:NUGGET,PARTIAL_SILL,RANGE_KM, got "${raw}"`,
+      [{ field: 'variogram', problem: r.success ? 'expected three numbers' : r.error.issues.map((i) => i.message).join('; ') }],
+      'bad_option',
+    );
   }
   return r.data;
 }
@@ -70,11 +81,21 @@ export function parseAnisotropyOption(raw: string | undefined): { angleDeg: numb
   if (raw === undefined) return null;
   const p = raw.split(',').map((s) => Number(s.trim()));
   const r = anisotropySchema.safeParse({ angleDeg: p[0], ratio: p[1] });
-  if (p.length !== 2 || !r.success) throw new InputError(`anisotropy: expected ANGLE_DEG,RATIO with ratio in (0, 1], got "${raw}"`, [{ field: 'anisotropy', problem: 'e.g. 30,0.5 (major axis azimuth 30°, minor range half the major)' }], 'bad_option');
+  if (p.length !== 2 || !r.success)
+    throw new InputError(
+      `anisotropy: expected ANGLE_DEG,RATIO with ratio in (0, 1], got "${raw}"`,
+      [{ field: 'anisotropy', problem: 'e.g. 30,0.5 (major axis azimuth 30°, minor range half the major)' }],
+      'bad_option',
+    );
   return r.data;
 }
 
-const genericProps = z.looseObject({ id: z.union([z.string().min(1).max(200), z.number().finite()]).transform(String).optional() });
+const genericProps = z.looseObject({
+  id: z
+    .union([z.string().min(1).max(200), z.number().finite()])
+    .transform(String)
+    .optional(),
+});
 
 /**
  * Interpolation points from a parsed GeoJSON object. For `heatFlowMWm2` the features are validated as heat-flow
@@ -82,7 +103,11 @@ const genericProps = z.looseObject({ id: z.union([z.string().min(1).max(200), z.
  * field as a finite number. Features missing the field are an error naming them, or, with `skipMissing`, a
  * warning naming them (an error if none is left).
  */
-export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMissing?: boolean; source?: string; errorField?: string } = {}): { points: PointData; warnings: string[] } {
+export function pointsFromGeoJson(
+  input: unknown,
+  field: string,
+  opts: { skipMissing?: boolean; source?: string; errorField?: string } = {},
+): { points: PointData; warnings: string[] } {
   const src = opts.source ?? 'points';
   if (field === 'heatFlowMWm2' && (opts.errorField === undefined || opts.errorField === 'uncertaintyMWm2')) {
     const ds = parseFeatureCollection('sites', input);
@@ -99,14 +124,29 @@ export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMis
       warnings: ds.warnings,
     };
   }
-  if (input === null || typeof input !== 'object' || (input as { type?: unknown }).type !== 'FeatureCollection' || !Array.isArray((input as { features?: unknown }).features)) {
-    throw new InputError(`${src}: expected a GeoJSON FeatureCollection`, [{ field: 'type', problem: 'expected "FeatureCollection" with a features array' }], 'bad_geojson');
+  if (
+    input === null ||
+    typeof input !== 'object' ||
+    (input as { type?: unknown }).type !== 'FeatureCollection' ||
+    !Array.isArray((input as { features?: unknown }).features)
+  ) {
+    throw new InputError(
+      `${src}: expected a GeoJSON FeatureCollection`,
+      [{ field: 'type', problem: 'expected "FeatureCollection" with a features array' }],
+      'bad_geojson',
+    );
   }
   const feats = (input as { features: unknown[] }).features;
-  if (feats.length === 0) throw new InputError(`${src}: the collection is empty`, [{ field: 'features', problem: 'expected at least one feature' }], 'empty_dataset');
+  if (feats.length === 0)
+    throw new InputError(`${src}: the collection is empty`, [{ field: 'features', problem: 'expected at least one feature' }], 'empty_dataset');
   const problems: InputProblem[] = [];
   const missing: string[] = [];
-  const ids: string[] = [], lon: number[] = [], lat: number[] = [], values: number[] = [], quality: (string | undefined)[] = [], errSd: number[] = [];
+  const ids: string[] = [],
+    lon: number[] = [],
+    lat: number[] = [],
+    values: number[] = [],
+    quality: (string | undefined)[] = [],
+    errSd: number[] = [];
   const seen = new Set<string>();
   const errField = opts.errorField ?? `${field}Sd`;
   feats.forEach((f, i) => {
@@ -114,19 +154,41 @@ export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMis
     const feat = (f ?? {}) as { type?: unknown; id?: unknown; geometry?: unknown; properties?: unknown };
     const props = (feat.properties && typeof feat.properties === 'object' ? feat.properties : {}) as Record<string, unknown>;
     const pr = genericProps.safeParse(props);
-    const id = pr.success && pr.data.id !== undefined ? pr.data.id : typeof feat.id === 'string' || typeof feat.id === 'number' ? String(feat.id) : `point-${i + 1}`;
+    const id =
+      pr.success && pr.data.id !== undefined ? pr.data.id : typeof feat.id === 'string' || typeof feat.id === 'number' ? String(feat.id) : `point-${i + 1}`;
     const label = `${i} (${id})`;
-    if (feat.type !== 'Feature') { problems.push({ feature: i, field: 'type', problem: 'expected a GeoJSON Feature' }); return; }
+    if (feat.type !== 'Feature') {
+      problems.push({ feature: i, field: 'type', problem: 'expected a GeoJSON Feature' });
+      return;
+    }
     const g = pointGeometry.safeParse(feat.geometry);
-    if (!g.success) { problems.push(...g.error.issues.map((e) => ({ feature: label, field: ['geometry', ...e.path.map(String)].join('.'), problem: e.message }))); return; }
-    if (seen.has(id)) { problems.push({ feature: label, field: 'properties.id', problem: `duplicate id "${id}"` }); return; }
+    if (!g.success) {
+      problems.push(...g.error.issues.map((e) => ({ feature: label, field: ['geometry', ...e.path.map(String)].join('.'), problem: e.message })));
+      return;
+    }
+    if (seen.has(id)) {
+      problems.push({ feature: label, field: 'properties.id', problem: `duplicate id "${id}"` });
+      return;
+    }
     seen.add(id);
     const v = props[field];
-    if (v === undefined || v === null || v === '') { missing.push(id); return; }
-    if (typeof v !== 'number' || !Number.isFinite(v)) { problems.push({ feature: label, field: `properties.${field}`, problem: `expected a finite number, got ${JSON.stringify(v)}` }); return; }
+    if (v === undefined || v === null || v === '') {
+      missing.push(id);
+      return;
+    }
+    if (typeof v !== 'number' || !Number.isFinite(v)) {
+      problems.push({ feature: label, field: `properties.${field}`, problem: `expected a finite number, got ${JSON.stringify(v)}` });
+      return;
+    }
     const e = props[errField];
-    if (e !== undefined && !(typeof e === 'number' && e >= 0 && Number.isFinite(e))) { problems.push({ feature: label, field: `properties.${errField}`, problem: 'expected a finite number ≥ 0' }); return; }
-    ids.push(id); lon.push(g.data.coordinates[0]); lat.push(g.data.coordinates[1]); values.push(v);
+    if (e !== undefined && !(typeof e === 'number' && e >= 0 && Number.isFinite(e))) {
+      problems.push({ feature: label, field: `properties.${errField}`, problem: 'expected a finite number ≥ 0' });
+      return;
+    }
+    ids.push(id);
+    lon.push(g.data.coordinates[0]);
+    lat.push(g.data.coordinates[1]);
+    values.push(v);
     quality.push(typeof props.quality === 'string' ? props.quality : undefined);
     errSd.push(typeof e === 'number' ? e : NaN);
   });
@@ -135,12 +197,24 @@ export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMis
   if (missing.length > 0) {
     const names = `${missing.slice(0, 20).join(', ')}${missing.length > 20 ? `, ... (${missing.length} in all)` : ''}`;
     if (!opts.skipMissing) {
-      throw new InputError(`${missing.length} feature(s) in ${src} have no "${field}": ${names}`, missing.slice(0, 50).map((m) => ({ feature: m, field: `properties.${field}`, problem: 'missing (skipMissing leaves such features out)' })), 'missing_field');
+      throw new InputError(
+        `${missing.length} feature(s) in ${src} have no "${field}": ${names}`,
+        missing.slice(0, 50).map((m) => ({ feature: m, field: `properties.${field}`, problem: 'missing (skipMissing leaves such features out)' })),
+        'missing_field',
+      );
     }
-    if (ids.length === 0) throw new InputError(`no feature in ${src} has a "${field}" value`, [{ field: `properties.${field}`, problem: 'missing on every feature' }], 'missing_field');
+    if (ids.length === 0)
+      throw new InputError(
+        `no feature in ${src} has a "${field}" value`,
+        [{ field: `properties.${field}`, problem: 'missing on every feature' }],
+        'missing_field',
+      );
     warnings.push(`${missing.length} feature(s) without "${field}" were left out: ${names}`);
   }
-  return { points: { ids, lon: Float64Array.from(lon), lat: Float64Array.from(lat), values: Float64Array.from(values), quality, errorSd: Float64Array.from(errSd) }, warnings };
+  return {
+    points: { ids, lon: Float64Array.from(lon), lat: Float64Array.from(lat), values: Float64Array.from(values), quality, errorSd: Float64Array.from(errSd) },
+    warnings,
+  };
 }
 
 /**
@@ -148,7 +222,11 @@ export function pointsFromGeoJson(input: unknown, field: string, opts: { skipMis
  * `easting,northing`) converted to lon/lat by `toLonLat` (the caller builds it from `--points-crs`); the field and
  * the known numeric columns as numbers (an unparsable number is an error naming row and column).
  */
-export function pointsFromCsv(text: string, field: string, opts: { skipMissing?: boolean; source?: string; errorField?: string; toLonLat?: (x: number, y: number) => [number, number] } = {}): { points: PointData; warnings: string[]; projectedColumns: boolean } {
+export function pointsFromCsv(
+  text: string,
+  field: string,
+  opts: { skipMissing?: boolean; source?: string; errorField?: string; toLonLat?: (x: number, y: number) => [number, number] } = {},
+): { points: PointData; warnings: string[]; projectedColumns: boolean } {
   const src = opts.source ?? 'points';
   const { header, rows, lines } = parseCsv(text);
   let xc = header.findIndex((h) => /^(longitude|lon|lng)$/i.test(h));
@@ -158,8 +236,18 @@ export function pointsFromCsv(text: string, field: string, opts: { skipMissing?:
     xc = header.findIndex((h) => /^(x|easting)$/i.test(h));
     yc = header.findIndex((h) => /^(y|northing)$/i.test(h));
     projected = xc >= 0 && yc >= 0;
-    if (!projected) throw new InputError(`${src}: CSV header needs longitude,latitude (or lon,lat), or x,y with their CRS (pointsCrs)`, [{ field: 'header', problem: `header is: ${header.join(',')}` }], 'malformed_csv');
-    if (opts.toLonLat === undefined) throw new InputError(`${src}: CSV has projected x,y columns: give their CRS (pointsCrs, EPSG:nnnn)`, [{ field: 'pointsCrs', problem: 'missing' }], 'bad_option');
+    if (!projected)
+      throw new InputError(
+        `${src}: CSV header needs longitude,latitude (or lon,lat), or x,y with their CRS (pointsCrs)`,
+        [{ field: 'header', problem: `header is: ${header.join(',')}` }],
+        'malformed_csv',
+      );
+    if (opts.toLonLat === undefined)
+      throw new InputError(
+        `${src}: CSV has projected x,y columns: give their CRS (pointsCrs, EPSG:nnnn)`,
+        [{ field: 'pointsCrs', problem: 'missing' }],
+        'bad_option',
+      );
   }
   if (!projected) {
     const swapped = swappedLonLatError(
@@ -169,7 +257,16 @@ export function pointsFromCsv(text: string, field: string, opts: { skipMissing?:
     );
     if (swapped) throw swapped;
   }
-  const numeric = new Set([field, 'heatFlowMWm2', 'uncertaintyMWm2', `${field}Sd`, ...(opts.errorField !== undefined ? [opts.errorField] : []), 'gradientCPerKm', 'conductivityWmK', 'heatProductionUWm3']);
+  const numeric = new Set([
+    field,
+    'heatFlowMWm2',
+    'uncertaintyMWm2',
+    `${field}Sd`,
+    ...(opts.errorField !== undefined ? [opts.errorField] : []),
+    'gradientCPerKm',
+    'conductivityWmK',
+    'heatProductionUWm3',
+  ]);
   const problems: InputProblem[] = [];
   const features = rows.map((r, k) => {
     const props: Record<string, unknown> = {};
@@ -183,35 +280,70 @@ export function pointsFromCsv(text: string, field: string, opts: { skipMissing?:
         props[h] = v;
       } else props[h] = cell;
     });
-    const a = Number(r[xc]), b = Number(r[yc]);
+    const a = Number(r[xc]),
+      b = Number(r[yc]);
     if (r[xc].trim() === '' || !Number.isFinite(a) || r[yc].trim() === '' || !Number.isFinite(b)) {
-      problems.push({ feature: `line ${lines[k]}`, field: projected ? 'x,y' : 'longitude,latitude', problem: `expected two numbers, got "${r[xc]}", "${r[yc]}"` });
+      problems.push({
+        feature: `line ${lines[k]}`,
+        field: projected ? 'x,y' : 'longitude,latitude',
+        problem: `expected two numbers, got "${r[xc]}", "${r[yc]}"`,
+      });
     }
     const p = projected ? opts.toLonLat!(a, b) : [a, b];
-    if (projected && !lonLat.safeParse(p).success) problems.push({ feature: `line ${lines[k]}`, field: 'x,y', problem: `outside the CRS's valid area (gives ${p[0]}, ${p[1]})` });
+    if (projected && !lonLat.safeParse(p).success)
+      problems.push({ feature: `line ${lines[k]}`, field: 'x,y', problem: `outside the CRS's valid area (gives ${p[0]}, ${p[1]})` });
     return { type: 'Feature', geometry: { type: 'Point', coordinates: p }, properties: props };
   });
-  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${src} (CSV lines as a spreadsheet numbers them, the header is line 1 unless comment lines precede it): ${problems.slice(0, 3).map((p) => `${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems.slice(0, 50), 'invalid_features');
+  if (problems.length > 0)
+    throw new InputError(
+      `${problems.length} problem(s) in ${src} (CSV lines as a spreadsheet numbers them, the header is line 1 unless comment lines precede it): ${problems
+        .slice(0, 3)
+        .map((p) => `${p.feature} ${p.field}: ${p.problem}`)
+        .join('; ')}`,
+      problems.slice(0, 50),
+      'invalid_features',
+    );
   const r = pointsFromGeoJson({ type: 'FeatureCollection', features }, field, opts);
   return { ...r, projectedColumns: projected };
 }
 
 /** Target points for `--at`: any Point features; id from properties.id, the feature id, or the position. */
 export function targetsFromGeoJson(input: unknown, source = 'targets'): { ids: string[]; lon: number[]; lat: number[] } {
-  if (input === null || typeof input !== 'object' || (input as { type?: unknown }).type !== 'FeatureCollection' || !Array.isArray((input as { features?: unknown }).features)) {
-    throw new InputError(`${source}: expected a GeoJSON FeatureCollection of points`, [{ field: 'type', problem: 'expected "FeatureCollection"' }], 'bad_geojson');
+  if (
+    input === null ||
+    typeof input !== 'object' ||
+    (input as { type?: unknown }).type !== 'FeatureCollection' ||
+    !Array.isArray((input as { features?: unknown }).features)
+  ) {
+    throw new InputError(
+      `${source}: expected a GeoJSON FeatureCollection of points`,
+      [{ field: 'type', problem: 'expected "FeatureCollection"' }],
+      'bad_geojson',
+    );
   }
   const feats = (input as { features: unknown[] }).features;
   if (feats.length === 0) throw new InputError(`${source}: no target points`, [{ field: 'features', problem: 'expected at least one Point' }], 'empty_dataset');
-  const ids: string[] = [], lon: number[] = [], lat: number[] = [];
+  const ids: string[] = [],
+    lon: number[] = [],
+    lat: number[] = [];
   const problems: InputProblem[] = [];
   feats.forEach((f, i) => {
     const feat = (f ?? {}) as { id?: unknown; geometry?: unknown; properties?: Record<string, unknown> | null };
     const g = pointGeometry.safeParse(feat.geometry);
-    if (!g.success) { problems.push({ feature: i, field: 'geometry', problem: g.error.issues.map((e) => e.message).join('; ') }); return; }
+    if (!g.success) {
+      problems.push({ feature: i, field: 'geometry', problem: g.error.issues.map((e) => e.message).join('; ') });
+      return;
+    }
     const pid = feat.properties?.id;
-    ids.push(typeof pid === 'string' || typeof pid === 'number' ? String(pid) : typeof feat.id === 'string' || typeof feat.id === 'number' ? String(feat.id) : `target-${i + 1}`);
-    lon.push(g.data.coordinates[0]); lat.push(g.data.coordinates[1]);
+    ids.push(
+      typeof pid === 'string' || typeof pid === 'number'
+        ? String(pid)
+        : typeof feat.id === 'string' || typeof feat.id === 'number'
+          ? String(feat.id)
+          : `target-${i + 1}`,
+    );
+    lon.push(g.data.coordinates[0]);
+    lat.push(g.data.coordinates[1]);
   });
   if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${source}`, problems.slice(0, 50), 'invalid_features');
   return { ids, lon, lat };

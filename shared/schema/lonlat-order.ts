@@ -10,7 +10,8 @@ export function swappedLonLatError(
   hint: string,
   fields: { lon: string; lat: string } = { lon: 'longitude', lat: 'latitude' },
 ): InputError | null {
-  let bad = 0, swappable = 0;
+  let bad = 0,
+    swappable = 0;
   let first: { lon: number; lat: number; where: string } | null = null;
   for (const p of positions) {
     if (!(Number.isFinite(p.lat) && Math.abs(p.lat) > 90)) continue;
@@ -22,7 +23,13 @@ export function swappedLonLatError(
   const more = bad > 1 ? ` (and ${bad - 1} more position${bad === 2 ? '' : 's'})` : '';
   return new InputError(
     `${fields.lat} ${first.lat} at ${first.where} is outside [-90, 90] degrees${more}: longitude and latitude look swapped. ${hint}`,
-    [{ feature: first.where, field: fields.lat, problem: `${first.lat} is outside [-90, 90] degrees; with ${fields.lon} and ${fields.lat} exchanged every position would be valid` }],
+    [
+      {
+        feature: first.where,
+        field: fields.lat,
+        problem: `${first.lat} is outside [-90, 90] degrees; with ${fields.lon} and ${fields.lat} exchanged every position would be valid`,
+      },
+    ],
     'swapped_lon_lat',
   );
 }

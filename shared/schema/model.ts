@@ -24,18 +24,49 @@ export const MODEL_BOUNDS = {
   /** Characters in a model or layer name. */
   maxNameChars: 200,
   ranges: {
-    conductivityWmK: { min: 0.1, max: 10, units: 'W/m/K', source: 'Clauser & Huenges (1995), Thermal conductivity of rocks and minerals (AGU Reference Shelf 3): rocks and rock-forming minerals lie within about 0.1–10 W/m/K (from memory)' },
-    heatProductionUWm3: { min: 0, max: 100, units: 'µW/m³', source: 'Rybach (1976); common practice: crustal rocks 0–10 µW/m³, the most radioactive granites some tens' },
-    densityKgM3: { min: 1000, max: 4000, units: 'kg/m³', source: 'common practice: water-saturated sediment (about 1500) to eclogite and mantle rock (about 3300–3600)' },
+    conductivityWmK: {
+      min: 0.1,
+      max: 10,
+      units: 'W/m/K',
+      source:
+        'Clauser & Huenges (1995), Thermal conductivity of rocks and minerals (AGU Reference Shelf 3): rocks and rock-forming minerals lie within about 0.1–10 W/m/K (from memory)',
+    },
+    heatProductionUWm3: {
+      min: 0,
+      max: 100,
+      units: 'µW/m³',
+      source: 'Rybach (1976); common practice: crustal rocks 0–10 µW/m³, the most radioactive granites some tens',
+    },
+    densityKgM3: {
+      min: 1000,
+      max: 4000,
+      units: 'kg/m³',
+      source: 'common practice: water-saturated sediment (about 1500) to eclogite and mantle rock (about 3300–3600)',
+    },
     bottomKm: { min: 0, max: 700, units: 'km', source: 'common practice: the model ends above the base of the upper mantle (the 660 km discontinuity)' },
     heatProductionDecayKm: { min: 0, max: 1000, units: 'km', source: 'Lachenbruch (1970): D about 10 km; larger values are nearly constant heat production' },
     surfaceTemperatureC: { min: -60, max: 60, units: '°C', source: 'common practice: mean annual ground-surface temperatures on Earth' },
-    surfaceHeatFlowMWm2: { min: 0, max: 2000, units: 'mW/m²', source: 'common practice: continental mean about 65 mW/m²; active hydrothermal areas reach several hundred' },
+    surfaceHeatFlowMWm2: {
+      min: 0,
+      max: 2000,
+      units: 'mW/m²',
+      source: 'common practice: continental mean about 65 mW/m²; active hydrothermal areas reach several hundred',
+    },
     uraniumPpm: { min: 0, max: 1000, units: 'ppm', source: 'common practice: crustal rocks 0.1–20 ppm, uranium-rich granites up to hundreds' },
     thoriumPpm: { min: 0, max: 2000, units: 'ppm', source: 'common practice: crustal rocks 0.5–80 ppm' },
     potassiumPct: { min: 0, max: 20, units: '%', source: 'common practice: crustal rocks 0–8 % K, K-feldspar about 14 %' },
-    mantlePotentialTemperatureC: { min: 1100, max: 1700, units: '°C', source: 'McKenzie & Bickle (1988) about 1280 °C for ambient mantle; hot plume sources to about 1600 °C (from memory)' },
-    conductivityReferenceTempC: { min: -60, max: 1000, units: '°C', source: 'common practice: laboratory conductivities are reported from room temperature to several hundred °C' },
+    mantlePotentialTemperatureC: {
+      min: 1100,
+      max: 1700,
+      units: '°C',
+      source: 'McKenzie & Bickle (1988) about 1280 °C for ambient mantle; hot plume sources to about 1600 °C (from memory)',
+    },
+    conductivityReferenceTempC: {
+      min: -60,
+      max: 1000,
+      units: '°C',
+      source: 'common practice: laboratory conductivities are reported from room temperature to several hundred °C',
+    },
   },
 } as const;
 
@@ -47,7 +78,10 @@ export const distributionSchema = z.discriminatedUnion('dist', [
     .object({ dist: z.literal('truncnormal'), mean: finite, sd: finite.min(0, 'sd must be ≥ 0'), min: finite, max: finite })
     .strict()
     .refine((d) => d.min <= d.max, { message: 'truncnormal needs min ≤ max' }),
-  z.object({ dist: z.literal('uniform'), min: finite, max: finite }).strict().refine((d) => d.min <= d.max, { message: 'uniform needs min ≤ max' }),
+  z
+    .object({ dist: z.literal('uniform'), min: finite, max: finite })
+    .strict()
+    .refine((d) => d.min <= d.max, { message: 'uniform needs min ≤ max' }),
   z
     .object({ dist: z.literal('triangular'), min: finite, mode: finite, max: finite })
     .strict()
@@ -55,7 +89,9 @@ export const distributionSchema = z.discriminatedUnion('dist', [
 ]);
 
 /** A number, or a distribution of it. */
-export const uncertainNumberSchema = z.union([finite, distributionSchema], { error: 'expected a finite number or a distribution { dist: normal|truncnormal|uniform|triangular, … }' });
+export const uncertainNumberSchema = z.union([finite, distributionSchema], {
+  error: 'expected a finite number or a distribution { dist: normal|truncnormal|uniform|triangular, … }',
+});
 
 export type UncertainNumber = z.infer<typeof uncertainNumberSchema>;
 
@@ -153,7 +189,11 @@ export function checkThermalModel(m: ThermalModelInput): InputProblem[] {
     const [lo, hi] = typeof v !== 'number' && v.dist === 'normal' ? [v.mean, v.mean] : s;
     if (lo < r.min || hi > r.max) {
       const got = lo === hi ? String(lo) : `${lo}…${hi}`;
-      out.push({ feature: i === null ? 'model' : where(i), field, problem: `outside the plausible range ${r.min}–${r.max} ${r.units} (${r.source}), got ${got}` });
+      out.push({
+        feature: i === null ? 'model' : where(i),
+        field,
+        problem: `outside the plausible range ${r.min}–${r.max} ${r.units} (${r.source}), got ${got}`,
+      });
     }
   };
   inRange(null, 'surfaceTemperatureC', m.surfaceTemperatureC);
@@ -172,10 +212,12 @@ export function checkThermalModel(m: ThermalModelInput): InputProblem[] {
   if (m.surfaceHeatFlowMWm2 !== undefined) positive(null, 'surfaceHeatFlowMWm2', m.surfaceHeatFlowMWm2, false);
   inRange(null, 'mantlePotentialTemperatureC', m.mantlePotentialTemperatureC);
   const marked = m.layers.map((l, i) => (l.heatProducingUpperCrust === true ? i : -1)).filter((i) => i >= 0);
-  if (marked.length > 1) out.push({ feature: where(marked[1]), field: 'heatProducingUpperCrust', problem: `only one layer may be marked; ${where(marked[0])} already is` });
+  if (marked.length > 1)
+    out.push({ feature: where(marked[1]), field: 'heatProducingUpperCrust', problem: `only one layer may be marked; ${where(marked[0])} already is` });
   let prev = 0;
   m.layers.forEach((l, i) => {
-    if (!(l.bottomKm > prev)) out.push({ feature: where(i), field: 'bottomKm', problem: `must be greater than the layer above's bottom (${prev} km), got ${l.bottomKm}` });
+    if (!(l.bottomKm > prev))
+      out.push({ feature: where(i), field: 'bottomKm', problem: `must be greater than the layer above's bottom (${prev} km), got ${l.bottomKm}` });
     prev = Math.max(prev, l.bottomKm);
     positive(i, 'conductivityWmK', l.conductivityWmK, false);
     positive(i, 'heatProductionUWm3', l.heatProductionUWm3, true);
@@ -186,21 +228,32 @@ export function checkThermalModel(m: ThermalModelInput): InputProblem[] {
     positive(i, 'densityKgM3', l.densityKgM3, false);
     const radio = l.uraniumPpm !== undefined || l.thoriumPpm !== undefined || l.potassiumPct !== undefined;
     const allRadio = l.uraniumPpm !== undefined && l.thoriumPpm !== undefined && l.potassiumPct !== undefined;
-    if (l.heatProductionUWm3 === undefined && !radio) out.push({ feature: where(i), field: 'heatProductionUWm3', problem: 'missing: give heatProductionUWm3, or uraniumPpm + thoriumPpm + potassiumPct' });
-    if (l.heatProductionUWm3 !== undefined && radio) out.push({ feature: where(i), field: 'heatProductionUWm3', problem: 'give either heatProductionUWm3 or radioelement contents, not both' });
+    if (l.heatProductionUWm3 === undefined && !radio)
+      out.push({ feature: where(i), field: 'heatProductionUWm3', problem: 'missing: give heatProductionUWm3, or uraniumPpm + thoriumPpm + potassiumPct' });
+    if (l.heatProductionUWm3 !== undefined && radio)
+      out.push({ feature: where(i), field: 'heatProductionUWm3', problem: 'give either heatProductionUWm3 or radioelement contents, not both' });
     if (l.heatProductionUWm3 === undefined && radio && !allRadio) {
       const missing = (['uraniumPpm', 'thoriumPpm', 'potassiumPct'] as const).filter((f) => l[f] === undefined);
-      out.push({ feature: where(i), field: missing.join(', '), problem: 'missing: radioelement heat production needs all of uraniumPpm, thoriumPpm, potassiumPct' });
+      out.push({
+        feature: where(i),
+        field: missing.join(', '),
+        problem: 'missing: radioelement heat production needs all of uraniumPpm, thoriumPpm, potassiumPct',
+      });
     }
     // 1 + bT must stay > 0 at the surface temperature already (deeper layers are checked once T is known).
     const b = support(l.conductivityTempCoeffPerK);
     const t0 = support(m.surfaceTemperatureC);
     if (b && t0) {
-      for (const bv of b) for (const tv of t0) {
-        if (Number.isFinite(bv) && Number.isFinite(tv) && !(1 + bv * tv > 0)) {
-          out.push({ feature: where(i), field: 'conductivityTempCoeffPerK', problem: `1 + b·T ≤ 0 at T = ${tv} °C with b = ${bv}: k(T) = k0/(1 + bT) undefined` });
+      for (const bv of b)
+        for (const tv of t0) {
+          if (Number.isFinite(bv) && Number.isFinite(tv) && !(1 + bv * tv > 0)) {
+            out.push({
+              feature: where(i),
+              field: 'conductivityTempCoeffPerK',
+              problem: `1 + b·T ≤ 0 at T = ${tv} °C with b = ${bv}: k(T) = k0/(1 + bT) undefined`,
+            });
+          }
         }
-      }
     }
   });
   return out;
@@ -224,7 +277,11 @@ function featureOf(m: unknown, path: PropertyKey[]): { feature?: string; field: 
 export function parseThermalModel(raw: unknown, source = 'model'): ThermalModelInput {
   if (raw === null || typeof raw !== 'object' || Array.isArray(raw)) {
     const got = Array.isArray(raw) ? 'an array' : raw === null ? 'null' : typeof raw;
-    throw new InputError(`${source}: a thermal model is a JSON object`, [{ feature: 'model', field: '(root)', problem: `expected an object with surfaceTemperatureC and layers, got ${got}` }], 'invalid_model');
+    throw new InputError(
+      `${source}: a thermal model is a JSON object`,
+      [{ feature: 'model', field: '(root)', problem: `expected an object with surfaceTemperatureC and layers, got ${got}` }],
+      'invalid_model',
+    );
   }
   const r = thermalModelSchema.safeParse(raw);
   if (!r.success) {
@@ -234,11 +291,19 @@ export function parseThermalModel(raw: unknown, source = 'model'): ThermalModelI
       const problem = iss.code === 'unrecognized_keys' ? 'unknown member: not part of the thermal model (check the spelling)' : iss.message;
       return paths.map((p) => ({ ...featureOf(raw, p), problem }));
     });
-    throw new InputError(`${source}: invalid thermal model: ${details.map((d) => `${d.feature} ${d.field}: ${d.problem}`).join('; ')}`, details, 'invalid_model');
+    throw new InputError(
+      `${source}: invalid thermal model: ${details.map((d) => `${d.feature} ${d.field}: ${d.problem}`).join('; ')}`,
+      details,
+      'invalid_model',
+    );
   }
   const problems = checkThermalModel(r.data);
   if (problems.length > 0) {
-    throw new InputError(`${source}: invalid thermal model: ${problems.map((d) => `${d.feature} ${d.field}: ${d.problem}`).join('; ')}`, problems, 'invalid_model');
+    throw new InputError(
+      `${source}: invalid thermal model: ${problems.map((d) => `${d.feature} ${d.field}: ${d.problem}`).join('; ')}`,
+      problems,
+      'invalid_model',
+    );
   }
   return r.data;
 }

@@ -11,7 +11,11 @@ export type { Legend } from '../grid/legend.ts';
  * The interpolation options follow shared/schema/interp.ts; the model is a data set id or an inline thermal model
  * (validated by shared/schema/model.ts where the run starts).
  */
-const datasetId = z.string().min(1).max(100).regex(/^[A-Za-z0-9_-]+$/, 'a data set id has letters, digits, _ and - only');
+const datasetId = z
+  .string()
+  .min(1)
+  .max(100)
+  .regex(/^[A-Za-z0-9_-]+$/, 'a data set id has letters, digits, _ and - only');
 
 export const runGridSchema = z.object({
   /** [west, south, east, north] in degrees (default: the sites' extent, padded). */
@@ -49,12 +53,22 @@ export const runRequestSchema = z.object({
   realizations: z.number().int().min(0).max(5000).optional(),
   /** How a cell's heat-flow error is drawn across cells in each realization (DESIGN.md §3): "full" (default) or "independent". */
   heatFlowErrorCorrelation: z.enum(['full', 'independent']).optional(),
-  seed: z.number().int().min(0).max(2 ** 32 - 1).optional(),
+  seed: z
+    .number()
+    .int()
+    .min(0)
+    .max(2 ** 32 - 1)
+    .optional(),
 });
 export type RunRequest = z.infer<typeof runRequestSchema>;
 
 /** Layer statistics (shared/products/stats.ts): min, median and max of the finite values, and the no-data count. */
-export const layerStatsSchema = z.object({ min: z.number().nullable(), max: z.number().nullable(), median: z.number().nullable(), noData: z.number().int().min(0) });
+export const layerStatsSchema = z.object({
+  min: z.number().nullable(),
+  max: z.number().nullable(),
+  median: z.number().nullable(),
+  noData: z.number().int().min(0),
+});
 
 /** One output layer of a run, as GET /api/runs/:id lists it. */
 export const runLayerInfoSchema = z.object({
@@ -140,7 +154,15 @@ export const monteCarloSummarySchema = z.strictObject({
   heatFlowSimulation: z
     .strictObject({
       method: z.string(),
-      variogram: z.strictObject({ model: z.string(), nugget: z.number(), partialSill: z.number(), rangeKm: z.number(), anisotropy: z.strictObject({ angleDeg: z.number(), ratio: z.number() }).nullable(), source: z.string(), space: z.string() }),
+      variogram: z.strictObject({
+        model: z.string(),
+        nugget: z.number(),
+        partialSill: z.number(),
+        rangeKm: z.number(),
+        anisotropy: z.strictObject({ angleDeg: z.number(), ratio: z.number() }).nullable(),
+        source: z.string(),
+        space: z.string(),
+      }),
       transform: z.enum(['normal-score', 'none']),
       sampler: z.enum(['cholesky', 'lattice']),
       neighbors: z.union([z.number(), z.literal('all')]),
@@ -158,7 +180,10 @@ export const monteCarloSummarySchema = z.strictObject({
 });
 
 export type HeatFlowSimulationSummary = NonNullable<z.infer<typeof monteCarloSummarySchema>['heatFlowSimulation']>;
-export type HeatFlowCentralValues = Pick<HeatFlowSimulationSummary, 'regionalMeanMWm2' | 'regionalMedianMWm2' | 'regionalMeanSdMWm2' | 'krigedRegionalMeanMWm2' | 'differenceMWm2'>;
+export type HeatFlowCentralValues = Pick<
+  HeatFlowSimulationSummary,
+  'regionalMeanMWm2' | 'regionalMedianMWm2' | 'regionalMeanSdMWm2' | 'krigedRegionalMeanMWm2' | 'differenceMWm2'
+>;
 
 /** A fault's row of the structural report (shared/structure/layer.ts: faultSummary); further members pass through. */
 export const faultReportRowSchema = z.looseObject({ id: z.string() });

@@ -30,7 +30,8 @@ export function quantileSorted(a: ArrayLike<number>, from: number, n: number, p:
 export function selectInPlace(a: Float64Array, lo: number, hi: number, k: number): void {
   while (hi > lo) {
     const pivot = a[(lo + hi) >>> 1];
-    let i = lo, j = hi;
+    let i = lo,
+      j = hi;
     while (i <= j) {
       while (a[i] < pivot) i++;
       while (a[j] > pivot) j--;
@@ -72,7 +73,8 @@ export function percentilesBySelection(a: Float64Array, n: number, ps: ArrayLike
       continue;
     }
     // Rank lo + 1 is the smallest value to the right of rank lo.
-    let x1 = Infinity, at = lo + 1;
+    let x1 = Infinity,
+      at = lo + 1;
     for (let j = lo + 1; j < n; j++) {
       if (a[j] < x1) {
         x1 = a[j];

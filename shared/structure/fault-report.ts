@@ -90,7 +90,11 @@ export interface Meeting {
   sense: 1 | -1;
 }
 
-export interface Range { value: number; low: number; high: number }
+export interface Range {
+  value: number;
+  low: number;
+  high: number;
+}
 
 export interface Separation {
   isograd: string;
@@ -110,7 +114,10 @@ export interface Separation {
   cutoffPitchDeg?: number;
 }
 
-export interface ZoneStatement { zone: string; sampleIds: string[] }
+export interface ZoneStatement {
+  zone: string;
+  sampleIds: string[];
+}
 
 export interface FaultReport {
   id: string;
@@ -163,13 +170,19 @@ function sideStats(lo: number[], hi: number[]): SideStats {
   const ranks: number[] = [];
   let partial = 0;
   for (let t = 0; t < lo.length; t++) {
-    if (lo[t] === hi[t]) { ranks.push(lo[t]); zoneCounts[ZONE_NAMES[lo[t]]]++; } else partial++;
+    if (lo[t] === hi[t]) {
+      ranks.push(lo[t]);
+      zoneCounts[ZONE_NAMES[lo[t]]]++;
+    } else partial++;
   }
   const med = median(ranks);
   return {
-    samples: lo.length, decided: ranks.length, partial, zoneCounts,
+    samples: lo.length,
+    decided: ranks.length,
+    partial,
+    zoneCounts,
     medianRank: med,
-    medianZone: med === null ? null : ZONE_NAMES[Math.round(med)] ?? null,
+    medianZone: med === null ? null : (ZONE_NAMES[Math.round(med)] ?? null),
     minZone: ranks.length > 0 ? ZONE_NAMES[Math.min(...ranks)] : null,
     maxZone: ranks.length > 0 ? ZONE_NAMES[Math.max(...ranks)] : null,
   };
@@ -182,7 +195,14 @@ function sideStats(lo: number[], hi: number[]): SideStats {
  * line meets the trace (u = 0), or null when the window holds fewer than two samples of each class, the fitted
  * sense disagrees with the profile's, or the point falls outside the window.
  */
-export function fitMeeting(pool: readonly { s: number; u: number; lo: number; hi: number }[], j: number, s0: number, sense: 1 | -1, W: number, D: number): number | null {
+export function fitMeeting(
+  pool: readonly { s: number; u: number; lo: number; hi: number }[],
+  j: number,
+  s0: number,
+  sense: 1 | -1,
+  W: number,
+  D: number,
+): number | null {
   return fitMeetingBand(pool, j, s0, sense, W, D)?.alongKm ?? null;
 }
 
@@ -190,15 +210,30 @@ export function fitMeeting(pool: readonly { s: number; u: number; lo: number; hi
  * The local logistic fit of fitMeeting with its own probability band: the fitted probability along the trace is
  * 1/(1 + exp(−(b0 + b1·(s − s0)/W))), which lies between 0.1 and 0.9 over ±W·ln 9/|b1| about the 0.5 point.
  */
-export function fitMeetingBand(pool: readonly { s: number; u: number; lo: number; hi: number }[], j: number, s0: number, sense: 1 | -1, W: number, D: number): { alongKm: number; halfBandKm: number } | null {
-  const X: number[] = [], Y: number[] = [], Z: number[] = [];
-  let ones = 0, zeros = 0;
+export function fitMeetingBand(
+  pool: readonly { s: number; u: number; lo: number; hi: number }[],
+  j: number,
+  s0: number,
+  sense: 1 | -1,
+  W: number,
+  D: number,
+): { alongKm: number; halfBandKm: number } | null {
+  const X: number[] = [],
+    Y: number[] = [],
+    Z: number[] = [];
+  let ones = 0,
+    zeros = 0;
   for (const q of pool) {
     if (Math.abs(q.s - s0) > W) continue;
     let ind: number;
-    if (q.lo >= j) ind = 1; else if (q.hi < j) ind = 0; else continue;
-    X.push((q.s - s0) / W); Y.push(q.u / D); Z.push(ind);
-    if (ind === 1) ones++; else zeros++;
+    if (q.lo >= j) ind = 1;
+    else if (q.hi < j) ind = 0;
+    else continue;
+    X.push((q.s - s0) / W);
+    Y.push(q.u / D);
+    Z.push(ind);
+    if (ind === 1) ones++;
+    else zeros++;
   }
   if (ones < 2 || zeros < 2) return null;
   // β = (b0, b1, b2); ridge 0.1 on b1, b2 (scaled coordinates, so the penalty is unit-free).
@@ -206,7 +241,11 @@ export function fitMeetingBand(pool: readonly { s: number; u: number; lo: number
   const ridge = 0.1;
   for (let it = 0; it < 50; it++) {
     const g = [0, ridge * b[1], ridge * b[2]];
-    const Hm = [[1e-9, 0, 0], [0, ridge, 0], [0, 0, ridge]];
+    const Hm = [
+      [1e-9, 0, 0],
+      [0, ridge, 0],
+      [0, 0, ridge],
+    ];
     for (let i = 0; i < Z.length; i++) {
       const f = [1, X[i], Y[i]];
       const eta = b[0] + b[1] * f[1] + b[2] * f[2];
@@ -220,7 +259,10 @@ export function fitMeetingBand(pool: readonly { s: number; u: number; lo: number
     const step = solve3(Hm, g);
     if (step === null) return null;
     let sz = 0;
-    for (let a = 0; a < 3; a++) { b[a] -= step[a]; sz += Math.abs(step[a]); }
+    for (let a = 0; a < 3; a++) {
+      b[a] -= step[a];
+      sz += Math.abs(step[a]);
+    }
     if (sz < 1e-10) break;
   }
   if (!(Math.sign(b[1]) === sense) || !(Math.abs(b[1]) > 1e-9)) return null;
@@ -231,7 +273,8 @@ export function fitMeetingBand(pool: readonly { s: number; u: number; lo: number
 
 /** Solves a 3 × 3 system by Cramer's rule; null when singular. */
 function solve3(A: number[][], r: number[]): number[] | null {
-  const det = (m: number[][]) => m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1]) - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0]) + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0]);
+  const det = (m: number[][]) =>
+    m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1]) - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0]) + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0]);
   const d = det(A);
   if (!(Math.abs(d) > 1e-300)) return null;
   const out: number[] = [];
@@ -242,7 +285,14 @@ function solve3(A: number[][], r: number[]): number[] | null {
   return out;
 }
 
-interface NearSample { s: number; u: number; side: Side; lo: number; hi: number; id: string }
+interface NearSample {
+  s: number;
+  u: number;
+  side: Side;
+  lo: number;
+  hi: number;
+  id: string;
+}
 
 /** Profile crossings of `level` around station k0 (where it crosses 0.5): the band [low, high] in km along. */
 function bandAround(prof: Float64Array, ok: Uint8Array, along: Float64Array, j: number, k0: number, s0: number, stride: number): [number, number] {
@@ -266,7 +316,8 @@ function bandAround(prof: Float64Array, ok: Uint8Array, along: Float64Array, j: 
     }
     return last;
   };
-  const a = walk(-1), b = walk(1);
+  const a = walk(-1),
+    b = walk(1);
   return [Math.min(a, b, s0), Math.max(a, b, s0)];
 }
 
@@ -278,7 +329,8 @@ function bandAround(prof: Float64Array, ok: Uint8Array, along: Float64Array, j: 
 function linearHalfBand(prof: Float64Array, ok: Uint8Array, along: Float64Array, j: number, k: number, stride: number): number {
   const v = (i: number) => prof[i * stride + j - 1];
   const s0 = (along[k - 1] + along[k]) / 2;
-  let i0 = k - 1, i1 = k;
+  let i0 = k - 1,
+    i1 = k;
   while (i0 - 1 >= 0 && ok[i0 - 1] === 1 && !Number.isNaN(v(i0 - 1)) && s0 - along[i0 - 1] <= 1) i0--;
   while (i1 + 1 < along.length && ok[i1 + 1] === 1 && !Number.isNaN(v(i1 + 1)) && along[i1 + 1] - s0 <= 1) i1++;
   const slope = Math.abs((v(i1) - v(i0)) / (along[i1] - along[i0]));
@@ -289,7 +341,8 @@ const DEG = Math.PI / 180;
 
 /** Unit normal of a plane of dip dipDeg towards azimuth dipDirDeg, in (x east, y north, z down). */
 function planeNormal(dipDeg: number, dipDirDeg: number): [number, number, number] {
-  const d = dipDeg * DEG, a = dipDirDeg * DEG;
+  const d = dipDeg * DEG,
+    a = dipDirDeg * DEG;
   return [Math.sin(a) * Math.sin(d), Math.cos(a) * Math.sin(d), -Math.cos(d)];
 }
 
@@ -325,7 +378,8 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
     if (p.beyondEnd || !(Math.abs(p.offsetKm) <= D) || p.offsetKm === 0) continue;
     near.push({ s: p.alongKm, u: p.offsetKm, side: p.offsetKm > 0 ? 'right' : 'left', lo: field.lo[i], hi: field.hi[i], id: idOf(i) });
   }
-  const L = near.filter((q) => q.side === 'left'), R = near.filter((q) => q.side === 'right');
+  const L = near.filter((q) => q.side === 'left'),
+    R = near.filter((q) => q.side === 'right');
   let overlap: [number, number] | null = null;
   if (L.length > 0 && R.length > 0) {
     const a = Math.max(Math.min(...L.map((q) => q.s)), Math.min(...R.map((q) => q.s)));
@@ -333,11 +387,24 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
     if (a <= b) overlap = [a, b];
   }
   const inOverlap = (q: { s: number }) => overlap !== null && q.s >= overlap[0] && q.s <= overlap[1];
-  const left = sideStats(L.map((q) => q.lo), L.map((q) => q.hi));
-  const right = sideStats(R.map((q) => q.lo), R.map((q) => q.hi));
-  const Lo = L.filter(inOverlap), Ro = R.filter(inOverlap);
-  const lov = sideStats(Lo.map((q) => q.lo), Lo.map((q) => q.hi));
-  const rov = sideStats(Ro.map((q) => q.lo), Ro.map((q) => q.hi));
+  const left = sideStats(
+    L.map((q) => q.lo),
+    L.map((q) => q.hi),
+  );
+  const right = sideStats(
+    R.map((q) => q.lo),
+    R.map((q) => q.hi),
+  );
+  const Lo = L.filter(inOverlap),
+    Ro = R.filter(inOverlap);
+  const lov = sideStats(
+    Lo.map((q) => q.lo),
+    Lo.map((q) => q.hi),
+  );
+  const rov = sideStats(
+    Ro.map((q) => q.lo),
+    Ro.map((q) => q.hi),
+  );
   if (L.length === 0 || R.length === 0) warnings.push(`no samples within ${D} km on the ${L.length === 0 ? sideNames.left : sideNames.right} of the trace`);
 
   // Windows along the shared stretch: missing and repeated zones from the decided samples.
@@ -347,26 +414,48 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
     const decided = (q: NearSample) => q.lo === q.hi;
     for (let w0 = overlap[0] - W / 2; w0 < overlap[1]; w0 += W / 2) {
       const inW = (q: NearSample) => q.s >= w0 && q.s <= w0 + W && decided(q);
-      const lw = L.filter(inW), rw = R.filter(inW);
+      const lw = L.filter(inW),
+        rw = R.filter(inW);
       if (lw.length < 2 || rw.length < 2) continue;
-      const lr = lw.map((q) => q.lo), rr = rw.map((q) => q.lo);
-      const lmin = Math.min(...lr), lmax = Math.max(...lr), rmin = Math.min(...rr), rmax = Math.max(...rr);
+      const lr = lw.map((q) => q.lo),
+        rr = rw.map((q) => q.lo);
+      const lmin = Math.min(...lr),
+        lmax = Math.max(...lr),
+        rmin = Math.min(...rr),
+        rmax = Math.max(...rr);
       // Missing: one side wholly below Z, the other wholly above, Z on neither.
       for (let z = 1; z < MAX_RANK; z++) {
         const gap = (lmax < z && rmin > z) || (rmax < z && lmin > z);
         if (!gap) continue;
-        const m = missing.get(z) ?? { ids: new Set<string>(), between: [lmax < z ? lmax : rmax, lmax < z ? rmin : lmin] as [number, number], low: lmax < z ? 'left' : 'right' };
+        const m = missing.get(z) ?? {
+          ids: new Set<string>(),
+          between: [lmax < z ? lmax : rmax, lmax < z ? rmin : lmin] as [number, number],
+          low: lmax < z ? 'left' : 'right',
+        };
         // Supporting samples: those of each side nearest in grade to Z.
-        const lowSide = lmax < z ? lw : rw, highSide = lmax < z ? rw : lw;
-        const lowTop = Math.max(...lowSide.map((q) => q.lo)), highBottom = Math.min(...highSide.map((q) => q.lo));
+        const lowSide = lmax < z ? lw : rw,
+          highSide = lmax < z ? rw : lw;
+        const lowTop = Math.max(...lowSide.map((q) => q.lo)),
+          highBottom = Math.min(...highSide.map((q) => q.lo));
         for (const q of lowSide) if (q.lo === lowTop) m.ids.add(q.id);
         for (const q of highSide) if (q.lo === highBottom) m.ids.add(q.id);
         missing.set(z, m);
       }
     }
   }
-  const missingZones: FaultReport['missingZones'] = [...missing.entries()].sort((a, b) => a[0] - b[0]).map(([z, m]) => ({ zone: ZONE_NAMES[z], side: sideNames[m.low], higherSide: sideNames[m.low === 'left' ? 'right' : 'left'], between: [ZONE_NAMES[m.between[0]], ZONE_NAMES[m.between[1]]], sampleIds: [...m.ids].sort() }));
-  if (missingZones.length > 0 && (f.kind === 'thrust' || f.kind === 'reverse')) warnings.push(`zones missing across a fault recorded as ${f.kind} (${missingZones.map((z) => z.zone).join(', ')}): a ${f.kind} fault usually repeats section; check the fault's kind or the samples`);
+  const missingZones: FaultReport['missingZones'] = [...missing.entries()]
+    .sort((a, b) => a[0] - b[0])
+    .map(([z, m]) => ({
+      zone: ZONE_NAMES[z],
+      side: sideNames[m.low],
+      higherSide: sideNames[m.low === 'left' ? 'right' : 'left'],
+      between: [ZONE_NAMES[m.between[0]], ZONE_NAMES[m.between[1]]],
+      sampleIds: [...m.ids].sort(),
+    }));
+  if (missingZones.length > 0 && (f.kind === 'thrust' || f.kind === 'reverse'))
+    warnings.push(
+      `zones missing across a fault recorded as ${f.kind} (${missingZones.map((z) => z.zone).join(', ')}): a ${f.kind} fault usually repeats section; check the fault's kind or the samples`,
+    );
 
   // Stations along the trace: indicator profiles just off it on each side.
   const nSt = Math.floor(t.lengthKm / step) + 1;
@@ -382,7 +471,8 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
     for (const side of ['left', 'right'] as const) {
       const sg = side === 'right' ? 1 : -1;
       // Right normal of the direction (tx, ty) is (ty, −tx).
-      const nx = sg * q.ty, ny = -sg * q.tx;
+      const nx = sg * q.ty,
+        ny = -sg * q.tx;
       const d = field.predict(q.x + delta * nx, q.y + delta * ny, buf);
       if (d <= stSupport) {
         ok[side][k] = 1;
@@ -407,9 +497,15 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
       const d = field.predict(q.x + sg * u * q.ty, q.y - sg * u * q.tx, buf);
       return d <= o.supportKm ? rankFromIndicators(buf) : -1;
     };
-    const nearL = rankAt(-1, Math.max(delta, 0.5)), farL = rankAt(-1, D), nearR = rankAt(1, Math.max(delta, 0.5)), farR = rankAt(1, D);
+    const nearL = rankAt(-1, Math.max(delta, 0.5)),
+      farL = rankAt(-1, D),
+      nearR = rankAt(1, Math.max(delta, 0.5)),
+      farR = rankAt(1, D);
     if (nearL < 0 || farL < 0 || nearR < 0 || farR < 0) continue;
-    for (const [an, af, bn, bf] of [[nearL, farL, nearR, farR], [nearR, farR, nearL, farL]]) {
+    for (const [an, af, bn, bf] of [
+      [nearL, farL, nearR, farR],
+      [nearR, farR, nearL, farL],
+    ]) {
       if (!(af < an && bn < bf && an > bn)) continue;
       for (let z = Math.max(af, bn); z <= Math.min(an, bf); z++) repeatVotes.set(z, (repeatVotes.get(z) ?? 0) + 1);
       // Zones between B's rank at the trace and A's: both sequences hold them.
@@ -419,27 +515,40 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
   for (const [z, votes] of repeatVotes) {
     if (votes < 2) continue;
     const stationsWith = (side: NearSample[]) => side.filter((p) => p.lo === p.hi && p.lo === z);
-    const a = stationsWith(L), b = stationsWith(R);
+    const a = stationsWith(L),
+      b = stationsWith(R);
     if (a.length === 0 || b.length === 0) continue;
-    repeated.set(z, [...a, ...b].map((p) => p.id));
+    repeated.set(
+      z,
+      [...a, ...b].map((p) => p.id),
+    );
   }
-  const repeatedZones: ZoneStatement[] = [...repeated.entries()].sort((a, b) => a[0] - b[0]).map(([z, ids]) => ({ zone: ZONE_NAMES[z], sampleIds: [...ids].sort() }));
-  if (repeatedZones.length > 0 && f.kind === 'normal') warnings.push(`zones repeated across a fault recorded as normal (${repeatedZones.map((z) => z.zone).join(', ')}): a normal fault omits section; check the fault's kind or the samples`);
+  const repeatedZones: ZoneStatement[] = [...repeated.entries()]
+    .sort((a, b) => a[0] - b[0])
+    .map(([z, ids]) => ({ zone: ZONE_NAMES[z], sampleIds: [...ids].sort() }));
+  if (repeatedZones.length > 0 && f.kind === 'normal')
+    warnings.push(
+      `zones repeated across a fault recorded as normal (${repeatedZones.map((z) => z.zone).join(', ')}): a normal fault omits section; check the fault's kind or the samples`,
+    );
 
   // Grade jump (median ranks over the shared stretch) and the higher side.
-  let gradeJump: number | null = null, higherSide: Side | null = null;
+  let gradeJump: number | null = null,
+    higherSide: Side | null = null;
   if (lov.medianRank !== null && rov.medianRank !== null) {
     const d = rov.medianRank - lov.medianRank;
     gradeJump = Math.abs(d);
     higherSide = d > 0 ? 'right' : d < 0 ? 'left' : null;
     if (higherSide === null) {
       // Equal medians: the side that is higher at the trace on average (rank from the profiles), when clearly so.
-      let sum = 0, n = 0;
+      let sum = 0,
+        n = 0;
       for (let k = 0; k < nSt; k++) {
         if (ok.left[k] === 0 || ok.right[k] === 0) continue;
-        const rl = rankFromIndicators(P.left, k * BOUNDARY_COUNT), rr = rankFromIndicators(P.right, k * BOUNDARY_COUNT);
+        const rl = rankFromIndicators(P.left, k * BOUNDARY_COUNT),
+          rr = rankFromIndicators(P.right, k * BOUNDARY_COUNT);
         if (rl < 0 || rr < 0) continue;
-        sum += rr - rl; n++;
+        sum += rr - rl;
+        n++;
       }
       const mean = n > 0 ? sum / n : 0;
       higherSide = mean >= 0.1 ? 'right' : mean <= -0.1 ? 'left' : null;
@@ -456,9 +565,10 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
       const found: Meeting[] = [];
       for (let k = 1; k < nSt; k++) {
         if (ok[side][k - 1] === 0 || ok[side][k] === 0) continue;
-        const a = P[side][(k - 1) * BOUNDARY_COUNT + j - 1], b = P[side][k * BOUNDARY_COUNT + j - 1];
+        const a = P[side][(k - 1) * BOUNDARY_COUNT + j - 1],
+          b = P[side][k * BOUNDARY_COUNT + j - 1];
         if (Number.isNaN(a) || Number.isNaN(b)) continue;
-        if ((a < 0.5) === (b < 0.5)) continue;
+        if (a < 0.5 === b < 0.5) continue;
         const u = (0.5 - a) / (b - a);
         const s0 = along[k - 1] + u * (along[k] - along[k - 1]);
         const sense: 1 | -1 = b > a ? 1 : -1;
@@ -472,11 +582,20 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
         // meets the trace.)
         const half = linearHalfBand(P[side], ok[side], along, j, k, BOUNDARY_COUNT);
         const band: [number, number] = [Math.max(walked[0], Math.min(at, s0) - half), Math.min(walked[1], Math.max(at, s0) + half)];
-        const m: Meeting = { isograd: `${ZONE_NAMES[j]}-in`, side, alongKm: at, bandAlongKm: [Math.min(band[0], at), Math.max(band[1], at)], basis: fit === null ? 'profile' : 'fit', sense };
+        const m: Meeting = {
+          isograd: `${ZONE_NAMES[j]}-in`,
+          side,
+          alongKm: at,
+          bandAlongKm: [Math.min(band[0], at), Math.max(band[1], at)],
+          basis: fit === null ? 'profile' : 'fit',
+          sense,
+        };
         // Crossings of one isograd a few km apart with the same sense are one meeting (noise in the profile).
         const dup = found.find((q) => q.sense === m.sense && Math.abs(q.alongKm - m.alongKm) < 2);
         if (dup === undefined) found.push(m);
-        else { dup.bandAlongKm = [Math.min(dup.bandAlongKm[0], m.bandAlongKm[0]), Math.max(dup.bandAlongKm[1], m.bandAlongKm[1])]; }
+        else {
+          dup.bandAlongKm = [Math.min(dup.bandAlongKm[0], m.bandAlongKm[0]), Math.max(dup.bandAlongKm[1], m.bandAlongKm[1])];
+        }
       }
       meetings.push(...found);
     }
@@ -486,7 +605,10 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
   const separations: Separation[] = [];
   const notReached: FaultReport['notReached'] = [];
   const supported = { left: ok.left.some((v) => v === 1), right: ok.right.some((v) => v === 1) };
-  const fn = f.dipDeg !== undefined && f.dipDirectionDeg !== undefined && Number.isFinite(f.dipDeg) && Number.isFinite(f.dipDirectionDeg) && hangingWall !== null ? planeNormal(f.dipDeg, f.dipDirectionDeg) : null;
+  const fn =
+    f.dipDeg !== undefined && f.dipDirectionDeg !== undefined && Number.isFinite(f.dipDeg) && Number.isFinite(f.dipDirectionDeg) && hangingWall !== null
+      ? planeNormal(f.dipDeg, f.dipDirectionDeg)
+      : null;
   const isoDip = o.isogradDipDeg;
   for (let j = 1; j <= BOUNDARY_COUNT; j++) {
     const name = `${ZONE_NAMES[j]}-in`;
@@ -513,7 +635,8 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
     const all = [...ml, ...mr];
     const centre = pairs.length >= 2 ? all.reduce((acc, m) => acc + m.alongKm, 0) / all.length : t.lengthKm / 2;
     for (const [a, b] of pairs) {
-      const sl = a.alongKm, sr = b.alongKm;
+      const sl = a.alongKm,
+        sr = b.alongKm;
       const mid = (sl + sr) / 2;
       const q = pointAlongTrace(t, Math.min(t.lengthKm, Math.max(0, mid)));
       const fwdAz = q === null ? strikeDeg : (Math.atan2(q.tx, q.ty) / DEG + 360) % 360;
@@ -523,10 +646,15 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
       const highKm = Math.max(a.bandAlongKm[1] - b.bandAlongKm[0], b.bandAlongKm[1] - a.bandAlongKm[0]);
       // Grade rises with s (sense +1): the side whose isograd lies further along is lower at the trace between them,
       // i.e. its isograd is displaced towards higher grade.
-      const upSide: Side = a.sense > 0 ? (sr > sl ? 'right' : 'left') : (sr < sl ? 'right' : 'left');
+      const upSide: Side = a.sense > 0 ? (sr > sl ? 'right' : 'left') : sr < sl ? 'right' : 'left';
       const sep: Separation = {
-        isograd: name, end, separationKm: { value, low: Math.min(lowKm, value), high: Math.max(highKm, value) },
-        sense: sr < sl ? 'dextral' : 'sinistral', displacedTowardHigherGrade: sideNames[upSide], leftAlongKm: sl, rightAlongKm: sr,
+        isograd: name,
+        end,
+        separationKm: { value, low: Math.min(lowKm, value), high: Math.max(highKm, value) },
+        sense: sr < sl ? 'dextral' : 'sinistral',
+        displacedTowardHigherGrade: sideNames[upSide],
+        leftAlongKm: sl,
+        rightAlongKm: sr,
       };
       if (fn !== null && isoDip !== undefined && q !== null && hangingWall !== null) {
         const g = gradeDirection(field, j, t, sl, sr, D);
@@ -536,7 +664,11 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
           const l: [number, number, number] = [fn[1] * ni[2] - fn[2] * ni[1], fn[2] * ni[0] - fn[0] * ni[2], fn[0] * ni[1] - fn[1] * ni[0]];
           const ln = Math.hypot(l[0], l[1], l[2]);
           if (ln > 1e-9) {
-            if (l[2] < 0) { l[0] = -l[0]; l[1] = -l[1]; l[2] = -l[2]; }
+            if (l[2] < 0) {
+              l[0] = -l[0];
+              l[1] = -l[1];
+              l[2] = -l[2];
+            }
             const fdd = (f.dipDirectionDeg as number) * DEG;
             const strikeVec = [-Math.cos(fdd), Math.sin(fdd)];
             const cosR = Math.min(1, Math.abs(l[0] * strikeVec[0] + l[1] * strikeVec[1]) / ln);
@@ -558,16 +690,32 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
   }
   const kindSense = f.kind === 'normal' ? 'normal' : f.kind === 'thrust' || f.kind === 'reverse' ? 'reverse' : null;
   const conflicting = separations.filter((s) => s.slipSense !== undefined && kindSense !== null && s.slipSense !== kindSense);
-  if (conflicting.length > 0) warnings.push(`the dip-slip sense of ${conflicting.map((s) => `${s.isograd} (${s.end})`).join(', ')} is ${conflicting[0].slipSense}, against the fault's kind (${f.kind})`);
+  if (conflicting.length > 0)
+    warnings.push(
+      `the dip-slip sense of ${conflicting.map((s) => `${s.isograd} (${s.end})`).join(', ')} is ${conflicting[0].slipSense}, against the fault's kind (${f.kind})`,
+    );
   if (fn !== null && isoDip === undefined && separations.length > 0) warnings.push('no isograd dip given: the dip-slip component is not computed');
 
   return {
-    id: t.id, name: f.name ?? null, kind: f.kind ?? null, lengthKm: t.lengthKm, strikeDeg, hangingWall, sideNames,
+    id: t.id,
+    name: f.name ?? null,
+    kind: f.kind ?? null,
+    lengthKm: t.lengthKm,
+    strikeDeg,
+    hangingWall,
+    sideNames,
     sides: { left, right },
-    gradeJump, higherSide, higherWall,
-    repeatedZones, missingZones, notReached,
+    gradeJump,
+    higherSide,
+    higherWall,
+    repeatedZones,
+    missingZones,
+    notReached,
     offsetOnly: repeatedZones.length === 0 && missingZones.length === 0 && separations.length > 0,
-    meetings, separations, overlapAlongKm: overlap, warnings,
+    meetings,
+    separations,
+    overlapAlongKm: overlap,
+    warnings,
   };
 }
 
@@ -577,18 +725,30 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
  */
 function gradeDirection(field: IndicatorField, j: number, t: Trace, sl: number, sr: number, D: number): [number, number] | null {
   const buf = new Float64Array(BOUNDARY_COUNT);
-  const at = (x: number, y: number) => { field.predict(x, y, buf); return buf[j - 1]; };
-  let gx = 0, gy = 0;
-  for (const [s, sg] of [[sl, -1], [sr, 1]] as const) {
+  const at = (x: number, y: number) => {
+    field.predict(x, y, buf);
+    return buf[j - 1];
+  };
+  let gx = 0,
+    gy = 0;
+  for (const [s, sg] of [
+    [sl, -1],
+    [sr, 1],
+  ] as const) {
     const q = pointAlongTrace(t, Math.min(t.lengthKm, Math.max(0, s)));
     if (q === null) continue;
-    const nx = sg * q.ty, ny = -sg * q.tx;
-    const off = Math.min(1.5, D / 2), h = 1;
-    const cx = q.x + off * nx, cy = q.y + off * ny;
-    const dx = (at(cx + h, cy) - at(cx - h, cy)) / (2 * h), dy = (at(cx, cy + h) - at(cx, cy - h)) / (2 * h);
+    const nx = sg * q.ty,
+      ny = -sg * q.tx;
+    const off = Math.min(1.5, D / 2),
+      h = 1;
+    const cx = q.x + off * nx,
+      cy = q.y + off * ny;
+    const dx = (at(cx + h, cy) - at(cx - h, cy)) / (2 * h),
+      dy = (at(cx, cy + h) - at(cx, cy - h)) / (2 * h);
     const len = Math.hypot(dx, dy);
     if (!(len > 0)) continue;
-    gx += dx / len; gy += dy / len;
+    gx += dx / len;
+    gy += dy / len;
   }
   const len = Math.hypot(gx, gy);
   return len > 0 ? [gx / len, gy / len] : null;

@@ -30,7 +30,24 @@
  */
 import { InputError, type InputProblem } from '../errors.ts';
 import { zoneNameProblem } from '../petrology/zones.ts';
-import { ALUMINOSILICATE_TRIPLE_POINTS, FACIES_FIELDS, FACIES_NAMES, INDEX_MINERAL_ZONES, LOW_PRESSURE_ZONES, LOW_PRESSURE_ZONE_NAMES, ZONE_NAMES, classifyFacies, isogradTemperatureC, lowPressureZoneRank, nearestName, normalizeName, stableAluminosilicate, zoneRank, type Aluminosilicate, type AluminosilicateCalibration } from '../petrology/index.ts';
+import {
+  ALUMINOSILICATE_TRIPLE_POINTS,
+  FACIES_FIELDS,
+  FACIES_NAMES,
+  INDEX_MINERAL_ZONES,
+  LOW_PRESSURE_ZONES,
+  LOW_PRESSURE_ZONE_NAMES,
+  ZONE_NAMES,
+  classifyFacies,
+  isogradTemperatureC,
+  lowPressureZoneRank,
+  nearestName,
+  normalizeName,
+  stableAluminosilicate,
+  zoneRank,
+  type Aluminosilicate,
+  type AluminosilicateCalibration,
+} from '../petrology/index.ts';
 
 /** Highest rank (sillimanite). */
 export const MAX_RANK = INDEX_MINERAL_ZONES.length - 1;
@@ -63,8 +80,12 @@ export const OFF_SCALE_FACIES: readonly string[] = ['blueschist', 'eclogite', 'h
 function faciesSpanC(name: string): { min: number; max: number } {
   const f = FACIES_FIELDS.find((x) => x.name === name);
   if (f === undefined) throw new RangeError(`unknown facies ${name}`);
-  let min = Infinity, max = -Infinity;
-  for (const [t] of f.polygon) { min = Math.min(min, t); max = Math.max(max, t); }
+  let min = Infinity,
+    max = -Infinity;
+  for (const [t] of f.polygon) {
+    min = Math.min(min, t);
+    max = Math.max(max, t);
+  }
   return { min, max };
 }
 
@@ -76,8 +97,12 @@ export function faciesRankInterval(facies: string): [number, number] | null {
   if (!(FACIES_NAMES as readonly string[]).includes(n)) throw new RangeError(`unknown facies ${facies}`);
   if (OFF_SCALE_FACIES.includes(n)) return null;
   const { min, max } = faciesSpanC(n);
-  let lo = 0, hi = 0;
-  for (const m of MIDPOINTS) { if (m <= min) lo++; if (m < max) hi++; }
+  let lo = 0,
+    hi = 0;
+  for (const m of MIDPOINTS) {
+    if (m <= min) lo++;
+    if (m < max) hi++;
+  }
   return [lo, Math.max(lo, hi)];
 }
 
@@ -87,7 +112,8 @@ export function faciesRankInterval(facies: string): [number, number] | null {
  */
 export function peakRankInterval(peakTemperatureC: number): [number, number] {
   if (!Number.isFinite(peakTemperatureC)) return [-1, -1];
-  let lo = 0, hi = 0;
+  let lo = 0,
+    hi = 0;
   for (const z of INDEX_MINERAL_ZONES) {
     if (z.isogradTemperatureC === null) continue;
     if (z.isogradTemperatureC.max <= peakTemperatureC) lo++;
@@ -121,17 +147,31 @@ const range = (names: readonly string[], lo: number, hi: number) => (lo === hi ?
  * comment). `calibration` picks the aluminosilicate lines (default Holdaway 1971).
  */
 export function peakGrade(temperatureC: number, pressureKbar: number, calibration: AluminosilicateCalibration = 'holdaway1971'): PeakGrade {
-  const none = (message: string): PeakGrade => ({ lo: -1, hi: -1, series: null, seriesLo: -1, seriesHi: -1, label: null, aluminosilicate: null, nearAluminosilicateLine: false, message });
+  const none = (message: string): PeakGrade => ({
+    lo: -1,
+    hi: -1,
+    series: null,
+    seriesLo: -1,
+    seriesHi: -1,
+    label: null,
+    aluminosilicate: null,
+    nearAluminosilicateLine: false,
+    message,
+  });
   if (!Number.isFinite(temperatureC) || !Number.isFinite(pressureKbar)) return none('peak temperature and pressure must be numbers');
   const fac = classifyFacies(temperatureC, pressureKbar);
   if (fac.facies === null) return none(`${temperatureC} °C at ${pressureKbar} kbar lies outside every field of the facies diagram (0–1100 °C, 0–25 kbar)`);
-  if (fac.facies === 'blueschist' || fac.facies === 'eclogite') return none(`${temperatureC} °C at ${pressureKbar} kbar lies in the ${fac.facies} field (high pressure for its temperature), on neither the Barrovian nor the low-pressure scale`);
+  if (fac.facies === 'blueschist' || fac.facies === 'eclogite')
+    return none(
+      `${temperatureC} °C at ${pressureKbar} kbar lies in the ${fac.facies} field (high pressure for its temperature), on neither the Barrovian nor the low-pressure scale`,
+    );
   const as = stableAluminosilicate(temperatureC, pressureKbar, calibration);
   const tp = ALUMINOSILICATE_TRIPLE_POINTS[calibration];
   const lowP = as.polymorph === 'andalusite' || (as.polymorph === 'sillimanite' && pressureKbar < tp.pressureKbar);
   const t = temperatureC;
   if (!lowP) {
-    let lo = 0, hi = 0;
+    let lo = 0,
+      hi = 0;
     for (let r = 1; r <= 3; r++) {
       const z = INDEX_MINERAL_ZONES[r].isogradTemperatureC as { min: number; max: number };
       if (z.max <= t) lo++;
@@ -141,9 +181,20 @@ export function peakGrade(temperatureC: number, pressureKbar: number, calibratio
     const asRank = as.polymorph === 'kyanite' ? 4 : 5;
     if (t >= ky.min) hi = asRank;
     if (t >= ky.max) lo = asRank;
-    return { lo, hi, series: 'barrovian', seriesLo: lo, seriesHi: hi, label: range(ZONE_NAMES, lo, hi), aluminosilicate: as.polymorph, nearAluminosilicateLine: as.nearBoundary, message: null };
+    return {
+      lo,
+      hi,
+      series: 'barrovian',
+      seriesLo: lo,
+      seriesHi: hi,
+      label: range(ZONE_NAMES, lo, hi),
+      aluminosilicate: as.polymorph,
+      nearAluminosilicateLine: as.nearBoundary,
+      message: null,
+    };
   }
-  let slo = 0, shi = 0;
+  let slo = 0,
+    shi = 0;
   for (let r = 1; r <= 3; r++) {
     const z = LOW_PRESSURE_ZONES[r].isogradTemperatureC as { min: number; max: number };
     if (z.max <= t) slo++;
@@ -154,8 +205,19 @@ export function peakGrade(temperatureC: number, pressureKbar: number, calibratio
     if (t >= (LOW_PRESSURE_ZONES[3].isogradTemperatureC as { max: number }).max) slo = 4;
   }
   const bt = INDEX_MINERAL_ZONES[1].isogradTemperatureC as { min: number; max: number };
-  const lo = t >= bt.max ? 1 : 0, hi = t >= bt.min ? MAX_RANK : 0;
-  return { lo, hi, series: 'low-pressure', seriesLo: slo, seriesHi: shi, label: `${range(LOW_PRESSURE_ZONE_NAMES, slo, shi)} (low-pressure series)`, aluminosilicate: as.polymorph, nearAluminosilicateLine: as.nearBoundary, message: null };
+  const lo = t >= bt.max ? 1 : 0,
+    hi = t >= bt.min ? MAX_RANK : 0;
+  return {
+    lo,
+    hi,
+    series: 'low-pressure',
+    seriesLo: slo,
+    seriesHi: shi,
+    label: `${range(LOW_PRESSURE_ZONE_NAMES, slo, shi)} (low-pressure series)`,
+    aluminosilicate: as.polymorph,
+    nearAluminosilicateLine: as.nearBoundary,
+    message: null,
+  };
 }
 
 export interface GradeInput {
@@ -180,7 +242,10 @@ export function sampleGrades(samples: readonly GradeInput[], warnings: string[] 
   const lowSeries: string[] = [];
   samples.forEach((s, i) => {
     const label = `${i} (${s.id})`;
-    let zr = -1, lr = -1, fi: [number, number] | null = null, facOk = false;
+    let zr = -1,
+      lr = -1,
+      fi: [number, number] | null = null,
+      facOk = false;
     if (s.zone !== undefined) {
       zr = zoneRank(s.zone);
       if (zr < 0) lr = lowPressureZoneRank(s.zone);
@@ -191,14 +256,19 @@ export function sampleGrades(samples: readonly GradeInput[], warnings: string[] 
       const n = normalizeName(s.facies).replace(/-facies$/, '');
       if (!(FACIES_NAMES as readonly string[]).includes(n)) {
         const hint = nearestName(n, FACIES_NAMES);
-        problems.push({ feature: label, field: 'properties.facies', problem: `unknown facies '${s.facies}'${hint !== null ? ` (did you mean '${hint}'?)` : ''}; expected one of ${FACIES_NAMES.join(', ')}` });
+        problems.push({
+          feature: label,
+          field: 'properties.facies',
+          problem: `unknown facies '${s.facies}'${hint !== null ? ` (did you mean '${hint}'?)` : ''}; expected one of ${FACIES_NAMES.join(', ')}`,
+        });
       } else {
         facOk = true;
         fi = faciesRankInterval(n);
         if (fi === null && s.zone === undefined) off.push(s.id);
       }
     }
-    const t = s.peakTemperatureC, p = s.peakPressureKbar;
+    const t = s.peakTemperatureC,
+      p = s.peakPressureKbar;
     const hasPeak = Number.isFinite(t) && Number.isFinite(p);
     if (s.zone === undefined && s.facies === undefined && !hasPeak) {
       problems.push({ feature: label, field: 'properties.zone', problem: 'a grade sample needs a zone, a facies, or peakTemperatureC with peakPressureKbar' });
@@ -206,34 +276,59 @@ export function sampleGrades(samples: readonly GradeInput[], warnings: string[] 
     const pk = hasPeak ? peakGrade(t as number, p as number, calibration) : null;
     if (zr >= 0) {
       out.push({ id: s.id, lo: zr, hi: zr, source: 'zone', zone: ZONE_NAMES[zr], series: 'barrovian', label: ZONE_NAMES[zr] });
-      if (fi !== null && (zr < fi[0] || zr > fi[1])) warnings.push(`sample ${label}: zone ${ZONE_NAMES[zr]} is outside the range its facies ${s.facies} suggests (${ZONE_NAMES[fi[0]]}–${ZONE_NAMES[fi[1]]}); the zone is used`);
-      if (pk !== null && pk.lo >= 0 && (pk.series !== 'barrovian' || zr < pk.lo || zr > pk.hi)) warnings.push(`sample ${label}: zone ${ZONE_NAMES[zr]} disagrees with its peak P–T ${t} °C, ${p} kbar (${pk.label}); the zone is used`);
+      if (fi !== null && (zr < fi[0] || zr > fi[1]))
+        warnings.push(
+          `sample ${label}: zone ${ZONE_NAMES[zr]} is outside the range its facies ${s.facies} suggests (${ZONE_NAMES[fi[0]]}–${ZONE_NAMES[fi[1]]}); the zone is used`,
+        );
+      if (pk !== null && pk.lo >= 0 && (pk.series !== 'barrovian' || zr < pk.lo || zr > pk.hi))
+        warnings.push(`sample ${label}: zone ${ZONE_NAMES[zr]} disagrees with its peak P–T ${t} °C, ${p} kbar (${pk.label}); the zone is used`);
       return;
     }
     if (lr >= 0) {
       // A zone of the low-pressure scale: decides biotite-in only on the Barrovian scale.
-      const lo = lr >= 1 ? 1 : 0, hi = lr >= 1 ? MAX_RANK : 0;
+      const lo = lr >= 1 ? 1 : 0,
+        hi = lr >= 1 ? MAX_RANK : 0;
       out.push({ id: s.id, lo, hi, source: 'zone', zone: null, series: 'low-pressure', label: `${LOW_PRESSURE_ZONE_NAMES[lr]} (low-pressure series)` });
       lowSeries.push(s.id);
       return;
     }
-    if (s.zone !== undefined) { out.push({ id: s.id, lo: -1, hi: -1, source: 'none', zone: null, series: null, label: null }); return; }
-    let lo = -1, hi = -1, source: GradeSource = 'none';
-    let series: GradeSeries | null = null, glabel: string | null = null;
-    if (facOk && fi !== null) { lo = fi[0]; hi = fi[1]; source = 'facies'; series = 'barrovian'; glabel = range(ZONE_NAMES, lo, hi); }
+    if (s.zone !== undefined) {
+      out.push({ id: s.id, lo: -1, hi: -1, source: 'none', zone: null, series: null, label: null });
+      return;
+    }
+    let lo = -1,
+      hi = -1,
+      source: GradeSource = 'none';
+    let series: GradeSeries | null = null,
+      glabel: string | null = null;
+    if (facOk && fi !== null) {
+      lo = fi[0];
+      hi = fi[1];
+      source = 'facies';
+      series = 'barrovian';
+      glabel = range(ZONE_NAMES, lo, hi);
+    }
     let polymorph: Aluminosilicate | undefined;
     if (pk !== null) {
-      if (pk.message !== null) warnings.push(`sample ${label}: ${pk.message}; it takes no part in the isograds${source === 'facies' ? ' beyond its facies' : ''}`);
+      if (pk.message !== null)
+        warnings.push(`sample ${label}: ${pk.message}; it takes no part in the isograds${source === 'facies' ? ' beyond its facies' : ''}`);
       else {
         polymorph = pk.aluminosilicate ?? undefined;
         if (pk.series === 'low-pressure') lowSeries.push(s.id);
-        if (source === 'none' || pk.series === 'low-pressure') { lo = pk.lo; hi = pk.hi; }
-        else {
+        if (source === 'none' || pk.series === 'low-pressure') {
+          lo = pk.lo;
+          hi = pk.hi;
+        } else {
           // Both: the intersection when they overlap, else the P–T estimate (measured) with a warning.
-          const a = Math.max(lo, pk.lo), b = Math.min(hi, pk.hi);
-          if (a <= b) { lo = a; hi = b; } else {
+          const a = Math.max(lo, pk.lo),
+            b = Math.min(hi, pk.hi);
+          if (a <= b) {
+            lo = a;
+            hi = b;
+          } else {
             warnings.push(`sample ${label}: facies ${s.facies} and peak P–T ${t} °C, ${p} kbar disagree; the peak P–T is used`);
-            lo = pk.lo; hi = pk.hi;
+            lo = pk.lo;
+            hi = pk.hi;
           }
         }
         source = 'peak-pt';
@@ -247,10 +342,19 @@ export function sampleGrades(samples: readonly GradeInput[], warnings: string[] 
   });
   if (problems.length > 0) {
     const first = problems[0];
-    const msg = problems.length === 1 ? `sample ${first.feature}: ${first.problem}` : `${problems.length} problems in the samples; first: sample ${first.feature}: ${first.problem}`;
+    const msg =
+      problems.length === 1
+        ? `sample ${first.feature}: ${first.problem}`
+        : `${problems.length} problems in the samples; first: sample ${first.feature}: ${first.problem}`;
     throw new InputError(msg, problems.slice(0, 50), 'invalid_features');
   }
-  if (off.length > 0) warnings.push(`${off.length} sample(s) have a facies off the Barrovian sequence (${OFF_SCALE_FACIES.join(', ')}) and no zone: they take no part in the isograds (${off.slice(0, 10).join(', ')}${off.length > 10 ? ', ...' : ''})`);
-  if (lowSeries.length > 0) warnings.push(`${lowSeries.length} sample(s) belong to the andalusite-bearing low-pressure series: they are named on its own scale and inform only biotite-in among the Barrovian isograds (${lowSeries.slice(0, 10).join(', ')}${lowSeries.length > 10 ? ', ...' : ''})`);
+  if (off.length > 0)
+    warnings.push(
+      `${off.length} sample(s) have a facies off the Barrovian sequence (${OFF_SCALE_FACIES.join(', ')}) and no zone: they take no part in the isograds (${off.slice(0, 10).join(', ')}${off.length > 10 ? ', ...' : ''})`,
+    );
+  if (lowSeries.length > 0)
+    warnings.push(
+      `${lowSeries.length} sample(s) belong to the andalusite-bearing low-pressure series: they are named on its own scale and inform only biotite-in among the Barrovian isograds (${lowSeries.slice(0, 10).join(', ')}${lowSeries.length > 10 ? ', ...' : ''})`,
+    );
   return out;
 }

@@ -56,10 +56,15 @@ export interface IndicatorVariogram {
  */
 class SwitchedBarrier implements VisibilityTest {
   on = true;
-  constructor(private readonly b: FaultBarrier, private readonly toField: Int32Array, private readonly memo: { stamp: number; seen: Int32Array; val: Uint8Array }) {}
+  constructor(
+    private readonly b: FaultBarrier,
+    private readonly toField: Int32Array,
+    private readonly memo: { stamp: number; seen: Int32Array; val: Uint8Array },
+  ) {}
   visible(x: number, y: number, i: number): boolean {
     if (!this.on) return true;
-    const g = this.toField[i], m = this.memo;
+    const g = this.toField[i],
+      m = this.memo;
     if (m.seen[g] === m.stamp) return m.val[g] === 1;
     const v = this.b.visible(x, y, g);
     m.seen[g] = m.stamp;
@@ -74,7 +79,8 @@ class SwitchedBarrier implements VisibilityTest {
  * (Deutsch & Journel 1998, §IV.1.9).
  */
 export function correctOrderRelations(p: Float64Array | number[], n = BOUNDARY_COUNT): void {
-  const up = new Float64Array(n), down = new Float64Array(n);
+  const up = new Float64Array(n),
+    down = new Float64Array(n);
   let run = Infinity;
   for (let j = 0; j < n; j++) {
     if (Number.isNaN(p[j])) continue;
@@ -174,12 +180,17 @@ export class IndicatorField {
     const keep: number[] = [];
     for (let i = 0; i < x.length; i++) if (lo[i] >= 0 && hi[i] >= lo[i] && Number.isFinite(x[i]) && Number.isFinite(y[i])) keep.push(i);
     const n = keep.length;
-    this.x = new Float64Array(n); this.y = new Float64Array(n);
-    this.lo = new Int8Array(n); this.hi = new Int8Array(n);
+    this.x = new Float64Array(n);
+    this.y = new Float64Array(n);
+    this.lo = new Int8Array(n);
+    this.hi = new Int8Array(n);
     this.source = Int32Array.from(keep);
     for (let t = 0; t < n; t++) {
       const i = keep[t];
-      this.x[t] = x[i]; this.y[t] = y[i]; this.lo[t] = lo[i]; this.hi[t] = hi[i];
+      this.x[t] = x[i];
+      this.y[t] = y[i];
+      this.lo[t] = lo[i];
+      this.hi[t] = hi[i];
     }
     this.k = Math.max(1, Math.min(k, n));
     this.index = new NeighbourIndex(this.x, this.y);
@@ -196,18 +207,32 @@ export class IndicatorField {
     const sets: { x: Float64Array; y: Float64Array; z: Float64Array; map: Int32Array }[] = [];
     for (let j = 1; j <= BOUNDARY_COUNT; j++) {
       const map = new Int32Array(n).fill(-1);
-      const xs: number[] = [], ys: number[] = [], zs: number[] = [];
+      const xs: number[] = [],
+        ys: number[] = [],
+        zs: number[] = [];
       for (let i = 0; i < n; i++) {
         let v: number;
-        if (this.lo[i] >= j) v = 1; else if (this.hi[i] < j) v = 0; else continue;
+        if (this.lo[i] >= j) v = 1;
+        else if (this.hi[i] < j) v = 0;
+        else continue;
         map[i] = xs.length;
-        xs.push(this.x[i]); ys.push(this.y[i]); zs.push(v);
+        xs.push(this.x[i]);
+        ys.push(this.y[i]);
+        zs.push(v);
       }
       sets.push({ x: Float64Array.from(xs), y: Float64Array.from(ys), z: Float64Array.from(zs), map });
     }
     // Variograms: fitted where there are enough data of both classes, else the median-indicator one.
-    let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
-    for (let i = 0; i < n; i++) { x0 = Math.min(x0, this.x[i]); x1 = Math.max(x1, this.x[i]); y0 = Math.min(y0, this.y[i]); y1 = Math.max(y1, this.y[i]); }
+    let x0 = Infinity,
+      x1 = -Infinity,
+      y0 = Infinity,
+      y1 = -Infinity;
+    for (let i = 0; i < n; i++) {
+      x0 = Math.min(x0, this.x[i]);
+      x1 = Math.max(x1, this.x[i]);
+      y0 = Math.min(y0, this.y[i]);
+      y1 = Math.max(y1, this.y[i]);
+    }
     const diag = Math.hypot(x1 - x0, y1 - y0);
     const fit = (set: { x: Float64Array; y: Float64Array; z: Float64Array }): VariogramModel | null => {
       if (!(diag > 0) || set.z.length < 10) return null;
@@ -220,7 +245,11 @@ export class IndicatorField {
         return null;
       }
     };
-    const stats = sets.map((q) => { let ones = 0; for (const v of q.z) ones += v; return { count: q.z.length, ones, p: q.z.length > 0 ? ones / q.z.length : NaN }; });
+    const stats = sets.map((q) => {
+      let ones = 0;
+      for (const v of q.z) ones += v;
+      return { count: q.z.length, ones, p: q.z.length > 0 ? ones / q.z.length : NaN };
+    });
     let median = -1;
     for (let j = 0; j < BOUNDARY_COUNT; j++) {
       if (!(stats[j].count >= 10)) continue;
@@ -232,14 +261,29 @@ export class IndicatorField {
     this.kIds = new Int32Array(this.k);
     this.kD2 = new Float64Array(this.k);
     for (let j = 0; j < BOUNDARY_COUNT; j++) {
-      const set = sets[j], st = stats[j];
+      const set = sets[j],
+        st = stats[j];
       this.kIndex.push(set.map);
-      if (st.count === 0) { this.kp.push(null); this.kVis.push(null); this.variograms.push(null); continue; }
-      let model: VariogramModel | null = null, source: IndicatorVariogram['source'] = 'fitted';
-      if (given !== undefined && given !== null) { model = given; source = 'median-indicator'; }
-      else if (st.count >= MIN_FIT_SAMPLES && Math.min(st.ones, st.count - st.ones) >= MIN_FIT_MINORITY) model = fit(set);
-      if (model === null) { model = medianModel; source = 'median-indicator'; }
-      if (model === null) { model = fallback; source = 'default'; }
+      if (st.count === 0) {
+        this.kp.push(null);
+        this.kVis.push(null);
+        this.variograms.push(null);
+        continue;
+      }
+      let model: VariogramModel | null = null,
+        source: IndicatorVariogram['source'] = 'fitted';
+      if (given !== undefined && given !== null) {
+        model = given;
+        source = 'median-indicator';
+      } else if (st.count >= MIN_FIT_SAMPLES && Math.min(st.ones, st.count - st.ones) >= MIN_FIT_MINORITY) model = fit(set);
+      if (model === null) {
+        model = medianModel;
+        source = 'median-indicator';
+      }
+      if (model === null) {
+        model = fallback;
+        source = 'default';
+      }
       const toField = new Int32Array(set.z.length);
       for (let i = 0; i < n; i++) if (set.map[i] >= 0) toField[set.map[i]] = i;
       const vis = this.barrier !== null ? new SwitchedBarrier(this.barrier, toField, this.visMemo) : null;
@@ -258,7 +302,10 @@ export class IndicatorField {
     this.visMemo.stamp++; // a new location: forget the visibilities of the last one
     for (let j = 0; j < BOUNDARY_COUNT; j++) {
       const kp = this.kp[j];
-      if (kp === null) { p[j] = NaN; continue; }
+      if (kp === null) {
+        p[j] = NaN;
+        continue;
+      }
       const vis = this.kVis[j];
       if (vis !== null) {
         vis.on = true;
@@ -290,24 +337,36 @@ export class IndicatorField {
   /** Fills out[0..4] from the first `n` entries of the neighbour buffers; returns the nearest distance (km). */
   private accumulate(n: number, out: Float64Array | Float32Array, outOffset: number, stride: number): number {
     const { num, den, exNum, exDen, ids, d2, lo, hi } = this;
-    num.fill(0); den.fill(0); exNum.fill(0); exDen.fill(0);
-    const half = this.power / 2, p2 = this.power === 2;
+    num.fill(0);
+    den.fill(0);
+    exNum.fill(0);
+    exDen.fill(0);
+    const half = this.power / 2,
+      p2 = this.power === 2;
     let exact = false;
     for (let t = 0; t < n; t++) {
-      const i = ids[t], dd = d2[t];
-      const l = lo[i], h = hi[i];
+      const i = ids[t],
+        dd = d2[t];
+      const l = lo[i],
+        h = hi[i];
       if (dd <= EXACT_D2) {
         exact = true;
         for (let j = 0; j < BOUNDARY_COUNT; j++) {
           const r = j + 1;
-          if (l >= r) { exNum[j] += 1; exDen[j] += 1; } else if (h < r) exDen[j] += 1;
+          if (l >= r) {
+            exNum[j] += 1;
+            exDen[j] += 1;
+          } else if (h < r) exDen[j] += 1;
         }
         continue;
       }
       const w = p2 ? 1 / dd : Math.pow(dd, -half);
       for (let j = 0; j < BOUNDARY_COUNT; j++) {
         const r = j + 1;
-        if (l >= r) { num[j] += w; den[j] += w; } else if (h < r) den[j] += w;
+        if (l >= r) {
+          num[j] += w;
+          den[j] += w;
+        } else if (h < r) den[j] += w;
       }
     }
     for (let j = 0; j < BOUNDARY_COUNT; j++) {
@@ -322,7 +381,10 @@ export class IndicatorField {
    * informative sample `exclude` out (leave-one-out). Returns the distance (km) to the nearest visible sample.
    */
   predict(qx: number, qy: number, out: Float64Array, exclude = -1): number {
-    if (this.count === 0) { out.fill(NaN, 0, BOUNDARY_COUNT); return Infinity; }
+    if (this.count === 0) {
+      out.fill(NaN, 0, BOUNDARY_COUNT);
+      return Infinity;
+    }
     if (this.method === 'kriging') {
       this.krige(qx, qy, out, 0, 1, exclude, 0);
       return this.nearestVisibleKm(qx, qy, exclude);
@@ -349,10 +411,15 @@ export class IndicatorField {
     out.fill(capKm);
     const f = this.faults;
     if (f === null) return;
-    const W = g.width, H = g.height, s = g.cellKm;
+    const W = g.width,
+      H = g.height,
+      s = g.cellKm;
     const cap2 = capKm * capKm;
     for (let q = 0; q + 3 < f.length; q += 4) {
-      const ax = f[q], ay = f[q + 1], bx = f[q + 2], by = f[q + 3];
+      const ax = f[q],
+        ay = f[q + 1],
+        bx = f[q + 2],
+        by = f[q + 3];
       const c0 = Math.max(0, Math.floor((Math.min(ax, bx) - capKm - g.x0) / s));
       const c1 = Math.min(W - 1, Math.ceil((Math.max(ax, bx) + capKm - g.x0) / s));
       const r0 = Math.max(0, Math.floor((Math.min(ay, by) - capKm - g.y0) / s));
@@ -376,9 +443,15 @@ export class IndicatorField {
    * skip the barrier test (the k nearest points are then all visible, so the result is the same).
    */
   grid(g: LocalGrid, out: Float32Array, nearestKm: Float32Array, faultDistKm?: Float32Array): void {
-    const W = g.width, H = g.height, N = W * H;
+    const W = g.width,
+      H = g.height,
+      N = W * H;
     if (out.length < BOUNDARY_COUNT * N || nearestKm.length < N) throw new RangeError('indicator grid buffers too small');
-    if (this.count === 0) { out.fill(NaN); nearestKm.fill(Infinity); return; }
+    if (this.count === 0) {
+      out.fill(NaN);
+      nearestKm.fill(Infinity);
+      return;
+    }
     let fd: Float32Array | null = null;
     if (this.barrier !== null) {
       // Cap: a generous multiple of the typical k-th neighbour distance; beyond it the test is exact anyway.
@@ -397,7 +470,10 @@ export class IndicatorField {
           if (fd !== null && !(far > 0)) this.barrierSearches++;
           // Nearest visible sample: without the barrier test when the nearest sample is nearer than any fault.
           const m = this.index.nearest(qx, qy, 1, radiusKm, this.nearIds, this.nearD2);
-          if (m === 0) { nearestKm[cell] = Infinity; continue; }
+          if (m === 0) {
+            nearestKm[cell] = Infinity;
+            continue;
+          }
           const d = Math.sqrt(this.nearD2[0]);
           nearestKm[cell] = fd === null || fd[cell] > d ? d : this.nearestVisibleKm(qx, qy, -1);
         }
@@ -432,7 +508,8 @@ export function rankFromIndicators(p: ArrayLike<number>, offset = 0, stride = 1)
   for (let j = 0; j < BOUNDARY_COUNT; j++) {
     const v = p[offset + j * stride];
     if (Number.isNaN(v)) return j === 0 ? -1 : r;
-    if (v >= 0.5) r = j + 1; else break;
+    if (v >= 0.5) r = j + 1;
+    else break;
   }
   return r;
 }

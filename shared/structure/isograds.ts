@@ -80,7 +80,8 @@ export function isogradName(rank: number): string {
 export function medianSpacingKm(field: IndicatorField): number {
   const n = field.count;
   if (n < 2) return NaN;
-  const ids = new Int32Array(2), d2 = new Float64Array(2);
+  const ids = new Int32Array(2),
+    d2 = new Float64Array(2);
   const d = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     const m = field.index.nearest(field.x[i], field.y[i], 1, Infinity, ids, d2, null, i);
@@ -105,7 +106,10 @@ function pointInRing(c: Float64Array, x: number, y: number): boolean {
   let inside = false;
   const n = c.length / 2;
   for (let i = 0, j = n - 1; i < n; j = i++) {
-    const xi = c[2 * i], yi = c[2 * i + 1], xj = c[2 * j], yj = c[2 * j + 1];
+    const xi = c[2 * i],
+      yi = c[2 * i + 1],
+      xj = c[2 * j],
+      yj = c[2 * j + 1];
     if (yi > y !== yj > y && x < ((xj - xi) * (y - yi)) / (yj - yi) + xi) inside = !inside;
   }
   return inside;
@@ -123,7 +127,10 @@ function midpoint(c: Float64Array): [number, number] {
   let s = 0;
   for (let i = 2; i < c.length; i += 2) {
     const l = Math.hypot(c[i] - c[i - 2], c[i + 1] - c[i - 1]);
-    if (s + l >= half && l > 0) { const u = (half - s) / l; return [c[i - 2] + u * (c[i] - c[i - 2]), c[i - 1] + u * (c[i + 1] - c[i - 1])]; }
+    if (s + l >= half && l > 0) {
+      const u = (half - s) / l;
+      return [c[i - 2] + u * (c[i] - c[i - 2]), c[i - 1] + u * (c[i + 1] - c[i - 1])];
+    }
     s += l;
   }
   return [c[0], c[1]];
@@ -133,40 +140,80 @@ function midpoint(c: Float64Array): [number, number] {
  * Isograds of graded samples at local km positions (x, y), with fault pieces (x1, y1, x2, y2 km) as barriers.
  * Returns the lines in local km plus the grids, the indicator field and the leave-one-out predictions.
  */
-export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: readonly SampleGrade[], faults: Float64Array | null, opts: IsogradGridOptions = {}): IsogradResultKm {
+export function computeIsogradsKm(
+  x: Float64Array,
+  y: Float64Array,
+  grades: readonly SampleGrade[],
+  faults: Float64Array | null,
+  opts: IsogradGridOptions = {},
+): IsogradResultKm {
   const t0 = now();
   const warnings: string[] = [];
   const cellKm = opts.cellKm ?? 1;
-  if (!(cellKm > 0 && Number.isFinite(cellKm))) throw new InputError(`cell size must be > 0 km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected a positive number of km' }], 'bad_option');
-  const lo = Int8Array.from(grades, (g) => g.lo), hi = Int8Array.from(grades, (g) => g.hi);
+  if (!(cellKm > 0 && Number.isFinite(cellKm)))
+    throw new InputError(`cell size must be > 0 km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected a positive number of km' }], 'bad_option');
+  const lo = Int8Array.from(grades, (g) => g.lo),
+    hi = Int8Array.from(grades, (g) => g.hi);
   const field = new IndicatorField(x, y, lo, hi, { method: opts.method, power: opts.power, neighbors: opts.neighbors, faults });
-  if (field.count < 2) throw new InputError(`isograds need at least two samples with zone information, got ${field.count}`, [{ field: 'samples', problem: 'give samples with a zone, a facies on the Barrovian sequence, or peak P–T' }], 'too_few_points');
+  if (field.count < 2)
+    throw new InputError(
+      `isograds need at least two samples with zone information, got ${field.count}`,
+      [{ field: 'samples', problem: 'give samples with a zone, a facies on the Barrovian sequence, or peak P–T' }],
+      'too_few_points',
+    );
   const supportKm = opts.supportKm ?? defaultSupportKm(field, cellKm);
-  if (!(supportKm > 0)) throw new InputError(`support distance must be > 0 km, got ${supportKm}`, [{ field: 'supportKm', problem: 'expected > 0' }], 'bad_option');
+  if (!(supportKm > 0))
+    throw new InputError(`support distance must be > 0 km, got ${supportKm}`, [{ field: 'supportKm', problem: 'expected > 0' }], 'bad_option');
 
   // Grid over the samples' envelope padded by the support distance.
-  let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
-  for (let i = 0; i < field.count; i++) { x0 = Math.min(x0, field.x[i]); x1 = Math.max(x1, field.x[i]); y0 = Math.min(y0, field.y[i]); y1 = Math.max(y1, field.y[i]); }
+  let x0 = Infinity,
+    x1 = -Infinity,
+    y0 = Infinity,
+    y1 = -Infinity;
+  for (let i = 0; i < field.count; i++) {
+    x0 = Math.min(x0, field.x[i]);
+    x1 = Math.max(x1, field.x[i]);
+    y0 = Math.min(y0, field.y[i]);
+    y1 = Math.max(y1, field.y[i]);
+  }
   let width: number, height: number;
   if (opts.gridSize !== undefined) {
     [width, height] = opts.gridSize;
-    const cx = (x0 + x1) / 2, cy = (y0 + y1) / 2;
-    x0 = cx - ((width - 1) * cellKm) / 2; y0 = cy - ((height - 1) * cellKm) / 2;
+    const cx = (x0 + x1) / 2,
+      cy = (y0 + y1) / 2;
+    x0 = cx - ((width - 1) * cellKm) / 2;
+    y0 = cy - ((height - 1) * cellKm) / 2;
   } else {
-    x0 -= supportKm; y0 -= supportKm; x1 += supportKm; y1 += supportKm;
+    x0 -= supportKm;
+    y0 -= supportKm;
+    x1 += supportKm;
+    y1 += supportKm;
     width = Math.max(2, Math.ceil((x1 - x0) / cellKm) + 1);
     height = Math.max(2, Math.ceil((y1 - y0) / cellKm) + 1);
   }
   const maxCells = opts.maxCells ?? 4_000_000;
-  if (!(Number.isInteger(width) && width >= 2 && Number.isInteger(height) && height >= 2)) throw new InputError(`grid size must be whole numbers ≥ 2, got ${width} × ${height}`, [{ field: 'gridSize', problem: 'expected e.g. 500x500' }], 'bad_option');
-  if (width * height > maxCells) throw new InputError(`the isograd grid would have ${(width * height).toLocaleString('en')} cells (${width} × ${height}), above the limit of ${maxCells.toLocaleString('en')}`, [{ field: 'cellKm', problem: 'use a larger cell' }], 'grid_too_large');
+  if (!(Number.isInteger(width) && width >= 2 && Number.isInteger(height) && height >= 2))
+    throw new InputError(
+      `grid size must be whole numbers ≥ 2, got ${width} × ${height}`,
+      [{ field: 'gridSize', problem: 'expected e.g. 500x500' }],
+      'bad_option',
+    );
+  if (width * height > maxCells)
+    throw new InputError(
+      `the isograd grid would have ${(width * height).toLocaleString('en')} cells (${width} × ${height}), above the limit of ${maxCells.toLocaleString('en')}`,
+      [{ field: 'cellKm', problem: 'use a larger cell' }],
+      'grid_too_large',
+    );
   const grid: LocalGrid = { x0, y0, cellKm, width, height };
   const N = width * height;
 
   const indicators = new Float32Array(BOUNDARY_COUNT * N);
   const nearestKm = new Float32Array(N);
   let faultDist: Float32Array | undefined;
-  if (field.barrier !== null) { faultDist = new Float32Array(N); field.faultDistanceGrid(grid, field.faultCapKm(grid), faultDist); }
+  if (field.barrier !== null) {
+    faultDist = new Float32Array(N);
+    field.faultDistanceGrid(grid, field.faultCapKm(grid), faultDist);
+  }
   const t1 = now();
   field.grid(grid, indicators, nearestKm, faultDist);
   const t2 = now();
@@ -180,7 +227,8 @@ export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: read
       for (let c = 0; c < width; c++) {
         const i = r * width + c;
         if (!(faultDist[i] <= 1.5 * cellKm)) continue;
-        const px = x0 + c * cellKm, py = y0 + r * cellKm;
+        const px = x0 + c * cellKm,
+          py = y0 + r * cellKm;
         if (c + 1 < width && b.blocks(px, py, px + cellKm, py)) blocked[2 * i] = 1;
         if (r + 1 < height && b.blocks(px, py, px, py + cellKm)) blocked[2 * i + 1] = 1;
       }
@@ -193,62 +241,100 @@ export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: read
   const t3 = now();
   const radiusKm = opts.supportRadiusKm ?? 5;
   const found: number[] = [];
-  const countNear = (px: number, py: number) => { found.length = 0; return field.index.within(px, py, radiusKm, found); };
+  const countNear = (px: number, py: number) => {
+    found.length = 0;
+    return field.index.within(px, py, radiusKm, found);
+  };
   const lines: IsogradLineKm[] = [];
   const droppedLoops: { isograd: string; samples: string[] }[] = [];
   const dropLoops = opts.dropIsolatedLoops ?? true;
-  for (let j = 1; j <= BOUNDARY_COUNT; j++) for (const level of ISOGRAD_PROBABILITIES) {
-    const iso = traceIsolines(indicators, grid, level, blocked, (j - 1) * N);
-    for (const l of iso) {
-      if (l.closed && dropLoops) {
-        // Samples inside the loop (bounding box first).
-        let bx0 = Infinity, bx1 = -Infinity, by0 = Infinity, by1 = -Infinity;
-        for (let t = 0; t < l.coords.length; t += 2) { bx0 = Math.min(bx0, l.coords[t]); bx1 = Math.max(bx1, l.coords[t]); by0 = Math.min(by0, l.coords[t + 1]); by1 = Math.max(by1, l.coords[t + 1]); }
-        const inside: number[] = [];
-        for (let i = 0; i < field.count && inside.length <= 2; i++) {
-          const px = field.x[i], py = field.y[i];
-          if (px >= bx0 && px <= bx1 && py >= by0 && py <= by1 && pointInRing(l.coords, px, py)) inside.push(i);
+  for (let j = 1; j <= BOUNDARY_COUNT; j++)
+    for (const level of ISOGRAD_PROBABILITIES) {
+      const iso = traceIsolines(indicators, grid, level, blocked, (j - 1) * N);
+      for (const l of iso) {
+        if (l.closed && dropLoops) {
+          // Samples inside the loop (bounding box first).
+          let bx0 = Infinity,
+            bx1 = -Infinity,
+            by0 = Infinity,
+            by1 = -Infinity;
+          for (let t = 0; t < l.coords.length; t += 2) {
+            bx0 = Math.min(bx0, l.coords[t]);
+            bx1 = Math.max(bx1, l.coords[t]);
+            by0 = Math.min(by0, l.coords[t + 1]);
+            by1 = Math.max(by1, l.coords[t + 1]);
+          }
+          const inside: number[] = [];
+          for (let i = 0; i < field.count && inside.length <= 2; i++) {
+            const px = field.x[i],
+              py = field.y[i];
+            if (px >= bx0 && px <= bx1 && py >= by0 && py <= by1 && pointInRing(l.coords, px, py)) inside.push(i);
+          }
+          if (inside.length >= 1 && inside.length <= 2 && inside.every((i) => loo.contradicts(i, j))) {
+            if (level === 0.5) droppedLoops.push({ isograd: isogradName(j), samples: inside.map((i) => grades[field.source[i]].id) });
+            continue;
+          }
         }
-        if (inside.length >= 1 && inside.length <= 2 && inside.every((i) => loo.contradicts(i, j))) {
-          if (level === 0.5) droppedLoops.push({ isograd: isogradName(j), samples: inside.map((i) => grades[field.source[i]].id) });
-          continue;
+        const c = l.coords;
+        const [mx, my] = midpoint(c);
+        let sum = 0,
+          min = Infinity,
+          nv = 0;
+        const step = Math.max(1, Math.round(2 / cellKm)); // a vertex about every 2 km
+        for (let t = 0; t < c.length / 2; t += step) {
+          const k = countNear(c[2 * t], c[2 * t + 1]);
+          sum += k;
+          min = Math.min(min, k);
+          nv++;
         }
+        lines.push({
+          rank: j,
+          probability: level,
+          mineral: ZONE_NAMES[j],
+          isograd: isogradName(j),
+          coords: c,
+          closed: l.closed,
+          lengthKm: lineLength(c),
+          support: { radiusKm, samplesNearMidpoint: countNear(mx, my), meanSamplesPerVertex: nv > 0 ? sum / nv : 0, minSamplesPerVertex: nv > 0 ? min : 0 },
+        });
       }
-      const c = l.coords;
-      const [mx, my] = midpoint(c);
-      let sum = 0, min = Infinity, nv = 0;
-      const step = Math.max(1, Math.round(2 / cellKm)); // a vertex about every 2 km
-      for (let t = 0; t < c.length / 2; t += step) { const k = countNear(c[2 * t], c[2 * t + 1]); sum += k; min = Math.min(min, k); nv++; }
-      lines.push({
-        rank: j, probability: level, mineral: ZONE_NAMES[j], isograd: isogradName(j), coords: c, closed: l.closed, lengthKm: lineLength(c),
-        support: { radiusKm, samplesNearMidpoint: countNear(mx, my), meanSamplesPerVertex: nv > 0 ? sum / nv : 0, minSamplesPerVertex: nv > 0 ? min : 0 },
-      });
     }
-  }
   // Band width along each 0.5 line: distance to the nearest 0.1 line plus to the nearest 0.9 line of the isograd.
   const reach = 3 * supportKm;
   for (const l of lines) {
     if (l.probability !== 0.5) continue;
     const edges = (p: number) => lines.filter((q) => q.rank === l.rank && q.probability === p);
-    const lowEdge = edges(0.1), highEdge = edges(0.9);
+    const lowEdge = edges(0.1),
+      highEdge = edges(0.9);
     const dist = (px: number, py: number, set: IsogradLineKm[]) => {
       let best = Infinity;
-      for (const q of set) for (let t = 2; t < q.coords.length; t += 2) best = Math.min(best, pointSegmentDistance2(px, py, q.coords[t - 2], q.coords[t - 1], q.coords[t], q.coords[t + 1]));
+      for (const q of set)
+        for (let t = 2; t < q.coords.length; t += 2)
+          best = Math.min(best, pointSegmentDistance2(px, py, q.coords[t - 2], q.coords[t - 1], q.coords[t], q.coords[t + 1]));
       return Math.sqrt(best);
     };
-    const alongKm: number[] = [], widthKm: (number | null)[] = [];
+    const alongKm: number[] = [],
+      widthKm: (number | null)[] = [];
     const c = l.coords;
-    let s0 = 0, next = 0;
+    let s0 = 0,
+      next = 0;
     for (let t = 0; t < c.length; t += 2) {
       if (t > 0) s0 += Math.hypot(c[t] - c[t - 2], c[t + 1] - c[t - 1]);
       if (s0 < next && t + 2 < c.length) continue;
       next = s0 + 2;
-      const a = dist(c[t], c[t + 1], lowEdge), b = dist(c[t], c[t + 1], highEdge);
+      const a = dist(c[t], c[t + 1], lowEdge),
+        b = dist(c[t], c[t + 1], highEdge);
       alongKm.push(Math.round(s0 * 100) / 100);
       widthKm.push(a <= reach && b <= reach ? Math.round((a + b) * 100) / 100 : null);
     }
     const w = widthKm.filter((v): v is number => v !== null).sort((x, y) => x - y);
-    l.bandWidthKm = { alongKm, widthKm, median: w.length > 0 ? w[w.length >> 1] : null, min: w.length > 0 ? w[0] : null, max: w.length > 0 ? w[w.length - 1] : null };
+    l.bandWidthKm = {
+      alongKm,
+      widthKm,
+      median: w.length > 0 ? w[w.length >> 1] : null,
+      min: w.length > 0 ? w[0] : null,
+      max: w.length > 0 ? w[w.length - 1] : null,
+    };
   }
   // Samples that disagree with their isograd: leave-one-out probability on the other side of 0.5 from what they say.
   const disagreeing: IsogradResultKm['disagreeing'] = [];
@@ -257,12 +343,27 @@ export function computeIsogradsKm(x: Float64Array, y: Float64Array, grades: read
     for (let i = 0; i < field.count; i++) {
       const v = loo.p[i * BOUNDARY_COUNT + j - 1];
       if (Number.isNaN(v)) continue;
-      if (field.lo[i] >= j && v < 0.5) list.push({ id: grades[field.source[i]].id, index: field.source[i], says: 'at or above', probability: Math.round(v * 1000) / 1000 });
-      else if (field.hi[i] < j && v >= 0.5) list.push({ id: grades[field.source[i]].id, index: field.source[i], says: 'below', probability: Math.round(v * 1000) / 1000 });
+      if (field.lo[i] >= j && v < 0.5)
+        list.push({ id: grades[field.source[i]].id, index: field.source[i], says: 'at or above', probability: Math.round(v * 1000) / 1000 });
+      else if (field.hi[i] < j && v >= 0.5)
+        list.push({ id: grades[field.source[i]].id, index: field.source[i], says: 'below', probability: Math.round(v * 1000) / 1000 });
     }
     disagreeing.push({ isograd: isogradName(j), samples: list });
   }
-  if (droppedLoops.length > 0) warnings.push(`${droppedLoops.length} closed loop(s) around single contradicted samples were not drawn (the samples are listed as misfits)`);
+  if (droppedLoops.length > 0)
+    warnings.push(`${droppedLoops.length} closed loop(s) around single contradicted samples were not drawn (the samples are listed as misfits)`);
   const t4 = now();
-  return { grid, field, indicators, nearestKm, supportKm, lines, loo, droppedLoops, disagreeing, warnings, timingsMs: { setup: t1 - t0, indicatorGrids: t2 - t1, leaveOneOut: t3 - t2, lines: t4 - t3 } };
+  return {
+    grid,
+    field,
+    indicators,
+    nearestKm,
+    supportKm,
+    lines,
+    loo,
+    droppedLoops,
+    disagreeing,
+    warnings,
+    timingsMs: { setup: t1 - t0, indicatorGrids: t2 - t1, leaveOneOut: t3 - t2, lines: t4 - t3 },
+  };
 }

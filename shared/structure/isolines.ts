@@ -26,30 +26,50 @@ export interface Isoline {
  *   edge (c, r)–(c, r + 1); a non-zero flag suppresses any crossing on it
  */
 export function traceIsolines(values: ArrayLike<number>, g: LocalGrid, level: number, blocked: Uint8Array | null = null, offset = 0): Isoline[] {
-  const W = g.width, H = g.height;
+  const W = g.width,
+    H = g.height;
   if (W < 2 || H < 2) return [];
   const E = 2 * W * H;
   const next = new Int32Array(E).fill(-1);
   const hasPrev = new Uint8Array(E);
-  const px = new Float64Array(E), py = new Float64Array(E);
+  const px = new Float64Array(E),
+    py = new Float64Array(E);
   const v = (c: number, r: number) => values[offset + r * W + c];
   const point = (e: number) => {
-    const cell = e >> 1, c = cell % W, r = (cell - c) / W;
+    const cell = e >> 1,
+      c = cell % W,
+      r = (cell - c) / W;
     const a = v(c, r);
-    if (e & 1) { const b = v(c, r + 1); px[e] = c; py[e] = r + (level - a) / (b - a); }
-    else { const b = v(c + 1, r); px[e] = c + (level - a) / (b - a); py[e] = r; }
+    if (e & 1) {
+      const b = v(c, r + 1);
+      px[e] = c;
+      py[e] = r + (level - a) / (b - a);
+    } else {
+      const b = v(c + 1, r);
+      px[e] = c + (level - a) / (b - a);
+      py[e] = r;
+    }
   };
   const ids = [0, 0, 0, 0];
   const hi = [false, false, false, false];
   const cv = [0, 0, 0, 0];
   for (let r = 0; r + 1 < H; r++) {
     for (let c = 0; c + 1 < W; c++) {
-      cv[0] = v(c, r); cv[1] = v(c + 1, r); cv[2] = v(c + 1, r + 1); cv[3] = v(c, r + 1);
+      cv[0] = v(c, r);
+      cv[1] = v(c + 1, r);
+      cv[2] = v(c + 1, r + 1);
+      cv[3] = v(c, r + 1);
       if (Number.isNaN(cv[0]) || Number.isNaN(cv[1]) || Number.isNaN(cv[2]) || Number.isNaN(cv[3])) continue;
       let nh = 0;
-      for (let k = 0; k < 4; k++) { hi[k] = cv[k] >= level; if (hi[k]) nh++; }
+      for (let k = 0; k < 4; k++) {
+        hi[k] = cv[k] >= level;
+        if (hi[k]) nh++;
+      }
       if (nh === 0 || nh === 4) continue;
-      ids[0] = 2 * (r * W + c); ids[1] = 2 * (r * W + c + 1) + 1; ids[2] = 2 * ((r + 1) * W + c); ids[3] = 2 * (r * W + c) + 1;
+      ids[0] = 2 * (r * W + c);
+      ids[1] = 2 * (r * W + c + 1) + 1;
+      ids[2] = 2 * ((r + 1) * W + c);
+      ids[3] = 2 * (r * W + c) + 1;
       const saddle = nh === 2 && hi[0] === hi[2];
       const centreHigh = saddle && (cv[0] + cv[1] + cv[2] + cv[3]) / 4 >= level;
       for (let k = 0; k < 4; k++) {
@@ -58,10 +78,14 @@ export function traceIsolines(values: ArrayLike<number>, g: LocalGrid, level: nu
         let m = -1;
         for (let s = 1; s < 4; s++) {
           const q = centreHigh ? (k - s + 4) & 3 : (k + s) & 3;
-          if (hi[q] && !hi[(q + 1) & 3]) { m = q; break; }
+          if (hi[q] && !hi[(q + 1) & 3]) {
+            m = q;
+            break;
+          }
         }
         if (m < 0) continue;
-        const a = ids[k], b = ids[m];
+        const a = ids[k],
+          b = ids[m];
         if (blocked !== null && (blocked[a] !== 0 || blocked[b] !== 0)) continue;
         next[a] = b;
         hasPrev[b] = 1;
@@ -88,7 +112,10 @@ export function traceIsolines(values: ArrayLike<number>, g: LocalGrid, level: nu
       list.push(e);
       e = next[e];
     }
-    if (e === start) { point(e); list.push(e); }
+    if (e === start) {
+      point(e);
+      list.push(e);
+    }
     return list;
   };
   for (let e = 0; e < E; e++) if (next[e] >= 0 && hasPrev[e] === 0 && seen[e] === 0) lines.push(toKm(follow(e), false));

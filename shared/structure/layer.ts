@@ -61,15 +61,50 @@ const rng = (r: Range) => ({ value: rr(r.value), low: rr(r.low), high: rr(r.high
 /** A fault's report as exported (CLI --json, run summary, web panel): the statements, rounded to 10 m. */
 export function faultSummary(f: FaultReport) {
   return {
-    id: f.id, name: f.name, kind: f.kind, lengthKm: rr(f.lengthKm), strikeDeg: rr(f.strikeDeg), hangingWall: f.hangingWall, sideNames: f.sideNames,
-    gradeJump: f.gradeJump, higherSide: f.higherSide, higherWall: f.higherWall,
-    repeatedZones: f.repeatedZones, missingZones: f.missingZones, notReached: f.notReached, offsetOnly: f.offsetOnly,
+    id: f.id,
+    name: f.name,
+    kind: f.kind,
+    lengthKm: rr(f.lengthKm),
+    strikeDeg: rr(f.strikeDeg),
+    hangingWall: f.hangingWall,
+    sideNames: f.sideNames,
+    gradeJump: f.gradeJump,
+    higherSide: f.higherSide,
+    higherWall: f.higherWall,
+    repeatedZones: f.repeatedZones,
+    missingZones: f.missingZones,
+    notReached: f.notReached,
+    offsetOnly: f.offsetOnly,
     separations: f.separations.map((s) => {
-      const o: Record<string, unknown> = { isograd: s.isograd, end: s.end, separationKm: rng(s.separationKm), sense: s.sense, displacedTowardHigherGrade: s.displacedTowardHigherGrade, leftAlongKm: rr(s.leftAlongKm), rightAlongKm: rr(s.rightAlongKm) };
-      if (s.dipSlipKm !== undefined) { o.dipSlipKm = rng(s.dipSlipKm); o.slipSense = s.slipSense; o.cutoffPitchDeg = rr(s.cutoffPitchDeg as number); }
-      return o as { isograd: string; end: string; separationKm: { value: number; low: number; high: number }; sense: string; displacedTowardHigherGrade: string; leftAlongKm: number; rightAlongKm: number; dipSlipKm?: { value: number; low: number; high: number }; slipSense?: string; cutoffPitchDeg?: number };
+      const o: Record<string, unknown> = {
+        isograd: s.isograd,
+        end: s.end,
+        separationKm: rng(s.separationKm),
+        sense: s.sense,
+        displacedTowardHigherGrade: s.displacedTowardHigherGrade,
+        leftAlongKm: rr(s.leftAlongKm),
+        rightAlongKm: rr(s.rightAlongKm),
+      };
+      if (s.dipSlipKm !== undefined) {
+        o.dipSlipKm = rng(s.dipSlipKm);
+        o.slipSense = s.slipSense;
+        o.cutoffPitchDeg = rr(s.cutoffPitchDeg as number);
+      }
+      return o as {
+        isograd: string;
+        end: string;
+        separationKm: { value: number; low: number; high: number };
+        sense: string;
+        displacedTowardHigherGrade: string;
+        leftAlongKm: number;
+        rightAlongKm: number;
+        dipSlipKm?: { value: number; low: number; high: number };
+        slipSense?: string;
+        cutoffPitchDeg?: number;
+      };
     }),
-    sides: f.sides, overlapAlongKm: f.overlapAlongKm === null ? null : [rr(f.overlapAlongKm[0]), rr(f.overlapAlongKm[1])],
+    sides: f.sides,
+    overlapAlongKm: f.overlapAlongKm === null ? null : [rr(f.overlapAlongKm[0]), rr(f.overlapAlongKm[1])],
     warnings: f.warnings,
   };
 }
@@ -101,7 +136,12 @@ export interface IsogradReport {
 }
 
 export interface IsogradLayer {
-  lines: { type: 'FeatureCollection'; caution: string; provenance: Record<string, unknown>; features: { type: 'Feature'; geometry: { type: 'LineString'; coordinates: number[][] }; properties: Record<string, unknown> }[] };
+  lines: {
+    type: 'FeatureCollection';
+    caution: string;
+    provenance: Record<string, unknown>;
+    features: { type: 'Feature'; geometry: { type: 'LineString'; coordinates: number[][] }; properties: Record<string, unknown> }[];
+  };
   report: IsogradReport;
 }
 
@@ -109,7 +149,11 @@ const r6 = (v: number) => Math.round(v * 1e6) / 1e6;
 const r3 = (v: number) => Math.round(v * 1e3) / 1e3;
 
 /** Fault traces of a fault collection in the local frame; problems (zero length, bad vertices) are an InputError. */
-export function faultTraces(faults: FaultCollection, toLocal: (p: [number, number]) => [number, number], warnings: string[]): { traces: Trace[]; info: FaultCollection['features'] } {
+export function faultTraces(
+  faults: FaultCollection,
+  toLocal: (p: [number, number]) => [number, number],
+  warnings: string[],
+): { traces: Trace[]; info: FaultCollection['features'] } {
   const problems: InputProblem[] = [];
   const traces: Trace[] = [];
   faults.features.forEach((f, i) => {
@@ -127,7 +171,12 @@ export function faultTraces(faults: FaultCollection, toLocal: (p: [number, numbe
     for (const w of b.warnings) warnings.push(`fault ${label}: ${w}`);
     if (b.problems.length === 0) traces.push(b.trace);
   });
-  if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in the faults; first: fault ${problems[0].feature}: ${problems[0].problem}`, problems, 'invalid_features');
+  if (problems.length > 0)
+    throw new InputError(
+      `${problems.length} problem(s) in the faults; first: fault ${problems[0].feature}: ${problems[0].problem}`,
+      problems,
+      'invalid_features',
+    );
   return { traces, info: faults.features };
 }
 
@@ -140,12 +189,17 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
   const warnings: string[] = [];
   const feats = samples.features;
   const n = feats.length;
-  const lon = new Float64Array(n), lat = new Float64Array(n);
-  feats.forEach((f, i) => { lon[i] = f.geometry.coordinates[0]; lat[i] = f.geometry.coordinates[1]; });
+  const lon = new Float64Array(n),
+    lat = new Float64Array(n);
+  feats.forEach((f, i) => {
+    lon[i] = f.geometry.coordinates[0];
+    lat[i] = f.geometry.coordinates[1];
+  });
   const props = feats.map((f, i) => ({ ...f.properties, id: String(f.properties.id ?? f.id ?? `samples-${i + 1}`) }));
   const grades: SampleGrade[] = sampleGrades(props, warnings);
   const proj = localProjectionFor(lon, lat);
-  const x = new Float64Array(n), y = new Float64Array(n);
+  const x = new Float64Array(n),
+    y = new Float64Array(n);
   lonLatToLocalKm(proj, lon, lat, x, y);
   const conv = converter(WGS84_DEF, proj.def);
 
@@ -163,14 +217,23 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
   const reports: FaultReport[] = traces.map((t, k) => {
     const p = info[k].properties;
     const r = faultReport({ trace: t, name: p.name, kind: p.kind, dipDeg: p.dipDeg, dipDirectionDeg: p.dipDirectionDeg }, res.field, {
-      faultDistanceKm: opts.faultDistanceKm, stationKm, supportKm: res.supportKm, maxSeparationKm: opts.maxSeparationKm, stationSupportKm: opts.stationSupportKm,
-      sampleIds: props.map((q) => q.id), isogradDipDeg: opts.isogradDipDeg,
+      faultDistanceKm: opts.faultDistanceKm,
+      stationKm,
+      supportKm: res.supportKm,
+      maxSeparationKm: opts.maxSeparationKm,
+      stationSupportKm: opts.stationSupportKm,
+      sampleIds: props.map((q) => q.id),
+      isogradDipDeg: opts.isogradDipDeg,
     });
     for (const w of r.warnings) warnings.push(`fault ${t.id}: ${w}`);
     return r;
   });
 
-  const paleo = paleoGradients(props, { ...(opts.paleo ?? {}), model: opts.model ?? opts.paleo?.model ?? null, heatFlowMWm2: opts.heatFlowMWm2 ?? opts.paleo?.heatFlowMWm2 });
+  const paleo = paleoGradients(props, {
+    ...(opts.paleo ?? {}),
+    model: opts.model ?? opts.paleo?.model ?? null,
+    heatFlowMWm2: opts.heatFlowMWm2 ?? opts.paleo?.heatFlowMWm2,
+  });
 
   const features: IsogradLayer['lines']['features'] = res.lines.map((l) => {
     const coordinates: number[][] = [];
@@ -182,10 +245,18 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
       type: 'Feature',
       geometry: { type: 'LineString', coordinates },
       properties: {
-        isograd: l.isograd, probability: l.probability, mineral: l.mineral, rank: l.rank, highSide: 'right', closed: l.closed, lengthKm: r3(l.lengthKm),
+        isograd: l.isograd,
+        probability: l.probability,
+        mineral: l.mineral,
+        rank: l.rank,
+        highSide: 'right',
+        closed: l.closed,
+        lengthKm: r3(l.lengthKm),
         ...(l.bandWidthKm !== undefined ? { bandWidthKm: l.bandWidthKm } : {}),
-        supportRadiusKm: l.support.radiusKm, samplesNearMidpoint: l.support.samplesNearMidpoint,
-        meanSamplesPerVertex: r3(l.support.meanSamplesPerVertex), minSamplesPerVertex: l.support.minSamplesPerVertex,
+        supportRadiusKm: l.support.radiusKm,
+        samplesNearMidpoint: l.support.samplesNearMidpoint,
+        meanSamplesPerVertex: r3(l.support.meanSamplesPerVertex),
+        minSamplesPerVertex: l.support.minSamplesPerVertex,
       },
     };
   });
@@ -193,34 +264,90 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
   const isograds: IsogradSummary[] = [];
   for (let j = 1; j <= BOUNDARY_COUNT; j++) {
     const ls = isoLines.filter((l) => l.rank === j);
-    let above = 0, below = 0;
-    for (const g of grades) { if (g.lo < 0) continue; if (g.lo >= j) above++; else if (g.hi < j) below++; }
-    const widths = ls.flatMap((l) => l.bandWidthKm?.widthKm ?? []).filter((v): v is number => v !== null).sort((a, b) => a - b);
+    let above = 0,
+      below = 0;
+    for (const g of grades) {
+      if (g.lo < 0) continue;
+      if (g.lo >= j) above++;
+      else if (g.hi < j) below++;
+    }
+    const widths = ls
+      .flatMap((l) => l.bandWidthKm?.widthKm ?? [])
+      .filter((v): v is number => v !== null)
+      .sort((a, b) => a - b);
     const v = res.field.variograms[j - 1];
     isograds.push({
-      isograd: `${ZONE_NAMES[j]}-in`, mineral: ZONE_NAMES[j], rank: j, lines: ls.length, lengthKm: r3(ls.reduce((s, l) => s + l.lengthKm, 0)), samplesAbove: above, samplesBelow: below,
-      bandWidthKm: widths.length > 0 ? { median: widths[widths.length >> 1], p10: widths[Math.floor(0.1 * (widths.length - 1))], p90: widths[Math.ceil(0.9 * (widths.length - 1))], max: widths[widths.length - 1] } : null,
-      variogram: v === null || v === undefined ? null : { source: v.source, model: v.model.model, nugget: r3(v.model.nugget), partialSill: r3(v.model.partialSill), rangeKm: r3(v.model.rangeKm), samples: v.samples },
+      isograd: `${ZONE_NAMES[j]}-in`,
+      mineral: ZONE_NAMES[j],
+      rank: j,
+      lines: ls.length,
+      lengthKm: r3(ls.reduce((s, l) => s + l.lengthKm, 0)),
+      samplesAbove: above,
+      samplesBelow: below,
+      bandWidthKm:
+        widths.length > 0
+          ? {
+              median: widths[widths.length >> 1],
+              p10: widths[Math.floor(0.1 * (widths.length - 1))],
+              p90: widths[Math.ceil(0.9 * (widths.length - 1))],
+              max: widths[widths.length - 1],
+            }
+          : null,
+      variogram:
+        v === null || v === undefined
+          ? null
+          : {
+              source: v.source,
+              model: v.model.model,
+              nugget: r3(v.model.nugget),
+              partialSill: r3(v.model.partialSill),
+              rangeKm: r3(v.model.rangeKm),
+              samples: v.samples,
+            },
       disagreeing: res.disagreeing[j - 1].samples.map((q) => ({ id: q.id, says: q.says, probability: q.probability })),
     });
   }
   const count = (s: string) => grades.filter((g) => g.source === s).length;
   const kriging = (opts.method ?? 'kriging') === 'kriging';
-  const power = opts.power ?? 2, neighbors = opts.neighbors ?? (kriging ? 16 : 12);
+  const power = opts.power ?? 2,
+    neighbors = opts.neighbors ?? (kriging ? 16 : 12);
   const report: IsogradReport = {
-    isograds, faults: reports.map(faultSummary), misfits, paleoGradients: paleo,
-    samples: grades.map((g) => { const o: IsogradReport['samples'][number] = { id: g.id, zone: g.label, source: g.source, series: g.series }; if (g.aluminosilicate !== undefined) o.aluminosilicate = g.aluminosilicate; return o; }),
+    isograds,
+    faults: reports.map(faultSummary),
+    misfits,
+    paleoGradients: paleo,
+    samples: grades.map((g) => {
+      const o: IsogradReport['samples'][number] = { id: g.id, zone: g.label, source: g.source, series: g.series };
+      if (g.aluminosilicate !== undefined) o.aluminosilicate = g.aluminosilicate;
+      return o;
+    }),
     method: {
       indicator: kriging
         ? `indicator kriging (Journel 1983): ordinary kriging of each isograd's indicator, ${neighbors} nearest visible samples, fitted spherical indicator variograms or the median-indicator one, order relations corrected; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`
         : `indicator inverse-distance weighting (Shepard 1968), power ${power}, ${neighbors} nearest visible samples; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`,
-      power, neighbors, cellKm: res.grid.cellKm, grid: { width: res.grid.width, height: res.grid.height }, supportKm: r3(res.supportKm),
-      faultBarriers: pieces !== null, projection: proj.def, highSide: 'right',
-      gradeRules: 'zone → its rank; facies only → ranks whose isograd midpoint temperature lies in the facies field\'s span; peak T–P only → ranks between the isograd temperature ranges certainly and possibly crossed; partial samples inform only the isograds they decide',
+      power,
+      neighbors,
+      cellKm: res.grid.cellKm,
+      grid: { width: res.grid.width, height: res.grid.height },
+      supportKm: r3(res.supportKm),
+      faultBarriers: pieces !== null,
+      projection: proj.def,
+      highSide: 'right',
+      gradeRules:
+        "zone → its rank; facies only → ranks whose isograd midpoint temperature lies in the facies field's span; peak T–P only → ranks between the isograd temperature ranges certainly and possibly crossed; partial samples inform only the isograds they decide",
     },
     sampleCounts: { total: n, zone: count('zone'), facies: count('facies'), peakPt: count('peak-pt'), none: count('none') },
-    droppedLoops: res.droppedLoops, warnings, timingsMs: res.timingsMs,
+    droppedLoops: res.droppedLoops,
+    warnings,
+    timingsMs: res.timingsMs,
   };
-  const provenance = { tool: TOOL_NAME, version: VERSION, method: report.method.indicator, highSide: 'right', cellKm: res.grid.cellKm, supportKm: r3(res.supportKm) };
+  const provenance = {
+    tool: TOOL_NAME,
+    version: VERSION,
+    method: report.method.indicator,
+    highSide: 'right',
+    cellKm: res.grid.cellKm,
+    supportKm: r3(res.supportKm),
+  };
   return { lines: { type: 'FeatureCollection', caution: CAUTION, provenance, features }, report };
 }

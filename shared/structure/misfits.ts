@@ -71,11 +71,18 @@ export function distanceToPolyline(c: Float64Array, x: number, y: number): numbe
 }
 
 /** The misfits among the field's samples, with distances to the drawn isograds (lines in local km). */
-export function findMisfits(field: IndicatorField, loo: LeaveOneOut, grades: readonly SampleGrade[], lines: readonly { rank: number; isograd: string; coords: Float64Array }[], maxProbability = 0.3): Misfit[] {
+export function findMisfits(
+  field: IndicatorField,
+  loo: LeaveOneOut,
+  grades: readonly SampleGrade[],
+  lines: readonly { rank: number; isograd: string; coords: Float64Array }[],
+  maxProbability = 0.3,
+): Misfit[] {
   const out: Misfit[] = [];
   for (let i = 0; i < field.count; i++) {
     const r = loo.rank[i];
-    const lo = field.lo[i], hi = field.hi[i];
+    const lo = field.lo[i],
+      hi = field.hi[i];
     if (r < 0 || (r >= lo && r <= hi)) continue;
     const pLo = lo === 0 ? 1 : loo.p[i * BOUNDARY_COUNT + lo - 1];
     const pHi = hi >= BOUNDARY_COUNT ? 0 : loo.p[i * BOUNDARY_COUNT + hi];
@@ -85,11 +92,15 @@ export function findMisfits(field: IndicatorField, loo: LeaveOneOut, grades: rea
     const ranks: number[] = [];
     if (r < lo) for (let j = r + 1; j <= lo; j++) ranks.push(j);
     else for (let j = hi + 1; j <= r; j++) ranks.push(j);
-    let best = Infinity, which: string | null = null;
+    let best = Infinity,
+      which: string | null = null;
     for (const l of lines) {
       if (!ranks.includes(l.rank)) continue;
       const d = distanceToPolyline(l.coords, field.x[i], field.y[i]);
-      if (d < best) { best = d; which = l.isograd; }
+      if (d < best) {
+        best = d;
+        which = l.isograd;
+      }
     }
     out.push({
       id: g.id,

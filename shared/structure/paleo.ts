@@ -39,7 +39,10 @@ export interface PaleoGradient {
 }
 
 /** Paleo-gradients of the samples that carry peak T (°C) and P (kbar). */
-export function paleoGradients(samples: readonly { id: string; peakTemperatureC?: number; peakPressureKbar?: number }[], o: PaleoOptions = {}): PaleoGradient[] {
+export function paleoGradients(
+  samples: readonly { id: string; peakTemperatureC?: number; peakPressureKbar?: number }[],
+  o: PaleoOptions = {},
+): PaleoGradient[] {
   const rho = o.densityKgM3 ?? DEFAULT_PALEO_DENSITY_KG_M3;
   const g = o.gravityMS2 ?? 9.81;
   if (!(rho > 0) || !(g > 0)) throw new RangeError(`density and gravity must be > 0, got ${rho}, ${g}`);
@@ -48,16 +51,18 @@ export function paleoGradients(samples: readonly { id: string; peakTemperatureC?
   let st: ColumnState | null = null;
   if (cm !== null) {
     const q0 = o.heatFlowMWm2 ?? cm.surfaceHeatFlowMWm2;
-    if (!(q0 > 0)) throw new RangeError('a surface heat flow > 0 is needed for today\'s geotherm');
+    if (!(q0 > 0)) throw new RangeError("a surface heat flow > 0 is needed for today's geotherm");
     st = new ColumnState(cm.nLayers);
     solveColumn(cm, q0, cm.surfaceTemperatureC, st);
   }
   const out: PaleoGradient[] = [];
   for (const s of samples) {
-    const T = s.peakTemperatureC, P = s.peakPressureKbar;
+    const T = s.peakTemperatureC,
+      P = s.peakPressureKbar;
     if (!(Number.isFinite(T) && Number.isFinite(P))) continue;
     const pc = peakConditions(T as number, P as number, { densityKgM3: rho, gravityMS2: g, surfaceTemperatureC: t0 });
-    let modelDepthKm: number | null = null, todayDepthKm: number | null = null;
+    let modelDepthKm: number | null = null,
+      todayDepthKm: number | null = null;
     if (cm !== null && st !== null) {
       const z = depthFromLithostaticPressure(cm, mpaFromKbar(P as number));
       modelDepthKm = Number.isFinite(z) ? z : null;
@@ -65,9 +70,15 @@ export function paleoGradients(samples: readonly { id: string; peakTemperatureC?
       todayDepthKm = Number.isFinite(zt) ? zt : null;
     }
     out.push({
-      id: s.id, peakTemperatureC: T as number, peakPressureKbar: P as number,
-      depthKm: pc.depthKm, apparentGradientCPerKm: pc.apparentGradientCPerKm,
-      facies: pc.facies.facies, faciesApproximate: pc.facies.approximate, modelDepthKm, todayDepthKm,
+      id: s.id,
+      peakTemperatureC: T as number,
+      peakPressureKbar: P as number,
+      depthKm: pc.depthKm,
+      apparentGradientCPerKm: pc.apparentGradientCPerKm,
+      facies: pc.facies.facies,
+      faciesApproximate: pc.facies.approximate,
+      modelDepthKm,
+      todayDepthKm,
     });
   }
   return out;

@@ -52,7 +52,8 @@ export function kirchhoffFromTemperature(tTop: number, b: number, t: number): nu
 
 /** Temperature dz km below the top of layer i, given that layer's top values (no checks; dz within the layer). */
 export function layerTemperature(cm: CompiledModel, i: number, tTop: number, qTop: number, dz: number): number {
-  const a = cm.aTop[i], d = cm.decayKm[i];
+  const a = cm.aTop[i],
+    d = cm.decayKm[i];
   const i2 = d > 0 ? a * d * (dz + d * Math.expm1(-dz / d)) : 0.5 * a * dz * dz;
   return temperatureFromKirchhoff(tTop, cm.b[i], (qTop * dz - i2) / cm.k0[i]);
 }
@@ -70,7 +71,8 @@ export function layerTemperature(cm: CompiledModel, i: number, tTop: number, qTo
  */
 export function solveColumn(cm: CompiledModel, q0: number, t0: number, st: ColumnState, needTempC = Infinity, needDepthKm = Infinity): number {
   const n = cm.nLayers;
-  const tT = st.tTopC, qT = st.qTopMWm2;
+  const tT = st.tTopC,
+    qT = st.qTopMWm2;
   st.surfaceHeatFlowMWm2 = q0;
   st.surfaceTemperatureC = t0;
   st.exhaustedLayer = -1;
@@ -81,7 +83,9 @@ export function solveColumn(cm: CompiledModel, q0: number, t0: number, st: Colum
     qT.fill(NaN);
     return st.status;
   }
-  let t = t0, q = q0, status = 0;
+  let t = t0,
+    q = q0,
+    status = 0;
   tT[0] = t;
   qT[0] = q;
   st.validToKm = cm.stackBottomKm;
@@ -101,7 +105,8 @@ export function solveColumn(cm: CompiledModel, q0: number, t0: number, st: Colum
     if (qb <= 0) {
       // q reaches 0 inside this layer: the column's temperature peaks there; below it a steady conductive
       // geotherm would cool with depth, which no valid model does.
-      const a = cm.aTop[i], d = cm.decayKm[i];
+      const a = cm.aTop[i],
+        d = cm.decayKm[i];
       const dz = d > 0 ? -d * Math.log1p(-q / (a * d)) : q / a;
       const dzz = dz >= 0 && dz <= h ? dz : h;
       const tMax = layerTemperature(cm, i, t, q, dzz);
@@ -132,14 +137,16 @@ export function solveColumn(cm: CompiledModel, q0: number, t0: number, st: Colum
 /** Fills layer tops from `from` down with +∞ temperatures and their heat flow; detects exhaustion from q alone. */
 function finishFlowOnly(cm: CompiledModel, q0: number, from: number, st: ColumnState): number {
   const n = cm.nLayers;
-  const tT = st.tTopC, qT = st.qTopMWm2;
+  const tT = st.tTopC,
+    qT = st.qTopMWm2;
   let status = 0;
   for (let j = from; j < n; j++) {
     const q = qT[j];
     tT[j + 1] = Infinity;
     qT[j + 1] = q - cm.i1[j];
     if (qT[j + 1] <= 0 && status === 0) {
-      const a = cm.aTop[j], d = cm.decayKm[j];
+      const a = cm.aTop[j],
+        d = cm.decayKm[j];
       const dz = d > 0 ? -d * Math.log1p(-q / (a * d)) : q / a;
       status = COLUMN_FLOW_EXHAUSTED;
       st.exhaustedLayer = j;
@@ -170,7 +177,9 @@ export function columnTemperature(cm: CompiledModel, st: ColumnState, z: number)
 export function columnHeatFlow(cm: CompiledModel, q0: number, z: number): number {
   if (!(z >= 0)) return NaN;
   const i = layerAt(cm, z);
-  const a = cm.aTop[i], d = cm.decayKm[i], dz = z - cm.topKm[i];
+  const a = cm.aTop[i],
+    d = cm.decayKm[i],
+    dz = z - cm.topKm[i];
   return q0 - cm.heatAboveMWm2[i] - (d > 0 ? a * d * -Math.expm1(-dz / d) : a * dz);
 }
 
@@ -198,8 +207,11 @@ export function columnIsothermDepth(cm: CompiledModel, st: ColumnState, tIso: nu
   if (i === n) return NaN;
   const top = cm.topKm[i];
   if (top > maxDepthKm) return NaN;
-  const tTop = tT[i], q = st.qTopMWm2[i];
-  const k = cm.k0[i], a = cm.aTop[i], d = cm.decayKm[i];
+  const tTop = tT[i],
+    q = st.qTopMWm2[i];
+  const k = cm.k0[i],
+    a = cm.aTop[i],
+    d = cm.decayKm[i];
   const theta = kirchhoffFromTemperature(tTop, cm.b[i], tIso);
   if (!(theta >= 0)) return NaN;
   const c = k * theta;
@@ -216,7 +228,8 @@ export function columnIsothermDepth(cm: CompiledModel, st: ColumnState, tIso: nu
     // bound, since the decaying A(z) ≤ A_top adds less curvature. Start from the quadratic with the mean A over
     // [0, c/q], which is within a small fraction of a percent of the root for crustal parameters.
     const xLin = c / q;
-    let lo = xLin, hi = hLim;
+    let lo = xLin,
+      hi = hLim;
     const discTop = q * q - 2 * a * c;
     if (discTop > 0) hi = Math.min(hi, (2 * c) / (q + Math.sqrt(discTop)));
     if (lo > hi) lo = hi;

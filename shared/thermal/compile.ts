@@ -99,11 +99,23 @@ export function compileModel(model: ThermalModel, options: CompileOptions = {}):
   const warnings: string[] = [];
   const names: string[] = [];
   const f = () => new Float64Array(n);
-  const topKm = f(), bottomKm = f(), thicknessKm = f(), k0 = f(), b = f(), aTop = f(), decayKm = f(), densityKgM3 = f();
-  const i1 = f(), i2 = f(), heatAboveMWm2 = f(), pressureTopMPa = f();
+  const topKm = f(),
+    bottomKm = f(),
+    thicknessKm = f(),
+    k0 = f(),
+    b = f(),
+    aTop = f(),
+    decayKm = f(),
+    densityKgM3 = f();
+  const i1 = f(),
+    i2 = f(),
+    heatAboveMWm2 = f(),
+    pressureTopMPa = f();
   const rock = new Uint8Array(n);
   let reducedLayer = -1;
-  let top = 0, heat = 0, p = 0;
+  let top = 0,
+    heat = 0,
+    p = 0;
   for (let i = 0; i < n; i++) {
     const L = layers[i];
     const label = L.name !== undefined ? `layers[${i}] (${L.name})` : `layers[${i}]`;

@@ -74,7 +74,8 @@ export function basalHeatFlow(cm: CompiledModel, heatFlowMWm2: number): number {
 /** Plain-language warnings for a solved column (empty when it is valid to the stack bottom). */
 export function columnWarnings(cm: CompiledModel, st: ColumnState): string[] {
   const w: string[] = [];
-  if (st.status & COLUMN_BAD_INPUT) w.push(`surface heat flow ${st.surfaceHeatFlowMWm2} mW/m² / temperature ${st.surfaceTemperatureC} °C are not usable (q0 must be > 0 and both finite)`);
+  if (st.status & COLUMN_BAD_INPUT)
+    w.push(`surface heat flow ${st.surfaceHeatFlowMWm2} mW/m² / temperature ${st.surfaceTemperatureC} °C are not usable (q0 must be > 0 and both finite)`);
   if (st.status & COLUMN_FLOW_EXHAUSTED) {
     w.push(
       `surface heat flow ${st.surfaceHeatFlowMWm2} mW/m² is too low for the model's heat production ` +
@@ -82,8 +83,18 @@ export function columnWarnings(cm: CompiledModel, st: ColumnState): string[] {
         `in ${cm.names[st.exhaustedLayer]}; this steady-state model is inconsistent there and no temperature is given below`,
     );
   }
-  if (st.status & COLUMN_CONDUCTIVITY_UNDEFINED) w.push(`1 + b·T ≤ 0 at ${st.validToKm} km: k(T) = k0/(1 + bT) is undefined there; no temperature is given below`);
+  if (st.status & COLUMN_CONDUCTIVITY_UNDEFINED)
+    w.push(`1 + b·T ≤ 0 at ${st.validToKm} km: k(T) = k0/(1 + bT) is undefined there; no temperature is given below`);
   return w;
 }
 
-export { ColumnState, solveColumn, columnTemperature, columnHeatFlow, columnIsothermDepth, COLUMN_BAD_INPUT, COLUMN_CONDUCTIVITY_UNDEFINED, COLUMN_FLOW_EXHAUSTED };
+export {
+  ColumnState,
+  solveColumn,
+  columnTemperature,
+  columnHeatFlow,
+  columnIsothermDepth,
+  COLUMN_BAD_INPUT,
+  COLUMN_CONDUCTIVITY_UNDEFINED,
+  COLUMN_FLOW_EXHAUSTED,
+};

@@ -51,25 +51,37 @@ export interface GeothermGridOptions {
  * @param models one compiled model, or an array indexed by `options.zones`
  * @param heatFlowMWm2 surface heat flow per cell, mW/m² (NaN = no data → NaN out, status 4)
  */
-export function geothermGrid(models: CompiledModel | CompiledModel[], heatFlowMWm2: Floats, query: GeothermGridQuery, out: GeothermGridOutput, options: GeothermGridOptions = {}): void {
+export function geothermGrid(
+  models: CompiledModel | CompiledModel[],
+  heatFlowMWm2: Floats,
+  query: GeothermGridQuery,
+  out: GeothermGridOutput,
+  options: GeothermGridOptions = {},
+): void {
   const list = Array.isArray(models) ? models : [models];
   if (list.length === 0) throw new RangeError('geothermGrid needs at least one compiled model');
   const start = options.start ?? 0;
   const end = options.end ?? heatFlowMWm2.length;
   if (!(start >= 0 && end <= heatFlowMWm2.length && start <= end)) throw new RangeError(`bad cell range [${start}, ${end}) for ${heatFlowMWm2.length} cells`);
-  const nIso = query.isothermsC.length, nDep = query.depthsKm.length;
+  const nIso = query.isothermsC.length,
+    nDep = query.depthsKm.length;
   if (out.isothermDepthKm.length !== nIso || out.temperatureC.length !== nDep) throw new RangeError('one output buffer per isotherm and per depth is needed');
-  for (const b of [...out.isothermDepthKm, ...out.temperatureC]) if (b.length < end) throw new RangeError(`output buffer of length ${b.length} is shorter than the cell range end ${end}`);
+  for (const b of [...out.isothermDepthKm, ...out.temperatureC])
+    if (b.length < end) throw new RangeError(`output buffer of length ${b.length} is shorter than the cell range end ${end}`);
   const zones = options.zones;
   if (zones === undefined && list.length > 1) throw new RangeError('several models need a zones array');
   const states = list.map((m) => new ColumnState(m.nLayers));
   const t0s = options.surfaceTemperatureC;
   const isos = Float64Array.from(query.isothermsC);
   const deps = Float64Array.from(query.depthsKm);
-  const status = out.status, basal = out.basalHeatFlowMWm2, melt = out.meltOnsetKm, wet = out.wetSolidusKm;
+  const status = out.status,
+    basal = out.basalHeatFlowMWm2,
+    melt = out.meltOnsetKm,
+    wet = out.wetSolidusKm;
   // Layer temperatures are needed only down to the hottest isotherm and the deepest depth asked for (all of them
   // when the melt-onset depth is asked for).
-  let needT = -Infinity, needZ = 0;
+  let needT = -Infinity,
+    needZ = 0;
   for (let k = 0; k < nIso; k++) needT = Math.max(needT, isos[k]);
   for (let k = 0; k < nDep; k++) needZ = Math.max(needZ, deps[k]);
   const full = melt !== undefined || wet !== undefined;

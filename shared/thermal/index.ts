@@ -1,6 +1,13 @@
 // The thermal engine's public API (re-exports only). See each file for the method and its source.
 export { compileModel, layerI1, layerI2, type CompiledModel, type CompileOptions } from './compile.ts';
-export { DEFAULT_DENSITY_KG_M3, DEFAULT_GRAVITY_MS2, DEFAULT_MANTLE_POTENTIAL_TEMPERATURE_C, DEFAULT_ROCK, type ThermalModel, type ThermalLayer } from './model.ts';
+export {
+  DEFAULT_DENSITY_KG_M3,
+  DEFAULT_GRAVITY_MS2,
+  DEFAULT_MANTLE_POTENTIAL_TEMPERATURE_C,
+  DEFAULT_ROCK,
+  type ThermalModel,
+  type ThermalLayer,
+} from './model.ts';
 export { heatProductionFromRadioelements } from './heat-production.ts';
 export {
   ColumnState,
@@ -15,7 +22,16 @@ export {
   COLUMN_CONDUCTIVITY_UNDEFINED,
   COLUMN_BAD_INPUT,
 } from './column.ts';
-export { solveModelColumn, temperatureAtDepth, heatFlowAtDepth, isothermDepth, reducedHeatFlow, basalHeatFlow, columnWarnings, type ColumnOptions } from './geotherm.ts';
+export {
+  solveModelColumn,
+  temperatureAtDepth,
+  heatFlowAtDepth,
+  isothermDepth,
+  reducedHeatFlow,
+  basalHeatFlow,
+  columnWarnings,
+  type ColumnOptions,
+} from './geotherm.ts';
 export { columnProfile, limitWarnings, type ColumnProfile, type ProfileOptions } from './profile.ts';
 export { geothermGrid, COLUMN_MELT_ONSET, type GeothermGridQuery, type GeothermGridOutput, type GeothermGridOptions } from './grid.ts';
 export {

@@ -19,7 +19,7 @@ import { ROCK_SOLIDUS, type SolidusCurve } from '../petrology/solidus.ts';
 import { ROCK_KINDS, type RockKind } from '../schema/model.ts';
 import { adiabatDepthKm, adiabatTemperatureC } from './adiabat.ts';
 import type { CompiledModel } from './compile.ts';
-import type { ColumnState} from './column.ts';
+import type { ColumnState } from './column.ts';
 import { COLUMN_BAD_INPUT, columnIsothermDepth, columnTemperature, layerAt } from './column.ts';
 import { lithostaticPressureMPa } from './pressure.ts';
 
@@ -80,7 +80,8 @@ function firstRoot(f: (z: number) => number, from: number, to: number, step: num
     }
     if (v >= 0) {
       if (zPrev !== zPrev) return z;
-      let lo = zPrev, hi = z;
+      let lo = zPrev,
+        hi = z;
       while (hi - lo > 1e-6) {
         const mid = 0.5 * (lo + hi);
         if (f(mid) >= 0) hi = mid;
@@ -98,7 +99,8 @@ function firstRoot(f: (z: number) => number, from: number, to: number, step: num
  * comment for the rules; all depths in km, NaN = not reached.
  */
 export function columnLimits(cm: CompiledModel, st: ColumnState, maxDepthKm: number, stepKm = 0.1): ColumnLimits {
-  const tp = cm.mantlePotentialTemperatureC, g = cm.gravityMS2;
+  const tp = cm.mantlePotentialTemperatureC,
+    g = cm.gravityMS2;
   const out: ColumnLimits = {
     wetSolidusKm: NaN,
     wetSolidusLayer: -1,
@@ -200,7 +202,8 @@ export function dryAtTops(cm: CompiledModel): Float64Array {
  */
 export function limitsWhereReached(cm: CompiledModel, st: ColumnState, zMax: number, dryTop: Float64Array, force = false): ColumnLimits | null {
   if (st.status & COLUMN_BAD_INPUT) return force ? columnLimits(cm, st, zMax) : null;
-  let hot = force, zSolved = 0;
+  let hot = force,
+    zSolved = 0;
   if (!hot) {
     const tT = st.tTopC;
     for (let i = 0; i < cm.nLayers && cm.topKm[i] <= zMax; i++) {
@@ -216,6 +219,10 @@ export function limitsWhereReached(cm: CompiledModel, st: ColumnState, zMax: num
   if (!hot) return null;
   // Scan only the solved part (all of it after a full solve).
   let zScan = zMax;
-  for (let i = 0; i < cm.nLayers; i++) if (!Number.isFinite(st.tTopC[i + 1])) { zScan = Math.min(zMax, Math.max(zSolved, cm.topKm[i])); break; }
+  for (let i = 0; i < cm.nLayers; i++)
+    if (!Number.isFinite(st.tTopC[i + 1])) {
+      zScan = Math.min(zMax, Math.max(zSolved, cm.topKm[i]));
+      break;
+    }
   return columnLimits(cm, st, zScan);
 }

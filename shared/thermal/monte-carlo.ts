@@ -112,13 +112,19 @@ export interface ColumnMonteCarloResult {
 export function monteCarloColumn(model: ThermalModelInput, o: ColumnMonteCarloOptions): ColumnMonteCarloResult {
   const N = o.realizations;
   if (!(Number.isInteger(N) && N >= 1)) throw new RangeError(`realizations must be a positive integer, got ${N}`);
-  const nIso = o.isothermsC.length, nDep = o.depthsKm.length;
+  const nIso = o.isothermsC.length,
+    nDep = o.depthsKm.length;
   const iso = o.isothermsC.map(() => new Float64Array(N));
   const dep = o.depthsKm.map(() => new Float64Array(N));
-  const basal = new Float64Array(N), reduced = new Float64Array(N), wet = new Float64Array(N), dry = new Float64Array(N), lith = new Float64Array(N);
+  const basal = new Float64Array(N),
+    reduced = new Float64Array(N),
+    wet = new Float64Array(N),
+    dry = new Float64Array(N),
+    lith = new Float64Array(N);
   const doSolidus = o.solidus ?? true;
   const copt: CompileOptions = { maxDepthKm: o.maxDepthKm, gravityMS2: o.gravityMS2 };
-  let rejected = 0, inconsistent = 0;
+  let rejected = 0,
+    inconsistent = 0;
   let firstRejection: string | null = null;
   let st: ColumnState | null = null;
   const rng: RandomStream = createStream(o.seed, 0);
@@ -267,24 +273,33 @@ export function cellNormal(seed: number, r: number, c: number): number {
 export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number, end: number, out: GridMonteCarloOutput, blockCells = 512): void {
   const spec = prep.spec;
   const N = spec.realizations;
-  const q = spec.heatFlowMWm2, sdq = spec.heatFlowSdMWm2, zones = spec.zones, t0s = spec.surfaceTemperatureC;
+  const q = spec.heatFlowMWm2,
+    sdq = spec.heatFlowSdMWm2,
+    zones = spec.zones,
+    t0s = spec.surfaceTemperatureC;
   const independent = spec.heatFlowErrorCorrelation === 'independent';
-  const sims = spec.heatFlowRealizationsMWm2, cells = q.length;
+  const sims = spec.heatFlowRealizationsMWm2,
+    cells = q.length;
   if (sims !== undefined && sims.length !== N * cells) throw new RangeError(`heatFlowRealizationsMWm2 needs ${N} × ${cells} values, got ${sims.length}`);
   if (!(start >= 0 && end <= q.length && start <= end)) throw new RangeError(`bad cell range [${start}, ${end}) for ${q.length} cells`);
-  const nIso = spec.isothermsC.length, nDep = spec.depthsKm.length, nQ = nIso + nDep;
+  const nIso = spec.isothermsC.length,
+    nDep = spec.depthsKm.length,
+    nQ = nIso + nDep;
   if (out.isotherms.length !== nIso || out.temperatures.length !== nDep) throw new RangeError('one output set per isotherm and per depth is needed');
   const B = Math.max(1, Math.min(blockCells, end - start));
   // Realization-major block buffers (r·B + cell): the inner loop over cells writes contiguously.
   const bufs = Array.from({ length: nQ }, () => new Float64Array(B * N));
   const scratch = new Float64Array(N);
-  const invalid = new Uint32Array(B), melted = new Uint32Array(B);
+  const invalid = new Uint32Array(B),
+    melted = new Uint32Array(B);
   const states = spec.models.map((m) => new ColumnState(m.layers.length));
-  const isos = Float64Array.from(spec.isothermsC), deps = Float64Array.from(spec.depthsKm);
+  const isos = Float64Array.from(spec.isothermsC),
+    deps = Float64Array.from(spec.depthsKm);
   const zMax = spec.maxDepthKm;
   const sum = emptySummary();
   const targets = [...out.isotherms, ...out.temperatures];
-  let needT = -Infinity, needZ = 0;
+  let needT = -Infinity,
+    needZ = 0;
   for (let k = 0; k < nIso; k++) needT = Math.max(needT, isos[k]);
   for (let k = 0; k < nDep; k++) needZ = Math.max(needZ, deps[k]);
   for (let b0 = start; b0 < end; b0 += B) {

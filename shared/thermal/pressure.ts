@@ -85,8 +85,19 @@ export interface PoreFluidAssessment {
 export function assessPoreFluidFactor(lambda: number): PoreFluidAssessment {
   const caveat = 'λ < 1 is never a guarantee of safety: the least principal stress, not the lithostatic load, controls fracturing';
   if (!Number.isFinite(lambda)) return { lambda, level: 'normal', warning: `pore-fluid factor undefined; ${caveat}` };
-  if (lambda >= 1) return { lambda, level: 'exceeds-lithostatic', warning: `pore-fluid factor λ = ${lambda.toFixed(3)} ≥ 1: fluid pressure exceeds the overburden; hydraulic fracturing expected` };
-  if (lambda >= 0.8) return { lambda, level: 'high', warning: `pore-fluid factor λ = ${lambda.toFixed(3)}: high overpressure, hydraulic-fracturing hazard; ${caveat}` };
-  if (lambda >= PORE_FLUID_FACTOR_WARNING) return { lambda, level: 'elevated', warning: `pore-fluid factor λ = ${lambda.toFixed(3)} ≥ ${PORE_FLUID_FACTOR_WARNING}: possible hydraulic-fracturing hazard where the least stress is below lithostatic; ${caveat}` };
+  if (lambda >= 1)
+    return {
+      lambda,
+      level: 'exceeds-lithostatic',
+      warning: `pore-fluid factor λ = ${lambda.toFixed(3)} ≥ 1: fluid pressure exceeds the overburden; hydraulic fracturing expected`,
+    };
+  if (lambda >= 0.8)
+    return { lambda, level: 'high', warning: `pore-fluid factor λ = ${lambda.toFixed(3)}: high overpressure, hydraulic-fracturing hazard; ${caveat}` };
+  if (lambda >= PORE_FLUID_FACTOR_WARNING)
+    return {
+      lambda,
+      level: 'elevated',
+      warning: `pore-fluid factor λ = ${lambda.toFixed(3)} ≥ ${PORE_FLUID_FACTOR_WARNING}: possible hydraulic-fracturing hazard where the least stress is below lithostatic; ${caveat}`,
+    };
   return { lambda, level: 'normal', warning: null };
 }

@@ -52,7 +52,10 @@ export function columnProfile(cm: CompiledModel, o: ProfileOptions = {}): Column
   // Samples at k·step (rounded to 1e-9 km so 0.1-km steps print cleanly), plus zMax itself.
   const nSteps = Math.floor(zMax / step + 1e-9);
   const n = nSteps + 1 + (Math.abs(nSteps * step - zMax) > 1e-9 ? 1 : 0);
-  const depthKm = new Float64Array(n), temperatureC = new Float64Array(n), heatFlowMWm2 = new Float64Array(n), pressureMPa = new Float64Array(n);
+  const depthKm = new Float64Array(n),
+    temperatureC = new Float64Array(n),
+    heatFlowMWm2 = new Float64Array(n),
+    pressureMPa = new Float64Array(n);
   const adiabatic = new Uint8Array(n);
   const limits = columnLimits(cm, st, zMax, Math.min(step, 0.1));
   for (let j = 0; j < n; j++) {
@@ -91,20 +94,28 @@ export function limitWarnings(cm: CompiledModel, lim: ColumnLimits): string[] {
   const name = (i: number) => `${cm.names[i]} (${layerRock(cm, i)})`;
   if (lim.wetSolidusKm === lim.wetSolidusKm) {
     const c = layerSolidus(cm, lim.wetSolidusLayer).wet;
-    w.push(`the geotherm reaches the ${c.label} solidus at ${km(lim.wetSolidusKm)} in ${name(lim.wetSolidusLayer)}: melting there if free water is present (${c.source})`);
+    w.push(
+      `the geotherm reaches the ${c.label} solidus at ${km(lim.wetSolidusKm)} in ${name(lim.wetSolidusLayer)}: melting there if free water is present (${c.source})`,
+    );
   }
   if (lim.meltOnsetKm === lim.meltOnsetKm) {
     const c = layerSolidus(cm, lim.meltOnsetLayer).dry;
-    w.push(`melt onset at ${km(lim.meltOnsetKm)} in ${name(lim.meltOnsetLayer)}: the geotherm reaches the ${c.label} solidus (${c.source}); a conductive geotherm is not valid below, and no temperature is given there`);
+    w.push(
+      `melt onset at ${km(lim.meltOnsetKm)} in ${name(lim.meltOnsetLayer)}: the geotherm reaches the ${c.label} solidus (${c.source}); a conductive geotherm is not valid below, and no temperature is given there`,
+    );
   }
   if (lim.lithosphereBaseKm === lim.lithosphereBaseKm) {
-    w.push(`the conductive geotherm meets the mantle adiabat (potential temperature ${lim.mantlePotentialTemperatureC} °C) at ${km(lim.lithosphereBaseKm)}, the base of the thermal lithosphere; the adiabat is used below`);
+    w.push(
+      `the conductive geotherm meets the mantle adiabat (potential temperature ${lim.mantlePotentialTemperatureC} °C) at ${km(lim.lithosphereBaseKm)}, the base of the thermal lithosphere; the adiabat is used below`,
+    );
   }
   if (lim.adiabatAboveDrySolidusToKm === lim.adiabatAboveDrySolidusToKm) {
     const thin = lim.lithosphereBaseKm === lim.lithosphereBaseKm && lim.lithosphereBaseKm < lim.adiabatAboveDrySolidusToKm;
     w.push(
       `the mantle adiabat (potential temperature ${lim.mantlePotentialTemperatureC} °C) is above the dry peridotite solidus (Hirschmann 2000) down to ${km(lim.adiabatAboveDrySolidusToKm)}: ` +
-        (thin ? `the lithosphere base at ${km(lim.lithosphereBaseKm)} is shallower, so the mantle melts by decompression below it` : 'decompression melting wherever the lithosphere is thinner than that'),
+        (thin
+          ? `the lithosphere base at ${km(lim.lithosphereBaseKm)} is shallower, so the mantle melts by decompression below it`
+          : 'decompression melting wherever the lithosphere is thinner than that'),
     );
   }
   return w;

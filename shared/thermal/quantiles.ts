@@ -31,7 +31,8 @@ export interface Summary {
 /** Writes the summary of sorted values a[from .. from + n) (NaN-free, +Infinity at the end) into `out`. */
 export function summarizeSorted(a: ArrayLike<number>, from: number, n: number, out: Summary): Summary {
   out.n = n;
-  let finite = 0, sum = 0;
+  let finite = 0,
+    sum = 0;
   for (let i = 0; i < n; i++) {
     const v = a[from + i];
     if (Number.isFinite(v)) {
@@ -67,19 +68,29 @@ export function stderrMedianSorted(a: ArrayLike<number>, from: number, n: number
   const r = z * Math.sqrt(n);
   const j = Math.max(1, Math.floor((n - r) / 2));
   const k = Math.min(n, Math.ceil(1 + (n + r) / 2));
-  const lo = a[from + j - 1], hi = a[from + k - 1];
+  const lo = a[from + j - 1],
+    hi = a[from + k - 1];
   if (!Number.isFinite(lo) || !Number.isFinite(hi)) return NaN;
   return (hi - lo) / (2 * z);
 }
 
 /** Sorts values (NaN removed) and summarizes them. Allocates a copy; for one column, not for grids. */
 export function summarize(values: ArrayLike<number>): Summary {
-  const a = Float64Array.from(values).filter((v) => v === v).sort();
+  const a = Float64Array.from(values)
+    .filter((v) => v === v)
+    .sort();
   return summarizeSorted(a, 0, a.length, { p10: NaN, p50: NaN, p90: NaN, mean: NaN, sd: NaN, stderrP50: NaN, n: 0, finite: 0 });
 }
 
 /** JSON form of a summary: NaN → null. */
-export function summaryToJson(s: Summary): { p10: number | null; p50: number | null; p90: number | null; mean: number | null; sd: number | null; stderrP50: number | null } {
+export function summaryToJson(s: Summary): {
+  p10: number | null;
+  p50: number | null;
+  p90: number | null;
+  mean: number | null;
+  sd: number | null;
+  stderrP50: number | null;
+} {
   const j = (v: number) => (Number.isFinite(v) ? v : null);
   return { p10: j(s.p10), p50: j(s.p50), p90: j(s.p90), mean: j(s.mean), sd: j(s.sd), stderrP50: j(s.stderrP50) };
 }

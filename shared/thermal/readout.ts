@@ -53,13 +53,29 @@ export function parsePorePressureMode(text: string | undefined, fluidDensityKgM3
 }
 
 /** Pore pressure, λ and effective pressure (MPa) at depthKm for lithostatic pressure pLithMPa. */
-export function porePressureAt(mode: PorePressureMode, depthKm: number, pLithMPa: number, gravityMS2: number): { porePressureMPa: number; poreFluidFactor: number; effectivePressureMPa: number } {
+export function porePressureAt(
+  mode: PorePressureMode,
+  depthKm: number,
+  pLithMPa: number,
+  gravityMS2: number,
+): { porePressureMPa: number; poreFluidFactor: number; effectivePressureMPa: number } {
   const pf = mode.kind === 'hydrostatic' ? hydrostaticPressureMPa(depthKm, { fluidDensityKgM3: mode.fluidDensityKgM3, gravityMS2 }) : mode.lambda * pLithMPa;
-  return { porePressureMPa: pf, poreFluidFactor: depthKm > 0 ? poreFluidFactor(pf, pLithMPa) : mode.kind === 'lambda' ? mode.lambda : NaN, effectivePressureMPa: effectivePressureMPa(pLithMPa, pf) };
+  return {
+    porePressureMPa: pf,
+    poreFluidFactor: depthKm > 0 ? poreFluidFactor(pf, pLithMPa) : mode.kind === 'lambda' ? mode.lambda : NaN,
+    effectivePressureMPa: effectivePressureMPa(pLithMPa, pf),
+  };
 }
 
 /** Description of the pore-pressure mode, and the hazard warning for a fixed λ (null when none). */
 export function describePorePressure(mode: PorePressureMode): { method: string; warning: string | null } {
-  if (mode.kind === 'hydrostatic') return { method: `hydrostatic: Pf = ρf·g·z, ρf = ${mode.fluidDensityKgM3} kg/m³, water table at the surface; λ = Pf/Plith, effective pressure Plith − Pf (Hubbert & Rubey 1959)`, warning: null };
-  return { method: `fixed pore-fluid factor: Pf = λ·Plith, λ = ${mode.lambda}; effective pressure Plith − Pf (Hubbert & Rubey 1959)`, warning: assessPoreFluidFactor(mode.lambda).warning };
+  if (mode.kind === 'hydrostatic')
+    return {
+      method: `hydrostatic: Pf = ρf·g·z, ρf = ${mode.fluidDensityKgM3} kg/m³, water table at the surface; λ = Pf/Plith, effective pressure Plith − Pf (Hubbert & Rubey 1959)`,
+      warning: null,
+    };
+  return {
+    method: `fixed pore-fluid factor: Pf = λ·Plith, λ = ${mode.lambda}; effective pressure Plith − Pf (Hubbert & Rubey 1959)`,
+    warning: assessPoreFluidFactor(mode.lambda).warning,
+  };
 }

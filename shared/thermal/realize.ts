@@ -26,7 +26,9 @@ function mapModel(m: ThermalModelInput, f: (v: UncertainNumber | undefined) => n
     if (b !== undefined) out.conductivityTempCoeffPerK = b;
     const a = f(l.heatProductionUWm3);
     if (a !== undefined) out.heatProductionUWm3 = a;
-    const u = f(l.uraniumPpm), th = f(l.thoriumPpm), k = f(l.potassiumPct);
+    const u = f(l.uraniumPpm),
+      th = f(l.thoriumPpm),
+      k = f(l.potassiumPct);
     if (u !== undefined) out.uraniumPpm = u;
     if (th !== undefined) out.thoriumPpm = th;
     if (k !== undefined) out.potassiumPct = k;
@@ -65,7 +67,18 @@ export function isUncertainModel(m: ThermalModelInput): boolean {
     u(m.surfaceHeatFlowMWm2) ||
     u(m.surfaceTemperatureC) ||
     u(m.mantlePotentialTemperatureC) ||
-    m.layers.some((l) => [l.conductivityWmK, l.conductivityTempCoeffPerK, l.heatProductionUWm3, l.uraniumPpm, l.thoriumPpm, l.potassiumPct, l.heatProductionDecayKm, l.densityKgM3].some(u))
+    m.layers.some((l) =>
+      [
+        l.conductivityWmK,
+        l.conductivityTempCoeffPerK,
+        l.heatProductionUWm3,
+        l.uraniumPpm,
+        l.thoriumPpm,
+        l.potassiumPct,
+        l.heatProductionDecayKm,
+        l.densityKgM3,
+      ].some(u),
+    )
   );
 }
 

@@ -5,7 +5,7 @@
  */
 import { dryPeridotiteSolidusC, wetGraniteSolidusC } from '../petrology/solidus.ts';
 import type { CompiledModel } from './compile.ts';
-import type { ColumnState} from './column.ts';
+import type { ColumnState } from './column.ts';
 import { columnTemperature } from './column.ts';
 import { lithostaticPressureMPa } from './pressure.ts';
 
@@ -33,7 +33,8 @@ export function solidusCrossingDepth(cm: CompiledModel, st: ColumnState, solidus
     }
     if (v >= 0) {
       if (zPrev !== zPrev) return z;
-      let lo = zPrev, hi = z;
+      let lo = zPrev,
+        hi = z;
       while (hi - lo > 1e-6) {
         const mid = 0.5 * (lo + hi);
         const fm = f(mid);

@@ -166,7 +166,10 @@ const nullIfNaN = (v: number) => (Number.isFinite(v) ? v : null);
  * about it). The surface anchor counts as a point at z = 0 with σ = anchorSdC. Falls back to `fallbackM`.
  */
 export function effectiveDepthM(points: { depthM: number; sdC: number; used: boolean }[], anchorSdC: number | undefined, fallbackM: number): number {
-  let sw = 0, sz = 0, sz2 = 0, sz3 = 0;
+  let sw = 0,
+    sz = 0,
+    sz2 = 0,
+    sz3 = 0;
   const add = (z: number, w: number) => {
     sw += w;
     sz += w * z;
@@ -176,8 +179,11 @@ export function effectiveDepthM(points: { depthM: number; sdC: number; used: boo
   for (const p of points) if (p.used && p.sdC > 0 && Number.isFinite(p.depthM)) add(p.depthM, 1 / (p.sdC * p.sdC));
   if (anchorSdC !== undefined && anchorSdC > 0) add(0, 1 / (anchorSdC * anchorSdC));
   if (!(sw > 0)) return fallbackM;
-  const m1 = sz / sw, m2 = sz2 / sw, m3 = sz3 / sw;
-  const varZ = m2 - m1 * m1, cov = m3 - m1 * m2;
+  const m1 = sz / sw,
+    m2 = sz2 / sw,
+    m3 = sz3 / sw;
+  const varZ = m2 - m1 * m1,
+    cov = m3 - m1 * m2;
   const z = varZ > 0 ? cov / (2 * varZ) : NaN;
   return Number.isFinite(z) && z >= 0 ? z : fallbackM;
 }
@@ -212,18 +218,37 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
   const base = { id: well.id, name: well.name, lonLat: well.lonLat, elevationM: well.elevationM, points, horner: corr.horner, flags };
   const plotBase = (): WellPlot => ({
     raw,
-    corrected: points.map((p) => ({ sources: p.sources, depthM: p.depthM, temperatureC: p.temperatureC, sdC: p.sdC, method: p.method, used: p.used, flags: p.flags })),
+    corrected: points.map((p) => ({
+      sources: p.sources,
+      depthM: p.depthM,
+      temperatureC: p.temperatureC,
+      sdC: p.sdC,
+      method: p.method,
+      used: p.used,
+      flags: p.flags,
+    })),
     fitLine: [],
   });
   const methods = [...new Set(points.filter((p) => p.used).map((p) => p.method))].sort();
   const usedCount = points.filter((p) => p.used).length;
   const noGradient = (reason: string): WellReport => {
     const status: WellStatus = 'no-heat-flow';
-    return { ...base, status, reason, plot: plotBase(), row: { id: well.id, name: well.name, status, method: methods.join('+'), nPoints: usedCount, flags: flags.map((f) => f.code) } };
+    return {
+      ...base,
+      status,
+      reason,
+      plot: plotBase(),
+      row: { id: well.id, name: well.name, status, method: methods.join('+'), nPoints: usedCount, flags: flags.map((f) => f.code) },
+    };
   };
   if (grad === null) {
     const distinct = new Set(points.filter((p) => p.used).map((p) => p.depthM)).size;
-    const why = usedCount === 0 ? 'no usable measurement' : distinct <= 1 && !(anchor && ts !== undefined) ? `all ${usedCount} usable point${usedCount === 1 ? ' is' : 's are'} at one depth and no surface temperature anchors the line (give --surface-temp-c or a model)` : 'the points do not span two depths';
+    const why =
+      usedCount === 0
+        ? 'no usable measurement'
+        : distinct <= 1 && !(anchor && ts !== undefined)
+          ? `all ${usedCount} usable point${usedCount === 1 ? ' is' : 's are'} at one depth and no surface temperature anchors the line (give --surface-temp-c or a model)`
+          : 'the points do not span two depths';
     flags.push({ code: 'no-gradient', message: why });
     return noGradient(why);
   }
@@ -266,7 +291,11 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
       flags.push({ code: 'no-lithology-map', message: 'the well has a lithologyColumn but no lithology → conductivity map was given' });
     } else {
       const r = columnFromLithology(well.lithologyColumn, opts.lithologyConductivity);
-      if (r.missing.length > 0) flags.push({ code: 'lithology-unmapped', message: `lithologies not in the conductivity map: ${r.missing.join(', ')} (those intervals have no conductivity)` });
+      if (r.missing.length > 0)
+        flags.push({
+          code: 'lithology-unmapped',
+          message: `lithologies not in the conductivity map: ${r.missing.join(', ')} (those intervals have no conductivity)`,
+        });
       if (r.column.length > 0) {
         source = 'lithology';
         column = sortColumn(r.column);
@@ -330,13 +359,34 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
     const check = modelCheck();
     return { ...base, status: 'gradient-only', reason, gradient, plot, modelCheck: check, row: rowOf('gradient-only', undefined, undefined, check) };
   }
-  if (hm.coverage < 1 - 1e-9) flags.push({ code: 'conductivity-partial', message: `the conductivity covers ${(hm.coverage * 100).toFixed(0)} % of ${top}–${bottom} m; the harmonic mean is over the covered part` });
-  const conductivity: WellConductivity = { source, harmonicMeanWmK: hm.conductivityWmK, relativeSd: relSd[source], topM: top, bottomM: bottom, coverage: hm.coverage, temperatureDependent: tempDependent };
+  if (hm.coverage < 1 - 1e-9)
+    flags.push({
+      code: 'conductivity-partial',
+      message: `the conductivity covers ${(hm.coverage * 100).toFixed(0)} % of ${top}–${bottom} m; the harmonic mean is over the covered part`,
+    });
+  const conductivity: WellConductivity = {
+    source,
+    harmonicMeanWmK: hm.conductivityWmK,
+    relativeSd: relSd[source],
+    topM: top,
+    bottomM: bottom,
+    coverage: hm.coverage,
+    temperatureDependent: tempDependent,
+  };
 
   if (!(grad.gradientCPerKm > 0)) {
     const reason = `non-positive gradient (${grad.gradientCPerKm.toFixed(2)} °C/km)`;
     const check = modelCheck();
-    return { ...base, status: 'no-heat-flow', reason, gradient, conductivity, plot, modelCheck: check, row: rowOf('no-heat-flow', undefined, conductivity, check) };
+    return {
+      ...base,
+      status: 'no-heat-flow',
+      reason,
+      gradient,
+      conductivity,
+      plot,
+      modelCheck: check,
+      row: rowOf('no-heat-flow', undefined, conductivity, check),
+    };
   }
   // °C/km × W/m/K = 10⁻³ K/m · W/m/K = mW/m².
   const qg = grad.gradientCPerKm * hm.conductivityWmK;
@@ -367,10 +417,27 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
     const reason = `heat flow ${q.toFixed(0)} mW/m² is not a conductive value`;
     flags.push({ code: 'implausible-heat-flow', message: reason });
     const check = modelCheck();
-    return { ...base, status: 'no-heat-flow', reason, gradient, conductivity, bullard: bullardOut, plot, modelCheck: check, row: rowOf('no-heat-flow', undefined, conductivity, check) };
+    return {
+      ...base,
+      status: 'no-heat-flow',
+      reason,
+      gradient,
+      conductivity,
+      bullard: bullardOut,
+      plot,
+      modelCheck: check,
+      row: rowOf('no-heat-flow', undefined, conductivity, check),
+    };
   }
   const outliers = points.some((p) => p.flags.includes('outlier') || p.flags.includes('outlier-excluded'));
-  const qual = heatFlowQuality({ methods: methods, nPoints: grad.nPoints, conductivitySource: source, conductivityCoverage: hm.coverage, relativeUncertainty: sq / q, outliers });
+  const qual = heatFlowQuality({
+    methods: methods,
+    nPoints: grad.nPoints,
+    conductivitySource: source,
+    conductivityCoverage: hm.coverage,
+    relativeUncertainty: sq / q,
+    outliers,
+  });
   // Surface heat flow: the interval value is q at the fit's effective depth; add the heat produced above it
   // (q0 = q(z) + ∫₀^z A dz).
   const zMidM = effectiveDepthM(points, grad.anchored ? grad.anchorSdC : undefined, (top + bottom) / 2);
@@ -380,12 +447,19 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
     const r = columnHeatAboveMWm2(well.heatProductionColumn, zMidM);
     aSource = 'well-column';
     correction = r.heatMWm2;
-    if (r.coveredM < zMidM - 1e-6) flags.push({ code: 'heat-production-partial', message: `the heatProductionColumn covers ${r.coveredM.toFixed(0)} of the ${zMidM.toFixed(0)} m above mid-interval; uncovered depths count as producing no heat` });
+    if (r.coveredM < zMidM - 1e-6)
+      flags.push({
+        code: 'heat-production-partial',
+        message: `the heatProductionColumn covers ${r.coveredM.toFixed(0)} of the ${zMidM.toFixed(0)} m above mid-interval; uncovered depths count as producing no heat`,
+      });
   } else if (opts.model) {
     aSource = 'model';
     correction = opts.model.heatAboveMWm2(zMidM / 1000);
   } else {
-    flags.push({ code: 'no-heat-production', message: 'no thermal model or heatProductionColumn: the surface heat flow is the interval value, not corrected for the heat produced above the interval' });
+    flags.push({
+      code: 'no-heat-production',
+      message: 'no thermal model or heatProductionColumn: the surface heat flow is the interval value, not corrected for the heat produced above the interval',
+    });
   }
   const corrected = q + correction;
   let fit: SurfaceFit | null = null;
@@ -421,5 +495,15 @@ export function analyzeWell(well: WellInput, opts: WellAnalysisOptions = {}): We
     qualityReasons: qual.reasons,
   };
   const check = modelCheck(q0);
-  return { ...base, status: 'ok', gradient, conductivity, bullard: bullardOut, heatFlow, plot, modelCheck: check, row: rowOf('ok', heatFlow, conductivity, check) };
+  return {
+    ...base,
+    status: 'ok',
+    gradient,
+    conductivity,
+    bullard: bullardOut,
+    heatFlow,
+    plot,
+    modelCheck: check,
+    row: rowOf('ok', heatFlow, conductivity, check),
+  };
 }

@@ -48,24 +48,34 @@ export function readWells(features: FeatureLike[]): WellInput[] {
     const halfTimed: string[] = [];
     ms.forEach((m, i) => {
       if (!Number.isFinite(m.depthM) || m.depthM < 0) bad(`measurements[${i}].depthM`, `depth must be ≥ 0 m below the ground surface, got ${m.depthM}`);
-      else if (m.depthM > MAX_WELL_DEPTH_M) bad(`measurements[${i}].depthM`, `depth ${m.depthM} m is deeper than any borehole (limit ${MAX_WELL_DEPTH_M} m); feet given as metres?`);
+      else if (m.depthM > MAX_WELL_DEPTH_M)
+        bad(`measurements[${i}].depthM`, `depth ${m.depthM} m is deeper than any borehole (limit ${MAX_WELL_DEPTH_M} m); feet given as metres?`);
       const [lo, hi] = WELL_TEMPERATURE_RANGE_C;
-      if (!(m.temperatureC >= lo && m.temperatureC <= hi)) bad(`measurements[${i}].temperatureC`, `temperature ${m.temperatureC} °C is outside ${lo}–${hi} °C; °F given as °C?`);
+      if (!(m.temperatureC >= lo && m.temperatureC <= hi))
+        bad(`measurements[${i}].temperatureC`, `temperature ${m.temperatureC} °C is outside ${lo}–${hi} °C; °F given as °C?`);
       if (m.kind === 'bht' && (m.hoursSinceCirculation === undefined) !== (m.circulationHours === undefined)) {
         halfTimed.push(`${i} (no ${m.circulationHours === undefined ? 'circulationHours' : 'hoursSinceCirculation'})`);
       }
     });
     if (halfTimed.length > 0) {
-      flags.push({ code: 'bht-time-incomplete', message: `BHT measurement${halfTimed.length === 1 ? '' : 's'} ${halfTimed.join(', ')} give${halfTimed.length === 1 ? 's' : ''} only one of the two times and cannot enter a Horner fit` });
+      flags.push({
+        code: 'bht-time-incomplete',
+        message: `BHT measurement${halfTimed.length === 1 ? '' : 's'} ${halfTimed.join(', ')} give${halfTimed.length === 1 ? 's' : ''} only one of the two times and cannot enter a Horner fit`,
+      });
     }
     let conductivityColumn: ConductivityInterval[] | undefined;
     if (Array.isArray(p.conductivityColumn)) {
-      conductivityColumn = (p.conductivityColumn as ConductivityInterval[]).map((c) => ({ topM: c.topM, bottomM: c.bottomM, conductivityWmK: c.conductivityWmK }));
+      conductivityColumn = (p.conductivityColumn as ConductivityInterval[]).map((c) => ({
+        topM: c.topM,
+        bottomM: c.bottomM,
+        conductivityWmK: c.conductivityWmK,
+      }));
       for (const q of columnProblems(conductivityColumn)) bad(`conductivityColumn[${q.index}]`, q.problem);
     }
     let lithologyColumn: LithologyInterval[] | undefined;
     if (p.lithologyColumn !== undefined) {
-      if (!Array.isArray(p.lithologyColumn) || p.lithologyColumn.length === 0) bad('lithologyColumn', 'expected a non-empty array of { topM, bottomM, lithology }');
+      if (!Array.isArray(p.lithologyColumn) || p.lithologyColumn.length === 0)
+        bad('lithologyColumn', 'expected a non-empty array of { topM, bottomM, lithology }');
       else {
         lithologyColumn = [];
         (p.lithologyColumn as unknown[]).forEach((c, i) => {
@@ -81,7 +91,8 @@ export function readWells(features: FeatureLike[]): WellInput[] {
     }
     let heatProductionColumn: WellInput['heatProductionColumn'];
     if (p.heatProductionColumn !== undefined) {
-      if (!Array.isArray(p.heatProductionColumn) || p.heatProductionColumn.length === 0) bad('heatProductionColumn', 'expected a non-empty array of { topM, bottomM, heatProductionUWm3 }');
+      if (!Array.isArray(p.heatProductionColumn) || p.heatProductionColumn.length === 0)
+        bad('heatProductionColumn', 'expected a non-empty array of { topM, bottomM, heatProductionUWm3 }');
       else {
         heatProductionColumn = [];
         (p.heatProductionColumn as unknown[]).forEach((c, i) => {
@@ -96,7 +107,8 @@ export function readWells(features: FeatureLike[]): WellInput[] {
         for (const q of columnProblems(heatProductionColumn)) bad(`heatProductionColumn[${q.index}]`, q.problem);
       }
     }
-    if (conductivityColumn && lithologyColumn) flags.push({ code: 'two-columns', message: 'both conductivityColumn and lithologyColumn given: the measured conductivityColumn is used' });
+    if (conductivityColumn && lithologyColumn)
+      flags.push({ code: 'two-columns', message: 'both conductivityColumn and lithologyColumn given: the measured conductivityColumn is used' });
     wells.push({
       id,
       name: typeof p.name === 'string' ? p.name : undefined,
@@ -110,7 +122,14 @@ export function readWells(features: FeatureLike[]): WellInput[] {
     });
   });
   if (problems.length > 0) {
-    throw new InputError(`${problems.length} problem${problems.length === 1 ? '' : 's'} in the wells: ${problems.slice(0, 3).map((d) => `well ${d.feature} ${d.field}: ${d.problem}`).join('; ')}${problems.length > 3 ? '; …' : ''}`, problems.slice(0, 50), 'invalid_wells');
+    throw new InputError(
+      `${problems.length} problem${problems.length === 1 ? '' : 's'} in the wells: ${problems
+        .slice(0, 3)
+        .map((d) => `well ${d.feature} ${d.field}: ${d.problem}`)
+        .join('; ')}${problems.length > 3 ? '; …' : ''}`,
+      problems.slice(0, 50),
+      'invalid_wells',
+    );
   }
   return wells;
 }

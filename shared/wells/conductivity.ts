@@ -37,15 +37,18 @@ export function columnProblems(column: { topM: number; bottomM: number; conducti
   const problems: { index: number; problem: string }[] = [];
   column.forEach((c, i) => {
     if (!(c.topM >= 0) || !Number.isFinite(c.topM)) problems.push({ index: i, problem: `topM must be a depth ≥ 0 m, got ${c.topM}` });
-    if (!(c.bottomM > c.topM) || !Number.isFinite(c.bottomM)) problems.push({ index: i, problem: `bottomM must be below topM (${c.topM} m), got ${c.bottomM}` });
-    if (c.conductivityWmK !== undefined && (!(c.conductivityWmK > 0) || !Number.isFinite(c.conductivityWmK))) problems.push({ index: i, problem: `conductivityWmK must be > 0, got ${c.conductivityWmK}` });
+    if (!(c.bottomM > c.topM) || !Number.isFinite(c.bottomM))
+      problems.push({ index: i, problem: `bottomM must be below topM (${c.topM} m), got ${c.bottomM}` });
+    if (c.conductivityWmK !== undefined && (!(c.conductivityWmK > 0) || !Number.isFinite(c.conductivityWmK)))
+      problems.push({ index: i, problem: `conductivityWmK must be > 0, got ${c.conductivityWmK}` });
   });
   const order = column.map((_, i) => i).sort((a, b) => column[a].topM - column[b].topM);
   for (let k = 1; k < order.length; k++) {
     const prev = column[order[k - 1]];
     const cur = column[order[k]];
     // Touching intervals share a boundary; overlap beyond 1 mm is an error.
-    if (cur.topM < prev.bottomM - 1e-3) problems.push({ index: order[k], problem: `interval ${cur.topM}–${cur.bottomM} m overlaps interval ${order[k - 1]} (${prev.topM}–${prev.bottomM} m)` });
+    if (cur.topM < prev.bottomM - 1e-3)
+      problems.push({ index: order[k], problem: `interval ${cur.topM}–${cur.bottomM} m overlaps interval ${order[k - 1]} (${prev.topM}–${prev.bottomM} m)` });
   }
   return problems;
 }
@@ -81,7 +84,12 @@ export interface HarmonicMean {
  * (optional; without it k = k0). A zero-thickness interval returns the conductivity at that depth.
  * `column` must be sorted by top (sortColumn) and free of overlaps (columnProblems).
  */
-export function harmonicMeanConductivity(column: ConductivityInterval[], topM: number, bottomM: number, line?: { t0C: number; gradientCPerKm: number }): HarmonicMean {
+export function harmonicMeanConductivity(
+  column: ConductivityInterval[],
+  topM: number,
+  bottomM: number,
+  line?: { t0C: number; gradientCPerKm: number },
+): HarmonicMean {
   if (!(bottomM >= topM)) throw new RangeError('harmonicMeanConductivity: bottomM must be ≥ topM (m)');
   const t0 = line?.t0C ?? 0;
   const g = (line?.gradientCPerKm ?? 0) / 1000;
@@ -107,7 +115,13 @@ export function harmonicMeanConductivity(column: ConductivityInterval[], topM: n
  * non-overlapping column; NaN for depths above the origin, below the column, or past a gap in it (R unknown).
  * Temperature-dependent intervals as in harmonicMeanConductivity. Writes into `out` when given.
  */
-export function thermalResistance(column: ConductivityInterval[], originM: number, depthsM: ArrayLike<number>, line?: { t0C: number; gradientCPerKm: number }, out?: Float64Array): Float64Array {
+export function thermalResistance(
+  column: ConductivityInterval[],
+  originM: number,
+  depthsM: ArrayLike<number>,
+  line?: { t0C: number; gradientCPerKm: number },
+  out?: Float64Array,
+): Float64Array {
   const res = out ?? new Float64Array(depthsM.length);
   const t0 = line?.t0C ?? 0;
   const g = (line?.gradientCPerKm ?? 0) / 1000;

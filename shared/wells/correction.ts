@@ -64,7 +64,12 @@ export interface CorrectedBht {
  * the surface temperature, else the BHT stays uncorrected and is flagged `empirical-needs-time`). A BHT outside the
  * empirical correction's calibrated depths is flagged `empirical-extrapolated`.
  */
-export function correctBht(depthM: number, temperatureC: number, c: BhtCorrection, ctx: { hoursSinceCirculation?: number; surfaceTemperatureC?: number } = {}): CorrectedBht {
+export function correctBht(
+  depthM: number,
+  temperatureC: number,
+  c: BhtCorrection,
+  ctx: { hoursSinceCirculation?: number; surfaceTemperatureC?: number } = {},
+): CorrectedBht {
   if (c.method === 'none') return { temperatureC, sdC: c.sdC ?? DEFAULT_SD_C.bhtNone, method: 'none', flags: ['uncorrected-bht'] };
   if (c.method === 'offset') return { temperatureC: temperatureC + c.offsetC, sdC: c.sdC ?? DEFAULT_SD_C.bhtOffset, method: 'offset', flags: [] };
   if (c.method === 'poly') {
@@ -76,8 +81,10 @@ export function correctBht(depthM: number, temperatureC: number, c: BhtCorrectio
   }
   const [lo, hi] = EMPIRICAL_BHT[c.method].calibratedDepthM;
   const flags = depthM < lo || depthM > hi ? ['empirical-extrapolated'] : [];
-  if (c.method === 'harrison1983') return { temperatureC: temperatureC + harrisonCorrectionC(depthM), sdC: c.sdC ?? DEFAULT_SD_C.bhtPoly, method: c.method, flags };
-  const tsc = ctx.hoursSinceCirculation, ts = ctx.surfaceTemperatureC;
+  if (c.method === 'harrison1983')
+    return { temperatureC: temperatureC + harrisonCorrectionC(depthM), sdC: c.sdC ?? DEFAULT_SD_C.bhtPoly, method: c.method, flags };
+  const tsc = ctx.hoursSinceCirculation,
+    ts = ctx.surfaceTemperatureC;
   if (tsc === undefined || !Number.isFinite(tsc) || ts === undefined || !Number.isFinite(ts)) {
     return { temperatureC, sdC: DEFAULT_SD_C.bhtNone, method: 'none', flags: ['uncorrected-bht', 'empirical-needs-time'] };
   }
@@ -117,10 +124,17 @@ export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOpti
     else duplicateOf[i] = first;
   });
   const dups = [...duplicateOf].map((d, i) => (d >= 0 ? `${i} (= ${d})` : '')).filter(Boolean);
-  if (dups.length > 0) flags.push({ code: 'duplicate-row', message: `measurement${dups.length === 1 ? '' : 's'} ${dups.join(', ')} repeat an earlier row exactly and are left out of the fit` });
+  if (dups.length > 0)
+    flags.push({
+      code: 'duplicate-row',
+      message: `measurement${dups.length === 1 ? '' : 's'} ${dups.join(', ')} repeat an earlier row exactly and are left out of the fit`,
+    });
 
   // BHT depth groups (duplicates excluded).
-  const bhts = ms.map((_, i) => i).filter((i) => ms[i].kind === 'bht' && duplicateOf[i] < 0).sort((a, b) => ms[a].depthM - ms[b].depthM);
+  const bhts = ms
+    .map((_, i) => i)
+    .filter((i) => ms[i].kind === 'bht' && duplicateOf[i] < 0)
+    .sort((a, b) => ms[a].depthM - ms[b].depthM);
   const groups: number[][] = [];
   for (const i of bhts) {
     const g = groups[groups.length - 1];
@@ -131,21 +145,40 @@ export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOpti
   for (const g of groups) {
     if (g.length < 3) continue;
     const timed = g.filter((i) => hasTimes(ms[i]));
-    const xs = new Set(timed.map((i) => Math.log10(((ms[i].circulationHours as number) + (ms[i].hoursSinceCirculation as number)) / (ms[i].hoursSinceCirculation as number))));
+    const xs = new Set(
+      timed.map((i) => Math.log10(((ms[i].circulationHours as number) + (ms[i].hoursSinceCirculation as number)) / (ms[i].hoursSinceCirculation as number))),
+    );
     const depthLabel = `${Math.round(ms[g[0]].depthM)}–${Math.round(ms[g[g.length - 1]].depthM)} m`;
     if (timed.length < 3 || xs.size < 3) {
-      const missing = g.filter((i) => !hasTimes(ms[i])).map((i) => `${i} (${ms[i].circulationHours === undefined ? 'circulationHours' : 'hoursSinceCirculation'})`);
+      const missing = g
+        .filter((i) => !hasTimes(ms[i]))
+        .map((i) => `${i} (${ms[i].circulationHours === undefined ? 'circulationHours' : 'hoursSinceCirculation'})`);
       flags.push({
         code: 'horner-times-missing',
         message: `${g.length} BHTs at ${depthLabel} could be Horner-corrected but ${missing.length > 0 ? `measurements ${missing.join(', ')} lack times` : 'their times give fewer than three distinct Horner abscissae'}; the ${opts.bht.method} correction was used instead`,
       });
       continue;
     }
-    const fit = hornerFit(timed.map((i) => ms[i].circulationHours as number), timed.map((i) => ms[i].hoursSinceCirculation as number), timed.map((i) => ms[i].temperatureC));
+    const fit = hornerFit(
+      timed.map((i) => ms[i].circulationHours as number),
+      timed.map((i) => ms[i].hoursSinceCirculation as number),
+      timed.map((i) => ms[i].temperatureC),
+    );
     const depthM = timed.reduce((s, i) => s + ms[i].depthM, 0) / timed.length;
     if (fit === null || !(fit.slopeC > 0)) {
-      horner.push({ depthM, sources: timed, temperatureC: fit?.temperatureC ?? NaN, seTemperatureC: fit?.seTemperatureC ?? NaN, slopeC: fit?.slopeC ?? NaN, accepted: false, reason: 'the BHTs do not rise with time since circulation (Horner slope ≤ 0)' });
-      flags.push({ code: 'horner-rejected', message: `Horner fit at ${depthLabel} rejected: the BHTs do not rise with time since circulation; the ${opts.bht.method} correction was used instead` });
+      horner.push({
+        depthM,
+        sources: timed,
+        temperatureC: fit?.temperatureC ?? NaN,
+        seTemperatureC: fit?.seTemperatureC ?? NaN,
+        slopeC: fit?.slopeC ?? NaN,
+        accepted: false,
+        reason: 'the BHTs do not rise with time since circulation (Horner slope ≤ 0)',
+      });
+      flags.push({
+        code: 'horner-rejected',
+        message: `Horner fit at ${depthLabel} rejected: the BHTs do not rise with time since circulation; the ${opts.bht.method} correction was used instead`,
+      });
       continue;
     }
     const se = Number.isFinite(fit.seTemperatureC) ? fit.seTemperatureC : 0;
@@ -153,14 +186,38 @@ export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOpti
     const raw = Math.max(...timed.map((i) => ms[i].temperatureC));
     const pFlags: string[] = [];
     if (fit.temperatureC - raw > 50) pFlags.push('horner-large-extrapolation');
-    points.push({ sources: timed, depthM, rawTemperatureC: raw, temperatureC: fit.temperatureC, sdC: Math.hypot(se, DEFAULT_SD_C.hornerFloor), kind: 'bht', method: 'horner', flags: pFlags, used: true });
-    if (pFlags.length > 0) flags.push({ code: 'horner-large-extrapolation', message: `Horner T∞ at ${depthLabel} is ${(fit.temperatureC - raw).toFixed(1)} °C above the warmest BHT` });
+    points.push({
+      sources: timed,
+      depthM,
+      rawTemperatureC: raw,
+      temperatureC: fit.temperatureC,
+      sdC: Math.hypot(se, DEFAULT_SD_C.hornerFloor),
+      kind: 'bht',
+      method: 'horner',
+      flags: pFlags,
+      used: true,
+    });
+    if (pFlags.length > 0)
+      flags.push({
+        code: 'horner-large-extrapolation',
+        message: `Horner T∞ at ${depthLabel} is ${(fit.temperatureC - raw).toFixed(1)} °C above the warmest BHT`,
+      });
     for (const i of timed) handled.add(i);
     for (const i of g) {
       if (handled.has(i)) continue;
       handled.add(i);
       const m = ms[i];
-      points.push({ sources: [i], depthM: m.depthM, rawTemperatureC: m.temperatureC, temperatureC: m.temperatureC, sdC: DEFAULT_SD_C.bhtNone, kind: 'bht', method: 'none', flags: ['superseded-by-horner'], used: false });
+      points.push({
+        sources: [i],
+        depthM: m.depthM,
+        rawTemperatureC: m.temperatureC,
+        temperatureC: m.temperatureC,
+        sdC: DEFAULT_SD_C.bhtNone,
+        kind: 'bht',
+        method: 'none',
+        flags: ['superseded-by-horner'],
+        used: false,
+      });
     }
   }
 
@@ -168,10 +225,33 @@ export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOpti
     if (handled.has(i)) return;
     const dup = duplicateOf[i] >= 0;
     if (m.kind === 'bht') {
-      const c = correctBht(m.depthM, m.temperatureC, opts.bht, { hoursSinceCirculation: m.hoursSinceCirculation, surfaceTemperatureC: opts.surfaceTemperatureC });
-      points.push({ sources: [i], depthM: m.depthM, rawTemperatureC: m.temperatureC, temperatureC: c.temperatureC, sdC: c.sdC, kind: 'bht', method: c.method, flags: dup ? ['duplicate-row'] : c.flags, used: !dup });
+      const c = correctBht(m.depthM, m.temperatureC, opts.bht, {
+        hoursSinceCirculation: m.hoursSinceCirculation,
+        surfaceTemperatureC: opts.surfaceTemperatureC,
+      });
+      points.push({
+        sources: [i],
+        depthM: m.depthM,
+        rawTemperatureC: m.temperatureC,
+        temperatureC: c.temperatureC,
+        sdC: c.sdC,
+        kind: 'bht',
+        method: c.method,
+        flags: dup ? ['duplicate-row'] : c.flags,
+        used: !dup,
+      });
     } else {
-      points.push({ sources: [i], depthM: m.depthM, rawTemperatureC: m.temperatureC, temperatureC: m.temperatureC, sdC: m.kind === 'log' ? DEFAULT_SD_C.log : DEFAULT_SD_C.test, kind: m.kind, method: 'equilibrium', flags: dup ? ['duplicate-row'] : [], used: !dup });
+      points.push({
+        sources: [i],
+        depthM: m.depthM,
+        rawTemperatureC: m.temperatureC,
+        temperatureC: m.temperatureC,
+        sdC: m.kind === 'log' ? DEFAULT_SD_C.log : DEFAULT_SD_C.test,
+        kind: m.kind,
+        method: 'equilibrium',
+        flags: dup ? ['duplicate-row'] : [],
+        used: !dup,
+      });
     }
   });
   points.sort((a, b) => a.depthM - b.depthM || a.sources[0] - b.sources[0]);
@@ -181,9 +261,17 @@ export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOpti
     if (!points[a].used) continue;
     for (let b = a + 1; b < points.length && points[b].depthM - points[a].depthM < SAME_DEPTH_M; b++) {
       if (!points[b].used) continue;
-      for (const p of [points[a], points[b]]) if (!p.flags.includes('duplicate-depth')) { p.flags.push('duplicate-depth'); sameDepth++; }
+      for (const p of [points[a], points[b]])
+        if (!p.flags.includes('duplicate-depth')) {
+          p.flags.push('duplicate-depth');
+          sameDepth++;
+        }
     }
   }
-  if (sameDepth > 0) flags.push({ code: 'duplicate-depth', message: `${sameDepth} corrected points share a depth (within ${SAME_DEPTH_M} m) with another; all are kept in the fit` });
+  if (sameDepth > 0)
+    flags.push({
+      code: 'duplicate-depth',
+      message: `${sameDepth} corrected points share a depth (within ${SAME_DEPTH_M} m) with another; all are kept in the fit`,
+    });
   return { points, horner, flags };
 }

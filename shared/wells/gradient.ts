@@ -82,7 +82,11 @@ export function fitGradient(points: CorrectedPoint[], opts: GradientOptions = {}
   if (ts !== undefined && Number.isFinite(ts)) {
     const cold = points.filter((p) => p.used && p.depthM > 0 && p.temperatureC < ts);
     for (const p of cold) if (!p.flags.includes('below-surface-temperature')) p.flags.push('below-surface-temperature');
-    if (cold.length > 0) flags.push({ code: 'below-surface-temperature', message: `${cold.length} corrected temperature${cold.length === 1 ? ' is' : 's are'} below the surface temperature ${ts} °C (at ${cold.map((p) => `${p.depthM} m`).join(', ')})` });
+    if (cold.length > 0)
+      flags.push({
+        code: 'below-surface-temperature',
+        message: `${cold.length} corrected temperature${cold.length === 1 ? ' is' : 's are'} below the surface temperature ${ts} °C (at ${cold.map((p) => `${p.depthM} m`).join(', ')})`,
+      });
   }
   let fit = fitLine(x, y, sd, 'birge', include);
   if (fit === null) return null;
@@ -110,7 +114,10 @@ export function fitGradient(points: CorrectedPoint[], opts: GradientOptions = {}
       }
     }
     if (anchored && Math.abs(fit.standardized[a]) > OUTLIER_THRESHOLD) {
-      flags.push({ code: 'anchor-misfit', message: `the surface temperature ${ts} °C disagrees with the measurements (standardized residual ${fit.standardized[a].toFixed(1)})` });
+      flags.push({
+        code: 'anchor-misfit',
+        message: `the surface temperature ${ts} °C disagrees with the measurements (standardized residual ${fit.standardized[a].toFixed(1)})`,
+      });
     }
   }
   let top = Infinity;
@@ -122,16 +129,21 @@ export function fitGradient(points: CorrectedPoint[], opts: GradientOptions = {}
     top = Math.min(top, points[i].depthM);
     bottom = Math.max(bottom, points[i].depthM);
   }
-  if (nPoints === 1) flags.push({ code: 'single-measurement', message: 'one measured point: the gradient is the line from the surface anchor through it, with no check on scatter' });
+  if (nPoints === 1)
+    flags.push({
+      code: 'single-measurement',
+      message: 'one measured point: the gradient is the line from the surface anchor through it, with no check on scatter',
+    });
   else if (fit.dof === 0) flags.push({ code: 'no-redundancy', message: 'two points define the line exactly: its error comes from the stated σ only' });
-  if (!(fit.slope > 0)) flags.push({ code: 'non-positive-gradient', message: `the fitted gradient is ${fit.slope.toFixed(2)} °C/km: no conductive heat flow can be derived` });
+  if (!(fit.slope > 0))
+    flags.push({ code: 'non-positive-gradient', message: `the fitted gradient is ${fit.slope.toFixed(2)} °C/km: no conductive heat flow can be derived` });
   return {
     gradientCPerKm: fit.slope,
     seGradientCPerKm: fit.seSlope,
     interceptC: fit.intercept,
     seInterceptC: fit.seIntercept,
     anchored,
-    anchorTemperatureC: anchored ? (ts) : undefined,
+    anchorTemperatureC: anchored ? ts : undefined,
     anchorSdC: anchored ? anchorSd : undefined,
     nPoints,
     dof: fit.dof,

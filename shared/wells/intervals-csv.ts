@@ -32,7 +32,8 @@ export function parseIntervalsCsv(text: string, source = 'intervals'): Map<strin
   if (topC < 0) missing.push({ field: 'topM', problem: 'missing column (topM or topFt)' });
   if (botC < 0) missing.push({ field: 'bottomM', problem: 'missing column (bottomM or bottomFt)' });
   if (kC < 0 && litC < 0) missing.push({ field: 'conductivityWmK', problem: 'need a conductivityWmK or a lithology column' });
-  if (missing.length > 0) throw new InputError(`${source}: ${missing.map((m) => `${m.field}: ${m.problem}`).join('; ')}; header is ${header.join(',')}`, missing, 'malformed_csv');
+  if (missing.length > 0)
+    throw new InputError(`${source}: ${missing.map((m) => `${m.field}: ${m.problem}`).join('; ')}; header is ${header.join(',')}`, missing, 'malformed_csv');
   const problems: InputProblem[] = [];
   const out = new Map<string, WellIntervals>();
   rows.forEach((r, k) => {
@@ -59,7 +60,15 @@ export function parseIntervalsCsv(text: string, source = 'intervals'): Map<strin
     else problems.push({ feature: row, field: 'conductivityWmK', problem: 'the row has neither a conductivity nor a lithology' });
     out.set(id, w);
   });
-  if (problems.length > 0) throw new InputError(`${source}: ${problems.length} problem(s): ${problems.slice(0, 3).map((p) => `${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems.slice(0, 50), 'invalid_features');
+  if (problems.length > 0)
+    throw new InputError(
+      `${source}: ${problems.length} problem(s): ${problems
+        .slice(0, 3)
+        .map((p) => `${p.feature} ${p.field}: ${p.problem}`)
+        .join('; ')}`,
+      problems.slice(0, 50),
+      'invalid_features',
+    );
   return out;
 }
 
@@ -87,5 +96,6 @@ export function attachIntervals(wells: WellInput[], intervals: Map<string, WellI
     for (const q of columnProblems(iv.conductivity)) problems.push({ feature: id, field: `conductivity interval ${q.index + 1}`, problem: q.problem });
     for (const q of columnProblems(iv.lithology)) problems.push({ feature: id, field: `lithology interval ${q.index + 1}`, problem: q.problem });
   }
-  if (problems.length > 0) throw new InputError(`${source}: ${problems.map((p) => `well ${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems, 'invalid_wells');
+  if (problems.length > 0)
+    throw new InputError(`${source}: ${problems.map((p) => `well ${p.feature} ${p.field}: ${p.problem}`).join('; ')}`, problems, 'invalid_wells');
 }

@@ -40,7 +40,13 @@ export interface LineFit {
  * `include` (optional, 1 = use) leaves points out of the fit; their residuals are still computed, and their
  * standardized residual is the prediction residual r / (σ·√(1 + h)).
  */
-export function fitLine(x: ArrayLike<number>, y: ArrayLike<number>, sd: ArrayLike<number>, scale: CovarianceScale, include?: ArrayLike<number>): LineFit | null {
+export function fitLine(
+  x: ArrayLike<number>,
+  y: ArrayLike<number>,
+  sd: ArrayLike<number>,
+  scale: CovarianceScale,
+  include?: ArrayLike<number>,
+): LineFit | null {
   const n = x.length;
   if (y.length !== n || sd.length !== n) throw new RangeError('fitLine: x, y and sd must have the same length');
   let sw = 0;

@@ -22,7 +22,11 @@ export interface ModelResiduals {
  * each measured depth, the residual corrected − model, and the mean and root-mean-square residual over the
  * points flagged `used` (the others are still listed). A positive mean means the well is warmer than the model.
  */
-export function modelResiduals(points: { depthM: number; temperatureC: number; used: boolean }[], model: ModelTemperature, heatFlowMWm2: number): ModelResiduals {
+export function modelResiduals(
+  points: { depthM: number; temperatureC: number; used: boolean }[],
+  model: ModelTemperature,
+  heatFlowMWm2: number,
+): ModelResiduals {
   const z = new Float64Array(points.length);
   points.forEach((p, i) => (z[i] = p.depthM / 1000));
   const t = model(z, heatFlowMWm2, new Float64Array(points.length));

@@ -13,10 +13,15 @@
  */
 
 /** Heat produced between the surface and zM (m) by a heat-production column (µW/m³ over m → mW/m²). */
-export function columnHeatAboveMWm2(column: { topM: number; bottomM: number; heatProductionUWm3: number }[], zM: number): { heatMWm2: number; coveredM: number } {
-  let heat = 0, covered = 0;
+export function columnHeatAboveMWm2(
+  column: { topM: number; bottomM: number; heatProductionUWm3: number }[],
+  zM: number,
+): { heatMWm2: number; coveredM: number } {
+  let heat = 0,
+    covered = 0;
   for (const c of column) {
-    const a = Math.max(0, c.topM), b = Math.min(c.bottomM, zM);
+    const a = Math.max(0, c.topM),
+      b = Math.min(c.bottomM, zM);
     if (b > a) {
       heat += (c.heatProductionUWm3 * (b - a)) / 1000; // µW/m³ × km = mW/m²
       covered += b - a;
@@ -47,23 +52,37 @@ export interface SurfaceFit {
  * Fits q0 (and T0 unless `anchorC` is given) to temperatures with a model geotherm; points with a NaN model
  * temperature (below the model's valid depth) are left out. Returns null with fewer points than unknowns.
  */
-export function fitSurfaceHeatFlow(points: { depthM: number; temperatureC: number; sdC: number; used: boolean }[], geotherm: ModelGeotherm, start: { q0: number; t0: number }, anchorC?: number): SurfaceFit | null {
+export function fitSurfaceHeatFlow(
+  points: { depthM: number; temperatureC: number; sdC: number; used: boolean }[],
+  geotherm: ModelGeotherm,
+  start: { q0: number; t0: number },
+  anchorC?: number,
+): SurfaceFit | null {
   const use = points.filter((p) => p.used && Number.isFinite(p.temperatureC) && p.sdC > 0);
   const nUnknown = anchorC === undefined ? 2 : 1;
   if (use.length < nUnknown) return null;
   const z = Float64Array.from(use, (p) => p.depthM / 1000);
   const w = Float64Array.from(use, (p) => 1 / (p.sdC * p.sdC));
   const n = use.length;
-  const t = new Float64Array(n), tp = new Float64Array(n), tm = new Float64Array(n);
-  let q = start.q0 > 0 ? start.q0 : 60, t0 = anchorC ?? start.t0;
-  const dq = 1e-3, dt = 1e-3;
-  let it = 0, jtwj = [0, 0, 0];
+  const t = new Float64Array(n),
+    tp = new Float64Array(n),
+    tm = new Float64Array(n);
+  let q = start.q0 > 0 ? start.q0 : 60,
+    t0 = anchorC ?? start.t0;
+  const dq = 1e-3,
+    dt = 1e-3;
+  let it = 0,
+    jtwj = [0, 0, 0];
   for (; it < 50; it++) {
     geotherm(z, q, t0, t);
     geotherm(z, q + dq, t0, tp);
     geotherm(z, q - dq, t0, tm);
     // Normal equations of the linearised problem (J columns: ∂T/∂q0, ∂T/∂T0).
-    let a11 = 0, a12 = 0, a22 = 0, b1 = 0, b2 = 0;
+    let a11 = 0,
+      a12 = 0,
+      a22 = 0,
+      b1 = 0,
+      b2 = 0;
     const jt = new Float64Array(n);
     if (anchorC === undefined) {
       const tt = new Float64Array(n);
@@ -83,7 +102,8 @@ export function fitSurfaceHeatFlow(points: { depthM: number; temperatureC: numbe
       }
     }
     jtwj = [a11, a12, a22];
-    let sq: number, st0 = 0;
+    let sq: number,
+      st0 = 0;
     if (anchorC === undefined) {
       const det = a11 * a22 - a12 * a12;
       if (!(det > 0)) return null;
@@ -100,7 +120,9 @@ export function fitSurfaceHeatFlow(points: { depthM: number; temperatureC: numbe
     if (Math.abs(sq) < 1e-9 && Math.abs(st0) < 1e-9) break;
   }
   geotherm(z, q, t0, t);
-  let chi2 = 0, s2 = 0, m = 0;
+  let chi2 = 0,
+    s2 = 0,
+    m = 0;
   for (let i = 0; i < n; i++) {
     const r = use[i].temperatureC - t[i];
     if (!Number.isFinite(r)) continue;

@@ -22,7 +22,9 @@ async function newProject(): Promise<{ id: string; editToken: string }> {
 
 describe('upload formats in the OpenAPI description', () => {
   it('both upload routes list GeoJSON, CSV, GeoPackage and zipped Shapefile bodies and the crs, layer and filename parameters', async () => {
-    const doc = (await (await t.app.request('/api/openapi.json')).json()) as { paths: Record<string, Record<string, { parameters?: { name: string; in: string }[]; requestBody?: { content: Record<string, unknown> } }>> };
+    const doc = (await (await t.app.request('/api/openapi.json')).json()) as {
+      paths: Record<string, Record<string, { parameters?: { name: string; in: string }[]; requestBody?: { content: Record<string, unknown> } }>>;
+    };
     for (const path of ['/api/projects/{id}/datasets', '/api/datasets']) {
       const post = doc.paths[path].post;
       const types = Object.keys(post.requestBody!.content);
@@ -42,7 +44,11 @@ describe('uploads over the size limit', () => {
     it(`a ${c.name} larger than the limit gets 413 naming the limit, and the project holds nothing`, async () => {
       const p = await newProject();
       const body = c.type === 'text/csv' ? 'longitude,latitude,heatFlowMWm2\n' + '-128.5,-38.2,61.5\n'.repeat(2000) : new Uint8Array(LIMIT + 5000).fill(7);
-      const r = await t.app.request(`/api/projects/${p.id}/datasets?kind=sites&filename=big`, { method: 'POST', headers: { 'content-type': c.type, authorization: `Bearer ${p.editToken}` }, body });
+      const r = await t.app.request(`/api/projects/${p.id}/datasets?kind=sites&filename=big`, {
+        method: 'POST',
+        headers: { 'content-type': c.type, authorization: `Bearer ${p.editToken}` },
+        body,
+      });
       expect(r.status).toBe(413);
       const j = (await r.json()) as { error: { code: string; message: string } };
       expect(j.error.code).toBe('body_too_large');
@@ -59,17 +65,34 @@ describe('points in a CRS on another datum', () => {
   // definitions. The reference is GDAL's own transform of the same x,y (PROJ's choice of operation); the tolerance
   // for other datums is 5 m.
   for (const c of [
-    { crs: 'EPSG:2056', xy: [[2_600_000, 1_200_000], [2_651_234.5, 1_152_345.6], [2_552_345.6, 1_248_765.4]] },
+    {
+      crs: 'EPSG:2056',
+      xy: [
+        [2_600_000, 1_200_000],
+        [2_651_234.5, 1_152_345.6],
+        [2_552_345.6, 1_248_765.4],
+      ],
+    },
   ]) {
     it.skipIf(!hasGdal)(`a CSV of x,y in ${c.crs} lands within 5 m of gdaltransform's longitude/latitude`, async () => {
       const csv = 'id,x,y,heatFlowMWm2\n' + c.xy.map(([x, y], i) => `D${i},${x},${y},${60 + i}`).join('\n') + '\n';
-      const r = await t.app.request(`/api/datasets?kind=sites&crs=${c.crs}&filename=points.csv`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: csv });
+      const r = await t.app.request(`/api/datasets?kind=sites&crs=${c.crs}&filename=points.csv`, {
+        method: 'POST',
+        headers: { 'content-type': 'text/csv' },
+        body: csv,
+      });
       expect(r.status).toBe(201);
       const { id } = (await r.json()) as { id: string };
       const stored = JSON.parse((await t.store.getDataset(id))!.body) as { features: { geometry: { coordinates: number[] } }[] };
-      const g = spawnSync('gdaltransform', ['-s_srs', c.crs, '-t_srs', 'EPSG:4326', '-output_xy'], { input: c.xy.map((p) => p.join(' ')).join('\n') + '\n', encoding: 'utf8' });
+      const g = spawnSync('gdaltransform', ['-s_srs', c.crs, '-t_srs', 'EPSG:4326', '-output_xy'], {
+        input: c.xy.map((p) => p.join(' ')).join('\n') + '\n',
+        encoding: 'utf8',
+      });
       expect(g.status).toBe(0);
-      const ref = g.stdout.trim().split('\n').map((l) => l.trim().split(/\s+/).map(Number));
+      const ref = g.stdout
+        .trim()
+        .split('\n')
+        .map((l) => l.trim().split(/\s+/).map(Number));
       expect(ref).toHaveLength(c.xy.length);
       for (let i = 0; i < c.xy.length; i++) {
         const [lon, lat] = stored.features[i].geometry.coordinates;

@@ -32,14 +32,39 @@ function run(cmd: string, args: string[], cwd?: string): { stdout: string; stder
 const sites = {
   type: 'FeatureCollection',
   features: [
-    { type: 'Feature', geometry: { type: 'Point', coordinates: [-128.444454123, -38.095812987] }, properties: { id: 'OM-HF-001', heatFlowMWm2: 45, uncertaintyMWm2: 10, quality: 'low' } },
-    { type: 'Feature', geometry: { type: 'Point', coordinates: [-128.32589, -37.772537] }, properties: { id: 'OM-HF-002', heatFlowMWm2: 43.9, uncertaintyMWm2: 6.4, quality: 'medium' } },
-    { type: 'Feature', geometry: { type: 'Point', coordinates: [-127.90000001, -37.5] }, properties: { id: 'OM-HF-003', heatFlowMWm2: 61.25, uncertaintyMWm2: 5, quality: 'high' } },
+    {
+      type: 'Feature',
+      geometry: { type: 'Point', coordinates: [-128.444454123, -38.095812987] },
+      properties: { id: 'OM-HF-001', heatFlowMWm2: 45, uncertaintyMWm2: 10, quality: 'low' },
+    },
+    {
+      type: 'Feature',
+      geometry: { type: 'Point', coordinates: [-128.32589, -37.772537] },
+      properties: { id: 'OM-HF-002', heatFlowMWm2: 43.9, uncertaintyMWm2: 6.4, quality: 'medium' },
+    },
+    {
+      type: 'Feature',
+      geometry: { type: 'Point', coordinates: [-127.90000001, -37.5] },
+      properties: { id: 'OM-HF-003', heatFlowMWm2: 61.25, uncertaintyMWm2: 5, quality: 'high' },
+    },
   ],
 };
 const faults = {
   type: 'FeatureCollection',
-  features: [{ type: 'Feature', geometry: { type: 'LineString', coordinates: [[-128.4, -38.2], [-128.1, -37.9], [-127.8, -37.7]] }, properties: { name: 'Vessaly fault', dipDeg: 60 } }],
+  features: [
+    {
+      type: 'Feature',
+      geometry: {
+        type: 'LineString',
+        coordinates: [
+          [-128.4, -38.2],
+          [-128.1, -37.9],
+          [-127.8, -37.7],
+        ],
+      },
+      properties: { name: 'Vessaly fault', dipDeg: 60 },
+    },
+  ],
 };
 
 function geojsonFile(name: string, v: unknown): string {
@@ -48,8 +73,19 @@ function geojsonFile(name: string, v: unknown): string {
   return f;
 }
 
-async function upload(body: Buffer | Uint8Array | string, type: string, query: string): Promise<{ status: number; json: { id?: string; featureCount?: number; warnings?: string[]; error?: { code: string; message: string; details: unknown[] } } }> {
-  const r = await t.app.request(`/api/datasets?${query}`, { method: 'POST', headers: { 'content-type': type }, body: typeof body === 'string' ? body : new Blob([new Uint8Array(body)]) });
+async function upload(
+  body: Buffer | Uint8Array | string,
+  type: string,
+  query: string,
+): Promise<{
+  status: number;
+  json: { id?: string; featureCount?: number; warnings?: string[]; error?: { code: string; message: string; details: unknown[] } };
+}> {
+  const r = await t.app.request(`/api/datasets?${query}`, {
+    method: 'POST',
+    headers: { 'content-type': type },
+    body: typeof body === 'string' ? body : new Blob([new Uint8Array(body)]),
+  });
   return { status: r.status, json: await r.json() };
 }
 
@@ -71,7 +107,16 @@ function expectSameSites(got: { features: { geometry: { coordinates: number[] };
 describe('GeoPackage out', () => {
   it.skipIf(!hasGdal)('ogrinfo opens it with no warnings; GeoJSON → GeoPackage → GeoJSON (ogr2ogr) keeps properties and coordinates', () => {
     const f = join(dir, 'out.gpkg');
-    writeFileSync(f, writeGeoPackage([{ name: 'sites', title: 'Heat-flow sites', collection: sites as never }, { name: 'faults', collection: faults as never }], { PROVENANCE: '{"version":"t"}' }));
+    writeFileSync(
+      f,
+      writeGeoPackage(
+        [
+          { name: 'sites', title: 'Heat-flow sites', collection: sites as never },
+          { name: 'faults', collection: faults as never },
+        ],
+        { PROVENANCE: '{"version":"t"}' },
+      ),
+    );
     const info = run('ogrinfo', ['-ro', '-al', '-so', f]);
     expect(info.stderr).toBe('');
     expect(info.stdout).toContain('Layer name: sites');
@@ -149,7 +194,11 @@ describe('GeoPackage, Shapefile and projected CSV in (upload route)', () => {
 
   it.skipIf(!hasGdal)('bad GeoPackages: corrupt, no CRS, unknown layer → 4xx JSON naming file and layer; nothing stored', async () => {
     const before = (await t.store.listDatasets()).length;
-    const corrupt = await upload(new TextEncoder().encode('SQLite format 3\0 but not really'.repeat(40)), 'application/geopackage+sqlite3', 'kind=sites&filename=broken.gpkg');
+    const corrupt = await upload(
+      new TextEncoder().encode('SQLite format 3\0 but not really'.repeat(40)),
+      'application/geopackage+sqlite3',
+      'kind=sites&filename=broken.gpkg',
+    );
     expect(corrupt.status).toBe(422);
     expect(corrupt.json.error!.message).toContain('broken.gpkg');
     // A CSV source has no CRS: GDAL writes the layer with the undefined geographic SRS (srs_id 0).

@@ -60,7 +60,12 @@ describe('foundation API', () => {
     expect(ok.headers.get('content-type')).toBe('image/png');
     const bytes = new Uint8Array(await ok.arrayBuffer());
     expect([...bytes.subarray(0, 8)]).toEqual([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]); // PNG signature (ISO/IEC 15948)
-    for (const [path, status] of [['/api/terrain/1/0/0.png', 404], ['/api/terrain/9/74/313.jpg', 400], ['/api/terrain/a/b/c.png', 400], ['/api/terrain/30/1/1.png', 404]] as const) {
+    for (const [path, status] of [
+      ['/api/terrain/1/0/0.png', 404],
+      ['/api/terrain/9/74/313.jpg', 400],
+      ['/api/terrain/a/b/c.png', 400],
+      ['/api/terrain/30/1/1.png', 404],
+    ] as const) {
       const res = await app.request(path);
       expect(res.status, path).toBe(status);
       expect((await res.json()).error.code).toBeTypeOf('string');

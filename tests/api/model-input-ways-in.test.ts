@@ -37,7 +37,11 @@ describe('an unknown model member is refused the same way everywhere', () => {
     writeFileSync(file, JSON.stringify(BAD));
     const r = spawnSync(process.execPath, ['bin/subtherm.mjs', 'geotherm', '--model', file, '--json'], { cwd: root, encoding: 'utf8' });
     const j = JSON.parse(r.stdout) as { error: { code: string; details: { field?: string }[] } };
-    expect({ status: r.status, code: j.error.code, fields: j.error.details.map((d) => d.field) }).toEqual({ status: 2, code: EXPECTED.code, fields: [EXPECTED.field] });
+    expect({ status: r.status, code: j.error.code, fields: j.error.details.map((d) => d.field) }).toEqual({
+      status: 2,
+      code: EXPECTED.code,
+      fields: [EXPECTED.field],
+    });
     expect(r.stderr).toContain('surfaceHeatFlow');
   });
 
@@ -57,6 +61,9 @@ describe('an unknown model member is refused the same way everywhere', () => {
       err = e;
     }
     expect(err).toBeInstanceOf(InputError);
-    expect({ code: (err as InputError).code, fields: (err as InputError).details.map((d) => d.field) }).toEqual({ code: EXPECTED.code, fields: [EXPECTED.field] });
+    expect({ code: (err as InputError).code, fields: (err as InputError).details.map((d) => d.field) }).toEqual({
+      code: EXPECTED.code,
+      fields: [EXPECTED.field],
+    });
   });
 });

@@ -27,26 +27,63 @@ let app: ReturnType<typeof createApp>;
 let projectId: string;
 let token: string;
 
-const pt = (coordinates: unknown, properties: unknown = { id: 'a', heatFlowMWm2: 60 }) => ({ type: 'Feature', geometry: { type: 'Point', coordinates }, properties });
+const pt = (coordinates: unknown, properties: unknown = { id: 'a', heatFlowMWm2: 60 }) => ({
+  type: 'Feature',
+  geometry: { type: 'Point', coordinates },
+  properties,
+});
 const fc = (...features: unknown[]) => JSON.stringify({ type: 'FeatureCollection', features });
 const j = (v: unknown) => JSON.stringify(v);
 
 function corpus(): Case[] {
   const cases: Case[] = [];
-  const ds = (name: string, body: string | Uint8Array, kind = 'sites', type = 'application/geo+json') => cases.push({ name, path: `/api/datasets?kind=${kind}`, type, body });
+  const ds = (name: string, body: string | Uint8Array, kind = 'sites', type = 'application/geo+json') =>
+    cases.push({ name, path: `/api/datasets?kind=${kind}`, type, body });
   // Malformed JSON.
-  for (const [i, s] of ['{', '}', '[', '{"type":}', "{'type':'FeatureCollection'}", '{"a":1,}', 'nul', 'NaN', 'Infinity', '{"features":[1,2,]}', '\u0000\u0001', '"unterminated', '{"a":1}{"b":2}', '01', '{"a":01}'].entries()) {
+  for (const [i, s] of [
+    '{',
+    '}',
+    '[',
+    '{"type":}',
+    "{'type':'FeatureCollection'}",
+    '{"a":1,}',
+    'nul',
+    'NaN',
+    'Infinity',
+    '{"features":[1,2,]}',
+    '\u0000\u0001',
+    '"unterminated',
+    '{"a":1}{"b":2}',
+    '01',
+    '{"a":01}',
+  ].entries()) {
     ds(`malformed JSON #${i}`, s);
   }
   // Not a feature collection, or empty.
-  for (const [i, v] of [null, 1, 'text', [], {}, { type: 'Feature' }, { type: 'FeatureCollection' }, { type: 'FeatureCollection', features: {} }, { type: 'FeatureCollection', features: [] }, { type: 'Topology' }, { type: 'FeatureCollection', features: [null] }, { type: 'FeatureCollection', features: [1, 'x'] }].entries()) {
+  for (const [i, v] of [
+    null,
+    1,
+    'text',
+    [],
+    {},
+    { type: 'Feature' },
+    { type: 'FeatureCollection' },
+    { type: 'FeatureCollection', features: {} },
+    { type: 'FeatureCollection', features: [] },
+    { type: 'Topology' },
+    { type: 'FeatureCollection', features: [null] },
+    { type: 'FeatureCollection', features: [1, 'x'] },
+  ].entries()) {
     ds(`not a collection #${i}`, j(v));
   }
   // Wrong types and non-finite numbers written as strings.
   for (const [i, hf] of ['60', 'NaN', 'Infinity', '-Infinity', null, true, [60], { v: 60 }, '', '1e999'].entries()) {
     ds(`heat flow of wrong type #${i}`, fc(pt([0, 0], { id: 'a', heatFlowMWm2: hf })));
   }
-  ds('heat flow huge', '{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Point","coordinates":[0,0]},"properties":{"id":"a","heatFlowMWm2":1e400}}]}');
+  ds(
+    'heat flow huge',
+    '{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Point","coordinates":[0,0]},"properties":{"id":"a","heatFlowMWm2":1e400}}]}',
+  );
   ds('heat flow negative', fc(pt([0, 0], { id: 'a', heatFlowMWm2: -1 })));
   ds('heat flow zero', fc(pt([0, 0], { id: 'a', heatFlowMWm2: 0 })));
   ds('heat flow missing', fc(pt([0, 0], { id: 'a' })));
@@ -55,13 +92,61 @@ function corpus(): Case[] {
   for (const [i, c] of [[181, 0], [-181, 0], [0, 91], [0, -91], [0], [], ['0', '0'], [null, 0], [0, 0, 0, 0], 'x', { lon: 0, lat: 0 }, [1e308, 0]].entries()) {
     ds(`bad coordinates #${i}`, fc(pt(c)));
   }
-  ds('coordinates 1e400', '{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Point","coordinates":[1e400,0]},"properties":{"id":"a","heatFlowMWm2":60}}]}');
+  ds(
+    'coordinates 1e400',
+    '{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Point","coordinates":[1e400,0]},"properties":{"id":"a","heatFlowMWm2":60}}]}',
+  );
   // Wrong geometry types.
-  ds('sites as lines', fc({ type: 'Feature', geometry: { type: 'LineString', coordinates: [[0, 0], [1, 1]] }, properties: { id: 'a', heatFlowMWm2: 60 } }));
+  ds(
+    'sites as lines',
+    fc({
+      type: 'Feature',
+      geometry: {
+        type: 'LineString',
+        coordinates: [
+          [0, 0],
+          [1, 1],
+        ],
+      },
+      properties: { id: 'a', heatFlowMWm2: 60 },
+    }),
+  );
   ds('faults as points', fc(pt([0, 0], { id: 'f' })), 'faults');
   ds('fault of one vertex', fc({ type: 'Feature', geometry: { type: 'LineString', coordinates: [[0, 0]] }, properties: { id: 'f' } }), 'faults');
-  ds('fault of zero length', fc({ type: 'Feature', geometry: { type: 'LineString', coordinates: [[0, 0], [0, 0]] }, properties: { id: 'f' } }), 'faults');
-  ds('region not closed', fc({ type: 'Feature', geometry: { type: 'Polygon', coordinates: [[[0, 0], [1, 0], [1, 1], [0, 1]]] }, properties: {} }), 'regions');
+  ds(
+    'fault of zero length',
+    fc({
+      type: 'Feature',
+      geometry: {
+        type: 'LineString',
+        coordinates: [
+          [0, 0],
+          [0, 0],
+        ],
+      },
+      properties: { id: 'f' },
+    }),
+    'faults',
+  );
+  ds(
+    'region not closed',
+    fc({
+      type: 'Feature',
+      geometry: {
+        type: 'Polygon',
+        coordinates: [
+          [
+            [0, 0],
+            [1, 0],
+            [1, 1],
+            [0, 1],
+          ],
+        ],
+      },
+      properties: {},
+    }),
+    'regions',
+  );
   ds('geometry null', fc({ type: 'Feature', geometry: null, properties: { id: 'a', heatFlowMWm2: 60 } }));
   ds('geometry collection', fc({ type: 'Feature', geometry: { type: 'GeometryCollection', geometries: [] }, properties: { id: 'a', heatFlowMWm2: 60 } }));
   ds('sample without grade', fc(pt([0, 0], { id: 's' })), 'samples');
@@ -103,8 +188,17 @@ function corpus(): Case[] {
   model('model no layers', { surfaceTemperatureC: 10, layers: [] });
   model('model conductivity string', { surfaceTemperatureC: 10, layers: [{ bottomKm: 10, conductivityWmK: '3', heatProductionUWm3: 1 }] });
   model('model negative conductivity', { surfaceTemperatureC: 10, layers: [{ bottomKm: 10, conductivityWmK: -3, heatProductionUWm3: 1 }] });
-  model('model bottoms not increasing', { surfaceTemperatureC: 10, layers: [{ bottomKm: 10, conductivityWmK: 3, heatProductionUWm3: 1 }, { bottomKm: 5, conductivityWmK: 3, heatProductionUWm3: 1 }] });
-  model('model bad distribution', { surfaceTemperatureC: 10, layers: [{ bottomKm: 10, conductivityWmK: { dist: 'lognormal', mean: 3 }, heatProductionUWm3: 1 }] });
+  model('model bottoms not increasing', {
+    surfaceTemperatureC: 10,
+    layers: [
+      { bottomKm: 10, conductivityWmK: 3, heatProductionUWm3: 1 },
+      { bottomKm: 5, conductivityWmK: 3, heatProductionUWm3: 1 },
+    ],
+  });
+  model('model bad distribution', {
+    surfaceTemperatureC: 10,
+    layers: [{ bottomKm: 10, conductivityWmK: { dist: 'lognormal', mean: 3 }, heatProductionUWm3: 1 }],
+  });
   model('model unknown key', { surfaceTemperatureC: 10, layers: [{ bottomKm: 10, conductivityWmK: 3, heatProductionUWm3: 1, colour: 'red' }] });
   model('model 1 + bT <= 0', { surfaceTemperatureC: 10, layers: [{ bottomKm: 10, conductivityWmK: 3, conductivityTempCoeffPerK: -1, heatProductionUWm3: 1 }] });
   model('model malformed', '{"surfaceTemperatureC":');
@@ -150,14 +244,47 @@ function corpus(): Case[] {
   const sec = (name: string, v: unknown) => cases.push({ name, path: '/api/section', type: 'application/json', body: j(v) });
   sec('section empty', {});
   sec('section one vertex', { runId: 'run_x', line: [[0, 0]] });
-  sec('section vertex of 3', { runId: 'run_x', line: [[0, 0, 0], [1, 1]] });
-  sec('section lat out of range', { runId: 'run_x', line: [[0, 0], [0, 91]] });
+  sec('section vertex of 3', {
+    runId: 'run_x',
+    line: [
+      [0, 0, 0],
+      [1, 1],
+    ],
+  });
+  sec('section lat out of range', {
+    runId: 'run_x',
+    line: [
+      [0, 0],
+      [0, 91],
+    ],
+  });
   sec('section line not an array', { runId: 'run_x', line: 'LINESTRING(0 0, 1 1)' });
-  sec('section unknown run', { runId: 'run_unknown', line: [[0, 0], [1, 1]] });
-  sec('section depth zero', { runId: 'run_x', line: [[0, 0], [1, 1]], maxDepthKm: 0 });
-  sec('section samples huge', { runId: 'run_x', line: [[0, 0], [1, 1]], samples: 1e7 });
+  sec('section unknown run', {
+    runId: 'run_unknown',
+    line: [
+      [0, 0],
+      [1, 1],
+    ],
+  });
+  sec('section depth zero', {
+    runId: 'run_x',
+    line: [
+      [0, 0],
+      [1, 1],
+    ],
+    maxDepthKm: 0,
+  });
+  sec('section samples huge', {
+    runId: 'run_x',
+    line: [
+      [0, 0],
+      [1, 1],
+    ],
+    samples: 1e7,
+  });
   // Projects.
-  const proj = (name: string, body: string, method = 'POST', path = '/api/projects', headers: Record<string, string> = {}) => cases.push({ name, method, path, type: 'application/json', body, headers });
+  const proj = (name: string, body: string, method = 'POST', path = '/api/projects', headers: Record<string, string> = {}) =>
+    cases.push({ name, method, path, type: 'application/json', body, headers });
   proj('project empty', '');
   proj('project malformed', '{"title"');
   proj('project no title', j({ state: {} }));
@@ -169,7 +296,8 @@ function corpus(): Case[] {
   proj('project extra key', j({ title: 't', state: {}, owner: 'me' }));
   proj('project state nested 70', j({ title: 't', state: JSON.parse('{"a":'.repeat(70) + '1' + '}'.repeat(70)) }));
   proj('project oversize', j({ title: 't', state: { s: 'x'.repeat(BODY_LIMIT) } }));
-  const put = (name: string, body: string, headers: Record<string, string>) => cases.push({ name, method: 'PUT', path: '@project', type: 'application/json', body, headers });
+  const put = (name: string, body: string, headers: Record<string, string>) =>
+    cases.push({ name, method: 'PUT', path: '@project', type: 'application/json', body, headers });
   put('save without token', j({ state: {} }), {});
   put('save empty bearer', j({ state: {} }), { authorization: 'Bearer ' });
   put('save basic auth', j({ state: {} }), { authorization: 'Basic dXNlcjpwYXNz' });
@@ -199,8 +327,18 @@ beforeAll(async () => {
   dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-bad-'));
   store = new SqliteStore(join(dir, 'db.sqlite'));
   await loadDemo(store);
-  app = createApp({ store, terrain: null, clientDir: null, runWorkerFile: fileURLToPath(new URL('../helpers/run-worker-double.ts', import.meta.url)), limits: { maxBodyBytes: BODY_LIMIT } });
-  const res = await app.request('/api/projects', { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ title: 'target', state: {} }) });
+  app = createApp({
+    store,
+    terrain: null,
+    clientDir: null,
+    runWorkerFile: fileURLToPath(new URL('../helpers/run-worker-double.ts', import.meta.url)),
+    limits: { maxBodyBytes: BODY_LIMIT },
+  });
+  const res = await app.request('/api/projects', {
+    method: 'POST',
+    headers: { 'content-type': 'application/json' },
+    body: JSON.stringify({ title: 'target', state: {} }),
+  });
   ({ id: projectId, editToken: token } = (await res.json()) as { id: string; editToken: string });
 });
 afterAll(async () => {
@@ -232,7 +370,12 @@ describe('bad-input corpus', () => {
       } catch {
         message = undefined;
       }
-      if (!(res.status >= 400 && res.status < 500) || typeof message !== 'string' || message.length === 0 || !res.headers.get('content-type')?.includes('application/json')) {
+      if (
+        !(res.status >= 400 && res.status < 500) ||
+        typeof message !== 'string' ||
+        message.length === 0 ||
+        !res.headers.get('content-type')?.includes('application/json')
+      ) {
         failures.push(`${c.name}: ${res.status} ${text.slice(0, 200)}`);
       }
     }
@@ -242,7 +385,14 @@ describe('bad-input corpus', () => {
 
   it('keeps serving afterwards, and nothing was stored or changed by the rejected requests', async () => {
     expect(await (await app.request('/api/health')).json()).toMatchObject({ ok: true });
-    expect((await store.listDatasets()).map((d) => d.id).sort()).toEqual(['demo-faults', 'demo-model', 'demo-outline', 'demo-samples', 'demo-sites', 'demo-wells']);
+    expect((await store.listDatasets()).map((d) => d.id).sort()).toEqual([
+      'demo-faults',
+      'demo-model',
+      'demo-outline',
+      'demo-samples',
+      'demo-sites',
+      'demo-wells',
+    ]);
     expect(((await (await app.request(`/api/projects/${projectId}`)).json()) as { revision: number }).revision).toBe(1);
   });
 });

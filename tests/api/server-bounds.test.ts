@@ -22,7 +22,11 @@ async function errorOf(res: Response, status: number, code: string): Promise<Err
   return body.error;
 }
 /** A request from `client`, as a trusted reverse proxy would forward it (in-process requests come from "local"). */
-const from = (client: string, token?: string) => ({ 'content-type': 'application/json', 'x-forwarded-for': client, ...(token ? { authorization: `Bearer ${token}` } : {}) });
+const from = (client: string, token?: string) => ({
+  'content-type': 'application/json',
+  'x-forwarded-for': client,
+  ...(token ? { authorization: `Bearer ${token}` } : {}),
+});
 
 describe('run bounds, fairness and tokens', () => {
   let t: TestApp;
@@ -37,7 +41,11 @@ describe('run bounds, fairness and tokens', () => {
   afterAll(async () => await t?.close());
   let seed = 0;
   const run = (client: string, realizations: number, title = 'slow') =>
-    t.app.request('/api/runs', { method: 'POST', headers: from(client), body: JSON.stringify({ title, sites: 'demo-sites', model: 'demo-model', realizations, seed: ++seed, grid: { size: [10, 10] } }) });
+    t.app.request('/api/runs', {
+      method: 'POST',
+      headers: from(client),
+      body: JSON.stringify({ title, sites: 'demo-sites', model: 'demo-model', realizations, seed: ++seed, grid: { size: [10, 10] } }),
+    });
   const accept = async (res: Response) => {
     expect(res.status).toBe(202);
     const b = (await res.json()) as { id: string; runToken: string };
@@ -62,12 +70,13 @@ describe('run bounds, fairness and tokens', () => {
     expect((await errorOf(await run('10.0.0.3', 1), 503, 'server_busy')).details[0].field).toBe('maxQueuedRunsServer');
   });
 
-  it('refuses to cancel without a token (401), with another run\'s token (403), and cancels with the run token', async () => {
+  it("refuses to cancel without a token (401), with another run's token (403), and cancels with the run token", async () => {
     const [a, b] = started;
     await errorOf(await t.app.request(`/api/runs/${a.id}`, { method: 'DELETE' }), 401, 'token_required');
     await errorOf(await t.app.request(`/api/runs/${a.id}`, { method: 'DELETE', headers: { authorization: `Bearer ${b.runToken}` } }), 403, 'forbidden');
     await errorOf(await t.app.request(`/api/runs/${a.id}`, { method: 'DELETE', headers: { authorization: 'Bearer not-a-token' } }), 403, 'forbidden');
-    for (const r of started) expect((await t.app.request(`/api/runs/${r.id}`, { method: 'DELETE', headers: { authorization: `Bearer ${r.runToken}` } })).status).toBe(200);
+    for (const r of started)
+      expect((await t.app.request(`/api/runs/${r.id}`, { method: 'DELETE', headers: { authorization: `Bearer ${r.runToken}` } })).status).toBe(200);
     started.length = 0;
     await t.app.jobs.idle();
   });
@@ -77,7 +86,8 @@ describe('run bounds, fairness and tokens', () => {
     const a1 = await accept(await run('10.0.1.1', 1));
     const a2 = await accept(await run('10.0.1.1', 2));
     const b1 = await accept(await run('10.0.1.2', 3));
-    const view = async (id: string) => (await (await t.app.request(`/api/runs/${id}`)).json()) as { status: string; position?: number; estimateSeconds?: number | null };
+    const view = async (id: string) =>
+      (await (await t.app.request(`/api/runs/${id}`)).json()) as { status: string; position?: number; estimateSeconds?: number | null };
     for (let i = 0; i < 200 && (await view(a1.id)).status !== 'running'; i++) await new Promise((r) => setTimeout(r, 20));
     expect((await view(a1.id)).status).toBe('running');
     expect(await view(a2.id)).toMatchObject({ status: 'queued', position: 1 });
@@ -92,7 +102,12 @@ describe('run bounds, fairness and tokens', () => {
   it('ignores X-Forwarded-For from peers that are not listed proxies', async () => {
     const plain = await startTestApp('bounds-noproxy', { runWorkerFile: DOUBLE, limits: { maxQueuedRunsPerClient: 1 } });
     try {
-      const post = (xff: string, seed: number) => plain.app.request('/api/runs', { method: 'POST', headers: from(xff), body: JSON.stringify({ title: 'slow', sites: 'demo-sites', model: 'demo-model', seed }) });
+      const post = (xff: string, seed: number) =>
+        plain.app.request('/api/runs', {
+          method: 'POST',
+          headers: from(xff),
+          body: JSON.stringify({ title: 'slow', sites: 'demo-sites', model: 'demo-model', seed }),
+        });
       const first = (await (await post('10.9.9.1', 1)).json()) as { id: string; runToken: string };
       // A different forwarded address from the same unlisted peer is the same client: over its limit of 1.
       expect((await errorOf(await post('10.9.9.2', 2), 429, 'too_many_runs')).details[0].field).toBe('maxQueuedRunsPerClient');
@@ -102,17 +117,31 @@ describe('run bounds, fairness and tokens', () => {
     }
   });
 
-  it('lets a project\'s edit token cancel the project\'s runs, and not another project\'s token', async () => {
+  it("lets a project's edit token cancel the project's runs, and not another project's token", async () => {
     const mk = async (title: string) => (await (await t.post('/api/projects', { title })).json()) as { id: string; editToken: string };
-    const p = await mk('Cancel survey'), other = await mk('Other survey');
-    const up = (kind: string, body: string, type: string) => t.app.request(`/api/projects/${p.id}/datasets?kind=${kind}`, { method: 'POST', headers: { 'content-type': type, authorization: `Bearer ${p.editToken}` }, body });
-    const sites = (await (await up('sites', 'longitude,latitude,id,heatFlowMWm2\n-150.2,30.1,a1,62\n-150.0,30.3,a2,71\n-149.8,30.0,a3,66\n', 'text/csv')).json()) as { id: string };
+    const p = await mk('Cancel survey'),
+      other = await mk('Other survey');
+    const up = (kind: string, body: string, type: string) =>
+      t.app.request(`/api/projects/${p.id}/datasets?kind=${kind}`, {
+        method: 'POST',
+        headers: { 'content-type': type, authorization: `Bearer ${p.editToken}` },
+        body,
+      });
+    const sites = (await (
+      await up('sites', 'longitude,latitude,id,heatFlowMWm2\n-150.2,30.1,a1,62\n-150.0,30.3,a2,71\n-149.8,30.0,a3,66\n', 'text/csv')
+    ).json()) as { id: string };
     const model = (await (await up('model', readFileSync(join(ROOT, 'fixtures/demo/model.json'), 'utf8'), 'application/json')).json()) as { id: string };
-    const res = await t.app.request(`/api/projects/${p.id}/runs`, { method: 'POST', headers: { 'content-type': 'application/json', authorization: `Bearer ${p.editToken}` }, body: JSON.stringify({ title: 'slow', sites: sites.id, model: model.id }) });
+    const res = await t.app.request(`/api/projects/${p.id}/runs`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json', authorization: `Bearer ${p.editToken}` },
+      body: JSON.stringify({ title: 'slow', sites: sites.id, model: model.id }),
+    });
     expect(res.status).toBe(202);
     const r = (await res.json()) as { id: string; runToken: string };
     await errorOf(await t.app.request(`/api/runs/${r.id}`, { method: 'DELETE', headers: { authorization: `Bearer ${other.editToken}` } }), 403, 'forbidden');
-    expect(await (await t.app.request(`/api/runs/${r.id}`, { method: 'DELETE', headers: { authorization: `Bearer ${p.editToken}` } })).json()).toMatchObject({ status: 'cancelled' });
+    expect(await (await t.app.request(`/api/runs/${r.id}`, { method: 'DELETE', headers: { authorization: `Bearer ${p.editToken}` } })).json()).toMatchObject({
+      status: 'cancelled',
+    });
     await t.app.jobs.idle();
   });
 });
@@ -123,19 +152,51 @@ describe('heat-in-place bounds', () => {
   beforeAll(async () => {
     t = await startTestApp('hip-bounds', {
       trustedProxies: ['local'],
-      limits: { maxPolygonVertices: 10, maxHeatInPlaceRealizations: 50, maxHeatInPlaceCellRealizations: 400 * 40, maxHeatInPlaceJobsPerClient: 1, maxHeatInPlaceJobsServer: 2 },
+      limits: {
+        maxPolygonVertices: 10,
+        maxHeatInPlaceRealizations: 50,
+        maxHeatInPlaceCellRealizations: 400 * 40,
+        maxHeatInPlaceJobsPerClient: 1,
+        maxHeatInPlaceJobsServer: 2,
+      },
     });
     const now = new Date().toISOString();
     const model = JSON.parse(readFileSync(join(ROOT, 'fixtures/demo/model.json'), 'utf8'));
-    await t.store.putRun({ id: 'run_b', cacheKey: 'b', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model, grids: [], client: 'test', createdAt: now, updatedAt: now });
+    await t.store.putRun({
+      id: 'run_b',
+      cacheKey: 'b',
+      request: { sites: 'demo-sites', model: 'demo-model' },
+      status: 'done',
+      progress: 1,
+      message: 'done',
+      layers: [],
+      summary: {},
+      warnings: [],
+      model,
+      grids: [],
+      client: 'test',
+      createdAt: now,
+      updatedAt: now,
+    });
     const meta = { width: 20, height: 20, west: -129, north: -37, dx: 0.05, dy: 0.05, crs: 'EPSG:4326', units: 'mW/m²' };
-    await t.store.storeRunResult('run_b', { files: [], grids: [{ name: 'heatFlow', meta, values: new Float32Array(400).fill(75) }, { name: 'heatFlowSd', meta, values: new Float32Array(400).fill(5) }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
+    await t.store.storeRunResult('run_b', {
+      files: [],
+      grids: [
+        { name: 'heatFlow', meta, values: new Float32Array(400).fill(75) },
+        { name: 'heatFlowSd', meta, values: new Float32Array(400).fill(5) },
+      ],
+      record: { grids: ['heatFlow', 'heatFlowSd'] },
+    });
   });
   afterAll(async () => await t?.close());
-  const hip = (body: unknown, client = '10.1.0.1') => t.app.request('/api/runs/run_b/heat-in-place', { method: 'POST', headers: from(client), body: JSON.stringify(body) });
+  const hip = (body: unknown, client = '10.1.0.1') =>
+    t.app.request('/api/runs/run_b/heat-in-place', { method: 'POST', headers: from(client), body: JSON.stringify(body) });
   const ring = (n: number) => {
     // A closed ring of n vertices (the first repeated at the end) around a circle inside the grid.
-    const pts = Array.from({ length: n - 1 }, (_, k) => [-128.5 + 0.3 * Math.cos((2 * Math.PI * k) / (n - 1)), -37.5 + 0.3 * Math.sin((2 * Math.PI * k) / (n - 1))]);
+    const pts = Array.from({ length: n - 1 }, (_, k) => [
+      -128.5 + 0.3 * Math.cos((2 * Math.PI * k) / (n - 1)),
+      -37.5 + 0.3 * Math.sin((2 * Math.PI * k) / (n - 1)),
+    ]);
     return { type: 'Polygon', coordinates: [[...pts, pts[0]]] };
   };
   const waitJob = async (url: string) => {
@@ -196,7 +257,14 @@ describe('model bounds', () => {
   beforeAll(async () => (t = await startTestApp('model-bounds')));
   afterAll(async () => await t?.close());
   // A layered model in the range of the demo's (common practice: upper crust k ≈ 3 W/m/K, A ≈ 1–2 µW/m³).
-  const layers = (n: number) => Array.from({ length: n }, (_, i) => ({ name: `layer ${i + 1}`, bottomKm: ((i + 1) * 60) / n, conductivityWmK: 2.8, heatProductionUWm3: 1, densityKgM3: 2750 }));
+  const layers = (n: number) =>
+    Array.from({ length: n }, (_, i) => ({
+      name: `layer ${i + 1}`,
+      bottomKm: ((i + 1) * 60) / n,
+      conductivityWmK: 2.8,
+      heatProductionUWm3: 1,
+      densityKgM3: 2750,
+    }));
   const column = (model: Record<string, unknown>) => t.post('/api/column', { model: { surfaceTemperatureC: 10, ...model }, heatFlowMWm2: 65 });
 
   it(`takes ${MODEL_BOUNDS.maxLayers} layers and refuses one more, naming the limit`, async () => {
@@ -207,7 +275,9 @@ describe('model bounds', () => {
 
   it(`takes names of ${MODEL_BOUNDS.maxNameChars} characters and refuses longer ones`, async () => {
     const l = layers(2);
-    expect((await column({ name: 'm'.repeat(MODEL_BOUNDS.maxNameChars), layers: [{ ...l[0], name: 'n'.repeat(MODEL_BOUNDS.maxNameChars) }, l[1]] })).status).toBe(200);
+    expect(
+      (await column({ name: 'm'.repeat(MODEL_BOUNDS.maxNameChars), layers: [{ ...l[0], name: 'n'.repeat(MODEL_BOUNDS.maxNameChars) }, l[1]] })).status,
+    ).toBe(200);
     await errorOf(await column({ layers: [{ ...l[0], name: 'n'.repeat(MODEL_BOUNDS.maxNameChars + 1) }, l[1]] }), 422, 'invalid_model');
     await errorOf(await column({ name: 'm'.repeat(MODEL_BOUNDS.maxNameChars + 1), layers: l }), 422, 'invalid_model');
   });
@@ -237,7 +307,10 @@ describe('storage and URL faults', () => {
   afterAll(async () => await t?.close());
 
   it('answers a full database with 507 insufficient_storage, writes nothing, and keeps serving reads', async () => {
-    const created = (await (await t.post('/api/projects', { title: 'Before the disk filled', state: { view: { zoom: 3 } } })).json()) as { id: string; editToken: string };
+    const created = (await (await t.post('/api/projects', { title: 'Before the disk filled', state: { view: { zoom: 3 } } })).json()) as {
+      id: string;
+      editToken: string;
+    };
     // SQLite's max_page_count caps the file at its current size: the next write that needs a page fails SQLITE_FULL.
     const pages = t.store.db.pragma('page_count', { simple: true }) as number;
     t.store.db.pragma(`max_page_count = ${pages}`);
@@ -245,7 +318,11 @@ describe('storage and URL faults', () => {
       const big = { title: 'Too big', state: { notes: 'x'.repeat(200_000) } };
       const e = await errorOf(await t.post('/api/projects', big), 507, 'insufficient_storage');
       expect(e.message).not.toMatch(/at .*\.ts:\d+/);
-      const put = await t.app.request(`/api/projects/${created.id}`, { method: 'PUT', headers: { 'content-type': 'application/json', authorization: `Bearer ${created.editToken}` }, body: JSON.stringify({ state: { notes: 'y'.repeat(200_000) } }) });
+      const put = await t.app.request(`/api/projects/${created.id}`, {
+        method: 'PUT',
+        headers: { 'content-type': 'application/json', authorization: `Bearer ${created.editToken}` },
+        body: JSON.stringify({ state: { notes: 'y'.repeat(200_000) } }),
+      });
       await errorOf(put, 507, 'insufficient_storage');
       // Reads go on: the project as it was (revision 1, nothing half written), the health probe, a data set.
       const got = (await (await t.app.request(`/api/projects/${created.id}`)).json()) as { revision: number; state: unknown };
@@ -284,9 +361,22 @@ describe('storage and URL faults', () => {
   });
 
   it('lists every limit with its value, units and environment variable, and the model bounds with sources', async () => {
-    const l = (await (await t.app.request('/api/limits')).json()) as { limits: { name: string; value: number; units: string; env: string }[]; model: typeof MODEL_BOUNDS };
+    const l = (await (await t.app.request('/api/limits')).json()) as {
+      limits: { name: string; value: number; units: string; env: string }[];
+      model: typeof MODEL_BOUNDS;
+    };
     const names = l.limits.map((x) => x.name);
-    for (const n of ['maxRunCellRealizations', 'maxQueuedWorkPerClient', 'maxQueuedWorkServer', 'maxQueuedRunsServer', 'runWallClockSeconds', 'maxHeatInPlaceCellRealizations', 'maxPolygonVertices', 'heatInPlaceDeadlineSeconds']) expect(names).toContain(n);
+    for (const n of [
+      'maxRunCellRealizations',
+      'maxQueuedWorkPerClient',
+      'maxQueuedWorkServer',
+      'maxQueuedRunsServer',
+      'runWallClockSeconds',
+      'maxHeatInPlaceCellRealizations',
+      'maxPolygonVertices',
+      'heatInPlaceDeadlineSeconds',
+    ])
+      expect(names).toContain(n);
     for (const x of l.limits) expect(x.env).toMatch(/^SUBTHERM_/);
     expect(l.model.maxLayers).toBe(MODEL_BOUNDS.maxLayers);
     for (const r of Object.values(l.model.ranges)) expect(r.source.length).toBeGreaterThan(10);

@@ -22,10 +22,28 @@ type Err = { error: { code: string; message: string; details: { field?: string; 
 
 describe('a compute pool past its deadline', () => {
   it('stops the task, rejects with deadline_exceeded naming the limit, and frees its only thread', async () => {
-    const pool = new ComputePool({ name: 'test', threads: 1, maxQueue: 4, queueLimit: 'maxLongComputeQueue', deadlineLimit: 'computeDeadlineSeconds', workerFile: DOUBLE });
+    const pool = new ComputePool({
+      name: 'test',
+      threads: 1,
+      maxQueue: 4,
+      queueLimit: 'maxLongComputeQueue',
+      deadlineLimit: 'computeDeadlineSeconds',
+      workerFile: DOUBLE,
+    });
     try {
       const model = parseModelDocument(demoModel, 'demo model').model;
-      const query = (seed: number): ColumnQuery => ({ model, heatFlowMWm2: 70, heatFlowSdMWm2: 5, isothermsC: [300], depthsKm: [5], maxDepthKm: 20, stepKm: 1, realizations: 20, seed, profileBand: true });
+      const query = (seed: number): ColumnQuery => ({
+        model,
+        heatFlowMWm2: 70,
+        heatFlowSdMWm2: 5,
+        isothermsC: [300],
+        depthsKm: [5],
+        maxDepthKm: 20,
+        stepKm: 1,
+        realizations: 20,
+        seed,
+        profileBand: true,
+      });
       const stuck = pool.run({ kind: 'column', query: query(SPIN_SEED) }, 300);
       await expect(stuck).rejects.toBeInstanceOf(DeadlineError);
       await expect(stuck).rejects.toMatchObject({ code: 'deadline_exceeded', details: [{ field: 'computeDeadlineSeconds' }] });
@@ -47,8 +65,10 @@ describe('deadlines and queues through the routes', () => {
   afterAll(async () => await t?.close());
 
   // A long band: 2000 realizations × 4 layers × 241 depth samples = 1,928,000 > SHORT_COLUMN_WORK.
-  const longColumn = (seed: number) => t.post('/api/column', { model: 'demo-model', heatFlowMWm2: 70, heatFlowSdMWm2: 5, realizations: 2000, seed, maxDepthKm: 60, stepKm: 0.25 });
-  const shortColumn = (seed: number) => t.post('/api/column', { model: 'demo-model', heatFlowMWm2: 70, heatFlowSdMWm2: 5, realizations: 20, seed, maxDepthKm: 40, stepKm: 0.5 });
+  const longColumn = (seed: number) =>
+    t.post('/api/column', { model: 'demo-model', heatFlowMWm2: 70, heatFlowSdMWm2: 5, realizations: 2000, seed, maxDepthKm: 60, stepKm: 0.25 });
+  const shortColumn = (seed: number) =>
+    t.post('/api/column', { model: 'demo-model', heatFlowMWm2: 70, heatFlowSdMWm2: 5, realizations: 20, seed, maxDepthKm: 40, stepKm: 0.5 });
 
   it('classifies the bands it sends: the long one to the long pool, a map click to the short pool', () => {
     const model = parseModelDocument(demoModel, 'demo model').model;
@@ -99,9 +119,31 @@ describe('a heat-in-place job past its deadline', () => {
   beforeAll(async () => {
     t = await startTestApp('hip-deadline', { computeWorkerFile: DOUBLE, trustedProxies: ['local'], limits: { heatInPlaceDeadlineSeconds: 30 } });
     const now = new Date().toISOString();
-    await t.store.putRun({ id: 'run_d', cacheKey: 'd', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model: demoModel, grids: [], client: 'test', createdAt: now, updatedAt: now });
+    await t.store.putRun({
+      id: 'run_d',
+      cacheKey: 'd',
+      request: { sites: 'demo-sites', model: 'demo-model' },
+      status: 'done',
+      progress: 1,
+      message: 'done',
+      layers: [],
+      summary: {},
+      warnings: [],
+      model: demoModel,
+      grids: [],
+      client: 'test',
+      createdAt: now,
+      updatedAt: now,
+    });
     const meta = { width: 10, height: 10, west: -129, north: -37, dx: 0.05, dy: 0.05, crs: 'EPSG:4326', units: 'mW/m²' };
-    await t.store.storeRunResult('run_d', { files: [], grids: [{ name: 'heatFlow', meta, values: new Float32Array(100).fill(75) }, { name: 'heatFlowSd', meta, values: new Float32Array(100).fill(5) }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
+    await t.store.storeRunResult('run_d', {
+      files: [],
+      grids: [
+        { name: 'heatFlow', meta, values: new Float32Array(100).fill(75) },
+        { name: 'heatFlowSd', meta, values: new Float32Array(100).fill(5) },
+      ],
+      record: { grids: ['heatFlow', 'heatFlowSd'] },
+    });
   });
   afterAll(async () => await t?.close());
   const waitJob = async (url: string) => {
@@ -113,7 +155,11 @@ describe('a heat-in-place job past its deadline', () => {
     throw new Error('job did not finish');
   };
   const job = async (seed: number, client: string) => {
-    const res = await t.app.request('/api/runs/run_d/heat-in-place', { method: 'POST', headers: { 'content-type': 'application/json', 'x-forwarded-for': client }, body: JSON.stringify({ options: { realizations: 10, seed } }) });
+    const res = await t.app.request('/api/runs/run_d/heat-in-place', {
+      method: 'POST',
+      headers: { 'content-type': 'application/json', 'x-forwarded-for': client },
+      body: JSON.stringify({ options: { realizations: 10, seed } }),
+    });
     expect(res.status).toBe(202);
     return ((await res.json()) as { url: string }).url;
   };

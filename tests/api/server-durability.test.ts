@@ -30,7 +30,13 @@ describe('durability under SIGKILL', () => {
     dbDir = dirname(first.dbPath);
     capture(first);
     const base = first.url;
-    const created = (await (await fetch(`${base}/api/projects`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ title: 'burst target', state: { n: 0 } }) })).json()) as { id: string; editToken: string };
+    const created = (await (
+      await fetch(`${base}/api/projects`, {
+        method: 'POST',
+        headers: { 'content-type': 'application/json' },
+        body: JSON.stringify({ title: 'burst target', state: { n: 0 } }),
+      })
+    ).json()) as { id: string; editToken: string };
     const tokens = [created.editToken];
     const ackedRevisions = new Map<number, number>(); // revision → n of its state
     const ackedProjects: { id: string; title: string }[] = [];
@@ -43,14 +49,22 @@ describe('durability under SIGKILL', () => {
         const mine = ++n;
         try {
           if (k % 2 === 0) {
-            const res = await fetch(`${base}/api/projects/${created.id}`, { method: 'PUT', headers: { 'content-type': 'application/json', authorization: `Bearer ${created.editToken}` }, body: JSON.stringify({ state: { n: mine, payload: 'x'.repeat(200) } }) });
+            const res = await fetch(`${base}/api/projects/${created.id}`, {
+              method: 'PUT',
+              headers: { 'content-type': 'application/json', authorization: `Bearer ${created.editToken}` },
+              body: JSON.stringify({ state: { n: mine, payload: 'x'.repeat(200) } }),
+            });
             if (res.status === 200) {
               const { revision } = (await res.json()) as { revision: number };
               ackedRevisions.set(revision, mine);
               acks++;
             }
           } else {
-            const res = await fetch(`${base}/api/projects`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ title: `burst ${mine}`, state: { n: mine } }) });
+            const res = await fetch(`${base}/api/projects`, {
+              method: 'POST',
+              headers: { 'content-type': 'application/json' },
+              body: JSON.stringify({ title: `burst ${mine}`, state: { n: mine } }),
+            });
             if (res.status === 201) {
               const b = (await res.json()) as { id: string; editToken: string };
               tokens.push(b.editToken);
@@ -91,7 +105,11 @@ describe('durability under SIGKILL', () => {
       for (const t of [created.editToken]) expect(text).not.toContain(t);
     }
     // The restarted server still takes saves with the old token.
-    const more = await fetch(`${second.url}/api/projects/${created.id}`, { method: 'PUT', headers: { 'content-type': 'application/json', authorization: `Bearer ${created.editToken}` }, body: JSON.stringify({ state: { n: -1 } }) });
+    const more = await fetch(`${second.url}/api/projects/${created.id}`, {
+      method: 'PUT',
+      headers: { 'content-type': 'application/json', authorization: `Bearer ${created.editToken}` },
+      body: JSON.stringify({ state: { n: -1 } }),
+    });
     expect(more.status).toBe(200);
     await second.stop('SIGTERM');
     servers = servers.filter((s) => s !== second);

@@ -30,7 +30,11 @@ beforeAll(async () => {
   server = await startServerProcess();
   base = `http://127.0.0.1:${server.port}`;
   for (let k = 0; k < 20; k++) {
-    const res = await fetch(`${base}/api/projects`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ title: `load ${k}`, state: { view: { zoom: k }, layers: ['heat-flow', 'faults'] } }) });
+    const res = await fetch(`${base}/api/projects`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json' },
+      body: JSON.stringify({ title: `load ${k}`, state: { view: { zoom: k }, layers: ['heat-flow', 'faults'] } }),
+    });
     projectIds.push(((await res.json()) as { id: string }).id);
   }
   // One finished run, so columns are also read from a stored heat-flow grid (with its P10–P90 band).
@@ -58,21 +62,31 @@ async function load(ms: number): Promise<{ latencies: Record<Kind, number[]>; er
       const t = performance.now();
       const kind = (['project', 'column', 'runColumn'] as const)[(k + i++) % 3];
       // Cell centres of the run's grid, walking through its inner cells.
-      const col = 2 + (n % (grid.width - 4)), row = 2 + (Math.floor(n / grid.width) % (grid.height - 4));
+      const col = 2 + (n % (grid.width - 4)),
+        row = 2 + (Math.floor(n / grid.width) % (grid.height - 4));
       const at = { lon: grid.west + (col + 0.5) * grid.dx, lat: grid.north - (row + 0.5) * grid.dy };
       try {
         const res =
           kind === 'column'
-            ? await fetch(`${base}/api/column`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ model: 'demo-model', heatFlowMWm2: 50 + (n % 40), maxDepthKm: 40, stepKm: 0.5 }) })
+            ? await fetch(`${base}/api/column`, {
+                method: 'POST',
+                headers: { 'content-type': 'application/json' },
+                body: JSON.stringify({ model: 'demo-model', heatFlowMWm2: 50 + (n % 40), maxDepthKm: 40, stepKm: 0.5 }),
+              })
             : kind === 'runColumn'
-              ? await fetch(`${base}/api/column`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ runId: run.id, ...at, maxDepthKm: 40, stepKm: 0.5 }) })
+              ? await fetch(`${base}/api/column`, {
+                  method: 'POST',
+                  headers: { 'content-type': 'application/json' },
+                  body: JSON.stringify({ runId: run.id, ...at, maxDepthKm: 40, stepKm: 0.5 }),
+                })
               : await fetch(`${base}/api/projects/${projectIds[n % projectIds.length]}`);
         const body = (await res.json()) as { profile?: unknown[]; title?: string; monteCarlo?: unknown; error?: { code: string } };
         // A point in a no-data cell of the run (outside the data) is a correct 422, not a server error.
         const ok =
           kind === 'project'
             ? res.status === 200 && body.title !== undefined
-            : (res.status === 200 && body.profile?.length === 81 && (kind === 'column' || body.monteCarlo !== null)) || (kind === 'runColumn' && body.error?.code === 'no_data_here');
+            : (res.status === 200 && body.profile?.length === 81 && (kind === 'column' || body.monteCarlo !== null)) ||
+              (kind === 'runColumn' && body.error?.code === 'no_data_here');
         if (!ok) errors.push(`${kind} ${res.status} ${JSON.stringify(body).slice(0, 160)}`);
       } catch (e) {
         errors.push(`${kind} ${String(e)}`);
@@ -89,10 +103,16 @@ function report(phase: string, r: Awaited<ReturnType<typeof load>>): number {
   for (const [name, list] of Object.entries(r.latencies)) {
     const s = list.slice().sort((a, b) => a - b);
     total += s.length;
-    console.log(`load ${phase} ${name}: ${s.length} requests, p50 ${quantile(s, 0.5).toFixed(1)} ms, p99 ${quantile(s, 0.99).toFixed(1)} ms (${CLIENTS} clients, ${r.seconds.toFixed(1)} s, 127.0.0.1)`);
+    console.log(
+      `load ${phase} ${name}: ${s.length} requests, p50 ${quantile(s, 0.5).toFixed(1)} ms, p99 ${quantile(s, 0.99).toFixed(1)} ms (${CLIENTS} clients, ${r.seconds.toFixed(1)} s, 127.0.0.1)`,
+    );
   }
-  const all = Object.values(r.latencies).flat().sort((a, b) => a - b);
-  console.log(`load ${phase}: ${(total / r.seconds).toFixed(1)} requests/s, p99 ${quantile(all, 0.99).toFixed(1)} ms over all requests, ${r.errors.length} errors`);
+  const all = Object.values(r.latencies)
+    .flat()
+    .sort((a, b) => a - b);
+  console.log(
+    `load ${phase}: ${(total / r.seconds).toFixed(1)} requests/s, p99 ${quantile(all, 0.99).toFixed(1)} ms over all requests, ${r.errors.length} errors`,
+  );
   return total / r.seconds;
 }
 
@@ -124,7 +144,9 @@ describe('load on loopback', () => {
     heavy.busyAtEnd = ((await (await fetch(`${base}/api/health`)).json()) as { computeTasks: { long: number; heatInPlace: number } }).computeTasks;
     stop = true;
     const busyRate = report('under heavy work', busy);
-    console.log(`load: throughput under heavy work ${(busyRate / idleRate).toFixed(2)} of idle (floor ${FLOOR_OF_IDLE}); heavy tasks submitted: ${heavy.jobs} heat-in-place job(s) at the limit, ${heavy.columns} column(s) of ${100} layers × 2000 realizations; in flight at the end ${JSON.stringify(heavy.busyAtEnd)}`);
+    console.log(
+      `load: throughput under heavy work ${(busyRate / idleRate).toFixed(2)} of idle (floor ${FLOOR_OF_IDLE}); heavy tasks submitted: ${heavy.jobs} heat-in-place job(s) at the limit, ${heavy.columns} column(s) of ${100} layers × 2000 realizations; in flight at the end ${JSON.stringify(heavy.busyAtEnd)}`,
+    );
     expect(idle.errors.slice(0, 5)).toEqual([]);
     expect(busy.errors.slice(0, 5)).toEqual([]);
     // The heavy work was still in progress when the loaded phase ended (else the phase measured nothing heavy).

@@ -19,23 +19,52 @@ afterAll(() => t.close());
 describe('model overrides in columns and sections', () => {
   it('a column inside an override region uses its model and matches the run grid cell', async () => {
     // A basin of low-conductivity fill over the south-east of the demo region (invented).
-    const basin = { type: 'Polygon', coordinates: [[[-127.6, -38.6], [-127.0, -38.6], [-127.0, -38.1], [-127.6, -38.1], [-127.6, -38.6]]] };
+    const basin = {
+      type: 'Polygon',
+      coordinates: [
+        [
+          [-127.6, -38.6],
+          [-127.0, -38.6],
+          [-127.0, -38.1],
+          [-127.6, -38.1],
+          [-127.6, -38.6],
+        ],
+      ],
+    };
     const regions = {
       type: 'FeatureCollection',
-      features: [{ type: 'Feature', geometry: basin, properties: { id: 'basin', layers: [{ name: 'basin fill', bottomKm: 4, conductivityWmK: 1.6, heatProductionUWm3: 1.0, densityKgM3: 2300 }] } }],
+      features: [
+        {
+          type: 'Feature',
+          geometry: basin,
+          properties: { id: 'basin', layers: [{ name: 'basin fill', bottomKm: 4, conductivityWmK: 1.6, heatProductionUWm3: 1.0, densityKgM3: 2300 }] },
+        },
+      ],
     };
     const up = await post('/api/datasets?kind=regions', regions);
     expect(up.status).toBe(201);
     const regionsId = ((await up.json()) as { id: string }).id;
-    const res = await post('/api/runs', { sites: 'demo-sites', model: 'demo-model', regions: regionsId, isothermsC: [300], depthsKm: [5], grid: { cellKm: 6 } });
+    const res = await post('/api/runs', {
+      sites: 'demo-sites',
+      model: 'demo-model',
+      regions: regionsId,
+      isothermsC: [300],
+      depthsKm: [5],
+      grid: { cellKm: 6 },
+    });
     const id = ((await res.json()) as { id: string }).id;
     expect((await t.waitEnd(id)).status).toBe('done');
     const tif = (await readGeoTiff(await (await t.app.request(`/api/runs/${id}/layers/depth-300C.tif`)).arrayBuffer())).grid;
     // A cell centre inside the basin and one outside: the column at each equals the grid's value there.
-    for (const [lon, lat, inside] of [[-127.3, -38.35, true], [-128.4, -37.6, false]] as const) {
+    for (const [lon, lat, inside] of [
+      [-127.3, -38.35, true],
+      [-128.4, -37.6, false],
+    ] as const) {
       const k = cellIndexFromXY(tif, lon, lat);
-      const c = k % tif.width, r = Math.floor(k / tif.width);
-      const cx = xFromCol(tif, c), cy = yFromRow(tif, r);
+      const c = k % tif.width,
+        r = Math.floor(k / tif.width);
+      const cx = xFromCol(tif, c),
+        cy = yFromRow(tif, r);
       const colRes = await post('/api/column', { runId: id, lon: cx, lat: cy, isothermsC: [300] });
       const col = (await colRes.json()) as { isothermDepthsKm: Record<string, number>; modelRegion: string | null };
       expect(colRes.status, JSON.stringify(col)).toBe(200);
@@ -44,12 +73,28 @@ describe('model overrides in columns and sections', () => {
     }
     // The same heat flow gives a shallower 300 °C under the insulating fill than under the base model.
     const demoModel = JSON.parse(readFileSync(join(DEMO_DIR, 'model.json'), 'utf8'));
-    const base = (await (await post('/api/column', { model: demoModel, heatFlowMWm2: 60, isothermsC: [300] })).json()) as { isothermDepthsKm: Record<string, number> };
-    const withFill = { ...demoModel, layers: [{ name: 'basin fill', bottomKm: 4, conductivityWmK: 1.6, heatProductionUWm3: 1.0, densityKgM3: 2300 }, ...demoModel.layers] };
-    const filled = (await (await post('/api/column', { model: withFill, heatFlowMWm2: 60, isothermsC: [300] })).json()) as { isothermDepthsKm: Record<string, number> };
+    const base = (await (await post('/api/column', { model: demoModel, heatFlowMWm2: 60, isothermsC: [300] })).json()) as {
+      isothermDepthsKm: Record<string, number>;
+    };
+    const withFill = {
+      ...demoModel,
+      layers: [{ name: 'basin fill', bottomKm: 4, conductivityWmK: 1.6, heatProductionUWm3: 1.0, densityKgM3: 2300 }, ...demoModel.layers],
+    };
+    const filled = (await (await post('/api/column', { model: withFill, heatFlowMWm2: 60, isothermsC: [300] })).json()) as {
+      isothermDepthsKm: Record<string, number>;
+    };
     expect(filled.isothermDepthsKm['300']).toBeLessThan(base.isothermDepthsKm['300']);
     // A section across the basin edge names the zone of each column.
-    const sec = (await (await post('/api/section', { runId: id, line: [[-127.9, -38.35], [-127.2, -38.35]], maxDepthKm: 20 })).json()) as { modelZone: (string | null)[] };
+    const sec = (await (
+      await post('/api/section', {
+        runId: id,
+        line: [
+          [-127.9, -38.35],
+          [-127.2, -38.35],
+        ],
+        maxDepthKm: 20,
+      })
+    ).json()) as { modelZone: (string | null)[] };
     expect(sec.modelZone[0]).toBeNull();
     expect(sec.modelZone[sec.modelZone.length - 1]).toBe('regions[0] (basin)');
   }, 60_000);

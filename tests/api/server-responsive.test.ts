@@ -35,7 +35,9 @@ describe('responsiveness under the heaviest allowed work', () => {
     const status = (await fetch(`${base}/api/runs/${big.id}`).then((r) => r.json())) as { status: string };
     await fetch(`${base}/api/runs/${big.id}`, { method: 'DELETE', headers: { authorization: `Bearer ${big.runToken}` } });
     const worst = Math.max(...probes.latencies);
-    console.log(`${probes.latencies.length} probes, worst ${worst.toFixed(1)} ms; event-loop delay ${JSON.stringify(probes.loopDelay)}; heat in place ${job.realizations} realizations → ${jobRes.status}; column → ${colRes.status}; maximal run ${big.cells} cells × ${big.realizations} was ${status.status}`);
+    console.log(
+      `${probes.latencies.length} probes, worst ${worst.toFixed(1)} ms; event-loop delay ${JSON.stringify(probes.loopDelay)}; heat in place ${job.realizations} realizations → ${jobRes.status}; column → ${colRes.status}; maximal run ${big.cells} cells × ${big.realizations} was ${status.status}`,
+    );
     expect(probes.failures).toEqual([]);
     expect(probes.latencies.length).toBeGreaterThan(5);
     expect(worst).toBeLessThan(2000);

@@ -56,10 +56,26 @@ const EQ_SITES = {
 };
 const EQ_FAULT = {
   type: 'FeatureCollection',
-  features: [{ type: 'Feature', geometry: { type: 'LineString', coordinates: [[0.25, -0.4], [0.25, 0.4]] }, properties: { id: 'f-1', kind: 'normal' } }],
+  features: [
+    {
+      type: 'Feature',
+      geometry: {
+        type: 'LineString',
+        coordinates: [
+          [0.25, -0.4],
+          [0.25, 0.4],
+        ],
+      },
+      properties: { id: 'f-1', kind: 'normal' },
+    },
+  ],
 };
 /** One layer, constant k and A, b = 0: T(z) = T0 + q0·z/k − A·z²/(2k) (Turcotte & Schubert 2002, eq. 4-31). */
-const SIMPLE_MODEL = { surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ name: 'crust', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2700 }] };
+const SIMPLE_MODEL = {
+  surfaceTemperatureC: 10,
+  surfaceHeatFlowMWm2: 60,
+  layers: [{ name: 'crust', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2700 }],
+};
 
 let runId: string;
 let eqRunId: string;
@@ -83,7 +99,11 @@ afterAll(async () => {
 
 describe('data sets', () => {
   it('stores GeoJSON and returns it by id (201, then 200)', async () => {
-    const res = await app.request('/api/datasets?kind=sites&title=eq', { method: 'POST', headers: { 'content-type': 'application/geo+json' }, body: JSON.stringify(EQ_SITES) });
+    const res = await app.request('/api/datasets?kind=sites&title=eq', {
+      method: 'POST',
+      headers: { 'content-type': 'application/geo+json' },
+      body: JSON.stringify(EQ_SITES),
+    });
     expect(res.status).toBe(201);
     const b = (await res.json()) as { id: string; kind: string; featureCount: number; warnings: string[] };
     expect(b).toMatchObject({ kind: 'sites', featureCount: 9, warnings: [] });
@@ -100,7 +120,7 @@ describe('data sets', () => {
     expect(b.warnings.join(' ')).toContain('no id');
   });
 
-  it('stores a thermal model without its name (a name is the data set\'s), de-duplicated by content', async () => {
+  it("stores a thermal model without its name (a name is the data set's), de-duplicated by content", async () => {
     const demo = JSON.parse(readFileSync(join(DEMO_DIR, 'model.json'), 'utf8')) as { name: string; surfaceTemperatureC: number };
     const other = { ...demo, name: 'another name', surfaceTemperatureC: demo.surfaceTemperatureC + 1 };
     const res = await post('/api/datasets?kind=model', other);
@@ -114,11 +134,14 @@ describe('data sets', () => {
     // The demo model's own content under another name is the demo model, not a second copy.
     const again = await post('/api/datasets?kind=model', { ...demo, name: 'renamed' });
     expect(again.status).toBe(200);
-    expect(((await again.json()) as { id: string; deduplicated: boolean })).toMatchObject({ id: 'demo-model', deduplicated: true });
+    expect((await again.json()) as { id: string; deduplicated: boolean }).toMatchObject({ id: 'demo-model', deduplicated: true });
   });
 
   it('names the feature, field and problem of rejected input (422)', async () => {
-    const bad = { type: 'FeatureCollection', features: [{ type: 'Feature', geometry: { type: 'Point', coordinates: [0, 0] }, properties: { id: 'x', heatFlowMWm2: -5 } }] };
+    const bad = {
+      type: 'FeatureCollection',
+      features: [{ type: 'Feature', geometry: { type: 'Point', coordinates: [0, 0] }, properties: { id: 'x', heatFlowMWm2: -5 } }],
+    };
     const e = await errorOf(await post('/api/datasets?kind=sites', bad), 422, 'invalid_features');
     expect(e.details[0]).toMatchObject({ feature: '0 (x)', field: 'properties.heatFlowMWm2' });
   });
@@ -126,11 +149,27 @@ describe('data sets', () => {
   it('answers bad kinds, media types and bodies with 400/415', async () => {
     await errorOf(await post('/api/datasets?kind=rocks', EQ_SITES), 400, 'bad_query');
     await errorOf(await post('/api/datasets', EQ_SITES), 400, 'bad_query');
-    await errorOf(await app.request('/api/datasets?kind=sites', { method: 'POST', headers: { 'content-type': 'text/plain' }, body: 'x' }), 415, 'unsupported_media_type');
-    await errorOf(await app.request('/api/datasets?kind=faults', { method: 'POST', headers: { 'content-type': 'text/csv' }, body: 'lon,lat\n0,0\n' }), 415, 'bad_csv');
+    await errorOf(
+      await app.request('/api/datasets?kind=sites', { method: 'POST', headers: { 'content-type': 'text/plain' }, body: 'x' }),
+      415,
+      'unsupported_media_type',
+    );
+    await errorOf(
+      await app.request('/api/datasets?kind=faults', { method: 'POST', headers: { 'content-type': 'text/csv' }, body: 'lon,lat\n0,0\n' }),
+      415,
+      'bad_csv',
+    );
     await errorOf(await app.request('/api/datasets?kind=model', { method: 'POST', headers: { 'content-type': 'text/csv' }, body: 'lon,lat\n0,0\n' }), 415);
-    await errorOf(await app.request('/api/datasets?kind=sites', { method: 'POST', headers: { 'content-type': 'application/json' }, body: '{"type":' }), 400, 'bad_json');
-    await errorOf(await app.request('/api/datasets?kind=sites', { method: 'POST', headers: { 'content-type': 'application/json' }, body: '' }), 400, 'empty_body');
+    await errorOf(
+      await app.request('/api/datasets?kind=sites', { method: 'POST', headers: { 'content-type': 'application/json' }, body: '{"type":' }),
+      400,
+      'bad_json',
+    );
+    await errorOf(
+      await app.request('/api/datasets?kind=sites', { method: 'POST', headers: { 'content-type': 'application/json' }, body: '' }),
+      400,
+      'empty_body',
+    );
     await errorOf(await post('/api/datasets?kind=model', { surfaceTemperatureC: 10, layers: [] }), 422, 'invalid_model');
   });
 
@@ -146,7 +185,12 @@ describe('data sets', () => {
 
 describe('runs', () => {
   it('reports a finished run with its layers and their URLs', async () => {
-    const r = (await (await app.request(`/api/runs/${runId}`)).json()) as { status: string; progress: number; layers: { name: string; urls: Record<string, string> }[]; summary: RunSummary };
+    const r = (await (await app.request(`/api/runs/${runId}`)).json()) as {
+      status: string;
+      progress: number;
+      layers: { name: string; urls: Record<string, string> }[];
+      summary: RunSummary;
+    };
     expect(r.status).toBe('done');
     expect(r.progress).toBe(1);
     expect(r.summary.provenance.inputs.sites).toBe('260 sites');
@@ -160,7 +204,10 @@ describe('runs', () => {
     expect(tif.headers.get('content-type')).toBe('image/tiff');
     const bytes = new Uint8Array(await tif.arrayBuffer());
     // TIFF 6.0 §2 header: "II" 42 (little-endian) or "MM" 42 (big-endian).
-    expect([[0x49, 0x49, 0x2a, 0x00], [0x4d, 0x4d, 0x00, 0x2a]]).toContainEqual([...bytes.subarray(0, 4)]);
+    expect([
+      [0x49, 0x49, 0x2a, 0x00],
+      [0x4d, 0x4d, 0x00, 0x2a],
+    ]).toContainEqual([...bytes.subarray(0, 4)]);
     const etag = tif.headers.get('etag')!;
     expect((await app.request(`/api/runs/${runId}/layers/heat-flow.tif`, { headers: { 'if-none-match': etag } })).status).toBe(304);
     expect((await app.request(`/api/runs/${runId}/layers/heat-flow.csv`)).headers.get('content-type')).toContain('text/csv');
@@ -190,7 +237,10 @@ describe('runs', () => {
     const res = await app.request(`/api/runs/${id}/events`);
     expect(res.headers.get('content-type')).toContain('text/event-stream');
     const text = await res.text(); // the stream closes itself when the run ends
-    const events = [...text.matchAll(/event: (\w+)\ndata: (.*)\n/g)].map((m) => ({ event: m[1], data: JSON.parse(m[2]) as { status: string; progress: number; message: string } }));
+    const events = [...text.matchAll(/event: (\w+)\ndata: (.*)\n/g)].map((m) => ({
+      event: m[1],
+      data: JSON.parse(m[2]) as { status: string; progress: number; message: string },
+    }));
     const progress = events.filter((e) => e.event === 'progress' && e.data.status === 'running').map((e) => e.data.progress);
     expect(progress.length).toBeGreaterThan(10); // 40 steps of the slow double, some coalesced
     for (let i = 1; i < progress.length; i++) expect(progress[i]).toBeGreaterThanOrEqual(progress[i - 1]);
@@ -203,9 +253,16 @@ describe('runs', () => {
   });
 
   it('cancels a running run (its worker thread is stopped) and a queued one; a finished run answers 409', async () => {
-    const ra = (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 21 })).json()) as { id: string; runToken: string };
-    const rb = (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 22 })).json()) as { id: string; runToken: string };
-    const a = ra.id, b = rb.id;
+    const ra = (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 21 })).json()) as {
+      id: string;
+      runToken: string;
+    };
+    const rb = (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 22 })).json()) as {
+      id: string;
+      runToken: string;
+    };
+    const a = ra.id,
+      b = rb.id;
     const bearer = (t: string) => ({ authorization: `Bearer ${t}` });
     // Wait until a is running with some progress; b waits in the queue (one run at a time).
     for (let i = 0; i < 400; i++) {
@@ -247,7 +304,13 @@ describe('runs', () => {
 
   it('limits runs in flight per client (429)', async () => {
     const ids: { id: string; runToken: string }[] = [];
-    for (let k = 0; k < 3; k++) ids.push((await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 100 + k })).json()) as { id: string; runToken: string });
+    for (let k = 0; k < 3; k++)
+      ids.push(
+        (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 100 + k })).json()) as {
+          id: string;
+          runToken: string;
+        },
+      );
     const e = await errorOf(await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 199 }), 429, 'too_many_runs');
     expect(e.message).toContain('maxQueuedRunsPerClient = 3');
     for (const r of ids) await app.request(`/api/runs/${r.id}`, { method: 'DELETE', headers: { authorization: `Bearer ${r.runToken}` } });
@@ -278,7 +341,11 @@ describe('column', () => {
   it('matches the closed-form geotherm for a one-layer model (Turcotte & Schubert 2002, eq. 4-31)', async () => {
     const res = await post('/api/column', { model: SIMPLE_MODEL, heatFlowMWm2: 60, depthsKm: [10], isothermsC: [230], stepKm: 1, maxDepthKm: 30 });
     expect(res.status).toBe(200);
-    const b = (await res.json()) as { temperatureAtDepthsC: Record<string, number>; isothermDepthsKm: Record<string, number>; profile: { depthKm: number; temperatureC: number; pressureMPa: number; facies: string | null }[] };
+    const b = (await res.json()) as {
+      temperatureAtDepthsC: Record<string, number>;
+      isothermDepthsKm: Record<string, number>;
+      profile: { depthKm: number; temperatureC: number; pressureMPa: number; facies: string | null }[];
+    };
     // T(10 km) = 10 + 60e-3·1e4/2.5 − 1e-6·1e8/(2·2.5) = 10 + 240 − 20 = 230 °C.
     expect(b.temperatureAtDepthsC['10']).toBeCloseTo(230, 3);
     expect(b.isothermDepthsKm['230']).toBeCloseTo(10, 3);
@@ -290,7 +357,8 @@ describe('column', () => {
 
   it('reads the heat flow of a run at a point, and gives the P10–P90 band of a run with realizations', async () => {
     const grid = (await store.getRunGrid(runId, 'heatFlow'))!;
-    const lon = grid.meta.west + grid.meta.dx * 5.5, lat = grid.meta.north - grid.meta.dy * 7.5; // a cell centre
+    const lon = grid.meta.west + grid.meta.dx * 5.5,
+      lat = grid.meta.north - grid.meta.dy * 7.5; // a cell centre
     const res = await post('/api/column', { runId, lon, lat });
     expect(res.status).toBe(200);
     const b = (await res.json()) as ColumnAnswer;
@@ -318,7 +386,10 @@ describe('column', () => {
     await errorOf(await post('/api/column', { model: { ...SIMPLE_MODEL, surfaceHeatFlowMWm2: undefined } }), 422, 'missing_heat_flow');
     await errorOf(await post('/api/column', { model: 'demo-model', heatFlowMWm2: 60, stepKm: 0.001 }), 422, 'invalid_column');
     await errorOf(await post('/api/column', { model: 'demo-model', heatFlowMWm2: 60, extra: 1 }), 422, 'invalid_column');
-    const slowRun = (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 301 })).json()) as { id: string; runToken: string };
+    const slowRun = (await (await post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 301 })).json()) as {
+      id: string;
+      runToken: string;
+    };
     const slow = slowRun.id;
     await errorOf(await post('/api/column', { runId: slow, lon: 0, lat: 0 }), 409, 'run_not_done');
     await app.request(`/api/runs/${slow}`, { method: 'DELETE', headers: { authorization: `Bearer ${slowRun.runToken}` } });
@@ -330,18 +401,37 @@ describe('runs stored by another server', () => {
   const putDoneRun = async (id: string, grids: string[]) => {
     const now = new Date().toISOString();
     await store.putRun({
-      id, cacheKey: `key-${id}`, request: runRequestSchema.parse({ sites: 'demo-sites', model: 'demo-model' }), status: 'done', progress: 1, message: 'done',
-      layers: [], summary: {}, warnings: [], model: null, grids, client: 'test', createdAt: now, updatedAt: now,
+      id,
+      cacheKey: `key-${id}`,
+      request: runRequestSchema.parse({ sites: 'demo-sites', model: 'demo-model' }),
+      status: 'done',
+      progress: 1,
+      message: 'done',
+      layers: [],
+      summary: {},
+      warnings: [],
+      model: null,
+      grids,
+      client: 'test',
+      createdAt: now,
+      updatedAt: now,
     });
   };
 
   it('samples a grid in a projected CRS (EPSG:3857) at a WGS84 point', async () => {
     // Web Mercator by proj4 (the reference library) puts the point at the centre of cell (col 4, row 6).
     const [x, y] = proj4('EPSG:4326', 'EPSG:3857', [-128.2, -38.0]);
-    const dx = 2000, width = 10, height = 10;
+    const dx = 2000,
+      width = 10,
+      height = 10;
     const values = Float32Array.from({ length: width * height }, (_, k) => 50 + k * 0.25);
     await putDoneRun('run_mercator', ['heatFlow']);
-    await store.putRunGrid('run_mercator', 'heatFlow', { width, height, west: x - 4.5 * dx, north: y + 6.5 * dx, dx, dy: dx, crs: 'EPSG:3857', units: 'mW/m²' }, await store.putBlob(new Uint8Array(values.buffer)));
+    await store.putRunGrid(
+      'run_mercator',
+      'heatFlow',
+      { width, height, west: x - 4.5 * dx, north: y + 6.5 * dx, dx, dy: dx, crs: 'EPSG:3857', units: 'mW/m²' },
+      await store.putBlob(new Uint8Array(values.buffer)),
+    );
     const b = (await (await post('/api/column', { runId: 'run_mercator', lon: -128.2, lat: -38.0 })).json()) as ColumnAnswer;
     expect(b.surfaceHeatFlowMWm2).toBeCloseTo(values[6 * width + 4], 3);
     expect(b.monteCarlo).toBeNull(); // the run asked for no realizations
@@ -350,12 +440,37 @@ describe('runs stored by another server', () => {
   it('answers 409 for a finished run without a heat-flow grid', async () => {
     await putDoneRun('run_gridless', []);
     await errorOf(await post('/api/column', { runId: 'run_gridless', lon: 0, lat: 0 }), 409, 'run_without_grid');
-    await errorOf(await post('/api/section', { runId: 'run_gridless', line: [[0, 0], [1, 0]] }), 409, 'run_without_grid');
+    await errorOf(
+      await post('/api/section', {
+        runId: 'run_gridless',
+        line: [
+          [0, 0],
+          [1, 0],
+        ],
+      }),
+      409,
+      'run_without_grid',
+    );
   });
 
   it('marks runs left queued or running by a stopped server as failed on start', async () => {
     const now = new Date().toISOString();
-    await store.putRun({ id: 'run_orphan', cacheKey: 'key-orphan', request: {}, status: 'running', progress: 0.4, message: 'tile 3', layers: [], summary: null, warnings: [], model: null, grids: [], client: 'x', createdAt: now, updatedAt: now });
+    await store.putRun({
+      id: 'run_orphan',
+      cacheKey: 'key-orphan',
+      request: {},
+      status: 'running',
+      progress: 0.4,
+      message: 'tile 3',
+      layers: [],
+      summary: null,
+      warnings: [],
+      model: null,
+      grids: [],
+      client: 'x',
+      createdAt: now,
+      updatedAt: now,
+    });
     const restarted = createApp({ store, terrain: null, clientDir: null, runWorkerFile: DOUBLE });
     await restarted.jobs.ready;
     const r = (await (await restarted.request('/api/runs/run_orphan')).json()) as { status: string; message: string };
@@ -377,12 +492,28 @@ describe('section', () => {
   });
 
   it('gives a distance × depth temperature grid, isotherm curves, facies and fault/isograd crossings', async () => {
-    const res = await post('/api/section', { runId: eqRunId, line: [[0.05, 0], [0.95, 0]], maxDepthKm: 20, samples: 91, depthSamples: 21 });
+    const res = await post('/api/section', {
+      runId: eqRunId,
+      line: [
+        [0.05, 0],
+        [0.95, 0],
+      ],
+      maxDepthKm: 20,
+      samples: 91,
+      depthSamples: 21,
+    });
     expect(res.status).toBe(200);
     const b = (await res.json()) as {
-      lengthKm: number; width: number; height: number; distanceKm: number[]; depthKm: number[]; temperatureC: (number | null)[];
-      faciesClass: number[]; isotherms: { temperatureC: number; depthKm: (number | null)[] }[];
-      faultCrossings: { id: string; distanceKm: number }[]; isogradCrossings: { id: string; distanceKm: number; properties: { zone: string } }[];
+      lengthKm: number;
+      width: number;
+      height: number;
+      distanceKm: number[];
+      depthKm: number[];
+      temperatureC: (number | null)[];
+      faciesClass: number[];
+      isotherms: { temperatureC: number; depthKm: (number | null)[] }[];
+      faultCrossings: { id: string; distanceKm: number }[];
+      isogradCrossings: { id: string; distanceKm: number; properties: { zone: string } }[];
     };
     // On the equator a geodesic is the equator itself: length = a·Δλ = 6378.137 km · 0.9° · π/180 = 100.1875 km (WGS84 a).
     expect(b.lengthKm).toBeCloseTo(100.1875, 2);
@@ -407,22 +538,96 @@ describe('section', () => {
   });
 
   it('agrees with the column inspector at a point of the line', async () => {
-    const sec = (await (await post('/api/section', { runId, line: [[-128.3, -38.1], [-127.9, -37.8]], maxDepthKm: 30, samples: 11, depthSamples: 31 })).json()) as { positions: [number, number][]; temperatureC: (number | null)[] };
+    const sec = (await (
+      await post('/api/section', {
+        runId,
+        line: [
+          [-128.3, -38.1],
+          [-127.9, -37.8],
+        ],
+        maxDepthKm: 30,
+        samples: 11,
+        depthSamples: 31,
+      })
+    ).json()) as { positions: [number, number][]; temperatureC: (number | null)[] };
     const [lon, lat] = sec.positions[5];
     const col = (await (await post('/api/column', { runId, lon, lat, stepKm: 1, maxDepthKm: 30 })).json()) as { profile: { temperatureC: number }[] };
     expect(sec.temperatureC[20 * 11 + 5]).toBeCloseTo(col.profile[20].temperatureC, 1);
   });
 
   it('answers section errors with 404/409/422', async () => {
-    await errorOf(await post('/api/section', { runId: 'run_nope', line: [[0, 0], [1, 0]] }), 404, 'run_not_found');
+    await errorOf(
+      await post('/api/section', {
+        runId: 'run_nope',
+        line: [
+          [0, 0],
+          [1, 0],
+        ],
+      }),
+      404,
+      'run_not_found',
+    );
     await errorOf(await post('/api/section', { runId, line: [[0, 0]] }), 422, 'invalid_section');
-    await errorOf(await post('/api/section', { runId, line: [[0, 0], [1, 95]] }), 422, 'invalid_section');
-    await errorOf(await post('/api/section', { runId, line: [[0, 0], [1, 0]], samples: 5000 }), 422, 'invalid_section');
-    await errorOf(await post('/api/section', { runId, line: [[-128, -38], [-128, -38]] }), 422, 'invalid_section');
-    await errorOf(await post('/api/section', { runId, line: [[0, 0], [1, 0]], samples: 1000, depthSamples: 500 }), 422, 'invalid_section');
+    await errorOf(
+      await post('/api/section', {
+        runId,
+        line: [
+          [0, 0],
+          [1, 95],
+        ],
+      }),
+      422,
+      'invalid_section',
+    );
+    await errorOf(
+      await post('/api/section', {
+        runId,
+        line: [
+          [0, 0],
+          [1, 0],
+        ],
+        samples: 5000,
+      }),
+      422,
+      'invalid_section',
+    );
+    await errorOf(
+      await post('/api/section', {
+        runId,
+        line: [
+          [-128, -38],
+          [-128, -38],
+        ],
+      }),
+      422,
+      'invalid_section',
+    );
+    await errorOf(
+      await post('/api/section', {
+        runId,
+        line: [
+          [0, 0],
+          [1, 0],
+        ],
+        samples: 1000,
+        depthSamples: 500,
+      }),
+      422,
+      'invalid_section',
+    );
     const failed = ((await (await post('/api/runs', { title: 'fail', sites: 'demo-sites', model: 'demo-model', seed: 401 })).json()) as { id: string }).id;
     await waitDone(app, failed);
-    await errorOf(await post('/api/section', { runId: failed, line: [[0, 0], [1, 0]] }), 409, 'run_not_done');
+    await errorOf(
+      await post('/api/section', {
+        runId: failed,
+        line: [
+          [0, 0],
+          [1, 0],
+        ],
+      }),
+      409,
+      'run_not_done',
+    );
   });
 });
 
@@ -444,7 +649,12 @@ describe('projects', () => {
     const text = await res.text();
     expect(text).not.toContain(token);
     expect(JSON.parse(text)).toMatchObject({ id, title: 'Orrindel survey', revision: 1, state: { layers: ['heat-flow'] } });
-    const put = (auth?: string) => app.request(`/api/projects/${id}`, { method: 'PUT', headers: { 'content-type': 'application/json', ...(auth ? { authorization: auth } : {}) }, body: JSON.stringify({ state: { x: 1 } }) });
+    const put = (auth?: string) =>
+      app.request(`/api/projects/${id}`, {
+        method: 'PUT',
+        headers: { 'content-type': 'application/json', ...(auth ? { authorization: auth } : {}) },
+        body: JSON.stringify({ state: { x: 1 } }),
+      });
     const e401 = await put();
     expect(e401.headers.get('www-authenticate')).toContain('Bearer');
     await errorOf(e401, 401, 'unauthorized');
@@ -456,7 +666,12 @@ describe('projects', () => {
   });
 
   it('appends revisions on each save and serves any of them', async () => {
-    const put = (body: unknown) => app.request(`/api/projects/${id}`, { method: 'PUT', headers: { 'content-type': 'application/json', authorization: `Bearer ${token}` }, body: JSON.stringify(body) });
+    const put = (body: unknown) =>
+      app.request(`/api/projects/${id}`, {
+        method: 'PUT',
+        headers: { 'content-type': 'application/json', authorization: `Bearer ${token}` },
+        body: JSON.stringify(body),
+      });
     expect(await (await put({ state: { step: 2 } })).json()).toEqual({ id, revision: 2 });
     expect(await (await put({ title: 'Renamed', state: { step: 3 } })).json()).toEqual({ id, revision: 3 });
     const head = (await (await app.request(`/api/projects/${id}`)).json()) as { title: string; state: unknown; revision: number };
@@ -467,12 +682,20 @@ describe('projects', () => {
     const listText = await listRes.text();
     expect(listText).not.toContain(token);
     const list = JSON.parse(listText) as { revisions: { revision: number; title: string }[] };
-    expect(list.revisions.map((r) => [r.revision, r.title])).toEqual([[1, 'Orrindel survey'], [2, 'Orrindel survey'], [3, 'Renamed']]);
+    expect(list.revisions.map((r) => [r.revision, r.title])).toEqual([
+      [1, 'Orrindel survey'],
+      [2, 'Orrindel survey'],
+      [3, 'Renamed'],
+    ]);
     await errorOf(await app.request(`/api/projects/${id}?revision=9`), 404, 'revision_not_found');
     await errorOf(await app.request(`/api/projects/${id}?revision=abc`), 400, 'bad_query');
     await errorOf(await app.request('/api/projects/nope'), 404, 'project_not_found');
     await errorOf(await app.request('/api/projects/nope/revisions'), 404, 'project_not_found');
-    await errorOf(await app.request('/api/projects/nope', { method: 'PUT', headers: { authorization: `Bearer ${token}` }, body: '{}' }), 404, 'project_not_found');
+    await errorOf(
+      await app.request('/api/projects/nope', { method: 'PUT', headers: { authorization: `Bearer ${token}` }, body: '{}' }),
+      404,
+      'project_not_found',
+    );
     await errorOf(await put({ state: 'not an object' }), 422, 'invalid_project');
     await errorOf(await put({}), 422, 'invalid_project');
   });
@@ -480,7 +703,9 @@ describe('projects', () => {
   it('keeps revision rows immutable in the database itself', async () => {
     expect(() => store.db.prepare('UPDATE project_revisions SET state = ? WHERE project_id = ?').run('{}', id)).toThrow(/append-only/);
     expect(() => store.db.prepare('DELETE FROM project_revisions WHERE project_id = ?').run(id)).toThrow(/append-only/);
-    expect(() => store.db.prepare("INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES (?, 1, 't', '{}', 'now')").run(id)).toThrow(/UNIQUE/);
+    expect(() =>
+      store.db.prepare("INSERT INTO project_revisions (project_id, revision, title, state, created_at) VALUES (?, 1, 't', '{}', 'now')").run(id),
+    ).toThrow(/UNIQUE/);
     const hash = (await store.getProjectTokenHash(id))!;
     expect(hash).toMatch(/^[0-9a-f]{64}$/);
     expect(JSON.stringify(store.db.prepare('SELECT * FROM projects').all())).not.toContain(token);
@@ -529,7 +754,10 @@ describe('headers, OpenAPI and fallbacks', () => {
   });
 
   it('serves an OpenAPI document generated from the schemas', async () => {
-    const doc = (await (await app.request('/api/openapi.json')).json()) as { openapi: string; paths: Record<string, Record<string, { requestBody?: { content: Record<string, { schema: { properties?: Record<string, unknown> } }> } }>> };
+    const doc = (await (await app.request('/api/openapi.json')).json()) as {
+      openapi: string;
+      paths: Record<string, Record<string, { requestBody?: { content: Record<string, { schema: { properties?: Record<string, unknown> } }> } }>>;
+    };
     expect(doc.openapi).toBe('3.1.0');
     for (const p of ['/api/runs', '/api/column', '/api/section', '/api/projects', '/api/projects/{id}', '/api/datasets']) expect(doc.paths[p], p).toBeDefined();
     expect(Object.keys(doc.paths['/api/runs'].post.requestBody!.content['application/json'].schema.properties!)).toContain('isothermsC');

@@ -65,7 +65,9 @@ describe('runs with the real pipeline', () => {
     expect(t.tiles[0]).toContain(`/api/runs/${runId}/tiles/heat-flow/{z}/{x}/{y}.png`);
     // The tile under the grid's centre at the minimum zoom (Web Mercator tile scheme, OSM slippy-map formulas).
     const g = (await store.getRunGrid(runId, 'heatFlow'))!.meta;
-    const lon = g.west + (g.width * g.dx) / 2, lat = g.north - (g.height * g.dy) / 2, z = t.minzoom;
+    const lon = g.west + (g.width * g.dx) / 2,
+      lat = g.north - (g.height * g.dy) / 2,
+      z = t.minzoom;
     const x = Math.floor(((lon + 180) / 360) * 2 ** z);
     const y = Math.floor(((1 - Math.log(Math.tan((lat * Math.PI) / 180) + 1 / Math.cos((lat * Math.PI) / 180)) / Math.PI) / 2) * 2 ** z);
     const tile = await app.request(`/api/runs/${runId}/tiles/heat-flow/${z}/${x}/${y}.png`);
@@ -91,12 +93,18 @@ describe('runs with the real pipeline', () => {
     expect(((await again.json()) as { id: string }).id).toBe(runId);
   });
 
-  it('answers a column at a cell centre with that cell\'s heat flow, and a P10–P90 band', async () => {
+  it("answers a column at a cell centre with that cell's heat flow, and a P10–P90 band", async () => {
     const g = (await store.getRunGrid(runId, 'heatFlow'))!;
     const sd = await store.getRunGrid(runId, 'heatFlowSd');
-    let col = -1, row = -1;
-    for (let k = 0; k < g.values.length && col < 0; k++) if (Number.isFinite(g.values[k]) && k % g.meta.width > 2 && k > 2 * g.meta.width) { col = k % g.meta.width; row = Math.floor(k / g.meta.width); }
-    const lon = g.meta.west + (col + 0.5) * g.meta.dx, lat = g.meta.north - (row + 0.5) * g.meta.dy;
+    let col = -1,
+      row = -1;
+    for (let k = 0; k < g.values.length && col < 0; k++)
+      if (Number.isFinite(g.values[k]) && k % g.meta.width > 2 && k > 2 * g.meta.width) {
+        col = k % g.meta.width;
+        row = Math.floor(k / g.meta.width);
+      }
+    const lon = g.meta.west + (col + 0.5) * g.meta.dx,
+      lat = g.meta.north - (row + 0.5) * g.meta.dy;
     const res = await post('/api/column', { runId, lon, lat });
     expect(res.status).toBe(200);
     const b = (await res.json()) as ColumnAnswer;
@@ -104,7 +112,15 @@ describe('runs with the real pipeline', () => {
     if (sd) expect(b.heatFlowSdMWm2).toBeCloseTo(sd.values[row * g.meta.width + col], 3);
     expect(b.monteCarlo).not.toBeNull();
     expect(b.monteCarlo!.profileTemperatureC![20].p10!).toBeLessThan(b.monteCarlo!.profileTemperatureC![20].p90!);
-    const sec = await post('/api/section', { runId, line: [[lon, lat], [lon + 5 * g.meta.dx, lat - 3 * g.meta.dy]], samples: 50, depthSamples: 40 });
+    const sec = await post('/api/section', {
+      runId,
+      line: [
+        [lon, lat],
+        [lon + 5 * g.meta.dx, lat - 3 * g.meta.dy],
+      ],
+      samples: 50,
+      depthSamples: 40,
+    });
     expect(sec.status).toBe(200);
     const s = (await sec.json()) as { temperatureC: (number | null)[]; heatFlowMWm2: (number | null)[] };
     expect(s.heatFlowMWm2[0]).toBeCloseTo(b.surfaceHeatFlowMWm2, 1);

@@ -57,10 +57,32 @@ if (pgAvailable()) {
 
 const run = (id: string, over: Partial<RunRecord> = {}): RunRecord => {
   const now = new Date().toISOString();
-  return { id, cacheKey: `key-${id}`, request: { title: `run ${id}` }, status: 'queued', progress: 0, message: 'queued', layers: [], summary: null, warnings: [], model: null, grids: [], client: 'c', createdAt: now, updatedAt: now, ...over };
+  return {
+    id,
+    cacheKey: `key-${id}`,
+    request: { title: `run ${id}` },
+    status: 'queued',
+    progress: 0,
+    message: 'queued',
+    layers: [],
+    summary: null,
+    warnings: [],
+    model: null,
+    grids: [],
+    client: 'c',
+    createdAt: now,
+    updatedAt: now,
+    ...over,
+  };
 };
 
-const SITES = JSON.stringify({ type: 'FeatureCollection', features: [{ type: 'Feature', geometry: { type: 'Point', coordinates: [-128.5, -38.25] }, properties: { heatFlowMWm2: 70 } }, { type: 'Feature', geometry: { type: 'Point', coordinates: [-127, -37] }, properties: { heatFlowMWm2: 80 } }] });
+const SITES = JSON.stringify({
+  type: 'FeatureCollection',
+  features: [
+    { type: 'Feature', geometry: { type: 'Point', coordinates: [-128.5, -38.25] }, properties: { heatFlowMWm2: 70 } },
+    { type: 'Feature', geometry: { type: 'Point', coordinates: [-127, -37] }, properties: { heatFlowMWm2: 80 } },
+  ],
+});
 
 describe.each(backends)('the %s store', (_name, make) => {
   let b: Backend;
@@ -146,12 +168,17 @@ describe.each(backends)('the %s store', (_name, make) => {
   it('stores a run result atomically: files and grids content-addressed, grids read back whole and by rows', async () => {
     await s.putRun(run('r2', { status: 'running' }));
     // 300 × 700 cells: several bands of rows in the PostgreSQL store.
-    const width = 300, height = 700;
+    const width = 300,
+      height = 700;
     const values = Float32Array.from({ length: width * height }, (_, k) => (k % 977) * 0.5 - 10);
     values[5] = NaN;
     const meta = { width, height, west: -129, north: -37, dx: 0.01, dy: 0.01, crs: 'EPSG:4326', units: 'mW/m²' };
     const png = new Uint8Array([137, 80, 78, 71, 1, 2, 3]);
-    await s.storeRunResult('r2', { files: [{ name: 'heat-flow', ext: 'png', bytes: png, contentType: 'image/png' }], grids: [{ name: 'heatFlow', meta, values }], record: { grids: ['heatFlow'], layers: [{ name: 'heat-flow' }] } });
+    await s.storeRunResult('r2', {
+      files: [{ name: 'heat-flow', ext: 'png', bytes: png, contentType: 'image/png' }],
+      grids: [{ name: 'heatFlow', meta, values }],
+      record: { grids: ['heatFlow'], layers: [{ name: 'heat-flow' }] },
+    });
     const f = (await s.getRunFile('r2', 'heat-flow', 'png'))!;
     expect([...f.bytes]).toEqual([...png]);
     expect(f.contentType).toBe('image/png');

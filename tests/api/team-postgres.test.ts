@@ -60,7 +60,10 @@ describe.runIf(pgAvailable())('two servers on one PostgreSQL database', () => {
   it('shares projects: a token from A edits on B, a view link writes on neither, saves from both are all kept', async () => {
     const created = (await (await A.request('/api/projects', json('POST', { title: 'Shared', state: { n: 0 } }))).json()) as { id: string; editToken: string };
     const saves = await Promise.all(
-      Array.from({ length: 10 }, async (_, k) => await (k % 2 === 0 ? A : B).request(`/api/projects/${created.id}`, json('PUT', { state: { n: k + 1 } }, created.editToken))),
+      Array.from(
+        { length: 10 },
+        async (_, k) => await (k % 2 === 0 ? A : B).request(`/api/projects/${created.id}`, json('PUT', { state: { n: k + 1 } }, created.editToken)),
+      ),
     );
     expect(saves.map((r) => r.status)).toEqual(Array(10).fill(200));
     const revs = (await (await B.request(`/api/projects/${created.id}/revisions`)).json()) as { revisions: { revision: number }[] };

@@ -16,7 +16,9 @@ describe('the demo project on first start', () => {
     expect(typeof p.state.runId).toBe('string');
     const runs = (await (await t.app.request('/api/projects/demo/runs')).json()) as { runs: { id: string }[] };
     expect(runs.runs.map((r) => r.id)).toEqual([p.state.runId]);
-    const run = await t.waitEnd<{ status: string; message: string; layers: { name: string }[]; request: { realizations: number; isothermsC: number[] } }>(p.state.runId!);
+    const run = await t.waitEnd<{ status: string; message: string; layers: { name: string }[]; request: { realizations: number; isothermsC: number[] } }>(
+      p.state.runId!,
+    );
     expect(run.status, run.message).toBe('done');
     const names = run.layers.map((l) => l.name);
     expect(names).toEqual(expect.arrayContaining(['heat-flow', 'depth-300C', 'depth-500C', 'depth-300C.p10', 'depth-300C.p90', 'isograds']));
@@ -26,10 +28,19 @@ describe('the demo project on first start', () => {
 
   it('finds the finished run again on the next start instead of recomputing it', async () => {
     const { startDemoRun } = await import('../../server/demo-run.ts');
-    const before = ((await (await t.app.request('/api/projects/demo')).json()) as { state: { runId: string }; revision: number });
-    const ctx = { store: t.store, limits: t.app.limits, jobs: t.app.jobs, grids: null as never, compute: null as never, heatJobs: null as never, trustedProxies: new Set<string>(), workerFile: (await import('../../server/app.ts')).RUN_WORKER_FILE };
+    const before = (await (await t.app.request('/api/projects/demo')).json()) as { state: { runId: string }; revision: number };
+    const ctx = {
+      store: t.store,
+      limits: t.app.limits,
+      jobs: t.app.jobs,
+      grids: null as never,
+      compute: null as never,
+      heatJobs: null as never,
+      trustedProxies: new Set<string>(),
+      workerFile: (await import('../../server/app.ts')).RUN_WORKER_FILE,
+    };
     expect(await startDemoRun(ctx)).toBe(before.state.runId);
-    const after = ((await (await t.app.request('/api/projects/demo')).json()) as { revision: number });
+    const after = (await (await t.app.request('/api/projects/demo')).json()) as { revision: number };
     expect(after.revision).toBe(before.revision);
   });
 });

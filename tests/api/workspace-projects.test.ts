@@ -25,7 +25,11 @@ const SITES_CSV = [
 const auth = () => ({ authorization: `Bearer ${token}` });
 const upload = (kind: string, body: string, type: string, extra = '', headers: Record<string, string> = auth()) =>
   app.request(`/api/projects/${pid}/datasets?kind=${kind}${extra}`, { method: 'POST', headers: { 'content-type': type, ...headers }, body });
-const list = async () => ((await (await app.request(`/api/projects/${pid}/datasets`)).json()) as { datasets: { id: string; kind: string; name: string; featureCount: number; bbox: number[]; uploadedAt: string }[]; storage: { bytes: number; limitBytes: number } });
+const list = async () =>
+  (await (await app.request(`/api/projects/${pid}/datasets`)).json()) as {
+    datasets: { id: string; kind: string; name: string; featureCount: number; bbox: number[]; uploadedAt: string }[];
+    storage: { bytes: number; limitBytes: number };
+  };
 
 beforeAll(async () => {
   t = await startTestApp('projects');
@@ -70,10 +74,12 @@ describe('a project owns named data sets', () => {
   it('de-duplicates the same content uploaded again, even as GeoJSON instead of CSV', async () => {
     const fc = {
       type: 'FeatureCollection',
-      features: SITES_CSV.split('\n').slice(1).map((line) => {
-        const [lon, lat, id, q] = line.split(',');
-        return { type: 'Feature', geometry: { type: 'Point', coordinates: [Number(lon), Number(lat)] }, properties: { id, heatFlowMWm2: Number(q) } };
-      }),
+      features: SITES_CSV.split('\n')
+        .slice(1)
+        .map((line) => {
+          const [lon, lat, id, q] = line.split(',');
+          return { type: 'Feature', geometry: { type: 'Point', coordinates: [Number(lon), Number(lat)] }, properties: { id, heatFlowMWm2: Number(q) } };
+        }),
     };
     const res = await upload('sites', JSON.stringify(fc), 'application/geo+json');
     expect(res.status).toBe(200);
@@ -90,7 +96,11 @@ describe('a project owns named data sets', () => {
   it('renames a data set (edit token required; a name used by another data set is refused)', async () => {
     const [d] = (await list()).datasets;
     const patch = (body: unknown, headers: Record<string, string> = auth()) =>
-      app.request(`/api/projects/${pid}/datasets/${d.id}`, { method: 'PATCH', headers: { 'content-type': 'application/json', ...headers }, body: JSON.stringify(body) });
+      app.request(`/api/projects/${pid}/datasets/${d.id}`, {
+        method: 'PATCH',
+        headers: { 'content-type': 'application/json', ...headers },
+        body: JSON.stringify(body),
+      });
     expect((await patch({ name: 'x' }, {})).status).toBe(401);
     expect((await patch({ name: '' })).status).toBe(422);
     const ok = await patch({ name: 'Leg 1 heat flow' });
@@ -118,7 +128,11 @@ describe('a project owns named data sets', () => {
     expect(d.name).toBe('Some other region crustal model');
     const stored = (await (await app.request(`/api/datasets/${d.id}`)).json()) as Record<string, unknown>;
     expect(stored.name).toBeUndefined();
-    await app.request(`/api/projects/${pid}/datasets/${d.id}`, { method: 'PATCH', headers: { 'content-type': 'application/json', ...auth() }, body: JSON.stringify({ name: 'Pacific crust' }) });
+    await app.request(`/api/projects/${pid}/datasets/${d.id}`, {
+      method: 'PATCH',
+      headers: { 'content-type': 'application/json', ...auth() },
+      body: JSON.stringify({ name: 'Pacific crust' }),
+    });
     const dl = (await (await app.request(`/api/projects/${pid}/datasets/${d.id}`)).json()) as Record<string, unknown>;
     expect(dl.name).toBe('Pacific crust');
   });
@@ -130,14 +144,22 @@ describe('a project owns named data sets', () => {
     expect(l.datasets.map((d) => d.kind).sort()).toEqual(['faults', 'model', 'regions', 'samples', 'sites', 'wells']);
     for (const d of l.datasets) expect(d.name).not.toMatch(/^ds_|^demo-/);
     // The demo is read-only: no one holds its edit token.
-    const put = await app.request(`/api/projects/${cfg.demo.projectId}/datasets?kind=sites`, { method: 'POST', headers: { 'content-type': 'text/csv', ...auth() }, body: SITES_CSV });
+    const put = await app.request(`/api/projects/${cfg.demo.projectId}/datasets?kind=sites`, {
+      method: 'POST',
+      headers: { 'content-type': 'text/csv', ...auth() },
+      body: SITES_CSV,
+    });
     expect(put.status).toBe(403);
   });
 });
 
 describe('runs name their data sets and belong to their project', () => {
   it('stops a run missing what it needs with a message saying what to add', async () => {
-    const res = await app.request(`/api/projects/${pid}/runs`, { method: 'POST', headers: { 'content-type': 'application/json', ...auth() }, body: JSON.stringify({ realizations: 0 }) });
+    const res = await app.request(`/api/projects/${pid}/runs`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json', ...auth() },
+      body: JSON.stringify({ realizations: 0 }),
+    });
     expect(res.status).toBe(422);
     const e = (await res.json()) as { error: { code: string; message: string; details: { field: string }[] } };
     expect(e.error.code).toBe('run_needs_input');
@@ -146,10 +168,14 @@ describe('runs name their data sets and belong to their project', () => {
     expect(e.error.message).toContain('add a thermal model');
   });
 
-  it('refuses a data set the project does not hold (the demo\'s samples are not a fallback)', async () => {
+  it("refuses a data set the project does not hold (the demo's samples are not a fallback)", async () => {
     const [sites] = (await list()).datasets.filter((d) => d.kind === 'sites');
     const model = (await list()).datasets.find((d) => d.kind === 'model')!;
-    const res = await app.request(`/api/projects/${pid}/runs`, { method: 'POST', headers: { 'content-type': 'application/json', ...auth() }, body: JSON.stringify({ sites: sites.id, samples: 'demo-samples', model: model.id }) });
+    const res = await app.request(`/api/projects/${pid}/runs`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json', ...auth() },
+      body: JSON.stringify({ sites: sites.id, samples: 'demo-samples', model: model.id }),
+    });
     expect(res.status).toBe(422);
     expect(((await res.json()) as { error: { code: string } }).error.code).toBe('dataset_not_in_project');
   });
@@ -172,7 +198,7 @@ describe('runs name their data sets and belong to their project', () => {
     await app.request(`/api/projects/${pid}/datasets/${f.id}`, { method: 'DELETE', headers: auth() });
   });
 
-  it('runs with the project\'s own data only and lists the run under the project', async () => {
+  it("runs with the project's own data only and lists the run under the project", async () => {
     const l = await list();
     const sites = l.datasets.find((d) => d.kind === 'sites')!;
     const model = l.datasets.find((d) => d.kind === 'model')!;
@@ -204,7 +230,11 @@ describe('runs name their data sets and belong to their project', () => {
     const small = await startTestApp('quota', { limits: { maxProjectStorageBytes: 600 } });
     try {
       const p = (await (await small.post('/api/projects', { title: 'small' })).json()) as { id: string; editToken: string };
-      const res = await small.app.request(`/api/projects/${p.id}/datasets?kind=sites`, { method: 'POST', headers: { 'content-type': 'text/csv', authorization: `Bearer ${p.editToken}` }, body: SITES_CSV });
+      const res = await small.app.request(`/api/projects/${p.id}/datasets?kind=sites`, {
+        method: 'POST',
+        headers: { 'content-type': 'text/csv', authorization: `Bearer ${p.editToken}` },
+        body: SITES_CSV,
+      });
       expect(res.status).toBe(413);
       const e = (await res.json()) as { error: { code: string; message: string } };
       expect(e.error.code).toBe('project_quota_exceeded');
@@ -226,6 +256,6 @@ describe('the distance between data sets', () => {
     expect(Math.abs(bboxGapKm(a, b) - ref) / ref).toBeLessThan(0.005);
     expect(bboxGapKm([-1, -1, 1, 1], [0, 0, 2, 2])).toBe(0);
     // Across the antimeridian: 179.5° E to 179.5° W on the equator is 1° of longitude, 111.2 km (R1 × π/180).
-    expect(bboxGapKm([179, 0, 179.5, 0], [-179.5, 0, -179, 0])).toBeCloseTo(6371.0088 * Math.PI / 180, 1);
+    expect(bboxGapKm([179, 0, 179.5, 0], [-179.5, 0, -179, 0])).toBeCloseTo((6371.0088 * Math.PI) / 180, 1);
   });
 });

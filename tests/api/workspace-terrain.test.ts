@@ -16,19 +16,27 @@ let token: string;
 
 // UTM zone 6 north (EPSG:32606), as the EPSG registry defines it; the reference for the check below is proj4 itself.
 const UTM6N = '+proj=utm +zone=6 +datum=WGS84 +units=m +no_defs';
-const X0 = 500_000, Y0 = 3_350_000; // near 30.3° N, 147° W: open ocean (an invented survey area)
+const X0 = 500_000,
+  Y0 = 3_350_000; // near 30.3° N, 147° W: open ocean (an invented survey area)
 // Elevation linear in easting and northing: bilinear resampling reproduces it exactly.
 const elevation = (x: number, y: number) => -4000 + 0.01 * (x - X0) + 0.005 * (Y0 - y);
 
 function utmDem(): Uint8Array {
-  const width = 120, height = 100, dx = 500, dy = 500;
+  const width = 120,
+    height = 100,
+    dx = 500,
+    dy = 500;
   const values = new Float32Array(width * height);
   for (let r = 0; r < height; r++) for (let c = 0; c < width; c++) values[r * width + c] = elevation(X0 + (c + 0.5) * dx, Y0 - (r + 0.5) * dy);
   return writeGeoTiff({ width, height, west: X0, north: Y0, dx, dy, crs: 'EPSG:32606', units: 'm', values });
 }
 
 const post = (body: Uint8Array, type = 'image/tiff', headers: Record<string, string> = { authorization: `Bearer ${token}` }) =>
-  t.app.request(`/api/projects/${pid}/terrain?name=Seamount%20DEM`, { method: 'POST', headers: { 'content-type': type, ...headers }, body: body as Uint8Array<ArrayBuffer> });
+  t.app.request(`/api/projects/${pid}/terrain?name=Seamount%20DEM`, {
+    method: 'POST',
+    headers: { 'content-type': type, ...headers },
+    body: body as Uint8Array<ArrayBuffer>,
+  });
 const terrainOf = async () => ((await (await t.app.request(`/api/projects/${pid}/datasets`)).json()) as { terrain: unknown }).terrain;
 
 beforeAll(async () => {
@@ -87,7 +95,8 @@ describe('a projected DEM', () => {
     const tile = await t.app.request(`/api/projects/${pid}/terrain/${z}/${Math.floor(xf)}/${Math.floor(yf)}.png`);
     expect(tile.status).toBe(200);
     const { rgb, width } = decodePngRgb(new Uint8Array(await tile.arrayBuffer()));
-    const px = Math.floor((xf % 1) * 256), py = Math.floor((yf % 1) * 256);
+    const px = Math.floor((xf % 1) * 256),
+      py = Math.floor((yf % 1) * 256);
     const o = (py * width + px) * 3;
     // The pixel's own centre in lon/lat (Web Mercator inverse), projected to UTM by proj4.
     const plon = ((Math.floor(xf) + (px + 0.5) / 256) / 2 ** z) * 360 - 180;

@@ -8,7 +8,7 @@ import { readGeoTiff } from '../../server/io/geotiff.ts';
 let t: TestApp;
 let runId: string;
 
-const tif = async (url: string) => (await readGeoTiff((await (await t.app.request(url)).arrayBuffer()))).grid.values;
+const tif = async (url: string) => (await readGeoTiff(await (await t.app.request(url)).arrayBuffer())).grid.values;
 
 beforeAll(async () => {
   t = await startTestApp('uncertainty');
@@ -19,9 +19,23 @@ beforeAll(async () => {
 }, 120_000);
 afterAll(() => t.close());
 
-describe('uncertainty layers from the run\'s realizations', () => {
-  it('simulates the run\'s heat-flow fields conditionally, and heat in place over the run reads those same fields', async () => {
-    const run = (await (await t.app.request(`/api/runs/${runId}`)).json()) as { summary: { monteCarlo: { heatFlow: string; heatFlowErrorCorrelation: unknown; heatFlowSimulation: { checksum: number; variogram: { space: string }; regionalMeanMWm2: number; regionalMeanSdMWm2: number; krigedRegionalMeanMWm2: number } } } };
+describe("uncertainty layers from the run's realizations", () => {
+  it("simulates the run's heat-flow fields conditionally, and heat in place over the run reads those same fields", async () => {
+    const run = (await (await t.app.request(`/api/runs/${runId}`)).json()) as {
+      summary: {
+        monteCarlo: {
+          heatFlow: string;
+          heatFlowErrorCorrelation: unknown;
+          heatFlowSimulation: {
+            checksum: number;
+            variogram: { space: string };
+            regionalMeanMWm2: number;
+            regionalMeanSdMWm2: number;
+            krigedRegionalMeanMWm2: number;
+          };
+        };
+      };
+    };
     const mc = run.summary.monteCarlo;
     expect(mc.heatFlow).toMatch(/conditional simulations of the sites/);
     expect(mc.heatFlowErrorCorrelation).toBeNull();
@@ -39,7 +53,11 @@ describe('uncertainty layers from the run\'s realizations', () => {
       report = await t.app.request(url);
     }
     expect(report.status).toBe(200);
-    const r = (await report.json()) as { monteCarlo: { seed: number; heatFlow: string; heatFlowErrorCorrelation: unknown }; heatInPlaceEJ: { p10: number; p90: number }; warnings: string[] };
+    const r = (await report.json()) as {
+      monteCarlo: { seed: number; heatFlow: string; heatFlowErrorCorrelation: unknown };
+      heatInPlaceEJ: { p10: number; p90: number };
+      warnings: string[];
+    };
     expect(r.monteCarlo.seed).toBe(3);
     expect(r.monteCarlo.heatFlow).toMatch(/conditional simulations of the sites/);
     expect(r.monteCarlo.heatFlowErrorCorrelation).toBeNull();
@@ -47,7 +65,7 @@ describe('uncertainty layers from the run\'s realizations', () => {
     expect(r.heatInPlaceEJ.p90).toBeGreaterThan(r.heatInPlaceEJ.p10);
   }, 120_000);
 
-  it('gives the spread P90 − P10 equal to the run\'s own P10 and P90 maps', async () => {
+  it("gives the spread P90 − P10 equal to the run's own P10 and P90 maps", async () => {
     const res = await t.app.request(`/api/runs/${runId}/spread?isothermC=300`);
     expect(res.status).toBe(200);
     const layer = (await res.json()) as { name: string; units: string; urls: { tif: string }; tiles: string; cached: boolean; legend: { units: string } };
@@ -58,7 +76,10 @@ describe('uncertainty layers from the run\'s realizations', () => {
     let compared = 0;
     for (let i = 0; i < spread.length; i++) {
       const want = p90[i] - p10[i];
-      if (Number.isNaN(want)) { expect(Number.isNaN(spread[i])).toBe(true); continue; }
+      if (Number.isNaN(want)) {
+        expect(Number.isNaN(spread[i])).toBe(true);
+        continue;
+      }
       expect(Math.abs(spread[i] - want)).toBeLessThan(1e-4);
       compared++;
     }
@@ -71,10 +92,15 @@ describe('uncertainty layers from the run\'s realizations', () => {
   }, 60_000);
 
   it('gives exceedance probabilities in [0, 1] that grow with the depth asked', async () => {
-    const a = (await (await t.app.request(`/api/runs/${runId}/probability?isothermC=300&shallowerThanKm=8`)).json()) as { name: string; units: string; urls: { tif: string } };
+    const a = (await (await t.app.request(`/api/runs/${runId}/probability?isothermC=300&shallowerThanKm=8`)).json()) as {
+      name: string;
+      units: string;
+      urls: { tif: string };
+    };
     const b = (await (await t.app.request(`/api/runs/${runId}/probability?isothermC=300&shallowerThanKm=14`)).json()) as { urls: { tif: string } };
     expect(a).toMatchObject({ name: 'depth-300C.prob-lt-8km', units: 'probability' });
-    const pa = await tif(a.urls.tif), pb = await tif(b.urls.tif);
+    const pa = await tif(a.urls.tif),
+      pb = await tif(b.urls.tif);
     let some = 0;
     for (let i = 0; i < pa.length; i++) {
       if (Number.isNaN(pa[i])) continue;

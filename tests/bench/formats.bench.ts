@@ -23,7 +23,10 @@ const out = (s: string) => process.stdout.write(s + '\n');
 const dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'formats-bench-'));
 const size = Number(process.env.FORMATS_BENCH_SIZE ?? 4000);
 const parts = process.env.FORMATS_BENCH_PARTS ?? 'cog,continental';
-const load = () => loadavg().map((v) => v.toFixed(1)).join(' ');
+const load = () =>
+  loadavg()
+    .map((v) => v.toFixed(1))
+    .join(' ');
 
 try {
   if (parts.includes('cog')) await cogWrite();
@@ -52,26 +55,36 @@ async function cogWrite(): Promise<void> {
   writeGeoTiff(grid, { description: 'bench' });
   const oneThread = performance.now() - t1;
   const cpu1 = process.cpuUsage(c0);
-  out(`COG write, ${size} × ${size} Float32 (${mbytes.toFixed(0)} MB): ${(best / 1000).toFixed(2)} s on ${cogThreads()} worker threads (best of 3), ${(oneThread / 1000).toFixed(2)} s on one thread (${((cpu1.user + cpu1.system) / 1e6).toFixed(2)} s CPU); file ${(statSync(ours).size / 2 ** 20).toFixed(1)} MB`);
+  out(
+    `COG write, ${size} × ${size} Float32 (${mbytes.toFixed(0)} MB): ${(best / 1000).toFixed(2)} s on ${cogThreads()} worker threads (best of 3), ${(oneThread / 1000).toFixed(2)} s on one thread (${((cpu1.user + cpu1.system) / 1e6).toFixed(2)} s CPU); file ${(statSync(ours).size / 2 ** 20).toFixed(1)} MB`,
+  );
 
   const raw = join(dir, 'raw.img');
   const nodataValues = Float32Array.from(values, (v) => (Number.isFinite(v) ? v : -9999));
   writeFileSync(raw, Buffer.from(nodataValues.buffer));
-  writeFileSync(join(dir, 'raw.hdr'), `ENVI\nsamples = ${size}\nlines = ${size}\nbands = 1\nheader offset = 0\nfile type = ENVI Standard\ndata type = 4\ninterleave = bsq\nbyte order = 0\nmap info = {Geographic Lat/Lon, 1, 1, -140, -20, 0.005, 0.005, WGS-84}\ndata ignore value = -9999\n`);
+  writeFileSync(
+    join(dir, 'raw.hdr'),
+    `ENVI\nsamples = ${size}\nlines = ${size}\nbands = 1\nheader offset = 0\nfile type = ENVI Standard\ndata type = 4\ninterleave = bsq\nbyte order = 0\nmap info = {Geographic Lat/Lon, 1, 1, -140, -20, 0.005, 0.005, WGS-84}\ndata ignore value = -9999\n`,
+  );
   const gdal = join(dir, 'gdal.tif');
-  let gbest = Infinity, gcpu = Infinity;
+  let gbest = Infinity,
+    gcpu = Infinity;
   for (let k = 0; k < 3; k++) {
     rmSync(gdal, { force: true });
     const t0 = performance.now();
     // bash's `time` reports the child's user and system CPU seconds on stderr.
-    const r = spawnSync('bash', ['-c', 'TIMEFORMAT="%U %S"; time gdal_translate -q -of COG -co COMPRESS=DEFLATE -co PREDICTOR=YES "$0" "$1"', raw, gdal], { encoding: 'utf8' });
+    const r = spawnSync('bash', ['-c', 'TIMEFORMAT="%U %S"; time gdal_translate -q -of COG -co COMPRESS=DEFLATE -co PREDICTOR=YES "$0" "$1"', raw, gdal], {
+      encoding: 'utf8',
+    });
     const t = performance.now() - t0;
     if (r.status !== 0) throw new Error(`gdal_translate failed: ${r.stderr}`);
     const [u, sys] = r.stderr.trim().split(/\s+/).slice(-2).map(Number);
     gbest = Math.min(gbest, t);
     gcpu = Math.min(gcpu, u + sys);
   }
-  out(`gdal_translate -of COG -co COMPRESS=DEFLATE -co PREDICTOR=YES, same grid: ${(gbest / 1000).toFixed(2)} s (best of 3; ${gcpu.toFixed(2)} s CPU), file ${(statSync(gdal).size / 2 ** 20).toFixed(1)} MB`);
+  out(
+    `gdal_translate -of COG -co COMPRESS=DEFLATE -co PREDICTOR=YES, same grid: ${(gbest / 1000).toFixed(2)} s (best of 3; ${gcpu.toFixed(2)} s CPU), file ${(statSync(gdal).size / 2 ** 20).toFixed(1)} MB`,
+  );
   out(`CPU ratio on one thread (GDAL CPU / ours): ${(gcpu / ((cpu1.user + cpu1.system) / 1e6)).toFixed(2)}`);
   out(`COG write ratio (GDAL time / ours): ${(gbest / best).toFixed(2)}× GDAL's speed (target ≥ 0.5)`);
 }
@@ -91,7 +104,8 @@ function continental(): void {
   const rnd = prng(11);
   const lines = ['id,longitude,latitude,heatFlowMWm2'];
   for (let i = 0; i < nSites; i++) {
-    const lon = -150 + 36 * rnd(), lat = -48 + 30 * rnd();
+    const lon = -150 + 36 * rnd(),
+      lat = -48 + 30 * rnd();
     const v = 65 + 20 * Math.sin(lon / 3) * Math.cos(lat / 2.3) + 8 * Math.sin(lon * 1.7 + lat) + 4 * (rnd() - 0.5);
     lines.push(`s${i},${lon.toFixed(5)},${lat.toFixed(5)},${v.toFixed(2)}`);
   }
@@ -100,27 +114,72 @@ function continental(): void {
   const tif = join(dir, 'continental.tif');
   const bin = new URL('../../bin/subtherm.mjs', import.meta.url).pathname;
   const load0 = load();
-  const r = spawnSync('/usr/bin/time', ['-v', process.execPath, bin, 'interpolate', '--points', csv, '--method', 'kriging', '--size', `${cells}x${cells}`, '--workers', '2', '--out', tif, '--json'], { encoding: 'utf8', maxBuffer: 64 * 2 ** 20 });
+  const r = spawnSync(
+    '/usr/bin/time',
+    [
+      '-v',
+      process.execPath,
+      bin,
+      'interpolate',
+      '--points',
+      csv,
+      '--method',
+      'kriging',
+      '--size',
+      `${cells}x${cells}`,
+      '--workers',
+      '2',
+      '--out',
+      tif,
+      '--json',
+    ],
+    { encoding: 'utf8', maxBuffer: 64 * 2 ** 20 },
+  );
   if (r.status !== 0) throw new Error(`interpolate failed: ${r.stderr}`);
   const body = JSON.parse(r.stdout) as { timingsMs: Record<string, number>; grid: { nx: number; ny: number; cellKm: number }; variogram: { model: string } };
   const wall = timeField(r.stderr, 'Elapsed (wall clock) time (h:mm:ss or m:ss)');
   const cpu = timeField(r.stderr, 'User time (seconds)') + timeField(r.stderr, 'System time (seconds)');
   const rssGiB = timeField(r.stderr, 'Maximum resident set size (kbytes)') / 2 ** 20;
   const t = body.timingsMs;
-  const stages = ['read', 'prepare', 'variogram', 'crossValidation', 'grid', 'write'].filter((k) => t[k] !== undefined).map((k) => `${k} ${(t[k] / 1000).toFixed(1)} s`).join(', ');
+  const stages = ['read', 'prepare', 'variogram', 'crossValidation', 'grid', 'write']
+    .filter((k) => t[k] !== undefined)
+    .map((k) => `${k} ${(t[k] / 1000).toFixed(1)} s`)
+    .join(', ');
   const sizes = `${(statSync(tif).size / 2 ** 20).toFixed(0)} + ${(statSync(tif.replace(/\.tif$/, '.sd.tif')).size / 2 ** 20).toFixed(0)} MB`;
-  out(`Continental kriging run, ${nSites.toLocaleString('en')} sites → ${body.grid.nx} × ${body.grid.ny} cells (${body.grid.cellKm.toFixed(2)} km) with sd, ${body.variogram.model} variogram (auto, cross-validated), two COGs (${sizes}):`);
-  out(`  wall ${wall.toFixed(1)} s (target ≤ 60), CPU ${cpu.toFixed(1)} s, peak resident ${rssGiB.toFixed(2)} GiB (target ≤ 1.5); load average ${load0} before, ${load()} after`);
+  out(
+    `Continental kriging run, ${nSites.toLocaleString('en')} sites → ${body.grid.nx} × ${body.grid.ny} cells (${body.grid.cellKm.toFixed(2)} km) with sd, ${body.variogram.model} variogram (auto, cross-validated), two COGs (${sizes}):`,
+  );
+  out(
+    `  wall ${wall.toFixed(1)} s (target ≤ 60), CPU ${cpu.toFixed(1)} s, peak resident ${rssGiB.toFixed(2)} GiB (target ≤ 1.5); load average ${load0} before, ${load()} after`,
+  );
   out(`  stages: ${stages}`);
   // Reference: GDAL's 16-neighbour inverse distance on 500 × 500 cells over the same box, scaled by cells.
   const ref = Math.min(500, cells);
   const vrt = join(dir, 'sites.vrt');
-  writeFileSync(vrt, `<OGRVRTDataSource><OGRVRTLayer name="sites"><SrcDataSource>${csv}</SrcDataSource><GeometryType>wkbPoint</GeometryType><LayerSRS>EPSG:4326</LayerSRS><GeometryField encoding="PointFromColumns" x="longitude" y="latitude" z="heatFlowMWm2"/></OGRVRTLayer></OGRVRTDataSource>`);
+  writeFileSync(
+    vrt,
+    `<OGRVRTDataSource><OGRVRTLayer name="sites"><SrcDataSource>${csv}</SrcDataSource><GeometryType>wkbPoint</GeometryType><LayerSRS>EPSG:4326</LayerSRS><GeometryField encoding="PointFromColumns" x="longitude" y="latitude" z="heatFlowMWm2"/></OGRVRTLayer></OGRVRTDataSource>`,
+  );
   const g0 = performance.now();
-  const g = spawnSync('bash', ['-c', 'TIMEFORMAT="%U %S"; time gdal_grid -q -a invdistnn:power=2:max_points=16:radius=1 -txe -151.8 -112.2 -tye -49.5 -16.5 -outsize "$0" "$0" -ot Float32 -of GTiff -l sites "$1" "$2"', String(ref), vrt, join(dir, 'gdal-grid.tif')], { encoding: 'utf8' });
+  const g = spawnSync(
+    'bash',
+    [
+      '-c',
+      'TIMEFORMAT="%U %S"; time gdal_grid -q -a invdistnn:power=2:max_points=16:radius=1 -txe -151.8 -112.2 -tye -49.5 -16.5 -outsize "$0" "$0" -ot Float32 -of GTiff -l sites "$1" "$2"',
+      String(ref),
+      vrt,
+      join(dir, 'gdal-grid.tif'),
+    ],
+    { encoding: 'utf8' },
+  );
   const gWall = (performance.now() - g0) / 1000;
-  if (g.status !== 0) { out(`  gdal_grid reference failed: ${g.stderr.trim()}`); return; }
+  if (g.status !== 0) {
+    out(`  gdal_grid reference failed: ${g.stderr.trim()}`);
+    return;
+  }
   const [gu, gs] = g.stderr.trim().split(/\s+/).slice(-2).map(Number);
   const scale = (cells * cells) / (ref * ref);
-  out(`  reference: gdal_grid invdistnn (16 neighbours, one thread) ${ref} × ${ref}: ${gWall.toFixed(1)} s wall, ${(gu + gs).toFixed(1)} s CPU; ×${scale.toFixed(0)} by cells → ${(gWall * scale).toFixed(0)} s wall, ${((gu + gs) * scale).toFixed(0)} s CPU for ${cells} × ${cells} (ours, whole run with kriging sd: ${cpu.toFixed(0)} s CPU)`);
+  out(
+    `  reference: gdal_grid invdistnn (16 neighbours, one thread) ${ref} × ${ref}: ${gWall.toFixed(1)} s wall, ${(gu + gs).toFixed(1)} s CPU; ×${scale.toFixed(0)} by cells → ${(gWall * scale).toFixed(0)} s wall, ${((gu + gs) * scale).toFixed(0)} s CPU for ${cells} × ${cells} (ours, whole run with kriging sd: ${cpu.toFixed(0)} s CPU)`,
+  );
 }

@@ -7,13 +7,15 @@ import { createInterpPool, computeGridParallel } from '../../server/workers/inte
 import { kmPerDegree } from '../../shared/interp/projection.ts';
 import { prng } from '../helpers/prng.ts';
 
-
 /** n invented sites in a 1° square at 38° S (about 88 × 111 km), a smooth field plus noise. */
 function sites(n: number, seed: number): PointData {
   const r = prng(seed);
-  const lon = new Float64Array(n), lat = new Float64Array(n), values = new Float64Array(n);
+  const lon = new Float64Array(n),
+    lat = new Float64Array(n),
+    values = new Float64Array(n);
   for (let i = 0; i < n; i++) {
-    lon[i] = -128.5 + r(); lat[i] = -38.5 + r();
+    lon[i] = -128.5 + r();
+    lat[i] = -38.5 + r();
     values[i] = 60 + 20 * Math.sin(lon[i] * 9) * Math.cos(lat[i] * 7) + 3 * (r() - 0.5);
   }
   return { ids: Array.from({ length: n }, (_, i) => `b${i}`), lon, lat, values };
@@ -29,7 +31,14 @@ const line = (s: string) => process.stdout.write(s + '\n');
   let t = performance.now();
   const ours = interpolateGrid(p, { method: 'idw', neighbors: 12, grid: { bbox: BBOX, size: [500, 500] }, crossValidation: false });
   const oursMs = ms(t);
-  const fc = { type: 'FeatureCollection' as const, features: Array.from(p.lon, (lo, i) => ({ type: 'Feature' as const, geometry: { type: 'Point' as const, coordinates: [lo, p.lat[i]] }, properties: { v: p.values[i] } })) };
+  const fc = {
+    type: 'FeatureCollection' as const,
+    features: Array.from(p.lon, (lo, i) => ({
+      type: 'Feature' as const,
+      geometry: { type: 'Point' as const, coordinates: [lo, p.lat[i]] },
+      properties: { v: p.values[i] },
+    })),
+  };
   // turf on a 50 × 50 point grid (cell = 1/50 of the box), scaled linearly by cells (its cost is cells × points).
   const k = kmPerDegree(-38);
   t = performance.now();
@@ -65,7 +74,8 @@ for (const n of [1000, 2000]) {
     t = performance.now();
     const model = kriging.train(Array.from(p.values), Array.from(p.lon), Array.from(p.lat), 'exponential', 0, 100);
     const out = new Float64Array(40_000);
-    for (let r = 0; r < 200; r++) for (let c = 0; c < 200; c++) out[r * 200 + c] = kriging.predict(BBOX[0] + (c + 0.5) * 0.005, BBOX[3] - (r + 0.5) * 0.005, model);
+    for (let r = 0; r < 200; r++)
+      for (let c = 0; c < 200; c++) out[r * 200 + c] = kriging.predict(BBOX[0] + (c + 0.5) * 0.005, BBOX[3] - (r + 0.5) * 0.005, model);
     sakMs = ms(t);
     note = 'measured';
     if (n === 1000) sak1000 = sakMs;
@@ -73,14 +83,30 @@ for (const n of [1000, 2000]) {
     sakMs = sak1000 * 8; // its train is O(N³): ×8 from N = 1000 to 2000
     note = 'extrapolated ×8 from N = 1000 (set BENCH_FULL=1 to measure)';
   }
-  line(`Global OK N=${n} → 200×200, estimate only: ours ${f1(oursMs)} ms (one core); @sakitam-gis/kriging train+predict ${f1(sakMs)} ms (${note}); ratio ${f1(sakMs / oursMs)}×   (target ≥ 5×)`);
+  line(
+    `Global OK N=${n} → 200×200, estimate only: ours ${f1(oursMs)} ms (one core); @sakitam-gis/kriging train+predict ${f1(sakMs)} ms (${note}); ratio ${f1(sakMs / oursMs)}×   (target ≥ 5×)`,
+  );
   // The same grid on two worker threads, as the server computes it (rows split between workers).
   {
     const pool = createInterpPool(2);
-    const prep = prepareInterpolation(p, { method: 'kriging', neighbors: 'all', variogram: vg, sd: false, crossValidation: false, grid: { bbox: BBOX, size: [200, 200] } });
+    const prep = prepareInterpolation(p, {
+      method: 'kriging',
+      neighbors: 'all',
+      variogram: vg,
+      sd: false,
+      crossValidation: false,
+      grid: { bbox: BBOX, size: [200, 200] },
+    });
     await computeGridParallel(pool, prep.plan); // warm the workers (tsx start-up, factorization cache)
     const t2 = performance.now();
-    const prep2 = prepareInterpolation(p, { method: 'kriging', neighbors: 'all', variogram: vg, sd: false, crossValidation: false, grid: { bbox: BBOX, size: [200, 200] } });
+    const prep2 = prepareInterpolation(p, {
+      method: 'kriging',
+      neighbors: 'all',
+      variogram: vg,
+      sd: false,
+      crossValidation: false,
+      grid: { bbox: BBOX, size: [200, 200] },
+    });
     await computeGridParallel(pool, prep2.plan);
     const parMs = ms(t2);
     await pool.destroy();
@@ -94,7 +120,14 @@ for (const n of [1000, 2000]) {
   const p = sites(10_000, 3);
   const pool = createInterpPool(2);
   let t = performance.now();
-  const prep = prepareInterpolation(p, { method: 'kriging', neighbors: 16, variogram: vg, sd: true, crossValidation: false, grid: { bbox: BBOX, size: [1000, 1000] } });
+  const prep = prepareInterpolation(p, {
+    method: 'kriging',
+    neighbors: 16,
+    variogram: vg,
+    sd: true,
+    crossValidation: false,
+    grid: { bbox: BBOX, size: [1000, 1000] },
+  });
   const prepMs = ms(t);
   t = performance.now();
   const r = await computeGridParallel(pool, prep.plan);
@@ -104,6 +137,8 @@ for (const n of [1000, 2000]) {
   let nan = 0;
   for (let i = 0; i < res.grid.values.length; i++) if (!Number.isFinite(res.grid.values[i]) || !Number.isFinite(res.sd!.values[i])) nan++;
   const rss = process.memoryUsage().rss / 2 ** 20;
-  line(`Local OK 10,000 pts → 1000×1000, k=16, with sd, 2 workers: ${f1(prepMs + gridMs)} ms (prepare ${f1(prepMs)}, grid ${f1(gridMs)}); ${r.stats.factorizations} factorizations for ${r.stats.cells} cells; ${nan} non-finite cells   (target ≤ 6000 ms)`);
+  line(
+    `Local OK 10,000 pts → 1000×1000, k=16, with sd, 2 workers: ${f1(prepMs + gridMs)} ms (prepare ${f1(prepMs)}, grid ${f1(gridMs)}); ${r.stats.factorizations} factorizations for ${r.stats.cells} cells; ${nan} non-finite cells   (target ≤ 6000 ms)`,
+  );
   line(`  main-thread rss ${f1(rss)} MiB (workers are threads of this process, so rss includes them; target ≤ 1024 MiB)`);
 }

@@ -6,7 +6,9 @@ import { join } from 'node:path';
 
 const dir = new URL('.', import.meta.url).pathname;
 const filter = process.argv[2];
-const files = readdirSync(dir).filter((f) => f.endsWith('.bench.ts') && (!filter || f.includes(filter))).sort();
+const files = readdirSync(dir)
+  .filter((f) => f.endsWith('.bench.ts') && (!filter || f.includes(filter)))
+  .sort();
 let failed = 0;
 for (const f of files) {
   process.stdout.write(`\n=== ${f} ===\n`);

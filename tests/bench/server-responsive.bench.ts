@@ -24,14 +24,18 @@ try {
   await fetch(`${base}/api/runs/${big.id}`, { method: 'DELETE', headers: { authorization: `Bearer ${big.runToken}` } });
   const show = (name: string, p: Awaited<ReturnType<typeof probeHealth>>) => {
     const s = p.latencies.slice().sort((a, b) => a - b);
-    console.log(`${name.padEnd(44)} ${String(s.length).padStart(4)} probes  p50 ${quantile(s, 0.5).toFixed(1).padStart(7)} ms  p99 ${quantile(s, 0.99).toFixed(1).padStart(7)} ms  worst ${s[s.length - 1].toFixed(1).padStart(7)} ms  failures ${p.failures.length}`);
+    console.log(
+      `${name.padEnd(44)} ${String(s.length).padStart(4)} probes  p50 ${quantile(s, 0.5).toFixed(1).padStart(7)} ms  p99 ${quantile(s, 0.99).toFixed(1).padStart(7)} ms  worst ${s[s.length - 1].toFixed(1).padStart(7)} ms  failures ${p.failures.length}`,
+    );
     return s[s.length - 1];
   };
   show('health probe, idle server (reference)', idle);
   const worst = show(`health probe under heavy work (${busyS.toFixed(1)} s)`, busy);
   console.log(`worst probe ${worst.toFixed(1)} ms against the goal of ${GOAL_MS} ms: ${worst <= GOAL_MS ? 'met' : 'missed'}`);
   console.log(`server event-loop delay at the end (ms): ${JSON.stringify(busy.loopDelay)}`);
-  console.log(`work: heat in place ${job.realizations} realizations over ${run.grid.width}×${run.grid.height} cells; column 100 layers × 2000 realizations; run ${big.cells} cells × ${big.realizations} realizations`);
+  console.log(
+    `work: heat in place ${job.realizations} realizations over ${run.grid.width}×${run.grid.height} cells; column 100 layers × 2000 realizations; run ${big.cells} cells × ${big.realizations} realizations`,
+  );
 } finally {
   await server.stop();
   rmSync(dirname(server.dbPath), { recursive: true, force: true });

@@ -13,19 +13,31 @@ import { prng } from '../helpers/prng.ts';
 
 const line = (s: string) => process.stdout.write(s + '\n');
 const f1 = (v: number) => v.toFixed(1);
-const N = 2000, NX = 500, NY = 500, R = 200, R_REF = 10;
+const N = 2000,
+  NX = 500,
+  NY = 500,
+  R = 200,
+  R_REF = 10;
 const model: VariogramModel = { model: 'spherical', nugget: 0.1, partialSill: 0.9, rangeKm: 50 };
 
 // Invented sites in a 500 × 500 km square (local km), a smooth field plus noise.
 const r = prng(15);
-const x = new Float64Array(N), y = new Float64Array(N), z = new Float64Array(N);
+const x = new Float64Array(N),
+  y = new Float64Array(N),
+  z = new Float64Array(N);
 for (let i = 0; i < N; i++) {
-  x[i] = r() * NX; y[i] = r() * NY;
+  x[i] = r() * NX;
+  y[i] = r() * NY;
   z[i] = Math.sin(x[i] / 40) * Math.cos(y[i] / 55) + 0.3 * (r() - 0.5);
 }
 const T = NX * NY;
-const tx = new Float64Array(T), ty = new Float64Array(T);
-for (let j = 0; j < NY; j++) for (let i = 0; i < NX; i++) { tx[j * NX + i] = i + 0.5; ty[j * NX + i] = NY - (j + 0.5); }
+const tx = new Float64Array(T),
+  ty = new Float64Array(T);
+for (let j = 0; j < NY; j++)
+  for (let i = 0; i < NX; i++) {
+    tx[j * NX + i] = i + 0.5;
+    ty[j * NX + i] = NY - (j + 0.5);
+  }
 
 // Ours: setup (lattice spectrum + shared kriging weights), 200 realizations into a Float32 R × cells store, summaries.
 const cpu0 = process.cpuUsage();
@@ -42,7 +54,9 @@ const cpuS = (cpu.user + cpu.system) / 1e6;
 const peakMiB = process.resourceUsage().maxRSS / 1024;
 let meanSd = 0;
 for (let i = 0; i < T; i++) meanSd += s.sd[i] / T;
-line(`ours: ${R} conditional realizations of ${NX}×${NY} cells from ${N} sites + per-cell mean/sd/P10/P50/P90: ${f1(oursMs / 1000)} s (setup ${f1(tSetup)} ms, realizations ${f1(tReal)} ms, summaries ${f1(oursMs - tSetup - tReal)} ms); peak RSS ${f1(peakMiB)} MiB   (targets ≤ 15 s, ≤ 1536 MiB)`);
+line(
+  `ours: ${R} conditional realizations of ${NX}×${NY} cells from ${N} sites + per-cell mean/sd/P10/P50/P90: ${f1(oursMs / 1000)} s (setup ${f1(tSetup)} ms, realizations ${f1(tReal)} ms, summaries ${f1(oursMs - tSetup - tReal)} ms); peak RSS ${f1(peakMiB)} MiB   (targets ≤ 15 s, ≤ 1536 MiB)`,
+);
 line(`  CPU time of this process ${f1(cpuS)} s (wall time above; on a shared machine the CPU time is the load-independent figure)`);
 line(`  sampler ${sim.sampler} torus ${sim.samplerInfo.torusNx}×${sim.samplerInfo.torusNy}; mean per-cell sd ${meanSd.toFixed(3)} (sill 1)`);
 const oursPer = oursMs / R;
@@ -78,7 +92,9 @@ cat(t[["elapsed"]], mean(apply(as.matrix(s@data), 1, sd)), "\\n")
     if (out.status !== 0 || !Number.isFinite(elapsedS)) line(`  gstat failed: ${out.stderr.slice(0, 500)}`);
     else {
       const refPer = (elapsedS * 1000) / R_REF;
-      line(`gstat (R, krige nsim=${R_REF}, nmax=16, sequential Gaussian simulation): ${f1(elapsedS)} s (process ${f1(wall / 1000)} s); per realization ${f1(refPer)} ms; mean per-cell sd ${refSd.toFixed(3)}`);
+      line(
+        `gstat (R, krige nsim=${R_REF}, nmax=16, sequential Gaussian simulation): ${f1(elapsedS)} s (process ${f1(wall / 1000)} s); per realization ${f1(refPer)} ms; mean per-cell sd ${refSd.toFixed(3)}`,
+      );
       line(`  ratio gstat / ours per realization: ${f1(refPer / oursPer)}×   (target ≥ 5×)`);
     }
   } finally {

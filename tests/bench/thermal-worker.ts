@@ -1,5 +1,11 @@
 // Worker for the thermal benchmark: runs monteCarloGridRange on a cell range, writing into shared output buffers.
-import { monteCarloGridRange, prepareGridMonteCarlo, type GridMonteCarloOutput, type GridMonteCarloSpec, type PreparedGridMonteCarlo } from '../../shared/thermal/index.ts';
+import {
+  monteCarloGridRange,
+  prepareGridMonteCarlo,
+  type GridMonteCarloOutput,
+  type GridMonteCarloSpec,
+  type PreparedGridMonteCarlo,
+} from '../../shared/thermal/index.ts';
 
 let cached: { key: string; prep: PreparedGridMonteCarlo } | null = null;
 

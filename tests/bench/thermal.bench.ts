@@ -11,9 +11,32 @@ import { allocateGridMonteCarloOutput, compileModel, geothermGrid, nominalModel,
 const MODEL: ThermalModelInput = {
   surfaceTemperatureC: 10,
   layers: [
-    { name: 'sediments', bottomKm: 3, conductivityWmK: { dist: 'normal', mean: 2.2, sd: 0.2 }, conductivityTempCoeffPerK: 1e-3, heatProductionUWm3: 1.2, densityKgM3: 2400 },
-    { name: 'upper crust', bottomKm: 16, conductivityWmK: { dist: 'truncnormal', mean: 3.1, sd: 0.3, min: 2.4, max: 3.8 }, conductivityTempCoeffPerK: 1.5e-3, heatProductionUWm3: { dist: 'triangular', min: 1.5, mode: 2.5, max: 3.5 }, heatProductionDecayKm: { dist: 'uniform', min: 8, max: 12 }, densityKgM3: 2700 },
-    { name: 'lower crust', bottomKm: 36, conductivityWmK: 2.6, conductivityTempCoeffPerK: 1e-4, heatProductionUWm3: 0.5, heatProductionDecayKm: 20, densityKgM3: 2900 },
+    {
+      name: 'sediments',
+      bottomKm: 3,
+      conductivityWmK: { dist: 'normal', mean: 2.2, sd: 0.2 },
+      conductivityTempCoeffPerK: 1e-3,
+      heatProductionUWm3: 1.2,
+      densityKgM3: 2400,
+    },
+    {
+      name: 'upper crust',
+      bottomKm: 16,
+      conductivityWmK: { dist: 'truncnormal', mean: 3.1, sd: 0.3, min: 2.4, max: 3.8 },
+      conductivityTempCoeffPerK: 1.5e-3,
+      heatProductionUWm3: { dist: 'triangular', min: 1.5, mode: 2.5, max: 3.5 },
+      heatProductionDecayKm: { dist: 'uniform', min: 8, max: 12 },
+      densityKgM3: 2700,
+    },
+    {
+      name: 'lower crust',
+      bottomKm: 36,
+      conductivityWmK: 2.6,
+      conductivityTempCoeffPerK: 1e-4,
+      heatProductionUWm3: 0.5,
+      heatProductionDecayKm: 20,
+      densityKgM3: 2900,
+    },
     { name: 'mantle', bottomKm: 60, conductivityWmK: 3.3, conductivityTempCoeffPerK: 2e-4, heatProductionUWm3: 0.02, densityKgM3: 3300 },
   ],
 };
@@ -35,7 +58,9 @@ for (let rep = 0; rep < 3; rep++) {
   geothermGrid(cm, q1, { isothermsC: [150, 300], depthsKm: [], maxDepthKm: 60 }, out);
   best = Math.min(best, performance.now() - t);
 }
-process.stdout.write(`grid: 2 isotherms × ${N1.toLocaleString()} cells, 4 layers, k(T), exponential A: ${(best / 1000).toFixed(3)} s (best of 3, one core; target ≤ 0.5 s)\n`);
+process.stdout.write(
+  `grid: 2 isotherms × ${N1.toLocaleString()} cells, 4 layers, k(T), exponential A: ${(best / 1000).toFixed(3)} s (best of 3, one core; target ≤ 0.5 s)\n`,
+);
 
 // Numerical reference: RK4 (10 m steps) + linear interpolation of the crossing, same model, on 200 cells.
 {
@@ -44,14 +69,25 @@ process.stdout.write(`grid: 2 isotherms × ${N1.toLocaleString()} cells, 4 layer
   const t = performance.now();
   let maxErr = 0;
   for (let c = 0; c < nRef; c++) {
-    let T = m.surfaceTemperatureC, z = 0, q = q1[c], top = 0, found150 = NaN;
+    let T = m.surfaceTemperatureC,
+      z = 0,
+      q = q1[c],
+      top = 0,
+      found150 = NaN;
     for (const L of m.layers) {
-      const b = L.conductivityTempCoeffPerK ?? 0, D = L.heatProductionDecayKm ?? 0, A0 = L.heatProductionUWm3 ?? 0, qt = q;
+      const b = L.conductivityTempCoeffPerK ?? 0,
+        D = L.heatProductionDecayKm ?? 0,
+        A0 = L.heatProductionUWm3 ?? 0,
+        qt = q;
       const qz = (zz: number) => qt - (D > 0 ? A0 * D * (1 - Math.exp(-(zz - top) / D)) : A0 * (zz - top));
       const f = (zz: number, tt: number) => (qz(zz) * (1 + b * tt)) / L.conductivityWmK;
-      const h = 0.01, n = Math.round((L.bottomKm - top) / h);
+      const h = 0.01,
+        n = Math.round((L.bottomKm - top) / h);
       for (let s = 0; s < n; s++) {
-        const k1 = f(z, T), k2 = f(z + h / 2, T + (h / 2) * k1), k3 = f(z + h / 2, T + (h / 2) * k2), k4 = f(z + h, T + h * k3);
+        const k1 = f(z, T),
+          k2 = f(z + h / 2, T + (h / 2) * k1),
+          k3 = f(z + h / 2, T + (h / 2) * k2),
+          k4 = f(z + h, T + h * k3);
         const Tn = T + (h / 6) * (k1 + 2 * k2 + 2 * k3 + k4);
         if (found150 !== found150 && Tn >= 150) found150 = z + (h * (150 - T)) / (Tn - T);
         T = Tn;
@@ -64,18 +100,36 @@ process.stdout.write(`grid: 2 isotherms × ${N1.toLocaleString()} cells, 4 layer
   }
   const perCellRef = (performance.now() - t) / nRef;
   const perCell = best / N1;
-  process.stdout.write(`reference RK4 (10 m steps): ${(perCellRef * 1000).toFixed(1)} µs/cell vs closed form ${(perCell * 1000).toFixed(3)} µs/cell: ratio ${(perCellRef / perCell).toFixed(0)}×; max |Δ depth 150 °C| ${(maxErr * 1000).toFixed(2)} m\n`);
+  process.stdout.write(
+    `reference RK4 (10 m steps): ${(perCellRef * 1000).toFixed(1)} µs/cell vs closed form ${(perCell * 1000).toFixed(3)} µs/cell: ratio ${(perCellRef / perCell).toFixed(0)}×; max |Δ depth 150 °C| ${(maxErr * 1000).toFixed(2)} m\n`,
+  );
 }
 
 // 2. Monte Carlo on two worker threads
 {
-  const cells = 250_000, R = 200;
+  const cells = 250_000,
+    R = 200;
   const qsab = new Float32Array(new SharedArrayBuffer(cells * 4));
   qsab.set(heatFlow(cells, 2));
   const sd = new Float32Array(new SharedArrayBuffer(cells * 4)).fill(5);
-  const spec: GridMonteCarloSpec = { models: [MODEL], heatFlowMWm2: qsab, heatFlowSdMWm2: sd, heatFlowErrorCorrelation: 'full', isothermsC: [150, 300], depthsKm: [], maxDepthKm: 60, realizations: R, seed: 11 };
+  const spec: GridMonteCarloSpec = {
+    models: [MODEL],
+    heatFlowMWm2: qsab,
+    heatFlowSdMWm2: sd,
+    heatFlowErrorCorrelation: 'full',
+    isothermsC: [150, 300],
+    depthsKm: [],
+    maxDepthKm: 60,
+    realizations: R,
+    seed: 11,
+  };
   const mcOut = allocateGridMonteCarloOutput(cells, 2, 0, true);
-  const pool = new Piscina({ filename: fileURLToPath(new URL('./thermal-worker.ts', import.meta.url)), execArgv: ['--import', 'tsx'], minThreads: 2, maxThreads: 2 });
+  const pool = new Piscina({
+    filename: fileURLToPath(new URL('./thermal-worker.ts', import.meta.url)),
+    execArgv: ['--import', 'tsx'],
+    minThreads: 2,
+    maxThreads: 2,
+  });
   const chunk = 12_500;
   const t = performance.now();
   const tasks: Promise<number>[] = [];

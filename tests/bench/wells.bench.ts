@@ -13,14 +13,18 @@ const xs: Float64Array[] = [];
 const ys: Float64Array[] = [];
 const sds: Float64Array[] = [];
 for (let f = 0; f < FITS; f++) {
-  const x = new Float64Array(N), y = new Float64Array(N), sd = new Float64Array(N);
+  const x = new Float64Array(N),
+    y = new Float64Array(N),
+    sd = new Float64Array(N);
   const g = 20 + 20 * rng.uniform();
   for (let i = 0; i < N; i++) {
     x[i] = 0.1 + 3 * rng.uniform();
     sd[i] = 0.3 + rng.uniform();
     y[i] = 10 + g * x[i] + sd[i] * rng.normal();
   }
-  xs.push(x); ys.push(y); sds.push(sd);
+  xs.push(x);
+  ys.push(y);
+  sds.push(sd);
 }
 
 function time(label: string, fn: () => number): number {
@@ -63,8 +67,18 @@ for (let w = 0; w < WELLS; w++) {
     const z = 100 + 3000 * rng.uniform();
     ms.push({ depthM: z, temperatureC: 12 + (g * z) / 1000 + 0.3 * rng.normal(), kind: 'log' });
   }
-  for (const dt of [6, 10, 16]) ms.push({ depthM: 3200, temperatureC: 12 + g * 3.2 - 12 * Math.log10((4 + dt) / dt), kind: 'bht', hoursSinceCirculation: dt, circulationHours: 4 });
-  wells.push({ id: `B-${w}`, lonLat: [0, 0], measurements: ms, conductivityColumn: [{ topM: 0, bottomM: 1500, conductivityWmK: 2.2 }, { topM: 1500, bottomM: 3500, conductivityWmK: 3.0 }], flags: [] });
+  for (const dt of [6, 10, 16])
+    ms.push({ depthM: 3200, temperatureC: 12 + g * 3.2 - 12 * Math.log10((4 + dt) / dt), kind: 'bht', hoursSinceCirculation: dt, circulationHours: 4 });
+  wells.push({
+    id: `B-${w}`,
+    lonLat: [0, 0],
+    measurements: ms,
+    conductivityColumn: [
+      { topM: 0, bottomM: 1500, conductivityWmK: 2.2 },
+      { topM: 1500, bottomM: 3500, conductivityWmK: 3.0 },
+    ],
+    flags: [],
+  });
 }
 time(`analyzeWells, ${WELLS} wells × 33 measurements`, () => {
   const a = analyzeWells(wells, { surfaceTemperatureC: 12 });

@@ -30,7 +30,8 @@ afterAll(async () => {
 });
 
 const layoutOf = (p: Page, layer: string) => p.evaluate((l) => window.subtherm!.map.getLayoutProperty(l, 'visibility') ?? 'visible', layer);
-const paintOf = (p: Page, layer: string, prop: string) => p.evaluate(([l, pr]) => window.subtherm!.map.getPaintProperty(l, pr as 'circle-opacity'), [layer, prop] as const);
+const paintOf = (p: Page, layer: string, prop: string) =>
+  p.evaluate(([l, pr]) => window.subtherm!.map.getPaintProperty(l, pr as 'circle-opacity'), [layer, prop] as const);
 
 describe('the map client: layers', () => {
   it('draws the demo data layers and shows each legend with units, and the caution', async () => {
@@ -76,10 +77,14 @@ describe('the map client: layers', () => {
 
   it('opens the same map state from the URL in a fresh browser context', async () => {
     await page.evaluate(() => window.subtherm!.map.jumpTo({ center: [-127.9, -38.1], zoom: 9.3 }));
-    await expect.poll(() => page.evaluate(() => {
-      const v = window.subtherm!.state.view;
-      return v ? Math.round(v.zoom * 10) : null;
-    })).toBe(93);
+    await expect
+      .poll(() =>
+        page.evaluate(() => {
+          const v = window.subtherm!.state.view;
+          return v ? Math.round(v.zoom * 10) : null;
+        }),
+      )
+      .toBe(93);
     await page.waitForTimeout(300);
     const link = page.url();
     expect(link).toContain('?s=');
@@ -106,10 +111,14 @@ describe('the map client: layers', () => {
   it('usable at 1920 × 1080: the map, both panels and the caution are in view', async () => {
     await page.setViewportSize({ width: 1920, height: 1080 });
     await page.waitForTimeout(300);
-    const boxes = await page.evaluate(() => Object.fromEntries(['map', 'panel', 'tools', 'caution'].map((id) => {
-      const r = document.getElementById(id)!.getBoundingClientRect();
-      return [id, { w: r.width, h: r.height, bottom: r.bottom }];
-    })));
+    const boxes = await page.evaluate(() =>
+      Object.fromEntries(
+        ['map', 'panel', 'tools', 'caution'].map((id) => {
+          const r = document.getElementById(id)!.getBoundingClientRect();
+          return [id, { w: r.width, h: r.height, bottom: r.bottom }];
+        }),
+      ),
+    );
     expect(boxes.map.w).toBeGreaterThan(900);
     expect(boxes.caution.bottom).toBeLessThanOrEqual(1080);
     expect(boxes.tools.h).toBeGreaterThan(800);
@@ -152,8 +161,17 @@ describe('the map client: layers', () => {
     const last = await page.evaluate(() => window.subtherm!.lastColumn!);
     expect(last.request.heatFlowMWm2).toBe(site.q);
     expect(last.request.maxDepthKm).toBe(60);
-    const res = await fetch(`${server.url}/api/column`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(last.request) });
-    const answer = (await res.json()) as { surfaceHeatFlowMWm2: number; basalHeatFlowMWm2: number; isothermDepthsKm: Record<string, number | null>; profile: { depthKm: number }[] };
+    const res = await fetch(`${server.url}/api/column`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json' },
+      body: JSON.stringify(last.request),
+    });
+    const answer = (await res.json()) as {
+      surfaceHeatFlowMWm2: number;
+      basalHeatFlowMWm2: number;
+      isothermDepthsKm: Record<string, number | null>;
+      profile: { depthKm: number }[];
+    };
     expect(answer.surfaceHeatFlowMWm2).toBe(site.q);
     const text = (await page.locator('#column-summary').textContent())!;
     expect(text).toContain(answer.basalHeatFlowMWm2.toFixed(1));
@@ -209,7 +227,9 @@ describe('the map client: layers', () => {
     await first.locator('button').click();
     expect(await first.locator('button').getAttribute('aria-pressed')).toBe('false');
     await waitForMapIdle(page);
-    await expect.poll(() => page.evaluate(() => window.subtherm!.map.queryRenderedFeatures({ layers: ['fault-highlight', 'sample-highlight'] }).length)).toBe(0);
+    await expect
+      .poll(() => page.evaluate(() => window.subtherm!.map.queryRenderedFeatures({ layers: ['fault-highlight', 'sample-highlight'] }).length))
+      .toBe(0);
   });
 
   it('measures the first map of the demo in a fresh context (warm browser)', async () => {

@@ -42,8 +42,18 @@ async function api<T>(path: string, body: unknown): Promise<T> {
 
 /** The demo sites as CSV, one id carrying HTML (it must show as text). */
 function demoSitesCsv(): string {
-  const fc = JSON.parse(readFileSync(join(ROOT, 'fixtures', 'demo', 'sites.geojson'), 'utf8')) as { features: { geometry: { coordinates: number[] }; properties: Record<string, unknown> }[] };
-  const rows = fc.features.map((f, i) => [f.geometry.coordinates[0], f.geometry.coordinates[1], i === 0 ? '<img src=x onerror="window.__pwned=1">' : f.properties.id, f.properties.heatFlowMWm2, f.properties.quality ?? ''].join(','));
+  const fc = JSON.parse(readFileSync(join(ROOT, 'fixtures', 'demo', 'sites.geojson'), 'utf8')) as {
+    features: { geometry: { coordinates: number[] }; properties: Record<string, unknown> }[];
+  };
+  const rows = fc.features.map((f, i) =>
+    [
+      f.geometry.coordinates[0],
+      f.geometry.coordinates[1],
+      i === 0 ? '<img src=x onerror="window.__pwned=1">' : f.properties.id,
+      f.properties.heatFlowMWm2,
+      f.properties.quality ?? '',
+    ].join(','),
+  );
   return ['longitude,latitude,id,heatFlowMWm2,quality', ...rows].join('\n');
 }
 
@@ -112,8 +122,24 @@ describe('the map client: data, run, inspector, section', () => {
     expect(panel).toContain('Surface heat flow');
     expect(panel).toContain('Depth to the 300 °C isotherm');
     expect(panel).toContain('mW/m²');
-    const mapLayers = await page.evaluate(() => window.subtherm!.map.getStyle().layers.filter((l) => l.id.startsWith('run-')).map((l) => ({ id: l.id, type: l.type })));
-    expect(mapLayers.map((l) => l.id)).toEqual(expect.arrayContaining(['run-heat-flow', 'run-heat-flow-sd', 'run-depth-300C', 'run-depth-500C', 'run-temperature', 'run-facies', 'run-cv-residuals', 'run-isograds']));
+    const mapLayers = await page.evaluate(() =>
+      window
+        .subtherm!.map.getStyle()
+        .layers.filter((l) => l.id.startsWith('run-'))
+        .map((l) => ({ id: l.id, type: l.type })),
+    );
+    expect(mapLayers.map((l) => l.id)).toEqual(
+      expect.arrayContaining([
+        'run-heat-flow',
+        'run-heat-flow-sd',
+        'run-depth-300C',
+        'run-depth-500C',
+        'run-temperature',
+        'run-facies',
+        'run-cv-residuals',
+        'run-isograds',
+      ]),
+    );
     // Grids arrive as raster-dem tiles coloured on the GPU by color-relief layers built from each legend.
     const types = Object.fromEntries(mapLayers.map((l) => [l.id, l.type]));
     expect(types['run-heat-flow']).toBe('color-relief');
@@ -124,12 +150,19 @@ describe('the map client: data, run, inspector, section', () => {
     // The colour relief really draws: with only it shown, the land carries the ramp's colours.
     const coloured = await page.evaluate(() => {
       const map = window.subtherm!.map;
-      const others = map.getStyle().layers.filter((l) => l.id !== 'run-heat-flow' && l.type !== 'background' && l.id !== 'land' && (map.getLayoutProperty(l.id, 'visibility') ?? 'visible') === 'visible').map((l) => l.id);
+      const others = map
+        .getStyle()
+        .layers.filter(
+          (l) =>
+            l.id !== 'run-heat-flow' && l.type !== 'background' && l.id !== 'land' && (map.getLayoutProperty(l.id, 'visibility') ?? 'visible') === 'visible',
+        )
+        .map((l) => l.id);
       for (const l of others) map.setLayoutProperty(l, 'visibility', 'none');
       return new Promise<number>((resolve) => {
         map.once('idle', () => {
           const gl = map.getCanvas().getContext('webgl2') as WebGL2RenderingContext;
-          const w = gl.drawingBufferWidth, h = gl.drawingBufferHeight;
+          const w = gl.drawingBufferWidth,
+            h = gl.drawingBufferHeight;
           const px = new Uint8Array(w * h * 4);
           gl.readPixels(0, 0, w, h, gl.RGBA, gl.UNSIGNED_BYTE, px);
           let n = 0;
@@ -173,7 +206,7 @@ describe('the map client: data, run, inspector, section', () => {
     await shot('3-run-done');
   }, 240_000);
 
-  it('the structure tab shows the run\'s isograd and fault report; isograds draw with high-side ticks', async () => {
+  it("the structure tab shows the run's isograd and fault report; isograds draw with high-side ticks", async () => {
     const run = await page.evaluate(() => window.subtherm!.run!.run);
     const structure = (run.summary as { structure?: { isograds: { isograd: string }[]; faults: { id: string; gradeJump: number | null }[] } }).structure;
     expect(structure, 'the run has an isograd and fault report').toBeTruthy();
@@ -187,7 +220,11 @@ describe('the map client: data, run, inspector, section', () => {
     await waitForMapIdle(page);
     const drawn = await page.evaluate(() => {
       const m = window.subtherm!.map;
-      return { lines: m.queryRenderedFeatures({ layers: ['run-isograds'] }).length, ticks: m.queryRenderedFeatures({ layers: ['run-isograds-ticks'] }).length, offset: m.getPaintProperty('run-isograds-ticks', 'line-offset') };
+      return {
+        lines: m.queryRenderedFeatures({ layers: ['run-isograds'] }).length,
+        ticks: m.queryRenderedFeatures({ layers: ['run-isograds-ticks'] }).length,
+        offset: m.getPaintProperty('run-isograds-ticks', 'line-offset'),
+      };
     });
     expect(drawn.lines).toBeGreaterThan(0);
     expect(drawn.ticks).toBeGreaterThan(0);
@@ -203,7 +240,10 @@ describe('the map client: data, run, inspector, section', () => {
     await expect.poll(() => page.locator('#column-summary').count(), { timeout: 20_000 }).toBe(1);
     const last = await page.evaluate(() => window.subtherm!.lastColumn!);
     expect(last.request.runId).toBeTruthy();
-    const answer = await api<{ surfaceHeatFlowMWm2: number; basalHeatFlowMWm2: number; isothermDepthsKm: Record<string, number | null>; profile: unknown[] }>('/api/column', last.request);
+    const answer = await api<{ surfaceHeatFlowMWm2: number; basalHeatFlowMWm2: number; isothermDepthsKm: Record<string, number | null>; profile: unknown[] }>(
+      '/api/column',
+      last.request,
+    );
     const text = (await page.locator('#column-summary').textContent())!;
     expect(text).toContain(answer.surfaceHeatFlowMWm2.toFixed(1));
     expect(text).toContain(answer.basalHeatFlowMWm2.toFixed(1));
@@ -239,12 +279,26 @@ describe('the map client: data, run, inspector, section', () => {
     await page.keyboard.press('Enter');
     await expect.poll(() => page.locator('#section-figure').count(), { timeout: 30_000 }).toBe(1);
     const s = await page.evaluate(() => window.subtherm!.lastSection!);
-    const line = await page.evaluate(() => (window.subtherm!.map.getSource('section-line') as unknown as { _data: { geojson?: { features: { geometry: { type: string; coordinates: number[][] } }[] }; features?: { geometry: { type: string; coordinates: number[][] } }[] } })._data);
+    const line = await page.evaluate(
+      () =>
+        (
+          window.subtherm!.map.getSource('section-line') as unknown as {
+            _data: {
+              geojson?: { features: { geometry: { type: string; coordinates: number[][] } }[] };
+              features?: { geometry: { type: string; coordinates: number[][] } }[];
+            };
+          }
+        )._data,
+    );
     const fc = line.geojson ?? line;
     const ls = fc.features!.find((f) => f.geometry.type === 'LineString')!;
     expect(ls.geometry.coordinates).toHaveLength(3);
     const runId = await page.evaluate(() => window.subtherm!.run!.run.id);
-    const again = await api<{ lengthKm: number; isotherms: { temperatureC: number; depthKm: (number | null)[] }[] }>('/api/section', { runId, line: ls.geometry.coordinates, maxDepthKm: 30 });
+    const again = await api<{ lengthKm: number; isotherms: { temperatureC: number; depthKm: (number | null)[] }[] }>('/api/section', {
+      runId,
+      line: ls.geometry.coordinates,
+      maxDepthKm: 30,
+    });
     expect(s.lengthKm).toBe(again.lengthKm);
     expect(s.isotherms.map((i) => i.temperatureC)).toEqual(again.isotherms.map((i) => i.temperatureC));
     expect(await page.locator('#section-figure path.isotherm-curve').count()).toBeGreaterThanOrEqual(1);

@@ -116,7 +116,10 @@ describe('the map client: sharing and export', () => {
     await e.page.locator('#share-button').click();
     await expect.poll(() => e.page.locator('#share-out .ok').textContent(), { timeout: 10_000 }).toContain('Saved revision 2');
     const id = new URL(viewUrl).pathname.split('/').pop()!;
-    const saved = (await (await fetch(`${server.url}/api/projects/${id}`)).json()) as { revision: number; state: { layers: Record<string, { opacity: number }> } };
+    const saved = (await (await fetch(`${server.url}/api/projects/${id}`)).json()) as {
+      revision: number;
+      state: { layers: Record<string, { opacity: number }> };
+    };
     expect(saved.revision).toBe(2);
     expect(saved.state.layers.sites.opacity).toBeCloseTo(0.8, 6);
     await e.close();
@@ -128,7 +131,8 @@ describe('the map client: sharing and export', () => {
     const png = readFileSync(path);
     copyFileSync(path, join(SCREENSHOT_DIR, 'client-share-4-exported-map.png'));
     expect(png.subarray(1, 4).toString('latin1')).toBe('PNG');
-    const width = png.readUInt32BE(16), height = png.readUInt32BE(20);
+    const width = png.readUInt32BE(16),
+      height = png.readUInt32BE(20);
     const canvas = await page.evaluate(() => ({ w: window.subtherm!.map.getCanvas().width, h: window.subtherm!.map.getCanvas().height }));
     expect(width).toBe(canvas.w);
     expect(height).toBeGreaterThan(canvas.h + 30);

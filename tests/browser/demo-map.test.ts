@@ -53,7 +53,8 @@ describe('the demo map in a real browser', () => {
       return new Promise<{ distinct: number; nonBackground: number }>((resolve) => {
         map.once('idle', () => {
           const gl = map.getCanvas().getContext('webgl2') as WebGL2RenderingContext;
-          const w = gl.drawingBufferWidth, h = gl.drawingBufferHeight;
+          const w = gl.drawingBufferWidth,
+            h = gl.drawingBufferHeight;
           const px = new Uint8Array(w * h * 4);
           gl.readPixels(0, 0, w, h, gl.RGBA, gl.UNSIGNED_BYTE, px);
           const tones = new Set<number>();

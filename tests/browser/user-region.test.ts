@@ -25,22 +25,38 @@ const TMP = join(ROOT, '.tmp');
 /** Invented sites: a smooth heat-flow field (55–95 mW/m²) with seeded noise on a jittered 9 × 7 grid. */
 function userSites(): { lon: number; lat: number; id: string; q: number; sd: number; quality: string }[] {
   let s = 20261202;
-  const rnd = () => ((s = (s * 1103515245 + 12345) % 2147483648) / 2147483648);
+  const rnd = () => (s = (s * 1103515245 + 12345) % 2147483648) / 2147483648;
   const out = [];
   for (let j = 0; j < 7; j++) {
     for (let i = 0; i < 9; i++) {
       const lon = 159.2 + i * 0.2 + (rnd() - 0.5) * 0.08;
       const lat = 34.4 + j * 0.2 + (rnd() - 0.5) * 0.08;
       const q = 75 + 14 * Math.sin((lon - 159.2) * 1.9) + 9 * Math.cos((lat - 34.4) * 2.4) + (rnd() - 0.5) * 4;
-      out.push({ lon, lat, id: `VR-${j * 9 + i + 1}`, q: Math.round(q * 10) / 10, sd: 4 + Math.round(rnd() * 30) / 10, quality: ['high', 'medium', 'low'][(i + j) % 3] });
+      out.push({
+        lon,
+        lat,
+        id: `VR-${j * 9 + i + 1}`,
+        q: Math.round(q * 10) / 10,
+        sd: 4 + Math.round(rnd() * 30) / 10,
+        quality: ['high', 'medium', 'low'][(i + j) % 3],
+      });
     }
   }
   return out;
 }
 const SITES = userSites();
-const BBOX = [Math.min(...SITES.map((s) => s.lon)), Math.min(...SITES.map((s) => s.lat)), Math.max(...SITES.map((s) => s.lon)), Math.max(...SITES.map((s) => s.lat))];
+const BBOX = [
+  Math.min(...SITES.map((s) => s.lon)),
+  Math.min(...SITES.map((s) => s.lat)),
+  Math.max(...SITES.map((s) => s.lon)),
+  Math.max(...SITES.map((s) => s.lat)),
+];
 const rampCoverage = (p: Page, layer: string) => coverage(p, layer, BBOX as [number, number, number, number]);
-const sitesCsv = () => ['longitude,latitude,id,heatFlowMWm2,uncertaintyMWm2,quality', ...SITES.map((s) => [s.lon.toFixed(5), s.lat.toFixed(5), s.id, s.q, s.sd, s.quality].join(','))].join('\n');
+const sitesCsv = () =>
+  [
+    'longitude,latitude,id,heatFlowMWm2,uncertaintyMWm2,quality',
+    ...SITES.map((s) => [s.lon.toFixed(5), s.lat.toFixed(5), s.id, s.q, s.sd, s.quality].join(',')),
+  ].join('\n');
 
 beforeAll(async () => {
   mkdirSync(SCREENSHOT_DIR, { recursive: true });
@@ -93,7 +109,9 @@ describe('a user region in the other hemisphere, end to end in the page', { time
   });
 
   it('explains bad files clearly: swapped coordinates, a CSV without coordinates, an unknown or malformed CRS', async () => {
-    const swapped = ['longitude,latitude,id,heatFlowMWm2', ...SITES.slice(0, 5).map((s) => [s.lat.toFixed(4), s.lon.toFixed(4), s.id, s.q].join(','))].join('\n');
+    const swapped = ['longitude,latitude,id,heatFlowMWm2', ...SITES.slice(0, 5).map((s) => [s.lat.toFixed(4), s.lon.toFixed(4), s.id, s.q].join(','))].join(
+      '\n',
+    );
     await upload(page, 'swapped.csv', swapped);
     let a = await uploadAnswer(page);
     expect(a.ok).toBe(false);
@@ -160,7 +178,12 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     await page.locator('#run-realizations').dispatchEvent('change');
     await page.locator('#run-button').click();
     // Done, or a message in the panel (then the test fails showing it).
-    const outcome = () => page.evaluate(() => (window.subtherm!.run?.run.status === 'done' ? 'done' : document.getElementById('run-error')!.textContent || document.getElementById('run-param-error')!.textContent || null));
+    const outcome = () =>
+      page.evaluate(() =>
+        window.subtherm!.run?.run.status === 'done'
+          ? 'done'
+          : document.getElementById('run-error')!.textContent || document.getElementById('run-param-error')!.textContent || null,
+      );
     await expect.poll(outcome, { timeout: 600_000, interval: 1000 }).toBeTruthy();
     expect(await outcome()).toBe('done');
     runId = await page.evaluate(() => window.subtherm!.run!.run.id);
@@ -171,7 +194,11 @@ describe('a user region in the other hemisphere, end to end in the page', { time
 
     // The run used exactly the user's data set: none of the demo's data sets, no samples or faults.
     const cfg = (await (await fetch(`${server.url}/api/config`)).json()) as { demo: { datasets: Record<string, string> } };
-    const run = (await (await fetch(`${server.url}/api/runs/${runId}`)).json()) as { request: Record<string, unknown>; summary: unknown; layers: { name: string }[] };
+    const run = (await (await fetch(`${server.url}/api/runs/${runId}`)).json()) as {
+      request: Record<string, unknown>;
+      summary: unknown;
+      layers: { name: string }[];
+    };
     const sitesId = await page.evaluate(() => window.subtherm!.state.params.sites);
     expect(run.request.sites).toBe(sitesId);
     expect(run.request.samples).toBeUndefined();
@@ -188,7 +215,7 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     }
   });
 
-  it('adds the spread (P90 − P10) and exceedance-probability layers from the run\'s realizations', async () => {
+  it("adds the spread (P90 − P10) and exceedance-probability layers from the run's realizations", async () => {
     await page.locator('#unc-isotherm').fill('300');
     await page.locator('#unc-spread').click();
     await expect.poll(() => page.locator('#unc-status').textContent(), { timeout: 180_000, interval: 1000 }).toContain('among the run');
@@ -208,7 +235,9 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     await page.locator('#unc-exceedance').click();
     await expect.poll(() => page.locator('#unc-status').textContent(), { timeout: 180_000, interval: 1000 }).toContain('exceeds 150 °C is among the run');
     // The page redraws the run with the new layer: temperature at 5 km, probability above 150 °C.
-    await expect.poll(() => page.evaluate(() => window.subtherm!.map.getStyle().layers.find((l) => l.id.endsWith('prob-gt-150C'))?.id ?? null), { timeout: 60_000 }).toMatch(/^run-temperature-5km.prob-gt-150C$/);
+    await expect
+      .poll(() => page.evaluate(() => window.subtherm!.map.getStyle().layers.find((l) => l.id.endsWith('prob-gt-150C'))?.id ?? null), { timeout: 60_000 })
+      .toMatch(/^run-temperature-5km.prob-gt-150C$/);
     await waitForMapIdle(page);
     expect(await page.locator('#run-layers').textContent()).toContain('Probability that the temperature at 5 km exceeds 150 °C');
     const probLayer = await page.evaluate(() => window.subtherm!.map.getStyle().layers.find((l) => l.id.endsWith('prob-gt-150C'))!.id);
@@ -217,11 +246,16 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     await shot(page, 'exceedance');
   });
 
-  it('computes heat in place for a polygon drawn on the map from the run\'s realizations; its nominal totals equal the subtherm heat-in-place command', async () => {
+  it("computes heat in place for a polygon drawn on the map from the run's realizations; its nominal totals equal the subtherm heat-in-place command", async () => {
     await page.locator('#tab-heat').click();
     await expect.poll(() => page.locator('#hip-run').isDisabled()).toBe(false);
     await page.locator('#hip-draw').click();
-    const corners: [number, number][] = [[159.55, 34.65], [160.55, 34.7], [160.6, 35.45], [159.6, 35.5]];
+    const corners: [number, number][] = [
+      [159.55, 34.65],
+      [160.55, 34.7],
+      [160.6, 35.45],
+      [159.6, 35.5],
+    ];
     const box = (await page.locator('#map').boundingBox())!;
     for (const c of corners) {
       const pt = await page.evaluate((ll) => window.subtherm!.map.project(ll), c);
@@ -266,9 +300,37 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     const o = result.request.options;
     const arg = (v: unknown) => (typeof v === 'number' ? String(v) : JSON.stringify(v));
     const cli = JSON.parse(
-      execFileSync(process.execPath, [join(ROOT, 'bin', 'subtherm.mjs'), 'heat-in-place', '--heat-flow', join(dir, 'hf.tif'), '--model', join(dir, 'model.json'), '--polygon', join(dir, 'polygon.geojson'),
-        '--top-km', arg(o.topKm), '--bottom-km', arg(o.bottomKm), '--min-temp-c', arg(o.minTempC), '--ref-temp-c', arg(o.refTempC), '--rho-c-mj', arg(o.rhoCMJm3K), '--recovery', arg(o.recoveryFactor), '--efficiency', arg(o.utilizationEfficiency),
-        '--life-years', arg(o.lifeYears), '--json'], { cwd: ROOT, encoding: 'utf8', maxBuffer: 64 << 20 }),
+      execFileSync(
+        process.execPath,
+        [
+          join(ROOT, 'bin', 'subtherm.mjs'),
+          'heat-in-place',
+          '--heat-flow',
+          join(dir, 'hf.tif'),
+          '--model',
+          join(dir, 'model.json'),
+          '--polygon',
+          join(dir, 'polygon.geojson'),
+          '--top-km',
+          arg(o.topKm),
+          '--bottom-km',
+          arg(o.bottomKm),
+          '--min-temp-c',
+          arg(o.minTempC),
+          '--ref-temp-c',
+          arg(o.refTempC),
+          '--rho-c-mj',
+          arg(o.rhoCMJm3K),
+          '--recovery',
+          arg(o.recoveryFactor),
+          '--efficiency',
+          arg(o.utilizationEfficiency),
+          '--life-years',
+          arg(o.lifeYears),
+          '--json',
+        ],
+        { cwd: ROOT, encoding: 'utf8', maxBuffer: 64 << 20 },
+      ),
     ) as Record<string, { nominal: number; p10: number | null; p50: number | null; p90: number | null }> & { cells: number; area: string };
     const web = result.report as unknown as typeof cli & { monteCarlo: { realizations: number; seed: number; heatFlow: string } };
     expect(web.area).toBe('polygon');
@@ -276,7 +338,9 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     expect(cli.cells).toBeGreaterThan(50);
     for (const k of ['heatInPlaceEJ', 'recoverableJ', 'electricMWe', 'hotVolumeKm3', 'meanReservoirTempC']) {
       expect(cli[k].nominal, k).not.toBeNull();
-      expect(Math.abs(web[k].nominal - cli[k].nominal), `${k}: page ${web[k].nominal}, CLI ${cli[k].nominal}`).toBeLessThanOrEqual(1e-9 * Math.abs(cli[k].nominal));
+      expect(Math.abs(web[k].nominal - cli[k].nominal), `${k}: page ${web[k].nominal}, CLI ${cli[k].nominal}`).toBeLessThanOrEqual(
+        1e-9 * Math.abs(cli[k].nominal),
+      );
       expect(web[k].p10!, k).toBeLessThanOrEqual(web[k].p50!);
       expect(web[k].p50!, k).toBeLessThanOrEqual(web[k].p90!);
     }
@@ -349,10 +413,15 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     expect(a.text).toMatch(/TIFF/);
     // A seamount on the sea floor, in UTM zone 57 north (EPSG:32657), 2 km cells over the sites' box and a margin.
     const utm = '+proj=utm +zone=57 +datum=WGS84 +units=m +no_defs';
-    const sw = proj4('EPSG:4326', utm, [BBOX[0] - 0.2, BBOX[1] - 0.2]), ne = proj4('EPSG:4326', utm, [BBOX[2] + 0.2, BBOX[3] + 0.2]);
-    const dx = 2000, width = Math.ceil((ne[0] - sw[0]) / dx), height = Math.ceil((ne[1] - sw[1]) / dx);
+    const sw = proj4('EPSG:4326', utm, [BBOX[0] - 0.2, BBOX[1] - 0.2]),
+      ne = proj4('EPSG:4326', utm, [BBOX[2] + 0.2, BBOX[3] + 0.2]);
+    const dx = 2000,
+      width = Math.ceil((ne[0] - sw[0]) / dx),
+      height = Math.ceil((ne[1] - sw[1]) / dx);
     const values = new Float32Array(width * height);
-    for (let r = 0; r < height; r++) for (let c = 0; c < width; c++) values[r * width + c] = -5200 + 3800 * Math.exp(-(((c - width / 2) / (width / 5)) ** 2 + ((r - height / 2) / (height / 5)) ** 2));
+    for (let r = 0; r < height; r++)
+      for (let c = 0; c < width; c++)
+        values[r * width + c] = -5200 + 3800 * Math.exp(-(((c - width / 2) / (width / 5)) ** 2 + ((r - height / 2) / (height / 5)) ** 2));
     const tif = writeGeoTiff({ width, height, west: sw[0], north: ne[1], dx, dy: dx, crs: 'EPSG:32657', units: 'm', values });
     await page.locator('#upload-file').setInputFiles({ name: 'velmar-seamount.tif', mimeType: 'image/tiff', buffer: Buffer.from(tif) });
     a = await uploadAnswer(page);

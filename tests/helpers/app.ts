@@ -12,7 +12,9 @@ export interface TestApp {
   store: SqliteStore;
   post(path: string, body: unknown): Promise<Response>;
   /** Polls GET /api/runs/:id until the run is done, failed or cancelled. */
-  waitEnd<T = { status: string; progress: number; message: string; layers: { name: string; formats: string[]; urls: Record<string, string> }[] }>(id: string): Promise<T>;
+  waitEnd<T = { status: string; progress: number; message: string; layers: { name: string; formats: string[]; urls: Record<string, string> }[] }>(
+    id: string,
+  ): Promise<T>;
   close(): Promise<void>;
 }
 
@@ -22,8 +24,9 @@ export async function startTestApp(prefix: string, opts: Partial<AppOptions> = {
   await loadDemo(store);
   const app = createApp({ store, terrain: null, clientDir: null, ...opts });
   await app.ready;
-  const post = async (path: string, body: unknown): Promise<Response> => app.request(path, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body) });
-  const waitEnd = async <T,>(id: string): Promise<T> => {
+  const post = async (path: string, body: unknown): Promise<Response> =>
+    app.request(path, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body) });
+  const waitEnd = async <T>(id: string): Promise<T> => {
     for (let i = 0; i < 3000; i++) {
       const r = (await (await app.request(`/api/runs/${id}`)).json()) as { status: string };
       if (['done', 'failed', 'cancelled'].includes(r.status)) return r as T;

@@ -3,7 +3,10 @@
 // cells × realizations limit, plus a health probe every 100 ms.
 import { MODEL_BOUNDS } from '../../shared/schema/model.ts';
 
-export interface Limit { name: string; value: number }
+export interface Limit {
+  name: string;
+  value: number;
+}
 const json = { 'content-type': 'application/json' };
 
 export async function limitsOf(base: string): Promise<Record<string, number>> {
@@ -12,11 +15,20 @@ export async function limitsOf(base: string): Promise<Record<string, number>> {
 }
 
 /** Starts a small demo run (cellKm 8, 20 realizations) and waits for it; returns its id and grid. */
-export async function finishedRun(base: string): Promise<{ id: string; grid: { west: number; north: number; dx: number; dy: number; width: number; height: number } }> {
-  const r = await fetch(`${base}/api/runs`, { method: 'POST', headers: json, body: JSON.stringify({ sites: 'demo-sites', model: 'demo-model', realizations: 20, seed: 2, grid: { cellKm: 8 } }) });
+export async function finishedRun(
+  base: string,
+): Promise<{ id: string; grid: { west: number; north: number; dx: number; dy: number; width: number; height: number } }> {
+  const r = await fetch(`${base}/api/runs`, {
+    method: 'POST',
+    headers: json,
+    body: JSON.stringify({ sites: 'demo-sites', model: 'demo-model', realizations: 20, seed: 2, grid: { cellKm: 8 } }),
+  });
   const id = ((await r.json()) as { id: string }).id;
   for (;;) {
-    const s = (await (await fetch(`${base}/api/runs/${id}`)).json()) as { status: string; summary: { grid?: { west: number; north: number; dx: number; dy: number; width: number; height: number } } };
+    const s = (await (await fetch(`${base}/api/runs/${id}`)).json()) as {
+      status: string;
+      summary: { grid?: { west: number; north: number; dx: number; dy: number; width: number; height: number } };
+    };
     if (s.status === 'done') return { id, grid: s.summary.grid! };
     if (s.status !== 'queued' && s.status !== 'running') throw new Error(`run ${s.status}`);
     await new Promise((res) => setTimeout(res, 100));
@@ -24,10 +36,19 @@ export async function finishedRun(base: string): Promise<{ id: string; grid: { w
 }
 
 /** A heat-in-place job over the run with as many realizations as the limits allow; resolves to the job's URL. */
-export async function heatInPlaceAtLimit(base: string, run: { id: string; grid: { width: number; height: number } }, limits: Record<string, number>, seed = 1): Promise<{ url: string; realizations: number }> {
+export async function heatInPlaceAtLimit(
+  base: string,
+  run: { id: string; grid: { width: number; height: number } },
+  limits: Record<string, number>,
+  seed = 1,
+): Promise<{ url: string; realizations: number }> {
   const cells = run.grid.width * run.grid.height;
   const realizations = Math.min(limits.maxHeatInPlaceRealizations, Math.floor(limits.maxHeatInPlaceCellRealizations / cells));
-  const res = await fetch(`${base}/api/runs/${run.id}/heat-in-place`, { method: 'POST', headers: json, body: JSON.stringify({ options: { realizations, seed } }) });
+  const res = await fetch(`${base}/api/runs/${run.id}/heat-in-place`, {
+    method: 'POST',
+    headers: json,
+    body: JSON.stringify({ options: { realizations, seed } }),
+  });
   if (res.status !== 202) throw new Error(`heat-in-place job refused: ${res.status} ${await res.text()}`);
   return { url: ((await res.json()) as { url: string }).url, realizations };
 }
@@ -35,22 +56,41 @@ export async function heatInPlaceAtLimit(base: string, run: { id: string; grid: 
 /** A column of a model at the layer cap with the most realizations the route takes (2000). */
 export function columnAtLayerCap(base: string): Promise<Response> {
   const n = MODEL_BOUNDS.maxLayers;
-  const layers = Array.from({ length: n }, (_, i) => ({ name: `layer ${i + 1}`, bottomKm: ((i + 1) * 60) / n, conductivityWmK: { dist: 'normal', mean: 2.8, sd: 0.2 }, heatProductionUWm3: 1, densityKgM3: 2750 }));
-  return fetch(`${base}/api/column`, { method: 'POST', headers: json, body: JSON.stringify({ model: { surfaceTemperatureC: 10, layers }, heatFlowMWm2: 65, heatFlowSdMWm2: 5, realizations: 2000, seed: 1 }) });
+  const layers = Array.from({ length: n }, (_, i) => ({
+    name: `layer ${i + 1}`,
+    bottomKm: ((i + 1) * 60) / n,
+    conductivityWmK: { dist: 'normal', mean: 2.8, sd: 0.2 },
+    heatProductionUWm3: 1,
+    densityKgM3: 2750,
+  }));
+  return fetch(`${base}/api/column`, {
+    method: 'POST',
+    headers: json,
+    body: JSON.stringify({ model: { surfaceTemperatureC: 10, layers }, heatFlowMWm2: 65, heatFlowSdMWm2: 5, realizations: 2000, seed: 1 }),
+  });
 }
 
 /** A run whose cells × realizations equal the server's maxRunCellRealizations; returns its id and run token. */
 export async function maximalRun(base: string, limits: Record<string, number>): Promise<{ id: string; runToken: string; cells: number; realizations: number }> {
   const realizations = 1000;
   const cells = Math.floor(limits.maxRunCellRealizations / realizations);
-  const nx = Math.max(2, Math.floor(Math.sqrt(cells * 2))), ny = Math.max(2, Math.floor(cells / nx));
-  const res = await fetch(`${base}/api/runs`, { method: 'POST', headers: json, body: JSON.stringify({ sites: 'demo-sites', model: 'demo-model', realizations, seed: 9, grid: { size: [nx, ny] } }) });
+  const nx = Math.max(2, Math.floor(Math.sqrt(cells * 2))),
+    ny = Math.max(2, Math.floor(cells / nx));
+  const res = await fetch(`${base}/api/runs`, {
+    method: 'POST',
+    headers: json,
+    body: JSON.stringify({ sites: 'demo-sites', model: 'demo-model', realizations, seed: 9, grid: { size: [nx, ny] } }),
+  });
   if (res.status !== 202) throw new Error(`maximal run refused: ${res.status} ${await res.text()}`);
   return { ...((await res.json()) as { id: string; runToken: string }), cells: nx * ny, realizations };
 }
 
 /** Probes GET /api/health every `everyMs` until `stop()` resolves; returns each probe's latency (ms) and failures. */
-export async function probeHealth(base: string, until: Promise<unknown>, everyMs = 100): Promise<{ latencies: number[]; failures: string[]; loopDelay: { p50: number; p99: number; max: number } | null }> {
+export async function probeHealth(
+  base: string,
+  until: Promise<unknown>,
+  everyMs = 100,
+): Promise<{ latencies: number[]; failures: string[]; loopDelay: { p50: number; p99: number; max: number } | null }> {
   let done = false;
   void until.finally(() => (done = true));
   const latencies: number[] = [];

@@ -16,7 +16,9 @@ export interface PgCluster {
 function pgBin(): string | null {
   const root = '/usr/lib/postgresql';
   if (existsSync(root)) {
-    const majors = readdirSync(root).filter((d) => /^\d+$/.test(d)).sort((a, b) => Number(b) - Number(a));
+    const majors = readdirSync(root)
+      .filter((d) => /^\d+$/.test(d))
+      .sort((a, b) => Number(b) - Number(a));
     for (const m of majors) if (existsSync(join(root, m, 'bin', 'pg_ctl'))) return join(root, m, 'bin');
   }
   try {

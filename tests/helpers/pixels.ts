@@ -13,7 +13,10 @@ export async function rampCoverage(p: Page, mapLayer: string, bbox: [number, num
       const legend = window.subtherm!.run!.run.layers!.find((l) => l.name === runLayer)!.legend as { type: string; colors: string[] };
       const hex = (c: string) => [1, 3, 5].map((k) => parseInt(c.slice(k, k + 2), 16));
       const ramp = legend.colors.map(hex);
-      const hidden = map.getStyle().layers.filter((l) => l.id !== id && l.type !== 'background' && (map.getLayoutProperty(l.id, 'visibility') ?? 'visible') === 'visible').map((l) => l.id);
+      const hidden = map
+        .getStyle()
+        .layers.filter((l) => l.id !== id && l.type !== 'background' && (map.getLayoutProperty(l.id, 'visibility') ?? 'visible') === 'visible')
+        .map((l) => l.id);
       for (const l of hidden) map.setLayoutProperty(l, 'visibility', 'none');
       const ownVisibility = (map.getLayoutProperty(id, 'visibility') as 'visible' | 'none' | undefined) ?? 'visible';
       map.setLayoutProperty(id, 'visibility', 'visible');
@@ -22,7 +25,8 @@ export async function rampCoverage(p: Page, mapLayer: string, bbox: [number, num
       const distToRamp = (px: number[]) => {
         let best = Infinity;
         for (let i = 0; i + 1 < ramp.length; i++) {
-          const a = ramp[i], b = ramp[i + 1];
+          const a = ramp[i],
+            b = ramp[i + 1];
           const ab = [b[0] - a[0], b[1] - a[1], b[2] - a[2]];
           const len2 = ab[0] ** 2 + ab[1] ** 2 + ab[2] ** 2 || 1;
           const t = Math.max(0, Math.min(1, ((px[0] - a[0]) * ab[0] + (px[1] - a[1]) * ab[1] + (px[2] - a[2]) * ab[2]) / len2));
@@ -35,13 +39,20 @@ export async function rampCoverage(p: Page, mapLayer: string, bbox: [number, num
           if (!map.areTilesLoaded()) return void map.once('idle', measure);
           const gl = map.getCanvas().getContext('webgl2') as WebGL2RenderingContext;
           const scale = gl.drawingBufferWidth / map.getCanvas().clientWidth;
-          const a = map.project([bbox[0], bbox[3]]), b = map.project([bbox[2], bbox[1]]);
+          const a = map.project([bbox[0], bbox[3]]),
+            b = map.project([bbox[2], bbox[1]]);
           // The inner 70 % of the sites' box: the grid covers it whatever the run's margins.
-          const x0 = a.x + (b.x - a.x) * 0.15, x1 = b.x - (b.x - a.x) * 0.15, y0 = a.y + (b.y - a.y) * 0.15, y1 = b.y - (b.y - a.y) * 0.15;
-          const w = gl.drawingBufferWidth, h = gl.drawingBufferHeight;
+          const x0 = a.x + (b.x - a.x) * 0.15,
+            x1 = b.x - (b.x - a.x) * 0.15,
+            y0 = a.y + (b.y - a.y) * 0.15,
+            y1 = b.y - (b.y - a.y) * 0.15;
+          const w = gl.drawingBufferWidth,
+            h = gl.drawingBufferHeight;
           const px = new Uint8Array(w * h * 4);
           gl.readPixels(0, 0, w, h, gl.RGBA, gl.UNSIGNED_BYTE, px);
-          let n = 0, onRamp = 0, onBase = 0;
+          let n = 0,
+            onRamp = 0,
+            onBase = 0;
           for (let y = y0; y < y1; y += 4) {
             for (let x = x0; x < x1; x += 4) {
               const i = ((h - 1 - Math.round(y * scale)) * w + Math.round(x * scale)) * 4;

@@ -4,10 +4,14 @@ import { inflateSync } from 'node:zlib';
 
 export function decodePngRgb(bytes: Uint8Array): { width: number; height: number; rgb: Uint8Array } {
   const dv = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-  let p = 8, width = 0, height = 0, type = 0;
+  let p = 8,
+    width = 0,
+    height = 0,
+    type = 0;
   const idat: Uint8Array[] = [];
   while (p < bytes.length) {
-    const len = dv.getUint32(p), name = String.fromCharCode(...bytes.subarray(p + 4, p + 8));
+    const len = dv.getUint32(p),
+      name = String.fromCharCode(...bytes.subarray(p + 4, p + 8));
     const data = bytes.subarray(p + 8, p + 8 + len);
     if (name === 'IHDR') {
       width = dv.getUint32(p + 8);
@@ -29,7 +33,9 @@ export function decodePngRgb(bytes: Uint8Array): { width: number; height: number
       const a = i >= bpp ? px[r * stride + i - bpp] : 0;
       const b = r > 0 ? px[(r - 1) * stride + i] : 0;
       const c = i >= bpp && r > 0 ? px[(r - 1) * stride + i - bpp] : 0;
-      const pa = Math.abs(b - c), pb = Math.abs(a - c), pc = Math.abs(a + b - 2 * c);
+      const pa = Math.abs(b - c),
+        pb = Math.abs(a - c),
+        pc = Math.abs(a + b - 2 * c);
       const pred = f === 0 ? 0 : f === 1 ? a : f === 2 ? b : f === 3 ? (a + b) >> 1 : pa <= pb && pa <= pc ? a : pb <= pc ? b : c;
       px[r * stride + i] = (line[i] + pred) & 0xff;
     }

@@ -35,12 +35,15 @@ export default async function runDouble(task: RunTask): Promise<RunResult> {
   const qs = sites.features.map((f) => f.properties.heatFlowMWm2);
   const [w, s, e, n] = request.grid.bbox ?? [Math.min(...xs), Math.min(...ys), Math.max(...xs), Math.max(...ys)];
   const [width, height] = request.grid.size ?? [24, 20];
-  const dx = (e - w) / width, dy = (n - s) / height;
+  const dx = (e - w) / width,
+    dy = (n - s) / height;
   const values = new Float32Array(width * height);
   for (let r = 0; r < height; r++) {
     for (let c = 0; c < width; c++) {
-      const x = w + (c + 0.5) * dx, y = n - (r + 0.5) * dy;
-      let num = 0, den = 0;
+      const x = w + (c + 0.5) * dx,
+        y = n - (r + 0.5) * dy;
+      let num = 0,
+        den = 0;
       for (let k = 0; k < xs.length; k++) {
         const d2 = (xs[k] - x) ** 2 + (ys[k] - y) ** 2;
         const wt = 1 / Math.max(d2, 1e-12);
@@ -55,19 +58,48 @@ export default async function runDouble(task: RunTask): Promise<RunResult> {
   const grid = { width, height, west: w, north: n, dx, dy, crs: 'EPSG:4326', units: 'mW/m²', values };
   const tif = new Uint8Array(writeGeoTiff(grid));
   const midLat = (s + n) / 2;
-  const isograds = { type: 'FeatureCollection', features: [{ type: 'Feature', id: 'garnet-in', geometry: { type: 'LineString', coordinates: [[(w + e) / 2, s], [(w + e) / 2, n]] }, properties: { zone: 'garnet' } }] };
+  const isograds = {
+    type: 'FeatureCollection',
+    features: [
+      {
+        type: 'Feature',
+        id: 'garnet-in',
+        geometry: {
+          type: 'LineString',
+          coordinates: [
+            [(w + e) / 2, s],
+            [(w + e) / 2, n],
+          ],
+        },
+        properties: { zone: 'garnet' },
+      },
+    ],
+  };
   const csv = `# test double\nlongitude,latitude,heatFlowMWm2\n${w},${midLat},${values[0]}\n`;
   progress(1, 'writing layers');
   return {
     layers: [
-      { info: { name: 'heat-flow', kind: 'raster', units: 'mW/m²', title: 'Surface heat flow', legend: null, formats: ['tif', 'csv'] }, files: [{ ext: 'tif', bytes: tif }, { ext: 'csv', bytes: new TextEncoder().encode(csv) }] },
-      { info: { name: 'isograds', kind: 'vector', units: '', title: 'Isograds', legend: null, formats: ['geojson'] }, files: [{ ext: 'geojson', bytes: new TextEncoder().encode(JSON.stringify(isograds)) }] },
+      {
+        info: { name: 'heat-flow', kind: 'raster', units: 'mW/m²', title: 'Surface heat flow', legend: null, formats: ['tif', 'csv'] },
+        files: [
+          { ext: 'tif', bytes: tif },
+          { ext: 'csv', bytes: new TextEncoder().encode(csv) },
+        ],
+      },
+      {
+        info: { name: 'isograds', kind: 'vector', units: '', title: 'Isograds', legend: null, formats: ['geojson'] },
+        files: [{ ext: 'geojson', bytes: new TextEncoder().encode(JSON.stringify(isograds)) }],
+      },
     ],
     summary: {
       grid: { width, height, cells: width * height, west: w, north: n, dx, dy, crs: 'EPSG:4326', cellKm: dy * 111.195 },
       interpolation: { method: 'idw', variogram: null },
       crossValidation: null,
-      isothermsC: request.isothermsC, depthsKm: request.depthsKm, faciesDepthKm: 10, maxDepthKm: 60, overrides: [],
+      isothermsC: request.isothermsC,
+      depthsKm: request.depthsKm,
+      faciesDepthKm: 10,
+      maxDepthKm: 60,
+      overrides: [],
       inconsistent: { inconsistent: 0, heatFlowExhausted: 0, conductivityUndefined: 0, nonPositiveHeatFlow: 0, meltOnset: 0, noData: 0 },
       monteCarlo: null,
       layers: { 'heat-flow': null, isograds: null },

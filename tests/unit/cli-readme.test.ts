@@ -14,7 +14,8 @@ for (const line of section.split('\n')) {
   const m = /^\| `([a-z-]+)` \| (.*?) \| .* \|$/.exec(line);
   if (m) rows.set(m[1], m[2]);
 }
-const optionsIn = (text: string): string[] => [...new Set([...text.matchAll(/(?<![\w-])--[a-z][a-z0-9-]*/g)].map((m) => m[0]))].filter((o) => o !== '--help').sort();
+const optionsIn = (text: string): string[] =>
+  [...new Set([...text.matchAll(/(?<![\w-])--[a-z][a-z0-9-]*/g)].map((m) => m[0]))].filter((o) => o !== '--help').sort();
 
 async function helpOf(verb: string): Promise<string> {
   let out = '';

@@ -10,7 +10,9 @@ import { readGeoTiff } from '../../server/io/geotiff.ts';
 
 const hasGdal = spawnSync('ogr2ogr', ['--version']).status === 0;
 let dir = '';
-beforeAll(() => { dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'formats-cli-')); });
+beforeAll(() => {
+  dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'formats-cli-'));
+});
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 const fixture = (name: string) => new URL(`../../fixtures/demo/${name}`, import.meta.url).pathname;
@@ -21,9 +23,16 @@ function ogr(args: string[]): void {
 }
 
 async function cli(args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '', err = '';
-  const o = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => { out += String(s); return true; });
-  const e = vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => { err += String(s); return true; });
+  let out = '',
+    err = '';
+  const o = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
+    out += String(s);
+    return true;
+  });
+  const e = vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => {
+    err += String(s);
+    return true;
+  });
   try {
     return { code: await main(args), out, err };
   } finally {
@@ -61,8 +70,30 @@ describe('verbs read GeoPackage, zipped Shapefile and projected CSV points', () 
     expect(bad.code).toBe(2);
     expect(bad.err).toContain('field.gpkg');
     expect(bad.err).toContain('grade_samples');
-    const ok = await cli(['isograds', '--samples', gpkg, '--layer', 'grade_samples', '--faults', gpkg, '--faults-layer', 'fault_traces', '--out', join(dir, 'i.geojson'), '--json']);
-    const ref = await cli(['isograds', '--samples', fixture('samples.geojson'), '--faults', fixture('faults.geojson'), '--out', join(dir, 'r.geojson'), '--json']);
+    const ok = await cli([
+      'isograds',
+      '--samples',
+      gpkg,
+      '--layer',
+      'grade_samples',
+      '--faults',
+      gpkg,
+      '--faults-layer',
+      'fault_traces',
+      '--out',
+      join(dir, 'i.geojson'),
+      '--json',
+    ]);
+    const ref = await cli([
+      'isograds',
+      '--samples',
+      fixture('samples.geojson'),
+      '--faults',
+      fixture('faults.geojson'),
+      '--out',
+      join(dir, 'r.geojson'),
+      '--json',
+    ]);
     expect(ok.code).toBe(ref.code);
     const lines = (p: string) => (JSON.parse(readFileSync(p, 'utf8')) as { features: unknown[] }).features.length;
     expect(lines(join(dir, 'i.geojson'))).toBe(lines(join(dir, 'r.geojson')));

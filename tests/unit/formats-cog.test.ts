@@ -10,12 +10,15 @@ import { prng } from '../helpers/prng.ts';
 
 const hasGdal = spawnSync('gdal_translate', ['--version']).status === 0;
 let dir = '';
-beforeAll(() => { dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'formats-cog-')); });
+beforeAll(() => {
+  dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'formats-cog-'));
+});
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 /** A 1100 × 700 field (three tile columns, two tile rows), with NoData cells and +∞. */
 function field(crs = 'EPSG:4326', west = -128.5, north = -37.5, d = 0.01): Grid<Float32Array> {
-  const width = 1100, height = 700;
+  const width = 1100,
+    height = 700;
   const rnd = prng(19);
   const values = new Float32Array(width * height);
   for (let r = 0; r < height; r++) for (let c = 0; c < width; c++) values[r * width + c] = 60 + 25 * Math.sin(r / 90) * Math.cos(c / 70) + rnd();
@@ -43,18 +46,22 @@ function tiffStructure(buf: Uint8Array): { ifdAt: number[]; offsets: number[][];
   const dv = new DataView(buf.buffer, buf.byteOffset, buf.byteLength);
   expect(dv.getUint16(0, true)).toBe(0x4949);
   expect(dv.getUint16(2, true)).toBe(42);
-  const ifdAt: number[] = [], offsets: number[][] = [], counts: number[][] = [];
+  const ifdAt: number[] = [],
+    offsets: number[][] = [],
+    counts: number[][] = [];
   for (let at = dv.getUint32(4, true); at !== 0;) {
     ifdAt.push(at);
     const n = dv.getUint16(at, true);
     const arr = (e: number) => {
-      const count = dv.getUint32(e + 4, true), type = dv.getUint16(e + 2, true);
+      const count = dv.getUint32(e + 4, true),
+        type = dv.getUint16(e + 2, true);
       const size = type === 3 ? 2 : 4;
       const base = count * size > 4 ? dv.getUint32(e + 8, true) : e + 8;
       return Array.from({ length: count }, (_, i) => (size === 2 ? dv.getUint16(base + 2 * i, true) : dv.getUint32(base + 4 * i, true)));
     };
     for (let k = 0; k < n; k++) {
-      const e = at + 2 + 12 * k, tag = dv.getUint16(e, true);
+      const e = at + 2 + 12 * k,
+        tag = dv.getUint16(e, true);
       if (tag === 324) offsets.push(arr(e));
       if (tag === 325) counts.push(arr(e));
     }
@@ -68,7 +75,9 @@ describe('Cloud-Optimized GeoTIFF writer', () => {
     const buf = writeGeoTiff(field());
     // GDAL's structural metadata block starts right after the 8-byte header (GDAL COG driver documentation).
     const ghost = new TextDecoder().decode(buf.subarray(8, 8 + 43 + 140));
-    expect(ghost).toBe('GDAL_STRUCTURAL_METADATA_SIZE=000140 bytes\nLAYOUT=IFDS_BEFORE_DATA\nBLOCK_ORDER=ROW_MAJOR\nBLOCK_LEADER=SIZE_AS_UINT4\nBLOCK_TRAILER=LAST_4_BYTES_REPEATED\nKNOWN_INCOMPATIBLE_EDITION=NO\n ');
+    expect(ghost).toBe(
+      'GDAL_STRUCTURAL_METADATA_SIZE=000140 bytes\nLAYOUT=IFDS_BEFORE_DATA\nBLOCK_ORDER=ROW_MAJOR\nBLOCK_LEADER=SIZE_AS_UINT4\nBLOCK_TRAILER=LAST_4_BYTES_REPEATED\nKNOWN_INCOMPATIBLE_EDITION=NO\n ',
+    );
     const s = tiffStructure(buf);
     // 1100 × 700, then halvings while a side exceeds 512: 550 × 350 and 275 × 175 (as gdal_translate -of COG).
     expect(s.ifdAt.length).toBe(3);
@@ -80,11 +89,13 @@ describe('Cloud-Optimized GeoTIFF writer', () => {
     expect(Math.max(...s.offsets[1])).toBeLessThan(Math.min(...s.offsets[0]));
     for (const o of s.offsets) for (let i = 1; i < o.length; i++) expect(o[i]).toBeGreaterThan(o[i - 1]);
     const dv = new DataView(buf.buffer, buf.byteOffset, buf.byteLength);
-    s.offsets.forEach((o, l) => o.forEach((off, t) => {
-      const n = s.counts[l][t];
-      expect(dv.getUint32(off - 4, true)).toBe(n);
-      expect(Array.from(buf.subarray(off + n, off + n + 4))).toEqual(Array.from(buf.subarray(off + n - 4, off + n)));
-    }));
+    s.offsets.forEach((o, l) =>
+      o.forEach((off, t) => {
+        const n = s.counts[l][t];
+        expect(dv.getUint32(off - 4, true)).toBe(n);
+        expect(Array.from(buf.subarray(off + n, off + n + 4))).toEqual(Array.from(buf.subarray(off + n - 4, off + n)));
+      }),
+    );
   });
 
   it.skipIf(!hasGdal)('gdalinfo: LAYOUT=COG, DEFLATE, predictor 3, 512 tiles, overviews, NoData, CRS, caution, no warnings', () => {
@@ -101,7 +112,10 @@ describe('Cloud-Optimized GeoTIFF writer', () => {
     expect(b.block).toEqual([512, 512]);
     expect(b.type).toBe('Float32');
     expect(b.noDataValue).toBe(NODATA);
-    expect(b.overviews.map((o: { size: number[] }) => o.size)).toEqual([[550, 350], [275, 175]]);
+    expect(b.overviews.map((o: { size: number[] }) => o.size)).toEqual([
+      [550, 350],
+      [275, 175],
+    ]);
     expect(b.description).toBe('heat flow (mW/m²)');
     expect(b.unit).toBe('mW/m²');
     expect(info.metadata[''].CAUTION).toBe(CAUTION);
@@ -117,12 +131,26 @@ describe('Cloud-Optimized GeoTIFF writer', () => {
     const px = gdalPixels(f);
     for (let i = 0; i < g.values.length; i++) {
       const v = g.values[i];
-      if (Number.isFinite(v)) { if (px[i] !== v) throw new Error(`cell ${i}: ${px[i]} ≠ ${v}`); } else expect(px[i]).toBe(NODATA);
+      if (Number.isFinite(v)) {
+        if (px[i] !== v) throw new Error(`cell ${i}: ${px[i]} ≠ ${v}`);
+      } else expect(px[i]).toBe(NODATA);
     }
     const ov = gdalPixels(f, 0);
     expect(ov.length).toBe(550 * 350);
-    for (const [r, c] of [[0, 0], [10, 17], [349, 549], [200, 300]]) {
-      const cells = [[2 * r, 2 * c], [2 * r, 2 * c + 1], [2 * r + 1, 2 * c], [2 * r + 1, 2 * c + 1]].map(([y, x]) => g.values[y * 1100 + x]).filter(Number.isFinite);
+    for (const [r, c] of [
+      [0, 0],
+      [10, 17],
+      [349, 549],
+      [200, 300],
+    ]) {
+      const cells = [
+        [2 * r, 2 * c],
+        [2 * r, 2 * c + 1],
+        [2 * r + 1, 2 * c],
+        [2 * r + 1, 2 * c + 1],
+      ]
+        .map(([y, x]) => g.values[y * 1100 + x])
+        .filter(Number.isFinite);
       expect(ov[r * 550 + c]).toBeCloseTo(cells.reduce((a, b) => a + b, 0) / cells.length, 4);
     }
   });
@@ -168,7 +196,9 @@ describe('Cloud-Optimized GeoTIFF writer', () => {
     expect(r.metadata).toEqual({ a: 1 });
     for (let i = 0; i < g.values.length; i++) {
       const v = g.values[i];
-      if (Number.isFinite(v)) { if (r.grid.values[i] !== v) throw new Error(`cell ${i}`); } else expect(r.grid.values[i]).toBeNaN();
+      if (Number.isFinite(v)) {
+        if (r.grid.values[i] !== v) throw new Error(`cell ${i}`);
+      } else expect(r.grid.values[i]).toBeNaN();
     }
     const f = join(dir, 'win.tif');
     writeFileSync(f, buf);
@@ -184,7 +214,10 @@ describe('GeoTIFF reader: variants GDAL writes', () => {
     ['striped, uncompressed', ['-co', 'TILED=NO']],
     ['striped, LZW, horizontal predictor, Int16', ['-ot', 'Int16', '-co', 'COMPRESS=LZW', '-co', 'PREDICTOR=2']],
     ['striped, DEFLATE, floating-point predictor', ['-co', 'COMPRESS=DEFLATE', '-co', 'PREDICTOR=3']],
-    ['tiled 256, LZW, floating-point predictor', ['-co', 'TILED=YES', '-co', 'BLOCKXSIZE=256', '-co', 'BLOCKYSIZE=256', '-co', 'COMPRESS=LZW', '-co', 'PREDICTOR=3']],
+    [
+      'tiled 256, LZW, floating-point predictor',
+      ['-co', 'TILED=YES', '-co', 'BLOCKXSIZE=256', '-co', 'BLOCKYSIZE=256', '-co', 'COMPRESS=LZW', '-co', 'PREDICTOR=3'],
+    ],
     ['tiled 128, PackBits, Float64', ['-ot', 'Float64', '-co', 'TILED=YES', '-co', 'BLOCKXSIZE=128', '-co', 'BLOCKYSIZE=128', '-co', 'COMPRESS=PACKBITS']],
   ];
   for (const [name, args] of variants) {

@@ -14,8 +14,12 @@ import { GridTiles, WindowTiles, TILE_SIZE } from '../../server/terrain.ts';
 
 const dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'window-tiles-'));
 const path = join(dir, 'layer.tif');
-const W = 2300, H = 1700;
-const west = 150.2, north = -30.1, dx = 0.004, dy = 0.004;
+const W = 2300,
+  H = 1700;
+const west = 150.2,
+  north = -30.1,
+  dx = 0.004,
+  dy = 0.004;
 
 beforeAll(async () => {
   const values = new Float32Array(W * H);
@@ -53,10 +57,15 @@ function tileAt(lon: number, lat: number, z: number): [number, number] {
 }
 
 describe('map tiles from COG windows', () => {
-  it('the file has the full grid and its overviews, largest first, with GDAL\'s georeferencing', async () => {
+  it("the file has the full grid and its overviews, largest first, with GDAL's georeferencing", async () => {
     const f = await GeoTiffFile.open(path);
     try {
-      expect(f.levels.map((l) => [l.width, l.height])).toEqual([[2300, 1700], [1150, 850], [575, 425], [288, 213]]);
+      expect(f.levels.map((l) => [l.width, l.height])).toEqual([
+        [2300, 1700],
+        [1150, 850],
+        [575, 425],
+        [288, 213],
+      ]);
       for (let i = 0; i < f.levels.length; i++) {
         const g = gdalLevel(i);
         expect([f.levels[i].width, f.levels[i].height]).toEqual([g.width, g.height]);
@@ -82,7 +91,11 @@ describe('map tiles from COG windows', () => {
         const level = tiles.levelFor(z);
         const ref = new GridTiles(gdalLevel(level), enc, { edge: 'nodata', minZoom: 4, maxZoom: 13 });
         // Tiles over the middle of the grid, over the no-data block, and over its south-east corner (partly outside).
-        const spots: [number, number][] = [[west + 0.5 * W * dx, north - 0.5 * H * dy], [west + 1000 * dx, north - 460 * dy], [west + W * dx - 0.001, north - H * dy + 0.001]];
+        const spots: [number, number][] = [
+          [west + 0.5 * W * dx, north - 0.5 * H * dy],
+          [west + 1000 * dx, north - 460 * dy],
+          [west + W * dx - 0.001, north - H * dy + 0.001],
+        ];
         for (const [lon, lat] of spots) {
           const [x, y] = tileAt(lon, lat, z);
           const before = f.cellsRead;

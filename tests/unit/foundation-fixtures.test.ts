@@ -45,7 +45,8 @@ describe('demo region fixtures', () => {
 
   it('sample the stated heat-flow field: rift 90–130, cool block 40–55 mW/m², granite high', () => {
     // Evaluate the truth on a km grid: the rift core, the old block (far from rift and granite), the granite centre.
-    const rift: number[] = [], block: number[] = [];
+    const rift: number[] = [],
+      block: number[] = [];
     for (let x = -100; x <= 100; x += 2) {
       for (let y = -100; y <= 100; y += 2) {
         const q = trueHeatFlowMWm2(x, y);
@@ -87,10 +88,11 @@ describe('demo region fixtures', () => {
   it('record the built-in fault offsets and the separations they cause along each trace', () => {
     const f1 = truth.isogradSeparations.filter((s: { fault: string }) => s.fault === 'F1');
     // F1 moves every isograd 6 km inwards on its hanging wall; along the trace that is 6.0–6.5 km (chord geometry).
-    for (const s of f1.filter((s: { separationKm?: number[] }) => s.separationKm)) for (const d of s.separationKm) {
-      expect(d).toBeGreaterThan(6.0);
-      expect(d).toBeLessThan(6.5);
-    }
+    for (const s of f1.filter((s: { separationKm?: number[] }) => s.separationKm))
+      for (const d of s.separationKm) {
+        expect(d).toBeGreaterThan(6.0);
+        expect(d).toBeLessThan(6.5);
+      }
     expect(truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.isogradShiftKm).toBeCloseTo(6, 9);
     expect(truth.faults.find((f: { id: string }) => f.id === 'F2').builtInOffset.repeatedZones).toEqual(['chlorite', 'biotite', 'garnet']);
     // Pure dip slip on F1: d = throw / sin(dip) = 1.2 km / sin 60° (right-triangle geometry).

@@ -35,10 +35,22 @@ describe('data set validation', () => {
   });
 
   it('rejects duplicate ids, empty collections, wrong geometry types and zero-length faults', () => {
-    expect(problemsOf(() => parseFeatureCollection('sites', fc(site([0, 0], { id: 'a', heatFlowMWm2: 1 }), site([1, 1], { id: 'a', heatFlowMWm2: 2 }))))[0].problem).toContain('duplicate id');
+    expect(
+      problemsOf(() => parseFeatureCollection('sites', fc(site([0, 0], { id: 'a', heatFlowMWm2: 1 }), site([1, 1], { id: 'a', heatFlowMWm2: 2 }))))[0].problem,
+    ).toContain('duplicate id');
     expect(() => parseFeatureCollection('sites', fc())).toThrow(/empty/);
     expect(problemsOf(() => parseFeatureCollection('faults', fc(site([0, 0], { id: 'f' }))))[0].field).toBe('geometry.type');
-    const zero = { type: 'Feature', geometry: { type: 'LineString', coordinates: [[1, 1], [1, 1]] }, properties: { id: 'z' } };
+    const zero = {
+      type: 'Feature',
+      geometry: {
+        type: 'LineString',
+        coordinates: [
+          [1, 1],
+          [1, 1],
+        ],
+      },
+      properties: { id: 'z' },
+    };
     expect(problemsOf(() => parseFeatureCollection('faults', fc(zero)))[0].problem).toContain('zero length');
   });
 
@@ -63,13 +75,19 @@ describe('CSV', () => {
   it('parses quotes, doubled quotes, CRLF and a leading comment line (RFC 4180)', () => {
     const r = parseCsv('# caution\r\na,b\r\n"x, y","say ""hi"""\r\n1,2\r\n');
     expect(r.header).toEqual(['a', 'b']);
-    expect(r.rows).toEqual([['x, y', 'say "hi"'], ['1', '2']]);
+    expect(r.rows).toEqual([
+      ['x, y', 'say "hi"'],
+      ['1', '2'],
+    ]);
   });
 
   it('turns lon/lat rows into validated sites, and names bad cells', () => {
     const r = parsePointCsv('sites', 'lon,lat,id,heatFlowMWm2\n-128,-38,a,61.5\n');
     expect(r.collection.features[0].geometry).toEqual({ type: 'Point', coordinates: [-128, -38] });
-    expect(problemsOf(() => parsePointCsv('sites', 'lon,lat,id,heatFlowMWm2\n-128,-38,a,abc\n'))[0]).toMatchObject({ feature: 'line 2', field: 'heatFlowMWm2' });
+    expect(problemsOf(() => parsePointCsv('sites', 'lon,lat,id,heatFlowMWm2\n-128,-38,a,abc\n'))[0]).toMatchObject({
+      feature: 'line 2',
+      field: 'heatFlowMWm2',
+    });
     expect(() => parsePointCsv('sites', 'x,y,heatFlowMWm2\n1,2,3\n')).toThrow(/longitude,latitude/);
   });
 

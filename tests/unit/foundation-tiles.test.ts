@@ -38,13 +38,18 @@ describe('terrain RGB encoding', () => {
 
 describe('PNG encoder', () => {
   it('writes files GDAL reads back pixel for pixel (GDAL as the reference decoder)', () => {
-    const w = 7, h = 5;
+    const w = 7,
+      h = 5;
     const rgb = new Uint8Array(w * h * 3);
     for (let i = 0; i < rgb.length; i++) rgb[i] = (i * 37) % 256;
     const dir = tmp();
     const file = join(dir, 't.png');
     writeFileSync(file, encodePng(rgb, w, h, 3, { Comment: 'test' }));
-    for (const [x, y] of [[0, 0], [6, 4], [3, 2]]) {
+    for (const [x, y] of [
+      [0, 0],
+      [6, 4],
+      [3, 2],
+    ]) {
       const r = spawnSync('gdallocationinfo', ['-valonly', file, String(x), String(y)], { encoding: 'utf8' });
       if (r.error) throw new Error('gdallocationinfo not found: install gdal-bin');
       const bands = r.stdout.trim().split(/\s+/).map(Number);
@@ -55,7 +60,17 @@ describe('PNG encoder', () => {
 });
 
 describe('grid converters', () => {
-  const g: Grid = { width: 4, height: 3, values: new Float32Array([0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11]), west: 10, north: 50, dx: 0.5, dy: 0.25, crs: 'EPSG:4326', units: 'x' };
+  const g: Grid = {
+    width: 4,
+    height: 3,
+    values: new Float32Array([0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11]),
+    west: 10,
+    north: 50,
+    dx: 0.5,
+    dy: 0.25,
+    crs: 'EPSG:4326',
+    units: 'x',
+  };
   it('map index ↔ world coordinates by cell centres, rows southwards', () => {
     expect(xFromCol(g, 0)).toBe(10.25);
     expect(yFromRow(g, 0)).toBe(49.875);
@@ -78,17 +93,21 @@ describe('terrain tiles', () => {
     const tiles = new TerrainTiles(dem);
     // Zoom 12: pixels (~30 m) much smaller than DEM cells (~500 m), so the pixel value is the DEM's bilinear value.
     const z = 12;
-    const lng = -127.9, lat = -37.95;
-    const tx = tileXFromLng(lng, z), ty = tileYFromLat(lat, z);
+    const lng = -127.9,
+      lat = -37.95;
+    const tx = tileXFromLng(lng, z),
+      ty = tileYFromLat(lat, z);
     const png = tiles.tile(z, Math.floor(tx), Math.floor(ty));
     expect(png).not.toBeNull();
     const dir = tmp();
     const file = join(dir, 'tile.png');
     writeFileSync(file, png!);
-    const px = Math.floor((tx % 1) * 256), py = Math.floor((ty % 1) * 256);
+    const px = Math.floor((tx % 1) * 256),
+      py = Math.floor((ty % 1) * 256);
     const r = spawnSync('gdallocationinfo', ['-valonly', file, String(px), String(py)], { encoding: 'utf8' });
     const [R, G, B] = r.stdout.trim().split(/\s+/).map(Number);
-    const pxLng = lngFromTileX(Math.floor(tx) + (px + 0.5) / 256, z), pxLat = latFromTileY(Math.floor(ty) + (py + 0.5) / 256, z);
+    const pxLng = lngFromTileX(Math.floor(tx) + (px + 0.5) / 256, z),
+      pxLat = latFromTileY(Math.floor(ty) + (py + 0.5) / 256, z);
     expect(decodeTerrainRgb(R, G, B)).toBeCloseTo(sampleBilinear(dem, pxLng, pxLat), 0);
     expect(tiles.tile(3, 0, 0)).toBeNull(); // below the zoom range
     expect(tiles.tile(12, 0, 0)).toBeNull(); // far outside the DEM
@@ -101,7 +120,11 @@ import { GridTiles } from '../../server/terrain.ts';
 describe('scalar-layer tile encodings', () => {
   it('keep the precision each quantity needs and reserve code 0 for no data (DESIGN.md §7 precision hints)', () => {
     const px = new Uint8Array(3);
-    for (const [units, step, values] of [['km', 0.001, [0.5, 6.767, 59.999]], ['mW/m²', 0.01, [35.12, 130.07]], ['°C', 0.01, [12, 1200.5]]] as const) {
+    for (const [units, step, values] of [
+      ['km', 0.001, [0.5, 6.767, 59.999]],
+      ['mW/m²', 0.01, [35.12, 130.07]],
+      ['°C', 0.01, [12, 1200.5]],
+    ] as const) {
       const enc = encodingForUnits(units, values[0]);
       expect(enc.step).toBe(step);
       for (const v of values) {
@@ -133,7 +156,8 @@ describe('scalar-layer tile encodings', () => {
     const tiles = new GridTiles(g, encodingForUnits('km', 10), { edge: 'nodata', minZoom: 4, maxZoom: 13 });
     const dir = tmp();
     const z = 10;
-    const tx = Math.floor(tileXFromLng(-128.0, z)), ty = Math.floor(tileYFromLat(-38.0, z));
+    const tx = Math.floor(tileXFromLng(-128.0, z)),
+      ty = Math.floor(tileYFromLat(-38.0, z));
     const png = tiles.tile(z, tx, ty)!;
     const file = join(dir, 'g.png');
     writeFileSync(file, png);

@@ -18,9 +18,15 @@ const G = geodesic.Geodesic.WGS84;
 function referenceCellAreaM2(def: string, x0: number, y0: number, x1: number, y1: number, stepUnits: number): number {
   const c = proj4(def, WGS84);
   const p = G.Polygon(false);
-  const corners = [[x0, y0], [x1, y0], [x1, y1], [x0, y1]];
+  const corners = [
+    [x0, y0],
+    [x1, y0],
+    [x1, y1],
+    [x0, y1],
+  ];
   for (let e = 0; e < 4; e++) {
-    const [ax, ay] = corners[e], [bx, by] = corners[(e + 1) % 4];
+    const [ax, ay] = corners[e],
+      [bx, by] = corners[(e + 1) % 4];
     const n = Math.max(1, Math.ceil(Math.hypot(bx - ax, by - ay) / stepUnits));
     for (let i = 0; i < n; i++) {
       const [lon, lat] = c.forward([ax + ((bx - ax) * i) / n, ay + ((by - ay) * i) / n]);
@@ -31,7 +37,10 @@ function referenceCellAreaM2(def: string, x0: number, y0: number, x1: number, y1
 }
 
 describe('ground cell areas on projected grids', () => {
-  for (const [name, def] of [['Web Mercator', MERC], ['UTM 9S', UTM9S]] as const) {
+  for (const [name, def] of [
+    ['Web Mercator', MERC],
+    ['UTM 9S', UTM9S],
+  ] as const) {
     it(`matches geographiclib areas of the same cells (edges densified to ≤ 1 km) to 1e-6: ${name}`, () => {
       const c = proj4(WGS84, def);
       const [x, y] = c.forward([-128.3, -37.8]);
@@ -40,19 +49,23 @@ describe('ground cell areas on projected grids', () => {
       const conv = proj4(def, WGS84);
       const inv = (a: number, b: number) => conv.forward<[number, number]>([a, b]);
       const areas = projectedCellAreasM2(grid, inv);
-      for (let r = 0; r < 2; r++) for (let k = 0; k < 3; k++) {
-        const x0 = x + k * side, y1 = y - r * side;
-        const ref = referenceCellAreaM2(def, x0, y1 - side, x0 + side, y1, 100);
-        expect(Math.abs(areas[r * 3 + k] - ref) / ref).toBeLessThan(1e-6);
-      }
+      for (let r = 0; r < 2; r++)
+        for (let k = 0; k < 3; k++) {
+          const x0 = x + k * side,
+            y1 = y - r * side;
+          const ref = referenceCellAreaM2(def, x0, y1 - side, x0 + side, y1, 100);
+          expect(Math.abs(areas[r * 3 + k] - ref) / ref).toBeLessThan(1e-6);
+        }
     });
   }
 
   it('makes --cell-km a ground size at the grid centre (Web Mercator at 38° S is 1/cos φ too large in the plane)', () => {
     const g = buildOutputGrid([], [], { bbox: [-128.8, -38.2, -127.6, -37.4], cellKm: 2, crs: 'EPSG:3857', crsDef: MERC });
     const inv = proj4(MERC, WGS84);
-    const cx = g.west + (g.width / 2) * g.dx, cy = g.north - (g.height / 2) * g.dy;
-    const [l0, p0] = inv.forward([cx - g.dx / 2, cy]), [l1, p1] = inv.forward([cx + g.dx / 2, cy]);
+    const cx = g.west + (g.width / 2) * g.dx,
+      cy = g.north - (g.height / 2) * g.dy;
+    const [l0, p0] = inv.forward([cx - g.dx / 2, cy]),
+      [l1, p1] = inv.forward([cx + g.dx / 2, cy]);
     const s = G.Inverse(p0, l0, p1, l1).s12 as number; // geographiclib geodesic length, m
     expect(Math.abs(s / 1000 - 2)).toBeLessThan(2e-3);
     expect(g.groundCellKmRange[0]).toBeLessThan(2);
@@ -62,7 +75,18 @@ describe('ground cell areas on projected grids', () => {
 
 describe('heat in place on the same region in three CRSs (1 km cells)', () => {
   const model = parseThermalModel(JSON.parse(readFileSync(new URL('../../fixtures/demo/model.json', import.meta.url), 'utf8')));
-  const POLY = { type: 'Polygon' as const, coordinates: [[[-128.8, -37.4], [-128.0, -37.4], [-127.6, -38.2], [-128.8, -38.2], [-128.8, -37.4]]] };
+  const POLY = {
+    type: 'Polygon' as const,
+    coordinates: [
+      [
+        [-128.8, -37.4],
+        [-128.0, -37.4],
+        [-127.6, -38.2],
+        [-128.8, -38.2],
+        [-128.8, -37.4],
+      ],
+    ],
+  };
   const q = (lon: number, lat: number) => 70 + 8 * Math.sin((lon + 128) * 3) + 5 * Math.cos((lat + 38) * 4);
   const bbox: [number, number, number, number] = [-128.9, -38.3, -127.5, -37.3];
   const run = (crs: string, def: string) => {
@@ -72,16 +96,25 @@ describe('heat in place on the same region in three CRSs (1 km cells)', () => {
     const inv = (x: number, y: number) => conv.forward<[number, number]>([x, y]);
     const centres = lonLat ? null : gridCentresLonLat(spec, inv);
     const values = new Float32Array(spec.width * spec.height);
-    for (let r = 0; r < spec.height; r++) for (let c = 0; c < spec.width; c++) {
-      const i = r * spec.width + c;
-      values[i] = lonLat ? q(spec.west + (c + 0.5) * spec.dx, spec.north - (r + 0.5) * spec.dy) : q(centres!.lon[i], centres!.lat[i]);
-    }
+    for (let r = 0; r < spec.height; r++)
+      for (let c = 0; c < spec.width; c++) {
+        const i = r * spec.width + c;
+        values[i] = lonLat ? q(spec.west + (c + 0.5) * spec.dx, spec.north - (r + 0.5) * spec.dy) : q(centres!.lon[i], centres!.lat[i]);
+      }
     const heatFlow: Grid<Float32Array> = { ...spec, values, units: 'mW/m²' };
-    const res = assessHeatInPlace({ heatFlow, model, polygon: POLY, options: parseHeatInPlaceOptions({}), ...(lonLat ? {} : { centresLonLat: centres!, toLonLat: inv }) });
+    const res = assessHeatInPlace({
+      heatFlow,
+      model,
+      polygon: POLY,
+      options: parseHeatInPlaceOptions({}),
+      ...(lonLat ? {} : { centresLonLat: centres!, toLonLat: inv }),
+    });
     return { ej: res.report.totals.polygon!.heatInPlaceEJ.nominal!, areaKm2: res.report.totals.polygon!.areaKm2, warnings: res.report.warnings };
   };
   it('agrees to 0.5 % (and no scale-distortion warning where the areas are ground areas)', () => {
-    const a = run('EPSG:4326', WGS84), b = run('EPSG:32709', UTM9S), c = run('EPSG:3857', MERC);
+    const a = run('EPSG:4326', WGS84),
+      b = run('EPSG:32709', UTM9S),
+      c = run('EPSG:3857', MERC);
     // The polygon's own geodesic area (geographiclib) is the common reference for the areas.
     const p = G.Polygon(false);
     for (const [lon, lat] of POLY.coordinates[0].slice(0, -1)) p.AddPoint(lat, lon);

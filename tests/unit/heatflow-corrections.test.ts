@@ -45,7 +45,8 @@ describe('erfc', () => {
  */
 function finiteDifferenceDisturbance(steps: ClimateStep[], kappa: number, dzM: number, depthM: number): Float64Array {
   const n = Math.round(depthM / dzM) + 1;
-  let t = new Float64Array(n), next = new Float64Array(n);
+  let t = new Float64Array(n),
+    next = new Float64Array(n);
   const oldest = Math.max(...steps.map((s) => s.yearsAgo)) * SECONDS_PER_YEAR;
   const dt = (0.25 * dzM * dzM) / kappa;
   const nSteps = Math.ceil(oldest / dt);
@@ -73,7 +74,11 @@ describe('paleoclimatic correction', () => {
     const dz = 10;
     const fd = finiteDifferenceDisturbance(steps, kappa, dz, 8000);
     for (const z of [0, 100, 500, 1000, 2000]) expect(paleoDisturbanceC(z, steps, kappa)).toBeCloseTo(fd[z / dz], 1);
-    for (const [top, bottom] of [[100, 1000], [200, 2000], [0, 3000]]) {
+    for (const [top, bottom] of [
+      [100, 1000],
+      [200, 2000],
+      [0, 3000],
+    ]) {
       const fdMeanGradient = ((fd[bottom / dz] - fd[top / dz]) / (bottom - top)) * 1000;
       const c = paleoclimateCorrection(top, bottom, steps, kappa);
       // FTCS with Δz = 10 m: the start-up of the step at the surface is smeared over a few Δt; 0.02 °C/km is
@@ -97,7 +102,8 @@ describe('paleoclimatic correction', () => {
 
 /** A lon/lat DEM around (0°, 0°) with elevation h(xM) along the local east axis (metres), constant north–south. */
 function demOf(hOfX: (xM: number) => number, halfWidthDeg: number, cellDeg: number): Grid<Float64Array> {
-  const width = Math.round((2 * halfWidthDeg) / cellDeg), height = width;
+  const width = Math.round((2 * halfWidthDeg) / cellDeg),
+    height = width;
   const values = new Float64Array(width * height);
   const mPerDegX = (6378137 * Math.PI) / 180; // prime-vertical radius at the equator = a (WGS84)
   for (let r = 0; r < height; r++) for (let c = 0; c < width; c++) values[r * width + c] = hOfX((-halfWidthDeg + (c + 0.5) * cellDeg) * mPerDegX);
@@ -119,14 +125,22 @@ describe('topographic correction', () => {
     // Reference 2, the same step cut to the disc of radius R the method sums: the 3-D Poisson integral
     // (1/2π)∫∫ θ·z/(ρ² + z²)^{3/2} ρ dρ dα, integrated over ρ in closed form (ρ0 = x/(−cos α) to R) and over α by
     // Simpson's rule here, independently of the method's Cartesian cells and solid angles.
-    const H = 800, xSite = 2000, G = 30, beta = 6.5, R = 130_000;
+    const H = 800,
+      xSite = 2000,
+      G = 30,
+      beta = 6.5,
+      R = 130_000;
     const mPerDegX = (6378137 * Math.PI) / 180;
     const phiDisc = (z: number) => {
       if (z === 0) return 0;
-      const n = 20000, a0 = Math.PI / 2, a1 = (3 * Math.PI) / 2, h = (a1 - a0) / n;
+      const n = 20000,
+        a0 = Math.PI / 2,
+        a1 = (3 * Math.PI) / 2,
+        h = (a1 - a0) / n;
       let s = 0;
       for (let i = 0; i <= n; i++) {
-        const a = a0 + i * h, c = Math.cos(a);
+        const a = a0 + i * h,
+          c = Math.cos(a);
         const rho0 = c < 0 ? xSite / -c : Infinity;
         const v = rho0 < R ? z * (1 / Math.hypot(rho0, z) - 1 / Math.hypot(R, z)) : 0;
         s += (i === 0 || i === n ? 1 : i % 2 === 1 ? 4 : 2) * v;
@@ -134,7 +148,10 @@ describe('topographic correction', () => {
       return (H * ((s * h) / 3)) / (2 * Math.PI);
     };
     const dem = demOf((x) => (x < 0 ? H : 0), 1.2, 0.004);
-    for (const [z1, z2] of [[0, 1000], [200, 2000]]) {
+    for (const [z1, z2] of [
+      [0, 1000],
+      [200, 2000],
+    ]) {
       const fInfinite = (H * (Math.atan2(z2, xSite) - Math.atan2(z1, xSite))) / (Math.PI * (z2 - z1));
       const fDisc = (phiDisc(z2) - phiDisc(z1)) / (z2 - z1);
       const f = topographicFactor(dem, xSite / mPerDegX, 0, z1, z2, R / 1000);
@@ -155,7 +172,10 @@ describe('topographic correction', () => {
     // F = H·(e^(−kz2) − e^(−kz1))/(z2 − z1) (negative: crests read low gradients). Relative to the crest the
     // boundary value also holds the constant −H, whose response over a disc of radius R is
     // −H·(1 − z/√(R² + z²)) (Poisson integral of a constant over a disc), which adds its own term to F.
-    const H = 300, lambda = 10000, k = (2 * Math.PI) / lambda, R = 130_000;
+    const H = 300,
+      lambda = 10000,
+      k = (2 * Math.PI) / lambda,
+      R = 130_000;
     const dem = demOf((x) => H * Math.cos(k * x), 1.2, 0.004);
     const [z1, z2] = [100, 1500];
     const disc = (z: number) => -H * (1 - z / Math.hypot(R, z));
@@ -195,14 +215,23 @@ describe('empirical BHT corrections', () => {
   it('a well of Harrison-biased BHTs recovers its true gradient', () => {
     // Formation 10 + 0.03·z (30 °C/km); each BHT reads low by exactly the Harrison ΔT at its depth.
     const depths = [1200, 1800, 2400, 3000, 3600];
-    const [well] = readWells([{ geometry: { type: 'Point', coordinates: [-128, -38] }, properties: { id: 'H', measurements: depths.map((z) => ({ depthM: z, temperatureC: 10 + 0.03 * z - harrisonCorrectionC(z), kind: 'bht' })) } }]);
+    const [well] = readWells([
+      {
+        geometry: { type: 'Point', coordinates: [-128, -38] },
+        properties: { id: 'H', measurements: depths.map((z) => ({ depthM: z, temperatureC: 10 + 0.03 * z - harrisonCorrectionC(z), kind: 'bht' })) },
+      },
+    ]);
     const r = analyzeWell(well, { bht: { method: 'harrison1983' }, surfaceTemperatureC: 10, conductivityWmK: 2.5 });
     expect(r.gradient!.gradientCPerKm).toBeCloseTo(30, 6);
   });
 });
 
 describe('site corrections and report', () => {
-  const site = (props: Record<string, unknown>) => ({ type: 'Feature' as const, geometry: { type: 'Point' as const, coordinates: [0, 0] }, properties: { id: 'S1', heatFlowMWm2: 60, ...props } as Record<string, unknown> });
+  const site = (props: Record<string, unknown>) => ({
+    type: 'Feature' as const,
+    geometry: { type: 'Point' as const, coordinates: [0, 0] },
+    properties: { id: 'S1', heatFlowMWm2: 60, ...props } as Record<string, unknown>,
+  });
   const paleo = { steps: [{ yearsAgo: 12000, deltaC: 8 }], diffusivityM2s: 1e-6 };
   it('adds k × the mean paleoclimatic gradient disturbance and keeps the raw value', () => {
     const { features, reports } = correctSites([site({ intervalTopM: 100, intervalBottomM: 800, conductivityWmK: 2.5 })], { paleoclimate: paleo });
@@ -210,7 +239,8 @@ describe('site corrections and report', () => {
     const kt = 1e-6 * 12000 * SECONDS_PER_YEAR;
     const g = (z: number) => (-8 * Math.exp((-z * z) / (4 * kt))) / Math.sqrt(Math.PI * kt);
     let s = 0;
-    const n = 1000, h = 700 / n;
+    const n = 1000,
+      h = 700 / n;
     for (let i = 0; i <= n; i++) s += (i === 0 || i === n ? 1 : i % 2 === 1 ? 4 : 2) * g(100 + i * h);
     const meanGradientCPerKm = ((s * h) / 3 / 700) * 1000;
     const expected = 60 - 2.5 * meanGradientCPerKm;
@@ -232,10 +262,20 @@ describe('correct-sites and wells on the command line', () => {
   const run = (args: string[]) => spawnSync(process.execPath, [join(root, 'bin/subtherm.mjs'), ...args], { cwd: root, encoding: 'utf8' });
   it('corrects sites with the demo terrain and a climate history, and reports each correction', () => {
     const sites = join(dir, 'sites.geojson');
-    writeFileSync(sites, JSON.stringify({ type: 'FeatureCollection', features: [
-      { type: 'Feature', geometry: { type: 'Point', coordinates: [-128.3, -38.4] }, properties: { id: 'A', heatFlowMWm2: 70, gradientCPerKm: 28, intervalTopM: 50, intervalBottomM: 900 } },
-      { type: 'Feature', geometry: { type: 'Point', coordinates: [-128.1, -38.2] }, properties: { id: 'B', heatFlowMWm2: 65 } },
-    ] }));
+    writeFileSync(
+      sites,
+      JSON.stringify({
+        type: 'FeatureCollection',
+        features: [
+          {
+            type: 'Feature',
+            geometry: { type: 'Point', coordinates: [-128.3, -38.4] },
+            properties: { id: 'A', heatFlowMWm2: 70, gradientCPerKm: 28, intervalTopM: 50, intervalBottomM: 900 },
+          },
+          { type: 'Feature', geometry: { type: 'Point', coordinates: [-128.1, -38.2] }, properties: { id: 'B', heatFlowMWm2: 65 } },
+        ],
+      }),
+    );
     const out = join(dir, 'corrected.geojson');
     const r = run(['correct-sites', '--sites', sites, '--terrain', 'fixtures/demo/terrain.tif', '--paleoclimate', '12000:8,3000:-1', '--out', out, '--json']);
     expect(r.stderr).toBe('');
@@ -243,7 +283,10 @@ describe('correct-sites and wells on the command line', () => {
     const j = JSON.parse(r.stdout);
     const a = j.reports.find((x: { id: string }) => x.id === 'A');
     expect(a.interval.corrections.map((c: { kind: string }) => c.kind)).toEqual(['paleoclimate', 'topographic']);
-    expect(a.correctedHeatFlowMWm2).toBeCloseTo(a.rawHeatFlowMWm2 + a.interval.corrections[0].heatFlowChangeMWm2 + a.interval.corrections[1].heatFlowChangeMWm2, 9);
+    expect(a.correctedHeatFlowMWm2).toBeCloseTo(
+      a.rawHeatFlowMWm2 + a.interval.corrections[0].heatFlowChangeMWm2 + a.interval.corrections[1].heatFlowChangeMWm2,
+      9,
+    );
     expect(j.reports.find((x: { id: string }) => x.id === 'B').status).toBe('not-applicable');
     const written = JSON.parse(readFileSync(out, 'utf8'));
     expect(written.caution).toMatch(/Screening/);
@@ -256,7 +299,18 @@ describe('correct-sites and wells on the command line', () => {
   });
   it('wells records the corrections in each derived site', () => {
     const out = join(dir, 'well-sites.geojson');
-    const r = run(['wells', '--wells', 'fixtures/demo/wells.geojson', '--model', 'fixtures/demo/model.json', '--paleoclimate', '12000:8', '--out', out, '--json']);
+    const r = run([
+      'wells',
+      '--wells',
+      'fixtures/demo/wells.geojson',
+      '--model',
+      'fixtures/demo/model.json',
+      '--paleoclimate',
+      '12000:8',
+      '--out',
+      out,
+      '--json',
+    ]);
     expect(r.status).toBe(0);
     const j = JSON.parse(r.stdout);
     expect(j.corrections.length).toBeGreaterThan(0);

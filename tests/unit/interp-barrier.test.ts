@@ -21,38 +21,66 @@ describe('fault crossing test (orientation predicates, documented tie rules)', (
 describe('fault barriers in IDW, kriging and cross-validation', () => {
   // A step field: 40 west of a north–south fault at lon −128, 90 east of it; regular 15 × 15 sites, about 2 km apart.
   const k = kmPerDegree(-38);
-  const ids: string[] = [], lon: number[] = [], lat: number[] = [], values: number[] = [];
-  for (let i = 0; i < 15; i++) for (let j = 0; j < 15; j++) {
-    const lo = -128 + ((i - 7) * 2 + 1) / k.lon, la = -38 + ((j - 7) * 2) / k.lat;
-    ids.push(`s${i}-${j}`); lon.push(lo); lat.push(la); values.push(lo < -128 ? 40 : 90);
-  }
+  const ids: string[] = [],
+    lon: number[] = [],
+    lat: number[] = [],
+    values: number[] = [];
+  for (let i = 0; i < 15; i++)
+    for (let j = 0; j < 15; j++) {
+      const lo = -128 + ((i - 7) * 2 + 1) / k.lon,
+        la = -38 + ((j - 7) * 2) / k.lat;
+      ids.push(`s${i}-${j}`);
+      lon.push(lo);
+      lat.push(la);
+      values.push(lo < -128 ? 40 : 90);
+    }
   const pts: PointData = { ids, lon: Float64Array.from(lon), lat: Float64Array.from(lat), values: Float64Array.from(values) };
-  const fault = [[[-128, -38.5], [-128, -37.5]]];
+  const fault = [
+    [
+      [-128, -38.5],
+      [-128, -37.5],
+    ],
+  ];
   const bbox: [number, number, number, number] = [-128.12, -38.1, -127.88, -37.9];
   const westCol = (g: { width: number; west: number; dx: number }) => Math.floor((-128.001 - g.west) / g.dx);
   const eastCol = (g: { width: number; west: number; dx: number }) => Math.floor((-127.999 - g.west) / g.dx);
 
   for (const method of ['idw', 'kriging'] as const) {
     it(`${method}: the step is reproduced with the barrier and smeared without`, () => {
-      const common = { method, grid: { bbox, size: [120, 100] as [number, number] }, crossValidation: false, variogram: { model: 'exponential' as const, nugget: 0, partialSill: 600, rangeKm: 20 } };
+      const common = {
+        method,
+        grid: { bbox, size: [120, 100] as [number, number] },
+        crossValidation: false,
+        variogram: { model: 'exponential' as const, nugget: 0, partialSill: 600, rangeKm: 20 },
+      };
       const withF = interpolateGrid(pts, { ...common, faults: fault });
       const without = interpolateGrid(pts, common);
       const g = withF.grid;
       const row = 50;
-      const w = g.values[row * g.width + westCol(g)], e = g.values[row * g.width + eastCol(g)];
+      const w = g.values[row * g.width + westCol(g)],
+        e = g.values[row * g.width + eastCol(g)];
       expect(w).toBeCloseTo(40, 6);
       expect(e).toBeCloseTo(90, 6);
-      const w0 = without.grid.values[row * g.width + westCol(g)], e0 = without.grid.values[row * g.width + eastCol(g)];
+      const w0 = without.grid.values[row * g.width + westCol(g)],
+        e0 = without.grid.values[row * g.width + eastCol(g)];
       expect(w0).toBeGreaterThan(45); // smeared: both sides pulled towards the other
       expect(e0).toBeLessThan(85);
     });
   }
 
   it('cross-validation with the barrier predicts each site from its own side only', () => {
-    const r = predictAtPoints(pts, { method: 'kriging', variogram: { model: 'exponential', nugget: 0, partialSill: 600, rangeKm: 20 }, faults: fault }, { ids: ['t'], lon: [-128.001], lat: [-38] });
+    const r = predictAtPoints(
+      pts,
+      { method: 'kriging', variogram: { model: 'exponential', nugget: 0, partialSill: 600, rangeKm: 20 }, faults: fault },
+      { ids: ['t'], lon: [-128.001], lat: [-38] },
+    );
     expect(r.predictions[0].value).toBeCloseTo(40, 6);
     expect(r.crossValidation!.rmse).toBeLessThan(1e-6);
-    const noF = predictAtPoints(pts, { method: 'kriging', variogram: { model: 'exponential', nugget: 0, partialSill: 600, rangeKm: 20 } }, { ids: ['t'], lon: [-128.001], lat: [-38] });
+    const noF = predictAtPoints(
+      pts,
+      { method: 'kriging', variogram: { model: 'exponential', nugget: 0, partialSill: 600, rangeKm: 20 } },
+      { ids: ['t'], lon: [-128.001], lat: [-38] },
+    );
     expect(noF.crossValidation!.rmse).toBeGreaterThan(1);
   });
 });

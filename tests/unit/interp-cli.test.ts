@@ -6,14 +6,28 @@ import { main } from '../../server/cli/main.ts';
 import { readGeoTiff } from '../../server/io/geotiff.ts';
 
 let dir = '';
-const bytes = (p: string) => { const b = readFileSync(p); return b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength); };
-const file = (name: string, body: unknown) => { const p = join(dir, name); writeFileSync(p, typeof body === 'string' ? body : JSON.stringify(body)); return p; };
-const site = (id: string, lon: number, lat: number, props: Record<string, unknown>) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [lon, lat] }, properties: { id, ...props } });
+const bytes = (p: string) => {
+  const b = readFileSync(p);
+  return b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength);
+};
+const file = (name: string, body: unknown) => {
+  const p = join(dir, name);
+  writeFileSync(p, typeof body === 'string' ? body : JSON.stringify(body));
+  return p;
+};
+const site = (id: string, lon: number, lat: number, props: Record<string, unknown>) => ({
+  type: 'Feature',
+  geometry: { type: 'Point', coordinates: [lon, lat] },
+  properties: { id, ...props },
+});
 
 /** Runs the CLI in-process; returns exit code and the parsed JSON line. */
 async function run(args: string[]): Promise<{ code: number; json: Record<string, any> }> {
   let out = '';
-  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => { out += String(s); return true; });
+  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
+    out += String(s);
+    return true;
+  });
   const err = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
   try {
     const code = await main(['interpolate', ...args, '--json']);
@@ -27,9 +41,17 @@ async function run(args: string[]): Promise<{ code: number; json: Record<string,
 const sites: unknown[] = [];
 beforeAll(() => {
   dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'interp-cli-'));
-  for (let i = 0; i < 8; i++) for (let j = 0; j < 8; j++) {
-    sites.push(site(`s${i}-${j}`, -128 + i * 0.05, -38 + j * 0.05, { heatFlowMWm2: 50 + 3 * i + 2 * j + ((i * j) % 3), uncertaintyMWm2: 2, quality: (i + j) % 2 ? 'high' : 'low', depthToBaseKm: i + j }));
-  }
+  for (let i = 0; i < 8; i++)
+    for (let j = 0; j < 8; j++) {
+      sites.push(
+        site(`s${i}-${j}`, -128 + i * 0.05, -38 + j * 0.05, {
+          heatFlowMWm2: 50 + 3 * i + 2 * j + ((i * j) % 3),
+          uncertaintyMWm2: 2,
+          quality: (i + j) % 2 ? 'high' : 'low',
+          depthToBaseKm: i + j,
+        }),
+      );
+    }
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 afterEach(() => vi.restoreAllMocks());
@@ -77,7 +99,10 @@ describe('subtherm interpolate', () => {
   it('bad input exits 2 with a clear message, never a NaN grid', async () => {
     const two = file('two.geojson', { type: 'FeatureCollection', features: sites.slice(0, 2) });
     expect((await run(['--points', two, '--method', 'kriging'])).json.error.code).toBe('too_few_points');
-    const flat = file('flat.geojson', { type: 'FeatureCollection', features: (sites as { properties: object }[]).slice(0, 10).map((s) => ({ ...s, properties: { ...s.properties, heatFlowMWm2: 60 } })) });
+    const flat = file('flat.geojson', {
+      type: 'FeatureCollection',
+      features: (sites as { properties: object }[]).slice(0, 10).map((s) => ({ ...s, properties: { ...s.properties, heatFlowMWm2: 60 } })),
+    });
     const f = await run(['--points', flat, '--method', 'kriging']);
     expect(f.code).toBe(2);
     expect(f.json.error.code).toBe('degenerate_variogram');
@@ -95,7 +120,11 @@ describe('subtherm interpolate', () => {
   });
 
   it('projected CSV input (--points-crs) and projected output grid (--crs)', async () => {
-    const csv = file('utm.csv', 'id,x,y,heatFlowMWm2\n' + Array.from({ length: 30 }, (_, i) => `u${i},${500000 + (i % 6) * 3000},${5800000 + Math.floor(i / 6) * 3000},${50 + i}`).join('\n'));
+    const csv = file(
+      'utm.csv',
+      'id,x,y,heatFlowMWm2\n' +
+        Array.from({ length: 30 }, (_, i) => `u${i},${500000 + (i % 6) * 3000},${5800000 + Math.floor(i / 6) * 3000},${50 + i}`).join('\n'),
+    );
     const out = join(dir, 'utm.tif');
     const { code, json } = await run(['--points', csv, '--points-crs', 'EPSG:32709', '--crs', 'EPSG:32709', '--method', 'idw', '--cell-km', '1', '--out', out]);
     expect(code).toBe(0);
@@ -110,7 +139,27 @@ describe('subtherm interpolate', () => {
 
   it('--region and --max-distance-km mask cells as no data', async () => {
     const pts = file('p5.geojson', { type: 'FeatureCollection', features: sites });
-    const region = file('r.geojson', { type: 'FeatureCollection', features: [{ type: 'Feature', geometry: { type: 'Polygon', coordinates: [[[-128, -38], [-127.8, -38], [-127.8, -37.8], [-128, -37.8], [-128, -38]]] }, properties: { id: 'r' } }] });
+    const region = file('r.geojson', {
+      type: 'FeatureCollection',
+      features: [
+        {
+          type: 'Feature',
+          geometry: {
+            type: 'Polygon',
+            coordinates: [
+              [
+                [-128, -38],
+                [-127.8, -38],
+                [-127.8, -37.8],
+                [-128, -37.8],
+                [-128, -38],
+              ],
+            ],
+          },
+          properties: { id: 'r' },
+        },
+      ],
+    });
     const a = await run(['--points', pts, '--method', 'idw', '--size', '40x40', '--region', region]);
     expect(a.json.error).toBeUndefined();
     expect(a.code).toBe(0);

@@ -28,19 +28,26 @@ function denseOk(x: Float64Array, y: Float64Array, z: Float64Array, ids: number[
   const rhs = Matrix.zeros(n + 1, 1);
   for (let i = 0; i < n; i++) {
     for (let j = 0; j < n; j++) K.set(i, j, i === j ? m.nugget + m.partialSill : covariance(m, Math.hypot(x[ids[i]] - x[ids[j]], y[ids[i]] - y[ids[j]])));
-    K.set(i, n, 1); K.set(n, i, 1);
+    K.set(i, n, 1);
+    K.set(n, i, 1);
     rhs.set(i, 0, covariance(m, Math.hypot(x[ids[i]] - qx, y[ids[i]] - qy)));
   }
   rhs.set(n, 0, 1);
   const sol = solve(K, rhs);
-  let est = 0, lc = 0;
-  for (let i = 0; i < n; i++) { est += sol.get(i, 0) * z[ids[i]]; lc += sol.get(i, 0) * rhs.get(i, 0); }
+  let est = 0,
+    lc = 0;
+  for (let i = 0; i < n; i++) {
+    est += sol.get(i, 0) * z[ids[i]];
+    lc += sol.get(i, 0) * rhs.get(i, 0);
+  }
   return [est, Math.sqrt(m.nugget + m.partialSill - lc - sol.get(n, 0))];
 }
 
 function field(n: number, seed: number, lattice: boolean) {
   const r = prng(seed);
-  const x = new Float64Array(n), y = new Float64Array(n), z = new Float64Array(n);
+  const x = new Float64Array(n),
+    y = new Float64Array(n),
+    z = new Float64Array(n);
   const side = Math.ceil(Math.sqrt(n));
   for (let i = 0; i < n; i++) {
     // A lattice puts many points at exactly equal distances from the queries below: the tie-breaking case.
@@ -51,7 +58,7 @@ function field(n: number, seed: number, lattice: boolean) {
   return { x, y, z };
 }
 
-describe('k nearest from the last search\'s candidates (grid rows)', () => {
+describe("k nearest from the last search's candidates (grid rows)", () => {
   for (const c of [
     { name: 'scattered points', lattice: false, radiusKm: Infinity },
     { name: 'scattered points, 25 km search radius', lattice: false, radiusKm: 25 },
@@ -62,12 +69,15 @@ describe('k nearest from the last search\'s candidates (grid rows)', () => {
       const k = 16;
       const rowWise = new KrigingPredictor(x, y, z, MODEL, { neighbors: k, radiusKm: c.radiusKm });
       const fresh = new KrigingPredictor(x, y, z, MODEL, { neighbors: k, radiusKm: c.radiusKm });
-      const a = new Float64Array(2), b = new Float64Array(2);
-      let cells = 0, checked = 0;
+      const a = new Float64Array(2),
+        b = new Float64Array(2);
+      let cells = 0,
+        checked = 0;
       // Rows of 1 km cells (lattice spacing 10 km: cell centres at 5 km offsets tie exactly).
       for (let row = 0; row < 40; row++) {
         for (let col = 0; col < 390; col++) {
-          const qx = col + (c.lattice ? 0 : 0.5), qy = 20 + row * 5 + (c.lattice ? 0 : 0.37);
+          const qx = col + (c.lattice ? 0 : 0.5),
+            qy = 20 + row * 5 + (c.lattice ? 0 : 0.37);
           const n = rowWise.predict(qx, qy, a, true);
           fresh.resetCache();
           const nf = fresh.predict(qx, qy, b, true);
@@ -96,9 +106,21 @@ describe('k nearest from the last search\'s candidates (grid rows)', () => {
 
 describe('row cell centres between exactly projected nodes', () => {
   for (const c of [
-    { name: 'lon/lat grid 40° × 33°, 0.01° cells, southern mid-latitudes', crs: 'EPSG:4326', lon0: -132, lat0: -33, grid: { width: 4001, height: 6, west: -152, north: -16.5, dx: 0.01, dy: 6.6 } },
+    {
+      name: 'lon/lat grid 40° × 33°, 0.01° cells, southern mid-latitudes',
+      crs: 'EPSG:4326',
+      lon0: -132,
+      lat0: -33,
+      grid: { width: 4001, height: 6, west: -152, north: -16.5, dx: 0.01, dy: 6.6 },
+    },
     { name: 'lon/lat grid at 70° N', crs: 'EPSG:4326', lon0: 20, lat0: 70, grid: { width: 3003, height: 4, west: 0, north: 78, dx: 0.0133, dy: 4 } },
-    { name: 'projected grid (EPSG:3413, polar stereographic), 1 km cells', crs: 'EPSG:3413', lon0: -45, lat0: 75, grid: { width: 2501, height: 4, west: -1250000, north: 1000000, dx: 1000, dy: 500000 } },
+    {
+      name: 'projected grid (EPSG:3413, polar stereographic), 1 km cells',
+      crs: 'EPSG:3413',
+      lon0: -45,
+      lat0: 75,
+      grid: { width: 2501, height: 4, west: -1250000, north: 1000000, dx: 1000, dy: 500000 },
+    },
   ]) {
     it(`${c.name}: every cell within 1e-8 km (10 µm) of proj4`, async () => {
       const def = await loadCrsDefinition(c.crs);
@@ -106,7 +128,8 @@ describe('row cell centres between exactly projected nodes', () => {
       const toLocal = converter(def, local.def);
       const ref = proj4(def === WGS84_DEF ? 'WGS84' : def, local.def);
       const g = { ...c.grid, crs: c.crs };
-      const X = new Float64Array(g.width), Y = new Float64Array(g.width);
+      const X = new Float64Array(g.width),
+        Y = new Float64Array(g.width);
       let worst = 0;
       for (let r = 0; r < g.height; r++) {
         rowCentresLocalKm(g, toLocal, r, X, Y);

@@ -10,12 +10,20 @@ import { lonLatFromKm, trueHeatFlowMWm2 } from '../../fixtures/field.ts';
 // leave-one-out RMSE 9.0, 96% of check points within 2σ; IDW RMSE vs truth 8.3. Bounds leave about 15% margin.
 describe('demo region: kriging recovers the invented heat-flow field', () => {
   const { points } = pointsFromGeoJson(JSON.parse(readFileSync(new URL('../../fixtures/demo/sites.geojson', import.meta.url), 'utf8')), 'heatFlowMWm2');
-  const ids: string[] = [], lon: number[] = [], lat: number[] = [], truth: number[] = [];
-  for (let i = 0; i < 15; i++) for (let j = 0; j < 15; j++) {
-    const x = -70 + i * 10, y = -70 + j * 10;
-    const [lo, la] = lonLatFromKm(x, y);
-    ids.push(`${i}-${j}`); lon.push(lo); lat.push(la); truth.push(trueHeatFlowMWm2(x, y));
-  }
+  const ids: string[] = [],
+    lon: number[] = [],
+    lat: number[] = [],
+    truth: number[] = [];
+  for (let i = 0; i < 15; i++)
+    for (let j = 0; j < 15; j++) {
+      const x = -70 + i * 10,
+        y = -70 + j * 10;
+      const [lo, la] = lonLatFromKm(x, y);
+      ids.push(`${i}-${j}`);
+      lon.push(lo);
+      lat.push(la);
+      truth.push(trueHeatFlowMWm2(x, y));
+    }
   const rmse = (vals: (number | null)[]) => Math.sqrt(vals.reduce<number>((s, v, i) => s + ((v as number) - truth[i]) ** 2, 0) / truth.length);
 
   it('RMSE against the truth below 8.5 mW/m², cross-validation RMSE below 10.5, honest sd, better than IDW', () => {

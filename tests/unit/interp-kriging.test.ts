@@ -9,18 +9,28 @@ import { prng } from '../helpers/prng.ts';
 // Isaaks & Srivastava (1989), An Introduction to Applied Geostatistics, ch. 12: seven samples (x, y, value),
 // target (65, 137), covariance C(h) = 10·e^(−0.3h) [checked, docs/sources.md#kriging-worked-example].
 // In the practical-range convention C(h) = c·e^(−3h/a): c = 10, a = 10.
-const IS = [[61, 139, 477], [63, 140, 696], [64, 129, 227], [68, 128, 646], [71, 140, 606], [73, 141, 791], [75, 128, 783]];
+const IS = [
+  [61, 139, 477],
+  [63, 140, 696],
+  [64, 129, 227],
+  [68, 128, 646],
+  [71, 140, 606],
+  [73, 141, 791],
+  [75, 128, 783],
+];
 const isX = Float64Array.from(IS, (p) => p[0]);
 const isY = Float64Array.from(IS, (p) => p[1]);
 const isZ = Float64Array.from(IS, (p) => p[2]);
 const IS_MODEL: VariogramModel = { model: 'exponential', nugget: 0, partialSill: 10, rangeKm: 10 };
 
-
 function randomPoints(n: number, seed: number, sizeKm = 50) {
   const r = prng(seed);
-  const x = new Float64Array(n), y = new Float64Array(n), z = new Float64Array(n);
+  const x = new Float64Array(n),
+    y = new Float64Array(n),
+    z = new Float64Array(n);
   for (let i = 0; i < n; i++) {
-    x[i] = r() * sizeKm; y[i] = r() * sizeKm;
+    x[i] = r() * sizeKm;
+    y[i] = r() * sizeKm;
     z[i] = 60 + 15 * Math.sin(x[i] / 9) + 10 * Math.cos(y[i] / 13) + 4 * (r() - 0.5);
   }
   return { x, y, z };
@@ -33,16 +43,22 @@ function denseOk(x: Float64Array, y: Float64Array, z: Float64Array, ids: number[
   const rhs = Matrix.zeros(n + 1, 1);
   for (let i = 0; i < n; i++) {
     for (let j = 0; j < n; j++) {
-      const a = ids[i], b = ids[j];
+      const a = ids[i],
+        b = ids[j];
       K.set(i, j, i === j ? m.nugget + m.partialSill + (ev ? ev[a] : 0) : covariance(m, Math.hypot(x[a] - x[b], y[a] - y[b])));
     }
-    K.set(i, n, 1); K.set(n, i, 1);
+    K.set(i, n, 1);
+    K.set(n, i, 1);
     rhs.set(i, 0, covariance(m, Math.hypot(x[ids[i]] - qx, y[ids[i]] - qy)));
   }
   rhs.set(n, 0, 1);
   const sol = solve(K, rhs);
-  let est = 0, lc = 0;
-  for (let i = 0; i < n; i++) { est += sol.get(i, 0) * z[ids[i]]; lc += sol.get(i, 0) * rhs.get(i, 0); }
+  let est = 0,
+    lc = 0;
+  for (let i = 0; i < n; i++) {
+    est += sol.get(i, 0) * z[ids[i]];
+    lc += sol.get(i, 0) * rhs.get(i, 0);
+  }
   const mu = sol.get(n, 0);
   return { est, variance: m.nugget + m.partialSill - lc - mu, lambda: Array.from({ length: n }, (_, i) => sol.get(i, 0)) };
 }
@@ -58,7 +74,8 @@ describe('ordinary kriging: Isaaks & Srivastava (1989) ch. 12 seven-sample examp
   });
 
   it('gives the printed weights to four decimals', () => {
-    const ids = new Int32Array(7), lam = new Float64Array(7);
+    const ids = new Int32Array(7),
+      lam = new Float64Array(7);
     const { n } = k.weights(65, 137, ids, lam);
     expect(n).toBe(7);
     // Isaaks & Srivastava 1989, ch. 12, weights for samples 1..7:
@@ -104,7 +121,9 @@ describe('ordinary kriging agrees with a dense solve of the full system (ml-matr
     it(`local ${m.model} (16 neighbours, measurement error on the diagonal): same as the dense solve on the same set`, () => {
       const ev = Float64Array.from(x, (_, i) => (i % 3) * 0.5);
       const k = new KrigingPredictor(x, y, z, m, { neighbors: 16, errorVariance: ev });
-      const out = new Float64Array(2), ids = new Int32Array(16), lam = new Float64Array(16);
+      const out = new Float64Array(2),
+        ids = new Int32Array(16),
+        lam = new Float64Array(16);
       for (const [qx, qy] of targets) {
         k.predict(qx, qy, out, true);
         const { n } = k.weights(qx, qy, ids, lam);
@@ -136,9 +155,11 @@ describe('ordinary kriging invariants', () => {
     const shift = (a: Float64Array, d: number) => a.map((v) => v + d);
     const k1 = new KrigingPredictor(x, y, z, m, { neighbors: 16 });
     const k2 = new KrigingPredictor(shift(x, 1234.5), shift(y, -987.25), z, m, { neighbors: 16 });
-    const o1 = new Float64Array(2), o2 = new Float64Array(2);
+    const o1 = new Float64Array(2),
+      o2 = new Float64Array(2);
     for (let t = 0; t < 30; t++) {
-      const qx = 1.7 * t, qy = 50 - 1.3 * t;
+      const qx = 1.7 * t,
+        qy = 50 - 1.3 * t;
       k1.predict(qx, qy, o1, true);
       k2.predict(qx + 1234.5, qy - 987.25, o2, true);
       expect(o2[0]).toBeCloseTo(o1[0], 7);
@@ -148,7 +169,8 @@ describe('ordinary kriging invariants', () => {
 
   it('caches the factorization across cells sharing a neighbour set, with the same values as a fresh solve', () => {
     const k = new KrigingPredictor(x, y, z, m, { neighbors: 16 });
-    const out = new Float64Array(2), ref = new Float64Array(2);
+    const out = new Float64Array(2),
+      ref = new Float64Array(2);
     for (let c = 0; c < 200; c++) k.predict(20 + c * 0.01, 20, out, true);
     expect(k.counters.factorizations).toBeLessThan(100); // sets are shared between neighbouring cells
     const fresh = new KrigingPredictor(x, y, z, m, { neighbors: 16 });
@@ -202,13 +224,21 @@ describe('leave-one-out cross-validation', () => {
     const cv = crossValidateKriging(ids, x, y, z, k, m, null, false);
     let s = 0;
     for (let i = 0; i < 60; i++) {
-      const ref = denseOk(x, y, z, Array.from({ length: 60 }, (_, j) => j).filter((j) => j !== i), m, x[i], y[i]);
+      const ref = denseOk(
+        x,
+        y,
+        z,
+        Array.from({ length: 60 }, (_, j) => j).filter((j) => j !== i),
+        m,
+        x[i],
+        y[i],
+      );
       s += (z[i] - ref.est) ** 2 / ref.variance;
     }
     expect(cv.meanSquaredDeviationRatio).toBeCloseTo(s / 60, 6);
   });
 
-  it('MSDR is near 1 when the field truly has the kriging model\'s covariance', () => {
+  it("MSDR is near 1 when the field truly has the kriging model's covariance", () => {
     // Under the right model each leave-one-out standardized error has unit variance (Journel & Huijbregts 1978;
     // Isaaks & Srivastava 1989 ch. 15), so MSDR ≈ 1. The field: a Gaussian field with exponential covariance
     // C(h) = c0·[h = 0] + c·e^(−3h/a) (written out here, DESIGN.md §3 convention) simulated through ml-matrix's
@@ -218,20 +248,24 @@ describe('leave-one-out cross-validation', () => {
     const cov = (h: number) => (h === 0 ? 0.5 + 20 : 20 * Math.exp((-3 * h) / 25));
     const r = prng(99);
     const n = 80;
-    const px = Float64Array.from({ length: n }, () => r() * 60), py = Float64Array.from({ length: n }, () => r() * 60);
+    const px = Float64Array.from({ length: n }, () => r() * 60),
+      py = Float64Array.from({ length: n }, () => r() * 60);
     const C = Matrix.zeros(n, n);
     for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) C.set(i, j, cov(Math.hypot(px[i] - px[j], py[i] - py[j])));
     const L = new CholeskyDecomposition(C).lowerTriangularMatrix;
     const normal = () => Math.sqrt(-2 * Math.log(1 - r())) * Math.cos(2 * Math.PI * r()); // Box–Muller
     const pid = Array.from({ length: n }, (_, i) => `s${i}`);
     const half: VariogramModel = { ...truth, nugget: truth.nugget / 2, partialSill: truth.partialSill / 2 };
-    let sum = 0, sumHalf = 0;
+    let sum = 0,
+      sumHalf = 0;
     for (let rep = 0; rep < 4; rep++) {
       const e = Matrix.columnVector(Array.from({ length: n }, normal));
       const pz = Float64Array.from(L.mmul(e).getColumn(0), (v) => 100 + v);
       const cv = crossValidateKriging(pid, px, py, pz, new KrigingPredictor(px, py, pz, truth, { neighbors: Infinity }), truth, null, false);
       sum += cv.meanSquaredDeviationRatio ?? NaN;
-      sumHalf += crossValidateKriging(pid, px, py, pz, new KrigingPredictor(px, py, pz, half, { neighbors: Infinity }), half, null, false).meanSquaredDeviationRatio ?? NaN;
+      sumHalf +=
+        crossValidateKriging(pid, px, py, pz, new KrigingPredictor(px, py, pz, half, { neighbors: Infinity }), half, null, false).meanSquaredDeviationRatio ??
+        NaN;
     }
     const msdr = sum / 4;
     expect(msdr).toBeGreaterThan(0.7);

@@ -6,13 +6,27 @@ import { main } from '../../server/cli/main.ts';
 import { readGeoTiff } from '../../server/io/geotiff.ts';
 
 let dir = '';
-const bytes = (p: string) => { const b = readFileSync(p); return b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength); };
-const file = (name: string, body: unknown) => { const p = join(dir, name); writeFileSync(p, JSON.stringify(body)); return p; };
-const pt = (id: string, lon: number, lat: number, props: Record<string, unknown> = {}) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [lon, lat] }, properties: { id, ...props } });
+const bytes = (p: string) => {
+  const b = readFileSync(p);
+  return b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength);
+};
+const file = (name: string, body: unknown) => {
+  const p = join(dir, name);
+  writeFileSync(p, JSON.stringify(body));
+  return p;
+};
+const pt = (id: string, lon: number, lat: number, props: Record<string, unknown> = {}) => ({
+  type: 'Feature',
+  geometry: { type: 'Point', coordinates: [lon, lat] },
+  properties: { id, ...props },
+});
 
 async function run(args: string[]): Promise<{ code: number; json: Record<string, any> }> {
   let out = '';
-  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => { out += String(s); return true; });
+  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
+    out += String(s);
+    return true;
+  });
   const err = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
   try {
     const code = await main(['simulate', ...args, '--json']);
@@ -24,10 +38,12 @@ async function run(args: string[]): Promise<{ code: number; json: Record<string,
 }
 
 const sites: ReturnType<typeof pt>[] = [];
-let pts = '', targets = '';
+let pts = '',
+  targets = '';
 beforeAll(() => {
   dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'sim-cli-'));
-  for (let i = 0; i < 6; i++) for (let j = 0; j < 6; j++) sites.push(pt(`s${i}-${j}`, -128 + i * 0.1, -38 + j * 0.1, { heatFlowMWm2: 50 + 3 * i + 2 * j + ((i * j) % 5) }));
+  for (let i = 0; i < 6; i++)
+    for (let j = 0; j < 6; j++) sites.push(pt(`s${i}-${j}`, -128 + i * 0.1, -38 + j * 0.1, { heatFlowMWm2: 50 + 3 * i + 2 * j + ((i * j) % 5) }));
   pts = file('p.geojson', { type: 'FeatureCollection', features: sites });
   targets = file('t.geojson', { type: 'FeatureCollection', features: [pt('free', -127.77, -37.73), pt('on-datum', -128 + 0.2, -38 + 0.3)] });
 });
@@ -36,12 +52,30 @@ afterEach(() => vi.restoreAllMocks());
 
 describe('subtherm simulate', () => {
   it('--at: one array per realization in target order; a target on a datum (no nugget) reproduces it; same seed, same numbers', async () => {
-    const args = ['--points', pts, '--at', targets, '--realizations', '50', '--seed', '4', '--transform', 'none', '--neighbors', 'all', '--variogram', 'exponential:0,20,30'];
+    const args = [
+      '--points',
+      pts,
+      '--at',
+      targets,
+      '--realizations',
+      '50',
+      '--seed',
+      '4',
+      '--transform',
+      'none',
+      '--neighbors',
+      'all',
+      '--variogram',
+      'exponential:0,20,30',
+    ];
     const a = await run(args);
     expect(a.code).toBe(0);
     expect(a.json.targets.map((t: { id: string }) => t.id)).toEqual(['free', 'on-datum']);
     expect(a.json.realizations).toHaveLength(50);
-    for (const r of a.json.realizations) { expect(r).toHaveLength(2); expect(r[1]).toBeCloseTo(50 + 3 * 2 + 2 * 3 + 1, 4); }
+    for (const r of a.json.realizations) {
+      expect(r).toHaveLength(2);
+      expect(r[1]).toBeCloseTo(50 + 3 * 2 + 2 * 3 + 1, 4);
+    }
     expect(a.json.variogram).toMatchObject({ model: 'exponential', nugget: 0, partialSill: 20, rangeKm: 30, source: 'fixed' });
     expect(a.json.transform.kind).toBe('none');
     expect(a.json.sampler.kind).toBe('cholesky');
@@ -58,9 +92,11 @@ describe('subtherm simulate', () => {
     expect(r.json.sampler.kind).toBe('lattice');
     const p10 = (await readGeoTiff(bytes(join(out, 'heatFlowMWm2.p10.tif')))).grid;
     const p90 = (await readGeoTiff(bytes(join(out, 'heatFlowMWm2.p90.tif')))).grid;
-    expect(p10.width).toBe(30); expect(p10.height).toBe(25);
+    expect(p10.width).toBe(30);
+    expect(p10.height).toBe(25);
     for (let i = 0; i < p10.values.length; i++) expect(p90.values[i]).toBeGreaterThanOrEqual(p10.values[i]);
-    const lo = r.json.transform.lowTail, hi = r.json.transform.highTail;
+    const lo = r.json.transform.lowTail,
+      hi = r.json.transform.highTail;
     for (const v of p10.values) expect(v).toBeGreaterThanOrEqual(lo - 1e-3);
     for (const v of p90.values) expect(v).toBeLessThanOrEqual(hi + 1e-3);
   });
@@ -74,6 +110,8 @@ describe('subtherm simulate', () => {
     expect(existsSync(out) ? readdirSync(out) : []).toEqual([]);
     expect((await run(['--points', pts, '--at', targets, '--realizations', '0', '--seed', '1'])).json.error.details[0].field).toBe('realizations');
     expect((await run(['--points', pts, '--at', targets, '--realizations', '5'])).json.error.details[0].field).toBe('seed');
-    expect((await run(['--points', pts, '--at', targets, '--realizations', '5', '--seed', '1', '--trend', 'linear'])).json.error.details[0].field).toBe('trend');
+    expect((await run(['--points', pts, '--at', targets, '--realizations', '5', '--seed', '1', '--trend', 'linear'])).json.error.details[0].field).toBe(
+      'trend',
+    );
   });
 });

@@ -15,24 +15,38 @@ import { prng } from '../helpers/prng.ts';
  *   SE(mean) = σ/√R, SE(variance) = σ²·√(2/(R − 1)), SE(covariance) = √((σ₁²σ₂² + c₁₂²)/R).
  */
 
-interface Dense { est: number[]; lambda: number[][]; variance: number[]; cov: number[][] }
+interface Dense {
+  est: number[];
+  lambda: number[][];
+  variance: number[];
+  cov: number[][];
+}
 
 function denseOk(x: number[], y: number[], z: number[], tx: number[], ty: number[], m: VariogramModel, ev: number[] | null = null): Dense {
   const n = x.length;
   const K = Matrix.zeros(n + 1, n + 1);
   for (let i = 0; i < n; i++) {
     for (let j = 0; j < n; j++) K.set(i, j, covariance(m, Math.hypot(x[i] - x[j], y[i] - y[j])) + (i === j && ev !== null ? ev[i] : 0));
-    K.set(i, n, 1); K.set(n, i, 1);
+    K.set(i, n, 1);
+    K.set(n, i, 1);
   }
-  const lambda: number[][] = [], est: number[] = [], variance: number[] = [], c0s: number[][] = [];
+  const lambda: number[][] = [],
+    est: number[] = [],
+    variance: number[] = [],
+    c0s: number[][] = [];
   for (let t = 0; t < tx.length; t++) {
     const rhs = Matrix.zeros(n + 1, 1);
     const c0: number[] = [];
-    for (let i = 0; i < n; i++) { c0.push(covariance(m, Math.hypot(x[i] - tx[t], y[i] - ty[t]))); rhs.set(i, 0, c0[i]); }
+    for (let i = 0; i < n; i++) {
+      c0.push(covariance(m, Math.hypot(x[i] - tx[t], y[i] - ty[t])));
+      rhs.set(i, 0, c0[i]);
+    }
     rhs.set(n, 0, 1);
     const sol = solve(K, rhs).getColumn(0);
-    const l = sol.slice(0, n), mu = sol[n];
-    lambda.push(l); c0s.push(c0);
+    const l = sol.slice(0, n),
+      mu = sol[n];
+    lambda.push(l);
+    c0s.push(c0);
     est.push(l.reduce((s, v, i) => s + v * z[i], 0));
     variance.push(m.nugget + m.partialSill - l.reduce((s, v, i) => s + v * c0[i], 0) - mu);
   }
@@ -61,10 +75,14 @@ function moments(real: Float64Array[], T: number) {
 
 function dataSet(seed: number, n: number, onLattice: boolean) {
   const r = prng(seed);
-  const x: number[] = [], y: number[] = [], z: number[] = [];
+  const x: number[] = [],
+    y: number[] = [],
+    z: number[] = [];
   for (let i = 0; i < n; i++) {
-    const a = r() * 60, b = r() * 60;
-    x.push(onLattice ? Math.round(a) : a); y.push(onLattice ? Math.round(b) : b);
+    const a = r() * 60,
+      b = r() * 60;
+    x.push(onLattice ? Math.round(a) : a);
+    y.push(onLattice ? Math.round(b) : b);
     z.push(50 + 10 * Math.sin(x[i] / 11) + 5 * r());
   }
   return { x, y, z };
@@ -74,9 +92,20 @@ function checkMoments(sampler: 'cholesky' | 'lattice', m: VariogramModel, R: num
   const onLattice = sampler === 'lattice';
   const { x, y, z } = dataSet(7, 25, onLattice);
   // Targets: three free points (on lattice nodes for the lattice sampler) and one on datum 3.
-  const tx = [12, 30, 31, x[3]], ty = [40, 22, 25, y[3]];
+  const tx = [12, 30, 31, x[3]],
+    ty = [40, 22, 25, y[3]];
   const ref = denseOk(x, y, z, tx, ty, m);
-  const sim = createConditionalSimulator({ x: Float64Array.from(x), y: Float64Array.from(y), z: Float64Array.from(z), tx: Float64Array.from(tx), ty: Float64Array.from(ty), model: m, neighbors: Infinity, sampler, latticeKm: 1 });
+  const sim = createConditionalSimulator({
+    x: Float64Array.from(x),
+    y: Float64Array.from(y),
+    z: Float64Array.from(z),
+    tx: Float64Array.from(tx),
+    ty: Float64Array.from(ty),
+    model: m,
+    neighbors: Infinity,
+    sampler,
+    latticeKm: 1,
+  });
   expect(sim.sampler).toBe(sampler);
   const real: Float64Array[] = [];
   sim.run(2024, 0, R, (_r, v) => real.push(Float64Array.from(v)));
@@ -110,9 +139,20 @@ describe('conditional simulation reproduces the kriging moments (dense ml-matrix
     const m: VariogramModel = { model: 'spherical', nugget: 1, partialSill: 10, rangeKm: 30 };
     const { x, y, z } = dataSet(7, 25, false);
     const ev = x.map((_, i) => 1 + (i % 4));
-    const tx = [12, 30, x[3]], ty = [40, 22, y[3]];
+    const tx = [12, 30, x[3]],
+      ty = [40, 22, y[3]];
     const ref = denseOk(x, y, z, tx, ty, m, ev);
-    const sim = createConditionalSimulator({ x: Float64Array.from(x), y: Float64Array.from(y), z: Float64Array.from(z), tx: Float64Array.from(tx), ty: Float64Array.from(ty), model: m, neighbors: Infinity, sampler: 'cholesky', errorVariance: Float64Array.from(ev) });
+    const sim = createConditionalSimulator({
+      x: Float64Array.from(x),
+      y: Float64Array.from(y),
+      z: Float64Array.from(z),
+      tx: Float64Array.from(tx),
+      ty: Float64Array.from(ty),
+      model: m,
+      neighbors: Infinity,
+      sampler: 'cholesky',
+      errorVariance: Float64Array.from(ev),
+    });
     const R = 4000;
     const real: Float64Array[] = [];
     sim.run(31, 0, R, (_r, v) => real.push(Float64Array.from(v)));
@@ -127,11 +167,27 @@ describe('conditional simulation reproduces the kriging moments (dense ml-matrix
   });
   it('same realizations whatever the split into batches (one stream per realization)', () => {
     const { x, y, z } = dataSet(3, 12, true);
-    const args = { x: Float64Array.from(x), y: Float64Array.from(y), z: Float64Array.from(z), tx: Float64Array.from([5, 17, 40]), ty: Float64Array.from([9, 33, 2]), model: { model: 'spherical', nugget: 1, partialSill: 5, rangeKm: 20 } as VariogramModel, neighbors: 8, sampler: 'lattice' as const, latticeKm: 1 };
-    const whole: number[][] = [], parts: number[][] = [];
+    const args = {
+      x: Float64Array.from(x),
+      y: Float64Array.from(y),
+      z: Float64Array.from(z),
+      tx: Float64Array.from([5, 17, 40]),
+      ty: Float64Array.from([9, 33, 2]),
+      model: { model: 'spherical', nugget: 1, partialSill: 5, rangeKm: 20 } as VariogramModel,
+      neighbors: 8,
+      sampler: 'lattice' as const,
+      latticeKm: 1,
+    };
+    const whole: number[][] = [],
+      parts: number[][] = [];
     createConditionalSimulator(args).run(9, 0, 7, (_r, v) => whole.push([...v]));
     const s = createConditionalSimulator(args);
-    for (const [a, b] of [[0, 3], [3, 4], [4, 7]]) s.run(9, a, b, (_r, v) => parts.push([...v]));
+    for (const [a, b] of [
+      [0, 3],
+      [3, 4],
+      [4, 7],
+    ])
+      s.run(9, a, b, (_r, v) => parts.push([...v]));
     expect(parts).toEqual(whole);
   });
 });
@@ -150,8 +206,10 @@ describe('unconditional simulation: variogram and histogram reproduction', () =>
     // 1997): E[(Z(x) − Z(x + h))²]/2 = γ(h). Check at lags 1..40 km on a 120-node transect, 600 realizations;
     // tolerance 4 standard errors of the across-realization mean of the transect's empirical semivariogram.
     const m: VariogramModel = { model: 'spherical', nugget: 1, partialSill: 9, rangeKm: 30 };
-    const N = 120, R = 600;
-    const sx = Float64Array.from({ length: N }, (_, i) => i), sy = new Float64Array(N);
+    const N = 120,
+      R = 600;
+    const sx = Float64Array.from({ length: N }, (_, i) => i),
+      sy = new Float64Array(N);
     const lags = [1, 3, 6, 10, 15, 20, 30, 40];
     const per: number[][] = lags.map(() => []);
     const res = simulateUnconditional(sx, sy, m, { sampler: 'lattice', latticeKm: 1 }, 77, 0, R, (_r, v) => {
@@ -166,7 +224,7 @@ describe('unconditional simulation: variogram and histogram reproduction', () =>
       const a = per[k];
       const mean = a.reduce((s, v) => s + v, 0) / R;
       const sd = Math.sqrt(a.reduce((s, v) => s + (v - mean) ** 2, 0) / (R - 1));
-      expect(Math.abs(mean - semivariance(m, h))).toBeLessThan(4 * sd / Math.sqrt(R));
+      expect(Math.abs(mean - semivariance(m, h))).toBeLessThan((4 * sd) / Math.sqrt(R));
     });
   });
 
@@ -178,7 +236,10 @@ describe('unconditional simulation: variogram and histogram reproduction', () =>
     vals.sort((a, b) => a - b);
     const s = Math.sqrt(4);
     let D = 0;
-    vals.forEach((v, i) => { const F = phiAS(v / s); D = Math.max(D, Math.abs(F - i / R), Math.abs(F - (i + 1) / R)); });
+    vals.forEach((v, i) => {
+      const F = phiAS(v / s);
+      D = Math.max(D, Math.abs(F - i / R), Math.abs(F - (i + 1) / R));
+    });
     expect(D).toBeLessThan(1.63 / Math.sqrt(R));
   });
 
@@ -192,7 +253,16 @@ describe('unconditional simulation: variogram and histogram reproduction', () =>
     const ns = new NormalScoreTransform(data);
     const R = 4000;
     const back: number[] = [];
-    simulateUnconditional(Float64Array.from([0]), Float64Array.from([0]), { model: 'spherical', nugget: 0, partialSill: 1, rangeKm: 10 }, { sampler: 'cholesky' }, 8, 0, R, (_r, v) => back.push(ns.backward(v[0])));
+    simulateUnconditional(
+      Float64Array.from([0]),
+      Float64Array.from([0]),
+      { model: 'spherical', nugget: 0, partialSill: 1, rangeKm: 10 },
+      { sampler: 'cholesky' },
+      8,
+      0,
+      R,
+      (_r, v) => back.push(ns.backward(v[0])),
+    );
     const sorted = [...data].sort((a, b) => a - b);
     for (const p of [0.1, 0.25, 0.5, 0.75, 0.9]) {
       const q = sorted[Math.round(p * (sorted.length - 1))];

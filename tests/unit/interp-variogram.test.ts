@@ -3,9 +3,10 @@ import { CholeskyDecomposition, Matrix } from 'ml-matrix';
 import { semivariance, covariance, empiricalVariogram, fitVariogram, anisotropyMatrix, type VariogramModel } from '../../shared/interp/variogram.ts';
 import { prng } from '../helpers/prng.ts';
 
-
 describe('semivariogram models (practical-range convention, ../shared/DESIGN.md §3)', () => {
-  const c0 = 2, c = 10, a = 30;
+  const c0 = 2,
+    c = 10,
+    a = 30;
   it('spherical reaches the full sill at h = a and stays there', () => {
     const m: VariogramModel = { model: 'spherical', nugget: c0, partialSill: c, rangeKm: a };
     expect(semivariance(m, a)).toBeCloseTo(c0 + c, 12);
@@ -28,7 +29,8 @@ describe('semivariogram models (practical-range convention, ../shared/DESIGN.md 
   it('the anisotropy map stretches the minor axis by 1/ratio', () => {
     const M = anisotropyMatrix({ angleDeg: 30, ratio: 0.5 });
     const t = (30 * Math.PI) / 180;
-    const major = [Math.sin(t), Math.cos(t)], minor = [Math.cos(t), -Math.sin(t)];
+    const major = [Math.sin(t), Math.cos(t)],
+      minor = [Math.cos(t), -Math.sin(t)];
     const len = (p: number[]) => Math.hypot(M[0] * p[0] + M[1] * p[1], M[2] * p[0] + M[3] * p[1]);
     expect(len(major)).toBeCloseTo(1, 12);
     expect(len(minor)).toBeCloseTo(2, 12);
@@ -56,17 +58,22 @@ describe('empirical semivariogram and Cressie (1985) fit', () => {
     expect(f.rangeKm).toBeCloseTo(40, 2);
   });
 
-  it('recovers a simulated field\'s variogram (Cholesky simulation, seeded) within 25% (range, sill)', () => {
+  it("recovers a simulated field's variogram (Cholesky simulation, seeded) within 25% (range, sill)", () => {
     // Gaussian random field with exponential covariance, nugget 0.2, partial sill 1, practical range 15 km, on
     // 500 random sites in a 60 km square; 4 independent realizations, parameters averaged. Tolerance 25%: the
     // sampling spread of a variogram from one 60-km window (4 ranges across) is of that order.
     const n = 500;
     const r = prng(2024);
-    const x = Float64Array.from({ length: n }, () => r() * 60), y = Float64Array.from({ length: n }, () => r() * 60);
+    const x = Float64Array.from({ length: n }, () => r() * 60),
+      y = Float64Array.from({ length: n }, () => r() * 60);
     // Covariance written out from the model (C(h) = c0·[h = 0] + c·e^(−3h/a)) and factored by ml-matrix (a
     // general-purpose library), so neither the field nor its factor comes from the project's code.
     const C = Matrix.zeros(n, n);
-    for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) { const h = Math.hypot(x[i] - x[j], y[i] - y[j]); C.set(i, j, h === 0 ? 1.2 : Math.exp((-3 * h) / 15)); }
+    for (let i = 0; i < n; i++)
+      for (let j = 0; j < n; j++) {
+        const h = Math.hypot(x[i] - x[j], y[i] - y[j]);
+        C.set(i, j, h === 0 ? 1.2 : Math.exp((-3 * h) / 15));
+      }
     const chol = new CholeskyDecomposition(C);
     expect(chol.isPositiveDefinite()).toBe(true);
     const Lm = chol.lowerTriangularMatrix;
@@ -76,12 +83,17 @@ describe('empirical semivariogram and Cressie (1985) fit', () => {
     for (let rep = 0; rep < 4; rep++) {
       const e = Float64Array.from({ length: n }, normal);
       const z = new Float64Array(n);
-      for (let i = 0; i < n; i++) { let s = 0; for (let k = 0; k <= i; k++) s += L[i * n + k] * e[k]; z[i] = s; }
+      for (let i = 0; i < n; i++) {
+        let s = 0;
+        for (let k = 0; k <= i; k++) s += L[i * n + k] * e[k];
+        z[i] = s;
+      }
       const emp = empiricalVariogram(x, y, z, { lagKm: 2.5, maxLagKm: 30 });
       fits.push(fitVariogram('exponential', emp.lags));
     }
     const mean = (f: (m: VariogramModel) => number) => fits.reduce((s, m) => s + f(m), 0) / fits.length;
-    const sill = mean((m) => m.nugget + m.partialSill), range = mean((m) => m.rangeKm);
+    const sill = mean((m) => m.nugget + m.partialSill),
+      range = mean((m) => m.rangeKm);
     expect(Math.abs(sill - 1.2) / 1.2).toBeLessThan(0.25);
     expect(Math.abs(range - 15) / 15).toBeLessThan(0.25);
   });

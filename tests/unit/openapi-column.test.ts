@@ -4,7 +4,20 @@ import { openApiDocument } from '../../server/routes/openapi.ts';
 // The OpenAPI 3.1 description (OAS 3.1.0, an open standard) documents the column's pore-pressure options and the
 // rock-aware solidus shape the answer has.
 describe('OpenAPI: /api/column', () => {
-  const doc = openApiDocument() as { paths: Record<string, { post: { requestBody: { content: Record<string, { schema: { oneOf: { properties: Record<string, { description?: string; pattern?: string }> }[] } }> }; responses: Record<string, { content: Record<string, { schema?: { properties: Record<string, { properties?: Record<string, unknown>; description?: string }> } }> }> } }> };
+  const doc = openApiDocument() as {
+    paths: Record<
+      string,
+      {
+        post: {
+          requestBody: { content: Record<string, { schema: { oneOf: { properties: Record<string, { description?: string; pattern?: string }> }[] } }> };
+          responses: Record<
+            string,
+            { content: Record<string, { schema?: { properties: Record<string, { properties?: Record<string, unknown>; description?: string }> } }> }
+          >;
+        };
+      }
+    >;
+  };
   const post = doc.paths['/api/column'].post;
   it('describes porePressure and fluidDensityKgM3 in both request forms', () => {
     for (const form of post.requestBody.content['application/json'].schema.oneOf) {

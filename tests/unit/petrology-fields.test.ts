@@ -61,14 +61,16 @@ describe('facies (project drawing; test points well inside fields, docs/sources.
     const inPoly = (poly: [number, number][], t: number, p: number) => {
       let c = false;
       for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
-        const [ti, pi] = poly[i], [tj, pj] = poly[j];
+        const [ti, pi] = poly[i],
+          [tj, pj] = poly[j];
         if (pi > p !== pj > p && t < ((tj - ti) * (p - pi)) / (pj - pi) + ti) c = !c;
       }
       return c;
     };
-    for (let t = 3.7; t < 1100; t += 21.3) for (let p = 0.13; p < 25; p += 0.71) {
-      expect(FACIES_FIELDS.filter((f) => inPoly(f.polygon, t, p)).length).toBe(1);
-    }
+    for (let t = 3.7; t < 1100; t += 21.3)
+      for (let p = 0.13; p < 25; p += 0.71) {
+        expect(FACIES_FIELDS.filter((f) => inPoly(f.polygon, t, p)).length).toBe(1);
+      }
   });
   it('is null outside the diagram', () => {
     expect(classifyFacies(1300, 5).facies).toBeNull();
@@ -92,7 +94,11 @@ describe('aluminosilicates (Holdaway 1971 triple point 501 °C, 3.76 kbar [check
 describe('solidus curves', () => {
   it('dry peridotite, Hirschmann (2000): 0, 1, 3 GPa → 1120.66, 1248.46, 1473.42 °C (docs/sources.md#solidus-peridotite-dry [derived])', () => {
     const f = (p: number) => -5.104 * p * p + 132.899 * p + 1120.661;
-    for (const [p, t] of [[0, 1120.66], [1, 1248.46], [3, 1473.42]]) {
+    for (const [p, t] of [
+      [0, 1120.66],
+      [1, 1248.46],
+      [3, 1473.42],
+    ]) {
       expect(dryPeridotiteSolidusC(p)).toBeCloseTo(f(p), 10);
       expect(dryPeridotiteSolidusC(p)).toBeCloseTo(t, 2);
     }
@@ -109,7 +115,11 @@ describe('solidus curves', () => {
     expect(isWetGraniteSolidusApproximate(5)).toBe(false);
   });
   it('finds where a geotherm crosses each solidus', () => {
-    const cm = compileModel({ surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 90, layers: [{ bottomKm: 80, conductivityWmK: 2.5, heatProductionUWm3: 0.3, densityKgM3: 2900 }] });
+    const cm = compileModel({
+      surfaceTemperatureC: 10,
+      surfaceHeatFlowMWm2: 90,
+      layers: [{ bottomKm: 80, conductivityWmK: 2.5, heatProductionUWm3: 0.3, densityKgM3: 2900 }],
+    });
     const st = solveModelColumn(cm);
     const c = solidusCrossings(cm, st, 80, 0.1);
     expect(Math.abs(temperatureAtDepth(cm, c.wetGranite) - wetGraniteSolidusC(lithostaticPressureMPa(cm, c.wetGranite) / 100))).toBeLessThan(1e-3);
@@ -124,7 +134,7 @@ describe('peak P–T to depth', () => {
     expect(depthFromPressureKbar(2.6487, 2700, 9.81)).toBeCloseTo(10, 3);
   });
   it('apparent gradient (T − T0)/z: 25 °C/km with T0 = 15 °C puts 300 °C at 11.4 km (common practice)', () => {
-    const p = 11.4 * 2700 * 9.81 / 1e5; // kbar at 11.4 km
+    const p = (11.4 * 2700 * 9.81) / 1e5; // kbar at 11.4 km
     const r = peakConditions(300, p, { surfaceTemperatureC: 15, densityKgM3: 2700 });
     expect(r.depthKm).toBeCloseTo(11.4, 9);
     expect(r.apparentGradientCPerKm).toBeCloseTo(25, 1);

@@ -13,7 +13,12 @@ import { loadCrsDefinition } from '../../shared/interp/projection.ts';
 // squares with linear interpolation along cell edges (d3-contour) is exact for a plane up to round-off and within a
 // small fraction of a cell for a cone; the test asks for half a cell, the bound the products promise.
 
-function fieldGrid(width: number, height: number, spec: { west: number; north: number; dx: number; dy: number; crs: string }, f: (x: number, y: number) => number): Grid<Float32Array> {
+function fieldGrid(
+  width: number,
+  height: number,
+  spec: { west: number; north: number; dx: number; dy: number; crs: string },
+  f: (x: number, y: number) => number,
+): Grid<Float32Array> {
   const values = new Float32Array(width * height);
   for (let r = 0; r < height; r++) for (let c = 0; c < width; c++) values[r * width + c] = f(spec.west + (c + 0.5) * spec.dx, spec.north - (r + 0.5) * spec.dy);
   return { width, height, values, ...spec, units: 'km' };
@@ -47,10 +52,14 @@ describe('contours of analytic fields', () => {
 
   it('a cone: closed circles within half a cell of the true radius', () => {
     // v = 20 − ρ, ρ the distance from the centre in cell units; isoline v = L is the circle ρ = 20 − L.
-    const w = 61, h = 61, c0 = 30.5, r0 = 30.5;
+    const w = 61,
+      h = 61,
+      c0 = 30.5,
+      r0 = 30.5;
     const values = new Float32Array(w * h);
     for (let r = 0; r < h; r++) for (let c = 0; c < w; c++) values[r * w + c] = 20 - Math.hypot(c + 0.5 - c0, r + 0.5 - r0);
-    let worst = 0, lines = 0;
+    let worst = 0,
+      lines = 0;
     for (const L of [2.5, 7.25, 13, 18.5]) {
       const ls = isolinesIndex(values, w, h, L);
       expect(ls).toHaveLength(1);
@@ -76,7 +85,8 @@ describe('contours of analytic fields', () => {
       for (const [x, y] of feat.geometry.coordinates) {
         // A segment traced along a NoData edge or the border would sit off the true isoline.
         expect(Math.abs(f(x, y) - feat.properties.value) / grad).toBeLessThan(1e-5);
-        const col = (x - SPEC.west) / SPEC.dx, row = (SPEC.north - y) / SPEC.dy;
+        const col = (x - SPEC.west) / SPEC.dx,
+          row = (SPEC.north - y) / SPEC.dy;
         expect(col).toBeGreaterThanOrEqual(0.5 - 1e-6); // never beyond the outermost cell centres
         expect(row).toBeGreaterThanOrEqual(0.5 - 1e-6);
         expect(col).toBeLessThanOrEqual(34.5 + 1e-6);
@@ -137,8 +147,11 @@ function onSomeLine(lines: number[][][], x: number, y: number): boolean {
   return lines.some((line) =>
     line.some((p, i) => {
       if (i === 0) return false;
-      const [ax, ay] = line[i - 1], [bx, by] = p;
-      const dx = bx - ax, dy = by - ay, l2 = dx * dx + dy * dy;
+      const [ax, ay] = line[i - 1],
+        [bx, by] = p;
+      const dx = bx - ax,
+        dy = by - ay,
+        l2 = dx * dx + dy * dy;
       const u = l2 > 0 ? Math.max(0, Math.min(1, ((x - ax) * dx + (y - ay) * dy) / l2)) : 0;
       return Math.hypot(ax + u * dx - x, ay + u * dy - y) < 1e-9;
     }),
@@ -146,41 +159,54 @@ function onSomeLine(lines: number[][][], x: number, y: number): boolean {
 }
 
 describe('isolines against d3-contour (general-purpose reference)', () => {
-  it('every vertex lies on a side of one of d3-contour\'s rings at the same level, and every ring side inside the data is covered', () => {
+  it("every vertex lies on a side of one of d3-contour's rings at the same level, and every ring side inside the data is covered", () => {
     // A bumpy field with saddles, plateaus at exact level values and a NoData hole. Our vertices may differ from
     // d3-contour's only in saddle squares, where the two readings join different corners (skipped below).
-    const w = 48, h = 40;
+    const w = 48,
+      h = 40;
     const values = new Float64Array(w * h);
-    for (let r = 0; r < h; r++) for (let c = 0; c < w; c++) values[r * w + c] = Math.round(4 * (Math.sin(c / 5) * Math.cos(r / 4) + 0.03 * c)) / 4 + 0.1 * Math.sin(c * r);
+    for (let r = 0; r < h; r++)
+      for (let c = 0; c < w; c++) values[r * w + c] = Math.round(4 * (Math.sin(c / 5) * Math.cos(r / 4) + 0.03 * c)) / 4 + 0.1 * Math.sin(c * r);
     for (let r = 15; r < 22; r++) for (let c = 20; c < 27; c++) values[r * w + c] = NaN;
     const levels = [-0.75, -0.25, 0, 0.5, 1];
     const ours = isolinesIndexLevels(values, w, h, levels);
     const gen = d3contours().size([w, h]);
     levels.forEach((L, k) => {
-      const rings = gen.contour(Array.from(values, (v) => (Number.isNaN(v) ? NaN : v)), L).coordinates.flat();
+      const rings = gen
+        .contour(
+          Array.from(values, (v) => (Number.isNaN(v) ? NaN : v)),
+          L,
+        )
+        .coordinates.flat();
       const onRing = (x: number, y: number) => onSomeLine(rings, x, y);
       let vertices = 0;
-      for (const line of ours[k]) for (const [x, y] of line) {
-        expect(onRing(x, y), `level ${L} vertex ${x},${y}`).toBe(true);
-        vertices++;
-      }
+      for (const line of ours[k])
+        for (const [x, y] of line) {
+          expect(onRing(x, y), `level ${L} vertex ${x},${y}`).toBe(true);
+          vertices++;
+        }
       expect(vertices).toBeGreaterThan(10);
       // Coverage: each d3 ring side inside a square with four finite corners is part of one of our lines.
       const onOurs = (x: number, y: number) => onSomeLine(ours[k], x, y);
       let covered = 0;
-      for (const ring of rings) for (let i = 1; i < ring.length; i++) {
-        const mx = (ring[i - 1][0] + ring[i][0]) / 2, my = (ring[i - 1][1] + ring[i][1]) / 2;
-        const fx = mx - 0.5, fy = my - 0.5, c = Math.floor(fx), r = Math.floor(fy);
-        if (fx === c || fy === r || c < 0 || r < 0 || c + 1 >= w || r + 1 >= h) continue; // on a side, or at the border
-        const corners = [values[r * w + c], values[r * w + c + 1], values[(r + 1) * w + c + 1], values[(r + 1) * w + c]];
-        if (!corners.every(Number.isFinite)) continue;
-        // Saddle squares (two opposite corners above): d3-contour joins them by a fixed rule, ours by the square's
-        // mean; both are valid marching-squares readings, so those squares are not compared.
-        const up = corners.map((v) => v >= L);
-        if (up[0] === up[2] && up[1] === up[3] && up[0] !== up[1]) continue;
-        expect(onOurs(mx, my), `level ${L} ring side at ${mx},${my}`).toBe(true);
-        covered++;
-      }
+      for (const ring of rings)
+        for (let i = 1; i < ring.length; i++) {
+          const mx = (ring[i - 1][0] + ring[i][0]) / 2,
+            my = (ring[i - 1][1] + ring[i][1]) / 2;
+          const fx = mx - 0.5,
+            fy = my - 0.5,
+            c = Math.floor(fx),
+            r = Math.floor(fy);
+          if (fx === c || fy === r || c < 0 || r < 0 || c + 1 >= w || r + 1 >= h) continue; // on a side, or at the border
+          const corners = [values[r * w + c], values[r * w + c + 1], values[(r + 1) * w + c + 1], values[(r + 1) * w + c]];
+          if (!corners.every(Number.isFinite)) continue;
+          // Saddle squares (two opposite corners above): d3-contour joins them by a fixed rule, ours by the square's
+          // mean; both are valid marching-squares readings, so those squares are not compared.
+          const up = corners.map((v) => v >= L);
+          if (up[0] === up[2] && up[1] === up[3] && up[0] !== up[1]) continue;
+          expect(onOurs(mx, my), `level ${L} ring side at ${mx},${my}`).toBe(true);
+          covered++;
+        }
       expect(covered).toBeGreaterThan(10);
     });
   });

@@ -32,12 +32,14 @@ describe('demo region: depth to 300 °C under the rift basin and the cool block'
     const at = ([x, y]: [number, number]) => {
       const [lon, lat] = lonLatFromKm(x, y);
       const i = cellIndexFromXY(k.grid, lon, lat);
-      const q = trueHeatFlowMWm2(x, y), s = k.sd!.values[i];
+      const q = trueHeatFlowMWm2(x, y),
+        s = k.sd!.values[i];
       // Depth falls as heat flow rises: ±2.5 kriging sd of heat flow bounds the depth (the kriging sd is honest on
       // this region: 96% of check points within 2σ, tests/unit/interp-demo.test.ts).
       return { grid: out.isothermDepthKm[0][i], truth: d(q), shallow: d(q + 2.5 * s), deep: d(q - 2.5 * s), tol: 2.5 * s * slope(q) };
     };
-    const r = at(rift), b = at(block);
+    const r = at(rift),
+      b = at(block);
     expect(r.grid).toBeGreaterThanOrEqual(r.shallow);
     expect(r.grid).toBeLessThanOrEqual(r.deep);
     expect(b.grid).toBeGreaterThanOrEqual(b.shallow);
@@ -54,12 +56,28 @@ describe('demo region: depth to 300 °C under the rift basin and the cool block'
 
 describe('the run pipeline on the demo data', () => {
   const outline = JSON.parse(read('outline.geojson'));
-  const [lo0, la0] = lonLatFromKm(-75, 60), [lo1, la1] = lonLatFromKm(-45, 20);
+  const [lo0, la0] = lonLatFromKm(-75, 60),
+    [lo1, la1] = lonLatFromKm(-45, 20);
   const regions = {
     type: 'FeatureCollection',
     features: [
       { type: 'Feature', properties: { id: 'outline' }, geometry: outline.features[0].geometry },
-      { type: 'Feature', properties: { id: 'basin', layers: [{ name: 'basin fill', bottomKm: 3, conductivityWmK: 1.8, heatProductionUWm3: 1.2, densityKgM3: 2300 }] }, geometry: { type: 'Polygon', coordinates: [[[lo0, la0], [lo1, la0], [lo1, la1], [lo0, la1], [lo0, la0]]] } },
+      {
+        type: 'Feature',
+        properties: { id: 'basin', layers: [{ name: 'basin fill', bottomKm: 3, conductivityWmK: 1.8, heatProductionUWm3: 1.2, densityKgM3: 2300 }] },
+        geometry: {
+          type: 'Polygon',
+          coordinates: [
+            [
+              [lo0, la0],
+              [lo1, la0],
+              [lo1, la1],
+              [lo0, la1],
+              [lo0, la0],
+            ],
+          ],
+        },
+      },
     ],
   };
   const datasets: Record<string, StoredDataset> = {
@@ -68,21 +86,55 @@ describe('the run pipeline on the demo data', () => {
     'demo-faults': { kind: 'faults', body: read('faults.geojson') },
     'demo-regions': { kind: 'regions', body: JSON.stringify(regions) },
   };
-  const request = { sites: 'demo-sites', model: 'demo-model', faults: 'demo-faults', regions: 'demo-regions', maskToRegion: true, isothermsC: [300, 500], depthsKm: [5], faciesDepthKm: 12, grid: { cellKm: 4 }, realizations: 24, seed: 11 };
+  const request = {
+    sites: 'demo-sites',
+    model: 'demo-model',
+    faults: 'demo-faults',
+    regions: 'demo-regions',
+    maskToRegion: true,
+    isothermsC: [300, 500],
+    depthsKm: [5],
+    faciesDepthKm: 12,
+    grid: { cellKm: 4 },
+    realizations: 24,
+    seed: 11,
+  };
 
   it('produces the listed layers with sane stats and increasing progress', async () => {
     const progress: Progress[] = [];
     let extraCalled = 0;
     const res = await runPipeline(request, datasets, {
       progress: (p) => progress.push(p),
-      extraLayers: [{ name: 'probe', run: (ctx) => { extraCalled++; expect(ctx.heatFlow.width).toBeGreaterThan(10); return []; } }],
+      extraLayers: [
+        {
+          name: 'probe',
+          run: (ctx) => {
+            extraCalled++;
+            expect(ctx.heatFlow.width).toBeGreaterThan(10);
+            return [];
+          },
+        },
+      ],
     });
     const names = res.layers.map((l) => l.info.name);
     expect(names).toEqual([
-      'heat-flow', 'heat-flow-sd',
-      'depth-300C', 'depth-300C.p10', 'depth-300C.p50', 'depth-300C.p90',
-      'depth-500C', 'depth-500C.p10', 'depth-500C.p50', 'depth-500C.p90',
-      'temperature-5km', 'facies-12km', 'base-heat-flow', 'solidus-depth', 'melt-onset', 'inconsistent', 'cv-residuals',
+      'heat-flow',
+      'heat-flow-sd',
+      'depth-300C',
+      'depth-300C.p10',
+      'depth-300C.p50',
+      'depth-300C.p90',
+      'depth-500C',
+      'depth-500C.p10',
+      'depth-500C.p50',
+      'depth-500C.p90',
+      'temperature-5km',
+      'facies-12km',
+      'base-heat-flow',
+      'solidus-depth',
+      'melt-onset',
+      'inconsistent',
+      'cv-residuals',
     ]);
     expect(extraCalled).toBe(1);
     const byName = Object.fromEntries(res.layers.map((l) => [l.info.name, l]));
@@ -133,7 +185,12 @@ describe('the run pipeline on the demo data', () => {
     await expect(runPipeline({ ...request, sites: 'nope' }, datasets)).rejects.toThrow(InputError);
     await expect(runPipeline({ ...request, isothermsC: [] }, datasets)).rejects.toThrow(InputError);
     const ac = new AbortController();
-    const p = runPipeline(request, datasets, { signal: ac.signal, progress: (x) => { if (x.fraction > 0.1) ac.abort(); } });
+    const p = runPipeline(request, datasets, {
+      signal: ac.signal,
+      progress: (x) => {
+        if (x.fraction > 0.1) ac.abort();
+      },
+    });
     await expect(p).rejects.toMatchObject({ name: 'AbortError' });
   });
 

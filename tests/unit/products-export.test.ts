@@ -19,7 +19,10 @@ import { main } from '../../server/cli/main.ts';
 import { InputError } from '../../shared/errors.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'products-export-'));
-const provenance = buildProvenance({ method: 'depth to the 300 °C isotherm', model: { layers: [] }, inputs: { heatFlow: sha256Hex('x') }, parameters: { isothermsC: [300] } }, sha256Hex);
+const provenance = buildProvenance(
+  { method: 'depth to the 300 °C isotherm', model: { layers: [] }, inputs: { heatFlow: sha256Hex('x') }, parameters: { isothermsC: [300] } },
+  sha256Hex,
+);
 
 function grid(width: number, height: number, spec: Partial<Grid> = {}): Grid<Float32Array> {
   const values = new Float32Array(width * height);
@@ -28,7 +31,13 @@ function grid(width: number, height: number, spec: Partial<Grid> = {}): Grid<Flo
 }
 
 /** gdalinfo -json (GDAL, Debian's gdal-bin: the reference reader). */
-function gdalinfo(path: string): { size: number[]; geoTransform: number[]; coordinateSystem: { wkt: string }; bands: { noDataValue: number; type: string; computedMin?: number; computedMax?: number }[]; metadata: Record<string, Record<string, string>> } {
+function gdalinfo(path: string): {
+  size: number[];
+  geoTransform: number[];
+  coordinateSystem: { wkt: string };
+  bands: { noDataValue: number; type: string; computedMin?: number; computedMax?: number }[];
+  metadata: Record<string, Record<string, string>>;
+} {
   return JSON.parse(execFileSync('gdalinfo', ['-json', '-mm', path], { encoding: 'utf8' }));
 }
 
@@ -36,14 +45,22 @@ function gdalinfo(path: string): { size: number[]; geoTransform: number[]; coord
 function readPng(buf: Uint8Array): { text: Record<string, string>; width: number; height: number; rgba: Uint8Array } {
   const dv = new DataView(buf.buffer, buf.byteOffset, buf.byteLength);
   const text: Record<string, string> = {};
-  let off = 8, width = 0, height = 0;
+  let off = 8,
+    width = 0,
+    height = 0;
   const idat: Uint8Array[] = [];
   while (off < buf.length) {
     const len = dv.getUint32(off);
     const type = String.fromCharCode(...buf.subarray(off + 4, off + 8));
     const data = buf.subarray(off + 8, off + 8 + len);
-    if (type === 'IHDR') { width = dv.getUint32(off + 8); height = dv.getUint32(off + 12); }
-    if (type === 'tEXt') { const z = data.indexOf(0); text[Buffer.from(data.subarray(0, z)).toString('latin1')] = Buffer.from(data.subarray(z + 1)).toString('latin1'); }
+    if (type === 'IHDR') {
+      width = dv.getUint32(off + 8);
+      height = dv.getUint32(off + 12);
+    }
+    if (type === 'tEXt') {
+      const z = data.indexOf(0);
+      text[Buffer.from(data.subarray(0, z)).toString('latin1')] = Buffer.from(data.subarray(z + 1)).toString('latin1');
+    }
     if (type === 'IDAT') idat.push(data);
     off += 12 + len;
   }
@@ -97,7 +114,27 @@ describe('GeoTIFF export and import', () => {
     execFileSync('gdal_create', ['-of', 'GTiff', '-outsize', '4', '3', '-bands', '1', '-ot', 'Float32', '-burn', '50', plain]);
     await expect(readGridGeoTiff(readFileSync(plain), plain)).rejects.toThrow(/no georeferencing/);
     const multi = join(dir, 'multi.tif');
-    execFileSync('gdal_create', ['-of', 'GTiff', '-outsize', '4', '3', '-bands', '3', '-ot', 'Float32', '-burn', '50', '-a_srs', 'EPSG:4326', '-a_ullr', '-128', '-37', '-127.9', '-37.1', multi]);
+    execFileSync('gdal_create', [
+      '-of',
+      'GTiff',
+      '-outsize',
+      '4',
+      '3',
+      '-bands',
+      '3',
+      '-ot',
+      'Float32',
+      '-burn',
+      '50',
+      '-a_srs',
+      'EPSG:4326',
+      '-a_ullr',
+      '-128',
+      '-37',
+      '-127.9',
+      '-37.1',
+      multi,
+    ]);
     await expect(readGridGeoTiff(readFileSync(multi), multi)).rejects.toThrow(/3 bands: choose one with --band/);
     const b2 = await readGridGeoTiff(readFileSync(multi), multi, 2);
     expect(b2.grid.values[0]).toBe(50);
@@ -106,7 +143,25 @@ describe('GeoTIFF export and import', () => {
     const unknown = new Uint8Array(writeGeoTiff(grid(3, 3, { west: 1000, north: 2000, dx: 10, dy: 10, crs: 'EPSG:9999' })));
     await expect(readGridGeoTiff(unknown, 'u.tif')).rejects.toThrow(/unknown CRS EPSG:9999/);
     const custom = join(dir, 'custom.tif');
-    execFileSync('gdal_create', ['-of', 'GTiff', '-outsize', '4', '3', '-bands', '1', '-ot', 'Float32', '-a_srs', '+proj=tmerc +lat_0=-38 +lon_0=-128 +k=1 +x_0=0 +y_0=0 +ellps=WGS84 +units=m +no_defs', '-a_ullr', '0', '3000', '4000', '0', custom]);
+    execFileSync('gdal_create', [
+      '-of',
+      'GTiff',
+      '-outsize',
+      '4',
+      '3',
+      '-bands',
+      '1',
+      '-ot',
+      'Float32',
+      '-a_srs',
+      '+proj=tmerc +lat_0=-38 +lon_0=-128 +k=1 +x_0=0 +y_0=0 +ellps=WGS84 +units=m +no_defs',
+      '-a_ullr',
+      '0',
+      '3000',
+      '4000',
+      '0',
+      custom,
+    ]);
     await expect(readGridGeoTiff(readFileSync(custom), custom)).rejects.toThrow(InputError);
   });
 });
@@ -135,7 +190,25 @@ describe('PNG, CSV and provenance', () => {
     const g = grid(10, 10, { west: 0, north: 10, dx: 1, dy: 1 });
     const d = grid(10, 10, { west: 0, north: 10, dx: 1, dy: 1, units: 'km' });
     d.values[3 * 10 + 3] = NaN;
-    const csv = cellsInPolygonCsv([{ header: 'heat-flow (mW/m²)', grid: g }, { header: 'depth-300C (km)', grid: d }], { type: 'Polygon', coordinates: [[[2, 2], [5, 2], [5, 8], [2, 8], [2, 2]]] }, provenance);
+    const csv = cellsInPolygonCsv(
+      [
+        { header: 'heat-flow (mW/m²)', grid: g },
+        { header: 'depth-300C (km)', grid: d },
+      ],
+      {
+        type: 'Polygon',
+        coordinates: [
+          [
+            [2, 2],
+            [5, 2],
+            [5, 8],
+            [2, 8],
+            [2, 2],
+          ],
+        ],
+      },
+      provenance,
+    );
     const lines = csv.trim().split('\n');
     expect(lines[0]).toBe(`# caution: ${CAUTION}`);
     expect(lines[1].startsWith('# provenance: {')).toBe(true);
@@ -173,9 +246,16 @@ describe('the isotherms verb', () => {
     writeFileSync(hfPath, new Uint8Array(writeGeoTiff(g)));
   });
   const run = async (args: string[]) => {
-    const out: string[] = [], err: string[] = [];
-    const o = vi.spyOn(process.stdout, 'write').mockImplementation((s) => { out.push(String(s)); return true; });
-    const e = vi.spyOn(process.stderr, 'write').mockImplementation((s) => { err.push(String(s)); return true; });
+    const out: string[] = [],
+      err: string[] = [];
+    const o = vi.spyOn(process.stdout, 'write').mockImplementation((s) => {
+      out.push(String(s));
+      return true;
+    });
+    const e = vi.spyOn(process.stderr, 'write').mockImplementation((s) => {
+      err.push(String(s));
+      return true;
+    });
     try {
       const code = await main(['isotherms', ...args]);
       return { code, stdout: out.join(''), stderr: err.join('') };
@@ -188,13 +268,45 @@ describe('the isotherms verb', () => {
 
   it('writes the named files and flags the inconsistent cell with a warning, succeeding (exit 0: a finding, not bad input)', async () => {
     const outDir = join(dir, 'out');
-    const r = await run(['--heat-flow', hfPath, '--model', model, '--isotherms', '300,500', '--depths-km', '3,5', '--facies-depth-km', '5', '--realizations', '20', '--seed', '4', '--out-dir', outDir, '--json']);
+    const r = await run([
+      '--heat-flow',
+      hfPath,
+      '--model',
+      model,
+      '--isotherms',
+      '300,500',
+      '--depths-km',
+      '3,5',
+      '--facies-depth-km',
+      '5',
+      '--realizations',
+      '20',
+      '--seed',
+      '4',
+      '--out-dir',
+      outDir,
+      '--json',
+    ]);
     expect(r.code).toBe(0);
     const s = JSON.parse(r.stdout);
     expect(s.inconsistent.heatFlowExhausted).toBe(1);
     expect(s.inconsistent.inconsistent).toBe(1); // melt onset is not counted among the contradictions
     expect(r.stderr).toContain('inconsistent');
-    for (const f of ['depth-300C.tif', 'depth-300C.contours.geojson', 'temperature-5km.tif', 'temperature-5km.contours.geojson', 'facies-5km.tif', 'base-heat-flow.tif', 'solidus-depth.tif', 'melt-onset.tif', 'inconsistent.tif', 'depth-300C.p10.tif', 'depth-300C.p50.tif', 'depth-300C.p90.tif', 'summary.json']) {
+    for (const f of [
+      'depth-300C.tif',
+      'depth-300C.contours.geojson',
+      'temperature-5km.tif',
+      'temperature-5km.contours.geojson',
+      'facies-5km.tif',
+      'base-heat-flow.tif',
+      'solidus-depth.tif',
+      'melt-onset.tif',
+      'inconsistent.tif',
+      'depth-300C.p10.tif',
+      'depth-300C.p50.tif',
+      'depth-300C.p90.tif',
+      'summary.json',
+    ]) {
       expect(existsSync(join(outDir, f))).toBe(true);
     }
     const flag = await readGeoTiff(readFileSync(join(outDir, 'inconsistent.tif')).buffer);

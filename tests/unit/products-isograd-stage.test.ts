@@ -18,7 +18,16 @@ describe('the isograd stage of a run', () => {
 
   it('adds the isograds layer and the structure report when the run names samples', async () => {
     const res = await runPipeline(
-      { sites: 'demo-sites', samples: 'demo-samples', faults: 'demo-faults', model: 'demo-model', isothermsC: [300], depthsKm: [5], grid: { cellKm: 5 }, isogradDipDeg: truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.isogradDipDeg },
+      {
+        sites: 'demo-sites',
+        samples: 'demo-samples',
+        faults: 'demo-faults',
+        model: 'demo-model',
+        isothermsC: [300],
+        depthsKm: [5],
+        grid: { cellKm: 5 },
+        isogradDipDeg: truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.isogradDipDeg,
+      },
       datasets,
       { extraLayers: [isogradStage] },
     );
@@ -28,7 +37,9 @@ describe('the isograd stage of a run', () => {
     check(text); // RFC 7946 validity (@placemarkio/check-geojson)
     const gj = JSON.parse(text);
     expect(gj.caution).toBe(CAUTION);
-    expect(new Set(gj.features.map((f: { properties: { mineral: string } }) => f.properties.mineral))).toEqual(new Set(['biotite', 'garnet', 'staurolite', 'kyanite', 'sillimanite']));
+    expect(new Set(gj.features.map((f: { properties: { mineral: string } }) => f.properties.mineral))).toEqual(
+      new Set(['biotite', 'garnet', 'staurolite', 'kyanite', 'sillimanite']),
+    );
     const structure = res.summary.structure as { faults: { id: string; higherSide: string; missingZones: unknown }[] };
     // F1's footwall is the higher-grade side (fixtures/truth.json: builtInOffset.higherGradeSide).
     expect(truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.higherGradeSide).toContain('footwall');
@@ -37,7 +48,9 @@ describe('the isograd stage of a run', () => {
     // and the constructed dip slip (fixtures/truth.json F1.builtInOffset.dipSlipKm, 1.2 km throw on a 60° fault)
     // lies inside most of the ranges, as in the isograds verb.
     const d = truth.faults.find((f: { id: string }) => f.id === 'F1').builtInOffset.dipSlipKm as number;
-    const f1 = (structure.faults as unknown as { id: string; separations: { slipSense?: string; dipSlipKm?: { low: number; high: number } }[] }[]).find((f) => f.id === 'F1')!;
+    const f1 = (structure.faults as unknown as { id: string; separations: { slipSense?: string; dipSlipKm?: { low: number; high: number } }[] }[]).find(
+      (f) => f.id === 'F1',
+    )!;
     expect(f1.separations.length).toBeGreaterThan(0);
     for (const s of f1.separations) expect(s.slipSense).toBe('normal');
     const covered = f1.separations.filter((s) => s.dipSlipKm !== undefined && d >= s.dipSlipKm.low && d <= s.dipSlipKm.high).length;
@@ -52,7 +65,9 @@ describe('the isograd stage of a run', () => {
   });
 
   it('adds nothing when the run has no samples', async () => {
-    const res = await runPipeline({ sites: 'demo-sites', model: 'demo-model', isothermsC: [300], depthsKm: [], grid: { cellKm: 8 } }, datasets, { extraLayers: [isogradStage] });
+    const res = await runPipeline({ sites: 'demo-sites', model: 'demo-model', isothermsC: [300], depthsKm: [], grid: { cellKm: 8 } }, datasets, {
+      extraLayers: [isogradStage],
+    });
     expect(res.layers.some((l) => l.info.name === 'isograds')).toBe(false);
     expect(res.summary.structure).toBeUndefined();
   });

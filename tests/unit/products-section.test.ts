@@ -32,7 +32,18 @@ describe('segmentCrossing', () => {
 
 describe('computeSection crossings', () => {
   it('locates a fault crossing at its geodesic distance along the equator (WGS84 a = 6378137 m: 1° = 111.319 km)', () => {
-    const s = section([[0, 0], [2, 0]], [fault('F', [[1, -0.5], [1, 0.5]])]);
+    const s = section(
+      [
+        [0, 0],
+        [2, 0],
+      ],
+      [
+        fault('F', [
+          [1, -0.5],
+          [1, 0.5],
+        ]),
+      ],
+    );
     expect(s.faultCrossings).toHaveLength(1);
     expect(s.faultCrossings[0].lon).toBeCloseTo(1, 12);
     // On the equator a geodesic shorter than (1 − f)·180° runs along it: s = a·Δλ (NIMA TR8350.2 for a).
@@ -40,14 +51,57 @@ describe('computeSection crossings', () => {
   });
 
   it('counts a trace through a vertex of the line once, and a line through a vertex of the trace once', () => {
-    const throughLineVertex = section([[0, 0], [1, 0], [2, 0]], [fault('F', [[1, -0.5], [1, 0.5]])]);
+    const throughLineVertex = section(
+      [
+        [0, 0],
+        [1, 0],
+        [2, 0],
+      ],
+      [
+        fault('F', [
+          [1, -0.5],
+          [1, 0.5],
+        ]),
+      ],
+    );
     expect(throughLineVertex.faultCrossings.map((c) => c.lon)).toEqual([1]);
-    const throughTraceVertex = section([[0, 0], [2, 0]], [fault('G', [[0.5, -0.5], [0.5, 0], [0.5, 0.5]])]);
+    const throughTraceVertex = section(
+      [
+        [0, 0],
+        [2, 0],
+      ],
+      [
+        fault('G', [
+          [0.5, -0.5],
+          [0.5, 0],
+          [0.5, 0.5],
+        ]),
+      ],
+    );
     expect(throughTraceVertex.faultCrossings.map((c) => c.lon)).toEqual([0.5]);
   });
 
   it('orders crossings by distance along the line and leaves out traces that stay on one side', () => {
-    const s = section([[0, 0], [2, 0]], [fault('far', [[1.5, -1], [1.5, 1]]), fault('near', [[0.25, 1], [0.25, -1]]), fault('apart', [[0, 1], [2, 1]])]);
+    const s = section(
+      [
+        [0, 0],
+        [2, 0],
+      ],
+      [
+        fault('far', [
+          [1.5, -1],
+          [1.5, 1],
+        ]),
+        fault('near', [
+          [0.25, 1],
+          [0.25, -1],
+        ]),
+        fault('apart', [
+          [0, 1],
+          [2, 1],
+        ]),
+      ],
+    );
     expect(s.faultCrossings.map((c) => c.id)).toEqual(['near', 'far']);
   });
 });

@@ -4,12 +4,25 @@ import type { Grid } from '../../shared/grid/grid.ts';
 import { rasterizeZones, cellsInsideRings } from '../../shared/grid/polygon-cells.ts';
 import { classifyFacies } from '../../shared/petrology/index.ts';
 import {
-  basalHeatFlow, columnLimits, compileModel, limitedIsothermDepth, limitedTemperature, lithostaticPressureMPa, nominalModel, solveModelColumn,
+  basalHeatFlow,
+  columnLimits,
+  compileModel,
+  limitedIsothermDepth,
+  limitedTemperature,
+  lithostaticPressureMPa,
+  nominalModel,
+  solveModelColumn,
   type CompiledModel,
 } from '../../shared/thermal/index.ts';
 import { parseModelText } from '../../shared/products/model-input.ts';
 import { applyLayerOverride, overrideFromProperties } from '../../shared/products/overrides.ts';
-import { computeThermalGrids, inconsistencyCounts, planThermalGrids, allocateThermalGridBuffers, computeThermalGridRows } from '../../shared/products/thermal-grids.ts';
+import {
+  computeThermalGrids,
+  inconsistencyCounts,
+  planThermalGrids,
+  allocateThermalGridBuffers,
+  computeThermalGridRows,
+} from '../../shared/products/thermal-grids.ts';
 import { FACIES_CODES, faciesNameOfCode } from '../../shared/products/facies-grid.ts';
 import { InputError } from '../../shared/errors.ts';
 
@@ -45,25 +58,41 @@ describe('model documents', () => {
 describe('layer overrides (amend by name, insert new names by bottomKm, or replace)', () => {
   const base = demo.model;
   it('amends a named layer, removes a field given as null, keeps the rest', () => {
-    const m = applyLayerOverride(base, overrideFromProperties({ layers: [{ name: 'Upper Crust', heatProductionUWm3: 3.5, heatProductionDecayKm: null }] }, 'r')!);
+    const m = applyLayerOverride(
+      base,
+      overrideFromProperties({ layers: [{ name: 'Upper Crust', heatProductionUWm3: 3.5, heatProductionDecayKm: null }] }, 'r')!,
+    );
     expect(m.layers[0].heatProductionUWm3).toBe(3.5);
     expect(m.layers[0].heatProductionDecayKm).toBeUndefined();
     expect(m.layers[0].conductivityWmK).toBe(3);
     expect(m.layers.slice(1)).toEqual(base.layers.slice(1));
   });
   it('inserts a new layer where its bottom falls, the layer below now starting at its bottom', () => {
-    const m = applyLayerOverride(base, overrideFromProperties({ layers: [{ name: 'basin fill', bottomKm: 3, conductivityWmK: 2, heatProductionUWm3: 1, densityKgM3: 2300 }] }, 'r')!);
+    const m = applyLayerOverride(
+      base,
+      overrideFromProperties({ layers: [{ name: 'basin fill', bottomKm: 3, conductivityWmK: 2, heatProductionUWm3: 1, densityKgM3: 2300 }] }, 'r')!,
+    );
     expect(m.layers.map((l) => l.name)).toEqual(['basin fill', 'upper crust', 'middle crust', 'lower crust', 'upper mantle']);
     expect(m.layers.map((l) => l.bottomKm)).toEqual([3, 15, 25, 35, 60]);
   });
   it('replaces the whole stack with mode "replace"', () => {
-    const m = applyLayerOverride(base, overrideFromProperties({ mode: 'replace', layers: [{ name: 'one', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2700 }] }, 'r')!);
+    const m = applyLayerOverride(
+      base,
+      overrideFromProperties(
+        { mode: 'replace', layers: [{ name: 'one', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2700 }] },
+        'r',
+      )!,
+    );
     expect(m.layers).toHaveLength(1);
     expect(m.surfaceTemperatureC).toBe(12);
   });
   it('names the region and layer of a bad override', () => {
     const err = (props: Record<string, unknown>) => {
-      try { applyLayerOverride(base, overrideFromProperties(props, 'regions[3] (basin)')!); } catch (e) { return e as InputError; }
+      try {
+        applyLayerOverride(base, overrideFromProperties(props, 'regions[3] (basin)')!);
+      } catch (e) {
+        return e as InputError;
+      }
       return null;
     };
     expect(err({ layers: [{ heatProductionUWm3: 1 }] })?.message).toContain('regions[3] (basin)');
@@ -76,9 +105,42 @@ describe('layer overrides (amend by name, insert new names by bottomKm, or repla
 describe('zone rasterisation (even–odd, by cell centre)', () => {
   const spec = { width: 10, height: 10, west: 0, north: 10, dx: 1, dy: 1, crs: 'EPSG:4326' };
   it('marks the cells whose centres are inside, holes excluded, later polygons on top', () => {
-    const square = [[[2, 2], [8, 2], [8, 8], [2, 8], [2, 2]]];
-    const withHole = [[[2, 2], [8, 2], [8, 8], [2, 8], [2, 2]], [[4, 4], [6, 4], [6, 6], [4, 6], [4, 4]]];
-    const z = rasterizeZones(spec, [withHole, [[[0, 0], [3, 0], [3, 3], [0, 3]]]]);
+    const square = [
+      [
+        [2, 2],
+        [8, 2],
+        [8, 8],
+        [2, 8],
+        [2, 2],
+      ],
+    ];
+    const withHole = [
+      [
+        [2, 2],
+        [8, 2],
+        [8, 8],
+        [2, 8],
+        [2, 2],
+      ],
+      [
+        [4, 4],
+        [6, 4],
+        [6, 6],
+        [4, 6],
+        [4, 4],
+      ],
+    ];
+    const z = rasterizeZones(spec, [
+      withHole,
+      [
+        [
+          [0, 0],
+          [3, 0],
+          [3, 3],
+          [0, 3],
+        ],
+      ],
+    ]);
     // Centres x = c + 0.5: the square [2, 8] holds columns 2..7; rows from the north: y = 9.5 − r, rows 2..7.
     let inFirst = 0;
     for (let i = 0; i < 100; i++) if (z[i] === 1) inFirst++;
@@ -91,19 +153,33 @@ describe('zone rasterisation (even–odd, by cell centre)', () => {
 });
 
 describe('thermal grids equal the single-column engine cell by cell', () => {
-  const q = heatFlowGrid(23, 17, (c, r) => 35 + 3.1 * c + 2.3 * r + (c * r) % 7);
+  const q = heatFlowGrid(23, 17, (c, r) => 35 + 3.1 * c + 2.3 * r + ((c * r) % 7));
   q.values[5] = NaN; // no data stays no data
   q.values[40] = 20; // below the model's total heat production (≈ 27 mW/m²): inconsistent
   const base = compileModel(nominalModel(demo.model), { maxDepthKm: 60 });
-  const region = applyLayerOverride(demo.model, overrideFromProperties({ layers: [{ name: 'basin fill', bottomKm: 4, conductivityWmK: 1.8, heatProductionUWm3: 1.2, densityKgM3: 2300 }] }, 'basin')!);
+  const region = applyLayerOverride(
+    demo.model,
+    overrideFromProperties({ layers: [{ name: 'basin fill', bottomKm: 4, conductivityWmK: 1.8, heatProductionUWm3: 1.2, densityKgM3: 2300 }] }, 'basin')!,
+  );
   const cmRegion = compileModel(nominalModel(region), { maxDepthKm: 60 });
-  const zones = rasterizeZones(q, [[[[11.0, 49.0], [12.0, 49.0], [12.0, 48.6], [11.0, 48.6]]]]);
+  const zones = rasterizeZones(q, [
+    [
+      [
+        [11.0, 49.0],
+        [12.0, 49.0],
+        [12.0, 48.6],
+        [11.0, 48.6],
+      ],
+    ],
+  ]);
   const models = [base, cmRegion];
   const spec = { heatFlow: q, models, zones, isothermsC: [150, 300, 500], depthsKm: [3, 5, 10], faciesDepthKm: 12, maxDepthKm: 60 };
   const out = computeThermalGrids(spec);
 
-  it('matches the engine\'s limited column (isotherms, temperatures, melt onset, wet solidus), basal heat flow and the facies classifier', () => {
-    let zoneCells = 0, checked = 0, melting = 0;
+  it("matches the engine's limited column (isotherms, temperatures, melt onset, wet solidus), basal heat flow and the facies classifier", () => {
+    let zoneCells = 0,
+      checked = 0,
+      melting = 0;
     for (let i = 0; i < q.values.length; i += 3) {
       const q0 = q.values[i];
       const cm: CompiledModel = models[zones[i]];
@@ -170,7 +246,10 @@ describe('thermal grids equal the single-column engine cell by cell', () => {
   it('reproduces the Turcotte & Schubert worked case in a grid cell', () => {
     // Turcotte & Schubert (2002) §4-8, T0 = 10 °C, q0 = 60 mW/m², A0 = 2.5 µW/m³, hr = 10 km, k = 2.5 W/m/K:
     // depth to 300 °C = 15.1426 km, T(10 km) = 213.212 °C (docs/sources.md#geotherm-exponential [derived]).
-    const ts = compileModel({ surfaceTemperatureC: 10, layers: [{ bottomKm: 60, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 }] }, { maxDepthKm: 60 });
+    const ts = compileModel(
+      { surfaceTemperatureC: 10, layers: [{ bottomKm: 60, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 }] },
+      { maxDepthKm: 60 },
+    );
     const g = heatFlowGrid(2, 1, () => 60);
     const o = computeThermalGrids({ heatFlow: g, models: [ts], isothermsC: [300], depthsKm: [10], maxDepthKm: 60, solidus: false });
     expect(o.isothermDepthKm[0][1]).toBeCloseTo(15.1426, 3);

@@ -16,7 +16,8 @@ function grid(width: number, height: number, f: (c: number, r: number) => number
   return { width, height, values, west: -128.5, north: -37.5, dx: 0.05, dy: 0.05, crs: 'EPSG:4326', units: 'mW/m²' };
 }
 
-const W = 9, H = 15;
+const W = 9,
+  H = 15;
 const q = grid(W, H, (c, r) => 45 + 4 * c + 2.5 * r);
 q.values[17] = NaN;
 const sd = grid(W, H, (c, r) => 3 + 0.5 * ((c + r) % 5));
@@ -58,24 +59,41 @@ describe('grid Monte Carlo percentiles', () => {
       // quantile, Abramowitz & Stegun 1964 Table 26.5). Depths from the closed form of Turcotte & Schubert (2002)
       // §4-8 (constant k, exponential A): T(z) = T0 + qm·z/k + (A0·hr²/k)(1 − e^(−z/hr)), qm = q − A0·hr, solved by
       // bisection here. Sample-quantile error σ·√(p(1 − p)/N)/φ(z_p) (from memory) through dz/dq, 4 of them allowed.
-      const model = parseModelText(JSON.stringify({
-        surfaceTemperatureC: 10,
-        layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: 2.5, heatProductionUWm3: 2, heatProductionDecayKm: 10, densityKgM3: 2700 }],
-      })).model;
+      const model = parseModelText(
+        JSON.stringify({
+          surfaceTemperatureC: 10,
+          layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: 2.5, heatProductionUWm3: 2, heatProductionDecayKm: 10, densityKgM3: 2700 }],
+        }),
+      ).model;
       const tsDepth = (q0: number, t: number) => {
         const T = (z: number) => 10 + ((q0 - 20) * z) / 2.5 + ((2 * 100) / 2.5) * (1 - Math.exp(-z / 10));
-        let lo = 0, hi = 60;
-        for (let i = 0; i < 80; i++) { const mid = (lo + hi) / 2; if (T(mid) < t) lo = mid; else hi = mid; }
+        let lo = 0,
+          hi = 60;
+        for (let i = 0; i < 80; i++) {
+          const mid = (lo + hi) / 2;
+          if (T(mid) < t) lo = mid;
+          else hi = mid;
+        }
         return (lo + hi) / 2;
       };
       const N = 1501;
-      const hf = grid(3, 2, (c, r) => 60 + 8 * c + 5 * r), hfSd = grid(3, 2, (c) => 3 + 2 * c);
-      const u = computeUncertainty({ heatFlow: hf, heatFlowSd: hfSd, models: [model], isothermsC: [300], maxDepthKm: 60, realizations: N, seed: 5, heatFlowErrorCorrelation: corr }, 2);
-      const z90 = 1.2815516, phi = (z: number) => Math.exp((-z * z) / 2) / Math.sqrt(2 * Math.PI);
+      const hf = grid(3, 2, (c, r) => 60 + 8 * c + 5 * r),
+        hfSd = grid(3, 2, (c) => 3 + 2 * c);
+      const u = computeUncertainty(
+        { heatFlow: hf, heatFlowSd: hfSd, models: [model], isothermsC: [300], maxDepthKm: 60, realizations: N, seed: 5, heatFlowErrorCorrelation: corr },
+        2,
+      );
+      const z90 = 1.2815516,
+        phi = (z: number) => Math.exp((-z * z) / 2) / Math.sqrt(2 * Math.PI);
       for (let i = 0; i < 6; i++) {
-        const q0 = hf.values[i], sdq = hfSd.values[i];
+        const q0 = hf.values[i],
+          sdq = hfSd.values[i];
         const slope = Math.abs(tsDepth(q0 + 0.5, 300) - tsDepth(q0 - 0.5, 300));
-        for (const [p, zq, key] of [[0.1, z90, 'p10'], [0.5, 0, 'p50'], [0.9, -z90, 'p90']] as const) {
+        for (const [p, zq, key] of [
+          [0.1, z90, 'p10'],
+          [0.5, 0, 'p50'],
+          [0.9, -z90, 'p90'],
+        ] as const) {
           const tol = (4 * slope * sdq * Math.sqrt((p * (1 - p)) / N)) / phi(zq);
           expect(Math.abs(u.isotherms[0][key][i] - tsDepth(q0 + zq * sdq, 300))).toBeLessThan(tol + 1e-3);
         }
@@ -87,8 +105,19 @@ describe('grid Monte Carlo percentiles', () => {
     // A cold cell: 500 °C is reached in few realizations above 20 km (maxDepth), so P90 (and P50) are NoData while
     // P10 may be finite; type-7 quantile of a sorted sample with +∞ at the end (Hyndman & Fan 1996).
     const cold = grid(1, 1, () => 50);
-    const u = computeUncertainty({ heatFlow: cold, heatFlowSd: grid(1, 1, () => 8), models: [uncertain], isothermsC: [500], maxDepthKm: 25, realizations: 200, seed: 7 }, 1);
-    const col = monteCarloColumn(uncertain, { realizations: 200, seed: 7, isothermsC: [500], depthsKm: [], maxDepthKm: 25, solidus: false, heatFlowMWm2: { dist: 'normal', mean: 50, sd: 8 } });
+    const u = computeUncertainty(
+      { heatFlow: cold, heatFlowSd: grid(1, 1, () => 8), models: [uncertain], isothermsC: [500], maxDepthKm: 25, realizations: 200, seed: 7 },
+      1,
+    );
+    const col = monteCarloColumn(uncertain, {
+      realizations: 200,
+      seed: 7,
+      isothermsC: [500],
+      depthsKm: [],
+      maxDepthKm: 25,
+      solidus: false,
+      heatFlowMWm2: { dist: 'normal', mean: 50, sd: 8 },
+    });
     expect(col.isothermDepthsKm[0].finite).toBeLessThan(col.isothermDepthsKm[0].n * 0.9);
     expect(u.isotherms[0].p90[0]).toBeNaN();
     expect(quantileSorted([1, 2, Infinity], 0, 3, 0.9)).toBeNaN();

@@ -16,21 +16,58 @@ const dir = mkdtempSync(join(root, '.tmp', 'heat-in-place-cli-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 // Heat flow of the invented demo region (fixtures/field.ts) on a small lon/lat grid, and a constant sd.
-const W = 40, H = 32, west = -129, north = -37.2, dx = 2 / W, dy = 1.6 / H;
+const W = 40,
+  H = 32,
+  west = -129,
+  north = -37.2,
+  dx = 2 / W,
+  dy = 1.6 / H;
 const base = { width: W, height: H, west, north, dx, dy, crs: 'EPSG:4326' };
 const hfValues = new Float32Array(W * H);
-for (let r = 0; r < H; r++) for (let c = 0; c < W; c++) {
-  const [x, y] = kmFromLonLat(west + (c + 0.5) * dx, north - (r + 0.5) * dy);
-  hfValues[r * W + c] = trueHeatFlowMWm2(x, y);
-}
+for (let r = 0; r < H; r++)
+  for (let c = 0; c < W; c++) {
+    const [x, y] = kmFromLonLat(west + (c + 0.5) * dx, north - (r + 0.5) * dy);
+    hfValues[r * W + c] = trueHeatFlowMWm2(x, y);
+  }
 const hf: Grid = { ...base, values: hfValues, units: 'mW/m²' };
 const sd: Grid = { ...base, values: new Float32Array(W * H).fill(6), units: 'mW/m²' };
-const hfPath = join(dir, 'hf.tif'), sdPath = join(dir, 'hf.sd.tif'), polyPath = join(dir, 'area.geojson'), offPath = join(dir, 'off.geojson');
+const hfPath = join(dir, 'hf.tif'),
+  sdPath = join(dir, 'hf.sd.tif'),
+  polyPath = join(dir, 'area.geojson'),
+  offPath = join(dir, 'off.geojson');
 writeFileSync(hfPath, Buffer.from(writeGeoTiff(hf)));
 writeFileSync(sdPath, Buffer.from(writeGeoTiff(sd)));
-const polygon = { type: 'Feature', properties: { name: '<b>Rift</b> & "block"' }, geometry: { type: 'Polygon', coordinates: [[[-128.8, -37.4], [-128.0, -37.4], [-128.0, -38.2], [-128.8, -38.2], [-128.8, -37.4]]] } };
+const polygon = {
+  type: 'Feature',
+  properties: { name: '<b>Rift</b> & "block"' },
+  geometry: {
+    type: 'Polygon',
+    coordinates: [
+      [
+        [-128.8, -37.4],
+        [-128.0, -37.4],
+        [-128.0, -38.2],
+        [-128.8, -38.2],
+        [-128.8, -37.4],
+      ],
+    ],
+  },
+};
 writeFileSync(polyPath, JSON.stringify(polygon));
-writeFileSync(offPath, JSON.stringify({ type: 'Polygon', coordinates: [[[10, 10], [11, 10], [11, 11], [10, 10]]] }));
+writeFileSync(
+  offPath,
+  JSON.stringify({
+    type: 'Polygon',
+    coordinates: [
+      [
+        [10, 10],
+        [11, 10],
+        [11, 11],
+        [10, 10],
+      ],
+    ],
+  }),
+);
 const modelPath = join(root, 'fixtures/demo/model-uncertain.json');
 
 function run(args: string[]) {
@@ -40,8 +77,27 @@ function run(args: string[]) {
 
 describe('subtherm heat-in-place', () => {
   it('prints the report JSON and writes CSV and HTML', () => {
-    const csv = join(dir, 'r.csv'), html = join(dir, 'r.html');
-    const r = run(['--heat-flow', hfPath, '--heat-flow-sd', sdPath, '--model', modelPath, '--polygon', polyPath, '--realizations', '40', '--seed', '5', '--out-csv', csv, '--out-html', html, '--json']);
+    const csv = join(dir, 'r.csv'),
+      html = join(dir, 'r.html');
+    const r = run([
+      '--heat-flow',
+      hfPath,
+      '--heat-flow-sd',
+      sdPath,
+      '--model',
+      modelPath,
+      '--polygon',
+      polyPath,
+      '--realizations',
+      '40',
+      '--seed',
+      '5',
+      '--out-csv',
+      csv,
+      '--out-html',
+      html,
+      '--json',
+    ]);
     expect(r.err).toBe('');
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
@@ -109,9 +165,31 @@ describe('heat-in-place job routes', () => {
     t = await startTestApp('hip');
     // A finished run holding the same grids and model the CLI reads from files.
     const now = new Date().toISOString();
-    await t.store.putRun({ id: 'run_hip', cacheKey: 'hip', request: { sites: 'demo-sites', model: 'demo-model' }, status: 'done', progress: 1, message: 'done', layers: [], summary: {}, warnings: [], model, grids: [], client: 'test', createdAt: now, updatedAt: now });
+    await t.store.putRun({
+      id: 'run_hip',
+      cacheKey: 'hip',
+      request: { sites: 'demo-sites', model: 'demo-model' },
+      status: 'done',
+      progress: 1,
+      message: 'done',
+      layers: [],
+      summary: {},
+      warnings: [],
+      model,
+      grids: [],
+      client: 'test',
+      createdAt: now,
+      updatedAt: now,
+    });
     const meta = (g: Grid) => ({ width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: 'mW/m²' });
-    await t.store.storeRunResult('run_hip', { files: [], grids: [{ name: 'heatFlow', meta: meta(hf), values: hf.values }, { name: 'heatFlowSd', meta: meta(sd), values: sd.values }], record: { grids: ['heatFlow', 'heatFlowSd'] } });
+    await t.store.storeRunResult('run_hip', {
+      files: [],
+      grids: [
+        { name: 'heatFlow', meta: meta(hf), values: hf.values },
+        { name: 'heatFlowSd', meta: meta(sd), values: sd.values },
+      ],
+      record: { grids: ['heatFlow', 'heatFlowSd'] },
+    });
   });
   afterAll(async () => await t?.close());
   const waitJob = async (url: string): Promise<Response> => {
@@ -136,7 +214,21 @@ describe('heat-in-place job routes', () => {
     expect(done.status).toBe(200);
     const report = (await done.json()) as Record<string, unknown>;
     // Reference: the CLI (`subtherm heat-in-place --json`) on the same grids, model, polygon and seed.
-    const cli = run(['--heat-flow', hfPath, '--heat-flow-sd', sdPath, '--model', modelPath, '--polygon', polyPath, '--realizations', '40', '--seed', '5', '--json']);
+    const cli = run([
+      '--heat-flow',
+      hfPath,
+      '--heat-flow-sd',
+      sdPath,
+      '--model',
+      modelPath,
+      '--polygon',
+      polyPath,
+      '--realizations',
+      '40',
+      '--seed',
+      '5',
+      '--json',
+    ]);
     expect(cli.code).toBe(0);
     const ref = JSON.parse(cli.out) as Record<string, unknown>;
     for (const k of ['cells', 'areaKm2', 'heatInPlaceJ', 'electricMWe', 'monteCarlo', 'method']) expect(report[k]).toEqual(ref[k]);

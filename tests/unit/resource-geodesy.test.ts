@@ -20,7 +20,13 @@ describe('ellipsoidal cell area (authalic formula, Snyder 1987 eq. 3-12)', () =>
   it('matches geographiclib-geodesic polygon areas of densified cells to 1e-7', () => {
     // Reference: geographiclib-geodesic (Karney 2013) PolygonArea; parallels densified so geodesic chords follow them
     // (the chord/parallel gap shrinks as 1/n², about 1e-9 of the area here).
-    for (const [s, n, dl] of [[-38.5, -37.5, 1], [0, 0.5, 0.5], [60, 61, 2], [-89, -85, 10], [-38.01, -38, 0.01]]) {
+    for (const [s, n, dl] of [
+      [-38.5, -37.5, 1],
+      [0, 0.5, 0.5],
+      [60, 61, 2],
+      [-89, -85, 10],
+      [-38.01, -38, 0.01],
+    ]) {
       const ours = lonLatCellAreaM2(s, n, dl);
       const ref = geographiclibCellArea(s, n, 10, 10 + dl);
       expect(Math.abs(ours - ref) / ref).toBeLessThan(1e-7);
@@ -34,7 +40,18 @@ describe('ellipsoidal cell area (authalic formula, Snyder 1987 eq. 3-12)', () =>
   });
 
   it('differs from the spherical @turf/area by up to about 1 % (which is why it is not used)', () => {
-    const cell = (s: number) => ({ type: 'Polygon' as const, coordinates: [[[0, s], [0.1, s], [0.1, s + 0.1], [0, s + 0.1], [0, s]]] });
+    const cell = (s: number) => ({
+      type: 'Polygon' as const,
+      coordinates: [
+        [
+          [0, s],
+          [0.1, s],
+          [0.1, s + 0.1],
+          [0, s + 0.1],
+          [0, s],
+        ],
+      ],
+    });
     const rel = (s: number) => area(cell(s)) / lonLatCellAreaM2(s, s + 0.1, 0.1) - 1;
     // From the radii of curvature: the sphere (R = 6371008.8 m) is about +0.45 % at the equator, −0.9 % near a pole.
     expect(rel(0)).toBeGreaterThan(0.003);
@@ -56,8 +73,20 @@ describe('ellipsoidal cell area (authalic formula, Snyder 1987 eq. 3-12)', () =>
 
 describe('polygon area (geographiclib-geodesic)', () => {
   it('subtracts holes and adds the parts of a MultiPolygon', () => {
-    const outer = [[-128.5, -38.5], [-127.5, -38.5], [-127.5, -37.5], [-128.5, -37.5], [-128.5, -38.5]];
-    const hole = [[-128.2, -38.2], [-128.2, -37.8], [-127.8, -37.8], [-127.8, -38.2], [-128.2, -38.2]];
+    const outer = [
+      [-128.5, -38.5],
+      [-127.5, -38.5],
+      [-127.5, -37.5],
+      [-128.5, -37.5],
+      [-128.5, -38.5],
+    ];
+    const hole = [
+      [-128.2, -38.2],
+      [-128.2, -37.8],
+      [-127.8, -37.8],
+      [-127.8, -38.2],
+      [-128.2, -38.2],
+    ];
     const a = geodesicPolygonAreaM2({ type: 'Polygon', coordinates: [outer] });
     const h = geodesicPolygonAreaM2({ type: 'Polygon', coordinates: [hole] });
     expect(geodesicPolygonAreaM2({ type: 'Polygon', coordinates: [outer, hole] })).toBeCloseTo(a - h, 0);
@@ -73,11 +102,18 @@ describe('polygon membership (cell centre inside)', () => {
   const rng = createStream(7, 0);
   const star: number[][] = [];
   for (let i = 0; i < 14; i++) {
-    const a = (2 * Math.PI * i) / 14, r = i % 2 ? 0.5 : 1.0 + 0.2 * rng.uniform();
+    const a = (2 * Math.PI * i) / 14,
+      r = i % 2 ? 0.5 : 1.0 + 0.2 * rng.uniform();
     star.push([-127.85 + 0.9 * r * Math.cos(a), -37.8 + 0.7 * r * Math.sin(a)]);
   }
   star.push(star[0]);
-  const hole = [[-127.9, -37.85], [-127.8, -37.85], [-127.8, -37.75], [-127.9, -37.75], [-127.9, -37.85]];
+  const hole = [
+    [-127.9, -37.85],
+    [-127.8, -37.85],
+    [-127.8, -37.75],
+    [-127.9, -37.75],
+    [-127.9, -37.85],
+  ];
   const geom = { type: 'Polygon' as const, coordinates: [star, hole] };
 
   it('scanline and point tests agree with turf for a star with a hole', () => {

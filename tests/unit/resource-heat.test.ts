@@ -48,7 +48,7 @@ describe('worked example of the volumetric method (docs/sources.md#heat-in-place
     // A 1000 m column whose ∫(T − Tref)dz = 185 K × 1000 m has mean TR = 200 °C.
     expect(exergyIntegral(185_000, 1000, 288.15) / 185_000).toBeCloseTo(availableWorkFraction(200, 15), 12);
     // Tiny excess temperature: the series branch agrees with the direct form.
-    expect(exergyIntegral(1e-3, 1000, 288.15)).toBeCloseTo((1e-3) ** 2 / (2 * 1000 * 288.15), 18);
+    expect(exergyIntegral(1e-3, 1000, 288.15)).toBeCloseTo(1e-3 ** 2 / (2 * 1000 * 288.15), 18);
   });
 });
 
@@ -72,8 +72,12 @@ describe('column heat against closed forms', () => {
   it('linear geotherm (k constant, A = 0): ∫(T − Tref) dz in closed form', () => {
     // T = T0 + q·z/k (Turcotte & Schubert 2002 §4-6 with A = 0): T0 15, q 90 mW/m², k 2.5 → 36 K/km; Tmin 150 °C at
     // z* = 135/36 = 3.75 km; G = 1000·[(T0 − Tref)(zb − z*) + q/(2k)(zb² − z*²)] = 628,875 K·m, h = 3250 m.
-    const cm = compileModel({ surfaceTemperatureC: 15, layers: [{ bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 0, densityKgM3: 2700 }] }, { maxDepthKm: 7 });
-    const st = new ColumnState(1), out = emptyColumnHeat();
+    const cm = compileModel(
+      { surfaceTemperatureC: 15, layers: [{ bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 0, densityKgM3: 2700 }] },
+      { maxDepthKm: 7 },
+    );
+    const st = new ColumnState(1),
+      out = emptyColumnHeat();
     columnHeat(cm, 90, 15, window, st, new ColumnHeatScratch(), out);
     expect(out.heatKm).toBeCloseTo(628_875, 6);
     expect(out.thicknessM).toBeCloseTo(3250, 9);
@@ -81,7 +85,8 @@ describe('column heat against closed forms', () => {
     expect(15 + out.heatKm / out.thicknessM).toBeCloseTo(208.5, 9);
     // Available work integrated over the profile: X = ∫[(T − T0) − T0·ln(T/T0)] dz (kelvin) = [F(Tb) − F(Ta)]/γ with
     // F(u) = u²/2 − T0·u·ln(u/T0) (antiderivative in u), γ = 0.036 K/m, Ta = 150 °C, Tb = 267 °C.
-    const t0 = 288.15, tr = 208.5 + 273.15;
+    const t0 = 288.15,
+      tr = 208.5 + 273.15;
     const F = (u: number) => (u * u) / 2 - t0 * u * Math.log(u / t0);
     expect(out.exergyKm).toBeCloseTo((F(267 + 273.15) - F(150 + 273.15)) / 0.036, 4);
     // From the mean temperature instead the value is lower (the integrand is convex in T).
@@ -91,10 +96,24 @@ describe('column heat against closed forms', () => {
   it('constant heat production, two layers: closed form per layer', () => {
     // Layer 1 (0–5 km): T = T0 + q0·z/k1 − A·z²/(2k1) (Turcotte & Schubert 2002 §4-6); layer 2 continues with the
     // flow q0 − A·5 km and k2. Integral of each quadratic in closed form.
-    const k1 = 2.5, k2 = 3.2, A = 1.5, q0 = 95, T0 = 12;
-    const cm = compileModel({ surfaceTemperatureC: T0, layers: [{ bottomKm: 5, conductivityWmK: k1, heatProductionUWm3: A, densityKgM3: 2700 }, { bottomKm: 30, conductivityWmK: k2, heatProductionUWm3: 0, densityKgM3: 2800 }] }, { maxDepthKm: 7 });
+    const k1 = 2.5,
+      k2 = 3.2,
+      A = 1.5,
+      q0 = 95,
+      T0 = 12;
+    const cm = compileModel(
+      {
+        surfaceTemperatureC: T0,
+        layers: [
+          { bottomKm: 5, conductivityWmK: k1, heatProductionUWm3: A, densityKgM3: 2700 },
+          { bottomKm: 30, conductivityWmK: k2, heatProductionUWm3: 0, densityKgM3: 2800 },
+        ],
+      },
+      { maxDepthKm: 7 },
+    );
     const T1 = (z: number) => T0 + (q0 * z) / k1 - (A * z * z) / (2 * k1);
-    const q5 = q0 - A * 5, T5 = T1(5);
+    const q5 = q0 - A * 5,
+      T5 = T1(5);
     const T2 = (z: number) => T5 + (q5 * (z - 5)) / k2;
     // Root of T1 = 150 in layer 1: z = [q0 − √(q0² − 2Ak(T − T0))]/A (Turcotte & Schubert §4-6).
     const zs = (q0 - Math.sqrt(q0 * q0 - 2 * A * k1 * (150 - T0))) / A;
@@ -103,7 +122,8 @@ describe('column heat against closed forms', () => {
     const I1 = (z: number) => (T0 - 15) * z + (q0 * z * z) / (2 * k1) - (A * z ** 3) / (6 * k1);
     const I2 = (z: number) => (T5 - 15) * (z - 5) + (q5 * (z - 5) ** 2) / (2 * k2);
     const G = 1000 * (I1(5) - I1(zs) + I2(7));
-    const st = new ColumnState(2), out = emptyColumnHeat();
+    const st = new ColumnState(2),
+      out = emptyColumnHeat();
     columnHeat(cm, q0, T0, window, st, new ColumnHeatScratch(), out);
     expect(T2(7)).toBeGreaterThan(150);
     expect(out.heatKm / G).toBeCloseTo(1, 12);
@@ -112,7 +132,9 @@ describe('column heat against closed forms', () => {
 
   it('no heat when Tmin is not reached, and Tmin above the window counts the whole window', () => {
     const cm = compileModel({ surfaceTemperatureC: 15, layers: [{ bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 0 }] }, { maxDepthKm: 7 });
-    const st = new ColumnState(1), out = emptyColumnHeat(), sc = new ColumnHeatScratch();
+    const st = new ColumnState(1),
+      out = emptyColumnHeat(),
+      sc = new ColumnHeatScratch();
     columnHeat(cm, 40, 15, window, st, sc, out); // 16 K/km: 127 °C at 7 km
     expect(out.heatKm).toBe(0);
     expect(out.thicknessM).toBe(0);
@@ -125,8 +147,11 @@ describe('column heat against closed forms', () => {
   it('quadrature error on the k(T), exponential-A demo model is below 1e-12 of the integral', () => {
     // Bound against the same rule on 256 sub-intervals per piece (a much finer rule).
     const cm = compileModel(nominalModel(demo), { maxDepthKm: 7 });
-    const st = new ColumnState(cm.nLayers), a = emptyColumnHeat(), b = emptyColumnHeat();
-    const coarse = new ColumnHeatScratch(), fine = new ColumnHeatScratch(10, 256);
+    const st = new ColumnState(cm.nLayers),
+      a = emptyColumnHeat(),
+      b = emptyColumnHeat();
+    const coarse = new ColumnHeatScratch(),
+      fine = new ColumnHeatScratch(10, 256);
     let worst = 0;
     for (let q = 55; q <= 140; q += 5) {
       columnHeat(cm, q, 12, window, st, coarse, a);
@@ -135,7 +160,16 @@ describe('column heat against closed forms', () => {
     }
     expect(worst).toBeLessThan(1e-12);
     // A layer boundary inside the window (5 km in this two-layer model) is a kink handled as a piece end.
-    const two = compileModel({ surfaceTemperatureC: 10, layers: [{ bottomKm: 5, conductivityWmK: 2.2, conductivityTempCoeffPerK: 0.0015, heatProductionUWm3: 2.5, heatProductionDecayKm: 8 }, { bottomKm: 40, conductivityWmK: 3.1, conductivityTempCoeffPerK: 0.001, heatProductionUWm3: 0.5 }] }, { maxDepthKm: 7 });
+    const two = compileModel(
+      {
+        surfaceTemperatureC: 10,
+        layers: [
+          { bottomKm: 5, conductivityWmK: 2.2, conductivityTempCoeffPerK: 0.0015, heatProductionUWm3: 2.5, heatProductionDecayKm: 8 },
+          { bottomKm: 40, conductivityWmK: 3.1, conductivityTempCoeffPerK: 0.001, heatProductionUWm3: 0.5 },
+        ],
+      },
+      { maxDepthKm: 7 },
+    );
     const s2 = new ColumnState(2);
     columnHeat(two, 100, 10, window, s2, coarse, a);
     columnHeat(two, 100, 10, window, s2, fine, b);
@@ -147,12 +181,18 @@ describe('column heat against closed forms', () => {
 describe('heat-flow table (one per realization)', () => {
   it('interpolates G, X and h within 1e-7 of the largest value, across the kinks', () => {
     const cm = compileModel(nominalModel(demo), { maxDepthKm: 7 });
-    const st = new ColumnState(cm.nLayers), sc = new ColumnHeatScratch(), ch = emptyColumnHeat();
+    const st = new ColumnState(cm.nLayers),
+      sc = new ColumnHeatScratch(),
+      ch = emptyColumnHeat();
     const t = buildHeatTable(cm, 12, DEFAULT_WINDOW, 20, 200, st, sc);
     // Kinks where the 150 °C isotherm crosses 7 km and 3 km are segment ends.
     expect(t.ends.length).toBeGreaterThanOrEqual(4);
     const o = new Float64Array(3);
-    let eG = 0, eX = 0, eH = 0, mG = 0, mX = 0;
+    let eG = 0,
+      eX = 0,
+      eH = 0,
+      mG = 0,
+      mX = 0;
     for (let i = 0; i <= 5000; i++) {
       const q = 20 + (180 * i) / 5000;
       expect(lookupHeatTable(t, q, o)).toBe(true);

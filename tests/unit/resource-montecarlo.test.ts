@@ -20,19 +20,35 @@ const uncertain = parseThermalModel(JSON.parse(readFileSync(new URL('../../fixtu
 
 // A small lon/lat grid over the invented demo region, heat flow from the demo's truth (fixtures/field.ts).
 function demoGrid(W: number, H: number): { hf: Grid; sd: Grid } {
-  const west = -129, north = -37.2, dx = 2 / W, dy = 1.6 / H;
-  const v = new Float32Array(W * H), s = new Float32Array(W * H);
-  for (let r = 0; r < H; r++) for (let c = 0; c < W; c++) {
-    const [x, y] = kmFromLonLat(west + (c + 0.5) * dx, north - (r + 0.5) * dy);
-    v[r * W + c] = trueHeatFlowMWm2(x, y);
-    s[r * W + c] = 3 + (c % 5);
-  }
+  const west = -129,
+    north = -37.2,
+    dx = 2 / W,
+    dy = 1.6 / H;
+  const v = new Float32Array(W * H),
+    s = new Float32Array(W * H);
+  for (let r = 0; r < H; r++)
+    for (let c = 0; c < W; c++) {
+      const [x, y] = kmFromLonLat(west + (c + 0.5) * dx, north - (r + 0.5) * dy);
+      v[r * W + c] = trueHeatFlowMWm2(x, y);
+      s[r * W + c] = 3 + (c % 5);
+    }
   v[5] = NaN; // one no-data cell
   const base = { width: W, height: H, west, north, dx, dy, crs: 'EPSG:4326' };
   return { hf: { ...base, values: v, units: 'mW/m²' }, sd: { ...base, values: s, units: 'mW/m²' } };
 }
 
-const POLY = { type: 'Polygon' as const, coordinates: [[[-128.8, -37.4], [-128.0, -37.4], [-127.6, -38.2], [-128.8, -38.2], [-128.8, -37.4]]] };
+const POLY = {
+  type: 'Polygon' as const,
+  coordinates: [
+    [
+      [-128.8, -37.4],
+      [-128.0, -37.4],
+      [-127.6, -38.2],
+      [-128.8, -38.2],
+      [-128.8, -37.4],
+    ],
+  ],
+};
 
 function spec(hf: Grid, sd: Grid | undefined, N: number, seed: number, extra: Partial<ResourceSpec> = {}): ResourceSpec {
   return {
@@ -42,7 +58,12 @@ function spec(hf: Grid, sd: Grid | undefined, N: number, seed: number, extra: Pa
     width: hf.width,
     rowAreaM2: gridRowAreasM2(hf).rowAreaM2,
     window: { topKm: 3, bottomKm: 7, minTempC: 150, refTempC: 15 },
-    parameters: { rhoCMJm3K: 2.7, recoveryFactor: { dist: 'triangular', min: 0.05, mode: 0.1, max: 0.2 }, utilizationEfficiency: { dist: 'uniform', min: 0.35, max: 0.45 }, lifeYears: 30 },
+    parameters: {
+      rhoCMJm3K: 2.7,
+      recoveryFactor: { dist: 'triangular', min: 0.05, mode: 0.1, max: 0.2 },
+      utilizationEfficiency: { dist: 'uniform', min: 0.35, max: 0.45 },
+      lifeYears: 30,
+    },
     realizations: N,
     seed,
     ...extra,
@@ -59,7 +80,9 @@ describe('heat in place over a grid', () => {
     const out = allocateResourceOutput(prep);
     resourceRange(prep, 0, prep.cells, out);
     const t = areaTotals(prep, combineSums(prep, out))[0];
-    let nomPJ = 0, realPJ = 0, realMWe = 0;
+    let nomPJ = 0,
+      realPJ = 0,
+      realMWe = 0;
     for (let c = 0; c < prep.cells; c++) {
       const a = s1.rowAreaM2[Math.floor(c / hf.width)] / 1e6;
       if (Number.isFinite(out.nominalHeatPJkm2[c])) nomPJ += out.nominalHeatPJkm2[c] * a;
@@ -94,11 +117,12 @@ describe('heat in place over a grid', () => {
     }
     const E = a.output.electricMWekm2!;
     let n = 0;
-    for (let c = 0; c < E.p10.length; c++) if (Number.isFinite(E.p50[c])) {
-      expect(E.p10[c]).toBeLessThanOrEqual(E.p50[c]);
-      expect(E.p50[c]).toBeLessThanOrEqual(E.p90[c]);
-      n++;
-    }
+    for (let c = 0; c < E.p10.length; c++)
+      if (Number.isFinite(E.p50[c])) {
+        expect(E.p10[c]).toBeLessThanOrEqual(E.p50[c]);
+        expect(E.p50[c]).toBeLessThanOrEqual(E.p90[c]);
+        n++;
+      }
     expect(n).toBe(hf.width * hf.height - 1);
     const c = assessHeatInPlace({ heatFlow: hf, heatFlowSd: sd, model: uncertain, polygon: POLY, options: { ...opts, seed: 12 } });
     expect(c.report.electricMWe.p50).not.toBe(a.report.electricMWe.p50);
@@ -110,7 +134,9 @@ describe('heat in place over a grid', () => {
 
   it('does not depend on chunking (bit-identical totals and cells)', () => {
     const opts = parseHeatInPlaceOptions({ realizations: 24, seed: 3, heatFlowErrorCorrelation: 'independent' });
-    const runs = [SUM_BLOCK, 2 * SUM_BLOCK, 1 << 20].map((chunkCells) => assessHeatInPlace({ heatFlow: hf, heatFlowSd: sd, model: uncertain, polygon: POLY, options: opts, chunkCells }));
+    const runs = [SUM_BLOCK, 2 * SUM_BLOCK, 1 << 20].map((chunkCells) =>
+      assessHeatInPlace({ heatFlow: hf, heatFlowSd: sd, model: uncertain, polygon: POLY, options: opts, chunkCells }),
+    );
     for (const r of runs.slice(1)) {
       expect(JSON.stringify(r.report)).toBe(JSON.stringify(runs[0].report));
       expect(Buffer.from(r.output.electricMWekm2!.p10.buffer).equals(Buffer.from(runs[0].output.electricMWekm2!.p10.buffer))).toBe(true);
@@ -118,7 +144,8 @@ describe('heat in place over a grid', () => {
     // Ranges out of order also give the same sums.
     const s = spec(hf, sd, 24, 3, { heatFlowErrorCorrelation: 'independent' });
     const prep = prepareResource(s);
-    const o1 = allocateResourceOutput(prep), o2 = allocateResourceOutput(prep);
+    const o1 = allocateResourceOutput(prep),
+      o2 = allocateResourceOutput(prep);
     resourceRange(prep, 0, prep.cells, o1);
     resourceRange(prep, SUM_BLOCK, prep.cells, o2);
     resourceRange(prep, 0, SUM_BLOCK, o2);
@@ -131,8 +158,18 @@ describe('heat in place over a grid', () => {
     const fixed = parseThermalModel(JSON.parse(readFileSync(new URL('../../fixtures/demo/model.json', import.meta.url), 'utf8')));
     const big = { ...sd, values: sd.values.map((v) => v * 3) };
     const base = { realizations: 200, seed: 9 };
-    const full = assessHeatInPlace({ heatFlow: hf, heatFlowSd: big, model: fixed, options: parseHeatInPlaceOptions({ ...base, heatFlowErrorCorrelation: 'full' }) });
-    const ind = assessHeatInPlace({ heatFlow: hf, heatFlowSd: big, model: fixed, options: parseHeatInPlaceOptions({ ...base, heatFlowErrorCorrelation: 'independent' }) });
+    const full = assessHeatInPlace({
+      heatFlow: hf,
+      heatFlowSd: big,
+      model: fixed,
+      options: parseHeatInPlaceOptions({ ...base, heatFlowErrorCorrelation: 'full' }),
+    });
+    const ind = assessHeatInPlace({
+      heatFlow: hf,
+      heatFlowSd: big,
+      model: fixed,
+      options: parseHeatInPlaceOptions({ ...base, heatFlowErrorCorrelation: 'independent' }),
+    });
     const spread = (t: { p10: number | null; p90: number | null }) => t.p90! - t.p10!;
     expect(spread(ind.report.heatInPlaceJ)).toBeLessThan(0.5 * spread(full.report.heatInPlaceJ));
     // The sum of the cells' P10 is below the independent total's P10 (summing cell percentiles would be wrong).
@@ -159,7 +196,12 @@ describe('heat in place over a grid', () => {
   it('gives per-zone totals that add up to the grid total', () => {
     const labels = new Int32Array(hf.width * hf.height);
     for (let c = 0; c < labels.length; c++) labels[c] = c % hf.width < 20 ? 0 : 1;
-    const r = assessHeatInPlace({ heatFlow: hf, model: uncertain, zones: { names: ['west', 'east'], labels, overlapCells: 0, source: 'class grid' }, options: parseHeatInPlaceOptions({ realizations: 1, seed: 4 }) });
+    const r = assessHeatInPlace({
+      heatFlow: hf,
+      model: uncertain,
+      zones: { names: ['west', 'east'], labels, overlapCells: 0, source: 'class grid' },
+      options: parseHeatInPlaceOptions({ realizations: 1, seed: 4 }),
+    });
     const z = r.report.totals.zones!;
     expect(z.map((x) => x.zone)).toEqual(['west', 'east']);
     expect((z[0].heatInPlaceJ.nominal! + z[1].heatInPlaceJ.nominal!) / r.report.totals.grid.heatInPlaceJ.nominal!).toBeCloseTo(1, 12);

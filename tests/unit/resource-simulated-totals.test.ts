@@ -18,9 +18,16 @@ import { heatInPlace } from '../../server/cli/heat-in-place.ts';
 import { createStream } from '../../shared/random/prng.ts';
 
 const G = geodesic.Geodesic.WGS84;
-const K_WMK = 2.5, T0 = 15, TOP_KM = 1, BOTTOM_KM = 5, RHOC_MJ = 2.7;
-const SILL = 25, RANGE_KM = 30; // exponential, no nugget: C(h) = SILL·exp(−3h/RANGE)
-const BBOX = [10, 0, 10.4, 0.4] as const, NX = 12, NY = 12;
+const K_WMK = 2.5,
+  T0 = 15,
+  TOP_KM = 1,
+  BOTTOM_KM = 5,
+  RHOC_MJ = 2.7;
+const SILL = 25,
+  RANGE_KM = 30; // exponential, no nugget: C(h) = SILL·exp(−3h/RANGE)
+const BBOX = [10, 0, 10.4, 0.4] as const,
+  NX = 12,
+  NY = 12;
 const R = 1000;
 const Z90 = 1.281552;
 
@@ -32,18 +39,28 @@ beforeAll(() => {
   const rng = createStream(42, 0);
   const features = [];
   for (let i = 0; i < 25; i++) {
-    const lon = BBOX[0] + 0.02 + 0.36 * rng.uniform(), lat = BBOX[1] + 0.02 + 0.36 * rng.uniform(), q = 60 + 8 * rng.normal();
-    site.lon.push(lon); site.lat.push(lat); site.q.push(q);
+    const lon = BBOX[0] + 0.02 + 0.36 * rng.uniform(),
+      lat = BBOX[1] + 0.02 + 0.36 * rng.uniform(),
+      q = 60 + 8 * rng.normal();
+    site.lon.push(lon);
+    site.lat.push(lat);
+    site.q.push(q);
     features.push({ type: 'Feature', id: `s${i}`, geometry: { type: 'Point', coordinates: [lon, lat] }, properties: { heatFlowMWm2: q } });
   }
   writeFileSync(join(dir, 'sites.geojson'), JSON.stringify({ type: 'FeatureCollection', features }));
-  writeFileSync(join(dir, 'model.json'), JSON.stringify({ surfaceTemperatureC: T0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K_WMK, heatProductionUWm3: 0, densityKgM3: 2700 }] }));
+  writeFileSync(
+    join(dir, 'model.json'),
+    JSON.stringify({ surfaceTemperatureC: T0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K_WMK, heatProductionUWm3: 0, densityKgM3: 2700 }] }),
+  );
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 async function run(args: string[]): Promise<Record<string, unknown>> {
   let out = '';
-  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => { out += String(s); return true; });
+  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
+    out += String(s);
+    return true;
+  });
   try {
     expect(await heatInPlace(args)).toBe(0);
   } finally {
@@ -57,11 +74,14 @@ const cov = (h: number) => SILL * Math.exp((-3 * h) / RANGE_KM);
 
 /** Block-kriging mean and variance of the area-weighted mean over the cells (dense ordinary kriging). */
 function blockKriging(cLon: number[], cLat: number[], w: number[]): { mean: number; sd: number } {
-  const n = site.q.length, m = cLon.length;
-  const A = Matrix.zeros(n + 1, n + 1), b = Matrix.zeros(n + 1, 1);
+  const n = site.q.length,
+    m = cLon.length;
+  const A = Matrix.zeros(n + 1, n + 1),
+    b = Matrix.zeros(n + 1, 1);
   for (let i = 0; i < n; i++) {
     for (let j = 0; j < n; j++) A.set(i, j, cov(km(site.lon[i], site.lat[i], site.lon[j], site.lat[j])));
-    A.set(i, n, 1); A.set(n, i, 1);
+    A.set(i, n, 1);
+    A.set(n, i, 1);
     let cb = 0;
     for (let c = 0; c < m; c++) cb += w[c] * cov(km(site.lon[i], site.lat[i], cLon[c], cLat[c]));
     b.set(i, 0, cb);
@@ -70,43 +90,82 @@ function blockKriging(cLon: number[], cLat: number[], w: number[]): { mean: numb
   const x = solve(A, b);
   let cbb = 0;
   for (let a = 0; a < m; a++) for (let c = 0; c < m; c++) cbb += w[a] * w[c] * cov(km(cLon[a], cLat[a], cLon[c], cLat[c]));
-  let mean = 0, v = cbb - x.get(n, 0);
-  for (let i = 0; i < n; i++) { mean += x.get(i, 0) * site.q[i]; v -= x.get(i, 0) * b.get(i, 0); }
+  let mean = 0,
+    v = cbb - x.get(n, 0);
+  for (let i = 0; i < n; i++) {
+    mean += x.get(i, 0) * site.q[i];
+    v -= x.get(i, 0) * b.get(i, 0);
+  }
   return { mean, sd: Math.sqrt(v) };
 }
 
 describe('heat-in-place --points: totals from conditional simulations', () => {
   it('gives P10/P50/P90 and mean of the regional total from the block-kriging mean and sd (linear geotherm, all rock counted)', async () => {
     const rep = await run([
-      '--points', join(dir, 'sites.geojson'), '--model', join(dir, 'model.json'), `--bbox=${BBOX.join(',')}`, '--size', `${NX}x${NY}`,
-      '--variogram', `exponential:0,${SILL},${RANGE_KM}`, '--transform', 'none', '--neighbors', 'all',
-      '--min-temp-c', String(T0), '--ref-temp-c', String(T0), '--top-km', String(TOP_KM), '--bottom-km', String(BOTTOM_KM), '--rho-c-mj', String(RHOC_MJ),
-      '--realizations', String(R), '--seed', '7', '--json',
+      '--points',
+      join(dir, 'sites.geojson'),
+      '--model',
+      join(dir, 'model.json'),
+      `--bbox=${BBOX.join(',')}`,
+      '--size',
+      `${NX}x${NY}`,
+      '--variogram',
+      `exponential:0,${SILL},${RANGE_KM}`,
+      '--transform',
+      'none',
+      '--neighbors',
+      'all',
+      '--min-temp-c',
+      String(T0),
+      '--ref-temp-c',
+      String(T0),
+      '--top-km',
+      String(TOP_KM),
+      '--bottom-km',
+      String(BOTTOM_KM),
+      '--rho-c-mj',
+      String(RHOC_MJ),
+      '--realizations',
+      String(R),
+      '--seed',
+      '7',
+      '--json',
     ]);
     // Cell centres and geodesic cell areas (m²).
-    const dx = (BBOX[2] - BBOX[0]) / NX, dy = (BBOX[3] - BBOX[1]) / NY;
-    const cLon: number[] = [], cLat: number[] = [], area: number[] = [];
+    const dx = (BBOX[2] - BBOX[0]) / NX,
+      dy = (BBOX[3] - BBOX[1]) / NY;
+    const cLon: number[] = [],
+      cLat: number[] = [],
+      area: number[] = [];
     for (let r = 0; r < NY; r++) {
       const north = BBOX[3] - r * dy;
       for (let c = 0; c < NX; c++) {
         const west = BBOX[0] + c * dx;
         const p = G.Polygon(false);
-        p.AddPoint(north, west); p.AddPoint(north - dy, west); p.AddPoint(north - dy, west + dx); p.AddPoint(north, west + dx);
+        p.AddPoint(north, west);
+        p.AddPoint(north - dy, west);
+        p.AddPoint(north - dy, west + dx);
+        p.AddPoint(north, west + dx);
         area.push(Math.abs(p.Compute(false, true).area as number));
-        cLon.push(west + dx / 2); cLat.push(north - dy / 2);
+        cLon.push(west + dx / 2);
+        cLat.push(north - dy / 2);
       }
     }
     const Atot = area.reduce((s, a) => s + a, 0);
-    const { mean, sd } = blockKriging(cLon, cLat, area.map((a) => a / Atot));
+    const { mean, sd } = blockKriging(
+      cLon,
+      cLat,
+      area.map((a) => a / Atot),
+    );
     // Total (EJ) = ρC·(b² − t²)/(2k)·A·q̄ with q in W/m², depths in m.
-    const K = (RHOC_MJ * 1e6 * ((BOTTOM_KM * 1e3) ** 2 - (TOP_KM * 1e3) ** 2)) / (2 * K_WMK) * Atot * 1e-3 / 1e18;
+    const K = (((RHOC_MJ * 1e6 * ((BOTTOM_KM * 1e3) ** 2 - (TOP_KM * 1e3) ** 2)) / (2 * K_WMK)) * Atot * 1e-3) / 1e18;
     const t = rep.heatInPlaceEJ as { p10: number; p50: number; p90: number; mean: number; nominal: number };
     expect(rep.cells).toBe(NX * NY);
     expect(Math.abs((rep.areaKm2 as number) * 1e6 - Atot) / Atot).toBeLessThan(1e-4);
     // Standard errors over R realizations: mean σ/√R; a quantile σ·√(p(1 − p)/R)/φ(z_p) (Stuart & Ord 1994, §10.10),
     // 1.709·σ/√R at p = 0.1 and 0.9, 1.253·σ/√R at the median. Tolerance: 4 standard errors.
     const s = K * sd;
-    const se = (f: number) => 4 * f * s / Math.sqrt(R);
+    const se = (f: number) => (4 * f * s) / Math.sqrt(R);
     expect(Math.abs(t.mean - K * mean)).toBeLessThan(se(1));
     expect(Math.abs(t.p50 - K * mean)).toBeLessThan(se(1.253));
     expect(Math.abs(t.p10 - K * (mean - Z90 * sd))).toBeLessThan(se(1.709));
@@ -118,7 +177,11 @@ describe('heat-in-place --points: totals from conditional simulations', () => {
   }, 120_000);
 
   it('refuses --points with --heat-flow, and --points without realizations, naming the option', async () => {
-    await expect(heatInPlace(['--points', join(dir, 'sites.geojson'), '--heat-flow', 'x.tif', '--model', join(dir, 'model.json')])).rejects.toMatchObject({ details: [{ field: 'points' }] });
-    await expect(heatInPlace(['--points', join(dir, 'sites.geojson'), '--model', join(dir, 'model.json')])).rejects.toMatchObject({ details: [{ field: 'realizations' }] });
+    await expect(heatInPlace(['--points', join(dir, 'sites.geojson'), '--heat-flow', 'x.tif', '--model', join(dir, 'model.json')])).rejects.toMatchObject({
+      details: [{ field: 'points' }],
+    });
+    await expect(heatInPlace(['--points', join(dir, 'sites.geojson'), '--model', join(dir, 'model.json')])).rejects.toMatchObject({
+      details: [{ field: 'realizations' }],
+    });
   });
 });

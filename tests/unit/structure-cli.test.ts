@@ -6,7 +6,9 @@ import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 
 let dir = '';
-beforeAll(() => { dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'structure-cli-')); });
+beforeAll(() => {
+  dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'structure-cli-'));
+});
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 const run = (args: string[]) => spawnSync(process.execPath, ['bin/subtherm.mjs', 'isograds', ...args], { encoding: 'utf8', timeout: 60_000 });
@@ -14,7 +16,17 @@ const run = (args: string[]) => spawnSync(process.execPath, ['bin/subtherm.mjs',
 describe('subtherm isograds (child process)', () => {
   it('writes the lines with caution and provenance and prints the report', () => {
     const out = join(dir, 'i.geojson');
-    const r = run(['--samples', 'fixtures/demo/samples.geojson', '--faults', 'fixtures/demo/faults.geojson', '--model', 'fixtures/demo/model.json', '--out', out, '--json']);
+    const r = run([
+      '--samples',
+      'fixtures/demo/samples.geojson',
+      '--faults',
+      'fixtures/demo/faults.geojson',
+      '--model',
+      'fixtures/demo/model.json',
+      '--out',
+      out,
+      '--json',
+    ]);
     expect(r.status, r.stderr).toBe(0);
     const lines = r.stdout.trim().split('\n');
     expect(lines.length).toBe(1);
@@ -46,10 +58,16 @@ describe('subtherm isograds (child process)', () => {
 
   it('an unknown zone name exits 2 with the suggestion, no stack trace', () => {
     const bad = join(dir, 'bad.geojson');
-    writeFileSync(bad, JSON.stringify({ type: 'FeatureCollection', features: [
-      { type: 'Feature', geometry: { type: 'Point', coordinates: [-128, -38] }, properties: { id: 'G1', zone: 'biotite' } },
-      { type: 'Feature', geometry: { type: 'Point', coordinates: [-127.9, -38] }, properties: { id: 'G2', zone: 'garnett' } },
-    ] }));
+    writeFileSync(
+      bad,
+      JSON.stringify({
+        type: 'FeatureCollection',
+        features: [
+          { type: 'Feature', geometry: { type: 'Point', coordinates: [-128, -38] }, properties: { id: 'G1', zone: 'biotite' } },
+          { type: 'Feature', geometry: { type: 'Point', coordinates: [-127.9, -38] }, properties: { id: 'G2', zone: 'garnett' } },
+        ],
+      }),
+    );
     const r = run(['--samples', bad, '--out', join(dir, 'x.geojson')]);
     expect(r.status).toBe(2);
     expect(r.stderr).toContain("unknown zone 'garnett' (did you mean 'garnet'?)");

@@ -29,7 +29,10 @@ describe('demo region: isograd positions', () => {
       const rank = ['biotite-in', 'garnet-in', 'staurolite-in', 'kyanite-in', 'sillimanite-in'].indexOf(name) + 1;
       const e: number[] = [];
       for (const ft of L.lines.features.filter((q) => q.properties.isograd === name && q.properties.probability === 0.5)) {
-        for (const [lon, lat] of ft.geometry.coordinates) { const [x, y] = kmFromLonLat(lon, lat); e.push(Math.abs(truePeakTemperatureC(x, y) - ZONE_IN_C[rank]) / DOME.fallCPerKm); }
+        for (const [lon, lat] of ft.geometry.coordinates) {
+          const [x, y] = kmFromLonLat(lon, lat);
+          e.push(Math.abs(truePeakTemperatureC(x, y) - ZONE_IN_C[rank]) / DOME.fallCPerKm);
+        }
       }
       e.sort((a, b) => a - b);
       expect(e.length).toBeGreaterThan(20);
@@ -37,7 +40,11 @@ describe('demo region: isograd positions', () => {
     }
     // The sillimanite-in isograd away from the faults: its mean radius from the dome centre against truth (10 km).
     const r: number[] = [];
-    for (const ft of L.lines.features.filter((q) => q.properties.isograd === 'sillimanite-in' && q.properties.probability === 0.5)) for (const [lon, lat] of ft.geometry.coordinates) { const [x, y] = kmFromLonLat(lon, lat); r.push(Math.hypot(x - DOME.xKm, y - DOME.yKm)); }
+    for (const ft of L.lines.features.filter((q) => q.properties.isograd === 'sillimanite-in' && q.properties.probability === 0.5))
+      for (const [lon, lat] of ft.geometry.coordinates) {
+        const [x, y] = kmFromLonLat(lon, lat);
+        r.push(Math.hypot(x - DOME.xKm, y - DOME.yKm));
+      }
     const mean = r.reduce((a, b) => a + b, 0) / r.length;
     expect(Math.abs(mean - truth.dome.isogradRadiiKm['sillimanite-in'])).toBeLessThan(2.5);
   });
@@ -54,20 +61,29 @@ describe('demo region: isograd positions', () => {
     // line, by WGS84 geodesic distance (geographiclib, a general-purpose reference library). The line's vertices are
     // in lon/lat here and in the layer's local km plane there, so a sample within 2 % of the radius may count either
     // way: the reported count must lie between the counts at 0.98 and 1.02 of the radius.
-    const samples = JSON.parse(readFileSync('fixtures/demo/samples.geojson', 'utf8')).features.map((q: { geometry: { coordinates: number[] } }) => q.geometry.coordinates);
+    const samples = JSON.parse(readFileSync('fixtures/demo/samples.geojson', 'utf8')).features.map(
+      (q: { geometry: { coordinates: number[] } }) => q.geometry.coordinates,
+    );
     const dist = (a: number[], b: number[]) => G.Inverse(a[1], a[0], b[1], b[0]).s12! / 1000;
-    let checked = 0, positive = 0;
+    let checked = 0,
+      positive = 0;
     for (const f of L.lines.features.filter((q) => q.properties.probability === 0.5).slice(0, 12)) {
       const c = f.geometry.coordinates;
       const seg = c.slice(1).map((p, i) => dist(c[i], p));
-      let half = seg.reduce((a, b) => a + b, 0) / 2, mid = c[0];
+      let half = seg.reduce((a, b) => a + b, 0) / 2,
+        mid = c[0];
       for (let i = 0; i < seg.length; i++) {
-        if (half <= seg[i] && seg[i] > 0) { const u = half / seg[i]; mid = [c[i][0] + u * (c[i + 1][0] - c[i][0]), c[i][1] + u * (c[i + 1][1] - c[i][1])]; break; }
+        if (half <= seg[i] && seg[i] > 0) {
+          const u = half / seg[i];
+          mid = [c[i][0] + u * (c[i + 1][0] - c[i][0]), c[i][1] + u * (c[i + 1][1] - c[i][1])];
+          break;
+        }
         half -= seg[i];
       }
       const r = Number(f.properties.supportRadiusKm);
       const near = samples.map((p: number[]) => dist(p, mid));
-      const lo = near.filter((d: number) => d <= 0.98 * r).length, hi = near.filter((d: number) => d <= 1.02 * r).length;
+      const lo = near.filter((d: number) => d <= 0.98 * r).length,
+        hi = near.filter((d: number) => d <= 1.02 * r).length;
       expect(f.properties.samplesNearMidpoint).toBeGreaterThanOrEqual(lo);
       expect(f.properties.samplesNearMidpoint).toBeLessThanOrEqual(hi);
       checked++;
@@ -76,13 +92,19 @@ describe('demo region: isograd positions', () => {
     expect(checked).toBeGreaterThan(5);
     expect(positive).toBeGreaterThan(0);
     // High side check on a sillimanite-in line: a point 1 km to the right of a segment is nearer the dome centre.
-    const line = L.lines.features.filter((q) => q.properties.isograd === 'sillimanite-in' && q.properties.probability === 0.5).sort((a, b) => b.geometry.coordinates.length - a.geometry.coordinates.length)[0];
+    const line = L.lines.features
+      .filter((q) => q.properties.isograd === 'sillimanite-in' && q.properties.probability === 0.5)
+      .sort((a, b) => b.geometry.coordinates.length - a.geometry.coordinates.length)[0];
     const c = line.geometry.coordinates.map(([lon, lat]) => kmFromLonLat(lon, lat));
-    let inwards = 0, total = 0;
+    let inwards = 0,
+      total = 0;
     for (let i = 1; i < c.length; i++) {
-      const dx = c[i][0] - c[i - 1][0], dy = c[i][1] - c[i - 1][1], len = Math.hypot(dx, dy);
+      const dx = c[i][0] - c[i - 1][0],
+        dy = c[i][1] - c[i - 1][1],
+        len = Math.hypot(dx, dy);
       if (len === 0) continue;
-      const mx = (c[i][0] + c[i - 1][0]) / 2 + dy / len, my = (c[i][1] + c[i - 1][1]) / 2 - dx / len;
+      const mx = (c[i][0] + c[i - 1][0]) / 2 + dy / len,
+        my = (c[i][1] + c[i - 1][1]) / 2 - dx / len;
       const r0 = Math.hypot((c[i][0] + c[i - 1][0]) / 2 - DOME.xKm, (c[i][1] + c[i - 1][1]) / 2 - DOME.yKm);
       if (Math.hypot(mx - DOME.xKm, my - DOME.yKm) < r0) inwards++;
       total++;
@@ -117,7 +139,11 @@ describe('demo region: faults', () => {
     // fixtures/truth.json: F1 moves every isograd 6 km inwards on its hanging wall, which meets the trace 6.03 (biotite)
     // to 6.43 km (kyanite) apart along it.
     const f1 = fault('F1');
-    const truthSep = new Map((truth.isogradSeparations as { fault: string; isograd: string; separationKm?: number[] }[]).filter((s) => s.fault === 'F1' && s.separationKm).map((s) => [s.isograd, s.separationKm![0]]));
+    const truthSep = new Map(
+      (truth.isogradSeparations as { fault: string; isograd: string; separationKm?: number[] }[])
+        .filter((s) => s.fault === 'F1' && s.separationKm)
+        .map((s) => [s.isograd, s.separationKm![0]]),
+    );
     let inside = 0;
     for (const s of f1.separations) {
       expect(truthSep.has(s.isograd), s.isograd).toBe(true);
@@ -132,7 +158,9 @@ describe('demo region: faults', () => {
     // The ranges come from the band where each isograd meets the trace, not from the map's sparsest stretches:
     // their median width stays within 15 km (it was about 20 km when the band was walked to its 0.1/0.9 ends).
     const widths = f1.separations.map((s) => s.separationKm.high - s.separationKm.low).sort((a, b) => a - b);
-    console.log(`F1 separation ranges (km): ${f1.separations.map((s) => `${s.isograd} ${s.end} ${s.separationKm.value.toFixed(1)} (${s.separationKm.low.toFixed(1)}–${s.separationKm.high.toFixed(1)})`).join('; ')}`);
+    console.log(
+      `F1 separation ranges (km): ${f1.separations.map((s) => `${s.isograd} ${s.end} ${s.separationKm.value.toFixed(1)} (${s.separationKm.low.toFixed(1)}–${s.separationKm.high.toFixed(1)})`).join('; ')}`,
+    );
     expect((widths[3] + widths[4]) / 2).toBeLessThan(15);
   });
 
@@ -152,7 +180,7 @@ describe('demo region: faults', () => {
     }
   });
 
-  it('F1 dip-slip component with the demo\'s isograd dip: the constructed 1.39 km inside the range, normal sense', () => {
+  it("F1 dip-slip component with the demo's isograd dip: the constructed 1.39 km inside the range, normal sense", () => {
     // Truth: throw 1.2 km on a 60° fault → d = 1.2/sin 60° = 1.386 km; isograd surfaces dip atan(5/25) = 11.3° outwards
     // (5 °C/km radial fall over a 25 °C/km paleo-gradient: fixtures/field.ts).
     const f1 = Lp.report.faults.find((f) => f.id === 'F1')!;
@@ -185,42 +213,62 @@ describe('demo region: probability bands', () => {
     const fj = JSON.parse(readFileSync('fixtures/demo/faults.geojson', 'utf8'));
     const xy = s.features.map((q: { geometry: { coordinates: [number, number] } }) => kmFromLonLat(q.geometry.coordinates[0], q.geometry.coordinates[1]));
     const grades = sampleGrades(s.features.map((q: { properties: Record<string, unknown> }) => q.properties as { id: string }));
-    const traces = fj.features.map((q: { properties: { id: string }; geometry: { coordinates: [number, number][] } }) => buildTrace(q.properties.id, [q.geometry.coordinates.map(([lon, lat]) => kmFromLonLat(lon, lat))]).trace);
-    const r = computeIsogradsKm(Float64Array.from(xy, (p: number[]) => p[0]), Float64Array.from(xy, (p: number[]) => p[1]), grades, tracePieces(traces), {});
+    const traces = fj.features.map(
+      (q: { properties: { id: string }; geometry: { coordinates: [number, number][] } }) =>
+        buildTrace(q.properties.id, [q.geometry.coordinates.map(([lon, lat]) => kmFromLonLat(lon, lat))]).trace,
+    );
+    const r = computeIsogradsKm(
+      Float64Array.from(xy, (p: number[]) => p[0]),
+      Float64Array.from(xy, (p: number[]) => p[1]),
+      grades,
+      tracePieces(traces),
+      {},
+    );
     const out = new Float64Array(5);
     const h = 0.25;
     const fractions: number[] = [];
-    let pooledIn = 0, pooledAll = 0;
+    let pooledIn = 0,
+      pooledAll = 0;
     for (let j = 1; j <= 5; j++) {
-      let inside = 0, total = 0;
-      for (let x = DOME.xKm - 90; x < DOME.xKm + 90; x += h) for (let y = DOME.yKm - 90; y < DOME.yKm + 90; y += h) {
-        const t0 = truePeakTemperatureC(x, y) - ZONE_IN_C[j];
-        for (const [dx, dy] of [[h, 0], [0, h]]) {
-          const t1 = truePeakTemperatureC(x + dx, y + dy) - ZONE_IN_C[j];
-          if ((t0 < 0) === (t1 < 0)) continue;
-          const u = t0 / (t0 - t1);
-          const px = x + u * dx, py = y + u * dy;
-          const gx = truePeakTemperatureC(px + 0.01, py) - truePeakTemperatureC(px - 0.01, py), gy = truePeakTemperatureC(px, py + 0.01) - truePeakTemperatureC(px, py - 0.01);
-          const gl = Math.hypot(gx, gy);
-          if (!(gl > 0) || Math.abs(t1 - t0) > 50) continue; // a fault between the two lattice points, not the isograd
-          const w = 1 / (Math.abs(gx / gl) + Math.abs(gy / gl));
-          if (!(r.field.predict(px, py, out) <= r.supportKm)) continue;
-          total += w;
-          if (out[j - 1] >= 0.1 && out[j - 1] <= 0.9) inside += w;
+      let inside = 0,
+        total = 0;
+      for (let x = DOME.xKm - 90; x < DOME.xKm + 90; x += h)
+        for (let y = DOME.yKm - 90; y < DOME.yKm + 90; y += h) {
+          const t0 = truePeakTemperatureC(x, y) - ZONE_IN_C[j];
+          for (const [dx, dy] of [
+            [h, 0],
+            [0, h],
+          ]) {
+            const t1 = truePeakTemperatureC(x + dx, y + dy) - ZONE_IN_C[j];
+            if (t0 < 0 === t1 < 0) continue;
+            const u = t0 / (t0 - t1);
+            const px = x + u * dx,
+              py = y + u * dy;
+            const gx = truePeakTemperatureC(px + 0.01, py) - truePeakTemperatureC(px - 0.01, py),
+              gy = truePeakTemperatureC(px, py + 0.01) - truePeakTemperatureC(px, py - 0.01);
+            const gl = Math.hypot(gx, gy);
+            if (!(gl > 0) || Math.abs(t1 - t0) > 50) continue; // a fault between the two lattice points, not the isograd
+            const w = 1 / (Math.abs(gx / gl) + Math.abs(gy / gl));
+            if (!(r.field.predict(px, py, out) <= r.supportKm)) continue;
+            total += w;
+            if (out[j - 1] >= 0.1 && out[j - 1] <= 0.9) inside += w;
+          }
         }
-      }
       fractions.push(inside / total);
-      pooledIn += inside; pooledAll += total;
+      pooledIn += inside;
+      pooledAll += total;
     }
     const all = pooledIn / pooledAll;
-    console.log(`demo: fraction of the true isograds' length bracketed by the 0.1/0.9 lines: ${fractions.map((f) => f.toFixed(3)).join(', ')} (biotite-in … sillimanite-in); all together ${all.toFixed(3)}`);
+    console.log(
+      `demo: fraction of the true isograds' length bracketed by the 0.1/0.9 lines: ${fractions.map((f) => f.toFixed(3)).join(', ')} (biotite-in … sillimanite-in); all together ${all.toFixed(3)}`,
+    );
     expect(all).toBeGreaterThanOrEqual(0.8);
     for (const f of fractions) expect(f).toBeGreaterThanOrEqual(0.75);
   });
 });
 
 describe('demo region: paleo-gradients', () => {
-  it('apparent gradients of the P–T samples centre on the generator\'s 25 °C/km', () => {
+  it("apparent gradients of the P–T samples centre on the generator's 25 °C/km", () => {
     // The demo's P–T were made with a 25 °C/km paleo-gradient and ρ = 2750 kg/m³ (fixtures/generate.ts); we use
     // ρ = 2700, which deepens z by 1.9 % and lowers the gradient by as much; plus ±15 °C and ±0.4 kbar noise.
     const g = L.report.paleoGradients.map((p) => p.apparentGradientCPerKm).sort((a, b) => a - b);

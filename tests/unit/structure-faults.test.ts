@@ -7,17 +7,25 @@ import { computeIsogradsKm, buildTrace, tracePieces, faultReport, type SampleGra
 // 420, 500, 560, 620 and 670 °C (biotite … sillimanite; the demo's values, invented).
 const ZONE_IN_C = [420, 500, 560, 620, 670];
 const rankOf = (tC: number) => ZONE_IN_C.filter((t) => tC >= t).length;
-const FALL = 5, GRADIENT = 25, DEG = Math.PI / 180;
+const FALL = 5,
+  GRADIENT = 25,
+  DEG = Math.PI / 180;
 
 function lattice(half: number, spacing: number, tempAt: (x: number, y: number) => number, skip: (x: number) => boolean) {
   const rnd = prng(11);
-  const xs: number[] = [], ys: number[] = [], g: SampleGrade[] = [];
-  for (let x = -half; x <= half; x += spacing) for (let y = -half; y <= half; y += spacing) {
-    const px = x + 0.3 * spacing * (rnd() - 0.5), py = y + 0.3 * spacing * (rnd() - 0.5);
-    if (skip(px)) continue;
-    const r = rankOf(tempAt(px, py));
-    xs.push(px); ys.push(py); g.push({ id: `s${g.length}`, lo: r, hi: r, source: 'zone', zone: null, series: 'barrovian', label: null });
-  }
+  const xs: number[] = [],
+    ys: number[] = [],
+    g: SampleGrade[] = [];
+  for (let x = -half; x <= half; x += spacing)
+    for (let y = -half; y <= half; y += spacing) {
+      const px = x + 0.3 * spacing * (rnd() - 0.5),
+        py = y + 0.3 * spacing * (rnd() - 0.5);
+      if (skip(px)) continue;
+      const r = rankOf(tempAt(px, py));
+      xs.push(px);
+      ys.push(py);
+      g.push({ id: `s${g.length}`, lo: r, hi: r, source: 'zone', zone: null, series: 'barrovian', label: null });
+    }
   return { x: Float64Array.from(xs), y: Float64Array.from(ys), g };
 }
 
@@ -25,13 +33,25 @@ describe('constructed dome cut by a normal fault with known throw and dips', () 
   // Fault trace x = 8 km drawn south → north (east is its right side), dipping 60° east: the hanging wall is east.
   // Throw 1.5 km, pure dip slip d = 1.5 / sin 60° = 1.732 km (right triangle in the vertical plane of the dip). The
   // hanging-wall rock now at (x, y) sat at (x − d·cos 60°, y), 1.5 km higher, before the slip.
-  const dipDeg = 60, throwKm = 1.5, dKm = throwKm / Math.sin(dipDeg * DEG);
-  const temp = (x: number, y: number) => (x < 8 ? 700 - FALL * Math.hypot(x, y) : 700 - FALL * Math.hypot(x - dKm * Math.cos(dipDeg * DEG), y) - GRADIENT * throwKm);
+  const dipDeg = 60,
+    throwKm = 1.5,
+    dKm = throwKm / Math.sin(dipDeg * DEG);
+  const temp = (x: number, y: number) =>
+    x < 8 ? 700 - FALL * Math.hypot(x, y) : 700 - FALL * Math.hypot(x - dKm * Math.cos(dipDeg * DEG), y) - GRADIENT * throwKm;
   const d = lattice(60, 2, temp, (x) => Math.abs(x - 8) < 0.3);
-  const trace = buildTrace('N1', [[[8, -60], [8, 60]]]).trace;
+  const trace = buildTrace('N1', [
+    [
+      [8, -60],
+      [8, 60],
+    ],
+  ]).trace;
   const r = computeIsogradsKm(d.x, d.y, d.g, tracePieces([trace]), { cellKm: 0.5 });
   const isogradDipDeg = Math.atan(FALL / GRADIENT) / DEG;
-  const rep = faultReport({ trace, kind: 'normal', dipDeg, dipDirectionDeg: 90 }, r.field, { supportKm: r.supportKm, isogradDipDeg, sampleIds: d.g.map((q) => q.id) });
+  const rep = faultReport({ trace, kind: 'normal', dipDeg, dipDirectionDeg: 90 }, r.field, {
+    supportKm: r.supportKm,
+    isogradDipDeg,
+    sampleIds: d.g.map((q) => q.id),
+  });
 
   it('the dip-slip range of each isograd end covers the constructed 1.73 km, with normal sense', () => {
     expect(rep.separations.length).toBeGreaterThanOrEqual(6);
@@ -52,7 +72,9 @@ describe('constructed dome cut by a normal fault with known throw and dips', () 
     // Footwall meeting of isograd T: y² = R² − 8², R = (700 − T)/5; hanging wall: y² = R'² − (8 − 0.866)², R' = (662.5 − T)/5.
     for (const s of rep.separations) {
       const T = ZONE_IN_C[['biotite-in', 'garnet-in', 'staurolite-in', 'kyanite-in', 'sillimanite-in'].indexOf(s.isograd)];
-      const R = (700 - T) / FALL, R2 = (700 - GRADIENT * throwKm - T) / FALL, x2 = 8 - dKm * Math.cos(dipDeg * DEG);
+      const R = (700 - T) / FALL,
+        R2 = (700 - GRADIENT * throwKm - T) / FALL,
+        x2 = 8 - dKm * Math.cos(dipDeg * DEG);
       const truth = Math.sqrt(R * R - 64) - Math.sqrt(R2 * R2 - x2 * x2);
       expect(truth).toBeGreaterThanOrEqual(s.separationKm.low);
       expect(truth).toBeLessThanOrEqual(s.separationKm.high);
@@ -66,7 +88,12 @@ describe('constructed dome cut by a thrust that repeats zones', () => {
   // the trace and rises again: garnet and staurolite occur on both sides.
   const temp = (x: number, y: number) => (x < -30 ? 700 - FALL * (Math.hypot(x, y) - 12) : 700 - FALL * Math.hypot(x, y));
   const d = lattice(60, 2, temp, (x) => Math.abs(x + 30) < 0.3);
-  const trace = buildTrace('T1', [[[-30, -40], [-30, 40]]]).trace;
+  const trace = buildTrace('T1', [
+    [
+      [-30, -40],
+      [-30, 40],
+    ],
+  ]).trace;
   const r = computeIsogradsKm(d.x, d.y, d.g, tracePieces([trace]), { cellKm: 0.5 });
 
   it('reports the zones as repeated (with their samples), none missing', () => {

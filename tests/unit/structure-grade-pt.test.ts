@@ -75,7 +75,13 @@ describe('grade from peak P–T with pressure', () => {
     // 300 °C at 12 kbar lies in the blueschist field of the project's facies diagram (high P/T).
     expect(peakGrade(300, 12).message).toMatch(/blueschist/);
     const w: string[] = [];
-    const g = sampleGrades([{ id: 'hot', peakTemperatureC: 1200, peakPressureKbar: 5 }, { id: 'ky', peakTemperatureC: 700, peakPressureKbar: 9.5 }], w);
+    const g = sampleGrades(
+      [
+        { id: 'hot', peakTemperatureC: 1200, peakPressureKbar: 5 },
+        { id: 'ky', peakTemperatureC: 700, peakPressureKbar: 9.5 },
+      ],
+      w,
+    );
     expect(g[0]).toMatchObject({ lo: -1, source: 'none', label: null });
     expect(g[1]).toMatchObject({ source: 'peak-pt', zone: 'kyanite', series: 'barrovian' });
     expect(w.join('\n')).toMatch(/sample 0 \(hot\): 1200 °C at 5 kbar lies outside every field/);
@@ -92,8 +98,13 @@ describe('grade from peak P–T with pressure', () => {
   it('the upload schema suggests the nearest zone name, per feature', () => {
     let err: unknown = null;
     try {
-      parseFeatureCollection('samples', { type: 'FeatureCollection', features: [{ type: 'Feature', geometry: { type: 'Point', coordinates: [0, 0] }, properties: { id: 'S-1', zone: 'kyanit' } }] });
-    } catch (e) { err = e; }
+      parseFeatureCollection('samples', {
+        type: 'FeatureCollection',
+        features: [{ type: 'Feature', geometry: { type: 'Point', coordinates: [0, 0] }, properties: { id: 'S-1', zone: 'kyanit' } }],
+      });
+    } catch (e) {
+      err = e;
+    }
     expect(err).toBeInstanceOf(InputError);
     expect(JSON.stringify((err as InputError).details)).toMatch(/did you mean 'kyanite'/);
   });

@@ -5,20 +5,42 @@ import { compileModel } from '../../shared/thermal/index.ts';
 import { sampleGrades, faciesRankInterval, peakRankInterval, paleoGradients, isogradLayer, buildTrace } from '../../shared/structure/index.ts';
 
 function thrown(f: () => unknown): InputError {
-  try { f(); } catch (e) { if (e instanceof InputError) return e; throw e; }
+  try {
+    f();
+  } catch (e) {
+    if (e instanceof InputError) return e;
+    throw e;
+  }
   throw new Error('expected an InputError');
 }
 
-const pt = (id: string, lon: number, lat: number, props: Record<string, unknown>) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [lon, lat] }, properties: { id, ...props } });
+const pt = (id: string, lon: number, lat: number, props: Record<string, unknown>) => ({
+  type: 'Feature',
+  geometry: { type: 'Point', coordinates: [lon, lat] },
+  properties: { id, ...props },
+});
 
 describe('grade of a sample', () => {
   it('ranks zones on the ordered scale, case- and space-insensitively', () => {
-    const g = sampleGrades([{ id: 'a', zone: 'Garnet zone' }, { id: 'b', zone: 'sillimanite' }, { id: 'c', zone: 'chlorite' }]);
-    expect(g.map((x) => [x.lo, x.hi, x.zone])).toEqual([[2, 2, 'garnet'], [5, 5, 'sillimanite'], [0, 0, 'chlorite']]);
+    const g = sampleGrades([
+      { id: 'a', zone: 'Garnet zone' },
+      { id: 'b', zone: 'sillimanite' },
+      { id: 'c', zone: 'chlorite' },
+    ]);
+    expect(g.map((x) => [x.lo, x.hi, x.zone])).toEqual([
+      [2, 2, 'garnet'],
+      [5, 5, 'sillimanite'],
+      [0, 0, 'chlorite'],
+    ]);
   });
 
   it('an unknown zone is an InputError naming the feature and field, with the nearest valid name', () => {
-    const e = thrown(() => sampleGrades([{ id: 'ok', zone: 'biotite' }, { id: 'X-7', zone: 'garnett' }]));
+    const e = thrown(() =>
+      sampleGrades([
+        { id: 'ok', zone: 'biotite' },
+        { id: 'X-7', zone: 'garnett' },
+      ]),
+    );
     expect(e.message).toContain("unknown zone 'garnett' (did you mean 'garnet'?)");
     expect(e.details[0]).toMatchObject({ feature: '1 (X-7)', field: 'properties.zone' });
     expect(thrown(() => sampleGrades([{ id: 'f', facies: 'amphibolit' }])).message).toContain("did you mean 'amphibolite'?");
@@ -54,7 +76,7 @@ describe('grade of a sample', () => {
     expect(g[0]).toMatchObject({ lo: 2, hi: 3, source: 'peak-pt', zone: null, series: 'barrovian', label: 'garnet–staurolite' });
   });
 
-  it('warns when a zone disagrees with the sample\'s own facies', () => {
+  it("warns when a zone disagrees with the sample's own facies", () => {
     const w: string[] = [];
     sampleGrades([{ id: 'q', zone: 'sillimanite', facies: 'greenschist' }], w);
     expect(w[0]).toContain('sample 0 (q)');
@@ -72,9 +94,16 @@ describe('paleo-gradients', () => {
     expect(q.facies).toBe('amphibolite');
   });
 
-  it('with a thermal model: depth where today\'s geotherm reaches the peak temperature (Turcotte & Schubert 2002 §4-8)', () => {
+  it("with a thermal model: depth where today's geotherm reaches the peak temperature (Turcotte & Schubert 2002 §4-8)", () => {
     // [derived, docs/sources.md#geotherm-exponential] T0 = 10, q0 = 60, A0 = 2.5, hr = 10 km, k = 2.5 → depth to 300 °C = 15.1426 km.
-    const cm = compileModel({ surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ bottomKm: 80, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 }] }, { maxDepthKm: 80 });
+    const cm = compileModel(
+      {
+        surfaceTemperatureC: 10,
+        surfaceHeatFlowMWm2: 60,
+        layers: [{ bottomKm: 80, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 }],
+      },
+      { maxDepthKm: 80 },
+    );
     const [p] = paleoGradients([{ id: 's', peakTemperatureC: 300, peakPressureKbar: 2.6487 }], { model: cm });
     expect(p.todayDepthKm).toBeCloseTo(15.1426, 3);
     expect(p.modelDepthKm).toBeCloseTo(10, 3); // the model's density 2700 and g 9.81
@@ -85,25 +114,93 @@ describe('paleo-gradients', () => {
 describe('bad fault input', () => {
   const samples = parseFeatureCollection('samples', {
     type: 'FeatureCollection',
-    features: [pt('a', 0, 0, { zone: 'biotite' }), pt('b', 0.1, 0, { zone: 'garnet' }), pt('c', 0, 0.1, { zone: 'biotite' }), pt('d', 0.1, 0.1, { zone: 'garnet' })],
+    features: [
+      pt('a', 0, 0, { zone: 'biotite' }),
+      pt('b', 0.1, 0, { zone: 'garnet' }),
+      pt('c', 0, 0.1, { zone: 'biotite' }),
+      pt('d', 0.1, 0.1, { zone: 'garnet' }),
+    ],
   }).collection as SampleCollection;
 
   it('fewer than two vertices or zero length: the schema names the feature', () => {
-    const one = thrown(() => parseFeatureCollection('faults', { type: 'FeatureCollection', features: [{ type: 'Feature', geometry: { type: 'LineString', coordinates: [[0, 0]] }, properties: { id: 'F9' } }] }));
+    const one = thrown(() =>
+      parseFeatureCollection('faults', {
+        type: 'FeatureCollection',
+        features: [{ type: 'Feature', geometry: { type: 'LineString', coordinates: [[0, 0]] }, properties: { id: 'F9' } }],
+      }),
+    );
     expect(JSON.stringify(one.details)).toContain('F9');
-    const zero = thrown(() => parseFeatureCollection('faults', { type: 'FeatureCollection', features: [{ type: 'Feature', geometry: { type: 'LineString', coordinates: [[0, 0], [0, 0]] }, properties: { id: 'F8' } }] }));
+    const zero = thrown(() =>
+      parseFeatureCollection('faults', {
+        type: 'FeatureCollection',
+        features: [
+          {
+            type: 'Feature',
+            geometry: {
+              type: 'LineString',
+              coordinates: [
+                [0, 0],
+                [0, 0],
+              ],
+            },
+            properties: { id: 'F8' },
+          },
+        ],
+      }),
+    );
     expect(JSON.stringify(zero.details)).toContain('zero length');
   });
 
   it('zero length straight into the layer is an InputError naming the fault, never a crash', () => {
-    const faults = { type: 'FeatureCollection', features: [{ type: 'Feature', geometry: { type: 'LineString', coordinates: [[0.05, -0.1], [0.05, -0.1]] }, properties: { id: 'F7', kind: 'unknown' } }] } as unknown as FaultCollection;
+    const faults = {
+      type: 'FeatureCollection',
+      features: [
+        {
+          type: 'Feature',
+          geometry: {
+            type: 'LineString',
+            coordinates: [
+              [0.05, -0.1],
+              [0.05, -0.1],
+            ],
+          },
+          properties: { id: 'F7', kind: 'unknown' },
+        },
+      ],
+    } as unknown as FaultCollection;
     const e = thrown(() => isogradLayer(samples, faults, { cellKm: 0.5 }));
     expect(e.message).toContain('0 (F7)');
   });
 
   it('a self-intersecting trace is reported as a warning naming the fault', () => {
-    expect(buildTrace('X', [[[0, 0], [10, 10], [10, 0], [0, 10]]]).warnings.join()).toContain('crosses itself');
-    const faults = parseFeatureCollection('faults', { type: 'FeatureCollection', features: [{ type: 'Feature', geometry: { type: 'LineString', coordinates: [[0, -0.05], [0.1, 0.15], [0.1, -0.05], [0, 0.15]] }, properties: { id: 'FX' } }] }).collection as FaultCollection;
+    expect(
+      buildTrace('X', [
+        [
+          [0, 0],
+          [10, 10],
+          [10, 0],
+          [0, 10],
+        ],
+      ]).warnings.join(),
+    ).toContain('crosses itself');
+    const faults = parseFeatureCollection('faults', {
+      type: 'FeatureCollection',
+      features: [
+        {
+          type: 'Feature',
+          geometry: {
+            type: 'LineString',
+            coordinates: [
+              [0, -0.05],
+              [0.1, 0.15],
+              [0.1, -0.05],
+              [0, 0.15],
+            ],
+          },
+          properties: { id: 'FX' },
+        },
+      ],
+    }).collection as FaultCollection;
     const { report } = isogradLayer(samples, faults, { cellKm: 0.5 });
     expect(report.warnings.join('\n')).toMatch(/fault 0 \(FX\): the trace crosses itself/);
   });

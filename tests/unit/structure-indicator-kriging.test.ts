@@ -21,10 +21,12 @@ function crosses(ax: number, ay: number, bx: number, by: number, cx: number, cy:
 /** Dense ordinary kriging of indicator values z at (qx, qy) over points `ids`: the full (n+1)² system solved by ml-matrix (LU). */
 function denseOk(x: ArrayLike<number>, y: ArrayLike<number>, z: number[], ids: number[], m: VariogramModel, qx: number, qy: number): number {
   const n = ids.length;
-  const K = Matrix.zeros(n + 1, n + 1), rhs = Matrix.zeros(n + 1, 1);
+  const K = Matrix.zeros(n + 1, n + 1),
+    rhs = Matrix.zeros(n + 1, 1);
   for (let i = 0; i < n; i++) {
     for (let j = 0; j < n; j++) K.set(i, j, sphericalCov(m, Math.hypot(x[ids[i]] - x[ids[j]], y[ids[i]] - y[ids[j]])));
-    K.set(i, n, 1); K.set(n, i, 1);
+    K.set(i, n, 1);
+    K.set(n, i, 1);
     rhs.set(i, 0, sphericalCov(m, Math.hypot(x[ids[i]] - qx, y[ids[i]] - qy)));
   }
   rhs.set(n, 0, 1);
@@ -36,12 +38,17 @@ function denseOk(x: ArrayLike<number>, y: ArrayLike<number>, z: number[], ids: n
 
 function data(n: number, seed: number) {
   const rnd = prng(seed);
-  const x = new Float64Array(n), y = new Float64Array(n), lo = new Int8Array(n), hi = new Int8Array(n);
+  const x = new Float64Array(n),
+    y = new Float64Array(n),
+    lo = new Int8Array(n),
+    hi = new Int8Array(n);
   for (let i = 0; i < n; i++) {
-    x[i] = 40 * rnd(); y[i] = 40 * rnd();
+    x[i] = 40 * rnd();
+    y[i] = 40 * rnd();
     // A grade rising to the east with noise; every seventh sample known only as a range of two zones.
     const r = Math.max(0, Math.min(5, Math.floor(x[i] / 7 + 1.2 * (rnd() - 0.5))));
-    lo[i] = r; hi[i] = i % 7 === 0 ? Math.min(5, r + 1) : r;
+    lo[i] = r;
+    hi[i] = i % 7 === 0 ? Math.min(5, r + 1) : r;
   }
   return { x, y, lo, hi };
 }
@@ -55,12 +62,22 @@ describe('indicator kriging', () => {
     const rnd = prng(9);
     const out = new Float64Array(5);
     for (let t = 0; t < 25; t++) {
-      const qx = 40 * rnd(), qy = 40 * rnd();
+      const qx = 40 * rnd(),
+        qy = 40 * rnd();
       field.predict(qx, qy, out);
       const ref: number[] = [];
       for (let j = 1; j <= 5; j++) {
-        const ids: number[] = [], z: number[] = new Array(70).fill(NaN);
-        for (let i = 0; i < 70; i++) { if (lo[i] >= j) { ids.push(i); z[i] = 1; } else if (hi[i] < j) { ids.push(i); z[i] = 0; } }
+        const ids: number[] = [],
+          z: number[] = new Array(70).fill(NaN);
+        for (let i = 0; i < 70; i++) {
+          if (lo[i] >= j) {
+            ids.push(i);
+            z[i] = 1;
+          } else if (hi[i] < j) {
+            ids.push(i);
+            z[i] = 0;
+          }
+        }
         ref.push(denseOk(x, y, z, ids, model, qx, qy));
       }
       correctOrderRelations(ref);
@@ -75,14 +92,22 @@ describe('indicator kriging', () => {
     const rnd = prng(4);
     const out = new Float64Array(5);
     for (let t = 0; t < 20; t++) {
-      const qx = 40 * rnd(), qy = 40 * rnd();
+      const qx = 40 * rnd(),
+        qy = 40 * rnd();
       field.predict(qx, qy, out);
       const ref: number[] = [];
       for (let j = 1; j <= 5; j++) {
-        const ids: number[] = [], z: number[] = new Array(60).fill(NaN);
+        const ids: number[] = [],
+          z: number[] = new Array(60).fill(NaN);
         for (let i = 0; i < 60; i++) {
           if (crosses(qx, qy, x[i], y[i], fault[0], fault[1], fault[2], fault[3])) continue;
-          if (lo[i] >= j) { ids.push(i); z[i] = 1; } else if (hi[i] < j) { ids.push(i); z[i] = 0; }
+          if (lo[i] >= j) {
+            ids.push(i);
+            z[i] = 1;
+          } else if (hi[i] < j) {
+            ids.push(i);
+            z[i] = 0;
+          }
         }
         ref.push(ids.length > 0 ? denseOk(x, y, z, ids, model, qx, qy) : NaN);
       }
@@ -102,7 +127,7 @@ describe('indicator kriging', () => {
     expect(ok).toEqual([1, 0.7, 0.5, 0.2, 0]);
   });
 
-  it('fits each boundary\'s indicator variogram when data suffice, else takes the median-indicator variogram', () => {
+  it("fits each boundary's indicator variogram when data suffice, else takes the median-indicator variogram", () => {
     const { x, y, lo, hi } = data(300, 8);
     const field = new IndicatorField(x, y, lo, hi, {});
     const v = field.variograms;

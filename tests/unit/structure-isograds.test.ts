@@ -3,7 +3,14 @@ import { createStream } from '../../shared/random/prng.ts';
 import { IdwPredictor } from '../../shared/interp/idw.ts';
 import { FaultBarrier } from '../../shared/interp/barriers.ts';
 import {
-  IndicatorField, computeIsogradsKm, traceIsolines, buildTrace, tracePieces, faultReport, locateOnTrace, type SampleGrade,
+  IndicatorField,
+  computeIsogradsKm,
+  traceIsolines,
+  buildTrace,
+  tracePieces,
+  faultReport,
+  locateOnTrace,
+  type SampleGrade,
 } from '../../shared/structure/index.ts';
 
 const grade = (id: string, r: number): SampleGrade => ({ id, lo: r, hi: r, source: 'zone', zone: null, series: 'barrovian', label: null });
@@ -11,12 +18,18 @@ const grade = (id: string, r: number): SampleGrade => ({ id, lo: r, hi: r, sourc
 /** Samples on a jittered square lattice (spacing km, seeded), ranks from rankAt(x, y). */
 function lattice(x0: number, x1: number, y0: number, y1: number, spacing: number, rankAt: (x: number, y: number) => number, skip?: (x: number) => boolean) {
   const rng = createStream(7);
-  const xs: number[] = [], ys: number[] = [], gs: SampleGrade[] = [];
-  for (let x = x0; x <= x1; x += spacing) for (let y = y0; y <= y1; y += spacing) {
-    const px = x + 0.3 * spacing * (rng.uniform() - 0.5), py = y + 0.3 * spacing * (rng.uniform() - 0.5);
-    if (skip?.(px)) continue;
-    xs.push(px); ys.push(py); gs.push(grade(`s${gs.length}`, rankAt(px, py)));
-  }
+  const xs: number[] = [],
+    ys: number[] = [],
+    gs: SampleGrade[] = [];
+  for (let x = x0; x <= x1; x += spacing)
+    for (let y = y0; y <= y1; y += spacing) {
+      const px = x + 0.3 * spacing * (rng.uniform() - 0.5),
+        py = y + 0.3 * spacing * (rng.uniform() - 0.5);
+      if (skip?.(px)) continue;
+      xs.push(px);
+      ys.push(py);
+      gs.push(grade(`s${gs.length}`, rankAt(px, py)));
+    }
   return { x: Float64Array.from(xs), y: Float64Array.from(ys), g: gs };
 }
 
@@ -50,10 +63,12 @@ describe('marching-squares isolines', () => {
     expect(c[1]).toBe(0);
     expect(c[c.length - 1]).toBe(3); // runs from y = 0 north to y = 3
     for (let i = 0; i < c.length; i += 2) expect(c[i]).toBeCloseTo(1.5, 12);
-    const withNaN = Float64Array.from(v); withNaN[2 * 4 + 1] = NaN; // corner (1, 2)
+    const withNaN = Float64Array.from(v);
+    withNaN[2 * 4 + 1] = NaN; // corner (1, 2)
     const parts = traceIsolines(withNaN, g, 0.5);
     expect(Math.max(...parts.map((l) => l.coords[l.coords.length - 1]))).toBeLessThan(3);
-    const blocked = new Uint8Array(32); blocked[2 * (1 * 4 + 1)] = 1; // edge (1, 1)–(2, 1)
+    const blocked = new Uint8Array(32);
+    blocked[2 * (1 * 4 + 1)] = 1; // edge (1, 1)–(2, 1)
     const cut = traceIsolines(v, g, 0.5, blocked);
     // Both segments touching the crossing at y = 1 go: what is left runs from y = 2 to y = 3.
     expect(cut.length).toBe(1);
@@ -62,11 +77,17 @@ describe('marching-squares isolines', () => {
 });
 
 describe('indicator surfaces', () => {
-  it('equal the interpolation engine\'s IDW of each indicator, fault barriers included', () => {
+  it("equal the interpolation engine's IDW of each indicator, fault barriers included", () => {
     const rng = createStream(11);
     const n = 150;
-    const x = new Float64Array(n), y = new Float64Array(n), lo = new Int8Array(n);
-    for (let i = 0; i < n; i++) { x[i] = 50 * rng.uniform(); y[i] = 50 * rng.uniform(); lo[i] = Math.floor(6 * rng.uniform()); }
+    const x = new Float64Array(n),
+      y = new Float64Array(n),
+      lo = new Int8Array(n);
+    for (let i = 0; i < n; i++) {
+      x[i] = 50 * rng.uniform();
+      y[i] = 50 * rng.uniform();
+      lo[i] = Math.floor(6 * rng.uniform());
+    }
     const faults = new Float64Array([20, -5, 25, 30, 25, 30, 40, 55]);
     const field = new IndicatorField(x, y, lo, lo, { method: 'idw', neighbors: 10, faults });
     const out = new Float64Array(5);
@@ -74,7 +95,8 @@ describe('indicator surfaces', () => {
       const z = Float64Array.from(lo, (r) => (r >= j ? 1 : 0));
       const ref = new IdwPredictor(x, y, z, { neighbors: 10, visibility: new FaultBarrier(faults, x, y) });
       for (let t = 0; t < 40; t++) {
-        const qx = 50 * rng.uniform(), qy = 50 * rng.uniform();
+        const qx = 50 * rng.uniform(),
+          qy = 50 * rng.uniform();
         field.predict(qx, qy, out);
         expect(out[j - 1]).toBeCloseTo(ref.predict(qx, qy), 12);
       }
@@ -84,17 +106,25 @@ describe('indicator surfaces', () => {
   it('the grid fast path (no barrier test far from faults) gives the same values as full barrier searches', () => {
     const rng = createStream(5);
     const n = 300;
-    const x = new Float64Array(n), y = new Float64Array(n), lo = new Int8Array(n);
-    for (let i = 0; i < n; i++) { x[i] = 60 * rng.uniform(); y[i] = 60 * rng.uniform(); lo[i] = Math.min(5, Math.floor(x[i] / 10)); }
+    const x = new Float64Array(n),
+      y = new Float64Array(n),
+      lo = new Int8Array(n);
+    for (let i = 0; i < n; i++) {
+      x[i] = 60 * rng.uniform();
+      y[i] = 60 * rng.uniform();
+      lo[i] = Math.min(5, Math.floor(x[i] / 10));
+    }
     const field = new IndicatorField(x, y, lo, lo, { method: 'idw', faults: new Float64Array([30, 0, 31, 60]) });
     const g = { x0: 0, y0: 0, cellKm: 2, width: 31, height: 31 };
-    const vals = new Float32Array(5 * 31 * 31), near = new Float32Array(31 * 31);
+    const vals = new Float32Array(5 * 31 * 31),
+      near = new Float32Array(31 * 31);
     field.grid(g, vals, near);
     expect(field.barrierSearches).toBeGreaterThan(0);
     expect(field.barrierSearches).toBeLessThan(31 * 31);
     const out = new Float64Array(5);
     for (let i = 0; i < 31 * 31; i += 7) {
-      const c = i % 31, r = (i - c) / 31;
+      const c = i % 31,
+        r = (i - c) / 31;
       field.predict(c * 2, r * 2, out);
       for (let j = 0; j < 5; j++) expect(vals[j * 961 + i]).toBeCloseTo(out[j], 6);
     }
@@ -127,7 +157,13 @@ describe('isograds on constructed cases', () => {
 
   // Fault along x = 0 (trace drawn south → north, so west = left, east = right). West: garnet for y ≥ 0;
   // east: garnet for y ≥ 8 — the isograd is offset 8 km along the fault.
-  const trace = buildTrace('T', [[[0, -40], [0.05, 0], [0, 40]]]).trace;
+  const trace = buildTrace('T', [
+    [
+      [0, -40],
+      [0.05, 0],
+      [0, 40],
+    ],
+  ]).trace;
   const rankOffset = (px: number, py: number) => (py >= (px < 0 ? 0 : 8) ? 2 : 1);
 
   it('measures the along-trace separation of an offset isograd: 8 km within 1.5 km', () => {
@@ -157,7 +193,15 @@ describe('isograds on constructed cases', () => {
 
   it('a zone missing across a fault: one side only below it, the other only above, on neither', () => {
     // Left (west): biotite south, garnet north; right (east): kyanite south, sillimanite north → staurolite is cut out.
-    const d = lattice(-24, 24, -30, 30, 2, (px, py) => (px < 0 ? (py >= 0 ? 2 : 1) : (py >= 0 ? 5 : 4)), (px) => Math.abs(px) < 0.3);
+    const d = lattice(
+      -24,
+      24,
+      -30,
+      30,
+      2,
+      (px, py) => (px < 0 ? (py >= 0 ? 2 : 1) : py >= 0 ? 5 : 4),
+      (px) => Math.abs(px) < 0.3,
+    );
     const r = computeIsogradsKm(d.x, d.y, d.g, tracePieces([trace]), { cellKm: 0.5 });
     const rep = faultReport({ trace }, r.field, { supportKm: r.supportKm, sampleIds: d.g.map((g) => g.id) });
     // South of y = 0 biotite faces kyanite (garnet and staurolite cut out), north garnet faces sillimanite
@@ -173,7 +217,15 @@ describe('isograds on constructed cases', () => {
 
   it('a top or bottom zone that does not reach one side is "not reached", not missing', () => {
     // Left: staurolite south, kyanite north; right: garnet south, staurolite north (the old "missing" case).
-    const d = lattice(-24, 24, -30, 30, 2, (px, py) => (px < 0 ? (py >= 0 ? 4 : 3) : (py >= 0 ? 3 : 2)), (px) => Math.abs(px) < 0.3);
+    const d = lattice(
+      -24,
+      24,
+      -30,
+      30,
+      2,
+      (px, py) => (px < 0 ? (py >= 0 ? 4 : 3) : py >= 0 ? 3 : 2),
+      (px) => Math.abs(px) < 0.3,
+    );
     const r = computeIsogradsKm(d.x, d.y, d.g, tracePieces([trace]), { cellKm: 0.5 });
     const rep = faultReport({ trace }, r.field, { supportKm: r.supportKm });
     expect(rep.missingZones).toEqual([]);
@@ -184,7 +236,12 @@ describe('isograds on constructed cases', () => {
   });
 
   it('locates points against a trace: along distance, side, beyond the ends', () => {
-    const t = buildTrace('S', [[[0, 0], [10, 0]]]).trace;
+    const t = buildTrace('S', [
+      [
+        [0, 0],
+        [10, 0],
+      ],
+    ]).trace;
     expect(locateOnTrace(t, 4, 2)).toEqual({ alongKm: 4, offsetKm: -2, beyondEnd: false }); // north of an eastward trace: left
     expect(locateOnTrace(t, 4, -3)).toEqual({ alongKm: 4, offsetKm: 3, beyondEnd: false });
     expect(locateOnTrace(t, 12, 0).beyondEnd).toBe(true);

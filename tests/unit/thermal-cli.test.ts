@@ -16,7 +16,13 @@ function run(model: unknown, args: string[]) {
 }
 
 // Turcotte & Schubert (2002) §4-8 worked case of docs/sources.md#geotherm-exponential: T0 10, q0 60, A0 2.5, hr 10, k 2.5.
-const GOOD = { surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ name: 'crust', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700, heatProducingUpperCrust: true }] };
+const GOOD = {
+  surfaceTemperatureC: 10,
+  surfaceHeatFlowMWm2: 60,
+  layers: [
+    { name: 'crust', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700, heatProducingUpperCrust: true },
+  ],
+};
 
 describe('subtherm geotherm', () => {
   it('prints the DESIGN.md §4 JSON for a good model', () => {
@@ -30,7 +36,19 @@ describe('subtherm geotherm', () => {
     expect(j.reducedHeatFlowMWm2).toBeCloseTo(35, 6);
     expect(j.basalHeatFlowMWm2).toBeCloseTo(60 - 25 * (1 - Math.exp(-4)), 5);
     expect(j.profile).toHaveLength(41);
-    expect(Object.keys(j.profile[10]).sort()).toEqual(['depthKm', 'effectivePressureMPa', 'facies', 'faciesApproximate', 'flag', 'heatFlowMWm2', 'poreFluidFactor', 'porePressureMPa', 'pressureMPa', 'regime', 'temperatureC']);
+    expect(Object.keys(j.profile[10]).sort()).toEqual([
+      'depthKm',
+      'effectivePressureMPa',
+      'facies',
+      'faciesApproximate',
+      'flag',
+      'heatFlowMWm2',
+      'poreFluidFactor',
+      'porePressureMPa',
+      'pressureMPa',
+      'regime',
+      'temperatureC',
+    ]);
     expect(j.profile[10].pressureMPa).toBeCloseTo(264.87, 6); // ρgh, 2700 · 9.81 · 10 km
     // Hydrostatic fresh water with the model's g = 9.81: 98.1 MPa at 10 km; λ = 98.1/264.87 (Hubbert & Rubey 1959).
     expect(j.profile[10].porePressureMPa).toBeCloseTo(98.1, 6);
@@ -63,7 +81,18 @@ describe('subtherm geotherm', () => {
     ['k ≤ 0', { ...GOOD, layers: [{ ...GOOD.layers[0], conductivityWmK: 0 }] }, 'layers[0] (crust)', 'conductivityWmK'],
     ['missing field', { ...GOOD, layers: [{ name: 'crust', bottomKm: 40, heatProductionUWm3: 1 }] }, 'layers[0] (crust)', 'conductivityWmK'],
     ['negative bottom', { ...GOOD, layers: [{ ...GOOD.layers[0], bottomKm: -5 }] }, 'layers[0] (crust)', 'bottomKm'],
-    ['1 + bT ≤ 0 in the modelled range', { ...GOOD, layers: [{ ...GOOD.layers[0], conductivityTempCoeffPerK: -0.01 }, { name: 'deep', bottomKm: 60, conductivityWmK: 3, conductivityTempCoeffPerK: -0.02, heatProductionUWm3: 0 }] }, 'layers[1] (deep)', 'conductivityTempCoeffPerK'],
+    [
+      '1 + bT ≤ 0 in the modelled range',
+      {
+        ...GOOD,
+        layers: [
+          { ...GOOD.layers[0], conductivityTempCoeffPerK: -0.01 },
+          { name: 'deep', bottomKm: 60, conductivityWmK: 3, conductivityTempCoeffPerK: -0.02, heatProductionUWm3: 0 },
+        ],
+      },
+      'layers[1] (deep)',
+      'conductivityTempCoeffPerK',
+    ],
   ];
   for (const [what, model, feature, field] of bad) {
     it(`exits 2 naming the layer and field: ${what}`, () => {

@@ -33,13 +33,23 @@ function rootOf(f: (z: number) => number, target: number, lo = 0, hi = 100): num
 
 describe('exponential heat production (Turcotte & Schubert 2002, §4-8)', () => {
   // T(z) = T0 + qm·z/k + (A0·hr²/k)(1 − e^(−z/hr)), qm = q0 − A0·hr (Turcotte & Schubert 2002, §4-8).
-  const T0 = 10, q0 = 60, A0 = 2.5, hr = 10, k = 2.5, qm = q0 - A0 * hr;
+  const T0 = 10,
+    q0 = 60,
+    A0 = 2.5,
+    hr = 10,
+    k = 2.5,
+    qm = q0 - A0 * hr;
   const published = (z: number) => T0 + (qm * z) / k + ((A0 * hr * hr) / k) * (1 - Math.exp(-z / hr));
   const cm = compileModel(one({ conductivityWmK: k, heatProductionUWm3: A0, heatProductionDecayKm: hr, heatProducingUpperCrust: true }, q0, T0));
 
   it('matches the closed form and the docs/sources.md#geotherm-exponential check values', () => {
     // Check values [derived] in docs/sources.md#geotherm-exponential from the formula above: 119.347, 213.212, 376.466, 596.980 °C.
-    const check: [number, number][] = [[5, 119.347], [10, 213.212], [20, 376.466], [35, 596.98]];
+    const check: [number, number][] = [
+      [5, 119.347],
+      [10, 213.212],
+      [20, 376.466],
+      [35, 596.98],
+    ];
     for (const [z, t] of check) {
       expect(temperatureAtDepth(cm, z)).toBeCloseTo(published(z), 9);
       expect(temperatureAtDepth(cm, z)).toBeCloseTo(t, 3);
@@ -48,7 +58,11 @@ describe('exponential heat production (Turcotte & Schubert 2002, §4-8)', () => 
 
   it('finds isotherm depths to better than 1 m', () => {
     // Depth to 150 / 300 / 500 °C = 6.5627 / 15.1426 / 28.2795 km (docs/sources.md#geotherm-exponential [derived], same formula).
-    const check: [number, number][] = [[150, 6.5627], [300, 15.1426], [500, 28.2795]];
+    const check: [number, number][] = [
+      [150, 6.5627],
+      [300, 15.1426],
+      [500, 28.2795],
+    ];
     for (const [t, z] of check) {
       const d = isothermDepth(cm, t)!;
       expect(Math.abs(d - rootOf(published, t))).toBeLessThan(1e-6);
@@ -68,7 +82,15 @@ describe('exponential heat production (Turcotte & Schubert 2002, §4-8)', () => 
       surfaceHeatFlowMWm2: q0,
       layers: [
         { name: 'sediment', rock: 'sediment', bottomKm: 2, conductivityWmK: 2, heatProductionUWm3: 1.5, densityKgM3: 2400 },
-        { name: 'upper crust', bottomKm: 40, conductivityWmK: k, heatProductionUWm3: A0, heatProductionDecayKm: hr, heatProducingUpperCrust: true, densityKgM3: 2700 },
+        {
+          name: 'upper crust',
+          bottomKm: 40,
+          conductivityWmK: k,
+          heatProductionUWm3: A0,
+          heatProductionDecayKm: hr,
+          heatProducingUpperCrust: true,
+          densityKgM3: 2700,
+        },
       ],
     };
     expect(reducedHeatFlow(compileModel(sedModel), q0)).toBeCloseTo(32, 12);
@@ -89,10 +111,17 @@ describe('exponential heat production (Turcotte & Schubert 2002, §4-8)', () => 
 
 describe('constant heat production (Turcotte & Schubert 2002, §4-6)', () => {
   // T = T0 + q0·z/k − A·z²/(2k); z_iso = [q0 − √(q0² − 2Ak(T − T0))]/A.
-  const T0 = 10, q0 = 60, A = 1, k = 2.5;
+  const T0 = 10,
+    q0 = 60,
+    A = 1,
+    k = 2.5;
   const cm = compileModel(one({ heatProductionUWm3: A, conductivityWmK: k }, q0, T0));
   it('matches T(10, 20, 35) = 230, 410, 605 °C (docs/sources.md#geotherm-constant [derived])', () => {
-    const check: [number, number][] = [[10, 230], [20, 410], [35, 605]];
+    const check: [number, number][] = [
+      [10, 230],
+      [20, 410],
+      [35, 605],
+    ];
     for (const [z, t] of check) expect(temperatureAtDepth(cm, z)).toBeCloseTo(t, 9);
   });
   it('matches the published isotherm-depth formula', () => {
@@ -108,14 +137,22 @@ describe('constant heat production (Turcotte & Schubert 2002, §4-6)', () => {
 
 describe('temperature-dependent conductivity, Kirchhoff transform (Chapman 1986 form)', () => {
   // θ = T0 + q0·z/k0 − A·z²/(2k0) − T0 (the constant-k solution); T = [(1 + bT0)·e^(bθ) − 1]/b.
-  const T0 = 10, q0 = 60, A = 1, k0 = 3, b = 1.5e-3;
+  const T0 = 10,
+    q0 = 60,
+    A = 1,
+    k0 = 3,
+    b = 1.5e-3;
   const published = (z: number) => {
     const theta = (q0 * z) / k0 - (A * z * z) / (2 * k0);
     return ((1 + b * T0) * Math.exp(b * theta) - 1) / b;
   };
   const cm = compileModel(one({ heatProductionUWm3: A, conductivityWmK: k0, conductivityTempCoeffPerK: b }, q0, T0));
   it('matches T(10, 20, 35) = 224.186, 448.968, 756.911 °C (docs/sources.md#conductivity-temperature [derived])', () => {
-    const check: [number, number][] = [[10, 224.186], [20, 448.968], [35, 756.911]];
+    const check: [number, number][] = [
+      [10, 224.186],
+      [20, 448.968],
+      [35, 756.911],
+    ];
     for (const [z, t] of check) {
       expect(temperatureAtDepth(cm, z)).toBeCloseTo(published(z), 9);
       expect(temperatureAtDepth(cm, z)).toBeCloseTo(t, 3);
@@ -149,8 +186,24 @@ const FOUR: ThermalModel = {
   surfaceHeatFlowMWm2: 75,
   layers: [
     { name: 'sediments', bottomKm: 3, conductivityWmK: 2.2, conductivityTempCoeffPerK: 1e-3, heatProductionUWm3: 1.2, densityKgM3: 2400 },
-    { name: 'upper crust', bottomKm: 16, conductivityWmK: 3.1, conductivityTempCoeffPerK: 1.5e-3, heatProductionUWm3: 2.8, heatProductionDecayKm: 9, densityKgM3: 2700 },
-    { name: 'lower crust', bottomKm: 36, conductivityWmK: 2.6, conductivityTempCoeffPerK: 1e-4, heatProductionUWm3: 0.5, heatProductionDecayKm: 20, densityKgM3: 2900 },
+    {
+      name: 'upper crust',
+      bottomKm: 16,
+      conductivityWmK: 3.1,
+      conductivityTempCoeffPerK: 1.5e-3,
+      heatProductionUWm3: 2.8,
+      heatProductionDecayKm: 9,
+      densityKgM3: 2700,
+    },
+    {
+      name: 'lower crust',
+      bottomKm: 36,
+      conductivityWmK: 2.6,
+      conductivityTempCoeffPerK: 1e-4,
+      heatProductionUWm3: 0.5,
+      heatProductionDecayKm: 20,
+      densityKgM3: 2900,
+    },
     { name: 'mantle', bottomKm: 60, conductivityWmK: 3.3, conductivityTempCoeffPerK: 2e-4, heatProductionUWm3: 0.02, densityKgM3: 3300 },
   ],
 };
@@ -169,7 +222,8 @@ describe('layered invariants', () => {
       const l = FOUR.layers;
       let top = 0;
       for (const L of l) {
-        if (z < L.bottomKm || L === l[l.length - 1]) return (L.heatProductionUWm3 ?? 0) * (L.heatProductionDecayKm ? Math.exp(-(z - top) / L.heatProductionDecayKm) : 1);
+        if (z < L.bottomKm || L === l[l.length - 1])
+          return (L.heatProductionUWm3 ?? 0) * (L.heatProductionDecayKm ? Math.exp(-(z - top) / L.heatProductionDecayKm) : 1);
         top = L.bottomKm;
       }
       return 0;
@@ -177,7 +231,8 @@ describe('layered invariants', () => {
     let integral = 0;
     let top = 0;
     for (const L of FOUR.layers) {
-      const n = 2000, h = (L.bottomKm - top) / n;
+      const n = 2000,
+        h = (L.bottomKm - top) / n;
       let s = A(top + 1e-12) + A(L.bottomKm - 1e-12);
       for (let i = 1; i < n; i++) s += (i % 2 ? 4 : 2) * A(top + i * h);
       integral += (s * h) / 3;
@@ -191,17 +246,25 @@ describe('layered invariants', () => {
   });
   it('agrees with an RK4 integration of dT/dz = q(z)/k(T) to 0.01 °C', () => {
     // dT/dz [K/km] = q [mW/m²]·(1 + bT)/k0 [W/m/K]; RK4 with 1 m steps, layer boundaries on step edges.
-    let T = FOUR.surfaceTemperatureC, top = 0, worst = 0;
+    let T = FOUR.surfaceTemperatureC,
+      top = 0,
+      worst = 0;
     for (let i = 0; i < FOUR.layers.length; i++) {
       const L = FOUR.layers[i];
-      const b = L.conductivityTempCoeffPerK ?? 0, D = L.heatProductionDecayKm ?? 0, A0 = L.heatProductionUWm3 ?? 0;
+      const b = L.conductivityTempCoeffPerK ?? 0,
+        D = L.heatProductionDecayKm ?? 0,
+        A0 = L.heatProductionUWm3 ?? 0;
       const qTop = heatFlowAtDepth(cm, top);
       const q = (z: number) => qTop - (D > 0 ? A0 * D * (1 - Math.exp(-(z - top) / D)) : A0 * (z - top));
       const f = (z: number, t: number) => (q(z) * (1 + b * t)) / L.conductivityWmK;
-      const n = Math.round((L.bottomKm - top) / 0.001), h = (L.bottomKm - top) / n;
+      const n = Math.round((L.bottomKm - top) / 0.001),
+        h = (L.bottomKm - top) / n;
       for (let s = 0; s < n; s++) {
         const z = top + s * h;
-        const k1 = f(z, T), k2 = f(z + h / 2, T + (h / 2) * k1), k3 = f(z + h / 2, T + (h / 2) * k2), k4 = f(z + h, T + h * k3);
+        const k1 = f(z, T),
+          k2 = f(z + h / 2, T + (h / 2) * k1),
+          k3 = f(z + h / 2, T + (h / 2) * k2),
+          k4 = f(z + h, T + h * k3);
         T += (h / 6) * (k1 + 2 * k2 + 2 * k3 + k4);
         if (s % 500 === 499) worst = Math.max(worst, Math.abs(T - temperatureAtDepth(cm, z + h)));
       }

@@ -9,7 +9,9 @@ import { join } from 'node:path';
 import { writeGeoTiff, readGeoTiff } from '../../server/io/geotiff.ts';
 import { isotherms } from '../../server/cli/isotherms.ts';
 
-const K_WMK = 2.5, T0 = 10, Q_SITE = 72;
+const K_WMK = 2.5,
+  T0 = 10,
+  Q_SITE = 72;
 let dir: string;
 
 beforeAll(() => {
@@ -17,19 +19,65 @@ beforeAll(() => {
   // 10 × 10 cells of 0.04°; site s0 sits on the centre of cell (row 4, column 5).
   const grid = { width: 10, height: 10, west: 10, north: 0.4, dx: 0.04, dy: 0.04, crs: 'EPSG:4326', units: 'mW/m²', values: new Float32Array(100).fill(65) };
   writeFileSync(join(dir, 'hf.tif'), Buffer.from(writeGeoTiff(grid)));
-  const sites = [[10.22, 0.22, Q_SITE], [10.05, 0.05, 60], [10.35, 0.06, 64], [10.06, 0.36, 58], [10.3, 0.34, 70]];
-  writeFileSync(join(dir, 'sites.geojson'), JSON.stringify({ type: 'FeatureCollection', features: sites.map(([lon, lat, q], i) => ({ type: 'Feature', id: `s${i}`, geometry: { type: 'Point', coordinates: [lon, lat] }, properties: { heatFlowMWm2: q } })) }));
-  writeFileSync(join(dir, 'model.json'), JSON.stringify({ surfaceTemperatureC: T0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K_WMK, heatProductionUWm3: 0, densityKgM3: 2700 }] }));
+  const sites = [
+    [10.22, 0.22, Q_SITE],
+    [10.05, 0.05, 60],
+    [10.35, 0.06, 64],
+    [10.06, 0.36, 58],
+    [10.3, 0.34, 70],
+  ];
+  writeFileSync(
+    join(dir, 'sites.geojson'),
+    JSON.stringify({
+      type: 'FeatureCollection',
+      features: sites.map(([lon, lat, q], i) => ({
+        type: 'Feature',
+        id: `s${i}`,
+        geometry: { type: 'Point', coordinates: [lon, lat] },
+        properties: { heatFlowMWm2: q },
+      })),
+    }),
+  );
+  writeFileSync(
+    join(dir, 'model.json'),
+    JSON.stringify({ surfaceTemperatureC: T0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K_WMK, heatProductionUWm3: 0, densityKgM3: 2700 }] }),
+  );
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 describe('isotherms --points', () => {
   it('honours the site in its cell (P10 = P90 = the analytic depth) and spreads away from the sites', async () => {
     let out = '';
-    const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => { out += String(s); return true; });
+    const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
+      out += String(s);
+      return true;
+    });
     try {
-      expect(await isotherms(['--heat-flow', join(dir, 'hf.tif'), '--model', join(dir, 'model.json'), '--out-dir', join(dir, 'out'), '--isotherms', '300',
-        '--points', join(dir, 'sites.geojson'), '--variogram', 'exponential:0,16,40', '--transform', 'none', '--neighbors', 'all', '--realizations', '60', '--seed', '3', '--json'])).toBe(0);
+      expect(
+        await isotherms([
+          '--heat-flow',
+          join(dir, 'hf.tif'),
+          '--model',
+          join(dir, 'model.json'),
+          '--out-dir',
+          join(dir, 'out'),
+          '--isotherms',
+          '300',
+          '--points',
+          join(dir, 'sites.geojson'),
+          '--variogram',
+          'exponential:0,16,40',
+          '--transform',
+          'none',
+          '--neighbors',
+          'all',
+          '--realizations',
+          '60',
+          '--seed',
+          '3',
+          '--json',
+        ]),
+      ).toBe(0);
     } finally {
       spy.mockRestore();
     }
@@ -37,7 +85,8 @@ describe('isotherms --points', () => {
     expect(summary.monteCarlo.heatFlow).toMatch(/conditional simulations of the sites/);
     expect(summary.monteCarlo.heatFlowErrorCorrelation).toBeNull();
     const tif = async (name: string) => (await readGeoTiff(readFileSync(join(dir, 'out', name)))).grid.values;
-    const p10 = await tif('depth-300C.p10.tif'), p90 = await tif('depth-300C.p90.tif');
+    const p10 = await tif('depth-300C.p10.tif'),
+      p90 = await tif('depth-300C.p90.tif');
     const c = 4 * 10 + 5;
     const z = ((300 - T0) * K_WMK) / Q_SITE; // km, with q in mW/m²
     expect(Math.abs(p10[c] - z)).toBeLessThan(1e-3);

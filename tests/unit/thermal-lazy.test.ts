@@ -1,5 +1,17 @@
 import { describe, expect, it } from 'vitest';
-import { compileModel, ColumnState, solveColumn, columnIsothermDepth, columnTemperature, geothermGrid, columnLimits, limitedIsothermDepth, limitedTemperature, COLUMN_FLOW_EXHAUSTED, COLUMN_MELT_ONSET } from '../../shared/thermal/index.ts';
+import {
+  compileModel,
+  ColumnState,
+  solveColumn,
+  columnIsothermDepth,
+  columnTemperature,
+  geothermGrid,
+  columnLimits,
+  limitedIsothermDepth,
+  limitedTemperature,
+  COLUMN_FLOW_EXHAUSTED,
+  COLUMN_MELT_ONSET,
+} from '../../shared/thermal/index.ts';
 import type { ThermalModel } from '../../shared/thermal/index.ts';
 
 // A four-layer stack with k(T) and exponential heat production; high heat production at depth so that low surface
@@ -8,7 +20,15 @@ const MODEL: ThermalModel = {
   surfaceTemperatureC: 10,
   layers: [
     { name: 'cover', bottomKm: 3, conductivityWmK: 2.2, conductivityTempCoeffPerK: 1e-3, heatProductionUWm3: 1.2, densityKgM3: 2400 },
-    { name: 'upper', bottomKm: 16, conductivityWmK: 3.1, conductivityTempCoeffPerK: 1.5e-3, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 },
+    {
+      name: 'upper',
+      bottomKm: 16,
+      conductivityWmK: 3.1,
+      conductivityTempCoeffPerK: 1.5e-3,
+      heatProductionUWm3: 2.5,
+      heatProductionDecayKm: 10,
+      densityKgM3: 2700,
+    },
     { name: 'lower', bottomKm: 36, conductivityWmK: 2.6, conductivityTempCoeffPerK: 1e-4, heatProductionUWm3: 1.5, densityKgM3: 2900 },
     { name: 'mantle', bottomKm: 60, conductivityWmK: 3.3, conductivityTempCoeffPerK: 2e-4, heatProductionUWm3: 0.02, densityKgM3: 3300 },
   ],
@@ -17,7 +37,8 @@ const MODEL: ThermalModel = {
 describe('lazy column solve (temperatures only as deep as the query needs)', () => {
   it('gives the same isotherm depths, temperatures and status as the full solve', () => {
     const cm = compileModel(MODEL, { maxDepthKm: 60 });
-    const full = new ColumnState(cm.nLayers), lazy = new ColumnState(cm.nLayers);
+    const full = new ColumnState(cm.nLayers),
+      lazy = new ColumnState(cm.nLayers);
     let exhausted = 0;
     for (let q0 = 30; q0 <= 140; q0 += 0.37) {
       solveColumn(cm, q0, 10, full);
@@ -26,12 +47,14 @@ describe('lazy column solve (temperatures only as deep as the query needs)', () 
       expect(lazy.validToKm).toBeCloseTo(full.validToKm, 12);
       if (full.status & COLUMN_FLOW_EXHAUSTED) exhausted++;
       for (const t of [150, 300]) {
-        const a = columnIsothermDepth(cm, full, t, 60), b = columnIsothermDepth(cm, lazy, t, 60);
+        const a = columnIsothermDepth(cm, full, t, 60),
+          b = columnIsothermDepth(cm, lazy, t, 60);
         if (Number.isNaN(a)) expect(b).toBeNaN();
         else expect(b).toBe(a);
       }
       for (const z of [2, 5, 10]) {
-        const a = columnTemperature(cm, full, z), b = columnTemperature(cm, lazy, z);
+        const a = columnTemperature(cm, full, z),
+          b = columnTemperature(cm, lazy, z);
         if (Number.isNaN(a)) expect(b).toBeNaN();
         else expect(b).toBe(a);
       }
@@ -43,7 +66,12 @@ describe('lazy column solve (temperatures only as deep as the query needs)', () 
     const cm = compileModel(MODEL, { maxDepthKm: 60 });
     const n = 400;
     const q = Float32Array.from({ length: n }, (_, i) => 35 + (i * 100) / n);
-    const out = { isothermDepthKm: [new Float64Array(n), new Float64Array(n)], temperatureC: [new Float64Array(n)], status: new Uint8Array(n), meltOnsetKm: new Float64Array(n) };
+    const out = {
+      isothermDepthKm: [new Float64Array(n), new Float64Array(n)],
+      temperatureC: [new Float64Array(n)],
+      status: new Uint8Array(n),
+      meltOnsetKm: new Float64Array(n),
+    };
     geothermGrid(cm, q, { isothermsC: [150, 300], depthsKm: [5, 25] }, { ...out, temperatureC: [out.temperatureC[0], new Float64Array(n)] });
     const st = new ColumnState(cm.nLayers);
     let melting = 0;

@@ -99,7 +99,8 @@ describe('the mantle adiabat below the conductive lid', () => {
     const { cm, st, lim } = solved(crustMantle(q0), q0, 200);
     const cond = (z: number) => 490 + (40 * (z - 30)) / 3;
     const adiabat = (z: number) => 1603.15 * Math.exp((3e-5 * 9.81 * 1e3 * z) / 1200) - 273.15;
-    let lo = 30, hi = 200;
+    let lo = 30,
+      hi = 200;
     for (let i = 0; i < 200; i++) {
       const m = 0.5 * (lo + hi);
       if (cond(m) < adiabat(m)) lo = m;
@@ -118,9 +119,13 @@ describe('the mantle adiabat below the conductive lid', () => {
 
   it('says where the adiabat is above the dry peridotite solidus (Hirschmann 2000), and melts a thin lid there', () => {
     // Depth where 1330 °C adiabat = −5.104P² + 132.899P + 1120.661 (P in GPa, ρgh).
-    const hir = (z: number) => { const p = P(z) / 1000; return -5.104 * p * p + 132.899 * p + 1120.661; };
+    const hir = (z: number) => {
+      const p = P(z) / 1000;
+      return -5.104 * p * p + 132.899 * p + 1120.661;
+    };
     const adiabat = (z: number) => 1603.15 * Math.exp((3e-5 * 9.81 * 1e3 * z) / 1200) - 273.15;
-    let lo = 30, hi = 200;
+    let lo = 30,
+      hi = 200;
     for (let i = 0; i < 200; i++) {
       const m = 0.5 * (lo + hi);
       if (adiabat(m) > hir(m)) lo = m;
@@ -135,7 +140,8 @@ describe('the mantle adiabat below the conductive lid', () => {
     const hot = solved(crustMantle(75), 75, 200);
     expect(hot.lim.lithosphereBaseKm).toBeLessThan(lo);
     expect(hot.lim.meltOnsetKm).toBeLessThanOrEqual(hot.lim.lithosphereBaseKm);
-    lo = 30; hi = 60;
+    lo = 30;
+    hi = 60;
     for (let i = 0; i < 200; i++) {
       const m = 0.5 * (lo + hi);
       if (910 + 25 * (m - 30) < hir(m)) lo = m;

@@ -16,7 +16,16 @@ const base = (over: Partial<ThermalModelInput['layers'][0]> = {}, q0: ThermalMod
   surfaceTemperatureC: 10,
   surfaceHeatFlowMWm2: q0,
   layers: [
-    { name: 'upper', bottomKm: 15, conductivityWmK: 3, conductivityTempCoeffPerK: 1.5e-3, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700, ...over },
+    {
+      name: 'upper',
+      bottomKm: 15,
+      conductivityWmK: 3,
+      conductivityTempCoeffPerK: 1.5e-3,
+      heatProductionUWm3: 2.5,
+      heatProductionDecayKm: 10,
+      densityKgM3: 2700,
+      ...over,
+    },
     { name: 'lower', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 0.4, densityKgM3: 2900 },
   ],
 });
@@ -50,7 +59,9 @@ describe('column Monte Carlo', () => {
     // μ + 1.2815516σ, μ, μ − 1.2815516σ (standard normal quantile z₀.₉ = 1.2815516, Abramowitz & Stegun 1964
     // Table 26.5). Depths from the closed form of Turcotte & Schubert (2002) §4-8, constant k, exponential A:
     // T(z) = T0 + qm·z/k + (A0·hr²/k)(1 − e^(−z/hr)), qm = q0 − A0·hr, solved by bisection here.
-    const N = 2001, mu = 70, sigma = 5;
+    const N = 2001,
+      mu = 70,
+      sigma = 5;
     const m: ThermalModelInput = {
       surfaceTemperatureC: 10,
       surfaceHeatFlowMWm2: { dist: 'normal', mean: mu, sd: sigma },
@@ -58,8 +69,13 @@ describe('column Monte Carlo', () => {
     };
     const tsDepth = (q0: number, t: number) => {
       const T = (z: number) => 10 + ((q0 - 25) * z) / 2.5 + ((2.5 * 100) / 2.5) * (1 - Math.exp(-z / 10));
-      let lo = 0, hi = 40;
-      for (let i = 0; i < 80; i++) { const mid = (lo + hi) / 2; if (T(mid) < t) lo = mid; else hi = mid; }
+      let lo = 0,
+        hi = 40;
+      for (let i = 0; i < 80; i++) {
+        const mid = (lo + hi) / 2;
+        if (T(mid) < t) lo = mid;
+        else hi = mid;
+      }
       return (lo + hi) / 2;
     };
     const r = monteCarloColumn(m, { ...opts, realizations: N });
@@ -68,9 +84,13 @@ describe('column Monte Carlo', () => {
     // Sampling error of a sample quantile: σ_q = σ·√(p(1 − p)/N)/φ(z_p) (e.g. Stuart & Ord, Kendall's Advanced
     // Theory of Statistics, from memory), mapped to depth by the slope dz/dq0; 4 such errors allowed.
     const slope = Math.abs(tsDepth(mu + 0.5, 300) - tsDepth(mu - 0.5, 300));
-    const phi = (z: number) => Math.exp(-z * z / 2) / Math.sqrt(2 * Math.PI);
-    for (const [p, zq, v] of [[0.1, z90, s.p10], [0.5, 0, s.p50], [0.9, -z90, s.p90]] as const) {
-      const tol = 4 * slope * (sigma * Math.sqrt((p * (1 - p)) / N)) / phi(zq);
+    const phi = (z: number) => Math.exp((-z * z) / 2) / Math.sqrt(2 * Math.PI);
+    for (const [p, zq, v] of [
+      [0.1, z90, s.p10],
+      [0.5, 0, s.p50],
+      [0.9, -z90, s.p90],
+    ] as const) {
+      const tol = (4 * slope * (sigma * Math.sqrt((p * (1 - p)) / N))) / phi(zq);
       expect(Math.abs(v - tsDepth(mu + zq * sigma, 300))).toBeLessThan(tol);
     }
     expect(s.p10).toBeLessThan(s.p50);
@@ -105,7 +125,14 @@ describe('grid Monte Carlo', () => {
   q[5] = NaN;
   const sd = Float32Array.from({ length: cells }, (_, i) => (i % 3) * 2);
   const model = base({ conductivityWmK: { dist: 'normal', mean: 3, sd: 0.25 }, heatProductionUWm3: { dist: 'triangular', min: 1.5, mode: 2.5, max: 3 } });
-  const spec = (corr: 'full' | 'independent'): GridMonteCarloSpec => ({ models: [model], heatFlowMWm2: q, heatFlowSdMWm2: sd, heatFlowErrorCorrelation: corr, ...opts, realizations: 60 });
+  const spec = (corr: 'full' | 'independent'): GridMonteCarloSpec => ({
+    models: [model],
+    heatFlowMWm2: q,
+    heatFlowSdMWm2: sd,
+    heatFlowErrorCorrelation: corr,
+    ...opts,
+    realizations: 60,
+  });
 
   for (const corr of ['full', 'independent'] as const) {
     it(`${corr} correlation: identical results for any chunking of the cells`, () => {
@@ -141,19 +168,39 @@ describe('grid Monte Carlo under the melt limit', () => {
     // 1988, held constant; shared/petrology/solidus.ts). Heat flow normal(μ, σ) per cell: a realization's temperature
     // at depth d is T(d; q0) below 780 °C and past the melt onset otherwise, so its P10/P50/P90 are T(d; q0) at q0's
     // 10th/50th/90th percentiles μ ∓ 1.2815516σ (A&S Table 26.5) where those stay below 780 °C, and null where not.
-    const model: ThermalModelInput = { surfaceTemperatureC: 10, layers: [{ name: 'crust', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2700, rock: 'felsic-crust' }] };
+    const model: ThermalModelInput = {
+      surfaceTemperatureC: 10,
+      layers: [{ name: 'crust', bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2700, rock: 'felsic-crust' }],
+    };
     const T = (q0: number, z: number) => 10 + (q0 * z) / 2.5 - (1 * z * z) / (2 * 2.5);
-    const mu = Float32Array.from([80, 95, 110]), sdq = Float32Array.from([10, 10, 10]);
+    const mu = Float32Array.from([80, 95, 110]),
+      sdq = Float32Array.from([10, 10, 10]);
     const depths = [15, 20, 25, 30];
     const N = 1501;
-    const spec: GridMonteCarloSpec = { models: [model], heatFlowMWm2: mu, heatFlowSdMWm2: sdq, heatFlowErrorCorrelation: 'independent', isothermsC: [300], depthsKm: depths, maxDepthKm: 40, realizations: N, seed: 3 };
+    const spec: GridMonteCarloSpec = {
+      models: [model],
+      heatFlowMWm2: mu,
+      heatFlowSdMWm2: sdq,
+      heatFlowErrorCorrelation: 'independent',
+      isothermsC: [300],
+      depthsKm: depths,
+      maxDepthKm: 40,
+      realizations: N,
+      seed: 3,
+    };
     const out = allocateGridMonteCarloOutput(3, 1, depths.length);
     monteCarloGridRange(prepareGridMonteCarlo(spec), 0, 3, out);
-    const z90 = 1.2815516, phi = (z: number) => Math.exp((-z * z) / 2) / Math.sqrt(2 * Math.PI);
-    let nulls = 0, finite = 0;
+    const z90 = 1.2815516,
+      phi = (z: number) => Math.exp((-z * z) / 2) / Math.sqrt(2 * Math.PI);
+    let nulls = 0,
+      finite = 0;
     for (let c = 0; c < 3; c++) {
       depths.forEach((d, k) => {
-        for (const [p, zq, key] of [[0.1, -z90, 'p10'], [0.5, 0, 'p50'], [0.9, z90, 'p90']] as const) {
+        for (const [p, zq, key] of [
+          [0.1, -z90, 'p10'],
+          [0.5, 0, 'p50'],
+          [0.9, z90, 'p90'],
+        ] as const) {
           const v = out.temperatures[k][key][c];
           const expected = T(mu[c] + zq * sdq[c], d);
           // Sample-quantile error σ·√(p(1 − p)/N)/φ(z_p) (from memory) times dT/dq0 = d/k; 4 of them allowed.

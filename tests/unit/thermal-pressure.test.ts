@@ -12,11 +12,12 @@ import {
   uniformLithostaticPressureMPa,
 } from '../../shared/thermal/index.ts';
 
-const uniform = (rho: number) => compileModel({ surfaceTemperatureC: 10, layers: [{ bottomKm: 40, conductivityWmK: 3, heatProductionUWm3: 1, densityKgM3: rho }] });
+const uniform = (rho: number) =>
+  compileModel({ surfaceTemperatureC: 10, layers: [{ bottomKm: 40, conductivityWmK: 3, heatProductionUWm3: 1, densityKgM3: rho }] });
 
 describe('lithostatic pressure P = ∫ρ g dz', () => {
   it('ρ = 2700, 10 km, g = 9.81 → 264.87 MPa = 2.649 kbar (docs/sources.md#pressure-lithostatic [derived], P = ρgh)', () => {
-    expect(lithostaticPressureMPa(uniform(2700), 10)).toBeCloseTo(2700 * 9.81 * 10000 / 1e6, 9);
+    expect(lithostaticPressureMPa(uniform(2700), 10)).toBeCloseTo((2700 * 9.81 * 10000) / 1e6, 9);
     expect(lithostaticPressureMPa(uniform(2700), 10)).toBeCloseTo(264.87, 6);
     expect(kbarFromMPa(lithostaticPressureMPa(uniform(2700), 10))).toBeCloseTo(2.649, 3);
   });

@@ -8,8 +8,14 @@ import type { ThermalModel } from '../../shared/thermal/index.ts';
 describe('isotherm depth root', () => {
   for (const D of [1, 2, 10, 30, 100]) {
     it(`is within 1e-6 km of the bisected root (decay length ${D} km)`, () => {
-      const A = 3, k0 = 2.5, b = 0.0015, T0 = 10;
-      const model = { surfaceTemperatureC: T0, layers: [{ bottomKm: 40, conductivityWmK: k0, conductivityTempCoeffPerK: b, heatProductionUWm3: A, heatProductionDecayKm: D }] } as ThermalModel;
+      const A = 3,
+        k0 = 2.5,
+        b = 0.0015,
+        T0 = 10;
+      const model = {
+        surfaceTemperatureC: T0,
+        layers: [{ bottomKm: 40, conductivityWmK: k0, conductivityTempCoeffPerK: b, heatProductionUWm3: A, heatProductionDecayKm: D }],
+      } as ThermalModel;
       const cm = compileModel(model, { maxDepthKm: 40 });
       const st = new ColumnState(1);
       const temperature = (z: number, q: number) => {
@@ -17,7 +23,8 @@ describe('isotherm depth root', () => {
         const theta = (q * z - i2) / k0;
         return T0 + ((1 + b * T0) * Math.expm1(b * theta)) / b;
       };
-      let worst = 0, n = 0;
+      let worst = 0,
+        n = 0;
       for (let q = 40; q < 140; q += 0.731) {
         solveColumn(cm, q, T0, st);
         for (const T of [100, 150, 300, 500]) {
@@ -25,7 +32,8 @@ describe('isotherm depth root', () => {
           if (!Number.isFinite(z)) continue;
           // Bisect over the valid part of the column only: where q reaches 0 (strong, slowly decaying heat
           // production) the temperature peaks and the closed form would fall below it.
-          let lo = 0, hi = st.validToKm;
+          let lo = 0,
+            hi = st.validToKm;
           for (let i = 0; i < 200; i++) {
             const m = (lo + hi) / 2;
             if (temperature(m, q) < T) lo = m;

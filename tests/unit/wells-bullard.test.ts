@@ -23,7 +23,18 @@ function resistance(z: number): number {
 }
 
 const depths = [150, 350, 600, 900, 1150, 1300, 1600, 1900, 2100, 2500, 2900];
-const pts = (): CorrectedPoint[] => depths.map((z) => ({ sources: [0], depthM: z, rawTemperatureC: TS + Q * resistance(z), temperatureC: TS + Q * resistance(z), sdC: 0.5, kind: 'log', method: 'equilibrium', flags: [], used: true }));
+const pts = (): CorrectedPoint[] =>
+  depths.map((z) => ({
+    sources: [0],
+    depthM: z,
+    rawTemperatureC: TS + Q * resistance(z),
+    temperatureC: TS + Q * resistance(z),
+    sdC: 0.5,
+    kind: 'log',
+    method: 'equilibrium',
+    flags: [],
+    used: true,
+  }));
 
 describe('thermal resistance and harmonic mean', () => {
   it('sums Δz/k in m²K/W', () => {
@@ -33,7 +44,10 @@ describe('thermal resistance and harmonic mean', () => {
   });
 
   it('gives NaN below the column, above its origin and past a gap', () => {
-    const gap: ConductivityInterval[] = [{ topM: 0, bottomM: 100, conductivityWmK: 2 }, { topM: 200, bottomM: 300, conductivityWmK: 2 }];
+    const gap: ConductivityInterval[] = [
+      { topM: 0, bottomM: 100, conductivityWmK: 2 },
+      { topM: 200, bottomM: 300, conductivityWmK: 2 },
+    ];
     const r = thermalResistance(gap, 0, [50, 150, 250, 3500]);
     expect(r[0]).toBeCloseTo(25, 12);
     expect(Number.isNaN(r[1]) && Number.isNaN(r[2]) && Number.isNaN(r[3])).toBe(true);
@@ -59,20 +73,28 @@ describe('thermal resistance and harmonic mean', () => {
     let r = 0;
     for (let i = 0; i < 20000; i++) {
       const z = 1000 + (i + 0.5) * 0.1;
-      r += 0.1 * (1 + 0.0015 * (10 + 0.03 * z)) / 3;
+      r += (0.1 * (1 + 0.0015 * (10 + 0.03 * z))) / 3;
     }
     expect(h.conductivityWmK).toBeCloseTo(2000 / r, 9);
   });
 
   it('reports overlapping or inverted intervals', () => {
     expect(columnProblems(COLUMN)).toEqual([]);
-    const p = columnProblems([{ topM: 0, bottomM: 600, conductivityWmK: 2 }, { topM: 500, bottomM: 900, conductivityWmK: 2 }, { topM: 950, bottomM: 940, conductivityWmK: 0 }]);
+    const p = columnProblems([
+      { topM: 0, bottomM: 600, conductivityWmK: 2 },
+      { topM: 500, bottomM: 900, conductivityWmK: 2 },
+      { topM: 950, bottomM: 940, conductivityWmK: 0 },
+    ]);
     expect(p.map((x) => x.index)).toEqual([2, 2, 1]);
   });
 
   it('maps lithologies through the user map, case-insensitively, and lists the missing ones', () => {
     const r = columnFromLithology(
-      [{ topM: 0, bottomM: 400, lithology: 'Shale' }, { topM: 400, bottomM: 900, lithology: 'sandstone ' }, { topM: 900, bottomM: 1000, lithology: 'halite' }],
+      [
+        { topM: 0, bottomM: 400, lithology: 'Shale' },
+        { topM: 400, bottomM: 900, lithology: 'sandstone ' },
+        { topM: 900, bottomM: 1000, lithology: 'halite' },
+      ],
       { shale: 1.4, Sandstone: 2.8 },
     );
     expect(r.column.map((c) => c.conductivityWmK)).toEqual([1.4, 2.8]);
@@ -94,7 +116,13 @@ describe('Bullard method', () => {
 
   it('is chosen by analyzeWell over gradient × harmonic mean, which a layered column biases', () => {
     const r = analyzeWell(
-      { id: 'LAY-1', lonLat: [0, 0], measurements: depths.map((z) => ({ depthM: z, temperatureC: TS + Q * resistance(z), kind: 'log' as const })), conductivityColumn: COLUMN, flags: [] },
+      {
+        id: 'LAY-1',
+        lonLat: [0, 0],
+        measurements: depths.map((z) => ({ depthM: z, temperatureC: TS + Q * resistance(z), kind: 'log' as const })),
+        conductivityColumn: COLUMN,
+        flags: [],
+      },
       { surfaceTemperatureC: TS },
     );
     expect(r.heatFlow!.method).toBe('bullard');

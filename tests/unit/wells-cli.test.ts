@@ -22,7 +22,11 @@ function run(args: string[]) {
 const good = {
   type: 'FeatureCollection',
   features: [
-    { type: 'Feature', geometry: { type: 'Point', coordinates: [-128.3, -38.4] }, properties: { id: 'CLI-A', measurements: [250, 500, 750, 1000, 1250, 1500].map((z) => ({ depthM: z, temperatureC: 10 + 0.03 * z, kind: 'log' })) } },
+    {
+      type: 'Feature',
+      geometry: { type: 'Point', coordinates: [-128.3, -38.4] },
+      properties: { id: 'CLI-A', measurements: [250, 500, 750, 1000, 1250, 1500].map((z) => ({ depthM: z, temperatureC: 10 + 0.03 * z, kind: 'log' })) },
+    },
     {
       type: 'Feature',
       geometry: { type: 'Point', coordinates: [-128.1, -38.2] },
@@ -110,7 +114,14 @@ describe('subtherm wells (child process)', () => {
     const iv = join(dir, 'iv.csv');
     writeFileSync(iv, 'id,topM,bottomM,lithology\nCSV-1,0,800,Shale\nCSV-1,800,2000,granite\n');
     const model = join(dir, 'm.json');
-    writeFileSync(model, JSON.stringify({ surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 50, layers: [{ bottomKm: 30, conductivityWmK: 3, heatProductionUWm3: 0, densityKgM3: 2700 }] }));
+    writeFileSync(
+      model,
+      JSON.stringify({
+        surfaceTemperatureC: 10,
+        surfaceHeatFlowMWm2: 50,
+        layers: [{ bottomKm: 30, conductivityWmK: 3, heatProductionUWm3: 0, densityKgM3: 2700 }],
+      }),
+    );
     const r = run(['--wells', wellsCsv, '--intervals', iv, '--lithology-k', 'shale=2.0,granite=3.2', '--model', model, '--json']);
     expect(r.code).toBe(0);
     const j = JSON.parse(r.stdout);

@@ -7,7 +7,17 @@ import { DEFAULT_CONDUCTIVITY_REL_SD } from '../../shared/wells/analyze.ts';
 import type { CorrectedPoint } from '../../shared/wells/types.ts';
 import type { WellInput } from '../../shared/wells/checks.ts';
 
-const point = (depthM: number, temperatureC: number, sdC: number): CorrectedPoint => ({ sources: [0], depthM, rawTemperatureC: temperatureC, temperatureC, sdC, kind: 'log', method: 'equilibrium', flags: [], used: true });
+const point = (depthM: number, temperatureC: number, sdC: number): CorrectedPoint => ({
+  sources: [0],
+  depthM,
+  rawTemperatureC: temperatureC,
+  temperatureC,
+  sdC,
+  kind: 'log',
+  method: 'equilibrium',
+  flags: [],
+  used: true,
+});
 
 function well(id: string, ms: { depthM: number; temperatureC: number; kind?: 'log' | 'bht' | 'test' }[], extra: Partial<WellInput> = {}): WellInput {
   return { id, lonLat: [-128, -38], measurements: ms.map((m) => ({ kind: 'log' as const, ...m })), flags: [], ...extra };
@@ -50,7 +60,9 @@ describe('gradient and heat flow of a well on a known linear geotherm', () => {
   // Invented synthetic well: Ts = 10 °C, q = 75 mW/m², k = 2.5 W/m/K → gradient q/k = 30 °C/km exactly
   // (Fourier's law, q = k·dT/dz; mW/m² over W/m/K is K/km). Logs every 100 m from 100 to 2000 m with a fixed,
   // zero-mean ±0.2 °C pattern as reading noise.
-  const TS = 10, Q = 75, K = 2.5;
+  const TS = 10,
+    Q = 75,
+    K = 2.5;
   const G = Q / K;
   const pattern = [0.2, -0.1, -0.2, 0.1, 0.15, -0.15];
   const ms = Array.from({ length: 20 }, (_, i) => {

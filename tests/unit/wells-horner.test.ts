@@ -43,7 +43,8 @@ describe('Horner extrapolation', () => {
   });
 
   it('recovers T∞ exactly from points on a Horner line with per-point circulation times', () => {
-    const tInf = 131.5, c = 12.25;
+    const tInf = 131.5,
+      c = 12.25;
     const tc = [3, 3.5, 5, 4];
     const dt = [4, 7, 12, 30];
     const t = dt.map((d, i) => tInf - c * Math.log10((tc[i] + d) / d));
@@ -60,7 +61,13 @@ describe('Horner extrapolation', () => {
 });
 
 describe('BHT corrections of a well', () => {
-  const bht = (depthM: number, temperatureC: number, dt?: number, tc?: number): MeasurementInput => ({ depthM, temperatureC, kind: 'bht', hoursSinceCirculation: dt, circulationHours: tc });
+  const bht = (depthM: number, temperatureC: number, dt?: number, tc?: number): MeasurementInput => ({
+    depthM,
+    temperatureC,
+    kind: 'bht',
+    hoursSinceCirculation: dt,
+    circulationHours: tc,
+  });
 
   it('groups three timed BHTs within the 50 m tolerance into one Horner point at their mean depth', () => {
     const ms = [bht(2000, BHT[0], 6, 4), bht(2030, BHT[1], 10, 4), bht(2045, BHT[2], 16, 4), { depthM: 500, temperatureC: 30, kind: 'log' as const }];

@@ -14,9 +14,20 @@ const root = new URL('../../', import.meta.url).pathname;
 describe('model against wells', () => {
   it('evaluates the model geotherm at well depths in metres (Turcotte & Schubert 2002 §4-8 example)', () => {
     // docs/sources.md#geotherm-exponential [derived]: T0 = 10, q0 = 60, A0 = 2.5, hr = 10 km, k = 2.5 → T(5 km) = 119.347 °C, T(10 km) = 213.212 °C.
-    const cm = compileModel({ surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 }] });
+    const cm = compileModel({
+      surfaceTemperatureC: 10,
+      surfaceHeatFlowMWm2: 60,
+      layers: [{ bottomKm: 40, conductivityWmK: 2.5, heatProductionUWm3: 2.5, heatProductionDecayKm: 10, densityKgM3: 2700 }],
+    });
     const m = wellModelFromCompiled(cm);
-    const r = modelResiduals([{ depthM: 5000, temperatureC: 120, used: true }, { depthM: 10000, temperatureC: 213.212, used: true }], m.temperature, 60);
+    const r = modelResiduals(
+      [
+        { depthM: 5000, temperatureC: 120, used: true },
+        { depthM: 10000, temperatureC: 213.212, used: true },
+      ],
+      m.temperature,
+      60,
+    );
     expect(r.modelC[0]).toBeCloseTo(119.347, 3);
     expect(r.modelC[1]).toBeCloseTo(213.212, 3);
     expect(r.residualC[0]).toBeCloseTo(120 - 119.347, 3);
@@ -25,12 +36,21 @@ describe('model against wells', () => {
     expect(m.column[0]).toMatchObject({ topM: 0, bottomM: 40000, conductivityWmK: 2.5, tempCoeffPerK: 0 });
   });
 
-  it('residuals vanish at the well\'s own heat flow and equal Δq·z/k at the regional one (constant k, no heat production)', () => {
+  it("residuals vanish at the well's own heat flow and equal Δq·z/k at the regional one (constant k, no heat production)", () => {
     // T = T0 + q·z/k (Fourier's law; mW/m² × km / (W/m/K) = K). Invented well on q = 80 mW/m², k = 2.5; model at 60.
-    const cm = compileModel({ surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ bottomKm: 30, conductivityWmK: 2.5, heatProductionUWm3: 0, densityKgM3: 2700 }] });
+    const cm = compileModel({
+      surfaceTemperatureC: 10,
+      surfaceHeatFlowMWm2: 60,
+      layers: [{ bottomKm: 30, conductivityWmK: 2.5, heatProductionUWm3: 0, densityKgM3: 2700 }],
+    });
     const model = wellModelFromCompiled(cm);
     const depths = [300, 700, 1100, 1500, 1900, 2300];
-    const well: WellInput = { id: 'MC-1', lonLat: [0, 0], measurements: depths.map((z) => ({ depthM: z, temperatureC: 10 + (80 * z) / 1000 / 2.5, kind: 'log' as const })), flags: [] };
+    const well: WellInput = {
+      id: 'MC-1',
+      lonLat: [0, 0],
+      measurements: depths.map((z) => ({ depthM: z, temperatureC: 10 + (80 * z) / 1000 / 2.5, kind: 'log' as const })),
+      flags: [],
+    };
     const r = analyzeWell(well, { model, surfaceTemperatureC: 10 });
     expect(r.conductivity!.source).toBe('model');
     expect(r.heatFlow!.heatFlowMWm2).toBeCloseTo(80, 6);
@@ -48,12 +68,21 @@ describe('model against wells', () => {
   });
 
   it('uses k(T) = k0/(1 + bT) of the model layer on the fitted line', () => {
-    const cm = compileModel({ surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 60, layers: [{ bottomKm: 30, conductivityWmK: 3, conductivityTempCoeffPerK: 0.0015, heatProductionUWm3: 0, densityKgM3: 2700 }] });
+    const cm = compileModel({
+      surfaceTemperatureC: 10,
+      surfaceHeatFlowMWm2: 60,
+      layers: [{ bottomKm: 30, conductivityWmK: 3, conductivityTempCoeffPerK: 0.0015, heatProductionUWm3: 0, densityKgM3: 2700 }],
+    });
     const model = wellModelFromCompiled(cm);
     // Temperatures from the model itself at 60 mW/m² (exact Kirchhoff solution): the derived heat flow must come back.
     const depths = [500, 1000, 1500, 2000, 2500, 3000];
     const t = model.temperature(new Float64Array(depths.map((z) => z / 1000)), 60, new Float64Array(depths.length));
-    const well: WellInput = { id: 'KT-1', lonLat: [0, 0], measurements: depths.map((z, i) => ({ depthM: z, temperatureC: t[i], kind: 'log' as const })), flags: [] };
+    const well: WellInput = {
+      id: 'KT-1',
+      lonLat: [0, 0],
+      measurements: depths.map((z, i) => ({ depthM: z, temperatureC: t[i], kind: 'log' as const })),
+      flags: [],
+    };
     const r = analyzeWell(well, { model, surfaceTemperatureC: 10 });
     expect(r.conductivity!.temperatureDependent).toBe(true);
     expect(r.conductivity!.harmonicMeanWmK).toBeLessThan(3);
@@ -67,8 +96,10 @@ const truthFile = `${root}fixtures/truth.json`;
 const demoModel = `${root}fixtures/demo/model.json`;
 
 describe.runIf(existsSync(demoWells) && existsSync(truthFile) && existsSync(demoModel))('demo wells against the demo truth', () => {
-  it('recovers each well\'s surface heat flow', () => {
-    const truth = JSON.parse(readFileSync(truthFile, 'utf8')) as { wells: { id: string; surfaceHeatFlowMWm2: number; equilibriumTemperatureC: Record<string, number>; conductivitySource: string }[] };
+  it("recovers each well's surface heat flow", () => {
+    const truth = JSON.parse(readFileSync(truthFile, 'utf8')) as {
+      wells: { id: string; surfaceHeatFlowMWm2: number; equilibriumTemperatureC: Record<string, number>; conductivitySource: string }[];
+    };
     const rawModel = JSON.parse(readFileSync(demoModel, 'utf8')) as Record<string, unknown>;
     delete rawModel.name; // a label the model schema does not take
     const m = nominalModel(parseThermalModel(rawModel));

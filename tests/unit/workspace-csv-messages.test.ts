@@ -26,7 +26,7 @@ describe('CSV line numbers', () => {
     expect(parseCsv('a,b\r\n1,2\r\n3,4').lines).toEqual([2, 3]);
   });
 
-  it('names the spreadsheet line in the upload parser and the command line\'s reader alike', () => {
+  it("names the spreadsheet line in the upload parser and the command line's reader alike", () => {
     const csv = 'lon,lat,id,heatFlowMWm2\n-128,-38,a,61\n-128.1,-38.1,b,abc\n';
     const web = errorOf(() => parsePointCsv('sites', csv));
     const cli = errorOf(() => pointsFromCsv(csv, 'heatFlowMWm2', { source: 'sites.csv' }));
@@ -60,7 +60,14 @@ describe('longitude and latitude swapped', () => {
   });
 
   it('does the same for GeoJSON points, citing the [longitude, latitude] order', () => {
-    const fc = { type: 'FeatureCollection', features: Array.from({ length: 30 }, (_, i) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [30, -150 - i * 0.01] }, properties: { id: `s${i}`, heatFlowMWm2: 60 } })) };
+    const fc = {
+      type: 'FeatureCollection',
+      features: Array.from({ length: 30 }, (_, i) => ({
+        type: 'Feature',
+        geometry: { type: 'Point', coordinates: [30, -150 - i * 0.01] },
+        properties: { id: `s${i}`, heatFlowMWm2: 60 },
+      })),
+    };
     const e = errorOf(() => parseFeatureCollection('sites', fc));
     expect(e.code).toBe('swapped_lon_lat');
     expect(e.details).toHaveLength(1);

@@ -6,8 +6,13 @@ import { realizationsFromGrids } from '../../server/runs/realizations.ts';
 import { exceedanceProbability, isothermSpreadKm } from '../../server/runs/uncertainty-layers.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
 
-const MU = 60, SIGMA = 6, K = 2.5;
-const MODEL: ThermalModelInput = { surfaceTemperatureC: 0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K, heatProductionUWm3: 0, densityKgM3: 2700 }] };
+const MU = 60,
+  SIGMA = 6,
+  K = 2.5;
+const MODEL: ThermalModelInput = {
+  surfaceTemperatureC: 0,
+  layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K, heatProductionUWm3: 0, densityKgM3: 2700 }],
+};
 // Upper tail of the standard normal at 1: 1 − Φ(1) = 0.158655 (Abramowitz & Stegun 1964, Table 26.1).
 const TAIL_1 = 0.158655;
 // Its 90th percentile: z₀.₉ = 1.281552 (Abramowitz & Stegun 1964, Table 26.5).
@@ -18,7 +23,15 @@ function grid(v: number) {
 }
 
 function realizations(n: number, corr: 'full' | 'independent') {
-  return realizationsFromGrids({ heatFlow: grid(MU), heatFlowSd: grid(SIGMA), zoneModels: [MODEL], maxDepthKm: 60, realizations: n, seed: 11, heatFlowErrorCorrelation: corr });
+  return realizationsFromGrids({
+    heatFlow: grid(MU),
+    heatFlowSd: grid(SIGMA),
+    zoneModels: [MODEL],
+    maxDepthKm: 60,
+    realizations: n,
+    seed: 11,
+    heatFlowErrorCorrelation: corr,
+  });
 }
 
 describe('exceedance probability from the realizations', () => {
@@ -66,8 +79,9 @@ describe('spread (P90 − P10) from the realizations', () => {
     expect(Number.isNaN(s[0])).toBe(true);
   });
 
-  it('replays the same streams: a realization\'s heat flow and model do not depend on how they are read', () => {
-    const a = realizations(50, 'independent'), b = realizations(50, 'independent');
+  it("replays the same streams: a realization's heat flow and model do not depend on how they are read", () => {
+    const a = realizations(50, 'independent'),
+      b = realizations(50, 'independent');
     expect(a.heatFlowAt(17, 3)).toBe(b.heatFlowAt(17, 3));
     expect(a.heatFlowAt(17, 3)).not.toBe(a.heatFlowAt(18, 3));
     expect(a.modelDraw(5, 0).layers[0].conductivityWmK).toBe(K);
