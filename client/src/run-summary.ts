@@ -88,6 +88,9 @@ function cvTable(cv: CrossValidation): HTMLElement {
   );
 }
 
+/** The last message of the uncertainty controls, per run (the controls are rebuilt when the run redraws). */
+let lastStatus: { runId: string; text: string } | null = null;
+
 /**
  * Uncertainty from the run's realizations: the spread (P90 − P10, km) of the depth to an isotherm and the
  * probability that the depth to an isotherm is shallower than a typed depth (GET /api/runs/:id/spread and
@@ -108,14 +111,21 @@ export function uncertaintyControls(run: RunState, onLayer: (run: RunState) => v
   const exceedsC = el('input', { id: 'unc-exceeds', type: 'number', step: 'any', value: '150', class: 'num' });
   const exceedBtn = el('button', { type: 'button', id: 'unc-exceedance' }, 'Probability layer');
   const out = el('p', { class: 'note', id: 'unc-status', 'aria-live': 'polite' });
+  if (lastStatus?.runId === run.id) out.textContent = lastStatus.text;
+  // Redrawing the run (onLayer) builds these controls again: the message is kept for the new status line.
+  const say = (text: string) => {
+    lastStatus = { runId: run.id, text };
+    out.textContent = text;
+  };
   const ask = async (query: string, what: string) => {
-    out.textContent = `Computing the ${what} from the run's realizations…`;
+    say(`Computing the ${what} from the run's realizations…`);
     try {
       await getJson<unknown>(`/api/runs/${encodeURIComponent(run.id)}/${query}`);
-      onLayer(await getJson<RunState>(`/api/runs/${encodeURIComponent(run.id)}`));
-      out.textContent = `The ${what} is among the run's layers.`;
+      const updated = await getJson<RunState>(`/api/runs/${encodeURIComponent(run.id)}`);
+      say(`The ${what} is among the run's layers.`);
+      onLayer(updated);
     } catch (e) {
-      out.textContent = `${what}: ${e instanceof Error ? e.message : String(e)}`;
+      say(`${what}: ${e instanceof Error ? e.message : String(e)}`);
     }
   };
   spreadBtn.addEventListener(
