@@ -1,6 +1,7 @@
 // A throwaway PostgreSQL cluster for tests: initdb into a fresh folder under the checkout's .tmp/, started on a random
 // port that listens only on a Unix socket in that folder, stopped and removed by stop(). PostgreSQL refuses to run as
-// root, so under root the cluster belongs to the `postgres` system user (Debian's package creates it).
+// root, so under root the cluster belongs to the `postgres` system user (Debian's package creates it) and its folder
+// is made under /tmp: that user cannot enter a checkout inside a private folder (e.g. one made by mktemp -d).
 import { execFileSync } from 'node:child_process';
 import { chownSync, existsSync, mkdirSync, mkdtempSync, readdirSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
@@ -38,9 +39,9 @@ export function startPgCluster(rootDir: string): PgCluster {
   const bin = pgBin();
   if (bin === null) throw new Error('PostgreSQL is not installed: apt-get install -y postgresql');
   const exe = (name: string) => (bin === '' ? name : join(bin, name));
-  mkdirSync(join(rootDir, '.tmp'), { recursive: true });
-  const dir = mkdtempSync(join(rootDir, '.tmp', 'pg-'));
   const asRoot = userInfo().uid === 0;
+  mkdirSync(join(rootDir, '.tmp'), { recursive: true });
+  const dir = mkdtempSync(asRoot ? '/tmp/subtherm-pg-' : join(rootDir, '.tmp', 'pg-'));
   const owner = asRoot ? 'postgres' : userInfo().username;
   if (asRoot) {
     const uid = Number(execFileSync('id', ['-u', 'postgres']).toString().trim());
@@ -48,7 +49,7 @@ export function startPgCluster(rootDir: string): PgCluster {
     chownSync(dir, uid, gid);
   }
   const run = (cmd: string, args: string[]) =>
-    asRoot ? execFileSync('runuser', ['-u', 'postgres', '--', cmd, ...args], { stdio: 'pipe' }) : execFileSync(cmd, args, { stdio: 'pipe' });
+    asRoot ? execFileSync('runuser', ['-u', 'postgres', '--', cmd, ...args], { stdio: 'pipe', cwd: '/' }) : execFileSync(cmd, args, { stdio: 'pipe' });
   const data = join(dir, 'data');
   const port = 20000 + Math.floor(Math.random() * 40000);
   run(exe('initdb'), ['-D', data, '-A', 'trust', '-U', owner, '--no-sync', '-E', 'UTF8']);
