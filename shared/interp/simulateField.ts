@@ -1,4 +1,5 @@
 import { InputError } from '../errors.ts';
+import { percentilesBySelection } from '../stats/quantile.ts';
 import type { GridSpec } from '../grid/grid.ts';
 import { converter, lonLatToLocalKm, rowCentresLocalKm, type OutputGridOptions } from './projection.ts';
 import { prepareInterpolation, type PointData, type VariogramReport, type PreparedInterpolation } from './interpolate.ts';
@@ -311,46 +312,6 @@ function runOnCells(
 
 const PROBS = [0.1, 0.5, 0.9];
 
-/** Hoare's selection (Floyd–Rivest-free quickselect, median-of-three pivot): puts order statistic k of a[lo..hi] at k. */
-function select(a: Float64Array, lo: number, hi: number, k: number): void {
-  while (hi > lo) {
-    const mid = (lo + hi) >> 1;
-    // Median of three as the pivot.
-    if (a[mid] < a[lo]) {
-      const t = a[mid];
-      a[mid] = a[lo];
-      a[lo] = t;
-    }
-    if (a[hi] < a[lo]) {
-      const t = a[hi];
-      a[hi] = a[lo];
-      a[lo] = t;
-    }
-    if (a[hi] < a[mid]) {
-      const t = a[hi];
-      a[hi] = a[mid];
-      a[mid] = t;
-    }
-    const pivot = a[mid];
-    let i = lo,
-      j = hi;
-    while (i <= j) {
-      while (a[i] < pivot) i++;
-      while (a[j] > pivot) j--;
-      if (i <= j) {
-        const t = a[i];
-        a[i] = a[j];
-        a[j] = t;
-        i++;
-        j--;
-      }
-    }
-    if (k <= j) hi = j;
-    else if (k >= i) lo = i;
-    else return;
-  }
-}
-
 export interface TargetSummaries {
   mean: Float32Array;
   sd: Float32Array;
@@ -372,9 +333,10 @@ export function summarizeTargets(values: Float32Array, R: number, T: number): Ta
     p90: new Float32Array(T),
   };
   // Cells in blocks: the block's values are gathered realization by realization (contiguous reads), then each
-  // cell's R values are sorted.
+  // cell's R values are summarized (percentiles by selection, shared/stats/quantile.ts).
   const BLOCK = 512;
   const blk = new Float64Array(R * BLOCK);
+  const pct = new Float64Array(PROBS.length);
   for (let t0 = 0; t0 < T; t0 += BLOCK) {
     const nb = Math.min(BLOCK, T - t0);
     for (let r = 0; r < R; r++) {
@@ -403,23 +365,10 @@ export function summarizeTargets(values: Float32Array, R: number, T: number): Ta
       for (let r = 0; r < R; r++) ss += (buf[r] - mean) ** 2;
       out.mean[t] = mean;
       out.sd[t] = R > 1 ? Math.sqrt(ss / (R - 1)) : NaN;
-      // Ascending selections: after placing order statistic k, everything right of it is ≥, so the next quantile
-      // selects within the right part only.
-      let from = 0;
-      for (let q = 0; q < 3; q++) {
-        const h = (R - 1) * PROBS[q];
-        const k = Math.floor(h),
-          f = h - k;
-        select(buf, from, R - 1, k);
-        let v = buf[k];
-        if (f > 0 && k + 1 < R) {
-          let m = Infinity;
-          for (let i = k + 1; i < R; i++) if (buf[i] < m) m = buf[i];
-          v += f * (m - v);
-        }
-        (q === 0 ? out.p10 : q === 1 ? out.p50 : out.p90)[t] = v;
-        from = k;
-      }
+      percentilesBySelection(buf, R, PROBS, pct);
+      out.p10[t] = pct[0];
+      out.p50[t] = pct[1];
+      out.p90[t] = pct[2];
     }
   }
   return out;
