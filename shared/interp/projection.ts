@@ -2,6 +2,7 @@ import proj4 from 'proj4';
 import { InputError } from '../errors.ts';
 import type { GridSpec } from '../grid/grid.ts';
 import { groundStepKm } from '../geodesy/cell-area.ts';
+import { correctedDatumShift, refuseGridShift } from './crs-datum.ts';
 
 /**
  * Coordinate work of the interpolation engine. Input is WGS84 longitude/latitude (degrees); every distance is
@@ -73,7 +74,8 @@ export function lonLatToLocalKm(proj: LocalProjection, lon: ArrayLike<number>, l
 
 /**
  * The proj4 definition of a CRS named `EPSG:nnnn` (offline, from the epsg-index package, one file per code),
- * `EPSG:4326`/`WGS84`, or a literal proj4 string (`+proj=...`). Unknown codes are an InputError.
+ * `EPSG:4326`/`WGS84`, or a literal proj4 string (`+proj=...`). Unknown codes are an InputError, and so is a CRS
+ * whose datum shift needs a grid file; offline EPSG datum shifts are restated in proj4's convention (crs-datum.ts).
  */
 export async function loadCrsDefinition(crs: string): Promise<string> {
   const s = crs.trim();
@@ -84,6 +86,7 @@ export async function loadCrsDefinition(crs: string): Promise<string> {
     } catch (e) {
       throw new InputError(`not a valid proj4 definition: ${s}`, [{ field: 'crs', problem: e instanceof Error ? e.message : String(e) }], 'bad_crs');
     }
+    refuseGridShift(s, s);
     return s;
   }
   const m = /^EPSG:(\d{4,6})$/i.exec(s);
@@ -96,7 +99,8 @@ export async function loadCrsDefinition(crs: string): Promise<string> {
     def = undefined;
   }
   if (!def) throw new InputError(`EPSG:${m[1]} is not in the offline CRS list`, [{ field: 'crs', problem: 'no proj4 definition for this code' }], 'bad_crs');
-  return def.replace(/\s*\+type=crs\b/, '');
+  refuseGridShift(`EPSG:${m[1]}`, def);
+  return correctedDatumShift(def.replace(/\s*\+type=crs\b/, ''));
 }
 
 /** Metres per unit of a proj4 definition's linear unit (m, km, ft, us-ft), or 1 for degrees. */
