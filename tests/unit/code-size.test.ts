@@ -44,7 +44,6 @@ const OVER_LIMIT: readonly string[] = [
   'client/src/structure.ts', // 416
   'server/app.ts createApp', // 273
   'server/cli/heat-in-place.ts heatInPlace', // 166
-  'server/cli/interpolate.ts interpolate', // 228
   'server/cli/isograds.ts isograds', // 141
   'server/cli/isotherms.ts isotherms', // 248
   'server/cli/simulate.ts simulate', // 216

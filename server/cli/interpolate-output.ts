@@ -1,0 +1,77 @@
+/**
+ * What `subtherm interpolate` writes and prints: the GeoTIFF pair with its provenance, and the grid summary as one
+ * JSON object or as text lines ending with the caution.
+ */
+import { VERSION, TOOL_NAME } from '../../shared/version.ts';
+import { CAUTION } from '../../shared/caution.ts';
+import { gridSummary, type InterpolationOptions, type InterpolationResult } from '../../shared/interp/interpolate.ts';
+import { writeGeoTiffFile } from '../io/geotiff.ts';
+
+/** Cross-validation for output: the residual list only with --residuals (it can be long). */
+export function cvOut(cv: InterpolationResult['crossValidation'], residuals: boolean) {
+  if (cv === null) return null;
+  return residuals ? cv : { ...cv, residuals: undefined, residualsOmitted: cv.residuals.length };
+}
+
+/** What the written grids record about how they were made. */
+export function surfaceProvenance(field: string, options: InterpolationOptions, result: InterpolationResult, hashes: Record<string, string>) {
+  const v = result.variogram;
+  return {
+    tool: TOOL_NAME,
+    version: VERSION,
+    verb: 'interpolate',
+    method: options.method,
+    field,
+    units: options.units,
+    variogram: v === null ? null : { model: v.model, nugget: v.nugget, partialSill: v.partialSill, rangeKm: v.rangeKm, anisotropy: v.anisotropy },
+    neighbors: options.neighbors ?? (options.method === 'idw' ? 12 : 16),
+    power: options.method === 'idw' ? (options.power ?? 2) : undefined,
+    inputSha256: hashes,
+    created: new Date().toISOString(),
+  };
+}
+
+/** Writes the surface to `name` and, for kriging with an sd grid, its standard deviation beside it; the names written. */
+export async function writeSurfaceFiles(
+  name: string,
+  field: string,
+  options: InterpolationOptions,
+  result: InterpolationResult,
+  provenance: ReturnType<typeof surfaceProvenance>,
+): Promise<string[]> {
+  await writeGeoTiffFile(name, result.grid, {
+    description: `${field} (${options.units || 'value'}), ${options.method === 'idw' ? 'inverse-distance weighting' : 'ordinary kriging'}`,
+    metadata: provenance,
+  });
+  const files = [name];
+  if (result.sd !== undefined) {
+    const sdName = name.replace(/\.tiff?$/i, '') + '.sd.tif';
+    await writeGeoTiffFile(sdName, result.sd, { description: `${field} kriging standard deviation (${options.units || 'value units'})`, metadata: provenance });
+    files.push(sdName);
+  }
+  return files;
+}
+
+/** The grid summary, the sd range, the variogram and cross-validation of a gridded surface. */
+export function surfaceBody(result: InterpolationResult, units: string | undefined, residuals: boolean) {
+  return {
+    grid: { ...gridSummary(result.grid, result.cellKm), units },
+    sd: result.sd !== undefined ? (({ min, max, mean }) => ({ min, max, mean }))(gridSummary(result.sd, result.cellKm)) : null,
+    variogram: result.variogram,
+    crossValidation: cvOut(result.crossValidation, residuals),
+  };
+}
+
+/** The text form of the answer: grid, variogram, cross-validation, files written, warnings and the caution. */
+export function printSurface(field: string, body: ReturnType<typeof surfaceBody> & { files: string[]; warnings: string[] }): void {
+  const g = body.grid;
+  const out = (line: string) => process.stdout.write(line + '\n');
+  out(`grid ${g.nx} × ${g.ny} (${g.cellKm.toFixed(3)} km cells, ${g.crs}); ${field} min ${g.min} max ${g.max} mean ${g.mean}; ${g.noData} no-data cells`);
+  const v = body.variogram;
+  if (v) out(`variogram ${v.model}: nugget ${v.nugget}, partial sill ${v.partialSill}, range ${v.rangeKm} km`);
+  const cv = body.crossValidation;
+  if (cv) out(`cross-validation: RMSE ${cv.rmse}, mean error ${cv.meanError}, MSDR ${cv.meanSquaredDeviationRatio ?? '-'}`);
+  for (const f of body.files) out(`wrote ${f}`);
+  for (const w of body.warnings) out(`warning: ${w}`);
+  out(CAUTION);
+}
