@@ -26,6 +26,7 @@ import { runRoutes } from './routes/runs.ts';
 import { inspectRoutes } from './routes/inspect.ts';
 import { projectRoutes } from './routes/projects.ts';
 import { projectDatasetRoutes } from './routes/project-datasets.ts';
+import { heatFlowCorrectionRoutes } from './routes/heat-flow-corrections.ts';
 import { uncertaintyRoutes } from './routes/uncertainty.ts';
 import { openApiRoutes } from './routes/openapi.ts';
 import { gridTileRoutes } from './routes/grid-tiles.ts';
@@ -313,6 +314,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
   inspectRoutes(app, ctx);
   projectRoutes(app, ctx);
   projectDatasetRoutes(app, ctx);
+  heatFlowCorrectionRoutes(app, ctx);
   uncertaintyRoutes(app, ctx);
   // Raster-dem tiles of a run's raster layers, read window by window from a local copy of the layer's stored COG.
   const layerFiles = new LayerFiles();

@@ -64,6 +64,7 @@ const STATUS_BY_CODE: Readonly<Record<string, number>> = {
   invalid_dataset_change: 422,
   wrong_kind: 422,
   wrong_dataset_kind: 422,
+  nothing_to_correct: 422,
   dataset_not_in_project: 422,
   run_needs_input: 422,
   grid_too_large: 422,

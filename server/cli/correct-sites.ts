@@ -4,6 +4,7 @@ import { basename, dirname } from 'node:path';
 import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
 import { correctSites, correctionTable } from '../../shared/heatflow/sites.ts';
+import { correctionMethodText } from '../../shared/heatflow/corrections.ts';
 import { TOOL_NAME, VERSION } from '../../shared/version.ts';
 import { readDatasetFile } from '../io/vector-input.ts';
 import { parseVerbArgs } from './args.ts';
@@ -59,16 +60,7 @@ export async function correctSitesVerb(argv: string[]): Promise<number> {
   const provenance = {
     tool: TOOL_NAME,
     version: VERSION,
-    method: [
-      opts.paleoclimate
-        ? `paleoclimatic: ΔT·erfc(z/2√(κt)) for steps ${JSON.stringify(opts.paleoclimate.steps)}, κ = ${opts.paleoclimate.diffusivityM2s} m²/s, averaged over each interval (Birch 1948; Beck 1977)`
-        : null,
-      opts.topography
-        ? `topographic: reference plane with (G − β)·Δh and its Poisson response (Birch 1950), β = ${opts.topography.lapseRateCPerKm} °C/km`
-        : null,
-    ]
-      .filter(Boolean)
-      .join('; '),
+    method: correctionMethodText(opts),
     inputs,
   };
   const files: string[] = [];

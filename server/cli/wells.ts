@@ -7,7 +7,7 @@ import { parseFeatureCollection } from '../../shared/schema/features.ts';
 import { parseThermalModel } from '../../shared/schema/model.ts';
 import { compileModel, isUncertainModel, nominalModel } from '../../shared/thermal/index.ts';
 import { TOOL_NAME, VERSION } from '../../shared/version.ts';
-import { analyzeWells } from '../../shared/wells/analyze-all.ts';
+import { analyzeWells, wellCorrectionReports } from '../../shared/wells/analyze-all.ts';
 import type { WellAnalysisOptions, WellReport } from '../../shared/wells/analyze.ts';
 import { readWells } from '../../shared/wells/checks.ts';
 import { DEFAULT_SD_C, HORNER_DEPTH_TOLERANCE_M } from '../../shared/wells/correction.ts';
@@ -16,7 +16,7 @@ import { wellModelFromCompiled } from '../../shared/wells/model-adapter.ts';
 import type { BhtCorrection } from '../../shared/wells/types.ts';
 import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
 import { CORRECTION_HELP, CORRECTION_OPTIONS, correctionOptions } from './heat-flow-options.ts';
-import { correctionTable, CORRECTION_UNITS, type SiteCorrectionReport } from '../../shared/heatflow/sites.ts';
+import { correctionTable } from '../../shared/heatflow/sites.ts';
 import { EMPIRICAL_BHT } from '../../shared/heatflow/bht-empirical.ts';
 import { readDatasetFile } from '../io/vector-input.ts';
 
@@ -291,23 +291,7 @@ export async function wells(argv: string[]): Promise<number> {
     writeFileSync(o.out, JSON.stringify(collection, null, 1) + '\n');
     files.push(o.out);
   }
-  const corrections: SiteCorrectionReport[] | undefined = opts.heatFlowCorrections
-    ? result.reports
-        .filter((r) => r.heatFlow)
-        .map((r) => {
-          const h = r.heatFlow!;
-          return {
-            id: r.id,
-            source: 'well',
-            status: h.corrections ? 'corrected' : 'not-applicable',
-            ...(h.corrections ? {} : { reason: r.flags.find((f) => f.code === 'heat-flow-correction-failed')?.message ?? 'not corrected' }),
-            rawHeatFlowMWm2: h.uncorrectedHeatFlowMWm2,
-            correctedHeatFlowMWm2: h.heatFlowMWm2,
-            interval: h.corrections,
-            units: CORRECTION_UNITS,
-          };
-        })
-    : undefined;
+  const corrections = opts.heatFlowCorrections ? wellCorrectionReports(result.reports) : undefined;
   if (o.json) {
     process.stdout.write(
       JSON.stringify({

@@ -6,6 +6,7 @@ import { thermalModelSchema } from '../../shared/schema/model.ts';
 import { VERSION } from '../../shared/version.ts';
 import { VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
 import { columnAnswerSchema } from '../../shared/schema/column.ts';
+import { heatFlowCorrectionRequestSchema } from '../../shared/heatflow/dataset-corrections.ts';
 import { columnAtRunSchema, columnOfModelSchema, datasetPatchSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
 
 const json = (schema: z.ZodType) => z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any', target: 'draft-2020-12' });
@@ -272,6 +273,12 @@ export function openApiDocument(): unknown {
         delete: op(
           'detach a data set from the project (edit token) → { id, detached, contentKept }; the content stays while a project, run or revision names it',
           { params: ['id', 'dsId'], auth: true, errors: [401, 403, 404] },
+        ),
+      },
+      '/api/projects/{id}/datasets/{dsId}/corrections': {
+        post: op(
+          "heat-flow corrections of a sites or wells data set (edit token) → { dataset, source, method, reports, warnings, caution }: paleoclimatic (surface-temperature steps, κ), topographic (the project's terrain, lapse rate) and, for wells, a BHT method; the result is a new sites data set whose sites carry uncorrectedHeatFlowMWm2, paleoclimateCorrectionMWm2, topographicCorrectionMWm2 and heatFlowCorrections (404 terrain_not_found without terrain, 422 nothing_to_correct)",
+          { params: ['id', 'dsId'], body: json(heatFlowCorrectionRequestSchema), ok: '201', auth: true, errors: [400, 401, 403, 404, 413, 415, 422] },
         ),
       },
       '/api/projects/{id}/terrain': {

@@ -36,6 +36,21 @@ export interface IntervalCorrection {
   notes: string[];
 }
 
+/**
+ * One line naming the corrections of `opts` with their inputs (for reports and provenance); empty when none.
+ * Paleoclimatic: Birch 1948, Beck 1977; topographic: Birch 1950.
+ */
+export function correctionMethodText(opts: HeatFlowCorrectionOptions): string {
+  const parts: string[] = [];
+  if (opts.paleoclimate)
+    parts.push(
+      `paleoclimatic: ΔT·erfc(z/2√(κt)) for steps ${JSON.stringify(opts.paleoclimate.steps)}, κ = ${opts.paleoclimate.diffusivityM2s} m²/s, averaged over each interval (Birch 1948; Beck 1977)`,
+    );
+  if (opts.topography)
+    parts.push(`topographic: reference plane with (G − β)·Δh and its Poisson response (Birch 1950), β = ${opts.topography.lapseRateCPerKm} °C/km`);
+  return parts.join('; ');
+}
+
 const TOPO_METHOD =
   'reference plane with surface temperature (G − β)·Δh and its half-space (Poisson) response, exact per terrain cell (Birch 1950, after Jeffreys 1938)';
 

@@ -87,7 +87,14 @@ export function correctSites<F extends { id?: string | number; geometry: { type:
     if (g === undefined || k === undefined || !(g > 0) || !(k > 0))
       return skip('needs gradientCPerKm or conductivityWmK (positive) to turn a gradient change into a heat-flow change');
     const [lon, lat] = f.geometry.coordinates;
-    const c = correctIntervalGradient({ lonLat: [lon, lat], topM: top, bottomM: bottom, gradientCPerKm: g, conductivityWmK: k }, opts);
+    let c: IntervalCorrection;
+    try {
+      c = correctIntervalGradient({ lonLat: [lon, lat], topM: top, bottomM: bottom, gradientCPerKm: g, conductivityWmK: k }, opts);
+    } catch (e) {
+      // A site off the terrain (no elevation there) or an interval the correction cannot take: named, not fatal.
+      if (e instanceof RangeError) return skip(e.message);
+      throw e;
+    }
     const corrected = q + c.totalHeatFlowChangeMWm2;
     reports.push({ id, source: 'site', status: 'corrected', rawHeatFlowMWm2: q, correctedHeatFlowMWm2: corrected, interval: c, units: CORRECTION_UNITS });
     return { ...f, properties: { ...p, heatFlowMWm2: round(corrected, 2), ...correctionProperties(q, c) } };

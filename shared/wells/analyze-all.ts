@@ -2,6 +2,7 @@ import { analyzeWell, type WellAnalysisOptions, type WellReport } from './analyz
 import type { WellInput } from './checks.ts';
 import { wellSites, type WellSiteProperties } from './sites.ts';
 import type { FeatureCollection, PointGeometry } from '../schema/geojson.ts';
+import { CORRECTION_UNITS, type SiteCorrectionReport } from '../heatflow/sites.ts';
 
 export interface WellsAnalysis {
   reports: WellReport[];
@@ -25,4 +26,28 @@ export function analyzeWells(wells: WellInput[], opts: WellAnalysisOptions = {})
     for (const f of r.flags) if (!QUIET.has(f.code) && f.message !== r.reason) warnings.push(`well ${r.id}: ${f.message}`);
   }
   return { reports, sites: wellSites(reports), warnings };
+}
+
+/**
+ * One correction report per well with a heat flow: its heat flow before and after the paleoclimatic and
+ * topographic corrections and each correction's size, or why it was not corrected.
+ */
+export function wellCorrectionReports(reports: WellReport[]): SiteCorrectionReport[] {
+  const out: SiteCorrectionReport[] = [];
+  for (const r of reports) {
+    const h = r.heatFlow;
+    if (!h) continue;
+    const reason = h.corrections ? undefined : (r.flags.find((f) => f.code === 'heat-flow-correction-failed')?.message ?? 'not corrected');
+    out.push({
+      id: r.id,
+      source: 'well',
+      status: h.corrections ? 'corrected' : 'not-applicable',
+      ...(reason === undefined ? {} : { reason }),
+      rawHeatFlowMWm2: h.uncorrectedHeatFlowMWm2,
+      correctedHeatFlowMWm2: h.heatFlowMWm2,
+      interval: h.corrections,
+      units: CORRECTION_UNITS,
+    });
+  }
+  return out;
 }
