@@ -45,6 +45,7 @@ Volumetric heat in place and electric power (screening estimate).
   --heat-flow-sd FILE       its standard deviation GeoTIFF (e.g. the kriging sd), mW/m² (deprecated: use --points)
   --points FILE             heat-flow sites instead of --heat-flow: N conditional simulations of heat flow on the grid
                             below; the totals' P10/P50/P90 come from the per-realization sums, nominal from kriging
+  --points-crs EPSG:nnnn    CRS of a points CSV's x,y (easting,northing) columns
 ` +
   SIMULATION_HELP.split('\n')
     .filter((l) => !/--points P|--field/.test(l))

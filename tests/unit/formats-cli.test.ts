@@ -62,6 +62,28 @@ describe('verbs read GeoPackage, zipped Shapefile and projected CSV points', () 
     }
   });
 
+  it.skipIf(!hasGdal)(
+    'heat-in-place --points: a CSV in EPSG:32709 with --points-crs gives the totals the GeoJSON gives',
+    async () => {
+      const csv = join(dir, 'hip-sites.csv');
+      ogr(['-f', 'CSV', '-t_srs', 'EPSG:32709', '-lco', 'GEOMETRY=AS_XY', csv, fixture('sites.geojson')]);
+      const common = ['--model', fixture('model.json'), '--size', '24x18', '--realizations', '8', '--seed', '3', '--json'];
+      const ref = await cli(['heat-in-place', '--points', fixture('sites.geojson'), ...common]);
+      expect(ref.code).toBe(0);
+      const noCrs = await cli(['heat-in-place', '--points', csv, ...common]);
+      expect(noCrs.code).toBe(2);
+      expect(noCrs.err).toContain('pointsCrs');
+      const got = await cli(['heat-in-place', '--points', csv, '--points-crs', 'EPSG:32709', ...common]);
+      expect(got.code).toBe(0);
+      const a = JSON.parse(ref.out) as { cells: number; heatInPlaceJ: Record<string, number | null> };
+      const b = JSON.parse(got.out) as typeof a;
+      expect(b.cells).toBe(a.cells);
+      // The sites pass through UTM and back (proj4, exact to ~1e-9°), so the totals agree to rounding.
+      for (const k of ['nominal', 'p10', 'p50', 'p90'] as const) expect((b.heatInPlaceJ[k] ?? NaN) / (a.heatInPlaceJ[k] ?? NaN)).toBeCloseTo(1, 6);
+    },
+    120_000,
+  );
+
   it.skipIf(!hasGdal)('isograds: samples from a two-layer GeoPackage need --layer; exit 2 names the file and the layers', async () => {
     const gpkg = join(dir, 'field.gpkg');
     ogr(['-f', 'GPKG', gpkg, fixture('samples.geojson'), '-nln', 'grade_samples']);
