@@ -29,12 +29,12 @@ import {
   SIMULATION_OPTIONS,
   gridOptionsFromArgs,
   readSimulationPoints,
-  simulationOptionsFromArgs,
+  heatFlowSimulationOptions,
   type SimulationArgs,
 } from './simulation-input.ts';
-import { simulateGrid, type SimulationOptions } from '../../shared/interp/simulateField.ts';
 import { interpolateGrid } from '../../shared/interp/interpolate.ts';
-import { MAX_SIMULATED_VALUES, SIMULATION_STREAM_OFFSET } from '../runs/heat-flow-simulation.ts';
+import { WGS84_DEF } from '../../shared/interp/projection.ts';
+import { SIMULATION_STREAM_OFFSET, simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
 import { assessOnGrid } from '../io/resource-output.ts';
 
 const HELP =
@@ -44,7 +44,8 @@ Volumetric heat in place and electric power (screening estimate).
   --heat-flow FILE          surface heat-flow GeoTIFF, mW/m²
   --heat-flow-sd FILE       its standard deviation GeoTIFF (e.g. the kriging sd), mW/m² (deprecated: use --points)
   --points FILE             heat-flow sites instead of --heat-flow: N conditional simulations of heat flow on the grid
-                            below; the totals' P10/P50/P90 come from the per-realization sums, nominal from kriging
+                            below; the totals' P10/P50/P90 come from the per-realization sums, nominal from kriging;
+                            the fields are a web run's for the same sites, grid, options and seed
   --points-crs EPSG:nnnn    CRS of a points CSV's x,y (easting,northing) columns
 ` +
   SIMULATION_HELP.split('\n')
@@ -291,8 +292,10 @@ interface PointsHeatFlow {
 }
 
 /**
- * Heat flow from the sites: conditional simulations on the output grid (their per-realization sums give the
- * totals' percentiles) and the kriged grid (the nominal run). The simulation draws from streams keyed by
+ * Heat flow from the sites: the kriged grid (the nominal run; ordinary kriging of the heat flow itself, as a web
+ * run's heat-flow map) and, on that grid, the conditional simulations of a web run (server/runs/heat-flow-simulation.ts,
+ * the one function both call): the same sites, options, grid and seed give the same fields, so the totals' P10/P50/P90
+ * equal those of a heat-in-place job over a run made with the same inputs. The simulation draws from streams keyed by
  * seed + 2³², the model and parameter draws from streams keyed by the seed (independent of each other).
  */
 async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed: number): Promise<PointsHeatFlow> {
@@ -302,50 +305,30 @@ async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed:
     throw bad('seed', `with --points the seed must be an integer from 0 to ${SIMULATION_STREAM_OFFSET - 1}, got ${seed}`);
   if ((v.field ?? 'heatFlowMWm2') !== 'heatFlowMWm2') throw bad('field', 'heat in place simulates heatFlowMWm2 (mW/m²)');
   const { points, warnings, sha256 } = await readSimulationPoints(v);
-  const opts: SimulationOptions = {
-    ...simulationOptionsFromArgs(v, realizations, seed + SIMULATION_STREAM_OFFSET, 'mW/m²'),
-    grid: await gridOptionsFromArgs(v),
-    sampler: 'auto',
-    crossValidation: false,
-    maxValues: MAX_SIMULATED_VALUES,
-  };
-  const sim = simulateGrid(points, opts);
-  // The nominal run: ordinary kriging of the heat flow itself on the same grid (a fixed variogram of normal scores
-  // does not apply to the values: that case fits its own).
-  const scoreVariogram = opts.transform !== 'none' && typeof opts.variogram === 'object';
+  const so = heatFlowSimulationOptions(v);
+  const grid = await gridOptionsFromArgs(v);
+  // A fixed variogram of normal scores does not apply to the values: the kriged grid then fits its own.
+  const scoreVariogram = so.transform !== 'none' && typeof so.variogram === 'object';
   const kr = interpolateGrid(points, {
     method: 'kriging',
-    variogram: scoreVariogram ? 'auto' : opts.variogram,
-    anisotropy: opts.anisotropy,
-    neighbors: opts.neighbors,
-    lagKm: opts.lagKm,
-    maxLagKm: opts.maxLagKm,
-    measurementError: opts.measurementError,
-    grid: opts.grid,
+    variogram: scoreVariogram ? 'auto' : so.variogram,
+    anisotropy: so.anisotropy,
+    neighbors: so.neighbors,
+    lagKm: so.lagKm,
+    maxLagKm: so.maxLagKm,
+    measurementError: so.measurementError,
+    grid,
     sd: false,
     crossValidation: false,
     units: 'mW/m²',
   });
-  const g = kr.grid,
-    s = sim.grid;
-  if (g.width !== s.width || g.height !== s.height || g.west !== s.west || g.north !== s.north || g.dx !== s.dx || g.dy !== s.dy)
-    throw new RangeError('the kriged and simulated grids differ');
-  const vg = sim.variogram;
-  const space = sim.transform.kind === 'normal-score' ? 'normal scores' : 'mW/m²';
+  const sim = simulateRunHeatFlow(points, so, kr.grid, grid.crsDef ?? WGS84_DEF, realizations, seed);
   return {
-    kriged: { grid: g, hash: sha256 },
-    realizations: {
-      values: sim.values,
-      source: `${realizations} conditional simulations of the sites' heat flow (${sim.sampler.kind === 'cholesky' ? 'exact Cholesky' : 'circulant embedding'} conditioned by kriging, ${vg.model} variogram of the ${space}, range ${vg.rangeKm.toPrecision(4)} km; streams seed + ${SIMULATION_STREAM_OFFSET})`,
-    },
+    kriged: { grid: kr.grid, hash: sha256 },
+    realizations: { values: sim.values, source: sim.source },
     report: {
-      method: sim.sampler.method,
-      transform: sim.transform,
-      sampler: sim.sampler.kind,
-      neighbors: sim.conditioning.neighbors,
-      variogram: { model: vg.model, nugget: vg.nugget, partialSill: vg.partialSill, rangeKm: vg.rangeKm, anisotropy: vg.anisotropy, source: vg.source, space },
+      ...sim.report,
       nominal: 'the nominal run uses the kriged heat-flow grid (ordinary kriging of the values); p10/p50/p90 and mean come from the simulated fields',
-      cellKm: sim.cellKm,
     },
     warnings: [...warnings, ...sim.warnings.map((w) => `heat-flow simulation: ${w}`), ...kr.warnings.map((w) => `kriged grid: ${w}`)],
   };

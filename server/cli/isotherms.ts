@@ -13,9 +13,8 @@ import { readGeoTiff, writeGeoTiffFile } from '../io/geotiff.ts';
 import { geojsonText, sha256Hex } from '../io/export.ts';
 import { computeThermalProducts, type OverrideRegion } from '../../shared/products/thermal-products.ts';
 import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
-import { SIMULATION_OPTIONS, readSimulationPoints, simulationOptionsFromArgs, type SimulationArgs } from './simulation-input.ts';
-import { simulateOnGrid, type SimulationOptions } from '../../shared/interp/simulateField.ts';
-import { MAX_SIMULATED_VALUES, SIMULATION_STREAM_OFFSET } from '../runs/heat-flow-simulation.ts';
+import { SIMULATION_OPTIONS, heatFlowSimulationOptions, readSimulationPoints, type SimulationArgs } from './simulation-input.ts';
+import { simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
 
 const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a thermal model
 
@@ -92,8 +91,9 @@ function sameGrid(a: Grid<Float32Array>, b: Grid<Float32Array>): boolean {
 }
 
 /**
- * Conditional simulations of the sites (--points and the shared simulation flags) on the heat-flow grid, from
- * streams keyed by seed + 2³² (the model draws use the seed itself). Cells without heat flow stay no data.
+ * Conditional simulations of the sites (--points and the shared simulation flags) on the heat-flow grid, a web
+ * run's way (server/runs/heat-flow-simulation.ts): streams keyed by seed + 2³² (the model draws use the seed
+ * itself); cells without heat flow stay no data.
  */
 async function simulateOnHeatFlowGrid(
   a: SimulationArgs,
@@ -105,18 +105,8 @@ async function simulateOnHeatFlowGrid(
   if ((a.field ?? 'heatFlowMWm2') !== 'heatFlowMWm2')
     throw new InputError('isotherms simulates heatFlowMWm2 (mW/m²)', [{ field: 'field', problem: 'expected heatFlowMWm2' }], 'bad_option');
   const { points, warnings, sha256 } = await readSimulationPoints(a);
-  const opts: SimulationOptions = {
-    ...simulationOptionsFromArgs(a, realizations, seed + SIMULATION_STREAM_OFFSET, 'mW/m²'),
-    crossValidation: false,
-    maxValues: MAX_SIMULATED_VALUES,
-  };
-  const r = simulateOnGrid(points, opts, heatFlow, crsDef);
-  const cells = heatFlow.width * heatFlow.height;
-  for (let c = 0; c < cells; c++) if (!(heatFlow.values[c] === heatFlow.values[c])) for (let k = 0; k < realizations; k++) r.values[k * cells + c] = NaN;
-  const v = r.variogram;
-  const space = r.transform.kind === 'normal-score' ? 'normal scores' : 'mW/m²';
-  const source = `heat flow from ${realizations} conditional simulations of the sites (${r.sampler.kind === 'cholesky' ? 'exact Cholesky' : 'circulant embedding'} conditioned by kriging, ${v.model} variogram of the ${space}, range ${v.rangeKm.toPrecision(4)} km; streams seed + ${SIMULATION_STREAM_OFFSET})`;
-  return { values: r.values, source, sha256, warnings: [...warnings, ...r.warnings.map((w) => `heat-flow simulation: ${w}`)] };
+  const r = simulateRunHeatFlow(points, heatFlowSimulationOptions(a), heatFlow, crsDef, realizations, seed);
+  return { values: r.values, source: r.source, sha256, warnings: [...warnings, ...r.warnings.map((w) => `heat-flow simulation: ${w}`)] };
 }
 
 export async function isotherms(argv: string[]): Promise<number> {

@@ -11,6 +11,7 @@ import { loadCrsDefinition, converter, WGS84_DEF, type OutputGridOptions } from 
 import type { PointData } from '../../shared/interp/interpolate.ts';
 import type { SimulationOptions } from '../../shared/interp/simulateField.ts';
 import { numberOption, numberListOption } from './args.ts';
+import type { RunSimulationOptions } from '../runs/heat-flow-simulation.ts';
 
 /** parseArgs options of the simulation (the verb adds its own). */
 export const SIMULATION_OPTIONS = {
@@ -152,5 +153,22 @@ export async function gridOptionsFromArgs(a: SimulationArgs): Promise<OutputGrid
     size,
     crs: crsDef === WGS84_DEF ? 'EPSG:4326' : crs,
     crsDef,
+  };
+}
+
+/**
+ * The heat-flow simulation options of a verb that simulates a run's way (server/runs/heat-flow-simulation.ts):
+ * the shared flags, with the transform as given (a run picks it from the variogram).
+ */
+export function heatFlowSimulationOptions(a: SimulationArgs): RunSimulationOptions {
+  const so = simulationOptionsFromArgs(a, 1, 0, 'mW/m²');
+  return {
+    variogram: so.variogram,
+    anisotropy: so.anisotropy,
+    neighbors: so.neighbors,
+    lagKm: so.lagKm,
+    maxLagKm: so.maxLagKm,
+    measurementError: so.measurementError,
+    transform: so.transform,
   };
 }

@@ -34,6 +34,11 @@ export interface RunSimulationOptions {
   lagKm?: number;
   maxLagKm?: number;
   measurementError?: boolean;
+  /**
+   * Simulate normal scores and back-transform, or the values as Gaussian. Default: 'none' for a fixed variogram
+   * (given in heat-flow units), else 'normal-score' (runs always use the default; the CLI may choose).
+   */
+  transform?: 'normal-score' | 'none';
 }
 
 /** The run's interpolation options that its heat-flow simulation follows (IDW runs: the simulation's defaults). */
@@ -72,7 +77,10 @@ export interface HeatFlowSimulation {
 
 /**
  * Simulates `count` heat-flow fields on `grid` (its CRS's proj4 definition `crsDef`), conditioned on the sites.
- * Cells where `grid` has no data (masked, beyond the search distance) stay NaN.
+ * Cells where `grid` has no data (masked, beyond the search distance) stay NaN. The one path from sites to heat-flow
+ * realizations: web runs (their percentile maps, spread, probability and heat-in-place jobs) and the CLI verbs
+ * (`heat-in-place --points`, `isotherms --points`) all call it, so the same sites, options, grid and seed give the
+ * same fields value for value.
  */
 export function simulateRunHeatFlow(
   points: PointData,
@@ -97,7 +105,7 @@ export function simulateRunHeatFlow(
     seed: seed + SIMULATION_STREAM_OFFSET,
     variogram: o.variogram ?? 'auto',
     anisotropy: o.anisotropy ?? null,
-    transform: fixed ? 'none' : 'normal-score',
+    transform: o.transform ?? (fixed ? 'none' : 'normal-score'),
     neighbors: o.neighbors ?? 16,
     lagKm: o.lagKm,
     maxLagKm: o.maxLagKm,
