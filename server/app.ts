@@ -18,7 +18,7 @@ import { monitorEventLoopDelay } from 'node:perf_hooks';
 import { ComputePool } from './runs/compute.ts';
 import { HeatJobs } from './runs/heat-jobs.ts';
 import { securityHeaders } from './security.ts';
-import { RunJobs } from './runs/jobs.ts';
+import { createRunQueue, queueHealth, type RunQueue } from './queue/select.ts';
 import { RunGridCache } from './runs/grids.ts';
 import { errorBody, parseTrustedProxies, type AppContext } from './routes/context.ts';
 import { datasetRoutes } from './routes/datasets.ts';
@@ -57,6 +57,10 @@ export interface AppOptions {
   publicBaseUrl?: string | null;
   /** Reverse proxies whose X-Forwarded-For is believed (default SUBTHERM_TRUSTED_PROXIES, comma-separated). */
   trustedProxies?: string[];
+  /** redis://… of a run queue shared with other servers and `subtherm worker` processes; absent: this server's threads. */
+  queueUrl?: string | null;
+  /** Key prefix of the run queue in Redis (default `subtherm:`). */
+  queuePrefix?: string;
 }
 
 /** True for SQLite's "database or disk is full" (SQLITE_FULL) and the file system's "no space left" (ENOSPC). */
@@ -89,11 +93,13 @@ const CONTENT_TYPES: Record<string, string> = {
  * (`app.jobs`): call `app.jobs.close()` to stop the worker pool. `app.ready` resolves when its start-up work against
  * the store is done.
  */
-export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Limits; close: () => Promise<void>; ready: Promise<void> } {
+export function createApp(opts: AppOptions): Hono & { jobs: RunQueue; limits: Limits; close: () => Promise<void>; ready: Promise<void> } {
   const app = new Hono();
   const limits = resolveLimits(opts.limits);
   const workerFile = opts.runWorkerFile ?? RUN_WORKER_FILE;
-  const jobs = new RunJobs({
+  const jobs = createRunQueue({
+    queueUrl: opts.queueUrl,
+    queuePrefix: opts.queuePrefix,
     store: opts.store,
     workerFile,
     concurrency: limits.runConcurrency,
@@ -232,9 +238,8 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunJobs; limits: Lim
       ok: true,
       version: VERSION,
       store: opts.store.kind,
-      // Runs execute in this server's worker threads.
-      queue: 'in-process',
-      workers: limits.runConcurrency,
+      // Runs execute in this server's worker threads, or on the shared Redis queue's workers.
+      ...queueHealth(jobs, limits.runConcurrency),
       // Delay of the request thread's event loop since the window began (the previous full minute beside it).
       eventLoopDelayMs: { ...current, windowStartedAt: new Date(loopWindowStart).toISOString(), previousMinute: lastWindow },
       runs: jobs.counts(),

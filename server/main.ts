@@ -9,6 +9,7 @@ import type { Store } from './store/types.ts';
 import { InputError } from '../shared/errors.ts';
 import { DEMO_TERRAIN, loadDemo, loadDemoTerrain } from './demo.ts';
 import { loadDem, TerrainTiles } from './terrain.ts';
+import { redactRedisUrl } from './queue/connection.ts';
 
 export const ROOT_DIR = new URL('..', import.meta.url).pathname;
 export const CLIENT_DIST = join(ROOT_DIR, 'client', 'dist');
@@ -26,6 +27,8 @@ export interface ServerOptions {
   demoRun?: boolean;
   /** Public base URL for absolute URLs in responses (default SUBTHERM_PUBLIC_URL; see AppOptions). */
   publicBaseUrl?: string;
+  /** redis://… of the run queue shared with `subtherm worker` processes (SUBTHERM_QUEUE_URL); needs databaseUrl. */
+  queueUrl?: string;
 }
 
 /**
@@ -62,6 +65,15 @@ export async function openStore(dbPath: string): Promise<SqliteStore> {
   }
 }
 
+/** A run queue is shared by processes that must all reach one database: SQLite is one machine's file. */
+export function queueNeedsDatabase(): InputError {
+  return new InputError(
+    'a run queue (--queue-url or SUBTHERM_QUEUE_URL) needs a PostgreSQL database that every server and worker reaches: give --database-url or SUBTHERM_DATABASE_URL too (see "Running for a team" in the README)',
+    [{ field: 'database-url', problem: 'required with a queue URL' }],
+    'conflicting_options',
+  );
+}
+
 /** A database URL with its password hidden (for messages and logs). */
 export function redactUrl(url: string): string {
   try {
@@ -77,7 +89,7 @@ export function redactUrl(url: string): string {
  * Connects to a PostgreSQL database and migrates it (loading the demo on first start); a database that cannot be
  * reached or refuses the login stops the server with a message naming the URL (password hidden) and the fault.
  */
-export async function openPostgresStore(url: string, log: (line: string) => void = () => {}): Promise<Store> {
+export async function openPostgresStore(url: string, log: (line: string) => void = () => {}, opts: { queueOwnsRuns?: boolean } = {}): Promise<Store> {
   if (!/^postgres(ql)?:\/\//.test(url)) {
     throw new InputError(
       `the database URL must start with postgres:// or postgresql://, got ${redactUrl(url)}`,
@@ -87,7 +99,7 @@ export async function openPostgresStore(url: string, log: (line: string) => void
   }
   let store: PostgresStore | null = null;
   try {
-    store = await PostgresStore.open(url, { log });
+    store = await PostgresStore.open(url, { log, queueOwnsRuns: opts.queueOwnsRuns });
     await loadDemo(store);
     return store;
   } catch (e) {
@@ -134,7 +146,11 @@ export async function buildClient(log: (line: string) => void = () => {}): Promi
 export async function startServer(opts: ServerOptions) {
   const log = opts.log ?? ((l: string) => process.stdout.write(l + '\n'));
   if (opts.buildClient && clientBuildIsStale()) await buildClient(log);
-  const store = opts.databaseUrl !== undefined ? await openPostgresStore(opts.databaseUrl, log) : await openStore(opts.dbPath);
+  if (opts.queueUrl !== undefined && opts.databaseUrl === undefined) throw queueNeedsDatabase();
+  const store =
+    opts.databaseUrl !== undefined
+      ? await openPostgresStore(opts.databaseUrl, log, { queueOwnsRuns: opts.queueUrl !== undefined })
+      : await openStore(opts.dbPath);
   const dem = await loadDem(DEMO_TERRAIN);
   await loadDemoTerrain(store, dem);
   const terrain = new TerrainTiles(dem);
@@ -146,8 +162,15 @@ export async function startServer(opts: ServerOptions) {
     clientDir: existsSync(join(CLIENT_DIST, 'index.html')) ? CLIENT_DIST : null,
     demoRun,
     publicBaseUrl: opts.publicBaseUrl,
+    queueUrl: opts.queueUrl,
   });
-  await app.ready;
+  try {
+    await app.ready;
+  } catch (e) {
+    await app.close().catch(() => undefined);
+    await store.close();
+    throw new InputError((e as Error).message, [{ field: 'queue-url', problem: (e as Error).message }], 'queue_unavailable');
+  }
   const host = opts.host ?? '127.0.0.1';
   const server = await new Promise<ReturnType<typeof serve>>((resolve) => {
     const s = serve({ fetch: app.fetch, port: opts.port, hostname: host }, () => resolve(s));
@@ -156,7 +179,7 @@ export async function startServer(opts: ServerOptions) {
   // Loopback and all-interfaces binds are reached at localhost from this machine (scripts read this line).
   const shown = ['0.0.0.0', '::', '127.0.0.1', '::1', 'localhost'].includes(host) ? 'localhost' : host.includes(':') ? `[${host}]` : host;
   log(
-    `subtherm listening on http://${shown}:${port} (database ${opts.databaseUrl !== undefined ? redactUrl(opts.databaseUrl) : opts.dbPath})${host === '127.0.0.1' || host === 'localhost' || host === '::1' ? '; this machine only (--host 0.0.0.0 serves the network)' : ''}`,
+    `subtherm listening on http://${shown}:${port} (database ${opts.databaseUrl !== undefined ? redactUrl(opts.databaseUrl) : opts.dbPath}${opts.queueUrl !== undefined ? `; runs on the queue ${redactRedisUrl(opts.queueUrl)}` : ''})${host === '127.0.0.1' || host === 'localhost' || host === '::1' ? '; this machine only (--host 0.0.0.0 serves the network)' : ''}`,
   );
   const close = async () => {
     await app.close();

@@ -28,13 +28,16 @@ export async function serve(argv: string[]): Promise<number> {
     'database-url': { type: 'string' },
     host: { type: 'string' },
     'public-url': { type: 'string' },
+    'queue-url': { type: 'string' },
   });
   if (values.help) {
     process.stdout.write(
       [
-        'subtherm serve [--port 8080] [--db data/subtherm.sqlite | --database-url postgres://user@host/db] [--host 127.0.0.1] [--public-url https://host/path]',
-        '  PORT, SUBTHERM_DB, SUBTHERM_DATABASE_URL, SUBTHERM_HOST and SUBTHERM_PUBLIC_URL set the defaults; flags win.',
+        'subtherm serve [--port 8080] [--db data/subtherm.sqlite | --database-url postgres://user@host/db] [--queue-url redis://host:6379]',
+        '               [--host 127.0.0.1] [--public-url https://host/path]',
+        '  PORT, SUBTHERM_DB, SUBTHERM_DATABASE_URL, SUBTHERM_QUEUE_URL, SUBTHERM_HOST and SUBTHERM_PUBLIC_URL set the defaults; flags win.',
         '  A database URL (PostgreSQL, for several servers) is used instead of the SQLite file; giving both is an error.',
+        "  A queue URL (Redis) sends runs to `subtherm worker` processes instead of this server's threads; it needs a database URL.",
         '  --host 127.0.0.1 (the default) serves this machine only; --host 0.0.0.0 serves the network: view and edit',
         '  links are the only access control, so do that on a trusted network or behind a proxy with its own login.',
         '',
@@ -47,9 +50,11 @@ export async function serve(argv: string[]): Promise<number> {
     throw new InputError(`--port must be an integer 0–65535, got ${port}`, [{ field: 'port', problem: 'out of range' }], 'bad_option');
   const { dbPath, databaseUrl } = resolveDatabase(values);
   const host = values.host ?? process.env.SUBTHERM_HOST ?? '127.0.0.1';
-  const srv = await startServer({ port, dbPath, databaseUrl, host, publicBaseUrl: values['public-url'], buildClient: true });
+  const queueUrl = values['queue-url'] ?? (process.env.SUBTHERM_QUEUE_URL || undefined);
+  const srv = await startServer({ port, dbPath, databaseUrl, host, publicBaseUrl: values['public-url'], buildClient: true, queueUrl });
   const stop = () => {
-    // Cancel queued and running runs (their worker threads stop), then close the listener and the database.
+    // Cancel queued and running runs (their worker threads stop; queue runs go on on the workers), then close the
+    // listener and the database.
     void srv.close().then(() => process.exit(0));
   };
   process.once('SIGINT', stop);

@@ -10,6 +10,10 @@ export interface VerbEntry {
 
 export const VERBS: Record<string, VerbEntry> = {
   serve: { summary: 'start the web map and API server', load: async () => (await import('./serve.ts')).serve },
+  worker: {
+    summary: 'take runs from the shared Redis run queue and run them (beside servers started with --queue-url)',
+    load: async () => (await import('./worker.ts')).worker,
+  },
   migrate: { summary: 'create or update the database schema (SQLite file or PostgreSQL) and exit', load: async () => (await import('./migrate.ts')).migrate },
   wells: { summary: 'well temperatures → corrected temperatures, gradients and heat-flow sites', load: async () => (await import('./wells.ts')).wells },
   'correct-sites': {

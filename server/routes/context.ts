@@ -3,7 +3,7 @@ import type { Context } from 'hono';
 import type { IncomingMessage } from 'node:http';
 import { InputError } from '../../shared/errors.ts';
 import type { Limits } from '../limits.ts';
-import type { RunJobs } from '../runs/jobs.ts';
+import type { RunQueue } from '../queue/select.ts';
 import type { RunGridCache } from '../runs/grids.ts';
 import type { ComputePool } from '../runs/compute.ts';
 import type { HeatJobs } from '../runs/heat-jobs.ts';
@@ -13,7 +13,7 @@ import { jsonDepthExceeds } from './schemas.ts';
 export interface AppContext {
   store: Store;
   limits: Limits;
-  jobs: RunJobs;
+  jobs: RunQueue;
   grids: RunGridCache;
   /** Absolute path of the run worker module. */
   workerFile: string;

@@ -17,7 +17,8 @@ import type { RunRequest } from '../../shared/schema/run.ts';
 import type { RunRecord, RunStatus, Store } from '../store/types.ts';
 import { newId } from '../store/sqlite.ts';
 import { hashToken, newEditToken, tokenMatches } from '../security.ts';
-import { CANCEL_MESSAGE, LAYER_CONTENT_TYPES, LAYER_EXTS, type RunResult, type RunTask, type SerializedGrid } from './types.ts';
+import { CANCEL_MESSAGE, type RunResult, type RunTask } from './types.ts';
+import { storeCheckedRunResult } from './run-result.ts';
 
 export interface RunJobsOptions {
   store: Store;
@@ -80,9 +81,6 @@ export const RUN_NICENESS = 10;
 
 const TERMINAL: ReadonlySet<RunStatus> = new Set(['done', 'failed', 'cancelled']);
 export const isTerminal = (s: RunStatus) => TERMINAL.has(s);
-
-/** Layer names become file names in URLs: letters, digits, `_`, `-` and single dots. */
-const LAYER_NAME = /^[A-Za-z0-9_-]+(\.[A-Za-z0-9_-]+)*$/;
 
 export class RunJobs {
   private readonly store: Store;
@@ -536,48 +534,8 @@ export class RunJobs {
 
   /** Stores a finished run's files and grids content-addressed, and its record, in one transaction. */
   private async storeResult(job: Job, result: RunResult): Promise<void> {
-    const bad = (why: string) => new Error(`the run worker returned a malformed result: ${why}`);
-    if (result === null || typeof result !== 'object' || !Array.isArray(result.layers)) throw bad('no layers array');
-    const heat = result.grids?.heatFlow;
-    checkGrid(heat, 'grids.heatFlow', bad);
-    if (result.grids.heatFlowSd !== undefined) checkGrid(result.grids.heatFlowSd, 'grids.heatFlowSd', bad);
-    const names = new Set<string>();
-    for (const l of result.layers) {
-      const name = l?.info?.name;
-      if (typeof name !== 'string' || !LAYER_NAME.test(name)) throw bad(`layer name ${JSON.stringify(name)} is not a file name`);
-      if (names.has(name)) throw bad(`duplicate layer ${name}`);
-      names.add(name);
-      for (const f of l.files ?? []) {
-        if (!LAYER_EXTS.includes(f.ext) || !(f.bytes instanceof Uint8Array)) throw bad(`layer ${name}: bad file ${String(f?.ext)}`);
-      }
-    }
-    const grids = (Object.entries(result.grids) as [string, SerializedGrid | undefined][])
-      .filter((e): e is [string, SerializedGrid] => e[1] !== undefined)
-      .map(([name, g]) => ({
-        name,
-        meta: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: g.units },
-        values: g.values,
-      }));
     await job.writes;
-    await this.store.storeRunResult(job.id, {
-      files: result.layers.flatMap((l) => l.files.map((f) => ({ name: l.info.name, ext: f.ext, bytes: f.bytes, contentType: LAYER_CONTENT_TYPES[f.ext] }))),
-      grids,
-      record: {
-        layers: result.layers.map((l) => l.info),
-        summary: result.summary ?? {},
-        warnings: Array.isArray(result.warnings) ? result.warnings.map(String) : [],
-        model: result.model ?? null,
-        grids: grids.map((g) => g.name),
-      },
-    });
+    await storeCheckedRunResult(this.store, job.id, result);
     this.finish(job, { status: 'done', progress: 1, message: 'done' });
   }
-}
-
-function checkGrid(g: SerializedGrid | undefined, label: string, bad: (why: string) => Error): void {
-  if (g === undefined || g === null) throw bad(`${label} is missing`);
-  if (!(Number.isInteger(g.width) && g.width > 0 && Number.isInteger(g.height) && g.height > 0)) throw bad(`${label} has no size`);
-  if (!(g.values instanceof Float32Array) || g.values.length !== g.width * g.height) throw bad(`${label} values are not width × height Float32`);
-  if (!(g.dx > 0 && g.dy > 0 && Number.isFinite(g.west) && Number.isFinite(g.north))) throw bad(`${label} has no georeferencing`);
-  if (typeof g.crs !== 'string') throw bad(`${label} has no CRS`);
 }

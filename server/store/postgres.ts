@@ -88,6 +88,8 @@ export const PG_MIGRATIONS: { name: string; sql: string }[] = [
 /** A server not seen for this long has stopped: its queued and running runs are failed (seconds). */
 export const SERVER_STALE_SECONDS = 30;
 const HEARTBEAT_MS = 5000;
+/** The `owner` of runs the Redis run queue carries: no server's heartbeat decides their fate. */
+const QUEUE_OWNER = 'queue';
 
 /** Rows of a grid kept per chunk: bands of at most this many bytes (whole rows). */
 const BAND_BYTES = 256 * 1024;
@@ -131,10 +133,16 @@ export class PostgresStore implements Store {
   readonly pool: pg.Pool;
   /** This server's id in `servers` and in the `owner` of the runs it starts. */
   readonly serverId = newId('srv_');
+  /**
+   * Who runs the runs this process records: the server itself (its id; failed by the others once it stops), or the
+   * shared run queue (`queue`; a queue run outlives the server that queued it, and the queue's reaper ends it).
+   */
+  private readonly runOwner: string;
   private heartbeat: NodeJS.Timeout | null = null;
 
-  private constructor(pool: pg.Pool) {
+  private constructor(pool: pg.Pool, queueOwnsRuns: boolean) {
     this.pool = pool;
+    this.runOwner = queueOwnsRuns ? QUEUE_OWNER : this.serverId;
   }
 
   /** Registers this server and keeps saying it is alive; each beat also fails the runs of servers that stopped. */
@@ -152,21 +160,24 @@ export class PostgresStore implements Store {
   private async failRunsOfStoppedServers(message: string): Promise<number> {
     const r = await this.pool.query(
       `UPDATE runs SET status = 'failed', message = $1, updated_at = $2
-       WHERE status IN ('queued', 'running')
+       WHERE status IN ('queued', 'running') AND owner IS DISTINCT FROM '${QUEUE_OWNER}'
          AND (owner IS NULL OR owner NOT IN (SELECT id FROM servers WHERE id = $3 OR seen_at > now() - make_interval(secs => $4)))`,
       [message, new Date().toISOString(), this.serverId, SERVER_STALE_SECONDS],
     );
     return r.rowCount ?? 0;
   }
 
-  /** Connects to `url` (postgres://…), runs the pending migrations and returns the store. */
-  static async open(url: string, opts: { max?: number; log?: (line: string) => void } = {}): Promise<PostgresStore> {
+  /**
+   * Connects to `url` (postgres://…), runs the pending migrations and returns the store. With `queueOwnsRuns`, the
+   * runs it records belong to the Redis run queue (server/queue/) instead of this process.
+   */
+  static async open(url: string, opts: { max?: number; log?: (line: string) => void; queueOwnsRuns?: boolean } = {}): Promise<PostgresStore> {
     const pool = new pg.Pool({ connectionString: url, max: opts.max ?? 10 });
     // An idle client losing its connection (server restart) must not crash the process: the pool replaces it.
     pool.on('error', (e) => opts.log?.(`[${new Date().toISOString()}] database connection error: ${e.message}`));
     try {
       await migratePostgres(pool, opts.log);
-      const store = new PostgresStore(pool);
+      const store = new PostgresStore(pool, opts.queueOwnsRuns === true);
       await store.startHeartbeat(opts.log);
       return store;
     } catch (e) {
@@ -440,7 +451,7 @@ export class PostgresStore implements Store {
         run.client,
         run.createdAt,
         run.updatedAt,
-        this.serverId,
+        this.runOwner,
       ],
     );
   }
