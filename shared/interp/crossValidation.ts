@@ -2,6 +2,7 @@ import type { KrigingPredictor } from './kriging.ts';
 import type { IdwPredictor } from './idw.ts';
 import { choleskyInPlace, choleskySolve, dot } from './linalg.ts';
 import { covariance, type VariogramModel } from './variogram.ts';
+import { driftAt, driftTerms, type DriftFrame } from './drift.ts';
 
 /**
  * Leave-one-out cross-validation: each point is predicted from the others with the same method and
@@ -9,7 +10,8 @@ import { covariance, type VariogramModel } from './variogram.ts';
  * errors of Journel & Huijbregts (1978): mean standardized error ≈ 0 and mean squared deviation ratio
  * MSDR = mean((r/σ)²) ≈ 1 when the kriging variance is honest. For a global neighbourhood without barriers the
  * closed form of Dubrule (1983) gives all N leave-one-out residuals from one factorization:
- * rᵢ = [K⁻¹z̃]ᵢ / [K⁻¹]ᵢᵢ and σᵢ² = 1/[K⁻¹]ᵢᵢ, K the bordered kriging matrix.
+ * rᵢ = [K⁻¹z̃]ᵢ / [K⁻¹]ᵢᵢ and σᵢ² = 1/[K⁻¹]ᵢᵢ, K the bordered kriging matrix (bordered by the constant, or by
+ * the drift monomials for universal kriging).
  */
 
 export interface CvResidual {
@@ -94,10 +96,11 @@ export function crossValidateKriging(
   errorVariance: Float64Array | null,
   hasBarrier: boolean,
   radiusKm = Infinity,
+  drift: DriftFrame | null = null,
 ): CrossValidation {
   const n = x.length;
   if (p.global && !hasBarrier && radiusKm === Infinity && n >= 3) {
-    const r = dubrule(x, y, z, model, errorVariance);
+    const r = dubrule(x, y, z, model, errorVariance, drift);
     if (r !== null) {
       const res: CvResidual[] = [];
       for (let i = 0; i < n; i++) res.push({ id: ids[i], observed: z[i], predicted: z[i] - r.residual[i], sd: r.sd[i], residual: r.residual[i] });
@@ -121,9 +124,10 @@ export function crossValidateKriging(
 }
 
 /**
- * Dubrule (1983) leave-one-out residuals for global ordinary kriging: with C = L·Lᵀ, b = C⁻¹1, s = 1ᵀb,
- * the bordered inverse's top-left block is C⁻¹ − b·bᵀ/s, so [K⁻¹]ᵢᵢ = (C⁻¹)ᵢᵢ − bᵢ²/s and
- * [K⁻¹z̃]ᵢ = (C⁻¹z)ᵢ − bᵢ·(bᵀz)/s. Returns null if C is not positive definite.
+ * Dubrule (1983) leave-one-out residuals for global kriging: with C = L·Lᵀ, the drift matrix F (the constant for
+ * ordinary kriging), B = C⁻¹F, S = FᵀB, the bordered inverse's top-left block is C⁻¹ − B·S⁻¹·Bᵀ, so
+ * [K⁻¹]ᵢᵢ = (C⁻¹)ᵢᵢ − bᵢᵀS⁻¹bᵢ (bᵢ the i-th row of B) and [K⁻¹z̃]ᵢ = (C⁻¹z)ᵢ − bᵢᵀS⁻¹(Bᵀz). Returns null if C or
+ * S is not positive definite.
  */
 export function dubrule(
   x: Float64Array,
@@ -131,6 +135,7 @@ export function dubrule(
   z: Float64Array,
   model: VariogramModel,
   ev: Float64Array | null,
+  drift: DriftFrame | null = null,
 ): { residual: Float64Array; sd: Float64Array } | null {
   const n = x.length;
   const L = new Float64Array(n * n);
@@ -139,14 +144,46 @@ export function dubrule(
     L[i * n + i] = model.nugget + model.partialSill + (ev === null ? 0 : ev[i]);
   }
   if (!choleskyInPlace(L, n, n)) return null;
-  const b = new Float64Array(n),
-    w = new Float64Array(n),
-    ones = new Float64Array(n).fill(1);
-  choleskySolve(L, n, n, ones, b);
+  const frame: DriftFrame = drift ?? { kind: 'none', cxKm: 0, cyKm: 0, scaleKm: 1 };
+  const p = driftTerms(frame.kind);
+  if (n <= p) return null;
+  // B = C⁻¹F column by column, S = FᵀB, g = Bᵀz, w = C⁻¹z.
+  const F = new Float64Array(n * p),
+    row = new Float64Array(p);
+  for (let i = 0; i < n; i++) {
+    driftAt(frame, x[i], y[i], row);
+    for (let j = 0; j < p; j++) F[j * n + i] = row[j];
+  }
+  const B = new Float64Array(n * p);
+  for (let j = 0; j < p; j++) choleskySolve(L, n, n, F.subarray(j * n, (j + 1) * n), B.subarray(j * n, (j + 1) * n));
+  const w = new Float64Array(n);
   choleskySolve(L, n, n, z, w);
-  const s = dot(b, ones, n),
-    bz = dot(b, z, n);
-  // diag(C⁻¹) = column sums of squares of L⁻¹; column j of L⁻¹ solves L·v = e_j (entries above j are zero).
+  const S = new Float64Array(p * p),
+    g = new Float64Array(p);
+  for (let j = 0; j < p; j++) {
+    g[j] = dot(B.subarray(j * n, (j + 1) * n), z, n);
+    for (let k = 0; k < p; k++) S[j * p + k] = dot(F.subarray(j * n, (j + 1) * n), B.subarray(k * n, (k + 1) * n), n);
+  }
+  if (!choleskyInPlace(S, p, p, 1e-12)) return null;
+  const sg = new Float64Array(p);
+  choleskySolve(S, p, p, g, sg);
+  const diag = inverseDiagonal(L, n);
+  const residual = new Float64Array(n),
+    sd = new Float64Array(n),
+    bi = new Float64Array(p),
+    sbi = new Float64Array(p);
+  for (let i = 0; i < n; i++) {
+    for (let j = 0; j < p; j++) bi[j] = B[j * n + i];
+    choleskySolve(S, p, p, bi, sbi);
+    const aii = diag[i] - dot(bi, sbi, p);
+    residual[i] = (w[i] - dot(bi, sg, p)) / aii;
+    sd[i] = Math.sqrt(1 / aii);
+  }
+  return { residual, sd };
+}
+
+/** diag(C⁻¹) from C's Cholesky factor L: column sums of squares of L⁻¹ (column j solves L·v = e_j; zero above j). */
+function inverseDiagonal(L: Float64Array, n: number): Float64Array {
   const diag = new Float64Array(n);
   const v = new Float64Array(n);
   for (let j = 0; j < n; j++) {
@@ -161,12 +198,5 @@ export function dubrule(
     }
     diag[j] = acc;
   }
-  const residual = new Float64Array(n),
-    sd = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    const aii = diag[i] - (b[i] * b[i]) / s;
-    residual[i] = (w[i] - (b[i] * bz) / s) / aii;
-    sd[i] = Math.sqrt(1 / aii);
-  }
-  return { residual, sd };
+  return diag;
 }

@@ -6,6 +6,7 @@ import { IdwPredictor } from './idw.ts';
 import { KrigingPredictor } from './kriging.ts';
 import { RegionMask } from './mask.ts';
 import { anisotropyMatrix, transformCoords, type Anisotropy, type VariogramModel } from './variogram.ts';
+import { driftFrame, type DriftFrame, type TrendKind } from './drift.ts';
 
 /**
  * The grid kernel: everything needed to fill any row range of an output grid, as plain structured-cloneable data
@@ -35,6 +36,8 @@ export interface GridPlan {
   power: number;
   variogram: VariogramModel | null;
   anisotropy: Anisotropy | null;
+  /** Drift of the mean for kriging (universal kriging, drift.ts); absent or 'none' = ordinary kriging. */
+  trend?: TrendKind;
   /** Fault pieces x1,y1,x2,y2 in local km, or null. */
   faults: Float64Array | null;
   maxDistanceKm: number | null;
@@ -72,6 +75,8 @@ export interface GridRuntime {
   tx: Float64Array;
   ty: Float64Array;
   hasBarrier: boolean;
+  /** The kriging drift in the predictor's coordinates, or null (ordinary kriging or IDW). */
+  drift: DriftFrame | null;
 }
 
 /** Builds the runtime of a plan (indexes, barrier, predictor, factor caches). */
@@ -82,6 +87,7 @@ export function createGridRuntime(plan: GridPlan): GridRuntime {
   let kriging: KrigingPredictor | null = null;
   let tx = plan.x,
     ty = plan.y;
+  let drift: DriftFrame | null = null;
   const hasBarrier = plan.faults !== null && plan.faults.length > 0;
   if (plan.method === 'idw') {
     const barrier = plan.faults !== null && plan.faults.length > 0 ? new FaultBarrier(plan.faults, plan.x, plan.y) : null;
@@ -107,12 +113,14 @@ export function createGridRuntime(plan: GridPlan): GridRuntime {
       }
       barrier = new FaultBarrier(tf, t.x, t.y);
     }
+    if (plan.trend !== undefined && plan.trend !== 'none') drift = driftFrame(plan.trend, t.x, t.y);
     kriging = new KrigingPredictor(t.x, t.y, plan.z, plan.variogram, {
       neighbors: plan.neighbors,
       radiusKm: plan.radiusKm,
       errorVariance: plan.errorVariance,
       visibility: barrier,
       maxGlobal: plan.maxGlobal,
+      drift,
     });
   }
   const realIndex = plan.maxDistanceKm !== null ? (iso && kriging !== null ? kriging.index : new NeighbourIndex(plan.x, plan.y)) : null;
@@ -134,6 +142,7 @@ export function createGridRuntime(plan: GridPlan): GridRuntime {
     tx,
     ty,
     hasBarrier,
+    drift,
   };
 }
 

@@ -1,8 +1,9 @@
-import { expNonPositive } from './fast-exp.ts';
 import { NeighbourIndex, type VisibilityTest } from './neighbours.ts';
 import { choleskyInPlace, forwardSubstitute, choleskySolve, dot } from './linalg.ts';
 import { correlation, modelCode, checkVariogram, type VariogramModel } from './variogram.ts';
 import { EXACT_KM } from './idw.ts';
+import { covarianceVector, globalDualSums, type CovarianceParams } from './covarianceKernels.ts';
+import { DriftSystem, type DriftFrame } from './drift.ts';
 
 /**
  * Ordinary kriging (Matheron 1963; Isaaks & Srivastava 1989, ch. 12) in covariance form C(h) = sill − γ(h).
@@ -18,6 +19,8 @@ import { EXACT_KM } from './idw.ts';
  * g − |q − a| away (triangle inequality), so when the k nearest candidates are all nearer than that they are the k
  * nearest of all and no new search is needed (an exact test; ties are broken by id, as in the tree search).
  * Per-point measurement-error variances are added to the diagonal (an extra, point-specific nugget).
+ * Universal kriging (a drift in the coordinates, drift.ts) borders the system with the drift monomials instead of
+ * the single constant; the same factor serves, with b = C⁻¹1 replaced by B = C⁻¹F and s by S = FᵀC⁻¹F.
  * A set whose matrix is singular or ill-conditioned is regularized with a growing diagonal jitter; if that fails the
  * location falls back to inverse-distance weighting (p = 2) on the same neighbours and σ = √sill; both are counted.
  */
@@ -33,6 +36,8 @@ export interface KrigingOptions {
   visibility?: VisibilityTest | null;
   /** Largest global system (points); beyond it, use a local neighbourhood. Default 5000. */
   maxGlobal?: number;
+  /** Universal kriging: the drift monomials in the predictor's coordinates; null or kind 'none' = ordinary. */
+  drift?: DriftFrame | null;
 }
 
 export interface KrigingCounters {
@@ -58,9 +63,9 @@ export class KrigingPredictor {
   private readonly ev: Float64Array | null;
   private readonly vis: VisibilityTest | null;
   private readonly radiusKm: number;
-  private readonly code: number;
-  private readonly psill: number;
-  private readonly range: number;
+  private readonly cp: CovarianceParams;
+  private readonly drift: DriftSystem | null;
+  private readonly two = new Float64Array(2);
   readonly index: NeighbourIndex;
   // Work buffers, allocated once (size k).
   private readonly ids: Int32Array;
@@ -102,10 +107,8 @@ export class KrigingPredictor {
     this.k = Math.min(k, n);
     const maxGlobal = opts.maxGlobal ?? 5000;
     if (this.global && n > maxGlobal) throw new RangeError(`global kriging of ${n} points exceeds ${maxGlobal}; use a local neighbourhood`);
-    this.code = modelCode(model.model);
-    this.psill = model.partialSill;
-    this.range = model.rangeKm;
     this.sill = model.nugget + model.partialSill;
+    this.cp = { code: modelCode(model.model), psill: model.partialSill, sill: this.sill, rangeKm: model.rangeKm };
     this.index = new NeighbourIndex(x, y);
     const m = this.k;
     this.coherent = !this.global && this.vis === null;
@@ -120,11 +123,12 @@ export class KrigingPredictor {
     this.w = new Float64Array(m);
     this.c0 = new Float64Array(m);
     this.yv = new Float64Array(m);
+    this.drift = opts.drift && opts.drift.kind !== 'none' ? new DriftSystem(opts.drift, m) : null;
   }
 
   /** Covariance at distance h km (h = 0 gives the full sill). */
   cov(h: number): number {
-    return h > 0 ? this.psill * correlation(this.code, this.range, h) : this.sill;
+    return h > 0 ? this.cp.psill * correlation(this.cp.code, this.cp.rangeKm, h) : this.sill;
   }
 
   /**
@@ -243,6 +247,7 @@ export class KrigingPredictor {
         this.s = dot(this.b, this.yv, n);
         this.bz = dot(this.b, this.c0, n);
         this.failed = !(this.s > 0) || !Number.isFinite(this.bz);
+        if (this.drift !== null && !this.failed) this.failed = !this.drift.build(L, n, x, y, this.z, sorted);
         return;
       }
       // Jitter 1e-10, 1e-8, 1e-6, 1e-4 of the sill: far below any nugget that matters, enough for round-off.
@@ -265,16 +270,19 @@ export class KrigingPredictor {
     }
     const c0 = this.c0;
     if (this.failed) return this.fallback(qx, qy, n, out);
-    if (!withSd && this.keyLen === n && n === this.x.length && this.global && exclude < 0) {
+    const two = this.two;
+    if (!withSd && this.drift === null && this.keyLen === n && n === this.x.length && this.global && exclude < 0) {
       // Global estimate only (the dual form): one fused pass over the data, no covariance vector stored.
-      const cw = this.globalEstimateSums(qx, qy, n);
-      if (cw !== null) {
-        out[0] = cw;
-        out[1] = NaN;
-        return n;
+      if (globalDualSums(this.cp, this.x, this.y, this.b, this.w, n, qx, qy, two)) {
+        const v = two[1] - ((two[0] - 1) / this.s) * this.bz;
+        if (Number.isFinite(v)) {
+          out[0] = v;
+          out[1] = NaN;
+          return n;
+        }
       }
     }
-    this.covariances(qx, qy, n);
+    covarianceVector(this.cp, this.x, this.y, this.sorted, n, qx, qy, c0);
     const b = this.b,
       w = this.w;
     let cb = 0,
@@ -284,11 +292,21 @@ export class KrigingPredictor {
       cb += c * b[i];
       cw += c * w[i];
     }
-    const mu = (cb - 1) / this.s;
-    out[0] = cw - mu * this.bz;
+    // Ordinary kriging: μ = (c₀ᵀb − 1)/s and the variance term μ²·s; universal: the drift system's μ and μᵀr.
+    let correction: number, varTerm: number;
+    if (this.drift === null) {
+      const mu = (cb - 1) / this.s;
+      correction = mu * this.bz;
+      varTerm = mu * mu * this.s;
+    } else {
+      this.drift.solveAt(c0, n, qx, qy, two);
+      correction = two[0];
+      varTerm = two[1];
+    }
+    out[0] = cw - correction;
     if (withSd) {
       forwardSubstitute(this.L, n, n, c0, this.yv);
-      const v = this.sill - dot(this.yv, this.yv, n) + mu * mu * this.s;
+      const v = this.sill - dot(this.yv, this.yv, n) + varTerm;
       out[1] = Math.sqrt(v > 0 ? v : 0);
     } else out[1] = NaN;
     if (!Number.isFinite(out[0])) return this.fallback(qx, qy, n, out);
@@ -296,90 +314,26 @@ export class KrigingPredictor {
   }
 
   /**
-   * The global ordinary-kriging estimate at (qx, qy) in one pass: Σ c₀ᵢ·wᵢ − μ·bz with μ = (Σ c₀ᵢ·bᵢ − 1)/s, where
-   * c₀ᵢ = C(|xᵢ − q|) over every point in index order (the identity neighbour set). The same sums as `predict`'s,
-   * without storing c₀, and with e^t from a table (fast-exp.ts, relative error < 1e-12). Returns null for a model other than exponential or Gaussian (the general path serves it).
-   */
-  private globalEstimateSums(qx: number, qy: number, n: number): number | null {
-    const { x, y, b, w, psill, sill } = this;
-    let cb = 0,
-      cw = 0;
-    if (this.code === 1) {
-      const f = -3 / this.range;
-      for (let i = 0; i < n; i++) {
-        const dx = x[i] - qx,
-          dy = y[i] - qy;
-        const h = Math.sqrt(dx * dx + dy * dy);
-        const c = h > 0 ? psill * expNonPositive(f * h) : sill;
-        cb += c * b[i];
-        cw += c * w[i];
-      }
-    } else if (this.code === 2) {
-      const f = -3 / (this.range * this.range);
-      for (let i = 0; i < n; i++) {
-        const dx = x[i] - qx,
-          dy = y[i] - qy;
-        const h2 = dx * dx + dy * dy;
-        const c = h2 > 0 ? psill * expNonPositive(f * h2) : sill;
-        cb += c * b[i];
-        cw += c * w[i];
-      }
-    } else return null;
-    const mu = (cb - 1) / this.s;
-    const v = cw - mu * this.bz;
-    return Number.isFinite(v) ? v : null;
-  }
-
-  /** c₀[i] = C(|xᵢ − q|) for the current set, one loop per model (no per-point branch on the model). */
-  private covariances(qx: number, qy: number, n: number): void {
-    const { sorted, c0, x, y, psill, sill } = this;
-    const code = this.code;
-    if (code === 1) {
-      const f = -3 / this.range;
-      for (let i = 0; i < n; i++) {
-        const a = sorted[i];
-        const dx = x[a] - qx,
-          dy = y[a] - qy;
-        const h = Math.sqrt(dx * dx + dy * dy);
-        c0[i] = h > 0 ? psill * Math.exp(f * h) : sill;
-      }
-    } else if (code === 2) {
-      const f = -3 / (this.range * this.range);
-      for (let i = 0; i < n; i++) {
-        const a = sorted[i];
-        const dx = x[a] - qx,
-          dy = y[a] - qy;
-        const h2 = dx * dx + dy * dy;
-        c0[i] = h2 > 0 ? psill * Math.exp(f * h2) : sill;
-      }
-    } else {
-      const inv = 1 / this.range;
-      for (let i = 0; i < n; i++) {
-        const a = sorted[i];
-        const dx = x[a] - qx,
-          dy = y[a] - qy;
-        const h = Math.sqrt(dx * dx + dy * dy);
-        const r = h * inv;
-        c0[i] = h > 0 ? (r < 1 ? psill * (1 - 1.5 * r + 0.5 * r * r * r) : 0) : sill;
-      }
-    }
-  }
-
-  /**
    * The kriging weights λ (for the ids written to `outIds`, ascending) and the Lagrange multiplier μ at (qx, qy)
-   * (system C·λ + μ·1 = c₀). Returns n, or 0 when no neighbour or the system is singular.
+   * (system C·λ + μ·1 = c₀; with a drift, μ is the constant monomial's multiplier). Returns n, or 0 when no
+   * neighbour or the system is singular.
    */
   weights(qx: number, qy: number, outIds: Int32Array, outLambda: Float64Array, exclude = -1): { n: number; mu: number } {
     const n = this.prepare(qx, qy, exclude);
     if (n === 0 || this.failed) return { n: 0, mu: NaN };
     const { sorted, c0 } = this;
-    this.covariances(qx, qy, n);
+    covarianceVector(this.cp, this.x, this.y, sorted, n, qx, qy, c0);
     choleskySolve(this.L, n, n, c0, outLambda);
-    const mu = (dot(c0, this.b, n) - 1) / this.s;
-    for (let i = 0; i < n; i++) {
-      outLambda[i] -= mu * this.b[i];
-      outIds[i] = sorted[i];
+    let mu: number;
+    if (this.drift === null) {
+      mu = (dot(c0, this.b, n) - 1) / this.s;
+      for (let i = 0; i < n; i++) outLambda[i] -= mu * this.b[i];
+    } else {
+      this.drift.solveAt(c0, n, qx, qy, this.two);
+      this.drift.subtractDrift(outLambda, n);
+      mu = this.drift.mu[0];
     }
+    for (let i = 0; i < n; i++) outIds[i] = sorted[i];
     return { n, mu };
   }
 

@@ -154,6 +154,135 @@ export interface OutputGridOptions {
   defaultCells?: number;
 }
 
+/** The data's lon/lat envelope padded by `pad` of its span on each side (at least 0.01°), clipped to the globe. */
+function defaultBbox(dataLon: ArrayLike<number>, dataLat: ArrayLike<number>, pad: number): [number, number, number, number] {
+  let w = Infinity,
+    e = -Infinity,
+    s = Infinity,
+    n = -Infinity;
+  for (let i = 0; i < dataLon.length; i++) {
+    w = Math.min(w, dataLon[i]);
+    e = Math.max(e, dataLon[i]);
+    s = Math.min(s, dataLat[i]);
+    n = Math.max(n, dataLat[i]);
+  }
+  const px = Math.max((e - w) * pad, 0.01);
+  const py = Math.max((n - s) * pad, 0.01);
+  return [Math.max(-180, w - px), Math.max(-90, s - py), Math.min(180, e + px), Math.min(90, n + py)];
+}
+
+/**
+ * Where a grid lies in its CRS: west/north edges, spans and ground km per CRS unit at the centre, and (projected
+ * CRSs) a function giving the ground cell-side range over the corners and centre for a cell of dx × dy units.
+ */
+interface GridFrame {
+  west: number;
+  north: number;
+  spanX: number;
+  spanY: number;
+  kmPerUnitX: number;
+  kmPerUnitY: number;
+  groundRange: ((dxUnits: number, dyUnits: number) => [number, number]) | null;
+}
+
+/** A lon/lat grid's frame: km per degree at the centre latitude. */
+function lonLatFrame([W, S, E, N]: [number, number, number, number]): GridFrame {
+  const k = kmPerDegree((S + N) / 2);
+  return { west: W, north: N, spanX: E - W, spanY: N - S, kmPerUnitX: k.lon, kmPerUnitY: k.lat, groundRange: null };
+}
+
+/** Envelope in a projected CRS of the lon/lat bbox's boundary (32 steps per side). */
+function projectedEnvelope(c: proj4.Converter, [W, S, E, N]: [number, number, number, number], crs: string): [number, number, number, number] {
+  let x0 = Infinity,
+    x1 = -Infinity,
+    y0 = Infinity,
+    y1 = -Infinity;
+  const steps = 32;
+  for (let i = 0; i <= steps; i++) {
+    const t = i / steps;
+    for (const p of [
+      [W + t * (E - W), S],
+      [W + t * (E - W), N],
+      [W, S + t * (N - S)],
+      [E, S + t * (N - S)],
+    ]) {
+      const q = c.forward(p);
+      if (!Number.isFinite(q[0]) || !Number.isFinite(q[1]))
+        throw new InputError(`the bbox cannot be projected to ${crs}`, [{ field: 'crs', problem: "the area is outside the projection's domain" }], 'bad_crs');
+      x0 = Math.min(x0, q[0]);
+      x1 = Math.max(x1, q[0]);
+      y0 = Math.min(y0, q[1]);
+      y1 = Math.max(y1, q[1]);
+    }
+  }
+  return [x0, y0, x1, y1];
+}
+
+/**
+ * A projected grid's frame: the envelope of the bbox's boundary, and ground km per CRS unit at the grid's centre
+ * (the projection's scale there, e.g. cos φ in Web Mercator), so a cell of cellKm is cellKm across on the ground at
+ * the centre.
+ */
+function projectedFrame(def: string, bbox: [number, number, number, number], crs: string): GridFrame {
+  const c = proj4(WGS84_DEF, def);
+  const [x0, y0, x1, y1] = projectedEnvelope(c, bbox, crs);
+  const spanX = x1 - x0,
+    spanY = y1 - y0;
+  const inv = (x: number, y: number): [number, number] => c.inverse<[number, number]>([x, y]);
+  const h = 0.5 * (spanX + spanY) * 1e-4;
+  const g = groundStepKm(inv, (x0 + x1) / 2, (y0 + y1) / 2, h, h);
+  const groundRange = (dxU: number, dyU: number): [number, number] => {
+    let lo = Infinity,
+      hi = -Infinity;
+    for (const [x, y] of [
+      [x0, y0],
+      [x0, y1],
+      [x1, y0],
+      [x1, y1],
+      [(x0 + x1) / 2, (y0 + y1) / 2],
+    ]) {
+      const s = groundStepKm(inv, x, y, dxU, dyU);
+      lo = Math.min(lo, s.xKm, s.yKm);
+      hi = Math.max(hi, s.xKm, s.yKm);
+    }
+    return [lo, hi];
+  };
+  return { west: x0, north: y1, spanX, spanY, kmPerUnitX: g.xKm / h, kmPerUnitY: g.yKm / h, groundRange };
+}
+
+/** Width, height, cell sizes (CRS units) and the cell size in km, from `size` or `cellKm` (or the default count). */
+function gridCells(f: GridFrame, opts: OutputGridOptions): { width: number; height: number; dx: number; dy: number; cellKm: number } {
+  if (opts.size !== undefined) {
+    const [width, height] = opts.size;
+    if (!(Number.isInteger(width) && width > 0 && Number.isInteger(height) && height > 0)) {
+      throw new InputError(
+        `size must be NXxNY with positive integers, got ${opts.size.join('x')}`,
+        [{ field: 'size', problem: 'expected e.g. 400x300' }],
+        'bad_option',
+      );
+    }
+    const dx = f.spanX / width,
+      dy = f.spanY / height;
+    return { width, height, dx, dy, cellKm: Math.sqrt(dx * f.kmPerUnitX * dy * f.kmPerUnitY) };
+  }
+  const cellKm = opts.cellKm ?? Math.max(f.spanX * f.kmPerUnitX, f.spanY * f.kmPerUnitY) / (opts.defaultCells ?? 200);
+  if (!(cellKm > 0) || !Number.isFinite(cellKm))
+    throw new InputError(`cellKm must be a positive number of km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected > 0' }], 'bad_option');
+  const dx = cellKm / f.kmPerUnitX,
+    dy = cellKm / f.kmPerUnitY;
+  return { width: Math.max(1, Math.ceil(f.spanX / dx - 1e-9)), height: Math.max(1, Math.ceil(f.spanY / dy - 1e-9)), dx, dy, cellKm };
+}
+
+/** A lon/lat grid's ground cell-side range: km per degree at its north and south edges and centre latitude. */
+function lonLatGroundRange([, S, , N]: [number, number, number, number], dx: number, dy: number): [number, number] {
+  const kN = kmPerDegree(N),
+    kS = kmPerDegree(S),
+    kM = kmPerDegree((S + N) / 2);
+  const xs = [kN.lon * dx, kS.lon * dx, kM.lon * dx],
+    ys = [kN.lat * dy, kS.lat * dy, kM.lat * dy];
+  return [Math.min(...xs, ...ys), Math.max(...xs, ...ys)];
+}
+
 /**
  * The output grid (DESIGN.md §3): lon/lat by default with bbox W,S,E,N in degrees and `cellKm` converted to
  * degrees at the centre latitude (dx = cellKm / km-per-degree-longitude, dy = cellKm / km-per-degree-latitude);
@@ -168,23 +297,7 @@ export function buildOutputGrid(
 ): GridSpec & { cellKm: number; groundCellKmRange: [number, number] } {
   const crs = opts.crs ?? 'EPSG:4326';
   const def = opts.crsDef ?? WGS84_DEF;
-  let bbox = opts.bbox;
-  if (bbox === undefined) {
-    let w = Infinity,
-      e = -Infinity,
-      s = Infinity,
-      n = -Infinity;
-    for (let i = 0; i < dataLon.length; i++) {
-      w = Math.min(w, dataLon[i]);
-      e = Math.max(e, dataLon[i]);
-      s = Math.min(s, dataLat[i]);
-      n = Math.max(n, dataLat[i]);
-    }
-    const pad = opts.padFraction ?? 0.05;
-    const px = Math.max((e - w) * pad, 0.01);
-    const py = Math.max((n - s) * pad, 0.01);
-    bbox = [Math.max(-180, w - px), Math.max(-90, s - py), Math.min(180, e + px), Math.min(90, n + py)];
-  }
+  const bbox = opts.bbox ?? defaultBbox(dataLon, dataLat, opts.padFraction ?? 0.05);
   const [W, S, E, N] = bbox;
   if (!(W >= -180 && E <= 180 && S >= -90 && N <= 90 && E > W && N > S)) {
     throw new InputError(
@@ -193,104 +306,11 @@ export function buildOutputGrid(
       'bad_option',
     );
   }
-  const midLat = (S + N) / 2;
-  let groundRange: ((dxUnits: number, dyUnits: number) => [number, number]) | null = null;
-  let west: number, north: number, spanX: number, spanY: number, kmPerUnitX: number, kmPerUnitY: number;
-  if (def === WGS84_DEF) {
-    west = W;
-    north = N;
-    spanX = E - W;
-    spanY = N - S;
-    const k = kmPerDegree(midLat);
-    kmPerUnitX = k.lon;
-    kmPerUnitY = k.lat;
-  } else {
-    const c = proj4(WGS84_DEF, def);
-    let x0 = Infinity,
-      x1 = -Infinity,
-      y0 = Infinity,
-      y1 = -Infinity;
-    const steps = 32;
-    for (let i = 0; i <= steps; i++) {
-      const t = i / steps;
-      for (const p of [
-        [W + t * (E - W), S],
-        [W + t * (E - W), N],
-        [W, S + t * (N - S)],
-        [E, S + t * (N - S)],
-      ]) {
-        const q = c.forward(p);
-        if (!Number.isFinite(q[0]) || !Number.isFinite(q[1]))
-          throw new InputError(`the bbox cannot be projected to ${crs}`, [{ field: 'crs', problem: "the area is outside the projection's domain" }], 'bad_crs');
-        x0 = Math.min(x0, q[0]);
-        x1 = Math.max(x1, q[0]);
-        y0 = Math.min(y0, q[1]);
-        y1 = Math.max(y1, q[1]);
-      }
-    }
-    west = x0;
-    north = y1;
-    spanX = x1 - x0;
-    spanY = y1 - y0;
-    // Ground km per CRS unit at the grid's centre (the projection's scale there, e.g. cos φ in Web Mercator), so a
-    // cell of cellKm is cellKm across on the ground at the centre.
-    const inv = (x: number, y: number): [number, number] => c.inverse<[number, number]>([x, y]);
-    const h = 0.5 * (spanX + spanY) * 1e-4;
-    const g = groundStepKm(inv, (x0 + x1) / 2, (y0 + y1) / 2, h, h);
-    kmPerUnitX = g.xKm / h;
-    kmPerUnitY = g.yKm / h;
-    groundRange = (dxU, dyU) => {
-      let lo = Infinity,
-        hi = -Infinity;
-      for (const [x, y] of [
-        [x0, y0],
-        [x0, y1],
-        [x1, y0],
-        [x1, y1],
-        [(x0 + x1) / 2, (y0 + y1) / 2],
-      ]) {
-        const s = groundStepKm(inv, x, y, dxU, dyU);
-        lo = Math.min(lo, s.xKm, s.yKm);
-        hi = Math.max(hi, s.xKm, s.yKm);
-      }
-      return [lo, hi];
-    };
-  }
-  let width: number, height: number, dx: number, dy: number, cellKm: number;
-  if (opts.size !== undefined) {
-    [width, height] = opts.size;
-    if (!(Number.isInteger(width) && width > 0 && Number.isInteger(height) && height > 0)) {
-      throw new InputError(
-        `size must be NXxNY with positive integers, got ${opts.size.join('x')}`,
-        [{ field: 'size', problem: 'expected e.g. 400x300' }],
-        'bad_option',
-      );
-    }
-    dx = spanX / width;
-    dy = spanY / height;
-    cellKm = Math.sqrt(dx * kmPerUnitX * dy * kmPerUnitY);
-  } else {
-    cellKm = opts.cellKm ?? Math.max(spanX * kmPerUnitX, spanY * kmPerUnitY) / (opts.defaultCells ?? 200);
-    if (!(cellKm > 0) || !Number.isFinite(cellKm))
-      throw new InputError(`cellKm must be a positive number of km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected > 0' }], 'bad_option');
-    dx = cellKm / kmPerUnitX;
-    dy = cellKm / kmPerUnitY;
-    width = Math.max(1, Math.ceil(spanX / dx - 1e-9));
-    height = Math.max(1, Math.ceil(spanY / dy - 1e-9));
-  }
+  const frame = def === WGS84_DEF ? lonLatFrame(bbox) : projectedFrame(def, bbox, crs);
+  const { width, height, dx, dy, cellKm } = gridCells(frame, opts);
   // Ground cell size: exact at the centre by construction; its range over the grid's corners says where it varies.
-  let groundCellKmRange: [number, number];
-  if (groundRange !== null) {
-    groundCellKmRange = groundRange(dx, dy);
-  } else {
-    const kN = kmPerDegree(N),
-      kS = kmPerDegree(S),
-      kM = kmPerDegree(midLat);
-    const xs = [kN.lon * dx, kS.lon * dx, kM.lon * dx],
-      ys = [kN.lat * dy, kS.lat * dy, kM.lat * dy];
-    groundCellKmRange = [Math.min(...xs, ...ys), Math.max(...xs, ...ys)];
-  }
-  return { width, height, west, north, dx, dy, crs, cellKm, groundCellKmRange };
+  const groundCellKmRange = frame.groundRange !== null ? frame.groundRange(dx, dy) : lonLatGroundRange(bbox, dx, dy);
+  return { width, height, west: frame.west, north: frame.north, dx, dy, crs, cellKm, groundCellKmRange };
 }
 
 /** Cells between exactly projected nodes of a row in `rowCentresLocalKm`. */
