@@ -29,8 +29,6 @@ const OVER_LIMIT: readonly string[] = [
   'server/runs/jobs.ts', // 584
   'server/store/postgres.ts', // 692
   'server/store/sqlite.ts', // 621
-  'shared/interp/interpolate.ts', // 597
-  'shared/interp/kriging.ts', // 412
   'shared/interp/simulation.ts', // 507
   'shared/products/thermal-products.ts', // 503
   'shared/resource/monte-carlo.ts', // 714
@@ -63,8 +61,6 @@ const OVER_LIMIT: readonly string[] = [
   'server/terrain-upload.ts checkDemHeader', // 102
   'shared/grid/contours.ts isolinesIndexLevels', // 107
   'shared/interp/fft.ts run', // 159
-  'shared/interp/interpolate.ts prepareInterpolation', // 333
-  'shared/interp/projection.ts buildOutputGrid', // 131
   'shared/interp/simulation.ts createConditionalSimulator', // 100
   'shared/io/csv.ts parseCsv', // 83
   'shared/products/column.ts computeColumn', // 100
