@@ -39,6 +39,8 @@ export interface RunSimulationOptions {
    * (given in heat-flow units), else 'normal-score' (runs always use the default; the CLI may choose).
    */
   transform?: 'normal-score' | 'none';
+  /** Fault traces (lines of [lon, lat] degrees): barriers between the sites and the cells they condition, as in kriging. */
+  faults?: number[][][] | null;
 }
 
 /** The run's interpolation options that its heat-flow simulation follows (IDW runs: the simulation's defaults). */
@@ -111,6 +113,7 @@ export function simulateRunHeatFlow(
     maxLagKm: o.maxLagKm,
     crossValidation: false,
     measurementError: o.measurementError,
+    faults: o.faults ?? null,
     maxValues: MAX_SIMULATED_VALUES,
     units: 'mW/m²',
   };
@@ -125,15 +128,17 @@ export function simulateRunHeatFlow(
   }
   const v = r.variogram;
   const space = r.transform.kind === 'normal-score' ? 'normal scores' : 'mW/m²';
+  const barriers = (o.faults ?? []).length > 0;
   const report: HeatFlowSimulation['report'] = {
-    method: `conditional simulation: ${r.sampler.method}${r.transform.kind === 'normal-score' ? ", through a normal-score transform of the sites' heat flow and its back-transform" : ''}`,
+    method: `conditional simulation: ${r.sampler.method}${r.transform.kind === 'normal-score' ? ", through a normal-score transform of the sites' heat flow and its back-transform" : ''}${barriers ? "; a site conditions no cell across a fault (the kriged map's barriers)" : ''}`,
     variogram: { model: v.model, nugget: v.nugget, partialSill: v.partialSill, rangeKm: v.rangeKm, anisotropy: v.anisotropy, source: v.source, space },
     transform: r.transform.kind,
     sampler: r.sampler.kind,
     neighbors: r.conditioning.neighbors,
     streams: `seed + ${SIMULATION_STREAM_OFFSET}`,
+    faultBarriers: barriers,
     checksum,
   };
-  const source = `heat flow from ${count} conditional simulations of the sites (${r.sampler.kind === 'lattice' ? 'circulant embedding' : 'Cholesky'} conditioned by kriging, ${v.model} variogram of the ${space}, range ${v.rangeKm.toPrecision(4)} km)`;
+  const source = `heat flow from ${count} conditional simulations of the sites (${r.sampler.kind === 'lattice' ? 'circulant embedding' : 'Cholesky'} conditioned by kriging, ${v.model} variogram of the ${space}, range ${v.rangeKm.toPrecision(4)} km${barriers ? ', faults as barriers' : ''})`;
   return { values, count, seed, checksum, report, source, warnings: r.warnings };
 }

@@ -244,10 +244,9 @@ async function simulateHeatFlow(
   tracker.report('simulate', 0, `simulating ${N} heat-flow fields conditioned on ${inp.points.ids.length} sites`);
   await between(options.signal);
   const t0 = now();
-  const sim = simulateRunHeatFlow(inp.points, runSimulationOptions(inp.interpolation), interp.grid, inp.crsDef, N, inp.seed);
+  const sim = simulateRunHeatFlow(inp.points, { ...runSimulationOptions(inp.interpolation), faults: inp.faults }, interp.grid, inp.crsDef, N, inp.seed);
   timingsMs.simulate = now() - t0;
   warnings.push(...sim.warnings.map((w) => `heat-flow simulation: ${w}`));
-  if (inp.faults !== null) warnings.push('heat-flow simulation: the simulated fields do not treat the faults as barriers (the kriged map does)');
   tracker.finish('simulate', `${N} heat-flow fields simulated`);
   return sim;
 }

@@ -25,6 +25,7 @@ import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/pro
 import { interpolationOptionsSchema, pointsFromGeoJson } from '../../shared/schema/interp.ts';
 import type { Store } from '../store/types.ts';
 import { runSimulationOptions, simulateRunHeatFlow } from './heat-flow-simulation.ts';
+import { faultLines } from './run-inputs.ts';
 
 export interface RunRealizations {
   /** Number of realizations. */
@@ -140,13 +141,15 @@ export interface RunRecord {
   /** Bodies of the run's sites and regions data sets (null when the run has none). */
   sitesBody: string | null;
   regionsBody: string | null;
+  /** Body of the run's faults data set when its simulation treated them as barriers (else null). */
+  faultsBody: string | null;
 }
 
 interface StoredMonteCarlo {
   realizations?: number;
   seed?: number;
   heatFlowErrorCorrelation?: 'full' | 'independent' | null;
-  heatFlowSimulation?: { checksum?: number };
+  heatFlowSimulation?: { checksum?: number; faultBarriers?: boolean };
 }
 
 /** Reads what a finished run's realizations are built from (store reads only; no computation). */
@@ -159,7 +162,7 @@ export async function readRunRecord(store: Store, runId: string): Promise<RunRec
       [{ field: 'runId', problem: `status ${run.status}` }],
       'run_not_done',
     );
-  const request = (run.request ?? {}) as { regions?: string; sites?: string };
+  const request = (run.request ?? {}) as { regions?: string; sites?: string; faults?: string };
   const summary = (run.summary ?? {}) as { monteCarlo?: StoredMonteCarlo | null };
   const heat = await store.getRunGrid(runId, 'heatFlow');
   if (!heat) throw new InputError(`run ${runId} has no stored heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid');
@@ -180,6 +183,7 @@ export async function readRunRecord(store: Store, runId: string): Promise<RunRec
     heatFlowSd: sdRec ? { ...sdRec.meta, values: sdRec.values } : null,
     sitesBody: simulated ? await body(request.sites, 'sites') : null,
     regionsBody: await body(request.regions, 'regions'),
+    faultsBody: simulated && summary.monteCarlo?.heatFlowSimulation?.faultBarriers === true ? await body(request.faults, 'faults') : null,
   };
 }
 
@@ -240,7 +244,8 @@ export async function realizationsFromRecord(rec: RunRecord, opts: { realization
   if (stored !== undefined && rec.sitesBody !== null) {
     const iopt = interpolationOptionsSchema.parse(request.interpolation);
     const { points } = pointsFromGeoJson(JSON.parse(rec.sitesBody), 'heatFlowMWm2', { source: `data set of run ${runId}` });
-    const sim = simulateRunHeatFlow(points, runSimulationOptions(iopt), heatFlow, crsDef, N, seed);
+    const faults = rec.faultsBody === null ? null : faultLines(parseFeatureCollection('faults', JSON.parse(rec.faultsBody)).collection.features);
+    const sim = simulateRunHeatFlow(points, { ...runSimulationOptions(iopt), faults }, heatFlow, crsDef, N, seed);
     // Realization 0 does not depend on the count: the same sum proves the same fields.
     if (stored.checksum !== undefined && !(Math.abs(sim.checksum - stored.checksum) <= 1e-9 * Math.max(1, Math.abs(stored.checksum)))) {
       throw new InputError(

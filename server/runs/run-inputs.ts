@@ -78,14 +78,19 @@ function readFaults(req: RunRequest, datasets: Record<string, StoredDataset>, ha
   const fd = dataset(datasets, req.faults, 'faults');
   const ds = parseFeatureCollection('faults', parseJsonBody(fd, req.faults, 'faults'));
   warnings.push(...ds.warnings);
-  const faults: number[][][] = [];
-  for (const f of ds.collection.features) {
-    const g = f.geometry;
-    if (g.type === 'LineString') faults.push(g.coordinates as number[][]);
-    else faults.push(...(g.coordinates as number[][][]));
-  }
   hashes.faults = sha256Hex(fd.body);
-  return faults;
+  return faultLines(ds.collection.features);
+}
+
+/** The traces of a faults data set's features (LineString or MultiLineString) as lines of [lon, lat] degrees. */
+export function faultLines(features: readonly { geometry: { type: string; coordinates: unknown } }[]): number[][][] {
+  const lines: number[][][] = [];
+  for (const f of features) {
+    const g = f.geometry;
+    if (g.type === 'LineString') lines.push(g.coordinates as number[][]);
+    else lines.push(...(g.coordinates as number[][][]));
+  }
+  return lines;
 }
 
 function readRegions(

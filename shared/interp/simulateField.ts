@@ -36,6 +36,8 @@ export interface SimulationOptions {
   crossValidation?: boolean;
   /** Use the points' errorSd as measurement errors (realizations are of the true field). */
   measurementError?: boolean;
+  /** Fault traces as lines of [lon, lat] degrees: barriers between the data and the targets they condition. */
+  faults?: number[][][] | null;
   /** Unconditional sampler; default: exact for points (up to 3000 sites), lattice for grids. */
   sampler?: 'auto' | 'cholesky' | 'lattice';
   units?: string;
@@ -157,6 +159,7 @@ function prepare(
       maxCells: opts.maxCells,
       units: ns === null ? opts.units : 'normal score',
       measurementError: opts.measurementError,
+      faults: opts.faults ?? null,
     },
     needGrid,
   );
@@ -200,6 +203,7 @@ function runAll(
       sampler,
       latticeKm,
       errorVariance: plan.errorVariance,
+      faults: plan.faults,
     });
   } catch (e) {
     if (e instanceof RangeError)

@@ -1,4 +1,5 @@
 import { createStream, type RandomStream } from '../random/prng.ts';
+import { FaultBarrier } from './barriers.ts';
 import { Fft, fft2d, nextFftSize } from './fft.ts';
 import { KrigingPredictor } from './kriging.ts';
 import { choleskyInPlace } from './linalg.ts';
@@ -54,6 +55,12 @@ export interface SimulationSetup {
    * added as independent noise to the unconditional values at the data, so realizations are of the true field.
    */
   errorVariance?: Float64Array | null;
+  /**
+   * Fault pieces in local km (untransformed), flat [x1, y1, x2, y2, …]: a datum does not condition a target when the
+   * straight path between them crosses a piece (barriers.ts, the same test and neighbourhoods as kriging's); the
+   * unconditional field itself stays continuous, so across a fault a target keeps only the variogram's spread.
+   */
+  faults?: Float64Array | null;
 }
 
 export interface ConditioningWeights {
@@ -314,6 +321,17 @@ class LatticeSampler implements Sampler {
   }
 }
 
+/** The fault barrier in the anisotropy-transformed space of the data (dx, dy); null without faults. */
+function barrierIn(faults: Float64Array | null, m: [number, number, number, number], dx: Float64Array, dy: Float64Array): FaultBarrier | null {
+  if (faults === null || faults.length === 0) return null;
+  const tf = new Float64Array(faults.length);
+  for (let i = 0; i < faults.length; i += 2) {
+    tf[i] = m[0] * faults[i] + m[1] * faults[i + 1];
+    tf[i + 1] = m[2] * faults[i] + m[3] * faults[i + 1];
+  }
+  return new FaultBarrier(tf, dx, dy);
+}
+
 /** Ordinary-kriging weights of every target from the data (shared by all realizations). */
 export function conditioningWeights(p: KrigingPredictor, m: [number, number, number, number], tx: Float64Array, ty: Float64Array): ConditioningWeights {
   const T = tx.length;
@@ -399,7 +417,12 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
     dy[i] = m[2] * s.x[i] + m[3] * s.y[i];
   }
   const ev = s.errorVariance ?? null;
-  const predictor = new KrigingPredictor(dx, dy, s.z, s.model, { neighbors: s.neighbors ?? 16, maxGlobal: s.maxGlobal, errorVariance: ev });
+  const predictor = new KrigingPredictor(dx, dy, s.z, s.model, {
+    neighbors: s.neighbors ?? 16,
+    maxGlobal: s.maxGlobal,
+    errorVariance: ev,
+    visibility: barrierIn(s.faults ?? null, m, dx, dy),
+  });
   const weights = conditioningWeights(predictor, m, s.tx, s.ty);
   const warnings = [...sampler.warnings];
   if (predictor.counters.regularized > 0)

@@ -167,6 +167,8 @@ export const monteCarloSummarySchema = z.strictObject({
       sampler: z.enum(['cholesky', 'lattice']),
       neighbors: z.union([z.number(), z.literal('all')]),
       streams: z.string(),
+      /** The run's faults were barriers to the conditioning (absent in runs made before barriers were honoured). */
+      faultBarriers: z.boolean().optional(),
       /** Sum of realization 0 over the cells with data: a re-simulation must give the same. */
       checksum: z.number(),
       /** Mean, median and sd over the realizations of the regional mean heat flow, the kriged map's, and the difference (mW/m²). */

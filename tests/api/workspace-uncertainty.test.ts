@@ -28,6 +28,8 @@ describe("uncertainty layers from the run's realizations", () => {
           heatFlowErrorCorrelation: unknown;
           heatFlowSimulation: {
             checksum: number;
+            faultBarriers: boolean;
+            method: string;
             variogram: { space: string };
             regionalMeanMWm2: number;
             regionalMeanSdMWm2: number;
@@ -41,6 +43,10 @@ describe("uncertainty layers from the run's realizations", () => {
     expect(mc.heatFlowErrorCorrelation).toBeNull();
     expect(mc.heatFlowSimulation.variogram.space).toBe('normal scores');
     expect(Number.isFinite(mc.heatFlowSimulation.checksum)).toBe(true);
+    // The run's faults are barriers to the conditioning as they are to the kriged map (the spread layer below
+    // re-simulates with them and must match the stored checksum).
+    expect(mc.heatFlowSimulation.faultBarriers).toBe(true);
+    expect(mc.heatFlowSimulation.method).toMatch(/across a fault/);
     // The regional mean of 20 coherent fields spreads far less than the cells' kriging sd (a few mW/m²), and its
     // average lies near the kriged map's regional mean.
     expect(mc.heatFlowSimulation.regionalMeanSdMWm2).toBeGreaterThan(0);
