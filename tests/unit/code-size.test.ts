@@ -29,7 +29,6 @@ const OVER_LIMIT: readonly string[] = [
   'server/store/postgres.ts', // 692
   'server/store/sqlite.ts', // 621
   'shared/interp/simulation.ts', // 507
-  'shared/products/thermal-products.ts', // 503
   'shared/resource/monte-carlo.ts', // 714
   'shared/schema/features.ts', // 437
   'shared/structure/fault-report.ts', // 756

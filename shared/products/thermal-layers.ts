@@ -1,0 +1,213 @@
+/**
+ * The layers of the thermal products: each grid with its title, units, legend, ramp, method text and contours —
+ * depth to each isotherm (with its Monte Carlo P10/P50/P90 on the same legend), temperature at each depth, and the
+ * limit layers (facies, base heat flow, solidus depth, melt onset, inconsistency flags). Assembled by
+ * `computeThermalProducts` (thermal-products.ts) from the filled grid buffers.
+ */
+import type { Grid, GridSpec } from '../grid/grid.ts';
+import { contourGrid, niceContourInterval, type ContourCollection } from '../grid/contours.ts';
+import { rampLegend } from '../grid/colorize.ts';
+import type { Legend } from '../grid/legend.ts';
+import { DEPTH, EMBER, type Ramp } from '../grid/ramps.ts';
+import { productGrid, type ThermalGridBuffers } from './thermal-grids.ts';
+import type { uncertaintyResult } from './uncertainty.ts';
+import { faciesLegend } from './facies-grid.ts';
+import { layerStats, type LayerStats } from './stats.ts';
+import {
+  BASE_HEAT_FLOW,
+  INCONSISTENT,
+  MELT_ONSET,
+  SOLIDUS_DEPTH,
+  depthProductName,
+  faciesProductName,
+  percentileProductName,
+  temperatureProductName,
+} from './names.ts';
+import type { MonteCarloReport, ProductOptions } from './thermal-products.ts';
+
+export interface ProductLayer {
+  name: string;
+  title: string;
+  units: string;
+  grid: Grid<Float32Array>;
+  legend: Legend;
+  ramp: Ramp | null;
+  /** Method text for the provenance of this layer. */
+  method: string;
+  contours?: ContourCollection;
+  stats: LayerStats;
+}
+
+/** Ramp legend over the finite range of one or more grids (a flat or empty range gets a nominal span). */
+export function sharedRampLegend(ramp: Ramp, units: string, grids: Float32Array[]): Legend {
+  let min = Infinity,
+    max = -Infinity;
+  for (const g of grids)
+    for (let i = 0; i < g.length; i++) {
+      const v = g[i];
+      if (v === v && v !== Infinity && v !== -Infinity) {
+        if (v < min) min = v;
+        if (v > max) max = v;
+      }
+    }
+  if (!(max >= min)) {
+    min = 0;
+    max = 1;
+  }
+  if (max === min) max = min + 1;
+  return rampLegend(ramp, units, min, max);
+}
+
+const INCONSISTENT_LEGEND: Legend = {
+  type: 'classes',
+  units: 'flag',
+  classes: [
+    { value: 0, label: 'consistent', color: '#e6e9e4' },
+    { value: 1, label: 'heat flow reaches 0 in the model (surface heat flow too low for its heat production)', color: '#b3342b' },
+    { value: 2, label: 'conductivity k(T) undefined (1 + bT ≤ 0)', color: '#6b3fa0' },
+    { value: 4, label: 'surface heat flow ≤ 0', color: '#222222' },
+  ],
+};
+
+const fmt = (v: number) => String(+v.toPrecision(12));
+
+export interface LayerContext {
+  heatFlow: GridSpec;
+  out: ThermalGridBuffers;
+  o: ProductOptions;
+  maxDepthKm: number;
+  /** The method text shared by every layer. */
+  method: string;
+  toLonLat: (x: number, y: number) => [number, number];
+  add: (l: Omit<ProductLayer, 'stats'>) => void;
+}
+
+/** Depth-to-isotherm layers with their contours, and their P10/P50/P90 on the same legend. */
+export async function isothermLayers(
+  c: LayerContext,
+  mc: { pct: ReturnType<typeof uncertaintyResult>; report: MonteCarloReport } | null,
+  step: (message: string) => Promise<void>,
+): Promise<void> {
+  const { o, method, maxDepthKm } = c;
+  for (let k = 0; k < o.isothermsC.length; k++) {
+    const T = o.isothermsC[k];
+    const g = productGrid(c.heatFlow, c.out.isothermDepthKm[k], 'km');
+    const pk = mc?.pct.isotherms[k];
+    const legend = sharedRampLegend(DEPTH, 'km', pk ? [g.values, pk.p10, pk.p50, pk.p90] : [g.values]);
+    const interval = o.contourIntervalKm === undefined ? 1 : o.contourIntervalKm;
+    const contours = interval === null ? undefined : contourGrid(g, { interval, units: 'km', toLonLat: c.toLonLat });
+    c.add({
+      name: depthProductName(T),
+      title: `Depth to the ${fmt(T)} °C isotherm`,
+      units: 'km',
+      grid: g,
+      legend,
+      ramp: DEPTH,
+      method: `depth to the ${fmt(T)} °C isotherm (km below the surface; NoData where not reached above ${maxDepthKm} km), ${method}`,
+      contours,
+    });
+    if (pk && mc) {
+      const r = mc.report;
+      for (const p of ['p10', 'p50', 'p90'] as const) {
+        c.add({
+          name: percentileProductName(T, p),
+          title: `Depth to the ${fmt(T)} °C isotherm, ${p.toUpperCase()}`,
+          units: 'km',
+          grid: productGrid(c.heatFlow, pk[p], 'km'),
+          legend,
+          ramp: DEPTH,
+          method: `${p.toUpperCase()} (Hyndman & Fan type 7) of the depth to the ${fmt(T)} °C isotherm over ${r.realizations} Monte Carlo realizations (seed ${r.seed}; ${r.heatFlow}); not reached counts as deeper than any depth, NoData where the percentile falls there; ${method}`,
+        });
+      }
+    }
+    await step(`contours of ${depthProductName(T)}`);
+  }
+}
+
+/** Temperature-at-depth layers with their contours. */
+export async function temperatureLayers(c: LayerContext, step: (message: string) => Promise<void>): Promise<void> {
+  const { o, method } = c;
+  for (let k = 0; k < o.depthsKm.length; k++) {
+    const d = o.depthsKm[k];
+    const g = productGrid(c.heatFlow, c.out.temperatureC[k], '°C');
+    const legend = sharedRampLegend(EMBER, '°C', [g.values]);
+    const st = layerStats(g.values);
+    const interval =
+      o.contourIntervalC === null ? null : (o.contourIntervalC ?? (st.min !== null && st.max !== null ? niceContourInterval(st.min, st.max) : null));
+    const contours = interval === null ? undefined : contourGrid(g, { interval, units: '°C', toLonLat: c.toLonLat });
+    c.add({
+      name: temperatureProductName(d),
+      title: `Temperature at ${fmt(d)} km`,
+      units: '°C',
+      grid: g,
+      legend,
+      ramp: EMBER,
+      method: `temperature at ${fmt(d)} km below the surface, ${method}`,
+      contours,
+    });
+    await step(`contours of ${temperatureProductName(d)}`);
+  }
+}
+
+/** Facies, base heat flow, solidus depth, melt onset and the inconsistency flags. */
+export function limitLayers(c: LayerContext, warnings: string[]): void {
+  const { o, out, method, maxDepthKm } = c;
+  const grid = (v: Float32Array, units: string) => productGrid(c.heatFlow, v, units);
+  if (o.faciesDepthKm !== null && out.facies !== null && out.faciesApproximate !== null) {
+    let approx = 0;
+    for (let i = 0; i < out.faciesApproximate.length; i++) approx += out.faciesApproximate[i];
+    if (approx > 0)
+      warnings.push(
+        `${approx} cell(s) of the facies grid lie within one boundary width (about ±50 °C, ±1.5 kbar) of another facies: facies boundaries are gradational`,
+      );
+    c.add({
+      name: faciesProductName(o.faciesDepthKm),
+      title: `Metamorphic facies at ${fmt(o.faciesDepthKm)} km (approximate fields)`,
+      units: 'class',
+      grid: grid(out.facies, 'class'),
+      legend: faciesLegend(),
+      ramp: null,
+      method: `facies field (the project's simplified P–T diagram, gradational boundaries) of the temperature at ${fmt(o.faciesDepthKm)} km and the lithostatic pressure there, ${method}`,
+    });
+  }
+  c.add({
+    name: BASE_HEAT_FLOW,
+    title: 'Heat flow at the base of the model',
+    units: 'mW/m²',
+    grid: grid(out.baseHeatFlowMWm2, 'mW/m²'),
+    legend: sharedRampLegend(EMBER, 'mW/m²', [out.baseHeatFlowMWm2]),
+    ramp: EMBER,
+    method: `heat flow at ${maxDepthKm} km: surface heat flow − ∫A dz over the model (negative where the model is inconsistent), ${method}`,
+  });
+  if (out.solidusDepthKm !== null) {
+    c.add({
+      name: SOLIDUS_DEPTH,
+      title: 'Depth where the water-saturated solidus is reached',
+      units: 'km',
+      grid: grid(out.solidusDepthKm, 'km'),
+      legend: sharedRampLegend(DEPTH, 'km', [out.solidusDepthKm]),
+      ramp: DEPTH,
+      method: `shallowest depth where the geotherm reaches the water-saturated solidus of the layer's rock (granite, Huang & Wyllie 1973, in sediment and felsic crust; basalt in mafic crust; peridotite in mantle) at lithostatic pressure: melting there if free water is present; NoData where not reached above ${maxDepthKm} km; ${method}`,
+    });
+  }
+  if (out.meltOnsetKm !== null) {
+    c.add({
+      name: MELT_ONSET,
+      title: 'Melt onset (no temperatures below)',
+      units: 'km',
+      grid: grid(out.meltOnsetKm, 'km'),
+      legend: sharedRampLegend(DEPTH, 'km', [out.meltOnsetKm]),
+      ramp: DEPTH,
+      method: `shallowest depth where the geotherm (the mantle adiabat below the lithosphere base) reaches the fluid-absent or dry solidus of the layer's rock (biotite dehydration melting, Le Breton & Thompson 1988, in sediment and felsic crust; dry basalt in mafic crust; dry peridotite, Hirschmann 2000, in mantle); the conductive column is not valid below it and the deeper grids have NoData there; NoData where not reached above ${maxDepthKm} km; ${method}`,
+    });
+  }
+  c.add({
+    name: INCONSISTENT,
+    title: 'Cells where the model is inconsistent with the heat flow',
+    units: 'flag',
+    grid: grid(out.inconsistent, 'flag'),
+    legend: INCONSISTENT_LEGEND,
+    ramp: null,
+    method: `flag: 0 consistent, 1 heat flow reaches 0 inside the model, 2 k(T) undefined, 4 heat flow ≤ 0 (melt onset is not a contradiction: see the ${MELT_ONSET} grid); ${method}`,
+  });
+}
