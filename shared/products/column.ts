@@ -30,6 +30,7 @@ import {
   sampleFlag,
   summaryToJson,
   type CompiledModel,
+  type ThermalModel,
   type Summary,
 } from '../thermal/index.ts';
 import { VERSION } from '../version.ts';
@@ -72,40 +73,43 @@ const uncertain = (s: Summary): Uncertain => {
 };
 const layerLabel = (model: ThermalModelInput, i: number) => (model.layers[i]?.name !== undefined ? `layers[${i}] (${model.layers[i].name})` : `layers[${i}]`);
 
-/**
- * Computes the column answer. Throws InputError `missing_heat_flow` when neither the query nor the model gives a
- * surface heat flow > 0, and `invalid_model` when k(T) = k0/(1 + bT) becomes undefined within maxDepthKm.
- */
-export function computeColumn(q: ColumnQuery): ColumnAnswer {
-  const nominal = nominalModel(q.model);
-  if (q.surfaceTemperatureC !== undefined) nominal.surfaceTemperatureC = q.surfaceTemperatureC;
+/** The surface heat flow of the query (else the model's), mW/m²; InputError `missing_heat_flow` unless > 0. */
+function surfaceHeatFlowOf(q: ColumnQuery, nominal: ThermalModel): number {
   const q0 = q.heatFlowMWm2 ?? nominal.surfaceHeatFlowMWm2;
   if (q0 === undefined || !(q0 > 0)) {
     const problem = q0 === undefined ? 'missing: give heatFlowMWm2, or put surfaceHeatFlowMWm2 in the model' : `must be > 0 mW/m², got ${q0}`;
     throw new InputError(`no usable surface heat flow: ${problem}`, [{ field: 'heatFlowMWm2', problem }], 'missing_heat_flow');
   }
-  const cm = compileModel(nominal, { maxDepthKm: q.maxDepthKm });
-  const prof = columnProfile(cm, { heatFlowMWm2: q0, stepKm: q.stepKm, maxDepthKm: q.maxDepthKm });
-  const st = prof.state;
-  if (st.status & COLUMN_CONDUCTIVITY_UNDEFINED) {
-    const i = layerAt(cm, st.validToKm);
-    const problem = `1 + b·T ≤ 0 within the modelled range (T = ${r6(st.tTopC[i])} °C at ${r6(st.validToKm)} km): k(T) = k0/(1 + bT) is undefined`;
-    throw new InputError(
-      `${layerLabel(q.model, i)}: ${problem}`,
-      [{ feature: layerLabel(q.model, i), field: 'conductivityTempCoeffPerK', problem }],
-      'invalid_model',
-    );
-  }
-  const lim = prof.limits;
-  let pore;
+  return q0;
+}
+
+type Profile = ReturnType<typeof columnProfile>;
+
+/** InputError `invalid_model` naming the layer where k(T) = k0/(1 + bT) became undefined in the profile. */
+function refuseUndefinedConductivity(q: ColumnQuery, cm: CompiledModel, st: Profile['state']): void {
+  if (!(st.status & COLUMN_CONDUCTIVITY_UNDEFINED)) return;
+  const i = layerAt(cm, st.validToKm);
+  const problem = `1 + b·T ≤ 0 within the modelled range (T = ${r6(st.tTopC[i])} °C at ${r6(st.validToKm)} km): k(T) = k0/(1 + bT) is undefined`;
+  throw new InputError(
+    `${layerLabel(q.model, i)}: ${problem}`,
+    [{ feature: layerLabel(q.model, i), field: 'conductivityTempCoeffPerK', problem }],
+    'invalid_model',
+  );
+}
+
+/** The pore-pressure mode of the query; InputError `invalid_column` naming the field at fault. */
+function poreModeOf(q: ColumnQuery): ReturnType<typeof parsePorePressureMode> {
   try {
-    pore = parsePorePressureMode(q.porePressure, q.fluidDensityKgM3);
+    return parsePorePressureMode(q.porePressure, q.fluidDensityKgM3);
   } catch (e) {
     const field = q.porePressure === undefined ? 'fluidDensityKgM3' : 'porePressure';
     throw new InputError(`${field}: ${(e as Error).message}`, [{ field, problem: (e as Error).message }], 'invalid_column');
   }
-  const poreInfo = describePorePressure(pore);
-  const profile = Array.from(prof.depthKm, (z, j) => {
+}
+
+/** One row of the answer per profile depth: temperature, heat flow, pressures, facies, regime and validity flag. */
+function profileRows(prof: Profile, pore: ReturnType<typeof parsePorePressureMode>, cm: CompiledModel): ColumnAnswer['profile'] {
+  return Array.from(prof.depthKm, (z, j) => {
     const t = prof.temperatureC[j],
       p = prof.pressureMPa[j];
     // Facies only where the column gives a temperature (the readout stops at the melt onset).
@@ -122,46 +126,59 @@ export function computeColumn(q: ColumnQuery): ColumnAnswer {
       facies: f?.facies ?? null,
       faciesApproximate: f?.approximate ?? false,
       regime: Number.isFinite(t) ? (prof.adiabatic[j] ? ('adiabat' as const) : ('conductive' as const)) : null,
-      flag: sampleFlag(lim, z),
+      flag: sampleFlag(prof.limits, z),
     };
   });
+}
+
+/** Without Monte Carlo: the isotherms and depths asked for that lie below the end of the column (null in the answer). */
+function columnEndWarnings(q: ColumnQuery, limits: Profile['limits'], isothermDepthsKm: Record<string, number | null>): string[] {
+  if (q.realizations !== 0 || limits.endReason === null) return [];
+  const warnings: string[] = [];
+  const below = q.isothermsC.filter((t) => isothermDepthsKm[String(t)] === null);
+  if (below.length > 0)
+    warnings.push(`isotherms ${below.join(', ')} °C: not reached above ${r6(limits.validToKm)} km, where the column ends (${limits.endReason}); null`);
+  const deep = q.depthsKm.filter((z) => z > limits.validToKm);
+  if (deep.length > 0)
+    warnings.push(`temperatures at ${deep.join(', ')} km: below ${r6(limits.validToKm)} km, where the column ends (${limits.endReason}); null`);
+  return warnings;
+}
+
+/**
+ * Computes the column answer. Throws InputError `missing_heat_flow` when neither the query nor the model gives a
+ * surface heat flow > 0, and `invalid_model` when k(T) = k0/(1 + bT) becomes undefined within maxDepthKm.
+ */
+export function computeColumn(q: ColumnQuery): ColumnAnswer {
+  const nominal = nominalModel(q.model);
+  if (q.surfaceTemperatureC !== undefined) nominal.surfaceTemperatureC = q.surfaceTemperatureC;
+  const q0 = surfaceHeatFlowOf(q, nominal);
+  const cm = compileModel(nominal, { maxDepthKm: q.maxDepthKm });
+  const prof = columnProfile(cm, { heatFlowMWm2: q0, stepKm: q.stepKm, maxDepthKm: q.maxDepthKm });
+  const st = prof.state;
+  refuseUndefinedConductivity(q, cm, st);
+  const limits = prof.limits;
+  const pore = poreModeOf(q);
+  const poreInfo = describePorePressure(pore);
+  const profile = profileRows(prof, pore, cm);
   const warnings = [...prof.warnings];
   if (poreInfo.warning !== null) warnings.push(poreInfo.warning);
-  const isothermDepthsKm = Object.fromEntries(q.isothermsC.map((t) => [String(t), num(limitedIsothermDepth(cm, st, lim, t, q.maxDepthKm))]));
-  if (q.realizations === 0 && lim.endReason !== null) {
-    const below = q.isothermsC.filter((t) => isothermDepthsKm[String(t)] === null);
-    if (below.length > 0)
-      warnings.push(`isotherms ${below.join(', ')} °C: not reached above ${r6(lim.validToKm)} km, where the column ends (${lim.endReason}); null`);
-    const deep = q.depthsKm.filter((z) => z > lim.validToKm);
-    if (deep.length > 0) warnings.push(`temperatures at ${deep.join(', ')} km: below ${r6(lim.validToKm)} km, where the column ends (${lim.endReason}); null`);
-  }
+  const isothermDepthsKm = Object.fromEntries(q.isothermsC.map((t) => [String(t), num(limitedIsothermDepth(cm, st, limits, t, q.maxDepthKm))]));
+  warnings.push(...columnEndWarnings(q, limits, isothermDepthsKm));
   const out: ColumnAnswer = {
     surfaceHeatFlowMWm2: r6(q0),
     heatFlowSdMWm2: q.heatFlowSdMWm2 === undefined ? null : num(q.heatFlowSdMWm2),
     surfaceTemperatureC: cm.surfaceTemperatureC,
     isothermDepthsKm,
-    temperatureAtDepthsC: Object.fromEntries(q.depthsKm.map((z) => [String(z), num(limitedTemperature(cm, st, lim, z))])),
+    temperatureAtDepthsC: Object.fromEntries(q.depthsKm.map((z) => [String(z), num(limitedTemperature(cm, st, limits, z))])),
     profile,
     basalHeatFlowMWm2: num(prof.basalHeatFlowMWm2),
     reducedHeatFlowMWm2: num(prof.reducedHeatFlowMWm2),
     reducedHeatFlowMethod: reducedMethod(cm),
     reducedHeatFlowLayer: cm.reducedHeatFlowLayer >= 0 ? cm.names[cm.reducedHeatFlowLayer] : null,
-    solidusCrossingKm: { wetSolidus: num(lim.wetSolidusKm), meltOnset: num(lim.meltOnsetKm) },
-    ...(limitsToJson(cm, lim) as Pick<
-      ColumnAnswer,
-      | 'meltOnsetKm'
-      | 'meltOnset'
-      | 'wetSolidusKm'
-      | 'wetSolidus'
-      | 'lithosphereBaseKm'
-      | 'mantlePotentialTemperatureC'
-      | 'adiabatAboveDrySolidusToKm'
-      | 'decompressionMelting'
-      | 'validToKm'
-      | 'invalidBelow'
-    >),
+    solidusCrossingKm: { wetSolidus: num(limits.wetSolidusKm), meltOnset: num(limits.meltOnsetKm) },
+    ...(limitsToJson(cm, limits) as LimitFields),
     porePressure: { mode: pore.kind === 'hydrostatic' ? 'hydrostatic' : `lambda:${pore.lambda}`, method: poreInfo.method },
-    inconsistent: (st.status & COLUMN_FLOW_EXHAUSTED) !== 0 || lim.endReason !== null,
+    inconsistent: (st.status & COLUMN_FLOW_EXHAUSTED) !== 0 || limits.endReason !== null,
     monteCarlo: null,
     warnings,
     caution: CAUTION,
@@ -176,6 +193,21 @@ export function computeColumn(q: ColumnQuery): ColumnAnswer {
     );
   return out;
 }
+
+/** The answer's fields that describe where the conductive column ends (from `limitsToJson`). */
+type LimitFields = Pick<
+  ColumnAnswer,
+  | 'meltOnsetKm'
+  | 'meltOnset'
+  | 'wetSolidusKm'
+  | 'wetSolidus'
+  | 'lithosphereBaseKm'
+  | 'mantlePotentialTemperatureC'
+  | 'adiabatAboveDrySolidusToKm'
+  | 'decompressionMelting'
+  | 'validToKm'
+  | 'invalidBelow'
+>;
 
 /** Replaces the uncertain numbers of `out` by their summaries over q.realizations realizations. */
 function addMonteCarlo(out: ColumnAnswer, q: ColumnQuery, q0: number, profileDepthsKm: number[]): void {

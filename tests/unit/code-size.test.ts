@@ -59,7 +59,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/interp/fft.ts run', // 159
   'shared/interp/simulation.ts createConditionalSimulator', // 100
   'shared/io/csv.ts parseCsv', // 83
-  'shared/products/column.ts computeColumn', // 100
   'shared/resource/assess.ts assessHeatInPlace', // 217
   'shared/resource/monte-carlo.ts prepareResource', // 145
   'shared/resource/monte-carlo.ts resourceRange', // 194
