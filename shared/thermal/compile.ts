@@ -80,6 +80,70 @@ export function layerI2(a: number, d: number, dz: number): number {
   return d > 0 ? a * d * (dz + d * Math.expm1(-dz / d)) : 0.5 * a * dz * dz;
 }
 
+type ModelLayer = ThermalModel['layers'][number];
+
+/**
+ * A layer's k0 (W/m/K) and b (1/K) of k(T) = k0/(1 + bT), from the conductivity given at its reference temperature
+ * (k0 = k_ref·(1 + b·T_ref)), and its rock kind as an index into ROCK_KINDS. RangeError naming the layer otherwise.
+ */
+function layerConductivity(L: ModelLayer, label: string): { k0: number; b: number; rockIndex: number } {
+  const kGiven = L.conductivityWmK;
+  if (!(kGiven > 0)) throw new RangeError(`${label}: conductivityWmK must be > 0, got ${kGiven}`);
+  const bb = L.conductivityTempCoeffPerK ?? 0;
+  if (!Number.isFinite(bb)) throw new RangeError(`${label}: conductivityTempCoeffPerK must be finite, got ${bb}`);
+  const tRef = L.conductivityReferenceTempC ?? 0;
+  if (!Number.isFinite(tRef)) throw new RangeError(`${label}: conductivityReferenceTempC must be finite, got ${tRef}`);
+  const k = kGiven * (1 + bb * tRef);
+  if (!(k > 0)) throw new RangeError(`${label}: 1 + b·T_ref ≤ 0 at conductivityReferenceTempC ${tRef} °C`);
+  const rk: RockKind = L.rock ?? DEFAULT_ROCK;
+  const rockIndex = ROCK_KINDS.indexOf(rk);
+  if (rockIndex < 0) throw new RangeError(`${label}: unknown rock ${String(rk)}`);
+  return { k0: k, b: bb, rockIndex };
+}
+
+/**
+ * A layer's density (kg/m³; the default with a warning when not given), heat production at its top (µW/m³, given or
+ * from U, Th, K by `heatProductionFromRadioelements`) and decay depth (km; 0 = constant). RangeError naming the layer.
+ */
+function layerHeatSources(L: ModelLayer, label: string, warnings: string[]): { densityKgM3: number; heatProductionUWm3: number; decayKm: number } {
+  let rho = L.densityKgM3;
+  if (rho === undefined) {
+    rho = DEFAULT_DENSITY_KG_M3;
+    warnings.push(`${label}: no densityKgM3, ${DEFAULT_DENSITY_KG_M3} kg/m³ assumed for pressure`);
+  }
+  if (!(rho > 0)) throw new RangeError(`${label}: densityKgM3 must be > 0, got ${rho}`);
+  let a = L.heatProductionUWm3;
+  if (a === undefined) {
+    if (L.uraniumPpm === undefined || L.thoriumPpm === undefined || L.potassiumPct === undefined) {
+      throw new RangeError(`${label}: heatProductionUWm3 or all of uraniumPpm, thoriumPpm, potassiumPct are needed`);
+    }
+    a = heatProductionFromRadioelements(rho, L.uraniumPpm, L.thoriumPpm, L.potassiumPct);
+  }
+  if (!(a >= 0)) throw new RangeError(`${label}: heat production must be ≥ 0 µW/m³, got ${a}`);
+  const d = L.heatProductionDecayKm ?? 0;
+  if (L.heatProductionDecayKm !== undefined && !(d > 0)) throw new RangeError(`${label}: heatProductionDecayKm must be > 0, got ${d}`);
+  return { densityKgM3: rho, heatProductionUWm3: a, decayKm: d };
+}
+
+/** The per-layer arrays of a compiled model (length n), zero-filled. */
+function layerArrays(n: number) {
+  const f = () => new Float64Array(n);
+  return {
+    topKm: f(),
+    bottomKm: f(),
+    thicknessKm: f(),
+    k0: f(),
+    b: f(),
+    aTop: f(),
+    decayKm: f(),
+    densityKgM3: f(),
+    i1: f(),
+    i2: f(),
+    heatAboveMWm2: f(),
+    pressureTopMPa: f(),
+  };
+}
+
 /**
  * Compiles a deterministic model. Throws RangeError on values no model can have (checked NaN-proof); user input
  * is validated before this by `parseThermalModel` (shared/schema/model.ts), which names the layer and field.
@@ -98,19 +162,8 @@ export function compileModel(model: ThermalModel, options: CompileOptions = {}):
   const stackBottomKm = Math.max(modelBottomKm, maxDepthKm);
   const warnings: string[] = [];
   const names: string[] = [];
-  const f = () => new Float64Array(n);
-  const topKm = f(),
-    bottomKm = f(),
-    thicknessKm = f(),
-    k0 = f(),
-    b = f(),
-    aTop = f(),
-    decayKm = f(),
-    densityKgM3 = f();
-  const i1 = f(),
-    i2 = f(),
-    heatAboveMWm2 = f(),
-    pressureTopMPa = f();
+  const arr = layerArrays(n);
+  const { topKm, bottomKm, thicknessKm, k0, b, aTop, decayKm, densityKgM3, i1, i2, heatAboveMWm2, pressureTopMPa } = arr;
   const rock = new Uint8Array(n);
   let reducedLayer = -1;
   let top = 0,
@@ -122,46 +175,20 @@ export function compileModel(model: ThermalModel, options: CompileOptions = {}):
     names.push(L.name ?? `layer ${i + 1}`);
     const bottom = i === n - 1 ? stackBottomKm : L.bottomKm;
     if (!(bottom > top)) throw new RangeError(`${label}: bottomKm must exceed ${top} km, got ${L.bottomKm}`);
-    const kGiven = L.conductivityWmK;
-    if (!(kGiven > 0)) throw new RangeError(`${label}: conductivityWmK must be > 0, got ${kGiven}`);
-    const bb = L.conductivityTempCoeffPerK ?? 0;
-    if (!Number.isFinite(bb)) throw new RangeError(`${label}: conductivityTempCoeffPerK must be finite, got ${bb}`);
-    // A conductivity measured at T_ref: k(T_ref) = k0/(1 + b·T_ref), so k0 = k_ref·(1 + b·T_ref).
-    const tRef = L.conductivityReferenceTempC ?? 0;
-    if (!Number.isFinite(tRef)) throw new RangeError(`${label}: conductivityReferenceTempC must be finite, got ${tRef}`);
-    const k = kGiven * (1 + bb * tRef);
-    if (!(k > 0)) throw new RangeError(`${label}: 1 + b·T_ref ≤ 0 at conductivityReferenceTempC ${tRef} °C`);
-    const rk: RockKind = L.rock ?? DEFAULT_ROCK;
-    const rIdx = ROCK_KINDS.indexOf(rk);
-    if (rIdx < 0) throw new RangeError(`${label}: unknown rock ${String(rk)}`);
-    rock[i] = rIdx;
+    const c = layerConductivity(L, label);
+    rock[i] = c.rockIndex;
     if (L.heatProducingUpperCrust === true) {
       if (reducedLayer >= 0) throw new RangeError(`${label}: only one layer may be marked heatProducingUpperCrust`);
       reducedLayer = i;
     }
-    if (bb < 0) warnings.push(`${label}: negative conductivityTempCoeffPerK: k(T) = k0/(1 + bT) grows without bound as T nears ${(-1 / bb).toFixed(1)} °C`);
-    let rho = L.densityKgM3;
-    if (rho === undefined) {
-      rho = DEFAULT_DENSITY_KG_M3;
-      warnings.push(`${label}: no densityKgM3, ${DEFAULT_DENSITY_KG_M3} kg/m³ assumed for pressure`);
-    }
-    if (!(rho > 0)) throw new RangeError(`${label}: densityKgM3 must be > 0, got ${rho}`);
-    let a = L.heatProductionUWm3;
-    if (a === undefined) {
-      if (L.uraniumPpm === undefined || L.thoriumPpm === undefined || L.potassiumPct === undefined) {
-        throw new RangeError(`${label}: heatProductionUWm3 or all of uraniumPpm, thoriumPpm, potassiumPct are needed`);
-      }
-      a = heatProductionFromRadioelements(rho, L.uraniumPpm, L.thoriumPpm, L.potassiumPct);
-    }
-    if (!(a >= 0)) throw new RangeError(`${label}: heat production must be ≥ 0 µW/m³, got ${a}`);
-    const d = L.heatProductionDecayKm ?? 0;
-    if (L.heatProductionDecayKm !== undefined && !(d > 0)) throw new RangeError(`${label}: heatProductionDecayKm must be > 0, got ${d}`);
+    if (c.b < 0) warnings.push(`${label}: negative conductivityTempCoeffPerK: k(T) = k0/(1 + bT) grows without bound as T nears ${(-1 / c.b).toFixed(1)} °C`);
+    const { densityKgM3: rho, heatProductionUWm3: a, decayKm: d } = layerHeatSources(L, label, warnings);
     const h = bottom - top;
     topKm[i] = top;
     bottomKm[i] = bottom;
     thicknessKm[i] = h;
-    k0[i] = k;
-    b[i] = bb;
+    k0[i] = c.k0;
+    b[i] = c.b;
     aTop[i] = a;
     decayKm[i] = d;
     densityKgM3[i] = rho;
@@ -189,18 +216,7 @@ export function compileModel(model: ThermalModel, options: CompileOptions = {}):
     modelBottomKm,
     maxDepthKm,
     stackBottomKm,
-    topKm,
-    bottomKm,
-    thicknessKm,
-    k0,
-    b,
-    aTop,
-    decayKm,
-    densityKgM3,
-    i1,
-    i2,
-    heatAboveMWm2,
-    pressureTopMPa,
+    ...arr,
     gravityMS2: g,
     totalHeatProductionMWm2: heat,
     reducedHeatFlowOffsetMWm2: reducedOffset,
