@@ -2,6 +2,7 @@
  * What `subtherm interpolate` writes and prints: the GeoTIFF pair with its provenance, and the grid summary as one
  * JSON object or as text lines ending with the caution.
  */
+import { cellSizeText } from '../../shared/geodesy/ground-cell.ts';
 import { VERSION, TOOL_NAME } from '../../shared/version.ts';
 import { CAUTION } from '../../shared/caution.ts';
 import { gridSummary, type InterpolationOptions, type InterpolationResult } from '../../shared/interp/interpolate.ts';
@@ -55,7 +56,7 @@ export async function writeSurfaceFiles(
 /** The grid summary, the sd range, the variogram and cross-validation of a gridded surface. */
 export function surfaceBody(result: InterpolationResult, units: string | undefined, residuals: boolean) {
   return {
-    grid: { ...gridSummary(result.grid, result.cellKm), units },
+    grid: { ...gridSummary(result.grid, result.cellKm), groundCellKmRange: result.groundCellKmRange, units },
     sd: result.sd !== undefined ? (({ min, max, mean }) => ({ min, max, mean }))(gridSummary(result.sd, result.cellKm)) : null,
     variogram: result.variogram,
     crossValidation: cvOut(result.crossValidation, residuals),
@@ -66,7 +67,9 @@ export function surfaceBody(result: InterpolationResult, units: string | undefin
 export function printSurface(field: string, body: ReturnType<typeof surfaceBody> & { files: string[]; warnings: string[] }): void {
   const g = body.grid;
   const out = (line: string) => process.stdout.write(line + '\n');
-  out(`grid ${g.nx} × ${g.ny} (${g.cellKm.toFixed(3)} km cells, ${g.crs}); ${field} min ${g.min} max ${g.max} mean ${g.mean}; ${g.noData} no-data cells`);
+  out(
+    `grid ${g.nx} × ${g.ny} (${cellSizeText(g.cellKm, g.groundCellKmRange)} cells on the ground, ${g.crs}); ${field} min ${g.min} max ${g.max} mean ${g.mean}; ${g.noData} no-data cells`,
+  );
   const v = body.variogram;
   if (v) out(`variogram ${v.model}: nugget ${v.nugget}, partial sill ${v.partialSill}, range ${v.rangeKm} km`);
   const cv = body.crossValidation;

@@ -111,6 +111,8 @@ export interface TrendReport {
 export interface PreparedInterpolation {
   plan: GridPlan;
   cellKm: number;
+  /** Smallest and largest ground side of a cell over the grid, km (shared/geodesy/ground-cell.ts). */
+  groundCellKmRange: [number, number];
   ids: string[];
   variogram: VariogramReport | null;
   crossValidation: CrossValidation | null;

@@ -1,6 +1,7 @@
 import { InputError } from '../errors.ts';
 import type { Grid } from '../grid/grid.ts';
 import { gridStats } from '../grid/grid.ts';
+import { groundCellWarning } from '../geodesy/ground-cell.ts';
 import { buildOutputGrid, converter, localProjectionFor, lonLatToLocalKm, WGS84_DEF, type LocalProjection } from './projection.ts';
 import { createGridRuntime, computeRows, type GridPlan, type RowStats } from './gridKernel.ts';
 import { crossValidateIdw, type CrossValidation } from './crossValidation.ts';
@@ -39,8 +40,8 @@ function planGrid(points: PointData, opts: InterpolationOptions, needGrid: boole
     const c = gridCrsDef === WGS84_DEF ? null : converter(WGS84_DEF, gridCrsDef);
     region = opts.region.map((ring) => ring.map((p) => (c === null ? [p[0], p[1]] : c.forward([p[0], p[1]]))));
   }
-  const { cellKm, ...gridSpec } = spec;
-  return { cellKm, gridSpec, gridCrsDef, region };
+  const { cellKm, groundCellKmRange, ...gridSpec } = spec;
+  return { cellKm, groundCellKmRange, gridSpec, gridCrsDef, region };
 }
 
 /** Projects the points into the local km projection and merges coincident ones. */
@@ -67,7 +68,9 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
   const { ids, x, y, z } = merged;
   const search = searchSettings(opts, ids.length);
   const faults = faultsToLocalKm(opts.faults, projection);
-  const { cellKm, gridSpec, gridCrsDef, region } = planGrid(points, opts, needGrid);
+  const { cellKm, groundCellKmRange, gridSpec, gridCrsDef, region } = planGrid(points, opts, needGrid);
+  const cellWarning = needGrid ? groundCellWarning(cellKm, groundCellKmRange, gridSpec.crs) : null;
+  if (cellWarning !== null) warnings.push(cellWarning);
   const timingsMs: Record<string, number> = { prepare: now() - t0 };
   const basePlan: GridPlan = {
     key: `plan-${++planCounter}-${ids.length}-${Date.now()}`,
@@ -100,7 +103,7 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
       ? crossValidateIdw(ids, x, y, z, createGridRuntime({ ...basePlan, grid: { ...gridSpec, width: 1, height: 1 }, region: null, maxDistanceKm: null }).idw!)
       : null;
     timingsMs.crossValidation = now() - t1;
-    return { plan: basePlan, cellKm, ids, variogram: null, crossValidation: cv, warnings, timingsMs, units };
+    return { plan: basePlan, cellKm, groundCellKmRange, ids, variogram: null, crossValidation: cv, warnings, timingsMs, units };
   }
 
   const choice = prepareKrigingPlan({ basePlan, ids, errorVariance: merged.errorVariance, opts, wantCv });
@@ -110,13 +113,15 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
   const cv: CrossValidation | null = choice.cv;
   if (cv !== null && cv.unpredicted > 0) warnings.push(`cross-validation: ${cv.unpredicted} point(s) had no usable neighbour and were left out`);
   const report: VariogramReport = choice.report;
-  return { plan: choice.plan, cellKm, ids, variogram: report, crossValidation: cv, warnings, timingsMs, units };
+  return { plan: choice.plan, cellKm, groundCellKmRange, ids, variogram: report, crossValidation: cv, warnings, timingsMs, units };
 }
 
 export interface InterpolationResult {
   grid: Grid<Float32Array>;
   sd?: Grid<Float32Array>;
   cellKm: number;
+  /** Smallest and largest ground side of a cell over the grid, km. */
+  groundCellKmRange: [number, number];
   variogram: VariogramReport | null;
   crossValidation: CrossValidation | null;
   warnings: string[];
@@ -140,6 +145,7 @@ export function finishGrid(prep: PreparedInterpolation, values: Float32Array, sd
   const res: InterpolationResult = {
     grid,
     cellKm: prep.cellKm,
+    groundCellKmRange: prep.groundCellKmRange,
     variogram: prep.variogram,
     crossValidation: prep.crossValidation,
     warnings: [...prep.warnings, ...rowStatsWarnings(stats)],

@@ -2,6 +2,7 @@ import proj4 from 'proj4';
 import { InputError } from '../errors.ts';
 import type { GridSpec } from '../grid/grid.ts';
 import { groundStepKm } from '../geodesy/cell-area.ts';
+import { groundCellKmRange } from '../geodesy/ground-cell.ts';
 import { correctedDatumShift, refuseGridShift } from './crs-datum.ts';
 
 /**
@@ -172,8 +173,8 @@ function defaultBbox(dataLon: ArrayLike<number>, dataLat: ArrayLike<number>, pad
 }
 
 /**
- * Where a grid lies in its CRS: west/north edges, spans and ground km per CRS unit at the centre, and (projected
- * CRSs) a function giving the ground cell-side range over the corners and centre for a cell of dx × dy units.
+ * Where a grid lies in its CRS: west/north edges, spans, ground km per CRS unit at the centre, and the map from CRS
+ * coordinates to lon/lat (the identity for a lon/lat grid) for the ground cell size over the grid.
  */
 interface GridFrame {
   west: number;
@@ -182,13 +183,13 @@ interface GridFrame {
   spanY: number;
   kmPerUnitX: number;
   kmPerUnitY: number;
-  groundRange: ((dxUnits: number, dyUnits: number) => [number, number]) | null;
+  toLonLat: (x: number, y: number) => [number, number];
 }
 
 /** A lon/lat grid's frame: km per degree at the centre latitude. */
 function lonLatFrame([W, S, E, N]: [number, number, number, number]): GridFrame {
   const k = kmPerDegree((S + N) / 2);
-  return { west: W, north: N, spanX: E - W, spanY: N - S, kmPerUnitX: k.lon, kmPerUnitY: k.lat, groundRange: null };
+  return { west: W, north: N, spanX: E - W, spanY: N - S, kmPerUnitX: k.lon, kmPerUnitY: k.lat, toLonLat: (x, y) => [x, y] };
 }
 
 /** Envelope in a projected CRS of the lon/lat bbox's boundary (32 steps per side). */
@@ -231,23 +232,7 @@ function projectedFrame(def: string, bbox: [number, number, number, number], crs
   const inv = (x: number, y: number): [number, number] => c.inverse<[number, number]>([x, y]);
   const h = 0.5 * (spanX + spanY) * 1e-4;
   const g = groundStepKm(inv, (x0 + x1) / 2, (y0 + y1) / 2, h, h);
-  const groundRange = (dxU: number, dyU: number): [number, number] => {
-    let lo = Infinity,
-      hi = -Infinity;
-    for (const [x, y] of [
-      [x0, y0],
-      [x0, y1],
-      [x1, y0],
-      [x1, y1],
-      [(x0 + x1) / 2, (y0 + y1) / 2],
-    ]) {
-      const s = groundStepKm(inv, x, y, dxU, dyU);
-      lo = Math.min(lo, s.xKm, s.yKm);
-      hi = Math.max(hi, s.xKm, s.yKm);
-    }
-    return [lo, hi];
-  };
-  return { west: x0, north: y1, spanX, spanY, kmPerUnitX: g.xKm / h, kmPerUnitY: g.yKm / h, groundRange };
+  return { west: x0, north: y1, spanX, spanY, kmPerUnitX: g.xKm / h, kmPerUnitY: g.yKm / h, toLonLat: inv };
 }
 
 /** Width, height, cell sizes (CRS units) and the cell size in km, from `size` or `cellKm` (or the default count). */
@@ -273,22 +258,12 @@ function gridCells(f: GridFrame, opts: OutputGridOptions): { width: number; heig
   return { width: Math.max(1, Math.ceil(f.spanX / dx - 1e-9)), height: Math.max(1, Math.ceil(f.spanY / dy - 1e-9)), dx, dy, cellKm };
 }
 
-/** A lon/lat grid's ground cell-side range: km per degree at its north and south edges and centre latitude. */
-function lonLatGroundRange([, S, , N]: [number, number, number, number], dx: number, dy: number): [number, number] {
-  const kN = kmPerDegree(N),
-    kS = kmPerDegree(S),
-    kM = kmPerDegree((S + N) / 2);
-  const xs = [kN.lon * dx, kS.lon * dx, kM.lon * dx],
-    ys = [kN.lat * dy, kS.lat * dy, kM.lat * dy];
-  return [Math.min(...xs, ...ys), Math.max(...xs, ...ys)];
-}
-
 /**
  * The output grid (DESIGN.md §3): lon/lat by default with bbox W,S,E,N in degrees and `cellKm` converted to
  * degrees at the centre latitude (dx = cellKm / km-per-degree-longitude, dy = cellKm / km-per-degree-latitude);
  * with a projected CRS the bbox is the envelope of the lon/lat bbox's boundary in that CRS and `cellKm` is converted
  * to the CRS unit with the projection's ground scale at the grid's centre (so cells are cellKm across on the ground
- * there); `groundCellKmRange` is the smallest and largest ground cell side over the grid's corners and centre. The west and north edges are kept; the grid extends east and south to whole cells.
+ * there); `groundCellKmRange` is the smallest and largest ground cell side over the grid (shared/geodesy/ground-cell.ts). The west and north edges are kept; the grid extends east and south to whole cells.
  */
 export function buildOutputGrid(
   dataLon: ArrayLike<number>,
@@ -308,9 +283,9 @@ export function buildOutputGrid(
   }
   const frame = def === WGS84_DEF ? lonLatFrame(bbox) : projectedFrame(def, bbox, crs);
   const { width, height, dx, dy, cellKm } = gridCells(frame, opts);
-  // Ground cell size: exact at the centre by construction; its range over the grid's corners says where it varies.
-  const groundCellKmRange = frame.groundRange !== null ? frame.groundRange(dx, dy) : lonLatGroundRange(bbox, dx, dy);
-  return { width, height, west: frame.west, north: frame.north, dx, dy, crs, cellKm, groundCellKmRange };
+  // Ground cell size: exact at the centre by construction; its range over the grid says where it varies.
+  const spec = { width, height, west: frame.west, north: frame.north, dx, dy };
+  return { ...spec, crs, cellKm, groundCellKmRange: groundCellKmRange(spec, frame.toLonLat) };
 }
 
 /** Cells between exactly projected nodes of a row in `rowCentresLocalKm`. */

@@ -5,6 +5,7 @@ import geodesic from 'geographiclib-geodesic';
 import type { Grid } from '../../shared/grid/grid.ts';
 import { projectedCellAreasM2 } from '../../shared/geodesy/index.ts';
 import { buildOutputGrid } from '../../shared/interp/projection.ts';
+import { cellSizeText, groundCellWarning } from '../../shared/geodesy/ground-cell.ts';
 import { assessHeatInPlace, gridCentresLonLat, parseHeatInPlaceOptions } from '../../shared/resource/index.ts';
 import { parseThermalModel } from '../../shared/schema/model.ts';
 
@@ -71,6 +72,65 @@ describe('ground cell areas on projected grids', () => {
     expect(g.groundCellKmRange[0]).toBeLessThan(2);
     expect(g.groundCellKmRange[1]).toBeGreaterThan(2);
   });
+});
+
+/**
+ * Reference: the smallest and largest geographiclib geodesic length of every cell's two sides (between the midpoints
+ * of opposite edges, inverse-projected by proj4) over the whole grid.
+ */
+function referenceCellSideRangeKm(g: { width: number; height: number; west: number; north: number; dx: number; dy: number }, def: string): [number, number] {
+  const c = def === WGS84 ? null : proj4(def, WGS84);
+  const ll = (x: number, y: number) => (c === null ? [x, y] : c.forward([x, y]));
+  let lo = Infinity,
+    hi = -Infinity;
+  for (let r = 0; r < g.height; r++)
+    for (let k = 0; k < g.width; k++) {
+      const x = g.west + (k + 0.5) * g.dx,
+        y = g.north - (r + 0.5) * g.dy;
+      const [w0, w1] = ll(x - g.dx / 2, y),
+        [e0, e1] = ll(x + g.dx / 2, y),
+        [s0, s1] = ll(x, y - g.dy / 2),
+        [n0, n1] = ll(x, y + g.dy / 2);
+      const sx = (G.Inverse(w1, w0, e1, e0).s12 as number) / 1000,
+        sy = (G.Inverse(s1, s0, n1, n0).s12 as number) / 1000;
+      lo = Math.min(lo, sx, sy);
+      hi = Math.max(hi, sx, sy);
+    }
+  return [lo, hi];
+}
+
+describe('the ground cell size over a grid, printed with its range where it varies', () => {
+  const cases = [
+    // Web Mercator over 30–46° S: the scale 1/cos φ spreads the cells by about 30 %.
+    { name: 'Web Mercator, 30–46° S', bbox: [-130, -46, -126, -30], crs: 'EPSG:3857', def: MERC, cellKm: 10, varies: true },
+    // UTM zone 9 south within 1.4° of its central meridian: k within 0.9996–1.0000, under 1 % (Snyder 1987 §8).
+    { name: 'UTM 9S near its central meridian', bbox: [-128.8, -38.2, -127.6, -37.4], crs: 'EPSG:32709', def: UTM9S, cellKm: 2, varies: false },
+    // Longitude/latitude over 20–40° S: a cell's east–west side is N·cos φ·Δλ, about 25 % narrower at 40° than at 20°.
+    { name: 'lon/lat, 20–40° S', bbox: [-130, -40, -125, -20], crs: 'EPSG:4326', def: WGS84, cellKm: 10, varies: true },
+    // Longitude/latitude over 0.4° near the equator: under 1 %.
+    { name: 'lon/lat, 0.4° at the equator', bbox: [10, -0.2, 10.4, 0.2], crs: 'EPSG:4326', def: WGS84, cellKm: 2, varies: false },
+    // Longitude/latitude over 1.6° at 38° S (tan φ·Δφ ≈ 2.2 %): printed with its range, not warned about (< 10 %).
+    { name: 'lon/lat, 1.6° at 38° S', bbox: [-129, -38.8, -127, -37.2], crs: 'EPSG:4326', def: WGS84, cellKm: 1, varies: true, quiet: true },
+  ] as const;
+  for (const t of cases) {
+    const warns = t.varies && !('quiet' in t);
+    it(`${t.name}: the range matches geographiclib to 1e-4; range printed: ${t.varies}, warning: ${warns}`, () => {
+      const g = buildOutputGrid([], [], { bbox: [...t.bbox], cellKm: t.cellKm, crs: t.crs, crsDef: t.def === WGS84 ? undefined : t.def });
+      const [lo, hi] = referenceCellSideRangeKm(g, t.def);
+      expect(Math.abs(g.groundCellKmRange[0] - lo) / lo).toBeLessThan(1e-4);
+      expect(Math.abs(g.groundCellKmRange[1] - hi) / hi).toBeLessThan(1e-4);
+      expect((hi - lo) / t.cellKm > 0.01).toBe(t.varies);
+      const w = groundCellWarning(g.cellKm, g.groundCellKmRange, t.crs);
+      const text = cellSizeText(g.cellKm, g.groundCellKmRange);
+      if (warns) expect(w).toContain(`${lo.toFixed(3)}–${hi.toFixed(3)} km`);
+      else expect(w).toBeNull();
+      if (t.varies) {
+        expect(text).toBe(`${t.cellKm.toFixed(3)} km at the centre, ${lo.toFixed(3)}–${hi.toFixed(3)} km over the grid`);
+      } else {
+        expect(text).toBe(`${t.cellKm.toFixed(3)} km`);
+      }
+    });
+  }
 });
 
 describe('heat in place on the same region in three CRSs (1 km cells)', () => {

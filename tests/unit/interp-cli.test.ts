@@ -135,6 +135,25 @@ describe('subtherm interpolate', () => {
     expect(r.grid.crs).toBe('EPSG:32709');
     // 1 km on the ground near the central meridian is k0 × 1000 m in UTM, k0 = 0.9996 (Snyder 1987, §8).
     expect(Math.abs(r.grid.dx - 999.6)).toBeLessThan(0.01);
+    // Within a few km of the central meridian the ground cell size does not vary: no warning about it.
+    expect(json.warnings.join(' ')).not.toMatch(/on the ground/);
+  });
+
+  it('reports the ground cell size with its range, and warns, where the projection makes it vary', async () => {
+    const pts = file('p3857.geojson', { type: 'FeatureCollection', features: sites });
+    const { code, json } = await run(['--points', pts, '--method', 'idw', '--crs', 'EPSG:3857', '--cell-km', '20', '--bbox=-130,-46,-126,-30']);
+    expect(code).toBe(0);
+    const [lo, hi] = json.grid.groundCellKmRange as [number, number];
+    // Web Mercator's scale is 1/cos φ (Snyder 1987 §7; y = ln tan(π/4 + φ/2) on the sphere): the grid's centre in y
+    // is at φc with ψ(φc) the mean of ψ(30°) and ψ(46°), where a cell is 20 km; at 46° S it is 20·cos 46°/cos φc on
+    // the ground and at 30° S 20·cos 30°/cos φc (sphere against ellipsoid, and corner cells half a cell inside the
+    // box: under 0.5 %).
+    const DEG = Math.PI / 180;
+    const psi = (d: number) => Math.log(Math.tan(Math.PI / 4 + (d * DEG) / 2));
+    const phiC = 2 * Math.atan(Math.exp((psi(30) + psi(46)) / 2)) - Math.PI / 2;
+    expect(Math.abs(lo - (20 * Math.cos(46 * DEG)) / Math.cos(phiC)) / lo).toBeLessThan(0.005);
+    expect(Math.abs(hi - (20 * Math.cos(30 * DEG)) / Math.cos(phiC)) / hi).toBeLessThan(0.005);
+    expect(json.warnings.join(' ')).toMatch(/km at the centre, \d+\.\d{3}–\d+\.\d{3} km over the grid/);
   });
 
   it('--region and --max-distance-km mask cells as no data', async () => {
