@@ -110,8 +110,9 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunQueue; limits: Li
     maxQueuedWorkServer: limits.maxQueuedWorkServer,
     wallClockMs: limits.runWallClockSeconds * 1000,
   });
-  // Three pools, so long work never holds short work behind it: short column bands (a map click) on threads of
-  // normal priority; long columns and sections, and heat-in-place jobs, each on a thread of lowered priority.
+  // Four pools, so long work never holds short work behind it: short column bands (a map click) on threads of
+  // normal priority; long columns and sections, heat-in-place jobs, and a run's spread and probability layers, each
+  // on a thread of lowered priority.
   const compute = {
     short: new ComputePool({
       name: 'short column',
@@ -137,6 +138,16 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunQueue; limits: Li
       maxQueue: limits.maxHeatInPlaceJobsServer,
       queueLimit: 'maxHeatInPlaceJobsServer',
       deadlineLimit: 'heatInPlaceDeadlineSeconds',
+      niceness: 10,
+      workerFile: opts.computeWorkerFile,
+    }),
+    // A layer costs about what the run's own Monte Carlo did, so it has the run's wall-clock limit.
+    layers: new ComputePool({
+      name: 'spread and probability layer',
+      threads: 1,
+      maxQueue: limits.maxLongComputeQueue,
+      queueLimit: 'maxLongComputeQueue',
+      deadlineLimit: 'runWallClockSeconds',
       niceness: 10,
       workerFile: opts.computeWorkerFile,
     }),
@@ -243,7 +254,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunQueue; limits: Li
       // Delay of the request thread's event loop since the window began (the previous full minute beside it).
       eventLoopDelayMs: { ...current, windowStartedAt: new Date(loopWindowStart).toISOString(), previousMinute: lastWindow },
       runs: jobs.counts(),
-      computeTasks: { short: compute.short.load(), long: compute.long.load(), heatInPlace: heatJobs.inFlight() },
+      computeTasks: { short: compute.short.load(), long: compute.long.load(), heatInPlace: heatJobs.inFlight(), layers: compute.layers.load() },
     });
   });
 
@@ -364,7 +375,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunQueue; limits: Li
   const close = async () => {
     clearInterval(loopTimer);
     loopDelay.disable();
-    await Promise.all([jobs.close(), compute.short.close(), compute.long.close(), compute.jobs.close(), layerFiles.close()]);
+    await Promise.all([jobs.close(), compute.short.close(), compute.long.close(), compute.jobs.close(), compute.layers.close(), layerFiles.close()]);
   };
   return Object.assign(app, { jobs, limits, close, ready });
 }

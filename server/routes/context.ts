@@ -17,8 +17,11 @@ export interface AppContext {
   grids: RunGridCache;
   /** Absolute path of the run worker module. */
   workerFile: string;
-  /** Worker pools: `short` for short column bands, `long` for long ones and sections, `jobs` for heat in place. */
-  compute: { short: ComputePool; long: ComputePool; jobs: ComputePool };
+  /**
+   * Worker pools: `short` for short column bands, `long` for long ones and sections, `jobs` for heat in place,
+   * `layers` for a run's spread and probability layers.
+   */
+  compute: { short: ComputePool; long: ComputePool; jobs: ComputePool; layers: ComputePool };
   heatJobs: HeatJobs;
   /** Peer addresses of reverse proxies whose X-Forwarded-For is believed (empty: none). */
   trustedProxies: ReadonlySet<string>;

@@ -7,8 +7,9 @@
  * or an isotherm below the melt onset) is left out of the fraction. The melt and mantle limits apply as in the run's
  * maps: a temperature below the melt onset (the dry solidus of its rock) is never given; it counts as hotter than
  * any valid temperature, so it exceeds every value asked for (the rock there is at least at its solidus: read a
- * threshold above the solidus with that in mind). Cells are processed in blocks with one (realizations × block) buffer; between blocks
- * the work yields to the event loop so a server stays responsive.
+ * threshold above the solidus with that in mind). Cells are processed in blocks with one (realizations × block)
+ * buffer; between blocks the work yields to its thread's event loop (the server runs it on a worker thread:
+ * server/runs/derived-layer.ts).
  */
 import { ColumnState, solveColumn } from '../../shared/thermal/column.ts';
 import type { CompiledModel } from '../../shared/thermal/compile.ts';

@@ -1,7 +1,7 @@
 /**
- * Worker side of the compute pools (server/runs/compute.ts): one function per kind of task. Grids arrive with
- * their values in shared memory (no copy); bodies of data sets arrive as text and are parsed here, off the request
- * thread. An InputError becomes `{ ok: false, error }` so its code and details survive the thread boundary.
+ * Worker side of the compute pools (server/runs/compute.ts): one function per kind of task (column, section, heat in
+ * place, a run's spread or probability layer). Grids arrive with their values in shared memory (no copy); bodies of
+ * data sets arrive as text and are parsed here, off the request thread. An InputError becomes `{ ok: false, error }` so its code and details survive the thread boundary.
  */
 import { InputError, type InputProblem } from '../../shared/errors.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
@@ -15,6 +15,7 @@ import { modelZones } from '../runs/zones.ts';
 import { realizationsFromRecord, type RunRecord } from '../runs/realizations.ts';
 import { HEAT_FLOW_CORRELATION_DEPRECATED } from '../runs/heat-flow-simulation.ts';
 import { applyWorkerNiceness } from './priority.ts';
+import { renderDerivedLayer, type DerivedLayerQuery } from '../runs/derived-layer.ts';
 
 applyWorkerNiceness();
 
@@ -51,7 +52,14 @@ export interface HeatInPlaceTask {
   record: RunRecord | null;
 }
 
-export type ComputeTask = { kind: 'column'; query: ColumnQuery } | SectionTask | HeatInPlaceTask;
+/** A spread or probability layer of a finished run, built from the run's record (its realizations are rebuilt here). */
+export interface DerivedLayerTask {
+  kind: 'derived-layer';
+  record: RunRecord;
+  query: DerivedLayerQuery;
+}
+
+export type ComputeTask = { kind: 'column'; query: ColumnQuery } | SectionTask | HeatInPlaceTask | DerivedLayerTask;
 
 export type ComputeReply = { ok: true; value: unknown } | { ok: false; error: { code: string; message: string; details: InputProblem[] } };
 
@@ -71,6 +79,8 @@ export default async function compute(task: ComputeTask): Promise<ComputeReply> 
         return { ok: true, value: await section(task) };
       case 'heat-in-place':
         return { ok: true, value: await heatInPlace(task) };
+      case 'derived-layer':
+        return { ok: true, value: await renderDerivedLayer(task.record, task.query) };
     }
   } catch (e) {
     if (e instanceof InputError) return { ok: false, error: { code: e.code, message: e.message, details: e.details } };

@@ -1,12 +1,12 @@
 // Responsiveness benchmark (figures only, never a pass/fail on time), on a real server process: the worst and p99
 // latency of a health probe sent every 100 ms while the heaviest allowed work is in progress (a heat-in-place job
-// at its limit, a column at the layer cap with 2000 realizations, a run at the server's cells × realizations
-// limit, lowered to 2×10⁷ here to fit a shared machine), against the goal of 250 ms; and the server's own
+// at its limit, a column at the layer cap with 2000 realizations, a run's spread layer, a run at the server's
+// cells × realizations limit, lowered to 2×10⁷ here to fit a shared machine), against the goal of 250 ms; and the server's own
 // event-loop delay (Node's histogram, from /api/health). Reference: the same probe on the idle server.
 import { rmSync } from 'node:fs';
 import { dirname } from 'node:path';
 import { startServerProcess } from '../helpers/browser.ts';
-import { columnAtLayerCap, finishedRun, heatInPlaceAtLimit, limitsOf, maximalRun, probeHealth, quantile, waitJob } from '../helpers/heavy.ts';
+import { columnAtLayerCap, finishedRun, heatInPlaceAtLimit, limitsOf, maximalRun, probeHealth, quantile, spreadLayer, waitJob } from '../helpers/heavy.ts';
 
 const GOAL_MS = 250;
 const server = await startServerProcess({ env: { SUBTHERM_MAX_RUN_CELL_REALIZATIONS: '20000000' } });
@@ -17,7 +17,7 @@ try {
   const run = await finishedRun(base);
   const big = await maximalRun(base, limits);
   const job = await heatInPlaceAtLimit(base, run, limits);
-  const work = Promise.all([waitJob(base, job.url), columnAtLayerCap(base)]);
+  const work = Promise.all([waitJob(base, job.url), columnAtLayerCap(base), spreadLayer(base, run.id)]);
   const t0 = performance.now();
   const busy = await probeHealth(base, work);
   const busyS = (performance.now() - t0) / 1000;
@@ -34,7 +34,7 @@ try {
   console.log(`worst probe ${worst.toFixed(1)} ms against the goal of ${GOAL_MS} ms: ${worst <= GOAL_MS ? 'met' : 'missed'}`);
   console.log(`server event-loop delay at the end (ms): ${JSON.stringify(busy.loopDelay)}`);
   console.log(
-    `work: heat in place ${job.realizations} realizations over ${run.grid.width}×${run.grid.height} cells; column 100 layers × 2000 realizations; run ${big.cells} cells × ${big.realizations} realizations`,
+    `work: heat in place ${job.realizations} realizations over ${run.grid.width}×${run.grid.height} cells; column 100 layers × 2000 realizations; spread layer of the finished run; run ${big.cells} cells × ${big.realizations} realizations`,
   );
 } finally {
   await server.stop();

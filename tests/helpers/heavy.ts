@@ -1,6 +1,6 @@
 // Heavy work against a running server, for the responsiveness test and benchmark: a finished run to work on, a
-// heat-in-place job at its limit, a column at the layer cap with the most realizations, and a run at the server's
-// cells × realizations limit, plus a health probe every 100 ms.
+// heat-in-place job at its limit, a column at the layer cap with the most realizations, the run's spread layer, and
+// a run at the server's cells × realizations limit, plus a health probe every 100 ms.
 import { MODEL_BOUNDS } from '../../shared/schema/model.ts';
 
 export interface Limit {
@@ -68,6 +68,11 @@ export function columnAtLayerCap(base: string): Promise<Response> {
     headers: json,
     body: JSON.stringify({ model: { surfaceTemperatureC: 10, layers }, heatFlowMWm2: 65, heatFlowSdMWm2: 5, realizations: 2000, seed: 1 }),
   });
+}
+
+/** The spread layer of the depth to `isothermC` over a finished run's realizations (computed on first request). */
+export function spreadLayer(base: string, runId: string, isothermC = 300): Promise<Response> {
+  return fetch(`${base}/api/runs/${runId}/spread?isothermC=${isothermC}`);
 }
 
 /** A run whose cells × realizations equal the server's maxRunCellRealizations; returns its id and run token. */
