@@ -6,6 +6,8 @@
 const STATUS_BY_CODE: Readonly<Record<string, number>> = {
   // 400: the request cannot be read as sent.
   bad_json: 400,
+  bad_url: 400,
+  bad_id: 400,
   bad_query: 400,
   bad_request: 400,
   bad_tile: 400,
@@ -85,13 +87,13 @@ const STATUS_BY_CODE: Readonly<Record<string, number>> = {
   projected_layer: 422,
   too_deep: 422,
   state_too_deep: 422,
-  // A heat-in-place job that outran its deadline: the job's size, named by the limit (not "come back later").
-  job_deadline_exceeded: 422,
   // 429/503: come back later.
   too_many_runs: 429,
   too_much_work: 429,
   too_many_jobs: 429,
   server_busy: 503,
+  // Every deadline (a column band, a section, a heat-in-place job, a run's spread or probability layer): the limit
+  // counts time spent waiting for a thread, so the same request can finish when the server is less busy.
   deadline_exceeded: 503,
   runs_unavailable: 503,
   shutting_down: 503,

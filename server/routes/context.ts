@@ -5,7 +5,7 @@ import { InputError } from '../../shared/errors.ts';
 import type { Limits } from '../limits.ts';
 import type { RunQueue } from '../queue/select.ts';
 import type { RunGridCache } from '../runs/grids.ts';
-import type { ComputePool } from '../runs/compute.ts';
+import type { ComputePools } from '../runs/pools.ts';
 import type { HeatJobs } from '../runs/heat-jobs.ts';
 import type { Store } from '../store/types.ts';
 import { jsonDepthExceeds } from './schemas.ts';
@@ -21,7 +21,7 @@ export interface AppContext {
    * Worker pools: `short` for short column bands, `long` for long ones and sections, `jobs` for heat in place,
    * `layers` for a run's spread and probability layers.
    */
-  compute: { short: ComputePool; long: ComputePool; jobs: ComputePool; layers: ComputePool };
+  compute: ComputePools;
   heatJobs: HeatJobs;
   /** Peer addresses of reverse proxies whose X-Forwarded-For is believed (empty: none). */
   trustedProxies: ReadonlySet<string>;

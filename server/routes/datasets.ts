@@ -1,7 +1,8 @@
 /**
  * Data set uploads: GeoJSON or point CSV (or a thermal model JSON), validated and stored content-addressed.
  * `parseUpload` is shared by POST /api/projects/:id/datasets (the page's route: data sets belong to a project) and
- * POST /api/datasets (a bare upload, for scripts that name data set ids in a run themselves).
+ * POST /api/datasets (a bare upload, for scripts that name data set ids in a run themselves). GET /api/datasets/:id
+ * serves a stored body; data sets are listed only through their project (GET /api/datasets is 410).
  */
 import type { Context, Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
@@ -9,7 +10,7 @@ import { parseFeatureCollection, parsePointCsv, type DatasetKind } from '../../s
 import { parseModelDocument } from '../../shared/products/model-input.ts';
 import { sha256Hex } from '../store/sqlite.ts';
 import type { DatasetRecord } from '../store/types.ts';
-import { bodyText, parseJsonText, singleQuery, type AppContext } from './context.ts';
+import { bodyText, errorBody, parseJsonText, singleQuery, type AppContext } from './context.ts';
 import { z } from 'zod';
 import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
 import { formatFromMediaType, inFileLayer, readVectorFile, VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
@@ -112,6 +113,23 @@ export async function storeUpload(ctx: AppContext, up: ParsedUpload, title?: str
 }
 
 export function datasetRoutes(app: Hono, ctx: AppContext): void {
+  // Data sets are listed through the project that holds them.
+  app.get('/api/datasets', (c) =>
+    c.json(
+      errorBody('listed_per_project', 'data sets are listed per project: GET /api/projects/{id}/datasets', [
+        { field: 'path', problem: 'use /api/projects/{id}/datasets' },
+      ]),
+      410,
+    ),
+  );
+
+  app.get('/api/datasets/:id', async (c) => {
+    const rec = await ctx.store.getDataset(c.req.param('id'));
+    if (!rec) throw new InputError(`no data set with id "${c.req.param('id')}"`, [{ field: 'id', problem: 'not found' }], 'not_found');
+    const type = rec.kind === 'model' ? 'application/json' : 'application/geo+json';
+    return c.body(rec.body, 200, { 'content-type': type, etag: `"${rec.contentHash}"` });
+  });
+
   app.post('/api/datasets', async (c) => {
     const q = parseWith(datasetQuerySchema, singleQuery(c), 'query', 'bad_query');
     const up = await parseUpload(c, ctx, q.kind);

@@ -67,6 +67,12 @@ const UPLOAD_QUERY = {
   filename: "the file's name, used in messages about it",
 };
 
+/** Errors whose meaning is the same on every route. */
+const ERROR_DESCRIPTIONS: Record<number, string> = {
+  503: 'come back later: server_busy (a queue is full) or deadline_exceeded (the work did not finish within its limit, named in details, waiting included: every deadline of the server answers this way)',
+  507: 'insufficient_storage: the disk or database is full; nothing was saved, reads go on working',
+};
+
 function op(
   summary: string,
   opts: {
@@ -94,7 +100,11 @@ function op(
     [opts.ok ?? '200']: { description: 'success', content: { [opts.okType ?? 'application/json']: opts.okSchema ? { schema: opts.okSchema } : {} } },
   };
   for (const e of opts.errors ?? [])
-    responses[String(e)] = { description: 'error', content: { 'application/json': { schema: { $ref: '#/components/schemas/Error' } } } };
+    responses[String(e)] = {
+      description: ERROR_DESCRIPTIONS[e] ?? 'error',
+      content: { 'application/json': { schema: { $ref: '#/components/schemas/Error' } } },
+      ...(e === 429 || e === 503 ? { headers: { 'Retry-After': { description: 'seconds to wait before asking again', schema: { type: 'integer' } } } } : {}),
+    };
   o.responses = responses;
   return o;
 }
@@ -187,8 +197,8 @@ export function openApiDocument(): unknown {
       },
       '/api/runs/{id}/heat-in-place/{jobId}': {
         get: op(
-          'the job: 202 { jobId, status: queued|running, position } until done, then the report (the CLI heat-in-place --json object); a failed job answers its error (422 job_deadline_exceeded names heatInPlaceDeadlineSeconds)',
-          { params: ['id', 'jobId'], errors: [400, 404, 422, 500] },
+          'the job: 202 { jobId, status: queued|running, position } until done, then the report (the CLI heat-in-place --json object); a failed job answers its error (503 deadline_exceeded with Retry-After names heatInPlaceDeadlineSeconds: every deadline of the server answers 503 deadline_exceeded)',
+          { params: ['id', 'jobId'], errors: [400, 404, 422, 500, 503] },
         ),
       },
       '/api/runs/{id}/heat-in-place/{jobId}.html': {
@@ -201,7 +211,7 @@ export function openApiDocument(): unknown {
         get: op("spread (P90 − P10, km) of the depth to an isotherm over the run's realizations: the layer with urls and tiles", {
           params: ['id'],
           query: { isothermC: 'isotherm, °C (required)' },
-          errors: [400, 404, 409],
+          errors: [400, 404, 409, 503],
         }),
       },
       '/api/runs/{id}/probability': {
@@ -215,7 +225,7 @@ export function openApiDocument(): unknown {
               depthKm: 'depth, km (with exceedsC)',
               exceedsC: 'temperature, °C (with depthKm)',
             },
-            errors: [400, 404, 409],
+            errors: [400, 404, 409, 503],
           },
         ),
       },
@@ -223,10 +233,12 @@ export function openApiDocument(): unknown {
         post: op('geotherm column at a point of a run, or of a model at a heat flow', {
           body: { oneOf: [json(columnAtRunSchema), json(columnOfModelSchema)] },
           okSchema: z.toJSONSchema(columnAnswerSchema, { io: 'output', unrepresentable: 'any', target: 'draft-2020-12' }),
-          errors: [400, 404, 409, 415, 422],
+          errors: [400, 404, 409, 415, 422, 503],
         }),
       },
-      '/api/section': { post: op('vertical temperature section along a line through a run', { body: json(sectionSchema), errors: [400, 404, 409, 415, 422] }) },
+      '/api/section': {
+        post: op('vertical temperature section along a line through a run', { body: json(sectionSchema), errors: [400, 404, 409, 415, 422, 503] }),
+      },
       '/api/projects': {
         post: op('create a shared project; returns its edit token once', { body: json(projectCreateSchema), ok: '201', errors: [400, 413, 415, 422] }),
       },

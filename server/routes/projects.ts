@@ -38,8 +38,8 @@ export function projectRoutes(app: Hono, ctx: AppContext): void {
   const stateJson = (state: Record<string, unknown>): string => {
     if (jsonDepthExceeds(state, ctx.limits.maxJsonDepth)) {
       throw new InputError(
-        `the state is nested deeper than ${ctx.limits.maxJsonDepth} levels`,
-        [{ field: 'state', problem: `at most ${ctx.limits.maxJsonDepth} levels of nesting` }],
+        `the state is nested deeper than ${ctx.limits.maxJsonDepth} levels (limit maxJsonDepth)`,
+        [{ field: 'state', problem: `at most ${ctx.limits.maxJsonDepth} levels of nesting (limit maxJsonDepth = ${ctx.limits.maxJsonDepth})` }],
         'state_too_deep',
       );
     }
@@ -47,8 +47,8 @@ export function projectRoutes(app: Hono, ctx: AppContext): void {
     const bytes = Buffer.byteLength(text, 'utf8');
     if (bytes > ctx.limits.maxProjectStateBytes) {
       throw new InputError(
-        `the state is ${bytes} bytes (limit ${ctx.limits.maxProjectStateBytes})`,
-        [{ field: 'state', problem: `at most ${ctx.limits.maxProjectStateBytes} bytes of JSON` }],
+        `the state is ${bytes} bytes (limit maxProjectStateBytes = ${ctx.limits.maxProjectStateBytes})`,
+        [{ field: 'state', problem: `at most ${ctx.limits.maxProjectStateBytes} bytes of JSON (limit maxProjectStateBytes)` }],
         'state_too_large',
       );
     }

@@ -19,6 +19,7 @@ import { parseAreaPolygon, parseHeatInPlaceOptions, parseZonePolygons } from '..
 import type { HeatJob } from '../runs/heat-jobs.ts';
 import { clientAddress, errorBody, jsonBody, requireJsonType, type AppContext } from './context.ts';
 import { idSchema } from './schemas.ts';
+import { retryAfterSecondsOf } from '../http-status.ts';
 
 const bodySchema = z
   .object({
@@ -157,7 +158,12 @@ export function resourceRoutes(app: Hono, ctx: AppContext): void {
     if (job.status === 'queued' || job.status === 'running') return c.json(jobView(runId, job, ctx.heatJobs.position(job)), 202, { 'retry-after': '1' });
     if (job.status === 'failed' || job.output === null) {
       const e = job.error ?? { code: 'internal', message: 'the job failed', details: [], status: 500 };
-      return c.json({ ...errorBody(e.code, e.message, e.details), job: jobView(runId, job, 0) }, e.status as 400);
+      const retry = retryAfterSecondsOf(e.code);
+      return c.json(
+        { ...errorBody(e.code, e.message, e.details), job: jobView(runId, job, 0) },
+        e.status as 400,
+        retry !== null ? { 'retry-after': String(retry) } : {},
+      );
     }
     const out = job.output;
     if (m[2] === 'html') return c.body(out.html, 200, { 'content-type': 'text/html; charset=utf-8', 'cache-control': 'private, max-age=86400' });

@@ -118,8 +118,8 @@ export async function submitRun(
   const cells = requestedCells(request, datasets[request.sites].body);
   if (cells !== null && cells > ctx.limits.maxGridCells) {
     throw new InputError(
-      `the output grid would have ${cells.toLocaleString('en')} cells (limit ${ctx.limits.maxGridCells.toLocaleString('en')}): use a larger cellKm, a smaller bbox or size`,
-      [{ field: 'grid', problem: `at most ${ctx.limits.maxGridCells} cells per grid` }],
+      `the output grid would have ${cells.toLocaleString('en')} cells (limit maxGridCells = ${ctx.limits.maxGridCells.toLocaleString('en')}): use a larger cellKm, a smaller bbox or size`,
+      [{ field: 'grid', problem: `at most ${ctx.limits.maxGridCells} cells per grid (limit maxGridCells)` }],
       'grid_too_large',
     );
   }

@@ -144,14 +144,9 @@ export class HeatJobs {
       .catch((e: unknown) => {
         job.status = 'failed';
         if (e instanceof InputError) {
-          // A deadline reached is the job's size, not the server's fault: its own code, naming the job's limit.
-          const code = e.code === 'deadline_exceeded' ? 'job_deadline_exceeded' : e.code;
-          job.error = {
-            code,
-            message: e.message.replace('computeDeadlineSeconds', 'heatInPlaceDeadlineSeconds'),
-            details: e.details,
-            status: httpStatusOf(code),
-          };
+          // A deadline reached is 503 deadline_exceeded naming heatInPlaceDeadlineSeconds (the pool's limit), as
+          // every deadline of the server.
+          job.error = { code: e.code, message: e.message, details: e.details, status: httpStatusOf(e.code) };
         } else {
           process.stderr.write(`[${new Date().toISOString()}] heat-in-place job ${job.id} failed: ${(e as Error)?.stack ?? String(e)}\n`);
           job.error = { code: 'internal', message: 'the computation failed on the server', details: [], status: 500 };

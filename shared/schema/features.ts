@@ -209,7 +209,7 @@ export function parseFeatureCollection(
     throw new InputError(`the ${kind} collection is empty`, [{ field: 'features', problem: 'expected at least one feature' }], 'empty_dataset');
   if (features.length > maxFeatures) {
     throw new InputError(
-      `too many features: ${features.length} (limit ${maxFeatures})`,
+      `too many features: ${features.length} (limit maxFeatures = ${maxFeatures})`,
       [{ field: 'features', problem: `at most ${maxFeatures} features per data set` }],
       'too_many_features',
     );

@@ -9,6 +9,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
 import { openStore } from '../../server/main.ts';
+import { isStorageFull } from '../../server/routes/guards.ts';
 import { InputError } from '../../shared/errors.ts';
 import { MODEL_BOUNDS } from '../../shared/schema/model.ts';
 
@@ -35,7 +36,14 @@ describe('run bounds, fairness and tokens', () => {
     t = await startTestApp('bounds', {
       runWorkerFile: DOUBLE,
       trustedProxies: ['local'],
-      limits: { maxRunCellRealizations: 1000, maxQueuedWorkPerClient: 1500, maxQueuedWorkServer: 2400, maxQueuedRunsServer: 3, maxQueuedRunsPerClient: 2 },
+      limits: {
+        maxRunCellRealizations: 1000,
+        maxQueuedWorkPerClient: 1500,
+        maxQueuedWorkServer: 2400,
+        maxQueuedRunsServer: 3,
+        maxQueuedRunsPerClient: 2,
+        runConcurrency: 1,
+      },
     });
   });
   afterAll(async () => await t?.close());
@@ -82,7 +90,8 @@ describe('run bounds, fairness and tokens', () => {
   });
 
   it('starts runs in round-robin order across clients and shows each queued run its position', async () => {
-    // Client A queues two runs, then client B one: B's first run starts before A's second (FIFO would make it wait).
+    // One run at a time (runConcurrency = 1): the others wait, queued. Client A queues two runs, then client B one:
+    // B's first run starts before A's second (FIFO would make it wait).
     const a1 = await accept(await run('10.0.1.1', 1));
     const a2 = await accept(await run('10.0.1.1', 2));
     const b1 = await accept(await run('10.0.1.2', 3));
@@ -249,6 +258,15 @@ describe('the wall-clock limit of a run', () => {
     } finally {
       await t.close();
     }
+    // Under the limit the same run ends done (60 s leaves room for a worker thread's cold start on a busy machine,
+    // which counts against the limit).
+    const roomy = await startTestApp('wallclock-roomy', { runWorkerFile: DOUBLE, limits: { runWallClockSeconds: 60 } });
+    try {
+      const { id } = (await (await roomy.post('/api/runs', { title: 'slow', sites: 'demo-sites', model: 'demo-model', seed: 7 })).json()) as { id: string };
+      expect((await roomy.waitEnd(id)).status).toBe('done');
+    } finally {
+      await roomy.close();
+    }
   }, 60_000);
 });
 
@@ -334,12 +352,50 @@ describe('storage and URL faults', () => {
     }
   });
 
+  it("recognizes a full store: SQLite's SQLITE_FULL, PostgreSQL's SQLSTATE 53100 disk_full, the file system's ENOSPC", () => {
+    // Codes from the SQLite result-code list, PostgreSQL's Appendix A "PostgreSQL Error Codes" and errno(3).
+    expect(isStorageFull({ code: 'SQLITE_FULL', message: 'database or disk is full' })).toBe(true);
+    expect(isStorageFull({ code: '53100', message: 'could not extend file "base/16384/16385": No space left on device' })).toBe(true);
+    expect(isStorageFull({ code: 'ENOSPC', message: 'no space left on device' })).toBe(true);
+    expect(isStorageFull({ code: '53300', message: 'sorry, too many clients already' })).toBe(false);
+    expect(isStorageFull(new Error('something else'))).toBe(false);
+  });
+
   it('answers malformed percent-encoding with 400 JSON, under /api/ and elsewhere', async () => {
     for (const path of ['/%E0%A4%A', '/api/runs/%E0%A4%A', '/api/projects/%ZZ', '/p/%C3%28']) {
       const res = await t.app.request(path);
       expect(res.status, path).toBe(400);
       expect(((await res.json()) as Err).error.code).toBe('bad_url');
     }
+  });
+
+  it('answers over-long paths, segments that name nothing and malformed ids with 400 JSON, whatever the method', async () => {
+    const long = 'a'.repeat(2000);
+    const cases: [string, string][] = [
+      [`/api/runs/${long}`, 'bad_url'],
+      [`/${long}`, 'bad_url'],
+      [`/api/runs/x/layers/${'b'.repeat(300)}.tif`, 'bad_url'],
+      ['/api/runs/a%20b', 'bad_url'],
+      ['/api/runs/a%00b/events', 'bad_url'],
+      ['/api/runs/..%2F..%2Fetc%2Fpasswd', 'bad_url'],
+      ['/api/runs/x//layers', 'bad_url'],
+      [`/api/runs/${'r'.repeat(101)}`, 'bad_id'],
+      ['/api/runs/run.1/spread?isothermC=300', 'bad_id'],
+      ['/api/projects/p~1/datasets', 'bad_id'],
+      ['/api/datasets/demo.sites', 'bad_id'],
+    ];
+    for (const [path, code] of cases) {
+      for (const method of ['GET', 'DELETE', 'POST']) {
+        const res = await t.app.request(path, { method, headers: { 'content-type': 'application/json' }, body: method === 'POST' ? '{}' : undefined });
+        expect(res.status, `${method} ${path.slice(0, 60)}`).toBe(400);
+        const e = ((await res.json()) as Err).error;
+        expect(e.code, path.slice(0, 60)).toBe(code);
+        expect(e.message.length).toBeLessThan(200); // the path is not echoed whole
+      }
+    }
+    // Well-formed URLs still reach their routes.
+    expect((await t.app.request('/api/datasets/demo-sites')).status).toBe(200);
+    expect((await t.app.request('/api/runs/no_such-run')).status).toBe(404);
   });
 
   it('says in plain words which database path cannot be written, and what to do', async () => {

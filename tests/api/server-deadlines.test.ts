@@ -166,11 +166,12 @@ describe('a heat-in-place job past its deadline', () => {
 
   // The next job's deadline includes starting a new thread in place of the stopped one: 30 s leaves room for a
   // crowded machine.
-  it('fails the job with 422 job_deadline_exceeded naming the limit, and the next job runs on the freed thread', async () => {
+  it('fails the job with 503 deadline_exceeded naming the limit, as every deadline, and the next job runs on the freed thread', async () => {
     const stuck = await waitJob(await job(SPIN_SEED, '10.2.0.1'));
-    expect(stuck.status).toBe(422);
+    expect(stuck.status).toBe(503);
+    expect(stuck.headers.get('retry-after')).toMatch(/^\d+$/);
     const e = ((await stuck.json()) as Err).error;
-    expect(e.code).toBe('job_deadline_exceeded');
+    expect(e.code).toBe('deadline_exceeded');
     expect(e.details[0].field).toBe('heatInPlaceDeadlineSeconds');
     const next = await waitJob(await job(4, '10.2.0.2'));
     expect(next.status, await next.clone().text()).toBe(200);

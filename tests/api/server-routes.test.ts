@@ -217,7 +217,7 @@ describe('runs', () => {
     await errorOf(await app.request(`/api/runs/${runId}/layers/noext`), 400, 'bad_layer_format');
     await errorOf(await app.request('/api/runs/run_nope/layers/heat-flow.tif'), 404, 'run_not_found');
     await errorOf(await app.request('/api/runs/run_nope'), 404, 'run_not_found');
-    await errorOf(await app.request('/api/runs/bad%20id'), 404, 'run_not_found');
+    await errorOf(await app.request('/api/runs/bad%20id'), 400, 'bad_url'); // a malformed id names nothing
   });
 
   it('returns the cached run (200, same id) for the same inputs, and a new run when an input changes', async () => {

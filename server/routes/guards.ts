@@ -1,0 +1,114 @@
+/**
+ * What every request passes before a route sees it, and how errors are answered: the error handler (storage full →
+ * 507, InputError → its 4xx, anything else → 500 without a stack trace), the URL guard (malformed percent-encoding,
+ * over-long paths, path segments outside the URL-safe alphabet and malformed ids → 400) and the body-size limit.
+ */
+import type { Context, ErrorHandler, MiddlewareHandler } from 'hono';
+import { bodyLimit } from 'hono/body-limit';
+import { InputError } from '../../shared/errors.ts';
+import { httpStatusOf, retryAfterSecondsOf } from '../http-status.ts';
+import type { Limits } from '../limits.ts';
+import { errorBody } from './context.ts';
+import { idSchema } from './schemas.ts';
+
+/** Longest URL path (without the query) the server reads, characters: ids are at most 100, layer names shorter. */
+export const MAX_PATH_CHARS = 1024;
+
+/** A path segment under /api/ once decoded: RFC 3986's unreserved characters, at most 200 of them. */
+const API_SEGMENT = /^[A-Za-z0-9_.~-]{1,200}$/;
+
+/** Collections whose next path segment is an id (letters, digits, _ and -, at most 100). */
+const ID_COLLECTIONS = new Set(['runs', 'projects', 'datasets']);
+
+/**
+ * True for SQLite's "database or disk is full" (SQLITE_FULL), PostgreSQL's SQLSTATE 53100 disk_full (PostgreSQL
+ * documentation, Appendix A "PostgreSQL Error Codes", class 53 insufficient resources) and the file system's
+ * "no space left on device" (ENOSPC).
+ */
+export function isStorageFull(err: unknown): boolean {
+  const e = err as { code?: unknown; message?: unknown } | null;
+  return (
+    e !== null &&
+    typeof e === 'object' &&
+    (e.code === 'SQLITE_FULL' || e.code === '53100' || e.code === 'ENOSPC' || (typeof e.message === 'string' && /database or disk is full/.test(e.message)))
+  );
+}
+
+const pathOf = (c: Context) => {
+  const raw = c.req.url;
+  return raw.slice(raw.indexOf('/', raw.indexOf('//') + 2)).split('?')[0];
+};
+
+/** The app's error handler: 507 when storage is full, the InputError's status and code, else 500 "internal". */
+export const errorHandler: ErrorHandler = (err, c) => {
+  if (isStorageFull(err)) {
+    // Each write is one transaction, so nothing was half written; reads go on being served.
+    console.error(`[${new Date().toISOString()}] ${c.req.method} ${pathOf(c)}: storage full (${err.message})`);
+    return c.json(
+      errorBody(
+        'insufficient_storage',
+        'the server has no room left to store this (its disk or database is full); nothing was saved. Reading works as before; tell the operator.',
+      ),
+      507,
+    );
+  }
+  if (err instanceof InputError) {
+    const status = httpStatusOf(err.code);
+    const headers: Record<string, string> = status === 401 ? { 'www-authenticate': 'Bearer realm="subtherm project"' } : {};
+    const retry = retryAfterSecondsOf(err.code);
+    if (retry !== null) headers['retry-after'] = String(retry);
+    return c.json(errorBody(err.code, err.message, err.details), status, headers);
+  }
+  console.error(`[${new Date().toISOString()}] ${c.req.method} ${pathOf(c)}: ${err.stack ?? err.message}`);
+  return c.json(errorBody('internal', 'internal server error'), 500);
+};
+
+/**
+ * A URL that cannot name anything is a 400 before any route sees it: malformed percent-encoding (e.g. /%E0%A4%A),
+ * a path longer than MAX_PATH_CHARS, under /api/ a segment outside the URL-safe alphabet (control characters,
+ * spaces, slashes encoded as %2F) or a malformed run, project or data set id.
+ */
+export const urlGuard: MiddlewareHandler = async (c, next) => {
+  const path = pathOf(c);
+  const bad = (code: string, message: string, problem: string) => new InputError(message, [{ field: 'path', problem }], code);
+  if (path.length > MAX_PATH_CHARS) throw bad('bad_url', `the URL path is ${path.length} characters long`, `at most ${MAX_PATH_CHARS} characters`);
+  let segments: string[];
+  try {
+    segments = path.split('/').map(decodeURIComponent);
+  } catch {
+    throw bad('bad_url', 'the URL has malformed percent-encoding', 'each % must be followed by two hex digits forming valid UTF-8');
+  }
+  if (segments[1] === 'api') {
+    const wrong = segments.slice(2).find((s, i) => (s !== '' || i < segments.length - 3) && (!API_SEGMENT.test(s) || s === '.' || s === '..'));
+    if (wrong !== undefined)
+      throw bad(
+        'bad_url',
+        `the URL path has a segment that names nothing: "${wrong.slice(0, 60)}${wrong.length > 60 ? '…' : ''}"`,
+        'path segments have letters, digits, _ . ~ - only, at most 200 of them',
+      );
+    const id = segments[3];
+    if (ID_COLLECTIONS.has(segments[2]) && id !== undefined && id !== '' && !idSchema.safeParse(id).success)
+      throw bad(
+        'bad_id',
+        `"${id.slice(0, 60)}${id.length > 60 ? '…' : ''}" is not a ${segments[2].slice(0, -1)} id`,
+        'an id has letters, digits, _ and - only, at most 100 of them',
+      );
+  }
+  await next();
+};
+
+/** Bodies over maxBodyBytes are refused (413) while they are read, before any route parses them. */
+export function bodySizeGuard(limits: Limits): MiddlewareHandler {
+  return bodyLimit({
+    maxSize: limits.maxBodyBytes,
+    onError: (c) =>
+      c.json(
+        errorBody(
+          'body_too_large',
+          `the request body is larger than ${limits.maxBodyBytes} bytes (${(limits.maxBodyBytes / 1048576).toPrecision(3)} MB), the server's limit maxBodyBytes`,
+          [{ field: '(body)', problem: `at most ${limits.maxBodyBytes} bytes (limit maxBodyBytes = ${limits.maxBodyBytes})` }],
+        ),
+        413,
+      ),
+  });
+}
