@@ -100,7 +100,8 @@ export async function openPostgresStore(url: string, log: (line: string) => void
   let store: PostgresStore | null = null;
   try {
     store = await PostgresStore.open(url, { log, queueOwnsRuns: opts.queueOwnsRuns });
-    await loadDemo(store);
+    const opened = store;
+    await opened.exclusive(() => loadDemo(opened));
     return store;
   } catch (e) {
     await store?.close();
@@ -152,7 +153,7 @@ export async function startServer(opts: ServerOptions) {
       ? await openPostgresStore(opts.databaseUrl, log, { queueOwnsRuns: opts.queueUrl !== undefined })
       : await openStore(opts.dbPath);
   const dem = await loadDem(DEMO_TERRAIN);
-  await loadDemoTerrain(store, dem);
+  await (store instanceof PostgresStore ? store.exclusive(() => loadDemoTerrain(store, dem)) : loadDemoTerrain(store, dem));
   const terrain = new TerrainTiles(dem);
   // The demo project's default run starts in the background unless SUBTHERM_DEMO_RUN=0.
   const demoRun = opts.demoRun ?? process.env.SUBTHERM_DEMO_RUN !== '0';

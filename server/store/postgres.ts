@@ -186,6 +186,21 @@ export class PostgresStore implements Store {
     }
   }
 
+  /**
+   * Runs `fn` while holding a database-wide lock (a session advisory lock), so servers starting together do their
+   * start-up writes (the demo's data sets and project) one after the other instead of racing on the same ids.
+   */
+  async exclusive<T>(fn: () => Promise<T>): Promise<T> {
+    const c = await this.pool.connect();
+    try {
+      await c.query('SELECT pg_advisory_lock(7406202612)');
+      return await fn();
+    } finally {
+      await c.query('SELECT pg_advisory_unlock(7406202612)').catch(() => undefined);
+      c.release();
+    }
+  }
+
   private async tx<T>(fn: (c: pg.PoolClient) => Promise<T>): Promise<T> {
     const c = await this.pool.connect();
     try {
