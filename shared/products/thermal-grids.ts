@@ -21,7 +21,6 @@
 import type { Grid, GridSpec } from '../grid/grid.ts';
 import { ColumnState, geothermGrid, lithostaticPressureMPa, kbarFromMPa, type CompiledModel } from '../thermal/index.ts';
 import { faciesCode } from './facies-grid.ts';
-import { prepareSolidusScan, type SolidusScan } from './solidus-grid.ts';
 
 export interface ThermalGridSpec {
   /** Surface heat flow per cell, mW/m² (NaN = no data); its georeferencing is that of every output. */
@@ -38,8 +37,6 @@ export interface ThermalGridSpec {
   maxDepthKm: number;
   /** Compute the solidus-crossing grid (default true). */
   solidus?: boolean;
-  /** Step of the solidus scan, km (default 0.1, the engine's). */
-  solidusStepKm?: number;
 }
 
 /** Whole-grid output buffers (row-major, indexed like the heat-flow grid). */
@@ -79,10 +76,9 @@ export function allocateThermalGridBuffers(spec: ThermalGridSpec): ThermalGridBu
   };
 }
 
-/** Per-spec data built once: solidus step grids and facies pressures per zone. */
+/** Per-spec data built once: facies pressures per zone and a column state per model. */
 export interface ThermalGridPlan {
   spec: ThermalGridSpec;
-  scans: SolidusScan[];
   /** Lithostatic pressure at the facies depth per zone, kbar. */
   faciesPressureKbar: Float64Array;
   states: ColumnState[];
@@ -103,9 +99,8 @@ export function planThermalGrids(spec: ThermalGridSpec): ThermalGridPlan {
   if (!(spec.maxDepthKm > 0)) throw new RangeError(`maxDepthKm must be > 0, got ${spec.maxDepthKm}`);
   const fd = spec.faciesDepthKm;
   if (fd !== undefined && fd !== null && !(fd >= 0)) throw new RangeError(`faciesDepthKm must be ≥ 0, got ${fd}`);
-  const scans = spec.models.map((cm) => prepareSolidusScan(cm, spec.maxDepthKm, spec.solidusStepKm ?? 0.1));
   const faciesPressureKbar = Float64Array.from(spec.models, (cm) => (fd === undefined || fd === null ? NaN : kbarFromMPa(lithostaticPressureMPa(cm, fd))));
-  return { spec, scans, faciesPressureKbar, states: spec.models.map((cm) => new ColumnState(cm.nLayers)) };
+  return { spec, faciesPressureKbar, states: spec.models.map((cm) => new ColumnState(cm.nLayers)) };
 }
 
 /** Computes rows [r0, r1) of every product into `out` (whole-grid buffers). */

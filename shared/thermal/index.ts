@@ -50,7 +50,6 @@ export {
   type HydrostaticOptions,
   type PoreFluidAssessment,
 } from './pressure.ts';
-export { solidusCrossingDepth, solidusCrossings, WET_GRANITE_SOLIDUS_MPA, DRY_PERIDOTITE_SOLIDUS_MPA, type SolidusCurveMPa } from './solidus-crossing.ts';
 export { realizeModel, nominalModel, isUncertainModel, realizationProblem } from './realize.ts';
 export { quantileSorted, summarizeSorted, summarize, summaryToJson, stderrMedianSorted, STDERR_P50_METHOD, type Summary } from './quantiles.ts';
 export {

@@ -12,8 +12,9 @@
  * the dry peridotite solidus (shallow depths: decompression melting) and the lid is thin enough to reach it, the melt
  * onset is where the column enters that range.
  *
- * Crossings are found like solidus-crossing.ts: a scan every stepKm for the first depth where T(z) ≥ T_s(P(z)),
- * then bisection to 1e-6 km (the solidus may jump at a layer boundary, where the bisection ends on the boundary).
+ * This is the project's one solidus-crossing search (columns, grids and Monte Carlo maps all call columnLimits): a
+ * scan every stepKm for the first depth where T(z) ≥ T_s(P(z)) with T_s the curve of the rock at z, then bisection
+ * to 1e-6 km (the solidus may jump at a layer boundary, where the bisection ends on the boundary).
  */
 import { ROCK_SOLIDUS, type SolidusCurve } from '../petrology/solidus.ts';
 import { ROCK_KINDS, type RockKind } from '../schema/model.ts';

@@ -13,7 +13,7 @@ import {
   wetGraniteSolidusC,
   zoneRank,
 } from '../../shared/petrology/index.ts';
-import { compileModel, solveModelColumn, solidusCrossings, temperatureAtDepth, lithostaticPressureMPa } from '../../shared/thermal/index.ts';
+import { columnLimits, compileModel, limitedTemperature, solveModelColumn, temperatureAtDepth, lithostaticPressureMPa } from '../../shared/thermal/index.ts';
 
 describe('index-mineral zones (Barrovian order, docs/sources.md#barrovian-zones [checked order])', () => {
   it('orders chlorite < biotite < garnet < staurolite < kyanite < sillimanite', () => {
@@ -114,18 +114,22 @@ describe('solidus curves', () => {
     expect(isWetGraniteSolidusApproximate(1)).toBe(true);
     expect(isWetGraniteSolidusApproximate(5)).toBe(false);
   });
-  it('finds where a geotherm crosses each solidus', () => {
-    const cm = compileModel({
-      surfaceTemperatureC: 10,
-      surfaceHeatFlowMWm2: 90,
-      layers: [{ bottomKm: 80, conductivityWmK: 2.5, heatProductionUWm3: 0.3, densityKgM3: 2900 }],
-    });
-    const st = solveModelColumn(cm);
-    const c = solidusCrossings(cm, st, 80, 0.1);
-    expect(Math.abs(temperatureAtDepth(cm, c.wetGranite) - wetGraniteSolidusC(lithostaticPressureMPa(cm, c.wetGranite) / 100))).toBeLessThan(1e-3);
-    expect(Math.abs(temperatureAtDepth(cm, c.dryPeridotite) - dryPeridotiteSolidusC(lithostaticPressureMPa(cm, c.dryPeridotite) / 1000))).toBeLessThan(1e-3);
-    expect(c.wetGranite).toBeLessThan(c.dryPeridotite);
-    expect(temperatureAtDepth(cm, c.wetGranite - 0.05)).toBeLessThan(wetGraniteSolidusC(lithostaticPressureMPa(cm, c.wetGranite - 0.05) / 100));
+  it('finds where a geotherm crosses the solidus of the rock it is in (wet granite in felsic crust, dry peridotite in mantle)', () => {
+    const layer = { bottomKm: 80, conductivityWmK: 2.5, heatProductionUWm3: 0.3, densityKgM3: 2900 };
+    const felsic = compileModel({ surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 90, layers: [layer] });
+    const st = solveModelColumn(felsic);
+    const lim = columnLimits(felsic, st, 80, 0.1);
+    const zw = lim.wetSolidusKm;
+    expect(Math.abs(temperatureAtDepth(felsic, zw) - wetGraniteSolidusC(lithostaticPressureMPa(felsic, zw) / 100))).toBeLessThan(1e-3);
+    expect(temperatureAtDepth(felsic, zw - 0.05)).toBeLessThan(wetGraniteSolidusC(lithostaticPressureMPa(felsic, zw - 0.05) / 100));
+    expect(zw).toBeLessThan(lim.meltOnsetKm);
+    const mantle = compileModel({ surfaceTemperatureC: 10, surfaceHeatFlowMWm2: 90, layers: [{ ...layer, rock: 'mantle' }] });
+    const sm = solveModelColumn(mantle);
+    const lm = columnLimits(mantle, sm, 80, 0.1);
+    const zd = lm.meltOnsetKm;
+    expect(zd).toBeGreaterThan(0);
+    expect(Math.abs(limitedTemperature(mantle, sm, lm, zd) - dryPeridotiteSolidusC(lithostaticPressureMPa(mantle, zd) / 1000))).toBeLessThan(1e-3);
+    expect(limitedTemperature(mantle, sm, lm, zd - 0.05)).toBeLessThan(dryPeridotiteSolidusC(lithostaticPressureMPa(mantle, zd - 0.05) / 1000));
   });
 });
 
