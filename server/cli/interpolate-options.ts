@@ -3,7 +3,7 @@
  * engine's InterpolationOptions (every choice checked here, with errors naming the option).
  */
 import { InputError } from '../../shared/errors.ts';
-import { parseVariogramOption, parseAnisotropyOption } from '../../shared/schema/interp.ts';
+import { parseVariogramOption, parseAnisotropyOption, parseTrendOption } from '../../shared/schema/interp.ts';
 import { WGS84_DEF } from '../../shared/interp/projection.ts';
 import type { InterpolationOptions } from '../../shared/interp/interpolate.ts';
 import { parseVerbArgs, numberOption } from './args.ts';
@@ -29,6 +29,7 @@ export const INTERPOLATE_OPTIONS = {
   'lag-km': { type: 'string' },
   'max-lag-km': { type: 'string' },
   anisotropy: { type: 'string' },
+  trend: { type: 'string' },
   'measurement-error': { type: 'boolean', default: false },
   'error-field': { type: 'string' },
   faults: { type: 'string' },
@@ -45,7 +46,7 @@ export const INTERPOLATE_OPTIONS = {
   workers: { type: 'string' },
 } as const;
 
-export const INTERPOLATE_HELP = `subtherm interpolate: grid a point field by IDW or ordinary kriging
+export const INTERPOLATE_HELP = `subtherm interpolate: grid a point field by IDW, ordinary or universal kriging
 
   --points P.geojson|P.csv   points (GeoJSON, GeoPackage .gpkg, zipped Shapefile .zip, or CSV with
                              longitude,latitude or x,y / easting,northing + --points-crs)
@@ -63,6 +64,9 @@ export const INTERPOLATE_HELP = `subtherm interpolate: grid a point field by IDW
   --variogram auto|spherical|exponential|gaussian|MODEL:NUGGET,PARTIAL_SILL,RANGE_KM
   --lag-km KM --max-lag-km KM   empirical semivariogram lags
   --anisotropy ANGLE_DEG,RATIO  geometric anisotropy (major-axis azimuth, minor/major range ratio)
+  --trend none|linear|quadratic|auto   drift of the mean in the coordinates (kriging; default none):
+                             universal kriging with the variogram fitted on least-squares residuals; auto picks
+                             the lowest leave-one-out RMSE and lists every drift's RMSE and MSDR
   --error-field FIELD        per-point measurement standard deviation (e.g. uncertaintyMWm2): its square goes on
                              the kriging diagonal, the nugget is split into that known error and a micro-scale
                              part, maps and sd are of the true field (error-filtered)
@@ -179,6 +183,7 @@ export function interpolationOptions(
     lagKm: opt('lag-km'),
     maxLagKm: opt('max-lag-km'),
     anisotropy: parseAnisotropyOption(a.anisotropy),
+    trend: parseTrendOption(a.trend),
     measurementError: errorField !== undefined,
     faults: inputs.faults,
     region: inputs.region,

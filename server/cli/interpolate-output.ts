@@ -8,6 +8,13 @@ import { CAUTION } from '../../shared/caution.ts';
 import { gridSummary, type InterpolationOptions, type InterpolationResult } from '../../shared/interp/interpolate.ts';
 import { writeGeoTiffFile } from '../io/geotiff.ts';
 
+/** The method's name for file descriptions: IDW, ordinary kriging, or universal kriging with its drift. */
+export function krigingName(method: 'idw' | 'kriging', result: Pick<InterpolationResult, 'variogram'>): string {
+  if (method === 'idw') return 'inverse-distance weighting';
+  const kind = result.variogram?.trend?.kind ?? 'none';
+  return kind === 'none' ? 'ordinary kriging' : `universal kriging (${kind} drift)`;
+}
+
 /** Cross-validation for output: the residual list only with --residuals (it can be long). */
 export function cvOut(cv: InterpolationResult['crossValidation'], residuals: boolean) {
   if (cv === null) return null;
@@ -25,6 +32,7 @@ export function surfaceProvenance(field: string, options: InterpolationOptions, 
     field,
     units: options.units,
     variogram: v === null ? null : { model: v.model, nugget: v.nugget, partialSill: v.partialSill, rangeKm: v.rangeKm, anisotropy: v.anisotropy },
+    trend: v?.trend === undefined ? null : { kind: v.trend.kind, selectedBy: v.trend.selectedBy, ols: v.trend.ols },
     neighbors: options.neighbors ?? (options.method === 'idw' ? 12 : 16),
     power: options.method === 'idw' ? (options.power ?? 2) : undefined,
     inputSha256: hashes,
@@ -41,7 +49,7 @@ export async function writeSurfaceFiles(
   provenance: ReturnType<typeof surfaceProvenance>,
 ): Promise<string[]> {
   await writeGeoTiffFile(name, result.grid, {
-    description: `${field} (${options.units || 'value'}), ${options.method === 'idw' ? 'inverse-distance weighting' : 'ordinary kriging'}`,
+    description: `${field} (${options.units || 'value'}), ${krigingName(options.method, result)}`,
     metadata: provenance,
   });
   const files = [name];
@@ -72,6 +80,11 @@ export function printSurface(field: string, body: ReturnType<typeof surfaceBody>
   );
   const v = body.variogram;
   if (v) out(`variogram ${v.model}: nugget ${v.nugget}, partial sill ${v.partialSill}, range ${v.rangeKm} km`);
+  const t = v?.trend;
+  if (t) {
+    const side = (t.candidates ?? []).map((c) => `${c.kind} ${c.cvRmse === null ? `(${c.problem})` : `RMSE ${c.cvRmse.toPrecision(4)}`}`).join(', ');
+    out(`trend ${t.kind} (${t.selectedBy === 'cross-validation' ? `auto, by leave-one-out RMSE: ${side}` : 'given'})`);
+  }
   const cv = body.crossValidation;
   if (cv) out(`cross-validation: RMSE ${cv.rmse}, mean error ${cv.meanError}, MSDR ${cv.meanSquaredDeviationRatio ?? '-'}`);
   for (const f of body.files) out(`wrote ${f}`);

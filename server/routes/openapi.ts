@@ -1,6 +1,7 @@
 /** GET /api/openapi.json: an OpenAPI 3.1 description of the API, its request bodies generated from the zod schemas. */
 import type { Hono } from 'hono';
 import { z } from 'zod';
+import { interpolationOptionsSchema } from '../../shared/schema/interp.ts';
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import { thermalModelSchema } from '../../shared/schema/model.ts';
 import { VERSION } from '../../shared/version.ts';
@@ -328,6 +329,8 @@ export function openApiDocument(): unknown {
       '/api/terrain/{z}/{x}/{y}.png': { get: op('terrain raster-dem tile', { params: ['z', 'x', 'y'], okType: 'image/png', errors: [400, 404] }) },
     },
     'x-thermal-model': json(thermalModelSchema),
+    /** The run request's `interpolation` member (runs validate it with this schema): method, variogram, trend, …. */
+    'x-interpolation-options': json(interpolationOptionsSchema),
   };
   return cached;
 }

@@ -13,7 +13,7 @@
 import type { Grid } from '../../shared/grid/grid.ts';
 import { runSummarySchema, type HeatFlowCentralValues, type RunRequest, type RunSummary, type StructureSummary } from '../../shared/schema/run.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
-import { prepareInterpolation, type InterpolationResult, type PreparedInterpolation } from '../../shared/interp/interpolate.ts';
+import { prepareInterpolation, type InterpolationResult, type PreparedInterpolation, type TrendReport } from '../../shared/interp/interpolate.ts';
 import { heatFlowSurface } from '../../shared/products/heat-flow-surface.ts';
 import { computeThermalProducts, gridToLonLat, tileRowsFor, type ThermalProductsResult } from '../../shared/products/thermal-products.ts';
 import { buildProvenance, type Provenance } from '../../shared/products/provenance.ts';
@@ -79,6 +79,23 @@ function variogramParameters(interp: InterpolationResult) {
   return v ? { model: v.model, nugget: v.nugget, partialSill: v.partialSill, rangeKm: v.rangeKm } : null;
 }
 
+/** The drift for the provenance: kind, how chosen and the least-squares trend (null for IDW). */
+function trendParameters(interp: InterpolationResult) {
+  const t = interp.variogram?.trend;
+  return t ? { kind: t.kind, selectedBy: t.selectedBy, ols: t.ols } : null;
+}
+
+/** The run summary's drift: kind, how chosen, the trend's explained variance, and auto's candidates. */
+function trendSummary(t: TrendReport): NonNullable<RunSummary['interpolation']['trend']> {
+  const out: NonNullable<RunSummary['interpolation']['trend']> = {
+    kind: t.kind,
+    selectedBy: t.selectedBy,
+    explainedVarianceFraction: t.ols === null ? null : finiteOrNull(t.ols.explainedVarianceFraction),
+  };
+  if (t.candidates) out.candidates = t.candidates.map((c) => ({ ...c, cvRmse: finiteOrNull(c.cvRmse), msdr: finiteOrNull(c.msdr) }));
+  return out;
+}
+
 function runProvenance(inp: RunInputs, interp: InterpolationResult): Provenance {
   const g = interp.grid;
   const parameters = {
@@ -91,6 +108,7 @@ function runProvenance(inp: RunInputs, interp: InterpolationResult): Provenance 
     grid: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: inp.crs },
     interpolation: inp.interpolation,
     variogram: variogramParameters(interp),
+    trend: trendParameters(interp),
   };
   return buildProvenance({ method: 'run', model: inp.doc.model, modelName: inp.doc.name, inputs: inp.hashes, parameters }, sha256Hex);
 }
@@ -122,7 +140,11 @@ function runSummary(
       crs: inp.crs,
       cellKm: interp.cellKm,
     },
-    interpolation: { method: inp.interpolation.method, variogram: v ? { ...variogramParameters(interp)!, source: v.source, empirical: v.empirical } : null },
+    interpolation: {
+      method: inp.interpolation.method,
+      variogram: v ? { ...variogramParameters(interp)!, source: v.source, empirical: v.empirical } : null,
+      ...(v?.trend ? { trend: trendSummary(v.trend) } : {}),
+    },
     crossValidation: cv
       ? {
           n: cv.n,

@@ -43,7 +43,7 @@ export function interpolationMethodText(interp: InterpolationResult, method: 'id
   const v = interp.variogram;
   const barriers = withFaults ? ', faults as barriers' : '';
   return method === 'kriging'
-    ? `ordinary kriging of surface heat flow (${v?.model} semivariogram, nugget ${v?.nugget.toFixed(3)}, partial sill ${v?.partialSill.toFixed(3)}, range ${v?.rangeKm.toFixed(2)} km, Cressie 1985 fit)${barriers}`
+    ? `${v?.trend !== undefined && v.trend.kind !== 'none' ? `universal kriging (${v.trend.kind} drift, variogram of least-squares residuals)` : 'ordinary kriging'} of surface heat flow (${v?.model} semivariogram, nugget ${v?.nugget.toFixed(3)}, partial sill ${v?.partialSill.toFixed(3)}, range ${v?.rangeKm.toFixed(2)} km, Cressie 1985 fit)${barriers}`
     : `inverse-distance weighting of surface heat flow (Shepard 1968)${barriers}`;
 }
 

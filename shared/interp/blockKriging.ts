@@ -4,6 +4,7 @@ import { choleskyInPlace, choleskySolve } from './linalg.ts';
 import { lonLatToLocalKm } from './projection.ts';
 import type { PreparedInterpolation } from './interpolate.ts';
 import { anisotropyMatrix, covariance, checkVariogram, type Anisotropy, type VariogramModel } from './variogram.ts';
+import { driftAt, driftFrame, DriftSystem, type TrendKind } from './drift.ts';
 
 /**
  * Ordinary block kriging of the mean over a polygon (Journel & Huijbregts 1978, §V.A.2; Isaaks & Srivastava 1989,
@@ -13,6 +14,9 @@ import { anisotropyMatrix, covariance, checkVariogram, type Anisotropy, type Var
  * λᵀz and its kriging variance σ²_V = C̄(V, V) − λᵀc̄ − μ. All data take part (a global neighbourhood): the block
  * estimate is then exactly the mean of the point-kriging estimates at the discretisation points.
  * Coordinates in local km (untransformed); the anisotropy map is applied inside.
+ * With a drift (universal block kriging, drift.ts) the constant's row becomes the drift monomials' rows, with the
+ * monomials' mean over the discretisation points on the right-hand side: C·λ + F·μ = c̄, Fᵀλ = f̄;
+ * σ²_V = C̄(V, V) − λᵀc̄ − μᵀf̄.
  */
 
 export interface BlockDiscretisation {
@@ -81,6 +85,7 @@ export class BlockKriging {
   private readonly dy: Float64Array;
   private readonly z: Float64Array;
   private readonly m: [number, number, number, number];
+  private readonly drift: DriftSystem | null;
 
   constructor(
     x: Float64Array,
@@ -89,6 +94,7 @@ export class BlockKriging {
     private readonly model: VariogramModel,
     anisotropy: Anisotropy | null = null,
     errorVariance: Float64Array | null = null,
+    trend: TrendKind = 'none',
   ) {
     checkVariogram(model);
     const n = x.length;
@@ -119,6 +125,21 @@ export class BlockKriging {
     this.b = new Float64Array(n);
     choleskySolve(L, n, n, new Float64Array(n).fill(1), this.b);
     this.s = this.b.reduce((a, v) => a + v, 0);
+    this.drift = null;
+    if (trend !== 'none') {
+      this.drift = new DriftSystem(driftFrame(trend, this.dx, this.dy), n);
+      if (
+        !this.drift.build(
+          L,
+          n,
+          this.dx,
+          this.dy,
+          z,
+          Int32Array.from({ length: n }, (_, i) => i),
+        )
+      )
+        throw new RangeError(`the ${trend} drift is singular on these points: block kriging cannot be solved`);
+    }
   }
 
   estimate(d: BlockDiscretisation): BlockEstimate {
@@ -144,16 +165,38 @@ export class BlockKriging {
     cvv /= N * N;
     const w = new Float64Array(n);
     choleskySolve(this.L, n, n, cbar, w);
-    const mu = (w.reduce((a, v) => a + v, 0) - 1) / this.s;
+    let driftTerm: number;
+    if (this.drift === null) {
+      const mu = (w.reduce((a, v) => a + v, 0) - 1) / this.s;
+      for (let i = 0; i < n; i++) w[i] -= mu * this.b[i];
+      driftTerm = mu;
+    } else {
+      const fbar = this.blockDrift(ux, uy);
+      this.drift.solveWith(cbar, n, fbar, new Float64Array(2));
+      this.drift.subtractDrift(w, n);
+      driftTerm = 0;
+      for (let j = 0; j < this.drift.p; j++) driftTerm += this.drift.mu[j] * fbar[j];
+    }
     let value = 0,
       lc = 0;
     for (let i = 0; i < n; i++) {
-      const lam = w[i] - mu * this.b[i];
-      value += lam * this.z[i];
-      lc += lam * cbar[i];
+      value += w[i] * this.z[i];
+      lc += w[i] * cbar[i];
     }
-    const v = cvv - lc - mu;
+    const v = cvv - lc - driftTerm;
     return { value, sd: Math.sqrt(v > 0 ? v : 0), blockVariance: cvv, points: N };
+  }
+
+  /** The drift monomials' mean over a block's discretisation points (transformed coordinates). */
+  private blockDrift(ux: Float64Array, uy: Float64Array): Float64Array {
+    const p = this.drift!.p;
+    const fbar = new Float64Array(p),
+      f = new Float64Array(p);
+    for (let k = 0; k < ux.length; k++) {
+      driftAt(this.drift!.frame, ux[k], uy[k], f);
+      for (let j = 0; j < p; j++) fbar[j] += f[j] / ux.length;
+    }
+    return fbar;
   }
 }
 
@@ -180,7 +223,7 @@ export function blockEstimates(
       [{ field: 'block', problem: `expected at most ${plan.maxGlobal} points` }],
       'too_many_points',
     );
-  const bk = new BlockKriging(plan.x, plan.y, plan.z, plan.variogram, plan.anisotropy, plan.errorVariance);
+  const bk = new BlockKriging(plan.x, plan.y, plan.z, plan.variogram, plan.anisotropy, plan.errorVariance, plan.trend ?? 'none');
   return polygons.map((poly) => {
     const rings = poly.rings.map((ring) => {
       const lon = ring.map((p) => p[0]),

@@ -169,13 +169,18 @@ export class DriftSystem {
    * variance term μᵀr] into `out`.
    */
   solveAt(c0: Float64Array, n: number, qx: number, qy: number, out: Float64Array): void {
-    const { p, B, r, mu, maxN } = this;
     driftAt(this.frame, qx, qy, this.f0);
+    this.solveWith(c0, n, this.f0, out);
+  }
+
+  /** As `solveAt` with the drift vector f₀ given (e.g. the monomials' mean over a block). */
+  solveWith(c0: Float64Array, n: number, f0: Float64Array, out: Float64Array): void {
+    const { p, B, r, mu, maxN } = this;
     for (let j = 0; j < p; j++) {
       let s = 0;
       const o = j * maxN;
       for (let i = 0; i < n; i++) s += c0[i] * B[o + i];
-      r[j] = s - this.f0[j];
+      r[j] = s - f0[j];
     }
     choleskySolve(this.S, p, p, r, mu);
     out[0] = dot(mu, this.g, p);

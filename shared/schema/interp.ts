@@ -6,6 +6,7 @@ import { parseFeatureCollection } from './features.ts';
 import { pointGeometry, lonLat } from './geojson.ts';
 import { VARIOGRAM_MODELS, type VariogramModel, type VariogramModelName } from '../interp/variogram.ts';
 import type { PointData } from '../interp/interpolate.ts';
+import { TREND_KINDS, type TrendKind } from '../interp/drift.ts';
 
 /** Contracts of the interpolation engine's inputs (CLI and HTTP validate with these). */
 
@@ -37,6 +38,11 @@ export const interpolationOptionsSchema = z.object({
   lagKm: z.number().gt(0).optional(),
   maxLagKm: z.number().gt(0).optional(),
   anisotropy: anisotropySchema.nullable().optional(),
+  /**
+   * Drift of the mean for kriging: none (ordinary kriging), linear or quadratic in the coordinates (universal
+   * kriging; the variogram is fitted on least-squares residuals), or auto (the lowest leave-one-out RMSE).
+   */
+  trend: z.enum([...TREND_KINDS, 'auto']).optional(),
   measurementError: z.boolean().optional(),
   maxDistanceKm: z.number().gt(0).nullable().optional(),
   bbox: z.tuple([z.number(), z.number(), z.number(), z.number()]).optional(),
@@ -74,6 +80,18 @@ export function parseVariogramOption(raw: string | undefined): 'auto' | Variogra
     );
   }
   return r.data;
+}
+
+/** Parses `--trend none|linear|quadratic|auto` (default none). */
+export function parseTrendOption(raw: string | undefined): TrendKind | 'auto' {
+  if (raw === undefined) return 'none';
+  const t = raw.trim().toLowerCase();
+  if (t === 'auto' || (TREND_KINDS as readonly string[]).includes(t)) return t as TrendKind | 'auto';
+  throw new InputError(
+    `--trend must be none, linear, quadratic or auto, got "${raw}"`,
+    [{ field: 'trend', problem: 'expected none, linear, quadratic or auto' }],
+    'bad_option',
+  );
 }
 
 /** Parses `--anisotropy ANGLE_DEG,RATIO`. */

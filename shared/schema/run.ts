@@ -117,6 +117,29 @@ export const variogramSummarySchema = z.strictObject({
 });
 export type VariogramSummary = z.infer<typeof variogramSummarySchema>;
 
+/**
+ * The drift of the mean the kriging used (shared/interp/drift.ts): none (ordinary kriging), or a linear or quadratic
+ * polynomial in the coordinates (universal kriging, the variogram fitted on least-squares residuals); how it was
+ * chosen; with auto, each drift's leave-one-out RMSE (mW/m²) and MSDR side by side.
+ */
+export const trendSummarySchema = z.strictObject({
+  kind: z.enum(['none', 'linear', 'quadratic']),
+  selectedBy: z.enum(['given', 'cross-validation']),
+  /** Fraction of the sites' variance the least-squares trend explains (null for none). */
+  explainedVarianceFraction: z.number().nullable(),
+  candidates: z
+    .array(
+      z.strictObject({
+        kind: z.enum(['none', 'linear', 'quadratic']),
+        model: z.enum(VARIOGRAM_MODELS).nullable(),
+        cvRmse: z.number().nullable(),
+        msdr: z.number().nullable(),
+        problem: z.string().nullable(),
+      }),
+    )
+    .optional(),
+});
+
 /** Leave-one-out cross-validation of the heat-flow interpolation (mW/m² for the errors; ratios unitless). */
 export const crossValidationSummarySchema = z.strictObject({
   n: z.number().int().min(0),
@@ -217,7 +240,12 @@ export const runProvenanceSummarySchema = z.strictObject({
 
 export const runSummarySchema = z.strictObject({
   grid: runGridSummarySchema,
-  interpolation: z.strictObject({ method: interpolationOptionsSchema.shape.method, variogram: variogramSummarySchema.nullable() }),
+  interpolation: z.strictObject({
+    method: interpolationOptionsSchema.shape.method,
+    variogram: variogramSummarySchema.nullable(),
+    /** Kriging runs: the drift of the mean (absent for IDW and for runs made before drifts existed). */
+    trend: trendSummarySchema.optional(),
+  }),
   crossValidation: crossValidationSummarySchema.nullable(),
   isothermsC: z.array(z.number()),
   depthsKm: z.array(z.number()),

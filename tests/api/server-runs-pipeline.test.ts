@@ -57,6 +57,26 @@ describe('runs with the real pipeline', () => {
     expect(await store.getRunGrid(runId, 'heatFlow')).not.toBeNull();
   }, 60_000);
 
+  it("a run with interpolation.trend auto records the chosen drift and every drift's leave-one-out RMSE in its summary", async () => {
+    const res = await post('/api/runs', { ...REQUEST, seed: 13, realizations: 4, interpolation: { method: 'kriging', trend: 'auto' } });
+    expect(res.status).toBe(202);
+    const posted = (await res.json()) as { id: string };
+    const run = await waitEnd(posted.id);
+    expect(run.status).toBe('done');
+    const view = (await (await app.request(`/api/runs/${posted.id}`)).json()) as { summary: unknown; warnings: string[] };
+    expect(view.warnings.join(' ')).toContain('interpolation.trend auto shapes the kriged heat-flow map only');
+    const summary = runSummarySchema.parse(view.summary);
+    const trend = summary.interpolation.trend!;
+    expect(trend.selectedBy).toBe('cross-validation');
+    expect(trend.candidates!.map((c) => c.kind)).toEqual(['none', 'linear', 'quadratic']);
+    const rmses = trend.candidates!.filter((c) => c.cvRmse !== null).map((c) => c.cvRmse!);
+    expect(summary.crossValidation!.rmse).toBe(Math.min(...rmses));
+    expect(trend.candidates!.find((c) => c.kind === trend.kind)!.cvRmse).toBe(summary.crossValidation!.rmse);
+    const bad = await post('/api/runs', { ...REQUEST, seed: 14, interpolation: { method: 'kriging', trend: 'cubic' } });
+    expect(bad.status).toBe(422);
+    expect(await bad.text()).toContain('"field":"trend"');
+  }, 90_000);
+
   it('serves raster-dem tiles of a run layer and a heat-in-place report over the run (mounted sub-apps)', async () => {
     const info = await app.request(`/api/runs/${runId}/tiles/heat-flow.json`);
     expect(info.status).toBe(200);

@@ -74,6 +74,29 @@ describe('subtherm interpolate', () => {
     expect(r.caution).toContain('Screening estimates only');
   });
 
+  it('--trend: universal kriging recorded in the JSON and the GeoTIFF metadata; auto lists every drift; a bad value exits 2', async () => {
+    // The sites' values are 50 + 3i + 2j plus a small periodic part: a plane the linear drift takes up exactly.
+    const pts = file('p-trend.geojson', { type: 'FeatureCollection', features: sites });
+    const out = join(dir, 'hf-trend.tif');
+    const lin = await run(['--points', pts, '--method', 'kriging', '--cell-km', '2', '--trend', 'linear', '--out', out]);
+    expect(lin.code).toBe(0);
+    expect(lin.json.variogram.trend).toMatchObject({ kind: 'linear', selectedBy: 'given' });
+    expect(lin.json.variogram.trend.ols.explainedVarianceFraction).toBeGreaterThan(0.9);
+    const r = await readGeoTiff(bytes(out));
+    expect(r.metadata.trend).toMatchObject({ kind: 'linear', selectedBy: 'given' });
+    const auto = await run(['--points', pts, '--method', 'kriging', '--cell-km', '2', '--trend', 'auto', '--sd', 'none']);
+    expect(auto.code).toBe(0);
+    const t = auto.json.variogram.trend;
+    expect(t.selectedBy).toBe('cross-validation');
+    expect(t.candidates.map((c: { kind: string }) => c.kind)).toEqual(['none', 'linear', 'quadratic']);
+    const best = Math.min(...t.candidates.map((c: { cvRmse: number }) => c.cvRmse));
+    expect(auto.json.crossValidation.rmse).toBe(best);
+    expect(t.kind).not.toBe('none');
+    const bad = await run(['--points', pts, '--method', 'kriging', '--trend', 'cubic']);
+    expect(bad.code).toBe(2);
+    expect(JSON.stringify(bad.json)).toContain('--trend must be none, linear, quadratic or auto');
+  });
+
   it('--at predicts at target points only, exact at a data point', async () => {
     const pts = file('p2.geojson', { type: 'FeatureCollection', features: sites });
     const at = file('t.geojson', { type: 'FeatureCollection', features: [site('on-site', -128, -38, {}), site('between', -127.975, -37.975, {})] });

@@ -5,6 +5,7 @@ import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import { Matrix, solve } from 'ml-matrix';
 import { KrigingPredictor } from '../../shared/interp/kriging.ts';
+import { BlockKriging, discretisePolygon } from '../../shared/interp/blockKriging.ts';
 import { crossValidateKriging } from '../../shared/interp/crossValidation.ts';
 import { driftFrame, type TrendKind } from '../../shared/interp/drift.ts';
 import { covariance, type VariogramModel } from '../../shared/interp/variogram.ts';
@@ -13,8 +14,9 @@ import { simulateUnconditional } from '../../shared/interp/simulation.ts';
 import { lonLatToLocalKm, localProjectionFor } from '../../shared/interp/projection.ts';
 import { prng } from '../helpers/prng.ts';
 
-// Universal kriging (Matheron 1969; Goovaerts 1997 §5.3, "kriging with a trend model"; docs/sources.md#universal-
-// kriging) checked two ways, both outside the project: (1) the bordered system [C F; Fᵀ 0]·[λ; μ] = [c₀; f₀] with
+// Universal kriging (Matheron 1969; Goovaerts 1997 §5.3, "kriging with a trend model";
+// docs/sources.md#universal-kriging) checked two ways, both outside the project: (1) the bordered system
+// [C F; Fᵀ 0]·[λ; μ] = [c₀; f₀] with
 // raw monomials 1, x, y[, x², xy, y²], solved densely by ml-matrix's LU in this file; (2) R's gstat (Debian
 // r-cran-gstat; Pebesma 2004), krige() with formula z ~ x + y [+ I(x^2) + I(x*y) + I(y^2)] and krige.cv().
 
@@ -277,4 +279,61 @@ describe('prepareInterpolation / predictAtPoints with a trend', () => {
       prepareInterpolation(few, { method: 'kriging', trend: 'quadratic', variogram: { model: 'exponential', nugget: 0, partialSill: 1, rangeKm: 10 } }, false),
     ).toThrow(/quadratic trend has 6 coefficients and needs at least 8 distinct points, got 7/);
   });
+});
+
+// Universal block kriging (Journel & Huijbregts 1978 §V.A.2 with the drift rows of Goovaerts 1997 §5.3): checked
+// against the same dense bordered system with block-averaged covariances and monomials, solved by ml-matrix.
+describe('universal block kriging of the mean over a polygon', () => {
+  for (const kind of ['linear', 'quadratic'] as const)
+    it(`${kind} drift: block mean and variance equal a dense bordered solve; the mean is the mean of point estimates`, () => {
+      const ring = [
+        [20, 15],
+        [55, 18],
+        [50, 45],
+        [25, 40],
+        [20, 15],
+      ];
+      const d = discretisePolygon([ring])!;
+      const bk = new BlockKriging(DATA.x, DATA.y, DATA.z, MODEL, null, null, kind);
+      const e = bk.estimate(d);
+      const p = monomials(kind, 0, 0).length,
+        N2 = d.x.length;
+      const K = Matrix.zeros(N + p, N + p),
+        rhs = Matrix.zeros(N + p, 1);
+      for (let i = 0; i < N; i++) {
+        for (let j = 0; j < N; j++)
+          K.set(i, j, i === j ? MODEL.nugget + MODEL.partialSill : covariance(MODEL, Math.hypot(DATA.x[i] - DATA.x[j], DATA.y[i] - DATA.y[j])));
+        monomials(kind, DATA.x[i], DATA.y[i]).forEach((f, k) => {
+          K.set(i, N + k, f);
+          K.set(N + k, i, f);
+        });
+        let c = 0;
+        for (let k = 0; k < N2; k++) c += covariance(MODEL, Math.hypot(DATA.x[i] - d.x[k], DATA.y[i] - d.y[k])) / N2;
+        rhs.set(i, 0, c);
+      }
+      const fbar = new Array<number>(p).fill(0);
+      for (let k = 0; k < N2; k++) monomials(kind, d.x[k], d.y[k]).forEach((f, j) => (fbar[j] += f / N2));
+      fbar.forEach((f, j) => rhs.set(N + j, 0, f));
+      let cvv = 0;
+      for (let k = 0; k < N2; k++) for (let l = 0; l < N2; l++) cvv += covariance(MODEL, Math.hypot(d.x[k] - d.x[l], d.y[k] - d.y[l])) / (N2 * N2);
+      const sol = solve(K, rhs);
+      let est = 0,
+        v = cvv;
+      for (let i = 0; i < N; i++) {
+        est += sol.get(i, 0) * DATA.z[i];
+        v -= sol.get(i, 0) * rhs.get(i, 0);
+      }
+      for (let j = 0; j < p; j++) v -= sol.get(N + j, 0) * fbar[j];
+      expect(Math.abs(e.value - est)).toBeLessThan(1e-9 * Math.abs(est));
+      expect(Math.abs(e.sd * e.sd - v)).toBeLessThan(1e-9 * MODEL.partialSill);
+      // Linearity of the estimator: the block estimate is the mean of the point estimates at the discretisation.
+      const k = new KrigingPredictor(DATA.x, DATA.y, DATA.z, MODEL, { neighbors: Infinity, drift: driftFrame(kind, DATA.x, DATA.y) });
+      const out = new Float64Array(2);
+      let mean = 0;
+      for (let i = 0; i < N2; i++) {
+        k.predict(d.x[i], d.y[i], out, false);
+        mean += out[0] / N2;
+      }
+      expect(Math.abs(e.value - mean)).toBeLessThan(1e-9 * Math.abs(mean));
+    });
 });
