@@ -2,7 +2,7 @@
 import type { Hono } from 'hono';
 import { z } from 'zod';
 import { interpolationOptionsSchema } from '../../shared/schema/interp.ts';
-import { runRequestSchema } from '../../shared/schema/run.ts';
+import { runEndEventSchema, runProgressEventSchema, runRequestSchema, runSummarySchema } from '../../shared/schema/run.ts';
 import { thermalModelSchema } from '../../shared/schema/model.ts';
 import { VERSION } from '../../shared/version.ts';
 import { VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
@@ -11,6 +11,35 @@ import { heatFlowCorrectionRequestSchema } from '../../shared/heatflow/dataset-c
 import { columnAtRunSchema, columnOfModelSchema, datasetPatchSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
 
 const json = (schema: z.ZodType) => z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any', target: 'draft-2020-12' });
+/** The JSON Schema (2020-12, the dialect of OpenAPI 3.1) of what the server sends: a zod schema's output side. */
+function sent(schema: z.ZodType): Record<string, unknown> {
+  const { $schema: _dialect, ...rest } = z.toJSONSchema(schema, { io: 'output', unrepresentable: 'any', target: 'draft-2020-12' });
+  return rest;
+}
+const ref = (name: string) => ({ $ref: `#/components/schemas/${name}` });
+
+/** GET /api/runs/:id (server/routes/runs.ts runView): the run's state, its layers and, once done, its summary. */
+const runViewSchema = {
+  type: 'object',
+  required: ['id', 'status', 'progress', 'message', 'layers', 'summary'],
+  properties: {
+    id: { type: 'string' },
+    status: { type: 'string', enum: ['queued', 'running', 'done', 'failed', 'cancelled'] },
+    progress: { type: 'number', minimum: 0, maximum: 1 },
+    message: { type: 'string' },
+    position: { type: 'integer', minimum: 1, description: 'while queued: 1-based place in the fair start order' },
+    estimateSeconds: { type: ['number', 'null'], minimum: 0, description: 'while queued or running: seconds to the end; null until measured' },
+    layers: { type: 'array', items: { type: 'object', description: 'a layer: name, title, units, legend, formats and their URLs' } },
+    summary: {
+      anyOf: [ref('RunSummary'), { type: 'null' }],
+      description: 'the run summary (the run contract of shared/schema/run.ts); null until the run is done',
+    },
+    warnings: { type: 'array', items: { type: 'string' } },
+    request: { type: 'object', description: 'the run request as queued' },
+    createdAt: { type: 'string' },
+    updatedAt: { type: 'string' },
+  },
+};
 
 const errorSchema = {
   type: 'object',
@@ -122,7 +151,12 @@ export function openApiDocument(): unknown {
       description: 'Screening estimates from steady-state conduction; see the caution in GET /api/config.',
     },
     components: {
-      schemas: { Error: errorSchema },
+      schemas: {
+        Error: errorSchema,
+        RunSummary: sent(runSummarySchema),
+        RunProgressEvent: sent(runProgressEventSchema),
+        RunEndEvent: sent(runEndEventSchema),
+      },
       securitySchemes: { editToken: { type: 'http', scheme: 'bearer', description: 'the editToken returned by POST /api/projects' } },
     },
     paths: {
@@ -157,14 +191,22 @@ export function openApiDocument(): unknown {
         }),
       },
       '/api/runs/{id}': {
-        get: op('a run: status, progress, message, layers with URLs, summary', { params: ['id'], errors: [404] }),
+        get: op('a run: status, progress, message, layers with URLs, summary', { params: ['id'], okSchema: runViewSchema, errors: [404] }),
         delete: op(
           'cancel a queued or running run (Authorization: Bearer <runToken returned by POST /api/runs, or the editToken of the project that started it>)',
           { params: ['id'], auth: true, errors: [401, 403, 404, 409] },
         ),
       },
       '/api/runs/{id}/events': {
-        get: op('progress as Server-Sent Events (event: progress, then end)', { params: ['id'], okType: 'text/event-stream', errors: [404] }),
+        get: op(
+          'progress as Server-Sent Events: `event: progress` (data: RunProgressEvent) while queued or running, then one `event: end` (data: RunEndEvent)',
+          {
+            params: ['id'],
+            okType: 'text/event-stream',
+            okSchema: { type: 'string', 'x-event-data': { progress: ref('RunProgressEvent'), end: ref('RunEndEvent') } },
+            errors: [404],
+          },
+        ),
       },
       '/api/runs/{id}/layers/{file}': {
         get: op('a layer file: <name>.tif | .png | .geojson | .csv', { params: ['id', 'file'], okType: 'application/octet-stream', errors: [400, 404] }),

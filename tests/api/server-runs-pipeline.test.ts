@@ -1,6 +1,7 @@
 // Runs through the real run worker (server/workers/run-worker.ts and the pipeline), in-process: queue → worker
 // thread → stored layers and grids → column and section read from the stored grids; real progress, cancel of a
 // real run, and the cache.
+import Ajv from 'ajv';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
 import type { ColumnAnswer } from '../../shared/schema/column.ts';
@@ -44,6 +45,14 @@ describe('runs with the real pipeline', () => {
     const view = (await (await app.request(`/api/runs/${runId}`)).json()) as { summary: unknown };
     const summary = runSummarySchema.safeParse(view.summary);
     expect(summary.error).toBeUndefined();
+    // The same summary and events validate against the schemas GET /api/openapi.json publishes (read by ajv, an
+    // independent JSON Schema validator).
+    const published = ((await (await app.request('/api/openapi.json')).json()) as { components: { schemas: Record<string, object> } }).components.schemas;
+    const ajv = new Ajv({ allErrors: true });
+    const checkSummary = ajv.compile(published.RunSummary);
+    expect(checkSummary(view.summary), JSON.stringify(checkSummary.errors)).toBe(true);
+    const checkEvent = { progress: ajv.compile(published.RunProgressEvent), end: ajv.compile(published.RunEndEvent) };
+    for (const e of events) expect(checkEvent[e.event as keyof typeof checkEvent](e.data), `${e.event} ${JSON.stringify(e.data)}`).toBe(true);
     expect(summary.data!.interpolation.method).toBe('kriging');
     expect(summary.data!.interpolation.variogram!.empirical.length).toBeGreaterThan(0);
     expect(summary.data!.crossValidation!.n).toBeGreaterThan(0);
