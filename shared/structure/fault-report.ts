@@ -19,8 +19,13 @@
  *   points, at each end where it does (named by the compass direction of that end). A meeting point is where the
  *   side's indicator profile along the trace (evaluated just off the trace) crosses 0.5, refined by a local logistic
  *   regression (Cox 1958) of that side's sample indicators on position; its range is where the same profile lies
- *   between 0.1 and 0.9 (the isograd's probability band). The separation's range is the least and greatest distance
- *   between the two sides' ranges. Sense: apparent dextral or sinistral, and which side shows the isograd displaced
+ *   between 0.1 and 0.9 (the isograd's probability band). Each side's band is read as the 10–90 % interval of its
+ *   meeting point; the two sides' errors are independent, so the 10–90 % interval of their difference extends each
+ *   way by the root sum of squares of the two sides' band halves on that side (propagation of independent errors,
+ *   Taylor 1997, "An Introduction to Error Analysis", §3.6 [from memory]), and the separation's range is the least
+ *   and greatest |difference| over that interval. (Adding the halves, the bound of every combination, widens the
+ *   range where both bands are wide: at a fault's ends, where an isograd of the sparsely sampled outer dome meets
+ *   the trace obliquely and its probability profile along the trace rises slowly.) Sense: apparent dextral or sinistral, and which side shows the isograd displaced
  *   towards higher grade.
  * - with the fault's dip and dip direction and an isograd dip (given, the surface dipping towards lower grade), the
  *   dip-slip component for pure dip slip, d = s·tan r, r the pitch of the isograd's cutoff line on the fault plane
@@ -339,6 +344,19 @@ function linearHalfBand(prof: Float64Array, ok: Uint8Array, along: Float64Array,
 
 const DEG = Math.PI / 180;
 
+/**
+ * The 10–90 % interval (km) of the separation |s_a − s_b| of two meetings whose bands are independent 10–90 %
+ * intervals of their positions: the difference d = s_a − s_b extends below by √(a↓² + b↑²) and above by
+ * √(a↑² + b↓²) (a↓, a↑ the band's halves below and above s_a); the interval of |d| follows (0 when it spans 0).
+ */
+function separationInterval(a: Meeting, b: Meeting): [number, number] {
+  const d = a.alongKm - b.alongKm;
+  const dLo = d - Math.hypot(a.alongKm - a.bandAlongKm[0], b.bandAlongKm[1] - b.alongKm);
+  const dHi = d + Math.hypot(a.bandAlongKm[1] - a.alongKm, b.alongKm - b.bandAlongKm[0]);
+  const low = dLo <= 0 && dHi >= 0 ? 0 : Math.min(Math.abs(dLo), Math.abs(dHi));
+  return [low, Math.max(Math.abs(dLo), Math.abs(dHi))];
+}
+
 /** Unit normal of a plane of dip dipDeg towards azimuth dipDirDeg, in (x east, y north, z down). */
 function planeNormal(dipDeg: number, dipDirDeg: number): [number, number, number] {
   const d = dipDeg * DEG,
@@ -642,8 +660,7 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
       const fwdAz = q === null ? strikeDeg : (Math.atan2(q.tx, q.ty) / DEG + 360) % 360;
       const end = compassName(mid >= centre ? fwdAz : fwdAz + 180);
       const value = Math.abs(sl - sr);
-      const lowKm = Math.max(0, a.bandAlongKm[0] - b.bandAlongKm[1], b.bandAlongKm[0] - a.bandAlongKm[1]);
-      const highKm = Math.max(a.bandAlongKm[1] - b.bandAlongKm[0], b.bandAlongKm[1] - a.bandAlongKm[0]);
+      const [lowKm, highKm] = separationInterval(a, b);
       // Grade rises with s (sense +1): the side whose isograd lies further along is lower at the trace between them,
       // i.e. its isograd is displaced towards higher grade.
       const upSide: Side = a.sense > 0 ? (sr > sl ? 'right' : 'left') : sr < sl ? 'right' : 'left';
