@@ -1,4 +1,11 @@
+/**
+ * The team store: PostgreSQL behind the Store interface. Its schema and migrations are in postgres-schema.ts, the
+ * writes shared by its transactions and the grid bands in postgres-writes.ts, the rows it shares with the SQLite
+ * store in rows.ts.
+ */
 import pg from 'pg';
+import { migratePostgres } from './postgres-schema.ts';
+import { putBlobWith, putGridWith, putRunFileWith, readGridRows, updateRunWith } from './postgres-writes.ts';
 import type {
   DatasetRecord,
   ProjectDatasetRecord,
@@ -13,119 +20,15 @@ import type {
 } from './types.ts';
 import { bodyBbox } from './bbox.ts';
 import { newId, sha256Hex } from './sqlite.ts';
+import { bboxOf, datasetRecord, float32Of, projectDataset, runFromRow, runRowValues, type DatasetRow, type RunPatch, type RunRow } from './rows.ts';
 
-/**
- * Versioned schema migrations, applied in order at start (and by `subtherm migrate`); the table
- * `subtherm_migrations` records which ran. Revisions are append-only in the database itself (a trigger refuses
- * UPDATE and DELETE); a grid's Float32 values are kept in bands of rows (`grid_chunks`, bytea) so that a reader
- * takes only the bands a window covers.
- */
-export const PG_MIGRATIONS: { name: string; sql: string }[] = [
-  {
-    name: 'initial schema',
-    sql: `
-     CREATE TABLE datasets (
-       id TEXT PRIMARY KEY, kind TEXT NOT NULL, feature_count INTEGER NOT NULL, content_hash TEXT NOT NULL,
-       title TEXT, body TEXT NOT NULL, created_at TEXT NOT NULL, bbox TEXT
-     );
-     CREATE INDEX datasets_kind_hash ON datasets(kind, content_hash);
-     CREATE TABLE projects (id TEXT PRIMARY KEY, token_hash TEXT NOT NULL, created_at TEXT NOT NULL);
-     CREATE TABLE project_revisions (
-       project_id TEXT NOT NULL REFERENCES projects(id), revision INTEGER NOT NULL, title TEXT NOT NULL,
-       state TEXT NOT NULL, created_at TEXT NOT NULL, UNIQUE (project_id, revision)
-     );
-     CREATE FUNCTION project_revisions_append_only() RETURNS trigger LANGUAGE plpgsql AS $$
-       BEGIN RAISE EXCEPTION 'project revisions are append-only'; END $$;
-     CREATE TRIGGER project_revisions_no_change BEFORE UPDATE OR DELETE ON project_revisions
-       FOR EACH ROW EXECUTE FUNCTION project_revisions_append_only();
-     CREATE TABLE blobs (hash TEXT PRIMARY KEY, size INTEGER NOT NULL, bytes BYTEA NOT NULL);
-     CREATE TABLE runs (
-       id TEXT PRIMARY KEY, cache_key TEXT NOT NULL, request TEXT NOT NULL, status TEXT NOT NULL,
-       progress DOUBLE PRECISION NOT NULL, message TEXT NOT NULL, layers TEXT NOT NULL, summary TEXT,
-       warnings TEXT NOT NULL, model TEXT, grids TEXT NOT NULL, client TEXT NOT NULL, created_at TEXT NOT NULL,
-       updated_at TEXT NOT NULL
-     );
-     CREATE INDEX runs_cache_key ON runs(cache_key, created_at);
-     CREATE INDEX runs_status ON runs(status);
-     CREATE TABLE run_files (
-       run_id TEXT NOT NULL REFERENCES runs(id), name TEXT NOT NULL, ext TEXT NOT NULL,
-       blob_hash TEXT NOT NULL REFERENCES blobs(hash), content_type TEXT NOT NULL, PRIMARY KEY (run_id, name, ext)
-     );
-     CREATE TABLE run_grids (
-       run_id TEXT NOT NULL REFERENCES runs(id), name TEXT NOT NULL, meta TEXT NOT NULL,
-       band_rows INTEGER NOT NULL, PRIMARY KEY (run_id, name)
-     );
-     CREATE TABLE grid_chunks (
-       run_id TEXT NOT NULL, name TEXT NOT NULL, band INTEGER NOT NULL, bytes BYTEA NOT NULL,
-       PRIMARY KEY (run_id, name, band), FOREIGN KEY (run_id, name) REFERENCES run_grids(run_id, name) ON DELETE CASCADE
-     );
-     CREATE TABLE project_datasets (
-       project_id TEXT NOT NULL REFERENCES projects(id), dataset_id TEXT NOT NULL REFERENCES datasets(id),
-       name TEXT NOT NULL, attached_at TEXT NOT NULL, detached_at TEXT, PRIMARY KEY (project_id, dataset_id)
-     );
-     CREATE INDEX project_datasets_dataset ON project_datasets(dataset_id);
-     CREATE TABLE run_datasets (run_id TEXT NOT NULL REFERENCES runs(id), dataset_id TEXT NOT NULL, PRIMARY KEY (run_id, dataset_id));
-     CREATE INDEX run_datasets_dataset ON run_datasets(dataset_id);
-     CREATE TABLE project_runs (
-       project_id TEXT NOT NULL REFERENCES projects(id), run_id TEXT NOT NULL REFERENCES runs(id),
-       created_at TEXT NOT NULL, PRIMARY KEY (project_id, run_id)
-     );
-     CREATE TABLE project_terrain (
-       project_id TEXT PRIMARY KEY REFERENCES projects(id), blob_hash TEXT NOT NULL REFERENCES blobs(hash),
-       meta TEXT NOT NULL, created_at TEXT NOT NULL
-     );`,
-  },
-  {
-    // Several servers share one database: each run records the server that runs it, and each server says every few
-    // seconds that it is alive, so that only the runs of a server that stopped are marked failed.
-    name: 'run owners and server heartbeats',
-    sql: `
-     ALTER TABLE runs ADD COLUMN owner TEXT;
-     CREATE TABLE servers (id TEXT PRIMARY KEY, started_at TIMESTAMPTZ NOT NULL DEFAULT now(), seen_at TIMESTAMPTZ NOT NULL DEFAULT now());`,
-  },
-];
+export { PG_MIGRATIONS, migratePostgres } from './postgres-schema.ts';
 
 /** A server not seen for this long has stopped: its queued and running runs are failed (seconds). */
 export const SERVER_STALE_SECONDS = 30;
 const HEARTBEAT_MS = 5000;
 /** The `owner` of runs the Redis run queue carries: no server's heartbeat decides their fate. */
 const QUEUE_OWNER = 'queue';
-
-/** Rows of a grid kept per chunk: bands of at most this many bytes (whole rows). */
-const BAND_BYTES = 256 * 1024;
-
-type Client = pg.PoolClient | pg.Pool;
-
-/** Runs the migrations not yet recorded, each in its own transaction, under a lock so two servers never race. */
-export async function migratePostgres(pool: pg.Pool, log: (line: string) => void = () => {}): Promise<number> {
-  const client = await pool.connect();
-  let applied = 0;
-  try {
-    await client.query('SELECT pg_advisory_lock(7406202611)');
-    await client.query(
-      'CREATE TABLE IF NOT EXISTS subtherm_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TIMESTAMPTZ NOT NULL DEFAULT now())',
-    );
-    const done = new Set((await client.query<{ version: number }>('SELECT version FROM subtherm_migrations')).rows.map((r) => r.version));
-    for (let v = 1; v <= PG_MIGRATIONS.length; v++) {
-      if (done.has(v)) continue;
-      await client.query('BEGIN');
-      try {
-        await client.query(PG_MIGRATIONS[v - 1].sql);
-        await client.query('INSERT INTO subtherm_migrations (version, name) VALUES ($1, $2)', [v, PG_MIGRATIONS[v - 1].name]);
-        await client.query('COMMIT');
-      } catch (e) {
-        await client.query('ROLLBACK');
-        throw e;
-      }
-      applied++;
-      log(`migration ${v} (${PG_MIGRATIONS[v - 1].name}) applied`);
-    }
-  } finally {
-    await client.query('SELECT pg_advisory_unlock(7406202611)').catch(() => undefined);
-    client.release();
-  }
-  return applied;
-}
 
 /** The team store: a PostgreSQL database (node-postgres pool), migrated on open. */
 export class PostgresStore implements Store {
@@ -451,30 +354,11 @@ export class PostgresStore implements Store {
     await this.pool.query(
       `INSERT INTO runs (id, cache_key, request, status, progress, message, layers, summary, warnings, model, grids, client, created_at, updated_at, owner)
        VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15)`,
-      [
-        run.id,
-        run.cacheKey,
-        JSON.stringify(run.request),
-        run.status,
-        run.progress,
-        run.message,
-        JSON.stringify(run.layers),
-        run.summary === null ? null : JSON.stringify(run.summary),
-        JSON.stringify(run.warnings),
-        run.model === null || run.model === undefined ? null : JSON.stringify(run.model),
-        JSON.stringify(run.grids),
-        run.client,
-        run.createdAt,
-        run.updatedAt,
-        this.runOwner,
-      ],
+      [...runRowValues(run), this.runOwner],
     );
   }
 
-  async updateRun(
-    id: string,
-    patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>,
-  ): Promise<void> {
+  async updateRun(id: string, patch: RunPatch): Promise<void> {
     await updateRunWith(this.pool, id, patch);
   }
 
@@ -529,13 +413,7 @@ export class PostgresStore implements Store {
   }
 
   async getRunGrid(runId: string, name: string): Promise<{ meta: StoredGridMeta; values: Float32Array } | null> {
-    const g = await this.pool.query<{ meta: string; band_rows: number }>('SELECT meta, band_rows FROM run_grids WHERE run_id = $1 AND name = $2', [
-      runId,
-      name,
-    ]);
-    if (!g.rows[0]) return null;
-    const meta = JSON.parse(g.rows[0].meta) as StoredGridMeta;
-    return { meta, values: await this.readRows(runId, name, meta, g.rows[0].band_rows, 0, meta.height) };
+    return readGridRows(this.pool, runId, name, 0, Infinity);
   }
 
   /**
@@ -543,34 +421,7 @@ export class PostgresStore implements Store {
    * without the whole grid); null when the run has no such grid.
    */
   async getRunGridRows(runId: string, name: string, row0: number, row1: number): Promise<{ meta: StoredGridMeta; values: Float32Array } | null> {
-    const g = await this.pool.query<{ meta: string; band_rows: number }>('SELECT meta, band_rows FROM run_grids WHERE run_id = $1 AND name = $2', [
-      runId,
-      name,
-    ]);
-    if (!g.rows[0]) return null;
-    const meta = JSON.parse(g.rows[0].meta) as StoredGridMeta;
-    const a = Math.max(0, Math.min(meta.height, row0)),
-      b = Math.max(a, Math.min(meta.height, row1));
-    return { meta, values: await this.readRows(runId, name, meta, g.rows[0].band_rows, a, b) };
-  }
-
-  private async readRows(runId: string, name: string, meta: StoredGridMeta, bandRows: number, row0: number, row1: number): Promise<Float32Array> {
-    const out = new Float32Array((row1 - row0) * meta.width);
-    if (row1 <= row0) return out;
-    const first = Math.floor(row0 / bandRows),
-      last = Math.floor((row1 - 1) / bandRows);
-    const r = await this.pool.query<{ band: number; bytes: Buffer }>(
-      'SELECT band, bytes FROM grid_chunks WHERE run_id = $1 AND name = $2 AND band BETWEEN $3 AND $4 ORDER BY band',
-      [runId, name, first, last],
-    );
-    for (const { band, bytes } of r.rows) {
-      const values = float32Of(bytes);
-      const bandStart = band * bandRows;
-      const from = Math.max(row0, bandStart),
-        to = Math.min(row1, bandStart + values.length / meta.width);
-      if (to > from) out.set(values.subarray((from - bandStart) * meta.width, (to - bandStart) * meta.width), (from - row0) * meta.width);
-    }
-    return out;
+    return readGridRows(this.pool, runId, name, row0, row1);
   }
 
   async storeRunResult(
@@ -596,122 +447,9 @@ export class PostgresStore implements Store {
   }
 }
 
-async function putBlobWith(c: Client, bytes: Uint8Array): Promise<string> {
-  const hash = sha256Hex(bytes);
-  await c.query('INSERT INTO blobs (hash, size, bytes) VALUES ($1, $2, $3) ON CONFLICT (hash) DO NOTHING', [
-    hash,
-    bytes.byteLength,
-    Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength),
-  ]);
-  return hash;
-}
-
-async function putRunFileWith(c: Client, runId: string, name: string, ext: string, hash: string, contentType: string): Promise<void> {
-  await c.query(
-    `INSERT INTO run_files (run_id, name, ext, blob_hash, content_type) VALUES ($1, $2, $3, $4, $5)
-     ON CONFLICT (run_id, name, ext) DO UPDATE SET blob_hash = excluded.blob_hash, content_type = excluded.content_type`,
-    [runId, name, ext, hash, contentType],
-  );
-}
-
-/** Stores a grid's values in bands of whole rows (replacing a grid of the same name). */
-async function putGridWith(c: pg.PoolClient, runId: string, name: string, meta: StoredGridMeta, values: Float32Array): Promise<void> {
-  const bandRows = Math.max(1, Math.floor(BAND_BYTES / (4 * Math.max(1, meta.width))));
-  await c.query('DELETE FROM run_grids WHERE run_id = $1 AND name = $2', [runId, name]);
-  await c.query('INSERT INTO run_grids (run_id, name, meta, band_rows) VALUES ($1, $2, $3, $4)', [runId, name, JSON.stringify(meta), bandRows]);
-  for (let band = 0, row = 0; row < meta.height; band++, row += bandRows) {
-    const part = values.subarray(row * meta.width, Math.min(meta.height, row + bandRows) * meta.width);
-    await c.query('INSERT INTO grid_chunks (run_id, name, band, bytes) VALUES ($1, $2, $3, $4)', [
-      runId,
-      name,
-      band,
-      Buffer.from(part.buffer, part.byteOffset, part.byteLength),
-    ]);
-  }
-}
-
-async function updateRunWith(
-  c: Client,
-  id: string,
-  patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>,
-): Promise<void> {
-  const json = new Set(['layers', 'summary', 'warnings', 'model', 'grids']);
-  const allowed = new Set(['status', 'progress', 'message', ...json]);
-  const sets: string[] = [];
-  const vals: unknown[] = [];
-  for (const [k, v] of Object.entries(patch)) {
-    if (v === undefined || !allowed.has(k)) continue;
-    vals.push(json.has(k) ? (v === null ? null : JSON.stringify(v)) : v);
-    sets.push(`${k} = $${vals.length}`);
-  }
-  vals.push(new Date().toISOString());
-  sets.push(`updated_at = $${vals.length}`);
-  vals.push(id);
-  await c.query(`UPDATE runs SET ${sets.join(', ')} WHERE id = $${vals.length}`, vals);
-}
-
-/** Float32 values of stored bytes, copied into an aligned buffer (a Buffer's offset need not be a multiple of 4). */
-function float32Of(bytes: Uint8Array): Float32Array {
-  const values = new Float32Array(bytes.byteLength / 4);
-  new Uint8Array(values.buffer).set(bytes);
-  return values;
-}
-
 const DATASET_COLUMNS = 'id, kind, feature_count, content_hash, title, created_at, bbox, octet_length(body) AS bytes';
 const DATASET_COLUMNS_D = 'd.id, d.kind, d.feature_count, d.content_hash, d.title, d.created_at, d.bbox, octet_length(d.body) AS bytes';
 
-interface DatasetRow {
-  id: string;
-  kind: string;
-  feature_count: number;
-  content_hash: string;
-  title: string | null;
-  created_at: string;
-  bbox: string | null;
-  bytes: number;
-}
-
 function datasetFromRow(r: DatasetRow): DatasetRecord {
-  const bbox = r.bbox === null ? null : (JSON.parse(r.bbox) as [number, number, number, number]);
-  return { id: r.id, kind: r.kind, featureCount: r.feature_count, contentHash: r.content_hash, title: r.title, createdAt: r.created_at, bbox, bytes: r.bytes };
-}
-
-function projectDataset(d: DatasetRecord, name: string, attachedAt: string): ProjectDatasetRecord {
-  return { id: d.id, kind: d.kind, name, featureCount: d.featureCount, contentHash: d.contentHash, bbox: d.bbox, bytes: d.bytes, uploadedAt: attachedAt };
-}
-
-interface RunRow {
-  id: string;
-  cache_key: string;
-  request: string;
-  status: RunStatus;
-  progress: number;
-  message: string;
-  layers: string;
-  summary: string | null;
-  warnings: string;
-  model: string | null;
-  grids: string;
-  client: string;
-  created_at: string;
-  updated_at: string;
-}
-
-function runFromRow(r: RunRow): RunRecord {
-  return {
-    id: r.id,
-    cacheKey: r.cache_key,
-    request: JSON.parse(r.request),
-    status: r.status,
-    progress: r.progress,
-    message: r.message,
-    layers: JSON.parse(r.layers) as unknown[],
-    summary: r.summary === null ? null : (JSON.parse(r.summary) as Record<string, unknown>),
-    warnings: JSON.parse(r.warnings) as string[],
-    model: r.model === null ? null : JSON.parse(r.model),
-    grids: JSON.parse(r.grids) as string[],
-    client: r.client,
-    createdAt: r.created_at,
-    updatedAt: r.updated_at,
-  };
+  return datasetRecord(r, bboxOf(r));
 }

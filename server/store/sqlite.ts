@@ -15,108 +15,19 @@ import type {
   StoredGridMeta,
 } from './types.ts';
 import { bodyBbox } from './bbox.ts';
-
-/** Schema migrations, applied in order; `PRAGMA user_version` records how many have run. */
-const MIGRATIONS: string[] = [
-  `CREATE TABLE datasets (
-     id TEXT PRIMARY KEY,
-     kind TEXT NOT NULL,
-     feature_count INTEGER NOT NULL,
-     content_hash TEXT NOT NULL,
-     title TEXT,
-     body TEXT NOT NULL,
-     created_at TEXT NOT NULL
-   );
-   CREATE INDEX datasets_hash ON datasets(content_hash);`,
-  // Projects: the row holds only what never changes; every save is a new revision row (append-only).
-  `CREATE TABLE projects (
-     id TEXT PRIMARY KEY,
-     token_hash TEXT NOT NULL,
-     created_at TEXT NOT NULL
-   );
-   CREATE TABLE project_revisions (
-     project_id TEXT NOT NULL REFERENCES projects(id),
-     revision INTEGER NOT NULL,
-     title TEXT NOT NULL,
-     state TEXT NOT NULL,
-     created_at TEXT NOT NULL,
-     UNIQUE (project_id, revision)
-   );
-   CREATE TRIGGER project_revisions_no_update BEFORE UPDATE ON project_revisions
-     BEGIN SELECT RAISE(ABORT, 'project revisions are append-only'); END;
-   CREATE TRIGGER project_revisions_no_delete BEFORE DELETE ON project_revisions
-     BEGIN SELECT RAISE(ABORT, 'project revisions are append-only'); END;
-   CREATE TABLE blobs (
-     hash TEXT PRIMARY KEY,
-     size INTEGER NOT NULL,
-     bytes BLOB NOT NULL
-   );
-   CREATE TABLE runs (
-     id TEXT PRIMARY KEY,
-     cache_key TEXT NOT NULL,
-     request TEXT NOT NULL,
-     status TEXT NOT NULL,
-     progress REAL NOT NULL,
-     message TEXT NOT NULL,
-     layers TEXT NOT NULL,
-     summary TEXT,
-     warnings TEXT NOT NULL,
-     model TEXT,
-     grids TEXT NOT NULL,
-     client TEXT NOT NULL,
-     created_at TEXT NOT NULL,
-     updated_at TEXT NOT NULL
-   );
-   CREATE INDEX runs_cache_key ON runs(cache_key, created_at);
-   CREATE INDEX runs_status ON runs(status);
-   CREATE TABLE run_files (
-     run_id TEXT NOT NULL REFERENCES runs(id),
-     name TEXT NOT NULL,
-     ext TEXT NOT NULL,
-     blob_hash TEXT NOT NULL REFERENCES blobs(hash),
-     content_type TEXT NOT NULL,
-     PRIMARY KEY (run_id, name, ext)
-   );
-   CREATE TABLE run_grids (
-     run_id TEXT NOT NULL REFERENCES runs(id),
-     name TEXT NOT NULL,
-     meta TEXT NOT NULL,
-     blob_hash TEXT NOT NULL REFERENCES blobs(hash),
-     PRIMARY KEY (run_id, name)
-   );`,
-  // Projects own named data sets (an attachment: the content row stays shared and content-addressed), their runs
-  // and an optional terrain. A detached data set keeps its row here (detached_at set), so the list of what a
-  // project once held survives; its content stays while any revision, run or project refers to it.
-  `ALTER TABLE datasets ADD COLUMN bbox TEXT;
-   CREATE INDEX datasets_kind_hash ON datasets(kind, content_hash);
-   CREATE TABLE project_datasets (
-     project_id TEXT NOT NULL REFERENCES projects(id),
-     dataset_id TEXT NOT NULL REFERENCES datasets(id),
-     name TEXT NOT NULL,
-     attached_at TEXT NOT NULL,
-     detached_at TEXT,
-     PRIMARY KEY (project_id, dataset_id)
-   );
-   CREATE INDEX project_datasets_dataset ON project_datasets(dataset_id);
-   CREATE TABLE run_datasets (
-     run_id TEXT NOT NULL REFERENCES runs(id),
-     dataset_id TEXT NOT NULL,
-     PRIMARY KEY (run_id, dataset_id)
-   );
-   CREATE INDEX run_datasets_dataset ON run_datasets(dataset_id);
-   CREATE TABLE project_runs (
-     project_id TEXT NOT NULL REFERENCES projects(id),
-     run_id TEXT NOT NULL REFERENCES runs(id),
-     created_at TEXT NOT NULL,
-     PRIMARY KEY (project_id, run_id)
-   );
-   CREATE TABLE project_terrain (
-     project_id TEXT PRIMARY KEY REFERENCES projects(id),
-     blob_hash TEXT NOT NULL REFERENCES blobs(hash),
-     meta TEXT NOT NULL,
-     created_at TEXT NOT NULL
-   );`,
-];
+import { MIGRATIONS } from './sqlite-schema.ts';
+import {
+  bboxOf,
+  datasetRecord,
+  float32Of,
+  projectDataset,
+  runFromRow,
+  runRowValues,
+  runPatchColumns,
+  type DatasetRow,
+  type RunPatch,
+  type RunRow,
+} from './rows.ts';
 
 /** A new random id: 16 bytes from the CSPRNG, base64url (22 characters). */
 export function newId(prefix = ''): string {
@@ -204,22 +115,13 @@ export class SqliteStore implements Store {
 
   /** A record from its row; a bbox missing from a row stored before bboxes were kept is computed once and saved. */
   private datasetFromRow(r: DatasetRow): DatasetRecord {
-    let bbox: DatasetRecord['bbox'] = r.bbox === null ? null : (JSON.parse(r.bbox) as [number, number, number, number]);
+    let bbox = bboxOf(r);
     if (r.bbox === null && r.kind !== 'model') {
       const body = (this.db.prepare('SELECT body FROM datasets WHERE id = ?').get(r.id) as { body: string }).body;
       bbox = bodyBbox(body);
       if (bbox !== null) this.db.prepare('UPDATE datasets SET bbox = ? WHERE id = ?').run(JSON.stringify(bbox), r.id);
     }
-    return {
-      id: r.id,
-      kind: r.kind,
-      featureCount: r.feature_count,
-      contentHash: r.content_hash,
-      title: r.title,
-      createdAt: r.created_at,
-      bbox,
-      bytes: r.bytes,
-    };
+    return datasetRecord(r, bbox);
   }
 
   async attachDataset(projectId: string, datasetId: string, name: string): Promise<ProjectDatasetRecord> {
@@ -342,8 +244,7 @@ export class SqliteStore implements Store {
       .prepare('SELECT t.blob_hash, t.meta, t.created_at, b.bytes FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = ?')
       .get(projectId) as { blob_hash: string; meta: string; created_at: string; bytes: Buffer } | undefined;
     if (!row) return null;
-    const values = new Float32Array(row.bytes.byteLength / 4);
-    new Uint8Array(values.buffer).set(row.bytes);
+    const values = float32Of(row.bytes);
     return { blobHash: row.blob_hash, meta: JSON.parse(row.meta) as ProjectTerrainRecord['meta'], createdAt: row.created_at, values };
   }
 
@@ -420,46 +321,16 @@ export class SqliteStore implements Store {
         `INSERT INTO runs (id, cache_key, request, status, progress, message, layers, summary, warnings, model, grids, client, created_at, updated_at)
          VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
       )
-      .run(
-        run.id,
-        run.cacheKey,
-        JSON.stringify(run.request),
-        run.status,
-        run.progress,
-        run.message,
-        JSON.stringify(run.layers),
-        run.summary === null ? null : JSON.stringify(run.summary),
-        JSON.stringify(run.warnings),
-        run.model === null || run.model === undefined ? null : JSON.stringify(run.model),
-        JSON.stringify(run.grids),
-        run.client,
-        run.createdAt,
-        run.updatedAt,
-      );
+      .run(...runRowValues(run));
   }
 
-  async updateRun(
-    id: string,
-    patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>,
-  ): Promise<void> {
+  async updateRun(id: string, patch: RunPatch): Promise<void> {
     return this.updateRunNow(id, patch);
   }
 
-  private updateRunNow(
-    id: string,
-    patch: Partial<Pick<RunRecord, 'status' | 'progress' | 'message' | 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>,
-  ): void {
-    const sets: string[] = [];
-    const vals: unknown[] = [];
-    const json = new Set(['layers', 'summary', 'warnings', 'model', 'grids']);
-    for (const [k, v] of Object.entries(patch)) {
-      if (v === undefined) continue;
-      sets.push(`${k} = ?`);
-      vals.push(json.has(k) ? (v === null ? null : JSON.stringify(v)) : v);
-    }
-    sets.push('updated_at = ?');
-    vals.push(new Date().toISOString());
-    this.db.prepare(`UPDATE runs SET ${sets.join(', ')} WHERE id = ?`).run(...vals, id);
+  private updateRunNow(id: string, patch: RunPatch): void {
+    const cols = runPatchColumns(patch);
+    this.db.prepare(`UPDATE runs SET ${cols.map((x) => `${x.column} = ?`).join(', ')} WHERE id = ?`).run(...cols.map((x) => x.value), id);
   }
 
   async getRun(id: string): Promise<RunRecord | null> {
@@ -531,10 +402,7 @@ export class SqliteStore implements Store {
       .prepare('SELECT g.meta, b.bytes FROM run_grids g JOIN blobs b ON b.hash = g.blob_hash WHERE g.run_id = ? AND g.name = ?')
       .get(runId, name) as { meta: string; bytes: Buffer } | undefined;
     if (!row) return null;
-    // Copy into an aligned buffer: a Buffer's offset inside its pool need not be a multiple of 4.
-    const values = new Float32Array(row.bytes.byteLength / 4);
-    new Uint8Array(values.buffer).set(row.bytes);
-    return { meta: JSON.parse(row.meta) as StoredGridMeta, values };
+    return { meta: JSON.parse(row.meta) as StoredGridMeta, values: float32Of(row.bytes) };
   }
 
   async storeRunResult(
@@ -562,57 +430,6 @@ export class SqliteStore implements Store {
 
 const DATASET_COLUMNS = 'id, kind, feature_count, content_hash, title, created_at, bbox, length(CAST(body AS BLOB)) AS bytes';
 const DATASET_COLUMNS_D = 'd.id, d.kind, d.feature_count, d.content_hash, d.title, d.created_at, d.bbox, length(CAST(d.body AS BLOB)) AS bytes';
-
-interface DatasetRow {
-  id: string;
-  kind: string;
-  feature_count: number;
-  content_hash: string;
-  title: string | null;
-  created_at: string;
-  bbox: string | null;
-  bytes: number;
-}
-
-function projectDataset(d: DatasetRecord, name: string, attachedAt: string): ProjectDatasetRecord {
-  return { id: d.id, kind: d.kind, name, featureCount: d.featureCount, contentHash: d.contentHash, bbox: d.bbox, bytes: d.bytes, uploadedAt: attachedAt };
-}
-
-interface RunRow {
-  id: string;
-  cache_key: string;
-  request: string;
-  status: RunStatus;
-  progress: number;
-  message: string;
-  layers: string;
-  summary: string | null;
-  warnings: string;
-  model: string | null;
-  grids: string;
-  client: string;
-  created_at: string;
-  updated_at: string;
-}
-
-function runFromRow(r: RunRow): RunRecord {
-  return {
-    id: r.id,
-    cacheKey: r.cache_key,
-    request: JSON.parse(r.request),
-    status: r.status,
-    progress: r.progress,
-    message: r.message,
-    layers: JSON.parse(r.layers) as unknown[],
-    summary: r.summary === null ? null : (JSON.parse(r.summary) as Record<string, unknown>),
-    warnings: JSON.parse(r.warnings) as string[],
-    model: r.model === null ? null : JSON.parse(r.model),
-    grids: JSON.parse(r.grids) as string[],
-    client: r.client,
-    createdAt: r.created_at,
-    updatedAt: r.updated_at,
-  };
-}
 
 function strip(r: DatasetRecord & { body?: string }): DatasetRecord {
   const { body: _body, ...rest } = r;

@@ -1,0 +1,101 @@
+/** Schema migrations, applied in order; `PRAGMA user_version` records how many have run. */
+export const MIGRATIONS: string[] = [
+  `CREATE TABLE datasets (
+     id TEXT PRIMARY KEY,
+     kind TEXT NOT NULL,
+     feature_count INTEGER NOT NULL,
+     content_hash TEXT NOT NULL,
+     title TEXT,
+     body TEXT NOT NULL,
+     created_at TEXT NOT NULL
+   );
+   CREATE INDEX datasets_hash ON datasets(content_hash);`,
+  // Projects: the row holds only what never changes; every save is a new revision row (append-only).
+  `CREATE TABLE projects (
+     id TEXT PRIMARY KEY,
+     token_hash TEXT NOT NULL,
+     created_at TEXT NOT NULL
+   );
+   CREATE TABLE project_revisions (
+     project_id TEXT NOT NULL REFERENCES projects(id),
+     revision INTEGER NOT NULL,
+     title TEXT NOT NULL,
+     state TEXT NOT NULL,
+     created_at TEXT NOT NULL,
+     UNIQUE (project_id, revision)
+   );
+   CREATE TRIGGER project_revisions_no_update BEFORE UPDATE ON project_revisions
+     BEGIN SELECT RAISE(ABORT, 'project revisions are append-only'); END;
+   CREATE TRIGGER project_revisions_no_delete BEFORE DELETE ON project_revisions
+     BEGIN SELECT RAISE(ABORT, 'project revisions are append-only'); END;
+   CREATE TABLE blobs (
+     hash TEXT PRIMARY KEY,
+     size INTEGER NOT NULL,
+     bytes BLOB NOT NULL
+   );
+   CREATE TABLE runs (
+     id TEXT PRIMARY KEY,
+     cache_key TEXT NOT NULL,
+     request TEXT NOT NULL,
+     status TEXT NOT NULL,
+     progress REAL NOT NULL,
+     message TEXT NOT NULL,
+     layers TEXT NOT NULL,
+     summary TEXT,
+     warnings TEXT NOT NULL,
+     model TEXT,
+     grids TEXT NOT NULL,
+     client TEXT NOT NULL,
+     created_at TEXT NOT NULL,
+     updated_at TEXT NOT NULL
+   );
+   CREATE INDEX runs_cache_key ON runs(cache_key, created_at);
+   CREATE INDEX runs_status ON runs(status);
+   CREATE TABLE run_files (
+     run_id TEXT NOT NULL REFERENCES runs(id),
+     name TEXT NOT NULL,
+     ext TEXT NOT NULL,
+     blob_hash TEXT NOT NULL REFERENCES blobs(hash),
+     content_type TEXT NOT NULL,
+     PRIMARY KEY (run_id, name, ext)
+   );
+   CREATE TABLE run_grids (
+     run_id TEXT NOT NULL REFERENCES runs(id),
+     name TEXT NOT NULL,
+     meta TEXT NOT NULL,
+     blob_hash TEXT NOT NULL REFERENCES blobs(hash),
+     PRIMARY KEY (run_id, name)
+   );`,
+  // Projects own named data sets (an attachment: the content row stays shared and content-addressed), their runs
+  // and an optional terrain. A detached data set keeps its row here (detached_at set), so the list of what a
+  // project once held survives; its content stays while any revision, run or project refers to it.
+  `ALTER TABLE datasets ADD COLUMN bbox TEXT;
+   CREATE INDEX datasets_kind_hash ON datasets(kind, content_hash);
+   CREATE TABLE project_datasets (
+     project_id TEXT NOT NULL REFERENCES projects(id),
+     dataset_id TEXT NOT NULL REFERENCES datasets(id),
+     name TEXT NOT NULL,
+     attached_at TEXT NOT NULL,
+     detached_at TEXT,
+     PRIMARY KEY (project_id, dataset_id)
+   );
+   CREATE INDEX project_datasets_dataset ON project_datasets(dataset_id);
+   CREATE TABLE run_datasets (
+     run_id TEXT NOT NULL REFERENCES runs(id),
+     dataset_id TEXT NOT NULL,
+     PRIMARY KEY (run_id, dataset_id)
+   );
+   CREATE INDEX run_datasets_dataset ON run_datasets(dataset_id);
+   CREATE TABLE project_runs (
+     project_id TEXT NOT NULL REFERENCES projects(id),
+     run_id TEXT NOT NULL REFERENCES runs(id),
+     created_at TEXT NOT NULL,
+     PRIMARY KEY (project_id, run_id)
+   );
+   CREATE TABLE project_terrain (
+     project_id TEXT PRIMARY KEY REFERENCES projects(id),
+     blob_hash TEXT NOT NULL REFERENCES blobs(hash),
+     meta TEXT NOT NULL,
+     created_at TEXT NOT NULL
+   );`,
+];
