@@ -37,7 +37,7 @@ const WHERE: Record<keyof Limits, string> = {
   maxProjectStateBytes: 'server-limits.test.ts',
   maxJsonDepth: 'server-limits.test.ts',
   maxProjectStorageBytes: 'server-limits.test.ts',
-  maxTerrainBytes: 'workspace-terrain.test.ts',
+  maxTerrainBytes: 'terrain-upload.test.ts',
 };
 
 type Err = { error: { code: string; message: string; details: { field?: string; problem: string }[] } };

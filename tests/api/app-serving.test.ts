@@ -25,7 +25,7 @@ beforeAll(async () => {
 });
 afterAll(async () => await store.close());
 
-describe('foundation API', () => {
+describe('the app: health, demo data sets, terrain tiles, JSON 404s and the map page', () => {
   it('reports health with the package version', async () => {
     const res = await app.request('/api/health');
     expect(res.status).toBe(200);
