@@ -15,6 +15,7 @@ import { computeThermalProducts, type OverrideRegion } from '../../shared/produc
 import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
 import { SIMULATION_OPTIONS, heatFlowSimulationOptions, readSimulationPoints, type SimulationArgs } from './simulation-input.ts';
 import { simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
+import { readRealizationsFile } from './realizations-file.ts';
 
 const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a thermal model
 
@@ -35,6 +36,8 @@ const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a ther
   --points P.geojson|P.csv    instead of --heat-flow-sd: the realizations' heat flow is simulated conditionally from
                               these sites on the heat-flow grid (with --variogram, --anisotropy, --transform,
                               --error-field, --neighbors, --lag-km, --max-lag-km, --points-crs as in simulate)
+  --realizations-from R.json  instead of --points: the heat-flow realizations written by simulate --keep-realizations
+                              (its .json header; on the heat-flow grid); --realizations N uses the first N (default all)
   --out-dir DIR               where the files go
   --json                      print one JSON object
 `;
@@ -109,6 +112,59 @@ async function simulateOnHeatFlowGrid(
   return { values: r.values, source: r.source, sha256, warnings: [...warnings, ...r.warnings.map((w) => `heat-flow simulation: ${w}`)] };
 }
 
+/**
+ * Heat-flow realizations from a file written by `simulate --keep-realizations` (server/cli/realizations-file.ts):
+ * they must be heat flow (mW/m²) on the heat-flow grid; `count` (the --realizations given, else all) takes the first
+ * `count` of them (realization r does not depend on how many were simulated).
+ */
+async function realizationsFromFile(
+  path: string,
+  heatFlow: Grid<Float32Array>,
+  withSd: boolean,
+  count: number | null,
+): Promise<{ values: Float32Array; source: string; sha256: string; warnings: string[] }> {
+  if (withSd)
+    throw new InputError(
+      '--heat-flow-sd does not go with --realizations-from: the spread comes from the realizations',
+      [{ field: 'heat-flow-sd', problem: 'drop it, or drop --realizations-from' }],
+      'bad_option',
+    );
+  const { header: h, values } = await readRealizationsFile(path);
+  if (h.units !== 'mW/m²')
+    throw new InputError(
+      `${path} holds ${h.field} in "${h.units}", not heat flow in mW/m²`,
+      [{ feature: path, field: 'units', problem: 'expected realizations of heatFlowMWm2 (mW/m²)' }],
+      'bad_realizations_file',
+    );
+  const grid = { ...heatFlow, ...h, values: heatFlow.values, units: h.units };
+  if (!sameGrid(grid, heatFlow))
+    throw new InputError(
+      `${path} is not on the heat-flow grid (size, origin, cell size and CRS must match)`,
+      [
+        {
+          feature: path,
+          field: 'grid',
+          problem: `expected ${heatFlow.width} × ${heatFlow.height} cells at ${heatFlow.west}, ${heatFlow.north} in ${heatFlow.crs}`,
+        },
+      ],
+      'bad_realizations_file',
+    );
+  const n = count ?? h.realizations;
+  if (!(n >= 1 && n <= h.realizations))
+    throw new InputError(
+      `--realizations ${n}: ${path} holds ${h.realizations} realizations`,
+      [{ field: 'realizations', problem: `expected 1..${h.realizations} with --realizations-from` }],
+      'bad_option',
+    );
+  const cells = heatFlow.width * heatFlow.height;
+  return {
+    values: values.subarray(0, n * cells),
+    source: `heat flow from ${n} of the ${h.realizations} realizations in ${path} (${h.field}, seed ${h.seed}, written by ${String(h.provenance.verb ?? 'simulate')})`,
+    sha256: h.dataSha256,
+    warnings: [],
+  };
+}
+
 export async function isotherms(argv: string[]): Promise<number> {
   const { values: a } = parseVerbArgs('isotherms', argv, {
     'heat-flow': { type: 'string' },
@@ -126,6 +182,7 @@ export async function isotherms(argv: string[]): Promise<number> {
     seed: { type: 'string' },
     'heat-flow-error-correlation': { type: 'string' },
     'out-dir': { type: 'string' },
+    'realizations-from': { type: 'string' },
     ...SIMULATION_OPTIONS,
   });
   if (a.help) {
@@ -160,7 +217,7 @@ export async function isotherms(argv: string[]): Promise<number> {
   ] as const) {
     if (v !== undefined && !(v > 0)) throw new InputError(`--${k} must be > 0, got ${v}`, [{ field: k, problem: 'expected > 0' }], 'bad_option');
   }
-  const realizations = a.realizations !== undefined ? numberOption('realizations', a.realizations) : 0;
+  let realizations = a.realizations !== undefined ? numberOption('realizations', a.realizations) : 0;
   if (!(Number.isInteger(realizations) && realizations >= 0 && realizations <= 100000))
     throw new InputError(
       `--realizations must be an integer in 0..100000, got ${a.realizations}`,
@@ -209,6 +266,12 @@ export async function isotherms(argv: string[]): Promise<number> {
   }
   // --points: the Monte Carlo's heat flow comes from conditional simulations of the sites on the heat-flow grid.
   let simulated: Awaited<ReturnType<typeof simulateOnHeatFlowGrid>> | null = null;
+  if (a.points !== undefined && a['realizations-from'] !== undefined)
+    throw new InputError(
+      'give --points (simulate here) or --realizations-from (fields simulated before), not both',
+      [{ field: 'realizations-from', problem: 'conflicts with --points' }],
+      'bad_option',
+    );
   if (a.points !== undefined) {
     if (heatFlowSd !== null)
       throw new InputError(
@@ -227,6 +290,10 @@ export async function isotherms(argv: string[]): Promise<number> {
       );
     simulated = await simulateOnHeatFlowGrid(a, heatFlow, hf.crsDef, realizations, seed);
     inputs.points = simulated.sha256;
+  } else if (a['realizations-from'] !== undefined) {
+    simulated = await realizationsFromFile(a['realizations-from'], heatFlow, heatFlowSd !== null, a.realizations === undefined ? null : realizations);
+    realizations = simulated.values.length / (heatFlow.width * heatFlow.height);
+    inputs.realizations = simulated.sha256;
   } else if (a['heat-flow-error-correlation'] !== undefined)
     process.stderr.write('warning: --heat-flow-error-correlation is deprecated: give --points SITES to simulate spatially coherent heat-flow fields\n');
   if (realizations > 0 && heatFlowSd === null && simulated === null)

@@ -9,6 +9,7 @@ import { loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts'
 import type { PointData } from '../../shared/interp/interpolate.ts';
 import { simulateAtPoints, simulateGrid, summarizeTargets, type SimulationOptions, type SimulationResult } from '../../shared/interp/simulateField.ts';
 import { writeGeoTiff } from '../io/geotiff.ts';
+import { realizationsFiles } from './realizations-file.ts';
 import { parseVerbArgs, numberOption } from './args.ts';
 import { bboxOption, neighborsOption, optionalNumber, parseJson, readPointsFile, readText, sizeOption } from './point-input.ts';
 
@@ -34,6 +35,7 @@ const OPTIONS = {
   'out-dir': { type: 'string' },
   'max-values': { type: 'string' },
   'skip-missing': { type: 'boolean', default: false },
+  'keep-realizations': { type: 'boolean', default: false },
 } as const;
 
 const HELP = `subtherm simulate: conditional simulation of a point field (realizations that honour the data and the variogram)
@@ -55,6 +57,9 @@ const HELP = `subtherm simulate: conditional simulation of a point field (realiz
   --bbox=W,S,E,N             degrees (default: data envelope padded by 5%)
   --crs EPSG:nnnn            projected output grid (default EPSG:4326)
   --out-dir DIR              writes <field>.mean.tif, .sd.tif, .p10.tif, .p50.tif, .p90.tif
+  --keep-realizations        also write every realization: <field>.realizations.f32 (float32 little-endian,
+                             realization-major, rows north to south), its .json header and a .vrt (one band per
+                             realization, opens in GDAL); the isotherms verb reads the stack by its .json
   --max-values N             budget of realizations × targets held in memory (default 150000000 = 600 MiB)
   --skip-missing             leave out features without the field (warning) instead of failing
   --json                     print one JSON object
@@ -90,6 +95,12 @@ export async function simulate(argv: string[]): Promise<number> {
     throw new InputError(
       '--cell-km, --size and --bbox describe a grid; they do not go with --at',
       [{ field: 'at', problem: 'drop the grid options or --at' }],
+      'bad_option',
+    );
+  if (a['keep-realizations'] && a.at !== undefined)
+    throw new InputError(
+      '--keep-realizations writes grid files: with --at the realizations are already in the JSON',
+      [{ field: 'keep-realizations', problem: 'use it with --out-dir' }],
       'bad_option',
     );
   if (a['cell-km'] !== undefined && a.size !== undefined)
@@ -236,6 +247,13 @@ export async function simulate(argv: string[]): Promise<number> {
       );
       written.push([tmp, name]);
     }
+    if (a['keep-realizations'])
+      for (const f of realizationsFiles(field, units, r.grid, r.values, r.realizations, opts.seed, provenance)) {
+        const name = join(dir, f.name);
+        const tmp = `${name}.partial-${process.pid}`;
+        await writeFile(tmp, f.bytes);
+        written.push([tmp, name]);
+      }
     for (const [tmp, name] of written) await rename(tmp, name);
   } catch (e) {
     for (const [tmp] of written) await unlink(tmp).catch(() => undefined);
