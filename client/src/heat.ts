@@ -8,38 +8,35 @@
  */
 import { CAUTION } from '../../shared/caution.ts';
 import { EXCEEDANCE_READING } from '../../shared/resource/assess.ts';
+import type { AreaTotals, TotalValue } from '../../shared/resource/totals.ts';
 import { ApiError, getJson, sendJson, type RunState } from './api.ts';
 import { message, type AppContext } from './context.ts';
 import { el, errorBox, replace } from './dom.ts';
 import { LineDrawer } from './section.ts';
 
-/** One total of the report: the deterministic value and the Monte Carlo percentiles (null without realizations). */
-export interface TotalValue {
-  nominal: number | null;
-  p10: number | null;
-  p50: number | null;
-  p90: number | null;
-  mean: number | null;
-}
+/** One total of the report (the deterministic value and the Monte Carlo percentiles), as shared/resource computes it. */
+export type { TotalValue };
 
-/** The part of the CLI's `heat-in-place --json` report the panel shows. */
-export interface HeatReport {
+/** The part of the CLI's `heat-in-place --json` report the panel shows: the area totals of shared/resource/totals.ts and the report's frame. */
+export type HeatReport = Pick<
+  AreaTotals,
+  | 'cells'
+  | 'areaKm2'
+  | 'heatInPlaceEJ'
+  | 'recoverableJ'
+  | 'thermalMWt'
+  | 'electricMWe'
+  | 'electricMWeConversion'
+  | 'hotAreaKm2'
+  | 'hotVolumeKm3'
+  | 'meanReservoirTempC'
+> & {
   area: 'polygon' | 'grid';
-  cells: number;
-  areaKm2: number;
-  heatInPlaceEJ: TotalValue;
-  recoverableJ: TotalValue;
-  thermalMWt: TotalValue;
-  electricMWe: TotalValue;
-  electricMWeConversion: TotalValue;
-  hotAreaKm2: TotalValue;
-  hotVolumeKm3: TotalValue;
-  meanReservoirTempC: TotalValue;
   totals: { polygon: { polygonAreaKm2: number; label: string | null } | null };
   monteCarlo: { realizations: number; accepted: number; rejected: number; seed: number } | null;
   warnings: string[];
   caution: string;
-}
+};
 
 interface JobView {
   jobId: string;
