@@ -162,7 +162,7 @@ export function openApiDocument(): unknown {
     paths: {
       '/api/health': {
         get: op(
-          'server health and version; eventLoopDelayMs { p50, p99, max } of the request thread (Node event-loop delay histogram, current window), runs and compute tasks in flight',
+          "server health and version; store (sqlite | postgresql); queue (in-process | redis) with workers (run slots: this server's threads, or those of the queue workers heard from lately) and workerProcesses (redis only); eventLoopDelayMs { p50, p99, max } of the request thread (Node event-loop delay histogram, current window), runs and compute tasks in flight",
         ),
       },
       '/api/limits': {
