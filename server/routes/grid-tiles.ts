@@ -18,20 +18,9 @@ export interface GridTileDeps {
   publicBaseUrl?: string | null;
 }
 
-/**
- * Raster-dem tiles of a run's scalar layers, so the map colours them on the GPU (color-relief) and a change of
- * ramp or range needs no new tiles. Routes (mounted under /api):
- *   GET /runs/:id/tiles/:layer.json           → { tiles, bounds, minzoom, maxzoom, encoding: 'custom', redFactor,
- *                                                greenFactor, blueFactor, baseShift, noDataValue, noDataBelow,
- *                                                units, step }
- *   GET /runs/:id/tiles/:layer/:z/:x/:y.png   → a 256-px tile
- * The encoding fields go to a MapLibre raster-dem source as they are (MapLibre subtracts baseShift). Code 0
- * decodes to `noDataValue`, one step below the layer's minimum: no data; every real value is above `noDataBelow`.
- */
-export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number } = {}): Hono {
-  const app = new Hono();
+/** Tiles of a run layer and the open file they read, kept for the `maxLayers` most recently used layers. */
+function layerTileCache(deps: GridTileDeps, maxLayers: number): (runId: string, layer: string) => Promise<{ tiles: WindowTiles; units: string }> {
   const cache = new Map<string, { tiles: WindowTiles; file: GeoTiffFile }>();
-  const maxLayers = opts.cacheLayers ?? 16;
   const opening = new Map<string, Promise<GeoTiffFile | null>>();
 
   async function tilesFor(runId: string, layer: string): Promise<{ tiles: WindowTiles; units: string }> {
@@ -78,6 +67,22 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
     }
     return { tiles, units: tiles.units };
   }
+  return tilesFor;
+}
+
+/**
+ * Raster-dem tiles of a run's scalar layers, so the map colours them on the GPU (color-relief) and a change of
+ * ramp or range needs no new tiles. Routes (mounted under /api):
+ *   GET /runs/:id/tiles/:layer.json           → { tiles, bounds, minzoom, maxzoom, encoding: 'custom', redFactor,
+ *                                                greenFactor, blueFactor, baseShift, noDataValue, noDataBelow,
+ *                                                units, step }
+ *   GET /runs/:id/tiles/:layer/:z/:x/:y.png   → a 256-px tile
+ * The encoding fields go to a MapLibre raster-dem source as they are (MapLibre subtracts baseShift). Code 0
+ * decodes to `noDataValue`, one step below the layer's minimum: no data; every real value is above `noDataBelow`.
+ */
+export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number } = {}): Hono {
+  const app = new Hono();
+  const tilesFor = layerTileCache(deps, opts.cacheLayers ?? 16);
 
   app.get('/runs/:id/tiles/:file', async (c) => {
     const m = /^(.+)\.json$/.exec(c.req.param('file'));

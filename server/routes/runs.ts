@@ -2,7 +2,7 @@
  * Runs: POST /api/runs queues a run (or returns the cached one), GET /api/runs/:id reports it, GET …/events
  * streams its progress (Server-Sent Events), DELETE cancels it, GET …/layers/:name.:ext serves its files.
  */
-import type { Hono } from 'hono';
+import type { Context, Hono } from 'hono';
 import { streamSSE } from 'hono/streaming';
 import { existsSync } from 'node:fs';
 import { InputError } from '../../shared/errors.ts';
@@ -263,130 +263,132 @@ export function farApartWarnings(bboxes: { role: string; id: string; name: strin
   return out;
 }
 
+/** The run named in the URL; 404 when there is none. */
+async function getRun(ctx: AppContext, raw: string): Promise<RunRecord> {
+  const id = idSchema.safeParse(raw);
+  const rec = id.success ? await ctx.store.getRun(id.data) : null;
+  if (!rec) throw notFound('run', raw, 'run_not_found');
+  return rec;
+}
+
+/** Cancels a live run given its run token or its project's edit token (401 without a token, 403 with another). */
+async function cancelRun(ctx: AppContext, rec: RunRecord, authorization: string | undefined): Promise<{ id: string; status: string }> {
+  const live = ctx.jobs.live(rec.id);
+  if (!live) {
+    throw new InputError(`run ${rec.id} has already ended (${rec.status}); nothing to cancel`, [{ field: 'status', problem: rec.status }], 'run_finished');
+  }
+  // The run token returned when the run started, or the edit token of the project it was started through.
+  const auth = await ctx.jobs.authorizeCancel(rec.id, bearerToken(authorization), (p) => ctx.store.getProjectTokenHash(p));
+  if (auth === 'missing') {
+    throw new InputError(
+      "cancelling a run needs its run token (returned when it started) or its project's edit token: send Authorization: Bearer <token>",
+      [{ field: 'authorization', problem: 'missing' }],
+      'token_required',
+    );
+  }
+  if (auth === 'wrong') {
+    throw new InputError(
+      "this token may not cancel this run: it is neither the run's token nor the edit token of the project that started it",
+      [{ field: 'authorization', problem: 'wrong token' }],
+      'forbidden',
+    );
+  }
+  const after = await ctx.jobs.cancel(rec.id);
+  return { id: rec.id, status: after?.status ?? 'cancelled' };
+}
+
+/** The run's progress as Server-Sent Events: its snapshot now, then each change, ending with its end. */
+function runEvents(c: Context, ctx: AppContext, rec: RunRecord): Response {
+  return streamSSE(c, async (stream) => {
+    let seq = 0;
+    // Each event is checked against the run contract (shared/schema/run.ts) before it leaves.
+    const send = (s: RunSnapshot) => {
+      const event = isTerminal(s.status) ? 'end' : 'progress';
+      return stream.writeSSE({ event, id: String(seq++), data: JSON.stringify(RUN_EVENTS[event].parse(s)) });
+    };
+    const first = (await ctx.jobs.snapshot(rec.id))!;
+    await send(first);
+    if (isTerminal(first.status)) return;
+    await new Promise<void>((resolve) => {
+      let done = false;
+      const stop = () => {
+        if (done) return;
+        done = true;
+        unsubscribe();
+        clearInterval(keepAlive);
+        resolve();
+      };
+      const unsubscribe = ctx.jobs.subscribe(rec.id, (s) => {
+        void send(s).then(() => {
+          if (isTerminal(s.status)) stop();
+        });
+      });
+      // A comment line now and then keeps proxies from closing a quiet stream.
+      const keepAlive = setInterval(() => void stream.write(': keep-alive\n\n'), 15_000);
+      stream.onAbort(stop);
+      // The run may have ended between the first snapshot and the subscription.
+      void ctx.jobs.snapshot(rec.id).then((now) => {
+        if (now && isTerminal(now.status)) return send(now).then(stop);
+      });
+    });
+  });
+}
+
+/** Every vector layer of a finished run in one GeoPackage (one table per layer). */
+async function runGeoPackage(c: Context, ctx: AppContext, rec: RunRecord): Promise<Response> {
+  if (rec.status !== 'done')
+    throw new InputError(`the run is ${rec.status}; its GeoPackage appears when it is done`, [{ field: 'file', problem: 'not found' }], 'layer_not_found');
+  const listed = (rec.layers as { name: string; title?: string; formats?: string[] }[]).filter((l) => l.formats?.includes('geojson'));
+  const files = await Promise.all(
+    listed.map(async (l) => ({ name: l.name, title: l.title ?? l.name, file: await ctx.store.getRunFile(rec.id, l.name, 'geojson') })),
+  );
+  const layers = files.filter((l) => l.file !== null).map((l) => ({ name: l.name, title: l.title, geojson: new TextDecoder().decode(l.file!.bytes) }));
+  const bytes = vectorsGeoPackage(layers, (rec.summary as { provenance?: unknown } | null)?.provenance);
+  return c.body(new Uint8Array(bytes), 200, {
+    'content-type': 'application/geopackage+sqlite3',
+    'cache-control': 'private, max-age=3600',
+    'content-disposition': `attachment; filename="run-${rec.id}.gpkg"`,
+  });
+}
+
+/** One stored layer file of a run (<name>.tif | .png | .geojson | .csv), with its ETag (304 when unchanged). */
+async function layerFile(c: Context, ctx: AppContext, rec: RunRecord, file: string): Promise<Response> {
+  const m = /^(.+)\.([a-z]+)$/.exec(file);
+  if (!m || !LAYER_EXTS.includes(m[2] as LayerExt)) {
+    throw new InputError(
+      `layer files are <name>.tif, .png, .geojson or .csv, got "${file}"`,
+      [{ field: 'file', problem: 'unknown format' }],
+      'bad_layer_format',
+    );
+  }
+  const stored = await ctx.store.getRunFile(rec.id, m[1], m[2]);
+  if (!stored) {
+    const why = rec.status === 'done' ? `the run has no layer file ${file}` : `the run is ${rec.status}; layers appear when it is done`;
+    throw new InputError(why, [{ field: 'file', problem: 'not found' }], 'layer_not_found');
+  }
+  const etag = `"${stored.hash}"`;
+  const headers = {
+    'content-type': stored.contentType,
+    etag,
+    'cache-control': 'private, max-age=3600',
+    'content-disposition': `inline; filename="${m[1]}.${m[2]}"`,
+  };
+  if (c.req.header('if-none-match') === etag) return c.body(null, 304, headers);
+  return c.body(new Uint8Array(stored.bytes), 200, headers);
+}
+
 export function runRoutes(app: Hono, ctx: AppContext): void {
   app.post('/api/runs', async (c) => {
     requireJsonType(c);
     const out = await submitRun(ctx, await jsonBody(c), clientAddress(c, ctx.trustedProxies));
     return c.json(out.body, out.status);
   });
-
-  const getRun = async (raw: string): Promise<RunRecord> => {
-    const id = idSchema.safeParse(raw);
-    const rec = id.success ? await ctx.store.getRun(id.data) : null;
-    if (!rec) throw notFound('run', raw, 'run_not_found');
-    return rec;
-  };
-
   app.get('/api/runs/:id', async (c) => {
-    const rec = await getRun(c.req.param('id'));
+    const rec = await getRun(ctx, c.req.param('id'));
     return c.json(runView(rec, ctx.jobs.live(rec.id)));
   });
-
-  app.delete('/api/runs/:id', async (c) => {
-    const rec = await getRun(c.req.param('id'));
-    const live = ctx.jobs.live(rec.id);
-    if (!live) {
-      throw new InputError(`run ${rec.id} has already ended (${rec.status}); nothing to cancel`, [{ field: 'status', problem: rec.status }], 'run_finished');
-    }
-    // The run token returned when the run started, or the edit token of the project it was started through.
-    const auth = await ctx.jobs.authorizeCancel(rec.id, bearerToken(c.req.header('authorization')), (p) => ctx.store.getProjectTokenHash(p));
-    if (auth === 'missing') {
-      throw new InputError(
-        "cancelling a run needs its run token (returned when it started) or its project's edit token: send Authorization: Bearer <token>",
-        [{ field: 'authorization', problem: 'missing' }],
-        'token_required',
-      );
-    }
-    if (auth === 'wrong') {
-      throw new InputError(
-        "this token may not cancel this run: it is neither the run's token nor the edit token of the project that started it",
-        [{ field: 'authorization', problem: 'wrong token' }],
-        'forbidden',
-      );
-    }
-    const after = await ctx.jobs.cancel(rec.id);
-    return c.json({ id: rec.id, status: after?.status ?? 'cancelled' });
-  });
-
-  app.get('/api/runs/:id/events', async (c) => {
-    const rec = await getRun(c.req.param('id'));
-    return streamSSE(c, async (stream) => {
-      let seq = 0;
-      // Each event is checked against the run contract (shared/schema/run.ts) before it leaves.
-      const send = (s: RunSnapshot) => {
-        const event = isTerminal(s.status) ? 'end' : 'progress';
-        return stream.writeSSE({ event, id: String(seq++), data: JSON.stringify(RUN_EVENTS[event].parse(s)) });
-      };
-      const first = (await ctx.jobs.snapshot(rec.id))!;
-      await send(first);
-      if (isTerminal(first.status)) return;
-      await new Promise<void>((resolve) => {
-        let done = false;
-        const stop = () => {
-          if (done) return;
-          done = true;
-          unsubscribe();
-          clearInterval(keepAlive);
-          resolve();
-        };
-        const unsubscribe = ctx.jobs.subscribe(rec.id, (s) => {
-          void send(s).then(() => {
-            if (isTerminal(s.status)) stop();
-          });
-        });
-        // A comment line now and then keeps proxies from closing a quiet stream.
-        const keepAlive = setInterval(() => void stream.write(': keep-alive\n\n'), 15_000);
-        stream.onAbort(stop);
-        // The run may have ended between the first snapshot and the subscription.
-        void ctx.jobs.snapshot(rec.id).then((now) => {
-          if (now && isTerminal(now.status)) return send(now).then(stop);
-        });
-      });
-    });
-  });
-
-  // Every vector layer of a finished run in one GeoPackage (one table per layer).
-  app.get('/api/runs/:id/vectors.gpkg', async (c) => {
-    const rec = await getRun(c.req.param('id'));
-    if (rec.status !== 'done')
-      throw new InputError(`the run is ${rec.status}; its GeoPackage appears when it is done`, [{ field: 'file', problem: 'not found' }], 'layer_not_found');
-    const listed = (rec.layers as { name: string; title?: string; formats?: string[] }[]).filter((l) => l.formats?.includes('geojson'));
-    const files = await Promise.all(
-      listed.map(async (l) => ({ name: l.name, title: l.title ?? l.name, file: await ctx.store.getRunFile(rec.id, l.name, 'geojson') })),
-    );
-    const layers = files.filter((l) => l.file !== null).map((l) => ({ name: l.name, title: l.title, geojson: new TextDecoder().decode(l.file!.bytes) }));
-    const bytes = vectorsGeoPackage(layers, (rec.summary as { provenance?: unknown } | null)?.provenance);
-    return c.body(new Uint8Array(bytes), 200, {
-      'content-type': 'application/geopackage+sqlite3',
-      'cache-control': 'private, max-age=3600',
-      'content-disposition': `attachment; filename="run-${rec.id}.gpkg"`,
-    });
-  });
-
-  app.get('/api/runs/:id/layers/:file', async (c) => {
-    const rec = await getRun(c.req.param('id'));
-    const file = c.req.param('file');
-    const m = /^(.+)\.([a-z]+)$/.exec(file);
-    if (!m || !LAYER_EXTS.includes(m[2] as LayerExt)) {
-      throw new InputError(
-        `layer files are <name>.tif, .png, .geojson or .csv, got "${file}"`,
-        [{ field: 'file', problem: 'unknown format' }],
-        'bad_layer_format',
-      );
-    }
-    const stored = await ctx.store.getRunFile(rec.id, m[1], m[2]);
-    if (!stored) {
-      const why = rec.status === 'done' ? `the run has no layer file ${file}` : `the run is ${rec.status}; layers appear when it is done`;
-      throw new InputError(why, [{ field: 'file', problem: 'not found' }], 'layer_not_found');
-    }
-    const etag = `"${stored.hash}"`;
-    const headers = {
-      'content-type': stored.contentType,
-      etag,
-      'cache-control': 'private, max-age=3600',
-      'content-disposition': `inline; filename="${m[1]}.${m[2]}"`,
-    };
-    if (c.req.header('if-none-match') === etag) return c.body(null, 304, headers);
-    return c.body(new Uint8Array(stored.bytes), 200, headers);
-  });
+  app.delete('/api/runs/:id', async (c) => c.json(await cancelRun(ctx, await getRun(ctx, c.req.param('id')), c.req.header('authorization'))));
+  app.get('/api/runs/:id/events', async (c) => runEvents(c, ctx, await getRun(ctx, c.req.param('id'))));
+  app.get('/api/runs/:id/vectors.gpkg', async (c) => runGeoPackage(c, ctx, await getRun(ctx, c.req.param('id'))));
+  app.get('/api/runs/:id/layers/:file', async (c) => layerFile(c, ctx, await getRun(ctx, c.req.param('id')), c.req.param('file')));
 }

@@ -45,11 +45,7 @@ const OVER_LIMIT: readonly string[] = [
   'server/cli/wells.ts wells', // 184
   'server/io/cog.ts writeCogFile', // 108
   'server/io/report-html.ts renderReportHtml', // 89
-  'server/routes/grid-tiles.ts gridTileRoutes', // 89
-  'server/routes/inspect.ts inspectRoutes', // 149
   'server/routes/project-datasets.ts projectDatasetRoutes', // 182
-  'server/routes/resource.ts resourceRoutes', // 108
-  'server/routes/runs.ts runRoutes', // 127
   'server/runs/jobs.ts submit', // 123
   'server/runs/run-inputs.ts readRunInputs', // 83
   'server/terrain-upload.ts checkDemHeader', // 102
