@@ -338,27 +338,31 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
       }
     }
     for (let c = b0; c < b1; c++) {
-      const off = c - b0;
-      for (let k = 0; k < nQ; k++) {
-        const buf = bufs[k];
-        for (let r = 0; r < N; r++) scratch[r] = buf[r * B + off];
-        scratch.sort(); // NaN last, +∞ before it
-        let n = N;
-        while (n > 0 && scratch[n - 1] !== scratch[n - 1]) n--;
-        summarizeSorted(scratch, 0, n, sum);
-        const t = targets[k];
-        t.p10[c] = sum.p10;
-        t.p50[c] = sum.p50;
-        t.p90[c] = sum.p90;
-        if (t.mean) t.mean[c] = sum.mean;
-        if (t.sd) t.sd[c] = sum.sd;
-        if (t.stderrP50) t.stderrP50[c] = sum.stderrP50;
-        if (t.finiteFraction) t.finiteFraction[c] = n > 0 ? sum.finite / n : NaN;
-      }
+      for (let k = 0; k < nQ; k++) summarizeCell(bufs[k], N, B, c - b0, scratch, sum, targets[k], c);
       if (out.invalidFraction) out.invalidFraction[c] = invalid[c - b0] / N;
       if (out.meltFraction) out.meltFraction[c] = melted[c - b0] / N;
     }
   }
+}
+
+/**
+ * Summarizes one cell of a block: its N values (realization-major block buffer `buf`, stride B, offset `off`) are
+ * gathered into `scratch`, sorted (NaN last, +∞ before it), the NaNs (invalid realizations) dropped, and the summary
+ * (quantiles.ts) written into `t` at cell c.
+ */
+function summarizeCell(buf: Float64Array, N: number, B: number, off: number, scratch: Float64Array, sum: Summary, t: GridSummaryBuffers, c: number): void {
+  for (let r = 0; r < N; r++) scratch[r] = buf[r * B + off];
+  scratch.sort();
+  let n = N;
+  while (n > 0 && scratch[n - 1] !== scratch[n - 1]) n--;
+  summarizeSorted(scratch, 0, n, sum);
+  t.p10[c] = sum.p10;
+  t.p50[c] = sum.p50;
+  t.p90[c] = sum.p90;
+  if (t.mean) t.mean[c] = sum.mean;
+  if (t.sd) t.sd[c] = sum.sd;
+  if (t.stderrP50) t.stderrP50[c] = sum.stderrP50;
+  if (t.finiteFraction) t.finiteFraction[c] = n > 0 ? sum.finite / n : NaN;
 }
 
 /** Allocates Float32 output buffers for a whole grid (p10/p50/p90/mean/sd/stderrP50/finiteFraction). */

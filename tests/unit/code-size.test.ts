@@ -69,7 +69,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/structure/isograds.ts computeIsogradsKm', // 227
   'shared/structure/isolines.ts traceIsolines', // 102
   'shared/structure/layer.ts isogradLayer', // 166
-  'shared/thermal/monte-carlo.ts monteCarloGridRange', // 90
   'shared/wells/analyze.ts analyzeWell', // 302
   'shared/wells/checks.ts readWells', // 99
   'shared/wells/checks.ts readWells/(anonymous)', // 84
