@@ -1,10 +1,10 @@
 import { InputError } from '../errors.ts';
 
 /**
- * Parses RFC 4180 CSV (quoted fields, doubled quotes, CRLF or LF line ends) into a header and rows of strings.
- * Lines that start with `#` before the header are comments (our own exports begin with a caution comment).
+ * Splits RFC 4180 CSV (quoted fields, doubled quotes, CRLF or LF line ends) into records of fields, each with the
+ * physical line (1-based, as a spreadsheet numbers its rows) on which it starts.
  */
-export function parseCsv(text: string): { header: string[]; rows: string[][]; lines: number[]; headerLine: number } {
+function csvRecords(text: string): { records: string[][]; starts: number[] } {
   const records: string[][] = [];
   // The physical line (1-based, as a spreadsheet numbers its rows) on which each record starts.
   const starts: number[] = [];
@@ -66,6 +66,16 @@ export function parseCsv(text: string): { header: string[]; rows: string[][]; li
     records.push(record);
     starts.push(recordLine);
   }
+  return { records, starts };
+}
+
+/**
+ * Parses RFC 4180 CSV into a header and rows of strings with their line numbers. Blank lines are skipped; lines
+ * that start with `#` before the header are comments (our own exports begin with a caution comment). Every row must
+ * have the header's number of fields.
+ */
+export function parseCsv(text: string): { header: string[]; rows: string[][]; lines: number[]; headerLine: number } {
+  const { records, starts } = csvRecords(text);
   const keep = records.map((_, k) => k).filter((k) => !(records[k].length === 1 && records[k][0].trim() === ''));
   const useful = keep.map((k) => records[k]);
   const usefulLines = keep.map((k) => starts[k]);

@@ -52,7 +52,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/grid/contours.ts isolinesIndexLevels', // 107
   'shared/interp/fft.ts run', // 159
   'shared/interp/simulation.ts createConditionalSimulator', // 100
-  'shared/io/csv.ts parseCsv', // 83
   'shared/resource/assess.ts assessHeatInPlace', // 217
   'shared/resource/monte-carlo.ts prepareResource', // 145
   'shared/resource/monte-carlo.ts resourceRange', // 194
