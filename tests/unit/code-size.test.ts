@@ -24,7 +24,6 @@ const MAX_FUNCTION_LINES = 80;
  * listing are in the comments. Delete an entry in the commit that brings it under its limit.
  */
 const OVER_LIMIT: readonly string[] = [
-  'server/io/cog.ts', // 538
   'server/runs/jobs.ts', // 584
   'server/store/postgres.ts', // 692
   'server/store/sqlite.ts', // 621
@@ -43,7 +42,6 @@ const OVER_LIMIT: readonly string[] = [
   'server/cli/isotherms.ts isotherms', // 248
   'server/cli/simulate.ts simulate', // 216
   'server/cli/wells.ts wells', // 184
-  'server/io/cog.ts writeCogFile', // 108
   'server/io/report-html.ts renderReportHtml', // 89
   'server/routes/project-datasets.ts projectDatasetRoutes', // 182
   'server/runs/jobs.ts submit', // 123
