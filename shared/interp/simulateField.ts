@@ -5,6 +5,7 @@ import { converter, lonLatToLocalKm, rowCentresLocalKm, type OutputGridOptions }
 import { prepareInterpolation, type PointData, type VariogramReport, type PreparedInterpolation } from './interpolate.ts';
 import type { CrossValidation } from './crossValidation.ts';
 import { NormalScoreTransform } from './normalScore.ts';
+import { declusterLonLat, type DeclusteringReport } from './declustering.ts';
 import { createConditionalSimulator, type ConditionalSimulator } from './simulation.ts';
 import type { Anisotropy, VariogramModel, VariogramModelName } from './variogram.ts';
 
@@ -24,6 +25,11 @@ export interface SimulationOptions {
   anisotropy?: Anisotropy | null;
   /** 'normal-score' (default) or 'none' (simulate the values as Gaussian). */
   transform?: 'normal-score' | 'none';
+  /**
+   * Declustering weights for the normal-score transform's histogram (declustering.ts): 'none' (default, equal
+   * weights), 'auto' (cell size of the minimum declustered mean) or a given cell size in km.
+   */
+  declustering?: 'none' | 'auto' | { cellKm: number };
   /** Conditioning neighbours per target, or 'all'. Default 16. */
   neighbors?: number | 'all';
   lagKm?: number;
@@ -50,6 +56,8 @@ export interface TransformReport {
   lowTail?: number;
   highTail?: number;
   method?: string;
+  /** The declustering weights of the histogram (absent: equal weights). */
+  declustering?: DeclusteringReport;
 }
 
 export interface SimulationResult {
@@ -115,8 +123,9 @@ function prepare(
           [{ feature: points.ids[i], field: 'value', problem: `must be a finite number, got ${v[i]}` }],
           'invalid_points',
         );
+    const dc = declusterLonLat(points, opts.declustering ?? 'none');
     try {
-      ns = new NormalScoreTransform(v);
+      ns = new NormalScoreTransform(v, dc?.weights ?? null);
     } catch (e) {
       throw new InputError(
         `normal-score transform: ${(e as Error).message}`,
@@ -143,6 +152,7 @@ function prepare(
       method:
         'normal scores at mid-rank probabilities, linear back-transform with linear tails in probability to the data range ± 10 % (Deutsch & Journel 1998, GSLIB nscore/backtr)',
     };
+    if (dc !== null) report.declustering = dc.report;
   }
   const prep = prepareInterpolation(
     gaussPoints,
