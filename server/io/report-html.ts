@@ -120,6 +120,36 @@ export interface ReportHtmlOptions {
   title?: string;
 }
 
+/** The density map as an SVG figure with its legend and caption (a sentence instead when the grid has no data). */
+function mapFigure(opts: ReportHtmlOptions): string {
+  const map = opts.map;
+  if (!map) return '<p>No map: the grid has no data.</p>';
+  const path =
+    opts.outline && opts.grid
+      ? `<path d="${outlinePath(opts.outline, opts.grid, map)}" fill="none" stroke="#f4f1ea" stroke-width="2.5" vector-effect="non-scaling-stroke"/><path d="${outlinePath(opts.outline, opts.grid, map)}" fill="none" stroke="#20130d" stroke-width="1.2" vector-effect="non-scaling-stroke"/>`
+      : '';
+  // Small grids are drawn enlarged (pixelated) so the excerpt reads on paper: the longer side at least 480 px.
+  const zoom = Math.max(1, Math.floor(480 / Math.max(map.width, map.height)));
+  const gradient = `linear-gradient(to right, ${EMBER.colors.join(', ')})`;
+  return `<figure><svg xmlns="http://www.w3.org/2000/svg" width="${map.width * zoom}" height="${map.height * zoom}" viewBox="0 0 ${map.width} ${map.height}" role="img" aria-label="heat in place density map">
+<image href="${map.dataUrl}" x="0" y="0" width="${map.width}" height="${map.height}" style="image-rendering:pixelated"/>${path}
+</svg>
+<div class="legend"><span class="n">${escapeHtml(fmt(map.min))}</span><span class="bar" style="background:${gradient}"></span><span class="n">${escapeHtml(fmt(map.max))} PJ/km²</span></div>
+<figcaption>Heat in place per unit area (${escapeHtml(opts.mapLabel ?? 'nominal')}), PJ/km²${map.step > 1 ? `, every ${map.step}th cell` : ''}; no data transparent. ${escapeHtml(CAUTION)}</figcaption></figure>`;
+}
+
+/** The per-zone table (empty without zones). */
+function zonesTable(zones: NonNullable<HeatInPlaceReport['totals']['zones']>): string {
+  return zones.length
+    ? `<h2>Zones</h2><table><thead><tr><th>Zone</th><th>Area (km²)</th><th>Heat in place, P50 or nominal (EJ)</th><th>Electric P10</th><th>P50</th><th>P90 (MWe)</th></tr></thead><tbody>${zones
+        .map(
+          (z) =>
+            `<tr><th scope="row">${escapeHtml(z.zone)}</th><td class="n">${escapeHtml(fmt(z.areaKm2))}</td><td class="n">${escapeHtml(fmt(z.heatInPlaceEJ.p50 ?? z.heatInPlaceEJ.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p10))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p50 ?? z.electricMWe.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p90))}</td></tr>`,
+        )
+        .join('')}</tbody></table>`
+    : '';
+}
+
 /** The printable HTML page of a heat-in-place report. */
 export function renderReportHtml(r: HeatInPlaceReport, opts: ReportHtmlOptions = {}): string {
   const inputs = r.inputs;
@@ -127,22 +157,7 @@ export function renderReportHtml(r: HeatInPlaceReport, opts: ReportHtmlOptions =
   const m = r.method;
   const title = opts.title ?? 'Heat in place';
   const areaName = r.area === 'polygon' ? `polygon${r.totals.polygon?.label ? ` “${r.totals.polygon.label}”` : ''}` : 'whole grid';
-  const map = opts.map;
-  let mapHtml = '<p>No map: the grid has no data.</p>';
-  if (map) {
-    const path =
-      opts.outline && opts.grid
-        ? `<path d="${outlinePath(opts.outline, opts.grid, map)}" fill="none" stroke="#f4f1ea" stroke-width="2.5" vector-effect="non-scaling-stroke"/><path d="${outlinePath(opts.outline, opts.grid, map)}" fill="none" stroke="#20130d" stroke-width="1.2" vector-effect="non-scaling-stroke"/>`
-        : '';
-    // Small grids are drawn enlarged (pixelated) so the excerpt reads on paper: the longer side at least 480 px.
-    const zoom = Math.max(1, Math.floor(480 / Math.max(map.width, map.height)));
-    const gradient = `linear-gradient(to right, ${EMBER.colors.join(', ')})`;
-    mapHtml = `<figure><svg xmlns="http://www.w3.org/2000/svg" width="${map.width * zoom}" height="${map.height * zoom}" viewBox="0 0 ${map.width} ${map.height}" role="img" aria-label="heat in place density map">
-<image href="${map.dataUrl}" x="0" y="0" width="${map.width}" height="${map.height}" style="image-rendering:pixelated"/>${path}
-</svg>
-<div class="legend"><span class="n">${escapeHtml(fmt(map.min))}</span><span class="bar" style="background:${gradient}"></span><span class="n">${escapeHtml(fmt(map.max))} PJ/km²</span></div>
-<figcaption>Heat in place per unit area (${escapeHtml(opts.mapLabel ?? 'nominal')}), PJ/km²${map.step > 1 ? `, every ${map.step}th cell` : ''}; no data transparent. ${escapeHtml(CAUTION)}</figcaption></figure>`;
-  }
+  const mapHtml = mapFigure(opts);
   const zones = r.totals.zones ?? [];
   const warnings = r.warnings.length ? `<ul>${r.warnings.map((w) => `<li>${escapeHtml(w)}</li>`).join('')}</ul>` : '<p>None.</p>';
   const mc = r.monteCarlo;
@@ -164,16 +179,7 @@ ${totalsTable(r, conv)}
 <p class="small">${escapeHtml(m.percentiles)}. ${escapeHtml(m.exceedance)}. ${mc === null ? escapeHtml(`No Monte Carlo run: ${String(m.noRealizations)}.`) : escapeHtml(`${mc.accepted} of ${mc.realizations} realizations used (seed ${mc.seed}; ${mc.heatFlow}).`)} ${escapeHtml(m.nominal)}.</p>
 <h2>Map</h2>
 ${mapHtml}
-${
-  zones.length
-    ? `<h2>Zones</h2><table><thead><tr><th>Zone</th><th>Area (km²)</th><th>Heat in place, P50 or nominal (EJ)</th><th>Electric P10</th><th>P50</th><th>P90 (MWe)</th></tr></thead><tbody>${zones
-        .map(
-          (z) =>
-            `<tr><th scope="row">${escapeHtml(z.zone)}</th><td class="n">${escapeHtml(fmt(z.areaKm2))}</td><td class="n">${escapeHtml(fmt(z.heatInPlaceEJ.p50 ?? z.heatInPlaceEJ.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p10))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p50 ?? z.electricMWe.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p90))}</td></tr>`,
-        )
-        .join('')}</tbody></table>`
-    : ''
-}
+${zonesTable(zones)}
 <h2>Inputs and assumptions</h2>
 <table><tbody>
 <tr><th scope="row">Depth window</th><td>${escapeHtml(fmt(inputs.topKm as number))} – ${escapeHtml(fmt(inputs.bottomKm as number))} km below the surface</td></tr>

@@ -42,7 +42,6 @@ const OVER_LIMIT: readonly string[] = [
   'server/cli/isotherms.ts isotherms', // 248
   'server/cli/simulate.ts simulate', // 216
   'server/cli/wells.ts wells', // 184
-  'server/io/report-html.ts renderReportHtml', // 89
   'server/routes/project-datasets.ts projectDatasetRoutes', // 182
   'server/runs/jobs.ts submit', // 123
   'server/runs/run-inputs.ts readRunInputs', // 83
