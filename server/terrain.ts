@@ -237,9 +237,37 @@ export class WindowTiles {
   }
 }
 
-/** Terrain tiles: the DEM in MapLibre's `mapbox` encoding, edges clamped. */
+/**
+ * A copy of `values` (row-major, `width` columns) where each no-data cell takes the value of the nearest cell with
+ * data, nearest in steps between edge-sharing cells (a breadth-first search from every cell with data at once).
+ * Cells that have data keep it. All no data stays no data.
+ */
+export function fillNoDataFromNearest(values: Float32Array, width: number, height: number): Float32Array {
+  const n = width * height;
+  const out = Float32Array.from(values.subarray(0, n));
+  const queue = new Int32Array(n);
+  let head = 0,
+    tail = 0;
+  for (let i = 0; i < out.length; i++) if (out[i] === out[i]) queue[tail++] = i;
+  while (head < tail) {
+    const i = queue[head++];
+    const c = i % width;
+    for (const j of [c > 0 ? i - 1 : -1, c < width - 1 ? i + 1 : -1, i - width, i + width]) {
+      if (j < 0 || j >= n || out[j] === out[j]) continue;
+      out[j] = out[i];
+      queue[tail++] = j;
+    }
+  }
+  return out;
+}
+
+/**
+ * Terrain tiles: the DEM in MapLibre's `mapbox` encoding, edges clamped. Its no-data cells (e.g. the corners of a
+ * projected DEM brought to lon/lat) take the nearest cell's elevation, so the hillshade runs flat (undrawn) beyond
+ * the data instead of drawing a cliff down to the encoding's lowest code where the DEM ends.
+ */
 export class TerrainTiles extends GridTiles {
   constructor(dem: Grid<Float32Array>) {
-    super(dem, TERRAIN_RGB, { edge: 'clamp' });
+    super({ ...dem, values: fillNoDataFromNearest(dem.values, dem.width, dem.height) }, TERRAIN_RGB, { edge: 'clamp' });
   }
 }

@@ -7,43 +7,18 @@
  * and P90, the exceedance reading in words, the caution, and links to the HTML report and the CSV.
  */
 import { CAUTION } from '../../shared/caution.ts';
-import { EXCEEDANCE_READING } from '../../shared/resource/assess.ts';
-import type { AreaTotals, TotalValue } from '../../shared/resource/totals.ts';
+import { reportView, type HeatReport, type ReportLinks } from './heat-report.ts';
 import { ApiError, getJson, sendJson, type RunState } from './api.ts';
 import { message, type AppContext } from './context.ts';
 import { el, errorBox, replace } from './dom.ts';
 import { LineDrawer } from './section.ts';
-
-/** One total of the report (the deterministic value and the Monte Carlo percentiles), as shared/resource computes it. */
-export type { TotalValue };
-
-/** The part of the CLI's `heat-in-place --json` report the panel shows: the area totals of shared/resource/totals.ts and the report's frame. */
-export type HeatReport = Pick<
-  AreaTotals,
-  | 'cells'
-  | 'areaKm2'
-  | 'heatInPlaceEJ'
-  | 'recoverableJ'
-  | 'thermalMWt'
-  | 'electricMWe'
-  | 'electricMWeConversion'
-  | 'hotAreaKm2'
-  | 'hotVolumeKm3'
-  | 'meanReservoirTempC'
-> & {
-  area: 'polygon' | 'grid';
-  totals: { polygon: { polygonAreaKm2: number; label: string | null } | null };
-  monteCarlo: { realizations: number; accepted: number; rejected: number; seed: number } | null;
-  warnings: string[];
-  caution: string;
-};
 
 interface JobView {
   jobId: string;
   status: 'queued' | 'running' | 'done' | 'failed';
   position: number;
   url: string;
-  links: { json: string; html: string; csv: string };
+  links: ReportLinks;
 }
 
 /** What the last finished job was asked and answered (read by tests and the console through window.subtherm). */
@@ -83,83 +58,6 @@ export function readOption(text: string, label: string, uncertain: boolean): { v
   const v = Number(s);
   if (!Number.isFinite(v)) return { problem: `${label}: expected a number${uncertain ? ' or a distribution as JSON' : ''}, got "${s}"` };
   return { value: v };
-}
-
-/** A value with about three significant figures and thin grouping, "—" when missing. */
-export function sig(v: number | null | undefined): string {
-  if (typeof v !== 'number' || !Number.isFinite(v)) return '—';
-  if (v === 0) return '0';
-  const a = Math.abs(v);
-  if (a >= 1000) return Math.round(v).toLocaleString('en-US');
-  return String(Number(v.toPrecision(3)));
-}
-
-/** The rows of the totals table: label, unit, how to read the total (scale from the report's own unit). */
-const ROWS: { key: keyof HeatReport; label: string; unit: string; scale: number }[] = [
-  { key: 'heatInPlaceEJ', label: 'Heat in place', unit: 'EJ', scale: 1 },
-  { key: 'recoverableJ', label: 'Recoverable heat', unit: 'EJ', scale: 1e-18 },
-  { key: 'thermalMWt', label: 'Thermal power over the plant life', unit: 'MWt', scale: 1 },
-  { key: 'electricMWe', label: 'Electric power (available work)', unit: 'MWe', scale: 1 },
-  { key: 'electricMWeConversion', label: 'Electric power (conversion efficiency)', unit: 'MWe', scale: 1 },
-  { key: 'hotAreaKm2', label: 'Area of rock ≥ minimum temperature', unit: 'km²', scale: 1 },
-  { key: 'hotVolumeKm3', label: 'Volume of that rock', unit: 'km³', scale: 1 },
-  { key: 'meanReservoirTempC', label: 'Its mean temperature', unit: '°C', scale: 1 },
-];
-
-function totalsTable(r: HeatReport): HTMLElement {
-  const head = el('tr', {}, ...['Total', 'Nominal', 'P10', 'P50', 'P90', 'Unit'].map((h) => el('th', { scope: 'col' }, h)));
-  const rows = ROWS.filter((row) => {
-    const t = r[row.key] as TotalValue | undefined;
-    return t !== undefined && (t.nominal !== null || t.p50 !== null);
-  }).map((row) => {
-    const t = r[row.key] as TotalValue;
-    const s = (v: number | null) => (v === null ? '—' : sig(v * row.scale));
-    return el(
-      'tr',
-      { 'data-total': String(row.key) },
-      el('th', { scope: 'row' }, row.label),
-      el('td', { class: 'num' }, s(t.nominal)),
-      el('td', { class: 'num' }, s(t.p10)),
-      el('td', { class: 'num' }, s(t.p50)),
-      el('td', { class: 'num' }, s(t.p90)),
-      el('td', {}, row.unit),
-    );
-  });
-  return el('div', { class: 'table-scroll' }, el('table', { class: 'report hip-totals', id: 'hip-totals' }, el('thead', {}, head), el('tbody', {}, ...rows)));
-}
-
-/** The totals in words: the P50 with its range, or the nominal value alone without realizations. */
-export function headline(r: HeatReport): string {
-  const h = r.heatInPlaceEJ,
-    e = r.electricMWe;
-  const where =
-    r.area === 'polygon'
-      ? `Inside the area (${sig(r.totals.polygon?.polygonAreaKm2 ?? r.areaKm2)} km², ${r.cells} cells)`
-      : `Over the run's grid (${sig(r.areaKm2)} km², ${r.cells} cells)`;
-  if (h.p50 !== null && r.monteCarlo) {
-    return `${where}: heat in place ${sig(h.p50)} EJ (P50; P10 ${sig(h.p10)}, P90 ${sig(h.p90)} EJ; nominal ${sig(h.nominal)} EJ), electric power ${sig(e.p50)} MWe (P10 ${sig(e.p10)}, P90 ${sig(e.p90)} MWe) from ${r.monteCarlo.accepted} realizations.`;
-  }
-  return `${where}: heat in place ${sig(h.nominal)} EJ, electric power ${sig(e.nominal)} MWe (nominal only: ask for realizations to get P10–P90).`;
-}
-
-/** The report as the panel shows it: headline, table, exceedance reading, warnings, downloads, caution. */
-export function reportView(r: HeatReport, links: JobView['links']): HTMLElement {
-  return el(
-    'div',
-    { class: 'hip-report', id: 'hip-report' },
-    el('p', { class: 'hip-headline', id: 'hip-headline' }, headline(r)),
-    totalsTable(r),
-    r.monteCarlo ? el('p', { class: 'note', id: 'hip-exceedance' }, `${EXCEEDANCE_READING}.`) : null,
-    ...r.warnings.map((w) => el('p', { class: 'note warning' }, w)),
-    el(
-      'p',
-      { class: 'hip-links' },
-      el('a', { href: links.html, target: '_blank', rel: 'noopener', id: 'hip-html' }, 'Printable report (HTML)'),
-      ' · ',
-      el('a', { href: links.csv, download: '', id: 'hip-csv' }, 'Totals (CSV)'),
-    ),
-    el('p', { class: 'note caution-note', id: 'hip-caution' }, r.caution || CAUTION),
-  );
 }
 
 export interface HeatPanel {
@@ -269,10 +167,9 @@ async function waitForJob(url: string, onWait: (v: JobView) => void): Promise<He
   }
 }
 
-export function heatPanel(ctx: AppContext): HeatPanel {
-  let run: RunState | null = null;
-  const area = new AreaPicker(ctx);
-  const inputs = FIELDS.map((f) =>
+/** The option fields (FIELDS), the heat-flow error choice and how to read them into the request's options. */
+class OptionsForm {
+  readonly inputs = FIELDS.map((f) =>
     el('input', {
       id: f.id,
       value: f.value,
@@ -282,12 +179,92 @@ export function heatPanel(ctx: AppContext): HeatPanel {
       ...(f.uncertain ? { title: 'a number, or a distribution as JSON, e.g. {"dist":"triangular","min":0.05,"mode":0.1,"max":0.2}' } : {}),
     }),
   );
-  const corr = el(
+  readonly corr = el(
     'select',
     { id: 'hip-correlation' },
     el('option', { value: 'full' }, 'fully correlated'),
     el('option', { value: 'independent' }, 'independent per cell'),
   );
+  readonly seedRow = el('div', { class: 'field-row' });
+  readonly corrRow = el('div', { class: 'field-row' }, el('label', { for: this.corr.id }, 'Heat-flow errors'), this.corr);
+  readonly realizationsNote = el('p', { class: 'note', id: 'hip-realizations-note' });
+  /** The shown run's realizations (0: none): with them the run lends its own fields and seed. */
+  runRealizations = 0;
+
+  /** One labelled row per field. */
+  rows(): HTMLElement[] {
+    const rows = FIELDS.map((f) => (f.key === 'seed' ? this.seedRow : el('div', { class: 'field-row' })));
+    FIELDS.forEach((f, i) => rows[i].append(el('label', { for: f.id }, f.label), this.inputs[i]));
+    return rows;
+  }
+
+  /** The request's options, or the problems found in the fields (each field marked). */
+  read(): { options?: Record<string, unknown>; problems: string[] } {
+    const own = this.runRealizations > 0;
+    const options: Record<string, unknown> = {};
+    const problems: string[] = [];
+    FIELDS.forEach((f, i) => {
+      if (f.key === 'seed' && own) return;
+      const r = readOption(this.inputs[i].value, f.label, f.uncertain === true);
+      this.inputs[i].setAttribute('aria-invalid', String(r.problem !== undefined));
+      if (r.problem) problems.push(r.problem);
+      else if (r.value !== undefined) options[f.key] = r.value;
+      else if (!f.optional) problems.push(`${f.label}: a value is needed`);
+    });
+    if (!own) options.heatFlowErrorCorrelation = this.corr.value;
+    return problems.length > 0 ? { problems } : { options, problems };
+  }
+
+  /** A run with realizations lends its own: its simulated heat-flow fields and its seed (the server uses them). */
+  setRunRealizations(n: number): void {
+    this.runRealizations = n;
+    const own = n > 0;
+    this.seedRow.hidden = this.corrRow.hidden = own;
+    const input = this.inputs[FIELDS.findIndex((f) => f.key === 'realizations')];
+    if (own) input.value = String(Math.min(n, Number(input.value) || n));
+    this.realizationsNote.textContent = own
+      ? `The heat-flow uncertainty comes from the run's own ${n} realizations (its simulated heat-flow fields and its seed), the same ones its percentile, spread and probability maps use; ask for at most ${n}.`
+      : 'The run has no realizations: the heat-flow uncertainty is its kriging standard deviation, drawn with the seed above.';
+  }
+}
+
+/** The job's controls and output: the button, progress, status line and the report area. */
+interface JobControls {
+  btn: HTMLButtonElement;
+  progress: HTMLElement;
+  status: HTMLElement;
+  out: HTMLElement;
+}
+
+/** Sends the job for `runId`, follows it and shows its report (or the error); records it on the page handle. */
+async function runHeatJob(ctx: AppContext, runId: string, request: { polygon?: unknown; options: Record<string, unknown> }, v: JobControls): Promise<void> {
+  v.btn.disabled = true;
+  v.progress.hidden = false;
+  replace(v.out);
+  v.status.textContent = 'Sending the job…';
+  const started = Date.now();
+  try {
+    const job = await sendJson<JobView>('POST', `/api/runs/${encodeURIComponent(runId)}/heat-in-place`, request);
+    const report = await waitForJob(job.url, (w) => {
+      const s = Math.round((Date.now() - started) / 1000);
+      v.status.textContent =
+        w.status === 'queued' ? `Queued on the server (position ${w.position}), ${s} s…` : `Computing on the server's worker pool, ${s} s…`;
+    });
+    v.status.textContent = `Done in ${((Date.now() - started) / 1000).toFixed(1)} s.`;
+    replace(v.out, reportView(report, job.links));
+    ctx.app.heatInPlace = { runId, request, report, links: job.links };
+  } catch (e) {
+    v.status.textContent = '';
+    replace(v.out, e instanceof ApiError ? errorBox(`Heat in place: ${e.message}`, e.details) : errorBox(`Heat in place: ${message(e)}`));
+  } finally {
+    v.progress.hidden = true;
+  }
+}
+
+export function heatPanel(ctx: AppContext): HeatPanel {
+  let run: RunState | null = null;
+  const area = new AreaPicker(ctx);
+  const form = new OptionsForm();
   const btn = el('button', { type: 'button', id: 'hip-run', class: 'primary', disabled: '' }, 'Compute heat in place');
   const runLine = el('p', { class: 'note', id: 'hip-run-line' }, 'Run a model first (Run tab): heat in place is computed over a finished run.');
   const progress = el(
@@ -298,70 +275,20 @@ export function heatPanel(ctx: AppContext): HeatPanel {
   const status = el('p', { class: 'run-message', id: 'hip-status', 'aria-live': 'polite' });
   const out = el('div', { id: 'hip-out' });
 
-  // A run with realizations lends its own: its simulated heat-flow fields and its seed (the server uses them).
-  let runRealizations = 0;
-  const ownRealizations = () => runRealizations > 0;
-  const seedRow = el('div', { class: 'field-row' });
-  const corrRow = el('div', { class: 'field-row' }, el('label', { for: corr.id }, 'Heat-flow errors'), corr);
-  const realizationsNote = el('p', { class: 'note', id: 'hip-realizations-note' });
-  const readOptions = (): { options?: Record<string, unknown>; problems: string[] } => {
-    const options: Record<string, unknown> = {};
-    const problems: string[] = [];
-    FIELDS.forEach((f, i) => {
-      if (f.key === 'seed' && ownRealizations()) return;
-      const r = readOption(inputs[i].value, f.label, f.uncertain === true);
-      inputs[i].setAttribute('aria-invalid', String(r.problem !== undefined));
-      if (r.problem) problems.push(r.problem);
-      else if (r.value !== undefined) options[f.key] = r.value;
-      else if (!f.optional) problems.push(`${f.label}: a value is needed`);
-    });
-    if (!ownRealizations()) options.heatFlowErrorCorrelation = corr.value;
-    return problems.length > 0 ? { problems } : { options, problems };
-  };
-
   const compute = async () => {
     if (!run) return;
-    const o = readOptions();
-    if (!o.options) {
-      replace(out, errorBox(o.problems.join('; ')));
-      return;
-    }
+    const o = form.read();
+    if (!o.options) return replace(out, errorBox(o.problems.join('; ')));
     const a: { polygon?: unknown; problem?: string } = await area
       .polygon()
       .catch((e: unknown) => ({ problem: `The regions could not be read: ${message(e)}` }));
-    if (a.problem) {
-      replace(out, errorBox(a.problem));
-      return;
-    }
+    if (a.problem) return replace(out, errorBox(a.problem));
     const request = { ...(a.polygon !== undefined ? { polygon: a.polygon } : {}), options: o.options };
-    const runId = run.id;
-    btn.disabled = true;
-    progress.hidden = false;
-    replace(out);
-    status.textContent = 'Sending the job…';
-    const started = Date.now();
-    try {
-      const job = await sendJson<JobView>('POST', `/api/runs/${encodeURIComponent(runId)}/heat-in-place`, request);
-      const report = await waitForJob(job.url, (v) => {
-        const s = Math.round((Date.now() - started) / 1000);
-        status.textContent =
-          v.status === 'queued' ? `Queued on the server (position ${v.position}), ${s} s…` : `Computing on the server's worker pool, ${s} s…`;
-      });
-      status.textContent = `Done in ${((Date.now() - started) / 1000).toFixed(1)} s.`;
-      replace(out, reportView(report, job.links));
-      ctx.app.heatInPlace = { runId, request, report, links: job.links };
-    } catch (e) {
-      status.textContent = '';
-      replace(out, e instanceof ApiError ? errorBox(`Heat in place: ${e.message}`, e.details) : errorBox(`Heat in place: ${message(e)}`));
-    } finally {
-      progress.hidden = true;
-      btn.disabled = run === null;
-    }
+    await runHeatJob(ctx, run.id, request, { btn, progress, status, out });
+    btn.disabled = run === null;
   };
   btn.addEventListener('click', () => void compute());
 
-  const rows = FIELDS.map((f) => (f.key === 'seed' ? seedRow : el('div', { class: 'field-row' })));
-  FIELDS.forEach((f, i) => rows[i].append(el('label', { for: f.id }, f.label), inputs[i]));
   const root = el(
     'div',
     { class: 'heat-panel' },
@@ -369,9 +296,9 @@ export function heatPanel(ctx: AppContext): HeatPanel {
     runLine,
     area.root,
     el('h3', {}, 'Reservoir and plant'),
-    ...rows,
-    corrRow,
-    realizationsNote,
+    ...form.rows(),
+    form.corrRow,
+    form.realizationsNote,
     el(
       'p',
       { class: 'note' },
@@ -390,13 +317,7 @@ export function heatPanel(ctx: AppContext): HeatPanel {
       run = r && r.status === 'done' ? r : null;
       btn.disabled = run === null;
       const n = run?.request?.realizations;
-      runRealizations = typeof n === 'number' && n > 0 ? n : 0;
-      seedRow.hidden = corrRow.hidden = ownRealizations();
-      const realizationsInput = inputs[FIELDS.findIndex((f) => f.key === 'realizations')];
-      if (ownRealizations()) realizationsInput.value = String(Math.min(runRealizations, Number(realizationsInput.value) || runRealizations));
-      realizationsNote.textContent = ownRealizations()
-        ? `The heat-flow uncertainty comes from the run's own ${runRealizations} realizations (its simulated heat-flow fields and its seed), the same ones its percentile, spread and probability maps use; ask for at most ${runRealizations}.`
-        : 'The run has no realizations: the heat-flow uncertainty is its kriging standard deviation, drawn with the seed above.';
+      form.setRunRealizations(typeof n === 'number' && n > 0 ? n : 0);
       runLine.textContent = run ? `Over run ${run.id}.` : 'Run a model first (Run tab): heat in place is computed over a finished run.';
     },
   };

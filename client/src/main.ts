@@ -13,7 +13,7 @@ import { el } from './dom.ts';
 import { legendEntries } from './legend.ts';
 import { LayerPanel } from './layers.ts';
 import { defaultParams, decodeState, encodeState, stateFromJson, type AppState } from './state.ts';
-import { showRunLayers } from './runlayers.ts';
+import { runLayerId, showRunLayers } from './runlayers.ts';
 import { message, showError, tabs, type AppContext, type AppHandle } from './context.ts';
 import { columnPanel } from './column.ts';
 import { DataSets, dataPanel, type PointKind } from './data.ts';
@@ -147,6 +147,23 @@ function tilesLoading(map: MapLibreMap): { done(): void } {
   };
 }
 
+/**
+ * The progress of a run being computed, on the map itself (the run panel may be closed: a newcomer opening the demo
+ * while its default run is still computing sees the work advance); it goes when the run ends.
+ */
+function runProgressNote(map: MapLibreMap): (p: { fraction: number; text: string; ended: boolean }) => void {
+  return ({ fraction, text, ended }) => {
+    let note = document.getElementById('run-progress-note');
+    if (ended) return note?.remove();
+    if (!note) {
+      note = el('div', { class: 'map-loading', id: 'run-progress-note', role: 'status', 'aria-live': 'polite' });
+      map.getContainer().append(note);
+    }
+    const pct = Math.round(Math.max(0, Math.min(1, fraction)) * 100);
+    note.replaceChildren(el('span', { class: 'spinner', 'aria-hidden': 'true' }), `Computing the run: ${pct} %${text ? ` — ${text}` : ''}`);
+  };
+}
+
 /** Shows a finished run: its layers, its summary, its structure report and the section hint. */
 async function showRun(
   ctx: AppContext,
@@ -209,7 +226,12 @@ function buildTools(
     params: state.params,
     model: () => editor.value(),
     onParams: (p) => ((state.params = p), ctx.syncUrl()),
-    onDone: (run) => void show(run).catch((e: unknown) => ctx.showError(message(e))),
+    onDone: (run, added) => {
+      // Layers the user has just asked for (spread, probability) are shown at once, above the others.
+      for (const name of added ?? []) state.layers[runLayerId(name)] = { visible: true, opacity: 0.85 };
+      void show(run).catch((e: unknown) => ctx.showError(message(e)));
+    },
+    onProgress: runProgressNote(ctx.map),
     submitTo,
   });
   const heat = heatPanel(ctx);

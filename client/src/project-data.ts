@@ -159,7 +159,8 @@ export class ProjectDataTable {
     }
   }
 
-  private async change(method: 'PATCH' | 'DELETE', d: ProjectDataset, body?: unknown): Promise<void> {
+  /** Renames or removes a data set (or the terrain) at `d.url`, then lists the project again. */
+  private async change(method: 'PATCH' | 'DELETE', d: { url: string; name: string }, body?: unknown): Promise<void> {
     try {
       const res = await fetch(d.url, {
         method,
@@ -210,10 +211,19 @@ export class ProjectDataTable {
     );
   }
 
-  /** The terrain's row: extent, source CRS, zoom to. */
+  /** The terrain's row: extent, source CRS, zoom to, and remove (with the edit token). */
   private terrainRow(t: ProjectTerrain): HTMLElement {
     const zoom = el('button', { type: 'button', class: 'small', 'data-action': 'zoom to' }, 'zoom to');
     zoom.addEventListener('click', () => fitBbox(this.ctx.map, t.bbox));
+    const actions = el('td', { class: 'actions' }, zoom);
+    if (this.ctx.editToken !== null) {
+      const remove = el('button', { type: 'button', class: 'small', 'data-action': 'remove', id: 'terrain-remove' }, 'remove');
+      const url = `/api/projects/${encodeURIComponent(this.ctx.projectId!)}/terrain`;
+      remove.addEventListener('click', () => {
+        if (window.confirm(`Remove the terrain "${t.name}" from this project? Its hillshade goes with it.`)) void this.change('DELETE', { url, name: t.name });
+      });
+      actions.append(remove);
+    }
     return el(
       'tr',
       { 'data-kind': 'terrain' },
@@ -222,7 +232,7 @@ export class ProjectDataTable {
       el('td', { class: 'num' }, '—'),
       el('td', { class: 'bbox' }, bboxText(t.bbox)),
       el('td', {}, new Date(t.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')),
-      el('td', { class: 'actions' }, zoom),
+      actions,
     );
   }
 

@@ -96,7 +96,7 @@ let lastStatus: { runId: string; text: string } | null = null;
  * probability that the depth to an isotherm is shallower than a typed depth (GET /api/runs/:id/spread and
  * …/probability). Each becomes one of the run's layers, with its legend and units; `onLayer` redraws the run.
  */
-export function uncertaintyControls(run: RunState, onLayer: (run: RunState) => void): HTMLElement {
+export function uncertaintyControls(run: RunState, onLayer: (run: RunState, added: string[]) => void): HTMLElement {
   const iso = el('input', {
     id: 'unc-isotherm',
     type: 'number',
@@ -123,7 +123,11 @@ export function uncertaintyControls(run: RunState, onLayer: (run: RunState) => v
       await getJson<unknown>(`/api/runs/${encodeURIComponent(run.id)}/${query}`);
       const updated = await getJson<RunState>(`/api/runs/${encodeURIComponent(run.id)}`);
       say(`The ${what} is among the run's layers.`);
-      onLayer(updated);
+      const before = new Set((run.layers ?? []).map((l) => l.name));
+      onLayer(
+        updated,
+        (updated.layers ?? []).map((l) => l.name).filter((n) => !before.has(n)),
+      );
     } catch (e) {
       say(`${what}: ${e instanceof Error ? e.message : String(e)}`);
     }

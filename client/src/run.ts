@@ -224,9 +224,12 @@ interface RunOptions {
   params: RunParams;
   model: () => unknown;
   onParams: (p: RunParams) => void;
-  onDone: (run: RunState) => void;
+  /** A run to show: one that has just ended, or one given new layers (`added`, shown at once). */
+  onDone: (run: RunState, added?: string[]) => void;
   /** Where runs go (a project's runs route with its edit token, else POST /api/runs). */
   submitTo?: () => { path: string; headers: Record<string, string> };
+  /** Each progress report of the run followed (fraction 0–1 and its message), and its end (`ended` true). */
+  onProgress?: (p: { fraction: number; text: string; ended: boolean }) => void;
 }
 
 /** The panel's behaviour: the form, the run it follows, its buttons. */
@@ -250,8 +253,12 @@ class RunController {
     this.watcher = new RunWatcher(
       (id, s) => {
         if (id !== this.current) return;
-        if (typeof s.progress === 'number') this.progress.set(s.progress, s.message ?? s.status ?? '');
-        if (s.status === 'done' || s.status === 'failed' || s.status === 'cancelled') void this.finish(id);
+        const ended = s.status === 'done' || s.status === 'failed' || s.status === 'cancelled';
+        if (typeof s.progress === 'number') {
+          this.progress.set(s.progress, s.message ?? s.status ?? '');
+          this.opts.onProgress?.({ fraction: s.progress, text: s.message ?? s.status ?? '', ended });
+        }
+        if (ended) void this.finish(id);
       },
       (m) => replace(this.errorArea, errorBox(m)),
     );
@@ -282,11 +289,13 @@ class RunController {
     this.cancelBtn.disabled = !this.enabled;
     this.runBtn.disabled = true;
     this.progress.set(0, 'queued');
+    this.opts.onProgress?.({ fraction: 0, text: 'queued', ended: false });
     this.watcher.watch(id);
   }
 
   private async finish(id: string): Promise<void> {
     this.watcher.stop();
+    this.opts.onProgress?.({ fraction: 1, text: 'ended', ended: true });
     this.cancelBtn.disabled = true;
     this.runBtn.disabled = !this.enabled;
     try {

@@ -4,16 +4,15 @@
  * (contours, isograds, cross-validation residuals) are GeoJSON sources from the run's .geojson files.
  * Layers that exist at several depths (temperature-5km, facies-10km, …) share one panel entry with a depth chooser.
  */
-import type { ExpressionSpecification, LayerSpecification, Map as MapLibreMap } from 'maplibre-gl';
+import type { ExpressionSpecification, Map as MapLibreMap } from 'maplibre-gl';
 import { ApiError, getJson, type RunLayer, type RunState, type TileInfo } from './api.ts';
 import { el } from './dom.ts';
 import type { LayerEntry, LayerPanel } from './layers.ts';
 import { legendFromSpec } from './legend.ts';
 import { readableRasters } from './readout.ts';
-import { BASE_TOP, colorReliefExpression, RESIDUAL_COLORS } from './style.ts';
-import { ZONE_COLORS } from '../../shared/grid/ramps.ts';
+import { BASE_TOP, colorReliefExpression } from './style.ts';
+import { isogradLegend, residualLegend, vectorLayers } from './run-vector-layers.ts';
 
-const FONT = ['DejaVu Sans', 'sans-serif'];
 /**
  * Draw order: the whole base (land, sea mask, relief, coastlines, graticule) under every computed layer, so results
  * show wherever they lie; run rasters under the run's contours, both under the data; isograds and residual symbols
@@ -37,6 +36,16 @@ export interface RunLayerGroup {
 }
 
 const DEPTH_NAME = /^(.+?)-(\d+(?:\.\d+)?)km$/;
+
+/** The map layer id (and layer-panel entry id) of a group of run layers. */
+function groupLayerId(key: string): string {
+  return `run-${key.replace(/[^A-Za-z0-9_-]/g, '_')}`;
+}
+
+/** The map layer id of a raster run layer by its name (depth-indexed names share their group's). */
+export function runLayerId(name: string): string {
+  return groupLayerId(DEPTH_NAME.exec(name)?.[1] ?? name);
+}
 
 /** Groups a run's layers: names like `temperature-5km` group by prefix with their depths; others stand alone. */
 export function groupRunLayers(input: RunLayer[]): RunLayerGroup[] {
@@ -125,130 +134,6 @@ function downloads(runId: string, layer: RunLayer): HTMLElement {
     ...layer.formats.map((ext) =>
       el('a', { href: layerUrl(runId, layer, ext), download: `${layer.name}.${ext}`, class: 'dl', 'data-format': ext }, label[ext] ?? ext),
     ),
-  );
-}
-
-/** A contour label: the level rounded to 0.1 and its units (the feature's own `units`, else the layer's). */
-function numberLabel(units: string): ExpressionSpecification {
-  const v = ['coalesce', ['get', 'value'], ['get', 'depthKm'], ['get', 'level'], 0];
-  return ['concat', ['to-string', ['/', ['round', ['*', v, 10]], 10]], ' ', ['coalesce', ['get', 'units'], units]] as unknown as ExpressionSpecification;
-}
-
-/** MapLibre layers for one vector run layer, chosen by what it holds. */
-function vectorLayers(id: string, source: string, layer: RunLayer): LayerSpecification[] {
-  const name = layer.name.toLowerCase();
-  if (name.includes('isograd')) {
-    const zoneColor = ['match', ['get', 'mineral'], ...Object.entries(ZONE_COLORS).flat(), '#888888'] as unknown as ExpressionSpecification;
-    return [
-      { id: `${id}-casing`, type: 'line', source, layout: { 'line-join': 'round' }, paint: { 'line-color': '#2b2b2b', 'line-width': 4 } },
-      { id, type: 'line', source, layout: { 'line-join': 'round' }, paint: { 'line-color': zoneColor, 'line-width': 2.2 } },
-      // Ticks on the high-grade side: a dashed line offset to that side (positive offset = right of the direction).
-      {
-        id: `${id}-ticks`,
-        type: 'line',
-        source,
-        paint: {
-          'line-color': '#2b2b2b',
-          'line-width': 5,
-          'line-dasharray': [0.35, 2.2],
-          'line-offset': ['match', ['get', 'highSide'], 'left', -4.5, 'right', 4.5, 0] as unknown as ExpressionSpecification,
-        },
-      },
-      {
-        id: `${id}-labels`,
-        type: 'symbol',
-        source,
-        layout: {
-          'symbol-placement': 'line',
-          'text-field': ['concat', ['to-string', ['coalesce', ['get', 'mineral'], ['get', 'zone'], '']], ' in'] as unknown as ExpressionSpecification,
-          'text-font': FONT,
-          'text-size': 11,
-          'text-offset': [0, -1],
-        },
-        paint: { 'text-color': '#3a1c4a', 'text-halo-color': '#ffffff', 'text-halo-width': 1.4 },
-      },
-    ];
-  }
-  if (name.includes('contour')) {
-    const km = /depth/.test(name) || layer.units === 'km';
-    return [
-      { id, type: 'line', source, paint: { 'line-color': '#1b1b1b', 'line-width': 0.9 } },
-      {
-        id: `${id}-labels`,
-        type: 'symbol',
-        source,
-        layout: { 'symbol-placement': 'line', 'symbol-spacing': 220, 'text-field': numberLabel(km ? 'km' : layer.units), 'text-font': FONT, 'text-size': 10.5 },
-        paint: { 'text-color': '#1b1b1b', 'text-halo-color': '#ffffff', 'text-halo-width': 1.3 },
-      },
-    ];
-  }
-  if (name.includes('resid') || name.startsWith('cv')) {
-    const r = ['coalesce', ['get', 'residual'], ['get', 'residualMWm2'], ['get', 'error'], 0];
-    return [
-      {
-        id,
-        type: 'circle',
-        source,
-        paint: {
-          'circle-color': [
-            'interpolate',
-            ['linear'],
-            r,
-            -20,
-            RESIDUAL_COLORS.negative,
-            0,
-            RESIDUAL_COLORS.zero,
-            20,
-            RESIDUAL_COLORS.positive,
-          ] as unknown as ExpressionSpecification,
-          'circle-radius': ['interpolate', ['linear'], ['abs', r], 0, 3, 30, 10] as unknown as ExpressionSpecification,
-          'circle-stroke-color': '#222222',
-          'circle-stroke-width': 0.8,
-        },
-      },
-    ];
-  }
-  return [
-    {
-      id,
-      type: 'line',
-      source,
-      filter: ['in', ['geometry-type'], ['literal', ['LineString', 'MultiLineString']]],
-      paint: { 'line-color': '#222222', 'line-width': 1.2 },
-    },
-    { id: `${id}-points`, type: 'circle', source, filter: ['==', ['geometry-type'], 'Point'], paint: { 'circle-color': '#222222', 'circle-radius': 3 } },
-  ];
-}
-
-function residualLegend(units: string): HTMLElement {
-  return el(
-    'div',
-    {},
-    el(
-      'div',
-      { class: 'ramp-wrap' },
-      el('div', {
-        class: 'ramp',
-        style: `background: linear-gradient(to right, ${RESIDUAL_COLORS.negative}, ${RESIDUAL_COLORS.zero}, ${RESIDUAL_COLORS.positive})`,
-      }),
-      el('div', { class: 'ramp-ticks' }, el('span', {}, '−20'), el('span', {}, '0'), el('span', {}, `+20 ${units || 'mW/m²'}`)),
-    ),
-    el('p', { class: 'note' }, 'Leave-one-out residual, observed − predicted; symbol size grows with its size.'),
-  );
-}
-
-function isogradLegend(): HTMLElement {
-  return el(
-    'div',
-    {},
-    el(
-      'ul',
-      { class: 'swatches' },
-      ...Object.entries(ZONE_COLORS)
-        .slice(1)
-        .map(([z, c]) => el('li', {}, el('i', { class: 'line', style: `border-top: 3px solid ${c}; box-shadow: 0 0 0 1px #2b2b2b` }), `${z}-in`)),
-    ),
-    el('p', { class: 'note' }, 'Ticks mark the high-grade side of each line.'),
   );
 }
 
@@ -411,7 +296,7 @@ function drawVector(map: MapLibreMap, run: RunState, layer: RunLayer, id: string
 
 /** One group's panel entry (with its depth chooser when depth-indexed) and its layer on the map. */
 async function showGroup(map: MapLibreMap, panel: LayerPanel, run: RunState, g: RunLayerGroup, visible: boolean, opts: ShowOptions): Promise<void> {
-  const id = `run-${g.key.replace(/[^A-Za-z0-9_-]/g, '_')}`;
+  const id = groupLayerId(g.key);
   const first = g.layers[0].layer;
   const depthIndexed = g.layers[0].depthKm !== null;
   const pick = () => {

@@ -350,6 +350,11 @@ export function openApiDocument(): unknown {
           },
         ),
         get: op("the terrain's description and MapLibre raster-dem source", { params: ['id'], errors: [404] }),
+        delete: op("remove the project's terrain (edit token) → { id, terrain: null, removed: true }; 404 when it has none", {
+          params: ['id'],
+          auth: true,
+          errors: [401, 403, 404],
+        }),
       },
       '/api/projects/{id}/terrain/{z}/{x}/{y}.png': {
         get: op("raster-dem tile of the project's terrain (mapbox encoding)", { params: ['id', 'z', 'x', 'y'], okType: 'image/png', errors: [400, 404] }),

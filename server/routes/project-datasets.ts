@@ -246,6 +246,16 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     return c.json(terrainView(id, t.meta, t.createdAt));
   });
 
+  // Removing the terrain takes it off the project (and out of its storage quota); its tiles go with it.
+  app.delete('/api/projects/:id/terrain', async (c) => {
+    const id = await projectIdOf(c, ctx);
+    await requireEditToken(c, ctx, id);
+    if (!(await ctx.store.deleteProjectTerrain(id)))
+      throw new InputError(`project ${id} has no terrain to remove`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found');
+    terrainTiles.delete(id);
+    return c.json({ id, terrain: null, removed: true });
+  });
+
   app.get('/api/projects/:id/terrain/:z/:x/:y', async (c) => {
     const id = await projectIdOf(c, ctx);
     const { z, x } = c.req.param();

@@ -287,6 +287,10 @@ export class PostgresStore implements Store {
     return { blobHash: row.blob_hash, meta: JSON.parse(row.meta) as ProjectTerrainRecord['meta'], createdAt: row.created_at, values: float32Of(row.bytes) };
   }
 
+  async deleteProjectTerrain(projectId: string): Promise<boolean> {
+    return ((await this.pool.query('DELETE FROM project_terrain WHERE project_id = $1', [projectId])).rowCount ?? 0) > 0;
+  }
+
   async createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): Promise<ProjectRecord> {
     const now = new Date().toISOString();
     await this.tx(async (c) => {

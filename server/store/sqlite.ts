@@ -248,6 +248,10 @@ export class SqliteStore implements Store {
     return { blobHash: row.blob_hash, meta: JSON.parse(row.meta) as ProjectTerrainRecord['meta'], createdAt: row.created_at, values };
   }
 
+  async deleteProjectTerrain(projectId: string): Promise<boolean> {
+    return this.db.prepare('DELETE FROM project_terrain WHERE project_id = ?').run(projectId).changes > 0;
+  }
+
   async createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): Promise<ProjectRecord> {
     const now = new Date().toISOString();
     this.db.transaction(() => {

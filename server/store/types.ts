@@ -129,6 +129,8 @@ export interface Store {
 
   putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): Promise<ProjectTerrainRecord>;
   getProjectTerrain(projectId: string): Promise<(ProjectTerrainRecord & { values: Float32Array }) | null>;
+  /** Removes the project's terrain (its content-addressed pixels stay stored); false when it had none. */
+  deleteProjectTerrain(projectId: string): Promise<boolean>;
 
   /** Creates a project with its first revision, atomically. */
   createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): Promise<ProjectRecord>;

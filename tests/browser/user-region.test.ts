@@ -228,6 +228,16 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     const spreadPanel = (await page.locator('#run-layers').textContent())!;
     expect(spreadPanel).toMatch(/P90 − P10|spread/i);
     expect(spreadPanel).toContain('km');
+    // The layer just asked for is shown at once, above the run's other rasters (so the screenshot shows it).
+    const order = await page.evaluate(() => {
+      const m = window.subtherm!.map;
+      const shown = m
+        .getStyle()
+        .layers.filter((l) => l.id.startsWith('run-') && l.type === 'color-relief' && (m.getLayoutProperty(l.id, 'visibility') ?? 'visible') === 'visible');
+      return shown.map((l) => l.id);
+    });
+    expect(order[order.length - 1]).toBe(spread);
+    await waitForMapIdle(page);
     await shot(page, 'spread');
 
     await page.locator('#unc-temp-depth').fill('5');
@@ -273,6 +283,19 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     await expect.poll(() => page.locator('#hip-report').count(), { timeout: 240_000, interval: 1000 }).toBe(1);
     await waitForMapIdle(page);
     await shot(page, 'heat-in-place');
+    // The totals table fits the panel at 1440 × 900: no column past its edge, nothing to scroll sideways.
+    const fit = await page.evaluate(() => {
+      const table = document.getElementById('hip-totals')!;
+      return {
+        overflowPx: table.parentElement!.scrollWidth - table.parentElement!.clientWidth,
+        tableRight: table.getBoundingClientRect().right,
+        panelRight: document.getElementById('tools')!.getBoundingClientRect().right,
+        columns: [...table.querySelectorAll('thead th')].map((th) => th.textContent),
+      };
+    });
+    expect(fit.columns).toEqual(['Total', 'Nominal', 'P10', 'P50', 'P90']);
+    expect(fit.overflowPx, JSON.stringify(fit)).toBe(0);
+    expect(fit.tableRight, JSON.stringify(fit)).toBeLessThanOrEqual(fit.panelRight);
     const result = await page.evaluate(() => window.subtherm!.heatInPlace!);
     expect(result.runId).toBe(runId);
     const headline = (await page.locator('#hip-headline').textContent())!;
@@ -433,6 +456,27 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     await waitForMapIdle(page);
     expect(await page.evaluate(() => window.subtherm!.map.getLayer('project-hillshade')?.type)).toBe('hillshade');
     await shot(page, 'terrain');
+    // The hillshade alone (run layers hidden for this picture): no hard line where the DEM ends.
+    const runLayers = await page.evaluate(() => {
+      const m = window.subtherm!.map;
+      const ids = m
+        .getStyle()
+        .layers.filter((l) => l.id.startsWith('run-') && (m.getLayoutProperty(l.id, 'visibility') ?? 'visible') === 'visible')
+        .map((l) => l.id);
+      for (const id of ids) m.setLayoutProperty(id, 'visibility', 'none');
+      return ids;
+    });
+    await waitForMapIdle(page);
+    await shot(page, 'terrain-hillshade');
+    await page.evaluate((ids) => ids.forEach((id) => window.subtherm!.map.setLayoutProperty(id, 'visibility', 'visible')), runLayers);
+
+    // Removed again with the edit link: the row and the hillshade go, and the server no longer lists a terrain.
+    page.once('dialog', (d) => void d.accept());
+    await page.locator('#terrain-remove').click();
+    await expect.poll(() => page.locator('#project-datasets tr[data-kind="terrain"]').count(), { timeout: 30_000 }).toBe(0);
+    expect(await page.evaluate(() => window.subtherm!.map.getLayer('project-hillshade') !== undefined)).toBe(false);
+    const pid = /\/p\/([A-Za-z0-9_-]+)/.exec(projectUrl)![1];
+    expect((await fetch(`${server.url}/api/projects/${pid}/terrain`)).status).toBe(404);
   });
 
   it('saves a screenshot of every panel at 1440 × 900', async () => {

@@ -74,3 +74,64 @@ export async function rampCoverage(p: Page, mapLayer: string, bbox: [number, num
     [mapLayer, bbox] as const,
   );
 }
+
+/**
+ * Pixels over `bbox` [W, S, E, N] within a small colour distance of one of `colors` (#rrggbb), counted twice on the
+ * map drawn with only the `layers` given (the base, data and every other layer hidden): once with them shown and
+ * once with them hidden too, so that what is counted is drawn by those layers and not by the background.
+ */
+export async function colorPixels(
+  p: Page,
+  layers: string[],
+  colors: string[],
+  bbox: [number, number, number, number],
+): Promise<{ shown: number; hidden: number; n: number }> {
+  return p.evaluate(
+    ([ids, colors, bbox]) => {
+      const map = window.subtherm!.map;
+      const want = colors.map((c) => [1, 3, 5].map((k) => parseInt(c.slice(k, k + 2), 16)));
+      const saved = map
+        .getStyle()
+        .layers.filter((l) => l.type !== 'background')
+        .map((l) => [l.id, (map.getLayoutProperty(l.id, 'visibility') as string | undefined) ?? 'visible'] as const);
+      const showOnly = (on: string[]) => {
+        for (const [id] of saved) map.setLayoutProperty(id, 'visibility', on.includes(id) ? 'visible' : 'none');
+      };
+      const count = () =>
+        new Promise<{ hits: number; n: number }>((resolve) => {
+          const measure = () => {
+            if (!map.areTilesLoaded()) return void map.once('idle', measure);
+            const gl = map.getCanvas().getContext('webgl2') as WebGL2RenderingContext;
+            const scale = gl.drawingBufferWidth / map.getCanvas().clientWidth;
+            const a = map.project([bbox[0], bbox[3]]),
+              b = map.project([bbox[2], bbox[1]]);
+            const w = gl.drawingBufferWidth,
+              h = gl.drawingBufferHeight;
+            const px = new Uint8Array(w * h * 4);
+            gl.readPixels(0, 0, w, h, gl.RGBA, gl.UNSIGNED_BYTE, px);
+            let hits = 0,
+              n = 0;
+            for (let y = Math.max(0, a.y); y < Math.min(h / scale, b.y); y++) {
+              for (let x = Math.max(0, a.x); x < Math.min(w / scale, b.x); x++) {
+                const i = ((h - 1 - Math.round(y * scale)) * w + Math.round(x * scale)) * 4;
+                n++;
+                if (want.some((c) => Math.hypot(px[i] - c[0], px[i + 1] - c[1], px[i + 2] - c[2]) < 24)) hits++;
+              }
+            }
+            resolve({ hits, n });
+          };
+          map.once('idle', measure);
+          map.triggerRepaint();
+        });
+      return (async () => {
+        showOnly(ids);
+        const shown = await count();
+        showOnly([]);
+        const hidden = await count();
+        for (const [id, v] of saved) map.setLayoutProperty(id, 'visibility', v as 'visible' | 'none');
+        return { shown: shown.hits, hidden: hidden.hits, n: shown.n };
+      })();
+    },
+    [layers, colors, bbox] as const,
+  );
+}

@@ -1,0 +1,73 @@
+// The demo opens finished: with the demo's default run on (what `subtherm serve` does unless SUBTHERM_DEMO_RUN=0),
+// a newcomer's first page shows the run's progress on the map, then depth to 300 °C and the isograds, without a
+// single click; pixel checks show both drawn (the ramp's colours over the island, the isograd zone colours).
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { mkdirSync } from 'node:fs';
+import { join } from 'node:path';
+import type { Browser, Page } from 'playwright-core';
+import { launchBrowser, startServerProcess, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
+import { colorPixels, rampCoverage } from '../helpers/pixels.ts';
+import { ZONE_COLORS } from '../../shared/grid/ramps.ts';
+
+let server: RunningServer;
+let browser: Browser;
+let page: Page;
+const pageErrors: string[] = [];
+/** The island's inner part, [W, S, E, N] (fixtures/demo/outline.geojson). */
+const ISLAND: [number, number, number, number] = [-128.6, -38.6, -127.2, -37.5];
+
+beforeAll(async () => {
+  mkdirSync(SCREENSHOT_DIR, { recursive: true });
+  server = await startServerProcess({ env: { SUBTHERM_DEMO_RUN: '1' } });
+  browser = await launchBrowser();
+  page = await browser.newPage({ viewport: { width: 1440, height: 900 } });
+  page.setDefaultTimeout(120_000);
+  page.on('pageerror', (e) => pageErrors.push(e.message));
+}, 180_000);
+
+afterAll(async () => {
+  await browser?.close();
+  await server?.stop();
+});
+
+describe('the demo opens finished', { timeout: 900_000 }, () => {
+  it('shows the progress, then depth to 300 °C and the isograds on the first page without a click', async () => {
+    await page.goto(server.url);
+    await page.waitForFunction(() => window.subtherm !== undefined, undefined, { timeout: 120_000 });
+    await page.evaluate(() => window.subtherm!.ready);
+    // No click from here on: the page follows the demo run by itself. While it computes, the map says so.
+    const project = (await (await fetch(`${server.url}/api/projects/demo`)).json()) as { state: { runId?: string } };
+    expect(typeof project.state.runId).toBe('string');
+    const status = ((await (await fetch(`${server.url}/api/runs/${project.state.runId}`)).json()) as { status: string }).status;
+    if (status === 'queued' || status === 'running') {
+      await expect.poll(() => page.locator('#run-progress-note').textContent(), { timeout: 60_000 }).toMatch(/Computing the run: \d+ %/);
+      await page.screenshot({ path: join(SCREENSHOT_DIR, 'demo-finished-progress.png') });
+    }
+    await expect.poll(() => page.evaluate(() => window.subtherm!.run?.run.status ?? null), { timeout: 840_000, interval: 2000 }).toBe('done');
+    expect(await page.evaluate(() => window.subtherm!.run!.run.id)).toBe(project.state.runId);
+    await expect.poll(() => page.locator('#tiles-loading').count(), { timeout: 120_000 }).toBe(0);
+    expect(await page.locator('#run-progress-note').count()).toBe(0);
+    await waitForMapIdle(page, 120_000);
+    const shown = await page.evaluate(() => {
+      const m = window.subtherm!.map;
+      const vis = (id: string) => (m.getLayer(id) ? ((m.getLayoutProperty(id, 'visibility') as string | undefined) ?? 'visible') : 'absent');
+      return {
+        depth300: vis('run-depth-300C'),
+        isograds: vis('run-isograds'),
+        checked: document.querySelectorAll('#run-layers input[type=checkbox]:checked').length,
+      };
+    });
+    expect(shown.depth300).toBe('visible');
+    expect(shown.isograds).toBe('visible');
+    await page.screenshot({ path: join(SCREENSHOT_DIR, 'demo-finished-first-page.png') });
+    // The depth-to-300 °C colours really cover the island's inner part.
+    const cov = await rampCoverage(page, 'run-depth-300C', ISLAND);
+    expect(cov.ramp, JSON.stringify(cov)).toBeGreaterThan(0.6);
+    // The isograd lines really draw in their zone colours (and nothing else in the bare map has those colours).
+    const zoneColors = Object.values(ZONE_COLORS).slice(1);
+    const iso = await colorPixels(page, ['run-isograds'], zoneColors, ISLAND);
+    expect(iso.shown, JSON.stringify(iso)).toBeGreaterThan(300);
+    expect(iso.hidden, JSON.stringify(iso)).toBeLessThan(iso.shown / 20);
+    expect(pageErrors).toEqual([]);
+  });
+});
