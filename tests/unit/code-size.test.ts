@@ -33,9 +33,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/structure/fault-report.ts', // 756
   'shared/structure/indicator.ts', // 516
   'shared/wells/analyze.ts', // 510
-  'client/src/heat.ts', // 407
-  'client/src/inspector.ts', // 424
-  'client/src/runlayers.ts', // 483
   'client/src/structure.ts', // 416
   'server/cli/heat-in-place.ts heatInPlace', // 166
   'server/cli/isograds.ts isograds', // 141
@@ -73,9 +70,7 @@ const OVER_LIMIT: readonly string[] = [
   'shared/wells/linear-fit.ts fitLine', // 81
   'shared/wells/surface-heat-flow.ts fitSurfaceHeatFlow', // 94
   'client/src/data.ts uploadPanel', // 99
-  'client/src/heat.ts heatPanel', // 132
   'client/src/model.ts modelEditor', // 81
-  'client/src/runlayers.ts vectorLayers', // 84
   'client/src/structure.ts render', // 155
 ];
 
