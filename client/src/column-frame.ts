@@ -106,7 +106,7 @@ export function axes(c: ColumnAnswer, f: PlotFrame, full: number): SVGGElement {
   const notes = ['facies fields approximate (gradational ±50 °C, ±1.5 kbar)'];
   if (f.zMax < full - 1e-9) notes.push(`shown to ${fmt(f.zMax, 0)} km of the ${fmt(full, 0)} km column (readout and table cover all)`);
   const lb = c.lithosphereBaseKm;
-  if (typeof lb === 'number' && lb > f.zMax) notes.push(`lithosphere base at ${fmt(lb, 1)} km (mantle adiabat below), deeper than shown`);
+  if (typeof lb === 'number' && lb > f.zMax) notes.push(`lithosphere base at ${fmt(lb, 1)} km, below this window`);
   notes.forEach((text, i) =>
     g.append(
       svg(

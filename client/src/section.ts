@@ -20,6 +20,8 @@ export interface SectionAnswer {
   faciesNames?: string[];
   faciesClass?: number[];
   isotherms: { temperatureC: number; depthKm: (number | null)[] }[];
+  /** Melt onset per column, km (null: not reached above the section's depth): no temperature is given below it. */
+  meltOnsetKm?: (number | null)[];
   faultCrossings?: { id: string | number | null; distanceKm: number; properties: Record<string, unknown> }[];
   isogradCrossings?: { id: string | number | null; distanceKm: number; properties: Record<string, unknown> }[];
   warnings?: string[];
@@ -208,6 +210,33 @@ function isothermMarks(s: SectionAnswer, f: Frame): SVGElement[] {
   return out;
 }
 
+/**
+ * Where the columns melt: below each column's melt onset the section gives no temperature, so that part is hatched
+ * and the melt onset drawn as a line across the columns that reach it, labelled once.
+ */
+function meltOnsetMarks(s: SectionAnswer, f: Frame, hatchId: string): SVGElement[] {
+  const melt = s.meltOnsetKm ?? [];
+  const dx = f.pw / s.width;
+  let zone = '',
+    line = '',
+    pen = false;
+  melt.forEach((z, j) => {
+    if (z === null) return void (pen = false);
+    const x0 = f.M.l + j * dx,
+      y = f.y(z);
+    zone += `M${x0.toFixed(1)},${y.toFixed(1)}h${dx.toFixed(1)}V${(f.M.t + f.ph).toFixed(1)}h${(-dx).toFixed(1)}Z`;
+    line += `${pen ? 'L' : 'M'}${(x0 + dx / 2).toFixed(1)},${y.toFixed(1)}`;
+    pen = true;
+  });
+  if (!zone) return [];
+  const j = melt.findIndex((z) => z !== null);
+  return [
+    svg('path', { d: zone, fill: `url(#${hatchId})`, class: 'invalid-zone' }),
+    svg('path', { d: line, class: 'melt-onset-line' }),
+    svg('text', { x: f.M.l + (j + 0.5) * dx + 3, y: f.y(melt[j]!) + 12, class: 'limit-label', id: 'section-melt-label' }, 'melt onset: no temperature below'),
+  ];
+}
+
 /** Crossings (faults, isograds) as ticks at the surface with labels; then the frame and the axes. */
 function crossingsAndAxes(s: SectionAnswer, f: Frame, L: number, maxZ: number): SVGElement[] {
   const out: SVGElement[] = [];
@@ -260,7 +289,20 @@ export function sectionPlot(s: SectionAnswer): HTMLElement {
       style: 'image-rendering: pixelated',
     }),
   );
-  root.append(...faciesMarks(s, f), ...isothermMarks(s, f), ...crossingsAndAxes(s, f, L, maxZ));
+  const hatchId = `section-hatch-${Math.random().toString(36).slice(2, 8)}`;
+  root.append(
+    svg(
+      'defs',
+      {},
+      svg(
+        'pattern',
+        { id: hatchId, patternUnits: 'userSpaceOnUse', width: 6, height: 6, patternTransform: 'rotate(45)' },
+        svg('rect', { width: 6, height: 6, class: 'hatch-bg' }),
+        svg('line', { x1: 0, y1: 0, x2: 0, y2: 6, class: 'hatch-line' }),
+      ),
+    ),
+  );
+  root.append(...faciesMarks(s, f), ...isothermMarks(s, f), ...meltOnsetMarks(s, f, hatchId), ...crossingsAndAxes(s, f, L, maxZ));
   const legend = el(
     'div',
     { class: 'ramp-wrap' },

@@ -3,7 +3,8 @@
 // a new project, its sites uploaded as CSV through the page (bad files first), the view fitting them, a kriging
 // run with 100 realizations whose heat-flow, depth-to-300 °C and spread layers are checked by their pixels, a
 // read-only link opened in a fresh context, heat in place for a polygon drawn on the map (from the run's own
-// realizations; its nominal totals compared with the `subtherm heat-in-place` command on the same inputs), and a
+// realizations; its nominal totals and its P10/P50/P90 compared with the `subtherm heat-in-place` command on the
+// same inputs and seed), and a
 // screenshot of every panel at 1440 × 900.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { execFileSync } from 'node:child_process';
@@ -256,7 +257,7 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     await shot(page, 'exceedance');
   });
 
-  it("computes heat in place for a polygon drawn on the map from the run's realizations; its nominal totals equal the subtherm heat-in-place command", async () => {
+  it("computes heat in place for a polygon drawn on the map from the run's realizations; its nominal totals and P10/P50/P90 equal the subtherm heat-in-place command's", async () => {
     await page.locator('#tab-heat').click();
     await expect.poll(() => page.locator('#hip-run').isDisabled()).toBe(false);
     await page.locator('#hip-draw').click();
@@ -312,8 +313,7 @@ describe('a user region in the other hemisphere, end to end in the page', { time
 
     // The same inputs through the command line: the run's heat-flow GeoTIFF, its model, the drawn polygon and the
     // same options. The nominal totals (the kriged heat-flow map, the options' central values) must agree to
-    // rounding. The page's P10–P90 come from the run's own simulated heat-flow fields and seed, which the command
-    // line cannot read: they are checked to come from there, in order, around the nominal value.
+    // rounding; then the P10–P90 against the command line simulating from the run's sites with its seed.
     const dir = mkdtempSync(join(TMP, 'hip-'));
     const get = async (path: string) => Buffer.from(await (await fetch(server.url + path)).arrayBuffer());
     writeFileSync(join(dir, 'hf.tif'), await get(`/api/runs/${runId}/layers/heat-flow.tif`));
@@ -322,39 +322,26 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     writeFileSync(join(dir, 'polygon.geojson'), JSON.stringify(result.request.polygon));
     const o = result.request.options;
     const arg = (v: unknown) => (typeof v === 'number' ? String(v) : JSON.stringify(v));
-    const cli = JSON.parse(
-      execFileSync(
-        process.execPath,
-        [
-          join(ROOT, 'bin', 'subtherm.mjs'),
-          'heat-in-place',
-          '--heat-flow',
-          join(dir, 'hf.tif'),
-          '--model',
-          join(dir, 'model.json'),
-          '--polygon',
-          join(dir, 'polygon.geojson'),
-          '--top-km',
-          arg(o.topKm),
-          '--bottom-km',
-          arg(o.bottomKm),
-          '--min-temp-c',
-          arg(o.minTempC),
-          '--ref-temp-c',
-          arg(o.refTempC),
-          '--rho-c-mj',
-          arg(o.rhoCMJm3K),
-          '--recovery',
-          arg(o.recoveryFactor),
-          '--efficiency',
-          arg(o.utilizationEfficiency),
-          '--life-years',
-          arg(o.lifeYears),
-          '--json',
-        ],
-        { cwd: ROOT, encoding: 'utf8', maxBuffer: 64 << 20 },
-      ),
-    ) as Record<string, { nominal: number; p10: number | null; p50: number | null; p90: number | null }> & { cells: number; area: string };
+    const options = [
+      ['--top-km', o.topKm],
+      ['--bottom-km', o.bottomKm],
+      ['--min-temp-c', o.minTempC],
+      ['--ref-temp-c', o.refTempC],
+      ['--rho-c-mj', o.rhoCMJm3K],
+      ['--recovery', o.recoveryFactor],
+      ['--efficiency', o.utilizationEfficiency],
+      ['--life-years', o.lifeYears],
+    ].flatMap(([flag, v]) => [flag as string, arg(v)]);
+    type CliTotals = Record<string, { nominal: number; p10: number | null; p50: number | null; p90: number | null }> & { cells: number; area: string };
+    const subtherm = (args: string[]) =>
+      JSON.parse(
+        execFileSync(process.execPath, [join(ROOT, 'bin', 'subtherm.mjs'), 'heat-in-place', ...args, '--json'], {
+          cwd: ROOT,
+          encoding: 'utf8',
+          maxBuffer: 64 << 20,
+        }),
+      ) as CliTotals;
+    const cli = subtherm(['--heat-flow', join(dir, 'hf.tif'), '--model', join(dir, 'model.json'), '--polygon', join(dir, 'polygon.geojson'), ...options]);
     const web = result.report as unknown as typeof cli & { monteCarlo: { realizations: number; seed: number; heatFlow: string } };
     expect(web.area).toBe('polygon');
     expect(web.cells).toBe(cli.cells);
@@ -371,6 +358,33 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     expect(web.monteCarlo.seed).toBe(run.request.seed);
     expect(web.monteCarlo.heatFlow).not.toMatch(/sd × a standard normal|as given/);
     expect(web.heatInPlaceEJ.p10! < web.heatInPlaceEJ.nominal && web.heatInPlaceEJ.nominal < web.heatInPlaceEJ.p90!).toBe(true);
+
+    // P10/P50/P90 too: the command line simulates the heat-flow fields from the run's own sites on the same grid with
+    // the run's seed (`--points`), and draws the options' distributions from the same streams as the page's job.
+    const req = run.request as unknown as { sites: string; grid: { cellKm: number } };
+    writeFileSync(join(dir, 'sites.geojson'), await get(`/api/datasets/${req.sites}`));
+    const sim = subtherm([
+      '--points',
+      join(dir, 'sites.geojson'),
+      '--cell-km',
+      String(req.grid.cellKm),
+      '--realizations',
+      String(web.monteCarlo.realizations),
+      '--seed',
+      String(run.request.seed),
+      '--model',
+      join(dir, 'model.json'),
+      '--polygon',
+      join(dir, 'polygon.geojson'),
+      ...options,
+    ]);
+    expect(sim.cells).toBe(web.cells);
+    for (const k of ['heatInPlaceEJ', 'recoverableJ', 'electricMWe', 'hotVolumeKm3']) {
+      for (const q of ['p10', 'p50', 'p90'] as const) {
+        expect(sim[k][q], `${k}.${q}`).not.toBeNull();
+        expect(Math.abs(web[k][q]! - sim[k][q]!), `${k}.${q}: page ${web[k][q]}, CLI ${sim[k][q]}`).toBeLessThanOrEqual(1e-9 * Math.abs(sim[k][q]!));
+      }
+    }
   });
 
   it('opens read-only from the view link in a fresh context and shows the same layers', async () => {
