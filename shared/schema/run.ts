@@ -210,8 +210,34 @@ export type HeatFlowCentralValues = Pick<
   'regionalMeanMWm2' | 'regionalMedianMWm2' | 'regionalMeanSdMWm2' | 'krigedRegionalMeanMWm2' | 'differenceMWm2'
 >;
 
-/** A fault's row of the structural report (shared/structure/layer.ts: faultSummary); further members pass through. */
-export const faultReportRowSchema = z.looseObject({ id: z.string() });
+/** A value with its range, km (shared/structure/fault-report.ts Range). */
+const kmRangeSchema = z.strictObject({ value: z.number(), low: z.number(), high: z.number() });
+/** A zone statement with the samples that support it. */
+const zoneStatementSchema = z.looseObject({ zone: z.string(), sampleIds: z.array(z.string()) });
+
+/**
+ * A fault's row of the structural report (shared/structure/layer.ts: faultSummary): repeated and missing zones,
+ * isograds not reached, offset only, and each separation (end by compass, range in km, sense, dip slip when the
+ * dips are known); further members (sides, overlap, warnings) pass through.
+ */
+export const faultReportRowSchema = z.looseObject({
+  id: z.string(),
+  repeatedZones: z.array(zoneStatementSchema),
+  missingZones: z.array(zoneStatementSchema.extend({ side: z.string(), higherSide: z.string(), between: z.tuple([z.string(), z.string()]) })),
+  notReached: z.array(z.looseObject({ isograd: z.string(), side: z.enum(['left', 'right', 'both']), sideName: z.string() })),
+  offsetOnly: z.boolean(),
+  separations: z.array(
+    z.looseObject({
+      isograd: z.string(),
+      end: z.string(),
+      separationKm: kmRangeSchema,
+      sense: z.enum(['dextral', 'sinistral']),
+      displacedTowardHigherGrade: z.string(),
+      dipSlipKm: kmRangeSchema.optional(),
+      slipSense: z.enum(['normal', 'reverse']).optional(),
+    }),
+  ),
+});
 export type FaultReportRow = z.infer<typeof faultReportRowSchema>;
 
 /**
@@ -222,7 +248,7 @@ export type FaultReportRow = z.infer<typeof faultReportRowSchema>;
 export const structureSummarySchema = z.strictObject({
   isograds: z.array(z.looseObject({})),
   faults: z.array(faultReportRowSchema),
-  samples: z.array(z.looseObject({ id: z.string() })),
+  samples: z.array(z.looseObject({ id: z.string(), zone: z.string().nullable(), source: z.enum(['zone', 'facies', 'peak-pt', 'none']) })),
   misfits: z.array(z.looseObject({})),
   paleoGradients: z.array(z.looseObject({})),
   method: z.looseObject({ indicator: z.string() }),
