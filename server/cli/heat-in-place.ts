@@ -146,11 +146,80 @@ export async function heatInPlace(argv: string[]): Promise<number> {
   }
   const str = (k: string) => v[k as keyof typeof v] as string | undefined;
   const fromPoints = str('points') !== undefined;
+  checkSources(str, fromPoints);
+  const { options, corr } = assessmentOptions(str);
+
+  const extraWarnings: string[] = [];
+  if (corr !== undefined)
+    extraWarnings.push(
+      `--correlation is deprecated: ${fromPoints ? 'with --points the realizations are conditional simulations and it is not used' : 'give --points P.geojson instead of --heat-flow/--heat-flow-sd to simulate spatially coherent heat-flow fields from the sites'}`,
+    );
+  let simulated: PointsHeatFlow | undefined;
+  if (fromPoints) simulated = await heatFlowFromPoints(v, options.realizations, options.seed);
+  const hf = simulated?.kriged ?? (await readGrid(str('heat-flow')!, 'heat-flow'));
+  const sd = str('heat-flow-sd') !== undefined ? await readGrid(str('heat-flow-sd')!, 'heat-flow-sd') : undefined;
+  const modelPath = str('model')!;
+  const modelBytes = await readBytes(modelPath, 'model');
+  const model: ThermalModelInput = parseThermalModel(parseJson(modelBytes.toString('utf8'), modelPath, 'model'), modelPath);
+  const hashes: Record<string, string> = { [fromPoints ? 'points' : 'heatFlow']: hf.hash, model: sha256(modelBytes) };
+  if (sd) hashes.heatFlowSd = sd.hash;
+
+  const { polygon, polygonLabel } = str('polygon') === undefined ? {} : await readPolygon(str('polygon')!, hashes);
+  const { zones, zonePolygons } = str('zones') === undefined ? {} : await readZones(str('zones')!, str('zone-property'), hf.grid, hashes);
+  const { result: res, html } = await assessOnGrid({
+    heatFlow: hf.grid,
+    heatFlowSd: sd?.grid,
+    heatFlowRealizations: simulated?.realizations,
+    model,
+    modelLabel: model.name ?? modelPath.split('/').pop(),
+    polygon,
+    polygonLabel,
+    zones,
+    zonePolygons,
+    options,
+    inputHashes: hashes,
+  });
+  const files = await writeReports(str('out-csv'), str('out-html'), res.report, html);
+  res.report.warnings.unshift(...extraWarnings, ...(simulated?.warnings ?? []));
+  const out = { ...res.report, ...(simulated === undefined ? {} : { simulation: simulated.report }), files };
+  if (v.json) {
+    process.stdout.write(JSON.stringify(out) + '\n');
+    return 0;
+  }
+  process.stdout.write(renderText(res.report, files));
+  return 0;
+}
+
+/** Writes the CSV totals and the printable HTML page where asked; the paths written, by kind. */
+async function writeReports(
+  csv: string | undefined,
+  htmlPath: string | undefined,
+  report: HeatInPlaceReport,
+  html: () => string,
+): Promise<Record<string, string>> {
+  const files: Record<string, string> = {};
+  if (csv !== undefined) {
+    await writeFile(csv, reportCsv(report));
+    files.csv = csv;
+  }
+  if (htmlPath !== undefined) {
+    await writeFile(htmlPath, html());
+    files.html = htmlPath;
+  }
+  return files;
+}
+
+/** The heat-flow source (a grid or sites, not both) and the model are given. */
+function checkSources(str: (k: string) => string | undefined, fromPoints: boolean): void {
   if (fromPoints && str('heat-flow') !== undefined) throw bad('points', 'give --points (simulate heat flow from the sites) or --heat-flow G.tif, not both');
   if (fromPoints && str('heat-flow-sd') !== undefined)
     throw bad('heat-flow-sd', 'does not go with --points: the spread comes from the conditional simulations');
   if (!fromPoints && str('heat-flow') === undefined) throw bad('heat-flow', 'missing: give --heat-flow G.tif, or --points P.geojson to simulate heat flow');
   if (str('model') === undefined) throw bad('model', 'missing: give --model M.json');
+}
+
+/** The assessment options from the flags (numbers or JSON distributions), errors naming the flag. */
+function assessmentOptions(str: (k: string) => string | undefined): { options: ReturnType<typeof parseHeatInPlaceOptions>; corr: string | undefined } {
   const num = (k: string) => (str(k) === undefined ? undefined : numberOption(k, str(k)));
   const realizations = num('realizations');
   if (realizations !== undefined && !(Number.isInteger(realizations) && realizations >= 0 && realizations <= 100_000))
@@ -185,7 +254,7 @@ export async function heatInPlace(argv: string[]): Promise<number> {
     conversionEfficiency: 'conversion-efficiency',
     lifeYears: 'life-years',
   };
-  let options;
+  let options: ReturnType<typeof parseHeatInPlaceOptions>;
   try {
     options = parseHeatInPlaceOptions(raw);
   } catch (e) {
@@ -195,92 +264,49 @@ export async function heatInPlace(argv: string[]): Promise<number> {
     }
     throw e;
   }
+  return { options, corr };
+}
 
-  const extraWarnings: string[] = [];
-  if (corr !== undefined)
-    extraWarnings.push(
-      `--correlation is deprecated: ${fromPoints ? 'with --points the realizations are conditional simulations and it is not used' : 'give --points P.geojson instead of --heat-flow/--heat-flow-sd to simulate spatially coherent heat-flow fields from the sites'}`,
-    );
-  let simulated: PointsHeatFlow | undefined;
-  if (fromPoints) simulated = await heatFlowFromPoints(v, options.realizations, options.seed);
-  const hf = simulated?.kriged ?? (await readGrid(str('heat-flow')!, 'heat-flow'));
-  const sd = str('heat-flow-sd') !== undefined ? await readGrid(str('heat-flow-sd')!, 'heat-flow-sd') : undefined;
-  const modelPath = str('model')!;
-  const modelBytes = await readBytes(modelPath, 'model');
-  const model: ThermalModelInput = parseThermalModel(parseJson(modelBytes.toString('utf8'), modelPath, 'model'), modelPath);
-  const hashes: Record<string, string> = { [fromPoints ? 'points' : 'heatFlow']: hf.hash, model: sha256(modelBytes) };
-  if (sd) hashes.heatFlowSd = sd.hash;
+/** The --polygon to total over (GeoJSON) and its label (its name, else the file name), hashed into `hashes`. */
+async function readPolygon(p: string, hashes: Record<string, string>): Promise<{ polygon: AreaGeometry; polygonLabel: string | undefined }> {
+  const b = await readBytes(p, 'polygon');
+  const j = parseJson(b.toString('utf8'), p, 'polygon');
+  const name = (j as { properties?: { name?: unknown } }).properties?.name;
+  hashes.polygon = sha256(b);
+  return { polygon: parseAreaPolygon(j, p), polygonLabel: typeof name === 'string' ? name : p.split('/').pop() };
+}
 
-  let polygon: AreaGeometry | undefined;
-  let polygonLabel: string | undefined;
-  if (str('polygon') !== undefined) {
-    const p = str('polygon')!;
-    const b = await readBytes(p, 'polygon');
-    const j = parseJson(b.toString('utf8'), p, 'polygon');
-    polygon = parseAreaPolygon(j, p);
-    const name = (j as { properties?: { name?: unknown } }).properties?.name;
-    polygonLabel = typeof name === 'string' ? name : p.split('/').pop();
-    hashes.polygon = sha256(b);
-  }
-  const zonesPath = str('zones');
-  let zones: (ZoneLabels & { source: string }) | undefined;
-  let zonePolygons: { name: string; geometry: AreaGeometry }[] | undefined;
-  if (zonesPath !== undefined) {
-    if (/\.tiff?$/i.test(zonesPath)) {
-      const zg = await readGrid(zonesPath, 'zones');
-      const a = zg.grid,
-        g = hf.grid;
-      if (
-        a.width !== g.width ||
-        a.height !== g.height ||
-        a.crs !== g.crs ||
-        Math.abs(a.west - g.west) > 1e-9 * Math.max(1, Math.abs(g.dx)) ||
-        Math.abs(a.north - g.north) > 1e-9 * Math.max(1, Math.abs(g.dy))
-      ) {
-        throw new InputError(
-          `${zonesPath}: the class grid does not match the heat-flow grid`,
-          [{ field: 'zones', problem: `expected ${g.width} × ${g.height} cells at the heat-flow grid's origin and CRS` }],
-          'grid_mismatch',
-        );
-      }
-      zones = { ...zonesFromClassGrid(a.values), source: 'class grid' };
-      hashes.zones = zg.hash;
-    } else {
-      const b = await readBytes(zonesPath, 'zones');
-      zonePolygons = parseZonePolygons(parseJson(b.toString('utf8'), zonesPath, 'zones'), str('zone-property'), zonesPath);
-      hashes.zones = sha256(b);
+/** Per-zone classes: a class grid (.tif, on the heat-flow grid) or region polygons (GeoJSON), hashed into `hashes`. */
+async function readZones(
+  zonesPath: string,
+  zoneProperty: string | undefined,
+  grid: Grid<Float32Array>,
+  hashes: Record<string, string>,
+): Promise<{ zones?: ZoneLabels & { source: string }; zonePolygons?: { name: string; geometry: AreaGeometry }[] }> {
+  if (/\.tiff?$/i.test(zonesPath)) {
+    const zg = await readGrid(zonesPath, 'zones');
+    const a = zg.grid,
+      g = grid;
+    if (
+      a.width !== g.width ||
+      a.height !== g.height ||
+      a.crs !== g.crs ||
+      Math.abs(a.west - g.west) > 1e-9 * Math.max(1, Math.abs(g.dx)) ||
+      Math.abs(a.north - g.north) > 1e-9 * Math.max(1, Math.abs(g.dy))
+    ) {
+      throw new InputError(
+        `${zonesPath}: the class grid does not match the heat-flow grid`,
+        [{ field: 'zones', problem: `expected ${g.width} × ${g.height} cells at the heat-flow grid's origin and CRS` }],
+        'grid_mismatch',
+      );
     }
+    hashes.zones = zg.hash;
+    return { zones: { ...zonesFromClassGrid(a.values), source: 'class grid' } };
+  } else {
+    const b = await readBytes(zonesPath, 'zones');
+    hashes.zones = sha256(b);
+    return { zonePolygons: parseZonePolygons(parseJson(b.toString('utf8'), zonesPath, 'zones'), zoneProperty, zonesPath) };
   }
-  const { result: res, html } = await assessOnGrid({
-    heatFlow: hf.grid,
-    heatFlowSd: sd?.grid,
-    heatFlowRealizations: simulated?.realizations,
-    model,
-    modelLabel: model.name ?? modelPath.split('/').pop(),
-    polygon,
-    polygonLabel,
-    zones,
-    zonePolygons,
-    options,
-    inputHashes: hashes,
-  });
-  const files: Record<string, string> = {};
-  if (str('out-csv') !== undefined) {
-    await writeFile(str('out-csv')!, reportCsv(res.report));
-    files.csv = str('out-csv')!;
-  }
-  if (str('out-html') !== undefined) {
-    await writeFile(str('out-html')!, html());
-    files.html = str('out-html')!;
-  }
-  res.report.warnings.unshift(...extraWarnings, ...(simulated?.warnings ?? []));
-  const out = { ...res.report, ...(simulated === undefined ? {} : { simulation: simulated.report }), files };
-  if (v.json) {
-    process.stdout.write(JSON.stringify(out) + '\n');
-    return 0;
-  }
-  process.stdout.write(renderText(res.report, files));
-  return 0;
 }
 
 interface PointsHeatFlow {

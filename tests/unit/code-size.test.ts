@@ -34,7 +34,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/structure/indicator.ts', // 516
   'shared/wells/analyze.ts', // 510
   'client/src/structure.ts', // 416
-  'server/cli/heat-in-place.ts heatInPlace', // 166
   'server/cli/isograds.ts isograds', // 141
   'server/cli/isotherms.ts isotherms', // 248
   'server/cli/simulate.ts simulate', // 216
