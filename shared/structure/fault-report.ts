@@ -18,21 +18,29 @@
  * - where one isograd meets the trace on both sides, the apparent (strike) separation between the two meeting
  *   points, at each end where it does (named by the compass direction of that end). A meeting point is where the
  *   side's indicator profile along the trace (evaluated just off the trace) crosses 0.5, refined by a local logistic
- *   regression (Cox 1958) of that side's sample indicators on position; its range is where the same profile lies
- *   between 0.1 and 0.9 (the isograd's probability band). Each side's band is read as the 10–90 % interval of its
- *   meeting point; the two sides' errors are independent, so the 10–90 % interval of their difference extends each
- *   way by the root sum of squares of the two sides' band halves on that side (propagation of independent errors,
- *   Taylor 1997, "An Introduction to Error Analysis", §3.6 [from memory]), and the separation's range is the least
- *   and greatest |difference| over that interval. (Adding the halves, the bound of every combination, widens the
- *   range where both bands are wide: at a fault's ends, where an isograd of the sparsely sampled outer dome meets
- *   the trace obliquely and its probability profile along the trace rises slowly.) Sense: apparent dextral or sinistral, and which side shows the isograd displaced
- *   towards higher grade.
+ *   regression (Cox 1958) of that side's sample indicators on position. The profile is read as the cumulative
+ *   probability of the meeting point's position, so its 10–90 % interval runs from where the profile crosses 0.1 to
+ *   where it crosses 0.9. Each way from the 0.5 crossing, the walked crossing is used where the profile reaches that
+ *   level along the supported stretch; where it does not (support ends first, or the profile turns back), the
+ *   half-width is that of a Gaussian-shaped (probit) profile with the profile's slope at its 0.5 crossing:
+ *   z₀.₉·φ(0)/slope = 1.2816 × 0.39894/slope = 0.5113/slope (σ = φ(0)/slope; z₀.₉ = 1.2816, Abramowitz & Stegun
+ *   1964, 26.2) — an assumption on the profile's shape, stated as such. The two sides' position errors are
+ *   independent, so the 10–90 % interval of their difference extends each way by the root sum of squares of the
+ *   two sides' half-widths on that side (propagation of independent errors, Taylor 1997, "An Introduction to Error
+ *   Analysis", §3.6 [from memory]); this is exact for independent Gaussian errors and an approximation where a
+ *   band is lopsided. The distance between the profile's 0.5 crossing and the logistic-fit point is a difference
+ *   between two methods, not a random error: it is added linearly to the side's half-width (the interval covers
+ *   both methods' points), not in quadrature. The separation's range is the least and greatest |difference| over
+ *   that interval. Sense: apparent dextral or sinistral, and which side shows the isograd displaced towards higher
+ *   grade.
  * - with the fault's dip and dip direction and an isograd dip (given, the surface dipping towards lower grade), the
  *   dip-slip component for pure dip slip, d = s·tan r, r the pitch of the isograd's cutoff line on the fault plane
  *   (the cutoff line is the intersection of the two planes; the strike separation s of a planar marker under pure
  *   dip slip d follows from the right triangle in the fault plane: Ragan 2009, "Structural Geology: An Introduction
  *   to Geometrical Techniques", 4th ed., ch. on fault separation and slip [from memory]), and its sense (normal or
- *   reverse) from which way the hanging-wall cutoff moved.
+ *   reverse) from which way the hanging-wall cutoff moved. Its range is the separation's range times tan r: the
+ *   uncertainty in the pitch r itself (from the given isograd dip and the fitted grade direction) is not included,
+ *   so the dip-slip range is narrower than the whole uncertainty.
  */
 import { MAX_RANK } from './grade.ts';
 import { ZONE_NAMES } from '../petrology/index.ts';
@@ -87,8 +95,13 @@ export interface Meeting {
   isograd: string;
   side: Side;
   alongKm: number;
-  /** Where the side's profile lies between 0.1 and 0.9 around this meeting, km along the trace. */
+  /**
+   * The 10–90 % interval of the meeting point, km along the trace: from the lesser of alongKm and profileAlongKm less
+   * the half-width below, to the greater plus the half-width above (walked 0.1/0.9 crossings, else 0.5113/slope).
+   */
   bandAlongKm: [number, number];
+  /** Where the side's indicator profile crosses 0.5, km along the trace (alongKm is the logistic-fit point when basis is 'fit'). */
+  profileAlongKm: number;
   /** 'fit': refined by the local logistic fit; 'profile': the 0.5 crossing of the indicator profile. */
   basis: 'fit' | 'profile';
   /** +1 when the grade rises with distance along the trace there, −1 when it falls. */
@@ -208,21 +221,6 @@ export function fitMeeting(
   W: number,
   D: number,
 ): number | null {
-  return fitMeetingBand(pool, j, s0, sense, W, D)?.alongKm ?? null;
-}
-
-/**
- * The local logistic fit of fitMeeting with its own probability band: the fitted probability along the trace is
- * 1/(1 + exp(−(b0 + b1·(s − s0)/W))), which lies between 0.1 and 0.9 over ±W·ln 9/|b1| about the 0.5 point.
- */
-export function fitMeetingBand(
-  pool: readonly { s: number; u: number; lo: number; hi: number }[],
-  j: number,
-  s0: number,
-  sense: 1 | -1,
-  W: number,
-  D: number,
-): { alongKm: number; halfBandKm: number } | null {
   const X: number[] = [],
     Y: number[] = [],
     Z: number[] = [];
@@ -273,7 +271,7 @@ export function fitMeetingBand(
   if (!(Math.sign(b[1]) === sense) || !(Math.abs(b[1]) > 1e-9)) return null;
   const x = -b[0] / b[1];
   if (!(Math.abs(x) <= 1)) return null;
-  return { alongKm: s0 + x * W, halfBandKm: (W * Math.log(9)) / Math.abs(b[1]) };
+  return s0 + x * W;
 }
 
 /** Solves a 3 × 3 system by Cramer's rule; null when singular. */
@@ -299,60 +297,95 @@ interface NearSample {
   id: string;
 }
 
-/** Profile crossings of `level` around station k0 (where it crosses 0.5): the band [low, high] in km along. */
-function bandAround(prof: Float64Array, ok: Uint8Array, along: Float64Array, j: number, k0: number, s0: number, stride: number): [number, number] {
+/**
+ * Where the profile first leaves the 0.1–0.9 band walking each way from its 0.5 crossing between stations k0 − 1 and
+ * k0 (s0 km along), while the stations stay supported: [below, above] in km along, each the linear interpolation of
+ * the crossing of the level expected on that side (below: 0.1 when the grade rises along the trace, sense +1, else
+ * 0.9; above the other), or null where support ends first or the profile leaves the band through the other level.
+ */
+function walkedCrossings(
+  prof: Float64Array,
+  ok: Uint8Array,
+  along: Float64Array,
+  j: number,
+  k0: number,
+  sense: 1 | -1,
+  stride: number,
+): [number | null, number | null] {
   const v = (k: number) => prof[k * stride + j - 1];
-  // Walk each way from the 0.5 crossing until the profile leaves [0.1, 0.9] or support ends.
-  const walk = (dir: 1 | -1): number => {
+  const walk = (dir: 1 | -1): number | null => {
+    const expected = dir * sense > 0 ? 0.9 : 0.1;
     let k = dir > 0 ? k0 : k0 - 1;
-    let last = s0;
     while (k >= 0 && k < along.length && ok[k] === 1 && !Number.isNaN(v(k))) {
       const x = v(k);
       if (x < 0.1 || x > 0.9) {
+        const lev = x < 0.1 ? 0.1 : 0.9;
+        if (lev !== expected) return null;
         const prevK = k - dir;
         const px = prevK >= 0 && prevK < along.length && ok[prevK] === 1 ? v(prevK) : NaN;
         if (!Number.isFinite(px)) return along[k];
-        const lev = x < 0.1 ? 0.1 : 0.9;
         const u = (lev - px) / (x - px);
         return along[prevK] + u * (along[k] - along[prevK]);
       }
-      last = along[k];
       k += dir;
     }
-    return last;
+    return null;
   };
-  const a = walk(-1),
-    b = walk(1);
-  return [Math.min(a, b, s0), Math.max(a, b, s0)];
+  return [walk(-1), walk(1)];
 }
 
 /**
- * Half-width (km along the trace) of the 0.1–0.9 band of the profile linearised at its 0.5 crossing between
- * stations k − 1 and k: 0.4 / |dp/ds|, the slope taken over the supported stations within 1 km each way of the
- * crossing (a first-order Taylor expansion of the probability profile about the meeting point).
+ * Slope |dp/ds| (1/km) of the profile at its 0.5 crossing between stations k − 1 and k, taken over the supported
+ * stations within 1 km each way of the crossing.
  */
-function linearHalfBand(prof: Float64Array, ok: Uint8Array, along: Float64Array, j: number, k: number, stride: number): number {
+function profileSlopePerKm(prof: Float64Array, ok: Uint8Array, along: Float64Array, j: number, k: number, stride: number): number {
   const v = (i: number) => prof[i * stride + j - 1];
   const s0 = (along[k - 1] + along[k]) / 2;
   let i0 = k - 1,
     i1 = k;
   while (i0 - 1 >= 0 && ok[i0 - 1] === 1 && !Number.isNaN(v(i0 - 1)) && s0 - along[i0 - 1] <= 1) i0--;
   while (i1 + 1 < along.length && ok[i1 + 1] === 1 && !Number.isNaN(v(i1 + 1)) && along[i1 + 1] - s0 <= 1) i1++;
-  const slope = Math.abs((v(i1) - v(i0)) / (along[i1] - along[i0]));
-  return slope > 0 ? 0.4 / slope : Infinity;
+  return Math.abs((v(i1) - v(i0)) / (along[i1] - along[i0]));
+}
+
+/** Standard normal 0.9 quantile z₀.₉ (Abramowitz & Stegun 1964, table 26.2). */
+const Z90 = 1.2815516;
+/** φ(0) = 1/√(2π), the standard normal density at 0. */
+const NORMAL_PDF_0 = 1 / Math.sqrt(2 * Math.PI);
+
+/**
+ * Half-width (km) of the 10–90 % interval of a Gaussian-shaped (probit) profile p(s) = Φ((s − s0)/σ) with slope
+ * slopePerKm (1/km) at its 0.5 crossing: σ = φ(0)/slope, half-width z₀.₉·σ = 0.5113/slope; Infinity for a flat profile.
+ */
+export function gaussianHalfWidthKm(slopePerKm: number): number {
+  return slopePerKm > 0 ? (Z90 * NORMAL_PDF_0) / slopePerKm : Infinity;
 }
 
 const DEG = Math.PI / 180;
 
 /**
- * The 10–90 % interval (km) of the separation |s_a − s_b| of two meetings whose bands are independent 10–90 %
- * intervals of their positions: the difference d = s_a − s_b extends below by √(a↓² + b↑²) and above by
- * √(a↑² + b↓²) (a↓, a↑ the band's halves below and above s_a); the interval of |d| follows (0 when it spans 0).
+ * The 10–90 % interval (km) of the separation |s_a − s_b| of two meetings. Each meeting's band is its statistical
+ * half-widths (below, above) about the span between its 0.5 crossing and its fitted point. The difference
+ * d = s_a − s_b extends below by √(a↓² + b↑²) and above by √(a↑² + b↓²) (the statistical halves in quadrature:
+ * exact for independent Gaussian errors, Taylor 1997 §3.6 [from memory]), plus, linearly, the method offsets (the
+ * distance from each fitted point to its own profile crossing, on the side where that crossing lies). The interval
+ * of |d| follows (0 when it spans 0).
  */
-function separationInterval(a: Meeting, b: Meeting): [number, number] {
+export function separationInterval(
+  a: Pick<Meeting, 'alongKm' | 'profileAlongKm' | 'bandAlongKm'>,
+  b: Pick<Meeting, 'alongKm' | 'profileAlongKm' | 'bandAlongKm'>,
+): [number, number] {
+  const parts = (m: typeof a) => {
+    const lo = Math.min(m.alongKm, m.profileAlongKm),
+      hi = Math.max(m.alongKm, m.profileAlongKm);
+    // Statistical halves, and the method offsets below and above the reported point.
+    return { below: lo - m.bandAlongKm[0], above: m.bandAlongKm[1] - hi, mBelow: m.alongKm - lo, mAbove: hi - m.alongKm };
+  };
+  const pa = parts(a),
+    pb = parts(b);
   const d = a.alongKm - b.alongKm;
-  const dLo = d - Math.hypot(a.alongKm - a.bandAlongKm[0], b.bandAlongKm[1] - b.alongKm);
-  const dHi = d + Math.hypot(a.bandAlongKm[1] - a.alongKm, b.alongKm - b.bandAlongKm[0]);
+  const dLo = d - Math.hypot(pa.below, pb.above) - (pa.mBelow + pb.mAbove);
+  const dHi = d + Math.hypot(pa.above, pb.below) + (pa.mAbove + pb.mBelow);
   const low = dLo <= 0 && dHi >= 0 ? 0 : Math.min(Math.abs(dLo), Math.abs(dHi));
   return [low, Math.max(Math.abs(dLo), Math.abs(dHi))];
 }
@@ -590,21 +623,22 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
         const u = (0.5 - a) / (b - a);
         const s0 = along[k - 1] + u * (along[k] - along[k - 1]);
         const sense: 1 | -1 = b > a ? 1 : -1;
-        const fit = fitMeetingBand(pool, j, s0, sense, windowKm, D);
-        const walked = bandAround(P[side], ok[side], along, j, k, s0, BOUNDARY_COUNT);
-        const at = fit?.alongKm ?? s0;
-        // The band where the isograd meets the trace: the profile's 0.1–0.9 band linearised at its 0.5 crossing,
-        // about both the crossing and the fitted point, never wider than the walked 0.1–0.9 stretch. (Walking on,
-        // away from the samples near the meeting, the kriged indicator returns towards its mean and stays inside
-        // 0.1–0.9 for tens of km: that stretch measures the map's lack of samples there, not where this isograd
-        // meets the trace.)
-        const half = linearHalfBand(P[side], ok[side], along, j, k, BOUNDARY_COUNT);
-        const band: [number, number] = [Math.max(walked[0], Math.min(at, s0) - half), Math.min(walked[1], Math.max(at, s0) + half)];
+        const fit = fitMeeting(pool, j, s0, sense, windowKm, D);
+        const at = fit ?? s0;
+        // The 10–90 % band of the meeting: each way, the walked 0.1/0.9 crossing where the profile reaches it along
+        // the supported stretch, else the Gaussian-shape half-width 0.5113/slope; measured from the 0.5 crossing and
+        // laid outside the span between the crossing and the fitted point (the method offset, added linearly).
+        const [cBelow, cAbove] = walkedCrossings(P[side], ok[side], along, j, k, sense, BOUNDARY_COUNT);
+        const gauss = gaussianHalfWidthKm(profileSlopePerKm(P[side], ok[side], along, j, k, BOUNDARY_COUNT));
+        const below = cBelow === null ? gauss : s0 - cBelow,
+          above = cAbove === null ? gauss : cAbove - s0;
+        const band: [number, number] = [Math.min(at, s0) - below, Math.max(at, s0) + above];
         const m: Meeting = {
           isograd: `${ZONE_NAMES[j]}-in`,
           side,
           alongKm: at,
-          bandAlongKm: [Math.min(band[0], at), Math.max(band[1], at)],
+          bandAlongKm: band,
+          profileAlongKm: s0,
           basis: fit === null ? 'profile' : 'fit',
           sense,
         };

@@ -1,6 +1,7 @@
 import { describe, it, expect } from 'vitest';
 import { prng } from '../helpers/prng.ts';
 import { computeIsogradsKm, buildTrace, tracePieces, faultReport, type SampleGrade } from '../../shared/structure/index.ts';
+import { gaussianHalfWidthKm, separationInterval } from '../../shared/structure/fault-report.ts';
 
 // Constructed domes cut by faults, in local km. A dome's surface peak temperature falls 5 °C/km from its centre and
 // rises 25 °C/km with depth, so each isograd surface is a cone dipping outwards at atan(5/25) = 11.31°. Zones open at
@@ -108,5 +109,49 @@ describe('constructed dome cut by a thrust that repeats zones', () => {
     const rep = faultReport({ trace, kind: 'normal' }, r.field, { supportKm: r.supportKm });
     expect(rep.repeatedZones.length).toBeGreaterThan(0);
     expect(rep.warnings.join()).toMatch(/repeated across a fault recorded as normal/);
+  });
+});
+
+describe('10–90 % interval arithmetic of meeting points and separations', () => {
+  // z₀.₉ = 1.2816, the standard normal 0.9 quantile (Abramowitz & Stegun 1964, table 26.2); φ(0) = 1/√(2π).
+  const Z90 = 1.2816,
+    PHI0 = 1 / Math.sqrt(2 * Math.PI);
+  // A meeting at `at` whose 0.5 crossing lies at `profile`, with a Gaussian position error of σ km either way.
+  const meeting = (at: number, profile: number, sigmaKm: number) => ({
+    alongKm: at,
+    profileAlongKm: profile,
+    bandAlongKm: [Math.min(at, profile) - Z90 * sigmaKm, Math.max(at, profile) + Z90 * sigmaKm] as [number, number],
+  });
+
+  it('a probit profile of slope k at its 0.5 crossing has σ = φ(0)/k and 10–90 % half-width z₀.₉·σ (0.5113/k)', () => {
+    // Slope 0.1 /km: σ = 3.9894 km, half-width 1.2816 × 3.9894 = 5.1128 km.
+    expect(gaussianHalfWidthKm(0.1)).toBeCloseTo((Z90 * PHI0) / 0.1, 3);
+    expect(gaussianHalfWidthKm(0.1)).toBeCloseTo(5.1128, 3);
+    expect(gaussianHalfWidthKm(0.4)).toBeCloseTo(1.2782, 3);
+    // The old straight line through the median (0.4/slope) gave 4 km: only Φ(4/3.9894) − Φ(−4/3.9894) ≈ 68 % coverage.
+    expect(gaussianHalfWidthKm(0)).toBe(Infinity);
+  });
+
+  it('independent Gaussian errors: the difference extends by z₀.₉·√(σa² + σb²) each way', () => {
+    // σa = 2, σb = 1.5: √(4 + 2.25) = 2.5, half-width 1.2816 × 2.5 = 3.204 km about d = 10 − 4 = 6 km.
+    const [lo, hi] = separationInterval(meeting(10, 10, 2), meeting(4, 4, 1.5));
+    expect(lo).toBeCloseTo(6 - 3.204, 6);
+    expect(hi).toBeCloseTo(6 + 3.204, 6);
+  });
+
+  it('the offset between the fitted point and the profile crossing is added linearly, not in quadrature', () => {
+    // a fitted at 11, its profile crossing at 10 (1 km below): d = 7, the low end 7 − 3.204 − 1 = 2.796, the high end
+    // 7 + 3.204 = 10.204 (the crossing lies below a, so it moves only the lower end).
+    const [lo, hi] = separationInterval(meeting(11, 10, 2), meeting(4, 4, 1.5));
+    expect(lo).toBeCloseTo(2.796, 6);
+    expect(hi).toBeCloseTo(10.204, 6);
+  });
+
+  it('an interval of the difference spanning zero gives a separation range from 0', () => {
+    // d = 1, σa = σb = 2: half-width 1.2816 × 2√2 = 3.6249 km, so the difference runs −2.6249 … 4.6249.
+    const [lo, hi] = separationInterval(meeting(5, 5, 2), meeting(4, 4, 2));
+    expect(lo).toBe(0);
+    expect(hi).toBeCloseTo(1 + Z90 * 2 * Math.SQRT2, 6);
+    expect(hi).toBeCloseTo(4.6249, 3);
   });
 });
