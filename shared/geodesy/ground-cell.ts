@@ -14,8 +14,10 @@ export const GROUND_CELL_VARIATION = 0.01;
 /**
  * The spread above which a warning says so: 10 %. Every computation uses each cell's own ground geometry (areas on
  * the ellipsoid, distances in a local projection), so a spread matters only where a reader takes "cellKm" as the
- * size of every cell: a lon/lat grid over 2° of latitude (about 2 %) is printed with its range without a warning;
- * Web Mercator over 16° of latitude (about 30 %) is warned about.
+ * size of every cell. The spread of a lon/lat grid's east–west side (and of Web Mercator's scale) over Δφ radians of
+ * latitude is about tan φ·Δφ, so it depends on where the grid lies: over 2° of latitude a lon/lat grid spreads about
+ * 2 % near 30°, 3.5 % near 45° and 6 % near 60° (printed with its range, no warning); Web Mercator over 16° spreads
+ * about 16 % near 30° and 30 % near 45° (warned about), but under 10 % for a grid centred within about 15° of the equator.
  */
 export const GROUND_CELL_WARNING = 0.1;
 

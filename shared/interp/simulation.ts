@@ -12,7 +12,8 @@ import { anisotropyMatrix, correlation, modelCode, checkVariogram, type Anisotro
  * with Z_u an unconditional realization with the model covariance at the data and the targets, and λ(x) the
  * ordinary-kriging weights of target x from the data. The weights depend on the geometry only, so they are solved
  * once and shared by every realization. With a global neighbourhood the realizations at the targets have exactly
- * the kriging estimate as mean, the kriging variance as variance and the conditional covariance between targets.
+ * the ordinary-kriging estimate as mean, the ordinary-kriging variance as variance and the ordinary-kriging error
+ * covariance between targets (not the simple-kriging conditional covariance, which these weights do not give).
  *
  * Unconditional fields come from one of two samplers:
  * - `cholesky` (the LU method, Davis 1987): the joint covariance matrix of all distinct sites is factored once,
