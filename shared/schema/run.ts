@@ -223,7 +223,7 @@ const zoneStatementSchema = z.looseObject({ zone: z.string(), sampleIds: z.array
 export const faultReportRowSchema = z.looseObject({
   id: z.string(),
   repeatedZones: z.array(zoneStatementSchema),
-  missingZones: z.array(zoneStatementSchema.extend({ side: z.string(), higherSide: z.string(), between: z.tuple([z.string(), z.string()]) })),
+  missingZones: z.array(zoneStatementSchema.extend({ side: z.string(), higherSide: z.string(), between: z.array(z.string()).length(2) })),
   notReached: z.array(z.looseObject({ isograd: z.string(), side: z.enum(['left', 'right', 'both']), sideName: z.string() })),
   offsetOnly: z.boolean(),
   separations: z.array(
