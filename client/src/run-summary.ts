@@ -1,20 +1,34 @@
 /**
- * What a finished run reports beside its layers: the fitted variogram with its empirical semivariances, and the
- * leave-one-out cross-validation summary.
+ * What a finished run reports beside its layers: its grid with the cells' ground size, the fitted variogram with its
+ * empirical semivariances, and the leave-one-out cross-validation summary.
  */
+import { cellSizeText } from '../../shared/geodesy/ground-cell.ts';
 import { semivariance } from '../../shared/interp/variogram.ts';
+import type { RunSummary } from '../../shared/schema/run.ts';
 import { getJson, type CrossValidation, type RunState, type Variogram } from './api.ts';
 import { el, fmt, niceTicks, svg } from './dom.ts';
 
 /** The variogram and cross-validation blocks of a run summary (whatever of them the run has). */
 export function runSummary(run: RunState): HTMLElement[] {
   const out: HTMLElement[] = [];
+  if (run.summary) out.push(gridLine(run.summary.grid));
   const v = run.summary?.interpolation.variogram ?? null;
   if (v) out.push(el('h3', {}, 'Variogram'), variogramPlot(v));
   const cv = run.summary?.crossValidation;
   if (cv) out.push(el('h3', {}, 'Cross-validation (leave one out)'), cvTable(cv));
   for (const w of run.warnings ?? []) out.push(el('p', { class: 'note warning' }, String(w)));
   return out;
+}
+
+/**
+ * The grid's size and its cells' ground size, printed as the CLI prints it (shared/geodesy/ground-cell.ts:
+ * cellSizeText): with its range over the grid where it varies by more than 1 %. A run stored before the range was
+ * recorded shows the centre's size only.
+ */
+function gridLine(g: RunSummary['grid']): HTMLElement {
+  const [lo, hi] = (g.groundCellKmRange as number[] | undefined) ?? [g.cellKm, g.cellKm];
+  const text = `Grid ${g.width} × ${g.height} cells (${g.crs}), ${cellSizeText(g.cellKm, [lo, hi])} on the ground.`;
+  return el('p', { class: 'note', id: 'run-grid' }, text);
 }
 
 /** γ(h) of the fitted model (shared/interp/variogram.ts, practical-range convention, DESIGN.md §3). */

@@ -139,6 +139,7 @@ function runSummary(
       dy: g.dy,
       crs: inp.crs,
       cellKm: interp.cellKm,
+      groundCellKmRange: interp.groundCellKmRange,
     },
     interpolation: {
       method: inp.interpolation.method,

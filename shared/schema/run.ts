@@ -89,7 +89,7 @@ export type RunLayerInfo = z.infer<typeof runLayerInfoSchema>;
 /** A number that JSON carries as null when it is not finite (NaN, ±∞). */
 const finiteOrNull = z.number().nullable();
 
-/** The output grid: cell-centre georeferencing of the upper-left corner (west, north), cell sizes in CRS units. */
+/** The output grid: its outer west and north edges (shared/grid/grid.ts), cell sizes in CRS units. */
 export const runGridSummarySchema = z.strictObject({
   width: z.number().int().min(1),
   height: z.number().int().min(1),
@@ -99,8 +99,14 @@ export const runGridSummarySchema = z.strictObject({
   dx: z.number().gt(0),
   dy: z.number().gt(0),
   crs: z.string(),
-  /** The cell size in km (at the centre latitude for a lon/lat grid). */
+  /** The cell size in km on the ground at the grid's centre (shared/interp/projection.ts: buildOutputGrid). */
   cellKm: z.number().gt(0),
+  /**
+   * The smallest and largest ground side of a cell over the grid, km, as [min, max] (WGS84 ellipsoid; lon/lat cells
+   * narrow towards the poles, projected cells follow the projection's scale; shared/geodesy/ground-cell.ts:
+   * groundCellKmRange). `cellSizeText` in the same module prints both as the CLI does.
+   */
+  groundCellKmRange: z.array(z.number().gt(0)).length(2),
 });
 
 /** The semivariogram the kriging used (practical-range convention, DESIGN.md §3), with its empirical lags. */

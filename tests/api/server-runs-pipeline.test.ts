@@ -6,6 +6,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
 import type { ColumnAnswer } from '../../shared/schema/column.ts';
 import { RUN_EVENTS, runSummarySchema } from '../../shared/schema/run.ts';
+import { referenceCellSideRangeKm } from '../helpers/ground-cell.ts';
 
 let t: TestApp;
 let store: TestApp['store'];
@@ -53,6 +54,11 @@ describe('runs with the real pipeline', () => {
     expect(checkSummary(view.summary), JSON.stringify(checkSummary.errors)).toBe(true);
     const checkEvent = { progress: ajv.compile(published.RunProgressEvent), end: ajv.compile(published.RunEndEvent) };
     for (const e of events) expect(checkEvent[e.event as keyof typeof checkEvent](e.data), `${e.event} ${JSON.stringify(e.data)}`).toBe(true);
+    // The cells' ground size over the lon/lat grid: geographiclib geodesic lengths of every cell's sides, to 1e-4.
+    const g = summary.data!.grid;
+    const [lo, hi] = referenceCellSideRangeKm(g, null);
+    expect(Math.abs(g.groundCellKmRange[0] - lo) / lo).toBeLessThan(1e-4);
+    expect(Math.abs(g.groundCellKmRange[1] - hi) / hi).toBeLessThan(1e-4);
     expect(summary.data!.interpolation.method).toBe('kriging');
     expect(summary.data!.interpolation.variogram!.empirical.length).toBeGreaterThan(0);
     expect(summary.data!.crossValidation!.n).toBeGreaterThan(0);

@@ -194,6 +194,11 @@ describe('the map client: data, run, inspector, section', () => {
     await waitForMapIdle(page);
     const residuals = await page.evaluate(() => window.subtherm!.map.queryRenderedFeatures({ layers: ['run-cv-residuals'] }).length);
     expect(residuals).toBeGreaterThan(100);
+    // The grid line gives the cells' ground size at the centre and, where it varies by more than 1 %, its range.
+    const g = run.summary!.grid;
+    const gridLine = (await page.locator('#run-grid').textContent())!;
+    expect(gridLine).toContain(`${g.cellKm.toFixed(3)} km`);
+    if ((g.groundCellKmRange[1] - g.groundCellKmRange[0]) / g.cellKm > 0.01) expect(gridLine).toContain(`${g.groundCellKmRange[0].toFixed(3)}–`);
     // Variogram plot and cross-validation summary from the run's summary.
     expect(await page.locator('.variogram-plot polyline.vg-model').count()).toBe(1);
     const cv = (await page.locator('#cv-summary').textContent())!;

@@ -7,6 +7,7 @@
 //             a constant sd grid, a GeoJSON isograd line and a CSV, with progress posted along the way.
 import { writeGeoTiff } from '../../server/io/geotiff.ts';
 import { cancelSignal, type RunResult, type RunTask } from '../../server/runs/types.ts';
+import { groundCellKmRange } from '../../shared/geodesy/ground-cell.ts';
 import { TOOL_NAME, VERSION } from '../../shared/version.ts';
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
@@ -92,7 +93,18 @@ export default async function runDouble(task: RunTask): Promise<RunResult> {
       },
     ],
     summary: {
-      grid: { width, height, cells: width * height, west: w, north: n, dx, dy, crs: 'EPSG:4326', cellKm: dy * 111.195 },
+      grid: {
+        width,
+        height,
+        cells: width * height,
+        west: w,
+        north: n,
+        dx,
+        dy,
+        crs: 'EPSG:4326',
+        cellKm: dy * 111.195,
+        groundCellKmRange: groundCellKmRange({ width, height, west: w, north: n, dx, dy }, (x, y) => [x, y]),
+      },
       interpolation: { method: 'idw', variogram: null },
       crossValidation: null,
       isothermsC: request.isothermsC,
