@@ -26,7 +26,7 @@ export const EMPIRICAL_BHT: Record<EmpiricalBhtMethod['name'], EmpiricalBhtMetho
   waples2004: {
     name: 'waples2004',
     source:
-      "Waples, Pacheco & Vera (2004), Petroleum Geoscience 10, 239–245: T = Ts + f·(BHT − Ts) − 0.001391·(z − 4498), f = 1.32866 − 0.005289·TSC (°C, z in m below ground or sea floor, TSC hours since circulation; calibrated on wells 3500–6500 m deep) [equation checked against the paper's abstract as quoted by secondary sources, not against its full text]",
+      "Waples, Pacheco & Vera (2004), Petroleum Geoscience 10, 239–245: T = Ts + f·(BHT − Ts) − 0.001391·(z − 4498), f = 1.32866 − 0.005289·TSC (°C, z in m below ground or sea floor, TSC hours since circulation; calibrated on wells 3500–6500 m deep) [coefficients checked against the paper's abstract; the full text could not be reached: docs/sources.md#bht-empirical]",
     calibratedDepthM: [3500, 6500],
     needsTime: true,
   },
@@ -41,7 +41,7 @@ export function harrisonCorrectionC(depthM: number): number {
  * Formation temperature (°C) from a log-derived BHT by Waples, Pacheco & Vera (2004): the BHT's excess over the
  * surface temperature is scaled by f = 1.32866 − 0.005289·TSC (TSC in hours since the end of circulation), then
  * a small depth term −0.001391·(z − 4498) (z m below ground or sea floor) is added. The linear factor and the depth
- * term are those of the paper's abstract (as quoted by secondary sources; the full text was not seen), which gives
+ * term are those of the paper's abstract (the full text could not be reached: docs/sources.md#bht-empirical), which gives
  * them for its calibration depths, 3500–6500 m: outside that range both are extrapolated and the caller flags it.
  * (A logarithmic factor of TSC belongs, as far as could be told, to other calibrations, not to this paper's.)
  * See EMPIRICAL_BHT.

@@ -204,8 +204,8 @@ describe('empirical BHT corrections', () => {
     expect(correctBht(5000, 150, { method: 'harrison1983' }).flags).toContain('empirical-extrapolated');
   });
   it('Waples, Pacheco & Vera (2004): T = Ts + f(BHT − Ts) − 0.001391(z − 4498), f = 1.32866 − 0.005289·TSC', () => {
-    // What this checks: the code evaluates the equation of the paper's abstract (as quoted by secondary sources; the
-    // full text and any worked example in it were not seen), not that the coefficients are right. BHT 150 °C at
+    // What this checks: the code evaluates the equation of the paper's abstract (docs/sources.md#bht-empirical: the
+    // coefficients match the abstract; the full text and any worked example in it could not be reached). BHT 150 °C at
     // 5000 m, 10 h after circulation, Ts 20 °C, by hand: f = 1.27577; T = 20 + 1.27577·130 − 0.001391·502 = 185.151818 °C.
     expect(waplesTemperatureC(150, 20, 10, 5000)).toBeCloseTo(185.151818, 6);
     expect(correctBht(5000, 150, { method: 'waples2004' }, { hoursSinceCirculation: 10, surfaceTemperatureC: 20 }).temperatureC).toBeCloseTo(185.151818, 6);
