@@ -339,6 +339,7 @@ async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed:
     method: 'kriging',
     variogram: scoreVariogram ? 'auto' : so.variogram,
     anisotropy: so.anisotropy,
+    trend: so.trend,
     neighbors: so.neighbors,
     lagKm: so.lagKm,
     maxLagKm: so.maxLagKm,
@@ -354,7 +355,7 @@ async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed:
     realizations: { values: sim.values, source: sim.source },
     report: {
       ...sim.report,
-      nominal: 'the nominal run uses the kriged heat-flow grid (ordinary kriging of the values); p10/p50/p90 and mean come from the simulated fields',
+      nominal: `the nominal run uses the kriged heat-flow grid (${(so.trend ?? 'none') === 'none' ? 'ordinary kriging' : `universal kriging, trend ${so.trend}`} of the values); p10/p50/p90 and mean come from the simulated fields`,
     },
     warnings: [...warnings, ...sim.warnings.map((w) => `heat-flow simulation: ${w}`), ...kr.warnings.map((w) => `kriged grid: ${w}`)],
   };

@@ -16,6 +16,7 @@ import type { PointData } from '../../shared/interp/interpolate.ts';
 import { simulateOnGrid, type SimulationOptions } from '../../shared/interp/simulateField.ts';
 import type { HeatFlowCentralValues, HeatFlowSimulationSummary } from '../../shared/schema/run.ts';
 import type { Anisotropy, VariogramModel, VariogramModelName } from '../../shared/interp/variogram.ts';
+import type { TrendKind } from '../../shared/interp/drift.ts';
 
 /** Offset between a run's seed and the key of its heat-flow simulation streams. */
 export const SIMULATION_STREAM_OFFSET = 2 ** 32;
@@ -30,10 +31,14 @@ export const HEAT_FLOW_CORRELATION_DEPRECATED =
 export interface RunSimulationOptions {
   variogram?: 'auto' | VariogramModelName | VariogramModel;
   anisotropy?: Anisotropy | null;
+  /** Drift of the mean (the kriged map's): the residual is simulated and conditioned by universal kriging. */
+  trend?: TrendKind | 'auto';
   neighbors?: number | 'all';
   lagKm?: number;
   maxLagKm?: number;
   measurementError?: boolean;
+  /** Declustering of the normal-score transform's histogram (default none). */
+  declustering?: SimulationOptions['declustering'];
   /**
    * Simulate normal scores and back-transform, or the values as Gaussian. Default: 'none' for a fixed variogram
    * (given in heat-flow units), else 'normal-score' (runs always use the default; the CLI may choose).
@@ -47,6 +52,9 @@ export interface RunSimulationOptions {
 export function runSimulationOptions(iopt: {
   variogram?: RunSimulationOptions['variogram'];
   anisotropy?: RunSimulationOptions['anisotropy'];
+  trend?: RunSimulationOptions['trend'];
+  /** none, auto or a cell side in km (the run request's interpolation.decluster). */
+  decluster?: 'none' | 'auto' | number;
   neighbors?: number | 'all';
   lagKm?: number;
   maxLagKm?: number;
@@ -56,6 +64,8 @@ export function runSimulationOptions(iopt: {
   return {
     variogram: iopt.variogram,
     anisotropy: iopt.anisotropy ?? null,
+    trend: iopt.method === 'kriging' ? iopt.trend : undefined,
+    declustering: typeof iopt.decluster === 'number' ? { cellKm: iopt.decluster } : iopt.decluster,
     neighbors: iopt.method === 'kriging' ? iopt.neighbors : undefined,
     lagKm: iopt.lagKm,
     maxLagKm: iopt.maxLagKm,
@@ -102,12 +112,15 @@ export function simulateRunHeatFlow(
   }
   // A fixed variogram object is in heat-flow units: simulate the values themselves (no normal-score transform).
   const fixed = typeof o.variogram === 'object';
+  const transform = o.transform ?? (fixed ? 'none' : 'normal-score');
   const opts: SimulationOptions = {
     realizations: count,
     seed: seed + SIMULATION_STREAM_OFFSET,
     variogram: o.variogram ?? 'auto',
     anisotropy: o.anisotropy ?? null,
-    transform: o.transform ?? (fixed ? 'none' : 'normal-score'),
+    trend: o.trend ?? 'none',
+    transform,
+    declustering: transform === 'normal-score' ? (o.declustering ?? 'none') : 'none',
     neighbors: o.neighbors ?? 16,
     lagKm: o.lagKm,
     maxLagKm: o.maxLagKm,
@@ -137,8 +150,22 @@ export function simulateRunHeatFlow(
     neighbors: r.conditioning.neighbors,
     streams: `seed + ${SIMULATION_STREAM_OFFSET}`,
     faultBarriers: barriers,
+    trend: v.trend?.kind ?? 'none',
     checksum,
   };
-  const source = `heat flow from ${count} conditional simulations of the sites (${r.sampler.kind === 'lattice' ? 'circulant embedding' : 'Cholesky'} conditioned by kriging, ${v.model} variogram of the ${space}, range ${v.rangeKm.toPrecision(4)} km${barriers ? ', faults as barriers' : ''})`;
-  return { values, count, seed, checksum, report, source, warnings: r.warnings };
+  const dc = r.transform.declustering;
+  if (dc !== undefined)
+    report.declustering = {
+      cellKm: dc.cellKm,
+      selectedBy: dc.selectedBy,
+      naiveMean: dc.naiveMean,
+      declusteredMean: dc.declusteredMean,
+      naiveSd: dc.naiveSd,
+      declusteredSd: dc.declusteredSd,
+    };
+  const source = `heat flow from ${count} conditional simulations of the sites (${r.sampler.kind === 'lattice' ? 'circulant embedding' : 'Cholesky'} conditioned by ${(v.trend?.kind ?? 'none') === 'none' ? 'ordinary' : `universal (${v.trend!.kind} drift)`} kriging, ${v.model} variogram of the ${space}, range ${v.rangeKm.toPrecision(4)} km${barriers ? ', faults as barriers' : ''})`;
+  const warnings = [...r.warnings];
+  if (transform === 'none' && o.declustering !== undefined && o.declustering !== 'none')
+    warnings.push('declustering weights the normal-score histogram; this simulation has no normal-score transform (a fixed variogram), so it was not used');
+  return { values, count, seed, checksum, report, source, warnings };
 }

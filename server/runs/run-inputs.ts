@@ -186,10 +186,6 @@ export async function readRunInputs(request: unknown, datasets: Record<string, S
   };
   const faciesDepthKm = req.faciesDepthKm ?? (req.depthsKm.length > 0 ? Math.max(...req.depthsKm) : 10);
   if (req.heatFlowErrorCorrelation !== undefined) warnings.push(HEAT_FLOW_CORRELATION_DEPRECATED);
-  if (iopt.method === 'kriging' && iopt.trend !== undefined && iopt.trend !== 'none' && (req.realizations ?? 0) > 0)
-    warnings.push(
-      `interpolation.trend ${iopt.trend} shapes the kriged heat-flow map only: the heat-flow realizations (percentile maps, spread, probability, heat in place) are simulated with a constant mean and the sites' own variogram, so their centre can differ from the kriged map`,
-    );
   return {
     request: req,
     interpolation: iopt,

@@ -54,6 +54,17 @@ function weightedMean(z: ArrayLike<number>, w: ArrayLike<number>): number {
   return s / sw;
 }
 
+/** Weighted standard deviation √(Σwᵢ(zᵢ − m)² / Σwᵢ) of the distribution the weights give (no n − 1 correction). */
+function weightedSd(z: ArrayLike<number>, w: ArrayLike<number>, m: number): number {
+  let s = 0,
+    sw = 0;
+  for (let i = 0; i < z.length; i++) {
+    s += w[i] * (z[i] - m) ** 2;
+    sw += w[i];
+  }
+  return Math.sqrt(s / sw);
+}
+
 export interface DeclusteringReport {
   method: string;
   /** The cell side used, km. */
@@ -64,6 +75,9 @@ export interface DeclusteringReport {
   /** The plain and the declustered mean of the values (value units). */
   naiveMean: number;
   declusteredMean: number;
+  /** The plain and the declustered standard deviation of the values' distribution (value units, no n − 1 correction). */
+  naiveSd: number;
+  declusteredSd: number;
   /** Smallest and largest weight (mean 1). */
   minWeight: number;
   maxWeight: number;
@@ -86,7 +100,8 @@ export function decluster(
   const n = z.length;
   if (n < 2) throw new InputError(`declustering needs at least 2 points, got ${n}`, [{ field: 'points', problem: 'expected ≥ 2 points' }], 'too_few_points');
   const offsets = opts.offsets ?? 5;
-  const naiveMean = weightedMean(z, new Float64Array(n).fill(1));
+  const ones = new Float64Array(n).fill(1);
+  const naiveMean = weightedMean(z, ones);
   let best: { cellKm: number; weights: Float64Array; mean: number } | null = null;
   let candidates: DeclusteringReport['candidates'];
   if (opts.cellKm !== undefined) {
@@ -134,6 +149,8 @@ export function decluster(
     offsets,
     naiveMean,
     declusteredMean: b.mean,
+    naiveSd: weightedSd(z, ones, naiveMean),
+    declusteredSd: weightedSd(z, b.weights, b.mean),
     minWeight: minW,
     maxWeight: maxW,
   };

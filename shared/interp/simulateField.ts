@@ -1,5 +1,4 @@
 import { InputError } from '../errors.ts';
-import { percentilesBySelection } from '../stats/quantile.ts';
 import type { GridSpec } from '../grid/grid.ts';
 import { converter, lonLatToLocalKm, rowCentresLocalKm, type OutputGridOptions } from './projection.ts';
 import { prepareInterpolation, type PointData, type VariogramReport, type PreparedInterpolation } from './interpolate.ts';
@@ -8,6 +7,7 @@ import { NormalScoreTransform } from './normalScore.ts';
 import { declusterLonLat, type DeclusteringReport } from './declustering.ts';
 import { createConditionalSimulator, type ConditionalSimulator } from './simulation.ts';
 import type { Anisotropy, VariogramModel, VariogramModelName } from './variogram.ts';
+import type { TrendKind } from './drift.ts';
 
 /**
  * Conditional simulation of a point field, the library entry points behind `subtherm simulate`: the values are
@@ -23,6 +23,13 @@ export interface SimulationOptions {
   seed: number;
   variogram?: 'auto' | VariogramModelName | VariogramModel;
   anisotropy?: Anisotropy | null;
+  /**
+   * Drift of the mean (as in interpolation, trendSelect.ts): 'none' (default), 'linear', 'quadratic' or 'auto'. The
+   * variogram is fitted on the residuals of a least-squares trend, the residual is simulated and the realizations
+   * are conditioned by universal kriging, which adds the drift back. With the normal-score transform the drift is
+   * one of the normal scores (the back-transform is monotone, so a trend in the scores is a trend in the values).
+   */
+  trend?: TrendKind | 'auto';
   /** 'normal-score' (default) or 'none' (simulate the values as Gaussian). */
   transform?: 'normal-score' | 'none';
   /**
@@ -80,10 +87,15 @@ export const MAX_REALIZATIONS = 10_000;
 const now = () => (typeof performance !== 'undefined' ? performance.now() : Date.now());
 
 const SAMPLER_METHODS = {
-  cholesky: 'LU (Cholesky) unconditional simulation (Davis 1987), conditioned by ordinary kriging of the residuals (Journel & Huijbregts 1978)',
-  lattice:
-    'circulant-embedding FFT unconditional simulation (Wood & Chan 1994; Dietrich & Newsam 1997), conditioned by ordinary kriging of the residuals (Journel & Huijbregts 1978)',
+  cholesky: 'LU (Cholesky) unconditional simulation (Davis 1987)',
+  lattice: 'circulant-embedding FFT unconditional simulation (Wood & Chan 1994; Dietrich & Newsam 1997)',
 } as const;
+
+/** The method in words: the sampler and the conditioning kriging (ordinary, or universal with the drift). */
+function samplerMethod(kind: 'cholesky' | 'lattice', trend: TrendKind): string {
+  const kriging = trend === 'none' ? 'ordinary kriging' : `universal kriging with a ${trend} drift (Chilès & Delfiner 2012, §7.3.1)`;
+  return `${SAMPLER_METHODS[kind]}, conditioned by ${kriging} of the residuals (Journel & Huijbregts 1978)`;
+}
 
 function checkCounts(opts: SimulationOptions): void {
   const R = opts.realizations;
@@ -161,6 +173,7 @@ function prepare(
       neighbors: opts.neighbors ?? 16,
       variogram: opts.variogram ?? 'auto',
       anisotropy: opts.anisotropy ?? null,
+      trend: opts.trend ?? 'none',
       lagKm: opts.lagKm,
       maxLagKm: opts.maxLagKm,
       grid: opts.grid,
@@ -214,6 +227,7 @@ function runAll(
       latticeKm,
       errorVariance: plan.errorVariance,
       faults: plan.faults,
+      trend: plan.trend,
     });
   } catch (e) {
     if (e instanceof RangeError)
@@ -239,7 +253,7 @@ function runAll(
     targets: T,
     variogram: prep.variogram!,
     transform: report,
-    sampler: { kind: sim.sampler, method: SAMPLER_METHODS[sim.sampler], ...sim.samplerInfo },
+    sampler: { kind: sim.sampler, method: samplerMethod(sim.sampler, plan.trend ?? 'none'), ...sim.samplerInfo },
     crossValidation: prep.crossValidation,
     conditioning: { neighbors, weights: sim.weights.ids.length },
     warnings: [...prep.warnings, ...sim.warnings],
@@ -322,68 +336,4 @@ function runOnCells(
   const sy = H > 1 ? Math.hypot(tx[i0 + (rc + 1 < H ? W : -W)] - tx[i0], ty[i0 + (rc + 1 < H ? W : -W)] - ty[i0]) : Infinity;
   const h = Math.min(sx, sy, cellKm);
   return runAll(prep, ns, opts, tx, ty, opts.sampler ?? 'lattice', Number.isFinite(h) ? h : undefined, report);
-}
-
-const PROBS = [0.1, 0.5, 0.9];
-
-export interface TargetSummaries {
-  mean: Float32Array;
-  sd: Float32Array;
-  p10: Float32Array;
-  p50: Float32Array;
-  p90: Float32Array;
-}
-
-/**
- * Per-target mean, sample standard deviation (n − 1) and P10/P50/P90 (Hyndman & Fan 1996 type 7, linear between
- * order statistics found by selection, Hoare 1961) over the realizations; NaN where any realization is NaN.
- */
-export function summarizeTargets(values: Float32Array, R: number, T: number): TargetSummaries {
-  const out: TargetSummaries = {
-    mean: new Float32Array(T),
-    sd: new Float32Array(T),
-    p10: new Float32Array(T),
-    p50: new Float32Array(T),
-    p90: new Float32Array(T),
-  };
-  // Cells in blocks: the block's values are gathered realization by realization (contiguous reads), then each
-  // cell's R values are summarized (percentiles by selection, shared/stats/quantile.ts).
-  const BLOCK = 512;
-  const blk = new Float64Array(R * BLOCK);
-  const pct = new Float64Array(PROBS.length);
-  for (let t0 = 0; t0 < T; t0 += BLOCK) {
-    const nb = Math.min(BLOCK, T - t0);
-    for (let r = 0; r < R; r++) {
-      const base = r * T + t0;
-      for (let j = 0; j < nb; j++) blk[j * R + r] = values[base + j];
-    }
-    for (let j = 0; j < nb; j++) {
-      const t = t0 + j;
-      const buf = blk.subarray(j * R, j * R + R);
-      let s = 0,
-        bad = false;
-      for (let r = 0; r < R; r++) {
-        const v = buf[r];
-        if (v !== v) {
-          bad = true;
-          break;
-        }
-        s += v;
-      }
-      if (bad) {
-        out.mean[t] = out.sd[t] = out.p10[t] = out.p50[t] = out.p90[t] = NaN;
-        continue;
-      }
-      const mean = s / R;
-      let ss = 0;
-      for (let r = 0; r < R; r++) ss += (buf[r] - mean) ** 2;
-      out.mean[t] = mean;
-      out.sd[t] = R > 1 ? Math.sqrt(ss / (R - 1)) : NaN;
-      percentilesBySelection(buf, R, PROBS, pct);
-      out.p10[t] = pct[0];
-      out.p50[t] = pct[1];
-      out.p90[t] = pct[2];
-    }
-  }
-  return out;
 }

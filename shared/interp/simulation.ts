@@ -3,6 +3,7 @@ import { FaultBarrier } from './barriers.ts';
 import { Fft, fft2d, nextFftSize } from './fft.ts';
 import { KrigingPredictor } from './kriging.ts';
 import { choleskyInPlace } from './linalg.ts';
+import { driftFrame, type TrendKind } from './drift.ts';
 import { anisotropyMatrix, correlation, modelCode, checkVariogram, type Anisotropy, type VariogramModel } from './variogram.ts';
 
 /**
@@ -14,6 +15,10 @@ import { anisotropyMatrix, correlation, modelCode, checkVariogram, type Anisotro
  * once and shared by every realization. With a global neighbourhood the realizations at the targets have exactly
  * the ordinary-kriging estimate as mean, the ordinary-kriging variance as variance and the ordinary-kriging error
  * covariance between targets (not the simple-kriging conditional covariance, which these weights do not give).
+ * With a drift (a polynomial in the coordinates, drift.ts) the weights are universal-kriging weights: Z_u then
+ * simulates the residual (its covariance is the residual variogram's) and the drift comes back through the
+ * weights' unbiasedness conditions Σλᵢf(xᵢ) = f(x), so the realizations' mean is the universal-kriging estimate and
+ * their variance the universal-kriging variance (Chilès & Delfiner 2012, §7.3.1, conditioning by universal kriging).
  *
  * Unconditional fields come from one of two samplers:
  * - `cholesky` (the LU method, Davis 1987): the joint covariance matrix of all distinct sites is factored once,
@@ -62,6 +67,8 @@ export interface SimulationSetup {
    * unconditional field itself stays continuous, so across a fault a target keeps only the variogram's spread.
    */
   faults?: Float64Array | null;
+  /** Drift of the mean: universal-kriging conditioning (default none: ordinary kriging). */
+  trend?: TrendKind;
 }
 
 export interface ConditioningWeights {
@@ -423,6 +430,7 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
     maxGlobal: s.maxGlobal,
     errorVariance: ev,
     visibility: barrierIn(s.faults ?? null, m, dx, dy),
+    drift: s.trend !== undefined && s.trend !== 'none' ? driftFrame(s.trend, dx, dy) : null,
   });
   const weights = conditioningWeights(predictor, m, s.tx, s.ty);
   const warnings = [...sampler.warnings];

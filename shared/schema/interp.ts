@@ -43,6 +43,11 @@ export const interpolationOptionsSchema = z.object({
    * kriging; the variogram is fitted on least-squares residuals), or auto (the lowest leave-one-out RMSE).
    */
   trend: z.enum([...TREND_KINDS, 'auto']).optional(),
+  /**
+   * Cell declustering of the histogram the heat-flow simulation's normal-score transform reproduces: none (default),
+   * auto (the cell size of the smallest declustered mean) or a cell side in km.
+   */
+  decluster: z.union([z.enum(['none', 'auto']), z.number().gt(0).max(1e5)]).optional(),
   measurementError: z.boolean().optional(),
   maxDistanceKm: z.number().gt(0).nullable().optional(),
   bbox: z.tuple([z.number(), z.number(), z.number(), z.number()]).optional(),

@@ -198,6 +198,22 @@ export const monteCarloSummarySchema = z.strictObject({
       streams: z.string(),
       /** The run's faults were barriers to the conditioning (absent in runs made before barriers were honoured). */
       faultBarriers: z.boolean().optional(),
+      /** The drift the conditioning universal kriging carried (none: ordinary kriging; absent in older runs). */
+      trend: z.enum(['none', 'linear', 'quadratic']).optional(),
+      /**
+       * Cell declustering of the normal-score transform's histogram (absent: equal weights): the cell side (km), how
+       * it was chosen, and the sites' plain and declustered mean and sd (mW/m²).
+       */
+      declustering: z
+        .strictObject({
+          cellKm: z.number(),
+          selectedBy: z.enum(['given', 'minimum declustered mean']),
+          naiveMean: z.number(),
+          declusteredMean: z.number(),
+          naiveSd: z.number(),
+          declusteredSd: z.number(),
+        })
+        .optional(),
       /** Sum of realization 0 over the cells with data: a re-simulation must give the same. */
       checksum: z.number(),
       /** Mean, median and sd over the realizations of the regional mean heat flow, the kriged map's, and the difference (mW/m²). */

@@ -7,7 +7,7 @@ import { spawnSync } from 'node:child_process';
 import { mkdtempSync, writeFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { createConditionalSimulator } from '../../shared/interp/simulation.ts';
-import { summarizeTargets } from '../../shared/interp/simulateField.ts';
+import { summarizeTargets } from '../../shared/interp/targetSummaries.ts';
 import type { VariogramModel } from '../../shared/interp/variogram.ts';
 import { prng } from '../helpers/prng.ts';
 

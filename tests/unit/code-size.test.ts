@@ -35,7 +35,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/wells/analyze.ts', // 510
   'server/cli/isograds.ts isograds', // 141
   'server/cli/isotherms.ts isotherms', // 248
-  'server/cli/simulate.ts simulate', // 216
   'server/cli/wells.ts wells', // 184
   'server/routes/project-datasets.ts projectDatasetRoutes', // 182
   'server/runs/jobs.ts submit', // 123

@@ -25,6 +25,9 @@ describe('cell declustering weights', () => {
     const r = decluster(X, Y, Z, { cellKm: 10 });
     expect(r.report.declusteredMean).toBeCloseTo(70, 12);
     expect(r.report.naiveMean).toBeCloseTo(85, 12);
+    // By hand: plain variance (4·15² + 35² + 25²)/6 = 2750/6; declustered (2·30² + 2·20² + 2·10²)/6 = 2800/6.
+    expect(r.report.naiveSd).toBeCloseTo(Math.sqrt(2750 / 6), 12);
+    expect(r.report.declusteredSd).toBeCloseTo(Math.sqrt(2800 / 6), 12);
     expect(r.report).toMatchObject({ cellKm: 10, selectedBy: 'given', offsets: 5, minWeight: 0.5, maxWeight: 2 });
   });
 

@@ -277,7 +277,7 @@ describe('unconditional simulation: variogram and histogram reproduction', () =>
 describe('per-target summaries of realizations', () => {
   it('P10/P50/P90 equal d3-array quantile (type 7) and mean/sd the plain formulas, with ties and odd counts', async () => {
     const { quantile } = await import('d3-array');
-    const { summarizeTargets } = await import('../../shared/interp/simulateField.ts');
+    const { summarizeTargets } = await import('../../shared/interp/targetSummaries.ts');
     const r = prng(4);
     for (const R of [1, 2, 7, 200, 201]) {
       const T = 600;
