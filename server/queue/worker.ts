@@ -8,6 +8,7 @@
  */
 import { MessageChannel, type MessagePort } from 'node:worker_threads';
 import { Piscina } from 'piscina';
+import { WORKER_EXEC_ARGV } from '../workers/exec-argv.ts';
 import type { RunRequest } from '../../shared/schema/run.ts';
 import type { Store } from '../store/types.ts';
 import { newId } from '../store/sqlite.ts';
@@ -65,7 +66,7 @@ export class QueueWorker {
     await q.sub.subscribe(q.key('cancel'));
     this.pool = new Piscina({
       filename: this.opts.workerFile,
-      execArgv: ['--import', 'tsx'],
+      execArgv: WORKER_EXEC_ARGV,
       minThreads: 0,
       maxThreads: this.opts.concurrency,
       idleTimeout: 60_000,

@@ -8,6 +8,7 @@
  */
 import { fileURLToPath } from 'node:url';
 import { Piscina } from 'piscina';
+import { WORKER_EXEC_ARGV } from '../workers/exec-argv.ts';
 import { InputError, type InputProblem } from '../../shared/errors.ts';
 import type { ComputeTask, ComputeReply } from '../workers/compute-worker.ts';
 
@@ -51,7 +52,7 @@ export class ComputePool {
     if (this.pool) return this.pool;
     this.pool = new Piscina({
       filename: this.opts.workerFile ?? COMPUTE_WORKER_FILE,
-      execArgv: ['--import', 'tsx'],
+      execArgv: WORKER_EXEC_ARGV,
       minThreads: this.opts.keepWarm === true ? this.opts.threads : 0,
       maxThreads: this.opts.threads,
       idleTimeout: 30_000,

@@ -12,6 +12,7 @@
 import { EventEmitter } from 'node:events';
 import { MessageChannel, type MessagePort } from 'node:worker_threads';
 import { Piscina } from 'piscina';
+import { WORKER_EXEC_ARGV } from '../workers/exec-argv.ts';
 import { InputError } from '../../shared/errors.ts';
 import type { RunRequest } from '../../shared/schema/run.ts';
 import type { RunRecord, RunStatus, Store } from '../store/types.ts';
@@ -133,7 +134,7 @@ export class RunJobs {
     if (this.pool) return this.pool;
     const pool = new Piscina({
       filename: this.workerFile,
-      execArgv: ['--import', 'tsx'],
+      execArgv: WORKER_EXEC_ARGV,
       minThreads: 0,
       maxThreads: this.concurrency,
       idleTimeout: 60_000,

@@ -1,6 +1,7 @@
 import { fileURLToPath } from 'node:url';
 import { availableParallelism } from 'node:os';
 import { Piscina } from 'piscina';
+import { WORKER_EXEC_ARGV } from './exec-argv.ts';
 import { createGridRuntime, computeRows, addStats, type GridPlan, type GridRuntime, type RowStats } from '../../shared/interp/gridKernel.ts';
 import type { RowFiller } from '../../shared/products/heat-flow-surface.ts';
 
@@ -29,7 +30,7 @@ export default function fillRows(task: RowTask): RowStats {
 export function createInterpPool(threads = Math.min(2, availableParallelism())): Piscina {
   return new Piscina({
     filename: fileURLToPath(import.meta.url),
-    execArgv: ['--import', 'tsx'],
+    execArgv: WORKER_EXEC_ARGV,
     minThreads: threads,
     maxThreads: threads,
   });

@@ -5,6 +5,7 @@
 //  3. Ellipsoidal cell area against geographiclib-geodesic's polygon area (the reference library), same process.
 import { fileURLToPath } from 'node:url';
 import Piscina from 'piscina';
+import { WORKER_EXEC_ARGV } from '../../server/workers/exec-argv.ts';
 import geodesic from 'geographiclib-geodesic';
 import { createStream } from '../../shared/random/index.ts';
 import { gridRowAreasM2, lonLatCellAreaM2 } from '../../shared/geodesy/index.ts';
@@ -104,7 +105,7 @@ const spec: ResourceSpec = {
   const out = allocateResourceOutput(prep, true);
   const pool = new Piscina({
     filename: fileURLToPath(new URL('./resource-worker.ts', import.meta.url)),
-    execArgv: ['--import', 'tsx'],
+    execArgv: WORKER_EXEC_ARGV,
     minThreads: 2,
     maxThreads: 2,
   });

@@ -4,6 +4,7 @@
 //  2. Monte Carlo, 200 realizations × 250,000 cells, two isotherms, on two worker threads (piscina).
 import { fileURLToPath } from 'node:url';
 import Piscina from 'piscina';
+import { WORKER_EXEC_ARGV } from '../../server/workers/exec-argv.ts';
 import { createStream } from '../../shared/random/index.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
 import { allocateGridMonteCarloOutput, compileModel, geothermGrid, nominalModel, type GridMonteCarloSpec } from '../../shared/thermal/index.ts';
@@ -126,7 +127,7 @@ process.stdout.write(
   const mcOut = allocateGridMonteCarloOutput(cells, 2, 0, true);
   const pool = new Piscina({
     filename: fileURLToPath(new URL('./thermal-worker.ts', import.meta.url)),
-    execArgv: ['--import', 'tsx'],
+    execArgv: WORKER_EXEC_ARGV,
     minThreads: 2,
     maxThreads: 2,
   });
