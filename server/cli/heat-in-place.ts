@@ -3,12 +3,12 @@
  * in rock at or above a minimum temperature, with recoverable heat and electric power by the available-work
  * (exergy) route, optionally a Monte Carlo range, and CSV/HTML reports (shared/resource/assess.ts).
  *
- * JSON output: the report object of shared/resource/assess.ts. Every total is { nominal, p10, p50, p90, mean }:
- * nominal is the deterministic run; without --realizations the percentiles and mean are null.
+ * JSON output: the report object of shared/resource/assess.ts. Every total is { nominal, p10, p50, p90, mean, sd,
+ * meanMinusNominal }: the mean of the realizations is the central value, nominal the deterministic run beside it;
+ * without --realizations all but nominal are null.
  */
 import { createHash } from 'node:crypto';
 import { readFile, writeFile } from 'node:fs/promises';
-import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
 import {
@@ -36,6 +36,7 @@ import { interpolateGrid } from '../../shared/interp/interpolate.ts';
 import { WGS84_DEF } from '../../shared/interp/projection.ts';
 import { SIMULATION_STREAM_OFFSET, simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
 import { assessOnGrid } from '../io/resource-output.ts';
+import { renderText } from './heat-in-place-text.ts';
 
 const HELP =
   `subtherm heat-in-place (--heat-flow G.tif | --points P.geojson --realizations N) --model M.json [options] [--json]
@@ -44,7 +45,8 @@ Volumetric heat in place and electric power (screening estimate).
   --heat-flow FILE          surface heat-flow GeoTIFF, mW/m²
   --heat-flow-sd FILE       its standard deviation GeoTIFF (e.g. the kriging sd), mW/m² (deprecated: use --points)
   --points FILE             heat-flow sites instead of --heat-flow: N conditional simulations of heat flow on the grid
-                            below; the totals' P10/P50/P90 come from the per-realization sums, nominal from kriging;
+                            below; the totals' mean (the central value) and P10/P50/P90 come from the per-realization
+                            sums, the deterministic (nominal) value beside them from kriging;
                             the fields are a web run's for the same sites, grid, options and seed
   --points-crs EPSG:nnnn    CRS of a points CSV's x,y (easting,northing) columns
 ` +
@@ -359,36 +361,4 @@ async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed:
     },
     warnings: [...warnings, ...sim.warnings.map((w) => `heat-flow simulation: ${w}`), ...kr.warnings.map((w) => `kriged grid: ${w}`)],
   };
-}
-
-function f(v: number | null, digits = 4): string {
-  return v === null ? '—' : Math.abs(v) >= 1e6 || (Math.abs(v) < 1e-2 && v !== 0) ? v.toExponential(3) : v.toPrecision(digits);
-}
-
-function renderText(r: HeatInPlaceReport, files: Record<string, string>): string {
-  const row = (label: string, t: { nominal: number | null; p10: number | null; p50: number | null; p90: number | null }) =>
-    `  ${label.padEnd(44)} ${f(t.nominal).padStart(11)}  ${r.monteCarlo ? `P10 ${f(t.p10)}  P50 ${f(t.p50)}  P90 ${f(t.p90)}` : ''}`;
-  const lines = [
-    `Heat in place (${r.area === 'polygon' ? 'polygon' : 'whole grid'}): ${f(r.areaKm2)} km², ${r.cells} cells`,
-    `  ${''.padEnd(44)} ${'nominal'.padStart(11)}`,
-    row('heat in place (EJ)', r.heatInPlaceEJ),
-    row('recoverable heat (J)', r.recoverableJ),
-    row('thermal power, recoverable / life (MWt)', r.thermalMWt),
-    row('electric, exergy route (MWe)', r.electricMWe),
-  ];
-  if ((r.inputs as { conversionEfficiency: unknown }).conversionEfficiency !== null)
-    lines.push(row('electric, thermal × conversion (MWe)', r.electricMWeConversion));
-  lines.push(
-    row('mean reservoir temperature (°C)', r.meanReservoirTempC),
-    '',
-    `Route: ${r.method.routeLabel as string}`,
-    String(r.method.percentiles),
-    String(r.method.exceedance),
-  );
-  for (const z of r.totals.zones ?? [])
-    lines.push(`  zone ${z.zone}: ${f(z.areaKm2)} km², heat ${f(z.heatInPlaceEJ.nominal)} EJ, electric ${f(z.electricMWe.nominal)} MWe (nominal)`);
-  if (r.warnings.length) lines.push('', 'Warnings:', ...r.warnings.map((w) => `  - ${w}`));
-  for (const [k, p] of Object.entries(files)) lines.push(`wrote ${k}: ${p}`);
-  lines.push('', CAUTION, '');
-  return lines.join('\n');
 }

@@ -11,6 +11,7 @@ import { CAUTION } from '../../shared/caution.ts';
 import { writeGeoTiffFile } from '../io/geotiff.ts';
 import { geojsonText, sha256Hex } from '../io/export.ts';
 import { computeThermalProducts, type OverrideRegion } from '../../shared/products/thermal-products.ts';
+import type { ProductCentralValue } from '../../shared/products/central-values.ts';
 import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
 import { SIMULATION_OPTIONS } from './simulation-input.ts';
 import { readBytes, readGridGeoTiff, realizationsFromFile, sameGrid, simulateOnHeatFlowGrid } from './isotherm-inputs.ts';
@@ -31,7 +32,9 @@ const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a ther
                               the model's layers inside them
   --contour-interval-km K     depth-contour interval (default 1)
   --contour-interval-c C      temperature-contour interval (default: about 12 levels)
-  --realizations N --seed S   Monte Carlo → depth-<T>C.p10/.p50/.p90.tif
+  --realizations N --seed S   Monte Carlo → depth-<T>C.p10/.p50/.p90/.mean.tif and temperature-<d>km.p10/… .mean.tif
+                              (the mean of the realizations is the central value), and .mean-diff.tif: that mean
+                              minus the deterministic grid
   --heat-flow-error-correlation full|independent   (deprecated; default full) with --heat-flow-sd
   --points P.geojson|P.csv    instead of --heat-flow-sd: the realizations' heat flow is simulated conditionally from
                               these sites on the heat-flow grid (with --variogram, --anisotropy, --trend, --transform,
@@ -42,6 +45,21 @@ const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a ther
   --out-dir DIR               where the files go
   --json                      print one JSON object
 `;
+
+/** The central values as a text table: the mean of the realizations first, the deterministic map beside it. */
+export function centralValuesText(rows: ProductCentralValue[]): string {
+  const f = (v: number | null) => (v === null ? '—' : v.toFixed(3));
+  const lines = [
+    'central values over the grid (mean of the realizations; the deterministic map beside it, averaged over the same cells):',
+    `${'product'.padEnd(18)} ${'units'.padEnd(5)} ${'mean'.padStart(9)} ${'P50'.padStart(9)} ${'determ.'.padStart(9)} ${'mean−det.'.padStart(9)} ${'cells'.padStart(7)} ${'no mean'.padStart(7)}`,
+    ...rows.map(
+      (r) =>
+        `${r.product.padEnd(18)} ${r.units.padEnd(5)} ${f(r.mean).padStart(9)} ${f(r.p50).padStart(9)} ${f(r.deterministic).padStart(9)} ${f(r.difference).padStart(9)} ${String(r.cells).padStart(7)} ${String(r.cellsMeanUndefined).padStart(7)}`,
+    ),
+    '"no mean": cells where some realization does not reach the isotherm above the search depth (or lies below the melt onset): the mean is unbounded there and left NoData',
+  ];
+  return lines.join('\n') + '\n';
+}
 
 export async function isotherms(argv: string[]): Promise<number> {
   const { values: a } = parseVerbArgs('isotherms', argv, {
@@ -286,6 +304,7 @@ export async function isotherms(argv: string[]): Promise<number> {
       process.stdout.write(
         `${l.name.padEnd(24)} ${l.units.padEnd(6)} ${f(l.stats.min).padStart(9)} ${f(l.stats.median).padStart(9)} ${f(l.stats.max).padStart(9)} ${String(l.stats.noData).padStart(9)}\n`,
       );
+    if (products.monteCarlo !== null) process.stdout.write(`\n${centralValuesText(products.monteCarlo.centralValues)}`);
     process.stdout.write(`\ninconsistent cells: ${products.counts.inconsistent}; cells reaching the melt onset: ${products.counts.meltOnset}\n`);
     for (const w of summary.warnings) process.stdout.write(`warning: ${w}\n`);
     process.stdout.write(`\nfiles:\n${summary.files.map((p) => `  ${p}`).join('\n')}\n`);

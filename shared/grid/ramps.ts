@@ -18,6 +18,12 @@ export const DEPTH: Ramp = { name: 'depth', colors: ['#f6e8b8', '#e7a55a', '#c05
 /** "Haze": white → slate, for standard deviations and other uncertainties. */
 export const HAZE: Ramp = { name: 'haze', colors: ['#f7f7f4', '#cfd6dc', '#97a6b4', '#5f7284', '#33404e'] };
 
+/**
+ * "Balance": teal (negative) → pale grey (zero) → rust (positive). The one diverging ramp, for differences; its
+ * legend is symmetric about zero so the pale middle is 0. Lightness falls away from the middle on both sides.
+ */
+export const BALANCE: Ramp = { name: 'balance', colors: ['#1d5a63', '#5f9ea0', '#e9e7e1', '#d48a5a', '#8a3320'] };
+
 /** Index-mineral zones, chlorite → sillimanite: an ordinal ramp from sage to aubergine. */
 export const ZONE_COLORS: Record<string, string> = {
   chlorite: '#cfe3b4',

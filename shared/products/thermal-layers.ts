@@ -1,16 +1,16 @@
 /**
  * The layers of the thermal products: each grid with its title, units, legend, ramp, method text and contours —
- * depth to each isotherm (with its Monte Carlo P10/P50/P90 on the same legend), temperature at each depth, and the
- * limit layers (facies, base heat flow, solidus depth, melt onset, inconsistency flags). Assembled by
+ * depth to each isotherm and temperature at each depth (with a Monte Carlo: their P10/P50/P90 and mean over the
+ * realizations on the same legend, and the mean minus the deterministic map on a diverging legend), and the limit layers (facies, base heat flow, solidus depth, melt onset, inconsistency flags). Assembled by
  * `computeThermalProducts` (thermal-products.ts) from the filled grid buffers.
  */
 import type { Grid, GridSpec } from '../grid/grid.ts';
 import { contourGrid, niceContourInterval, type ContourCollection } from '../grid/contours.ts';
 import { rampLegend } from '../grid/colorize.ts';
 import type { Legend } from '../grid/legend.ts';
-import { DEPTH, EMBER, type Ramp } from '../grid/ramps.ts';
+import { BALANCE, DEPTH, EMBER, type Ramp } from '../grid/ramps.ts';
 import { productGrid, type ThermalGridBuffers } from './thermal-grids.ts';
-import type { uncertaintyResult } from './uncertainty.ts';
+import type { SummaryGrids, UncertaintyGrids } from './uncertainty.ts';
 import { faciesLegend } from './facies-grid.ts';
 import { layerStats, type LayerStats } from './stats.ts';
 import {
@@ -20,7 +20,7 @@ import {
   SOLIDUS_DEPTH,
   depthProductName,
   faciesProductName,
-  percentileProductName,
+  summaryProductName,
   temperatureProductName,
 } from './names.ts';
 import type { MonteCarloReport, ProductOptions } from './thermal-products.ts';
@@ -82,18 +82,86 @@ export interface LayerContext {
   add: (l: Omit<ProductLayer, 'stats'>) => void;
 }
 
-/** Depth-to-isotherm layers with their contours, and their P10/P50/P90 on the same legend. */
-export async function isothermLayers(
-  c: LayerContext,
-  mc: { pct: ReturnType<typeof uncertaintyResult>; report: MonteCarloReport } | null,
-  step: (message: string) => Promise<void>,
-): Promise<void> {
+/** The Monte Carlo pass as the layers read it. */
+export type MonteCarloGrids = { pct: UncertaintyGrids; report: MonteCarloReport };
+
+/** Symmetric legend about zero over the finite values (a flat or empty grid gets ±1). */
+function differenceLegend(units: string, values: Float32Array): Legend {
+  let m = 0;
+  for (let i = 0; i < values.length; i++) {
+    const v = Math.abs(values[i]);
+    if (v > m && v !== Infinity) m = v;
+  }
+  if (!(m > 0)) m = 1;
+  return rampLegend(BALANCE, units, -m, m);
+}
+
+/** Cell by cell: mean − deterministic where both are finite, else NaN. */
+export function meanMinusDeterministic(mean: Float32Array, det: Float32Array): Float32Array {
+  const out = new Float32Array(mean.length);
+  for (let i = 0; i < out.length; i++) {
+    const d = mean[i] - det[i];
+    out[i] = Number.isFinite(d) ? d : NaN;
+  }
+  return out;
+}
+
+/** What one product's summary layers need: its name, title, units, what it is in words, and the NoData rule of its mean. */
+interface SummarySubject {
+  product: string;
+  title: string;
+  units: string;
+  ramp: Ramp;
+  legend: Legend;
+  what: string;
+  notFinite: string;
+  deterministic: Float32Array;
+}
+
+/** P10, P50, P90 and mean of a product over the realizations (on the product's legend), and mean − deterministic. */
+function summaryLayers(c: LayerContext, mc: MonteCarloGrids, s: SummaryGrids, sub: SummarySubject): void {
+  const r = mc.report;
+  const over = `over ${r.realizations} Monte Carlo realizations (seed ${r.seed}; ${r.heatFlow})`;
+  for (const p of ['p10', 'p50', 'p90'] as const) {
+    c.add({
+      name: summaryProductName(sub.product, p),
+      title: `${sub.title}, ${p.toUpperCase()}`,
+      units: sub.units,
+      grid: productGrid(c.heatFlow, s[p], sub.units),
+      legend: sub.legend,
+      ramp: sub.ramp,
+      method: `${p.toUpperCase()} (Hyndman & Fan type 7) of the ${sub.what} ${over}; ${sub.notFinite}, NoData where the percentile falls there; ${c.method}`,
+    });
+  }
+  c.add({
+    name: summaryProductName(sub.product, 'mean'),
+    title: `${sub.title}, mean of the realizations`,
+    units: sub.units,
+    grid: productGrid(c.heatFlow, s.mean, sub.units),
+    legend: sub.legend,
+    ramp: sub.ramp,
+    method: `mean of the ${sub.what} ${over}, the central value of the Monte Carlo (invalid realizations left out); ${sub.notFinite}, so the mean is NoData in every cell where any valid realization has such a value; ${c.method}`,
+  });
+  const diff = meanMinusDeterministic(s.mean, sub.deterministic);
+  c.add({
+    name: summaryProductName(sub.product, 'mean-diff'),
+    title: `${sub.title}: mean of the realizations − deterministic map`,
+    units: sub.units,
+    grid: productGrid(c.heatFlow, diff, sub.units),
+    legend: differenceLegend(sub.units, diff),
+    ramp: BALANCE,
+    method: `the mean of the ${sub.what} ${over} minus the deterministic map (the interpolated heat flow with each model distribution at its central value); NoData where either is; ${c.method}`,
+  });
+}
+
+/** Depth-to-isotherm layers with their contours, and their P10/P50/P90, mean (same legend) and mean − deterministic. */
+export async function isothermLayers(c: LayerContext, mc: MonteCarloGrids | null, step: (message: string) => Promise<void>): Promise<void> {
   const { o, method, maxDepthKm } = c;
   for (let k = 0; k < o.isothermsC.length; k++) {
     const T = o.isothermsC[k];
     const g = productGrid(c.heatFlow, c.out.isothermDepthKm[k], 'km');
     const pk = mc?.pct.isotherms[k];
-    const legend = sharedRampLegend(DEPTH, 'km', pk ? [g.values, pk.p10, pk.p50, pk.p90] : [g.values]);
+    const legend = sharedRampLegend(DEPTH, 'km', pk ? [g.values, pk.p10, pk.p50, pk.p90, pk.mean] : [g.values]);
     const interval = o.contourIntervalKm === undefined ? 1 : o.contourIntervalKm;
     const contours = interval === null ? undefined : contourGrid(g, { interval, units: 'km', toLonLat: c.toLonLat });
     c.add({
@@ -106,31 +174,29 @@ export async function isothermLayers(
       method: `depth to the ${fmt(T)} °C isotherm (km below the surface; NoData where not reached above ${maxDepthKm} km), ${method}`,
       contours,
     });
-    if (pk && mc) {
-      const r = mc.report;
-      for (const p of ['p10', 'p50', 'p90'] as const) {
-        c.add({
-          name: percentileProductName(T, p),
-          title: `Depth to the ${fmt(T)} °C isotherm, ${p.toUpperCase()}`,
-          units: 'km',
-          grid: productGrid(c.heatFlow, pk[p], 'km'),
-          legend,
-          ramp: DEPTH,
-          method: `${p.toUpperCase()} (Hyndman & Fan type 7) of the depth to the ${fmt(T)} °C isotherm over ${r.realizations} Monte Carlo realizations (seed ${r.seed}; ${r.heatFlow}); not reached counts as deeper than any depth, NoData where the percentile falls there; ${method}`,
-        });
-      }
-    }
+    if (pk && mc)
+      summaryLayers(c, mc, pk, {
+        product: depthProductName(T),
+        title: `Depth to the ${fmt(T)} °C isotherm`,
+        units: 'km',
+        ramp: DEPTH,
+        legend,
+        what: `depth to the ${fmt(T)} °C isotherm`,
+        notFinite: `an isotherm not reached above ${maxDepthKm} km counts as deeper than any depth`,
+        deterministic: g.values,
+      });
     await step(`contours of ${depthProductName(T)}`);
   }
 }
 
-/** Temperature-at-depth layers with their contours. */
-export async function temperatureLayers(c: LayerContext, step: (message: string) => Promise<void>): Promise<void> {
+/** Temperature-at-depth layers with their contours, and with a Monte Carlo their summaries as for the isotherms. */
+export async function temperatureLayers(c: LayerContext, mc: MonteCarloGrids | null, step: (message: string) => Promise<void>): Promise<void> {
   const { o, method } = c;
   for (let k = 0; k < o.depthsKm.length; k++) {
     const d = o.depthsKm[k];
     const g = productGrid(c.heatFlow, c.out.temperatureC[k], '°C');
-    const legend = sharedRampLegend(EMBER, '°C', [g.values]);
+    const pk = mc?.pct.temperatures[k];
+    const legend = sharedRampLegend(EMBER, '°C', pk ? [g.values, pk.p10, pk.p50, pk.p90, pk.mean] : [g.values]);
     const st = layerStats(g.values);
     const interval =
       o.contourIntervalC === null ? null : (o.contourIntervalC ?? (st.min !== null && st.max !== null ? niceContourInterval(st.min, st.max) : null));
@@ -145,6 +211,17 @@ export async function temperatureLayers(c: LayerContext, step: (message: string)
       method: `temperature at ${fmt(d)} km below the surface, ${method}`,
       contours,
     });
+    if (pk && mc)
+      summaryLayers(c, mc, pk, {
+        product: temperatureProductName(d),
+        title: `Temperature at ${fmt(d)} km`,
+        units: '°C',
+        ramp: EMBER,
+        legend,
+        what: `temperature at ${fmt(d)} km`,
+        notFinite: 'a depth below the melt onset (no conductive temperature) counts as hotter than any temperature',
+        deterministic: g.values,
+      });
     await step(`contours of ${temperatureProductName(d)}`);
   }
 }

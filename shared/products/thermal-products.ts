@@ -18,7 +18,9 @@ import { allocateThermalGridBuffers, computeThermalGridRows, inconsistencyCounts
 import { allocateUncertaintyOutput, computeUncertaintyRows, prepareUncertainty, uncertaintyResult } from './uncertainty.ts';
 import { layerStats } from './stats.ts';
 import { INCONSISTENT, MELT_ONSET } from './names.ts';
-import { isothermLayers, limitLayers, temperatureLayers, type LayerContext, type ProductLayer } from './thermal-layers.ts';
+import { isothermLayers, limitLayers, temperatureLayers, type LayerContext, type MonteCarloGrids, type ProductLayer } from './thermal-layers.ts';
+import { productCentralValue, type ProductCentralValue } from './central-values.ts';
+import { depthProductName, temperatureProductName } from './names.ts';
 
 export type { OverrideRegion } from './overrides.ts';
 export { sharedRampLegend, type ProductLayer } from './thermal-layers.ts';
@@ -59,6 +61,11 @@ export interface MonteCarloReport {
   heatFlow: string;
   rejectedDraws: number;
   withHeatFlowSd: boolean;
+  /**
+   * Per isotherm, then per depth: the realizations' mean (the central value) and P50 averaged over the grid, beside
+   * the deterministic map's average over the same cells and the difference (central-values.ts).
+   */
+  centralValues: ProductCentralValue[];
 }
 
 export interface ThermalProductsResult {
@@ -163,8 +170,6 @@ function inconsistencyWarnings(counts: ReturnType<typeof inconsistencyCounts>, c
   return warnings;
 }
 
-type Percentiles = ReturnType<typeof uncertaintyResult>;
-
 /** The Monte Carlo percentiles of the isotherm depths in tiles of rows (null without realizations). */
 async function monteCarloPass(
   heatFlow: Grid<Float32Array>,
@@ -173,7 +178,7 @@ async function monteCarloPass(
   o: ProductOptions,
   tick: ProductTick,
   warnings: string[],
-): Promise<{ pct: Percentiles; report: MonteCarloReport } | null> {
+): Promise<(Omit<MonteCarloGrids, 'report'> & { report: Omit<MonteCarloReport, 'centralValues'> }) | null> {
   const N = o.realizations ?? 0;
   if (N <= 0) return null;
   const W = heatFlow.width,
@@ -191,12 +196,13 @@ async function monteCarloPass(
     models: z.zoneModels,
     zones: z.zones,
     isothermsC: o.isothermsC,
+    depthsKm: o.depthsKm,
     maxDepthKm: z.maxDepthKm,
     realizations: N,
     seed,
     heatFlowErrorCorrelation: corr,
   });
-  const mout = allocateUncertaintyOutput(W * H, o.isothermsC.length);
+  const mout = allocateUncertaintyOutput(W * H, o.isothermsC.length, o.depthsKm.length);
   // Tiles sized so one tile's Monte Carlo is about as long as a thermal tile × 50.
   const mtr = Math.max(1, Math.floor(tileRowsFor(W, o.tileRows) / Math.max(1, Math.ceil(N / 50))));
   for (let r = 0; r < H; r += mtr) {
@@ -270,8 +276,16 @@ export async function computeThermalProducts(
 
   // Monte Carlo percentiles (needed for the shared depth legends, so before the depth layers are assembled).
   const t2 = now();
-  const mc = await monteCarloPass(heatFlow, heatFlowSd, z, o, tick, warnings);
-  if (mc !== null) timingsMs.monteCarlo = now() - t2;
+  const pass = await monteCarloPass(heatFlow, heatFlowSd, z, o, tick, warnings);
+  let mc: MonteCarloGrids | null = null;
+  if (pass !== null) {
+    timingsMs.monteCarlo = now() - t2;
+    const centralValues = [
+      ...o.isothermsC.map((T, k) => productCentralValue(depthProductName(T), 'km', pass.pct.isotherms[k], out.isothermDepthKm[k], heatFlow.values)),
+      ...o.depthsKm.map((d, k) => productCentralValue(temperatureProductName(d), '°C', pass.pct.temperatures[k], out.temperatureC[k], heatFlow.values)),
+    ];
+    mc = { pct: pass.pct, report: { ...pass.report, centralValues } };
+  }
 
   const t3 = now();
   const layers: ProductLayer[] = [];
@@ -289,7 +303,7 @@ export async function computeThermalProducts(
   let contoursDone = 0;
   const step = (message: string) => Promise.resolve(tick('contours', ++contoursDone / contourJobs, message));
   await isothermLayers(c, mc, step);
-  await temperatureLayers(c, step);
+  await temperatureLayers(c, mc, step);
   timingsMs.contours = now() - t3;
   limitLayers(c, warnings);
   return { layers, counts, zoneModels: z.zoneModels, maxDepthKm: z.maxDepthKm, warnings, timingsMs, monteCarlo: mc?.report ?? null };

@@ -1,12 +1,15 @@
 /**
- * P10/P50/P90 grids of depth to each isotherm by Monte Carlo (DESIGN.md §3): per realization one draw of every
+ * P10/P50/P90 and mean grids of depth to each isotherm and of temperature at each depth by Monte Carlo (DESIGN.md
+ * §3): per realization one draw of every
  * uncertain model parameter (for the whole region, per zone model) and, where a heat-flow standard deviation grid
  * is given (e.g. the kriging sd), a perturbed heat flow q + sd·z with z one standard normal per realization for all
  * cells ("full" correlation, the default and the conservative choice) or one per cell ("independent"). Every
  * realization has its own PRNG stream seeded from (seed, realization index), and the per-cell normals of the
  * independent case are keyed by (seed, realization, cell), so results do not depend on tiling or worker count.
- * Percentiles are Hyndman & Fan type 7; an isotherm not reached counts as deeper than any depth, and a percentile
- * that falls there is NoData (NaN).
+ * Percentiles are Hyndman & Fan type 7; an isotherm not reached counts as deeper than any depth (a temperature below
+ * the melt onset as hotter than any), and a percentile that falls there is NoData (NaN). The mean of a cell is the
+ * plain mean of its valid realizations; it is NoData where any valid realization does not reach the isotherm (the
+ * depth is then unbounded and so is the mean): `finiteFraction` gives the share that do reach it.
  *
  * The sampling and summaries are the thermal engine's (prepareGridMonteCarlo, monteCarloGridRange); this module
  * streams them tile by tile (rows), so memory is the output grids plus one (realizations × block) buffer, never
@@ -24,6 +27,8 @@ export interface UncertaintySpec {
   models: ThermalModelInput[];
   zones?: Uint16Array;
   isothermsC: number[];
+  /** Depths for temperature summaries, km (default none). */
+  depthsKm?: number[];
   maxDepthKm: number;
   realizations: number;
   seed: number;
@@ -32,9 +37,20 @@ export interface UncertaintySpec {
   heatFlowRealizations?: Float32Array;
 }
 
+/** One quantity's summary grids: P10, P50, P90 and mean (NaN = NoData), and the share of valid realizations that are finite. */
+export interface SummaryGrids {
+  p10: Float32Array;
+  p50: Float32Array;
+  p90: Float32Array;
+  mean: Float32Array;
+  finiteFraction: Float32Array;
+}
+
 export interface UncertaintyGrids {
-  /** Per isotherm: p10, p50, p90 depth grids (km, NaN = NoData). */
-  isotherms: { p10: Float32Array; p50: Float32Array; p90: Float32Array }[];
+  /** Per isotherm: depth summaries (km). */
+  isotherms: SummaryGrids[];
+  /** Per depth: temperature summaries (°C). */
+  temperatures: SummaryGrids[];
   /** Fraction of realizations left out per cell (invalid column or physically impossible draw). */
   invalidFraction: Float32Array;
   /** Realizations whose parameter draw was physically impossible (per zone model, summed). */
@@ -60,17 +76,18 @@ export function prepareUncertainty(spec: UncertaintySpec): PreparedGridMonteCarl
     heatFlowErrorCorrelation: spec.heatFlowErrorCorrelation ?? 'full',
     heatFlowRealizationsMWm2: spec.heatFlowRealizations,
     isothermsC: spec.isothermsC,
-    depthsKm: [],
+    depthsKm: spec.depthsKm ?? [],
     maxDepthKm: spec.maxDepthKm,
     realizations: spec.realizations,
     seed: spec.seed,
   });
 }
 
-/** Allocates the whole-grid percentile buffers (NaN-filled). */
-export function allocateUncertaintyOutput(cells: number, nIso: number): GridMonteCarloOutput {
+/** Allocates the whole-grid summary buffers (NaN-filled). */
+export function allocateUncertaintyOutput(cells: number, nIso: number, nDep = 0): GridMonteCarloOutput {
   const f = () => new Float32Array(cells).fill(NaN);
-  return { isotherms: Array.from({ length: nIso }, () => ({ p10: f(), p50: f(), p90: f() })), temperatures: [], invalidFraction: f() };
+  const set = () => ({ p10: f(), p50: f(), p90: f(), mean: f(), finiteFraction: f() });
+  return { isotherms: Array.from({ length: nIso }, set), temperatures: Array.from({ length: nDep }, set), invalidFraction: f() };
 }
 
 /**
@@ -85,7 +102,7 @@ export function computeUncertaintyRows(prep: PreparedGridMonteCarlo, width: numb
 export function computeUncertainty(spec: UncertaintySpec, tileRows = 16, onTile?: (rowsDone: number) => void): UncertaintyGrids {
   const prep = prepareUncertainty(spec);
   const g = spec.heatFlow;
-  const out = allocateUncertaintyOutput(g.width * g.height, spec.isothermsC.length);
+  const out = allocateUncertaintyOutput(g.width * g.height, spec.isothermsC.length, spec.depthsKm?.length ?? 0);
   for (let r = 0; r < g.height; r += tileRows) {
     const r1 = Math.min(g.height, r + tileRows);
     computeUncertaintyRows(prep, g.width, r, r1, out);
@@ -98,8 +115,16 @@ export function computeUncertainty(spec: UncertaintySpec, tileRows = 16, onTile?
 export function uncertaintyResult(prep: PreparedGridMonteCarlo, out: GridMonteCarloOutput): UncertaintyGrids {
   let rejected = 0;
   for (const row of prep.compiled) for (const m of row) if (m === null) rejected++;
+  const grids = (s: GridMonteCarloOutput['isotherms'][number]): SummaryGrids => ({
+    p10: s.p10 as Float32Array,
+    p50: s.p50 as Float32Array,
+    p90: s.p90 as Float32Array,
+    mean: s.mean as Float32Array,
+    finiteFraction: s.finiteFraction as Float32Array,
+  });
   return {
-    isotherms: out.isotherms.map((s) => ({ p10: s.p10 as Float32Array, p50: s.p50 as Float32Array, p90: s.p90 as Float32Array })),
+    isotherms: out.isotherms.map(grids),
+    temperatures: out.temperatures.map(grids),
     invalidFraction: out.invalidFraction as Float32Array,
     rejectedDraws: rejected,
   };

@@ -85,7 +85,9 @@ export const PERCENTILE_CONVENTION =
   "p10, p50 and p90 are the 10th, 50th and 90th percentiles of the Monte Carlo realizations (Hyndman & Fan 1996 type 7, linear interpolation), so p10 ≤ p50 ≤ p90; a total's percentiles are those of its per-realization sums, never sums of cell percentiles";
 export const EXCEEDANCE_READING =
   'Exceedance reading: the low case p10 is exceeded in 90 % of realizations, which resource reporting often calls "P90"; the high case p90 is exceeded in 10 % (often called "P10")';
-export const NO_REALIZATIONS_NOTE = 'without realizations the percentiles and mean are null and "nominal" holds the deterministic value';
+export const NO_REALIZATIONS_NOTE = 'without realizations the percentiles, mean and sd are null and "nominal" holds the deterministic value';
+export const CENTRAL_VALUE_NOTE =
+  'the central value of a total is the mean (and p50) of its realizations; "nominal" is the deterministic run, shown beside it with meanMinusNominal = mean − nominal (not zero where the total is not linear in heat flow, e.g. through the Tmin threshold); sd is the sample standard deviation of the realizations';
 
 function sameLayout(a: AnyGrid, b: AnyGrid): boolean {
   const close = (x: number, y: number, s: number) => Math.abs(x - y) <= 1e-9 * Math.max(1, Math.abs(s));
@@ -271,6 +273,7 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
     percentiles: PERCENTILE_CONVENTION,
     exceedance: EXCEEDANCE_READING,
     noRealizations: NO_REALIZATIONS_NOTE,
+    centralValue: CENTRAL_VALUE_NOTE,
     nominal:
       'nominal = the deterministic run: the model with each distribution at its central value (normal/truncated-normal mean, uniform midpoint, triangular mode), the kriged heat flow, and the central value of each parameter; it need not equal p50',
     densityUnits: 'per-cell densities: heat in place PJ/km², electric power (exergy route) MWe/km²',

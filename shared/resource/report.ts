@@ -37,14 +37,15 @@ export function reportCsv(r: HeatInPlaceReport): string {
     comment(r.method.exceedance as string),
     comment(r.method.noRealizations as string),
   ];
-  lines.push('area,quantity,units,cells,area_km2,nominal,p10,p50,p90,mean');
+  lines.push(comment(r.method.centralValue as string));
+  lines.push('area,quantity,units,cells,area_km2,nominal,p10,p50,p90,mean,sd,mean_minus_nominal');
   const areas: [string, AreaTotals][] = [['grid', r.totals.grid]];
   if (r.totals.polygon !== null) areas.push([`polygon${r.totals.polygon.label !== null ? `: ${r.totals.polygon.label}` : ''}`, r.totals.polygon]);
   for (const z of r.totals.zones ?? []) areas.push([`zone: ${z.zone}`, z]);
   for (const [name, t] of areas) {
     for (const [key, label, units] of QUANTITIES) {
       const v = t[key] as TotalValue;
-      lines.push([name, label, units, t.cells, t.areaKm2, v.nominal, v.p10, v.p50, v.p90, v.mean].map(csvField).join(','));
+      lines.push([name, label, units, t.cells, t.areaKm2, v.nominal, v.p10, v.p50, v.p90, v.mean, v.sd, v.meanMinusNominal].map(csvField).join(','));
     }
   }
   return lines.join('\n') + '\n';

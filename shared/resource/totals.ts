@@ -2,18 +2,27 @@
  * Area totals of a heat-in-place run: from each area set's per-realization sums (monte-carlo.ts) to heat in place,
  * recoverable heat, thermal power and electric power by each route, and their P10/P50/P90 (Hyndman & Fan 1996
  * type 7 over the accepted realizations). A total's percentiles are those of its per-realization totals, never sums
- * of cell percentiles. The nominal value (nominal model, kriged heat flow, nominal parameters) is given beside them.
+ * of cell percentiles. The central value is the mean (and P50) of the realizations; the nominal value (the
+ * deterministic run: nominal model, kriged heat flow, nominal parameters) is given beside it with the difference
+ * mean − nominal, which is not zero where the total is not linear in heat flow (e.g. through the Tmin threshold).
  */
 import { quantileSorted } from '../stats/quantile.ts';
 import type { PreparedResource, SetSums } from './monte-carlo.ts';
 
-/** A total: the nominal (deterministic) value and, with realizations, its percentiles and mean; null = not computed. */
+/**
+ * A total: with realizations its mean (the central value), percentiles and sample sd; the nominal (deterministic)
+ * value beside them and mean − nominal; null = not computed.
+ */
 export interface TotalValue {
   nominal: number | null;
   p10: number | null;
   p50: number | null;
   p90: number | null;
   mean: number | null;
+  /** Sample standard deviation of the realizations (n − 1). */
+  sd: number | null;
+  /** mean − nominal. */
+  meanMinusNominal: number | null;
 }
 
 export interface AreaTotals {
@@ -44,15 +53,20 @@ const fin = (v: number): number | null => (Number.isFinite(v) ? v : null);
 export function totalValue(values: Float64Array, nominal: number): TotalValue {
   const a = values.filter((v) => v === v).sort();
   const n = a.length;
-  if (n === 0) return { nominal: fin(nominal), p10: null, p50: null, p90: null, mean: null };
+  if (n === 0) return { nominal: fin(nominal), p10: null, p50: null, p90: null, mean: null, sd: null, meanMinusNominal: null };
   let s = 0;
   for (let i = 0; i < n; i++) s += a[i];
+  const mean = s / n;
+  let ss = 0;
+  for (let i = 0; i < n; i++) ss += (a[i] - mean) ** 2;
   return {
     nominal: fin(nominal),
     p10: fin(quantileSorted(a, 0, n, 0.1)),
     p50: fin(quantileSorted(a, 0, n, 0.5)),
     p90: fin(quantileSorted(a, 0, n, 0.9)),
-    mean: fin(s / n),
+    mean: fin(mean),
+    sd: n > 1 ? fin(Math.sqrt(ss / (n - 1))) : null,
+    meanMinusNominal: fin(mean - nominal),
   };
 }
 

@@ -168,6 +168,24 @@ export const inconsistencyCountsSchema = z.strictObject({
   noData: z.number().int().min(0),
 });
 
+/**
+ * A product's central values over the grid (shared/products/central-values.ts): the realizations' per-cell mean
+ * (the central value) and P50 averaged over the cells where they and the deterministic map are defined, the
+ * deterministic map's average over the same cells, and mean − deterministic; units those of the product.
+ */
+export const productCentralValueSchema = z.strictObject({
+  product: z.string(),
+  units: z.string(),
+  cells: z.number().int().min(0),
+  /** Cells with heat flow where the mean is NoData: some valid realization does not reach the isotherm (or is past the melt onset). */
+  cellsMeanUndefined: z.number().int().min(0),
+  cellsDeterministicUndefined: z.number().int().min(0),
+  mean: finiteOrNull,
+  p50: finiteOrNull,
+  deterministic: finiteOrNull,
+  difference: finiteOrNull,
+});
+
 /** The Monte Carlo percentile pass of a run (null when the run asked for no realizations). */
 export const monteCarloSummarySchema = z.strictObject({
   realizations: z.number().int().min(1),
@@ -179,6 +197,8 @@ export const monteCarloSummarySchema = z.strictObject({
   /** Model draws that were physically impossible and left out of the percentiles. */
   rejectedDraws: z.number().int().min(0),
   withHeatFlowSd: z.boolean(),
+  /** Per isotherm, then per depth: the central value (mean of the realizations) beside the deterministic map (absent in older runs). */
+  centralValues: z.array(productCentralValueSchema).optional(),
   /** The conditional simulation of the heat-flow fields (server/runs/heat-flow-simulation.ts). */
   heatFlowSimulation: z
     .strictObject({

@@ -124,11 +124,20 @@ describe('the run pipeline on the demo data', () => {
       'depth-300C.p10',
       'depth-300C.p50',
       'depth-300C.p90',
+      'depth-300C.mean',
+      'depth-300C.mean-diff',
       'depth-500C',
       'depth-500C.p10',
       'depth-500C.p50',
       'depth-500C.p90',
+      'depth-500C.mean',
+      'depth-500C.mean-diff',
       'temperature-5km',
+      'temperature-5km.p10',
+      'temperature-5km.p50',
+      'temperature-5km.p90',
+      'temperature-5km.mean',
+      'temperature-5km.mean-diff',
       'facies-12km',
       'base-heat-flow',
       'solidus-depth',
@@ -158,6 +167,17 @@ describe('the run pipeline on the demo data', () => {
     expect(st('heat-flow').noData).toBeGreaterThan(0); // masked outside the outline
     expect(byName['facies-12km'].info.legend!.type).toBe('classes');
     expect(byName['depth-300C'].info.legend).toMatchObject({ type: 'ramp', units: 'km' });
+    // The mean of the realizations shares the depth legend; its difference from the deterministic map has a legend
+    // symmetric about 0; the summary gives the central values beside the deterministic map's.
+    expect(byName['depth-300C.mean'].info.legend).toEqual(byName['depth-300C'].info.legend);
+    const dl = byName['depth-300C.mean-diff'].info.legend as { min: number; max: number };
+    expect(dl.min).toBe(-dl.max);
+    const cv = res.summary.monteCarlo!.centralValues!;
+    expect(cv.map((v) => v.product)).toEqual(['depth-300C', 'depth-500C', 'temperature-5km']);
+    for (const v of cv) {
+      expect(v.cells).toBeGreaterThan(100);
+      expect(v.difference!).toBeCloseTo(v.mean! - v.deterministic!, 9);
+    }
     // Progress: real stages, never decreasing, ending at 1.
     expect(progress.length).toBeGreaterThan(10);
     for (let i = 1; i < progress.length; i++) expect(progress[i].fraction).toBeGreaterThanOrEqual(progress[i - 1].fraction);

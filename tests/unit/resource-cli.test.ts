@@ -114,7 +114,7 @@ describe('subtherm heat-in-place', () => {
     expect(j.monteCarlo.realizations).toBe(40);
     const text = readFileSync(csv, 'utf8');
     expect(text.split('\n')[0]).toBe(`# caution: ${CAUTION}`);
-    expect(text).toMatch(/^area,quantity,units,cells,area_km2,nominal,p10,p50,p90,mean$/m);
+    expect(text).toMatch(/^area,quantity,units,cells,area_km2,nominal,p10,p50,p90,mean,sd,mean_minus_nominal$/m);
     const page = readFileSync(html, 'utf8');
     expect(page).toContain('data:image/png;base64,');
     expect(page).toContain('&lt;b&gt;Rift&lt;/b&gt; &amp; &quot;block&quot;');

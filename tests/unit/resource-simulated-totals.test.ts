@@ -159,7 +159,7 @@ describe('heat-in-place --points: totals from conditional simulations', () => {
     );
     // Total (EJ) = ρC·(b² − t²)/(2k)·A·q̄ with q in W/m², depths in m.
     const K = (((RHOC_MJ * 1e6 * ((BOTTOM_KM * 1e3) ** 2 - (TOP_KM * 1e3) ** 2)) / (2 * K_WMK)) * Atot * 1e-3) / 1e18;
-    const t = rep.heatInPlaceEJ as { p10: number; p50: number; p90: number; mean: number; nominal: number };
+    const t = rep.heatInPlaceEJ as { p10: number; p50: number; p90: number; mean: number; nominal: number; sd: number; meanMinusNominal: number };
     expect(rep.cells).toBe(NX * NY);
     expect(Math.abs((rep.areaKm2 as number) * 1e6 - Atot) / Atot).toBeLessThan(1e-4);
     // Standard errors over R realizations: mean σ/√R; a quantile σ·√(p(1 − p)/R)/φ(z_p) (Stuart & Ord 1994, §10.10),
@@ -170,6 +170,14 @@ describe('heat-in-place --points: totals from conditional simulations', () => {
     expect(Math.abs(t.p50 - K * mean)).toBeLessThan(se(1.253));
     expect(Math.abs(t.p10 - K * (mean - Z90 * sd))).toBeLessThan(se(1.709));
     expect(Math.abs(t.p90 - K * (mean + Z90 * sd))).toBeLessThan(se(1.709));
+    // The sample sd of the totals is K·σ_B (standard error σ/√(2(R − 1)) for Gaussian samples).
+    expect(Math.abs(t.sd - s)).toBeLessThan((4 * s) / Math.sqrt(2 * (R - 1)));
+    // The deterministic total runs the kriged map: by linearity its area-weighted mean is the block-kriging mean
+    // (the distances differ only between geodesics here and the project's own metric). Linear in q, the total's
+    // mean then equals the deterministic value within the mean's standard error: mean − nominal ≈ 0.
+    expect(Math.abs(t.nominal - K * mean) / (K * mean)).toBeLessThan(1e-3);
+    expect(t.meanMinusNominal).toBeCloseTo(t.mean - t.nominal, 9);
+    expect(Math.abs(t.meanMinusNominal)).toBeLessThan(se(1) + 1e-3 * K * mean);
     // The spread of the total is the block's, far narrower than a common shift by each cell's point sd would give.
     expect((t.p90 - t.p10) / (2 * Z90 * K)).toBeLessThan(Math.sqrt(SILL));
     // The sampler of a web run (circulant embedding on a lattice of the grid's spacing; sites snap to the nearest
