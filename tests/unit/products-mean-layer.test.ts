@@ -215,7 +215,7 @@ describe('the mean of the realizations as the central value, beside the determin
     }
     const tcv = centralValues.find((v) => v.product === `temperature-${DEPTH_KM}km`)!;
     expect(Math.abs(tcv.difference)).toBeLessThan((4.5 * slope * Math.sqrt(2 * SILL)) / Math.sqrt(R));
-  }, 120_000);
+  }, 600_000);
 
   it('leaves the mean NoData where some realizations do not reach the isotherm above the search depth, and counts those cells', async () => {
     const { centralValues } = await runIsotherms();
@@ -241,7 +241,7 @@ describe('the mean of the realizations as the central value, beside the determin
     expect(undefinedCells).toBeGreaterThan(0);
     expect(cv.cellsMeanUndefined).toBe(undefinedCells);
     expect(cv.cells).toBe(W * H - undefinedCells);
-  }, 120_000);
+  }, 600_000);
 });
 
 /** Complementary error function (Abramowitz & Stegun 7.1.26, |error| < 1.5e-7; docs/sources.md#normal-distribution). */
