@@ -226,36 +226,41 @@ export function checkThermalModel(m: ThermalModelInput): InputProblem[] {
     positive(i, 'potassiumPct', l.potassiumPct, true);
     positive(i, 'heatProductionDecayKm', l.heatProductionDecayKm, false);
     positive(i, 'densityKgM3', l.densityKgM3, false);
-    const radio = l.uraniumPpm !== undefined || l.thoriumPpm !== undefined || l.potassiumPct !== undefined;
-    const allRadio = l.uraniumPpm !== undefined && l.thoriumPpm !== undefined && l.potassiumPct !== undefined;
-    if (l.heatProductionUWm3 === undefined && !radio)
-      out.push({ feature: where(i), field: 'heatProductionUWm3', problem: 'missing: give heatProductionUWm3, or uraniumPpm + thoriumPpm + potassiumPct' });
-    if (l.heatProductionUWm3 !== undefined && radio)
-      out.push({ feature: where(i), field: 'heatProductionUWm3', problem: 'give either heatProductionUWm3 or radioelement contents, not both' });
-    if (l.heatProductionUWm3 === undefined && radio && !allRadio) {
-      const missing = (['uraniumPpm', 'thoriumPpm', 'potassiumPct'] as const).filter((f) => l[f] === undefined);
-      out.push({
-        feature: where(i),
-        field: missing.join(', '),
-        problem: 'missing: radioelement heat production needs all of uraniumPpm, thoriumPpm, potassiumPct',
-      });
-    }
-    // 1 + bT must stay > 0 at the surface temperature already (deeper layers are checked once T is known).
-    const b = support(l.conductivityTempCoeffPerK);
-    const t0 = support(m.surfaceTemperatureC);
-    if (b && t0) {
-      for (const bv of b)
-        for (const tv of t0) {
-          if (Number.isFinite(bv) && Number.isFinite(tv) && !(1 + bv * tv > 0)) {
-            out.push({
-              feature: where(i),
-              field: 'conductivityTempCoeffPerK',
-              problem: `1 + b·T ≤ 0 at T = ${tv} °C with b = ${bv}: k(T) = k0/(1 + bT) undefined`,
-            });
-          }
-        }
-    }
+    out.push(...heatProductionProblems(l, where(i)), ...conductivityCoefficientProblems(l, m.surfaceTemperatureC, where(i)));
   });
+  return out;
+}
+
+type LayerInput = ThermalModelInput['layers'][number];
+
+/** A layer's heat production: given as heatProductionUWm3 or as all three radioelement contents, never both. */
+function heatProductionProblems(l: LayerInput, feature: string): InputProblem[] {
+  const out: InputProblem[] = [];
+  const radio = l.uraniumPpm !== undefined || l.thoriumPpm !== undefined || l.potassiumPct !== undefined;
+  const allRadio = l.uraniumPpm !== undefined && l.thoriumPpm !== undefined && l.potassiumPct !== undefined;
+  if (l.heatProductionUWm3 === undefined && !radio)
+    out.push({ feature, field: 'heatProductionUWm3', problem: 'missing: give heatProductionUWm3, or uraniumPpm + thoriumPpm + potassiumPct' });
+  if (l.heatProductionUWm3 !== undefined && radio)
+    out.push({ feature, field: 'heatProductionUWm3', problem: 'give either heatProductionUWm3 or radioelement contents, not both' });
+  if (l.heatProductionUWm3 === undefined && radio && !allRadio) {
+    const missing = (['uraniumPpm', 'thoriumPpm', 'potassiumPct'] as const).filter((f) => l[f] === undefined);
+    out.push({ feature, field: missing.join(', '), problem: 'missing: radioelement heat production needs all of uraniumPpm, thoriumPpm, potassiumPct' });
+  }
+  return out;
+}
+
+/** 1 + bT must stay > 0 at the surface temperature already (deeper layers are checked once T is known). */
+function conductivityCoefficientProblems(l: LayerInput, surfaceTemperatureC: Num, feature: string): InputProblem[] {
+  const out: InputProblem[] = [];
+  const b = support(l.conductivityTempCoeffPerK);
+  const t0 = support(surfaceTemperatureC);
+  if (!b || !t0) return out;
+  for (const bv of b)
+    for (const tv of t0) {
+      if (Number.isFinite(bv) && Number.isFinite(tv) && !(1 + bv * tv > 0)) {
+        out.push({ feature, field: 'conductivityTempCoeffPerK', problem: `1 + b·T ≤ 0 at T = ${tv} °C with b = ${bv}: k(T) = k0/(1 + bT) undefined` });
+      }
+    }
   return out;
 }
 

@@ -111,9 +111,24 @@ function hasTimes(m: MeasurementInput): boolean {
 export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOptions): CorrectionResult {
   const tol = opts.hornerToleranceM ?? HORNER_DEPTH_TOLERANCE_M;
   if (!(tol >= 0)) throw new RangeError('hornerToleranceM must be ≥ 0 (m)');
-  const flags: WellFlag[] = [];
-  const horner: HornerGroup[] = [];
-  const points: CorrectedPoint[] = [];
+  const out: Corrected = { points: [], horner: [], flags: [], handled: new Set<number>() };
+  const duplicateOf = duplicateRows(ms, out.flags);
+  for (const g of bhtDepthGroups(ms, duplicateOf, tol)) if (g.length >= 3) hornerGroup(ms, g, opts, out);
+  ms.forEach((m, i) => {
+    if (!out.handled.has(i)) out.points.push(singlePoint(m, i, duplicateOf[i] >= 0, opts));
+  });
+  out.points.sort((a, b) => a.depthM - b.depthM || a.sources[0] - b.sources[0]);
+  flagSameDepth(out.points, out.flags);
+  return { points: out.points, horner: out.horner, flags: out.flags };
+}
+
+/** What the correction builds up: the points, the Horner groups, the well's flags and the measurements already used. */
+interface Corrected extends CorrectionResult {
+  handled: Set<number>;
+}
+
+/** For each measurement, the index of the earlier row it repeats exactly (−1 when none); flags the repeats. */
+function duplicateRows(ms: MeasurementInput[], flags: WellFlag[]): Int32Array {
   const duplicateOf = new Int32Array(ms.length).fill(-1);
   const key = (m: MeasurementInput) => `${m.kind}|${m.depthM}|${m.temperatureC}|${m.hoursSinceCirculation ?? ''}|${m.circulationHours ?? ''}`;
   const firstByKey = new Map<string, number>();
@@ -129,8 +144,11 @@ export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOpti
       code: 'duplicate-row',
       message: `measurement${dups.length === 1 ? '' : 's'} ${dups.join(', ')} repeat an earlier row exactly and are left out of the fit`,
     });
+  return duplicateOf;
+}
 
-  // BHT depth groups (duplicates excluded).
+/** BHT depth groups (duplicates excluded): indices by depth, each group spanning at most tol m from its shallowest. */
+function bhtDepthGroups(ms: MeasurementInput[], duplicateOf: Int32Array, tol: number): number[][] {
   const bhts = ms
     .map((_, i) => i)
     .filter((i) => ms[i].kind === 'bht' && duplicateOf[i] < 0)
@@ -141,121 +159,113 @@ export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOpti
     if (g && ms[i].depthM - ms[g[0]].depthM <= tol) g.push(i);
     else groups.push([i]);
   }
-  const handled = new Set<number>();
-  for (const g of groups) {
-    if (g.length < 3) continue;
-    const timed = g.filter((i) => hasTimes(ms[i]));
-    const xs = new Set(
-      timed.map((i) => Math.log10(((ms[i].circulationHours as number) + (ms[i].hoursSinceCirculation as number)) / (ms[i].hoursSinceCirculation as number))),
-    );
-    const depthLabel = `${Math.round(ms[g[0]].depthM)}–${Math.round(ms[g[g.length - 1]].depthM)} m`;
-    if (timed.length < 3 || xs.size < 3) {
-      const missing = g
-        .filter((i) => !hasTimes(ms[i]))
-        .map((i) => `${i} (${ms[i].circulationHours === undefined ? 'circulationHours' : 'hoursSinceCirculation'})`);
-      flags.push({
-        code: 'horner-times-missing',
-        message: `${g.length} BHTs at ${depthLabel} could be Horner-corrected but ${missing.length > 0 ? `measurements ${missing.join(', ')} lack times` : 'their times give fewer than three distinct Horner abscissae'}; the ${opts.bht.method} correction was used instead`,
-      });
-      continue;
-    }
-    const fit = hornerFit(
-      timed.map((i) => ms[i].circulationHours as number),
-      timed.map((i) => ms[i].hoursSinceCirculation as number),
-      timed.map((i) => ms[i].temperatureC),
-    );
-    const depthM = timed.reduce((s, i) => s + ms[i].depthM, 0) / timed.length;
-    if (fit === null || !(fit.slopeC > 0)) {
-      horner.push({
-        depthM,
-        sources: timed,
-        temperatureC: fit?.temperatureC ?? NaN,
-        seTemperatureC: fit?.seTemperatureC ?? NaN,
-        slopeC: fit?.slopeC ?? NaN,
-        accepted: false,
-        reason: 'the BHTs do not rise with time since circulation (Horner slope ≤ 0)',
-      });
-      flags.push({
-        code: 'horner-rejected',
-        message: `Horner fit at ${depthLabel} rejected: the BHTs do not rise with time since circulation; the ${opts.bht.method} correction was used instead`,
-      });
-      continue;
-    }
-    const se = Number.isFinite(fit.seTemperatureC) ? fit.seTemperatureC : 0;
-    horner.push({ depthM, sources: timed, temperatureC: fit.temperatureC, seTemperatureC: fit.seTemperatureC, slopeC: fit.slopeC, accepted: true });
-    const raw = Math.max(...timed.map((i) => ms[i].temperatureC));
-    const pFlags: string[] = [];
-    if (fit.temperatureC - raw > 50) pFlags.push('horner-large-extrapolation');
-    points.push({
-      sources: timed,
-      depthM,
-      rawTemperatureC: raw,
-      temperatureC: fit.temperatureC,
-      sdC: Math.hypot(se, DEFAULT_SD_C.hornerFloor),
-      kind: 'bht',
-      method: 'horner',
-      flags: pFlags,
-      used: true,
-    });
-    if (pFlags.length > 0)
-      flags.push({
-        code: 'horner-large-extrapolation',
-        message: `Horner T∞ at ${depthLabel} is ${(fit.temperatureC - raw).toFixed(1)} °C above the warmest BHT`,
-      });
-    for (const i of timed) handled.add(i);
-    for (const i of g) {
-      if (handled.has(i)) continue;
-      handled.add(i);
-      const m = ms[i];
-      points.push({
-        sources: [i],
-        depthM: m.depthM,
-        rawTemperatureC: m.temperatureC,
-        temperatureC: m.temperatureC,
-        sdC: DEFAULT_SD_C.bhtNone,
-        kind: 'bht',
-        method: 'none',
-        flags: ['superseded-by-horner'],
-        used: false,
-      });
-    }
-  }
+  return groups;
+}
 
-  ms.forEach((m, i) => {
-    if (handled.has(i)) return;
-    const dup = duplicateOf[i] >= 0;
-    if (m.kind === 'bht') {
-      const c = correctBht(m.depthM, m.temperatureC, opts.bht, {
-        hoursSinceCirculation: m.hoursSinceCirculation,
-        surfaceTemperatureC: opts.surfaceTemperatureC,
-      });
-      points.push({
-        sources: [i],
-        depthM: m.depthM,
-        rawTemperatureC: m.temperatureC,
-        temperatureC: c.temperatureC,
-        sdC: c.sdC,
-        kind: 'bht',
-        method: c.method,
-        flags: dup ? ['duplicate-row'] : c.flags,
-        used: !dup,
-      });
-    } else {
-      points.push({
-        sources: [i],
-        depthM: m.depthM,
-        rawTemperatureC: m.temperatureC,
-        temperatureC: m.temperatureC,
-        sdC: m.kind === 'log' ? DEFAULT_SD_C.log : DEFAULT_SD_C.test,
-        kind: m.kind,
-        method: 'equilibrium',
-        flags: dup ? ['duplicate-row'] : [],
-        used: !dup,
-      });
-    }
+/**
+ * One depth group of three or more BHTs: its Horner point when the times allow a fit with a positive slope (the
+ * group's untimed BHTs kept as superseded), else a flag saying why the user's correction is used instead.
+ */
+function hornerGroup(ms: MeasurementInput[], g: number[], opts: CorrectionOptions, out: Corrected): void {
+  const { points, horner, flags, handled } = out;
+  const timed = g.filter((i) => hasTimes(ms[i]));
+  const xs = new Set(
+    timed.map((i) => Math.log10(((ms[i].circulationHours as number) + (ms[i].hoursSinceCirculation as number)) / (ms[i].hoursSinceCirculation as number))),
+  );
+  const depthLabel = `${Math.round(ms[g[0]].depthM)}–${Math.round(ms[g[g.length - 1]].depthM)} m`;
+  if (timed.length < 3 || xs.size < 3) {
+    const missing = g
+      .filter((i) => !hasTimes(ms[i]))
+      .map((i) => `${i} (${ms[i].circulationHours === undefined ? 'circulationHours' : 'hoursSinceCirculation'})`);
+    flags.push({
+      code: 'horner-times-missing',
+      message: `${g.length} BHTs at ${depthLabel} could be Horner-corrected but ${missing.length > 0 ? `measurements ${missing.join(', ')} lack times` : 'their times give fewer than three distinct Horner abscissae'}; the ${opts.bht.method} correction was used instead`,
+    });
+    return;
+  }
+  const fit = hornerFit(
+    timed.map((i) => ms[i].circulationHours as number),
+    timed.map((i) => ms[i].hoursSinceCirculation as number),
+    timed.map((i) => ms[i].temperatureC),
+  );
+  const depthM = timed.reduce((s, i) => s + ms[i].depthM, 0) / timed.length;
+  if (fit === null || !(fit.slopeC > 0)) {
+    horner.push({
+      depthM,
+      sources: timed,
+      temperatureC: fit?.temperatureC ?? NaN,
+      seTemperatureC: fit?.seTemperatureC ?? NaN,
+      slopeC: fit?.slopeC ?? NaN,
+      accepted: false,
+      reason: 'the BHTs do not rise with time since circulation (Horner slope ≤ 0)',
+    });
+    flags.push({
+      code: 'horner-rejected',
+      message: `Horner fit at ${depthLabel} rejected: the BHTs do not rise with time since circulation; the ${opts.bht.method} correction was used instead`,
+    });
+    return;
+  }
+  const se = Number.isFinite(fit.seTemperatureC) ? fit.seTemperatureC : 0;
+  horner.push({ depthM, sources: timed, temperatureC: fit.temperatureC, seTemperatureC: fit.seTemperatureC, slopeC: fit.slopeC, accepted: true });
+  const raw = Math.max(...timed.map((i) => ms[i].temperatureC));
+  const pFlags: string[] = [];
+  if (fit.temperatureC - raw > 50) pFlags.push('horner-large-extrapolation');
+  points.push({
+    sources: timed,
+    depthM,
+    rawTemperatureC: raw,
+    temperatureC: fit.temperatureC,
+    sdC: Math.hypot(se, DEFAULT_SD_C.hornerFloor),
+    kind: 'bht',
+    method: 'horner',
+    flags: pFlags,
+    used: true,
   });
-  points.sort((a, b) => a.depthM - b.depthM || a.sources[0] - b.sources[0]);
-  // Repeated readings at one depth (within SAME_DEPTH_M) are kept (they weigh in the fit) but flagged.
+  if (pFlags.length > 0)
+    flags.push({
+      code: 'horner-large-extrapolation',
+      message: `Horner T∞ at ${depthLabel} is ${(fit.temperatureC - raw).toFixed(1)} °C above the warmest BHT`,
+    });
+  for (const i of timed) handled.add(i);
+  for (const i of g) {
+    if (handled.has(i)) continue;
+    handled.add(i);
+    const m = ms[i];
+    points.push({
+      sources: [i],
+      depthM: m.depthM,
+      rawTemperatureC: m.temperatureC,
+      temperatureC: m.temperatureC,
+      sdC: DEFAULT_SD_C.bhtNone,
+      kind: 'bht',
+      method: 'none',
+      flags: ['superseded-by-horner'],
+      used: false,
+    });
+  }
+}
+
+/** A measurement on its own: a BHT with the user's correction, a log or test as a formation temperature. */
+function singlePoint(m: MeasurementInput, i: number, dup: boolean, opts: CorrectionOptions): CorrectedPoint {
+  const c =
+    m.kind === 'bht'
+      ? correctBht(m.depthM, m.temperatureC, opts.bht, { hoursSinceCirculation: m.hoursSinceCirculation, surfaceTemperatureC: opts.surfaceTemperatureC })
+      : { temperatureC: m.temperatureC, sdC: m.kind === 'log' ? DEFAULT_SD_C.log : DEFAULT_SD_C.test, method: 'equilibrium' as const, flags: [] };
+  return {
+    sources: [i],
+    depthM: m.depthM,
+    rawTemperatureC: m.temperatureC,
+    temperatureC: c.temperatureC,
+    sdC: c.sdC,
+    kind: m.kind,
+    method: c.method,
+    flags: dup ? ['duplicate-row'] : c.flags,
+    used: !dup,
+  };
+}
+
+/** Repeated readings at one depth (within SAME_DEPTH_M) are kept (they weigh in the fit) but flagged. */
+function flagSameDepth(points: CorrectedPoint[], flags: WellFlag[]): void {
   let sameDepth = 0;
   for (let a = 0; a < points.length; a++) {
     if (!points[a].used) continue;
@@ -273,5 +283,4 @@ export function correctMeasurements(ms: MeasurementInput[], opts: CorrectionOpti
       code: 'duplicate-depth',
       message: `${sameDepth} corrected points share a depth (within ${SAME_DEPTH_M} m) with another; all are kept in the fit`,
     });
-  return { points, horner, flags };
 }

@@ -1,4 +1,4 @@
-import { fitLine } from './linear-fit.ts';
+import { fitLine, type LineFit } from './linear-fit.ts';
 import type { CorrectedPoint, WellFlag } from './types.ts';
 
 /** Default σ (°C) of the surface-temperature anchor: the ground surface is commonly 1–3 °C warmer than the mean
@@ -78,41 +78,13 @@ export function fitGradient(points: CorrectedPoint[], opts: GradientOptions = {}
     sd[a] = anchorSd;
     include[a] = 1;
   }
-  const flags: WellFlag[] = [];
-  if (ts !== undefined && Number.isFinite(ts)) {
-    const cold = points.filter((p) => p.used && p.depthM > 0 && p.temperatureC < ts);
-    for (const p of cold) if (!p.flags.includes('below-surface-temperature')) p.flags.push('below-surface-temperature');
-    if (cold.length > 0)
-      flags.push({
-        code: 'below-surface-temperature',
-        message: `${cold.length} corrected temperature${cold.length === 1 ? ' is' : 's are'} below the surface temperature ${ts} °C (at ${cold.map((p) => `${p.depthM} m`).join(', ')})`,
-      });
-  }
+  const flags: WellFlag[] = ts !== undefined && Number.isFinite(ts) ? flagCold(points, ts) : [];
   let fit = fitLine(x, y, sd, 'birge', include);
   if (fit === null) return null;
-  const used = () => include.reduce((s, v) => s + v, 0);
-  if (used() >= MIN_POINTS_FOR_OUTLIER_TEST) {
-    const out: number[] = [];
-    for (let i = 0; i < a; i++) if (include[i] === 1 && Math.abs(fit.standardized[i]) > OUTLIER_THRESHOLD) out.push(i);
-    if (out.length > 0) {
-      const exclude = opts.outliers === 'exclude' && used() - out.length >= 2;
-      for (const i of out) {
-        points[i].flags.push(exclude ? 'outlier-excluded' : 'outlier');
-        if (exclude) {
-          points[i].used = false;
-          include[i] = 0;
-        }
-      }
-      flags.push({
-        code: exclude ? 'outlier-excluded' : 'outlier',
-        message: `${out.length} point${out.length === 1 ? '' : 's'} with |standardized residual| > ${OUTLIER_THRESHOLD} (at ${out.map((i) => `${points[i].depthM} m`).join(', ')})${exclude ? ', left out of the refit' : ', kept in the fit'}`,
-      });
-      if (exclude) {
-        const refit = fitLine(x, y, sd, 'birge', include);
-        if (refit === null) return null;
-        fit = refit;
-      }
-    }
+  if (include.reduce((s, v) => s + v, 0) >= MIN_POINTS_FOR_OUTLIER_TEST) {
+    const refit = screenOutliers(points, { x, y, sd, include }, fit, opts.outliers === 'exclude', flags);
+    if (refit === null) return null;
+    fit = refit;
     if (anchored && Math.abs(fit.standardized[a]) > OUTLIER_THRESHOLD) {
       flags.push({
         code: 'anchor-misfit',
@@ -154,4 +126,48 @@ export function fitGradient(points: CorrectedPoint[], opts: GradientOptions = {}
     anchorStandardized: anchored ? fit.standardized[a] : NaN,
     flags,
   };
+}
+
+/** Flags used points deeper than the surface whose corrected temperature is below the surface temperature ts (°C). */
+function flagCold(points: CorrectedPoint[], ts: number): WellFlag[] {
+  const cold = points.filter((p) => p.used && p.depthM > 0 && p.temperatureC < ts);
+  for (const p of cold) if (!p.flags.includes('below-surface-temperature')) p.flags.push('below-surface-temperature');
+  if (cold.length === 0) return [];
+  return [
+    {
+      code: 'below-surface-temperature',
+      message: `${cold.length} corrected temperature${cold.length === 1 ? ' is' : 's are'} below the surface temperature ${ts} °C (at ${cold.map((p) => `${p.depthM} m`).join(', ')})`,
+    },
+  ];
+}
+
+/**
+ * Flags the measured points (the first points.length of the line's data) whose studentized residual exceeds
+ * OUTLIER_THRESHOLD; with `exclude` (and two points left) leaves them out and refits. Returns the fit to keep (null
+ * when the refit has no line); pushes the well's flag onto `flags`.
+ */
+function screenOutliers(
+  points: CorrectedPoint[],
+  line: { x: Float64Array; y: Float64Array; sd: Float64Array; include: Uint8Array },
+  fit: LineFit,
+  excludeOutliers: boolean,
+  flags: WellFlag[],
+): LineFit | null {
+  const { x, y, sd, include } = line;
+  const out: number[] = [];
+  for (let i = 0; i < points.length; i++) if (include[i] === 1 && Math.abs(fit.standardized[i]) > OUTLIER_THRESHOLD) out.push(i);
+  if (out.length === 0) return fit;
+  const exclude = excludeOutliers && include.reduce((s, v) => s + v, 0) - out.length >= 2;
+  for (const i of out) {
+    points[i].flags.push(exclude ? 'outlier-excluded' : 'outlier');
+    if (exclude) {
+      points[i].used = false;
+      include[i] = 0;
+    }
+  }
+  flags.push({
+    code: exclude ? 'outlier-excluded' : 'outlier',
+    message: `${out.length} point${out.length === 1 ? '' : 's'} with |standardized residual| > ${OUTLIER_THRESHOLD} (at ${out.map((i) => `${points[i].depthM} m`).join(', ')})${exclude ? ', left out of the refit' : ', kept in the fit'}`,
+  });
+  return exclude ? fitLine(x, y, sd, 'birge', include) : fit;
 }

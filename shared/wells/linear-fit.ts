@@ -49,23 +49,9 @@ export function fitLine(
 ): LineFit | null {
   const n = x.length;
   if (y.length !== n || sd.length !== n) throw new RangeError('fitLine: x, y and sd must have the same length');
-  let sw = 0;
-  let swx = 0;
-  let swy = 0;
-  let used = 0;
-  for (let i = 0; i < n; i++) {
-    if (include && include[i] !== 1) continue;
-    const s = sd[i];
-    if (!(s > 0) || !Number.isFinite(x[i]) || !Number.isFinite(y[i])) throw new RangeError(`fitLine: point ${i} needs finite x, y and σ > 0`);
-    const w = 1 / (s * s);
-    sw += w;
-    swx += w * x[i];
-    swy += w * y[i];
-    used++;
-  }
-  if (used < 2) return null;
-  const xm = swx / sw;
-  const ym = swy / sw;
+  const m = weightedMeans(x, y, sd, include);
+  if (m.used < 2) return null;
+  const { sw, xm, ym, used } = m;
   let sxx = 0;
   let sxy = 0;
   for (let i = 0; i < n; i++) {
@@ -95,8 +81,51 @@ export function fitLine(
   // Unscaled covariance about the weighted mean: var(b) = 1/Sxx, var(a) = 1/Sw + xm²/Sxx, cov = −xm/Sxx.
   const varB = 1 / sxx;
   const varA = 1 / sw + (xm * xm) / sxx;
-  const standardized = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
+  return {
+    intercept,
+    slope,
+    seIntercept: Math.sqrt(varA * f),
+    seSlope: Math.sqrt(varB * f),
+    covInterceptSlope: (-xm / sxx) * f,
+    chi2,
+    dof,
+    residuals,
+    standardized: studentized(x, sd, residuals, { sw, xm, sxx }, include),
+  };
+}
+
+/** Σw, the weighted means of x and y (w = 1/σ²) and the number of points in the fit; checks each point used. */
+function weightedMeans(x: ArrayLike<number>, y: ArrayLike<number>, sd: ArrayLike<number>, include?: ArrayLike<number>) {
+  let sw = 0;
+  let swx = 0;
+  let swy = 0;
+  let used = 0;
+  for (let i = 0; i < x.length; i++) {
+    if (include && include[i] !== 1) continue;
+    const s = sd[i];
+    if (!(s > 0) || !Number.isFinite(x[i]) || !Number.isFinite(y[i])) throw new RangeError(`fitLine: point ${i} needs finite x, y and σ > 0`);
+    const w = 1 / (s * s);
+    sw += w;
+    swx += w * x[i];
+    swy += w * y[i];
+    used++;
+  }
+  return { sw, xm: swx / sw, ym: swy / sw, used };
+}
+
+/**
+ * Studentized residuals with the weighted hat-matrix leverage hᵢᵢ = wᵢ·(1/Σw + (xᵢ − x̄)²/Sxx): rᵢ/(σᵢ·√(1 − hᵢᵢ))
+ * for a point in the fit, the prediction residual rᵢ/(σᵢ·√(1 + hᵢᵢ)) for a point left out.
+ */
+function studentized(
+  x: ArrayLike<number>,
+  sd: ArrayLike<number>,
+  residuals: Float64Array,
+  { sw, xm, sxx }: { sw: number; xm: number; sxx: number },
+  include?: ArrayLike<number>,
+): Float64Array {
+  const standardized = new Float64Array(x.length);
+  for (let i = 0; i < x.length; i++) {
     const inFit = !include || include[i] === 1;
     const w = 1 / (sd[i] * sd[i]);
     const dx = x[i] - xm;
@@ -109,15 +138,5 @@ export function fitLine(
     // 1 − h below 1e-9: the point fixes the line (e.g. two points); its residual is zero by construction.
     standardized[i] = 1 - h > 1e-9 ? residuals[i] / (sd[i] * Math.sqrt(1 - h)) : NaN;
   }
-  return {
-    intercept,
-    slope,
-    seIntercept: Math.sqrt(varA * f),
-    seSlope: Math.sqrt(varB * f),
-    covInterceptSlope: (-xm / sxx) * f,
-    chi2,
-    dof,
-    residuals,
-    standardized,
-  };
+  return standardized;
 }

@@ -61,77 +61,43 @@ export function fitSurfaceHeatFlow(
   const use = points.filter((p) => p.used && Number.isFinite(p.temperatureC) && p.sdC > 0);
   const nUnknown = anchorC === undefined ? 2 : 1;
   if (use.length < nUnknown) return null;
-  const z = Float64Array.from(use, (p) => p.depthM / 1000);
-  const w = Float64Array.from(use, (p) => 1 / (p.sdC * p.sdC));
   const n = use.length;
-  const t = new Float64Array(n),
-    tp = new Float64Array(n),
-    tm = new Float64Array(n);
+  const sys: LinearisedSystem = {
+    geotherm,
+    z: Float64Array.from(use, (p) => p.depthM / 1000),
+    w: Float64Array.from(use, (p) => 1 / (p.sdC * p.sdC)),
+    obs: Float64Array.from(use, (p) => p.temperatureC),
+    t: new Float64Array(n),
+    anchored: anchorC !== undefined,
+  };
   let q = start.q0 > 0 ? start.q0 : 60,
     t0 = anchorC ?? start.t0;
-  const dq = 1e-3,
-    dt = 1e-3;
   let it = 0,
-    jtwj = [0, 0, 0];
+    ne: NormalEquations = { a11: 0, a12: 0, a22: 0, b1: 0, b2: 0 };
   for (; it < 50; it++) {
-    geotherm(z, q, t0, t);
-    geotherm(z, q + dq, t0, tp);
-    geotherm(z, q - dq, t0, tm);
-    // Normal equations of the linearised problem (J columns: ∂T/∂q0, ∂T/∂T0).
-    let a11 = 0,
-      a12 = 0,
-      a22 = 0,
-      b1 = 0,
-      b2 = 0;
-    const jt = new Float64Array(n);
-    if (anchorC === undefined) {
-      const tt = new Float64Array(n);
-      geotherm(z, q, t0 + dt, tt);
-      for (let i = 0; i < n; i++) jt[i] = (tt[i] - t[i]) / dt;
-    }
-    for (let i = 0; i < n; i++) {
-      const r = use[i].temperatureC - t[i];
-      const jq = (tp[i] - tm[i]) / (2 * dq);
-      if (!Number.isFinite(r) || !Number.isFinite(jq)) continue;
-      a11 += w[i] * jq * jq;
-      b1 += w[i] * jq * r;
-      if (anchorC === undefined) {
-        a12 += w[i] * jq * jt[i];
-        a22 += w[i] * jt[i] * jt[i];
-        b2 += w[i] * jt[i] * r;
-      }
-    }
-    jtwj = [a11, a12, a22];
-    let sq: number,
-      st0 = 0;
-    if (anchorC === undefined) {
-      const det = a11 * a22 - a12 * a12;
-      if (!(det > 0)) return null;
-      sq = (a22 * b1 - a12 * b2) / det;
-      st0 = (a11 * b2 - a12 * b1) / det;
-    } else {
-      if (!(a11 > 0)) return null;
-      sq = b1 / a11;
-    }
+    ne = normalEquations(sys, q, t0);
+    const step = solveStep(ne, sys.anchored);
+    if (step === null) return null;
+    let sq = step.sq;
     // Keep q0 positive: halve a step that would cross zero.
     while (q + sq <= 0) sq /= 2;
     q += sq;
-    t0 += st0;
-    if (Math.abs(sq) < 1e-9 && Math.abs(st0) < 1e-9) break;
+    t0 += step.st0;
+    if (Math.abs(sq) < 1e-9 && Math.abs(step.st0) < 1e-9) break;
   }
-  geotherm(z, q, t0, t);
+  geotherm(sys.z, q, t0, sys.t);
   let chi2 = 0,
     s2 = 0,
     m = 0;
   for (let i = 0; i < n; i++) {
-    const r = use[i].temperatureC - t[i];
+    const r = sys.obs[i] - sys.t[i];
     if (!Number.isFinite(r)) continue;
-    chi2 += w[i] * r * r;
+    chi2 += sys.w[i] * r * r;
     s2 += r * r;
     m++;
   }
   if (m < nUnknown) return null;
-  const [a11, a12, a22] = jtwj;
+  const { a11, a12, a22 } = ne;
   const varQ = anchorC === undefined ? a22 / (a11 * a22 - a12 * a12) : 1 / a11;
   const dof = m - nUnknown;
   const red = dof > 0 ? chi2 / dof : 1;
@@ -145,4 +111,64 @@ export function fitSurfaceHeatFlow(
     iterations: it + 1,
     method: `weighted least squares of the temperatures on the model geotherm T(z; q0${anchorC === undefined ? ', T0' : ''}) (closed-form layered conduction with the model's k(T) and A(z)), Gauss–Newton`,
   };
+}
+
+/** The fit's data: depths (km), weights 1/σ², observed temperatures, a buffer for the model's, and whether T0 is fixed. */
+interface LinearisedSystem {
+  geotherm: ModelGeotherm;
+  z: Float64Array;
+  w: Float64Array;
+  obs: Float64Array;
+  t: Float64Array;
+  anchored: boolean;
+}
+
+/** JᵀWJ (a11, a12, a22) and JᵀWr (b1, b2) of the linearised problem, J's columns ∂T/∂q0 and ∂T/∂T0. */
+interface NormalEquations {
+  a11: number;
+  a12: number;
+  a22: number;
+  b1: number;
+  b2: number;
+}
+
+/** Normal equations at (q0, T0), with ∂T/∂q0 by central and ∂T/∂T0 by forward differences (steps 1e-3). */
+function normalEquations(sys: LinearisedSystem, q: number, t0: number): NormalEquations {
+  const { geotherm, z, w, obs, t, anchored } = sys;
+  const n = z.length;
+  const dq = 1e-3,
+    dt = 1e-3;
+  const tp = new Float64Array(n),
+    tm = new Float64Array(n),
+    jt = new Float64Array(n);
+  geotherm(z, q, t0, t);
+  geotherm(z, q + dq, t0, tp);
+  geotherm(z, q - dq, t0, tm);
+  if (!anchored) {
+    const tt = new Float64Array(n);
+    geotherm(z, q, t0 + dt, tt);
+    for (let i = 0; i < n; i++) jt[i] = (tt[i] - t[i]) / dt;
+  }
+  const ne: NormalEquations = { a11: 0, a12: 0, a22: 0, b1: 0, b2: 0 };
+  for (let i = 0; i < n; i++) {
+    const r = obs[i] - t[i];
+    const jq = (tp[i] - tm[i]) / (2 * dq);
+    if (!Number.isFinite(r) || !Number.isFinite(jq)) continue;
+    ne.a11 += w[i] * jq * jq;
+    ne.b1 += w[i] * jq * r;
+    if (!anchored) {
+      ne.a12 += w[i] * jq * jt[i];
+      ne.a22 += w[i] * jt[i] * jt[i];
+      ne.b2 += w[i] * jt[i] * r;
+    }
+  }
+  return ne;
+}
+
+/** The Gauss–Newton step (Δq0, ΔT0) from the normal equations; null when they are singular. */
+function solveStep({ a11, a12, a22, b1, b2 }: NormalEquations, anchored: boolean): { sq: number; st0: number } | null {
+  if (anchored) return a11 > 0 ? { sq: b1 / a11, st0: 0 } : null;
+  const det = a11 * a22 - a12 * a12;
+  if (!(det > 0)) return null;
+  return { sq: (a22 * b1 - a12 * b2) / det, st0: (a11 * b2 - a12 * b1) / det };
 }

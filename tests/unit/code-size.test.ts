@@ -51,7 +51,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/schema/features.ts parsePointCsv', // 117
   'shared/schema/interp.ts pointsFromGeoJson', // 113
   'shared/schema/interp.ts pointsFromCsv', // 84
-  'shared/schema/model.ts checkThermalModel', // 90
   'shared/structure/fault-report.ts faultReport', // 371
   'shared/structure/grade.ts sampleGrades', // 123
   'shared/structure/grade.ts sampleGrades/(anonymous)', // 100
@@ -60,12 +59,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/structure/isolines.ts traceIsolines', // 102
   'shared/structure/layer.ts isogradLayer', // 166
   'shared/wells/analyze.ts analyzeWell', // 302
-  'shared/wells/checks.ts readWells', // 99
-  'shared/wells/checks.ts readWells/(anonymous)', // 84
-  'shared/wells/correction.ts correctMeasurements', // 167
-  'shared/wells/gradient.ts fitGradient', // 100
-  'shared/wells/linear-fit.ts fitLine', // 81
-  'shared/wells/surface-heat-flow.ts fitSurfaceHeatFlow', // 94
   'client/src/data.ts uploadPanel', // 99
   'client/src/model.ts modelEditor', // 81
 ];
