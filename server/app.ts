@@ -24,7 +24,7 @@ import { gridTileRoutes } from './routes/grid-tiles.ts';
 import { resourceRoutes } from './routes/resource.ts';
 import { staticClientRoutes } from './routes/static-client.ts';
 import { GeoTiffFile } from './io/geotiff.ts';
-import { LayerFiles } from './io/layer-files.ts';
+import { StoredBlobSource } from './store/blob-source.ts';
 
 export interface AppOptions {
   store: Store;
@@ -88,16 +88,19 @@ function useGuards(app: Hono, limits: Limits, accessLog: ((line: string) => void
   app.use('/api/*', bodySizeGuard(limits));
 }
 
-/** Raster-dem tiles of a run's raster layers, read window by window from a local copy of the layer's stored COG. */
-function mountGridTiles(app: Hono, store: Store, layerFiles: LayerFiles, publicBaseUrl: string | null): void {
+/**
+ * Raster-dem tiles of a run's raster layers, read window by window from the layer's stored COG: by byte range from
+ * the store (its header once, then the compressed tiles a map tile samples), so any server process serves any layer.
+ */
+function mountGridTiles(app: Hono, store: Store, publicBaseUrl: string | null): void {
   app.route(
     '/api',
     gridTileRoutes({
       publicBaseUrl,
       openLayerFile: async (runId, layer) => {
-        const file = await store.getRunFile(runId, layer, 'tif');
+        const file = await store.findRunFile(runId, layer, 'tif');
         if (!file) return null;
-        return GeoTiffFile.open(await layerFiles.path(file.hash, file.bytes));
+        return GeoTiffFile.openSource(new StoredBlobSource(store, file.hash, file.size), `${runId}/${layer}.tif`);
       },
     }),
   );
@@ -130,7 +133,6 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunQueue; limits: Li
   const trustedProxies = parseTrustedProxies((opts.trustedProxies ?? []).join(',') || process.env.SUBTHERM_TRUSTED_PROXIES);
   const ctx: AppContext = { store: opts.store, limits, jobs, grids: new RunGridCache(opts.store), workerFile, compute, heatJobs, trustedProxies };
   const publicBase = publicBaseOf(opts);
-  const layerFiles = new LayerFiles();
 
   useGuards(app, limits, accessLogOf(opts));
   const stopHealth = healthRoutes(app, ctx);
@@ -143,7 +145,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunQueue; limits: Li
   projectDatasetRoutes(app, ctx);
   heatFlowCorrectionRoutes(app, ctx);
   uncertaintyRoutes(app, ctx);
-  mountGridTiles(app, opts.store, layerFiles, publicBase);
+  mountGridTiles(app, opts.store, publicBase);
   resourceRoutes(app, ctx);
   app.all('/api/*', (c) => c.json(errorBody('not_found', `no such API route: ${c.req.method} ${new URL(c.req.url).pathname}`), 404));
   staticClientRoutes(app, opts.clientDir);
@@ -156,7 +158,7 @@ export function createApp(opts: AppOptions): Hono & { jobs: RunQueue; limits: Li
   /** Stops the run pool, the compute pools and the event-loop monitor. */
   const close = async () => {
     stopHealth();
-    await Promise.all([jobs.close(), closeComputePools(compute), layerFiles.close()]);
+    await Promise.all([jobs.close(), closeComputePools(compute)]);
   };
   return Object.assign(app, { jobs, limits, close, ready });
 }

@@ -1,4 +1,4 @@
-import { fromArrayBuffer, fromFile } from 'geotiff';
+import { GeoTIFF, fromArrayBuffer, fromFile } from 'geotiff';
 import type { Grid } from '../../shared/grid/grid.ts';
 import { checkSpec } from '../../shared/grid/grid.ts';
 import { CAUTION } from '../../shared/caution.ts';
@@ -274,6 +274,13 @@ export async function readGeoTiff(buffer: ArrayBuffer | Uint8Array, opts: { band
   return { grid: { ...h.spec, values, units: h.units }, description: h.description, caution: h.caution, metadata: h.metadata, bands: h.bands };
 }
 
+/** What a byte-range source gives geotiff.js: the bytes of each slice, and the whole file's size. */
+export interface RangeSource {
+  fetch(slices: { offset: number; length: number }[]): Promise<ArrayBuffer[]>;
+  readonly fileSize: number | null;
+  close(): Promise<void>;
+}
+
 /** One resolution of a file: the full grid (level 0) or an internal overview, with its georeferencing. */
 export interface GeoTiffLevel {
   width: number;
@@ -309,10 +316,22 @@ export class GeoTiffFile {
   }
 
   static async open(path: string, opts: { band?: number } = {}): Promise<GeoTiffFile> {
+    return GeoTiffFile.from(() => fromFile(path), path, opts);
+  }
+
+  /**
+   * Opens a GeoTIFF through a byte-range source (geotiff.js's source protocol: `fetch(slices)` and `fileSize`), such
+   * as a stored blob read chunk by chunk; `name` labels errors.
+   */
+  static async openSource(source: RangeSource, name: string, opts: { band?: number } = {}): Promise<GeoTiffFile> {
+    return GeoTiffFile.from(() => GeoTIFF.fromSource(source as unknown as Parameters<typeof GeoTIFF.fromSource>[0]), name, opts);
+  }
+
+  private static async from(make: () => Promise<Tiff>, path: string, opts: { band?: number }): Promise<GeoTiffFile> {
     const images: Image[] = [];
     let tiff: Tiff;
     try {
-      tiff = await fromFile(path);
+      tiff = await make();
       const n = await tiff.getImageCount();
       for (let i = 0; i < n; i++) images.push(await tiff.getImage(i));
     } catch (e) {

@@ -69,6 +69,21 @@ export const PG_MIGRATIONS: { name: string; sql: string }[] = [
      ALTER TABLE runs ADD COLUMN owner TEXT;
      CREATE TABLE servers (id TEXT PRIMARY KEY, started_at TIMESTAMPTZ NOT NULL DEFAULT now(), seen_at TIMESTAMPTZ NOT NULL DEFAULT now());`,
   },
+  {
+    // Blobs in chunks of 16 KiB (BLOB_CHUNK_BYTES), so a reader takes only the chunks a byte range covers (a map tile
+    // reads its COG's header and the tiles it samples). EXTERNAL: kept out of line uncompressed (COG tiles are
+    // compressed already). Existing blobs are cut into chunks here.
+    name: 'blobs in chunks',
+    sql: `
+     CREATE TABLE blob_chunks (
+       hash TEXT NOT NULL REFERENCES blobs(hash), idx INTEGER NOT NULL, bytes BYTEA NOT NULL, PRIMARY KEY (hash, idx)
+     );
+     ALTER TABLE blob_chunks ALTER COLUMN bytes SET STORAGE EXTERNAL;
+     INSERT INTO blob_chunks (hash, idx, bytes)
+       SELECT b.hash, i, substring(b.bytes FROM i * 16384 + 1 FOR 16384)
+       FROM blobs b, generate_series(0, (b.size - 1) / 16384) AS i WHERE b.size > 0;
+     ALTER TABLE blobs DROP COLUMN bytes;`,
+  },
 ];
 
 /** Runs the migrations not yet recorded, each in its own transaction, under a lock so two servers never race. */

@@ -4,7 +4,8 @@
  * covers (a tile of a large grid without the whole grid).
  */
 import type pg from 'pg';
-import { sha256Hex } from './sqlite.ts';
+import { sha256Hex } from './ids.ts';
+import { blobChunks } from './sql-store.ts';
 import { float32Of, runPatchColumns, type RunPatch } from './rows.ts';
 import type { StoredGridMeta } from './types.ts';
 
@@ -14,13 +15,15 @@ export type Client = pg.PoolClient | pg.Pool;
 /** Rows of a grid kept per chunk: bands of at most this many bytes (whole rows). */
 const BAND_BYTES = 256 * 1024;
 
-export async function putBlobWith(c: Client, bytes: Uint8Array): Promise<string> {
+/** Stores a blob once, in chunks, inside the caller's transaction (a blob already stored under its hash is kept). */
+export async function putBlobWith(c: pg.PoolClient, bytes: Uint8Array): Promise<string> {
   const hash = sha256Hex(bytes);
-  await c.query('INSERT INTO blobs (hash, size, bytes) VALUES ($1, $2, $3) ON CONFLICT (hash) DO NOTHING', [
-    hash,
-    bytes.byteLength,
-    Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength),
-  ]);
+  const added = await c.query('INSERT INTO blobs (hash, size) VALUES ($1, $2) ON CONFLICT (hash) DO NOTHING', [hash, bytes.byteLength]);
+  if ((added.rowCount ?? 0) > 0 && bytes.byteLength > 0)
+    await c.query('INSERT INTO blob_chunks (hash, idx, bytes) SELECT $1, t.i - 1, t.b FROM unnest($2::bytea[]) WITH ORDINALITY AS t(b, i)', [
+      hash,
+      blobChunks(bytes),
+    ]);
   return hash;
 }
 

@@ -6,21 +6,10 @@
 import pg from 'pg';
 import { migratePostgres } from './postgres-schema.ts';
 import { putBlobWith, putGridWith, putRunFileWith, readGridRows, updateRunWith } from './postgres-writes.ts';
-import type {
-  DatasetRecord,
-  ProjectDatasetRecord,
-  ProjectRecord,
-  ProjectRunInfo,
-  ProjectTerrainRecord,
-  RevisionInfo,
-  RunRecord,
-  RunStatus,
-  Store,
-  StoredGridMeta,
-} from './types.ts';
-import { bodyBbox } from './bbox.ts';
-import { newId, sha256Hex } from './sqlite.ts';
-import { bboxOf, datasetRecord, float32Of, projectDataset, runFromRow, runRowValues, type DatasetRow, type RunPatch, type RunRow } from './rows.ts';
+import type { ProjectRecord, ProjectTerrainRecord, RunRecord, Store, StoredGridMeta } from './types.ts';
+import { newId } from './ids.ts';
+import { float32Of, runRowValues } from './rows.ts';
+import { SqlStore } from './sql-store.ts';
 
 export { PG_MIGRATIONS, migratePostgres } from './postgres-schema.ts';
 
@@ -31,7 +20,7 @@ const HEARTBEAT_MS = 5000;
 const QUEUE_OWNER = 'queue';
 
 /** The team store: a PostgreSQL database (node-postgres pool), migrated on open. */
-export class PostgresStore implements Store {
+export class PostgresStore extends SqlStore implements Store {
   readonly kind = 'postgresql' as const;
   readonly pool: pg.Pool;
   /** This server's id in `servers` and in the `owner` of the runs it starts. */
@@ -44,6 +33,7 @@ export class PostgresStore implements Store {
   private heartbeat: NodeJS.Timeout | null = null;
 
   private constructor(pool: pg.Pool, queueOwnsRuns: boolean) {
+    super();
     this.pool = pool;
     this.runOwner = queueOwnsRuns ? QUEUE_OWNER : this.serverId;
   }
@@ -104,6 +94,15 @@ export class PostgresStore implements Store {
     }
   }
 
+  /** `?` placeholders become PostgreSQL's numbered ones (the shared SQL has no other question mark). */
+  protected async rows<T>(sql: string, params: unknown[] = []): Promise<T[]> {
+    return (await this.pool.query(numbered(sql), params)).rows as T[];
+  }
+
+  protected async exec(sql: string, params: unknown[] = []): Promise<number> {
+    return (await this.pool.query(numbered(sql), params)).rowCount ?? 0;
+  }
+
   private async tx<T>(fn: (c: pg.PoolClient) => Promise<T>): Promise<T> {
     const c = await this.pool.connect();
     try {
@@ -117,93 +116,6 @@ export class PostgresStore implements Store {
     } finally {
       c.release();
     }
-  }
-
-  async putDataset(input: { id?: string; kind: string; body: string; featureCount: number; title?: string }): Promise<DatasetRecord> {
-    if (input.id !== undefined) {
-      const existing = await this.getDataset(input.id);
-      if (existing) {
-        const { body: _body, ...rest } = existing;
-        return rest;
-      }
-    }
-    const bbox = input.kind === 'model' ? null : bodyBbox(input.body);
-    const rec: DatasetRecord = {
-      id: input.id ?? newId('ds_'),
-      kind: input.kind,
-      featureCount: input.featureCount,
-      contentHash: sha256Hex(input.body),
-      createdAt: new Date().toISOString(),
-      title: input.title ?? null,
-      bbox,
-      bytes: Buffer.byteLength(input.body, 'utf8'),
-    };
-    await this.pool.query(
-      'INSERT INTO datasets (id, kind, feature_count, content_hash, title, body, created_at, bbox) VALUES ($1, $2, $3, $4, $5, $6, $7, $8)',
-      [rec.id, rec.kind, rec.featureCount, rec.contentHash, rec.title, input.body, rec.createdAt, bbox === null ? null : JSON.stringify(bbox)],
-    );
-    return rec;
-  }
-
-  async getDataset(id: string): Promise<(DatasetRecord & { body: string }) | null> {
-    const r = await this.pool.query<DatasetRow & { body: string }>(`SELECT ${DATASET_COLUMNS}, body FROM datasets WHERE id = $1`, [id]);
-    return r.rows[0] ? { ...datasetFromRow(r.rows[0]), body: r.rows[0].body } : null;
-  }
-
-  async listDatasets(): Promise<DatasetRecord[]> {
-    return (await this.pool.query<DatasetRow>(`SELECT ${DATASET_COLUMNS} FROM datasets ORDER BY created_at, id`)).rows.map(datasetFromRow);
-  }
-
-  async findDatasetByContent(kind: string, contentHash: string): Promise<DatasetRecord | null> {
-    const r = await this.pool.query<DatasetRow>(`SELECT ${DATASET_COLUMNS} FROM datasets WHERE kind = $1 AND content_hash = $2 ORDER BY created_at LIMIT 1`, [
-      kind,
-      contentHash,
-    ]);
-    return r.rows[0] ? datasetFromRow(r.rows[0]) : null;
-  }
-
-  async attachDataset(projectId: string, datasetId: string, name: string): Promise<ProjectDatasetRecord> {
-    await this.pool.query(
-      `INSERT INTO project_datasets (project_id, dataset_id, name, attached_at, detached_at) VALUES ($1, $2, $3, $4, NULL)
-       ON CONFLICT (project_id, dataset_id) DO UPDATE SET name = excluded.name, attached_at = excluded.attached_at, detached_at = NULL`,
-      [projectId, datasetId, name, new Date().toISOString()],
-    );
-    return (await this.getProjectDataset(projectId, datasetId))!;
-  }
-
-  async listProjectDatasets(projectId: string): Promise<ProjectDatasetRecord[]> {
-    const r = await this.pool.query<DatasetRow & { name: string; attached_at: string }>(
-      `SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = $1 AND p.detached_at IS NULL ORDER BY p.attached_at, d.id`,
-      [projectId],
-    );
-    return r.rows.map((row) => projectDataset(datasetFromRow(row), row.name, row.attached_at));
-  }
-
-  async getProjectDataset(projectId: string, datasetId: string): Promise<ProjectDatasetRecord | null> {
-    const r = await this.pool.query<DatasetRow & { name: string; attached_at: string }>(
-      `SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = $1 AND p.dataset_id = $2 AND p.detached_at IS NULL`,
-      [projectId, datasetId],
-    );
-    const row = r.rows[0];
-    return row ? projectDataset(datasetFromRow(row), row.name, row.attached_at) : null;
-  }
-
-  async renameProjectDataset(projectId: string, datasetId: string, name: string): Promise<boolean> {
-    const r = await this.pool.query('UPDATE project_datasets SET name = $1 WHERE project_id = $2 AND dataset_id = $3 AND detached_at IS NULL', [
-      name,
-      projectId,
-      datasetId,
-    ]);
-    return (r.rowCount ?? 0) > 0;
-  }
-
-  async detachProjectDataset(projectId: string, datasetId: string): Promise<boolean> {
-    const r = await this.pool.query('UPDATE project_datasets SET detached_at = $1 WHERE project_id = $2 AND dataset_id = $3 AND detached_at IS NULL', [
-      new Date().toISOString(),
-      projectId,
-      datasetId,
-    ]);
-    return (r.rowCount ?? 0) > 0;
   }
 
   async pruneDataset(datasetId: string): Promise<boolean> {
@@ -221,46 +133,9 @@ export class PostgresStore implements Store {
     });
   }
 
-  async projectStorageBytes(projectId: string): Promise<number> {
-    const ds = await this.pool.query<{ n: string }>(
-      'SELECT COALESCE(SUM(octet_length(d.body)), 0) AS n FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = $1 AND p.detached_at IS NULL',
-      [projectId],
-    );
-    const t = await this.pool.query<{ n: string }>(
-      'SELECT COALESCE(SUM(b.size), 0) AS n FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = $1',
-      [projectId],
-    );
-    return Number(ds.rows[0].n) + Number(t.rows[0].n);
-  }
-
   async linkRunDatasets(runId: string, datasetIds: string[]): Promise<void> {
     if (datasetIds.length === 0) return;
     await this.pool.query('INSERT INTO run_datasets (run_id, dataset_id) SELECT $1, unnest($2::text[]) ON CONFLICT DO NOTHING', [runId, datasetIds]);
-  }
-
-  async linkProjectRun(projectId: string, runId: string): Promise<void> {
-    await this.pool.query('INSERT INTO project_runs (project_id, run_id, created_at) VALUES ($1, $2, $3) ON CONFLICT DO NOTHING', [
-      projectId,
-      runId,
-      new Date().toISOString(),
-    ]);
-  }
-
-  async listProjectRuns(projectId: string): Promise<ProjectRunInfo[]> {
-    const r = await this.pool.query<{ id: string; status: RunStatus; request: string; created_at: string }>(
-      'SELECT r.id, r.status, r.request, p.created_at FROM project_runs p JOIN runs r ON r.id = p.run_id WHERE p.project_id = $1 ORDER BY p.created_at, r.id',
-      [projectId],
-    );
-    return r.rows.map((row) => {
-      const title = (JSON.parse(row.request) as { title?: unknown }).title;
-      return { id: row.id, status: row.status, title: typeof title === 'string' ? title : null, createdAt: row.created_at };
-    });
-  }
-
-  async runProjects(runId: string): Promise<string[]> {
-    return (await this.pool.query<{ project_id: string }>('SELECT project_id FROM project_runs WHERE run_id = $1 ORDER BY created_at', [runId])).rows.map(
-      (r) => r.project_id,
-    );
   }
 
   async putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): Promise<ProjectTerrainRecord> {
@@ -277,20 +152,6 @@ export class PostgresStore implements Store {
     return { blobHash, meta, createdAt };
   }
 
-  async getProjectTerrain(projectId: string): Promise<(ProjectTerrainRecord & { values: Float32Array }) | null> {
-    const r = await this.pool.query<{ blob_hash: string; meta: string; created_at: string; bytes: Buffer }>(
-      'SELECT t.blob_hash, t.meta, t.created_at, b.bytes FROM project_terrain t JOIN blobs b ON b.hash = t.blob_hash WHERE t.project_id = $1',
-      [projectId],
-    );
-    const row = r.rows[0];
-    if (!row) return null;
-    return { blobHash: row.blob_hash, meta: JSON.parse(row.meta) as ProjectTerrainRecord['meta'], createdAt: row.created_at, values: float32Of(row.bytes) };
-  }
-
-  async deleteProjectTerrain(projectId: string): Promise<boolean> {
-    return ((await this.pool.query('DELETE FROM project_terrain WHERE project_id = $1', [projectId])).rowCount ?? 0) > 0;
-  }
-
   async createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): Promise<ProjectRecord> {
     const now = new Date().toISOString();
     await this.tx(async (c) => {
@@ -303,23 +164,6 @@ export class PostgresStore implements Store {
       ]);
     });
     return { id: input.id, title: input.title, state: JSON.parse(input.stateJson), revision: 1, updatedAt: now, createdAt: now };
-  }
-
-  async getProject(id: string, revision?: number): Promise<ProjectRecord | null> {
-    const base =
-      'SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = $1';
-    const r = await this.pool.query<{ revision: number; title: string; state: string; created_at: string; p_created: string }>(
-      revision === undefined ? `${base} ORDER BY r.revision DESC LIMIT 1` : `${base} AND r.revision = $2`,
-      revision === undefined ? [id] : [id, revision],
-    );
-    const row = r.rows[0];
-    if (!row) return null;
-    return { id, title: row.title, state: JSON.parse(row.state), revision: row.revision, updatedAt: row.created_at, createdAt: row.p_created };
-  }
-
-  async getProjectTokenHash(id: string): Promise<string | null> {
-    const r = await this.pool.query<{ token_hash: string }>('SELECT token_hash FROM projects WHERE id = $1', [id]);
-    return r.rows[0]?.token_hash ?? null;
   }
 
   async appendRevision(id: string, input: { title?: string; stateJson: string }): Promise<number> {
@@ -345,15 +189,6 @@ export class PostgresStore implements Store {
     });
   }
 
-  async listRevisions(id: string): Promise<RevisionInfo[] | null> {
-    if ((await this.getProjectTokenHash(id)) === null) return null;
-    const r = await this.pool.query<{ revision: number; title: string; created_at: string; n: number }>(
-      'SELECT revision, title, created_at, length(state) AS n FROM project_revisions WHERE project_id = $1 ORDER BY revision',
-      [id],
-    );
-    return r.rows.map((row) => ({ revision: row.revision, title: row.title, createdAt: row.created_at, stateBytes: row.n }));
-  }
-
   async putRun(run: RunRecord): Promise<void> {
     await this.pool.query(
       `INSERT INTO runs (id, cache_key, request, status, progress, message, layers, summary, warnings, model, grids, client, created_at, updated_at, owner)
@@ -362,51 +197,17 @@ export class PostgresStore implements Store {
     );
   }
 
-  async updateRun(id: string, patch: RunPatch): Promise<void> {
-    await updateRunWith(this.pool, id, patch);
-  }
-
-  async getRun(id: string): Promise<RunRecord | null> {
-    const r = await this.pool.query<RunRow>('SELECT * FROM runs WHERE id = $1', [id]);
-    return r.rows[0] ? runFromRow(r.rows[0]) : null;
-  }
-
-  async findRunByCacheKey(cacheKey: string, statuses: RunStatus[]): Promise<RunRecord | null> {
-    if (statuses.length === 0) return null;
-    const r = await this.pool.query<RunRow>('SELECT * FROM runs WHERE cache_key = $1 AND status = ANY($2::text[]) ORDER BY created_at DESC LIMIT 1', [
-      cacheKey,
-      statuses,
-    ]);
-    return r.rows[0] ? runFromRow(r.rows[0]) : null;
-  }
-
   /** Fails the queued and running runs of servers that stopped (not seen for SERVER_STALE_SECONDS); others' go on. */
   async failInterruptedRuns(message: string): Promise<number> {
     return this.failRunsOfStoppedServers(message);
   }
 
   async putBlob(bytes: Uint8Array): Promise<string> {
-    return putBlobWith(this.pool, bytes);
-  }
-
-  async getBlob(hash: string): Promise<Uint8Array | null> {
-    const r = await this.pool.query<{ bytes: Buffer }>('SELECT bytes FROM blobs WHERE hash = $1', [hash]);
-    const b = r.rows[0]?.bytes;
-    return b ? new Uint8Array(b.buffer, b.byteOffset, b.byteLength) : null;
+    return this.tx((c) => putBlobWith(c, bytes));
   }
 
   async putRunFile(runId: string, name: string, ext: string, hash: string, contentType: string): Promise<void> {
     await putRunFileWith(this.pool, runId, name, ext, hash, contentType);
-  }
-
-  async getRunFile(runId: string, name: string, ext: string): Promise<{ bytes: Uint8Array; contentType: string; hash: string } | null> {
-    const r = await this.pool.query<{ content_type: string; blob_hash: string; bytes: Buffer }>(
-      'SELECT f.content_type, f.blob_hash, b.bytes FROM run_files f JOIN blobs b ON b.hash = f.blob_hash WHERE f.run_id = $1 AND f.name = $2 AND f.ext = $3',
-      [runId, name, ext],
-    );
-    const row = r.rows[0];
-    if (!row) return null;
-    return { bytes: new Uint8Array(row.bytes.buffer, row.bytes.byteOffset, row.bytes.byteLength), contentType: row.content_type, hash: row.blob_hash };
   }
 
   /** Links a grid stored as a blob to a run: its values are copied into bands of rows. */
@@ -451,9 +252,7 @@ export class PostgresStore implements Store {
   }
 }
 
-const DATASET_COLUMNS = 'id, kind, feature_count, content_hash, title, created_at, bbox, octet_length(body) AS bytes';
-const DATASET_COLUMNS_D = 'd.id, d.kind, d.feature_count, d.content_hash, d.title, d.created_at, d.bbox, octet_length(d.body) AS bytes';
-
-function datasetFromRow(r: DatasetRow): DatasetRecord {
-  return datasetRecord(r, bboxOf(r));
+function numbered(sql: string): string {
+  let n = 0;
+  return sql.replace(/\?/g, () => `$${++n}`);
 }

@@ -98,4 +98,20 @@ export const MIGRATIONS: string[] = [
      meta TEXT NOT NULL,
      created_at TEXT NOT NULL
    );`,
+  // Blobs in chunks of 16 KiB (BLOB_CHUNK_BYTES), so a reader takes only the chunks a byte range covers (a map
+  // tile reads its COG's header and the tiles it samples). Existing blobs are cut into chunks here.
+  `CREATE TABLE blob_chunks (
+     hash TEXT NOT NULL REFERENCES blobs(hash),
+     idx INTEGER NOT NULL,
+     bytes BLOB NOT NULL,
+     PRIMARY KEY (hash, idx)
+   );
+   INSERT INTO blob_chunks (hash, idx, bytes)
+     WITH RECURSIVE c(hash, idx) AS (
+       SELECT hash, 0 FROM blobs WHERE size > 0
+       UNION ALL
+       SELECT c.hash, c.idx + 1 FROM c JOIN blobs b ON b.hash = c.hash WHERE (c.idx + 1) * 16384 < b.size
+     )
+     SELECT c.hash, c.idx, substr(b.bytes, c.idx * 16384 + 1, 16384) FROM c JOIN blobs b ON b.hash = c.hash;
+   ALTER TABLE blobs DROP COLUMN bytes;`,
 ];

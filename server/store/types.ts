@@ -92,6 +92,13 @@ export interface RunRecord {
   updatedAt: string;
 }
 
+/** A stored file: the hash of its blob, its media type and its size in bytes. */
+export interface StoredFileInfo {
+  hash: string;
+  contentType: string;
+  size: number;
+}
+
 /** Grid metadata as stored beside its Float32 values (a blob): the grid's spec and units. */
 export type StoredGridMeta = GridSpec & { units: string };
 
@@ -157,9 +164,15 @@ export interface Store {
   /** Stores bytes under their SHA-256 (kept once); returns the hash. */
   putBlob(bytes: Uint8Array): Promise<string>;
   getBlob(hash: string): Promise<Uint8Array | null>;
+  /** A stored blob's size in bytes, or null when absent. Its bytes are kept in chunks of BLOB_CHUNK_BYTES. */
+  blobSize(hash: string): Promise<number | null>;
+  /** Chunks `first`…`last` (inclusive, 0-based) of a stored blob, in order, reading only those chunks. */
+  readBlobChunks(hash: string, first: number, last: number): Promise<Uint8Array[]>;
   /** Links a run's output file (layer name + extension) to a blob. */
   putRunFile(runId: string, name: string, ext: string, hash: string, contentType: string): Promise<void>;
   getRunFile(runId: string, name: string, ext: string): Promise<{ bytes: Uint8Array; contentType: string; hash: string } | null>;
+  /** A run's output file without its bytes (its blob is read by range), or null. */
+  findRunFile(runId: string, name: string, ext: string): Promise<StoredFileInfo | null>;
   putRunGrid(runId: string, name: string, meta: StoredGridMeta, hash: string): Promise<void>;
   getRunGrid(runId: string, name: string): Promise<{ meta: StoredGridMeta; values: Float32Array } | null>;
   /**
