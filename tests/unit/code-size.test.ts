@@ -28,7 +28,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/interp/simulation.ts', // 507
   'shared/resource/monte-carlo.ts', // 714
   'shared/schema/features.ts', // 437
-  'shared/structure/fault-report.ts', // 756
   'shared/structure/indicator.ts', // 516
   'shared/wells/analyze.ts', // 510
   'server/cli/isograds.ts isograds', // 141
@@ -49,7 +48,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/schema/features.ts parsePointCsv', // 117
   'shared/schema/interp.ts pointsFromGeoJson', // 113
   'shared/schema/interp.ts pointsFromCsv', // 84
-  'shared/structure/fault-report.ts faultReport', // 371
   'shared/structure/grade.ts sampleGrades', // 123
   'shared/structure/grade.ts sampleGrades/(anonymous)', // 100
   'shared/structure/indicator.ts setUpKriging', // 90
