@@ -227,13 +227,15 @@ export function sampleGradeList(grades: SampleGrade[]): HTMLElement {
   );
 }
 
+/** A range, km; `high` null is an open upper bound, with its reason (shared/structure/fault-types.ts Range). */
+type KmRange = { value: number; low: number; high: number | null; openReason?: string };
 type SepRow = {
   isograd: string;
   end: string;
-  separationKm: { value: number; low: number; high: number };
+  separationKm: KmRange;
   sense: string;
   displacedTowardHigherGrade?: string;
-  dipSlipKm?: { value: number; low: number; high: number };
+  dipSlipKm?: KmRange;
   slipSense?: string;
 };
 
@@ -252,7 +254,8 @@ export function faultDetails(r: FaultReportRow): HTMLElement {
     items.push(el('li', {}, `${n.isograd} does not reach ${n.sideName === 'either side' ? 'either side' : `the ${n.sideName}`}`));
   if (r.offsetOnly === true) items.push(el('li', {}, 'Offset only: no zone missing or repeated'));
   const seps = (r.separations as SepRow[] | undefined) ?? [];
-  const range = (x: { value: number; low: number; high: number }) => `${fmt(x.value, 1)} (${fmt(x.low, 1)}–${fmt(x.high, 1)})`;
+  const range = (x: KmRange) => `${fmt(x.value, 1)} (${fmt(x.low, 1)}–${x.high === null ? 'open' : fmt(x.high, 1)})`;
+  const openReasons = [...new Set(seps.flatMap((x) => [x.separationKm, x.dipSlipKm]).flatMap((x) => (x?.high === null ? [x.openReason ?? 'open'] : [])))];
   const sepTable =
     seps.length === 0
       ? el('p', { class: 'empty' }, 'No isograd meets this fault on both sides.')
@@ -303,6 +306,7 @@ export function faultDetails(r: FaultReportRow): HTMLElement {
     el('h4', {}, `${String(r.name ?? r.id)}${r.kind ? ` (${String(r.kind)})` : ''}`),
     items.length > 0 ? el('ul', {}, ...items) : el('p', { class: 'empty' }, 'No zone statement: too few samples beside the trace.'),
     el('div', { class: 'table-scroll' }, sepTable),
+    ...openReasons.map((why) => el('p', { class: 'note' }, `“open”: the range's upper bound lies ${why}; no number is given for it.`)),
     ...warnings.map((w) => el('p', { class: 'note' }, w)),
   );
 }

@@ -9,7 +9,7 @@ import { InputError } from '../../shared/errors.ts';
 import { type FaultCollection, type SampleCollection } from '../../shared/schema/features.ts';
 import { parseThermalModel } from '../../shared/schema/model.ts';
 import { compileModel, nominalModel, type CompiledModel } from '../../shared/thermal/index.ts';
-import { isogradLayer, DEFAULT_PALEO_DENSITY_KG_M3 } from '../../shared/structure/index.ts';
+import { isogradLayer, DEFAULT_PALEO_DENSITY_KG_M3, type FaultSummary, type IsogradReport, type Range } from '../../shared/structure/index.ts';
 import { numberOption, parseVerbArgs } from './args.ts';
 import { readDatasetFile } from '../io/vector-input.ts';
 
@@ -74,31 +74,31 @@ function inFile<T>(path: string, f: () => T): T {
 
 const r3 = (v: number | null) => (v === null || !Number.isFinite(v) ? null : Math.round(v * 1000) / 1000);
 
-export async function isograds(argv: string[]): Promise<number> {
-  const { values: v } = parseVerbArgs('isograds', argv, {
-    samples: { type: 'string' },
-    'points-crs': { type: 'string' },
-    layer: { type: 'string' },
-    'faults-layer': { type: 'string' },
-    faults: { type: 'string' },
-    model: { type: 'string' },
-    'heat-flow': { type: 'string' },
-    'fault-distance-km': { type: 'string' },
-    'cell-km': { type: 'string' },
-    'support-km': { type: 'string' },
-    neighbors: { type: 'string' },
-    method: { type: 'string' },
-    'isograd-dip-deg': { type: 'string' },
-    power: { type: 'string' },
-    'density-kg-m3': { type: 'string' },
-    out: { type: 'string' },
-  });
-  if (v.help) {
-    process.stdout.write(HELP);
-    return 0;
-  }
-  const bad = (field: string, problem: string) => new InputError(`--${field}: ${problem}`, [{ field, problem }], 'bad_option');
-  if (v.samples === undefined) throw bad('samples', 'missing: give --samples S.geojson');
+const ARG_SPEC = {
+  samples: { type: 'string' },
+  'points-crs': { type: 'string' },
+  layer: { type: 'string' },
+  'faults-layer': { type: 'string' },
+  faults: { type: 'string' },
+  model: { type: 'string' },
+  'heat-flow': { type: 'string' },
+  'fault-distance-km': { type: 'string' },
+  'cell-km': { type: 'string' },
+  'support-km': { type: 'string' },
+  neighbors: { type: 'string' },
+  method: { type: 'string' },
+  'isograd-dip-deg': { type: 'string' },
+  power: { type: 'string' },
+  'density-kg-m3': { type: 'string' },
+  out: { type: 'string' },
+} as const;
+
+type Values = Partial<Record<keyof typeof ARG_SPEC, string>>;
+
+const bad = (field: string, problem: string) => new InputError(`--${field}: ${problem}`, [{ field, problem }], 'bad_option');
+
+/** The verb's numeric and named options, each checked against its range (InputError naming the option). */
+function computeOptions(v: Values) {
   const faultDistanceKm = numberOption('fault-distance-km', v['fault-distance-km'], 10);
   if (!(faultDistanceKm > 0)) throw bad('fault-distance-km', `must be > 0 km, got ${faultDistanceKm}`);
   const cellKm = numberOption('cell-km', v['cell-km'], 1);
@@ -118,11 +118,14 @@ export async function isograds(argv: string[]): Promise<number> {
   if (!(density >= 1000 && density <= 4000)) throw bad('density-kg-m3', `must be within 1000–4000 kg/m³, got ${density}`);
   const heatFlow = v['heat-flow'] === undefined ? undefined : numberOption('heat-flow', v['heat-flow']);
   if (heatFlow !== undefined && !(heatFlow > 0)) throw bad('heat-flow', `must be > 0 mW/m², got ${heatFlow}`);
+  return { faultDistanceKm, cellKm, supportKm, method, isogradDipDeg, neighbors, power, density, heatFlow } as const;
+}
 
+/** The samples, faults and model files, with each file's SHA-256 and the readers' warnings. */
+async function readInputs(v: Values & { samples: string }, heatFlow: number | undefined, warnings: string[]) {
   const samplesPath = v.samples;
   const s = await readBytes(samplesPath, 'samples');
   const hashes: Record<string, string> = { samples: sha256(s) };
-  const warnings: string[] = [];
   const sp = await readDatasetFile(samplesPath, s, 'samples', { layer: v.layer, crs: v['points-crs'] });
   warnings.push(...sp.warnings.map((w) => `${samplesPath}: ${w}`));
   let faults: FaultCollection | null = null;
@@ -137,10 +140,8 @@ export async function isograds(argv: string[]): Promise<number> {
   if (v.model !== undefined) {
     const m = await readJson(v.model, 'model');
     hashes.model = m.hash;
-    const parsed = parseThermalModel(m.raw, v.model);
-    const nominal = nominalModel(parsed);
-    const q0 = heatFlow ?? nominal.surfaceHeatFlowMWm2;
-    if (q0 === undefined)
+    const nominal = nominalModel(parseThermalModel(m.raw, v.model));
+    if ((heatFlow ?? nominal.surfaceHeatFlowMWm2) === undefined)
       throw new InputError(
         `${v.model}: no surface heat flow`,
         [{ feature: 'model', field: 'surfaceHeatFlowMWm2', problem: 'missing: put it in the model or give --heat-flow' }],
@@ -148,27 +149,68 @@ export async function isograds(argv: string[]): Promise<number> {
       );
     model = compileModel(nominal, { maxDepthKm: 100 });
   } else if (heatFlow !== undefined) warnings.push('--heat-flow has no effect without --model');
+  return { samples: sp.collection as SampleCollection, faults, model, hashes };
+}
 
-  const layer = inFile(samplesPath, () =>
-    isogradLayer(sp.collection as SampleCollection, faults, {
-      cellKm,
-      supportKm,
-      neighbors,
-      power,
-      method,
-      isogradDipDeg,
-      faultDistanceKm,
-      model,
-      heatFlowMWm2: heatFlow,
-      paleo: { densityKgM3: density },
+/** A range as text, km: "value (low–high)", or "value (low–open: reason)" when its upper bound is open. */
+export function rangeText(r: Range): string {
+  return `${r.value} (${r.low}–${r.high === null ? `open: ${r.openReason ?? 'no bound'}` : r.high})`;
+}
+
+/** The plain-text summary: isograds, each fault's statements and separations, counts, warnings, files, caution. */
+function summaryText(rep: IsogradReport, faults: FaultSummary[], warnings: string[], files: string[], caution: string): string {
+  const lines = [`isograds: ${rep.isograds.map((i) => `${i.isograd} ${i.lines} line(s), ${i.lengthKm} km`).join('; ')}`];
+  for (const f of faults) {
+    const st = [
+      f.repeatedZones.length > 0 ? `repeated: ${f.repeatedZones.map((z) => z.zone).join(', ')}` : '',
+      f.missingZones.length > 0 ? `missing: ${f.missingZones.map((z) => z.zone).join(', ')}` : '',
+      f.notReached.length > 0 ? `not reached: ${f.notReached.map((z) => `${z.isograd} (${z.sideName})`).join(', ')}` : '',
+      f.offsetOnly ? 'offset only' : '',
+    ].filter((x) => x !== '');
+    lines.push(`fault ${f.id}: ${st.join('; ') || 'no statement'}`);
+    for (const q of f.separations)
+      lines.push(
+        `  ${q.isograd} at the ${q.end} end: separation ${rangeText(q.separationKm)} km, ${q.sense}${q.dipSlipKm !== undefined ? `, dip slip ${rangeText(q.dipSlipKm)} km ${q.slipSense}` : ''}`,
+      );
+  }
+  lines.push(`misfits: ${rep.misfits.length}; paleo-gradients: ${rep.paleoGradients.length}`);
+  for (const w of warnings) lines.push(`warning: ${w}`);
+  if (files.length > 0) lines.push(`wrote ${files.join(', ')}`);
+  lines.push(caution);
+  return lines.join('\n') + '\n';
+}
+
+export async function isograds(argv: string[]): Promise<number> {
+  const { values: v } = parseVerbArgs('isograds', argv, ARG_SPEC);
+  if (v.help) {
+    process.stdout.write(HELP);
+    return 0;
+  }
+  if (v.samples === undefined) throw bad('samples', 'missing: give --samples S.geojson');
+  const o = computeOptions(v);
+  const warnings: string[] = [];
+  const inputs = await readInputs({ ...v, samples: v.samples }, o.heatFlow, warnings);
+  const layer = inFile(v.samples, () =>
+    isogradLayer(inputs.samples, inputs.faults, {
+      cellKm: o.cellKm,
+      supportKm: o.supportKm,
+      neighbors: o.neighbors,
+      power: o.power,
+      method: o.method,
+      isogradDipDeg: o.isogradDipDeg,
+      faultDistanceKm: o.faultDistanceKm,
+      model: inputs.model,
+      heatFlowMWm2: o.heatFlow,
+      paleo: { densityKgM3: o.density },
     }),
   );
   const rep = layer.report;
   warnings.push(...rep.warnings);
   const files: string[] = [];
+  const hashes = inputs.hashes;
   if (v.out !== undefined) {
-    const out = { ...layer.lines, provenance: { ...layer.lines.provenance, inputs: hashes, faultDistanceKm, densityKgM3: density, createdBy: 'isograds' } };
-    await writeFile(v.out, JSON.stringify(out) + '\n');
+    const provenance = { ...layer.lines.provenance, inputs: hashes, faultDistanceKm: o.faultDistanceKm, densityKgM3: o.density, createdBy: 'isograds' };
+    await writeFile(v.out, JSON.stringify({ ...layer.lines, provenance }) + '\n');
     files.push(v.out);
   }
   const result = {
@@ -191,27 +233,6 @@ export async function isograds(argv: string[]): Promise<number> {
     warnings,
     caution: layer.lines.caution,
   };
-  if (v.json) process.stdout.write(JSON.stringify(result) + '\n');
-  else {
-    const lines = [`isograds: ${rep.isograds.map((i) => `${i.isograd} ${i.lines} line(s), ${i.lengthKm} km`).join('; ')}`];
-    for (const f of result.faults) {
-      const st = [
-        f.repeatedZones.length > 0 ? `repeated: ${f.repeatedZones.map((z) => z.zone).join(', ')}` : '',
-        f.missingZones.length > 0 ? `missing: ${f.missingZones.map((z) => z.zone).join(', ')}` : '',
-        f.notReached.length > 0 ? `not reached: ${f.notReached.map((z) => `${z.isograd} (${z.sideName})`).join(', ')}` : '',
-        f.offsetOnly ? 'offset only' : '',
-      ].filter((x) => x !== '');
-      lines.push(`fault ${f.id}: ${st.join('; ') || 'no statement'}`);
-      for (const q of f.separations)
-        lines.push(
-          `  ${q.isograd} at the ${q.end} end: separation ${q.separationKm.value} km (${q.separationKm.low}–${q.separationKm.high}), ${q.sense}${q.dipSlipKm !== undefined ? `, dip slip ${q.dipSlipKm.value} km (${q.dipSlipKm.low}–${q.dipSlipKm.high}) ${q.slipSense}` : ''}`,
-        );
-    }
-    lines.push(`misfits: ${result.misfits.length}; paleo-gradients: ${result.paleoGradients.length}`);
-    for (const w of warnings) lines.push(`warning: ${w}`);
-    if (files.length > 0) lines.push(`wrote ${files.join(', ')}`);
-    lines.push(layer.lines.caution);
-    process.stdout.write(lines.join('\n') + '\n');
-  }
+  process.stdout.write(v.json ? JSON.stringify(result) + '\n' : summaryText(rep, result.faults, warnings, files, layer.lines.caution));
   return 0;
 }

@@ -3,6 +3,7 @@ import { legendSchema } from '../grid/legend.ts';
 import { VARIOGRAM_MODELS } from '../interp/variogram.ts';
 import { interpolationOptionsSchema } from './interp.ts';
 import type { IsogradReport } from '../structure/layer.ts';
+import { OPEN_BEYOND_SUPPORT } from '../structure/fault-types.ts';
 
 export type { Legend } from '../grid/legend.ts';
 
@@ -252,8 +253,15 @@ export type HeatFlowCentralValues = Pick<
   'regionalMeanMWm2' | 'regionalMedianMWm2' | 'regionalMeanSdMWm2' | 'krigedRegionalMeanMWm2' | 'differenceMWm2'
 >;
 
-/** A value with its range, km (shared/structure/fault-report.ts Range). */
-const kmRangeSchema = z.strictObject({ value: z.number(), low: z.number(), high: z.number() });
+/** A value with its range, km (shared/structure/fault-types.ts Range). */
+const kmRangeSchema = z.strictObject({
+  value: z.number(),
+  low: z.number(),
+  /** null: the upper bound is open (a side's probability band reaches beyond the samples that constrain it). */
+  high: z.number().nullable(),
+  /** Why the upper bound is open; present only when `high` is null. */
+  openReason: z.literal(OPEN_BEYOND_SUPPORT).optional(),
+});
 /** A zone statement with the samples that support it. */
 const zoneStatementSchema = z.looseObject({ zone: z.string(), sampleIds: z.array(z.string()) });
 

@@ -190,6 +190,32 @@ export function gaussianHalfWidthKm(slopePerKm: number): number {
 }
 
 /**
+ * A meeting band's bounds with each bound that lies beyond the sampled support made open (−∞ below, +∞ above). The
+ * samples that constrain a bound are those of this side (within the fault distance D of the trace, beside it) that
+ * decide the isograd's indicator the way that end of the band does: on the low-grade end samples below the isograd
+ * (rank interval wholly under j), on the high-grade end samples at or above it (wholly from j up). A bound is
+ * supported when it lies no farther along the trace than D beyond the last such sample: D is the footprint within
+ * which a sample counts for the fault at all, across the trace as here along it. Farther out the kriged profile no
+ * longer follows data but drifts back to the indicator's mean, so where it crosses 0.1 or 0.9 there (or where the
+ * Gaussian-shape half-width reaches) says nothing about the isograd: the bound is reported open, not as a number.
+ */
+export function openBeyondSupport(
+  band: [number, number],
+  pool: readonly { s: number; lo: number; hi: number }[],
+  j: number,
+  sense: 1 | -1,
+  D: number,
+): [number, number] {
+  // Indicator of a sample deciding isograd j: 1 at or above it, 0 below it, null when its interval straddles j.
+  const ind = (q: { lo: number; hi: number }) => (q.lo >= j ? 1 : q.hi < j ? 0 : null);
+  // Grade rises along the trace (sense +1): the low end of the band lies on the low-grade side (indicator 0).
+  const belowClass = sense > 0 ? 0 : 1;
+  const lowSupported = pool.some((q) => ind(q) === belowClass && q.s - D <= band[0]);
+  const highSupported = pool.some((q) => ind(q) === 1 - belowClass && q.s + D >= band[1]);
+  return [lowSupported ? band[0] : -Infinity, highSupported ? band[1] : Infinity];
+}
+
+/**
  * The meetings of isograd j with the trace on one side: each 0.5 crossing of the side's profile between supported
  * stations, refined by the local logistic fit, with its 10–90 % band. Crossings of one isograd a few km apart with the
  * same sense are one meeting (noise in the profile), their bands joined.
@@ -217,7 +243,7 @@ function sideMeetings(st: Stations, side: Side, j: number, pool: readonly NearSa
     const gauss = gaussianHalfWidthKm(profileSlopePerKm(P, ok, along, j, k, BOUNDARY_COUNT));
     const below = cBelow === null ? gauss : s0 - cBelow,
       above = cAbove === null ? gauss : cAbove - s0;
-    const band: [number, number] = [Math.min(at, s0) - below, Math.max(at, s0) + above];
+    const band = openBeyondSupport([Math.min(at, s0) - below, Math.max(at, s0) + above], pool, j, sense, D);
     const m: Meeting = {
       isograd: `${ZONE_NAMES[j]}-in`,
       side,

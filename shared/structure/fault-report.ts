@@ -50,7 +50,8 @@ import { findMeetings, stationProfiles } from './fault-meetings.ts';
 import { compassName, faultSeparations } from './fault-separations.ts';
 
 export type * from './fault-types.ts';
-export { fitMeeting, gaussianHalfWidthKm } from './fault-meetings.ts';
+export { OPEN_BEYOND_SUPPORT } from './fault-types.ts';
+export { fitMeeting, gaussianHalfWidthKm, openBeyondSupport } from './fault-meetings.ts';
 export { compassName, separationInterval } from './fault-separations.ts';
 
 /** The hanging wall (the side the dip direction points to) and the sides' compass names, with the wall when known. */

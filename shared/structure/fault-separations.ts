@@ -6,7 +6,7 @@
 import { ZONE_NAMES } from '../petrology/index.ts';
 import { BOUNDARY_COUNT, type IndicatorField } from './indicator.ts';
 import { pointAlongTrace, type Trace } from './trace.ts';
-import type { FaultInfo, FaultReport, Meeting, Separation, Side } from './fault-types.ts';
+import { OPEN_BEYOND_SUPPORT, type FaultInfo, type FaultReport, type Meeting, type Range, type Separation, type Side } from './fault-types.ts';
 
 const COMPASS = ['N', 'NNE', 'NE', 'ENE', 'E', 'ESE', 'SE', 'SSE', 'S', 'SSW', 'SW', 'WSW', 'W', 'WNW', 'NW', 'NNW'];
 
@@ -18,13 +18,19 @@ export function compassName(azimuthDeg: number): string {
 
 const DEG = Math.PI / 180;
 
+/** A range from its value and bounds; an infinite upper bound (a band open beyond its support) becomes an open one. */
+export function openRange(value: number, low: number, high: number): Range {
+  return Number.isFinite(high) ? { value, low, high } : { value, low, high: null, openReason: OPEN_BEYOND_SUPPORT };
+}
+
 /**
  * The 10–90 % interval (km) of the separation |s_a − s_b| of two meetings. Each meeting's band is its statistical
  * half-widths (below, above) about the span between its 0.5 crossing and its fitted point. The difference
  * d = s_a − s_b extends below by √(a↓² + b↑²) and above by √(a↑² + b↓²) (the statistical halves in quadrature:
  * exact for independent Gaussian errors, Taylor 1997 §3.6 [from memory]), plus, linearly, the method offsets (the
  * distance from each fitted point to its own profile crossing, on the side where that crossing lies). The interval
- * of |d| follows (0 when it spans 0).
+ * of |d| follows (0 when it spans 0). A band open at one end (±∞: beyond its sampled support) makes the extent it
+ * enters infinite, so the upper bound of |d| is then Infinity (reported open) while the lower bound stays finite.
  */
 export function separationInterval(
   a: Pick<Meeting, 'alongKm' | 'profileAlongKm' | 'bandAlongKm'>,
@@ -147,7 +153,7 @@ function addDipSlip(sep: Separation, c: SeparationContext, fn: [number, number, 
   if (!(r > 1e-6 && r < 89.9 * DEG)) return;
   const tanR = Math.tan(r);
   const s = sep.separationKm;
-  sep.dipSlipKm = { value: s.value * tanR, low: s.low * tanR, high: s.high * tanR };
+  sep.dipSlipKm = openRange(s.value * tanR, s.low * tanR, s.high === null ? Infinity : s.high * tanR);
   sep.cutoffPitchDeg = r / DEG;
   // Under normal slip the hanging-wall cutoff moves along the trace by −d·sinδ·(l·ŝ)/l_z (ŝ: trace direction).
   const ls = l[0] * q.tx + l[1] * q.ty;
@@ -171,7 +177,7 @@ function separationOf(a: Meeting, b: Meeting, centre: number, c: SeparationConte
   const sep: Separation = {
     isograd: a.isograd,
     end: compassName(mid >= centre ? fwdAz : fwdAz + 180),
-    separationKm: { value, low: Math.min(lowKm, value), high: Math.max(highKm, value) },
+    separationKm: openRange(value, Math.min(lowKm, value), Math.max(highKm, value)),
     sense: sr < sl ? 'dextral' : 'sinistral',
     displacedTowardHigherGrade: c.sideNames[upSide],
     leftAlongKm: sl,

@@ -54,7 +54,8 @@ export interface Meeting {
   alongKm: number;
   /**
    * The 10–90 % interval of the meeting point, km along the trace: from the lesser of alongKm and profileAlongKm less
-   * the half-width below, to the greater plus the half-width above (walked 0.1/0.9 crossings, else 0.5113/slope).
+   * the half-width below, to the greater plus the half-width above (walked 0.1/0.9 crossings, else 0.5113/slope);
+   * −Infinity or +Infinity where that bound lies beyond the side's sampled support (fault-meetings.ts openBeyondSupport).
    */
   bandAlongKm: [number, number];
   /** Where the side's indicator profile crosses 0.5, km along the trace (alongKm is the logistic-fit point when basis is 'fit'). */
@@ -65,10 +66,18 @@ export interface Meeting {
   sense: 1 | -1;
 }
 
+/** Why a range's upper bound is open: a side's band reaches beyond the samples that constrain it (fault-meetings.ts). */
+export const OPEN_BEYOND_SUPPORT = 'beyond sampled support';
+
+/**
+ * A value with its 10–90 % range, km. The lower bound is always a number (0 when the interval spans zero); the upper
+ * bound is null, with the reason in `openReason`, when either side's band is open beyond its sampled support.
+ */
 export interface Range {
   value: number;
   low: number;
-  high: number;
+  high: number | null;
+  openReason?: typeof OPEN_BEYOND_SUPPORT;
 }
 
 export interface Separation {

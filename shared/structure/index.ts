@@ -39,6 +39,8 @@ export { buildTrace, locateOnTrace, pointAlongTrace, selfIntersects, traceAzimut
 export {
   faultReport,
   compassName,
+  openBeyondSupport,
+  OPEN_BEYOND_SUPPORT,
   type FaultReport,
   type FaultInfo,
   type FaultReportOptions,

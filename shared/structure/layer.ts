@@ -56,7 +56,11 @@ export interface IsogradSummary {
 }
 
 const rr = (v: number) => Math.round(v * 100) / 100;
-const rng = (r: Range) => ({ value: rr(r.value), low: rr(r.low), high: rr(r.high) });
+const rng = (r: Range): Range => {
+  const o: Range = { value: rr(r.value), low: rr(r.low), high: r.high === null ? null : rr(r.high) };
+  if (r.openReason !== undefined) o.openReason = r.openReason;
+  return o;
+};
 
 /** A fault's report as exported (CLI --json, run summary, web panel): the statements, rounded to 10 m. */
 export function faultSummary(f: FaultReport) {
@@ -93,12 +97,12 @@ export function faultSummary(f: FaultReport) {
       return o as {
         isograd: string;
         end: string;
-        separationKm: { value: number; low: number; high: number };
+        separationKm: Range;
         sense: string;
         displacedTowardHigherGrade: string;
         leftAlongKm: number;
         rightAlongKm: number;
-        dipSlipKm?: { value: number; low: number; high: number };
+        dipSlipKm?: Range;
         slipSense?: string;
         cutoffPitchDeg?: number;
       };

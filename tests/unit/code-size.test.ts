@@ -30,7 +30,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/schema/features.ts', // 437
   'shared/structure/indicator.ts', // 516
   'shared/wells/analyze.ts', // 510
-  'server/cli/isograds.ts isograds', // 141
   'server/cli/isotherms.ts isotherms', // 248
   'server/cli/wells.ts wells', // 184
   'server/routes/project-datasets.ts projectDatasetRoutes', // 182

@@ -38,8 +38,11 @@ describe('subtherm isograds (child process)', () => {
     for (const s of f1.separations) {
       expect(Object.keys(s)).toEqual(expect.arrayContaining(['isograd', 'end', 'separationKm', 'sense']));
       expect(s.separationKm.low).toBeLessThanOrEqual(s.separationKm.value);
-      expect(s.separationKm.high).toBeGreaterThanOrEqual(s.separationKm.value);
+      // An upper bound is a number at least the value, or null (open) with its reason.
+      if (s.separationKm.high === null) expect(s.separationKm.openReason).toBe('beyond sampled support');
+      else expect(s.separationKm.high).toBeGreaterThanOrEqual(s.separationKm.value);
     }
+    expect(f1.separations.filter((s: { separationKm: { high: number | null } }) => s.separationKm.high === null).length).toBe(1);
     expect(j.samples.length).toBe(402);
     expect(j.samples[0]).toEqual(expect.objectContaining({ id: expect.any(String), source: expect.stringMatching(/^(zone|facies|peak-pt|none)$/) }));
     expect(Array.isArray(j.misfits) && Array.isArray(j.paleoGradients)).toBe(true);

@@ -1,7 +1,7 @@
 import { describe, it, expect } from 'vitest';
 import { prng } from '../helpers/prng.ts';
 import { computeIsogradsKm, buildTrace, tracePieces, faultReport, type SampleGrade } from '../../shared/structure/index.ts';
-import { gaussianHalfWidthKm, separationInterval } from '../../shared/structure/fault-report.ts';
+import { gaussianHalfWidthKm, openBeyondSupport, separationInterval, OPEN_BEYOND_SUPPORT } from '../../shared/structure/fault-report.ts';
 
 // Constructed domes cut by faults, in local km. A dome's surface peak temperature falls 5 °C/km from its centre and
 // rises 25 °C/km with depth, so each isograd surface is a cone dipping outwards at atan(5/25) = 11.31°. Zones open at
@@ -12,7 +12,7 @@ const FALL = 5,
   GRADIENT = 25,
   DEG = Math.PI / 180;
 
-function lattice(half: number, spacing: number, tempAt: (x: number, y: number) => number, skip: (x: number) => boolean) {
+function lattice(half: number, spacing: number, tempAt: (x: number, y: number) => number, skip: (x: number, y: number) => boolean) {
   const rnd = prng(11);
   const xs: number[] = [],
     ys: number[] = [],
@@ -21,7 +21,7 @@ function lattice(half: number, spacing: number, tempAt: (x: number, y: number) =
     for (let y = -half; y <= half; y += spacing) {
       const px = x + 0.3 * spacing * (rnd() - 0.5),
         py = y + 0.3 * spacing * (rnd() - 0.5);
-      if (skip(px)) continue;
+      if (skip(px, py)) continue;
       const r = rankOf(tempAt(px, py));
       xs.push(px);
       ys.push(py);
@@ -60,7 +60,9 @@ describe('constructed dome cut by a normal fault with known throw and dips', () 
       expect(s.slipSense, `${s.isograd} ${s.end}`).toBe('normal');
       expect(s.dipSlipKm, `${s.isograd} ${s.end}`).toBeDefined();
       expect(dKm, `${s.isograd} ${s.end}`).toBeGreaterThanOrEqual(s.dipSlipKm!.low);
-      expect(dKm, `${s.isograd} ${s.end}`).toBeLessThanOrEqual(s.dipSlipKm!.high);
+      // Samples every 2 km on both sides: no bound lies beyond the sampled support.
+      expect(s.dipSlipKm!.high, `${s.isograd} ${s.end}`).not.toBeNull();
+      expect(dKm, `${s.isograd} ${s.end}`).toBeLessThanOrEqual(s.dipSlipKm!.high!);
       expect(['N', 'S']).toContain(s.end);
       expect(s.displacedTowardHigherGrade).toBe('E side (hanging wall)');
     }
@@ -78,8 +80,105 @@ describe('constructed dome cut by a normal fault with known throw and dips', () 
         x2 = 8 - dKm * Math.cos(dipDeg * DEG);
       const truth = Math.sqrt(R * R - 64) - Math.sqrt(R2 * R2 - x2 * x2);
       expect(truth).toBeGreaterThanOrEqual(s.separationKm.low);
-      expect(truth).toBeLessThanOrEqual(s.separationKm.high);
+      expect(s.separationKm.high).not.toBeNull();
+      expect(truth).toBeLessThanOrEqual(s.separationKm.high!);
     }
+  });
+});
+
+describe('the same normal fault with the hanging wall sampled only north of y = −30 km', () => {
+  // Garnet-in meets the hanging wall at y = −√(32.5² − 7.134²) = −31.71 km (R' = (662.5 − 500)/5; x' = 8 − d·cos 60°),
+  // south of its last sample there, and the footwall at y = −√(40² − 8²) = −39.19 km: the true S-end separation is
+  // 7.48 km. The hanging wall's profile south of y = −30 follows no sample below garnet-in: the band's southern bound is
+  // beyond the sampled support, so the separation's upper bound is reported open, not as a number.
+  const dipDeg = 60,
+    throwKm = 1.5,
+    dKm = throwKm / Math.sin(dipDeg * DEG);
+  const temp = (x: number, y: number) =>
+    x < 8 ? 700 - FALL * Math.hypot(x, y) : 700 - FALL * Math.hypot(x - dKm * Math.cos(dipDeg * DEG), y) - GRADIENT * throwKm;
+  const d = lattice(60, 2, temp, (x, y) => Math.abs(x - 8) < 0.3 || (x > 8 && y < -30));
+  const trace = buildTrace('N1', [
+    [
+      [8, -60],
+      [8, 60],
+    ],
+  ]).trace;
+  const r = computeIsogradsKm(d.x, d.y, d.g, tracePieces([trace]), { cellKm: 0.5 });
+  const rep = faultReport({ trace, kind: 'normal', dipDeg, dipDirectionDeg: 90 }, r.field, {
+    supportKm: r.supportKm,
+    isogradDipDeg: Math.atan(FALL / GRADIENT) / DEG,
+  });
+
+  it('garnet-in at the S end: upper bound open beyond sampled support (dip slip too), the truth above its lower bound', () => {
+    const gS = rep.separations.find((s) => s.isograd === 'garnet-in' && s.end === 'S');
+    expect(gS).toBeDefined();
+    expect(gS!.separationKm.high).toBeNull();
+    expect(gS!.separationKm.openReason).toBe(OPEN_BEYOND_SUPPORT);
+    expect(gS!.dipSlipKm?.high).toBeNull();
+    expect(gS!.dipSlipKm?.openReason).toBe(OPEN_BEYOND_SUPPORT);
+    const truth = Math.sqrt(40 ** 2 - 64) - Math.sqrt(32.5 ** 2 - (8 - dKm * Math.cos(dipDeg * DEG)) ** 2);
+    expect(truth).toBeCloseTo(7.48, 2);
+    expect(truth).toBeGreaterThanOrEqual(gS!.separationKm.low);
+  });
+
+  it('the ends the samples reach keep numeric ranges that bracket the truth', () => {
+    const closed = rep.separations.filter((s) => s.end === 'N');
+    expect(closed.length).toBeGreaterThanOrEqual(3);
+    for (const s of closed) {
+      const T = ZONE_IN_C[['biotite-in', 'garnet-in', 'staurolite-in', 'kyanite-in', 'sillimanite-in'].indexOf(s.isograd)];
+      const R = (700 - T) / FALL,
+        R2 = (700 - GRADIENT * throwKm - T) / FALL,
+        x2 = 8 - dKm * Math.cos(dipDeg * DEG);
+      const truth = Math.sqrt(R * R - 64) - Math.sqrt(R2 * R2 - x2 * x2);
+      expect(s.separationKm.high, s.isograd).not.toBeNull();
+      expect(truth, s.isograd).toBeGreaterThanOrEqual(s.separationKm.low);
+      expect(truth, s.isograd).toBeLessThanOrEqual(s.separationKm.high!);
+    }
+  });
+});
+
+describe('a band bound beyond the sampled support is open', () => {
+  // Isograd j = 2 (garnet-in); D = 10 km. Grade rising along the trace (sense +1): the band's low end is constrained by
+  // samples below garnet (rank ≤ 1), its high end by samples at garnet or above; a straddling sample (1–3) decides nothing.
+  const pool = [
+    { s: 20, lo: 1, hi: 1 },
+    { s: 40, lo: 3, hi: 3 },
+    { s: 0, lo: 1, hi: 3 },
+    { s: 80, lo: 1, hi: 3 },
+  ];
+  it('a bound within D beyond the last constraining sample stays; one farther is open (−∞ / +∞)', () => {
+    expect(openBeyondSupport([10, 50], pool, 2, 1, 10)).toEqual([10, 50]);
+    expect(openBeyondSupport([9.9, 50.1], pool, 2, 1, 10)).toEqual([-Infinity, Infinity]);
+    // Sense −1 (grade falling along the trace): the low end needs samples at garnet or above, the high end below it.
+    const mirrored = [
+      { s: 20, lo: 3, hi: 3 },
+      { s: 40, lo: 1, hi: 1 },
+    ];
+    expect(openBeyondSupport([10, 50], mirrored, 2, -1, 10)).toEqual([10, 50]);
+    expect(openBeyondSupport([9.9, 50.1], mirrored, 2, -1, 10)).toEqual([-Infinity, Infinity]);
+    // A band between the samples is closed under the sense they show; under the other sense no sample lies on the
+    // right side of either end, and samples straddling the isograd decide nothing.
+    expect(openBeyondSupport([25, 35], pool, 2, 1, 10)).toEqual([25, 35]);
+    expect(openBeyondSupport([25, 35], pool, 2, -1, 10)).toEqual([-Infinity, Infinity]);
+    expect(openBeyondSupport([25, 35], pool.slice(2), 2, 1, 10)).toEqual([-Infinity, Infinity]);
+  });
+  it('an open side band makes the separation interval open above and keeps its lower bound finite', () => {
+    // a at 10 with an open lower bound, b at 4 with a half-width 1.2816 × 1.5 = 1.9224 km each way: d = a − b = 6
+    // extends without bound below (|d| then runs from 0) and to infinity in |d|.
+    const [lo, hi] = separationInterval(
+      { alongKm: 10, profileAlongKm: 10, bandAlongKm: [-Infinity, 12] },
+      { alongKm: 4, profileAlongKm: 4, bandAlongKm: [4 - 1.9224, 4 + 1.9224] },
+    );
+    expect(lo).toBe(0);
+    expect(hi).toBe(Infinity);
+    // a open above only (1.5 km below it): d = 6 extends above without bound and below by √(1.5² + 1.9224²) = 2.438 km,
+    // so |d| runs from 3.562 km with no upper bound.
+    const [lo2, hi2] = separationInterval(
+      { alongKm: 10, profileAlongKm: 10, bandAlongKm: [8.5, Infinity] },
+      { alongKm: 4, profileAlongKm: 4, bandAlongKm: [4 - 1.9224, 4 + 1.9224] },
+    );
+    expect(lo2).toBeCloseTo(6 - Math.hypot(1.5, 1.9224), 9);
+    expect(hi2).toBe(Infinity);
   });
 });
 
