@@ -108,6 +108,54 @@ export interface EmpiricalOptions {
 }
 
 /**
+ * The points an empirical semivariogram is computed from: all of them up to `maxPoints`, above it a fixed subset of
+ * that size (a partial Fisher–Yates shuffle driven by a fixed-seed xorshift32, Marsaglia 2003: the same every run).
+ */
+export function variogramSubset(
+  xAll: ArrayLike<number>,
+  yAll: ArrayLike<number>,
+  zAll: ArrayLike<number>,
+  maxPoints: number,
+): { x: ArrayLike<number>; y: ArrayLike<number>; z: ArrayLike<number> } {
+  if (xAll.length <= maxPoints) return { x: xAll, y: yAll, z: zAll };
+  const idx = Int32Array.from({ length: xAll.length }, (_, i) => i);
+  let s = 0x9e3779b9 | 0;
+  for (let i = 0; i < maxPoints; i++) {
+    s ^= s << 13;
+    s ^= s >>> 17;
+    s ^= s << 5;
+    const j = i + ((s >>> 0) % (xAll.length - i));
+    const t = idx[i];
+    idx[i] = idx[j];
+    idx[j] = t;
+  }
+  const sub = idx.subarray(0, maxPoints);
+  return { x: Float64Array.from(sub, (i) => xAll[i]), y: Float64Array.from(sub, (i) => yAll[i]), z: Float64Array.from(sub, (i) => zAll[i]) };
+}
+
+/**
+ * The lag classes of an empirical semivariogram: width `lagKm` up to `maxLagKm` (default half the diagonal of the
+ * points' envelope, common practice; width default maxLag / 15); class k holds lags in [k·lag, (k + 1)·lag), the last
+ * one closed at maxLag.
+ */
+export function lagClasses(x: ArrayLike<number>, y: ArrayLike<number>, opts: EmpiricalOptions): { lagKm: number; maxLagKm: number; nLags: number } {
+  let x0 = Infinity,
+    x1 = -Infinity,
+    y0 = Infinity,
+    y1 = -Infinity;
+  for (let i = 0; i < x.length; i++) {
+    x0 = Math.min(x0, x[i]);
+    x1 = Math.max(x1, x[i]);
+    y0 = Math.min(y0, y[i]);
+    y1 = Math.max(y1, y[i]);
+  }
+  const maxLagKm = opts.maxLagKm ?? Math.hypot(x1 - x0, y1 - y0) / 2;
+  const lagKm = opts.lagKm ?? maxLagKm / 15;
+  if (!(maxLagKm > 0) || !(lagKm > 0)) throw new RangeError(`lag width and maximum lag must be > 0 km, got ${lagKm}, ${maxLagKm}`);
+  return { lagKm, maxLagKm, nLags: Math.max(1, Math.ceil(maxLagKm / lagKm - 1e-12)) };
+}
+
+/**
  * Empirical semivariogram by Matheron's method-of-moments estimator, lags of width `lagKm` up to `maxLagKm`
  * (pairs found with a radius search, so the cost follows the pairs within maxLag, not N²). Coordinates in km
  * (already transformed for anisotropy if any). Lags with no pairs are left out.
@@ -118,43 +166,9 @@ export function empiricalVariogram(
   zAll: ArrayLike<number>,
   opts: EmpiricalOptions = {},
 ): { lags: EmpiricalLag[]; lagKm: number; maxLagKm: number; pointsUsed: number } {
-  const maxPoints = opts.maxPoints ?? 4000;
-  let x = xAll,
-    y = yAll,
-    z = zAll;
-  if (xAll.length > maxPoints) {
-    // Partial Fisher–Yates shuffle driven by a fixed-seed xorshift32 (Marsaglia 2003): same subset every run.
-    const idx = Int32Array.from({ length: xAll.length }, (_, i) => i);
-    let s = 0x9e3779b9 | 0;
-    for (let i = 0; i < maxPoints; i++) {
-      s ^= s << 13;
-      s ^= s >>> 17;
-      s ^= s << 5;
-      const j = i + ((s >>> 0) % (xAll.length - i));
-      const t = idx[i];
-      idx[i] = idx[j];
-      idx[j] = t;
-    }
-    const sub = idx.subarray(0, maxPoints);
-    x = Float64Array.from(sub, (i) => xAll[i]);
-    y = Float64Array.from(sub, (i) => yAll[i]);
-    z = Float64Array.from(sub, (i) => zAll[i]);
-  }
+  const { x, y, z } = variogramSubset(xAll, yAll, zAll, opts.maxPoints ?? 4000);
   const n = x.length;
-  let x0 = Infinity,
-    x1 = -Infinity,
-    y0 = Infinity,
-    y1 = -Infinity;
-  for (let i = 0; i < n; i++) {
-    x0 = Math.min(x0, x[i]);
-    x1 = Math.max(x1, x[i]);
-    y0 = Math.min(y0, y[i]);
-    y1 = Math.max(y1, y[i]);
-  }
-  const maxLagKm = opts.maxLagKm ?? Math.hypot(x1 - x0, y1 - y0) / 2;
-  const lagKm = opts.lagKm ?? maxLagKm / 15;
-  if (!(maxLagKm > 0) || !(lagKm > 0)) throw new RangeError(`lag width and maximum lag must be > 0 km, got ${lagKm}, ${maxLagKm}`);
-  const nLags = Math.max(1, Math.ceil(maxLagKm / lagKm - 1e-12));
+  const { lagKm, maxLagKm, nLags } = lagClasses(x, y, opts);
   const sumG = new Float64Array(nLags),
     sumH = new Float64Array(nLags),
     cnt = new Float64Array(nLags);
