@@ -63,7 +63,9 @@ export const INTERPOLATE_HELP = `subtherm interpolate: grid a point field by IDW
   --use-quality              IDW weights multiplied by quality (--quality-weights high=1,medium=0.5,low=0.25)
   --variogram auto|spherical|exponential|gaussian|MODEL:NUGGET,PARTIAL_SILL,RANGE_KM
   --lag-km KM --max-lag-km KM   empirical semivariogram lags
-  --anisotropy ANGLE_DEG,RATIO  geometric anisotropy (major-axis azimuth, minor/major range ratio)
+  --anisotropy ANGLE_DEG,RATIO|auto|none   geometric anisotropy: the major axis's azimuth (degrees clockwise
+                             from north) and the minor/major range ratio; auto estimates both from directional
+                             semivariograms and uses them when leave-one-out RMSE improves; none (default) isotropic
   --trend none|linear|quadratic|auto   drift of the mean in the coordinates (kriging; default none):
                              universal kriging with the variogram fitted on least-squares residuals; auto picks
                              the lowest leave-one-out RMSE and lists every drift's RMSE and MSDR

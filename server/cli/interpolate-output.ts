@@ -80,6 +80,11 @@ export function printSurface(field: string, body: ReturnType<typeof surfaceBody>
   );
   const v = body.variogram;
   if (v) out(`variogram ${v.model}: nugget ${v.nugget}, partial sill ${v.partialSill}, range ${v.rangeKm} km`);
+  const a = v?.anisotropyEstimate;
+  if (a)
+    out(
+      `anisotropy estimated: major axis ${a.angleDeg.toFixed(1)}° from north, ratio ${a.ratio.toFixed(3)} (${a.used ? 'used' : 'not used'}: leave-one-out RMSE ${a.cvRmse.anisotropic.toPrecision(4)} against ${a.cvRmse.isotropic.toPrecision(4)} isotropic)`,
+    );
   const t = v?.trend;
   if (t) {
     const side = (t.candidates ?? []).map((c) => `${c.kind} ${c.cvRmse === null ? `(${c.problem})` : `RMSE ${c.cvRmse.toPrecision(4)}`}`).join(', ');

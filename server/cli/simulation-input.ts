@@ -39,7 +39,9 @@ export const SIMULATION_HELP = `  --points P.geojson|P.csv   points (GeoJSON, or
   --variogram auto|spherical|exponential|gaussian|MODEL:NUGGET,PARTIAL_SILL,RANGE_KM
                              of the simulated (normal-score) values; fitted by default
   --lag-km KM --max-lag-km KM   empirical semivariogram lags
-  --anisotropy ANGLE_DEG,RATIO  geometric anisotropy (major-axis azimuth, minor/major range ratio)
+  --anisotropy ANGLE_DEG,RATIO|auto|none   geometric anisotropy: the major axis's azimuth (degrees clockwise
+                             from north) and the minor/major range ratio; auto estimates both from directional
+                             semivariograms and uses them when leave-one-out RMSE improves; none (default) isotropic
   --trend none|linear|quadratic|auto   drift of the mean in the coordinates (default none): the residual is
                              simulated (variogram of least-squares residuals) and the realizations are conditioned
                              by universal kriging, which adds the drift back; auto picks by leave-one-out RMSE

@@ -30,7 +30,7 @@ export const HEAT_FLOW_CORRELATION_DEPRECATED =
 /** The interpolation options of a run that the simulation follows. */
 export interface RunSimulationOptions {
   variogram?: 'auto' | VariogramModelName | VariogramModel;
-  anisotropy?: Anisotropy | null;
+  anisotropy?: Anisotropy | 'auto' | null;
   /** Drift of the mean (the kriged map's): the residual is simulated and conditioned by universal kriging. */
   trend?: TrendKind | 'auto';
   neighbors?: number | 'all';

@@ -23,6 +23,7 @@ import { readRunInputs, type RunInputs } from './run-inputs.ts';
 import { crossValidationLayer, encodeProductLayer, heatFlowLayers, interpolationMethodText } from './run-layers.ts';
 import type { RunLayer, RunResult, SerializedGrid, StoredDataset } from './types.ts';
 import { runSimulationOptions, simulateRunHeatFlow, type HeatFlowSimulation } from './heat-flow-simulation.ts';
+import { anisotropyEstimateSummary } from '../../shared/schema/anisotropy.ts';
 
 export type { RunFile, RunLayer, RunResult, SerializedGrid, StoredDataset } from './types.ts';
 export type { Progress } from './progress.ts';
@@ -143,7 +144,15 @@ function runSummary(
     },
     interpolation: {
       method: inp.interpolation.method,
-      variogram: v ? { ...variogramParameters(interp)!, source: v.source, empirical: v.empirical } : null,
+      variogram: v
+        ? {
+            ...variogramParameters(interp)!,
+            source: v.source,
+            empirical: v.empirical,
+            anisotropy: v.anisotropy,
+            ...(v.anisotropyEstimate ? { anisotropyEstimate: anisotropyEstimateSummary(v.anisotropyEstimate) } : {}),
+          }
+        : null,
       ...(v?.trend ? { trend: trendSummary(v.trend) } : {}),
     },
     crossValidation: cv

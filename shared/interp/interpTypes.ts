@@ -3,6 +3,7 @@ import type { CrossValidation } from './crossValidation.ts';
 import type { OutputGridOptions } from './projection.ts';
 import type { TrendKind } from './drift.ts';
 import type { Anisotropy, EmpiricalLag, VariogramModel, VariogramModelName } from './variogram.ts';
+import type { AnisotropyReport } from './anisotropy-select.ts';
 
 /** The types of the interpolation engine's library entry points (interpolate.ts). */
 
@@ -34,7 +35,8 @@ export interface InterpolationOptions {
   variogram?: 'auto' | VariogramModelName | VariogramModel;
   lagKm?: number;
   maxLagKm?: number;
-  anisotropy?: Anisotropy | null;
+  /** Geometric anisotropy (kriging): given, none (null), or 'auto': estimated and used when it cross-validates better (anisotropy-select.ts). */
+  anisotropy?: Anisotropy | 'auto' | null;
   /**
    * Drift of the mean (kriging): 'none' (ordinary kriging, default), 'linear' or 'quadratic' in the coordinates
    * (universal kriging, drift.ts; the variogram is fitted on the residuals of a least-squares trend), or 'auto': the
@@ -90,6 +92,8 @@ export interface VariogramReport {
   candidates?: { model: VariogramModelName; nugget: number; partialSill: number; rangeKm: number; cvRmse: number }[];
   /** The drift of the mean the kriging used, and how it was chosen (always present for kriging). */
   trend?: TrendReport;
+  /** With anisotropy 'auto': the directional semivariograms, the variogram map, the fitted angle and ratio, and whether they were used. */
+  anisotropyEstimate?: AnisotropyReport;
 }
 
 /** The drift of a kriging (universal kriging with a polynomial drift in the coordinates, or none). */

@@ -85,7 +85,7 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
     gridCrsDef,
     ...search,
     variogram: null,
-    anisotropy: opts.anisotropy ?? null,
+    anisotropy: opts.anisotropy === 'auto' ? null : (opts.anisotropy ?? null),
     faults,
     maxDistanceKm: opts.maxDistanceKm ?? null,
     region,

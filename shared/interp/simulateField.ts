@@ -22,7 +22,8 @@ export interface SimulationOptions {
   /** Integer seed; realization r draws from stream (seed, r). */
   seed: number;
   variogram?: 'auto' | VariogramModelName | VariogramModel;
-  anisotropy?: Anisotropy | null;
+  /** Given, none (null), or 'auto': estimated on the (normal-scored) values and used when it cross-validates better. */
+  anisotropy?: Anisotropy | 'auto' | null;
   /**
    * Drift of the mean (as in interpolation, trendSelect.ts): 'none' (default), 'linear', 'quadratic' or 'auto'. The
    * variogram is fitted on the residuals of a least-squares trend, the residual is simulated and the realizations

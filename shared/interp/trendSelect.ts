@@ -1,7 +1,8 @@
 import { InputError } from '../errors.ts';
 import { TREND_KINDS, type TrendKind } from './drift.ts';
 import type { TrendReport } from './interpTypes.ts';
-import { krigingForTrend, type KrigingChoice, type KrigingContext } from './variogramSelect.ts';
+import type { KrigingChoice, KrigingContext } from './variogramSelect.ts';
+import { krigingWithAnisotropy } from './anisotropy-select.ts';
 
 /**
  * The drift of a kriging: given ('none', 'linear', 'quadratic'), or 'auto': every drift is prepared in full (its
@@ -15,7 +16,7 @@ export function prepareKrigingPlan(ctx: KrigingContext): KrigingChoice {
   const requested = ctx.opts.trend ?? 'none';
   if (requested !== 'auto' && !(TREND_KINDS as readonly string[]).includes(requested))
     throw new InputError(`unknown trend "${String(requested)}"`, [{ field: 'trend', problem: `expected ${TREND_KINDS.join(', ')} or auto` }], 'bad_option');
-  if (requested !== 'auto') return krigingForTrend(ctx, requested, false);
+  if (requested !== 'auto') return krigingWithAnisotropy(ctx, requested, false);
   const candidates: NonNullable<TrendReport['candidates']> = [];
   let best: KrigingChoice | null = null;
   let variogramMs = 0,
@@ -23,7 +24,7 @@ export function prepareKrigingPlan(ctx: KrigingContext): KrigingChoice {
   for (const kind of TREND_KINDS) {
     let c: KrigingChoice;
     try {
-      c = krigingForTrend(ctx, kind, true);
+      c = krigingWithAnisotropy(ctx, kind, true);
     } catch (e) {
       if (!(e instanceof InputError) || kind === 'none') throw e;
       candidates.push({ kind, model: null, cvRmse: null, msdr: null, problem: e.message });

@@ -76,7 +76,7 @@ function checkTrendFeasible(trend: TrendKind, n: number, neighbors: number): voi
 }
 
 /** The OLS trend of the values in the plan's local km and its residuals (the values themselves for none). */
-function trendResiduals(plan: GridPlan, trend: TrendKind): { residuals: Float64Array; ols: TrendReport['ols'] } {
+export function trendResiduals(plan: GridPlan, trend: TrendKind): { residuals: Float64Array; ols: TrendReport['ols'] } {
   if (trend === 'none') return { residuals: plan.z, ols: null };
   const f = driftFrame(trend, plan.x, plan.y);
   const fit = fitDriftOls(f, plan.x, plan.y, plan.z);

@@ -37,7 +37,11 @@ export const interpolationOptionsSchema = z.object({
   variogram: z.union([z.literal('auto'), z.enum(VARIOGRAM_MODELS), variogramModelSchema]).optional(),
   lagKm: z.number().gt(0).optional(),
   maxLagKm: z.number().gt(0).optional(),
-  anisotropy: anisotropySchema.nullable().optional(),
+  /** Geometric anisotropy for kriging: { angleDeg (major-axis azimuth, ° clockwise from north), ratio }, null (none), or 'auto' (estimated). */
+  anisotropy: z
+    .union([anisotropySchema, z.literal('auto')])
+    .nullable()
+    .optional(),
   /**
    * Drift of the mean for kriging: none (ordinary kriging), linear or quadratic in the coordinates (universal
    * kriging; the variogram is fitted on least-squares residuals), or auto (the lowest leave-one-out RMSE).
@@ -99,15 +103,19 @@ export function parseTrendOption(raw: string | undefined): TrendKind | 'auto' {
   );
 }
 
-/** Parses `--anisotropy ANGLE_DEG,RATIO`. */
-export function parseAnisotropyOption(raw: string | undefined): { angleDeg: number; ratio: number } | null {
-  if (raw === undefined) return null;
+/**
+ * Parses `--anisotropy ANGLE_DEG,RATIO|auto|none`: the major axis's azimuth (degrees clockwise from north) and the
+ * minor/major range ratio; `auto` estimates them (shared/interp/anisotropy.ts); `none` (the default) is isotropic.
+ */
+export function parseAnisotropyOption(raw: string | undefined): { angleDeg: number; ratio: number } | 'auto' | null {
+  if (raw === undefined || raw.trim().toLowerCase() === 'none') return null;
+  if (raw.trim().toLowerCase() === 'auto') return 'auto';
   const p = raw.split(',').map((s) => Number(s.trim()));
   const r = anisotropySchema.safeParse({ angleDeg: p[0], ratio: p[1] });
   if (p.length !== 2 || !r.success)
     throw new InputError(
-      `anisotropy: expected ANGLE_DEG,RATIO with ratio in (0, 1], got "${raw}"`,
-      [{ field: 'anisotropy', problem: 'e.g. 30,0.5 (major axis azimuth 30°, minor range half the major)' }],
+      `anisotropy: expected ANGLE_DEG,RATIO with ratio in (0, 1], auto or none, got "${raw}"`,
+      [{ field: 'anisotropy', problem: 'e.g. 30,0.5 (major axis azimuth 30°, minor range half the major), auto (estimated) or none' }],
       'bad_option',
     );
   return r.data;

@@ -2,6 +2,7 @@ import { z } from 'zod';
 import { legendSchema } from '../grid/legend.ts';
 import { VARIOGRAM_MODELS } from '../interp/variogram.ts';
 import { interpolationOptionsSchema } from './interp.ts';
+import { anisotropyEstimateSchema } from './anisotropy.ts';
 import type { IsogradReport } from '../structure/layer.ts';
 import { OPEN_BEYOND_SUPPORT } from '../structure/fault-types.ts';
 
@@ -121,6 +122,10 @@ export const variogramSummarySchema = z.strictObject({
   source: z.enum(['fitted', 'fixed']),
   /** Matheron's estimator per lag: mean pair distance (km), γ̂ (value units²) and the pair count. */
   empirical: z.array(z.strictObject({ lagKm: z.number(), gamma: z.number(), pairs: z.number().int().min(0) })),
+  /** The geometric anisotropy the kriging used (major-axis azimuth, ° clockwise from north; minor/major ratio); null: isotropic. Absent in older runs. */
+  anisotropy: z.strictObject({ angleDeg: z.number(), ratio: z.number() }).nullable().optional(),
+  /** With anisotropy 'auto': directional semivariograms, the variogram map, the fitted angle and ratio and whether they were used. */
+  anisotropyEstimate: anisotropyEstimateSchema.optional(),
 });
 export type VariogramSummary = z.infer<typeof variogramSummarySchema>;
 
