@@ -172,3 +172,31 @@ function solveStep({ a11, a12, a22, b1, b2 }: NormalEquations, anchored: boolean
   if (!(det > 0)) return null;
   return { sq: (a22 * b1 - a12 * b2) / det, st0: (a11 * b2 - a12 * b1) / det };
 }
+/**
+ * Depth (m) whose gradient a weighted straight-line fit measures: for a profile T = a + b·z + c·z² (constant heat
+ * production, Turcotte & Schubert 2002 §4-6) the weighted least-squares slope is b + c·cov_w(z, z²)/var_w(z), which
+ * is the derivative 2c·z_ref + b at z_ref = cov_w(z, z²)/(2·var_w(z)) (the interval's middle for points symmetric
+ * about it). The surface anchor counts as a point at z = 0 with σ = anchorSdC. Falls back to `fallbackM`.
+ */
+export function effectiveDepthM(points: { depthM: number; sdC: number; used: boolean }[], anchorSdC: number | undefined, fallbackM: number): number {
+  let sw = 0,
+    sz = 0,
+    sz2 = 0,
+    sz3 = 0;
+  const add = (z: number, w: number) => {
+    sw += w;
+    sz += w * z;
+    sz2 += w * z * z;
+    sz3 += w * z * z * z;
+  };
+  for (const p of points) if (p.used && p.sdC > 0 && Number.isFinite(p.depthM)) add(p.depthM, 1 / (p.sdC * p.sdC));
+  if (anchorSdC !== undefined && anchorSdC > 0) add(0, 1 / (anchorSdC * anchorSdC));
+  if (!(sw > 0)) return fallbackM;
+  const m1 = sz / sw,
+    m2 = sz2 / sw,
+    m3 = sz3 / sw;
+  const varZ = m2 - m1 * m1,
+    cov = m3 - m1 * m2;
+  const z = varZ > 0 ? cov / (2 * varZ) : NaN;
+  return Number.isFinite(z) && z >= 0 ? z : fallbackM;
+}

@@ -29,7 +29,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/resource/monte-carlo.ts', // 714
   'shared/schema/features.ts', // 437
   'shared/structure/indicator.ts', // 516
-  'shared/wells/analyze.ts', // 510
   'server/cli/isotherms.ts isotherms', // 248
   'server/cli/wells.ts wells', // 184
   'server/routes/project-datasets.ts projectDatasetRoutes', // 182
@@ -53,7 +52,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/structure/isograds.ts computeIsogradsKm', // 227
   'shared/structure/isolines.ts traceIsolines', // 102
   'shared/structure/layer.ts isogradLayer', // 166
-  'shared/wells/analyze.ts analyzeWell', // 302
   'client/src/data.ts uploadPanel', // 99
   'client/src/model.ts modelEditor', // 81
 ];
