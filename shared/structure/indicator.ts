@@ -27,27 +27,17 @@
  * Grids here are in the local km frame: cell (c, r) has its centre at (x0 + c·cellKm, y0 + r·cellKm), row 0 at
  * the south, index r·width + c.
  */
-import { pointSegmentDistance2 } from '../grid/segment.ts';
 import { NeighbourIndex } from '../interp/neighbours.ts';
 import { FaultBarrier } from '../interp/barriers.ts';
 import { EXACT_KM } from '../interp/idw.ts';
 import { MAX_RANK } from './grade.ts';
 import { KrigingPredictor } from '../interp/kriging.ts';
-import { empiricalVariogram, fitVariogram, type VariogramModel } from '../interp/variogram.ts';
+import type { VariogramModel } from '../interp/variogram.ts';
+import { faultDistanceGrid } from './fault-distance.ts';
+import { chooseIndicatorVariograms, correctOrderRelations, indicatorSets, type IndicatorVariogram } from './indicator-variograms.ts';
+
+export { MIN_FIT_SAMPLES, MIN_FIT_MINORITY, correctOrderRelations, type IndicatorVariogram } from './indicator-variograms.ts';
 import type { VisibilityTest } from '../interp/neighbours.ts';
-
-/** Fewest decided samples, and fewest of the rarer class, for a boundary's own indicator variogram fit. */
-export const MIN_FIT_SAMPLES = 40;
-export const MIN_FIT_MINORITY = 8;
-
-/** A boundary's indicator variogram and where it came from. */
-export interface IndicatorVariogram {
-  isograd: number;
-  model: VariogramModel;
-  source: 'fitted' | 'median-indicator' | 'default';
-  samples: number;
-  proportionAbove: number;
-}
 
 /**
  * The fault barrier of one boundary's points, answered from a memo shared by the five boundaries (their points are
@@ -71,30 +61,6 @@ class SwitchedBarrier implements VisibilityTest {
     m.val[g] = v ? 1 : 0;
     return v;
   }
-}
-
-/**
- * Order-relation correction of non-increasing exceedance probabilities p[0] ≥ … ≥ p[4] in [0, 1] (NaN entries kept
- * and skipped): clip, then the mean of the upward pass (running minimum) and the downward pass (running maximum)
- * (Deutsch & Journel 1998, §IV.1.9).
- */
-export function correctOrderRelations(p: Float64Array | number[], n = BOUNDARY_COUNT): void {
-  const up = new Float64Array(n),
-    down = new Float64Array(n);
-  let run = Infinity;
-  for (let j = 0; j < n; j++) {
-    if (Number.isNaN(p[j])) continue;
-    p[j] = Math.min(1, Math.max(0, p[j]));
-    run = Math.min(run, p[j]);
-    up[j] = run;
-  }
-  run = -Infinity;
-  for (let j = n - 1; j >= 0; j--) {
-    if (Number.isNaN(p[j])) continue;
-    run = Math.max(run, p[j]);
-    down[j] = run;
-  }
-  for (let j = 0; j < n; j++) if (!Number.isNaN(p[j])) p[j] = (up[j] + down[j]) / 2;
 }
 
 /** Number of zone boundaries (biotite-in … sillimanite-in). */
@@ -204,92 +170,27 @@ export class IndicatorField {
   /** One ordinary-kriging predictor per boundary over its decided samples, with fitted or median-indicator variograms. */
   private setUpKriging(given: VariogramModel | null): void {
     const n = this.count;
-    const sets: { x: Float64Array; y: Float64Array; z: Float64Array; map: Int32Array }[] = [];
-    for (let j = 1; j <= BOUNDARY_COUNT; j++) {
-      const map = new Int32Array(n).fill(-1);
-      const xs: number[] = [],
-        ys: number[] = [],
-        zs: number[] = [];
-      for (let i = 0; i < n; i++) {
-        let v: number;
-        if (this.lo[i] >= j) v = 1;
-        else if (this.hi[i] < j) v = 0;
-        else continue;
-        map[i] = xs.length;
-        xs.push(this.x[i]);
-        ys.push(this.y[i]);
-        zs.push(v);
-      }
-      sets.push({ x: Float64Array.from(xs), y: Float64Array.from(ys), z: Float64Array.from(zs), map });
-    }
-    // Variograms: fitted where there are enough data of both classes, else the median-indicator one.
-    let x0 = Infinity,
-      x1 = -Infinity,
-      y0 = Infinity,
-      y1 = -Infinity;
-    for (let i = 0; i < n; i++) {
-      x0 = Math.min(x0, this.x[i]);
-      x1 = Math.max(x1, this.x[i]);
-      y0 = Math.min(y0, this.y[i]);
-      y1 = Math.max(y1, this.y[i]);
-    }
-    const diag = Math.hypot(x1 - x0, y1 - y0);
-    const fit = (set: { x: Float64Array; y: Float64Array; z: Float64Array }): VariogramModel | null => {
-      if (!(diag > 0) || set.z.length < 10) return null;
-      try {
-        const e = empiricalVariogram(set.x, set.y, set.z, { maxLagKm: diag / 3 });
-        if (e.lags.length < 3) return null;
-        const m = fitVariogram('spherical', e.lags, { maxRangeKm: diag });
-        return m.partialSill > 0 && Number.isFinite(m.rangeKm) ? { model: m.model, nugget: m.nugget, partialSill: m.partialSill, rangeKm: m.rangeKm } : null;
-      } catch {
-        return null;
-      }
-    };
-    const stats = sets.map((q) => {
-      let ones = 0;
-      for (const v of q.z) ones += v;
-      return { count: q.z.length, ones, p: q.z.length > 0 ? ones / q.z.length : NaN };
-    });
-    let median = -1;
-    for (let j = 0; j < BOUNDARY_COUNT; j++) {
-      if (!(stats[j].count >= 10)) continue;
-      if (median < 0 || Math.abs(stats[j].p - 0.5) < Math.abs(stats[median].p - 0.5)) median = j;
-    }
-    const medianModel = given ?? (median >= 0 ? fit(sets[median]) : null);
-    const fallback: VariogramModel = { model: 'spherical', nugget: 0, partialSill: 0.25, rangeKm: Math.max(diag / 3, 1e-3) };
+    const sets = indicatorSets(this.x, this.y, this.lo, this.hi, BOUNDARY_COUNT);
+    const variograms = chooseIndicatorVariograms(sets, this.x, this.y, given);
     this.visMemo = { stamp: 1, seen: new Int32Array(n), val: new Uint8Array(n) };
     this.kIds = new Int32Array(this.k);
     this.kD2 = new Float64Array(this.k);
     for (let j = 0; j < BOUNDARY_COUNT; j++) {
       const set = sets[j],
-        st = stats[j];
+        v = variograms[j];
       this.kIndex.push(set.map);
-      if (st.count === 0) {
+      if (v === null) {
         this.kp.push(null);
         this.kVis.push(null);
         this.variograms.push(null);
         continue;
       }
-      let model: VariogramModel | null = null,
-        source: IndicatorVariogram['source'] = 'fitted';
-      if (given !== undefined && given !== null) {
-        model = given;
-        source = 'median-indicator';
-      } else if (st.count >= MIN_FIT_SAMPLES && Math.min(st.ones, st.count - st.ones) >= MIN_FIT_MINORITY) model = fit(set);
-      if (model === null) {
-        model = medianModel;
-        source = 'median-indicator';
-      }
-      if (model === null) {
-        model = fallback;
-        source = 'default';
-      }
       const toField = new Int32Array(set.z.length);
       for (let i = 0; i < n; i++) if (set.map[i] >= 0) toField[set.map[i]] = i;
       const vis = this.barrier !== null ? new SwitchedBarrier(this.barrier, toField, this.visMemo) : null;
       this.kVis.push(vis);
-      this.kp.push(new KrigingPredictor(set.x, set.y, set.z, model, { neighbors: this.k, visibility: vis, radiusKm: this.radiusKm }));
-      this.variograms.push({ isograd: j + 1, model, source, samples: st.count, proportionAbove: st.p });
+      this.kp.push(new KrigingPredictor(set.x, set.y, set.z, v.model, { neighbors: this.k, visibility: vis, radiusKm: this.radiusKm }));
+      this.variograms.push(v);
     }
   }
 
@@ -403,38 +304,9 @@ export class IndicatorField {
     return 3 * spacing * Math.sqrt(this.k / Math.PI) + 2 * g.cellKm;
   }
 
-  /**
-   * Distance (km) from each cell centre to the nearest fault piece, capped at `capKm` (cells farther away hold
-   * capKm, a lower bound), into `out`. Brute force over each piece's neighbourhood of cells.
-   */
+  /** Distance (km) from each cell centre to the nearest fault piece, capped at `capKm`, into `out` (fault-distance.ts). */
   faultDistanceGrid(g: LocalGrid, capKm: number, out: Float32Array): void {
-    out.fill(capKm);
-    const f = this.faults;
-    if (f === null) return;
-    const W = g.width,
-      H = g.height,
-      s = g.cellKm;
-    const cap2 = capKm * capKm;
-    for (let q = 0; q + 3 < f.length; q += 4) {
-      const ax = f[q],
-        ay = f[q + 1],
-        bx = f[q + 2],
-        by = f[q + 3];
-      const c0 = Math.max(0, Math.floor((Math.min(ax, bx) - capKm - g.x0) / s));
-      const c1 = Math.min(W - 1, Math.ceil((Math.max(ax, bx) + capKm - g.x0) / s));
-      const r0 = Math.max(0, Math.floor((Math.min(ay, by) - capKm - g.y0) / s));
-      const r1 = Math.min(H - 1, Math.ceil((Math.max(ay, by) + capKm - g.y0) / s));
-      for (let r = r0; r <= r1; r++) {
-        const py = g.y0 + r * s;
-        for (let c = c0; c <= c1; c++) {
-          const d2 = pointSegmentDistance2(g.x0 + c * s, py, ax, ay, bx, by);
-          if (d2 < cap2) {
-            const d = Math.sqrt(d2);
-            if (d < out[r * W + c]) out[r * W + c] = d;
-          }
-        }
-      }
-    }
+    faultDistanceGrid(this.faults, g, capKm, out);
   }
 
   /**

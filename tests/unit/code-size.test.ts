@@ -28,7 +28,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/interp/simulation.ts', // 507
   'shared/resource/monte-carlo.ts', // 714
   'shared/schema/features.ts', // 437
-  'shared/structure/indicator.ts', // 516
   'server/cli/isotherms.ts isotherms', // 248
   'server/cli/wells.ts wells', // 184
   'server/routes/project-datasets.ts projectDatasetRoutes', // 182
@@ -48,7 +47,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/schema/interp.ts pointsFromCsv', // 84
   'shared/structure/grade.ts sampleGrades', // 123
   'shared/structure/grade.ts sampleGrades/(anonymous)', // 100
-  'shared/structure/indicator.ts setUpKriging', // 90
   'shared/structure/isograds.ts computeIsogradsKm', // 227
   'shared/structure/isolines.ts traceIsolines', // 102
   'shared/structure/layer.ts isogradLayer', // 166
