@@ -13,7 +13,7 @@ import { TOOL_NAME, VERSION } from '../version.ts';
 import { converter, localProjectionFor, lonLatToLocalKm, WGS84_DEF } from '../interp/projection.ts';
 import { sampleGrades, type SampleGrade } from './grade.ts';
 import { BOUNDARY_COUNT } from './indicator.ts';
-import { computeIsogradsKm, type IsogradGridOptions } from './isograds.ts';
+import { computeIsogradsKm, type IsogradGridOptions, type IsogradResultKm } from './isograds.ts';
 import { findMisfits, type Misfit } from './misfits.ts';
 import { faultReport, type FaultReport, type Range } from './fault-report.ts';
 import { buildTrace, tracePieces, type Trace } from './trace.ts';
@@ -184,6 +184,108 @@ export function faultTraces(
   return { traces, info: faults.features };
 }
 
+/** The isograd lines as GeoJSON features in lon/lat (inverse: local km → lon/lat), with their properties. */
+function lineFeatures(lines: IsogradResultKm['lines'], inverse: (p: [number, number]) => number[]): IsogradLayer['lines']['features'] {
+  return lines.map((l) => {
+    const coordinates: number[][] = [];
+    for (let i = 0; i < l.coords.length; i += 2) {
+      const q = inverse([l.coords[i], l.coords[i + 1]]);
+      coordinates.push([r6(q[0]), r6(q[1])]);
+    }
+    return {
+      type: 'Feature',
+      geometry: { type: 'LineString', coordinates },
+      properties: {
+        isograd: l.isograd,
+        probability: l.probability,
+        mineral: l.mineral,
+        rank: l.rank,
+        highSide: 'right',
+        closed: l.closed,
+        lengthKm: r3(l.lengthKm),
+        ...(l.bandWidthKm !== undefined ? { bandWidthKm: l.bandWidthKm } : {}),
+        supportRadiusKm: l.support.radiusKm,
+        samplesNearMidpoint: l.support.samplesNearMidpoint,
+        meanSamplesPerVertex: r3(l.support.meanSamplesPerVertex),
+        minSamplesPerVertex: l.support.minSamplesPerVertex,
+      },
+    };
+  });
+}
+
+/** One summary per isograd: its 0.5 lines' count and length, the samples each side, band widths, variogram, disagreeing samples. */
+function isogradSummaries(res: IsogradResultKm, isoLines: IsogradResultKm['lines'], grades: SampleGrade[]): IsogradSummary[] {
+  const isograds: IsogradSummary[] = [];
+  for (let j = 1; j <= BOUNDARY_COUNT; j++) {
+    const ls = isoLines.filter((l) => l.rank === j);
+    let above = 0,
+      below = 0;
+    for (const g of grades) {
+      if (g.lo < 0) continue;
+      if (g.lo >= j) above++;
+      else if (g.hi < j) below++;
+    }
+    const widths = ls
+      .flatMap((l) => l.bandWidthKm?.widthKm ?? [])
+      .filter((v): v is number => v !== null)
+      .sort((a, b) => a - b);
+    const v = res.field.variograms[j - 1];
+    isograds.push({
+      isograd: `${ZONE_NAMES[j]}-in`,
+      mineral: ZONE_NAMES[j],
+      rank: j,
+      lines: ls.length,
+      lengthKm: r3(ls.reduce((s, l) => s + l.lengthKm, 0)),
+      samplesAbove: above,
+      samplesBelow: below,
+      bandWidthKm:
+        widths.length > 0
+          ? {
+              median: widths[widths.length >> 1],
+              p10: widths[Math.floor(0.1 * (widths.length - 1))],
+              p90: widths[Math.ceil(0.9 * (widths.length - 1))],
+              max: widths[widths.length - 1],
+            }
+          : null,
+      variogram:
+        v === null || v === undefined
+          ? null
+          : {
+              source: v.source,
+              model: v.model.model,
+              nugget: r3(v.model.nugget),
+              partialSill: r3(v.model.partialSill),
+              rangeKm: r3(v.model.rangeKm),
+              samples: v.samples,
+            },
+      disagreeing: res.disagreeing[j - 1].samples.map((q) => ({ id: q.id, says: q.says, probability: q.probability })),
+    });
+  }
+  return isograds;
+}
+
+/** The method as reported: the indicator method in words, its parameters, the grid, support, barriers and frame. */
+function reportMethod(opts: IsogradLayerOptions, res: IsogradResultKm, projection: string, faultBarriers: boolean): IsogradReport['method'] {
+  const kriging = (opts.method ?? 'kriging') === 'kriging';
+  const power = opts.power ?? 2,
+    neighbors = opts.neighbors ?? (kriging ? 16 : 12);
+  return {
+    indicator: kriging
+      ? `indicator kriging (Journel 1983): ordinary kriging of each isograd's indicator, ${neighbors} nearest visible samples, fitted spherical indicator variograms or the median-indicator one, order relations corrected; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`
+      : `indicator inverse-distance weighting (Shepard 1968), power ${power}, ${neighbors} nearest visible samples; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`,
+    power,
+    neighbors,
+    cellKm: res.grid.cellKm,
+    grid: { width: res.grid.width, height: res.grid.height },
+    supportKm: r3(res.supportKm),
+    faultBarriers,
+    projection,
+    highSide: 'right',
+    gradeRules:
+      "zone → its rank; facies only → ranks whose isograd midpoint temperature lies in the facies field's span; peak T–P only → ranks between the isograd temperature ranges certainly and possibly crossed; partial samples inform only the isograds they decide",
+  };
+}
+
 /**
  * Isograd lines and the structural report from grade samples and (optionally) fault traces. Samples and faults
  * must be validated collections (parseFeatureCollection 'samples' / 'faults'); unknown zone or facies names throw
@@ -239,82 +341,9 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
     heatFlowMWm2: opts.heatFlowMWm2 ?? opts.paleo?.heatFlowMWm2,
   });
 
-  const features: IsogradLayer['lines']['features'] = res.lines.map((l) => {
-    const coordinates: number[][] = [];
-    for (let i = 0; i < l.coords.length; i += 2) {
-      const q = conv.inverse([l.coords[i], l.coords[i + 1]]);
-      coordinates.push([r6(q[0]), r6(q[1])]);
-    }
-    return {
-      type: 'Feature',
-      geometry: { type: 'LineString', coordinates },
-      properties: {
-        isograd: l.isograd,
-        probability: l.probability,
-        mineral: l.mineral,
-        rank: l.rank,
-        highSide: 'right',
-        closed: l.closed,
-        lengthKm: r3(l.lengthKm),
-        ...(l.bandWidthKm !== undefined ? { bandWidthKm: l.bandWidthKm } : {}),
-        supportRadiusKm: l.support.radiusKm,
-        samplesNearMidpoint: l.support.samplesNearMidpoint,
-        meanSamplesPerVertex: r3(l.support.meanSamplesPerVertex),
-        minSamplesPerVertex: l.support.minSamplesPerVertex,
-      },
-    };
-  });
-
-  const isograds: IsogradSummary[] = [];
-  for (let j = 1; j <= BOUNDARY_COUNT; j++) {
-    const ls = isoLines.filter((l) => l.rank === j);
-    let above = 0,
-      below = 0;
-    for (const g of grades) {
-      if (g.lo < 0) continue;
-      if (g.lo >= j) above++;
-      else if (g.hi < j) below++;
-    }
-    const widths = ls
-      .flatMap((l) => l.bandWidthKm?.widthKm ?? [])
-      .filter((v): v is number => v !== null)
-      .sort((a, b) => a - b);
-    const v = res.field.variograms[j - 1];
-    isograds.push({
-      isograd: `${ZONE_NAMES[j]}-in`,
-      mineral: ZONE_NAMES[j],
-      rank: j,
-      lines: ls.length,
-      lengthKm: r3(ls.reduce((s, l) => s + l.lengthKm, 0)),
-      samplesAbove: above,
-      samplesBelow: below,
-      bandWidthKm:
-        widths.length > 0
-          ? {
-              median: widths[widths.length >> 1],
-              p10: widths[Math.floor(0.1 * (widths.length - 1))],
-              p90: widths[Math.ceil(0.9 * (widths.length - 1))],
-              max: widths[widths.length - 1],
-            }
-          : null,
-      variogram:
-        v === null || v === undefined
-          ? null
-          : {
-              source: v.source,
-              model: v.model.model,
-              nugget: r3(v.model.nugget),
-              partialSill: r3(v.model.partialSill),
-              rangeKm: r3(v.model.rangeKm),
-              samples: v.samples,
-            },
-      disagreeing: res.disagreeing[j - 1].samples.map((q) => ({ id: q.id, says: q.says, probability: q.probability })),
-    });
-  }
+  const features = lineFeatures(res.lines, (p) => conv.inverse(p));
+  const isograds = isogradSummaries(res, isoLines, grades);
   const count = (s: string) => grades.filter((g) => g.source === s).length;
-  const kriging = (opts.method ?? 'kriging') === 'kriging';
-  const power = opts.power ?? 2,
-    neighbors = opts.neighbors ?? (kriging ? 16 : 12);
   const report: IsogradReport = {
     isograds,
     faults: reports.map(faultSummary),
@@ -325,21 +354,7 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
       if (g.aluminosilicate !== undefined) o.aluminosilicate = g.aluminosilicate;
       return o;
     }),
-    method: {
-      indicator: kriging
-        ? `indicator kriging (Journel 1983): ordinary kriging of each isograd's indicator, ${neighbors} nearest visible samples, fitted spherical indicator variograms or the median-indicator one, order relations corrected; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`
-        : `indicator inverse-distance weighting (Shepard 1968), power ${power}, ${neighbors} nearest visible samples; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`,
-      power,
-      neighbors,
-      cellKm: res.grid.cellKm,
-      grid: { width: res.grid.width, height: res.grid.height },
-      supportKm: r3(res.supportKm),
-      faultBarriers: pieces !== null,
-      projection: proj.def,
-      highSide: 'right',
-      gradeRules:
-        "zone → its rank; facies only → ranks whose isograd midpoint temperature lies in the facies field's span; peak T–P only → ranks between the isograd temperature ranges certainly and possibly crossed; partial samples inform only the isograds they decide",
-    },
+    method: reportMethod(opts, res, proj.def, pieces !== null),
     sampleCounts: { total: n, zone: count('zone'), facies: count('facies'), peakPt: count('peak-pt'), none: count('none') },
     droppedLoops: res.droppedLoops,
     warnings,

@@ -49,7 +49,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/structure/grade.ts sampleGrades/(anonymous)', // 100
   'shared/structure/isograds.ts computeIsogradsKm', // 227
   'shared/structure/isolines.ts traceIsolines', // 102
-  'shared/structure/layer.ts isogradLayer', // 166
   'client/src/data.ts uploadPanel', // 99
   'client/src/model.ts modelEditor', // 81
 ];
