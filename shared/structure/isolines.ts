@@ -21,35 +21,19 @@ export interface Isoline {
 }
 
 /**
- * Isolines of `values` (length width·height, index r·width + c) at `level`; "high" means value ≥ level.
- * @param blocked optional per-edge flags: edge id 2·(r·W + c) is the edge (c, r)–(c + 1, r), 2·(r·W + c) + 1 the
- *   edge (c, r)–(c, r + 1); a non-zero flag suppresses any crossing on it
+ * Marching squares over the cells: links each cell's entering edge to its leaving edge (next[entering] = leaving,
+ * hasPrev[leaving] = 1), edges numbered 2·(r·W + c) (horizontal, from node (c, r)) and + 1 (vertical); saddles are
+ * resolved by the cell's centre value; cells with a NaN corner or a blocked edge are skipped.
  */
-export function traceIsolines(values: ArrayLike<number>, g: LocalGrid, level: number, blocked: Uint8Array | null = null, offset = 0): Isoline[] {
-  const W = g.width,
-    H = g.height;
-  if (W < 2 || H < 2) return [];
-  const E = 2 * W * H;
-  const next = new Int32Array(E).fill(-1);
-  const hasPrev = new Uint8Array(E);
-  const px = new Float64Array(E),
-    py = new Float64Array(E);
-  const v = (c: number, r: number) => values[offset + r * W + c];
-  const point = (e: number) => {
-    const cell = e >> 1,
-      c = cell % W,
-      r = (cell - c) / W;
-    const a = v(c, r);
-    if (e & 1) {
-      const b = v(c, r + 1);
-      px[e] = c;
-      py[e] = r + (level - a) / (b - a);
-    } else {
-      const b = v(c + 1, r);
-      px[e] = c + (level - a) / (b - a);
-      py[e] = r;
-    }
-  };
+function linkCellEdges(
+  v: (c: number, r: number) => number,
+  W: number,
+  H: number,
+  level: number,
+  blocked: Uint8Array | null,
+  next: Int32Array,
+  hasPrev: Uint8Array,
+): void {
   const ids = [0, 0, 0, 0];
   const hi = [false, false, false, false];
   const cv = [0, 0, 0, 0];
@@ -92,6 +76,39 @@ export function traceIsolines(values: ArrayLike<number>, g: LocalGrid, level: nu
       }
     }
   }
+}
+
+/**
+ * Isolines of `values` (length width·height, index r·width + c) at `level`; "high" means value ≥ level.
+ * @param blocked optional per-edge flags: edge id 2·(r·W + c) is the edge (c, r)–(c + 1, r), 2·(r·W + c) + 1 the
+ *   edge (c, r)–(c, r + 1); a non-zero flag suppresses any crossing on it
+ */
+export function traceIsolines(values: ArrayLike<number>, g: LocalGrid, level: number, blocked: Uint8Array | null = null, offset = 0): Isoline[] {
+  const W = g.width,
+    H = g.height;
+  if (W < 2 || H < 2) return [];
+  const E = 2 * W * H;
+  const next = new Int32Array(E).fill(-1);
+  const hasPrev = new Uint8Array(E);
+  const px = new Float64Array(E),
+    py = new Float64Array(E);
+  const v = (c: number, r: number) => values[offset + r * W + c];
+  const point = (e: number) => {
+    const cell = e >> 1,
+      c = cell % W,
+      r = (cell - c) / W;
+    const a = v(c, r);
+    if (e & 1) {
+      const b = v(c, r + 1);
+      px[e] = c;
+      py[e] = r + (level - a) / (b - a);
+    } else {
+      const b = v(c + 1, r);
+      px[e] = c + (level - a) / (b - a);
+      py[e] = r;
+    }
+  };
+  linkCellEdges(v, W, H, level, blocked, next, hasPrev);
   const lines: Isoline[] = [];
   const seen = new Uint8Array(E);
   const toKm = (list: number[], closed: boolean): Isoline => {

@@ -48,7 +48,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/structure/grade.ts sampleGrades', // 123
   'shared/structure/grade.ts sampleGrades/(anonymous)', // 100
   'shared/structure/isograds.ts computeIsogradsKm', // 227
-  'shared/structure/isolines.ts traceIsolines', // 102
   'client/src/data.ts uploadPanel', // 99
   'client/src/model.ts modelEditor', // 81
 ];
