@@ -9,6 +9,7 @@ import type { PointData } from '../../shared/interp/interpolate.ts';
 import type { BlockPolygon } from '../../shared/interp/blockKriging.ts';
 import { parseJson, readPointsFile, readText, sha256 } from './point-input.ts';
 import type { InterpolateArgs } from './interpolate-options.ts';
+import { trendOption, type TrendChoice } from './drift-input.ts';
 
 export interface InterpolationInputs {
   points: PointData;
@@ -18,6 +19,8 @@ export interface InterpolationInputs {
   region: number[][][] | null;
   /** Block polygons (null: no --block). */
   blocks: BlockPolygon[] | null;
+  /** --trend, with the external drift grid when it names one. */
+  trend: TrendChoice;
   /** SHA-256 of each file read, by option name. */
   hashes: Record<string, string>;
 }
@@ -70,5 +73,7 @@ export async function readInterpolationInputs(
     hashes.block = sha256(txt);
     blocks = blockPolygonsFromGeoJson(parseJson(txt, a.block), a.block);
   }
-  return { points: read.points, faults, region, blocks, hashes };
+  const trend = await trendOption(a.trend);
+  if (trend.sha256 !== null) hashes.drift = trend.sha256;
+  return { points: read.points, faults, region, blocks, trend, hashes };
 }

@@ -3,7 +3,7 @@
  * engine's InterpolationOptions (every choice checked here, with errors naming the option).
  */
 import { InputError } from '../../shared/errors.ts';
-import { parseVariogramOption, parseAnisotropyOption, parseTrendOption } from '../../shared/schema/interp.ts';
+import { parseVariogramOption, parseAnisotropyOption } from '../../shared/schema/interp.ts';
 import { WGS84_DEF } from '../../shared/interp/projection.ts';
 import type { InterpolationOptions } from '../../shared/interp/interpolate.ts';
 import { parseVerbArgs, numberOption } from './args.ts';
@@ -69,6 +69,9 @@ export const INTERPOLATE_HELP = `subtherm interpolate: grid a point field by IDW
   --trend none|linear|quadratic|auto   drift of the mean in the coordinates (kriging; default none):
                              universal kriging with the variogram fitted on least-squares residuals; auto picks
                              the lowest leave-one-out RMSE and lists every drift's RMSE and MSDR
+  --trend drift:G.tif | auto:drift:G.tif   kriging with an external drift: the covariate is the GeoTIFF G.tif
+                             (e.g. sediment thickness), read bilinearly at the points and cells, which it must
+                             cover; auto:drift:G.tif lets auto compare it with the polynomial drifts
   --error-field FIELD        per-point measurement standard deviation (e.g. uncertaintyMWm2): its square goes on
                              the kriging diagonal, the nugget is split into that known error and a micro-scale
                              part, maps and sd are of the true field (error-filtered)
@@ -165,7 +168,7 @@ export interface OutputCrs {
 /** The engine's options from the verb's arguments, the barriers and region read from files, and the output CRS. */
 export function interpolationOptions(
   a: InterpolateArgs & { method: 'idw' | 'kriging' },
-  inputs: Pick<InterpolationInputs, 'faults' | 'region'>,
+  inputs: Pick<InterpolationInputs, 'faults' | 'region' | 'trend'>,
   errorField: string | undefined,
   out: OutputCrs,
 ): InterpolationOptions {
@@ -185,7 +188,8 @@ export function interpolationOptions(
     lagKm: opt('lag-km'),
     maxLagKm: opt('max-lag-km'),
     anisotropy: parseAnisotropyOption(a.anisotropy),
-    trend: parseTrendOption(a.trend),
+    trend: inputs.trend.trend,
+    externalDrift: inputs.trend.externalDrift,
     measurementError: errorField !== undefined,
     faults: inputs.faults,
     region: inputs.region,

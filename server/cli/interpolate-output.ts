@@ -12,6 +12,7 @@ import { writeGeoTiffFile } from '../io/geotiff.ts';
 export function krigingName(method: 'idw' | 'kriging', result: Pick<InterpolationResult, 'variogram'>): string {
   if (method === 'idw') return 'inverse-distance weighting';
   const kind = result.variogram?.trend?.kind ?? 'none';
+  if (kind === 'external') return `kriging with an external drift (${result.variogram?.trend?.ols?.covariate?.name ?? 'covariate grid'})`;
   return kind === 'none' ? 'ordinary kriging' : `universal kriging (${kind} drift)`;
 }
 

@@ -12,6 +12,7 @@ import { parseVerbArgs, numberOption } from './args.ts';
 import { optionalNumber, parseJson, readText } from './point-input.ts';
 import type { PointData } from '../../shared/interp/interpolate.ts';
 import { SIMULATION_HELP, SIMULATION_OPTIONS, gridOptionsFromArgs, readSimulationPoints, simulationOptionsFromArgs } from './simulation-input.ts';
+import { trendOption } from './drift-input.ts';
 
 const OPTIONS = {
   ...SIMULATION_OPTIONS,
@@ -25,7 +26,10 @@ const OPTIONS = {
 
 const HELP = `subtherm simulate: conditional simulation of a point field (realizations that honour the data and the variogram)
 
-${SIMULATION_HELP.replace('  --cell-km KM | --size NXxNY   grid cell size (km) or grid size\n', '  --cell-km KM | --size NXxNY   grid cell size (km) or grid size; with --out-dir\n')}  --realizations N           number of realizations (1..10000), required
+${SIMULATION_HELP.replace('  --cell-km KM | --size NXxNY   grid cell size (km) or grid size\n', '  --cell-km KM | --size NXxNY   grid cell size (km) or grid size; with --out-dir\n')}  --trend drift:G.tif | auto:drift:G.tif   kriging with an external drift: the covariate is the GeoTIFF G.tif
+                             (e.g. sediment thickness), read bilinearly at the points and targets, which it must
+                             cover; auto:drift:G.tif lets auto compare it with the polynomial drifts
+  --realizations N           number of realizations (1..10000), required
   --seed S                   integer seed, required: the same seed gives the same realizations
   --at T.geojson             simulate at these points: JSON with targets and realizations
   --out-dir DIR              writes <field>.mean.tif, .sd.tif, .p10.tif, .p50.tif, .p90.tif
@@ -91,8 +95,9 @@ export async function simulate(argv: string[]): Promise<number> {
   checkArgs(a);
   const read = await readSimulationPoints(a);
   const units = read.field === 'heatFlowMWm2' ? 'mW/m²' : '';
+  const trend = await trendOption(a.trend);
   const opts: SimulationOptions = {
-    ...simulationOptionsFromArgs(a, numberOption('realizations', a.realizations), numberOption('seed', a.seed), units),
+    ...simulationOptionsFromArgs(a, numberOption('realizations', a.realizations), numberOption('seed', a.seed), units, trend),
     maxValues: optionalNumber('max-values', a['max-values']),
   };
   const c: VerbContext = { field: read.field, units, points: read.points, opts, warnings: [...read.warnings], json: a.json === true, t0, readMs: 0 };
@@ -102,7 +107,7 @@ export async function simulate(argv: string[]): Promise<number> {
   }
   opts.grid = await gridOptionsFromArgs(a);
   c.readMs = performance.now() - t0;
-  return onGrid(c, a['out-dir']!, a['keep-realizations'] === true, read.sha256);
+  return onGrid(c, a['out-dir']!, a['keep-realizations'] === true, { points: read.sha256, ...(trend.sha256 === null ? {} : { drift: trend.sha256 }) });
 }
 
 /** --at: the realizations at the targets, one JSON object (or a table of their summaries). */
@@ -166,7 +171,7 @@ async function writeAll(files: { name: string; bytes: Uint8Array }[]): Promise<s
 }
 
 /** A grid: the per-cell summaries as GeoTIFFs (and every realization with --keep-realizations) in `dir`. */
-async function onGrid(c: VerbContext, dir: string, keep: boolean, pointsSha256: string): Promise<number> {
+async function onGrid(c: VerbContext, dir: string, keep: boolean, inputSha256: Record<string, string>): Promise<number> {
   const { field, units } = c;
   const r = simulateGrid(c.points, c.opts);
   const tsum = performance.now();
@@ -195,7 +200,7 @@ async function onGrid(c: VerbContext, dir: string, keep: boolean, pointsSha256: 
     transform: r.transform.kind,
     trend: v.trend?.kind ?? 'none',
     sampler: r.sampler.kind,
-    inputSha256: { points: pointsSha256 },
+    inputSha256,
     created: new Date().toISOString(),
   };
   const products: [string, Float32Array, string][] = [

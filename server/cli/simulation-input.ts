@@ -11,6 +11,7 @@ import type { PointData } from '../../shared/interp/interpolate.ts';
 import type { SimulationOptions } from '../../shared/interp/simulateField.ts';
 import { numberOption } from './args.ts';
 import { bboxOption, neighborsOption, optionalNumber, readPointsFile, sizeOption } from './point-input.ts';
+import { namesDriftGrid, type TrendChoice } from './drift-input.ts';
 import type { RunSimulationOptions } from '../runs/heat-flow-simulation.ts';
 
 /** parseArgs options of the simulation (the verb adds its own). */
@@ -80,8 +81,17 @@ export function declusterOption(raw: string | undefined): NonNullable<Simulation
   return { cellKm };
 }
 
-/** The simulation options from the shared flags (realizations, seed and budget are the verb's). */
-export function simulationOptionsFromArgs(a: SimulationArgs, realizations: number, seed: number, units: string): SimulationOptions {
+/**
+ * The simulation options from the shared flags (realizations, seed and budget are the verb's). A verb that reads a
+ * drift grid passes the parsed --trend as `trend`; the others refuse a drift grid.
+ */
+export function simulationOptionsFromArgs(a: SimulationArgs, realizations: number, seed: number, units: string, trend?: TrendChoice): SimulationOptions {
+  if (trend === undefined && namesDriftGrid(a.trend))
+    throw new InputError(
+      `--trend ${a.trend}: an external drift grid is read by simulate and interpolate only`,
+      [{ field: 'trend', problem: 'expected none, linear, quadratic or auto here; or simulate with --keep-realizations and use its realizations' }],
+      'bad_option',
+    );
   const transform = a.transform ?? 'normal-score';
   if (transform !== 'normal-score' && transform !== 'none')
     throw new InputError(
@@ -101,7 +111,8 @@ export function simulationOptionsFromArgs(a: SimulationArgs, realizations: numbe
     seed,
     variogram: parseVariogramOption(a.variogram),
     anisotropy: parseAnisotropyOption(a.anisotropy),
-    trend: parseTrendOption(a.trend),
+    trend: trend?.trend ?? parseTrendOption(a.trend),
+    externalDrift: trend?.externalDrift ?? null,
     transform,
     declustering,
     measurementError: a['error-field'] !== undefined,
@@ -138,7 +149,7 @@ export function heatFlowSimulationOptions(a: SimulationArgs): RunSimulationOptio
   return {
     variogram: so.variogram,
     anisotropy: so.anisotropy,
-    trend: so.trend,
+    trend: so.trend as RunSimulationOptions['trend'], // never 'external': this path refuses a drift grid above
     neighbors: so.neighbors,
     lagKm: so.lagKm,
     maxLagKm: so.maxLagKm,

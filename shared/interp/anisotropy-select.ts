@@ -1,4 +1,4 @@
-import type { TrendKind } from './drift.ts';
+import type { DriftKind } from './drift.ts';
 import { estimateAnisotropy, type AnisotropyEstimate } from './anisotropy.ts';
 import { krigingForTrend, trendResiduals, type KrigingChoice, type KrigingContext } from './variogramSelect.ts';
 import type { VariogramModelName } from './variogram.ts';
@@ -19,7 +19,7 @@ export interface AnisotropyReport extends AnisotropyEstimate {
  * variogram refitted in the rotated, stretched coordinates); the one with the lower leave-one-out RMSE is used, as
  * `--trend auto` chooses a drift (Isaaks & Srivastava 1989, ch. 15). The report carries the estimate either way.
  */
-export function krigingWithAnisotropy(ctx: KrigingContext, trend: TrendKind, forceCv: boolean): KrigingChoice {
+export function krigingWithAnisotropy(ctx: KrigingContext, trend: DriftKind, forceCv: boolean): KrigingChoice {
   if (ctx.opts.anisotropy !== 'auto') return krigingForTrend(ctx, trend, forceCv);
   const iso = krigingForTrend({ ...ctx, basePlan: { ...ctx.basePlan, anisotropy: null } }, trend, true);
   const { residuals } = trendResiduals({ ...ctx.basePlan, trend }, trend);

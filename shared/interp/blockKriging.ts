@@ -223,6 +223,12 @@ export function blockEstimates(
       [{ field: 'block', problem: `expected at most ${plan.maxGlobal} points` }],
       'too_many_points',
     );
+  if (plan.trend === 'external')
+    throw new InputError(
+      'block estimates with an external drift are not available (the covariate would be needed over each block)',
+      [{ field: 'block', problem: 'use --trend none, linear or quadratic with --block' }],
+      'bad_option',
+    );
   const bk = new BlockKriging(plan.x, plan.y, plan.z, plan.variogram, plan.anisotropy, plan.errorVariance, plan.trend ?? 'none');
   return polygons.map((poly) => {
     const rings = poly.rings.map((ring) => {

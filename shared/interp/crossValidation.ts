@@ -2,7 +2,7 @@ import type { KrigingPredictor } from './kriging.ts';
 import type { IdwPredictor } from './idw.ts';
 import { choleskyInPlace, choleskySolve, dot } from './linalg.ts';
 import { covariance, type VariogramModel } from './variogram.ts';
-import { driftAt, driftTerms, type DriftFrame } from './drift.ts';
+import { driftAtDatum, driftTerms, type DriftFrame } from './drift.ts';
 
 /**
  * Leave-one-out cross-validation: each point is predicted from the others with the same method and
@@ -111,7 +111,7 @@ export function crossValidateKriging(
   const res: CvResidual[] = [];
   let un = 0;
   for (let i = 0; i < n; i++) {
-    const m = p.predict(x[i], y[i], out, true, i);
+    const m = p.predict(x[i], y[i], out, true, i, drift?.covariate?.atData[i] ?? NaN);
     if (m === 0 || !Number.isFinite(out[0])) {
       un++;
       continue;
@@ -151,7 +151,7 @@ export function dubrule(
   const F = new Float64Array(n * p),
     row = new Float64Array(p);
   for (let i = 0; i < n; i++) {
-    driftAt(frame, x[i], y[i], row);
+    driftAtDatum(frame, x, y, i, row);
     for (let j = 0; j < p; j++) F[j * n + i] = row[j];
   }
   const B = new Float64Array(n * p);

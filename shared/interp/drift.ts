@@ -13,18 +13,39 @@ import { choleskyInPlace, choleskySolve, dot } from './linalg.ts';
 
 export const TREND_KINDS = ['none', 'linear', 'quadratic'] as const;
 export type TrendKind = (typeof TREND_KINDS)[number];
+/**
+ * A drift: a polynomial in the coordinates, or 'external': kriging with an external drift (Wackernagel 2003, ch. 37;
+ * Goovaerts 1997, §6.3.3), whose terms are 1 and a covariate s(x) known at the data and at every location
+ * estimated (e.g. a sediment-thickness grid), m(x) = a₀ + a₁·s(x).
+ */
+export type DriftKind = TrendKind | 'external';
 
-/** Number of drift monomials of a trend (1 for none: the ordinary-kriging constant). */
-export function driftTerms(kind: TrendKind): number {
-  return kind === 'quadratic' ? 6 : kind === 'linear' ? 3 : 1;
+/** Number of drift terms (1 for none: the ordinary-kriging constant; 2 for an external drift: 1 and s). */
+export function driftTerms(kind: DriftKind): number {
+  return kind === 'quadratic' ? 6 : kind === 'linear' ? 3 : kind === 'external' ? 2 : 1;
 }
 
-/** A drift in coordinates centred on (cxKm, cyKm) and divided by scaleKm. Structured-cloneable. */
+/**
+ * A drift in coordinates centred on (cxKm, cyKm) and divided by scaleKm; an external drift carries its covariate at
+ * the data (indexed as the predictor's points) with the centre and scale it enters with. Structured-cloneable.
+ */
 export interface DriftFrame {
-  kind: TrendKind;
+  kind: DriftKind;
   cxKm: number;
   cyKm: number;
   scaleKm: number;
+  covariate?: { atData: Float64Array; mean: number; scale: number };
+}
+
+/** The frame of an external drift: the covariate at the data, centred on its mean and divided by its sd. */
+export function externalDriftFrame(atData: Float64Array): DriftFrame {
+  const n = atData.length;
+  let mean = 0;
+  for (let i = 0; i < n; i++) mean += atData[i] / n;
+  let ss = 0;
+  for (let i = 0; i < n; i++) ss += (atData[i] - mean) ** 2;
+  const sd = Math.sqrt(ss / Math.max(1, n));
+  return { kind: 'external', cxKm: 0, cyKm: 0, scaleKm: 1, covariate: { atData, mean, scale: sd > 0 ? sd : 1 } };
 }
 
 /** The frame of a trend on these coordinates: their mean as the centre, the largest half-extent as the scale. */
@@ -48,10 +69,14 @@ export function driftFrame(kind: TrendKind, x: ArrayLike<number>, y: ArrayLike<n
   return { kind, cxKm: n > 0 ? sx / n : 0, cyKm: n > 0 ? sy / n : 0, scaleKm: half > 0 ? half : 1 };
 }
 
-/** The drift monomials at (x, y) km into out[0..p). */
-export function driftAt(f: DriftFrame, x: number, y: number, out: Float64Array): void {
+/** The drift terms at (x, y) km into out[0..p); an external drift takes the covariate there as `s`. */
+export function driftAt(f: DriftFrame, x: number, y: number, out: Float64Array, s = NaN): void {
   out[0] = 1;
   if (f.kind === 'none') return;
+  if (f.kind === 'external') {
+    out[1] = (s - f.covariate!.mean) / f.covariate!.scale;
+    return;
+  }
   const u = (x - f.cxKm) / f.scaleKm,
     v = (y - f.cyKm) / f.scaleKm;
   out[1] = u;
@@ -60,6 +85,11 @@ export function driftAt(f: DriftFrame, x: number, y: number, out: Float64Array):
   out[3] = u * u;
   out[4] = u * v;
   out[5] = v * v;
+}
+
+/** The drift terms at datum i (coordinates x[i], y[i]; an external drift's covariate from the frame). */
+export function driftAtDatum(f: DriftFrame, x: ArrayLike<number>, y: ArrayLike<number>, i: number, out: Float64Array): void {
+  driftAt(f, x[i], y[i], out, f.covariate === undefined ? NaN : f.covariate.atData[i]);
 }
 
 /**
@@ -80,7 +110,7 @@ export function fitDriftOls(
     atz = new Float64Array(p),
     row = new Float64Array(p);
   for (let i = 0; i < n; i++) {
-    driftAt(f, x[i], y[i], row);
+    driftAtDatum(f, x, y, i, row);
     for (let j = 0; j < p; j++) {
       atz[j] += row[j] * z[i];
       for (let k = 0; k <= j; k++) ata[j * p + k] += row[j] * row[k];
@@ -92,7 +122,7 @@ export function fitDriftOls(
   const residuals = new Float64Array(n);
   let rss = 0;
   for (let i = 0; i < n; i++) {
-    driftAt(f, x[i], y[i], row);
+    driftAtDatum(f, x, y, i, row);
     residuals[i] = z[i] - dot(row, a, p);
     rss += residuals[i] * residuals[i];
   }
@@ -144,7 +174,7 @@ export class DriftSystem {
     const fr = this.f0;
     for (let j = 0; j < p; j++) {
       for (let i = 0; i < n; i++) {
-        driftAt(this.frame, x[ids[i]], y[ids[i]], fr);
+        driftAtDatum(this.frame, x, y, ids[i], fr);
         col[i] = fr[j];
       }
       const bj = B.subarray(j * maxN, j * maxN + n);
@@ -158,18 +188,18 @@ export class DriftSystem {
     // S[j][k] = F_jᵀ B_k (symmetric): accumulate over the points' monomials.
     S.fill(0);
     for (let i = 0; i < n; i++) {
-      driftAt(this.frame, x[ids[i]], y[ids[i]], fr);
+      driftAtDatum(this.frame, x, y, ids[i], fr);
       for (let j = 0; j < p; j++) for (let k = 0; k <= j; k++) S[j * p + k] += fr[j] * B[k * maxN + i];
     }
     return n >= p && choleskyInPlace(S, p, p, 1e-12) && g.every(Number.isFinite);
   }
 
   /**
-   * Solves for μ at (qx, qy) with covariance vector c₀ (n entries); returns [the estimate's correction μᵀg, the
-   * variance term μᵀr] into `out`.
+   * Solves for μ at (qx, qy) (an external drift's covariate there: s0) with covariance vector c₀ (n entries);
+   * returns [the estimate's correction μᵀg, the variance term μᵀr] into `out`.
    */
-  solveAt(c0: Float64Array, n: number, qx: number, qy: number, out: Float64Array): void {
-    driftAt(this.frame, qx, qy, this.f0);
+  solveAt(c0: Float64Array, n: number, qx: number, qy: number, out: Float64Array, s0 = NaN): void {
+    driftAt(this.frame, qx, qy, this.f0, s0);
     this.solveWith(c0, n, this.f0, out);
   }
 

@@ -6,7 +6,8 @@ import { IdwPredictor } from './idw.ts';
 import { KrigingPredictor } from './kriging.ts';
 import { RegionMask } from './mask.ts';
 import { anisotropyMatrix, transformCoords, type Anisotropy, type VariogramModel } from './variogram.ts';
-import { driftFrame, type DriftFrame, type TrendKind } from './drift.ts';
+import { driftFrame, externalDriftFrame, type DriftFrame, type DriftKind } from './drift.ts';
+import type { ExternalCovariate } from './externalDrift.ts';
 
 /**
  * The grid kernel: everything needed to fill any row range of an output grid, as plain structured-cloneable data
@@ -37,7 +38,9 @@ export interface GridPlan {
   variogram: VariogramModel | null;
   anisotropy: Anisotropy | null;
   /** Drift of the mean for kriging (universal kriging, drift.ts); absent or 'none' = ordinary kriging. */
-  trend?: TrendKind;
+  trend?: DriftKind;
+  /** An external drift's covariate at the data and the output cells (externalDrift.ts), or absent. */
+  covariate?: ExternalCovariate | null;
   /** Fault pieces x1,y1,x2,y2 in local km, or null. */
   faults: Float64Array | null;
   maxDistanceKm: number | null;
@@ -79,6 +82,13 @@ export interface GridRuntime {
   drift: DriftFrame | null;
 }
 
+/** The drift frame of a plan for drift `kind`: the polynomial's on coordinates (x, y), or the external covariate's. */
+export function planDriftFrame(plan: GridPlan, kind: DriftKind, x: ArrayLike<number>, y: ArrayLike<number>): DriftFrame {
+  if (kind !== 'external') return driftFrame(kind, x, y);
+  if (!plan.covariate) throw new RangeError('an external drift needs its covariate at the data');
+  return externalDriftFrame(plan.covariate.atData);
+}
+
 /** Builds the runtime of a plan (indexes, barrier, predictor, factor caches). */
 export function createGridRuntime(plan: GridPlan): GridRuntime {
   const m = anisotropyMatrix(plan.method === 'kriging' ? plan.anisotropy : null);
@@ -113,7 +123,7 @@ export function createGridRuntime(plan: GridPlan): GridRuntime {
       }
       barrier = new FaultBarrier(tf, t.x, t.y);
     }
-    if (plan.trend !== undefined && plan.trend !== 'none') drift = driftFrame(plan.trend, t.x, t.y);
+    if (plan.trend !== undefined && plan.trend !== 'none') drift = planDriftFrame(plan, plan.trend, t.x, t.y);
     kriging = new KrigingPredictor(t.x, t.y, plan.z, plan.variogram, {
       neighbors: plan.neighbors,
       radiusKm: plan.radiusKm,
@@ -159,6 +169,7 @@ export function computeRows(rt: GridRuntime, r0: number, r1: number, values: Flo
   const idwEmpty0 = rt.idw?.emptyCount ?? 0;
   const withSd = sd !== null && plan.withSd && rt.kriging !== null;
   const maxD = plan.maxDistanceKm;
+  const atCells = plan.covariate?.atCells ?? null;
   for (let r = r0; r < r1; r++) {
     rowCentresLocalKm(g, rt.toLocal, r, rowX, rowY);
     if (rt.mask !== null) rt.mask.row(g.north - (r + 0.5) * g.dy, g.west, g.dx, W, inside);
@@ -179,7 +190,7 @@ export function computeRows(rt: GridRuntime, r0: number, r1: number, values: Flo
       } else {
         const tx = m[0] * qx + m[1] * qy,
           ty = m[2] * qx + m[3] * qy;
-        rt.kriging!.predict(tx, ty, out2, withSd);
+        rt.kriging!.predict(tx, ty, out2, withSd, -1, atCells === null ? NaN : atCells[base + c]);
         values[base + c] = out2[0];
         if (sd !== null) sd[base + c] = withSd ? out2[1] : NaN;
       }

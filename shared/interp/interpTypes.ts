@@ -1,7 +1,8 @@
 import type { GridPlan } from './gridKernel.ts';
 import type { CrossValidation } from './crossValidation.ts';
 import type { OutputGridOptions } from './projection.ts';
-import type { TrendKind } from './drift.ts';
+import type { DriftKind } from './drift.ts';
+import type { ExternalDriftGrid } from './externalDrift.ts';
 import type { Anisotropy, EmpiricalLag, VariogramModel, VariogramModelName } from './variogram.ts';
 import type { AnisotropyReport } from './anisotropy-select.ts';
 
@@ -40,9 +41,12 @@ export interface InterpolationOptions {
   /**
    * Drift of the mean (kriging): 'none' (ordinary kriging, default), 'linear' or 'quadratic' in the coordinates
    * (universal kriging, drift.ts; the variogram is fitted on the residuals of a least-squares trend), or 'auto': the
-   * one with the lowest leave-one-out RMSE (trend-select.ts).
+   * one with the lowest leave-one-out RMSE (trend-select.ts); 'external': kriging with the external drift of
+   * `externalDrift` (auto then compares it too).
    */
-  trend?: TrendKind | 'auto';
+  trend?: DriftKind | 'auto';
+  /** The covariate grid of an external drift (externalDrift.ts). */
+  externalDrift?: ExternalDriftGrid | null;
   /**
    * Measurement error done once: each point's errorSd² goes on the kriging diagonal, and the fitted (or given)
    * nugget is split into the known error part (the mean error variance, capped at the nugget, with a warning when
@@ -98,7 +102,7 @@ export interface VariogramReport {
 
 /** The drift of a kriging (universal kriging with a polynomial drift in the coordinates, or none). */
 export interface TrendReport {
-  kind: TrendKind;
+  kind: DriftKind;
   /** 'given' (the request named it) or 'cross-validation' (--trend auto: lowest leave-one-out RMSE). */
   selectedBy: 'given' | 'cross-validation';
   /**
@@ -107,9 +111,21 @@ export interface TrendReport {
    * km of the local transverse Mercator projection centred at `originLonLat`; and the fraction of the values'
    * variance it explains. The kriging itself re-estimates the drift locally (generalized least squares).
    */
-  ols: { cxKm: number; cyKm: number; scaleKm: number; originLonLat: [number, number]; coefficients: number[]; explainedVarianceFraction: number } | null;
+  ols: {
+    cxKm: number;
+    cyKm: number;
+    scaleKm: number;
+    originLonLat: [number, number];
+    coefficients: number[];
+    explainedVarianceFraction: number;
+    /**
+     * An external drift: the covariate's name, its mean and sd at the data (the terms are 1 and (s − mean)/sd), and
+     * the least-squares trend in its own units, value = intercept + slope·s.
+     */
+    covariate?: { name: string; mean: number; sd: number; intercept: number; slope: number };
+  } | null;
   /** With 'auto': each trend's best variogram and its leave-one-out statistics (null: the trend could not be fitted). */
-  candidates?: { kind: TrendKind; model: VariogramModelName | null; cvRmse: number | null; msdr: number | null; problem: string | null }[];
+  candidates?: { kind: DriftKind; model: VariogramModelName | null; cvRmse: number | null; msdr: number | null; problem: string | null }[];
 }
 
 export interface PreparedInterpolation {

@@ -7,6 +7,7 @@ import { createGridRuntime, computeRows, type GridPlan, type RowStats } from './
 import { crossValidateIdw, type CrossValidation } from './crossValidation.ts';
 import { faultsToLocalKm, mergeCoincident, requirePoints, searchSettings, validatePoints } from './pointPrep.ts';
 import { prepareKrigingPlan } from './trendSelect.ts';
+import { covariateAtCells, covariateAtLocal, requireCovered, type ExternalCovariate } from './externalDrift.ts';
 import type { InterpolationOptions, PointData, PreparedInterpolation, VariogramReport } from './interpTypes.ts';
 
 export { DEFAULT_QUALITY_WEIGHTS } from './interpTypes.ts';
@@ -56,6 +57,26 @@ function projectAndMerge(points: PointData, opts: InterpolationOptions) {
   return { projection, merged };
 }
 
+/** An external drift's covariate at the merged points and (with a grid) at the output cells, checked for coverage. */
+function externalCovariate(
+  opts: InterpolationOptions,
+  projection: LocalProjection,
+  merged: { ids: string[]; x: Float64Array; y: Float64Array },
+  grid: { spec: GridPlan['grid']; crsDef: string } | null,
+): ExternalCovariate | null {
+  const d = opts.externalDrift;
+  if (!d || opts.method !== 'kriging') return null;
+  const atData = covariateAtLocal(d, projection, merged.x, merged.y);
+  requireCovered(d, atData, 'points', (i) => `point ${merged.ids[i]}`);
+  let atCells: Float64Array | null = null;
+  if (grid !== null) {
+    atCells = covariateAtCells(d, grid.spec, grid.crsDef);
+    const W = grid.spec.width;
+    requireCovered(d, atCells, 'cells of the output grid', (i) => `row ${Math.floor(i / W)}, column ${i % W}`);
+  }
+  return { name: d.name, atData, atCells };
+}
+
 /** Validates and projects the points, merges coincident ones, and builds the plan. */
 export function prepareInterpolation(points: PointData, opts: InterpolationOptions, needGrid = true): PreparedInterpolation {
   const t0 = now();
@@ -90,6 +111,7 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
     maxDistanceKm: opts.maxDistanceKm ?? null,
     region,
     withSd: method === 'kriging' && (opts.sd ?? true),
+    covariate: externalCovariate(opts, projection, merged, needGrid ? { spec: gridSpec, crsDef: gridCrsDef } : null),
   };
   const units = opts.units ?? '';
   const wantCv = opts.crossValidation ?? true;
@@ -171,6 +193,20 @@ export function interpolateGrid(points: PointData, opts: InterpolationOptions): 
   return finishGrid(prep, values, sd, stats, now() - t);
 }
 
+/** An external drift's covariate at targets (local km of the plan), checked for coverage; null without one. */
+export function targetCovariate(
+  opts: { externalDrift?: InterpolationOptions['externalDrift'] },
+  prep: PreparedInterpolation,
+  tx: Float64Array,
+  ty: Float64Array,
+  ids: string[],
+): Float64Array | null {
+  if (prep.plan.trend !== 'external' || !opts.externalDrift) return null;
+  const s = covariateAtLocal(opts.externalDrift, prep.plan.projection, tx, ty);
+  requireCovered(opts.externalDrift, s, 'targets', (i) => `target ${ids[i] ?? i}`);
+  return s;
+}
+
 export interface PointPrediction {
   id: string;
   value: number | null;
@@ -209,6 +245,7 @@ export function predictAtPoints(
   const tx = new Float64Array(nT),
     ty = new Float64Array(nT);
   lonLatToLocalKm(prep.plan.projection, targets.lon, targets.lat, tx, ty);
+  const s0 = targetCovariate(opts, prep, tx, ty, targets.ids);
   const out = new Float64Array(2);
   const predictions: PointPrediction[] = [];
   const maxD = prep.plan.maxDistanceKm;
@@ -222,7 +259,7 @@ export function predictAtPoints(
     if (rt.idw !== null) v = rt.idw.predict(tx[i], ty[i]);
     else {
       const m = rt.m;
-      rt.kriging!.predict(m[0] * tx[i] + m[1] * ty[i], m[2] * tx[i] + m[3] * ty[i], out, prep.plan.withSd);
+      rt.kriging!.predict(m[0] * tx[i] + m[1] * ty[i], m[2] * tx[i] + m[3] * ty[i], out, prep.plan.withSd, -1, s0 === null ? NaN : s0[i]);
       v = out[0];
       s = out[1];
     }

@@ -258,9 +258,10 @@ export class KrigingPredictor {
 
   /**
    * Estimate and kriging standard deviation at (qx, qy): writes [value, sd] into `out`; sd is skipped (NaN) unless
-   * `withSd`. `exclude` leaves one point out (cross-validation). Returns the neighbour count (0 → both NaN).
+   * `withSd`. `exclude` leaves one point out (cross-validation); `s0` is an external drift's covariate at (qx, qy).
+   * Returns the neighbour count (0 → both NaN).
    */
-  predict(qx: number, qy: number, out: Float64Array, withSd: boolean, exclude = -1): number {
+  predict(qx: number, qy: number, out: Float64Array, withSd: boolean, exclude = -1, s0 = NaN): number {
     const n = this.prepare(qx, qy, exclude);
     if (n === 0) {
       this.counters.empty++;
@@ -299,7 +300,7 @@ export class KrigingPredictor {
       correction = mu * this.bz;
       varTerm = mu * mu * this.s;
     } else {
-      this.drift.solveAt(c0, n, qx, qy, two);
+      this.drift.solveAt(c0, n, qx, qy, two, s0);
       correction = two[0];
       varTerm = two[1];
     }
@@ -316,9 +317,9 @@ export class KrigingPredictor {
   /**
    * The kriging weights λ (for the ids written to `outIds`, ascending) and the Lagrange multiplier μ at (qx, qy)
    * (system C·λ + μ·1 = c₀; with a drift, μ is the constant monomial's multiplier). Returns n, or 0 when no
-   * neighbour or the system is singular.
+   * neighbour or the system is singular. `s0`: an external drift's covariate at (qx, qy).
    */
-  weights(qx: number, qy: number, outIds: Int32Array, outLambda: Float64Array, exclude = -1): { n: number; mu: number } {
+  weights(qx: number, qy: number, outIds: Int32Array, outLambda: Float64Array, exclude = -1, s0 = NaN): { n: number; mu: number } {
     const n = this.prepare(qx, qy, exclude);
     if (n === 0 || this.failed) return { n: 0, mu: NaN };
     const { sorted, c0 } = this;
@@ -329,7 +330,7 @@ export class KrigingPredictor {
       mu = (dot(c0, this.b, n) - 1) / this.s;
       for (let i = 0; i < n; i++) outLambda[i] -= mu * this.b[i];
     } else {
-      this.drift.solveAt(c0, n, qx, qy, this.two);
+      this.drift.solveAt(c0, n, qx, qy, this.two, s0);
       this.drift.subtractDrift(outLambda, n);
       mu = this.drift.mu[0];
     }

@@ -7,7 +7,9 @@ import { NormalScoreTransform } from './normalScore.ts';
 import { declusterLonLat, type DeclusteringReport } from './declustering.ts';
 import { createConditionalSimulator, type ConditionalSimulator } from './simulation.ts';
 import type { Anisotropy, VariogramModel, VariogramModelName } from './variogram.ts';
-import type { TrendKind } from './drift.ts';
+import type { DriftKind } from './drift.ts';
+import type { ExternalDriftGrid } from './externalDrift.ts';
+import { targetCovariate } from './interpolate.ts';
 
 /**
  * Conditional simulation of a point field, the library entry points behind `subtherm simulate`: the values are
@@ -30,7 +32,9 @@ export interface SimulationOptions {
    * are conditioned by universal kriging, which adds the drift back. With the normal-score transform the drift is
    * one of the normal scores (the back-transform is monotone, so a trend in the scores is a trend in the values).
    */
-  trend?: TrendKind | 'auto';
+  trend?: DriftKind | 'auto';
+  /** The covariate grid of an external drift (trend 'external', or a candidate of 'auto'). */
+  externalDrift?: ExternalDriftGrid | null;
   /** 'normal-score' (default) or 'none' (simulate the values as Gaussian). */
   transform?: 'normal-score' | 'none';
   /**
@@ -93,8 +97,11 @@ const SAMPLER_METHODS = {
 } as const;
 
 /** The method in words: the sampler and the conditioning kriging (ordinary, or universal with the drift). */
-function samplerMethod(kind: 'cholesky' | 'lattice', trend: TrendKind): string {
-  const kriging = trend === 'none' ? 'ordinary kriging' : `universal kriging with a ${trend} drift (Chilès & Delfiner 2012, §7.3.1)`;
+function samplerMethod(kind: 'cholesky' | 'lattice', trend: DriftKind): string {
+  const kriging =
+    trend === 'none'
+      ? 'ordinary kriging'
+      : `${trend === 'external' ? 'kriging with an external drift' : `universal kriging with a ${trend} drift`} (Chilès & Delfiner 2012, §7.3.1)`;
   return `${SAMPLER_METHODS[kind]}, conditioned by ${kriging} of the residuals (Journel & Huijbregts 1978)`;
 }
 
@@ -175,6 +182,7 @@ function prepare(
       variogram: opts.variogram ?? 'auto',
       anisotropy: opts.anisotropy ?? null,
       trend: opts.trend ?? 'none',
+      externalDrift: opts.externalDrift ?? null,
       lagKm: opts.lagKm,
       maxLagKm: opts.maxLagKm,
       grid: opts.grid,
@@ -212,6 +220,7 @@ function runAll(
   }
   const plan = prep.plan;
   const t0 = now();
+  const atTargets = targetCovariate(opts, prep, tx, ty, []);
   let sim: ConditionalSimulator;
   try {
     sim = createConditionalSimulator({
@@ -229,6 +238,7 @@ function runAll(
       errorVariance: plan.errorVariance,
       faults: plan.faults,
       trend: plan.trend,
+      covariate: atTargets === null ? null : { atData: plan.covariate!.atData, atTargets },
     });
   } catch (e) {
     if (e instanceof RangeError)

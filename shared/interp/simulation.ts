@@ -3,7 +3,7 @@ import { FaultBarrier } from './barriers.ts';
 import { Fft, fft2d, nextFftSize } from './fft.ts';
 import { KrigingPredictor } from './kriging.ts';
 import { choleskyInPlace } from './linalg.ts';
-import { driftFrame, type TrendKind } from './drift.ts';
+import { driftFrame, externalDriftFrame, type DriftKind } from './drift.ts';
 import { anisotropyMatrix, correlation, modelCode, checkVariogram, type Anisotropy, type VariogramModel } from './variogram.ts';
 
 /**
@@ -68,7 +68,9 @@ export interface SimulationSetup {
    */
   faults?: Float64Array | null;
   /** Drift of the mean: universal-kriging conditioning (default none: ordinary kriging). */
-  trend?: TrendKind;
+  trend?: DriftKind;
+  /** An external drift's covariate at the data and at the targets (trend 'external'). */
+  covariate?: { atData: Float64Array; atTargets: Float64Array } | null;
 }
 
 export interface ConditioningWeights {
@@ -341,7 +343,13 @@ function barrierIn(faults: Float64Array | null, m: [number, number, number, numb
 }
 
 /** Ordinary-kriging weights of every target from the data (shared by all realizations). */
-export function conditioningWeights(p: KrigingPredictor, m: [number, number, number, number], tx: Float64Array, ty: Float64Array): ConditioningWeights {
+export function conditioningWeights(
+  p: KrigingPredictor,
+  m: [number, number, number, number],
+  tx: Float64Array,
+  ty: Float64Array,
+  atTargets: Float64Array | null = null,
+): ConditioningWeights {
   const T = tx.length;
   const k = p.k;
   const offsets = new Int32Array(T + 1);
@@ -354,7 +362,7 @@ export function conditioningWeights(p: KrigingPredictor, m: [number, number, num
   for (let t = 0; t < T; t++) {
     const qx = m[0] * tx[t] + m[1] * ty[t],
       qy = m[2] * tx[t] + m[3] * ty[t];
-    const { n } = p.weights(qx, qy, bi, bl);
+    const { n } = p.weights(qx, qy, bi, bl, -1, atTargets === null ? NaN : atTargets[t]);
     if (n === 0) empty++;
     if (used + n > ids.length) {
       const cap = Math.max(used + n, Math.min(T * k, ids.length * 2));
@@ -385,6 +393,14 @@ export interface ConditionalSimulator {
    * reused between calls. Empty targets are NaN.
    */
   run(seed: number, r0: number, r1: number, emit: (r: number, values: Float64Array) => void): void;
+}
+
+/** The drift of the conditioning kriging: none, a polynomial on the (transformed) data coordinates, or external. */
+function conditioningDrift(s: SimulationSetup, dx: Float64Array, dy: Float64Array) {
+  if (s.trend === undefined || s.trend === 'none') return null;
+  if (s.trend !== 'external') return driftFrame(s.trend, dx, dy);
+  if (!s.covariate) throw new RangeError('an external drift needs its covariate at the data and the targets');
+  return externalDriftFrame(s.covariate.atData);
 }
 
 /** Sets up the sampler and the shared conditioning weights. */
@@ -430,9 +446,9 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
     maxGlobal: s.maxGlobal,
     errorVariance: ev,
     visibility: barrierIn(s.faults ?? null, m, dx, dy),
-    drift: s.trend !== undefined && s.trend !== 'none' ? driftFrame(s.trend, dx, dy) : null,
+    drift: conditioningDrift(s, dx, dy),
   });
-  const weights = conditioningWeights(predictor, m, s.tx, s.ty);
+  const weights = conditioningWeights(predictor, m, s.tx, s.ty, s.trend === 'external' ? s.covariate!.atTargets : null);
   const warnings = [...sampler.warnings];
   if (predictor.counters.regularized > 0)
     warnings.push(`${predictor.counters.regularized} conditioning system(s) were ill-conditioned and solved with a small diagonal regularization`);

@@ -1,7 +1,7 @@
 import { InputError } from '../errors.ts';
-import { createGridRuntime, type GridPlan } from './gridKernel.ts';
+import { createGridRuntime, planDriftFrame, type GridPlan } from './gridKernel.ts';
 import { crossValidateKriging, type CrossValidation } from './crossValidation.ts';
-import { driftFrame, driftTerms, fitDriftOls, type TrendKind } from './drift.ts';
+import { driftTerms, fitDriftOls, type DriftKind } from './drift.ts';
 import type { InterpolationOptions, TrendReport, VariogramReport } from './interpTypes.ts';
 import {
   VARIOGRAM_MODELS,
@@ -58,7 +58,7 @@ function meanErrorVariance(ev: Float64Array | null): number {
 }
 
 /** Throws unless the points and the neighbourhood can carry a drift of this kind. */
-function checkTrendFeasible(trend: TrendKind, n: number, neighbors: number): void {
+function checkTrendFeasible(trend: DriftKind, n: number, neighbors: number): void {
   const p = driftTerms(trend);
   if (trend === 'none') return;
   if (n <= p + 1)
@@ -76,9 +76,9 @@ function checkTrendFeasible(trend: TrendKind, n: number, neighbors: number): voi
 }
 
 /** The OLS trend of the values in the plan's local km and its residuals (the values themselves for none). */
-export function trendResiduals(plan: GridPlan, trend: TrendKind): { residuals: Float64Array; ols: TrendReport['ols'] } {
+export function trendResiduals(plan: GridPlan, trend: DriftKind): { residuals: Float64Array; ols: TrendReport['ols'] } {
   if (trend === 'none') return { residuals: plan.z, ols: null };
-  const f = driftFrame(trend, plan.x, plan.y);
+  const f = planDriftFrame(plan, trend, plan.x, plan.y);
   const fit = fitDriftOls(f, plan.x, plan.y, plan.z);
   if (fit === null)
     throw new InputError(
@@ -92,17 +92,20 @@ export function trendResiduals(plan: GridPlan, trend: TrendKind): { residuals: F
   mean /= n;
   let tss = 0;
   for (let i = 0; i < n; i++) tss += (plan.z[i] - mean) ** 2;
-  return {
-    residuals: fit.residuals,
-    ols: {
-      cxKm: f.cxKm,
-      cyKm: f.cyKm,
-      scaleKm: f.scaleKm,
-      originLonLat: [plan.projection.lon0, plan.projection.lat0],
-      coefficients: fit.coefficients,
-      explainedVarianceFraction: tss > 0 ? 1 - fit.rss / tss : 0,
-    },
+  const ols: NonNullable<TrendReport['ols']> = {
+    cxKm: f.cxKm,
+    cyKm: f.cyKm,
+    scaleKm: f.scaleKm,
+    originLonLat: [plan.projection.lon0, plan.projection.lat0],
+    coefficients: fit.coefficients,
+    explainedVarianceFraction: tss > 0 ? 1 - fit.rss / tss : 0,
   };
+  const cv = f.covariate;
+  if (cv !== undefined) {
+    const [a0, a1] = fit.coefficients;
+    ols.covariate = { name: plan.covariate!.name, mean: cv.mean, sd: cv.scale, intercept: a0 - (a1 * cv.mean) / cv.scale, slope: a1 / cv.scale };
+  }
+  return { residuals: fit.residuals, ols };
 }
 
 /** Leave-one-out cross-validation of a model (nugget already split) with the plan's drift. */
@@ -112,7 +115,7 @@ function crossValidate(ctx: KrigingContext, plan: GridPlan, model: VariogramMode
 }
 
 /** The empirical semivariogram of `values`, with the errors a fit would meet turned into InputErrors. */
-function empiricalForFit(x: Float64Array, y: Float64Array, values: Float64Array, opts: InterpolationOptions, trend: TrendKind) {
+function empiricalForFit(x: Float64Array, y: Float64Array, values: Float64Array, opts: InterpolationOptions, trend: DriftKind) {
   const n = values.length;
   let zmin = Infinity,
     zmax = -Infinity;
@@ -181,7 +184,7 @@ function fitModels(
  * The variogram, nugget split and cross-validation for kriging with drift `trend` ('none' = ordinary kriging).
  * `forceCv` cross-validates even when the request did not ask (the trend choice needs it).
  */
-export function krigingForTrend(ctx: KrigingContext, trend: TrendKind, forceCv: boolean): KrigingChoice {
+export function krigingForTrend(ctx: KrigingContext, trend: DriftKind, forceCv: boolean): KrigingChoice {
   const t2 = now();
   const base: GridPlan = { ...ctx.basePlan, trend };
   checkTrendFeasible(trend, base.z.length, base.neighbors);

@@ -130,19 +130,20 @@ export const variogramSummarySchema = z.strictObject({
 export type VariogramSummary = z.infer<typeof variogramSummarySchema>;
 
 /**
- * The drift of the mean the kriging used (shared/interp/drift.ts): none (ordinary kriging), or a linear or quadratic
- * polynomial in the coordinates (universal kriging, the variogram fitted on least-squares residuals); how it was
+ * The drift of the mean the kriging used (shared/interp/drift.ts): none (ordinary kriging), a linear or quadratic
+ * polynomial in the coordinates (universal kriging, the variogram fitted on least-squares residuals), or external (a
+ * covariate grid; runs cannot name one today, so only the CLI produces it); how it was
  * chosen; with auto, each drift's leave-one-out RMSE (mW/m²) and MSDR side by side.
  */
 export const trendSummarySchema = z.strictObject({
-  kind: z.enum(['none', 'linear', 'quadratic']),
+  kind: z.enum(['none', 'linear', 'quadratic', 'external']),
   selectedBy: z.enum(['given', 'cross-validation']),
   /** Fraction of the sites' variance the least-squares trend explains (null for none). */
   explainedVarianceFraction: z.number().nullable(),
   candidates: z
     .array(
       z.strictObject({
-        kind: z.enum(['none', 'linear', 'quadratic']),
+        kind: z.enum(['none', 'linear', 'quadratic', 'external']),
         model: z.enum(VARIOGRAM_MODELS).nullable(),
         cvRmse: z.number().nullable(),
         msdr: z.number().nullable(),
@@ -225,7 +226,7 @@ export const monteCarloSummarySchema = z.strictObject({
       /** The run's faults were barriers to the conditioning (absent in runs made before barriers were honoured). */
       faultBarriers: z.boolean().optional(),
       /** The drift the conditioning universal kriging carried (none: ordinary kriging; absent in older runs). */
-      trend: z.enum(['none', 'linear', 'quadratic']).optional(),
+      trend: z.enum(['none', 'linear', 'quadratic', 'external']).optional(),
       /**
        * Cell declustering of the normal-score transform's histogram (absent: equal weights): the cell side (km), how
        * it was chosen, and the sites' plain and declustered mean and sd (mW/m²).
