@@ -9,7 +9,7 @@ import { compileModel, isUncertainModel, nominalModel } from '../../shared/therm
 import { TOOL_NAME, VERSION } from '../../shared/version.ts';
 import { analyzeWells, wellCorrectionReports } from '../../shared/wells/analyze-all.ts';
 import type { WellAnalysisOptions, WellReport } from '../../shared/wells/analyze.ts';
-import { readWells } from '../../shared/wells/checks.ts';
+import { readWells, type WellInput } from '../../shared/wells/checks.ts';
 import { DEFAULT_SD_C, HORNER_DEPTH_TOLERANCE_M } from '../../shared/wells/correction.ts';
 import { attachIntervals, parseIntervalsCsv } from '../../shared/wells/intervals-csv.ts';
 import { wellModelFromCompiled } from '../../shared/wells/model-adapter.ts';
@@ -177,26 +177,94 @@ export async function wells(argv: string[]): Promise<number> {
   }
   if (o.wells === undefined) throw new InputError('wells: --wells is required', [{ field: 'wells', problem: 'missing' }], 'bad_option');
   const warnings: string[] = [];
-  const inputs: { role: string; file: string; sha256: string }[] = [];
+  const inputs: InputRecord[] = [];
+  const wellInputs = await readWellInputs(o.wells, o, inputs, warnings);
+  const { opts, modelLabel } = analysisOptions(o, inputs, warnings);
+  opts.heatFlowCorrections = await correctionOptions(o);
+  if (opts.heatFlowCorrections?.topography && o.terrain !== undefined) {
+    const b = readInput(o.terrain, 'terrain');
+    inputs.push({ role: 'terrain', file: basename(o.terrain), sha256: sha256(b) });
+  }
+  if (opts.bht?.method === 'waples2004' && opts.surfaceTemperatureC === undefined)
+    warnings.push('--correction waples2004 needs a surface temperature (--surface-temp-c or a model); BHTs stay uncorrected');
+  const result = analyzeWells(wellInputs, opts);
+  warnings.push(...result.warnings);
+  const provenance = {
+    tool: TOOL_NAME,
+    version: VERSION,
+    method: methodText(opts),
+    model: modelLabel,
+    inputs,
+  };
+  const files: string[] = [];
+  if (o.out !== undefined) {
+    const collection = { type: 'FeatureCollection' as const, caution: CAUTION, provenance, features: result.sites.features };
+    // The derived sites must be valid sites input for the interpolation engine.
+    if (collection.features.length > 0) parseFeatureCollection('sites', collection);
+    mkdirSync(dirname(o.out), { recursive: true });
+    writeFileSync(o.out, JSON.stringify(collection, null, 1) + '\n');
+    files.push(o.out);
+  }
+  printResult(result, opts.heatFlowCorrections !== undefined, files, warnings, provenance, o.json);
+  return 0;
+}
 
-  const wellBytes = readInput(o.wells, 'wells');
-  inputs.push({ role: 'wells', file: basename(o.wells), sha256: sha256(wellBytes) });
-  const parsed = await readDatasetFile(o.wells, wellBytes, 'wells', { layer: o.layer, crs: o['points-crs'] });
+/** One input file of the run, by role, with its SHA-256 (for the provenance). */
+interface InputRecord {
+  role: string;
+  file: string;
+  sha256: string;
+}
+
+/** The options of the verb that shape the analysis (strings as typed). */
+interface WellsArgs {
+  layer?: string;
+  'points-crs'?: string;
+  intervals?: string;
+  model?: string;
+  'surface-temp-c'?: string;
+  'no-anchor'?: boolean;
+  'anchor-sd-c'?: string;
+  correction?: string;
+  'correction-source'?: string;
+  'correction-sd-c'?: string;
+  'horner-tolerance-m'?: string;
+  'conductivity-wmk'?: string;
+  'lithology-k'?: string;
+  'heat-flow'?: string;
+  outliers?: string;
+}
+
+/** The wells (checked by readWells, errors naming the file) with the interval columns of --intervals attached. */
+async function readWellInputs(file: string, o: WellsArgs, inputs: InputRecord[], warnings: string[]): Promise<WellInput[]> {
+  const wellBytes = readInput(file, 'wells');
+  inputs.push({ role: 'wells', file: basename(file), sha256: sha256(wellBytes) });
+  const parsed = await readDatasetFile(file, wellBytes, 'wells', { layer: o.layer, crs: o['points-crs'] });
   warnings.push(...parsed.warnings);
-  const wellInputs = (() => {
-    try {
-      return readWells(parsed.collection.features);
-    } catch (e) {
-      if (e instanceof InputError) throw new InputError(`${o.wells}: ${e.message}`, e.details, e.code);
-      throw e;
-    }
-  })();
+  let wellInputs: WellInput[];
+  try {
+    wellInputs = readWells(parsed.collection.features);
+  } catch (e) {
+    if (e instanceof InputError) throw new InputError(`${file}: ${e.message}`, e.details, e.code);
+    throw e;
+  }
   if (o.intervals !== undefined) {
     const b = readInput(o.intervals, 'intervals');
     inputs.push({ role: 'intervals', file: basename(o.intervals), sha256: sha256(b) });
     attachIntervals(wellInputs, parseIntervalsCsv(b.toString('utf8'), o.intervals), o.intervals);
   }
+  return wellInputs;
+}
 
+/** A number option that must satisfy `ok`, else an InputError naming the option and the limit. */
+function checkedNumber(name: string, raw: string, ok: (v: number) => boolean, limit: string): number {
+  const v = numberOption(name, raw);
+  if (!ok(v)) throw new InputError(`--${name} must be ${limit}`, [{ field: name, problem: `got ${raw}` }], 'bad_option');
+  return v;
+}
+
+/** The analysis options from the verb's options and the model file; warnings for combinations that do less than asked. */
+function analysisOptions(o: WellsArgs, inputs: InputRecord[], warnings: string[]): { opts: WellAnalysisOptions; modelLabel: string | null } {
   const opts: WellAnalysisOptions = {};
   let modelLabel: string | null = null;
   const surfaceOverride = o['surface-temp-c'] === undefined ? undefined : numberOption('surface-temp-c', o['surface-temp-c']);
@@ -214,29 +282,16 @@ export async function wells(argv: string[]): Promise<number> {
   if (opts.surfaceTemperatureC === undefined && !o['no-anchor'])
     warnings.push('no surface temperature (--surface-temp-c or a model): the fits are not anchored at the surface');
   opts.anchor = !o['no-anchor'];
-  if (o['anchor-sd-c'] !== undefined) {
-    opts.anchorSdC = numberOption('anchor-sd-c', o['anchor-sd-c']);
-    if (!(opts.anchorSdC > 0))
-      throw new InputError('--anchor-sd-c must be > 0 °C', [{ field: 'anchor-sd-c', problem: `got ${o['anchor-sd-c']}` }], 'bad_option');
-  }
+  if (o['anchor-sd-c'] !== undefined) opts.anchorSdC = checkedNumber('anchor-sd-c', o['anchor-sd-c'], (v) => v > 0, '> 0 °C');
   opts.bht = correctionOption(o.correction, o['correction-source'], o['correction-sd-c']);
-  const c0 = opts.bht;
-  if (o['horner-tolerance-m'] !== undefined) {
-    opts.hornerToleranceM = numberOption('horner-tolerance-m', o['horner-tolerance-m']);
-    if (!(opts.hornerToleranceM >= 0))
-      throw new InputError('--horner-tolerance-m must be ≥ 0 m', [{ field: 'horner-tolerance-m', problem: `got ${o['horner-tolerance-m']}` }], 'bad_option');
-  }
+  if (o['horner-tolerance-m'] !== undefined) opts.hornerToleranceM = checkedNumber('horner-tolerance-m', o['horner-tolerance-m'], (v) => v >= 0, '≥ 0 m');
   if (o['conductivity-wmk'] !== undefined) {
-    opts.conductivityWmK = numberOption('conductivity-wmk', o['conductivity-wmk']);
-    if (!(opts.conductivityWmK > 0))
-      throw new InputError('--conductivity-wmk must be > 0 W/m/K', [{ field: 'conductivity-wmk', problem: `got ${o['conductivity-wmk']}` }], 'bad_option');
+    opts.conductivityWmK = checkedNumber('conductivity-wmk', o['conductivity-wmk'], (v) => v > 0, '> 0 W/m/K');
     if (opts.model) warnings.push("--conductivity-wmk replaces the model's layers as the conductivity of wells without a column of their own");
   }
   opts.lithologyConductivity = lithologyOption(o['lithology-k']);
   if (o['heat-flow'] !== undefined) {
-    opts.checkHeatFlowMWm2 = numberOption('heat-flow', o['heat-flow']);
-    if (!(opts.checkHeatFlowMWm2 > 0))
-      throw new InputError('--heat-flow must be > 0 mW/m²', [{ field: 'heat-flow', problem: `got ${o['heat-flow']}` }], 'bad_option');
+    opts.checkHeatFlowMWm2 = checkedNumber('heat-flow', o['heat-flow'], (v) => v > 0, '> 0 mW/m²');
     if (!opts.model) warnings.push('--heat-flow is only used for the model check, and no --model was given');
   }
   if (o.outliers !== undefined) {
@@ -247,52 +302,44 @@ export async function wells(argv: string[]): Promise<number> {
   if (opts.model && !Number.isFinite(opts.model.surfaceHeatFlowMWm2) && opts.checkHeatFlowMWm2 === undefined) {
     warnings.push("the model has no surfaceHeatFlowMWm2 and no --heat-flow was given: the model check runs at each well's own heat flow only");
   }
+  return { opts, modelLabel };
+}
 
-  opts.heatFlowCorrections = await correctionOptions(o);
-  if (opts.heatFlowCorrections?.topography && o.terrain !== undefined) {
-    const b = readInput(o.terrain, 'terrain');
-    inputs.push({ role: 'terrain', file: basename(o.terrain), sha256: sha256(b) });
-  }
-  if (c0.method === 'waples2004' && opts.surfaceTemperatureC === undefined)
-    warnings.push('--correction waples2004 needs a surface temperature (--surface-temp-c or a model); BHTs stay uncorrected');
-  const result = analyzeWells(wellInputs, opts);
-  warnings.push(...result.warnings);
-  const c = opts.bht;
-  const provenance = {
-    tool: TOOL_NAME,
-    version: VERSION,
-    method:
-      'BHT: Horner extrapolation for ≥ 3 timed BHTs within ' +
-      `${opts.hornerToleranceM ?? HORNER_DEPTH_TOLERANCE_M} m; otherwise ` +
-      (c.method === 'none'
-        ? 'uncorrected'
-        : c.method === 'offset'
-          ? `offset ${c.offsetC} °C${c.source ? ` (${c.source})` : ''}`
-          : c.method === 'poly'
-            ? `polynomial ΔT = Σ aᵢ·zKmⁱ, a = [${c.coefficients.join(', ')}] (${c.source})`
-            : EMPIRICAL_BHT[c.method].source) +
-      `; gradient: weighted least squares${opts.anchor && opts.surfaceTemperatureC !== undefined ? `, anchored at ${opts.surfaceTemperatureC} °C` : ''}` +
-      '; heat flow: Bullard slope where the well has a conductivity column, else gradient × harmonic-mean conductivity' +
-      (opts.heatFlowCorrections?.paleoclimate
-        ? `; paleoclimatic correction: ΔT·erfc(z/2√(κt)) steps ${JSON.stringify(opts.heatFlowCorrections.paleoclimate.steps)}, κ = ${opts.heatFlowCorrections.paleoclimate.diffusivityM2s} m²/s`
-        : '') +
-      (opts.heatFlowCorrections?.topography
-        ? `; topographic correction: reference plane (Birch 1950), lapse rate ${opts.heatFlowCorrections.topography.lapseRateCPerKm} °C/km`
-        : ''),
-    model: modelLabel,
-    inputs,
-  };
-  const files: string[] = [];
-  if (o.out !== undefined) {
-    const collection = { type: 'FeatureCollection' as const, caution: CAUTION, provenance, features: result.sites.features };
-    // The derived sites must be valid sites input for the interpolation engine.
-    if (collection.features.length > 0) parseFeatureCollection('sites', collection);
-    mkdirSync(dirname(o.out), { recursive: true });
-    writeFileSync(o.out, JSON.stringify(collection, null, 1) + '\n');
-    files.push(o.out);
-  }
-  const corrections = opts.heatFlowCorrections ? wellCorrectionReports(result.reports) : undefined;
-  if (o.json) {
+/** The provenance's method: the BHT correction, the gradient fit, the heat-flow method and the corrections asked for. */
+function methodText(opts: WellAnalysisOptions): string {
+  const c = opts.bht ?? { method: 'none' as const };
+  return (
+    'BHT: Horner extrapolation for ≥ 3 timed BHTs within ' +
+    `${opts.hornerToleranceM ?? HORNER_DEPTH_TOLERANCE_M} m; otherwise ` +
+    (c.method === 'none'
+      ? 'uncorrected'
+      : c.method === 'offset'
+        ? `offset ${c.offsetC} °C${c.source ? ` (${c.source})` : ''}`
+        : c.method === 'poly'
+          ? `polynomial ΔT = Σ aᵢ·zKmⁱ, a = [${c.coefficients.join(', ')}] (${c.source})`
+          : EMPIRICAL_BHT[c.method].source) +
+    `; gradient: weighted least squares${opts.anchor && opts.surfaceTemperatureC !== undefined ? `, anchored at ${opts.surfaceTemperatureC} °C` : ''}` +
+    '; heat flow: Bullard slope where the well has a conductivity column, else gradient × harmonic-mean conductivity' +
+    (opts.heatFlowCorrections?.paleoclimate
+      ? `; paleoclimatic correction: ΔT·erfc(z/2√(κt)) steps ${JSON.stringify(opts.heatFlowCorrections.paleoclimate.steps)}, κ = ${opts.heatFlowCorrections.paleoclimate.diffusivityM2s} m²/s`
+      : '') +
+    (opts.heatFlowCorrections?.topography
+      ? `; topographic correction: reference plane (Birch 1950), lapse rate ${opts.heatFlowCorrections.topography.lapseRateCPerKm} °C/km`
+      : '')
+  );
+}
+
+/** Prints the result: one JSON object with --json, else the wells table, the corrections table and the warnings. */
+function printResult(
+  result: ReturnType<typeof analyzeWells>,
+  withCorrections: boolean,
+  files: string[],
+  warnings: string[],
+  provenance: object,
+  json: boolean,
+): void {
+  const corrections = withCorrections ? wellCorrectionReports(result.reports) : undefined;
+  if (json) {
     process.stdout.write(
       JSON.stringify({
         sites: result.sites.features.length,
@@ -316,5 +363,4 @@ export async function wells(argv: string[]): Promise<number> {
     lines.push('', CAUTION);
     process.stdout.write(lines.join('\n') + '\n');
   }
-  return 0;
 }

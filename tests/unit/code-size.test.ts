@@ -29,7 +29,6 @@ const OVER_LIMIT: readonly string[] = [
   'shared/resource/monte-carlo.ts', // 714
   'shared/schema/features.ts', // 437
   'server/cli/isotherms.ts isotherms', // 248
-  'server/cli/wells.ts wells', // 184
   'server/routes/project-datasets.ts projectDatasetRoutes', // 182
   'server/runs/jobs.ts submit', // 123
   'server/runs/run-inputs.ts readRunInputs', // 83
