@@ -151,6 +151,29 @@ describe('bad fault input', () => {
     expect(JSON.stringify(zero.details)).toContain('zero length');
   });
 
+  it('a dip outside 0–90° gets a message per feature, naming the fault and the field', () => {
+    // A dip is measured from the horizontal down to the fault plane, 0–90° (common practice); 0 would be no fault plane.
+    const line = (id: string, dipDeg: number) => ({
+      type: 'Feature',
+      geometry: {
+        type: 'LineString',
+        coordinates: [
+          [0, 0],
+          [0.1, 0.1],
+        ],
+      },
+      properties: { id, dipDeg },
+    });
+    const e = thrown(() =>
+      parseFeatureCollection('faults', { type: 'FeatureCollection', features: [line('F1', 60), line('F2', 95), line('F3', -10), line('F4', 90)] }),
+    );
+    const details = e.details as { feature?: unknown; field?: string }[];
+    expect(details.length).toBe(2);
+    expect(JSON.stringify(details[0])).toContain('F2');
+    expect(JSON.stringify(details[1])).toContain('F3');
+    for (const d of details) expect(d.field).toContain('dipDeg');
+  });
+
   it('zero length straight into the layer is an InputError naming the fault, never a crash', () => {
     const faults = {
       type: 'FeatureCollection',
