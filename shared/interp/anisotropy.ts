@@ -17,6 +17,9 @@ import { VARIOGRAM_MODELS, correlation, fitVariogram, modelCode, nelderMead, typ
 /** Fewer pairs than this in a direction and its semivariogram says too little to fit (rule of thumb, from memory: Journel & Huijbregts 1978, 30 pairs a lag). */
 export const MIN_PAIRS_PER_DIRECTION = 30;
 
+/** The smallest minor/major ratio the fit may reach. */
+const MIN_RATIO = 0.02;
+
 export interface DirectionFit {
   azimuthDeg: number;
   pairs: number;
@@ -43,6 +46,8 @@ export interface AnisotropyFit {
   weightedResidual: number;
   /** The same criterion for the best isotropic model (ratio 1) on the same directional semivariances. */
   isotropicWeightedResidual: number;
+  /** When the fit stopped at a bound (the major range at 10 × the largest lag, or the ratio at its floor), why; else null. */
+  limit: string | null;
   directions: DirectionFit[];
 }
 
@@ -92,13 +97,12 @@ function fitShape(model: VariogramModelName, dirs: { azimuthDeg: number; lags: D
   const all = dirs.flatMap((d) => d.lags);
   const iso = fitVariogram(model, all, { maxRangeKm: 10 * maxLagKm });
   const maxRange = 10 * Math.max(...all.map((l) => l.lagKm));
-  const unpack = (q: number[]): Params => ({
-    partialSill: q[0] * q[0] + 1e-300,
-    rangeKm: Math.min(q[1] * q[1] + 1e-9, maxRange),
-    nugget: q[2] * q[2],
-    phi: q[3],
-    ratio: Math.min(50, Math.max(0.02, Math.exp(q[4]))),
-  });
+  const unpack = (q: number[]): Params => {
+    const rangeKm = Math.min(q[1] * q[1] + 1e-9, maxRange);
+    // Both axes within the cap (a ratio above 1 makes the second axis the longer one), the ratio within its bounds.
+    const ratio = Math.min(1 / MIN_RATIO, maxRange / rangeKm, Math.max(MIN_RATIO, Math.exp(q[4])));
+    return { partialSill: q[0] * q[0] + 1e-300, rangeKm, nugget: q[2] * q[2], phi: q[3], ratio };
+  };
   const f = (q: number[]) => dirs.reduce((s, d) => s + directionObjective(code, unpack(q), d.azimuthDeg, d.lags), 0);
   const separate = dirs.map((d) => (d.lags.length >= 2 ? fitVariogram(model, d.lags, { maxRangeKm: 10 * maxLagKm }).rangeKm : null));
   const known = separate.map((r, k) => ({ r, k })).filter((e): e is { r: number; k: number } => e.r !== null);
@@ -132,6 +136,7 @@ function fitShape(model: VariogramModelName, dirs: { azimuthDeg: number; lags: D
     ratio,
     weightedResidual: best!.v,
     isotropicWeightedResidual: isoResidual,
+    limit: fitLimit(majorRangeKm, ratio, maxRange),
     directions: dirs.map((d, k) => {
       const t = ((d.azimuthDeg - angleDeg) * Math.PI) / 180;
       return {
@@ -144,6 +149,15 @@ function fitShape(model: VariogramModelName, dirs: { azimuthDeg: number; lags: D
       };
     }),
   };
+}
+
+/** Why a fit sits at a bound, or null. */
+function fitLimit(majorRangeKm: number, ratio: number, maxRange: number): string | null {
+  const why: string[] = [];
+  if (majorRangeKm >= maxRange * (1 - 1e-9))
+    why.push(`the major range reached its limit (${maxRange.toFixed(0)} km, 10 × the largest lag): no sill along the major axis (a trend?)`);
+  if (ratio <= MIN_RATIO * (1 + 1e-9)) why.push(`the ratio reached its floor (${MIN_RATIO})`);
+  return why.length > 0 ? `the anisotropy fit stopped at a bound: ${why.join('; ')}; treat the angle and ratio with care` : null;
 }
 
 export interface AnisotropyOptions extends DirectionalOptions {
