@@ -7,6 +7,7 @@ import { semivariance } from '../../shared/interp/variogram.ts';
 import type { RunSummary } from '../../shared/schema/run.ts';
 import { getJson, type CrossValidation, type RunState, type Variogram } from './api.ts';
 import { el, fmt, niceTicks, svg } from './dom.ts';
+import { anisotropyFigure } from './variogram-plot.ts';
 
 /** The variogram and cross-validation blocks of a run summary (whatever of them the run has). */
 export function runSummary(run: RunState): HTMLElement[] {
@@ -14,6 +15,7 @@ export function runSummary(run: RunState): HTMLElement[] {
   if (run.summary) out.push(gridLine(run.summary.grid));
   const v = run.summary?.interpolation.variogram ?? null;
   if (v) out.push(el('h3', {}, 'Variogram'), variogramPlot(v));
+  if (v?.anisotropyEstimate) out.push(el('h3', {}, 'Anisotropy'), anisotropyFigure(v.anisotropyEstimate));
   const cv = run.summary?.crossValidation;
   if (cv) out.push(el('h3', {}, 'Cross-validation (leave one out)'), cvTable(cv));
   for (const w of run.warnings ?? []) out.push(el('p', { class: 'note warning' }, String(w)));

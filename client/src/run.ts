@@ -29,7 +29,7 @@ const FIELD_LABELS: Record<string, string> = {
 export function runBody(p: RunParams, model: unknown): Record<string, unknown> {
   const body: Record<string, unknown> = {
     sites: p.sites,
-    interpolation: { method: p.method },
+    interpolation: { method: p.method, ...(p.anisotropy === 'auto' && p.method === 'kriging' ? { anisotropy: 'auto' } : {}) },
     model,
     isothermsC: p.isothermsC,
     depthsKm: p.depthsKm,
@@ -63,6 +63,7 @@ interface RunForm {
 
 function runForm(): RunForm {
   const method = el('select', { id: 'run-method' }, el('option', { value: 'kriging' }, 'ordinary kriging'), el('option', { value: 'idw' }, 'inverse distance'));
+  const aniso = el('select', { id: 'run-anisotropy' }, el('option', { value: '' }, 'none (isotropic)'), el('option', { value: 'auto' }, 'estimated'));
   const iso = el('input', { id: 'run-isotherms', inputmode: 'decimal', 'aria-describedby': 'run-param-error' });
   const depths = el('input', { id: 'run-depths', inputmode: 'decimal', 'aria-describedby': 'run-param-error' });
   const facies = el('input', { id: 'run-facies-depth', type: 'number', min: '0.5', max: '300', step: '0.5', placeholder: 'deepest depth' });
@@ -74,6 +75,7 @@ function runForm(): RunForm {
   return {
     fields: [
       row(method, 'Interpolation'),
+      row(aniso, 'Anisotropy (kriging)'),
       row(iso, 'Isotherms (°C)'),
       row(depths, 'Depths (km)'),
       row(facies, 'Facies at depth (km)'),
@@ -81,10 +83,11 @@ function runForm(): RunForm {
       row(reals, 'Realizations (0 = none)'),
       row(seed, 'Seed'),
     ],
-    controls: [method, iso, depths, facies, cell, reals, seed],
+    controls: [method, aniso, iso, depths, facies, cell, reals, seed],
     error,
     fill(p) {
       method.value = p.method;
+      aniso.value = p.anisotropy ?? '';
       iso.value = p.isothermsC.join(', ');
       depths.value = p.depthsKm.join(', ');
       cell.value = String(p.cellKm);
@@ -101,6 +104,7 @@ function runForm(): RunForm {
       const p: RunParams = {
         ...base,
         method: method.value as RunParams['method'],
+        anisotropy: aniso.value === 'auto' ? 'auto' : undefined,
         isothermsC: isoV ?? [],
         depthsKm: depV ?? [],
         faciesDepthKm: facies.value.trim() === '' ? undefined : Number(facies.value),

@@ -15,6 +15,8 @@ export interface RunParams {
   samples?: string;
   faults?: string;
   method: 'idw' | 'kriging';
+  /** Kriging's geometric anisotropy: none (absent) or 'auto', estimated from directional semivariograms. */
+  anisotropy?: 'auto';
   isothermsC: number[];
   depthsKm: number[];
   /** Depth of the facies layer, km (absent: the deepest of depthsKm). */

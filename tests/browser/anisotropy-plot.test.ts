@@ -1,0 +1,71 @@
+// The run panel draws a run's estimated anisotropy (client/src/variogram-plot.ts) in a real browser: a run asked for
+// interpolation.anisotropy 'auto' through the API, opened from a saved-state link at 1440 × 900; one curve and the
+// dots of every direction, the variogram map's cells and the fitted ellipse, and a caption with the run's angle and
+// ratio. Screenshot: tests/screenshots/anisotropy-run-panel.png.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { mkdirSync } from 'node:fs';
+import { join } from 'node:path';
+import type { Browser, Page } from 'playwright-core';
+import { launchBrowser, startServerProcess, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
+import { runSummarySchema } from '../../shared/schema/run.ts';
+
+let server: RunningServer;
+let browser: Browser;
+let page: Page;
+const pageErrors: string[] = [];
+
+beforeAll(async () => {
+  mkdirSync(SCREENSHOT_DIR, { recursive: true });
+  server = await startServerProcess();
+  browser = await launchBrowser();
+  page = await browser.newPage({ viewport: { width: 1440, height: 900 } });
+  page.on('pageerror', (e) => pageErrors.push(e.message));
+}, 180_000);
+
+afterAll(async () => {
+  await browser?.close();
+  await server?.stop();
+});
+
+describe('the run panel shows the estimated anisotropy', () => {
+  it('draws the directional semivariograms, the variogram map and the fitted angle and ratio', async () => {
+    const post = await fetch(`${server.url}/api/runs`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json' },
+      body: JSON.stringify({ sites: 'demo-sites', model: 'demo-model', grid: { cellKm: 8 }, interpolation: { method: 'kriging', anisotropy: 'auto' } }),
+    });
+    expect(post.status).toBe(202);
+    const { id } = (await post.json()) as { id: string };
+    let view: { status: string; summary?: unknown } = { status: 'queued' };
+    for (let i = 0; i < 600 && view.status !== 'done' && view.status !== 'failed'; i++) {
+      await new Promise((r) => setTimeout(r, 500));
+      view = (await (await fetch(`${server.url}/api/runs/${id}`)).json()) as typeof view;
+    }
+    expect(view.status).toBe('done');
+    const est = runSummarySchema.parse(view.summary).interpolation.variogram!.anisotropyEstimate!;
+
+    const state = Buffer.from(JSON.stringify({ r: id })).toString('base64url');
+    await page.goto(`${server.url}/?s=${state}`);
+    await waitForMapIdle(page);
+    // Under load a software-WebGL page answers slowly: the actions get a wide timeout (the test asserts no wall time).
+    await page.locator('#tab-run').click({ timeout: 180_000 });
+    const plot = page.locator('svg.anisotropy-plot');
+    await expect.poll(() => plot.count(), { timeout: 180_000 }).toBe(1);
+    expect(await plot.locator('polyline.aniso-curve').count()).toBe(est.directions.length);
+    const lags = est.directions.reduce((s, d) => s + d.lags.length, 0);
+    expect(await plot.locator('circle.aniso-point').count()).toBe(lags);
+    // Every curve is drawn inside the frame (finite coordinates).
+    const points = await plot.locator('polyline.aniso-curve').evaluateAll((ls) => ls.map((l) => l.getAttribute('points') ?? ''));
+    for (const p of points) expect(p).not.toMatch(/NaN|Infinity/);
+    const map = page.locator('svg.variogram-map');
+    expect(await map.locator('rect.vmap-cell').count()).toBe(est.map.gamma.filter((g) => g !== null).length);
+    expect(await map.locator('ellipse.aniso-ellipse').count()).toBe(1);
+    const caption = (await page.locator('#anisotropy-caption').textContent())!;
+    expect(caption).toContain(`azimuth ${est.angleDeg.toFixed(1)}°`);
+    expect(caption).toContain(`ratio ${est.ratio.toFixed(2)}`);
+    expect(caption).toContain(est.used ? 'Used by the kriging' : 'Not used');
+    await page.locator('figure.anisotropy').scrollIntoViewIfNeeded({ timeout: 180_000 });
+    await page.screenshot({ path: join(SCREENSHOT_DIR, 'anisotropy-run-panel.png'), timeout: 180_000 });
+    expect(pageErrors).toEqual([]);
+  }, 900_000);
+});
