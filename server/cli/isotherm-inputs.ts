@@ -1,6 +1,7 @@
 /**
- * The inputs of `subtherm isotherms` (server/cli/isotherms.ts): the user's grid GeoTIFFs, and the heat-flow
- * realizations of its Monte Carlo, simulated from sites (--points) or read from a file (--realizations-from).
+ * The inputs of `subtherm isotherms` (server/cli/isotherms.ts): the user's grid GeoTIFFs (heat flow and its sd),
+ * and the heat-flow realizations of its Monte Carlo, simulated from sites (--points) or read from a file
+ * (--realizations-from).
  */
 import { readFile } from 'node:fs/promises';
 import { InputError } from '../../shared/errors.ts';
@@ -10,6 +11,8 @@ import { readGeoTiff } from '../io/geotiff.ts';
 import { heatFlowSimulationOptions, readSimulationPoints, type SimulationArgs } from './simulation-input.ts';
 import { simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
 import { readRealizationsFile } from './realizations-file.ts';
+import { sha256Hex } from '../io/export.ts';
+import type { IsothermArgs } from './isotherm-options.ts';
 
 export async function readBytes(path: string, what: string): Promise<Buffer> {
   try {
@@ -62,6 +65,12 @@ export function sameGrid(a: Grid<Float32Array>, b: Grid<Float32Array>): boolean 
   );
 }
 
+/** The error of a file that is not on the heat-flow grid. */
+function offGrid(path: string, heatFlow: Grid<Float32Array>, code: string): InputError {
+  const problem = `expected ${heatFlow.width} × ${heatFlow.height} cells at ${heatFlow.west}, ${heatFlow.north} in ${heatFlow.crs}`;
+  return new InputError(`${path} is not on the heat-flow grid (size, origin, cell size and CRS must match)`, [{ feature: path, field: 'grid', problem }], code);
+}
+
 /**
  * Conditional simulations of the sites (--points and the shared simulation flags) on the heat-flow grid, a web
  * run's way (server/runs/heat-flow-simulation.ts): streams keyed by seed + 2³² (the model draws use the seed
@@ -106,18 +115,7 @@ export async function realizationsFromFile(
       'bad_realizations_file',
     );
   const grid = { ...heatFlow, ...h, values: heatFlow.values, units: h.units };
-  if (!sameGrid(grid, heatFlow))
-    throw new InputError(
-      `${path} is not on the heat-flow grid (size, origin, cell size and CRS must match)`,
-      [
-        {
-          feature: path,
-          field: 'grid',
-          problem: `expected ${heatFlow.width} × ${heatFlow.height} cells at ${heatFlow.west}, ${heatFlow.north} in ${heatFlow.crs}`,
-        },
-      ],
-      'bad_realizations_file',
-    );
+  if (!sameGrid(grid, heatFlow)) throw offGrid(path, heatFlow, 'bad_realizations_file');
   const n = count ?? h.realizations;
   if (!(n >= 1 && n <= h.realizations))
     throw new InputError(
@@ -132,4 +130,67 @@ export async function realizationsFromFile(
     sha256: h.dataSha256,
     warnings: [],
   };
+}
+
+type HeatFlowRealizations = Awaited<ReturnType<typeof realizationsFromFile>>;
+
+/** The heat-flow grid (--heat-flow, --band) and its standard deviation (--heat-flow-sd, on the same grid), with their SHA-256s. */
+export async function readHeatFlowGrids(
+  hfPath: string,
+  sdPath: string | undefined,
+  band: number | undefined,
+): Promise<{ heatFlow: Grid<Float32Array>; heatFlowSd: Grid<Float32Array> | null; crsDef: string; inputs: Record<string, string> }> {
+  const hfBytes = await readBytes(hfPath, 'heat-flow');
+  const hf = await readGridGeoTiff(hfBytes, hfPath, band);
+  const heatFlow: Grid<Float32Array> = { ...hf.grid, units: 'mW/m²' };
+  const inputs: Record<string, string> = { heatFlow: sha256Hex(hfBytes) };
+  if (sdPath === undefined) return { heatFlow, heatFlowSd: null, crsDef: hf.crsDef, inputs };
+  const sdBytes = await readBytes(sdPath, 'heat-flow-sd');
+  const sd = await readGridGeoTiff(sdBytes, sdPath, band);
+  if (!sameGrid(sd.grid, heatFlow)) throw offGrid(sdPath, heatFlow, 'bad_geotiff');
+  inputs.heatFlowSd = sha256Hex(sdBytes);
+  const heatFlowSd = { ...sd.grid, west: heatFlow.west, north: heatFlow.north, dx: heatFlow.dx, dy: heatFlow.dy, units: 'mW/m²' };
+  return { heatFlow, heatFlowSd, crsDef: hf.crsDef, inputs };
+}
+
+const badOption = (field: string, message: string, problem: string) => new InputError(message, [{ field, problem }], 'bad_option');
+
+/**
+ * The Monte Carlo's heat-flow realizations: simulated from --points on the heat-flow grid, read from
+ * --realizations-from, or none (q + sd·z, deprecated); their SHA-256 goes into `inputs`. Returns the realizations'
+ * count (from the file with --realizations-from).
+ */
+export async function heatFlowRealizationsOf(
+  a: IsothermArgs,
+  grids: { heatFlow: Grid<Float32Array>; heatFlowSd: Grid<Float32Array> | null; crsDef: string; inputs: Record<string, string> },
+  realizations: number,
+  seed: number,
+): Promise<{ simulated: HeatFlowRealizations | null; realizations: number }> {
+  const { heatFlow, heatFlowSd, inputs } = grids;
+  if (a.points !== undefined && a['realizations-from'] !== undefined)
+    throw badOption('realizations-from', 'give --points (simulate here) or --realizations-from (fields simulated before), not both', 'conflicts with --points');
+  if (a.points !== undefined) {
+    if (heatFlowSd !== null)
+      throw badOption(
+        'heat-flow-sd',
+        '--heat-flow-sd does not go with --points: the spread comes from the conditional simulations',
+        'drop it, or drop --points',
+      );
+    for (const k of ['cell-km', 'size', 'bbox', 'crs'] as const)
+      if (a[k] !== undefined) throw badOption(k, `--${k} does not go with isotherms: the grid is the heat-flow grid's`, 'drop it');
+    if (!(realizations >= 1))
+      throw badOption('realizations', '--points needs --realizations N (≥ 1): the percentiles come from N simulated heat-flow fields', 'missing');
+    const simulated = await simulateOnHeatFlowGrid(a, heatFlow, grids.crsDef, realizations, seed);
+    inputs.points = simulated.sha256;
+    return { simulated, realizations };
+  }
+  if (a['realizations-from'] !== undefined) {
+    const simulated = await realizationsFromFile(a['realizations-from'], heatFlow, heatFlowSd !== null, a.realizations === undefined ? null : realizations);
+    inputs.realizations = simulated.sha256;
+    return { simulated, realizations: simulated.values.length / (heatFlow.width * heatFlow.height) };
+  }
+  if (a['heat-flow-error-correlation'] !== undefined)
+    process.stderr.write('warning: --heat-flow-error-correlation is deprecated: give --points SITES to simulate spatially coherent heat-flow fields\n');
+  if (realizations > 0 && heatFlowSd === null) process.stderr.write('note: no --heat-flow-sd grid: the percentiles reflect the model parameters only\n');
+  return { simulated: null, realizations };
 }

@@ -14,14 +14,13 @@
  */
 import { InputError } from '../../shared/errors.ts';
 import type { Grid, GridSpec } from '../../shared/grid/grid.ts';
-import { rasterizeZones } from '../../shared/grid/polygon-cells.ts';
 import { parseFeatureCollection } from '../../shared/schema/features.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
-import { applyLayerOverride, overrideRegions } from '../../shared/products/overrides.ts';
+import { applyLayerOverride, overrideRegions, regionZones } from '../../shared/products/overrides.ts';
 import { createStream } from '../../shared/random/prng.ts';
 import { isUncertainModel, realizeModel, type CompiledModel, type ThermalModel } from '../../shared/thermal/index.ts';
 import { cellNormal, prepareGridMonteCarlo, type PreparedGridMonteCarlo } from '../../shared/thermal/monte-carlo.ts';
-import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
+import { loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
 import { interpolationOptionsSchema, pointsFromGeoJson } from '../../shared/schema/interp.ts';
 import type { Store } from '../store/types.ts';
 import { runSimulationOptions, simulateRunHeatFlow } from './heat-flow-simulation.ts';
@@ -224,17 +223,7 @@ export async function realizationsFromRecord(rec: RunRecord, opts: { realization
     const found = overrideRegions(parseFeatureCollection('regions', JSON.parse(rec.regionsBody)).collection.features);
     if (found.regions.length > 0) {
       zoneModels.push(...found.regions.map((r) => applyLayerOverride(base, r.override)));
-      const fromLonLat =
-        crsDef === WGS84_DEF
-          ? undefined
-          : (
-              (c) => (x: number, y: number) =>
-                c.forward([x, y])
-            )(converter(WGS84_DEF, crsDef));
-      zones = rasterizeZones(
-        heatFlow,
-        found.regions.map((r) => (fromLonLat === undefined ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => fromLonLat(p[0], p[1]))))),
-      );
+      zones = regionZones(heatFlow, found.regions, crsDef);
     }
   }
   const deepest = Math.max(...zoneModels.map((m) => m.layers[m.layers.length - 1].bottomKm));

@@ -17,7 +17,9 @@
  */
 import { InputError, type InputProblem } from '../errors.ts';
 import { parseThermalModel, type ThermalModelInput } from '../schema/model.ts';
-import { pointInRings, ringsOfGeometry, type Rings } from '../grid/polygon-cells.ts';
+import { pointInRings, rasterizeZones, ringsOfGeometry, type Rings } from '../grid/polygon-cells.ts';
+import type { GridSpec } from '../grid/grid.ts';
+import { converter, WGS84_DEF } from '../interp/projection.ts';
 
 export interface LayerOverride {
   /** Region label for messages, e.g. `regions[2] (basin)`. */
@@ -158,4 +160,16 @@ export function overrideRegions(features: { geometry: unknown; properties?: Reco
 export function overrideRegionAt(regions: readonly OverrideRegion[], lon: number, lat: number): number {
   for (let k = regions.length - 1; k >= 0; k--) if (pointInRings(regions[k].ringsLonLat, lon, lat)) return k;
   return -1;
+}
+
+/**
+ * Each cell's zone on a grid in the CRS `crsDef` (a proj4 definition): 0 outside every region, k inside region k
+ * (the first that holds the cell centre), the regions' lon/lat rings projected into the grid's CRS.
+ */
+export function regionZones(grid: GridSpec, regions: readonly OverrideRegion[], crsDef: string): Uint16Array {
+  const c = crsDef === WGS84_DEF ? null : converter(WGS84_DEF, crsDef);
+  return rasterizeZones(
+    grid,
+    regions.map((r) => (c === null ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => c.forward([p[0], p[1]]))))),
+  );
 }

@@ -9,11 +9,10 @@
  * reports progress there, yields to its event loop, or throws to stop the work.
  */
 import type { Grid } from '../grid/grid.ts';
-import { rasterizeZones } from '../grid/polygon-cells.ts';
 import type { ThermalModelInput } from '../schema/model.ts';
 import { converter, WGS84_DEF } from '../interp/projection.ts';
 import { compileModel, isUncertainModel, nominalModel, type CompiledModel } from '../thermal/index.ts';
-import { applyLayerOverride, type OverrideRegion } from './overrides.ts';
+import { applyLayerOverride, regionZones, type OverrideRegion } from './overrides.ts';
 import { allocateThermalGridBuffers, computeThermalGridRows, inconsistencyCounts, planThermalGrids } from './thermal-grids.ts';
 import { allocateUncertaintyOutput, computeUncertaintyRows, prepareUncertainty, uncertaintyResult } from './uncertainty.ts';
 import { layerStats } from './stats.ts';
@@ -129,17 +128,7 @@ function zoneModelsOf(
     );
   let zones: Uint16Array | undefined;
   if (regions.length > 0) {
-    const fromLonLat =
-      crsDef === WGS84_DEF
-        ? undefined
-        : (
-            (c) => (x: number, y: number) =>
-              c.forward([x, y])
-          )(converter(WGS84_DEF, crsDef));
-    zones = rasterizeZones(
-      heatFlow,
-      regions.map((r) => (fromLonLat === undefined ? r.ringsLonLat : r.ringsLonLat.map((ring) => ring.map((p) => fromLonLat(p[0], p[1]))))),
-    );
+    zones = regionZones(heatFlow, regions, crsDef);
     const counts = new Uint32Array(regions.length + 1);
     for (let i = 0; i < zones.length; i++) counts[zones[i]]++;
     regions.forEach((r, k) => {

@@ -14,7 +14,16 @@ import { isUncertainModel } from '../thermal/realize.ts';
 import { TOOL_NAME, VERSION } from '../version.ts';
 import { DEFAULT_GL_ORDER } from './column-heat.ts';
 import { ROUTES } from './exergy.ts';
-import { SUM_BLOCK, allocateResourceOutput, combineSums, prepareResource, resourceRange, type ResourceOutput, type ResourceSpec } from './monte-carlo.ts';
+import {
+  SUM_BLOCK,
+  allocateResourceOutput,
+  combineSums,
+  prepareResource,
+  resourceRange,
+  type PreparedResource,
+  type ResourceOutput,
+  type ResourceSpec,
+} from './monte-carlo.ts';
 import { lonLatGridPolygonMask, pointsPolygonMask, polygonsOf } from './polygon-mask.ts';
 import type { AreaGeometry, HeatInPlaceOptions } from './schema.ts';
 import { areaTotals, type AreaTotals } from './totals.ts';
@@ -115,13 +124,10 @@ function minMax(v: Float32Array): { min: number | null; max: number | null } {
   return lo <= hi ? { min: lo, max: hi } : { min: null, max: null };
 }
 
-/** Runs the assessment. Throws InputError for inputs that cannot be assessed (mismatched grids, a polygon off the grid). */
-export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
+/** Checks the inputs against the heat-flow grid; returns the cells with data. */
+function checkInputs(input: HeatInPlaceInput, lonLat: boolean): number {
   const g = input.heatFlow;
-  const o = input.options;
   const cells = g.width * g.height;
-  const lonLat = isLonLatCrs(g.crs);
-  const warnings: string[] = [];
   if (input.heatFlowSd !== undefined && !sameLayout(g, input.heatFlowSd)) {
     throw new InputError(
       'the heat-flow standard-deviation grid does not match the heat-flow grid',
@@ -141,58 +147,63 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
   let dataCells = 0;
   for (let c = 0; c < cells; c++) if (g.values[c] === g.values[c]) dataCells++;
   if (dataCells === 0) throw new InputError('the heat-flow grid has no data', [{ field: 'heatFlow', problem: 'every cell is NoData' }], 'no_data');
-
-  let polygonMask: Uint8Array | undefined;
-  let polygonAreaKm2 = NaN;
-  if (input.polygon !== undefined) {
-    const polys = polygonsOf(input.polygon);
-    polygonMask = lonLat ? lonLatGridPolygonMask(g, polys) : pointsPolygonMask(input.centresLonLat!.lon, input.centresLonLat!.lat, polys);
-    let members = 0,
-      withData = 0;
-    for (let c = 0; c < cells; c++)
-      if (polygonMask[c] === 1) {
-        members++;
-        if (g.values[c] === g.values[c]) withData++;
-      }
-    if (members === 0)
-      throw new InputError(
-        'the polygon does not overlap the grid: no cell centre lies inside it',
-        [{ field: 'polygon', problem: 'draw or upload a polygon over the heat-flow grid (a cell counts when its centre is inside)' }],
-        'polygon_off_grid',
-      );
-    if (withData === 0)
-      throw new InputError(
-        'the polygon covers only NoData cells of the heat-flow grid',
-        [{ field: 'polygon', problem: `${members} cells inside, none with heat-flow data` }],
-        'polygon_no_data',
-      );
-    polygonAreaKm2 = geodesicPolygonAreaM2(input.polygon) / 1e6;
-  }
-  const areas = gridRowAreasM2(g, input.metresPerUnit ?? 1);
-  // Projected grids: each cell's ground area on the ellipsoid from the inverse projection (any CRS).
-  const cellAreaM2 = !lonLat && input.toLonLat !== undefined ? projectedCellAreasM2(g, input.toLonLat) : undefined;
-  if (areas.method === 'planar' && cellAreaM2 === undefined) {
-    warnings.push(
-      `cell areas are dx·dy in the plane of ${g.crs}, not ground areas: the projection's areal scale factor is not corrected (it is far from 1 in some projections, e.g. 1/cos²φ in Web Mercator)`,
-    );
-  }
-
   const sims = input.heatFlowRealizations;
-  if (sims !== undefined && sims.values.length !== o.realizations * cells) {
+  if (sims !== undefined && sims.values.length !== input.options.realizations * cells) {
     throw new InputError(
-      `the heat-flow realizations hold ${sims.values.length} values, not ${o.realizations} realizations × ${cells} cells`,
-      [{ field: 'realizations', problem: `expected ${o.realizations * cells} values` }],
+      `the heat-flow realizations hold ${sims.values.length} values, not ${input.options.realizations} realizations × ${cells} cells`,
+      [{ field: 'realizations', problem: `expected ${input.options.realizations * cells} values` }],
       'grid_mismatch',
     );
   }
-  const spec: ResourceSpec = {
+  return dataCells;
+}
+
+/** The cells (1) of the polygon and its geodesic area (km²); the polygon must hold a cell centre with data. */
+function polygonMembership(input: HeatInPlaceInput, lonLat: boolean): { mask: Uint8Array; areaKm2: number } | null {
+  if (input.polygon === undefined) return null;
+  const g = input.heatFlow;
+  const polys = polygonsOf(input.polygon);
+  const mask = lonLat ? lonLatGridPolygonMask(g, polys) : pointsPolygonMask(input.centresLonLat!.lon, input.centresLonLat!.lat, polys);
+  let members = 0,
+    withData = 0;
+  for (let c = 0; c < mask.length; c++)
+    if (mask[c] === 1) {
+      members++;
+      if (g.values[c] === g.values[c]) withData++;
+    }
+  if (members === 0)
+    throw new InputError(
+      'the polygon does not overlap the grid: no cell centre lies inside it',
+      [{ field: 'polygon', problem: 'draw or upload a polygon over the heat-flow grid (a cell counts when its centre is inside)' }],
+      'polygon_off_grid',
+    );
+  if (withData === 0)
+    throw new InputError(
+      'the polygon covers only NoData cells of the heat-flow grid',
+      [{ field: 'polygon', problem: `${members} cells inside, none with heat-flow data` }],
+      'polygon_no_data',
+    );
+  return { mask, areaKm2: geodesicPolygonAreaM2(input.polygon) / 1e6 };
+}
+
+/** The Monte Carlo spec of the assessment. */
+function resourceSpecOf(
+  input: HeatInPlaceInput,
+  rowAreaM2: Float64Array,
+  cellAreaM2: Float64Array | undefined,
+  polygonMask: Uint8Array | undefined,
+): ResourceSpec {
+  const g = input.heatFlow,
+    o = input.options,
+    sims = input.heatFlowRealizations;
+  return {
     models: [input.model],
     heatFlowMWm2: g.values,
     heatFlowSdMWm2: sims === undefined ? input.heatFlowSd?.values : undefined,
     heatFlowErrorCorrelation: o.heatFlowErrorCorrelation,
     heatFlowRealizationsMWm2: sims?.values,
     width: g.width,
-    rowAreaM2: areas.rowAreaM2,
+    rowAreaM2,
     ...(cellAreaM2 === undefined ? {} : { cellAreaM2 }),
     polygonMask,
     zoneLabels: input.zones?.labels,
@@ -208,7 +219,11 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
     realizations: o.realizations,
     seed: o.seed,
   };
-  let prep;
+}
+
+/** Prepares and runs the Monte Carlo in chunks (a RangeError of the spec becomes an InputError). */
+function runResource(spec: ResourceSpec, chunk: number): { prep: PreparedResource; out: ResourceOutput } {
+  let prep: PreparedResource;
   try {
     prep = prepareResource(spec);
   } catch (e) {
@@ -216,10 +231,16 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
     throw e;
   }
   const out = allocateResourceOutput(prep);
-  const chunk = input.chunkCells ?? 64 * SUM_BLOCK;
-  for (let s = 0; s < cells; s += chunk) resourceRange(prep, s, Math.min(cells, s + chunk), out);
-  const totals = areaTotals(prep, combineSums(prep, out));
+  for (let s = 0; s < prep.cells; s += chunk) resourceRange(prep, s, Math.min(prep.cells, s + chunk), out);
+  return { prep, out };
+}
 
+/** The warnings of a finished assessment. */
+function assessmentWarnings(input: HeatInPlaceInput, prep: PreparedResource, out: ResourceOutput): string[] {
+  const warnings: string[] = [];
+  const o = input.options,
+    N = o.realizations,
+    sims = input.heatFlowRealizations;
   const truncated = out.blockTruncated.reduce((a, b) => a + b, 0);
   const sdMissing = out.blockSdMissing.reduce((a, b) => a + b, 0);
   if (truncated > 0)
@@ -227,7 +248,6 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
       `${truncated} cells have a nominal geotherm that is not valid throughout the window (surface heat flow exhausted by the heat production above): only their valid part is counted`,
     );
   if (sdMissing > 0) warnings.push(`${sdMissing} cells have heat flow but no standard deviation: their heat flow is taken as exact`);
-  const N = o.realizations;
   if (N > 0) {
     const anyUncertain =
       isUncertainModel(input.model) ||
@@ -243,13 +263,12 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
   if (input.zones !== undefined && input.zones.overlapCells > 0)
     warnings.push(`${input.zones.overlapCells} cells lie in more than one region polygon; each is counted in the first`);
   warnings.push(...prep.nominal.models[0].warnings.filter((w) => !/no densityKgM3/.test(w)));
+  return warnings;
+}
 
-  const setPolygon = prep.polygonSet,
-    setZone0 = prep.zoneSet0;
-  const polygonTotals = setPolygon > 0 ? { ...totals[setPolygon], polygonAreaKm2, label: input.polygonLabel ?? null } : null;
-  const zoneTotals = input.zones !== undefined ? input.zones.names.map((zone, k) => ({ zone, ...totals[setZone0 + k] })) : null;
-  const primary = polygonTotals ?? totals[0];
-  const method = {
+/** The method texts of the report. */
+function methodOf(o: HeatInPlaceOptions, crs: string, areaMethod: string, groundAreas: boolean): Record<string, unknown> {
+  return {
     route: ROUTES.exergy.id,
     routeLabel: ROUTES.exergy.label,
     routes: [
@@ -265,11 +284,11 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
     quadrature: `Gauss–Legendre, ${DEFAULT_GL_ORDER} points on each piece between the Tmin isotherm and the layer boundaries (the only kinks of the geotherm); Monte Carlo cells by cubic interpolation in one heat-flow table per realization, split at the heat flows where the integrand's domain changes`,
     cellMembership: 'a cell belongs to the polygon (or a region) when its centre is inside; boundary cells count wholly or not at all',
     cellArea:
-      areas.method === 'ellipsoidal'
+      areaMethod === 'ellipsoidal'
         ? 'exact area of each longitude/latitude cell on the WGS84 ellipsoid (authalic-latitude formula, Snyder 1987)'
-        : cellAreaM2 !== undefined
-          ? `ground area of each ${g.crs} cell on the WGS84 ellipsoid: ∬ M·N·cos φ·|∂(φ, λ)/∂(x, y)| over the cell (2 × 2 Gauss–Legendre, inverse projection by proj4)`
-          : `dx · dy in the plane of ${g.crs} (scale distortion not corrected)`,
+        : groundAreas
+          ? `ground area of each ${crs} cell on the WGS84 ellipsoid: ∬ M·N·cos φ·|∂(φ, λ)/∂(x, y)| over the cell (2 × 2 Gauss–Legendre, inverse projection by proj4)`
+          : `dx · dy in the plane of ${crs} (scale distortion not corrected)`,
     percentiles: PERCENTILE_CONVENTION,
     exceedance: EXCEEDANCE_READING,
     noRealizations: NO_REALIZATIONS_NOTE,
@@ -278,46 +297,83 @@ export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
       'nominal = the deterministic run: the model with each distribution at its central value (normal/truncated-normal mean, uniform midpoint, triangular mode), the kriged heat flow, and the central value of each parameter; it need not equal p50',
     densityUnits: 'per-cell densities: heat in place PJ/km², electric power (exergy route) MWe/km²',
   };
+}
+
+/** The report's Monte Carlo member (null without realizations). */
+function monteCarloOf(input: HeatInPlaceInput, prep: PreparedResource): HeatInPlaceReport['monteCarlo'] {
+  const o = input.options,
+    N = o.realizations,
+    sims = input.heatFlowRealizations;
+  if (!(N > 0)) return null;
+  return {
+    realizations: N,
+    accepted: N - prep.rejected,
+    rejected: prep.rejected,
+    firstRejection: prep.firstRejection,
+    seed: o.seed,
+    heatFlowErrorCorrelation: sims === undefined && input.heatFlowSd !== undefined ? o.heatFlowErrorCorrelation : null,
+    heatFlow:
+      sims !== undefined
+        ? sims.source
+        : input.heatFlowSd !== undefined
+          ? `kriged value + sd × a standard normal (${o.heatFlowErrorCorrelation === 'independent' ? 'one per cell' : 'one per realization for all cells'}; deprecated: simulate from the points instead)`
+          : 'the heat-flow grid as given (no spread)',
+  };
+}
+
+/** The report's inputs member. */
+function inputsOf(input: HeatInPlaceInput, lifeS: number, dataCells: number): Record<string, unknown> {
+  const g = input.heatFlow,
+    o = input.options;
+  return {
+    topKm: o.topKm,
+    bottomKm: o.bottomKm,
+    minTempC: o.minTempC,
+    refTempC: o.refTempC,
+    rhoCMJm3K: o.rhoCMJm3K,
+    recoveryFactor: o.recoveryFactor,
+    utilizationEfficiency: o.utilizationEfficiency,
+    conversionEfficiency: o.conversionEfficiency ?? null,
+    lifeYears: o.lifeYears,
+    lifeSeconds: lifeS,
+    model: input.modelLabel ?? input.model.name ?? null,
+    grid: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, cellsWithData: dataCells },
+    heatFlowSd: input.heatFlowSd !== undefined,
+    heatFlowRealizations: input.heatFlowRealizations !== undefined,
+    polygon: input.polygon !== undefined ? (input.polygonLabel ?? 'given') : null,
+    zones: input.zones?.source ?? null,
+  };
+}
+
+/** Runs the assessment. Throws InputError for inputs that cannot be assessed (mismatched grids, a polygon off the grid). */
+export function assessHeatInPlace(input: HeatInPlaceInput): HeatInPlaceResult {
+  const g = input.heatFlow;
+  const lonLat = isLonLatCrs(g.crs);
+  const dataCells = checkInputs(input, lonLat);
+  const polygon = polygonMembership(input, lonLat);
+  const areas = gridRowAreasM2(g, input.metresPerUnit ?? 1);
+  // Projected grids: each cell's ground area on the ellipsoid from the inverse projection (any CRS).
+  const cellAreaM2 = !lonLat && input.toLonLat !== undefined ? projectedCellAreasM2(g, input.toLonLat) : undefined;
+  const warnings: string[] = [];
+  if (areas.method === 'planar' && cellAreaM2 === undefined) {
+    warnings.push(
+      `cell areas are dx·dy in the plane of ${g.crs}, not ground areas: the projection's areal scale factor is not corrected (it is far from 1 in some projections, e.g. 1/cos²φ in Web Mercator)`,
+    );
+  }
+  const spec = resourceSpecOf(input, areas.rowAreaM2, cellAreaM2, polygon?.mask);
+  const { prep, out } = runResource(spec, input.chunkCells ?? 64 * SUM_BLOCK);
+  const totals = areaTotals(prep, combineSums(prep, out));
+  warnings.push(...assessmentWarnings(input, prep, out));
+  const polygonTotals = polygon !== null ? { ...totals[prep.polygonSet], polygonAreaKm2: polygon.areaKm2, label: input.polygonLabel ?? null } : null;
+  const zoneTotals = input.zones !== undefined ? input.zones.names.map((zone, k) => ({ zone, ...totals[prep.zoneSet0 + k] })) : null;
+  const N = input.options.realizations;
   const report: HeatInPlaceReport = {
-    ...primary,
+    ...(polygonTotals ?? totals[0]),
     area: polygonTotals !== null ? 'polygon' : 'grid',
     totals: { grid: totals[0], polygon: polygonTotals, zones: zoneTotals },
-    method,
-    inputs: {
-      topKm: o.topKm,
-      bottomKm: o.bottomKm,
-      minTempC: o.minTempC,
-      refTempC: o.refTempC,
-      rhoCMJm3K: o.rhoCMJm3K,
-      recoveryFactor: o.recoveryFactor,
-      utilizationEfficiency: o.utilizationEfficiency,
-      conversionEfficiency: o.conversionEfficiency ?? null,
-      lifeYears: o.lifeYears,
-      lifeSeconds: prep.lifeS,
-      model: input.modelLabel ?? input.model.name ?? null,
-      grid: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, cellsWithData: dataCells },
-      heatFlowSd: input.heatFlowSd !== undefined,
-      heatFlowRealizations: sims !== undefined,
-      polygon: input.polygon !== undefined ? (input.polygonLabel ?? 'given') : null,
-      zones: input.zones?.source ?? null,
-    },
-    monteCarlo:
-      N > 0
-        ? {
-            realizations: N,
-            accepted: N - prep.rejected,
-            rejected: prep.rejected,
-            firstRejection: prep.firstRejection,
-            seed: o.seed,
-            heatFlowErrorCorrelation: sims === undefined && input.heatFlowSd !== undefined ? o.heatFlowErrorCorrelation : null,
-            heatFlow:
-              sims !== undefined
-                ? sims.source
-                : input.heatFlowSd !== undefined
-                  ? `kriged value + sd × a standard normal (${o.heatFlowErrorCorrelation === 'independent' ? 'one per cell' : 'one per realization for all cells'}; deprecated: simulate from the points instead)`
-                  : 'the heat-flow grid as given (no spread)',
-          }
-        : null,
+    method: methodOf(input.options, g.crs, areas.method, cellAreaM2 !== undefined),
+    inputs: inputsOf(input, prep.lifeS, dataCells),
+    monteCarlo: monteCarloOf(input, prep),
     densityRange: {
       heatPJkm2: minMax(N > 0 ? out.heatPJkm2!.p50 : out.nominalHeatPJkm2),
       electricMWekm2: minMax(N > 0 ? out.electricMWekm2!.p50 : out.nominalElectricMWekm2),
