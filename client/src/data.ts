@@ -147,6 +147,51 @@ function crsChooser(): { root: HTMLElement; controls: (HTMLInputElement | HTMLSe
   };
 }
 
+/** The drop zone beside the file picker `input`: a click or Enter opens the picker; a file picked or dropped goes to `onFile`. */
+function dropZone(input: HTMLInputElement, onFile: (f: File) => void): HTMLElement {
+  const drop = el(
+    'div',
+    { class: 'dropzone', id: 'dropzone', tabindex: '0', role: 'button', 'aria-label': 'Drop a file here, or press Enter to choose one' },
+    'Drop a GeoJSON, CSV, GeoPackage or zipped Shapefile here, or ',
+    el('span', { class: 'linkish' }, 'choose a file'),
+  );
+  input.addEventListener('change', () => {
+    const f = input.files?.[0];
+    if (f) onFile(f);
+    input.value = '';
+  });
+  drop.addEventListener('click', () => input.click());
+  drop.addEventListener('keydown', (ev) => {
+    if (ev.key === 'Enter' || ev.key === ' ') {
+      ev.preventDefault();
+      input.click();
+    }
+  });
+  drop.addEventListener('dragover', (ev) => {
+    ev.preventDefault();
+    drop.classList.add('over');
+  });
+  drop.addEventListener('dragleave', () => drop.classList.remove('over'));
+  drop.addEventListener('drop', (ev) => {
+    ev.preventDefault();
+    drop.classList.remove('over');
+    const f = ev.dataTransfer?.files?.[0];
+    if (f) onFile(f);
+  });
+  return drop;
+}
+
+/** The upload report of an accepted file: what was accepted, and its warnings as a table. */
+function showAccepted(report: HTMLElement, d: DatasetCreated & { message?: string }, fileName: string): void {
+  const warnings = d.warnings ?? [];
+  replace(
+    report,
+    el('div', { class: 'ok', role: 'status' }, d.message ?? `${fileName}: ${d.featureCount} ${d.kind} accepted as data set ${d.id}.`),
+    warnings.length > 0 ? el('p', { class: 'note' }, `${warnings.length} warning${warnings.length === 1 ? '' : 's'}:`) : null,
+    warnings.length > 0 ? problemTable(warnings.map((w) => (typeof w === 'string' ? { problem: w } : w))) : null,
+  );
+}
+
 /** Builds the upload panel; `onUploaded` receives the new data set (the caller shows it and uses it in runs). */
 export function uploadPanel(
   onUploaded: (d: DatasetCreated, fileName: string) => void,
@@ -159,12 +204,7 @@ export function uploadPanel(
     id: 'upload-file',
     accept: '.geojson,.json,.csv,.txt,.gpkg,.zip,.tif,.tiff,application/geo+json,application/json,text/csv',
   });
-  const drop = el(
-    'div',
-    { class: 'dropzone', id: 'dropzone', tabindex: '0', role: 'button', 'aria-label': 'Drop a file here, or press Enter to choose one' },
-    'Drop a GeoJSON, CSV, GeoPackage or zipped Shapefile here, or ',
-    el('span', { class: 'linkish' }, 'choose a file'),
-  );
+  const drop = dropZone(input, (f) => void send(f));
   const crs = crsChooser();
   const layer = el('input', { id: 'upload-layer', placeholder: 'only when the file holds several', maxlength: '200' });
   const report = el('div', { id: 'upload-report', 'aria-live': 'polite' });
@@ -184,43 +224,13 @@ export function uploadPanel(
     replace(report, el('p', { class: 'loading' }, `Uploading ${file.name} as ${UPLOAD_LABELS[kind.value] ?? kind.value}…`));
     try {
       const d = await upload(kind.value, file, { crs: c.crs, layer: layer.value.trim() || undefined });
-      const warnings = d.warnings ?? [];
-      replace(
-        report,
-        el('div', { class: 'ok', role: 'status' }, d.message ?? `${file.name}: ${d.featureCount} ${d.kind} accepted as data set ${d.id}.`),
-        warnings.length > 0 ? el('p', { class: 'note' }, `${warnings.length} warning${warnings.length === 1 ? '' : 's'}:`) : null,
-        warnings.length > 0 ? problemTable(warnings.map((w) => (typeof w === 'string' ? { problem: w } : w))) : null,
-      );
+      showAccepted(report, d, file.name);
       onUploaded(d, file.name);
     } catch (e) {
       if (e instanceof ApiError) replace(report, errorBox(`${file.name}: ${e.message}`, e.details));
       else replace(report, errorBox(`${file.name}: ${e instanceof Error ? e.message : String(e)}`));
     }
   };
-
-  input.addEventListener('change', () => {
-    const f = input.files?.[0];
-    if (f) void send(f);
-    input.value = '';
-  });
-  drop.addEventListener('click', () => input.click());
-  drop.addEventListener('keydown', (ev) => {
-    if (ev.key === 'Enter' || ev.key === ' ') {
-      ev.preventDefault();
-      input.click();
-    }
-  });
-  drop.addEventListener('dragover', (ev) => {
-    ev.preventDefault();
-    drop.classList.add('over');
-  });
-  drop.addEventListener('dragleave', () => drop.classList.remove('over'));
-  drop.addEventListener('drop', (ev) => {
-    ev.preventDefault();
-    drop.classList.remove('over');
-    const f = ev.dataTransfer?.files?.[0];
-    if (f) void send(f);
-  });
 
   const root = el(
     'div',

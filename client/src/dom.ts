@@ -41,6 +41,35 @@ export function errorBox(message: string, details: { feature?: number | string; 
   return box;
 }
 
+/** One column of a report table: its header (with an optional tooltip), its share of the width and each row's cell. */
+export interface Column<R> {
+  label: string;
+  title?: string;
+  /** Right-aligned tabular figures. */
+  num?: boolean;
+  /** Width of the column as CSS (e.g. '18%'); columns without one share what is left. */
+  width?: string;
+  cell: (row: R) => Node | string;
+}
+
+/**
+ * A report table over the full width of its panel: fixed layout, long words wrapping, so no column is cut at the
+ * panel's edge; wrapped in a container that scrolls sideways (visibly) if the panel is ever narrower than the words.
+ */
+export function reportTable<R>(
+  attrs: Record<string, string>,
+  columns: Column<R>[],
+  rows: R[],
+  rowAttrs: (row: R) => Record<string, string> = () => ({}),
+): HTMLElement {
+  const head = columns.map((c) => el('th', { scope: 'col', ...(c.title ? { title: c.title } : {}) }, c.label));
+  const cols = columns.map((c) => el('col', c.width ? { style: `width:${c.width}` } : {}));
+  const body = rows.map((r) => el('tr', rowAttrs(r), ...columns.map((c) => el('td', c.num ? { class: 'num' } : {}, c.cell(r)))));
+  const cls = ['report', 'fit', attrs.class ?? ''].join(' ').trim();
+  const table = el('table', { ...attrs, class: cls }, el('colgroup', {}, ...cols), el('thead', {}, el('tr', {}, ...head)), el('tbody', {}, ...body));
+  return el('div', { class: 'table-scroll' }, table);
+}
+
 /** A validation report as a table: feature, field, problem. */
 export function problemTable(details: { feature?: number | string; field?: string; problem: string }[], limit = 200): HTMLTableElement {
   const rows = details
@@ -48,7 +77,7 @@ export function problemTable(details: { feature?: number | string; field?: strin
     .map((d) => el('tr', {}, el('td', {}, d.feature === undefined ? '—' : String(d.feature)), el('td', {}, d.field ?? '—'), el('td', {}, d.problem)));
   const t = el(
     'table',
-    { class: 'report' },
+    { class: 'report fit' },
     el('thead', {}, el('tr', {}, el('th', { scope: 'col' }, 'Feature'), el('th', { scope: 'col' }, 'Field'), el('th', { scope: 'col' }, 'Problem'))),
     el('tbody', {}, ...rows),
   );

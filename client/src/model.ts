@@ -8,15 +8,19 @@ import { isInputError } from '../../shared/errors.ts';
 import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
 import { el, replace } from './dom.ts';
 
-const COLUMNS: { key: string; label: string; units: string; optional: boolean }[] = [
-  { key: 'name', label: 'Layer', units: '', optional: true },
-  { key: 'bottomKm', label: 'Bottom', units: 'km', optional: false },
-  { key: 'conductivityWmK', label: 'k₀', units: 'W/m/K', optional: false },
-  { key: 'conductivityTempCoeffPerK', label: 'b in k₀/(1+bT)', units: '1/K', optional: true },
-  { key: 'heatProductionUWm3', label: 'Heat production', units: 'µW/m³', optional: true },
-  { key: 'heatProductionDecayKm', label: 'Decay depth', units: 'km', optional: true },
-  { key: 'densityKgM3', label: 'Density', units: 'kg/m³', optional: true },
+/** The layer table's columns: key, full name (for labels and tooltips), units, the header's short form and width in px
+ * (the name column takes what is left, so the table fits a 400 px panel). */
+const COLUMNS: { key: string; label: string; units: string; head: string; widthPx?: number }[] = [
+  { key: 'name', label: 'Layer', units: '', head: 'Layer' },
+  { key: 'bottomKm', label: 'Bottom', units: 'km', head: 'Bottom', widthPx: 44 },
+  { key: 'conductivityWmK', label: 'k₀', units: 'W/m/K', head: 'k₀', widthPx: 44 },
+  { key: 'conductivityTempCoeffPerK', label: 'b in k₀/(1+bT)', units: '1/K', head: 'b', widthPx: 50 },
+  { key: 'heatProductionUWm3', label: 'Heat production', units: 'µW/m³', head: 'Heat prod.', widthPx: 44 },
+  { key: 'heatProductionDecayKm', label: 'Decay depth', units: 'km', head: 'Decay depth', widthPx: 42 },
+  { key: 'densityKgM3', label: 'Density', units: 'kg/m³', head: 'Density', widthPx: 50 },
 ];
+/** Width of the column of remove buttons, px. */
+const REMOVE_COLUMN_PX = 28;
 
 function toText(v: unknown): string {
   if (v === undefined || v === null) return '';
@@ -119,27 +123,7 @@ function layout(f: Fields, addBtn: HTMLButtonElement, status: HTMLElement): HTML
       el('label', { for: f.surfaceQ.id }, 'Surface heat flow where no grid (mW/m²)'),
       el('span', { class: 'cell' }, f.surfaceQ, f.errQ),
     ),
-    el(
-      'div',
-      { class: 'table-scroll' },
-      el(
-        'table',
-        { class: 'model-table' },
-        el(
-          'thead',
-          {},
-          el(
-            'tr',
-            {},
-            ...COLUMNS.map((c) =>
-              el('th', { scope: 'col' }, c.label, c.units ? el('br') : null, c.units ? el('span', { class: 'unit' }, `(${c.units})`) : null),
-            ),
-            el('th', {}, ''),
-          ),
-        ),
-        f.tbody,
-      ),
-    ),
+    el('div', { class: 'table-scroll' }, el('table', { class: 'model-table fit' }, layerTableHead(), f.tbody)),
     el('div', { class: 'field-row' }, addBtn),
     status,
     el(
@@ -148,6 +132,19 @@ function layout(f: Fields, addBtn: HTMLButtonElement, status: HTMLElement): HTML
       'A cell takes a number or a distribution as JSON, e.g. {"dist":"normal","mean":3,"sd":0.3}. The name travels into reports and exports.',
     ),
   );
+}
+
+/** The layer table's column widths and headers (short name, units below, the full name as the tooltip). */
+function layerTableHead(): DocumentFragment {
+  const cols = el('colgroup', {}, ...COLUMNS.map((c) => el('col', c.widthPx ? { style: `width:${c.widthPx}px` } : {})));
+  cols.append(el('col', { style: `width:${REMOVE_COLUMN_PX}px` }));
+  const heads = COLUMNS.map((c) => {
+    const title = `${c.label}${c.units ? ` (${c.units})` : ''}`;
+    return el('th', { scope: 'col', title }, c.head, c.units ? el('br') : null, c.units ? el('span', { class: 'unit' }, c.units) : null);
+  });
+  const frag = document.createDocumentFragment();
+  frag.append(cols, el('thead', {}, el('tr', {}, ...heads, el('th', {}, ''))));
+  return frag;
 }
 
 /** One editable row of the layer table. */
@@ -171,6 +168,37 @@ function layerRow(layer: Record<string, unknown>, i: number, enabled: boolean, o
   return tr;
 }
 
+/** Validates the model the fields describe with the server's schema: its problems beside their fields, a status line;
+ * the model when valid, else null. */
+function checkFields(f: Fields, model: Record<string, unknown>, status: HTMLElement): ThermalModelInput | null {
+  for (const e of document.querySelectorAll('#model-editor .field-error')) e.textContent = '';
+  for (const i of document.querySelectorAll('#model-editor input[aria-invalid]')) i.removeAttribute('aria-invalid');
+  try {
+    const m = parseThermalModel(model, 'model');
+    status.textContent = `Valid: ${m.layers.length} layer${m.layers.length === 1 ? '' : 's'} to ${m.layers[m.layers.length - 1].bottomKm} km.`;
+    status.className = 'model-status ok-text';
+    return m;
+  } catch (e) {
+    if (!isInputError(e)) throw e;
+    const unplaced = placeProblems(f, e.details);
+    status.textContent = `${e.details.length} problem${e.details.length === 1 ? '' : 's'}${unplaced > 0 ? `: ${e.message}` : ' — see the marked fields.'}`;
+    status.className = 'model-status error-text';
+    return null;
+  }
+}
+
+/** A new layer 10 km below the table's last (or 0–10 km), with middle-crust values to edit. */
+function nextLayer(rows: HTMLInputElement[][]): Record<string, unknown> {
+  const last = rows.length > 0 ? Number(rows[rows.length - 1][1].value) : 0;
+  return {
+    name: `layer ${rows.length + 1}`,
+    bottomKm: Number.isFinite(last) ? last + 10 : 10,
+    conductivityWmK: 2.5,
+    heatProductionUWm3: 0.5,
+    densityKgM3: 2900,
+  };
+}
+
 export function modelEditor(initial: ThermalModelInput, onValid: (m: ThermalModelInput | null) => void): ModelEditor {
   let extras: Record<string, unknown>[] = [];
   let top: Record<string, unknown> = {};
@@ -188,19 +216,7 @@ export function modelEditor(initial: ThermalModelInput, onValid: (m: ThermalMode
   const addBtn = el('button', { type: 'button', id: 'model-add-layer' }, 'Add layer');
 
   const validate = () => {
-    for (const e of document.querySelectorAll('#model-editor .field-error')) e.textContent = '';
-    for (const i of document.querySelectorAll('#model-editor input[aria-invalid]')) i.removeAttribute('aria-invalid');
-    try {
-      current = parseThermalModel(buildModel(f, top, extras), 'model');
-      status.textContent = `Valid: ${current.layers.length} layer${current.layers.length === 1 ? '' : 's'} to ${current.layers[current.layers.length - 1].bottomKm} km.`;
-      status.className = 'model-status ok-text';
-    } catch (e) {
-      current = null;
-      if (!isInputError(e)) throw e;
-      const unplaced = placeProblems(f, e.details);
-      status.textContent = `${e.details.length} problem${e.details.length === 1 ? '' : 's'}${unplaced > 0 ? `: ${e.message}` : ' — see the marked fields.'}`;
-      status.className = 'model-status error-text';
-    }
+    current = checkFields(f, buildModel(f, top, extras), status);
     onValid(current);
   };
 
@@ -226,16 +242,8 @@ export function modelEditor(initial: ThermalModelInput, onValid: (m: ThermalMode
   };
 
   addBtn.addEventListener('click', () => {
-    const rows = rowInputs(f.tbody);
-    const last = rows.length > 0 ? Number(rows[rows.length - 1][1].value) : 0;
     extras.push({});
-    addRow({
-      name: `layer ${rows.length + 1}`,
-      bottomKm: Number.isFinite(last) ? last + 10 : 10,
-      conductivityWmK: 2.5,
-      heatProductionUWm3: 0.5,
-      densityKgM3: 2900,
-    });
+    addRow(nextLayer(rowInputs(f.tbody)));
     validate();
   });
   for (const i of [f.name, f.surfaceT, f.surfaceQ]) i.addEventListener('input', validate);

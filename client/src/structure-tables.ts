@@ -4,7 +4,7 @@
  * isograds (the run's summary with band widths and disagreeing samples, or the lines of the isograd layer), and each
  * sample's grade.
  */
-import { el, fmt } from './dom.ts';
+import { el, fmt, reportTable, type Column } from './dom.ts';
 import type { IsogradSummary } from '../../shared/structure/layer.ts';
 import type { FaultReportRow, FeatureCollection, SampleGrade } from './structure.ts';
 
@@ -33,54 +33,33 @@ function lengthKm(ls: number[][][]): number {
 
 /**
  * The fault table: name (a button selecting the fault), kind, dip, length and, with a fault report, its columns;
- * null when there are no faults. Fixed layout over the panel's width, long words wrapping: no column is cut.
+ * null when there are no faults. Its columns share the panel's width, long words wrapping: no column is cut.
  */
 export function faultTable(faults: FeatureCollection, report: FaultReportRow[], onSelect: (id: string) => void): HTMLElement | null {
+  type Row = { f: FeatureCollection['features'][number]; id: string; r: FaultReportRow | undefined };
+  const rows: Row[] = faults.features.map((f) => {
+    const id = String(f.properties?.id ?? f.id ?? '');
+    return { f, id, r: report.find((x) => String(x.id) === id || String(x.faultId) === id) };
+  });
+  const nameButton = ({ f, id }: Row) => {
+    const btn = el('button', { type: 'button', class: 'rowbtn', 'aria-pressed': 'false' }, String(f.properties?.name ?? id));
+    btn.addEventListener('click', () => onSelect(id));
+    return btn;
+  };
+  const columns: Column<Row>[] = [
+    { label: 'Fault', width: '24%', cell: nameButton },
+    { label: 'Kind', width: '18%', cell: ({ f }) => String(f.properties?.kind ?? 'unknown') },
+    { label: 'Dip', width: '9%', num: true, cell: ({ f }) => (typeof f.properties?.dipDeg === 'number' ? `${f.properties.dipDeg}°` : '—') },
+    { label: 'Length (km)', width: '13%', num: true, cell: ({ f }) => fmt(lengthKm(lines(f.geometry)), 1) },
+  ];
   // The run's fault report columns (shared/structure/fault-report.ts): the grade jump across the fault and the
   // higher-grade side; zones missing on one side and separations are in each fault's details.
-  const reportCols: { label: string; value: (r: FaultReportRow) => unknown }[] =
-    report.length === 0
-      ? []
-      : [
-          { label: 'Grade jump (zones)', value: (r) => r.gradeJump },
-          { label: 'Higher grade', value: (r) => r.higherWall ?? r.higherSide },
-        ];
-  const faultRows = faults.features.map((f) => {
-    const p = f.properties ?? {};
-    const id = String(p.id ?? f.id ?? '');
-    const r = report.find((x) => String(x.id) === id || String(x.faultId) === id);
-    const btn = el('button', { type: 'button', class: 'rowbtn', 'aria-pressed': 'false' }, String(p.name ?? id));
-    btn.addEventListener('click', () => onSelect(id));
-    return el(
-      'tr',
-      { 'data-fault': id },
-      el('td', {}, btn),
-      el('td', {}, String(p.kind ?? 'unknown')),
-      el('td', { class: 'num' }, typeof p.dipDeg === 'number' ? `${p.dipDeg}°` : '—'),
-      el('td', { class: 'num' }, fmt(lengthKm(lines(f.geometry)), 1)),
-      ...reportCols.map((c) => el('td', {}, r ? formatCell(c.value(r)) : '—')),
+  if (report.length > 0)
+    columns.push(
+      { label: 'Grade jump (zones)', width: '15%', num: true, cell: ({ r }) => (r ? formatCell(r.gradeJump) : '—') },
+      { label: 'Higher grade', cell: ({ r }) => (r ? formatCell(r.higherWall ?? r.higherSide) : '—') },
     );
-  });
-  const faultTable = el(
-    'table',
-    // Fixed layout over the panel's width, long words wrapping: no column is cut at the panel's edge.
-    { class: 'report', id: 'fault-table', style: 'table-layout:fixed;width:100%;overflow-wrap:anywhere' },
-    el(
-      'thead',
-      {},
-      el(
-        'tr',
-        {},
-        el('th', { scope: 'col' }, 'Fault'),
-        el('th', { scope: 'col' }, 'Kind'),
-        el('th', { scope: 'col' }, 'Dip'),
-        el('th', { scope: 'col' }, 'Length (km)'),
-        ...reportCols.map((c) => el('th', { scope: 'col' }, c.label)),
-      ),
-    ),
-    el('tbody', {}, ...faultRows),
-  );
-  return faultRows.length > 0 ? el('div', { class: 'table-scroll' }, faultTable) : null;
+  return rows.length > 0 ? reportTable({ id: 'fault-table' }, columns, rows, ({ id }) => ({ 'data-fault': id })) : null;
 }
 
 /** The run's isograd summary: length, band width (median and 10th–90th percentile), samples each side, disagreeing samples. */
@@ -100,48 +79,24 @@ export function isogradSummaryTable(summary: IsogradSummary[]): HTMLElement[] {
         .join(', ') + (d.length > 8 ? `, … ${d.length - 8} more` : '')
     );
   };
-  const rows = summary.map((r) =>
-    el(
-      'tr',
-      {},
-      el('td', {}, `${r.mineral}-in`),
-      el('td', { class: 'num' }, formatCell(r.lengthKm)),
-      el('td', { class: 'num' }, band(r)),
-      el('td', { class: 'num' }, `${formatCell(r.samplesAbove)} / ${formatCell(r.samplesBelow)}`),
-      el('td', { class: 'wrap' }, against(r)),
-    ),
-  );
-  parts.push(
-    el(
-      'div',
-      { class: 'table-scroll' },
-      el(
-        'table',
-        { class: 'report', id: 'isograd-table', style: 'table-layout:fixed;width:100%;overflow-wrap:anywhere' },
-        el(
-          'thead',
-          {},
-          el(
-            'tr',
-            {},
-            el('th', { scope: 'col' }, 'Isograd'),
-            el('th', { scope: 'col' }, 'Length (km)'),
-            el('th', { scope: 'col', title: 'Width of the 0.1–0.9 probability band along the isograd: median (10th–90th percentile)' }, 'Band width (km)'),
-            el('th', { scope: 'col' }, 'Samples above / below'),
-            el(
-              'th',
-              {
-                scope: 'col',
-                title: 'Samples on the other side of the isograd from what they record, with their leave-one-out probability of lying at or above it',
-              },
-              'Disagreeing samples',
-            ),
-          ),
-        ),
-        el('tbody', {}, ...rows),
-      ),
-    ),
-  );
+  const columns: Column<IsogradSummary>[] = [
+    { label: 'Isograd', width: '18%', cell: (r) => `${r.mineral}-in` },
+    { label: 'Length (km)', width: '15%', num: true, cell: (r) => formatCell(r.lengthKm) },
+    {
+      label: 'Band width (km)',
+      title: 'Width of the 0.1–0.9 probability band along the isograd: median (10th–90th percentile)',
+      width: '20%',
+      num: true,
+      cell: band,
+    },
+    { label: 'Samples above / below', width: '17%', num: true, cell: (r) => `${formatCell(r.samplesAbove)} / ${formatCell(r.samplesBelow)}` },
+    {
+      label: 'Disagreeing samples',
+      title: 'Samples on the other side of the isograd from what they record, with their leave-one-out probability of lying at or above it',
+      cell: against,
+    },
+  ];
+  parts.push(reportTable({ id: 'isograd-table' }, columns, summary));
   parts.push(
     el(
       'p',
@@ -154,48 +109,30 @@ export function isogradSummaryTable(summary: IsogradSummary[]): HTMLElement[] {
 
 /** The lines of the run's isograd layer (without a summary): mineral, rank, high side, length. */
 export function isogradLineTable(isograds: FeatureCollection): HTMLElement {
-  const rows = isograds.features.map((f) => {
-    const p = f.properties ?? {};
-    return el(
-      'tr',
-      {},
-      el('td', {}, String(p.mineral ?? p.zone ?? '—')),
-      el('td', { class: 'num' }, formatCell(p.rank)),
-      el('td', {}, String(p.highSide ?? '—')),
-      el('td', { class: 'num' }, fmt(lengthKm(lines(f.geometry)), 1)),
-    );
-  });
-  return el(
-    'table',
-    { class: 'report', id: 'isograd-table' },
-    el(
-      'thead',
-      {},
-      el(
-        'tr',
-        {},
-        el('th', { scope: 'col' }, 'Mineral in'),
-        el('th', { scope: 'col' }, 'Rank'),
-        el('th', { scope: 'col' }, 'High side'),
-        el('th', { scope: 'col' }, 'Length (km)'),
-      ),
-    ),
-    el('tbody', {}, ...rows),
-  );
+  type Row = FeatureCollection['features'][number];
+  const columns: Column<Row>[] = [
+    { label: 'Mineral in', cell: (f) => String(f.properties?.mineral ?? f.properties?.zone ?? '—') },
+    { label: 'Rank', num: true, cell: (f) => formatCell(f.properties?.rank) },
+    { label: 'High side', cell: (f) => String(f.properties?.highSide ?? '—') },
+    { label: 'Length (km)', num: true, cell: (f) => fmt(lengthKm(lines(f.geometry)), 1) },
+  ];
+  return reportTable({ id: 'isograd-table' }, columns, isograds.features);
 }
 
 /** Each sample's grade (zone, and whether it came from the zone given, the facies or the peak P–T), folded. */
 export function sampleGradeList(grades: SampleGrade[]): HTMLElement {
-  const rows = grades.map((g) =>
-    el(
-      'tr',
-      { 'data-sample': g.id },
-      el('td', {}, g.id),
-      el('td', {}, g.zone ?? '—'),
-      el('td', {}, GRADE_SOURCE[g.source] ?? g.source),
-      el('td', {}, g.series ?? '—'),
-    ),
-  );
+  const columns: Column<SampleGrade>[] = [
+    { label: 'Sample', cell: (g) => g.id },
+    { label: 'Zone', cell: (g) => g.zone ?? '—' },
+    {
+      label: 'From',
+      title: 'The zone recorded, or derived from the facies or from the peak temperature and pressure',
+      cell: (g) => GRADE_SOURCE[g.source] ?? g.source,
+    },
+    { label: 'Series', title: 'Pressure series from the aluminosilicate field (low pressure: andalusite-bearing)', cell: (g) => g.series ?? '—' },
+  ];
+  const table = reportTable({ id: 'sample-grade-table' }, columns, grades, (g) => ({ 'data-sample': g.id }));
+  table.classList.add('tall');
   const counts = (['zone', 'facies', 'peak-pt', 'none'] as const)
     .map((k) => [k, grades.filter((g) => g.source === k).length] as const)
     .filter(([, n]) => n > 0);
@@ -203,27 +140,7 @@ export function sampleGradeList(grades: SampleGrade[]): HTMLElement {
     'details',
     { id: 'sample-grades' },
     el('summary', {}, `Grade of each sample (${grades.length}: ${counts.map(([k, n]) => `${n} from ${GRADE_SOURCE[k]}`).join(', ')})`),
-    el(
-      'div',
-      { class: 'table-scroll', style: 'max-height:320px;overflow-y:auto' },
-      el(
-        'table',
-        { class: 'report', id: 'sample-grade-table', style: 'table-layout:fixed;width:100%;overflow-wrap:anywhere' },
-        el(
-          'thead',
-          {},
-          el(
-            'tr',
-            {},
-            el('th', { scope: 'col' }, 'Sample'),
-            el('th', { scope: 'col' }, 'Zone'),
-            el('th', { scope: 'col', title: 'The zone recorded, or derived from the facies or from the peak temperature and pressure' }, 'From'),
-            el('th', { scope: 'col', title: 'Pressure series from the aluminosilicate field (low pressure: andalusite-bearing)' }, 'Series'),
-          ),
-        ),
-        el('tbody', {}, ...rows),
-      ),
-    ),
+    table,
   );
 }
 
@@ -256,56 +173,34 @@ export function faultDetails(r: FaultReportRow): HTMLElement {
   const seps = (r.separations as SepRow[] | undefined) ?? [];
   const range = (x: KmRange) => `${fmt(x.value, 1)} (${fmt(x.low, 1)}–${x.high === null ? 'open' : fmt(x.high, 1)})`;
   const openReasons = [...new Set(seps.flatMap((x) => [x.separationKm, x.dipSlipKm]).flatMap((x) => (x?.high === null ? [x.openReason ?? 'open'] : [])))];
+  const columns: Column<SepRow>[] = [
+    { label: 'Isograd', width: '22%', cell: (x) => x.isograd },
+    { label: 'End', width: '12%', cell: (x) => x.end },
+    {
+      label: 'Separation (km)',
+      title: "Apparent separation along the trace, with the range from the isograd's 0.1–0.9 probability band",
+      width: '20%',
+      num: true,
+      cell: (x) => range(x.separationKm),
+    },
+    { label: 'Sense', cell: (x) => `${x.sense}${x.displacedTowardHigherGrade ? `; up-grade: ${x.displacedTowardHigherGrade}` : ''}` },
+    {
+      label: 'Dip slip (km)',
+      title: "Dip-slip component for pure dip slip, d = s·tan r (r: pitch of the isograd's cutoff on the fault plane)",
+      width: '20%',
+      num: true,
+      cell: (x) => (x.dipSlipKm ? `${range(x.dipSlipKm)} ${x.slipSense ?? ''}` : '—'),
+    },
+  ];
   const sepTable =
-    seps.length === 0
-      ? el('p', { class: 'empty' }, 'No isograd meets this fault on both sides.')
-      : el(
-          'table',
-          { class: 'report separations', style: 'table-layout:fixed;width:100%;overflow-wrap:anywhere' },
-          el(
-            'thead',
-            {},
-            el(
-              'tr',
-              {},
-              el('th', { scope: 'col' }, 'Isograd'),
-              el('th', { scope: 'col' }, 'End'),
-              el(
-                'th',
-                { scope: 'col', title: "Apparent separation along the trace, with the range from the isograd's 0.1–0.9 probability band" },
-                'Separation (km)',
-              ),
-              el('th', { scope: 'col' }, 'Sense'),
-              el(
-                'th',
-                { scope: 'col', title: "Dip-slip component for pure dip slip, d = s·tan r (r: pitch of the isograd's cutoff on the fault plane)" },
-                'Dip slip (km)',
-              ),
-            ),
-          ),
-          el(
-            'tbody',
-            {},
-            ...seps.map((x) =>
-              el(
-                'tr',
-                {},
-                el('td', {}, x.isograd),
-                el('td', {}, x.end),
-                el('td', { class: 'num' }, range(x.separationKm)),
-                el('td', {}, `${x.sense}${x.displacedTowardHigherGrade ? `; up-grade: ${x.displacedTowardHigherGrade}` : ''}`),
-                el('td', { class: 'num' }, x.dipSlipKm ? `${range(x.dipSlipKm)} ${x.slipSense ?? ''}` : '—'),
-              ),
-            ),
-          ),
-        );
+    seps.length === 0 ? el('p', { class: 'empty' }, 'No isograd meets this fault on both sides.') : reportTable({ class: 'separations' }, columns, seps);
   const warnings = Array.isArray(r.warnings) ? (r.warnings as string[]) : [];
   return el(
     'section',
     { class: 'fault-detail', 'data-fault-detail': String(r.id) },
     el('h4', {}, `${String(r.name ?? r.id)}${r.kind ? ` (${String(r.kind)})` : ''}`),
     items.length > 0 ? el('ul', {}, ...items) : el('p', { class: 'empty' }, 'No zone statement: too few samples beside the trace.'),
-    el('div', { class: 'table-scroll' }, sepTable),
+    sepTable,
     ...openReasons.map((why) => el('p', { class: 'note' }, `“open”: the range's upper bound lies ${why}; no number is given for it.`)),
     ...warnings.map((w) => el('p', { class: 'note' }, w)),
   );

@@ -7,6 +7,7 @@ import { join } from 'node:path';
 import type { Browser, Page } from 'playwright-core';
 import { launchBrowser, startServerProcess, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
 import { colorPixels, rampCoverage } from '../helpers/pixels.ts';
+import { hiddenOverflow } from '../helpers/layout.ts';
 import { ZONE_COLORS } from '../../shared/grid/ramps.ts';
 
 let server: RunningServer;
@@ -68,6 +69,34 @@ describe('the demo opens finished', { timeout: 900_000 }, () => {
     const iso = await colorPixels(page, ['run-isograds'], zoneColors, ISLAND);
     expect(iso.shown, JSON.stringify(iso)).toBeGreaterThan(300);
     expect(iso.hidden, JSON.stringify(iso)).toBeLessThan(iso.shown / 20);
+    expect(pageErrors).toEqual([]);
+  });
+
+  it("fits every panel at 1440 × 900 and at 1280 × 800: no table or control cut at the panel's edge (screenshots of each)", async () => {
+    const tabs = await page.locator('[role="tab"]').evaluateAll((bs) => bs.map((b) => (b as HTMLElement).dataset.tab!));
+    expect(tabs).toEqual(expect.arrayContaining(['inspect', 'data', 'model', 'run', 'structure', 'section', 'heat', 'share']));
+    for (const viewport of [
+      { width: 1440, height: 900 },
+      { width: 1280, height: 800 },
+    ]) {
+      await page.setViewportSize(viewport);
+      for (const t of tabs) {
+        await page.locator(`#tab-${t}`).click();
+        await page.waitForFunction((id) => !document.getElementById(`tabpanel-${id}`)!.hidden, t);
+        // Folded parts (e.g. each sample's grade) open too: their tables must fit as well.
+        await page.evaluate(() => document.querySelectorAll('#tools details').forEach((d) => ((d as HTMLDetailsElement).open = true)));
+        const where = `${t} at ${viewport.width} × ${viewport.height}`;
+        const o = await hiddenOverflow(page, '#tools');
+        expect(o.cut, where).toEqual([]);
+        // Every table fits its panel's width: nothing to scroll sideways to.
+        for (const table of o.tables) expect(table.overPx, `${where}: ${table.id}`).toBeLessThanOrEqual(0);
+        await page.screenshot({ path: join(SCREENSHOT_DIR, `demo-finished-panel-${t}-${viewport.width}x${viewport.height}.png`) });
+      }
+      expect((await hiddenOverflow(page, '#panel')).cut, `layer panel at ${viewport.width} × ${viewport.height}`).toEqual([]);
+    }
+    // The structure panel really holds the run's fault report (its grade columns are what the narrow panel used to cut).
+    expect(await page.locator('#fault-table thead').textContent()).toContain('Higher grade');
+    expect(await page.locator('#fault-table tbody tr').count()).toBeGreaterThan(1);
     expect(pageErrors).toEqual([]);
   });
 });
