@@ -8,7 +8,7 @@ import type { LayerPanel } from './layers.ts';
 import type { AppState } from './state.ts';
 import type { ShownRun } from './runlayers.ts';
 import type { ColumnAnswer } from './inspector.ts';
-import type { SectionAnswer } from './section.ts';
+import type { SectionAnswer } from './section-plot.ts';
 import type { HeatInPlaceResult } from './heat.ts';
 import { el } from './dom.ts';
 

@@ -8,6 +8,7 @@ import { VERSION } from '../../shared/version.ts';
 import { VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
 import { columnAnswerSchema } from '../../shared/schema/column.ts';
 import { heatFlowCorrectionRequestSchema } from '../../shared/heatflow/dataset-corrections.ts';
+import { sectionAnswerSchema } from './openapi-answers.ts';
 import { columnAtRunSchema, columnOfModelSchema, datasetPatchSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
 
 const json = (schema: z.ZodType) => z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any', target: 'draft-2020-12' });
@@ -280,7 +281,11 @@ export function openApiDocument(): unknown {
         }),
       },
       '/api/section': {
-        post: op('vertical temperature section along a line through a run', { body: json(sectionSchema), errors: [400, 404, 409, 415, 422, 503] }),
+        post: op('vertical temperature section along a line through a run', {
+          body: json(sectionSchema),
+          okSchema: sectionAnswerSchema,
+          errors: [400, 404, 409, 415, 422, 503],
+        }),
       },
       '/api/projects': {
         post: op('create a shared project; returns its edit token once', { body: json(projectCreateSchema), ok: '201', errors: [400, 413, 415, 422] }),

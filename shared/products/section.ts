@@ -53,6 +53,8 @@ export interface LineFeature {
 
 const r3 = (v: number) => Math.round(v * 1e3) / 1e3;
 const r2 = (v: number) => Math.round(v * 1e2) / 1e2;
+/** The column answer's rounding of its limit depths (shared/thermal/readout.ts), so a section and a column agree. */
+const r6 = (v: number) => Math.round(v * 1e6) / 1e6;
 const fin = (v: number, r: (x: number) => number): number | null => (Number.isFinite(v) ? r(v) : null);
 
 /** Lines of a GeoJSON LineString or MultiLineString geometry (others give none). */
@@ -160,6 +162,7 @@ interface SectionColumns {
   facies: Int8Array;
   isoCurves: (number | null)[][];
   meltOnset: (number | null)[];
+  lithosphereBase: (number | null)[];
   noData: number;
   melting: number;
 }
@@ -191,6 +194,9 @@ function solveColumns(q: SectionQuery, s: LineSamples, depthKm: Float64Array): S
     isoCurves: q.isothermsC.map(() => new Array<number | null>(n).fill(null)),
     // Melt onset per column (km; null: not reached above the maximum depth): no temperature is given below it.
     meltOnset: new Array<number | null>(n).fill(null),
+    // Lithosphere base per column (km; null: the conductive geotherm does not meet the mantle adiabat above the
+    // section's depth): the adiabat gives the temperature below it.
+    lithosphereBase: new Array<number | null>(n).fill(null),
     noData: 0,
     melting: 0,
   };
@@ -205,7 +211,8 @@ function solveColumns(q: SectionQuery, s: LineSamples, depthKm: Float64Array): S
     if (here) c.zoneKey[j] = here.key;
     solveColumn(cm, q0, cm.surfaceTemperatureC, st);
     const lim = columnLimits(cm, st, q.maxDepthKm);
-    c.meltOnset[j] = fin(lim.meltOnsetKm, r3);
+    c.meltOnset[j] = fin(lim.meltOnsetKm, r6);
+    c.lithosphereBase[j] = fin(lim.lithosphereBaseKm, r6);
     if (lim.endReason === 'melt-onset') c.melting++;
     for (let k = 0; k < nz; k++) {
       const t = limitedTemperature(cm, st, lim, depthKm[k]);
@@ -249,6 +256,7 @@ export function computeSection(q: SectionQuery): Record<string, unknown> {
     ...(q.modelAt ? { modelZone: c.zoneKey.map((k) => (k === 'model' ? null : k)) } : {}),
     isotherms: q.isothermsC.map((t, i) => ({ temperatureC: t, depthKm: c.isoCurves[i] })),
     meltOnsetKm: c.meltOnset,
+    lithosphereBaseKm: c.lithosphereBase,
     faultCrossings: crossingsAlong(q.line, s.cum, q.faults),
     isogradCrossings: crossingsAlong(q.line, s.cum, q.isograds),
     method: 'steady-state conduction per column (no lateral heat flow); geodesic distances on WGS84',

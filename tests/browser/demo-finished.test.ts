@@ -99,4 +99,31 @@ describe('the demo opens finished', { timeout: 900_000 }, () => {
     expect(await page.locator('#fault-table tbody tr').count()).toBeGreaterThan(1);
     expect(pageErrors).toEqual([]);
   });
+
+  it("draws the lithosphere base in a deep section across the island, from the section's own answer", async () => {
+    await page.setViewportSize({ width: 1440, height: 900 });
+    await page.locator('#tab-section').click();
+    await page.locator('#section-depth').fill('150');
+    await page.locator('#section-draw').click();
+    const box = (await page.locator('#map').boundingBox())!;
+    for (const ll of [
+      [-128.5, -38.1],
+      [-127.3, -38.0],
+    ] as [number, number][]) {
+      const pt = await page.evaluate((p) => window.subtherm!.map.project(p), ll);
+      await page.mouse.click(box.x + pt.x, box.y + pt.y);
+      await page.waitForTimeout(350); // two clicks closer in time would be a double-click
+    }
+    await page.keyboard.press('Enter');
+    await expect.poll(() => page.locator('#section-figure').count(), { timeout: 120_000 }).toBe(1);
+    const s = await page.evaluate(() => window.subtherm!.lastSection!);
+    const reached = (s.lithosphereBaseKm ?? []).filter((z) => z !== null);
+    // The warmer eastern columns meet the mantle adiabat above 150 km: the section says where, one vertex a column.
+    expect(reached.length).toBeGreaterThan(s.width / 5);
+    const d = (await page.locator('#section-figure path#section-lithosphere-base').getAttribute('d'))!;
+    expect(d.match(/[ML]/g)!.length).toBe(reached.length);
+    expect(await page.locator('#section-lithosphere-label').textContent()).toContain('lithosphere base');
+    await page.screenshot({ path: join(SCREENSHOT_DIR, 'demo-finished-section-lithosphere.png') });
+    expect(pageErrors).toEqual([]);
+  });
 });

@@ -1,0 +1,54 @@
+/** JSON Schemas (2020-12) of answers that no zod schema describes, for the OpenAPI document (openapi.ts). */
+
+const depthsPerColumn = (description: string) => ({ type: 'array', items: { type: ['number', 'null'] }, description });
+/** POST /api/section (shared/products/section.ts computeSection): the section's grid and, per column, its limits. */
+export const sectionAnswerSchema = {
+  type: 'object',
+  required: [
+    'runId',
+    'lengthKm',
+    'width',
+    'height',
+    'distanceKm',
+    'depthKm',
+    'positions',
+    'heatFlowMWm2',
+    'temperatureC',
+    'isotherms',
+    'meltOnsetKm',
+    'lithosphereBaseKm',
+  ],
+  properties: {
+    runId: { type: 'string' },
+    lengthKm: { type: 'number', description: 'geodesic length of the line on WGS84, km' },
+    width: { type: 'integer', description: 'columns (samples along the line)' },
+    height: { type: 'integer', description: 'rows (samples with depth, from 0 to maxDepthKm)' },
+    distanceKm: { type: 'array', items: { type: 'number' }, description: 'distance of each column along the line, km' },
+    depthKm: { type: 'array', items: { type: 'number' }, description: 'depth of each row, km' },
+    positions: { type: 'array', items: { type: 'array', items: { type: 'number' } }, description: 'each column as [longitude, latitude], degrees WGS84' },
+    heatFlowMWm2: { type: 'array', items: { type: ['number', 'null'] }, description: "surface heat flow of each column from the run's grid, mW/m²" },
+    temperatureC: {
+      type: 'array',
+      items: { type: ['number', 'null'] },
+      description: 'temperature, °C, row-major from the surface row (index = row·width + column); null below the melt onset or without heat flow',
+    },
+    faciesNames: { type: 'array', items: { type: 'string' } },
+    faciesClass: { type: 'array', items: { type: 'integer' }, description: 'index into faciesNames per cell, −1 none' },
+    modelZone: { type: 'array', items: { type: ['string', 'null'] }, description: "with override regions: each column's region (null: the run's model)" },
+    isotherms: {
+      type: 'array',
+      items: { type: 'object', properties: { temperatureC: { type: 'number' }, depthKm: depthsPerColumn('depth of the isotherm under each column, km') } },
+    },
+    meltOnsetKm: depthsPerColumn(
+      'melt onset of each column, km: where its temperature first reaches the dry (fluid-absent) solidus of its rock; null when not reached above maxDepthKm. The same value as the column answer at that point.',
+    ),
+    lithosphereBaseKm: depthsPerColumn(
+      "base of the thermal lithosphere under each column, km: where the conductive geotherm meets the mantle adiabat (the adiabat gives the temperature below it); null when they do not meet above maxDepthKm. The same value as the column answer's lithosphereBaseKm at that point with the same maxDepthKm.",
+    ),
+    faultCrossings: { type: 'array', items: { type: 'object', description: 'id, distanceKm, lon, lat and the fault properties' } },
+    isogradCrossings: { type: 'array', items: { type: 'object', description: 'id, distanceKm, lon, lat and the isograd properties' } },
+    method: { type: 'string' },
+    warnings: { type: 'array', items: { type: 'string' } },
+    caution: { type: 'string' },
+  },
+};
