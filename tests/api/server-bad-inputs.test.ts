@@ -1,15 +1,13 @@
 // A corpus of bad requests (malformed JSON, wrong types, NaN/Infinity as strings, out-of-range coordinates, empty
 // collections, wrong geometry types, deep nesting, huge numbers, CSV with missing columns, binary garbage, oversize
 // bodies) against every route that takes input. Each must get a 4xx JSON error with a message (never a 5xx), and
-// the server must keep serving afterwards.
+// the server must keep serving afterwards. Run against the SQLite file and PostgreSQL.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { mkdtempSync, rmSync } from 'node:fs';
-import { join } from 'node:path';
-import { tmpdir } from 'node:os';
 import { fileURLToPath } from 'node:url';
 import { createApp } from '../../server/app.ts';
-import { SqliteStore } from '../../server/store/sqlite.ts';
+import type { Store } from '../../server/store/types.ts';
 import { loadDemo } from '../../server/demo.ts';
+import { TEST_DATABASES, type TestDatabase } from '../helpers/test-stores.ts';
 
 interface Case {
   name: string;
@@ -21,8 +19,7 @@ interface Case {
 }
 
 const BODY_LIMIT = 64 * 1024;
-let dir: string;
-let store: SqliteStore;
+let store: Store;
 let app: ReturnType<typeof createApp>;
 let projectId: string;
 let token: string;
@@ -323,9 +320,10 @@ function corpus(): Case[] {
   return cases;
 }
 
-beforeAll(async () => {
-  dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-bad-'));
-  store = new SqliteStore(join(dir, 'db.sqlite'));
+let db: TestDatabase;
+async function setUp(start: () => TestDatabase): Promise<void> {
+  db = start();
+  store = await db.openStore();
   await loadDemo(store);
   app = createApp({
     store,
@@ -340,15 +338,16 @@ beforeAll(async () => {
     body: JSON.stringify({ title: 'target', state: {} }),
   });
   ({ id: projectId, editToken: token } = (await res.json()) as { id: string; editToken: string });
-});
-afterAll(async () => {
-  await app.close();
-  await store.close();
-  rmSync(dir, { recursive: true, force: true });
-});
+}
 
-describe('bad-input corpus', () => {
+describe.each(TEST_DATABASES)('bad-input corpus (%s)', (name, start) => {
   const cases = corpus();
+  beforeAll(() => setUp(start), 120_000);
+  afterAll(async () => {
+    await app?.close();
+    await store?.close();
+    db?.stop();
+  });
 
   it('has at least 100 cases', () => {
     expect(cases.length).toBeGreaterThanOrEqual(100);
@@ -379,7 +378,7 @@ describe('bad-input corpus', () => {
         failures.push(`${c.name}: ${res.status} ${text.slice(0, 200)}`);
       }
     }
-    console.log(`bad-input corpus: ${cases.length} cases; statuses ${JSON.stringify(Object.fromEntries([...statuses].sort()))}`);
+    console.log(`bad-input corpus (${name}): ${cases.length} cases; statuses ${JSON.stringify(Object.fromEntries([...statuses].sort()))}`);
     expect(failures).toEqual([]);
   });
 

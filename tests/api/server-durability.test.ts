@@ -1,12 +1,10 @@
 // Durability: a real server process is killed with SIGKILL in the middle of a burst of saves (PUT revisions and
 // POST projects). After a restart on the same database every acknowledged save must be there, the revisions of a
 // project must run 1..N without gaps, and SQLite's PRAGMA integrity_check must say "ok". The processes' stdout and
-// stderr (with the access log on) must never contain an edit token.
+// stderr (with the access log on) must never contain an edit token. Run against the SQLite file and PostgreSQL.
 import { afterAll, describe, expect, it } from 'vitest';
-import Database from 'better-sqlite3';
-import { rmSync } from 'node:fs';
-import { dirname } from 'node:path';
 import { startServerProcess, type RunningServer } from '../helpers/browser.ts';
+import { TEST_DATABASES, type TestDatabase } from '../helpers/test-stores.ts';
 
 const ENV = { SUBTHERM_ACCESS_LOG: '1' };
 let servers: RunningServer[] = [];
@@ -17,17 +15,21 @@ function capture(s: RunningServer): void {
   s.process.stderr!.on('data', (d: Buffer) => (logs += d.toString()));
 }
 
-let dbDir: string | null = null;
+let database: TestDatabase | null = null;
 afterAll(async () => {
   for (const s of servers) await s.stop('SIGKILL');
-  if (dbDir !== null) rmSync(dbDir, { recursive: true, force: true });
+  database?.stop();
 });
 
-describe('durability under SIGKILL', () => {
+describe.each(TEST_DATABASES)('durability under SIGKILL (%s)', (name, start) => {
   it('keeps every acknowledged save and an intact database', async () => {
-    const first = await startServerProcess({ env: ENV });
+    for (const s of servers) await s.stop('SIGKILL');
+    servers = [];
+    database?.stop();
+    database = start();
+    const db = database;
+    const first = await startServerProcess({ ...db.server, env: ENV });
     servers.push(first);
-    dbDir = dirname(first.dbPath);
     capture(first);
     const base = first.url;
     const created = (await (
@@ -87,7 +89,7 @@ describe('durability under SIGKILL', () => {
     expect(ackedRevisions.size).toBeGreaterThan(50);
     expect(ackedProjects.length).toBeGreaterThan(50);
 
-    const second = await startServerProcess({ dbPath: first.dbPath, env: ENV });
+    const second = await startServerProcess({ ...db.server, env: ENV });
     servers.push(second);
     capture(second);
     for (const [revision, value] of ackedRevisions) {
@@ -114,14 +116,15 @@ describe('durability under SIGKILL', () => {
     await second.stop('SIGTERM');
     servers = servers.filter((s) => s !== second);
 
-    const db = new Database(first.dbPath, { readonly: true });
-    expect(db.pragma('integrity_check', { simple: true })).toBe('ok');
-    expect((db.prepare('SELECT count(*) AS n FROM project_revisions WHERE project_id = ?').get(created.id) as { n: number }).n).toBe(list.revisions.length + 1);
-    db.close();
+    if (db.intact) expect(await db.intact()).toBe(true);
+    const stored = await db.query<{ n: number | string }>('SELECT count(*) AS n FROM project_revisions WHERE project_id = ?', [created.id]);
+    expect(Number(stored[0].n)).toBe(list.revisions.length + 1);
 
     // Logs: the access log ran (saves are listed by path), and no token ever reached stdout or stderr.
     expect(logs).toMatch(/PUT \/api\/projects\/[A-Za-z0-9_-]+ 200/);
     for (const t of tokens) expect(logs.includes(t), 'a token in the server log').toBe(false);
-    console.log(`durability: ${ackedRevisions.size} revisions and ${ackedProjects.length} projects acknowledged before SIGKILL; all present after restart`);
+    console.log(
+      `durability (${name}): ${ackedRevisions.size} revisions and ${ackedProjects.length} projects acknowledged before SIGKILL; all present after restart`,
+    );
   }, 120_000);
 });

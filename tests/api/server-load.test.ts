@@ -4,11 +4,11 @@
 // heat-in-place job at its limit and a column band at the layer cap with 2000 realizations, each submitted again
 // when it ends). Every light request must succeed in both phases, and the throughput under heavy work must stay
 // above a fraction of the idle baseline: long work runs on its own lowered-priority threads (server/app.ts), so it
-// may slow light requests but never hold them behind it. Latencies and throughputs are printed, not asserted.
+// may slow light requests but never hold them behind it. Latencies and throughputs are printed, not asserted. Run
+// against the SQLite file and PostgreSQL (p50/p99 printed for each).
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { rmSync } from 'node:fs';
-import { dirname } from 'node:path';
 import { startServerProcess, type RunningServer } from '../helpers/browser.ts';
+import { TEST_DATABASES, type TestDatabase } from '../helpers/test-stores.ts';
 import { columnAtLayerCap, finishedRun, heatInPlaceAtLimit, limitsOf, quantile, waitJob } from '../helpers/heavy.ts';
 
 const CLIENTS = 50;
@@ -23,12 +23,14 @@ const DURATION_MS = 20_000;
 const FLOOR_OF_IDLE = 0.4;
 let server: RunningServer;
 let base: string;
-const projectIds: string[] = [];
+let projectIds: string[] = [];
 let run: Awaited<ReturnType<typeof finishedRun>>;
 
-beforeAll(async () => {
-  server = await startServerProcess();
+/** Starts a server on `db` with 20 projects and one finished run to read. */
+async function setUp(db: TestDatabase): Promise<void> {
+  server = await startServerProcess(db.server);
   base = `http://127.0.0.1:${server.port}`;
+  projectIds = [];
   for (let k = 0; k < 20; k++) {
     const res = await fetch(`${base}/api/projects`, {
       method: 'POST',
@@ -39,11 +41,7 @@ beforeAll(async () => {
   }
   // One finished run, so columns are also read from a stored heat-flow grid (with its P10–P90 band).
   run = await finishedRun(base);
-}, 180_000);
-afterAll(async () => {
-  await server?.stop();
-  if (server) rmSync(dirname(server.dbPath), { recursive: true, force: true });
-});
+}
 
 type Kind = 'project' | 'column' | 'runColumn';
 
@@ -116,13 +114,23 @@ function report(phase: string, r: Awaited<ReturnType<typeof load>>): number {
   return total / r.seconds;
 }
 
-describe('load on loopback', () => {
+describe.each(TEST_DATABASES)('load on loopback (%s)', (name, start) => {
+  let db: TestDatabase;
+  beforeAll(async () => {
+    db = start();
+    await setUp(db);
+  }, 180_000);
+  afterAll(async () => {
+    await server?.stop();
+    db?.stop();
+  });
+
   it(`serves ${CLIENTS} concurrent clients with zero errors while heavy work is in flight, at a throughput near the idle one`, async () => {
     const limits = await limitsOf(base);
     // Warm up first (the short pool's threads start on first use), so the baseline measures serving, not start-up.
     await load(1_000);
     const idle = await load(IDLE_MS);
-    const idleRate = report('idle', idle);
+    const idleRate = report(`${name} idle`, idle);
     // Heavy work kept in flight for the whole loaded phase: each is submitted again as soon as it ends.
     let stop = false;
     const heavy = { jobs: 0, columns: 0, busyAtEnd: null as null | { long: number; heatInPlace: number } };
@@ -143,7 +151,7 @@ describe('load on loopback', () => {
     const busy = await load(DURATION_MS);
     heavy.busyAtEnd = ((await (await fetch(`${base}/api/health`)).json()) as { computeTasks: { long: number; heatInPlace: number } }).computeTasks;
     stop = true;
-    const busyRate = report('under heavy work', busy);
+    const busyRate = report(`${name} under heavy work`, busy);
     console.log(
       `load: throughput under heavy work ${(busyRate / idleRate).toFixed(2)} of idle (floor ${FLOOR_OF_IDLE}); heavy tasks submitted: ${heavy.jobs} heat-in-place job(s) at the limit, ${heavy.columns} column(s) of ${100} layers × 2000 realizations; in flight at the end ${JSON.stringify(heavy.busyAtEnd)}`,
     );

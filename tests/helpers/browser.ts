@@ -42,11 +42,16 @@ export interface RunningServer {
   stop(signal?: NodeJS.Signals): Promise<void>;
 }
 
-/** Starts `subtherm serve` as a real process on a free port with a fresh database; resolves once it listens. */
-export async function startServerProcess(opts: { dbPath?: string; env?: Record<string, string> } = {}): Promise<RunningServer> {
+/**
+ * Starts `subtherm serve` as a real process on a free port with a fresh SQLite database (or the PostgreSQL database
+ * `databaseUrl`); resolves once it listens.
+ */
+export async function startServerProcess(opts: { dbPath?: string; databaseUrl?: string; env?: Record<string, string> } = {}): Promise<RunningServer> {
   mkdirSync(join(ROOT, '.tmp'), { recursive: true });
   const dbPath = opts.dbPath ?? join(mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-db-')), 'test.sqlite');
-  const child = spawn(process.execPath, [join(ROOT, 'bin', 'subtherm.mjs'), 'serve', '--port', '0', '--host', '127.0.0.1', '--db', dbPath], {
+  // A PostgreSQL URL (databaseUrl) stands instead of the SQLite file.
+  const store = opts.databaseUrl !== undefined ? ['--database-url', opts.databaseUrl] : ['--db', dbPath];
+  const child = spawn(process.execPath, [join(ROOT, 'bin', 'subtherm.mjs'), 'serve', '--port', '0', '--host', '127.0.0.1', ...store], {
     cwd: ROOT,
     // The demo's default run stays off unless a test asks for it (SUBTHERM_DEMO_RUN=1): it would compete for the CPU.
     env: { ...process.env, SUBTHERM_DEMO_RUN: '0', ...opts.env },
