@@ -7,13 +7,12 @@
  * reaches its browser from whichever server it is connected to; a cancel from any server reaches the worker running
  * the run. Runs outlive the server that queued them: closing a server cancels nothing.
  */
-import { EventEmitter } from 'node:events';
 import { InputError } from '../../shared/errors.ts';
 import type { RunRequest } from '../../shared/schema/run.ts';
 import type { RunRecord, Store } from '../store/types.ts';
 import { newId } from '../store/sqlite.ts';
-import { hashToken, newEditToken, tokenMatches } from '../security.ts';
-import { isTerminal, type RunSnapshot } from '../runs/jobs.ts';
+import { hashToken, newEditToken } from '../security.ts';
+import { LiveRuns, isTerminal, type RunSnapshot } from '../runs/live-runs.ts';
 import { QueueRedis, REAP_MS, type QueueSnapshot } from './connection.ts';
 
 export interface RedisRunJobsOptions {
@@ -55,26 +54,23 @@ const LIMIT_ERRORS: Record<string, { code: string; says: (v: number, max: number
   },
 };
 
-export class RedisRunJobs {
+export class RedisRunJobs extends LiveRuns {
   readonly kind = 'redis' as const;
   /** Resolves once connected, subscribed and holding the state of every live run (rejects when Redis is unreachable). */
   readonly ready: Promise<void>;
   private readonly opts: RedisRunJobsOptions;
-  private readonly store: Store;
   private readonly log: (line: string) => void;
   private q: QueueRedis | null = null;
   /** Live (queued or running) runs of every server, as the events channel tells them. */
   private readonly snapshots = new Map<string, RunSnapshot>();
-  private readonly events = new EventEmitter();
   private timer: NodeJS.Timeout | null = null;
   private cached = { queued: 0, running: 0, workers: { processes: 0, slots: 0 } };
   private closed = false;
 
   constructor(opts: RedisRunJobsOptions) {
+    super(opts.store);
     this.opts = opts;
-    this.store = opts.store;
     this.log = opts.log ?? ((l) => process.stderr.write(l + '\n'));
-    this.events.setMaxListeners(0);
     this.ready = this.init();
     // A failed start is reported by whoever awaits `ready`; never as an unhandled rejection.
     this.ready.catch(() => undefined);
@@ -112,7 +108,7 @@ export class RedisRunJobs {
     const snap: RunSnapshot = { id: s.id, status: s.status, progress: s.progress, message: s.message };
     if (isTerminal(snap.status)) this.snapshots.delete(s.id);
     else this.snapshots.set(s.id, snap);
-    this.events.emit(s.id, { ...snap });
+    this.emit(snap);
   }
 
   /** Hands on the runs of dead workers (any server or worker may) and refreshes the counts /api/health reports. */
@@ -199,40 +195,17 @@ export class RedisRunJobs {
     return { id, cached: false, runToken };
   }
 
-  /** Same contract as RunJobs.authorizeCancel: the run token, or the edit token of the project that started it. */
-  async authorizeCancel(
-    id: string,
-    token: string | null,
-    projectTokenHash: (projectId: string) => Promise<string | null>,
-  ): Promise<'ok' | 'missing' | 'wrong' | null> {
+  protected async cancelKeys(id: string): Promise<{ tokenHash: string; projectId: string | null } | null> {
     const q = this.queue;
     const [tokenHash, projectId, status] = await q.cmd.hmget(q.key(`run:${id}`), 'tokenHash', 'projectId', 'status');
     if (tokenHash === null || (status !== 'queued' && status !== 'running')) return null;
-    if (token === null) return 'missing';
-    if (tokenMatches(token, tokenHash)) return 'ok';
-    if (projectId !== null && projectId !== '') {
-      const h = await projectTokenHash(projectId);
-      if (h !== null && tokenMatches(token, h)) return 'ok';
-    }
-    return 'wrong';
+    return { tokenHash, projectId: projectId === null || projectId === '' ? null : projectId };
   }
 
   /** The live state of a queued or running run, as the last event told it (null once it has ended). */
   live(id: string): RunSnapshot | null {
     const s = this.snapshots.get(id);
     return s ? { ...s } : null;
-  }
-
-  async snapshot(id: string): Promise<RunSnapshot | null> {
-    const l = this.live(id);
-    if (l) return l;
-    const r = await this.store.getRun(id);
-    return r ? { id, status: r.status, progress: r.progress, message: r.message } : null;
-  }
-
-  subscribe(id: string, fn: (s: RunSnapshot) => void): () => void {
-    this.events.on(id, fn);
-    return () => this.events.off(id, fn);
   }
 
   /** A queued run leaves the queue now; a running one is stopped by its worker, which records the end. */

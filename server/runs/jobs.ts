@@ -9,17 +9,21 @@
  * Starting a run returns a run token (256 random bits, kept only as its SHA-256, compared in constant time) that
  * cancelling requires; a run started through a project may also be cancelled with the project's edit token.
  */
-import { EventEmitter } from 'node:events';
 import { MessageChannel, type MessagePort } from 'node:worker_threads';
 import { Piscina } from 'piscina';
 import { WORKER_EXEC_ARGV } from '../workers/exec-argv.ts';
 import { InputError } from '../../shared/errors.ts';
 import type { RunRequest } from '../../shared/schema/run.ts';
-import type { RunRecord, RunStatus, Store } from '../store/types.ts';
-import { newId } from '../store/sqlite.ts';
-import { hashToken, newEditToken, tokenMatches } from '../security.ts';
+import type { Store } from '../store/types.ts';
+import { hashToken, newEditToken } from '../security.ts';
 import { CANCEL_MESSAGE, type RunResult, type RunTask } from './types.ts';
 import { storeCheckedRunResult } from './run-result.ts';
+import { LiveRuns, isTerminal, type RunSnapshot } from './live-runs.ts';
+import { checkRunBounds, type RunBounds } from './run-bounds.ts';
+import { FairQueue } from './fair-queue.ts';
+import { newJob, type Job } from './run-job.ts';
+
+export { isTerminal, type RunSnapshot };
 
 export interface RunJobsOptions {
   store: Store;
@@ -42,67 +46,22 @@ export interface RunJobsOptions {
   log?: (line: string) => void;
 }
 
-/** What GET /api/runs/:id and the event stream report while a run is live. */
-export interface RunSnapshot {
-  id: string;
-  status: RunStatus;
-  progress: number;
-  message: string;
-  /** While queued: 1-based place in the fair (round-robin) start order. */
-  position?: number;
-  /**
-   * While queued or running: seconds until the run should end, from the work ahead of it (cells × realizations)
-   * and the rate of runs finished by this server; null until a run has finished to measure the rate.
-   */
-  estimateSeconds?: number | null;
-}
-
-interface Job {
-  id: string;
-  cacheKey: string;
-  client: string;
-  /** Project the run was started through (its edit token may cancel it). */
-  projectId: string | null;
-  /** SHA-256 of the run token. */
-  tokenHash: string;
-  /** Cells × realizations (at least the cells). */
-  work: number;
-  startedAt: number;
-  timedOut: boolean;
-  request: RunRequest;
-  datasets: Record<string, { kind: string; body: string }>;
-  abort: AbortController;
-  snapshot: RunSnapshot;
-  /** The run's store writes, chained so they land in the order they were made. */
-  writes: Promise<void>;
-}
-
 /** Nice value of run threads: runs are the longest work, so requests and short tasks go first. */
 export const RUN_NICENESS = 10;
 
-const TERMINAL: ReadonlySet<RunStatus> = new Set(['done', 'failed', 'cancelled']);
-export const isTerminal = (s: RunStatus) => TERMINAL.has(s);
-
-export class RunJobs {
-  private readonly store: Store;
+export class RunJobs extends LiveRuns {
   private readonly workerFile: string;
   private readonly concurrency: number;
-  private readonly maxPerClient: number;
   private readonly log: (line: string) => void;
-  private readonly limits: Required<Pick<RunJobsOptions, 'maxQueuedServer' | 'maxRunWork' | 'maxQueuedWorkPerClient' | 'maxQueuedWorkServer' | 'wallClockMs'>>;
+  private readonly limits: RunBounds & { wallClockMs: number };
   private pool: Piscina | null = null;
-  /** Queued runs: one FIFO per client, and the round-robin ring of clients that have queued runs. */
-  private readonly queues = new Map<string, Job[]>();
-  private order: string[] = [];
+  /** Queued runs (round-robin across clients) and what each client has in flight. */
+  private readonly queue = new FairQueue<Job>();
   private readonly running = new Map<string, Job>();
-  private readonly perClient = new Map<string, number>();
-  private readonly workPerClient = new Map<string, number>();
-  private workTotal = 0;
   /** Cells × realizations per second per worker thread, from runs finished here (exponentially weighted). */
   private rate: number | null = null;
   /** Each running job's end of its MessagePort (progress in; the worker also takes `{ type: 'cancel' }`). */
   private readonly ports = new Map<string, MessagePort>();
-  private readonly events = new EventEmitter();
   /** Runs that have ended whose final state is still being written to the store (reported from here until then). */
   private readonly settling = new Map<string, RunSnapshot>();
   private closed = false;
@@ -110,11 +69,11 @@ export class RunJobs {
   readonly ready: Promise<void>;
 
   constructor(opts: RunJobsOptions) {
-    this.store = opts.store;
+    super(opts.store);
     this.workerFile = opts.workerFile;
     this.concurrency = opts.concurrency;
-    this.maxPerClient = opts.maxQueuedPerClient;
     this.limits = {
+      maxPerClient: opts.maxQueuedPerClient,
       maxQueuedServer: opts.maxQueuedServer ?? Infinity,
       maxRunWork: opts.maxRunWork ?? Infinity,
       maxQueuedWorkPerClient: opts.maxQueuedWorkPerClient ?? Infinity,
@@ -122,7 +81,6 @@ export class RunJobs {
       wallClockMs: opts.wallClockMs ?? Infinity,
     };
     this.log = opts.log ?? ((l) => process.stderr.write(l + '\n'));
-    this.events.setMaxListeners(0);
     // Runs left queued or running by a server that stopped can never finish: say so instead of leaving them.
     this.ready = this.store.failInterruptedRuns('the server stopped before this run finished; submit it again').then(
       () => undefined,
@@ -131,46 +89,8 @@ export class RunJobs {
   }
 
   private getPool(): Piscina {
-    if (this.pool) return this.pool;
-    const pool = new Piscina({
-      filename: this.workerFile,
-      execArgv: WORKER_EXEC_ARGV,
-      minThreads: 0,
-      maxThreads: this.concurrency,
-      idleTimeout: 60_000,
-      // geotiff pulls in the web-worker package, which destructures workerData at import time in any worker thread:
-      // an object keeps it from throwing (and from taking the thread over as a web worker). Run threads run at a
-      // lowered priority (server/workers/priority.ts).
-      workerData: { niceness: RUN_NICENESS },
-      // A run's result (grids, GeoTIFFs) may be large; leave room above the default heap.
-      resourceLimits: { maxOldGenerationSizeMb: 2048 },
-    });
-    // A thread that dies outside a task is reported here; the task itself is rejected and fails alone.
-    pool.on('error', (e: Error) => this.log(`[${new Date().toISOString()}] run worker error: ${e.stack ?? e.message}`));
-    this.pool = pool;
-    return pool;
-  }
-
-  /** Queued runs in start order (round-robin across clients). */
-  private queuedInOrder(): Job[] {
-    const qs = this.order.map((c) => this.queues.get(c) ?? []);
-    const out: Job[] = [];
-    for (let round = 0; ; round++) {
-      let any = false;
-      for (const q of qs) {
-        if (round < q.length) {
-          out.push(q[round]);
-          any = true;
-        }
-      }
-      if (!any) return out;
-    }
-  }
-
-  private get queuedCount(): number {
-    let n = 0;
-    for (const q of this.queues.values()) n += q.length;
-    return n;
+    this.pool ??= createRunPool(this.workerFile, this.concurrency, this.log);
+    return this.pool;
   }
 
   /**
@@ -190,147 +110,51 @@ export class RunJobs {
     await this.ready;
     if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down');
     const existing = await this.store.findRunByCacheKey(input.cacheKey, ['queued', 'running', 'done']);
-    if (existing && (existing.status === 'done' || this.running.has(existing.id) || this.queuedInOrder().some((j) => j.id === existing.id))) {
+    if (existing && (existing.status === 'done' || this.running.has(existing.id) || this.queue.inOrder().some((j) => j.id === existing.id))) {
       return { id: existing.id, cached: true };
     }
     // The same request submitted while the first was being recorded: the live one is found in memory.
-    const twin = [...this.running.values(), ...this.queuedInOrder()].find((j) => j.cacheKey === input.cacheKey);
+    const twin = [...this.running.values(), ...this.queue.inOrder()].find((j) => j.cacheKey === input.cacheKey);
     if (twin) return { id: twin.id, cached: true };
     const realizations = input.request.realizations ?? 0;
     const cells = input.cells ?? 0;
     const work = Math.max(1, cells) * Math.max(1, realizations);
-    const L = this.limits;
-    const over = (limit: string, value: number, max: number, message: string, _status: number, code: string) =>
-      new InputError(message, [{ field: limit, problem: `${value.toLocaleString('en')} > ${limit} = ${max.toLocaleString('en')}` }], code);
-    if (work > L.maxRunWork) {
-      throw over(
-        'maxRunCellRealizations',
-        work,
-        L.maxRunWork,
-        `the run asks for ${cells.toLocaleString('en')} cells × ${realizations} realizations = ${work.toLocaleString('en')} (limit maxRunCellRealizations = ${L.maxRunWork.toLocaleString('en')}): use fewer realizations, a larger cellKm or a smaller bbox`,
-        422,
-        'run_too_large',
-      );
-    }
-    const inFlight = this.perClient.get(input.client) ?? 0;
-    if (inFlight >= this.maxPerClient) {
-      throw new InputError(
-        `too many runs in flight: ${inFlight} queued or running for this client (limit maxQueuedRunsPerClient = ${this.maxPerClient}); wait for one to finish or cancel one`,
-        [{ field: 'maxQueuedRunsPerClient', problem: `at most ${this.maxPerClient} queued or running runs per client` }],
-        'too_many_runs',
-      );
-    }
-    const clientWork = this.workPerClient.get(input.client) ?? 0;
-    if (clientWork + work > L.maxQueuedWorkPerClient) {
-      throw over(
-        'maxQueuedWorkPerClient',
-        clientWork + work,
-        L.maxQueuedWorkPerClient,
-        `this client's runs in flight would total ${(clientWork + work).toLocaleString('en')} cells × realizations (limit maxQueuedWorkPerClient = ${L.maxQueuedWorkPerClient.toLocaleString('en')}); wait for a run to finish`,
-        429,
-        'too_much_work',
-      );
-    }
-    const total = this.queuedCount + this.running.size;
-    if (total >= L.maxQueuedServer) {
-      throw new InputError(
-        `the server has ${total} runs queued or running (limit maxQueuedRunsServer = ${L.maxQueuedServer}); try again later`,
-        [{ field: 'maxQueuedRunsServer', problem: `at most ${L.maxQueuedServer} runs in flight on the server` }],
-        'server_busy',
-      );
-    }
-    if (this.workTotal + work > L.maxQueuedWorkServer) {
-      throw over(
-        'maxQueuedWorkServer',
-        this.workTotal + work,
-        L.maxQueuedWorkServer,
-        `the server's runs in flight would total ${(this.workTotal + work).toLocaleString('en')} cells × realizations (limit maxQueuedWorkServer = ${L.maxQueuedWorkServer.toLocaleString('en')}); try again later`,
-        503,
-        'server_busy',
-      );
-    }
-    const now = new Date().toISOString();
-    const id = newId('run_');
-    const rec: RunRecord = {
-      id,
-      cacheKey: input.cacheKey,
-      request: input.request,
-      status: 'queued',
-      progress: 0,
-      message: 'queued',
-      layers: [],
-      summary: null,
-      warnings: [],
-      model: null,
-      grids: [],
-      client: input.client,
-      createdAt: now,
-      updatedAt: now,
-    };
-    const runToken = newEditToken();
-    const job: Job = {
-      id,
-      cacheKey: input.cacheKey,
-      client: input.client,
-      projectId: input.projectId ?? null,
-      tokenHash: hashToken(runToken),
+    const client = this.queue.inFlight(input.client);
+    checkRunBounds(this.limits, {
+      cells,
+      realizations,
       work,
-      startedAt: 0,
-      timedOut: false,
-      request: input.request,
-      datasets: input.datasets,
-      abort: new AbortController(),
-      snapshot: { id, status: 'queued', progress: 0, message: 'queued' },
-      writes: Promise.resolve(),
-    };
+      clientRuns: client.runs,
+      clientWork: client.work,
+      serverRuns: this.queue.size + this.running.size,
+      serverWork: this.queue.workTotal,
+    });
+    const runToken = newEditToken();
+    const { rec, job } = newJob({ ...input, tokenHash: hashToken(runToken), work });
+    const id = job.id;
     // The bounds are reserved before the record is written, so submissions in flight together cannot pass them all.
-    this.perClient.set(input.client, inFlight + 1);
-    this.workPerClient.set(input.client, clientWork + work);
-    this.workTotal += work;
+    this.queue.reserve(job);
     try {
       await this.store.putRun(rec);
     } catch (e) {
-      this.release(job);
+      this.queue.release(job);
       throw e;
     }
-    const q = this.queues.get(input.client);
-    if (q) q.push(job);
-    else {
-      this.queues.set(input.client, [job]);
-      this.order.push(input.client);
-    }
+    this.queue.push(job);
     this.pump();
     return { id, cached: false, runToken };
   }
 
-  /**
-   * Whether `token` may cancel the live run `id`: its run token, or the edit token of the project it was started
-   * through (`projectTokenHash` looks that hash up). 'missing' without a token, 'wrong' for any other token, null
-   * when the run is not live.
-   */
-  async authorizeCancel(
-    id: string,
-    token: string | null,
-    projectTokenHash: (projectId: string) => Promise<string | null>,
-  ): Promise<'ok' | 'missing' | 'wrong' | null> {
-    const job = this.running.get(id) ?? this.queuedInOrder().find((j) => j.id === id);
-    if (!job) return null;
-    if (token === null) return 'missing';
-    if (tokenMatches(token, job.tokenHash)) return 'ok';
-    if (job.projectId !== null) {
-      const h = await projectTokenHash(job.projectId);
-      if (h !== null && tokenMatches(token, h)) return 'ok';
-    }
-    return 'wrong';
+  protected async cancelKeys(id: string): Promise<{ tokenHash: string; projectId: string | null } | null> {
+    return this.running.get(id) ?? this.queue.inOrder().find((j) => j.id === id) ?? null;
   }
 
-  /** The live state of a queued or running run (null once it has finished: read the store then). */
   live(id: string): RunSnapshot | null {
     const ending = this.settling.get(id);
     if (ending) return { ...ending };
     const run = this.running.get(id);
     if (run) return { ...run.snapshot, estimateSeconds: this.seconds(run.work * (1 - run.snapshot.progress)) };
-    const order = this.queuedInOrder();
+    const order = this.queue.inOrder();
     const k = order.findIndex((q) => q.id === id);
     if (k < 0) return null;
     // Work ahead: what the running runs have left, the runs that start before this one, and its own.
@@ -344,33 +168,13 @@ export class RunJobs {
     return this.rate === null ? null : Math.round(work / this.rate);
   }
 
-  /** Current state from memory or the store; null for an unknown id. */
-  async snapshot(id: string): Promise<RunSnapshot | null> {
-    const l = this.live(id);
-    if (l) return l;
-    const r = await this.store.getRun(id);
-    return r ? { id, status: r.status, progress: r.progress, message: r.message } : null;
-  }
-
-  /** Calls `fn` on every change of the run until it ends; returns the unsubscribe function. */
-  subscribe(id: string, fn: (s: RunSnapshot) => void): () => void {
-    this.events.on(id, fn);
-    return () => this.events.off(id, fn);
-  }
-
   /**
    * Cancels a queued or running run: a queued one leaves the queue, a running one is sent the cancel message and its
    * worker thread terminated. Returns the state after the call, or null for an unknown id.
    */
   async cancel(id: string): Promise<RunSnapshot | null> {
-    const queued = this.queuedInOrder().find((j) => j.id === id);
+    const queued = this.queue.remove(id);
     if (queued) {
-      const q = this.queues.get(queued.client)!;
-      q.splice(q.indexOf(queued), 1);
-      if (q.length === 0) {
-        this.queues.delete(queued.client);
-        this.order = this.order.filter((c) => c !== queued.client);
-      }
       const job = queued;
       this.finish(job, { status: 'cancelled', progress: job.snapshot.progress, message: 'cancelled before it started' });
       return { ...job.snapshot };
@@ -397,18 +201,18 @@ export class RunJobs {
 
   /** Runs queued or running now. */
   counts(): { queued: number; running: number } {
-    return { queued: this.queuedCount, running: this.running.size };
+    return { queued: this.queue.size, running: this.running.size };
   }
 
   /** Resolves when no run is queued or running (for tests and shutdown). */
   async idle(): Promise<void> {
-    while (this.queuedCount > 0 || this.running.size > 0 || this.settling.size > 0) await new Promise((r) => setTimeout(r, 20));
+    while (this.queue.size > 0 || this.running.size > 0 || this.settling.size > 0) await new Promise((r) => setTimeout(r, 20));
   }
 
   /** Cancels everything and stops the pool. */
   async close(): Promise<void> {
     this.closed = true;
-    for (const j of this.queuedInOrder()) await this.cancel(j.id);
+    for (const j of this.queue.inOrder()) await this.cancel(j.id);
     for (const id of [...this.running.keys()]) await this.cancel(id);
     await this.idle();
     await this.pool?.destroy();
@@ -416,13 +220,9 @@ export class RunJobs {
   }
 
   private pump(): void {
-    while (this.running.size < this.concurrency && this.order.length > 0) {
-      // Round-robin: the client at the head of the ring starts its oldest run and goes to the back of the ring.
-      const client = this.order.shift()!;
-      const q = this.queues.get(client)!;
-      const job = q.shift()!;
-      if (q.length > 0) this.order.push(client);
-      else this.queues.delete(client);
+    while (this.running.size < this.concurrency) {
+      const job = this.queue.next();
+      if (!job) return;
       this.start(job);
     }
   }
@@ -430,7 +230,7 @@ export class RunJobs {
   /** Applies a change to the live snapshot and tells subscribers; with `persist`, queues its write (returned). */
   private update(job: Job, patch: Partial<RunSnapshot>, persist: boolean): Promise<void> {
     Object.assign(job.snapshot, patch);
-    this.events.emit(job.id, { ...job.snapshot });
+    this.emit(job.snapshot);
     if (!persist) return job.writes;
     const fields = { status: job.snapshot.status, progress: job.snapshot.progress, message: job.snapshot.message };
     job.writes = job.writes
@@ -439,20 +239,9 @@ export class RunJobs {
     return job.writes;
   }
 
-  /** Gives back a run's share of the per-client and server bounds. */
-  private release(job: Job): void {
-    const n = (this.perClient.get(job.client) ?? 1) - 1;
-    if (n > 0) this.perClient.set(job.client, n);
-    else this.perClient.delete(job.client);
-    const w = (this.workPerClient.get(job.client) ?? job.work) - job.work;
-    if (w > 0) this.workPerClient.set(job.client, w);
-    else this.workPerClient.delete(job.client);
-    this.workTotal = Math.max(0, this.workTotal - job.work);
-  }
-
   private finish(job: Job, patch: Pick<RunSnapshot, 'status' | 'progress' | 'message'>): void {
     const wasRunning = this.running.delete(job.id);
-    this.release(job);
+    this.queue.release(job);
     if (wasRunning && patch.status === 'done') {
       const seconds = Math.max(0.05, (Date.now() - job.startedAt) / 1000);
       const r = job.work / seconds;
@@ -539,4 +328,24 @@ export class RunJobs {
     await storeCheckedRunResult(this.store, job.id, result);
     this.finish(job, { status: 'done', progress: 1, message: 'done' });
   }
+}
+
+/** The worker threads of runs: started on first use, at most `concurrency`, at a lowered priority. */
+function createRunPool(workerFile: string, concurrency: number, log: (line: string) => void): Piscina {
+  const pool = new Piscina({
+    filename: workerFile,
+    execArgv: WORKER_EXEC_ARGV,
+    minThreads: 0,
+    maxThreads: concurrency,
+    idleTimeout: 60_000,
+    // geotiff pulls in the web-worker package, which destructures workerData at import time in any worker thread:
+    // an object keeps it from throwing (and from taking the thread over as a web worker). Run threads run at a
+    // lowered priority (server/workers/priority.ts).
+    workerData: { niceness: RUN_NICENESS },
+    // A run's result (grids, GeoTIFFs) may be large; leave room above the default heap.
+    resourceLimits: { maxOldGenerationSizeMb: 2048 },
+  });
+  // A thread that dies outside a task is reported here; the task itself is rejected and fails alone.
+  pool.on('error', (e: Error) => log(`[${new Date().toISOString()}] run worker error: ${e.stack ?? e.message}`));
+  return pool;
 }
