@@ -2,6 +2,7 @@ import { serve } from '@hono/node-server';
 import { existsSync, readdirSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import type { AddressInfo } from 'node:net';
+import { maxHeaderSize } from 'node:http';
 import { createApp } from './app.ts';
 import { SqliteStore } from './store/sqlite.ts';
 import { PostgresStore } from './store/postgres.ts';
@@ -10,6 +11,7 @@ import { InputError } from '../shared/errors.ts';
 import { DEMO_TERRAIN, loadDemo, loadDemoTerrain } from './demo.ts';
 import { loadDem, TerrainTiles } from './terrain.ts';
 import { redactRedisUrl } from './queue/connection.ts';
+import { answerClientError } from './routes/guards.ts';
 
 export const ROOT_DIR = new URL('..', import.meta.url).pathname;
 export const CLIENT_DIST = join(ROOT_DIR, 'client', 'dist');
@@ -176,6 +178,8 @@ export async function startServer(opts: ServerOptions) {
   const server = await new Promise<ReturnType<typeof serve>>((resolve) => {
     const s = serve({ fetch: app.fetch, port: opts.port, hostname: host }, () => resolve(s));
   });
+  // Requests Node's parser refuses (an over-long URL or header block, malformed HTTP) get the API's JSON errors.
+  server.on('clientError', answerClientError(maxHeaderSize));
   const port = (server.address() as AddressInfo).port;
   // Loopback and all-interfaces binds are reached at localhost from this machine (scripts read this line).
   const shown = ['0.0.0.0', '::', '127.0.0.1', '::1', 'localhost'].includes(host) ? 'localhost' : host.includes(':') ? `[${host}]` : host;

@@ -1,9 +1,11 @@
 /**
  * What every request passes before a route sees it, and how errors are answered: the error handler (storage full →
  * 507, InputError → its 4xx, anything else → 500 without a stack trace), the URL guard (malformed percent-encoding,
- * over-long paths, path segments outside the URL-safe alphabet and malformed ids → 400) and the body-size limit.
+ * over-long paths, path segments outside the URL-safe alphabet and malformed ids → 400) and the body-size limit; and
+ * the JSON answer to requests Node's HTTP parser refuses before the app sees them (answerClientError).
  */
 import type { Context, ErrorHandler, MiddlewareHandler } from 'hono';
+import type { Duplex } from 'node:stream';
 import { bodyLimit } from 'hono/body-limit';
 import { InputError } from '../../shared/errors.ts';
 import { httpStatusOf, retryAfterSecondsOf } from '../http-status.ts';
@@ -111,4 +113,64 @@ export function bodySizeGuard(limits: Limits): MiddlewareHandler {
         413,
       ),
   });
+}
+
+/** What Node's HTTP parser reports with a 'clientError' (node:http): the code and where in the packet it stopped. */
+export interface ClientParseError extends Error {
+  code?: string;
+  bytesParsed?: number;
+  rawPacket?: Buffer;
+}
+
+/**
+ * The answer to a request Node's HTTP parser refused before any route could see it, in the API's JSON error shape:
+ * a request line or header block over Node's header limit (`maxHeaderSize`, 16 KiB by default) is 414 when the
+ * overflow is inside the request line (an over-long URL), else 431; a request that does not parse as HTTP is 400;
+ * a request whose headers arrived too slowly is 408. Null when nothing can be written (the peer has gone).
+ */
+export function clientErrorAnswer(err: ClientParseError, maxHeaderBytes: number): { status: number; code: string; message: string; field: string } | null {
+  if (err.code === 'ECONNRESET' || err.code === 'EPIPE') return null;
+  if (err.code === 'HPE_HEADER_OVERFLOW') {
+    const packet = err.rawPacket;
+    const upTo = packet?.subarray(0, err.bytesParsed ?? packet.length);
+    // The overflow is in the request line when this packet starts it and holds no line end before the overflow.
+    const inRequestLine = upTo !== undefined && /^[A-Z]+ /.test(upTo.subarray(0, 16).toString('latin1')) && upTo.indexOf('\r\n') < 0;
+    return inRequestLine
+      ? {
+          status: 414,
+          code: 'uri_too_long',
+          message: `the request line (method and URL) is longer than the server reads: at most ${maxHeaderBytes} bytes with the headers, and the path at most ${MAX_PATH_CHARS} characters`,
+          field: 'path',
+        }
+      : {
+          status: 431,
+          code: 'headers_too_large',
+          message: `the request line and headers are larger than the server reads (at most ${maxHeaderBytes} bytes together): send shorter headers, and put large data in the body`,
+          field: 'headers',
+        };
+  }
+  if (err.code === 'ERR_HTTP_REQUEST_TIMEOUT' || err.code === 'ERR_HTTP_HEADERS_TIMEOUT')
+    return { status: 408, code: 'request_timeout', message: 'the request did not arrive in time', field: 'headers' };
+  return { status: 400, code: 'bad_request', message: `the request is not valid HTTP/1.1 (${err.code ?? 'parse error'})`, field: 'request' };
+}
+
+const REASONS: Record<number, string> = { 400: 'Bad Request', 408: 'Request Timeout', 414: 'URI Too Long', 431: 'Request Header Fields Too Large' };
+
+/**
+ * Handler of the HTTP server's 'clientError' event: writes a complete JSON response (clientErrorAnswer) straight to
+ * the socket, since no request or response object exists yet, and closes the connection.
+ */
+export function answerClientError(maxHeaderBytes: number): (err: ClientParseError, socket: Duplex) => void {
+  return (err, socket) => {
+    const a = clientErrorAnswer(err, maxHeaderBytes);
+    if (a === null || !socket.writable) {
+      socket.destroy();
+      return;
+    }
+    const body = JSON.stringify(errorBody(a.code, a.message, [{ field: a.field, problem: a.message }]));
+    socket.end(
+      `HTTP/1.1 ${a.status} ${REASONS[a.status]}\r\ncontent-type: application/json; charset=utf-8\r\ncontent-length: ${Buffer.byteLength(body)}\r\n` +
+        `cache-control: no-store\r\nx-content-type-options: nosniff\r\nconnection: close\r\n\r\n${body}`,
+    );
+  };
 }
