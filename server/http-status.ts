@@ -75,6 +75,7 @@ const STATUS_BY_CODE: Readonly<Record<string, number>> = {
   no_data_here: 422,
   swapped_lon_lat: 422,
   bad_crs: 422,
+  crs_needs_datum_grid: 422,
   no_crs: 422,
   bad_geotiff: 422,
   truncated_geotiff: 422,

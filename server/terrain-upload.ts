@@ -61,6 +61,19 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
   }
   const spp = image.getSamplesPerPixel();
   if (spp !== 1) throw bad(`the terrain has ${spp} bands; a DEM has one (elevation in metres)`, 'one band');
+  await checkPixelBlocks(image, bytes);
+  return { width, height, crs: await demCrs(image) };
+}
+
+type TiffImage = Awaited<ReturnType<Awaited<ReturnType<typeof fromArrayBuffer>>['getImage']>>;
+
+/**
+ * The strips or tiles a DEM's header claims: as many as its size needs, each inside the file, and (uncompressed)
+ * holding every pixel (422 truncated_geotiff otherwise).
+ */
+async function checkPixelBlocks(image: TiffImage, bytes: Uint8Array): Promise<void> {
+  const width = image.getWidth(),
+    height = image.getHeight();
   const dir = image.fileDirectory as unknown as Dir;
   const tiled = dir.hasTag('TileOffsets');
   const offsets = (await dir.loadValue(tiled ? 'TileOffsets' : 'StripOffsets')) as ArrayLike<number> | undefined;
@@ -111,6 +124,10 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
       );
     }
   }
+}
+
+/** The DEM's CRS as EPSG:nnnn: georeferenced, EPSG:4326 or a projected code with an offline definition (422). */
+async function demCrs(image: TiffImage): Promise<string> {
   let origin: number[];
   try {
     origin = image.getOrigin();
@@ -127,9 +144,12 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
     throw bad(`the terrain is in geographic EPSG:${code}; use EPSG:4326 (WGS84) or a projected CRS`, 'EPSG:4326 or a projected EPSG code', 'bad_crs');
   const crs = `EPSG:${code}`;
   await loadCrsDefinition(crs).catch((e: unknown) => {
+    // A CRS that needs a datum grid file keeps its own answer (what to give instead); any other refusal means the
+    // code has no offline definition.
+    if (e instanceof InputError && e.code === 'crs_needs_datum_grid') throw bad(`the terrain's CRS: ${e.message}`, e.details[0]?.problem ?? e.message, e.code);
     throw bad(`the terrain's CRS ${crs} is not in the offline CRS list`, e instanceof Error ? e.message : String(e), 'bad_crs');
   });
-  return { width, height, crs };
+  return crs;
 }
 
 /** Bilinear sample of a grid at fractional column/row (cell centres at integers); NaN outside or beside no data. */

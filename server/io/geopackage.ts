@@ -10,6 +10,7 @@ import Database from 'better-sqlite3';
 import proj4 from 'proj4';
 import { InputError } from '../../shared/errors.ts';
 import { loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
+import { refuseGridShift } from '../../shared/interp/crs-datum.ts';
 import { geometryFromGpkg, type GeoJsonCollection, type GeoJsonFeature, type GeoJsonGeometry, type Position } from './gpkg-geometry.ts';
 import { quote } from './geopackage-write.ts';
 
@@ -39,14 +40,29 @@ function fileError(source: string, message: string, problem: string, layer?: str
   );
 }
 
-/** A proj4 converter from a CRS (EPSG code or WKT) to WGS 84 lon/lat, or null when it is already lon/lat WGS 84. */
+/** The EPSG code a WKT CRS names for itself: its outermost AUTHORITY["EPSG","n"] (WKT 1) or ID["EPSG",n] (WKT 2). */
+export function wktEpsgCode(wkt: string): number | null {
+  const m = /(?:AUTHORITY\[\s*"EPSG"\s*,\s*"?(\d{4,6})"?\s*\]|ID\[\s*"EPSG"\s*,\s*(\d{4,6})\s*(?:,[^\]]*)?\])\s*\]\s*$/i.exec(wkt.trim());
+  return m ? Number(m[1] ?? m[2]) : null;
+}
+
+/**
+ * A proj4 converter from a CRS (EPSG code or WKT) to WGS 84 lon/lat, or null when it is already lon/lat WGS 84. A WKT
+ * that names its EPSG code is read as that code's offline definition, so its datum shift is the corrected one and a
+ * CRS that needs a datum grid file is refused (crs_needs_datum_grid) as it is for an EPSG code; so is a WKT without
+ * a code whose PROJ4_GRIDS or PROJ4 extension asks for a grid file.
+ */
 export async function toWgs84(crs: { epsg?: number; wkt?: string }): Promise<((p: Position) => Position) | null> {
   let def: string;
-  if (crs.epsg !== undefined) {
-    if (crs.epsg === 4326) return null;
-    def = await loadCrsDefinition(`EPSG:${crs.epsg}`);
+  const code = crs.epsg ?? (crs.wkt !== undefined ? wktEpsgCode(crs.wkt) : null);
+  if (code !== null) {
+    if (code === 4326) return null;
+    def = await loadCrsDefinition(`EPSG:${code}`);
   } else {
     def = crs.wkt ?? '';
+    const grids = /EXTENSION\[\s*"PROJ4_GRIDS"\s*,\s*"([^"]*)"/i.exec(def)?.[1];
+    const proj = /EXTENSION\[\s*"PROJ4"\s*,\s*"([^"]*)"/i.exec(def)?.[1];
+    refuseGridShift('the CRS of the layer (WKT)', grids !== undefined ? `+nadgrids=${grids}` : (proj ?? ''));
   }
   const conv = proj4(def, WGS84_DEF);
   return (p: Position) => conv.forward([p[0], p[1]]);
@@ -115,8 +131,11 @@ async function layerProjection(
   }
   try {
     if (/^epsg$/i.test(srs.organization)) return { sourceCrs: `EPSG:${srs.code}`, project: await toWgs84({ epsg: srs.code }) };
-    return { sourceCrs: srs.definition, project: await toWgs84({ wkt: srs.definition }) };
+    const code = wktEpsgCode(srs.definition);
+    return { sourceCrs: code !== null ? `EPSG:${code}` : srs.definition, project: await toWgs84({ wkt: srs.definition }) };
   } catch (e) {
+    // A CRS that needs a datum grid file keeps its own answer (what to give instead); anything else is unusable.
+    if (e instanceof InputError && e.code === 'crs_needs_datum_grid') throw fileError(source, e.message, e.details[0]?.problem ?? e.message, name, e.code);
     throw fileError(source, 'has a CRS that cannot be used', e instanceof Error ? e.message : String(e), name, 'bad_crs');
   }
 }

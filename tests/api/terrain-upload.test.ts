@@ -68,6 +68,21 @@ describe('terrain uploads are checked before decoding', () => {
     expect((await post(demo, 'image/tiff', {})).status).toBe(401);
   });
 
+  it('refuses a DEM whose CRS needs a datum grid file with that answer (crs_needs_datum_grid), not "not in the offline list"', async () => {
+    // EPSG:27700 shifts its datum with the OSTN15 grid file in the EPSG registry's proj4 definition (epsg-index), which
+    // is not shipped. The project is left as it was.
+    const before = JSON.stringify(await terrainOf());
+    const values = new Float32Array(4 * 4).fill(100);
+    const gridShift = await post(writeGeoTiff({ width: 4, height: 4, west: 400_000, north: 300_000, dx: 50, dy: 50, crs: 'EPSG:27700', units: 'm', values }));
+    expect(gridShift.status).toBe(422);
+    const e = (await gridShift.json()) as { error: { code: string; message: string } };
+    expect(e.error.code).toBe('crs_needs_datum_grid');
+    expect(e.error.message).toContain('EPSG:27700');
+    expect(e.error.message).toContain('grid file');
+    expect(e.error.message).not.toContain('not in the offline CRS list');
+    expect(JSON.stringify(await terrainOf())).toBe(before);
+  });
+
   it('leaves the project unchanged when an upload is refused', async () => {
     const before = JSON.stringify(await terrainOf());
     expect((await post(new Uint8Array([0x49, 0x49, 0x2a, 0, 8, 0, 0, 0]))).status).toBe(422);
