@@ -19,7 +19,8 @@ export interface AppContext {
   workerFile: string;
   /**
    * Worker pools: `short` for short column bands, `long` for long ones and sections, `jobs` for heat in place,
-   * `layers` for a run's spread and probability layers.
+   * `layers` for a run's spread and probability layers, `data` for parsing large uploads, heat-flow corrections and
+   * the vector GeoPackage export.
    */
   compute: ComputePools;
   heatJobs: HeatJobs;

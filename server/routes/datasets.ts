@@ -6,26 +6,16 @@
  */
 import type { Context, Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
-import { parseFeatureCollection, parsePointCsv, type DatasetKind } from '../../shared/schema/features.ts';
-import { parseModelDocument } from '../../shared/products/model-input.ts';
-import { sha256Hex } from '../store/sqlite.ts';
-import type { DatasetRecord } from '../store/types.ts';
-import { bodyText, errorBody, parseJsonText, singleQuery, type AppContext } from './context.ts';
+import type { DatasetKind } from '../../shared/schema/features.ts';
+import type { DatasetInput, DatasetRecord } from '../store/types.ts';
+import { errorBody, singleQuery, type AppContext } from './context.ts';
 import { z } from 'zod';
-import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
-import { formatFromMediaType, inFileLayer, readVectorFile, VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
+import { formatFromMediaType, VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
+import { INLINE_UPLOAD_BYTES, parseUploadBytes, type ParsedUpload, type UploadInput } from '../io/dataset-upload.ts';
 
 import { datasetQuerySchema, parseWith } from './schemas.ts';
 
-export interface ParsedUpload {
-  kind: DatasetKind | 'model';
-  /** Canonical stored body: the validated GeoJSON, or the model without its descriptive name. */
-  body: string;
-  featureCount: number;
-  warnings: string[];
-  /** The model's own `name` (a model upload), offered as the data set's name when none is given. */
-  suggestedName: string | null;
-}
+export type { ParsedUpload };
 
 /**
  * Query parameters every upload route reads besides its own: `crs` (EPSG:nnnn) of a CSV's x,y / easting,northing
@@ -45,13 +35,12 @@ export const uploadFormatQuery = z.object({
 /**
  * Reads, validates and canonicalizes an upload of `kind` from the request body (415/400/413/422 on bad input):
  * GeoJSON, point CSV (lon/lat, or projected x,y with `crs`), a GeoPackage or a zipped Shapefile (reprojected to
- * WGS 84 from the file's own CRS), or a thermal model JSON.
+ * WGS 84 from the file's own CRS), or a thermal model JSON (server/io/dataset-upload.ts). A body larger than
+ * INLINE_UPLOAD_BYTES is parsed on the data pool's worker thread, so the request thread stays free.
  */
 export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind | 'model'): Promise<ParsedUpload> {
   const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
   const format = formatFromMediaType(type);
-  const isJson = format === 'geojson';
-  const isCsv = format === 'csv';
   if (format === null) {
     const all = Object.values(VECTOR_MEDIA_TYPES).flat().join(', ');
     throw new InputError(
@@ -61,55 +50,32 @@ export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind
     );
   }
   const fq = parseWith(uploadFormatQuery, singleQuery(c), 'query', 'bad_query');
-  const source =
-    fq.filename ?? `the ${format === 'gpkg' ? 'GeoPackage' : format === 'shapefile' ? 'zipped Shapefile' : format === 'csv' ? 'CSV' : 'GeoJSON'} upload`;
-  if (format === 'gpkg' || format === 'shapefile') {
-    if (kind === 'model')
-      throw new InputError(
-        'a thermal model is JSON: send it as application/json',
-        [{ field: 'content-type', problem: 'expected application/json' }],
-        'unsupported_media_type',
-      );
-    const bytes = new Uint8Array(await c.req.arrayBuffer());
-    if (bytes.length === 0) throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body');
-    const r = await readVectorFile(bytes, { format, source, layer: fq.layer, maxBytes: ctx.limits.maxBodyBytes, maxFeatures: ctx.limits.maxFeatures });
-    const parsed = inFileLayer(source, r.layer, () => parseFeatureCollection(kind, r.collection, { maxFeatures: ctx.limits.maxFeatures }));
-    const warnings =
-      r.sourceCrs === 'EPSG:4326'
-        ? parsed.warnings
-        : [`${source}${r.layer ? `, layer "${r.layer}"` : ''}: reprojected from ${r.sourceCrs} to WGS 84 longitude/latitude`, ...parsed.warnings];
-    return { kind, body: JSON.stringify(parsed.collection), featureCount: parsed.collection.features.length, warnings, suggestedName: r.layer };
-  }
-  const text = await bodyText(c);
-  if (text.trim() === '') throw new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body');
-  if (kind === 'model') {
-    if (!isJson)
-      throw new InputError(
-        'a thermal model is JSON: send it as application/json',
-        [{ field: 'content-type', problem: 'expected application/json' }],
-        'unsupported_media_type',
-      );
-    const { model, name } = parseModelDocument(parseJsonText(text), 'model');
-    // The name is the data set's (editable per project), not part of the content: two uploads of the same layers
-    // under different names are one stored model, and a renamed model never carries its old name into exports.
-    const { name: _name, ...content } = model as typeof model & { name?: unknown };
-    return { kind, body: JSON.stringify(content), featureCount: model.layers.length, warnings: [], suggestedName: name };
-  }
-  let toLonLat: ((x: number, y: number) => [number, number]) | undefined;
-  if (fq.crs !== undefined) {
-    const conv = converter(await loadCrsDefinition(fq.crs), WGS84_DEF);
-    toLonLat = (x, y) => conv.forward([x, y]);
-  }
-  const opts = { maxFeatures: ctx.limits.maxFeatures, toLonLat, crsHint: 'give their CRS with the query parameter crs=EPSG:nnnn' };
-  const parsed = isCsv ? parsePointCsv(kind, text, opts) : parseFeatureCollection(kind, parseJsonText(text), opts);
-  return { kind, body: JSON.stringify(parsed.collection), featureCount: parsed.collection.features.length, warnings: parsed.warnings, suggestedName: null };
+  const label = { gpkg: 'GeoPackage', shapefile: 'zipped Shapefile', csv: 'CSV', geojson: 'GeoJSON' }[format];
+  const bytes = new Uint8Array(await c.req.arrayBuffer());
+  const input: UploadInput = {
+    kind,
+    format,
+    bytes,
+    crs: fq.crs,
+    layer: fq.layer,
+    source: fq.filename ?? `the ${label} upload`,
+    maxBytes: ctx.limits.maxBodyBytes,
+    maxFeatures: ctx.limits.maxFeatures,
+  };
+  if (bytes.length <= INLINE_UPLOAD_BYTES) return await parseUploadBytes(input);
+  return await ctx.compute.data.run<ParsedUpload>({ kind: 'upload', input }, ctx.limits.computeDeadlineSeconds * 1000, undefined, [bytes.buffer]);
+}
+
+/** What the store keeps of an upload (its hash and bounding box as computed where it was parsed). */
+export function storedOf(up: ParsedUpload): DatasetInput {
+  return { kind: up.kind, body: up.body, featureCount: up.featureCount, contentHash: up.contentHash, bbox: up.bbox };
 }
 
 /** Stores an upload, or finds the stored data set with the same kind and content. */
 export async function storeUpload(ctx: AppContext, up: ParsedUpload, title?: string): Promise<{ rec: DatasetRecord; existing: boolean }> {
-  const found = await ctx.store.findDatasetByContent(up.kind, sha256Hex(up.body));
+  const found = await ctx.store.findDatasetByContent(up.kind, up.contentHash);
   if (found) return { rec: found, existing: true };
-  return { rec: await ctx.store.putDataset({ kind: up.kind, body: up.body, featureCount: up.featureCount, title }), existing: false };
+  return { rec: await ctx.store.putDataset({ ...storedOf(up), title }), existing: false };
 }
 
 export function datasetRoutes(app: Hono, ctx: AppContext): void {

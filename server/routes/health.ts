@@ -40,7 +40,13 @@ export function healthRoutes(app: Hono, ctx: AppContext): () => void {
       ...queueHealth(ctx.jobs, ctx.limits.runConcurrency),
       eventLoopDelayMs: { ...current, windowStartedAt: new Date(windowStart).toISOString(), previousMinute: lastWindow },
       runs: ctx.jobs.counts(),
-      computeTasks: { short: compute.short.load(), long: compute.long.load(), heatInPlace: ctx.heatJobs.inFlight(), layers: compute.layers.load() },
+      computeTasks: {
+        short: compute.short.load(),
+        long: compute.long.load(),
+        heatInPlace: ctx.heatJobs.inFlight(),
+        layers: compute.layers.load(),
+        data: compute.data.load(),
+      },
     });
   });
   return () => {

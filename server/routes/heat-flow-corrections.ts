@@ -8,24 +8,15 @@ import type { Hono } from 'hono';
 import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
-import { correctDataset, heatFlowCorrectionRequestSchema, type HeatFlowCorrectionRequest } from '../../shared/heatflow/dataset-corrections.ts';
-import type { ProjectDatasetRecord } from '../store/types.ts';
+import { heatFlowCorrectionRequestSchema, type HeatFlowCorrectionRequest } from '../../shared/heatflow/dataset-corrections.ts';
+import type { CorrectionsOutput, CorrectionsTask } from '../workers/compute-worker.ts';
 import { jsonBody, requireJsonType, type AppContext } from './context.ts';
-import { addToProject, datasetView } from './project-datasets.ts';
+import { addToProject, datasetView, heldDataset } from './project-datasets.ts';
 import { projectIdOf, requireEditToken } from './projects.ts';
-import { idSchema, parseWith } from './schemas.ts';
-
-/** A data set the project holds (404 naming the field otherwise). */
-async function heldDataset(ctx: AppContext, projectId: string, raw: string, field: string): Promise<ProjectDatasetRecord> {
-  const id = idSchema.safeParse(raw);
-  const rec = id.success ? await ctx.store.getProjectDataset(projectId, id.data) : null;
-  if (!rec)
-    throw new InputError(`project ${projectId} holds no data set with id "${raw}"`, [{ field, problem: 'not found in this project' }], 'dataset_not_found');
-  return rec;
-}
+import { parseWith } from './schemas.ts';
 
 /** The project's terrain as a lon/lat grid of elevations (m); 404 when it has none. */
-async function projectDem(ctx: AppContext, projectId: string): Promise<Grid> {
+async function projectDem(ctx: AppContext, projectId: string): Promise<Grid<Float32Array>> {
   const t = await ctx.store.getProjectTerrain(projectId);
   if (!t)
     throw new InputError(
@@ -37,9 +28,9 @@ async function projectDem(ctx: AppContext, projectId: string): Promise<Grid> {
   return { width: m.width, height: m.height, west: m.west, north: m.north, dx: m.dx, dy: m.dy, crs: 'EPSG:4326', units: 'm', values: t.values };
 }
 
-/** The body of the request's thermal-model data set (held by the project, kind model). */
-async function modelBody(ctx: AppContext, projectId: string, req: HeatFlowCorrectionRequest): Promise<unknown> {
-  if (req.model === undefined) return undefined;
+/** The stored body of the request's thermal-model data set (held by the project, kind model); null when none is named. */
+async function modelBody(ctx: AppContext, projectId: string, req: HeatFlowCorrectionRequest): Promise<string | null> {
+  if (req.model === undefined) return null;
   const held = await heldDataset(ctx, projectId, req.model, 'model');
   if (held.kind !== 'model')
     throw new InputError(
@@ -47,7 +38,7 @@ async function modelBody(ctx: AppContext, projectId: string, req: HeatFlowCorrec
       [{ field: 'model', problem: `got a ${held.kind} data set` }],
       'wrong_dataset_kind',
     );
-  return JSON.parse((await ctx.store.getDataset(held.id))!.body) as unknown;
+  return (await ctx.store.getDataset(held.id))!.body;
 }
 
 export function heatFlowCorrectionRoutes(app: Hono, ctx: AppContext): void {
@@ -63,12 +54,17 @@ export function heatFlowCorrectionRoutes(app: Hono, ctx: AppContext): void {
         [{ field: 'dsId', problem: `got a ${held.kind} data set` }],
         'wrong_dataset_kind',
       );
-    const source = JSON.parse((await ctx.store.getDataset(held.id))!.body) as { features: unknown[] };
-    const dem = req.topography ? await projectDem(ctx, id) : null;
-    const out = correctDataset(held.kind, source.features, req, dem, await modelBody(ctx, id, req));
-    const body = JSON.stringify({ type: 'FeatureCollection', features: out.features });
-    const up = { kind: 'sites' as const, body, featureCount: out.features.length, warnings: out.warnings, suggestedName: null };
-    const { dataset, status } = await addToProject(ctx, id, up, req.name ?? `${held.name} (corrected)`);
+    // The corrections (about a second for a terrain of a few million cells) run on the data pool's worker thread.
+    const task: CorrectionsTask = {
+      kind: 'heat-flow-corrections',
+      datasetKind: held.kind,
+      sourceBody: (await ctx.store.getDataset(held.id))!.body,
+      request: req,
+      dem: req.topography ? await projectDem(ctx, id) : null,
+      modelBody: await modelBody(ctx, id, req),
+    };
+    const { upload, ...out } = await ctx.compute.data.run<CorrectionsOutput>(task, ctx.limits.computeDeadlineSeconds * 1000);
+    const { dataset, status } = await addToProject(ctx, id, upload, req.name ?? `${held.name} (corrected)`);
     return c.json(
       {
         dataset: { ...datasetView(id, dataset), deduplicated: status !== 'created' },

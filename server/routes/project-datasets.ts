@@ -5,13 +5,12 @@
  * one stored data set. A project holds at most `maxProjectStorageBytes` (413 naming the limit). Detaching a data
  * set removes it from the project's list; its content stays while any project, run or saved revision names it.
  */
-import type { Context, Hono } from 'hono';
+import type { Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
 import { runRequestSchema } from '../../shared/schema/run.ts';
-import { sha256Hex } from '../store/sqlite.ts';
 import type { ProjectDatasetRecord } from '../store/types.ts';
 import { clientAddress, jsonBody, requireJsonType, singleQuery, type AppContext } from './context.ts';
-import { parseUpload, type ParsedUpload } from './datasets.ts';
+import { parseUpload, storedOf, type ParsedUpload } from './datasets.ts';
 import { projectIdOf, requireEditToken } from './projects.ts';
 import { farApartWarnings, requireRunInputs, resolveRunDatasets, submitRun } from './runs.ts';
 import { datasetPatchSchema, datasetNameSchema, idSchema, parseWith, projectDatasetQuerySchema } from './schemas.ts';
@@ -29,6 +28,15 @@ const KIND_NAMES: Record<string, string> = {
   regions: 'Regions',
   model: 'Thermal model',
 };
+
+/** A data set the project holds, by the raw id in `field` (404 naming the field otherwise). */
+export async function heldDataset(ctx: AppContext, projectId: string, raw: string, field: string): Promise<ProjectDatasetRecord> {
+  const id = idSchema.safeParse(raw);
+  const rec = id.success ? await ctx.store.getProjectDataset(projectId, id.data) : null;
+  if (!rec)
+    throw new InputError(`project ${projectId} holds no data set with id "${raw}"`, [{ field, problem: 'not found in this project' }], 'dataset_not_found');
+  return rec;
+}
 
 /** A data set as the API lists it. */
 export function datasetView(projectId: string, d: ProjectDatasetRecord) {
@@ -73,8 +81,7 @@ export async function addToProject(
   up: ParsedUpload,
   name: string | undefined,
 ): Promise<{ dataset: ProjectDatasetRecord; status: 'created' | 'existing' | 'attached' }> {
-  const hash = sha256Hex(up.body);
-  const found = await ctx.store.findDatasetByContent(up.kind, hash);
+  const found = await ctx.store.findDatasetByContent(up.kind, up.contentHash);
   const held = found ? await ctx.store.getProjectDataset(projectId, found.id) : null;
   if (held) {
     // Already in the project: nothing stored twice; a new name given with the upload renames it.
@@ -83,7 +90,7 @@ export async function addToProject(
     return { dataset: (await ctx.store.getProjectDataset(projectId, held.id))!, status: 'existing' };
   }
   await checkQuota(ctx, projectId, Buffer.byteLength(up.body, 'utf8'), `this ${up.kind} data set`);
-  const rec = found ?? (await ctx.store.putDataset({ kind: up.kind, body: up.body, featureCount: up.featureCount }));
+  const rec = found ?? (await ctx.store.putDataset(storedOf(up)));
   const finalName = freeName(await ctx.store.listProjectDatasets(projectId), name ?? up.suggestedName ?? KIND_NAMES[up.kind] ?? up.kind);
   return { dataset: await ctx.store.attachDataset(projectId, rec.id, finalName), status: found ? 'attached' : 'created' };
 }
@@ -117,21 +124,8 @@ function terrainView(
 
 const terrainQuerySchema = z.object({ name: datasetNameSchema.optional() });
 
+/** A project's data sets; its terrain and its runs are mounted with them (projectTerrainRoutes, projectRunRoutes). */
 export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
-  const terrainTiles = new Map<string, { hash: string; tiles: TerrainTiles }>();
-  const dsIdOf = async (c: Context, projectId: string): Promise<ProjectDatasetRecord> => {
-    const raw = c.req.param('dsId') ?? '';
-    const id = idSchema.safeParse(raw);
-    const rec = id.success ? await ctx.store.getProjectDataset(projectId, id.data) : null;
-    if (!rec)
-      throw new InputError(
-        `project ${projectId} holds no data set with id "${raw}"`,
-        [{ field: 'dsId', problem: 'not found in this project' }],
-        'dataset_not_found',
-      );
-    return rec;
-  };
-
   app.get('/api/projects/:id/datasets', async (c) => {
     const id = await projectIdOf(c, ctx);
     const datasets = (await ctx.store.listProjectDatasets(id)).map((d) => datasetView(id, d));
@@ -159,7 +153,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
 
   app.get('/api/projects/:id/datasets/:dsId', async (c) => {
     const id = await projectIdOf(c, ctx);
-    const held = await dsIdOf(c, id);
+    const held = await heldDataset(ctx, id, c.req.param('dsId') ?? '', 'dsId');
     const rec = (await ctx.store.getDataset(held.id))!;
     const isModel = rec.kind === 'model';
     // A model downloads under its project name; every download carries a file name made of that name.
@@ -175,7 +169,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
   app.patch('/api/projects/:id/datasets/:dsId', async (c) => {
     const id = await projectIdOf(c, ctx);
     await requireEditToken(c, ctx, id);
-    const held = await dsIdOf(c, id);
+    const held = await heldDataset(ctx, id, c.req.param('dsId') ?? '', 'dsId');
     requireJsonType(c);
     const { name } = parseWith(datasetPatchSchema, await jsonBody(c), 'data set change', 'invalid_dataset_change');
     const clash = (await ctx.store.listProjectDatasets(id)).find((d) => d.id !== held.id && d.name === name);
@@ -192,14 +186,33 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
   app.delete('/api/projects/:id/datasets/:dsId', async (c) => {
     const id = await projectIdOf(c, ctx);
     await requireEditToken(c, ctx, id);
-    const held = await dsIdOf(c, id);
+    const held = await heldDataset(ctx, id, c.req.param('dsId') ?? '', 'dsId');
     await ctx.store.detachProjectDataset(id, held.id);
     const contentDeleted = await ctx.store.pruneDataset(held.id);
     return c.json({ id: held.id, detached: true, contentKept: !contentDeleted });
   });
+  projectTerrainRoutes(app, ctx);
+  projectRunRoutes(app, ctx);
+}
 
-  // Terrain: a DEM GeoTIFF, checked before any pixel is decoded (server/terrain-upload.ts); nothing of the project
-  // changes unless every check passes.
+/** The tile cutter of a project's stored terrain, kept for the last 8 projects asked (404 when it has none). */
+async function cachedTerrainTiles(ctx: AppContext, cache: Map<string, { hash: string; tiles: TerrainTiles }>, id: string): Promise<TerrainTiles> {
+  const hit = cache.get(id);
+  if (hit) return hit.tiles;
+  const t = await ctx.store.getProjectTerrain(id);
+  if (!t) throw new InputError(`project ${id} has no terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found');
+  const entry = { hash: t.blobHash, tiles: new TerrainTiles({ ...t.meta, crs: 'EPSG:4326', values: t.values }) };
+  cache.set(id, entry);
+  if (cache.size > 8) cache.delete(cache.keys().next().value as string);
+  return entry.tiles;
+}
+
+/**
+ * A project's terrain: a DEM GeoTIFF, checked before any pixel is decoded (server/terrain-upload.ts); nothing of the
+ * project changes unless every check passes. Its raster-dem tiles are cut from the stored grid (the last 8 kept).
+ */
+function projectTerrainRoutes(app: Hono, ctx: AppContext): void {
+  const terrainTiles = new Map<string, { hash: string; tiles: TerrainTiles }>();
   app.post('/api/projects/:id/terrain', async (c) => {
     const id = await projectIdOf(c, ctx);
     await requireEditToken(c, ctx, id);
@@ -262,15 +275,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     const m = /^(\d+)\.png$/.exec(c.req.param('y'));
     if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x))
       throw new InputError('terrain tiles are …/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: 'bad tile address' }], 'bad_tile');
-    let entry = terrainTiles.get(id);
-    const t = entry ? null : await ctx.store.getProjectTerrain(id);
-    if (!entry) {
-      if (!t) throw new InputError(`project ${id} has no terrain`, [{ field: 'terrain', problem: 'none uploaded' }], 'terrain_not_found');
-      entry = { hash: t.blobHash, tiles: new TerrainTiles({ ...t.meta, crs: 'EPSG:4326', values: t.values }) };
-      terrainTiles.set(id, entry);
-      if (terrainTiles.size > 8) terrainTiles.delete(terrainTiles.keys().next().value as string);
-    }
-    const png = entry.tiles.tile(Number(z), Number(x), Number(m[1]));
+    const png = (await cachedTerrainTiles(ctx, terrainTiles, id)).tile(Number(z), Number(x), Number(m[1]));
     if (!png)
       throw new InputError(
         `no terrain tile ${z}/${x}/${m[1]}`,
@@ -279,7 +284,10 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
       );
     return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'no-cache' });
   });
+}
 
+/** A project's runs: listed, started (edit token) and checked before starting. */
+function projectRunRoutes(app: Hono, ctx: AppContext): void {
   app.get('/api/projects/:id/runs', async (c) => {
     const id = await projectIdOf(c, ctx);
     const runs = (await ctx.store.listProjectRuns(id)).map((r) => {

@@ -14,7 +14,6 @@ import { isTerminal, type RunSnapshot } from '../runs/jobs.ts';
 import { parseModelDocument } from '../../shared/products/model-input.ts';
 import { LAYER_EXTS, type LayerExt } from '../runs/types.ts';
 import { sha256Hex } from '../store/sqlite.ts';
-import { vectorsGeoPackage } from '../io/export.ts';
 import type { DatasetRecord, RunRecord } from '../store/types.ts';
 import { bearerToken } from '../security.ts';
 import { clientAddress, jsonBody, notFound, requireJsonType, type AppContext } from './context.ts';
@@ -343,8 +342,9 @@ async function runGeoPackage(c: Context, ctx: AppContext, rec: RunRecord): Promi
     listed.map(async (l) => ({ name: l.name, title: l.title ?? l.name, file: await ctx.store.getRunFile(rec.id, l.name, 'geojson') })),
   );
   const layers = files.filter((l) => l.file !== null).map((l) => ({ name: l.name, title: l.title, geojson: new TextDecoder().decode(l.file!.bytes) }));
-  const bytes = vectorsGeoPackage(layers, (rec.summary as { provenance?: unknown } | null)?.provenance);
-  return c.body(new Uint8Array(bytes), 200, {
+  const provenance = (rec.summary as { provenance?: unknown } | null)?.provenance;
+  const bytes = await ctx.compute.data.run<Uint8Array<ArrayBuffer>>({ kind: 'vectors-gpkg', layers, provenance }, ctx.limits.computeDeadlineSeconds * 1000);
+  return c.body(bytes, 200, {
     'content-type': 'application/geopackage+sqlite3',
     'cache-control': 'private, max-age=3600',
     'content-disposition': `attachment; filename="run-${rec.id}.gpkg"`,

@@ -72,9 +72,10 @@ export class ComputePool {
   /**
    * Runs a task on a worker thread within `deadlineMs` (counted from the call, waiting included). Rejects with
    * InputError: 503 server_busy when the queue is full, 503 deadline_exceeded at the deadline, or the task's own
-   * InputError (4xx) when the input was at fault.
+   * InputError (4xx) when the input was at fault. Buffers in `transferList` move to the worker (no copy; they are
+   * unusable here afterwards).
    */
-  async run<T>(task: ComputeTask, deadlineMs: number, signal?: AbortSignal): Promise<T> {
+  async run<T>(task: ComputeTask, deadlineMs: number, signal?: AbortSignal, transferList?: ArrayBuffer[]): Promise<T> {
     if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down');
     if (this.inFlight >= this.opts.threads + this.opts.maxQueue) {
       throw new InputError(
@@ -87,7 +88,7 @@ export class ComputePool {
     const both = signal ? AbortSignal.any([deadline, signal]) : deadline;
     this.inFlight++;
     try {
-      const reply = (await this.getPool().run(task, { signal: both })) as ComputeReply;
+      const reply = (await this.getPool().run(task, { signal: both, transferList })) as ComputeReply;
       if (!reply.ok) throw new InputError(reply.error.message, reply.error.details, reply.error.code);
       return reply.value as T;
     } catch (e) {

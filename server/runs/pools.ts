@@ -1,8 +1,9 @@
 /**
  * The server's worker pools for work that must never run on the request thread (server/runs/compute.ts), and the
- * heat-in-place job queue over one of them. Four pools, so long work never holds short work behind it: short
- * column bands (a map click) on threads of normal priority; long columns and sections, heat-in-place jobs, and a
- * run's spread and probability layers, each on a thread of lowered priority.
+ * heat-in-place job queue over one of them. Five pools, so long work never holds short work behind it: short
+ * column bands (a map click) on threads of normal priority; long columns and sections, heat-in-place jobs, a
+ * run's spread and probability layers, each on a thread of lowered priority; and data sets (parsing large uploads,
+ * heat-flow corrections, the vector GeoPackage export) on one thread of normal priority.
  */
 import { availableParallelism } from 'node:os';
 import type { Limits } from '../limits.ts';
@@ -14,9 +15,10 @@ export interface ComputePools {
   long: ComputePool;
   jobs: ComputePool;
   layers: ComputePool;
+  data: ComputePool;
 }
 
-/** The four pools, sized and bounded by the limits; `workerFile` replaces the compute worker (tests). */
+/** The five pools, sized and bounded by the limits; `workerFile` replaces the compute worker (tests). */
 export function createComputePools(limits: Limits, workerFile?: string): ComputePools {
   const long = { threads: 1, niceness: 10, workerFile };
   return {
@@ -51,6 +53,17 @@ export function createComputePools(limits: Limits, workerFile?: string): Compute
       queueLimit: 'maxLongComputeQueue',
       deadlineLimit: 'runWallClockSeconds',
     }),
+    // Someone waits on each of these (an upload, an export) as on a map click, so its one thread keeps normal
+    // priority: the request thread still has the other core, and on a machine busy with other programs a lowered
+    // thread would let a 50 MB upload run into its deadline.
+    data: new ComputePool({
+      threads: 1,
+      workerFile,
+      name: 'data set',
+      maxQueue: limits.maxLongComputeQueue,
+      queueLimit: 'maxLongComputeQueue',
+      deadlineLimit: 'computeDeadlineSeconds',
+    }),
   };
 }
 
@@ -67,5 +80,5 @@ export function createHeatJobs(pools: ComputePools, limits: Limits): HeatJobs {
 
 /** Stops every pool's threads. */
 export async function closeComputePools(pools: ComputePools): Promise<void> {
-  await Promise.all([pools.short.close(), pools.long.close(), pools.jobs.close(), pools.layers.close()]);
+  await Promise.all([pools.short.close(), pools.long.close(), pools.jobs.close(), pools.layers.close(), pools.data.close()]);
 }

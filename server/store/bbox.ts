@@ -6,6 +6,11 @@ export function bodyBbox(body: string): [number, number, number, number] | null 
   } catch {
     return null;
   }
+  return geoJsonBbox(v);
+}
+
+/** Bounding box of a parsed GeoJSON value: [west, south, east, north] in degrees, or null when it has no position. */
+export function geoJsonBbox(v: unknown): [number, number, number, number] | null {
   let w = Infinity,
     s = Infinity,
     e = -Infinity,

@@ -9,6 +9,7 @@
  * COG's header and the tiles it samples, never the whole file.
  */
 import type {
+  DatasetInput,
   DatasetRecord,
   ProjectDatasetRecord,
   ProjectRecord,
@@ -59,7 +60,12 @@ export abstract class SqlStore {
     return (await this.rows<T>(sql, params))[0] ?? null;
   }
 
-  async putDataset(input: { id?: string; kind: string; body: string; featureCount: number; title?: string }): Promise<DatasetRecord> {
+  /** Runs one statement that writes a large value (a data set body); a store may move it off the request thread. */
+  protected async execLarge(sql: string, params: unknown[]): Promise<number> {
+    return await this.exec(sql, params);
+  }
+
+  async putDataset(input: DatasetInput): Promise<DatasetRecord> {
     if (input.id !== undefined) {
       const existing = await this.getDataset(input.id);
       if (existing) {
@@ -67,18 +73,18 @@ export abstract class SqlStore {
         return rest;
       }
     }
-    const bbox = input.kind === 'model' ? null : bodyBbox(input.body);
+    const bbox = input.kind === 'model' ? null : input.bbox !== undefined ? input.bbox : bodyBbox(input.body);
     const rec: DatasetRecord = {
       id: input.id ?? newId('ds_'),
       kind: input.kind,
       featureCount: input.featureCount,
-      contentHash: sha256Hex(input.body),
+      contentHash: input.contentHash ?? sha256Hex(input.body),
       createdAt: new Date().toISOString(),
       title: input.title ?? null,
       bbox,
       bytes: Buffer.byteLength(input.body, 'utf8'),
     };
-    await this.exec('INSERT INTO datasets (id, kind, feature_count, content_hash, title, body, created_at, bbox) VALUES (?, ?, ?, ?, ?, ?, ?, ?)', [
+    await this.execLarge('INSERT INTO datasets (id, kind, feature_count, content_hash, title, body, created_at, bbox) VALUES (?, ?, ?, ?, ?, ?, ?, ?)', [
       rec.id,
       rec.kind,
       rec.featureCount,

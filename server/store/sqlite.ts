@@ -5,6 +5,7 @@ import type { DatasetRecord, ProjectRecord, ProjectTerrainRecord, RunRecord, Sto
 import { bodyBbox } from './bbox.ts';
 import { sha256Hex } from './ids.ts';
 import { MIGRATIONS } from './sqlite-schema.ts';
+import { OFF_THREAD_WRITE_CHARS, runOffThread } from './sqlite-offthread.ts';
 import { bboxOf, datasetRecord, float32Of, runRowValues, runPatchColumns, type DatasetRow, type RunPatch } from './rows.ts';
 import { SqlStore, blobChunks } from './sql-store.ts';
 
@@ -48,6 +49,17 @@ export class SqliteStore extends SqlStore implements Store {
 
   protected async exec(sql: string, params: unknown[] = []): Promise<number> {
     return this.db.prepare(sql).run(...params).changes;
+  }
+
+  /**
+   * A statement writing a string of OFF_THREAD_WRITE_CHARS or more (a large data set body) runs on a thread with its
+   * own connection (sqlite-offthread.ts), so its commit never holds the request thread; smaller ones run here.
+   */
+  protected override async execLarge(sql: string, params: unknown[]): Promise<number> {
+    const large = params.some((p) => typeof p === 'string' && p.length >= OFF_THREAD_WRITE_CHARS);
+    if (!large || this.db.memory) return await this.exec(sql, params);
+    await runOffThread(this.db.name, sql, params);
+    return 1;
   }
 
   /** A record from its row; a bbox missing from a row stored before bboxes were kept is computed once and saved. */

@@ -102,11 +102,25 @@ export interface StoredFileInfo {
 /** Grid metadata as stored beside its Float32 values (a blob): the grid's spec and units. */
 export type StoredGridMeta = GridSpec & { units: string };
 
+/** A data set to store (Store.putDataset). */
+export interface DatasetInput {
+  id?: string;
+  kind: string;
+  body: string;
+  featureCount: number;
+  title?: string;
+  contentHash?: string;
+  bbox?: [number, number, number, number] | null;
+}
+
 export interface Store {
   /** Which engine holds the data (reported by /api/health). */
   readonly kind: 'sqlite' | 'postgresql';
-  /** Stores a data set; with `id` given (the demo's stable ids) an existing record of that id is kept. */
-  putDataset(input: { id?: string; kind: string; body: string; featureCount: number; title?: string }): Promise<DatasetRecord>;
+  /**
+   * Stores a data set; with `id` given (the demo's stable ids) an existing record of that id is kept. `contentHash`
+   * (SHA-256 of `body`) and `bbox`, when the caller computed them off the request thread, are kept as given.
+   */
+  putDataset(input: DatasetInput): Promise<DatasetRecord>;
   getDataset(id: string): Promise<(DatasetRecord & { body: string }) | null>;
   listDatasets(): Promise<DatasetRecord[]>;
   /** The data set of this kind whose content hash is `contentHash` (uploads are de-duplicated by content). */

@@ -1,7 +1,8 @@
 /**
  * Worker side of the compute pools (server/runs/compute.ts): one function per kind of task (column, section, heat in
- * place, a run's spread or probability layer). Grids arrive with their values in shared memory (no copy); bodies of
- * data sets arrive as text and are parsed here, off the request thread. An InputError becomes `{ ok: false, error }` so its code and details survive the thread boundary.
+ * place, a run's spread or probability layer, a data set upload, heat-flow corrections, a run's vector GeoPackage).
+ * Grids arrive with their values in shared memory (no copy); bodies of data sets arrive as text or bytes and are
+ * parsed here, off the request thread. An InputError becomes `{ ok: false, error }` so its code and details survive the thread boundary.
  */
 import { InputError, type InputProblem } from '../../shared/errors.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
@@ -16,6 +17,10 @@ import { realizationsFromRecord, type RunRecord } from '../runs/realizations.ts'
 import { HEAT_FLOW_CORRELATION_DEPRECATED } from '../runs/heat-flow-simulation.ts';
 import { applyWorkerNiceness } from './priority.ts';
 import { renderDerivedLayer, type DerivedLayerQuery } from '../runs/derived-layer.ts';
+import { parseUploadBytes, type ParsedUpload, type UploadInput } from '../io/dataset-upload.ts';
+import { sha256Hex, vectorsGeoPackage } from '../io/export.ts';
+import { geoJsonBbox } from '../store/bbox.ts';
+import { correctDataset, type DatasetCorrectionResult, type HeatFlowCorrectionRequest } from '../../shared/heatflow/dataset-corrections.ts';
 
 applyWorkerNiceness();
 
@@ -59,7 +64,35 @@ export interface DerivedLayerTask {
   query: DerivedLayerQuery;
 }
 
-export type ComputeTask = { kind: 'column'; query: ColumnQuery } | SectionTask | HeatInPlaceTask | DerivedLayerTask;
+/** Heat-flow corrections of a sites or wells data set (its stored body), with the project's terrain and model. */
+export interface CorrectionsTask {
+  kind: 'heat-flow-corrections';
+  datasetKind: 'sites' | 'wells';
+  sourceBody: string;
+  request: HeatFlowCorrectionRequest;
+  dem: Grid<Float32Array> | null;
+  /** The stored body of the request's thermal-model data set, when it names one. */
+  modelBody: string | null;
+}
+
+/** The corrected sites as a data set ready to store, with the action's reports. */
+export type CorrectionsOutput = Omit<DatasetCorrectionResult, 'features'> & { upload: ParsedUpload };
+
+/** Every vector layer of a finished run (GeoJSON text) into one GeoPackage. */
+export interface VectorsGeoPackageTask {
+  kind: 'vectors-gpkg';
+  layers: { name: string; title: string; geojson: string }[];
+  provenance: unknown;
+}
+
+export type ComputeTask =
+  | { kind: 'column'; query: ColumnQuery }
+  | SectionTask
+  | HeatInPlaceTask
+  | DerivedLayerTask
+  | { kind: 'upload'; input: UploadInput }
+  | CorrectionsTask
+  | VectorsGeoPackageTask;
 
 export type ComputeReply = { ok: true; value: unknown } | { ok: false; error: { code: string; message: string; details: InputProblem[] } };
 
@@ -81,6 +114,12 @@ export default async function compute(task: ComputeTask): Promise<ComputeReply> 
         return { ok: true, value: await heatInPlace(task) };
       case 'derived-layer':
         return { ok: true, value: await renderDerivedLayer(task.record, task.query) };
+      case 'upload':
+        return { ok: true, value: await parseUploadBytes(task.input) };
+      case 'heat-flow-corrections':
+        return { ok: true, value: corrections(task) };
+      case 'vectors-gpkg':
+        return { ok: true, value: new Uint8Array(vectorsGeoPackage(task.layers, task.provenance)) };
     }
   } catch (e) {
     if (e instanceof InputError) return { ok: false, error: { code: e.code, message: e.message, details: e.details } };
@@ -168,4 +207,22 @@ async function heatInPlace(t: HeatInPlaceTask): Promise<HeatInPlaceOutput> {
   });
   result.report.warnings.unshift(...notes);
   return { report: result.report, html: html(), csv: reportCsv(result.report) };
+}
+
+function corrections(t: CorrectionsTask): CorrectionsOutput {
+  const source = JSON.parse(t.sourceBody) as { features: unknown[] };
+  const model = t.modelBody === null ? undefined : (JSON.parse(t.modelBody) as unknown);
+  const { features, ...out } = correctDataset(t.datasetKind, source.features, t.request, t.dem, model);
+  const collection = { type: 'FeatureCollection', features };
+  const body = JSON.stringify(collection);
+  const upload: ParsedUpload = {
+    kind: 'sites',
+    body,
+    featureCount: features.length,
+    warnings: out.warnings,
+    suggestedName: null,
+    contentHash: sha256Hex(body),
+    bbox: geoJsonBbox(collection),
+  };
+  return { ...out, upload };
 }
