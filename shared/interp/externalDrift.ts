@@ -75,3 +75,24 @@ export function requireCovered(d: ExternalDriftGrid, values: Float64Array, what:
     'drift_not_covering',
   );
 }
+
+/**
+ * A warning when the drift is extrapolated: how many of `values` (where the kriging estimates) lie outside the
+ * covariate's range at the data sites, and that range in the grid's units. Beyond that range the fitted drift
+ * coefficient is applied to covariate values no datum constrains, so the estimate there rests on the linear
+ * relation alone. Null when every value lies within the range.
+ */
+export function extrapolationWarning(d: ExternalDriftGrid, atData: Float64Array, values: Float64Array, what: string): string | null {
+  let lo = Infinity,
+    hi = -Infinity;
+  for (const v of atData) {
+    if (v < lo) lo = v;
+    if (v > hi) hi = v;
+  }
+  let out = 0;
+  for (const v of values) if (v < lo || v > hi) out++;
+  if (out === 0) return null;
+  const u = d.grid.units ? ` ${d.grid.units}` : '';
+  const f = (v: number) => Number(v.toPrecision(6));
+  return `the external drift is extrapolated at ${out} of the ${values.length} ${what}: their ${d.name} value lies outside its range at the data sites, ${f(lo)} to ${f(hi)}${u}; estimates there follow the fitted drift beyond the data`;
+}

@@ -7,7 +7,7 @@ import { createGridRuntime, computeRows, type GridPlan, type RowStats } from './
 import { crossValidateIdw, type CrossValidation } from './crossValidation.ts';
 import { faultsToLocalKm, mergeCoincident, requirePoints, searchSettings, validatePoints } from './pointPrep.ts';
 import { prepareKrigingPlan } from './trendSelect.ts';
-import { covariateAtCells, covariateAtLocal, requireCovered, type ExternalCovariate } from './externalDrift.ts';
+import { covariateAtCells, covariateAtLocal, extrapolationWarning, requireCovered, type ExternalCovariate } from './externalDrift.ts';
 import type { InterpolationOptions, PointData, PreparedInterpolation, VariogramReport } from './interpTypes.ts';
 
 export { DEFAULT_QUALITY_WEIGHTS } from './interpTypes.ts';
@@ -132,6 +132,9 @@ export function prepareInterpolation(points: PointData, opts: InterpolationOptio
   timingsMs.variogram = choice.variogramMs;
   timingsMs.crossValidation = choice.cvMs;
   warnings.push(...choice.warnings);
+  const cov = choice.plan.trend === 'external' ? choice.plan.covariate : null;
+  const extrapolated = cov?.atCells ? extrapolationWarning(opts.externalDrift!, cov.atData, cov.atCells, 'cells of the output grid') : null;
+  if (extrapolated !== null) warnings.push(extrapolated);
   const cv: CrossValidation | null = choice.cv;
   if (cv !== null && cv.unpredicted > 0) warnings.push(`cross-validation: ${cv.unpredicted} point(s) had no usable neighbour and were left out`);
   const report: VariogramReport = choice.report;
@@ -193,17 +196,23 @@ export function interpolateGrid(points: PointData, opts: InterpolationOptions): 
   return finishGrid(prep, values, sd, stats, now() - t);
 }
 
-/** An external drift's covariate at targets (local km of the plan), checked for coverage; null without one. */
+/**
+ * An external drift's covariate at targets (local km of the plan), checked for coverage; null without one. When
+ * `warnings` is given, a warning is added if the drift is extrapolated at some targets.
+ */
 export function targetCovariate(
   opts: { externalDrift?: InterpolationOptions['externalDrift'] },
   prep: PreparedInterpolation,
   tx: Float64Array,
   ty: Float64Array,
   ids: string[],
+  warnings?: string[],
 ): Float64Array | null {
   if (prep.plan.trend !== 'external' || !opts.externalDrift) return null;
   const s = covariateAtLocal(opts.externalDrift, prep.plan.projection, tx, ty);
   requireCovered(opts.externalDrift, s, 'targets', (i) => `target ${ids[i] ?? i}`);
+  const w = warnings ? extrapolationWarning(opts.externalDrift, prep.plan.covariate!.atData, s, 'targets') : null;
+  if (w !== null) warnings!.push(w);
   return s;
 }
 
@@ -245,7 +254,8 @@ export function predictAtPoints(
   const tx = new Float64Array(nT),
     ty = new Float64Array(nT);
   lonLatToLocalKm(prep.plan.projection, targets.lon, targets.lat, tx, ty);
-  const s0 = targetCovariate(opts, prep, tx, ty, targets.ids);
+  const warnings = [...prep.warnings];
+  const s0 = targetCovariate(opts, prep, tx, ty, targets.ids, warnings);
   const out = new Float64Array(2);
   const predictions: PointPrediction[] = [];
   const maxD = prep.plan.maxDistanceKm;
@@ -265,7 +275,6 @@ export function predictAtPoints(
     }
     predictions.push({ id: targets.ids[i], value: Number.isFinite(v) ? v : null, sd: Number.isFinite(s) ? s : null });
   }
-  const warnings = [...prep.warnings];
   const empty = predictions.filter((p) => p.value === null).length;
   if (empty > 0) warnings.push(`${empty} target(s) could not be predicted (no usable data point within reach): value null`);
   return { predictions, variogram: prep.variogram, crossValidation: prep.crossValidation, warnings, timingsMs: { ...prep.timingsMs, predict: now() - t } };

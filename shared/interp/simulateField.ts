@@ -220,7 +220,9 @@ function runAll(
   }
   const plan = prep.plan;
   const t0 = now();
-  const atTargets = targetCovariate(opts, prep, tx, ty, []);
+  // With the plan's own output grid, the targets are its cells and the plan has already warned about them.
+  const driftWarnings: string[] = [];
+  const atTargets = targetCovariate(opts, prep, tx, ty, [], plan.covariate?.atCells ? undefined : driftWarnings);
   let sim: ConditionalSimulator;
   try {
     sim = createConditionalSimulator({
@@ -267,7 +269,7 @@ function runAll(
     sampler: { kind: sim.sampler, method: samplerMethod(sim.sampler, plan.trend ?? 'none'), ...sim.samplerInfo },
     crossValidation: prep.crossValidation,
     conditioning: { neighbors, weights: sim.weights.ids.length },
-    warnings: [...prep.warnings, ...sim.warnings],
+    warnings: [...prep.warnings, ...driftWarnings, ...sim.warnings],
     timingsMs: { ...prep.timingsMs, setup: tSetup, realizations: now() - t1 },
     units: opts.units ?? '',
   };

@@ -4,7 +4,7 @@ import { mkdtempSync, writeFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import { predictAtPoints, prepareInterpolation, interpolateGrid, type PointData } from '../../shared/interp/interpolate.ts';
-import { simulateAtPoints } from '../../shared/interp/simulateField.ts';
+import { simulateAtPoints, simulateGrid } from '../../shared/interp/simulateField.ts';
 import { localProjectionFor, lonLatToLocalKm } from '../../shared/interp/projection.ts';
 import type { ExternalDriftGrid } from '../../shared/interp/externalDrift.ts';
 import type { VariogramModel } from '../../shared/interp/variogram.ts';
@@ -184,6 +184,58 @@ describe('external drift: choice and coverage', () => {
       predictAtPoints(pts, { method: 'kriging', variogram: MODEL, trend: 'external', externalDrift: driftGrid }, { ids: ['x'], lon: [-129.0], lat: [-40.6] }),
     ).toThrow(/does not cover 1 of the 1 targets \(first: target x\)/);
     expect(() => prepareInterpolation(pts, { method: 'kriging', variogram: MODEL, trend: 'external' }, false)).toThrow(/needs its covariate grid/);
+  });
+});
+
+describe('external drift: extrapolation beyond the covariate range at the data', () => {
+  // A covariate growing 10 m per column (s = 10·c at column c), 30 × 10 cells; the eight sites sit on cell centres
+  // of columns 10 to 20, so the data's covariate range is 100 to 200 m exactly.
+  const grid: ExternalDriftGrid = {
+    name: 'depth.tif',
+    crsDef: 'WGS84',
+    grid: {
+      width: 30,
+      height: 10,
+      west: WEST,
+      north: NORTH,
+      dx: D,
+      dy: D,
+      crs: 'EPSG:4326',
+      units: 'm',
+      values: Float32Array.from({ length: 300 }, (_, i) => 10 * (i % 30)),
+    },
+  };
+  const at = (c: number) => WEST + (c + 0.5) * D;
+  const cols = [10, 12, 13, 15, 16, 18, 19, 20];
+  const rows = [1, 7, 4, 2, 8, 5, 3, 6];
+  const site: PointData = {
+    ids: cols.map((_, i) => `e${i}`),
+    lon: cols.map(at),
+    lat: rows.map((rr) => NORTH - (rr + 0.5) * D),
+    values: cols.map((c, i) => 30 + c + Math.sin(i)),
+  };
+  const opts = { method: 'kriging' as const, neighbors: 'all' as const, variogram: MODEL, trend: 'external' as const, externalDrift: grid };
+  const bbox: [number, number, number, number] = [WEST, NORTH - 10 * D, WEST + 30 * D, NORTH];
+  const RANGE = /outside its range at the data sites, 100 to 200 m/;
+
+  it('counts the output cells and targets whose covariate lies outside the range at the sites', () => {
+    // Columns 0–9 (below 100 m) and 21–29 (above 200 m): 19 of 30 columns × 10 rows = 190 of 300 cells.
+    const g = interpolateGrid(site, { ...opts, grid: { bbox, size: [30, 10] } });
+    const wg = g.warnings.filter((w) => w.includes('extrapolated'));
+    expect(wg).toHaveLength(1);
+    expect(wg[0]).toMatch(/at 190 of the 300 cells of the output grid: their depth\.tif value/);
+    expect(wg[0]).toMatch(RANGE);
+    // Targets at columns 5 (50 m), 15 (150 m), 25 (250 m) and 20 (200 m, the edge, inside): 2 of 4 outside.
+    const t = { ids: ['p', 'q', 'r', 's'], lon: [5, 15, 25, 20].map(at), lat: [NORTH - 0.05, NORTH - 0.05, NORTH - 0.05, NORTH - 0.05] };
+    const pr = predictAtPoints(site, opts, t);
+    expect(pr.warnings.filter((w) => w.includes('extrapolated'))).toEqual([expect.stringMatching(/at 2 of the 4 targets/)]);
+    const sim = simulateAtPoints(site, { ...opts, realizations: 2, seed: 1, transform: 'none', crossValidation: false }, t);
+    expect(sim.warnings.filter((w) => w.includes('extrapolated'))).toEqual([expect.stringMatching(/at 2 of the 4 targets/)]);
+    const sg = simulateGrid(site, { ...opts, realizations: 2, seed: 1, transform: 'none', crossValidation: false, grid: { bbox, size: [30, 10] } });
+    expect(sg.warnings.filter((w) => w.includes('extrapolated'))).toEqual([expect.stringMatching(/at 190 of the 300 cells/)]);
+    // All targets inside the range: no warning.
+    const inside = predictAtPoints(site, opts, { ids: ['q'], lon: [at(15)], lat: [NORTH - 0.05] });
+    expect(inside.warnings.some((w) => w.includes('extrapolated'))).toBe(false);
   });
 });
 
