@@ -13,7 +13,7 @@ import { el } from './dom.ts';
 import { legendEntries } from './legend.ts';
 import { LayerPanel } from './layers.ts';
 import { defaultParams, decodeState, encodeState, stateFromJson, type AppState } from './state.ts';
-import { runLayerId, showRunLayers } from './runlayers.ts';
+import { showAddedAlone, showRunLayers } from './runlayers.ts';
 import { message, showError, tabs, type AppContext, type AppHandle } from './context.ts';
 import { columnPanel } from './column.ts';
 import { DataSets, dataPanel, type PointKind } from './data.ts';
@@ -227,8 +227,8 @@ function buildTools(
     model: () => editor.value(),
     onParams: (p) => ((state.params = p), ctx.syncUrl()),
     onDone: (run, added) => {
-      // Layers the user has just asked for (spread, probability) are shown at once, above the others.
-      for (const name of added ?? []) state.layers[runLayerId(name)] = { visible: true, opacity: 0.85 };
+      // Layers the user has just asked for (spread, probability) are shown at once, alone among the run's rasters.
+      showAddedAlone(run.layers ?? [], added ?? [], state.layers);
       void show(run).catch((e: unknown) => ctx.showError(message(e)));
     },
     onProgress: runProgressNote(ctx.map),

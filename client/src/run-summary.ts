@@ -138,7 +138,7 @@ export function uncertaintyControls(run: RunState, onLayer: (run: RunState, adde
     try {
       await getJson<unknown>(`/api/runs/${encodeURIComponent(run.id)}/${query}`);
       const updated = await getJson<RunState>(`/api/runs/${encodeURIComponent(run.id)}`);
-      say(`The ${what} is among the run's layers.`);
+      say(`The ${what} is among the run's layers, shown alone among its rasters (tick the others in the layer list to see them again).`);
       const before = new Set((run.layers ?? []).map((l) => l.name));
       onLayer(
         updated,

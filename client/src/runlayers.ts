@@ -8,6 +8,7 @@ import type { ExpressionSpecification, Map as MapLibreMap } from 'maplibre-gl';
 import { ApiError, getJson, type RunLayer, type RunState, type TileInfo } from './api.ts';
 import { el } from './dom.ts';
 import type { LayerEntry, LayerPanel } from './layers.ts';
+import type { LayerState } from './state.ts';
 import { legendFromSpec } from './legend.ts';
 import { readableRasters } from './readout.ts';
 import { BASE_TOP, colorReliefExpression } from './style.ts';
@@ -45,6 +46,22 @@ function groupLayerId(key: string): string {
 /** The map layer id of a raster run layer by its name (depth-indexed names share their group's). */
 export function runLayerId(name: string): string {
   return groupLayerId(DEPTH_NAME.exec(name)?.[1] ?? name);
+}
+
+/**
+ * Shows the raster layers just added (a spread or probability layer the user asked for) alone among the run's
+ * rasters: each is read against its own legend, not blended over the heat flow or an isotherm depth below it. The
+ * other rasters stay in the layer list, unticked (their legends follow their boxes); vector layers stay as they are.
+ */
+export function showAddedAlone(layers: RunLayer[], added: string[], states: Record<string, LayerState>): void {
+  if (added.length === 0) return;
+  const shown = new Set(added.map(runLayerId));
+  for (const l of layers) {
+    const id = runLayerId(l.name);
+    if (l.kind !== 'raster' || shown.has(id)) continue;
+    states[id] = { opacity: states[id]?.opacity ?? 0.85, visible: false };
+  }
+  for (const id of shown) states[id] = { visible: true, opacity: 0.85 };
 }
 
 /** Groups a run's layers: names like `temperature-5km` group by prefix with their depths; others stand alone. */

@@ -229,7 +229,8 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     const spreadPanel = (await page.locator('#run-layers').textContent())!;
     expect(spreadPanel).toMatch(/P90 − P10|spread/i);
     expect(spreadPanel).toContain('km');
-    // The layer just asked for is shown at once, above the run's other rasters (so the screenshot shows it).
+    // The layer just asked for is shown at once and alone among the run's rasters (so the screenshot shows it, not
+    // the heat flow beneath); the others stay in the layer list, unticked, their legends with them.
     const order = await page.evaluate(() => {
       const m = window.subtherm!.map;
       const shown = m
@@ -237,7 +238,9 @@ describe('a user region in the other hemisphere, end to end in the page', { time
         .layers.filter((l) => l.id.startsWith('run-') && l.type === 'color-relief' && (m.getLayoutProperty(l.id, 'visibility') ?? 'visible') === 'visible');
       return shown.map((l) => l.id);
     });
-    expect(order[order.length - 1]).toBe(spread);
+    expect(order).toEqual([spread]);
+    expect(await page.locator('#toggle-run-heat-flow').isChecked()).toBe(false);
+    expect(await page.locator(`[id="toggle-${spread}"]`).isChecked()).toBe(true);
     await waitForMapIdle(page);
     await shot(page, 'spread');
 
