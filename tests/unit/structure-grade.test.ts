@@ -151,7 +151,7 @@ describe('bad fault input', () => {
     expect(JSON.stringify(zero.details)).toContain('zero length');
   });
 
-  it('a dip outside 0–90° gets a message per feature, naming the fault and the field', () => {
+  it('a dip outside (0, 90]° (dip 0 included) gets a message per feature, naming the fault and the field', () => {
     // A dip is measured from the horizontal down to the fault plane, 0–90° (common practice); 0 would be no fault plane.
     const line = (id: string, dipDeg: number) => ({
       type: 'Feature',
@@ -165,12 +165,17 @@ describe('bad fault input', () => {
       properties: { id, dipDeg },
     });
     const e = thrown(() =>
-      parseFeatureCollection('faults', { type: 'FeatureCollection', features: [line('F1', 60), line('F2', 95), line('F3', -10), line('F4', 90)] }),
+      parseFeatureCollection('faults', {
+        type: 'FeatureCollection',
+        features: [line('F1', 60), line('F2', 95), line('F3', -10), line('F4', 90), line('F5', 0)],
+      }),
     );
     const details = e.details as { feature?: unknown; field?: string }[];
-    expect(details.length).toBe(2);
+    expect(details.length).toBe(3);
     expect(JSON.stringify(details[0])).toContain('F2');
     expect(JSON.stringify(details[1])).toContain('F3');
+    // Dip 0 itself is refused (the bound is exclusive), with its own message naming F5.
+    expect(JSON.stringify(details[2])).toContain('F5');
     for (const d of details) expect(d.field).toContain('dipDeg');
   });
 
