@@ -1,5 +1,5 @@
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, rmSync, writeFileSync, readFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, rmSync, writeFileSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import type { Grid } from '../../shared/grid/grid.ts';
@@ -14,6 +14,7 @@ import { readWells } from '../../shared/wells/checks.ts';
 
 const root = new URL('../../', import.meta.url).pathname;
 const tmp = join(root, '.tmp');
+mkdirSync(tmp, { recursive: true });
 const dir = mkdtempSync(join(tmp, 'hfc-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 

@@ -19,6 +19,7 @@
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import { tmpdir } from 'node:os';
 import geodesic from 'geographiclib-geodesic';
 import { Matrix, solve } from 'ml-matrix';
 import { readGeoTiff, writeGeoTiff } from '../../server/io/geotiff.ts';
@@ -94,7 +95,7 @@ function reciprocalMoments(mu: number, s: number): { m1: number; m2: number } {
 }
 
 beforeAll(() => {
-  dir = mkdtempSync(join(process.cwd(), '.tmp-mean-layer-'));
+  dir = mkdtempSync(join(tmpdir(), 'subtherm-mean-layer-'));
   // The deterministic map: ordinary kriging of data that all equal q_s is q_s in every cell.
   const grid = {
     width: W,
