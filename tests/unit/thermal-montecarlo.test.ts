@@ -97,6 +97,7 @@ describe('column Monte Carlo', () => {
     expect(s.p50).toBeLessThan(s.p90);
   });
 
+  // A property of the seeded streams (DEVELOPERS.md, randomness), not a check of a value.
   it('same seed → same result; another seed → different', () => {
     const m = base({ conductivityWmK: { dist: 'truncnormal', mean: 3, sd: 0.3, min: 2, max: 4 } }, { dist: 'normal', mean: 70, sd: 5 });
     const a = monteCarloColumn(m, { ...opts, realizations: 200 });
@@ -150,6 +151,8 @@ describe('grid Monte Carlo', () => {
     });
   }
 
+  // A consistency check between two paths of the project (the grid and the column Monte Carlo), not an outside check:
+  // the outside checks of both are the normal-quantile tests above and in products-uncertainty.test.ts.
   it('a cell with no heat-flow error matches the column Monte Carlo of the same model', () => {
     const prep = prepareGridMonteCarlo(spec('full'));
     const out = allocateGridMonteCarloOutput(cells, 2, 2);
