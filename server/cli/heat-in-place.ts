@@ -34,7 +34,7 @@ import {
 } from './simulation-input.ts';
 import { interpolateGrid } from '../../shared/interp/interpolate.ts';
 import { WGS84_DEF } from '../../shared/interp/projection.ts';
-import { SIMULATION_STREAM_OFFSET, simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
+import { followKrigedTrend, SIMULATION_STREAM_OFFSET, simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
 import { assessOnGrid } from '../io/resource-output.ts';
 import { renderText } from './heat-in-place-text.ts';
 
@@ -351,13 +351,14 @@ async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed:
     crossValidation: false,
     units: 'mW/m²',
   });
-  const sim = simulateRunHeatFlow(points, so, kr.grid, grid.crsDef ?? WGS84_DEF, realizations, seed);
+  const trend = followKrigedTrend(so.trend, kr.variogram?.trend?.kind);
+  const sim = simulateRunHeatFlow(points, { ...so, trend }, kr.grid, grid.crsDef ?? WGS84_DEF, realizations, seed);
   return {
     kriged: { grid: kr.grid, hash: sha256 },
     realizations: { values: sim.values, source: sim.source },
     report: {
       ...sim.report,
-      nominal: `the nominal run uses the kriged heat-flow grid (${(so.trend ?? 'none') === 'none' ? 'ordinary kriging' : `universal kriging, trend ${so.trend}`} of the values); p10/p50/p90 and mean come from the simulated fields`,
+      nominal: `the nominal run uses the kriged heat-flow grid (${(trend ?? 'none') === 'none' ? 'ordinary kriging' : `universal kriging, trend ${trend}`} of the values); p10/p50/p90 and mean come from the simulated fields`,
     },
     warnings: [...warnings, ...sim.warnings.map((w) => `heat-flow simulation: ${w}`), ...kr.warnings.map((w) => `kriged grid: ${w}`)],
   };

@@ -16,7 +16,7 @@ import type { PointData } from '../../shared/interp/interpolate.ts';
 import { simulateOnGrid, type SimulationOptions } from '../../shared/interp/simulateField.ts';
 import type { HeatFlowCentralValues, HeatFlowSimulationSummary } from '../../shared/schema/run.ts';
 import type { Anisotropy, VariogramModel, VariogramModelName } from '../../shared/interp/variogram.ts';
-import type { TrendKind } from '../../shared/interp/drift.ts';
+import type { DriftKind, TrendKind } from '../../shared/interp/drift.ts';
 
 /** Offset between a run's seed and the key of its heat-flow simulation streams. */
 export const SIMULATION_STREAM_OFFSET = 2 ** 32;
@@ -48,23 +48,37 @@ export interface RunSimulationOptions {
   faults?: number[][][] | null;
 }
 
-/** The run's interpolation options that its heat-flow simulation follows (IDW runs: the simulation's defaults). */
-export function runSimulationOptions(iopt: {
-  variogram?: RunSimulationOptions['variogram'];
-  anisotropy?: RunSimulationOptions['anisotropy'];
-  trend?: RunSimulationOptions['trend'];
-  /** none, auto or a cell side in km (the run request's interpolation.decluster). */
-  decluster?: 'none' | 'auto' | number;
-  neighbors?: number | 'all';
-  lagKm?: number;
-  maxLagKm?: number;
-  measurementError?: boolean;
-  method: string;
-}): RunSimulationOptions {
+/**
+ * The simulation's drift: with `trend: 'auto'`, the drift the deterministic kriging chose (`chosen`, its report's
+ * trend kind), so the kriged map and the realizations carry one drift rather than choosing separately.
+ */
+export function followKrigedTrend(trend: RunSimulationOptions['trend'], chosen: DriftKind | undefined): RunSimulationOptions['trend'] {
+  return trend === 'auto' && chosen !== undefined && chosen !== 'external' ? chosen : trend;
+}
+
+/**
+ * The run's interpolation options that its heat-flow simulation follows (IDW runs: the simulation's defaults);
+ * `chosenTrend` is the drift the run's kriging chose (see followKrigedTrend).
+ */
+export function runSimulationOptions(
+  iopt: {
+    variogram?: RunSimulationOptions['variogram'];
+    anisotropy?: RunSimulationOptions['anisotropy'];
+    trend?: RunSimulationOptions['trend'];
+    /** none, auto or a cell side in km (the run request's interpolation.decluster). */
+    decluster?: 'none' | 'auto' | number;
+    neighbors?: number | 'all';
+    lagKm?: number;
+    maxLagKm?: number;
+    measurementError?: boolean;
+    method: string;
+  },
+  chosenTrend?: DriftKind,
+): RunSimulationOptions {
   return {
     variogram: iopt.variogram,
     anisotropy: iopt.anisotropy ?? null,
-    trend: iopt.method === 'kriging' ? iopt.trend : undefined,
+    trend: iopt.method === 'kriging' ? followKrigedTrend(iopt.trend, chosenTrend) : undefined,
     declustering: typeof iopt.decluster === 'number' ? { cellKm: iopt.decluster } : iopt.decluster,
     neighbors: iopt.method === 'kriging' ? iopt.neighbors : undefined,
     lagKm: iopt.lagKm,

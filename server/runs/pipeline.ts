@@ -276,7 +276,14 @@ async function simulateHeatFlow(
   tracker.report('simulate', 0, `simulating ${N} heat-flow fields conditioned on ${inp.points.ids.length} sites`);
   await between(options.signal);
   const t0 = now();
-  const sim = simulateRunHeatFlow(inp.points, { ...runSimulationOptions(inp.interpolation), faults: inp.faults }, interp.grid, inp.crsDef, N, inp.seed);
+  const sim = simulateRunHeatFlow(
+    inp.points,
+    { ...runSimulationOptions(inp.interpolation, interp.variogram?.trend?.kind), faults: inp.faults },
+    interp.grid,
+    inp.crsDef,
+    N,
+    inp.seed,
+  );
   timingsMs.simulate = now() - t0;
   warnings.push(...sim.warnings.map((w) => `heat-flow simulation: ${w}`));
   tracker.finish('simulate', `${N} heat-flow fields simulated`);

@@ -25,6 +25,7 @@ import { interpolationOptionsSchema, pointsFromGeoJson } from '../../shared/sche
 import type { Store } from '../store/types.ts';
 import { runSimulationOptions, simulateRunHeatFlow } from './heat-flow-simulation.ts';
 import { faultLines } from './run-inputs.ts';
+import type { DriftKind } from '../../shared/interp/drift.ts';
 
 export interface RunRealizations {
   /** Number of realizations. */
@@ -148,7 +149,8 @@ interface StoredMonteCarlo {
   realizations?: number;
   seed?: number;
   heatFlowErrorCorrelation?: 'full' | 'independent' | null;
-  heatFlowSimulation?: { checksum?: number; faultBarriers?: boolean };
+  /** trend: the drift the stored realizations carried; the re-simulation takes the same. */
+  heatFlowSimulation?: { checksum?: number; faultBarriers?: boolean; trend?: DriftKind };
 }
 
 /** Reads what a finished run's realizations are built from (store reads only; no computation). */
@@ -234,7 +236,7 @@ export async function realizationsFromRecord(rec: RunRecord, opts: { realization
     const iopt = interpolationOptionsSchema.parse(request.interpolation);
     const { points } = pointsFromGeoJson(JSON.parse(rec.sitesBody), 'heatFlowMWm2', { source: `data set of run ${runId}` });
     const faults = rec.faultsBody === null ? null : faultLines(parseFeatureCollection('faults', JSON.parse(rec.faultsBody)).collection.features);
-    const sim = simulateRunHeatFlow(points, { ...runSimulationOptions(iopt), faults }, heatFlow, crsDef, N, seed);
+    const sim = simulateRunHeatFlow(points, { ...runSimulationOptions(iopt, stored.trend), faults }, heatFlow, crsDef, N, seed);
     // Realization 0 does not depend on the count: the same sum proves the same fields.
     if (stored.checksum !== undefined && !(Math.abs(sim.checksum - stored.checksum) <= 1e-9 * Math.max(1, Math.abs(stored.checksum)))) {
       throw new InputError(

@@ -91,6 +91,8 @@ describe('runs with the real pipeline', () => {
     const rmses = trend.candidates!.filter((c) => c.cvRmse !== null).map((c) => c.cvRmse!);
     expect(summary.crossValidation!.rmse).toBe(Math.min(...rmses));
     expect(trend.candidates!.find((c) => c.kind === trend.kind)!.cvRmse).toBe(summary.crossValidation!.rmse);
+    // One drift for the run: the realizations are conditioned with the drift the kriged map chose, not a second choice.
+    expect(sim.trend).toBe(trend.kind);
     const bad = await post('/api/runs', { ...REQUEST, seed: 14, interpolation: { method: 'kriging', trend: 'cubic' } });
     expect(bad.status).toBe(422);
     expect(await bad.text()).toContain('"field":"trend"');
