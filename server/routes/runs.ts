@@ -9,6 +9,7 @@ import { InputError } from '../../shared/errors.ts';
 import { kmPerDegree } from '../../shared/interp/projection.ts';
 import { RUN_EVENTS, runRequestSchema, type RunLayerInfo, type RunRequest } from '../../shared/schema/run.ts';
 import { interpolationOptionsSchema } from '../../shared/schema/interp.ts';
+import { requireDeclusterWithTransform } from '../runs/heat-flow-simulation.ts';
 import { VERSION } from '../../shared/version.ts';
 import { isTerminal, type RunSnapshot } from '../runs/jobs.ts';
 import { parseModelDocument } from '../../shared/products/model-input.ts';
@@ -104,7 +105,7 @@ export async function submitRun(
   requireRunInputs(body);
   const request = parseWith(runRequestSchema, body, 'run request', 'invalid_run');
   // The engines' own options are validated here too, so a mistake is a 422 now rather than a failed run later.
-  parseWith(interpolationOptionsSchema, request.interpolation, 'interpolation options', 'invalid_run');
+  requireDeclusterWithTransform(parseWith(interpolationOptionsSchema, request.interpolation, 'interpolation options', 'invalid_run'));
   if (request.maskToRegion && request.regions === undefined) {
     throw new InputError('maskToRegion needs a regions data set', [{ field: 'regions', problem: 'missing (maskToRegion is set)' }], 'invalid_run');
   }

@@ -49,6 +49,19 @@ export interface RunSimulationOptions {
 }
 
 /**
+ * Refuses a run request whose interpolation declusters with a fixed variogram: a fixed variogram is in heat-flow
+ * units, so the simulation has no normal-score transform, and declustering weights only that transform's histogram.
+ */
+export function requireDeclusterWithTransform(iopt: { variogram?: unknown; decluster?: 'none' | 'auto' | number }): void {
+  if (iopt.decluster === undefined || iopt.decluster === 'none' || typeof iopt.variogram !== 'object' || iopt.variogram === null) return;
+  throw new InputError(
+    `interpolation.decluster ${String(iopt.decluster)} cannot apply: declustering weights the histogram of the simulation's normal-score transform, and a run with a fixed variogram (heat-flow units) simulates the values without that transform`,
+    [{ field: 'interpolation.decluster', problem: "drop it, or use variogram 'auto' or a model name so the realizations go through normal scores" }],
+    'invalid_run',
+  );
+}
+
+/**
  * The simulation's drift: with `trend: 'auto'`, the drift the deterministic kriging chose (`chosen`, its report's
  * trend kind), so the kriged map and the realizations carry one drift rather than choosing separately.
  */

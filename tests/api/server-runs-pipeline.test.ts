@@ -96,6 +96,13 @@ describe('runs with the real pipeline', () => {
     const bad = await post('/api/runs', { ...REQUEST, seed: 14, interpolation: { method: 'kriging', trend: 'cubic' } });
     expect(bad.status).toBe(422);
     expect(await bad.text()).toContain('"field":"trend"');
+    // Declustering weights only the normal-score histogram; a fixed variogram simulates heat flow without it: refused.
+    const fixed = { model: 'spherical', nugget: 2, partialSill: 40, rangeKm: 60 };
+    const dc = await post('/api/runs', { ...REQUEST, seed: 15, realizations: 4, interpolation: { method: 'kriging', variogram: fixed, decluster: 'auto' } });
+    expect(dc.status).toBe(422);
+    const dcBody = (await dc.json()) as { error: { message: string; details: { field: string }[] } };
+    expect(dcBody.error.details[0].field).toBe('interpolation.decluster');
+    expect(dcBody.error.message).toMatch(/normal-score transform/);
   }, 90_000);
 
   it('serves raster-dem tiles of a run layer and a heat-in-place report over the run (mounted sub-apps)', async () => {

@@ -117,7 +117,9 @@ describe('subtherm simulate', () => {
       expect(bad.json.error.details[0].field).toBe(flag.slice(2));
     }
     const noTransform = await run([...base, '--decluster', 'auto', '--transform', 'none']);
+    expect(noTransform.code).toBe(2);
     expect(noTransform.json.error.details[0].field).toBe('decluster');
+    expect(noTransform.json.error.message).toMatch(/normal-score transform/);
   });
 
   it('bad input: exit 2 naming the value and the limit; nothing written', async () => {
