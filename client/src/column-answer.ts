@@ -26,6 +26,16 @@ export interface SolidusReached {
   curve?: string;
 }
 
+/** A layer of the model the column was computed with (at a run's point, the override region's there). */
+export interface ColumnLayer {
+  name: string;
+  topKm: number;
+  bottomKm: number;
+  rock: string;
+  wetSolidus: string;
+  drySolidus: string;
+}
+
 export interface ColumnAnswer {
   surfaceHeatFlowMWm2?: number;
   heatFlowSdMWm2?: number | null;
@@ -42,6 +52,8 @@ export interface ColumnAnswer {
   validToKm?: number | null;
   invalidBelow?: string | null;
   profile: ColumnPoint[];
+  /** The model's layers top down, with each rock's solidus curves. */
+  layers?: ColumnLayer[];
   band?: {
     depthKm: number[];
     temperatureC: { p10: (number | null)[]; p50: (number | null)[]; p90: (number | null)[] };

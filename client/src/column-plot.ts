@@ -24,25 +24,6 @@ const FACIES_TINTS: Record<string, string> = {
   hornfels: '#efe6d6',
 };
 
-/** A layer of the model the column was computed with: its depth range (km) and rock kind. */
-export interface PlotLayer {
-  name: string;
-  topKm: number;
-  bottomKm: number;
-  rock: RockKind;
-}
-
-/** The layers of a thermal model (its `rock`, absent = `felsic-crust`), for the rock-aware solidus curves. */
-export function modelLayers(model: { layers: { name?: string; bottomKm: number; rock?: RockKind }[] } | null | undefined): PlotLayer[] | null {
-  if (!model || !Array.isArray(model.layers)) return null;
-  let top = 0;
-  return model.layers.map((l, i) => {
-    const out = { name: l.name ?? `layer ${i + 1}`, topKm: top, bottomKm: l.bottomKm, rock: l.rock ?? 'felsic-crust' };
-    top = l.bottomKm;
-    return out;
-  });
-}
-
 /** Short names of the solidus curves for the plot's labels (the table and warnings give the full names and sources). */
 const SOLIDUS_SHORT: Record<string, string> = {
   'wet-granite': 'wet granite',
@@ -93,12 +74,13 @@ function faciesFields(c: ColumnAnswer, f: PlotFrame): SVGGElement {
  * Each layer's two solidus curves, drawn only over that layer's depths (T at the lithostatic pressure of each depth):
  * the water-saturated one dashed, the fluid-absent or dry one dotted; one label per curve, spread so none overlaps.
  */
-function solidusCurves(c: ColumnAnswer, f: PlotFrame, layers: PlotLayer[] | null): SVGElement[] {
+function solidusCurves(c: ColumnAnswer, f: PlotFrame): SVGElement[] {
   const out: SVGElement[] = [];
   const labels: { x: number; y: number; text: string; cls: string }[] = [];
   const seen = new Set<string>();
-  for (const layer of layers ?? []) {
-    const pair = ROCK_SOLIDUS[layer.rock];
+  for (const layer of c.layers ?? []) {
+    const pair = Object.hasOwn(ROCK_SOLIDUS, layer.rock) ? ROCK_SOLIDUS[layer.rock as RockKind] : undefined;
+    if (!pair) continue;
     for (const [curve, cls] of [
       [pair.wet, 'wet'],
       [pair.dry, 'dry'],
@@ -208,10 +190,11 @@ function isothermMarks(c: ColumnAnswer, f: PlotFrame): SVGElement[] {
 }
 
 /**
- * Builds the plot and its readout. `layers` (the column's model, modelLayers) chooses each depth's solidus curves;
- * without it no solidus curve is drawn (the crossings are still marked and listed).
+ * Builds the plot and its readout. The answer's `layers` (the model the column was computed with, at a run's point
+ * the override region's) choose each depth's solidus curves; without them no solidus curve is drawn (the crossings
+ * are still marked and listed).
  */
-export function columnPlot(c: ColumnAnswer, layers: PlotLayer[] | null = null): { plot: SVGSVGElement; readout: HTMLElement } {
+export function columnPlot(c: ColumnAnswer): { plot: SVGSVGElement; readout: HTMLElement } {
   const { zMax, tMax } = plotWindow(c);
   const pw = W - M.left - M.right,
     ph = H - M.top - M.bottom;
@@ -240,7 +223,7 @@ export function columnPlot(c: ColumnAnswer, layers: PlotLayer[] | null = null): 
     ),
   );
   const plotArea = svg('g', { 'clip-path': `url(#clip-${uid})` });
-  plotArea.append(faciesFields(c, f), ...solidusCurves(c, f, layers), ...geotherm(c, f), ...limitMarks(c, f, `hatch-${uid}`), ...isothermMarks(c, f));
+  plotArea.append(faciesFields(c, f), ...solidusCurves(c, f), ...geotherm(c, f), ...limitMarks(c, f, `hatch-${uid}`), ...isothermMarks(c, f));
   root.append(plotArea, axes(c, f, columnDepthKm(c)));
   return { plot: root, readout: cursorReadout(root, c, f) };
 }

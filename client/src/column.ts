@@ -10,7 +10,7 @@ import { ApiError, sendJson } from './api.ts';
 import { message, type AppContext } from './context.ts';
 import { el, errorBox, replace } from './dom.ts';
 import { columnSummary, type ColumnAnswer } from './inspector.ts';
-import { columnPlot, modelLayers } from './column-plot.ts';
+import { columnPlot } from './column-plot.ts';
 import type { FeatureCollection } from './structure.ts';
 
 /** The nearest site counts as "at" a clicked point within this distance, km; beyond it the model's value is used. */
@@ -87,13 +87,6 @@ export function columnPanel(ctx: AppContext, deps: { model: () => ThermalModelIn
   );
   const marker = new Marker({ color: '#d4462c', scale: 0.7 });
 
-  /** The model a column is computed with: the request's own, a run's (when its request holds one), else the editor's. */
-  const columnModel = (request: Record<string, unknown>): ThermalModelInput | null => {
-    if (request.model !== null && typeof request.model === 'object') return request.model as ThermalModelInput;
-    const runModel = ctx.app.run?.run.request?.model;
-    return runModel !== null && typeof runModel === 'object' ? (runModel as ThermalModelInput) : deps.model();
-  };
-
   const requestFor = (lon: number, lat: number): { request: Record<string, unknown>; source: string } | null => {
     const run = ctx.app.run?.run;
     const axis: Record<string, unknown> = { isothermsC: ctx.state.params.isothermsC, depthsKm: ctx.state.params.depthsKm };
@@ -121,7 +114,7 @@ export function columnPanel(ctx: AppContext, deps: { model: () => ThermalModelIn
     try {
       const answer = await sendJson<ColumnAnswer>('POST', '/api/column', req.request);
       ctx.app.lastColumn = { request: req.request, answer };
-      const { plot, readout } = columnPlot(answer, modelLayers(columnModel(req.request)));
+      const { plot, readout } = columnPlot(answer);
       replace(
         body,
         el('h3', {}, `Column at ${lon.toFixed(4)}°, ${lat.toFixed(4)}°`),

@@ -9,8 +9,9 @@ import { CAUTION } from '../caution.ts';
 import { InputError } from '../errors.ts';
 import { classifyFacies } from '../petrology/index.ts';
 import type { Distribution } from '../random/distributions.ts';
-import type { ColumnAnswer, MaybeUncertain, Uncertain } from '../schema/column.ts';
-import type { ThermalModelInput } from '../schema/model.ts';
+import { ROCK_SOLIDUS } from '../petrology/solidus.ts';
+import type { ColumnAnswer, ColumnLayer, MaybeUncertain, Uncertain } from '../schema/column.ts';
+import { ROCK_KINDS, type ThermalModelInput } from '../schema/model.ts';
 import {
   COLUMN_CONDUCTIVITY_UNDEFINED,
   COLUMN_FLOW_EXHAUSTED,
@@ -171,6 +172,7 @@ export function computeColumn(q: ColumnQuery): ColumnAnswer {
     isothermDepthsKm,
     temperatureAtDepthsC: Object.fromEntries(q.depthsKm.map((z) => [String(z), num(limitedTemperature(cm, st, limits, z))])),
     profile,
+    layers: columnLayers(cm),
     basalHeatFlowMWm2: num(prof.basalHeatFlowMWm2),
     reducedHeatFlowMWm2: num(prof.reducedHeatFlowMWm2),
     reducedHeatFlowMethod: reducedMethod(cm),
@@ -192,6 +194,15 @@ export function computeColumn(q: ColumnQuery): ColumnAnswer {
       profile.map((p) => p.depthKm),
     );
   return out;
+}
+
+/** The layers of a compiled model with their rock kinds and solidus curves (the last one reaches the column's bottom). */
+function columnLayers(cm: CompiledModel): ColumnLayer[] {
+  return cm.names.map((name, i) => {
+    const rock = ROCK_KINDS[cm.rock[i]];
+    const pair = ROCK_SOLIDUS[rock];
+    return { name, topKm: r6(cm.topKm[i]), bottomKm: r6(cm.bottomKm[i]), rock, wetSolidus: pair.wet.id, drySolidus: pair.dry.id };
+  });
 }
 
 /** The answer's fields that describe where the conductive column ends (from `limitsToJson`). */

@@ -42,6 +42,21 @@ export const columnPointSchema = z.object({
 const solidusCurveSchema = z.object({ layer: z.string(), rock: z.string(), curve: z.string(), label: z.string(), source: z.string() }).nullable();
 export type ColumnPoint = z.infer<typeof columnPointSchema>;
 
+/**
+ * A layer of the model the column was computed with (at a run's point, the model of the override region there): its
+ * depth range (km; the last layer reaches the bottom of the column), rock kind and that rock's two solidus curves.
+ */
+export const columnLayerSchema = z.object({
+  name: z.string(),
+  topKm: z.number(),
+  bottomKm: z.number(),
+  rock: z.string(),
+  /** Ids of the rock's water-saturated and fluid-absent/dry solidus curves (shared/petrology/solidus.ts). */
+  wetSolidus: z.string(),
+  drySolidus: z.string(),
+});
+export type ColumnLayer = z.infer<typeof columnLayerSchema>;
+
 export const columnMonteCarloSchema = z.object({
   realizations: z.number().int(),
   seed: z.number().int(),
@@ -64,6 +79,8 @@ export const columnAnswerSchema = z.object({
   isothermDepthsKm: z.record(z.string(), maybeUncertainSchema),
   temperatureAtDepthsC: z.record(z.string(), maybeUncertainSchema),
   profile: z.array(columnPointSchema),
+  /** The layers of the model the column was computed with, top down. */
+  layers: z.array(columnLayerSchema),
   basalHeatFlowMWm2: maybeUncertainSchema,
   reducedHeatFlowMWm2: maybeUncertainSchema,
   reducedHeatFlowMethod: z.string(),

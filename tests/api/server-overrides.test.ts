@@ -4,6 +4,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { DEMO_DIR } from '../../server/demo.ts';
+import { ROCK_SOLIDUS } from '../../shared/petrology/solidus.ts';
 import { readGeoTiff } from '../../server/io/geotiff.ts';
 import { cellIndexFromXY, xFromCol, yFromRow } from '../../shared/grid/grid.ts';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
@@ -97,5 +98,58 @@ describe('model overrides in columns and sections', () => {
     ).json()) as { modelZone: (string | null)[] };
     expect(sec.modelZone[0]).toBeNull();
     expect(sec.modelZone[sec.modelZone.length - 1]).toBe('regions[0] (basin)');
+  }, 60_000);
+  it("a column inside a region that changes a layer's rock reports that rock's solidus curves", async () => {
+    // The demo model's lower crust (25–35 km) is mafic; this invented region makes it felsic.
+    const regions = {
+      type: 'FeatureCollection',
+      features: [
+        {
+          type: 'Feature',
+          geometry: {
+            type: 'Polygon',
+            coordinates: [
+              [
+                [-127.6, -38.6],
+                [-127.0, -38.6],
+                [-127.0, -38.1],
+                [-127.6, -38.1],
+                [-127.6, -38.6],
+              ],
+            ],
+          },
+          properties: { id: 'felsic root', layers: [{ name: 'lower crust', rock: 'felsic-crust' }] },
+        },
+      ],
+    };
+    const up = await post('/api/datasets?kind=regions', regions);
+    expect(up.status).toBe(201);
+    const regionsId = ((await up.json()) as { id: string }).id;
+    const res = await post('/api/runs', { sites: 'demo-sites', model: 'demo-model', regions: regionsId, isothermsC: [300], grid: { cellKm: 8 } });
+    const id = ((await res.json()) as { id: string }).id;
+    expect((await t.waitEnd(id)).status).toBe('done');
+    type Layer = { name: string; topKm: number; bottomKm: number; rock: string; wetSolidus: string; drySolidus: string };
+    const lowerCrust = async (lon: number, lat: number) => {
+      const r = await post('/api/column', { runId: id, lon, lat, maxDepthKm: 40 });
+      const col = (await r.json()) as { modelRegion: string | null; layers: Layer[] };
+      expect(r.status, JSON.stringify(col)).toBe(200);
+      return { region: col.modelRegion, layer: col.layers.find((l) => l.name === 'lower crust')! };
+    };
+    const inside = await lowerCrust(-127.3, -38.35);
+    const outside = await lowerCrust(-128.4, -37.6);
+    expect(inside.region).toBe('regions[0] (felsic root)');
+    expect(outside.region).toBeNull();
+    expect(inside.layer).toMatchObject({ topKm: 25, bottomKm: 35, rock: 'felsic-crust', wetSolidus: 'wet-granite', drySolidus: 'fluid-absent-felsic' });
+    expect(outside.layer).toMatchObject({ topKm: 25, bottomKm: 35, rock: 'mafic-crust', wetSolidus: 'wet-basalt', drySolidus: 'dry-basalt' });
+    // The curve named inside is the water-saturated granite solidus: near 680 °C at 2 kbar and 620 °C at 10 kbar
+    // (docs/sources.md#solidus-granite-wet); outside, the water-saturated gabbro one, near 720 °C at 2 kbar
+    // (docs/sources.md#solidus-other-rocks, from memory).
+    const curve = (cid: string) =>
+      Object.values(ROCK_SOLIDUS)
+        .flatMap((p) => [p.wet, p.dry])
+        .find((c) => c.id === cid)!;
+    expect(curve(inside.layer.wetSolidus).temperatureC(200)).toBeCloseTo(680, -1);
+    expect(curve(inside.layer.wetSolidus).temperatureC(1000)).toBeCloseTo(620, -1);
+    expect(curve(outside.layer.wetSolidus).temperatureC(200)).toBeCloseTo(720, -1);
   }, 60_000);
 });
