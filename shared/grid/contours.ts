@@ -86,21 +86,11 @@ const SADDLE_10_CENTRE_ABOVE = [0, 1, 3, 2]; // tl and br joined: cut off tr and
 const SADDLE_10_CENTRE_BELOW = [3, 0, 2, 1]; // tl and br isolated
 
 /**
- * Isolines of several levels in one pass (marching squares with linear interpolation along square sides, the
- * method d3-contour uses; here written to give open lines directly). Each square is the one between four cell
- * centres (col, row) … (col + 1, row + 1), whose samples sit at index coordinates (col + 0.5, row + 0.5); a square
- * with a NaN or infinite corner draws nothing, so no line ever runs along no data or the grid border. Each square
- * is visited once, and only the levels within its corners' range are traced: the cost is cells + segments, not
- * cells × levels. Pieces are joined into polylines through their shared side crossings; a chain that meets itself
- * is closed (first point = last). A sample exactly equal to a level counts as above it (≥), as in d3-contour.
- * Returns one list of index-space lines per level, in the order of `levels`.
+ * Marching-squares segments per level (levels sorted ascending): the crossing points' side ids, two per segment.
+ * Side id of the horizontal side from sample (c, r) to (c + 1, r): 2·(r·width + c); of the vertical side from (c, r)
+ * to (c, r + 1): 2·(r·width + c) + 1.
  */
-export function isolinesIndexLevels(values: ArrayLike<number>, width: number, height: number, levels: readonly number[]): IndexLine[][] {
-  const nL = levels.length;
-  const order = levels.map((_, i) => i).sort((i, j) => levels[i] - levels[j]);
-  const sorted = order.map((i) => levels[i]);
-  // Per level: the crossing points' side ids, two per segment. Side id of the horizontal side from sample (c, r) to
-  // (c + 1, r): 2·(r·width + c); of the vertical side from (c, r) to (c, r + 1): 2·(r·width + c) + 1.
+function segmentsByLevel(values: ArrayLike<number>, width: number, height: number, sorted: readonly number[]): number[][] {
   const segs: number[][] = sorted.map(() => []);
   const fin = (v: number) => v === v && v !== Infinity && v !== -Infinity;
   for (let r = 0; r + 1 < height; r++) {
@@ -135,70 +125,94 @@ export function isolinesIndexLevels(values: ArrayLike<number>, width: number, he
       }
     }
   }
-  // The index-space point where a level crosses a side (linear interpolation between its two samples).
-  const point = (id: number, L: number): [number, number] => {
-    const cell = id >> 1;
-    const r = Math.floor(cell / width),
-      c = cell - r * width;
-    const v0 = values[cell];
-    if ((id & 1) === 0) {
-      const v1 = values[cell + 1];
-      return [c + 0.5 + (L - v0) / (v1 - v0), r + 0.5];
-    }
-    const v1 = values[cell + width];
-    return [c + 0.5, r + 0.5 + (L - v0) / (v1 - v0)];
+  return segs;
+}
+
+/** The index-space point where level L crosses a side (linear interpolation between its two samples). */
+function sidePoint(values: ArrayLike<number>, width: number, id: number, L: number): [number, number] {
+  const cell = id >> 1;
+  const r = Math.floor(cell / width),
+    c = cell - r * width;
+  const v0 = values[cell];
+  if ((id & 1) === 0) {
+    const v1 = values[cell + 1];
+    return [c + 0.5 + (L - v0) / (v1 - v0), r + 0.5];
+  }
+  const v1 = values[cell + width];
+  return [c + 0.5, r + 0.5 + (L - v0) / (v1 - v0)];
+}
+
+/**
+ * Joins one level's segments (side ids, two per segment) into polylines through their shared side crossings: open
+ * chains first, from an end whose side crossing has no second segment; then the closed loops.
+ */
+function joinSegments(s: readonly number[], point: (id: number) => [number, number]): IndexLine[] {
+  // Each side crossing joins at most two segments (its two squares); link them.
+  const first = new Map<number, number>(),
+    second = new Map<number, number>();
+  for (let j = 0; j < s.length; j++) {
+    if (first.has(s[j])) second.set(s[j], j);
+    else first.set(s[j], j);
+  }
+  const used = new Uint8Array(s.length >> 1);
+  const lines: IndexLine[] = [];
+  const other = (id: number, j: number) => {
+    const a = first.get(id)!,
+      b = second.get(id);
+    const n = a === j ? b : a;
+    return n === undefined || n === j ? -1 : n;
   };
-  const result: IndexLine[][] = new Array<IndexLine[]>(nL);
+  const trace = (j0: number, startEnd: number) => {
+    // Walk from segment j0, entering at its end `startEnd` (0 or 1), until the chain ends or closes.
+    const ids: number[] = [];
+    let j = j0,
+      e = startEnd;
+    ids.push(s[2 * j + e]);
+    for (;;) {
+      used[j] = 1;
+      const exit = s[2 * j + (1 - e)];
+      ids.push(exit);
+      const n = other(exit, 2 * j + (1 - e));
+      if (n < 0) break;
+      const nj = n >> 1;
+      if (used[nj]) break;
+      j = nj;
+      e = n & 1;
+    }
+    const line: IndexLine = [];
+    for (const id of ids) {
+      const p = point(id);
+      const last = line[line.length - 1];
+      if (last === undefined || last[0] !== p[0] || last[1] !== p[1]) line.push(p);
+    }
+    if (line.length >= 2) lines.push(line);
+  };
+  for (let j = 0; j < s.length; j++) {
+    if (used[j >> 1] || second.has(s[j])) continue;
+    trace(j >> 1, j & 1);
+  }
+  for (let j = 0; j < used.length; j++) if (!used[j]) trace(j, 0);
+  return lines;
+}
+
+/**
+ * Isolines of several levels in one pass (marching squares with linear interpolation along square sides, the
+ * method d3-contour uses; here written to give open lines directly). Each square is the one between four cell
+ * centres (col, row) … (col + 1, row + 1), whose samples sit at index coordinates (col + 0.5, row + 0.5); a square
+ * with a NaN or infinite corner draws nothing, so no line ever runs along no data or the grid border. Each square
+ * is visited once, and only the levels within its corners' range are traced: the cost is cells + segments, not
+ * cells × levels. Pieces are joined into polylines through their shared side crossings; a chain that meets itself
+ * is closed (first point = last). A sample exactly equal to a level counts as above it (≥), as in d3-contour.
+ * Returns one list of index-space lines per level, in the order of `levels`.
+ */
+export function isolinesIndexLevels(values: ArrayLike<number>, width: number, height: number, levels: readonly number[]): IndexLine[][] {
+  const order = levels.map((_, i) => i).sort((i, j) => levels[i] - levels[j]);
+  const sorted = order.map((i) => levels[i]);
+  const segs = segmentsByLevel(values, width, height, sorted);
+  const result: IndexLine[][] = new Array<IndexLine[]>(levels.length);
   for (let k = 0; k < sorted.length; k++) {
     const L = sorted[k];
-    const s = segs[k];
-    // Each side crossing joins at most two segments (its two squares); link them.
-    const first = new Map<number, number>(),
-      second = new Map<number, number>();
-    for (let j = 0; j < s.length; j++) {
-      if (first.has(s[j])) second.set(s[j], j);
-      else first.set(s[j], j);
-    }
-    const used = new Uint8Array(s.length >> 1);
-    const lines: IndexLine[] = [];
-    const other = (id: number, j: number) => {
-      const a = first.get(id)!,
-        b = second.get(id);
-      const n = a === j ? b : a;
-      return n === undefined || n === j ? -1 : n;
-    };
-    const trace = (j0: number, startEnd: number) => {
-      // Walk from segment j0, entering at its end `startEnd` (0 or 1), until the chain ends or closes.
-      const ids: number[] = [];
-      let j = j0,
-        e = startEnd;
-      ids.push(s[2 * j + e]);
-      for (;;) {
-        used[j] = 1;
-        const exit = s[2 * j + (1 - e)];
-        ids.push(exit);
-        const n = other(exit, 2 * j + (1 - e));
-        if (n < 0) break;
-        const nj = n >> 1;
-        if (used[nj]) break;
-        j = nj;
-        e = n & 1;
-      }
-      const line: IndexLine = [];
-      for (const id of ids) {
-        const p = point(id, L);
-        const last = line[line.length - 1];
-        if (last === undefined || last[0] !== p[0] || last[1] !== p[1]) line.push(p);
-      }
-      if (line.length >= 2) lines.push(line);
-    };
-    // Open chains first, from an end whose side crossing has no second segment; then the closed loops.
-    for (let j = 0; j < s.length; j++) {
-      if (used[j >> 1] || second.has(s[j])) continue;
-      trace(j >> 1, j & 1);
-    }
-    for (let j = 0; j < used.length; j++) if (!used[j]) trace(j, 0);
-    result[order[k]] = lines;
+    result[order[k]] = joinSegments(segs[k], (id) => sidePoint(values, width, id, L));
   }
   return result;
 }

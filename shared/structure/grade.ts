@@ -228,6 +228,130 @@ export interface GradeInput {
   peakPressureKbar?: number;
 }
 
+/** What one sample says of its grade, read before it is placed on the Barrovian scale. */
+interface SampleReading {
+  s: GradeInput;
+  label: string;
+  /** Rank of its Barrovian zone, or −1; rank of its low-pressure zone (when not Barrovian), or −1. */
+  zr: number;
+  lr: number;
+  /** Rank interval of a known facies (null off the Barrovian sequence), and whether the facies is known. */
+  fi: [number, number] | null;
+  facOk: boolean;
+  pk: PeakGrade | null;
+}
+
+/** Reads one sample's zone, facies and peak P–T; unknown names and a sample with no grade field go to `problems`. */
+function readSample(s: GradeInput, i: number, problems: InputProblem[], off: string[], calibration: AluminosilicateCalibration): SampleReading {
+  const label = `${i} (${s.id})`;
+  let zr = -1,
+    lr = -1,
+    fi: [number, number] | null = null,
+    facOk = false;
+  if (s.zone !== undefined) {
+    zr = zoneRank(s.zone);
+    if (zr < 0) lr = lowPressureZoneRank(s.zone);
+    const problem = zoneNameProblem(s.zone);
+    if (problem !== null) problems.push({ feature: label, field: 'properties.zone', problem });
+  }
+  if (s.facies !== undefined) {
+    const n = normalizeName(s.facies).replace(/-facies$/, '');
+    if (!(FACIES_NAMES as readonly string[]).includes(n)) {
+      const hint = nearestName(n, FACIES_NAMES);
+      problems.push({
+        feature: label,
+        field: 'properties.facies',
+        problem: `unknown facies '${s.facies}'${hint !== null ? ` (did you mean '${hint}'?)` : ''}; expected one of ${FACIES_NAMES.join(', ')}`,
+      });
+    } else {
+      facOk = true;
+      fi = faciesRankInterval(n);
+      if (fi === null && s.zone === undefined) off.push(s.id);
+    }
+  }
+  const t = s.peakTemperatureC,
+    p = s.peakPressureKbar;
+  const hasPeak = Number.isFinite(t) && Number.isFinite(p);
+  if (s.zone === undefined && s.facies === undefined && !hasPeak) {
+    problems.push({ feature: label, field: 'properties.zone', problem: 'a grade sample needs a zone, a facies, or peakTemperatureC with peakPressureKbar' });
+  }
+  const pk = hasPeak ? peakGrade(t as number, p as number, calibration) : null;
+  return { s, label, zr, lr, fi, facOk, pk };
+}
+
+/** The grade of a sample that names a zone (Barrovian, low-pressure or unknown); null when it names none. */
+function zoneGrade(r: SampleReading, warnings: string[], lowSeries: string[]): SampleGrade | null {
+  const { s, label, zr, lr, fi, pk } = r;
+  if (zr >= 0) {
+    if (fi !== null && (zr < fi[0] || zr > fi[1]))
+      warnings.push(
+        `sample ${label}: zone ${ZONE_NAMES[zr]} is outside the range its facies ${s.facies} suggests (${ZONE_NAMES[fi[0]]}–${ZONE_NAMES[fi[1]]}); the zone is used`,
+      );
+    if (pk !== null && pk.lo >= 0 && (pk.series !== 'barrovian' || zr < pk.lo || zr > pk.hi))
+      warnings.push(
+        `sample ${label}: zone ${ZONE_NAMES[zr]} disagrees with its peak P–T ${s.peakTemperatureC} °C, ${s.peakPressureKbar} kbar (${pk.label}); the zone is used`,
+      );
+    return { id: s.id, lo: zr, hi: zr, source: 'zone', zone: ZONE_NAMES[zr], series: 'barrovian', label: ZONE_NAMES[zr] };
+  }
+  if (lr >= 0) {
+    // A zone of the low-pressure scale: decides biotite-in only on the Barrovian scale.
+    const lo = lr >= 1 ? 1 : 0,
+      hi = lr >= 1 ? MAX_RANK : 0;
+    lowSeries.push(s.id);
+    return { id: s.id, lo, hi, source: 'zone', zone: null, series: 'low-pressure', label: `${LOW_PRESSURE_ZONE_NAMES[lr]} (low-pressure series)` };
+  }
+  if (s.zone !== undefined) return { id: s.id, lo: -1, hi: -1, source: 'none', zone: null, series: null, label: null };
+  return null;
+}
+
+/** The grade of a sample without a zone: from its facies, its peak P–T, or their intersection when both are given. */
+function faciesPeakGrade(r: SampleReading, warnings: string[], lowSeries: string[]): SampleGrade {
+  const { s, label, fi, facOk, pk } = r;
+  let lo = -1,
+    hi = -1,
+    source: GradeSource = 'none';
+  let series: GradeSeries | null = null,
+    glabel: string | null = null;
+  if (facOk && fi !== null) {
+    lo = fi[0];
+    hi = fi[1];
+    source = 'facies';
+    series = 'barrovian';
+    glabel = range(ZONE_NAMES, lo, hi);
+  }
+  let polymorph: Aluminosilicate | undefined;
+  if (pk !== null) {
+    if (pk.message !== null)
+      warnings.push(`sample ${label}: ${pk.message}; it takes no part in the isograds${source === 'facies' ? ' beyond its facies' : ''}`);
+    else {
+      polymorph = pk.aluminosilicate ?? undefined;
+      if (pk.series === 'low-pressure') lowSeries.push(s.id);
+      if (source === 'none' || pk.series === 'low-pressure') {
+        lo = pk.lo;
+        hi = pk.hi;
+      } else {
+        // Both: the intersection when they overlap, else the P–T estimate (measured) with a warning.
+        const a = Math.max(lo, pk.lo),
+          b = Math.min(hi, pk.hi);
+        if (a <= b) {
+          lo = a;
+          hi = b;
+        } else {
+          warnings.push(`sample ${label}: facies ${s.facies} and peak P–T ${s.peakTemperatureC} °C, ${s.peakPressureKbar} kbar disagree; the peak P–T is used`);
+          lo = pk.lo;
+          hi = pk.hi;
+        }
+      }
+      source = 'peak-pt';
+      series = pk.series;
+      glabel = pk.series === 'barrovian' ? range(ZONE_NAMES, lo, hi) : pk.label;
+    }
+  }
+  const g: SampleGrade = { id: s.id, lo, hi, source, zone: series === 'barrovian' && lo === hi && lo >= 0 ? ZONE_NAMES[lo] : null, series, label: glabel };
+  if (polymorph !== undefined) g.aluminosilicate = polymorph;
+  return g;
+}
+
 /**
  * Grades of samples (in order). Unknown zone or facies names are an InputError naming the feature and field, with
  * the nearest valid name ("unknown zone 'garnett' (did you mean 'garnet'?)"); a sample with no grade field at all
@@ -241,104 +365,8 @@ export function sampleGrades(samples: readonly GradeInput[], warnings: string[] 
   const off: string[] = [];
   const lowSeries: string[] = [];
   samples.forEach((s, i) => {
-    const label = `${i} (${s.id})`;
-    let zr = -1,
-      lr = -1,
-      fi: [number, number] | null = null,
-      facOk = false;
-    if (s.zone !== undefined) {
-      zr = zoneRank(s.zone);
-      if (zr < 0) lr = lowPressureZoneRank(s.zone);
-      const problem = zoneNameProblem(s.zone);
-      if (problem !== null) problems.push({ feature: label, field: 'properties.zone', problem });
-    }
-    if (s.facies !== undefined) {
-      const n = normalizeName(s.facies).replace(/-facies$/, '');
-      if (!(FACIES_NAMES as readonly string[]).includes(n)) {
-        const hint = nearestName(n, FACIES_NAMES);
-        problems.push({
-          feature: label,
-          field: 'properties.facies',
-          problem: `unknown facies '${s.facies}'${hint !== null ? ` (did you mean '${hint}'?)` : ''}; expected one of ${FACIES_NAMES.join(', ')}`,
-        });
-      } else {
-        facOk = true;
-        fi = faciesRankInterval(n);
-        if (fi === null && s.zone === undefined) off.push(s.id);
-      }
-    }
-    const t = s.peakTemperatureC,
-      p = s.peakPressureKbar;
-    const hasPeak = Number.isFinite(t) && Number.isFinite(p);
-    if (s.zone === undefined && s.facies === undefined && !hasPeak) {
-      problems.push({ feature: label, field: 'properties.zone', problem: 'a grade sample needs a zone, a facies, or peakTemperatureC with peakPressureKbar' });
-    }
-    const pk = hasPeak ? peakGrade(t as number, p as number, calibration) : null;
-    if (zr >= 0) {
-      out.push({ id: s.id, lo: zr, hi: zr, source: 'zone', zone: ZONE_NAMES[zr], series: 'barrovian', label: ZONE_NAMES[zr] });
-      if (fi !== null && (zr < fi[0] || zr > fi[1]))
-        warnings.push(
-          `sample ${label}: zone ${ZONE_NAMES[zr]} is outside the range its facies ${s.facies} suggests (${ZONE_NAMES[fi[0]]}–${ZONE_NAMES[fi[1]]}); the zone is used`,
-        );
-      if (pk !== null && pk.lo >= 0 && (pk.series !== 'barrovian' || zr < pk.lo || zr > pk.hi))
-        warnings.push(`sample ${label}: zone ${ZONE_NAMES[zr]} disagrees with its peak P–T ${t} °C, ${p} kbar (${pk.label}); the zone is used`);
-      return;
-    }
-    if (lr >= 0) {
-      // A zone of the low-pressure scale: decides biotite-in only on the Barrovian scale.
-      const lo = lr >= 1 ? 1 : 0,
-        hi = lr >= 1 ? MAX_RANK : 0;
-      out.push({ id: s.id, lo, hi, source: 'zone', zone: null, series: 'low-pressure', label: `${LOW_PRESSURE_ZONE_NAMES[lr]} (low-pressure series)` });
-      lowSeries.push(s.id);
-      return;
-    }
-    if (s.zone !== undefined) {
-      out.push({ id: s.id, lo: -1, hi: -1, source: 'none', zone: null, series: null, label: null });
-      return;
-    }
-    let lo = -1,
-      hi = -1,
-      source: GradeSource = 'none';
-    let series: GradeSeries | null = null,
-      glabel: string | null = null;
-    if (facOk && fi !== null) {
-      lo = fi[0];
-      hi = fi[1];
-      source = 'facies';
-      series = 'barrovian';
-      glabel = range(ZONE_NAMES, lo, hi);
-    }
-    let polymorph: Aluminosilicate | undefined;
-    if (pk !== null) {
-      if (pk.message !== null)
-        warnings.push(`sample ${label}: ${pk.message}; it takes no part in the isograds${source === 'facies' ? ' beyond its facies' : ''}`);
-      else {
-        polymorph = pk.aluminosilicate ?? undefined;
-        if (pk.series === 'low-pressure') lowSeries.push(s.id);
-        if (source === 'none' || pk.series === 'low-pressure') {
-          lo = pk.lo;
-          hi = pk.hi;
-        } else {
-          // Both: the intersection when they overlap, else the P–T estimate (measured) with a warning.
-          const a = Math.max(lo, pk.lo),
-            b = Math.min(hi, pk.hi);
-          if (a <= b) {
-            lo = a;
-            hi = b;
-          } else {
-            warnings.push(`sample ${label}: facies ${s.facies} and peak P–T ${t} °C, ${p} kbar disagree; the peak P–T is used`);
-            lo = pk.lo;
-            hi = pk.hi;
-          }
-        }
-        source = 'peak-pt';
-        series = pk.series;
-        glabel = pk.series === 'barrovian' ? range(ZONE_NAMES, lo, hi) : pk.label;
-      }
-    }
-    const g: SampleGrade = { id: s.id, lo, hi, source, zone: series === 'barrovian' && lo === hi && lo >= 0 ? ZONE_NAMES[lo] : null, series, label: glabel };
-    if (polymorph !== undefined) g.aluminosilicate = polymorph;
-    out.push(g);
+    const r = readSample(s, i, problems, off, calibration);
+    out.push(zoneGrade(r, warnings, lowSeries) ?? faciesPeakGrade(r, warnings, lowSeries));
   });
   if (problems.length > 0) {
     const first = problems[0];

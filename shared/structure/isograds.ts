@@ -9,10 +9,13 @@
  */
 import { InputError } from '../errors.ts';
 import { ZONE_NAMES } from '../petrology/index.ts';
-import { BOUNDARY_COUNT, IndicatorField, pointSegmentDistance2, type LocalGrid } from './indicator.ts';
+import { BOUNDARY_COUNT, IndicatorField, type LocalGrid } from './indicator.ts';
+import { addBandWidths, disagreeingSamples, isogradName, isolatedLoopSamples, lineLength, lineSupport } from './isograd-lines.ts';
 import { traceIsolines } from './isolines.ts';
 import { leaveOneOut, type LeaveOneOut } from './misfits.ts';
 import type { SampleGrade } from './grade.ts';
+
+export { isogradName } from './isograd-lines.ts';
 
 export interface IsogradGridOptions {
   /** Grid cell, km (default 1). */
@@ -71,11 +74,6 @@ export interface IsogradResultKm {
   timingsMs: Record<string, number>;
 }
 
-/** Name of the isograd opening rank j ("garnet-in"). */
-export function isogradName(rank: number): string {
-  return `${ZONE_NAMES[rank]}-in`;
-}
-
 /** Median distance (km) from each point to its nearest other point. */
 export function medianSpacingKm(field: IndicatorField): number {
   const n = field.count;
@@ -102,70 +100,8 @@ export function defaultSupportKm(field: IndicatorField, cellKm: number): number 
 
 const now = () => (typeof performance !== 'undefined' ? performance.now() : Date.now());
 
-function pointInRing(c: Float64Array, x: number, y: number): boolean {
-  let inside = false;
-  const n = c.length / 2;
-  for (let i = 0, j = n - 1; i < n; j = i++) {
-    const xi = c[2 * i],
-      yi = c[2 * i + 1],
-      xj = c[2 * j],
-      yj = c[2 * j + 1];
-    if (yi > y !== yj > y && x < ((xj - xi) * (y - yi)) / (yj - yi) + xi) inside = !inside;
-  }
-  return inside;
-}
-
-function lineLength(c: Float64Array): number {
-  let s = 0;
-  for (let i = 2; i < c.length; i += 2) s += Math.hypot(c[i] - c[i - 2], c[i + 1] - c[i - 1]);
-  return s;
-}
-
-/** Point at half the length of a polyline. */
-function midpoint(c: Float64Array): [number, number] {
-  const half = lineLength(c) / 2;
-  let s = 0;
-  for (let i = 2; i < c.length; i += 2) {
-    const l = Math.hypot(c[i] - c[i - 2], c[i + 1] - c[i - 1]);
-    if (s + l >= half && l > 0) {
-      const u = (half - s) / l;
-      return [c[i - 2] + u * (c[i] - c[i - 2]), c[i - 1] + u * (c[i + 1] - c[i - 1])];
-    }
-    s += l;
-  }
-  return [c[0], c[1]];
-}
-
-/**
- * Isograds of graded samples at local km positions (x, y), with fault pieces (x1, y1, x2, y2 km) as barriers.
- * Returns the lines in local km plus the grids, the indicator field and the leave-one-out predictions.
- */
-export function computeIsogradsKm(
-  x: Float64Array,
-  y: Float64Array,
-  grades: readonly SampleGrade[],
-  faults: Float64Array | null,
-  opts: IsogradGridOptions = {},
-): IsogradResultKm {
-  const t0 = now();
-  const warnings: string[] = [];
-  const cellKm = opts.cellKm ?? 1;
-  if (!(cellKm > 0 && Number.isFinite(cellKm)))
-    throw new InputError(`cell size must be > 0 km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected a positive number of km' }], 'bad_option');
-  const lo = Int8Array.from(grades, (g) => g.lo),
-    hi = Int8Array.from(grades, (g) => g.hi);
-  const field = new IndicatorField(x, y, lo, hi, { method: opts.method, power: opts.power, neighbors: opts.neighbors, faults });
-  if (field.count < 2)
-    throw new InputError(
-      `isograds need at least two samples with zone information, got ${field.count}`,
-      [{ field: 'samples', problem: 'give samples with a zone, a facies on the Barrovian sequence, or peak P–T' }],
-      'too_few_points',
-    );
-  const supportKm = opts.supportKm ?? defaultSupportKm(field, cellKm);
-  if (!(supportKm > 0))
-    throw new InputError(`support distance must be > 0 km, got ${supportKm}`, [{ field: 'supportKm', problem: 'expected > 0' }], 'bad_option');
-
-  // Grid over the samples' envelope padded by the support distance.
+/** The isograd grid: over the samples' envelope padded by the support distance, or `gridSize` cells about its centre. */
+function isogradGrid(field: IndicatorField, cellKm: number, supportKm: number, opts: IsogradGridOptions): LocalGrid {
   let x0 = Infinity,
     x1 = -Infinity,
     y0 = Infinity,
@@ -204,8 +140,97 @@ export function computeIsogradsKm(
       [{ field: 'cellKm', problem: 'use a larger cell' }],
       'grid_too_large',
     );
-  const grid: LocalGrid = { x0, y0, cellKm, width, height };
-  const N = width * height;
+  return { x0, y0, cellKm, width, height };
+}
+
+/** Grid edges that cross a fault (tested only near one: within 1.5 cells); [2i] the edge to the right, [2i + 1] up. */
+function blockedEdges(field: IndicatorField, grid: LocalGrid, faultDist: Float32Array): Uint8Array | null {
+  const b = field.barrier;
+  if (b === null) return null;
+  const { x0, y0, cellKm, width, height } = grid;
+  const blocked = new Uint8Array(2 * width * height);
+  for (let r = 0; r < height; r++) {
+    for (let c = 0; c < width; c++) {
+      const i = r * width + c;
+      if (!(faultDist[i] <= 1.5 * cellKm)) continue;
+      const px = x0 + c * cellKm,
+        py = y0 + r * cellKm;
+      if (c + 1 < width && b.blocks(px, py, px + cellKm, py)) blocked[2 * i] = 1;
+      if (r + 1 < height && b.blocks(px, py, px, py + cellKm)) blocked[2 * i + 1] = 1;
+    }
+  }
+  return blocked;
+}
+
+/** The 0.1, 0.5 and 0.9 lines of every isograd, without the closed loops around contradicted samples (listed instead). */
+function traceIsogradLines(
+  indicators: Float32Array,
+  grid: LocalGrid,
+  blocked: Uint8Array | null,
+  field: IndicatorField,
+  loo: LeaveOneOut,
+  grades: readonly SampleGrade[],
+  opts: IsogradGridOptions,
+): { lines: IsogradLineKm[]; droppedLoops: IsogradResultKm['droppedLoops'] } {
+  const N = grid.width * grid.height;
+  const radiusKm = opts.supportRadiusKm ?? 5;
+  const lines: IsogradLineKm[] = [];
+  const droppedLoops: IsogradResultKm['droppedLoops'] = [];
+  const dropLoops = opts.dropIsolatedLoops ?? true;
+  for (let j = 1; j <= BOUNDARY_COUNT; j++)
+    for (const level of ISOGRAD_PROBABILITIES) {
+      for (const l of traceIsolines(indicators, grid, level, blocked, (j - 1) * N)) {
+        const inside = l.closed && dropLoops ? isolatedLoopSamples(l.coords, field, loo, j) : null;
+        if (inside !== null) {
+          if (level === 0.5) droppedLoops.push({ isograd: isogradName(j), samples: inside.map((i) => grades[field.source[i]].id) });
+          continue;
+        }
+        const c = l.coords;
+        lines.push({
+          rank: j,
+          probability: level,
+          mineral: ZONE_NAMES[j],
+          isograd: isogradName(j),
+          coords: c,
+          closed: l.closed,
+          lengthKm: lineLength(c),
+          support: lineSupport(c, field, radiusKm, grid.cellKm),
+        });
+      }
+    }
+  return { lines, droppedLoops };
+}
+
+/**
+ * Isograds of graded samples at local km positions (x, y), with fault pieces (x1, y1, x2, y2 km) as barriers.
+ * Returns the lines in local km plus the grids, the indicator field and the leave-one-out predictions.
+ */
+export function computeIsogradsKm(
+  x: Float64Array,
+  y: Float64Array,
+  grades: readonly SampleGrade[],
+  faults: Float64Array | null,
+  opts: IsogradGridOptions = {},
+): IsogradResultKm {
+  const t0 = now();
+  const warnings: string[] = [];
+  const cellKm = opts.cellKm ?? 1;
+  if (!(cellKm > 0 && Number.isFinite(cellKm)))
+    throw new InputError(`cell size must be > 0 km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected a positive number of km' }], 'bad_option');
+  const lo = Int8Array.from(grades, (g) => g.lo),
+    hi = Int8Array.from(grades, (g) => g.hi);
+  const field = new IndicatorField(x, y, lo, hi, { method: opts.method, power: opts.power, neighbors: opts.neighbors, faults });
+  if (field.count < 2)
+    throw new InputError(
+      `isograds need at least two samples with zone information, got ${field.count}`,
+      [{ field: 'samples', problem: 'give samples with a zone, a facies on the Barrovian sequence, or peak P–T' }],
+      'too_few_points',
+    );
+  const supportKm = opts.supportKm ?? defaultSupportKm(field, cellKm);
+  if (!(supportKm > 0))
+    throw new InputError(`support distance must be > 0 km, got ${supportKm}`, [{ field: 'supportKm', problem: 'expected > 0' }], 'bad_option');
+  const grid = isogradGrid(field, cellKm, supportKm, opts);
+  const N = grid.width * grid.height;
 
   const indicators = new Float32Array(BOUNDARY_COUNT * N);
   const nearestKm = new Float32Array(N);
@@ -217,139 +242,15 @@ export function computeIsogradsKm(
   const t1 = now();
   field.grid(grid, indicators, nearestKm, faultDist);
   const t2 = now();
-
-  // Edges crossing a fault (only near one: within 1.5 cells).
-  let blocked: Uint8Array | null = null;
-  if (field.barrier !== null && faultDist !== undefined) {
-    blocked = new Uint8Array(2 * N);
-    const b = field.barrier;
-    for (let r = 0; r < height; r++) {
-      for (let c = 0; c < width; c++) {
-        const i = r * width + c;
-        if (!(faultDist[i] <= 1.5 * cellKm)) continue;
-        const px = x0 + c * cellKm,
-          py = y0 + r * cellKm;
-        if (c + 1 < width && b.blocks(px, py, px + cellKm, py)) blocked[2 * i] = 1;
-        if (r + 1 < height && b.blocks(px, py, px, py + cellKm)) blocked[2 * i + 1] = 1;
-      }
-    }
-  }
+  const blocked = faultDist !== undefined ? blockedEdges(field, grid, faultDist) : null;
   // Unsupported cells are no data.
   for (let i = 0; i < N; i++) if (!(nearestKm[i] <= supportKm)) for (let j = 0; j < BOUNDARY_COUNT; j++) indicators[j * N + i] = NaN;
 
   const loo = leaveOneOut(field);
   const t3 = now();
-  const radiusKm = opts.supportRadiusKm ?? 5;
-  const found: number[] = [];
-  const countNear = (px: number, py: number) => {
-    found.length = 0;
-    return field.index.within(px, py, radiusKm, found);
-  };
-  const lines: IsogradLineKm[] = [];
-  const droppedLoops: { isograd: string; samples: string[] }[] = [];
-  const dropLoops = opts.dropIsolatedLoops ?? true;
-  for (let j = 1; j <= BOUNDARY_COUNT; j++)
-    for (const level of ISOGRAD_PROBABILITIES) {
-      const iso = traceIsolines(indicators, grid, level, blocked, (j - 1) * N);
-      for (const l of iso) {
-        if (l.closed && dropLoops) {
-          // Samples inside the loop (bounding box first).
-          let bx0 = Infinity,
-            bx1 = -Infinity,
-            by0 = Infinity,
-            by1 = -Infinity;
-          for (let t = 0; t < l.coords.length; t += 2) {
-            bx0 = Math.min(bx0, l.coords[t]);
-            bx1 = Math.max(bx1, l.coords[t]);
-            by0 = Math.min(by0, l.coords[t + 1]);
-            by1 = Math.max(by1, l.coords[t + 1]);
-          }
-          const inside: number[] = [];
-          for (let i = 0; i < field.count && inside.length <= 2; i++) {
-            const px = field.x[i],
-              py = field.y[i];
-            if (px >= bx0 && px <= bx1 && py >= by0 && py <= by1 && pointInRing(l.coords, px, py)) inside.push(i);
-          }
-          if (inside.length >= 1 && inside.length <= 2 && inside.every((i) => loo.contradicts(i, j))) {
-            if (level === 0.5) droppedLoops.push({ isograd: isogradName(j), samples: inside.map((i) => grades[field.source[i]].id) });
-            continue;
-          }
-        }
-        const c = l.coords;
-        const [mx, my] = midpoint(c);
-        let sum = 0,
-          min = Infinity,
-          nv = 0;
-        const step = Math.max(1, Math.round(2 / cellKm)); // a vertex about every 2 km
-        for (let t = 0; t < c.length / 2; t += step) {
-          const k = countNear(c[2 * t], c[2 * t + 1]);
-          sum += k;
-          min = Math.min(min, k);
-          nv++;
-        }
-        lines.push({
-          rank: j,
-          probability: level,
-          mineral: ZONE_NAMES[j],
-          isograd: isogradName(j),
-          coords: c,
-          closed: l.closed,
-          lengthKm: lineLength(c),
-          support: { radiusKm, samplesNearMidpoint: countNear(mx, my), meanSamplesPerVertex: nv > 0 ? sum / nv : 0, minSamplesPerVertex: nv > 0 ? min : 0 },
-        });
-      }
-    }
-  // Band width along each 0.5 line: distance to the nearest 0.1 line plus to the nearest 0.9 line of the isograd.
-  const reach = 3 * supportKm;
-  for (const l of lines) {
-    if (l.probability !== 0.5) continue;
-    const edges = (p: number) => lines.filter((q) => q.rank === l.rank && q.probability === p);
-    const lowEdge = edges(0.1),
-      highEdge = edges(0.9);
-    const dist = (px: number, py: number, set: IsogradLineKm[]) => {
-      let best = Infinity;
-      for (const q of set)
-        for (let t = 2; t < q.coords.length; t += 2)
-          best = Math.min(best, pointSegmentDistance2(px, py, q.coords[t - 2], q.coords[t - 1], q.coords[t], q.coords[t + 1]));
-      return Math.sqrt(best);
-    };
-    const alongKm: number[] = [],
-      widthKm: (number | null)[] = [];
-    const c = l.coords;
-    let s0 = 0,
-      next = 0;
-    for (let t = 0; t < c.length; t += 2) {
-      if (t > 0) s0 += Math.hypot(c[t] - c[t - 2], c[t + 1] - c[t - 1]);
-      if (s0 < next && t + 2 < c.length) continue;
-      next = s0 + 2;
-      const a = dist(c[t], c[t + 1], lowEdge),
-        b = dist(c[t], c[t + 1], highEdge);
-      alongKm.push(Math.round(s0 * 100) / 100);
-      widthKm.push(a <= reach && b <= reach ? Math.round((a + b) * 100) / 100 : null);
-    }
-    const w = widthKm.filter((v): v is number => v !== null).sort((x, y) => x - y);
-    l.bandWidthKm = {
-      alongKm,
-      widthKm,
-      median: w.length > 0 ? w[w.length >> 1] : null,
-      min: w.length > 0 ? w[0] : null,
-      max: w.length > 0 ? w[w.length - 1] : null,
-    };
-  }
-  // Samples that disagree with their isograd: leave-one-out probability on the other side of 0.5 from what they say.
-  const disagreeing: IsogradResultKm['disagreeing'] = [];
-  for (let j = 1; j <= BOUNDARY_COUNT; j++) {
-    const list: IsogradResultKm['disagreeing'][number]['samples'] = [];
-    for (let i = 0; i < field.count; i++) {
-      const v = loo.p[i * BOUNDARY_COUNT + j - 1];
-      if (Number.isNaN(v)) continue;
-      if (field.lo[i] >= j && v < 0.5)
-        list.push({ id: grades[field.source[i]].id, index: field.source[i], says: 'at or above', probability: Math.round(v * 1000) / 1000 });
-      else if (field.hi[i] < j && v >= 0.5)
-        list.push({ id: grades[field.source[i]].id, index: field.source[i], says: 'below', probability: Math.round(v * 1000) / 1000 });
-    }
-    disagreeing.push({ isograd: isogradName(j), samples: list });
-  }
+  const { lines, droppedLoops } = traceIsogradLines(indicators, grid, blocked, field, loo, grades, opts);
+  addBandWidths(lines, supportKm);
+  const disagreeing = disagreeingSamples(field, loo, grades);
   if (droppedLoops.length > 0)
     warnings.push(`${droppedLoops.length} closed loop(s) around single contradicted samples were not drawn (the samples are listed as misfits)`);
   const t4 = now();
