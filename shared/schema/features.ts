@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { InputError, type InputProblem } from '../errors.ts';
 import { parseCsv } from '../io/csv.ts';
+import { checkDegreeColumns, dataSetCoordinateColumns, rowProperties, wellFeaturesFromRows, type CsvPoint } from './csv-points.ts';
 import { swappedLonLatError } from './lonlat-order.ts';
 import { zoneNameProblem } from '../petrology/zones.ts';
 import {
@@ -154,12 +155,6 @@ function issuesToProblems(feature: number | string, prefix: string, error: z.Zod
   return error.issues.map((i) => ({ feature, field: [prefix, ...i.path.map(String)].filter(Boolean).join('.'), problem: i.message }));
 }
 
-/**
- * Validates a GeoJSON FeatureCollection (or a single Feature) of one kind. Each feature's problems are named by
- * its index and id; up to `maxProblems` are reported. Feature ids come from `properties.id`, else the feature's
- * own `id`, else its index (with a warning). Duplicate ids are an error: every later link (fault report, share
- * link, well → site) relies on them.
- */
 /** Every [lon, lat] position of the features' geometries, with the feature it belongs to (for swappedLonLatError). */
 function* positionsOf(features: unknown[], labels?: string[]): Generator<{ lon: number; lat: number; where: string }> {
   for (let i = 0; i < features.length; i++) {
@@ -175,14 +170,8 @@ function* positionsOf(features: unknown[], labels?: string[]): Generator<{ lon: 
   }
 }
 
-export function parseFeatureCollection(
-  kind: DatasetKind,
-  input: unknown,
-  opts: { maxFeatures?: number; maxProblems?: number; featureLabels?: string[] } = {},
-): ParsedDataset {
-  const maxFeatures = opts.maxFeatures ?? 200_000;
-  const maxProblems = opts.maxProblems ?? 50;
-  const spec = KIND_SPECS[kind];
+/** The features of a FeatureCollection (or a single Feature), refused when not one, empty or over `maxFeatures`. */
+function collectionFeatures(kind: DatasetKind, input: unknown, maxFeatures: number): unknown[] {
   if (input === null || typeof input !== 'object' || Array.isArray(input)) {
     throw new InputError(
       'expected a GeoJSON FeatureCollection object',
@@ -214,6 +203,53 @@ export function parseFeatureCollection(
       'too_many_features',
     );
   }
+  return features;
+}
+
+/** Each fault trace must have a length (a trace whose vertices all coincide has no strike). */
+function faultTraceProblems(label: number | string, geometry: { type: string; coordinates: unknown }): InputProblem[] {
+  const lines = geometry.type === 'LineString' ? [geometry.coordinates as number[][]] : (geometry.coordinates as number[][][]);
+  const problems: InputProblem[] = [];
+  for (const line of lines) {
+    let length = 0;
+    for (let k = 1; k < line.length; k++) length += Math.hypot(line[k][0] - line[k - 1][0], line[k][1] - line[k - 1][1]);
+    if (!(length > 0)) problems.push({ feature: label, field: 'geometry.coordinates', problem: 'a fault trace has zero length' });
+  }
+  return problems;
+}
+
+/** A feature's properties with its id: `properties.id`, else the feature's own `id`, else made from its index (`made`). */
+function propertiesWithId(
+  kind: DatasetKind,
+  feat: { id?: unknown; properties?: unknown },
+  index: number,
+): { rawProps: Record<string, unknown>; made: boolean } {
+  const rawProps =
+    feat.properties && typeof feat.properties === 'object' && !Array.isArray(feat.properties) ? { ...(feat.properties as Record<string, unknown>) } : {};
+  if (rawProps.id === undefined || rawProps.id === null || rawProps.id === '') {
+    if (typeof feat.id === 'string' || typeof feat.id === 'number') rawProps.id = feat.id;
+    else if (kind !== 'regions') {
+      rawProps.id = `${kind}-${index + 1}`;
+      return { rawProps, made: true };
+    }
+  }
+  return { rawProps, made: false };
+}
+
+/**
+ * Validates a GeoJSON FeatureCollection (or a single Feature) of one kind. Each feature's problems are named by
+ * its index and id; up to `maxProblems` are reported. Feature ids come from `properties.id`, else the feature's
+ * own `id`, else its index (with a warning). Duplicate ids are an error: every later link (fault report, share
+ * link, well → site) relies on them.
+ */
+export function parseFeatureCollection(
+  kind: DatasetKind,
+  input: unknown,
+  opts: { maxFeatures?: number; maxProblems?: number; featureLabels?: string[] } = {},
+): ParsedDataset {
+  const maxProblems = opts.maxProblems ?? 50;
+  const spec = KIND_SPECS[kind];
+  const features = collectionFeatures(kind, input, opts.maxFeatures ?? 200_000);
   const swapped = swappedLonLatError(
     positionsOf(features, opts.featureLabels),
     opts.featureLabels !== undefined
@@ -233,15 +269,8 @@ export function parseFeatureCollection(
       return;
     }
     const feat = f as { id?: unknown; geometry?: unknown; properties?: unknown };
-    const rawProps =
-      feat.properties && typeof feat.properties === 'object' && !Array.isArray(feat.properties) ? { ...(feat.properties as Record<string, unknown>) } : {};
-    if (rawProps.id === undefined || rawProps.id === null || rawProps.id === '') {
-      if (typeof feat.id === 'string' || typeof feat.id === 'number') rawProps.id = feat.id;
-      else if (kind !== 'regions') {
-        rawProps.id = `${kind}-${index + 1}`;
-        unnamed++;
-      }
-    }
+    const { rawProps, made } = propertiesWithId(kind, feat, index);
+    if (made) unnamed++;
     const at = opts.featureLabels?.[index] ?? index;
     const label = typeof rawProps.id === 'string' || typeof rawProps.id === 'number' ? `${at} (${rawProps.id})` : at;
     const gType = feat.geometry && typeof feat.geometry === 'object' ? (feat.geometry as { type?: unknown }).type : undefined;
@@ -269,14 +298,7 @@ export function parseFeatureCollection(
       seen.set(id, index);
     }
     const geometry = g.data as { type: string; coordinates: unknown };
-    if (kind === 'faults') {
-      const lines = geometry.type === 'LineString' ? [geometry.coordinates as number[][]] : (geometry.coordinates as number[][][]);
-      for (const line of lines) {
-        let length = 0;
-        for (let k = 1; k < line.length; k++) length += Math.hypot(line[k][0] - line[k - 1][0], line[k][1] - line[k - 1][1]);
-        if (!(length > 0)) problems.push({ feature: label, field: 'geometry.coordinates', problem: 'a fault trace has zero length' });
-      }
-    }
+    if (kind === 'faults') problems.push(...faultTraceProblems(label, geometry));
     out.push({ type: 'Feature', id, geometry, properties: props });
   });
   if (problems.length > 0) {
@@ -327,62 +349,13 @@ export function parsePointCsv(
   }
   const hint = opts.crsHint ?? 'give their CRS (EPSG:nnnn)';
   const { header, rows, lines, headerLine } = parseCsv(csvText);
-  let lonCol = header.findIndex((h) => /^(longitude|lon|lng)$/i.test(h));
-  let latCol = header.findIndex((h) => /^(latitude|lat)$/i.test(h));
-  let projected = false;
-  if (lonCol < 0 || latCol < 0) {
-    const xc = header.findIndex((h) => /^(x|easting)$/i.test(h));
-    const yc = header.findIndex((h) => /^(y|northing)$/i.test(h));
-    if (xc >= 0 && yc >= 0) {
-      if (opts.toLonLat === undefined)
-        throw new InputError(
-          `the CSV has projected ${header[xc]},${header[yc]} columns but no CRS: ${hint} (or give longitude,latitude columns in degrees)`,
-          [{ field: 'crs', problem: 'missing: the CRS of the x,y (easting,northing) columns' }],
-          'missing_crs',
-        );
-      lonCol = xc;
-      latCol = yc;
-      projected = true;
-    }
-  }
-  if (lonCol < 0 || latCol < 0) {
-    throw new InputError(
-      'CSV header needs longitude,latitude (or lon,lat) columns, or x,y (easting,northing) with their CRS',
-      [{ field: lonCol < 0 ? 'longitude' : 'latitude', problem: `missing column; header is: ${header.join(',')}` }],
-      'malformed_csv',
-    );
-  }
-  if (!projected) {
-    // Longitude and latitude exchanged: one message with the first offending value, not one per row.
-    const swapped = swappedLonLatError(
-      rows.map((r, k) => ({ lon: Number(r[lonCol]), lat: Number(r[latCol]), where: `line ${lines[k]}` })),
-      `Check that the "${header[lonCol]}" column holds longitudes (east–west, -180 to 180) and "${header[latCol]}" latitudes (north–south, -90 to 90).`,
-      { lon: header[lonCol], lat: header[latCol] },
-    );
-    if (swapped) throw swapped;
-    // Eastings/northings in longitude/latitude columns: say so rather than "out of range" on every row.
-    const far = rows.filter((r) => Math.abs(Number(r[lonCol])) > 180 || Math.abs(Number(r[latCol])) > 90);
-    if (far.length > 0 && far.length >= rows.length / 2) {
-      throw new InputError(
-        `the CSV's ${header[lonCol]},${header[latCol]} numbers look projected (${far.length} of ${rows.length} rows beyond ±180°/±90°, e.g. ${far[0][lonCol]}, ${far[0][latCol]}): name the columns x,y (or easting,northing) and ${hint}`,
-        [{ field: 'crs', problem: 'coordinates look like eastings/northings in metres, not degrees' }],
-        'looks_projected',
-      );
-    }
-  }
+  const { lonCol, latCol, projected } = dataSetCoordinateColumns(header, opts.toLonLat !== undefined, hint);
+  if (!projected) checkDegreeColumns(header, rows, lines, lonCol, latCol, hint);
   const problems: InputProblem[] = [];
-  const points = rows.map((r, k) => {
-    const props: Record<string, unknown> = {};
-    header.forEach((h, c) => {
-      if (c === lonCol || c === latCol) return;
-      const cell = r[c].trim();
-      if (cell === '') return;
-      if (NUMERIC_FIELDS.has(h)) {
-        const v = Number(cell);
-        if (!Number.isFinite(v)) problems.push({ feature: `line ${lines[k]}`, field: h, problem: `expected a number, got "${cell}"` });
-        props[h] = v;
-      } else props[h] = cell;
-    });
+  const points = rows.map((r, k): CsvPoint => {
+    const props = rowProperties(header, r, [lonCol, latCol], NUMERIC_FIELDS, (h, cell) =>
+      problems.push({ feature: `line ${lines[k]}`, field: h, problem: `expected a number, got "${cell}"` }),
+    );
     let lon = Number(r[lonCol]);
     let lat = Number(r[latCol]);
     if (r[lonCol].trim() === '' || !Number.isFinite(lon))
@@ -401,36 +374,13 @@ export function parsePointCsv(
       problems.slice(0, 50),
       'invalid_features',
     );
-  let features: unknown[];
   // Each feature is labelled by its CSV line in later messages (a well by its first line).
-  let featureLabels: string[];
-  if (kind === 'wells') {
-    // One row per measurement, grouped by well id; location from the well's first row.
-    const byId = new Map<string, { lon: number; lat: number; props: Record<string, unknown>; measurements: Record<string, unknown>[] }>();
-    const measurementKeys = ['depthM', 'depthFt', 'temperatureC', 'temperatureF', 'kind', 'hoursSinceCirculation', 'circulationHours'];
-    const firstLine = new Map<string, number>();
-    points.forEach((p, k) => {
-      const id = String(p.props.id ?? p.props.wellId ?? '');
-      if (!firstLine.has(id)) firstLine.set(id, lines[k]);
-    });
-    for (const p of points) {
-      const id = String(p.props.id ?? p.props.wellId ?? '');
-      const m: Record<string, unknown> = {};
-      const rest: Record<string, unknown> = {};
-      for (const [k, v] of Object.entries(p.props)) (measurementKeys.includes(k) ? m : rest)[k] = v;
-      const w = byId.get(id) ?? { lon: p.lon, lat: p.lat, props: { ...rest, id: id || undefined }, measurements: [] };
-      w.measurements.push(m);
-      byId.set(id, w);
-    }
-    features = [...byId.values()].map((w) => ({
-      type: 'Feature',
-      geometry: { type: 'Point', coordinates: [w.lon, w.lat] },
-      properties: { ...w.props, measurements: w.measurements },
-    }));
-    featureLabels = [...byId.keys()].map((id) => `line ${firstLine.get(id)}`);
-  } else {
-    features = points.map((p) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [p.lon, p.lat] }, properties: p.props }));
-    featureLabels = lines.map((l) => `line ${l}`);
-  }
+  const { features, featureLabels } =
+    kind === 'wells'
+      ? wellFeaturesFromRows(points, lines)
+      : {
+          features: points.map((p) => ({ type: 'Feature', geometry: { type: 'Point', coordinates: [p.lon, p.lat] }, properties: p.props })),
+          featureLabels: lines.map((l) => `line ${l}`),
+        };
   return parseFeatureCollection(kind, { type: 'FeatureCollection', features }, { ...opts, featureLabels });
 }

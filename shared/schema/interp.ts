@@ -2,6 +2,7 @@ import { z } from 'zod';
 import { swappedLonLatError } from './lonlat-order.ts';
 import { InputError, type InputProblem } from '../errors.ts';
 import { parseCsv } from '../io/csv.ts';
+import { coordinateColumns, rowProperties } from './csv-points.ts';
 import { parseFeatureCollection } from './features.ts';
 import { pointGeometry, lonLat } from './geojson.ts';
 import { VARIOGRAM_MODELS, type VariogramModel, type VariogramModelName } from '../interp/variogram.ts';
@@ -128,33 +129,25 @@ const genericProps = z.looseObject({
     .optional(),
 });
 
-/**
- * Interpolation points from a parsed GeoJSON object. For `heatFlowMWm2` the features are validated as heat-flow
- * sites (shared/schema/features.ts); for any other numeric property, generically: Point geometry, an id, and the
- * field as a finite number. Features missing the field are an error naming them, or, with `skipMissing`, a
- * warning naming them (an error if none is left).
- */
-export function pointsFromGeoJson(
-  input: unknown,
-  field: string,
-  opts: { skipMissing?: boolean; source?: string; errorField?: string } = {},
-): { points: PointData; warnings: string[] } {
-  const src = opts.source ?? 'points';
-  if (field === 'heatFlowMWm2' && (opts.errorField === undefined || opts.errorField === 'uncertaintyMWm2')) {
-    const ds = parseFeatureCollection('sites', input);
-    const f = ds.collection.features as { geometry: { coordinates: number[] }; properties: Record<string, unknown> }[];
-    return {
-      points: {
-        ids: f.map((x) => String(x.properties.id)),
-        lon: Float64Array.from(f, (x) => x.geometry.coordinates[0]),
-        lat: Float64Array.from(f, (x) => x.geometry.coordinates[1]),
-        values: Float64Array.from(f, (x) => x.properties.heatFlowMWm2 as number),
-        quality: f.map((x) => x.properties.quality as string | undefined),
-        errorSd: Float64Array.from(f, (x) => (typeof x.properties.uncertaintyMWm2 === 'number' ? x.properties.uncertaintyMWm2 : NaN)),
-      },
-      warnings: ds.warnings,
-    };
-  }
+/** Heat-flow points validated as sites (shared/schema/features.ts), with their quality and uncertainty. */
+function pointsFromSites(input: unknown): { points: PointData; warnings: string[] } {
+  const ds = parseFeatureCollection('sites', input);
+  const f = ds.collection.features as { geometry: { coordinates: number[] }; properties: Record<string, unknown> }[];
+  return {
+    points: {
+      ids: f.map((x) => String(x.properties.id)),
+      lon: Float64Array.from(f, (x) => x.geometry.coordinates[0]),
+      lat: Float64Array.from(f, (x) => x.geometry.coordinates[1]),
+      values: Float64Array.from(f, (x) => x.properties.heatFlowMWm2 as number),
+      quality: f.map((x) => x.properties.quality as string | undefined),
+      errorSd: Float64Array.from(f, (x) => (typeof x.properties.uncertaintyMWm2 === 'number' ? x.properties.uncertaintyMWm2 : NaN)),
+    },
+    warnings: ds.warnings,
+  };
+}
+
+/** The features of a FeatureCollection, refused when not one or empty. */
+function nonEmptyFeatures(input: unknown, src: string): unknown[] {
   if (
     input === null ||
     typeof input !== 'object' ||
@@ -170,6 +163,49 @@ export function pointsFromGeoJson(
   const feats = (input as { features: unknown[] }).features;
   if (feats.length === 0)
     throw new InputError(`${src}: the collection is empty`, [{ field: 'features', problem: 'expected at least one feature' }], 'empty_dataset');
+  return feats;
+}
+
+/**
+ * Features without the field: an error naming them, or with `skipMissing` a warning naming them (an error when
+ * no feature is left, `kept` being how many have the field).
+ */
+function missingFieldWarnings(missing: string[], kept: number, field: string, src: string, skipMissing: boolean | undefined): string[] {
+  const warnings: string[] = [];
+  if (missing.length > 0) {
+    const names = `${missing.slice(0, 20).join(', ')}${missing.length > 20 ? `, ... (${missing.length} in all)` : ''}`;
+    if (!skipMissing) {
+      throw new InputError(
+        `${missing.length} feature(s) in ${src} have no "${field}": ${names}`,
+        missing.slice(0, 50).map((m) => ({ feature: m, field: `properties.${field}`, problem: 'missing (skipMissing leaves such features out)' })),
+        'missing_field',
+      );
+    }
+    if (kept === 0)
+      throw new InputError(
+        `no feature in ${src} has a "${field}" value`,
+        [{ field: `properties.${field}`, problem: 'missing on every feature' }],
+        'missing_field',
+      );
+    warnings.push(`${missing.length} feature(s) without "${field}" were left out: ${names}`);
+  }
+  return warnings;
+}
+
+/**
+ * Interpolation points from a parsed GeoJSON object. For `heatFlowMWm2` the features are validated as heat-flow
+ * sites (shared/schema/features.ts); for any other numeric property, generically: Point geometry, an id, and the
+ * field as a finite number. Features missing the field are an error naming them, or, with `skipMissing`, a
+ * warning naming them (an error if none is left).
+ */
+export function pointsFromGeoJson(
+  input: unknown,
+  field: string,
+  opts: { skipMissing?: boolean; source?: string; errorField?: string } = {},
+): { points: PointData; warnings: string[] } {
+  const src = opts.source ?? 'points';
+  if (field === 'heatFlowMWm2' && (opts.errorField === undefined || opts.errorField === 'uncertaintyMWm2')) return pointsFromSites(input);
+  const feats = nonEmptyFeatures(input, src);
   const problems: InputProblem[] = [];
   const missing: string[] = [];
   const ids: string[] = [],
@@ -224,28 +260,30 @@ export function pointsFromGeoJson(
     errSd.push(typeof e === 'number' ? e : NaN);
   });
   if (problems.length > 0) throw new InputError(`${problems.length} problem(s) in ${src}`, problems, 'invalid_features');
-  const warnings: string[] = [];
-  if (missing.length > 0) {
-    const names = `${missing.slice(0, 20).join(', ')}${missing.length > 20 ? `, ... (${missing.length} in all)` : ''}`;
-    if (!opts.skipMissing) {
-      throw new InputError(
-        `${missing.length} feature(s) in ${src} have no "${field}": ${names}`,
-        missing.slice(0, 50).map((m) => ({ feature: m, field: `properties.${field}`, problem: 'missing (skipMissing leaves such features out)' })),
-        'missing_field',
-      );
-    }
-    if (ids.length === 0)
-      throw new InputError(
-        `no feature in ${src} has a "${field}" value`,
-        [{ field: `properties.${field}`, problem: 'missing on every feature' }],
-        'missing_field',
-      );
-    warnings.push(`${missing.length} feature(s) without "${field}" were left out: ${names}`);
-  }
+  const warnings = missingFieldWarnings(missing, ids.length, field, src, opts.skipMissing);
   return {
     points: { ids, lon: Float64Array.from(lon), lat: Float64Array.from(lat), values: Float64Array.from(values), quality, errorSd: Float64Array.from(errSd) },
     warnings,
   };
+}
+
+/** The points CSV's coordinate columns: longitude,latitude, else x,y (easting,northing) when `canProject`. */
+function pointsCsvColumns(header: string[], src: string, canProject: boolean): [number, number, boolean] {
+  const cols = coordinateColumns(header);
+  if (cols.lon >= 0 && cols.lat >= 0) return [cols.lon, cols.lat, false];
+  if (cols.x < 0 || cols.y < 0)
+    throw new InputError(
+      `${src}: CSV header needs longitude,latitude (or lon,lat), or x,y with their CRS (pointsCrs)`,
+      [{ field: 'header', problem: `header is: ${header.join(',')}` }],
+      'malformed_csv',
+    );
+  if (!canProject)
+    throw new InputError(
+      `${src}: CSV has projected x,y columns: give their CRS (pointsCrs, EPSG:nnnn)`,
+      [{ field: 'pointsCrs', problem: 'missing' }],
+      'bad_option',
+    );
+  return [cols.x, cols.y, true];
 }
 
 /**
@@ -260,26 +298,7 @@ export function pointsFromCsv(
 ): { points: PointData; warnings: string[]; projectedColumns: boolean } {
   const src = opts.source ?? 'points';
   const { header, rows, lines } = parseCsv(text);
-  let xc = header.findIndex((h) => /^(longitude|lon|lng)$/i.test(h));
-  let yc = header.findIndex((h) => /^(latitude|lat)$/i.test(h));
-  let projected = false;
-  if (xc < 0 || yc < 0) {
-    xc = header.findIndex((h) => /^(x|easting)$/i.test(h));
-    yc = header.findIndex((h) => /^(y|northing)$/i.test(h));
-    projected = xc >= 0 && yc >= 0;
-    if (!projected)
-      throw new InputError(
-        `${src}: CSV header needs longitude,latitude (or lon,lat), or x,y with their CRS (pointsCrs)`,
-        [{ field: 'header', problem: `header is: ${header.join(',')}` }],
-        'malformed_csv',
-      );
-    if (opts.toLonLat === undefined)
-      throw new InputError(
-        `${src}: CSV has projected x,y columns: give their CRS (pointsCrs, EPSG:nnnn)`,
-        [{ field: 'pointsCrs', problem: 'missing' }],
-        'bad_option',
-      );
-  }
+  const [xc, yc, projected] = pointsCsvColumns(header, src, opts.toLonLat !== undefined);
   if (!projected) {
     const swapped = swappedLonLatError(
       rows.map((r, k) => ({ lon: Number(r[xc]), lat: Number(r[yc]), where: `${src} line ${lines[k]}` })),
@@ -300,17 +319,9 @@ export function pointsFromCsv(
   ]);
   const problems: InputProblem[] = [];
   const features = rows.map((r, k) => {
-    const props: Record<string, unknown> = {};
-    header.forEach((h, c) => {
-      if (c === xc || c === yc) return;
-      const cell = r[c].trim();
-      if (cell === '') return;
-      if (numeric.has(h)) {
-        const v = Number(cell);
-        if (!Number.isFinite(v)) problems.push({ feature: `line ${lines[k]}`, field: h, problem: `expected a finite number, got "${cell}"` });
-        props[h] = v;
-      } else props[h] = cell;
-    });
+    const props = rowProperties(header, r, [xc, yc], numeric, (h, cell) =>
+      problems.push({ feature: `line ${lines[k]}`, field: h, problem: `expected a finite number, got "${cell}"` }),
+    );
     const a = Number(r[xc]),
       b = Number(r[yc]);
     if (r[xc].trim() === '' || !Number.isFinite(a) || r[yc].trim() === '' || !Number.isFinite(b)) {
