@@ -118,8 +118,8 @@ function readRegions(
   return { regions: found.regions, mask };
 }
 
-/** Parses and checks a run request and the data sets it names. */
-export async function readRunInputs(request: unknown, datasets: Record<string, StoredDataset>): Promise<RunInputs> {
+/** The run request and its interpolation options, checked against their schemas; a run grids heat flow. */
+function parseRequest(request: unknown): { req: RunRequest; iopt: InterpolationRequest } {
   const parsed = runRequestSchema.safeParse(request);
   if (!parsed.success)
     throw invalid(
@@ -127,7 +127,6 @@ export async function readRunInputs(request: unknown, datasets: Record<string, S
       parsed.error.issues.map((i) => ({ field: i.path.map(String).join('.') || '(request)', problem: i.message })),
     );
   const req = parsed.data;
-  const warnings: string[] = [];
   const ip = interpolationOptionsSchema.safeParse(req.interpolation);
   if (!ip.success)
     throw invalid(
@@ -141,13 +140,11 @@ export async function readRunInputs(request: unknown, datasets: Record<string, S
       [{ field: 'interpolation.field', problem: 'expected heatFlowMWm2' }],
       'invalid_request',
     );
-  const sitesDs = dataset(datasets, req.sites, 'sites');
-  const { points, warnings: pw } = pointsFromGeoJson(parseJsonBody(sitesDs, req.sites, 'sites'), 'heatFlowMWm2', { source: `data set ${req.sites}` });
-  warnings.push(...pw);
-  const hashes: Record<string, string> = { sites: sha256Hex(sitesDs.body) };
-  const doc = readModel(req, datasets, hashes);
-  const faults = readFaults(req, datasets, hashes, warnings);
-  const { regions, mask } = readRegions(req, datasets, hashes, warnings);
+  return { req, iopt };
+}
+
+/** The output CRS code: the grid's, else the interpolation options', else EPSG:4326. */
+function outputCrs(req: RunRequest, iopt: InterpolationRequest): string {
   const crs = req.grid.crs ?? iopt.crs ?? 'EPSG:4326';
   if (!/^EPSG:\d{4,6}$/i.test(crs))
     throw new InputError(
@@ -155,9 +152,19 @@ export async function readRunInputs(request: unknown, datasets: Record<string, S
       [{ field: 'grid.crs', problem: 'expected EPSG:4326 or EPSG:nnnn' }],
       'bad_crs',
     );
-  const crsDef = await loadCrsDefinition(crs);
-  hashes.request = sha256Json(request);
-  const interpOptions: InterpolationOptions = {
+  return crs;
+}
+
+/** What the interpolation engine gets: the options, the barriers, the mask and the grid (the run's grid first). */
+function engineOptions(
+  req: RunRequest,
+  iopt: InterpolationRequest,
+  faults: number[][][] | null,
+  mask: Rings | null,
+  crs: string,
+  crsDef: string,
+): InterpolationOptions {
+  return {
     method: iopt.method,
     neighbors: iopt.neighbors,
     radiusKm: iopt.radiusKm,
@@ -184,6 +191,23 @@ export async function readRunInputs(request: unknown, datasets: Record<string, S
       crsDef,
     },
   };
+}
+
+/** Parses and checks a run request and the data sets it names. */
+export async function readRunInputs(request: unknown, datasets: Record<string, StoredDataset>): Promise<RunInputs> {
+  const { req, iopt } = parseRequest(request);
+  const warnings: string[] = [];
+  const sitesDs = dataset(datasets, req.sites, 'sites');
+  const { points, warnings: pw } = pointsFromGeoJson(parseJsonBody(sitesDs, req.sites, 'sites'), 'heatFlowMWm2', { source: `data set ${req.sites}` });
+  warnings.push(...pw);
+  const hashes: Record<string, string> = { sites: sha256Hex(sitesDs.body) };
+  const doc = readModel(req, datasets, hashes);
+  const faults = readFaults(req, datasets, hashes, warnings);
+  const { regions, mask } = readRegions(req, datasets, hashes, warnings);
+  const crs = outputCrs(req, iopt);
+  const crsDef = await loadCrsDefinition(crs);
+  hashes.request = sha256Json(request);
+  const interpOptions = engineOptions(req, iopt, faults, mask, crs, crsDef);
   const faciesDepthKm = req.faciesDepthKm ?? (req.depthsKm.length > 0 ? Math.max(...req.depthsKm) : 10);
   if (req.heatFlowErrorCorrelation !== undefined) warnings.push(HEAT_FLOW_CORRELATION_DEPRECATED);
   return {

@@ -32,6 +32,9 @@ export class Fft {
   private readonly wi: Float64Array;
   private readonly bufRe: Float64Array;
   private readonly bufIm: Float64Array;
+  /** One stage's twiddles and one butterfly's inputs (scratch). */
+  private readonly tw = new Float64Array(8);
+  private readonly x = new Float64Array(10);
 
   constructor(n: number, maxBatch = 1) {
     if (!(Number.isInteger(n) && n >= 1)) throw new RangeError(`FFT length must be a positive integer, got ${n}`);
@@ -77,165 +80,168 @@ export class Fft {
    * es > 1) and the work buffer (elements at e·B).
    */
   private run(re: Float64Array, im: Float64Array, off: number, es: number, B: number): void {
-    const n = this.n,
-      wr = this.wr,
-      wi = this.wi;
-    let aRe = re,
-      aIm = im,
-      aOff = off,
-      aEs = es;
-    let bRe = this.bufRe,
-      bIm = this.bufIm,
-      bOff = 0,
-      bEs = B;
-    let L = 1,
-      S = n;
+    const n = this.n;
+    let a: Side = { re, im, off, es };
+    let b: Side = { re: this.bufRe, im: this.bufIm, off: 0, es: B };
+    let L = 1;
     for (const p of this.factors) {
-      const S2 = S / p,
-        L2 = L * p,
-        tw = n / L2;
-      for (let s = 0; s < L; s++) {
-        // Twiddle W_{pL}^{q·s} = W_n^{q·s·n/(pL)}.
-        const t1 = s * tw;
-        const w1r = wr[t1],
-          w1i = wi[t1];
-        const w2r = p >= 2 ? wr[(2 * t1) % n] : 0,
-          w2i = p >= 2 ? wi[(2 * t1) % n] : 0;
-        const w3r = p >= 3 ? wr[(3 * t1) % n] : 0,
-          w3i = p >= 3 ? wi[(3 * t1) % n] : 0;
-        const w4r = p >= 4 ? wr[(4 * t1) % n] : 0,
-          w4i = p >= 4 ? wi[(4 * t1) % n] : 0;
-        for (let r = 0; r < S2; r++) {
-          // Element index in A of part q: s·S + r + S2·q; in B of output c: (s + L·c)·S2 + r.
-          const ia = s * S + r,
-            ib = s * S2 + r;
-          for (let bb = 0; bb < B; bb++) {
-            const a0 = aOff + ia * aEs + bb,
-              o0 = bOff + ib * bEs + bb;
-            const da = S2 * aEs,
-              db = L * S2 * bEs;
-            const x0r = aRe[a0],
-              x0i = aIm[a0];
-            let v = aRe[a0 + da],
-              u = aIm[a0 + da];
-            const x1r = v * w1r - u * w1i,
-              x1i = v * w1i + u * w1r;
-            if (p === 2) {
-              bRe[o0] = x0r + x1r;
-              bIm[o0] = x0i + x1i;
-              bRe[o0 + db] = x0r - x1r;
-              bIm[o0 + db] = x0i - x1i;
-              continue;
-            }
-            v = aRe[a0 + 2 * da];
-            u = aIm[a0 + 2 * da];
-            const x2r = v * w2r - u * w2i,
-              x2i = v * w2i + u * w2r;
-            if (p === 3) {
-              // W_3 = −½ − i·√3/2.
-              const sr = x1r + x2r,
-                si = x1i + x2i;
-              const dr = x1r - x2r,
-                di = x1i - x2i;
-              const mr = x0r - 0.5 * sr,
-                mi = x0i - 0.5 * si;
-              const k = 0.8660254037844386;
-              bRe[o0] = x0r + sr;
-              bIm[o0] = x0i + si;
-              bRe[o0 + db] = mr + k * di;
-              bIm[o0 + db] = mi - k * dr;
-              bRe[o0 + 2 * db] = mr - k * di;
-              bIm[o0 + 2 * db] = mi + k * dr;
-              continue;
-            }
-            v = aRe[a0 + 3 * da];
-            u = aIm[a0 + 3 * da];
-            const x3r = v * w3r - u * w3i,
-              x3i = v * w3i + u * w3r;
-            if (p === 4) {
-              // W_4 = −i.
-              const s02r = x0r + x2r,
-                s02i = x0i + x2i,
-                d02r = x0r - x2r,
-                d02i = x0i - x2i;
-              const s13r = x1r + x3r,
-                s13i = x1i + x3i,
-                d13r = x1r - x3r,
-                d13i = x1i - x3i;
-              bRe[o0] = s02r + s13r;
-              bIm[o0] = s02i + s13i;
-              bRe[o0 + db] = d02r + d13i;
-              bIm[o0 + db] = d02i - d13r;
-              bRe[o0 + 2 * db] = s02r - s13r;
-              bIm[o0 + 2 * db] = s02i - s13i;
-              bRe[o0 + 3 * db] = d02r - d13i;
-              bIm[o0 + 3 * db] = d02i + d13r;
-              continue;
-            }
-            v = aRe[a0 + 4 * da];
-            u = aIm[a0 + 4 * da];
-            const x4r = v * w4r - u * w4i,
-              x4i = v * w4i + u * w4r;
-            // Radix 5: direct sums with W_5^k.
-            const c1 = 0.30901699437494745,
-              c2 = -0.8090169943749475,
-              s1 = 0.9510565162951535,
-              s2 = 0.5877852522924731;
-            const a1r = x1r + x4r,
-              a1i = x1i + x4i,
-              b1r = x1r - x4r,
-              b1i = x1i - x4i;
-            const a2r = x2r + x3r,
-              a2i = x2i + x3i,
-              b2r = x2r - x3r,
-              b2i = x2i - x3i;
-            const m1r = x0r + c1 * a1r + c2 * a2r,
-              m1i = x0i + c1 * a1i + c2 * a2i;
-            const m2r = x0r + c2 * a1r + c1 * a2r,
-              m2i = x0i + c2 * a1i + c1 * a2i;
-            const n1r = s1 * b1i + s2 * b2i,
-              n1i = s1 * b1r + s2 * b2r;
-            const n2r = s2 * b1i - s1 * b2i,
-              n2i = s2 * b1r - s1 * b2r;
-            bRe[o0] = x0r + a1r + a2r;
-            bIm[o0] = x0i + a1i + a2i;
-            bRe[o0 + db] = m1r + n1r;
-            bIm[o0 + db] = m1i - n1i;
-            bRe[o0 + 2 * db] = m2r + n2r;
-            bIm[o0 + 2 * db] = m2i - n2i;
-            bRe[o0 + 3 * db] = m2r - n2r;
-            bIm[o0 + 3 * db] = m2i + n2i;
-            bRe[o0 + 4 * db] = m1r - n1r;
-            bIm[o0 + 4 * db] = m1i + n1i;
-          }
-        }
-      }
-      // Swap roles.
-      const tRe = aRe,
-        tIm = aIm,
-        tOff = aOff,
-        tEs = aEs;
-      aRe = bRe;
-      aIm = bIm;
-      aOff = bOff;
-      aEs = bEs;
-      bRe = tRe;
-      bIm = tIm;
-      bOff = tOff;
-      bEs = tEs;
-      L = L2;
-      S = S2;
+      this.stage(p, L, a, b, B);
+      const t = a;
+      a = b;
+      b = t;
+      L *= p;
     }
-    if (aRe !== re) {
+    if (a.re !== re) {
       // Result sits in the work buffer: copy back.
       for (let e = 0; e < n; e++)
         for (let bb = 0; bb < B; bb++) {
-          re[off + e * es + bb] = aRe[e * B + bb];
-          im[off + e * es + bb] = aIm[e * B + bb];
+          re[off + e * es + bb] = a.re[e * B + bb];
+          im[off + e * es + bb] = a.im[e * B + bb];
         }
     }
   }
+
+  /** One radix-p stage: p interleaved transforms of length L in `a` become one of length pL in `b`. */
+  private stage(p: number, L: number, a: Side, b: Side, B: number): void {
+    const n = this.n,
+      wr = this.wr,
+      wi = this.wi,
+      w = this.tw;
+    const butterfly = BUTTERFLIES[p];
+    const S = n / L,
+      S2 = S / p,
+      tw = n / (L * p);
+    const da = S2 * a.es,
+      db = L * S2 * b.es;
+    for (let s = 0; s < L; s++) {
+      // Twiddle W_{pL}^{q·s} = W_n^{q·s·n/(pL)}.
+      const t1 = s * tw;
+      for (let q = 1; q < p; q++) {
+        w[2 * q - 2] = wr[(q * t1) % n];
+        w[2 * q - 1] = wi[(q * t1) % n];
+      }
+      for (let r = 0; r < S2; r++) {
+        // Element index in A of part q: s·S + r + S2·q; in B of output c: (s + L·c)·S2 + r.
+        const ia = s * S + r,
+          ib = s * S2 + r;
+        for (let bb = 0; bb < B; bb++) {
+          const x = this.x;
+          loadTwiddled(x, a.re, a.im, a.off + ia * a.es + bb, da, w, p);
+          butterfly(x, b.re, b.im, b.off + ib * b.es + bb, db);
+        }
+      }
+    }
+  }
 }
+
+/** One side of a Stockham stage: element e of the batch member bb at off + e·es + bb. */
+interface Side {
+  re: Float64Array;
+  im: Float64Array;
+  off: number;
+  es: number;
+}
+
+/** Writes the p outputs of one butterfly from its twiddled inputs x = [x0r, x0i, x1r, x1i, …]. */
+type Butterfly = (x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: number, db: number) => void;
+
+/** The p inputs of one butterfly, input q (q ≥ 1) multiplied by its twiddle w = [w1r, w1i, w2r, w2i, …]. */
+function loadTwiddled(x: Float64Array, aRe: Float64Array, aIm: Float64Array, a0: number, da: number, w: Float64Array, p: number): void {
+  x[0] = aRe[a0];
+  x[1] = aIm[a0];
+  for (let q = 1; q < p; q++) {
+    const v = aRe[a0 + q * da],
+      u = aIm[a0 + q * da];
+    const cr = w[2 * q - 2],
+      ci = w[2 * q - 1];
+    x[2 * q] = v * cr - u * ci;
+    x[2 * q + 1] = v * ci + u * cr;
+  }
+}
+
+function radix2(x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: number, db: number): void {
+  bRe[o0] = x[0] + x[2];
+  bIm[o0] = x[1] + x[3];
+  bRe[o0 + db] = x[0] - x[2];
+  bIm[o0 + db] = x[1] - x[3];
+}
+
+function radix3(x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: number, db: number): void {
+  // W_3 = −½ − i·√3/2.
+  const x0r = x[0],
+    x0i = x[1];
+  const sr = x[2] + x[4],
+    si = x[3] + x[5];
+  const dr = x[2] - x[4],
+    di = x[3] - x[5];
+  const mr = x0r - 0.5 * sr,
+    mi = x0i - 0.5 * si;
+  const k = 0.8660254037844386;
+  bRe[o0] = x0r + sr;
+  bIm[o0] = x0i + si;
+  bRe[o0 + db] = mr + k * di;
+  bIm[o0 + db] = mi - k * dr;
+  bRe[o0 + 2 * db] = mr - k * di;
+  bIm[o0 + 2 * db] = mi + k * dr;
+}
+
+function radix4(x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: number, db: number): void {
+  // W_4 = −i.
+  const s02r = x[0] + x[4],
+    s02i = x[1] + x[5],
+    d02r = x[0] - x[4],
+    d02i = x[1] - x[5];
+  const s13r = x[2] + x[6],
+    s13i = x[3] + x[7],
+    d13r = x[2] - x[6],
+    d13i = x[3] - x[7];
+  bRe[o0] = s02r + s13r;
+  bIm[o0] = s02i + s13i;
+  bRe[o0 + db] = d02r + d13i;
+  bIm[o0 + db] = d02i - d13r;
+  bRe[o0 + 2 * db] = s02r - s13r;
+  bIm[o0 + 2 * db] = s02i - s13i;
+  bRe[o0 + 3 * db] = d02r - d13i;
+  bIm[o0 + 3 * db] = d02i + d13r;
+}
+
+function radix5(x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: number, db: number): void {
+  // Direct sums with W_5^k.
+  const c1 = 0.30901699437494745,
+    c2 = -0.8090169943749475,
+    s1 = 0.9510565162951535,
+    s2 = 0.5877852522924731;
+  const x0r = x[0],
+    x0i = x[1];
+  const a1r = x[2] + x[8],
+    a1i = x[3] + x[9],
+    b1r = x[2] - x[8],
+    b1i = x[3] - x[9];
+  const a2r = x[4] + x[6],
+    a2i = x[5] + x[7],
+    b2r = x[4] - x[6],
+    b2i = x[5] - x[7];
+  const m1r = x0r + c1 * a1r + c2 * a2r,
+    m1i = x0i + c1 * a1i + c2 * a2i;
+  const m2r = x0r + c2 * a1r + c1 * a2r,
+    m2i = x0i + c2 * a1i + c1 * a2i;
+  const n1r = s1 * b1i + s2 * b2i,
+    n1i = s1 * b1r + s2 * b2r;
+  const n2r = s2 * b1i - s1 * b2i,
+    n2i = s2 * b1r - s1 * b2r;
+  bRe[o0] = x0r + a1r + a2r;
+  bIm[o0] = x0i + a1i + a2i;
+  bRe[o0 + db] = m1r + n1r;
+  bIm[o0 + db] = m1i - n1i;
+  bRe[o0 + 2 * db] = m2r + n2r;
+  bIm[o0 + 2 * db] = m2i - n2i;
+  bRe[o0 + 3 * db] = m2r - n2r;
+  bIm[o0 + 3 * db] = m2i + n2i;
+  bRe[o0 + 4 * db] = m1r - n1r;
+  bIm[o0 + 4 * db] = m1i + n1i;
+}
+
+const BUTTERFLIES: Record<number, Butterfly> = { 2: radix2, 3: radix3, 4: radix4, 5: radix5 };
 
 /**
  * In-place forward 2-D transform of a row-major mx × my array (mx columns, my rows): the rows one by one, then all

@@ -1,7 +1,7 @@
 import { createStream } from '../random/prng.ts';
 import { FaultBarrier } from './barriers.ts';
 import { KrigingPredictor } from './kriging.ts';
-import { buildSites, fillNormals, CholeskySampler, LatticeSampler, MAX_CHOLESKY_SITES, type Sampler } from './samplers.ts';
+import { buildSites, fillNormals, CholeskySampler, LatticeSampler, MAX_CHOLESKY_SITES, type Sampler, type Sites } from './samplers.ts';
 import { driftFrame, externalDriftFrame, type DriftKind } from './drift.ts';
 import { anisotropyMatrix, checkVariogram, type Anisotropy, type VariogramModel } from './variogram.ts';
 
@@ -151,36 +151,33 @@ function conditioningDrift(s: SimulationSetup, dx: Float64Array, dy: Float64Arra
   return externalDriftFrame(s.covariate.atData);
 }
 
-/** Sets up the sampler and the shared conditioning weights. */
-export function createConditionalSimulator(s: SimulationSetup): ConditionalSimulator {
-  checkVariogram(s.model);
-  const m = anisotropyMatrix(s.anisotropy ?? null);
-  const sites = buildSites(s.x, s.y, s.tx, s.ty);
+/** The unconditional sampler: `auto` takes the exact one up to `MAX_CHOLESKY_SITES` distinct sites. */
+function chooseSampler(s: SimulationSetup, sites: Sites, m: [number, number, number, number]): Sampler {
   const nSites = sites.sx.length;
   let kind = s.sampler ?? 'auto';
   if (kind === 'auto') kind = nSites <= MAX_CHOLESKY_SITES ? 'cholesky' : 'lattice';
   if (kind === 'cholesky' && nSites > MAX_CHOLESKY_SITES)
     throw new RangeError(`the exact (Cholesky) sampler handles up to ${MAX_CHOLESKY_SITES} distinct sites, got ${nSites}`);
-  let sampler: Sampler;
-  if (kind === 'cholesky') sampler = new CholeskySampler(sites, s.model, m);
-  else {
-    let h = s.latticeKm;
-    if (h === undefined) {
-      let x0 = Infinity,
-        x1 = -Infinity,
-        y0 = Infinity,
-        y1 = -Infinity;
-      for (let i = 0; i < nSites; i++) {
-        x0 = Math.min(x0, sites.sx[i]);
-        x1 = Math.max(x1, sites.sx[i]);
-        y0 = Math.min(y0, sites.sy[i]);
-        y1 = Math.max(y1, sites.sy[i]);
-      }
-      h = Math.max(x1 - x0, y1 - y0, 1e-3) / 512;
+  if (kind === 'cholesky') return new CholeskySampler(sites, s.model, m);
+  let h = s.latticeKm;
+  if (h === undefined) {
+    let x0 = Infinity,
+      x1 = -Infinity,
+      y0 = Infinity,
+      y1 = -Infinity;
+    for (let i = 0; i < nSites; i++) {
+      x0 = Math.min(x0, sites.sx[i]);
+      x1 = Math.max(x1, sites.sx[i]);
+      y0 = Math.min(y0, sites.sy[i]);
+      y1 = Math.max(y1, sites.sy[i]);
     }
-    sampler = new LatticeSampler(sites, s.model, m, h);
+    h = Math.max(x1 - x0, y1 - y0, 1e-3) / 512;
   }
-  // Conditioning weights from the predictor in the anisotropy-transformed space.
+  return new LatticeSampler(sites, s.model, m, h);
+}
+
+/** The conditioning kriging predictor, in the anisotropy-transformed space of the data. */
+function conditioningPredictor(s: SimulationSetup, m: [number, number, number, number]): KrigingPredictor {
   const n = s.x.length;
   const dx = new Float64Array(n),
     dy = new Float64Array(n);
@@ -188,30 +185,30 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
     dx[i] = m[0] * s.x[i] + m[1] * s.y[i];
     dy[i] = m[2] * s.x[i] + m[3] * s.y[i];
   }
-  const ev = s.errorVariance ?? null;
-  const predictor = new KrigingPredictor(dx, dy, s.z, s.model, {
+  return new KrigingPredictor(dx, dy, s.z, s.model, {
     neighbors: s.neighbors ?? 16,
     maxGlobal: s.maxGlobal,
-    errorVariance: ev,
+    errorVariance: s.errorVariance ?? null,
     visibility: barrierIn(s.faults ?? null, m, dx, dy),
     drift: conditioningDrift(s, dx, dy),
   });
-  const weights = conditioningWeights(predictor, m, s.tx, s.ty, s.trend === 'external' ? s.covariate!.atTargets : null);
-  const warnings = [...sampler.warnings];
-  if (predictor.counters.regularized > 0)
-    warnings.push(`${predictor.counters.regularized} conditioning system(s) were ill-conditioned and solved with a small diagonal regularization`);
-  if (weights.empty > 0) warnings.push(`${weights.empty} target(s) had no usable conditioning system and are no data`);
+}
 
-  const T = s.tx.length;
-  const uA = new Float64Array(nSites),
-    uB = new Float64Array(nSites);
+/**
+ * Conditions one unconditional field `u` (per site) on the data: fills and returns the values at the targets,
+ * Z_u(x) + Σᵢ λᵢ(x)·(zᵢ − Z_u(xᵢ) − noiseᵢ), with the data's measurement noise from `createStream(seed, r, 2)`.
+ */
+function conditioner(s: SimulationSetup, sites: Sites, weights: ConditioningWeights) {
+  const n = s.x.length,
+    T = s.tx.length;
+  const ev = s.errorVariance ?? null;
   const resid = new Float64Array(n);
   const vals = new Float64Array(T);
   const { offsets, ids, lambda } = weights;
   const errSd = ev === null ? null : Float64Array.from(ev, (v) => Math.sqrt(v));
   const noise = new Float64Array(errSd === null ? 0 : n);
   const noiseRng = createStream(0);
-  const condition = (u: Float64Array, seed: number, r: number) => {
+  return (u: Float64Array, seed: number, r: number): Float64Array => {
     if (errSd !== null) {
       fillNormals(noiseRng.reset(seed, r, 2), noise, errSd, 1, false);
       for (let i = 0; i < n; i++) resid[i] = s.z[i] - u[sites.dataSite[i]] - noise[i];
@@ -227,7 +224,27 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
       for (let o = o0; o < o1; o++) acc += lambda[o] * resid[ids[o]];
       vals[t] = acc;
     }
+    return vals;
   };
+}
+
+/** Sets up the sampler and the shared conditioning weights. */
+export function createConditionalSimulator(s: SimulationSetup): ConditionalSimulator {
+  checkVariogram(s.model);
+  const m = anisotropyMatrix(s.anisotropy ?? null);
+  const sites = buildSites(s.x, s.y, s.tx, s.ty);
+  const nSites = sites.sx.length;
+  const sampler = chooseSampler(s, sites, m);
+  const predictor = conditioningPredictor(s, m);
+  const weights = conditioningWeights(predictor, m, s.tx, s.ty, s.trend === 'external' ? s.covariate!.atTargets : null);
+  const warnings = [...sampler.warnings];
+  if (predictor.counters.regularized > 0)
+    warnings.push(`${predictor.counters.regularized} conditioning system(s) were ill-conditioned and solved with a small diagonal regularization`);
+  if (weights.empty > 0) warnings.push(`${weights.empty} target(s) had no usable conditioning system and are no data`);
+
+  const uA = new Float64Array(nSites),
+    uB = new Float64Array(nSites);
+  const condition = conditioner(s, sites, weights);
   return {
     sampler: sampler.kind,
     samplerInfo: sampler.info,
@@ -237,8 +254,7 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
       if (!sampler.pairs) {
         for (let r = r0; r < r1; r++) {
           sampler.sample(seed, r, uA, null);
-          condition(uA, seed, r);
-          emit(r, vals);
+          emit(r, condition(uA, seed, r));
         }
         return;
       }
@@ -246,14 +262,8 @@ export function createConditionalSimulator(s: SimulationSetup): ConditionalSimul
       for (let p = r0 - (r0 % 2); p < r1; p += 2) {
         const wantB = p + 1 < r1;
         sampler.sample(seed, p, uA, wantB ? uB : null);
-        if (p >= r0) {
-          condition(uA, seed, p);
-          emit(p, vals);
-        }
-        if (wantB) {
-          condition(uB, seed, p + 1);
-          emit(p + 1, vals);
-        }
+        if (p >= r0) emit(p, condition(uA, seed, p));
+        if (wantB) emit(p + 1, condition(uB, seed, p + 1));
       }
     },
   };
