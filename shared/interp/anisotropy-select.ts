@@ -30,7 +30,7 @@ export function krigingWithAnisotropy(ctx: KrigingContext, trend: DriftKind, for
   const used = aniso.cv!.rmse < iso.cv!.rmse;
   const chosen = used ? aniso : iso;
   const report: AnisotropyReport = { ...est, used, selectedBy: 'cross-validation', cvRmse: { isotropic: iso.cv!.rmse, anisotropic: aniso.cv!.rmse } };
-  const warnings = est.limit === null ? chosen.warnings : [...chosen.warnings, est.limit];
+  const warnings = est.limit === null || est.limit === undefined ? chosen.warnings : [...chosen.warnings, est.limit];
   return {
     ...chosen,
     warnings,

@@ -24,8 +24,8 @@ export const anisotropyEstimateSchema = z.strictObject({
   weightedResidual: z.number(),
   /** The same criterion for the best isotropic model on the same semivariances. */
   isotropicWeightedResidual: z.number(),
-  /** Why the fit stopped at a bound (major range at its cap, ratio at its floor), or null. */
-  limit: z.string().nullable(),
+  /** Why the fit stopped at a bound (major range at its cap, ratio at its floor), or null; absent in summaries stored before it was reported. */
+  limit: z.string().nullable().optional(),
   /** Half-width of each direction class in angle (degrees) and the bandwidth (km; null: none). */
   toleranceDeg: z.number(),
   bandwidthKm: z.number().nullable(),
