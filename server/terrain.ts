@@ -4,7 +4,7 @@ import { gridBbox } from '../shared/grid/grid.ts';
 import { encodeRgb, TERRAIN_RGB, type RgbEncoding } from '../shared/grid/terrain-rgb.ts';
 import { lngFromTileX, latFromTileY, tileIntersectsBbox } from '../shared/grid/webmercator.ts';
 import { encodePng } from './io/png.ts';
-import { readGeoTiff, type GeoTiffFile } from './io/geotiff.ts';
+import { readGeoTiff, type GeoTiffFile, type GeoTiffLevel } from './io/geotiff.ts';
 
 export const TILE_SIZE = 256;
 export const TERRAIN_MIN_ZOOM = 4;
@@ -17,21 +17,11 @@ export async function loadDem(path: string): Promise<Grid<Float32Array>> {
   return { ...r.grid, units: 'm' };
 }
 
-/** The georeferencing of a lon/lat raster level (degrees): full grid or overview. */
-interface LevelSpec {
-  width: number;
-  height: number;
-  west: number;
-  north: number;
-  dx: number;
-  dy: number;
-}
-
 /**
  * Fractional column and row (cell centres at integers) of each tile pixel centre against `d`, NaN beyond it
  * (clamped to the edge with `clamp`).
  */
-function tileAxes(d: LevelSpec, z: number, x: number, y: number, clamp: boolean, colX: Float64Array, rowY: Float64Array): void {
+function tileAxes(d: GeoTiffLevel, z: number, x: number, y: number, clamp: boolean, colX: Float64Array, rowY: Float64Array): void {
   const maxC = d.width - 1,
     maxR = d.height - 1;
   for (let i = 0; i < TILE_SIZE; i++) {
@@ -45,7 +35,7 @@ function tileAxes(d: LevelSpec, z: number, x: number, y: number, clamp: boolean,
 }
 
 /** The cells a tile's bilinear samples touch: [c0, c1) × [r0, r1) of the level, or null when none. */
-function tileWindow(d: LevelSpec, colX: Float64Array, rowY: Float64Array): [number, number, number, number] | null {
+function tileWindow(d: GeoTiffLevel, colX: Float64Array, rowY: Float64Array): [number, number, number, number] | null {
   let cMin = Infinity,
     cMax = -Infinity,
     rMin = Infinity,
@@ -71,7 +61,7 @@ function tileWindow(d: LevelSpec, colX: Float64Array, rowY: Float64Array): [numb
  * (row-major, width ww), encoded into `rgb`. Where a neighbour is no data the nearest cell's value is used.
  */
 function renderPixels(
-  d: LevelSpec,
+  d: GeoTiffLevel,
   v: ArrayLike<number>,
   c0w: number,
   r0w: number,

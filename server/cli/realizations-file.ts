@@ -21,19 +21,13 @@ import type { GridSpec } from '../../shared/grid/grid.ts';
 
 export const REALIZATIONS_FORMAT = 'subtherm-realizations';
 
-export interface RealizationsHeader {
+/** The grid's georeferencing (GridSpec: width, height, west, north, dx, dy, crs) and the stack's description. */
+export interface RealizationsHeader extends GridSpec {
   format: typeof REALIZATIONS_FORMAT;
   version: 1;
   field: string;
   units: string;
   realizations: number;
-  width: number;
-  height: number;
-  west: number;
-  north: number;
-  dx: number;
-  dy: number;
-  crs: string;
   sampleType: 'float32';
   byteOrder: 'little-endian';
   layout: string;

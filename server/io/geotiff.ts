@@ -1,5 +1,5 @@
 import { GeoTIFF, fromArrayBuffer, fromFile } from 'geotiff';
-import type { Grid } from '../../shared/grid/grid.ts';
+import type { Grid, GridSpec } from '../../shared/grid/grid.ts';
 import { checkSpec } from '../../shared/grid/grid.ts';
 import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
@@ -281,16 +281,11 @@ export interface RangeSource {
   close(): Promise<void>;
 }
 
-/** One resolution of a file: the full grid (level 0) or an internal overview, with its georeferencing. */
-export interface GeoTiffLevel {
-  width: number;
-  height: number;
-  west: number;
-  north: number;
-  /** Cell size in CRS units (an overview's covers the full extent: full width × dx / overview width). */
-  dx: number;
-  dy: number;
-}
+/**
+ * One resolution of a file: the full grid (level 0) or an internal overview, with its georeferencing (the file's CRS
+ * is in its header). Cell size dx, dy in CRS units: an overview's covers the full extent (full width × dx / its width).
+ */
+export type GeoTiffLevel = Omit<GridSpec, 'crs'>;
 
 /**
  * A GeoTIFF file read window by window (only the tiles or strips a window touches are read from disk), at full
