@@ -108,7 +108,7 @@ describe('the map client: data, run, inspector, section', () => {
     await page.locator('#run-button').click();
     await page.waitForTimeout(600);
     await shot('2-running');
-    await expect.poll(() => page.locator('#run-progress').getAttribute('aria-valuenow'), { timeout: 120_000 }).toBe('100');
+    await expect.poll(() => page.locator('#run-progress').getAttribute('aria-valuenow'), { timeout: 360_000 }).toBe('100');
     const seen = await page.evaluate(() => (window as unknown as { __progress: number[] }).__progress);
     const between = seen.filter((v) => v > 0 && v < 100);
     expect(between.length).toBeGreaterThan(0);
@@ -209,7 +209,7 @@ describe('the map client: data, run, inspector, section', () => {
     const href = await page.locator('[data-layer="run-depth-300C"] a[data-format="tif"]').getAttribute('href');
     expect(href).toBe(`/api/runs/${run.id}/layers/depth-300C.tif`);
     await shot('3-run-done');
-  }, 240_000);
+  }, 480_000);
 
   it("the structure tab shows the run's isograd and fault report; isograds draw with high-side ticks", async () => {
     const run = await page.evaluate(() => window.subtherm!.run!.run);
