@@ -318,7 +318,10 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     // same options. The nominal totals (the kriged heat-flow map, the options' central values) must agree to
     // rounding; then the P10–P90 against the command line simulating from the run's sites with its seed.
     const dir = mkdtempSync(join(TMP, 'hip-'));
-    const get = async (path: string) => Buffer.from(await (await fetch(server.url + path)).arrayBuffer());
+    // A GET is retried once if its pooled keep-alive connection was closed by the server as it was reused (a race a
+    // busy machine makes likely); a real failure fails twice.
+    const fetchOnce = async (path: string) => Buffer.from(await (await fetch(server.url + path)).arrayBuffer());
+    const get = async (path: string) => fetchOnce(path).catch(() => fetchOnce(path));
     writeFileSync(join(dir, 'hf.tif'), await get(`/api/runs/${runId}/layers/heat-flow.tif`));
     const run = (await (await fetch(`${server.url}/api/runs/${runId}`)).json()) as { request: { model: unknown; seed: number } };
     writeFileSync(join(dir, 'model.json'), JSON.stringify(run.request.model));

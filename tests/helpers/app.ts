@@ -26,8 +26,10 @@ export async function startTestApp(prefix: string, opts: Partial<AppOptions> = {
   await app.ready;
   const post = async (path: string, body: unknown): Promise<Response> =>
     app.request(path, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body) });
+  // Polls until the run ends, for up to 10 minutes of wall time (a busy machine may run a demo run for minutes; the
+  // tests assert no wall time, and each test's own timeout still bounds the wait).
   const waitEnd = async <T>(id: string): Promise<T> => {
-    for (let i = 0; i < 3000; i++) {
+    for (const deadline = Date.now() + 600_000; Date.now() < deadline;) {
       const r = (await (await app.request(`/api/runs/${id}`)).json()) as { status: string };
       if (['done', 'failed', 'cancelled'].includes(r.status)) return r as T;
       await new Promise((res) => setTimeout(res, 20));
