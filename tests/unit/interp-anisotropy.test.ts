@@ -9,6 +9,7 @@ import { estimateAnisotropy } from '../../shared/interp/anisotropy.ts';
 import { anisotropyMatrix, covariance, type VariogramModel } from '../../shared/interp/variogram.ts';
 import { InputError } from '../../shared/errors.ts';
 import { prng } from '../helpers/prng.ts';
+import { requireGstat } from '../helpers/gstat.ts';
 
 // Directional semivariograms and the variogram map checked against R's gstat (Debian r-cran-gstat; Pebesma 2004;
 // docs/sources.md#directional-variogram): variogram(z ~ 1, alpha = …, tol.hor = …, cutoff, width) and
@@ -42,6 +43,7 @@ function rscript(lines: string[], dir: string): string {
 describe('directional semivariograms and the variogram map against R gstat', () => {
   let dir = '';
   beforeAll(() => {
+    requireGstat();
     dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'aniso-gstat-'));
     writeFileSync(join(dir, 'pts.csv'), 'x,y,z\n' + Array.from(DATA.x, (xi, i) => `${xi},${DATA.y[i]},${DATA.z[i]}`).join('\n'));
   });

@@ -11,6 +11,7 @@ import type { VariogramModel } from '../../shared/interp/variogram.ts';
 import { writeGeoTiff } from '../../server/io/geotiff.ts';
 import { runCliJson } from '../helpers/cli.ts';
 import { prng } from '../helpers/prng.ts';
+import { requireGstat } from '../helpers/gstat.ts';
 
 /**
  * Kriging with an external drift (docs/sources.md#external-drift): the mean is a₀ + a₁·s(x) with s a covariate grid.
@@ -61,12 +62,11 @@ const cells = [
   [52, 33],
 ];
 
-const hasGstat = spawnSync('Rscript', ['-e', 'suppressMessages(library(gstat))'], { stdio: 'ignore' }).status === 0;
-
-describe.skipIf(!hasGstat)('kriging with an external drift against R gstat (z ~ s)', () => {
+describe('kriging with an external drift against R gstat (z ~ s)', () => {
   let dir = '';
   const ref: Record<string, number[]> = {};
   beforeAll(() => {
+    requireGstat();
     dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'ked-gstat-'));
     const proj = localProjectionFor(lon, lat);
     const local = (lo: ArrayLike<number>, la: ArrayLike<number>) => {
@@ -296,4 +296,5 @@ describe('subtherm interpolate / simulate --trend drift:G.tif', () => {
     expect(bad.json.error.message).toMatch(/cells of the output grid/);
     expect(bad.json.error.details[0].field).toBe('trend');
   });
+
 });

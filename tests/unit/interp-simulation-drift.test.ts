@@ -11,6 +11,7 @@ import { covariance, type VariogramModel } from '../../shared/interp/variogram.t
 import type { TrendKind } from '../../shared/interp/drift.ts';
 import type { PointData } from '../../shared/interp/interpolate.ts';
 import { prng } from '../helpers/prng.ts';
+import { requireGstat } from '../helpers/gstat.ts';
 
 /**
  * Conditional simulation with a drift (docs/sources.md#conditional-simulation, #universal-kriging): the unconditional
@@ -135,9 +136,7 @@ describe('conditioning by universal kriging reproduces the universal-kriging mom
 
 // The whole path from lon/lat points (simulateAtPoints, --transform none, --trend linear, --neighbors all, a fixed
 // variogram) against R gstat's universal kriging of the same points in the same local km coordinates.
-const hasGstat = spawnSync('Rscript', ['-e', 'suppressMessages(library(gstat))'], { stdio: 'ignore' }).status === 0;
-
-describe.skipIf(!hasGstat)('simulateAtPoints with a linear drift against R gstat krige (z ~ x + y)', () => {
+describe('simulateAtPoints with a linear drift against R gstat krige (z ~ x + y)', () => {
   const n = 40;
   const r = prng(321);
   const lon = Float64Array.from({ length: n }, () => -131 + 0.8 * r());
@@ -153,6 +152,7 @@ describe.skipIf(!hasGstat)('simulateAtPoints with a linear drift against R gstat
   let dir = '';
   let ref: { pred: number[]; var: number[] } = { pred: [], var: [] };
   beforeAll(() => {
+    requireGstat();
     dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'sim-uk-gstat-'));
     const tx = new Float64Array(3),
       ty = new Float64Array(3);

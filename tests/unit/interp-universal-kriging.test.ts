@@ -13,6 +13,7 @@ import { prepareInterpolation, predictAtPoints, type PointData } from '../../sha
 import { simulateUnconditional } from '../../shared/interp/simulation.ts';
 import { lonLatToLocalKm, localProjectionFor } from '../../shared/interp/projection.ts';
 import { prng } from '../helpers/prng.ts';
+import { requireGstat } from '../helpers/gstat.ts';
 
 // Universal kriging (Matheron 1969; Goovaerts 1997 §5.3, "kriging with a trend model";
 // docs/sources.md#universal-kriging) checked two ways, both outside the project: (1) the bordered system
@@ -136,14 +137,13 @@ describe('universal kriging against a dense bordered solve (ml-matrix LU)', () =
 
 // R gstat: the same points, model vgm(20, "Exp", 30/3, 1.5) (gstat's exponential range is a third of the practical
 // range), universal kriging with the drift as formula terms.
-const hasGstat = spawnSync('Rscript', ['-e', 'suppressMessages(library(gstat))'], { stdio: 'ignore' }).status === 0;
-
-describe.skipIf(!hasGstat)('universal kriging against R gstat (krige, krige.cv)', () => {
+describe('universal kriging against R gstat (krige, krige.cv)', () => {
   let dir = '';
   const ref: Record<string, { pred: number[]; var: number[] }> = {};
   const cvRef: Record<string, number[]> = {};
   const formula: Record<string, string> = { linear: 'z ~ x + y', quadratic: 'z ~ x + y + I(x^2) + I(x*y) + I(y^2)' };
   beforeAll(() => {
+    requireGstat();
     dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'uk-gstat-'));
     writeFileSync(join(dir, 'pts.csv'), 'x,y,z\n' + Array.from(DATA.x, (xi, i) => `${xi},${DATA.y[i]},${DATA.z[i]}`).join('\n'));
     writeFileSync(join(dir, 'tg.csv'), 'x,y\n' + TARGETS.map((t) => t.join(',')).join('\n'));
