@@ -77,6 +77,26 @@ export function requireCovered(d: ExternalDriftGrid, values: Float64Array, what:
 }
 
 /**
+ * Throws when the covariate is the same at every datum (relative spread below 1e-9): the drift's term s is then a
+ * multiple of the constant term, and nothing can be fitted to it. `values` are the covariate at the data.
+ */
+export function requireVarying(d: ExternalDriftGrid, values: Float64Array): void {
+  let lo = Infinity,
+    hi = -Infinity;
+  for (const v of values) {
+    if (v < lo) lo = v;
+    if (v > hi) hi = v;
+  }
+  if (!(hi - lo <= 1e-9 * Math.max(Math.abs(lo), Math.abs(hi)))) return;
+  const u = d.grid.units ? ` ${d.grid.units}` : '';
+  throw new InputError(
+    `drift grid is constant over the data: ${d.name} is ${Number(lo.toPrecision(8))}${u} at all ${values.length} points, so it cannot carry a drift (it repeats the constant mean)`,
+    [{ field: 'trend', problem: 'use a drift grid that varies over the points, or --trend none|linear|quadratic|auto' }],
+    'drift_constant',
+  );
+}
+
+/**
  * A warning when the drift is extrapolated: how many of `values` (where the kriging estimates) lie outside the
  * covariate's range at the data sites, and that range in the grid's units. Beyond that range the fitted drift
  * coefficient is applied to covariate values no datum constrains, so the estimate there rests on the linear

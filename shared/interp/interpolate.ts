@@ -7,7 +7,7 @@ import { createGridRuntime, computeRows, type GridPlan, type RowStats } from './
 import { crossValidateIdw, type CrossValidation } from './crossValidation.ts';
 import { faultsToLocalKm, mergeCoincident, requirePoints, searchSettings, validatePoints } from './pointPrep.ts';
 import { prepareKrigingPlan } from './trendSelect.ts';
-import { covariateAtCells, covariateAtLocal, extrapolationWarning, requireCovered, type ExternalCovariate } from './externalDrift.ts';
+import { covariateAtCells, covariateAtLocal, extrapolationWarning, requireCovered, requireVarying, type ExternalCovariate } from './externalDrift.ts';
 import type { InterpolationOptions, PointData, PreparedInterpolation, VariogramReport } from './interpTypes.ts';
 
 export { DEFAULT_QUALITY_WEIGHTS } from './interpTypes.ts';
@@ -68,6 +68,7 @@ function externalCovariate(
   if (!d || opts.method !== 'kriging') return null;
   const atData = covariateAtLocal(d, projection, merged.x, merged.y);
   requireCovered(d, atData, 'points', (i) => `point ${merged.ids[i]}`);
+  requireVarying(d, atData);
   let atCells: Float64Array | null = null;
   if (grid !== null) {
     atCells = covariateAtCells(d, grid.spec, grid.crsDef);

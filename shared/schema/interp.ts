@@ -92,14 +92,21 @@ export function parseVariogramOption(raw: string | undefined): 'auto' | Variogra
   return r.data;
 }
 
-/** Parses `--trend none|linear|quadratic|auto` (default none). */
+/** Every form `--trend` accepts, for messages (the drift-grid forms are read by server/cli/drift-input.ts). */
+export const TREND_FORMS = 'none|linear|quadratic|auto|drift:G.tif|auto:drift:G.tif';
+
+/**
+ * Parses `--trend none|linear|quadratic|auto` (default none). The drift-grid forms (`drift:G.tif`,
+ * `auto:drift:G.tif`) are recognised before this by the command line, which reads the grid; anything else is an
+ * error listing every accepted form.
+ */
 export function parseTrendOption(raw: string | undefined): TrendKind | 'auto' {
   if (raw === undefined) return 'none';
   const t = raw.trim().toLowerCase();
   if (t === 'auto' || (TREND_KINDS as readonly string[]).includes(t)) return t as TrendKind | 'auto';
   throw new InputError(
-    `--trend must be none, linear, quadratic or auto, got "${raw}"`,
-    [{ field: 'trend', problem: 'expected none, linear, quadratic or auto' }],
+    `--trend must be one of ${TREND_FORMS} (G.tif: a single-band GeoTIFF covariate, e.g. sediment thickness), got "${raw}"`,
+    [{ field: 'trend', problem: `expected ${TREND_FORMS}` }],
     'bad_option',
   );
 }

@@ -94,7 +94,10 @@ describe('subtherm interpolate', () => {
     expect(t.kind).not.toBe('none');
     const bad = await run(['--points', pts, '--method', 'kriging', '--trend', 'cubic']);
     expect(bad.code).toBe(2);
-    expect(JSON.stringify(bad.json)).toContain('--trend must be none, linear, quadratic or auto');
+    // Every accepted form is listed (the drift-grid forms included).
+    expect(bad.json.error.message).toContain('--trend must be one of none|linear|quadratic|auto|drift:G.tif|auto:drift:G.tif');
+    expect(bad.json.error.message).toContain('got "cubic"');
+    expect(bad.json.error.details[0]).toMatchObject({ field: 'trend', problem: 'expected none|linear|quadratic|auto|drift:G.tif|auto:drift:G.tif' });
   });
 
   it('--at predicts at target points only, exact at a data point', async () => {

@@ -9,6 +9,7 @@ import { localProjectionFor, lonLatToLocalKm } from '../../shared/interp/project
 import type { ExternalDriftGrid } from '../../shared/interp/externalDrift.ts';
 import type { VariogramModel } from '../../shared/interp/variogram.ts';
 import { writeGeoTiff } from '../../server/io/geotiff.ts';
+import { httpStatusOf } from '../../server/http-status.ts';
 import { runCliJson } from '../helpers/cli.ts';
 import { prng } from '../helpers/prng.ts';
 import { requireGstat } from '../helpers/gstat.ts';
@@ -297,4 +298,32 @@ describe('subtherm interpolate / simulate --trend drift:G.tif', () => {
     expect(bad.json.error.details[0].field).toBe('trend');
   });
 
+  it('a drift grid constant over the data gets its own message (exit 2, drift_constant), for drift: and auto:drift:', async () => {
+    const flat = { ...driftGrid.grid, values: new Float32Array(NX * NY).fill(250) };
+    writeFileSync(join(dir, 'flat.tif'), writeGeoTiff(flat));
+    for (const [verb, trend, extra] of [
+      ['interpolate', 'drift:', ['--method', 'kriging']],
+      ['interpolate', 'auto:drift:', ['--method', 'kriging']],
+      ['simulate', 'drift:', ['--realizations', '2', '--seed', '1']],
+    ] as const) {
+      const bad = await run([
+        verb,
+        '--points',
+        join(dir, 'p.geojson'),
+        '--at',
+        join(dir, 't.geojson'),
+        '--trend',
+        `${trend}${join(dir, 'flat.tif')}`,
+        ...extra,
+      ]);
+      expect(bad.code).toBe(2);
+      expect(bad.json.error.code).toBe('drift_constant');
+      expect(bad.json.error.message).toMatch(/^drift grid is constant over the data: flat\.tif is 250 m at all 45 points/);
+      expect(bad.json.error.details[0].field).toBe('trend');
+    }
+    // The library throws the same error (the API maps its code to a 4xx: server/http-status.ts).
+    const lib = () => predictAtPoints(pts, { method: 'kriging', variogram: MODEL, trend: 'external', externalDrift: { ...driftGrid, grid: flat } }, targets);
+    expect(lib).toThrow(/drift grid is constant over the data/);
+    expect(httpStatusOf('drift_constant')).toBe(400);
+  });
 });
