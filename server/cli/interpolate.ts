@@ -52,7 +52,7 @@ export async function interpolate(argv: string[]): Promise<number> {
   const files = a.out === undefined ? [] : await writeSurfaceFiles(a.out, a.field, options, result, surfaceProvenance(a.field, options, result, inputs.hashes));
   const body = {
     ...surfaceBody(result, options.units, a.residuals),
-    blocks: inputs.blocks === null ? undefined : blockEstimates(prep, inputs.blocks),
+    blocks: inputs.blocks === null ? undefined : blockEstimates(prep, inputs.blocks, options.externalDrift),
     files,
     caution: CAUTION,
     warnings: [...warnings, ...result.warnings],
@@ -89,7 +89,7 @@ async function predictAtTargets(
   const blocks =
     inputs.blocks === null
       ? undefined
-      : blockEstimates(prepareInterpolation(inputs.points, { ...options, region: null, crossValidation: false }, false), inputs.blocks);
+      : blockEstimates(prepareInterpolation(inputs.points, { ...options, region: null, crossValidation: false }, false), inputs.blocks, options.externalDrift);
   const body = {
     predictions: r.predictions,
     blocks,

@@ -1,10 +1,11 @@
 import { RegionMask } from './mask.ts';
 import { InputError } from '../errors.ts';
 import { choleskyInPlace, choleskySolve } from './linalg.ts';
-import { lonLatToLocalKm } from './projection.ts';
+import { converter, lonLatToLocalKm, WGS84_DEF } from './projection.ts';
 import type { PreparedInterpolation } from './interpolate.ts';
 import { anisotropyMatrix, covariance, checkVariogram, type Anisotropy, type VariogramModel } from './variogram.ts';
-import { driftAt, driftFrame, DriftSystem, type TrendKind } from './drift.ts';
+import { driftAt, driftFrame, DriftSystem, externalDriftFrame, type DriftKind } from './drift.ts';
+import { covariateAtLocal, requireCovered, type ExternalDriftGrid } from './externalDrift.ts';
 
 /**
  * Ordinary block kriging of the mean over a polygon (Journel & Huijbregts 1978, §V.A.2; Isaaks & Srivastava 1989,
@@ -17,6 +18,10 @@ import { driftAt, driftFrame, DriftSystem, type TrendKind } from './drift.ts';
  * With a drift (universal block kriging, drift.ts) the constant's row becomes the drift monomials' rows, with the
  * monomials' mean over the discretisation points on the right-hand side: C·λ + F·μ = c̄, Fᵀλ = f̄;
  * σ²_V = C̄(V, V) − λᵀc̄ − μᵀf̄.
+ * With an external drift (terms 1 and the covariate s, drift.ts) f̄ holds 1 and the mean of s over the same
+ * discretisation points: the block mean of a₀ + a₁·s(x) is a₀ + a₁·s̄(V), so the system is the universal one with
+ * s̄(V) in place of the monomials' mean (Wackernagel 2003, ch. 37; R gstat takes the block's covariate value from
+ * newdata in the same way).
  */
 
 export interface BlockDiscretisation {
@@ -94,7 +99,9 @@ export class BlockKriging {
     private readonly model: VariogramModel,
     anisotropy: Anisotropy | null = null,
     errorVariance: Float64Array | null = null,
-    trend: TrendKind = 'none',
+    trend: DriftKind = 'none',
+    /** An external drift's covariate at the data (trend 'external'). */
+    covariateAtData: Float64Array | null = null,
   ) {
     checkVariogram(model);
     const n = x.length;
@@ -126,8 +133,9 @@ export class BlockKriging {
     choleskySolve(L, n, n, new Float64Array(n).fill(1), this.b);
     this.s = this.b.reduce((a, v) => a + v, 0);
     this.drift = null;
+    if (trend === 'external' && covariateAtData?.length !== n) throw new RangeError('an external drift needs its covariate at every datum');
     if (trend !== 'none') {
-      this.drift = new DriftSystem(driftFrame(trend, this.dx, this.dy), n);
+      this.drift = new DriftSystem(trend === 'external' ? externalDriftFrame(covariateAtData!) : driftFrame(trend, this.dx, this.dy), n);
       if (
         !this.drift.build(
           L,
@@ -142,9 +150,12 @@ export class BlockKriging {
     }
   }
 
-  estimate(d: BlockDiscretisation): BlockEstimate {
+  /** The block's estimate; `covariate`: an external drift's covariate at the discretisation points (trend 'external'). */
+  estimate(d: BlockDiscretisation, covariate: Float64Array | null = null): BlockEstimate {
     const { n, m, model, dx, dy } = this;
     const N = d.x.length;
+    if (this.drift?.frame.kind === 'external' && covariate?.length !== N)
+      throw new RangeError('an external drift needs its covariate at every discretisation point');
     const ux = new Float64Array(N),
       uy = new Float64Array(N);
     for (let k = 0; k < N; k++) {
@@ -171,7 +182,7 @@ export class BlockKriging {
       for (let i = 0; i < n; i++) w[i] -= mu * this.b[i];
       driftTerm = mu;
     } else {
-      const fbar = this.blockDrift(ux, uy);
+      const fbar = this.blockDrift(ux, uy, covariate);
       this.drift.solveWith(cbar, n, fbar, new Float64Array(2));
       this.drift.subtractDrift(w, n);
       driftTerm = 0;
@@ -187,13 +198,13 @@ export class BlockKriging {
     return { value, sd: Math.sqrt(v > 0 ? v : 0), blockVariance: cvv, points: N };
   }
 
-  /** The drift monomials' mean over a block's discretisation points (transformed coordinates). */
-  private blockDrift(ux: Float64Array, uy: Float64Array): Float64Array {
+  /** The drift terms' mean over a block's discretisation points (transformed coordinates; covariate s there). */
+  private blockDrift(ux: Float64Array, uy: Float64Array, s: Float64Array | null): Float64Array {
     const p = this.drift!.p;
     const fbar = new Float64Array(p),
       f = new Float64Array(p);
     for (let k = 0; k < ux.length; k++) {
-      driftAt(this.drift!.frame, ux[k], uy[k], f);
+      driftAt(this.drift!.frame, ux[k], uy[k], f, s === null ? NaN : s[k]);
       for (let j = 0; j < p; j++) fbar[j] += f[j] / ux.length;
     }
     return fbar;
@@ -208,11 +219,13 @@ export interface BlockPolygon {
 
 /**
  * Block estimates of the prepared (kriging) interpolation's field over polygons: `{ id, value, sd, units }` per
- * polygon, plus the discretisation size. Throws InputError for a polygon with no area.
+ * polygon, plus the discretisation size. With an external drift the covariate grid (`externalDrift`) is read at each
+ * block's discretisation points and must cover them. Throws InputError for a polygon with no area.
  */
 export function blockEstimates(
   prep: PreparedInterpolation,
   polygons: BlockPolygon[],
+  externalDrift: ExternalDriftGrid | null = null,
 ): { id: string; value: number; sd: number; units: string; discretisationPoints: number; spacingKm: number }[] {
   const plan = prep.plan;
   if (plan.method !== 'kriging' || plan.variogram === null)
@@ -223,13 +236,19 @@ export function blockEstimates(
       [{ field: 'block', problem: `expected at most ${plan.maxGlobal} points` }],
       'too_many_points',
     );
-  if (plan.trend === 'external')
-    throw new InputError(
-      'block estimates with an external drift are not available (the covariate would be needed over each block)',
-      [{ field: 'block', problem: 'use --trend none, linear or quadratic with --block' }],
-      'bad_option',
-    );
-  const bk = new BlockKriging(plan.x, plan.y, plan.z, plan.variogram, plan.anisotropy, plan.errorVariance, plan.trend ?? 'none');
+  const external = plan.trend === 'external';
+  if (external && (!externalDrift || !plan.covariate))
+    throw new RangeError('block estimates with an external drift need its covariate grid and its values at the data');
+  const bk = new BlockKriging(
+    plan.x,
+    plan.y,
+    plan.z,
+    plan.variogram,
+    plan.anisotropy,
+    plan.errorVariance,
+    plan.trend ?? 'none',
+    plan.covariate?.atData ?? null,
+  );
   return polygons.map((poly) => {
     const rings = poly.rings.map((ring) => {
       const lon = ring.map((p) => p[0]),
@@ -246,7 +265,16 @@ export function blockEstimates(
         [{ feature: poly.id, field: 'geometry', problem: 'expected a polygon with a non-zero area' }],
         'bad_geometry',
       );
-    const e = bk.estimate(d);
+    let s: Float64Array | null = null;
+    if (external) {
+      s = covariateAtLocal(externalDrift!, plan.projection, d.x, d.y);
+      const toLonLat = converter(plan.projection.def, WGS84_DEF);
+      requireCovered(externalDrift!, s, 'discretisation points of the blocks', (i) => {
+        const [lo, la] = toLonLat.forward([d.x[i], d.y[i]]);
+        return `block ${poly.id} at lon ${lo.toFixed(5)}, lat ${la.toFixed(5)}`;
+      });
+    }
+    const e = bk.estimate(d, s);
     return { id: poly.id, value: e.value, sd: e.sd, units: prep.units, discretisationPoints: e.points, spacingKm: d.spacingKm };
   });
 }

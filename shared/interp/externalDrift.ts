@@ -71,7 +71,7 @@ export function requireCovered(d: ExternalDriftGrid, values: Float64Array, what:
   const [w, s, e, n] = gridBbox(d.grid).map((v) => Number(v.toPrecision(8)));
   throw new InputError(
     `the drift grid ${d.name} does not cover ${bad} of the ${values.length} ${what} (first: ${label(first)}); it spans W ${w}, S ${s}, E ${e}, N ${n} (${d.grid.crs}), and a place next to a no-data cell is not covered either`,
-    [{ field: 'trend', problem: `the drift grid must cover every ${what.replace(/s$/, '')}: extend it, or use a smaller --bbox` }],
+    [{ field: 'trend', problem: `the drift grid must cover all the ${what}: extend it, or use a smaller --bbox` }],
     'drift_not_covering',
   );
 }

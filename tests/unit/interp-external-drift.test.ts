@@ -95,7 +95,8 @@ describe('kriging with an external drift against R gstat (z ~ s)', () => {
     ];
     writeFileSync(join(dir, 'ked.R'), script.join('\n'));
     const out = spawnSync('Rscript', [join(dir, 'ked.R')], { encoding: 'utf8' });
-    if (out.status !== 0) throw new Error(`Rscript failed: ${out.stderr}`);
+    if (out.error !== undefined || out.status !== 0)
+      throw new Error(`R gstat is needed for this check (Debian r-cran-gstat): Rscript failed: ${out.error?.message ?? out.stderr}`);
     for (const line of out.stdout.trim().split('\n')) {
       const [key, ...nums] = line.trim().split(/\s+/);
       ref[key] = nums.map(Number);
