@@ -36,6 +36,7 @@ import { interpolateGrid } from '../../shared/interp/interpolate.ts';
 import { WGS84_DEF } from '../../shared/interp/projection.ts';
 import { followKrigedTrend, SIMULATION_STREAM_OFFSET, simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
 import { assessOnGrid } from '../io/resource-output.ts';
+import { trendOption } from './drift-input.ts';
 import { renderText } from './heat-in-place-text.ts';
 
 const HELP =
@@ -165,6 +166,7 @@ export async function heatInPlace(argv: string[]): Promise<number> {
   const model: ThermalModelInput = parseThermalModel(parseJson(modelBytes.toString('utf8'), modelPath, 'model'), modelPath);
   const hashes: Record<string, string> = { [fromPoints ? 'points' : 'heatFlow']: hf.hash, model: sha256(modelBytes) };
   if (sd) hashes.heatFlowSd = sd.hash;
+  if (simulated?.driftHash) hashes.drift = simulated.driftHash;
 
   const { polygon, polygonLabel } = str('polygon') === undefined ? {} : await readPolygon(str('polygon')!, hashes);
   const { zones, zonePolygons } = str('zones') === undefined ? {} : await readZones(str('zones')!, str('zone-property'), hf.grid, hashes);
@@ -314,6 +316,8 @@ async function readZones(
 interface PointsHeatFlow {
   /** The kriged heat-flow grid (the deterministic "nominal" run), on the simulation's grid. */
   kriged: { grid: Grid<Float32Array>; hash: string };
+  /** SHA-256 of an external drift's covariate grid, or null. */
+  driftHash: string | null;
   realizations: { values: Float32Array; source: string };
   report: Record<string, unknown>;
   warnings: string[];
@@ -333,7 +337,8 @@ async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed:
     throw bad('seed', `with --points the seed must be an integer from 0 to ${SIMULATION_STREAM_OFFSET - 1}, got ${seed}`);
   if ((v.field ?? 'heatFlowMWm2') !== 'heatFlowMWm2') throw bad('field', 'heat in place simulates heatFlowMWm2 (mW/m²)');
   const { points, warnings, sha256 } = await readSimulationPoints(v);
-  const so = heatFlowSimulationOptions(v);
+  const trendChoice = await trendOption(v.trend);
+  const so = heatFlowSimulationOptions(v, trendChoice);
   const grid = await gridOptionsFromArgs(v);
   // A fixed variogram of normal scores does not apply to the values: the kriged grid then fits its own.
   const scoreVariogram = so.transform !== 'none' && typeof so.variogram === 'object';
@@ -342,6 +347,7 @@ async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed:
     variogram: scoreVariogram ? 'auto' : so.variogram,
     anisotropy: so.anisotropy,
     trend: so.trend,
+    externalDrift: so.externalDrift,
     neighbors: so.neighbors,
     lagKm: so.lagKm,
     maxLagKm: so.maxLagKm,
@@ -355,10 +361,11 @@ async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed:
   const sim = simulateRunHeatFlow(points, { ...so, trend }, kr.grid, grid.crsDef ?? WGS84_DEF, realizations, seed);
   return {
     kriged: { grid: kr.grid, hash: sha256 },
+    driftHash: trendChoice.sha256,
     realizations: { values: sim.values, source: sim.source },
     report: {
       ...sim.report,
-      nominal: `the nominal run uses the kriged heat-flow grid (${(trend ?? 'none') === 'none' ? 'ordinary kriging' : `universal kriging, trend ${trend}`} of the values); p10/p50/p90 and mean come from the simulated fields`,
+      nominal: `the nominal run uses the kriged heat-flow grid (${(trend ?? 'none') === 'none' ? 'ordinary kriging' : `universal kriging, ${trend === 'external' ? `external drift ${trendChoice.externalDrift?.name}` : `trend ${trend}`}`} of the values); p10/p50/p90 and mean come from the simulated fields`,
     },
     warnings: [...warnings, ...sim.warnings.map((w) => `heat-flow simulation: ${w}`), ...kr.warnings.map((w) => `kriged grid: ${w}`)],
   };

@@ -10,6 +10,7 @@ import { loadCrsDefinition } from '../../shared/interp/projection.ts';
 import { readGeoTiff } from '../io/geotiff.ts';
 import { heatFlowSimulationOptions, readSimulationPoints, type SimulationArgs } from './simulation-input.ts';
 import { simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
+import { trendOption } from './drift-input.ts';
 import { readRealizationsFile } from './realizations-file.ts';
 import { sha256Hex } from '../io/export.ts';
 import type { IsothermArgs } from './isotherm-options.ts';
@@ -82,12 +83,19 @@ export async function simulateOnHeatFlowGrid(
   crsDef: string,
   realizations: number,
   seed: number,
-): Promise<{ values: Float32Array; source: string; sha256: string; warnings: string[] }> {
+): Promise<{ values: Float32Array; source: string; sha256: string; driftSha256: string | null; warnings: string[] }> {
   if ((a.field ?? 'heatFlowMWm2') !== 'heatFlowMWm2')
     throw new InputError('isotherms simulates heatFlowMWm2 (mW/m²)', [{ field: 'field', problem: 'expected heatFlowMWm2' }], 'bad_option');
   const { points, warnings, sha256 } = await readSimulationPoints(a);
-  const r = simulateRunHeatFlow(points, heatFlowSimulationOptions(a), heatFlow, crsDef, realizations, seed);
-  return { values: r.values, source: r.source, sha256, warnings: [...warnings, ...r.warnings.map((w) => `heat-flow simulation: ${w}`)] };
+  const trend = await trendOption(a.trend);
+  const r = simulateRunHeatFlow(points, heatFlowSimulationOptions(a, trend), heatFlow, crsDef, realizations, seed);
+  return {
+    values: r.values,
+    source: r.source,
+    sha256,
+    driftSha256: trend.sha256,
+    warnings: [...warnings, ...r.warnings.map((w) => `heat-flow simulation: ${w}`)],
+  };
 }
 
 /**
@@ -182,6 +190,7 @@ export async function heatFlowRealizationsOf(
       throw badOption('realizations', '--points needs --realizations N (≥ 1): the percentiles come from N simulated heat-flow fields', 'missing');
     const simulated = await simulateOnHeatFlowGrid(a, heatFlow, grids.crsDef, realizations, seed);
     inputs.points = simulated.sha256;
+    if (simulated.driftSha256 !== null) inputs.drift = simulated.driftSha256;
     return { simulated, realizations };
   }
   if (a['realizations-from'] !== undefined) {

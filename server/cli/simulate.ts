@@ -26,10 +26,7 @@ const OPTIONS = {
 
 const HELP = `subtherm simulate: conditional simulation of a point field (realizations that honour the data and the variogram)
 
-${SIMULATION_HELP.replace('  --cell-km KM | --size NXxNY   grid cell size (km) or grid size\n', '  --cell-km KM | --size NXxNY   grid cell size (km) or grid size; with --out-dir\n')}  --trend drift:G.tif | auto:drift:G.tif   kriging with an external drift: the covariate is the GeoTIFF G.tif
-                             (e.g. sediment thickness), read bilinearly at the points and targets, which it must
-                             cover; auto:drift:G.tif lets auto compare it with the polynomial drifts
-  --realizations N           number of realizations (1..10000), required
+${SIMULATION_HELP.replace('  --cell-km KM | --size NXxNY   grid cell size (km) or grid size\n', '  --cell-km KM | --size NXxNY   grid cell size (km) or grid size; with --out-dir\n')}  --realizations N           number of realizations (1..10000), required
   --seed S                   integer seed, required: the same seed gives the same realizations
   --at T.geojson             simulate at these points: JSON with targets and realizations
   --out-dir DIR              writes <field>.mean.tif, .sd.tif, .p10.tif, .p50.tif, .p90.tif

@@ -46,6 +46,9 @@ export const SIMULATION_HELP = `  --points P.geojson|P.csv   points (GeoJSON, or
   --trend none|linear|quadratic|auto   drift of the mean in the coordinates (default none): the residual is
                              simulated (variogram of least-squares residuals) and the realizations are conditioned
                              by universal kriging, which adds the drift back; auto picks by leave-one-out RMSE
+  --trend drift:G.tif | auto:drift:G.tif   kriging with an external drift: the covariate is the GeoTIFF G.tif
+                             (e.g. sediment thickness), read bilinearly at the points and the cells or targets,
+                             which it must cover; auto:drift:G.tif lets auto compare it with the polynomial drifts
   --transform normal-score|none   simulate normal scores and back-transform (default), or the values as Gaussian
   --decluster none|auto|CELL_KM   cell declustering of the histogram the normal-score transform reproduces
                              (default none; auto: the cell size of the smallest declustered mean)
@@ -82,16 +85,11 @@ export function declusterOption(raw: string | undefined): NonNullable<Simulation
 }
 
 /**
- * The simulation options from the shared flags (realizations, seed and budget are the verb's). A verb that reads a
- * drift grid passes the parsed --trend as `trend`; the others refuse a drift grid.
+ * The simulation options from the shared flags (realizations, seed and budget are the verb's); `trend`: the parsed
+ * --trend with its drift grid (drift-input.ts `trendOption`), needed when --trend names a grid.
  */
 export function simulationOptionsFromArgs(a: SimulationArgs, realizations: number, seed: number, units: string, trend?: TrendChoice): SimulationOptions {
-  if (trend === undefined && namesDriftGrid(a.trend))
-    throw new InputError(
-      `--trend ${a.trend}: an external drift grid is read by simulate and interpolate only`,
-      [{ field: 'trend', problem: 'expected none, linear, quadratic or auto here; or simulate with --keep-realizations and use its realizations' }],
-      'bad_option',
-    );
+  if (trend === undefined && namesDriftGrid(a.trend)) throw new RangeError('a drift grid named by --trend must be read first (drift-input.ts trendOption)');
   const transform = a.transform ?? 'normal-score';
   if (transform !== 'normal-score' && transform !== 'none')
     throw new InputError(
@@ -142,14 +140,16 @@ export async function gridOptionsFromArgs(a: SimulationArgs): Promise<OutputGrid
 
 /**
  * The heat-flow simulation options of a verb that simulates a run's way (server/runs/heat-flow-simulation.ts):
- * the shared flags, with the transform as given (a run picks it from the variogram).
+ * the shared flags, with the transform as given (a run picks it from the variogram); `trend`: the parsed --trend
+ * with its drift grid (server/cli/drift-input.ts).
  */
-export function heatFlowSimulationOptions(a: SimulationArgs): RunSimulationOptions {
-  const so = simulationOptionsFromArgs(a, 1, 0, 'mW/m²');
+export function heatFlowSimulationOptions(a: SimulationArgs, trend: TrendChoice): RunSimulationOptions {
+  const so = simulationOptionsFromArgs(a, 1, 0, 'mW/m²', trend);
   return {
     variogram: so.variogram,
     anisotropy: so.anisotropy,
-    trend: so.trend as RunSimulationOptions['trend'], // never 'external': this path refuses a drift grid above
+    trend: so.trend,
+    externalDrift: so.externalDrift,
     neighbors: so.neighbors,
     lagKm: so.lagKm,
     maxLagKm: so.maxLagKm,

@@ -16,7 +16,8 @@ import type { PointData } from '../../shared/interp/interpolate.ts';
 import { simulateOnGrid, type SimulationOptions } from '../../shared/interp/simulateField.ts';
 import type { HeatFlowCentralValues, HeatFlowSimulationSummary } from '../../shared/schema/run.ts';
 import type { Anisotropy, VariogramModel, VariogramModelName } from '../../shared/interp/variogram.ts';
-import type { DriftKind, TrendKind } from '../../shared/interp/drift.ts';
+import type { DriftKind } from '../../shared/interp/drift.ts';
+import type { ExternalDriftGrid } from '../../shared/interp/externalDrift.ts';
 
 /** Offset between a run's seed and the key of its heat-flow simulation streams. */
 export const SIMULATION_STREAM_OFFSET = 2 ** 32;
@@ -31,8 +32,13 @@ export const HEAT_FLOW_CORRELATION_DEPRECATED =
 export interface RunSimulationOptions {
   variogram?: 'auto' | VariogramModelName | VariogramModel;
   anisotropy?: Anisotropy | 'auto' | null;
-  /** Drift of the mean (the kriged map's): the residual is simulated and conditioned by universal kriging. */
-  trend?: TrendKind | 'auto';
+  /**
+   * Drift of the mean (the kriged map's): the residual is simulated and conditioned by universal kriging; 'external'
+   * (or a candidate of 'auto') needs `externalDrift`.
+   */
+  trend?: DriftKind | 'auto';
+  /** The covariate grid of an external drift (shared/interp/externalDrift.ts), or null. */
+  externalDrift?: ExternalDriftGrid | null;
   neighbors?: number | 'all';
   lagKm?: number;
   maxLagKm?: number;
@@ -66,7 +72,7 @@ export function requireDeclusterWithTransform(iopt: { variogram?: unknown; declu
  * trend kind), so the kriged map and the realizations carry one drift rather than choosing separately.
  */
 export function followKrigedTrend(trend: RunSimulationOptions['trend'], chosen: DriftKind | undefined): RunSimulationOptions['trend'] {
-  return trend === 'auto' && chosen !== undefined && chosen !== 'external' ? chosen : trend;
+  return trend === 'auto' && chosen !== undefined ? chosen : trend;
 }
 
 /**
@@ -146,6 +152,7 @@ export function simulateRunHeatFlow(
     variogram: o.variogram ?? 'auto',
     anisotropy: o.anisotropy ?? null,
     trend: o.trend ?? 'none',
+    externalDrift: o.externalDrift ?? null,
     transform,
     declustering: transform === 'normal-score' ? (o.declustering ?? 'none') : 'none',
     neighbors: o.neighbors ?? 16,
@@ -190,7 +197,7 @@ export function simulateRunHeatFlow(
       naiveSd: dc.naiveSd,
       declusteredSd: dc.declusteredSd,
     };
-  const source = `heat flow from ${count} conditional simulations of the sites (${r.sampler.kind === 'lattice' ? 'circulant embedding' : 'Cholesky'} conditioned by ${(v.trend?.kind ?? 'none') === 'none' ? 'ordinary' : `universal (${v.trend!.kind} drift)`} kriging, ${v.model} variogram of the ${space}, range ${v.rangeKm.toPrecision(4)} km${barriers ? ', faults as barriers' : ''})`;
+  const source = `heat flow from ${count} conditional simulations of the sites (${r.sampler.kind === 'lattice' ? 'circulant embedding' : 'Cholesky'} conditioned by ${(v.trend?.kind ?? 'none') === 'none' ? 'ordinary' : v.trend!.kind === 'external' ? `universal (external drift: ${v.trend!.ols?.covariate?.name ?? 'covariate grid'})` : `universal (${v.trend!.kind} drift)`} kriging, ${v.model} variogram of the ${space}, range ${v.rangeKm.toPrecision(4)} km${barriers ? ', faults as barriers' : ''})`;
   const warnings = [...r.warnings];
   if (transform === 'none' && o.declustering !== undefined && o.declustering !== 'none')
     warnings.push('declustering weights the normal-score histogram; this simulation has no normal-score transform (a fixed variogram), so it was not used');
