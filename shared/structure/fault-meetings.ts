@@ -6,7 +6,7 @@
 import { ZONE_NAMES } from '../petrology/index.ts';
 import { BOUNDARY_COUNT, type IndicatorField } from './indicator.ts';
 import { pointAlongTrace, type Trace } from './trace.ts';
-import type { Meeting, NearSample, Side } from './fault-types.ts';
+import type { DroppedExcursion, Meeting, NearSample, Side } from './fault-types.ts';
 
 /** Indicator profiles at stations along a trace: per side, BOUNDARY_COUNT values a station, and whether it is supported. */
 export interface Stations {
@@ -216,11 +216,10 @@ export function openBeyondSupport(
 }
 
 /**
- * The meetings of isograd j with the trace on one side: each 0.5 crossing of the side's profile between supported
- * stations, refined by the local logistic fit, with its 10–90 % band. Crossings of one isograd a few km apart with the
- * same sense are one meeting (noise in the profile), their bands joined.
+ * The 0.5 crossings of isograd j's profile on one side between supported stations, each refined by the local logistic
+ * fit, with its 10–90 % band, in order along the trace.
  */
-function sideMeetings(st: Stations, side: Side, j: number, pool: readonly NearSample[], windowKm: number, D: number): Meeting[] {
+function sideCrossings(st: Stations, side: Side, j: number, pool: readonly NearSample[], windowKm: number, D: number): Meeting[] {
   const { along } = st,
     P = st.P[side],
     ok = st.ok[side];
@@ -244,26 +243,74 @@ function sideMeetings(st: Stations, side: Side, j: number, pool: readonly NearSa
     const below = cBelow === null ? gauss : s0 - cBelow,
       above = cAbove === null ? gauss : cAbove - s0;
     const band = openBeyondSupport([Math.min(at, s0) - below, Math.max(at, s0) + above], pool, j, sense, D);
-    const m: Meeting = {
-      isograd: `${ZONE_NAMES[j]}-in`,
-      side,
-      alongKm: at,
-      bandAlongKm: band,
-      profileAlongKm: s0,
-      basis: fit === null ? 'profile' : 'fit',
-      sense,
-    };
+    found.push({ isograd: `${ZONE_NAMES[j]}-in`, side, alongKm: at, bandAlongKm: band, profileAlongKm: s0, basis: fit === null ? 'profile' : 'fit', sense });
+  }
+  return found;
+}
+
+/**
+ * Drops each pair of successive crossings of opposite sense (the profile crosses 0.5 and comes back) between which
+ * the only samples of the side deciding isograd j the excursion's way (at or above it for a rise then a fall, below it
+ * for a fall then a rise) are one or two that their neighbours contradict (leave-one-out): the excursion is the
+ * exact interpolator honouring those samples, as the closed loops around them that the map does not draw
+ * (isograd-lines.ts isolatedLoopSamples), not the isograd meeting the trace.
+ */
+export function dropExcursions(
+  crossings: readonly Meeting[],
+  pool: readonly NearSample[],
+  j: number,
+  contradicts: (index: number, j: number) => boolean,
+): { kept: Meeting[]; dropped: DroppedExcursion[] } {
+  const kept: Meeting[] = [],
+    dropped: DroppedExcursion[] = [];
+  for (let i = 0; i < crossings.length; i++) {
+    const a = crossings[i],
+      b = crossings[i + 1];
+    if (b !== undefined && a.sense !== b.sense) {
+      const cls = a.sense > 0 ? 1 : 0;
+      const inside = pool.filter((q) => q.s >= a.profileAlongKm && q.s <= b.profileAlongKm && (cls === 1 ? q.lo >= j : q.hi < j));
+      if (inside.length >= 1 && inside.length <= 2 && inside.every((q) => contradicts(q.index, j))) {
+        dropped.push({ isograd: a.isograd, side: a.side, fromKm: a.profileAlongKm, toKm: b.profileAlongKm, sampleIds: inside.map((q) => q.id) });
+        i++;
+        continue;
+      }
+    }
+    kept.push(a);
+  }
+  return { kept, dropped };
+}
+
+/** Crossings of one isograd a few km apart with the same sense are one meeting (noise in the profile), their bands joined. */
+function mergeNear(crossings: readonly Meeting[]): Meeting[] {
+  const found: Meeting[] = [];
+  for (const m of crossings) {
     const dup = found.find((q) => q.sense === m.sense && Math.abs(q.alongKm - m.alongKm) < 2);
-    if (dup === undefined) found.push(m);
+    if (dup === undefined) found.push({ ...m });
     else dup.bandAlongKm = [Math.min(dup.bandAlongKm[0], m.bandAlongKm[0]), Math.max(dup.bandAlongKm[1], m.bandAlongKm[1])];
   }
   return found;
 }
 
-/** Every isograd's meetings with the trace, left side first (L, R: the samples beside the trace on each side). */
-export function findMeetings(st: Stations, L: readonly NearSample[], R: readonly NearSample[], windowKm: number, D: number): Meeting[] {
-  const meetings: Meeting[] = [];
+/**
+ * Every isograd's meetings with the trace, left side first (L, R: the samples beside the trace on each side), and
+ * the excursions of the profiles not counted as meetings (dropExcursions; `contradicts` is the leave-one-out test).
+ */
+export function findMeetings(
+  st: Stations,
+  L: readonly NearSample[],
+  R: readonly NearSample[],
+  windowKm: number,
+  D: number,
+  contradicts: (index: number, j: number) => boolean,
+): { meetings: Meeting[]; dropped: DroppedExcursion[] } {
+  const meetings: Meeting[] = [],
+    dropped: DroppedExcursion[] = [];
   for (const side of ['left', 'right'] as const)
-    for (let j = 1; j <= BOUNDARY_COUNT; j++) meetings.push(...sideMeetings(st, side, j, side === 'left' ? L : R, windowKm, D));
-  return meetings;
+    for (let j = 1; j <= BOUNDARY_COUNT; j++) {
+      const pool = side === 'left' ? L : R;
+      const d = dropExcursions(sideCrossings(st, side, j, pool, windowKm, D), pool, j, contradicts);
+      meetings.push(...mergeNear(d.kept));
+      dropped.push(...d.dropped);
+    }
+  return { meetings, dropped };
 }

@@ -18,7 +18,10 @@
  * - where one isograd meets the trace on both sides, the apparent (strike) separation between the two meeting
  *   points, at each end where it does (named by the compass direction of that end). A meeting point is where the
  *   side's indicator profile along the trace (evaluated just off the trace) crosses 0.5, refined by a local logistic
- *   regression (Cox 1958) of that side's sample indicators on position. The profile is read as the cumulative
+ *   regression (Cox 1958) of that side's sample indicators on position. Two successive crossings of opposite sense
+ *   around only one or two samples that their neighbours contradict (leave-one-out) are the interpolator honouring
+ *   those samples, not the isograd: they are not meetings (listed in the warnings), as the closed loops around such
+ *   samples are not drawn on the map. The profile is read as the cumulative
  *   probability of the meeting point's position, so its 10–90 % interval runs from where the profile crosses 0.1 to
  *   where it crosses 0.9. Each way from the 0.5 crossing, the walked crossing is used where the profile reaches that
  *   level along the supported stretch; where it does not (support ends first, or the profile turns back), the
@@ -47,11 +50,12 @@ import { traceAzimuthDeg } from './trace.ts';
 import type { FaultInfo, FaultReport, FaultReportOptions, Side } from './fault-types.ts';
 import { gradeJump, missingZones, repeatedZones, samplesBeside, sideStats } from './fault-zones.ts';
 import { findMeetings, stationProfiles } from './fault-meetings.ts';
+import { contradictionTest } from './misfits.ts';
 import { compassName, faultSeparations } from './fault-separations.ts';
 
 export type * from './fault-types.ts';
 export { OPEN_BEYOND_SUPPORT } from './fault-types.ts';
-export { fitMeeting, gaussianHalfWidthKm, openBeyondSupport } from './fault-meetings.ts';
+export { dropExcursions, fitMeeting, gaussianHalfWidthKm, openBeyondSupport } from './fault-meetings.ts';
 export { compassName, separationInterval } from './fault-separations.ts';
 
 /** The hanging wall (the side the dip direction points to) and the sides' compass names, with the wall when known. */
@@ -98,7 +102,11 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
       `zones repeated across a fault recorded as normal (${repeated.map((z) => z.zone).join(', ')}): a normal fault omits section; check the fault's kind or the samples`,
     );
   const jump = gradeJump(sideStats(L.filter(inOverlap)), sideStats(R.filter(inOverlap)), st);
-  const meetings = findMeetings(st, L, R, o.fitWindowKm ?? Math.max(15, 1.5 * D), D);
+  const { meetings, dropped } = findMeetings(st, L, R, o.fitWindowKm ?? Math.max(15, 1.5 * D), D, o.contradicts ?? contradictionTest(field));
+  for (const e of dropped)
+    warnings.push(
+      `${e.isograd} on the ${sideNames[e.side]}: the excursion of its profile at ${e.fromKm.toFixed(1)}–${e.toKm.toFixed(1)} km along the trace around ${e.sampleIds.join(', ')} (contradicted by ${e.sampleIds.length === 1 ? 'its' : 'their'} neighbours: see misfits) is not counted as a meeting`,
+    );
   const sep = faultSeparations(meetings, {
     f,
     field,
@@ -129,6 +137,7 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
     notReached: sep.notReached,
     offsetOnly: repeated.length === 0 && missing.length === 0 && sep.separations.length > 0,
     meetings,
+    droppedExcursions: dropped,
     separations: sep.separations,
     overlapAlongKm: overlap,
     warnings,

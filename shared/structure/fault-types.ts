@@ -33,6 +33,8 @@ export interface FaultReportOptions {
   sampleIds?: readonly string[];
   /** Dip of the isograd surfaces, degrees (0–90), dipping towards lower grade: enables the dip-slip component. */
   isogradDipDeg?: number;
+  /** Leave-one-out test of the field's samples (LeaveOneOut.contradicts; default: computed for the samples asked about). */
+  contradicts?: (index: number, j: number) => boolean;
 }
 
 export interface SideStats {
@@ -128,6 +130,8 @@ export interface FaultReport {
   notReached: { isograd: string; side: Side | 'both'; sideName: string }[];
   offsetOnly: boolean;
   meetings: Meeting[];
+  /** Profile excursions around contradicted samples, not counted as meetings (listed in the warnings too). */
+  droppedExcursions: DroppedExcursion[];
   separations: Separation[];
   /** The stretch of trace (km along it) where both sides have samples within faultDistanceKm. */
   overlapAlongKm: [number, number] | null;
@@ -142,4 +146,20 @@ export interface NearSample {
   lo: number;
   hi: number;
   id: string;
+  /** Its index among the indicator field's informative samples. */
+  index: number;
+}
+
+/**
+ * An excursion of one side's indicator profile across 0.5 and back (two meetings of opposite sense) not counted as
+ * meetings: between them the only samples of that side deciding the isograd the excursion's way are one or two that
+ * their neighbours contradict (fault-meetings.ts dropExcursions).
+ */
+export interface DroppedExcursion {
+  isograd: string;
+  side: Side;
+  /** The excursion's two 0.5 crossings, km along the trace. */
+  fromKm: number;
+  toKm: number;
+  sampleIds: string[];
 }

@@ -55,7 +55,7 @@ export function samplesBeside(
   for (let i = 0; i < field.count; i++) {
     const p = locateOnTrace(t, field.x[i], field.y[i]);
     if (p.beyondEnd || !(Math.abs(p.offsetKm) <= D) || p.offsetKm === 0) continue;
-    near.push({ s: p.alongKm, u: p.offsetKm, side: p.offsetKm > 0 ? 'right' : 'left', lo: field.lo[i], hi: field.hi[i], id: idOf(i) });
+    near.push({ s: p.alongKm, u: p.offsetKm, side: p.offsetKm > 0 ? 'right' : 'left', lo: field.lo[i], hi: field.hi[i], id: idOf(i), index: i });
   }
   const L = near.filter((q) => q.side === 'left'),
     R = near.filter((q) => q.side === 'right');

@@ -4,6 +4,7 @@
  * median-indicator one, or a default), and the order-relation correction of the estimates.
  */
 import { MAX_RANK } from './grade.ts';
+import { ZONE_NAMES } from '../petrology/index.ts';
 import { empiricalVariogram, fitVariogram, type VariogramModel } from '../interp/variogram.ts';
 
 /** Fewest decided samples, and fewest of the rarer class, for a boundary's own indicator variogram fit. */
@@ -14,7 +15,8 @@ export const MIN_FIT_MINORITY = 8;
 export interface IndicatorVariogram {
   isograd: number;
   model: VariogramModel;
-  source: 'fitted' | 'median-indicator' | 'default';
+  /** 'given': the caller's variogram for every boundary; else fitted to this boundary, the median-indicator one, or the default. */
+  source: 'given' | 'fitted' | 'median-indicator' | 'default';
   samples: number;
   proportionAbove: number;
 }
@@ -65,7 +67,7 @@ function fitIndicator(set: IndicatorSet, diag: number): VariogramModel | null {
 }
 
 /**
- * Each boundary's variogram (null for a boundary no sample decides): the given one for all; else fitted where there
+ * Each boundary's variogram (null for a boundary no sample decides): the given one for all (source 'given'); else fitted where there
  * are MIN_FIT_SAMPLES decided samples with MIN_FIT_MINORITY of the rarer class; else the median-indicator one (fitted
  * to the boundary whose proportion of ones is nearest 0.5); else a default spherical model (sill 0.25, range a third
  * of the samples' diagonal).
@@ -106,7 +108,7 @@ export function chooseIndicatorVariograms(
       source: IndicatorVariogram['source'] = 'fitted';
     if (given !== null) {
       model = given;
-      source = 'median-indicator';
+      source = 'given';
     } else if (st.count >= MIN_FIT_SAMPLES && Math.min(st.ones, st.count - st.ones) >= MIN_FIT_MINORITY) model = fitIndicator(set, diag);
     if (model === null) {
       model = medianModel;
@@ -118,6 +120,28 @@ export function chooseIndicatorVariograms(
     }
     return { isograd: j + 1, model, source, samples: st.count, proportionAbove: st.p };
   });
+}
+
+const round3 = (v: number) => Math.round(v * 1e3) / 1e3;
+
+/** The indicator variograms used, in words: the given one for every isograd, or which isograds took which kind. */
+export function variogramsText(vs: readonly (IndicatorVariogram | null)[]): string {
+  const used = vs.filter((v): v is IndicatorVariogram => v !== null);
+  const given = used.find((v) => v.source === 'given');
+  if (given !== undefined) {
+    const m = given.model;
+    return `the given ${m.model} variogram for every isograd (nugget ${round3(m.nugget)}, partial sill ${round3(m.partialSill)}, range ${round3(m.rangeKm)} km)`;
+  }
+  const kinds: [IndicatorVariogram['source'], string][] = [
+    ['fitted', 'its own fitted spherical indicator variogram'],
+    ['median-indicator', 'the median-indicator variogram'],
+    ['default', "a default spherical variogram (sill 0.25, range a third of the samples' extent)"],
+  ];
+  return kinds
+    .map(([source, words]) => [words, used.filter((v) => v.source === source).map((v) => `${ZONE_NAMES[v.isograd]}-in`)] as const)
+    .filter(([, names]) => names.length > 0)
+    .map(([words, names]) => `${words} for ${names.join(', ')}`)
+    .join('; ');
 }
 
 /**

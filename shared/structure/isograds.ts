@@ -14,6 +14,7 @@ import { addBandWidths, disagreeingSamples, isogradName, isolatedLoopSamples, li
 import { traceIsolines } from './isolines.ts';
 import { leaveOneOut, type LeaveOneOut } from './misfits.ts';
 import type { SampleGrade } from './grade.ts';
+import type { VariogramModel } from '../interp/variogram.ts';
 
 export { isogradName } from './isograd-lines.ts';
 
@@ -24,6 +25,8 @@ export interface IsogradGridOptions {
   gridSize?: [number, number];
   /** 'kriging' (default: indicator kriging) or 'idw'. */
   method?: 'kriging' | 'idw';
+  /** Indicator variogram for every isograd instead of fitting one per isograd (kriging). */
+  variogram?: VariogramModel;
   /** IDW power (default 2); neighbours (default 16 for kriging, 12 for IDW). */
   power?: number;
   neighbors?: number;
@@ -219,7 +222,13 @@ export function computeIsogradsKm(
     throw new InputError(`cell size must be > 0 km, got ${cellKm}`, [{ field: 'cellKm', problem: 'expected a positive number of km' }], 'bad_option');
   const lo = Int8Array.from(grades, (g) => g.lo),
     hi = Int8Array.from(grades, (g) => g.hi);
-  const field = new IndicatorField(x, y, lo, hi, { method: opts.method, power: opts.power, neighbors: opts.neighbors, faults });
+  const field = new IndicatorField(x, y, lo, hi, {
+    method: opts.method,
+    variogram: opts.variogram,
+    power: opts.power,
+    neighbors: opts.neighbors,
+    faults,
+  });
   if (field.count < 2)
     throw new InputError(
       `isograds need at least two samples with zone information, got ${field.count}`,

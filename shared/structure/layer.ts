@@ -13,6 +13,7 @@ import { TOOL_NAME, VERSION } from '../version.ts';
 import { converter, localProjectionFor, lonLatToLocalKm, WGS84_DEF } from '../interp/projection.ts';
 import { sampleGrades, type SampleGrade } from './grade.ts';
 import { BOUNDARY_COUNT } from './indicator.ts';
+import { variogramsText } from './indicator-variograms.ts';
 import { computeIsogradsKm, type IsogradGridOptions, type IsogradResultKm } from './isograds.ts';
 import { findMisfits, type Misfit } from './misfits.ts';
 import { faultReport, type FaultReport, type Range } from './fault-report.ts';
@@ -271,7 +272,7 @@ function reportMethod(opts: IsogradLayerOptions, res: IsogradResultKm, projectio
     neighbors = opts.neighbors ?? (kriging ? 16 : 12);
   return {
     indicator: kriging
-      ? `indicator kriging (Journel 1983): ordinary kriging of each isograd's indicator, ${neighbors} nearest visible samples, fitted spherical indicator variograms or the median-indicator one, order relations corrected; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`
+      ? `indicator kriging (Journel 1983): ordinary kriging of each isograd's indicator, ${neighbors} nearest visible samples, ${variogramsText(res.field.variograms)}, order relations corrected; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`
       : `indicator inverse-distance weighting (Shepard 1968), power ${power}, ${neighbors} nearest visible samples; isograd = 0.5 contour, band = 0.1 and 0.9 contours (marching squares)`,
     power,
     neighbors,
@@ -330,6 +331,7 @@ export function isogradLayer(samples: SampleCollection, faults: FaultCollection 
       stationSupportKm: opts.stationSupportKm,
       sampleIds: props.map((q) => q.id),
       isogradDipDeg: opts.isogradDipDeg,
+      contradicts: (i, j) => res.loo.contradicts(i, j),
     });
     for (const w of r.warnings) warnings.push(`fault ${t.id}: ${w}`);
     return r;

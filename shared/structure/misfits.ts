@@ -32,16 +32,28 @@ export function leaveOneOut(field: IndicatorField): LeaveOneOut {
     p.set(buf, i * BOUNDARY_COUNT);
     rank[i] = rankFromIndicators(buf);
   }
-  return {
-    p,
-    rank,
-    contradicts(i: number, j: number): boolean {
-      const v = p[i * BOUNDARY_COUNT + j - 1];
-      if (Number.isNaN(v)) return false;
-      if (field.lo[i] >= j) return v < 0.5;
-      if (field.hi[i] < j) return v >= 0.5;
-      return false;
-    },
+  return { p, rank, contradicts: (i: number, j: number) => disagrees(field, i, j, p[i * BOUNDARY_COUNT + j - 1]) };
+}
+
+/** Whether sample i's decided indicator for boundary j disagrees with v, its leave-one-out P̂ⱼ (≥ 0.5 or not). */
+function disagrees(field: IndicatorField, i: number, j: number, v: number): boolean {
+  if (Number.isNaN(v)) return false;
+  if (field.lo[i] >= j) return v < 0.5;
+  if (field.hi[i] < j) return v >= 0.5;
+  return false;
+}
+
+/** LeaveOneOut.contradicts computed on demand: one leave-one-out prediction for each sample asked about. */
+export function contradictionTest(field: IndicatorField): (i: number, j: number) => boolean {
+  const memo = new Map<number, Float64Array>();
+  return (i, j) => {
+    let p = memo.get(i);
+    if (p === undefined) {
+      p = new Float64Array(BOUNDARY_COUNT);
+      field.predict(field.x[i], field.y[i], p, i);
+      memo.set(i, p);
+    }
+    return disagrees(field, i, j, p[j - 1]);
   };
 }
 

@@ -2,8 +2,8 @@ import { describe, it, expect, beforeAll } from 'vitest';
 import { readFileSync } from 'node:fs';
 import geodesic from 'geographiclib-geodesic';
 import { parseFeatureCollection, type SampleCollection, type FaultCollection } from '../../shared/schema/features.ts';
-import { isogradLayer, computeIsogradsKm, sampleGrades, buildTrace, tracePieces, type IsogradLayer } from '../../shared/structure/index.ts';
-import { DOME, ZONE_IN_C, kmFromLonLat, truePeakTemperatureC } from '../../fixtures/field.ts';
+import { isogradLayer, computeIsogradsKm, sampleGrades, buildTrace, tracePieces, faultReport, type IsogradLayer } from '../../shared/structure/index.ts';
+import { DOME, FAULTS, ZONE_IN_C, kmFromLonLat, sideOfFault, truePeakTemperatureC } from '../../fixtures/field.ts';
 
 // The demo region's truth (fixtures/truth.json, fixtures/field.ts: invented data). 402 samples over an 85-km dome:
 // four radial traverses, scattered samples, a traverse along each side of the F1 fault and short traverses across F2; the tolerances below are
@@ -230,35 +230,89 @@ describe('demo region: faults', () => {
   });
 });
 
+// The demo's samples and faults in the local km frame, the isograds computed there (once, for the tests below).
+let km: { r: ReturnType<typeof computeIsogradsKm>; traces: ReturnType<typeof buildTrace>['trace'][]; ids: string[]; faults: Record<string, unknown>[] } | null =
+  null;
+function demoKm() {
+  if (km !== null) return km;
+  const s = JSON.parse(readFileSync('fixtures/demo/samples.geojson', 'utf8'));
+  const fj = JSON.parse(readFileSync('fixtures/demo/faults.geojson', 'utf8'));
+  const xy = s.features.map((q: { geometry: { coordinates: [number, number] } }) => kmFromLonLat(q.geometry.coordinates[0], q.geometry.coordinates[1]));
+  const grades = sampleGrades(s.features.map((q: { properties: Record<string, unknown> }) => q.properties as { id: string }));
+  const traces = fj.features.map(
+    (q: { properties: { id: string }; geometry: { coordinates: [number, number][] } }) =>
+      buildTrace(q.properties.id, [q.geometry.coordinates.map(([lon, lat]) => kmFromLonLat(lon, lat))]).trace,
+  );
+  const r = computeIsogradsKm(
+    Float64Array.from(xy, (p: number[]) => p[0]),
+    Float64Array.from(xy, (p: number[]) => p[1]),
+    grades,
+    tracePieces(traces),
+    {},
+  );
+  km = { r, traces, ids: grades.map((g) => g.id), faults: fj.features.map((q: { properties: Record<string, unknown> }) => q.properties) };
+  return km;
+}
+
+describe('demo region: where the isograds meet the faults', () => {
+  it('each isograd meets F1 and F2 on each side as often as in the truth (no unpaired extra meeting)', () => {
+    // fixtures/truth.json isogradSeparations: footwall and hanging-wall meetings per isograd (F1's footwall is its
+    // left side, F2's hanging wall its left side, as the traces are drawn). OM-GS-226 (kyanite recorded in the
+    // staurolite zone beside F1) and OM-GS-347 (beside F2) are deliberately mislabelled (truth.json
+    // dome.mislabelledSamples): each lifts its side's profile across 0.5 and back, an excursion not a meeting.
+    const { r, traces, ids, faults } = demoKm();
+    for (const id of ['F1', 'F2']) {
+      const k = traces.findIndex((t) => t.id === id);
+      const p = faults[k] as { kind?: string; dipDeg?: number; dipDirectionDeg?: number };
+      const rep = faultReport({ trace: traces[k], kind: p.kind, dipDeg: p.dipDeg, dipDirectionDeg: p.dipDirectionDeg }, r.field, {
+        supportKm: r.supportKm,
+        stationKm: 0.5,
+        sampleIds: ids,
+        contradicts: (i, j) => r.loo.contradicts(i, j),
+      });
+      const hw = rep.hangingWall!;
+      for (const t of (truth.isogradSeparations as { fault: string; isograd: string; footwallMeetings?: unknown[]; hangingWallMeetings?: unknown[] }[]).filter(
+        (q) => q.fault === id,
+      )) {
+        const count = (side: string) => rep.meetings.filter((m) => m.isograd === t.isograd && m.side === side).length;
+        // An isograd without meetings on a wall has no list for it in the truth.
+        expect(count(hw), `${id} ${t.isograd} hanging wall`).toBe(t.hangingWallMeetings?.length ?? 0);
+        expect(count(hw === 'left' ? 'right' : 'left'), `${id} ${t.isograd} footwall`).toBe(t.footwallMeetings?.length ?? 0);
+      }
+      const dropped = rep.droppedExcursions.flatMap((e) => e.sampleIds);
+      for (const sid of dropped) expect(truth.dome.mislabelledSamples).toContain(sid);
+      console.log(
+        `${id}: excursions not counted as meetings: ${rep.droppedExcursions.map((e) => `${e.isograd} ${e.side} around ${e.sampleIds.join(', ')}`).join('; ')}`,
+      );
+    }
+  }, 300_000);
+});
+
 describe('demo region: probability bands', () => {
   it('the 0.1 and 0.9 lines bracket the true isograds for at least 80 % of their sampled length', () => {
     // The truth: fixtures/field.ts truePeakTemperatureC against ZONE_IN_C (the dome with both faults' offsets). Points
     // on each true isograd where a 0.25-km lattice edge crosses it, weighted by 1/(|nx| + |ny|) (n the isograd's unit
     // normal) so that the weights follow length; kept where samples support a line (nearest visible sample within
     // the support distance). Bracketed: the kriged probability of lying at or above the isograd is within [0.1, 0.9].
-    const s = JSON.parse(readFileSync('fixtures/demo/samples.geojson', 'utf8'));
-    const fj = JSON.parse(readFileSync('fixtures/demo/faults.geojson', 'utf8'));
-    const xy = s.features.map((q: { geometry: { coordinates: [number, number] } }) => kmFromLonLat(q.geometry.coordinates[0], q.geometry.coordinates[1]));
-    const grades = sampleGrades(s.features.map((q: { properties: Record<string, unknown> }) => q.properties as { id: string }));
-    const traces = fj.features.map(
-      (q: { properties: { id: string }; geometry: { coordinates: [number, number][] } }) =>
-        buildTrace(q.properties.id, [q.geometry.coordinates.map(([lon, lat]) => kmFromLonLat(lon, lat))]).trace,
-    );
-    const r = computeIsogradsKm(
-      Float64Array.from(xy, (p: number[]) => p[0]),
-      Float64Array.from(xy, (p: number[]) => p[1]),
-      grades,
-      tracePieces(traces),
-      {},
-    );
+    // A lattice edge that crosses the trace of a fault offsetting the zones (F1, F2: truth.json builtInOffset) crosses
+    // a fault contact, not the isograd: where a zone ends against a fault (sillimanite against F1 for 16 km, each other
+    // isograd for about 6 km at each end of F1, and longer stretches of F2) the grade steps across the trace, the probability
+    // steps from one side's value to the other's, and no band can lie across it. Those stretches are counted apart
+    // (their length and the part of it inside the band are printed) and not held to the band.
+    const { r } = demoKm();
+    const offsetting = FAULTS.filter((f) => truth.faults.find((q: { id: string }) => q.id === f.id).builtInOffset.kind !== 'none');
+    const crossesFault = (ax: number, ay: number, bx: number, by: number) => offsetting.some((f) => sideOfFault(f, ax, ay) < 0 !== sideOfFault(f, bx, by) < 0);
     const out = new Float64Array(5);
     const h = 0.25;
     const fractions: number[] = [];
+    const contacts: string[] = [];
     let pooledIn = 0,
       pooledAll = 0;
     for (let j = 1; j <= 5; j++) {
       let inside = 0,
-        total = 0;
+        total = 0,
+        contactIn = 0,
+        contactAll = 0;
       for (let x = DOME.xKm - 90; x < DOME.xKm + 90; x += h)
         for (let y = DOME.yKm - 90; y < DOME.yKm + 90; y += h) {
           const t0 = truePeakTemperatureC(x, y) - ZONE_IN_C[j];
@@ -274,23 +328,30 @@ describe('demo region: probability bands', () => {
             const gx = truePeakTemperatureC(px + 0.01, py) - truePeakTemperatureC(px - 0.01, py),
               gy = truePeakTemperatureC(px, py + 0.01) - truePeakTemperatureC(px, py - 0.01);
             const gl = Math.hypot(gx, gy);
-            if (!(gl > 0) || Math.abs(t1 - t0) > 50) continue; // a fault between the two lattice points, not the isograd
+            if (!(gl > 0)) continue;
             const w = 1 / (Math.abs(gx / gl) + Math.abs(gy / gl));
             if (!(r.field.predict(px, py, out) <= r.supportKm)) continue;
+            const bracketed = out[j - 1] >= 0.1 && out[j - 1] <= 0.9;
+            if (crossesFault(x, y, x + dx, y + dy)) {
+              contactAll += w;
+              if (bracketed) contactIn += w;
+              continue;
+            }
             total += w;
-            if (out[j - 1] >= 0.1 && out[j - 1] <= 0.9) inside += w;
+            if (bracketed) inside += w;
           }
         }
       fractions.push(inside / total);
+      contacts.push(`${(contactAll * h).toFixed(1)} km (${(contactIn * h).toFixed(1)} in the band)`);
       pooledIn += inside;
       pooledAll += total;
     }
     const all = pooledIn / pooledAll;
     console.log(
-      `demo: fraction of the true isograds' length bracketed by the 0.1/0.9 lines: ${fractions.map((f) => f.toFixed(3)).join(', ')} (biotite-in … sillimanite-in); all together ${all.toFixed(3)}`,
+      `demo: fraction of the true isograds' length bracketed by the 0.1/0.9 lines: ${fractions.map((f) => f.toFixed(3)).join(', ')} (biotite-in … sillimanite-in); all together ${all.toFixed(3)}; fault contacts apart: ${contacts.join(', ')}`,
     );
     expect(all).toBeGreaterThanOrEqual(0.8);
-    for (const f of fractions) expect(f).toBeGreaterThanOrEqual(0.75);
+    for (const f of fractions) expect(f).toBeGreaterThanOrEqual(0.8);
     // About 1.5 million kriged predictions: a minute on a busy machine; the test asserts no wall time.
   }, 300_000);
 });

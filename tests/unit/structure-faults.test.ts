@@ -1,6 +1,6 @@
 import { describe, it, expect } from 'vitest';
 import { prng } from '../helpers/prng.ts';
-import { computeIsogradsKm, buildTrace, tracePieces, faultReport, type SampleGrade } from '../../shared/structure/index.ts';
+import { computeIsogradsKm, buildTrace, tracePieces, faultReport, IndicatorField, type SampleGrade } from '../../shared/structure/index.ts';
 import { gaussianHalfWidthKm, openBeyondSupport, separationInterval, OPEN_BEYOND_SUPPORT } from '../../shared/structure/fault-report.ts';
 
 // Constructed domes cut by faults, in local km. A dome's surface peak temperature falls 5 °C/km from its centre and
@@ -83,6 +83,58 @@ describe('constructed dome cut by a normal fault with known throw and dips', () 
       expect(s.separationKm.high).not.toBeNull();
       expect(truth).toBeLessThanOrEqual(s.separationKm.high!);
     }
+  });
+});
+
+describe('a mislabelled sample beside the trace: an excursion of the profile, not a meeting', () => {
+  // The normal-fault dome above (trace x = 8 km, S → N; footwall to the west, on the left). Kyanite-in (620 °C) meets
+  // the footwall side at y = ±√(16² − 8²) = ±13.86 km (R = (700 − 620)/5 = 16 km), 46.14 and 73.86 km along the trace.
+  // One sample added 0.8 km west of the trace at y = 21 km (r = 22.3 km: 588 °C, staurolite zone) recorded as kyanite.
+  const dipDeg = 60,
+    dKm = 1.5 / Math.sin(dipDeg * DEG);
+  const temp = (x: number, y: number) =>
+    x < 8 ? 700 - FALL * Math.hypot(x, y) : 700 - FALL * Math.hypot(x - dKm * Math.cos(dipDeg * DEG), y) - GRADIENT * 1.5;
+  const d = lattice(60, 2, temp, (x) => Math.abs(x - 8) < 0.3);
+  const trace = buildTrace('N1', [
+    [
+      [8, -60],
+      [8, 60],
+    ],
+  ]).trace;
+  const withSamples = (extra: [number, number][]) => {
+    const x = Float64Array.from([...d.x, ...extra.map((p) => p[0])]),
+      y = Float64Array.from([...d.y, ...extra.map((p) => p[1])]);
+    const lo = Int8Array.from([...d.g.map((q) => q.lo), ...extra.map(() => 4)]);
+    const field = new IndicatorField(x, y, lo, lo, { faults: tracePieces([trace]) });
+    const ids = [...d.g.map((q) => q.id), ...extra.map((_, i) => `bad${i}`)];
+    return faultReport({ trace, kind: 'normal', dipDeg, dipDirectionDeg: 90 }, field, { supportKm: 5, sampleIds: ids });
+  };
+  const kyaniteLeft = (rep: ReturnType<typeof faultReport>) => rep.meetings.filter((m) => m.isograd === 'kyanite-in' && m.side === 'left');
+
+  it('one contradicted sample: its excursion is dropped and named; the meetings are those of the clean samples', () => {
+    expect(rankOf(temp(7.2, 21))).toBe(3); // staurolite where the sample says kyanite
+    expect(kyaniteLeft(withSamples([]))).toHaveLength(2);
+    const rep = withSamples([[7.2, 21]]);
+    expect(rep.droppedExcursions.map((e) => [e.isograd, e.side, e.sampleIds])).toEqual([['kyanite-in', 'left', ['bad0']]]);
+    expect(rep.droppedExcursions[0].fromKm).toBeLessThan(81);
+    expect(rep.droppedExcursions[0].toKm).toBeGreaterThan(81);
+    expect(rep.warnings.join()).toMatch(/kyanite-in on the W side \(footwall\).*bad0.*not counted as a meeting/);
+    // Two meetings left, at the constructed 46.14 and 73.86 km within 2.5 km (the lattice's spacing is 2 km; the
+    // sample still pulls the local fit of the northern one by under a kilometre).
+    const got = kyaniteLeft(rep);
+    expect(got).toHaveLength(2);
+    expect(Math.abs(got[0].alongKm - 46.14)).toBeLessThan(2.5);
+    expect(Math.abs(got[1].alongKm - 73.86)).toBeLessThan(2.5);
+  });
+
+  it('three neighbouring samples agreeing with one another are a tongue the report keeps', () => {
+    const rep = withSamples([
+      [7.2, 21],
+      [7.0, 22],
+      [7.4, 23],
+    ]);
+    expect(rep.droppedExcursions).toEqual([]);
+    expect(kyaniteLeft(rep).length).toBeGreaterThan(2);
   });
 });
 

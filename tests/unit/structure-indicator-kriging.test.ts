@@ -2,6 +2,7 @@ import { describe, it, expect } from 'vitest';
 import { Matrix, solve } from 'ml-matrix';
 import { prng } from '../helpers/prng.ts';
 import { IndicatorField, correctOrderRelations } from '../../shared/structure/index.ts';
+import { variogramsText } from '../../shared/structure/indicator-variograms.ts';
 import type { VariogramModel } from '../../shared/interp/variogram.ts';
 
 /** Spherical covariance, practical-range form (Isaaks & Srivastava 1989, ch. 16): C(0) = c0 + c, C(h) = c(1 − 1.5h/a + 0.5h³/a³), 0 beyond a. */
@@ -141,5 +142,17 @@ describe('indicator kriging', () => {
     const few = data(25, 2);
     const small = new IndicatorField(few.x, few.y, few.lo, few.hi, {});
     for (const q of small.variograms) if (q !== null) expect(q.source).not.toBe('fitted');
+    // The method's words name what each isograd took.
+    expect(variogramsText(v)).toMatch(/^its own fitted spherical indicator variogram for [a-z-]+/);
+  });
+
+  it('a given variogram is used for every isograd and reported as given, not as the median-indicator one', () => {
+    const { x, y, lo, hi } = data(300, 8);
+    const field = new IndicatorField(x, y, lo, hi, { variogram: model });
+    for (const q of field.variograms) {
+      expect(q!.source).toBe('given');
+      expect(q!.model).toEqual(model);
+    }
+    expect(variogramsText(field.variograms)).toBe('the given spherical variogram for every isograd (nugget 0.02, partial sill 0.2, range 18 km)');
   });
 });
