@@ -90,7 +90,16 @@ export function vectorLayers(id: string, source: string, layer: RunLayer): Layer
   if (name.includes('isograd')) return isogradLayers(id, source);
   if (name.includes('contour')) return contourLayers(id, source, layer);
   if (name.includes('resid') || name.startsWith('cv')) return residualLayers(id, source);
+  // Areas (e.g. cells with no data visible across faults) in the colour of the layer's first class, else grey.
+  const fill = layer.legend?.type === 'classes' && layer.legend.classes.length > 0 ? layer.legend.classes[0].color : '#666666';
   return [
+    {
+      id: `${id}-area`,
+      type: 'fill',
+      source,
+      filter: ['in', ['geometry-type'], ['literal', ['Polygon', 'MultiPolygon']]],
+      paint: { 'fill-color': fill, 'fill-opacity': 0.45 },
+    },
     {
       id,
       type: 'line',

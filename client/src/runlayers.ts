@@ -379,6 +379,7 @@ export async function showRunLayers(map: MapLibreMap, panel: LayerPanel, run: Ru
   // Every raster's tile description is asked for at once; the groups then draw in order from the answers.
   for (const l of run.layers ?? []) if (l.kind === 'raster') void cachedTileInfo(run.id, l).catch(() => undefined);
   const firstDepthContour = groups.find((g) => /^depth-[\d.]+C\.contours$/.test(g.key))?.key;
-  for (const g of groups) await showGroup(map, panel, run, g, /^heat-?flow$/i.test(g.key) || g.key === firstDepthContour || /isograd/.test(g.key), opts);
+  for (const g of groups)
+    await showGroup(map, panel, run, g, /^heat-?flow$/i.test(g.key) || g.key === firstDepthContour || /isograd/.test(g.key) || /^no-data/.test(g.key), opts);
   return { run, groups, depthsKm: depths };
 }

@@ -24,6 +24,7 @@ import { crossValidationLayer, encodeProductLayer, heatFlowLayers, interpolation
 import type { RunLayer, RunResult, SerializedGrid, StoredDataset } from './types.ts';
 import { runSimulationOptions, simulateRunHeatFlow, type HeatFlowSimulation } from './heat-flow-simulation.ts';
 import { anisotropyEstimateSummary } from '../../shared/schema/anisotropy.ts';
+import { noDataAcrossFaultsLayer } from './no-data-layer.ts';
 
 export type { RunFile, RunLayer, RunResult, SerializedGrid, StoredDataset } from './types.ts';
 export type { Progress } from './progress.ts';
@@ -154,6 +155,7 @@ function runSummary(
           }
         : null,
       ...(v?.trend ? { trend: trendSummary(v.trend) } : {}),
+      emptyCells: { noDataAcrossFaults: interp.stats.hidden, beyondSearchRadius: interp.stats.empty - interp.stats.hidden, masked: interp.stats.masked },
     },
     crossValidation: cv
       ? {
@@ -364,6 +366,8 @@ export async function runPipeline(request: unknown, datasets: Record<string, Sto
     await yieldToLoop();
   }
   if (prep.crossValidation !== null) layers.push(crossValidationLayer(inp.points, prep.crossValidation, provenance, method));
+  const hidden = noDataAcrossFaultsLayer(prep, heatFlow, toLonLat, provenance);
+  if (hidden !== null) layers.push(hidden);
   timingsMs.encode = now() - t3;
   tracker.finish('encode', `${layers.length} layers encoded`);
 

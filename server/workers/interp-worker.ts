@@ -54,7 +54,7 @@ export function poolRowFiller(pool: Piscina, plan: GridPlan, blockRows = 16): Ro
     for (let a = r0; a < r1; a += blockRows) {
       tasks.push(pool.run({ plan, r0: a, r1: Math.min(r1, a + blockRows), values: vb, sd: sb } satisfies RowTask) as Promise<RowStats>);
     }
-    let stats: RowStats = { cells: 0, masked: 0, empty: 0, fallbacks: 0, regularized: 0, factorizations: 0 };
+    let stats: RowStats = { cells: 0, masked: 0, empty: 0, hidden: 0, fallbacks: 0, regularized: 0, factorizations: 0 };
     for (const p of await Promise.all(tasks)) stats = addStats(stats, p);
     return stats;
   };

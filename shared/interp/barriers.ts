@@ -4,7 +4,9 @@ import type { VisibilityTest } from './neighbours.ts';
 /**
  * Fault barriers: a data point does not inform a location when the straight segment between them (in the local
  * km projection) crosses a fault trace. Fault traces are polylines projected vertex by vertex, so each piece is
- * straight in the local projection (digitize long traces densely). Segments are indexed with flatbush.
+ * straight in the local projection (digitize long traces densely). Segments are indexed with flatbush. A location
+ * from which every datum within reach lies behind a fault gets no value (docs/sources.md#fault-barriers): the grid
+ * kernel counts such cells apart and runs draw them as "no data visible across faults".
  *
  * Crossing test (orientation predicates, as in O'Rourke, Computational Geometry in C, 2nd ed., §1.5), with this
  * epsilon policy — no tolerance, exact zeros decided by rule:

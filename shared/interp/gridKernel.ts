@@ -53,7 +53,10 @@ export interface GridPlan {
 export interface RowStats {
   cells: number;
   masked: number;
+  /** Cells the predictor left empty: no usable data point (search radius or fault barriers). */
   empty: number;
+  /** Of `empty`: cells with data within the search radius, every one behind a fault ("no data visible across faults"). */
+  hidden: number;
   fallbacks: number;
   regularized: number;
   factorizations: number;
@@ -78,6 +81,8 @@ export interface GridRuntime {
   tx: Float64Array;
   ty: Float64Array;
   hasBarrier: boolean;
+  /** The predictor's point index (in its coordinates), searched without the barrier to tell `hidden` cells. */
+  searchIndex: NeighbourIndex;
   /** The kriging drift in the predictor's coordinates, or null (ordinary kriging or IDW). */
   drift: DriftFrame | null;
 }
@@ -99,15 +104,17 @@ export function createGridRuntime(plan: GridPlan): GridRuntime {
     ty = plan.y;
   let drift: DriftFrame | null = null;
   const hasBarrier = plan.faults !== null && plan.faults.length > 0;
+  let searchIndex: NeighbourIndex;
   if (plan.method === 'idw') {
     const barrier = plan.faults !== null && plan.faults.length > 0 ? new FaultBarrier(plan.faults, plan.x, plan.y) : null;
-    idw = new IdwPredictor(plan.x, plan.y, plan.z, {
-      power: plan.power,
-      neighbors: plan.neighbors,
-      radiusKm: plan.radiusKm,
-      pointWeights: plan.pointWeights,
-      visibility: barrier,
-    });
+    searchIndex = new NeighbourIndex(plan.x, plan.y);
+    idw = new IdwPredictor(
+      plan.x,
+      plan.y,
+      plan.z,
+      { power: plan.power, neighbors: plan.neighbors, radiusKm: plan.radiusKm, pointWeights: plan.pointWeights, visibility: barrier },
+      searchIndex,
+    );
   } else {
     if (plan.variogram === null) throw new RangeError('kriging plan without a variogram');
     const t = iso ? { x: plan.x, y: plan.y } : transformCoords(m, plan.x, plan.y);
@@ -132,6 +139,7 @@ export function createGridRuntime(plan: GridPlan): GridRuntime {
       maxGlobal: plan.maxGlobal,
       drift,
     });
+    searchIndex = kriging.index;
   }
   const realIndex = plan.maxDistanceKm !== null ? (iso && kriging !== null ? kriging.index : new NeighbourIndex(plan.x, plan.y)) : null;
   const w = plan.grid.width;
@@ -152,8 +160,31 @@ export function createGridRuntime(plan: GridPlan): GridRuntime {
     tx,
     ty,
     hasBarrier,
+    searchIndex,
     drift,
   };
+}
+
+/** True when the cell at local km (qx, qy), column c of the row whose region flags are in `rt.inside`, is masked. */
+function maskedCell(rt: GridRuntime, c: number, qx: number, qy: number): boolean {
+  const maxD = rt.plan.maxDistanceKm;
+  return (rt.mask !== null && rt.inside[c] === 0) || (maxD !== null && rt.realIndex!.nearestDistance(qx, qy, maxD, rt.idBuf, rt.d2Buf) > maxD);
+}
+
+/**
+ * True when a cell the predictor left empty has data within the search radius, every one behind a fault: no data
+ * point is visible from it across the faults (the straight path to each crosses a trace), so it has no value.
+ * (px, py): the cell in the predictor's coordinates (anisotropy-transformed for kriging).
+ */
+function hiddenByFaults(rt: GridRuntime, px: number, py: number): boolean {
+  return rt.hasBarrier && rt.searchIndex.nearest(px, py, 1, rt.plan.radiusKm, rt.idBuf, rt.d2Buf) > 0;
+}
+
+/** Region flags and local km centres of row r into the runtime's row buffers. */
+function prepareRow(rt: GridRuntime, r: number): void {
+  const g = rt.plan.grid;
+  rowCentresLocalKm(g, rt.toLocal, r, rt.rowX, rt.rowY);
+  if (rt.mask !== null) rt.mask.row(g.north - (r + 0.5) * g.dy, g.west, g.dx, g.width, rt.inside);
 }
 
 /**
@@ -161,39 +192,39 @@ export function createGridRuntime(plan: GridPlan): GridRuntime {
  * row·width + col; masked or unreachable cells are NaN. Returns counts for the warnings.
  */
 export function computeRows(rt: GridRuntime, r0: number, r1: number, values: Float32Array | Float64Array, sd: Float32Array | Float64Array | null): RowStats {
-  const { plan, rowX, rowY, inside, out2, m } = rt;
-  const g = plan.grid;
-  const W = g.width;
-  const stats: RowStats = { cells: 0, masked: 0, empty: 0, fallbacks: 0, regularized: 0, factorizations: 0 };
+  const { plan, rowX, rowY, out2, m } = rt;
+  const W = plan.grid.width;
+  const stats: RowStats = { cells: 0, masked: 0, empty: 0, hidden: 0, fallbacks: 0, regularized: 0, factorizations: 0 };
   const k0 = rt.kriging !== null ? { ...rt.kriging.counters } : null;
   const idwEmpty0 = rt.idw?.emptyCount ?? 0;
   const withSd = sd !== null && plan.withSd && rt.kriging !== null;
-  const maxD = plan.maxDistanceKm;
   const atCells = plan.covariate?.atCells ?? null;
   for (let r = r0; r < r1; r++) {
-    rowCentresLocalKm(g, rt.toLocal, r, rowX, rowY);
-    if (rt.mask !== null) rt.mask.row(g.north - (r + 0.5) * g.dy, g.west, g.dx, W, inside);
+    prepareRow(rt, r);
     const base = r * W;
     for (let c = 0; c < W; c++) {
       stats.cells++;
       const qx = rowX[c],
         qy = rowY[c];
-      if ((rt.mask !== null && inside[c] === 0) || (maxD !== null && rt.realIndex!.nearestDistance(qx, qy, maxD, rt.idBuf, rt.d2Buf) > maxD)) {
+      if (maskedCell(rt, c, qx, qy)) {
         stats.masked++;
         values[base + c] = NaN;
         if (sd !== null) sd[base + c] = NaN;
         continue;
       }
+      let px = qx,
+        py = qy;
       if (rt.idw !== null) {
         values[base + c] = rt.idw.predict(qx, qy);
         if (sd !== null) sd[base + c] = NaN;
       } else {
-        const tx = m[0] * qx + m[1] * qy,
-          ty = m[2] * qx + m[3] * qy;
-        rt.kriging!.predict(tx, ty, out2, withSd, -1, atCells === null ? NaN : atCells[base + c]);
+        px = m[0] * qx + m[1] * qy;
+        py = m[2] * qx + m[3] * qy;
+        rt.kriging!.predict(px, py, out2, withSd, -1, atCells === null ? NaN : atCells[base + c]);
         values[base + c] = out2[0];
         if (sd !== null) sd[base + c] = withSd ? out2[1] : NaN;
       }
+      if (rt.hasBarrier && values[base + c] !== values[base + c] && hiddenByFaults(rt, px, py)) stats.hidden++;
     }
   }
   if (rt.kriging !== null && k0 !== null) {
@@ -206,12 +237,38 @@ export function computeRows(rt: GridRuntime, r0: number, r1: number, values: Flo
   return stats;
 }
 
+/**
+ * The cells of a filled grid (`values`, as computeRows left them) that are empty because no data point is visible
+ * from them across the faults: 1 there, else 0 (masked cells and cells out of the search radius are 0).
+ */
+export function hiddenCellMask(rt: GridRuntime, values: ArrayLike<number>): Uint8Array {
+  const { plan, rowX, rowY, m } = rt;
+  const W = plan.grid.width;
+  const out = new Uint8Array(W * plan.grid.height);
+  if (!rt.hasBarrier) return out;
+  for (let r = 0; r < plan.grid.height; r++) {
+    let any = false;
+    for (let c = 0; c < W && !any; c++) any = values[r * W + c] !== values[r * W + c];
+    if (!any) continue;
+    prepareRow(rt, r);
+    for (let c = 0; c < W; c++) {
+      const v = values[r * W + c];
+      if (v === v || maskedCell(rt, c, rowX[c], rowY[c])) continue;
+      const px = rt.idw !== null ? rowX[c] : m[0] * rowX[c] + m[1] * rowY[c],
+        py = rt.idw !== null ? rowY[c] : m[2] * rowX[c] + m[3] * rowY[c];
+      if (hiddenByFaults(rt, px, py)) out[r * W + c] = 1;
+    }
+  }
+  return out;
+}
+
 /** Adds row statistics (from several row ranges or workers). */
 export function addStats(a: RowStats, b: RowStats): RowStats {
   return {
     cells: a.cells + b.cells,
     masked: a.masked + b.masked,
     empty: a.empty + b.empty,
+    hidden: a.hidden + b.hidden,
     fallbacks: a.fallbacks + b.fallbacks,
     regularized: a.regularized + b.regularized,
     factorizations: a.factorizations + b.factorizations,

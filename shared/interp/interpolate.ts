@@ -160,7 +160,11 @@ export function rowStatsWarnings(s: RowStats): string[] {
   const w: string[] = [];
   if (s.regularized > 0) w.push(`${s.regularized} kriging system(s) were ill-conditioned and solved with a small diagonal regularization`);
   if (s.fallbacks > 0) w.push(`${s.fallbacks} cell(s) had a singular kriging system and fell back to inverse-distance weighting (sd = √sill)`);
-  if (s.empty > 0) w.push(`${s.empty} cell(s) had no usable data point (search radius or fault barriers) and are no data`);
+  if (s.hidden > 0)
+    w.push(
+      `${s.hidden} cell(s) see no data across faults (every data point within reach lies behind a fault trace) and are no data: nothing on their side of the faults informs them`,
+    );
+  if (s.empty > s.hidden) w.push(`${s.empty - s.hidden} cell(s) had no data point within the search radius and are no data`);
   return w;
 }
 

@@ -22,7 +22,7 @@ export interface SurfaceOptions {
   tick?: (fraction: number, message: string) => void | Promise<void>;
 }
 
-const NO_ROWS: RowStats = { cells: 0, masked: 0, empty: 0, fallbacks: 0, regularized: 0, factorizations: 0 };
+const NO_ROWS: RowStats = { cells: 0, masked: 0, empty: 0, hidden: 0, fallbacks: 0, regularized: 0, factorizations: 0 };
 
 /** The serial row filler: one grid runtime (indexes, factor caches) for the plan, built on first use. */
 export function serialRowFiller(prep: PreparedInterpolation): RowFiller {

@@ -327,6 +327,15 @@ export const runSummarySchema = z.strictObject({
     variogram: variogramSummarySchema.nullable(),
     /** Kriging runs: the drift of the mean (absent for IDW and for runs made before drifts existed). */
     trend: trendSummarySchema.optional(),
+    /**
+     * Cells of the heat-flow grid (and so of every thermal layer) left with no value, by cause: no heat-flow site
+     * visible across the faults (every site within the search radius lies behind a fault trace; the map's
+     * "no-data-across-faults" layer shows them), no site within the search radius, or masked (outside the region or
+     * beyond maxDistanceKm). Absent in older runs.
+     */
+    emptyCells: z
+      .strictObject({ noDataAcrossFaults: z.number().int().min(0), beyondSearchRadius: z.number().int().min(0), masked: z.number().int().min(0) })
+      .optional(),
   }),
   crossValidation: crossValidationSummarySchema.nullable(),
   isothermsC: z.array(z.number()),

@@ -144,6 +144,7 @@ describe('the run pipeline on the demo data', () => {
       'melt-onset',
       'inconsistent',
       'cv-residuals',
+      'no-data-across-faults',
     ]);
     expect(extraCalled).toBe(1);
     const byName = Object.fromEntries(res.layers.map((l) => [l.info.name, l]));
@@ -190,6 +191,15 @@ describe('the run pipeline on the demo data', () => {
     check(gj);
     expect(JSON.parse(gj).caution).toBe(CAUTION);
     check(new TextDecoder().decode(byName['cv-residuals'].files[0].bytes));
+    // Cells left empty because no site is visible from them across the faults: counted in the summary beside the
+    // masked ones (together every empty heat-flow cell) and drawn as one layer with the same count.
+    const empty = res.summary.interpolation.emptyCells!;
+    expect(empty.noDataAcrossFaults).toBeGreaterThan(0);
+    expect(empty.noDataAcrossFaults + empty.beyondSearchRadius + empty.masked).toBe(st('heat-flow').noData);
+    const nd = new TextDecoder().decode(byName['no-data-across-faults'].files[0].bytes);
+    check(nd);
+    expect(JSON.parse(nd).caution).toBe(CAUTION);
+    expect(JSON.parse(nd).features[0].properties.cells).toBe(empty.noDataAcrossFaults);
     const tif = await readGeoTiff(byName['depth-300C'].files[0].bytes.slice().buffer);
     expect(tif.caution).toBe(CAUTION);
     expect((tif.metadata.provenance as { contentHash: string }).contentHash).toMatch(/^[0-9a-f]{64}$/);
