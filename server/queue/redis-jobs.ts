@@ -8,11 +8,12 @@
  * the run. Runs outlive the server that queued them: closing a server cancels nothing.
  */
 import { InputError } from '../../shared/errors.ts';
-import type { RunRequest } from '../../shared/schema/run.ts';
-import type { RunRecord, Store } from '../store/types.ts';
+import type { Store } from '../store/types.ts';
 import { newId } from '../store/sqlite.ts';
 import { hashToken, newEditToken } from '../security.ts';
 import { LiveRuns, isTerminal, type RunSnapshot } from '../runs/live-runs.ts';
+import { flightLimitError, runWork, type FlightLimit } from '../runs/run-bounds.ts';
+import { queuedRecord, type RunSubmission } from '../runs/run-job.ts';
 import { QueueRedis, REAP_MS, type QueueSnapshot } from './connection.ts';
 
 export interface RedisRunJobsOptions {
@@ -30,29 +31,6 @@ export interface RedisRunJobsOptions {
   maxQueuedWorkServer?: number;
   log?: (line: string) => void;
 }
-
-/** The bound a reservation would pass: the problem code and wording of each (as the in-process job system words them). */
-const LIMIT_ERRORS: Record<string, { code: string; says: (v: number, max: number) => string }> = {
-  maxQueuedRunsPerClient: {
-    code: 'too_many_runs',
-    says: (v, max) =>
-      `too many runs in flight: ${v} queued or running for this client (limit maxQueuedRunsPerClient = ${max}); wait for one to finish or cancel one`,
-  },
-  maxQueuedWorkPerClient: {
-    code: 'too_much_work',
-    says: (v, max) =>
-      `this client's runs in flight would total ${v.toLocaleString('en')} cells × realizations (limit maxQueuedWorkPerClient = ${max.toLocaleString('en')}); wait for a run to finish`,
-  },
-  maxQueuedRunsServer: {
-    code: 'server_busy',
-    says: (v, max) => `the servers have ${v} runs queued or running (limit maxQueuedRunsServer = ${max}); try again later`,
-  },
-  maxQueuedWorkServer: {
-    code: 'server_busy',
-    says: (v, max) =>
-      `the runs in flight would total ${v.toLocaleString('en')} cells × realizations (limit maxQueuedWorkServer = ${max.toLocaleString('en')}); try again later`,
-  },
-};
 
 export class RedisRunJobs extends LiveRuns {
   readonly kind = 'redis' as const;
@@ -124,30 +102,13 @@ export class RedisRunJobs extends LiveRuns {
   }
 
   /** Same contract as RunJobs.submit (server/runs/jobs.ts); the bounds hold across every server of the queue. */
-  async submit(input: {
-    request: RunRequest;
-    datasets: Record<string, { kind: string; body: string }>;
-    cacheKey: string;
-    client: string;
-    cells?: number | null;
-    projectId?: string;
-  }): Promise<{ id: string; cached: boolean; runToken?: string }> {
+  async submit(input: RunSubmission): Promise<{ id: string; cached: boolean; runToken?: string }> {
     await this.ready;
     if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down');
     const q = this.queue;
     const existing = await this.store.findRunByCacheKey(input.cacheKey, ['queued', 'running', 'done']);
     if (existing && (existing.status === 'done' || (await q.cmd.sismember(q.key('live'), existing.id)) === 1)) return { id: existing.id, cached: true };
-    const realizations = input.request.realizations ?? 0;
-    const cells = input.cells ?? 0;
-    const work = Math.max(1, cells) * Math.max(1, realizations);
-    const maxRunWork = this.opts.maxRunWork ?? Infinity;
-    if (work > maxRunWork) {
-      throw new InputError(
-        `the run asks for ${cells.toLocaleString('en')} cells × ${realizations} realizations = ${work.toLocaleString('en')} (limit maxRunCellRealizations = ${maxRunWork.toLocaleString('en')}): use fewer realizations, a larger cellKm or a smaller bbox`,
-        [{ field: 'maxRunCellRealizations', problem: `${work.toLocaleString('en')} > maxRunCellRealizations = ${maxRunWork.toLocaleString('en')}` }],
-        'run_too_large',
-      );
-    }
+    const work = runWork(input.request, input.cells, this.opts.maxRunWork ?? Infinity);
     const id = newId('run_');
     const runToken = newEditToken();
     const bound = (n: number | undefined) => (n === undefined || !Number.isFinite(n) ? -1 : n);
@@ -173,16 +134,10 @@ export class RedisRunJobs extends LiveRuns {
     ])) as string[];
     if (reserved[0] === 'twin') return { id: reserved[1], cached: true };
     if (reserved[0] !== 'ok') {
-      const name = reserved[0] as keyof typeof limits;
-      const e = LIMIT_ERRORS[name];
-      const v = Number(reserved[1]);
-      throw new InputError(
-        e.says(v, limits[name]),
-        [{ field: name, problem: `${v.toLocaleString('en')} > ${name} = ${limits[name].toLocaleString('en')}` }],
-        e.code,
-      );
+      const name = reserved[0] as FlightLimit;
+      throw flightLimitError(name, Number(reserved[1]), limits[name]);
     }
-    const rec = queuedRecord(id, input.cacheKey, input.request, input.client);
+    const rec = queuedRecord(id, input);
     try {
       await this.store.putRun(rec);
     } catch (e) {
@@ -249,25 +204,4 @@ export class RedisRunJobs extends LiveRuns {
     await this.q?.close();
     this.q = null;
   }
-}
-
-/** The Store record of a run just queued. */
-function queuedRecord(id: string, cacheKey: string, request: RunRequest, client: string): RunRecord {
-  const now = new Date().toISOString();
-  return {
-    id,
-    cacheKey,
-    request,
-    status: 'queued',
-    progress: 0,
-    message: 'queued',
-    layers: [],
-    summary: null,
-    warnings: [],
-    model: null,
-    grids: [],
-    client,
-    createdAt: now,
-    updatedAt: now,
-  };
 }

@@ -13,15 +13,14 @@ import { MessageChannel, type MessagePort } from 'node:worker_threads';
 import { Piscina } from 'piscina';
 import { WORKER_EXEC_ARGV } from '../workers/exec-argv.ts';
 import { InputError } from '../../shared/errors.ts';
-import type { RunRequest } from '../../shared/schema/run.ts';
 import type { Store } from '../store/types.ts';
 import { hashToken, newEditToken } from '../security.ts';
 import { CANCEL_MESSAGE, type RunResult, type RunTask } from './types.ts';
 import { storeCheckedRunResult } from './run-result.ts';
 import { LiveRuns, isTerminal, type RunSnapshot } from './live-runs.ts';
-import { checkRunBounds, type RunBounds } from './run-bounds.ts';
+import { checkRunBounds, runWork, type RunBounds } from './run-bounds.ts';
 import { FairQueue } from './fair-queue.ts';
-import { newJob, type Job } from './run-job.ts';
+import { newJob, type Job, type RunSubmission } from './run-job.ts';
 
 export { isTerminal, type RunSnapshot };
 
@@ -99,14 +98,7 @@ export class RunJobs extends LiveRuns {
    * realizations (422), the client's runs and work in flight (429), the server's (503).
    * @param cells output grid cells of the run (null when not known before it starts)
    */
-  async submit(input: {
-    request: RunRequest;
-    datasets: Record<string, { kind: string; body: string }>;
-    cacheKey: string;
-    client: string;
-    cells?: number | null;
-    projectId?: string;
-  }): Promise<{ id: string; cached: boolean; runToken?: string }> {
+  async submit(input: RunSubmission): Promise<{ id: string; cached: boolean; runToken?: string }> {
     await this.ready;
     if (this.closed) throw new InputError('the server is shutting down', [], 'shutting_down');
     const existing = await this.store.findRunByCacheKey(input.cacheKey, ['queued', 'running', 'done']);
@@ -116,13 +108,9 @@ export class RunJobs extends LiveRuns {
     // The same request submitted while the first was being recorded: the live one is found in memory.
     const twin = [...this.running.values(), ...this.queue.inOrder()].find((j) => j.cacheKey === input.cacheKey);
     if (twin) return { id: twin.id, cached: true };
-    const realizations = input.request.realizations ?? 0;
-    const cells = input.cells ?? 0;
-    const work = Math.max(1, cells) * Math.max(1, realizations);
+    const work = runWork(input.request, input.cells, this.limits.maxRunWork);
     const client = this.queue.inFlight(input.client);
     checkRunBounds(this.limits, {
-      cells,
-      realizations,
       work,
       clientRuns: client.runs,
       clientWork: client.work,

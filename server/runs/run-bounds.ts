@@ -1,9 +1,11 @@
 /**
- * The bounds a run is checked against before it is queued on this server's worker threads: its cells ×
+ * The bounds a run is checked against before it is queued, on this server's worker threads (server/runs/jobs.ts) or
+ * on the Redis queue (server/queue/redis-jobs.ts, whose reservation script finds the bound): its cells ×
  * realizations (422), the client's runs and work in flight (429), the server's (503). Each refusal names the limit,
- * the value and what to do.
+ * the value and what to do, worded the same whichever queue found it.
  */
 import { InputError } from '../../shared/errors.ts';
+import type { RunRequest } from '../../shared/schema/run.ts';
 
 export interface RunBounds {
   maxPerClient: number;
@@ -15,8 +17,6 @@ export interface RunBounds {
 
 /** What is in flight when a run of `work` cells × realizations asks to be queued. */
 export interface InFlight {
-  cells: number;
-  realizations: number;
   work: number;
   clientRuns: number;
   clientWork: number;
@@ -24,46 +24,64 @@ export interface InFlight {
   serverWork: number;
 }
 
-const fmt = (n: number) => n.toLocaleString('en');
-const over = (limit: string, value: number, max: number, message: string, code: string) =>
-  new InputError(message, [{ field: limit, problem: `${fmt(value)} > ${limit} = ${fmt(max)}` }], code);
+/** A bound on what is in flight, by the name its refusal gives. */
+export type FlightLimit = 'maxQueuedRunsPerClient' | 'maxQueuedWorkPerClient' | 'maxQueuedRunsServer' | 'maxQueuedWorkServer';
 
-/** Throws the InputError of the first bound the run would pass. */
-export function checkRunBounds(L: RunBounds, f: InFlight): void {
-  if (f.work > L.maxRunWork)
-    throw over(
-      'maxRunCellRealizations',
-      f.work,
-      L.maxRunWork,
-      `the run asks for ${fmt(f.cells)} cells × ${f.realizations} realizations = ${fmt(f.work)} (limit maxRunCellRealizations = ${fmt(L.maxRunWork)}): use fewer realizations, a larger cellKm or a smaller bbox`,
+const fmt = (n: number) => n.toLocaleString('en');
+
+/** Problem code, message and detail of each bound on what is in flight (a declarative table). */
+const FLIGHT_LIMITS: Record<FlightLimit, { code: string; says: (v: number, max: number) => string; problem: (v: number, max: number) => string }> = {
+  maxQueuedRunsPerClient: {
+    code: 'too_many_runs',
+    says: (v, max) =>
+      `too many runs in flight: ${v} queued or running for this client (limit maxQueuedRunsPerClient = ${max}); wait for one to finish or cancel one`,
+    problem: (_v, max) => `at most ${max} queued or running runs per client`,
+  },
+  maxQueuedWorkPerClient: {
+    code: 'too_much_work',
+    says: (v, max) =>
+      `this client's runs in flight would total ${fmt(v)} cells × realizations (limit maxQueuedWorkPerClient = ${fmt(max)}); wait for a run to finish`,
+    problem: (v, max) => `${fmt(v)} > maxQueuedWorkPerClient = ${fmt(max)}`,
+  },
+  maxQueuedRunsServer: {
+    code: 'server_busy',
+    says: (v, max) => `the server has ${v} runs queued or running (limit maxQueuedRunsServer = ${max}); try again later`,
+    problem: (_v, max) => `at most ${max} runs in flight on the server`,
+  },
+  maxQueuedWorkServer: {
+    code: 'server_busy',
+    says: (v, max) => `the server's runs in flight would total ${fmt(v)} cells × realizations (limit maxQueuedWorkServer = ${fmt(max)}); try again later`,
+    problem: (v, max) => `${fmt(v)} > maxQueuedWorkServer = ${fmt(max)}`,
+  },
+};
+
+/** The refusal of a run that would pass `name`: `value` is what is in flight (runs) or would be (work). */
+export function flightLimitError(name: FlightLimit, value: number, max: number): InputError {
+  const L = FLIGHT_LIMITS[name];
+  return new InputError(L.says(value, max), [{ field: name, problem: L.problem(value, max) }], L.code);
+}
+
+/**
+ * The work of a run (cells × realizations, each at least 1); throws `run_too_large` over `maxRunWork`.
+ * @param cells output grid cells of the run (null when not known before it starts)
+ */
+export function runWork(request: RunRequest, cells: number | null | undefined, maxRunWork: number): number {
+  const realizations = request.realizations ?? 0;
+  const n = cells ?? 0;
+  const work = Math.max(1, n) * Math.max(1, realizations);
+  if (work > maxRunWork)
+    throw new InputError(
+      `the run asks for ${fmt(n)} cells × ${realizations} realizations = ${fmt(work)} (limit maxRunCellRealizations = ${fmt(maxRunWork)}): use fewer realizations, a larger cellKm or a smaller bbox`,
+      [{ field: 'maxRunCellRealizations', problem: `${fmt(work)} > maxRunCellRealizations = ${fmt(maxRunWork)}` }],
       'run_too_large',
     );
-  if (f.clientRuns >= L.maxPerClient)
-    throw new InputError(
-      `too many runs in flight: ${f.clientRuns} queued or running for this client (limit maxQueuedRunsPerClient = ${L.maxPerClient}); wait for one to finish or cancel one`,
-      [{ field: 'maxQueuedRunsPerClient', problem: `at most ${L.maxPerClient} queued or running runs per client` }],
-      'too_many_runs',
-    );
-  if (f.clientWork + f.work > L.maxQueuedWorkPerClient)
-    throw over(
-      'maxQueuedWorkPerClient',
-      f.clientWork + f.work,
-      L.maxQueuedWorkPerClient,
-      `this client's runs in flight would total ${fmt(f.clientWork + f.work)} cells × realizations (limit maxQueuedWorkPerClient = ${fmt(L.maxQueuedWorkPerClient)}); wait for a run to finish`,
-      'too_much_work',
-    );
-  if (f.serverRuns >= L.maxQueuedServer)
-    throw new InputError(
-      `the server has ${f.serverRuns} runs queued or running (limit maxQueuedRunsServer = ${L.maxQueuedServer}); try again later`,
-      [{ field: 'maxQueuedRunsServer', problem: `at most ${L.maxQueuedServer} runs in flight on the server` }],
-      'server_busy',
-    );
-  if (f.serverWork + f.work > L.maxQueuedWorkServer)
-    throw over(
-      'maxQueuedWorkServer',
-      f.serverWork + f.work,
-      L.maxQueuedWorkServer,
-      `the server's runs in flight would total ${fmt(f.serverWork + f.work)} cells × realizations (limit maxQueuedWorkServer = ${fmt(L.maxQueuedWorkServer)}); try again later`,
-      'server_busy',
-    );
+  return work;
+}
+
+/** Throws the InputError of the first bound on what is in flight that the run would pass. */
+export function checkRunBounds(L: RunBounds, f: InFlight): void {
+  if (f.clientRuns >= L.maxPerClient) throw flightLimitError('maxQueuedRunsPerClient', f.clientRuns, L.maxPerClient);
+  if (f.clientWork + f.work > L.maxQueuedWorkPerClient) throw flightLimitError('maxQueuedWorkPerClient', f.clientWork + f.work, L.maxQueuedWorkPerClient);
+  if (f.serverRuns >= L.maxQueuedServer) throw flightLimitError('maxQueuedRunsServer', f.serverRuns, L.maxQueuedServer);
+  if (f.serverWork + f.work > L.maxQueuedWorkServer) throw flightLimitError('maxQueuedWorkServer', f.serverWork + f.work, L.maxQueuedWorkServer);
 }

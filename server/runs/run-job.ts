@@ -24,19 +24,21 @@ export interface Job {
   writes: Promise<void>;
 }
 
-export /** A new run's record and its job, queued (the caller reserves its bounds and writes the record). */
-function newJob(input: {
+/** What a caller asks to queue: the run, its data sets, its cache key and who asks. */
+export interface RunSubmission {
   request: RunRequest;
   datasets: Record<string, { kind: string; body: string }>;
   cacheKey: string;
   client: string;
+  /** Output grid cells of the run (null when not known before it starts). */
+  cells?: number | null;
   projectId?: string;
-  tokenHash: string;
-  work: number;
-}): { rec: RunRecord; job: Job } {
+}
+
+/** The Store record of a run just queued (both queues write it before the run may start). */
+export function queuedRecord(id: string, input: Pick<RunSubmission, 'cacheKey' | 'request' | 'client'>): RunRecord {
   const now = new Date().toISOString();
-  const id = newId('run_');
-  const rec: RunRecord = {
+  return {
     id,
     cacheKey: input.cacheKey,
     request: input.request,
@@ -52,6 +54,12 @@ function newJob(input: {
     createdAt: now,
     updatedAt: now,
   };
+}
+
+/** A new run's record and its job, queued (the caller reserves its bounds and writes the record). */
+export function newJob(input: RunSubmission & { tokenHash: string; work: number }): { rec: RunRecord; job: Job } {
+  const id = newId('run_');
+  const rec = queuedRecord(id, input);
   const job: Job = {
     id,
     cacheKey: input.cacheKey,
