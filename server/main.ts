@@ -10,8 +10,8 @@ import type { Store } from './store/types.ts';
 import { InputError } from '../shared/errors.ts';
 import { DEMO_TERRAIN, loadDemo, loadDemoTerrain } from './demo.ts';
 import { loadDem, TerrainTiles } from './terrain.ts';
-import { redactRedisUrl } from './queue/connection.ts';
 import { answerClientError } from './routes/guards.ts';
+import { redactUrl } from './security.ts';
 
 export const ROOT_DIR = new URL('..', import.meta.url).pathname;
 export const CLIENT_DIST = join(ROOT_DIR, 'client', 'dist');
@@ -74,17 +74,6 @@ export function queueNeedsDatabase(): InputError {
     [{ field: 'database-url', problem: 'required with a queue URL' }],
     'conflicting_options',
   );
-}
-
-/** A database URL with its password hidden (for messages and logs). */
-export function redactUrl(url: string): string {
-  try {
-    const u = new URL(url);
-    if (u.password !== '') u.password = '***';
-    return u.toString();
-  } catch {
-    return '(a malformed URL)';
-  }
 }
 
 /**
@@ -184,7 +173,7 @@ export async function startServer(opts: ServerOptions) {
   // Loopback and all-interfaces binds are reached at localhost from this machine (scripts read this line).
   const shown = ['0.0.0.0', '::', '127.0.0.1', '::1', 'localhost'].includes(host) ? 'localhost' : host.includes(':') ? `[${host}]` : host;
   log(
-    `subtherm listening on http://${shown}:${port} (database ${opts.databaseUrl !== undefined ? redactUrl(opts.databaseUrl) : opts.dbPath}${opts.queueUrl !== undefined ? `; runs on the queue ${redactRedisUrl(opts.queueUrl)}` : ''})${host === '127.0.0.1' || host === 'localhost' || host === '::1' ? '; this machine only (--host 0.0.0.0 serves the network)' : ''}`,
+    `subtherm listening on http://${shown}:${port} (database ${opts.databaseUrl !== undefined ? redactUrl(opts.databaseUrl) : opts.dbPath}${opts.queueUrl !== undefined ? `; runs on the queue ${redactUrl(opts.queueUrl)}` : ''})${host === '127.0.0.1' || host === 'localhost' || host === '::1' ? '; this machine only (--host 0.0.0.0 serves the network)' : ''}`,
   );
   const close = async () => {
     await app.close();

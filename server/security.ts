@@ -62,3 +62,14 @@ export function securityHeaders(): MiddlewareHandler {
     crossOriginEmbedderPolicy: false,
   });
 }
+
+/** A database or queue URL with its password hidden (for messages and logs). */
+export function redactUrl(url: string): string {
+  try {
+    const u = new URL(url);
+    if (u.password !== '') u.password = '***';
+    return u.toString();
+  } catch {
+    return '(a malformed URL)';
+  }
+}

@@ -2,7 +2,7 @@ import { parseVerbArgs } from './args.ts';
 import { resolveDatabase } from './serve.ts';
 import { SqliteStore } from '../store/sqlite.ts';
 import { PostgresStore, migratePostgres } from '../store/postgres.ts';
-import { redactUrl } from '../main.ts';
+import { redactUrl } from '../security.ts';
 import { InputError } from '../../shared/errors.ts';
 
 /**

@@ -2,10 +2,9 @@ import { fileURLToPath } from 'node:url';
 import { parseVerbArgs, numberOption } from './args.ts';
 import { InputError } from '../../shared/errors.ts';
 import { PostgresStore } from '../store/postgres.ts';
-import { redactUrl } from '../main.ts';
+import { redactUrl } from '../security.ts';
 import { resolveLimits } from '../limits.ts';
 import { QueueWorker } from '../queue/worker.ts';
-import { redactRedisUrl } from '../queue/connection.ts';
 
 /** The run worker module (the same one the server's own threads run). */
 const RUN_WORKER_FILE = fileURLToPath(new URL('../workers/run-worker.ts', import.meta.url));
@@ -67,7 +66,7 @@ export async function worker(argv: string[]): Promise<number> {
     await store.close();
     throw new InputError((e as Error).message, [{ field: 'queue-url', problem: (e as Error).message }], 'queue_unavailable');
   }
-  log(`subtherm worker ${w.id} taking runs from ${redactRedisUrl(queueUrl)} (${concurrency} at once; database ${redactUrl(databaseUrl)})`);
+  log(`subtherm worker ${w.id} taking runs from ${redactUrl(queueUrl)} (${concurrency} at once; database ${redactUrl(databaseUrl)})`);
   const stop = () => {
     void w
       .stop()

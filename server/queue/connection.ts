@@ -8,6 +8,7 @@
 import { Redis } from 'ioredis';
 import type { RunStatus, Store } from '../store/types.ts';
 import { CANCEL, CLAIM, ENQUEUE, FINISH, REAP, RENEW, RESERVE } from './scripts.ts';
+import { redactUrl } from '../security.ts';
 
 /** How long a worker's hold on a run lasts without renewal, ms. */
 export const LEASE_MS = 10_000;
@@ -29,17 +30,6 @@ export interface QueueSnapshot {
   status: RunStatus;
   progress: number;
   message: string;
-}
-
-/** A redis:// or rediss:// URL with its password hidden. */
-export function redactRedisUrl(url: string): string {
-  try {
-    const u = new URL(url);
-    if (u.password !== '') u.password = '***';
-    return u.toString();
-  } catch {
-    return '(a malformed URL)';
-  }
 }
 
 /** The message of a failed run whose workers all stopped before it finished. */
@@ -64,7 +54,7 @@ export class QueueRedis {
 
   /** Connects twice (commands, subscriptions); a Redis that cannot be reached rejects with its URL (password hidden). */
   static async connect(url: string, opts: { prefix?: string; log?: (line: string) => void } = {}): Promise<QueueRedis> {
-    if (!/^rediss?:\/\//.test(url)) throw new Error(`the queue URL must start with redis:// or rediss://, got ${redactRedisUrl(url)}`);
+    if (!/^rediss?:\/\//.test(url)) throw new Error(`the queue URL must start with redis:// or rediss://, got ${redactUrl(url)}`);
     const log = opts.log ?? ((l: string) => process.stderr.write(l + '\n'));
     const make = () => {
       const r = new Redis(url, { lazyConnect: true, maxRetriesPerRequest: 20, enableOfflineQueue: true });
@@ -80,7 +70,7 @@ export class QueueRedis {
     } catch (e) {
       cmd.disconnect();
       sub.disconnect();
-      throw new Error(`cannot reach the run queue at ${redactRedisUrl(url)}: ${(e as Error).message}`, { cause: e });
+      throw new Error(`cannot reach the run queue at ${redactUrl(url)}: ${(e as Error).message}`, { cause: e });
     }
     return new QueueRedis(cmd, sub, opts.prefix ?? 'subtherm:', log);
   }
