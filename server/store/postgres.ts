@@ -6,7 +6,7 @@
 import pg from 'pg';
 import { migratePostgres } from './postgres-schema.ts';
 import { putBlobWith, putGridWith, putRunFileWith, readGridRows, updateRunWith } from './postgres-writes.ts';
-import type { ProjectRecord, ProjectTerrainRecord, RunRecord, Store, StoredGridMeta } from './types.ts';
+import type { ProjectRecord, ProjectTerrainRecord, RunRecord, RunResultWrite, Store, StoredGridMeta } from './types.ts';
 import { newId } from './ids.ts';
 import { float32Of, runRowValues } from './rows.ts';
 import { SqlStore } from './sql-store.ts';
@@ -229,14 +229,7 @@ export class PostgresStore extends SqlStore implements Store {
     return readGridRows(this.pool, runId, name, row0, row1);
   }
 
-  async storeRunResult(
-    runId: string,
-    result: {
-      files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
-      grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
-      record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
-    },
-  ): Promise<void> {
+  async storeRunResult(runId: string, result: RunResultWrite): Promise<void> {
     await this.tx(async (c) => {
       for (const f of result.files) await putRunFileWith(c, runId, f.name, f.ext, await putBlobWith(c, f.bytes), f.contentType);
       for (const g of result.grids) await putGridWith(c, runId, g.name, g.meta, g.values);

@@ -1,7 +1,7 @@
 import Database from 'better-sqlite3';
 import { mkdirSync } from 'node:fs';
 import { dirname } from 'node:path';
-import type { DatasetRecord, ProjectRecord, ProjectTerrainRecord, RunRecord, Store, StoredGridMeta } from './types.ts';
+import type { DatasetRecord, ProjectRecord, ProjectTerrainRecord, RunRecord, RunResultWrite, Store, StoredGridMeta } from './types.ts';
 import { bodyBbox } from './bbox.ts';
 import { sha256Hex } from './ids.ts';
 import { MIGRATIONS } from './sqlite-schema.ts';
@@ -194,14 +194,7 @@ export class SqliteStore extends SqlStore implements Store {
     return { meta: JSON.parse(row.meta) as StoredGridMeta, values: float32Of(bytes) };
   }
 
-  async storeRunResult(
-    runId: string,
-    result: {
-      files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
-      grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
-      record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
-    },
-  ): Promise<void> {
+  async storeRunResult(runId: string, result: RunResultWrite): Promise<void> {
     this.db.transaction(() => {
       for (const f of result.files) this.putRunFileNow(runId, f.name, f.ext, this.putBlobNow(f.bytes), f.contentType);
       for (const g of result.grids) {

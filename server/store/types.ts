@@ -113,6 +113,13 @@ export interface DatasetInput {
   bbox?: [number, number, number, number] | null;
 }
 
+/** A finished run's result as it is stored in one transaction (Store.storeRunResult). */
+export interface RunResultWrite {
+  files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
+  grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
+  record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
+}
+
 export interface Store {
   /** Which engine holds the data (reported by /api/health). */
   readonly kind: 'sqlite' | 'postgresql';
@@ -193,14 +200,7 @@ export interface Store {
    * Stores a finished run's whole result atomically: its files and grids as content-addressed blobs linked to the
    * run, and the final fields of its record (status itself is set by the caller afterwards).
    */
-  storeRunResult(
-    runId: string,
-    result: {
-      files: { name: string; ext: string; bytes: Uint8Array; contentType: string }[];
-      grids: { name: string; meta: StoredGridMeta; values: Float32Array }[];
-      record: Partial<Pick<RunRecord, 'layers' | 'summary' | 'warnings' | 'model' | 'grids'>>;
-    },
-  ): Promise<void>;
+  storeRunResult(runId: string, result: RunResultWrite): Promise<void>;
 
   close(): Promise<void>;
 }
