@@ -17,7 +17,7 @@ import { readFile } from 'node:fs/promises';
 import { basename, dirname, join } from 'node:path';
 import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
-import type { GridSpec } from '../../shared/grid/grid.ts';
+import { gridSpecOf, type GridSpec } from '../../shared/grid/grid.ts';
 
 export const REALIZATIONS_FORMAT = 'subtherm-realizations';
 
@@ -64,13 +64,7 @@ export function realizationsFiles(
     field,
     units,
     realizations,
-    width: grid.width,
-    height: grid.height,
-    west: grid.west,
-    north: grid.north,
-    dx: grid.dx,
-    dy: grid.dy,
-    crs: grid.crs,
+    ...gridSpecOf(grid),
     sampleType: 'float32',
     byteOrder: 'little-endian',
     layout: LAYOUT,

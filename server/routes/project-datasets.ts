@@ -15,7 +15,7 @@ import { projectIdOf, requireEditToken } from './projects.ts';
 import { farApartWarnings, requireRunInputs, resolveRunDatasets, submitRun } from './runs.ts';
 import { datasetPatchSchema, datasetNameSchema, idSchema, parseWith, projectDatasetQuerySchema } from './schemas.ts';
 import { z } from 'zod';
-import { gridBbox } from '../../shared/grid/grid.ts';
+import { gridBbox, gridSpecOf } from '../../shared/grid/grid.ts';
 import { demFromUpload } from '../terrain-upload.ts';
 import { TerrainTiles, TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from '../terrain.ts';
 
@@ -230,12 +230,7 @@ function projectTerrainRoutes(app: Hono, ctx: AppContext): void {
     const old = await ctx.store.getProjectTerrain(id);
     await checkQuota(ctx, id, grid.values.byteLength - (old ? old.values.byteLength : 0), 'this terrain');
     const meta = {
-      width: grid.width,
-      height: grid.height,
-      west: grid.west,
-      north: grid.north,
-      dx: grid.dx,
-      dy: grid.dy,
+      ...gridSpecOf(grid),
       crs: 'EPSG:4326',
       units: 'm',
       sourceCrs,

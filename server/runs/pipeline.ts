@@ -10,7 +10,7 @@
  * decreasing. Between tiles the pipeline yields to the event loop, so a worker sees a cancel message, and checks
  * `signal`.
  */
-import type { Grid } from '../../shared/grid/grid.ts';
+import { gridSpecOf, type Grid } from '../../shared/grid/grid.ts';
 import { runSummarySchema, type HeatFlowCentralValues, type RunRequest, type RunSummary, type StructureSummary } from '../../shared/schema/run.ts';
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
 import { prepareInterpolation, type InterpolationResult, type PreparedInterpolation, type TrendReport } from '../../shared/interp/interpolate.ts';
@@ -73,7 +73,7 @@ const now = () => performance.now();
 const finiteOrNull = (v: number | null) => (v !== null && Number.isFinite(v) ? v : null);
 
 function serialize(g: Grid<Float32Array>): SerializedGrid {
-  return { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: g.units, values: g.values };
+  return { ...gridSpecOf(g), units: g.units, values: g.values };
 }
 
 function variogramParameters(interp: InterpolationResult) {
@@ -107,7 +107,7 @@ function runProvenance(inp: RunInputs, interp: InterpolationResult): Provenance 
     realizations: inp.request.realizations ?? 0,
     seed: inp.seed,
     heatFlowRealizations: (inp.request.realizations ?? 0) > 0 ? 'conditional simulation' : null,
-    grid: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: inp.crs },
+    grid: { ...gridSpecOf(g), crs: inp.crs },
     interpolation: inp.interpolation,
     variogram: variogramParameters(interp),
     trend: trendParameters(interp),

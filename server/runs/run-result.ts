@@ -2,6 +2,7 @@
  * Checking a run worker's result and storing it: the one path from a RunResult (server/runs/types.ts) to the Store,
  * used by the in-process job system (server/runs/jobs.ts) and by queue workers (server/queue/worker.ts).
  */
+import { gridSpecOf } from '../../shared/grid/grid.ts';
 import type { Store } from '../store/types.ts';
 import { LAYER_CONTENT_TYPES, LAYER_EXTS, type RunResult, type SerializedGrid } from './types.ts';
 
@@ -33,7 +34,7 @@ export async function storeCheckedRunResult(store: Store, runId: string, result:
     .filter((e): e is [string, SerializedGrid] => e[1] !== undefined)
     .map(([name, g]) => ({
       name,
-      meta: { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: g.units },
+      meta: { ...gridSpecOf(g), units: g.units },
       values: g.values,
     }));
   await store.storeRunResult(runId, {

@@ -33,6 +33,11 @@ export interface GridSpec {
   crs: string;
 }
 
+/** The placement fields of a grid (or of anything that extends GridSpec), alone and in GridSpec's order. */
+export function gridSpecOf(g: GridSpec): GridSpec {
+  return { width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs };
+}
+
 /** Allocates a NaN-filled Float32 grid. */
 export function createGrid(spec: GridSpec, units: string): Grid<Float32Array> {
   checkSpec(spec);
