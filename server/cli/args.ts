@@ -12,6 +12,17 @@ export const COMMON_OPTIONS = {
   help: { type: 'boolean', short: 'h', default: false },
 } as const satisfies OptionSpec;
 
+/** The words of a space-separated string literal type, as a union: `Words<'a b'>` is `'a' | 'b'`. */
+type Words<S extends string> = S extends `${infer A} ${infer B}` ? A | Words<B> : S;
+
+/**
+ * Options that each take one string, named in one space-separated list: `textOptions('model seed')` is
+ * `{ model: { type: 'string' }, seed: { type: 'string' } }` (a verb's table names them once, not a line each).
+ */
+export function textOptions<const S extends string>(names: S): { [K in Words<S>]: { type: 'string' } } {
+  return Object.fromEntries(names.split(' ').map((n) => [n, { type: 'string' }])) as { [K in Words<S>]: { type: 'string' } };
+}
+
 /**
  * Parses a verb's arguments strictly: an unknown option or a missing value is an InputError (exit 2), not a crash.
  */

@@ -7,7 +7,7 @@ import { correctSites, correctionTable } from '../../shared/heatflow/sites.ts';
 import { correctionMethodText } from '../../shared/heatflow/corrections.ts';
 import { TOOL_NAME, VERSION } from '../../shared/version.ts';
 import { readDatasetFile } from '../io/vector-input.ts';
-import { parseVerbArgs } from './args.ts';
+import { parseVerbArgs, textOptions } from './args.ts';
 import { CORRECTION_HELP, CORRECTION_OPTIONS, correctionOptions } from './heat-flow-options.ts';
 
 const HELP = `subtherm correct-sites: paleoclimatic and topographic corrections of heat-flow sites, with a report
@@ -27,10 +27,7 @@ At least one of --paleoclimate and --terrain is required. Wells are corrected by
 /** `subtherm correct-sites` (see HELP). */
 export async function correctSitesVerb(argv: string[]): Promise<number> {
   const { values: o } = parseVerbArgs('correct-sites', argv, {
-    sites: { type: 'string' },
-    'points-crs': { type: 'string' },
-    layer: { type: 'string' },
-    out: { type: 'string' },
+    ...textOptions('sites points-crs layer out'),
     ...CORRECTION_OPTIONS,
   });
   if (o.help) {

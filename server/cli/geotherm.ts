@@ -8,7 +8,7 @@ import { InputError } from '../../shared/errors.ts';
 import { computeColumn } from '../../shared/products/column.ts';
 import { parseModelText } from '../../shared/products/model-input.ts';
 import type { ColumnAnswer } from '../../shared/schema/column.ts';
-import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
+import { numberListOption, numberOption, parseVerbArgs, textOptions } from './args.ts';
 
 const HELP = `subtherm geotherm --model M.json [options] [--json]
 
@@ -44,17 +44,7 @@ async function readModelFile(path: string) {
 
 export async function geotherm(argv: string[]): Promise<number> {
   const { values: v } = parseVerbArgs('geotherm', argv, {
-    model: { type: 'string' },
-    'heat-flow': { type: 'string' },
-    isotherms: { type: 'string' },
-    'depths-km': { type: 'string' },
-    'max-depth-km': { type: 'string' },
-    'step-km': { type: 'string' },
-    'surface-temp-c': { type: 'string' },
-    realizations: { type: 'string' },
-    seed: { type: 'string' },
-    'pore-pressure': { type: 'string' },
-    'fluid-density-kg-m3': { type: 'string' },
+    ...textOptions('model heat-flow isotherms depths-km max-depth-km step-km surface-temp-c realizations seed pore-pressure fluid-density-kg-m3'),
   });
   if (v.help) {
     process.stdout.write(HELP);

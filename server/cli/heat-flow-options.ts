@@ -4,15 +4,11 @@ import type { HeatFlowCorrectionOptions } from '../../shared/heatflow/correction
 import { checkClimateHistory, DEFAULT_DIFFUSIVITY_M2S, type ClimateStep } from '../../shared/heatflow/paleoclimate.ts';
 import { DEFAULT_LAPSE_RATE_C_PER_KM } from '../../shared/heatflow/topography.ts';
 import { loadDem } from '../terrain.ts';
-import { numberOption } from './args.ts';
+import { numberOption, textOptions } from './args.ts';
 
 /** The options of the heat-flow corrections, shared by `wells` and `correct-sites`. */
 export const CORRECTION_OPTIONS = {
-  paleoclimate: { type: 'string' },
-  'diffusivity-m2s': { type: 'string' },
-  terrain: { type: 'string' },
-  'lapse-rate-c-per-km': { type: 'string' },
-  'terrain-radius-km': { type: 'string' },
+  ...textOptions('paleoclimate diffusivity-m2s terrain lapse-rate-c-per-km terrain-radius-km'),
 } as const;
 
 export const CORRECTION_HELP = `  --paleoclimate H          surface-temperature steps, "yearsAgo:deltaC,..." (warming positive, e.g. 12000:8,3000:-1)

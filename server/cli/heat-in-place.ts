@@ -23,7 +23,7 @@ import {
 } from '../../shared/resource/index.ts';
 import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
 import { readGeoTiff } from '../io/geotiff.ts';
-import { numberOption, parseVerbArgs } from './args.ts';
+import { numberOption, parseVerbArgs, textOptions } from './args.ts';
 import {
   SIMULATION_HELP,
   SIMULATION_OPTIONS,
@@ -121,26 +121,8 @@ function uncertainOption(name: string, raw: string | undefined): unknown {
 
 export async function heatInPlace(argv: string[]): Promise<number> {
   const { values: v } = parseVerbArgs('heat-in-place', argv, {
-    'heat-flow': { type: 'string' },
-    'heat-flow-sd': { type: 'string' },
-    model: { type: 'string' },
-    polygon: { type: 'string' },
-    zones: { type: 'string' },
-    'zone-property': { type: 'string' },
-    'min-temp-c': { type: 'string' },
-    'top-km': { type: 'string' },
-    'bottom-km': { type: 'string' },
-    'ref-temp-c': { type: 'string' },
-    'rho-c-mj': { type: 'string' },
-    recovery: { type: 'string' },
-    efficiency: { type: 'string' },
-    'conversion-efficiency': { type: 'string' },
-    'life-years': { type: 'string' },
-    realizations: { type: 'string' },
-    seed: { type: 'string' },
-    correlation: { type: 'string' },
-    'out-csv': { type: 'string' },
-    'out-html': { type: 'string' },
+    ...textOptions('heat-flow heat-flow-sd model polygon zones zone-property min-temp-c top-km bottom-km ref-temp-c rho-c-mj recovery efficiency'),
+    ...textOptions('conversion-efficiency life-years realizations seed correlation out-csv out-html'),
     ...SIMULATION_OPTIONS,
   });
   if (v.help) {

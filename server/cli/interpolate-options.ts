@@ -6,44 +6,20 @@ import { InputError } from '../../shared/errors.ts';
 import { parseVariogramOption, parseAnisotropyOption } from '../../shared/schema/interp.ts';
 import { WGS84_DEF } from '../../shared/interp/projection.ts';
 import type { InterpolationOptions } from '../../shared/interp/interpolate.ts';
-import { parseVerbArgs, numberOption } from './args.ts';
+import { parseVerbArgs, numberOption, textOptions } from './args.ts';
 import { bboxOption, neighborsOption, sizeOption } from './point-input.ts';
 import type { InterpolationInputs } from './interpolate-inputs.ts';
 
 export const INTERPOLATE_OPTIONS = {
-  points: { type: 'string' },
+  ...textOptions('points method cell-km size bbox crs points-crs layer neighbors radius-km power quality-weights variogram lag-km max-lag-km'),
+  ...textOptions('anisotropy trend error-field faults region max-distance-km at block out max-cells workers'),
   field: { type: 'string', default: 'heatFlowMWm2' },
-  method: { type: 'string' },
-  'cell-km': { type: 'string' },
-  size: { type: 'string' },
-  bbox: { type: 'string' },
-  crs: { type: 'string' },
-  'points-crs': { type: 'string' },
-  layer: { type: 'string' },
-  neighbors: { type: 'string' },
-  'radius-km': { type: 'string' },
-  power: { type: 'string' },
   'use-quality': { type: 'boolean', default: false },
-  'quality-weights': { type: 'string' },
-  variogram: { type: 'string' },
-  'lag-km': { type: 'string' },
-  'max-lag-km': { type: 'string' },
-  anisotropy: { type: 'string' },
-  trend: { type: 'string' },
   'measurement-error': { type: 'boolean', default: false },
-  'error-field': { type: 'string' },
-  faults: { type: 'string' },
-  region: { type: 'string' },
-  'max-distance-km': { type: 'string' },
   sd: { type: 'string', default: 'grid' },
   cv: { type: 'string', default: 'on' },
   residuals: { type: 'boolean', default: false },
-  at: { type: 'string' },
-  block: { type: 'string' },
-  out: { type: 'string' },
   'skip-missing': { type: 'boolean', default: false },
-  'max-cells': { type: 'string' },
-  workers: { type: 'string' },
 } as const;
 
 export const INTERPOLATE_HELP = `subtherm interpolate: grid a point field by IDW, ordinary or universal kriging

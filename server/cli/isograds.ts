@@ -10,7 +10,7 @@ import { type FaultCollection, type SampleCollection } from '../../shared/schema
 import { parseThermalModel } from '../../shared/schema/model.ts';
 import { compileModel, nominalModel, type CompiledModel } from '../../shared/thermal/index.ts';
 import { isogradLayer, DEFAULT_PALEO_DENSITY_KG_M3, type FaultSummary, type IsogradReport, type Range } from '../../shared/structure/index.ts';
-import { numberOption, parseVerbArgs } from './args.ts';
+import { numberOption, parseVerbArgs, textOptions } from './args.ts';
 import { readDatasetFile } from '../io/vector-input.ts';
 
 const HELP = `subtherm isograds --samples S.geojson [options] --out I.geojson [--json]
@@ -75,22 +75,8 @@ function inFile<T>(path: string, f: () => T): T {
 const r3 = (v: number | null) => (v === null || !Number.isFinite(v) ? null : Math.round(v * 1000) / 1000);
 
 const ARG_SPEC = {
-  samples: { type: 'string' },
-  'points-crs': { type: 'string' },
-  layer: { type: 'string' },
-  'faults-layer': { type: 'string' },
-  faults: { type: 'string' },
-  model: { type: 'string' },
-  'heat-flow': { type: 'string' },
-  'fault-distance-km': { type: 'string' },
-  'cell-km': { type: 'string' },
-  'support-km': { type: 'string' },
-  neighbors: { type: 'string' },
-  method: { type: 'string' },
-  'isograd-dip-deg': { type: 'string' },
-  power: { type: 'string' },
-  'density-kg-m3': { type: 'string' },
-  out: { type: 'string' },
+  ...textOptions('samples points-crs layer faults-layer faults model heat-flow fault-distance-km cell-km support-km neighbors method'),
+  ...textOptions('isograd-dip-deg power density-kg-m3 out'),
 } as const;
 
 type Values = Partial<Record<keyof typeof ARG_SPEC, string>>;

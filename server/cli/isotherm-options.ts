@@ -7,27 +7,13 @@ import { ringsOfGeometry } from '../../shared/grid/polygon-cells.ts';
 import { overrideFromProperties, type OverrideRegion } from '../../shared/products/overrides.ts';
 import { parseFeatureCollection } from '../../shared/schema/features.ts';
 import { sha256Hex } from '../io/export.ts';
-import { numberListOption, numberOption } from './args.ts';
+import { numberListOption, numberOption, textOptions } from './args.ts';
 import { readBytes } from './isotherm-inputs.ts';
 import { SIMULATION_OPTIONS } from './simulation-input.ts';
 
 export const ISOTHERM_OPTIONS = {
-  'heat-flow': { type: 'string' },
-  band: { type: 'string' },
-  'heat-flow-sd': { type: 'string' },
-  model: { type: 'string' },
-  isotherms: { type: 'string' },
-  'depths-km': { type: 'string' },
-  'facies-depth-km': { type: 'string' },
-  'max-depth-km': { type: 'string' },
-  overrides: { type: 'string' },
-  'contour-interval-km': { type: 'string' },
-  'contour-interval-c': { type: 'string' },
-  realizations: { type: 'string' },
-  seed: { type: 'string' },
-  'heat-flow-error-correlation': { type: 'string' },
-  'out-dir': { type: 'string' },
-  'realizations-from': { type: 'string' },
+  ...textOptions('heat-flow band heat-flow-sd model isotherms depths-km facies-depth-km max-depth-km overrides contour-interval-km'),
+  ...textOptions('contour-interval-c realizations seed heat-flow-error-correlation out-dir realizations-from'),
   ...SIMULATION_OPTIONS,
 } as const;
 

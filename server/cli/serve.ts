@@ -1,4 +1,4 @@
-import { parseVerbArgs, numberOption } from './args.ts';
+import { parseVerbArgs, numberOption, textOptions } from './args.ts';
 import { InputError } from '../../shared/errors.ts';
 import { startServer } from '../main.ts';
 import { join } from 'node:path';
@@ -23,12 +23,7 @@ export function resolveDatabase(values: { db?: string; 'database-url'?: string }
 /** `subtherm serve [--port 8080] [--db data/subtherm.sqlite | --database-url postgres://…]`; flags override the environment. */
 export async function serve(argv: string[]): Promise<number> {
   const { values } = parseVerbArgs('serve', argv, {
-    port: { type: 'string' },
-    db: { type: 'string' },
-    'database-url': { type: 'string' },
-    host: { type: 'string' },
-    'public-url': { type: 'string' },
-    'queue-url': { type: 'string' },
+    ...textOptions('port db database-url host public-url queue-url'),
   });
   if (values.help) {
     process.stdout.write(

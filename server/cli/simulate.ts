@@ -8,7 +8,7 @@ import { simulateAtPoints, simulateGrid, type SimulationOptions, type Simulation
 import { summarizeTargets } from '../../shared/interp/targetSummaries.ts';
 import { writeGeoTiff } from '../io/geotiff.ts';
 import { realizationsFiles } from './realizations-file.ts';
-import { parseVerbArgs, numberOption } from './args.ts';
+import { parseVerbArgs, numberOption, textOptions } from './args.ts';
 import { optionalNumber, parseJson, readText } from './point-input.ts';
 import type { PointData } from '../../shared/interp/interpolate.ts';
 import { SIMULATION_HELP, SIMULATION_OPTIONS, gridOptionsFromArgs, readSimulationPoints, simulationOptionsFromArgs } from './simulation-input.ts';
@@ -16,11 +16,7 @@ import { trendOption } from './drift-input.ts';
 
 const OPTIONS = {
   ...SIMULATION_OPTIONS,
-  realizations: { type: 'string' },
-  seed: { type: 'string' },
-  at: { type: 'string' },
-  'out-dir': { type: 'string' },
-  'max-values': { type: 'string' },
+  ...textOptions('realizations seed at out-dir max-values'),
   'keep-realizations': { type: 'boolean', default: false },
 } as const;
 

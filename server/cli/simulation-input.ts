@@ -9,29 +9,18 @@ import { parseVariogramOption, parseAnisotropyOption, parseTrendOption } from '.
 import { loadCrsDefinition, WGS84_DEF, type OutputGridOptions } from '../../shared/interp/projection.ts';
 import type { PointData } from '../../shared/interp/interpolate.ts';
 import type { SimulationOptions } from '../../shared/interp/simulateField.ts';
-import { numberOption } from './args.ts';
+import { numberOption, textOptions } from './args.ts';
 import { bboxOption, neighborsOption, optionalNumber, readPointsFile, sizeOption } from './point-input.ts';
 import { namesDriftGrid, type TrendChoice } from './drift-input.ts';
 import type { RunSimulationOptions } from '../runs/heat-flow-simulation.ts';
 
 /** parseArgs options of the simulation (the verb adds its own). */
 export const SIMULATION_OPTIONS = {
-  points: { type: 'string' },
+  ...textOptions('points points-crs variogram lag-km max-lag-km anisotropy error-field neighbors cell-km size bbox crs'),
   field: { type: 'string', default: 'heatFlowMWm2' },
-  'points-crs': { type: 'string' },
-  variogram: { type: 'string' },
-  'lag-km': { type: 'string' },
-  'max-lag-km': { type: 'string' },
-  anisotropy: { type: 'string' },
   trend: { type: 'string', default: 'none' },
-  'error-field': { type: 'string' },
   transform: { type: 'string', default: 'normal-score' },
   decluster: { type: 'string', default: 'none' },
-  neighbors: { type: 'string' },
-  'cell-km': { type: 'string' },
-  size: { type: 'string' },
-  bbox: { type: 'string' },
-  crs: { type: 'string' },
   'skip-missing': { type: 'boolean', default: false },
 } as const;
 

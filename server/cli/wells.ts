@@ -14,7 +14,7 @@ import { DEFAULT_SD_C, HORNER_DEPTH_TOLERANCE_M } from '../../shared/wells/corre
 import { attachIntervals, parseIntervalsCsv } from '../../shared/wells/intervals-csv.ts';
 import { wellModelFromCompiled } from '../../shared/wells/model-adapter.ts';
 import type { BhtCorrection } from '../../shared/wells/types.ts';
-import { numberListOption, numberOption, parseVerbArgs } from './args.ts';
+import { numberListOption, numberOption, parseVerbArgs, textOptions } from './args.ts';
 import { CORRECTION_HELP, CORRECTION_OPTIONS, correctionOptions } from './heat-flow-options.ts';
 import { correctionTable } from '../../shared/heatflow/sites.ts';
 import { EMPIRICAL_BHT } from '../../shared/heatflow/bht-empirical.ts';
@@ -152,23 +152,9 @@ function table(reports: WellReport[]): string {
 /** `subtherm wells`: well temperatures to heat-flow sites (see HELP). */
 export async function wells(argv: string[]): Promise<number> {
   const { values: o } = parseVerbArgs('wells', argv, {
-    wells: { type: 'string' },
-    'points-crs': { type: 'string' },
-    layer: { type: 'string' },
-    model: { type: 'string' },
-    'surface-temp-c': { type: 'string' },
+    ...textOptions('wells points-crs layer model surface-temp-c anchor-sd-c correction correction-source correction-sd-c horner-tolerance-m'),
+    ...textOptions('conductivity-wmk intervals lithology-k heat-flow outliers out'),
     'no-anchor': { type: 'boolean', default: false },
-    'anchor-sd-c': { type: 'string' },
-    correction: { type: 'string' },
-    'correction-source': { type: 'string' },
-    'correction-sd-c': { type: 'string' },
-    'horner-tolerance-m': { type: 'string' },
-    'conductivity-wmk': { type: 'string' },
-    intervals: { type: 'string' },
-    'lithology-k': { type: 'string' },
-    'heat-flow': { type: 'string' },
-    outliers: { type: 'string' },
-    out: { type: 'string' },
     ...CORRECTION_OPTIONS,
   });
   if (o.help) {

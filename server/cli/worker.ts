@@ -1,5 +1,5 @@
 import { fileURLToPath } from 'node:url';
-import { parseVerbArgs, numberOption } from './args.ts';
+import { parseVerbArgs, numberOption, textOptions } from './args.ts';
 import { InputError } from '../../shared/errors.ts';
 import { PostgresStore } from '../store/postgres.ts';
 import { redactUrl } from '../security.ts';
@@ -22,9 +22,7 @@ const HELP = [
 /** `subtherm worker`: processes runs from the shared queue until stopped. */
 export async function worker(argv: string[]): Promise<number> {
   const { values } = parseVerbArgs('worker', argv, {
-    concurrency: { type: 'string' },
-    'queue-url': { type: 'string' },
-    'database-url': { type: 'string' },
+    ...textOptions('concurrency queue-url database-url'),
   });
   if (values.help) {
     process.stdout.write(HELP);
