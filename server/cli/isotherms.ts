@@ -62,6 +62,7 @@ export async function isotherms(argv: string[]): Promise<number> {
     modelPath = need('model'),
     outDir = need('out-dir');
   const n = isothermNumbers(a);
+  const tRead = performance.now();
   const grids = await readHeatFlowGrids(hfPath, a['heat-flow-sd'], n.band);
   const { heatFlow, heatFlowSd, inputs } = grids;
   // --points or --realizations-from: the Monte Carlo's heat flow comes from those realizations.
@@ -72,6 +73,7 @@ export async function isotherms(argv: string[]): Promise<number> {
   let regions: OverrideRegion[] = [];
   if (a.overrides !== undefined) ({ regions, sha256: inputs.overrides } = await readOverrides(a.overrides));
 
+  const readMs = performance.now() - tRead;
   const t0 = performance.now();
   const { band, heatFlowErrorCorrelation, ...options } = n;
   const products = await computeThermalProducts(heatFlow, heatFlowSd, doc.model, regions, grids.crsDef, {
@@ -106,7 +108,7 @@ export async function isotherms(argv: string[]): Promise<number> {
     files: [...files, join(outDir, 'summary.json')],
     warnings: [...new Set([...(simulated?.warnings ?? []), ...products.warnings])],
     provenance,
-    timingsMs: { compute: computeMs, write: writeMs },
+    timingsMs: { read: readMs, ...products.timingsMs, compute: computeMs, write: writeMs },
   };
   await writeFile(join(outDir, 'summary.json'), JSON.stringify(summary, null, 2));
   process.stdout.write(a.json ? JSON.stringify(summary) + '\n' : productsText(heatFlow, products, summary.warnings, summary.files));

@@ -19,8 +19,9 @@
  * In mantle layers below the lithosphere base temperatures follow the mantle adiabat (limits.ts).
  */
 import type { Grid, GridSpec } from '../grid/grid.ts';
-import { ColumnState, geothermGrid, lithostaticPressureMPa, kbarFromMPa, type CompiledModel } from '../thermal/index.ts';
+import { ColumnState, geothermGrid, lithostaticPressureMPa, kbarFromMPa, type CompiledModel, type GeothermGridQuery } from '../thermal/index.ts';
 import { faciesCode } from './facies-grid.ts';
+import { buildGeothermTable, geothermGridByTable, type GeothermTable } from './thermal-table.ts';
 
 export interface ThermalGridSpec {
   /** Surface heat flow per cell, mW/m² (NaN = no data); its georeferencing is that of every output. */
@@ -37,7 +38,16 @@ export interface ThermalGridSpec {
   maxDepthKm: number;
   /** Compute the solidus-crossing grid (default true). */
   solidus?: boolean;
+  /**
+   * Nodes of the per-zone table over heat flow (thermal-table.ts); null = solve every cell. Default: a table of
+   * TABLE_NODES nodes for each zone with at least TABLE_MIN_CELLS cells, every cell solved in the others.
+   */
+  tableNodes?: number | null;
 }
+
+/** Nodes of the default heat-flow table, and the fewest cells of a zone that gets one (its build costs 4·nodes solves). */
+export const TABLE_NODES = 2048;
+export const TABLE_MIN_CELLS = 64 * TABLE_NODES;
 
 /** Whole-grid output buffers (row-major, indexed like the heat-flow grid). */
 export interface ThermalGridBuffers {
@@ -76,12 +86,49 @@ export function allocateThermalGridBuffers(spec: ThermalGridSpec): ThermalGridBu
   };
 }
 
-/** Per-spec data built once: facies pressures per zone and a column state per model. */
+/** Per-spec data built once: facies pressures per zone, a column state per model, the heat-flow tables per zone. */
 export interface ThermalGridPlan {
   spec: ThermalGridSpec;
   /** Lithostatic pressure at the facies depth per zone, kbar. */
   faciesPressureKbar: Float64Array;
   states: ColumnState[];
+  /** The query every cell answers (the facies depth last among the depths). */
+  query: GeothermGridQuery;
+  /** Per zone: its heat-flow table, or null where its cells are solved one by one. */
+  tables: Array<GeothermTable | null>;
+}
+
+/** Per zone: the finite heat-flow range and cell count. */
+function zoneRanges(spec: ThermalGridSpec): { lo: Float64Array; hi: Float64Array; cells: Float64Array } {
+  const n = spec.models.length;
+  const lo = new Float64Array(n).fill(Infinity),
+    hi = new Float64Array(n).fill(-Infinity),
+    cells = new Float64Array(n);
+  const q = spec.heatFlow.values,
+    zones = spec.zones;
+  for (let c = 0; c < q.length; c++) {
+    const v = q[c];
+    if (!(v > 0 && v < Infinity)) continue;
+    const z = zones === undefined ? 0 : zones[c];
+    cells[z]++;
+    if (v < lo[z]) lo[z] = v;
+    if (v > hi[z]) hi[z] = v;
+  }
+  return { lo, hi, cells };
+}
+
+/** The per-zone heat-flow tables of a spec (null entries: that zone solved per cell). */
+function zoneTables(spec: ThermalGridSpec, query: GeothermGridQuery): Array<GeothermTable | null> {
+  const nodes = spec.tableNodes === undefined ? TABLE_NODES : spec.tableNodes;
+  if (nodes === null) return spec.models.map(() => null);
+  const auto = spec.tableNodes === undefined;
+  const solidus = spec.solidus ?? true;
+  const { lo, hi, cells } = zoneRanges(spec);
+  return spec.models.map((cm, z) =>
+    (auto && cells[z] < TABLE_MIN_CELLS) || !(hi[z] > lo[z])
+      ? null
+      : buildGeothermTable(cm, query, { basal: true, meltOnset: solidus, wetSolidus: solidus }, lo[z], hi[z], nodes),
+  );
 }
 
 /** Checks a spec and prepares its per-zone data. */
@@ -100,7 +147,9 @@ export function planThermalGrids(spec: ThermalGridSpec): ThermalGridPlan {
   const fd = spec.faciesDepthKm;
   if (fd !== undefined && fd !== null && !(fd >= 0)) throw new RangeError(`faciesDepthKm must be ≥ 0, got ${fd}`);
   const faciesPressureKbar = Float64Array.from(spec.models, (cm) => (fd === undefined || fd === null ? NaN : kbarFromMPa(lithostaticPressureMPa(cm, fd))));
-  return { spec, faciesPressureKbar, states: spec.models.map((cm) => new ColumnState(cm.nLayers)) };
+  const withFacies = fd !== undefined && fd !== null;
+  const query = { isothermsC: spec.isothermsC, depthsKm: withFacies ? [...spec.depthsKm, fd] : spec.depthsKm, maxDepthKm: spec.maxDepthKm };
+  return { spec, faciesPressureKbar, states: spec.models.map((cm) => new ColumnState(cm.nLayers)), query, tables: zoneTables(spec, query) };
 }
 
 /** Computes rows [r0, r1) of every product into `out` (whole-grid buffers). */
@@ -115,20 +164,16 @@ export function computeThermalGridRows(plan: ThermalGridPlan, r0: number, r1: nu
   const zones = spec.zones;
   const fd = spec.faciesDepthKm;
   const withFacies = fd !== undefined && fd !== null && out.facies !== null && out.faciesTemperatureC !== null;
-  geothermGrid(
-    spec.models,
-    q,
-    { isothermsC: spec.isothermsC, depthsKm: withFacies ? [...spec.depthsKm, fd] : spec.depthsKm, maxDepthKm: spec.maxDepthKm },
-    {
-      isothermDepthKm: out.isothermDepthKm,
-      temperatureC: withFacies ? [...out.temperatureC, out.faciesTemperatureC!] : out.temperatureC,
-      status: out.status,
-      basalHeatFlowMWm2: out.baseHeatFlowMWm2,
-      ...(out.meltOnsetKm === null ? {} : { meltOnsetKm: out.meltOnsetKm }),
-      ...(out.solidusDepthKm === null ? {} : { wetSolidusKm: out.solidusDepthKm }),
-    },
-    { zones, start, end },
-  );
+  const gridOut = {
+    isothermDepthKm: out.isothermDepthKm,
+    temperatureC: withFacies ? [...out.temperatureC, out.faciesTemperatureC!] : out.temperatureC,
+    status: out.status,
+    basalHeatFlowMWm2: out.baseHeatFlowMWm2,
+    ...(out.meltOnsetKm === null ? {} : { meltOnsetKm: out.meltOnsetKm }),
+    ...(out.solidusDepthKm === null ? {} : { wetSolidusKm: out.solidusDepthKm }),
+  };
+  if (plan.tables.some((t) => t !== null)) geothermGridByTable(spec.models, plan.tables, q, plan.query, gridOut, zones, start, end);
+  else geothermGrid(spec.models, q, plan.query, gridOut, { zones, start, end });
   const flag = out.inconsistent,
     status = out.status;
   // The engine's melt-onset bit (8) is left out: the melt-onset grid carries it.
