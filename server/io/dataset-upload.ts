@@ -32,8 +32,12 @@ export interface UploadInput {
 
 export interface ParsedUpload {
   kind: DatasetKind | 'model';
-  /** Canonical stored body: the validated GeoJSON, or the model without its descriptive name. */
-  body: string;
+  /**
+   * Canonical stored body as UTF-8: the validated GeoJSON, or the model without its descriptive name. Bytes, not a
+   * string, so that a worker thread can move a large body to the request thread and on to the store's writer
+   * thread without a copy (the view spans its whole buffer).
+   */
+  body: Uint8Array;
   featureCount: number;
   warnings: string[];
   /** The model's own `name` (a model upload) or the file's layer, offered as the data set's name when none is given. */
@@ -53,13 +57,18 @@ const notJsonModel = () =>
 
 const emptyBody = () => new InputError('the request body is empty', [{ field: '(body)', problem: 'empty' }], 'empty_body');
 
+/** UTF-8 of `text` in a buffer of its own (never a slice of Node's shared pool, so it can be transferred). */
+export function utf8(text: string): Uint8Array {
+  return new TextEncoder().encode(text);
+}
+
 /** A validated collection as the stored body, with its content hash and bounding box. */
 function finish(
   kind: DatasetKind,
   parsed: { collection: { features: unknown[] }; warnings: string[] },
   extra: { warnings?: string[]; suggestedName?: string | null } = {},
 ): ParsedUpload {
-  const body = JSON.stringify(parsed.collection);
+  const body = utf8(JSON.stringify(parsed.collection));
   return {
     kind,
     body,
@@ -92,7 +101,7 @@ export async function parseUploadBytes(u: UploadInput): Promise<ParsedUpload> {
     // The name is the data set's (editable per project), not part of the content: two uploads of the same layers
     // under different names are one stored model, and a renamed model never carries its old name into exports.
     const { name: _name, ...content } = model as typeof model & { name?: unknown };
-    const body = JSON.stringify(content);
+    const body = utf8(JSON.stringify(content));
     return { kind: 'model', body, featureCount: model.layers.length, warnings: [], suggestedName: name, contentHash: sha256Hex(body), bbox: null };
   }
   let toLonLat: ((x: number, y: number) => [number, number]) | undefined;

@@ -35,7 +35,40 @@ export function errorBody(code: string, message: string, details: unknown[] = []
 
 /** The request body as text (UTF-8; invalid sequences become U+FFFD, then fail validation). */
 export async function bodyText(c: Context): Promise<string> {
-  return await c.req.text();
+  return new TextDecoder().decode(await bodyBytes(c));
+}
+
+/**
+ * The request body as bytes, read from Node's request stream straight into one buffer of the announced
+ * content-length: each arriving chunk is copied once, as it arrives, and nothing is concatenated or copied at the
+ * end, so a 50 MB upload never holds the request thread for more than one chunk's copy. The buffer is the view's
+ * own (offset 0, its whole length), so it can be moved to a worker thread. A body sent without content-length
+ * (chunked; bounded by the body-size guard) or one a middleware has already read comes through Hono instead.
+ */
+export async function bodyBytes(c: Context): Promise<Uint8Array<ArrayBuffer>> {
+  const incoming = (c.env as { incoming?: IncomingMessage } | undefined)?.incoming;
+  const announced = Number(c.req.header('content-length') ?? NaN);
+  if (!incoming || incoming.readableDidRead || c.req.header('transfer-encoding') !== undefined || !Number.isSafeInteger(announced))
+    return new Uint8Array(await c.req.arrayBuffer());
+  const out = new Uint8Array(announced);
+  let at = 0;
+  await new Promise<void>((resolve, reject) => {
+    const done = (e?: Error) => {
+      incoming.off('data', onData).off('end', onEnd).off('error', done).off('close', onClose);
+      if (e) reject(e);
+      else resolve();
+    };
+    const onData = (chunk: Buffer) => {
+      // Node's parser frames the body by its content-length, so this only guards against a mismatch.
+      if (at + chunk.length > announced) return done(new Error('the request body is longer than its content-length'));
+      out.set(chunk, at);
+      at += chunk.length;
+    };
+    const onEnd = () => done(at === announced ? undefined : new Error('the request body ended before its content-length'));
+    const onClose = () => done(incoming.readableEnded ? undefined : new Error('the client closed the connection before sending the whole body'));
+    incoming.on('data', onData).on('end', onEnd).on('error', done).on('close', onClose);
+  });
+  return out;
 }
 
 /** Deepest nesting any JSON body may have (a MultiPolygon FeatureCollection needs 8; saved states get 64). */

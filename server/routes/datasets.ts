@@ -8,7 +8,7 @@ import type { Context, Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
 import type { DatasetKind } from '../../shared/schema/features.ts';
 import type { DatasetInput, DatasetRecord } from '../store/types.ts';
-import { errorBody, singleQuery, type AppContext } from './context.ts';
+import { bodyBytes, errorBody, singleQuery, type AppContext } from './context.ts';
 import { z } from 'zod';
 import { formatFromMediaType, VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
 import { INLINE_UPLOAD_BYTES, parseUploadBytes, type ParsedUpload, type UploadInput } from '../io/dataset-upload.ts';
@@ -51,7 +51,7 @@ export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind
   }
   const fq = parseWith(uploadFormatQuery, singleQuery(c), 'query', 'bad_query');
   const label = { gpkg: 'GeoPackage', shapefile: 'zipped Shapefile', csv: 'CSV', geojson: 'GeoJSON' }[format];
-  const bytes = new Uint8Array(await c.req.arrayBuffer());
+  const bytes = await bodyBytes(c);
   const input: UploadInput = {
     kind,
     format,

@@ -99,20 +99,28 @@ export const urlGuard: MiddlewareHandler = async (c, next) => {
   await next();
 };
 
-/** Bodies over maxBodyBytes are refused (413) while they are read, before any route parses them. */
+/**
+ * Bodies over maxBodyBytes are refused (413) before any route parses them: by their content-length before a byte
+ * is read, or, sent without one (chunked), while they are read. A body with a content-length is left unread here, so the route
+ * reads it straight from Node's stream (context.ts bodyBytes).
+ */
 export function bodySizeGuard(limits: Limits): MiddlewareHandler {
-  return bodyLimit({
-    maxSize: limits.maxBodyBytes,
-    onError: (c) =>
-      c.json(
-        errorBody(
-          'body_too_large',
-          `the request body is larger than ${limits.maxBodyBytes} bytes (${(limits.maxBodyBytes / 1048576).toPrecision(3)} MB), the server's limit maxBodyBytes`,
-          [{ field: '(body)', problem: `at most ${limits.maxBodyBytes} bytes (limit maxBodyBytes = ${limits.maxBodyBytes})` }],
-        ),
-        413,
+  const tooLarge = (c: Context) =>
+    c.json(
+      errorBody(
+        'body_too_large',
+        `the request body is larger than ${limits.maxBodyBytes} bytes (${(limits.maxBodyBytes / 1048576).toPrecision(3)} MB), the server's limit maxBodyBytes`,
+        [{ field: '(body)', problem: `at most ${limits.maxBodyBytes} bytes (limit maxBodyBytes = ${limits.maxBodyBytes})` }],
       ),
-  });
+      413,
+    );
+  const counted = bodyLimit({ maxSize: limits.maxBodyBytes, onError: tooLarge });
+  return async (c, next) => {
+    const length = c.req.header('content-length');
+    if (length === undefined || c.req.header('transfer-encoding') !== undefined) return counted(c, next);
+    if (Number(length) > limits.maxBodyBytes) return tooLarge(c);
+    await next();
+  };
 }
 
 /** What Node's HTTP parser reports with a 'clientError' (node:http): the code and where in the packet it stopped. */

@@ -9,7 +9,7 @@ import type { Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import type { ProjectDatasetRecord } from '../store/types.ts';
-import { clientAddress, jsonBody, requireJsonType, singleQuery, type AppContext } from './context.ts';
+import { bodyBytes, clientAddress, jsonBody, requireJsonType, singleQuery, type AppContext } from './context.ts';
 import { parseUpload, storedOf, type ParsedUpload } from './datasets.ts';
 import { projectIdOf, requireEditToken } from './projects.ts';
 import { farApartWarnings, requireRunInputs, resolveRunDatasets, submitRun } from './runs.ts';
@@ -89,7 +89,7 @@ export async function addToProject(
       await ctx.store.renameProjectDataset(projectId, held.id, freeName(await ctx.store.listProjectDatasets(projectId), name, held.id));
     return { dataset: (await ctx.store.getProjectDataset(projectId, held.id))!, status: 'existing' };
   }
-  await checkQuota(ctx, projectId, Buffer.byteLength(up.body, 'utf8'), `this ${up.kind} data set`);
+  await checkQuota(ctx, projectId, up.body.byteLength, `this ${up.kind} data set`);
   const rec = found ?? (await ctx.store.putDataset(storedOf(up)));
   const finalName = freeName(await ctx.store.listProjectDatasets(projectId), name ?? up.suggestedName ?? KIND_NAMES[up.kind] ?? up.kind);
   return { dataset: await ctx.store.attachDataset(projectId, rec.id, finalName), status: found ? 'attached' : 'created' };
@@ -225,7 +225,7 @@ function projectTerrainRoutes(app: Hono, ctx: AppContext): void {
         'unsupported_media_type',
       );
     }
-    const bytes = new Uint8Array(await c.req.arrayBuffer());
+    const bytes = await bodyBytes(c);
     const { grid, sourceCrs } = await demFromUpload(bytes, ctx.limits.maxTerrainBytes);
     const old = await ctx.store.getProjectTerrain(id);
     await checkQuota(ctx, id, grid.values.byteLength - (old ? old.values.byteLength : 0), 'this terrain');

@@ -37,6 +37,11 @@ export function blobChunks(bytes: Uint8Array): Buffer[] {
   return out;
 }
 
+/** A data set body as text (bytes are its UTF-8). */
+export function textOf(body: string | Uint8Array): string {
+  return typeof body === 'string' ? body : new TextDecoder().decode(body);
+}
+
 const DATASET_COLUMNS = 'id, kind, feature_count, content_hash, title, created_at, bbox, octet_length(body) AS bytes';
 const DATASET_COLUMNS_D = 'd.id, d.kind, d.feature_count, d.content_hash, d.title, d.created_at, d.bbox, octet_length(d.body) AS bytes';
 const PROJECT_DATASETS = `SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FROM project_datasets p JOIN datasets d ON d.id = p.dataset_id WHERE p.project_id = ?`;
@@ -60,9 +65,15 @@ export abstract class SqlStore {
     return (await this.rows<T>(sql, params))[0] ?? null;
   }
 
-  /** Runs one statement that writes a large value (a data set body); a store may move it off the request thread. */
+  /**
+   * Runs one statement that writes a large value (a data set body); a store may move it off the request thread.
+   * A Uint8Array parameter is UTF-8 text and is stored as text.
+   */
   protected async execLarge(sql: string, params: unknown[]): Promise<number> {
-    return await this.exec(sql, params);
+    return await this.exec(
+      sql,
+      params.map((p) => (p instanceof Uint8Array ? textOf(p) : p)),
+    );
   }
 
   async putDataset(input: DatasetInput): Promise<DatasetRecord> {
@@ -73,7 +84,7 @@ export abstract class SqlStore {
         return rest;
       }
     }
-    const bbox = input.kind === 'model' ? null : input.bbox !== undefined ? input.bbox : bodyBbox(input.body);
+    const bbox = input.kind === 'model' ? null : input.bbox !== undefined ? input.bbox : bodyBbox(textOf(input.body));
     const rec: DatasetRecord = {
       id: input.id ?? newId('ds_'),
       kind: input.kind,
@@ -82,7 +93,7 @@ export abstract class SqlStore {
       createdAt: new Date().toISOString(),
       title: input.title ?? null,
       bbox,
-      bytes: Buffer.byteLength(input.body, 'utf8'),
+      bytes: typeof input.body === 'string' ? Buffer.byteLength(input.body, 'utf8') : input.body.byteLength,
     };
     await this.execLarge('INSERT INTO datasets (id, kind, feature_count, content_hash, title, body, created_at, bbox) VALUES (?, ?, ?, ?, ?, ?, ?, ?)', [
       rec.id,

@@ -5,7 +5,7 @@ import type { DatasetRecord, ProjectRecord, ProjectTerrainRecord, RunRecord, Run
 import { bodyBbox } from './bbox.ts';
 import { sha256Hex } from './ids.ts';
 import { MIGRATIONS } from './sqlite-schema.ts';
-import { OFF_THREAD_WRITE_CHARS, runOffThread } from './sqlite-offthread.ts';
+import { isLargeParam, SqliteWriter } from './sqlite-offthread.ts';
 import { bboxOf, datasetRecord, float32Of, runRowValues, runPatchColumns, type DatasetRow, type RunPatch } from './rows.ts';
 import { SqlStore, blobChunks } from './sql-store.ts';
 
@@ -15,11 +15,14 @@ export { newId, sha256Hex } from './ids.ts';
  * The embedded store: one SQLite file in WAL mode (better-sqlite3), created and migrated on open. better-sqlite3 is
  * synchronous: each method does its work before it returns, and is `async` only so that a failure reaches the caller
  * as a rejected Promise, as the Store interface promises. Transactions use the `…Now` helpers, which stay synchronous.
- * The methods of one statement are shared with the PostgreSQL store (sql-store.ts).
+ * The methods of one statement are shared with the PostgreSQL store (sql-store.ts). Large writes run on the writer
+ * thread (sqlite-offthread.ts); every other write first awaits `writable()`, so it never waits for the writer's
+ * lock inside SQLite, on the request thread.
  */
 export class SqliteStore extends SqlStore implements Store {
   readonly kind = 'sqlite' as const;
   readonly db: Database.Database;
+  private readonly writer: SqliteWriter | null;
 
   constructor(path: string) {
     super();
@@ -31,15 +34,33 @@ export class SqliteStore extends SqlStore implements Store {
     this.db.pragma('foreign_keys = ON');
     this.db.pragma('busy_timeout = 5000');
     this.migrate();
+    this.writer = this.db.memory ? null : new SqliteWriter(this.db.name);
   }
 
+  /** Settles when a write on this connection will not meet the writer thread's lock (at once when it is idle). */
+  private async writable(): Promise<void> {
+    if (this.writer) await this.writer.idle();
+  }
+
+  /**
+   * Applies the migrations not yet applied, each in a transaction, with foreign keys off while they run (so a table
+   * can be rebuilt: SQLite's documented way to change one) and checked before each commits.
+   */
   private migrate(): void {
     const version = this.db.pragma('user_version', { simple: true }) as number;
-    for (let v = version; v < MIGRATIONS.length; v++) {
-      this.db.transaction(() => {
-        this.db.exec(MIGRATIONS[v]);
-        this.db.pragma(`user_version = ${v + 1}`);
-      })();
+    if (version >= MIGRATIONS.length) return;
+    this.db.pragma('foreign_keys = OFF');
+    try {
+      for (let v = version; v < MIGRATIONS.length; v++) {
+        this.db.transaction(() => {
+          this.db.exec(MIGRATIONS[v]);
+          const broken = this.db.pragma('foreign_key_check') as unknown[];
+          if (broken.length > 0) throw new Error(`migration ${v + 1} left ${broken.length} rows whose references do not resolve`);
+          this.db.pragma(`user_version = ${v + 1}`);
+        })();
+      }
+    } finally {
+      this.db.pragma('foreign_keys = ON');
     }
   }
 
@@ -48,32 +69,36 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   protected async exec(sql: string, params: unknown[] = []): Promise<number> {
+    await this.writable();
     return this.db.prepare(sql).run(...params).changes;
   }
 
   /**
-   * A statement writing a string of OFF_THREAD_WRITE_CHARS or more (a large data set body) runs on a thread with its
-   * own connection (sqlite-offthread.ts), so its commit never holds the request thread; smaller ones run here.
+   * A statement writing a string or bytes of OFF_THREAD_WRITE_CHARS or more (a large data set body) runs on the
+   * writer thread (sqlite-offthread.ts), so its commit never holds the request thread; smaller ones run here.
+   * Bytes are UTF-8 text, stored as text.
    */
   protected override async execLarge(sql: string, params: unknown[]): Promise<number> {
-    const large = params.some((p) => typeof p === 'string' && p.length >= OFF_THREAD_WRITE_CHARS);
-    if (!large || this.db.memory) return await this.exec(sql, params);
-    await runOffThread(this.db.name, sql, params);
-    return 1;
+    if (this.writer && params.some(isLargeParam)) return await this.writer.write(sql, params);
+    return await super.execLarge(sql, params);
   }
 
-  /** A record from its row; a bbox missing from a row stored before bboxes were kept is computed once and saved. */
+  /**
+   * A record from its row; a bbox missing from a row stored before bboxes were kept is computed and saved (not
+   * while the writer thread holds the lock: then it is saved on a later read).
+   */
   protected override datasetFromRow(r: DatasetRow): DatasetRecord {
     let bbox = bboxOf(r);
     if (r.bbox === null && r.kind !== 'model') {
       const body = (this.db.prepare('SELECT body FROM datasets WHERE id = ?').get(r.id) as { body: string }).body;
       bbox = bodyBbox(body);
-      if (bbox !== null) this.db.prepare('UPDATE datasets SET bbox = ? WHERE id = ?').run(JSON.stringify(bbox), r.id);
+      if (bbox !== null && !this.writer?.busy) this.db.prepare('UPDATE datasets SET bbox = ? WHERE id = ?').run(JSON.stringify(bbox), r.id);
     }
     return datasetRecord(r, bbox);
   }
 
   async pruneDataset(datasetId: string): Promise<boolean> {
+    await this.writable();
     return this.db
       .transaction(() => {
         const attached = this.db.prepare('SELECT 1 FROM project_datasets WHERE dataset_id = ? AND detached_at IS NULL LIMIT 1').get(datasetId);
@@ -88,6 +113,7 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   async linkRunDatasets(runId: string, datasetIds: string[]): Promise<void> {
+    await this.writable();
     const ins = this.db.prepare('INSERT OR IGNORE INTO run_datasets (run_id, dataset_id) VALUES (?, ?)');
     this.db.transaction(() => {
       for (const id of datasetIds) ins.run(runId, id);
@@ -95,6 +121,7 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   async putProjectTerrain(projectId: string, values: Float32Array, meta: ProjectTerrainRecord['meta']): Promise<ProjectTerrainRecord> {
+    await this.writable();
     const createdAt = new Date().toISOString();
     const blobHash = this.db.transaction(() => {
       const hash = this.putBlobNow(new Uint8Array(values.buffer, values.byteOffset, values.byteLength));
@@ -107,6 +134,7 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   async createProject(input: { id: string; title: string; stateJson: string; tokenHash: string }): Promise<ProjectRecord> {
+    await this.writable();
     const now = new Date().toISOString();
     this.db.transaction(() => {
       this.db.prepare('INSERT INTO projects (id, token_hash, created_at) VALUES (?, ?, ?)').run(input.id, input.tokenHash, now);
@@ -118,6 +146,7 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   async appendRevision(id: string, input: { title?: string; stateJson: string }): Promise<number> {
+    await this.writable();
     // IMMEDIATE takes the write lock before reading the head, so two saves never compute the same number.
     return this.db
       .transaction(() => {
@@ -134,6 +163,7 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   async putRun(run: RunRecord): Promise<void> {
+    await this.writable();
     this.db
       .prepare(
         `INSERT INTO runs (id, cache_key, request, status, progress, message, layers, summary, warnings, model, grids, client, created_at, updated_at)
@@ -148,12 +178,14 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   async failInterruptedRuns(message: string): Promise<number> {
+    await this.writable();
     return this.db
       .prepare("UPDATE runs SET status = 'failed', message = ?, updated_at = ? WHERE status IN ('queued', 'running')")
       .run(message, new Date().toISOString()).changes;
   }
 
   async putBlob(bytes: Uint8Array): Promise<string> {
+    await this.writable();
     return this.putBlobNow(bytes);
   }
 
@@ -169,6 +201,7 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   async putRunFile(runId: string, name: string, ext: string, hash: string, contentType: string): Promise<void> {
+    await this.writable();
     return this.putRunFileNow(runId, name, ext, hash, contentType);
   }
 
@@ -179,6 +212,7 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   async putRunGrid(runId: string, name: string, meta: StoredGridMeta, hash: string): Promise<void> {
+    await this.writable();
     return this.putRunGridNow(runId, name, meta, hash);
   }
 
@@ -195,6 +229,7 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   async storeRunResult(runId: string, result: RunResultWrite): Promise<void> {
+    await this.writable();
     this.db.transaction(() => {
       for (const f of result.files) this.putRunFileNow(runId, f.name, f.ext, this.putBlobNow(f.bytes), f.contentType);
       for (const g of result.grids) {
@@ -206,6 +241,7 @@ export class SqliteStore extends SqlStore implements Store {
   }
 
   async close(): Promise<void> {
+    await this.writer?.close();
     this.db.close();
   }
 }

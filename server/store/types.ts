@@ -106,7 +106,8 @@ export type StoredGridMeta = GridSpec & { units: string };
 export interface DatasetInput {
   id?: string;
   kind: string;
-  body: string;
+  /** The content: text, or its UTF-8 bytes (a large upload's body, moved to the store's writer without a copy). */
+  body: string | Uint8Array;
   featureCount: number;
   title?: string;
   contentHash?: string;

@@ -210,7 +210,7 @@ describe('stores made before blobs were chunked', () => {
     const dir = mkdtempSync(join(ROOT, '.tmp', 'store-migrate-'));
     const path = join(dir, 'db.sqlite');
     const db = new Database(path);
-    const before = MIGRATIONS.length - 1;
+    const before = MIGRATIONS.findIndex((m) => m.includes('CREATE TABLE blob_chunks'));
     for (let v = 0; v < before; v++) db.exec(MIGRATIONS[v]);
     db.pragma(`user_version = ${before}`);
     db.prepare('INSERT INTO blobs (hash, size, bytes) VALUES (?, ?, ?)').run(hash, bytes.length, Buffer.from(bytes));
