@@ -9,12 +9,14 @@ import type { InterpolationOptions } from '../../shared/interp/interpolate.ts';
 import { parseVerbArgs, numberOption, textOptions } from './args.ts';
 import { bboxOption, neighborsOption, sizeOption } from './point-input.ts';
 import type { InterpolationInputs } from './interpolate-inputs.ts';
+import { DIRECTION_HELP, DIRECTION_OPTIONS, directionsOption } from './directions-option.ts';
 
 export const INTERPOLATE_OPTIONS = {
   ...textOptions('points method cell-km size bbox crs points-crs layer neighbors radius-km power quality-weights variogram lag-km max-lag-km'),
   ...textOptions('anisotropy trend error-field faults region max-distance-km at block out max-cells workers'),
   field: { type: 'string', default: 'heatFlowMWm2' },
   'use-quality': { type: 'boolean', default: false },
+  ...DIRECTION_OPTIONS,
   'measurement-error': { type: 'boolean', default: false },
   sd: { type: 'string', default: 'grid' },
   cv: { type: 'string', default: 'on' },
@@ -42,7 +44,7 @@ export const INTERPOLATE_HELP = `subtherm interpolate: grid a point field by IDW
   --anisotropy ANGLE_DEG,RATIO|auto|none   geometric anisotropy: the major axis's azimuth (degrees clockwise
                              from north) and the minor/major range ratio; auto estimates both from directional
                              semivariograms and uses them when leave-one-out RMSE improves; none (default) isotropic
-  --trend none|linear|quadratic|auto   drift of the mean in the coordinates (kriging; default none):
+${DIRECTION_HELP}  --trend none|linear|quadratic|auto   drift of the mean in the coordinates (kriging; default none):
                              universal kriging with the variogram fitted on least-squares residuals; auto picks
                              the lowest leave-one-out RMSE and lists every drift's RMSE and MSDR
   --trend drift:G.tif | auto:drift:G.tif   kriging with an external drift: the covariate is the GeoTIFF G.tif
@@ -152,6 +154,7 @@ export function interpolationOptions(
   const bbox = bboxOption(a.bbox);
   const neighbors = neighborsOption(a.neighbors);
   const qualityWeights = qualityWeightsOption(a['quality-weights']);
+  const anisotropy = parseAnisotropyOption(a.anisotropy);
   const opt = (name: keyof typeof a) => (a[name] === undefined ? undefined : numberOption(String(name), a[name] as string));
   return {
     method: a.method,
@@ -163,7 +166,8 @@ export function interpolationOptions(
     variogram: parseVariogramOption(a.variogram),
     lagKm: opt('lag-km'),
     maxLagKm: opt('max-lag-km'),
-    anisotropy: parseAnisotropyOption(a.anisotropy),
+    anisotropy,
+    directions: directionsOption(a, anisotropy),
     trend: inputs.trend.trend,
     externalDrift: inputs.trend.externalDrift,
     measurementError: errorField !== undefined,

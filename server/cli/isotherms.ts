@@ -38,9 +38,9 @@ const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a ther
                               minus the deterministic grid
   --heat-flow-error-correlation full|independent   (deprecated; default full) with --heat-flow-sd
   --points P.geojson|P.csv    instead of --heat-flow-sd: the realizations' heat flow is simulated conditionally from
-                              these sites on the heat-flow grid (with --variogram, --anisotropy, --trend, --transform,
-                              --decluster, --error-field, --neighbors, --lag-km, --max-lag-km, --points-crs as in
-                              simulate)
+                              these sites on the heat-flow grid (with --variogram, --anisotropy, --directions,
+                              --angle-tolerance, --bandwidth-km, --trend, --transform, --decluster, --error-field,
+                              --neighbors, --lag-km, --max-lag-km, --points-crs as in simulate)
   --realizations-from R.json  instead of --points: the heat-flow realizations written by simulate --keep-realizations
                               (its .json header; on the heat-flow grid); --realizations N uses the first N (default all)
   --out-dir DIR               where the files go

@@ -12,12 +12,14 @@ import type { SimulationOptions } from '../../shared/interp/simulateField.ts';
 import { numberOption, textOptions } from './args.ts';
 import { bboxOption, neighborsOption, optionalNumber, readPointsFile, sizeOption } from './point-input.ts';
 import { namesDriftGrid, type TrendChoice } from './drift-input.ts';
+import { DIRECTION_HELP, DIRECTION_OPTIONS, directionsOption } from './directions-option.ts';
 import type { RunSimulationOptions } from '../runs/heat-flow-simulation.ts';
 
 /** parseArgs options of the simulation (the verb adds its own). */
 export const SIMULATION_OPTIONS = {
   ...textOptions('points points-crs variogram lag-km max-lag-km anisotropy error-field neighbors cell-km size bbox crs'),
   field: { type: 'string', default: 'heatFlowMWm2' },
+  ...DIRECTION_OPTIONS,
   trend: { type: 'string', default: 'none' },
   transform: { type: 'string', default: 'normal-score' },
   decluster: { type: 'string', default: 'none' },
@@ -32,7 +34,7 @@ export const SIMULATION_HELP = `  --points P.geojson|P.csv   points (GeoJSON, or
   --anisotropy ANGLE_DEG,RATIO|auto|none   geometric anisotropy: the major axis's azimuth (degrees clockwise
                              from north) and the minor/major range ratio; auto estimates both from directional
                              semivariograms and uses them when leave-one-out RMSE improves; none (default) isotropic
-  --trend none|linear|quadratic|auto   drift of the mean in the coordinates (default none): the residual is
+${DIRECTION_HELP}  --trend none|linear|quadratic|auto   drift of the mean in the coordinates (default none): the residual is
                              simulated (variogram of least-squares residuals) and the realizations are conditioned
                              by universal kriging, which adds the drift back; auto picks by leave-one-out RMSE
   --trend drift:G.tif | auto:drift:G.tif   kriging with an external drift: the covariate is the GeoTIFF G.tif
@@ -93,11 +95,13 @@ export function simulationOptionsFromArgs(a: SimulationArgs, realizations: numbe
       [{ field: 'decluster', problem: 'drop it, or use --transform normal-score' }],
       'bad_option',
     );
+  const anisotropy = parseAnisotropyOption(a.anisotropy);
   return {
     realizations,
     seed,
     variogram: parseVariogramOption(a.variogram),
-    anisotropy: parseAnisotropyOption(a.anisotropy),
+    anisotropy,
+    directions: directionsOption(a, anisotropy),
     trend: trend?.trend ?? parseTrendOption(a.trend),
     externalDrift: trend?.externalDrift ?? null,
     transform,
@@ -137,6 +141,7 @@ export function heatFlowSimulationOptions(a: SimulationArgs, trend: TrendChoice)
   return {
     variogram: so.variogram,
     anisotropy: so.anisotropy,
+    directions: so.directions,
     trend: so.trend,
     externalDrift: so.externalDrift,
     neighbors: so.neighbors,

@@ -18,6 +18,7 @@ import type { HeatFlowCentralValues, HeatFlowSimulationSummary } from '../../sha
 import type { Anisotropy, VariogramModel, VariogramModelName } from '../../shared/interp/variogram.ts';
 import type { DriftKind } from '../../shared/interp/drift.ts';
 import type { ExternalDriftGrid } from '../../shared/interp/externalDrift.ts';
+import type { DirectionChoice } from '../../shared/interp/directional-variogram.ts';
 
 /** Offset between a run's seed and the key of its heat-flow simulation streams. */
 export const SIMULATION_STREAM_OFFSET = 2 ** 32;
@@ -32,6 +33,8 @@ export const HEAT_FLOW_CORRELATION_DEPRECATED =
 export interface RunSimulationOptions {
   variogram?: 'auto' | VariogramModelName | VariogramModel;
   anisotropy?: Anisotropy | 'auto' | null;
+  /** With anisotropy 'auto': the direction classes of the directional semivariograms it is estimated from. */
+  directions?: DirectionChoice;
   /**
    * Drift of the mean (the kriged map's): the residual is simulated and conditioned by universal kriging; 'external'
    * (or a candidate of 'auto') needs `externalDrift`.
@@ -83,6 +86,7 @@ export function runSimulationOptions(
   iopt: {
     variogram?: RunSimulationOptions['variogram'];
     anisotropy?: RunSimulationOptions['anisotropy'];
+    directions?: DirectionChoice;
     trend?: RunSimulationOptions['trend'];
     /** none, auto or a cell side in km (the run request's interpolation.decluster). */
     decluster?: 'none' | 'auto' | number;
@@ -97,6 +101,7 @@ export function runSimulationOptions(
   return {
     variogram: iopt.variogram,
     anisotropy: iopt.anisotropy ?? null,
+    directions: iopt.directions,
     trend: iopt.method === 'kriging' ? followKrigedTrend(iopt.trend, chosenTrend) : undefined,
     declustering: typeof iopt.decluster === 'number' ? { cellKm: iopt.decluster } : iopt.decluster,
     neighbors: iopt.method === 'kriging' ? iopt.neighbors : undefined,
@@ -151,6 +156,7 @@ export function simulateRunHeatFlow(
     seed: seed + SIMULATION_STREAM_OFFSET,
     variogram: o.variogram ?? 'auto',
     anisotropy: o.anisotropy ?? null,
+    directions: o.directions,
     trend: o.trend ?? 'none',
     externalDrift: o.externalDrift ?? null,
     transform,

@@ -175,6 +175,7 @@ function engineOptions(
     lagKm: iopt.lagKm,
     maxLagKm: iopt.maxLagKm,
     anisotropy: iopt.anisotropy ?? null,
+    directions: iopt.directions,
     trend: iopt.trend,
     measurementError: iopt.measurementError,
     maxDistanceKm: iopt.maxDistanceKm ?? null,

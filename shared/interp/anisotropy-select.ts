@@ -1,5 +1,6 @@
 import type { DriftKind } from './drift.ts';
 import { estimateAnisotropy, type AnisotropyEstimate } from './anisotropy.ts';
+import type { DirectionChoice } from './directional-variogram.ts';
 import { krigingForTrend, trendResiduals, type KrigingChoice, type KrigingContext } from './variogramSelect.ts';
 import type { VariogramModelName } from './variogram.ts';
 
@@ -10,6 +11,16 @@ export interface AnisotropyReport extends AnisotropyEstimate {
   selectedBy: 'cross-validation';
   /** Leave-one-out RMSE (value units) of the kriging without and with the estimated anisotropy. */
   cvRmse: { isotropic: number; anisotropic: number };
+}
+
+/** Why direction classes need `anisotropy: 'auto'`, for the error of a request that gives them without it. */
+export const DIRECTIONS_NEED_AUTO =
+  'the direction classes choose the directional semivariograms that anisotropy auto is estimated from, and nothing else reads them: use them with anisotropy auto, or drop them';
+
+/** The direction settings a request gives (azimuths, tolerance, bandwidth) while its anisotropy is not 'auto'; empty when none. */
+export function directionsWithoutAuto(anisotropy: unknown, d: DirectionChoice | undefined): (keyof DirectionChoice)[] {
+  if (d === undefined || anisotropy === 'auto') return [];
+  return (['azimuthsDeg', 'toleranceDeg', 'bandwidthKm'] as const).filter((k) => d[k] !== undefined && d[k] !== null);
 }
 
 /**
@@ -25,7 +36,12 @@ export function krigingWithAnisotropy(ctx: KrigingContext, trend: DriftKind, for
   const { residuals } = trendResiduals({ ...ctx.basePlan, trend }, trend);
   const vg = ctx.opts.variogram ?? 'auto';
   const model: VariogramModelName | 'auto' = typeof vg === 'object' ? vg.model : vg;
-  const est = estimateAnisotropy(ctx.basePlan.x, ctx.basePlan.y, residuals, { model, lagKm: ctx.opts.lagKm, maxLagKm: ctx.opts.maxLagKm });
+  const est = estimateAnisotropy(ctx.basePlan.x, ctx.basePlan.y, residuals, {
+    model,
+    lagKm: ctx.opts.lagKm,
+    maxLagKm: ctx.opts.maxLagKm,
+    ...ctx.opts.directions,
+  });
   const aniso = krigingForTrend({ ...ctx, basePlan: { ...ctx.basePlan, anisotropy: { angleDeg: est.angleDeg, ratio: est.ratio } } }, trend, true);
   const used = aniso.cv!.rmse < iso.cv!.rmse;
   const chosen = used ? aniso : iso;

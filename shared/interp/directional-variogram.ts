@@ -21,6 +21,9 @@ export interface DirectionalOptions extends EmpiricalOptions {
   bandwidthKm?: number | null;
 }
 
+/** The direction classes a request may choose (azimuths, angular tolerance, bandwidth); the rest are defaults. */
+export type DirectionChoice = Pick<DirectionalOptions, 'azimuthsDeg' | 'toleranceDeg' | 'bandwidthKm'>;
+
 /** Angle sub-classes each direction class is split into to record where its pairs point. */
 export const ANGLE_SUBCLASSES = 8;
 

@@ -5,6 +5,7 @@ import type { DriftKind } from './drift.ts';
 import type { ExternalDriftGrid } from './externalDrift.ts';
 import type { Anisotropy, EmpiricalLag, VariogramModel, VariogramModelName } from './variogram.ts';
 import type { AnisotropyReport } from './anisotropy-select.ts';
+import type { DirectionChoice } from './directional-variogram.ts';
 
 /** The types of the interpolation engine's library entry points (interpolate.ts). */
 
@@ -38,6 +39,8 @@ export interface InterpolationOptions {
   maxLagKm?: number;
   /** Geometric anisotropy (kriging): given, none (null), or 'auto': estimated and used when it cross-validates better (anisotropy-select.ts). */
   anisotropy?: Anisotropy | 'auto' | null;
+  /** With anisotropy 'auto': the direction classes of the directional semivariograms it is estimated from (defaults: directional-variogram.ts). */
+  directions?: DirectionChoice;
   /**
    * Drift of the mean (kriging): 'none' (ordinary kriging, default), 'linear' or 'quadratic' in the coordinates
    * (universal kriging, drift.ts; the variogram is fitted on the residuals of a least-squares trend), or 'auto': the

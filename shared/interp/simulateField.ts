@@ -8,6 +8,7 @@ import { declusterLonLat, type DeclusteringReport } from './declustering.ts';
 import { createConditionalSimulator, type ConditionalSimulator } from './simulation.ts';
 import type { Anisotropy, VariogramModel, VariogramModelName } from './variogram.ts';
 import type { DriftKind } from './drift.ts';
+import type { DirectionChoice } from './directional-variogram.ts';
 import type { ExternalDriftGrid } from './externalDrift.ts';
 import { targetCovariate } from './interpolate.ts';
 
@@ -26,6 +27,8 @@ export interface SimulationOptions {
   variogram?: 'auto' | VariogramModelName | VariogramModel;
   /** Given, none (null), or 'auto': estimated on the (normal-scored) values and used when it cross-validates better. */
   anisotropy?: Anisotropy | 'auto' | null;
+  /** With anisotropy 'auto': the direction classes it is estimated from (as in interpolation). */
+  directions?: DirectionChoice;
   /**
    * Drift of the mean (as in interpolation, trendSelect.ts): 'none' (default), 'linear', 'quadratic' or 'auto'. The
    * variogram is fitted on the residuals of a least-squares trend, the residual is simulated and the realizations
@@ -181,6 +184,7 @@ function prepare(
       neighbors: opts.neighbors ?? 16,
       variogram: opts.variogram ?? 'auto',
       anisotropy: opts.anisotropy ?? null,
+      directions: opts.directions,
       trend: opts.trend ?? 'none',
       externalDrift: opts.externalDrift ?? null,
       lagKm: opts.lagKm,

@@ -8,6 +8,7 @@ import { pointGeometry, lonLat } from './geojson.ts';
 import { VARIOGRAM_MODELS, type VariogramModel, type VariogramModelName } from '../interp/variogram.ts';
 import type { PointData } from '../interp/interpolate.ts';
 import { TREND_KINDS, type TrendKind } from '../interp/drift.ts';
+import { DIRECTIONS_NEED_AUTO, directionsWithoutAuto } from '../interp/anisotropy-select.ts';
 
 /** Contracts of the interpolation engine's inputs (CLI and HTTP validate with these). */
 
@@ -23,45 +24,68 @@ export const anisotropySchema = z.object({
   ratio: z.number().gt(0, 'ratio must be in (0, 1]').max(1, 'ratio must be in (0, 1]'),
 });
 
+/**
+ * The direction classes of the directional semivariograms `anisotropy: 'auto'` is estimated from
+ * (shared/interp/directional-variogram.ts, which holds the defaults).
+ */
+export const directionsSchema = z
+  .strictObject({
+    azimuthsDeg: z
+      .array(z.number().min(0, 'an azimuth must be ≥ 0°').lt(180, 'an azimuth must be < 180° (a direction and its opposite are one class)'))
+      .min(2, 'at least 2 azimuths')
+      .max(36, 'at most 36 azimuths')
+      .refine((a) => new Set(a).size === a.length, 'the azimuths must be distinct')
+      .optional()
+      .describe('azimuths of the direction classes, degrees clockwise from north, each in [0, 180); default 0, 45, 90, 135'),
+    toleranceDeg: z.number().gt(0).max(90).optional().describe('half-width of each class in angle, degrees, (0, 90]; default 90 / the number of azimuths'),
+    bandwidthKm: z.number().gt(0).max(1e5).optional().describe("largest distance of a pair's lag vector from its class's line, km; default none"),
+  })
+  .describe("with anisotropy 'auto': the direction classes of the directional semivariograms it is estimated from");
+
 /** Options of an interpolation request (HTTP body / library call), units in the names. */
-export const interpolationOptionsSchema = z.object({
-  method: z.enum(['idw', 'kriging']),
-  field: z.string().min(1).max(100).default('heatFlowMWm2'),
-  neighbors: z.union([z.number().int().min(1), z.literal('all')]).optional(),
-  radiusKm: z.number().gt(0).optional(),
-  power: z.number().gt(0).max(20).optional(),
-  useQuality: z.boolean().optional(),
-  qualityWeights: z
-    .object({ high: z.number().min(0), medium: z.number().min(0), low: z.number().min(0) })
-    .partial()
-    .optional(),
-  variogram: z.union([z.literal('auto'), z.enum(VARIOGRAM_MODELS), variogramModelSchema]).optional(),
-  lagKm: z.number().gt(0).optional(),
-  maxLagKm: z.number().gt(0).optional(),
-  /** Geometric anisotropy for kriging: { angleDeg (major-axis azimuth, ° clockwise from north), ratio }, null (none), or 'auto' (estimated). */
-  anisotropy: z
-    .union([anisotropySchema, z.literal('auto')])
-    .nullable()
-    .optional(),
-  /**
-   * Drift of the mean for kriging: none (ordinary kriging), linear or quadratic in the coordinates (universal
-   * kriging; the variogram is fitted on least-squares residuals), or auto (the lowest leave-one-out RMSE).
-   */
-  trend: z.enum([...TREND_KINDS, 'auto']).optional(),
-  /**
-   * Cell declustering of the histogram the heat-flow simulation's normal-score transform reproduces: none (default),
-   * auto (the cell size of the smallest declustered mean) or a cell side in km.
-   */
-  decluster: z.union([z.enum(['none', 'auto']), z.number().gt(0).max(1e5)]).optional(),
-  measurementError: z.boolean().optional(),
-  maxDistanceKm: z.number().gt(0).nullable().optional(),
-  bbox: z.tuple([z.number(), z.number(), z.number(), z.number()]).optional(),
-  cellKm: z.number().gt(0).optional(),
-  size: z.tuple([z.number().int().min(1), z.number().int().min(1)]).optional(),
-  crs: z.string().min(1).max(2000).optional(),
-  sd: z.boolean().optional(),
-  crossValidation: z.boolean().optional(),
-});
+export const interpolationOptionsSchema = z
+  .object({
+    method: z.enum(['idw', 'kriging']),
+    field: z.string().min(1).max(100).default('heatFlowMWm2'),
+    neighbors: z.union([z.number().int().min(1), z.literal('all')]).optional(),
+    radiusKm: z.number().gt(0).optional(),
+    power: z.number().gt(0).max(20).optional(),
+    useQuality: z.boolean().optional(),
+    qualityWeights: z
+      .object({ high: z.number().min(0), medium: z.number().min(0), low: z.number().min(0) })
+      .partial()
+      .optional(),
+    variogram: z.union([z.literal('auto'), z.enum(VARIOGRAM_MODELS), variogramModelSchema]).optional(),
+    lagKm: z.number().gt(0).optional(),
+    maxLagKm: z.number().gt(0).optional(),
+    /** Geometric anisotropy for kriging: { angleDeg (major-axis azimuth, ° clockwise from north), ratio }, null (none), or 'auto' (estimated). */
+    anisotropy: z
+      .union([anisotropySchema, z.literal('auto')])
+      .nullable()
+      .optional(),
+    directions: directionsSchema.optional(),
+    /**
+     * Drift of the mean for kriging: none (ordinary kriging), linear or quadratic in the coordinates (universal
+     * kriging; the variogram is fitted on least-squares residuals), or auto (the lowest leave-one-out RMSE).
+     */
+    trend: z.enum([...TREND_KINDS, 'auto']).optional(),
+    /**
+     * Cell declustering of the histogram the heat-flow simulation's normal-score transform reproduces: none (default),
+     * auto (the cell size of the smallest declustered mean) or a cell side in km.
+     */
+    decluster: z.union([z.enum(['none', 'auto']), z.number().gt(0).max(1e5)]).optional(),
+    measurementError: z.boolean().optional(),
+    maxDistanceKm: z.number().gt(0).nullable().optional(),
+    bbox: z.tuple([z.number(), z.number(), z.number(), z.number()]).optional(),
+    cellKm: z.number().gt(0).optional(),
+    size: z.tuple([z.number().int().min(1), z.number().int().min(1)]).optional(),
+    crs: z.string().min(1).max(2000).optional(),
+    sd: z.boolean().optional(),
+    crossValidation: z.boolean().optional(),
+  })
+  .superRefine((o, ctx) => {
+    for (const k of directionsWithoutAuto(o.anisotropy, o.directions)) ctx.addIssue({ code: 'custom', path: ['directions', k], message: DIRECTIONS_NEED_AUTO });
+  });
 export type InterpolationRequest = z.infer<typeof interpolationOptionsSchema>;
 
 /**

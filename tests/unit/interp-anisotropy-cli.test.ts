@@ -1,10 +1,13 @@
 import { describe, it, expect, vi, afterEach, beforeAll, afterAll } from 'vitest';
+import { spawnSync } from 'node:child_process';
 import { mkdtempSync, writeFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import { runCliJson } from '../helpers/cli-run.ts';
 import { anisotropyEstimateSchema } from '../../shared/schema/anisotropy.ts';
 import { prng } from '../helpers/prng.ts';
+import { requireGstat } from '../helpers/gstat.ts';
+import { localProjectionFor, lonLatToLocalKm } from '../../shared/interp/projection.ts';
 
 // `--anisotropy auto` end to end through the command line: the estimate (recovery of a known angle and ratio is
 // checked against a Cholesky-drawn field in interp-anisotropy.test.ts) reaches the JSON in the published shape, the
@@ -98,5 +101,145 @@ describe('--anisotropy auto|none|ANGLE,RATIO', () => {
     const est = anisotropyEstimateSchema.parse(json.variogram.anisotropyEstimate);
     expect(json.variogram.anisotropy).toEqual(est.used ? { angleDeg: est.angleDeg, ratio: est.ratio } : null);
     expect(json.realizations.length).toBe(3);
+  });
+});
+
+// The direction classes chosen on the command line reach the directional semivariograms the estimate is fitted to.
+// Checked against R gstat (Debian r-cran-gstat; Pebesma 2004; docs/sources.md#directional-variogram):
+// variogram(z ~ 1, alpha = …, tol.hor = …, cutoff, width) on the sites in the same local km coordinates the
+// engine uses (the transverse Mercator frame centred on the sites' envelope, shared/interp/projection.ts). gstat has
+// no bandwidth, so the bandwidth's pair counts are checked by counting every pair in this file.
+describe('--directions, --angle-tolerance, --bandwidth-km', () => {
+  const AZ = [15, 75, 105, 165],
+    TOL = 15,
+    CUT = 60,
+    WIDTH = 7.5;
+  const local = () => {
+    const f = sites as { geometry: { coordinates: [number, number] }; properties: { heatFlowMWm2: number } }[];
+    const lon = Float64Array.from(f, (s) => s.geometry.coordinates[0]),
+      lat = Float64Array.from(f, (s) => s.geometry.coordinates[1]);
+    const x = new Float64Array(f.length),
+      y = new Float64Array(f.length);
+    lonLatToLocalKm(localProjectionFor(lon, lat), lon, lat, x, y);
+    return { x, y, z: Float64Array.from(f, (s) => s.properties.heatFlowMWm2) };
+  };
+  const args = (pts: string) => [
+    '--points',
+    pts,
+    '--method',
+    'kriging',
+    '--size',
+    '4x4',
+    '--anisotropy',
+    'auto',
+    '--lag-km',
+    `${WIDTH}`,
+    '--max-lag-km',
+    `${CUT}`,
+  ];
+
+  it('interpolate: the estimate is fitted to the given azimuths and tolerance; np, distance and γ equal gstat to 1e-9', async () => {
+    requireGstat();
+    const pts = file('dirs.geojson', { type: 'FeatureCollection', features: sites });
+    const { code, json } = await run('interpolate', [...args(pts), '--directions', AZ.join(','), '--angle-tolerance', `${TOL}`]);
+    expect(code).toBe(0);
+    const est = anisotropyEstimateSchema.parse(json.variogram.anisotropyEstimate);
+    expect(est.directions.map((d) => d.azimuthDeg)).toEqual(AZ);
+    expect(est.toleranceDeg).toBe(TOL);
+    expect(est.bandwidthKm).toBeNull();
+    const { x, y, z } = local();
+    writeFileSync(join(dir, 'dirs.csv'), 'x,y,z\n' + Array.from(x, (xi, i) => `${xi},${y[i]},${z[i]}`).join('\n'));
+    writeFileSync(
+      join(dir, 'dirs.R'),
+      [
+        'suppressMessages({library(sp); library(gstat)})',
+        `p <- read.csv("${join(dir, 'dirs.csv')}"); coordinates(p) <- ~x+y`,
+        `v <- variogram(z ~ 1, p, cutoff = ${CUT}, width = ${WIDTH}, alpha = c(${AZ.join(',')}), tol.hor = ${TOL})`,
+        'for (i in seq_len(nrow(v))) cat(sprintf("%.17g %.17g %.17g %.17g\\n", v$dir.hor[i], v$np[i], v$dist[i], v$gamma[i]))',
+      ].join('\n'),
+    );
+    const out = spawnSync('Rscript', [join(dir, 'dirs.R')], { encoding: 'utf8' });
+    expect(out.status, out.stderr).toBe(0);
+    const ref = out.stdout
+      .trim()
+      .split('\n')
+      .map((l) => l.trim().split(/\s+/).map(Number));
+    const ours = est.directions.flatMap((d) => d.lags.map((l) => [d.azimuthDeg, l.pairs, l.lagKm, l.gamma]));
+    expect(ref.length).toBeGreaterThan(20);
+    expect(ours.length).toBe(ref.length);
+    ref.forEach((r, k) => {
+      expect(ours[k][0]).toBe(r[0]);
+      expect(ours[k][1]).toBe(r[1]);
+      expect(Math.abs(ours[k][2] - r[2])).toBeLessThan(1e-9 * r[2]);
+      expect(Math.abs(ours[k][3] - r[3])).toBeLessThan(1e-9 * r[3]);
+    });
+  });
+
+  it('a bandwidth keeps the pairs whose lag lies within it of the class line (every pair counted here)', async () => {
+    const pts = file('band.geojson', { type: 'FeatureCollection', features: sites });
+    const BAND = 4;
+    const { code, json } = await run('interpolate', [...args(pts), '--directions', '0,90', '--angle-tolerance', '45', '--bandwidth-km', `${BAND}`]);
+    expect(code).toBe(0);
+    const est = anisotropyEstimateSchema.parse(json.variogram.anisotropyEstimate);
+    expect(est.bandwidthKm).toBe(BAND);
+    const { x, y } = local();
+    for (const d of est.directions) {
+      const ux = Math.sin((d.azimuthDeg * Math.PI) / 180),
+        uy = Math.cos((d.azimuthDeg * Math.PI) / 180);
+      const counts = new Map<number, number>();
+      for (let i = 0; i < x.length; i++)
+        for (let j = 0; j < i; j++) {
+          const hx = x[i] - x[j],
+            hy = y[i] - y[j],
+            h = Math.hypot(hx, hy);
+          // Within the cutoff, within 45° of the line, within the bandwidth of it.
+          if (!(h > 0) || h > CUT || Math.abs(hx * ux + hy * uy) < Math.SQRT1_2 * h || Math.abs(hx * uy - hy * ux) > BAND) continue;
+          const b = Math.min(CUT / WIDTH - 1, Math.floor(h / WIDTH));
+          counts.set(b, (counts.get(b) ?? 0) + 1);
+        }
+      const byClass = [...counts.entries()].sort((a, b) => a[0] - b[0]).map((e) => e[1]);
+      expect(d.lags.map((l) => l.pairs)).toEqual(byClass);
+      expect(d.pairs).toBeGreaterThan(30);
+    }
+  });
+
+  it('bad values exit 2 naming the flag, the value and the limit; without --anisotropy auto they are refused', async () => {
+    const pts = file('bad-dirs.geojson', { type: 'FeatureCollection', features: sites });
+    const base = ['--points', pts, '--method', 'kriging', '--size', '4x4', '--anisotropy', 'auto'];
+    for (const [flag, value, text] of [
+      ['--directions', '0,200', /--directions 0,200: an azimuth must be < 180°/],
+      ['--directions', '30', /--directions 30: at least 2 azimuths/],
+      ['--directions', '10,10', /the azimuths must be distinct/],
+      ['--directions', '0,east', /--directions 0,east/],
+      ['--angle-tolerance', '0', /--angle-tolerance 0: .*>0/],
+      ['--angle-tolerance', '120', /--angle-tolerance 120: .*<=90/],
+      ['--bandwidth-km', '-3', /--bandwidth-km -3: .*>0/],
+    ] as const) {
+      const bad = await run('interpolate', [...base, `${flag}=${value}`]);
+      expect(bad.code, `${flag} ${value}`).toBe(2);
+      expect(bad.json.error.message).toMatch(text);
+      expect(bad.json.error.details[0].field).toBe(flag.slice(2));
+    }
+    const noAuto = await run('interpolate', ['--points', pts, '--method', 'kriging', '--size', '4x4', '--directions', '0,90', '--bandwidth-km', '5']);
+    expect(noAuto.code).toBe(2);
+    expect(noAuto.json.error.message).toMatch(/^--directions, --bandwidth-km without --anisotropy auto/);
+    expect(noAuto.json.error.details.map((d: { field: string }) => d.field)).toEqual(['directions', 'bandwidth-km']);
+    const at = file('at-dirs.geojson', { type: 'FeatureCollection', features: [site('t1', -127.5, -37.5, {})] });
+    const sim = await run('simulate', ['--points', pts, '--at', at, '--realizations', '2', '--seed', '1', '--anisotropy', 'none', '--angle-tolerance', '20']);
+    expect(sim.code).toBe(2);
+    expect(sim.json.error.details[0].field).toBe('angle-tolerance');
+  });
+
+  it('simulate --at: the estimate of the normal scores uses the given classes', async () => {
+    const pts = file('dirs-sim.geojson', { type: 'FeatureCollection', features: sites });
+    const at = file('at-dirs2.geojson', { type: 'FeatureCollection', features: [site('t1', -127.5, -37.5, {})] });
+    const { code, json } = await run('simulate', [
+      ...['--points', pts, '--at', at, '--realizations', '2', '--seed', '3', '--anisotropy', 'auto', '--max-lag-km', '60'],
+      ...['--directions', '20,80,140', '--angle-tolerance', '25', '--bandwidth-km', '15'],
+    ]);
+    expect(code).toBe(0);
+    const est = anisotropyEstimateSchema.parse(json.variogram.anisotropyEstimate);
+    expect(est.directions.map((d) => d.azimuthDeg)).toEqual([20, 80, 140]);
+    expect([est.toleranceDeg, est.bandwidthKm]).toEqual([25, 15]);
   });
 });
