@@ -1,6 +1,8 @@
 /**
- * The layer panel: each entry has a visibility switch, an opacity slider and a legend with units. An entry may
- * stand for several MapLibre layers (a line and its labels) and may carry an extra control (the depth chooser).
+ * The layer panel: each entry has a visibility switch, an opacity slider and a legend with units (shown while the
+ * entry is ticked). An entry may stand for several MapLibre layers (a line and its labels) and may carry an extra
+ * control (the depth chooser). Entries of one product (a run's depth to 300 °C with its P10/P50/P90, mean, spread,
+ * probability…) gather in a section that folds; a section opens by itself while one of its entries is ticked.
  */
 import type { Map as MapLibreMap } from 'maplibre-gl';
 import { fitBbox } from './basemap.ts';
@@ -9,7 +11,12 @@ import type { LayerState } from './state.ts';
 
 export interface LayerEntry {
   id: string;
+  /** The entry's full name (the PNG export's legend line, "zoom to"). */
   label: string;
+  /** Shown instead of `label` inside its section (the section's title says the rest). */
+  shortLabel?: string;
+  /** The product section the entry is listed under (absent: listed directly in its group). */
+  section?: { key: string; title: string };
   /** MapLibre layer ids drawn by this entry. */
   layers: string[];
   legend: HTMLElement;
@@ -36,9 +43,19 @@ const OPACITY_PROPS: Record<string, string[]> = {
 };
 const HILLSHADE_EXAGGERATION = 0.85;
 
+/** A folding section of entries: its element, its list and whether the user has opened or folded it. */
+interface Section {
+  root: HTMLDetailsElement;
+  list: HTMLElement;
+  count: HTMLElement;
+  ids: Set<string>;
+  userSet: boolean;
+}
+
 export class LayerPanel {
   private readonly entries = new Map<string, { entry: LayerEntry; section: HTMLElement; box: HTMLInputElement; slider: HTMLInputElement }>();
   private readonly lists: Record<LayerEntry['group'], HTMLElement>;
+  private readonly sections = new Map<string, Section>();
 
   constructor(
     private readonly map: MapLibreMap,
@@ -105,16 +122,45 @@ export class LayerPanel {
     const section = el(
       'section',
       { class: 'layer', 'data-layer': entry.id },
-      el('div', { class: 'layer-head' }, el('label', { for: boxId }, box, entry.label), zoom),
+      el('div', { class: 'layer-head' }, el('label', { for: boxId, title: entry.label }, box, entry.shortLabel ?? entry.label), zoom),
       el('div', { class: 'opacity-row' }, el('span', { class: 'muted' }, 'opacity'), slider, pct),
       entry.control ?? null,
-      entry.legend,
+      el('div', { class: 'layer-legend' }, entry.legend),
       entry.extra ?? null,
     );
-    this.lists[entry.group].append(section);
+    (entry.section ? this.sectionOf(entry).list : this.lists[entry.group]).append(section);
     if (entry.group === 'run') document.getElementById('run-layers-empty')?.remove();
     this.entries.set(entry.id, { entry, section, box, slider });
     this.apply(entry.id);
+  }
+
+  /** The folding section of an entry's product (made on its first entry). */
+  private sectionOf(entry: LayerEntry): Section {
+    const { key, title } = entry.section!;
+    let s = this.sections.get(key);
+    if (!s) {
+      const count = el('span', { class: 'muted section-count' });
+      const list = el('div', { class: 'layer-section-list' });
+      const root = el('details', { class: 'layer-section', id: `layer-section-${key}`, 'data-section': key }, el('summary', {}, title, ' ', count), list);
+      const made: Section = { root, list, count, ids: new Set(), userSet: false };
+      // Once the user folds, opens or ticks inside it, the section stays as they left it.
+      root.querySelector('summary')!.addEventListener('click', () => (made.userSet = true));
+      list.addEventListener('change', () => (made.userSet = true));
+      this.lists[entry.group].append(root);
+      this.sections.set(key, made);
+      s = made;
+    }
+    s.ids.add(entry.id);
+    return s;
+  }
+
+  /** A section's count of entries and of those ticked; it opens while one is ticked unless the user folded it. */
+  private updateSection(key: string): void {
+    const s = this.sections.get(key);
+    if (!s) return;
+    const shown = [...s.ids].filter((id) => this.state[id]?.visible).length;
+    s.count.textContent = `(${s.ids.size} layer${s.ids.size === 1 ? '' : 's'}${shown > 0 ? `, ${shown} shown` : ''})`;
+    if (!s.userSet) s.root.open = shown > 0 || s.ids.size === 1;
   }
 
   remove(id: string): void {
@@ -122,6 +168,15 @@ export class LayerPanel {
     if (!e) return;
     e.section.remove();
     this.entries.delete(id);
+    const key = e.entry.section?.key;
+    const s = key === undefined ? undefined : this.sections.get(key);
+    if (s && key !== undefined) {
+      s.ids.delete(id);
+      if (s.ids.size === 0) {
+        s.root.remove();
+        this.sections.delete(key);
+      } else this.updateSection(key);
+    }
   }
 
   /** Removes every run entry (a new run replaces the old one's layers). */
@@ -134,6 +189,9 @@ export class LayerPanel {
     const e = this.entries.get(id);
     const st = this.state[id];
     if (!e || !st) return;
+    // A legend shows while its layer is ticked: an unticked layer's colour bar would describe nothing on the map.
+    e.section.classList.toggle('layer-off', !st.visible);
+    if (e.entry.section) this.updateSection(e.entry.section.key);
     for (const layerId of e.entry.layers) {
       const layer = this.map.getLayer(layerId);
       if (!layer) continue;

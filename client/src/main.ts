@@ -12,7 +12,7 @@ import { buildStyle, seaMask } from './style.ts';
 import { el } from './dom.ts';
 import { legendEntries } from './legend.ts';
 import { LayerPanel } from './layers.ts';
-import { defaultParams, decodeState, encodeState, stateFromJson, type AppState } from './state.ts';
+import { defaultParams, decodeState, encodeState, paramsOfRun, stateFromJson, type AppState } from './state.ts';
 import { showAddedAlone, showRunLayers } from './runlayers.ts';
 import { message, showError, tabs, type AppContext, type AppHandle } from './context.ts';
 import { columnPanel } from './column.ts';
@@ -20,6 +20,7 @@ import { DataSets, dataPanel, type PointKind } from './data.ts';
 import { fitBbox, goToBox, installWorldBase } from './basemap.ts';
 import { cursorReadout } from './readout.ts';
 import { modelEditor } from './model.ts';
+import { namedStartingModel } from './project-data.ts';
 import { runPanel, type RunPanel } from './run.ts';
 import { StructurePanel, type FeatureCollection } from './structure.ts';
 import { sectionPanel, type SectionPanel } from './section.ts';
@@ -192,6 +193,9 @@ async function showRunContent(
     },
     onError: (m) => ctx.showError(m),
   });
+  // The run panel shows the parameters of the run on the map (its realizations, cell, isotherms, data sets).
+  ctx.state.params = paramsOfRun(run.request, ctx.state.params);
+  panels.runs.setParams(ctx.state.params);
   panels.runs.showSummary(run);
   const isoLayer = (run.layers ?? []).find((l) => /isograd/i.test(l.name) && l.kind === 'vector');
   const isograds = isoLayer
@@ -268,7 +272,12 @@ async function start(): Promise<void> {
   const ready = new Promise<void>((r) => (resolveReady = r));
   const { cfg, state, projectId, editToken, restoreError } = await loadPage();
   const ds = cfg.demo.datasets;
-  const demoModel = getJson<unknown>(`/api/datasets/${encodeURIComponent(ds.model)}`).then((m) => parseThermalModel(m, 'demo model'));
+  // The demo page's model carries the demo model data set's name; a project with no saved model starts from the same
+  // layers under a neutral name.
+  const onDemo = projectId === null || projectId === cfg.demo.projectId;
+  const demoModel = getJson<unknown>(`/api/datasets/${encodeURIComponent(ds.model)}`).then((m) =>
+    namedStartingModel(parseThermalModel(m, 'demo model'), ds.model, onDemo ? (cfg.demo.projectId ?? null) : null),
+  );
   const readOnly = projectId !== null && editToken === null;
   document.getElementById('caution')!.textContent = cfg.caution;
   document.getElementById('region-name')!.textContent = projectId !== null ? '' : `${cfg.demo.name} — invented demo region`;

@@ -6,10 +6,10 @@
  */
 import { isInputError } from '../../shared/errors.ts';
 import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
-import { el, replace } from './dom.ts';
+import { el } from './dom.ts';
 
-/** The layer table's columns: key, full name (for labels and tooltips), units, the header's short form and width in px
- * (the name column takes what is left, so the table fits a 400 px panel). */
+/** The layer table's columns: key, full name (for labels and tooltips), units, the header's short form and width in px.
+ * The name has a row of its own above its layer's numbers, the panel's full width, so a long name stays readable. */
 const COLUMNS: { key: string; label: string; units: string; head: string; widthPx?: number }[] = [
   { key: 'name', label: 'Layer', units: '', head: 'Layer' },
   { key: 'bottomKm', label: 'Bottom', units: 'km', head: 'Bottom', widthPx: 44 },
@@ -53,21 +53,26 @@ export interface ModelEditor {
 }
 
 interface Fields {
-  name: HTMLInputElement;
+  name: HTMLTextAreaElement;
   surfaceT: HTMLInputElement;
   surfaceQ: HTMLInputElement;
   errT: HTMLElement;
   errQ: HTMLElement;
-  tbody: HTMLTableSectionElement;
+  /** The layer table: one tbody per layer (its name row, then its values row). */
+  table: HTMLTableElement;
 }
 
-function rowInputs(tbody: HTMLTableSectionElement): HTMLInputElement[][] {
-  return [...tbody.querySelectorAll('tr')].map((tr) => [...tr.querySelectorAll('input')] as HTMLInputElement[]);
+/** A cell's field: a text input, or for the layer's name a one-line text area that wraps (a long name stays readable). */
+type CellField = HTMLInputElement | HTMLTextAreaElement;
+
+/** Each layer's fields in COLUMNS order (its name first). */
+function rowInputs(table: HTMLTableElement): CellField[][] {
+  return [...table.tBodies].map((tb) => [...tb.querySelectorAll('input, textarea')] as CellField[]);
 }
 
 /** The model the fields describe (unknown keys of the loaded model and its layers carried through). */
 function buildModel(f: Fields, top: Record<string, unknown>, extras: Record<string, unknown>[]): Record<string, unknown> {
-  const layers = rowInputs(f.tbody).map((inputs, i) => {
+  const layers = rowInputs(f.table).map((inputs, i) => {
     const l: Record<string, unknown> = { ...(extras[i] ?? {}) };
     COLUMNS.forEach((c, j) => {
       const v = fromText(inputs[j].value, c.key);
@@ -93,10 +98,10 @@ function placeProblems(f: Fields, details: readonly { feature?: unknown; field?:
   for (const d of details) {
     const m = /^layers\[(\d+)\]/.exec(String(d.feature ?? ''));
     const field = String(d.field ?? '').split(/[.,\s]/)[0];
-    let target: { input: HTMLInputElement; err: Element } | null = null;
+    let target: { input: CellField; err: Element } | null = null;
     if (m) {
       const j = COLUMNS.findIndex((c) => c.key === field);
-      const inputs = rowInputs(f.tbody)[Number(m[1])];
+      const inputs = rowInputs(f.table)[Number(m[1])];
       if (inputs) {
         const input = inputs[j >= 0 ? j : 0];
         target = { input, err: input.parentElement!.querySelector('.field-error')! };
@@ -123,7 +128,7 @@ function layout(f: Fields, addBtn: HTMLButtonElement, status: HTMLElement): HTML
       el('label', { for: f.surfaceQ.id }, 'Surface heat flow where no grid (mW/m²)'),
       el('span', { class: 'cell' }, f.surfaceQ, f.errQ),
     ),
-    el('div', { class: 'table-scroll' }, el('table', { class: 'model-table fit' }, layerTableHead(), f.tbody)),
+    el('div', { class: 'table-scroll' }, f.table),
     el('div', { class: 'field-row' }, addBtn),
     status,
     el(
@@ -134,11 +139,12 @@ function layout(f: Fields, addBtn: HTMLButtonElement, status: HTMLElement): HTML
   );
 }
 
-/** The layer table's column widths and headers (short name, units below, the full name as the tooltip). */
+/** The layer table's column widths and headers of the values (short name, units below, the full name as the tooltip). */
 function layerTableHead(): DocumentFragment {
-  const cols = el('colgroup', {}, ...COLUMNS.map((c) => el('col', c.widthPx ? { style: `width:${c.widthPx}px` } : {})));
+  const values = COLUMNS.filter((c) => c.key !== 'name');
+  const cols = el('colgroup', {}, ...values.map((c) => el('col', c.widthPx ? { style: `width:${c.widthPx}px` } : {})));
   cols.append(el('col', { style: `width:${REMOVE_COLUMN_PX}px` }));
-  const heads = COLUMNS.map((c) => {
+  const heads = values.map((c) => {
     const title = `${c.label}${c.units ? ` (${c.units})` : ''}`;
     return el('th', { scope: 'col', title }, c.head, c.units ? el('br') : null, c.units ? el('span', { class: 'unit' }, c.units) : null);
   });
@@ -147,32 +153,36 @@ function layerTableHead(): DocumentFragment {
   return frag;
 }
 
-/** One editable row of the layer table. */
-function layerRow(layer: Record<string, unknown>, i: number, enabled: boolean, onInput: () => void, onRemove: () => void): HTMLTableRowElement {
+/** One editable layer of the layer table: its name across the table, then its values and the remove button. */
+function layerRow(layer: Record<string, unknown>, i: number, enabled: boolean, onInput: () => void, onRemove: () => void): HTMLTableSectionElement {
+  const nameRow = el('tr', { class: 'name-row' });
   const tr = el('tr', {});
   COLUMNS.forEach((c) => {
-    const input = el('input', {
-      class: c.key === 'name' ? 'text' : 'num',
-      'aria-label': `layer ${i + 1} ${c.label}${c.units ? ` (${c.units})` : ''}`,
-      'data-field': c.key,
-    });
+    const attrs = { 'aria-label': `layer ${i + 1} ${c.label}${c.units ? ` (${c.units})` : ''}`, 'data-field': c.key };
+    const input: CellField = c.key === 'name' ? el('textarea', { ...attrs, class: 'text name-cell', rows: '1' }) : el('input', { ...attrs, class: 'num' });
     input.value = toText(layer[c.key]);
+    // The whole value as the tooltip too (a distribution's JSON is longer than its cell).
+    const tip = () => (input.title = input.value);
+    tip();
     input.disabled = !enabled;
-    input.addEventListener('input', onInput);
-    tr.append(el('td', {}, input, el('span', { class: 'field-error' })));
+    input.addEventListener('input', () => (tip(), onInput()));
+    // A name is one line: Enter does not break it (the text area only wraps it to fit the panel).
+    if (c.key === 'name') input.addEventListener('keydown', (e) => (e as KeyboardEvent).key === 'Enter' && e.preventDefault());
+    const cell = el('td', c.key === 'name' ? { colspan: String(COLUMNS.length) } : {}, input, el('span', { class: 'field-error' }));
+    (c.key === 'name' ? nameRow : tr).append(cell);
   });
   const del = el('button', { type: 'button', class: 'icon', 'aria-label': `remove layer ${i + 1}`, title: 'remove layer' }, '×');
   del.disabled = !enabled;
   del.addEventListener('click', onRemove);
   tr.append(el('td', {}, del));
-  return tr;
+  return el('tbody', { class: 'layer-rows' }, nameRow, tr);
 }
 
 /** Validates the model the fields describe with the server's schema: its problems beside their fields, a status line;
  * the model when valid, else null. */
 function checkFields(f: Fields, model: Record<string, unknown>, status: HTMLElement): ThermalModelInput | null {
   for (const e of document.querySelectorAll('#model-editor .field-error')) e.textContent = '';
-  for (const i of document.querySelectorAll('#model-editor input[aria-invalid]')) i.removeAttribute('aria-invalid');
+  for (const i of document.querySelectorAll('#model-editor [aria-invalid]')) i.removeAttribute('aria-invalid');
   try {
     const m = parseThermalModel(model, 'model');
     status.textContent = `Valid: ${m.layers.length} layer${m.layers.length === 1 ? '' : 's'} to ${m.layers[m.layers.length - 1].bottomKm} km.`;
@@ -188,7 +198,7 @@ function checkFields(f: Fields, model: Record<string, unknown>, status: HTMLElem
 }
 
 /** A new layer 10 km below the table's last (or 0–10 km), with middle-crust values to edit. */
-function nextLayer(rows: HTMLInputElement[][]): Record<string, unknown> {
+function nextLayer(rows: CellField[][]): Record<string, unknown> {
   const last = rows.length > 0 ? Number(rows[rows.length - 1][1].value) : 0;
   return {
     name: `layer ${rows.length + 1}`,
@@ -205,13 +215,14 @@ export function modelEditor(initial: ThermalModelInput, onValid: (m: ThermalMode
   let current: ThermalModelInput | null = null;
   let enabled = true;
   const f: Fields = {
-    name: el('input', { id: 'model-name', class: 'text', maxlength: '200' }),
+    name: el('textarea', { id: 'model-name', class: 'text name-cell', maxlength: '200', rows: '1' }),
     surfaceT: el('input', { id: 'model-surfaceTemperatureC', class: 'num', inputmode: 'decimal', 'aria-describedby': 'err-model-surfaceTemperatureC' }),
     surfaceQ: el('input', { id: 'model-surfaceHeatFlowMWm2', class: 'num', inputmode: 'decimal', 'aria-describedby': 'err-model-surfaceHeatFlowMWm2' }),
     errT: el('span', { class: 'field-error', id: 'err-model-surfaceTemperatureC' }),
     errQ: el('span', { class: 'field-error', id: 'err-model-surfaceHeatFlowMWm2' }),
-    tbody: el('tbody', {}),
+    table: el('table', { class: 'model-table fit' }),
   };
+  f.table.append(layerTableHead());
   const status = el('p', { class: 'model-status', id: 'model-status', 'aria-live': 'polite' });
   const addBtn = el('button', { type: 'button', id: 'model-add-layer' }, 'Add layer');
 
@@ -221,12 +232,12 @@ export function modelEditor(initial: ThermalModelInput, onValid: (m: ThermalMode
   };
 
   const addRow = (layer: Record<string, unknown>) => {
-    const tr = layerRow(layer, f.tbody.children.length, enabled, validate, () => {
-      extras.splice([...f.tbody.children].indexOf(tr), 1);
+    const tr = layerRow(layer, f.table.tBodies.length, enabled, validate, () => {
+      extras.splice([...f.table.tBodies].indexOf(tr), 1);
       tr.remove();
       validate();
     });
-    f.tbody.append(tr);
+    f.table.append(tr);
   };
 
   const set = (model: ThermalModelInput) => {
@@ -236,17 +247,18 @@ export function modelEditor(initial: ThermalModelInput, onValid: (m: ThermalMode
     f.surfaceT.value = toText(surfaceTemperatureC);
     f.surfaceQ.value = toText(surfaceHeatFlowMWm2);
     extras = layers.map((l) => Object.fromEntries(Object.entries(l).filter(([k]) => !COLUMNS.some((c) => c.key === k))));
-    replace(f.tbody);
+    for (const tb of [...f.table.tBodies]) tb.remove();
     for (const l of layers) addRow(l);
     validate();
   };
 
   addBtn.addEventListener('click', () => {
     extras.push({});
-    addRow(nextLayer(rowInputs(f.tbody)));
+    addRow(nextLayer(rowInputs(f.table)));
     validate();
   });
   for (const i of [f.name, f.surfaceT, f.surfaceQ]) i.addEventListener('input', validate);
+  f.name.addEventListener('keydown', (e) => e.key === 'Enter' && e.preventDefault());
 
   const root = layout(f, addBtn, status);
   set(initial);
@@ -256,7 +268,7 @@ export function modelEditor(initial: ThermalModelInput, onValid: (m: ThermalMode
     set,
     setEnabled(on: boolean) {
       enabled = on;
-      for (const i of root.querySelectorAll('input, button')) (i as HTMLInputElement).disabled = !on;
+      for (const i of root.querySelectorAll('input, textarea, button')) (i as HTMLInputElement).disabled = !on;
     },
   };
 }

@@ -108,10 +108,25 @@ export function showProjectTerrain(map: MapLibreMap, t: ProjectTerrain | null): 
   );
 }
 
-/** Starts an empty project (no data sets, the current model) and opens its edit link. */
+/** The name a model gets in a new project (the user renames it in the Model tab; exports carry that name). */
+export const NEUTRAL_MODEL_NAME = 'Crustal model';
+
+/**
+ * The model the editor starts from: `content` (a stored model data set, whose name is its data set's name, not part
+ * of the content) named after that data set in the demo project, else with the neutral name.
+ */
+export async function namedStartingModel<M extends { name?: string }>(content: M, datasetId: string, demoProjectId: string | null): Promise<M> {
+  if (demoProjectId === null) return { ...content, name: NEUTRAL_MODEL_NAME };
+  const held = await getJson<{ datasets: ProjectDataset[] }>(`/api/projects/${encodeURIComponent(demoProjectId)}/datasets`).catch(() => null);
+  const name = held?.datasets.find((d) => d.id === datasetId)?.name;
+  return { ...content, name: name && name.trim() !== '' ? name : NEUTRAL_MODEL_NAME };
+}
+
+/** Starts an empty project (no data sets, the current model under the neutral name) and opens its edit link. */
 export async function newProject(ctx: AppContext, title: string): Promise<void> {
   const state = {
     ...stateToJson(ctx.state),
+    model: ctx.state.model ? { ...ctx.state.model, name: NEUTRAL_MODEL_NAME } : null,
     runId: null,
     view: null,
     layers: {},

@@ -8,11 +8,13 @@ import type { ExpressionSpecification, Map as MapLibreMap } from 'maplibre-gl';
 import { ApiError, getJson, type RunLayer, type RunState, type TileInfo } from './api.ts';
 import { el } from './dom.ts';
 import type { LayerEntry, LayerPanel } from './layers.ts';
-import type { LayerState } from './state.ts';
 import { legendFromSpec } from './legend.ts';
 import { readableRasters } from './readout.ts';
 import { BASE_TOP, colorReliefExpression } from './style.ts';
 import { isogradLegend, residualLegend, vectorLayers } from './run-vector-layers.ts';
+import { groupLayerId, groupRunLayers, labelInSection, productSection, type RunLayerGroup } from './run-layer-groups.ts';
+
+export { showAddedAlone } from './run-layer-groups.ts';
 
 /**
  * Draw order: the whole base (land, sea mask, relief, coastlines, graticule) under every computed layer, so results
@@ -27,88 +29,6 @@ function vectorBefore(map: MapLibreMap, layer: RunLayer): string | undefined {
   if (layer.contourOf === undefined) return map.getLayer(BASE_TOP) ? BASE_TOP : undefined;
   const firstVector = map.getStyle().layers.find((l) => l.id.startsWith('run-') && l.type !== 'color-relief' && l.type !== 'raster' && !/_contours/.test(l.id));
   return firstVector?.id ?? (map.getLayer(BASE_TOP) ? BASE_TOP : undefined);
-}
-
-export interface RunLayerGroup {
-  key: string;
-  title: string;
-  /** By depth (km) when the group is depth-indexed, else one layer under NaN. */
-  layers: { depthKm: number | null; layer: RunLayer }[];
-}
-
-const DEPTH_NAME = /^(.+?)-(\d+(?:\.\d+)?)km$/;
-
-/** The map layer id (and layer-panel entry id) of a group of run layers. */
-function groupLayerId(key: string): string {
-  return `run-${key.replace(/[^A-Za-z0-9_-]/g, '_')}`;
-}
-
-/** The map layer id of a raster run layer by its name (depth-indexed names share their group's). */
-export function runLayerId(name: string): string {
-  return groupLayerId(DEPTH_NAME.exec(name)?.[1] ?? name);
-}
-
-/**
- * Shows the raster layers just added (a spread or probability layer the user asked for) alone among the run's
- * rasters: each is read against its own legend, not blended over the heat flow or an isotherm depth below it. The
- * other rasters stay in the layer list, unticked (their legends follow their boxes); vector layers stay as they are.
- */
-export function showAddedAlone(layers: RunLayer[], added: string[], states: Record<string, LayerState>): void {
-  if (added.length === 0) return;
-  const shown = new Set(added.map(runLayerId));
-  for (const l of layers) {
-    const id = runLayerId(l.name);
-    if (l.kind !== 'raster' || shown.has(id)) continue;
-    states[id] = { opacity: states[id]?.opacity ?? 0.85, visible: false };
-  }
-  for (const id of shown) states[id] = { visible: true, opacity: 0.85 };
-}
-
-/** Groups a run's layers: names like `temperature-5km` group by prefix with their depths; others stand alone. */
-export function groupRunLayers(input: RunLayer[]): RunLayerGroup[] {
-  const groups = new Map<string, RunLayerGroup>();
-  // A raster's .geojson file holds its contours (computed by the server from the full grid): isotherm-depth and
-  // heat-flow contours get their own entries, labelled along the line with their units.
-  const layers: RunLayer[] = [...input];
-  for (const l of input) {
-    if (l.kind === 'raster' && l.formats.includes('geojson') && (/^depth-[\d.]+C$/.test(l.name) || /^heat-?flow$/.test(l.name))) {
-      layers.push({
-        ...l,
-        name: `${l.name}.contours`,
-        kind: 'vector',
-        title: `Contours: ${l.title.charAt(0).toLowerCase()}${l.title.slice(1)}`,
-        legend: null,
-        formats: ['geojson'],
-        contourOf: l,
-      });
-    }
-  }
-  for (const layer of layers) {
-    const m = DEPTH_NAME.exec(layer.name);
-    if (m && layer.kind === 'raster') {
-      const key = m[1];
-      const g = groups.get(key) ?? { key, title: layer.title.replace(/\s*(at\s*)?\d+(\.\d+)?\s*km\b/i, '').trim() || key, layers: [] };
-      g.layers.push({ depthKm: Number(m[2]), layer });
-      groups.set(key, g);
-    } else {
-      groups.set(layer.name, { key: layer.name, title: layer.title, layers: [{ depthKm: null, layer }] });
-    }
-  }
-  for (const g of groups.values()) g.layers.sort((a, b) => (a.depthKm ?? 0) - (b.depthKm ?? 0));
-  const rank = (g: RunLayerGroup) => {
-    const k = g.key;
-    if (/^heat-?flow$/i.test(k)) return 0;
-    if (/sd|std|uncert/i.test(k) && /heat/i.test(k)) return 1;
-    if (/^depth-[\d.]+C$/.test(k)) return 2;
-    if (/^depth-/.test(k) && !/contour/.test(k)) return 2.5;
-    if (/^temperature/.test(k)) return 3;
-    if (/^facies/.test(k)) return 4;
-    if (/contour/.test(k)) return 1.5;
-    if (/isograd/.test(k)) return 6;
-    if (/resid|cv/.test(k)) return 7;
-    return 8;
-  };
-  return [...groups.values()].sort((a, b) => rank(a) - rank(b) || a.key.localeCompare(b.key, 'en', { numeric: true }));
 }
 
 export function layerUrl(runId: string, layer: RunLayer, ext: string): string {
@@ -323,9 +243,13 @@ async function showGroup(map: MapLibreMap, panel: LayerPanel, run: RunState, g: 
   };
   const legendBox = el('div', { class: 'legend-box' });
   const extraBox = el('div', {});
+  const label = depthIndexed ? g.title : first.title;
+  const section = productSection(g.key);
   const entry: LayerEntry = {
     id,
-    label: depthIndexed ? g.title : first.title,
+    label,
+    shortLabel: labelInSection(label, section),
+    section: { key: section.key, title: section.title },
     layers: [],
     legend: legendBox,
     extra: extraBox,

@@ -4,6 +4,7 @@
  * the fragment only, so the token never reaches a server log or a Referer header).
  */
 import type { ThermalModelInput } from '../../shared/schema/model.ts';
+import { runRequestSchema } from '../../shared/schema/run.ts';
 
 export interface LayerState {
   visible: boolean;
@@ -48,6 +49,31 @@ export function defaultParams(datasets: Record<string, string>): RunParams {
     cellKm: 4,
     realizations: 0,
     seed: 1,
+  };
+}
+
+/**
+ * The parameters a run was made with (its stored request, read with the server's own schema), over `base` for what
+ * the request leaves out: the run panel shows the run being shown, not the page's defaults.
+ */
+export function paramsOfRun(request: unknown, base: RunParams): RunParams {
+  const r = runRequestSchema.safeParse(request);
+  if (!r.success) return base;
+  const q = r.data;
+  const method = q.interpolation.method === 'idw' || q.interpolation.method === 'kriging' ? q.interpolation.method : base.method;
+  return {
+    ...base,
+    sites: q.sites,
+    samples: q.samples,
+    faults: q.faults,
+    method,
+    anisotropy: method === 'kriging' && q.interpolation.anisotropy === 'auto' ? 'auto' : undefined,
+    isothermsC: q.isothermsC,
+    depthsKm: q.depthsKm,
+    faciesDepthKm: q.faciesDepthKm,
+    cellKm: q.grid.cellKm ?? base.cellKm,
+    realizations: q.realizations ?? 0,
+    seed: q.seed ?? base.seed,
   };
 }
 

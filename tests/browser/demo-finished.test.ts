@@ -1,6 +1,8 @@
 // The demo opens finished: with the demo's default run on (what `subtherm serve` does unless SUBTHERM_DEMO_RUN=0),
 // a newcomer's first page shows the run's progress on the map, then depth to 300 °C and the isograds, without a
-// single click; pixel checks show both drawn (the ramp's colours over the island, the isograd zone colours).
+// single click; pixel checks show both drawn (the ramp's colours over the island, the isograd zone colours). The run
+// panel shows the demo run's own parameters, the model editor the demo model's name, and the layer panel gathers the
+// run's many layers under their products (folding sections) with only the ticked layers' legends shown.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mkdirSync } from 'node:fs';
 import { join } from 'node:path';
@@ -9,6 +11,7 @@ import { launchBrowser, startServerProcess, waitForMapIdle, SCREENSHOT_DIR, type
 import { colorPixels, rampCoverage } from '../helpers/pixels.ts';
 import { hiddenOverflow } from '../helpers/layout.ts';
 import { ZONE_COLORS } from '../../shared/grid/ramps.ts';
+import { DEMO_RUN_REQUEST } from '../../server/demo.ts';
 
 let server: RunningServer;
 let browser: Browser;
@@ -124,6 +127,113 @@ describe('the demo opens finished', { timeout: 900_000 }, () => {
     expect(d.match(/[ML]/g)!.length).toBe(reached.length);
     expect(await page.locator('#section-lithosphere-label').textContent()).toContain('lithosphere base');
     await page.screenshot({ path: join(SCREENSHOT_DIR, 'demo-finished-section-lithosphere.png') });
+    expect(pageErrors).toEqual([]);
+  });
+
+  it("shows the demo run's parameters in the run panel and the demo model's name in the model editor", async () => {
+    await page.setViewportSize({ width: 1440, height: 900 });
+    await page.locator('#tab-run').click();
+    // The values of the run on the map (DEMO_RUN_REQUEST), not the page's defaults (0 realizations, 4 km cells).
+    expect(await page.locator('#run-realizations').inputValue()).toBe(String(DEMO_RUN_REQUEST.realizations));
+    expect(await page.locator('#run-cell').inputValue()).toBe(String(DEMO_RUN_REQUEST.grid.cellKm));
+    expect(await page.locator('#run-seed').inputValue()).toBe(String(DEMO_RUN_REQUEST.seed));
+    expect(await page.locator('#run-isotherms').inputValue()).toBe(DEMO_RUN_REQUEST.isothermsC.join(', '));
+    expect(await page.locator('#run-depths').inputValue()).toBe(DEMO_RUN_REQUEST.depthsKm.join(', '));
+    // The model's name is the demo project's model data set's name, in the editable field.
+    const held = (await (await fetch(`${server.url}/api/projects/demo/datasets`)).json()) as { datasets: { id: string; name: string }[] };
+    const modelName = held.datasets.find((d) => d.id === DEMO_RUN_REQUEST.model)!.name;
+    expect(modelName).toMatch(/\w/);
+    await page.locator('#tab-model').click();
+    expect(await page.locator('#model-name').inputValue()).toBe(modelName);
+    expect(await page.locator('#model-name').isEditable()).toBe(true);
+    expect(pageErrors).toEqual([]);
+  });
+
+  it("groups the run's layers by product in folding sections, ticks them, and shows only the ticked layers' legends", async () => {
+    const sections = await page.evaluate(() =>
+      Object.fromEntries(
+        [...document.querySelectorAll('#run-layers details.layer-section')].map((d) => [
+          (d as HTMLElement).dataset.section!,
+          [...d.querySelectorAll('section.layer')].map((s) => (s as HTMLElement).dataset.layer!),
+        ]),
+      ),
+    );
+    // Depth to 300 °C with its contours, P10/P50/P90, mean and mean − deterministic together; the same for temperature.
+    expect(sections['depth-300C']).toEqual(
+      expect.arrayContaining([
+        'run-depth-300C',
+        'run-depth-300C_contours',
+        'run-depth-300C_p10',
+        'run-depth-300C_p50',
+        'run-depth-300C_p90',
+        'run-depth-300C_mean',
+        'run-depth-300C_mean-diff',
+      ]),
+    );
+    expect(sections['depth-500C']).toEqual(expect.arrayContaining(['run-depth-500C', 'run-depth-500C_p90', 'run-depth-500C_mean-diff']));
+    expect(sections.temperature).toEqual(
+      expect.arrayContaining([
+        'run-temperature',
+        'run-temperature_p10',
+        'run-temperature_p50',
+        'run-temperature_p90',
+        'run-temperature_mean',
+        'run-temperature_mean-diff',
+      ]),
+    );
+    expect(sections['heat-flow']).toEqual(expect.arrayContaining(['run-heat-flow']));
+    // Every run entry sits in a section, and each depth-indexed percentile has one entry with a depth chooser.
+    expect(await page.locator('#run-layers > section.layer').count()).toBe(0);
+    expect(await page.locator('#depth-run-temperature_p90 option').allTextContents()).toEqual(DEMO_RUN_REQUEST.depthsKm.map((d) => `${d} km`));
+    // Inside its section an entry is named by what differs ("P90"); the full name is its tooltip.
+    const p90Label = page.locator('label[for="toggle-run-depth-300C_p90"]');
+    expect((await p90Label.textContent())!.trim()).toBe('P90');
+    expect(await p90Label.getAttribute('title')).toContain('Depth to the 300 °C isotherm');
+
+    // The section of the layer on the map is open; one with nothing ticked is folded; both fold and unfold.
+    const depthSection = page.locator('#layer-section-depth-300C');
+    const tempSection = page.locator('#layer-section-temperature');
+    expect(await depthSection.evaluate((d) => (d as HTMLDetailsElement).open)).toBe(true);
+    expect(await tempSection.evaluate((d) => (d as HTMLDetailsElement).open)).toBe(false);
+    expect(await page.locator('#toggle-run-temperature_p90').isVisible()).toBe(false);
+    await depthSection.locator('summary').click();
+    expect(await page.locator('#toggle-run-depth-300C').isVisible()).toBe(false);
+    await depthSection.locator('summary').click();
+    expect(await page.locator('#toggle-run-depth-300C').isVisible()).toBe(true);
+    await tempSection.locator('summary').click();
+    await page.screenshot({ path: join(SCREENSHOT_DIR, 'demo-finished-layer-sections.png') });
+
+    // Ticking draws the layer: temperature at 5 km, P90, in its ramp's colours over the island; its legend appears.
+    const legendOf = (id: string) => page.locator(`section.layer[data-layer="${id}"] .layer-legend`);
+    expect(await legendOf('run-temperature_p90').isVisible()).toBe(false);
+    await page.locator('#toggle-run-temperature_p90').check();
+    await expect.poll(() => page.evaluate(() => window.subtherm!.map.getLayoutProperty('run-temperature_p90', 'visibility') ?? 'visible')).toBe('visible');
+    expect(await legendOf('run-temperature_p90').isVisible()).toBe(true);
+    expect(await legendOf('run-temperature_p90').textContent()).toContain('°C');
+    expect(await tempSection.locator('summary').textContent()).toContain('1 shown');
+    await waitForMapIdle(page, 120_000);
+    const cov = await rampCoverage(page, 'run-temperature_p90', ISLAND);
+    expect(cov.ramp, JSON.stringify(cov)).toBeGreaterThan(0.6);
+    await page.screenshot({ path: join(SCREENSHOT_DIR, 'demo-finished-layer-ticked.png') });
+
+    // Unticked, the layer leaves the map and its colour bar leaves the panel; a ticked layer keeps its own.
+    await page.locator('#toggle-run-temperature_p90').uncheck();
+    expect(await page.evaluate(() => window.subtherm!.map.getLayoutProperty('run-temperature_p90', 'visibility'))).toBe('none');
+    expect(await legendOf('run-temperature_p90').isVisible()).toBe(false);
+    expect(await legendOf('run-depth-300C').isVisible()).toBe(true);
+    // The same for a data layer: the sites' heat-flow ramp goes with its box.
+    await page.locator('#toggle-sites').uncheck();
+    expect(await legendOf('sites').isVisible()).toBe(false);
+    await page.locator('#toggle-sites').check();
+    expect(await legendOf('sites').isVisible()).toBe(true);
+    // Every legend still showing belongs to a ticked layer.
+    const stray = await page.evaluate(() =>
+      [...document.querySelectorAll('#panel section.layer')]
+        .filter((s) => !(s.querySelector('input[type=checkbox]') as HTMLInputElement).checked)
+        .filter((s) => (s.querySelector('.layer-legend') as HTMLElement).offsetParent !== null)
+        .map((s) => (s as HTMLElement).dataset.layer),
+    );
+    expect(stray).toEqual([]);
     expect(pageErrors).toEqual([]);
   });
 });

@@ -107,6 +107,8 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     expect(await page.locator('#project-title').textContent()).toBe('Velmar Rise survey');
     await page.locator('#tab-data').click();
     await expect.poll(() => page.locator('#project-datasets').textContent(), { timeout: 20_000 }).toContain('holds no data sets yet');
+    // The new project's model starts under a neutral name, not the demo's.
+    expect(await page.locator('#model-name').inputValue()).toBe('Crustal model');
   });
 
   it('explains bad files clearly: swapped coordinates, a CSV without coordinates, an unknown or malformed CRS', async () => {
@@ -171,6 +173,9 @@ describe('a user region in the other hemisphere, end to end in the page', { time
   });
 
   it('runs kriging with 100 realizations on the user data alone, and the layers draw over the region', async () => {
+    // The user names the model: the run and its exports carry that name.
+    await page.locator('#tab-model').click();
+    await page.locator('#model-name').fill('Velmar Rise crust');
     await page.locator('#tab-run').click();
     await page.locator('#run-method').selectOption('kriging');
     await page.locator('#run-cell').fill('4');
@@ -205,6 +210,9 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     expect(run.request.samples).toBeUndefined();
     expect(run.request.faults).toBeUndefined();
     const everything = JSON.stringify({ request: run.request, summary: run.summary });
+    expect((run.request.model as { name?: string }).name).toBe('Velmar Rise crust');
+    expect((run.summary as { provenance: { modelName: string | null } }).provenance.modelName).toBe('Velmar Rise crust');
+    expect(everything).not.toContain('Orrindel');
     for (const [kind, id] of Object.entries(cfg.demo.datasets)) expect(everything.includes(`"${id}"`), `demo ${kind} data set ${id} in the run`).toBe(false);
     expect(run.layers.map((l) => l.name)).toEqual(expect.arrayContaining(['heat-flow', 'depth-300C']));
 
