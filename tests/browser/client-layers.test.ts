@@ -128,10 +128,10 @@ describe('the map client: layers', () => {
   it('the model editor starts from the demo model and validates as you type, beside the field', async () => {
     await page.locator('#tab-model').click();
     expect(await page.locator('#model-surfaceTemperatureC').inputValue()).toBe('12');
-    const bottom = page.locator('#model-editor tbody tr').nth(1).locator('input[data-field="bottomKm"]');
+    const bottom = page.locator('#model-editor tbody.layer-rows').nth(1).locator('input[data-field="bottomKm"]');
     expect(await bottom.inputValue()).toBe('25');
     await bottom.fill('10');
-    const err = page.locator('#model-editor tbody tr').nth(1).locator('.field-error').nth(1);
+    const err = page.locator('#model-editor tbody.layer-rows').nth(1).locator('.field-error').nth(1);
     expect(await err.textContent()).toContain("must be greater than the layer above's bottom (15 km)");
     expect(await bottom.getAttribute('aria-invalid')).toBe('true');
     expect(await page.locator('#model-status').textContent()).toMatch(/^1 problem/);
@@ -184,7 +184,7 @@ describe('the map client: layers', () => {
 
     // A distribution in the model: the editor accepts it, and the column comes back with its P10–P90 band.
     await page.locator('#tab-model').click();
-    const k0 = page.locator('#model-editor tbody tr').first().locator('input[data-field="conductivityWmK"]');
+    const k0 = page.locator('#model-editor tbody.layer-rows').first().locator('input[data-field="conductivityWmK"]');
     await k0.fill('{"dist":"normal","mean":3,"sd":0.3}');
     expect(await page.locator('#model-status').textContent()).toBe('Valid: 4 layers to 60 km.');
     await page.mouse.click(box.x + site.x, box.y + site.y);
