@@ -66,7 +66,7 @@ export function productSection(key: string): ProductSection {
   if (/^facies/.test(key)) return { key: 'facies', title: 'Metamorphic facies at depth', stem: 'Metamorphic facies' };
   if (/isograd/.test(key)) return { key: 'isograds', title: 'Isograds', stem: 'Isograds' };
   if (/resid|^cv/.test(key)) return { key: 'cross-validation', title: 'Cross-validation', stem: 'Cross-validation' };
-  return { key: 'model-limits', title: 'Where the model ends', stem: '' };
+  return { key: 'model-checks', title: 'Model checks and gaps', stem: '' };
 }
 
 /** A layer's label inside its section: its title without the section's stem ("Depth to the 300 °C isotherm, P10" → "P10"). */

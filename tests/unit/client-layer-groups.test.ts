@@ -59,7 +59,7 @@ describe('grouping a run’s layers for the layer panel', () => {
         'temperature-5km.prob-gt-150C',
       ]),
     );
-    expect(bySection.get('model-limits')).toEqual(['base-heat-flow']);
+    expect(bySection.get('model-checks')).toEqual(['base-heat-flow']);
   });
 
   it('gives a percentile at several depths one entry with both depths, and one map layer id for them', () => {
