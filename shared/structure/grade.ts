@@ -112,12 +112,21 @@ export function faciesRankInterval(facies: string): [number, number] | null {
  */
 export function peakRankInterval(peakTemperatureC: number): [number, number] {
   if (!Number.isFinite(peakTemperatureC)) return [-1, -1];
+  return crossedIsograds(INDEX_MINERAL_ZONES, peakTemperatureC, MAX_RANK);
+}
+
+/**
+ * Of the isograds opening zones 1 … last of a series, how many a peak temperature t (°C) certainly crossed (the top of
+ * the isograd's temperature range ≤ t) and how many it possibly crossed (the bottom of the range ≤ t).
+ */
+function crossedIsograds(zones: readonly { isogradTemperatureC: { min: number; max: number } | null }[], t: number, last: number): [number, number] {
   let lo = 0,
     hi = 0;
-  for (const z of INDEX_MINERAL_ZONES) {
-    if (z.isogradTemperatureC === null) continue;
-    if (z.isogradTemperatureC.max <= peakTemperatureC) lo++;
-    if (z.isogradTemperatureC.min <= peakTemperatureC) hi++;
+  for (let r = 1; r <= last; r++) {
+    const z = zones[r].isogradTemperatureC;
+    if (z === null) continue;
+    if (z.max <= t) lo++;
+    if (z.min <= t) hi++;
   }
   return [lo, hi];
 }
@@ -170,13 +179,7 @@ export function peakGrade(temperatureC: number, pressureKbar: number, calibratio
   const lowP = as.polymorph === 'andalusite' || (as.polymorph === 'sillimanite' && pressureKbar < tp.pressureKbar);
   const t = temperatureC;
   if (!lowP) {
-    let lo = 0,
-      hi = 0;
-    for (let r = 1; r <= 3; r++) {
-      const z = INDEX_MINERAL_ZONES[r].isogradTemperatureC as { min: number; max: number };
-      if (z.max <= t) lo++;
-      if (z.min <= t) hi++;
-    }
+    let [lo, hi] = crossedIsograds(INDEX_MINERAL_ZONES, t, 3);
     const ky = INDEX_MINERAL_ZONES[4].isogradTemperatureC as { min: number; max: number };
     const asRank = as.polymorph === 'kyanite' ? 4 : 5;
     if (t >= ky.min) hi = asRank;
@@ -193,13 +196,7 @@ export function peakGrade(temperatureC: number, pressureKbar: number, calibratio
       message: null,
     };
   }
-  let slo = 0,
-    shi = 0;
-  for (let r = 1; r <= 3; r++) {
-    const z = LOW_PRESSURE_ZONES[r].isogradTemperatureC as { min: number; max: number };
-    if (z.max <= t) slo++;
-    if (z.min <= t) shi++;
-  }
+  let [slo, shi] = crossedIsograds(LOW_PRESSURE_ZONES, t, 3);
   if (as.polymorph === 'sillimanite') {
     shi = 4;
     if (t >= (LOW_PRESSURE_ZONES[3].isogradTemperatureC as { max: number }).max) slo = 4;
