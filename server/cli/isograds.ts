@@ -11,6 +11,8 @@ import { parseThermalModel } from '../../shared/schema/model.ts';
 import { compileModel, nominalModel, type CompiledModel } from '../../shared/thermal/index.ts';
 import { isogradLayer, DEFAULT_PALEO_DENSITY_KG_M3, type FaultSummary, type IsogradReport, type Range } from '../../shared/structure/index.ts';
 import { numberOption, parseVerbArgs, textOptions } from './args.ts';
+import { parseVariogramOption } from '../../shared/schema/interp.ts';
+import type { VariogramModel } from '../../shared/interp/variogram.ts';
 import { readDatasetFile } from '../io/vector-input.ts';
 
 const HELP = `subtherm isograds --samples S.geojson [options] --out I.geojson [--json]
@@ -31,6 +33,8 @@ Isograds from grade samples (zone, facies or peak P–T), with a fault report (s
   --method M                kriging (indicator kriging, default) or idw
   --neighbors K             nearest samples per estimate (default 16 for kriging, 12 for idw)
   --power P                 inverse-distance power for --method idw (default 2)
+  --variogram V             auto (default: each isograd's indicator variogram fitted, else the median-indicator
+                            one) or MODEL:NUGGET,PARTIAL_SILL,RANGE_KM for every isograd (--method kriging)
   --isograd-dip-deg A       dip of the isograd surfaces towards lower grade, degrees: gives the dip-slip
                             component of each separation on faults with dipDeg and dipDirectionDeg
   --density-kg-m3 RHO       overburden density for depth from peak pressure (default ${DEFAULT_PALEO_DENSITY_KG_M3})
@@ -76,7 +80,7 @@ const r3 = (v: number | null) => (v === null || !Number.isFinite(v) ? null : Mat
 
 const ARG_SPEC = {
   ...textOptions('samples points-crs layer faults-layer faults model heat-flow fault-distance-km cell-km support-km neighbors method'),
-  ...textOptions('isograd-dip-deg power density-kg-m3 out'),
+  ...textOptions('isograd-dip-deg power variogram density-kg-m3 out'),
 } as const;
 
 type Values = Partial<Record<keyof typeof ARG_SPEC, string>>;
@@ -104,7 +108,16 @@ function computeOptions(v: Values) {
   if (!(density >= 1000 && density <= 4000)) throw bad('density-kg-m3', `must be within 1000–4000 kg/m³, got ${density}`);
   const heatFlow = v['heat-flow'] === undefined ? undefined : numberOption('heat-flow', v['heat-flow']);
   if (heatFlow !== undefined && !(heatFlow > 0)) throw bad('heat-flow', `must be > 0 mW/m², got ${heatFlow}`);
-  return { faultDistanceKm, cellKm, supportKm, method, isogradDipDeg, neighbors, power, density, heatFlow } as const;
+  return { faultDistanceKm, cellKm, supportKm, method, isogradDipDeg, neighbors, power, density, heatFlow, variogram: indicatorVariogram(v, method) } as const;
+}
+
+/** `--variogram`: auto (undefined: fitted per isograd) or one model for every isograd, with indicator kriging only. */
+function indicatorVariogram(v: Values, method: string): VariogramModel | undefined {
+  const g = parseVariogramOption(v.variogram);
+  if (g === 'auto') return undefined;
+  if (typeof g === 'string') throw bad('variogram', `give auto or MODEL:NUGGET,PARTIAL_SILL,RANGE_KM (each isograd's own fit is spherical), got '${g}'`);
+  if (method !== 'kriging') throw bad('variogram', 'applies to --method kriging only');
+  return g;
 }
 
 /** The samples, faults and model files, with each file's SHA-256 and the readers' warnings. */
@@ -145,7 +158,7 @@ export function rangeText(r: Range): string {
 
 /** The plain-text summary: isograds, each fault's statements and separations, counts, warnings, files, caution. */
 function summaryText(rep: IsogradReport, faults: FaultSummary[], warnings: string[], files: string[], caution: string): string {
-  const lines = [`isograds: ${rep.isograds.map((i) => `${i.isograd} ${i.lines} line(s), ${i.lengthKm} km`).join('; ')}`];
+  const lines = [`isograds: ${rep.isograds.map((i) => `${i.isograd} ${i.lines} line(s), ${i.lengthKm} km`).join('; ')}`, `method: ${rep.method.indicator}`];
   for (const f of faults) {
     const st = [
       f.repeatedZones.length > 0 ? `repeated: ${f.repeatedZones.map((z) => z.zone).join(', ')}` : '',
@@ -183,6 +196,7 @@ export async function isograds(argv: string[]): Promise<number> {
       neighbors: o.neighbors,
       power: o.power,
       method: o.method,
+      variogram: o.variogram,
       isogradDipDeg: o.isogradDipDeg,
       faultDistanceKm: o.faultDistanceKm,
       model: inputs.model,

@@ -81,6 +81,42 @@ describe('subtherm isograds (child process)', { timeout: 2 * CHILD_TIMEOUT_MS },
     expect(r.stderr).not.toMatch(/at .*\.ts:\d+/);
   });
 
+  it('--variogram MODEL:NUGGET,PARTIAL_SILL,RANGE_KM is used for every isograd and reported as given', () => {
+    // Invented samples on a 10 × 10 lattice 0.05° apart, the zone rising eastwards one rank every two columns.
+    const features = [];
+    for (let i = 0; i < 10; i++)
+      for (let k = 0; k < 10; k++)
+        features.push({
+          type: 'Feature',
+          geometry: { type: 'Point', coordinates: [-128 + 0.05 * i, -38 + 0.05 * k] },
+          properties: { id: `V${i}-${k}`, zone: ['chlorite', 'biotite', 'garnet', 'staurolite', 'kyanite', 'sillimanite'][Math.floor(i / 2)] },
+        });
+    const file = join(dir, 'lattice.geojson');
+    writeFileSync(file, JSON.stringify({ type: 'FeatureCollection', features }));
+    const r = run(['--samples', file, '--variogram', 'spherical:0.02,0.2,18', '--json']);
+    expect(r.status, r.stderr).toBe(0);
+    const j = JSON.parse(r.stdout);
+    expect(j.isograds.map((i: { variogram: { source: string; rangeKm: number } }) => [i.variogram.source, i.variogram.rangeKm])).toEqual(
+      Array(5).fill(['given', 18]),
+    );
+    expect(j.method.indicator).toContain('the given spherical variogram for every isograd (nugget 0.02, partial sill 0.2, range 18 km)');
+    // Without it each isograd takes its own fit where it succeeds, else the median-indicator one, and the method says which.
+    const auto = JSON.parse(run(['--samples', file, '--json']).stdout);
+    const sources: string[] = auto.isograds.map((i: { variogram: { source: string } }) => i.variogram.source);
+    for (const q of sources) expect(['fitted', 'median-indicator']).toContain(q);
+    expect(auto.method.indicator).toMatch(/its own fitted spherical indicator variogram for [a-z]+-in/);
+    expect(auto.method.indicator).not.toContain('given');
+    // A bare model name (the fit is spherical) or a variogram with inverse-distance weighting: exit 2 naming the option.
+    for (const args of [
+      ['--variogram', 'exponential'],
+      ['--method', 'idw', '--variogram', 'spherical:0,0.2,10'],
+    ]) {
+      const e = run(['--samples', file, ...args]);
+      expect(e.status).toBe(2);
+      expect(e.stderr).toContain('--variogram');
+    }
+  });
+
   it('a bad option exits 2 naming it', () => {
     const r = run(['--samples', 'fixtures/demo/samples.geojson', '--cell-km', '0']);
     expect(r.status).toBe(2);
