@@ -131,6 +131,17 @@ export interface ClientParseError extends Error {
 }
 
 /**
+ * What the clientError handler answers, by status and code: any request can meet these before a route sees it, so
+ * the OpenAPI document lists them on every operation (openapi.ts).
+ */
+export const CLIENT_ERROR_ANSWERS = {
+  400: { code: 'bad_request', when: 'the request is not valid HTTP/1.1' },
+  408: { code: 'request_timeout', when: "the request line and headers did not arrive within the server's headers timeout" },
+  414: { code: 'uri_too_long', when: "the request line (method and URL) overflows Node's header limit (maxHeaderSize, 16 KiB by default, with the headers)" },
+  431: { code: 'headers_too_large', when: "the request line and headers together overflow Node's header limit (maxHeaderSize, 16 KiB by default)" },
+} as const;
+
+/**
  * The answer to a request Node's HTTP parser refused before any route could see it, in the API's JSON error shape:
  * a request line or header block over Node's header limit (`maxHeaderSize`, 16 KiB by default) is 414 when the
  * overflow is inside the request line (an over-long URL), else 431; a request that does not parse as HTTP is 400;
@@ -146,20 +157,20 @@ export function clientErrorAnswer(err: ClientParseError, maxHeaderBytes: number)
     return inRequestLine
       ? {
           status: 414,
-          code: 'uri_too_long',
+          code: CLIENT_ERROR_ANSWERS[414].code,
           message: `the request line (method and URL) is longer than the server reads: at most ${maxHeaderBytes} bytes with the headers, and the path at most ${MAX_PATH_CHARS} characters`,
           field: 'path',
         }
       : {
           status: 431,
-          code: 'headers_too_large',
+          code: CLIENT_ERROR_ANSWERS[431].code,
           message: `the request line and headers are larger than the server reads (at most ${maxHeaderBytes} bytes together): send shorter headers, and put large data in the body`,
           field: 'headers',
         };
   }
   if (err.code === 'ERR_HTTP_REQUEST_TIMEOUT' || err.code === 'ERR_HTTP_HEADERS_TIMEOUT')
-    return { status: 408, code: 'request_timeout', message: 'the request did not arrive in time', field: 'headers' };
-  return { status: 400, code: 'bad_request', message: `the request is not valid HTTP/1.1 (${err.code ?? 'parse error'})`, field: 'request' };
+    return { status: 408, code: CLIENT_ERROR_ANSWERS[408].code, message: 'the request did not arrive in time', field: 'headers' };
+  return { status: 400, code: CLIENT_ERROR_ANSWERS[400].code, message: `the request is not valid HTTP/1.1 (${err.code ?? 'parse error'})`, field: 'request' };
 }
 
 const REASONS: Record<number, string> = { 400: 'Bad Request', 408: 'Request Timeout', 414: 'URI Too Long', 431: 'Request Header Fields Too Large' };

@@ -1,4 +1,21 @@
 /** JSON Schemas (2020-12) of answers that no zod schema describes, for the OpenAPI document (openapi.ts). */
+import { CLIENT_ERROR_ANSWERS } from './guards.ts';
+
+type ClientErrorStatus = keyof typeof CLIENT_ERROR_ANSWERS;
+/** Statuses the HTTP server answers before any route (guards.ts answerClientError): possible on every operation. */
+export const CLIENT_ERROR_STATUSES = Object.keys(CLIENT_ERROR_ANSWERS).map(Number) as ClientErrorStatus[];
+
+/** What the server's own answer with `status` means ('' when it has none). */
+export function clientErrorText(status: number): string {
+  const a = (CLIENT_ERROR_ANSWERS as Record<number, { code: string; when: string } | undefined>)[status];
+  return a ? `${a.code} when ${a.when} (answered by the server before any route; the connection then closes)` : '';
+}
+
+/** components.responses: one entry per status of the server's own answers, referred to from every operation. */
+export function clientErrorResponses(): Record<string, unknown> {
+  const content = { 'application/json': { schema: { $ref: '#/components/schemas/Error' } } };
+  return Object.fromEntries(CLIENT_ERROR_STATUSES.map((s) => [`ClientError${s}`, { description: clientErrorText(s), content }]));
+}
 
 const depthsPerColumn = (description: string) => ({ type: 'array', items: { type: ['number', 'null'] }, description });
 /** POST /api/section (shared/products/section.ts computeSection): the section's grid and, per column, its limits. */

@@ -8,7 +8,7 @@ import { VERSION } from '../../shared/version.ts';
 import { VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
 import { columnAnswerSchema } from '../../shared/schema/column.ts';
 import { heatFlowCorrectionRequestSchema } from '../../shared/heatflow/dataset-corrections.ts';
-import { sectionAnswerSchema } from './openapi-answers.ts';
+import { CLIENT_ERROR_STATUSES, clientErrorResponses, clientErrorText, sectionAnswerSchema } from './openapi-answers.ts';
 import { columnAtRunSchema, columnOfModelSchema, datasetPatchSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
 
 const json = (schema: z.ZodType) => z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any', target: 'draft-2020-12' });
@@ -132,10 +132,12 @@ function op(
   };
   for (const e of opts.errors ?? [])
     responses[String(e)] = {
-      description: ERROR_DESCRIPTIONS[e] ?? 'error',
+      description: [ERROR_DESCRIPTIONS[e] ?? 'error', clientErrorText(e)].filter(Boolean).join('; '),
       content: { 'application/json': { schema: { $ref: '#/components/schemas/Error' } } },
       ...(e === 429 || e === 503 ? { headers: { 'Retry-After': { description: 'seconds to wait before asking again', schema: { type: 'integer' } } } } : {}),
     };
+  // Answers of the HTTP server itself, before any route (guards.ts answerClientError): possible on every operation.
+  for (const s of CLIENT_ERROR_STATUSES) responses[String(s)] ??= { $ref: `#/components/responses/ClientError${s}` };
   o.responses = responses;
   return o;
 }
@@ -158,6 +160,7 @@ export function openApiDocument(): unknown {
         RunProgressEvent: sent(runProgressEventSchema),
         RunEndEvent: sent(runEndEventSchema),
       },
+      responses: clientErrorResponses(),
       securitySchemes: { editToken: { type: 'http', scheme: 'bearer', description: 'the editToken returned by POST /api/projects' } },
     },
     paths: {

@@ -1,7 +1,9 @@
 // Requests Node's HTTP parser refuses before any route sees them get the API's JSON error shape from a real server
 // (startServer, as `subtherm serve` runs it): a URL over Node's header limit (http.maxHeaderSize, 16 KiB by default)
 // is 414, a header block over it 431 (RFC 9110 §15.5.15 and RFC 6585 §5), bytes that are not HTTP 400; each answer
-// is complete (content-length matches) and closes the connection, and the server goes on serving.
+// is complete (content-length matches) and closes the connection, and the server goes on serving. The server's
+// OpenAPI 3.1 document lists each of these answers, with the code the server sends, on every operation (a Response
+// Object, or a Reference Object to components.responses, per status: OAS 3.1.0 §4.8.16–17).
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { maxHeaderSize } from 'node:http';
 import { connect } from 'node:net';
@@ -9,6 +11,7 @@ import { mkdtempSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import { startServer } from '../../server/main.ts';
+import { clientErrorAnswer } from '../../server/routes/guards.ts';
 
 let server: Awaited<ReturnType<typeof startServer>>;
 let dir: string;
@@ -77,6 +80,37 @@ describe("requests Node's HTTP parser refuses", () => {
 
   it('bytes that are not HTTP get 400 JSON', async () => {
     expectJsonError(await raw('HELLO THERE\r\n\r\n'), 400, 'bad_request', 'request');
+  });
+
+  it('the OpenAPI document lists 400, 408, 414 and 431 with the codes the server sends, on every operation', async () => {
+    const sent = {
+      414: JSON.parse((await raw(`GET /api/health/${'a'.repeat(maxHeaderSize + 100)} HTTP/1.1\r\nHost: x\r\n\r\n`)).body).error.code as string,
+      431: JSON.parse((await raw(`GET /api/health HTTP/1.1\r\nHost: x\r\nX-Pad: ${'b'.repeat(maxHeaderSize + 100)}\r\n\r\n`)).body).error.code as string,
+      400: JSON.parse((await raw('HELLO THERE\r\n\r\n')).body).error.code as string,
+      // Node's headers timeout is a minute: the handler's answer to that error stands for the wait here.
+      408: clientErrorAnswer({ name: 'Error', message: 'timeout', code: 'ERR_HTTP_REQUEST_TIMEOUT' }, maxHeaderSize)!.code,
+    };
+    expect(sent).toEqual({ 414: 'uri_too_long', 431: 'headers_too_large', 400: 'bad_request', 408: 'request_timeout' });
+    type Answer = { description?: string; $ref?: string; content?: Record<string, { schema: { $ref?: string } }> };
+    const doc = (await (await fetch(`http://127.0.0.1:${server.port}/api/openapi.json`)).json()) as {
+      paths: Record<string, Record<string, { responses: Record<string, Answer> }>>;
+      components: { responses: Record<string, Answer>; schemas: Record<string, unknown> };
+    };
+    const resolve = (a: Answer): Answer => (a.$ref ? doc.components.responses[a.$ref.replace('#/components/responses/', '')] : a);
+    let operations = 0;
+    for (const [path, item] of Object.entries(doc.paths))
+      for (const [method, operation] of Object.entries(item)) {
+        operations++;
+        for (const [status, code] of Object.entries(sent)) {
+          const answer = operation.responses[status];
+          expect(answer, `${method} ${path} ${status}`).toBeDefined();
+          const r = resolve(answer);
+          expect(r.description, `${method} ${path} ${status}`).toContain(code);
+          expect(r.content?.['application/json'].schema.$ref).toBe('#/components/schemas/Error');
+        }
+      }
+    expect(operations).toBeGreaterThan(30);
+    expect(doc.components.schemas.Error).toBeDefined();
   });
 
   it('the server goes on serving after each refusal', async () => {
