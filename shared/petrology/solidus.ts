@@ -26,9 +26,6 @@ export const WET_GRANITE_SOLIDUS_NODES: readonly [number, number, boolean][] = O
   [10, 620, true],
 ] as [number, number, boolean][]);
 
-const NODES_P = WET_GRANITE_SOLIDUS_NODES.map((n) => n[0]);
-const NODES_T = WET_GRANITE_SOLIDUS_NODES.map((n) => n[1]);
-
 /** PCHIP derivatives (Fritsch & Carlson 1980; endpoint formula of Moler, Numerical Computing with MATLAB §3.6). */
 function pchipSlopes(x: number[], y: number[]): number[] {
   const n = x.length;
@@ -53,42 +50,38 @@ function pchipSlopes(x: number[], y: number[]): number[] {
   return d;
 }
 
-const SLOPES = pchipSlopes(NODES_P, NODES_T);
+/**
+ * The one evaluator of node-defined solidus curves: through [pressure, temperature °C] nodes, NaN below the first
+ * node, held at the last above it; between nodes a straight line, or the monotone cubic Hermite (PCHIP) with
+ * Fritsch–Carlson slopes.
+ */
+function nodeCurve(nodes: readonly (readonly [number, number, ...unknown[]])[], shape: 'linear' | 'pchip'): (pressure: number) => number {
+  const P = nodes.map((n) => n[0]);
+  const T = nodes.map((n) => n[1]);
+  const slopes = shape === 'pchip' ? pchipSlopes(P, T) : null;
+  const n = P.length;
+  return (p) => {
+    if (!(p >= P[0])) return NaN;
+    if (p >= P[n - 1]) return T[n - 1];
+    let k = 0;
+    while (p > P[k + 1]) k++;
+    const h = P[k + 1] - P[k];
+    if (slopes === null) return T[k] + ((T[k + 1] - T[k]) * (p - P[k])) / h;
+    const s = (p - P[k]) / h;
+    const h00 = (1 + 2 * s) * (1 - s) * (1 - s),
+      h10 = s * (1 - s) * (1 - s),
+      h01 = s * s * (3 - 2 * s),
+      h11 = s * s * (s - 1);
+    return h00 * T[k] + h10 * h * slopes[k] + h01 * T[k + 1] + h11 * h * slopes[k + 1];
+  };
+}
 
 /** Water-saturated granite solidus, °C, at pressureKbar (NaN below 0.5 kbar). See isWetGraniteSolidusApproximate. */
-export function wetGraniteSolidusC(pressureKbar: number): number {
-  const p = pressureKbar;
-  if (!(p >= NODES_P[0])) return NaN;
-  const n = NODES_P.length;
-  if (p >= NODES_P[n - 1]) return NODES_T[n - 1];
-  let k = 0;
-  while (p > NODES_P[k + 1]) k++;
-  const h = NODES_P[k + 1] - NODES_P[k];
-  const s = (p - NODES_P[k]) / h;
-  const h00 = (1 + 2 * s) * (1 - s) * (1 - s),
-    h10 = s * (1 - s) * (1 - s),
-    h01 = s * s * (3 - 2 * s),
-    h11 = s * s * (s - 1);
-  return h00 * NODES_T[k] + h10 * h * SLOPES[k] + h01 * NODES_T[k + 1] + h11 * h * SLOPES[k + 1];
-}
+export const wetGraniteSolidusC: (pressureKbar: number) => number = nodeCurve(WET_GRANITE_SOLIDUS_NODES, 'pchip');
 
 /** True where the wet granite curve is not between the checked points (below 2 kbar or above 10 kbar). */
 export function isWetGraniteSolidusApproximate(pressureKbar: number): boolean {
   return !(pressureKbar >= 2 && pressureKbar <= 10);
-}
-
-/** Piecewise-linear curve through [pressure kbar, temperature °C] nodes; NaN below the first node, held above the last. */
-function linearNodes(nodes: readonly (readonly [number, number])[]): (pKbar: number) => number {
-  return (p) => {
-    if (!(p >= nodes[0][0])) return NaN;
-    const n = nodes.length;
-    if (p >= nodes[n - 1][0]) return nodes[n - 1][1];
-    let k = 0;
-    while (p > nodes[k + 1][0]) k++;
-    const [p0, t0] = nodes[k],
-      [p1, t1] = nodes[k + 1];
-    return t0 + ((t1 - t0) * (p - p0)) / (p1 - p0);
-  };
 }
 
 /** One named solidus curve: temperature (°C) at lithostatic pressure (MPa), NaN where the curve is not defined. */
@@ -125,13 +118,16 @@ export const FLUID_ABSENT_FELSIC: SolidusCurve = {
   temperatureC: (p) => (p >= 0 ? 780 : NaN),
 };
 
-const WET_BASALT_KBAR = linearNodes([
-  [0.5, 800],
-  [2, 720],
-  [5, 680],
-  [10, 650],
-  [25, 640],
-]);
+const WET_BASALT_KBAR = nodeCurve(
+  [
+    [0.5, 800],
+    [2, 720],
+    [5, 680],
+    [10, 650],
+    [25, 640],
+  ],
+  'linear',
+);
 
 /** Water-saturated basalt (gabbro) solidus after Lambert & Wyllie (1972); node values from memory. */
 export const WET_BASALT: SolidusCurve = {
@@ -151,12 +147,15 @@ export const DRY_BASALT: SolidusCurve = {
   temperatureC: (p) => (p >= 0 ? 1100 + 0.1 * p : NaN),
 };
 
-const WET_PERIDOTITE_GPA = linearNodes([
-  [0.5, 1050],
-  [1, 1000],
-  [2, 900],
-  [3.2, 810],
-]);
+const WET_PERIDOTITE_GPA = nodeCurve(
+  [
+    [0.5, 1050],
+    [1, 1000],
+    [2, 900],
+    [3.2, 810],
+  ],
+  'linear',
+);
 
 /** Water-saturated peridotite solidus after Grove et al. (2006), about 810 °C at 3.2 GPa; node values from memory. */
 export const WET_PERIDOTITE: SolidusCurve = {
