@@ -1,5 +1,6 @@
 import { InputError } from '../errors.ts';
 import { localProjectionFor, lonLatToLocalKm } from './projection.ts';
+import { pointEnvelope } from './envelope.ts';
 
 /**
  * Cell declustering (Journel 1983, "Nonparametric estimation of spatial distributions", Mathematical Geology 15;
@@ -110,16 +111,7 @@ export function decluster(
     const weights = cellDeclusteringWeights(x, y, opts.cellKm, offsets);
     best = { cellKm: opts.cellKm, weights, mean: weightedMean(z, weights) };
   } else {
-    let x0 = Infinity,
-      x1 = -Infinity,
-      y0 = Infinity,
-      y1 = -Infinity;
-    for (let i = 0; i < n; i++) {
-      x0 = Math.min(x0, x[i]);
-      x1 = Math.max(x1, x[i]);
-      y0 = Math.min(y0, y[i]);
-      y1 = Math.max(y1, y[i]);
-    }
+    const { x0, x1, y0, y1 } = pointEnvelope(x, y);
     const extent = Math.max(x1 - x0, y1 - y0);
     if (!(extent > 0))
       throw new InputError('declustering needs points at more than one place', [{ field: 'points', problem: 'all points coincide' }], 'too_few_points');

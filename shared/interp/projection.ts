@@ -4,6 +4,7 @@ import type { GridSpec } from '../grid/grid.ts';
 import { groundStepKm } from '../geodesy/cell-area.ts';
 import { groundCellKmRange } from '../geodesy/ground-cell.ts';
 import { correctedDatumShift, refuseGridShift } from './crs-datum.ts';
+import { pointEnvelope } from './envelope.ts';
 
 /**
  * Coordinate work of the interpolation engine. Input is WGS84 longitude/latitude (degrees); every distance is
@@ -157,16 +158,7 @@ export interface OutputGridOptions {
 
 /** The data's lon/lat envelope padded by `pad` of its span on each side (at least 0.01°), clipped to the globe. */
 function defaultBbox(dataLon: ArrayLike<number>, dataLat: ArrayLike<number>, pad: number): [number, number, number, number] {
-  let w = Infinity,
-    e = -Infinity,
-    s = Infinity,
-    n = -Infinity;
-  for (let i = 0; i < dataLon.length; i++) {
-    w = Math.min(w, dataLon[i]);
-    e = Math.max(e, dataLon[i]);
-    s = Math.min(s, dataLat[i]);
-    n = Math.max(n, dataLat[i]);
-  }
+  const { x0: w, x1: e, y0: s, y1: n } = pointEnvelope(dataLon, dataLat);
   const px = Math.max((e - w) * pad, 0.01);
   const py = Math.max((n - s) * pad, 0.01);
   return [Math.max(-180, w - px), Math.max(-90, s - py), Math.min(180, e + px), Math.min(90, n + py)];

@@ -1,4 +1,5 @@
 import { NeighbourIndex } from './neighbours.ts';
+import { pointEnvelope } from './envelope.ts';
 
 /**
  * Semivariogram models, the empirical semivariogram and its weighted-least-squares fit.
@@ -139,16 +140,7 @@ export function variogramSubset(
  * one closed at maxLag.
  */
 export function lagClasses(x: ArrayLike<number>, y: ArrayLike<number>, opts: EmpiricalOptions): { lagKm: number; maxLagKm: number; nLags: number } {
-  let x0 = Infinity,
-    x1 = -Infinity,
-    y0 = Infinity,
-    y1 = -Infinity;
-  for (let i = 0; i < x.length; i++) {
-    x0 = Math.min(x0, x[i]);
-    x1 = Math.max(x1, x[i]);
-    y0 = Math.min(y0, y[i]);
-    y1 = Math.max(y1, y[i]);
-  }
+  const { x0, x1, y0, y1 } = pointEnvelope(x, y);
   const maxLagKm = opts.maxLagKm ?? Math.hypot(x1 - x0, y1 - y0) / 2;
   const lagKm = opts.lagKm ?? maxLagKm / 15;
   if (!(maxLagKm > 0) || !(lagKm > 0)) throw new RangeError(`lag width and maximum lag must be > 0 km, got ${lagKm}, ${maxLagKm}`);

@@ -6,6 +6,7 @@
 import { MAX_RANK } from './grade.ts';
 import { ZONE_NAMES } from '../petrology/index.ts';
 import { empiricalVariogram, fitVariogram, type VariogramModel } from '../interp/variogram.ts';
+import { pointEnvelope } from '../interp/envelope.ts';
 
 /** Fewest decided samples, and fewest of the rarer class, for a boundary's own indicator variogram fit. */
 export const MIN_FIT_SAMPLES = 40;
@@ -78,16 +79,7 @@ export function chooseIndicatorVariograms(
   y: ArrayLike<number>,
   given: VariogramModel | null,
 ): (IndicatorVariogram | null)[] {
-  let x0 = Infinity,
-    x1 = -Infinity,
-    y0 = Infinity,
-    y1 = -Infinity;
-  for (let i = 0; i < x.length; i++) {
-    x0 = Math.min(x0, x[i]);
-    x1 = Math.max(x1, x[i]);
-    y0 = Math.min(y0, y[i]);
-    y1 = Math.max(y1, y[i]);
-  }
+  const { x0, x1, y0, y1 } = pointEnvelope(x, y);
   const diag = Math.hypot(x1 - x0, y1 - y0);
   const stats = sets.map((q) => {
     let ones = 0;
