@@ -5,7 +5,7 @@ import { groundCellWarning } from '../geodesy/ground-cell.ts';
 import { buildOutputGrid, converter, localProjectionFor, lonLatToLocalKm, WGS84_DEF, type LocalProjection } from './projection.ts';
 import { createGridRuntime, computeRows, type GridPlan, type RowStats } from './gridKernel.ts';
 import { crossValidateIdw, type CrossValidation } from './crossValidation.ts';
-import { faultsToLocalKm, mergeCoincident, requirePoints, searchSettings, validatePoints } from './pointPrep.ts';
+import { checkTargetCoordinates, faultsToLocalKm, mergeCoincident, requirePoints, searchSettings, validatePoints } from './pointPrep.ts';
 import { prepareKrigingPlan } from './trendSelect.ts';
 import { covariateAtCells, covariateAtLocal, extrapolationWarning, requireCovered, requireVarying, type ExternalCovariate } from './externalDrift.ts';
 import type { InterpolationOptions, PointData, PreparedInterpolation, VariogramReport } from './interpTypes.ts';
@@ -242,16 +242,7 @@ export function predictAtPoints(
   warnings: string[];
   timingsMs: Record<string, number>;
 } {
-  for (let i = 0; i < targets.ids.length; i++) {
-    const lon = targets.lon[i],
-      lat = targets.lat[i];
-    if (!(lon >= -180 && lon <= 180 && lat >= -90 && lat <= 90))
-      throw new InputError(
-        `target ${targets.ids[i]} has coordinates out of range`,
-        [{ feature: targets.ids[i], field: 'geometry', problem: 'expected lon in [-180, 180], lat in [-90, 90]' }],
-        'invalid_points',
-      );
-  }
+  checkTargetCoordinates(targets);
   const prep = prepareInterpolation(points, { ...opts, region: null }, false);
   const t = now();
   const rt = createGridRuntime({ ...prep.plan, grid: { ...prep.plan.grid, width: 1, height: 1 } });

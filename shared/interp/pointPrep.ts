@@ -8,6 +8,20 @@ import { DEFAULT_QUALITY_WEIGHTS, type InterpolationOptions, type PointData } fr
  * search settings. Coordinates: WGS84 lon/lat degrees in, local km (projection.ts) after projection.
  */
 
+/** Throws an InputError naming the first target point whose lon/lat is out of range (or not a number). */
+export function checkTargetCoordinates(targets: { ids: string[]; lon: ArrayLike<number>; lat: ArrayLike<number> }): void {
+  for (let i = 0; i < targets.ids.length; i++) {
+    const lon = targets.lon[i],
+      lat = targets.lat[i];
+    if (!(lon >= -180 && lon <= 180 && lat >= -90 && lat <= 90))
+      throw new InputError(
+        `target ${targets.ids[i]} has coordinates out of range`,
+        [{ feature: targets.ids[i], field: 'geometry', problem: 'expected lon in [-180, 180], lat in [-90, 90]' }],
+        'invalid_points',
+      );
+  }
+}
+
 /** Throws an InputError listing (up to 50) points with bad coordinates, values or uncertainties. */
 export function validatePoints(points: PointData, method: 'idw' | 'kriging'): void {
   const n0 = points.ids.length;

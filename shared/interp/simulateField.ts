@@ -11,6 +11,7 @@ import type { DriftKind } from './drift.ts';
 import type { DirectionChoice } from './directional-variogram.ts';
 import type { ExternalDriftGrid } from './externalDrift.ts';
 import { targetCovariate } from './interpolate.ts';
+import { checkTargetCoordinates } from './pointPrep.ts';
 
 /**
  * Conditional simulation of a point field, the library entry points behind `subtherm simulate`: the values are
@@ -285,16 +286,7 @@ export function simulateAtPoints(
   opts: SimulationOptions,
   targets: { ids: string[]; lon: ArrayLike<number>; lat: ArrayLike<number> },
 ): SimulationResult {
-  for (let i = 0; i < targets.ids.length; i++) {
-    const lon = targets.lon[i],
-      lat = targets.lat[i];
-    if (!(lon >= -180 && lon <= 180 && lat >= -90 && lat <= 90))
-      throw new InputError(
-        `target ${targets.ids[i]} has coordinates out of range`,
-        [{ feature: targets.ids[i], field: 'geometry', problem: 'expected lon in [-180, 180], lat in [-90, 90]' }],
-        'invalid_points',
-      );
-  }
+  checkTargetCoordinates(targets);
   const { prep, ns, report } = prepare(points, opts, false);
   const T = targets.ids.length;
   const tx = new Float64Array(T),

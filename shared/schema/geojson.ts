@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { InputError } from '../errors.ts';
 
 /** A WGS84 position [longitude, latitude] in degrees (RFC 7946 §3.1.1); a third (elevation) member is allowed. */
 export const lonLat = z
@@ -37,3 +38,14 @@ export interface FeatureCollection<G = { type: string; coordinates: unknown }, P
 export type PointGeometry = z.infer<typeof pointGeometry>;
 export type LineGeometry = z.infer<typeof lineStringGeometry> | z.infer<typeof multiLineStringGeometry>;
 export type PolygonGeometry = z.infer<typeof polygonGeometry> | z.infer<typeof multiPolygonGeometry>;
+
+/**
+ * The features array of a GeoJSON FeatureCollection (possibly empty), or a `bad_geojson` InputError with `message`
+ * and, on the field `type`, `problem`.
+ */
+export function collectionFeatures(input: unknown, message: string, problem: string): unknown[] {
+  const fc = input as { type?: unknown; features?: unknown } | null;
+  if (fc === null || typeof fc !== 'object' || fc.type !== 'FeatureCollection' || !Array.isArray(fc.features))
+    throw new InputError(message, [{ field: 'type', problem }], 'bad_geojson');
+  return fc.features as unknown[];
+}

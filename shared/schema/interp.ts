@@ -4,7 +4,7 @@ import { InputError, type InputProblem } from '../errors.ts';
 import { parseCsv } from '../io/csv.ts';
 import { coordinateColumns, rowProperties } from './csv-points.ts';
 import { parseFeatureCollection } from './features.ts';
-import { pointGeometry, lonLat } from './geojson.ts';
+import { collectionFeatures, pointGeometry, lonLat } from './geojson.ts';
 import { VARIOGRAM_MODELS, type VariogramModel, type VariogramModelName } from '../interp/variogram.ts';
 import type { PointData } from '../interp/interpolate.ts';
 import { TREND_KINDS, type TrendKind } from '../interp/drift.ts';
@@ -179,19 +179,7 @@ function pointsFromSites(input: unknown): { points: PointData; warnings: string[
 
 /** The features of a FeatureCollection, refused when not one or empty. */
 function nonEmptyFeatures(input: unknown, src: string): unknown[] {
-  if (
-    input === null ||
-    typeof input !== 'object' ||
-    (input as { type?: unknown }).type !== 'FeatureCollection' ||
-    !Array.isArray((input as { features?: unknown }).features)
-  ) {
-    throw new InputError(
-      `${src}: expected a GeoJSON FeatureCollection`,
-      [{ field: 'type', problem: 'expected "FeatureCollection" with a features array' }],
-      'bad_geojson',
-    );
-  }
-  const feats = (input as { features: unknown[] }).features;
+  const feats = collectionFeatures(input, `${src}: expected a GeoJSON FeatureCollection`, 'expected "FeatureCollection" with a features array');
   if (feats.length === 0)
     throw new InputError(`${src}: the collection is empty`, [{ field: 'features', problem: 'expected at least one feature' }], 'empty_dataset');
   return feats;

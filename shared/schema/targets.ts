@@ -3,7 +3,7 @@
  * (`--block`), read from GeoJSON (RFC 7946) with errors naming the feature and the field.
  */
 import { InputError, type InputProblem } from '../errors.ts';
-import { pointGeometry } from './geojson.ts';
+import { collectionFeatures, pointGeometry } from './geojson.ts';
 import type { BlockPolygon } from '../interp/blockKriging.ts';
 
 interface LooseFeature {
@@ -36,19 +36,7 @@ function isLonLatRings(rings: unknown): rings is number[][][] {
 
 /** Target points for `--at`: any Point features; id from properties.id, the feature id, or the position. */
 export function targetsFromGeoJson(input: unknown, source = 'targets'): { ids: string[]; lon: number[]; lat: number[] } {
-  if (
-    input === null ||
-    typeof input !== 'object' ||
-    (input as { type?: unknown }).type !== 'FeatureCollection' ||
-    !Array.isArray((input as { features?: unknown }).features)
-  ) {
-    throw new InputError(
-      `${source}: expected a GeoJSON FeatureCollection of points`,
-      [{ field: 'type', problem: 'expected "FeatureCollection"' }],
-      'bad_geojson',
-    );
-  }
-  const feats = (input as { features: unknown[] }).features;
+  const feats = collectionFeatures(input, `${source}: expected a GeoJSON FeatureCollection of points`, 'expected "FeatureCollection"');
   if (feats.length === 0) throw new InputError(`${source}: no target points`, [{ field: 'features', problem: 'expected at least one Point' }], 'empty_dataset');
   const ids: string[] = [],
     lon: number[] = [],
