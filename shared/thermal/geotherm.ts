@@ -87,14 +87,3 @@ export function columnWarnings(cm: CompiledModel, st: ColumnState): string[] {
     w.push(`1 + b·T ≤ 0 at ${st.validToKm} km: k(T) = k0/(1 + bT) is undefined there; no temperature is given below`);
   return w;
 }
-
-export {
-  ColumnState,
-  solveColumn,
-  columnTemperature,
-  columnHeatFlow,
-  columnIsothermDepth,
-  COLUMN_BAD_INPUT,
-  COLUMN_CONDUCTIVITY_UNDEFINED,
-  COLUMN_FLOW_EXHAUSTED,
-};
