@@ -60,6 +60,8 @@ export function lookupBlock(
     let g = 0,
       x = 0,
       h = 0;
+    // lookupHeatTable (heat-table.ts) inlined on purpose: this is the innermost loop of every realization × cell, and
+    // it is kept hand-inlined for speed; the arithmetic is the same, term for term, so totals do not change.
     if (q0 >= t.qLo && q0 <= t.qHi) {
       const ends = t.ends,
         vals = t.values,
