@@ -80,6 +80,15 @@ function formatValue(v: number): string {
   return a >= 100 ? v.toFixed(0) : a >= 10 ? v.toFixed(1) : v.toFixed(2);
 }
 
+/**
+ * Why a computed layer has no value under the pointer, from a shown area layer that gives a `reason` (e.g. "no data
+ * visible across faults: …", the run's no-data-across-faults layer): the reason's words before the colon, else "no data".
+ */
+function noDataReason(map: MapLibreMap, point: { x: number; y: number }): string {
+  const f = map.queryRenderedFeatures([point.x, point.y]).find((q) => typeof q.properties?.reason === 'string');
+  return f ? String(f.properties.reason).split(':')[0] : 'no data';
+}
+
 /** The readout element, fed by the pointer over the map. */
 export function cursorReadout(map: MapLibreMap): HTMLElement {
   const pos = el('span', { id: 'readout-position' }, 'move the pointer over the map');
@@ -95,9 +104,10 @@ export function cursorReadout(map: MapLibreMap): HTMLElement {
       val.textContent = '';
       return;
     }
+    const point = e.point;
     void rasterValue(top[1].tile, lng, lat, map.getZoom()).then((v) => {
       if (mine !== seq) return;
-      val.textContent = ` · ${top[1].title}: ${v === null ? 'no data' : `${formatValue(v)} ${top[1].units}`}`;
+      val.textContent = ` · ${top[1].title}: ${v === null ? noDataReason(map, point) : `${formatValue(v)} ${top[1].units}`}`;
       val.dataset.value = v === null ? '' : String(v);
     });
   });

@@ -98,7 +98,10 @@ export function vectorLayers(id: string, source: string, layer: RunLayer): Layer
       type: 'fill',
       source,
       filter: ['in', ['geometry-type'], ['literal', ['Polygon', 'MultiPolygon']]],
-      paint: { 'fill-color': fill, 'fill-opacity': 0.45 },
+      // The panel's opacity scales this base value (layers.ts), so the map stays readable beneath the area.
+      metadata: { baseOpacity: { 'fill-opacity': 0.4 } },
+      // No antialiasing: areas made of adjacent cell rectangles then show no seams between them.
+      paint: { 'fill-color': fill, 'fill-opacity': 0.4, 'fill-antialias': false },
     },
     {
       id,

@@ -217,7 +217,7 @@ async function drawRaster(map: MapLibreMap, run: RunState, layer: RunLayer, id: 
 function drawVector(map: MapLibreMap, run: RunState, layer: RunLayer, id: string, legendBox: HTMLElement): string[] {
   map.addSource(`${id}-src`, { type: 'geojson', data: new URL(layerUrl(run.id, layer, 'geojson'), window.location.origin).href });
   const specs = vectorLayers(id, `${id}-src`, layer);
-  for (const s of specs) map.addLayer({ ...s, metadata: { runLayer: layer.name } }, vectorBefore(map, layer));
+  for (const s of specs) map.addLayer({ ...s, metadata: { ...(s.metadata as object | undefined), runLayer: layer.name } }, vectorBefore(map, layer));
   const name = layer.name.toLowerCase();
   legendBox.replaceChildren(
     name.includes('isograd')

@@ -64,6 +64,21 @@ describe('the demo opens finished', { timeout: 900_000 }, () => {
     expect(shown.depth300).toBe('visible');
     expect(shown.isograds).toBe('visible');
     await page.screenshot({ path: join(SCREENSHOT_DIR, 'demo-finished-first-page.png') });
+    // The cells no site is visible from across the faults (the corner south-east of the Brask lineament) are drawn as
+    // an area from the start, and the readout says why the layer under the pointer has no value there
+    // (docs/sources.md#fault-barriers).
+    const behind = await page.evaluate(
+      (ll) => {
+        const m = window.subtherm!.map;
+        const p = m.project(ll);
+        const r = m.getCanvas().getBoundingClientRect();
+        return { x: r.left + p.x, y: r.top + p.y, areas: m.queryRenderedFeatures([p.x, p.y]).filter((f) => typeof f.properties?.reason === 'string').length };
+      },
+      [-127.03, -38.79] as [number, number],
+    );
+    expect(behind.areas).toBeGreaterThan(0);
+    await page.mouse.move(behind.x, behind.y);
+    await expect.poll(() => page.locator('#readout-value').textContent(), { timeout: 30_000 }).toContain(': no data visible across faults');
     // The depth-to-300 °C colours really cover the island's inner part.
     const cov = await rampCoverage(page, 'run-depth-300C', ISLAND);
     expect(cov.ramp, JSON.stringify(cov)).toBeGreaterThan(0.6);
