@@ -3,7 +3,7 @@ import { spawnSync } from 'node:child_process';
 import { mkdtempSync, writeFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
-import { runCliJson } from '../helpers/cli-run.ts';
+import { runCliJson } from '../helpers/cli.ts';
 import { anisotropyEstimateSchema } from '../../shared/schema/anisotropy.ts';
 import { prng } from '../helpers/prng.ts';
 import { requireGstat } from '../helpers/gstat.ts';
@@ -25,7 +25,7 @@ const site = (id: string, lon: number, lat: number, props: Record<string, unknow
   properties: { id, ...props },
 });
 
-const run = runCliJson;
+const run = (verb: string, args: string[]) => runCliJson([verb, ...args]);
 
 // Heat flow varying fast across azimuth 60° (a 25 km wave along the minor axis, azimuth 150°) and slowly along it:
 // stripes whose long axis runs at 60° clockwise from north. About 88 km × 111 km per degree at 38° S.

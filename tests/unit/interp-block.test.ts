@@ -1,4 +1,4 @@
-import { describe, it, expect, vi, afterAll } from 'vitest';
+import { describe, it, expect, afterAll } from 'vitest';
 import { Matrix, solve } from 'ml-matrix';
 import { mkdtempSync, writeFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
@@ -6,7 +6,7 @@ import { tmpdir } from 'node:os';
 import { BlockKriging, discretisePolygon } from '../../shared/interp/blockKriging.ts';
 import { createConditionalSimulator } from '../../shared/interp/simulation.ts';
 import { covariance, type VariogramModel } from '../../shared/interp/variogram.ts';
-import { main } from '../../server/cli/main.ts';
+import { runCliJson } from '../helpers/cli.ts';
 import { prng } from '../helpers/prng.ts';
 
 const r = prng(21);
@@ -113,20 +113,7 @@ describe('subtherm interpolate --block', () => {
     writeFileSync(p, JSON.stringify(body));
     return p;
   };
-  async function run(args: string[]) {
-    let out = '';
-    const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
-      out += String(s);
-      return true;
-    });
-    const err = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
-    try {
-      return { code: await main(['interpolate', ...args, '--json']), json: JSON.parse(out.trim().split('\n').pop() as string) };
-    } finally {
-      spy.mockRestore();
-      err.mockRestore();
-    }
-  }
+  const run = (args: string[]) => runCliJson(['interpolate', ...args]);
   it('one block per polygon by feature id, value between the data, sd > 0, units', async () => {
     const feats = [];
     for (let i = 0; i < 6; i++)

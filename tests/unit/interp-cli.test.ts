@@ -2,7 +2,7 @@ import { describe, it, expect, vi, afterEach, beforeAll, afterAll } from 'vitest
 import { mkdtempSync, writeFileSync, existsSync, rmSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
-import { main } from '../../server/cli/main.ts';
+import { runCliJson } from '../helpers/cli.ts';
 import { readGeoTiff } from '../../server/io/geotiff.ts';
 
 let dir = '';
@@ -21,22 +21,8 @@ const site = (id: string, lon: number, lat: number, props: Record<string, unknow
   properties: { id, ...props },
 });
 
-/** Runs the CLI in-process; returns exit code and the parsed JSON line. */
-async function run(args: string[]): Promise<{ code: number; json: Record<string, any> }> {
-  let out = '';
-  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
-    out += String(s);
-    return true;
-  });
-  const err = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
-  try {
-    const code = await main(['interpolate', ...args, '--json']);
-    return { code, json: JSON.parse(out.trim().split('\n').pop() as string) };
-  } finally {
-    spy.mockRestore();
-    err.mockRestore();
-  }
-}
+/** Runs `interpolate` in-process; returns exit code and the parsed JSON line. */
+const run = (args: string[]) => runCliJson(['interpolate', ...args]);
 
 const sites: unknown[] = [];
 beforeAll(() => {

@@ -14,6 +14,7 @@ import { mkdtempSync, writeFileSync, existsSync, rmSync, readFileSync } from 'no
 import { spawnSync } from 'node:child_process';
 import { join } from 'node:path';
 import { main } from '../../server/cli/main.ts';
+import { runCliJson } from '../helpers/cli.ts';
 import { readGeoTiff } from '../../server/io/geotiff.ts';
 
 const hasGdal = spawnSync('gdalinfo', ['--version']).status === 0;
@@ -26,20 +27,11 @@ const R = 11,
   T0 = 15,
   T_ISO = 300;
 
+/** Runs a verb in-process with `--json`; it must exit 0. */
 async function cli(args: string[]): Promise<Record<string, any>> {
-  let out = '';
-  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
-    out += String(s);
-    return true;
-  });
-  const err = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
-  try {
-    expect(await main([...args, '--json'])).toBe(0);
-    return JSON.parse(out.trim().split('\n').pop() as string) as Record<string, any>;
-  } finally {
-    spy.mockRestore();
-    err.mockRestore();
-  }
+  const { code, json } = await runCliJson(args);
+  expect(code).toBe(0);
+  return json;
 }
 const tif = async (p: string) => {
   const b = readFileSync(p);
