@@ -33,7 +33,8 @@ const layoutOf = (p: Page, layer: string) => p.evaluate((l) => window.subtherm!.
 const paintOf = (p: Page, layer: string, prop: string) =>
   p.evaluate(([l, pr]) => window.subtherm!.map.getPaintProperty(l, pr as 'circle-opacity'), [layer, prop] as const);
 
-describe('the map client: layers', () => {
+// Under load a software-WebGL page answers slowly: each step gets a wide timeout (the tests assert no wall time).
+describe('the map client: layers', { timeout: 300_000 }, () => {
   it('draws the demo data layers and shows each legend with units, and the caution', async () => {
     console.log(`first map of the demo (goto → idle) in ${firstMapMs} ms at 1280 × 800, headless chromium with SwiftShader`);
     const counts = await page.evaluate(() => {
