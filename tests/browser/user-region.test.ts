@@ -211,7 +211,10 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     expect(run.request.faults).toBeUndefined();
     const everything = JSON.stringify({ request: run.request, summary: run.summary });
     expect((run.request.model as { name?: string }).name).toBe('Velmar Rise crust');
-    expect((run.summary as { provenance: { modelName: string | null } }).provenance.modelName).toBe('Velmar Rise crust');
+    // The exported GeoTIFF's provenance (GDAL metadata) names the user's model, never the demo's.
+    const tif = Buffer.from(await (await fetch(`${server.url}/api/runs/${runId}/layers/depth-300C.tif`)).arrayBuffer()).toString('latin1');
+    expect(tif).toContain('Velmar Rise crust');
+    expect(tif).not.toContain('Orrindel');
     expect(everything).not.toContain('Orrindel');
     for (const [kind, id] of Object.entries(cfg.demo.datasets)) expect(everything.includes(`"${id}"`), `demo ${kind} data set ${id} in the run`).toBe(false);
     expect(run.layers.map((l) => l.name)).toEqual(expect.arrayContaining(['heat-flow', 'depth-300C']));
