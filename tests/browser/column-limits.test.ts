@@ -143,6 +143,7 @@ describe("a run's column plot draws the run's model", { timeout: 900_000 }, () =
     const errors: string[] = [];
     p.on('pageerror', (e) => errors.push(e.message));
     await p.goto(`${server.url}/?s=${state}`);
+    await p.waitForFunction(() => window.subtherm !== undefined, undefined, { timeout: 180_000 });
     await p.evaluate(() => window.subtherm!.ready);
     await expect.poll(() => p.evaluate(() => window.subtherm!.run?.run.id ?? null), { timeout: 180_000 }).toBe(id);
 
