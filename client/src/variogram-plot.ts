@@ -70,6 +70,26 @@ function rampColour(t: number): string {
   return `rgb(${c0.map((v, i) => Math.round(v + (c1[i] - v) * u)).join(',')})`;
 }
 
+/**
+ * Whether any point of the range ellipse (major range along the azimuth, minor across it, km) lies within the map's
+ * square frame of half-side `halfKm`: 720 points along it, the ellipse x = a·cos s·u + b·sin s·w with u the major
+ * axis's unit vector (east, north) and w the minor's.
+ */
+export function ellipseMeetsFrame(a: Pick<AnisotropyEstimateSummary, 'angleDeg' | 'majorRangeKm' | 'minorRangeKm'>, halfKm: number): boolean {
+  const t = (a.angleDeg * Math.PI) / 180;
+  const u = [Math.sin(t), Math.cos(t)],
+    w = [Math.cos(t), -Math.sin(t)];
+  for (let k = 0; k < 720; k++) {
+    const c = Math.cos((k * Math.PI) / 360) * a.majorRangeKm,
+      s = Math.sin((k * Math.PI) / 360) * a.minorRangeKm;
+    if (Math.abs(c * u[0] + s * w[0]) <= halfKm && Math.abs(c * u[1] + s * w[1]) <= halfKm) return true;
+  }
+  return false;
+}
+
+/** Map figures drawn so far: each gets its own clip-path id, unique in the page. */
+let clipCount = 0;
+
 /** The variogram map (north up, east right) with the fitted ellipse at the major and minor ranges. */
 function mapPlot(a: AnisotropyEstimateSummary): SVGSVGElement {
   const S = 170,
@@ -98,12 +118,17 @@ function mapPlot(a: AnisotropyEstimateSummary): SVGSVGElement {
   const half = m.cutoffKm + m.cellKm / 2;
   const scale = (S / 2 - pad) / half;
   const t = ((a.angleDeg - 90) * Math.PI) / 180;
+  // The ellipse is drawn at the fitted ranges and clipped to the map's frame: a range beyond the largest lag (e.g. a
+  // major range at its cap) runs out of the frame instead of over the labels.
+  const clipId = `vmap-frame-${++clipCount}`;
+  root.append(svg('defs', {}, svg('clipPath', { id: clipId }, svg('rect', { x: pad, y: pad, width: S - 2 * pad, height: S - 2 * pad }))));
   root.append(
     svg('ellipse', {
       cx: S / 2,
       cy: S / 2,
-      rx: Math.min(a.majorRangeKm, 4 * half) * scale,
+      rx: a.majorRangeKm * scale,
       ry: a.minorRangeKm * scale,
+      'clip-path': `url(#${clipId})`,
       transform: `rotate(${((t * 180) / Math.PI).toFixed(2)} ${S / 2} ${S / 2})`,
       fill: 'none',
       stroke: '#d4462c',
@@ -112,6 +137,7 @@ function mapPlot(a: AnisotropyEstimateSummary): SVGSVGElement {
     }),
   );
   root.append(svg('rect', { x: pad, y: pad, width: S - 2 * pad, height: S - 2 * pad, class: 'frame', fill: 'none' }));
+  if (!ellipseMeetsFrame(a, half)) root.dataset.ellipse = 'beyond';
   root.append(svg('text', { x: S / 2, y: pad - 5, 'text-anchor': 'middle', class: 'axis-title' }, 'N'));
   root.append(svg('text', { x: S - pad + 4, y: S / 2 + 4, class: 'axis-title' }, 'E'));
   root.append(svg('text', { x: S / 2, y: S - 4, 'text-anchor': 'middle' }, `± ${fmt(half, 0)} km`));
@@ -121,12 +147,16 @@ function mapPlot(a: AnisotropyEstimateSummary): SVGSVGElement {
 /** The anisotropy figure of a run panel: both plots and a caption with the angle, the ratio and the choice. */
 export function anisotropyFigure(a: AnisotropyEstimateSummary): HTMLElement {
   const cv = `leave-one-out RMSE ${fmt(a.cvRmse.anisotropic, 2)} with it, ${fmt(a.cvRmse.isotropic, 2)} without`;
+  const half = a.map.cutoffKm + a.map.cellKm / 2;
+  const beyond = ellipseMeetsFrame(a, half)
+    ? ''
+    : ` The range ellipse lies wholly beyond the map's ± ${fmt(half, 0)} km: even the minor range exceeds the lags mapped.`;
   const caption = el(
     'p',
     { class: 'note', id: 'anisotropy-caption' },
     `Estimated geometric anisotropy (${a.model} model): major axis at azimuth ${fmt(a.angleDeg, 1)}° (clockwise from north), minor/major range ratio ${fmt(a.ratio, 2)}; ranges ${fmt(a.majorRangeKm, 0)} and ${fmt(a.minorRangeKm, 0)} km. ` +
       `Directions ± ${fmt(a.toleranceDeg, 1)}°; weighted residual ${fmt(a.weightedResidual, 1)} against ${fmt(a.isotropicWeightedResidual, 1)} isotropic. ` +
-      `${a.limit !== null ? `${a.limit}. ` : ''}${a.used ? 'Used by the kriging' : 'Not used: the kriging stayed isotropic'} (${cv}). Right: the variogram map with the fitted range ellipse.`,
+      `${a.limit !== null ? `${a.limit}. ` : ''}${a.used ? 'Used by the kriging' : 'Not used: the kriging stayed isotropic'} (${cv}). Right: the variogram map with the fitted range ellipse, clipped to its frame.${beyond}`,
   );
   return el('figure', { class: 'variogram anisotropy' }, el('div', { class: 'aniso-plots' }, directionalPlot(a), mapPlot(a)), caption);
 }

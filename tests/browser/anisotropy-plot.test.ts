@@ -8,6 +8,7 @@ import { join } from 'node:path';
 import type { Browser, Page } from 'playwright-core';
 import { launchBrowser, startServerProcess, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
 import { runSummarySchema } from '../../shared/schema/run.ts';
+import { decodePngRgb } from '../helpers/png.ts';
 
 let server: RunningServer;
 let browser: Browser;
@@ -60,6 +61,43 @@ describe('the run panel shows the estimated anisotropy', () => {
     const map = page.locator('svg.variogram-map');
     expect(await map.locator('rect.vmap-cell').count()).toBe(est.map.gamma.filter((g) => g !== null).length);
     expect(await map.locator('ellipse.aniso-ellipse').count()).toBe(1);
+    // The range ellipse is clipped to the map's frame: its clip path is the frame's rectangle, and in a screenshot of
+    // the map no pixel of its colour (#d4462c) lies outside the frame. The same map with the clip path removed shows
+    // where the ellipse would run (the check fails if the fitted ellipse never leaves the frame), and inside the frame
+    // the clipped map draws the same pixels.
+    const clip = await map.evaluate((m) => {
+      const e = m.querySelector('ellipse.aniso-ellipse')!;
+      const id = /^url\(#(.+)\)$/.exec(e.getAttribute('clip-path') ?? '')?.[1];
+      const r = id === undefined ? null : m.querySelector(`clipPath[id="${id}"] rect`);
+      const f = m.querySelector('rect.frame')!;
+      const box = (x: Element) => ['x', 'y', 'width', 'height'].map((k) => Number(x.getAttribute(k)));
+      return { clip: r === null ? null : box(r), frame: box(f), size: Number(m.getAttribute('width')) };
+    });
+    expect(clip.clip).toEqual(clip.frame);
+    const ellipsePixels = async () => {
+      const png = decodePngRgb(await map.screenshot({ timeout: 180_000 }));
+      const k = png.width / clip.size;
+      const [fx, fy, fw, fh] = clip.frame.map((v) => v * k);
+      let inside = 0,
+        outside = 0;
+      for (let py = 0; py < png.height; py++)
+        for (let px = 0; px < png.width; px++) {
+          const o = 3 * (py * png.width + px);
+          if (Math.hypot(png.rgb[o] - 0xd4, png.rgb[o + 1] - 0x46, png.rgb[o + 2] - 0x2c) > 60) continue;
+          // A pixel straddling the frame's edge counts as inside (antialiasing).
+          if (px >= fx - 1 && px <= fx + fw + 1 && py >= fy - 1 && py <= fy + fh + 1) inside++;
+          else outside++;
+        }
+      return { inside, outside };
+    };
+    const clipped = await ellipsePixels();
+    await map.evaluate((m) => m.querySelector('ellipse.aniso-ellipse')!.removeAttribute('clip-path'));
+    const unclipped = await ellipsePixels();
+    expect(unclipped.outside, JSON.stringify({ clipped, unclipped })).toBeGreaterThan(20);
+    expect(clipped.outside, JSON.stringify({ clipped, unclipped })).toBe(0);
+    expect(Math.abs(clipped.inside - unclipped.inside), JSON.stringify({ clipped, unclipped })).toBeLessThanOrEqual(4);
+    const beyond = (await page.locator('#anisotropy-caption').textContent())!.includes('lies wholly beyond');
+    expect(beyond, JSON.stringify({ clipped, unclipped })).toBe(unclipped.inside === 0);
     const caption = (await page.locator('#anisotropy-caption').textContent())!;
     expect(caption).toContain(`azimuth ${est.angleDeg.toFixed(1)}°`);
     expect(caption).toContain(`ratio ${est.ratio.toFixed(2)}`);
