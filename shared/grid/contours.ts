@@ -111,6 +111,7 @@ function segmentsByLevel(values: ArrayLike<number>, width: number, height: numbe
         if (sorted[m] > lo) k1 = m;
         else k0 = m + 1;
       }
+      if (k0 >= sorted.length || sorted[k0] > hi) continue; // no level crosses this square
       const side = [2 * i, 2 * (i + 1) + 1, 2 * (i + width), 2 * i + 1]; // top, right, bottom, left
       for (let k = k0; k < sorted.length && sorted[k] <= hi; k++) {
         const L = sorted[k];
@@ -147,21 +148,25 @@ function sidePoint(values: ArrayLike<number>, width: number, id: number, L: numb
  * chains first, from an end whose side crossing has no second segment; then the closed loops.
  */
 function joinSegments(s: readonly number[], point: (id: number) => [number, number]): IndexLine[] {
-  // Each side crossing joins at most two segments (its two squares); link them.
-  const first = new Map<number, number>(),
-    second = new Map<number, number>();
-  for (let j = 0; j < s.length; j++) {
-    if (first.has(s[j])) second.set(s[j], j);
-    else first.set(s[j], j);
+  // Each side crossing joins at most two segments (its two squares): link the two ends that share it. The ends are
+  // sorted by crossing (key id·m + end, exact in a double for any grid that fits in memory) and equal neighbours paired.
+  const m = s.length;
+  const partner = new Int32Array(m).fill(-1);
+  const keys = new Float64Array(m);
+  for (let j = 0; j < m; j++) keys[j] = s[j] * m + j;
+  keys.sort();
+  for (let k = 0; k + 1 < m; k++) {
+    const ia = Math.floor(keys[k] / m),
+      ib = Math.floor(keys[k + 1] / m);
+    if (ia !== ib) continue;
+    const ja = keys[k] - ia * m,
+      jb = keys[k + 1] - ib * m;
+    partner[ja] = jb;
+    partner[jb] = ja;
+    k++;
   }
-  const used = new Uint8Array(s.length >> 1);
+  const used = new Uint8Array(m >> 1);
   const lines: IndexLine[] = [];
-  const other = (id: number, j: number) => {
-    const a = first.get(id)!,
-      b = second.get(id);
-    const n = a === j ? b : a;
-    return n === undefined || n === j ? -1 : n;
-  };
   const trace = (j0: number, startEnd: number) => {
     // Walk from segment j0, entering at its end `startEnd` (0 or 1), until the chain ends or closes.
     const ids: number[] = [];
@@ -172,7 +177,7 @@ function joinSegments(s: readonly number[], point: (id: number) => [number, numb
       used[j] = 1;
       const exit = s[2 * j + (1 - e)];
       ids.push(exit);
-      const n = other(exit, 2 * j + (1 - e));
+      const n = partner[2 * j + (1 - e)];
       if (n < 0) break;
       const nj = n >> 1;
       if (used[nj]) break;
@@ -188,7 +193,7 @@ function joinSegments(s: readonly number[], point: (id: number) => [number, numb
     if (line.length >= 2) lines.push(line);
   };
   for (let j = 0; j < s.length; j++) {
-    if (used[j >> 1] || second.has(s[j])) continue;
+    if (used[j >> 1] || partner[j] >= 0) continue;
     trace(j >> 1, j & 1);
   }
   for (let j = 0; j < used.length; j++) if (!used[j]) trace(j, 0);
