@@ -52,8 +52,8 @@ describe('thermal grids by a table over heat flow, against the closed forms', ()
     (q0: number, z: number) => 10 + ((q0 - 25) * z) / 2.5 + (250 / 2.5) * (1 - Math.exp(-z / 10)),
     (q0: number, z: number) => ((1 + 1.5e-3 * 10) * Math.exp((1.5e-3 * (q0 * z - (z * z) / 2)) / 3) - 1) / 1.5e-3,
   ];
-  const W = 360,
-    H = 360;
+  const W = 240,
+    H = 240;
   // Heat flow 45–95 mW/m² over the grid (every cell its own value), 60 mW/m² exactly in cell 0; left half zone 0.
   const q = heatFlowGrid(W, H, (c, r) => (c === 0 && r === 0 ? 60 : 45 + (50 * (r * W + c)) / (W * H)));
   const zones = new Uint16Array(W * H);
@@ -77,26 +77,28 @@ describe('thermal grids by a table over heat flow, against the closed forms', ()
   });
 
   it('gives T(5, 10 km) and the 150 / 300 °C depths of every cell within the stated tolerance of the closed form', () => {
+    // Worst excess over tolerance + Float32 rounding, over every cell (one assertion each, not one per cell).
     let worstT = 0,
-      worstZ = 0;
+      worstZ = 0,
+      excess = -Infinity;
     for (let i = 0; i < W * H; i++) {
       const T = (z: number) => closed[zones[i]](q.values[i], z);
-      [5, 10].forEach((z, k) => {
-        const e = Math.abs(out.temperatureC[k][i] - T(z));
+      for (let k = 0; k < 2; k++) {
+        const t = T([5, 10][k]);
+        const e = Math.abs(out.temperatureC[k][i] - t);
         worstT = Math.max(worstT, e);
-        expect(e).toBeLessThanOrEqual(TABLE_TOLERANCE.temperatureC + halfUlp(T(z)) + 1e-9);
-      });
-      [150, 300].forEach((t, k) => {
-        const z = rootOf(T, t);
-        const e = Math.abs(out.isothermDepthKm[k][i] - z);
-        worstZ = Math.max(worstZ, e);
-        expect(e).toBeLessThanOrEqual(TABLE_TOLERANCE.depthKm + halfUlp(z) + 1e-9);
-      });
+        excess = Math.max(excess, e - TABLE_TOLERANCE.temperatureC - halfUlp(t));
+        const z = rootOf(T, [150, 300][k]);
+        const d = Math.abs(out.isothermDepthKm[k][i] - z);
+        worstZ = Math.max(worstZ, d);
+        excess = Math.max(excess, d - TABLE_TOLERANCE.depthKm - halfUlp(z));
+      }
     }
+    expect(excess).toBeLessThanOrEqual(1e-9);
     // The cubic rule on these smooth columns is far inside the tolerance: Float32 rounding dominates.
     expect(worstT).toBeLessThan(1e-4);
     expect(worstZ).toBeLessThan(1e-5);
-  });
+  }, 300_000);
 
   it('reproduces the published check values in a cell at q0 = 60 mW/m²', () => {
     // docs/sources.md#geotherm-exponential [derived]: 150 / 300 °C at 6.5627 / 15.1426 km; T(5, 10 km) = 119.347, 213.212 °C.
