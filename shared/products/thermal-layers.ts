@@ -12,7 +12,7 @@ import { BALANCE, DEPTH, EMBER, type Ramp } from '../grid/ramps.ts';
 import { productGrid, type ThermalGridBuffers } from './thermal-grids.ts';
 import type { SummaryGrids, UncertaintyGrids } from './uncertainty.ts';
 import { faciesLegend } from './facies-grid.ts';
-import { layerStats, type LayerStats } from './stats.ts';
+import type { LayerStats } from './stats.ts';
 import {
   BASE_HEAT_FLOW,
   INCONSISTENT,
@@ -80,6 +80,8 @@ export interface LayerContext {
   method: string;
   toLonLat: (x: number, y: number) => [number, number];
   add: (l: Omit<ProductLayer, 'stats'>) => void;
+  /** The statistics of a layer's values (layerStats with a shared scratch buffer). */
+  stats: (values: Float32Array) => LayerStats;
 }
 
 /** The Monte Carlo pass as the layers read it. */
@@ -197,7 +199,7 @@ export async function temperatureLayers(c: LayerContext, mc: MonteCarloGrids | n
     const g = productGrid(c.heatFlow, c.out.temperatureC[k], '°C');
     const pk = mc?.pct.temperatures[k];
     const legend = sharedRampLegend(EMBER, '°C', pk ? [g.values, pk.p10, pk.p50, pk.p90, pk.mean] : [g.values]);
-    const st = layerStats(g.values);
+    const st = c.stats(g.values);
     const interval =
       o.contourIntervalC === null ? null : (o.contourIntervalC ?? (st.min !== null && st.max !== null ? niceContourInterval(st.min, st.max) : null));
     const contours = interval === null ? undefined : contourGrid(g, { interval, units: '°C', toLonLat: c.toLonLat });

@@ -10,19 +10,30 @@
 //     nearest-neighbour-limited inverse distance (`gdal_grid -a invdistnn:power=2:max_points=16:radius=1`, 1° ≈ 100 km
 //     search) on the same sites, on a 500 × 500 grid scaled ×64 by cells, as a reference for a 16-neighbour grid
 //     pass (an IDW, not kriging).
-//     FORMATS_BENCH_SITES and FORMATS_BENCH_CONT_SIZE shrink it; FORMATS_BENCH_PARTS=cog or =continental picks one.
+//  3. The isotherm products of that continental heat-flow grid: `subtherm isotherms --heat-flow continental.tif
+//     --model fixtures/demo/model.json --depths-km 5,10` (depth to 300 and 500 °C, temperature at 5 and 10 km, facies,
+//     base heat flow, solidus and melt-onset depths, contours, every grid a COG) as its own process under
+//     `/usr/bin/time -v`: wall, CPU, peak resident memory and the verb's stage times. Then 20,000 seeded cells are
+//     solved one by one in this process (the per-cell solve, no heat-flow table) and compared with the written
+//     grids: the largest differences and the per-cell time scaled to the whole grid.
+//     FORMATS_BENCH_SITES and FORMATS_BENCH_CONT_SIZE shrink it; FORMATS_BENCH_PARTS=cog, =continental or
+//     =isotherms picks one; FORMATS_BENCH_HEAT_FLOW=G.tif gives the isotherms part its grid (no kriging run).
 import { mkdtempSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { spawnSync } from 'node:child_process';
 import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { writeGeoTiffFile, writeGeoTiff } from '../../server/io/geotiff.ts';
+import { readFileSync } from 'node:fs';
+import { readGeoTiff, writeGeoTiffFile, writeGeoTiff } from '../../server/io/geotiff.ts';
+import { parseModelText } from '../../shared/products/model-input.ts';
+import { computeThermalGrids } from '../../shared/products/thermal-grids.ts';
+import { compileModel, nominalModel } from '../../shared/thermal/index.ts';
 import { cogThreads } from '../../server/io/cog.ts';
 import { prng } from '../helpers/prng.ts';
 
 const out = (s: string) => process.stdout.write(s + '\n');
 const dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'formats-bench-'));
 const size = Number(process.env.FORMATS_BENCH_SIZE ?? 4000);
-const parts = process.env.FORMATS_BENCH_PARTS ?? 'cog,continental';
+const parts = process.env.FORMATS_BENCH_PARTS ?? 'cog,continental,isotherms';
 const load = () =>
   loadavg()
     .map((v) => v.toFixed(1))
@@ -30,7 +41,9 @@ const load = () =>
 
 try {
   if (parts.includes('cog')) await cogWrite();
-  if (parts.includes('continental')) continental();
+  const given = process.env.FORMATS_BENCH_HEAT_FLOW;
+  const heatFlow = parts.includes('continental') || (parts.includes('isotherms') && given === undefined) ? continental() : given;
+  if (parts.includes('isotherms')) await isotherms(heatFlow!);
 } finally {
   rmSync(dir, { recursive: true, force: true });
 }
@@ -97,7 +110,8 @@ function timeField(report: string, name: string): number {
   return parts.reduce((a, v) => a * 60 + v, 0);
 }
 
-function continental(): void {
+/** Runs the continental kriging; returns the heat-flow COG it wrote. */
+function continental(): string {
   const nSites = Number(process.env.FORMATS_BENCH_SITES ?? 100_000);
   const cells = Number(process.env.FORMATS_BENCH_CONT_SIZE ?? 4000);
   // Invented sites over 36° × 30° of open ocean (a smooth regional field, a shorter wave and noise), seeded.
@@ -175,11 +189,85 @@ function continental(): void {
   const gWall = (performance.now() - g0) / 1000;
   if (g.status !== 0) {
     out(`  gdal_grid reference failed: ${g.stderr.trim()}`);
-    return;
+    return tif;
   }
   const [gu, gs] = g.stderr.trim().split(/\s+/).slice(-2).map(Number);
   const scale = (cells * cells) / (ref * ref);
   out(
     `  reference: gdal_grid invdistnn (16 neighbours, one thread) ${ref} × ${ref}: ${gWall.toFixed(1)} s wall, ${(gu + gs).toFixed(1)} s CPU; ×${scale.toFixed(0)} by cells → ${(gWall * scale).toFixed(0)} s wall, ${((gu + gs) * scale).toFixed(0)} s CPU for ${cells} × ${cells} (ours, whole run with kriging sd: ${cpu.toFixed(0)} s CPU)`,
+  );
+  return tif;
+}
+
+/** The isotherm products of a heat-flow grid, timed as their own process, then checked against the per-cell solve. */
+async function isotherms(heatFlowTif: string): Promise<void> {
+  const modelPath = new URL('../../fixtures/demo/model.json', import.meta.url).pathname;
+  const outDir = join(dir, 'isotherms');
+  const bin = new URL('../../bin/subtherm.mjs', import.meta.url).pathname;
+  const load0 = load();
+  const args = ['isotherms', '--heat-flow', heatFlowTif, '--model', modelPath, '--depths-km', '5,10', '--out-dir', outDir, '--json'];
+  const r = spawnSync('/usr/bin/time', ['-v', process.execPath, bin, ...args], { encoding: 'utf8', maxBuffer: 64 * 2 ** 20 });
+  if (r.status !== 0) throw new Error(`isotherms failed: ${r.stderr}`);
+  const body = JSON.parse(r.stdout) as { timingsMs: Record<string, number>; grid: { width: number; height: number } };
+  const wall = timeField(r.stderr, 'Elapsed (wall clock) time (h:mm:ss or m:ss)');
+  const cpu = timeField(r.stderr, 'User time (seconds)') + timeField(r.stderr, 'System time (seconds)');
+  const rssGiB = timeField(r.stderr, 'Maximum resident set size (kbytes)') / 2 ** 20;
+  const t = body.timingsMs;
+  const stages = ['read', 'prepare', 'thermal', 'contours', 'write']
+    .filter((k) => t[k] !== undefined)
+    .map((k) => `${k} ${(t[k] / 1000).toFixed(1)} s`)
+    .join(', ');
+  const { width, height } = body.grid;
+  out(`Isotherm products of a ${width} × ${height} heat-flow grid (depth to 300/500 °C, temperature at 5/10 km, facies, limits, contours; every grid a COG):`);
+  out(
+    `  wall ${wall.toFixed(1)} s, CPU ${cpu.toFixed(1)} s, peak resident ${rssGiB.toFixed(2)} GiB (target ≤ 1.5); load average ${load0} before, ${load()} after`,
+  );
+  out(`  stages: ${stages}`);
+  await perCellCheck(heatFlowTif, modelPath, outDir, width * height);
+}
+
+/** 20,000 seeded cells solved one by one, against the written grids: largest differences and the per-cell time. */
+async function perCellCheck(heatFlowTif: string, modelPath: string, outDir: string, cells: number): Promise<void> {
+  const hf = (await readGeoTiff(readFileSync(heatFlowTif))).grid;
+  const rnd = prng(5);
+  const sample = Array.from({ length: Math.min(20_000, cells) }, () => Math.floor(rnd() * cells));
+  const model = compileModel(nominalModel(parseModelText(readFileSync(modelPath, 'utf8'), modelPath).model), { maxDepthKm: 60 });
+  const values = Float32Array.from(sample, (i) => hf.values[i]);
+  const row = { ...hf, width: sample.length, height: 1, values };
+  const t0 = performance.now();
+  const exact = computeThermalGrids({
+    heatFlow: row,
+    models: [model],
+    isothermsC: [300, 500],
+    depthsKm: [5, 10],
+    faciesDepthKm: 10,
+    maxDepthKm: 60,
+    tableNodes: null,
+  });
+  const perCell = (performance.now() - t0) / sample.length;
+  const grids: [string, Float32Array, string][] = [
+    ['depth-300C', exact.isothermDepthKm[0], 'km'],
+    ['depth-500C', exact.isothermDepthKm[1], 'km'],
+    ['temperature-5km', exact.temperatureC[0], '°C'],
+    ['temperature-10km', exact.temperatureC[1], '°C'],
+    ['melt-onset', exact.meltOnsetKm!, 'km'],
+    ['solidus-depth', exact.solidusDepthKm!, 'km'],
+  ];
+  const diffs: string[] = [];
+  for (const [name, e, units] of grids) {
+    const written = (await readGeoTiff(readFileSync(join(outDir, `${name}.tif`)))).grid.values;
+    let worst = 0,
+      missing = 0;
+    sample.forEach((i, k) => {
+      const a = written[i],
+        b = e[k];
+      if (Number.isNaN(a) !== Number.isNaN(b)) missing++;
+      else if (!Number.isNaN(a)) worst = Math.max(worst, Math.abs(a - b));
+    });
+    diffs.push(`${name} ${worst.toExponential(1)} ${units}${missing > 0 ? ` (${missing} cells missing in one only)` : ''}`);
+  }
+  out(`  against the per-cell solve at ${sample.length.toLocaleString('en')} seeded cells: largest difference ${diffs.join(', ')}`);
+  out(
+    `  per-cell solve ${(perCell * 1000).toFixed(0)} µs a cell here → ${((perCell * cells) / 1000).toFixed(0)} s for the whole grid on one thread (the table's thermal stage above)`,
   );
 }
