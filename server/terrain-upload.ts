@@ -5,19 +5,13 @@
  * signature (415), a readable header with georeferencing and one band (422), pixel count (413), and that the strips
  * or tiles it claims lie inside the file and, uncompressed, hold every pixel the header claims (422).
  */
-import { fromArrayBuffer } from 'geotiff';
 import { InputError } from '../shared/errors.ts';
 import type { Grid } from '../shared/grid/grid.ts';
 import { converter, kmPerDegree, loadCrsDefinition, metresPerUnit, WGS84_DEF } from '../shared/interp/projection.ts';
-import { readGeoTiff } from './io/geotiff.ts';
+import { epsgOf, firstImage, georeferencing, hasTag, readGeoTiff, tagValue, type GeoTiffImage } from './io/geotiff.ts';
 
 /** Most cells a terrain may have (source or reprojected): 40 million (160 MB of Float32). */
 export const MAX_TERRAIN_CELLS = 40_000_000;
-
-interface Dir {
-  loadValue(k: string): Promise<unknown>;
-  hasTag(k: string): boolean;
-}
 
 const bad = (message: string, problem: string, code = 'bad_geotiff') => new InputError(message, [{ field: '(body)', problem }], code);
 
@@ -44,8 +38,7 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
   }
   let image;
   try {
-    const ab = bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer;
-    image = await (await fromArrayBuffer(ab)).getImage(0);
+    image = await firstImage(bytes);
   } catch (e) {
     throw bad(`the terrain GeoTIFF's header cannot be read: ${e instanceof Error ? e.message : String(e)}`, 'a readable TIFF header');
   }
@@ -65,32 +58,29 @@ export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promi
   return { width, height, crs: await demCrs(image) };
 }
 
-type TiffImage = Awaited<ReturnType<Awaited<ReturnType<typeof fromArrayBuffer>>['getImage']>>;
-
 /**
  * The strips or tiles a DEM's header claims: as many as its size needs, each inside the file, and (uncompressed)
  * holding every pixel (422 truncated_geotiff otherwise).
  */
-async function checkPixelBlocks(image: TiffImage, bytes: Uint8Array): Promise<void> {
+async function checkPixelBlocks(image: GeoTiffImage, bytes: Uint8Array): Promise<void> {
   const width = image.getWidth(),
     height = image.getHeight();
-  const dir = image.fileDirectory as unknown as Dir;
-  const tiled = dir.hasTag('TileOffsets');
-  const offsets = (await dir.loadValue(tiled ? 'TileOffsets' : 'StripOffsets')) as ArrayLike<number> | undefined;
-  const counts = (await dir.loadValue(tiled ? 'TileByteCounts' : 'StripByteCounts')) as ArrayLike<number> | undefined;
+  const tiled = hasTag(image, 'TileOffsets');
+  const offsets = (await tagValue(image, tiled ? 'TileOffsets' : 'StripOffsets')) as ArrayLike<number> | undefined;
+  const counts = (await tagValue(image, tiled ? 'TileByteCounts' : 'StripByteCounts')) as ArrayLike<number> | undefined;
   if (!offsets || !counts || offsets.length !== counts.length)
     throw bad('the terrain GeoTIFF has no pixel data directory (strip or tile offsets and byte counts)', 'strip or tile offsets and byte counts');
   let expectedBlocks: number;
   let rowsPerBlock: number,
     blockWidth = width;
   if (tiled) {
-    const tw = Number(await dir.loadValue('TileWidth')),
-      th = Number(await dir.loadValue('TileLength'));
+    const tw = Number(await tagValue(image, 'TileWidth')),
+      th = Number(await tagValue(image, 'TileLength'));
     expectedBlocks = Math.ceil(width / tw) * Math.ceil(height / th);
     rowsPerBlock = th;
     blockWidth = tw;
   } else {
-    const rps = dir.hasTag('RowsPerStrip') ? Number(await dir.loadValue('RowsPerStrip')) : height;
+    const rps = hasTag(image, 'RowsPerStrip') ? Number(await tagValue(image, 'RowsPerStrip')) : height;
     rowsPerBlock = Math.min(height, rps > 0 ? rps : height);
     expectedBlocks = Math.ceil(height / rowsPerBlock);
   }
@@ -113,7 +103,7 @@ async function checkPixelBlocks(image: TiffImage, bytes: Uint8Array): Promise<vo
     }
     held += counts[i];
   }
-  const compression = dir.hasTag('Compression') ? Number(await dir.loadValue('Compression')) : 1;
+  const compression = hasTag(image, 'Compression') ? Number(await tagValue(image, 'Compression')) : 1;
   if (compression === 1) {
     const need = tiled ? expectedBlocks * blockWidth * rowsPerBlock * image.getBytesPerPixel() : width * height * image.getBytesPerPixel();
     if (held < need) {
@@ -127,20 +117,13 @@ async function checkPixelBlocks(image: TiffImage, bytes: Uint8Array): Promise<vo
 }
 
 /** The DEM's CRS as EPSG:nnnn: georeferenced, EPSG:4326 or a projected code with an offline definition (422). */
-async function demCrs(image: TiffImage): Promise<string> {
-  let origin: number[];
-  try {
-    origin = image.getOrigin();
-    image.getResolution();
-  } catch {
-    throw bad('the terrain has no georeferencing', 'a tie point and pixel scale (or a transformation)');
-  }
-  void origin;
-  const keys = (image.getGeoKeys() ?? {}) as Record<string, unknown>;
-  const code = keys.ProjectedCSTypeGeoKey ?? keys.GeographicTypeGeoKey;
-  if (typeof code !== 'number' || code === 32767)
+async function demCrs(image: GeoTiffImage): Promise<string> {
+  if (georeferencing(image) === null) throw bad('the terrain has no georeferencing', 'a tie point and pixel scale (or a transformation)');
+  const epsg = epsgOf(image);
+  if (epsg === null)
     throw bad('the terrain has no EPSG coordinate system', 'EPSG:4326 or a projected CRS with an EPSG code (ProjectedCSTypeGeoKey)', 'bad_crs');
-  if (keys.ProjectedCSTypeGeoKey === undefined && code !== 4326)
+  const code = epsg.code;
+  if (!epsg.projected && code !== 4326)
     throw bad(`the terrain is in geographic EPSG:${code}; use EPSG:4326 (WGS84) or a projected CRS`, 'EPSG:4326 or a projected EPSG code', 'bad_crs');
   const crs = `EPSG:${code}`;
   await loadCrsDefinition(crs).catch((e: unknown) => {

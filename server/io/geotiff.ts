@@ -136,11 +136,51 @@ interface Header {
   statistics: { min: number; max: number } | null;
 }
 
-async function tagText(image: Image, tag: string): Promise<string> {
+/** A decoded TIFF image (geotiff.js), as the header checks read it. */
+export type GeoTiffImage = Image;
+
+/** The first image of an in-memory TIFF, nothing of its pixels decoded; throws what geotiff.js throws. */
+export async function firstImage(buffer: ArrayBuffer | Uint8Array): Promise<Image> {
+  const ab = buffer instanceof Uint8Array ? (buffer.buffer.slice(buffer.byteOffset, buffer.byteOffset + buffer.byteLength) as ArrayBuffer) : buffer;
+  return (await fromArrayBuffer(ab)).getImage(0);
+}
+
+/** Whether the image's directory has a TIFF tag. */
+export function hasTag(image: Image, tag: string): boolean {
   const dir = image.fileDirectory as unknown as Dir;
-  if (typeof dir.hasTag === 'function' && !dir.hasTag(tag)) return '';
+  return typeof dir.hasTag !== 'function' || dir.hasTag(tag);
+}
+
+/** A TIFF tag's value (undefined where the directory cannot give it). */
+export async function tagValue(image: Image, tag: string): Promise<unknown> {
+  const dir = image.fileDirectory as unknown as Dir;
+  return typeof dir.loadValue === 'function' ? dir.loadValue(tag) : undefined;
+}
+
+/** Origin and cell size from the tie point and pixel scale (or transformation); null when the image has neither. */
+export function georeferencing(image: Image): { origin: number[]; resolution: number[] } | null {
   try {
-    const v = typeof dir.loadValue === 'function' ? await dir.loadValue(tag) : undefined;
+    return { origin: image.getOrigin(), resolution: image.getResolution() };
+  } catch {
+    return null;
+  }
+}
+
+/**
+ * The EPSG code of the image's GeoKeys (ProjectedCSTypeGeoKey, else GeographicTypeGeoKey) and whether it is a
+ * projected one; null without a code or with a user-defined one (32767).
+ */
+export function epsgOf(image: Image): { code: number; projected: boolean } | null {
+  const keys = (image.getGeoKeys() ?? {}) as Record<string, unknown>;
+  const code = keys.ProjectedCSTypeGeoKey ?? keys.GeographicTypeGeoKey;
+  if (typeof code !== 'number' || code === 32767) return null;
+  return { code, projected: keys.ProjectedCSTypeGeoKey !== undefined };
+}
+
+async function tagText(image: Image, tag: string): Promise<string> {
+  if (!hasTag(image, tag)) return '';
+  try {
+    const v = await tagValue(image, tag);
     return typeof v === 'string' ? v.replace(/\0+$/, '') : '';
   } catch {
     return '';
@@ -151,20 +191,16 @@ async function tagText(image: Image, tag: string): Promise<string> {
 async function readHeader(image: Image, src: string): Promise<Header> {
   const width = image.getWidth(),
     height = image.getHeight();
-  let origin: number[], res: number[];
-  try {
-    origin = image.getOrigin();
-    res = image.getResolution();
-  } catch {
+  const geo = georeferencing(image);
+  if (geo === null)
     throw new InputError(
       `${src} has no georeferencing`,
       [{ feature: src, field: 'ModelTiepoint/ModelPixelScale', problem: 'expected a georeferenced GeoTIFF (tie point and pixel scale, or a transformation)' }],
       'bad_geotiff',
     );
-  }
-  const keys = (image.getGeoKeys() ?? {}) as Record<string, unknown>;
-  const code = keys.ProjectedCSTypeGeoKey ?? keys.GeographicTypeGeoKey;
-  if (typeof code !== 'number' || code === 32767)
+  const { origin, resolution: res } = geo;
+  const epsg = epsgOf(image);
+  if (epsg === null)
     throw new InputError(
       `${src} has no EPSG coordinate system`,
       [{ feature: src, field: 'GeoKeys', problem: 'expected ProjectedCSTypeGeoKey or GeographicTypeGeoKey with an EPSG code' }],
@@ -207,7 +243,7 @@ async function readHeader(image: Image, src: string): Promise<Header> {
   const smin = Number(items.get('STATISTICS_MINIMUM#0') ?? NaN),
     smax = Number(items.get('STATISTICS_MAXIMUM#0') ?? NaN);
   return {
-    spec: { width, height, west: origin[0], north: origin[1], dx: Math.abs(res[0]), dy: Math.abs(res[1]), crs: `EPSG:${code}` },
+    spec: { width, height, west: origin[0], north: origin[1], dx: Math.abs(res[0]), dy: Math.abs(res[1]), crs: `EPSG:${epsg.code}` },
     bands: image.getSamplesPerPixel(),
     description,
     caution,
@@ -240,10 +276,8 @@ async function readBand(image: Image, band: number, window: [number, number, num
 }
 
 async function openBuffer(buffer: ArrayBuffer | Uint8Array, src: string): Promise<Image> {
-  const ab = buffer instanceof Uint8Array ? (buffer.buffer.slice(buffer.byteOffset, buffer.byteOffset + buffer.byteLength) as ArrayBuffer) : buffer;
   try {
-    const tiff = await fromArrayBuffer(ab);
-    return await tiff.getImage(0);
+    return await firstImage(buffer);
   } catch (e) {
     throw new InputError(`${src} is not a readable GeoTIFF`, [{ feature: src, problem: e instanceof Error ? e.message : String(e) }], 'bad_geotiff');
   }
