@@ -8,7 +8,8 @@
 import { InputError } from '../shared/errors.ts';
 import type { Grid } from '../shared/grid/grid.ts';
 import { converter, kmPerDegree, loadCrsDefinition, metresPerUnit, WGS84_DEF } from '../shared/interp/projection.ts';
-import { epsgOf, firstImage, georeferencing, hasTag, readGeoTiff, tagValue, type GeoTiffImage } from './io/geotiff.ts';
+import { readGeoTiff } from './io/geotiff.ts';
+import { epsgOf, firstImage, georeferencing, hasTag, tagValue, type GeoTiffImage } from './io/geotiff-header.ts';
 
 /** Most cells a terrain may have (source or reprojected): 40 million (160 MB of Float32). */
 export const MAX_TERRAIN_CELLS = 40_000_000;
