@@ -1,6 +1,7 @@
 /**
  * A heat-in-place report as the page shows it: the part of the CLI's `heat-in-place --json` answer it reads, the
- * totals table (nominal, P10, P50, P90, each total's unit under its name), the totals in words, the exceedance
+ * totals table (the mean of the realizations first, then P50, P10–P90 and the deterministic run with the mean's
+ * difference from it; each total's unit under its name), the totals in words, the exceedance
  * reading, the warnings, the downloads (HTML report and CSV) and the caution.
  */
 import { CAUTION } from '../../shared/caution.ts';
@@ -60,32 +61,52 @@ const ROWS: { key: keyof HeatReport; label: string; unit: string; scale: number 
   { key: 'meanReservoirTempC', label: 'Its mean temperature', unit: '°C', scale: 1 },
 ];
 
+/** A signed difference with its sign always written (+12, −3.4, 0). */
+function signed(v: number): string {
+  return v > 0 ? `+${sig(v)}` : v < 0 ? `−${sig(-v)}` : '0';
+}
+
 /**
  * The totals table: one row per total (its unit under its name, so that four number columns fit the panel at
- * 1440 × 900), the nominal value and the P10, P50 and P90 of the realizations.
+ * 1440 × 900). With realizations it leads with the central value, the mean of the realizations, then their P50,
+ * their P10–P90 and last the deterministic (kriged) run with the mean's difference from it; without, the
+ * deterministic value alone.
  */
 function totalsTable(r: HeatReport): HTMLElement {
-  const head = el('tr', {}, ...['Total', 'Nominal', 'P10', 'P50', 'P90'].map((h) => el('th', { scope: 'col' }, h)));
+  const mc = r.monteCarlo !== null;
+  const cols = mc ? ['Total', 'Mean', 'P50', 'P10 – P90', 'Deterministic'] : ['Total', 'Deterministic'];
+  const head = el('tr', {}, ...cols.map((h) => el('th', { scope: 'col' }, h)));
   const rows = ROWS.filter((row) => {
     const t = r[row.key] as TotalValue | undefined;
-    return t !== undefined && (t.nominal !== null || t.p50 !== null);
+    return t !== undefined && (t.nominal !== null || t.mean !== null);
   }).map((row) => {
     const t = r[row.key] as TotalValue;
     const s = (v: number | null) => (v === null ? '—' : sig(v * row.scale));
+    const det = el('td', { class: 'num', 'data-col': 'deterministic' }, s(t.nominal));
+    if (mc && t.meanMinusNominal !== null)
+      det.append(el('span', { class: 'unit', 'data-col': 'difference' }, `mean ${signed(t.meanMinusNominal * row.scale)}`));
     return el(
       'tr',
       { 'data-total': String(row.key) },
       el('th', { scope: 'row' }, row.label, el('span', { class: 'unit' }, row.unit)),
-      el('td', { class: 'num' }, s(t.nominal)),
-      el('td', { class: 'num' }, s(t.p10)),
-      el('td', { class: 'num' }, s(t.p50)),
-      el('td', { class: 'num' }, s(t.p90)),
+      ...(mc
+        ? [
+            el('td', { class: 'num', 'data-col': 'mean' }, s(t.mean)),
+            el('td', { class: 'num', 'data-col': 'p50' }, s(t.p50)),
+            el('td', { class: 'num', 'data-col': 'p10-p90' }, `${s(t.p10)} – ${s(t.p90)}`),
+          ]
+        : []),
+      det,
     );
   });
   return el('div', { class: 'table-scroll' }, el('table', { class: 'report hip-totals', id: 'hip-totals' }, el('thead', {}, head), el('tbody', {}, ...rows)));
 }
 
-/** The totals in words: the P50 with its range, or the nominal value alone without realizations. */
+/**
+ * The totals in words. With realizations: the mean of the realizations first (the central value), their P50 and
+ * P10–P90, then the deterministic run, labelled, with the mean's difference from it. Without: the deterministic
+ * value alone.
+ */
 export function headline(r: HeatReport): string {
   const h = r.heatInPlaceEJ,
     e = r.electricMWe;
@@ -93,10 +114,15 @@ export function headline(r: HeatReport): string {
     r.area === 'polygon'
       ? `Inside the area (${sig(r.totals.polygon?.polygonAreaKm2 ?? r.areaKm2)} km², ${r.cells} cells)`
       : `Over the run's grid (${sig(r.areaKm2)} km², ${r.cells} cells)`;
-  if (h.p50 !== null && r.monteCarlo) {
-    return `${where}: heat in place ${sig(h.p50)} EJ (P50; P10 ${sig(h.p10)}, P90 ${sig(h.p90)} EJ; nominal ${sig(h.nominal)} EJ), electric power ${sig(e.p50)} MWe (P10 ${sig(e.p10)}, P90 ${sig(e.p90)} MWe) from ${r.monteCarlo.accepted} realizations.`;
+  if (h.mean !== null && r.monteCarlo) {
+    const diff = h.meanMinusNominal === null ? '' : `; the mean is ${signed(h.meanMinusNominal)} EJ from it`;
+    return (
+      `${where}: heat in place ${sig(h.mean)} EJ, the mean of ${r.monteCarlo.accepted} realizations (P50 ${sig(h.p50)}; P10 ${sig(h.p10)}, P90 ${sig(h.p90)} EJ), ` +
+      `electric power ${sig(e.mean)} MWe (mean; P50 ${sig(e.p50)}; P10 ${sig(e.p10)}, P90 ${sig(e.p90)} MWe). ` +
+      `Deterministic (kriged) run: ${sig(h.nominal)} EJ, ${sig(e.nominal)} MWe${diff}.`
+    );
   }
-  return `${where}: heat in place ${sig(h.nominal)} EJ, electric power ${sig(e.nominal)} MWe (nominal only: ask for realizations to get P10–P90).`;
+  return `${where}: heat in place ${sig(h.nominal)} EJ, electric power ${sig(e.nominal)} MWe (deterministic run only: ask for realizations to get the mean and P10–P90).`;
 }
 
 /** The report as the panel shows it: headline, table, exceedance reading, warnings, downloads, caution. */

@@ -3,8 +3,8 @@
  * regions data set of the project, or the run's whole grid), between a top and a bottom depth, in rock at or above
  * a minimum temperature, with recovery and efficiencies as numbers or distributions (the CLI's options,
  * shared/resource/schema.ts). It runs as a job on the server's worker pool: POST /api/runs/:id/heat-in-place answers
- * 202 with a job id, the panel polls GET …/:jobId until the report is there, then shows the totals with P10, P50
- * and P90, the exceedance reading in words, the caution, and links to the HTML report and the CSV.
+ * 202 with a job id, the panel polls GET …/:jobId until the report is there, then shows the totals led by the mean
+ * of the realizations (with their P50, P10–P90 and the deterministic run beside them), the exceedance reading in words, the caution, and links to the HTML report and the CSV.
  */
 import { CAUTION } from '../../shared/caution.ts';
 import { reportView, type HeatReport, type ReportLinks } from './heat-report.ts';

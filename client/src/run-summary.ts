@@ -8,6 +8,7 @@ import type { RunSummary } from '../../shared/schema/run.ts';
 import { getJson, type CrossValidation, type RunState, type Variogram } from './api.ts';
 import { el, fmt, niceTicks, svg } from './dom.ts';
 import { anisotropyFigure } from './variogram-plot.ts';
+import { centralValuesTable } from './central-values.ts';
 
 /** The variogram and cross-validation blocks of a run summary (whatever of them the run has). */
 export function runSummary(run: RunState): HTMLElement[] {
@@ -16,6 +17,8 @@ export function runSummary(run: RunState): HTMLElement[] {
   const v = run.summary?.interpolation.variogram ?? null;
   if (v) out.push(el('h3', {}, 'Variogram'), variogramPlot(v));
   if (v?.anisotropyEstimate) out.push(el('h3', {}, 'Anisotropy'), anisotropyFigure(v.anisotropyEstimate));
+  const central = centralValuesTable(run.summary?.monteCarlo ?? null);
+  if (central) out.push(el('h3', {}, 'Central values'), central);
   const cv = run.summary?.crossValidation;
   if (cv) out.push(el('h3', {}, 'Cross-validation (leave one out)'), cvTable(cv));
   for (const w of run.warnings ?? []) out.push(el('p', { class: 'note warning' }, String(w)));

@@ -72,11 +72,18 @@ const fmt = (v: number | null | undefined, digits = 3): string => {
   return v.toLocaleString('en-GB', { maximumSignificantDigits: digits + 1 });
 };
 
-function valueCells(v: TotalValue, digits = 3): string {
-  return [v.nominal, v.p10, v.p50, v.p90].map((x) => `<td class="n">${escapeHtml(fmt(x, digits))}</td>`).join('');
+/** The columns of the results table: with realizations their mean (the central value) leads; the deterministic run comes last. */
+const COLUMNS = {
+  withRealizations: ['Mean (central value)', 'P50', 'P10', 'P90', 'Deterministic (kriged run)', 'Mean − deterministic'],
+  without: ['Deterministic (kriged run)'],
+};
+
+function valueCells(v: TotalValue, mc: boolean, digits = 3): string {
+  const cells = mc ? [v.mean, v.p50, v.p10, v.p90, v.nominal, v.meanMinusNominal] : [v.nominal];
+  return cells.map((x) => `<td class="n">${escapeHtml(fmt(x, digits))}</td>`).join('');
 }
 
-function totalsTable(t: AreaTotals, conversion: boolean): string {
+function totalsTable(t: AreaTotals, conversion: boolean, mc: boolean): string {
   const rows: [string, TotalValue][] = [
     ['Heat in place (EJ)', t.heatInPlaceEJ],
     ['Recoverable heat (J)', t.recoverableJ],
@@ -90,9 +97,23 @@ function totalsTable(t: AreaTotals, conversion: boolean): string {
     ['Mean reservoir temperature (°C)', t.meanReservoirTempC],
     ['Available work / heat, W/Q', t.availableWorkFraction],
   );
-  return `<table><thead><tr><th>Quantity</th><th>Nominal</th><th>P10</th><th>P50</th><th>P90</th></tr></thead><tbody>${rows
-    .map(([k, v]) => `<tr><th scope="row">${escapeHtml(k)}</th>${valueCells(v)}</tr>`)
+  const head = ['Quantity', ...(mc ? COLUMNS.withRealizations : COLUMNS.without)].map((h) => `<th>${escapeHtml(h)}</th>`).join('');
+  return `<table class="totals"><thead><tr>${head}</tr></thead><tbody>${rows
+    .map(([k, v]) => `<tr><th scope="row">${escapeHtml(k)}</th>${valueCells(v, mc)}</tr>`)
     .join('')}</tbody></table>`;
+}
+
+/** The results in words, the central value first: the mean of the realizations, then P50 and P10–P90, then the deterministic run. */
+function centralSentence(t: AreaTotals, mc: HeatInPlaceReport['monteCarlo']): string {
+  const h = t.heatInPlaceEJ,
+    e = t.electricMWe;
+  if (mc === null || h.mean === null)
+    return `Heat in place ${fmt(h.nominal)} EJ and electric power ${fmt(e.nominal)} MWe from the deterministic (kriged) run alone: no realizations, so no mean or P10–P90.`;
+  return (
+    `Central value: heat in place ${fmt(h.mean)} EJ, the mean of ${mc.accepted} realizations (P50 ${fmt(h.p50)} EJ; P10 ${fmt(h.p10)}, P90 ${fmt(h.p90)} EJ); ` +
+    `electric power ${fmt(e.mean)} MWe (P50 ${fmt(e.p50)}; P10 ${fmt(e.p10)}, P90 ${fmt(e.p90)} MWe). ` +
+    `The deterministic (kriged) run gives ${fmt(h.nominal)} EJ and ${fmt(e.nominal)} MWe; mean − deterministic: ${fmt(h.meanMinusNominal)} EJ, ${fmt(e.meanMinusNominal)} MWe.`
+  );
 }
 
 function param(v: unknown): string {
@@ -141,10 +162,10 @@ function mapFigure(opts: ReportHtmlOptions): string {
 /** The per-zone table (empty without zones). */
 function zonesTable(zones: NonNullable<HeatInPlaceReport['totals']['zones']>): string {
   return zones.length
-    ? `<h2>Zones</h2><table><thead><tr><th>Zone</th><th>Area (km²)</th><th>Heat in place, P50 or nominal (EJ)</th><th>Electric P10</th><th>P50</th><th>P90 (MWe)</th></tr></thead><tbody>${zones
+    ? `<h2>Zones</h2><table><thead><tr><th>Zone</th><th>Area (km²)</th><th>Heat in place, mean (EJ)</th><th>Deterministic (EJ)</th><th>Electric, mean</th><th>P10</th><th>P50</th><th>P90 (MWe)</th></tr></thead><tbody>${zones
         .map(
           (z) =>
-            `<tr><th scope="row">${escapeHtml(z.zone)}</th><td class="n">${escapeHtml(fmt(z.areaKm2))}</td><td class="n">${escapeHtml(fmt(z.heatInPlaceEJ.p50 ?? z.heatInPlaceEJ.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p10))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p50 ?? z.electricMWe.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p90))}</td></tr>`,
+            `<tr><th scope="row">${escapeHtml(z.zone)}</th><td class="n">${escapeHtml(fmt(z.areaKm2))}</td><td class="n">${escapeHtml(fmt(z.heatInPlaceEJ.mean))}</td><td class="n">${escapeHtml(fmt(z.heatInPlaceEJ.nominal))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.mean))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p10))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p50))}</td><td class="n">${escapeHtml(fmt(z.electricMWe.p90))}</td></tr>`,
         )
         .join('')}</tbody></table>`
     : '';
@@ -175,8 +196,9 @@ td.n{text-align:right;font-variant-numeric:tabular-nums}.caution{border:2px soli
 <h1>${escapeHtml(title)}: ${escapeHtml(areaName)}</h1>
 <p class="small">${escapeHtml(TOOL_NAME)} ${escapeHtml(VERSION)} · model: ${escapeHtml(inputs.model ?? '—')} · ${escapeHtml(fmt(r.areaKm2))} km² in ${escapeHtml(r.cells)} cells${r.cellsNoData > 0 ? ` (+${escapeHtml(r.cellsNoData)} without data)` : ''}</p>
 <h2>Results</h2>
-${totalsTable(r, conv)}
-<p class="small">${escapeHtml(m.percentiles)}. ${escapeHtml(m.exceedance)}. ${mc === null ? escapeHtml(`No Monte Carlo run: ${String(m.noRealizations)}.`) : escapeHtml(`${mc.accepted} of ${mc.realizations} realizations used (seed ${mc.seed}; ${mc.heatFlow}).`)} ${escapeHtml(m.nominal)}.</p>
+<p id="central-value">${escapeHtml(centralSentence(r, mc))}</p>
+${totalsTable(r, conv, mc !== null)}
+<p class="small">${escapeHtml(m.percentiles)}. ${escapeHtml(m.exceedance)}. ${mc === null ? escapeHtml(`No Monte Carlo run: ${String(m.noRealizations)}.`) : escapeHtml(`${mc.accepted} of ${mc.realizations} realizations used (seed ${mc.seed}; ${mc.heatFlow}).`)} ${escapeHtml(m.centralValue)}. ${escapeHtml(m.nominal)}.</p>
 <h2>Map</h2>
 ${mapHtml}
 ${zonesTable(zones)}

@@ -1,6 +1,6 @@
 /**
  * Text exports of a heat-in-place report: CSV (a leading `# caution` comment line, then method lines, then one row
- * per area and quantity) and JSON (the report object itself, which already carries the caution and provenance).
+ * per area and quantity, the mean of the realizations first and the deterministic run last) and JSON (the report object itself, which already carries the caution and provenance).
  */
 import { CAUTION } from '../caution.ts';
 import { TOOL_NAME, VERSION } from '../version.ts';
@@ -38,14 +38,15 @@ export function reportCsv(r: HeatInPlaceReport): string {
     comment(r.method.noRealizations as string),
   ];
   lines.push(comment(r.method.centralValue as string));
-  lines.push('area,quantity,units,cells,area_km2,nominal,p10,p50,p90,mean,sd,mean_minus_nominal');
+  // The central value leads: the mean of the realizations, then P50, P10, P90 and sd; the deterministic run last.
+  lines.push('area,quantity,units,cells,area_km2,mean,p50,p10,p90,sd,nominal,mean_minus_nominal');
   const areas: [string, AreaTotals][] = [['grid', r.totals.grid]];
   if (r.totals.polygon !== null) areas.push([`polygon${r.totals.polygon.label !== null ? `: ${r.totals.polygon.label}` : ''}`, r.totals.polygon]);
   for (const z of r.totals.zones ?? []) areas.push([`zone: ${z.zone}`, z]);
   for (const [name, t] of areas) {
     for (const [key, label, units] of QUANTITIES) {
       const v = t[key] as TotalValue;
-      lines.push([name, label, units, t.cells, t.areaKm2, v.nominal, v.p10, v.p50, v.p90, v.mean, v.sd, v.meanMinusNominal].map(csvField).join(','));
+      lines.push([name, label, units, t.cells, t.areaKm2, v.mean, v.p50, v.p10, v.p90, v.sd, v.nominal, v.meanMinusNominal].map(csvField).join(','));
     }
   }
   return lines.join('\n') + '\n';

@@ -308,13 +308,29 @@ describe('a user region in the other hemisphere, end to end in the page', { time
         columns: [...table.querySelectorAll('thead th')].map((th) => th.textContent),
       };
     });
-    expect(fit.columns).toEqual(['Total', 'Nominal', 'P10', 'P50', 'P90']);
+    // The central value leads: the mean of the realizations, their P50 and P10–P90, then the deterministic run.
+    expect(fit.columns).toEqual(['Total', 'Mean', 'P50', 'P10 – P90', 'Deterministic']);
     expect(fit.overflowPx, JSON.stringify(fit)).toBe(0);
     expect(fit.tableRight, JSON.stringify(fit)).toBeLessThanOrEqual(fit.panelRight);
     const result = await page.evaluate(() => window.subtherm!.heatInPlace!);
     expect(result.runId).toBe(runId);
     const headline = (await page.locator('#hip-headline').textContent())!;
-    expect(headline).toMatch(/P50; P10 [\d.,]+, P90 [\d.,]+ EJ/);
+    expect(headline).toMatch(/heat in place [\d.,]+ EJ, the mean of 100 realizations \(P50 [\d.,]+; P10 [\d.,]+, P90 [\d.,]+ EJ\)/);
+    expect(headline.indexOf('Deterministic (kriged) run')).toBeGreaterThan(headline.indexOf('the mean of'));
+    const cell = async (col: string) =>
+      Number((await page.locator(`#hip-totals tr[data-total="heatInPlaceEJ"] td[data-col="${col}"]`).textContent())!.replace(/,/g, '').split(/\s|mean/)[0]);
+    const hip = result.report.heatInPlaceEJ;
+    expect(Math.abs((await cell('mean')) - hip.mean!)).toBeLessThanOrEqual(5e-3 * Math.abs(hip.mean!));
+    expect(Math.abs((await cell('p50')) - hip.p50!)).toBeLessThanOrEqual(5e-3 * Math.abs(hip.p50!));
+    expect(Math.abs((await cell('deterministic')) - hip.nominal!)).toBeLessThanOrEqual(5e-3 * Math.abs(hip.nominal!));
+    // The run panel lists the run's central values (monteCarlo.centralValues): one row per map, mean first.
+    const central = await page.evaluate(() =>
+      [...document.querySelectorAll('#central-values thead th')]
+        .map((th) => th.textContent)
+        .concat([...document.querySelectorAll('#central-values tbody tr')].map((tr) => tr.getAttribute('data-product') ?? '')),
+    );
+    const runView = (await (await fetch(`${server.url}/api/runs/${runId}`)).json()) as { summary: { monteCarlo: { centralValues: { product: string }[] } } };
+    expect(central).toEqual(['Map', 'Mean', 'P50', 'Deterministic', 'Mean − det.', ...runView.summary.monteCarlo.centralValues.map((c) => c.product)]);
     expect(headline).toContain('MWe');
     expect(await page.locator('#hip-exceedance').textContent()).toContain('exceeded in 90 %');
     expect(await page.locator('#hip-report .caution-note').textContent()).toContain('Screening estimates only');

@@ -114,8 +114,30 @@ describe('subtherm heat-in-place', () => {
     expect(j.monteCarlo.realizations).toBe(40);
     const text = readFileSync(csv, 'utf8');
     expect(text.split('\n')[0]).toBe(`# caution: ${CAUTION}`);
-    expect(text).toMatch(/^area,quantity,units,cells,area_km2,nominal,p10,p50,p90,mean,sd,mean_minus_nominal$/m);
+    // The central value leads (the mean of the realizations, then P50, P10, P90, sd); the deterministic run comes last.
+    expect(text).toMatch(/^area,quantity,units,cells,area_km2,mean,p50,p10,p90,sd,nominal,mean_minus_nominal$/m);
+    const hipRow = text
+      .split('\n')
+      .find((l) => /^"?polygon/.test(l) && l.includes(',heat in place,EJ,'))!
+      .split(',');
+    const v = j.heatInPlaceEJ;
+    // The polygon's quoted label holds commas: the row's last seven fields are the numbers.
+    expect(hipRow.slice(-7).map(Number)).toEqual([v.mean, v.p50, v.p10, v.p90, v.sd, v.nominal, v.meanMinusNominal]);
     const page = readFileSync(html, 'utf8');
+    // The HTML report: a sentence with the mean first, before the results table, whose columns lead with the mean and
+    // end with the deterministic run and the mean's difference from it; the heat-in-place row holds those values.
+    const results = page.slice(page.indexOf('<h2>Results</h2>'));
+    expect(results.indexOf('id="central-value"')).toBeLessThan(results.indexOf('<table class="totals">'));
+    const sentence = /<p id="central-value">([^<]*)<\/p>/.exec(results)![1];
+    expect(sentence).toMatch(/^Central value: heat in place [\d,.]+ EJ, the mean of 40 realizations \(P50 /);
+    expect(sentence.indexOf('deterministic (kriged) run')).toBeGreaterThan(sentence.indexOf('P90'));
+    const table = /<table class="totals"><thead><tr>(.*?)<\/tr><\/thead><tbody><tr>(.*?)<\/tr>/.exec(results)!;
+    const cellsOf = (row: string, tag: string) => [...row.matchAll(new RegExp(`<${tag}[^>]*>([^<]*)</${tag}>`, 'g'))].map((m) => m[1]);
+    expect(cellsOf(table[1], 'th')).toEqual(['Quantity', 'Mean (central value)', 'P50', 'P10', 'P90', 'Deterministic (kriged run)', 'Mean − deterministic']);
+    const shown = cellsOf(table[2], 'td').map((c) => Number(c.replace(/,/g, '')));
+    [v.mean, v.p50, v.p10, v.p90, v.nominal, v.meanMinusNominal].forEach((x: number, k: number) =>
+      expect(Math.abs(shown[k] - x), `column ${k + 1}`).toBeLessThanOrEqual(5e-4 * Math.abs(x)),
+    );
     expect(page).toContain('data:image/png;base64,');
     expect(page).toContain('&lt;b&gt;Rift&lt;/b&gt; &amp; &quot;block&quot;');
     expect(page).not.toContain('<b>Rift</b>');
@@ -123,7 +145,12 @@ describe('subtherm heat-in-place', () => {
   });
 
   it('gives nominal values and null percentiles without realizations', () => {
-    const r = run(['--heat-flow', hfPath, '--model', modelPath, '--json']);
+    const html = join(dir, 'nominal.html');
+    const page = () => readFileSync(html, 'utf8');
+    const r = run(['--heat-flow', hfPath, '--model', modelPath, '--json', '--out-html', html]);
+    // Without realizations the HTML report shows the deterministic run alone, labelled so.
+    expect(/<table class="totals"><thead><tr>(.*?)<\/tr>/.exec(page())![1]).toBe('<th>Quantity</th><th>Deterministic (kriged run)</th>');
+    expect(page()).toMatch(/<p id="central-value">Heat in place [\d,.]+ EJ and electric power [\d,.]+ MWe from the deterministic \(kriged\) run alone/);
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     expect(j.area).toBe('grid');
