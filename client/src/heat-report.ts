@@ -68,13 +68,13 @@ function signed(v: number): string {
 
 /**
  * The totals table: one row per total (its unit under its name, so that four number columns fit the panel at
- * 1440 × 900). With realizations it leads with the central value, the mean of the realizations, then their P50,
- * their P10–P90 and last the deterministic (kriged) run with the mean's difference from it; without, the
+ * 1440 × 900). With realizations it leads with the central value, the mean of the realizations (the deterministic
+ * kriged run and the mean's difference from it written under it), then their P10, P50 and P90; without, the
  * deterministic value alone.
  */
 function totalsTable(r: HeatReport): HTMLElement {
   const mc = r.monteCarlo !== null;
-  const cols = mc ? ['Total', 'Mean', 'P50', 'P10 – P90', 'Deterministic'] : ['Total', 'Deterministic'];
+  const cols = mc ? ['Total', 'Mean', 'P10', 'P50', 'P90'] : ['Total', 'Deterministic'];
   const head = el('tr', {}, ...cols.map((h) => el('th', { scope: 'col' }, h)));
   const rows = ROWS.filter((row) => {
     const t = r[row.key] as TotalValue | undefined;
@@ -82,21 +82,30 @@ function totalsTable(r: HeatReport): HTMLElement {
   }).map((row) => {
     const t = r[row.key] as TotalValue;
     const s = (v: number | null) => (v === null ? '—' : sig(v * row.scale));
-    const det = el('td', { class: 'num', 'data-col': 'deterministic' }, s(t.nominal));
-    if (mc && t.meanMinusNominal !== null)
-      det.append(el('span', { class: 'unit', 'data-col': 'difference' }, `mean ${signed(t.meanMinusNominal * row.scale)}`));
+    if (!mc)
+      return el(
+        'tr',
+        { 'data-total': String(row.key) },
+        el('th', { scope: 'row' }, row.label, el('span', { class: 'unit' }, row.unit)),
+        el('td', { class: 'num', 'data-col': 'deterministic' }, s(t.nominal)),
+      );
+    // Under the mean: the deterministic (kriged) run and the mean's difference from it, so that four number
+    // columns still fit the panel at 1440 × 900.
+    const mean = el(
+      'td',
+      { class: 'num', 'data-col': 'mean', title: 'Mean of the realizations; below it the deterministic (kriged) run and the mean minus it' },
+      s(t.mean),
+      el('span', { class: 'unit', 'data-col': 'deterministic' }, `det. ${s(t.nominal)}`),
+    );
+    if (t.meanMinusNominal !== null) mean.append(el('span', { class: 'unit', 'data-col': 'difference' }, `mean ${signed(t.meanMinusNominal * row.scale)}`));
     return el(
       'tr',
       { 'data-total': String(row.key) },
       el('th', { scope: 'row' }, row.label, el('span', { class: 'unit' }, row.unit)),
-      ...(mc
-        ? [
-            el('td', { class: 'num', 'data-col': 'mean' }, s(t.mean)),
-            el('td', { class: 'num', 'data-col': 'p50' }, s(t.p50)),
-            el('td', { class: 'num', 'data-col': 'p10-p90' }, `${s(t.p10)} – ${s(t.p90)}`),
-          ]
-        : []),
-      det,
+      mean,
+      el('td', { class: 'num', 'data-col': 'p10' }, s(t.p10)),
+      el('td', { class: 'num', 'data-col': 'p50' }, s(t.p50)),
+      el('td', { class: 'num', 'data-col': 'p90' }, s(t.p90)),
     );
   });
   return el('div', { class: 'table-scroll' }, el('table', { class: 'report hip-totals', id: 'hip-totals' }, el('thead', {}, head), el('tbody', {}, ...rows)));
