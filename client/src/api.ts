@@ -75,6 +75,7 @@ export function uploadMediaType(fileName: string, kind: string): string {
   if (/\.(csv|txt)$/i.test(fileName)) return 'text/csv';
   if (/\.gpkg$/i.test(fileName)) return 'application/geopackage+sqlite3';
   if (/\.zip$/i.test(fileName)) return 'application/zip';
+  if (/\.tiff?$/i.test(fileName) || kind === 'grid') return 'image/tiff';
   return kind === 'model' ? 'application/json' : 'application/geo+json';
 }
 

@@ -51,6 +51,13 @@ export function dataPanel(ctx: AppContext, data: DataSets, onParams: () => void)
   const inProject = ctx.projectId !== null && ctx.editToken !== null;
   let table: ProjectDataTable | null = null;
   const use = (id: string, k: string, fit: boolean) => {
+    if (k === 'grid') {
+      ctx.state.params = { ...ctx.state.params, driftGrid: id };
+      onParams();
+      ctx.syncUrl();
+      void table?.refresh();
+      return;
+    }
     const kind = k as PointKind;
     if (kind !== 'sites' && kind !== 'samples' && kind !== 'faults') return;
     ctx.state.params = { ...ctx.state.params, [kind]: id };
@@ -83,7 +90,7 @@ export function dataPanel(ctx: AppContext, data: DataSets, onParams: () => void)
       void table?.refresh();
     },
     send,
-    inProject ? ['sites', 'samples', 'faults', 'wells', 'regions', 'model', 'terrain'] : ['sites', 'samples', 'faults'],
+    inProject ? ['sites', 'samples', 'faults', 'wells', 'regions', 'model', 'terrain', 'grid'] : ['sites', 'samples', 'faults'],
   );
   upload.root.prepend(el('h3', {}, 'Add data'));
   if (ctx.projectId !== null) {
@@ -117,6 +124,7 @@ const UPLOAD_LABELS: Record<string, string> = {
   regions: 'regions (model overrides, mask)',
   model: 'thermal model (JSON)',
   terrain: 'terrain (DEM GeoTIFF, metres)',
+  grid: 'covariate grid (GeoTIFF): external drift of kriging',
 };
 
 /** EPSG codes offered in the CRS chooser (any other EPSG:nnnn may be typed). */

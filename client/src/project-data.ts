@@ -28,6 +28,7 @@ const KIND_LABELS: Record<string, string> = {
   wells: 'wells',
   regions: 'regions',
   model: 'thermal model',
+  grid: 'covariate grid (drift)',
 };
 
 function auth(ctx: AppContext): Record<string, string> {
@@ -198,7 +199,7 @@ export class ProjectDataTable {
       return b;
     };
     const actions = el('td', { class: 'actions' });
-    if (['sites', 'samples', 'faults'].includes(d.kind) && editable) actions.append(btn(used ? 'in use' : 'use', () => this.onUse(d)));
+    if (['sites', 'samples', 'faults', 'grid'].includes(d.kind) && editable) actions.append(btn(used ? 'in use' : 'use', () => this.onUse(d)));
     if (d.bbox) actions.append(btn('zoom to', () => fitBbox(this.ctx.map, d.bbox!)));
     if (editable) {
       actions.append(

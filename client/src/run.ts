@@ -29,7 +29,11 @@ const FIELD_LABELS: Record<string, string> = {
 export function runBody(p: RunParams, model: unknown): Record<string, unknown> {
   const body: Record<string, unknown> = {
     sites: p.sites,
-    interpolation: { method: p.method, ...(p.anisotropy === 'auto' && p.method === 'kriging' ? { anisotropy: 'auto' } : {}) },
+    interpolation: {
+      method: p.method,
+      ...(p.anisotropy === 'auto' && p.method === 'kriging' ? { anisotropy: 'auto' } : {}),
+      ...(p.driftGrid !== undefined && p.method === 'kriging' ? { trend: `drift:${p.driftGrid}` } : {}),
+    },
     model,
     isothermsC: p.isothermsC,
     depthsKm: p.depthsKm,
@@ -64,6 +68,8 @@ interface RunForm {
 function runForm(): RunForm {
   const method = el('select', { id: 'run-method' }, el('option', { value: 'kriging' }, 'ordinary kriging'), el('option', { value: 'idw' }, 'inverse distance'));
   const aniso = el('select', { id: 'run-anisotropy' }, el('option', { value: '' }, 'none (isotropic)'), el('option', { value: 'auto' }, 'estimated'));
+  // The external drift: a grid data set chosen with "use" in the project's data sets, or none.
+  const drift = el('select', { id: 'run-drift' }, el('option', { value: '' }, 'none'));
   const iso = el('input', { id: 'run-isotherms', inputmode: 'decimal', 'aria-describedby': 'run-param-error' });
   const depths = el('input', { id: 'run-depths', inputmode: 'decimal', 'aria-describedby': 'run-param-error' });
   const facies = el('input', { id: 'run-facies-depth', type: 'number', min: '0.5', max: '300', step: '0.5', placeholder: 'deepest depth' });
@@ -76,6 +82,7 @@ function runForm(): RunForm {
     fields: [
       row(method, 'Interpolation'),
       row(aniso, 'Anisotropy (kriging)'),
+      row(drift, 'Drift grid (kriging)'),
       row(iso, 'Isotherms (°C)'),
       row(depths, 'Depths (km)'),
       row(facies, 'Facies at depth (km)'),
@@ -83,11 +90,13 @@ function runForm(): RunForm {
       row(reals, 'Realizations (0 = none)'),
       row(seed, 'Seed'),
     ],
-    controls: [method, aniso, iso, depths, facies, cell, reals, seed],
+    controls: [method, aniso, drift, iso, depths, facies, cell, reals, seed],
     error,
     fill(p) {
       method.value = p.method;
       aniso.value = p.anisotropy ?? '';
+      replace(drift, el('option', { value: '' }, 'none'), ...(p.driftGrid ? [el('option', { value: p.driftGrid }, `grid data set ${p.driftGrid}`)] : []));
+      drift.value = p.driftGrid ?? '';
       iso.value = p.isothermsC.join(', ');
       depths.value = p.depthsKm.join(', ');
       cell.value = String(p.cellKm);
@@ -105,6 +114,7 @@ function runForm(): RunForm {
         ...base,
         method: method.value as RunParams['method'],
         anisotropy: aniso.value === 'auto' ? 'auto' : undefined,
+        driftGrid: drift.value === '' ? undefined : drift.value,
         isothermsC: isoV ?? [],
         depthsKm: depV ?? [],
         faciesDepthKm: facies.value.trim() === '' ? undefined : Number(facies.value),

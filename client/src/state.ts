@@ -18,6 +18,8 @@ export interface RunParams {
   method: 'idw' | 'kriging';
   /** Kriging's geometric anisotropy: none (absent) or 'auto', estimated from directional semivariograms. */
   anisotropy?: 'auto';
+  /** A grid data set of the project used as kriging's external drift (interpolation.trend drift:<id>), or absent. */
+  driftGrid?: string;
   isothermsC: number[];
   depthsKm: number[];
   /** Depth of the facies layer, km (absent: the deepest of depthsKm). */

@@ -7,10 +7,9 @@ import { readFile } from 'node:fs/promises';
 import { basename } from 'node:path';
 import { InputError } from '../../shared/errors.ts';
 import { parseTrendOption } from '../../shared/schema/interp.ts';
-import { loadCrsDefinition } from '../../shared/interp/projection.ts';
 import type { DriftKind } from '../../shared/interp/drift.ts';
 import type { ExternalDriftGrid } from '../../shared/interp/externalDrift.ts';
-import { readGeoTiff } from '../io/geotiff.ts';
+import { driftGridFromBytes } from '../io/grid-dataset.ts';
 import { sha256 } from './point-input.ts';
 
 export interface TrendChoice {
@@ -34,7 +33,5 @@ export async function trendOption(raw: string | undefined): Promise<TrendChoice>
   const bytes = await readFile(path).catch((e: NodeJS.ErrnoException) => {
     throw new InputError(`cannot read the drift grid ${path}`, [{ field: 'trend', problem: e.code ?? String(e) }], 'file_not_found');
   });
-  const r = await readGeoTiff(bytes, { source: path, chooseBand: true });
-  const crsDef = await loadCrsDefinition(r.grid.crs);
-  return { trend: m[1] ? 'auto' : 'external', externalDrift: { name: basename(path), grid: r.grid, crsDef }, sha256: sha256(bytes) };
+  return { trend: m[1] ? 'auto' : 'external', externalDrift: await driftGridFromBytes(bytes, basename(path)), sha256: sha256(bytes) };
 }

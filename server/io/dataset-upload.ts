@@ -31,7 +31,8 @@ export interface UploadInput {
 }
 
 export interface ParsedUpload {
-  kind: DatasetKind | 'model';
+  /** A feature kind, a thermal model, or a covariate grid (server/io/grid-dataset.ts). */
+  kind: DatasetKind | 'model' | 'grid';
   /**
    * Canonical stored body as UTF-8: the validated GeoJSON, or the model without its descriptive name. Bytes, not a
    * string, so that a worker thread can move a large body to the request thread and on to the store's writer

@@ -4,6 +4,7 @@
  * POST /api/datasets (a bare upload, for scripts that name data set ids in a run themselves). GET /api/datasets/:id
  * serves a stored body; data sets are listed only through their project (GET /api/datasets is 410).
  */
+import { gridDatasetBytes, gridDatasetFromUpload } from '../io/grid-dataset.ts';
 import type { Context, Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
 import type { DatasetKind } from '../../shared/schema/features.ts';
@@ -38,8 +39,9 @@ export const uploadFormatQuery = z.object({
  * WGS 84 from the file's own CRS), or a thermal model JSON (server/io/dataset-upload.ts). A body larger than
  * INLINE_UPLOAD_BYTES is parsed on the data pool's worker thread, so the request thread stays free.
  */
-export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind | 'model'): Promise<ParsedUpload> {
+export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind | 'model' | 'grid'): Promise<ParsedUpload> {
   const type = (c.req.header('content-type') ?? '').split(';')[0].trim().toLowerCase();
+  if (kind === 'grid') return await gridUpload(c, ctx, type);
   const format = formatFromMediaType(type);
   if (format === null) {
     const all = Object.values(VECTOR_MEDIA_TYPES).flat().join(', ');
@@ -64,6 +66,18 @@ export async function parseUpload(c: Context, ctx: AppContext, kind: DatasetKind
   };
   if (bytes.length <= INLINE_UPLOAD_BYTES) return await parseUploadBytes(input);
   return await ctx.compute.data.run<ParsedUpload>({ kind: 'upload', input }, ctx.limits.computeDeadlineSeconds * 1000, undefined, [bytes.buffer]);
+}
+
+/** A covariate grid (kind `grid`): a single-band GeoTIFF, checked before decoding (server/io/grid-dataset.ts). */
+async function gridUpload(c: Context, ctx: AppContext, type: string): Promise<ParsedUpload> {
+  if (type !== 'image/tiff' && type !== 'image/geotiff' && type !== 'application/octet-stream')
+    throw new InputError(
+      `a grid data set is a GeoTIFF: send it as image/tiff, got "${type || '(none)'}"`,
+      [{ field: 'content-type', problem: 'expected image/tiff' }],
+      'unsupported_media_type',
+    );
+  const fq = parseWith(uploadFormatQuery, singleQuery(c), 'query', 'bad_query');
+  return await gridDatasetFromUpload(new Uint8Array(await c.req.arrayBuffer()), ctx.limits.maxTerrainBytes, fq.filename ?? 'the GeoTIFF upload');
 }
 
 /** What the store keeps of an upload (its hash and bounding box as computed where it was parsed). */
@@ -92,6 +106,7 @@ export function datasetRoutes(app: Hono, ctx: AppContext): void {
   app.get('/api/datasets/:id', async (c) => {
     const rec = await ctx.store.getDataset(c.req.param('id'));
     if (!rec) throw new InputError(`no data set with id "${c.req.param('id')}"`, [{ field: 'id', problem: 'not found' }], 'not_found');
+    if (rec.kind === 'grid') return c.body(gridDatasetBytes(rec.body), 200, { 'content-type': 'image/tiff', etag: `"${rec.contentHash}"` });
     const type = rec.kind === 'model' ? 'application/json' : 'application/geo+json';
     return c.body(rec.body, 200, { 'content-type': type, etag: `"${rec.contentHash}"` });
   });

@@ -88,9 +88,13 @@ const UPLOAD_FORMATS: Record<keyof typeof VECTOR_MEDIA_TYPES, { schema: Record<s
     },
   },
 };
-const UPLOAD_CONTENT: Record<string, { schema: Record<string, unknown> }> = Object.fromEntries(
-  Object.entries(VECTOR_MEDIA_TYPES).flatMap(([f, types]) => types.map((t) => [t, UPLOAD_FORMATS[f as keyof typeof VECTOR_MEDIA_TYPES]])),
-);
+const GRID_UPLOAD = "kind=grid: a one-band GeoTIFF covariate, checked before decoding; a run names it as interpolation.trend 'drift:<id>'";
+const UPLOAD_CONTENT: Record<string, { schema: Record<string, unknown> }> = {
+  ...Object.fromEntries(
+    Object.entries(VECTOR_MEDIA_TYPES).flatMap(([f, types]) => types.map((t) => [t, UPLOAD_FORMATS[f as keyof typeof VECTOR_MEDIA_TYPES]])),
+  ),
+  'image/tiff': { schema: { type: 'string', format: 'binary', description: GRID_UPLOAD } },
+};
 /** Query parameters every vector upload reads besides its own (server/routes/datasets.ts). */
 const UPLOAD_QUERY = {
   crs: "EPSG:nnnn of a CSV's x,y / easting,northing columns (reprojected to WGS 84 with the offline EPSG definitions)",
@@ -179,14 +183,16 @@ export function openApiDocument(): unknown {
         post: op(
           'store a data set outside any project (GeoJSON, point CSV, GeoPackage, zipped Shapefile or a thermal model); 200 with the existing id when the same content is stored',
           {
-            query: { kind: 'sites | samples | faults | wells | regions | model', title: 'optional title', ...UPLOAD_QUERY },
+            query: { kind: 'sites | samples | faults | wells | regions | model | grid', title: 'optional title', ...UPLOAD_QUERY },
             contents: UPLOAD_CONTENT,
             ok: '201',
             errors: [400, 413, 415, 422],
           },
         ),
       },
-      '/api/datasets/{id}': { get: op('a stored data set', { params: ['id'], okType: 'application/geo+json', errors: [404] }) },
+      '/api/datasets/{id}': {
+        get: op('a stored data set (a grid data set as its GeoTIFF, image/tiff)', { params: ['id'], okType: 'application/geo+json', errors: [404] }),
+      },
       '/api/runs': {
         post: op('queue a run (202), or get the cached run with the same inputs (200)', {
           body: json(runRequestSchema),
@@ -311,7 +317,7 @@ export function openApiDocument(): unknown {
         post: op('upload a data set into the project (edit token); 201 new, 200 when the project already holds the same content (deduplicated: true)', {
           params: ['id'],
           query: {
-            kind: 'sites | samples | faults | wells | regions | model',
+            kind: 'sites | samples | faults | wells | regions | model | grid',
             name: "the data set's name in the project (default: the model's own name, the GeoPackage or Shapefile layer, or the kind)",
             ...UPLOAD_QUERY,
           },

@@ -17,6 +17,7 @@ import { datasetPatchSchema, datasetNameSchema, idSchema, parseWith, projectData
 import { z } from 'zod';
 import { gridBbox, gridSpecOf } from '../../shared/grid/grid.ts';
 import { demFromUpload } from '../terrain-upload.ts';
+import { gridDatasetBytes } from '../io/grid-dataset.ts';
 import { TerrainTiles, TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from '../terrain.ts';
 
 /** Default names of uploads that come without one, by kind. */
@@ -27,6 +28,7 @@ const KIND_NAMES: Record<string, string> = {
   wells: 'Wells',
   regions: 'Regions',
   model: 'Thermal model',
+  grid: 'Covariate grid',
 };
 
 /** A data set the project holds, by the raw id in `field` (404 naming the field otherwise). */
@@ -155,6 +157,14 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     const id = await projectIdOf(c, ctx);
     const held = await heldDataset(ctx, id, c.req.param('dsId') ?? '', 'dsId');
     const rec = (await ctx.store.getDataset(held.id))!;
+    if (rec.kind === 'grid') {
+      const file = `${held.name.replace(/[^A-Za-z0-9._-]+/g, '-').replace(/^-+|-+$/g, '') || held.id}.tif`;
+      return c.body(gridDatasetBytes(rec.body), 200, {
+        'content-type': 'image/tiff',
+        etag: `"${rec.contentHash}"`,
+        'content-disposition': `attachment; filename="${file}"`,
+      });
+    }
     const isModel = rec.kind === 'model';
     // A model downloads under its project name; every download carries a file name made of that name.
     const body = isModel ? JSON.stringify({ name: held.name, ...(JSON.parse(rec.body) as Record<string, unknown>) }, null, 2) : rec.body;

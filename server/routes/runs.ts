@@ -8,7 +8,7 @@ import { existsSync } from 'node:fs';
 import { InputError } from '../../shared/errors.ts';
 import { kmPerDegree } from '../../shared/interp/projection.ts';
 import { RUN_EVENTS, runRequestSchema, type RunLayerInfo, type RunRequest } from '../../shared/schema/run.ts';
-import { interpolationOptionsSchema } from '../../shared/schema/interp.ts';
+import { interpolationOptionsSchema, runTrend } from '../../shared/schema/interp.ts';
 import { requireDeclusterWithTransform } from '../runs/heat-flow-simulation.ts';
 import { VERSION } from '../../shared/version.ts';
 import { isTerminal, type RunSnapshot } from '../runs/jobs.ts';
@@ -205,6 +205,10 @@ export async function resolveRunDatasets(ctx: AppContext, request: RunRequest, p
     datasets[id] = { kind: rec.kind, body: rec.body };
     hashes[role] = rec.contentHash;
   }
+  // A drift from a grid data set (interpolation.trend = drift:<id>): its GeoTIFF goes to the run like any data set.
+  const driftId = runTrend(String(request.interpolation.trend ?? '')).driftDataset;
+  const drift = driftId === null ? null : await need('interpolation.trend', driftId, 'grid');
+  if (drift !== null) [datasets[drift.id], hashes.drift] = [{ kind: 'grid', body: drift.body }, drift.contentHash];
   // The model: a data set id or inline JSON, validated here so a bad model never reaches a worker. A stored
   // model's name is its data set's name (the project's), so exports carry the name the user gave it.
   if (typeof request.model === 'string') {

@@ -93,7 +93,9 @@ export const revisionQuerySchema = z.object({
 });
 
 export const datasetQuerySchema = z.object({
-  kind: z.enum(['sites', 'samples', 'faults', 'wells', 'regions', 'model'], { error: 'kind must be one of sites, samples, faults, wells, regions, model' }),
+  kind: z.enum(['sites', 'samples', 'faults', 'wells', 'regions', 'model', 'grid'], {
+    error: 'kind must be one of sites, samples, faults, wells, regions, model, grid',
+  }),
   title: z.string().max(200).optional(),
 });
 
@@ -102,7 +104,9 @@ export const datasetNameSchema = z.string().trim().min(1, 'a data set needs a na
 
 /** POST /api/projects/:id/datasets query. */
 export const projectDatasetQuerySchema = z.object({
-  kind: z.enum(['sites', 'samples', 'faults', 'wells', 'regions', 'model'], { error: 'kind must be one of sites, samples, faults, wells, regions, model' }),
+  kind: z.enum(['sites', 'samples', 'faults', 'wells', 'regions', 'model', 'grid'], {
+    error: 'kind must be one of sites, samples, faults, wells, regions, model, grid',
+  }),
   name: datasetNameSchema.optional(),
 });
 

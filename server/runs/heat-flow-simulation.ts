@@ -19,6 +19,7 @@ import type { Anisotropy, VariogramModel, VariogramModelName } from '../../share
 import type { DriftKind } from '../../shared/interp/drift.ts';
 import type { ExternalDriftGrid } from '../../shared/interp/externalDrift.ts';
 import type { DirectionChoice } from '../../shared/interp/directional-variogram.ts';
+import { runTrend } from '../../shared/schema/interp.ts';
 
 /** Offset between a run's seed and the key of its heat-flow simulation streams. */
 export const SIMULATION_STREAM_OFFSET = 2 ** 32;
@@ -80,14 +81,16 @@ export function followKrigedTrend(trend: RunSimulationOptions['trend'], chosen: 
 
 /**
  * The run's interpolation options that its heat-flow simulation follows (IDW runs: the simulation's defaults);
- * `chosenTrend` is the drift the run's kriging chose (see followKrigedTrend).
+ * `chosenTrend` is the drift the run's kriging chose (see followKrigedTrend), `externalDrift` the covariate grid of
+ * a trend naming a grid data set.
  */
 export function runSimulationOptions(
   iopt: {
     variogram?: RunSimulationOptions['variogram'];
     anisotropy?: RunSimulationOptions['anisotropy'];
     directions?: DirectionChoice;
-    trend?: RunSimulationOptions['trend'];
+    /** A run's interpolation.trend (shared/schema/interp.ts `runTrend`: a grid data set's form is an external drift). */
+    trend?: string;
     /** none, auto or a cell side in km (the run request's interpolation.decluster). */
     decluster?: 'none' | 'auto' | number;
     neighbors?: number | 'all';
@@ -97,12 +100,14 @@ export function runSimulationOptions(
     method: string;
   },
   chosenTrend?: DriftKind,
+  externalDrift: ExternalDriftGrid | null = null,
 ): RunSimulationOptions {
   return {
     variogram: iopt.variogram,
     anisotropy: iopt.anisotropy ?? null,
     directions: iopt.directions,
-    trend: iopt.method === 'kriging' ? followKrigedTrend(iopt.trend, chosenTrend) : undefined,
+    trend: iopt.method === 'kriging' ? followKrigedTrend(runTrend(iopt.trend).trend, chosenTrend) : undefined,
+    externalDrift: iopt.method === 'kriging' ? externalDrift : null,
     declustering: typeof iopt.decluster === 'number' ? { cellKm: iopt.decluster } : iopt.decluster,
     neighbors: iopt.method === 'kriging' ? iopt.neighbors : undefined,
     lagKm: iopt.lagKm,

@@ -95,6 +95,7 @@ function trendSummary(t: TrendReport): NonNullable<RunSummary['interpolation']['
     explainedVarianceFraction: t.ols === null ? null : finiteOrNull(t.ols.explainedVarianceFraction),
   };
   if (t.candidates) out.candidates = t.candidates.map((c) => ({ ...c, cvRmse: finiteOrNull(c.cvRmse), msdr: finiteOrNull(c.msdr) }));
+  if (t.kind === 'external' && t.ols?.covariate) out.covariate = t.ols.covariate;
   return out;
 }
 
@@ -280,7 +281,7 @@ async function simulateHeatFlow(
   const t0 = now();
   const sim = simulateRunHeatFlow(
     inp.points,
-    { ...runSimulationOptions(inp.interpolation, interp.variogram?.trend?.kind), faults: inp.faults },
+    { ...runSimulationOptions(inp.interpolation, interp.variogram?.trend?.kind, inp.interpOptions.externalDrift), faults: inp.faults },
     interp.grid,
     inp.crsDef,
     N,

@@ -21,7 +21,8 @@ import { createStream } from '../../shared/random/prng.ts';
 import { isUncertainModel, realizeModel, type CompiledModel, type ThermalModel } from '../../shared/thermal/index.ts';
 import { cellNormal, prepareGridMonteCarlo, type PreparedGridMonteCarlo } from '../../shared/thermal/monte-carlo.ts';
 import { loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
-import { interpolationOptionsSchema, pointsFromGeoJson } from '../../shared/schema/interp.ts';
+import { interpolationOptionsSchema, pointsFromGeoJson, runTrend } from '../../shared/schema/interp.ts';
+import { driftGridFromBytes, gridDatasetBytes } from '../io/grid-dataset.ts';
 import type { Store } from '../store/types.ts';
 import { runSimulationOptions, simulateRunHeatFlow } from './heat-flow-simulation.ts';
 import { faultLines } from './run-inputs.ts';
@@ -143,6 +144,8 @@ export interface RunRecord {
   regionsBody: string | null;
   /** Body of the run's faults data set when its simulation treated them as barriers (else null). */
   faultsBody: string | null;
+  /** Body of the grid data set of a simulation with an external drift (else null or absent). */
+  driftBody?: string | null;
 }
 
 interface StoredMonteCarlo {
@@ -163,7 +166,7 @@ export async function readRunRecord(store: Store, runId: string): Promise<RunRec
       [{ field: 'runId', problem: `status ${run.status}` }],
       'run_not_done',
     );
-  const request = (run.request ?? {}) as { regions?: string; sites?: string; faults?: string };
+  const request = (run.request ?? {}) as { regions?: string; sites?: string; faults?: string; interpolation?: { trend?: string } };
   const summary = (run.summary ?? {}) as { monteCarlo?: StoredMonteCarlo | null };
   const heat = await store.getRunGrid(runId, 'heatFlow');
   if (!heat) throw new InputError(`run ${runId} has no stored heat-flow grid`, [{ field: 'runId', problem: 'no heat-flow grid' }], 'run_without_grid');
@@ -185,6 +188,7 @@ export async function readRunRecord(store: Store, runId: string): Promise<RunRec
     sitesBody: simulated ? await body(request.sites, 'sites') : null,
     regionsBody: await body(request.regions, 'regions'),
     faultsBody: simulated && summary.monteCarlo?.heatFlowSimulation?.faultBarriers === true ? await body(request.faults, 'faults') : null,
+    driftBody: simulated ? await body(runTrend(request.interpolation?.trend).driftDataset ?? undefined, 'interpolation.trend') : null,
   };
 }
 
@@ -236,7 +240,8 @@ export async function realizationsFromRecord(rec: RunRecord, opts: { realization
     const iopt = interpolationOptionsSchema.parse(request.interpolation);
     const { points } = pointsFromGeoJson(JSON.parse(rec.sitesBody), 'heatFlowMWm2', { source: `data set of run ${runId}` });
     const faults = rec.faultsBody === null ? null : faultLines(parseFeatureCollection('faults', JSON.parse(rec.faultsBody)).collection.features);
-    const sim = simulateRunHeatFlow(points, { ...runSimulationOptions(iopt, stored.trend), faults }, heatFlow, crsDef, N, seed);
+    const drift = rec.driftBody ? await driftGridFromBytes(gridDatasetBytes(rec.driftBody), `grid data set ${runTrend(iopt.trend).driftDataset}`) : null;
+    const sim = simulateRunHeatFlow(points, { ...runSimulationOptions(iopt, stored.trend, drift), faults }, heatFlow, crsDef, N, seed);
     // Realization 0 does not depend on the count: the same sum proves the same fields.
     if (stored.checksum !== undefined && !(Math.abs(sim.checksum - stored.checksum) <= 1e-9 * Math.max(1, Math.abs(stored.checksum)))) {
       throw new InputError(

@@ -8,7 +8,8 @@ import { HEAT_FLOW_CORRELATION_DEPRECATED } from './heat-flow-simulation.ts';
 import { InputError, type InputProblem } from '../../shared/errors.ts';
 import type { Rings } from '../../shared/grid/polygon-cells.ts';
 import { runRequestSchema, type RunRequest } from '../../shared/schema/run.ts';
-import { interpolationOptionsSchema, pointsFromGeoJson, type InterpolationRequest } from '../../shared/schema/interp.ts';
+import { interpolationOptionsSchema, pointsFromGeoJson, runTrend, type InterpolationRequest } from '../../shared/schema/interp.ts';
+import { driftGridFromBytes, gridDatasetBytes } from '../io/grid-dataset.ts';
 import { parseFeatureCollection } from '../../shared/schema/features.ts';
 import type { InterpolationOptions, PointData } from '../../shared/interp/interpolate.ts';
 import { loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
@@ -31,7 +32,7 @@ export interface RunInputs {
   faciesDepthKm: number;
   seed: number;
   heatFlowErrorCorrelation: 'full' | 'independent';
-  /** What the interpolation engine gets (grid, barriers, mask included). */
+  /** What the interpolation engine gets (grid, barriers, mask and an external drift's covariate grid included). */
   interpOptions: InterpolationOptions;
   /** SHA-256 per input (sites, model, faults, regions, request). */
   hashes: Record<string, string>;
@@ -176,7 +177,7 @@ function engineOptions(
     maxLagKm: iopt.maxLagKm,
     anisotropy: iopt.anisotropy ?? null,
     directions: iopt.directions,
-    trend: iopt.trend,
+    trend: runTrend(iopt.trend).trend,
     measurementError: iopt.measurementError,
     maxDistanceKm: iopt.maxDistanceKm ?? null,
     faults,
@@ -194,6 +195,24 @@ function engineOptions(
   };
 }
 
+/**
+ * The covariate grid of `interpolation.trend` = `drift:<datasetId>` (or `auto:drift:<datasetId>`): a data set of kind
+ * grid (server/io/grid-dataset.ts), read as the command line reads the same GeoTIFF; null for any other trend.
+ */
+async function readDriftGrid(iopt: InterpolationRequest, datasets: Record<string, StoredDataset>, hashes: Record<string, string>) {
+  const id = runTrend(iopt.trend).driftDataset;
+  if (id === null) return null;
+  const d = dataset(datasets, id, 'interpolation.trend');
+  if (d.kind !== 'grid')
+    throw new InputError(
+      `data set "${id}" is a ${d.kind} data set, not a grid`,
+      [{ field: 'interpolation.trend', problem: 'expected a data set of kind "grid" (a GeoTIFF)' }],
+      'invalid_request',
+    );
+  hashes.drift = sha256Hex(d.body);
+  return await driftGridFromBytes(gridDatasetBytes(d.body), `grid data set ${id}`);
+}
+
 /** Parses and checks a run request and the data sets it names. */
 export async function readRunInputs(request: unknown, datasets: Record<string, StoredDataset>): Promise<RunInputs> {
   const { req, iopt } = parseRequest(request);
@@ -208,7 +227,7 @@ export async function readRunInputs(request: unknown, datasets: Record<string, S
   const crs = outputCrs(req, iopt);
   const crsDef = await loadCrsDefinition(crs);
   hashes.request = sha256Json(request);
-  const interpOptions = engineOptions(req, iopt, faults, mask, crs, crsDef);
+  const interpOptions = { ...engineOptions(req, iopt, faults, mask, crs, crsDef), externalDrift: await readDriftGrid(iopt, datasets, hashes) };
   const faciesDepthKm = req.faciesDepthKm ?? (req.depthsKm.length > 0 ? Math.max(...req.depthsKm) : 10);
   if (req.heatFlowErrorCorrelation !== undefined) warnings.push(HEAT_FLOW_CORRELATION_DEPRECATED);
   return {

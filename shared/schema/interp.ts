@@ -7,7 +7,7 @@ import { parseFeatureCollection } from './features.ts';
 import { collectionFeatures, pointGeometry, lonLat } from './geojson.ts';
 import { VARIOGRAM_MODELS, type VariogramModel, type VariogramModelName } from '../interp/variogram.ts';
 import type { PointData } from '../interp/interpolate.ts';
-import { TREND_KINDS, type TrendKind } from '../interp/drift.ts';
+import { TREND_KINDS, type DriftKind, type TrendKind } from '../interp/drift.ts';
 import { DIRECTIONS_NEED_AUTO, directionsWithoutAuto } from '../interp/anisotropy-select.ts';
 
 /** Contracts of the interpolation engine's inputs (CLI and HTTP validate with these). */
@@ -43,6 +43,19 @@ export const directionsSchema = z
   .describe("with anisotropy 'auto': the direction classes of the directional semivariograms it is estimated from");
 
 /** Options of an interpolation request (HTTP body / library call), units in the names. */
+/** A run's drift from a grid data set: `drift:<datasetId>` or `auto:drift:<datasetId>`. */
+export const DRIFT_DATASET_FORM = /^(auto:)?drift:([A-Za-z0-9_-]{1,64})$/;
+
+/**
+ * A run's `interpolation.trend` as the engine takes it: the drift kind (a grid data set's form gives 'external', or
+ * 'auto' with it among the candidates) and the grid data set's id (null when the trend names none).
+ */
+export function runTrend(trend: string | undefined): { trend: DriftKind | 'auto' | undefined; driftDataset: string | null } {
+  const m = trend === undefined ? null : DRIFT_DATASET_FORM.exec(trend);
+  if (m === null) return { trend: trend as DriftKind | 'auto' | undefined, driftDataset: null };
+  return { trend: m[1] ? 'auto' : 'external', driftDataset: m[2] };
+}
+
 export const interpolationOptionsSchema = z
   .object({
     method: z.enum(['idw', 'kriging']),
@@ -66,9 +79,13 @@ export const interpolationOptionsSchema = z
     directions: directionsSchema.optional(),
     /**
      * Drift of the mean for kriging: none (ordinary kriging), linear or quadratic in the coordinates (universal
-     * kriging; the variogram is fitted on least-squares residuals), or auto (the lowest leave-one-out RMSE).
+     * kriging; the variogram is fitted on least-squares residuals), auto (the lowest leave-one-out RMSE), or in a run
+     * `drift:<datasetId>` (kriging with an external drift whose covariate is the project's grid data set) and
+     * `auto:drift:<datasetId>` (auto comparing that drift too).
      */
-    trend: z.enum([...TREND_KINDS, 'auto']).optional(),
+    trend: z
+      .union([z.enum([...TREND_KINDS, 'auto']), z.string().regex(DRIFT_DATASET_FORM, 'expected none, linear, quadratic, auto, drift:<datasetId> or auto:drift:<datasetId>')])
+      .optional(),
     /**
      * Cell declustering of the histogram the heat-flow simulation's normal-score transform reproduces: none (default),
      * auto (the cell size of the smallest declustered mean) or a cell side in km.

@@ -132,8 +132,10 @@ export type VariogramSummary = z.infer<typeof variogramSummarySchema>;
 /**
  * The drift of the mean the kriging used (shared/interp/drift.ts): none (ordinary kriging), a linear or quadratic
  * polynomial in the coordinates (universal kriging, the variogram fitted on least-squares residuals), or external (a
- * covariate grid; runs cannot name one today, so only the CLI produces it); how it was
- * chosen; with auto, each drift's leave-one-out RMSE (mW/m²) and MSDR side by side.
+ * covariate grid: the run's `interpolation.trend` = `drift:<datasetId>`, a data set of kind grid); how it was
+ * chosen; with auto, each drift's leave-one-out RMSE (mW/m²) and MSDR side by side. With an external drift,
+ * `covariate` gives the grid's name, its mean and sd at the sites and the least-squares trend intercept + slope·s
+ * (mW/m², and mW/m² per unit of the grid).
  */
 export const trendSummarySchema = z.strictObject({
   kind: z.enum(['none', 'linear', 'quadratic', 'external']),
@@ -151,6 +153,7 @@ export const trendSummarySchema = z.strictObject({
       }),
     )
     .optional(),
+  covariate: z.strictObject({ name: z.string(), mean: z.number(), sd: z.number(), intercept: z.number(), slope: z.number() }).optional(),
 });
 
 /** Leave-one-out cross-validation of the heat-flow interpolation (mW/m² for the errors; ratios unitless). */

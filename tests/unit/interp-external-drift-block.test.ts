@@ -135,7 +135,7 @@ for (const MODEL of [
       });
       writeFileSync(join(dir, 'b.R'), script.join('\n'));
       for (const line of rscript(join(dir, 'b.R')).trim().split('\n')) ref.push(line.trim().split(/\s+/).map(Number));
-    }, 60_000);
+    }, 300_000);
     afterAll(() => {
       if (dir !== '') rmSync(dir, { recursive: true, force: true });
     });

@@ -101,7 +101,7 @@ describe('kriging with an external drift against R gstat (z ~ s)', () => {
       const [key, ...nums] = line.trim().split(/\s+/);
       ref[key] = nums.map(Number);
     }
-  }, 60_000);
+  }, 300_000);
   afterAll(() => {
     if (dir !== '') rmSync(dir, { recursive: true, force: true });
   });
