@@ -89,12 +89,10 @@ const UPLOAD_FORMATS: Record<keyof typeof VECTOR_MEDIA_TYPES, { schema: Record<s
   },
 };
 const GRID_UPLOAD = "kind=grid: a one-band GeoTIFF covariate, checked before decoding; a run names it as interpolation.trend 'drift:<id>'";
-const UPLOAD_CONTENT: Record<string, { schema: Record<string, unknown> }> = {
-  ...Object.fromEntries(
-    Object.entries(VECTOR_MEDIA_TYPES).flatMap(([f, types]) => types.map((t) => [t, UPLOAD_FORMATS[f as keyof typeof VECTOR_MEDIA_TYPES]])),
-  ),
-  'image/tiff': { schema: { type: 'string', format: 'binary', description: GRID_UPLOAD } },
-};
+const UPLOAD_CONTENT: Record<string, { schema: Record<string, unknown> }> = Object.fromEntries<{ schema: Record<string, unknown> }>([
+  ...Object.entries(VECTOR_MEDIA_TYPES).flatMap(([f, types]) => types.map((t) => [t, UPLOAD_FORMATS[f as keyof typeof VECTOR_MEDIA_TYPES]] as const)),
+  ['image/tiff', { schema: { type: 'string', format: 'binary', description: GRID_UPLOAD } }] as const,
+]);
 /** Query parameters every vector upload reads besides its own (server/routes/datasets.ts). */
 const UPLOAD_QUERY = {
   crs: "EPSG:nnnn of a CSV's x,y / easting,northing columns (reprojected to WGS 84 with the offline EPSG definitions)",

@@ -84,7 +84,10 @@ export const interpolationOptionsSchema = z
      * `auto:drift:<datasetId>` (auto comparing that drift too).
      */
     trend: z
-      .union([z.enum([...TREND_KINDS, 'auto']), z.string().regex(DRIFT_DATASET_FORM, 'expected none, linear, quadratic, auto, drift:<datasetId> or auto:drift:<datasetId>')])
+      .union([
+        z.enum([...TREND_KINDS, 'auto']),
+        z.string().regex(DRIFT_DATASET_FORM, 'expected none, linear, quadratic, auto, drift:<datasetId> or auto:drift:<datasetId>'),
+      ])
       .optional(),
     /**
      * Cell declustering of the histogram the heat-flow simulation's normal-score transform reproduces: none (default),
