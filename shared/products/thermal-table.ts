@@ -11,8 +11,9 @@
  * (a quarter, half and three quarters), against the exact solve there, and kept only when the four nodes share their
  * status bits and pattern of missing values and each product's interpolated value lies within its tolerance
  * (TABLE_TOLERANCE) of the exact one. A cell whose q falls in an interval that failed, or outside the table, is
- * solved exactly. Results therefore agree with the per-cell solve to within those tolerances (plus the Float32
- * rounding of the grids), and do not depend on how the grid is cut into rows: the table is built once per zone from
+ * solved exactly. The check samples each interval at those three points; it is not a bound between them (on the
+ * demo model the largest difference found at 400,000 random heat flows was 0.95 of the depth tolerance). Results
+ * do not depend on how the grid is cut into rows: the table is built once per zone from
  * the whole grid's range.
  */
 import { geothermGrid, type CompiledModel, type GeothermGridOutput, type GeothermGridQuery } from '../thermal/index.ts';
