@@ -10,8 +10,8 @@ import { tmpdir } from 'node:os';
 import Database from 'better-sqlite3';
 import { readGeoPackage, toWgs84, wktEpsgCode } from '../../server/io/geopackage.ts';
 import { InputError } from '../../shared/errors.ts';
+import { requireGdal } from '../helpers/gdal.ts';
 
-const hasGdal = spawnSync('ogr2ogr', ['--version']).status === 0;
 let dir = '';
 beforeAll(() => {
   dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'formats-gpkg-crs-'));
@@ -45,7 +45,8 @@ describe('GeoPackage layers whose CRS comes as WKT', () => {
     expect(wktEpsgCode('PROJCS["x",GEOGCS["y",AUTHORITY["EPSG","4326"]],UNIT["metre",1]]')).toBeNull();
   });
 
-  it.skipIf(!hasGdal)('a WKT naming EPSG:27700 (its datum shift needs the OSTN15 grid file) → crs_needs_datum_grid naming file and layer', async () => {
+  it('a WKT naming EPSG:27700 (its datum shift needs the OSTN15 grid file) → crs_needs_datum_grid naming file and layer', async () => {
+    requireGdal('ogr2ogr');
     const bytes = wktOnlyGeoPackage('osgb', 'EPSG:27700', [
       [-1.5, 52.5],
       [-1.4, 52.6],
@@ -60,7 +61,8 @@ describe('GeoPackage layers whose CRS comes as WKT', () => {
     expect((err as InputError).message).toContain('OSTN15');
   });
 
-  it.skipIf(!hasGdal)('a WKT naming EPSG:32709 (WGS 84 / UTM 9S) lands on the original longitude/latitude within 1e-9°', async () => {
+  it('a WKT naming EPSG:32709 (WGS 84 / UTM 9S) lands on the original longitude/latitude within 1e-9°', async () => {
+    requireGdal('ogr2ogr');
     const pts: [number, number][] = [
       [-128.444454123, -38.095812987],
       [-127.90000001, -37.5],

@@ -9,8 +9,9 @@ import { writeGeoPackage, readGeoPackage } from '../../server/io/geopackage.ts';
 import { readZippedShapefile } from '../../server/io/vector-input.ts';
 import { CAUTION } from '../../shared/caution.ts';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
+import { requireGdal } from '../helpers/gdal.ts';
 
-const hasGdal = spawnSync('ogr2ogr', ['--version']).status === 0 && spawnSync('zip', ['-v']).status === 0;
+const TOOLS = ['ogr2ogr', 'ogrinfo', 'zip'] as const;
 let dir = '';
 let t: TestApp;
 beforeAll(async () => {
@@ -105,7 +106,8 @@ function expectSameSites(got: { features: { geometry: { coordinates: number[] };
 }
 
 describe('GeoPackage out', () => {
-  it.skipIf(!hasGdal)('ogrinfo opens it with no warnings; GeoJSON → GeoPackage → GeoJSON (ogr2ogr) keeps properties and coordinates', () => {
+  it('ogrinfo opens it with no warnings; GeoJSON → GeoPackage → GeoJSON (ogr2ogr) keeps properties and coordinates', () => {
+    requireGdal(...TOOLS);
     const f = join(dir, 'out.gpkg');
     writeFileSync(
       f,
@@ -135,7 +137,8 @@ describe('GeoPackage out', () => {
     expect(md).toContain(CAUTION);
   });
 
-  it.skipIf(!hasGdal)("a run's vector results as one GeoPackage: one table per GeoJSON layer, ogrinfo with no warnings, the same features", async () => {
+  it("a run's vector results as one GeoPackage: one table per GeoJSON layer, ogrinfo with no warnings, the same features", async () => {
+    requireGdal(...TOOLS);
     const res = await t.post('/api/runs', { sites: 'demo-sites', faults: 'demo-faults', model: 'demo-model', grid: { cellKm: 8 } });
     const runId = ((await res.json()) as { id: string }).id;
     const finished = await t.waitEnd(runId);
@@ -166,7 +169,8 @@ describe('GeoPackage out', () => {
 });
 
 describe('GeoPackage, Shapefile and projected CSV in (upload route)', () => {
-  it.skipIf(!hasGdal)('a GeoPackage in UTM 9S (EPSG:32709) comes back in WGS 84 within 1e-9°', async () => {
+  it('a GeoPackage in UTM 9S (EPSG:32709) comes back in WGS 84 within 1e-9°', async () => {
+    requireGdal(...TOOLS);
     const f = join(dir, 'utm.gpkg');
     run('ogr2ogr', ['-f', 'GPKG', '-t_srs', 'EPSG:32709', f, geojsonFile('sites.geojson', sites), '-nln', 'sites']);
     const r = await upload(readFileSync(f), 'application/geopackage+sqlite3', 'kind=sites&filename=utm.gpkg');
@@ -176,7 +180,8 @@ describe('GeoPackage, Shapefile and projected CSV in (upload route)', () => {
     expectSameSites(await storedSites(r.json.id!), 1e-9);
   });
 
-  it.skipIf(!hasGdal)('several layers: the layer is chosen by name; without it a 422 lists them', async () => {
+  it('several layers: the layer is chosen by name; without it a 422 lists them', async () => {
+    requireGdal(...TOOLS);
     const f = join(dir, 'two.gpkg');
     run('ogr2ogr', ['-f', 'GPKG', f, geojsonFile('s.geojson', sites), '-nln', 'heat_sites']);
     run('ogr2ogr', ['-f', 'GPKG', '-update', f, geojsonFile('f.geojson', faults), '-nln', 'fault_traces']);
@@ -192,7 +197,8 @@ describe('GeoPackage, Shapefile and projected CSV in (upload route)', () => {
     expect(wrongKind.json.error!.message).toContain('two.gpkg, layer "fault_traces"');
   });
 
-  it.skipIf(!hasGdal)('bad GeoPackages: corrupt, no CRS, unknown layer → 4xx JSON naming file and layer; nothing stored', async () => {
+  it('bad GeoPackages: corrupt, no CRS, unknown layer → 4xx JSON naming file and layer; nothing stored', async () => {
+    requireGdal(...TOOLS);
     const before = (await t.store.listDatasets()).length;
     const corrupt = await upload(
       new TextEncoder().encode('SQLite format 3\0 but not really'.repeat(40)),
@@ -215,7 +221,8 @@ describe('GeoPackage, Shapefile and projected CSV in (upload route)', () => {
     expect((await t.store.listDatasets()).length).toBe(before);
   });
 
-  it.skipIf(!hasGdal)('a zipped Shapefile with its .prj (EPSG:32709) → sites within 1e-9°; without .prj → 422 no_crs', async () => {
+  it('a zipped Shapefile with its .prj (EPSG:32709) → sites within 1e-9°; without .prj → 422 no_crs', async () => {
+    requireGdal(...TOOLS);
     const shpDir = join(dir, 'shp');
     mkdirSync(shpDir, { recursive: true });
     run('ogr2ogr', ['-f', 'ESRI Shapefile', '-t_srs', 'EPSG:32709', join(shpDir, 'sites.shp'), geojsonFile('s2.geojson', sites)]);
@@ -236,7 +243,8 @@ describe('GeoPackage, Shapefile and projected CSV in (upload route)', () => {
     expect(notzip.json.error!.message).toContain('x.zip');
   });
 
-  it.skipIf(!hasGdal)('projected CSV (x,y in EPSG:32709, written by ogr2ogr) with crs=EPSG:32709 → the same lon/lat within 1e-9°', async () => {
+  it('projected CSV (x,y in EPSG:32709, written by ogr2ogr) with crs=EPSG:32709 → the same lon/lat within 1e-9°', async () => {
+    requireGdal(...TOOLS);
     const csv = join(dir, 'utm.csv');
     run('ogr2ogr', ['-f', 'CSV', '-t_srs', 'EPSG:32709', '-lco', 'GEOMETRY=AS_XY', csv, geojsonFile('s3.geojson', sites)]);
     const text = readFileSync(csv, 'utf8');
