@@ -14,16 +14,9 @@ import { isUncertainModel } from '../thermal/realize.ts';
 import { TOOL_NAME, VERSION } from '../version.ts';
 import { DEFAULT_GL_ORDER } from './column-heat.ts';
 import { ROUTES } from './exergy.ts';
-import {
-  SUM_BLOCK,
-  allocateResourceOutput,
-  combineSums,
-  prepareResource,
-  resourceRange,
-  type PreparedResource,
-  type ResourceOutput,
-  type ResourceSpec,
-} from './monte-carlo.ts';
+import { allocateResourceOutput, combineSums, resourceRange, type ResourceOutput } from './monte-carlo.ts';
+import { prepareResource } from './prepare.ts';
+import { SUM_BLOCK, type PreparedResource, type ResourceSpec } from './resource-spec.ts';
 import { lonLatGridPolygonMask, pointsPolygonMask, polygonsOf } from './polygon-mask.ts';
 import type { AreaGeometry, HeatInPlaceOptions } from './schema.ts';
 import { areaTotals, type AreaTotals } from './totals.ts';

@@ -15,23 +15,18 @@ export {
 } from './column-heat.ts';
 export { JULIAN_YEAR_S, ROUTES, availableWorkFraction, heatInPlaceJ, powerMWFromEnergyJ } from './exergy.ts';
 export { buildHeatTable, lookupHeatTable, type HeatTable, type HeatTableOptions } from './heat-table.ts';
+export { allocateResourceOutput, combineSums, resourceRange, type CellSummaryBuffers, type ResourceOutput, type SetSums } from './monte-carlo.ts';
+export { prepareResource } from './prepare.ts';
 export {
   DEFAULT_PARAMETERS,
   SUM_BLOCK,
   SUM_QUANTITIES,
-  allocateResourceOutput,
-  cellNormal,
-  combineSums,
   parameterProblem,
-  prepareResource,
-  resourceRange,
-  type CellSummaryBuffers,
   type PreparedResource,
-  type ResourceOutput,
   type ResourceParameters,
   type ResourceSpec,
-  type SetSums,
-} from './monte-carlo.ts';
+} from './resource-spec.ts';
+export { cellNormal } from '../thermal/monte-carlo.ts';
 export { areaTotals, setMembership, totalValue, type AreaTotals, type TotalValue } from './totals.ts';
 export {
   gridCentresLonLat,

@@ -24,19 +24,6 @@ import type { HeatTable } from './heat-table.ts';
 import { accumulateBlock, lookupBlock, type BlockSink } from './realization-block.ts';
 import { SUM_BLOCK, SUM_QUANTITIES, type PreparedResource } from './resource-spec.ts';
 
-export { cellNormal } from '../thermal/monte-carlo.ts';
-export { prepareResource } from './prepare.ts';
-export {
-  DEFAULT_PARAMETERS,
-  SUM_BLOCK,
-  SUM_QUANTITIES,
-  parameterProblem,
-  type PreparedResource,
-  type RealizationParameters,
-  type ResourceParameters,
-  type ResourceSpec,
-} from './resource-spec.ts';
-
 const PCTS = [0.1, 0.5, 0.9];
 
 /** First zone set index, or the set count when there are no zones. */

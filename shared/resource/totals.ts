@@ -7,7 +7,8 @@
  * mean − nominal, which is not zero where the total is not linear in heat flow (e.g. through the Tmin threshold).
  */
 import { quantileSorted } from '../stats/quantile.ts';
-import type { PreparedResource, SetSums } from './monte-carlo.ts';
+import type { SetSums } from './monte-carlo.ts';
+import type { PreparedResource } from './resource-spec.ts';
 
 /**
  * A total: with realizations its mean (the central value), percentiles and sample sd; the nominal (deterministic)
