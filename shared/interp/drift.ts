@@ -1,3 +1,4 @@
+import { pointEnvelope } from './envelope.ts';
 import { choleskyInPlace, choleskySolve, dot } from './linalg.ts';
 
 /**
@@ -52,19 +53,12 @@ export function externalDriftFrame(atData: Float64Array): DriftFrame {
 export function driftFrame(kind: TrendKind, x: ArrayLike<number>, y: ArrayLike<number>): DriftFrame {
   const n = x.length;
   let sx = 0,
-    sy = 0,
-    x0 = Infinity,
-    x1 = -Infinity,
-    y0 = Infinity,
-    y1 = -Infinity;
+    sy = 0;
   for (let i = 0; i < n; i++) {
     sx += x[i];
     sy += y[i];
-    x0 = Math.min(x0, x[i]);
-    x1 = Math.max(x1, x[i]);
-    y0 = Math.min(y0, y[i]);
-    y1 = Math.max(y1, y[i]);
   }
+  const { x0, x1, y0, y1 } = pointEnvelope(x, y);
   const half = Math.max(x1 - x0, y1 - y0) / 2;
   return { kind, cxKm: n > 0 ? sx / n : 0, cyKm: n > 0 ? sy / n : 0, scaleKm: half > 0 ? half : 1 };
 }

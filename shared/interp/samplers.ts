@@ -1,4 +1,5 @@
 import { createStream, type RandomStream } from '../random/prng.ts';
+import { pointEnvelope } from './envelope.ts';
 import { Fft, fft2d, nextFftSize } from './fft.ts';
 import { choleskyInPlace } from './linalg.ts';
 import { correlation, modelCode, type VariogramModel } from './variogram.ts';
@@ -168,16 +169,7 @@ export class LatticeSampler implements Sampler {
 
   constructor(s: Sites, model: VariogramModel, m: [number, number, number, number], h: number) {
     if (!(h > 0 && Number.isFinite(h))) throw new RangeError(`lattice spacing must be > 0 km, got ${h}`);
-    let x0 = Infinity,
-      x1 = -Infinity,
-      y0 = Infinity,
-      y1 = -Infinity;
-    for (let i = 0; i < s.sx.length; i++) {
-      x0 = Math.min(x0, s.sx[i]);
-      x1 = Math.max(x1, s.sx[i]);
-      y0 = Math.min(y0, s.sy[i]);
-      y1 = Math.max(y1, s.sy[i]);
-    }
+    const { x0, x1, y0, y1 } = pointEnvelope(s.sx, s.sy);
     const nx = Math.round((x1 - x0) / h) + 1,
       ny = Math.round((y1 - y0) / h) + 1;
     // Correlation length (km): the range for the spherical model (exactly 0 beyond), twice the practical range for

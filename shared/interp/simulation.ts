@@ -1,5 +1,6 @@
 import { createStream } from '../random/prng.ts';
 import { FaultBarrier } from './barriers.ts';
+import { pointEnvelope } from './envelope.ts';
 import { KrigingPredictor } from './kriging.ts';
 import { buildSites, fillNormals, CholeskySampler, LatticeSampler, MAX_CHOLESKY_SITES, type Sampler, type Sites } from './samplers.ts';
 import { driftFrame, externalDriftFrame, type DriftKind } from './drift.ts';
@@ -161,16 +162,7 @@ function chooseSampler(s: SimulationSetup, sites: Sites, m: [number, number, num
   if (kind === 'cholesky') return new CholeskySampler(sites, s.model, m);
   let h = s.latticeKm;
   if (h === undefined) {
-    let x0 = Infinity,
-      x1 = -Infinity,
-      y0 = Infinity,
-      y1 = -Infinity;
-    for (let i = 0; i < nSites; i++) {
-      x0 = Math.min(x0, sites.sx[i]);
-      x1 = Math.max(x1, sites.sx[i]);
-      y0 = Math.min(y0, sites.sy[i]);
-      y1 = Math.max(y1, sites.sy[i]);
-    }
+    const { x0, x1, y0, y1 } = pointEnvelope(sites.sx, sites.sy);
     h = Math.max(x1 - x0, y1 - y0, 1e-3) / 512;
   }
   return new LatticeSampler(sites, s.model, m, h);
