@@ -70,14 +70,7 @@ export class NormalScoreTransform {
       if (v >= this.highTail) return normalQuantile(1 - 1e-9);
       return normalQuantile(p[m - 1] + ((1 - p[m - 1]) * (v - z[m - 1])) / (this.highTail - z[m - 1]));
     }
-    let lo = 0,
-      hi = m - 1;
-    while (hi - lo > 1) {
-      const mid = (lo + hi) >> 1;
-      if (z[mid] <= v) lo = mid;
-      else hi = mid;
-    }
-    return y[lo] + ((y[hi] - y[lo]) * (v - z[lo])) / (z[hi] - z[lo]);
+    return interpolateBetween(z, y, v);
   }
 
   /** Value of a score (the back-transform). */
@@ -86,13 +79,21 @@ export class NormalScoreTransform {
     const m = z.length;
     if (s <= y[0]) return this.lowTail + ((z[0] - this.lowTail) * normalCdf(s)) / p[0];
     if (s >= y[m - 1]) return z[m - 1] + ((this.highTail - z[m - 1]) * (normalCdf(s) - p[m - 1])) / (1 - p[m - 1]);
-    let lo = 0,
-      hi = m - 1;
-    while (hi - lo > 1) {
-      const mid = (lo + hi) >> 1;
-      if (y[mid] <= s) lo = mid;
-      else hi = mid;
-    }
-    return z[lo] + ((z[hi] - z[lo]) * (s - y[lo])) / (y[hi] - y[lo]);
+    return interpolateBetween(y, z, s);
   }
+}
+
+/**
+ * Linear interpolation of the pairs (from[k], to[k]) at v, between the two nodes of the ascending `from` that bracket
+ * it (bisection; the caller has handled v outside (from[0], from[m − 1])).
+ */
+function interpolateBetween(from: Float64Array, to: Float64Array, v: number): number {
+  let lo = 0,
+    hi = from.length - 1;
+  while (hi - lo > 1) {
+    const mid = (lo + hi) >> 1;
+    if (from[mid] <= v) lo = mid;
+    else hi = mid;
+  }
+  return to[lo] + ((to[hi] - to[lo]) * (v - from[lo])) / (from[hi] - from[lo]);
 }
