@@ -1,4 +1,4 @@
-import { NeighbourIndex, type VisibilityTest } from './neighbours.ts';
+import { NeighbourIndex, insertNearest, type VisibilityTest } from './neighbours.ts';
 import { choleskyInPlace, forwardSubstitute, choleskySolve, dot } from './linalg.ts';
 import { correlation, modelCode, checkVariogram, type VariogramModel } from './variogram.ts';
 import { EXACT_KM } from './idw.ts';
@@ -203,17 +203,7 @@ export class KrigingPredictor {
       const id = cand[t];
       const dx = x[id] - qx,
         dy = y[id] - qy;
-      const dd = dx * dx + dy * dy;
-      if (count === k && (dd > d2[k - 1] || (dd === d2[k - 1] && id > ids[k - 1]))) continue;
-      let pos = count < k ? count : k - 1;
-      while (pos > 0 && (d2[pos - 1] > dd || (d2[pos - 1] === dd && ids[pos - 1] > id))) {
-        ids[pos] = ids[pos - 1];
-        d2[pos] = d2[pos - 1];
-        pos--;
-      }
-      ids[pos] = id;
-      d2[pos] = dd;
-      if (count < k) count++;
+      count = insertNearest(ids, d2, count, k, id, dx * dx + dy * dy);
     }
     if (count < k) return this.anchorGap === Infinity ? count : -1;
     const far = Math.sqrt(d2[k - 1]);

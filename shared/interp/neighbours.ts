@@ -75,7 +75,7 @@ export class NeighbourIndex {
           if (d2 <= worst) {
             const id = ids[i];
             if (id === exclude || (vis !== null && !vis.visible(qx, qy, id))) continue;
-            count = insert(outIds, outD2, count, k, id, d2);
+            count = insertNearest(outIds, outD2, count, k, id, d2);
             if (count === k) worst = Math.min(worst, outD2[k - 1]);
           }
         }
@@ -90,7 +90,7 @@ export class NeighbourIndex {
       if (d2 <= worst) {
         const id = ids[m];
         if (id !== exclude && (vis === null || vis.visible(qx, qy, id))) {
-          count = insert(outIds, outD2, count, k, id, d2);
+          count = insertNearest(outIds, outD2, count, k, id, d2);
           if (count === k) worst = Math.min(worst, outD2[k - 1]);
         }
       }
@@ -147,7 +147,7 @@ function pushEmpty(si: Int32Array, sd: Float64Array, sp: number): void {
 }
 
 /** Inserts (id, d2) into the sorted buffers of capacity k; returns the new count. Ties keep the smaller id first. */
-function insert(ids: Int32Array, d2s: Float64Array, count: number, k: number, id: number, d2: number): number {
+export function insertNearest(ids: Int32Array, d2s: Float64Array, count: number, k: number, id: number, d2: number): number {
   let pos = count < k ? count : k - 1;
   if (count === k && (d2 > d2s[k - 1] || (d2 === d2s[k - 1] && id > ids[k - 1]))) return count;
   while (pos > 0 && (d2s[pos - 1] > d2 || (d2s[pos - 1] === d2 && ids[pos - 1] > id))) {
