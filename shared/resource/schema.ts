@@ -6,7 +6,7 @@
 import { z } from 'zod';
 import { InputError, type InputProblem } from '../errors.ts';
 import { multiPolygonGeometry, polygonGeometry } from '../schema/geojson.ts';
-import { uncertainNumberSchema, type UncertainNumber } from '../schema/model.ts';
+import { checkedRange, uncertainNumberSchema, type UncertainNumber } from '../schema/model.ts';
 
 const finite = z.number({ error: 'expected a finite number' });
 
@@ -30,19 +30,6 @@ export const heatInPlaceOptionsSchema = z
 export type HeatInPlaceOptions = z.output<typeof heatInPlaceOptionsSchema>;
 export type HeatInPlaceOptionsInput = z.input<typeof heatInPlaceOptionsSchema>;
 
-/** [smallest, largest] value a number or distribution can take (a normal: its mean, since draws beyond are rejected). */
-function range(v: UncertainNumber): [number, number] {
-  if (typeof v === 'number') return [v, v];
-  switch (v.dist) {
-    case 'normal':
-      return [v.mean, v.mean];
-    case 'truncnormal':
-    case 'uniform':
-    case 'triangular':
-      return [v.min, v.max];
-  }
-}
-
 /** Range checks zod's shapes cannot express (bottom > top, fractions in (0, 1], Tmin ≥ Tref). */
 export function checkHeatInPlaceOptions(o: HeatInPlaceOptions): InputProblem[] {
   const out: InputProblem[] = [];
@@ -50,14 +37,14 @@ export function checkHeatInPlaceOptions(o: HeatInPlaceOptions): InputProblem[] {
   if (!(o.minTempC >= o.refTempC)) out.push({ field: 'minTempC', problem: `must be ≥ refTempC (${o.refTempC} °C), got ${o.minTempC}` });
   const frac = (field: string, v: UncertainNumber | undefined) => {
     if (v === undefined) return;
-    const [lo, hi] = range(v);
+    const [lo, hi] = checkedRange(v);
     if (!(lo > 0 && hi <= 1))
       out.push({ field, problem: `must lie in (0, 1]${typeof v === 'number' ? `, got ${v}` : `, got a distribution over [${lo}, ${hi}]`}` });
   };
   frac('recoveryFactor', o.recoveryFactor);
   frac('utilizationEfficiency', o.utilizationEfficiency);
   frac('conversionEfficiency', o.conversionEfficiency);
-  const [rlo] = range(o.rhoCMJm3K);
+  const [rlo] = checkedRange(o.rhoCMJm3K);
   if (!(rlo > 0)) out.push({ field: 'rhoCMJm3K', problem: `must be > 0 MJ/m³/K, got ${rlo}` });
   return out;
 }

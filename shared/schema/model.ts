@@ -153,18 +153,27 @@ export type ThermalModelInput = z.infer<typeof thermalModelSchema>;
 
 type Num = UncertainNumber | undefined;
 
-/** Smallest and largest value a parameter can take (normal: ±∞ unless sd = 0). */
-function support(v: Num): [number, number] | null {
-  if (v === undefined) return null;
+/**
+ * The values a parameter's range checks must accept: a number itself, a normal its mean (draws outside a physical
+ * range are rejected per realization and counted, so only the mean must lie inside), a bounded distribution its
+ * bounds.
+ */
+export function checkedRange(v: UncertainNumber): [number, number] {
   if (typeof v === 'number') return [v, v];
   switch (v.dist) {
     case 'normal':
-      return v.sd === 0 ? [v.mean, v.mean] : [-Infinity, Infinity];
+      return [v.mean, v.mean];
     case 'truncnormal':
     case 'uniform':
     case 'triangular':
       return [v.min, v.max];
   }
+}
+
+/** Smallest and largest value a parameter can take (normal: ±∞ unless sd = 0). */
+function support(v: Num): [number, number] | null {
+  if (v === undefined) return null;
+  return typeof v !== 'number' && v.dist === 'normal' && v.sd !== 0 ? [-Infinity, Infinity] : checkedRange(v);
 }
 
 /** Checks the physical ranges zod's shapes cannot express; returns problems (empty = fine). */
@@ -174,19 +183,16 @@ export function checkThermalModel(m: ThermalModelInput): InputProblem[] {
   // Bounded parameters must be possible everywhere in their support; a normal may stray (draws outside the
   // physical range are rejected per realization and counted), but its mean must be valid.
   const positive = (i: number | null, field: string, v: Num, allowZero: boolean) => {
-    const s = support(v);
-    if (s === null) return;
-    const centre = typeof v === 'number' ? v : v !== undefined && 'mean' in v ? v.mean : s[0];
-    const lo = Number.isFinite(s[0]) ? s[0] : centre;
+    if (v === undefined) return;
+    const [lo] = checkedRange(v);
     const ok = allowZero ? lo >= 0 : lo > 0;
     if (!ok) out.push({ feature: i === null ? 'model' : where(i), field, problem: `must be ${allowZero ? '≥ 0' : '> 0'}, got ${lo}` });
   };
   // Plausible physical ranges (MODEL_BOUNDS.ranges, each with its source).
   const inRange = (i: number | null, field: RangedField, v: Num) => {
-    const s = support(v);
-    if (s === null || v === undefined) return;
+    if (v === undefined) return;
     const r = MODEL_BOUNDS.ranges[field];
-    const [lo, hi] = typeof v !== 'number' && v.dist === 'normal' ? [v.mean, v.mean] : s;
+    const [lo, hi] = checkedRange(v);
     if (lo < r.min || hi > r.max) {
       const got = lo === hi ? String(lo) : `${lo}…${hi}`;
       out.push({
