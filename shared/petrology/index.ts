@@ -12,6 +12,7 @@ export {
   lowPressureZoneRank,
   zoneNameProblem,
   ALL_ZONE_NAMES,
+  type GradeZone,
   type IndexMineralZone,
   type LowPressureZone,
 } from './zones.ts';

@@ -5,13 +5,19 @@
  */
 import { nearestName, normalizeName } from './edit-distance.ts';
 
-export interface IndexMineralZone {
-  name: 'chlorite' | 'biotite' | 'garnet' | 'staurolite' | 'kyanite' | 'sillimanite';
-  /** 0 (lowest grade) … 5. */
+/** One zone of a grade scale. */
+export interface GradeZone<Name extends string> {
+  name: Name;
+  /** 0 (lowest grade) … the scale's last. */
   rank: number;
-  /** Approximate temperature range of the isograd that opens this zone, °C; null for the lowest (chlorite) zone. */
+  /**
+   * Approximate temperature range of the isograd that opens this zone, °C; null for the lowest (chlorite) zone and
+   * where no temperature decides it.
+   */
   isogradTemperatureC: { min: number; max: number } | null;
 }
+
+export type IndexMineralZone = GradeZone<'chlorite' | 'biotite' | 'garnet' | 'staurolite' | 'kyanite' | 'sillimanite'>;
 
 export const INDEX_MINERAL_ZONES: readonly IndexMineralZone[] = Object.freeze([
   { name: 'chlorite', rank: 0, isogradTemperatureC: null },
@@ -26,8 +32,12 @@ export const ZONE_NAMES: readonly IndexMineralZone['name'][] = INDEX_MINERAL_ZON
 
 /** Rank (0–5) of a zone name (case- and space-insensitive; "garnet zone" accepted), or −1 when unknown. */
 export function zoneRank(name: string): number {
-  const n = normalizeName(name).replace(/-zone$/, '');
-  return ZONE_NAMES.indexOf(n as IndexMineralZone['name']);
+  return rankOn(ZONE_NAMES, name);
+}
+
+/** Index of a zone name (normalized, a trailing "zone" dropped) among a scale's names, or −1. */
+function rankOn(names: readonly string[], name: string): number {
+  return names.indexOf(normalizeName(name).replace(/-zone$/, ''));
 }
 
 /** The zone of a name, or null. */
@@ -61,11 +71,7 @@ export function isogradTemperatureC(name: string): number | null {
  * 1989 ch. 3; zone temperatures at about 2–3.5 kbar are approximate values from memory). Sillimanite on this scale
  * is decided by the andalusite = sillimanite line, not by a temperature.
  */
-export interface LowPressureZone {
-  name: 'chlorite' | 'biotite' | 'cordierite' | 'andalusite' | 'sillimanite';
-  rank: number;
-  isogradTemperatureC: { min: number; max: number } | null;
-}
+export type LowPressureZone = GradeZone<'chlorite' | 'biotite' | 'cordierite' | 'andalusite' | 'sillimanite'>;
 
 export const LOW_PRESSURE_ZONES: readonly LowPressureZone[] = Object.freeze([
   { name: 'chlorite', rank: 0, isogradTemperatureC: null },
@@ -79,8 +85,7 @@ export const LOW_PRESSURE_ZONE_NAMES: readonly LowPressureZone['name'][] = LOW_P
 
 /** Rank (0–4) of a zone name on the low-pressure scale, or −1. */
 export function lowPressureZoneRank(name: string): number {
-  const n = normalizeName(name).replace(/-zone$/, '');
-  return LOW_PRESSURE_ZONE_NAMES.indexOf(n as LowPressureZone['name']);
+  return rankOn(LOW_PRESSURE_ZONE_NAMES, name);
 }
 
 /** Every zone name the program accepts (both scales), for suggestions. */
