@@ -34,7 +34,7 @@ import {
 } from './simulation-input.ts';
 import { interpolateGrid } from '../../shared/interp/interpolate.ts';
 import { WGS84_DEF } from '../../shared/interp/projection.ts';
-import { followKrigedTrend, SIMULATION_STREAM_OFFSET, simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
+import { followKrigedTrend, sharedKrigingOptions, SIMULATION_STREAM_OFFSET, simulateRunHeatFlow } from '../runs/heat-flow-simulation.ts';
 import { assessOnGrid } from '../io/resource-output.ts';
 import { trendOption } from './drift-input.ts';
 import { renderText } from './heat-in-place-text.ts';
@@ -326,14 +326,8 @@ async function heatFlowFromPoints(v: SimulationArgs, realizations: number, seed:
   const scoreVariogram = so.transform !== 'none' && typeof so.variogram === 'object';
   const kr = interpolateGrid(points, {
     method: 'kriging',
+    ...sharedKrigingOptions(so),
     variogram: scoreVariogram ? 'auto' : so.variogram,
-    anisotropy: so.anisotropy,
-    trend: so.trend,
-    externalDrift: so.externalDrift,
-    neighbors: so.neighbors,
-    lagKm: so.lagKm,
-    maxLagKm: so.maxLagKm,
-    measurementError: so.measurementError,
     grid,
     sd: false,
     crossValidation: false,

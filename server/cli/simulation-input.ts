@@ -13,7 +13,7 @@ import { numberOption, textOptions } from './args.ts';
 import { bboxOption, neighborsOption, optionalNumber, readPointsFile, sizeOption } from './point-input.ts';
 import { namesDriftGrid, type TrendChoice } from './drift-input.ts';
 import { DIRECTION_HELP, DIRECTION_OPTIONS, directionsOption } from './directions-option.ts';
-import type { RunSimulationOptions } from '../runs/heat-flow-simulation.ts';
+import { sharedKrigingOptions, type RunSimulationOptions } from '../runs/heat-flow-simulation.ts';
 
 /** parseArgs options of the simulation (the verb adds its own). */
 export const SIMULATION_OPTIONS = {
@@ -138,17 +138,5 @@ export async function gridOptionsFromArgs(a: SimulationArgs): Promise<OutputGrid
  */
 export function heatFlowSimulationOptions(a: SimulationArgs, trend: TrendChoice): RunSimulationOptions {
   const so = simulationOptionsFromArgs(a, 1, 0, 'mW/m²', trend);
-  return {
-    variogram: so.variogram,
-    anisotropy: so.anisotropy,
-    directions: so.directions,
-    trend: so.trend,
-    externalDrift: so.externalDrift,
-    neighbors: so.neighbors,
-    lagKm: so.lagKm,
-    maxLagKm: so.maxLagKm,
-    measurementError: so.measurementError,
-    transform: so.transform,
-    declustering: so.declustering,
-  };
+  return { ...sharedKrigingOptions(so), variogram: so.variogram, directions: so.directions, transform: so.transform, declustering: so.declustering };
 }

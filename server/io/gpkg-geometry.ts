@@ -32,25 +32,23 @@ class ByteWriter {
     this.buf.copy(b, 0, 0, this.length);
     this.buf = b;
   }
+  /** Appends `n` bytes written by `write` at the current end. */
+  private put(n: number, write: (b: Buffer, at: number) => unknown) {
+    this.room(n);
+    write(this.buf, this.length);
+    this.length += n;
+  }
   u8(v: number) {
-    this.room(1);
-    this.buf.writeUInt8(v, this.length);
-    this.length += 1;
+    this.put(1, (b, at) => b.writeUInt8(v, at));
   }
   u32(v: number) {
-    this.room(4);
-    this.buf.writeUInt32LE(v, this.length);
-    this.length += 4;
+    this.put(4, (b, at) => b.writeUInt32LE(v, at));
   }
   i32(v: number) {
-    this.room(4);
-    this.buf.writeInt32LE(v, this.length);
-    this.length += 4;
+    this.put(4, (b, at) => b.writeInt32LE(v, at));
   }
   f64(v: number) {
-    this.room(8);
-    this.buf.writeDoubleLE(v, this.length);
-    this.length += 8;
+    this.put(8, (b, at) => b.writeDoubleLE(v, at));
   }
   bytes(): Buffer {
     return this.buf.subarray(0, this.length);

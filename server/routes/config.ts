@@ -4,10 +4,10 @@
  */
 import type { Hono } from 'hono';
 import { CAUTION } from '../../shared/caution.ts';
-import { InputError } from '../../shared/errors.ts';
 import { VERSION } from '../../shared/version.ts';
 import { DEMO_DATASETS, DEMO_PROJECT_ID } from '../demo.ts';
 import { limitsView, type Limits } from '../limits.ts';
+import { pngTile, tileAddress } from './png-tiles.ts';
 import { TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM, type TerrainTiles } from '../terrain.ts';
 
 export function configRoutes(app: Hono, limits: Limits, terrain: TerrainTiles | null): void {
@@ -37,23 +37,8 @@ export function configRoutes(app: Hono, limits: Limits, terrain: TerrainTiles | 
   );
 
   app.get('/api/terrain/:z/:x/:y', (c) => {
-    const { z, x } = c.req.param();
-    const yFile = c.req.param('y');
-    const m = /^(\d+)\.png$/.exec(yFile);
-    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x)) {
-      throw new InputError(
-        'terrain tiles are /api/terrain/{z}/{x}/{y}.png with integer z, x, y',
-        [{ field: 'path', problem: `got ${z}/${x}/${yFile}` }],
-        'bad_tile',
-      );
-    }
-    const png = terrain?.tile(Number(z), Number(x), Number(m[1])) ?? null;
-    if (!png)
-      throw new InputError(
-        `no terrain tile ${z}/${x}/${m[1]}`,
-        [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }],
-        'tile_not_found',
-      );
-    return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'public, max-age=3600' });
+    const t = tileAddress(c, 'a terrain tile');
+    const zooms = `the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}`;
+    return pngTile(c, terrain?.tile(t.z, t.x, t.y) ?? null, t, 'terrain tile', zooms, 'public, max-age=3600');
   });
 }

@@ -2,6 +2,7 @@ import { Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
 import { encodingForUnits, maplibreEncoding } from '../../shared/grid/terrain-rgb.ts';
 import { WindowTiles } from '../terrain.ts';
+import { pngTile, tileAddress } from './png-tiles.ts';
 import type { GeoTiffFile } from '../io/geotiff.ts';
 
 /** Zoom range of run-layer tiles: whole regions at 4, about 20 m pixels at 13. */
@@ -105,19 +106,11 @@ export function gridTileRoutes(deps: GridTileDeps, opts: { cacheLayers?: number 
   });
 
   app.get('/runs/:id/tiles/:layer/:z/:x/:y', async (c) => {
-    const { id, layer, z, x, y } = c.req.param();
-    const m = /^(\d+)\.png$/.exec(y);
-    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x))
-      throw new InputError('tiles are …/{z}/{x}/{y}.png with integers', [{ field: 'path', problem: `${z}/${x}/${y}` }], 'bad_tile');
+    const { id, layer } = c.req.param();
+    const t = tileAddress(c, 'a tile');
     const { tiles } = await tilesFor(id, layer);
-    const png = await tiles.tile(Number(z), Number(x), Number(m[1]));
-    if (!png)
-      throw new InputError(
-        `no tile ${z}/${x}/${m[1]} in layer "${layer}"`,
-        [{ field: 'tile', problem: `outside the layer or zoom ${MIN_ZOOM}–${MAX_ZOOM}` }],
-        'tile_not_found',
-      );
-    return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'public, max-age=86400, immutable' });
+    const png = await tiles.tile(t.z, t.x, t.y);
+    return pngTile(c, png, t, `layer "${layer}" tile`, `the layer or zoom ${MIN_ZOOM}–${MAX_ZOOM}`, 'public, max-age=86400, immutable');
   });
 
   return app;

@@ -18,6 +18,7 @@ import { z } from 'zod';
 import { gridBbox, gridSpecOf } from '../../shared/grid/grid.ts';
 import { demFromUpload } from '../terrain-upload.ts';
 import { gridDatasetBytes } from '../io/grid-dataset.ts';
+import { pngTile, tileAddress } from './png-tiles.ts';
 import { TerrainTiles, TERRAIN_MAX_ZOOM, TERRAIN_MIN_ZOOM } from '../terrain.ts';
 
 /** Default names of uploads that come without one, by kind. */
@@ -276,18 +277,9 @@ function projectTerrainRoutes(app: Hono, ctx: AppContext): void {
 
   app.get('/api/projects/:id/terrain/:z/:x/:y', async (c) => {
     const id = await projectIdOf(c, ctx);
-    const { z, x } = c.req.param();
-    const m = /^(\d+)\.png$/.exec(c.req.param('y'));
-    if (!m || !/^\d+$/.test(z) || !/^\d+$/.test(x))
-      throw new InputError('terrain tiles are …/terrain/{z}/{x}/{y}.png with integer z, x, y', [{ field: 'path', problem: 'bad tile address' }], 'bad_tile');
-    const png = (await cachedTerrainTiles(ctx, terrainTiles, id)).tile(Number(z), Number(x), Number(m[1]));
-    if (!png)
-      throw new InputError(
-        `no terrain tile ${z}/${x}/${m[1]}`,
-        [{ field: 'tile', problem: `outside the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}` }],
-        'tile_not_found',
-      );
-    return c.body(new Uint8Array(png), 200, { 'content-type': 'image/png', 'cache-control': 'no-cache' });
+    const t = tileAddress(c, 'a terrain tile');
+    const png = (await cachedTerrainTiles(ctx, terrainTiles, id)).tile(t.z, t.x, t.y);
+    return pngTile(c, png, t, 'terrain tile', `the terrain or zoom ${TERRAIN_MIN_ZOOM}–${TERRAIN_MAX_ZOOM}`, 'no-cache');
   });
 }
 

@@ -59,6 +59,22 @@ export interface RunSimulationOptions {
 }
 
 /**
+ * The options the kriged heat-flow map and the simulation conditioned like it share, picked from either's options:
+ * the same anisotropy, drift (and its covariate grid), neighbours, lags and measurement errors for both.
+ */
+export function sharedKrigingOptions(o: RunSimulationOptions) {
+  return {
+    anisotropy: o.anisotropy,
+    trend: o.trend,
+    externalDrift: o.externalDrift,
+    neighbors: o.neighbors,
+    lagKm: o.lagKm,
+    maxLagKm: o.maxLagKm,
+    measurementError: o.measurementError,
+  };
+}
+
+/**
  * Refuses a run request whose interpolation declusters with a fixed variogram: a fixed variogram is in heat-flow
  * units, so the simulation has no normal-score transform, and declustering weights only that transform's histogram.
  */

@@ -58,18 +58,24 @@ function parseJsonBody(d: StoredDataset, id: string, field: string): unknown {
   }
 }
 
+/** The data set `id` that `field` names, refused unless it is of `kind` (`what`: how a problem names that kind). */
+function datasetOfKind(datasets: Record<string, StoredDataset>, id: string, field: string, kind: StoredDataset['kind'], what: string): StoredDataset {
+  const d = dataset(datasets, id, field);
+  if (d.kind !== kind)
+    throw new InputError(
+      `data set "${id}" is a ${d.kind} data set, not a ${kind}`,
+      [{ field, problem: `expected a data set of kind "${kind}"${what}` }],
+      'invalid_request',
+    );
+  return d;
+}
+
 function readModel(req: RunRequest, datasets: Record<string, StoredDataset>, hashes: Record<string, string>): ModelDocument {
   if (typeof req.model !== 'string') {
     hashes.model = sha256Json(req.model);
     return parseModelDocument(req.model, 'model');
   }
-  const md = dataset(datasets, req.model, 'model');
-  if (md.kind !== 'model')
-    throw new InputError(
-      `data set "${req.model}" is a ${md.kind} data set, not a model`,
-      [{ field: 'model', problem: 'expected a data set of kind "model"' }],
-      'invalid_request',
-    );
+  const md = datasetOfKind(datasets, req.model, 'model', 'model', '');
   hashes.model = sha256Hex(md.body);
   return parseModelText(md.body, `model ${req.model}`);
 }
@@ -202,13 +208,7 @@ function engineOptions(
 async function readDriftGrid(iopt: InterpolationRequest, datasets: Record<string, StoredDataset>, hashes: Record<string, string>) {
   const id = runTrend(iopt.trend).driftDataset;
   if (id === null) return null;
-  const d = dataset(datasets, id, 'interpolation.trend');
-  if (d.kind !== 'grid')
-    throw new InputError(
-      `data set "${id}" is a ${d.kind} data set, not a grid`,
-      [{ field: 'interpolation.trend', problem: 'expected a data set of kind "grid" (a GeoTIFF)' }],
-      'invalid_request',
-    );
+  const d = datasetOfKind(datasets, id, 'interpolation.trend', 'grid', ' (a GeoTIFF)');
   hashes.drift = sha256Hex(d.body);
   return await driftGridFromBytes(gridDatasetBytes(d.body), `grid data set ${id}`);
 }
