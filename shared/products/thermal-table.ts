@@ -16,6 +16,7 @@
  * do not depend on how the grid is cut into rows: the table is built once per zone from
  * the whole grid's range.
  */
+import { cubicLagrange } from '../interp/lagrange.ts';
 import { geothermGrid, type CompiledModel, type GeothermGridOutput, type GeothermGridQuery } from '../thermal/index.ts';
 
 /** Largest difference allowed between an interpolated and an exact product at an interval's check points. */
@@ -208,17 +209,7 @@ export function geothermGridByTable(
       continue;
     }
     const u = x - b;
-    const u1 = u - 1,
-      u2 = u - 2,
-      u3 = u - 3;
-    const l0 = (-u1 * u2 * u3) / 6,
-      l1 = (u * u2 * u3) / 2,
-      l2 = (-u * u1 * u3) / 2,
-      l3 = (u * u1 * u2) / 6;
-    for (let k = 0; k < dst.length; k++) {
-      const v = t.values[k];
-      dst[k][c] = l0 * v[b] + l1 * v[b + 1] + l2 * v[b + 2] + l3 * v[b + 3];
-    }
+    for (let k = 0; k < dst.length; k++) dst[k][c] = cubicLagrange(t.values[k], b, 1, u);
     status[c] = t.status[j];
   }
   if (nRest > 0) solveCells(models, q, query, out, zones, rest.subarray(0, nRest));

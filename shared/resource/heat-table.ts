@@ -10,6 +10,7 @@
  * interpolated by the local four-point (cubic Lagrange) rule, whose stencil never crosses a segment end, so the
  * interpolation error is O(h⁴) of a smooth function (the tests bound it against direct evaluation).
  */
+import { cubicLagrange } from '../interp/lagrange.ts';
 import type { CompiledModel } from '../thermal/compile.ts';
 import type { ColumnState } from '../thermal/column.ts';
 import { columnHeatFlow, columnTemperature, solveColumn } from '../thermal/column.ts';
@@ -127,19 +128,11 @@ export function lookupHeatTable(t: HeatTable, q: number, out: Float64Array): boo
   let base = j - 1;
   if (base < 0) base = 0;
   if (base > m - 3) base = m - 3;
+  // Cubic Lagrange on nodes base … base + 3 at offset u ∈ [0, 3] (three quantities interleaved: stride 3).
   const u = x - base;
-  // Cubic Lagrange weights on nodes base … base + 3 at offset u ∈ [0, 3].
-  const u1 = u - 1,
-    u2 = u - 2,
-    u3 = u - 3;
-  const l0 = (-u1 * u2 * u3) / 6,
-    l1 = (u * u2 * u3) / 2,
-    l2 = (-u * u1 * u3) / 2,
-    l3 = (u * u1 * u2) / 6;
-  const v = t.values;
   const k = (t.firstNode[s] + base) * 3;
   for (let c = 0; c < 3; c++) {
-    const r = l0 * v[k + c] + l1 * v[k + 3 + c] + l2 * v[k + 6 + c] + l3 * v[k + 9 + c];
+    const r = cubicLagrange(t.values, k + c, 3, u);
     out[c] = r > 0 ? r : 0;
   }
   return true;

@@ -1,11 +1,11 @@
 /**
  * The inner loops of a heat-in-place realization over one block of cells (monte-carlo.ts: resourceRange), run
  * cells × realizations times: `lookupBlock` draws each cell's heat flow and reads its column integrals from the
- * realization's heat-flow table (cubic interpolation, lookupHeatTable of heat-table.ts inlined), `accumulateBlock`
+ * realization's heat-flow table (cubic interpolation, lookupHeatTable of heat-table.ts), `accumulateBlock`
  * turns them into densities and adds them to the sums of the grid, the polygon and the zones, in cell order.
  */
 import { cellNormal } from '../thermal/monte-carlo.ts';
-import type { HeatTable } from './heat-table.ts';
+import { lookupHeatTable, type HeatTable } from './heat-table.ts';
 import { SUM_QUANTITIES, type Floats } from './resource-spec.ts';
 
 /** Where one realization's heat flow comes from: the simulated field, or q + sd·z (z keyed per cell or one per realization). */
@@ -57,46 +57,13 @@ export function lookupBlock(
       tz = zones[c];
       t = tabs[tz];
     }
-    let g = 0,
-      x = 0,
-      h = 0;
-    // lookupHeatTable (heat-table.ts) inlined on purpose: this is the innermost loop of every realization × cell, and
-    // it is kept hand-inlined for speed; the arithmetic is the same, term for term, so totals do not change.
-    if (q0 >= t.qLo && q0 <= t.qHi) {
-      const ends = t.ends,
-        vals = t.values,
-        lastSeg = ends.length - 2;
-      let sg = 0;
-      while (sg < lastSeg && q0 >= ends[sg + 1]) sg++;
-      const m = t.intervals[sg];
-      const u0 = (q0 - ends[sg]) / t.step[sg];
-      let base = Math.floor(u0) - 1;
-      if (base > m - 3) base = m - 3;
-      if (base < 0) base = 0;
-      const u = u0 - base,
-        u1 = u - 1,
-        u2 = u - 2,
-        u3 = u - 3;
-      const l0 = (-u1 * u2 * u3) / 6,
-        l1 = (u * u2 * u3) / 2,
-        l2 = (-u * u1 * u3) / 2,
-        l3 = (u * u1 * u2) / 6;
-      const k = (t.firstNode[sg] + base) * 3;
-      g = l0 * vals[k] + l1 * vals[k + 3] + l2 * vals[k + 6] + l3 * vals[k + 9];
-      x = l0 * vals[k + 1] + l1 * vals[k + 4] + l2 * vals[k + 7] + l3 * vals[k + 10];
-      h = l0 * vals[k + 2] + l1 * vals[k + 5] + l2 * vals[k + 8] + l3 * vals[k + 11];
-      if (!(g > 0)) g = 0;
-      if (!(x > 0)) x = 0;
-      if (!(h > 0)) h = 0;
-    } else if (q0 > 0) {
-      fallback(tz, q0, o);
-      g = o[0];
-      x = o[1];
-      h = o[2];
+    if (!lookupHeatTable(t, q0, o)) {
+      if (q0 > 0) fallback(tz, q0, o);
+      else o.fill(0);
     }
-    G[i] = g;
-    X[i] = x;
-    Hh[i] = h;
+    G[i] = o[0];
+    X[i] = o[1];
+    Hh[i] = o[2];
   }
 }
 
