@@ -23,10 +23,11 @@ export function gradientBar(colors: string[], min: number, max: number, units: s
 /** The legend of a run layer from the server's description (a ramp or classes, with units). */
 export function legendFromSpec(legend: Legend | null, units: string, range?: [number, number]): HTMLElement {
   if (legend === null) return el('p', { class: 'note' }, units ? `Units: ${units}` : 'No legend');
-  if (legend.type === 'ramp') {
-    const [min, max] = range ?? [legend.min, legend.max];
-    return gradientBar(legend.colors, min, max, legend.units || units);
-  }
+  const body = legend.type === 'ramp' ? gradientBar(legend.colors, ...(range ?? [legend.min, legend.max]), legend.units || units) : classList(legend);
+  return legend.note === undefined ? body : el('div', {}, body, el('p', { class: 'note legend-note' }, legend.note));
+}
+
+function classList(legend: Extract<Legend, { type: 'classes' }>): HTMLElement {
   return el(
     'ul',
     { class: 'swatches' },
@@ -38,8 +39,9 @@ export function legendFromSpec(legend: Legend | null, units: string, range?: [nu
 /** One line of text for a legend (the PNG export's legend strip). */
 export function legendLine(label: string, legend: Legend | null, units: string): string {
   if (legend === null) return label;
-  if (legend.type === 'ramp') return `${label}: ${tick(legend.min)}–${tick(legend.max)} ${legend.units || units}`;
-  return `${label}: ${legend.classes.map((k) => k.label).join(', ')}`;
+  const note = legend.note === undefined ? '' : ` (${legend.note})`;
+  if (legend.type === 'ramp') return `${label}: ${tick(legend.min)}–${tick(legend.max)} ${legend.units || units}${note}`;
+  return `${label}: ${legend.classes.map((k) => k.label).join(', ')}${note}`;
 }
 
 /** The entries of the demo's data layers and the terrain. */

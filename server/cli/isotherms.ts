@@ -34,8 +34,9 @@ const HELP = `subtherm isotherms: thermal grids from a heat-flow grid and a ther
   --contour-interval-km K     depth-contour interval (default 1)
   --contour-interval-c C      temperature-contour interval (default: about 12 levels)
   --realizations N --seed S   Monte Carlo → depth-<T>C.p10/.p50/.p90/.mean.tif and temperature-<d>km.p10/… .mean.tif
-                              (the mean of the realizations is the central value), and .mean-diff.tif: that mean
-                              minus the deterministic grid
+                              (the mean of the realizations is the central value), .mean-diff.tif: that mean
+                              minus the deterministic grid, and depth-<T>C.reached.tif: the share of realizations
+                              reaching the isotherm above the maximum depth (0–1; the mean is NoData below 1)
   --heat-flow-error-correlation full|independent   (deprecated; default full) with --heat-flow-sd
   --points P.geojson|P.csv    instead of --heat-flow-sd: the realizations' heat flow is simulated conditionally from
                               these sites on the heat-flow grid (with --variogram, --anisotropy, --directions,

@@ -17,6 +17,15 @@ export function clientErrorResponses(): Record<string, unknown> {
   return Object.fromEntries(CLIENT_ERROR_STATUSES.map((s) => [`ClientError${s}`, { description: clientErrorText(s), content }]));
 }
 
+/** A run's layer in GET /api/runs/:id, with the names of the thermal products (shared/products/names.ts). */
+export const RUN_LAYER_TEXT =
+  'a layer: name, title, units, legend (a ramp or classes, with units and an optional note) and formats with their URLs. Names: heat-flow, ' +
+  'heat-flow-sd, depth-<T>C (depth to the isotherm T °C, km) and temperature-<d>km (°C); with realizations each also .p10, .p50, .p90, ' +
+  '.mean (the mean of the realizations; for a depth NoData where some realization does not reach the isotherm above the maximum depth) and ' +
+  '.mean-diff (that mean − the deterministic map), and per isotherm depth-<T>C.reached (fraction 0–1: the share of the valid realizations ' +
+  'reaching it above the maximum depth; the mean is defined only where it is 1); facies-<d>km, base-heat-flow, solidus-depth, melt-onset, ' +
+  'inconsistent, cv-residuals, no-data-across-faults, isograds and the other structure layers';
+
 const depthsPerColumn = (description: string) => ({ type: 'array', items: { type: ['number', 'null'] }, description });
 /** POST /api/section (shared/products/section.ts computeSection): the section's grid and, per column, its limits. */
 export const sectionAnswerSchema = {

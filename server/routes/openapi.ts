@@ -8,7 +8,7 @@ import { VERSION } from '../../shared/version.ts';
 import { VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
 import { columnAnswerSchema } from '../../shared/schema/column.ts';
 import { heatFlowCorrectionRequestSchema } from '../../shared/heatflow/dataset-corrections.ts';
-import { CLIENT_ERROR_STATUSES, clientErrorResponses, clientErrorText, sectionAnswerSchema } from './openapi-answers.ts';
+import { CLIENT_ERROR_STATUSES, RUN_LAYER_TEXT, clientErrorResponses, clientErrorText, sectionAnswerSchema } from './openapi-answers.ts';
 import { columnAtRunSchema, columnOfModelSchema, datasetPatchSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
 
 const json = (schema: z.ZodType) => z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any', target: 'draft-2020-12' });
@@ -30,7 +30,7 @@ const runViewSchema = {
     message: { type: 'string' },
     position: { type: 'integer', minimum: 1, description: 'while queued: 1-based place in the fair start order' },
     estimateSeconds: { type: ['number', 'null'], minimum: 0, description: 'while queued or running: seconds to the end; null until measured' },
-    layers: { type: 'array', items: { type: 'object', description: 'a layer: name, title, units, legend, formats and their URLs' } },
+    layers: { type: 'array', items: { type: 'object', description: RUN_LAYER_TEXT } },
     summary: {
       anyOf: [ref('RunSummary'), { type: 'null' }],
       description: 'the run summary (the run contract of shared/schema/run.ts); null until the run is done',

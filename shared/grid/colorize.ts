@@ -90,10 +90,11 @@ export function colorizeWithLegend(values: ArrayLike<number>, legend: Legend, ra
  * Plain-text description of a legend (value → colour, units), one line per stop or class, for a PNG tEXt chunk.
  */
 export function legendText(legend: Legend): string {
+  const note = legend.note === undefined ? [] : [legend.note];
   if (legend.type === 'classes') {
-    return [`classes (${legend.units})`, ...legend.classes.map((k) => `${k.value} ${k.color} ${k.label}`)].join('\n');
+    return [`classes (${legend.units})`, ...legend.classes.map((k) => `${k.value} ${k.color} ${k.label}`), ...note].join('\n');
   }
   const n = legend.colors.length - 1;
   const lines = legend.colors.map((c, i) => `${+(legend.min + ((legend.max - legend.min) * i) / Math.max(1, n)).toPrecision(6)} ${c}`);
-  return [`ramp (${legend.units}), linear between stops; no data transparent`, ...lines].join('\n');
+  return [`ramp (${legend.units}), linear between stops; no data transparent`, ...lines, ...note].join('\n');
 }

@@ -267,7 +267,7 @@ function addMonteCarlo(out: ColumnAnswer, q: ColumnQuery, q0: number, profileDep
     w.push(`${mc.rejected} of ${q.realizations} realizations had physically impossible draws and were left out (first: ${mc.firstRejection})`);
   if (mc.inconsistent > 0)
     w.push(
-      `${mc.inconsistent} of ${q.realizations} realizations had a column that is not valid throughout (melt onset, heat flow exhausted or k(T) undefined); values below that depth are left out`,
+      `${mc.inconsistent} of ${q.realizations} realizations had a column that is not valid throughout (melt onset, heat flow exhausted or k(T) undefined); values below that depth are left out, except that an isotherm hotter than the peak of a column whose heat flow runs out counts as not reached`,
     );
 }
 

@@ -1,7 +1,9 @@
 /**
  * The layers of the thermal products: each grid with its title, units, legend, ramp, method text and contours —
  * depth to each isotherm and temperature at each depth (with a Monte Carlo: their P10/P50/P90 and mean over the
- * realizations on the same legend, and the mean minus the deterministic map on a diverging legend), and the limit layers (facies, base heat flow, solidus depth, melt onset, inconsistency flags). Assembled by
+ * realizations on the same legend, the mean minus the deterministic map on a diverging legend, and per isotherm the
+ * share of the realizations reaching it above the maximum depth), and the limit layers (facies, base heat flow,
+ * solidus depth, melt onset, inconsistency flags). Assembled by
  * `computeThermalProducts` (thermal-products.ts) from the filled grid buffers.
  */
 import type { Grid, GridSpec } from '../grid/grid.ts';
@@ -117,6 +119,8 @@ interface SummarySubject {
   legend: Legend;
   what: string;
   notFinite: string;
+  /** The mean's NoData rule in a sentence, for its legend. */
+  meanRule: string;
   deterministic: Float32Array;
 }
 
@@ -140,9 +144,9 @@ function summaryLayers(c: LayerContext, mc: MonteCarloGrids, s: SummaryGrids, su
     title: `${sub.title}, mean of the realizations`,
     units: sub.units,
     grid: productGrid(c.heatFlow, s.mean, sub.units),
-    legend: sub.legend,
+    legend: { ...sub.legend, note: sub.meanRule },
     ramp: sub.ramp,
-    method: `mean of the ${sub.what} ${over}, the central value of the Monte Carlo (invalid realizations left out); ${sub.notFinite}, so the mean is NoData in every cell where any valid realization has such a value; ${c.method}`,
+    method: `mean of the ${sub.what} ${over}, the central value of the Monte Carlo (invalid realizations left out); ${sub.notFinite}, so the mean is NoData in every cell where any valid realization has such a value (${sub.meanRule}); ${c.method}`,
   });
   const diff = meanMinusDeterministic(s.mean, sub.deterministic);
   c.add({
@@ -156,7 +160,29 @@ function summaryLayers(c: LayerContext, mc: MonteCarloGrids, s: SummaryGrids, su
   });
 }
 
-/** Depth-to-isotherm layers with their contours, and their P10/P50/P90, mean (same legend) and mean − deterministic. */
+/**
+ * The share of the valid realizations reaching the isotherm T above the maximum depth (0–1): where it is below 1 the
+ * mean depth is NoData.
+ */
+function reachedLayer(c: LayerContext, mc: MonteCarloGrids, s: SummaryGrids, T: number, exhausted: string): void {
+  const r = mc.report;
+  const product = depthProductName(T);
+  const reached = summaryProductName(product, 'reached');
+  c.add({
+    name: reached,
+    title: `Depth to the ${fmt(T)} °C isotherm: share of realizations reaching it above ${c.maxDepthKm} km`,
+    units: 'fraction',
+    grid: productGrid(c.heatFlow, s.finiteFraction, 'fraction'),
+    legend: {
+      ...rampLegend(EMBER, 'fraction', 0, 1),
+      note: `1: every realization reaches ${fmt(T)} °C above ${c.maxDepthKm} km (only there is the mean defined)`,
+    },
+    ramp: EMBER,
+    method: `share of the valid realizations (${r.realizations} Monte Carlo realizations, seed ${r.seed}; ${r.heatFlow}; invalid ones left out) whose ${fmt(T)} °C isotherm lies above ${c.maxDepthKm} km${exhausted}; the mean depth (${summaryProductName(product, 'mean')}) is defined only where it is 1; ${c.method}`,
+  });
+}
+
+/** Depth-to-isotherm layers with their contours, and their P10/P50/P90, mean (same legend), mean − deterministic and share reaching it. */
 export async function isothermLayers(c: LayerContext, mc: MonteCarloGrids | null, step: (message: string) => Promise<void>): Promise<void> {
   const { o, method, maxDepthKm } = c;
   for (let k = 0; k < o.isothermsC.length; k++) {
@@ -176,7 +202,12 @@ export async function isothermLayers(c: LayerContext, mc: MonteCarloGrids | null
       method: `depth to the ${fmt(T)} °C isotherm (km below the surface; NoData where not reached above ${maxDepthKm} km), ${method}`,
       contours,
     });
-    if (pk && mc)
+    if (pk && mc) {
+      const ex = mc.report.heatFlowExhausted;
+      const exhausted =
+        ex.cellRealizations > 0
+          ? ` (a realization whose heat flow runs out above ${maxDepthKm} km peaks in temperature where it does: it reaches only isotherms up to that peak; ${ex.cellRealizations} cell-realizations in ${ex.cells} cells)`
+          : '';
       summaryLayers(c, mc, pk, {
         product: depthProductName(T),
         title: `Depth to the ${fmt(T)} °C isotherm`,
@@ -184,9 +215,12 @@ export async function isothermLayers(c: LayerContext, mc: MonteCarloGrids | null
         ramp: DEPTH,
         legend,
         what: `depth to the ${fmt(T)} °C isotherm`,
-        notFinite: `an isotherm not reached above ${maxDepthKm} km counts as deeper than any depth`,
+        notFinite: `an isotherm not reached above ${maxDepthKm} km${exhausted} counts as deeper than any depth`,
+        meanRule: `no mean where some realizations do not reach ${fmt(T)} °C above ${maxDepthKm} km; see the share layer ${summaryProductName(depthProductName(T), 'reached')}`,
         deterministic: g.values,
       });
+      reachedLayer(c, mc, pk, T, exhausted);
+    }
     await step(`contours of ${depthProductName(T)}`);
   }
 }
@@ -222,6 +256,7 @@ export async function temperatureLayers(c: LayerContext, mc: MonteCarloGrids | n
         legend,
         what: `temperature at ${fmt(d)} km`,
         notFinite: 'a depth below the melt onset (no conductive temperature) counts as hotter than any temperature',
+        meanRule: `no mean where some realizations reach the melt onset above ${fmt(d)} km`,
         deterministic: g.values,
       });
     await step(`contours of ${temperatureProductName(d)}`);

@@ -60,6 +60,8 @@ export interface MonteCarloReport {
   heatFlow: string;
   rejectedDraws: number;
   withHeatFlowSd: boolean;
+  /** Cell-realizations whose heat flow runs out above the maximum depth (isotherms above their peak: not reached), and their cells. */
+  heatFlowExhausted: { cellRealizations: number; cells: number };
   /**
    * Per isotherm, then per depth: the realizations' mean (the central value) and P50 averaged over the grid, beside
    * the deterministic map's average over the same cells and the difference (central-values.ts).
@@ -217,6 +219,7 @@ async function monteCarloPass(
       heatFlow: heatFlowText,
       rejectedDraws: pct.rejectedDraws,
       withHeatFlowSd: heatFlowSd !== null,
+      heatFlowExhausted: pct.heatFlowExhausted,
     },
   };
 }

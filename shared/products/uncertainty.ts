@@ -9,7 +9,9 @@
  * Percentiles are Hyndman & Fan type 7; an isotherm not reached counts as deeper than any depth (a temperature below
  * the melt onset as hotter than any), and a percentile that falls there is NoData (NaN). The mean of a cell is the
  * plain mean of its valid realizations; it is NoData where any valid realization does not reach the isotherm (the
- * depth is then unbounded and so is the mean): `finiteFraction` gives the share that do reach it.
+ * depth is then unbounded and so is the mean): `finiteFraction` gives the share that do reach it. A realization whose
+ * heat flow runs out above the maximum depth has its peak temperature there: an isotherm hotter than that peak is not
+ * reached (+∞), not left out; `exhaustedFraction` gives the share of such realizations per cell.
  *
  * The sampling and summaries are the thermal engine's (prepareGridMonteCarlo, monteCarloGridRange); this module
  * streams them tile by tile (rows), so memory is the output grids plus one (realizations × block) buffer, never
@@ -53,8 +55,12 @@ export interface UncertaintyGrids {
   temperatures: SummaryGrids[];
   /** Fraction of realizations left out per cell (invalid column or physically impossible draw). */
   invalidFraction: Float32Array;
+  /** Fraction of realizations per cell whose heat flow runs out above the maximum depth (counted, not left out). */
+  exhaustedFraction: Float32Array;
   /** Realizations whose parameter draw was physically impossible (per zone model, summed). */
   rejectedDraws: number;
+  /** Cell-realizations whose heat flow runs out above the maximum depth, and the cells with at least one. */
+  heatFlowExhausted: { cellRealizations: number; cells: number };
 }
 
 /** Prepares the Monte Carlo (draws and compiles every realization's models once). */
@@ -87,7 +93,7 @@ export function prepareUncertainty(spec: UncertaintySpec): PreparedGridMonteCarl
 export function allocateUncertaintyOutput(cells: number, nIso: number, nDep = 0): GridMonteCarloOutput {
   const f = () => new Float32Array(cells).fill(NaN);
   const set = () => ({ p10: f(), p50: f(), p90: f(), mean: f(), finiteFraction: f() });
-  return { isotherms: Array.from({ length: nIso }, set), temperatures: Array.from({ length: nDep }, set), invalidFraction: f() };
+  return { isotherms: Array.from({ length: nIso }, set), temperatures: Array.from({ length: nDep }, set), invalidFraction: f(), exhaustedFraction: f() };
 }
 
 /**
@@ -115,6 +121,16 @@ export function computeUncertainty(spec: UncertaintySpec, tileRows = 16, onTile?
 export function uncertaintyResult(prep: PreparedGridMonteCarlo, out: GridMonteCarloOutput): UncertaintyGrids {
   let rejected = 0;
   for (const row of prep.compiled) for (const m of row) if (m === null) rejected++;
+  const N = prep.spec.realizations,
+    ex = out.exhaustedFraction as Float32Array;
+  const heatFlowExhausted = { cellRealizations: 0, cells: 0 };
+  for (let c = 0; c < ex.length; c++) {
+    const n = Math.round(ex[c] * N);
+    if (n > 0) {
+      heatFlowExhausted.cellRealizations += n;
+      heatFlowExhausted.cells++;
+    }
+  }
   const grids = (s: GridMonteCarloOutput['isotherms'][number]): SummaryGrids => ({
     p10: s.p10 as Float32Array,
     p50: s.p50 as Float32Array,
@@ -126,6 +142,8 @@ export function uncertaintyResult(prep: PreparedGridMonteCarlo, out: GridMonteCa
     isotherms: out.isotherms.map(grids),
     temperatures: out.temperatures.map(grids),
     invalidFraction: out.invalidFraction as Float32Array,
+    exhaustedFraction: ex,
     rejectedDraws: rejected,
+    heatFlowExhausted,
   };
 }

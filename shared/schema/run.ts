@@ -207,6 +207,11 @@ export const monteCarloSummarySchema = z.strictObject({
   /** Model draws that were physically impossible and left out of the percentiles. */
   rejectedDraws: z.number().int().min(0),
   withHeatFlowSd: z.boolean(),
+  /**
+   * Cell-realizations whose heat flow runs out above the maximum depth (the temperature peaks where q = 0, so an
+   * isotherm hotter than the peak counts as not reached), and the cells with at least one (absent in older runs).
+   */
+  heatFlowExhausted: z.strictObject({ cellRealizations: z.number().int().min(0), cells: z.number().int().min(0) }).optional(),
   /** Per isotherm, then per depth: the central value (mean of the realizations) beside the deterministic map (absent in older runs). */
   centralValues: z.array(productCentralValueSchema).optional(),
   /** The conditional simulation of the heat-flow fields (server/runs/heat-flow-simulation.ts). */

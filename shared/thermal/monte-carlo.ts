@@ -3,8 +3,11 @@
  * uncertain parameter once from its own stream createStream(seed, r), so results never depend on how the work is
  * split (workers, tiles, blocks). Summaries: P10/P50/P90 (Hyndman & Fan type 7), mean, sd and the standard error
  * of the P50 (see quantiles.ts). An isotherm (or solidus) not reached above the maximum depth counts as deeper than
- * any depth (+∞); a realization whose column is not valid there (heat flow exhausted before reaching it, k(T)
- * undefined, a physically impossible draw) is left out and counted.
+ * any depth (+∞). So does an isotherm hotter than the peak of a column whose heat flow runs out above the maximum
+ * depth ("heat flow exhausted"): where q reaches 0 the temperature has its maximum (dT/dz = q/k), so no depth reaches
+ * a hotter isotherm; such realizations are counted (`exhaustedFraction`). A realization whose column is not valid
+ * where the value is asked (k(T) undefined, below an exhausted column's peak for a temperature, a physically
+ * impossible draw) is left out and counted.
  */
 import { createStream, hashUniform, type RandomStream } from '../random/prng.ts';
 import { drawFrom, type Distribution } from '../random/distributions.ts';
@@ -27,21 +30,34 @@ type Floats = Float32Array | Float64Array;
 
 const emptySummary = (): Summary => ({ p10: NaN, p50: NaN, p90: NaN, mean: NaN, sd: NaN, stderrP50: NaN, n: 0, finite: 0 });
 
-/** Value of one isotherm in one realization: depth, +∞ when not reached in a valid column, NaN when invalid. */
+/**
+ * The verdict on an isotherm tIso not found above zMax in a column valid to validToKm: +∞ (not reached) when the
+ * column is valid down to zMax, or when its heat flow runs out above zMax and its peak temperature there (the
+ * temperature at validToKm, where q = 0) is below tIso; NaN (invalid) otherwise.
+ */
+function notReached(cm: CompiledModel, st: ColumnState, validToKm: number, tIso: number, zMax: number): number {
+  if (validToKm >= zMax) return Infinity;
+  return st.status & COLUMN_FLOW_EXHAUSTED && validToKm === st.validToKm && columnTemperature(cm, st, validToKm) < tIso ? Infinity : NaN;
+}
+
+/** Value of one isotherm in one realization: depth, +∞ when not reached (see notReached), NaN when invalid. */
 function isothermValue(cm: CompiledModel, st: ColumnState, tIso: number, zMax: number): number {
   if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED)) return NaN;
   const z = columnIsothermDepth(cm, st, tIso, zMax);
-  if (z === z) return z;
-  // Not reached: a valid verdict only if the column is valid down to the search limit.
-  return st.status & COLUMN_FLOW_EXHAUSTED && st.validToKm < zMax ? NaN : Infinity;
+  return z === z ? z : notReached(cm, st, st.validToKm, tIso, zMax);
 }
 
-/** Same under the melt and mantle limits (limits.ts): +∞ only when the column is valid down to zMax. */
+/** Same under the melt and mantle limits (limits.ts): NaN past the melt onset or where k(T) is undefined. */
 function limitedIsothermValue(cm: CompiledModel, st: ColumnState, lim: ColumnLimits, tIso: number, zMax: number): number {
   if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED) && !(lim.validToKm >= zMax)) return NaN;
   const z = limitedIsothermDepth(cm, st, lim, tIso, zMax);
   if (z === z) return z;
-  return lim.validToKm < zMax ? NaN : Infinity;
+  return lim.endReason === 'heat-flow-exhausted' || lim.validToKm >= zMax ? notReached(cm, st, lim.validToKm, tIso, zMax) : NaN;
+}
+
+/** Whether a solved column's heat flow runs out above zMax (km): its isotherms hotter than its peak count as not reached. */
+export function flowExhaustedAbove(st: ColumnState, zMax: number): boolean {
+  return (st.status & COLUMN_FLOW_EXHAUSTED) !== 0 && st.validToKm < zMax;
 }
 
 /**
@@ -222,6 +238,8 @@ export interface GridMonteCarloOutput {
   invalidFraction?: Floats;
   /** Fraction of realizations whose column reaches the melt onset (the dry solidus of its rock) above the maximum depth. */
   meltFraction?: Floats;
+  /** Fraction of realizations whose heat flow runs out above the maximum depth (isotherms above its peak: not reached). */
+  exhaustedFraction?: Floats;
 }
 
 /** Realized, compiled models per realization (null = rejected draw) and the full-correlation normals. */
@@ -291,7 +309,8 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
   const bufs = Array.from({ length: nQ }, () => new Float64Array(B * N));
   const scratch = new Float64Array(N);
   const invalid = new Uint32Array(B),
-    melted = new Uint32Array(B);
+    melted = new Uint32Array(B),
+    exhausted = new Uint32Array(B);
   const states = spec.models.map((m) => new ColumnState(m.layers.length));
   const isos = Float64Array.from(spec.isothermsC),
     deps = Float64Array.from(spec.depthsKm);
@@ -306,6 +325,7 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
     const b1 = Math.min(end, b0 + B);
     invalid.fill(0);
     melted.fill(0);
+    exhausted.fill(0);
     for (let r = 0; r < N; r++) {
       const row = prep.compiled[r];
       const dryRow = prep.dryTop[r];
@@ -330,6 +350,7 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
         const st = states[zi];
         solveColumn(cm, q0, t0s === undefined ? cm.surfaceTemperatureC : t0s[c], st, needT, needZ);
         if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED)) invalid[c - b0]++;
+        else if (flowExhaustedAbove(st, zMax)) exhausted[c - b0]++;
         // The melt and mantle limits where they can act (limits.ts), as in the column Monte Carlo.
         const lim = limitsWhereReached(cm, st, Math.max(zMax, needZ), dryRow[zi]!);
         if (lim !== null && lim.endReason === 'melt-onset') melted[c - b0]++;
@@ -341,6 +362,7 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
       for (let k = 0; k < nQ; k++) summarizeCell(bufs[k], N, B, c - b0, scratch, sum, targets[k], c);
       if (out.invalidFraction) out.invalidFraction[c] = invalid[c - b0] / N;
       if (out.meltFraction) out.meltFraction[c] = melted[c - b0] / N;
+      if (out.exhaustedFraction) out.exhaustedFraction[c] = exhausted[c - b0] / N;
     }
   }
 }
@@ -369,5 +391,6 @@ function summarizeCell(buf: Float64Array, N: number, B: number, off: number, scr
 export function allocateGridMonteCarloOutput(cells: number, nIso: number, nDep: number, shared = false): GridMonteCarloOutput {
   const f = () => (shared ? new Float32Array(new SharedArrayBuffer(cells * 4)) : new Float32Array(cells)).fill(NaN);
   const set = (): GridSummaryBuffers => ({ p10: f(), p50: f(), p90: f(), mean: f(), sd: f(), stderrP50: f(), finiteFraction: f() });
-  return { isotherms: Array.from({ length: nIso }, set), temperatures: Array.from({ length: nDep }, set), invalidFraction: f(), meltFraction: f() };
+  const temperatures = Array.from({ length: nDep }, set);
+  return { isotherms: Array.from({ length: nIso }, set), temperatures, invalidFraction: f(), meltFraction: f(), exhaustedFraction: f() };
 }

@@ -17,6 +17,7 @@ function runLayers(): RunLayer[] {
   out.push(raster(depth, 'Depth to the 300 °C isotherm'));
   for (const s of STATS) out.push(raster(summaryProductName(depth, s), `Depth to the 300 °C isotherm, ${s}`));
   out.push(raster(`${depth}.spread`, 'Depth to the 300 °C isotherm, spread (P90 − P10)'));
+  out.push(raster(summaryProductName(depth, 'reached'), 'Depth to the 300 °C isotherm: share of realizations reaching it above 60 km'));
   for (const d of [5, 10]) {
     const t = temperatureProductName(d);
     out.push(raster(t, `Temperature at ${d} km`));
@@ -45,6 +46,7 @@ describe('grouping a run’s layers for the layer panel', () => {
         'depth-300C.mean',
         'depth-300C.mean-diff',
         'depth-300C.spread',
+        'depth-300C.reached',
       ]),
     );
     expect(bySection.get('heat-flow')).toEqual(expect.arrayContaining(['heat-flow', 'heat-flow-sd', 'heat-flow.contours']));
@@ -75,6 +77,9 @@ describe('grouping a run’s layers for the layer panel', () => {
     const depth = productSection('depth-300C.p90');
     expect(labelInSection('Depth to the 300 °C isotherm, P90', depth)).toBe('P90');
     expect(labelInSection('Depth to the 300 °C isotherm, spread (P90 − P10)', depth)).toBe('Spread (P90 − P10)');
+    expect(labelInSection('Depth to the 300 °C isotherm: share of realizations reaching it above 60 km', depth)).toBe(
+      'Share of realizations reaching it above 60 km',
+    );
     expect(labelInSection('Contours: depth to the 300 °C isotherm', depth)).toBe('Contours');
     expect(labelInSection('Depth to the 300 °C isotherm', depth)).toBe('Depth to the 300 °C isotherm');
     const temp = productSection('temperature.mean-diff');

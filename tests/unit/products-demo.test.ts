@@ -126,12 +126,14 @@ describe('the run pipeline on the demo data', () => {
       'depth-300C.p90',
       'depth-300C.mean',
       'depth-300C.mean-diff',
+      'depth-300C.reached',
       'depth-500C',
       'depth-500C.p10',
       'depth-500C.p50',
       'depth-500C.p90',
       'depth-500C.mean',
       'depth-500C.mean-diff',
+      'depth-500C.reached',
       'temperature-5km',
       'temperature-5km.p10',
       'temperature-5km.p50',
@@ -170,7 +172,23 @@ describe('the run pipeline on the demo data', () => {
     expect(byName['depth-300C'].info.legend).toMatchObject({ type: 'ramp', units: 'km' });
     // The mean of the realizations shares the depth legend; its difference from the deterministic map has a legend
     // symmetric about 0; the summary gives the central values beside the deterministic map's.
-    expect(byName['depth-300C.mean'].info.legend).toEqual(byName['depth-300C'].info.legend);
+    const meanLegend = byName['depth-300C.mean'].info.legend!;
+    expect(meanLegend).toEqual({ ...byName['depth-300C'].info.legend, note: meanLegend.note });
+    expect(meanLegend.note).toMatch(/^no mean where some realizations do not reach 300 °C above [\d.]+ km; see the share layer depth-300C\.reached$/);
+    // The share reaching each isotherm (0–1): the mean is defined exactly where it is 1.
+    expect(byName['depth-300C.reached'].info.legend).toMatchObject({ type: 'ramp', units: 'fraction', min: 0, max: 1 });
+    const tifValues = async (n: string) => (await readGeoTiff(byName[n].files[0].bytes)).grid.values;
+    const [share, mean, hf] = [await tifValues('depth-500C.reached'), await tifValues('depth-500C.mean'), await tifValues('heat-flow')];
+    let partial = 0;
+    for (let c = 0; c < hf.length; c++) {
+      if (!(hf[c] === hf[c])) continue;
+      expect(share[c]).toBeGreaterThanOrEqual(0);
+      expect(share[c]).toBeLessThanOrEqual(1);
+      expect(Number.isFinite(mean[c])).toBe(share[c] === 1);
+      if (share[c] < 1) partial++;
+    }
+    expect(partial).toBeGreaterThan(0);
+    expect(res.summary.monteCarlo!.heatFlowExhausted).toMatchObject({ cellRealizations: expect.any(Number), cells: expect.any(Number) });
     const dl = byName['depth-300C.mean-diff'].info.legend as { min: number; max: number };
     expect(dl.min).toBe(-dl.max);
     const cv = res.summary.monteCarlo!.centralValues!;

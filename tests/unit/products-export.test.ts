@@ -305,6 +305,7 @@ describe('the isotherms verb', () => {
       'depth-300C.p10.tif',
       'depth-300C.p50.tif',
       'depth-300C.p90.tif',
+      'depth-300C.reached.tif',
       'summary.json',
     ]) {
       expect(existsSync(join(outDir, f))).toBe(true);
