@@ -11,6 +11,8 @@ import type { RunRecord } from '../store/types.ts';
 import { jsonBody, notFound, requireJsonType, type AppContext } from './context.ts';
 import { columnAtRunSchema, columnOfModelSchema, parseWith, sectionSchema } from './schemas.ts';
 import { modelZones, type ModelAt } from '../runs/zones.ts';
+import { noHeatFlowError, type FaultPathsTask } from '../runs/column-reason.ts';
+import type { FaultPaths } from '../../shared/interp/fault-paths.ts';
 
 /** Realizations of the column band for a run with realizations (seeded by the run's seed). */
 export const COLUMN_BAND_REALIZATIONS = 200;
@@ -107,11 +109,9 @@ async function columnAtRun(ctx: AppContext, body: unknown, zonesOf: (run: RunRec
   const req = run.request as RunRequest;
   const q0 = sampleAtLonLat(heat, q.lon, q.lat);
   if (!Number.isFinite(q0)) {
-    throw new InputError(
-      `no heat-flow value at ${q.lon}, ${q.lat}: outside the run's grid or in a no-data cell`,
-      [{ field: 'lon,lat', problem: 'no data at this point' }],
-      'no_data_here',
-    );
+    // Why there is no value here (server/runs/column-reason.ts); naming the faults in the way runs on the short pool.
+    const faultPaths = (task: FaultPathsTask) => ctx.compute.short.run<FaultPaths>(task, ctx.limits.computeDeadlineSeconds * 1000);
+    throw await noHeatFlowError({ store: ctx.store, faultPaths }, run, heat, q.lon, q.lat);
   }
   const s = sd ? sampleAtLonLat(sd, q.lon, q.lat) : NaN;
   const here = (await zonesOf(run))(q.lon, q.lat);

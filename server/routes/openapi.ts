@@ -281,7 +281,7 @@ export function openApiDocument(): unknown {
         ),
       },
       '/api/column': {
-        post: op('geotherm column at a point of a run, or of a model at a heat flow', {
+        post: op('geotherm column at a point of a run or of a model; a 422 no_data_here says why the run has no value there', {
           body: { oneOf: [json(columnAtRunSchema), json(columnOfModelSchema)] },
           okSchema: z.toJSONSchema(columnAnswerSchema, { io: 'output', unrepresentable: 'any', target: 'draft-2020-12' }),
           errors: [400, 404, 409, 415, 422, 503],

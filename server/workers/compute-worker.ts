@@ -1,6 +1,7 @@
 /**
  * Worker side of the compute pools (server/runs/compute.ts): one function per kind of task (column, section, heat in
- * place, a run's spread or probability layer, a data set upload, heat-flow corrections, a run's vector GeoPackage).
+ * place, a run's spread or probability layer, a data set upload, heat-flow corrections, a run's vector GeoPackage,
+ * the faults on the paths from an empty cell to its nearest sites).
  * Grids arrive with their values in shared memory (no copy); bodies of data sets arrive as text or bytes and are
  * parsed here, off the request thread. An InputError becomes `{ ok: false, error }` so its code and details survive the thread boundary.
  */
@@ -18,6 +19,7 @@ import { HEAT_FLOW_CORRELATION_DEPRECATED } from '../runs/heat-flow-simulation.t
 import { Piscina } from 'piscina';
 import { applyWorkerNiceness } from './priority.ts';
 import { renderDerivedLayer, type DerivedLayerQuery } from '../runs/derived-layer.ts';
+import { faultPathsOf, type FaultPathsTask } from '../runs/column-reason.ts';
 import { parseUploadBytes, utf8, type ParsedUpload, type UploadInput } from '../io/dataset-upload.ts';
 import { sha256Hex, vectorsGeoPackage } from '../io/export.ts';
 import { geoJsonBbox } from '../store/bbox.ts';
@@ -93,7 +95,8 @@ export type ComputeTask =
   | DerivedLayerTask
   | { kind: 'upload'; input: UploadInput }
   | CorrectionsTask
-  | VectorsGeoPackageTask;
+  | VectorsGeoPackageTask
+  | FaultPathsTask;
 
 export type ComputeReply = { ok: true; value: unknown } | { ok: false; error: { code: string; message: string; details: InputProblem[] } };
 
@@ -125,6 +128,8 @@ export default async function compute(task: ComputeTask): Promise<ComputeReply> 
       }
       case 'vectors-gpkg':
         return { ok: true, value: new Uint8Array(vectorsGeoPackage(task.layers, task.provenance)) };
+      case 'fault-paths':
+        return { ok: true, value: faultPathsOf(task) };
     }
   } catch (e) {
     if (e instanceof InputError) return { ok: false, error: { code: e.code, message: e.message, details: e.details } };
