@@ -6,10 +6,11 @@
 import type { GeoJSONSource } from 'maplibre-gl';
 import { ApiError, getJson, uploadDataset, type DatasetCreated, type UploadOptions } from './api.ts';
 import { featuresBbox, fitBbox, type Bbox } from './basemap.ts';
-import type { AppContext } from './context.ts';
+import { message, type AppContext } from './context.ts';
 import { el, errorBox, problemTable, replace } from './dom.ts';
 import type { FeatureCollection } from './structure.ts';
-import { ProjectDataTable, newProjectControl, showProjectTerrain, uploadTerrain, uploadToProject } from './project-data.ts';
+import { ProjectDataTable, newProjectControl, showProjectTerrain, uploadTerrain, uploadToProject, type ProjectDataset } from './project-data.ts';
+import { parseThermalModel, type ThermalModelInput } from '../../shared/schema/model.ts';
 
 export type PointKind = 'sites' | 'samples' | 'faults';
 const EMPTY: FeatureCollection = { type: 'FeatureCollection', features: [] };
@@ -42,18 +43,27 @@ export class DataSets {
   }
 }
 
+/** What the data panel tells the page: parameters changed, a model data set to load into the Model tab. */
+export interface DataPanelHooks {
+  onParams: () => void;
+  onModel: (model: ThermalModelInput, d: ProjectDataset) => void;
+  /** Every new listing of the project's data sets (their names, for the run panel). */
+  onList: (list: ProjectDataset[]) => void;
+}
+
 /**
- * The data panel: in a project, the project's data sets and uploads into it (every kind); elsewhere "New project"
- * and loose uploads. An upload of sites, samples or faults becomes the run's data set of its kind and the view
- * fits it.
+ * The data panel: the data sets of the page's project (on the demo page, the demo project's, read-only) and, in a
+ * project, uploads into it (every kind); elsewhere "New project" and loose uploads. An upload of sites, samples or
+ * faults becomes the run's data set of its kind and the view fits it; "use" on a model loads it into the Model tab.
  */
-export function dataPanel(ctx: AppContext, data: DataSets, onParams: () => void): UploadPanel {
+export function dataPanel(ctx: AppContext, data: DataSets, hooks: DataPanelHooks): UploadPanel {
   const inProject = ctx.projectId !== null && ctx.editToken !== null;
+  const listed = ctx.projectId ?? ctx.cfg.demo.projectId ?? null;
   let table: ProjectDataTable | null = null;
   const use = (id: string, k: string, fit: boolean) => {
     if (k === 'grid') {
       ctx.state.params = { ...ctx.state.params, driftGrid: id };
-      onParams();
+      hooks.onParams();
       ctx.syncUrl();
       void table?.refresh();
       return;
@@ -61,13 +71,26 @@ export function dataPanel(ctx: AppContext, data: DataSets, onParams: () => void)
     const kind = k as PointKind;
     if (kind !== 'sites' && kind !== 'samples' && kind !== 'faults') return;
     ctx.state.params = { ...ctx.state.params, [kind]: id };
-    onParams();
+    hooks.onParams();
     void data.load(kind, id).then(() => {
       const b = data.bounds([kind]);
       if (fit && b) fitBbox(ctx.map, b);
       void table?.refresh();
     });
     ctx.syncUrl();
+  };
+  const useModel = async (d: ProjectDataset) => {
+    try {
+      // The project's copy carries the data set's name (GET …/datasets/:dsId), which the model keeps.
+      const model = parseThermalModel(await getJson<unknown>(d.url), d.name);
+      ctx.state.params = { ...ctx.state.params, modelDataset: d.id };
+      hooks.onModel(model, d);
+      hooks.onParams();
+      ctx.syncUrl();
+      void table?.refresh();
+    } catch (e) {
+      table?.root.prepend(errorBox(`${d.name}: ${message(e)}`));
+    }
   };
   const send: UploadFn = inProject
     ? async (kind, file, opts) => {
@@ -93,9 +116,19 @@ export function dataPanel(ctx: AppContext, data: DataSets, onParams: () => void)
     inProject ? ['sites', 'samples', 'faults', 'wells', 'regions', 'model', 'terrain', 'grid'] : ['sites', 'samples', 'faults'],
   );
   upload.root.prepend(el('h3', {}, 'Add data'));
-  if (ctx.projectId !== null) {
-    table = new ProjectDataTable(ctx, (d) => use(d.id, d.kind, false));
-    upload.root.prepend(el('h3', {}, 'Data sets of this project'), table.root);
+  if (listed !== null) {
+    table = new ProjectDataTable(ctx, listed, (d) => (d.kind === 'model' ? void useModel(d) : use(d.id, d.kind, false)));
+    table.onList(hooks.onList);
+    const heading = ctx.projectId === null ? 'Data sets of the demo project' : 'Data sets of this project';
+    const note =
+      ctx.projectId === null
+        ? el(
+            'p',
+            { class: 'note', id: 'demo-datasets-note' },
+            'The demo project is read-only: "use" puts a data set into the run; start a new project to upload, rename or remove.',
+          )
+        : null;
+    upload.root.prepend(el('h3', {}, heading), ...(note ? [note] : []), table.root);
     void table.refresh();
   }
   if (!inProject)

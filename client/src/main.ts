@@ -215,10 +215,15 @@ function buildTools(
   demoModel: ReturnType<typeof parseThermalModel>,
 ): { show: (run: RunState) => Promise<void>; follow: (id: string) => void } {
   const { state } = ctx;
+  // Data set names by id (the project's listing), so the run panel names what it uses.
+  const names = new Map<string, { kind: string; name: string }>();
+  let runs: RunPanel | null = null;
   const editor = modelEditor(state.model ?? demoModel, (m) => {
     if (m) state.model = m;
+    runs?.setParams(state.params);
     ctx.syncUrl();
   });
+  const modelSource = el('p', { class: 'note', id: 'model-source' });
   const structure = new StructurePanel(ctx.map);
   const section = sectionPanel(ctx);
   let show: (run: RunState) => Promise<void> = () => Promise.resolve();
@@ -226,9 +231,10 @@ function buildTools(
     ctx.projectId !== null && ctx.editToken !== null
       ? { path: `/api/projects/${encodeURIComponent(ctx.projectId)}/runs`, headers: { authorization: `Bearer ${decodeURIComponent(ctx.editToken)}` } }
       : { path: '/api/runs', headers: {} };
-  const runs = runPanel({
+  runs = runPanel({
     params: state.params,
     model: () => editor.value(),
+    datasetName: (id) => names.get(id),
     onParams: (p) => ((state.params = p), ctx.syncUrl()),
     onDone: (run, added) => {
       // Layers the user has just asked for (spread, probability) are shown at once, alone among the run's rasters.
@@ -241,13 +247,25 @@ function buildTools(
   const heat = heatPanel(ctx);
   show = (run) => showRun(ctx, run, { runs, structure, section, heat });
   const column = columnPanel(ctx, { model: () => editor.value(), sites: () => data.current.sites });
-  const upload = dataPanel(ctx, data, () => runs.setParams(state.params));
+  const upload = dataPanel(ctx, data, {
+    onParams: () => runs.setParams(state.params),
+    onModel: (m, d) => {
+      editor.set(m);
+      modelSource.textContent = `Loaded from the model data set “${d.name}”: runs send this model, with the edits made here.`;
+      modelSource.title = `data set ${d.id}`;
+      ctx.selectTab('model');
+    },
+    onList: (list) => {
+      for (const d of list) names.set(d.id, { kind: d.kind, name: d.name });
+      runs.setParams(state.params);
+    },
+  });
   const share = sharePanel(ctx);
   data.onChange((kind) => kind !== 'sites' && structure.setData(data.current.faults, data.current.samples));
   ctx.selectTab = tabs(document.getElementById('tools')!, [
     { id: 'inspect', label: 'Column', body: column.root },
     { id: 'data', label: 'Data', body: upload.root },
-    { id: 'model', label: 'Model', body: el('div', {}, el('h3', {}, 'Thermal model'), editor.root) },
+    { id: 'model', label: 'Model', body: el('div', {}, el('h3', {}, 'Thermal model'), modelSource, editor.root) },
     { id: 'run', label: 'Run', body: el('div', {}, el('h3', {}, 'Run'), runs.root) },
     { id: 'structure', label: 'Structure', body: structure.root },
     { id: 'section', label: 'Section', body: section.root },

@@ -42,8 +42,9 @@ export async function uploadToProject(
   file: Blob & { name: string },
   opts: UploadOptions = {},
 ): Promise<ProjectDataset & { warnings: (string | Problem)[] }> {
-  const name = file.name.replace(/\.[A-Za-z0-9]+$/, '').slice(0, 120) || file.name;
-  const query = uploadQuery({ kind, name, filename: file.name.slice(0, 200) }, opts);
+  // A model is named by its own `name` (the server offers it); other kinds by the file's name.
+  const name = kind === 'model' ? undefined : file.name.replace(/\.[A-Za-z0-9]+$/, '').slice(0, 120) || file.name;
+  const query = uploadQuery({ kind, ...(name === undefined ? {} : { name }), filename: file.name.slice(0, 200) }, opts);
   const res = await fetch(`/api/projects/${encodeURIComponent(ctx.projectId!)}/datasets?${query}`, {
     method: 'POST',
     headers: { accept: 'application/json', 'content-type': uploadMediaType(file.name, kind), ...auth(ctx) },
@@ -144,32 +145,44 @@ function bboxText(b: Bbox | null): string {
   return `${f(b[0])}…${f(b[2])}°E, ${f(b[1])}…${f(b[3])}°N`;
 }
 
-/** The table of the project's data sets; `onUse` makes one the run's data set of its kind. */
+/** Kinds a run takes one of, chosen with "use" (a model is loaded into the Model tab, whose model the run sends). */
+const USABLE_KINDS = ['sites', 'samples', 'faults', 'grid', 'model'];
+
+/**
+ * The table of a project's data sets (`projectId`: the page's project, or the demo project on the demo page, which
+ * is read-only); `onUse` makes one the run's data set of its kind. Only the page's own project shows its terrain
+ * (the demo page draws the demo's terrain from its configuration).
+ */
 export class ProjectDataTable {
   readonly root = el('div', { id: 'project-datasets' });
   private list: ProjectDataset[] = [];
   private terrain: ProjectTerrain | null = null;
+  private readonly listeners: ((list: ProjectDataset[]) => void)[] = [];
 
   constructor(
     private readonly ctx: AppContext,
+    private readonly projectId: string,
     private readonly onUse: (d: ProjectDataset) => void,
   ) {}
+
+  /** `fn` hears of every new listing (e.g. the run panel, which names the data sets it uses). */
+  onList(fn: (list: ProjectDataset[]) => void): void {
+    this.listeners.push(fn);
+  }
 
   datasets(): ProjectDataset[] {
     return this.list;
   }
 
   async refresh(): Promise<void> {
-    if (this.ctx.projectId === null) return;
     try {
-      const r = await getJson<{ datasets: ProjectDataset[]; terrain?: ProjectTerrain | null }>(
-        `/api/projects/${encodeURIComponent(this.ctx.projectId)}/datasets`,
-      );
+      const r = await getJson<{ datasets: ProjectDataset[]; terrain?: ProjectTerrain | null }>(`/api/projects/${encodeURIComponent(this.projectId)}/datasets`);
       this.list = r.datasets;
       const t = r.terrain ?? null;
-      if (t?.uploadedAt !== this.terrain?.uploadedAt) showProjectTerrain(this.ctx.map, t);
+      if (this.projectId === this.ctx.projectId && t?.uploadedAt !== this.terrain?.uploadedAt) showProjectTerrain(this.ctx.map, t);
       this.terrain = t;
       this.render();
+      for (const fn of this.listeners) fn(this.list);
     } catch (e) {
       replace(this.root, errorBox(`Data sets: ${message(e)}`));
     }
@@ -191,7 +204,7 @@ export class ProjectDataTable {
   }
 
   private row(d: ProjectDataset): HTMLElement {
-    const editable = this.ctx.editToken !== null;
+    const editable = this.ctx.editToken !== null && this.projectId === this.ctx.projectId;
     const used = Object.values(this.ctx.state.params).includes(d.id);
     const btn = (label: string, fn: () => void, cls = '') => {
       const b = el('button', { type: 'button', class: `small ${cls}`, 'data-action': label }, label);
@@ -199,7 +212,7 @@ export class ProjectDataTable {
       return b;
     };
     const actions = el('td', { class: 'actions' });
-    if (['sites', 'samples', 'faults', 'grid'].includes(d.kind) && editable) actions.append(btn(used ? 'in use' : 'use', () => this.onUse(d)));
+    if (USABLE_KINDS.includes(d.kind) && !this.ctx.readOnly) actions.append(btn(used ? 'in use' : 'use', () => this.onUse(d)));
     if (d.bbox) actions.append(btn('zoom to', () => fitBbox(this.ctx.map, d.bbox!)));
     if (editable) {
       actions.append(
@@ -219,7 +232,12 @@ export class ProjectDataTable {
       'tr',
       { 'data-dataset': d.id, 'data-kind': d.kind },
       el('td', {}, KIND_LABELS[d.kind] ?? d.kind),
-      el('td', { class: 'name' }, d.name, used ? el('span', { class: 'muted' }, ' (in the run)') : null),
+      el(
+        'td',
+        { class: 'name', title: `data set ${d.id}` },
+        d.name,
+        used ? el('span', { class: 'muted' }, d.kind === 'model' ? ' (in the Model tab)' : ' (in the run)') : null,
+      ),
       el('td', { class: 'num' }, String(d.featureCount)),
       el('td', { class: 'bbox' }, bboxText(d.bbox)),
       el('td', {}, new Date(d.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')),
@@ -232,9 +250,9 @@ export class ProjectDataTable {
     const zoom = el('button', { type: 'button', class: 'small', 'data-action': 'zoom to' }, 'zoom to');
     zoom.addEventListener('click', () => fitBbox(this.ctx.map, t.bbox));
     const actions = el('td', { class: 'actions' }, zoom);
-    if (this.ctx.editToken !== null) {
+    if (this.ctx.editToken !== null && this.projectId === this.ctx.projectId) {
       const remove = el('button', { type: 'button', class: 'small', 'data-action': 'remove', id: 'terrain-remove' }, 'remove');
-      const url = `/api/projects/${encodeURIComponent(this.ctx.projectId!)}/terrain`;
+      const url = `/api/projects/${encodeURIComponent(this.projectId)}/terrain`;
       remove.addEventListener('click', () => {
         if (window.confirm(`Remove the terrain "${t.name}" from this project? Its hillshade goes with it.`)) void this.change('DELETE', { url, name: t.name });
       });

@@ -7,6 +7,8 @@ import { RUN_EVENTS, runRequestSchema } from '../../shared/schema/run.ts';
 import { ApiError, getJson, sendJson, type RunState } from './api.ts';
 import { el, errorBox, replace } from './dom.ts';
 import { runSummary, uncertaintyControls } from './run-summary.ts';
+import { runDataLine, type DatasetNameOf } from './run-data-line.ts';
+import { progressBar } from './run-progress.ts';
 import type { RunParams } from './state.ts';
 
 function numberList(s: string): number[] | null {
@@ -65,7 +67,7 @@ interface RunForm {
   read(base: RunParams): RunParams | null;
 }
 
-function runForm(): RunForm {
+function runForm(nameOf?: RunOptions['datasetName']): RunForm {
   const method = el('select', { id: 'run-method' }, el('option', { value: 'kriging' }, 'ordinary kriging'), el('option', { value: 'idw' }, 'inverse distance'));
   const aniso = el('select', { id: 'run-anisotropy' }, el('option', { value: '' }, 'none (isotropic)'), el('option', { value: 'auto' }, 'estimated'));
   // The external drift: a grid data set chosen with "use" in the project's data sets, or none.
@@ -95,7 +97,12 @@ function runForm(): RunForm {
     fill(p) {
       method.value = p.method;
       aniso.value = p.anisotropy ?? '';
-      replace(drift, el('option', { value: '' }, 'none'), ...(p.driftGrid ? [el('option', { value: p.driftGrid }, `grid data set ${p.driftGrid}`)] : []));
+      const driftName = p.driftGrid ? (nameOf?.(p.driftGrid)?.name ?? `grid data set ${p.driftGrid}`) : '';
+      replace(
+        drift,
+        el('option', { value: '' }, 'none'),
+        ...(p.driftGrid ? [el('option', { value: p.driftGrid, title: `data set ${p.driftGrid}` }, driftName)] : []),
+      );
       drift.value = p.driftGrid ?? '';
       iso.value = p.isothermsC.join(', ');
       depths.value = p.depthsKm.join(', ');
@@ -198,45 +205,11 @@ export interface RunPanel {
   follow(runId: string): void;
 }
 
-interface Progress {
-  bar: HTMLElement;
-  track: HTMLElement;
-  msg: HTMLElement;
-  set(fraction: number, text: string): void;
-}
-
-function progressBar(): Progress {
-  const bar = el('div', { class: 'progress-fill', id: 'run-progress-fill' });
-  const track = el(
-    'div',
-    {
-      class: 'progress',
-      id: 'run-progress',
-      role: 'progressbar',
-      'aria-valuemin': '0',
-      'aria-valuemax': '100',
-      'aria-valuenow': '0',
-      'aria-label': 'run progress',
-    },
-    bar,
-  );
-  const msg = el('p', { class: 'run-message', id: 'run-message', 'aria-live': 'polite' }, 'No run yet.');
-  return {
-    bar,
-    track,
-    msg,
-    set(fraction, text) {
-      const pct = Math.round(Math.max(0, Math.min(1, fraction)) * 100);
-      bar.style.width = `${pct}%`;
-      track.setAttribute('aria-valuenow', String(pct));
-      msg.textContent = `${pct}% — ${text}`;
-    },
-  };
-}
-
 interface RunOptions {
   params: RunParams;
   model: () => unknown;
+  /** The name of a data set by id (kind and name), when the page knows it. */
+  datasetName?: DatasetNameOf;
   onParams: (p: RunParams) => void;
   /** A run to show: one that has just ended, or one given new layers (`added`, shown at once). */
   onDone: (run: RunState, added?: string[]) => void;
@@ -249,7 +222,7 @@ interface RunOptions {
 /** The panel's behaviour: the form, the run it follows, its buttons. */
 class RunController {
   params: RunParams;
-  readonly form = runForm();
+  readonly form: RunForm;
   readonly runBtn = el('button', { type: 'button', id: 'run-button', class: 'primary' }, 'Run');
   readonly cancelBtn = el('button', { type: 'button', id: 'run-cancel', disabled: '' }, 'Cancel');
   readonly progress = progressBar();
@@ -263,6 +236,7 @@ class RunController {
   private readonly watcher: RunWatcher;
 
   constructor(private readonly opts: RunOptions) {
+    this.form = runForm(opts.datasetName);
     this.params = { ...opts.params };
     this.watcher = new RunWatcher(
       (id, s) => {
@@ -283,9 +257,9 @@ class RunController {
     this.showData();
   }
 
+  /** The data sets the run uses, by kind and name (the id in a tooltip), and the model the run sends. */
   showData(): void {
-    const p = this.params;
-    this.dataLine.textContent = `Data: sites ${p.sites}${p.samples ? `, samples ${p.samples}` : ''}${p.faults ? `, faults ${p.faults}` : ''}.`;
+    replace(this.dataLine, ...runDataLine(this.params, this.opts.model() as { name?: unknown } | null, this.opts.datasetName));
   }
 
   readForm(): RunParams | null {

@@ -20,6 +20,8 @@ export interface RunParams {
   anisotropy?: 'auto';
   /** A grid data set of the project used as kriging's external drift (interpolation.trend drift:<id>), or absent. */
   driftGrid?: string;
+  /** The model data set last loaded into the Model tab with "use" (the run sends the Model tab's model), or absent. */
+  modelDataset?: string;
   isothermsC: number[];
   depthsKm: number[];
   /** Depth of the facies layer, km (absent: the deepest of depthsKm). */
