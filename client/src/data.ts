@@ -43,6 +43,23 @@ export class DataSets {
   }
 }
 
+/** Uploads into the page's project: every kind, a terrain through its own route (shown as hillshade, the view fits it). */
+function projectUpload(ctx: AppContext): UploadFn {
+  return async (kind, file, opts) => {
+    if (kind !== 'terrain') return uploadToProject(ctx, kind, file, opts);
+    const t = await uploadTerrain(ctx, file);
+    showProjectTerrain(ctx.map, t);
+    fitBbox(ctx.map, t.bbox);
+    return {
+      id: 'terrain',
+      kind: 'terrain',
+      featureCount: t.width * t.height,
+      warnings: [],
+      message: `${file.name}: terrain of ${t.width} × ${t.height} cells accepted (from ${t.sourceCrs}, shown as hillshade).`,
+    };
+  };
+}
+
 /** What the data panel tells the page: parameters changed, a model data set to load into the Model tab. */
 export interface DataPanelHooks {
   onParams: () => void;
@@ -92,21 +109,7 @@ export function dataPanel(ctx: AppContext, data: DataSets, hooks: DataPanelHooks
       table?.root.prepend(errorBox(`${d.name}: ${message(e)}`));
     }
   };
-  const send: UploadFn = inProject
-    ? async (kind, file, opts) => {
-        if (kind !== 'terrain') return uploadToProject(ctx, kind, file, opts);
-        const t = await uploadTerrain(ctx, file);
-        showProjectTerrain(ctx.map, t);
-        fitBbox(ctx.map, t.bbox);
-        return {
-          id: 'terrain',
-          kind: 'terrain',
-          featureCount: t.width * t.height,
-          warnings: [],
-          message: `${file.name}: terrain of ${t.width} × ${t.height} cells accepted (from ${t.sourceCrs}, shown as hillshade).`,
-        };
-      }
-    : uploadDataset;
+  const send: UploadFn = inProject ? projectUpload(ctx) : uploadDataset;
   const upload = uploadPanel(
     (d) => {
       use(d.id, d.kind, true);
