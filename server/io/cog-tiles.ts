@@ -2,7 +2,6 @@
  * The pixel side of a Cloud-Optimized GeoTIFF (cog.ts): the overview pyramid (halving by 2 × 2 averages or the
  * north-west cell) and the packing of one tile for the floating-point predictor (TIFF Technical Note 3, Predictor 3:
  * each row's floats split into byte planes, most significant first, then byte-wise horizontal differencing).
- * `packTileFp` is also sent as source text to the writer's worker threads, so it uses nothing from outside.
  */
 
 export const COG_TILE_SIZE = 512;
@@ -73,7 +72,7 @@ export function pyramid(full: Level, tileSize: number, resampling: 'average' | '
 /**
  * Packs tile (tx, ty) of a level for Predictor 3: NoData for non-finite cells and beyond the edges, each row's floats
  * as 4 byte planes (most significant first), each row differenced byte by byte. `out` has tileSize² · 4 bytes,
- * `row` tileSize floats. Self-contained (no imports, no closures): the worker threads run its source text.
+ * `row` tileSize floats.
  */
 export function packTileFp(
   values: Float32Array | Float64Array,

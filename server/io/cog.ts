@@ -19,11 +19,11 @@
  * Free text travels in GDAL's metadata tag (42112, XML of `<Item>`s) and NoData in GDAL_NODATA (42113).
  *
  * Two entry points share the layout: `encodeCog` compresses on the calling thread and returns the bytes (used inside
- * the run workers, where it is already off the main thread); `writeCogFile` compresses tiles on worker threads
- * (node:worker_threads + node:zlib) into a temporary file in COG order, writes the IFDs in front and renames it.
+ * the run workers, where it is already off the main thread); `writeCogFile` packs tiles on the calling thread and
+ * deflates them on node:zlib's thread pool into a temporary file in COG order, writes the IFDs in front and renames
+ * it.
  */
-import { deflateSync } from 'node:zlib';
-import { Worker } from 'node:worker_threads';
+import { deflate, deflateSync } from 'node:zlib';
 import { open, rename, rm, type FileHandle } from 'node:fs/promises';
 import { availableParallelism } from 'node:os';
 import { packTileFp, pyramid, tilesAcross, type Level } from './cog-tiles.ts';
@@ -74,32 +74,9 @@ export function encodeCog(values: Float32Array | Float64Array, width: number, he
 }
 
 // ---------------------------------------------------------------------------------------------------------------
-// Worker threads.
+// The file writer: tiles packed on this thread, deflated on node:zlib's thread pool.
 
-/** The worker's program: receives the levels once (shared memory), then packs and deflates tiles on request. */
-const WORKER_SOURCE = `
-const { parentPort } = require('node:worker_threads');
-const { deflateSync } = require('node:zlib');
-var __name = (f) => f;
-const packTileFp = ${packTileFp.toString()};
-let levels = null, ts = 0, nodata = 0, zlevel = 6, packed = null, row = null;
-parentPort.on('message', (m) => {
-  if (m.type === 'init') {
-    levels = m.levels.map((l) => ({ width: l.width, height: l.height, values: new Float32Array(l.buffer) }));
-    ts = m.ts; nodata = m.nodata; zlevel = m.level;
-    packed = new Uint8Array(ts * ts * 4); row = new Float32Array(ts);
-    return;
-  }
-  const l = levels[m.level];
-  packTileFp(l.values, l.width, l.height, m.tx, m.ty, ts, nodata, packed, row);
-  const z = deflateSync(packed, { level: zlevel });
-  const copy = new Uint8Array(z.length);
-  copy.set(z);
-  parentPort.postMessage({ id: m.id, bytes: copy }, [copy.buffer]);
-});
-`;
-
-/** Threads used by writeCogFile: one per core, at most 4. */
+/** Tiles deflated at once by writeCogFile: one per core, at most 4 (libuv's thread pool has 4 threads by default). */
 export function cogThreads(): number {
   return Math.max(1, Math.min(4, availableParallelism()));
 }
@@ -120,23 +97,6 @@ function cogJobs(levels: Level[], ts: number): TileJob[] {
     for (let ty = 0; ty < ny; ty++) for (let tx = 0; tx < nx; tx++) jobs.push({ level: i, tx, ty, index: ty * nx + tx });
   }
   return jobs;
-}
-
-/** `n` worker threads holding the levels (shared memory, no copy), ready to pack and deflate tiles. */
-function startCogWorkers(levels: Level[], ts: number, opts: CogOptions, n: number): Worker[] {
-  const workers: Worker[] = [];
-  for (let k = 0; k < n; k++) {
-    const w = new Worker(WORKER_SOURCE, { eval: true, execArgv: [] });
-    w.postMessage({
-      type: 'init',
-      levels: levels.map((l) => ({ width: l.width, height: l.height, buffer: (l.values as Float32Array).buffer })),
-      ts,
-      nodata: opts.nodata,
-      level: opts.level ?? 6,
-    });
-    workers.push(w);
-  }
-  return workers;
 }
 
 /**
@@ -182,8 +142,14 @@ class OrderedTileWriter {
   }
 }
 
-/** Runs the jobs on the workers (one in flight per worker) into `sink`; resolves when all are written. */
-function compressTiles(workers: Worker[], jobs: TileJob[], sink: OrderedTileWriter): Promise<void> {
+/**
+ * Packs the jobs' tiles on this thread and deflates them on node:zlib's thread pool, `threads` at a time, into
+ * `sink`; resolves when all are written. The output chunk holds a whole tile's stream, so each tile is one pass on
+ * the pool (zlib's default 16 KiB chunks would come back to this thread every 16 KiB).
+ */
+function compressTiles(levels: Level[], ts: number, opts: CogOptions, threads: number, jobs: TileJob[], sink: OrderedTileWriter): Promise<void> {
+  const chunkSize = ts * ts * 4 + 1024; // above zlib's deflateBound for one tile
+  const row = new Float32Array(ts);
   return new Promise<void>((resolve, reject) => {
     let next = 0,
       active = 0;
@@ -194,36 +160,33 @@ function compressTiles(workers: Worker[], jobs: TileJob[], sink: OrderedTileWrit
         reject(e instanceof Error ? e : new Error(String(e)));
       }
     };
-    const dispatch = (w: Worker) => {
-      if (failure !== null) return;
-      if (next >= jobs.length) {
-        if (active === 0) sink.settled().then(() => resolve(), fail);
-        return;
+    const dispatch = () => {
+      while (failure === null && active < threads && next < jobs.length) {
+        const id = next++;
+        const j = jobs[id],
+          l = levels[j.level];
+        const packed = new Uint8Array(ts * ts * 4);
+        packTileFp(l.values, l.width, l.height, j.tx, j.ty, ts, opts.nodata, packed, row);
+        active++;
+        deflate(packed, { level: opts.level ?? 6, chunkSize }, (err, z) => {
+          active--;
+          if (err !== null) return fail(err);
+          sink.add(id, z).catch(fail);
+          dispatch();
+        });
       }
-      const id = next++;
-      active++;
-      const j = jobs[id];
-      w.postMessage({ id, level: j.level, tx: j.tx, ty: j.ty });
+      if (failure === null && active === 0 && next >= jobs.length) sink.settled().then(() => resolve(), fail);
     };
-    for (const w of workers) {
-      w.on('message', (m: { id: number; bytes: Uint8Array }) => {
-        active--;
-        sink.add(m.id, m.bytes).catch(fail);
-        dispatch(w);
-      });
-      w.on('error', fail);
-      w.on('exit', (code) => {
-        if (code !== 0) fail(new Error(`COG worker exited with code ${code}`));
-      });
-    }
-    for (const w of workers) dispatch(w);
+    dispatch();
   });
 }
 
 /**
- * Writes a grid as a COG file: overviews built in shared memory, tiles packed and deflated on `threads` worker
- * threads, written in COG order to `path`.partial as they arrive (at most a few tiles held), then the IFDs in front
- * and the file renamed to `path`. On failure the partial file is removed and nothing is left at `path`.
+ * Writes a grid as a COG file: overviews built once, tiles packed on this thread and deflated `threads` at a time on
+ * node:zlib's thread pool (so both cores work while this thread packs the next tiles), written in COG order to
+ * `path`.partial as they arrive (at most a few tiles held), then the IFDs in front and the file renamed to `path`.
+ * The grid is read where it is: no copy of it is made. On failure the partial file is removed and nothing is left
+ * at `path`.
  */
 export async function writeCogFile(
   path: string,
@@ -234,23 +197,15 @@ export async function writeCogFile(
 ): Promise<{ bytes: number }> {
   const ts = checkOptions(width, height, opts);
   if (values.length !== width * height) throw new RangeError(`${values.length} values for ${width} × ${height} cells`);
-  const shared = (n: number) => new Float32Array(new SharedArrayBuffer(n * 4));
-  // Grids filled by worker threads already live in shared memory: the workers read them as they are, no copy.
-  const inShared =
-    values instanceof Float32Array && values.buffer instanceof SharedArrayBuffer && values.byteOffset === 0 && values.length === values.buffer.byteLength / 4;
-  const full = inShared ? values : shared(width * height);
-  if (!inShared) full.set(values);
-  const levels = pyramid({ width, height, values: full }, ts, opts.resampling ?? 'average', shared);
+  const levels = pyramid({ width, height, values }, ts, opts.resampling ?? 'average', (n) => new Float32Array(n));
   const jobs = cogJobs(levels, ts);
   const sizes = emptyArrays(levels, ts);
   const headerBytes = buildHeader(levels, ts, opts, emptyArrays(levels, ts), sizes).length;
   const partial = `${path}.partial`;
   const fh = await open(partial, 'w');
-  let workers: Worker[] = [];
   try {
-    workers = startCogWorkers(levels, ts, opts, Math.max(1, Math.min(opts.threads ?? cogThreads(), jobs.length)));
     const sink = new OrderedTileWriter(fh, jobs, sizes, headerBytes);
-    await compressTiles(workers, jobs, sink);
+    await compressTiles(levels, ts, opts, Math.max(1, opts.threads ?? cogThreads()), jobs, sink);
     if (sink.written !== jobs.length) throw new Error(`COG writer wrote ${sink.written} of ${jobs.length} tiles`);
     const header = buildHeader(levels, ts, opts, placeTiles(levels, ts, headerBytes, sizes), sizes);
     await fh.write(header, 0, header.length, 0);
@@ -261,7 +216,5 @@ export async function writeCogFile(
     await fh.close().catch(() => undefined);
     await rm(partial, { force: true });
     throw e;
-  } finally {
-    await Promise.all(workers.map((w) => w.terminate()));
   }
 }

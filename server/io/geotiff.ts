@@ -100,7 +100,7 @@ export function writeGeoTiff(grid: Grid<Float32Array | Float64Array>, opts: GeoT
 }
 
 /**
- * Writes a grid as a Cloud-Optimized GeoTIFF file, compressing tiles on worker threads (server/io/cog.ts); the file
+ * Writes a grid as a Cloud-Optimized GeoTIFF file, deflating tiles on node:zlib's thread pool (server/io/cog.ts); the file
  * appears at `path` only when complete.
  */
 export async function writeGeoTiffFile(

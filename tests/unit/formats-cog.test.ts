@@ -179,7 +179,7 @@ describe('Cloud-Optimized GeoTIFF writer', () => {
     for (const v of gdalPixels(f, 0)) if (v !== NODATA) expect(classes.has(v)).toBe(true);
   });
 
-  it('the worker-thread file writer produces the same bytes as the in-thread encoder; a failed write leaves nothing', async () => {
+  it('the file writer (tiles deflated on the zlib thread pool) produces the same bytes as the in-thread encoder; a failed write leaves nothing', async () => {
     const g = field();
     const f = join(dir, 'threads.tif');
     await writeGeoTiffFile(f, g, { description: 'd', threads: 2 });
