@@ -82,7 +82,7 @@ export interface LayerContext {
   method: string;
   toLonLat: (x: number, y: number) => [number, number];
   add: (l: Omit<ProductLayer, 'stats'>) => void;
-  /** The statistics of a layer's values (layerStats with a shared scratch buffer). */
+  /** The statistics of a layer's values (layerStats: a Float32 grid's median without a copy). */
   stats: (values: Float32Array) => LayerStats;
 }
 

@@ -281,7 +281,6 @@ export async function computeThermalProducts(
 
   const t3 = now();
   const layers: ProductLayer[] = [];
-  let statsScratch: Float64Array | undefined;
   const method = `steady 1-D conduction, layered, k(T) = k0/(1 + bT) by the Kirchhoff transform, constant or exponential heat production (Turcotte & Schubert 2002 §4-6, §4-8; Chapman 1986)${regions.length > 0 ? `; ${regions.length} regional model override(s)` : ''}`;
   const c: LayerContext = {
     heatFlow,
@@ -291,8 +290,8 @@ export async function computeThermalProducts(
     method,
     toLonLat: gridToLonLat(crsDef),
     add: (l) => layers.push({ ...l, stats: c.stats(l.grid.values) }),
-    // One scratch buffer for every layer's median (a grid-sized Float64Array each time would churn the heap).
-    stats: (v) => layerStats(v, (statsScratch ??= new Float64Array(W * H))),
+    // A Float32 grid's median by radix selection: no grid-sized copy (stats.ts).
+    stats: (v) => layerStats(v),
   };
   const contourJobs = Math.max(1, o.isothermsC.length + o.depthsKm.length);
   let contoursDone = 0;

@@ -37,6 +37,36 @@ describe('type-7 quantiles (Hyndman & Fan 1996, definition 7)', () => {
     expect(layerStats(new Float32Array(1_000_000).fill(3))).toEqual({ min: 3, max: 3, median: 3, noData: 0 });
   });
 
+  it("give a Float32 grid's median (radix selection, no copy) as d3-array quantileSorted does, with NaN and ±∞ as no data", () => {
+    const rng = createStream(7, 0);
+    for (const n of [1, 2, 3, 10, 1001, 100_000]) {
+      // Negative and positive values, ties, a ±0 pair, values sharing their high 16 bits, and no-data cells.
+      const a = Float32Array.from({ length: n }, (_, i) =>
+        i % 17 === 5
+          ? NaN
+          : i % 29 === 3
+            ? i % 2
+              ? Infinity
+              : -Infinity
+            : i % 13 === 0
+              ? i % 2
+                ? -0
+                : 0
+              : Math.round((rng.uniform() - 0.4) * 2000) / 64 + 1e-3 * (i % 3),
+      );
+      const finite = Array.from(a)
+        .filter(Number.isFinite)
+        .sort((x, y) => x - y);
+      const s = layerStats(a);
+      expect(s.noData).toBe(n - finite.length);
+      if (finite.length === 0) continue;
+      expect(s.median).toBe(d3Quantile(finite, 0.5)! + 0); // + 0: −0 and +0 read alike
+      expect(s.min).toBe(finite[0]);
+      expect(s.max).toBe(finite[finite.length - 1]);
+      expect(s.median).toBe(layerStats(Array.from(a)).median! + 0);
+    }
+  });
+
   it('treat +Infinity ("not reached") as NaN where the interpolation touches it', () => {
     expect(quantileSorted([1, 2, Infinity], 0, 3, 0.9)).toBeNaN();
     expect(quantileSorted([1, 2, Infinity], 0, 3, 0.5)).toBe(2);
