@@ -63,7 +63,7 @@ export interface ThermalGridBuffers {
   facies: Float32Array | null;
   /** 1 where the facies point is within one boundary width of another field. */
   faciesApproximate: Uint8Array | null;
-  /** Temperature at the facies depth, °C (scratch kept for the summary). */
+  /** Temperature at the facies depth, °C: the buffer of that depth in `temperatureC` when it is one of them. */
   faciesTemperatureC: Float32Array | null;
 }
 
@@ -72,9 +72,10 @@ export function allocateThermalGridBuffers(spec: ThermalGridSpec): ThermalGridBu
   const cells = spec.heatFlow.width * spec.heatFlow.height;
   const f = () => new Float32Array(cells).fill(NaN);
   const facies = spec.faciesDepthKm !== undefined && spec.faciesDepthKm !== null;
+  const temperatureC = spec.depthsKm.map(f);
   return {
     isothermDepthKm: spec.isothermsC.map(f),
-    temperatureC: spec.depthsKm.map(f),
+    temperatureC,
     baseHeatFlowMWm2: f(),
     inconsistent: f(),
     status: new Uint8Array(cells),
@@ -82,7 +83,7 @@ export function allocateThermalGridBuffers(spec: ThermalGridSpec): ThermalGridBu
     meltOnsetKm: (spec.solidus ?? true) ? f() : null,
     facies: facies ? f() : null,
     faciesApproximate: facies ? new Uint8Array(cells) : null,
-    faciesTemperatureC: facies ? f() : null,
+    faciesTemperatureC: facies ? (temperatureC[spec.depthsKm.indexOf(spec.faciesDepthKm!)] ?? f()) : null,
   };
 }
 
@@ -92,7 +93,7 @@ export interface ThermalGridPlan {
   /** Lithostatic pressure at the facies depth per zone, kbar. */
   faciesPressureKbar: Float64Array;
   states: ColumnState[];
-  /** The query every cell answers (the facies depth last among the depths). */
+  /** The query every cell answers (the facies depth last among the depths unless it is one of them). */
   query: GeothermGridQuery;
   /** Per zone: its heat-flow table, or null where its cells are solved one by one. */
   tables: Array<GeothermTable | null>;
@@ -147,8 +148,8 @@ export function planThermalGrids(spec: ThermalGridSpec): ThermalGridPlan {
   const fd = spec.faciesDepthKm;
   if (fd !== undefined && fd !== null && !(fd >= 0)) throw new RangeError(`faciesDepthKm must be ≥ 0, got ${fd}`);
   const faciesPressureKbar = Float64Array.from(spec.models, (cm) => (fd === undefined || fd === null ? NaN : kbarFromMPa(lithostaticPressureMPa(cm, fd))));
-  const withFacies = fd !== undefined && fd !== null;
-  const query = { isothermsC: spec.isothermsC, depthsKm: withFacies ? [...spec.depthsKm, fd] : spec.depthsKm, maxDepthKm: spec.maxDepthKm };
+  const extraDepth = fd !== undefined && fd !== null && !spec.depthsKm.includes(fd);
+  const query = { isothermsC: spec.isothermsC, depthsKm: extraDepth ? [...spec.depthsKm, fd] : spec.depthsKm, maxDepthKm: spec.maxDepthKm };
   return { spec, faciesPressureKbar, states: spec.models.map((cm) => new ColumnState(cm.nLayers)), query, tables: zoneTables(spec, query) };
 }
 
@@ -166,7 +167,7 @@ export function computeThermalGridRows(plan: ThermalGridPlan, r0: number, r1: nu
   const withFacies = fd !== undefined && fd !== null && out.facies !== null && out.faciesTemperatureC !== null;
   const gridOut = {
     isothermDepthKm: out.isothermDepthKm,
-    temperatureC: withFacies ? [...out.temperatureC, out.faciesTemperatureC!] : out.temperatureC,
+    temperatureC: plan.query.depthsKm.length > spec.depthsKm.length ? [...out.temperatureC, out.faciesTemperatureC!] : out.temperatureC,
     status: out.status,
     basalHeatFlowMWm2: out.baseHeatFlowMWm2,
     ...(out.meltOnsetKm === null ? {} : { meltOnsetKm: out.meltOnsetKm }),
