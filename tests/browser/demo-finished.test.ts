@@ -183,6 +183,7 @@ describe('the demo opens finished', { timeout: 900_000 }, () => {
         'run-depth-300C_p90',
         'run-depth-300C_mean',
         'run-depth-300C_mean-diff',
+        'run-depth-300C_reached',
       ]),
     );
     expect(sections['depth-500C']).toEqual(expect.arrayContaining(['run-depth-500C', 'run-depth-500C_p90', 'run-depth-500C_mean-diff']));
@@ -249,6 +250,21 @@ describe('the demo opens finished', { timeout: 900_000 }, () => {
         .map((s) => (s as HTMLElement).dataset.layer),
     );
     expect(stray).toEqual([]);
+
+    // The share of the realizations reaching 300 °C above the maximum depth: drawn in its ramp over the island, its
+    // legend in fractions with its note; the mean's legend states why the mean is empty where that share is below 1.
+    await page.locator('#toggle-run-depth-300C_reached').check();
+    expect(await legendOf('run-depth-300C_reached').textContent()).toMatch(/fraction[\s\S]*only there is the mean defined/);
+    await waitForMapIdle(page, 120_000);
+    const share = await rampCoverage(page, 'run-depth-300C_reached', ISLAND);
+    expect(share.ramp, JSON.stringify(share)).toBeGreaterThan(0.6);
+    if (await page.locator('#drawer-close').isVisible()) await page.locator('#drawer-close').click(); // the section drawn above
+    await waitForMapIdle(page, 120_000);
+    await page.screenshot({ path: join(SCREENSHOT_DIR, 'demo-finished-share.png') });
+    await page.locator('#toggle-run-depth-300C_mean').check();
+    expect(await legendOf('run-depth-300C_mean').textContent()).toContain('no mean where some realizations do not reach 300 °C above');
+    await page.locator('#toggle-run-depth-300C_reached').uncheck();
+    await page.locator('#toggle-run-depth-300C_mean').uncheck();
     expect(pageErrors).toEqual([]);
   });
 });
