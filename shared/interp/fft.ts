@@ -126,7 +126,7 @@ export class Fft {
           ib = s * S2 + r;
         for (let bb = 0; bb < B; bb++) {
           const x = this.x;
-          loadTwiddled(x, a.re, a.im, a.off + ia * a.es + bb, da, w, p);
+          loadFolded(x, a.re, a.im, a.off + ia * a.es + bb, da, w, p);
           butterfly(x, b.re, b.im, b.off + ib * b.es + bb, db);
         }
       }
@@ -142,85 +142,97 @@ interface Side {
   es: number;
 }
 
-/** Writes the p outputs of one butterfly from its twiddled inputs x = [x0r, x0i, x1r, x1i, …]. */
+/**
+ * Writes the p outputs of one butterfly from its folded inputs (loadFolded): x = [x0r, x0i, x1r, x1i, …] with
+ * x_q = v_q + v_(p−q) and x_(p−q) = v_q − v_(p−q) for 1 ≤ q < p/2, and for even p x_0 = v_0 + v_(p/2) and
+ * x_(p/2) = v_0 − v_(p/2), where v_q is input q times its twiddle.
+ */
 type Butterfly = (x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: number, db: number) => void;
 
-/** The p inputs of one butterfly, input q (q ≥ 1) multiplied by its twiddle w = [w1r, w1i, w2r, w2i, …]. */
-function loadTwiddled(x: Float64Array, aRe: Float64Array, aIm: Float64Array, a0: number, da: number, w: Float64Array, p: number): void {
-  x[0] = aRe[a0];
-  x[1] = aIm[a0];
-  for (let q = 1; q < p; q++) {
-    const v = aRe[a0 + q * da],
-      u = aIm[a0 + q * da];
-    const cr = w[2 * q - 2],
-      ci = w[2 * q - 1];
-    x[2 * q] = v * cr - u * ci;
-    x[2 * q + 1] = v * ci + u * cr;
+/**
+ * The p inputs of one butterfly, input q (q ≥ 1) multiplied by its twiddle w = [w1r, w1i, w2r, w2i, …], folded in
+ * pairs as they are read (the sums and differences every radix-p butterfly starts from; see Butterfly).
+ */
+function loadFolded(x: Float64Array, aRe: Float64Array, aIm: Float64Array, a0: number, da: number, w: Float64Array, p: number): void {
+  const odd = p & 1;
+  if (odd === 1) {
+    x[0] = aRe[a0];
+    x[1] = aIm[a0];
+  }
+  for (let q = odd; 2 * q < p; q++) {
+    // Pair (q, e): (0, p/2) for even p, then (q, p − q).
+    const e = q === 0 ? p >> 1 : p - q;
+    let ar = aRe[a0 + q * da],
+      ai = aIm[a0 + q * da];
+    if (q > 0) {
+      const cr = w[2 * q - 2],
+        ci = w[2 * q - 1];
+      const t = ar * cr - ai * ci;
+      ai = ar * ci + ai * cr;
+      ar = t;
+    }
+    const v = aRe[a0 + e * da],
+      u = aIm[a0 + e * da];
+    const cr = w[2 * e - 2],
+      ci = w[2 * e - 1];
+    const br = v * cr - u * ci,
+      bi = v * ci + u * cr;
+    x[2 * q] = ar + br;
+    x[2 * q + 1] = ai + bi;
+    x[2 * e] = ar - br;
+    x[2 * e + 1] = ai - bi;
   }
 }
 
+/** Stores the output pair a + b at o1 and a − b at o2 (complex a = (ar, ai), b = (br, bi)). */
+function storeSumDiff(bRe: Float64Array, bIm: Float64Array, o1: number, o2: number, ar: number, ai: number, br: number, bi: number): void {
+  bRe[o1] = ar + br;
+  bIm[o1] = ai + bi;
+  bRe[o2] = ar - br;
+  bIm[o2] = ai - bi;
+}
+
 function radix2(x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: number, db: number): void {
-  bRe[o0] = x[0] + x[2];
-  bIm[o0] = x[1] + x[3];
-  bRe[o0 + db] = x[0] - x[2];
-  bIm[o0 + db] = x[1] - x[3];
+  bRe[o0] = x[0];
+  bIm[o0] = x[1];
+  bRe[o0 + db] = x[2];
+  bIm[o0 + db] = x[3];
 }
 
 function radix3(x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: number, db: number): void {
-  // W_3 = −½ − i·√3/2.
+  // W_3 = −½ − i·√3/2; x1 = v1 + v2, x2 = v1 − v2.
   const x0r = x[0],
     x0i = x[1];
-  const sr = x[2] + x[4],
-    si = x[3] + x[5];
-  const dr = x[2] - x[4],
-    di = x[3] - x[5];
-  const mr = x0r - 0.5 * sr,
-    mi = x0i - 0.5 * si;
+  const mr = x0r - 0.5 * x[2],
+    mi = x0i - 0.5 * x[3];
   const k = 0.8660254037844386;
-  bRe[o0] = x0r + sr;
-  bIm[o0] = x0i + si;
-  bRe[o0 + db] = mr + k * di;
-  bIm[o0 + db] = mi - k * dr;
-  bRe[o0 + 2 * db] = mr - k * di;
-  bIm[o0 + 2 * db] = mi + k * dr;
+  bRe[o0] = x0r + x[2];
+  bIm[o0] = x0i + x[3];
+  storeSumDiff(bRe, bIm, o0 + db, o0 + 2 * db, mr, mi, k * x[5], -(k * x[4]));
 }
 
 function radix4(x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: number, db: number): void {
-  // W_4 = −i.
-  const s02r = x[0] + x[4],
-    s02i = x[1] + x[5],
-    d02r = x[0] - x[4],
-    d02i = x[1] - x[5];
-  const s13r = x[2] + x[6],
-    s13i = x[3] + x[7],
-    d13r = x[2] - x[6],
-    d13i = x[3] - x[7];
-  bRe[o0] = s02r + s13r;
-  bIm[o0] = s02i + s13i;
-  bRe[o0 + db] = d02r + d13i;
-  bIm[o0 + db] = d02i - d13r;
-  bRe[o0 + 2 * db] = s02r - s13r;
-  bIm[o0 + 2 * db] = s02i - s13i;
-  bRe[o0 + 3 * db] = d02r - d13i;
-  bIm[o0 + 3 * db] = d02i + d13r;
+  // W_4 = −i; x0 = v0 + v2, x2 = v0 − v2, x1 = v1 + v3, x3 = v1 − v3.
+  storeSumDiff(bRe, bIm, o0, o0 + 2 * db, x[0], x[1], x[2], x[3]);
+  storeSumDiff(bRe, bIm, o0 + db, o0 + 3 * db, x[4], x[5], x[7], -x[6]);
 }
 
 function radix5(x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: number, db: number): void {
-  // Direct sums with W_5^k.
+  // Direct sums with W_5^k; x1 = a1 = v1 + v4, x4 = b1 = v1 − v4, x2 = a2 = v2 + v3, x3 = b2 = v2 − v3.
   const c1 = 0.30901699437494745,
     c2 = -0.8090169943749475,
     s1 = 0.9510565162951535,
     s2 = 0.5877852522924731;
   const x0r = x[0],
-    x0i = x[1];
-  const a1r = x[2] + x[8],
-    a1i = x[3] + x[9],
-    b1r = x[2] - x[8],
-    b1i = x[3] - x[9];
-  const a2r = x[4] + x[6],
-    a2i = x[5] + x[7],
-    b2r = x[4] - x[6],
-    b2i = x[5] - x[7];
+    x0i = x[1],
+    a1r = x[2],
+    a1i = x[3],
+    a2r = x[4],
+    a2i = x[5],
+    b2r = x[6],
+    b2i = x[7],
+    b1r = x[8],
+    b1i = x[9];
   const m1r = x0r + c1 * a1r + c2 * a2r,
     m1i = x0i + c1 * a1i + c2 * a2i;
   const m2r = x0r + c2 * a1r + c1 * a2r,
@@ -231,14 +243,8 @@ function radix5(x: Float64Array, bRe: Float64Array, bIm: Float64Array, o0: numbe
     n2i = s2 * b1r - s1 * b2r;
   bRe[o0] = x0r + a1r + a2r;
   bIm[o0] = x0i + a1i + a2i;
-  bRe[o0 + db] = m1r + n1r;
-  bIm[o0 + db] = m1i - n1i;
-  bRe[o0 + 2 * db] = m2r + n2r;
-  bIm[o0 + 2 * db] = m2i - n2i;
-  bRe[o0 + 3 * db] = m2r - n2r;
-  bIm[o0 + 3 * db] = m2i + n2i;
-  bRe[o0 + 4 * db] = m1r - n1r;
-  bIm[o0 + 4 * db] = m1i + n1i;
+  storeSumDiff(bRe, bIm, o0 + db, o0 + 4 * db, m1r, m1i, n1r, -n1i);
+  storeSumDiff(bRe, bIm, o0 + 2 * db, o0 + 3 * db, m2r, m2i, n2r, -n2i);
 }
 
 const BUTTERFLIES: Record<number, Butterfly> = { 2: radix2, 3: radix3, 4: radix4, 5: radix5 };
