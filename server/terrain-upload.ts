@@ -16,6 +16,18 @@ export const MAX_TERRAIN_CELLS = 40_000_000;
 
 const bad = (message: string, problem: string, code = 'bad_geotiff') => new InputError(message, [{ field: '(body)', problem }], code);
 
+/** How the messages of checkDemHeader name the upload: a project's terrain or a grid data set share the checks. */
+export interface RasterUpload {
+  /** The upload in a sentence: "the terrain", "the grid". */
+  noun: string;
+  /** The kind of file in general ("a DEM") and what its one band holds. */
+  kind: string;
+  band: string;
+  /** The error code (413) of an upload over the byte or pixel limit. */
+  tooLargeCode: string;
+}
+export const TERRAIN_UPLOAD: RasterUpload = { noun: 'the terrain', kind: 'a DEM', band: 'elevation in metres', tooLargeCode: 'terrain_too_large' };
+
 /** The header facts a DEM upload is checked on (nothing of the pixels is decoded). */
 export interface DemHeader {
   width: number;
@@ -23,54 +35,54 @@ export interface DemHeader {
   crs: string;
 }
 
-/** Checks a DEM upload before decoding; throws InputError (413/415/422) naming what is wrong. */
-export async function checkDemHeader(bytes: Uint8Array, maxBytes: number): Promise<DemHeader> {
+/** Checks a DEM (or grid) upload before decoding; throws InputError (413/415/422) naming what is wrong and the upload. */
+export async function checkDemHeader(bytes: Uint8Array, maxBytes: number, up: RasterUpload): Promise<DemHeader> {
   if (bytes.byteLength > maxBytes) {
     throw bad(
-      `the terrain is ${bytes.byteLength} bytes, over the limit of ${maxBytes} bytes (${(maxBytes / 1048576).toFixed(0)} MB)`,
+      `${up.noun} is ${bytes.byteLength} bytes, over the limit of ${maxBytes} bytes (${(maxBytes / 1048576).toFixed(0)} MB)`,
       `at most ${maxBytes} bytes (SUBTHERM_MAX_TERRAIN_BYTES)`,
-      'terrain_too_large',
+      up.tooLargeCode,
     );
   }
   const sig = bytes.byteLength >= 4 ? (bytes[0] << 24) | (bytes[1] << 16) | (bytes[2] << 8) | bytes[3] : 0;
   // TIFF (TIFF 6.0 §2: "II*\0" or "MM\0*") and BigTIFF ("II+\0", "MM\0+").
   if (![0x49492a00, 0x4d4d002a, 0x49492b00, 0x4d4d002b].includes(sig >>> 0)) {
-    throw bad('the terrain is not a GeoTIFF: a TIFF file starts with II*\\0 or MM\\0*', 'expected a GeoTIFF (image/tiff)', 'not_geotiff');
+    throw bad(`${up.noun} is not a GeoTIFF: a TIFF file starts with II*\\0 or MM\\0*`, 'expected a GeoTIFF (image/tiff)', 'not_geotiff');
   }
   let image;
   try {
     image = await firstImage(bytes);
   } catch (e) {
-    throw bad(`the terrain GeoTIFF's header cannot be read: ${e instanceof Error ? e.message : String(e)}`, 'a readable TIFF header');
+    throw bad(`${up.noun} GeoTIFF's header cannot be read: ${e instanceof Error ? e.message : String(e)}`, 'a readable TIFF header');
   }
   const width = image.getWidth(),
     height = image.getHeight();
-  if (!(width >= 2 && height >= 2)) throw bad(`the terrain has ${width} × ${height} pixels; a DEM needs at least 2 × 2`, 'at least 2 × 2 pixels');
+  if (!(width >= 2 && height >= 2)) throw bad(`${up.noun} has ${width} × ${height} pixels; ${up.kind} needs at least 2 × 2`, 'at least 2 × 2 pixels');
   if (width * height > MAX_TERRAIN_CELLS) {
     throw bad(
-      `the terrain claims ${width} × ${height} = ${(width * height).toLocaleString('en')} pixels, over the limit of ${MAX_TERRAIN_CELLS.toLocaleString('en')}`,
+      `${up.noun} claims ${width} × ${height} = ${(width * height).toLocaleString('en')} pixels, over the limit of ${MAX_TERRAIN_CELLS.toLocaleString('en')}`,
       `at most ${MAX_TERRAIN_CELLS} pixels`,
-      'terrain_too_large',
+      up.tooLargeCode,
     );
   }
   const spp = image.getSamplesPerPixel();
-  if (spp !== 1) throw bad(`the terrain has ${spp} bands; a DEM has one (elevation in metres)`, 'one band');
-  await checkPixelBlocks(image, bytes);
-  return { width, height, crs: await demCrs(image) };
+  if (spp !== 1) throw bad(`${up.noun} has ${spp} bands; ${up.kind} has one (${up.band})`, 'one band');
+  await checkPixelBlocks(image, bytes, up);
+  return { width, height, crs: await demCrs(image, up) };
 }
 
 /**
  * The strips or tiles a DEM's header claims: as many as its size needs, each inside the file, and (uncompressed)
  * holding every pixel (422 truncated_geotiff otherwise).
  */
-async function checkPixelBlocks(image: GeoTiffImage, bytes: Uint8Array): Promise<void> {
+async function checkPixelBlocks(image: GeoTiffImage, bytes: Uint8Array, up: RasterUpload): Promise<void> {
   const width = image.getWidth(),
     height = image.getHeight();
   const tiled = hasTag(image, 'TileOffsets');
   const offsets = (await tagValue(image, tiled ? 'TileOffsets' : 'StripOffsets')) as ArrayLike<number> | undefined;
   const counts = (await tagValue(image, tiled ? 'TileByteCounts' : 'StripByteCounts')) as ArrayLike<number> | undefined;
   if (!offsets || !counts || offsets.length !== counts.length)
-    throw bad('the terrain GeoTIFF has no pixel data directory (strip or tile offsets and byte counts)', 'strip or tile offsets and byte counts');
+    throw bad(`${up.noun} GeoTIFF has no pixel data directory (strip or tile offsets and byte counts)`, 'strip or tile offsets and byte counts');
   let expectedBlocks: number;
   let rowsPerBlock: number,
     blockWidth = width;
@@ -87,7 +99,7 @@ async function checkPixelBlocks(image: GeoTiffImage, bytes: Uint8Array): Promise
   }
   if (offsets.length < expectedBlocks) {
     throw bad(
-      `the terrain claims ${width} × ${height} pixels but has ${offsets.length} of the ${expectedBlocks} ${tiled ? 'tiles' : 'strips'} they need`,
+      `${up.noun} claims ${width} × ${height} pixels but has ${offsets.length} of the ${expectedBlocks} ${tiled ? 'tiles' : 'strips'} they need`,
       `${expectedBlocks} ${tiled ? 'tiles' : 'strips'}`,
       'truncated_geotiff',
     );
@@ -97,7 +109,7 @@ async function checkPixelBlocks(image: GeoTiffImage, bytes: Uint8Array): Promise
     const end = offsets[i] + counts[i];
     if (!(offsets[i] >= 0 && end <= bytes.byteLength)) {
       throw bad(
-        `the terrain claims pixel data up to byte ${end}, beyond the end of the file (${bytes.byteLength} bytes): the file is truncated or its header is wrong`,
+        `${up.noun} claims pixel data up to byte ${end}, beyond the end of the file (${bytes.byteLength} bytes): the file is truncated or its header is wrong`,
         `${tiled ? 'tile' : 'strip'} ${i} ends past the end of the file`,
         'truncated_geotiff',
       );
@@ -109,7 +121,7 @@ async function checkPixelBlocks(image: GeoTiffImage, bytes: Uint8Array): Promise
     const need = tiled ? expectedBlocks * blockWidth * rowsPerBlock * image.getBytesPerPixel() : width * height * image.getBytesPerPixel();
     if (held < need) {
       throw bad(
-        `the terrain claims ${width} × ${height} pixels (${need} bytes uncompressed) but holds ${held} bytes of pixel data`,
+        `${up.noun} claims ${width} × ${height} pixels (${need} bytes uncompressed) but holds ${held} bytes of pixel data`,
         `${need} bytes of pixels`,
         'truncated_geotiff',
       );
@@ -118,20 +130,19 @@ async function checkPixelBlocks(image: GeoTiffImage, bytes: Uint8Array): Promise
 }
 
 /** The DEM's CRS as EPSG:nnnn: georeferenced, EPSG:4326 or a projected code with an offline definition (422). */
-async function demCrs(image: GeoTiffImage): Promise<string> {
-  if (georeferencing(image) === null) throw bad('the terrain has no georeferencing', 'a tie point and pixel scale (or a transformation)');
+async function demCrs(image: GeoTiffImage, up: RasterUpload): Promise<string> {
+  if (georeferencing(image) === null) throw bad(`${up.noun} has no georeferencing`, 'a tie point and pixel scale (or a transformation)');
   const epsg = epsgOf(image);
-  if (epsg === null)
-    throw bad('the terrain has no EPSG coordinate system', 'EPSG:4326 or a projected CRS with an EPSG code (ProjectedCSTypeGeoKey)', 'bad_crs');
+  if (epsg === null) throw bad(`${up.noun} has no EPSG coordinate system`, 'EPSG:4326 or a projected CRS with an EPSG code (ProjectedCSTypeGeoKey)', 'bad_crs');
   const code = epsg.code;
   if (!epsg.projected && code !== 4326)
-    throw bad(`the terrain is in geographic EPSG:${code}; use EPSG:4326 (WGS84) or a projected CRS`, 'EPSG:4326 or a projected EPSG code', 'bad_crs');
+    throw bad(`${up.noun} is in geographic EPSG:${code}; use EPSG:4326 (WGS84) or a projected CRS`, 'EPSG:4326 or a projected EPSG code', 'bad_crs');
   const crs = `EPSG:${code}`;
   await loadCrsDefinition(crs).catch((e: unknown) => {
     // A CRS that needs a datum grid file keeps its own answer (what to give instead); any other refusal means the
     // code has no offline definition.
-    if (e instanceof InputError && e.code === 'crs_needs_datum_grid') throw bad(`the terrain's CRS: ${e.message}`, e.details[0]?.problem ?? e.message, e.code);
-    throw bad(`the terrain's CRS ${crs} is not in the offline CRS list`, e instanceof Error ? e.message : String(e), 'bad_crs');
+    if (e instanceof InputError && e.code === 'crs_needs_datum_grid') throw bad(`${up.noun}'s CRS: ${e.message}`, e.details[0]?.problem ?? e.message, e.code);
+    throw bad(`${up.noun}'s CRS ${crs} is not in the offline CRS list`, e instanceof Error ? e.message : String(e), 'bad_crs');
   });
   return crs;
 }
@@ -214,7 +225,7 @@ export function reprojectToLonLat(src: Grid<Float32Array>, srcDef: string): Grid
 
 /** Checks, decodes and (if projected) reprojects a DEM upload to a lon/lat grid of elevations in metres. */
 export async function demFromUpload(bytes: Uint8Array, maxBytes: number): Promise<{ grid: Grid<Float32Array>; sourceCrs: string }> {
-  const h = await checkDemHeader(bytes, maxBytes);
+  const h = await checkDemHeader(bytes, maxBytes, TERRAIN_UPLOAD);
   const { grid } = await readGeoTiff(bytes, { source: 'the terrain GeoTIFF' });
   let finite = 0;
   for (let i = 0; i < grid.values.length; i++) if (Number.isFinite(grid.values[i])) finite++;

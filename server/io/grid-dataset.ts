@@ -11,19 +11,21 @@ import { InputError } from '../../shared/errors.ts';
 import { gridBbox } from '../../shared/grid/grid.ts';
 import { converter, loadCrsDefinition, WGS84_DEF } from '../../shared/interp/projection.ts';
 import type { ExternalDriftGrid } from '../../shared/interp/externalDrift.ts';
-import { checkDemHeader } from '../terrain-upload.ts';
+import { checkDemHeader, type RasterUpload } from '../terrain-upload.ts';
 import { sha256Hex } from './export.ts';
 import { readGeoTiff } from './geotiff.ts';
 import { utf8, type ParsedUpload } from './dataset-upload.ts';
 
+/** How the shared header checks name a grid upload in their messages (413 code: too_large). */
+const GRID_UPLOAD: RasterUpload = { noun: 'the grid', kind: 'a grid data set', band: 'the covariate', tooLargeCode: 'too_large' };
+
 /** Checks and decodes a grid upload; the stored body is the file's bytes in base64 (as UTF-8). */
 export async function gridDatasetFromUpload(bytes: Uint8Array, maxBytes: number, source: string): Promise<ParsedUpload> {
-  const h = await checkDemHeader(bytes, maxBytes);
+  const h = await checkDemHeader(bytes, maxBytes, GRID_UPLOAD);
   const { grid } = await readGeoTiff(bytes, { source });
   let finite = 0;
   for (let i = 0; i < grid.values.length; i++) if (Number.isFinite(grid.values[i])) finite++;
-  if (finite === 0)
-    throw new InputError('the drift grid has no values (every pixel is NoData)', [{ field: '(body)', problem: 'at least one value' }], 'bad_geotiff');
+  if (finite === 0) throw new InputError('the grid has no values (every pixel is NoData)', [{ field: '(body)', problem: 'at least one value' }], 'bad_geotiff');
   const [w, s, e, n] = gridBbox(grid);
   let bbox: [number, number, number, number] = [w, s, e, n];
   if (h.crs !== 'EPSG:4326') {
