@@ -6,6 +6,7 @@
  */
 import { el, fmt, reportTable, type Column } from './dom.ts';
 import type { IsogradSummary } from '../../shared/structure/layer.ts';
+import { excursionWarningLead } from '../../shared/structure/fault-types.ts';
 import type { FaultReportRow, FeatureCollection, SampleGrade } from './structure.ts';
 
 const KM_PER_DEG = 111.195; // mean Earth radius 6371.0088 km × π/180
@@ -156,6 +157,23 @@ type SepRow = {
   slipSense?: string;
 };
 
+/** A crossing pair set aside (shared/structure/fault-types.ts DroppedExcursion, as the run summary gives it). */
+type DroppedRow = { isograd: string; side: string; fromKm: number; toKm: number; sampleIds: string[] };
+
+/** One line for a fault's crossings set aside: how many, and for each pair the samples causing it, isograd, side and place. */
+function setAsideLine(dropped: DroppedRow[], sideName: (e: DroppedRow) => string): HTMLElement {
+  const pairs = dropped.map((e) => `${e.sampleIds.join(', ')}: ${e.isograd} on the ${sideName(e)}, ${fmt(e.fromKm, 1)}–${fmt(e.toKm, 1)} km along the trace`);
+  return el(
+    'li',
+    {
+      class: 'set-aside',
+      title:
+        "Two opposite crossings of one side's isograd profile, caused only by samples that leave-one-out contradicts: not counted as meetings of the isograd with the fault",
+    },
+    `${2 * dropped.length} crossings set aside — ${pairs.join('; ')}`,
+  );
+}
+
 /** One fault's statements and separations, laid out to fit the panel's width. */
 export function faultDetails(r: FaultReportRow): HTMLElement {
   const items: HTMLElement[] = [];
@@ -170,6 +188,9 @@ export function faultDetails(r: FaultReportRow): HTMLElement {
   for (const n of (r.notReached as { isograd: string; sideName: string }[] | undefined) ?? [])
     items.push(el('li', {}, `${n.isograd} does not reach ${n.sideName === 'either side' ? 'either side' : `the ${n.sideName}`}`));
   if (r.offsetOnly === true) items.push(el('li', {}, 'Offset only: no zone missing or repeated'));
+  const setAside = (r.droppedExcursions as DroppedRow[] | undefined) ?? [];
+  const sideName = (e: DroppedRow) => (r.sideNames as Record<string, string> | undefined)?.[e.side] ?? `${e.side} side`;
+  if (setAside.length > 0) items.push(setAsideLine(setAside, sideName));
   const seps = (r.separations as SepRow[] | undefined) ?? [];
   const range = (x: KmRange) => `${fmt(x.value, 1)} (${fmt(x.low, 1)}–${x.high === null ? 'open' : fmt(x.high, 1)})`;
   const openReasons = [...new Set(seps.flatMap((x) => [x.separationKm, x.dipSlipKm]).flatMap((x) => (x?.high === null ? [x.openReason ?? 'open'] : [])))];
@@ -194,7 +215,10 @@ export function faultDetails(r: FaultReportRow): HTMLElement {
   ];
   const sepTable =
     seps.length === 0 ? el('p', { class: 'empty' }, 'No isograd meets this fault on both sides.') : reportTable({ class: 'separations' }, columns, seps);
-  const warnings = Array.isArray(r.warnings) ? (r.warnings as string[]) : [];
+  // A dropped excursion's warning says at length what its set-aside line says.
+  const warnings = (Array.isArray(r.warnings) ? (r.warnings as string[]) : []).filter(
+    (w) => !setAside.some((e) => w.startsWith(excursionWarningLead(e.isograd, sideName(e)))),
+  );
   return el(
     'section',
     { class: 'fault-detail', 'data-fault-detail': String(r.id) },

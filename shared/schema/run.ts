@@ -281,8 +281,8 @@ const zoneStatementSchema = z.looseObject({ zone: z.string(), sampleIds: z.array
 
 /**
  * A fault's row of the structural report (shared/structure/layer.ts: faultSummary): repeated and missing zones,
- * isograds not reached, offset only, and each separation (end by compass, range in km, sense, dip slip when the
- * dips are known); further members (sides, overlap, warnings) pass through.
+ * isograds not reached, offset only, each separation (end by compass, range in km, sense, dip slip when the
+ * dips are known) and the crossings set aside; further members (sides, overlap, warnings) pass through.
  */
 export const faultReportRowSchema = z.looseObject({
   id: z.string(),
@@ -301,6 +301,11 @@ export const faultReportRowSchema = z.looseObject({
       slipSense: z.enum(['normal', 'reverse']).optional(),
     }),
   ),
+  droppedExcursions: z
+    .array(z.strictObject({ isograd: z.string(), side: z.enum(['left', 'right']), fromKm: z.number(), toKm: z.number(), sampleIds: z.array(z.string()) }))
+    .describe(
+      "crossings set aside: an excursion of a side's indicator profile across 0.5 and back (its two crossings at fromKm and toKm along the trace) not counted as meetings, because the only samples causing it (sampleIds) are contradicted by leave-one-out; also named in warnings",
+    ),
 });
 export type FaultReportRow = z.infer<typeof faultReportRowSchema>;
 

@@ -47,7 +47,7 @@
  */
 import type { IndicatorField } from './indicator.ts';
 import { traceAzimuthDeg } from './trace.ts';
-import type { FaultInfo, FaultReport, FaultReportOptions, Side } from './fault-types.ts';
+import { excursionWarningLead, type FaultInfo, type FaultReport, type FaultReportOptions, type Side } from './fault-types.ts';
 import { gradeJump, missingZones, repeatedZones, samplesBeside, sideStats } from './fault-zones.ts';
 import { findMeetings, stationProfiles } from './fault-meetings.ts';
 import { contradictionTest } from './misfits.ts';
@@ -105,7 +105,7 @@ export function faultReport(f: FaultInfo, field: IndicatorField, o: FaultReportO
   const { meetings, dropped } = findMeetings(st, L, R, o.fitWindowKm ?? Math.max(15, 1.5 * D), D, o.contradicts ?? contradictionTest(field));
   for (const e of dropped)
     warnings.push(
-      `${e.isograd} on the ${sideNames[e.side]}: the excursion of its profile at ${e.fromKm.toFixed(1)}–${e.toKm.toFixed(1)} km along the trace around ${e.sampleIds.join(', ')} (contradicted by ${e.sampleIds.length === 1 ? 'its' : 'their'} neighbours: see misfits) is not counted as a meeting`,
+      `${excursionWarningLead(e.isograd, sideNames[e.side])} at ${e.fromKm.toFixed(1)}–${e.toKm.toFixed(1)} km along the trace around ${e.sampleIds.join(', ')} (contradicted by ${e.sampleIds.length === 1 ? 'its' : 'their'} neighbours: see misfits) is not counted as a meeting`,
     );
   const sep = faultSeparations(meetings, {
     f,

@@ -163,3 +163,6 @@ export interface DroppedExcursion {
   toKm: number;
   sampleIds: string[];
 }
+
+/** The opening of the fault warning that names a dropped excursion (fault-report.ts); the page lists these apart. */
+export const excursionWarningLead = (isograd: string, sideName: string): string => `${isograd} on the ${sideName}: the excursion of its profile`;

@@ -108,6 +108,7 @@ export function faultSummary(f: FaultReport) {
         cutoffPitchDeg?: number;
       };
     }),
+    droppedExcursions: f.droppedExcursions.map((e) => ({ ...e, fromKm: rr(e.fromKm), toKm: rr(e.toKm) })),
     sides: f.sides,
     overlapAlongKm: f.overlapAlongKm === null ? null : [rr(f.overlapAlongKm[0]), rr(f.overlapAlongKm[1])],
     warnings: f.warnings,

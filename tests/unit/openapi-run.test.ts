@@ -5,7 +5,10 @@
 // checked against the published schema in tests/api/server-runs-pipeline.test.ts.
 import Ajv from 'ajv';
 import { describe, expect, it } from 'vitest';
+import { readFileSync } from 'node:fs';
 import { openApiDocument } from '../../server/routes/openapi.ts';
+import { parseFeatureCollection, type FaultCollection, type SampleCollection } from '../../shared/schema/features.ts';
+import { isogradLayer } from '../../shared/structure/index.ts';
 
 interface Doc {
   components: { schemas: Record<string, Record<string, unknown>> };
@@ -62,4 +65,27 @@ describe('OpenAPI: the run contract', () => {
     expect(s.additionalProperties).toBe(false);
     expect(validate('RunSummary', {}).length).toBeGreaterThan(0);
   });
+
+  it("publishes each fault's crossings set aside (droppedExcursions); the demo's fault rows validate, and F1 and F2 set aside the truth's mislabelled samples", () => {
+    type Node = { properties: Record<string, Node>; items: Node; description?: string };
+    const faultRow = (schemas.RunSummary as unknown as Node).properties.structure.properties.faults.items;
+    expect(faultRow.properties.droppedExcursions.description).toMatch(/crossings set aside/);
+    const check = ajv.compile(faultRow);
+    const read = (p: string) => JSON.parse(readFileSync(new URL(`../../fixtures/demo/${p}`, import.meta.url), 'utf8'));
+    const samples = parseFeatureCollection('samples', read('samples.geojson')).collection as SampleCollection;
+    const faults = parseFeatureCollection('faults', read('faults.geojson')).collection as FaultCollection;
+    const rows = isogradLayer(samples, faults, {}).report.faults;
+    for (const r of rows) expect(check(r) ? [] : check.errors, r.id).toEqual([]);
+    // fixtures/truth.json dome.mislabelledSamples: the invented samples given a wrong zone on purpose; OM-GS-226 and
+    // OM-GS-347 cause F1's and F2's unpaired crossings (docs/sources.md#fault-separation).
+    const truth = JSON.parse(readFileSync(new URL('../../fixtures/truth.json', import.meta.url), 'utf8')) as { dome: { mislabelledSamples: string[] } };
+    const setAside = (id: string) => rows.find((r) => r.id === id)!.droppedExcursions.map((e) => [e.isograd, e.sampleIds]);
+    expect(setAside('F1')).toEqual([['kyanite-in', ['OM-GS-226']]]);
+    expect(setAside('F2')).toEqual([['garnet-in', ['OM-GS-347']]]);
+    for (const id of ['OM-GS-226', 'OM-GS-347']) expect(truth.dome.mislabelledSamples).toContain(id);
+    // The contract refuses a row without the list or with a pair that names no samples.
+    const { droppedExcursions, ...without } = rows[0];
+    expect(check(without)).toBe(false);
+    expect(check({ ...rows[0], droppedExcursions: [{ ...droppedExcursions[0], sampleIds: undefined }] })).toBe(false);
+  }, 120_000);
 });
