@@ -211,15 +211,32 @@ function joinSegments(s: readonly number[], point: (id: number) => [number, numb
  * Returns one list of index-space lines per level, in the order of `levels`.
  */
 export function isolinesIndexLevels(values: ArrayLike<number>, width: number, height: number, levels: readonly number[]): IndexLine[][] {
+  const result: IndexLine[][] = new Array<IndexLine[]>(levels.length);
+  eachLevelLines(values, width, height, levels, (li, lines) => (result[li] = lines));
+  return result;
+}
+
+/**
+ * isolinesIndexLevels level by level: `each(li, lines)` gets the lines of levels[li] (in ascending order of level)
+ * as soon as they are joined, and each level's segments are let go once joined, so a caller that converts the lines
+ * at once never holds more than one level's index-space lines.
+ */
+function eachLevelLines(
+  values: ArrayLike<number>,
+  width: number,
+  height: number,
+  levels: readonly number[],
+  each: (li: number, lines: IndexLine[]) => void,
+): void {
   const order = levels.map((_, i) => i).sort((i, j) => levels[i] - levels[j]);
   const sorted = order.map((i) => levels[i]);
   const segs = segmentsByLevel(values, width, height, sorted);
-  const result: IndexLine[][] = new Array<IndexLine[]>(levels.length);
   for (let k = 0; k < sorted.length; k++) {
     const L = sorted[k];
-    result[order[k]] = joinSegments(segs[k], (id) => sidePoint(values, width, id, L));
+    const lines = joinSegments(segs[k], (id) => sidePoint(values, width, id, L));
+    segs[k] = [];
+    each(order[k], lines);
   }
-  return result;
 }
 
 /**
@@ -235,11 +252,13 @@ export function contourGrid(grid: Grid<Float32Array | Float64Array>, opts: Conto
   const round = (v: number) => Math.round(v * f) / f;
   const toLonLat = opts.toLonLat;
   if (toLonLat === undefined && !/^EPSG:4326$/i.test(grid.crs)) throw new RangeError(`contours of a ${grid.crs} grid need a toLonLat converter`);
-  const features: ContourFeature[] = [];
-  const perLevel = isolinesIndexLevels(grid.values, grid.width, grid.height, levels);
-  for (let li = 0; li < levels.length; li++) {
-    const level = levels[li];
-    for (const line of perLevel[li]) {
+  // Each level's index-space lines become features as soon as they are joined (a continental grid's lines of every
+  // level at once would double its contours' memory); the features keep the order of `levels`.
+  const perLevel: ContourFeature[][] = levels.map(() => []);
+  eachLevelLines(grid.values, grid.width, grid.height, levels, (li, lines) => {
+    const level = levels[li],
+      features = perLevel[li];
+    for (const line of lines) {
       const coords: [number, number][] = [];
       for (const [ix, iy] of line) {
         const x = grid.west + ix * grid.dx,
@@ -251,6 +270,8 @@ export function contourGrid(grid: Grid<Float32Array | Float64Array>, opts: Conto
       }
       if (coords.length >= 2) features.push({ type: 'Feature', geometry: { type: 'LineString', coordinates: coords }, properties: { value: level, units } });
     }
-  }
+  });
+  const features: ContourFeature[] = [];
+  for (const f of perLevel) for (const x of f) features.push(x);
   return { type: 'FeatureCollection', features };
 }
