@@ -3,18 +3,42 @@
  * GeoJSON) with the caution and provenance, and the text answer (the layers' statistics, the central values of a
  * Monte Carlo beside the deterministic grids, the warnings, the files).
  */
-import { mkdir, writeFile } from 'node:fs/promises';
+import { mkdir, open } from 'node:fs/promises';
 import { join } from 'node:path';
 import { CAUTION } from '../../shared/caution.ts';
 import { InputError } from '../../shared/errors.ts';
 import type { GridSpec } from '../../shared/grid/grid.ts';
+import type { ContourCollection } from '../../shared/grid/contours.ts';
 import type { ProductCentralValue } from '../../shared/products/central-values.ts';
 import { withMethod, type Provenance } from '../../shared/products/provenance.ts';
 import type { ThermalProductsResult } from '../../shared/products/thermal-products.ts';
 import { geojsonText } from '../io/export.ts';
 import { writeGeoTiffFile } from '../io/geotiff.ts';
 
-/** Writes each layer (GeoTIFF, contours) into `outDir`, creating it; returns the paths written. */
+/**
+ * Writes a contour collection as the GeoJSON text of geojsonText (the same bytes), a few thousand features at a
+ * time, so a continental grid's millions of vertices never become one string.
+ */
+async function writeGeojsonFile(path: string, collection: ContourCollection, provenance: Provenance): Promise<void> {
+  const head = geojsonText({ type: 'FeatureCollection', features: [] }, provenance);
+  const fh = await open(path, 'w');
+  try {
+    await fh.write(head.slice(0, -2)); // up to `"features":[`
+    const f = collection.features;
+    for (let i = 0; i < f.length; i += 2048) {
+      const part = JSON.stringify(f.slice(i, i + 2048));
+      await fh.write((i === 0 ? '' : ',') + part.slice(1, -1));
+    }
+    await fh.write(']}');
+  } finally {
+    await fh.close();
+  }
+}
+
+/**
+ * Writes each layer (GeoTIFF, contours) into `outDir`, creating it; returns the paths written. Each layer's contours
+ * are let go once written (the caller counts them first), so the later files are written beside fewer of them.
+ */
 export async function writeProductFiles(outDir: string, products: ThermalProductsResult, provenance: Provenance): Promise<string[]> {
   try {
     await mkdir(outDir, { recursive: true });
@@ -29,8 +53,9 @@ export async function writeProductFiles(outDir: string, products: ThermalProduct
     files.push(tif);
     if (l.contours) {
       const gj = join(outDir, `${l.name}.contours.geojson`);
-      await writeFile(gj, geojsonText(l.contours, withMethod(p, `contours of: ${l.method}`)));
+      await writeGeojsonFile(gj, l.contours, withMethod(p, `contours of: ${l.method}`));
       files.push(gj);
+      l.contours = undefined;
     }
   }
   return files;

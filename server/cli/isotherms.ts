@@ -95,13 +95,17 @@ export async function isotherms(argv: string[]): Promise<number> {
   };
   const provenance = buildProvenance({ method: 'isotherms', model: doc.model, modelName: doc.name, inputs, parameters }, sha256Hex);
 
+  // The layers' statistics and contour counts before the files are written (the writer lets each layer's contours go).
+  const layerSummary = Object.fromEntries(
+    products.layers.map((l) => [l.name, { units: l.units, ...l.stats, contourLines: l.contours?.features.length ?? null }]),
+  );
   const t1 = performance.now();
   const files = await writeProductFiles(outDir, products, provenance);
   const writeMs = performance.now() - t1;
   const summary = {
     caution: CAUTION,
     grid: { width: heatFlow.width, height: heatFlow.height, west: heatFlow.west, north: heatFlow.north, dx: heatFlow.dx, dy: heatFlow.dy, crs: heatFlow.crs },
-    products: Object.fromEntries(products.layers.map((l) => [l.name, { units: l.units, ...l.stats, contourLines: l.contours?.features.length ?? null }])),
+    products: layerSummary,
     inconsistent: products.counts,
     maxDepthKm: products.maxDepthKm,
     monteCarlo: products.monteCarlo,
