@@ -224,7 +224,8 @@ async function readBand(image: Image, band: number, window: [number, number, num
   const rasters = (await image.readRasters({ samples: [band], interleave: false, ...(window ? { window } : {}) })) as unknown as ArrayLike<number>[];
   const raw = rasters[0];
   const nodata = image.getGDALNoData();
-  const values = new Float32Array(raw.length);
+  // A Float32 band is converted where geotiff.js decoded it (no second grid-sized array).
+  const values = raw instanceof Float32Array ? raw : new Float32Array(raw.length);
   for (let i = 0; i < values.length; i++) {
     const v = raw[i];
     values[i] = (nodata !== null && v === nodata) || !Number.isFinite(v) ? NaN : v;
