@@ -20,12 +20,7 @@ export function cellDeclusteringWeights(x: ArrayLike<number>, y: ArrayLike<numbe
   const n = x.length;
   if (!(cellKm > 0 && Number.isFinite(cellKm))) throw new RangeError(`declustering cell size must be > 0 km, got ${cellKm}`);
   if (!(Number.isInteger(offsets) && offsets >= 1)) throw new RangeError(`declustering offsets must be a positive integer, got ${offsets}`);
-  let x0 = Infinity,
-    y0 = Infinity;
-  for (let i = 0; i < n; i++) {
-    x0 = Math.min(x0, x[i]);
-    y0 = Math.min(y0, y[i]);
-  }
+  const { x0, y0 } = pointEnvelope(x, y);
   const w = new Float64Array(n);
   const cellOf = new Array<string>(n);
   for (let k = 0; k < offsets; k++) {

@@ -8,6 +8,7 @@
  * are dropped as single-sample artefacts of an exact interpolator and reported instead.
  */
 import { InputError } from '../errors.ts';
+import { pointEnvelope } from '../interp/envelope.ts';
 import { ZONE_NAMES } from '../petrology/index.ts';
 import { BOUNDARY_COUNT, IndicatorField, type LocalGrid } from './indicator.ts';
 import { addBandWidths, disagreeingSamples, isogradName, isolatedLoopSamples, lineLength, lineSupport } from './isograd-lines.ts';
@@ -105,16 +106,7 @@ const now = () => (typeof performance !== 'undefined' ? performance.now() : Date
 
 /** The isograd grid: over the samples' envelope padded by the support distance, or `gridSize` cells about its centre. */
 function isogradGrid(field: IndicatorField, cellKm: number, supportKm: number, opts: IsogradGridOptions): LocalGrid {
-  let x0 = Infinity,
-    x1 = -Infinity,
-    y0 = Infinity,
-    y1 = -Infinity;
-  for (let i = 0; i < field.count; i++) {
-    x0 = Math.min(x0, field.x[i]);
-    x1 = Math.max(x1, field.x[i]);
-    y0 = Math.min(y0, field.y[i]);
-    y1 = Math.max(y1, field.y[i]);
-  }
+  let { x0, x1, y0, y1 } = pointEnvelope(field.x, field.y);
   let width: number, height: number;
   if (opts.gridSize !== undefined) {
     [width, height] = opts.gridSize;
