@@ -1,7 +1,7 @@
 // The SQLite store's writer thread and the request thread's own writes. A large data set body is written on the
 // writer thread; while it holds the file's write lock, a small save from the request thread must wait for it
-// without holding the event loop (SQLite's busy_timeout would wait synchronously, freezing every request), and
-// must then succeed. Bodies given as UTF-8 bytes are stored as text, inline or off the thread. A store made before
+// without holding the event loop longer than the 250 ms responsiveness goal (SQLite's busy_timeout would wait
+// synchronously, freezing every request), and must then succeed. Bodies given as UTF-8 bytes are stored as text, inline or off the thread. A store made before
 // data set bodies moved to their row's last column is migrated with its rows and references intact.
 import { afterEach, describe, expect, it } from 'vitest';
 import Database from 'better-sqlite3';
@@ -85,6 +85,9 @@ describe('SQLite writer thread', () => {
     expect(bytes.byteLength).toBe(0);
     // Waiting inside SQLite would hold the loop for the rest of the large write (the save waited saveMs for it).
     expect(maxGapMs).toBeLessThan(Math.max(250, saveMs / 2));
+    // And the hold stays within the server's responsiveness goal of 250 ms (the bench's worst-probe goal). Six runs
+    // at load 18–22 on 2 cores held it 32–169 ms while the save waited 1.2–1.8 s.
+    expect(maxGapMs).toBeLessThanOrEqual(250);
     expect((await store.getDataset(rec.id))!.body).toBe(text);
     await store.close();
   }, 300_000);
