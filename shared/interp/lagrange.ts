@@ -1,5 +1,5 @@
 /**
- * Four-point (cubic) Lagrange interpolation on equally spaced nodes (Abramowitz & Stegun 1964, §25.2; from memory): the
+ * Four-point (cubic) Lagrange interpolation on equally spaced nodes (docs/sources.md#lagrange-interpolation): the
  * value at offset u ∈ [0, 3] node spacings from the first of four nodes v[k], v[k + s], v[k + 2s], v[k + 3s] is
  * Σ lᵢ(u)·v[k + i·s] with l₀ = −(u−1)(u−2)(u−3)/6, l₁ = u(u−2)(u−3)/2, l₂ = −u(u−1)(u−3)/2, l₃ = u(u−1)(u−2)/6.
  * The heat-flow tables of the thermal products and of heat in place read their nodes with it.
