@@ -4,6 +4,7 @@
  * their P50, beside the deterministic (kriged) map's and the mean's difference from it.
  */
 import type { RunSummary } from '../../shared/schema/run.ts';
+import { summaryProductName } from '../../shared/products/names.ts';
 import { el, fmt } from './dom.ts';
 
 type CentralValue = NonNullable<NonNullable<RunSummary['monteCarlo']>['centralValues']>[number];
@@ -28,7 +29,14 @@ export function centralValuesTable(mc: RunSummary['monteCarlo']): HTMLElement | 
       el('td', { class: 'num', 'data-col': 'difference' }, signed(c.difference, digits(c.units))),
     ),
   );
-  const undefinedCells = rows.filter((c) => c.cellsMeanUndefined > 0).map((c) => `${c.product}: ${c.cellsMeanUndefined} of ${c.cells} cells`);
+  // An isotherm's depth has a layer giving, per cell, the share of the realizations reaching it (names.ts).
+  const undefinedCells = rows
+    .filter((c) => c.cellsMeanUndefined > 0)
+    .map(
+      (c) =>
+        `${c.product}: ${c.cellsMeanUndefined} cells${c.product.startsWith('depth-') ? ` (share reaching it: ${summaryProductName(c.product, 'reached')})` : ''}`,
+    );
+  const ex = mc!.heatFlowExhausted;
   return el(
     'div',
     { id: 'run-central-values' },
@@ -39,7 +47,19 @@ export function centralValuesTable(mc: RunSummary['monteCarlo']): HTMLElement | 
     ),
     el('div', { class: 'table-scroll' }, el('table', { class: 'report', id: 'central-values' }, el('thead', {}, head), el('tbody', {}, ...body))),
     undefinedCells.length > 0
-      ? el('p', { class: 'note' }, `Cells without a mean (some realization does not reach the isotherm): ${undefinedCells.join('; ')}.`)
+      ? el(
+          'p',
+          { class: 'note', id: 'central-values-undefined' },
+          `Cells without a mean (some realization does not reach the isotherm above the maximum depth, or lies past the melt onset at that depth): ${undefinedCells.join('; ')}. ` +
+            `The averages run over the cells where the mean, the P50 and the deterministic map are all defined: ${rows.map((c) => `${c.product} ${c.cells}`).join(', ')}.`,
+        )
+      : null,
+    ex !== undefined && ex.cellRealizations > 0
+      ? el(
+          'p',
+          { class: 'note', id: 'central-values-exhausted' },
+          `In ${ex.cells} cells, ${ex.cellRealizations} realizations in all have a heat flow that runs out above the maximum depth: their temperature peaks where it does, so they count as not reaching any hotter isotherm.`,
+        )
       : null,
   );
 }

@@ -169,6 +169,24 @@ describe('the demo opens finished', { timeout: 900_000 }, () => {
     expect(await page.locator('#run-seed').inputValue()).toBe(String(DEMO_RUN_REQUEST.seed));
     expect(await page.locator('#run-isotherms').inputValue()).toBe(DEMO_RUN_REQUEST.isothermsC.join(', '));
     expect(await page.locator('#run-depths').inputValue()).toBe(DEMO_RUN_REQUEST.depthsKm.join(', '));
+    // Under the central values: the cells without a mean per map (the summary's counts), each isotherm's share layer,
+    // and the realizations whose heat flow runs out above the maximum depth.
+    const mc = (
+      (await (await fetch(`${server.url}/api/runs/${await page.evaluate(() => window.subtherm!.run!.run.id)}`)).json()) as {
+        summary: {
+          monteCarlo: { centralValues: { product: string; cellsMeanUndefined: number }[]; heatFlowExhausted: { cellRealizations: number; cells: number } };
+        };
+      }
+    ).summary.monteCarlo;
+    const undef = (await page.locator('#central-values-undefined').textContent())!;
+    for (const c of mc.centralValues.filter((v) => v.cellsMeanUndefined > 0))
+      expect(undef).toContain(
+        `${c.product}: ${c.cellsMeanUndefined} cells${c.product.startsWith('depth-') ? ` (share reaching it: ${c.product}.reached)` : ''}`,
+      );
+    expect(mc.heatFlowExhausted.cellRealizations).toBeGreaterThan(0);
+    expect(await page.locator('#central-values-exhausted').textContent()).toContain(
+      `In ${mc.heatFlowExhausted.cells} cells, ${mc.heatFlowExhausted.cellRealizations} realizations in all`,
+    );
     // The model's name is the demo project's model data set's name, in the editable field.
     const held = (await (await fetch(`${server.url}/api/projects/demo/datasets`)).json()) as { datasets: { id: string; name: string }[] };
     const modelName = held.datasets.find((d) => d.id === DEMO_RUN_REQUEST.model)!.name;
