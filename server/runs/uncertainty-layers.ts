@@ -2,9 +2,10 @@
  * Layers read from a run's realizations (server/runs/realizations.ts): the spread of the depth to an isotherm
  * (P90 − P10, Hyndman & Fan type 7 over the realizations, as the run's P10/P90 maps) and exceedance probabilities:
  * the fraction of valid realizations in which the depth to an isotherm is shallower than a depth, or the
- * temperature at a depth exceeds a value. An isotherm not reached counts as deeper than any depth; a realization
- * whose column is invalid for the cell (heat flow exhausted before the answer, k(T) undefined, an impossible draw,
- * or an isotherm below the melt onset) is left out of the fraction. The melt and mantle limits apply as in the run's
+ * temperature at a depth exceeds a value. An isotherm not reached counts as deeper than any depth, also one hotter
+ * than the peak of a column whose heat flow runs out above the maximum depth; a realization whose column is invalid
+ * for the cell (a temperature asked below such a peak, k(T) undefined, an impossible draw, or an isotherm below the
+ * melt onset) is left out of the fraction. The melt and mantle limits apply as in the run's
  * maps: a temperature below the melt onset (the dry solidus of its rock) is never given; it counts as hotter than
  * any valid temperature, so it exceeds every value asked for (the rock there is at least at its solidus: read a
  * threshold above the solidus with that in mind). Cells are processed in blocks with one (realizations × block)
