@@ -30,3 +30,15 @@ export class InputError extends Error {
 export function isInputError(e: unknown): e is InputError {
   return e instanceof InputError;
 }
+
+/**
+ * An InputError for a list of problems: the message is `lead` and the first three as `feature field: problem`
+ * (joined by "; "); the details keep the first 50.
+ */
+export function problemsError(lead: string, problems: InputProblem[], code: string): InputError {
+  const shown = problems
+    .slice(0, 3)
+    .map((p) => `${p.feature} ${p.field}: ${p.problem}`)
+    .join('; ');
+  return new InputError(`${lead}: ${shown}`, problems.slice(0, 50), code);
+}

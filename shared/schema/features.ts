@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { InputError, type InputProblem } from '../errors.ts';
+import { InputError, problemsError, type InputProblem } from '../errors.ts';
 import { parseCsv } from '../io/csv.ts';
 import { checkDegreeColumns, dataSetCoordinateColumns, rowProperties, wellFeaturesFromRows, type CsvPoint } from './csv-points.ts';
 import { swappedLonLatError } from './lonlat-order.ts';
@@ -366,12 +366,9 @@ export function parsePointCsv(
     return { lon, lat, props };
   });
   if (problems.length > 0)
-    throw new InputError(
-      `${problems.length} problem(s) in the CSV (lines as a spreadsheet numbers them, the header on line ${headerLine}): ${problems
-        .slice(0, 3)
-        .map((p) => `${p.feature} ${p.field}: ${p.problem}`)
-        .join('; ')}`,
-      problems.slice(0, 50),
+    throw problemsError(
+      `${problems.length} problem(s) in the CSV (lines as a spreadsheet numbers them, the header on line ${headerLine})`,
+      problems,
       'invalid_features',
     );
   // Each feature is labelled by its CSV line in later messages (a well by its first line).

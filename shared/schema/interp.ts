@@ -1,6 +1,6 @@
 import { z } from 'zod';
 import { swappedLonLatError } from './lonlat-order.ts';
-import { InputError, type InputProblem } from '../errors.ts';
+import { InputError, problemsError, type InputProblem } from '../errors.ts';
 import { parseCsv } from '../io/csv.ts';
 import { coordinateColumns, rowProperties } from './csv-points.ts';
 import { parseFeatureCollection } from './features.ts';
@@ -376,12 +376,9 @@ export function pointsFromCsv(
     return { type: 'Feature', geometry: { type: 'Point', coordinates: p }, properties: props };
   });
   if (problems.length > 0)
-    throw new InputError(
-      `${problems.length} problem(s) in ${src} (CSV lines as a spreadsheet numbers them, the header is line 1 unless comment lines precede it): ${problems
-        .slice(0, 3)
-        .map((p) => `${p.feature} ${p.field}: ${p.problem}`)
-        .join('; ')}`,
-      problems.slice(0, 50),
+    throw problemsError(
+      `${problems.length} problem(s) in ${src} (CSV lines as a spreadsheet numbers them, the header is line 1 unless comment lines precede it)`,
+      problems,
       'invalid_features',
     );
   const r = pointsFromGeoJson({ type: 'FeatureCollection', features }, field, opts);

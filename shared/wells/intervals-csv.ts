@@ -1,4 +1,4 @@
-import { InputError, type InputProblem } from '../errors.ts';
+import { InputError, problemsError, type InputProblem } from '../errors.ts';
 import { parseCsv } from '../io/csv.ts';
 import { columnProblems, type LithologyInterval } from './conductivity.ts';
 import type { ConductivityInterval } from './types.ts';
@@ -60,15 +60,7 @@ export function parseIntervalsCsv(text: string, source = 'intervals'): Map<strin
     else problems.push({ feature: row, field: 'conductivityWmK', problem: 'the row has neither a conductivity nor a lithology' });
     out.set(id, w);
   });
-  if (problems.length > 0)
-    throw new InputError(
-      `${source}: ${problems.length} problem(s): ${problems
-        .slice(0, 3)
-        .map((p) => `${p.feature} ${p.field}: ${p.problem}`)
-        .join('; ')}`,
-      problems.slice(0, 50),
-      'invalid_features',
-    );
+  if (problems.length > 0) throw problemsError(`${source}: ${problems.length} problem(s)`, problems, 'invalid_features');
   return out;
 }
 
