@@ -9,6 +9,7 @@ import { FACIES_FIELDS } from '../../shared/petrology/index.ts';
 import { ROCK_SOLIDUS } from '../../shared/petrology/solidus.ts';
 import type { RockKind } from '../../shared/schema/model.ts';
 import { fmt, svg } from './dom.ts';
+import { svgFigure } from './svg-frame.ts';
 import { bandOf, columnDepthKm, depthAtPressure, invalidFrom, isoValue, type ColumnAnswer } from './column-answer.ts';
 import { axes, cursorReadout, H, labelWidth, M, plotWindow, spreadLabels, W, type PlotFrame } from './column-frame.ts';
 
@@ -199,12 +200,8 @@ export function columnPlot(c: ColumnAnswer): { plot: SVGSVGElement; readout: HTM
   const pw = W - M.left - M.right,
     ph = H - M.top - M.bottom;
   const f: PlotFrame = { pw, ph, tMax, zMax, x: (t) => M.left + (t / tMax) * pw, y: (z) => M.top + (z / zMax) * ph };
-  const root = svg('svg', {
-    viewBox: `0 0 ${W} ${H}`,
-    width: W,
-    height: H,
+  const root = svgFigure(W, H, {
     class: 'column-plot',
-    role: 'img',
     tabindex: 0,
     'aria-label': 'Temperature against depth; use the up and down arrow keys to move the cursor',
   });

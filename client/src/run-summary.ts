@@ -6,7 +6,8 @@ import { cellSizeText } from '../../shared/geodesy/ground-cell.ts';
 import { semivariance } from '../../shared/interp/variogram.ts';
 import type { RunSummary } from '../../shared/schema/run.ts';
 import { getJson, type CrossValidation, type RunState, type Variogram } from './api.ts';
-import { el, fmt, niceTicks, svg } from './dom.ts';
+import { el, fmt, svg } from './dom.ts';
+import { lagGammaPlot } from './svg-frame.ts';
 import { anisotropyFigure } from './variogram-plot.ts';
 import { centralValuesTable } from './central-values.ts';
 
@@ -52,21 +53,10 @@ export function variogramPlot(v: Variogram): HTMLElement {
   const hMax = (maxLag > 0 ? maxLag * 1.15 : v.rangeKm * 1.3) || 1;
   const gAtMax = variogramModel(v, hMax);
   const gMax = Math.max(Number.isFinite(gAtMax) ? gAtMax : v.nugget + v.partialSill, ...emp.map((e) => e.gamma)) * 1.1 || 1;
-  const x = (h: number) => M.l + (h / hMax) * (W - M.l - M.r);
-  const y = (g: number) => H - M.b - (g / gMax) * (H - M.t - M.b);
-  const root = svg('svg', {
-    viewBox: `0 0 ${W} ${H}`,
-    width: W,
-    height: H,
+  const { root, x, y } = lagGammaPlot({ W, H, M }, hMax, gMax, {
     class: 'variogram-plot',
-    role: 'img',
     'aria-label': `variogram: ${v.model} model, nugget ${fmt(v.nugget, 2)}, partial sill ${fmt(v.partialSill, 2)}, range ${fmt(v.rangeKm, 1)} km`,
   });
-  root.append(svg('rect', { x: M.l, y: M.t, width: W - M.l - M.r, height: H - M.t - M.b, class: 'frame' }));
-  for (const h of niceTicks(0, hMax, 5)) root.append(svg('text', { x: x(h), y: H - M.b + 14, 'text-anchor': 'middle' }, String(h)));
-  for (const g of niceTicks(0, gMax, 4)) root.append(svg('text', { x: M.l - 5, y: y(g) + 4, 'text-anchor': 'end' }, String(g)));
-  root.append(svg('text', { x: M.l + (W - M.l - M.r) / 2, y: H - 6, 'text-anchor': 'middle', class: 'axis-title' }, 'lag (km)'));
-  root.append(svg('text', { x: 11, y: H / 2, transform: `rotate(-90 11 ${H / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'semivariance γ'));
   const pts: string[] = [];
   for (let i = 0; i <= 80; i++) {
     const h = (hMax * i) / 80;

@@ -51,18 +51,20 @@ export class LineDrawer {
   }
 
   start(): void {
-    this.active = true;
-    this.points = [];
-    this.map.doubleClickZoom.disable();
-    this.map.getCanvas().style.cursor = 'crosshair';
-    this.render();
+    this.setDrawing(true);
   }
 
   cancel(): void {
-    this.active = false;
+    this.setDrawing(false);
+  }
+
+  /** Starts or ends drawing: no points yet; double-click zoom off and a crosshair cursor while drawing. */
+  private setDrawing(on: boolean): void {
+    this.active = on;
     this.points = [];
-    this.map.doubleClickZoom.enable();
-    this.map.getCanvas().style.cursor = '';
+    if (on) this.map.doubleClickZoom.disable();
+    else this.map.doubleClickZoom.enable();
+    this.map.getCanvas().style.cursor = on ? 'crosshair' : '';
     this.render();
   }
 

@@ -113,23 +113,33 @@ function overlayLayers(): LayerSpecification[] {
   ];
 }
 
+/**
+ * A path the user draws on the map (source `source`): its line in `colour` (dashed by `dash`) and its vertices as
+ * white dots ringed in the same colour, as layers `ids` = [line, vertices].
+ */
+function drawnPathLayers(source: string, ids: [string, string], colour: string, dash?: number[]): LayerSpecification[] {
+  return [
+    {
+      id: ids[0],
+      type: 'line',
+      source,
+      filter: ['==', ['geometry-type'], 'LineString'],
+      paint: { 'line-color': colour, 'line-width': 2.5, ...(dash ? { 'line-dasharray': dash } : {}) },
+    },
+    {
+      id: ids[1],
+      type: 'circle',
+      source,
+      filter: ['==', ['geometry-type'], 'Point'],
+      paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': colour, 'circle-stroke-width': 2 },
+    },
+  ];
+}
+
 /** The topmost layers: the section line being drawn and the graticule's degree labels. */
 function topLayers(): LayerSpecification[] {
   return [
-    {
-      id: 'section-line',
-      type: 'line',
-      source: 'section-line',
-      filter: ['==', ['geometry-type'], 'LineString'],
-      paint: { 'line-color': '#111111', 'line-width': 2.5, 'line-dasharray': [3, 1.5] },
-    },
-    {
-      id: 'section-points',
-      type: 'circle',
-      source: 'section-line',
-      filter: ['==', ['geometry-type'], 'Point'],
-      paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': '#111111', 'circle-stroke-width': 2 },
-    },
+    ...drawnPathLayers('section-line', ['section-line', 'section-points'], '#111111', [3, 1.5]),
     {
       id: 'hip-area-fill',
       type: 'fill',
@@ -137,20 +147,7 @@ function topLayers(): LayerSpecification[] {
       filter: ['==', ['geometry-type'], 'Polygon'],
       paint: { 'fill-color': '#2f7487', 'fill-opacity': 0.12 },
     },
-    {
-      id: 'hip-area-line',
-      type: 'line',
-      source: 'hip-area',
-      filter: ['==', ['geometry-type'], 'LineString'],
-      paint: { 'line-color': '#123c47', 'line-width': 2.5 },
-    },
-    {
-      id: 'hip-area-points',
-      type: 'circle',
-      source: 'hip-area',
-      filter: ['==', ['geometry-type'], 'Point'],
-      paint: { 'circle-radius': 4, 'circle-color': '#ffffff', 'circle-stroke-color': '#123c47', 'circle-stroke-width': 2 },
-    },
+    ...drawnPathLayers('hip-area', ['hip-area-line', 'hip-area-points'], '#123c47'),
     {
       id: 'graticule-labels',
       type: 'symbol',

@@ -5,7 +5,8 @@
  */
 import { semivariance } from '../../shared/interp/variogram.ts';
 import type { AnisotropyEstimateSummary } from '../../shared/schema/anisotropy.ts';
-import { el, fmt, niceTicks, svg } from './dom.ts';
+import { el, fmt, svg } from './dom.ts';
+import { lagGammaPlot, svgFigure } from './svg-frame.ts';
 
 /** One colour a direction (the project's own palette, distinct in print and for common colour-vision deficiencies). */
 const DIRECTION_COLOURS = ['#2f7487', '#c0622d', '#6a4c93', '#5a8a2e', '#a8325e', '#8a6d12'];
@@ -20,21 +21,16 @@ function directionalPlot(a: AnisotropyEstimateSummary): SVGSVGElement {
   const hMax = Math.max(...lags.map((l) => l.lagKm), 1) * 1.1;
   const model = (rangeKm: number, h: number) => semivariance({ model: a.model, nugget: a.nugget, partialSill: a.partialSill, rangeKm }, h);
   const gMax = Math.max(a.nugget + a.partialSill, ...lags.map((l) => l.gamma)) * 1.1 || 1;
-  const x = (h: number) => M.l + (h / hMax) * (W - M.l - M.r);
-  const y = (g: number) => H - M.b - (Math.min(g, gMax) / gMax) * (H - M.t - M.b);
-  const root = svg('svg', {
-    viewBox: `0 0 ${W} ${H}`,
-    width: W,
-    height: H,
-    class: 'variogram-plot anisotropy-plot',
-    role: 'img',
-    'aria-label': `directional semivariograms at ${a.directions.map((d) => `${d.azimuthDeg}°`).join(', ')} with the fitted anisotropic ${a.model} model`,
-  });
-  root.append(svg('rect', { x: M.l, y: M.t, width: W - M.l - M.r, height: H - M.t - M.b, class: 'frame' }));
-  for (const h of niceTicks(0, hMax, 5)) root.append(svg('text', { x: x(h), y: H - M.b + 14, 'text-anchor': 'middle' }, String(h)));
-  for (const g of niceTicks(0, gMax, 4)) root.append(svg('text', { x: M.l - 5, y: y(g) + 4, 'text-anchor': 'end' }, String(g)));
-  root.append(svg('text', { x: M.l + (W - M.l - M.r) / 2, y: H - 6, 'text-anchor': 'middle', class: 'axis-title' }, 'lag (km)'));
-  root.append(svg('text', { x: 11, y: H / 2, transform: `rotate(-90 11 ${H / 2})`, 'text-anchor': 'middle', class: 'axis-title' }, 'semivariance γ'));
+  const { root, x, y } = lagGammaPlot(
+    { W, H, M },
+    hMax,
+    gMax,
+    {
+      class: 'variogram-plot anisotropy-plot',
+      'aria-label': `directional semivariograms at ${a.directions.map((d) => `${d.azimuthDeg}°`).join(', ')} with the fitted anisotropic ${a.model} model`,
+    },
+    true,
+  );
   const maxPairs = Math.max(1, ...lags.map((l) => l.pairs));
   a.directions.forEach((d, k) => {
     const colour = DIRECTION_COLOURS[k % DIRECTION_COLOURS.length];
@@ -98,14 +94,7 @@ function mapPlot(a: AnisotropyEstimateSummary): SVGSVGElement {
   const cell = (S - 2 * pad) / m.size;
   const gs = m.gamma.filter((g): g is number => g !== null);
   const gMax = Math.max(...gs, 1e-12);
-  const root = svg('svg', {
-    viewBox: `0 0 ${S} ${S}`,
-    width: S,
-    height: S,
-    class: 'variogram-map',
-    role: 'img',
-    'aria-label': `variogram map, lags to ${fmt(m.cutoffKm, 0)} km in each direction`,
-  });
+  const root = svgFigure(S, S, { class: 'variogram-map', 'aria-label': `variogram map, lags to ${fmt(m.cutoffKm, 0)} km in each direction` });
   m.gamma.forEach((g, i) => {
     if (g === null) return;
     const row = Math.floor(i / m.size),
