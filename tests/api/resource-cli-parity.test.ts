@@ -4,11 +4,11 @@
 // (server/runs/heat-flow-simulation.ts) and draw the model parameters from the same streams, so the totals agree to
 // floating-point rounding. This is a consistency check between two ways into the program, not a check of the values:
 // those are checked against a dense block-kriging solve in tests/unit/resource-simulated-totals.test.ts.
-import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
-import { heatInPlace } from '../../server/cli/heat-in-place.ts';
+import { runCliJson } from '../helpers/cli.ts';
 import { DEMO_DIR } from '../../server/demo.ts';
 
 let t: TestApp;
@@ -27,17 +27,9 @@ beforeAll(async () => {
 afterAll(() => t.close());
 
 async function cli(args: string[]): Promise<Report> {
-  let out = '';
-  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
-    out += String(s);
-    return true;
-  });
-  try {
-    expect(await heatInPlace(args)).toBe(0);
-  } finally {
-    spy.mockRestore();
-  }
-  return JSON.parse(out) as Report;
+  const { code, json } = await runCliJson(['heat-in-place', ...args]);
+  expect(code).toBe(0);
+  return json as Report;
 }
 
 async function webJob(runId: string, options: Record<string, unknown>): Promise<Report> {

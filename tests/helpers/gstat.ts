@@ -23,3 +23,11 @@ export function requireGstat(): void {
   if (p !== null)
     throw new Error(`R gstat, the reference library of this check, is missing: ${p}. Install it with apt-get install -y r-cran-gstat (bash .ci/run does).`);
 }
+
+/** Runs an R script and returns what it printed; a failing run throws with R's message (never a silent skip). */
+export function runRscript(file: string): string {
+  const out = spawnSync('Rscript', [file], { encoding: 'utf8' });
+  if (out.error !== undefined || out.status !== 0)
+    throw new Error(`R gstat is needed for this check (Debian r-cran-gstat): Rscript failed: ${out.error?.message ?? out.stderr}`);
+  return out.stdout;
+}

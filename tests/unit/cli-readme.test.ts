@@ -3,7 +3,7 @@
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterEach, describe, expect, it, vi } from 'vitest';
-import { main } from '../../server/cli/main.ts';
+import { runCli } from '../helpers/cli.ts';
 import { VERBS } from '../../server/cli/verbs.ts';
 
 const root = new URL('../..', import.meta.url).pathname;
@@ -18,16 +18,8 @@ const optionsIn = (text: string): string[] =>
   [...new Set([...text.matchAll(/(?<![\w-])--[a-z][a-z0-9-]*/g)].map((m) => m[0]))].filter((o) => o !== '--help').sort();
 
 async function helpOf(verb: string): Promise<string> {
-  let out = '';
-  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((chunk: string | Uint8Array) => {
-    out += String(chunk);
-    return true;
-  });
-  try {
-    expect(await main([verb, '--help'])).toBe(0);
-  } finally {
-    spy.mockRestore();
-  }
+  const { code, out } = await runCli([verb, '--help']);
+  expect(code).toBe(0);
   return out;
 }
 

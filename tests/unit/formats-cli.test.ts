@@ -1,12 +1,12 @@
 // Command-line verbs reading points from GeoPackage, zipped Shapefile and projected CSV (files written by GDAL's
 // ogr2ogr at test time): the same results as from the GeoJSON they came from.
-import { describe, it, expect, beforeAll, afterAll, vi } from 'vitest';
+import { describe, it, expect, beforeAll, afterAll } from 'vitest';
 import { spawnSync } from 'node:child_process';
 import { mkdtempSync, rmSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
-import { main } from '../../server/cli/main.ts';
 import { readGeoTiff } from '../../server/io/geotiff.ts';
+import { runCli } from '../helpers/cli.ts';
 import { requireGdal } from '../helpers/gdal.ts';
 
 let dir = '';
@@ -22,25 +22,6 @@ function ogr(args: string[]): void {
   if (r.status !== 0) throw new Error(r.stderr);
 }
 
-async function cli(args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '',
-    err = '';
-  const o = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
-    out += String(s);
-    return true;
-  });
-  const e = vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => {
-    err += String(s);
-    return true;
-  });
-  try {
-    return { code: await main(args), out, err };
-  } finally {
-    o.mockRestore();
-    e.mockRestore();
-  }
-}
-
 describe('verbs read GeoPackage, zipped Shapefile and projected CSV points', () => {
   it('interpolate: a GeoPackage in EPSG:32709 and a projected CSV give the grid the GeoJSON gives', async () => {
     requireGdal('ogr2ogr');
@@ -50,11 +31,11 @@ describe('verbs read GeoPackage, zipped Shapefile and projected CSV points', () 
     ogr(['-f', 'CSV', '-t_srs', 'EPSG:32709', '-lco', 'GEOMETRY=AS_XY', csv, fixture('sites.geojson')]);
     const common = ['--method', 'idw', '--size', '40x30', '--json'];
     const outs = ['ref.tif', 'gpkg.tif', 'csv.tif'].map((n) => join(dir, n));
-    expect((await cli(['interpolate', '--points', fixture('sites.geojson'), '--out', outs[0], ...common])).code).toBe(0);
-    const g = await cli(['interpolate', '--points', gpkg, '--out', outs[1], ...common]);
+    expect((await runCli(['interpolate', '--points', fixture('sites.geojson'), '--out', outs[0], ...common])).code).toBe(0);
+    const g = await runCli(['interpolate', '--points', gpkg, '--out', outs[1], ...common]);
     expect(g.code).toBe(0);
     expect(g.out).toContain('reprojected from EPSG:32709');
-    expect((await cli(['interpolate', '--points', csv, '--points-crs', 'EPSG:32709', '--out', outs[2], ...common])).code).toBe(0);
+    expect((await runCli(['interpolate', '--points', csv, '--points-crs', 'EPSG:32709', '--out', outs[2], ...common])).code).toBe(0);
     const [ref, a, b] = await Promise.all(outs.map(async (f) => (await readGeoTiff(readFileSync(f))).grid));
     for (const g of [a, b]) for (const k of ['west', 'north', 'dx', 'dy'] as const) expect(g[k]).toBeCloseTo(ref[k], 9);
     for (let i = 0; i < ref.values.length; i++) {
@@ -68,12 +49,12 @@ describe('verbs read GeoPackage, zipped Shapefile and projected CSV points', () 
     const csv = join(dir, 'hip-sites.csv');
     ogr(['-f', 'CSV', '-t_srs', 'EPSG:32709', '-lco', 'GEOMETRY=AS_XY', csv, fixture('sites.geojson')]);
     const common = ['--model', fixture('model.json'), '--size', '24x18', '--realizations', '8', '--seed', '3', '--json'];
-    const ref = await cli(['heat-in-place', '--points', fixture('sites.geojson'), ...common]);
+    const ref = await runCli(['heat-in-place', '--points', fixture('sites.geojson'), ...common]);
     expect(ref.code).toBe(0);
-    const noCrs = await cli(['heat-in-place', '--points', csv, ...common]);
+    const noCrs = await runCli(['heat-in-place', '--points', csv, ...common]);
     expect(noCrs.code).toBe(2);
     expect(noCrs.err).toContain('pointsCrs');
-    const got = await cli(['heat-in-place', '--points', csv, '--points-crs', 'EPSG:32709', ...common]);
+    const got = await runCli(['heat-in-place', '--points', csv, '--points-crs', 'EPSG:32709', ...common]);
     expect(got.code).toBe(0);
     const a = JSON.parse(ref.out) as { cells: number; heatInPlaceJ: Record<string, number | null> };
     const b = JSON.parse(got.out) as typeof a;
@@ -87,11 +68,11 @@ describe('verbs read GeoPackage, zipped Shapefile and projected CSV points', () 
     const gpkg = join(dir, 'field.gpkg');
     ogr(['-f', 'GPKG', gpkg, fixture('samples.geojson'), '-nln', 'grade_samples']);
     ogr(['-f', 'GPKG', '-update', gpkg, fixture('faults.geojson'), '-nln', 'fault_traces']);
-    const bad = await cli(['isograds', '--samples', gpkg, '--out', join(dir, 'i.geojson')]);
+    const bad = await runCli(['isograds', '--samples', gpkg, '--out', join(dir, 'i.geojson')]);
     expect(bad.code).toBe(2);
     expect(bad.err).toContain('field.gpkg');
     expect(bad.err).toContain('grade_samples');
-    const ok = await cli([
+    const ok = await runCli([
       'isograds',
       '--samples',
       gpkg,
@@ -105,7 +86,7 @@ describe('verbs read GeoPackage, zipped Shapefile and projected CSV points', () 
       join(dir, 'i.geojson'),
       '--json',
     ]);
-    const ref = await cli([
+    const ref = await runCli([
       'isograds',
       '--samples',
       fixture('samples.geojson'),

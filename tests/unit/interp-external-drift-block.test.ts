@@ -1,16 +1,15 @@
 import { describe, it, expect, beforeAll, afterAll } from 'vitest';
-import { spawnSync } from 'node:child_process';
 import { mkdtempSync, writeFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
-import { prepareInterpolation, type PointData } from '../../shared/interp/interpolate.ts';
+import { prepareInterpolation } from '../../shared/interp/interpolate.ts';
 import { blockEstimates, discretisePolygon, type BlockPolygon } from '../../shared/interp/blockKriging.ts';
 import { converter, lonLatToLocalKm, WGS84_DEF } from '../../shared/interp/projection.ts';
-import type { ExternalDriftGrid } from '../../shared/interp/externalDrift.ts';
 import type { VariogramModel } from '../../shared/interp/variogram.ts';
 import { writeGeoTiff } from '../../server/io/geotiff.ts';
 import { runCliJson } from '../helpers/cli.ts';
-import { prng } from '../helpers/prng.ts';
+import { bilinearCovariate, sitesInFrame } from '../helpers/drift-fixtures.ts';
+import { runRscript } from '../helpers/gstat.ts';
 
 /**
  * Block kriging with an external drift (docs/sources.md#external-drift, docs/sources.md#block-kriging): the block's
@@ -27,31 +26,14 @@ const WEST = -131.05,
   D = 0.02,
   NX = 60,
   NY = 40;
+const FRAME = { west: WEST, north: NORTH, d: D, nx: NX, ny: NY };
 const sAt = (c: number, r: number) => 200 - 2 * c + 1.5 * r + 0.25 * c * r;
-const covariateOf = (lon: number, lat: number) => sAt((lon - WEST) / D - 0.5, (NORTH - lat) / D - 0.5);
-const driftGrid: ExternalDriftGrid = {
-  name: 'basement.tif',
-  crsDef: 'WGS84',
-  grid: {
-    width: NX,
-    height: NY,
-    west: WEST,
-    north: NORTH,
-    dx: D,
-    dy: D,
-    crs: 'EPSG:4326',
-    units: 'Ma',
-    values: Float32Array.from({ length: NX * NY }, (_, i) => sAt(i % NX, Math.floor(i / NX))),
-  },
-};
+const { grid: driftGrid, at: covariateOf } = bilinearCovariate(FRAME, sAt, 'basement.tif', 'Ma');
 
 // Invented sites inside the grid: values following the covariate, a smooth field and noise.
-const n = 40;
-const r = prng(4411);
-const lon = Float64Array.from({ length: n }, () => WEST + 0.1 + r() * (NX * D - 0.2));
-const lat = Float64Array.from({ length: n }, () => NORTH - 0.1 - r() * (NY * D - 0.2));
-const values = Float64Array.from(lon, (lo, i) => 160 - 0.15 * covariateOf(lo, lat[i]) + 5 * Math.cos(lo * 17) * Math.sin(lat[i] * 11) + 2 * r());
-const pts: PointData = { ids: Array.from({ length: n }, (_, i) => `q${i}`), lon, lat, values };
+const pts = sitesInFrame(FRAME, 4411, 40, 'q', (lo, la, r) => 160 - 0.15 * covariateOf(lo, la) + 5 * Math.cos(lo * 17) * Math.sin(la * 11) + 2 * r());
+const { lon, lat, values } = pts;
+const n = pts.ids.length;
 const blocks: BlockPolygon[] = [
   {
     id: 'B1',
@@ -79,14 +61,6 @@ const blocks: BlockPolygon[] = [
     ],
   },
 ];
-
-/** R's gstat, or a failing test saying it is missing (the check must not silently skip). */
-function rscript(file: string): string {
-  const out = spawnSync('Rscript', [file], { encoding: 'utf8' });
-  if (out.error !== undefined || out.status !== 0)
-    throw new Error(`R gstat is needed for this check (Debian r-cran-gstat): Rscript failed: ${out.error?.message ?? out.stderr}`);
-  return out.stdout;
-}
 
 for (const MODEL of [
   { model: 'spherical', nugget: 0, partialSill: 14, rangeKm: 40 },
@@ -134,7 +108,7 @@ for (const MODEL of [
         );
       });
       writeFileSync(join(dir, 'b.R'), script.join('\n'));
-      for (const line of rscript(join(dir, 'b.R')).trim().split('\n')) ref.push(line.trim().split(/\s+/).map(Number));
+      for (const line of runRscript(join(dir, 'b.R')).trim().split('\n')) ref.push(line.trim().split(/\s+/).map(Number));
     }, 300_000);
     afterAll(() => {
       if (dir !== '') rmSync(dir, { recursive: true, force: true });

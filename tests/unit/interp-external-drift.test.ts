@@ -1,18 +1,16 @@
 import { describe, it, expect, beforeAll, afterAll } from 'vitest';
-import { spawnSync } from 'node:child_process';
 import { mkdtempSync, writeFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import { predictAtPoints, prepareInterpolation, interpolateGrid, type PointData } from '../../shared/interp/interpolate.ts';
 import { simulateAtPoints, simulateGrid } from '../../shared/interp/simulateField.ts';
 import { localProjectionFor, lonLatToLocalKm } from '../../shared/interp/projection.ts';
-import type { ExternalDriftGrid } from '../../shared/interp/externalDrift.ts';
 import type { VariogramModel } from '../../shared/interp/variogram.ts';
 import { writeGeoTiff } from '../../server/io/geotiff.ts';
 import { httpStatusOf } from '../../server/http-status.ts';
 import { runCliJson } from '../helpers/cli.ts';
-import { prng } from '../helpers/prng.ts';
-import { requireGstat } from '../helpers/gstat.ts';
+import { bilinearCovariate, sitesInFrame } from '../helpers/drift-fixtures.ts';
+import { requireGstat, runRscript } from '../helpers/gstat.ts';
 
 /**
  * Kriging with an external drift (docs/sources.md#external-drift): the mean is a₀ + a₁·s(x) with s a covariate grid.
@@ -28,31 +26,14 @@ const WEST = -131.05,
   D = 0.02,
   NX = 60,
   NY = 40;
+const FRAME = { west: WEST, north: NORTH, d: D, nx: NX, ny: NY };
 const sAt = (c: number, r: number) => 100 + 3 * c + 2 * r + 0.5 * c * r;
-const covariateOf = (lon: number, lat: number) => sAt((lon - WEST) / D - 0.5, (NORTH - lat) / D - 0.5);
-const driftGrid: ExternalDriftGrid = {
-  name: 'thickness.tif',
-  crsDef: 'WGS84',
-  grid: {
-    width: NX,
-    height: NY,
-    west: WEST,
-    north: NORTH,
-    dx: D,
-    dy: D,
-    crs: 'EPSG:4326',
-    units: 'm',
-    values: Float32Array.from({ length: NX * NY }, (_, i) => sAt(i % NX, Math.floor(i / NX))),
-  },
-};
+const { grid: driftGrid, at: covariateOf } = bilinearCovariate(FRAME, sAt, 'thickness.tif', 'm');
 
-// Invented data inside the grid: heat flow following the covariate plus a smooth field and noise.
-const n = 45;
-const r = prng(2718);
-const lon = Float64Array.from({ length: n }, () => WEST + 0.1 + r() * (NX * D - 0.2));
-const lat = Float64Array.from({ length: n }, () => NORTH - 0.1 - r() * (NY * D - 0.2));
-const values = Float64Array.from(lon, (lo, i) => 20 + 0.3 * covariateOf(lo, lat[i]) + 4 * Math.sin(lo * 20) * Math.cos(lat[i] * 15) + 2 * r());
-const pts: PointData = { ids: Array.from({ length: n }, (_, i) => `s${i}`), lon, lat, values };
+// Invented sites inside the grid: values following the covariate, a smooth field and noise.
+const pts = sitesInFrame(FRAME, 2718, 45, 's', (lo, la, r) => 20 + 0.3 * covariateOf(lo, la) + 4 * Math.sin(lo * 20) * Math.cos(la * 15) + 2 * r());
+const { lon, lat, values } = pts;
+const n = pts.ids.length;
 const targets = { ids: ['a', 'b', 'c', 'd'], lon: [-130.9, -130.5, -130.2, -130.0], lat: [-40.55, -40.8, -40.6, -41.1] };
 const MODEL: VariogramModel = { model: 'spherical', nugget: 1.5, partialSill: 12, rangeKm: 35 };
 const SILL = MODEL.nugget + MODEL.partialSill;
@@ -94,10 +75,7 @@ describe('kriging with an external drift against R gstat (z ~ s)', () => {
       'cat("cv", sprintf("%.17g", cv$residual), "\\n")',
     ];
     writeFileSync(join(dir, 'ked.R'), script.join('\n'));
-    const out = spawnSync('Rscript', [join(dir, 'ked.R')], { encoding: 'utf8' });
-    if (out.error !== undefined || out.status !== 0)
-      throw new Error(`R gstat is needed for this check (Debian r-cran-gstat): Rscript failed: ${out.error?.message ?? out.stderr}`);
-    for (const line of out.stdout.trim().split('\n')) {
+    for (const line of runRscript(join(dir, 'ked.R')).trim().split('\n')) {
       const [key, ...nums] = line.trim().split(/\s+/);
       ref[key] = nums.map(Number);
     }
@@ -192,21 +170,7 @@ describe('external drift: choice and coverage', () => {
 describe('external drift: extrapolation beyond the covariate range at the data', () => {
   // A covariate growing 10 m per column (s = 10·c at column c), 30 × 10 cells; the eight sites sit on cell centres
   // of columns 10 to 20, so the data's covariate range is 100 to 200 m exactly.
-  const grid: ExternalDriftGrid = {
-    name: 'depth.tif',
-    crsDef: 'WGS84',
-    grid: {
-      width: 30,
-      height: 10,
-      west: WEST,
-      north: NORTH,
-      dx: D,
-      dy: D,
-      crs: 'EPSG:4326',
-      units: 'm',
-      values: Float32Array.from({ length: 300 }, (_, i) => 10 * (i % 30)),
-    },
-  };
+  const grid = bilinearCovariate({ west: WEST, north: NORTH, d: D, nx: 30, ny: 10 }, (c) => 10 * c, 'depth.tif', 'm').grid;
   const at = (c: number) => WEST + (c + 0.5) * D;
   const cols = [10, 12, 13, 15, 16, 18, 19, 20];
   const rows = [1, 7, 4, 2, 8, 5, 3, 6];

@@ -1,4 +1,4 @@
-import { describe, expect, it, vi, beforeAll } from 'vitest';
+import { describe, expect, it, beforeAll } from 'vitest';
 import { execFileSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, writeFileSync, existsSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -15,7 +15,7 @@ import { layerStats } from '../../shared/products/stats.ts';
 import { cellsInPolygonCsv, geotiffBytes, pngBytes, sha256Hex } from '../../server/io/export.ts';
 import { readGeoTiff, writeGeoTiff } from '../../server/io/geotiff.ts';
 import { readGridGeoTiff } from '../../server/cli/isotherms.ts';
-import { main } from '../../server/cli/main.ts';
+import { runCli } from '../helpers/cli.ts';
 import { InputError } from '../../shared/errors.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'products-export-'));
@@ -245,25 +245,8 @@ describe('the isotherms verb', () => {
     hfPath = join(dir, 'in.tif');
     writeFileSync(hfPath, new Uint8Array(writeGeoTiff(g)));
   });
-  const run = async (args: string[]) => {
-    const out: string[] = [],
-      err: string[] = [];
-    const o = vi.spyOn(process.stdout, 'write').mockImplementation((s) => {
-      out.push(String(s));
-      return true;
-    });
-    const e = vi.spyOn(process.stderr, 'write').mockImplementation((s) => {
-      err.push(String(s));
-      return true;
-    });
-    try {
-      const code = await main(['isotherms', ...args]);
-      return { code, stdout: out.join(''), stderr: err.join('') };
-    } finally {
-      o.mockRestore();
-      e.mockRestore();
-    }
-  };
+  const run = (args: string[]) => runCli(['isotherms', ...args]);
+
   const model = new URL('../../fixtures/demo/model.json', import.meta.url).pathname;
 
   it('writes the named files and flags the inconsistent cell with a warning, succeeding (exit 0: a finding, not bad input)', async () => {
@@ -288,10 +271,10 @@ describe('the isotherms verb', () => {
       '--json',
     ]);
     expect(r.code).toBe(0);
-    const s = JSON.parse(r.stdout);
+    const s = JSON.parse(r.out);
     expect(s.inconsistent.heatFlowExhausted).toBe(1);
     expect(s.inconsistent.inconsistent).toBe(1); // melt onset is not counted among the contradictions
-    expect(r.stderr).toContain('inconsistent');
+    expect(r.err).toContain('inconsistent');
     for (const f of [
       'depth-300C.tif',
       'depth-300C.contours.geojson',
@@ -324,6 +307,6 @@ describe('the isotherms verb', () => {
     execFileSync('gdal_create', ['-of', 'GTiff', '-outsize', '4', '3', '-bands', '1', '-ot', 'Float32', plain]);
     const r = await run(['--heat-flow', plain, '--model', model, '--isotherms', '300', '--out-dir', join(dir, 'bad'), '--json']);
     expect(r.code).toBe(2);
-    expect(JSON.parse(r.stdout).error.message).toMatch(/no georeferencing/);
+    expect(JSON.parse(r.out).error.message).toMatch(/no georeferencing/);
   });
 });

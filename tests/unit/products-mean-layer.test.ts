@@ -16,14 +16,15 @@
 //   (docs/sources.md#normal-distribution).
 // Distances are geodesics on WGS84 from geographiclib (docs/sources.md#geodesic). Tolerances are 4.5 standard errors
 // of the mean of R realizations, sd(z)/√R with sd(z) from the same normal integral.
-import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import geodesic from 'geographiclib-geodesic';
 import { Matrix, solve } from 'ml-matrix';
 import { readGeoTiff, writeGeoTiff } from '../../server/io/geotiff.ts';
-import { isotherms } from '../../server/cli/isotherms.ts';
+import { runCliJson } from '../helpers/cli.ts';
+import { writeLinearModel, writeSites } from '../helpers/linear-geotherm.ts';
 
 const G = geodesic.Geodesic.WGS84;
 const K_WMK = 2.5,
@@ -109,22 +110,8 @@ beforeAll(() => {
     values: new Float32Array(W * H).fill(Q_SITE),
   };
   writeFileSync(join(dir, 'hf.tif'), Buffer.from(writeGeoTiff(grid)));
-  writeFileSync(
-    join(dir, 'site.geojson'),
-    JSON.stringify({
-      type: 'FeatureCollection',
-      features: sites.map((p, i) => ({
-        type: 'Feature',
-        id: `s${i}`,
-        geometry: { type: 'Point', coordinates: [p.lon, p.lat] },
-        properties: { heatFlowMWm2: Q_SITE },
-      })),
-    }),
-  );
-  writeFileSync(
-    join(dir, 'model.json'),
-    JSON.stringify({ surfaceTemperatureC: T0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K_WMK, heatProductionUWm3: 0, densityKgM3: 2700 }] }),
-  );
+  writeSites(join(dir, 'site.geojson'), { lon: sites.map((p) => p.lon), lat: sites.map((p) => p.lat), q: sites.map(() => Q_SITE) });
+  writeLinearModel(join(dir, 'model.json'), T0, K_WMK);
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
@@ -143,23 +130,15 @@ let once: Promise<{ centralValues: Central[] }> | null = null;
 const runIsotherms = () => (once ??= runVerb());
 
 async function runVerb(): Promise<{ centralValues: Central[] }> {
-  let out = '';
-  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
-    out += String(s);
-    return true;
-  });
-  try {
-    const code = await isotherms([
-      ...['--heat-flow', join(dir, 'hf.tif'), '--model', join(dir, 'model.json'), '--out-dir', join(dir, 'out')],
-      ...['--isotherms', '150,500', '--depths-km', String(DEPTH_KM), '--max-depth-km', String(MAX_DEPTH_KM)],
-      ...['--points', join(dir, 'site.geojson'), '--variogram', `exponential:0,${SILL},${RANGE_KM}`, '--transform', 'none', '--neighbors', 'all'],
-      ...['--realizations', String(R), '--seed', '11', '--json'],
-    ]);
-    expect(code).toBe(0);
-  } finally {
-    spy.mockRestore();
-  }
-  const summary = JSON.parse(out) as { monteCarlo: { centralValues: Central[] } };
+  const { code, json } = await runCliJson([
+    'isotherms',
+    ...['--heat-flow', join(dir, 'hf.tif'), '--model', join(dir, 'model.json'), '--out-dir', join(dir, 'out')],
+    ...['--isotherms', '150,500', '--depths-km', String(DEPTH_KM), '--max-depth-km', String(MAX_DEPTH_KM)],
+    ...['--points', join(dir, 'site.geojson'), '--variogram', `exponential:0,${SILL},${RANGE_KM}`, '--transform', 'none', '--neighbors', 'all'],
+    ...['--realizations', String(R), '--seed', '11'],
+  ]);
+  expect(code).toBe(0);
+  const summary = json as { monteCarlo: { centralValues: Central[] } };
   return { centralValues: summary.monteCarlo.centralValues };
 }
 

@@ -11,23 +11,27 @@
 // external drift; this test solves both densely (ml-matrix) with geodesic distances and cell areas from
 // geographiclib (Karney 2013) and the covariate from the grid's own formula, not the project's code. P10/P90 follow
 // from the normal quantile z₀.₉ = 1.281552 (Abramowitz & Stegun 1964, Table 26.5).
-import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import geodesic from 'geographiclib-geodesic';
 import { Matrix, solve } from 'ml-matrix';
-import { heatInPlace } from '../../server/cli/heat-in-place.ts';
-import { isotherms } from '../../server/cli/isotherms.ts';
 import { readGeoTiff, writeGeoTiff } from '../../server/io/geotiff.ts';
-import { createStream } from '../../shared/random/prng.ts';
 import { runCliJson } from '../helpers/cli.ts';
+import { bilinearCovariate } from '../helpers/drift-fixtures.ts';
+import {
+  geodesicCells,
+  geodesicKm as km,
+  heatPerMeanFlowEJ,
+  randomSites,
+  windowArgs,
+  writeLinearModel,
+  writeSites,
+  type LinearWindow,
+} from '../helpers/linear-geotherm.ts';
 
-const G = geodesic.Geodesic.WGS84;
-const K_WMK = 2.5,
-  T0 = 15,
-  TOP_KM = 1,
-  BOTTOM_KM = 5,
-  RHOC_MJ = 2.7,
+const WINDOW: LinearWindow = { t0C: 15, kWmK: 2.5, topKm: 1, bottomKm: 5, rhoCMJ: 2.7 };
+const K_WMK = WINDOW.kWmK,
+  T0 = WINDOW.t0C,
   DEPTH_KM = 4;
 const SILL = 25,
   RANGE_KM = 30; // exponential, no nugget: C(h) = SILL·exp(−3h/RANGE)
@@ -40,40 +44,25 @@ const Z90 = 1.281552;
 // The covariate grid: 18 × 18 cells of the heat-flow grid's size, three cells wider on every side, so its cell
 // centres fall on the heat-flow cells' centres. s = 50 + 4c + 2r + 0.3·c·r at its cell (column c, row r), bilinear in
 // the fractional cell position: the bilinear read reproduces it exactly anywhere inside.
-const CW = BBOX[0] - 3 * D,
-  CN = BBOX[3] + 3 * D;
-const sAt = (c: number, r: number) => 50 + 4 * c + 2 * r + 0.3 * c * r;
-const covariateOf = (lon: number, lat: number) => sAt((lon - CW) / D - 0.5, (CN - lat) / D - 0.5);
+const covariate = bilinearCovariate(
+  { west: BBOX[0] - 3 * D, north: BBOX[3] + 3 * D, d: D, nx: 18, ny: 18 },
+  (c, r) => 50 + 4 * c + 2 * r + 0.3 * c * r,
+  'cov.tif',
+  'm',
+);
+const covariateOf = covariate.at;
 
 let dir: string;
-const site = { lon: [] as number[], lat: [] as number[], q: [] as number[] };
-const cell = { lon: [] as number[], lat: [] as number[], area: [] as number[] };
+const site = randomSites(43, 25, BBOX[0], BBOX[1], (lon, lat, rng) => 40 + 0.4 * covariateOf(lon, lat) + 5 * rng.normal());
+const cell = geodesicCells(BBOX[0], BBOX[3], D, D, NX, NY);
 
 beforeAll(() => {
   dir = mkdtempSync(join(process.cwd(), '.tmp-hip-drift-'));
-  const rng = createStream(43, 0);
-  const features = [];
-  for (let i = 0; i < 25; i++) {
-    const lon = BBOX[0] + 0.02 + 0.36 * rng.uniform(),
-      lat = BBOX[1] + 0.02 + 0.36 * rng.uniform(),
-      q = 40 + 0.4 * covariateOf(lon, lat) + 5 * rng.normal();
-    site.lon.push(lon);
-    site.lat.push(lat);
-    site.q.push(q);
-    features.push({ type: 'Feature', id: `s${i}`, geometry: { type: 'Point', coordinates: [lon, lat] }, properties: { heatFlowMWm2: q } });
-  }
-  writeFileSync(join(dir, 'sites.geojson'), JSON.stringify({ type: 'FeatureCollection', features }));
-  writeFileSync(
-    join(dir, 'model.json'),
-    JSON.stringify({ surfaceTemperatureC: T0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K_WMK, heatProductionUWm3: 0, densityKgM3: 2700 }] }),
-  );
-  const cov = { width: 18, height: 18, west: CW, north: CN, dx: D, dy: D, crs: 'EPSG:4326', units: 'm' };
-  writeFileSync(
-    join(dir, 'cov.tif'),
-    Buffer.from(writeGeoTiff({ ...cov, values: Float32Array.from({ length: 324 }, (_, i) => sAt(i % 18, Math.floor(i / 18))) })),
-  );
+  writeSites(join(dir, 'sites.geojson'), site);
+  writeLinearModel(join(dir, 'model.json'), T0, K_WMK);
+  writeFileSync(join(dir, 'cov.tif'), Buffer.from(writeGeoTiff(covariate.grid.grid)));
   // A covariate grid missing the heat-flow grid's east column: it does not cover every cell.
-  writeFileSync(join(dir, 'short.tif'), Buffer.from(writeGeoTiff({ ...cov, width: 3, height: 3, values: new Float32Array(9).fill(100) })));
+  writeFileSync(join(dir, 'short.tif'), Buffer.from(writeGeoTiff({ ...covariate.grid.grid, width: 3, height: 3, values: new Float32Array(9).fill(100) })));
   const hf = {
     width: NX,
     height: NY,
@@ -86,39 +75,9 @@ beforeAll(() => {
     values: new Float32Array(NX * NY).fill(65),
   };
   writeFileSync(join(dir, 'hf.tif'), Buffer.from(writeGeoTiff(hf)));
-  for (let r = 0; r < NY; r++) {
-    const north = BBOX[3] - r * D;
-    for (let c = 0; c < NX; c++) {
-      const west = BBOX[0] + c * D;
-      const p = G.Polygon(false);
-      p.AddPoint(north, west);
-      p.AddPoint(north - D, west);
-      p.AddPoint(north - D, west + D);
-      p.AddPoint(north, west + D);
-      cell.area.push(Math.abs(p.Compute(false, true).area as number));
-      cell.lon.push(west + D / 2);
-      cell.lat.push(north - D / 2);
-    }
-  }
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-async function quiet(f: () => Promise<number>): Promise<{ code: number; out: string }> {
-  let out = '';
-  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
-    out += String(s);
-    return true;
-  });
-  const err = vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
-  try {
-    return { code: await f(), out };
-  } finally {
-    spy.mockRestore();
-    err.mockRestore();
-  }
-}
-
-const km = (lon1: number, lat1: number, lon2: number, lat2: number) => (G.Inverse(lat1, lon1, lat2, lon2).s12 as number) / 1000;
 const cov = (h: number) => SILL * Math.exp((-3 * h) / RANGE_KM);
 
 /** Kriging with the external drift of the weighted mean over cells `ids` (weights w): dense bordered solve. */
@@ -158,27 +117,14 @@ const SIM = ['--variogram', `exponential:0,${SILL},${RANGE_KM}`, '--transform', 
 describe('heat-in-place and isotherms --points --trend drift:G.tif', () => {
   it('heat-in-place: the total P10/P50/P90, mean and sd follow block kriging with the external drift (4 standard errors)', async () => {
     const args = ['--points', join(dir, 'sites.geojson'), '--model', join(dir, 'model.json'), `--bbox=${BBOX.join(',')}`, '--size', `${NX}x${NY}`, ...SIM];
-    const win = [
-      '--min-temp-c',
-      String(T0),
-      '--ref-temp-c',
-      String(T0),
-      '--top-km',
-      String(TOP_KM),
-      '--bottom-km',
-      String(BOTTOM_KM),
-      '--rho-c-mj',
-      String(RHOC_MJ),
-    ];
-    const { code, out } = await quiet(() => heatInPlace([...args, ...win, '--trend', `drift:${join(dir, 'cov.tif')}`, '--json']));
+    const { code, json: rep } = await runCliJson(['heat-in-place', ...args, ...windowArgs(WINDOW), '--trend', `drift:${join(dir, 'cov.tif')}`]);
     expect(code).toBe(0);
-    const rep = JSON.parse(out) as Record<string, any>;
     const Atot = cell.area.reduce((s, a) => s + a, 0);
     const { mean, sd } = kedBlock(
       cell.area.map((_, c) => c),
       cell.area.map((a) => a / Atot),
     );
-    const K = (((RHOC_MJ * 1e6 * ((BOTTOM_KM * 1e3) ** 2 - (TOP_KM * 1e3) ** 2)) / (2 * K_WMK)) * Atot * 1e-3) / 1e18;
+    const K = heatPerMeanFlowEJ(WINDOW, Atot);
     const t = rep.heatInPlaceEJ as { p10: number; p50: number; p90: number; mean: number; nominal: number; sd: number };
     // Standard errors over R realizations: mean σ/√R; a quantile σ·√(p(1 − p)/R)/φ(z_p) (Stuart & Ord 1994, §10.10),
     // 1.709·σ/√R at p = 0.1 and 0.9, 1.253·σ/√R at the median; sd σ/√(2(R − 1)). Tolerance: 4 standard errors.
@@ -200,8 +146,9 @@ describe('heat-in-place and isotherms --points --trend drift:G.tif', () => {
     expect(rep.monteCarlo.heatFlow).toMatch(/external drift: cov\.tif/);
     expect(rep.inputHashes?.drift ?? rep.provenance?.inputs?.drift).toMatch(/^[0-9a-f]{64}$/);
     // Ordinary kriging of the same sites misses the drift's block mean by far more than its standard error.
-    const plain = JSON.parse((await quiet(() => heatInPlace([...args, ...win, '--json']))).out) as Record<string, any>;
-    expect(Math.abs(plain.heatInPlaceEJ.mean - K * mean)).toBeGreaterThan(se(1));
+    const plain = await runCliJson(['heat-in-place', ...args, ...windowArgs(WINDOW)]);
+    expect(plain.code).toBe(0);
+    expect(Math.abs(plain.json.heatInPlaceEJ.mean - K * mean)).toBeGreaterThan(se(1));
   }, 300_000);
 
   it('isotherms: the temperature-at-depth mean at cells follows point kriging with the external drift; a grid that does not cover exits 2', async () => {
@@ -216,7 +163,7 @@ describe('heat-in-place and isotherms --points --trend drift:G.tif', () => {
       '--depths-km',
       String(DEPTH_KM),
     ];
-    const { code } = await quiet(() => isotherms([...args, ...SIM, '--trend', `drift:${join(dir, 'cov.tif')}`, '--out-dir', out, '--json']));
+    const { code } = await runCliJson(['isotherms', ...args, ...SIM, '--trend', `drift:${join(dir, 'cov.tif')}`, '--out-dir', out]);
     expect(code).toBe(0);
     const m = await readGeoTiff(readFileSync(join(out, `temperature-${DEPTH_KM}km.mean.tif`)), { source: 'mean' });
     // T = T0 + q·d/k (q in W/m², d in m): the mean of T at a cell is T0 + E[q]·d/k, its standard error σ·d/k/√R.

@@ -9,20 +9,24 @@
 // §V.A: σ²_B = C̄(B,B) − Σλᵢ C̄(xᵢ,B) − μ for ordinary kriging), which this test solves densely itself. The
 // totals' P10/P50/P90 then follow from the normal quantiles z₀.₁ = −1.281552 (Abramowitz & Stegun 1964, Table 26.5).
 // Cell areas and distances are geodesics on WGS84 from geographiclib (Karney 2013), not the project's own code.
-import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { mkdtempSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
-import geodesic from 'geographiclib-geodesic';
 import { Matrix, solve } from 'ml-matrix';
-import { heatInPlace } from '../../server/cli/heat-in-place.ts';
-import { createStream } from '../../shared/random/prng.ts';
+import { runCliJson } from '../helpers/cli.ts';
+import {
+  geodesicCells,
+  geodesicKm as km,
+  heatPerMeanFlowEJ,
+  randomSites,
+  windowArgs,
+  writeLinearModel,
+  writeSites,
+  type LinearWindow,
+} from '../helpers/linear-geotherm.ts';
 
-const G = geodesic.Geodesic.WGS84;
-const K_WMK = 2.5,
-  T0 = 15,
-  TOP_KM = 1,
-  BOTTOM_KM = 5,
-  RHOC_MJ = 2.7;
+const WINDOW: LinearWindow = { t0C: 15, kWmK: 2.5, topKm: 1, bottomKm: 5, rhoCMJ: 2.7 };
+const T0 = WINDOW.t0C;
 const SILL = 25,
   RANGE_KM = 30; // exponential, no nugget: C(h) = SILL·exp(−3h/RANGE)
 const BBOX = [10, 0, 10.4, 0.4] as const,
@@ -32,44 +36,22 @@ const R = 1000;
 const Z90 = 1.281552;
 
 let dir: string;
-const site = { lon: [] as number[], lat: [] as number[], q: [] as number[] };
+const site = randomSites(42, 25, BBOX[0], BBOX[1], (_lon, _lat, rng) => 60 + 8 * rng.normal());
 
 beforeAll(() => {
   dir = mkdtempSync(join(process.cwd(), '.tmp-hip-sim-'));
-  const rng = createStream(42, 0);
-  const features = [];
-  for (let i = 0; i < 25; i++) {
-    const lon = BBOX[0] + 0.02 + 0.36 * rng.uniform(),
-      lat = BBOX[1] + 0.02 + 0.36 * rng.uniform(),
-      q = 60 + 8 * rng.normal();
-    site.lon.push(lon);
-    site.lat.push(lat);
-    site.q.push(q);
-    features.push({ type: 'Feature', id: `s${i}`, geometry: { type: 'Point', coordinates: [lon, lat] }, properties: { heatFlowMWm2: q } });
-  }
-  writeFileSync(join(dir, 'sites.geojson'), JSON.stringify({ type: 'FeatureCollection', features }));
-  writeFileSync(
-    join(dir, 'model.json'),
-    JSON.stringify({ surfaceTemperatureC: T0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K_WMK, heatProductionUWm3: 0, densityKgM3: 2700 }] }),
-  );
+  writeSites(join(dir, 'sites.geojson'), site);
+  writeLinearModel(join(dir, 'model.json'), T0, WINDOW.kWmK);
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
+/** heat-in-place in this process; it must succeed. */
 async function run(args: string[]): Promise<Record<string, unknown>> {
-  let out = '';
-  const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
-    out += String(s);
-    return true;
-  });
-  try {
-    expect(await heatInPlace(args)).toBe(0);
-  } finally {
-    spy.mockRestore();
-  }
-  return JSON.parse(out) as Record<string, unknown>;
+  const { code, json } = await runCliJson(['heat-in-place', ...args]);
+  expect(code).toBe(0);
+  return json;
 }
 
-const km = (lon1: number, lat1: number, lon2: number, lat2: number) => (G.Inverse(lat1, lon1, lat2, lon2).s12 as number) / 1000;
 const cov = (h: number) => SILL * Math.exp((-3 * h) / RANGE_KM);
 
 /** Block-kriging mean and variance of the area-weighted mean over the cells (dense ordinary kriging). */
@@ -115,42 +97,14 @@ describe('heat-in-place --points: totals from conditional simulations', () => {
       'none',
       '--neighbors',
       'all',
-      '--min-temp-c',
-      String(T0),
-      '--ref-temp-c',
-      String(T0),
-      '--top-km',
-      String(TOP_KM),
-      '--bottom-km',
-      String(BOTTOM_KM),
-      '--rho-c-mj',
-      String(RHOC_MJ),
+      ...windowArgs(WINDOW),
       '--realizations',
       String(R),
       '--seed',
       '7',
-      '--json',
     ]);
     // Cell centres and geodesic cell areas (m²).
-    const dx = (BBOX[2] - BBOX[0]) / NX,
-      dy = (BBOX[3] - BBOX[1]) / NY;
-    const cLon: number[] = [],
-      cLat: number[] = [],
-      area: number[] = [];
-    for (let r = 0; r < NY; r++) {
-      const north = BBOX[3] - r * dy;
-      for (let c = 0; c < NX; c++) {
-        const west = BBOX[0] + c * dx;
-        const p = G.Polygon(false);
-        p.AddPoint(north, west);
-        p.AddPoint(north - dy, west);
-        p.AddPoint(north - dy, west + dx);
-        p.AddPoint(north, west + dx);
-        area.push(Math.abs(p.Compute(false, true).area as number));
-        cLon.push(west + dx / 2);
-        cLat.push(north - dy / 2);
-      }
-    }
+    const { lon: cLon, lat: cLat, area } = geodesicCells(BBOX[0], BBOX[3], (BBOX[2] - BBOX[0]) / NX, (BBOX[3] - BBOX[1]) / NY, NX, NY);
     const Atot = area.reduce((s, a) => s + a, 0);
     const { mean, sd } = blockKriging(
       cLon,
@@ -158,7 +112,7 @@ describe('heat-in-place --points: totals from conditional simulations', () => {
       area.map((a) => a / Atot),
     );
     // Total (EJ) = ρC·(b² − t²)/(2k)·A·q̄ with q in W/m², depths in m.
-    const K = (((RHOC_MJ * 1e6 * ((BOTTOM_KM * 1e3) ** 2 - (TOP_KM * 1e3) ** 2)) / (2 * K_WMK)) * Atot * 1e-3) / 1e18;
+    const K = heatPerMeanFlowEJ(WINDOW, Atot);
     const t = rep.heatInPlaceEJ as { p10: number; p50: number; p90: number; mean: number; nominal: number; sd: number; meanMinusNominal: number };
     expect(rep.cells).toBe(NX * NY);
     expect(Math.abs((rep.areaKm2 as number) * 1e6 - Atot) / Atot).toBeLessThan(1e-4);
@@ -187,11 +141,11 @@ describe('heat-in-place --points: totals from conditional simulations', () => {
   }, 120_000);
 
   it('refuses --points with --heat-flow, and --points without realizations, naming the option', async () => {
-    await expect(heatInPlace(['--points', join(dir, 'sites.geojson'), '--heat-flow', 'x.tif', '--model', join(dir, 'model.json')])).rejects.toMatchObject({
-      details: [{ field: 'points' }],
-    });
-    await expect(heatInPlace(['--points', join(dir, 'sites.geojson'), '--model', join(dir, 'model.json')])).rejects.toMatchObject({
-      details: [{ field: 'realizations' }],
-    });
+    const both = await runCliJson(['heat-in-place', '--points', join(dir, 'sites.geojson'), '--heat-flow', 'x.tif', '--model', join(dir, 'model.json')]);
+    expect(both.code).toBe(2);
+    expect(both.json.error.details).toMatchObject([{ field: 'points' }]);
+    const noR = await runCliJson(['heat-in-place', '--points', join(dir, 'sites.geojson'), '--model', join(dir, 'model.json')]);
+    expect(noR.code).toBe(2);
+    expect(noR.json.error.details).toMatchObject([{ field: 'realizations' }]);
   });
 });

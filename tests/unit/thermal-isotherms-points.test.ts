@@ -3,11 +3,12 @@
 // realization equals a datum at its location, so in a cell centred on a site the depth to an isotherm is the same in
 // every realization, z = (T − T0)·k/q (Turcotte & Schubert 2002, eq. 4-31 with A = 0), and P10 = P50 = P90 there;
 // far from the sites the realizations spread.
-import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { writeGeoTiff, readGeoTiff } from '../../server/io/geotiff.ts';
-import { isotherms } from '../../server/cli/isotherms.ts';
+import { runCliJson } from '../helpers/cli.ts';
+import { writeLinearModel, writeSites } from '../helpers/linear-geotherm.ts';
 
 const K_WMK = 2.5,
   T0 = 10,
@@ -26,62 +27,38 @@ beforeAll(() => {
     [10.06, 0.36, 58],
     [10.3, 0.34, 70],
   ];
-  writeFileSync(
-    join(dir, 'sites.geojson'),
-    JSON.stringify({
-      type: 'FeatureCollection',
-      features: sites.map(([lon, lat, q], i) => ({
-        type: 'Feature',
-        id: `s${i}`,
-        geometry: { type: 'Point', coordinates: [lon, lat] },
-        properties: { heatFlowMWm2: q },
-      })),
-    }),
-  );
-  writeFileSync(
-    join(dir, 'model.json'),
-    JSON.stringify({ surfaceTemperatureC: T0, layers: [{ name: 'crust', bottomKm: 60, conductivityWmK: K_WMK, heatProductionUWm3: 0, densityKgM3: 2700 }] }),
-  );
+  writeSites(join(dir, 'sites.geojson'), { lon: sites.map((p) => p[0]), lat: sites.map((p) => p[1]), q: sites.map((p) => p[2]) });
+  writeLinearModel(join(dir, 'model.json'), T0, K_WMK);
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 describe('isotherms --points', () => {
   it('honours the site in its cell (P10 = P90 = the analytic depth) and spreads away from the sites', async () => {
-    let out = '';
-    const spy = vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => {
-      out += String(s);
-      return true;
-    });
-    try {
-      expect(
-        await isotherms([
-          '--heat-flow',
-          join(dir, 'hf.tif'),
-          '--model',
-          join(dir, 'model.json'),
-          '--out-dir',
-          join(dir, 'out'),
-          '--isotherms',
-          '300',
-          '--points',
-          join(dir, 'sites.geojson'),
-          '--variogram',
-          'exponential:0,16,40',
-          '--transform',
-          'none',
-          '--neighbors',
-          'all',
-          '--realizations',
-          '60',
-          '--seed',
-          '3',
-          '--json',
-        ]),
-      ).toBe(0);
-    } finally {
-      spy.mockRestore();
-    }
-    const summary = JSON.parse(out) as { monteCarlo: { heatFlow: string; heatFlowErrorCorrelation: unknown } };
+    const { code, json } = await runCliJson([
+      'isotherms',
+      '--heat-flow',
+      join(dir, 'hf.tif'),
+      '--model',
+      join(dir, 'model.json'),
+      '--out-dir',
+      join(dir, 'out'),
+      '--isotherms',
+      '300',
+      '--points',
+      join(dir, 'sites.geojson'),
+      '--variogram',
+      'exponential:0,16,40',
+      '--transform',
+      'none',
+      '--neighbors',
+      'all',
+      '--realizations',
+      '60',
+      '--seed',
+      '3',
+    ]);
+    expect(code).toBe(0);
+    const summary = json as { monteCarlo: { heatFlow: string; heatFlowErrorCorrelation: unknown } };
     expect(summary.monteCarlo.heatFlow).toMatch(/conditional simulations of the sites/);
     expect(summary.monteCarlo.heatFlowErrorCorrelation).toBeNull();
     const tif = async (name: string) => (await readGeoTiff(readFileSync(join(dir, 'out', name)))).grid.values;

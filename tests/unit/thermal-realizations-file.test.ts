@@ -9,12 +9,11 @@
 //   realizations the type-7 P10/P50/P90 (Hyndman & Fan 1996) are the 2nd, 6th and 10th order statistics exactly,
 //   so the depth's P10 is k·(T − T0)/q₍₁₀₎ and its P90 k·(T − T0)/q₍₂₎, with q₍ᵢ₎ the sorted heat flows read from
 //   the data file in the test.
-import { describe, it, expect, vi, beforeAll, afterAll } from 'vitest';
+import { describe, it, expect, beforeAll, afterAll } from 'vitest';
 import { mkdtempSync, writeFileSync, existsSync, rmSync, readFileSync } from 'node:fs';
 import { spawnSync } from 'node:child_process';
 import { join } from 'node:path';
-import { main } from '../../server/cli/main.ts';
-import { runCliJson } from '../helpers/cli.ts';
+import { runCli, runCliJson } from '../helpers/cli.ts';
 import { readGeoTiff } from '../../server/io/geotiff.ts';
 import { requireGdal } from '../helpers/gdal.ts';
 
@@ -149,20 +148,11 @@ describe('realizations file', () => {
     ];
     // Exit 2 with one JSON error naming the code and the option (the CLI's error contract).
     const fails = async (argv: string[]): Promise<string> => {
-      let err = '';
-      const spy = vi.spyOn(process.stderr, 'write').mockImplementation((t: string | Uint8Array) => {
-        err += String(t);
-        return true;
-      });
-      const out = vi.spyOn(process.stdout, 'write').mockImplementation(() => true);
-      try {
-        expect(await main([...argv, '--json'])).toBe(2);
-      } finally {
-        spy.mockRestore();
-        out.mockRestore();
-      }
+      const { code, err } = await runCli([...argv, '--json']);
+      expect(code).toBe(2);
       return err;
     };
+
     expect(await fails(args(join(sim, 'heatFlowMWm2.realizations.json')))).toMatch(/not on the heat-flow grid/);
     const data = join(sim, 'heatFlowMWm2.realizations.f32');
     const b = readFileSync(data);
