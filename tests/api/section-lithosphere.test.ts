@@ -6,6 +6,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import Ajv from 'ajv';
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import type { ColumnAnswer } from '../../shared/schema/column.ts';
+import { putDoneRun } from '../helpers/stored-runs.ts';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
 
 let t: TestApp;
@@ -47,22 +48,10 @@ beforeAll(async () => {
   const width = 40,
     height = 40;
   const values = Float32Array.from({ length: width * height }, (_, k) => 45 + (30 * (k % width)) / (width - 1));
-  const now = new Date().toISOString();
-  await t.store.putRun({
-    id: 'run_lid',
-    cacheKey: 'key-run_lid',
+  await putDoneRun(t.store, 'run_lid', {
     request: runRequestSchema.parse({ sites: 'demo-sites', model: MODEL, isothermsC: [300, 500] }),
-    status: 'done',
-    progress: 1,
-    message: 'done',
-    layers: [],
-    summary: {},
-    warnings: [],
     model: MODEL,
     grids: ['heatFlow'],
-    client: 'test',
-    createdAt: now,
-    updatedAt: now,
   });
   await t.store.putRunGrid(
     'run_lid',

@@ -8,6 +8,7 @@ import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
+import { putDoneRun, storeHeatFlowGrids, waitJob as waitFor } from '../helpers/stored-runs.ts';
 import { openStore } from '../../server/main.ts';
 import { isStorageFull } from '../../server/routes/guards.ts';
 import { InputError } from '../../shared/errors.ts';
@@ -169,33 +170,10 @@ describe('heat-in-place bounds', () => {
         maxHeatInPlaceJobsServer: 2,
       },
     });
-    const now = new Date().toISOString();
     const model = JSON.parse(readFileSync(join(ROOT, 'fixtures/demo/model.json'), 'utf8'));
-    await t.store.putRun({
-      id: 'run_b',
-      cacheKey: 'b',
-      request: { sites: 'demo-sites', model: 'demo-model' },
-      status: 'done',
-      progress: 1,
-      message: 'done',
-      layers: [],
-      summary: {},
-      warnings: [],
-      model,
-      grids: [],
-      client: 'test',
-      createdAt: now,
-      updatedAt: now,
-    });
+    await putDoneRun(t.store, 'run_b', { model });
     const meta = { width: 20, height: 20, west: -129, north: -37, dx: 0.05, dy: 0.05, crs: 'EPSG:4326', units: 'mW/m²' };
-    await t.store.storeRunResult('run_b', {
-      files: [],
-      grids: [
-        { name: 'heatFlow', meta, values: new Float32Array(400).fill(75) },
-        { name: 'heatFlowSd', meta, values: new Float32Array(400).fill(5) },
-      ],
-      record: { grids: ['heatFlow', 'heatFlowSd'] },
-    });
+    await storeHeatFlowGrids(t.store, 'run_b', meta, new Float32Array(400).fill(75), new Float32Array(400).fill(5));
   });
   afterAll(async () => await t?.close());
   const hip = (body: unknown, client = '10.1.0.1') =>
@@ -208,14 +186,7 @@ describe('heat-in-place bounds', () => {
     ]);
     return { type: 'Polygon', coordinates: [[...pts, pts[0]]] };
   };
-  const waitJob = async (url: string) => {
-    for (let i = 0; i < 1500; i++) {
-      const r = await t.app.request(url);
-      if (r.status !== 202) return r;
-      await new Promise((res) => setTimeout(res, 20));
-    }
-    throw new Error('job did not finish');
-  };
+  const waitJob = (url: string) => waitFor(t, url);
 
   it('checks vertices, realizations and cells × realizations before queuing, naming each limit', async () => {
     expect((await errorOf(await hip({ polygon: ring(11) }), 422, 'over_limit')).details[0].problem).toContain('maxPolygonVertices');

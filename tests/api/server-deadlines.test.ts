@@ -8,6 +8,7 @@ import { fileURLToPath } from 'node:url';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
+import { putDoneRun, storeHeatFlowGrids, waitJob as waitFor } from '../helpers/stored-runs.ts';
 import { SPIN_SEED } from '../helpers/compute-worker-double.ts';
 import { ComputePool, DeadlineError } from '../../server/runs/compute.ts';
 import { columnWork, SHORT_COLUMN_WORK } from '../../server/routes/inspect.ts';
@@ -118,42 +119,12 @@ describe('a heat-in-place job past its deadline', () => {
   let t: TestApp;
   beforeAll(async () => {
     t = await startTestApp('hip-deadline', { computeWorkerFile: DOUBLE, trustedProxies: ['local'], limits: { heatInPlaceDeadlineSeconds: 30 } });
-    const now = new Date().toISOString();
-    await t.store.putRun({
-      id: 'run_d',
-      cacheKey: 'd',
-      request: { sites: 'demo-sites', model: 'demo-model' },
-      status: 'done',
-      progress: 1,
-      message: 'done',
-      layers: [],
-      summary: {},
-      warnings: [],
-      model: demoModel,
-      grids: [],
-      client: 'test',
-      createdAt: now,
-      updatedAt: now,
-    });
+    await putDoneRun(t.store, 'run_d', { model: demoModel });
     const meta = { width: 10, height: 10, west: -129, north: -37, dx: 0.05, dy: 0.05, crs: 'EPSG:4326', units: 'mW/m²' };
-    await t.store.storeRunResult('run_d', {
-      files: [],
-      grids: [
-        { name: 'heatFlow', meta, values: new Float32Array(100).fill(75) },
-        { name: 'heatFlowSd', meta, values: new Float32Array(100).fill(5) },
-      ],
-      record: { grids: ['heatFlow', 'heatFlowSd'] },
-    });
+    await storeHeatFlowGrids(t.store, 'run_d', meta, new Float32Array(100).fill(75), new Float32Array(100).fill(5));
   });
   afterAll(async () => await t?.close());
-  const waitJob = async (url: string) => {
-    for (let i = 0; i < 3000; i++) {
-      const r = await t.app.request(url);
-      if (r.status !== 202) return r;
-      await new Promise((res) => setTimeout(res, 20));
-    }
-    throw new Error('job did not finish');
-  };
+  const waitJob = (url: string) => waitFor(t, url, 3000);
   const job = async (seed: number, client: string) => {
     const res = await t.app.request('/api/runs/run_d/heat-in-place', {
       method: 'POST',

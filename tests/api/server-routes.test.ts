@@ -13,6 +13,7 @@ import { classifyFacies, FACIES_NAMES } from '../../shared/petrology/index.ts';
 import { runRequestSchema, type RunSummary } from '../../shared/schema/run.ts';
 import proj4 from 'proj4';
 import { DEFAULT_LIMITS, resolveLimits } from '../../server/limits.ts';
+import { putDoneRun } from '../helpers/stored-runs.ts';
 import { columnAtRunAnswerSchema, type ColumnAnswer } from '../../shared/schema/column.ts';
 
 const DOUBLE = fileURLToPath(new URL('../helpers/run-worker-double.ts', import.meta.url));
@@ -398,25 +399,8 @@ describe('column', () => {
 });
 
 describe('runs stored by another server', () => {
-  const putDoneRun = async (id: string, grids: string[]) => {
-    const now = new Date().toISOString();
-    await store.putRun({
-      id,
-      cacheKey: `key-${id}`,
-      request: runRequestSchema.parse({ sites: 'demo-sites', model: 'demo-model' }),
-      status: 'done',
-      progress: 1,
-      message: 'done',
-      layers: [],
-      summary: {},
-      warnings: [],
-      model: null,
-      grids,
-      client: 'test',
-      createdAt: now,
-      updatedAt: now,
-    });
-  };
+  const putRun = (id: string, grids: string[]) =>
+    putDoneRun(store, id, { request: runRequestSchema.parse({ sites: 'demo-sites', model: 'demo-model' }), model: null, grids });
 
   it('samples a grid in a projected CRS (EPSG:3857) at a WGS84 point', async () => {
     // Web Mercator by proj4 (the reference library) puts the point at the centre of cell (col 4, row 6).
@@ -425,7 +409,7 @@ describe('runs stored by another server', () => {
       width = 10,
       height = 10;
     const values = Float32Array.from({ length: width * height }, (_, k) => 50 + k * 0.25);
-    await putDoneRun('run_mercator', ['heatFlow']);
+    await putRun('run_mercator', ['heatFlow']);
     await store.putRunGrid(
       'run_mercator',
       'heatFlow',
@@ -438,7 +422,7 @@ describe('runs stored by another server', () => {
   });
 
   it('answers 409 for a finished run without a heat-flow grid', async () => {
-    await putDoneRun('run_gridless', []);
+    await putRun('run_gridless', []);
     await errorOf(await post('/api/column', { runId: 'run_gridless', lon: 0, lat: 0 }), 409, 'run_without_grid');
     await errorOf(
       await post('/api/section', {
@@ -454,22 +438,15 @@ describe('runs stored by another server', () => {
   });
 
   it('marks runs left queued or running by a stopped server as failed on start', async () => {
-    const now = new Date().toISOString();
-    await store.putRun({
-      id: 'run_orphan',
+    await putDoneRun(store, 'run_orphan', {
       cacheKey: 'key-orphan',
       request: {},
       status: 'running',
       progress: 0.4,
       message: 'tile 3',
-      layers: [],
       summary: null,
-      warnings: [],
       model: null,
-      grids: [],
       client: 'x',
-      createdAt: now,
-      updatedAt: now,
     });
     const restarted = createApp({ store, terrain: null, clientDir: null, runWorkerFile: DOUBLE });
     await restarted.jobs.ready;

@@ -7,6 +7,7 @@ import { writeGeoTiff } from '../../server/io/geotiff.ts';
 import { heatInPlace } from '../../server/cli/heat-in-place.ts';
 import { InputError } from '../../shared/errors.ts';
 import { startTestApp, type TestApp } from '../helpers/app.ts';
+import { putDoneRun, storeHeatFlowGrids, waitJob as waitFor } from '../helpers/stored-runs.ts';
 import { CAUTION } from '../../shared/caution.ts';
 import type { Grid } from '../../shared/grid/grid.ts';
 
@@ -191,42 +192,13 @@ describe('heat-in-place job routes', () => {
   beforeAll(async () => {
     t = await startTestApp('hip');
     // A finished run holding the same grids and model the CLI reads from files.
-    const now = new Date().toISOString();
-    await t.store.putRun({
-      id: 'run_hip',
-      cacheKey: 'hip',
-      request: { sites: 'demo-sites', model: 'demo-model' },
-      status: 'done',
-      progress: 1,
-      message: 'done',
-      layers: [],
-      summary: {},
-      warnings: [],
-      model,
-      grids: [],
-      client: 'test',
-      createdAt: now,
-      updatedAt: now,
-    });
+    await putDoneRun(t.store, 'run_hip', { model });
     const meta = (g: Grid) => ({ width: g.width, height: g.height, west: g.west, north: g.north, dx: g.dx, dy: g.dy, crs: g.crs, units: 'mW/m²' });
-    await t.store.storeRunResult('run_hip', {
-      files: [],
-      grids: [
-        { name: 'heatFlow', meta: meta(hf), values: hf.values },
-        { name: 'heatFlowSd', meta: meta(sd), values: sd.values },
-      ],
-      record: { grids: ['heatFlow', 'heatFlowSd'] },
-    });
+    expect(meta(sd)).toEqual(meta(hf));
+    await storeHeatFlowGrids(t.store, 'run_hip', meta(hf), hf.values, sd.values);
   });
   afterAll(async () => await t?.close());
-  const waitJob = async (url: string): Promise<Response> => {
-    for (let i = 0; i < 1500; i++) {
-      const r = await t.app.request(url);
-      if (r.status !== 202) return r;
-      await new Promise((res) => setTimeout(res, 20));
-    }
-    throw new Error(`job ${url} did not finish`);
-  };
+  const waitJob = (url: string) => waitFor(t, url);
 
   it('POST queues a job (202); its JSON equals the CLI on the same inputs and seed; HTML and CSV come from the same job', async () => {
     const body = { polygon, options: { realizations: 40, seed: 5 } };
