@@ -15,6 +15,9 @@ export interface GridFrame {
   ny: number;
 }
 
+/** The covariate grid of the checks against R gstat: 60 × 40 cells of 0.02° from 131.05° W, 40.45° S (invented). */
+export const GSTAT_FRAME: GridFrame = { west: -131.05, north: -40.45, d: 0.02, nx: 60, ny: 40 };
+
 /**
  * The covariate grid whose cell (column c, row r) holds `sAt(c, r)` (EPSG:4326, in `units`), and `at(lon, lat)`:
  * the same formula at the fractional cell position of a point.

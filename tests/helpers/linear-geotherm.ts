@@ -88,6 +88,9 @@ export interface LinearWindow {
   rhoCMJ: number;
 }
 
+/** The window of the regional-total checks: T0 = Tref = 15 °C, k = 2.5 W/(m·K), from 1 to 5 km, ρC = 2.7 MJ/(m³·K). */
+export const TOTALS_WINDOW: LinearWindow = { t0C: 15, kWmK: 2.5, topKm: 1, bottomKm: 5, rhoCMJ: 2.7 };
+
 /** The heat-in-place options of the window. */
 export function windowArgs(w: LinearWindow): string[] {
   const t0 = String(w.t0C);

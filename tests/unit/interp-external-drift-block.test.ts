@@ -8,7 +8,7 @@ import { converter, lonLatToLocalKm, WGS84_DEF } from '../../shared/interp/proje
 import type { VariogramModel } from '../../shared/interp/variogram.ts';
 import { writeGeoTiff } from '../../server/io/geotiff.ts';
 import { runCliJson } from '../helpers/cli.ts';
-import { bilinearCovariate, sitesInFrame } from '../helpers/drift-fixtures.ts';
+import { bilinearCovariate, GSTAT_FRAME, sitesInFrame } from '../helpers/drift-fixtures.ts';
 import { runRscript } from '../helpers/gstat.ts';
 
 /**
@@ -21,12 +21,7 @@ import { runRscript } from '../helpers/gstat.ts';
  * so the bilinear read of the grid reproduces it exactly and every node value is exact in float32.
  */
 
-const WEST = -131.05,
-  NORTH = -40.45,
-  D = 0.02,
-  NX = 60,
-  NY = 40;
-const FRAME = { west: WEST, north: NORTH, d: D, nx: NX, ny: NY };
+const FRAME = GSTAT_FRAME;
 const sAt = (c: number, r: number) => 200 - 2 * c + 1.5 * r + 0.25 * c * r;
 const { grid: driftGrid, at: covariateOf } = bilinearCovariate(FRAME, sAt, 'basement.tif', 'Ma');
 

@@ -9,7 +9,7 @@ import type { VariogramModel } from '../../shared/interp/variogram.ts';
 import { writeGeoTiff } from '../../server/io/geotiff.ts';
 import { httpStatusOf } from '../../server/http-status.ts';
 import { runCliJson } from '../helpers/cli.ts';
-import { bilinearCovariate, sitesInFrame } from '../helpers/drift-fixtures.ts';
+import { bilinearCovariate, GSTAT_FRAME, sitesInFrame } from '../helpers/drift-fixtures.ts';
 import { requireGstat, runRscript } from '../helpers/gstat.ts';
 
 /**
@@ -21,12 +21,8 @@ import { requireGstat, runRscript } from '../helpers/gstat.ts';
  * and every node value is exact in float32 (multiples of 0.5 below 2²⁴).
  */
 
-const WEST = -131.05,
-  NORTH = -40.45,
-  D = 0.02,
-  NX = 60,
-  NY = 40;
-const FRAME = { west: WEST, north: NORTH, d: D, nx: NX, ny: NY };
+const FRAME = GSTAT_FRAME;
+const { west: WEST, north: NORTH, d: D, nx: NX, ny: NY } = FRAME;
 const sAt = (c: number, r: number) => 100 + 3 * c + 2 * r + 0.5 * c * r;
 const { grid: driftGrid, at: covariateOf } = bilinearCovariate(FRAME, sAt, 'thickness.tif', 'm');
 

@@ -23,13 +23,12 @@ import {
   geodesicKm as km,
   heatPerMeanFlowEJ,
   randomSites,
+  TOTALS_WINDOW as WINDOW,
   windowArgs,
   writeLinearModel,
   writeSites,
-  type LinearWindow,
 } from '../helpers/linear-geotherm.ts';
 
-const WINDOW: LinearWindow = { t0C: 15, kWmK: 2.5, topKm: 1, bottomKm: 5, rhoCMJ: 2.7 };
 const K_WMK = WINDOW.kWmK,
   T0 = WINDOW.t0C,
   DEPTH_KM = 4;
