@@ -5,7 +5,7 @@
  */
 import type { CompiledModel } from './compile.ts';
 import { COLUMN_BAD_INPUT, ColumnState, columnHeatFlow, columnIsothermDepth, columnTemperature, solveColumn } from './column.ts';
-import { dryAtTops, limitedIsothermDepth, limitedTemperature, limitsWhereReached } from './limits.ts';
+import { dryAtTops, emptyColumnLimits, limitedIsothermDepth, limitedTemperature, limitsWhereReached } from './limits.ts';
 
 /** Status bit of a grid cell whose column reaches the melt onset (limits.ts) above the maximum depth. */
 export const COLUMN_MELT_ONSET = 8;
@@ -87,6 +87,7 @@ export function geothermGrid(
   const full = melt !== undefined || wet !== undefined;
   if (full) needT = Infinity;
   const dryTop = list.map(dryAtTops);
+  const limits = emptyColumnLimits(); // reused by every cell: read before the next cell's search
   for (let c = start; c < end; c++) {
     const zi = zones === undefined ? 0 : zones[c];
     const cm = list[zi];
@@ -97,7 +98,7 @@ export function geothermGrid(
     if (basal !== undefined) basal[c] = st.status & COLUMN_BAD_INPUT ? NaN : q0 - cm.totalHeatProductionMWm2;
     const zMax = query.maxDepthKm ?? cm.maxDepthKm;
     // The melt and mantle limits of limits.ts, skipped where they cannot act (limitsWhereReached's fast path).
-    const lim = limitsWhereReached(cm, st, zMax, dryTop[zi], full && !(st.status & COLUMN_BAD_INPUT));
+    const lim = limitsWhereReached(cm, st, zMax, dryTop[zi], full && !(st.status & COLUMN_BAD_INPUT), limits);
     if (lim === null) {
       if (status !== undefined) status[c] = st.status;
       if (melt !== undefined) melt[c] = NaN;

@@ -67,14 +67,42 @@ function boundedTemperature(cm: CompiledModel, st: ColumnState, lithosphereBaseK
   return columnTemperature(cm, st, z);
 }
 
-/** First z in [from, to] where f(z) ≥ 0 (scan every step, then bisection to 1e-6 km); NaN where f is NaN or none. */
-function firstRoot(f: (z: number) => number, from: number, to: number, step: number): number {
+/** The functions whose first root columnLimits looks for (see rootValue). */
+const ADIABAT_CROSSING = 0,
+  ADIABAT_BELOW_DRY_PERIDOTITE = 1,
+  DRY_SOLIDUS = 2,
+  WET_SOLIDUS = 3;
+
+/**
+ * The column a search runs on: one object reused by every columnLimits call (the search runs to completion
+ * synchronously, so calls never overlap), so a grid of columns allocates nothing per cell.
+ */
+const search = { cm: null as unknown as CompiledModel, st: null as unknown as ColumnState, lb: NaN };
+
+/**
+ * f(z) of search function `kind` for the column in `search`: T_cond − T_adiabat (the lithosphere base), the dry
+ * peridotite solidus − T_adiabat (where decompression melting ends), and the bounded temperature − the dry or wet
+ * solidus of the rock at z (melt onset, wet solidus).
+ */
+function rootValue(kind: number, z: number): number {
+  const { cm, st } = search;
+  const tp = cm.mantlePotentialTemperatureC,
+    g = cm.gravityMS2;
+  if (kind === ADIABAT_CROSSING) return columnTemperature(cm, st, z) - adiabatTemperatureC(tp, z, g);
+  const p = lithostaticPressureMPa(cm, z);
+  if (kind === ADIABAT_BELOW_DRY_PERIDOTITE) return ROCK_SOLIDUS.mantle.dry.temperatureC(p) - adiabatTemperatureC(tp, z, g);
+  const pair = layerSolidus(cm, layerAt(cm, z));
+  return boundedTemperature(cm, st, search.lb, z) - (kind === DRY_SOLIDUS ? pair.dry : pair.wet).temperatureC(p);
+}
+
+/** First z in [from, to] where rootValue(kind, z) ≥ 0 (scan every step, then bisection to 1e-6 km); NaN where it is NaN or none. */
+function firstRoot(kind: number, from: number, to: number, step: number): number {
   if (!(to >= from)) return NaN;
   let zPrev = NaN;
   const n = Math.max(1, Math.ceil((to - from) / step - 1e-9));
   for (let j = 0; j <= n; j++) {
     const z = Math.min(from + j * step, to);
-    const v = f(z);
+    const v = rootValue(kind, z);
     if (v !== v) {
       zPrev = NaN;
       continue;
@@ -85,7 +113,7 @@ function firstRoot(f: (z: number) => number, from: number, to: number, step: num
         hi = z;
       while (hi - lo > 1e-6) {
         const mid = 0.5 * (lo + hi);
-        if (f(mid) >= 0) hi = mid;
+        if (rootValue(kind, mid) >= 0) hi = mid;
         else lo = mid;
       }
       return hi;
@@ -95,14 +123,9 @@ function firstRoot(f: (z: number) => number, from: number, to: number, step: num
   return NaN;
 }
 
-/**
- * Melt and mantle limits of a solved column down to maxDepthKm (scan step stepKm, default 0.1 km). See the file
- * comment for the rules; all depths in km, NaN = not reached.
- */
-export function columnLimits(cm: CompiledModel, st: ColumnState, maxDepthKm: number, stepKm = 0.1): ColumnLimits {
-  const tp = cm.mantlePotentialTemperatureC,
-    g = cm.gravityMS2;
-  const out: ColumnLimits = {
+/** A ColumnLimits to fill (columnLimits' `out`). */
+export function emptyColumnLimits(): ColumnLimits {
+  return {
     wetSolidusKm: NaN,
     wetSolidusLayer: -1,
     meltOnsetKm: NaN,
@@ -112,16 +135,36 @@ export function columnLimits(cm: CompiledModel, st: ColumnState, maxDepthKm: num
     mantleTopKm: NaN,
     validToKm: 0,
     endReason: 'bad-input',
-    mantlePotentialTemperatureC: tp,
+    mantlePotentialTemperatureC: NaN,
   };
+}
+
+/**
+ * Melt and mantle limits of a solved column down to maxDepthKm (scan step stepKm, default 0.1 km). See the file
+ * comment for the rules; all depths in km, NaN = not reached. `out` (every field overwritten) may be passed to reuse
+ * one object over many columns; by default a new one is returned.
+ */
+export function columnLimits(cm: CompiledModel, st: ColumnState, maxDepthKm: number, stepKm = 0.1, out: ColumnLimits = emptyColumnLimits()): ColumnLimits {
+  out.wetSolidusKm = NaN;
+  out.wetSolidusLayer = -1;
+  out.meltOnsetKm = NaN;
+  out.meltOnsetLayer = -1;
+  out.lithosphereBaseKm = NaN;
+  out.adiabatAboveDrySolidusToKm = NaN;
+  out.mantleTopKm = NaN;
+  out.validToKm = 0;
+  out.endReason = 'bad-input';
+  out.mantlePotentialTemperatureC = cm.mantlePotentialTemperatureC;
   if (st.status & COLUMN_BAD_INPUT) return out;
-  const P = (z: number) => lithostaticPressureMPa(cm, z);
+  search.cm = cm;
+  search.st = st;
+  search.lb = NaN;
   // Lithosphere base: first mantle depth (in the conductive column's valid part) where T_cond ≥ T_adiabat.
   for (let i = 0; i < cm.nLayers; i++) {
     if (cm.rock[i] !== MANTLE || cm.topKm[i] > maxDepthKm) continue;
     if (!(out.mantleTopKm === out.mantleTopKm)) out.mantleTopKm = cm.topKm[i];
     const to = Math.min(cm.bottomKm[i], maxDepthKm, st.validToKm);
-    const z = firstRoot((zz) => columnTemperature(cm, st, zz) - adiabatTemperatureC(tp, zz, g), cm.topKm[i], to, stepKm);
+    const z = firstRoot(ADIABAT_CROSSING, cm.topKm[i], to, stepKm);
     if (z === z) {
       out.lithosphereBaseKm = z;
       break;
@@ -129,19 +172,17 @@ export function columnLimits(cm: CompiledModel, st: ColumnState, maxDepthKm: num
   }
   if (out.mantleTopKm === out.mantleTopKm) {
     // Where the adiabat drops below the dry peridotite solidus (the solidus rises about 4 K/km, the adiabat 0.4).
-    const dry = ROCK_SOLIDUS.mantle.dry;
-    const f = (z: number) => dry.temperatureC(P(z)) - adiabatTemperatureC(tp, z, g);
-    if (f(out.mantleTopKm) < 0) {
-      const z = firstRoot(f, out.mantleTopKm, Math.max(maxDepthKm, out.mantleTopKm), stepKm);
+    if (rootValue(ADIABAT_BELOW_DRY_PERIDOTITE, out.mantleTopKm) < 0) {
+      const z = firstRoot(ADIABAT_BELOW_DRY_PERIDOTITE, out.mantleTopKm, Math.max(maxDepthKm, out.mantleTopKm), stepKm);
       out.adiabatAboveDrySolidusToKm = z === z ? z : maxDepthKm;
     }
   }
   const lb = out.lithosphereBaseKm;
+  search.lb = lb;
   const condValid = lb === lb ? Math.max(maxDepthKm, cm.stackBottomKm) : st.validToKm;
   const to = Math.min(maxDepthKm, condValid);
-  const T = (z: number) => boundedTemperature(cm, st, lb, z);
-  out.meltOnsetKm = firstRoot((z) => T(z) - layerSolidus(cm, layerAt(cm, z)).dry.temperatureC(P(z)), 0, to, stepKm);
-  out.wetSolidusKm = firstRoot((z) => T(z) - layerSolidus(cm, layerAt(cm, z)).wet.temperatureC(P(z)), 0, to, stepKm);
+  out.meltOnsetKm = firstRoot(DRY_SOLIDUS, 0, to, stepKm);
+  out.wetSolidusKm = firstRoot(WET_SOLIDUS, 0, to, stepKm);
   if (out.meltOnsetKm === out.meltOnsetKm) out.meltOnsetLayer = layerAt(cm, out.meltOnsetKm);
   if (out.wetSolidusKm === out.wetSolidusKm) out.wetSolidusLayer = layerAt(cm, out.wetSolidusKm);
   if (out.meltOnsetKm === out.meltOnsetKm) {
@@ -199,10 +240,18 @@ export function dryAtTops(cm: CompiledModel): Float64Array {
  * The limits of a solved column when they can act above zMax (km), else null. Fast path: when no solved layer gets
  * as hot at its base as its dry solidus at its top (`dryTop`, from dryAtTops), nor (mantle) as the adiabat at its
  * top, neither melt nor the adiabat can act above the solved depth (layers left unsolved by a lazy solve lie below
- * every answer asked for) and null is returned; `force` skips the fast path. Otherwise columnLimits over the solved part.
+ * every answer asked for) and null is returned; `force` skips the fast path. Otherwise columnLimits over the solved
+ * part, into `out` when given.
  */
-export function limitsWhereReached(cm: CompiledModel, st: ColumnState, zMax: number, dryTop: Float64Array, force = false): ColumnLimits | null {
-  if (st.status & COLUMN_BAD_INPUT) return force ? columnLimits(cm, st, zMax) : null;
+export function limitsWhereReached(
+  cm: CompiledModel,
+  st: ColumnState,
+  zMax: number,
+  dryTop: Float64Array,
+  force = false,
+  out?: ColumnLimits,
+): ColumnLimits | null {
+  if (st.status & COLUMN_BAD_INPUT) return force ? columnLimits(cm, st, zMax, 0.1, out) : null;
   let hot = force,
     zSolved = 0;
   if (!hot) {
@@ -225,5 +274,5 @@ export function limitsWhereReached(cm: CompiledModel, st: ColumnState, zMax: num
       zScan = Math.min(zMax, Math.max(zSolved, cm.topKm[i]));
       break;
     }
-  return columnLimits(cm, st, zScan);
+  return columnLimits(cm, st, zScan, 0.1, out);
 }
