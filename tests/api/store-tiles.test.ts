@@ -20,6 +20,7 @@ import { GeoTiffFile, writeGeoTiff } from '../../server/io/geotiff.ts';
 import { gridTileRoutes } from '../../server/routes/grid-tiles.ts';
 import { pgAvailable, startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
 import { prng } from '../helpers/prng.ts';
+import { requireGdal } from '../helpers/gdal.ts';
 
 const ROOT = new URL('../..', import.meta.url).pathname;
 
@@ -196,6 +197,7 @@ describe.each(backends)('map tiles from the %s store', (_name, make) => {
     expect(Buffer.from(f.bytes).equals(Buffer.from(cog))).toBe(true);
     const path = join(dir, 'download.tif');
     writeFileSync(path, f.bytes);
+    requireGdal('gdalinfo');
     const info = JSON.parse(execFileSync('gdalinfo', ['-json', path]).toString()) as { size: number[]; bands: { type: string }[] };
     expect(info.size).toEqual([1536, 1024]);
     expect(info.bands[0].type).toBe('Float32');

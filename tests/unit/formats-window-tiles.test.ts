@@ -7,6 +7,7 @@ import type { Grid } from '../../shared/grid/grid.ts';
 import { encodingForUnits } from '../../shared/grid/terrain-rgb.ts';
 import { writeGeoTiffFile, GeoTiffFile, NODATA } from '../../server/io/geotiff.ts';
 import { GridTiles, WindowTiles, TILE_SIZE } from '../../server/terrain.ts';
+import { requireGdal } from '../helpers/gdal.ts';
 
 // Map tiles of a stored layer are rendered from window reads of its COG (full resolution or an internal overview)
 // and must equal the same tile rendered from the pixels GDAL reads (Debian's gdal-bin: `gdal_translate` of the level
@@ -36,6 +37,7 @@ afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 /** One level of the file as GDAL reads it: `gdal_translate [-ovr N]` to raw little-endian Float32 (ENVI). */
 function gdalLevel(level: number): Grid<Float32Array> {
+  requireGdal('gdal_translate', 'gdalinfo');
   const out = join(dir, `level${level}.img`);
   execFileSync('gdal_translate', ['-q', '-of', 'ENVI', '-ot', 'Float32', ...(level > 0 ? ['-ovr', String(level - 1)] : []), path, out]);
   const info = JSON.parse(execFileSync('gdalinfo', ['-json', out], { encoding: 'utf8' })) as { size: [number, number]; geoTransform: number[] };

@@ -9,6 +9,7 @@ import { latFromTileY, lngFromTileX, tileXFromLng, tileYFromLat } from '../../sh
 import { cellIndexFromXY, xFromCol, yFromRow, colFromX, rowFromY, sampleBilinear, gridBbox, type Grid } from '../../shared/grid/grid.ts';
 import { loadDem, TerrainTiles } from '../../server/terrain.ts';
 import { DEMO_TERRAIN } from '../../server/demo.ts';
+import { requireGdal } from '../helpers/gdal.ts';
 
 const tmp = () => mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-'));
 
@@ -50,8 +51,8 @@ describe('PNG encoder', () => {
       [6, 4],
       [3, 2],
     ]) {
+      requireGdal('gdallocationinfo');
       const r = spawnSync('gdallocationinfo', ['-valonly', file, String(x), String(y)], { encoding: 'utf8' });
-      if (r.error) throw new Error('gdallocationinfo not found: install gdal-bin');
       const bands = r.stdout.trim().split(/\s+/).map(Number);
       const o = (y * w + x) * 3;
       expect(bands).toEqual([rgb[o], rgb[o + 1], rgb[o + 2]]);
@@ -104,6 +105,7 @@ describe('terrain tiles', () => {
     writeFileSync(file, png!);
     const px = Math.floor((tx % 1) * 256),
       py = Math.floor((ty % 1) * 256);
+    requireGdal('gdallocationinfo');
     const r = spawnSync('gdallocationinfo', ['-valonly', file, String(px), String(py)], { encoding: 'utf8' });
     const [R, G, B] = r.stdout.trim().split(/\s+/).map(Number);
     const pxLng = lngFromTileX(Math.floor(tx) + (px + 0.5) / 256, z),
@@ -162,6 +164,7 @@ describe('scalar-layer tile encodings', () => {
     const file = join(dir, 'g.png');
     writeFileSync(file, png);
     // Decode every pixel with GDAL: values are exactly 10 or no data, nothing in between.
+    requireGdal('gdal_translate');
     const r = spawnSync('gdal_translate', ['-q', '-of', 'AAIGrid', '-b', '3', file, join(dir, 'b.asc')], { encoding: 'utf8' });
     expect(r.status).toBe(0);
     const blue = readFileSync(join(dir, 'b.asc'), 'utf8').split('\n').slice(6).join(' ').trim().split(/\s+/).map(Number);

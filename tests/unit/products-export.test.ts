@@ -17,6 +17,7 @@ import { readGeoTiff, writeGeoTiff } from '../../server/io/geotiff.ts';
 import { readGridGeoTiff } from '../../server/cli/isotherms.ts';
 import { runCli } from '../helpers/cli.ts';
 import { InputError } from '../../shared/errors.ts';
+import { requireGdal } from '../helpers/gdal.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'products-export-'));
 const provenance = buildProvenance(
@@ -38,6 +39,7 @@ function gdalinfo(path: string): {
   bands: { noDataValue: number; type: string; computedMin?: number; computedMax?: number }[];
   metadata: Record<string, Record<string, string>>;
 } {
+  requireGdal('gdalinfo');
   return JSON.parse(execFileSync('gdalinfo', ['-json', '-mm', path], { encoding: 'utf8' }));
 }
 
@@ -110,6 +112,7 @@ describe('GeoTIFF export and import', () => {
   });
 
   it('refuses a TIFF with no georeferencing, several bands without --band, and an unknown CRS', async () => {
+    requireGdal('gdal_create');
     const plain = join(dir, 'plain.tif');
     execFileSync('gdal_create', ['-of', 'GTiff', '-outsize', '4', '3', '-bands', '1', '-ot', 'Float32', '-burn', '50', plain]);
     await expect(readGridGeoTiff(readFileSync(plain), plain)).rejects.toThrow(/no georeferencing/);

@@ -8,6 +8,7 @@ import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import { fillNoDataFromNearest, TerrainTiles } from '../../server/terrain.ts';
 import { tileXFromLng, tileYFromLat } from '../../shared/grid/webmercator.ts';
+import { requireGdal } from '../helpers/gdal.ts';
 
 describe('no data in a terrain DEM', () => {
   it('takes the nearest cell with data (counted in edge-sharing steps); cells with data keep theirs', () => {
@@ -32,6 +33,7 @@ describe('no data in a terrain DEM', () => {
     expect(png).not.toBeNull();
     const dir = mkdtempSync(join(process.env.TMPDIR ?? tmpdir(), 'subtherm-'));
     writeFileSync(join(dir, 't.png'), png!);
+    requireGdal('gdal_translate');
     const bands = [1, 2, 3].map((b) => {
       const r = spawnSync('gdal_translate', ['-q', '-b', String(b), '-of', 'XYZ', join(dir, 't.png'), '/vsistdout/'], { encoding: 'utf8', maxBuffer: 1 << 26 });
       return r.stdout
