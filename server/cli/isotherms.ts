@@ -64,6 +64,8 @@ export async function isotherms(argv: string[]): Promise<number> {
     outDir = need('out-dir');
   const n = isothermNumbers(a);
   const tRead = performance.now();
+  // CPU seconds of the whole process per stage (this thread, zlib's pool and any workers).
+  const cpu0 = process.cpuUsage();
   const grids = await readHeatFlowGrids(hfPath, a['heat-flow-sd'], n.band);
   const { heatFlow, heatFlowSd, inputs } = grids;
   // --points or --realizations-from: the Monte Carlo's heat flow comes from those realizations.
@@ -75,6 +77,7 @@ export async function isotherms(argv: string[]): Promise<number> {
   if (a.overrides !== undefined) ({ regions, sha256: inputs.overrides } = await readOverrides(a.overrides));
 
   const readMs = performance.now() - tRead;
+  const cpuRead = process.cpuUsage();
   const t0 = performance.now();
   const { band, heatFlowErrorCorrelation, ...options } = n;
   const products = await computeThermalProducts(heatFlow, heatFlowSd, doc.model, regions, grids.crsDef, {
@@ -85,6 +88,7 @@ export async function isotherms(argv: string[]): Promise<number> {
     heatFlowSource: simulated?.source,
   });
   const computeMs = performance.now() - t0;
+  const cpuCompute = process.cpuUsage();
   const parameters = {
     ...options,
     maxDepthKm: products.maxDepthKm,
@@ -102,6 +106,8 @@ export async function isotherms(argv: string[]): Promise<number> {
   const t1 = performance.now();
   const files = await writeProductFiles(outDir, products, provenance);
   const writeMs = performance.now() - t1;
+  const cpuWrite = process.cpuUsage();
+  const cpuMs = (a: NodeJS.CpuUsage, b: NodeJS.CpuUsage) => (b.user + b.system - a.user - a.system) / 1000;
   const summary = {
     caution: CAUTION,
     grid: { width: heatFlow.width, height: heatFlow.height, west: heatFlow.west, north: heatFlow.north, dx: heatFlow.dx, dy: heatFlow.dy, crs: heatFlow.crs },
@@ -114,6 +120,7 @@ export async function isotherms(argv: string[]): Promise<number> {
     warnings: [...new Set([...(simulated?.warnings ?? []), ...products.warnings])],
     provenance,
     timingsMs: { read: readMs, ...products.timingsMs, compute: computeMs, write: writeMs },
+    cpuMs: { read: cpuMs(cpu0, cpuRead), compute: cpuMs(cpuRead, cpuCompute), write: cpuMs(cpuCompute, cpuWrite) },
   };
   await writeFile(join(outDir, 'summary.json'), JSON.stringify(summary, null, 2));
   process.stdout.write(a.json ? JSON.stringify(summary) + '\n' : productsText(heatFlow, products, summary.warnings, summary.files));

@@ -208,7 +208,7 @@ async function isotherms(heatFlowTif: string): Promise<void> {
   const args = ['isotherms', '--heat-flow', heatFlowTif, '--model', modelPath, '--depths-km', '5,10', '--out-dir', outDir, '--json'];
   const r = spawnSync('/usr/bin/time', ['-v', process.execPath, bin, ...args], { encoding: 'utf8', maxBuffer: 64 * 2 ** 20 });
   if (r.status !== 0) throw new Error(`isotherms failed: ${r.stderr}`);
-  const body = JSON.parse(r.stdout) as { timingsMs: Record<string, number>; grid: { width: number; height: number } };
+  const body = JSON.parse(r.stdout) as { timingsMs: Record<string, number>; cpuMs: Record<string, number>; grid: { width: number; height: number } };
   const wall = timeField(r.stderr, 'Elapsed (wall clock) time (h:mm:ss or m:ss)');
   const cpu = timeField(r.stderr, 'User time (seconds)') + timeField(r.stderr, 'System time (seconds)');
   const rssGiB = timeField(r.stderr, 'Maximum resident set size (kbytes)') / 2 ** 20;
@@ -223,6 +223,8 @@ async function isotherms(heatFlowTif: string): Promise<void> {
     `  wall ${wall.toFixed(1)} s, CPU ${cpu.toFixed(1)} s, peak resident ${rssGiB.toFixed(2)} GiB (target ≤ 1.5); load average ${load0} before, ${load()} after`,
   );
   out(`  stages: ${stages}`);
+  const c = body.cpuMs;
+  out(`  CPU of the process: read ${(c.read / 1000).toFixed(1)} s, compute ${(c.compute / 1000).toFixed(1)} s, write ${(c.write / 1000).toFixed(1)} s`);
   await perCellCheck(heatFlowTif, modelPath, outDir, width * height);
 }
 
