@@ -3,30 +3,23 @@
 // dots of every direction, the variogram map's cells and the fitted ellipse, and a caption with the run's angle and
 // ratio. Screenshot: tests/screenshots/anisotropy-run-panel.png.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { mkdirSync } from 'node:fs';
 import { join } from 'node:path';
-import type { Browser, Page } from 'playwright-core';
-import { launchBrowser, startServerProcess, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
+import type { Page } from 'playwright-core';
+import { startMapSession, type MapSession, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
 import { runSummarySchema } from '../../shared/schema/run.ts';
 import { decodePngRgb } from '../helpers/png.ts';
 
 let server: RunningServer;
-let browser: Browser;
 let page: Page;
 const pageErrors: string[] = [];
 
+let session: MapSession | undefined;
 beforeAll(async () => {
-  mkdirSync(SCREENSHOT_DIR, { recursive: true });
-  server = await startServerProcess();
-  browser = await launchBrowser();
-  page = await browser.newPage({ viewport: { width: 1440, height: 900 } });
-  page.on('pageerror', (e) => pageErrors.push(e.message));
+  session = await startMapSession({ viewport: { width: 1440, height: 900 }, pageErrors, open: false });
+  ({ server, page } = session);
 }, 180_000);
 
-afterAll(async () => {
-  await browser?.close();
-  await server?.stop();
-});
+afterAll(async () => await session?.close());
 
 describe('the run panel shows the estimated anisotropy', () => {
   it('draws the directional semivariograms, the variogram map and the fitted angle and ratio', async () => {

@@ -1,33 +1,25 @@
 // The map client's layer panel in a real browser: the demo draws, layers toggle and fade, the state rides in the
 // URL, and the first map's time is measured (printed, not asserted).
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { mkdirSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Browser, Page } from 'playwright-core';
-import { launchBrowser, startServerProcess, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
+import { openMap, renderedCounts, startMapSession, type MapSession, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
 
 let server: RunningServer;
 let browser: Browser;
 let page: Page;
 let firstMapMs = NaN;
 
+let session: MapSession | undefined;
 beforeAll(async () => {
-  mkdirSync(SCREENSHOT_DIR, { recursive: true });
-  server = await startServerProcess();
-  browser = await launchBrowser();
-  page = await browser.newPage({ viewport: { width: 1280, height: 800 } });
+  session = await startMapSession({ viewport: { width: 1280, height: 800 }, open: false });
+  ({ server, browser, page } = session);
   const t0 = Date.now();
-  await page.goto(server.url);
-  await waitForMapIdle(page);
-  await page.evaluate(() => window.subtherm!.ready);
-  await waitForMapIdle(page);
+  await openMap(page, server.url, true);
   firstMapMs = Date.now() - t0;
 }, 180_000);
 
-afterAll(async () => {
-  await browser?.close();
-  await server?.stop();
-});
+afterAll(async () => await session?.close());
 
 const layoutOf = (p: Page, layer: string) => p.evaluate((l) => window.subtherm!.map.getLayoutProperty(l, 'visibility') ?? 'visible', layer);
 const paintOf = (p: Page, layer: string, prop: string) =>
@@ -37,11 +29,7 @@ const paintOf = (p: Page, layer: string, prop: string) =>
 describe('the map client: layers', { timeout: 300_000 }, () => {
   it('draws the demo data layers and shows each legend with units, and the caution', async () => {
     console.log(`first map of the demo (goto → idle) in ${firstMapMs} ms at 1280 × 800, headless chromium with SwiftShader`);
-    const counts = await page.evaluate(() => {
-      const map = window.subtherm!.map;
-      const n = (layer: string) => map.queryRenderedFeatures({ layers: [layer] }).length;
-      return { sites: n('sites'), samples: n('samples'), faults: n('faults') };
-    });
+    const counts = await renderedCounts(page, ['sites', 'samples', 'faults']);
     expect(counts.sites).toBeGreaterThan(100);
     expect(counts.samples).toBeGreaterThan(100);
     expect(counts.faults).toBeGreaterThanOrEqual(6);
@@ -91,9 +79,7 @@ describe('the map client: layers', { timeout: 300_000 }, () => {
     expect(link).toContain('?s=');
     const ctx = await browser.newContext({ viewport: { width: 1280, height: 800 } });
     const fresh = await ctx.newPage();
-    await fresh.goto(link);
-    await waitForMapIdle(fresh);
-    await fresh.evaluate(() => window.subtherm!.ready);
+    await openMap(fresh, link);
     const view = await fresh.evaluate(() => {
       const m = window.subtherm!.map;
       return { lng: m.getCenter().lng, lat: m.getCenter().lat, zoom: m.getZoom() };

@@ -2,35 +2,30 @@
 // the server's validation report, a good one feeds a run whose progress bar moves and whose layers appear, the
 // column inspector shows the numbers POST /api/column gives, and a drawn line gives the section beneath it.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { mkdirSync, readFileSync } from 'node:fs';
+import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import type { Browser, Page } from 'playwright-core';
-import { launchBrowser, startServerProcess, waitForMapIdle, ROOT, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
+import type { Page } from 'playwright-core';
+import { startMapSession, type MapSession, waitForMapIdle, ROOT, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
 
 let server: RunningServer;
-let browser: Browser;
 let page: Page;
 const pageErrors: string[] = [];
 const tileRequests: string[] = [];
 
+let session: MapSession | undefined;
 beforeAll(async () => {
-  mkdirSync(SCREENSHOT_DIR, { recursive: true });
-  server = await startServerProcess();
-  browser = await launchBrowser();
-  page = await browser.newPage({ viewport: { width: 1280, height: 800 } });
-  page.on('pageerror', (e) => pageErrors.push(e.message));
-  page.on('request', (r) => {
-    if (r.url().includes('/tiles/')) tileRequests.push(r.url());
+  session = await startMapSession({
+    viewport: { width: 1280, height: 800 },
+    pageErrors,
+    watch: (p) =>
+      p.on('request', (r) => {
+        if (r.url().includes('/tiles/')) tileRequests.push(r.url());
+      }),
   });
-  await page.goto(server.url);
-  await waitForMapIdle(page);
-  await page.evaluate(() => window.subtherm!.ready);
+  ({ server, page } = session);
 }, 180_000);
 
-afterAll(async () => {
-  await browser?.close();
-  await server?.stop();
-});
+afterAll(async () => await session?.close());
 
 const shot = (name: string) => page.screenshot({ path: join(SCREENSHOT_DIR, `client-run-${name}.png`) });
 

@@ -2,38 +2,28 @@
 // read-only in a fresh browser context, its edit link opens it editable and saves a new revision; the title with
 // markup stays text; the map exports as a PNG with the legend and caution strip beneath.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { copyFileSync, mkdirSync, readFileSync } from 'node:fs';
+import { copyFileSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Browser, Page } from 'playwright-core';
-import { launchBrowser, startServerProcess, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
+import { openMap, startMapSession, type MapSession, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
 
 let server: RunningServer;
 let browser: Browser;
 let page: Page;
 const TITLE = 'Ridge <b>survey</b> <img src=x onerror="window.__pwned=1">';
 
+let session: MapSession | undefined;
 beforeAll(async () => {
-  mkdirSync(SCREENSHOT_DIR, { recursive: true });
-  server = await startServerProcess();
-  browser = await launchBrowser();
-  page = await browser.newPage({ viewport: { width: 1280, height: 800 }, acceptDownloads: true });
-  await page.goto(server.url);
-  await waitForMapIdle(page);
-  await page.evaluate(() => window.subtherm!.ready);
+  session = await startMapSession({ viewport: { width: 1280, height: 800 }, acceptDownloads: true });
+  ({ server, browser, page } = session);
 }, 180_000);
 
-afterAll(async () => {
-  await browser?.close();
-  await server?.stop();
-});
+afterAll(async () => await session?.close());
 
 async function open(link: string): Promise<{ page: Page; close: () => Promise<void> }> {
   const ctx = await browser.newContext({ viewport: { width: 1280, height: 800 } });
   const p = await ctx.newPage();
-  await p.goto(link);
-  await waitForMapIdle(p);
-  await p.evaluate(() => window.subtherm!.ready);
-  await waitForMapIdle(p);
+  await openMap(p, link, true);
   return { page: p, close: () => ctx.close() };
 }
 

@@ -5,10 +5,9 @@
 // A run's column draws the solidus curves of the run's own model, not the editor's (the plotted curve read back
 // through the plot's axes against the published solidus values), and a long layer name is readable in its box.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { mkdirSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Browser, Page } from 'playwright-core';
-import { launchBrowser, startServerProcess, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
+import { startMapSession, type MapSession, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
 import { hiddenOverflow } from '../helpers/layout.ts';
 
 let server: RunningServer;
@@ -16,22 +15,13 @@ let browser: Browser;
 let page: Page;
 const pageErrors: string[] = [];
 
+let session: MapSession | undefined;
 beforeAll(async () => {
-  mkdirSync(SCREENSHOT_DIR, { recursive: true });
-  server = await startServerProcess();
-  browser = await launchBrowser();
-  page = await browser.newPage({ viewport: { width: 1440, height: 900 } });
-  page.setDefaultTimeout(120_000);
-  page.on('pageerror', (e) => pageErrors.push(e.message));
-  await page.goto(server.url);
-  await waitForMapIdle(page);
-  await page.evaluate(() => window.subtherm!.ready);
+  session = await startMapSession({ viewport: { width: 1440, height: 900 }, pageErrors, timeoutMs: 120_000 });
+  ({ server, browser, page } = session);
 }, 180_000);
 
-afterAll(async () => {
-  await browser?.close();
-  await server?.stop();
-});
+afterAll(async () => await session?.close());
 
 describe('the column plot of a column that melts', { timeout: 300_000 }, () => {
   it('shows the melt onset with the invalid zone below, rock-aware solidus curves, the lithosphere base, and a readout that stops there', async () => {

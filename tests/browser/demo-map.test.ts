@@ -1,38 +1,26 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mkdirSync } from 'node:fs';
 import { join } from 'node:path';
-import type { Browser, Page } from 'playwright-core';
-import { launchBrowser, startServerProcess, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
+import type { Page } from 'playwright-core';
+import { openMap, renderedCounts, startMapSession, type MapSession, waitForMapIdle, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
 
 let server: RunningServer;
-let browser: Browser;
 let page: Page;
 const requests: string[] = [];
 
+let session: MapSession | undefined;
 beforeAll(async () => {
-  server = await startServerProcess();
-  browser = await launchBrowser();
-  page = await browser.newPage({ viewport: { width: 1280, height: 800 } });
-  page.on('request', (r) => requests.push(r.url()));
-  await page.goto(server.url);
-  await waitForMapIdle(page);
-  // The data sources are filled once the page has read its state: wait for that, then for the map again.
-  await page.evaluate(() => window.subtherm!.ready);
-  await waitForMapIdle(page);
+  // The data sources are filled once the page has read its state: openMap waits for that, then for the map again.
+  session = await startMapSession({ viewport: { width: 1280, height: 800 }, watch: (p) => p.on('request', (r) => requests.push(r.url())), open: false });
+  ({ server, page } = session);
+  await openMap(page, server.url, true);
 }, 180_000);
 
-afterAll(async () => {
-  await browser?.close();
-  await server?.stop();
-});
+afterAll(async () => await session?.close());
 
 describe('the demo map in a real browser', () => {
   it('draws sites, samples and faults as rendered features', async () => {
-    const counts = await page.evaluate(() => {
-      const map = window.subtherm!.map;
-      const n = (layer: string) => map.queryRenderedFeatures({ layers: [layer] }).length;
-      return { sites: n('sites'), samples: n('samples'), faults: n('faults') };
-    });
+    const counts = await renderedCounts(page, ['sites', 'samples', 'faults']);
     expect(counts.sites).toBeGreaterThan(100);
     expect(counts.samples).toBeGreaterThan(100);
     expect(counts.faults).toBeGreaterThanOrEqual(6);

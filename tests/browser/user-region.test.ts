@@ -13,7 +13,7 @@ import { join } from 'node:path';
 import proj4 from 'proj4';
 import { writeGeoTiff } from '../../server/io/geotiff.ts';
 import type { Browser, Page } from 'playwright-core';
-import { launchBrowser, startServerProcess, waitForMapIdle, ROOT, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
+import { openMap, startMapSession, type MapSession, waitForMapIdle, ROOT, SCREENSHOT_DIR, type RunningServer } from '../helpers/browser.ts';
 import { rampCoverage as coverage } from '../helpers/pixels.ts';
 
 let server: RunningServer;
@@ -59,24 +59,15 @@ const sitesCsv = () =>
     ...SITES.map((s) => [s.lon.toFixed(5), s.lat.toFixed(5), s.id, s.q, s.sd, s.quality].join(',')),
   ].join('\n');
 
+let session: MapSession | undefined;
 beforeAll(async () => {
-  mkdirSync(SCREENSHOT_DIR, { recursive: true });
   mkdirSync(TMP, { recursive: true });
-  server = await startServerProcess();
-  browser = await launchBrowser();
-  page = await browser.newPage({ viewport: VIEWPORT });
   // A loaded 2-core machine draws the map in software: every action may wait long for a frame.
-  page.setDefaultTimeout(120_000);
-  page.on('pageerror', (e) => pageErrors.push(e.message));
-  await page.goto(server.url);
-  await waitForMapIdle(page);
-  await page.evaluate(() => window.subtherm!.ready);
+  session = await startMapSession({ viewport: VIEWPORT, pageErrors, timeoutMs: 120_000 });
+  ({ server, browser, page } = session);
 }, 180_000);
 
-afterAll(async () => {
-  await browser?.close();
-  await server?.stop();
-});
+afterAll(async () => await session?.close());
 
 const shot = (p: Page, name: string) => p.screenshot({ path: join(SCREENSHOT_DIR, `user-region-${name}.png`) });
 
@@ -440,10 +431,7 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     const fresh = await ctx.newPage();
     fresh.setDefaultTimeout(120_000);
     try {
-      await fresh.goto(viewUrl);
-      await waitForMapIdle(fresh);
-      await fresh.evaluate(() => window.subtherm!.ready);
-      await waitForMapIdle(fresh);
+      await openMap(fresh, viewUrl, true);
       expect(await fresh.evaluate(() => window.subtherm!.readOnly)).toBe(true);
       expect(await fresh.locator('#readonly-badge').isVisible()).toBe(true);
       expect(await fresh.evaluate(() => window.subtherm!.run?.run.id)).toBe(runId);

@@ -100,3 +100,62 @@ export async function waitForMapIdle(page: Page, timeoutMs = 60_000): Promise<vo
     { timeout: timeoutMs, polling: 100 },
   );
 }
+
+/**
+ * Opens `url` in `page` and waits until the map is idle and the page has read its state (window.subtherm.ready);
+ * `settle`: then waits for the map again (the data sources are filled once the state is read).
+ */
+export async function openMap(page: Page, url: string, settle = false): Promise<void> {
+  await page.goto(url);
+  await waitForMapIdle(page);
+  await page.evaluate(() => window.subtherm!.ready);
+  if (settle) await waitForMapIdle(page);
+}
+
+export interface MapSession {
+  server: RunningServer;
+  browser: Browser;
+  page: Page;
+  /** Stops the browser and the server (either may be missing when the start failed). */
+  close(): Promise<void>;
+}
+
+/**
+ * A real server, a browser and one page of `viewport`, as a browser test's `beforeAll` starts them: `pageErrors`
+ * collects the page's uncaught errors, `timeoutMs` is every action's default timeout, `watch` sees the page before
+ * it loads (request listeners), and unless `open` is false the page opens the map (openMap).
+ */
+export async function startMapSession(o: {
+  viewport: { width: number; height: number };
+  pageErrors?: string[];
+  timeoutMs?: number;
+  acceptDownloads?: boolean;
+  watch?: (page: Page) => void;
+  open?: boolean;
+}): Promise<MapSession> {
+  mkdirSync(SCREENSHOT_DIR, { recursive: true });
+  const server = await startServerProcess();
+  const browser = await launchBrowser();
+  const page = await browser.newPage({ viewport: o.viewport, ...(o.acceptDownloads ? { acceptDownloads: true } : {}) });
+  if (o.timeoutMs !== undefined) page.setDefaultTimeout(o.timeoutMs);
+  if (o.pageErrors) page.on('pageerror', (e) => o.pageErrors!.push(e.message));
+  o.watch?.(page);
+  if (o.open !== false) await openMap(page, server.url);
+  return {
+    server,
+    browser,
+    page,
+    close: async () => {
+      await browser.close();
+      await server.stop();
+    },
+  };
+}
+
+/** How many features the page's map draws now in each of `layers` (MapLibre's queryRenderedFeatures, per layer). */
+export async function renderedCounts(page: Page, layers: string[]): Promise<Record<string, number>> {
+  return page.evaluate((ls) => {
+    const map = window.subtherm!.map;
+    return Object.fromEntries(ls.map((l) => [l, map.queryRenderedFeatures({ layers: [l] }).length]));
+  }, layers);
+}
