@@ -4,6 +4,7 @@
 // WGS84 from geographiclib (Karney 2013; docs/sources.md#geodesic), not the project's own code.
 import { writeFileSync } from 'node:fs';
 import geodesic from 'geographiclib-geodesic';
+import { expect } from 'vitest';
 import { createStream } from '../../shared/random/prng.ts';
 
 const G = geodesic.Geodesic.WGS84;
@@ -103,4 +104,21 @@ export function windowArgs(w: LinearWindow): string[] {
  */
 export function heatPerMeanFlowEJ(w: LinearWindow, areaM2: number): number {
   return (((w.rhoCMJ * 1e6 * ((w.bottomKm * 1e3) ** 2 - (w.topKm * 1e3) ** 2)) / (2 * w.kWmK)) * areaM2 * 1e-3) / 1e18;
+}
+
+/** z₀.₉ of the standard normal (Abramowitz & Stegun 1964, Table 26.5; docs/sources.md#normal-distribution). */
+export const Z90 = 1.281552;
+
+/**
+ * Checks R simulated totals `t` against a normal N(mean, sd²) within 4 standard errors: the mean (σ/√R), the median
+ * (1.253·σ/√R) and P10/P90 (1.709·σ/√R), a quantile's σ·√(p(1 − p)/R)/φ(z_p) (Stuart & Ord 1994, §10.10), and the
+ * sample sd (σ/√(2(R − 1)) for Gaussian samples).
+ */
+export function expectNormalTotals(t: { mean: number; p10: number; p50: number; p90: number; sd: number }, mean: number, sd: number, R: number): void {
+  const se = (f: number) => (4 * f * sd) / Math.sqrt(R);
+  expect(Math.abs(t.mean - mean)).toBeLessThan(se(1));
+  expect(Math.abs(t.p50 - mean)).toBeLessThan(se(1.253));
+  expect(Math.abs(t.p10 - (mean - Z90 * sd))).toBeLessThan(se(1.709));
+  expect(Math.abs(t.p90 - (mean + Z90 * sd))).toBeLessThan(se(1.709));
+  expect(Math.abs(t.sd - sd)).toBeLessThan((4 * sd) / Math.sqrt(2 * (R - 1)));
 }
