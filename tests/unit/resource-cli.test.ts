@@ -76,29 +76,14 @@ function run(args: string[]) {
   return { code: r.status, out: r.stdout, err: r.stderr };
 }
 
+/** The heat-flow grid, its sd, the model and the polygon, with 40 realizations and seed 5 (the job's options below). */
+const POLYGON_ARGS = ['--heat-flow', hfPath, '--heat-flow-sd', sdPath, '--model', modelPath, '--polygon', polyPath, '--realizations', '40', '--seed', '5'];
+
 describe('subtherm heat-in-place', () => {
   it('prints the report JSON and writes CSV and HTML', () => {
     const csv = join(dir, 'r.csv'),
       html = join(dir, 'r.html');
-    const r = run([
-      '--heat-flow',
-      hfPath,
-      '--heat-flow-sd',
-      sdPath,
-      '--model',
-      modelPath,
-      '--polygon',
-      polyPath,
-      '--realizations',
-      '40',
-      '--seed',
-      '5',
-      '--out-csv',
-      csv,
-      '--out-html',
-      html,
-      '--json',
-    ]);
+    const r = run([...POLYGON_ARGS, '--out-csv', csv, '--out-html', html, '--json']);
     expect(r.err).toBe('');
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
@@ -213,21 +198,7 @@ describe('heat-in-place job routes', () => {
     expect(done.status).toBe(200);
     const report = (await done.json()) as Record<string, unknown>;
     // Reference: the CLI (`subtherm heat-in-place --json`) on the same grids, model, polygon and seed.
-    const cli = run([
-      '--heat-flow',
-      hfPath,
-      '--heat-flow-sd',
-      sdPath,
-      '--model',
-      modelPath,
-      '--polygon',
-      polyPath,
-      '--realizations',
-      '40',
-      '--seed',
-      '5',
-      '--json',
-    ]);
+    const cli = run([...POLYGON_ARGS, '--json']);
     expect(cli.code).toBe(0);
     const ref = JSON.parse(cli.out) as Record<string, unknown>;
     for (const k of ['cells', 'areaKm2', 'heatInPlaceJ', 'electricMWe', 'monteCarlo', 'method']) expect(report[k]).toEqual(ref[k]);
