@@ -203,7 +203,7 @@ export class ProjectDataTable {
     }
   }
 
-  private row(d: ProjectDataset): HTMLElement {
+  private row(d: ProjectDataset): HTMLElement[] {
     const editable = this.ctx.editToken !== null && this.projectId === this.ctx.projectId;
     const used = Object.values(this.ctx.state.params).includes(d.id);
     const btn = (label: string, fn: () => void, cls = '') => {
@@ -211,7 +211,7 @@ export class ProjectDataTable {
       b.addEventListener('click', fn);
       return b;
     };
-    const actions = el('td', { class: 'actions' });
+    const actions = el('div', { class: 'actions' });
     if (USABLE_KINDS.includes(d.kind) && !this.ctx.readOnly) actions.append(btn(used ? 'in use' : 'use', () => this.onUse(d)));
     if (d.bbox) actions.append(btn('zoom to', () => fitBbox(this.ctx.map, d.bbox!)));
     if (editable) {
@@ -228,28 +228,30 @@ export class ProjectDataTable {
       );
     }
     actions.append(el('a', { href: d.url, download: '', class: 'dl' }, 'download'));
-    return el(
-      'tr',
+    return withActions(
       { 'data-dataset': d.id, 'data-kind': d.kind },
-      el('td', {}, KIND_LABELS[d.kind] ?? d.kind),
-      el(
-        'td',
-        { class: 'name', title: `data set ${d.id}` },
-        d.name,
-        used ? el('span', { class: 'muted' }, d.kind === 'model' ? ' (in the Model tab)' : ' (in the run)') : null,
-      ),
-      el('td', { class: 'num' }, String(d.featureCount)),
-      el('td', { class: 'bbox' }, bboxText(d.bbox)),
-      el('td', {}, new Date(d.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')),
+      [
+        el('td', {}, KIND_LABELS[d.kind] ?? d.kind),
+        el(
+          'td',
+          { class: 'name', title: `data set ${d.id}` },
+          d.name,
+          used ? el('span', { class: 'muted' }, d.kind === 'model' ? ' (in the Model tab)' : ' (in the run)') : null,
+        ),
+        el('td', { class: 'num' }, String(d.featureCount)),
+        el('td', { class: 'bbox' }, bboxText(d.bbox)),
+        el('td', {}, new Date(d.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')),
+      ],
       actions,
+      d.id,
     );
   }
 
   /** The terrain's row: extent, source CRS, zoom to, and remove (with the edit token). */
-  private terrainRow(t: ProjectTerrain): HTMLElement {
+  private terrainRow(t: ProjectTerrain): HTMLElement[] {
     const zoom = el('button', { type: 'button', class: 'small', 'data-action': 'zoom to' }, 'zoom to');
     zoom.addEventListener('click', () => fitBbox(this.ctx.map, t.bbox));
-    const actions = el('td', { class: 'actions' }, zoom);
+    const actions = el('div', { class: 'actions' }, zoom);
     if (this.ctx.editToken !== null && this.projectId === this.ctx.projectId) {
       const remove = el('button', { type: 'button', class: 'small', 'data-action': 'remove', id: 'terrain-remove' }, 'remove');
       const url = `/api/projects/${encodeURIComponent(this.projectId)}/terrain`;
@@ -258,15 +260,17 @@ export class ProjectDataTable {
       });
       actions.append(remove);
     }
-    return el(
-      'tr',
+    return withActions(
       { 'data-kind': 'terrain' },
-      el('td', {}, 'terrain'),
-      el('td', { class: 'name' }, t.name, el('span', { class: 'muted' }, ` (${t.width} × ${t.height} cells, from ${t.sourceCrs})`)),
-      el('td', { class: 'num' }, '—'),
-      el('td', { class: 'bbox' }, bboxText(t.bbox)),
-      el('td', {}, new Date(t.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')),
+      [
+        el('td', {}, 'terrain'),
+        el('td', { class: 'name' }, t.name, el('span', { class: 'muted' }, ` (${t.width} × ${t.height} cells, from ${t.sourceCrs})`)),
+        el('td', { class: 'num' }, '—'),
+        el('td', { class: 'bbox' }, bboxText(t.bbox)),
+        el('td', {}, new Date(t.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')),
+      ],
       actions,
+      'terrain',
     );
   }
 
@@ -275,7 +279,7 @@ export class ProjectDataTable {
       replace(this.root, el('p', { class: 'empty' }, 'This project holds no data sets yet: upload heat-flow sites below to begin.'));
       return;
     }
-    const head = el('tr', {}, ...['Kind', 'Name', 'Features', 'Extent', 'Uploaded (UTC)', ''].map((h) => el('th', { scope: 'col' }, h)));
+    const head = el('tr', {}, ...['Kind', 'Name', 'Features', 'Extent', 'Uploaded (UTC)'].map((h) => el('th', { scope: 'col' }, h)));
     replace(
       this.root,
       el(
@@ -285,11 +289,19 @@ export class ProjectDataTable {
           'table',
           { class: 'report datasets' },
           el('thead', {}, head),
-          el('tbody', {}, ...this.list.map((d) => this.row(d)), this.terrain ? this.terrainRow(this.terrain) : null),
+          el('tbody', {}, ...this.list.flatMap((d) => this.row(d)), ...(this.terrain ? this.terrainRow(this.terrain) : [])),
         ),
       ),
     );
   }
+}
+
+/**
+ * A data set's two rows: its description (`cells`, with `attrs`), then its actions across the table's width, so the
+ * buttons never sit past the panel's edge (`key` names the data set the actions row belongs to).
+ */
+function withActions(attrs: Record<string, string>, cells: HTMLElement[], actions: HTMLElement, key: string): HTMLElement[] {
+  return [el('tr', attrs, ...cells), el('tr', { class: 'actions-row', 'data-actions-for': key }, el('td', { colspan: String(cells.length) }, actions))];
 }
 
 /** The "New project" control: a title and a button. */
