@@ -317,6 +317,7 @@ export function openApiDocument(): unknown {
           query: {
             kind: 'sites | samples | faults | wells | regions | model | grid',
             name: "the data set's name in the project (default: the model's own name, the GeoPackage or Shapefile layer, or the kind)",
+            replace: 'id of a data set of the project (same kind) this upload replaces: it takes its name and the old one is detached',
             ...UPLOAD_QUERY,
           },
           contents: UPLOAD_CONTENT,

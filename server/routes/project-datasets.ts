@@ -4,6 +4,8 @@
  * Uploads are de-duplicated by content (kind + SHA-256 of the validated body): the same content uploaded twice is
  * one stored data set. A project holds at most `maxProjectStorageBytes` (413 naming the limit). Detaching a data
  * set removes it from the project's list; its content stays while any project, run or saved revision names it.
+ * An upload with `replace=<dsId>` takes the place of that data set (same kind): it gets its name, and the old one is
+ * detached.
  */
 import type { Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
@@ -98,6 +100,14 @@ export async function addToProject(
   return { dataset: await ctx.store.attachDataset(projectId, rec.id, finalName), status: found ? 'attached' : 'created' };
 }
 
+/** Detaches `old` (its content kept while anything names it) and gives its name to the data set `newId` replacing it. */
+async function replaceDataset(ctx: AppContext, projectId: string, old: ProjectDatasetRecord, newId: string, name: string): Promise<ProjectDatasetRecord> {
+  await ctx.store.detachProjectDataset(projectId, old.id);
+  await ctx.store.pruneDataset(old.id);
+  await ctx.store.renameProjectDataset(projectId, newId, freeName(await ctx.store.listProjectDatasets(projectId), name, newId));
+  return (await ctx.store.getProjectDataset(projectId, newId))!;
+}
+
 /** A project's terrain as the API describes it: a MapLibre raster-dem source plus where it came from. */
 function terrainView(
   projectId: string,
@@ -149,9 +159,22 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     const id = await projectIdOf(c, ctx);
     await requireEditToken(c, ctx, id);
     const q = parseWith(projectDatasetQuerySchema, singleQuery(c), 'query', 'bad_query');
+    const old = q.replace !== undefined ? await heldDataset(ctx, id, q.replace, 'replace') : null;
+    if (old && old.kind !== q.kind)
+      throw new InputError(
+        `data set ${old.id} holds ${old.kind}: its replacement must be ${old.kind} too, got kind=${q.kind}`,
+        [{ field: 'kind', problem: `expected ${old.kind} to replace ${old.id}` }],
+        'wrong_dataset_kind',
+      );
+    // The upload is validated before anything of the project changes.
     const up = await parseUpload(c, ctx, q.kind);
-    const { dataset, status } = await addToProject(ctx, id, up, q.name);
-    return c.json({ ...datasetView(id, dataset), deduplicated: status !== 'created', warnings: up.warnings }, status === 'existing' ? 200 : 201);
+    const { dataset, status } = await addToProject(ctx, id, up, old ? undefined : q.name);
+    const replaced = old && dataset.id !== old.id ? await replaceDataset(ctx, id, old, dataset.id, q.name ?? old.name) : null;
+    const view = datasetView(id, replaced ?? dataset);
+    return c.json(
+      { ...view, deduplicated: status !== 'created', ...(old ? { replaced: old.id } : {}), warnings: up.warnings },
+      status === 'existing' ? 200 : 201,
+    );
   });
 
   app.get('/api/projects/:id/datasets/:dsId', async (c) => {

@@ -108,6 +108,8 @@ export const projectDatasetQuerySchema = z.object({
     error: 'kind must be one of sites, samples, faults, wells, regions, model, grid',
   }),
   name: datasetNameSchema.optional(),
+  /** A data set of the project (same kind) that the upload replaces: it takes that one's name, and that one is detached. */
+  replace: z.string().min(1).max(200).optional(),
 });
 
 /** PATCH /api/projects/:id/datasets/:dsId body. */

@@ -1,0 +1,71 @@
+// Replacing a project's data set: an upload with replace=<dsId> takes that data set's place and name, the old one
+// is detached (its content kept while a run names it); a replacement of another kind, or one that fails validation,
+// changes nothing.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { startTestApp, type TestApp } from '../helpers/app.ts';
+
+let t: TestApp;
+let pid: string;
+let token: string;
+
+// Invented heat-flow sites in open ocean (about 12° S, 95° W), far from the demo.
+const csv = (q: number) =>
+  ['longitude,latitude,id,heatFlowMWm2', `-95.2,-12.1,b1,${q}`, '-95.0,-12.3,b2,71', '-94.8,-12.0,b3,66', '-95.1,-11.8,b4,58'].join('\n');
+
+const auth = () => ({ authorization: `Bearer ${token}` });
+const upload = (kind: string, body: string, query: string) =>
+  t.app.request(`/api/projects/${pid}/datasets?kind=${kind}${query}`, { method: 'POST', headers: { 'content-type': 'text/csv', ...auth() }, body });
+const list = async () =>
+  ((await (await t.app.request(`/api/projects/${pid}/datasets`)).json()) as { datasets: { id: string; kind: string; name: string; featureCount: number }[] })
+    .datasets;
+
+beforeAll(async () => {
+  t = await startTestApp('replace');
+  const res = await t.post('/api/projects', { title: 'Tessaly Deep survey' });
+  ({ id: pid, editToken: token } = (await res.json()) as { id: string; editToken: string });
+});
+afterAll(() => t.close());
+
+describe('POST /api/projects/:id/datasets?replace=<dsId>', () => {
+  it('puts the upload in place of the data set, under its name, and detaches the old one', async () => {
+    const first = (await (await upload('sites', csv(62), '&name=Leg%201%20sites')).json()) as { id: string };
+    // A run names the first version: its content stays stored after the replacement.
+    const run = await t.app.request(`/api/projects/${pid}/runs`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json', ...auth() },
+      body: JSON.stringify({
+        sites: first.id,
+        model: { surfaceTemperatureC: 10, layers: [{ name: 'crust', bottomKm: 35, conductivityWmK: 2.5, heatProductionUWm3: 1, densityKgM3: 2800 }] },
+        interpolation: { method: 'idw' },
+        grid: { cellKm: 10 },
+      }),
+    });
+    expect(run.status).toBe(202);
+    await t.waitEnd(((await run.json()) as { id: string }).id);
+    const res = await upload('sites', csv(64), `&replace=${first.id}`);
+    expect(res.status).toBe(201);
+    const d = (await res.json()) as { id: string; name: string; replaced: string; featureCount: number };
+    expect(d.id).not.toBe(first.id);
+    expect(d).toMatchObject({ name: 'Leg 1 sites', replaced: first.id, featureCount: 4 });
+    expect((await list()).map((x) => [x.id, x.name])).toEqual([[d.id, 'Leg 1 sites']]);
+    expect((await t.app.request(`/api/projects/${pid}/datasets/${first.id}`)).status).toBe(404);
+    // The run's copy stays: the content is still stored under its id.
+    expect((await t.app.request(`/api/datasets/${first.id}`)).status).toBe(200);
+  });
+
+  it('refuses a replacement of another kind, or one that fails validation, and changes nothing', async () => {
+    const before = await list();
+    const [d] = before;
+    const wrongKind = await upload('samples', csv(65), `&replace=${d.id}`);
+    expect(wrongKind.status).toBe(422);
+    const e = ((await wrongKind.json()) as { error: { code: string; details: { field: string; problem: string }[] } }).error;
+    expect(e.code).toBe('wrong_dataset_kind');
+    expect(e.details).toEqual([{ field: 'kind', problem: `expected sites to replace ${d.id}` }]);
+    const bad = await upload('sites', csv(65).replace('-12.1', 'south'), `&replace=${d.id}`);
+    expect(bad.status).toBe(422);
+    const unknown = await upload('sites', csv(66), '&replace=ds_nothing_here');
+    expect(unknown.status).toBe(404);
+    expect(((await unknown.json()) as { error: { details: { field: string }[] } }).error.details[0].field).toBe('replace');
+    expect(await list()).toEqual(before);
+  });
+});
