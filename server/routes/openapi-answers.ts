@@ -78,3 +78,10 @@ export const sectionAnswerSchema = {
     caution: { type: 'string' },
   },
 };
+
+/** The query of an upload into a project (POST /api/projects/:id/datasets, server/routes/project-datasets.ts), besides the upload's own. */
+export const PROJECT_UPLOAD_QUERY = {
+  kind: 'sites | samples | faults | wells | regions | model | grid',
+  name: "the data set's name in the project (default: the model's own name, the GeoPackage or Shapefile layer, or the kind)",
+  replace: 'id of a data set of the project (same kind) this upload replaces: it takes its name and the old one is detached',
+};

@@ -8,7 +8,7 @@ import { VERSION } from '../../shared/version.ts';
 import { VECTOR_MEDIA_TYPES } from '../io/vector-input.ts';
 import { columnAnswerSchema } from '../../shared/schema/column.ts';
 import { heatFlowCorrectionRequestSchema } from '../../shared/heatflow/dataset-corrections.ts';
-import { CLIENT_ERROR_STATUSES, RUN_LAYER_TEXT, clientErrorResponses, clientErrorText, sectionAnswerSchema } from './openapi-answers.ts';
+import { CLIENT_ERROR_STATUSES, RUN_LAYER_TEXT, clientErrorResponses, clientErrorText, sectionAnswerSchema, PROJECT_UPLOAD_QUERY } from './openapi-answers.ts';
 import { columnAtRunSchema, columnOfModelSchema, datasetPatchSchema, projectCreateSchema, projectUpdateSchema, sectionSchema } from './schemas.ts';
 
 const json = (schema: z.ZodType) => z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any', target: 'draft-2020-12' });
@@ -314,12 +314,7 @@ export function openApiDocument(): unknown {
         ),
         post: op('upload a data set into the project (edit token); 201 new, 200 when the project already holds the same content (deduplicated: true)', {
           params: ['id'],
-          query: {
-            kind: 'sites | samples | faults | wells | regions | model | grid',
-            name: "the data set's name in the project (default: the model's own name, the GeoPackage or Shapefile layer, or the kind)",
-            replace: 'id of a data set of the project (same kind) this upload replaces: it takes its name and the old one is detached',
-            ...UPLOAD_QUERY,
-          },
+          query: { ...PROJECT_UPLOAD_QUERY, ...UPLOAD_QUERY },
           contents: UPLOAD_CONTENT,
           ok: '201',
           auth: true,

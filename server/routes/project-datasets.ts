@@ -7,7 +7,7 @@
  * An upload with `replace=<dsId>` takes the place of that data set (same kind): it gets its name, and the old one is
  * detached.
  */
-import type { Hono } from 'hono';
+import type { Context, Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import type { ProjectDatasetRecord } from '../store/types.ts';
@@ -100,6 +100,29 @@ export async function addToProject(
   return { dataset: await ctx.store.attachDataset(projectId, rec.id, finalName), status: found ? 'attached' : 'created' };
 }
 
+/** POST /api/projects/:id/datasets: an upload into the project, or with `replace` in place of one of its data sets. */
+async function uploadIntoProject(c: Context, ctx: AppContext): Promise<Response> {
+  const id = await projectIdOf(c, ctx);
+  await requireEditToken(c, ctx, id);
+  const q = parseWith(projectDatasetQuerySchema, singleQuery(c), 'query', 'bad_query');
+  const old = q.replace !== undefined ? await heldDataset(ctx, id, q.replace, 'replace') : null;
+  if (old && old.kind !== q.kind)
+    throw new InputError(
+      `data set ${old.id} holds ${old.kind}: its replacement must be ${old.kind} too, got kind=${q.kind}`,
+      [{ field: 'kind', problem: `expected ${old.kind} to replace ${old.id}` }],
+      'wrong_dataset_kind',
+    );
+  // The upload is validated before anything of the project changes.
+  const up = await parseUpload(c, ctx, q.kind);
+  const { dataset, status } = await addToProject(ctx, id, up, old ? undefined : q.name);
+  const replaced = old && dataset.id !== old.id ? await replaceDataset(ctx, id, old, dataset.id, q.name ?? old.name) : null;
+  const view = datasetView(id, replaced ?? dataset);
+  return c.json(
+    { ...view, deduplicated: status !== 'created', ...(old ? { replaced: old.id } : {}), warnings: up.warnings },
+    status === 'existing' ? 200 : 201,
+  );
+}
+
 /** Detaches `old` (its content kept while anything names it) and gives its name to the data set `newId` replacing it. */
 async function replaceDataset(ctx: AppContext, projectId: string, old: ProjectDatasetRecord, newId: string, name: string): Promise<ProjectDatasetRecord> {
   await ctx.store.detachProjectDataset(projectId, old.id);
@@ -155,27 +178,7 @@ export function projectDatasetRoutes(app: Hono, ctx: AppContext): void {
     );
   });
 
-  app.post('/api/projects/:id/datasets', async (c) => {
-    const id = await projectIdOf(c, ctx);
-    await requireEditToken(c, ctx, id);
-    const q = parseWith(projectDatasetQuerySchema, singleQuery(c), 'query', 'bad_query');
-    const old = q.replace !== undefined ? await heldDataset(ctx, id, q.replace, 'replace') : null;
-    if (old && old.kind !== q.kind)
-      throw new InputError(
-        `data set ${old.id} holds ${old.kind}: its replacement must be ${old.kind} too, got kind=${q.kind}`,
-        [{ field: 'kind', problem: `expected ${old.kind} to replace ${old.id}` }],
-        'wrong_dataset_kind',
-      );
-    // The upload is validated before anything of the project changes.
-    const up = await parseUpload(c, ctx, q.kind);
-    const { dataset, status } = await addToProject(ctx, id, up, old ? undefined : q.name);
-    const replaced = old && dataset.id !== old.id ? await replaceDataset(ctx, id, old, dataset.id, q.name ?? old.name) : null;
-    const view = datasetView(id, replaced ?? dataset);
-    return c.json(
-      { ...view, deduplicated: status !== 'created', ...(old ? { replaced: old.id } : {}), warnings: up.warnings },
-      status === 'existing' ? 200 : 201,
-    );
-  });
+  app.post('/api/projects/:id/datasets', (c) => uploadIntoProject(c, ctx));
 
   app.get('/api/projects/:id/datasets/:dsId', async (c) => {
     const id = await projectIdOf(c, ctx);
