@@ -225,12 +225,18 @@ function dropZone(input: HTMLInputElement, onFile: (f: File) => void): HTMLEleme
   return drop;
 }
 
+/** "sites.csv: 6 sites accepted as “Survey sites”." (a model: its layers; the id only when there is no name). */
+function acceptedText(d: DatasetCreated & { name?: string }, fileName: string): string {
+  const what = d.kind === 'model' ? `a thermal model of ${d.featureCount} layers` : `${d.featureCount} ${d.kind}`;
+  return `${fileName}: ${what} accepted as ${d.name ? `“${d.name}”` : `data set ${d.id}`}.`;
+}
+
 /** The upload report of an accepted file: what was accepted, and its warnings as a table. */
 function showAccepted(report: HTMLElement, d: DatasetCreated & { message?: string }, fileName: string): void {
   const warnings = d.warnings ?? [];
   replace(
     report,
-    el('div', { class: 'ok', role: 'status' }, d.message ?? `${fileName}: ${d.featureCount} ${d.kind} accepted as data set ${d.id}.`),
+    el('div', { class: 'ok', role: 'status', title: `data set ${d.id}` }, d.message ?? acceptedText(d, fileName)),
     warnings.length > 0 ? el('p', { class: 'note' }, `${warnings.length} warning${warnings.length === 1 ? '' : 's'}:`) : null,
     warnings.length > 0 ? problemTable(warnings.map((w) => (typeof w === 'string' ? { problem: w } : w))) : null,
   );

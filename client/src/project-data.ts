@@ -41,10 +41,13 @@ export async function uploadToProject(
   kind: string,
   file: Blob & { name: string },
   opts: UploadOptions = {},
+  replace?: string,
 ): Promise<ProjectDataset & { warnings: (string | Problem)[] }> {
-  // A model is named by its own `name` (the server offers it); other kinds by the file's name.
-  const name = kind === 'model' ? undefined : file.name.replace(/\.[A-Za-z0-9]+$/, '').slice(0, 120) || file.name;
-  const query = uploadQuery({ kind, ...(name === undefined ? {} : { name }), filename: file.name.slice(0, 200) }, opts);
+  // A model is named by its own `name` (the server offers it), a replacement keeps the replaced one's name; other
+  // kinds are named by the file's name.
+  const name = kind === 'model' || replace !== undefined ? undefined : file.name.replace(/\.[A-Za-z0-9]+$/, '').slice(0, 120) || file.name;
+  const base = { kind, ...(name === undefined ? {} : { name }), ...(replace === undefined ? {} : { replace }), filename: file.name.slice(0, 200) };
+  const query = uploadQuery(base, opts);
   const res = await fetch(`/api/projects/${encodeURIComponent(ctx.projectId!)}/datasets?${query}`, {
     method: 'POST',
     headers: { accept: 'application/json', 'content-type': uploadMediaType(file.name, kind), ...auth(ctx) },
@@ -221,6 +224,7 @@ export class ProjectDataTable {
           if (name !== null && name.trim() !== '' && name !== d.name) void this.change('PATCH', d, { name: name.trim() });
         }),
       );
+      actions.append(this.replaceButton(d, used));
       actions.append(
         btn('remove', () => {
           if (window.confirm(`Remove "${d.name}" from this project? Runs that used it keep their copy.`)) void this.change('DELETE', d);
@@ -245,6 +249,30 @@ export class ProjectDataTable {
       actions,
       d.id,
     );
+  }
+
+  /**
+   * "replace": a file of the same kind takes the data set's place and name (the server detaches the old one); when
+   * the old one was in use, the new one is used instead. A CSV is read as lon/lat here (other CRSs: "Add data").
+   */
+  private replaceButton(d: ProjectDataset, used: boolean): HTMLElement {
+    const input = el('input', { type: 'file', hidden: '', accept: '.geojson,.json,.csv,.txt,.gpkg,.zip,.tif,.tiff' });
+    const b = el('button', { type: 'button', class: 'small', 'data-action': 'replace', title: `replace "${d.name}" with a file of the same kind` }, 'replace');
+    b.addEventListener('click', () => input.click());
+    input.addEventListener('change', () => {
+      const file = input.files?.[0];
+      input.value = '';
+      if (!file) return;
+      uploadToProject(this.ctx, d.kind, file, {}, d.id)
+        .then(async (nd) => {
+          if (used && nd.id !== d.id) this.onUse(nd);
+          await this.refresh();
+        })
+        .catch((e: unknown) =>
+          this.root.prepend(e instanceof ApiError ? errorBox(`${d.name}: ${e.message}`, e.details) : errorBox(`${d.name}: ${message(e)}`)),
+        );
+    });
+    return el('span', {}, b, input);
   }
 
   /** The terrain's row: extent, source CRS, zoom to, and remove (with the edit token). */

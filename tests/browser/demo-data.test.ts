@@ -237,6 +237,7 @@ describe("the page's own data", { timeout: 900_000 }, () => {
     writeFileSync(file, JSON.stringify(model));
     await page.locator('#upload-kind').selectOption('model');
     await page.locator('#upload-file').setInputFiles(file);
+    expect(await page.locator('#upload-report .ok').textContent()).toBe('trial-model.json: a thermal model of 4 layers accepted as “Pellmar trial crust”.');
     const row = page.locator('#project-datasets tr[data-kind="model"]');
     await expect.poll(() => row.count(), { timeout: 120_000 }).toBe(1);
     expect(await row.locator('td.name').textContent()).toContain('Pellmar trial crust');
@@ -268,6 +269,29 @@ describe("the page's own data", { timeout: 900_000 }, () => {
     expect(stored.request.model.layers[0].conductivityWmK).toBe(2.71);
     expect(stored.request.sites).not.toBe('demo-sites');
     expect(modelId).not.toBe('demo-model');
+    expect(pageErrors).toEqual([]);
+  });
+  it('replaces a data set from its row: same name, the new content, and the run uses it', async () => {
+    await page.locator('#tab-data').click();
+    const sitesRow = page.locator('#project-datasets tr[data-kind="sites"]');
+    const oldId = (await sitesRow.getAttribute('data-dataset'))!;
+    const fc = JSON.parse(readFileSync(join(ROOT, 'fixtures', 'demo', 'sites.geojson'), 'utf8')) as { features: unknown[] };
+    fc.features = fc.features.slice(0, 200);
+    const file = join(ROOT, '.tmp', 'sites-first-200.geojson');
+    writeFileSync(file, JSON.stringify(fc));
+    const chooser = page.waitForEvent('filechooser');
+    await page.locator(`#project-datasets tr[data-actions-for="${oldId}"] button[data-action="replace"]`).click();
+    await (await chooser).setFiles(file);
+    await expect.poll(() => sitesRow.getAttribute('data-dataset'), { timeout: 120_000 }).not.toBe(oldId);
+    const newId = (await sitesRow.getAttribute('data-dataset'))!;
+    expect(await page.locator('#project-datasets tr[data-kind="sites"]').count()).toBe(1);
+    expect(await sitesRow.locator('td.name').textContent()).toContain('sites');
+    expect(await sitesRow.locator('td.num').textContent()).toBe('200');
+    expect(await sitesRow.locator('td.name').textContent()).toContain('(in the run)');
+    await page.locator('#tab-run').click();
+    expect(await page.locator(`#run-data-line [data-dataset="${newId}"]`).count()).toBe(1);
+    await page.locator('#tab-data').click();
+    await shot('project-replaced');
     expect(pageErrors).toEqual([]);
   });
 });
