@@ -226,9 +226,11 @@ async function readBand(image: Image, band: number, window: [number, number, num
   const nodata = image.getGDALNoData();
   // A Float32 band is converted where geotiff.js decoded it (no second grid-sized array).
   const values = raw instanceof Float32Array ? raw : new Float32Array(raw.length);
+  // NoData is compared in the band's own type, as GDAL does: a Float32 band holds fround(nodata), never "-3.4e38".
+  const nd = nodata === null ? NaN : raw instanceof Float32Array ? Math.fround(nodata) : nodata;
   for (let i = 0; i < values.length; i++) {
     const v = raw[i];
-    values[i] = (nodata !== null && v === nodata) || !Number.isFinite(v) ? NaN : v;
+    values[i] = v === nd || !Number.isFinite(v) ? NaN : v;
   }
   return values;
 }

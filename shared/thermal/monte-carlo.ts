@@ -349,10 +349,11 @@ export function monteCarloGridRange(prep: PreparedGridMonteCarlo, start: number,
         }
         const st = states[zi];
         solveColumn(cm, q0, t0s === undefined ? cm.surfaceTemperatureC : t0s[c], st, needT, needZ);
-        if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED)) invalid[c - b0]++;
-        else if (flowExhaustedAbove(st, zMax)) exhausted[c - b0]++;
         // The melt and mantle limits where they can act (limits.ts), as in the column Monte Carlo.
         const lim = limitsWhereReached(cm, st, Math.max(zMax, needZ), dryRow[zi]!);
+        if (st.status & (COLUMN_BAD_INPUT | COLUMN_CONDUCTIVITY_UNDEFINED)) invalid[c - b0]++;
+        // Counted as exhausted only where the run-out, not a melt onset above it, ends the column (else left out).
+        else if (flowExhaustedAbove(st, zMax) && (lim === null || lim.endReason === 'heat-flow-exhausted')) exhausted[c - b0]++;
         if (lim !== null && lim.endReason === 'melt-onset') melted[c - b0]++;
         for (let k = 0; k < nIso; k++) bufs[k][j] = isothermAnswer(cm, st, lim, isos[k], zMax);
         for (let k = 0; k < nDep; k++) bufs[nIso + k][j] = temperatureAnswer(cm, st, lim, deps[k]);

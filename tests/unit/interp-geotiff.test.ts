@@ -1,6 +1,6 @@
 import { describe, it, expect } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, writeFileSync, rmSync } from 'node:fs';
+import { mkdtempSync, readFileSync, writeFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import { writeGeoTiff, readGeoTiff } from '../../server/io/geotiff.ts';
@@ -64,6 +64,32 @@ describe('GeoTIFF codec', () => {
       const info2 = JSON.parse(spawnSync('gdalinfo', ['-json', f2], { encoding: 'utf8' }).stdout);
       expect(info2.coordinateSystem.wkt).toContain('ID["EPSG",32709]');
       expect(info2.geoTransform[0]).toBe(500000);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
+  });
+
+  it('a Float32 band whose GDAL NoData is not a Float32 number (-3.4e38) reads NoData cells as missing, as GDAL does', async () => {
+    // GDAL compares NoData after converting it to the band's type (common practice: GDAL raster data model, "NoData").
+    requireGdal('gdal_translate', 'gdalinfo'); // gdal_edit.py ships with them (gdal-bin)
+    const dir = mkdtempSync(join(tmpdir(), 'subtherm-nodata-'));
+    try {
+      const asc = join(dir, 'g.asc');
+      writeFileSync(asc, 'ncols 3\nnrows 2\nxllcorner 10\nyllcorner -40\ncellsize 0.5\nNODATA_value -3.4e38\n1.5 -3.4e38 2.5\n-3.4e38 4 5\n');
+      const tif = join(dir, 'g.tif');
+      const t = spawnSync('gdal_translate', ['-q', '-ot', 'Float32', '-a_srs', 'EPSG:4326', asc, tif], { encoding: 'utf8' });
+      expect(t.status, t.stderr).toBe(0);
+      // gdal_translate writes the Float32-rounded NoData; gdal_edit.py writes the double -3.4e38 as other tools do.
+      const e = spawnSync('gdal_edit.py', ['-a_nodata', '-3.4e38', tif], { encoding: 'utf8' });
+      expect(e.status, e.stderr).toBe(0);
+      // GDAL's own reading: the two NoData cells are left out of its statistics (4 of 6 valid, minimum 1.5).
+      const info = spawnSync('gdalinfo', ['-json', '-stats', tif], { encoding: 'utf8' });
+      const band = JSON.parse(info.stdout).bands[0] as { noDataValue: number; minimum: number; metadata: { ''?: Record<string, string> } };
+      expect(band.noDataValue).toBe(-3.4e38);
+      expect(band.minimum).toBe(1.5);
+      expect(Number(band.metadata['']?.STATISTICS_VALID_PERCENT)).toBeCloseTo(66.67, 2);
+      const r = await readGeoTiff(readFileSync(tif));
+      expect(Array.from(r.grid.values).map((v) => (Number.isNaN(v) ? null : v))).toEqual([1.5, null, 2.5, null, 4, 5]);
     } finally {
       rmSync(dir, { recursive: true, force: true });
     }
