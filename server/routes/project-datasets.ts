@@ -59,8 +59,9 @@ export function datasetView(projectId: string, d: ProjectDatasetRecord) {
 }
 
 /** 413 when adding `bytes` would take the project over its storage quota. */
-export async function checkQuota(ctx: AppContext, projectId: string, bytes: number, what: string): Promise<void> {
-  const used = await ctx.store.projectStorageBytes(projectId);
+export async function checkQuota(ctx: AppContext, projectId: string, bytes: number, what: string, freedBytes = 0): Promise<void> {
+  // A replacement frees the bytes of the data set it detaches.
+  const used = (await ctx.store.projectStorageBytes(projectId)) - freedBytes;
   const limit = ctx.limits.maxProjectStorageBytes;
   if (used + bytes > limit) {
     const mb = (n: number) => `${(n / 1048576).toFixed(1)} MB`;
@@ -85,6 +86,7 @@ export async function addToProject(
   projectId: string,
   up: ParsedUpload,
   name: string | undefined,
+  freedBytes = 0,
 ): Promise<{ dataset: ProjectDatasetRecord; status: 'created' | 'existing' | 'attached' }> {
   const found = await ctx.store.findDatasetByContent(up.kind, up.contentHash);
   const held = found ? await ctx.store.getProjectDataset(projectId, found.id) : null;
@@ -94,7 +96,7 @@ export async function addToProject(
       await ctx.store.renameProjectDataset(projectId, held.id, freeName(await ctx.store.listProjectDatasets(projectId), name, held.id));
     return { dataset: (await ctx.store.getProjectDataset(projectId, held.id))!, status: 'existing' };
   }
-  await checkQuota(ctx, projectId, up.body.byteLength, `this ${up.kind} data set`);
+  await checkQuota(ctx, projectId, up.body.byteLength, `this ${up.kind} data set`, freedBytes);
   const rec = found ?? (await ctx.store.putDataset(storedOf(up)));
   const finalName = freeName(await ctx.store.listProjectDatasets(projectId), name ?? up.suggestedName ?? KIND_NAMES[up.kind] ?? up.kind);
   return { dataset: await ctx.store.attachDataset(projectId, rec.id, finalName), status: found ? 'attached' : 'created' };
@@ -114,7 +116,7 @@ async function uploadIntoProject(c: Context, ctx: AppContext): Promise<Response>
     );
   // The upload is validated before anything of the project changes.
   const up = await parseUpload(c, ctx, q.kind);
-  const { dataset, status } = await addToProject(ctx, id, up, old ? undefined : q.name);
+  const { dataset, status } = await addToProject(ctx, id, up, old ? undefined : q.name, old?.bytes ?? 0);
   const replaced = old && dataset.id !== old.id ? await replaceDataset(ctx, id, old, dataset.id, q.name ?? old.name) : null;
   const view = datasetView(id, replaced ?? dataset);
   return c.json(

@@ -21,7 +21,7 @@ const list = async () =>
 
 beforeAll(async () => {
   t = await startTestApp('replace');
-  const res = await t.post('/api/projects', { title: 'Tessaly Deep survey' });
+  const res = await t.post('/api/projects', { title: 'Bellwether Rise survey' });
   ({ id: pid, editToken: token } = (await res.json()) as { id: string; editToken: string });
 });
 afterAll(() => t.close());
@@ -67,5 +67,42 @@ describe('POST /api/projects/:id/datasets?replace=<dsId>', () => {
     expect(unknown.status).toBe(404);
     expect(((await unknown.json()) as { error: { details: { field: string }[] } }).error.details[0].field).toBe('replace');
     expect(await list()).toEqual(before);
+  });
+
+  it('counts the replaced data set as freed: a project at its storage limit takes a replacement of the same size', async () => {
+    // The stored size of one upload of these sites (csv(q) has the same length for every two-digit q).
+    const sizeOf = async (app: TestApp, id: string, token: string) => {
+      const r = await app.app.request(`/api/projects/${id}/datasets?kind=sites`, {
+        method: 'POST',
+        headers: { 'content-type': 'text/csv', authorization: `Bearer ${token}` },
+        body: csv(70),
+      });
+      expect(r.status).toBe(201);
+      return (await r.json()) as { id: string; bytes: number };
+    };
+    const p0 = (await (await t.post('/api/projects', { title: 'Bellwether Rise sizes' })).json()) as { id: string; editToken: string };
+    const { bytes } = await sizeOf(t, p0.id, p0.editToken);
+    expect(bytes).toBeGreaterThan(0);
+    const q = await startTestApp('replace-quota', { limits: { maxProjectStorageBytes: bytes } });
+    try {
+      const p = (await (await q.post('/api/projects', { title: 'Bellwether Rise quota' })).json()) as { id: string; editToken: string };
+      const first = await sizeOf(q, p.id, p.editToken); // exactly at the limit
+      const put = (body: string, query: string) =>
+        q.app.request(`/api/projects/${p.id}/datasets?kind=sites${query}`, {
+          method: 'POST',
+          headers: { 'content-type': 'text/csv', authorization: `Bearer ${p.editToken}` },
+          body,
+        });
+      // New content of the same size is over the limit …
+      const extra = await put(csv(71), '');
+      expect(extra.status).toBe(413);
+      expect(((await extra.json()) as { error: { code: string } }).error.code).toBe('project_quota_exceeded');
+      // … but a same-size replacement is not: the data set it replaces is detached.
+      const rep = await put(csv(72), `&replace=${first.id}`);
+      expect(rep.status).toBe(201);
+      expect(((await rep.json()) as { replaced: string }).replaced).toBe(first.id);
+    } finally {
+      await q.close();
+    }
   });
 });
