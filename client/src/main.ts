@@ -87,7 +87,7 @@ async function demoStart(cfg: AppConfig, state: AppState): Promise<AppState> {
   return out;
 }
 
-function createMap(cfg: AppConfig, state: AppState): MapLibreMap {
+function createMap(cfg: AppConfig, state: AppState, demoBase: boolean): MapLibreMap {
   const bounds = cfg.terrain?.bounds ?? [-129.2, -38.95, -126.8, -37.05];
   const view = state.view
     ? { center: state.view.center, zoom: state.view.zoom }
@@ -100,7 +100,7 @@ function createMap(cfg: AppConfig, state: AppState): MapLibreMap {
       };
   const map = new MapLibreMap({
     container: 'map',
-    style: buildStyle(cfg, window.location.origin),
+    style: buildStyle(cfg, window.location.origin, demoBase),
     ...view,
     attributionControl: false,
     canvasContextAttributes: { preserveDrawingBuffer: true },
@@ -303,7 +303,9 @@ async function start(): Promise<void> {
   if (projectId !== null) document.getElementById('project-title')!.textContent = state.title;
   document.body.classList.toggle('read-only', readOnly);
 
-  const map = createMap(cfg, state);
+  // The demo's island (its land, coast and sea mask) belongs to the demo's page alone: another project sees the world base.
+  const demoBase = projectId === null || projectId === cfg.demo.projectId;
+  const map = createMap(cfg, state, demoBase);
   const app: AppHandle = { map, config: cfg, state, readOnly, run: null, lastColumn: null, lastSection: null, heatInPlace: null, ready };
   window.subtherm = app;
   const syncUrl = urlSync(map, state, projectId);
@@ -313,9 +315,10 @@ async function start(): Promise<void> {
   state.model ??= await demoModel;
   if (restoreError) showError(restoreError);
   await new Promise<void>((r) => (map.isStyleLoaded() ? r() : map.once('load', () => r())));
-  void map
-    .getSource<GeoJSONSource>('sea-mask')
-    ?.setData(seaMask(await getJson<Parameters<typeof seaMask>[0]>(`/api/datasets/${encodeURIComponent(ds.regions)}`)));
+  if (demoBase)
+    void map
+      .getSource<GeoJSONSource>('sea-mask')
+      ?.setData(seaMask(await getJson<Parameters<typeof seaMask>[0]>(`/api/datasets/${encodeURIComponent(ds.regions)}`)));
   void installWorldBase(map).catch((e: unknown) => console.error(`world base: ${message(e)}`));
   document.getElementById('map')!.append(cursorReadout(map));
   document.querySelector('.topbar .spacer')!.before(goToBox(map));

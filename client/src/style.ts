@@ -169,14 +169,16 @@ function topLayers(): LayerSpecification[] {
  * The map's own style: no outside sources, no glyph server (labels use the browser's fonts), terrain as raster-dem
  * tiles from our server.
  */
-export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
+export function buildStyle(cfg: AppConfig, origin: string, demoBase = true): StyleSpecification {
   const ds = cfg.demo.datasets;
   const url = (id: string) => `${origin}/api/datasets/${encodeURIComponent(id)}`;
+  const empty = { type: 'FeatureCollection' as const, features: [] };
   const style: StyleSpecification = {
     version: 8,
     name: 'subtherm',
     sources: {
-      outline: { type: 'geojson', data: url(ds.regions) },
+      // The demo island's outline on the demo's page only (demoBase false: another project's page).
+      outline: { type: 'geojson', data: demoBase ? url(ds.regions) : empty },
       'sea-mask': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
       'world-land': { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
       graticule: { type: 'geojson', data: { type: 'FeatureCollection', features: [] } },
@@ -193,7 +195,8 @@ export function buildStyle(cfg: AppConfig, origin: string): StyleSpecification {
       { id: 'land', type: 'fill', source: 'outline', paint: { 'fill-color': '#f1ede4' } },
     ],
   };
-  if (cfg.terrain) {
+  // The demo's relief, like its outline, on the demo's page only.
+  if (cfg.terrain && demoBase) {
     style.sources.terrain = {
       type: 'raster-dem',
       tiles: [origin + cfg.terrain.tiles],

@@ -100,6 +100,18 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     await expect.poll(() => page.locator('#project-datasets').textContent(), { timeout: 20_000 }).toContain('holds no data sets yet');
     // The new project's model starts under a neutral name, not the demo's.
     expect(await page.locator('#model-name').inputValue()).toBe('Crustal model');
+    // Nor does it show the demo island: no outline (land, coast), no sea mask, no demo relief; the world base stays.
+    const base = await page.evaluate(() => {
+      const map = window.subtherm!.map;
+      const n = (id: string) => map.querySourceFeatures(id).length;
+      return {
+        outline: n('outline'),
+        seaMask: n('sea-mask'),
+        hillshade: map.getLayer('hillshade') !== undefined,
+        world: map.getLayer('world-land') !== undefined,
+      };
+    });
+    expect(base).toEqual({ outline: 0, seaMask: 0, hillshade: false, world: true });
   });
 
   it('explains bad files clearly: swapped coordinates, a CSV without coordinates, an unknown or malformed CRS', async () => {
