@@ -1,5 +1,6 @@
-import { describe, it, expect, beforeAll, afterAll } from 'vitest';
+import { describe, it, expect, beforeAll, afterAll, vi } from 'vitest';
 import { spawnSync } from 'node:child_process';
+import { open } from 'node:fs/promises';
 import { mkdtempSync, readFileSync, writeFileSync, rmSync, existsSync, readdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
@@ -188,6 +189,36 @@ describe('Cloud-Optimized GeoTIFF writer', () => {
     await expect(writeGeoTiffFile(missing, g)).rejects.toThrow();
     expect(existsSync(missing)).toBe(false);
     expect(readdirSync(dir).some((n) => n.endsWith('.partial'))).toBe(false);
+  });
+
+  it('a write that fails after some tiles are on disk (disk full) rejects, and leaves neither the file nor its .partial', async () => {
+    const g = field();
+    const f = join(dir, 'full-disk.tif');
+    // Every FileHandle shares one prototype: fail its third write as a full disk would (ENOSPC), after two tiles.
+    const probe = await open(join(dir, 'probe'), 'w');
+    const proto = Object.getPrototypeOf(probe) as { write: (...a: unknown[]) => Promise<unknown> };
+    await probe.close();
+    rmSync(join(dir, 'probe'));
+    const original = proto.write;
+    let calls = 0;
+    const spy = vi.spyOn(proto, 'write').mockImplementation(function (this: unknown, ...a: unknown[]) {
+      calls++;
+      if (calls === 3) return Promise.reject(Object.assign(new Error('ENOSPC: no space left on device, write'), { code: 'ENOSPC' }));
+      return original.apply(this, a);
+    });
+    try {
+      await expect(writeGeoTiffFile(f, g, { description: 'd', threads: 2 })).rejects.toThrow(/ENOSPC/);
+      expect(calls).toBeGreaterThanOrEqual(3);
+    } finally {
+      spy.mockRestore();
+    }
+    // Let the deflates still in flight come back and try their writes on the closed handle.
+    await new Promise((r) => setTimeout(r, 200));
+    expect(existsSync(f)).toBe(false);
+    expect(readdirSync(dir).filter((n) => n.startsWith('full-disk'))).toEqual([]);
+    // The writer still works afterwards.
+    await writeGeoTiffFile(f, g, { description: 'd', threads: 2 });
+    expect(Buffer.compare(readFileSync(f), Buffer.from(writeGeoTiff(g, { description: 'd' })))).toBe(0);
   });
 
   it('reads its own COG back (whole and by window) with metadata', async () => {
