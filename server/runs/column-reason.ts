@@ -48,7 +48,9 @@ interface ReasonDeps {
   faultPaths: (task: FaultPathsTask) => Promise<FaultPaths>;
 }
 
-const at = (lon: number, lat: number) => `no heat-flow value at ${lon}, ${lat}`;
+/** A coordinate to 1e-5° (about a metre), as a click gives it: `12.34567` rather than fourteen decimals. */
+const deg = (v: number) => String(Math.round(v * 1e5) / 1e5);
+const at = (lon: number, lat: number) => `no heat-flow value at ${deg(lon)}, ${deg(lat)}`;
 
 /** True when (lon, lat) lies in the area of the run's no-data-across-faults layer. */
 async function inHiddenArea(store: Store, runId: string, lon: number, lat: number): Promise<boolean> {

@@ -106,6 +106,9 @@ describe('POST /api/column at a point with no heat flow', () => {
     const e = ((await res.json()) as ErrorBody).error;
     expect(e.code).toBe('no_data_here');
     expect(e.message).toContain('the cell sees no heat-flow site, since every straight path from it to a site crosses a fault trace');
+    // the clicked point is printed to 1e-5° (about a metre), not with a double's fourteen decimals
+    expect(e.message).toMatch(/^no heat-flow value at -?\d+(\.\d{1,5})?, -?\d+(\.\d{1,5})?: /);
+    expect(e.message).toContain(`at ${Math.round(lon * 1e5) / 1e5}, `);
     expect(e.details[0]).toEqual({ field: 'lon,lat', problem: 'no heat-flow site visible across faults (the no-data-across-faults layer)' });
     const named = new Map(e.details.slice(1).map((d) => [d.feature!, Number(/crosses (\d+) of/.exec(d.problem)![1])]));
     expect(named.size).toBeGreaterThan(0);
