@@ -179,6 +179,33 @@ export class LayerPanel {
     }
   }
 
+  /**
+   * Lists an entry or leaves it out while it has nothing to draw (a project's faults before any are uploaded, a
+   * terrain entry without a terrain); listed again, its saved visibility and opacity reach the map layers that now
+   * exist. A group whose entries are all left out says so.
+   */
+  setAvailable(id: string, available: boolean): void {
+    const e = this.entries.get(id);
+    if (!e) return;
+    e.section.hidden = !available;
+    if (available) this.apply(id);
+    const group = e.entry.group;
+    if (group === 'run') return;
+    const listed = [...this.entries.values()].some((x) => x.entry.group === group && !x.section.hidden);
+    let note = this.lists[group].querySelector<HTMLElement>(':scope > p.empty');
+    if (!note) {
+      note = el(
+        'p',
+        { class: 'empty', id: `${group}-layers-empty` },
+        group === 'data'
+          ? 'No data yet: heat-flow sites, grade samples and faults appear here once the project holds them (Data tab).'
+          : 'World land, coastlines and graticule, always drawn. A terrain GeoTIFF uploaded in the Data tab is listed here, as hillshade.',
+      );
+      this.lists[group].prepend(note);
+    }
+    note.hidden = listed;
+  }
+
   /** Removes every run entry (a new run replaces the old one's layers). */
   clearRun(): void {
     for (const [id, e] of this.entries) if (e.entry.group === 'run') this.remove(id);
@@ -227,7 +254,8 @@ export class LayerPanel {
 
   /** Entries currently visible, in panel order (for the PNG export's legend line). */
   visibleEntries(): LayerEntry[] {
-    return [...this.entries.values()].filter((e) => this.state[e.entry.id]?.visible).map((e) => e.entry);
+    // An entry left out for want of data draws nothing, so it is not named either.
+    return [...this.entries.values()].filter((e) => this.state[e.entry.id]?.visible && !e.section.hidden).map((e) => e.entry);
   }
 
   /** The entry with this id, if present. */

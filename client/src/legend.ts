@@ -81,6 +81,6 @@ export function legendEntries(): LayerEntry[] {
     { id: 'sites', label: 'Heat-flow sites (by quality)', layers: ['sites-halo', 'sites'], legend: sites, group: 'data' },
     { id: 'samples', label: 'Grade samples (index-mineral zone)', layers: ['samples', 'sample-highlight'], legend: zones, group: 'data' },
     { id: 'faults', label: 'Faults (by kind)', layers: ['faults', 'fault-labels', 'fault-highlight'], legend: faults, group: 'data' },
-    { id: 'terrain', label: 'Terrain (hillshade)', layers: ['hillshade'], legend: terrain, group: 'base' },
+    { id: 'terrain', label: 'Terrain (hillshade)', layers: ['hillshade', 'project-hillshade'], legend: terrain, group: 'base' },
   ];
 }

@@ -20,7 +20,7 @@ import { DataSets, dataPanel, type PointKind } from './data.ts';
 import { fitBbox, goToBox, installWorldBase } from './basemap.ts';
 import { cursorReadout } from './readout.ts';
 import { modelEditor } from './model.ts';
-import { namedStartingModel } from './project-data.ts';
+import { TERRAIN_CHANGED, namedStartingModel } from './project-data.ts';
 import { runPanel, type RunPanel } from './run.ts';
 import { StructurePanel, type FeatureCollection } from './structure.ts';
 import { sectionPanel, type SectionPanel } from './section.ts';
@@ -325,6 +325,17 @@ async function start(): Promise<void> {
   const data = new DataSets(ctx);
   for (const entry of legendEntries())
     layerPanel.add({ ...entry, ...(entry.id in data.current ? { bounds: () => data.bounds([entry.id as PointKind]) } : {}) });
+  // A data entry is listed while its data set has features, the terrain entry while a hillshade is drawn.
+  const listData = (k: PointKind) => layerPanel.setAvailable(k, data.current[k].features.length > 0);
+  const listTerrain = () =>
+    layerPanel.setAvailable(
+      'terrain',
+      ['hillshade', 'project-hillshade'].some((id) => map.getLayer(id) !== undefined),
+    );
+  data.onChange(listData);
+  document.addEventListener(TERRAIN_CHANGED, listTerrain);
+  (['sites', 'samples', 'faults'] as const).forEach(listData);
+  listTerrain();
   const show = buildTools(ctx, data, await demoModel);
   const own = (k: 'samples' | 'faults') => state.params[k] ?? (projectId === null ? ds[k] : undefined);
   await Promise.all([data.load('sites', state.params.sites), data.load('samples', own('samples')), data.load('faults', own('faults'))]);

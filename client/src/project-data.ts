@@ -93,7 +93,14 @@ export async function uploadTerrain(ctx: AppContext, file: Blob & { name: string
 export function showProjectTerrain(map: MapLibreMap, t: ProjectTerrain | null): void {
   if (map.getLayer('project-hillshade')) map.removeLayer('project-hillshade');
   if (map.getSource('project-terrain')) map.removeSource('project-terrain');
-  if (!t) return;
+  if (t) addProjectHillshade(map, t);
+  document.dispatchEvent(new Event(TERRAIN_CHANGED));
+}
+
+/** Fired on the document when the project's terrain layer comes or goes (the layer panel lists it only while there). */
+export const TERRAIN_CHANGED = 'subtherm:terrain-changed';
+
+function addProjectHillshade(map: MapLibreMap, t: ProjectTerrain): void {
   // A new tile URL per upload, so a replaced terrain is never served from the browser's cache.
   const v = encodeURIComponent(t.uploadedAt);
   map.addSource('project-terrain', { ...t.source, tiles: t.source.tiles.map((u) => `${window.location.origin}${u}?v=${v}`) });
@@ -145,7 +152,7 @@ export async function newProject(ctx: AppContext, title: string): Promise<void> 
 function bboxText(b: Bbox | null): string {
   if (!b) return '—';
   const f = (v: number) => v.toFixed(2);
-  return `${f(b[0])}…${f(b[2])}°E, ${f(b[1])}…${f(b[3])}°N`;
+  return `${f(b[0])}…${f(b[2])} °E, ${f(b[1])}…${f(b[3])} °N`;
 }
 
 /** Kinds a run takes one of, chosen with "use" (a model is loaded into the Model tab, whose model the run sends). */
@@ -243,9 +250,8 @@ export class ProjectDataTable {
           used ? el('span', { class: 'muted' }, d.kind === 'model' ? ' (in the Model tab)' : ' (in the run)') : null,
         ),
         el('td', { class: 'num' }, String(d.featureCount)),
-        el('td', { class: 'bbox' }, bboxText(d.bbox)),
-        el('td', {}, new Date(d.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')),
       ],
+      whereAndWhen(d.bbox, d.uploadedAt),
       actions,
       d.id,
     );
@@ -294,9 +300,8 @@ export class ProjectDataTable {
         el('td', {}, 'terrain'),
         el('td', { class: 'name' }, t.name, el('span', { class: 'muted' }, ` (${t.width} × ${t.height} cells, from ${t.sourceCrs})`)),
         el('td', { class: 'num' }, '—'),
-        el('td', { class: 'bbox' }, bboxText(t.bbox)),
-        el('td', {}, new Date(t.uploadedAt).toISOString().slice(0, 16).replace('T', ' ')),
       ],
+      whereAndWhen(t.bbox, t.uploadedAt),
       actions,
       'terrain',
     );
@@ -307,7 +312,7 @@ export class ProjectDataTable {
       replace(this.root, el('p', { class: 'empty' }, 'This project holds no data sets yet: upload heat-flow sites below to begin.'));
       return;
     }
-    const head = el('tr', {}, ...['Kind', 'Name', 'Features', 'Extent', 'Uploaded (UTC)'].map((h) => el('th', { scope: 'col' }, h)));
+    const head = el('tr', {}, ...['Kind', 'Name', 'Features'].map((h) => el('th', { scope: 'col' }, h)));
     replace(
       this.root,
       el(
@@ -325,11 +330,26 @@ export class ProjectDataTable {
 }
 
 /**
- * A data set's two rows: its description (`cells`, with `attrs`), then its actions across the table's width, so the
- * buttons never sit past the panel's edge (`key` names the data set the actions row belongs to).
+ * A data set's rows: its description (`cells`, with `attrs`); where it lies and when it came (`detail`), and its
+ * actions, each across the table's width, so that neither breaks in a narrow column nor sits past the panel's edge
+ * (`key` names the data set the two lower rows belong to).
  */
-function withActions(attrs: Record<string, string>, cells: HTMLElement[], actions: HTMLElement, key: string): HTMLElement[] {
-  return [el('tr', attrs, ...cells), el('tr', { class: 'actions-row', 'data-actions-for': key }, el('td', { colspan: String(cells.length) }, actions))];
+function withActions(attrs: Record<string, string>, cells: HTMLElement[], detail: HTMLElement[], actions: HTMLElement, key: string): HTMLElement[] {
+  const across = (cls: string, data: string, ...content: HTMLElement[]) =>
+    el('tr', { class: cls, [data]: key }, el('td', { colspan: String(cells.length) }, ...content));
+  return [
+    el('tr', attrs, ...cells),
+    across('detail-row', 'data-detail-for', el('div', { class: 'where-when' }, ...detail)),
+    across('actions-row', 'data-actions-for', actions),
+  ];
+}
+
+/** The extent ([west, south, east, north], degrees) and upload time (UTC, to the minute) of a data set's detail row. */
+function whereAndWhen(bbox: Bbox | null, uploadedAt: string): HTMLElement[] {
+  return [
+    el('span', { class: 'bbox', title: 'west…east, south…north (WGS84 degrees)' }, bboxText(bbox)),
+    el('span', { class: 'uploaded' }, `uploaded ${new Date(uploadedAt).toISOString().slice(0, 16).replace('T', ' ')} UTC`),
+  ];
 }
 
 /** The "New project" control: a title and a button. */

@@ -36,6 +36,9 @@ describe('the map client: layers', { timeout: 300_000 }, () => {
     const panel = await page.locator('#panel').textContent();
     expect(panel).toContain('mW/m²');
     expect(panel).toContain('Terrain (hillshade)');
+    // The demo holds every kind the panel lists, so none is left out for want of data.
+    for (const id of ['sites', 'samples', 'faults', 'terrain']) expect(await page.locator(`section.layer[data-layer="${id}"]`).isVisible(), id).toBe(true);
+    expect(await page.locator('#data-layers-empty').isVisible()).toBe(false);
     expect(panel).toContain('No run yet');
     expect(await page.locator('#caution').textContent()).toContain('Not a basis for drilling, well design or pressure control');
     await page.screenshot({ path: join(SCREENSHOT_DIR, 'client-layers-1-demo.png') });

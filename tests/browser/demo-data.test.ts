@@ -23,6 +23,7 @@ interface Listed {
   name: string;
   featureCount: number;
   uploadedAt: string;
+  bbox: [number, number, number, number] | null;
 }
 
 beforeAll(async () => {
@@ -98,7 +99,11 @@ describe("the page's own data", { timeout: 900_000 }, () => {
       const cells = await page.locator(`#project-datasets tr[data-dataset="${d.id}"] td`).allTextContents();
       expect(cells[1]).toContain(d.name);
       expect(cells[2]).toBe(String(d.featureCount));
-      expect(cells[4]).toBe(d.uploadedAt.slice(0, 16).replace('T', ' '));
+      expect(cells).toHaveLength(3);
+      // Its extent and upload time on their own row under it.
+      const detail = await page.locator(`#project-datasets tr[data-detail-for="${d.id}"]`).textContent();
+      expect(detail).toContain(`uploaded ${d.uploadedAt.slice(0, 16).replace('T', ' ')} UTC`);
+      if (d.bbox) expect(detail).toContain(`${d.bbox[0].toFixed(2)}…${d.bbox[2].toFixed(2)} °E, ${d.bbox[1].toFixed(2)}…${d.bbox[3].toFixed(2)} °N`);
       // Read-only: download and zoom to (and "use" into the demo page's runs), no rename or remove.
       const row = page.locator(`#project-datasets tr[data-actions-for="${d.id}"]`);
       expect(await row.locator('a.dl').getAttribute('href')).toBe(`/api/projects/demo/datasets/${d.id}`);
@@ -112,6 +117,17 @@ describe("the page's own data", { timeout: 900_000 }, () => {
       return [...document.querySelectorAll('#project-datasets .actions > *')].filter((b) => b.getBoundingClientRect().right > panel.right + 0.5).length;
     });
     expect(outside).toBe(0);
+    // No heading, count, extent or time breaks inside a word or number: each is kept on one line and fits its box.
+    const broken = await page.evaluate(() =>
+      [...document.querySelectorAll<HTMLElement>('#project-datasets th, #project-datasets td.num, #project-datasets .where-when span')]
+        .filter(
+          (e) =>
+            e.scrollWidth > e.clientWidth + 0.5 ||
+            e.getBoundingClientRect().right > document.getElementById('tabpanel-data')!.getBoundingClientRect().right + 0.5,
+        )
+        .map((e) => e.textContent),
+    );
+    expect(broken).toEqual([]);
     expect(await page.locator('#project-datasets .actions > *').count()).toBeGreaterThan(listed.datasets.length);
     await shot('data-tab');
 

@@ -83,6 +83,13 @@ async function uploadAnswer(p: Page): Promise<{ ok: boolean; text: string }> {
   return { ok: (await p.locator('#upload-report .ok').count()) === 1, text: (await ans.textContent()) ?? '' };
 }
 
+/** The data and base entries the layer panel lists (shown, not left out for want of data). */
+function listedLayers(page: Page): Promise<string[]> {
+  return page.evaluate(() =>
+    [...document.querySelectorAll<HTMLElement>('#data-layers section.layer, #base-layers section.layer')].filter((s) => !s.hidden).map((s) => s.dataset.layer!),
+  );
+}
+
 describe('a user region in the other hemisphere, end to end in the page', { timeout: 900_000 }, () => {
   let projectUrl = '';
   let runId = '';
@@ -112,6 +119,9 @@ describe('a user region in the other hemisphere, end to end in the page', { time
       };
     });
     expect(base).toEqual({ outline: 0, seaMask: 0, hillshade: false, world: true });
+    // The layer panel lists no data or terrain entry while the project holds none, and says where data comes from.
+    expect(await listedLayers(page)).toEqual([]);
+    expect(await page.locator('#data-layers-empty').isVisible()).toBe(true);
   });
 
   it('explains bad files clearly: swapped coordinates, a CSV without coordinates, an unknown or malformed CRS', async () => {
@@ -172,6 +182,9 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     expect((BBOX[2] - BBOX[0]) / (view[2] - view[0])).toBeGreaterThan(0.3);
     const rendered = await page.evaluate(() => window.subtherm!.map.queryRenderedFeatures({ layers: ['sites'] }).length);
     expect(rendered).toBeGreaterThanOrEqual(SITES.length * 0.9);
+    // The sites are listed in the layer panel; the samples and faults the project does not hold are not.
+    expect(await listedLayers(page)).toEqual(['sites']);
+    expect(await page.locator('#data-layers-empty').isVisible()).toBe(false);
     await shot(page, 'uploaded');
   });
 
@@ -511,6 +524,12 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     expect(await page.locator('#project-datasets tr[data-kind="terrain"]').textContent()).toContain('velmar-seamount');
     await waitForMapIdle(page);
     expect(await page.evaluate(() => window.subtherm!.map.getLayer('project-hillshade')?.type)).toBe('hillshade');
+    // The terrain entry is listed now, and its switch hides the project's hillshade.
+    expect(await listedLayers(page)).toEqual(['sites', 'terrain']);
+    await page.locator('#toggle-terrain').uncheck();
+    expect(await page.evaluate(() => window.subtherm!.map.getLayoutProperty('project-hillshade', 'visibility'))).toBe('none');
+    await page.locator('#toggle-terrain').check();
+    expect(await page.evaluate(() => window.subtherm!.map.getLayoutProperty('project-hillshade', 'visibility'))).toBe('visible');
     await shot(page, 'terrain');
     // The hillshade alone (run layers hidden for this picture): no hard line where the DEM ends.
     const runLayers = await page.evaluate(() => {
@@ -531,6 +550,7 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     await page.locator('#terrain-remove').click();
     await expect.poll(() => page.locator('#project-datasets tr[data-kind="terrain"]').count(), { timeout: 30_000 }).toBe(0);
     expect(await page.evaluate(() => window.subtherm!.map.getLayer('project-hillshade') !== undefined)).toBe(false);
+    expect(await listedLayers(page)).toEqual(['sites']);
     const pid = /\/p\/([A-Za-z0-9_-]+)/.exec(projectUrl)![1];
     expect((await fetch(`${server.url}/api/projects/${pid}/terrain`)).status).toBe(404);
   });
