@@ -13,8 +13,8 @@ import { MAX_ATTEMPTS, QueueRedis } from '../../server/queue/connection.ts';
 import type { RedisRunJobs } from '../../server/queue/redis-jobs.ts';
 import type { Store } from '../../server/store/types.ts';
 import type { RunRequest } from '../../shared/schema/run.ts';
-import { pgAvailable, startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
-import { redisAvailable, startRedisServer, type RedisServer } from '../helpers/redis-server.ts';
+import { startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
+import { startRedisServer, type RedisServer } from '../helpers/redis-server.ts';
 
 const ROOT = new URL('../..', import.meta.url).pathname;
 const DOUBLE = fileURLToPath(new URL('../helpers/run-worker-double.ts', import.meta.url));
@@ -32,7 +32,7 @@ function request(title: string, seed: number): RunRequest {
   return { title, sites: 'ds_sites', seed, grid: { bbox: [10, 10, 11, 11], size: [6, 5] } } as unknown as RunRequest;
 }
 
-describe.runIf(pgAvailable() && redisAvailable())('the Redis run queue across servers and workers', () => {
+describe('the Redis run queue across servers and workers', () => {
   let cluster: PgCluster;
   let redis: RedisServer;
   const stores: Store[] = [];

@@ -8,7 +8,7 @@ import { SqliteStore } from '../../server/store/sqlite.ts';
 import { PostgresStore, PG_MIGRATIONS, migratePostgres } from '../../server/store/postgres.ts';
 import type { RunRecord, Store } from '../../server/store/types.ts';
 import { hashToken, newEditToken } from '../../server/security.ts';
-import { pgAvailable, startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
+import { startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
 
 const ROOT = new URL('../..', import.meta.url).pathname;
 
@@ -37,23 +37,21 @@ const backends: [string, () => Promise<Backend>][] = [
   ],
 ];
 let cluster: PgCluster | null = null;
-if (pgAvailable()) {
-  backends.push([
-    'PostgreSQL',
-    async () => {
-      cluster = startPgCluster(ROOT);
-      const store = await PostgresStore.open(cluster.url, { max: 4 });
-      return {
-        store,
-        raw: (sql, params) => store.pool.query(sql, params),
-        close: async () => {
-          await store.close();
-          cluster?.stop();
-        },
-      };
-    },
-  ]);
-}
+backends.push([
+  'PostgreSQL',
+  async () => {
+    cluster = startPgCluster(ROOT);
+    const store = await PostgresStore.open(cluster.url, { max: 4 });
+    return {
+      store,
+      raw: (sql, params) => store.pool.query(sql, params),
+      close: async () => {
+        await store.close();
+        cluster?.stop();
+      },
+    };
+  },
+]);
 
 const run = (id: string, over: Partial<RunRecord> = {}): RunRecord => {
   const now = new Date().toISOString();

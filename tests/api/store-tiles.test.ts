@@ -18,7 +18,7 @@ import { StoredBlobSource } from '../../server/store/blob-source.ts';
 import type { RunRecord, Store } from '../../server/store/types.ts';
 import { GeoTiffFile, writeGeoTiff } from '../../server/io/geotiff.ts';
 import { gridTileRoutes } from '../../server/routes/grid-tiles.ts';
-import { pgAvailable, startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
+import { startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
 import { prng } from '../helpers/prng.ts';
 import { requireGdal } from '../helpers/gdal.ts';
 
@@ -113,16 +113,14 @@ const backends: [string, () => Promise<Backend>][] = [
   ],
 ];
 let cluster: PgCluster | null = null;
-if (pgAvailable()) {
-  backends.push([
-    'PostgreSQL',
-    async () => {
-      cluster = startPgCluster(ROOT);
-      const store = await PostgresStore.open(cluster.url, { max: 4 });
-      return { store, close: async () => (await store.close(), cluster?.stop()) };
-    },
-  ]);
-}
+backends.push([
+  'PostgreSQL',
+  async () => {
+    cluster = startPgCluster(ROOT);
+    const store = await PostgresStore.open(cluster.url, { max: 4 });
+    return { store, close: async () => (await store.close(), cluster?.stop()) };
+  },
+]);
 
 describe.each(backends)('map tiles from the %s store', (_name, make) => {
   let b: Backend;
@@ -227,33 +225,29 @@ describe('stores made before blobs were chunked', () => {
     rmSync(dir, { recursive: true, force: true });
   });
 
-  it.skipIf(!pgAvailable())(
-    'PostgreSQL: migration cuts existing blobs into chunks and drops the old column',
-    async () => {
-      const pg = startPgCluster(ROOT);
-      try {
-        const { default: pgLib } = await import('pg');
-        const pool = new pgLib.Pool({ connectionString: pg.url, max: 2 });
-        await pool.query('CREATE TABLE subtherm_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TIMESTAMPTZ NOT NULL DEFAULT now())');
-        for (let v = 1; v < PG_MIGRATIONS.length; v++) {
-          await pool.query(PG_MIGRATIONS[v - 1].sql);
-          await pool.query('INSERT INTO subtherm_migrations (version, name) VALUES ($1, $2)', [v, PG_MIGRATIONS[v - 1].name]);
-        }
-        await pool.query('INSERT INTO blobs (hash, size, bytes) VALUES ($1, $2, $3)', [hash, bytes.length, Buffer.from(bytes)]);
-        expect(await migratePostgres(pool)).toBe(1);
-        await pool.end();
-        const store = await PostgresStore.open(pg.url, { max: 2 });
-        expect(Buffer.from((await store.getBlob(hash))!).equals(Buffer.from(bytes))).toBe(true);
-        expect((await store.readBlobChunks(hash, 0, 3)).map((c) => c.length)).toEqual([BLOB_CHUNK_BYTES, BLOB_CHUNK_BYTES, BLOB_CHUNK_BYTES, 123]);
-        const cols = await store.pool.query<{ column_name: string }>(
-          "SELECT column_name FROM information_schema.columns WHERE table_name = 'blobs' ORDER BY ordinal_position",
-        );
-        expect(cols.rows.map((r) => r.column_name)).toEqual(['hash', 'size']);
-        await store.close();
-      } finally {
-        pg.stop();
+  it('PostgreSQL: migration cuts existing blobs into chunks and drops the old column', async () => {
+    const pg = startPgCluster(ROOT);
+    try {
+      const { default: pgLib } = await import('pg');
+      const pool = new pgLib.Pool({ connectionString: pg.url, max: 2 });
+      await pool.query('CREATE TABLE subtherm_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TIMESTAMPTZ NOT NULL DEFAULT now())');
+      for (let v = 1; v < PG_MIGRATIONS.length; v++) {
+        await pool.query(PG_MIGRATIONS[v - 1].sql);
+        await pool.query('INSERT INTO subtherm_migrations (version, name) VALUES ($1, $2)', [v, PG_MIGRATIONS[v - 1].name]);
       }
-    },
-    120_000,
-  );
+      await pool.query('INSERT INTO blobs (hash, size, bytes) VALUES ($1, $2, $3)', [hash, bytes.length, Buffer.from(bytes)]);
+      expect(await migratePostgres(pool)).toBe(1);
+      await pool.end();
+      const store = await PostgresStore.open(pg.url, { max: 2 });
+      expect(Buffer.from((await store.getBlob(hash))!).equals(Buffer.from(bytes))).toBe(true);
+      expect((await store.readBlobChunks(hash, 0, 3)).map((c) => c.length)).toEqual([BLOB_CHUNK_BYTES, BLOB_CHUNK_BYTES, BLOB_CHUNK_BYTES, 123]);
+      const cols = await store.pool.query<{ column_name: string }>(
+        "SELECT column_name FROM information_schema.columns WHERE table_name = 'blobs' ORDER BY ordinal_position",
+      );
+      expect(cols.rows.map((r) => r.column_name)).toEqual(['hash', 'size']);
+      await store.close();
+    } finally {
+      pg.stop();
+    }
+  }, 120_000);
 });

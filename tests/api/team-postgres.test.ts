@@ -8,7 +8,7 @@ import { openPostgresStore } from '../../server/main.ts';
 import { resolveDatabase } from '../../server/cli/serve.ts';
 import { InputError } from '../../shared/errors.ts';
 import type { Store } from '../../server/store/types.ts';
-import { pgAvailable, startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
+import { startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
 
 const ROOT = new URL('../..', import.meta.url).pathname;
 const DOUBLE = fileURLToPath(new URL('../helpers/run-worker-double.ts', import.meta.url));
@@ -27,7 +27,7 @@ describe('choosing the store', () => {
   });
 });
 
-describe.runIf(pgAvailable())('two servers on one PostgreSQL database', () => {
+describe('two servers on one PostgreSQL database', () => {
   let cluster: PgCluster;
   let storeA: Store, storeB: Store;
   let A: ReturnType<typeof createApp>, B: ReturnType<typeof createApp>;

@@ -7,8 +7,8 @@
 // writes on neither server. Skipped where PostgreSQL or Redis is not installed (CI has both).
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Redis } from 'ioredis';
-import { pgAvailable, startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
-import { redisAvailable, startRedisServer, type RedisServer } from '../helpers/redis-server.ts';
+import { startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';
+import { startRedisServer, type RedisServer } from '../helpers/redis-server.ts';
 import { startSubtherm, type SubthermProcess } from '../helpers/subtherm-process.ts';
 import { LEASE_MS, REAP_MS } from '../../server/queue/connection.ts';
 
@@ -51,7 +51,7 @@ async function readEvents(url: string, ms: number): Promise<RunEvent[]> {
   return events;
 }
 
-describe.runIf(pgAvailable() && redisAvailable())('two servers and two workers on one PostgreSQL database and one Redis queue', () => {
+describe('two servers and two workers on one PostgreSQL database and one Redis queue', () => {
   let cluster: PgCluster;
   let redis: RedisServer;
   const servers: SubthermProcess[] = [];

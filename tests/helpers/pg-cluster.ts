@@ -30,14 +30,12 @@ function pgBin(): string | null {
   }
 }
 
-/** True when a PostgreSQL server can be started here (its binaries are installed). */
-export function pgAvailable(): boolean {
-  return pgBin() !== null;
-}
-
 export function startPgCluster(rootDir: string): PgCluster {
   const bin = pgBin();
-  if (bin === null) throw new Error('PostgreSQL is not installed: apt-get install -y postgresql');
+  if (bin === null)
+    throw new Error(
+      'PostgreSQL (pg_ctl), which this store test starts a throwaway cluster of, is not installed. Install it with apt-get install -y postgresql (bash .ci/run does).',
+    );
   const exe = (name: string) => (bin === '' ? name : join(bin, name));
   const asRoot = userInfo().uid === 0;
   mkdirSync(join(rootDir, '.tmp'), { recursive: true });

@@ -41,7 +41,10 @@ async function waitForPong(port: number, timeoutMs: number): Promise<void> {
 }
 
 export async function startRedisServer(rootDir: string): Promise<RedisServer> {
-  if (!redisAvailable()) throw new Error('redis-server is not installed: apt-get install -y redis-server');
+  if (!redisAvailable())
+    throw new Error(
+      'redis-server, which this queue test starts on a loopback port, is not installed. Install it with apt-get install -y redis-server (bash .ci/run does).',
+    );
   mkdirSync(join(rootDir, '.tmp'), { recursive: true });
   const dir = mkdtempSync(join(rootDir, '.tmp', 'redis-'));
   const port = 20000 + Math.floor(Math.random() * 40000);

@@ -8,7 +8,7 @@ import Database from 'better-sqlite3';
 import { SqliteStore } from '../../server/store/sqlite.ts';
 import { PostgresStore } from '../../server/store/postgres.ts';
 import type { Store } from '../../server/store/types.ts';
-import { pgAvailable, startPgCluster } from './pg-cluster.ts';
+import { startPgCluster } from './pg-cluster.ts';
 
 const ROOT = new URL('../..', import.meta.url).pathname;
 
@@ -69,8 +69,8 @@ function postgresDatabase(): TestDatabase {
   };
 }
 
-/** [name, start] pairs for describe.each: SQLite, then PostgreSQL when it can be started here. */
+/** [name, start] pairs for describe.each: SQLite, then PostgreSQL (a missing PostgreSQL fails with its install line). */
 export const TEST_DATABASES: [string, () => TestDatabase][] = [
   ['SQLite', sqliteDatabase],
-  ...(pgAvailable() ? [['PostgreSQL', postgresDatabase] as [string, () => TestDatabase]] : []),
+  ['PostgreSQL', postgresDatabase],
 ];
