@@ -5,7 +5,7 @@
  * one stored data set. A project holds at most `maxProjectStorageBytes` (413 naming the limit). Detaching a data
  * set removes it from the project's list; its content stays while any project, run or saved revision names it.
  * An upload with `replace=<dsId>` takes the place of that data set (same kind): it gets its name, and the old one is
- * detached.
+ * detached, both in one store transaction.
  */
 import type { Context, Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
@@ -73,9 +73,9 @@ export async function checkQuota(ctx: AppContext, projectId: string, bytes: numb
   }
 }
 
-/** A name not yet used by another data set of the project: "Faults", "Faults (2)", … */
-function freeName(existing: ProjectDatasetRecord[], wanted: string, except?: string): string {
-  const taken = new Set(existing.filter((d) => d.id !== except).map((d) => d.name));
+/** A name not yet used by another data set of the project (`except` aside): "Faults", "Faults (2)", … */
+function freeName(existing: ProjectDatasetRecord[], wanted: string, except: string[] = []): string {
+  const taken = new Set(existing.filter((d) => !except.includes(d.id)).map((d) => d.name));
   if (!taken.has(wanted)) return wanted;
   for (let k = 2; ; k++) if (!taken.has(`${wanted} (${k})`)) return `${wanted} (${k})`;
 }
@@ -86,17 +86,16 @@ export async function addToProject(
   projectId: string,
   up: ParsedUpload,
   name: string | undefined,
-  freedBytes = 0,
 ): Promise<{ dataset: ProjectDatasetRecord; status: 'created' | 'existing' | 'attached' }> {
   const found = await ctx.store.findDatasetByContent(up.kind, up.contentHash);
   const held = found ? await ctx.store.getProjectDataset(projectId, found.id) : null;
   if (held) {
     // Already in the project: nothing stored twice; a new name given with the upload renames it.
     if (name !== undefined && name !== held.name)
-      await ctx.store.renameProjectDataset(projectId, held.id, freeName(await ctx.store.listProjectDatasets(projectId), name, held.id));
+      await ctx.store.renameProjectDataset(projectId, held.id, freeName(await ctx.store.listProjectDatasets(projectId), name, [held.id]));
     return { dataset: (await ctx.store.getProjectDataset(projectId, held.id))!, status: 'existing' };
   }
-  await checkQuota(ctx, projectId, up.body.byteLength, `this ${up.kind} data set`, freedBytes);
+  await checkQuota(ctx, projectId, up.body.byteLength, `this ${up.kind} data set`);
   const rec = found ?? (await ctx.store.putDataset(storedOf(up)));
   const finalName = freeName(await ctx.store.listProjectDatasets(projectId), name ?? up.suggestedName ?? KIND_NAMES[up.kind] ?? up.kind);
   return { dataset: await ctx.store.attachDataset(projectId, rec.id, finalName), status: found ? 'attached' : 'created' };
@@ -116,21 +115,42 @@ async function uploadIntoProject(c: Context, ctx: AppContext): Promise<Response>
     );
   // The upload is validated before anything of the project changes.
   const up = await parseUpload(c, ctx, q.kind);
-  const { dataset, status } = await addToProject(ctx, id, up, old ? undefined : q.name, old?.bytes ?? 0);
-  const replaced = old && dataset.id !== old.id ? await replaceDataset(ctx, id, old, dataset.id, q.name ?? old.name) : null;
-  const view = datasetView(id, replaced ?? dataset);
+  const { dataset, status } = old ? await replaceInProject(ctx, id, up, old, q.name ?? old.name) : await addToProject(ctx, id, up, q.name);
+  const view = datasetView(id, dataset);
   return c.json(
     { ...view, deduplicated: status !== 'created', ...(old ? { replaced: old.id } : {}), warnings: up.warnings },
     status === 'existing' ? 200 : 201,
   );
 }
 
-/** Detaches `old` (its content kept while anything names it) and gives its name to the data set `newId` replacing it. */
-async function replaceDataset(ctx: AppContext, projectId: string, old: ProjectDatasetRecord, newId: string, name: string): Promise<ProjectDatasetRecord> {
-  await ctx.store.detachProjectDataset(projectId, old.id);
+/**
+ * Puts an upload in the place of the project's data set `old` under `name`: the quota counts the bytes `old` frees;
+ * the content is stored once (de-duplicated); detaching `old` and attaching the new one are one store transaction, so
+ * a failure leaves the project as it was. `old`'s content is then deleted unless a run or saved state still names it.
+ */
+async function replaceInProject(
+  ctx: AppContext,
+  projectId: string,
+  up: ParsedUpload,
+  old: ProjectDatasetRecord,
+  name: string,
+): Promise<{ dataset: ProjectDatasetRecord; status: 'created' | 'existing' | 'attached' }> {
+  const found = await ctx.store.findDatasetByContent(up.kind, up.contentHash);
+  if (found?.id === old.id) return { dataset: old, status: 'existing' };
+  const held = found ? await ctx.store.getProjectDataset(projectId, found.id) : null;
+  if (!held) await checkQuota(ctx, projectId, up.body.byteLength, `this ${up.kind} data set`, old.bytes);
+  const rec = found ?? (await ctx.store.putDataset(storedOf(up)));
+  const finalName = freeName(await ctx.store.listProjectDatasets(projectId), name, [old.id, rec.id]);
+  let dataset: ProjectDatasetRecord;
+  try {
+    dataset = await ctx.store.replaceProjectDataset(projectId, old.id, rec.id, finalName);
+  } catch (e) {
+    // Nothing of the project changed: content stored for this upload alone goes again.
+    if (!found) await ctx.store.pruneDataset(rec.id).catch(() => false);
+    throw e;
+  }
   await ctx.store.pruneDataset(old.id);
-  await ctx.store.renameProjectDataset(projectId, newId, freeName(await ctx.store.listProjectDatasets(projectId), name, newId));
-  return (await ctx.store.getProjectDataset(projectId, newId))!;
+  return { dataset, status: held ? 'existing' : found ? 'attached' : 'created' };
 }
 
 /** A project's terrain as the API describes it: a MapLibre raster-dem source plus where it came from. */

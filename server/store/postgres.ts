@@ -103,6 +103,12 @@ export class PostgresStore extends SqlStore implements Store {
     return (await this.pool.query(numbered(sql), params)).rowCount ?? 0;
   }
 
+  protected async execAll(statements: [sql: string, params: unknown[]][]): Promise<void> {
+    await this.tx(async (c) => {
+      for (const [sql, params] of statements) await c.query(numbered(sql), params);
+    });
+  }
+
   private async tx<T>(fn: (c: pg.PoolClient) => Promise<T>): Promise<T> {
     const c = await this.pool.connect();
     try {

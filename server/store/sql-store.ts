@@ -55,6 +55,8 @@ export abstract class SqlStore {
   protected abstract rows<T>(sql: string, params?: unknown[]): Promise<T[]>;
   /** Runs one statement (`?` placeholders); returns how many rows it changed. */
   protected abstract exec(sql: string, params?: unknown[]): Promise<number>;
+  /** Runs statements (`?` placeholders) in one transaction: all of them, or none when one fails. */
+  protected abstract execAll(statements: [sql: string, params: unknown[]][]): Promise<void>;
 
   /** A data set's record from its row (a store may complete what older rows lack). */
   protected datasetFromRow(r: DatasetRow): DatasetRecord {
@@ -130,6 +132,20 @@ export abstract class SqlStore {
       [projectId, datasetId, name, new Date().toISOString()],
     );
     return (await this.getProjectDataset(projectId, datasetId))!;
+  }
+
+  async replaceProjectDataset(projectId: string, oldId: string, newId: string, name: string): Promise<ProjectDatasetRecord> {
+    const now = new Date().toISOString();
+    await this.execAll([
+      ['UPDATE project_datasets SET detached_at = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL', [now, projectId, oldId]],
+      [
+        `INSERT INTO project_datasets (project_id, dataset_id, name, attached_at, detached_at) VALUES (?, ?, ?, ?, NULL)
+         ON CONFLICT (project_id, dataset_id) DO UPDATE SET name = excluded.name,
+           attached_at = CASE WHEN project_datasets.detached_at IS NULL THEN project_datasets.attached_at ELSE excluded.attached_at END, detached_at = NULL`,
+        [projectId, newId, name, now],
+      ],
+    ]);
+    return (await this.getProjectDataset(projectId, newId))!;
   }
 
   async listProjectDatasets(projectId: string): Promise<ProjectDatasetRecord[]> {

@@ -73,6 +73,15 @@ export class SqliteStore extends SqlStore implements Store {
     return this.db.prepare(sql).run(...params).changes;
   }
 
+  protected async execAll(statements: [sql: string, params: unknown[]][]): Promise<void> {
+    await this.writable();
+    this.db
+      .transaction(() => {
+        for (const [sql, params] of statements) this.db.prepare(sql).run(...params);
+      })
+      .immediate();
+  }
+
   /**
    * A statement writing a string or bytes of OFF_THREAD_WRITE_CHARS or more (a large data set body) runs on the
    * writer thread (sqlite-offthread.ts), so its commit never holds the request thread; smaller ones run here.

@@ -141,6 +141,11 @@ export interface Store {
   /** One attached data set of a project, or null. */
   getProjectDataset(projectId: string, datasetId: string): Promise<ProjectDatasetRecord | null>;
   renameProjectDataset(projectId: string, datasetId: string, name: string): Promise<boolean>;
+  /**
+   * In one transaction: detaches `oldId` from the project and attaches `newId` under `name` (renaming it when it was
+   * already attached), so a replacement either happens whole or not at all. Returns the new attachment.
+   */
+  replaceProjectDataset(projectId: string, oldId: string, newId: string, name: string): Promise<ProjectDatasetRecord>;
   /** Detaches a data set from a project; false when it was not attached. */
   detachProjectDataset(projectId: string, datasetId: string): Promise<boolean>;
   /** Deletes a data set's content when no project, run or project revision refers to it any more; true if deleted. */

@@ -137,6 +137,21 @@ describe.each(backends)('the %s store', (_name, make) => {
     expect(await s.getDataset(d.id)).toBeNull();
   });
 
+  it('replaces a data set in one transaction: a failed attach leaves the old one attached under its name', async () => {
+    await s.createProject({ id: 'p3', title: 'Three', stateJson: '{}', tokenHash: hashToken(newEditToken()) });
+    const old = await s.putDataset({ kind: 'faults', body: '{"type":"FeatureCollection","features":[],"v":1}', featureCount: 0 });
+    const other = await s.putDataset({ kind: 'faults', body: '{"type":"FeatureCollection","features":[],"v":2}', featureCount: 0 });
+    await s.attachDataset('p3', old.id, 'Faults');
+    // The new attachment names content that does not exist: the foreign key fails it, and the detach goes back too.
+    await expect(s.replaceProjectDataset('p3', old.id, 'no-such-dataset', 'Faults')).rejects.toThrow();
+    expect((await s.listProjectDatasets('p3')).map((x) => [x.id, x.name])).toEqual([[old.id, 'Faults']]);
+    const now = await s.replaceProjectDataset('p3', old.id, other.id, 'Faults');
+    expect(now.name).toBe('Faults');
+    expect((await s.listProjectDatasets('p3')).map((x) => [x.id, x.name])).toEqual([[other.id, 'Faults']]);
+    expect(await s.getProjectDataset('p3', old.id)).toBeNull();
+    expect(await s.projectStorageBytes('p3')).toBe(other.bytes);
+  });
+
   it('records runs, their progress, their projects and data sets, and fails runs left by a stopped server', async () => {
     await s.putRun(run('r1'));
     await s.updateRun('r1', { status: 'running', progress: 0.25, message: 'tile 1' });
