@@ -138,5 +138,5 @@ export async function gridOptionsFromArgs(a: SimulationArgs): Promise<OutputGrid
  */
 export function heatFlowSimulationOptions(a: SimulationArgs, trend: TrendChoice): RunSimulationOptions {
   const so = simulationOptionsFromArgs(a, 1, 0, 'mW/m²', trend);
-  return { ...sharedKrigingOptions(so), variogram: so.variogram, directions: so.directions, transform: so.transform, declustering: so.declustering };
+  return { ...sharedKrigingOptions(so), variogram: so.variogram, transform: so.transform, declustering: so.declustering };
 }

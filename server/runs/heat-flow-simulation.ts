@@ -60,11 +60,12 @@ export interface RunSimulationOptions {
 
 /**
  * The options the kriged heat-flow map and the simulation conditioned like it share, picked from either's options:
- * the same anisotropy, drift (and its covariate grid), neighbours, lags and measurement errors for both.
+ * the same anisotropy (and its direction classes), drift (and its covariate grid), neighbours, lags and measurement errors for both.
  */
 export function sharedKrigingOptions(o: RunSimulationOptions) {
   return {
     anisotropy: o.anisotropy,
+    directions: o.directions,
     trend: o.trend,
     externalDrift: o.externalDrift,
     neighbors: o.neighbors,
