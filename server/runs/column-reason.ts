@@ -1,11 +1,11 @@
 /**
  * Why a run has no heat flow at a point, for the column inspector's answer (POST /api/column with a run): outside the
  * run's grid; in a cell with no site visible across the faults (the run's `no-data-across-faults` layer), naming the
- * faults on the paths to the nearest sites; in another empty cell (no site within the search radius, or outside the
- * run's region); or within half a cell of an empty cell, where the bilinear reading lacks one of its four cells.
+ * faults on the paths to the nearest sites; or in another empty cell (no site within the search radius, or outside the
+ * run's region). A point in a filled cell always has a value (server/runs/grids.ts `sampleAtLonLat`).
  */
 import { InputError, type InputProblem } from '../../shared/errors.ts';
-import { colFromX, gridBbox, rowFromY } from '../../shared/grid/grid.ts';
+import { cellIndexFromXY, gridBbox } from '../../shared/grid/grid.ts';
 import { faultsOnPaths, type FaultPaths, type NamedTrace } from '../../shared/interp/fault-paths.ts';
 import { pointInPolygon, polygonsOf } from '../../shared/resource/polygon-mask.ts';
 import type { RunRequest } from '../../shared/schema/run.ts';
@@ -72,10 +72,8 @@ function faultsText(fp: FaultPaths): string {
 export async function noHeatFlowError(deps: ReasonDeps, run: { id: string; request: unknown }, heat: RunGrid, lon: number, lat: number): Promise<InputError> {
   const g = heat.grid;
   const [x, y] = heat.fromLonLat(lon, lat);
-  const c = Math.floor(colFromX(g, x)),
-    r = Math.floor(rowFromY(g, y));
   const field = 'lon,lat';
-  if (!(c >= 0 && c < g.width && r >= 0 && r < g.height)) {
+  if (cellIndexFromXY(g, x, y) < 0) {
     const [w, s, e, n] = gridBbox(g).map((v) => Math.round(v * 1e4) / 1e4);
     return new InputError(
       `${at(lon, lat)}: the point is outside the run's grid (W ${w}, S ${s}, E ${e}, N ${n}, ${g.crs})`,
@@ -83,12 +81,6 @@ export async function noHeatFlowError(deps: ReasonDeps, run: { id: string; reque
       'no_data_here',
     );
   }
-  if (Number.isFinite(g.values[r * g.width + c]))
-    return new InputError(
-      `${at(lon, lat)}: the point lies within half a cell of a cell with no value, and the bilinear reading needs the four cells around it; click nearer the centre of a filled cell`,
-      [{ field, problem: 'next to an empty cell' }],
-      'no_data_here',
-    );
   if (await inHiddenArea(deps.store, run.id, lon, lat)) {
     const req = run.request as RunRequest;
     const [sites, faults] = await Promise.all([deps.store.getDataset(req.sites), req.faults !== undefined ? deps.store.getDataset(req.faults) : null]);

@@ -58,8 +58,11 @@ export async function runGridOf(grid: Grid<Float32Array>): Promise<RunGrid> {
   return { grid, fromLonLat };
 }
 
-/** Bilinear value of a run grid at WGS84 lon/lat (NaN outside the grid or next to no-data cells). */
+/**
+ * Bilinear value of a run grid at WGS84 lon/lat: NaN outside the grid or in an empty cell; in a filled cell beside an
+ * empty one, from the filled cells around it (renormalised weights, shared/grid/grid.ts `sampleBilinear`).
+ */
 export function sampleAtLonLat(g: RunGrid, lon: number, lat: number): number {
   const [x, y] = g.fromLonLat(lon, lat);
-  return sampleBilinear(g.grid, x, y);
+  return sampleBilinear(g.grid, x, y, true);
 }

@@ -85,8 +85,13 @@ export function cellIndexFromXY(g: GridSpec, x: number, y: number): number {
   return row * g.width + col;
 }
 
-/** Bilinear sample at (x, y) between cell centres; NaN when any of the four is no data or outside. */
-export function sampleBilinear(g: Grid<Float32Array | Float64Array>, x: number, y: number): number {
+/**
+ * Bilinear sample at (x, y) between cell centres; NaN outside the grid. When one of the four cells is no data it is
+ * NaN too, unless `partial`: then, if the cell containing (x, y) holds a value, the weights of the cells that hold
+ * values are renormalised to sum to 1 (normalised convolution, Knutsson & Westin 1993), so that a point in a filled
+ * cell beside an empty one (a fault's far side, the edge of the data) still reads the values around it.
+ */
+export function sampleBilinear(g: Grid<Float32Array | Float64Array>, x: number, y: number, partial = false): number {
   const fc = colFromX(g, x);
   const fr = rowFromY(g, y);
   if (fc < -0.5 || fr < -0.5 || fc > g.width - 0.5 || fr > g.height - 0.5) return NaN;
@@ -101,7 +106,23 @@ export function sampleBilinear(g: Grid<Float32Array | Float64Array>, x: number, 
     b = v[r0 * g.width + c1],
     c = v[r1 * g.width + c0],
     d = v[r1 * g.width + c1];
-  return (a * (1 - tx) + b * tx) * (1 - ty) + (c * (1 - tx) + d * tx) * ty;
+  const full = (a * (1 - tx) + b * tx) * (1 - ty) + (c * (1 - tx) + d * tx) * ty;
+  if (!partial || Number.isFinite(full)) return full;
+  const here = cellIndexFromXY(g, x, y);
+  if (here < 0 || !Number.isFinite(v[here])) return NaN;
+  let sum = 0,
+    weight = 0;
+  const add = (value: number, w: number) => {
+    if (Number.isFinite(value) && w > 0) {
+      sum += w * value;
+      weight += w;
+    }
+  };
+  add(a, (1 - tx) * (1 - ty));
+  add(b, tx * (1 - ty));
+  add(c, (1 - tx) * ty);
+  add(d, tx * ty);
+  return weight > 0 ? sum / weight : v[here];
 }
 
 /** Min, max, mean and no-data count of the finite values (NaN skipped). */

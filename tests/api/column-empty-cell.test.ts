@@ -116,6 +116,41 @@ describe('POST /api/column at a point with no heat flow', () => {
     for (const name of named.keys()) expect(e.message).toContain(name);
   }, 300_000);
 
+  it('in a filled cell beside an empty one: a column from the filled cells around the point (renormalised bilinear weights)', async () => {
+    const grid = (await t.store.getRunGrid(runId, 'heatFlow'))!;
+    const { width, height, west, north, dx, dy } = grid.meta;
+    const v = grid.values;
+    // A filled cell whose eastern neighbour is empty while the rest of its 2 × 2 block to the north-east is filled.
+    let found: { r: number; c: number } | null = null;
+    for (let r = 1; r < height && !found; r++)
+      for (let c = 0; c < width - 1 && !found; c++)
+        if (
+          Number.isFinite(v[r * width + c]) &&
+          Number.isNaN(v[r * width + c + 1]) &&
+          Number.isFinite(v[(r - 1) * width + c]) &&
+          Number.isFinite(v[(r - 1) * width + c + 1])
+        )
+          found = { r, c };
+    expect(found).not.toBeNull();
+    const { r, c } = found!;
+    // A quarter cell east and north of the filled cell's centre: bilinear weights 0.5625 (the cell), 0.1875 (east,
+    // empty), 0.1875 (north), 0.0625 (north-east); the empty one's weight is dropped and the rest renormalised.
+    const lon = west + (c + 0.75) * dx,
+      lat = north - (r + 0.25) * dy;
+    const here = v[r * width + c],
+      northV = v[(r - 1) * width + c],
+      northEast = v[(r - 1) * width + c + 1];
+    const expected = (0.5625 * here + 0.1875 * northV + 0.0625 * northEast) / (0.5625 + 0.1875 + 0.0625);
+    const res = await t.post('/api/column', { runId, lon, lat });
+    expect(res.status, await res.clone().text()).toBe(200);
+    const body = (await res.json()) as { surfaceHeatFlowMWm2: number; isothermDepthsKm: Record<string, unknown> };
+    // Float32 grid values; the answer is rounded to 1e-6.
+    expect(Math.abs(body.surfaceHeatFlowMWm2 - expected)).toBeLessThan(2e-6);
+    // In the empty cell itself there is still no value.
+    const empty = await t.post('/api/column', { runId, lon: west + (c + 1.5) * dx, lat: north - (r + 0.5) * dy });
+    expect(empty.status).toBe(422);
+  });
+
   it('outside the run grid: says so, with the grid bounds', async () => {
     const res = await t.post('/api/column', { runId, lon: 10, lat: 10 });
     expect(res.status).toBe(422);

@@ -86,6 +86,28 @@ describe('grid converters', () => {
     expect(sampleBilinear(g, xFromCol(g, 1), yFromRow(g, 1))).toBe(5);
     expect(sampleBilinear(g, (xFromCol(g, 1) + xFromCol(g, 2)) / 2, (yFromRow(g, 0) + yFromRow(g, 1)) / 2)).toBeCloseTo(3.5, 6);
   });
+  it('beside an empty cell, reads the filled cells with their bilinear weights renormalised (normalised convolution)', () => {
+    // 2 × 2 cells of 1 × 1 with centres (0.5, 1.5) = 10, (1.5, 1.5) = 20, (0.5, 0.5) = empty, (1.5, 0.5) = 40.
+    const h: Grid<Float32Array> = {
+      width: 2,
+      height: 2,
+      west: 0,
+      north: 2,
+      dx: 1,
+      dy: 1,
+      crs: 'EPSG:4326',
+      units: 'mW/m²',
+      values: Float32Array.from([10, 20, NaN, 40]),
+    };
+    // At (1.25, 1.25), in the cell of 20: weights 0.1875 (10), 0.5625 (20), 0.0625 (empty), 0.1875 (40), worked by
+    // hand: (0.1875·10 + 0.5625·20 + 0.1875·40) / 0.9375 = 22.
+    expect(sampleBilinear(h, 1.25, 1.25)).toBeNaN();
+    expect(sampleBilinear(h, 1.25, 1.25, true)).toBeCloseTo(22, 12);
+    // Where all four hold values the two readings agree; in the empty cell and outside the grid there is none.
+    expect(sampleBilinear(h, 1.5, 1.5, true)).toBe(20);
+    expect(sampleBilinear(h, 0.75, 0.75, true)).toBeNaN();
+    expect(sampleBilinear(h, 2.5, 1.5, true)).toBeNaN();
+  });
 });
 
 describe('terrain tiles', () => {
