@@ -87,6 +87,7 @@ describe('grid converters', () => {
     expect(sampleBilinear(g, (xFromCol(g, 1) + xFromCol(g, 2)) / 2, (yFromRow(g, 0) + yFromRow(g, 1)) / 2)).toBeCloseTo(3.5, 6);
   });
   it('beside an empty cell, reads the filled cells with their bilinear weights renormalised (normalised convolution)', () => {
+    // docs/sources.md#normalised-convolution (Knutsson & Westin 1993).
     // 2 × 2 cells of 1 × 1 with centres (0.5, 1.5) = 10, (1.5, 1.5) = 20, (0.5, 0.5) = empty, (1.5, 0.5) = 40.
     const h: Grid<Float32Array> = {
       width: 2,
