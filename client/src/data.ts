@@ -120,7 +120,12 @@ export function dataPanel(ctx: AppContext, data: DataSets, hooks: DataPanelHooks
   );
   upload.root.prepend(el('h3', {}, 'Add data'));
   if (listed !== null) {
-    table = new ProjectDataTable(ctx, listed, (d) => (d.kind === 'model' ? void useModel(d) : use(d.id, d.kind, false)));
+    table = new ProjectDataTable(
+      ctx,
+      listed,
+      (d) => (d.kind === 'model' ? void useModel(d) : use(d.id, d.kind, false)),
+      () => upload.options(),
+    );
     table.onList(hooks.onList);
     const heading = ctx.projectId === null ? 'Data sets of the demo project' : 'Data sets of this project';
     const note =
@@ -147,6 +152,8 @@ export function dataPanel(ctx: AppContext, data: DataSets, hooks: DataPanelHooks
 export interface UploadPanel {
   root: HTMLElement;
   setEnabled(on: boolean): void;
+  /** The CRS and layer chosen in the form (what a CSV's x, y and a file's layers are read as), or what is wrong with them. */
+  options(): UploadOptions & { problem?: string };
 }
 
 /** Sends one file as a data set of `kind`; the answer may carry its own success message. */
@@ -299,6 +306,10 @@ export function uploadPanel(
   );
   return {
     root,
+    options() {
+      const c = crs.read();
+      return c.problem ? { problem: c.problem } : { crs: c.crs, layer: layer.value.trim() || undefined };
+    },
     setEnabled(on: boolean) {
       enabled = on;
       for (const c of [kind, input, layer, ...crs.controls]) c.disabled = !on;

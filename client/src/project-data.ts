@@ -173,6 +173,8 @@ export class ProjectDataTable {
     private readonly ctx: AppContext,
     private readonly projectId: string,
     private readonly onUse: (d: ProjectDataset) => void,
+    /** The upload form's CRS and layer, which a replacement file is read with. */
+    private readonly uploadOptions: () => UploadOptions & { problem?: string } = () => ({}),
   ) {}
 
   /** `fn` hears of every new listing (e.g. the run panel, which names the data sets it uses). */
@@ -259,17 +261,32 @@ export class ProjectDataTable {
 
   /**
    * "replace": a file of the same kind takes the data set's place and name (the server detaches the old one); when
-   * the old one was in use, the new one is used instead. A CSV is read as lon/lat here (other CRSs: "Add data").
+   * the old one was in use, the new one is used instead. A CSV's coordinates and a file's layer are read as chosen
+   * under "Add data" (its CRS chooser and layer field).
    */
   private replaceButton(d: ProjectDataset, used: boolean): HTMLElement {
     const input = el('input', { type: 'file', hidden: '', accept: '.geojson,.json,.csv,.txt,.gpkg,.zip,.tif,.tiff' });
-    const b = el('button', { type: 'button', class: 'small', 'data-action': 'replace', title: `replace "${d.name}" with a file of the same kind` }, 'replace');
+    const b = el(
+      'button',
+      {
+        type: 'button',
+        class: 'small',
+        'data-action': 'replace',
+        title: `replace "${d.name}" with a file of the same kind (a CSV's coordinates in the CRS chosen under Add data)`,
+      },
+      'replace',
+    );
     b.addEventListener('click', () => input.click());
     input.addEventListener('change', () => {
       const file = input.files?.[0];
       input.value = '';
       if (!file) return;
-      uploadToProject(this.ctx, d.kind, file, {}, d.id)
+      const { problem, ...opts } = this.uploadOptions();
+      if (problem) {
+        this.root.prepend(errorBox(`${d.name}: ${file.name}: ${problem}`));
+        return;
+      }
+      uploadToProject(this.ctx, d.kind, file, opts, d.id)
         .then(async (nd) => {
           if (used && nd.id !== d.id) this.onUse(nd);
           await this.refresh();

@@ -493,6 +493,23 @@ describe('a user region in the other hemisphere, end to end in the page', { time
       expect(Math.abs(f.geometry.coordinates[0] - SITES[i].lon)).toBeLessThan(1e-6);
       expect(Math.abs(f.geometry.coordinates[1] - SITES[i].lat)).toBeLessThan(1e-6);
     });
+    // "replace" in the data table reads the new CSV in the CRS chosen under Add data too (six other sites, in UTM).
+    const xy2 = SITES.slice(6, 12).map((s) => proj4('EPSG:4326', utm, [s.lon, s.lat]));
+    const csv2 = ['x,y,id,heatFlowMWm2', ...xy2.map((p, i) => [p[0].toFixed(3), p[1].toFixed(3), `V${i}`, SITES[6 + i].q].join(','))].join('\n');
+    await page
+      .locator(`#project-datasets tr[data-actions-for="${id}"] input[type="file"]`)
+      .setInputFiles({ name: 'velmar-utm-2.csv', mimeType: 'text/csv', buffer: Buffer.from(csv2) });
+    await expect.poll(() => page.evaluate(() => window.subtherm!.state.params.sites), { timeout: 30_000 }).not.toBe(id);
+    const id2 = await page.evaluate(() => window.subtherm!.state.params.sites);
+    const fc2 = (await (await fetch(`${server.url}/api/datasets/${id2}`)).json()) as { features: { geometry: { coordinates: number[] } }[] };
+    expect(fc2.features).toHaveLength(6);
+    fc2.features.forEach((f, i) => {
+      expect(Math.abs(f.geometry.coordinates[0] - SITES[6 + i].lon)).toBeLessThan(1e-6);
+      expect(Math.abs(f.geometry.coordinates[1] - SITES[6 + i].lat)).toBeLessThan(1e-6);
+    });
+    // It took the old one's name and place: one row of that name, the old id gone.
+    await expect.poll(() => page.locator(`#project-datasets tr[data-dataset="${id}"]`).count(), { timeout: 20_000 }).toBe(0);
+    expect(await page.locator(`#project-datasets tr[data-dataset="${id2}"] .name`).textContent()).toContain('velmar-utm');
     await page.locator('#upload-crs').selectOption('');
   });
 
