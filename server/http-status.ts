@@ -42,6 +42,7 @@ const STATUS_BY_CODE: Readonly<Record<string, number>> = {
   run_without_grid: 409,
   run_without_realizations: 409,
   name_taken: 409,
+  dataset_changed: 409,
   cancelled: 409,
   // 413/415: size and media type.
   too_many_features: 413,

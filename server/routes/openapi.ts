@@ -312,14 +312,17 @@ export function openApiDocument(): unknown {
           "the project's data sets: { id, datasets: [{ id, kind, name, featureCount, bbox [W,S,E,N] | null, bytes, contentHash, uploadedAt, url }], terrain, storage: { bytes, limitBytes } }",
           { params: ['id'], errors: [404] },
         ),
-        post: op('upload a data set into the project (edit token); 201 new, 200 when the project already holds the same content (deduplicated: true)', {
-          params: ['id'],
-          query: { ...PROJECT_UPLOAD_QUERY, ...UPLOAD_QUERY },
-          contents: UPLOAD_CONTENT,
-          ok: '201',
-          auth: true,
-          errors: [400, 401, 403, 404, 413, 415, 422],
-        }),
+        post: op(
+          'upload a data set into the project (edit token); 201 new, 200 when the project already holds the same content (deduplicated: true); with replace, 409 dataset_changed when another request replaced or removed that data set first',
+          {
+            params: ['id'],
+            query: { ...PROJECT_UPLOAD_QUERY, ...UPLOAD_QUERY },
+            contents: UPLOAD_CONTENT,
+            ok: '201',
+            auth: true,
+            errors: [400, 401, 403, 404, 409, 413, 415, 422],
+          },
+        ),
       },
       '/api/projects/{id}/datasets/{dsId}': {
         get: op("download a data set of the project (GeoJSON, or the model JSON under the project's name for it)", {

@@ -136,7 +136,12 @@ async function replaceInProject(
   name: string,
 ): Promise<{ dataset: ProjectDatasetRecord; status: 'created' | 'existing' | 'attached' }> {
   const found = await ctx.store.findDatasetByContent(up.kind, up.contentHash);
-  if (found?.id === old.id) return { dataset: old, status: 'existing' };
+  if (found?.id === old.id) {
+    // The same content again: nothing to replace; a new name given with it renames the data set, as an upload does.
+    if (name === old.name) return { dataset: old, status: 'existing' };
+    await ctx.store.renameProjectDataset(projectId, old.id, freeName(await ctx.store.listProjectDatasets(projectId), name, [old.id]));
+    return { dataset: (await ctx.store.getProjectDataset(projectId, old.id)) ?? old, status: 'existing' };
+  }
   const held = found ? await ctx.store.getProjectDataset(projectId, found.id) : null;
   if (!held) await checkQuota(ctx, projectId, up.body.byteLength, `this ${up.kind} data set`, old.bytes);
   const rec = found ?? (await ctx.store.putDataset(storedOf(up)));

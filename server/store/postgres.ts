@@ -9,7 +9,7 @@ import { putBlobWith, putGridWith, putRunFileWith, readGridRows, updateRunWith }
 import type { ProjectRecord, ProjectTerrainRecord, RunRecord, RunResultWrite, Store, StoredGridMeta } from './types.ts';
 import { newId } from './ids.ts';
 import { float32Of, runRowValues } from './rows.ts';
-import { SqlStore } from './sql-store.ts';
+import { SqlStore, type TxStatement } from './sql-store.ts';
 
 export { PG_MIGRATIONS, migratePostgres } from './postgres-schema.ts';
 
@@ -103,9 +103,10 @@ export class PostgresStore extends SqlStore implements Store {
     return (await this.pool.query(numbered(sql), params)).rowCount ?? 0;
   }
 
-  protected async execAll(statements: [sql: string, params: unknown[]][]): Promise<void> {
+  protected async execAll(statements: TxStatement[]): Promise<void> {
     await this.tx(async (c) => {
-      for (const [sql, params] of statements) await c.query(numbered(sql), params);
+      for (const [sql, params, unlessChanged] of statements)
+        if (((await c.query(numbered(sql), params)).rowCount ?? 0) === 0 && unlessChanged) throw unlessChanged;
     });
   }
 

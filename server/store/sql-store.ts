@@ -20,6 +20,7 @@ import type {
   RunStatus,
   StoredFileInfo,
 } from './types.ts';
+import { InputError } from '../../shared/errors.ts';
 import { bodyBbox } from './bbox.ts';
 import { newId, sha256Hex } from './ids.ts';
 import { bboxOf, datasetRecord, float32Of, projectDataset, runFromRow, runPatchColumns, type DatasetRow, type RunPatch, type RunRow } from './rows.ts';
@@ -48,6 +49,9 @@ const PROJECT_DATASETS = `SELECT ${DATASET_COLUMNS_D}, p.name, p.attached_at FRO
 const PROJECT_HEAD =
   'SELECT r.revision, r.title, r.state, r.created_at, p.created_at AS p_created FROM project_revisions r JOIN projects p ON p.id = r.project_id WHERE r.project_id = ?';
 
+/** One statement of a transaction: SQL, parameters and, when it must change a row, the error to throw otherwise. */
+export type TxStatement = [sql: string, params: unknown[], unlessChanged?: Error];
+
 type AttachedRow = DatasetRow & { name: string; attached_at: string };
 
 export abstract class SqlStore {
@@ -55,8 +59,11 @@ export abstract class SqlStore {
   protected abstract rows<T>(sql: string, params?: unknown[]): Promise<T[]>;
   /** Runs one statement (`?` placeholders); returns how many rows it changed. */
   protected abstract exec(sql: string, params?: unknown[]): Promise<number>;
-  /** Runs statements (`?` placeholders) in one transaction: all of them, or none when one fails. */
-  protected abstract execAll(statements: [sql: string, params: unknown[]][]): Promise<void>;
+  /**
+   * Runs statements (`?` placeholders) in one transaction: all of them, or none when one fails. A statement given an
+   * error as its third member must change a row: when it changes none, that error is thrown and nothing is written.
+   */
+  protected abstract execAll(statements: TxStatement[]): Promise<void>;
 
   /** A data set's record from its row (a store may complete what older rows lack). */
   protected datasetFromRow(r: DatasetRow): DatasetRecord {
@@ -136,8 +143,14 @@ export abstract class SqlStore {
 
   async replaceProjectDataset(projectId: string, oldId: string, newId: string, name: string): Promise<ProjectDatasetRecord> {
     const now = new Date().toISOString();
+    // Another request that replaced or removed `oldId` first leaves nothing to detach: this one then writes nothing.
+    const gone = new InputError(
+      `data set ${oldId} was replaced or removed by another request meanwhile: nothing was changed; list the project's data sets and try again`,
+      [{ field: 'replace', problem: `${oldId} is no longer attached to project ${projectId}` }],
+      'dataset_changed',
+    );
     await this.execAll([
-      ['UPDATE project_datasets SET detached_at = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL', [now, projectId, oldId]],
+      ['UPDATE project_datasets SET detached_at = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL', [now, projectId, oldId], gone],
       [
         `INSERT INTO project_datasets (project_id, dataset_id, name, attached_at, detached_at) VALUES (?, ?, ?, ?, NULL)
          ON CONFLICT (project_id, dataset_id) DO UPDATE SET name = excluded.name,

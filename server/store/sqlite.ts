@@ -7,7 +7,7 @@ import { sha256Hex } from './ids.ts';
 import { MIGRATIONS } from './sqlite-schema.ts';
 import { isLargeParam, SqliteWriter } from './sqlite-offthread.ts';
 import { bboxOf, datasetRecord, float32Of, runRowValues, runPatchColumns, type DatasetRow, type RunPatch } from './rows.ts';
-import { SqlStore, blobChunks } from './sql-store.ts';
+import { SqlStore, blobChunks, type TxStatement } from './sql-store.ts';
 
 export { newId, sha256Hex } from './ids.ts';
 
@@ -73,11 +73,11 @@ export class SqliteStore extends SqlStore implements Store {
     return this.db.prepare(sql).run(...params).changes;
   }
 
-  protected async execAll(statements: [sql: string, params: unknown[]][]): Promise<void> {
+  protected async execAll(statements: TxStatement[]): Promise<void> {
     await this.writable();
     this.db
       .transaction(() => {
-        for (const [sql, params] of statements) this.db.prepare(sql).run(...params);
+        for (const [sql, params, unlessChanged] of statements) if (this.db.prepare(sql).run(...params).changes === 0 && unlessChanged) throw unlessChanged;
       })
       .immediate();
   }

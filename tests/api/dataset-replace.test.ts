@@ -69,6 +69,54 @@ describe('POST /api/projects/:id/datasets?replace=<dsId>', () => {
     expect(await list()).toEqual(before);
   });
 
+  it('renames on a replacement with the same content and a new name; takes over a data set already holding the content', async () => {
+    const [d] = await list();
+    const same = await (await t.app.request(`/api/datasets/${d.id}`)).text();
+    // The same content again, with a name: nothing is replaced, the data set is renamed (as a plain upload would be).
+    const renamed = await t.app.request(`/api/projects/${pid}/datasets?kind=sites&name=Leg%201%20sites%20(checked)&replace=${d.id}`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/geo+json', ...auth() },
+      body: same,
+    });
+    expect(renamed.status).toBe(200);
+    expect(await renamed.json()).toMatchObject({ id: d.id, name: 'Leg 1 sites (checked)', deduplicated: true });
+    expect((await list()).map((x) => [x.id, x.name])).toEqual([[d.id, 'Leg 1 sites (checked)']]);
+    // Content the project already holds under another name: that data set takes the replaced one's place and name.
+    const other = (await (await upload('sites', csv(77), '&name=Leg%202%20sites')).json()) as { id: string };
+    const held = await upload('sites', csv(77), `&replace=${d.id}`);
+    expect(held.status).toBe(200);
+    expect(await held.json()).toMatchObject({ id: other.id, name: 'Leg 1 sites (checked)', replaced: d.id, deduplicated: true });
+    expect((await list()).map((x) => [x.id, x.name])).toEqual([[other.id, 'Leg 1 sites (checked)']]);
+  });
+
+  it('lets one of two concurrent replacements of a data set win; the other is 409 and leaves no content behind', async () => {
+    const [d] = await list();
+    const bodies = [csv(83), csv(84)];
+    const answers = await Promise.all(bodies.map(async (b) => await upload('sites', b, `&replace=${d.id}`)));
+    const statuses = answers.map((r) => r.status);
+    expect([...statuses].sort()).toEqual([201, 409]);
+    const won = statuses.indexOf(201);
+    const lost = 1 - won;
+    const winner = (await answers[won].json()) as { id: string };
+    const e = ((await answers[lost].json()) as { error: { code: string; details: { field: string }[] } }).error;
+    expect(e.code).toBe('dataset_changed');
+    expect(e.details[0].field).toBe('replace');
+    expect((await list()).map((x) => [x.id, x.name])).toEqual([[winner.id, 'Leg 1 sites (checked)']]);
+    // The losing upload's content was stored for it alone and is gone again: a new project storing the same CSV
+    // stores it afresh (deduplicated false), while the winner's content is found (deduplicated true).
+    const p2 = (await (await t.post('/api/projects', { title: 'Bellwether Rise check' })).json()) as { id: string; editToken: string };
+    const put2 = async (body: string) =>
+      (await (
+        await t.app.request(`/api/projects/${p2.id}/datasets?kind=sites`, {
+          method: 'POST',
+          headers: { 'content-type': 'text/csv', authorization: `Bearer ${p2.editToken}` },
+          body,
+        })
+      ).json()) as { deduplicated: boolean };
+    expect((await put2(bodies[lost])).deduplicated).toBe(false);
+    expect((await put2(bodies[won])).deduplicated).toBe(true);
+  });
+
   it('counts the replaced data set as freed: a project at its storage limit takes a replacement of the same size', async () => {
     // The stored size of one upload of these sites (csv(q) has the same length for every two-digit q).
     const sizeOf = async (app: TestApp, id: string, token: string) => {

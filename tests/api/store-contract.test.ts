@@ -2,7 +2,7 @@
 // `postgres` user when the tests run as root). Both must behave the same through the interface, and both must refuse
 // to change a saved revision in the database itself.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { SqliteStore } from '../../server/store/sqlite.ts';
 import { PostgresStore, PG_MIGRATIONS, migratePostgres } from '../../server/store/postgres.ts';
@@ -23,6 +23,7 @@ const backends: [string, () => Promise<Backend>][] = [
   [
     'SQLite',
     async () => {
+      mkdirSync(join(ROOT, '.tmp'), { recursive: true });
       const dir = mkdtempSync(join(ROOT, '.tmp', 'store-sqlite-'));
       const store = new SqliteStore(join(dir, 'db.sqlite'));
       return {
@@ -150,6 +151,16 @@ describe.each(backends)('the %s store', (_name, make) => {
     expect((await s.listProjectDatasets('p3')).map((x) => [x.id, x.name])).toEqual([[other.id, 'Faults']]);
     expect(await s.getProjectDataset('p3', old.id)).toBeNull();
     expect(await s.projectStorageBytes('p3')).toBe(other.bytes);
+    // Two replacements of the same data set at once: one detaches it, the other finds nothing to detach, is refused
+    // (dataset_changed) and writes nothing.
+    const [a, b] = await Promise.all(
+      [3, 4].map((v) => s.putDataset({ kind: 'faults', body: `{"type":"FeatureCollection","features":[],"v":${v}}`, featureCount: 0 })),
+    );
+    const both = await Promise.allSettled([a, b].map((d) => s.replaceProjectDataset('p3', other.id, d.id, 'Faults')));
+    expect(both.map((r) => r.status).sort()).toEqual(['fulfilled', 'rejected']);
+    const lost = both.findIndex((r) => r.status === 'rejected');
+    expect(((both[lost] as PromiseRejectedResult).reason as { code: string }).code).toBe('dataset_changed');
+    expect((await s.listProjectDatasets('p3')).map((x) => [x.id, x.name])).toEqual([[[a, b][1 - lost].id, 'Faults']]);
   });
 
   it('records runs, their progress, their projects and data sets, and fails runs left by a stopped server', async () => {
