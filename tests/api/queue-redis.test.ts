@@ -3,7 +3,8 @@
 // slowed, failed or cancelled on demand). Checks: a run started through A is followed live through B's event stream
 // and served by B; a cancel through B stops a run a worker is running; the start order is round-robin across
 // clients and the per-client bound holds across servers; a run whose workers keep dying is started again a bounded
-// number of times, then ends failed with the reason. Skipped where PostgreSQL or Redis is not installed (CI has both).
+// number of times, then ends failed with the reason. Needs PostgreSQL and redis-server installed (bash .ci/run
+// installs them); without them the test fails with the install line.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { fileURLToPath } from 'node:url';
 import { createApp } from '../../server/app.ts';

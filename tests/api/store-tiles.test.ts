@@ -6,7 +6,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { execFileSync } from 'node:child_process';
 import { createHash } from 'node:crypto';
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import Database from 'better-sqlite3';
 import { fromArrayBuffer } from 'geotiff';
@@ -23,6 +23,7 @@ import { prng } from '../helpers/prng.ts';
 import { requireGdal } from '../helpers/gdal.ts';
 
 const ROOT = new URL('../..', import.meta.url).pathname;
+mkdirSync(join(ROOT, '.tmp'), { recursive: true });
 
 /** A 1536 × 1024 heat-flow layer (6 COG tiles at full resolution) in the invented demo region, with fine noise. */
 function layer(): Uint8Array {

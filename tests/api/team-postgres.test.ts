@@ -1,6 +1,7 @@
 // Two servers on one PostgreSQL database (a throwaway cluster): what one saves the other serves, an edit token issued
 // by one works on the other, a view link writes on neither, and a run started through one is read, with its layers
-// and tiles, through the other. Skipped where PostgreSQL is not installed (CI installs it).
+// and tiles, through the other. Needs PostgreSQL installed (bash .ci/run installs it); without it the test fails with
+// the install line.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { fileURLToPath } from 'node:url';
 import { createApp } from '../../server/app.ts';

@@ -4,7 +4,8 @@
 // must then end within KILL_TO_END_S seconds, either done on the other worker or failed with the reason (never left
 // running); its layers and tiles are served by B. Meanwhile saves go to one project through both servers with the
 // edit token A issued: every acknowledged save is there afterwards, and a request without it, or with another token,
-// writes on neither server. Skipped where PostgreSQL or Redis is not installed (CI has both).
+// writes on neither server. Needs PostgreSQL and redis-server installed (bash .ci/run installs them); without them
+// the test fails with the install line.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Redis } from 'ioredis';
 import { startPgCluster, type PgCluster } from '../helpers/pg-cluster.ts';

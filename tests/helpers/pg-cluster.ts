@@ -34,7 +34,7 @@ export function startPgCluster(rootDir: string): PgCluster {
   const bin = pgBin();
   if (bin === null)
     throw new Error(
-      'PostgreSQL (pg_ctl), which this store test starts a throwaway cluster of, is not installed. Install it with apt-get install -y postgresql (bash .ci/run does).',
+      'PostgreSQL (pg_ctl), which this test starts a throwaway cluster of, is not installed. Install it with apt-get install -y postgresql (bash .ci/run does).',
     );
   const exe = (name: string) => (bin === '' ? name : join(bin, name));
   const asRoot = userInfo().uid === 0;

@@ -43,7 +43,7 @@ async function waitForPong(port: number, timeoutMs: number): Promise<void> {
 export async function startRedisServer(rootDir: string): Promise<RedisServer> {
   if (!redisAvailable())
     throw new Error(
-      'redis-server, which this queue test starts on a loopback port, is not installed. Install it with apt-get install -y redis-server (bash .ci/run does).',
+      'redis-server, which this test starts on a loopback port, is not installed. Install it with apt-get install -y redis-server (bash .ci/run does).',
     );
   mkdirSync(join(rootDir, '.tmp'), { recursive: true });
   const dir = mkdtempSync(join(rootDir, '.tmp', 'redis-'));

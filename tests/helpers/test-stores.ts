@@ -1,5 +1,5 @@
-// The stores a server test runs against: the SQLite file (always) and PostgreSQL (a throwaway cluster, when its
-// packages are installed; CI always has them). Tests take the list with describe.each, so one test body checks both.
+// The stores a server test runs against: the SQLite file and PostgreSQL (a throwaway cluster; without PostgreSQL
+// installed the test fails with the install line, and bash .ci/run installs it). Tests take the list with describe.each, so one test body checks both.
 import { mkdtempSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
