@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { spawnSync } from 'node:child_process';
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { execFileSync, spawnSync } from 'node:child_process';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import { encodePng } from '../../server/io/png.ts';
@@ -108,6 +108,43 @@ describe('grid converters', () => {
     expect(sampleBilinear(h, 1.5, 1.5, true)).toBe(20);
     expect(sampleBilinear(h, 0.75, 0.75, true)).toBeNaN();
     expect(sampleBilinear(h, 2.5, 1.5, true)).toBeNaN();
+  });
+  it("beside an empty cell, reads as GDAL's bilinear warp does with a NoData value (gdalwarp -r bilinear, GDAL 3.6)", () => {
+    // docs/sources.md#normalised-convolution: the same 2 × 2 grid as an ASCII grid with NODATA_value −9999, warped by
+    // GDAL to one pixel of 0.001 centred on each point (so the kernel is GDAL's plain bilinear one), read back.
+    requireGdal('gdalwarp', 'gdallocationinfo');
+    const h: Grid<Float32Array> = { width: 2, height: 2, west: 0, north: 2, dx: 1, dy: 1, crs: '', units: '', values: Float32Array.from([10, 20, NaN, 40]) };
+    const dir = tmp();
+    try {
+      const src = join(dir, 'g.asc');
+      writeFileSync(src, 'ncols 2\nnrows 2\nxllcorner 0\nyllcorner 0\ncellsize 1\nNODATA_value -9999\n10 20\n-9999 40\n');
+      const points = [
+        [1.25, 1.25],
+        [0.75, 0.75],
+        [1.5, 1.5],
+        [1.1, 1.9],
+        [0.6, 1.4],
+        [1.9, 0.6],
+        [0.3, 1.7],
+        [1.4, 0.8],
+        [0.95, 1.05],
+        [1.05, 0.95],
+        [1.2, 0.3],
+        [0.9, 0.2],
+      ];
+      for (const [x, y] of points) {
+        const out = join(dir, 'p.tif');
+        const e = 0.0005;
+        const te = [x - e, y - e, x + e, y + e].map(String);
+        execFileSync('gdalwarp', ['-q', '-overwrite', '-r', 'bilinear', '-te', ...te, '-ts', '1', '1', '-dstnodata', '-9999', '-ot', 'Float64', src, out]);
+        const gdal = Number(execFileSync('gdallocationinfo', ['-valonly', out, '0', '0'], { encoding: 'utf8' }).trim());
+        const ours = sampleBilinear(h, x, y, true);
+        if (gdal === -9999) expect(ours, `(${x}, ${y})`).toBeNaN();
+        else expect(Math.abs(ours - gdal), `(${x}, ${y}): ours ${ours}, GDAL ${gdal}`).toBeLessThan(1e-9);
+      }
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
   });
 });
 
