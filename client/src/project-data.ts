@@ -291,9 +291,11 @@ export class ProjectDataTable {
           if (used && nd.id !== d.id) this.onUse(nd);
           await this.refresh();
         })
-        .catch((e: unknown) =>
-          this.root.prepend(e instanceof ApiError ? errorBox(`${d.name}: ${e.message}`, e.details) : errorBox(`${d.name}: ${message(e)}`)),
-        );
+        .catch(async (e: unknown) => {
+          // Replaced or removed through another page meanwhile: list the project as it now is, then say why.
+          if (e instanceof ApiError && e.code === 'dataset_changed') await this.refresh();
+          this.root.prepend(e instanceof ApiError ? errorBox(`${d.name}: ${e.message}`, e.details) : errorBox(`${d.name}: ${message(e)}`));
+        });
     });
     return el('span', {}, b, input);
   }

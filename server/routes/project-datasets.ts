@@ -11,6 +11,7 @@ import type { Context, Hono } from 'hono';
 import { InputError } from '../../shared/errors.ts';
 import { runRequestSchema } from '../../shared/schema/run.ts';
 import type { ProjectDatasetRecord } from '../store/types.ts';
+import { datasetChangedError } from '../store/errors.ts';
 import { bodyBytes, clientAddress, jsonBody, requireJsonType, singleQuery, type AppContext } from './context.ts';
 import { parseUpload, storedOf, type ParsedUpload } from './datasets.ts';
 import { projectIdOf, requireEditToken } from './projects.ts';
@@ -138,9 +139,10 @@ async function replaceInProject(
   const found = await ctx.store.findDatasetByContent(up.kind, up.contentHash);
   if (found?.id === old.id) {
     // The same content again: nothing to replace; a new name given with it renames the data set, as an upload does.
-    if (name === old.name) return { dataset: old, status: 'existing' };
-    await ctx.store.renameProjectDataset(projectId, old.id, freeName(await ctx.store.listProjectDatasets(projectId), name, [old.id]));
-    return { dataset: (await ctx.store.getProjectDataset(projectId, old.id)) ?? old, status: 'existing' };
+    if (name !== old.name) await ctx.store.renameProjectDataset(projectId, old.id, freeName(await ctx.store.listProjectDatasets(projectId), name, [old.id]));
+    const now = await ctx.store.getProjectDataset(projectId, old.id);
+    if (!now) throw datasetChangedError(projectId, old.id);
+    return { dataset: now, status: 'existing' };
   }
   const held = found ? await ctx.store.getProjectDataset(projectId, found.id) : null;
   if (!held) await checkQuota(ctx, projectId, up.body.byteLength, `this ${up.kind} data set`, old.bytes);

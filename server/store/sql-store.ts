@@ -20,7 +20,7 @@ import type {
   RunStatus,
   StoredFileInfo,
 } from './types.ts';
-import { InputError } from '../../shared/errors.ts';
+import { datasetChangedError } from './errors.ts';
 import { bodyBbox } from './bbox.ts';
 import { newId, sha256Hex } from './ids.ts';
 import { bboxOf, datasetRecord, float32Of, projectDataset, runFromRow, runPatchColumns, type DatasetRow, type RunPatch, type RunRow } from './rows.ts';
@@ -144,11 +144,7 @@ export abstract class SqlStore {
   async replaceProjectDataset(projectId: string, oldId: string, newId: string, name: string): Promise<ProjectDatasetRecord> {
     const now = new Date().toISOString();
     // Another request that replaced or removed `oldId` first leaves nothing to detach: this one then writes nothing.
-    const gone = new InputError(
-      `data set ${oldId} was replaced or removed by another request meanwhile: nothing was changed; list the project's data sets and try again`,
-      [{ field: 'replace', problem: `${oldId} is no longer attached to project ${projectId}` }],
-      'dataset_changed',
-    );
+    const gone = datasetChangedError(projectId, oldId);
     await this.execAll([
       ['UPDATE project_datasets SET detached_at = ? WHERE project_id = ? AND dataset_id = ? AND detached_at IS NULL', [now, projectId, oldId], gone],
       [

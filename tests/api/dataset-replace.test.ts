@@ -117,6 +117,34 @@ describe('POST /api/projects/:id/datasets?replace=<dsId>', () => {
     expect((await put2(bodies[won])).deduplicated).toBe(true);
   });
 
+  it('answers 409 when the data set is removed by another request after the upload was read (same content too)', async () => {
+    const [d] = await list();
+    const same = await (await t.app.request(`/api/datasets/${d.id}`)).text();
+    // Another request removes the data set between this one's validation and its write: the store's content lookup,
+    // the first step after validation, is where it slips in.
+    const store = t.store;
+    const lookup = store.findDatasetByContent.bind(store);
+    store.findDatasetByContent = async (kind, hash) => {
+      store.findDatasetByContent = lookup;
+      await store.detachProjectDataset(pid, d.id);
+      return lookup(kind, hash);
+    };
+    try {
+      const res = await t.app.request(`/api/projects/${pid}/datasets?kind=sites&name=Leg%201%20sites%20(again)&replace=${d.id}`, {
+        method: 'POST',
+        headers: { 'content-type': 'application/geo+json', ...auth() },
+        body: same,
+      });
+      expect(res.status).toBe(409);
+      expect(((await res.json()) as { error: { code: string } }).error.code).toBe('dataset_changed');
+    } finally {
+      store.findDatasetByContent = lookup;
+    }
+    expect(await list()).toEqual([]);
+    // Put it back for the next test.
+    await store.attachDataset(pid, d.id, d.name);
+  });
+
   it('counts the replaced data set as freed: a project at its storage limit takes a replacement of the same size', async () => {
     // The stored size of one upload of these sites (csv(q) has the same length for every two-digit q).
     const sizeOf = async (app: TestApp, id: string, token: string) => {
