@@ -10,7 +10,7 @@
 //   so the depth's P10 is k·(T − T0)/q₍₁₀₎ and its P90 k·(T − T0)/q₍₂₎, with q₍ᵢ₎ the sorted heat flows read from
 //   the data file in the test.
 import { describe, it, expect, beforeAll, afterAll } from 'vitest';
-import { mkdtempSync, writeFileSync, existsSync, rmSync, readFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, writeFileSync, existsSync, rmSync, readFileSync } from 'node:fs';
 import { spawnSync } from 'node:child_process';
 import { join } from 'node:path';
 import { runCli, runCliJson } from '../helpers/cli.ts';
@@ -38,6 +38,7 @@ const tif = async (p: string) => {
 };
 
 beforeAll(() => {
+  mkdirSync(join(root, '.tmp'), { recursive: true });
   dir = mkdtempSync(join(root, '.tmp', 'realizations-file-'));
   const features = [];
   for (let i = 0; i < 5; i++)
