@@ -496,9 +496,16 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     // "replace" in the data table reads the new CSV in the CRS chosen under Add data too (six other sites, in UTM).
     const xy2 = SITES.slice(6, 12).map((s) => proj4('EPSG:4326', utm, [s.lon, s.lat]));
     const csv2 = ['x,y,id,heatFlowMWm2', ...xy2.map((p, i) => [p[0].toFixed(3), p[1].toFixed(3), `V${i}`, SITES[6 + i].q].join(','))].join('\n');
-    await page
-      .locator(`#project-datasets tr[data-actions-for="${id}"] input[type="file"]`)
-      .setInputFiles({ name: 'velmar-utm-2.csv', mimeType: 'text/csv', buffer: Buffer.from(csv2) });
+    const oldName = await page.locator(`#project-datasets tr[data-dataset="${id}"] .name`).textContent();
+    const replaceInput = page.locator(`#project-datasets tr[data-actions-for="${id}"] input[type="file"]`);
+    // A CRS the chooser cannot read is reported in the table and nothing is sent: the data set stays as it was.
+    await page.locator('#upload-crs-code').fill('UTM57N');
+    await replaceInput.setInputFiles({ name: 'velmar-utm-2.csv', mimeType: 'text/csv', buffer: Buffer.from(csv2) });
+    await expect.poll(() => page.locator('#project-datasets .error').textContent(), { timeout: 10_000 }).toContain('UTM57N');
+    expect(await page.evaluate(() => window.subtherm!.state.params.sites)).toBe(id);
+    expect(((await (await fetch(`${server.url}/api/datasets/${id}`)).json()) as { features: unknown[] }).features).toHaveLength(6);
+    await page.locator('#upload-crs-code').fill('32657');
+    await replaceInput.setInputFiles({ name: 'velmar-utm-2.csv', mimeType: 'text/csv', buffer: Buffer.from(csv2) });
     await expect.poll(() => page.evaluate(() => window.subtherm!.state.params.sites), { timeout: 30_000 }).not.toBe(id);
     const id2 = await page.evaluate(() => window.subtherm!.state.params.sites);
     const fc2 = (await (await fetch(`${server.url}/api/datasets/${id2}`)).json()) as { features: { geometry: { coordinates: number[] } }[] };
@@ -509,7 +516,7 @@ describe('a user region in the other hemisphere, end to end in the page', { time
     });
     // It took the old one's name and place: one row of that name, the old id gone.
     await expect.poll(() => page.locator(`#project-datasets tr[data-dataset="${id}"]`).count(), { timeout: 20_000 }).toBe(0);
-    expect(await page.locator(`#project-datasets tr[data-dataset="${id2}"] .name`).textContent()).toContain('velmar-utm');
+    expect(await page.locator(`#project-datasets tr[data-dataset="${id2}"] .name`).textContent()).toBe(oldName);
     await page.locator('#upload-crs').selectOption('');
   });
 
