@@ -70,6 +70,9 @@ export interface UploadOptions {
   layer?: string;
 }
 
+/** The upload form's choices as the upload routes take them, or what is wrong with them (nothing is sent then). */
+export type UploadChoice = UploadOptions & { problem?: string };
+
 /** The media type an upload of `fileName` goes as: CSV, GeoPackage, zipped Shapefile, JSON (a model) or GeoJSON. */
 export function uploadMediaType(fileName: string, kind: string): string {
   if (/\.(csv|txt)$/i.test(fileName)) return 'text/csv';

@@ -4,7 +4,7 @@
  * field, what is wrong) is shown as a table in the page.
  */
 import type { GeoJSONSource } from 'maplibre-gl';
-import { ApiError, getJson, uploadDataset, type DatasetCreated, type UploadOptions } from './api.ts';
+import { ApiError, getJson, uploadDataset, type DatasetCreated, type UploadChoice, type UploadOptions } from './api.ts';
 import { featuresBbox, fitBbox, type Bbox } from './basemap.ts';
 import { message, type AppContext } from './context.ts';
 import { el, errorBox, problemTable, replace } from './dom.ts';
@@ -153,7 +153,7 @@ export interface UploadPanel {
   root: HTMLElement;
   setEnabled(on: boolean): void;
   /** The CRS and layer chosen in the form (what a CSV's x, y and a file's layers are read as), or what is wrong with them. */
-  options(): UploadOptions & { problem?: string };
+  options(): UploadChoice;
 }
 
 /** Sends one file as a data set of `kind`; the answer may carry its own success message. */
@@ -267,11 +267,15 @@ export function uploadPanel(
   const report = el('div', { id: 'upload-report', 'aria-live': 'polite' });
   let enabled = true;
 
+  const options = (): UploadChoice => {
+    const c = crs.read();
+    return c.problem ? { problem: c.problem } : { crs: c.crs, layer: layer.value.trim() || undefined };
+  };
   const send = async (file: File) => {
     if (!enabled) return;
-    const c = crs.read();
-    if (c.problem) {
-      replace(report, errorBox(`${file.name}: ${c.problem}`));
+    const { problem, ...opts } = options();
+    if (problem) {
+      replace(report, errorBox(`${file.name}: ${problem}`));
       return;
     }
     if (kind.value === 'terrain' && !/\.tiff?$/i.test(file.name)) {
@@ -280,7 +284,7 @@ export function uploadPanel(
     }
     replace(report, el('p', { class: 'loading' }, `Uploading ${file.name} as ${UPLOAD_LABELS[kind.value] ?? kind.value}…`));
     try {
-      const d = await upload(kind.value, file, { crs: c.crs, layer: layer.value.trim() || undefined });
+      const d = await upload(kind.value, file, opts);
       showAccepted(report, d, file.name);
       onUploaded(d, file.name);
     } catch (e) {
@@ -306,10 +310,7 @@ export function uploadPanel(
   );
   return {
     root,
-    options() {
-      const c = crs.read();
-      return c.problem ? { problem: c.problem } : { crs: c.crs, layer: layer.value.trim() || undefined };
-    },
+    options,
     setEnabled(on: boolean) {
       enabled = on;
       for (const c of [kind, input, layer, ...crs.controls]) c.disabled = !on;

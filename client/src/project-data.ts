@@ -4,7 +4,7 @@
  * Changes carry the project's edit token; a read-only page lists and downloads only. "New project" starts an empty
  * project and opens its edit link.
  */
-import { ApiError, getJson, sendJson, uploadMediaType, uploadQuery, type Problem, type UploadOptions } from './api.ts';
+import { ApiError, getJson, sendJson, uploadMediaType, uploadQuery, type Problem, type UploadChoice, type UploadOptions } from './api.ts';
 import type { Map as MapLibreMap } from 'maplibre-gl';
 import { fitBbox, type Bbox } from './basemap.ts';
 import { message, type AppContext } from './context.ts';
@@ -174,7 +174,7 @@ export class ProjectDataTable {
     private readonly projectId: string,
     private readonly onUse: (d: ProjectDataset) => void,
     /** The upload form's CRS and layer, which a replacement file is read with. */
-    private readonly uploadOptions: () => UploadOptions & { problem?: string } = () => ({}),
+    private readonly uploadOptions: () => UploadChoice = () => ({}),
   ) {}
 
   /** `fn` hears of every new listing (e.g. the run panel, which names the data sets it uses). */

@@ -143,7 +143,9 @@ export interface Store {
   renameProjectDataset(projectId: string, datasetId: string, name: string): Promise<boolean>;
   /**
    * In one transaction: detaches `oldId` from the project and attaches `newId` under `name` (renaming it when it was
-   * already attached), so a replacement either happens whole or not at all. Returns the new attachment.
+   * already attached), so a replacement either happens whole or not at all. Returns the new attachment. Throws
+   * `dataset_changed` (server/store/errors.ts) and writes nothing when `oldId` is no longer attached (another request
+   * replaced or removed it first).
    */
   replaceProjectDataset(projectId: string, oldId: string, newId: string, name: string): Promise<ProjectDatasetRecord>;
   /** Detaches a data set from a project; false when it was not attached. */
